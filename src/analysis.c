@@ -1,0 +1,407 @@
+/* analysis.c — operating point: assemble, check the topology, factor, solve with
+ * iterative refinement, derive part results; quantities and checks. */
+#include "analysis.h"
+#include "elab.h"
+
+#include <float.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#ifdef LS_HAVE_SPARSE
+#include "sparse.h"
+#endif
+
+/* Dense LU up to this many unknowns when the solver is chosen automatically. */
+#define AUTO_DENSE_LIMIT 1500
+#define RCOND_WARN 1e-11
+#define RESIDUAL_WARN 1e-9
+
+
+static double residual_of(const ls_csc *a, const double *x, const double *b, double *r, double anorm)
+{
+    int n = a->n;
+    ls_csc_matvec(a, x, r, 0);
+    double rn = 0, xn = 0, bn = 0;
+    for (int i = 0; i < n; i++) {
+        r[i] = b[i] - r[i];
+        rn = fmax(rn, fabs(r[i]));
+        xn = fmax(xn, fabs(x[i]));
+        bn = fmax(bn, fabs(b[i]));
+    }
+    double den = anorm * xn + bn;
+    return den > 0 ? rn / den : rn;
+}
+
+/* Solve with the factorization, then refine against the exact matrix. */
+static int refined_solve(ls_op *op, double *b, int transpose, double *residual_out, int *iters)
+{
+    const ls_csc *a = &op->mna.a;
+    int n = a->n;
+    double *rhs = malloc((size_t)(n ? n : 1) * sizeof *rhs);
+    double *r = malloc((size_t)(n ? n : 1) * sizeof *r);
+    double *x = b;
+    if (!rhs || !r) {
+        free(rhs);
+        free(r);
+        return LS_SOLVER_NOMEM;
+    }
+    memcpy(rhs, b, (size_t)n * sizeof *rhs);
+    int st = ls_solver_solve(op->solver, x, transpose);
+    double anorm = 0;
+    for (int p = 0; p < ls_csc_nnz(a); p++)
+        anorm = fmax(anorm, fabs(a->val[p]));
+    anorm *= 1; /* a cheap bound is enough for the stopping test */
+    double res = INFINITY;
+    int k = 0;
+    for (; st == LS_SOLVER_OK && k < 4; k++) {
+        double nr;
+        if (!transpose) {
+            nr = residual_of(a, x, rhs, r, anorm);
+        } else {
+            ls_csc_matvec(a, x, r, 1);
+            double rn = 0, xn = 0, bn = 0;
+            for (int i = 0; i < n; i++) {
+                r[i] = rhs[i] - r[i];
+                rn = fmax(rn, fabs(r[i]));
+                xn = fmax(xn, fabs(x[i]));
+                bn = fmax(bn, fabs(rhs[i]));
+            }
+            nr = anorm * xn + bn > 0 ? rn / (anorm * xn + bn) : rn;
+        }
+        if (!(nr < res * 0.5) && k > 0) {
+            res = fmin(res, nr);
+            break;
+        }
+        res = nr;
+        if (res <= DBL_EPSILON)
+            break;
+        st = ls_solver_solve(op->solver, r, transpose);
+        for (int i = 0; i < n && st == LS_SOLVER_OK; i++)
+            x[i] += r[i];
+    }
+    if (residual_out)
+        *residual_out = res;
+    if (iters)
+        *iters = k;
+    free(rhs);
+    free(r);
+    return st;
+}
+
+int ls_op_solve_vec(ls_op *op, double *b, int transpose)
+{
+    return refined_solve(op, b, transpose, NULL, NULL);
+}
+
+static void widest_spread(const ls_netlist *nl, char *buf, size_t n)
+{
+    int lo = -1, hi = -1;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (strcmp(p->kind->name, "resistor") != 0)
+            continue;
+        if (lo < 0 || p->value < nl->parts[lo].value)
+            lo = i;
+        if (hi < 0 || p->value > nl->parts[hi].value)
+            hi = i;
+    }
+    if (lo >= 0 && hi != lo)
+        snprintf(buf, n, "; the widest spread of values is resistor '%s' (%.4g ohm) against '%s' (%.4g ohm)",
+                 nl->parts[lo].name, nl->parts[lo].value, nl->parts[hi].name, nl->parts[hi].value);
+    else
+        buf[0] = 0;
+}
+
+static void report_singular(ls_op *op, int col)
+{
+    const ls_netlist *nl = op->nl;
+    char what[300];
+    ls_unknown_desc(&op->mna, col, what, sizeof what);
+    ls_loc at = LS_NOLOC;
+    const char *hint = "";
+    if (col >= 0 && col < op->mna.nn) {
+        at = nl->nodes[col + 1].loc;
+        hint = " (is its voltage set by anything? an ideal op-amp sets its inputs equal only with negative feedback)";
+    } else if (col >= op->mna.nn && col < op->mna.n) {
+        const ls_part *p = &nl->parts[op->mna.branch_part[col - op->mna.nn]];
+        at = p->loc;
+        if (p->kind->is_opamp)
+            hint = " (an ideal op-amp needs negative feedback, a path from out back to minus)";
+        else
+            hint = " (controlled sources whose gains cancel, or a source whose current nothing limits)";
+    }
+    ls_error(nl->diags, at, "the circuit cannot be solved: the equations are singular at %s%s", what, hint);
+}
+
+static const ls_backend *pick_backend(ls_op *op, ls_method *m)
+{
+    int n = op->mna.n;
+    bool dense = op->opt.solver == LS_CHOOSE_DENSE || (op->opt.solver == LS_CHOOSE_AUTO && n <= AUTO_DENSE_LIMIT);
+#ifdef LS_HAVE_SPARSE
+    if (!dense)
+        return ls_sparse_pick(&op->mna.a, m);
+#else
+    (void)dense;
+#endif
+    *m = LS_METHOD_DENSE_LU;
+    return &ls_backend_dense;
+}
+
+static int factor(ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    ls_method m;
+    const ls_backend *be = pick_backend(op, &m);
+    for (int attempt = 0; attempt < 2; attempt++) {
+        op->solver = ls_solver_new(be, m);
+        if (!op->solver) {
+            ls_error(nl->diags, LS_NOLOC, "out of memory creating the solver");
+            return LS_EXIT_UNSOLVABLE;
+        }
+        int st = ls_solver_analyze(op->solver, &op->mna.a);
+        if (st == LS_SOLVER_OK)
+            st = ls_solver_factor(op->solver, &op->mna.a);
+        const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
+        op->method = m;
+        op->rcond = ss->rcond;
+        if (st == LS_SOLVER_OK)
+            return LS_EXIT_OK;
+#ifdef LS_HAVE_SPARSE
+        if (st == LS_SOLVER_NOT_SPD && attempt == 0) {
+            ls_solver_free(&op->solver);
+            be = &ls_backend_klu;
+            m = LS_METHOD_SPARSE_LU;
+            continue;
+        }
+#endif
+        if (st == LS_SOLVER_TOO_LARGE || st == LS_SOLVER_NOMEM) {
+            ls_error(nl->diags, LS_NOLOC,
+                     "the system has %d unknowns; the dense solver would need %.1f MB%s", op->mna.n,
+                     ss->bytes_needed / 1e6,
+                     st == LS_SOLVER_TOO_LARGE ? " and takes at most " "8000 unknowns: use --solver sparse"
+                                               : ", more memory than is available");
+            return LS_EXIT_UNSOLVABLE;
+        }
+        if (st == LS_SOLVER_SINGULAR) {
+            report_singular(op, ss->bad_column);
+            return LS_EXIT_UNSOLVABLE;
+        }
+        ls_error(nl->diags, LS_NOLOC, "the linear solver (%s) failed", ss->library);
+        return LS_EXIT_UNSOLVABLE;
+    }
+    return LS_EXIT_UNSOLVABLE;
+}
+
+static void part_results(ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        ls_lin l;
+        ls_part_current(p, nl, &l, false);
+        double cur = ls_lin_eval(&l, op->x);
+        double vv, drop;
+        if (p->kind->vsign == VSIGN_OUT) {
+            vv = op->v[p->pin[2]];
+            drop = -vv;
+        } else {
+            drop = op->v[p->pin[0]] - op->v[p->pin[1]];
+            vv = p->kind->vsign == VSIGN_RISE ? -drop : drop;
+        }
+        op->ipart[i] = cur;
+        op->vpart[i] = vv;
+        op->ppart[i] = drop * cur;
+    }
+}
+
+static int alloc_results(ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    size_t n = (size_t)(op->mna.n ? op->mna.n : 1), np = (size_t)(nl->nparts ? nl->nparts : 1);
+    op->x = calloc(n, sizeof *op->x);
+    op->v = calloc((size_t)nl->nnodes, sizeof *op->v);
+    op->ipart = calloc(np, sizeof *op->ipart);
+    op->vpart = calloc(np, sizeof *op->vpart);
+    op->ppart = calloc(np, sizeof *op->ppart);
+    op->port = calloc(np, sizeof *op->port);
+    return op->x && op->v && op->ipart && op->vpart && op->ppart && op->port ? 0 : -1;
+}
+
+int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
+{
+    memset(op, 0, sizeof *op);
+    op->nl = nl;
+    op->opt = *o;
+    if (ls_topology_check(nl))
+        return LS_EXIT_UNSOLVABLE;
+    if (ls_mna_build(&op->mna, nl) != 0 || alloc_results(op) != 0) {
+        ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
+        return LS_EXIT_UNSOLVABLE;
+    }
+    int r = factor(op);
+    if (r != LS_EXIT_OK)
+        return r;
+    memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
+    if (refined_solve(op, op->x, 0, &op->residual, &op->iterations) != LS_SOLVER_OK) {
+        ls_error(nl->diags, LS_NOLOC, "the linear solver failed while solving");
+        return LS_EXIT_UNSOLVABLE;
+    }
+    for (int i = 1; i < nl->nnodes; i++)
+        op->v[i] = op->x[i - 1];
+    part_results(op);
+    /* Pins for floating nodes in modified systems: a conductance on the scale of
+     * the circuit's own, so the update stays well conditioned. */
+    double dsum = 0;
+    int dn = 0;
+    for (int j = 0; j < op->mna.nn; j++)
+        for (int p = op->mna.a.colptr[j]; p < op->mna.a.colptr[j + 1]; p++)
+            if (op->mna.a.rowind[p] == j && op->mna.a.val[p] > 0) {
+                dsum += op->mna.a.val[p];
+                dn++;
+            }
+    op->g_pin = dn ? dsum / dn : 1;
+    if (op->rcond < RCOND_WARN) {
+        char spread[400];
+        widest_spread(nl, spread, sizeof spread);
+        ls_warning(nl->diags, LS_NOLOC, "ill-conditioned",
+                   "the system is ill-conditioned (reciprocal condition %.2g): results may carry few correct digits%s",
+                   op->rcond, spread);
+    }
+    if (!(op->residual <= RESIDUAL_WARN))
+        ls_warning(nl->diags, LS_NOLOC, "inaccurate",
+                   "the solution's relative residual is %.2g: treat the results as approximate", op->residual);
+    return LS_EXIT_OK;
+}
+
+int ls_op_resolve(ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    if (ls_mna_restamp(&op->mna) != 0)
+        return LS_EXIT_UNSOLVABLE;
+    int st = ls_solver_factor(op->solver, &op->mna.a);
+    const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
+    op->rcond = ss->rcond;
+    if (st == LS_SOLVER_SINGULAR) {
+        report_singular(op, ss->bad_column);
+        return LS_EXIT_UNSOLVABLE;
+    }
+    if (st != LS_SOLVER_OK)
+        return LS_EXIT_UNSOLVABLE;
+    memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
+    if (refined_solve(op, op->x, 0, &op->residual, &op->iterations) != LS_SOLVER_OK)
+        return LS_EXIT_UNSOLVABLE;
+    for (int i = 1; i < nl->nnodes; i++)
+        op->v[i] = op->x[i - 1];
+    part_results(op);
+    for (int i = 0; i < nl->nparts; i++)
+        op->port[i].done = false;
+    return LS_EXIT_OK;
+}
+
+void ls_op_free(ls_op *op)
+{
+    ls_solver_free(&op->solver);
+    ls_mna_free(&op->mna);
+    free(op->x);
+    free(op->v);
+    free(op->ipart);
+    free(op->vpart);
+    free(op->ppart);
+    free(op->port);
+    free(op->tin);
+    free(op->tout);
+    free(op->low);
+    free(op->bridge_part);
+    free(op->bridge_child);
+    free(op->order);
+    memset(op, 0, sizeof *op);
+}
+
+double ls_op_min_ratio(const ls_op *op)
+{
+    if (op->opt.min_ratio > 0)
+        return op->opt.min_ratio;
+    return op->nl->min_ratio > 0 ? op->nl->min_ratio : 10;
+}
+
+/* ---- quantities ----------------------------------------------------------------------- */
+
+static double prop_value(ls_op *op, int part, ls_prop prop)
+{
+    const ls_port_result *pr;
+    switch (prop) {
+    case PROP_CURRENT: return op->ipart[part];
+    case PROP_VOLTAGE: return op->vpart[part];
+    case PROP_POWER: return op->ppart[part];
+    default: break;
+    }
+    pr = ls_op_port(op, part);
+    if (!pr)
+        return NAN;
+    switch (prop) {
+    case PROP_OPEN: return pr->open;
+    case PROP_LOADED: return pr->loaded;
+    case PROP_SAG: return pr->sag;
+    case PROP_SAG_REL: return pr->sag_rel;
+    case PROP_ZOUT: return pr->zout;
+    case PROP_ZIN: return pr->zin;
+    case PROP_RATIO: return pr->ratio;
+    default: return NAN;
+    }
+}
+
+double ls_q_eval(ls_op *op, const ls_q *q)
+{
+    switch (q->kind) {
+    case Q_CONST: return q->value;
+    case Q_NODE: return op->v[q->index];
+    case Q_PROP: return prop_value(op, q->index, q->prop);
+    case Q_NEG: return -ls_q_eval(op, q->a);
+    case Q_BIN: return ls_apply_op(q->op, ls_q_eval(op, q->a), ls_q_eval(op, q->b));
+    case Q_CALL: {
+        double v[8];
+        for (int i = 0; i < q->nargs && i < 8; i++)
+            v[i] = ls_q_eval(op, q->args[i]);
+        return ls_apply_func(q->op, v, q->nargs);
+    }
+    }
+    return NAN;
+}
+
+void ls_check_eval(ls_op *op, const ls_check *c, ls_check_result *r)
+{
+    memset(r, 0, sizeof *r);
+    double L = ls_q_eval(op, c->lhs), R = ls_q_eval(op, c->rhs);
+    r->value = L;
+    r->lo = -INFINITY;
+    r->hi = INFINITY;
+    switch (c->cmp) {
+    case CMP_EQ: {
+        double w = ls_q_eval(op, c->within);
+        double tol = c->relative ? fabs(w * R) : fabs(w);
+        r->lo = R - tol;
+        r->hi = R + tol;
+        r->pass = fabs(L - R) <= tol || L == R;
+        break;
+    }
+    case CMP_LT: r->hi = R; r->pass = L < R; break;
+    case CMP_LE: r->hi = R; r->pass = L <= R; break;
+    case CMP_GT: r->lo = R; r->pass = L > R; break;
+    case CMP_GE: r->lo = R; r->pass = L >= R; break;
+    case CMP_BETWEEN: {
+        double H = ls_q_eval(op, c->rhs2);
+        r->lo = fmin(R, H);
+        r->hi = fmax(R, H);
+        r->pass = L >= r->lo && L <= r->hi;
+        break;
+    }
+    }
+    if (isnan(L)) {
+        r->pass = false;
+        r->reason = "the value is undefined (0/0)";
+    } else if (isnan(R) || isnan(r->lo) || isnan(r->hi)) {
+        r->pass = false;
+        r->reason = "the limit is undefined (0/0)";
+    }
+}

@@ -1,0 +1,105 @@
+/* analysis.h — the analyses on a solved circuit: operating point, ports,
+ * quantities and checks.  An ls_op owns one factored MNA system; the port,
+ * sag, Thevenin and sensitivity analyses reuse its factorization. */
+#ifndef LS_ANALYSIS_H
+#define LS_ANALYSIS_H
+
+#include "mna.h"
+
+typedef enum ls_solver_choice { LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE } ls_solver_choice;
+
+typedef struct ls_options {
+    ls_solver_choice solver;
+    double min_ratio;       /* <= 0: the circuit's rule, else 10 */
+    double derate;          /* rating multiplier, default 1 */
+} ls_options;
+
+typedef enum ls_verdict { VERDICT_OK, VERDICT_MARGINAL, VERDICT_LOADING } ls_verdict;
+
+typedef struct ls_port_result {
+    bool done;
+    bool current_mode;
+    double open, loaded, sag, sag_rel, zout, zin, ratio, current;  /* NaN undefined, inf unbounded */
+    ls_verdict verdict;
+    const char *note;        /* why a field is undefined, or NULL */
+} ls_port_result;
+
+typedef struct ls_op {
+    const ls_netlist *nl;
+    ls_options opt;
+    ls_mna mna;
+    ls_solver *solver;
+    ls_method method;
+    double *x;               /* unknowns */
+    double *v;               /* node voltages, v[0] = 0 */
+    double *ipart, *vpart, *ppart;   /* per part: current (A), voltage (V), absorbed power (W) */
+    double rcond, residual;
+    int iterations;
+    double g_pin;            /* conductance used to pin floating nodes in modified systems */
+    ls_port_result *port;    /* per part index; valid for ports */
+    /* DFS over DC paths from ground, for bridge tests when parts are removed */
+    int *tin, *tout, *low;
+    bool *bridge_part;       /* removing this part's (single) edge floats nodes */
+    int *bridge_child;       /* the DFS child endpoint of that bridge */
+    int *order;              /* nodes by tin */
+} ls_op;
+
+/* Exit codes of the program (cli.md). */
+enum { LS_EXIT_OK = 0, LS_EXIT_CHECK = 1, LS_EXIT_USAGE = 2, LS_EXIT_UNSOLVABLE = 3 };
+
+/* Assemble, check the topology, factor and solve.  Returns LS_EXIT_OK, or
+ * LS_EXIT_UNSOLVABLE / LS_EXIT_USAGE after reporting the reason. */
+int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o);
+/* Re-solve after part values (not the structure) changed: restamp, refactor
+ * reusing the symbolic analysis, solve.  Port results are recomputed on demand. */
+int ls_op_resolve(ls_op *op);
+void ls_op_free(ls_op *op);
+double ls_op_min_ratio(const ls_op *op);
+
+/* Solve A x = b (or A^T) in place with the op's factorization, refined. */
+int ls_op_solve_vec(ls_op *op, double *b, int transpose);
+
+/* The loading report of port part index p (computed once, then cached). */
+const ls_port_result *ls_op_port(ls_op *op, int p);
+
+/* Value of a bound quantity (NaN undefined, +-inf unbounded). */
+double ls_q_eval(ls_op *op, const ls_q *q);
+
+typedef struct ls_check_result {
+    double value, lo, hi;    /* the left side; the accepted range */
+    bool pass;
+    const char *reason;      /* when it fails for being undefined */
+} ls_check_result;
+
+void ls_check_eval(ls_op *op, const ls_check *c, ls_check_result *r);
+
+/* ---- modified systems (low-rank updates of the factored system) ---- */
+
+/* A modification of the base system A x = b: a few changed rows (and rhs
+ * entries), solved through the Woodbury identity with the base factorization,
+ * or through a fresh factorization when the rank is large. */
+typedef struct ls_mod ls_mod;
+
+typedef enum ls_mod_kind { MOD_REMOVE_PART, MOD_SHORT_PORT_TO_GROUND } ls_mod_kind;
+
+/* Build the modification "part p removed" (a port opened).  Never NULL unless
+ * out of memory; check ls_mod_singular. */
+ls_mod *ls_mod_new(ls_op *op, int part, ls_mod_kind kind);
+bool ls_mod_singular(const ls_mod *m);
+/* Solution of the modified system (n values, owned by m). */
+const double *ls_mod_x(ls_mod *m);
+/* y <- A'^{-1} y. */
+int ls_mod_solve(ls_mod *m, double *y);
+/* Does node voltage `node` of the modified system depend on the voltages of
+ * nodes the modification left floating?  (Then it is undefined.) */
+bool ls_mod_depends_on_floating(ls_mod *m, int node);
+bool ls_mod_is_floating(const ls_mod *m, int node);
+/* Driving-point resistance at node in the modified system, sources zeroed:
+ * (A'^{-1})_{node,node}; +inf when the node floats. */
+double ls_mod_zdrive(ls_mod *m, int node);
+void ls_mod_free(ls_mod **m);
+
+/* Driving-point resistance at node in the base system. */
+double ls_op_zdrive(ls_op *op, int node);
+
+#endif

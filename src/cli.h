@@ -1,0 +1,73 @@
+/* cli.h — command-line options shared by the commands. */
+#ifndef LS_CLI_H
+#define LS_CLI_H
+
+#include <stdbool.h>
+#include <stdio.h>
+
+#include "analysis.h"
+#include "report.h"
+
+#define LS_MAX_SETS 256
+#define LS_MAX_POS 16
+
+typedef struct ls_cli {
+    const char *command;
+    const char *pos[LS_MAX_POS];   /* positional arguments after the command */
+    int npos;
+    const char *sets[LS_MAX_SETS];
+    int nsets;
+    ls_format fmt;
+    const char *output;
+    double min_ratio;
+    bool ascii, help;
+    ls_solver_choice solver;
+    double derate;
+    /* command options */
+    const char *load, *meter;          /* thevenin */
+    const char *series, *total, *zout; /* pick */
+    long trials;                       /* tol */
+    unsigned long long seed;
+    const char *dist;
+    const char *plot;                  /* tol, sweep */
+    int steps;                         /* sweep */
+    bool log;
+    int threads;
+} ls_cli;
+
+/* Everything a command needs from a loaded circuit. */
+typedef struct ls_session {
+    ls_arena arena;
+    ls_diags diags;
+    ls_program prog;
+    ls_netlist nl;
+    ls_op op;
+    bool have_op;
+    ls_cli *cli;
+    const char *input_path;
+} ls_session;
+
+/* Load FILE (or the demo text): parse, apply --set, elaborate.  Returns an exit code. */
+int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *text);
+/* Solve the operating point.  Returns an exit code. */
+int ls_session_solve(ls_session *s);
+void ls_session_free(ls_session *s);
+
+/* Open the report destination: stdout, or a temporary file beside --output. */
+FILE *ls_out_open(ls_session *s, char **tmp_path);
+/* Finish: flush, check, rename into place.  Returns an exit code. */
+int ls_out_close(ls_session *s, FILE *f, char *tmp_path, int code);
+
+/* Parse a number with units from text (for --load 10k, --min-ratio 10 ...). */
+bool ls_cli_number(const char *text, double *v);
+
+int ls_cmd_solve(ls_cli *cli);
+int ls_cmd_check(ls_cli *cli);
+int ls_cmd_demo(ls_cli *cli);
+int ls_cmd_sag(ls_cli *cli);
+int ls_cmd_thevenin(ls_cli *cli);
+int ls_cmd_sens(ls_cli *cli);
+
+extern const char ls_demo_text[];
+
+#endif

@@ -1,0 +1,181 @@
+/* diag.c — diagnostics: collection and printing with the source line and a caret. */
+#include "diag.h"
+
+#include <stdarg.h>
+#include <stdlib.h>
+#include <string.h>
+
+void ls_diags_init(ls_diags *d, ls_arena *a)
+{
+    memset(d, 0, sizeof *d);
+    d->arena = a;
+    d->max_errors = 200;
+}
+
+void ls_diags_free(ls_diags *d)
+{
+    for (int i = 0; i < d->nfiles; i++)
+        free(d->files[i].line_start);
+    free(d->files);
+    free(d->items);
+    memset(d, 0, sizeof *d);
+}
+
+int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len)
+{
+    if (d->nfiles == d->cap_files) {
+        int cap = d->cap_files ? d->cap_files * 2 : 8;
+        ls_file *f = realloc(d->files, (size_t)cap * sizeof *f);
+        if (!f)
+            return -1;
+        d->files = f;
+        d->cap_files = cap;
+    }
+    ls_file *f = &d->files[d->nfiles];
+    f->path = ls_arena_strdup(d->arena, path);
+    f->text = ls_arena_strndup(d->arena, text, len);
+    f->len = len;
+    int lines = 1;
+    for (unsigned i = 0; i < len; i++)
+        lines += text[i] == '\n';
+    f->line_start = malloc((size_t)lines * sizeof *f->line_start);
+    if (!f->path || !f->text || !f->line_start) {
+        free(f->line_start);
+        return -1;
+    }
+    int k = 0;
+    f->line_start[k++] = 0;
+    for (unsigned i = 0; i < len; i++)
+        if (text[i] == '\n')
+            f->line_start[k++] = i + 1;
+    f->nlines = lines;
+    return d->nfiles++;
+}
+
+void ls_loc_linecol(const ls_diags *d, int file, unsigned off, int *line, int *col)
+{
+    const ls_file *f = &d->files[file];
+    int lo = 0, hi = f->nlines - 1;
+    while (lo < hi) { /* last line starting at or before off */
+        int mid = (lo + hi + 1) / 2;
+        if (f->line_start[mid] <= off)
+            lo = mid;
+        else
+            hi = mid - 1;
+    }
+    int c = 1;
+    for (unsigned i = f->line_start[lo]; i < off && i < f->len; i++)
+        c += ((unsigned char)f->text[i] & 0xC0) != 0x80;
+    *line = lo + 1;
+    *col = c;
+}
+
+static void add(ls_diags *d, ls_severity sev, ls_loc loc, const char *code,
+                const char *fmt, va_list ap)
+{
+    if (sev == LS_SEV_ERROR) {
+        d->errors++;
+        if (d->errors > d->max_errors)
+            return;
+    } else if (sev == LS_SEV_WARNING) {
+        d->warnings++;
+    }
+    if (d->n == d->cap) {
+        int cap = d->cap ? d->cap * 2 : 16;
+        ls_diag *p = realloc(d->items, (size_t)cap * sizeof *p);
+        if (!p)
+            return;
+        d->items = p;
+        d->cap = cap;
+    }
+    char buf[1024];
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    ls_diag *g = &d->items[d->n++];
+    g->sev = sev;
+    g->loc = loc;
+    g->code = code;
+    g->msg = ls_arena_strdup(d->arena, buf);
+    if (!g->msg)
+        g->msg = "out of memory";
+}
+
+void ls_error(ls_diags *d, ls_loc loc, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    add(d, LS_SEV_ERROR, loc, NULL, fmt, ap);
+    va_end(ap);
+}
+
+void ls_warning(ls_diags *d, ls_loc loc, const char *code, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    add(d, LS_SEV_WARNING, loc, code, fmt, ap);
+    va_end(ap);
+}
+
+void ls_note(ls_diags *d, ls_loc loc, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    add(d, LS_SEV_NOTE, loc, NULL, fmt, ap);
+    va_end(ap);
+}
+
+char *ls_loc_str(const ls_diags *d, ls_loc loc, char *buf, size_t n)
+{
+    if (loc.file < 0 || loc.file >= d->nfiles) {
+        if (n)
+            buf[0] = 0;
+        return buf;
+    }
+    int line, col;
+    ls_loc_linecol(d, loc.file, loc.start, &line, &col);
+    snprintf(buf, n, "%s:%d:%d", d->files[loc.file].path, line, col);
+    return buf;
+}
+
+/* The source line of a location, then a caret under its first character
+ * (tabs kept so the caret lines up). */
+static void print_excerpt(const ls_diags *d, ls_loc loc, FILE *out)
+{
+    const ls_file *f = &d->files[loc.file];
+    int line, col;
+    ls_loc_linecol(d, loc.file, loc.start, &line, &col);
+    unsigned s = f->line_start[line - 1], e = s;
+    while (e < f->len && f->text[e] != '\n' && f->text[e] != '\r')
+        e++;
+    if (e - s > 400) /* a pathological line: show a window around the column */
+        e = s + 400 < loc.start + 40 ? loc.start + 40 : s + 400;
+    if (e > f->len)
+        e = f->len;
+    fputs("    ", out);
+    fwrite(f->text + s, 1, e - s, out);
+    fputs("\n    ", out);
+    for (unsigned i = s; i < loc.start && i < e; i++) {
+        unsigned char c = (unsigned char)f->text[i];
+        if ((c & 0xC0) == 0x80)
+            continue;
+        fputc(c == '\t' ? '\t' : ' ', out);
+    }
+    fputs("^\n", out);
+}
+
+void ls_diags_print(const ls_diags *d, FILE *out)
+{
+    static const char *const sev[] = {"note", "warning", "error"};
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (g->loc.file >= 0) {
+            char where[512];
+            fprintf(out, "%s: %s: %s\n", ls_loc_str(d, g->loc, where, sizeof where),
+                    sev[g->sev], g->msg);
+            print_excerpt(d, g->loc, out);
+        } else {
+            fprintf(out, "loadstack: %s: %s\n", sev[g->sev], g->msg);
+        }
+    }
+    if (d->errors > d->max_errors)
+        fprintf(out, "loadstack: note: %d more errors not shown\n", d->errors - d->max_errors);
+}

@@ -1,0 +1,1244 @@
+/* elab.c — elaboration: expand blocks, resolve names, check units, evaluate
+ * values and bind the checks.  Errors are collected; elaboration goes on past
+ * them so one run reports as much as it can. */
+#include "elab.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "lexer.h"
+#include "parts.h"
+
+typedef struct scope {
+    const char *prefix;         /* "" at the top level, else the instance path */
+    const ls_stmt *block;       /* the block being expanded, NULL at the top */
+    const struct scope *up;
+    int depth;
+} scope;
+
+typedef struct elab {
+    ls_netlist *nl;
+    ls_diags *d;
+    ls_arena *a;
+    ls_hash blocks;             /* block name -> index into blockv */
+    const ls_stmt **blockv;
+    int nblocks;
+    ls_setting *sets;
+    int nsets;
+    ls_hash warned;             /* "block\x1fname" already warned about */
+    struct { int node; const ls_stmt *block; const char *base; ls_loc loc; } *locals;
+    int nlocals, cap_locals;
+} elab;
+
+/* ---- growable arrays ---------------------------------------------------------- */
+
+static bool grow(void **v, int *cap, int need, size_t elem)
+{
+    if (need <= *cap)
+        return true;
+    int c = *cap ? *cap : 64;
+    while (c < need)
+        c *= 2;
+    void *p = realloc(*v, (size_t)c * elem);
+    if (!p)
+        return false;
+    *v = p;
+    *cap = c;
+    return true;
+}
+
+void ls_netlist_free(ls_netlist *nl)
+{
+    free(nl->nodes);
+    free(nl->parts);
+    free(nl->checks);
+    free(nl->params);
+    free(nl->ents);
+    ls_hash_free(&nl->names);
+    memset(nl, 0, sizeof *nl);
+}
+
+int ls_netlist_find_part(const ls_netlist *nl, const char *name)
+{
+    int e = ls_hash_get(&nl->names, name);
+    return e >= 0 && nl->ents[e].kind == ENT_PART ? nl->ents[e].index : -1;
+}
+
+int ls_netlist_find_node(const ls_netlist *nl, const char *name)
+{
+    int e = ls_hash_get(&nl->names, name);
+    if (e < 0)
+        return -1;
+    if (nl->ents[e].kind == ENT_NODE || nl->ents[e].kind == ENT_ALIAS)
+        return nl->ents[e].index;
+    return -1;
+}
+
+/* ---- names ----------------------------------------------------------------------- */
+
+static const char *qualify(elab *x, const scope *s, const char *name)
+{
+    if (!s->prefix[0])
+        return name;
+    return ls_arena_printf(x->a, "%s.%s", s->prefix, name);
+}
+
+static const char *ent_what(ls_ent_kind k)
+{
+    static const char *const w[] = {"node", "pin", "part", "instance", "parameter", "block"};
+    return w[k];
+}
+
+static void note_decl(elab *x, ls_loc loc, const char *name)
+{
+    if (loc.file >= 0)
+        ls_note(x->d, loc, "'%s' was declared here", name);
+}
+
+/* Declare a name in its scope; a clash is an error naming both places.
+ * Returns the entity index, or -1. */
+static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_loc loc)
+{
+    ls_netlist *nl = x->nl;
+    if (strlen(full) > LS_MAX_NAME_BYTES) {
+        ls_error(x->d, loc, "name is longer than %d bytes", LS_MAX_NAME_BYTES);
+        return -1;
+    }
+    int e = ls_hash_get(&nl->names, full);
+    if (e >= 0) {
+        ls_entity *o = &nl->ents[e];
+        ls_error(x->d, loc, "'%s' is already declared as a %s", full, ent_what(o->kind));
+        note_decl(x, o->loc, full);
+        return -1;
+    }
+    if (!grow((void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
+        return -1;
+    e = nl->nents++;
+    nl->ents[e] = (ls_entity){kind, index, loc};
+    if (ls_hash_put(&nl->names, full, e) != 0)
+        return -1;
+    return e;
+}
+
+static int new_node(elab *x, const char *full, ls_loc loc, int depth)
+{
+    ls_netlist *nl = x->nl;
+    if (!grow((void **)&nl->nodes, &nl->cap_nodes, nl->nnodes + 1, sizeof *nl->nodes))
+        return -1;
+    int i = nl->nnodes++;
+    nl->nodes[i] = (ls_node){.name = full, .loc = loc, .scope_depth = depth};
+    if (declare(x, full, ENT_NODE, i, loc) < 0) {
+        nl->nnodes--;
+        return -1;
+    }
+    return i;
+}
+
+/* The node a name stands for in scope s, made on first use. */
+static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
+{
+    ls_netlist *nl = x->nl;
+    if (strcmp(name, "ground") == 0 || (nl->ground_name && strcmp(name, nl->ground_name) == 0))
+        return 0;
+    const char *full = qualify(x, s, name);
+    int e = ls_hash_get(&nl->names, full);
+    bool dotted = strchr(name, '.') != NULL;
+    if (e >= 0) {
+        ls_entity *o = &nl->ents[e];
+        if (o->kind == ENT_NODE || o->kind == ENT_ALIAS) {
+            if (o->kind == ENT_NODE && !dotted && s->block)
+                nl->nodes[o->index].claimed = true;
+            return o->index;
+        }
+        ls_error(x->d, loc, "'%s' is a %s, not a node", name, ent_what(o->kind));
+        note_decl(x, o->loc, full);
+        return -1;
+    }
+    int i = new_node(x, full, loc, s->depth);
+    if (i < 0)
+        return -1;
+    if (dotted) {
+        nl->nodes[i].dotted_ref = true;
+    } else if (s->block) {
+        nl->nodes[i].claimed = true;
+        if (grow((void **)&x->locals, &x->cap_locals, x->nlocals + 1, sizeof *x->locals)) {
+            x->locals[x->nlocals].node = i;
+            x->locals[x->nlocals].block = s->block;
+            x->locals[x->nlocals].base = name;
+            x->locals[x->nlocals].loc = loc;
+            x->nlocals++;
+        }
+    }
+    return i;
+}
+
+/* A parameter visible from scope s: its own, else the top level's. */
+static const ls_param *param_ref(elab *x, const scope *s, const char *name)
+{
+    ls_netlist *nl = x->nl;
+    int e = ls_hash_get(&nl->names, qualify(x, s, name));
+    if (e >= 0 && nl->ents[e].kind == ENT_PARAM)
+        return &nl->params[nl->ents[e].index];
+    if (s->prefix[0]) {
+        e = ls_hash_get(&nl->names, name);
+        if (e >= 0 && nl->ents[e].kind == ENT_PARAM)
+            return &nl->params[nl->ents[e].index];
+    }
+    return NULL;
+}
+
+static int add_param(elab *x, const scope *s, const char *name, double v, ls_dims d, ls_loc loc)
+{
+    ls_netlist *nl = x->nl;
+    if (!grow((void **)&nl->params, &nl->cap_params, nl->nparams + 1, sizeof *nl->params))
+        return -1;
+    int i = nl->nparams++;
+    nl->params[i] = (ls_param){v, d, loc};
+    if (declare(x, qualify(x, s, name), ENT_PARAM, i, loc) < 0)
+        return -1;
+    return i;
+}
+
+/* ---- dimensions -------------------------------------------------------------------- */
+
+static const char *dname(ls_dims d, char *buf, size_t n)
+{
+    return ls_dims_name(d, buf, n);
+}
+
+/* The source text of a location (for messages), shortened. */
+static const char *src_text(elab *x, ls_loc l)
+{
+    if (l.file < 0)
+        return "";
+    const ls_file *f = &x->d->files[l.file];
+    unsigned n = l.end > l.start ? l.end - l.start : 0;
+    if (n > 60)
+        n = 60;
+    return ls_arena_strndup(x->a, f->text + l.start, n);
+}
+
+static ls_dims norm(ls_dims d)
+{
+    if (d.known && d.v == 0 && d.a == 0)
+        return LS_FREE;
+    return d;
+}
+
+/* Dimensions of `a op b`; reports a mismatch at the operator.  Free adopts. */
+static bool combine(elab *x, int op, ls_loc at, ls_dims a, ls_dims b, const ls_expr *eb, ls_dims *out)
+{
+    char b1[64], b2[64];
+    switch (op) {
+    case T_PLUS:
+    case T_MINUS:
+    case T_PARALLEL:
+        if (a.known && b.known && (a.v != b.v || a.a != b.a)) {
+            ls_error(x->d, at, "cannot %s %s and %s",
+                     op == T_PLUS ? "add" : op == T_MINUS ? "subtract" : "put in parallel",
+                     dname(a, b1, sizeof b1), dname(b, b2, sizeof b2));
+            return false;
+        }
+        *out = a.known ? a : b;
+        return true;
+    case T_STAR:
+        *out = norm((ls_dims){(signed char)(a.v + b.v), (signed char)(a.a + b.a), a.known || b.known});
+        return true;
+    case T_SLASH:
+        *out = norm((ls_dims){(signed char)(a.v - b.v), (signed char)(a.a - b.a), a.known || b.known});
+        return true;
+    case T_CARET:
+        if (b.known) {
+            ls_error(x->d, at, "an exponent must be a pure number, got %s", dname(b, b1, sizeof b1));
+            return false;
+        }
+        if (!a.known) {
+            *out = LS_FREE;
+            return true;
+        }
+        if (eb->kind == E_NUM && eb->num == floor(eb->num) && fabs(eb->num) <= 8) {
+            int k = (int)eb->num;
+            *out = norm((ls_dims){(signed char)(a.v * k), (signed char)(a.a * k), true});
+            return true;
+        }
+        ls_error(x->d, at, "%s can only be raised to a whole constant power", dname(a, b1, sizeof b1));
+        return false;
+    }
+    return false;
+}
+
+static bool call_dims(elab *x, const ls_expr *e, const ls_dims *ad, ls_dims *out)
+{
+    char b[64];
+    switch (e->op) {
+    case F_SQRT:
+        if (ad[0].known && (ad[0].v % 2 || ad[0].a % 2)) {
+            ls_error(x->d, e->loc, "sqrt of %s has no unit", dname(ad[0], b, sizeof b));
+            return false;
+        }
+        *out = ad[0].known ? (ls_dims){(signed char)(ad[0].v / 2), (signed char)(ad[0].a / 2), true} : LS_FREE;
+        *out = norm(*out);
+        return true;
+    case F_ABS:
+        *out = ad[0];
+        return true;
+    case F_MIN:
+    case F_MAX: {
+        ls_dims d = ad[0];
+        for (int i = 1; i < e->nargs; i++)
+            if (!combine(x, T_PLUS, e->args[i]->loc, d, ad[i], NULL, &d))
+                return false;
+        *out = d;
+        return true;
+    }
+    default: /* exp, ln, log10 */
+        if (ad[0].known) {
+            ls_error(x->d, e->args[0]->loc, "the argument of this function must be a pure number, got %s",
+                     dname(ad[0], b, sizeof b));
+            return false;
+        }
+        *out = LS_FREE;
+        return true;
+    }
+}
+
+static bool arity_ok(elab *x, const ls_expr *e)
+{
+    static const char *const names[F_COUNT] = {"sqrt", "abs", "min", "max", "exp", "ln", "log10"};
+    bool many = e->op == F_MIN || e->op == F_MAX;
+    if ((many && e->nargs < 1) || (!many && e->nargs != 1)) {
+        ls_error(x->d, e->loc, "'%s' takes %s", names[e->op], many ? "one or more arguments" : "one argument");
+        return false;
+    }
+    return true;
+}
+
+/* ---- value expressions (params only) ------------------------------------------------- */
+
+static double apply(int op, double a, double b)
+{
+    switch (op) {
+    case T_PLUS: return a + b;
+    case T_MINUS: return a - b;
+    case T_STAR: return a * b;
+    case T_SLASH: return a / b;
+    case T_CARET: return pow(a, b);
+    case T_PARALLEL: return a * b / (a + b);
+    }
+    return NAN;
+}
+
+double ls_apply_func(int f, const double *v, int n)
+{
+    double r;
+    switch (f) {
+    case F_SQRT: return sqrt(v[0]);
+    case F_ABS: return fabs(v[0]);
+    case F_EXP: return exp(v[0]);
+    case F_LN: return log(v[0]);
+    case F_LOG10: return log10(v[0]);
+    case F_MIN:
+        r = v[0];
+        for (int i = 1; i < n; i++) r = v[i] < r ? v[i] : r;
+        return r;
+    case F_MAX:
+        r = v[0];
+        for (int i = 1; i < n; i++) r = v[i] > r ? v[i] : r;
+        return r;
+    }
+    return NAN;
+}
+
+double ls_apply_op(int op, double a, double b) { return apply(op, a, b); }
+
+static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *d)
+{
+    switch (e->kind) {
+    case E_NUM:
+        *v = e->num;
+        *d = e->dims;
+        return true;
+    case E_NAME: {
+        const ls_param *p = param_ref(x, s, e->name);
+        if (p) {
+            *v = p->value;
+            *d = p->dims;
+            return true;
+        }
+        const char *full = qualify(x, s, e->name);
+        int en = ls_hash_get(&x->nl->names, full);
+        if (en >= 0 && x->nl->ents[en].kind != ENT_PARAM)
+            ls_error(x->d, e->loc, "'%s' is a %s; a value is expected here (a number or a param)", e->name,
+                     ent_what(x->nl->ents[en].kind));
+        else
+            ls_error(x->d, e->loc, "unknown parameter '%s'", e->name);
+        return false;
+    }
+    case E_NEG:
+        if (!eval(x, s, e->a, v, d))
+            return false;
+        *v = -*v;
+        return true;
+    case E_BIN: {
+        double a, b;
+        ls_dims da, db;
+        if (!eval(x, s, e->a, &a, &da) | !eval(x, s, e->b, &b, &db))
+            return false;
+        if (!combine(x, e->op, e->op_loc, da, db, e->b, d))
+            return false;
+        if (e->op == T_SLASH && b == 0) {
+            ls_error(x->d, e->op_loc, "division by zero");
+            return false;
+        }
+        *v = apply(e->op, a, b);
+        break;
+    }
+    case E_CALL: {
+        double av[8];
+        ls_dims ad[8];
+        if (!arity_ok(x, e))
+            return false;
+        for (int i = 0; i < e->nargs; i++)
+            if (!eval(x, s, e->args[i], &av[i], &ad[i]))
+                return false;
+        if (!call_dims(x, e, ad, d))
+            return false;
+        *v = ls_apply_func(e->op, av, e->nargs);
+        break;
+    }
+    }
+    if (!isfinite(*v)) {
+        ls_error(x->d, e->loc, "value is not a finite number (%s)", isnan(*v) ? "undefined" : "it overflows");
+        return false;
+    }
+    return true;
+}
+
+/* Evaluate a value for a slot of dimension want; a free result takes it. */
+static bool eval_slot(elab *x, const scope *s, const ls_expr *e, ls_dims want, double *v)
+{
+    ls_dims d;
+    if (!eval(x, s, e, v, &d))
+        return false;
+    d = norm(d);
+    want = norm(want);
+    if (d.known && !ls_dims_eq(d, want)) {
+        char b1[64], b2[64];
+        const char *w = dname(want, b1, sizeof b1);
+        if (strncmp(w, "a ", 2) == 0)
+            w += 2;
+        ls_error(x->d, e->loc, "%s expected, got %s ('%s')", w, dname(d, b2, sizeof b2), src_text(x, e->loc));
+        return false;
+    }
+    return true;
+}
+
+/* ---- quantities (expects) ---------------------------------------------------------------- */
+
+const char *ls_prop_name(ls_prop p)
+{
+    static const char *const n[PROP_COUNT] = {"current", "voltage", "power", "open", "loaded",
+                                              "sag", "sag_rel", "zout", "zin", "ratio"};
+    return n[p];
+}
+
+ls_dims ls_prop_dims(const ls_part *p, ls_prop prop)
+{
+    bool cur = p->kind->is_port && ls_part_opt(p, "mode", 0) == 1;
+    switch (prop) {
+    case PROP_CURRENT: return LS_AMP;
+    case PROP_VOLTAGE: return LS_VOLT;
+    case PROP_POWER: return LS_WATT;
+    case PROP_OPEN: case PROP_LOADED: case PROP_SAG: return cur ? LS_AMP : LS_VOLT;
+    case PROP_ZOUT: case PROP_ZIN: return LS_OHM;
+    default: return LS_FREE;
+    }
+}
+
+static ls_q *new_q(elab *x, ls_qkind k, ls_loc loc)
+{
+    ls_q *q = ls_arena_alloc(x->a, sizeof *q);
+    if (q) {
+        q->kind = k;
+        q->loc = loc;
+    }
+    return q;
+}
+
+/* Resolve NAME or PART.PROP in scope s to a quantity leaf. */
+static ls_q *bind_name(elab *x, const scope *s, const ls_expr *e)
+{
+    ls_netlist *nl = x->nl;
+    const ls_param *p = param_ref(x, s, e->name);
+    if (p) {
+        ls_q *q = new_q(x, Q_CONST, e->loc);
+        if (q) {
+            q->value = p->value;
+            q->dims = p->dims;
+        }
+        return q;
+    }
+    if (strcmp(e->name, "ground") == 0 || strcmp(e->name, nl->ground_name ? nl->ground_name : "") == 0) {
+        ls_q *q = new_q(x, Q_NODE, e->loc);
+        if (q) {
+            q->index = 0;
+            q->dims = LS_VOLT;
+        }
+        return q;
+    }
+    const char *full = qualify(x, s, e->name);
+    int en = ls_hash_get(&nl->names, full);
+    if (en >= 0) {
+        ls_entity *o = &nl->ents[en];
+        if (o->kind == ENT_NODE || o->kind == ENT_ALIAS) {
+            ls_q *q = new_q(x, Q_NODE, e->loc);
+            if (q) {
+                q->index = o->index;
+                q->dims = LS_VOLT;
+            }
+            return q;
+        }
+        if (o->kind == ENT_PART) {
+            const ls_part *pt = &nl->parts[o->index];
+            ls_error(x->d, e->loc, "'%s' is a %s; name a property: %s.%s", e->name,
+                     pt->kind->is_port ? "port" : "part", e->name,
+                     pt->kind->is_port ? "open, loaded, sag, sag_rel, zout, zin, ratio or current"
+                                       : "current, voltage or power");
+            return NULL;
+        }
+        ls_error(x->d, e->loc, "'%s' is a %s; a node voltage or a property is expected", e->name,
+                 ent_what(o->kind));
+        return NULL;
+    }
+    const char *dot = strrchr(full, '.');
+    if (dot) {
+        char *base = ls_arena_strndup(x->a, full, (size_t)(dot - full));
+        int pe = base ? ls_hash_get(&nl->names, base) : -1;
+        if (pe >= 0 && nl->ents[pe].kind == ENT_PART) {
+            const ls_part *pt = &nl->parts[nl->ents[pe].index];
+            for (int k = 0; k < PROP_COUNT; k++) {
+                if (strcmp(dot + 1, ls_prop_name((ls_prop)k)) != 0)
+                    continue;
+                bool port_only = k >= PROP_OPEN;
+                if (port_only && !pt->kind->is_port) {
+                    ls_error(x->d, e->loc, "'%s' is only a property of ports, and '%s' is a %s", dot + 1,
+                             base, pt->kind->name);
+                    return NULL;
+                }
+                if (pt->kind->is_port && (k == PROP_VOLTAGE || k == PROP_POWER)) {
+                    ls_error(x->d, e->loc, "a port has no '%s' (it is a zero-volt connection); try %s.loaded",
+                             dot + 1, base);
+                    return NULL;
+                }
+                ls_q *q = new_q(x, Q_PROP, e->loc);
+                if (q) {
+                    q->index = nl->ents[pe].index;
+                    q->prop = (ls_prop)k;
+                    q->dims = ls_prop_dims(pt, q->prop);
+                }
+                return q;
+            }
+            ls_error(x->d, e->loc, "'%s' has no property '%s'", base, dot + 1);
+            return NULL;
+        }
+    }
+    ls_error(x->d, e->loc, "unknown node, part or parameter '%s'", e->name);
+    return NULL;
+}
+
+static ls_q *bind(elab *x, const scope *s, const ls_expr *e)
+{
+    ls_q *q = NULL;
+    switch (e->kind) {
+    case E_NUM:
+        q = new_q(x, Q_CONST, e->loc);
+        if (q) {
+            q->value = e->num;
+            q->dims = e->dims;
+        }
+        return q;
+    case E_NAME:
+        return bind_name(x, s, e);
+    case E_NEG: {
+        ls_q *a = bind(x, s, e->a);
+        if (!a || !(q = new_q(x, Q_NEG, e->loc)))
+            return NULL;
+        q->a = a;
+        q->dims = a->dims;
+        return q;
+    }
+    case E_BIN: {
+        ls_q *a = bind(x, s, e->a), *b = bind(x, s, e->b);
+        if (!a || !b || !(q = new_q(x, Q_BIN, e->loc)))
+            return NULL;
+        q->op = e->op;
+        q->a = a;
+        q->b = b;
+        if (!combine(x, e->op, e->op_loc, a->dims, b->dims, e->b, &q->dims))
+            return NULL;
+        return q;
+    }
+    case E_CALL: {
+        if (!arity_ok(x, e) || !(q = new_q(x, Q_CALL, e->loc)))
+            return NULL;
+        q->op = e->op;
+        q->nargs = e->nargs;
+        q->args = ls_arena_alloc(x->a, (size_t)e->nargs * sizeof *q->args);
+        ls_dims ad[8];
+        if (!q->args)
+            return NULL;
+        for (int i = 0; i < e->nargs; i++) {
+            if (!(q->args[i] = bind(x, s, e->args[i])))
+                return NULL;
+            ad[i] = q->args[i]->dims;
+        }
+        return call_dims(x, e, ad, &q->dims) ? q : NULL;
+    }
+    }
+    return NULL;
+}
+
+/* ---- statements --------------------------------------------------------------------- */
+
+static const char *stmt_text(elab *x, const ls_stmt *st)
+{
+    const ls_file *f = &x->d->files[st->text_loc.file];
+    unsigned s = st->text_loc.start, e = st->text_loc.end;
+    if (e > f->len)
+        e = f->len;
+    char *out = ls_arena_alloc(x->a, e - s + 1);
+    if (!out)
+        return "";
+    /* Fold continuation lines, comments and runs of blanks into single spaces. */
+    size_t n = 0;
+    bool space = false;
+    for (unsigned i = s; i < e; i++) {
+        char c = f->text[i];
+        if (c == '#') {
+            while (i < e && f->text[i] != '\n')
+                i++;
+            space = true;
+            continue;
+        }
+        if (c == '\\' || c == '\n' || c == '\r' || c == ' ' || c == '\t') {
+            space = true;
+            continue;
+        }
+        if (space && n)
+            out[n++] = ' ';
+        space = false;
+        out[n++] = c;
+    }
+    out[n] = 0;
+    return out;
+}
+
+static void add_check(elab *x, const scope *s, const ls_stmt *st)
+{
+    ls_netlist *nl = x->nl;
+    ls_check c = {.stmt = st, .instance = s->prefix[0] ? s->prefix : NULL, .text = stmt_text(x, st),
+                  .cmp = st->cmp};
+    c.lhs = bind(x, s, st->lhs);
+    c.rhs = bind(x, s, st->rhs);
+    if (st->rhs2)
+        c.rhs2 = bind(x, s, st->rhs2);
+    if (!c.lhs || !c.rhs || (st->rhs2 && !c.rhs2))
+        return;
+    ls_dims d;
+    if (!combine(x, T_MINUS, st->rhs->loc, c.lhs->dims, c.rhs->dims, NULL, &d))
+        return;
+    if (c.rhs2 && !combine(x, T_MINUS, st->rhs2->loc, d, c.rhs2->dims, NULL, &d))
+        return;
+    if (st->within) {
+        if (!(c.within = bind(x, s, st->within)))
+            return;
+        if (!norm(c.within->dims).known) {
+            c.relative = true;
+        } else if (!combine(x, T_MINUS, st->within->loc, d, c.within->dims, NULL, &d)) {
+            return;
+        }
+    }
+    if (!grow((void **)&nl->checks, &nl->cap_checks, nl->nchecks + 1, sizeof *nl->checks))
+        return;
+    nl->checks[nl->nchecks++] = c;
+}
+
+static const char *opt_names(const ls_kind *k)
+{
+    static char buf[512];
+    buf[0] = 0;
+    for (int i = 0; i < k->nopts; i++) {
+        if (i)
+            strncat(buf, ", ", sizeof buf - strlen(buf) - 1);
+        strncat(buf, k->opts[i].name, sizeof buf - strlen(buf) - 1);
+    }
+    return buf;
+}
+
+static bool check_flags(elab *x, unsigned flags, double v, ls_loc loc, const char *what)
+{
+    if ((flags & OPTF_POSITIVE) && !(v > 0)) {
+        ls_error(x->d, loc, "%s must be greater than zero", what);
+        return false;
+    }
+    if ((flags & OPTF_NONNEG) && v < 0) {
+        ls_error(x->d, loc, "%s must not be negative", what);
+        return false;
+    }
+    if ((flags & OPTF_FRACTION) && (v < 0 || v > 1)) {
+        ls_error(x->d, loc, "%s must be between 0 and 1", what);
+        return false;
+    }
+    return true;
+}
+
+static bool set_word(elab *x, ls_part *p, int oi, const ls_opt *o)
+{
+    const ls_optdef *od = &p->kind->opts[oi];
+    if (o->value->kind == E_NAME && !o->hi) {
+        const char *w = od->words;
+        for (int idx = 0; *w; idx++) {
+            const char *bar = strchr(w, '|');
+            size_t n = bar ? (size_t)(bar - w) : strlen(w);
+            if (strlen(o->value->name) == n && strncmp(o->value->name, w, n) == 0) {
+                p->opt[oi] = idx;
+                return true;
+            }
+            w += n + (bar ? 1 : 0);
+        }
+    }
+    ls_error(x->d, o->value->loc, "%s= takes one of: %s", od->name, od->words);
+    return false;
+}
+
+/* part -> fill an ls_part from its statement */
+static void elab_part(elab *x, const scope *s, const ls_stmt *st)
+{
+    ls_netlist *nl = x->nl;
+    const ls_kind *k = ls_kind_find(st->kw);
+    ls_part p;
+    memset(&p, 0, sizeof p);
+    p.kind = k;
+    p.loc = st->name_loc;
+    p.ref = -1;
+    p.branch = -1;
+    for (int i = 0; i < LS_MAX_PINS; i++)
+        p.pin[i] = -1;
+    p.name = qualify(x, s, st->name);
+    p.instance = s->prefix[0] ? s->prefix : NULL;
+    int errs = x->d->errors;
+
+    if (k->shape == SHAPE_TWO && !st->arrow) {
+        ls_error(x->d, st->name_loc, "%s '%s' needs its nodes: %s", k->name, st->name, k->doc);
+        return;
+    }
+    if (k->shape == SHAPE_PINNED && st->arrow) {
+        ls_error(x->d, st->from_loc, "%s takes named pins, not FROM -> TO: %s", k->name, k->doc);
+        return;
+    }
+    if (st->arrow) {
+        p.pin[0] = node_ref(x, s, st->from, st->from_loc);
+        p.pin[1] = node_ref(x, s, st->to, st->to_loc);
+    }
+    int main_opt = -1;
+    for (int i = 0; i < k->nopts; i++)
+        if (k->opts[i].flags & OPTF_MAIN)
+            main_opt = i;
+    ls_dims vd = main_opt >= 0 ? k->opts[main_opt].dims : k->value_dims;
+    if (st->value) {
+        if (!k->value_slot) {
+            ls_error(x->d, st->value->loc, "a %s takes no value here: %s", k->name, k->doc);
+        } else if (eval_slot(x, s, st->value, vd, &p.value)) {
+            p.has_value = true;
+            p.value_loc = st->value->loc;
+        }
+    }
+    for (int i = 0; i < st->nopts; i++) {
+        const ls_opt *o = &st->opts[i];
+        int oi = ls_kind_opt(k, o->name);
+        if (oi < 0) {
+            const char *best = NULL;
+            int bd = 3;
+            for (int j = 0; j < k->nopts; j++) {
+                int dd = ls_edit_distance(o->name, k->opts[j].name);
+                if (dd < bd) {
+                    bd = dd;
+                    best = k->opts[j].name;
+                }
+            }
+            if (best)
+                ls_error(x->d, o->name_loc, "%s has no option '%s'; did you mean '%s'?", k->name, o->name, best);
+            else
+                ls_error(x->d, o->name_loc, "%s has no option '%s' (it takes: %s)", k->name, o->name,
+                         opt_names(k));
+            continue;
+        }
+        if (p.has_opt[oi]) {
+            ls_error(x->d, o->name_loc, "option '%s' is given twice", o->name);
+            continue;
+        }
+        const ls_optdef *od = &k->opts[oi];
+        p.opt_loc[oi] = o->value->loc;
+        if (o->hi && od->kind != OPT_RANGE) {
+            ls_error(x->d, o->hi->loc, "%s= takes one value, not a range", o->name);
+            continue;
+        }
+        switch (od->kind) {
+        case OPT_VALUE: {
+            double v;
+            if (!eval_slot(x, s, o->value, od->dims, &v) || !check_flags(x, od->flags, v, o->value->loc, o->name))
+                continue;
+            if (od->flags & OPTF_MAIN) {
+                if (p.has_value) {
+                    ls_error(x->d, o->name_loc, "%s is given twice (as the value and as %s=)", o->name, o->name);
+                    continue;
+                }
+                p.value = v;
+                p.has_value = true;
+                p.value_loc = o->value->loc;
+            }
+            if (strcmp(od->name, "tol") == 0 && v >= 1) {
+                ls_error(x->d, o->value->loc, "tol= is a fraction below 1 (write 1%% or 0.01)");
+                continue;
+            }
+            p.opt[oi] = v;
+            break;
+        }
+        case OPT_NODE:
+            if (o->value->kind != E_NAME) {
+                ls_error(x->d, o->value->loc, "%s= takes a node name", o->name);
+                continue;
+            }
+            p.pin[od->pin] = node_ref(x, s, o->value->name, o->value->loc);
+            break;
+        case OPT_PART:
+            if (o->value->kind != E_NAME) {
+                ls_error(x->d, o->value->loc, "%s= takes the name of a part or port", o->name);
+                continue;
+            }
+            p.ref_name = o->value->name;
+            p.ref_scope = s->prefix;
+            p.ref_loc = o->value->loc;
+            break;
+        case OPT_WORD:
+            if (!set_word(x, &p, oi, o))
+                continue;
+            break;
+        case OPT_RANGE:
+            break;
+        }
+        p.has_opt[oi] = true;
+    }
+    if ((k->value_flags & OPTF_REQUIRED) && !p.has_value && !st->value) {
+        char b[64];
+        ls_error(x->d, st->name_loc, "%s '%s' needs a value (%s)", k->name, st->name, dname(k->value_dims, b, sizeof b));
+    }
+    if (p.has_value && main_opt < 0 && !check_flags(x, k->value_flags, p.value, p.value_loc,
+                                                     k->value_dims.v == 1 && k->value_dims.a == -1
+                                                         ? "a resistance (use a port for a zero-ohm connection)"
+                                                         : "the value"))
+        return;
+    for (int i = 0; i < k->nopts; i++) {
+        const ls_optdef *od = &k->opts[i];
+        if (!(od->flags & OPTF_REQUIRED) || p.has_opt[i] || ((od->flags & OPTF_MAIN) && p.has_value))
+            continue;
+        if ((od->flags & OPTF_MAIN) && st->value)
+            continue; /* the positional value was given but had an error */
+        ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
+    }
+    if (st->arrow && p.pin[0] >= 0 && p.pin[0] == p.pin[1])
+        ls_warning(x->d, st->from_loc, "same-node", "both ends of %s '%s' are the same node '%s'", k->name, st->name,
+                   nl->nodes[p.pin[0]].name);
+    if (x->d->errors != errs)
+        return;
+    if (!grow((void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
+        return;
+    nl->parts[nl->nparts] = p;
+    if (declare(x, p.name, ENT_PART, nl->nparts, st->name_loc) >= 0)
+        nl->nparts++;
+}
+
+static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n);
+
+static int block_index(elab *x, const char *name)
+{
+    return ls_hash_get(&x->blocks, name);
+}
+
+static int find_pin(const ls_stmt *b, const char *name)
+{
+    for (int i = 0; i < b->npins; i++)
+        if (strcmp(b->pins[i], name) == 0)
+            return i;
+    return -1;
+}
+
+static int find_bparam(const ls_stmt *b, const char *name)
+{
+    for (int i = 0; i < b->nopts; i++)
+        if (strcmp(b->opts[i].name, name) == 0)
+            return i;
+    return -1;
+}
+
+/* use -> expand a block as a new instance scope */
+static void elab_use(elab *x, const scope *s, const ls_stmt *st)
+{
+    ls_netlist *nl = x->nl;
+    int bi = block_index(x, st->kw);
+    if (bi < 0) {
+        const char *best = NULL;
+        int bd = 3;
+        for (int i = 0; i < x->nblocks; i++) {
+            int dd = ls_edit_distance(st->kw, x->blockv[i]->name);
+            if (dd < bd) {
+                bd = dd;
+                best = x->blockv[i]->name;
+            }
+        }
+        if (best)
+            ls_error(x->d, st->kw_loc, "unknown block '%s'; did you mean '%s'?", st->kw, best);
+        else
+            ls_error(x->d, st->kw_loc, "unknown block '%s'", st->kw);
+        return;
+    }
+    const ls_stmt *b = x->blockv[bi];
+    for (const scope *u = s; u; u = u->up) {
+        if (u->block == b) {
+            char chain[512] = "";
+            for (const scope *v = s; v && v->block; v = v->up) {
+                char tmp[512];
+                snprintf(tmp, sizeof tmp, "%s%s%s", v->block->name, chain[0] ? " <- " : "", chain);
+                memcpy(chain, tmp, sizeof chain);
+            }
+            ls_error(x->d, st->kw_loc, "block '%s' uses itself (%s <- %s): recursion is not allowed", b->name,
+                     b->name, chain);
+            return;
+        }
+    }
+    if (s->depth + 1 > LS_MAX_BLOCK_DEPTH) {
+        ls_error(x->d, st->kw_loc, "blocks nested more than %d deep", LS_MAX_BLOCK_DEPTH);
+        return;
+    }
+    if (++nl->instances > LS_MAX_INSTANCES) {
+        if (nl->instances == LS_MAX_INSTANCES + 1)
+            ls_error(x->d, st->kw_loc, "more than %d block instances", LS_MAX_INSTANCES);
+        return;
+    }
+    const char *full = qualify(x, s, st->name);
+    if (declare(x, full, ENT_INSTANCE, bi, st->name_loc) < 0)
+        return;
+    scope in = {full, b, s, s->depth + 1};
+    int errs = x->d->errors;
+    bool pin_given[256] = {0};
+    const ls_opt *param_given[256] = {0};
+    for (int i = 0; i < st->nopts; i++) {
+        const ls_opt *o = &st->opts[i];
+        int pi = find_pin(b, o->name);
+        if (pi >= 0) {
+            if (pin_given[pi]) {
+                ls_error(x->d, o->name_loc, "pin '%s' is connected twice", o->name);
+                continue;
+            }
+            pin_given[pi] = true;
+            if (o->value->kind != E_NAME || o->hi) {
+                ls_error(x->d, o->value->loc, "pin '%s' takes a node name", o->name);
+                continue;
+            }
+            int node = node_ref(x, s, o->value->name, o->value->loc);
+            if (node >= 0)
+                declare(x, qualify(x, &in, o->name), ENT_ALIAS, node, o->name_loc);
+            continue;
+        }
+        int qi = find_bparam(b, o->name);
+        if (qi >= 0) {
+            if (param_given[qi]) {
+                ls_error(x->d, o->name_loc, "parameter '%s' is given twice", o->name);
+                continue;
+            }
+            param_given[qi] = o;
+            continue;
+        }
+        const char *best = NULL;
+        int bd = 3;
+        for (int j = 0; j < b->npins; j++)
+            if (ls_edit_distance(o->name, b->pins[j]) < bd)
+                bd = ls_edit_distance(o->name, b->pins[j]), best = b->pins[j];
+        for (int j = 0; j < b->nopts; j++)
+            if (ls_edit_distance(o->name, b->opts[j].name) < bd)
+                bd = ls_edit_distance(o->name, b->opts[j].name), best = b->opts[j].name;
+        if (best)
+            ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'; did you mean '%s'?", b->name,
+                     o->name, best);
+        else
+            ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'", b->name, o->name);
+    }
+    for (int i = 0; i < b->npins; i++)
+        if (!pin_given[i])
+            ls_error(x->d, st->name_loc, "pin '%s' of block '%s' is not connected in '%s'", b->pins[i], b->name,
+                     st->name);
+    for (int i = 0; i < b->nopts; i++) {
+        const ls_opt *bo = &b->opts[i];
+        double v;
+        ls_dims d;
+        if (param_given[i]) {
+            if (!eval(x, s, param_given[i]->value, &v, &d))
+                continue;
+        } else if (bo->value) {
+            if (!eval(x, &in, bo->value, &v, &d))
+                continue;
+        } else {
+            ls_error(x->d, st->name_loc, "'%s' needs parameter '%s' of block '%s' (it has no default)", st->name,
+                     bo->name, b->name);
+            continue;
+        }
+        add_param(x, &in, bo->name, v, d, bo->name_loc);
+    }
+    if (x->d->errors != errs)
+        return;
+    elab_body(x, &in, b->body, b->nbody);
+}
+
+static void elab_param(elab *x, const scope *s, const ls_stmt *st)
+{
+    const ls_expr *e = st->value;
+    ls_setting *set = NULL;
+    if (!s->prefix[0])
+        for (int i = 0; i < x->nsets; i++)
+            if (strcmp(x->sets[i].name, st->name) == 0)
+                set = &x->sets[i];
+    double v;
+    ls_dims d;
+    if (!eval(x, s, e, &v, &d))
+        return;
+    if (set) {
+        set->used = true;
+        double sv;
+        ls_dims sd;
+        if (!eval(x, s, set->value, &sv, &sd))
+            return;
+        if (norm(sd).known && norm(d).known && !ls_dims_eq(norm(sd), norm(d))) {
+            char b1[64], b2[64];
+            ls_error(x->d, set->value->loc, "param '%s' is %s, but --set gives %s", st->name,
+                     dname(d, b1, sizeof b1), dname(sd, b2, sizeof b2));
+            return;
+        }
+        v = sv;
+        if (norm(sd).known)
+            d = sd;
+    }
+    add_param(x, s, st->name, v, d, st->name_loc);
+}
+
+/* Params first (in order), then parts, instances and checks. */
+static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n)
+{
+    for (int i = 0; i < n; i++)
+        if (stmts[i]->kind == S_PARAM)
+            elab_param(x, s, stmts[i]);
+    for (int i = 0; i < n; i++) {
+        const ls_stmt *st = stmts[i];
+        switch (st->kind) {
+        case S_PART: elab_part(x, s, st); break;
+        case S_USE: elab_use(x, s, st); break;
+        default: break;
+        }
+    }
+    for (int i = 0; i < n; i++) {
+        const ls_stmt *st = stmts[i];
+        if (st->kind == S_EXPECT)
+            add_check(x, s, st);
+        else if (st->kind == S_RULE && s->prefix[0])
+            ls_error(x->d, st->loc, "'rule' belongs at the top level (it applies to every port)");
+    }
+}
+
+/* ---- whole program ---------------------------------------------------------------- */
+
+static void collect_blocks(elab *x, const ls_program *prog)
+{
+    int n = 0;
+    for (int i = 0; i < prog->n; i++)
+        n += prog->stmts[i]->kind == S_BLOCK;
+    x->blockv = calloc((size_t)(n ? n : 1), sizeof *x->blockv);
+    if (!x->blockv)
+        return;
+    for (int i = 0; i < prog->n; i++) {
+        const ls_stmt *b = prog->stmts[i];
+        if (b->kind != S_BLOCK)
+            continue;
+        int prev = ls_hash_get(&x->blocks, b->name);
+        if (prev >= 0) {
+            ls_error(x->d, b->name_loc, "block '%s' is defined twice", b->name);
+            note_decl(x, x->blockv[prev]->name_loc, b->name);
+            continue;
+        }
+        for (int j = 0; j < b->npins; j++) {
+            for (int k = 0; k < j; k++)
+                if (strcmp(b->pins[j], b->pins[k]) == 0)
+                    ls_error(x->d, b->pin_locs[j], "pin '%s' is listed twice", b->pins[j]);
+            if (find_bparam(b, b->pins[j]) >= 0)
+                ls_error(x->d, b->pin_locs[j], "'%s' is both a pin and a parameter", b->pins[j]);
+        }
+        x->blockv[x->nblocks] = b;
+        ls_hash_put(&x->blocks, b->name, x->nblocks++);
+    }
+}
+
+static void ground_and_title(elab *x, const ls_program *prog)
+{
+    ls_netlist *nl = x->nl;
+    const ls_stmt *g = NULL, *t = NULL;
+    for (int i = 0; i < prog->n; i++) {
+        const ls_stmt *s = prog->stmts[i];
+        if (s->kind == S_GROUND) {
+            if (g) {
+                ls_error(x->d, s->loc, "a second 'ground': a circuit has exactly one ground node");
+                note_decl(x, g->name_loc, g->name);
+            } else {
+                g = s;
+            }
+        } else if (s->kind == S_TITLE) {
+            if (t)
+                ls_error(x->d, s->loc, "a second 'title': a circuit has one title");
+            else
+                t = s;
+        } else if (s->kind == S_RULE) {
+            if (nl->has_rule) {
+                ls_error(x->d, s->loc, "a second 'rule ratio'; keep one");
+                continue;
+            }
+            scope top = {"", NULL, NULL, 0};
+            double v;
+            if (eval_slot(x, &top, s->rhs, LS_FREE, &v) && check_flags(x, OPTF_POSITIVE, v, s->rhs->loc, "the ratio")) {
+                nl->min_ratio = v;
+                nl->has_rule = true;
+            }
+        }
+    }
+    nl->title = t ? t->name : NULL;
+    if (!g) {
+        ls_loc at = {prog->n ? prog->stmts[0]->loc.file : 0, 0, 0};
+        if (x->d->nfiles > 0)
+            ls_error(x->d, at, "the circuit has no ground: add a line 'ground NAME' naming the 0 V node");
+        else
+            ls_error(x->d, LS_NOLOC, "the circuit has no ground");
+        nl->ground_name = "gnd";
+    } else {
+        nl->ground_name = g->name;
+        nl->ground_loc = g->name_loc;
+    }
+    new_node(x, nl->ground_name, g ? g->name_loc : LS_NOLOC, 0);
+    if (strcmp(nl->ground_name, "ground") != 0)
+        declare(x, "ground", ENT_ALIAS, 0, g ? g->name_loc : LS_NOLOC);
+}
+
+static void resolve_refs(elab *x)
+{
+    ls_netlist *nl = x->nl;
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_part *p = &nl->parts[i];
+        if (!p->ref_name)
+            continue;
+        const char *full = p->ref_scope[0] ? ls_arena_printf(x->a, "%s.%s", p->ref_scope, p->ref_name) : p->ref_name;
+        int r = ls_netlist_find_part(nl, full);
+        if (r < 0) {
+            ls_error(x->d, p->ref_loc, "via= names '%s', which is not a part or port", p->ref_name);
+            continue;
+        }
+        const ls_part *v = &nl->parts[r];
+        if (v->kind->current == NULL) {
+            ls_error(x->d, p->ref_loc, "the current of %s '%s' cannot control a source", v->kind->name, p->ref_name);
+            continue;
+        }
+        p->ref = r;
+    }
+    /* A chain of current-controlled sources that comes back to itself has no
+     * defined current: follow each chain. */
+    for (int i = 0; i < nl->nparts; i++) {
+        int r = nl->parts[i].ref, steps = 0;
+        while (r >= 0 && r != i && steps++ < nl->nparts)
+            r = nl->parts[r].ref;
+        if (r == i) {
+            ls_error(x->d, nl->parts[i].ref_loc, "current-controlled sources control each other in a loop through '%s'",
+                     nl->parts[i].name);
+            for (int j = i; nl->parts[j].ref >= 0;) {
+                int next = nl->parts[j].ref;
+                nl->parts[j].ref = -1;
+                j = next;
+            }
+        }
+    }
+}
+
+static void final_checks(elab *x)
+{
+    ls_netlist *nl = x->nl;
+    for (int i = 0; i < nl->nnodes; i++) {
+        const ls_node *n = &nl->nodes[i];
+        if (n->dotted_ref && !n->claimed) {
+            const char *dot = strrchr(n->name, '.');
+            char inst[256];
+            snprintf(inst, sizeof inst, "%.*s", (int)(dot - n->name), n->name);
+            ls_error(x->d, n->loc, "unknown node '%s': instance '%s' has no node '%s'", n->name, inst, dot + 1);
+        }
+    }
+    for (int i = 0; i < x->nlocals; i++) {
+        const char *base = x->locals[i].base;
+        int top = ls_hash_get(&nl->names, base);
+        if (top < 0 || nl->ents[top].kind != ENT_NODE)
+            continue;
+        char *key = ls_arena_printf(x->a, "%s\x1f%s", x->locals[i].block->name, base);
+        if (!key || ls_hash_get(&x->warned, key) >= 0)
+            continue;
+        ls_hash_put(&x->warned, key, 1);
+        ls_warning(x->d, x->locals[i].loc, "local-node",
+                   "'%s' inside block '%s' is a local node of each instance, not the top-level node '%s'; make it a pin "
+                   "if you meant the top-level one",
+                   base, x->locals[i].block->name, base);
+    }
+    for (int i = 0; i < x->nsets; i++)
+        if (!x->sets[i].used)
+            ls_error(x->d, x->sets[i].loc, "--set %s: the circuit has no top-level param '%s'", x->sets[i].name,
+                     x->sets[i].name);
+}
+
+int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl)
+{
+    elab x;
+    memset(&x, 0, sizeof x);
+    x.nl = nl;
+    x.d = d;
+    x.a = d->arena;
+    x.sets = sets;
+    x.nsets = nsets;
+    nl->arena = d->arena;
+    nl->diags = d;
+    nl->min_ratio = 10;
+    int e0 = d->errors;
+    ls_hash_init(&x.blocks);
+    ls_hash_init(&x.warned);
+    collect_blocks(&x, prog);
+    ground_and_title(&x, prog);
+    scope top = {"", NULL, NULL, 0};
+    elab_body(&x, &top, prog->stmts, prog->n);
+    resolve_refs(&x);
+    final_checks(&x);
+    ls_hash_free(&x.blocks);
+    ls_hash_free(&x.warned);
+    free(x.blockv);
+    free(x.locals);
+    return d->errors - e0;
+}
+
+ls_q *ls_bind_quantity(ls_netlist *nl, const ls_expr *e)
+{
+    elab x;
+    memset(&x, 0, sizeof x);
+    x.nl = nl;
+    x.d = nl->diags;
+    x.a = nl->arena;
+    scope top = {"", NULL, NULL, 0};
+    return bind(&x, &top, e);
+}

@@ -1,0 +1,43 @@
+/* mna.h — the modified-nodal system of a netlist, and its topology checks. */
+#ifndef LS_MNA_H
+#define LS_MNA_H
+
+#include "parts.h"
+#include "solver.h"
+
+typedef struct ls_mna {
+    const ls_netlist *nl;
+    int nn;                /* node unknowns: nnodes - 1 */
+    int n;                 /* all unknowns: nodes, then branch currents */
+    int *branch_part;      /* for each branch unknown (index - nn): its part */
+    ls_triplets t;         /* assembled entries (duplicates not yet summed) */
+    double *b;             /* right-hand side, n */
+    ls_csc a;              /* compressed, duplicates summed */
+} ls_mna;
+
+/* Number branch unknowns and stamp every part.  0 ok, -1 out of memory. */
+int ls_mna_build(ls_mna *m, const ls_netlist *nl);
+/* Re-stamp the values (same structure) after part values changed. */
+int ls_mna_restamp(ls_mna *m);
+void ls_mna_free(ls_mna *m);
+
+/* Compress triplets (summing duplicates) into a CSC matrix; 0 ok, -1 no memory.
+ * Explicit zeros that result from cancellation are kept so the pattern is stable. */
+int ls_triplets_to_csc(const ls_triplets *t, int n, ls_csc *out);
+void ls_csc_free(ls_csc *a);
+void ls_triplets_free(ls_triplets *t);
+
+/* What an unknown stands for, in the user's words ("node 'mid'",
+ * "the current of voltage source 'vbat'"). */
+const char *ls_unknown_desc(const ls_mna *m, int idx, char *buf, size_t n);
+
+/* Topology checks before any numbers: nodes with no DC path to ground (and
+ * cut-sets of current sources), loops of voltage-defined branches.  Errors go
+ * to the netlist's diagnostics; returns their number. */
+int ls_topology_check(const ls_netlist *nl);
+
+/* Union-find helpers, shared with the analyses that open parts. */
+int ls_uf_find(int *parent, int x);
+void ls_uf_union(int *parent, int a, int b);
+
+#endif

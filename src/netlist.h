@@ -1,0 +1,116 @@
+/* netlist.h — the flat circuit after elaboration: nodes, parts, checks.
+ * Node 0 is ground.  Parts refer to nodes by index. */
+#ifndef LS_NETLIST_H
+#define LS_NETLIST_H
+
+#include "ast.h"
+#include "hash.h"
+
+#define LS_MAX_PINS 8
+#define LS_MAX_OPTS 24
+
+struct ls_kind;
+
+typedef struct ls_node {
+    const char *name;
+    ls_loc loc;            /* first mention */
+    int scope_depth;       /* 0 top level, else instance depth (for the pin warning) */
+    bool dotted_ref;       /* made by a dotted reference from outside its instance */
+    bool claimed;          /* a block body declared it */
+} ls_node;
+
+typedef struct ls_part {
+    const struct ls_kind *kind;
+    const char *name;      /* hierarchical: "d1.upper" */
+    const char *instance;  /* "d1", or NULL at the top level */
+    ls_loc loc;            /* the name in the statement */
+    ls_loc value_loc;
+    int pin[LS_MAX_PINS];  /* node indices; -1 when not given */
+    double value;          /* the main value (resistance, voltage, gain, ...) */
+    bool has_value;
+    double opt[LS_MAX_OPTS];
+    bool has_opt[LS_MAX_OPTS];
+    ls_loc opt_loc[LS_MAX_OPTS];
+    int ref;               /* via= part index, -1 */
+    const char *ref_name;  /* as written, resolved after elaboration */
+    const char *ref_scope;
+    ls_loc ref_loc;
+    int branch;            /* first MNA branch unknown, -1 if none (set by the MNA builder) */
+    int state;             /* analysis state (op-amp limit in force, ...) */
+} ls_part;
+
+/* A bound quantity: the syntax of an expect or a QUANTITY with names resolved. */
+typedef enum ls_qkind { Q_CONST, Q_NODE, Q_PROP, Q_NEG, Q_BIN, Q_CALL } ls_qkind;
+
+typedef enum ls_prop {
+    PROP_CURRENT, PROP_VOLTAGE, PROP_POWER,
+    PROP_OPEN, PROP_LOADED, PROP_SAG, PROP_SAG_REL, PROP_ZOUT, PROP_ZIN, PROP_RATIO,
+    PROP_COUNT
+} ls_prop;
+
+typedef struct ls_q {
+    ls_qkind kind;
+    ls_loc loc;
+    double value;          /* Q_CONST */
+    int index;             /* Q_NODE: node; Q_PROP: part */
+    ls_prop prop;          /* Q_PROP */
+    int op;                /* Q_BIN: ls_tok; Q_CALL: ls_func */
+    struct ls_q *a, *b;
+    struct ls_q **args;
+    int nargs;
+    ls_dims dims;
+} ls_q;
+
+typedef struct ls_check {
+    const ls_stmt *stmt;
+    const char *instance;  /* NULL at the top level */
+    const char *text;      /* "expect adc_in = 1.65 V within 1%" */
+    ls_q *lhs, *rhs, *rhs2, *within;
+    ls_cmp cmp;
+    bool relative;         /* within is a fraction of the expected value */
+    bool is_rule;
+} ls_check;
+
+typedef enum ls_ent_kind { ENT_NODE, ENT_ALIAS, ENT_PART, ENT_INSTANCE, ENT_PARAM, ENT_BLOCK } ls_ent_kind;
+
+typedef struct ls_entity {
+    ls_ent_kind kind;
+    int index;             /* node, part, param; ENT_ALIAS: the outer node */
+    ls_loc loc;
+} ls_entity;
+
+typedef struct ls_param {
+    double value;
+    ls_dims dims;
+    ls_loc loc;
+} ls_param;
+
+typedef struct ls_netlist {
+    ls_arena *arena;
+    ls_diags *diags;
+    const char *title;
+    const char *ground_name;
+    ls_loc ground_loc;
+    ls_node *nodes;
+    int nnodes, cap_nodes;
+    ls_part *parts;
+    int nparts, cap_parts;
+    ls_check *checks;
+    int nchecks, cap_checks;
+    ls_param *params;
+    int nparams, cap_params;
+    ls_entity *ents;
+    int nents, cap_ents;
+    ls_hash names;         /* full name -> entity */
+    double min_ratio;      /* from `rule ratio`, else 10 */
+    bool has_rule;
+    int instances;
+} ls_netlist;
+
+void ls_netlist_free(ls_netlist *nl);
+/* Part index by full name, or -1. */
+int ls_netlist_find_part(const ls_netlist *nl, const char *name);
+/* Node index by full name (pins resolve to their outer node), or -1. */
+int ls_netlist_find_node(const ls_netlist *nl, const char *name);
+
+#endif

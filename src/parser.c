@@ -1,0 +1,922 @@
+/* parser.c — recursive descent over one statement per line.
+ * On an error the rest of the line is skipped, so one run reports many errors. */
+#include "parser.h"
+
+#include <errno.h>
+#include <limits.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "lexer.h"
+#include "parts.h"
+
+typedef struct inc_frame {
+    const char *real;         /* canonical path, for cycle detection */
+    const char *shown;        /* as written, for the message */
+    struct inc_frame *up;
+} inc_frame;
+
+typedef struct parser {
+    ls_diags *d;
+    ls_arena *a;
+    ls_lexer lx;
+    ls_token tok;             /* current */
+    ls_token ahead;           /* one token of look-ahead */
+    bool have_ahead;
+    bool in_expect;
+    int expr_depth;
+    int inc_depth;
+    inc_frame *incs;
+    const char *dir;          /* directory of this file, for includes */
+} parser;
+
+typedef struct stmt_list {
+    ls_stmt **v;
+    int n, cap;
+} stmt_list;
+
+static void parse_lines(parser *p, stmt_list *out, ls_stmt *block);
+
+/* ---- small helpers ---------------------------------------------------- */
+
+static void advance(parser *p)
+{
+    if (p->have_ahead) {
+        p->tok = p->ahead;
+        p->have_ahead = false;
+    } else {
+        ls_lex_next(&p->lx, &p->tok);
+    }
+}
+
+static const ls_token *peek(parser *p)
+{
+    if (!p->have_ahead) {
+        ls_lex_next(&p->lx, &p->ahead);
+        p->have_ahead = true;
+    }
+    return &p->ahead;
+}
+
+static bool at_eol(const parser *p)
+{
+    return p->tok.kind == T_NEWLINE || p->tok.kind == T_EOF;
+}
+
+static void skip_line(parser *p)
+{
+    while (!at_eol(p))
+        advance(p);
+}
+
+static char *tok_str(parser *p, const ls_token *t)
+{
+    return ls_arena_strndup(p->a, t->text, t->len);
+}
+
+static bool is_word(const ls_token *t, const char *w)
+{
+    return t->kind == T_IDENT && strlen(w) == t->len && memcmp(t->text, w, t->len) == 0;
+}
+
+static void push(stmt_list *l, ls_stmt *s)
+{
+    if (l->n == l->cap) {
+        int cap = l->cap ? l->cap * 2 : 16;
+        ls_stmt **v = realloc(l->v, (size_t)cap * sizeof *v);
+        if (!v)
+            return;
+        l->v = v;
+        l->cap = cap;
+    }
+    l->v[l->n++] = s;
+}
+
+/* Describe the current token for "expected X, got Y" messages. */
+static const char *got(parser *p)
+{
+    if (p->tok.kind == T_IDENT || p->tok.kind == T_NUMBER)
+        return ls_arena_printf(p->a, "'%.*s'", (int)p->tok.len, p->tok.text);
+    return ls_tok_name(p->tok.kind);
+}
+
+static void expected(parser *p, const char *what)
+{
+    if (p->tok.kind != T_ERROR) /* the lexer already said what is wrong */
+        ls_error(p->d, p->tok.loc, "%s expected, got %s", what, got(p));
+}
+
+static ls_loc span(ls_loc a, ls_loc b)
+{
+    return (ls_loc){a.file, a.start, b.end > a.start ? b.end : a.end};
+}
+
+/* ---- expressions -------------------------------------------------------- */
+
+static ls_expr *parse_sum(parser *p);
+
+static ls_expr *new_expr(parser *p, ls_ekind k, ls_loc loc)
+{
+    ls_expr *e = ls_arena_alloc(p->a, sizeof *e);
+    if (e) {
+        e->kind = k;
+        e->loc = loc;
+    }
+    return e;
+}
+
+static int func_id(const ls_token *t)
+{
+    static const char *const names[F_COUNT] = {"sqrt", "abs", "min", "max", "exp", "ln", "log10"};
+    for (int i = 0; i < F_COUNT; i++)
+        if (is_word(t, names[i]))
+            return i;
+    return -1;
+}
+
+static bool reserved_in_expect(const ls_token *t)
+{
+    return is_word(t, "within") || is_word(t, "between") || is_word(t, "and");
+}
+
+/* call -> FUNC '(' sum {',' sum} ')' */
+static ls_expr *parse_call(parser *p, int f)
+{
+    ls_expr *e = new_expr(p, E_CALL, p->tok.loc);
+    if (!e)
+        return NULL;
+    e->op = f;
+    advance(p); /* name */
+    advance(p); /* ( */
+    ls_expr *args[8];
+    int n = 0;
+    if (p->tok.kind != T_RPAREN) {
+        for (;;) {
+            ls_expr *x = parse_sum(p);
+            if (!x)
+                return NULL;
+            if (n == 8) {
+                ls_error(p->d, x->loc, "too many arguments (at most 8)");
+                return NULL;
+            }
+            args[n++] = x;
+            if (p->tok.kind != T_COMMA)
+                break;
+            advance(p);
+        }
+    }
+    if (p->tok.kind != T_RPAREN) {
+        expected(p, "',' or ')'");
+        return NULL;
+    }
+    e->loc = span(e->loc, p->tok.loc);
+    advance(p);
+    e->args = ls_arena_alloc(p->a, (size_t)(n ? n : 1) * sizeof *e->args);
+    if (!e->args)
+        return NULL;
+    memcpy(e->args, args, (size_t)n * sizeof *args);
+    e->nargs = n;
+    return e;
+}
+
+/* primary -> NUMBER | NAME | FUNC '(' args ')' | '(' sum ')' */
+static ls_expr *parse_primary(parser *p)
+{
+    ls_token t = p->tok;
+    if (t.kind == T_NUMBER) {
+        ls_expr *e = new_expr(p, E_NUM, t.loc);
+        if (e) {
+            e->num = t.num;
+            e->dims = t.dims;
+        }
+        advance(p);
+        return e;
+    }
+    if (t.kind == T_IDENT) {
+        if (p->in_expect && reserved_in_expect(&t)) {
+            ls_error(p->d, t.loc, "a value expected before '%.*s'", (int)t.len, t.text);
+            return NULL;
+        }
+        int f = func_id(&t);
+        if (f >= 0 && peek(p)->kind == T_LPAREN)
+            return parse_call(p, f);
+        ls_expr *e = new_expr(p, E_NAME, t.loc);
+        if (e)
+            e->name = tok_str(p, &t);
+        advance(p);
+        return e;
+    }
+    if (t.kind == T_LPAREN) {
+        advance(p);
+        ls_expr *e = parse_sum(p);
+        if (!e)
+            return NULL;
+        if (p->tok.kind != T_RPAREN) {
+            int line, col;
+            ls_loc_linecol(p->d, t.loc.file, t.loc.start, &line, &col);
+            if (p->tok.kind != T_ERROR)
+                ls_error(p->d, p->tok.loc, "')' expected to close the '(' at column %d, got %s", col, got(p));
+            return NULL;
+        }
+        e->loc = span(t.loc, p->tok.loc);
+        advance(p);
+        return e;
+    }
+    expected(p, "a value");
+    return NULL;
+}
+
+static ls_expr *binary(parser *p, int op, ls_loc op_loc, ls_expr *a, ls_expr *b)
+{
+    ls_expr *e = new_expr(p, E_BIN, span(a->loc, b->loc));
+    if (e) {
+        e->op = op;
+        e->op_loc = op_loc;
+        e->a = a;
+        e->b = b;
+    }
+    return e;
+}
+
+static ls_expr *parse_unary(parser *p);
+
+/* power -> primary ['^' unary]     (right-associative) */
+static ls_expr *parse_power(parser *p)
+{
+    ls_expr *a = parse_primary(p);
+    if (!a || p->tok.kind != T_CARET)
+        return a;
+    ls_loc op = p->tok.loc;
+    advance(p);
+    ls_expr *b = parse_unary(p);
+    return b ? binary(p, T_CARET, op, a, b) : NULL;
+}
+
+/* unary -> ('-' | '+') unary | power */
+static ls_expr *parse_unary(parser *p)
+{
+    if (++p->expr_depth > LS_MAX_EXPR_DEPTH) {
+        if (p->expr_depth == LS_MAX_EXPR_DEPTH + 1)
+            ls_error(p->d, p->tok.loc, "expression nested more than %d deep", LS_MAX_EXPR_DEPTH);
+        return NULL;
+    }
+    ls_expr *e;
+    if (p->tok.kind == T_MINUS || p->tok.kind == T_PLUS) {
+        ls_token t = p->tok;
+        advance(p);
+        ls_expr *a = parse_unary(p);
+        if (!a) {
+            e = NULL;
+        } else if (t.kind == T_PLUS) {
+            e = a;
+        } else {
+            e = new_expr(p, E_NEG, span(t.loc, a->loc));
+            if (e)
+                e->a = a;
+        }
+    } else {
+        e = parse_power(p);
+    }
+    p->expr_depth--;
+    return e;
+}
+
+/* product -> unary {('*' | '/') unary} */
+static ls_expr *parse_product(parser *p)
+{
+    ls_expr *a = parse_unary(p);
+    while (a && (p->tok.kind == T_STAR || p->tok.kind == T_SLASH)) {
+        int op = p->tok.kind;
+        ls_loc l = p->tok.loc;
+        advance(p);
+        ls_expr *b = parse_unary(p);
+        a = b ? binary(p, op, l, a, b) : NULL;
+    }
+    return a;
+}
+
+/* parallel -> product {'||' product} */
+static ls_expr *parse_parallel(parser *p)
+{
+    ls_expr *a = parse_product(p);
+    while (a && p->tok.kind == T_PARALLEL) {
+        ls_loc l = p->tok.loc;
+        advance(p);
+        ls_expr *b = parse_product(p);
+        a = b ? binary(p, T_PARALLEL, l, a, b) : NULL;
+    }
+    return a;
+}
+
+/* sum -> parallel {('+' | '-') parallel} */
+static ls_expr *parse_sum(parser *p)
+{
+    if (++p->expr_depth > LS_MAX_EXPR_DEPTH) {
+        if (p->expr_depth == LS_MAX_EXPR_DEPTH + 1)
+            ls_error(p->d, p->tok.loc, "expression nested more than %d deep", LS_MAX_EXPR_DEPTH);
+        p->expr_depth--;
+        return NULL;
+    }
+    ls_expr *a = parse_parallel(p);
+    while (a && (p->tok.kind == T_PLUS || p->tok.kind == T_MINUS)) {
+        int op = p->tok.kind;
+        ls_loc l = p->tok.loc;
+        advance(p);
+        ls_expr *b = parse_parallel(p);
+        a = b ? binary(p, op, l, a, b) : NULL;
+    }
+    p->expr_depth--;
+    return a;
+}
+
+/* ---- statements ----------------------------------------------------------- */
+
+static ls_stmt *new_stmt(parser *p, ls_skind k)
+{
+    ls_stmt *s = ls_arena_alloc(p->a, sizeof *s);
+    if (s) {
+        s->kind = k;
+        s->loc = p->tok.loc;
+        s->text_loc = p->tok.loc;
+    }
+    return s;
+}
+
+static bool expect_ident(parser *p, const char *what, const char **name, ls_loc *loc)
+{
+    if (p->tok.kind != T_IDENT) {
+        expected(p, what);
+        return false;
+    }
+    *name = tok_str(p, &p->tok);
+    *loc = p->tok.loc;
+    advance(p);
+    return *name != NULL;
+}
+
+/* After a statement: the line must end here. */
+static bool end_of_statement(parser *p)
+{
+    if (at_eol(p))
+        return true;
+    if (p->tok.kind != T_ERROR)
+        ls_error(p->d, p->tok.loc, "end of line expected, got %s", got(p));
+    return false;
+}
+
+static bool option_ahead(parser *p)
+{
+    return p->tok.kind == T_IDENT && peek(p)->kind == T_EQ;
+}
+
+/* options -> {NAME '=' [sum ['..' sum]]}   (empty only when allow_empty) */
+static bool parse_options(parser *p, ls_stmt *s, bool allow_empty)
+{
+    ls_opt buf[64];
+    int n = 0;
+    while (!at_eol(p)) {
+        if (!option_ahead(p)) {
+            expected(p, "an option NAME=VALUE");
+            return false;
+        }
+        if (n == 64) {
+            ls_error(p->d, p->tok.loc, "too many options on one statement (at most 64)");
+            return false;
+        }
+        ls_opt *o = &buf[n++];
+        memset(o, 0, sizeof *o);
+        o->name = tok_str(p, &p->tok);
+        o->name_loc = p->tok.loc;
+        advance(p); /* name */
+        ls_loc eq = p->tok.loc;
+        advance(p); /* = */
+        if (at_eol(p) || option_ahead(p)) {
+            if (!allow_empty) {
+                ls_error(p->d, eq, "a value expected after '%s='", o->name);
+                return false;
+            }
+            continue;
+        }
+        o->value = parse_sum(p);
+        if (!o->value)
+            return false;
+        if (p->tok.kind == T_DOTDOT) {
+            advance(p);
+            o->hi = parse_sum(p);
+            if (!o->hi)
+                return false;
+        }
+    }
+    s->opts = ls_arena_alloc(p->a, (size_t)(n ? n : 1) * sizeof *s->opts);
+    if (!s->opts)
+        return false;
+    memcpy(s->opts, buf, (size_t)n * sizeof *buf);
+    s->nopts = n;
+    return true;
+}
+
+/* part -> KIND NAME [FROM '->' TO] [VALUE] {OPTION} */
+static ls_stmt *parse_part(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_PART);
+    if (!s)
+        return NULL;
+    s->kw = tok_str(p, &p->tok);
+    s->kw_loc = p->tok.loc;
+    advance(p);
+    if (!expect_ident(p, "a part name", &s->name, &s->name_loc))
+        return NULL;
+    if (p->tok.kind == T_IDENT && peek(p)->kind == T_ARROW) {
+        s->from = tok_str(p, &p->tok);
+        s->from_loc = p->tok.loc;
+        advance(p);
+        advance(p);
+        if (!expect_ident(p, "a node name after '->'", &s->to, &s->to_loc))
+            return NULL;
+        s->arrow = true;
+    } else if (p->tok.kind == T_IDENT && !option_ahead(p) && !at_eol(p)) {
+        /* Two names without an arrow: say how polarity is written. */
+        const ls_token *n2 = peek(p);
+        if (n2->kind == T_IDENT || n2->kind == T_NUMBER) {
+            ls_error(p->d, p->tok.loc, "'->' expected between the two nodes of '%s' (write FROM -> TO)",
+                     s->name);
+            return NULL;
+        }
+    }
+    if (!at_eol(p) && !option_ahead(p)) {
+        s->value = parse_sum(p);
+        if (!s->value)
+            return NULL;
+    }
+    if (!parse_options(p, s, false))
+        return NULL;
+    return s;
+}
+
+/* param -> 'param' NAME '=' sum */
+static ls_stmt *parse_param(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_PARAM);
+    advance(p);
+    if (!s || !expect_ident(p, "a parameter name", &s->name, &s->name_loc))
+        return NULL;
+    if (p->tok.kind != T_EQ) {
+        expected(p, "'=' after the parameter name");
+        return NULL;
+    }
+    advance(p);
+    s->value = parse_sum(p);
+    return s->value ? s : NULL;
+}
+
+/* cmp -> '=' | '<' | '<=' | '>' | '>=' */
+static bool parse_cmp(parser *p, ls_cmp *c)
+{
+    switch (p->tok.kind) {
+    case T_EQ: *c = CMP_EQ; break;
+    case T_LT: *c = CMP_LT; break;
+    case T_LE: *c = CMP_LE; break;
+    case T_GT: *c = CMP_GT; break;
+    case T_GE: *c = CMP_GE; break;
+    default:
+        if (is_word(&p->tok, "between")) {
+            *c = CMP_BETWEEN;
+            break;
+        }
+        expected(p, "a comparison ('=', '<', '<=', '>', '>=' or 'between')");
+        return false;
+    }
+    advance(p);
+    return true;
+}
+
+/* expect -> 'expect' sum cmp sum ['within' sum] | 'expect' sum 'between' sum 'and' sum */
+static ls_stmt *parse_expect(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_EXPECT);
+    if (!s)
+        return NULL;
+    advance(p);
+    p->in_expect = true;
+    s->lhs = parse_sum(p);
+    if (!s->lhs || !parse_cmp(p, &s->cmp))
+        goto fail;
+    s->rhs = parse_sum(p);
+    if (!s->rhs)
+        goto fail;
+    if (s->cmp == CMP_BETWEEN) {
+        if (!is_word(&p->tok, "and")) {
+            expected(p, "'and' (between LOW and HIGH)");
+            goto fail;
+        }
+        advance(p);
+        if (!(s->rhs2 = parse_sum(p)))
+            goto fail;
+    } else if (is_word(&p->tok, "within")) {
+        if (s->cmp != CMP_EQ) {
+            ls_error(p->d, p->tok.loc, "'within' goes only with '='");
+            goto fail;
+        }
+        advance(p);
+        if (!(s->within = parse_sum(p)))
+            goto fail;
+    } else if (s->cmp == CMP_EQ) {
+        if (at_eol(p))
+            ls_error(p->d, s->rhs->loc, "'=' needs a tolerance: add 'within 1%%' or 'within 5 mV'");
+        else
+            expected(p, "'within'");
+        goto fail;
+    }
+    p->in_expect = false;
+    return s;
+fail:
+    p->in_expect = false;
+    return NULL;
+}
+
+/* rule -> 'rule' NAME cmp sum */
+static ls_stmt *parse_rule(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_RULE);
+    if (!s)
+        return NULL;
+    advance(p);
+    if (!expect_ident(p, "a rule name (ratio)", &s->name, &s->name_loc))
+        return NULL;
+    if (strcmp(s->name, "ratio") != 0) {
+        ls_error(p->d, s->name_loc, "unknown rule '%s'; the rule loadstack knows is 'ratio'", s->name);
+        return NULL;
+    }
+    if (!parse_cmp(p, &s->cmp))
+        return NULL;
+    if (s->cmp != CMP_GE && s->cmp != CMP_GT) {
+        ls_error(p->d, s->loc, "a ratio rule sets a minimum: write 'rule ratio >= 10'");
+        return NULL;
+    }
+    s->rhs = parse_sum(p);
+    return s->rhs ? s : NULL;
+}
+
+/* use -> 'use' BLOCK NAME {PIN=NODE | PARAM=VALUE} */
+static ls_stmt *parse_use(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_USE);
+    if (!s)
+        return NULL;
+    advance(p);
+    if (!expect_ident(p, "a block name", &s->kw, &s->kw_loc) ||
+        !expect_ident(p, "an instance name", &s->name, &s->name_loc))
+        return NULL;
+    return parse_options(p, s, false) ? s : NULL;
+}
+
+/* block -> 'block' NAME {PIN} {PARAM=[DEFAULT]} NEWLINE {statement} 'end' */
+static ls_stmt *parse_block(parser *p, stmt_list *out)
+{
+    (void)out;
+    ls_stmt *s = new_stmt(p, S_BLOCK);
+    if (!s)
+        return NULL;
+    advance(p);
+    if (!expect_ident(p, "a block name", &s->name, &s->name_loc))
+        return NULL;
+    const char *pins[256];
+    ls_loc locs[256];
+    int n = 0;
+    while (p->tok.kind == T_IDENT && !option_ahead(p)) {
+        if (n == 256) {
+            ls_error(p->d, p->tok.loc, "too many pins (at most 256)");
+            return NULL;
+        }
+        locs[n] = p->tok.loc;
+        pins[n++] = tok_str(p, &p->tok);
+        advance(p);
+    }
+    s->pins = ls_arena_alloc(p->a, (size_t)(n ? n : 1) * sizeof *s->pins);
+    s->pin_locs = ls_arena_alloc(p->a, (size_t)(n ? n : 1) * sizeof *s->pin_locs);
+    if (!s->pins || !s->pin_locs)
+        return NULL;
+    memcpy(s->pins, pins, (size_t)n * sizeof *pins);
+    memcpy(s->pin_locs, locs, (size_t)n * sizeof *locs);
+    s->npins = n;
+    if (!parse_options(p, s, true))
+        return NULL;
+    return s;
+}
+
+static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
+
+/* statement -> title | param | ground | include | block | use | expect | rule | part */
+static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
+{
+    ls_token kw = p->tok;
+    ls_stmt *s = NULL;
+    if (kw.kind != T_IDENT) {
+        expected(p, "a statement (a part kind or a keyword)");
+        skip_line(p);
+        return;
+    }
+    if (is_word(&kw, "title")) {
+        s = new_stmt(p, S_TITLE);
+        advance(p);
+        if (p->tok.kind != T_STRING) {
+            expected(p, "a quoted title");
+            s = NULL;
+        } else {
+            s->name = tok_str(p, &p->tok);
+            advance(p);
+        }
+        if (s && block) {
+            ls_error(p->d, kw.loc, "'title' belongs at the top level, not inside a block");
+            s = NULL;
+        }
+    } else if (is_word(&kw, "param")) {
+        s = parse_param(p);
+    } else if (is_word(&kw, "ground")) {
+        s = new_stmt(p, S_GROUND);
+        advance(p);
+        if (s && !expect_ident(p, "the ground node's name", &s->name, &s->name_loc))
+            s = NULL;
+        if (s && block) {
+            ls_error(p->d, kw.loc, "'ground' belongs at the top level; inside a block, write 'ground' as a node name");
+            s = NULL;
+        }
+    } else if (is_word(&kw, "include")) {
+        parse_include(p, out, block);
+        return;
+    } else if (is_word(&kw, "block")) {
+        if (block) {
+            int line, col;
+            ls_loc_linecol(p->d, block->loc.file, block->loc.start, &line, &col);
+            ls_error(p->d, kw.loc, "blocks cannot be defined inside a block ('%s' opened at line %d)",
+                     block->name, line);
+            skip_line(p);
+            return;
+        }
+        s = parse_block(p, out);
+        if (s) {
+            if (!end_of_statement(p))
+                skip_line(p);
+            s->text_loc = span(s->loc, p->tok.loc);
+            s->text_loc.end = p->tok.loc.start;
+            stmt_list body = {0};
+            parse_lines(p, &body, s);
+            s->body = ls_arena_alloc(p->a, (size_t)(body.n ? body.n : 1) * sizeof *s->body);
+            if (s->body)
+                memcpy(s->body, body.v, (size_t)body.n * sizeof *body.v);
+            s->nbody = body.n;
+            free(body.v);
+            push(out, s);
+            return;
+        }
+    } else if (is_word(&kw, "use")) {
+        s = parse_use(p);
+    } else if (is_word(&kw, "expect")) {
+        s = parse_expect(p);
+    } else if (is_word(&kw, "rule")) {
+        s = parse_rule(p);
+    } else if (is_word(&kw, "end")) {
+        ls_error(p->d, kw.loc, "'end' without a 'block' to close");
+        advance(p);
+    } else if (ls_kind_findn(kw.text, kw.len)) {
+        s = parse_part(p);
+    } else {
+        char name[64];
+        snprintf(name, sizeof name, "%.*s", (int)(kw.len < 60 ? kw.len : 60), kw.text);
+        const char *near = ls_kind_suggest(name);
+        if (near)
+            ls_error(p->d, kw.loc, "unknown part kind or keyword '%s'; did you mean '%s'?", name, near);
+        else
+            ls_error(p->d, kw.loc, "unknown part kind or keyword '%s'", name);
+    }
+    if (s && end_of_statement(p)) {
+        s->text_loc = (ls_loc){kw.loc.file, kw.loc.start, p->tok.loc.start};
+        push(out, s);
+    }
+    skip_line(p);
+}
+
+/* lines -> {NEWLINE | statement NEWLINE}   up to EOF, or 'end' inside a block */
+static void parse_lines(parser *p, stmt_list *out, ls_stmt *block)
+{
+    for (;;) {
+        if (p->tok.kind == T_NEWLINE) {
+            advance(p);
+            continue;
+        }
+        if (p->tok.kind == T_EOF) {
+            if (block && p->inc_depth == 0) {
+                int line, col;
+                ls_loc_linecol(p->d, block->loc.file, block->loc.start, &line, &col);
+                ls_error(p->d, p->tok.loc, "'end' expected to close 'block %s' at line %d", block->name, line);
+            }
+            return;
+        }
+        if (block && is_word(&p->tok, "end")) {
+            if (p->inc_depth > 0 && p->lx.file != block->loc.file) {
+                /* An included file cannot close a block opened outside it. */
+            }
+            advance(p);
+            if (!end_of_statement(p))
+                skip_line(p);
+            return;
+        }
+        parse_statement(p, out, block);
+    }
+}
+
+/* ---- files and includes ------------------------------------------------- */
+
+char *ls_read_file(const char *path, size_t *len)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return NULL;
+    size_t cap = 1 << 16, n = 0;
+    char *buf = malloc(cap + 1);
+    while (buf) {
+        size_t r = fread(buf + n, 1, cap - n, f);
+        n += r;
+        if (r == 0)
+            break;
+        if (n == cap) {
+            if (cap >= LS_MAX_FILE_BYTES) {
+                free(buf);
+                buf = NULL;
+                errno = EFBIG;
+                break;
+            }
+            char *b = realloc(buf, cap * 2 + 1);
+            if (!b) {
+                free(buf);
+                buf = NULL;
+                break;
+            }
+            buf = b;
+            cap *= 2;
+        }
+    }
+    int err = ferror(f) ? errno : 0;
+    fclose(f);
+    if (buf && err) {
+        free(buf);
+        errno = err;
+        return NULL;
+    }
+    if (buf) {
+        buf[n] = 0;
+        *len = n;
+    }
+    return buf;
+}
+
+static const char *dir_of(ls_arena *a, const char *path)
+{
+    const char *slash = strrchr(path, '/');
+    if (!slash)
+        return "";
+    return ls_arena_strndup(a, path, (size_t)(slash - path + 1));
+}
+
+/* Parse a registered file's statements into out. */
+static void parse_registered(parser *outer, int file, const char *dir, inc_frame *frames, int depth,
+                             stmt_list *out, ls_stmt *block)
+{
+    parser p;
+    memset(&p, 0, sizeof p);
+    p.d = outer->d;
+    p.a = outer->a;
+    p.dir = dir;
+    p.incs = frames;
+    p.inc_depth = depth;
+    ls_lex_init(&p.lx, p.d, file);
+    advance(&p);
+    parse_lines(&p, out, block);
+    if (block && p.tok.kind != T_EOF) {
+        /* 'end' inside an included file closed the including file's block */
+        ls_error(p.d, p.tok.loc, "an included file cannot end a block opened outside it");
+    }
+}
+
+/* include -> 'include' STRING */
+static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
+{
+    ls_loc kwloc = p->tok.loc;
+    advance(p);
+    if (p->tok.kind != T_STRING) {
+        expected(p, "a quoted file name");
+        skip_line(p);
+        return;
+    }
+    ls_loc sloc = p->tok.loc;
+    char *name = tok_str(p, &p->tok);
+    advance(p);
+    if (!end_of_statement(p)) {
+        skip_line(p);
+        return;
+    }
+    (void)kwloc;
+    if (p->inc_depth + 1 > LS_MAX_INCLUDE_DEPTH) {
+        ls_error(p->d, sloc, "includes nested more than %d deep", LS_MAX_INCLUDE_DEPTH);
+        return;
+    }
+    const char *path = name[0] == '/' ? name : ls_arena_printf(p->a, "%s%s", p->dir, name);
+    char real[PATH_MAX];
+    if (!realpath(path, real)) {
+        ls_error(p->d, sloc, "cannot open included file '%s': %s", path, strerror(errno));
+        return;
+    }
+    for (inc_frame *f = p->incs; f; f = f->up) {
+        if (strcmp(f->real, real) == 0) {
+            ls_error(p->d, sloc, "include cycle: '%s' includes itself (through '%s')", name, f->shown);
+            return;
+        }
+    }
+    size_t len = 0;
+    char *text = ls_read_file(path, &len);
+    if (!text) {
+        ls_error(p->d, sloc, "cannot read included file '%s': %s", path, strerror(errno));
+        return;
+    }
+    int id = len < UINT_MAX ? ls_sources_add(p->d, path, text, (unsigned)len) : -1;
+    free(text);
+    if (id < 0) {
+        ls_error(p->d, sloc, "out of memory reading '%s'", path);
+        return;
+    }
+    inc_frame fr = {ls_arena_strdup(p->a, real), name, p->incs};
+    parse_registered(p, id, dir_of(p->a, path), &fr, p->inc_depth + 1, out, block);
+}
+
+static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
+{
+    parser p;
+    memset(&p, 0, sizeof p);
+    p.d = d;
+    p.a = d->arena;
+    int errors0 = d->errors;
+    char real[PATH_MAX];
+    inc_frame fr = {NULL, path, NULL};
+    if (realpath(path, real))
+        fr.real = ls_arena_strdup(p.a, real);
+    else
+        fr.real = "";
+    stmt_list out = {0};
+    parse_registered(&p, file, dir_of(p.a, path), &fr, 0, &out, NULL);
+    prog->stmts = ls_arena_alloc(p.a, (size_t)(out.n ? out.n : 1) * sizeof *prog->stmts);
+    if (prog->stmts)
+        memcpy(prog->stmts, out.v, (size_t)out.n * sizeof *out.v);
+    prog->n = out.n;
+    free(out.v);
+    return d->errors - errors0;
+}
+
+int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog)
+{
+    memset(prog, 0, sizeof *prog);
+    if (len >= LS_MAX_FILE_BYTES) {
+        ls_error(d, LS_NOLOC, "'%s' is larger than %u bytes", name, LS_MAX_FILE_BYTES);
+        return 1;
+    }
+    int id = ls_sources_add(d, name, text, (unsigned)len);
+    if (id < 0) {
+        ls_error(d, LS_NOLOC, "out of memory reading '%s'", name);
+        return 1;
+    }
+    return parse_top(d, id, name, prog);
+}
+
+int ls_parse_file(ls_diags *d, const char *path, ls_program *prog)
+{
+    memset(prog, 0, sizeof *prog);
+    size_t len = 0;
+    char *text = ls_read_file(path, &len);
+    if (!text) {
+        ls_error(d, LS_NOLOC, "cannot read '%s': %s", path, strerror(errno));
+        return 1;
+    }
+    int r = ls_parse_string(d, path, text, len, prog);
+    free(text);
+    return r;
+}
+
+ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect)
+{
+    int id = ls_sources_add(d, name, text, (unsigned)strlen(text));
+    if (id < 0)
+        return NULL;
+    parser p;
+    memset(&p, 0, sizeof p);
+    p.d = d;
+    p.a = d->arena;
+    p.in_expect = in_expect;
+    ls_lex_init(&p.lx, d, id);
+    advance(&p);
+    int e0 = d->errors;
+    ls_expr *e = parse_sum(&p);
+    if (e && p.tok.kind != T_EOF && p.tok.kind != T_NEWLINE) {
+        expected(&p, "end of the expression");
+        return NULL;
+    }
+    return d->errors == e0 ? e : NULL;
+}

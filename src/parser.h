@@ -1,0 +1,24 @@
+/* parser.h — circuit text to a syntax tree; includes are spliced in here. */
+#ifndef LS_PARSER_H
+#define LS_PARSER_H
+
+#include "ast.h"
+
+#define LS_MAX_INCLUDE_DEPTH 16
+#define LS_MAX_EXPR_DEPTH 200
+#define LS_MAX_FILE_BYTES (1u << 30)
+
+/* Parse the file at path into *prog (allocated in the diagnostics' arena).
+ * Returns the number of errors reported (0 on success). */
+int ls_parse_file(ls_diags *d, const char *path, ls_program *prog);
+/* Parse text held in memory; `name` is used in diagnostics and for includes
+ * (relative to the current directory when name has no directory part). */
+int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog);
+/* Parse one expression from text (for --set values and command-line quantities).
+ * Returns NULL after reporting an error. */
+ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect);
+
+/* Read a whole file; NULL (errno set) on failure.  Caller frees. */
+char *ls_read_file(const char *path, size_t *len);
+
+#endif

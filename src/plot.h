@@ -1,0 +1,87 @@
+/* plot.h — line plots and histograms drawn with cairo, written as SVG or PNG.
+ *
+ * The caller fills a plain description struct (all pointers are borrowed and
+ * only read during the call) and names the output file; the extension picks
+ * the format: ".svg" or ".png" (any case), anything else is an error.  The
+ * picture is drawn into a temporary file in the same directory and renamed
+ * over the target only when complete, so a failed call leaves no partial file.
+ * Tick labels are "nice" 1-2-5 values in engineering notation with the axis
+ * unit (ls_fmt_eng: "1.5 mV", "10 kΩ"), so axis labels carry no unit. */
+#ifndef LS_PLOT_H
+#define LS_PLOT_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#define LS_PLOT_MAX_SERIES 8
+#define LS_PLOT_MAX_MARKS 16
+#define LS_PLOT_DEFAULT_WIDTH 800   /* pixels */
+#define LS_PLOT_DEFAULT_HEIGHT 500
+
+enum ls_plot_status {
+    LS_PLOT_OK = 0,
+    LS_PLOT_EARG,     /* bad description: no data, too many series, x ≤ 0 on a log axis, ... */
+    LS_PLOT_EFORMAT,  /* file name is neither .svg nor .png */
+    LS_PLOT_EIO,      /* temporary file cannot be created, written or renamed */
+    LS_PLOT_ECAIRO,   /* cairo reported an error while drawing or encoding */
+};
+
+/* One curve; points with a non-finite x or y are gaps in the line. */
+typedef struct ls_plot_series {
+    const char *name;     /* legend text; NULL or "" leaves it out of the legend */
+    const double *x, *y;  /* n points each */
+    size_t n;
+} ls_plot_series;
+
+/* A labelled reference line: horizontal (y = value) on a line plot, vertical
+ * (x = value) on a histogram.  E.g. {0.2, "expect ≥ 0.2 V"}. */
+typedef struct ls_plot_mark {
+    double value;         /* in the axis's unit; must be finite */
+    const char *label;    /* may be NULL */
+} ls_plot_mark;
+
+typedef struct ls_plot_line {
+    const char *title;                 /* may be NULL */
+    const char *xlabel, *xunit;        /* unit as given to ls_fmt_eng: "V", "Ω", "" */
+    const char *ylabel, *yunit;
+    bool logx;                         /* log x axis; every finite x must then be > 0 */
+    const ls_plot_series *series;      /* 1..LS_PLOT_MAX_SERIES */
+    size_t nseries;
+    const ls_plot_mark *bounds;        /* 0..LS_PLOT_MAX_MARKS horizontal lines */
+    size_t nbounds;
+    int width, height;                 /* pixels, 100..20000; 0 = default 800 × 500 */
+} ls_plot_line;
+
+typedef struct ls_plot_hist {
+    const char *title;
+    const char *xlabel, *xunit;
+    const char *ylabel;                /* NULL = "count" */
+    const double *values;              /* non-finite values are skipped */
+    size_t n;
+    int bins;                          /* 0 = ls_plot_hist_bins() */
+    const ls_plot_mark *marks;         /* 0..LS_PLOT_MAX_MARKS vertical lines */
+    size_t nmarks;
+    int width, height;                 /* as for ls_plot_line */
+} ls_plot_hist;
+
+/* Draw p into `path`.  Returns an ls_plot_status; on failure a one-line reason
+ * goes to msg (msgn bytes, may be NULL/0) and no file is left at path. */
+int ls_plot_line_write(const ls_plot_line *p, const char *path, char *msg, size_t msgn);
+int ls_plot_hist_write(const ls_plot_hist *p, const char *path, char *msg, size_t msgn);
+
+/* Ticks at k·step, step = 1, 2 or 5 × 10^e chosen so about `target` (≥ 1)
+ * intervals cover [lo, hi]; the first tick is ≤ lo and the last ≥ hi.  lo > hi
+ * is swapped; lo == hi is widened by 10 % (±1 around 0).  Each tick is the
+ * double nearest its decimal value (0.3, not 0.30000000000000004).  Writes at
+ * most max ticks to ticks[] and the step to *step (if not NULL); returns the
+ * count, or 0 when lo or hi is not finite or more than max ticks are needed. */
+size_t ls_plot_nice_ticks(double lo, double hi, int target, double *ticks, size_t max,
+                          double *step);
+
+/* Default histogram bin count for the finite values of v: Freedman–Diaconis,
+ * ceil(range / (2·IQR·n^(−1/3))) with quartiles by linear interpolation (as
+ * numpy's histogram 'fd'); the square-root rule ceil(√n) when the IQR or range
+ * is 0; clamped to 1..500.  Returns 1 for fewer than 2 finite values. */
+int ls_plot_hist_bins(const double *v, size_t n);
+
+#endif

@@ -1,0 +1,613 @@
+/* report.c — the operating-point and check reports in text, JSON and CSV. */
+#include "report.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "elab.h"
+#include "fmt.h"
+
+/* ---- shared pieces ------------------------------------------------------------------ */
+
+void ls_json_string(FILE *out, const char *s)
+{
+    fputc('"', out);
+    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
+        switch (*p) {
+        case '"': fputs("\\\"", out); break;
+        case '\\': fputs("\\\\", out); break;
+        case '\n': fputs("\\n", out); break;
+        case '\r': fputs("\\r", out); break;
+        case '\t': fputs("\\t", out); break;
+        default:
+            if (*p < 0x20)
+                fprintf(out, "\\u%04x", *p);
+            else
+                fputc(*p, out);
+        }
+    }
+    fputc('"', out);
+}
+
+void ls_json_number(FILE *out, double v)
+{
+    char b[40];
+    fputs(ls_fmt_full(b, sizeof b, v), out);
+}
+
+void ls_csv_field(FILE *out, const char *s)
+{
+    if (strpbrk(s, ",\"\n\r")) {
+        fputc('"', out);
+        for (; *s; s++) {
+            if (*s == '"')
+                fputc('"', out);
+            fputc(*s, out);
+        }
+        fputc('"', out);
+    } else {
+        fputs(s, out);
+    }
+}
+
+const char *ls_eng(const ls_report *rp, char *buf, size_t n, double v, const char *unit)
+{
+    return ls_fmt_eng(buf, n, v, unit, rp->sig, rp->ascii);
+}
+
+const char *ls_unit_of(ls_dims d, bool ascii)
+{
+    const char *u = ls_dims_symbol(d);
+    if (!u)
+        return "";
+    if (ascii && strcmp(u, "\xCE\xA9") == 0)
+        return "ohm";
+    return u;
+}
+
+/* Display width of a UTF-8 string (code points). */
+static int width(const char *s)
+{
+    int w = 0;
+    for (; *s; s++)
+        w += ((unsigned char)*s & 0xC0) != 0x80;
+    return w;
+}
+
+static void pad(FILE *out, const char *s, int w, bool right)
+{
+    int k = w - width(s);
+    if (right)
+        for (; k > 0; k--)
+            fputc(' ', out);
+    fputs(s, out);
+    if (!right)
+        for (; k > 0; k--)
+            fputc(' ', out);
+}
+
+/* ---- a small table printer for aligned text columns ---------------------------- */
+
+typedef struct table {
+    int ncol;
+    const char *head[10];
+    bool right[10];
+    char **cells;         /* rows * ncol, malloc'd strings */
+    int rows, cap;
+} table;
+
+static void t_row(table *t, const char *const *cells)
+{
+    if (t->rows == t->cap) {
+        int cap = t->cap ? t->cap * 2 : 32;
+        char **c = realloc(t->cells, (size_t)cap * (size_t)t->ncol * sizeof *c);
+        if (!c)
+            return;
+        t->cells = c;
+        t->cap = cap;
+    }
+    for (int i = 0; i < t->ncol; i++)
+        t->cells[t->rows * t->ncol + i] = strdup(cells[i] ? cells[i] : "");
+    t->rows++;
+}
+
+static void t_print(table *t, FILE *out)
+{
+    int w[10];
+    for (int c = 0; c < t->ncol; c++) {
+        w[c] = width(t->head[c]);
+        for (int r = 0; r < t->rows; r++) {
+            int k = width(t->cells[r * t->ncol + c]);
+            w[c] = k > w[c] ? k : w[c];
+        }
+    }
+    fputs("  ", out);
+    for (int c = 0; c < t->ncol; c++) {
+        if (c + 1 == t->ncol && !t->right[c])
+            fputs(t->head[c], out);
+        else
+            pad(out, t->head[c], w[c], t->right[c]);
+        fputs(c + 1 < t->ncol ? "  " : "\n", out);
+    }
+    for (int r = 0; r < t->rows; r++) {
+        fputs("  ", out);
+        for (int c = 0; c < t->ncol; c++) {
+            const char *s = t->cells[r * t->ncol + c];
+            if (c + 1 == t->ncol && !t->right[c]) {
+                fputs(s, out);
+            } else {
+                pad(out, s, w[c], t->right[c]);
+            }
+            fputs(c + 1 < t->ncol ? "  " : "\n", out);
+        }
+    }
+    for (int i = 0; i < t->rows * t->ncol; i++)
+        free(t->cells[i]);
+    free(t->cells);
+    t->cells = NULL;
+    t->rows = t->cap = 0;
+}
+
+/* ---- checks ------------------------------------------------------------------------- */
+
+static const char *verdict_name(ls_verdict v)
+{
+    static const char *const n[] = {"ok", "marginal", "loading"};
+    return n[v];
+}
+
+int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
+{
+    const ls_netlist *nl = op->nl;
+    memset(out, 0, sizeof *out);
+    int nports = 0;
+    for (int i = 0; i < nl->nparts; i++)
+        nports += nl->parts[i].kind->is_port;
+    int cap = nl->nchecks + (with_rule ? nports : 0);
+    out->rows = calloc((size_t)(cap ? cap : 1), sizeof *out->rows);
+    if (!out->rows)
+        return -1;
+    for (int i = 0; i < nl->nchecks; i++) {
+        const ls_check *c = &nl->checks[i];
+        ls_check_row *row = &out->rows[out->n++];
+        row->text = c->text;
+        row->instance = c->instance;
+        row->loc = c->stmt->loc;
+        row->dims = c->lhs->dims;
+        row->port = -1;
+        ls_check_eval(op, c, &row->r);
+    }
+    if (with_rule) {
+        double min = ls_op_min_ratio(op);
+        for (int i = 0; i < nl->nparts; i++) {
+            if (!nl->parts[i].kind->is_port)
+                continue;
+            const ls_port_result *pr = ls_op_port(op, i);
+            ls_check_row *row = &out->rows[out->n++];
+            row->text = ls_arena_printf(nl->arena, "rule ratio >= %g (port %s)", min, nl->parts[i].name);
+            row->instance = nl->parts[i].instance;
+            row->loc = nl->parts[i].loc;
+            row->dims = LS_FREE;
+            row->port = i;
+            row->r.value = pr->ratio;
+            row->r.lo = min;
+            row->r.hi = INFINITY;
+            row->r.pass = pr->verdict == VERDICT_OK;
+            if (isnan(pr->ratio) && !row->r.pass)
+                row->r.reason = pr->note ? pr->note : "the ratio is undefined";
+        }
+    }
+    for (int i = 0; i < out->n; i++) {
+        if (out->rows[i].r.pass)
+            out->passed++;
+        else
+            out->failed++;
+    }
+    return 0;
+}
+
+void ls_checks_free(ls_checks *c)
+{
+    free(c->rows);
+    memset(c, 0, sizeof *c);
+}
+
+static int loc_line(const ls_diags *d, ls_loc l)
+{
+    if (l.file < 0)
+        return 0;
+    int line, col;
+    ls_loc_linecol(d, l.file, l.start, &line, &col);
+    return line;
+}
+
+static const char *loc_file(const ls_diags *d, ls_loc l)
+{
+    return l.file >= 0 ? d->files[l.file].path : "";
+}
+
+static void checks_json(ls_report *rp, const ls_checks *c)
+{
+    FILE *o = rp->out;
+    fputs("[", o);
+    for (int i = 0; i < c->n; i++) {
+        const ls_check_row *r = &c->rows[i];
+        fprintf(o, "%s\n    {\"file\": ", i ? "," : "");
+        ls_json_string(o, loc_file(rp->diags, r->loc));
+        fprintf(o, ", \"line\": %d, \"instance\": ", loc_line(rp->diags, r->loc));
+        if (r->instance)
+            ls_json_string(o, r->instance);
+        else
+            fputs("null", o);
+        fputs(", \"text\": ", o);
+        ls_json_string(o, r->text);
+        fputs(", \"value\": ", o);
+        ls_json_number(o, r->r.value);
+        fprintf(o, ", \"pass\": %s", r->r.pass ? "true" : "false");
+        if (r->r.reason) {
+            fputs(", \"reason\": ", o);
+            ls_json_string(o, r->r.reason);
+        }
+        fputs("}", o);
+    }
+    fputs(c->n ? "\n  ]" : "]", o);
+}
+
+static void checks_text(ls_report *rp, const ls_checks *c)
+{
+    FILE *o = rp->out;
+    if (!c->n)
+        return;
+    fprintf(o, "\nChecks (%d passed, %d failed)\n", c->passed, c->failed);
+    table t = {.ncol = 4, .head = {"result", "check", "value", "where"}};
+    for (int i = 0; i < c->n; i++) {
+        const ls_check_row *r = &c->rows[i];
+        char val[64], where[600], text[600];
+        ls_eng(rp, val, sizeof val, r->r.value, ls_unit_of(r->dims, rp->ascii));
+        ls_loc_str(rp->diags, r->loc, where, sizeof where);
+        if (r->instance && r->port < 0)
+            snprintf(text, sizeof text, "%s  [in %s]", r->text, r->instance);
+        else
+            snprintf(text, sizeof text, "%s", r->text);
+        const char *cells[4] = {r->r.pass ? "pass" : "FAIL", text, val, where};
+        t_row(&t, cells);
+    }
+    t_print(&t, o);
+    for (int i = 0; i < c->n; i++)
+        if (c->rows[i].r.reason)
+            fprintf(o, "  note: %s: %s\n", c->rows[i].text, c->rows[i].r.reason);
+}
+
+/* ---- warnings ----------------------------------------------------------------------- */
+
+void ls_report_warnings_json(ls_report *rp)
+{
+    FILE *o = rp->out;
+    const ls_diags *d = rp->diags;
+    fputs("[", o);
+    int k = 0;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (g->sev != LS_SEV_WARNING)
+            continue;
+        fprintf(o, "%s\n    {\"code\": ", k++ ? "," : "");
+        ls_json_string(o, g->code ? g->code : "warning");
+        fputs(", \"message\": ", o);
+        ls_json_string(o, g->msg);
+        fputs(", \"file\": ", o);
+        if (g->loc.file >= 0)
+            ls_json_string(o, loc_file(d, g->loc));
+        else
+            fputs("null", o);
+        fputs(", \"line\": ", o);
+        if (g->loc.file >= 0)
+            fprintf(o, "%d", loc_line(d, g->loc));
+        else
+            fputs("null", o);
+        fputs("}", o);
+    }
+    fputs(k ? "\n  ]" : "]", o);
+}
+
+static void warnings_text(ls_report *rp)
+{
+    const ls_diags *d = rp->diags;
+    int k = 0;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (g->sev != LS_SEV_WARNING)
+            continue;
+        if (!k++)
+            fputs("\nWarnings\n", rp->out);
+        char where[600];
+        ls_loc_str(d, g->loc, where, sizeof where);
+        fprintf(rp->out, "  %s%s%s [%s]\n", where, where[0] ? ": " : "", g->msg, g->code ? g->code : "warning");
+    }
+}
+
+/* ---- solve: text ----------------------------------------------------------------------- */
+
+static const char *method_name(ls_method m)
+{
+    static const char *const n[] = {"dense-lu", "sparse-lu", "sparse-cholesky"};
+    return n[m];
+}
+
+static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+{
+    const ls_part *p = &op->nl->parts[i];
+    double min = ls_op_min_ratio(op);
+    char a[64], b[64];
+    if (pr->verdict == VERDICT_OK)
+        return;
+    if (pr->current_mode) {
+        fprintf(rp->out, "  -> %s: zout/zin = %s is below %g. To meet it: a load resistance (zin) of at most %s, or a "
+                         "source resistance (zout) of at least %s.\n",
+                p->name, ls_eng(rp, a, sizeof a, pr->ratio, ""), min,
+                ls_eng(rp, b, sizeof b, pr->zout / min, ls_unit_of(LS_OHM, rp->ascii)),
+                ls_eng(rp, a, sizeof a, pr->zin * min, ls_unit_of(LS_OHM, rp->ascii)));
+        return;
+    }
+    if (isnan(pr->ratio)) {
+        fprintf(rp->out, "  -> %s: the loading ratio is undefined%s%s.\n", p->name, pr->note ? ": " : "",
+                pr->note ? pr->note : "");
+        return;
+    }
+    fprintf(rp->out, "  -> %s: zin/zout = %s is below the %g x rule. To meet it: a driver with zout at most %s, or a load "
+                     "with zin at least %s, or a buffer (an op-amp follower) between them.\n",
+            p->name, ls_eng(rp, a, sizeof a, pr->ratio, ""), min,
+            ls_eng(rp, b, sizeof b, pr->zin / min, ls_unit_of(LS_OHM, rp->ascii)),
+            ls_eng(rp, a, sizeof a, pr->zout * min, ls_unit_of(LS_OHM, rp->ascii)));
+}
+
+static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    FILE *o = rp->out;
+    const ls_netlist *nl = op->nl;
+    const char *V = "V", *A = "A", *W = "W", *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64], b7[64];
+    fprintf(o, "%s\n", nl->title ? nl->title : "(untitled circuit)");
+    fprintf(o, "solved: %d unknowns by %s (%s), reciprocal condition %.2g, relative residual %.2g\n", op->mna.n,
+            method_name(op->method), ls_solver_stats_of(op->solver)->library, op->rcond, op->residual);
+
+    fputs("\nNodes\n", o);
+    table t = {.ncol = 2, .head = {"node", "voltage"}, .right = {false, true}};
+    for (int i = 0; i < nl->nnodes; i++) {
+        const char *c[2] = {nl->nodes[i].name, ls_eng(rp, b1, sizeof b1, op->v[i], V)};
+        t_row(&t, c);
+    }
+    t_print(&t, o);
+
+    int nparts = 0, nports = 0, nops = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        nports += nl->parts[i].kind->is_port;
+        nops += nl->parts[i].kind->is_opamp;
+        nparts += !nl->parts[i].kind->is_port;
+    }
+    if (nparts) {
+        fputs("\nParts\n", o);
+        table p = {.ncol = 5, .head = {"part", "kind", "current", "voltage", "power"},
+                   .right = {false, false, true, true, true}};
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *pt = &nl->parts[i];
+            if (pt->kind->is_port)
+                continue;
+            const char *c[5] = {pt->name, pt->kind->name, ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
+                                ls_eng(rp, b2, sizeof b2, op->vpart[i], V), ls_eng(rp, b3, sizeof b3, op->ppart[i], W)};
+            t_row(&p, c);
+        }
+        t_print(&p, o);
+    }
+    if (nports) {
+        fprintf(o, "\nPorts (loading: zin/zout should be at least %g)\n", ls_op_min_ratio(op));
+        table p = {.ncol = 10,
+                   .head = {"port", "driver -> load", "open", "loaded", "sag", "zout", "zin", "ratio", "current", "verdict"},
+                   .right = {false, false, true, true, true, true, true, true, true, false}};
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *pt = &nl->parts[i];
+            if (!pt->kind->is_port)
+                continue;
+            const ls_port_result *pr = ls_op_port(op, i);
+            const char *u = pr->current_mode ? A : V;
+            char conn[600], sag[96];
+            snprintf(conn, sizeof conn, "%s -> %s%s", nl->nodes[pt->pin[0]].name, nl->nodes[pt->pin[1]].name,
+                     pr->current_mode ? " (current)" : "");
+            ls_eng(rp, b3, sizeof b3, pr->sag, u);
+            if (isfinite(pr->sag_rel) && pr->sag != 0)
+                snprintf(sag, sizeof sag, "%s (%.3g%%)", b3, pr->sag_rel * 100);
+            else
+                snprintf(sag, sizeof sag, "%s", b3);
+            const char *c[10] = {pt->name, conn, ls_eng(rp, b1, sizeof b1, pr->open, u),
+                                 ls_eng(rp, b2, sizeof b2, pr->loaded, u), sag,
+                                 ls_eng(rp, b4, sizeof b4, pr->zout, OHM), ls_eng(rp, b5, sizeof b5, pr->zin, OHM),
+                                 ls_eng(rp, b6, sizeof b6, pr->ratio, ""), ls_eng(rp, b7, sizeof b7, pr->current, A),
+                                 verdict_name(pr->verdict)};
+            t_row(&p, c);
+        }
+        t_print(&p, o);
+        for (int i = 0; i < nl->nparts; i++)
+            if (nl->parts[i].kind->is_port)
+                fix_advice(rp, op, i, ls_op_port(op, i));
+    }
+    if (nops) {
+        fputs("\nOp-amps\n", o);
+        table p = {.ncol = 4, .head = {"op-amp", "out", "current", "limit"}, .right = {false, true, true, false}};
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *pt = &nl->parts[i];
+            if (!pt->kind->is_opamp)
+                continue;
+            const char *c[4] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], V),
+                                ls_eng(rp, b2, sizeof b2, op->ipart[i], A), "none"};
+            t_row(&p, c);
+        }
+        t_print(&p, o);
+    }
+    checks_text(rp, checks);
+    warnings_text(rp);
+}
+
+/* ---- solve: JSON and CSV ------------------------------------------------------------------ */
+
+static void kv(FILE *o, const char *k, double v, bool comma)
+{
+    fprintf(o, "%s\"%s\": ", comma ? ", " : "", k);
+    ls_json_number(o, v);
+}
+
+static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    FILE *o = rp->out;
+    const ls_netlist *nl = op->nl;
+    fputs("{\n  \"title\": ", o);
+    if (nl->title)
+        ls_json_string(o, nl->title);
+    else
+        fputs("null", o);
+    fprintf(o, ",\n  \"solver\": {\"method\": \"%s\", \"library\": \"%s\", \"unknowns\": %d", method_name(op->method),
+            ls_solver_stats_of(op->solver)->library, op->mna.n);
+    kv(o, "rcond", op->rcond, true);
+    kv(o, "residual", op->residual, true);
+    fprintf(o, ", \"iterations\": %d},\n  \"nodes\": {", op->iterations);
+    for (int i = 0; i < nl->nnodes; i++) {
+        fputs(i ? ",\n    " : "\n    ", o);
+        ls_json_string(o, nl->nodes[i].name);
+        fputs(": ", o);
+        ls_json_number(o, op->v[i]);
+    }
+    fputs("\n  },\n  \"parts\": {", o);
+    int k = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (p->kind->is_port)
+            continue;
+        fputs(k++ ? ",\n    " : "\n    ", o);
+        ls_json_string(o, p->name);
+        fprintf(o, ": {\"kind\": \"%s\"", p->kind->name);
+        kv(o, "current", op->ipart[i], true);
+        kv(o, "voltage", op->vpart[i], true);
+        kv(o, "power", op->ppart[i], true);
+        fputs("}", o);
+    }
+    fputs(k ? "\n  },\n  \"ports\": {" : "},\n  \"ports\": {", o);
+    k = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_op_port(op, i);
+        fputs(k++ ? ",\n    " : "\n    ", o);
+        ls_json_string(o, p->name);
+        fputs(": {\"from\": ", o);
+        ls_json_string(o, nl->nodes[p->pin[0]].name);
+        fputs(", \"to\": ", o);
+        ls_json_string(o, nl->nodes[p->pin[1]].name);
+        fprintf(o, ", \"mode\": \"%s\"", pr->current_mode ? "current" : "voltage");
+        kv(o, "open", pr->open, true);
+        kv(o, "loaded", pr->loaded, true);
+        kv(o, "sag", pr->sag, true);
+        kv(o, "sag_rel", pr->sag_rel, true);
+        kv(o, "zout", pr->zout, true);
+        kv(o, "zin", pr->zin, true);
+        kv(o, "ratio", pr->ratio, true);
+        kv(o, "current", pr->current, true);
+        fprintf(o, ", \"verdict\": \"%s\"}", verdict_name(pr->verdict));
+    }
+    fputs(k ? "\n  },\n  \"opamps\": {" : "},\n  \"opamps\": {", o);
+    k = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_opamp)
+            continue;
+        fputs(k++ ? ",\n    " : "\n    ", o);
+        ls_json_string(o, p->name);
+        fputs(": {", o);
+        kv(o, "out", op->v[p->pin[2]], false);
+        kv(o, "current", op->ipart[i], true);
+        fputs(", \"limited\": \"none\"}", o);
+    }
+    fputs(k ? "\n  },\n  \"checks\": " : "},\n  \"checks\": ", o);
+    checks_json(rp, checks);
+    fputs(",\n  \"warnings\": ", o);
+    ls_report_warnings_json(rp);
+    fputs("\n}\n", o);
+}
+
+static void csv_row(FILE *o, const char *section, const char *name, const char *field, double v)
+{
+    char b[40];
+    ls_csv_field(o, section);
+    fputc(',', o);
+    ls_csv_field(o, name);
+    fputc(',', o);
+    ls_csv_field(o, field);
+    fputc(',', o);
+    fputs(isfinite(v) ? ls_fmt_full(b, sizeof b, v) : "", o);
+    fputc('\n', o);
+}
+
+static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    FILE *o = rp->out;
+    const ls_netlist *nl = op->nl;
+    fputs("section,name,field,value\n", o);
+    for (int i = 0; i < nl->nnodes; i++)
+        csv_row(o, "node", nl->nodes[i].name, "voltage", op->v[i]);
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (p->kind->is_port) {
+            const ls_port_result *pr = ls_op_port(op, i);
+            const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current"};
+            double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current};
+            for (int j = 0; j < 8; j++)
+                csv_row(o, "port", p->name, f[j], v[j]);
+            continue;
+        }
+        csv_row(o, "part", p->name, "current", op->ipart[i]);
+        csv_row(o, "part", p->name, "voltage", op->vpart[i]);
+        csv_row(o, "part", p->name, "power", op->ppart[i]);
+        if (p->kind->is_opamp)
+            csv_row(o, "opamp", p->name, "out", op->v[p->pin[2]]);
+    }
+    for (int i = 0; i < checks->n; i++)
+        csv_row(o, "check", checks->rows[i].text, checks->rows[i].r.pass ? "pass" : "fail", checks->rows[i].r.value);
+}
+
+void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    switch (rp->fmt) {
+    case FMT_TEXT: solve_text(rp, op, checks); break;
+    case FMT_JSON: solve_json(rp, op, checks); break;
+    case FMT_CSV: solve_csv(rp, op, checks); break;
+    }
+}
+
+void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    FILE *o = rp->out;
+    (void)op;
+    if (rp->fmt == FMT_JSON) {
+        fputs("{\n  \"checks\": ", o);
+        checks_json(rp, checks);
+        fprintf(o, ",\n  \"passed\": %d,\n  \"failed\": %d\n}\n", checks->passed, checks->failed);
+    } else if (rp->fmt == FMT_CSV) {
+        fputs("file,line,instance,text,value,pass\n", o);
+        for (int i = 0; i < checks->n; i++) {
+            const ls_check_row *r = &checks->rows[i];
+            char b[40];
+            ls_csv_field(o, loc_file(rp->diags, r->loc));
+            fprintf(o, ",%d,", loc_line(rp->diags, r->loc));
+            ls_csv_field(o, r->instance ? r->instance : "");
+            fputc(',', o);
+            ls_csv_field(o, r->text);
+            fprintf(o, ",%s,%s\n", isfinite(r->r.value) ? ls_fmt_full(b, sizeof b, r->r.value) : "",
+                    r->r.pass ? "true" : "false");
+        }
+    } else {
+        if (!checks->n)
+            fputs("no checks in this circuit (add 'expect' lines or a 'rule')\n", o);
+        checks_text(rp, checks);
+        fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass", checks->passed,
+                checks->failed);
+    }
+}

@@ -1,0 +1,49 @@
+/* report.h — text, JSON and CSV reports.  Reporters only read results. */
+#ifndef LS_REPORT_H
+#define LS_REPORT_H
+
+#include <stdio.h>
+
+#include "analysis.h"
+
+typedef enum ls_format { FMT_TEXT, FMT_JSON, FMT_CSV } ls_format;
+
+typedef struct ls_report {
+    FILE *out;
+    ls_format fmt;
+    bool ascii;
+    int sig;                 /* significant digits in text (4) */
+    const ls_diags *diags;
+} ls_report;
+
+/* Check results for every expect and rule (allocated by the caller). */
+typedef struct ls_check_row {
+    const char *text;
+    const char *instance;
+    ls_loc loc;
+    ls_check_result r;
+    ls_dims dims;
+    int port;                /* rule rows: the port's part index, else -1 */
+} ls_check_row;
+
+typedef struct ls_checks {
+    ls_check_row *rows;
+    int n, passed, failed;
+} ls_checks;
+
+/* Evaluate every expect (and, when asked, the ratio rule on every port). */
+int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out);
+void ls_checks_free(ls_checks *c);
+
+void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks);
+void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks);
+
+/* Pieces shared with the other commands' reporters. */
+void ls_json_string(FILE *out, const char *s);
+void ls_json_number(FILE *out, double v);
+void ls_csv_field(FILE *out, const char *s);
+const char *ls_eng(const ls_report *rp, char *buf, size_t n, double v, const char *unit);
+const char *ls_unit_of(ls_dims d, bool ascii);
+void ls_report_warnings_json(ls_report *rp);
+
+#endif

@@ -1,0 +1,313 @@
+/* sens.c — adjoint sensitivities.
+ *
+ * For A x = b and a quantity Q = c^T x (+ explicit terms), with lambda = A^-T c,
+ *     dQ/dp = lambda^T (db/dp - dA/dp x) + dQ/dp|explicit.
+ * Each part's derivative stamp (the part table's stamp in derivative mode) is
+ * accumulated straight into lambda^T (db - dA x) by an adjoint sink.  Products,
+ * quotients and functions of leaves are differentiated by forward-mode dual
+ * numbers over the parts. */
+#include "sens.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "elab.h"
+#include "lexer.h"
+
+typedef struct ctx {
+    ls_op *op;
+    int np;
+    const char *error;
+} ctx;
+
+typedef struct dual {
+    double v;
+    double *g;             /* np entries */
+} dual;
+
+static bool has_main(const ls_part *p)
+{
+    return p->has_value && !p->kind->is_port;
+}
+
+/* lambda^T (db_m - dA_m x) for every part m. */
+static void adjoint_all(ctx *c, const double *lambda, double *g)
+{
+    const ls_netlist *nl = c->op->nl;
+    ls_sink s = {.mode = SINK_ADJOINT, .lambda = lambda, .x = c->op->x, .scale = 1};
+    for (int m = 0; m < nl->nparts; m++) {
+        const ls_part *p = &nl->parts[m];
+        if (!has_main(p)) {
+            g[m] = 0;
+            continue;
+        }
+        s.acc = 0;
+        ls_stamp_ctx sc = {.nl = nl, .sink = &s, .derivative = true};
+        p->kind->stamp(p, &sc);
+        g[m] = s.acc;
+    }
+}
+
+/* Gradient of the linear functional sum coef_i x_idx_i. */
+static bool linear_leaf(ctx *c, const ls_lin *l, double *g)
+{
+    int n = c->op->mna.n;
+    double *lam = calloc((size_t)(n ? n : 1), sizeof *lam);
+    if (!lam)
+        return false;
+    for (int i = 0; i < l->n; i++)
+        lam[l->idx[i]] += l->coef[i];
+    bool ok = ls_op_solve_vec(c->op, lam, 1) == LS_SOLVER_OK;
+    if (ok)
+        adjoint_all(c, lam, g);
+    free(lam);
+    return ok;
+}
+
+/* d(current of part j)/d(main value of m) with x held fixed. */
+static double explicit_current(ctx *c, int j, int m, int depth)
+{
+    const ls_netlist *nl = c->op->nl;
+    const ls_part *p = &nl->parts[j];
+    double d = 0;
+    if (depth > 32)
+        return 0;
+    if (j == m) {
+        ls_lin l;
+        ls_part_current(p, nl, &l, true);
+        d += ls_lin_eval(&l, c->op->x);
+    }
+    if (strcmp(p->kind->name, "cccs") == 0 && p->ref >= 0)
+        d += p->value * explicit_current(c, p->ref, m, depth + 1);
+    return d;
+}
+
+static bool leaf_node(ctx *c, int node, dual *out)
+{
+    out->v = c->op->v[node];
+    memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+    if (node == 0)
+        return true;
+    ls_lin l = {.n = 1, .idx = {node - 1}, .coef = {1}};
+    return linear_leaf(c, &l, out->g);
+}
+
+static bool leaf_current(ctx *c, int j, dual *out)
+{
+    const ls_netlist *nl = c->op->nl;
+    ls_lin l;
+    ls_part_current(&nl->parts[j], nl, &l, false);
+    out->v = c->op->ipart[j];
+    if (l.overflow) {
+        c->error = "the current depends on too many unknowns for the sensitivity analysis";
+        return false;
+    }
+    if (!linear_leaf(c, &l, out->g))
+        return false;
+    for (int m = 0; m < nl->nparts; m++)
+        if (has_main(&nl->parts[m]))
+            out->g[m] += explicit_current(c, j, m, 0);
+    return true;
+}
+
+/* The drop V(from) - V(to) of a part (for an op-amp: -V(out)). */
+static bool leaf_drop(ctx *c, int j, dual *out)
+{
+    const ls_part *p = &c->op->nl->parts[j];
+    ls_lin l = {0};
+    if (p->kind->vsign == VSIGN_OUT) {
+        if (p->pin[2] > 0)
+            l = (ls_lin){.n = 1, .idx = {p->pin[2] - 1}, .coef = {-1}};
+        out->v = -c->op->v[p->pin[2]];
+    } else {
+        int a = p->pin[0] - 1, b = p->pin[1] - 1;
+        if (a >= 0) {
+            l.idx[l.n] = a;
+            l.coef[l.n++] = 1;
+        }
+        if (b >= 0) {
+            l.idx[l.n] = b;
+            l.coef[l.n++] = -1;
+        }
+        out->v = c->op->v[p->pin[0]] - c->op->v[p->pin[1]];
+    }
+    return linear_leaf(c, &l, out->g);
+}
+
+static bool alloc_dual(ctx *c, dual *d)
+{
+    d->g = calloc((size_t)(c->np ? c->np : 1), sizeof *d->g);
+    return d->g != NULL;
+}
+
+static bool eval(ctx *c, const ls_q *q, dual *out);
+
+static bool eval_prop(ctx *c, const ls_q *q, dual *out)
+{
+    const ls_part *p = &c->op->nl->parts[q->index];
+    switch (q->prop) {
+    case PROP_CURRENT:
+        return leaf_current(c, q->index, out);
+    case PROP_VOLTAGE:
+        if (!leaf_drop(c, q->index, out))
+            return false;
+        if (p->kind->vsign != VSIGN_DROP) {
+            out->v = -out->v;
+            for (int m = 0; m < c->np; m++)
+                out->g[m] = -out->g[m];
+        }
+        return true;
+    case PROP_POWER: {
+        dual i = {0};
+        if (!alloc_dual(c, &i))
+            return false;
+        bool ok = leaf_drop(c, q->index, out) && leaf_current(c, q->index, &i);
+        if (ok)
+            for (int m = 0; m < c->np; m++)
+                out->g[m] = out->g[m] * i.v + out->v * i.g[m];
+        out->v *= i.v;
+        free(i.g);
+        return ok;
+    }
+    case PROP_LOADED:
+        if (ls_part_opt(p, "mode", 0) == 1)
+            return leaf_current(c, q->index, out);
+        return leaf_node(c, p->pin[0], out);
+    default:
+        c->error = "sensitivities of a port's open, sag, zout, zin and ratio fields are not available yet; "
+                   "use its loaded voltage or current";
+        return false;
+    }
+}
+
+static bool eval(ctx *c, const ls_q *q, dual *out)
+{
+    int np = c->np;
+    switch (q->kind) {
+    case Q_CONST:
+        out->v = q->value;
+        memset(out->g, 0, (size_t)np * sizeof *out->g);
+        return true;
+    case Q_NODE:
+        return leaf_node(c, q->index, out);
+    case Q_PROP:
+        return eval_prop(c, q, out);
+    case Q_NEG:
+        if (!eval(c, q->a, out))
+            return false;
+        out->v = -out->v;
+        for (int m = 0; m < np; m++)
+            out->g[m] = -out->g[m];
+        return true;
+    case Q_BIN: {
+        dual b;
+        if (!alloc_dual(c, &b))
+            return false;
+        if (!eval(c, q->a, out) || !eval(c, q->b, &b)) {
+            free(b.g);
+            return false;
+        }
+        double x = out->v, y = b.v, v = ls_apply_op(q->op, x, y);
+        for (int m = 0; m < np; m++) {
+            double dx = out->g[m], dy = b.g[m];
+            switch (q->op) {
+            case T_PLUS: out->g[m] = dx + dy; break;
+            case T_MINUS: out->g[m] = dx - dy; break;
+            case T_STAR: out->g[m] = dx * y + x * dy; break;
+            case T_SLASH: out->g[m] = (dx * y - x * dy) / (y * y); break;
+            case T_PARALLEL: out->g[m] = (dx * y * y + dy * x * x) / ((x + y) * (x + y)); break;
+            case T_CARET: out->g[m] = v * (dy * log(x) + y * dx / x); break;
+            }
+            if (q->op == T_CARET && dy == 0)
+                out->g[m] = y * pow(x, y - 1) * dx;
+        }
+        out->v = v;
+        free(b.g);
+        return true;
+    }
+    case Q_CALL: {
+        if (q->nargs != 1 && q->op != F_MIN && q->op != F_MAX)
+            return false;
+        dual args[8];
+        int n = q->nargs;
+        for (int i = 0; i < n; i++)
+            args[i].g = NULL;
+        bool ok = true;
+        for (int i = 0; i < n && ok; i++)
+            ok = alloc_dual(c, &args[i]) && eval(c, q->args[i], &args[i]);
+        if (ok) {
+            double vals[8] = {0};
+            for (int i = 0; i < n; i++)
+                vals[i] = args[i].v;
+            double v = ls_apply_func(q->op, vals, n), x = args[0].v;
+            int pick = 0;
+            for (int i = 0; i < n; i++)
+                if (vals[i] == v)
+                    pick = i;
+            for (int m = 0; m < np; m++) {
+                double dx = args[0].g[m];
+                switch (q->op) {
+                case F_SQRT: out->g[m] = dx / (2 * v); break;
+                case F_ABS: out->g[m] = x < 0 ? -dx : dx; break;
+                case F_EXP: out->g[m] = v * dx; break;
+                case F_LN: out->g[m] = dx / x; break;
+                case F_LOG10: out->g[m] = dx / (x * log(10.0)); break;
+                default: out->g[m] = args[pick].g[m]; break;
+                }
+            }
+            out->v = v;
+        }
+        for (int i = 0; i < n; i++)
+            free(args[i].g);
+        return ok;
+    }
+    }
+    return false;
+}
+
+static int by_norm(const void *a, const void *b)
+{
+    const ls_sens_item *x = a, *y = b;
+    double ax = isnan(x->normalized) ? fabs(x->derivative) : fabs(x->normalized);
+    double ay = isnan(y->normalized) ? fabs(y->derivative) : fabs(y->normalized);
+    if (ax != ay)
+        return ax < ay ? 1 : -1;
+    return x->part - y->part;
+}
+
+int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
+{
+    const ls_netlist *nl = op->nl;
+    ctx c = {.op = op, .np = nl->nparts};
+    dual d;
+    *items = NULL;
+    if (!alloc_dual(&c, &d))
+        return -1;
+    if (!eval(&c, q, &d)) {
+        ls_error(nl->diags, q->loc, "%s", c.error ? c.error : "the sensitivity analysis failed");
+        free(d.g);
+        return -1;
+    }
+    *value = d.v;
+    int k = 0;
+    ls_sens_item *it = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *it);
+    if (!it) {
+        free(d.g);
+        return -1;
+    }
+    for (int m = 0; m < nl->nparts; m++) {
+        const ls_part *p = &nl->parts[m];
+        if (!has_main(p))
+            continue;
+        it[k].part = m;
+        it[k].nominal = p->value;
+        it[k].derivative = d.g[m];
+        it[k].normalized = d.v != 0 ? p->value / d.v * d.g[m] : NAN;
+        k++;
+    }
+    qsort(it, (size_t)k, sizeof *it, by_norm);
+    free(d.g);
+    *items = it;
+    return k;
+}

@@ -1,0 +1,106 @@
+/* solver.c — the backend-independent front end and sparse-matrix helpers. */
+#include "solver.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+struct ls_solver {
+    const ls_backend *be;
+    void *self;
+    ls_solver_stats st;
+    int factored;
+};
+
+ls_solver *ls_solver_new(const ls_backend *be, ls_method method)
+{
+    ls_solver *s = calloc(1, sizeof *s);
+    if (!s)
+        return NULL;
+    s->be = be;
+    s->self = be->create();
+    if (!s->self) {
+        free(s);
+        return NULL;
+    }
+    s->st.method = method;
+    s->st.library = be->name;
+    s->st.rcond = NAN;
+    s->st.bad_column = -1;
+    return s;
+}
+
+int ls_solver_analyze(ls_solver *s, const ls_csc *a)
+{
+    s->factored = 0;
+    return s->be->analyze(s->self, a, &s->st);
+}
+
+int ls_solver_factor(ls_solver *s, const ls_csc *a)
+{
+    s->st.bad_column = -1;
+    int r = s->be->factor(s->self, a, &s->st);
+    s->factored = r == LS_SOLVER_OK;
+    return r;
+}
+
+int ls_solver_solve(ls_solver *s, double *b, int transpose)
+{
+    if (!s->factored)
+        return LS_SOLVER_FAILED;
+    return s->be->solve(s->self, b, transpose, &s->st);
+}
+
+const ls_solver_stats *ls_solver_stats_of(const ls_solver *s)
+{
+    return &s->st;
+}
+
+void ls_solver_free(ls_solver **s)
+{
+    if (!s || !*s)
+        return;
+    (*s)->be->destroy((*s)->self);
+    free(*s);
+    *s = NULL;
+}
+
+void ls_csc_matvec(const ls_csc *a, const double *x, double *y, int transpose)
+{
+    int n = a->n;
+    if (!transpose) {
+        memset(y, 0, (size_t)n * sizeof *y);
+        for (int j = 0; j < n; j++) {
+            double xj = x[j];
+            for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+                y[a->rowind[p]] += a->val[p] * xj;
+        }
+    } else {
+        for (int j = 0; j < n; j++) {
+            double s = 0;
+            for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+                s += a->val[p] * x[a->rowind[p]];
+            y[j] = s;
+        }
+    }
+}
+
+double ls_csc_norm_inf(const ls_csc *a)
+{
+    double *row = calloc((size_t)(a->n ? a->n : 1), sizeof *row);
+    if (!row)
+        return NAN;
+    for (int j = 0; j < a->n; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            row[a->rowind[p]] += fabs(a->val[p]);
+    double m = 0;
+    for (int i = 0; i < a->n; i++)
+        m = row[i] > m ? row[i] : m;
+    free(row);
+    return m;
+}
+
+size_t ls_dense_bytes(int n)
+{
+    return (size_t)n * (size_t)n * sizeof(double) + (size_t)n * (sizeof(int) + 4 * sizeof(double));
+}

@@ -1,0 +1,90 @@
+/* solver.h — the linear-solver interface shared by the dense and sparse backends.
+ *
+ * Lifecycle (every backend):  new -> analyze (structure only) -> factor (numbers)
+ * -> solve (in place, any number of times, plain or transposed) -> factor again
+ * with the same pattern (reuses the analysis) -> free (sets the handle to NULL,
+ * accepts NULL).
+ *
+ * Matrices are square, compressed-column, 0-based, duplicates already summed,
+ * row indices sorted within each column.  The solver never keeps a pointer to the
+ * caller's matrix past a call; it copies what it needs.
+ */
+#ifndef LS_SOLVER_H
+#define LS_SOLVER_H
+
+#include <stddef.h>
+
+typedef struct ls_csc {
+    int n;          /* order */
+    int *colptr;    /* n+1 entries: column j holds rowind/val[colptr[j] .. colptr[j+1]-1] */
+    int *rowind;    /* nnz row indices */
+    double *val;    /* nnz values */
+} ls_csc;
+
+static inline int ls_csc_nnz(const ls_csc *a) { return a->colptr[a->n]; }
+
+typedef enum ls_method {
+    LS_METHOD_DENSE_LU = 0,      /* LAPACK dgetrf with equilibration */
+    LS_METHOD_SPARSE_LU,         /* KLU or UMFPACK, chosen by structure */
+    LS_METHOD_SPARSE_CHOLESKY    /* CHOLMOD, symmetric positive definite systems only */
+} ls_method;
+
+typedef enum ls_solver_status {
+    LS_SOLVER_OK = 0,
+    LS_SOLVER_SINGULAR = -1,     /* exactly or numerically singular; see bad_column */
+    LS_SOLVER_NOMEM = -2,
+    LS_SOLVER_TOO_LARGE = -3,    /* refused before allocating: see bytes_needed */
+    LS_SOLVER_NOT_SPD = -4,      /* Cholesky asked for a matrix that is not positive definite */
+    LS_SOLVER_FAILED = -5        /* any other library failure */
+} ls_solver_status;
+
+/* Statistics a backend fills in; controls are the arguments of the calls. */
+typedef struct ls_solver_stats {
+    ls_method method;
+    const char *library;   /* "lapack", "klu", "umfpack", "cholmod" */
+    double rcond;          /* reciprocal condition estimate (1-norm); NAN if unknown */
+    int bad_column;        /* first zero or tiny pivot column, -1 if none */
+    size_t bytes_needed;   /* with LS_SOLVER_TOO_LARGE: what the factor would take */
+    int factorizations;    /* numeric factorizations done */
+    int analyses;          /* symbolic analyses done */
+} ls_solver_stats;
+
+typedef struct ls_solver ls_solver;
+
+/* One backend: a table of functions.  `self` is backend-private state. */
+typedef struct ls_backend {
+    const char *name;
+    void *(*create)(void);
+    int (*analyze)(void *self, const ls_csc *a, ls_solver_stats *st);
+    int (*factor)(void *self, const ls_csc *a, ls_solver_stats *st);
+    /* Solve A x = b (transpose = 0) or A^T x = b (transpose = 1) in place,
+     * b is n values.  Only valid after a successful factor. */
+    int (*solve)(void *self, double *b, int transpose, ls_solver_stats *st);
+    void (*destroy)(void *self);
+} ls_backend;
+
+extern const ls_backend ls_backend_dense;
+/* Provided by sparse.c when built with SuiteSparse. */
+extern const ls_backend ls_backend_klu;
+extern const ls_backend ls_backend_umfpack;
+extern const ls_backend ls_backend_cholmod;
+
+/* Generic front end over a backend (solver.c). */
+ls_solver *ls_solver_new(const ls_backend *be, ls_method method);
+int ls_solver_analyze(ls_solver *s, const ls_csc *a);
+int ls_solver_factor(ls_solver *s, const ls_csc *a);
+/* Solve in place; `work` scratch is internal.  Returns LS_SOLVER_OK or an error. */
+int ls_solver_solve(ls_solver *s, double *b, int transpose);
+const ls_solver_stats *ls_solver_stats_of(const ls_solver *s);
+void ls_solver_free(ls_solver **s);
+
+/* Largest order the dense backend accepts, and the bytes it would need for n. */
+#define LS_DENSE_MAX_UNKNOWNS 8000
+size_t ls_dense_bytes(int n);
+
+/* y = A x  (or A^T x with transpose = 1). */
+void ls_csc_matvec(const ls_csc *a, const double *x, double *y, int transpose);
+/* Infinity norm of A (max row sum of |a_ij|). */
+double ls_csc_norm_inf(const ls_csc *a);
+
+#endif
