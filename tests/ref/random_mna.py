@@ -2,7 +2,7 @@
 """Reference test: loadstack's operating point against an independent MNA in numpy.
 
 Usage: random_mna.py LOADSTACK_BINARY [--count 60] [--seed 1] [--keep-failures DIR]
-                     [--verbose]
+                     [--solver auto|dense|sparse] [--verbose]
 
 Generates COUNT random, well-posed DC networks (fixed seed, so every run sees the
 same networks), writes each as a .stack file in a temporary directory, solves it
@@ -689,6 +689,8 @@ def main():
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--keep-failures", metavar="DIR",
                     help="copy the .stack file of every failing network here")
+    ap.add_argument("--solver", choices=("auto", "dense", "sparse"),
+                    help="pass --solver to loadstack (default: its own default)")
     ap.add_argument("--verbose", action="store_true",
                     help="print every mismatch, not just the first five")
     args = ap.parse_args()
@@ -731,8 +733,10 @@ def main():
                 kinds[key] = kinds.get(key, 0) + 1
             desc = " ".join("%s=%d" % kv for kv in sorted(kinds.items()))
             try:
-                proc = subprocess.run([args.binary, "solve", path, "--format", "json"],
-                                      capture_output=True, text=True, timeout=120)
+                cmd = [args.binary, "solve", path, "--format", "json"]
+                if args.solver:
+                    cmd += ["--solver", args.solver]
+                proc = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
             except subprocess.TimeoutExpired:
                 proc = None
             if proc is None:

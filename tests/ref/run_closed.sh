@@ -40,17 +40,31 @@ meaning() {
     esac
 }
 
-# run_one FILE [ARGS...]: one `check` run; prints a line, records a failure
+# run_one FILE [ARGS...]: one `check` run; prints a line, records a failure.
+# Besides the exit status, the JSON report must count at least as many passed
+# checks as the file has `expect` lines, so a check that was silently skipped
+# cannot pass.
 run_one() {
     local f=$1
     shift
-    local out rc
-    out=$(timeout 60 "$bin" check "$f" "$@" 2>&1)
+    local out rc json passed want
+    json=$(timeout 60 "$bin" check "$f" "$@" --format json 2>/dev/null)
     rc=$?
     runs=$((runs + 1))
-    if [ $rc -eq 0 ]; then
-        echo "ok    $(basename "$f") $*"
+    want=$(grep -cE '^[[:space:]]*expect[[:space:]]' "$f")
+    passed=$(printf '%s' "$json" | grep -oE '"passed"[[:space:]]*:[[:space:]]*[0-9]+' | grep -oE '[0-9]+$')
+    if [ $rc -eq 0 ] && [ -n "$passed" ] && [ "$passed" -lt "$want" ]; then
+        failed=$((failed + 1))
+        failures+=("$(basename "$f") $* (only $passed of $want expects passed)")
+        echo "FAIL  $(basename "$f") $*  -> exit 0 but only $passed of $want expects reported passed"
+    elif [ $rc -eq 0 ] && [ -z "$passed" ]; then
+        failed=$((failed + 1))
+        failures+=("$(basename "$f") $* (no \"passed\" count in the JSON report)")
+        echo "FAIL  $(basename "$f") $*  -> exit 0 but the JSON report has no \"passed\" count"
+    elif [ $rc -eq 0 ]; then
+        echo "ok    $(basename "$f") $*  ($passed checks)"
     else
+        out=$(timeout 60 "$bin" check "$f" "$@" 2>&1)
         failed=$((failed + 1))
         failures+=("$(basename "$f") $* (exit $rc: $(meaning $rc))")
         echo "FAIL  $(basename "$f") $*  -> exit $rc: $(meaning $rc)"
