@@ -18,67 +18,77 @@
 #define RESIDUAL_WARN 1e-9
 
 
-static double residual_of(const ls_csc *a, const double *x, const double *b, double *r, double anorm)
+/* r = b - op(A) x; returns the normwise relative residual
+ * ||r|| / (||A|| ||x|| + ||b||) and, in *berr, the componentwise backward error
+ * max_i |r_i| / (|A| |x| + |b|)_i that decides whether refinement can help. */
+static double residuals(const ls_csc *a, const double *x, const double *b, double *r, double *absax, int transpose,
+                        double *berr)
 {
     int n = a->n;
-    ls_csc_matvec(a, x, r, 0);
-    double rn = 0, xn = 0, bn = 0;
+    double anorm = 0;
+    for (int p = 0; p < ls_csc_nnz(a); p++)
+        anorm = fmax(anorm, fabs(a->val[p]));
+    memset(r, 0, (size_t)n * sizeof *r);
+    memset(absax, 0, (size_t)n * sizeof *absax);
+    for (int j = 0; j < n; j++) {
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
+            int i = a->rowind[p];
+            double v = a->val[p];
+            if (!transpose) {
+                r[i] += v * x[j];
+                absax[i] += fabs(v * x[j]);
+            } else {
+                r[j] += v * x[i];
+                absax[j] += fabs(v * x[i]);
+            }
+        }
+    }
+    double rn = 0, xn = 0, bn = 0, be = 0;
     for (int i = 0; i < n; i++) {
         r[i] = b[i] - r[i];
         rn = fmax(rn, fabs(r[i]));
         xn = fmax(xn, fabs(x[i]));
         bn = fmax(bn, fabs(b[i]));
+        double den = absax[i] + fabs(b[i]);
+        if (den > 0)
+            be = fmax(be, fabs(r[i]) / den);
+        else if (r[i] != 0)
+            be = INFINITY;
     }
+    *berr = be;
     double den = anorm * xn + bn;
     return den > 0 ? rn / den : rn;
 }
 
-/* Solve with the factorization, then refine against the exact matrix. */
+/* Solve with the factorization, then refine against the exact matrix until the
+ * componentwise backward error stops improving (at most 4 corrections). */
 static int refined_solve(ls_op *op, double *b, int transpose, double *residual_out, int *iters)
 {
     const ls_csc *a = &op->mna.a;
     int n = a->n;
-    double *rhs = malloc((size_t)(n ? n : 1) * sizeof *rhs);
-    double *r = malloc((size_t)(n ? n : 1) * sizeof *r);
+    size_t m = (size_t)(n ? n : 1);
+    double *rhs = malloc(m * sizeof *rhs), *r = malloc(m * sizeof *r), *w = malloc(m * sizeof *w);
     double *x = b;
-    if (!rhs || !r) {
+    if (!rhs || !r || !w) {
         free(rhs);
         free(r);
+        free(w);
         return LS_SOLVER_NOMEM;
     }
     memcpy(rhs, b, (size_t)n * sizeof *rhs);
     int st = ls_solver_solve(op->solver, x, transpose);
-    double anorm = 0;
-    for (int p = 0; p < ls_csc_nnz(a); p++)
-        anorm = fmax(anorm, fabs(a->val[p]));
-    anorm *= 1; /* a cheap bound is enough for the stopping test */
-    double res = INFINITY;
+    double res = INFINITY, berr_prev = INFINITY;
     int k = 0;
-    for (; st == LS_SOLVER_OK && k < 4; k++) {
-        double nr;
-        if (!transpose) {
-            nr = residual_of(a, x, rhs, r, anorm);
-        } else {
-            ls_csc_matvec(a, x, r, 1);
-            double rn = 0, xn = 0, bn = 0;
-            for (int i = 0; i < n; i++) {
-                r[i] = rhs[i] - r[i];
-                rn = fmax(rn, fabs(r[i]));
-                xn = fmax(xn, fabs(x[i]));
-                bn = fmax(bn, fabs(rhs[i]));
-            }
-            nr = anorm * xn + bn > 0 ? rn / (anorm * xn + bn) : rn;
-        }
-        if (!(nr < res * 0.5) && k > 0) {
-            res = fmin(res, nr);
+    while (st == LS_SOLVER_OK) {
+        double berr;
+        res = residuals(a, x, rhs, r, w, transpose, &berr);
+        if (berr <= 2 * DBL_EPSILON || k == 4 || !(berr < 0.5 * berr_prev))
             break;
-        }
-        res = nr;
-        if (res <= DBL_EPSILON)
-            break;
+        berr_prev = berr;
         st = ls_solver_solve(op->solver, r, transpose);
         for (int i = 0; i < n && st == LS_SOLVER_OK; i++)
             x[i] += r[i];
+        k++;
     }
     if (residual_out)
         *residual_out = res;
@@ -86,6 +96,7 @@ static int refined_solve(ls_op *op, double *b, int transpose, double *residual_o
         *iters = k;
     free(rhs);
     free(r);
+    free(w);
     return st;
 }
 
