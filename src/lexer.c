@@ -117,7 +117,7 @@ static void trailing_unit(ls_lexer *lx, ls_token *t)
 static void lex_number(ls_lexer *lx, ls_token *t)
 {
     unsigned s = lx->pos, p = s;
-    bool plain_int = true;
+    bool plain_int = true, iec = false;
     while (p < lx->len && isdigit((unsigned char)lx->src[p]))
         p++;
     if (p < lx->len && lx->src[p] == '.' && p + 1 < lx->len && isdigit((unsigned char)lx->src[p + 1])) {
@@ -172,6 +172,7 @@ static void lex_number(ls_lexer *lx, ls_token *t)
             snprintf(buf, sizeof buf, "%.*s.%.*s", (int)mlen, lx->src + s, (int)(q - fs), lx->src + fs);
             v = strtod(buf, NULL) * mult;
             p = q;
+            iec = true;
             n = suffix_len(lx, p);
         } else if (n == 1 && lx->src[p] == 'R') { /* 47R */
             p++;
@@ -182,6 +183,14 @@ static void lex_number(ls_lexer *lx, ls_token *t)
     if (n > 0) {
         double scale;
         ls_dims d;
+        if (iec && !(ls_unit_parse(lx->src + p, n, &scale, &d) && scale == 1)) {
+            lx->pos = p + n;
+            t->loc = here(lx, s);
+            ls_error(lx->diags, (ls_loc){lx->file, p, p + n},
+                     "'%.*s' after a letter code: the code already carries its multiplier", (int)n, lx->src + p);
+            t->kind = T_ERROR;
+            return;
+        }
         if (ls_unit_parse(lx->src + p, n, &scale, &d)) {
             t->num *= scale;
             t->dims = d;
