@@ -26,11 +26,11 @@ typedef struct ls_cli {
     /* command options */
     const char *load, *meter;          /* thevenin */
     const char *series, *total, *zout; /* pick */
-    long trials;                       /* tol */
-    unsigned long long seed;
+    long trials;                       /* tol (default 10000) */
+    unsigned long long seed;           /* default 1 */
     const char *dist;
     const char *plot;                  /* tol, sweep */
-    int steps;                         /* sweep */
+    int steps;                         /* sweep (default 51) */
     bool log;
     int threads;
 } ls_cli;
@@ -67,6 +67,14 @@ int ls_cmd_demo(ls_cli *cli);
 int ls_cmd_sag(ls_cli *cli);
 int ls_cmd_thevenin(ls_cli *cli);
 int ls_cmd_sens(ls_cli *cli);
+/* Do two bound quantities have the same structure (same nodes, properties,
+ * operators and constants)?  An expect is "on" QUANTITY when its left side is
+ * the same as QUANTITY's.  (tol_cmd.c) */
+bool ls_q_same(const ls_q *a, const ls_q *b);
+
+int ls_cmd_tol(ls_cli *cli);     /* tol_cmd.c */
+int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
+int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
 
 extern const char ls_demo_text[];
 

@@ -31,6 +31,15 @@ static const optdef options[] = {
     {"version", false, "*", "print the version"},
     {"load", true, "thevenin", "R  voltage and current into a load resistance R"},
     {"meter", true, "thevenin", "R  what a meter of input resistance R would read"},
+    {"trials", true, "tol", "N  Monte Carlo trials (default 10000)"},
+    {"seed", true, "tol", "S  random seed, a whole number (default 1): the same seed gives the same answer"},
+    {"dist", true, "tol", "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)"},
+    {"plot", true, "tol sweep", "FILE.svg|FILE.png  draw a picture (tol: histogram; sweep: the curves)"},
+    {"steps", true, "sweep", "N  points from FROM to TO, both included (default 51)"},
+    {"log", false, "sweep", "space the points evenly on a log scale (FROM and TO > 0)"},
+    {"series", true, "pick", "E6|E12|E24|E48|E96|E192  standard value series (default E24)"},
+    {"total", true, "pick", "LO..HI  range of rtop + rbot (default 1k..1M)"},
+    {"zout", true, "pick", "MAX  largest acceptable rtop || rbot"},
 };
 
 typedef struct cmd {
@@ -53,6 +62,12 @@ static const cmd commands[] = {
      "loadstack thevenin circuits/demo.stack probe --meter 10M", ls_cmd_thevenin, 2},
     {"sens", "sens FILE QUANTITY", "sensitivity of QUANTITY to every part's main value (adjoint method)",
      "loadstack sens circuits/demo.stack 'adc_in'", ls_cmd_sens, 2},
+    {"tol", "tol FILE QUANTITY", "tolerance analysis from the parts' tol=: worst case, Monte Carlo spread and yield",
+     "loadstack tol circuits/demo.stack adc_in --plot adc_in.svg", ls_cmd_tol, 2},
+    {"sweep", "sweep FILE PARAM FROM TO QUANTITY...", "sweep a top-level param and tabulate (or plot) quantities",
+     "loadstack sweep circuits/demo.stack moisture_r 1k 100k adc_in --log --plot sweep.svg", ls_cmd_sweep, 5},
+    {"pick", "pick ratio R", "best pairs of standard (IEC 60063) values for a divider ratio R = rbot/(rtop+rbot)",
+     "loadstack pick ratio 0.66 --series E24 --total 10k..100k", ls_cmd_pick, 2},
     {"demo", "demo", "the built-in demo circuit, solved (needs no file)", "loadstack demo", ls_cmd_demo, 0},
 };
 
@@ -131,6 +146,18 @@ static int bad_usage(const char *fmt, const char *a, const char *b)
     return LS_EXIT_USAGE;
 }
 
+/* Parse a decimal whole number in lo..hi into *v; false if it is not one. */
+static bool whole_number(const char *s, long lo, long hi, long *v)
+{
+    char *end;
+    errno = 0;
+    long x = strtol(s, &end, 10);
+    if (!*s || *end || errno || x < lo || x > hi)
+        return false;
+    *v = x;
+    return true;
+}
+
 static int set_option(ls_cli *cli, const optdef *o, const char *val)
 {
     const char *n = o->name;
@@ -166,6 +193,34 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         cli->load = val;
     } else if (strcmp(n, "meter") == 0) {
         cli->meter = val;
+    } else if (strcmp(n, "trials") == 0) {
+        if (!whole_number(val, 1, 10000000, &cli->trials))
+            return bad_usage("--trials takes a whole number from 1 to 10000000, not '%s'%s", val, "");
+    } else if (strcmp(n, "seed") == 0) {
+        char *end;
+        errno = 0;
+        cli->seed = strtoull(val, &end, 10);
+        if (!*val || *end || errno || strchr(val, '-'))
+            return bad_usage("--seed takes a whole number 0 or more, not '%s'%s", val, "");
+    } else if (strcmp(n, "dist") == 0) {
+        if (strcmp(val, "uniform") != 0 && strcmp(val, "normal") != 0)
+            return bad_usage("--dist takes uniform or normal, not '%s'%s", val, "");
+        cli->dist = val;
+    } else if (strcmp(n, "plot") == 0) {
+        cli->plot = val;
+    } else if (strcmp(n, "steps") == 0) {
+        long st;
+        if (!whole_number(val, 2, 100000, &st))
+            return bad_usage("--steps takes a whole number from 2 to 100000, not '%s'%s", val, "");
+        cli->steps = (int)st;
+    } else if (strcmp(n, "log") == 0) {
+        cli->log = true;
+    } else if (strcmp(n, "series") == 0) {
+        cli->series = val;
+    } else if (strcmp(n, "total") == 0) {
+        cli->total = val;
+    } else if (strcmp(n, "zout") == 0) {
+        cli->zout = val;
     }
     return 0;
 }
@@ -175,6 +230,9 @@ int main(int argc, char **argv)
     ls_cli cli;
     memset(&cli, 0, sizeof cli);
     cli.derate = 1;
+    cli.seed = 1;
+    cli.trials = 10000;
+    cli.steps = 51;
     const cmd *c = NULL;
     bool want_version = false;
     for (int i = 1; i < argc; i++) {

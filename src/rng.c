@@ -25,6 +25,21 @@ void ls_rng_seed(ls_rng *r, uint64_t seed, uint64_t stream)
     r->has_spare = false;
 }
 
+/* SplitMix64's output function (Steele, Lea and Flood, "Fast splittable
+ * pseudorandom number generators", OOPSLA 2014): a bijective 64-bit mix. */
+static uint64_t splitmix64(uint64_t z)
+{
+    z += UINT64_C(0x9E3779B97F4A7C15);
+    z = (z ^ (z >> 30)) * UINT64_C(0xBF58476D1CE4E5B9);
+    z = (z ^ (z >> 27)) * UINT64_C(0x94D049BB133111EB);
+    return z ^ (z >> 31);
+}
+
+void ls_rng_seed_trial(ls_rng *r, uint64_t seed, uint64_t trial)
+{
+    ls_rng_seed(r, splitmix64(seed ^ splitmix64(trial)), trial);
+}
+
 /* XSH-RR output: xorshift the high bits down, then rotate by the top 5 bits. */
 uint32_t ls_rng_u32(ls_rng *r)
 {

@@ -3,9 +3,11 @@
  * The generator is M. E. O'Neill's pcg32 (PCG-XSH-RR, 64-bit state, 32-bit
  * output), seeded exactly like the reference pcg32_srandom_r(initstate,
  * initseq), so its first outputs can be checked against the published demo.
- * Each (seed, stream) pair is an independent sequence: a Monte Carlo run seeds
- * trial i with (seed, i), so every trial's numbers depend only on the run's
- * seed and the trial index, whatever the number of threads. */
+ * pcg32 streams that share a seed and differ only in the stream number are
+ * related (their first outputs are too evenly spread), so a Monte Carlo run
+ * seeds trial i with ls_rng_seed_trial, which mixes i into the seed: every
+ * trial's numbers depend only on the run's seed and the trial index, whatever
+ * the number of threads. */
 #ifndef LS_RNG_H
 #define LS_RNG_H
 
@@ -22,6 +24,10 @@ typedef struct ls_rng {
 
 /* Seed r for sequence `stream` of the generator seeded with `seed`. */
 void ls_rng_seed(ls_rng *r, uint64_t seed, uint64_t stream);
+
+/* Seed r for trial `trial` of a run seeded with `seed`: stream `trial`, with
+ * the seed mixed by SplitMix64 so that neighbouring trials are unrelated. */
+void ls_rng_seed_trial(ls_rng *r, uint64_t seed, uint64_t trial);
 
 /* Next 32-bit output of pcg32. */
 uint32_t ls_rng_u32(ls_rng *r);

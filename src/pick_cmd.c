@@ -1,0 +1,153 @@
+/* pick_cmd.c — the pick command: `pick ratio R` lists the best pairs of
+ * standard values (IEC 60063, eseries.h) for a divider ratio. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli.h"
+#include "eseries.h"
+#include "fmt.h"
+
+#define PICK_RESULTS 10
+
+/* Parse --total LO..HI (each a number with an optional unit) into ohms.
+ * Returns false for anything else. */
+static bool parse_total(const char *text, double *lo, double *hi)
+{
+    const char *dots = strstr(text, "..");
+    if (!dots || dots == text || !dots[2])
+        return false;
+    char left[128];
+    size_t n = (size_t)(dots - text);
+    if (n >= sizeof left)
+        return false;
+    memcpy(left, text, n);
+    left[n] = 0;
+    return ls_cli_number(left, lo) && ls_cli_number(dots + 2, hi) && *lo > 0 && *hi >= *lo && isfinite(*hi);
+}
+
+/* Check the arguments of pick.  Returns 0 or LS_EXIT_USAGE after saying why. */
+static int pick_args(const ls_cli *cli, double *ratio, const ls_eseries **es, double *lo, double *hi, double *zmax)
+{
+    if (strcmp(cli->pos[0], "ratio") != 0) {
+        fprintf(stderr, "loadstack: error: pick knows 'ratio' (loadstack pick ratio R), not '%s'\n", cli->pos[0]);
+        return LS_EXIT_USAGE;
+    }
+    if (!ls_cli_number(cli->pos[1], ratio) || !(*ratio > 0 && *ratio < 1)) {
+        fprintf(stderr, "loadstack: error: the ratio rbot/(rtop+rbot) must be a number between 0 and 1, not '%s'\n",
+                cli->pos[1]);
+        return LS_EXIT_USAGE;
+    }
+    *es = ls_eseries_find(cli->series ? cli->series : "E24");
+    if (!*es) {
+        fprintf(stderr, "loadstack: error: --series takes E6, E12, E24, E48, E96 or E192, not '%s'\n", cli->series);
+        return LS_EXIT_USAGE;
+    }
+    *lo = 1e3;
+    *hi = 1e6;
+    if (cli->total && !parse_total(cli->total, lo, hi)) {
+        fprintf(stderr, "loadstack: error: --total takes LO..HI with 0 < LO <= HI (e.g. 10k..100k), not '%s'\n",
+                cli->total);
+        return LS_EXIT_USAGE;
+    }
+    *zmax = 0;
+    if (cli->zout && !(ls_cli_number(cli->zout, zmax) && *zmax > 0)) {
+        fprintf(stderr, "loadstack: error: --zout takes a positive resistance, not '%s'\n", cli->zout);
+        return LS_EXIT_USAGE;
+    }
+    return 0;
+}
+
+/* The pick report as one JSON object (cli.md keys). */
+static void pick_json(FILE *o, double ratio, const ls_eseries *es, const ls_pick_item *it, int n)
+{
+    fputs("{\"ratio\": ", o);
+    ls_json_number(o, ratio);
+    fprintf(o, ", \"series\": \"%s\",\n \"items\": [", es->name);
+    for (int i = 0; i < n; i++) {
+        fprintf(o, "%s\n  {\"rtop\": ", i ? "," : "");
+        ls_json_number(o, it[i].rtop);
+        fputs(", \"rbot\": ", o);
+        ls_json_number(o, it[i].rbot);
+        fputs(", \"ratio\": ", o);
+        ls_json_number(o, it[i].ratio);
+        fputs(", \"error\": ", o);
+        ls_json_number(o, it[i].error);
+        fputs(", \"zout\": ", o);
+        ls_json_number(o, it[i].zout);
+        fputs("}", o);
+    }
+    fputs("]}\n", o);
+}
+
+/* Print s right-aligned in w columns, counting UTF-8 code points (Ω is two bytes). */
+static void rpad(FILE *o, const char *s, int w)
+{
+    int n = 0;
+    for (const char *c = s; *c; c++)
+        n += ((unsigned char)*c & 0xC0) != 0x80;
+    fprintf(o, " %*s%s", w > n ? w - n : 0, "", s);
+}
+
+/* The pick report as an aligned table with the limits it was searched under. */
+static void pick_text(FILE *o, const ls_report *rp, const ls_cli *cli, double ratio, const ls_eseries *es,
+                      double lo, double hi, double zmax, const ls_pick_item *it, int n)
+{
+    const char *OHM = ls_unit_of(LS_OHM, cli->ascii);
+    char b1[64], b2[64], b3[64];
+    fprintf(o, "Dividers of %s standard values for rbot/(rtop+rbot) = %.6g\n", es->name, ratio);
+    fprintf(o, "  (rtop + rbot from %s to %s", ls_eng(rp, b1, sizeof b1, lo, OHM), ls_eng(rp, b2, sizeof b2, hi, OHM));
+    if (zmax > 0)
+        fprintf(o, ", zout at most %s", ls_eng(rp, b3, sizeof b3, zmax, OHM));
+    fputs(")\n\n", o);
+    if (n == 0) {
+        fputs("  no pair of values meets those limits\n", o);
+        return;
+    }
+    fprintf(o, "  %-4s %12s %12s %12s %11s %12s\n", "rank", "rtop", "rbot", "ratio", "error", "zout");
+    for (int i = 0; i < n; i++) {
+        char e[32];
+        snprintf(e, sizeof e, "%+.3f%%", 100 * it[i].error);
+        fprintf(o, "  %-4d", i + 1);
+        rpad(o, ls_eng(rp, b1, sizeof b1, it[i].rtop, OHM), 12);
+        rpad(o, ls_eng(rp, b2, sizeof b2, it[i].rbot, OHM), 12);
+        fprintf(o, " %12.6f %11s", it[i].ratio, e);
+        rpad(o, ls_eng(rp, b3, sizeof b3, it[i].zout, OHM), 12);
+        fputc('\n', o);
+    }
+}
+
+/* `loadstack pick ratio R`: search, then report.  Returns the exit code. */
+int ls_cmd_pick(ls_cli *cli)
+{
+    double ratio, lo, hi, zmax;
+    const ls_eseries *es;
+    if (pick_args(cli, &ratio, &es, &lo, &hi, &zmax))
+        return LS_EXIT_USAGE;
+    ls_pick_item items[PICK_RESULTS];
+    int n = ls_pick_ratio(es, ratio, lo, hi, zmax, items, PICK_RESULTS);
+    if (n < 0) {
+        fprintf(stderr, "loadstack: error: the standard-value search failed (out of memory)\n");
+        return LS_EXIT_UNSOLVABLE;
+    }
+    /* A session only for the safe output file (no circuit). */
+    ls_session s;
+    memset(&s, 0, sizeof s);
+    s.cli = cli;
+    char *tmp;
+    FILE *o = ls_out_open(&s, &tmp);
+    if (!o)
+        return LS_EXIT_USAGE;
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4};
+    if (cli->fmt == FMT_JSON) {
+        pick_json(o, ratio, es, items, n);
+    } else if (cli->fmt == FMT_CSV) {
+        fputs("rank,rtop,rbot,ratio,error,zout\n", o);
+        for (int i = 0; i < n; i++)
+            fprintf(o, "%d,%.17g,%.17g,%.17g,%.17g,%.17g\n", i + 1, items[i].rtop, items[i].rbot, items[i].ratio,
+                    items[i].error, items[i].zout);
+    } else {
+        pick_text(o, &rp, cli, ratio, es, lo, hi, zmax, items, n);
+    }
+    return ls_out_close(&s, o, tmp, LS_EXIT_OK);
+}
