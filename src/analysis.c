@@ -2,6 +2,7 @@
  * iterative refinement, derive part results; quantities and checks. */
 #include "analysis.h"
 #include "elab.h"
+#include "newton.h"
 
 #include <float.h>
 #include <math.h>
@@ -124,7 +125,7 @@ static void widest_spread(const ls_netlist *nl, char *buf, size_t n)
         buf[0] = 0;
 }
 
-static void report_singular(ls_op *op, int col)
+void ls_op_report_singular(ls_op *op, int col)
 {
     const ls_netlist *nl = op->nl;
     char what[300];
@@ -194,8 +195,18 @@ static int factor(ls_op *op)
                                                : ", more memory than is available");
             return LS_EXIT_UNSOLVABLE;
         }
+        if (st == LS_SOLVER_SINGULAR && ls_newton_open_loop(op, ss->bad_column)) {
+            /* a comparator: held at a rail, the system may be regular */
+            ls_solver_free(&op->solver);
+            if (ls_mna_restamp(&op->mna) != 0) {
+                ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
+                return LS_EXIT_UNSOLVABLE;
+            }
+            attempt--;
+            continue;
+        }
         if (st == LS_SOLVER_SINGULAR) {
-            report_singular(op, ss->bad_column);
+            ls_op_report_singular(op, ss->bad_column);
             return LS_EXIT_UNSOLVABLE;
         }
         ls_error(nl->diags, LS_NOLOC, "the linear solver (%s) failed", ss->library);
@@ -209,6 +220,14 @@ static void part_results(ls_op *op)
     const ls_netlist *nl = op->nl;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
+        if (p->kind->results) {
+            double r[3];
+            p->kind->results(p, op->x, op->v, r);
+            op->ipart[i] = r[0];
+            op->vpart[i] = r[1];
+            op->ppart[i] = r[2];
+            continue;
+        }
         ls_lin l;
         ls_part_current(p, nl, &l, false);
         double cur = ls_lin_eval(&l, op->x);
@@ -239,6 +258,43 @@ static int alloc_results(ls_op *op)
     return op->x && op->v && op->ipart && op->vpart && op->ppart && op->port ? 0 : -1;
 }
 
+/* Node voltages from the unknowns. */
+static void node_voltages(ls_op *op)
+{
+    for (int i = 1; i < op->nl->nnodes; i++)
+        op->v[i] = op->x[i - 1];
+}
+
+int ls_op_step(ls_op *op)
+{
+    if (ls_mna_restamp(&op->mna) != 0)
+        return LS_SOLVER_NOMEM;
+    int st = ls_solver_factor(op->solver, &op->mna.a);
+#ifdef LS_HAVE_SPARSE
+    if (st == LS_SOLVER_NOT_SPD) {
+        /* a limit or a linearization point broke the symmetry the first
+         * assembly had: go on with sparse LU */
+        ls_solver_free(&op->solver);
+        op->solver = ls_solver_new(&ls_backend_klu, LS_METHOD_SPARSE_LU);
+        if (!op->solver)
+            return LS_SOLVER_NOMEM;
+        op->method = LS_METHOD_SPARSE_LU;
+        st = ls_solver_analyze(op->solver, &op->mna.a);
+        if (st == LS_SOLVER_OK)
+            st = ls_solver_factor(op->solver, &op->mna.a);
+    }
+#endif
+    op->rcond = ls_solver_stats_of(op->solver)->rcond;
+    if (st != LS_SOLVER_OK)
+        return st;
+    memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
+    st = refined_solve(op, op->x, 0, &op->residual, &op->refinements);
+    if (st == LS_SOLVER_OK)
+        node_voltages(op);
+    op->iterations++;
+    return st;
+}
+
 int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
 {
     memset(op, 0, sizeof *op);
@@ -246,6 +302,7 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     op->opt = *o;
     if (ls_topology_check(nl))
         return LS_EXIT_UNSOLVABLE;
+    ls_newton_init(nl);
     if (ls_mna_build(&op->mna, nl) != 0 || alloc_results(op) != 0) {
         ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
         return LS_EXIT_UNSOLVABLE;
@@ -254,12 +311,14 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (r != LS_EXIT_OK)
         return r;
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    if (refined_solve(op, op->x, 0, &op->residual, &op->iterations) != LS_SOLVER_OK) {
+    if (refined_solve(op, op->x, 0, &op->residual, &op->refinements) != LS_SOLVER_OK) {
         ls_error(nl->diags, LS_NOLOC, "the linear solver failed while solving");
         return LS_EXIT_UNSOLVABLE;
     }
-    for (int i = 1; i < nl->nnodes; i++)
-        op->v[i] = op->x[i - 1];
+    op->iterations = 1;
+    node_voltages(op);
+    if (ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
+        return r;
     part_results(op);
     /* Pins for floating nodes in modified systems: a conductance on the scale of
      * the circuit's own, so the update stays well conditioned. */
@@ -282,6 +341,7 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (!(op->residual <= RESIDUAL_WARN))
         ls_warning(nl->diags, LS_NOLOC, "inaccurate",
                    "the solution's relative residual is %.2g: treat the results as approximate", op->residual);
+    ls_real_warnings(op);
     return LS_EXIT_OK;
 }
 
@@ -294,16 +354,21 @@ int ls_op_resolve(ls_op *op)
     const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
     op->rcond = ss->rcond;
     if (st == LS_SOLVER_SINGULAR) {
-        report_singular(op, ss->bad_column);
+        ls_op_report_singular(op, ss->bad_column);
         return LS_EXIT_UNSOLVABLE;
     }
     if (st != LS_SOLVER_OK)
         return LS_EXIT_UNSOLVABLE;
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    if (refined_solve(op, op->x, 0, &op->residual, &op->iterations) != LS_SOLVER_OK)
+    if (refined_solve(op, op->x, 0, &op->residual, &op->refinements) != LS_SOLVER_OK)
         return LS_EXIT_UNSOLVABLE;
-    for (int i = 1; i < nl->nnodes; i++)
-        op->v[i] = op->x[i - 1];
+    op->iterations = 1;
+    node_voltages(op);
+    if (ls_newton_needed(nl)) {
+        int r = ls_newton_solve(op);
+        if (r != LS_EXIT_OK)
+            return r;
+    }
     part_results(op);
     for (int i = 0; i < nl->nparts; i++)
         op->port[i].done = false;

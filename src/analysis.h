@@ -34,7 +34,8 @@ typedef struct ls_op {
     double *v;               /* node voltages, v[0] = 0 */
     double *ipart, *vpart, *ppart;   /* per part: current (A), voltage (V), absorbed power (W) */
     double rcond, residual;
-    int iterations;
+    int iterations;          /* linear solves of the operating-point iteration (1 for a linear circuit) */
+    int refinements;         /* iterative-refinement steps of the last solve */
     double g_pin;            /* conductance used to pin floating nodes in modified systems */
     ls_port_result *port;    /* per part index; valid for ports */
     /* DFS over DC paths from ground, for bridge tests when parts are removed */
@@ -51,7 +52,9 @@ enum { LS_EXIT_OK = 0, LS_EXIT_CHECK = 1, LS_EXIT_USAGE = 2, LS_EXIT_UNSOLVABLE 
  * LS_EXIT_UNSOLVABLE / LS_EXIT_USAGE after reporting the reason. */
 int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o);
 /* Re-solve after part values (not the structure) changed: restamp, refactor
- * reusing the symbolic analysis, solve.  Port results are recomputed on demand. */
+ * reusing the symbolic analysis, solve (iterating from the last solution when
+ * the circuit has nonlinear parts or limited op-amps).  Port results are
+ * recomputed on demand.  The warnings of ls_op_solve are not repeated. */
 int ls_op_resolve(ls_op *op);
 void ls_op_free(ls_op *op);
 double ls_op_min_ratio(const ls_op *op);

@@ -9,7 +9,19 @@
 #define LS_MAX_PINS 8
 #define LS_MAX_OPTS 24
 
+#define LS_MAX_RANGES 2
+
 struct ls_kind;
+
+/* One end of a range option (rails=, cm=): V(node) + volts, or a fixed
+ * voltage when node is -1. */
+typedef struct ls_level {
+    int node;
+    double volts;
+} ls_level;
+
+/* Op-amp output limits in force (ls_part.state). */
+enum { LS_LIM_NONE = 0, LS_LIM_RAIL_HIGH, LS_LIM_RAIL_LOW, LS_LIM_CURRENT_SOURCE, LS_LIM_CURRENT_SINK };
 
 typedef struct ls_node {
     const char *name;
@@ -35,8 +47,22 @@ typedef struct ls_part {
     const char *ref_name;  /* as written, resolved after elaboration */
     const char *ref_scope;
     ls_loc ref_loc;
+    ls_level range[LS_MAX_RANGES][2];  /* OPT_RANGE options: [slot][0 low, 1 high] */
     int branch;            /* first MNA branch unknown, -1 if none (set by the MNA builder) */
-    int state;             /* analysis state (op-amp limit in force, ...) */
+    /* Analysis state, written by the operating-point iteration (analysis.c,
+     * newton.c) and read by the stamps, so every analysis that re-stamps the
+     * system (ports, sag, sens) sees the circuit linearized at its solution. */
+    int state;             /* op-amp: LS_LIM_* in force */
+    int side;              /* op-amp: 1 while sinking (its current returns into the lower rail) */
+    bool open_loop;        /* op-amp: ideal with rails, singular when free (a comparator): only rails */
+    bool probed;           /* op-amp: its upper rail has been tried once from a free solution */
+    bool probing;          /* op-amp: held at that rail only to try it */
+    int releases;          /* op-amp: times a rail was let go (positive feedback shows as repeats) */
+    double op_v;           /* junction: voltage (V, anode -> cathode) the companion model is stamped at */
+    double op_t;           /* ntc: body temperature (degC) its resistance is stamped at */
+    double heat_t, heat_f; /* ntc: the previous temperature and its image (secant on self-heating) */
+    double shunt_s;        /* gmin stepping: extra conductance (S) across a junction */
+    double src_cut;        /* source stepping: fraction of a source's value left out (0 = all of it) */
 } ls_part;
 
 /* A bound quantity: the syntax of an expect or a QUANTITY with names resolved. */

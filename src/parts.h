@@ -13,7 +13,8 @@ enum {
     OPTF_POSITIVE = 2,   /* > 0 */
     OPTF_NONNEG = 4,     /* >= 0 */
     OPTF_MAIN = 8,       /* this option is the part's main value */
-    OPTF_FRACTION = 16   /* 0..1 */
+    OPTF_FRACTION = 16,  /* 0..1 */
+    OPTF_INTEGER = 32    /* a whole number */
 };
 
 typedef struct ls_optdef {
@@ -21,7 +22,7 @@ typedef struct ls_optdef {
     ls_optkind kind;
     ls_dims dims;        /* OPT_VALUE / OPT_RANGE of values */
     unsigned flags;
-    int pin;             /* OPT_NODE: the pin slot it fills */
+    int pin;             /* OPT_NODE: the pin slot it fills; OPT_RANGE: its slot in ls_part.range */
     const char *words;   /* OPT_WORD: "open|closed" (stored as the word's index) */
 } ls_optdef;
 
@@ -93,6 +94,17 @@ typedef struct ls_kind {
     void (*stamp)(const ls_part *p, ls_stamp_ctx *c);
     void (*current)(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative, int depth);
     void (*edges)(const ls_part *p, void *ctx, ls_edge_fn emit);
+    /* Nonlinear parts (NULL for linear ones) --------------------------------- */
+    /* Is this part nonlinear as configured (an ntc only with dissipation=)? */
+    bool (*is_nonlinear)(const ls_part *p);
+    /* The first linearization point (op_v / op_t). */
+    void (*init)(ls_part *p);
+    /* Move the linearization point towards the solution x of the last
+     * linear solve (with damping and limiting); true when it has settled. */
+    bool (*update)(ls_part *p, const double *x);
+    /* Current (A), voltage (V, as vsign reads) and absorbed power (W) for parts
+     * whose results are not the generic ones (pot, adc); NULL otherwise. */
+    void (*results)(const ls_part *p, const double *x, const double *v, double out[3]);
 } ls_kind;
 
 const ls_kind *ls_kind_find(const char *name);
@@ -111,6 +123,33 @@ double ls_part_opt(const ls_part *p, const char *name, double dflt);
 /* Part current as a linear form (recursing through via=); depth guards cycles. */
 void ls_part_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative);
 double ls_lin_eval(const ls_lin *l, const double *x);
+
+/* ---- real parts: helpers for the iteration and the reports ---- */
+
+enum { OA_RAILS = 0, OA_CM = 1 };   /* op-amp range slots in ls_part.range */
+
+/* Voltage of one end of a range option given node voltages v (v[0] = 0). */
+double ls_level_v(const ls_level *l, const double *v);
+/* The op-amp limit (LS_LIM_*) that should be in force given the solution x
+ * and node voltages v of the last solve; *side is set to the supply side
+ * (1 sinking) that current calls for. */
+int ls_opamp_next(const ls_part *p, const double *x, const double *v, int *side);
+/* Does the op-amp have any output limit (rails= or imax=)? */
+bool ls_opamp_limited(const ls_part *p);
+/* Junction current (A, anode -> cathode) of a diode, led or zener at junction
+ * voltage vj (V), without the shunt terms; *beyond is set when vj is past the
+ * point where the model's current exceeds LS_JUNCTION_IMAX. */
+double ls_junction_current(const ls_part *p, double vj, bool *beyond);
+/* Junction voltage (V) of a diode, led or zener in the solution x. */
+double ls_junction_v(const ls_part *p, const double *x);
+/* Thermistor resistance (ohm) at temperature t_c (degC), by the Beta equation. */
+double ls_ntc_r(const ls_part *p, double t_c);
+/* Thermistor body temperature (degC): temp=, plus self-heating when solved with dissipation=. */
+double ls_ntc_body(const ls_part *p);
+
+#define LS_JUNCTION_IMAX 1e3     /* A: past this the exponential is continued linearly */
+#define LS_GMIN 1e-12            /* S: always across every junction (keeps a cut-off node defined) */
+#define LS_THERMAL_VOLTAGE (1.380649e-23 * 298.15 / 1.602176634e-19) /* V: kT/q at 25 degC (SI 2019 exact k, q) */
 
 /* Levenshtein distance, capped; used for "did you mean" suggestions. */
 int ls_edit_distance(const char *a, const char *b);
