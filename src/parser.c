@@ -6,6 +6,7 @@
 #include <limits.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "lexer.h"
 #include "parts.h"
@@ -226,6 +227,20 @@ static ls_expr *parse_primary(parser *p)
     return NULL;
 }
 
+/* Enter one more level of the expression tree: a nesting (parentheses, a
+ * sign, a call) or one more operator of a chain (1 + 2 + 3 ... is as deep as
+ * it is long, and every walker of the tree recurses on it).  Returns false,
+ * after reporting once, past LS_MAX_EXPR_DEPTH; the caller leaves the level
+ * (expr_depth--) either way. */
+static bool enter(parser *p)
+{
+    if (++p->expr_depth <= LS_MAX_EXPR_DEPTH)
+        return true;
+    if (p->expr_depth == LS_MAX_EXPR_DEPTH + 1)
+        ls_error(p->d, p->tok.loc, "expression nested more than %d deep", LS_MAX_EXPR_DEPTH);
+    return false;
+}
+
 static ls_expr *binary(parser *p, int op, ls_loc op_loc, ls_expr *a, ls_expr *b)
 {
     ls_expr *e = new_expr(p, E_BIN, span(a->loc, b->loc));
@@ -255,9 +270,8 @@ static ls_expr *parse_power(parser *p)
 /* unary -> ('-' | '+') unary | power */
 static ls_expr *parse_unary(parser *p)
 {
-    if (++p->expr_depth > LS_MAX_EXPR_DEPTH) {
-        if (p->expr_depth == LS_MAX_EXPR_DEPTH + 1)
-            ls_error(p->d, p->tok.loc, "expression nested more than %d deep", LS_MAX_EXPR_DEPTH);
+    if (!enter(p)) {
+        p->expr_depth--;
         return NULL;
     }
     ls_expr *e;
@@ -285,13 +299,20 @@ static ls_expr *parse_unary(parser *p)
 static ls_expr *parse_product(parser *p)
 {
     ls_expr *a = parse_unary(p);
+    int chained = 0;
     while (a && (p->tok.kind == T_STAR || p->tok.kind == T_SLASH)) {
+        chained++;
+        if (!enter(p)) {
+            a = NULL;
+            break;
+        }
         int op = p->tok.kind;
         ls_loc l = p->tok.loc;
         advance(p);
         ls_expr *b = parse_unary(p);
         a = b ? binary(p, op, l, a, b) : NULL;
     }
+    p->expr_depth -= chained;
     return a;
 }
 
@@ -299,33 +320,44 @@ static ls_expr *parse_product(parser *p)
 static ls_expr *parse_parallel(parser *p)
 {
     ls_expr *a = parse_product(p);
+    int chained = 0;
     while (a && p->tok.kind == T_PARALLEL) {
+        chained++;
+        if (!enter(p)) {
+            a = NULL;
+            break;
+        }
         ls_loc l = p->tok.loc;
         advance(p);
         ls_expr *b = parse_product(p);
         a = b ? binary(p, T_PARALLEL, l, a, b) : NULL;
     }
+    p->expr_depth -= chained;
     return a;
 }
 
 /* sum -> parallel {('+' | '-') parallel} */
 static ls_expr *parse_sum(parser *p)
 {
-    if (++p->expr_depth > LS_MAX_EXPR_DEPTH) {
-        if (p->expr_depth == LS_MAX_EXPR_DEPTH + 1)
-            ls_error(p->d, p->tok.loc, "expression nested more than %d deep", LS_MAX_EXPR_DEPTH);
+    if (!enter(p)) {
         p->expr_depth--;
         return NULL;
     }
     ls_expr *a = parse_parallel(p);
+    int chained = 0;
     while (a && (p->tok.kind == T_PLUS || p->tok.kind == T_MINUS)) {
+        chained++;
+        if (!enter(p)) {
+            a = NULL;
+            break;
+        }
         int op = p->tok.kind;
         ls_loc l = p->tok.loc;
         advance(p);
         ls_expr *b = parse_parallel(p);
         a = b ? binary(p, op, l, a, b) : NULL;
     }
-    p->expr_depth--;
+    p->expr_depth -= chained + 1;
     return a;
 }
 
@@ -369,14 +401,23 @@ static bool option_ahead(parser *p)
     return p->tok.kind == T_IDENT && peek(p)->kind == T_EQ;
 }
 
-/* options -> {NAME '=' [sum ['..' sum]]}   (empty only when allow_empty) */
-static bool parse_options(parser *p, ls_stmt *s, bool allow_empty)
+/* options -> {NAME '=' [sum ['..' sum]]}   (empty only when allow_empty)
+ * A part's VALUE may also stand between its options (`pot p1 a=x wiper=w b=y
+ * 10k at=0.3`) when it was not given before them: with_value. */
+static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_value)
 {
     ls_opt buf[64];
     int n = 0;
     while (!at_eol(p)) {
         if (!option_ahead(p)) {
-            expected(p, "an option NAME=VALUE");
+            if (with_value && !s->value) {
+                s->value = parse_sum(p);
+                if (!s->value)
+                    return false;
+                continue;
+            }
+            expected(p, s->value && with_value ? "an option NAME=VALUE (the value is already given)"
+                                               : "an option NAME=VALUE");
             return false;
         }
         if (n == 64) {
@@ -448,7 +489,7 @@ static ls_stmt *parse_part(parser *p)
         if (!s->value)
             return NULL;
     }
-    if (!parse_options(p, s, false))
+    if (!parse_options(p, s, false, true))
         return NULL;
     return s;
 }
@@ -567,7 +608,7 @@ static ls_stmt *parse_use(parser *p)
     if (!expect_ident(p, "a block name", &s->kw, &s->kw_loc) ||
         !expect_ident(p, "an instance name", &s->name, &s->name_loc))
         return NULL;
-    return parse_options(p, s, false) ? s : NULL;
+    return parse_options(p, s, false, false) ? s : NULL;
 }
 
 /* block -> 'block' NAME {PIN} {PARAM=[DEFAULT]} NEWLINE {statement} 'end' */
@@ -599,7 +640,7 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
     memcpy(s->pins, pins, (size_t)n * sizeof *pins);
     memcpy(s->pin_locs, locs, (size_t)n * sizeof *locs);
     s->npins = n;
-    if (!parse_options(p, s, true))
+    if (!parse_options(p, s, true, false))
         return NULL;
     return s;
 }
@@ -662,7 +703,7 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
             stmt_list body = {0};
             parse_lines(p, &body, s);
             s->body = ls_arena_alloc(p->a, (size_t)(body.n ? body.n : 1) * sizeof *s->body);
-            if (s->body)
+            if (s->body && body.n) /* an empty body has no array to copy */
                 memcpy(s->body, body.v, (size_t)body.n * sizeof *body.v);
             s->nbody = body.n;
             free(body.v);
@@ -705,7 +746,7 @@ static void parse_lines(parser *p, stmt_list *out, ls_stmt *block)
             continue;
         }
         if (p->tok.kind == T_EOF) {
-            if (block && p->inc_depth == 0) {
+            if (block && block->loc.file == p->lx.file) {
                 int line, col;
                 ls_loc_linecol(p->d, block->loc.file, block->loc.start, &line, &col);
                 ls_error(p->d, p->tok.loc, "'end' expected to close 'block %s' at line %d", block->name, line);
@@ -713,8 +754,12 @@ static void parse_lines(parser *p, stmt_list *out, ls_stmt *block)
             return;
         }
         if (block && is_word(&p->tok, "end")) {
-            if (p->inc_depth > 0 && p->lx.file != block->loc.file) {
+            if (p->lx.file != block->loc.file) {
                 /* An included file cannot close a block opened outside it. */
+                ls_error(p->d, p->tok.loc, "an included file cannot end a block opened outside it ('%s')",
+                         block->name);
+                skip_line(p);
+                continue;
             }
             advance(p);
             if (!end_of_statement(p))
@@ -832,6 +877,12 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
             return;
         }
     }
+    struct stat st;
+    if (stat(real, &st) == 0 && !S_ISREG(st.st_mode)) {
+        /* a device or a pipe could block or never end (/dev/zero, a fifo) */
+        ls_error(p->d, sloc, "included file '%s' is not a regular file", path);
+        return;
+    }
     size_t len = 0;
     char *text = ls_read_file(path, &len);
     if (!text) {
@@ -864,7 +915,7 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
     stmt_list out = {0};
     parse_registered(&p, file, dir_of(p.a, path), &fr, 0, &out, NULL);
     prog->stmts = ls_arena_alloc(p.a, (size_t)(out.n ? out.n : 1) * sizeof *prog->stmts);
-    if (prog->stmts)
+    if (prog->stmts && out.n) /* an empty file has no array to copy */
         memcpy(prog->stmts, out.v, (size_t)out.n * sizeof *out.v);
     prog->n = out.n;
     free(out.v);
@@ -900,17 +951,15 @@ int ls_parse_file(ls_diags *d, const char *path, ls_program *prog)
     return r;
 }
 
-ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect)
+ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect)
 {
-    int id = ls_sources_add(d, name, text, (unsigned)strlen(text));
-    if (id < 0)
-        return NULL;
     parser p;
     memset(&p, 0, sizeof p);
     p.d = d;
     p.a = d->arena;
     p.in_expect = in_expect;
-    ls_lex_init(&p.lx, d, id);
+    ls_lex_init(&p.lx, d, file);
+    p.lx.pos = offset;
     advance(&p);
     int e0 = d->errors;
     ls_expr *e = parse_sum(&p);
@@ -919,4 +968,12 @@ ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, b
         return NULL;
     }
     return d->errors == e0 ? e : NULL;
+}
+
+ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect)
+{
+    int id = ls_sources_add(d, name, text, (unsigned)strlen(text));
+    if (id < 0)
+        return NULL;
+    return ls_parse_expr_at(d, id, 0, in_expect);
 }
