@@ -215,9 +215,30 @@ static int factor(ls_op *op)
     return LS_EXIT_UNSOLVABLE;
 }
 
+/* Unknowns smaller than this fraction of the largest of their kind (node
+ * voltages, branch currents) are rounding noise of the solve, not results:
+ * they are set to zero rather than printed as if they meant something. */
+#define NOISE_FLOOR 1e-14
+
+static void chop_noise(ls_op *op)
+{
+    int nn = op->mna.nn, n = op->mna.n;
+    double vmax = 0, imax = 0;
+    for (int i = 0; i < nn; i++)
+        vmax = fmax(vmax, fabs(op->x[i]));
+    for (int i = nn; i < n; i++)
+        imax = fmax(imax, fabs(op->x[i]));
+    for (int i = 0; i < n; i++)
+        if (fabs(op->x[i]) < NOISE_FLOOR * (i < nn ? vmax : imax))
+            op->x[i] = 0;
+    for (int i = 1; i < op->nl->nnodes; i++)
+        op->v[i] = op->x[i - 1];
+}
+
 static void part_results(ls_op *op)
 {
     const ls_netlist *nl = op->nl;
+    chop_noise(op);
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         if (p->kind->results) {
