@@ -1,4 +1,5 @@
 /* loading_cmds.c — the sag, thevenin and sens commands. */
+#include <float.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -37,6 +38,7 @@ static int prepare(ls_session *s, ls_cli *cli, int *node)
     return code;
 }
 
+/* Close the report, print the diagnostics, free the session; the exit code. */
 static int finish(ls_session *s, FILE *out, char *tmp, int code)
 {
     code = ls_out_close(s, out, tmp, code);
@@ -47,6 +49,7 @@ static int finish(ls_session *s, FILE *out, char *tmp, int code)
 
 /* ---- thevenin ------------------------------------------------------------------------------ */
 
+/* loadstack thevenin FILE NODE [--load R] [--meter R]: vth, rth, Norton current. */
 int ls_cmd_thevenin(ls_cli *cli)
 {
     ls_session s;
@@ -135,9 +138,11 @@ int ls_cmd_thevenin(ls_cli *cli)
 
 typedef struct sag_item {
     int part;
-    double without, delta;
+    double without, delta;  /* V; NaN when undefined */
+    bool floats;            /* undefined because the node is left with nothing setting it */
 } sag_item;
 
+/* qsort order: largest |delta| first, undefined items last. */
 static int by_delta(const void *a, const void *b)
 {
     const sag_item *x = a, *y = b;
@@ -152,6 +157,101 @@ static int by_delta(const void *a, const void *b)
     return x->part - y->part;
 }
 
+/* The largest voltage the circuit itself has (V): node voltages and voltage
+ * source values.  A part whose removal takes a node beyond it is part of how
+ * the circuit works (feedback, a reference), not a load on the node. */
+static double circuit_volts(const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    double vmax = 0;
+    for (int i = 0; i < nl->nnodes; i++)
+        vmax = fmax(vmax, fabs(op->v[i]));
+    for (int i = 0; i < nl->nparts; i++)
+        if (strcmp(nl->parts[i].kind->name, "voltage") == 0)
+            vmax = fmax(vmax, fabs(nl->parts[i].value));
+    return vmax;
+}
+
+/* Is item it a load pulling the node towards ground (removal moves it away
+ * from 0 V, and not beyond the circuit's own voltages)? */
+static bool pulls_down(const sag_item *it, double v0, double vmax)
+{
+    double d = it->delta;
+    if (!isfinite(d) || d == 0 || v0 == 0)
+        return false;
+    if (v0 > 0 ? d < 0 : d > 0)
+        return false;
+    return fabs(it->without) <= vmax * (1 + 1e-9);
+}
+
+/* Without-values for every part and port removed in turn (NaN when that
+ * leaves the node undefined); one low-rank update each, no refactorization. */
+static void sag_items(ls_op *op, int node, sag_item *items)
+{
+    const ls_netlist *nl = op->nl;
+    double v0 = op->v[node], noise = 64 * DBL_EPSILON * circuit_volts(op);
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_mod *m = ls_mod_new(op, i, MOD_REMOVE_PART);
+        items[i].part = i;
+        items[i].without = NAN;
+        if (m && !ls_mod_singular(m)) {
+            if (node == 0)
+                items[i].without = 0;
+            else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
+                items[i].without = ls_mod_x(m)[node - 1];
+            else
+                items[i].floats = true;
+        }
+        /* rounding noise of the update is no voltage */
+        if (fabs(items[i].without) < noise)
+            items[i].without = 0;
+        items[i].delta = items[i].without - v0;
+        if (fabs(items[i].delta) < noise)
+            items[i].delta = 0;
+        ls_mod_free(&m);
+    }
+}
+
+/* Text form of the sag report. */
+static void sag_text(ls_report *rp, const ls_op *op, int node, const sag_item *items, int culprit, int via,
+                     double total)
+{
+    const ls_netlist *nl = op->nl;
+    FILE *o = rp->out;
+    double v0 = op->v[node], vmax = circuit_volts(op);
+    char b1[64], b2[64], b3[64];
+    fprintf(o, "What pulls '%s' (now %s) away from where it would be without each part\n", nl->nodes[node].name,
+            ls_eng(rp, b1, sizeof b1, v0, "V"));
+    fprintf(o, "  (a port is opened; a part is removed: resistors opened, sources set to zero)\n\n");
+    fprintf(o, "  %-4s %-9s %-20s %14s %14s %8s\n", "rank", "kind", "name", "without it", "delta", "share");
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[items[i].part];
+        double d = items[i].delta;
+        char share[32] = "";
+        if (total > 0 && pulls_down(&items[i], v0, vmax))
+            snprintf(share, sizeof share, "%.1f%%", 100 * fabs(d) / total);
+        if (isnan(d))
+            fprintf(o, "  %-4d %-9s %-20s %14s %14s\n", i + 1, p->kind->is_port ? "port" : p->kind->name, p->name,
+                    items[i].floats ? "floats" : "unsolvable", "-");
+        else
+            fprintf(o, "  %-4d %-9s %-20s %14s %14s %8s\n", i + 1, p->kind->is_port ? "port" : p->kind->name,
+                    p->name, ls_eng(rp, b1, sizeof b1, items[i].without, "V"), ls_eng(rp, b2, sizeof b2, d, "V"),
+                    share);
+    }
+    if (culprit < 0) {
+        fprintf(o, "\nNothing pulls '%s' towards ground.\n", nl->nodes[node].name);
+        return;
+    }
+    const ls_part *p = &nl->parts[items[culprit].part];
+    char through[300] = "";
+    if (via >= 0)
+        snprintf(through, sizeof through, " (through port '%s')", nl->parts[items[via].part].name);
+    fprintf(o, "\nMain culprit: %s '%s'%s pulls '%s' towards ground by %s, %.0f%% of what all loads together pull.\n",
+            p->kind->is_port ? "port" : p->kind->name, p->name, through, nl->nodes[node].name,
+            ls_eng(rp, b3, sizeof b3, fabs(items[culprit].delta), "V"), 100 * fabs(items[culprit].delta) / total);
+}
+
+/* loadstack sag FILE NODE: every part and port taken out in turn. */
 int ls_cmd_sag(ls_cli *cli)
 {
     ls_session s;
@@ -162,37 +262,40 @@ int ls_cmd_sag(ls_cli *cli)
         return code;
     }
     const ls_netlist *nl = &s.nl;
-    double v0 = s.op.v[node];
+    double v0 = s.op.v[node], vmax = circuit_volts(&s.op);
     sag_item *items = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *items);
     if (!items) {
         ls_session_free(&s);
         return LS_EXIT_UNSOLVABLE;
     }
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_mod *m = ls_mod_new(&s.op, i, MOD_REMOVE_PART);
-        items[i].part = i;
-        items[i].without = NAN;
-        if (m && !ls_mod_singular(m)) {
-            if (node == 0)
-                items[i].without = 0;
-            else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
-                items[i].without = ls_mod_x(m)[node - 1];
-        }
-        items[i].delta = items[i].without - v0;
-        ls_mod_free(&m);
-    }
+    sag_items(&s.op, node, items);
     qsort(items, (size_t)nl->nparts, sizeof *items, by_delta);
-    /* The main culprit pulls the node towards ground: without it the node is
-     * further from 0 V (delta of the node's own sign). */
-    double total = 0;
-    int culprit = -1;
+    /* The main culprit is the part (a port only when no part qualifies) that
+     * pulls hardest; the total counts parts only, so a load and the port it
+     * hangs on are not counted twice. */
+    double total = 0, ptotal = 0;
+    int culprit = -1, pculprit = -1, via = -1;
     for (int i = 0; i < nl->nparts; i++) {
-        double d = items[i].delta;
-        if (isfinite(d) && d != 0 && (v0 >= 0 ? d > 0 : d < 0)) {
-            total += fabs(d);
+        if (!pulls_down(&items[i], v0, vmax))
+            continue;
+        if (nl->parts[items[i].part].kind->is_port) {
+            ptotal += fabs(items[i].delta);
+            if (pculprit < 0)
+                pculprit = i;
+        } else {
+            total += fabs(items[i].delta);
             if (culprit < 0)
                 culprit = i;
         }
+    }
+    if (culprit < 0) {
+        culprit = pculprit;
+        total = ptotal;
+    } else {
+        for (int i = 0; i < nl->nparts && via < 0; i++)
+            if (nl->parts[items[i].part].kind->is_port &&
+                fabs(items[i].delta - items[culprit].delta) <= 1e-9 * fabs(items[culprit].delta))
+                via = i;
     }
     char *tmp;
     FILE *o = ls_out_open(&s, &tmp);
@@ -230,34 +333,7 @@ int ls_cmd_sag(ls_cli *cli)
                     isfinite(items[i].delta) ? ls_fmt_full(b2, sizeof b2, items[i].delta) : "");
         }
     } else {
-        char b1[64], b2[64], b3[64];
-        fprintf(o, "What pulls '%s' (now %s) away from where it would be without each part\n", nl->nodes[node].name,
-                ls_eng(&rp, b1, sizeof b1, v0, "V"));
-        fprintf(o, "  (a port is opened; a part is removed: resistors opened, sources set to zero)\n\n");
-        fprintf(o, "  %-4s %-9s %-20s %14s %14s %8s\n", "rank", "kind", "name", "without it", "delta", "share");
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *p = &nl->parts[items[i].part];
-            double d = items[i].delta;
-            char share[32] = "";
-            if (isfinite(d) && total > 0 && (v0 >= 0 ? d > 0 : d < 0))
-                snprintf(share, sizeof share, "%.1f%%", 100 * fabs(d) / total);
-            if (isnan(d))
-                fprintf(o, "  %-4d %-9s %-20s %14s %14s\n", i + 1, p->kind->is_port ? "port" : p->kind->name, p->name,
-                        "unsolvable", "-");
-            else
-                fprintf(o, "  %-4d %-9s %-20s %14s %14s %8s\n", i + 1, p->kind->is_port ? "port" : p->kind->name,
-                        p->name, ls_eng(&rp, b1, sizeof b1, items[i].without, "V"),
-                        ls_eng(&rp, b2, sizeof b2, d, "V"), share);
-        }
-        if (culprit >= 0) {
-            const ls_part *p = &nl->parts[items[culprit].part];
-            fprintf(o, "\nMain culprit: %s '%s' pulls '%s' towards ground by %s, %.0f%% of what all loads together pull.\n",
-                    p->kind->is_port ? "port" : p->kind->name, p->name, nl->nodes[node].name,
-                    ls_eng(&rp, b3, sizeof b3, fabs(items[culprit].delta), "V"),
-                    100 * fabs(items[culprit].delta) / total);
-        } else {
-            fprintf(o, "\nNothing pulls '%s' towards ground.\n", nl->nodes[node].name);
-        }
+        sag_text(&rp, &s.op, node, items, culprit, via, total);
     }
     free(items);
     return finish(&s, o, tmp, LS_EXIT_OK);
@@ -265,6 +341,7 @@ int ls_cmd_sag(ls_cli *cli)
 
 /* ---- sens ---------------------------------------------------------------------------------- */
 
+/* loadstack sens FILE QUANTITY: adjoint derivatives for every part's main value. */
 int ls_cmd_sens(ls_cli *cli)
 {
     ls_session s;
@@ -325,12 +402,14 @@ int ls_cmd_sens(ls_cli *cli)
         fprintf(o, "  %-20s %-9s %14s %14s %12s\n", "part", "kind", "value", "dQ/dp", "normalized");
         for (int i = 0; i < n; i++) {
             const ls_part *p = &s.nl.parts[items[i].part];
-            char bv[64], bn[32];
+            char bd[32], bn[32];
+            snprintf(bd, sizeof bd, "%.6g", items[i].derivative);
             snprintf(bn, sizeof bn, "%+.4f", items[i].normalized);
-            fprintf(o, "  %-20s %-9s %14.6g %14.6g %12s\n", p->name, p->kind->name, items[i].nominal,
-                    items[i].derivative, isfinite(items[i].normalized) ? bn : "-");
-            (void)bv;
+            fprintf(o, "  %-20s %-9s %14.6g %14s %12s\n", p->name, p->kind->name, items[i].nominal,
+                    isfinite(items[i].derivative) ? bd : "-", isfinite(items[i].normalized) ? bn : "-");
         }
+        if (!isfinite(value))
+            fprintf(o, "\n  The quantity has no finite value here, so it has no derivatives (see the warnings).\n");
     }
     free(items);
     return finish(&s, o, tmp, LS_EXIT_OK);

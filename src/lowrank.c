@@ -5,34 +5,49 @@
  * changes.  By the Woodbury identity, with Z = A^-1 E_R and C = I + D Z,
  *     A'^-1 y = w - Z C^-1 (D w),   w = A^-1 y,
  * so each modification costs |R| solves with the one factorization of A.
+ * Because A w = y, D w = (A' w)_R - y_R and C = (A' Z)_R: both are formed from
+ * the new rows A'_R directly, which keeps the cancellation of "a row replaced
+ * by another" out of the small system (opening a port turns its row
+ * V(from) - V(to) = 0 into I = 0, and C is then just Z's own entry).
  * Nodes that the change leaves with no DC path to ground are pinned to ground
  * through a conductance (extra rows of the update); any result that depends on
  * a pinned voltage is undefined, and a driving-point resistance at a floating
  * node is unbounded. */
-#include <lapacke.h>
+#include <float.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
-#include "analysis.h"
+#include "lowrank.h"
 
 #define MAX_RANK 64
 #define DEPEND_TOL 1e-9
+/* A pivot of C below this share of its uncancelled magnitude: no solution. */
+#define SINGULAR_TOL 1e-12
+/* Relative residual above which a solve gets a refinement step. */
+#define REFINE_TOL 1e-14
 
 struct ls_mod {
     ls_op *op;
     int n, r;
-    int *rows;               /* r changed rows */
-    int *dptr, *dcol;        /* D in compressed rows */
+    int *rows;               /* r changed rows, ascending */
+    int *dptr, *dcol;        /* D in compressed rows, duplicates summed */
     double *dval;
-    double *db;              /* rhs change, n, or NULL */
-    double *Z;               /* n*r, column-major */
-    double *C;               /* r*r LU factors */
-    lapack_int *ipiv;
+    int *nptr, *ncol;        /* the new rows A'_R = A_R + D, compressed */
+    double *nval;
+    double *db;              /* rhs change, n */
+    bool db_zero;            /* the right-hand side is unchanged */
+    double *Z;               /* n*r, column-major: A^-1 E_R */
+    double *Y;               /* n*r, column-major: A^-T D^T, built on first transposed solve */
+    double *C;               /* r*r LU factors, column-major */
+    int *ipiv;               /* their row interchanges */
+    double anorm;            /* max |a_ij| of the base matrix, for residual tests */
     bool singular;
     double *x;               /* modified solution */
     bool *floating;          /* per node */
+    int nfloating;
     int *float_row;          /* per node: its index in rows, or -1 */
+    int *island;             /* per node: a representative of its DC-connected group */
     /* fallback: an explicit factorization of A' */
     ls_solver *own;
     ls_csc own_a;
@@ -41,6 +56,7 @@ struct ls_mod {
 bool ls_mod_singular(const ls_mod *m) { return m->singular; }
 bool ls_mod_is_floating(const ls_mod *m, int node) { return node > 0 && m->floating && m->floating[node]; }
 
+/* Frees m and everything it owns; sets *pm to NULL; accepts NULL. */
 void ls_mod_free(ls_mod **pm)
 {
     ls_mod *m = pm ? *pm : NULL;
@@ -50,17 +66,159 @@ void ls_mod_free(ls_mod **pm)
     free(m->dptr);
     free(m->dcol);
     free(m->dval);
+    free(m->nptr);
+    free(m->ncol);
+    free(m->nval);
     free(m->db);
     free(m->Z);
+    free(m->Y);
     free(m->C);
     free(m->ipiv);
     free(m->x);
     free(m->floating);
     free(m->float_row);
+    free(m->island);
     ls_solver_free(&m->own);
     ls_csc_free(&m->own_a);
     free(m);
     *pm = NULL;
+}
+
+/* ---- the small system C (r <= MAX_RANK) ------------------------------------------------------ */
+/* Plain Gaussian elimination with partial pivoting: C is tiny, and a LAPACK
+ * call per port would cost more in library overhead than in arithmetic. */
+
+/* LU of the r*r column-major a in place, interchanges in piv.  Returns the
+ * first zero pivot's index + 1, or 0. */
+static int small_lu(double *a, int r, int *piv)
+{
+    int bad = 0;
+    for (int k = 0; k < r; k++) {
+        int p = k;
+        for (int i = k + 1; i < r; i++)
+            if (fabs(a[(size_t)k * r + i]) > fabs(a[(size_t)k * r + p]))
+                p = i;
+        piv[k] = p;
+        if (p != k)
+            for (int j = 0; j < r; j++) {
+                double t = a[(size_t)j * r + k];
+                a[(size_t)j * r + k] = a[(size_t)j * r + p];
+                a[(size_t)j * r + p] = t;
+            }
+        double d = a[(size_t)k * r + k];
+        if (d == 0) {
+            if (!bad)
+                bad = k + 1;
+            continue;
+        }
+        for (int i = k + 1; i < r; i++)
+            a[(size_t)k * r + i] /= d;
+        for (int j = k + 1; j < r; j++) {
+            double f = a[(size_t)j * r + k];
+            if (f != 0)
+                for (int i = k + 1; i < r; i++)
+                    a[(size_t)j * r + i] -= a[(size_t)k * r + i] * f;
+        }
+    }
+    return bad;
+}
+
+/* t <- C^-1 t (trans 0) or C^-T t (trans 1) with the factors of small_lu. */
+static void small_solve(const double *a, int r, const int *piv, double *t, int trans)
+{
+    if (!trans) {
+        for (int k = 0; k < r; k++) {
+            double x = t[k];
+            t[k] = t[piv[k]];
+            t[piv[k]] = x;
+        }
+        for (int j = 0; j < r; j++)
+            for (int i = j + 1; i < r; i++)
+                t[i] -= a[(size_t)j * r + i] * t[j];
+        for (int j = r - 1; j >= 0; j--) {
+            t[j] /= a[(size_t)j * r + j];
+            for (int i = 0; i < j; i++)
+                t[i] -= a[(size_t)j * r + i] * t[j];
+        }
+        return;
+    }
+    for (int j = 0; j < r; j++) {          /* U^T */
+        for (int i = 0; i < j; i++)
+            t[j] -= a[(size_t)j * r + i] * t[i];
+        t[j] /= a[(size_t)j * r + j];
+    }
+    for (int j = r - 1; j >= 0; j--)        /* L^T */
+        for (int i = j + 1; i < r; i++)
+            t[j] -= a[(size_t)j * r + i] * t[i];
+    for (int k = r - 1; k >= 0; k--) {
+        double x = t[k];
+        t[k] = t[piv[k]];
+        t[piv[k]] = x;
+    }
+}
+
+/* max |a_ij| of a compressed matrix. */
+static double max_abs(const ls_csc *a)
+{
+    double m = 0;
+    for (int p = 0; p < ls_csc_nnz(a); p++) {
+        double v = fabs(a->val[p]);
+        if (v > m)
+            m = v;
+    }
+    return m;
+}
+
+/* Relative residual |r| / (anorm |x| + |rhs|), max norms, r already rhs - A x. */
+static double rel_residual(const double *r, const double *x, const double *rhs, int n, double anorm)
+{
+    double rn = 0, xn = 0, bn = 0;
+    for (int i = 0; i < n; i++) {
+        double a = fabs(r[i]), b = fabs(x[i]), c = fabs(rhs[i]);
+        rn = a > rn ? a : rn;
+        xn = b > xn ? b : xn;
+        bn = c > bn ? c : bn;
+    }
+    return anorm * xn + bn > 0 ? rn / (anorm * xn + bn) : rn;
+}
+
+/* ---- solves with the base factorization ---------------------------------------------------- */
+
+/* y <- A^-1 y (or A^-T y) with the op's factorization, refined only while the
+ * residual says it helps: a well-conditioned system costs one solve and one
+ * product.  anorm: max |a_ij|, or negative to have it computed.  Returns an
+ * ls_solver_status. */
+static int base_solve(ls_op *op, double *y, int transpose, double anorm)
+{
+    const ls_csc *a = &op->mna.a;
+    int n = a->n;
+    double *rhs = malloc((size_t)(n ? n : 1) * sizeof *rhs);
+    double *r = malloc((size_t)(n ? n : 1) * sizeof *r);
+    if (!rhs || !r) {
+        free(rhs);
+        free(r);
+        return LS_SOLVER_NOMEM;
+    }
+    memcpy(rhs, y, (size_t)n * sizeof *rhs);
+    if (anorm < 0)
+        anorm = max_abs(a);
+    int st = ls_solver_solve(op->solver, y, transpose);
+    double last = INFINITY;
+    for (int k = 0; k < 3 && st == LS_SOLVER_OK; k++) {
+        ls_csc_matvec(a, y, r, transpose);
+        for (int i = 0; i < n; i++)
+            r[i] = rhs[i] - r[i];
+        double rel = rel_residual(r, y, rhs, n, anorm);
+        if (rel <= REFINE_TOL || !(rel < 0.5 * last))
+            break;
+        last = rel;
+        st = ls_solver_solve(op->solver, r, transpose);
+        for (int i = 0; i < n && st == LS_SOLVER_OK; i++)
+            y[i] += r[i];
+    }
+    free(rhs);
+    free(r);
+    return st;
 }
 
 /* ---- which nodes float once the part is gone --------------------------------------- */
@@ -69,6 +227,7 @@ typedef struct uf_ctx {
     int *parent;
 } uf_ctx;
 
+/* Edge callback: every DC path joins its two nodes' groups. */
 static void uf_edge(void *ctx, int a, int b, bool vdef, int part)
 {
     (void)vdef;
@@ -78,7 +237,7 @@ static void uf_edge(void *ctx, int a, int b, bool vdef, int part)
         ls_uf_union(u->parent, a, b);
 }
 
-/* Removing a voltage source or a voltage-controlled voltage source leaves a
+/* Removing a voltage source or a voltage-defined controlled source leaves a
  * short (its value set to zero); removing anything else opens it. */
 static bool removal_keeps_edges(const ls_part *p)
 {
@@ -86,6 +245,8 @@ static bool removal_keeps_edges(const ls_part *p)
     return strcmp(k, "voltage") == 0 || strcmp(k, "vcvs") == 0 || strcmp(k, "ccvs") == 0;
 }
 
+/* Mark the nodes with no DC path to ground once the part is changed.
+ * Returns their number, or -1 when out of memory. */
 static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
 {
     const ls_netlist *nl = m->op->nl;
@@ -112,11 +273,14 @@ static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
         ls_uf_union(parent, 0, p->pin[0]);
     int count = 0;
     for (int i = 1; i < nn; i++)
-        if (ls_uf_find(parent, i) != 0) {
+        if (ls_uf_find(parent, i) != ls_uf_find(parent, 0)) {
             m->floating[i] = true;
             count++;
         }
-    free(parent);
+    for (int i = 0; i < nn; i++)
+        parent[i] = ls_uf_find(parent, i);
+    m->island = parent;
+    m->nfloating = count;
     return count;
 }
 
@@ -128,13 +292,14 @@ static int cmp_int(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-/* Triplets of A' - A for the modification. */
+/* Triplets of A' - A for the modification (duplicates not summed), and the
+ * rhs change in m->db.  0 ok, -1 out of memory. */
 static int delta_triplets(ls_mod *m, int part, ls_mod_kind kind, ls_triplets *t)
 {
     ls_op *op = m->op;
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[part];
-    m->db = calloc((size_t)m->n, sizeof *m->db);
+    m->db = calloc((size_t)(m->n ? m->n : 1), sizeof *m->db);
     if (!m->db)
         return -1;
     ls_sink s = {.mode = SINK_ASSEMBLE, .t = t, .b = m->db, .scale = -1};
@@ -158,114 +323,207 @@ static int delta_triplets(ls_mod *m, int part, ls_mod_kind kind, ls_triplets *t)
             s.scale = 1;
             ls_sink_a(&s, i - 1, i - 1, op->g_pin);
         }
+    m->db_zero = true;
+    for (int i = 0; i < m->n; i++)
+        if (m->db[i] != 0)
+            m->db_zero = false;
     return t->failed ? -1 : 0;
 }
 
-/* Group the delta triplets by row into D. */
+typedef struct trip {
+    int i, j;
+    double v;
+} trip;
+
+/* qsort order of triplets: by row, then column. */
+static int cmp_trip(const void *a, const void *b)
+{
+    const trip *x = a, *y = b;
+    if (x->i != y->i)
+        return (x->i > y->i) - (x->i < y->i);
+    return (x->j > y->j) - (x->j < y->j);
+}
+
+/* Compressed rows of the triplets tr (sorted by row, then column; no zeros):
+ * the row set, its pointers, columns and values.  Returns -1 out of memory. */
+static int compress_rows(const trip *tr, size_t nt, int **rows, int *r, int **ptr, int **col, double **val)
+{
+    int nr = 0;
+    for (size_t k = 0; k < nt; k++)
+        nr += k == 0 || tr[k].i != tr[k - 1].i;
+    *rows = malloc((size_t)(nr ? nr : 1) * sizeof **rows);
+    *ptr = calloc((size_t)nr + 1, sizeof **ptr);
+    *col = malloc((nt ? nt : 1) * sizeof **col);
+    *val = malloc((nt ? nt : 1) * sizeof **val);
+    if (!*rows || !*ptr || !*col || !*val)
+        return -1;
+    int ri = -1;
+    for (size_t k = 0; k < nt; k++) {
+        if (k == 0 || tr[k].i != tr[k - 1].i)
+            (*rows)[++ri] = tr[k].i;
+        (*ptr)[ri + 1] = (int)k + 1;
+        (*col)[k] = tr[k].j;
+        (*val)[k] = tr[k].v;
+    }
+    *r = nr;
+    return 0;
+}
+
+/* Sort and sum triplets in place, dropping entries that sum to zero.
+ * Returns the new count. */
+static size_t merge_trips(trip *tr, size_t nt)
+{
+    qsort(tr, nt, sizeof *tr, cmp_trip);
+    size_t w = 0;
+    for (size_t k = 0; k < nt;) {
+        trip t = tr[k++];
+        while (k < nt && tr[k].i == t.i && tr[k].j == t.j)
+            t.v += tr[k++].v;
+        if (t.v != 0)
+            tr[w++] = t;
+    }
+    return w;
+}
+
+/* D (the summed row changes, empty rows dropped) and the new rows A'_R.
+ * 0 ok, -1 out of memory. */
 static int build_rows(ls_mod *m, const ls_triplets *t)
 {
-    int *rows = malloc((t->nnz ? t->nnz : 1) * sizeof *rows);
-    if (!rows)
+    const ls_csc *a = &m->op->mna.a;
+    trip *tr = malloc((t->nnz ? t->nnz : 1) * sizeof *tr);
+    if (!tr)
         return -1;
     for (size_t k = 0; k < t->nnz; k++)
-        rows[k] = t->ti[k];
-    qsort(rows, t->nnz, sizeof *rows, cmp_int);
-    int r = 0;
-    for (size_t k = 0; k < t->nnz; k++)
-        if (r == 0 || rows[r - 1] != rows[k])
-            rows[r++] = rows[k];
-    m->r = r;
-    m->rows = rows;
-    m->dptr = calloc((size_t)r + 1, sizeof *m->dptr);
-    m->dcol = malloc((t->nnz ? t->nnz : 1) * sizeof *m->dcol);
-    m->dval = malloc((t->nnz ? t->nnz : 1) * sizeof *m->dval);
-    if (!m->dptr || !m->dcol || !m->dval)
+        tr[k] = (trip){t->ti[k], t->tj[k], t->tx[k]};
+    size_t nt = merge_trips(tr, t->nnz);
+    int rc = compress_rows(tr, nt, &m->rows, &m->r, &m->dptr, &m->dcol, &m->dval);
+    free(tr);
+    if (rc != 0)
         return -1;
-    for (size_t k = 0; k < t->nnz; k++) {
-        int *pos = bsearch(&t->ti[k], rows, (size_t)r, sizeof *rows, cmp_int);
-        m->dptr[pos - rows + 1]++;
-    }
-    for (int i = 0; i < r; i++)
-        m->dptr[i + 1] += m->dptr[i];
-    int *fill = malloc(((size_t)r + 1) * sizeof *fill);
-    if (!fill)
+    /* A'_R: the base rows R (scanned out of the columns) plus D */
+    int *where = malloc((size_t)(m->n ? m->n : 1) * sizeof *where);
+    if (!where)
         return -1;
-    memcpy(fill, m->dptr, ((size_t)r + 1) * sizeof *fill);
-    for (size_t k = 0; k < t->nnz; k++) {
-        int i = (int)((int *)bsearch(&t->ti[k], rows, (size_t)r, sizeof *rows, cmp_int) - rows);
-        m->dcol[fill[i]] = t->tj[k];
-        m->dval[fill[i]++] = t->tx[k];
+    for (int i = 0; i < m->n; i++)
+        where[i] = -1;
+    for (int i = 0; i < m->r; i++)
+        where[m->rows[i]] = i;
+    size_t cnt = (size_t)m->dptr[m->r];
+    for (int p = 0; p < ls_csc_nnz(a); p++)
+        cnt += where[a->rowind[p]] >= 0;
+    tr = malloc((cnt ? cnt : 1) * sizeof *tr);
+    if (!tr) {
+        free(where);
+        return -1;
     }
-    free(fill);
+    size_t k = 0;
+    for (int j = 0; j < a->n; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            if (where[a->rowind[p]] >= 0)
+                tr[k++] = (trip){a->rowind[p], j, a->val[p]};
+    for (int i = 0; i < m->r; i++)
+        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++)
+            tr[k++] = (trip){m->rows[i], m->dcol[p], m->dval[p]};
+    nt = merge_trips(tr, k);
+    /* a new row may vanish entirely (then A' is singular); keep every row of R */
+    int *nrows = NULL, nr = 0;
+    rc = compress_rows(tr, nt, &nrows, &nr, &m->nptr, &m->ncol, &m->nval);
+    free(tr);
+    if (rc == 0 && nr != m->r) {
+        /* re-point rows: rows of R with an empty new row get empty ranges */
+        int *ptr = calloc((size_t)m->r + 1, sizeof *ptr);
+        if (!ptr)
+            rc = -1;
+        for (int i = 0, q = 0; ptr && i < m->r; i++) {
+            ptr[i + 1] = ptr[i];
+            if (q < nr && nrows[q] == m->rows[i]) {
+                ptr[i + 1] = m->nptr[q + 1];
+                q++;
+            }
+        }
+        if (ptr) {
+            free(m->nptr);
+            m->nptr = ptr;
+        }
+    }
+    free(nrows);
+    free(where);
+    if (rc != 0)
+        return -1;
     for (int i = 1; i < m->op->nl->nnodes; i++)
         if (m->floating[i]) {
             int u = i - 1;
-            int *pos = bsearch(&u, rows, (size_t)r, sizeof *rows, cmp_int);
-            m->float_row[i] = pos ? (int)(pos - rows) : -1;
+            int *pos = bsearch(&u, m->rows, (size_t)m->r, sizeof *m->rows, cmp_int);
+            m->float_row[i] = pos ? (int)(pos - m->rows) : -1;
         }
     return 0;
 }
 
-/* D y for each changed row. */
-static void apply_d(const ls_mod *m, const double *y, double *out)
+/* out_i = A'_{rows_i} y - (sub ? sub[rows_i] : 0) for each changed row: D y
+ * when A y = sub. */
+static void apply_new_rows(const ls_mod *m, const double *y, const double *sub, double *out)
 {
     for (int i = 0; i < m->r; i++) {
         double s = 0;
-        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++)
-            s += m->dval[p] * y[m->dcol[p]];
-        out[i] = s;
+        for (int p = m->nptr[i]; p < m->nptr[i + 1]; p++)
+            s += m->nval[p] * y[m->ncol[p]];
+        out[i] = s - (sub ? sub[m->rows[i]] : 0);
     }
 }
 
+/* Z = A^-1 E_R and the LU factors of C = A'_R Z; marks m singular when a pivot
+ * vanishes against the magnitude of its column.  0 ok, -1 failure. */
 static int woodbury_setup(ls_mod *m)
 {
     int n = m->n, r = m->r;
-    m->Z = calloc((size_t)n * (size_t)(r ? r : 1), sizeof *m->Z);
-    m->C = calloc((size_t)(r ? r : 1) * (size_t)(r ? r : 1), sizeof *m->C);
-    m->ipiv = malloc((size_t)(r ? r : 1) * sizeof *m->ipiv);
-    double *col = malloc((size_t)(r ? r : 1) * sizeof *col);
-    if (!m->Z || !m->C || !m->ipiv || !col) {
-        free(col);
+    size_t rr = (size_t)(r ? r : 1);
+    m->Z = calloc((size_t)(n ? n : 1) * rr, sizeof *m->Z);
+    m->C = calloc(rr * rr, sizeof *m->C);
+    m->ipiv = malloc(rr * sizeof *m->ipiv);
+    double *mag = calloc(rr, sizeof *mag);
+    if (!m->Z || !m->C || !m->ipiv || !mag) {
+        free(mag);
         return -1;
     }
     for (int j = 0; j < r; j++) {
         double *z = m->Z + (size_t)j * n;
         z[m->rows[j]] = 1;
-        if (ls_op_solve_vec(m->op, z, 0) != LS_SOLVER_OK) {
-            free(col);
+        if (base_solve(m->op, z, 0, m->anorm) != LS_SOLVER_OK) {
+            free(mag);
             return -1;
         }
-        apply_d(m, z, col);
-        for (int i = 0; i < r; i++)
-            m->C[(size_t)j * r + i] = col[i] + (i == j);
+        apply_new_rows(m, z, NULL, m->C + (size_t)j * r);
+        /* the size of the terms that cancel in column j of C */
+        for (int i = 0; i < r; i++) {
+            double s = 0;
+            for (int p = m->nptr[i]; p < m->nptr[i + 1]; p++)
+                s += fabs(m->nval[p] * z[m->ncol[p]]);
+            mag[j] = fmax(mag[j], s);
+        }
     }
-    free(col);
-    if (r == 0)
-        return 0;
-    double cnorm = LAPACKE_dlange(LAPACK_COL_MAJOR, '1', r, r, m->C, r);
-    lapack_int info = LAPACKE_dgetrf(LAPACK_COL_MAJOR, r, r, m->C, r, m->ipiv);
-    if (info > 0) {
-        m->singular = true;
+    if (r == 0) {
+        free(mag);
         return 0;
     }
-    double rc = 0;
-    LAPACKE_dgecon(LAPACK_COL_MAJOR, '1', r, m->C, r, cnorm, &rc);
-    /* C's condition measures how close A' is to singular relative to A. */
-    if (!(rc > 1e-13))
+    if (small_lu(m->C, r, m->ipiv))
         m->singular = true;
+    for (int j = 0; j < r && !m->singular; j++)
+        if (!(fabs(m->C[(size_t)j * r + j]) > SINGULAR_TOL * mag[j]))
+            m->singular = true;
+    free(mag);
     return 0;
 }
 
-/* The fallback: assemble A' whole and factor it. */
+/* The fallback: assemble A' whole and factor it.  0 ok, -1 failure. */
 static int explicit_setup(ls_mod *m, const ls_triplets *dt)
 {
     ls_op *op = m->op;
     const ls_csc *a = &op->mna.a;
     ls_triplets t = {0};
     size_t nnz = (size_t)ls_csc_nnz(a) + dt->nnz;
-    t.ti = malloc(nnz * sizeof *t.ti);
-    t.tj = malloc(nnz * sizeof *t.tj);
-    t.tx = malloc(nnz * sizeof *t.tx);
+    t.ti = malloc((nnz ? nnz : 1) * sizeof *t.ti);
+    t.tj = malloc((nnz ? nnz : 1) * sizeof *t.tj);
+    t.tx = malloc((nnz ? nnz : 1) * sizeof *t.tx);
     if (!t.ti || !t.tj || !t.tx) {
         ls_triplets_free(&t);
         return -1;
@@ -285,14 +543,15 @@ static int explicit_setup(ls_mod *m, const ls_triplets *dt)
     ls_triplets_free(&t);
     if (rc != 0)
         return -1;
-    const ls_solver_stats *bs = ls_solver_stats_of(op->solver);
     const ls_backend *be = &ls_backend_dense;
+    ls_method meth = LS_METHOD_DENSE_LU;
 #ifdef LS_HAVE_SPARSE
-    if (bs->method != LS_METHOD_DENSE_LU)
+    if (ls_solver_stats_of(op->solver)->method != LS_METHOD_DENSE_LU) {
         be = &ls_backend_klu;
+        meth = LS_METHOD_SPARSE_LU;
+    }
 #endif
-    (void)bs;
-    m->own = ls_solver_new(be, LS_METHOD_DENSE_LU);
+    m->own = ls_solver_new(be, meth);
     if (!m->own)
         return -1;
     int st = ls_solver_analyze(m->own, &m->own_a);
@@ -305,20 +564,16 @@ static int explicit_setup(ls_mod *m, const ls_triplets *dt)
     return 0;
 }
 
-int ls_mod_solve(ls_mod *m, double *y)
+/* y <- A'^-1 y given w = A^-1 y already in y and the original y in orig. */
+static int woodbury_finish(ls_mod *m, double *y, const double *orig)
 {
-    if (m->singular)
-        return LS_SOLVER_SINGULAR;
-    if (m->own)
-        return ls_solver_solve(m->own, y, 0);
-    int st = ls_op_solve_vec(m->op, y, 0);
-    if (st != LS_SOLVER_OK || m->r == 0)
-        return st;
+    if (m->r == 0)
+        return LS_SOLVER_OK;
     double *t = malloc((size_t)m->r * sizeof *t);
     if (!t)
         return LS_SOLVER_NOMEM;
-    apply_d(m, y, t);
-    LAPACKE_dgetrs(LAPACK_COL_MAJOR, 'N', m->r, 1, m->C, m->r, m->ipiv, t, m->r);
+    apply_new_rows(m, y, orig, t);
+    small_solve(m->C, m->r, m->ipiv, t, 0);
     for (int j = 0; j < m->r; j++) {
         const double *z = m->Z + (size_t)j * m->n;
         double s = t[j];
@@ -330,15 +585,212 @@ int ls_mod_solve(ls_mod *m, double *y)
     return LS_SOLVER_OK;
 }
 
-ls_mod *ls_mod_new(ls_op *op, int part, ls_mod_kind kind)
+/* y <- A'^-1 y, one pass: the base solve and the Woodbury correction (or the
+ * fallback's own factorization). */
+static int mod_solve_once(ls_mod *m, double *y, double *orig)
+{
+    if (m->own)
+        return ls_solver_solve(m->own, y, 0);
+    memcpy(orig, y, (size_t)m->n * sizeof *orig);
+    int st = base_solve(m->op, y, 0, m->anorm);
+    if (st == LS_SOLVER_OK)
+        st = woodbury_finish(m, y, orig);
+    return st;
+}
+
+static double mod_residual(const ls_mod *m, const double *x, const double *rhs, double *r);
+
+/* y <- A'^-1 y in place (see analysis.h), refined against A'. */
+int ls_mod_solve(ls_mod *m, double *y)
+{
+    if (m->singular)
+        return LS_SOLVER_SINGULAR;
+    size_t bytes = (size_t)(m->n ? m->n : 1) * sizeof(double);
+    double *rhs = malloc(bytes), *orig = malloc(bytes), *r = malloc(bytes);
+    if (!rhs || !orig || !r) {
+        free(rhs);
+        free(orig);
+        free(r);
+        return LS_SOLVER_NOMEM;
+    }
+    memcpy(rhs, y, bytes);
+    int st = mod_solve_once(m, y, orig);
+    /* refined against A' itself: a nearly cancelling update leaves round-off
+     * of the size of the base solution */
+    double last = INFINITY;
+    for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
+        double rel = mod_residual(m, y, rhs, r);
+        if (rel <= REFINE_TOL || !(rel < 0.5 * last))
+            break;
+        last = rel;
+        st = mod_solve_once(m, r, orig);
+        for (int i = 0; i < m->n && st == LS_SOLVER_OK; i++)
+            y[i] += r[i];
+    }
+    free(rhs);
+    free(orig);
+    free(r);
+    return st;
+}
+
+/* Y = A^-T D^T, one transposed solve per changed row.  0 ok, -1 failure. */
+static int build_y(ls_mod *m)
+{
+    int n = m->n, r = m->r;
+    m->Y = calloc((size_t)(n ? n : 1) * (size_t)(r ? r : 1), sizeof *m->Y);
+    if (!m->Y)
+        return -1;
+    for (int j = 0; j < r; j++) {
+        double *y = m->Y + (size_t)j * n;
+        for (int p = m->dptr[j]; p < m->dptr[j + 1]; p++)
+            y[m->dcol[p]] += m->dval[p];
+        if (base_solve(m->op, y, 1, m->anorm) != LS_SOLVER_OK) {
+            free(m->Y);
+            m->Y = NULL;
+            return -1;
+        }
+    }
+    return 0;
+}
+
+/* y <- A'^-T y, one pass of the transposed Woodbury identity. */
+static int mod_solve_t_once(ls_mod *m, double *y)
+{
+    if (m->own)
+        return ls_solver_solve(m->own, y, 1);
+    int st = base_solve(m->op, y, 1, m->anorm);
+    if (st != LS_SOLVER_OK || m->r == 0)
+        return st;
+    double *t = malloc((size_t)m->r * sizeof *t);
+    if (!t)
+        return LS_SOLVER_NOMEM;
+    for (int i = 0; i < m->r; i++)
+        t[i] = y[m->rows[i]];
+    small_solve(m->C, m->r, m->ipiv, t, 1);
+    for (int j = 0; j < m->r; j++) {
+        const double *yc = m->Y + (size_t)j * m->n;
+        if (t[j] != 0)
+            for (int i = 0; i < m->n; i++)
+                y[i] -= yc[i] * t[j];
+    }
+    free(t);
+    return LS_SOLVER_OK;
+}
+
+/* r <- rhs - A'^T x with A'^T = A^T + D^T E_R^T; returns the relative residual. */
+static double mod_residual_t(const ls_mod *m, const double *x, const double *rhs, double *r)
+{
+    ls_csc_matvec(&m->op->mna.a, x, r, 1);
+    for (int i = 0; i < m->r; i++)
+        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++)
+            r[m->dcol[p]] += m->dval[p] * x[m->rows[i]];
+    for (int i = 0; i < m->n; i++)
+        r[i] = rhs[i] - r[i];
+    return rel_residual(r, x, rhs, m->n, m->anorm);
+}
+
+/* y <- A'^-T y in place (see lowrank.h), refined against A'^T. */
+int ls_mod_solve_t(ls_mod *m, double *y)
+{
+    if (m->singular)
+        return LS_SOLVER_SINGULAR;
+    if (!m->own && m->r > 0 && !m->Y && build_y(m) != 0)
+        return LS_SOLVER_NOMEM;
+    size_t bytes = (size_t)(m->n ? m->n : 1) * sizeof(double);
+    double *rhs = malloc(bytes), *r = malloc(bytes);
+    if (!rhs || !r) {
+        free(rhs);
+        free(r);
+        return LS_SOLVER_NOMEM;
+    }
+    memcpy(rhs, y, bytes);
+    int st = mod_solve_t_once(m, y);
+    double last = INFINITY;
+    for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
+        double rel = mod_residual_t(m, y, rhs, r);
+        if (rel <= REFINE_TOL || !(rel < 0.5 * last))
+            break;
+        last = rel;
+        st = mod_solve_t_once(m, r);
+        for (int i = 0; i < m->n && st == LS_SOLVER_OK; i++)
+            y[i] += r[i];
+    }
+    free(rhs);
+    free(r);
+    return st;
+}
+
+/* r <- rhs - A' x with A' = A + E_R D; returns the relative residual
+ * |r| / (|A| |x| + |rhs|) in the max norm. */
+static double mod_residual(const ls_mod *m, const double *x, const double *rhs, double *r)
+{
+    ls_csc_matvec(&m->op->mna.a, x, r, 0);
+    for (int i = 0; i < m->r; i++)
+        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++)
+            r[m->rows[i]] += m->dval[p] * x[m->dcol[p]];
+    for (int i = 0; i < m->n; i++)
+        r[i] = rhs[i] - r[i];
+    return rel_residual(r, x, rhs, m->n, m->anorm);
+}
+
+/* The modified solution: from the base solution when the rhs is unchanged
+ * (no solve at all), else a full modified solve; then refined against A'
+ * itself, since a nearly cancelling update leaves round-off of the size of
+ * the base solution.  Returns an ls_solver_status. */
+static int modified_solution(ls_mod *m)
+{
+    ls_op *op = m->op;
+    size_t bytes = (size_t)(m->n ? m->n : 1) * sizeof(double);
+    double *rhs = malloc(bytes), *r = malloc(bytes);
+    if (!rhs || !r) {
+        free(rhs);
+        free(r);
+        return LS_SOLVER_NOMEM;
+    }
+    for (int i = 0; i < m->n; i++)
+        rhs[i] = m->x[i] = op->mna.b[i] + m->db[i];
+    int st;
+    if (m->own || !m->db_zero) {
+        st = ls_mod_solve(m, m->x);
+    } else {
+        memcpy(m->x, op->x, bytes);
+        st = woodbury_finish(m, m->x, rhs);
+    }
+    double last = INFINITY;
+    for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
+        double rel = mod_residual(m, m->x, rhs, r);
+        if (rel <= REFINE_TOL || !(rel < 0.5 * last))
+            break;
+        last = rel;
+        st = ls_mod_solve(m, r);
+        for (int i = 0; i < m->n && st == LS_SOLVER_OK; i++)
+            m->x[i] += r[i];
+    }
+    free(rhs);
+    free(r);
+    return st;
+}
+
+/* One attempt at the modification; with pin false, nodes without a DC path
+ * are left as they are (controlled sources may still fix their voltages).
+ * *topo gets the number of such nodes.  NULL when out of memory. */
+static ls_mod *mod_build(ls_op *op, int part, ls_mod_kind kind, bool pin, int *topo)
 {
     ls_mod *m = calloc(1, sizeof *m);
     if (!m)
         return NULL;
     m->op = op;
     m->n = op->mna.n;
+    m->anorm = max_abs(&op->mna.a);
     ls_triplets dt = {0};
-    if (find_floating(m, part, kind) < 0 || delta_triplets(m, part, kind, &dt) != 0 || build_rows(m, &dt) != 0)
+    *topo = find_floating(m, part, kind);
+    if (*topo < 0)
+        goto fail;
+    if (!pin) {
+        memset(m->floating, 0, (size_t)op->nl->nnodes * sizeof *m->floating);
+        m->nfloating = 0;
+    }
+    if (delta_triplets(m, part, kind, &dt) != 0 || build_rows(m, &dt) != 0)
         goto fail;
     int rc = m->r > MAX_RANK ? explicit_setup(m, &dt) : woodbury_setup(m);
     if (rc != 0)
@@ -346,12 +798,8 @@ ls_mod *ls_mod_new(ls_op *op, int part, ls_mod_kind kind)
     m->x = malloc((size_t)(m->n ? m->n : 1) * sizeof *m->x);
     if (!m->x)
         goto fail;
-    if (!m->singular) {
-        for (int i = 0; i < m->n; i++)
-            m->x[i] = op->mna.b[i] + m->db[i];
-        if (ls_mod_solve(m, m->x) != LS_SOLVER_OK)
-            m->singular = true;
-    }
+    if (!m->singular && modified_solution(m) != LS_SOLVER_OK)
+        m->singular = true;
     ls_triplets_free(&dt);
     return m;
 fail:
@@ -360,22 +808,30 @@ fail:
     return NULL;
 }
 
+/* A node without a DC path is floating only when the equations leave it
+ * undetermined: the update is tried as it is first, and only a singular
+ * result is redone with those nodes pinned to ground. */
+ls_mod *ls_mod_new(ls_op *op, int part, ls_mod_kind kind)
+{
+    int topo = 0;
+    ls_mod *m = mod_build(op, part, kind, false, &topo);
+    if (m && m->singular && topo > 0) {
+        ls_mod_free(&m);
+        m = mod_build(op, part, kind, true, &topo);
+    }
+    return m;
+}
+
+/* The modified solution, n values owned by m. */
 const double *ls_mod_x(ls_mod *m)
 {
     return m->x;
 }
 
+/* Does node's voltage change with a pinned node's?  (Then it is undefined.) */
 bool ls_mod_depends_on_floating(ls_mod *m, int node)
 {
-    if (node <= 0 || m->singular)
-        return false;
-    int any = -1;
-    for (int i = 1; i < m->op->nl->nnodes; i++)
-        if (m->floating[i]) {
-            any = i;
-            break;
-        }
-    if (any < 0)
+    if (node <= 0 || m->singular || m->nfloating == 0)
         return false;
     if (m->own) {
         /* explicit: probe each pinned node's influence directly */
@@ -392,14 +848,14 @@ bool ls_mod_depends_on_floating(ls_mod *m, int node)
         free(y);
         return dep;
     }
-    /* (A'^-1)_{node,j} = (C^-T Z_node)_{jj} for a pinned row j = rows[jj] */
+    /* A'^-1 E_R = Z C^-1, so (A'^-1)_{node,rows[j]} = (C^-T Z^T e_node)_j */
     int r = m->r;
-    double *zr = malloc((size_t)r * sizeof *zr);
+    double *zr = malloc((size_t)(r ? r : 1) * sizeof *zr);
     if (!zr)
         return true;
     for (int j = 0; j < r; j++)
         zr[j] = m->Z[(size_t)j * m->n + (node - 1)];
-    LAPACKE_dgetrs(LAPACK_COL_MAJOR, 'T', r, 1, m->C, r, m->ipiv, zr, r);
+    small_solve(m->C, r, m->ipiv, zr, 1);
     bool dep = false;
     for (int i = 1; i < m->op->nl->nnodes && !dep; i++)
         if (m->floating[i] && m->float_row[i] >= 0)
@@ -408,6 +864,7 @@ bool ls_mod_depends_on_floating(ls_mod *m, int node)
     return dep;
 }
 
+/* (A'^-1)_{node,node} (ohm): 0 at ground, inf when the node floats, NaN when singular. */
 double ls_mod_zdrive(ls_mod *m, int node)
 {
     if (node <= 0)
@@ -425,6 +882,7 @@ double ls_mod_zdrive(ls_mod *m, int node)
     return z;
 }
 
+/* (A^-1)_{node,node} (ohm) of the base system: the Thevenin resistance at node. */
 double ls_op_zdrive(ls_op *op, int node)
 {
     if (node <= 0)
@@ -433,22 +891,52 @@ double ls_op_zdrive(ls_op *op, int node)
     if (!y)
         return NAN;
     y[node - 1] = 1;
-    double z = ls_op_solve_vec(op, y, 0) == LS_SOLVER_OK ? y[node - 1] : NAN;
+    double z = base_solve(op, y, 0, -1) == LS_SOLVER_OK ? y[node - 1] : NAN;
     free(y);
     return z;
 }
 
 /* ---- the port report ---------------------------------------------------------------------- */
 
+/* Net current (A) flowing into the floating island that contains `node`, read
+ * off the pin conductances of the modified solution (all of it leaves through
+ * them), and the sum of their magnitudes in *scale. */
+static double island_current(ls_mod *m, int node, double *scale)
+{
+    int nn = m->op->nl->nnodes;
+    double net = 0;
+    *scale = 0;
+    for (int i = 1; i < nn; i++)
+        if (m->floating[i] && m->island[i] == m->island[node]) {
+            double c = m->op->g_pin * m->x[i - 1];
+            net += c;
+            *scale += fabs(c);
+        }
+    return net;
+}
+
+/* Voltage of node in the modified system: NaN when undefined; for a floating
+ * node fed a net current (a current source into an open end), unbounded with
+ * the sign of that current. */
 static double node_value(ls_mod *m, int node)
 {
     if (node <= 0)
         return 0;
-    if (m->singular || m->floating[node] || ls_mod_depends_on_floating(m, node))
+    if (m->singular)
+        return NAN;
+    if (m->floating[node]) {
+        double scale, net = island_current(m, node, &scale);
+        double ref = 0;
+        for (int i = 0; i < m->op->nl->nparts; i++)
+            ref = fmax(ref, fabs(m->op->ipart[i]));
+        return fabs(net) > 1e-9 * ref && fabs(net) > 1e-6 * scale ? copysign(INFINITY, net) : NAN;
+    }
+    if (ls_mod_depends_on_floating(m, node))
         return NAN;
     return m->x[node - 1];
 }
 
+/* Driving-point resistance (ohm) at node in the modified system. */
 static double z_at(ls_mod *m, int node)
 {
     if (node <= 0)
@@ -462,6 +950,8 @@ static double z_at(ls_mod *m, int node)
     return ls_mod_zdrive(m, node);
 }
 
+/* num/den with the report's conventions: 0/0 and inf/inf undefined (NaN),
+ * x/0 unbounded. */
 static double ratio_of(double num, double den)
 {
     if (isnan(num) || isnan(den))
@@ -473,6 +963,8 @@ static double ratio_of(double num, double den)
     return num / den;
 }
 
+/* The verdict against the minimum ratio; an undefined ratio passes only when
+ * the side that should be large is unbounded. */
 static void judge(ls_op *op, ls_port_result *r)
 {
     double min = ls_op_min_ratio(op);
@@ -486,43 +978,154 @@ static void judge(ls_op *op, ls_port_result *r)
         r->verdict = VERDICT_LOADING;
 }
 
+/* Warn once per port (a re-solve recomputes the report) about a field with
+ * no value. */
+static void note_warning(ls_op *op, int pi, const char *note)
+{
+    const ls_part *p = &op->nl->parts[pi];
+    ls_diags *d = op->nl->diags;
+    for (int i = 0; i < d->n; i++)
+        if (d->items[i].code && strcmp(d->items[i].code, "port-undefined") == 0 && d->items[i].loc.file == p->loc.file &&
+            d->items[i].loc.start == p->loc.start)
+            return;
+    ls_warning(d, p->loc, "port-undefined", "port '%s': %s", p->name, note);
+}
+
+/* Voltage-mode fields: open from the port opened, impedances at both ends. */
+static void voltage_fields(ls_op *op, ls_mod *m, const ls_part *p, ls_port_result *r)
+{
+    int f = p->pin[0], t = p->pin[1];
+    r->zout = z_at(m, f);
+    r->zin = z_at(m, t);
+    r->open = node_value(m, f);
+    r->loaded = op->v[f];
+    if (m->singular)
+        r->note = "opening this port leaves the circuit without a DC solution (is it inside a feedback loop?); "
+                  "open, sag, zout, zin and ratio are undefined";
+    else if (isinf(r->open))
+        r->note = "with the load disconnected nothing limits the driver's voltage (a current into an open end): "
+                  "open and sag are unbounded; a current-output driver wants mode=current";
+    else if (isnan(r->open))
+        r->note = "with the load disconnected the driver's voltage is not set by anything: open and sag are undefined";
+}
+
+/* Current-mode fields: open is the driver's current into a short to ground. */
+static void current_fields(ls_op *op, ls_mod *m, int pi, ls_port_result *r)
+{
+    const ls_part *p = &op->nl->parts[pi];
+    r->zout = z_at(m, p->pin[0]);
+    r->zin = z_at(m, p->pin[1]);
+    r->loaded = r->current;
+    ls_mod *s = ls_mod_new(op, pi, MOD_SHORT_PORT_TO_GROUND);
+    r->open = s && !s->singular ? s->x[p->branch] : NAN;
+    if (s && !s->singular && s->nfloating && p->pin[0] > 0 && ls_mod_depends_on_floating(s, p->pin[0]))
+        r->open = NAN;
+    if (m->singular)
+        r->note = "opening this port leaves the circuit without a DC solution (is it inside a feedback loop?); "
+                  "zout, zin and ratio are undefined";
+    if (isnan(r->open) && !r->note)
+        r->note = p->pin[0] == 0 ? "the driver end is ground: there is no short-circuit current to report"
+                                 : "the driver's short-circuit current is not defined";
+    ls_mod_free(&s);
+}
+
+static void finish_report(ls_op *op, int pi, ls_port_result *r);
+
+/* The fast path of a voltage-mode port, from two rows of A^-1.  The port's
+ * branch row k of A is V(f) - V(t) = 0, so (e_f - e_t)^T A^-1 = e_k^T: row t
+ * of A^-1 is row f minus e_k^T.  Opening the port replaces row k by I = 0,
+ * a rank-one change, and by the Sherman-Morrison formula
+ *     (A'^-1)_ij = a_ij - a_ik (a_kj - [k = j]) / a_kk,   a = A^-1,
+ * so zout = a_ff - a_fk a_kf / a_kk, zin = a_tt - a_tk a_kt / a_kk and
+ * open = x_f - a_fk x_k / a_kk.  Rows f (or t) and k cost one transposed
+ * solve each.  Returns false (nothing set) when a_kk is too small to trust:
+ * then opening the port may leave nodes undetermined, for the general path. */
+static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r)
+{
+    int n = op->mna.n, f = p->pin[0] - 1, t = p->pin[1] - 1, k = p->branch;
+    if (f == t)
+        return false;                 /* both ends on one node: no such row identity */
+    double anorm = max_abs(&op->mna.a);
+    double *yk = calloc((size_t)(n ? n : 1), sizeof *yk);
+    double *ys = calloc((size_t)(n ? n : 1), sizeof *ys);
+    bool ok = yk && ys;
+    int s = f >= 0 ? f : t;           /* the end that is not ground */
+    if (ok) {
+        yk[k] = 1;
+        ys[s] = 1;
+        ok = base_solve(op, yk, 1, anorm) == LS_SOLVER_OK && base_solve(op, ys, 1, anorm) == LS_SOLVER_OK;
+    }
+    /* rows f and t of A^-1 at columns f, t, k (a ground end's row is 0) */
+    double af[3] = {0, 0, 0}, at[3] = {0, 0, 0};   /* columns f, t, k */
+    if (ok) {
+        double *row = s == f ? af : at, *other = s == f ? at : af, sign = s == f ? -1 : 1;
+        row[0] = f >= 0 ? ys[f] : 0;
+        row[1] = t >= 0 ? ys[t] : 0;
+        row[2] = ys[k];
+        if ((s == f ? t : f) >= 0)
+            for (int j = 0; j < 3; j++)
+                other[j] = row[j] + (j == 2 ? sign : 0);   /* row t = row f - e_k */
+    }
+    double akf = ok && f >= 0 ? yk[f] : 0, akt = ok && t >= 0 ? yk[t] : 0, akk = ok ? yk[k] : 0;
+    free(yk);
+    free(ys);
+    if (!ok)
+        return false;
+    /* a_kk in units of the circuit's own conductance, against the terms that
+     * cancel in 1 + d^T A^-1 e_k */
+    double alpha = op->g_pin > 0 ? 1 / op->g_pin : 1;
+    if (!(alpha * fabs(akk) > SINGULAR_TOL * (1 + alpha * fabs(akk) + fabs(af[2]) + fabs(at[2]))))
+        return false;
+    r->zout = f >= 0 ? af[0] - af[2] * akf / akk : 0;
+    r->zin = t >= 0 ? at[1] - at[2] * akt / akk : 0;
+    r->open = f >= 0 ? op->x[f] - af[2] * op->x[k] / akk : 0;
+    r->loaded = op->v[p->pin[0]];
+    return true;
+}
+
+/* The loading report of port pi into r (r->done is left to the caller). */
 static void port_report(ls_op *op, int pi, ls_port_result *r)
 {
     const ls_part *p = &op->nl->parts[pi];
-    int f = p->pin[0], t = p->pin[1];
+    memset(r, 0, sizeof *r);
     r->current_mode = ls_part_opt(p, "mode", 0) == 1;
     r->current = op->x[p->branch];
+    if (!r->current_mode && port_fast(op, p, r)) {
+        finish_report(op, pi, r);
+        return;
+    }
     ls_mod *m = ls_mod_new(op, pi, MOD_REMOVE_PART);
     if (!m) {
-        r->open = r->zout = r->zin = NAN;
+        r->open = r->zout = r->zin = r->sag = r->sag_rel = r->ratio = NAN;
+        r->loaded = r->current_mode ? r->current : op->v[p->pin[0]];
         r->note = "out of memory";
-    } else {
-        if (m->singular)
-            r->note = "opening this port leaves the circuit without a DC solution (is it inside a feedback loop?)";
-        r->zout = z_at(m, f);
-        r->zin = z_at(m, t);
-        if (!r->current_mode) {
-            r->open = node_value(m, f);
-            r->loaded = op->v[f];
-        }
-        ls_mod_free(&m);
+        r->verdict = VERDICT_LOADING;
+        return;
     }
-    if (r->current_mode) {
-        r->loaded = r->current;
-        ls_mod *s = ls_mod_new(op, pi, MOD_SHORT_PORT_TO_GROUND);
-        r->open = s && !s->singular ? s->x[p->branch] : NAN;
-        ls_mod_free(&s);
-        r->ratio = ratio_of(r->zout, r->zin);
-    } else {
-        r->ratio = ratio_of(r->zin, r->zout);
-    }
+    if (r->current_mode)
+        current_fields(op, m, pi, r);
+    else
+        voltage_fields(op, m, p, r);
+    ls_mod_free(&m);
+    finish_report(op, pi, r);
+}
+
+/* ratio, sag, sag_rel, the verdict and the warning from the fields. */
+static void finish_report(ls_op *op, int pi, ls_port_result *r)
+{
+    r->ratio = r->current_mode ? ratio_of(r->zout, r->zin) : ratio_of(r->zin, r->zout);
     r->sag = r->open - r->loaded;
     r->sag_rel = r->sag == 0 ? 0 : ratio_of(r->sag, r->open);
     if (isinf(r->sag_rel))
         r->sag_rel = NAN;
+    if (isinf(r->open))
+        r->sag_rel = NAN;
     judge(op, r);
+    if (r->note)
+        note_warning(op, pi, r->note);
 }
 
+/* The cached report of port p (owned by op), or NULL when p is not a port. */
 const ls_port_result *ls_op_port(ls_op *op, int p)
 {
     if (p < 0 || p >= op->nl->nparts || !op->nl->parts[p].kind->is_port)

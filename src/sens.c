@@ -14,6 +14,7 @@
 
 #include "elab.h"
 #include "lexer.h"
+#include "lowrank.h"
 
 typedef struct ctx {
     ls_op *op;
@@ -26,16 +27,52 @@ typedef struct dual {
     double *g;             /* np entries */
 } dual;
 
+/* Does the part have a main value to differentiate by (ports have none)? */
 static bool has_main(const ls_part *p)
 {
     return p->has_value && !p->kind->is_port;
 }
 
-/* lambda^T (db_m - dA_m x) for every part m. */
-static void adjoint_all(ctx *c, const double *lambda, double *g)
+/* The stamps of a cccs or ccvs read the current of their via= part, so they
+ * change with that part's value too (a resistor's current is V/R): returns
+ * lambda^T (db - dA x) of those stamps for d/d(value of part m). */
+static double via_terms(ctx *c, int m, const double *lambda, const double *x)
 {
     const ls_netlist *nl = c->op->nl;
-    ls_sink s = {.mode = SINK_ADJOINT, .lambda = lambda, .x = c->op->x, .scale = 1};
+    double acc = 0;
+    ls_lin dl;
+    ls_part_current(&nl->parts[m], nl, &dl, true);
+    if (dl.n == 0 && dl.constant == 0)
+        return 0;
+    for (int j = 0; j < nl->nparts; j++) {
+        const ls_part *p = &nl->parts[j];
+        if (p->ref != m)
+            continue;
+        bool cccs = strcmp(p->kind->name, "cccs") == 0, ccvs = strcmp(p->kind->name, "ccvs") == 0;
+        if (!cccs && !ccvs)
+            continue;
+        /* current lin: rows f, t get +-gain * coef (a cccs); row k gets -rm * coef (a ccvs) */
+        int rows[2] = {cccs ? ls_node_unknown(p->pin[0]) : p->branch, cccs ? ls_node_unknown(p->pin[1]) : -1};
+        double w[2] = {cccs ? p->value : -p->value, cccs ? -p->value : 0};
+        for (int r = 0; r < 2; r++) {
+            if (rows[r] < 0)
+                continue;
+            double ax = 0;
+            for (int i = 0; i < dl.n; i++)
+                ax += w[r] * dl.coef[i] * x[dl.idx[i]];
+            /* the constant part sits on the right-hand side with the opposite sign */
+            acc -= lambda[rows[r]] * (ax + w[r] * dl.constant);
+        }
+    }
+    return acc;
+}
+
+/* g[m] = lambda^T (db_m - dA_m x) for every part m (0 for parts without a
+ * main value), at the solution x. */
+static void adjoint_all(ctx *c, const double *lambda, const double *x, double *g)
+{
+    const ls_netlist *nl = c->op->nl;
+    ls_sink s = {.mode = SINK_ADJOINT, .lambda = lambda, .x = x, .scale = 1};
     for (int m = 0; m < nl->nparts; m++) {
         const ls_part *p = &nl->parts[m];
         if (!has_main(p)) {
@@ -45,7 +82,7 @@ static void adjoint_all(ctx *c, const double *lambda, double *g)
         s.acc = 0;
         ls_stamp_ctx sc = {.nl = nl, .sink = &s, .derivative = true};
         p->kind->stamp(p, &sc);
-        g[m] = s.acc;
+        g[m] = s.acc + via_terms(c, m, lambda, x);
     }
 }
 
@@ -60,8 +97,173 @@ static bool linear_leaf(ctx *c, const ls_lin *l, double *g)
         lam[l->idx[i]] += l->coef[i];
     bool ok = ls_op_solve_vec(c->op, lam, 1) == LS_SOLVER_OK;
     if (ok)
-        adjoint_all(c, lam, g);
+        adjoint_all(c, lam, c->op->x, g);
     free(lam);
+    return ok;
+}
+
+static bool alloc_dual(ctx *c, dual *d);
+
+/* ---- port fields: adjoints of the modified systems (lowrank.c) ----------------------------- */
+
+/* Gradient of unknown idx of the modified system m at its solution x':
+ * lambda' = A'^-T e_idx, g = lambda'^T (db_p - dA_p x').  The opened port's
+ * own stamps have no derivative, so dA'_p = dA_p. */
+static bool mod_value_grad(ctx *c, ls_mod *m, int idx, double *g)
+{
+    int n = c->op->mna.n;
+    double *lam = calloc((size_t)(n ? n : 1), sizeof *lam);
+    if (!lam)
+        return false;
+    lam[idx] = 1;
+    bool ok = ls_mod_solve_t(m, lam) == LS_SOLVER_OK;
+    if (ok)
+        adjoint_all(c, lam, ls_mod_x(m), g);
+    free(lam);
+    return ok;
+}
+
+/* Gradient of the driving-point resistance z = e^T A'^-1 e at unknown idx:
+ * dz/dp = -u^T dA_p v with u = A'^-T e, v = A'^-1 e.  The adjoint sink also
+ * adds u^T db_p, so that part is taken out by a second pass at x = 0. */
+static bool mod_z_grad(ctx *c, ls_mod *m, int idx, double *g)
+{
+    int n = c->op->mna.n, np = c->np;
+    double *u = calloc((size_t)(n ? n : 1), sizeof *u);
+    double *v = calloc((size_t)(n ? n : 1), sizeof *v);
+    double *zero = calloc((size_t)(n ? n : 1), sizeof *zero);
+    double *gb = calloc((size_t)(np ? np : 1), sizeof *gb);
+    bool ok = u && v && zero && gb;
+    if (ok) {
+        u[idx] = v[idx] = 1;
+        ok = ls_mod_solve_t(m, u) == LS_SOLVER_OK && ls_mod_solve(m, v) == LS_SOLVER_OK;
+    }
+    if (ok) {
+        adjoint_all(c, u, v, g);
+        adjoint_all(c, u, zero, gb);
+        for (int k = 0; k < np; k++)
+            g[k] -= gb[k];
+    }
+    free(u);
+    free(v);
+    free(zero);
+    free(gb);
+    return ok;
+}
+
+/* Every derivative undefined. */
+static void fill_nan(ctx *c, double *g)
+{
+    for (int k = 0; k < c->np; k++)
+        g[k] = NAN;
+}
+
+typedef enum piece { PIECE_OPEN, PIECE_ZOUT, PIECE_ZIN } piece;
+
+/* One field of port j (value as the port report has it) with its gradient.
+ * A field with no finite value gets NaN derivatives. */
+static bool port_piece(ctx *c, int j, piece what, dual *out)
+{
+    const ls_part *p = &c->op->nl->parts[j];
+    const ls_port_result *pr = ls_op_port(c->op, j);
+    if (!pr) {
+        c->error = "out of memory";
+        return false;
+    }
+    out->v = what == PIECE_OPEN ? pr->open : what == PIECE_ZOUT ? pr->zout : pr->zin;
+    if (!isfinite(out->v)) {
+        fill_nan(c, out->g);
+        return true;
+    }
+    int node = what == PIECE_ZIN ? p->pin[1] : p->pin[0];
+    if (what != PIECE_OPEN && node == 0) {
+        memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+        return true;
+    }
+    bool shorted = what == PIECE_OPEN && pr->current_mode;
+    ls_mod *m = ls_mod_new(c->op, j, shorted ? MOD_SHORT_PORT_TO_GROUND : MOD_REMOVE_PART);
+    if (!m) {
+        c->error = "out of memory";
+        return false;
+    }
+    bool ok = true;
+    if (ls_mod_singular(m))
+        fill_nan(c, out->g);
+    else if (what == PIECE_OPEN && node == 0 && !shorted)
+        memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+    else if (what == PIECE_OPEN)
+        ok = mod_value_grad(c, m, shorted ? p->branch : ls_node_unknown(node), out->g);
+    else
+        ok = mod_z_grad(c, m, ls_node_unknown(node), out->g);
+    ls_mod_free(&m);
+    if (!ok)
+        c->error = "a solve of the opened-port system failed";
+    return ok;
+}
+
+/* The loaded value of port j: V(driver), or the port current in current mode. */
+static bool leaf_current(ctx *c, int j, dual *out);
+static bool leaf_node(ctx *c, int node, dual *out);
+
+/* loaded of port j with its gradient. */
+static bool port_loaded(ctx *c, int j, dual *out)
+{
+    const ls_part *p = &c->op->nl->parts[j];
+    if (ls_part_opt(p, "mode", 0) == 1)
+        return leaf_current(c, j, out);
+    return leaf_node(c, p->pin[0], out);
+}
+
+/* Gradient of a / b into a's (the value is set by the caller). */
+static void dual_quotient(ctx *c, dual *a, const dual *b)
+{
+    for (int k = 0; k < c->np; k++)
+        a->g[k] = (a->g[k] * b->v - a->v * b->g[k]) / (b->v * b->v);
+}
+
+/* open, sag, sag_rel, zout, zin, ratio of port j; the value is the report's. */
+static bool port_field(ctx *c, int j, ls_prop prop, dual *out)
+{
+    const ls_port_result *pr = ls_op_port(c->op, j);
+    if (!pr) {
+        c->error = "out of memory";
+        return false;
+    }
+    dual b = {0};
+    if (!alloc_dual(c, &b))
+        return false;
+    bool ok = true;
+    switch (prop) {
+    case PROP_OPEN: ok = port_piece(c, j, PIECE_OPEN, out); break;
+    case PROP_ZOUT: ok = port_piece(c, j, PIECE_ZOUT, out); break;
+    case PROP_ZIN: ok = port_piece(c, j, PIECE_ZIN, out); break;
+    case PROP_SAG:
+    case PROP_SAG_REL:
+        /* sag = open - loaded; sag_rel = sag / open */
+        ok = port_piece(c, j, PIECE_OPEN, out) && port_loaded(c, j, &b);
+        if (ok) {
+            double open = out->v;
+            for (int k = 0; k < c->np; k++) {
+                double dopen = out->g[k], dsag = dopen - b.g[k];
+                out->g[k] = prop == PROP_SAG ? dsag : (dsag * open - pr->sag * dopen) / (open * open);
+            }
+        }
+        out->v = prop == PROP_SAG ? pr->sag : pr->sag_rel;
+        break;
+    case PROP_RATIO: {
+        bool cur = pr->current_mode;
+        ok = port_piece(c, j, cur ? PIECE_ZOUT : PIECE_ZIN, out) && port_piece(c, j, cur ? PIECE_ZIN : PIECE_ZOUT, &b);
+        if (ok)
+            dual_quotient(c, out, &b);
+        out->v = pr->ratio;
+        break;
+    }
+    default:
+        break;
+    }
+    if (ok && !isfinite(out->v))
+        fill_nan(c, out->g);
+    free(b.g);
     return ok;
 }
 
@@ -83,6 +285,7 @@ static double explicit_current(ctx *c, int j, int m, int depth)
     return d;
 }
 
+/* V(node) with its gradient (one transposed solve). */
 static bool leaf_node(ctx *c, int node, dual *out)
 {
     out->v = c->op->v[node];
@@ -93,6 +296,8 @@ static bool leaf_node(ctx *c, int node, dual *out)
     return linear_leaf(c, &l, out->g);
 }
 
+/* The current of part j with its gradient: the adjoint of its linear form
+ * plus its explicit dependence on part values. */
 static bool leaf_current(ctx *c, int j, dual *out)
 {
     const ls_netlist *nl = c->op->nl;
@@ -135,6 +340,7 @@ static bool leaf_drop(ctx *c, int j, dual *out)
     return linear_leaf(c, &l, out->g);
 }
 
+/* A dual number with np zeroed derivatives; caller frees d->g. */
 static bool alloc_dual(ctx *c, dual *d)
 {
     d->g = calloc((size_t)(c->np ? c->np : 1), sizeof *d->g);
@@ -143,6 +349,7 @@ static bool alloc_dual(ctx *c, dual *d)
 
 static bool eval(ctx *c, const ls_q *q, dual *out);
 
+/* A property leaf (PART.current, PORT.zout, ...) with its gradient. */
 static bool eval_prop(ctx *c, const ls_q *q, dual *out)
 {
     const ls_part *p = &c->op->nl->parts[q->index];
@@ -171,16 +378,17 @@ static bool eval_prop(ctx *c, const ls_q *q, dual *out)
         return ok;
     }
     case PROP_LOADED:
-        if (ls_part_opt(p, "mode", 0) == 1)
-            return leaf_current(c, q->index, out);
-        return leaf_node(c, p->pin[0], out);
+        return port_loaded(c, q->index, out);
     default:
-        c->error = "sensitivities of a port's open, sag, zout, zin and ratio fields are not available yet; "
-                   "use its loaded voltage or current";
-        return false;
+        if (!p->kind->is_port) {
+            c->error = "only a port has open, sag, zout, zin and ratio fields";
+            return false;
+        }
+        return port_field(c, q->index, q->prop, out);
     }
 }
 
+/* Q with its gradient by forward-mode dual numbers over the parts. */
 static bool eval(ctx *c, const ls_q *q, dual *out)
 {
     int np = c->np;
@@ -231,6 +439,10 @@ static bool eval(ctx *c, const ls_q *q, dual *out)
             return false;
         dual args[8];
         int n = q->nargs;
+        if (n > 8) {                  /* the parser allows at most 8 */
+            c->error = "too many arguments for the sensitivity analysis";
+            return false;
+        }
         for (int i = 0; i < n; i++)
             args[i].g = NULL;
         bool ok = true;
@@ -266,6 +478,7 @@ static bool eval(ctx *c, const ls_q *q, dual *out)
     return false;
 }
 
+/* qsort order: largest |normalized| (|derivative| when undefined) first. */
 static int by_norm(const void *a, const void *b)
 {
     const ls_sens_item *x = a, *y = b;
@@ -276,6 +489,7 @@ static int by_norm(const void *a, const void *b)
     return x->part - y->part;
 }
 
+/* See sens.h. */
 int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
 {
     const ls_netlist *nl = op->nl;

@@ -1,0 +1,14 @@
+/* lowrank.h — what the low-rank modified systems offer beyond analysis.h:
+ * the transposed solve the adjoint sensitivities of port fields need. */
+#ifndef LS_LOWRANK_H
+#define LS_LOWRANK_H
+
+#include "analysis.h"
+
+/* y <- A'^{-T} y (n values, in place) for the modified system of m.  Through
+ * the transposed Woodbury identity A'^-T y = w - Y C^-T w[rows], w = A^-T y,
+ * Y = A^-T D^T (built on first use, owned by m), or the fallback's own
+ * factorization.  Returns LS_SOLVER_OK, LS_SOLVER_SINGULAR or an error. */
+int ls_mod_solve_t(ls_mod *m, double *y);
+
+#endif

@@ -1,0 +1,378 @@
+#!/usr/bin/python3
+"""Loading analysis against closed forms: thevenin, sag, sens, check exit codes.
+
+Usage: test_loading.py LOADSTACK_BINARY
+
+Each check names its source beside it.  Circuits are written to a temporary
+directory; every run of the program is checked for its exit code and parsed
+from `--format json`.  Exit 0 when every check holds, 1 otherwise.
+"""
+
+import json
+import math
+import os
+import subprocess
+import sys
+import tempfile
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+FAILS = []
+COUNT = [0]
+
+
+def run(binary, args, want_rc=0):
+    """Run the program; return (stdout, stderr).  A wrong exit code is a failure."""
+    p = subprocess.run([binary] + args, capture_output=True, text=True, timeout=120)
+    if p.returncode != want_rc:
+        FAILS.append("%s: exit %d, expected %d: %s" % (" ".join(args), p.returncode, want_rc,
+                                                       p.stderr.strip()[:400]))
+    return p.stdout, p.stderr
+
+
+def js(binary, args, want_rc=0):
+    out, _ = run(binary, args + ["--format", "json"], want_rc)
+    try:
+        return json.loads(out)
+    except ValueError:
+        FAILS.append("%s: output is not JSON: %r" % (" ".join(args), out[:200]))
+        return None
+
+
+def near(what, got, want, rtol=1e-9, atol=0.0, source=""):
+    COUNT[0] += 1
+    ok = got is not None and isinstance(got, (int, float)) and abs(got - want) <= rtol * abs(want) + atol
+    if not ok:
+        FAILS.append("%s: got %r, expected %r (%s)" % (what, got, want, source))
+
+
+def truth(what, cond, source=""):
+    COUNT[0] += 1
+    if not cond:
+        FAILS.append("%s (%s)" % (what, source))
+
+
+def write(tmp, name, text):
+    path = os.path.join(tmp, name)
+    with open(path, "w", encoding="utf-8") as f:
+        f.write(text)
+    return path
+
+
+def par(*rs):
+    return 1.0 / sum(1.0 / r for r in rs)
+
+
+# ---------------------------------------------------------------------------
+# Thevenin
+
+def cube_text(r):
+    edges = [("gnd", "c100"), ("gnd", "c010"), ("gnd", "c001"), ("c100", "c110"), ("c100", "c101"),
+             ("c010", "c110"), ("c010", "c011"), ("c001", "c101"), ("c001", "c011"), ("c110", "c111"),
+             ("c101", "c111"), ("c011", "c111")]
+    lines = ['title "cube"', "ground gnd", "current feed gnd -> c111 2 mA"]
+    for i, (a, b) in enumerate(edges):
+        lines.append("resistor e%d %s -> %s %g" % (i, a, b, r))
+    return "\n".join(lines) + "\n"
+
+
+def test_thevenin_cube(b, tmp):
+    for r in (1000.0, 47.0):
+        f = write(tmp, "cube.stack", cube_text(r))
+        d = js(b, ["thevenin", f, "c111"])
+        if d:
+            near("cube rth", d["rth"], 5 * r / 6, source="resistor cube, body diagonal 5R/6")
+            near("cube vth", d["vth"], 5 * r / 6 * 2e-3, source="Ohm's law, 2 mA into 5R/6")
+            near("cube norton", d["norton"], 2e-3, source="Norton: vth/rth = the feeding current")
+        d = js(b, ["thevenin", f, "c110"])
+        if d:
+            near("cube face rth", d["rth"], 3 * r / 4, source="resistor cube, face diagonal 3R/4")
+
+
+def r2r_text(bits, code, r, vref):
+    """N-bit R-2R ladder: bit k switches its 2R leg to vref (1) or ground (0);
+    the LSB end terminated by 2R to ground; output at the MSB node."""
+    lines = ['title "r2r"', "ground gnd", "voltage vr gnd -> ref %g V" % vref,
+             "resistor term n0 -> gnd %g" % (2 * r)]
+    for k in range(bits):
+        node = "n%d" % k
+        lines.append("resistor leg%d %s -> %s %g" % (k, node, "ref" if (code >> k) & 1 else "gnd", 2 * r))
+        if k + 1 < bits:
+            lines.append("resistor rung%d %s -> n%d %g" % (k, node, k + 1, r))
+    return "\n".join(lines) + "\n", "n%d" % (bits - 1)
+
+
+def test_thevenin_r2r(b, tmp):
+    r, vref = 10e3, 5.0
+    for bits, codes in ((4, (0, 1, 5, 10, 15)), (8, (1, 77, 128, 200, 255))):
+        for code in codes:
+            text, out = r2r_text(bits, code, r, vref)
+            f = write(tmp, "r2r.stack", text)
+            d = js(b, ["thevenin", f, out])
+            if d:
+                near("r2r %d-bit code %d rth" % (bits, code), d["rth"], r,
+                     source="R-2R ladder output resistance R for any code (data-converter textbooks)")
+                near("r2r %d-bit code %d vth" % (bits, code), d["vth"], vref * code / 2 ** bits, atol=1e-12,
+                     source="R-2R ladder Vref*D/2^N (data-converter textbooks)")
+
+
+def test_thevenin_load_meter(b, tmp):
+    # divider 12 V, 10k / 22k: vth = 12*22/32, rth = 10k||22k (Thevenin)
+    f = write(tmp, "div.stack", 'title "d"\nground gnd\nvoltage v gnd -> a 12 V\n'
+              'resistor rt a -> m 10k\nresistor rb m -> gnd 22k\n')
+    d = js(b, ["thevenin", f, "m", "--load", "4.7k", "--meter", "10M"])
+    if d:
+        vth, rth = 12 * 22 / 32, par(10e3, 22e3)
+        near("divider vth", d["vth"], vth, source="unloaded divider, Ohm's law")
+        near("divider rth", d["rth"], rth, source="Thevenin resistance Rt||Rb")
+        near("divider --load v", d["load"]["v"], vth * 4.7e3 / (4.7e3 + rth), source="Thevenin into a load")
+        near("divider --load i", d["load"]["i"], vth / (4.7e3 + rth), source="Ohm's law around the loop")
+        near("meter reading", d["meter"]["reading"], vth * 10e6 / (10e6 + rth),
+             source="a 10 Mohm meter as a load (common practice for DMM inputs)")
+        near("meter error", d["meter"]["error"], vth * 10e6 / (10e6 + rth) - vth, atol=1e-15,
+             source="reading minus the open-circuit voltage")
+    out, _ = run(b, ["thevenin", f, "mx"], want_rc=2)
+    _, err = run(b, ["thevenin", f, "mx"], want_rc=2)
+    truth("unknown node suggests the near name", "did you mean 'm'" in err, "usability")
+    run(b, ["thevenin", f, "m", "--load", "-3"], want_rc=2)
+
+
+# ---------------------------------------------------------------------------
+# sag ranking
+
+def test_sag_ranking(b, tmp):
+    # A 5 V rail with a 2 ohm source resistance feeding four loads in parallel,
+    # each behind a port.  Hand computation (Ohm's and Kirchhoff's laws):
+    #   V = Vs*Rp/(Rs+Rp), Rp = parallel of all loads; without load i the
+    #   node is Vs*Rp_i/(Rs+Rp_i), Rp_i = parallel of the others; opening
+    #   its port gives the same number.  Removing the source gives 0 V.
+    vs, rs = 5.0, 2.0
+    loads = {"heater": 10.0, "lamp": 50.0, "fan": 25.0, "radio": 200.0}
+    lines = ['title "rail"', "ground gnd", "voltage batt gnd -> src %g V" % vs,
+             "resistor r_src src -> rail %g" % rs]
+    for nm, r in loads.items():
+        lines.append("port p_%s rail -> %s_in" % (nm, nm))
+        lines.append("resistor r_%s %s_in -> gnd %g" % (nm, nm, r))
+    f = write(tmp, "rail.stack", "\n".join(lines) + "\n")
+    d = js(b, ["sag", f, "rail"])
+    if not d:
+        return
+    rp = par(*loads.values())
+    v0 = vs * rp / (rs + rp)
+    near("rail voltage", d["voltage"], v0, source="Ohm's law, source resistance and parallel loads")
+    want = {}
+    for nm, r in loads.items():
+        rpi = par(*[x for k, x in loads.items() if k != nm])
+        vi = vs * rpi / (rs + rpi)
+        want["p_" + nm] = vi
+        want["r_" + nm] = vi
+    want["batt"] = 0.0
+    want["r_src"] = 0.0
+    got = {it["name"]: it for it in d["items"]}
+    for nm, vi in want.items():
+        if nm not in got:
+            FAILS.append("sag: item %s missing" % nm)
+            continue
+        near("sag %s without" % nm, got[nm]["without"], vi, atol=1e-12, source="hand computation, parallel loads")
+        near("sag %s delta" % nm, got[nm]["delta"], vi - v0, atol=1e-12, source="delta = without - voltage (cli spec)")
+    # order: by |delta|, largest first
+    deltas = [abs(it["delta"]) for it in d["items"] if it["delta"] is not None]
+    truth("sag items sorted by |delta|", all(deltas[i] >= deltas[i + 1] - 1e-15 for i in range(len(deltas) - 1)),
+          "cli spec: sorted by |delta|")
+    loads_rank = [it["name"] for it in d["items"] if it["kind"] == "port"]
+    truth("ports ranked heater, fan, lamp, radio: %s" % loads_rank,
+          loads_rank == ["p_heater", "p_fan", "p_lamp", "p_radio"],
+          "hand computation: the smallest load resistance pulls hardest")
+    text, _ = run(b, ["sag", f, "rail"])
+    # the loads are the resistors; each hangs on a port, which is not counted twice
+    total = sum(want["r_" + nm] - v0 for nm in loads)
+    share = 100 * (want["r_heater"] - v0) / total
+    tail = text.split("Main culprit")[-1]
+    truth("text names r_heater through p_heater: %r" % tail.strip(),
+          "'r_heater' (through port 'p_heater')" in tail, "hand computation: the 10 ohm load")
+    truth("culprit share %.0f%% printed" % share, ("%.0f%%" % share) in tail,
+          "share = its delta over the sum of the loads' deltas (hand computation)")
+
+
+# ---------------------------------------------------------------------------
+# sensitivities, closed form
+
+def test_sens_divider(b, tmp):
+    # Vout = Vs*Rb/(Rt+Rb): normalized sensitivities S_Rt = -Rt/(Rt+Rb),
+    # S_Rb = Rt/(Rt+Rb), S_Vs = 1 (differentiation of the divider formula)
+    rt, rb, vs = 10e3, 4.7e3, 9.0
+    f = write(tmp, "sdiv.stack", 'title "s"\nground gnd\nvoltage vs gnd -> a %g V\n'
+              "resistor rt a -> m %g\nresistor rb m -> gnd %g\nport p m -> q\nresistor rl q -> gnd 47k\n"
+              % (vs, rt, rb))
+    d = js(b, ["sens", f, "p.open"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        near("S_rt of open", it["rt"]["normalized"], -rt / (rt + rb), source="divider: -Rt/(Rt+Rb)")
+        near("S_rb of open", it["rb"]["normalized"], rt / (rt + rb), source="divider: Rt/(Rt+Rb)")
+        near("S_vs of open", it["vs"]["normalized"], 1.0, source="linear in the source")
+        near("S_rl of open", it["rl"]["normalized"], 0.0, atol=1e-12, source="the load is disconnected")
+        near("dopen/drt", it["rt"]["derivative"], -vs * rb / (rt + rb) ** 2, source="d/dRt of Vs*Rb/(Rt+Rb)")
+    d = js(b, ["sens", f, "p.zout"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        # zout = Rt*Rb/(Rt+Rb): S_Rt = Rb/(Rt+Rb), S_Rb = Rt/(Rt+Rb)
+        near("S_rt of zout", it["rt"]["normalized"], rb / (rt + rb), source="d ln(Rt||Rb)/d ln Rt = Rb/(Rt+Rb)")
+        near("S_rb of zout", it["rb"]["normalized"], rt / (rt + rb), source="d ln(Rt||Rb)/d ln Rb = Rt/(Rt+Rb)")
+        near("S_vs of zout", it["vs"]["normalized"], 0.0, atol=1e-12, source="sources zeroed")
+    d = js(b, ["sens", f, "p.ratio"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        near("S_rl of ratio", it["rl"]["normalized"], 1.0, source="ratio = RL/(Rt||Rb)")
+        near("S_rt of ratio", it["rt"]["normalized"], -rb / (rt + rb), source="ratio = RL/(Rt||Rb)")
+    d = js(b, ["sens", f, "m"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        rbl = par(rb, 47e3)
+        near("S_rt of the loaded node", it["rt"]["normalized"], -rt / (rt + rbl),
+             source="loaded divider: -Rt/(Rt + Rb||RL)")
+    # a quantity that is zero gets derivatives only (normalized null)
+    f0 = write(tmp, "szero.stack", 'title "z"\nground gnd\nvoltage vs gnd -> a 0 V\n'
+               "resistor rt a -> m 1k\nresistor rb m -> gnd 1k\n")
+    d = js(b, ["sens", f0, "m"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        truth("zero quantity: normalized is null", it["rt"]["normalized"] is None, "cli spec")
+        near("zero quantity: dV/dVs", it["vs"]["derivative"], 0.5, source="divider ratio Rb/(Rt+Rb)")
+
+
+# ---------------------------------------------------------------------------
+# checks and rules through exit codes; edge cases of the port report
+
+def test_sens_current_mode(b, tmp):
+    # A Norton source (I, Rsh) into RL through a current-mode port (current
+    # divider, Kirchhoff): open = I (into a short; Rsh carries nothing),
+    # loaded = I*Rsh/(Rsh+RL), ratio = Rsh/RL.  Derivatives by differentiating
+    # those closed forms.
+    i, rsh, rl = 10e-6, 1e6, 100e3
+    f = write(tmp, "scur.stack", 'title "c"\nground gnd\ncurrent src gnd -> pd %g A\n'
+              "resistor rsh pd -> gnd %g\nport p pd -> ld mode=current\nresistor rl ld -> gnd %g\n" % (i, rsh, rl))
+    d = js(b, ["sens", f, "p.open"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        near("d open/d I", it["src"]["derivative"], 1.0, source="short-circuit current = I")
+        near("d open/d Rsh", it["rsh"]["derivative"], 0.0, atol=1e-15, source="a short takes all of I")
+    d = js(b, ["sens", f, "p.loaded"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        near("d loaded/d Rsh", it["rsh"]["derivative"], i * rl / (rsh + rl) ** 2, source="d/dRsh of I*Rsh/(Rsh+RL)")
+        near("d loaded/d RL", it["rl"]["derivative"], -i * rsh / (rsh + rl) ** 2, source="d/dRL of I*Rsh/(Rsh+RL)")
+    d = js(b, ["sens", f, "p.sag"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        near("d sag/d RL", it["rl"]["derivative"], i * rsh / (rsh + rl) ** 2, source="sag = I - I*Rsh/(Rsh+RL)")
+    d = js(b, ["sens", f, "p.ratio"])
+    if d:
+        it = {x["part"]: x for x in d["items"]}
+        near("S_Rsh of ratio", it["rsh"]["normalized"], 1.0, source="ratio = Rsh/RL")
+        near("S_RL of ratio", it["rl"]["normalized"], -1.0, source="ratio = Rsh/RL")
+
+
+def test_check_exit_codes(b, tmp):
+    fail_dir = os.path.join(HERE, "failing")
+    d = js(b, ["check", os.path.join(fail_dir, "rule_fails.stack")], want_rc=1)
+    if d:
+        rules = [c for c in d["checks"] if c["text"].startswith("rule")]
+        truth("the ratio rule fails for p_lvl", len(rules) == 1 and not rules[0]["pass"],
+              "ratio 4 < 10 (10x rule, common practice)")
+        near("rule value is the ratio", rules[0]["value"] if rules else None, 4.0, source="20k/(10k||10k)")
+        truth("the other expects pass", d["passed"] == 2 and d["failed"] == 1, "closed forms in the file")
+    d = js(b, ["check", os.path.join(fail_dir, "rule_fails.stack"), "--min-ratio", "3"], want_rc=0)
+    d = js(b, ["check", os.path.join(fail_dir, "expect_fails.stack")], want_rc=1)
+    if d:
+        fails = sorted(c["text"] for c in d["checks"] if not c["pass"])
+        truth("ratio and sag expects fail: %s" % fails,
+              fails == ["expect p_lvl.ratio >= 10", "expect p_lvl.sag < 20 mV"], "ratio 4, sag 1 V")
+    run(b, ["solve", os.path.join(fail_dir, "expect_fails.stack")], want_rc=0)
+
+
+def test_verdicts(b, tmp):
+    # zout = 1k; zin = k*1k for k = 10 (ok), 7 (marginal: from half the minimum), 4 (loading)
+    lines = ['title "v"', "ground gnd", "voltage v gnd -> a 1 V"]
+    for k in (10, 7, 4):
+        lines += ["resistor rs%d a -> d%d 1k" % (k, k), "port p%d d%d -> l%d" % (k, k, k),
+                  "resistor rl%d l%d -> gnd %dk" % (k, k, k)]
+    f = write(tmp, "verdict.stack", "\n".join(lines) + "\n")
+    d = js(b, ["solve", f])
+    if d:
+        v = {k: d["ports"]["p%d" % k]["verdict"] for k in (10, 7, 4)}
+        truth("verdicts %s" % v, v == {10: "ok", 7: "marginal", 4: "loading"},
+              "language spec: ok at the minimum, marginal from half of it")
+    d = js(b, ["solve", f, "--min-ratio", "3"])
+    if d:
+        truth("--min-ratio 3 passes every port", all(p["verdict"] == "ok" for p in d["ports"].values()),
+              "cli spec --min-ratio")
+    text, _ = run(b, ["solve", f])
+    adv = [ln for ln in text.splitlines() if ln.strip().startswith("-> p4")]
+    truth("text advice for p4 names a buffer", adv and "buffer" in adv[0], "issue 3: what would fix it")
+    truth("text advice for p4 gives zout at most 400", adv and "400.0" in adv[0], "zin/10 = 4k/10")
+
+
+def test_feedback_port(b, tmp):
+    # a port inside an ideal follower's feedback: opened, the op-amp has no
+    # feedback and the equations have no solution (V+ fixed, V- floating)
+    f = write(tmp, "fb.stack", 'title "fb"\nground gnd\nvoltage v gnd -> a 1 V\nresistor r1 a -> p 1k\n'
+              "resistor r2 p -> gnd 1k\nopamp u plus=p minus=m out=o\nport p_fb o -> m\nresistor rl o -> gnd 1k\n")
+    d = js(b, ["solve", f])
+    if d:
+        p = d["ports"]["p_fb"]
+        truth("feedback port: open/zout/zin/ratio null", all(p[k] is None for k in ("open", "zout", "zin", "ratio")),
+              "no DC solution with the loop opened (nullor needs feedback)")
+        near("feedback port loaded", p["loaded"], 0.5, source="follower of a 1k/1k divider")
+        truth("a warning names the port", any("p_fb" in w["message"] and w["code"] == "port-undefined"
+                                              for w in d["warnings"]), "cli spec: a warning names the field")
+    # a current source driving a voltage-mode port: open is unbounded
+    f = write(tmp, "cs.stack", 'title "cs"\nground gnd\ncurrent i gnd -> e 1 mA\nport p e -> f\n'
+              "resistor r f -> gnd 1k\n")
+    d = js(b, ["solve", f])
+    if d:
+        p = d["ports"]["p"]
+        truth("current driver: open and zout null", p["open"] is None and p["zout"] is None,
+              "an ideal current source into an open end")
+        near("current driver: zin", p["zin"], 1000.0, source="the load alone")
+        truth("current driver: verdict loading", p["verdict"] == "loading", "ratio zin/inf = 0")
+
+
+def test_float_load_json(b, tmp):
+    # load = an ideal op-amp input: opening the port floats it (language spec:
+    # no error, the fields that need it are unbounded, JSON null)
+    d = js(b, ["solve", os.path.join(HERE, "closed", "float_load.stack")])
+    if d:
+        p = d["ports"]["p_buf"]
+        truth("ideal input: zin and ratio null", p["zin"] is None and p["ratio"] is None, "cli spec: null = unbounded")
+        truth("ideal input: verdict ok", p["verdict"] == "ok", "an unbounded ratio meets any minimum")
+        near("ideal input: open", p["open"], 1.25, source="equal-resistor divider halves 2.5 V")
+        truth("no warning for a merely unbounded field",
+              not any(w["code"] == "port-undefined" and "p_buf" in w["message"] for w in d["warnings"]),
+              "an ideal input is normal, not a fault")
+    text, _ = run(b, ["sag", os.path.join(HERE, "closed", "float_load.stack"), "nin"])
+    line = [ln for ln in text.splitlines() if " p_buf " in ln]
+    truth("sag: opening p_buf leaves nin floating", line and "floats" in line[0], "nothing sets the input then")
+
+
+def main():
+    if len(sys.argv) != 2 or not os.access(sys.argv[1], os.X_OK):
+        print(__doc__)
+        return 2
+    b = sys.argv[1]
+    tests = [test_thevenin_cube, test_thevenin_r2r, test_thevenin_load_meter, test_sag_ranking,
+             test_sens_divider, test_sens_current_mode, test_check_exit_codes, test_verdicts, test_feedback_port, test_float_load_json]
+    with tempfile.TemporaryDirectory(prefix="loadstack_loading_") as tmp:
+        for t in tests:
+            before = len(FAILS)
+            try:
+                t(b, tmp)
+            except Exception as e:  # a crash of the test is a failure, not a pass
+                FAILS.append("%s raised %r" % (t.__name__, e))
+            print("%-28s %s" % (t.__name__, "ok" if len(FAILS) == before else "FAIL"))
+    for f in FAILS:
+        print("  " + f)
+    print("%d checks, %d failures" % (COUNT[0], len(FAILS)))
+    return 1 if FAILS else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
