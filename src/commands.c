@@ -4,7 +4,9 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/resource.h>
 #include <sys/stat.h>
+#include <time.h>
 #include <unistd.h>
 
 #include "cli.h"
@@ -41,6 +43,31 @@ bool ls_cli_number(const char *text, double *v)
     return ok;
 }
 
+/* ---- phase times (LOADSTACK_TIMING=1) ------------------------------------------------------ */
+
+/* Seconds on the monotonic clock. */
+static double now_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+/* With LOADSTACK_TIMING=1 in the environment, print the seconds since *t0 for
+ * `phase` and the peak resident memory so far to stderr; then restart *t0.
+ * Nothing is kept between calls. */
+static void phase_done(const char *phase, double *t0)
+{
+    const char *e = getenv("LOADSTACK_TIMING");
+    double t = now_s();
+    if (e && strcmp(e, "1") == 0) {
+        struct rusage ru;
+        long peak_kb = getrusage(RUSAGE_SELF, &ru) == 0 ? ru.ru_maxrss : -1;
+        fprintf(stderr, "loadstack: timing: %-9s %.4f s  (peak so far %ld MB)\n", phase, t - *t0, peak_kb / 1024);
+    }
+    *t0 = t;
+}
+
 /* ---- sessions ------------------------------------------------------------------------ */
 
 static int parse_sets(ls_session *s, ls_setting *sets)
@@ -48,10 +75,13 @@ static int parse_sets(ls_session *s, ls_setting *sets)
     ls_cli *cli = s->cli;
     for (int i = 0; i < cli->nsets; i++) {
         const char *eq = strchr(cli->sets[i], '=');
-        char *name = ls_arena_strndup(&s->arena, cli->sets[i], (size_t)(eq - cli->sets[i]));
-        sets[i].name = name;
-        sets[i].value = ls_parse_expr_string(&s->diags, "--set", eq + 1, false);
-        sets[i].loc = (ls_loc){s->diags.nfiles - 1, 0, (unsigned)strlen(eq + 1)};
+        size_t nlen = (size_t)(eq - cli->sets[i]);
+        sets[i].name = ls_arena_strndup(&s->arena, cli->sets[i], nlen);
+        int id = ls_sources_add(&s->diags, "--set", cli->sets[i], (unsigned)strlen(cli->sets[i]));
+        if (id < 0)
+            return -1;
+        sets[i].value = ls_parse_expr_at(&s->diags, id, (unsigned)nlen + 1, false);
+        sets[i].loc = (ls_loc){id, 0, (unsigned)nlen};
         sets[i].used = false;
         if (!sets[i].value)
             return -1;
@@ -64,6 +94,7 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
     memset(s, 0, sizeof *s);
     s->cli = cli;
     s->input_path = path;
+    double t0 = now_s();
     ls_arena_init(&s->arena);
     ls_diags_init(&s->diags, &s->arena);
     int errs;
@@ -71,21 +102,25 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
         errs = ls_parse_string(&s->diags, path, text, strlen(text), &s->prog);
     else
         errs = ls_parse_file(&s->diags, path, &s->prog);
-    if (errs)
-        return LS_EXIT_USAGE;
+    phase_done("parse", &t0);
     ls_setting sets[LS_MAX_SETS];
     if (parse_sets(s, sets) != 0)
         return LS_EXIT_USAGE;
-    if (ls_elaborate(&s->prog, &s->diags, sets, cli->nsets, &s->nl))
-        return LS_EXIT_USAGE;
-    return LS_EXIT_OK;
+    /* Elaborate even after syntax errors (the broken statements are left out),
+     * so one run reports the name and unit errors too. */
+    int bad = ls_elaborate(&s->prog, &s->diags, sets, cli->nsets, &s->nl) || errs;
+    phase_done("elaborate", &t0);
+    return bad ? LS_EXIT_USAGE : LS_EXIT_OK;
 }
 
 int ls_session_solve(ls_session *s)
 {
     ls_options o = {.solver = s->cli->solver, .min_ratio = s->cli->min_ratio, .derate = s->cli->derate};
     s->have_op = true;
-    return ls_op_solve(&s->op, &s->nl, &o);
+    double t0 = now_s();
+    int code = ls_op_solve(&s->op, &s->nl, &o);
+    phase_done("solve", &t0);
+    return code;
 }
 
 void ls_session_free(ls_session *s)
@@ -185,6 +220,7 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
     }
     ls_checks checks;
     bool with_rule = check_mode ? (s.nl.has_rule || cli->min_ratio > 0) : false;
+    double t0 = now_s();
     if (ls_checks_run(&s.op, with_rule, &checks) != 0) {
         fprintf(stderr, "loadstack: error: out of memory\n");
         ls_session_free(&s);
@@ -197,6 +233,7 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
+    phase_done("checks", &t0);
     ls_report rp = {.out = out, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
     if (check_mode)
         ls_report_check(&rp, &s.op, &checks);
@@ -204,9 +241,11 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
         ls_report_solve(&rp, &s.op, &checks);
     code = check_mode && checks.failed ? LS_EXIT_CHECK : LS_EXIT_OK;
     code = ls_out_close(&s, out, tmp, code);
+    phase_done("report", &t0);
     ls_diags_print(&s.diags, stderr);
     ls_checks_free(&checks);
     ls_session_free(&s);
+    phase_done("free", &t0);
     return code;
 }
 

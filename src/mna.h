@@ -10,7 +10,8 @@ typedef struct ls_mna {
     int nn;                /* node unknowns: nnodes - 1 */
     int n;                 /* all unknowns: nodes, then branch currents */
     int *branch_part;      /* for each branch unknown (index - nn): its part */
-    ls_triplets t;         /* assembled entries (duplicates not yet summed) */
+    ls_triplets t;         /* assembled entries (duplicates not yet summed); empty between stamps */
+    size_t nnz_hint;       /* triplet count of the last stamp */
     double *b;             /* right-hand side, n */
     ls_csc a;              /* compressed, duplicates summed */
 } ls_mna;
@@ -35,6 +36,18 @@ const char *ls_unknown_desc(const ls_mna *m, int idx, char *buf, size_t n);
  * cut-sets of current sources), loops of voltage-defined branches.  Errors go
  * to the netlist's diagnostics; returns their number. */
 int ls_topology_check(const ls_netlist *nl);
+
+/* Reduced nodal form (mna.c): a backend that solves the MNA system of resistors,
+ * current sources and voltage sources through a symmetric positive definite
+ * system of the free node voltages, factored by CHOLMOD.  Sources without rs
+ * between ground and a node fix that node; sources with rs are
+ * Norton-converted.  It solves the same A as the other backends (plain or
+ * transposed), so the unknown layout and ls_op.x are unchanged. */
+extern const ls_backend ls_backend_reduced;
+/* 1 when the MNA matrix a has that shape (nodes, then source branches whose
+ * rows mirror their KCL columns with opposite sign, a symmetric node block),
+ * else 0.  O(nnz log). */
+int ls_mna_reducible(const ls_csc *a);
 
 /* Union-find helpers, shared with the analyses that open parts. */
 int ls_uf_find(int *parent, int x);

@@ -7,6 +7,7 @@
 
 #include "elab.h"
 #include "fmt.h"
+#include "newton.h"
 
 /* ---- shared pieces ------------------------------------------------------------------ */
 
@@ -14,6 +15,16 @@ void ls_json_string(FILE *out, const char *s)
 {
     fputc('"', out);
     for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
+        /* runs that need no escape go out in one write (names are mostly that) */
+        const unsigned char *q = p;
+        while (*q >= 0x20 && *q != '"' && *q != '\\')
+            q++;
+        if (q != p) {
+            fwrite(p, 1, (size_t)(q - p), out);
+            p = q;
+            if (!*p)
+                break;
+        }
         switch (*p) {
         case '"': fputs("\\\"", out); break;
         case '\\': fputs("\\\\", out); break;
@@ -75,52 +86,91 @@ static int width(const char *s)
     return w;
 }
 
+/* k spaces, written in blocks rather than one fputc each (a report may have
+ * millions of cells). */
+static void spaces(FILE *out, int k)
+{
+    static const char blanks[] = "                                                                ";
+    while (k > 0) {
+        int c = k < (int)sizeof blanks - 1 ? k : (int)sizeof blanks - 1;
+        fwrite(blanks, 1, (size_t)c, out);
+        k -= c;
+    }
+}
+
 static void pad(FILE *out, const char *s, int w, bool right)
 {
     int k = w - width(s);
     if (right)
-        for (; k > 0; k--)
-            fputc(' ', out);
+        spaces(out, k);
     fputs(s, out);
     if (!right)
-        for (; k > 0; k--)
-            fputc(' ', out);
+        spaces(out, k);
 }
 
 /* ---- a small table printer for aligned text columns ---------------------------- */
 
+/* The cells of all rows live in one growing text buffer (offsets per cell), and
+ * the column widths are kept up to date as rows arrive, so a table of a million
+ * rows costs no per-cell allocation and one pass to print. */
 typedef struct table {
     int ncol;
     const char *head[10];
     bool right[10];
-    char **cells;         /* rows * ncol, malloc'd strings */
+    char *text;           /* NUL-terminated cells, back to back */
+    size_t len, text_cap;
+    size_t *off;          /* rows * ncol offsets into text */
     int rows, cap;
+    int w[10];            /* widest cell of each column so far */
+    bool failed;          /* out of memory: rows after it are dropped */
 } table;
 
+/* Append one row of ncol cells (NULL counts as empty); copies the text. */
 static void t_row(table *t, const char *const *cells)
 {
+    if (t->failed)
+        return;
     if (t->rows == t->cap) {
         int cap = t->cap ? t->cap * 2 : 32;
-        char **c = realloc(t->cells, (size_t)cap * (size_t)t->ncol * sizeof *c);
-        if (!c)
+        size_t *o = realloc(t->off, (size_t)cap * (size_t)t->ncol * sizeof *o);
+        if (!o) {
+            t->failed = true;
             return;
-        t->cells = c;
+        }
+        t->off = o;
         t->cap = cap;
     }
-    for (int i = 0; i < t->ncol; i++)
-        t->cells[t->rows * t->ncol + i] = strdup(cells[i] ? cells[i] : "");
+    for (int i = 0; i < t->ncol; i++) {
+        const char *c = cells[i] ? cells[i] : "";
+        size_t n = strlen(c) + 1;
+        if (t->len + n > t->text_cap) {
+            size_t cap = t->text_cap ? t->text_cap * 2 : 4096;
+            while (cap < t->len + n)
+                cap *= 2;
+            char *b = realloc(t->text, cap);
+            if (!b) {
+                t->failed = true;
+                return;
+            }
+            t->text = b;
+            t->text_cap = cap;
+        }
+        memcpy(t->text + t->len, c, n);
+        t->off[(size_t)t->rows * (size_t)t->ncol + (size_t)i] = t->len;
+        t->len += n;
+        int k = width(c);
+        t->w[i] = k > t->w[i] ? k : t->w[i];
+    }
     t->rows++;
 }
 
+/* Print the heading and the rows aligned, then empty the table. */
 static void t_print(table *t, FILE *out)
 {
     int w[10];
     for (int c = 0; c < t->ncol; c++) {
         w[c] = width(t->head[c]);
-        for (int r = 0; r < t->rows; r++) {
-            int k = width(t->cells[r * t->ncol + c]);
-            w[c] = k > w[c] ? k : w[c];
-        }
+        w[c] = t->w[c] > w[c] ? t->w[c] : w[c];
     }
     fputs("  ", out);
     for (int c = 0; c < t->ncol; c++) {
@@ -133,7 +183,7 @@ static void t_print(table *t, FILE *out)
     for (int r = 0; r < t->rows; r++) {
         fputs("  ", out);
         for (int c = 0; c < t->ncol; c++) {
-            const char *s = t->cells[r * t->ncol + c];
+            const char *s = t->text + t->off[(size_t)r * (size_t)t->ncol + (size_t)c];
             if (c + 1 == t->ncol && !t->right[c]) {
                 fputs(s, out);
             } else {
@@ -142,11 +192,13 @@ static void t_print(table *t, FILE *out)
             fputs(c + 1 < t->ncol ? "  " : "\n", out);
         }
     }
-    for (int i = 0; i < t->rows * t->ncol; i++)
-        free(t->cells[i]);
-    free(t->cells);
-    t->cells = NULL;
+    free(t->text);
+    free(t->off);
+    t->text = NULL;
+    t->off = NULL;
+    t->len = t->text_cap = 0;
     t->rows = t->cap = 0;
+    memset(t->w, 0, sizeof t->w);
 }
 
 /* ---- checks ------------------------------------------------------------------------- */
@@ -326,6 +378,119 @@ static void warnings_text(ls_report *rp)
     }
 }
 
+/* ---- real parts: limits, ADC inputs, thermistors ----------------------------------------- */
+
+/* The JSON word for an op-amp's limit in force. */
+static const char *limit_name(const ls_part *p)
+{
+    switch (p->state) {
+    case LS_LIM_RAIL_HIGH: return "rail-high";
+    case LS_LIM_RAIL_LOW: return "rail-low";
+    case LS_LIM_CURRENT_SOURCE:
+    case LS_LIM_CURRENT_SINK: return "current";
+    default: return "none";
+    }
+}
+
+static bool is_kind(const ls_part *p, const char *k)
+{
+    return strcmp(p->kind->name, k) == 0;
+}
+
+/* The text column: which limit holds the output, with its value. */
+static const char *limit_text(ls_report *rp, const ls_part *p, char *buf, size_t n)
+{
+    char a[64];
+    switch (p->state) {
+    case LS_LIM_RAIL_HIGH: snprintf(buf, n, "rail-high (upper rail - %s)",
+                                    ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
+    case LS_LIM_RAIL_LOW: snprintf(buf, n, "rail-low (lower rail + %s)",
+                                   ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
+    case LS_LIM_CURRENT_SOURCE: snprintf(buf, n, "current (sourcing %s)",
+                                         ls_eng(rp, a, sizeof a, ls_part_opt(p, "imax", 0), "A")); break;
+    case LS_LIM_CURRENT_SINK: snprintf(buf, n, "current (sinking %s)",
+                                       ls_eng(rp, a, sizeof a, ls_part_opt(p, "imax", 0), "A")); break;
+    default: snprintf(buf, n, "none"); break;
+    }
+    return buf;
+}
+
+static void adc_text(ls_report *rp, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    FILE *o = rp->out;
+    const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    table t = {.ncol = 8, .head = {"adc", "input", "code", "unloaded", "error", "source", "max source", "verdict"},
+               .right = {false, true, true, true, true, true, true, false}};
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_adc_result r;
+        const ls_part *p = &nl->parts[i];
+        if (ls_op_adc(op, i, &r) != 0)
+            continue;
+        char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64];
+        int mi = ls_kind_opt(p->kind, "max_source");
+        bool has_max = ls_part_has(p, mi);
+        snprintf(b2, sizeof b2, "%lld", r.code);
+        snprintf(b4, sizeof b4, "%+.3g LSB", r.error_lsb);
+        const char *c[8] = {p->name, ls_eng(rp, b1, sizeof b1, r.vin, "V"), b2,
+                            ls_eng(rp, b3, sizeof b3, r.v_open, "V"), isfinite(r.error_lsb) ? b4 : "undefined",
+                            ls_eng(rp, b5, sizeof b5, r.rth, OHM),
+                            has_max ? ls_eng(rp, b6, sizeof b6, p->opt[mi], OHM) : "-",
+                            !has_max ? "-" : r.rth <= p->opt[mi] ? "ok" : "source too high"};
+        if (!t.rows)
+            fputs("\nADC inputs (error: the reading's shift from loading and leakage)\n", o);
+        t_row(&t, c);
+    }
+    if (t.rows)
+        t_print(&t, o);
+}
+
+static void ntc_text(ls_report *rp, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    FILE *o = rp->out;
+    table t = {.ncol = 4, .head = {"thermistor", "resistance", "body", "self-heating"},
+               .right = {false, true, true, true}};
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!is_kind(p, "ntc"))
+            continue;
+        double t_amb = ls_part_opt(p, "temp", 25), t_body = ls_ntc_body(p);
+        char b1[64], b2[64], b3[64];
+        snprintf(b2, sizeof b2, "%.4g degC", t_body);
+        snprintf(b3, sizeof b3, "%.3g K", t_body - t_amb);
+        const char *c[4] = {p->name, ls_eng(rp, b1, sizeof b1, ls_ntc_r(p, t_body), ls_unit_of(LS_OHM, rp->ascii)),
+                            b2, b3};
+        if (!t.rows)
+            fputs("\nThermistors\n", o);
+        t_row(&t, c);
+    }
+    if (t.rows)
+        t_print(&t, o);
+}
+
+static void kv(FILE *o, const char *k, double v, bool comma);
+
+/* Extra JSON keys of the real parts' entries in "parts": an adc's reading,
+ * a thermistor's resistance and temperatures. */
+static void part_extra_json(FILE *o, ls_op *op, int i)
+{
+    const ls_part *p = &op->nl->parts[i];
+    ls_adc_result r;
+    if (ls_op_adc(op, i, &r) == 0) {
+        fprintf(o, ", \"code\": %lld", r.code);
+        kv(o, "lsb", r.lsb, true);
+        kv(o, "unloaded", r.v_open, true);
+        kv(o, "error_lsb", r.error_lsb, true);
+        kv(o, "source_resistance", r.rth, true);
+    } else if (is_kind(p, "ntc")) {
+        double t = ls_ntc_body(p);
+        kv(o, "resistance", ls_ntc_r(p, t), true);
+        kv(o, "temperature", t, true);
+        kv(o, "self_heating", t - ls_part_opt(p, "temp", 25), true);
+    }
+}
+
 /* ---- solve: text ----------------------------------------------------------------------- */
 
 static const char *method_name(ls_method m)
@@ -334,31 +499,40 @@ static const char *method_name(ls_method m)
     return n[m];
 }
 
+/* One line for a port that fails the ratio: the largest zout or the smallest zin
+ * that would meet it, or a buffer. */
 static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
 {
     const ls_part *p = &op->nl->parts[i];
     double min = ls_op_min_ratio(op);
-    char a[64], b[64];
+    const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char r[64], lo[64], hi[64];
     if (pr->verdict == VERDICT_OK)
         return;
-    if (pr->current_mode) {
-        fprintf(rp->out, "  -> %s: zout/zin = %s is below %g. To meet it: a load resistance (zin) of at most %s, or a "
-                         "source resistance (zout) of at least %s.\n",
-                p->name, ls_eng(rp, a, sizeof a, pr->ratio, ""), min,
-                ls_eng(rp, b, sizeof b, pr->zout / min, ls_unit_of(LS_OHM, rp->ascii)),
-                ls_eng(rp, a, sizeof a, pr->zin * min, ls_unit_of(LS_OHM, rp->ascii)));
-        return;
-    }
     if (isnan(pr->ratio)) {
         fprintf(rp->out, "  -> %s: the loading ratio is undefined%s%s.\n", p->name, pr->note ? ": " : "",
                 pr->note ? pr->note : "");
         return;
     }
+    ls_eng(rp, r, sizeof r, pr->ratio, "");
+    if (pr->current_mode) {
+        ls_eng(rp, lo, sizeof lo, pr->zout / min, OHM);
+        ls_eng(rp, hi, sizeof hi, pr->zin * min, OHM);
+        fprintf(rp->out, "  -> %s: zout/zin = %s is below %g. To meet it: a load (zin) of at most %s, or a source "
+                         "(zout) of at least %s.\n",
+                p->name, r, min, lo, hi);
+        return;
+    }
+    if (pr->zin == 0) {
+        fprintf(rp->out, "  -> %s: the load side is a short to ground (zin = 0); no driver can meet the ratio.\n",
+                p->name);
+        return;
+    }
+    ls_eng(rp, lo, sizeof lo, pr->zin / min, OHM);
+    ls_eng(rp, hi, sizeof hi, pr->zout * min, OHM);
     fprintf(rp->out, "  -> %s: zin/zout = %s is below the %g x rule. To meet it: a driver with zout at most %s, or a load "
                      "with zin at least %s, or a buffer (an op-amp follower) between them.\n",
-            p->name, ls_eng(rp, a, sizeof a, pr->ratio, ""), min,
-            ls_eng(rp, b, sizeof b, pr->zin / min, ls_unit_of(LS_OHM, rp->ascii)),
-            ls_eng(rp, a, sizeof a, pr->zout * min, ls_unit_of(LS_OHM, rp->ascii)));
+            p->name, r, min, lo, hi);
 }
 
 static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
@@ -371,10 +545,17 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     fprintf(o, "solved: %d unknowns by %s (%s), reciprocal condition %.2g, relative residual %.2g\n", op->mna.n,
             method_name(op->method), ls_solver_stats_of(op->solver)->library, op->rcond, op->residual);
 
+    if (op->iterations > 1)
+        fprintf(o, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
+
     fputs("\nNodes\n", o);
-    table t = {.ncol = 2, .head = {"node", "voltage"}, .right = {false, true}};
+    bool hazard = false;
+    for (int i = 0; i < nl->nnodes; i++)
+        hazard |= fabs(op->v[i]) > LS_TOUCH_SAFE_DC;
+    table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
     for (int i = 0; i < nl->nnodes; i++) {
-        const char *c[2] = {nl->nodes[i].name, ls_eng(rp, b1, sizeof b1, op->v[i], V)};
+        const char *c[3] = {nl->nodes[i].name, ls_eng(rp, b1, sizeof b1, op->v[i], V),
+                            fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
         t_row(&t, c);
     }
     t_print(&t, o);
@@ -432,17 +613,34 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     }
     if (nops) {
         fputs("\nOp-amps\n", o);
-        table p = {.ncol = 4, .head = {"op-amp", "out", "current", "limit"}, .right = {false, true, true, false}};
+        /* the dissipation column only where some op-amp has rails= to reckon it from */
+        bool rails = false;
+        for (int i = 0; i < nl->nparts; i++)
+            rails |= isfinite(ls_opamp_dissipation(op, i));
+        table p = {.ncol = rails ? 5 : 4, .head = {"op-amp", "out", "current", "dissipation", "limit"},
+                   .right = {false, true, true, true, false}};
+        if (!rails) {
+            p.head[3] = "limit";
+            p.right[3] = false;
+        }
         for (int i = 0; i < nl->nparts; i++) {
             const ls_part *pt = &nl->parts[i];
             if (!pt->kind->is_opamp)
                 continue;
-            const char *c[4] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], V),
-                                ls_eng(rp, b2, sizeof b2, op->ipart[i], A), "none"};
+            char lim[96];
+            double pd = ls_opamp_dissipation(op, i);
+            const char *c[5] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], V),
+                                ls_eng(rp, b2, sizeof b2, op->ipart[i], A),
+                                isfinite(pd) ? ls_eng(rp, b3, sizeof b3, pd, W) : "-",
+                                limit_text(rp, pt, lim, sizeof lim)};
+            if (!rails)
+                c[3] = c[4];
             t_row(&p, c);
         }
         t_print(&p, o);
     }
+    adc_text(rp, op);
+    ntc_text(rp, op);
     checks_text(rp, checks);
     warnings_text(rp);
 }
@@ -451,7 +649,9 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 
 static void kv(FILE *o, const char *k, double v, bool comma)
 {
-    fprintf(o, "%s\"%s\": ", comma ? ", " : "", k);
+    fputs(comma ? ", \"" : "\"", o); /* plain writes: this runs for every part */
+    fputs(k, o);
+    fputs("\": ", o);
     ls_json_number(o, v);
 }
 
@@ -487,6 +687,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         kv(o, "current", op->ipart[i], true);
         kv(o, "voltage", op->vpart[i], true);
         kv(o, "power", op->ppart[i], true);
+        part_extra_json(o, op, i);
         fputs("}", o);
     }
     fputs(k ? "\n  },\n  \"ports\": {" : "},\n  \"ports\": {", o);
@@ -524,7 +725,9 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         fputs(": {", o);
         kv(o, "out", op->v[p->pin[2]], false);
         kv(o, "current", op->ipart[i], true);
-        fputs(", \"limited\": \"none\"}", o);
+        fprintf(o, ", \"limited\": \"%s\"", limit_name(p));
+        kv(o, "dissipation", ls_opamp_dissipation(op, i), true);
+        fputs("}", o);
     }
     fputs(k ? "\n  },\n  \"checks\": " : "},\n  \"checks\": ", o);
     checks_json(rp, checks);
@@ -568,6 +771,19 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
         csv_row(o, "part", p->name, "power", op->ppart[i]);
         if (p->kind->is_opamp)
             csv_row(o, "opamp", p->name, "out", op->v[p->pin[2]]);
+        ls_adc_result r;
+        if (ls_op_adc(op, i, &r) == 0) {
+            csv_row(o, "part", p->name, "code", (double)r.code);
+            csv_row(o, "part", p->name, "lsb", r.lsb);
+            csv_row(o, "part", p->name, "unloaded", r.v_open);
+            csv_row(o, "part", p->name, "error_lsb", r.error_lsb);
+            csv_row(o, "part", p->name, "source_resistance", r.rth);
+        } else if (is_kind(p, "ntc")) {
+            double t = ls_ntc_body(p);
+            csv_row(o, "part", p->name, "resistance", ls_ntc_r(p, t));
+            csv_row(o, "part", p->name, "temperature", t);
+            csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "temp", 25));
+        }
     }
     for (int i = 0; i < checks->n; i++)
         csv_row(o, "check", checks->rows[i].text, checks->rows[i].r.pass ? "pass" : "fail", checks->rows[i].r.value);

@@ -12,6 +12,13 @@
  *     Symmetric matrices that are not dominant are not guessed at: a failed
  *     Cholesky costs an analysis and part of a factorization, and LU is
  *     never wrong.
+ *  1b. The reduced nodal form (mna.c: ls_backend_reduced, CHOLMOD inside)
+ *     when A is the MNA matrix of resistors, current sources and voltage
+ *     sources: grounded sources without rs fix their node, sources with rs
+ *     are Norton-converted, and what is left is a nodal matrix like rule 1's.
+ *     A source-fed grid is the common case; its full MNA matrix is not
+ *     positive definite and would otherwise go to LU.  A failed Cholesky
+ *     (a floating node) comes back LS_SOLVER_NOT_SPD and LU is retried.
  *  2. Otherwise LU, and KLU unless the factor will be thick.  KLU's
  *     left-looking kernel (no BLAS) is faster than UMFPACK's multifrontal
  *     one on everything circuit-like we measured, and its refactor and
@@ -29,6 +36,7 @@
  *     UMFPACK is 2x faster.  25 splits the bracket.
  */
 #include "sparse.h"
+#include "mna.h"
 
 #include <amd.h>
 
@@ -95,6 +103,9 @@ const ls_backend *ls_sparse_pick(const ls_csc *a, ls_method *method_out)
     if (a && a->n > 0) {
         if (likely_spd(a)) {
             be = &ls_backend_cholmod;
+            m = LS_METHOD_SPARSE_CHOLESKY;
+        } else if (ls_mna_reducible(a)) {
+            be = &ls_backend_reduced;
             m = LS_METHOD_SPARSE_CHOLESKY;
         } else if (a->n >= PICK_UMF_MIN_N &&
                    (double)ls_csc_nnz(a) / a->n >= PICK_UMF_MIN_PER_COL &&
