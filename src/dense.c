@@ -1,4 +1,4 @@
-/* dense.c — the LAPACK backend: equilibrate (dgeequ), factor (dgetrf),
+/* dense.c — the LAPACK backend: equilibrate (as dgeequ does), factor (dgetrf),
  * estimate the condition (dgecon), solve (dgetrs).  Iterative refinement is done
  * by the caller against the original sparse matrix. */
 #include <lapacke.h>
@@ -64,6 +64,34 @@ static int dense_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
     return LS_SOLVER_OK;
 }
 
+/* Scale factors as LAPACK's dgeequ computes them (r_i = 1 / max_j |a_ij|,
+ * c_j = 1 / max_i r_i |a_ij|), but from the compressed matrix: O(nnz) instead of
+ * two passes over the dense array.  Returns -1, or the first all-zero row
+ * (0..n-1) or column (n..2n-1). */
+static int equilibrate(const ls_csc *a, double *r, double *c)
+{
+    int n = a->n;
+    for (int i = 0; i < n; i++)
+        r[i] = 0;
+    for (int j = 0; j < n; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            r[a->rowind[p]] = fmax(r[a->rowind[p]], fabs(a->val[p]));
+    for (int i = 0; i < n; i++) {
+        if (r[i] == 0)
+            return i;
+        r[i] = 1 / r[i];
+    }
+    for (int j = 0; j < n; j++) {
+        double m = 0;
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            m = fmax(m, r[a->rowind[p]] * fabs(a->val[p]));
+        if (m == 0)
+            return n + j;
+        c[j] = 1 / m;
+    }
+    return -1;
+}
+
 static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
 {
     dense *d = self;
@@ -72,24 +100,30 @@ static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
         st->rcond = 1;
         return LS_SOLVER_OK;
     }
-    memset(d->lu, 0, (size_t)n * n * sizeof *d->lu);
-    for (int j = 0; j < n; j++)
-        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
-            d->lu[(size_t)j * n + a->rowind[p]] += a->val[p];
-    double rowcnd, colcnd, amax;
-    lapack_int info = LAPACKE_dgeequ(LAPACK_COL_MAJOR, n, n, d->lu, n, d->r, d->c, &rowcnd, &colcnd, &amax);
-    if (info > 0) {
-        /* an all-zero row (info <= n) or column (info > n) */
-        st->bad_column = info > n ? (int)(info - n - 1) : (int)(info - 1);
+    int zero = equilibrate(a, d->r, d->c);
+    if (zero >= 0) {
+        st->bad_column = zero >= n ? zero - n : zero;
         st->rcond = 0;
         return LS_SOLVER_SINGULAR;
     }
     d->scaled = true;
-    for (int j = 0; j < n; j++)
-        for (int i = 0; i < n; i++)
-            d->lu[(size_t)j * n + i] *= d->r[i] * d->c[j];
-    double anorm = LAPACKE_dlange(LAPACK_COL_MAJOR, '1', n, n, d->lu, n);
-    info = LAPACKE_dgetrf(LAPACK_COL_MAJOR, n, n, d->lu, n, d->ipiv);
+    /* Scatter the scaled matrix; its 1-norm (for dgecon) comes from the same loop. */
+    memset(d->lu, 0, (size_t)n * n * sizeof *d->lu);
+    double anorm = 0;
+    for (int j = 0; j < n; j++) {
+        double colsum = 0;
+        double *col = d->lu + (size_t)j * n;
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
+            int i = a->rowind[p];
+            col[i] += a->val[p] * d->r[i] * d->c[j];
+        }
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            colsum += fabs(col[a->rowind[p]]);
+        anorm = fmax(anorm, colsum);
+    }
+    /* The _work interfaces skip LAPACKE's NaN scan of the whole matrix: the
+     * entries come from finite stamps. */
+    lapack_int info = LAPACKE_dgetrf_work(LAPACK_COL_MAJOR, n, n, d->lu, n, d->ipiv);
     st->factorizations++;
     if (info > 0) {
         st->bad_column = (int)(info - 1);
@@ -99,7 +133,16 @@ static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
     if (info < 0)
         return LS_SOLVER_FAILED;
     double rcond = 0;
-    info = LAPACKE_dgecon(LAPACK_COL_MAJOR, '1', n, d->lu, n, anorm, &rcond);
+    double *work = malloc(4 * (size_t)n * sizeof *work);
+    lapack_int *iwork = malloc((size_t)n * sizeof *iwork);
+    if (!work || !iwork) {
+        free(work);
+        free(iwork);
+        return LS_SOLVER_NOMEM;
+    }
+    info = LAPACKE_dgecon_work(LAPACK_COL_MAJOR, '1', n, d->lu, n, anorm, &rcond, work, iwork);
+    free(work);
+    free(iwork);
     st->rcond = info == 0 ? rcond : NAN;
     if (!(rcond > 4 * 2.220446049250313e-16)) {
         /* numerically singular: point at the smallest pivot */
@@ -129,7 +172,7 @@ static int dense_solve(void *self, double *b, int transpose, ls_solver_stats *st
     const double *pre = transpose ? d->c : d->r, *post = transpose ? d->r : d->c;
     for (int i = 0; i < n; i++)
         b[i] *= pre[i];
-    lapack_int info = LAPACKE_dgetrs(LAPACK_COL_MAJOR, transpose ? 'T' : 'N', n, 1, d->lu, n, d->ipiv, b, n);
+    lapack_int info = LAPACKE_dgetrs_work(LAPACK_COL_MAJOR, transpose ? 'T' : 'N', n, 1, d->lu, n, d->ipiv, b, n);
     for (int i = 0; i < n; i++)
         b[i] *= post[i];
     return info == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
