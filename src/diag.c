@@ -146,10 +146,11 @@ static void print_excerpt(const ls_diags *d, ls_loc loc, FILE *out)
     unsigned s = f->line_start[line - 1], e = s;
     while (e < f->len && f->text[e] != '\n' && f->text[e] != '\r')
         e++;
+    unsigned line_end = e;
     if (e - s > 400) /* a pathological line: show a window around the column */
         e = s + 400 < loc.start + 40 ? loc.start + 40 : s + 400;
-    if (e > f->len)
-        e = f->len;
+    if (e > line_end) /* never past the end of this line */
+        e = line_end;
     fputs("    ", out);
     fwrite(f->text + s, 1, e - s, out);
     fputs("\n    ", out);

@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "eseries.h"
 #include "lexer.h"
 #include "parts.h"
 
@@ -29,6 +30,7 @@ typedef struct elab {
     ls_hash warned;             /* "block\x1fname" already warned about */
     struct { int node; const ls_stmt *block; const char *base; ls_loc loc; } *locals;
     int nlocals, cap_locals;
+    bool nodes_capped, parts_capped;  /* LS_MAX_NODES / LS_MAX_PARTS reported */
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -124,6 +126,12 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
 static int new_node(elab *x, const char *full, ls_loc loc, int depth)
 {
     ls_netlist *nl = x->nl;
+    if (nl->nnodes >= LS_MAX_NODES) {
+        if (nl->nnodes == LS_MAX_NODES && !x->nodes_capped) /* say it once */
+            ls_error(x->d, loc, "more than %d nodes after the blocks are expanded", LS_MAX_NODES);
+        x->nodes_capped = true;
+        return -1;
+    }
     if (!grow((void **)&nl->nodes, &nl->cap_nodes, nl->nnodes + 1, sizeof *nl->nodes))
         return -1;
     int i = nl->nnodes++;
@@ -383,7 +391,9 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
     case E_BIN: {
         double a, b;
         ls_dims da, db;
-        if (!eval(x, s, e->a, &a, &da) | !eval(x, s, e->b, &b, &db))
+        bool ok_a = eval(x, s, e->a, &a, &da); /* both sides, to report both */
+        bool ok_b = eval(x, s, e->b, &b, &db);
+        if (!ok_a || !ok_b)
             return false;
         if (!combine(x, e->op, e->op_loc, da, db, e->b, d))
             return false;
@@ -664,14 +674,15 @@ static void add_check(elab *x, const scope *s, const ls_stmt *st)
     nl->checks[nl->nchecks++] = c;
 }
 
-static const char *opt_names(const ls_kind *k)
+/* The option names of a kind, "tol, rating, rs", written into buf (n bytes,
+ * the caller's; no shared static buffer, so circuits can elaborate side by side). */
+static const char *opt_names(const ls_kind *k, char *buf, size_t n)
 {
-    static char buf[512];
     buf[0] = 0;
     for (int i = 0; i < k->nopts; i++) {
         if (i)
-            strncat(buf, ", ", sizeof buf - strlen(buf) - 1);
-        strncat(buf, k->opts[i].name, sizeof buf - strlen(buf) - 1);
+            strncat(buf, ", ", n - strlen(buf) - 1);
+        strncat(buf, k->opts[i].name, n - strlen(buf) - 1);
     }
     return buf;
 }
@@ -690,10 +701,14 @@ static bool check_flags(elab *x, unsigned flags, double v, ls_loc loc, const cha
         ls_error(x->d, loc, "%s must be between 0 and 1", what);
         return false;
     }
+    if ((flags & OPTF_INTEGER) && (v != floor(v) || v > 62)) {
+        ls_error(x->d, loc, "%s must be a whole number (at most 62)", what);
+        return false;
+    }
     return true;
 }
 
-static bool set_word(elab *x, ls_part *p, int oi, const ls_opt *o)
+static bool set_word(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *o)
 {
     const ls_optdef *od = &p->kind->opts[oi];
     if (o->value->kind == E_NAME && !o->hi) {
@@ -708,8 +723,104 @@ static bool set_word(elab *x, ls_part *p, int oi, const ls_opt *o)
             w += n + (bar ? 1 : 0);
         }
     }
-    ls_error(x->d, o->value->loc, "%s= takes one of: %s", od->name, od->words);
+    /* A param stands for the word with its value as the index (state=pump_on
+     * with param pump_on = 1 is closed), so --set can flip it. */
+    double v;
+    ls_dims d;
+    int nwords = 1;
+    for (const char *c = od->words; *c; c++)
+        nwords += *c == '|';
+    if (o->value->kind == E_NAME && !o->hi && param_ref(x, s, o->value->name)) {
+        if (!eval(x, s, o->value, &v, &d))
+            return false;
+        if (v == floor(v) && v >= 0 && v < nwords) {
+            p->opt[oi] = v;
+            return true;
+        }
+        ls_error(x->d, o->value->loc, "%s= takes one of: %s, or a param whose value is 0 to %d ('%s' is %g)",
+                 od->name, od->words, nwords - 1, o->value->name, v);
+        return false;
+    }
+    ls_error(x->d, o->value->loc, "%s= takes one of: %s, or a param whose value is 0 to %d", od->name, od->words,
+             nwords - 1);
     return false;
+}
+
+/* One end of a range option: a node, a node plus or minus a voltage
+ * (vcc-1.5V), or a value of the option's unit. */
+static bool range_end(elab *x, const scope *s, const ls_expr *e, ls_dims want, ls_level *out)
+{
+    const ls_expr *name = NULL, *off = NULL;
+    double sign = 1;
+    out->node = -1;
+    out->volts = 0;
+    if (e->kind == E_NAME && !param_ref(x, s, e->name)) {
+        name = e;
+    } else if (e->kind == E_BIN && (e->op == T_PLUS || e->op == T_MINUS) && e->a->kind == E_NAME &&
+               !param_ref(x, s, e->a->name)) {
+        name = e->a;
+        off = e->b;
+        sign = e->op == T_MINUS ? -1 : 1;
+    } else if (e->kind == E_BIN && e->op == T_PLUS && e->b->kind == E_NAME && !param_ref(x, s, e->b->name)) {
+        name = e->b;
+        off = e->a;
+    }
+    if (!name)
+        return eval_slot(x, s, e, want, &out->volts);
+    if (!ls_dims_eq(norm(want), LS_VOLT)) {
+        ls_error(x->d, name->loc, "'%s': only a voltage range may name a node", name->name);
+        return false;
+    }
+    out->node = node_ref(x, s, name->name, name->loc);
+    if (out->node < 0)
+        return false;
+    if (off && !eval_slot(x, s, off, LS_VOLT, &out->volts))
+        return false;
+    out->volts *= sign;
+    return true;
+}
+
+/* range -> LO '..' HI, each end a node, a node +- a voltage, or a value. */
+static bool set_range(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *o)
+{
+    const ls_optdef *od = &p->kind->opts[oi];
+    if (!o->hi) {
+        ls_error(x->d, o->value->loc, "%s= takes a range LO..HI (two nodes or two voltages, e.g. gnd..vcc or 0..5V)",
+                 od->name);
+        return false;
+    }
+    ls_level *r = p->range[od->pin];
+    bool ok_lo = range_end(x, s, o->value, od->dims, &r[0]); /* both ends, to report both */
+    bool ok_hi = range_end(x, s, o->hi, od->dims, &r[1]);
+    if (!ok_lo || !ok_hi)
+        return false;
+    if (r[0].node == r[1].node && !(r[0].volts < r[1].volts)) {
+        ls_error(x->d, o->value->loc, "%s= %s: the low end must be below the high end", od->name,
+                 src_text(x, (ls_loc){o->value->loc.file, o->value->loc.start, o->hi->loc.end}));
+        return false;
+    }
+    return true;
+}
+
+/* snap=SERIES: round the value to the nearest IEC 60063 value of the series
+ * and warn with the rounding error; opt[oi] then holds that error as a
+ * fraction (snapped / written - 1) instead of the word's index. */
+static void snap_value(elab *x, ls_part *p, int oi)
+{
+    const char *w = p->kind->opts[oi].words;
+    for (int i = (int)p->opt[oi]; i > 0 && strchr(w, '|'); i--)
+        w = strchr(w, '|') + 1;
+    char name[8];
+    size_t n = strcspn(w, "|");
+    snprintf(name, sizeof name, "%.*s", (int)(n < sizeof name ? n : sizeof name - 1), w);
+    double v = ls_eseries_snap(ls_eseries_find(name), p->value);
+    if (!isfinite(v))
+        return;
+    p->opt[oi] = v / p->value - 1;
+    if (v != p->value)
+        ls_warning(x->d, p->opt_loc[oi], "snapped", "%s '%s': %.6g ohm rounded to the %s value %.6g ohm (%+.3g%%)",
+                   p->kind->name, p->name, p->value, name, v, 100 * p->opt[oi]);
+    p->value = v;
 }
 
 /* part -> fill an ls_part from its statement */
@@ -759,6 +870,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         int oi = ls_kind_opt(k, o->name);
         if (oi < 0) {
             const char *best = NULL;
+            char names[512];
             int bd = 3;
             for (int j = 0; j < k->nopts; j++) {
                 int dd = ls_edit_distance(o->name, k->opts[j].name);
@@ -771,7 +883,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
                 ls_error(x->d, o->name_loc, "%s has no option '%s'; did you mean '%s'?", k->name, o->name, best);
             else
                 ls_error(x->d, o->name_loc, "%s has no option '%s' (it takes: %s)", k->name, o->name,
-                         opt_names(k));
+                         opt_names(k, names, sizeof names));
             continue;
         }
         if (p.has_opt[oi]) {
@@ -822,10 +934,12 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
             p.ref_loc = o->value->loc;
             break;
         case OPT_WORD:
-            if (!set_word(x, &p, oi, o))
+            if (!set_word(x, s, &p, oi, o))
                 continue;
             break;
         case OPT_RANGE:
+            if (!set_range(x, s, &p, oi, o))
+                continue;
             break;
         }
         p.has_opt[oi] = true;
@@ -847,11 +961,20 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
             continue; /* the positional value was given but had an error */
         ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
     }
+    if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
+        snap_value(x, &p, ls_kind_opt(k, "snap"));
     if (st->arrow && p.pin[0] >= 0 && p.pin[0] == p.pin[1])
         ls_warning(x->d, st->from_loc, "same-node", "both ends of %s '%s' are the same node '%s'", k->name, st->name,
                    nl->nodes[p.pin[0]].name);
     if (x->d->errors != errs)
         return;
+    if (nl->nparts >= LS_MAX_PARTS) {
+        if (!x->parts_capped) /* say it once, with what the parts alone would take */
+            ls_error(x->d, st->name_loc, "more than %d parts after the blocks are expanded (%.0f MB for the part "
+                     "table alone)", LS_MAX_PARTS, (double)LS_MAX_PARTS * sizeof(ls_part) / 1e6);
+        x->parts_capped = true;
+        return;
+    }
     if (!grow((void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
         return;
     nl->parts[nl->nparts] = p;
@@ -1016,13 +1139,15 @@ static void elab_param(elab *x, const scope *s, const ls_stmt *st)
         set->used = true;
         double sv;
         ls_dims sd;
-        if (!eval(x, s, set->value, &sv, &sd))
-            return;
-        if (norm(sd).known && norm(d).known && !ls_dims_eq(norm(sd), norm(d))) {
+        if (!eval(x, s, set->value, &sv, &sd)) {
+            sd = d; /* keep the file's value so later uses do not cascade */
+            sv = v;
+        } else if (norm(sd).known && norm(d).known && !ls_dims_eq(norm(sd), norm(d))) {
             char b1[64], b2[64];
             ls_error(x->d, set->value->loc, "param '%s' is %s, but --set gives %s", st->name,
                      dname(d, b1, sizeof b1), dname(sd, b2, sizeof b2));
-            return;
+            sv = v;
+            sd = d;
         }
         v = sv;
         if (norm(sd).known)
@@ -1155,11 +1280,22 @@ static void resolve_refs(elab *x)
         p->ref = r;
     }
     /* A chain of current-controlled sources that comes back to itself has no
-     * defined current: follow each chain. */
+     * defined current: follow each chain.  The stamps follow a chain only
+     * LS_MAX_VIA_CHAIN links deep, so a longer one is refused here rather than
+     * stamped as a zero current (and the walk stays linear in the parts). */
     for (int i = 0; i < nl->nparts; i++) {
         int r = nl->parts[i].ref, steps = 0;
-        while (r >= 0 && r != i && steps++ < nl->nparts)
+        while (r >= 0 && r != i && steps <= LS_MAX_VIA_CHAIN) {
             r = nl->parts[r].ref;
+            steps++;
+        }
+        if (r >= 0 && r != i) {
+            ls_error(x->d, nl->parts[i].ref_loc,
+                     "current-controlled sources are chained through via= more than %d deep from '%s'",
+                     LS_MAX_VIA_CHAIN, nl->parts[i].name);
+            nl->parts[i].ref = -1;
+            continue;
+        }
         if (r == i) {
             ls_error(x->d, nl->parts[i].ref_loc, "current-controlled sources control each other in a loop through '%s'",
                      nl->parts[i].name);
@@ -1204,6 +1340,107 @@ static void final_checks(elab *x)
                      x->sets[i].name);
 }
 
+/* ---- expansion size, before expanding -------------------------------------------------- */
+
+/* What one use of a block expands to: instances (itself included) and parts,
+ * saturated so that sums cannot overflow. */
+typedef struct bsize {
+    long long inst, parts;
+    int state;                  /* 0 not seen, 1 on the DFS stack, 2 done */
+} bsize;
+
+#define SIZE_CAP (4LL * LS_MAX_INSTANCES + 4LL * LS_MAX_PARTS)
+
+static long long sat_add(long long a, long long b)
+{
+    return a + b > SIZE_CAP ? SIZE_CAP : a + b;
+}
+
+/* Fill sz[bi] (and every block below it) by an explicit-stack depth-first walk:
+ * each block once, whatever the nesting, so a long chain of blocks cannot
+ * exhaust the C stack.  A block met again on the stack is a recursion (the
+ * expansion reports it) and counts nothing here.  Returns false on no memory. */
+static bool size_block(elab *x, int bi, bsize *sz)
+{
+    if (sz[bi].state)
+        return true;
+    struct frame { int bi, next; } *st = malloc((size_t)x->nblocks * sizeof *st);
+    if (!st)
+        return false;
+    int sp = 0;
+    st[sp++] = (struct frame){bi, 0};
+    sz[bi].state = 1;
+    while (sp > 0) {
+        struct frame *f = &st[sp - 1];
+        const ls_stmt *b = x->blockv[f->bi];
+        if (f->next < b->nbody) {
+            const ls_stmt *u = b->body[f->next++];
+            int ui = u->kind == S_USE ? block_index(x, u->kw) : -1;
+            if (ui >= 0 && sz[ui].state == 0) {
+                sz[ui].state = 1;
+                st[sp++] = (struct frame){ui, 0};
+            }
+            continue;
+        }
+        long long inst = 1, parts = 0;
+        for (int i = 0; i < b->nbody; i++) {
+            const ls_stmt *u = b->body[i];
+            int ui = u->kind == S_USE ? block_index(x, u->kw) : -1;
+            if (u->kind == S_PART)
+                parts = sat_add(parts, 1);
+            else if (ui >= 0 && sz[ui].state == 2) {
+                inst = sat_add(inst, sz[ui].inst);
+                parts = sat_add(parts, sz[ui].parts);
+            }
+        }
+        sz[f->bi] = (bsize){inst, parts, 2};
+        sp--;
+    }
+    free(st);
+    return true;
+}
+
+/* Refuse, before anything is expanded, a circuit whose blocks would expand
+ * past LS_MAX_INSTANCES instances or LS_MAX_PARTS parts (a few lines of
+ * blocks that use each other twice at every level make 2^n): the error is at
+ * the top-level statement that crosses the limit.  Returns true when the
+ * expansion may go ahead. */
+static bool expansion_fits(elab *x, const ls_program *prog)
+{
+    bsize *sz = calloc((size_t)(x->nblocks ? x->nblocks : 1), sizeof *sz);
+    if (!sz)
+        return true; /* the expansion's own counters still apply */
+    long long inst = 0, parts = 0;
+    bool ok = true;
+    for (int i = 0; i < prog->n && ok; i++) {
+        const ls_stmt *st = prog->stmts[i];
+        if (st->kind == S_PART) {
+            parts = sat_add(parts, 1);
+        } else if (st->kind == S_USE) {
+            int bi = block_index(x, st->kw);
+            if (bi < 0 || !size_block(x, bi, sz))
+                continue;
+            inst = sat_add(inst, sz[bi].inst);
+            parts = sat_add(parts, sz[bi].parts);
+        } else {
+            continue;
+        }
+        if (inst > LS_MAX_INSTANCES) {
+            ls_error(x->d, st->kw_loc, "with this use the blocks expand to more than %d instances (%s%lld)",
+                     LS_MAX_INSTANCES, inst == SIZE_CAP ? "at least " : "", inst);
+            ok = false;
+        } else if (parts > LS_MAX_PARTS) {
+            ls_error(x->d, st->kind == S_USE ? st->kw_loc : st->name_loc,
+                     "with this statement the circuit expands to more than %d parts (%s%lld, about %.0f MB "
+                     "for the part table alone)", LS_MAX_PARTS, parts == SIZE_CAP ? "at least " : "", parts,
+                     (double)parts * sizeof(ls_part) / 1e6);
+            ok = false;
+        }
+    }
+    free(sz);
+    return ok;
+}
+
 int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl)
 {
     elab x;
@@ -1222,7 +1459,8 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
     collect_blocks(&x, prog);
     ground_and_title(&x, prog);
     scope top = {"", NULL, NULL, 0};
-    elab_body(&x, &top, prog->stmts, prog->n);
+    if (expansion_fits(&x, prog))
+        elab_body(&x, &top, prog->stmts, prog->n);
     resolve_refs(&x);
     final_checks(&x);
     ls_hash_free(&x.blocks);

@@ -92,9 +92,10 @@ static void trailing_unit(ls_lexer *lx, ls_token *t)
     if (n == 0)
         return;
     unsigned end = p + n;
-    if (end < lx->len && (ident_char((unsigned char)lx->src[end]) || lx->src[end] == '.' ||
+    bool range_follows = end + 1 < lx->len && lx->src[end] == '.' && lx->src[end + 1] == '.'; /* 5 V..9 V */
+    if (end < lx->len && (ident_char((unsigned char)lx->src[end]) || (lx->src[end] == '.' && !range_follows) ||
                           lx->src[end] == '='))
-        return; /* a longer word, or an option name: not a unit */
+        return; /* a longer word, a dotted name or an option name: not a unit */
     double scale;
     ls_dims d;
     if (ls_unit_parse(lx->src + p, n, &scale, &d)) {

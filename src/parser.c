@@ -873,7 +873,16 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
     }
     for (inc_frame *f = p->incs; f; f = f->up) {
         if (strcmp(f->real, real) == 0) {
-            ls_error(p->d, sloc, "include cycle: '%s' includes itself (through '%s')", name, f->shown);
+            /* name the whole chain, outermost first: a -> b -> a */
+            char chain[600];
+            snprintf(chain, sizeof chain, "'%s'", name);
+            for (inc_frame *g = p->incs; g; g = g->up) {
+                char tmp[600];
+                snprintf(tmp, sizeof tmp, "'%.200s' -> %.380s", g->shown, chain); /* truncated, never overflowing */
+                memcpy(chain, tmp, sizeof chain);
+            }
+            ls_error(p->d, sloc, "include cycle: %s (a file cannot include itself, directly or through others)",
+                     chain);
             return;
         }
     }
