@@ -14,6 +14,7 @@ void ls_diags_init(ls_diags *d, ls_arena *a)
 
 void ls_diags_free(ls_diags *d)
 {
+    ls_hash_free(&d->seen);
     for (int i = 0; i < d->nfiles; i++)
         free(d->files[i].line_start);
     free(d->files);
@@ -73,6 +74,21 @@ void ls_loc_linecol(const ls_diags *d, int file, unsigned off, int *line, int *c
 static void add(ls_diags *d, ls_severity sev, ls_loc loc, const char *code,
                 const char *fmt, va_list ap)
 {
+    char buf[1024];
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    /* A mistake inside a block used many times is reported once, not once per
+     * instance: the same message at the same place is a repeat. */
+    if (sev == LS_SEV_NOTE) {
+        if (d->dropping)
+            return;
+    } else {
+        char *key = ls_arena_printf(d->arena, "%d:%u:%d:%s", loc.file, loc.start, (int)sev, buf);
+        d->dropping = key && ls_hash_get(&d->seen, key) >= 0;
+        if (d->dropping)
+            return;
+        if (key)
+            ls_hash_put(&d->seen, key, 1);
+    }
     if (sev == LS_SEV_ERROR) {
         d->errors++;
         if (d->errors > d->max_errors)
@@ -88,8 +104,6 @@ static void add(ls_diags *d, ls_severity sev, ls_loc loc, const char *code,
         d->items = p;
         d->cap = cap;
     }
-    char buf[1024];
-    vsnprintf(buf, sizeof buf, fmt, ap);
     ls_diag *g = &d->items[d->n++];
     g->sev = sev;
     g->loc = loc;

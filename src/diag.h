@@ -10,6 +10,7 @@
 #include <stdio.h>
 
 #include "arena.h"
+#include "hash.h"
 
 typedef struct ls_loc {
     int file;            /* index into ls_sources.files; -1 for none */
@@ -43,6 +44,8 @@ typedef struct ls_diags {
     int n, cap;
     int errors, warnings;
     int max_errors;        /* stop collecting past this many (0: 200) */
+    ls_hash seen;          /* "file:offset:severity:message" of every diagnostic, to drop repeats */
+    bool dropping;         /* the last error or warning was a repeat: drop its notes too */
 } ls_diags;
 
 void ls_diags_init(ls_diags *d, ls_arena *a);

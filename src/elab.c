@@ -805,7 +805,7 @@ static bool set_range(elab *x, const scope *s, ls_part *p, int oi, const ls_opt 
 /* snap=SERIES: round the value to the nearest IEC 60063 value of the series
  * and warn with the rounding error; opt[oi] then holds that error as a
  * fraction (snapped / written - 1) instead of the word's index. */
-static void snap_value(elab *x, ls_part *p, int oi)
+static void snap_value(elab *x, ls_part *p, int oi, ls_loc at)
 {
     const char *w = p->kind->opts[oi].words;
     for (int i = (int)p->opt[oi]; i > 0 && strchr(w, '|'); i--)
@@ -818,7 +818,7 @@ static void snap_value(elab *x, ls_part *p, int oi)
         return;
     p->opt[oi] = v / p->value - 1;
     if (v != p->value)
-        ls_warning(x->d, p->opt_loc[oi], "snapped", "%s '%s': %.6g ohm rounded to the %s value %.6g ohm (%+.3g%%)",
+        ls_warning(x->d, at, "snapped", "%s '%s': %.6g ohm rounded to the %s value %.6g ohm (%+.3g%%)",
                    p->kind->name, p->name, p->value, name, v, 100 * p->opt[oi]);
     p->value = v;
 }
@@ -829,6 +829,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     ls_netlist *nl = x->nl;
     const ls_kind *k = ls_kind_find(st->kw);
     ls_part p;
+    ls_loc snap_loc = LS_NOLOC;
     memset(&p, 0, sizeof p);
     p.kind = k;
     p.loc = st->name_loc;
@@ -891,7 +892,8 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
             continue;
         }
         const ls_optdef *od = &k->opts[oi];
-        p.opt_loc[oi] = o->value->loc;
+        if (od->kind == OPT_WORD && strcmp(od->name, "snap") == 0)
+            snap_loc = o->value->loc;
         if (o->hi && od->kind != OPT_RANGE) {
             ls_error(x->d, o->hi->loc, "%s= takes one value, not a range", o->name);
             continue;
@@ -962,7 +964,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
     }
     if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
-        snap_value(x, &p, ls_kind_opt(k, "snap"));
+        snap_value(x, &p, ls_kind_opt(k, "snap"), snap_loc);
     if (st->arrow && p.pin[0] >= 0 && p.pin[0] == p.pin[1])
         ls_warning(x->d, st->from_loc, "same-node", "both ends of %s '%s' are the same node '%s'", k->name, st->name,
                    nl->nodes[p.pin[0]].name);

@@ -8,8 +8,8 @@
 #define LS_MAX_BLOCK_DEPTH 32
 #define LS_MAX_INSTANCES 1000000
 #define LS_MAX_NAME_BYTES 1024
-#define LS_MAX_NODES 1000000      /* after expansion */
-#define LS_MAX_PARTS 1000000      /* after expansion */
+#define LS_MAX_NODES 4000000      /* after expansion */
+#define LS_MAX_PARTS 4000000      /* after expansion */
 #define LS_MAX_VIA_CHAIN 32       /* via= links followed from one source */
 
 typedef struct ls_setting {

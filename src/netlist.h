@@ -42,7 +42,6 @@ typedef struct ls_part {
     bool has_value;
     double opt[LS_MAX_OPTS];
     bool has_opt[LS_MAX_OPTS];
-    ls_loc opt_loc[LS_MAX_OPTS];
     int ref;               /* via= part index, -1 */
     const char *ref_name;  /* as written, resolved after elaboration */
     const char *ref_scope;
