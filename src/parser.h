@@ -18,6 +18,9 @@ int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len,
  * Returns NULL after reporting an error. */
 ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect);
 
+/* The same for an expression starting at byte `offset` of a registered file. */
+ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect);
+
 /* Read a whole file; NULL (errno set) on failure.  Caller frees. */
 char *ls_read_file(const char *path, size_t *len);
 
