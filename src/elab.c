@@ -31,6 +31,7 @@ typedef struct elab {
     struct { int node; const ls_stmt *block; const char *base; ls_loc loc; } *locals;
     int nlocals, cap_locals;
     bool nodes_capped, parts_capped;  /* LS_MAX_NODES / LS_MAX_PARTS reported */
+    bool oom;                         /* out of memory reported */
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -48,6 +49,23 @@ static bool grow(void **v, int *cap, int need, size_t elem)
     *v = p;
     *cap = c;
     return true;
+}
+
+/* Out of memory in the elaborator is an error, reported once: a statement is
+ * never dropped silently. */
+static void out_of_memory(elab *x)
+{
+    if (!x->oom)
+        ls_error(x->d, LS_NOLOC, "out of memory while expanding the circuit");
+    x->oom = true;
+}
+
+static bool grow_x(elab *x, void **v, int *cap, int need, size_t elem)
+{
+    if (grow(v, cap, need, elem))
+        return true;
+    out_of_memory(x);
+    return false;
 }
 
 void ls_netlist_free(ls_netlist *nl)
@@ -114,12 +132,14 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         note_decl(x, o->loc, full);
         return -1;
     }
-    if (!grow((void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
+    if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
         return -1;
     e = nl->nents++;
     nl->ents[e] = (ls_entity){kind, index, loc};
-    if (ls_hash_put(&nl->names, full, e) != 0)
+    if (ls_hash_put(&nl->names, full, e) != 0) {
+        out_of_memory(x);
         return -1;
+    }
     return e;
 }
 
@@ -132,7 +152,7 @@ static int new_node(elab *x, const char *full, ls_loc loc, int depth)
         x->nodes_capped = true;
         return -1;
     }
-    if (!grow((void **)&nl->nodes, &nl->cap_nodes, nl->nnodes + 1, sizeof *nl->nodes))
+    if (!grow_x(x, (void **)&nl->nodes, &nl->cap_nodes, nl->nnodes + 1, sizeof *nl->nodes))
         return -1;
     int i = nl->nnodes++;
     nl->nodes[i] = (ls_node){.name = full, .loc = loc, .scope_depth = depth};
@@ -199,7 +219,7 @@ static const ls_param *param_ref(elab *x, const scope *s, const char *name)
 static int add_param(elab *x, const scope *s, const char *name, double v, ls_dims d, ls_loc loc)
 {
     ls_netlist *nl = x->nl;
-    if (!grow((void **)&nl->params, &nl->cap_params, nl->nparams + 1, sizeof *nl->params))
+    if (!grow_x(x, (void **)&nl->params, &nl->cap_params, nl->nparams + 1, sizeof *nl->params))
         return -1;
     int i = nl->nparams++;
     nl->params[i] = (ls_param){v, d, loc};
@@ -669,7 +689,7 @@ static void add_check(elab *x, const scope *s, const ls_stmt *st)
             return;
         }
     }
-    if (!grow((void **)&nl->checks, &nl->cap_checks, nl->nchecks + 1, sizeof *nl->checks))
+    if (!grow_x(x, (void **)&nl->checks, &nl->cap_checks, nl->nchecks + 1, sizeof *nl->checks))
         return;
     nl->checks[nl->nchecks++] = c;
 }
@@ -977,7 +997,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         x->parts_capped = true;
         return;
     }
-    if (!grow((void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
+    if (!grow_x(x, (void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
         return;
     nl->parts[nl->nparts] = p;
     if (declare(x, p.name, ENT_PART, nl->nparts, st->name_loc) >= 0)
@@ -1465,6 +1485,10 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
         elab_body(&x, &top, prog->stmts, prog->n);
     resolve_refs(&x);
     final_checks(&x);
+    /* names and syntax live in the arena: a failed allocation there may have
+     * left a name or a value out */
+    if (d->arena->failed)
+        out_of_memory(&x);
     ls_hash_free(&x.blocks);
     ls_hash_free(&x.warned);
     free(x.blockv);

@@ -51,6 +51,7 @@ struct ls_mod {
     /* fallback: an explicit factorization of A' */
     ls_solver *own;
     ls_csc own_a;
+    double *scratch;         /* max(n, r) values for the dependence probes, made with m */
 };
 
 bool ls_mod_singular(const ls_mod *m) { return m->singular; }
@@ -75,6 +76,7 @@ void ls_mod_free(ls_mod **pm)
     free(m->C);
     free(m->ipiv);
     free(m->x);
+    free(m->scratch);
     free(m->floating);
     free(m->float_row);
     free(m->island);
@@ -796,10 +798,17 @@ static ls_mod *mod_build(ls_op *op, int part, ls_mod_kind kind, bool pin, int *t
     if (rc != 0)
         goto fail;
     m->x = malloc((size_t)(m->n ? m->n : 1) * sizeof *m->x);
-    if (!m->x)
+    m->scratch = malloc((size_t)(m->n > m->r ? m->n : m->r ? m->r : 1) * sizeof *m->scratch);
+    if (!m->x || !m->scratch)
         goto fail;
-    if (!m->singular && modified_solution(m) != LS_SOLVER_OK)
-        m->singular = true;
+    if (!m->singular) {
+        /* out of memory is a failure of the call, never a "singular" answer */
+        int st = modified_solution(m);
+        if (st == LS_SOLVER_NOMEM)
+            goto fail;
+        if (st != LS_SOLVER_OK)
+            m->singular = true;
+    }
     ls_triplets_free(&dt);
     return m;
 fail:
@@ -835,9 +844,9 @@ bool ls_mod_depends_on_floating(ls_mod *m, int node)
         return false;
     if (m->own) {
         /* explicit: probe each pinned node's influence directly */
-        double *y = calloc((size_t)m->n, sizeof *y);
+        double *y = m->scratch;
         bool dep = false;
-        for (int i = 1; y && i < m->op->nl->nnodes && !dep; i++) {
+        for (int i = 1; i < m->op->nl->nnodes && !dep; i++) {
             if (!m->floating[i])
                 continue;
             memset(y, 0, (size_t)m->n * sizeof *y);
@@ -845,14 +854,11 @@ bool ls_mod_depends_on_floating(ls_mod *m, int node)
             ls_solver_solve(m->own, y, 0);
             dep = fabs(y[node - 1]) > DEPEND_TOL;
         }
-        free(y);
         return dep;
     }
     /* A'^-1 E_R = Z C^-1, so (A'^-1)_{node,rows[j]} = (C^-T Z^T e_node)_j */
     int r = m->r;
-    double *zr = malloc((size_t)(r ? r : 1) * sizeof *zr);
-    if (!zr)
-        return true;
+    double *zr = m->scratch;
     for (int j = 0; j < r; j++)
         zr[j] = m->Z[(size_t)j * m->n + (node - 1)];
     small_solve(m->C, r, m->ipiv, zr, 1);
@@ -860,7 +866,6 @@ bool ls_mod_depends_on_floating(ls_mod *m, int node)
     for (int i = 1; i < m->op->nl->nnodes && !dep; i++)
         if (m->floating[i] && m->float_row[i] >= 0)
             dep = fabs(zr[m->float_row[i]]) * m->op->g_pin > DEPEND_TOL;
-    free(zr);
     return dep;
 }
 

@@ -80,13 +80,17 @@ static bool is_word(const ls_token *t, const char *w)
     return t->kind == T_IDENT && strlen(w) == t->len && memcmp(t->text, w, t->len) == 0;
 }
 
-static void push(stmt_list *l, ls_stmt *s)
+/* Append a statement; out of memory marks the arena failed, which the
+ * elaborator turns into an error, so a statement is never lost silently. */
+static void push(parser *p, stmt_list *l, ls_stmt *s)
 {
     if (l->n == l->cap) {
         int cap = l->cap ? l->cap * 2 : 16;
         ls_stmt **v = realloc(l->v, (size_t)cap * sizeof *v);
-        if (!v)
+        if (!v) {
+            p->a->failed = 1;
             return;
+        }
         l->v = v;
         l->cap = cap;
     }
@@ -707,7 +711,7 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
                 memcpy(s->body, body.v, (size_t)body.n * sizeof *body.v);
             s->nbody = body.n;
             free(body.v);
-            push(out, s);
+            push(p, out, s);
             return;
         }
     } else if (is_word(&kw, "use")) {
@@ -732,7 +736,7 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
     }
     if (s && end_of_statement(p)) {
         s->text_loc = (ls_loc){kw.loc.file, kw.loc.start, p->tok.loc.start};
-        push(out, s);
+        push(p, out, s);
     }
     skip_line(p);
 }
