@@ -1,0 +1,310 @@
+/* loadstack.h — the public C interface of the loadstack library.
+ *
+ * Read a circuit written in the loadstack language (loadstack-language(5)),
+ * solve its DC operating point, and read node
+ * voltages, part results and the loading report of every port; run the sag,
+ * Thevenin and sensitivity analyses and the circuit's own checks.
+ *
+ * Lifecycle
+ *   ls_circuit *c = NULL;
+ *   ls_status st = ls_circuit_parse_file("chain.stack", NULL, 0, &c);
+ *   (walk the diagnostics with ls_circuit_diag_count / ls_circuit_diag)
+ *   if (st >= 0) st = ls_circuit_solve(c, NULL);
+ *   (read results; run analyses)
+ *   ls_circuit_free(&c);          (sets c to NULL; accepts NULL)
+ *
+ * Conventions
+ *   - Every function that can fail returns an ls_status: 0 ok, positive
+ *     "done, with warnings", negative an error.  Results come back through
+ *     out-parameters, which are left untouched on an error unless the
+ *     function says otherwise.
+ *   - Strings handed out (names, messages, file names) belong to the circuit
+ *     and stay valid until ls_circuit_free.  Arrays handed out (sag and
+ *     sensitivity entries) belong to the caller, who releases them with
+ *     ls_free.
+ *   - Numbers are SI units without prefix: volts, amperes, ohms, watts.  A
+ *     value with no finite answer is NaN when undefined (0/0) and +-INFINITY
+ *     when unbounded (no DC path, an ideal input).
+ *   - Handles share no state of the library's own: many circuits may be
+ *     built and solved side by side.  One handle must not be used by two
+ *     threads at once.
+ *
+ * This header holds types and prototypes only; it needs <stdio.h> for FILE. */
+#ifndef LOADSTACK_LOADSTACK_H
+#define LOADSTACK_LOADSTACK_H
+
+#include <stdio.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* ---- status ----------------------------------------------------------------------------- */
+
+typedef enum ls_status {
+    LS_OK = 0,
+    LS_WARNINGS = 1,          /* done; the diagnostics list holds warnings */
+    LS_E_ARGUMENT = -1,       /* a NULL handle or pointer, an index out of range, a value not allowed */
+    LS_E_NOMEM = -2,          /* out of memory; the handle stays valid but unusable for this call */
+    LS_E_IO = -3,             /* the circuit file cannot be read (diagnostic says why) */
+    LS_E_CIRCUIT = -4,        /* errors in the circuit text or a quantity (see the diagnostics) */
+    LS_E_UNSOLVABLE = -5,     /* singular, or a topology error; the reason is a diagnostic */
+    LS_E_NOT_FOUND = -6,      /* no node, part or port of that name */
+    LS_E_NOT_SOLVED = -7      /* a result was asked for before a successful ls_circuit_solve */
+} ls_status;
+
+/* A short English description of a status ("out of memory"); static storage. */
+const char *ls_status_str(ls_status st);
+
+/* The library version, "MAJOR.MINOR.PATCH"; static storage. */
+const char *ls_version(void);
+
+/* ---- circuits and diagnostics ----------------------------------------------------------------- */
+
+/* A parsed, elaborated circuit with its diagnostics and, once solved, its
+ * operating point.  Opaque; created by ls_circuit_parse_file/_string. */
+typedef struct ls_circuit ls_circuit;
+
+typedef enum ls_diag_level { LS_LEVEL_NOTE, LS_LEVEL_WARNING, LS_LEVEL_ERROR } ls_diag_level;
+
+/* One diagnostic.  The strings belong to the circuit. */
+typedef struct ls_diagnostic {
+    ls_diag_level level;
+    const char *file;         /* the file as named, "<string>"-like names for text; NULL: no place */
+    int line, column;         /* 1-based; column in characters; 0 when file is NULL */
+    const char *code;         /* a warning code ("ill-conditioned", ...), or NULL */
+    const char *message;      /* one sentence, no location prefix */
+} ls_diagnostic;
+
+/* Parse and elaborate the circuit file at `path`.
+ *   path   in: the .stack file; includes resolve relative to it.
+ *   sets   in: nsets strings "NAME=VALUE" overriding top-level params (as
+ *          --set does); may be NULL when nsets is 0.  Copied; the caller keeps them.
+ *   out    out: the new circuit, even on LS_E_CIRCUIT or LS_E_IO, so the caller
+ *          can walk the diagnostics; NULL on LS_E_NOMEM and LS_E_ARGUMENT.  The
+ *          caller frees it with ls_circuit_free.  A malformed setting (no '=')
+ *          is a diagnostic and LS_E_CIRCUIT.
+ * Returns LS_OK, LS_WARNINGS, LS_E_IO, LS_E_CIRCUIT, LS_E_ARGUMENT or LS_E_NOMEM. */
+ls_status ls_circuit_parse_file(const char *path, const char *const *sets, int nsets, ls_circuit **out);
+
+/* The same for circuit text held in memory.
+ *   name   in: the name used in diagnostics and as the base of relative
+ *          includes (the current directory when it has no directory part).
+ *   text   in: len bytes of circuit text (need not be NUL-terminated); copied. */
+ls_status ls_circuit_parse_string(const char *name, const char *text, size_t len, const char *const *sets,
+                                  int nsets, ls_circuit **out);
+
+/* Free the circuit and everything it handed out except ls_free arrays; sets
+ * *c to NULL.  Accepts NULL and a pointer to NULL. */
+void ls_circuit_free(ls_circuit **c);
+
+/* Number of diagnostics collected so far (parsing, solving and analyses add to
+ * one list, in the order they were found).  0 for NULL. */
+int ls_circuit_diag_count(const ls_circuit *c);
+
+/* Diagnostic i (0 <= i < ls_circuit_diag_count) into *out.  LS_E_ARGUMENT when out of range. */
+ls_status ls_circuit_diag(const ls_circuit *c, int i, ls_diagnostic *out);
+
+/* Print every diagnostic to f in the program's form: `file:line:col: error: message`,
+ * then the source line and a caret. */
+void ls_circuit_print_diags(const ls_circuit *c, FILE *f);
+
+/* The circuit's title, or "" when it has none. */
+const char *ls_circuit_title(const ls_circuit *c);
+
+/* ---- solving ------------------------------------------------------------------------------- */
+
+typedef enum ls_backend_choice {
+    LS_BACKEND_AUTO = 0,      /* dense LU for small systems, sparse above */
+    LS_BACKEND_DENSE,         /* LAPACK dense LU */
+    LS_BACKEND_SPARSE         /* SuiteSparse: Cholesky when symmetric positive definite, else LU */
+} ls_backend_choice;
+
+typedef struct ls_solve_options {
+    ls_backend_choice backend;
+    double min_ratio;         /* minimum zin/zout for a port's verdict; <= 0: the circuit's rule, else 10 */
+    double derate;            /* power-rating multiplier; <= 0 means 1 */
+} ls_solve_options;
+
+/* Solve the DC operating point.
+ *   opt    in: options, or NULL for the defaults (all zero).
+ * Returns LS_OK, LS_WARNINGS (e.g. ill-conditioned; see the diagnostics),
+ * LS_E_UNSOLVABLE, LS_E_CIRCUIT (the circuit had parse errors) or LS_E_NOMEM.
+ * Calling it again re-solves from scratch with the new options. */
+ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt);
+
+/* Facts about the last solve. */
+typedef struct ls_solve_info {
+    const char *method;       /* "dense-lu", "sparse-lu" or "sparse-cholesky" */
+    int unknowns;             /* size of the modified-nodal system */
+    double rcond;             /* reciprocal condition estimate */
+    double residual;          /* relative residual after refinement */
+    int iterations;           /* refinement steps */
+} ls_solve_info;
+
+ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out);
+
+/* ---- nodes ------------------------------------------------------------------------------------ */
+
+/* Number of nodes, ground included (node 0).  Available after a successful parse. */
+int ls_circuit_node_count(const ls_circuit *c);
+
+/* Name of node i as reported ("vin", "d1.x"), or NULL when out of range. */
+const char *ls_circuit_node_name(const ls_circuit *c, int i);
+
+/* Index of the node called name (a block pin resolves to its outer node), or -1. */
+int ls_circuit_node_index(const ls_circuit *c, const char *name);
+
+/* Voltage of node `name` against ground, volts.  LS_E_NOT_FOUND, LS_E_NOT_SOLVED. */
+ls_status ls_circuit_voltage(const ls_circuit *c, const char *name, double *volts);
+
+/* ---- parts --------------------------------------------------------------------------------- */
+
+/* One part's operating point.  Strings belong to the circuit. */
+typedef struct ls_part_info {
+    const char *name;         /* hierarchical: "d1.upper" */
+    const char *kind;         /* "resistor", "voltage", "opamp", "port", ... */
+    double value;             /* main value (ohm, V, A, gain ...); NaN when the kind has none */
+    double current;           /* A, FROM -> TO; an op-amp's output current */
+    double voltage;           /* V: the drop for passive parts, the rise for sources */
+    double power;             /* W absorbed; negative when the part delivers */
+    const char *limited;      /* op-amps: "none", "rail-high", "rail-low" or "current" (the
+                                 output limit in force); NULL for other kinds */
+} ls_part_info;
+
+/* Number of parts (ports included).  Available after a successful parse. */
+int ls_circuit_part_count(const ls_circuit *c);
+
+/* Index of the part called name, or -1. */
+int ls_circuit_part_index(const ls_circuit *c, const char *name);
+
+/* Part i (0 <= i < ls_circuit_part_count) into *out.  Before a solve the name,
+ * kind and value are filled and the results are NaN; the return is then
+ * LS_E_NOT_SOLVED. */
+ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out);
+
+/* ---- ports: the loading report --------------------------------------------------------------------- */
+
+typedef enum ls_port_verdict {
+    LS_VERDICT_OK,            /* ratio >= the minimum */
+    LS_VERDICT_MARGINAL,      /* ratio >= half the minimum */
+    LS_VERDICT_LOADING        /* below, or undefined */
+} ls_port_verdict;
+
+/* The loading report of one port (see "Ports" in the language).  With
+ * current_mode, open/loaded/sag are currents (A) and ratio is zout/zin. */
+typedef struct ls_port_info {
+    const char *name;
+    const char *from, *to;    /* the DRIVER and LOAD node names */
+    int current_mode;         /* 1 for mode=current */
+    double open;              /* V(DRIVER) with this port opened */
+    double loaded;            /* V(DRIVER) with everything connected */
+    double sag, sag_rel;      /* open - loaded (V), and as a fraction of open */
+    double zout, zin;         /* ohm, seen at DRIVER and at LOAD with the port open */
+    double ratio;             /* zin / zout */
+    double current;           /* A, DRIVER -> LOAD */
+    ls_port_verdict verdict;
+    const char *note;         /* why a field is NaN, or NULL */
+} ls_port_info;
+
+/* Number of ports. */
+int ls_circuit_port_count(const ls_circuit *c);
+
+/* Port i (0 <= i < ls_circuit_port_count, in the order of the circuit) into
+ * *out.  Computed on first request (one low-rank solve), then cached. */
+ls_status ls_circuit_port(ls_circuit *c, int i, ls_port_info *out);
+
+/* The port called name into *out. */
+ls_status ls_circuit_port_by_name(ls_circuit *c, const char *name, ls_port_info *out);
+
+/* ---- quantities and checks ------------------------------------------------------------------ */
+
+/* Value of a quantity written as in an `expect`: "adc_in", "r_top.power",
+ * "p_adc.ratio", "u1_out - ref".  Errors in the text become diagnostics
+ * (LS_E_CIRCUIT).  *value may be NaN or infinite (see Conventions). */
+ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value);
+
+/* One evaluated expect (or ratio rule row).  Strings belong to the circuit. */
+typedef struct ls_check_info {
+    const char *text;         /* "expect adc_in < 3.3 V", or "rule ratio >= 10 (port p1)" */
+    const char *file;         /* where it was written */
+    int line;
+    const char *instance;     /* the block instance it was checked in, or NULL */
+    double value;             /* the left side */
+    double lo, hi;            /* the accepted range (-inf/+inf when open) */
+    int pass;                 /* 1 passed, 0 failed */
+    const char *reason;       /* why it failed when the value is undefined, or NULL */
+} ls_check_info;
+
+/* Evaluate every expect of the circuit and, with with_rule, the ratio rule on
+ * every port (as `loadstack check` does when the circuit has a rule).
+ *   checks out: array of *n entries, the caller frees it with ls_free.
+ *   failed out (may be NULL): how many failed.
+ * Returns LS_OK, LS_E_NOT_SOLVED or LS_E_NOMEM. */
+ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks, int *n, int *failed);
+
+/* ---- analyses ----------------------------------------------------------------------------- */
+
+/* Sag: what each port or part does to a node.  Every part and port is removed
+ * in turn (a port opened, a resistor opened, a source set to zero) and the
+ * node's voltage without it recorded. */
+typedef struct ls_sag_entry {
+    const char *name;         /* part or port name */
+    int is_port;
+    double without;           /* V at the node without it; NaN when the circuit is then unsolvable */
+    double delta;             /* without - voltage; NaN likewise */
+} ls_sag_entry;
+
+/* Sag analysis at node `node`.
+ *   voltage out (may be NULL): the node's loaded voltage, V.
+ *   entries out: *n entries sorted by |delta|, largest first (ties in circuit
+ *          order), unsolvable ones last; the caller frees the array with ls_free.
+ * Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED or LS_E_NOMEM. */
+ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sag_entry **entries, int *n);
+
+/* The Thevenin / Norton equivalent seen at a node against ground. */
+typedef struct ls_thevenin_info {
+    double vth;               /* V, open-circuit voltage */
+    double rth;               /* ohm; +inf when nothing ties the node to ground */
+    double norton;            /* A, short-circuit current node -> ground (vth / rth) */
+} ls_thevenin_info;
+
+ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info *out);
+
+/* Sensitivity of a quantity to one part's main value (adjoint method). */
+typedef struct ls_sens_entry {
+    const char *part;
+    double nominal;           /* the part's main value */
+    double derivative;        /* dQ/dp, in Q's unit per the part's unit */
+    double normalized;        /* (p/Q) dQ/dp; NaN when Q = 0 */
+} ls_sens_entry;
+
+/* Sensitivities of `quantity` (as in ls_circuit_eval) to every part with a
+ * main value.
+ *   value out (may be NULL): the quantity's value.
+ *   entries out: *n entries sorted by |normalized|, largest first; caller
+ *          frees with ls_free.
+ * Returns LS_OK, LS_E_CIRCUIT (bad quantity, see the diagnostics),
+ * LS_E_NOT_SOLVED or LS_E_NOMEM. */
+ls_status ls_circuit_sens(ls_circuit *c, const char *quantity, double *value, ls_sens_entry **entries, int *n);
+
+/* Change part `name`'s main value (ohm for a resistor, V for a voltage
+ * source, ...) and re-solve with the same structure; port reports are
+ * recomputed on the next request.  Returns as ls_circuit_solve, or
+ * LS_E_NOT_FOUND, LS_E_ARGUMENT (the part has no main value, or the value is
+ * not allowed, e.g. a resistance <= 0). */
+ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value);
+
+/* Sweeps and tolerance studies: the program's `sweep` and `tol` commands have
+ * no library form yet.  A caller sweeps a part's value with
+ * ls_circuit_set_value (one refactorization per point, the structure kept),
+ * and a param by parsing again with a "NAME=VALUE" setting per point. */
+
+/* Release an array returned by this library (NULL is fine). */
+void ls_free(void *p);
+
+#ifdef __cplusplus
+}
+#endif
+
+#endif

@@ -1,0 +1,704 @@
+/* api.c — the public C interface (include/loadstack/loadstack.h) over the
+ * internal stages: parser, elaborator, operating point, low-rank port and sag
+ * analyses, Thevenin, adjoint sensitivities.  Internal results are copied
+ * into the public structs here, and internal exit codes become ls_status. */
+#include "loadstack/loadstack.h"
+
+#include <errno.h>
+#include <float.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "analysis.h"
+#include "elab.h"
+#include "parser.h"
+#include "report.h"
+#include "sens.h"
+
+#ifndef LS_VERSION
+#define LS_VERSION "0.0.0"
+#endif
+
+#define MAX_SETS 256
+
+struct ls_circuit {
+    ls_arena arena;            /* names, syntax, diagnostics */
+    ls_diags diags;
+    ls_program prog;
+    ls_netlist nl;
+    bool elaborated;           /* nl holds a circuit without errors */
+    ls_op op;
+    bool have_op;              /* op holds allocations (freed on re-solve) */
+    bool solved;               /* op holds a valid operating point */
+    int *ports;                /* part index of each port, nports of them */
+    int nports;
+};
+
+/* ---- small helpers ----------------------------------------------------------------------- */
+
+const char *ls_status_str(ls_status st)
+{
+    switch (st) {
+    case LS_OK: return "ok";
+    case LS_WARNINGS: return "done, with warnings";
+    case LS_E_ARGUMENT: return "invalid argument";
+    case LS_E_NOMEM: return "out of memory";
+    case LS_E_IO: return "the circuit file cannot be read";
+    case LS_E_CIRCUIT: return "errors in the circuit";
+    case LS_E_UNSOLVABLE: return "the circuit cannot be solved";
+    case LS_E_NOT_FOUND: return "no such node, part or port";
+    case LS_E_NOT_SOLVED: return "the circuit is not solved";
+    }
+    return "unknown status";
+}
+
+const char *ls_version(void) { return LS_VERSION; }
+
+void ls_free(void *p) { free(p); }
+
+/* LS_E_NOMEM once the arena failed, else ok (with warnings when the list
+ * gained some since `warnings_before`). */
+static ls_status ok_status(const ls_circuit *c, int warnings_before)
+{
+    if (c->arena.failed)
+        return LS_E_NOMEM;
+    return c->diags.warnings > warnings_before ? LS_WARNINGS : LS_OK;
+}
+
+/* The circuit is solved and usable for results: LS_OK, else the reason. */
+static ls_status need_solved(const ls_circuit *c)
+{
+    if (!c)
+        return LS_E_ARGUMENT;
+    return c->solved ? LS_OK : LS_E_NOT_SOLVED;
+}
+
+/* ---- parsing ---------------------------------------------------------------------------- */
+
+/* Parse the "NAME=VALUE" overrides into sets (entries in the arena).
+ * Returns 0, or -1 after reporting an error. */
+static int parse_sets(ls_circuit *c, const char *const *text, int n, ls_setting *sets)
+{
+    for (int i = 0; i < n; i++) {
+        const char *eq = text[i] ? strchr(text[i], '=') : NULL;
+        if (!eq || eq == text[i]) {
+            ls_error(&c->diags, LS_NOLOC, "a setting takes NAME=VALUE, got '%s'", text[i] ? text[i] : "(null)");
+            return -1;
+        }
+        sets[i].name = ls_arena_strndup(&c->arena, text[i], (size_t)(eq - text[i]));
+        sets[i].value = ls_parse_expr_string(&c->diags, "--set", eq + 1, false);
+        sets[i].loc = (ls_loc){c->diags.nfiles - 1, 0, (unsigned)strlen(eq + 1)};
+        sets[i].used = false;
+        if (!sets[i].name || !sets[i].value)
+            return -1;
+    }
+    return 0;
+}
+
+/* Record the part index of every port, in circuit order.  0 or -1 (no memory). */
+static int index_ports(ls_circuit *c)
+{
+    c->ports = malloc((size_t)(c->nl.nparts ? c->nl.nparts : 1) * sizeof *c->ports);
+    if (!c->ports)
+        return -1;
+    for (int i = 0; i < c->nl.nparts; i++)
+        if (c->nl.parts[i].kind->is_port)
+            c->ports[c->nports++] = i;
+    return 0;
+}
+
+/* Elaborate the parsed program with the settings; the status of the parse. */
+static ls_status elaborate(ls_circuit *c, const char *const *sets, int nsets)
+{
+    ls_setting *st = calloc((size_t)(nsets > 0 ? nsets : 1), sizeof *st);
+    if (!st)
+        return LS_E_NOMEM;
+    int bad = parse_sets(c, sets, nsets, st);
+    if (bad == 0)
+        bad = ls_elaborate(&c->prog, &c->diags, st, nsets, &c->nl);
+    free(st);
+    if (c->arena.failed)
+        return LS_E_NOMEM;
+    if (bad)
+        return LS_E_CIRCUIT;
+    c->elaborated = true;
+    if (index_ports(c) != 0)
+        return LS_E_NOMEM;
+    return ok_status(c, 0);
+}
+
+/* A fresh, empty circuit, or NULL when out of memory. */
+static ls_circuit *circuit_new(void)
+{
+    ls_circuit *c = calloc(1, sizeof *c);
+    if (!c)
+        return NULL;
+    ls_arena_init(&c->arena);
+    ls_diags_init(&c->diags, &c->arena);
+    return c;
+}
+
+/* Both parse entry points: check the arguments, read the file `name` (when
+ * text is NULL) or take text, parse, elaborate, hand the circuit out. */
+static ls_status parse_any(const char *name, const char *text, size_t len, const char *const *sets, int nsets,
+                           ls_circuit **out)
+{
+    if (!out)
+        return LS_E_ARGUMENT;
+    *out = NULL;
+    if (!name || nsets < 0 || nsets > MAX_SETS || (nsets > 0 && !sets))
+        return LS_E_ARGUMENT;
+    ls_circuit *c = circuit_new();
+    if (!c)
+        return LS_E_NOMEM;
+    ls_status st;
+    if (!text) {
+        size_t n = 0;
+        char *body = ls_read_file(name, &n);
+        if (!body) {
+            ls_error(&c->diags, LS_NOLOC, "cannot read '%s': %s", name, strerror(errno));
+            *out = c;
+            return c->arena.failed ? LS_E_NOMEM : LS_E_IO;
+        }
+        st = ls_parse_string(&c->diags, name, body, n, &c->prog) ? LS_E_CIRCUIT : LS_OK;
+        free(body);
+    } else {
+        st = ls_parse_string(&c->diags, name, text, len, &c->prog) ? LS_E_CIRCUIT : LS_OK;
+    }
+    if (c->arena.failed)
+        st = LS_E_NOMEM;
+    if (st == LS_OK)
+        st = elaborate(c, sets, nsets);
+    *out = c;
+    return st;
+}
+
+ls_status ls_circuit_parse_file(const char *path, const char *const *sets, int nsets, ls_circuit **out)
+{
+    return parse_any(path, NULL, 0, sets, nsets, out);
+}
+
+ls_status ls_circuit_parse_string(const char *name, const char *text, size_t len, const char *const *sets,
+                                  int nsets, ls_circuit **out)
+{
+    if (!text) {
+        if (out)
+            *out = NULL;
+        return LS_E_ARGUMENT;
+    }
+    return parse_any(name, text, len, sets, nsets, out);
+}
+
+void ls_circuit_free(ls_circuit **pc)
+{
+    if (!pc || !*pc)
+        return;
+    ls_circuit *c = *pc;
+    if (c->have_op)
+        ls_op_free(&c->op);
+    free(c->ports);
+    ls_netlist_free(&c->nl);
+    ls_diags_free(&c->diags);
+    ls_arena_free(&c->arena);
+    free(c);
+    *pc = NULL;
+}
+
+/* ---- diagnostics ------------------------------------------------------------------------- */
+
+int ls_circuit_diag_count(const ls_circuit *c)
+{
+    if (!c)
+        return 0;
+    return c->diags.n;
+}
+
+ls_status ls_circuit_diag(const ls_circuit *c, int i, ls_diagnostic *out)
+{
+    if (!c || !out || i < 0 || i >= c->diags.n)
+        return LS_E_ARGUMENT;
+    const ls_diag *g = &c->diags.items[i];
+    static const ls_diag_level level[] = {LS_LEVEL_NOTE, LS_LEVEL_WARNING, LS_LEVEL_ERROR};
+    memset(out, 0, sizeof *out);
+    out->level = level[g->sev];
+    out->code = g->code;
+    out->message = g->msg;
+    if (g->loc.file >= 0 && g->loc.file < c->diags.nfiles) {
+        out->file = c->diags.files[g->loc.file].path;
+        ls_loc_linecol(&c->diags, g->loc.file, g->loc.start, &out->line, &out->column);
+    }
+    return LS_OK;
+}
+
+void ls_circuit_print_diags(const ls_circuit *c, FILE *f)
+{
+    if (c && f)
+        ls_diags_print(&c->diags, f);
+}
+
+const char *ls_circuit_title(const ls_circuit *c)
+{
+    return c && c->elaborated && c->nl.title ? c->nl.title : "";
+}
+
+/* ---- solving ----------------------------------------------------------------------------- */
+
+ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
+{
+    if (!c)
+        return LS_E_ARGUMENT;
+    if (!c->elaborated)
+        return LS_E_CIRCUIT;
+    static const ls_solver_choice choice[] = {LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE};
+    ls_options o = {.solver = LS_CHOOSE_AUTO, .min_ratio = 0, .derate = 1};
+    if (opt) {
+        if ((int)opt->backend < 0 || opt->backend > LS_BACKEND_SPARSE)
+            return LS_E_ARGUMENT;
+        o.solver = choice[opt->backend];
+        o.min_ratio = opt->min_ratio > 0 ? opt->min_ratio : 0;
+        o.derate = opt->derate > 0 ? opt->derate : 1;
+    }
+    if (c->have_op)
+        ls_op_free(&c->op);
+    c->solved = false;
+    int w0 = c->diags.warnings;
+    c->have_op = true;
+    int code = ls_op_solve(&c->op, &c->nl, &o);
+    if (c->arena.failed)
+        return LS_E_NOMEM;
+    if (code != LS_EXIT_OK)
+        return LS_E_UNSOLVABLE;
+    c->solved = true;
+    return ok_status(c, w0);
+}
+
+ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!out)
+        return LS_E_ARGUMENT;
+    static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky"};
+    int m = c->op.method == LS_METHOD_SPARSE_LU ? 1 : c->op.method == LS_METHOD_SPARSE_CHOLESKY ? 2 : 0;
+    out->method = method[m];
+    out->unknowns = c->op.mna.n;
+    out->rcond = c->op.rcond;
+    out->residual = c->op.residual;
+    out->iterations = c->op.iterations;
+    return LS_OK;
+}
+
+/* ---- nodes and parts ------------------------------------------------------------------------- */
+
+int ls_circuit_node_count(const ls_circuit *c) { return c && c->elaborated ? c->nl.nnodes : 0; }
+
+const char *ls_circuit_node_name(const ls_circuit *c, int i)
+{
+    if (!c || !c->elaborated || i < 0 || i >= c->nl.nnodes)
+        return NULL;
+    return c->nl.nodes[i].name;
+}
+
+int ls_circuit_node_index(const ls_circuit *c, const char *name)
+{
+    if (!c || !c->elaborated || !name)
+        return -1;
+    return ls_netlist_find_node(&c->nl, name);
+}
+
+ls_status ls_circuit_voltage(const ls_circuit *c, const char *name, double *volts)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!volts || !name)
+        return LS_E_ARGUMENT;
+    int node = ls_netlist_find_node(&c->nl, name);
+    if (node < 0)
+        return LS_E_NOT_FOUND;
+    *volts = c->op.v[node];
+    return LS_OK;
+}
+
+int ls_circuit_part_count(const ls_circuit *c) { return c && c->elaborated ? c->nl.nparts : 0; }
+
+int ls_circuit_part_index(const ls_circuit *c, const char *name)
+{
+    if (!c || !c->elaborated || !name)
+        return -1;
+    return ls_netlist_find_part(&c->nl, name);
+}
+
+/* The word for an op-amp's output limit in force (as the JSON report has it). */
+static const char *limit_word(const ls_part *p)
+{
+    switch (p->state) {
+    case LS_LIM_RAIL_HIGH: return "rail-high";
+    case LS_LIM_RAIL_LOW: return "rail-low";
+    case LS_LIM_CURRENT_SOURCE:
+    case LS_LIM_CURRENT_SINK: return "current";
+    default: return "none";
+    }
+}
+
+ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out)
+{
+    if (!c || !out || !c->elaborated || i < 0 || i >= c->nl.nparts)
+        return LS_E_ARGUMENT;
+    const ls_part *p = &c->nl.parts[i];
+    out->name = p->name;
+    out->kind = p->kind->name;
+    out->value = p->has_value ? p->value : NAN;
+    out->current = out->voltage = out->power = NAN;
+    out->limited = NULL;
+    if (!c->solved)
+        return LS_E_NOT_SOLVED;
+    if (p->kind->is_opamp)
+        out->limited = limit_word(p);
+    out->current = c->op.ipart[i];
+    out->voltage = c->op.vpart[i];
+    out->power = c->op.ppart[i];
+    return LS_OK;
+}
+
+/* ---- ports ----------------------------------------------------------------------------------- */
+
+int ls_circuit_port_count(const ls_circuit *c) { return c && c->elaborated ? c->nports : 0; }
+
+/* The port report caches a result whose update ran out of memory (NaN fields,
+ * note "out of memory").  Forget such results, so a later request computes
+ * them again; true when there was one. */
+static bool forget_oom_ports(ls_circuit *c)
+{
+    bool any = false;
+    for (int i = 0; i < c->nports; i++) {
+        ls_port_result *r = &c->op.port[c->ports[i]];
+        if (r->done && r->note && strcmp(r->note, "out of memory") == 0) {
+            r->done = false;
+            any = true;
+        }
+    }
+    return any;
+}
+
+/* Copy the loading report of port part index p into *out. */
+static ls_status port_info(ls_circuit *c, int p, ls_port_info *out)
+{
+    const ls_part *part = &c->nl.parts[p];
+    const ls_port_result *r = ls_op_port(&c->op, p);
+    if (!r || forget_oom_ports(c))
+        return LS_E_NOMEM;
+    static const ls_port_verdict verdict[] = {LS_VERDICT_OK, LS_VERDICT_MARGINAL, LS_VERDICT_LOADING};
+    out->name = part->name;
+    out->from = c->nl.nodes[part->pin[0]].name;
+    out->to = c->nl.nodes[part->pin[1]].name;
+    out->current_mode = r->current_mode;
+    out->open = r->open;
+    out->loaded = r->loaded;
+    out->sag = r->sag;
+    out->sag_rel = r->sag_rel;
+    out->zout = r->zout;
+    out->zin = r->zin;
+    out->ratio = r->ratio;
+    out->current = r->current;
+    out->verdict = verdict[r->verdict];
+    out->note = r->note;
+    return c->arena.failed ? LS_E_NOMEM : LS_OK;
+}
+
+ls_status ls_circuit_port(ls_circuit *c, int i, ls_port_info *out)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!out || i < 0 || i >= c->nports)
+        return LS_E_ARGUMENT;
+    return port_info(c, c->ports[i], out);
+}
+
+ls_status ls_circuit_port_by_name(ls_circuit *c, const char *name, ls_port_info *out)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!out || !name)
+        return LS_E_ARGUMENT;
+    int p = ls_netlist_find_part(&c->nl, name);
+    if (p < 0 || !c->nl.parts[p].kind->is_port)
+        return LS_E_NOT_FOUND;
+    return port_info(c, p, out);
+}
+
+/* ---- quantities and checks ------------------------------------------------------------------- */
+
+/* Parse and bind a quantity; NULL after reporting an error. */
+static ls_q *bind_quantity(ls_circuit *c, const char *text)
+{
+    ls_expr *e = ls_parse_expr_string(&c->diags, "quantity", text, true);
+    return e ? ls_bind_quantity(&c->nl, e) : NULL;
+}
+
+ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!quantity || !value)
+        return LS_E_ARGUMENT;
+    ls_q *q = bind_quantity(c, quantity);
+    if (!q)
+        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+    double v = ls_q_eval(&c->op, q);
+    if (forget_oom_ports(c))
+        return LS_E_NOMEM;
+    *value = v;
+    return LS_OK;
+}
+
+/* 1-based line of a location, 0 for none. */
+static int loc_line(const ls_diags *d, ls_loc l)
+{
+    int line = 0, col = 0;
+    if (l.file >= 0)
+        ls_loc_linecol(d, l.file, l.start, &line, &col);
+    return line;
+}
+
+ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks, int *n, int *failed)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!checks || !n)
+        return LS_E_ARGUMENT;
+    ls_checks rows;
+    if (ls_checks_run(&c->op, with_rule != 0, &rows) != 0)
+        return LS_E_NOMEM;
+    ls_check_info *out = calloc((size_t)(rows.n ? rows.n : 1), sizeof *out);
+    if (!out || c->arena.failed || forget_oom_ports(c)) {
+        free(out);
+        ls_checks_free(&rows);
+        return LS_E_NOMEM;
+    }
+    for (int i = 0; i < rows.n; i++) {
+        const ls_check_row *r = &rows.rows[i];
+        out[i].text = r->text;
+        out[i].file = r->loc.file >= 0 ? c->diags.files[r->loc.file].path : NULL;
+        out[i].line = loc_line(&c->diags, r->loc);
+        out[i].instance = r->instance;
+        out[i].value = r->r.value;
+        out[i].lo = r->r.lo;
+        out[i].hi = r->r.hi;
+        out[i].pass = r->r.pass;
+        out[i].reason = r->r.reason;
+    }
+    *checks = out;
+    *n = rows.n;
+    if (failed)
+        *failed = rows.failed;
+    ls_checks_free(&rows);
+    return LS_OK;
+}
+
+/* ---- sag -------------------------------------------------------------------------------------- */
+
+/* One removal while sorting: the part index breaks ties, as in the program. */
+typedef struct sag_row {
+    int part;
+    double without, delta;
+} sag_row;
+
+/* Order by |delta|, largest first; undefined ones last; ties in part order. */
+static int by_delta(const void *a, const void *b)
+{
+    const sag_row *x = a, *y = b;
+    bool nx = isnan(x->delta), ny = isnan(y->delta);
+    if (nx != ny)
+        return nx ? 1 : -1;
+    double ax = nx ? 0 : fabs(x->delta), ay = ny ? 0 : fabs(y->delta);
+    if (ax != ay)
+        return ax < ay ? 1 : -1;
+    return x->part - y->part;
+}
+
+/* The rounding noise of a low-rank update, V: 64 ulps of the largest voltage
+ * of the circuit (node voltages and source values), as the sag command has it. */
+static double update_noise(const ls_circuit *c)
+{
+    double vmax = 0;
+    for (int i = 0; i < c->nl.nnodes; i++)
+        vmax = fmax(vmax, fabs(c->op.v[i]));
+    for (int i = 0; i < c->nl.nparts; i++)
+        if (strcmp(c->nl.parts[i].kind->name, "voltage") == 0)
+            vmax = fmax(vmax, fabs(c->nl.parts[i].value));
+    return 64 * DBL_EPSILON * vmax;
+}
+
+/* Voltage of `node` with part i removed, NaN when that leaves it undefined.
+ * Returns -1 when out of memory. */
+static int voltage_without(ls_circuit *c, int i, int node, double *v)
+{
+    *v = NAN;
+    ls_mod *m = ls_mod_new(&c->op, i, MOD_REMOVE_PART);
+    if (!m)
+        return -1;
+    if (!ls_mod_singular(m)) {
+        if (node == 0)
+            *v = 0;
+        else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
+            *v = ls_mod_x(m)[node - 1];
+    }
+    ls_mod_free(&m);
+    return 0;
+}
+
+ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sag_entry **entries, int *n)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!node || !entries || !n)
+        return LS_E_ARGUMENT;
+    int k = ls_netlist_find_node(&c->nl, node);
+    if (k < 0)
+        return LS_E_NOT_FOUND;
+    int np = c->nl.nparts;
+    ls_sag_entry *e = calloc((size_t)(np ? np : 1), sizeof *e);
+    sag_row *rows = calloc((size_t)(np ? np : 1), sizeof *rows);
+    if (!e || !rows) {
+        free(e);
+        free(rows);
+        return LS_E_NOMEM;
+    }
+    double v0 = c->op.v[k], noise = update_noise(c);
+    for (int i = 0; i < np; i++) {
+        sag_row *r = &rows[i];
+        r->part = i;
+        if (voltage_without(c, i, k, &r->without) != 0) {
+            free(e);
+            free(rows);
+            return LS_E_NOMEM;
+        }
+        if (fabs(r->without) < noise)
+            r->without = 0;
+        r->delta = r->without - v0;
+        if (fabs(r->delta) < noise)
+            r->delta = 0;
+    }
+    qsort(rows, (size_t)np, sizeof *rows, by_delta);
+    for (int i = 0; i < np; i++) {
+        const ls_part *p = &c->nl.parts[rows[i].part];
+        e[i] = (ls_sag_entry){p->name, p->kind->is_port, rows[i].without, rows[i].delta};
+    }
+    free(rows);
+    if (voltage)
+        *voltage = v0;
+    *entries = e;
+    *n = np;
+    return LS_OK;
+}
+
+/* ---- Thevenin and sensitivity ------------------------------------------------------------------ */
+
+ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info *out)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!node || !out)
+        return LS_E_ARGUMENT;
+    int k = ls_netlist_find_node(&c->nl, node);
+    if (k < 0)
+        return LS_E_NOT_FOUND;
+    /* rth = (A^-1)_kk of the solved system: one refined solve for column k */
+    double vth = c->op.v[k], rth = 0;
+    if (k > 0) {
+        double *y = calloc((size_t)c->op.mna.n, sizeof *y);
+        if (!y)
+            return LS_E_NOMEM;
+        y[k - 1] = 1;
+        int sst = ls_op_solve_vec(&c->op, y, 0);
+        rth = y[k - 1];
+        free(y);
+        if (sst != LS_SOLVER_OK)
+            return sst == LS_SOLVER_NOMEM ? LS_E_NOMEM : LS_E_UNSOLVABLE;
+    }
+    out->vth = vth;
+    out->rth = rth;
+    out->norton = rth == 0 ? (vth == 0 ? NAN : copysign(INFINITY, vth)) : vth / rth;
+    return LS_OK;
+}
+
+ls_status ls_circuit_sens(ls_circuit *c, const char *quantity, double *value, ls_sens_entry **entries, int *n)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!quantity || !entries || !n)
+        return LS_E_ARGUMENT;
+    ls_q *q = bind_quantity(c, quantity);
+    if (!q)
+        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+    ls_sens_item *items = NULL;
+    double v = NAN;
+    int k = ls_sens(&c->op, q, &v, &items);
+    if (k < 0)
+        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+    ls_sens_entry *e = calloc((size_t)(k ? k : 1), sizeof *e);
+    if (!e) {
+        free(items);
+        return LS_E_NOMEM;
+    }
+    for (int i = 0; i < k; i++) {
+        e[i].part = c->nl.parts[items[i].part].name;
+        e[i].nominal = items[i].nominal;
+        e[i].derivative = items[i].derivative;
+        e[i].normalized = items[i].normalized;
+    }
+    free(items);
+    if (value)
+        *value = v;
+    *entries = e;
+    *n = k;
+    return LS_OK;
+}
+
+/* ---- changing a value ----------------------------------------------------------------------- */
+
+/* The flags (OPTF_*) that limit a part's main value. */
+static unsigned main_flags(const ls_part *p)
+{
+    const ls_kind *k = p->kind;
+    if (k->value_slot)
+        return k->value_flags;
+    for (int i = 0; i < k->nopts; i++)
+        if (k->opts[i].flags & OPTF_MAIN)
+            return k->opts[i].flags;
+    return 0;
+}
+
+ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!part)
+        return LS_E_ARGUMENT;
+    int i = ls_netlist_find_part(&c->nl, part);
+    if (i < 0)
+        return LS_E_NOT_FOUND;
+    ls_part *p = &c->nl.parts[i];
+    unsigned f = main_flags(p);
+    if (!p->has_value || p->kind->is_port || !isfinite(value) || ((f & OPTF_POSITIVE) && !(value > 0)) ||
+        ((f & OPTF_NONNEG) && !(value >= 0)) || ((f & OPTF_FRACTION) && !(value >= 0 && value <= 1)))
+        return LS_E_ARGUMENT;
+    p->value = value;
+    int w0 = c->diags.warnings;
+    c->solved = false;
+    if (ls_op_resolve(&c->op) != LS_EXIT_OK)
+        return c->arena.failed ? LS_E_NOMEM : LS_E_UNSOLVABLE;
+    c->solved = true;
+    return ok_status(c, w0);
+}
