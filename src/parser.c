@@ -299,12 +299,30 @@ static ls_expr *parse_unary(parser *p)
     return e;
 }
 
-/* product -> unary {('*' | '/') unary} */
-static ls_expr *parse_product(parser *p)
+/* The left-associative binary levels, loosest first:
+ *   sum      -> parallel {('+' | '-') parallel}
+ *   parallel -> product {'||' product}
+ *   product  -> unary {('*' | '/') unary}
+ * Every chained operator counts towards the depth limit, because the
+ * evaluators recurse on the tree it builds. */
+enum { LEVEL_SUM, LEVEL_PARALLEL, LEVEL_PRODUCT, LEVEL_UNARY };
+
+static bool level_op(int level, ls_tok k)
 {
-    ls_expr *a = parse_unary(p);
+    switch (level) {
+    case LEVEL_SUM: return k == T_PLUS || k == T_MINUS;
+    case LEVEL_PARALLEL: return k == T_PARALLEL;
+    default: return k == T_STAR || k == T_SLASH;
+    }
+}
+
+static ls_expr *parse_level(parser *p, int level)
+{
+    if (level == LEVEL_UNARY)
+        return parse_unary(p);
+    ls_expr *a = parse_level(p, level + 1);
     int chained = 0;
-    while (a && (p->tok.kind == T_STAR || p->tok.kind == T_SLASH)) {
+    while (a && level_op(level, p->tok.kind)) {
         chained++;
         if (!enter(p)) {
             a = NULL;
@@ -313,55 +331,22 @@ static ls_expr *parse_product(parser *p)
         int op = p->tok.kind;
         ls_loc l = p->tok.loc;
         advance(p);
-        ls_expr *b = parse_unary(p);
+        ls_expr *b = parse_level(p, level + 1);
         a = b ? binary(p, op, l, a, b) : NULL;
     }
     p->expr_depth -= chained;
     return a;
 }
 
-/* parallel -> product {'||' product} */
-static ls_expr *parse_parallel(parser *p)
-{
-    ls_expr *a = parse_product(p);
-    int chained = 0;
-    while (a && p->tok.kind == T_PARALLEL) {
-        chained++;
-        if (!enter(p)) {
-            a = NULL;
-            break;
-        }
-        ls_loc l = p->tok.loc;
-        advance(p);
-        ls_expr *b = parse_product(p);
-        a = b ? binary(p, T_PARALLEL, l, a, b) : NULL;
-    }
-    p->expr_depth -= chained;
-    return a;
-}
-
-/* sum -> parallel {('+' | '-') parallel} */
+/* sum: a whole expression */
 static ls_expr *parse_sum(parser *p)
 {
     if (!enter(p)) {
         p->expr_depth--;
         return NULL;
     }
-    ls_expr *a = parse_parallel(p);
-    int chained = 0;
-    while (a && (p->tok.kind == T_PLUS || p->tok.kind == T_MINUS)) {
-        chained++;
-        if (!enter(p)) {
-            a = NULL;
-            break;
-        }
-        int op = p->tok.kind;
-        ls_loc l = p->tok.loc;
-        advance(p);
-        ls_expr *b = parse_parallel(p);
-        a = b ? binary(p, op, l, a, b) : NULL;
-    }
-    p->expr_depth -= chained + 1;
+    ls_expr *a = parse_level(p, LEVEL_SUM);
+    p->expr_depth--;
     return a;
 }
 
