@@ -600,7 +600,7 @@ static int mod_solve_once(ls_mod *m, double *y, double *orig)
     return st;
 }
 
-static double mod_residual(const ls_mod *m, const double *x, const double *rhs, double *r);
+static double mod_residual(const ls_mod *m, const double *x, const double *rhs, double *r, int transpose);
 
 /* y <- A'^-1 y in place (see analysis.h), refined against A'. */
 int ls_mod_solve(ls_mod *m, double *y)
@@ -621,7 +621,7 @@ int ls_mod_solve(ls_mod *m, double *y)
      * of the size of the base solution */
     double last = INFINITY;
     for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
-        double rel = mod_residual(m, y, rhs, r);
+        double rel = mod_residual(m, y, rhs, r, 0);
         if (rel <= REFINE_TOL || !(rel < 0.5 * last))
             break;
         last = rel;
@@ -679,18 +679,6 @@ static int mod_solve_t_once(ls_mod *m, double *y)
     return LS_SOLVER_OK;
 }
 
-/* r <- rhs - A'^T x with A'^T = A^T + D^T E_R^T; returns the relative residual. */
-static double mod_residual_t(const ls_mod *m, const double *x, const double *rhs, double *r)
-{
-    ls_csc_matvec(&m->op->mna.a, x, r, 1);
-    for (int i = 0; i < m->r; i++)
-        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++)
-            r[m->dcol[p]] += m->dval[p] * x[m->rows[i]];
-    for (int i = 0; i < m->n; i++)
-        r[i] = rhs[i] - r[i];
-    return rel_residual(r, x, rhs, m->n, m->anorm);
-}
-
 /* y <- A'^-T y in place (see lowrank.h), refined against A'^T. */
 int ls_mod_solve_t(ls_mod *m, double *y)
 {
@@ -709,7 +697,7 @@ int ls_mod_solve_t(ls_mod *m, double *y)
     int st = mod_solve_t_once(m, y);
     double last = INFINITY;
     for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
-        double rel = mod_residual_t(m, y, rhs, r);
+        double rel = mod_residual(m, y, rhs, r, 1);
         if (rel <= REFINE_TOL || !(rel < 0.5 * last))
             break;
         last = rel;
@@ -722,14 +710,18 @@ int ls_mod_solve_t(ls_mod *m, double *y)
     return st;
 }
 
-/* r <- rhs - A' x with A' = A + E_R D; returns the relative residual
- * |r| / (|A| |x| + |rhs|) in the max norm. */
-static double mod_residual(const ls_mod *m, const double *x, const double *rhs, double *r)
+/* r <- rhs - A' x with A' = A + E_R D (or A'^T = A^T + D^T E_R^T when
+ * transpose); returns the relative residual |r| / (|A| |x| + |rhs|) in the max norm. */
+static double mod_residual(const ls_mod *m, const double *x, const double *rhs, double *r, int transpose)
 {
-    ls_csc_matvec(&m->op->mna.a, x, r, 0);
+    ls_csc_matvec(&m->op->mna.a, x, r, transpose);
     for (int i = 0; i < m->r; i++)
-        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++)
-            r[m->rows[i]] += m->dval[p] * x[m->dcol[p]];
+        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++) {
+            if (transpose)
+                r[m->dcol[p]] += m->dval[p] * x[m->rows[i]];
+            else
+                r[m->rows[i]] += m->dval[p] * x[m->dcol[p]];
+        }
     for (int i = 0; i < m->n; i++)
         r[i] = rhs[i] - r[i];
     return rel_residual(r, x, rhs, m->n, m->anorm);
@@ -760,7 +752,7 @@ static int modified_solution(ls_mod *m)
     }
     double last = INFINITY;
     for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
-        double rel = mod_residual(m, m->x, rhs, r);
+        double rel = mod_residual(m, m->x, rhs, r, 0);
         if (rel <= REFINE_TOL || !(rel < 0.5 * last))
             break;
         last = rel;
