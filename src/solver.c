@@ -6,6 +6,10 @@
 #include <stdlib.h>
 #include <string.h>
 
+#ifdef LS_HAVE_OPENMP
+#include <omp.h>
+#endif
+
 /* OpenBLAS extensions (the build links OpenBLAS; see meson.build). */
 void openblas_set_num_threads(int num_threads);
 int openblas_get_num_procs(void);
@@ -41,16 +45,20 @@ int ls_solver_analyze(ls_solver *s, const ls_csc *a)
     return s->be->analyze(s->self, a, &s->st);
 }
 
-/* BLAS worker threads pay off only on large factorizations; on small ones they
- * spin between calls (sched_yield) and, with two cores, slow the program and
- * anything beside it.  OpenBLAS's thread count is process-wide state, so it is
- * changed under a lock and only when the wanted count differs. */
+/* BLAS and OpenMP worker threads pay off only on large factorizations; on
+ * small ones they spin between calls (sched_yield) and, with two cores, slow
+ * the program and anything beside it.  OpenBLAS's thread count is process-wide
+ * state, so it is changed under a lock and only when the wanted count differs. */
 static void blas_threads_for(ls_method m, int n)
 {
     static pthread_mutex_t lock = PTHREAD_MUTEX_INITIALIZER;
     static int current = 0;
     int big = m == LS_METHOD_DENSE_LU ? 1000 : 200000;
     int want = n >= big ? openblas_get_num_procs() : 1;
+#ifdef LS_HAVE_OPENMP
+    /* OpenMP's thread count is per calling thread: set it every time */
+    omp_set_num_threads(want);
+#endif
     pthread_mutex_lock(&lock);
     if (want != current) {
         openblas_set_num_threads(want);
