@@ -105,4 +105,21 @@ void ls_mod_free(ls_mod **m);
 /* Driving-point resistance at node in the base system. */
 double ls_op_zdrive(ls_op *op, int node);
 
+/* ---- sag: every part and port removed in turn ---- */
+
+typedef struct ls_sag_item {
+    int part;
+    double without, delta;   /* V at the node with the part removed, and without - now; NaN undefined */
+    bool floats;             /* undefined because nothing sets the node any more */
+} ls_sag_item;
+
+/* The largest voltage the circuit itself has (V): node voltages and voltage
+ * source values. */
+double ls_op_volts(const ls_op *op);
+/* Fill items[nparts] for `node`, one low-rank update per part (no
+ * refactorization), rounding noise of the updates set to zero, sorted by
+ * |delta| largest first with undefined items last (ties in part order).
+ * Returns 0, or -1 when out of memory. */
+int ls_sag(ls_op *op, int node, ls_sag_item *items);
+
 #endif

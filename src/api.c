@@ -5,7 +5,6 @@
 #include "loadstack/loadstack.h"
 
 #include <errno.h>
-#include <float.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -504,56 +503,6 @@ ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks
 
 /* ---- sag -------------------------------------------------------------------------------------- */
 
-/* One removal while sorting: the part index breaks ties, as in the program. */
-typedef struct sag_row {
-    int part;
-    double without, delta;
-} sag_row;
-
-/* Order by |delta|, largest first; undefined ones last; ties in part order. */
-static int by_delta(const void *a, const void *b)
-{
-    const sag_row *x = a, *y = b;
-    bool nx = isnan(x->delta), ny = isnan(y->delta);
-    if (nx != ny)
-        return nx ? 1 : -1;
-    double ax = nx ? 0 : fabs(x->delta), ay = ny ? 0 : fabs(y->delta);
-    if (ax != ay)
-        return ax < ay ? 1 : -1;
-    return x->part - y->part;
-}
-
-/* The rounding noise of a low-rank update, V: 64 ulps of the largest voltage
- * of the circuit (node voltages and source values), as the sag command has it. */
-static double update_noise(const ls_circuit *c)
-{
-    double vmax = 0;
-    for (int i = 0; i < c->nl.nnodes; i++)
-        vmax = fmax(vmax, fabs(c->op.v[i]));
-    for (int i = 0; i < c->nl.nparts; i++)
-        if (strcmp(c->nl.parts[i].kind->name, "voltage") == 0)
-            vmax = fmax(vmax, fabs(c->nl.parts[i].value));
-    return 64 * DBL_EPSILON * vmax;
-}
-
-/* Voltage of `node` with part i removed, NaN when that leaves it undefined.
- * Returns -1 when out of memory. */
-static int voltage_without(ls_circuit *c, int i, int node, double *v)
-{
-    *v = NAN;
-    ls_mod *m = ls_mod_new(&c->op, i, MOD_REMOVE_PART);
-    if (!m)
-        return -1;
-    if (!ls_mod_singular(m)) {
-        if (node == 0)
-            *v = 0;
-        else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
-            *v = ls_mod_x(m)[node - 1];
-    }
-    ls_mod_free(&m);
-    return 0;
-}
-
 ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sag_entry **entries, int *n)
 {
     ls_status st = need_solved(c);
@@ -566,28 +515,13 @@ ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sa
         return LS_E_NOT_FOUND;
     int np = c->nl.nparts;
     ls_sag_entry *e = calloc((size_t)(np ? np : 1), sizeof *e);
-    sag_row *rows = calloc((size_t)(np ? np : 1), sizeof *rows);
-    if (!e || !rows) {
+    ls_sag_item *rows = calloc((size_t)(np ? np : 1), sizeof *rows);
+    if (!e || !rows || ls_sag(&c->op, k, rows) != 0) {
         free(e);
         free(rows);
         return LS_E_NOMEM;
     }
-    double v0 = c->op.v[k], noise = update_noise(c);
-    for (int i = 0; i < np; i++) {
-        sag_row *r = &rows[i];
-        r->part = i;
-        if (voltage_without(c, i, k, &r->without) != 0) {
-            free(e);
-            free(rows);
-            return LS_E_NOMEM;
-        }
-        if (fabs(r->without) < noise)
-            r->without = 0;
-        r->delta = r->without - v0;
-        if (fabs(r->delta) < noise)
-            r->delta = 0;
-    }
-    qsort(rows, (size_t)np, sizeof *rows, by_delta);
+    double v0 = c->op.v[k];
     for (int i = 0; i < np; i++) {
         const ls_part *p = &c->nl.parts[rows[i].part];
         e[i] = (ls_sag_entry){p->name, p->kind->is_port, rows[i].without, rows[i].delta};

@@ -136,45 +136,9 @@ int ls_cmd_thevenin(ls_cli *cli)
 
 /* ---- sag ------------------------------------------------------------------------------------ */
 
-typedef struct sag_item {
-    int part;
-    double without, delta;  /* V; NaN when undefined */
-    bool floats;            /* undefined because the node is left with nothing setting it */
-} sag_item;
-
-/* qsort order: largest |delta| first, undefined items last. */
-static int by_delta(const void *a, const void *b)
-{
-    const sag_item *x = a, *y = b;
-    bool nx = isnan(x->delta), ny = isnan(y->delta);
-    if (nx != ny)
-        return nx ? 1 : -1;
-    if (nx)
-        return x->part - y->part;
-    double ax = fabs(x->delta), ay = fabs(y->delta);
-    if (ax != ay)
-        return ax < ay ? 1 : -1;
-    return x->part - y->part;
-}
-
-/* The largest voltage the circuit itself has (V): node voltages and voltage
- * source values.  A part whose removal takes a node beyond it is part of how
- * the circuit works (feedback, a reference), not a load on the node. */
-static double circuit_volts(const ls_op *op)
-{
-    const ls_netlist *nl = op->nl;
-    double vmax = 0;
-    for (int i = 0; i < nl->nnodes; i++)
-        vmax = fmax(vmax, fabs(op->v[i]));
-    for (int i = 0; i < nl->nparts; i++)
-        if (strcmp(nl->parts[i].kind->name, "voltage") == 0)
-            vmax = fmax(vmax, fabs(nl->parts[i].value));
-    return vmax;
-}
-
 /* Is item it a load pulling the node towards ground (removal moves it away
  * from 0 V, and not beyond the circuit's own voltages)? */
-static bool pulls_down(const sag_item *it, double v0, double vmax)
+static bool pulls_down(const ls_sag_item *it, double v0, double vmax)
 {
     double d = it->delta;
     if (!isfinite(d) || d == 0 || v0 == 0)
@@ -184,41 +148,13 @@ static bool pulls_down(const sag_item *it, double v0, double vmax)
     return fabs(it->without) <= vmax * (1 + 1e-9);
 }
 
-/* Without-values for every part and port removed in turn (NaN when that
- * leaves the node undefined); one low-rank update each, no refactorization. */
-static void sag_items(ls_op *op, int node, sag_item *items)
-{
-    const ls_netlist *nl = op->nl;
-    double v0 = op->v[node], noise = 64 * DBL_EPSILON * circuit_volts(op);
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_mod *m = ls_mod_new(op, i, MOD_REMOVE_PART);
-        items[i].part = i;
-        items[i].without = NAN;
-        if (m && !ls_mod_singular(m)) {
-            if (node == 0)
-                items[i].without = 0;
-            else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
-                items[i].without = ls_mod_x(m)[node - 1];
-            else
-                items[i].floats = true;
-        }
-        /* rounding noise of the update is no voltage */
-        if (fabs(items[i].without) < noise)
-            items[i].without = 0;
-        items[i].delta = items[i].without - v0;
-        if (fabs(items[i].delta) < noise)
-            items[i].delta = 0;
-        ls_mod_free(&m);
-    }
-}
-
 /* Text form of the sag report. */
-static void sag_text(ls_report *rp, const ls_op *op, int node, const sag_item *items, int culprit, int via,
+static void sag_text(ls_report *rp, const ls_op *op, int node, const ls_sag_item *items, int culprit, int via,
                      double total)
 {
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
-    double v0 = op->v[node], vmax = circuit_volts(op);
+    double v0 = op->v[node], vmax = ls_op_volts(op);
     char b1[64], b2[64], b3[64];
     fprintf(o, "What pulls '%s' (now %s) away from where it would be without each part\n", nl->nodes[node].name,
             ls_eng(rp, b1, sizeof b1, v0, "V"));
@@ -262,14 +198,14 @@ int ls_cmd_sag(ls_cli *cli)
         return code;
     }
     const ls_netlist *nl = &s.nl;
-    double v0 = s.op.v[node], vmax = circuit_volts(&s.op);
-    sag_item *items = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *items);
-    if (!items) {
+    double v0 = s.op.v[node], vmax = ls_op_volts(&s.op);
+    ls_sag_item *items = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *items);
+    if (!items || ls_sag(&s.op, node, items) != 0) {
+        fprintf(stderr, "loadstack: error: out of memory in the sag analysis\n");
+        free(items);
         ls_session_free(&s);
         return LS_EXIT_UNSOLVABLE;
     }
-    sag_items(&s.op, node, items);
-    qsort(items, (size_t)nl->nparts, sizeof *items, by_delta);
     /* The main culprit is the part (a port only when no part qualifies) that
      * pulls hardest; the total counts parts only, so a load and the port it
      * hangs on are not counted twice. */

@@ -1134,3 +1134,60 @@ const ls_port_result *ls_op_port(ls_op *op, int p)
     }
     return r;
 }
+
+/* ---- sag ------------------------------------------------------------------------------------------ */
+
+double ls_op_volts(const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    double vmax = 0;
+    for (int i = 0; i < nl->nnodes; i++)
+        vmax = fmax(vmax, fabs(op->v[i]));
+    for (int i = 0; i < nl->nparts; i++)
+        if (strcmp(nl->parts[i].kind->name, "voltage") == 0)
+            vmax = fmax(vmax, fabs(nl->parts[i].value));
+    return vmax;
+}
+
+/* qsort order: largest |delta| first, undefined items last, ties in part order. */
+static int by_delta(const void *a, const void *b)
+{
+    const ls_sag_item *x = a, *y = b;
+    bool nx = isnan(x->delta), ny = isnan(y->delta);
+    if (nx != ny)
+        return nx ? 1 : -1;
+    double ax = nx ? 0 : fabs(x->delta), ay = ny ? 0 : fabs(y->delta);
+    if (ax != ay)
+        return ax < ay ? 1 : -1;
+    return x->part - y->part;
+}
+
+int ls_sag(ls_op *op, int node, ls_sag_item *items)
+{
+    const ls_netlist *nl = op->nl;
+    double v0 = op->v[node], noise = 64 * DBL_EPSILON * ls_op_volts(op);
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_sag_item *it = &items[i];
+        ls_mod *m = ls_mod_new(op, i, MOD_REMOVE_PART);
+        if (!m)
+            return -1;
+        *it = (ls_sag_item){.part = i, .without = NAN};
+        if (!ls_mod_singular(m)) {
+            if (node == 0)
+                it->without = 0;
+            else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
+                it->without = ls_mod_x(m)[node - 1];
+            else
+                it->floats = true;
+        }
+        ls_mod_free(&m);
+        /* rounding noise of the update is no voltage */
+        if (fabs(it->without) < noise)
+            it->without = 0;
+        it->delta = it->without - v0;
+        if (fabs(it->delta) < noise)
+            it->delta = 0;
+    }
+    qsort(items, (size_t)nl->nparts, sizeof *items, by_delta);
+    return 0;
+}
