@@ -1,13 +1,11 @@
 #!/usr/bin/python3
-"""`loadstack pick ratio R` end to end, against a brute force written here.
+"""`loadstack pick ratio R` end to end, against an independent brute force.
 
-The series are rebuilt from IEC 60063: E24 and below from the standard's list
-(E12 and E6 are every 2nd and 4th E24 value), E48 and E96 from the standard's
-defining rule, 10^(i/n) rounded to three significant figures.  The brute force
-takes every pair of values from 1 ohm to the top of the total range (no search
-shortcuts), keeps the pairs whose sum lies in the range and whose zout =
-rtop||rbot is within the limit, and sorts them by |error|, then zout, then rtop
-(the order cli.md asks for: best 10 by |error|, then by zout).
+The brute force is the one of tests/ref/test_pick_ref.py: it rebuilds the
+series from IEC 60063 without the program's tables, tries every pair of values
+(no search shortcuts), keeps the pairs whose sum lies in the range and whose
+zout = rtop||rbot is within the limit, and sorts them by |error|, then zout,
+then rtop (the order cli.md asks for: best 10 by |error|, then by zout).
 """
 import os
 import sys
@@ -15,33 +13,10 @@ import sys
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from lsrun import run, run_json, check, close, finish  # noqa: E402
 
-E24 = [1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0,
-       3.3, 3.6, 3.9, 4.3, 4.7, 5.1, 5.6, 6.2, 6.8, 7.5, 8.2, 9.1]
-
-
-def codes(series):
-    if series in ("E6", "E12", "E24"):
-        return [round(v * 100) for v in E24[::{"E6": 4, "E12": 2, "E24": 1}[series]]]
-    n = int(series[1:])
-    return [round(100 * 10 ** (i / n)) for i in range(n)]
-
-
-def brute(series, ratio, lo=1e3, hi=1e6, zmax=float("inf")):
-    vals = sorted({float(c * 10 ** k) for k in range(-2, 8) for c in codes(series)})
-    vals = [v for v in vals if 1.0 <= v <= hi * (1 + 1e-12)]
-    rows = []
-    for rt in vals:
-        for rb in vals:
-            s = rt + rb
-            if not (lo * (1 - 1e-12) <= s <= hi * (1 + 1e-12)):
-                continue
-            z = rt * rb / s
-            if z > zmax * (1 + 1e-12):
-                continue
-            a = rb / s
-            rows.append((abs(a / ratio - 1), z, rt, rb, a, a / ratio - 1))
-    rows.sort()
-    return rows[:10]
+# The independent brute force of the library test (it rebuilds the series
+# without our tables; see tests/ref/test_pick_ref.py for its sources).
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "ref"))
+from test_pick_ref import brute  # noqa: E402
 
 
 CASES = [  # series, ratio, extra arguments, (lo, hi, zmax) for the brute force
@@ -59,18 +34,18 @@ def main():
         if not j:
             continue
         check(j["series"] == series and j["ratio"] == ratio, f"{series} {ratio}: series and ratio echoed")
-        want = brute(series, ratio, lo, hi, zmax)
+        want = brute(series, ratio, lo, hi, zmax, 10)  # (rtop, rbot, ratio, error, zout)
         got = j["items"]
         check(len(got) == len(want) == 10, f"{series} {ratio}: 10 pairs")
-        same = [(g["rtop"], g["rbot"]) for g in got] == [(w[2], w[3]) for w in want]
+        same = [(g["rtop"], g["rbot"]) for g in got] == [(w[0], w[1]) for w in want]
         check(same, f"{series} {ratio} {extra}: the same pairs in the same order as the brute force\n"
-              f"  got  {[(g['rtop'], g['rbot']) for g in got]}\n  want {[(w[2], w[3]) for w in want]}")
+              f"  got  {[(g['rtop'], g['rbot']) for g in got]}\n  want {[(w[0], w[1]) for w in want]}")
         if same:
             print(f"ok   {series} {ratio} {extra}: 10 pairs agree with the brute force")
         for g, w in zip(got, want):
-            close(g["ratio"], w[4], rel=1e-14, what="  achieved ratio rbot/(rtop+rbot)")
-            close(g["error"], w[5], rel=1e-9, abs_=1e-15, what="  relative error")
-            close(g["zout"], w[1], rel=1e-14, what="  zout = rtop || rbot")
+            close(g["ratio"], w[2], rel=1e-14, what="  achieved ratio rbot/(rtop+rbot)")
+            close(g["error"], w[3], rel=1e-9, abs_=1e-15, what="  relative error")
+            close(g["zout"], w[4], rel=1e-14, what="  zout = rtop || rbot")
     rc, out, err = run(["pick", "ratio", "0.66", "--format", "csv"], check_rc=0)
     check(out.splitlines()[0] == "rank,rtop,rbot,ratio,error,zout" and len(out.splitlines()) == 11, "CSV: header + 10")
     rc, out, err = run(["pick", "ratio", "0.66"], check_rc=0)
