@@ -809,6 +809,13 @@ static bool set_range(elab *x, const scope *s, ls_part *p, int oi, const ls_opt 
                  od->name);
         return false;
     }
+    if (!p->range) {
+        p->range = ls_arena_alloc(x->a, LS_MAX_RANGES * sizeof *p->range);
+        if (!p->range) {
+            out_of_memory(x);
+            return false;
+        }
+    }
     ls_level *r = p->range[od->pin];
     bool ok_lo = range_end(x, s, o->value, od->dims, &r[0]); /* both ends, to report both */
     bool ok_hi = range_end(x, s, o->hi, od->dims, &r[1]);
@@ -907,9 +914,16 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
                          opt_names(k, names, sizeof names));
             continue;
         }
-        if (p.has_opt[oi]) {
+        if (ls_part_has(&p, oi)) {
             ls_error(x->d, o->name_loc, "option '%s' is given twice", o->name);
             continue;
+        }
+        if (!p.opt) {
+            p.opt = ls_arena_alloc(x->a, LS_MAX_OPTS * sizeof *p.opt);
+            if (!p.opt) {
+                out_of_memory(x);
+                return;
+            }
         }
         const ls_optdef *od = &k->opts[oi];
         if (od->kind == OPT_WORD && strcmp(od->name, "snap") == 0)
@@ -964,7 +978,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
                 continue;
             break;
         }
-        p.has_opt[oi] = true;
+        p.has_opt |= 1u << oi;
     }
     if ((k->value_flags & OPTF_REQUIRED) && !p.has_value && !st->value) {
         char b[64];
@@ -977,7 +991,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         return;
     for (int i = 0; i < k->nopts; i++) {
         const ls_optdef *od = &k->opts[i];
-        if (!(od->flags & OPTF_REQUIRED) || p.has_opt[i] || ((od->flags & OPTF_MAIN) && p.has_value))
+        if (!(od->flags & OPTF_REQUIRED) || ls_part_has(&p, i) || ((od->flags & OPTF_MAIN) && p.has_value))
             continue;
         if ((od->flags & OPTF_MAIN) && st->value)
             continue; /* the positional value was given but had an error */

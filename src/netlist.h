@@ -6,8 +6,10 @@
 #include "ast.h"
 #include "hash.h"
 
+#include <stdint.h>
+
 #define LS_MAX_PINS 8
-#define LS_MAX_OPTS 24
+#define LS_MAX_OPTS 24 /* at most 32: ls_part.has_opt is a bit set */
 
 #define LS_MAX_RANGES 2
 
@@ -31,38 +33,44 @@ typedef struct ls_node {
     bool claimed;          /* a block body declared it */
 } ls_node;
 
+/* One part of the flat circuit.  The record is kept small (a large grid has
+ * millions of them): options and ranges live in side arrays in the netlist's
+ * arena, allocated only for the parts that use them. */
 typedef struct ls_part {
     const struct ls_kind *kind;
     const char *name;      /* hierarchical: "d1.upper" */
     const char *instance;  /* "d1", or NULL at the top level */
-    ls_loc loc;            /* the name in the statement */
-    ls_loc value_loc;
-    int pin[LS_MAX_PINS];  /* node indices; -1 when not given */
-    double value;          /* the main value (resistance, voltage, gain, ...) */
-    bool has_value;
-    double opt[LS_MAX_OPTS];
-    bool has_opt[LS_MAX_OPTS];
-    int ref;               /* via= part index, -1 */
-    const char *ref_name;  /* as written, resolved after elaboration */
+    double *opt;           /* LS_MAX_OPTS option values, NULL while no option is given;
+                              read opt[i] only where ls_part_has(p, i) */
+    ls_level (*range)[2];  /* OPT_RANGE options: range[slot][0 low, 1 high]; LS_MAX_RANGES
+                              slots, zeroed, for kinds that take a range option, else NULL */
+    const char *ref_name;  /* via= as written, resolved after elaboration */
     const char *ref_scope;
-    ls_loc ref_loc;
-    ls_level range[LS_MAX_RANGES][2];  /* OPT_RANGE options: [slot][0 low, 1 high] */
-    int branch;            /* first MNA branch unknown, -1 if none (set by the MNA builder) */
+    double value;          /* the main value (resistance, voltage, gain, ...) */
     /* Analysis state, written by the operating-point iteration (analysis.c,
      * newton.c) and read by the stamps, so every analysis that re-stamps the
      * system (ports, sag, sens) sees the circuit linearized at its solution. */
-    int state;             /* op-amp: LS_LIM_* in force */
-    int side;              /* op-amp: 1 while sinking (its current returns into the lower rail) */
-    bool open_loop;        /* op-amp: ideal with rails, singular when free (a comparator): only rails */
-    bool probed;           /* op-amp: its upper rail has been tried once from a free solution */
-    bool probing;          /* op-amp: held at that rail only to try it */
-    int releases;          /* op-amp: times a rail was let go (positive feedback shows as repeats) */
     double op_v;           /* junction: voltage (V, anode -> cathode) the companion model is stamped at */
     double op_t;           /* ntc: body temperature (degC) its resistance is stamped at */
     double heat_t, heat_f; /* ntc: the previous temperature and its image (secant on self-heating) */
     double shunt_s;        /* gmin stepping: extra conductance (S) across a junction */
     double src_cut;        /* source stepping: fraction of a source's value left out (0 = all of it) */
+    ls_loc loc;            /* the name in the statement */
+    ls_loc value_loc;
+    ls_loc ref_loc;
+    int pin[LS_MAX_PINS];  /* node indices; -1 when not given */
+    uint32_t has_opt;      /* bit i: option i was given */
+    int ref;               /* via= part index, -1 */
+    int branch;            /* first MNA branch unknown, -1 if none (set by the MNA builder) */
+    int state;             /* op-amp: LS_LIM_* in force */
+    int side;              /* op-amp: 1 while sinking (its current returns into the lower rail) */
+    int releases;          /* op-amp: times a rail was let go (positive feedback shows as repeats) */
+    bool has_value;
+    bool open_loop;        /* op-amp: ideal with rails, singular when free (a comparator): only rails */
+    bool probed;           /* op-amp: its upper rail has been tried once from a free solution */
+    bool probing;          /* op-amp: held at that rail only to try it */
 } ls_part;
+_Static_assert(LS_MAX_OPTS <= 32, "ls_part.has_opt holds one bit per option");
 
 /* A bound quantity: the syntax of an expect or a QUANTITY with names resolved. */
 typedef enum ls_qkind { Q_CONST, Q_NODE, Q_PROP, Q_NEG, Q_BIN, Q_CALL } ls_qkind;

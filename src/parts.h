@@ -117,7 +117,7 @@ const ls_kind *ls_kind_at(int i);
 int ls_kind_opt(const ls_kind *k, const char *name);
 
 /* Option value helpers. */
-static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && p->has_opt[opt]; }
+static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && (p->has_opt >> opt & 1u); }
 double ls_part_opt(const ls_part *p, const char *name, double dflt);
 
 /* Part current as a linear form (recursing through via=); depth guards cycles. */

@@ -167,7 +167,7 @@ static bool same_structure(const ls_netlist *a, const ls_netlist *b)
     for (int i = 0; i < a->nparts; i++) {
         const ls_part *p = &a->parts[i], *q = &b->parts[i];
         if (p->kind != q->kind || p->ref != q->ref || p->has_value != q->has_value || strcmp(p->name, q->name) != 0 ||
-            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || memcmp(p->has_opt, q->has_opt, sizeof p->has_opt) != 0)
+            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || p->has_opt != q->has_opt)
             return false;
     }
     return true;
@@ -182,8 +182,12 @@ static void copy_values(ls_netlist *dst, const ls_netlist *src)
         ls_part *p = &dst->parts[i];
         const ls_part *q = &src->parts[i];
         p->value = q->value;
-        memcpy(p->opt, q->opt, sizeof p->opt);
-        memcpy(p->range, q->range, sizeof p->range);
+        /* Same structure: the same options given, so both or neither have the
+         * side arrays (a range only where a range option was given). */
+        if (p->opt && q->opt)
+            memcpy(p->opt, q->opt, LS_MAX_OPTS * sizeof *p->opt);
+        if (p->range && q->range)
+            memcpy(p->range, q->range, LS_MAX_RANGES * sizeof *p->range);
     }
 }
 
