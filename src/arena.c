@@ -1,66 +1,150 @@
-/* arena.c — bump allocation in large blocks. */
+/* arena.c — bump allocation in geometrically growing blocks. */
 #include "arena.h"
 
 #include <stdarg.h>
+#include <stdbool.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 
 struct ls_arena_block {
     ls_arena_block *next;
-    size_t cap, off;
+    size_t cap, off;       /* data bytes; bytes of them handed out */
+    size_t map_len;        /* bytes mapped (the block starts the mapping); 0: from calloc */
     max_align_t data[];
 };
 
-enum { BLOCK_BYTES = 64 * 1024 };
+#define FIRST_BLOCK ((size_t)64 << 10)
+#define MAX_BLOCK ((size_t)32 << 20)
+#define HUGE_PAGE ((size_t)2 << 20)   /* x86-64 and arm64 (4 KB base pages) */
 
 void ls_arena_init(ls_arena *a)
 {
     memset(a, 0, sizeof *a);
 }
 
-void *ls_arena_alloc(ls_arena *a, size_t size)
+/* A mapping of len bytes (a multiple of HUGE_PAGE) aligned to HUGE_PAGE, so
+ * that transparent huge pages can back it: where the system gives them to
+ * every mapping, or when built with -DLS_ARENA_HUGE_PAGES, which asks for
+ * them (MADV_HUGEPAGE).  Asking is not the default: it takes 512 times fewer
+ * page faults, but in a virtual machine that hands free memory back to its
+ * host a fresh huge page can cost more than 512 base pages (the 1000 x 1000
+ * grid parsed in 0.85 to 1.5 s that way against 0.45 to 0.65 s, and in
+ * 0.23 s only right after another run had freed huge pages).  NULL when the
+ * system refuses. */
+static void *map_aligned(size_t len)
 {
-    const size_t align = sizeof(max_align_t);
-    if (size > SIZE_MAX / 2) {
+#ifdef MAP_ANONYMOUS
+    size_t span = len + HUGE_PAGE;
+    char *p = mmap(NULL, span, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+    if (p == MAP_FAILED)
+        return NULL;
+    char *start = (char *)(((uintptr_t)p + HUGE_PAGE - 1) & ~(uintptr_t)(HUGE_PAGE - 1));
+    if (start > p)
+        munmap(p, (size_t)(start - p));
+    if (start + len < p + span)
+        munmap(start + len, (size_t)(p + span - (start + len)));
+#if defined(MADV_HUGEPAGE) && defined(LS_ARENA_HUGE_PAGES)
+    madvise(start, len, MADV_HUGEPAGE); /* advice only: without huge pages it still works */
+#endif
+    return start;
+#else
+    (void)len;
+    return NULL;
+#endif
+}
+
+/* A zeroed block with at least cap data bytes; NULL when out of memory. */
+static ls_arena_block *new_block(size_t cap)
+{
+    size_t bytes = offsetof(ls_arena_block, data) + cap;
+    if (bytes >= HUGE_PAGE) {
+        size_t len = (bytes + HUGE_PAGE - 1) & ~(HUGE_PAGE - 1);
+        ls_arena_block *b = map_aligned(len);
+        if (b) {
+            b->next = NULL;
+            b->cap = len - offsetof(ls_arena_block, data);
+            b->off = 0;
+            b->map_len = len;
+            return b;
+        }
+    }
+    ls_arena_block *b = calloc(1, bytes); /* fresh pages are not cleared twice */
+    if (b)
+        b->cap = cap;
+    return b;
+}
+
+/* The slow path of bump(): a new block, then the allocation from it.  An
+ * object larger than a quarter of the next block gets a block of its own,
+ * placed second so the current block keeps serving small objects. */
+static __attribute__((noinline)) void *bump_new(ls_arena *a, size_t size, size_t align)
+{
+    if (size > SIZE_MAX / 4) {
         a->failed = 1;
         return NULL;
     }
-    size = (size + align - 1) / align * align;
+    if (!a->next_cap)
+        a->next_cap = FIRST_BLOCK;
+    bool alone = size > a->next_cap / 4;
+    ls_arena_block *b = new_block(alone ? size : a->next_cap);
+    if (!b) {
+        a->failed = 1;
+        return NULL;
+    }
+    a->reserved += offsetof(ls_arena_block, data) + b->cap;
+    if (alone && a->head) {
+        b->next = a->head->next;
+        a->head->next = b;
+    } else {
+        b->next = a->head;
+        a->head = b;
+        if (!alone && a->next_cap < MAX_BLOCK)
+            a->next_cap *= 2;
+    }
+    (void)align; /* block data is aligned for any type */
+    b->off = size;
+    a->used += size;
+    return b->data;
+}
+
+/* size bytes at an offset that is a multiple of align (a power of two). */
+static inline void *bump(ls_arena *a, size_t size, size_t align)
+{
     ls_arena_block *b = a->head;
-    if (!b || b->cap - b->off < size) {
-        size_t cap = size > BLOCK_BYTES ? size : BLOCK_BYTES;
-        b = malloc(sizeof *b + cap);
-        if (!b) {
-            a->failed = 1;
-            return NULL;
-        }
-        b->cap = cap;
-        b->off = 0;
-        /* A block made for one big object goes second so the current block
-         * keeps serving small ones. */
-        if (a->head && cap > BLOCK_BYTES) {
-            b->next = a->head->next;
-            a->head->next = b;
-        } else {
-            b->next = a->head;
-            a->head = b;
+    if (b) {
+        size_t off = (b->off + align - 1) & ~(align - 1);
+        if (off <= b->cap && b->cap - off >= size) {
+            a->used += off - b->off + size;
+            b->off = off + size;
+            return (char *)b->data + off;
         }
     }
-    void *p = (char *)b->data + b->off;
-    b->off += size;
-    a->used += size;
-    memset(p, 0, size);
-    return p;
+    return bump_new(a, size, align);
+}
+
+void *ls_arena_alloc(ls_arena *a, size_t size)
+{
+    /* Block memory is zero until handed out (calloc or a fresh mapping) and is
+     * never handed out twice, so there is nothing to clear. */
+    return bump(a, size, size % 16 == 0 ? 16 : 8);
+}
+
+char *ls_arena_alloc_bytes(ls_arena *a, size_t size)
+{
+    return bump(a, size, 1);
 }
 
 char *ls_arena_strndup(ls_arena *a, const char *s, size_t n)
 {
-    char *p = ls_arena_alloc(a, n + 1);
+    char *p = n < SIZE_MAX ? bump(a, n + 1, 1) : NULL;
     if (p) {
         memcpy(p, s, n);
         p[n] = 0;
+    } else {
+        a->failed = 1;
     }
     return p;
 }
@@ -78,7 +162,7 @@ char *ls_arena_printf(ls_arena *a, const char *fmt, ...)
     va_end(ap);
     if (n < 0)
         return NULL;
-    char *p = ls_arena_alloc(a, (size_t)n + 1);
+    char *p = bump(a, (size_t)n + 1, 1);
     if (!p)
         return NULL;
     va_start(ap, fmt);
@@ -92,9 +176,14 @@ void ls_arena_free(ls_arena *a)
     ls_arena_block *b = a->head;
     while (b) {
         ls_arena_block *n = b->next;
-        free(b);
+        if (b->map_len)
+            munmap(b, b->map_len);
+        else
+            free(b);
         b = n;
     }
     a->head = NULL;
     a->used = 0;
+    a->reserved = 0;
+    a->next_cap = 0;
 }

@@ -2,8 +2,9 @@
  * unit words; identifiers with hierarchical dots; operators; strings. */
 #include "lexer.h"
 
-#include <ctype.h>
+#include <float.h>
 #include <math.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -31,8 +32,33 @@ static ls_loc here(const ls_lexer *lx, unsigned start)
     return (ls_loc){lx->file, start, lx->pos};
 }
 
-static bool ident_start(int c) { return isalpha(c) || c == '_'; }
-static bool ident_char(int c) { return isalnum(c) || c == '_'; }
+/* Character classes of the bytes, ASCII only (the language's letters are
+ * ASCII; bytes of UTF-8 sequences are none of these).  A table rather than
+ * <ctype.h>: no locale lookup per byte. */
+enum { C_DIGIT = 1, C_ALPHA = 2, C_UNDER = 4, C_BLANK = 8 };
+#define R4(x) x, x, x, x
+#define R8(x) R4(x), R4(x)
+#define R16(x) R8(x), R8(x)
+static const unsigned char cclass[256] = {
+    /* 0x00 */ R8(0), 0, C_BLANK, 0, 0, 0, C_BLANK, 0, 0,          /* \t, \r */
+    /* 0x10 */ R16(0),
+    /* 0x20 */ C_BLANK, R8(0), R4(0), 0, 0, 0,                       /* ' ' */
+    /* 0x30 */ R8(C_DIGIT), C_DIGIT, C_DIGIT, R4(0), 0, 0,
+    /* 0x40 */ 0, R8(C_ALPHA), R4(C_ALPHA), C_ALPHA, C_ALPHA, C_ALPHA,
+    /* 0x50 */ R8(C_ALPHA), C_ALPHA, C_ALPHA, C_ALPHA, 0, 0, 0, 0, C_UNDER,
+    /* 0x60 */ 0, R8(C_ALPHA), R4(C_ALPHA), C_ALPHA, C_ALPHA, C_ALPHA,
+    /* 0x70 */ R8(C_ALPHA), C_ALPHA, C_ALPHA, C_ALPHA, 0, 0, 0, 0, 0,
+    /* 0x80 */ R16(0), R16(0), R16(0), R16(0), R16(0), R16(0), R16(0), R16(0),
+};
+#undef R4
+#undef R8
+#undef R16
+
+static inline bool is_digit(int c) { return cclass[(unsigned char)c] & C_DIGIT; }
+static inline bool is_alpha(int c) { return cclass[(unsigned char)c] & C_ALPHA; }
+static inline bool ident_start(int c) { return cclass[(unsigned char)c] & (C_ALPHA | C_UNDER); }
+static inline bool ident_char(int c) { return cclass[(unsigned char)c] & (C_ALPHA | C_UNDER | C_DIGIT); }
+static inline bool is_blank(int c) { return cclass[(unsigned char)c] & C_BLANK; }
 
 /* Bytes of the "suffix word" starting at p: letters, µ μ Ω Ω and %. */
 static unsigned suffix_len(const ls_lexer *lx, unsigned p)
@@ -40,7 +66,7 @@ static unsigned suffix_len(const ls_lexer *lx, unsigned p)
     unsigned q = p;
     while (q < lx->len) {
         unsigned char c = (unsigned char)lx->src[q];
-        if (isalpha(c) || c == '%') {
+        if (is_alpha(c) || c == '%') {
             q++;
         } else if (c == 0xC2 && q + 1 < lx->len && (unsigned char)lx->src[q + 1] == 0xB5) {
             q += 2;
@@ -114,27 +140,72 @@ static void trailing_unit(ls_lexer *lx, ls_token *t)
     }
 }
 
+/* Exact powers of ten: every one up to 1e22 is a double. */
+static const double pow10_exact[23] = {
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+    1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+
+/* The value of the decimal mantissa s[0..n) (digits, an optional fraction,
+ * an optional exponent: what lex_number scanned) when it can be had exactly
+ * as strtod would give it, without calling strtod: at most 15 digits make an
+ * integer below 2^53, and multiplying or dividing it by an exact power of ten
+ * up to 1e22 is one correctly rounded operation, the correctly rounded value
+ * of the decimal (the fast path of W. D. Clinger, "How to read floating point
+ * numbers accurately", PLDI 1990).  Returns false for anything else. */
+static bool exact_decimal(const char *s, unsigned n, double *v)
+{
+#if FLT_EVAL_METHOD != 0
+    return false; /* excess precision would round twice */
+#endif
+    uint64_t m = 0;
+    int digits = 0, scale = 0;
+    unsigned i = 0;
+    for (; i < n && is_digit(s[i]); i++, digits++)
+        m = m * 10 + (uint64_t)(s[i] - '0');
+    if (i < n && s[i] == '.')
+        for (i++; i < n && is_digit(s[i]); i++, digits++, scale--)
+            m = m * 10 + (uint64_t)(s[i] - '0');
+    if (digits > 15)
+        return false;
+    if (i < n) { /* e or E, an optional sign, digits */
+        i++;
+        bool neg = i < n && s[i] == '-';
+        if (i < n && (s[i] == '-' || s[i] == '+'))
+            i++;
+        if (n - i > 3)
+            return false;
+        int e = 0;
+        for (; i < n; i++)
+            e = e * 10 + (s[i] - '0');
+        scale += neg ? -e : e;
+    }
+    if (scale < -22 || scale > 22)
+        return false;
+    *v = scale >= 0 ? (double)m * pow10_exact[scale] : (double)m / pow10_exact[-scale];
+    return true;
+}
+
 /* number -> mantissa [prefix] [unit] | digits LETTER digits (IEC 60062) */
 static void lex_number(ls_lexer *lx, ls_token *t)
 {
     unsigned s = lx->pos, p = s;
     bool plain_int = true, iec = false;
-    while (p < lx->len && isdigit((unsigned char)lx->src[p]))
+    while (p < lx->len && is_digit((unsigned char)lx->src[p]))
         p++;
-    if (p < lx->len && lx->src[p] == '.' && p + 1 < lx->len && isdigit((unsigned char)lx->src[p + 1])) {
+    if (p < lx->len && lx->src[p] == '.' && p + 1 < lx->len && is_digit((unsigned char)lx->src[p + 1])) {
         plain_int = false;
         p++;
-        while (p < lx->len && isdigit((unsigned char)lx->src[p]))
+        while (p < lx->len && is_digit((unsigned char)lx->src[p]))
             p++;
     }
     if (p < lx->len && (lx->src[p] == 'e' || lx->src[p] == 'E')) {
         unsigned q = p + 1;
         if (q < lx->len && (lx->src[q] == '+' || lx->src[q] == '-'))
             q++;
-        if (q < lx->len && isdigit((unsigned char)lx->src[q])) {
+        if (q < lx->len && is_digit((unsigned char)lx->src[q])) {
             plain_int = false;
             p = q;
-            while (p < lx->len && isdigit((unsigned char)lx->src[p]))
+            while (p < lx->len && is_digit((unsigned char)lx->src[p]))
                 p++;
         }
     }
@@ -149,9 +220,12 @@ static void lex_number(ls_lexer *lx, ls_token *t)
         t->kind = T_ERROR;
         return;
     }
-    memcpy(buf, lx->src + s, mlen);
-    buf[mlen] = 0;
-    double v = strtod(buf, NULL);
+    double v;
+    if (!exact_decimal(lx->src + s, mlen, &v)) {
+        memcpy(buf, lx->src + s, mlen);
+        buf[mlen] = 0;
+        v = strtod(buf, NULL);
+    }
     unsigned n = suffix_len(lx, p);
 
     /* IEC 60062: 4k7, 0R47, 2M2 — a marker letter between digit groups. */
@@ -159,9 +233,9 @@ static void lex_number(ls_lexer *lx, ls_token *t)
         unsigned mk = ((unsigned char)lx->src[p] & 0x80) ? 2 : 1;
         double mult = iec_letter(lx->src + p, mk);
         unsigned q = p + mk;
-        if (mult != 0 && q < lx->len && isdigit((unsigned char)lx->src[q])) {
+        if (mult != 0 && q < lx->len && is_digit((unsigned char)lx->src[q])) {
             unsigned fs = q;
-            while (q < lx->len && isdigit((unsigned char)lx->src[q]))
+            while (q < lx->len && is_digit((unsigned char)lx->src[q]))
                 q++;
             if (q - fs + mlen + 2 >= sizeof buf) {
                 lx->pos = q;
@@ -254,30 +328,34 @@ static void lex_string(ls_lexer *lx, ls_token *t)
     t->loc = here(lx, s);
 }
 
-/* Skip blanks, comments and line continuations; returns false at a newline/EOF. */
+/* Skip blanks, comments and line continuations, up to a newline, a token or
+ * the end.  The text is NUL-terminated (ls_sources_add), so the blank loop
+ * stops at the end without a bounds check. */
 static void skip_blanks(ls_lexer *lx)
 {
+    const char *src = lx->src;
+    unsigned pos = lx->pos;
     for (;;) {
-        while (lx->pos < lx->len && (lx->src[lx->pos] == ' ' || lx->src[lx->pos] == '\t' ||
-                                     lx->src[lx->pos] == '\r'))
-            lx->pos++;
-        if (lx->pos < lx->len && lx->src[lx->pos] == '#') {
-            while (lx->pos < lx->len && lx->src[lx->pos] != '\n')
-                lx->pos++;
-            return;
+        while (is_blank(src[pos]))
+            pos++;
+        if (src[pos] == '#' && pos < lx->len) {
+            while (pos < lx->len && src[pos] != '\n')
+                pos++;
+            break;
         }
-        if (lx->pos < lx->len && lx->src[lx->pos] == '\\') {
-            unsigned q = lx->pos + 1;
-            while (q < lx->len && (lx->src[q] == ' ' || lx->src[q] == '\t' || lx->src[q] == '\r'))
+        if (src[pos] == '\\' && pos < lx->len) {
+            unsigned q = pos + 1;
+            while (q < lx->len && is_blank(src[q]))
                 q++;
-            if (q >= lx->len || lx->src[q] == '\n') {
-                lx->pos = q < lx->len ? q + 1 : q;
-                lx->line_begin = lx->pos;
+            if (q >= lx->len || src[q] == '\n') {
+                pos = q < lx->len ? q + 1 : q;
+                lx->line_begin = pos;
                 continue;
             }
         }
-        return;
+        break;
     }
+    lx->pos = pos;
 }
 
 static void check_line_length(ls_lexer *lx)
@@ -289,46 +367,12 @@ static void check_line_length(ls_lexer *lx)
     }
 }
 
-void ls_lex_next(ls_lexer *lx, ls_token *t)
+/* The operator or the invalid character at lx->pos (after the common tokens). */
+static __attribute__((noinline)) void lex_other(ls_lexer *lx, ls_token *t, unsigned s, unsigned char c)
 {
-    memset(t, 0, sizeof *t);
-    skip_blanks(lx);
-    check_line_length(lx);
-    unsigned s = lx->pos;
-    t->text = lx->src + s;
-    if (lx->pos >= lx->len) {
-        t->kind = T_EOF;
-        t->loc = (ls_loc){lx->file, lx->len, lx->len};
-        return;
-    }
-    unsigned char c = (unsigned char)lx->src[lx->pos];
     unsigned char d = lx->pos + 1 < lx->len ? (unsigned char)lx->src[lx->pos + 1] : 0;
-    if (c == '\n') {
-        lx->pos++;
-        lx->line_begin = lx->pos;
-        lx->line_too_long = false;
-        t->kind = T_NEWLINE;
-        t->loc = (ls_loc){lx->file, s, s + 1};
-        return;
-    }
-    if (isdigit(c) || (c == '.' && isdigit(d))) {
+    if (c == '.' && is_digit(d)) {
         lex_number(lx, t);
-        return;
-    }
-    if (ident_start(c)) {
-        unsigned p = lx->pos;
-        for (;;) {
-            while (p < lx->len && ident_char((unsigned char)lx->src[p]))
-                p++;
-            if (p + 1 < lx->len && lx->src[p] == '.' && ident_start((unsigned char)lx->src[p + 1]))
-                p++;
-            else
-                break;
-        }
-        lx->pos = p;
-        t->kind = T_IDENT;
-        t->len = p - s;
-        t->loc = here(lx, s);
         return;
     }
     if (c == '"') {
@@ -375,4 +419,52 @@ void ls_lex_next(ls_lexer *lx, ls_token *t)
     t->kind = k;
     t->len = w;
     t->loc = here(lx, s);
+}
+
+/* The common tokens inline (names, line ends, numbers), the rest out of line.
+ * The text is NUL-terminated, so the name loop needs no bounds check, and at
+ * the end the NUL is tested only after the common cases. */
+void ls_lex_next(ls_lexer *lx, ls_token *t)
+{
+    memset(t, 0, sizeof *t);
+    skip_blanks(lx);
+    check_line_length(lx);
+    const char *src = lx->src;
+    unsigned s = lx->pos;
+    unsigned char c = (unsigned char)src[s];
+    t->text = src + s;
+    if (ident_start(c)) {
+        /* letters, digits, '_', and '.' before a letter */
+        unsigned p = s + 1;
+        for (;;) {
+            while (ident_char(src[p]))
+                p++;
+            if (src[p] == '.' && ident_start(src[p + 1]))
+                p++;
+            else
+                break;
+        }
+        lx->pos = p;
+        t->kind = T_IDENT;
+        t->len = p - s;
+        t->loc = (ls_loc){lx->file, s, p};
+        return;
+    }
+    if (s >= lx->len) {
+        t->kind = T_EOF;
+        t->loc = (ls_loc){lx->file, lx->len, lx->len};
+        return;
+    }
+    if (c == '\n') {
+        lx->pos++;
+        lx->line_begin = lx->pos;
+        lx->line_too_long = false;
+        t->kind = T_NEWLINE;
+        t->loc = (ls_loc){lx->file, s, s + 1};
+        return;
+    }
+    if (is_digit(c))
+        lex_number(lx, t);
+    else
+        lex_other(lx, t, s, c);
 }

@@ -32,6 +32,8 @@ typedef struct ls_lexer {
     bool line_too_long;      /* reported once per line */
 } ls_lexer;
 
+/* Scan registered file `file`; its text is NUL-terminated (ls_sources_add),
+ * which ends the scanning loops without a bounds check per byte. */
 void ls_lex_init(ls_lexer *lx, ls_diags *d, int file);
 /* Next token; errors are reported to the diagnostics and come back as T_ERROR. */
 void ls_lex_next(ls_lexer *lx, ls_token *t);

@@ -4,6 +4,7 @@
 
 #include <errno.h>
 #include <limits.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -29,11 +30,14 @@ typedef struct parser {
     int inc_depth;
     inc_frame *incs;
     const char *dir;          /* directory of this file, for includes */
+    const ls_kind *last_kind; /* the part kind of the last part statement, */
+    unsigned last_kind_len;   /* most often that of the next one too */
 } parser;
 
 typedef struct stmt_list {
     ls_stmt **v;
     int n, cap;
+    ls_arena *a;              /* v is in this arena (the program's list, until it outgrows it); NULL: malloc */
 } stmt_list;
 
 static void parse_lines(parser *p, stmt_list *out, ls_stmt *block);
@@ -86,11 +90,19 @@ static void push(parser *p, stmt_list *l, ls_stmt *s)
 {
     if (l->n == l->cap) {
         int cap = l->cap ? l->cap * 2 : 16;
-        ls_stmt **v = realloc(l->v, (size_t)cap * sizeof *v);
+        ls_stmt **v = NULL;
+        if (l->cap <= INT_MAX / 2 && l->a) { /* outgrew its arena array: go on on the heap */
+            v = malloc((size_t)cap * sizeof *v);
+            if (v && l->n)
+                memcpy(v, l->v, (size_t)l->n * sizeof *v);
+        } else if (l->cap <= INT_MAX / 2) {
+            v = realloc(l->v, (size_t)cap * sizeof *v);
+        }
         if (!v) {
             p->a->failed = 1;
             return;
         }
+        l->a = NULL;
         l->v = v;
         l->cap = cap;
     }
@@ -120,9 +132,10 @@ static ls_loc span(ls_loc a, ls_loc b)
 
 static ls_expr *parse_sum(parser *p);
 
+/* A zeroed expression of kind k, only as large as that kind needs. */
 static ls_expr *new_expr(parser *p, ls_ekind k, ls_loc loc)
 {
-    ls_expr *e = ls_arena_alloc(p->a, sizeof *e);
+    ls_expr *e = ls_arena_alloc(p->a, ls_expr_size(k));
     if (e) {
         e->kind = k;
         e->loc = loc;
@@ -338,9 +351,23 @@ static ls_expr *parse_level(parser *p, int level)
     return a;
 }
 
+/* Whether a number is the whole operand: nothing after it binds to it. */
+static bool ends_operand(ls_tok k)
+{
+    switch (k) {
+    case T_PLUS: case T_MINUS: case T_STAR: case T_SLASH: case T_CARET: case T_PARALLEL: return false;
+    default: return true;
+    }
+}
+
 /* sum: a whole expression */
 static ls_expr *parse_sum(parser *p)
 {
+    /* A lone number at the top of an expression (most part values) is its
+     * own tree: the levels below would each pass it up unchanged, and at
+     * depth 0 none of them can reach the depth limit. */
+    if (p->expr_depth == 0 && p->tok.kind == T_NUMBER && ends_operand(peek(p)->kind))
+        return parse_primary(p);
     if (!enter(p)) {
         p->expr_depth--;
         return NULL;
@@ -405,7 +432,7 @@ static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_val
                     return false;
                 continue;
             }
-            expected(p, s->value && with_value ? "an option NAME=VALUE (the value is already given)"
+            expected(p, with_value && s->value ? "an option NAME=VALUE (the value is already given)"
                                                : "an option NAME=VALUE");
             return false;
         }
@@ -437,7 +464,9 @@ static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_val
                 return false;
         }
     }
-    s->opts = ls_arena_alloc(p->a, (size_t)(n ? n : 1) * sizeof *s->opts);
+    if (n == 0)
+        return true; /* opts stays NULL */
+    s->opts = ls_arena_alloc(p->a, (size_t)n * sizeof *s->opts);
     if (!s->opts)
         return false;
     memcpy(s->opts, buf, (size_t)n * sizeof *buf);
@@ -445,14 +474,14 @@ static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_val
     return true;
 }
 
-/* part -> KIND NAME [FROM '->' TO] [VALUE] {OPTION} */
-static ls_stmt *parse_part(parser *p)
+/* part -> KIND NAME [FROM '->' TO] [VALUE] {OPTION}
+ * The keyword is the part table's own string (k->name), not a copy. */
+static ls_stmt *parse_part(parser *p, const ls_kind *k)
 {
     ls_stmt *s = new_stmt(p, S_PART);
     if (!s)
         return NULL;
-    s->kw = tok_str(p, &p->tok);
-    s->kw_loc = p->tok.loc;
+    s->kw = k->name;
     advance(p);
     if (!expect_ident(p, "a part name", &s->name, &s->name_loc))
         return NULL;
@@ -499,8 +528,8 @@ static ls_stmt *parse_param(parser *p)
     return s->value ? s : NULL;
 }
 
-/* cmp -> '=' | '<' | '<=' | '>' | '>=' */
-static bool parse_cmp(parser *p, ls_cmp *c)
+/* cmp -> '=' | '<' | '<=' | '>' | '>=' | 'between'   (into an ls_cmp) */
+static bool parse_cmp(parser *p, unsigned char *c)
 {
     switch (p->tok.kind) {
     case T_EQ: *c = CMP_EQ; break;
@@ -622,13 +651,15 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
         pins[n++] = tok_str(p, &p->tok);
         advance(p);
     }
-    s->pins = ls_arena_alloc(p->a, (size_t)(n ? n : 1) * sizeof *s->pins);
-    s->pin_locs = ls_arena_alloc(p->a, (size_t)(n ? n : 1) * sizeof *s->pin_locs);
-    if (!s->pins || !s->pin_locs)
-        return NULL;
-    memcpy(s->pins, pins, (size_t)n * sizeof *pins);
-    memcpy(s->pin_locs, locs, (size_t)n * sizeof *locs);
-    s->npins = n;
+    if (n > 0) { /* no pins: both stay NULL */
+        s->pins = ls_arena_alloc(p->a, (size_t)n * sizeof *s->pins);
+        s->pin_locs = ls_arena_alloc(p->a, (size_t)n * sizeof *s->pin_locs);
+        if (!s->pins || !s->pin_locs)
+            return NULL;
+        memcpy(s->pins, pins, (size_t)n * sizeof *pins);
+        memcpy(s->pin_locs, locs, (size_t)n * sizeof *locs);
+        s->npins = n;
+    }
     if (!parse_options(p, s, true, false))
         return NULL;
     return s;
@@ -636,11 +667,26 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
 
 static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
 
+/* The part kind a name token names, or NULL.  The kind of the previous part
+ * statement is tried first: in a large circuit most lines repeat it. */
+static const ls_kind *find_kind(parser *p, const ls_token *t)
+{
+    if (p->last_kind && t->len == p->last_kind_len && memcmp(t->text, p->last_kind->name, t->len) == 0)
+        return p->last_kind;
+    const ls_kind *k = ls_kind_findn(t->text, t->len);
+    if (k) {
+        p->last_kind = k;
+        p->last_kind_len = t->len;
+    }
+    return k;
+}
+
 /* statement -> title | param | ground | include | block | use | expect | rule | part */
 static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
 {
     ls_token kw = p->tok;
     ls_stmt *s = NULL;
+    const ls_kind *k;
     if (kw.kind != T_IDENT) {
         expected(p, "a statement (a part kind or a keyword)");
         skip_line(p);
@@ -691,10 +737,12 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
             s->text_loc.end = p->tok.loc.start;
             stmt_list body = {0};
             parse_lines(p, &body, s);
-            s->body = ls_arena_alloc(p->a, (size_t)(body.n ? body.n : 1) * sizeof *s->body);
-            if (s->body && body.n) /* an empty body has no array to copy */
-                memcpy(s->body, body.v, (size_t)body.n * sizeof *body.v);
-            s->nbody = body.n;
+            if (body.n) { /* an empty body stays NULL */
+                s->body = ls_arena_alloc(p->a, (size_t)body.n * sizeof *s->body);
+                if (s->body)
+                    memcpy(s->body, body.v, (size_t)body.n * sizeof *body.v);
+            }
+            s->nbody = s->body ? body.n : 0; /* out of memory: the arena is marked failed */
             free(body.v);
             push(p, out, s);
             return;
@@ -708,8 +756,8 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
     } else if (is_word(&kw, "end")) {
         ls_error(p->d, kw.loc, "'end' without a 'block' to close");
         advance(p);
-    } else if (ls_kind_findn(kw.text, kw.len)) {
-        s = parse_part(p);
+    } else if ((k = find_kind(p, &kw))) {
+        s = parse_part(p, k);
     } else {
         char name[64];
         snprintf(name, sizeof name, "%.*s", (int)(kw.len < 60 ? kw.len : 60), kw.text);
@@ -766,7 +814,18 @@ char *ls_read_file(const char *path, size_t *len)
     FILE *f = fopen(path, "rb");
     if (!f)
         return NULL;
+    /* A regular file's size is known: one buffer one byte larger, so the read
+     * ends without growing it (a file that grows meanwhile still fits). */
     size_t cap = 1 << 16, n = 0;
+    struct stat st;
+    if (fstat(fileno(f), &st) == 0 && S_ISREG(st.st_mode) && st.st_size > 0) {
+        if ((uintmax_t)st.st_size >= LS_MAX_FILE_BYTES) {
+            fclose(f);
+            errno = EFBIG;
+            return NULL;
+        }
+        cap = (size_t)st.st_size + 1;
+    }
     char *buf = malloc(cap + 1);
     while (buf) {
         size_t r = fread(buf + n, 1, cap - n, f);
@@ -802,6 +861,33 @@ char *ls_read_file(const char *path, size_t *len)
         *len = n;
     }
     return buf;
+}
+
+/* A file's text, NUL-terminated, to parse and let go: a regular file is read
+ * at its size into `tmp` (an arena of the caller's; a large one gets huge
+ * pages), anything else (or a file that changes size meanwhile) by
+ * ls_read_file into *heap, which the caller frees.  NULL (errno set) when the
+ * file cannot be read. */
+static char *load_text(ls_arena *tmp, const char *path, size_t *len, char **heap)
+{
+    *heap = NULL;
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return NULL;
+    struct stat st;
+    if (fstat(fileno(f), &st) == 0 && S_ISREG(st.st_mode) && (uintmax_t)st.st_size < LS_MAX_FILE_BYTES) {
+        size_t want = (size_t)st.st_size;
+        char *buf = ls_arena_alloc_bytes(tmp, want + 1);
+        size_t n = buf ? fread(buf, 1, want + 1, f) : 0;
+        if (buf && n == want && !ferror(f)) {
+            fclose(f);
+            buf[n] = 0;
+            *len = n;
+            return buf;
+        }
+    }
+    fclose(f);
+    return *heap = ls_read_file(path, len);
 }
 
 static const char *dir_of(ls_arena *a, const char *path)
@@ -882,13 +968,17 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
         return;
     }
     size_t len = 0;
-    char *text = ls_read_file(path, &len);
+    ls_arena tmp;
+    ls_arena_init(&tmp);
+    char *heap, *text = load_text(&tmp, path, &len, &heap);
     if (!text) {
         ls_error(p->d, sloc, "cannot read included file '%s': %s", path, strerror(errno));
+        ls_arena_free(&tmp);
         return;
     }
     int id = len < UINT_MAX ? ls_sources_add(p->d, path, text, (unsigned)len) : -1;
-    free(text);
+    free(heap);
+    ls_arena_free(&tmp);
     if (id < 0) {
         ls_error(p->d, sloc, "out of memory reading '%s'", path);
         return;
@@ -910,43 +1000,69 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
         fr.real = ls_arena_strdup(p.a, real);
     else
         fr.real = "";
+    /* The program's list goes straight into the arena, sized for the most
+     * statements the file can hold: one a line, and one per 6 bytes (the
+     * shortest, `led d`, and its newline), so the list is never much larger
+     * than the text.  Includes can make it outgrow that (as would a
+     * miscount: it is only a first size); it then goes on on the heap and is
+     * copied into the arena at the end. */
     stmt_list out = {0};
+    size_t most = d->files[file].len / 6 + 1;
+    int cap = (size_t)d->files[file].nlines < most ? d->files[file].nlines : (int)most;
+    out.v = ls_arena_alloc(p.a, (size_t)cap * sizeof *out.v);
+    if (out.v) {
+        out.cap = cap;
+        out.a = p.a;
+    }
     parse_registered(&p, file, dir_of(p.a, path), &fr, 0, &out, NULL);
-    prog->stmts = ls_arena_alloc(p.a, (size_t)(out.n ? out.n : 1) * sizeof *prog->stmts);
-    if (prog->stmts && out.n) /* an empty file has no array to copy */
-        memcpy(prog->stmts, out.v, (size_t)out.n * sizeof *out.v);
-    prog->n = out.n;
-    free(out.v);
+    if (out.a) {
+        prog->stmts = out.v;
+    } else {
+        prog->stmts = ls_arena_alloc(p.a, (size_t)(out.n ? out.n : 1) * sizeof *prog->stmts);
+        if (prog->stmts && out.n) /* an empty file has no array to copy */
+            memcpy(prog->stmts, out.v, (size_t)out.n * sizeof *out.v);
+        free(out.v);
+    }
+    prog->n = prog->stmts ? out.n : 0;
     return d->errors - errors0;
+}
+
+/* Register a top-level text; its file id, or -1 after reporting why not. */
+static int register_text(ls_diags *d, const char *name, const char *text, size_t len)
+{
+    if (len >= LS_MAX_FILE_BYTES) {
+        ls_error(d, LS_NOLOC, "'%s' is larger than %u bytes", name, LS_MAX_FILE_BYTES);
+        return -1;
+    }
+    int id = ls_sources_add(d, name, text, (unsigned)len);
+    if (id < 0)
+        ls_error(d, LS_NOLOC, "out of memory reading '%s'", name);
+    return id;
 }
 
 int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog)
 {
     memset(prog, 0, sizeof *prog);
-    if (len >= LS_MAX_FILE_BYTES) {
-        ls_error(d, LS_NOLOC, "'%s' is larger than %u bytes", name, LS_MAX_FILE_BYTES);
-        return 1;
-    }
-    int id = ls_sources_add(d, name, text, (unsigned)len);
-    if (id < 0) {
-        ls_error(d, LS_NOLOC, "out of memory reading '%s'", name);
-        return 1;
-    }
-    return parse_top(d, id, name, prog);
+    int id = register_text(d, name, text, len);
+    return id < 0 ? 1 : parse_top(d, id, name, prog);
 }
 
 int ls_parse_file(ls_diags *d, const char *path, ls_program *prog)
 {
     memset(prog, 0, sizeof *prog);
     size_t len = 0;
-    char *text = ls_read_file(path, &len);
+    ls_arena tmp;
+    ls_arena_init(&tmp);
+    char *heap, *text = load_text(&tmp, path, &len, &heap);
     if (!text) {
         ls_error(d, LS_NOLOC, "cannot read '%s': %s", path, strerror(errno));
+        ls_arena_free(&tmp);
         return 1;
     }
-    int r = ls_parse_string(d, path, text, len, prog);
-    free(text);
-    return r;
+    int id = register_text(d, path, text, len);
+    free(heap); /* before parsing, so the tree can reuse the pages */
+    ls_arena_free(&tmp);
+    return id < 0 ? 1 : parse_top(d, id, path, prog);
 }
 
 ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect)

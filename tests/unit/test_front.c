@@ -1,0 +1,407 @@
+/* test_front.c — the front end's memory and tree: the arena (alignment,
+ * zeroed memory, large blocks, the failure flag), numbers read without strtod
+ * against the C library's strtod, and every statement kind's fields in the
+ * compact syntax tree against the positions of the source text. */
+#include <CUnit/Basic.h>
+#include <math.h>
+#include <stdalign.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "lexer.h"
+#include "parser.h"
+
+static uint64_t next64(uint64_t *s) /* splitmix64 (Steele, Lea, Flood, OOPSLA 2014) */
+{
+    uint64_t z = (*s += 0x9e3779b97f4a7c15ull);
+    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ull;
+    z = (z ^ (z >> 27)) * 0x94d049bb133111ebull;
+    return z ^ (z >> 31);
+}
+
+static int all_zero(const unsigned char *p, size_t n)
+{
+    for (size_t i = 0; i < n; i++)
+        if (p[i])
+            return 0;
+    return 1;
+}
+
+/* ---- arena ------------------------------------------------------------------------------ */
+
+/* C11 7.19: max_align_t is the alignment of every scalar type; a type that
+ * needs it has a size that is a multiple of it. */
+static void test_arena_alignment(void)
+{
+    ls_arena a;
+    ls_arena_init(&a);
+    int wrong = 0;
+    for (size_t size = 0; size <= 200; size++) {
+        ls_arena_strndup(&a, "x", size % 3); /* unaligned text in between */
+        uintptr_t p = (uintptr_t)ls_arena_alloc(&a, size);
+        wrong += p == 0;
+        if (size % alignof(max_align_t) == 0)
+            wrong += p % alignof(max_align_t) != 0;
+        wrong += p % alignof(double) != 0 || p % alignof(void *) != 0;
+    }
+    CU_ASSERT_EQUAL(wrong, 0);
+    CU_ASSERT_FALSE(a.failed);
+    ls_arena_free(&a);
+}
+
+/* Zeroed allocations stay zeroed however text, printf output and large blocks
+ * are mixed in, across many blocks; text keeps its contents. */
+static void test_arena_zero_and_contents(void)
+{
+    ls_arena a;
+    ls_arena_init(&a);
+    uint64_t seed = 5;
+    enum { N = 60000 };
+    char **text = malloc(N * sizeof *text);
+    unsigned char **zero = malloc(N * sizeof *zero);
+    size_t *zlen = malloc(N * sizeof *zlen);
+    int wrong = 0;
+    for (int i = 0; i < N; i++) {
+        char buf[64];
+        snprintf(buf, sizeof buf, "s%d-%llu", i, (unsigned long long)(next64(&seed) % 100000));
+        text[i] = i % 3 ? ls_arena_strdup(&a, buf) : ls_arena_printf(&a, "%s", buf);
+        size_t rn = next64(&seed) % 40;
+        char *raw = ls_arena_alloc_bytes(&a, rn); /* the caller's bytes: dirtied */
+        memset(raw, 0xff, rn);
+        zlen[i] = i % 997 == 0 ? (size_t)(3 << 20) + next64(&seed) % 4096 : next64(&seed) % 300;
+        zero[i] = ls_arena_alloc(&a, zlen[i]);
+        wrong += !all_zero(zero[i], zlen[i]);
+        memset(zero[i], 0xa5, zlen[i] < 64 ? zlen[i] : 64); /* dirty it afterwards */
+    }
+    for (int i = 0; i < N; i++) {
+        char buf[64];
+        snprintf(buf, sizeof buf, "s%d-", i);
+        wrong += strncmp(text[i], buf, strlen(buf)) != 0;
+        if (zlen[i] > 64)
+            wrong += !all_zero(zero[i] + 64, zlen[i] - 64);
+    }
+    CU_ASSERT_EQUAL(wrong, 0);
+    CU_ASSERT_FALSE(a.failed);
+    CU_ASSERT(a.used <= a.reserved);
+    CU_ASSERT(a.reserved > (size_t)60 * (3 << 20)); /* the large ones got blocks of their own */
+    ls_arena_free(&a);
+    CU_ASSERT_EQUAL(a.used, 0);
+    CU_ASSERT_PTR_NOT_NULL(ls_arena_alloc(&a, 0)); /* usable again, size 0 included */
+    ls_arena_free(&a);
+    free(text);
+    free(zero);
+    free(zlen);
+}
+
+/* printf into the arena gives what the C library's snprintf gives. */
+static void test_arena_printf(void)
+{
+    ls_arena a;
+    ls_arena_init(&a);
+    char want[128];
+    snprintf(want, sizeof want, "%s|%5d|%.17g|%x", "node", 42, 0.1, 255u);
+    CU_ASSERT_STRING_EQUAL(ls_arena_printf(&a, "%s|%5d|%.17g|%x", "node", 42, 0.1, 255u), want);
+    CU_ASSERT_STRING_EQUAL(ls_arena_strndup(&a, "abcdef", 3), "abc");
+    ls_arena_free(&a);
+}
+
+/* A request that cannot be met sets failed, which stays set. */
+static void test_arena_failed(void)
+{
+    ls_arena a;
+    ls_arena_init(&a);
+    CU_ASSERT_PTR_NOT_NULL(ls_arena_alloc(&a, 10));
+    CU_ASSERT_PTR_NULL(ls_arena_alloc(&a, SIZE_MAX - 8));
+    CU_ASSERT(a.failed);
+    CU_ASSERT_PTR_NULL(ls_arena_alloc_bytes(&a, SIZE_MAX / 2));
+    CU_ASSERT_PTR_NOT_NULL(ls_arena_alloc(&a, 10));
+    CU_ASSERT(a.failed);
+    ls_arena_free(&a);
+}
+
+/* ---- numbers ---------------------------------------------------------------------------- */
+
+/* The lexer's value of text (one number token), or NAN on an error. */
+static double lex_value(const char *text)
+{
+    ls_arena a;
+    ls_diags d;
+    ls_arena_init(&a);
+    ls_diags_init(&d, &a);
+    int id = ls_sources_add(&d, "n", text, (unsigned)strlen(text));
+    ls_lexer lx;
+    ls_lex_init(&lx, &d, id);
+    ls_token t;
+    ls_lex_next(&lx, &t);
+    double v = t.kind == T_NUMBER && d.errors == 0 ? t.num : NAN;
+    ls_diags_free(&d);
+    ls_arena_free(&a);
+    return v;
+}
+
+/* Random decimals (1 to 20 digits, a fraction or not, an exponent of 1 to 4
+ * digits or none) read exactly as glibc's strtod reads them (correctly
+ * rounded: ISO C 7.22.1.3 with IEEE 754 arithmetic), bit for bit. */
+static void test_numbers_match_strtod(void)
+{
+    uint64_t seed = 42;
+    int wrong = 0, checked = 0;
+    for (int i = 0; i < 200000; i++) {
+        char s[64];
+        int n = 0;
+        int digits = 1 + (int)(next64(&seed) % 20);
+        int point = next64(&seed) % 2 ? (int)(next64(&seed) % (unsigned)digits) : -1;
+        for (int k = 0; k < digits; k++) {
+            if (k == point && k > 0)
+                s[n++] = '.';
+            s[n++] = (char)('0' + next64(&seed) % 10);
+        }
+        if (next64(&seed) % 2) {
+            s[n++] = next64(&seed) % 2 ? 'e' : 'E';
+            int sign = (int)(next64(&seed) % 3);
+            if (sign)
+                s[n++] = sign == 1 ? '-' : '+';
+            int ed = 1 + (int)(next64(&seed) % 4);
+            for (int k = 0; k < ed; k++)
+                s[n++] = (char)('0' + (k == 0 ? next64(&seed) % 4 : next64(&seed) % 10));
+        }
+        s[n] = 0;
+        double want = strtod(s, NULL);
+        double got = lex_value(s);
+        if (!isfinite(want)) {
+            wrong += !isnan(got); /* out of range is an error */
+            continue;
+        }
+        checked++;
+        if (memcmp(&want, &got, sizeof want) != 0) {
+            if (wrong < 5)
+                fprintf(stderr, "number '%s': lexer %.17g, strtod %.17g\n", s, got, want);
+            wrong++;
+        }
+    }
+    CU_ASSERT_EQUAL(wrong, 0);
+    CU_ASSERT(checked > 150000);
+    /* a few by hand: the largest exact powers, many digits, leading zeros */
+    static const char *const cases[] = {"1e22", "9e22", "123456789012345", "1234567890123456",
+                                        "0.000000000000000000001", "4.7", "0.1", "3.3e-22", "007",
+                                        "2.5E+2", ".5", "1e-320"};
+    for (size_t k = 0; k < sizeof cases / sizeof cases[0]; k++) {
+        double want = strtod(cases[k], NULL), got = lex_value(cases[k]);
+        CU_ASSERT_EQUAL(memcmp(&want, &got, sizeof want), 0);
+    }
+}
+
+/* ---- the tree --------------------------------------------------------------------------- */
+
+static const char *const CIRCUIT =
+    "title \"Soil probe\"\n"
+    "param vref = 3.3 V\n"
+    "param k = max(1, 2, 3) * -vref\n"
+    "ground gnd\n"
+    "block divider top bottom mid ratio=0.5 spare=\n"
+    "  resistor ra top -> mid 10k\n"
+    "  resistor rb mid -> bottom 10k*ratio\n"
+    "end\n"
+    "use divider d1 top=vref_n bottom=gnd mid=probe\n"
+    "voltage vs gnd -> vref_n vref\n"
+    "resistor rload probe -> gnd 1M tol=1%\n"
+    "opamp u1 plus=probe minus=out out=out\n"
+    "expect probe = 1.65 V within 2%\n"
+    "expect probe between 1 V and 2 V\n"
+    "rule ratio >= 10\n";
+
+/* Byte offset of the n-th (from 0) occurrence of what, after the start of
+ * the line that begins with line. */
+static unsigned at(const char *line, const char *what, int n)
+{
+    const char *l = strstr(CIRCUIT, line);
+    const char *p = strstr(l, what);
+    while (n-- > 0)
+        p = strstr(p + 1, what);
+    return (unsigned)(p - CIRCUIT);
+}
+
+static int loc_is(ls_loc l, unsigned start, size_t len)
+{
+    return l.start == start && l.end == start + len;
+}
+
+static void test_tree_fields(void)
+{
+    ls_arena a;
+    ls_diags d;
+    ls_arena_init(&a);
+    ls_diags_init(&d, &a);
+    ls_program prog;
+    CU_ASSERT_EQUAL_FATAL(ls_parse_string(&d, "t.stack", CIRCUIT, strlen(CIRCUIT), &prog), 0);
+    CU_ASSERT_EQUAL_FATAL(prog.n, 12);
+    ls_stmt *const *s = prog.stmts;
+
+    CU_ASSERT_EQUAL(s[0]->kind, S_TITLE);
+    CU_ASSERT_STRING_EQUAL(s[0]->name, "Soil probe");
+
+    CU_ASSERT_EQUAL(s[1]->kind, S_PARAM);
+    CU_ASSERT_STRING_EQUAL(s[1]->name, "vref");
+    CU_ASSERT(loc_is(s[1]->name_loc, at("param vref", "vref", 0), 4));
+    CU_ASSERT_EQUAL(s[1]->value->kind, E_NUM);
+    CU_ASSERT_EQUAL(s[1]->value->num, 3.3);
+    CU_ASSERT(s[1]->value->dims.known && s[1]->value->dims.v == 1 && s[1]->value->dims.a == 0);
+    CU_ASSERT(loc_is(s[1]->value->loc, at("param vref", "3.3 V", 0), 5));
+
+    const ls_expr *k = s[2]->value; /* max(1, 2, 3) * -vref */
+    CU_ASSERT_EQUAL_FATAL(k->kind, E_BIN);
+    CU_ASSERT_EQUAL(k->op, T_STAR);
+    CU_ASSERT(loc_is(k->op_loc, at("param k", "*", 0), 1));
+    CU_ASSERT_EQUAL_FATAL(k->a->kind, E_CALL);
+    CU_ASSERT_EQUAL(k->a->op, F_MAX);
+    CU_ASSERT_EQUAL_FATAL(k->a->nargs, 3);
+    CU_ASSERT_EQUAL(k->a->args[2]->kind, E_NUM);
+    CU_ASSERT_EQUAL(k->a->args[2]->num, 3);
+    CU_ASSERT(loc_is(k->a->loc, at("param k", "max", 0), strlen("max(1, 2, 3)")));
+    CU_ASSERT_EQUAL_FATAL(k->b->kind, E_NEG);
+    CU_ASSERT_EQUAL_FATAL(k->b->a->kind, E_NAME);
+    CU_ASSERT_STRING_EQUAL(k->b->a->name, "vref");
+
+    CU_ASSERT_EQUAL(s[3]->kind, S_GROUND);
+    CU_ASSERT_STRING_EQUAL(s[3]->name, "gnd");
+
+    const ls_stmt *b = s[4];
+    CU_ASSERT_EQUAL_FATAL(b->kind, S_BLOCK);
+    CU_ASSERT_STRING_EQUAL(b->name, "divider");
+    CU_ASSERT_EQUAL_FATAL(b->npins, 3);
+    CU_ASSERT_STRING_EQUAL(b->pins[2], "mid");
+    CU_ASSERT(loc_is(b->pin_locs[0], at("block", "top", 0), 3));
+    CU_ASSERT_EQUAL_FATAL(b->nopts, 2);
+    CU_ASSERT_STRING_EQUAL(b->opts[0].name, "ratio");
+    CU_ASSERT_EQUAL(b->opts[0].value->num, 0.5);
+    CU_ASSERT_PTR_NULL(b->opts[1].value); /* spare= has no default */
+    CU_ASSERT_PTR_NULL(b->value);
+    CU_ASSERT_EQUAL_FATAL(b->nbody, 2);
+    CU_ASSERT_EQUAL(b->body[0]->kind, S_PART);
+    CU_ASSERT_STRING_EQUAL(b->body[0]->kw, "resistor");
+    CU_ASSERT_STRING_EQUAL(b->body[1]->to, "bottom");
+    CU_ASSERT_EQUAL(b->body[1]->value->kind, E_BIN);
+    CU_ASSERT(loc_is(b->body[1]->value->op_loc, at("  resistor rb", "*", 0), 1));
+
+    const ls_stmt *u = s[5];
+    CU_ASSERT_EQUAL_FATAL(u->kind, S_USE);
+    CU_ASSERT_STRING_EQUAL(u->kw, "divider");
+    CU_ASSERT(loc_is(u->kw_loc, at("use", "divider", 0), 7));
+    CU_ASSERT(loc_is(u->loc, at("use", "use", 0), 3));
+    CU_ASSERT_STRING_EQUAL(u->name, "d1");
+    CU_ASSERT_EQUAL_FATAL(u->nopts, 3);
+    CU_ASSERT_STRING_EQUAL(u->opts[2].value->name, "probe");
+
+    const ls_stmt *v = s[6];
+    CU_ASSERT_EQUAL_FATAL(v->kind, S_PART);
+    CU_ASSERT_STRING_EQUAL(v->kw, "voltage");
+    CU_ASSERT(v->arrow);
+    CU_ASSERT_STRING_EQUAL(v->name, "vs");
+    CU_ASSERT_STRING_EQUAL(v->from, "gnd");
+    CU_ASSERT_STRING_EQUAL(v->to, "vref_n");
+    CU_ASSERT(loc_is(v->loc, at("voltage vs", "voltage", 0), 7));
+    CU_ASSERT(loc_is(v->from_loc, at("voltage vs", "gnd", 0), 3));
+    CU_ASSERT(loc_is(v->to_loc, at("voltage vs", "vref_n", 0), 6));
+    CU_ASSERT(loc_is(v->text_loc, at("voltage vs", "voltage", 0), strlen("voltage vs gnd -> vref_n vref")));
+    CU_ASSERT_EQUAL(v->value->kind, E_NAME);
+    CU_ASSERT_EQUAL(v->nopts, 0);
+    CU_ASSERT_PTR_NULL(v->opts);
+
+    CU_ASSERT_EQUAL_FATAL(s[7]->nopts, 1);
+    CU_ASSERT_STRING_EQUAL(s[7]->opts[0].name, "tol");
+    CU_ASSERT_DOUBLE_EQUAL(s[7]->opts[0].value->num, 0.01, 1e-18);
+
+    const ls_stmt *o = s[8]; /* named pins: no arrow, no nodes */
+    CU_ASSERT_FALSE(o->arrow);
+    CU_ASSERT_PTR_NULL(o->from);
+    CU_ASSERT_PTR_NULL(o->to);
+    CU_ASSERT_PTR_NULL(o->value);
+    CU_ASSERT_EQUAL(o->nopts, 3);
+
+    const ls_stmt *e = s[9];
+    CU_ASSERT_EQUAL_FATAL(e->kind, S_EXPECT);
+    CU_ASSERT_EQUAL(e->cmp, CMP_EQ);
+    CU_ASSERT_STRING_EQUAL(e->lhs->name, "probe");
+    CU_ASSERT_EQUAL(e->rhs->num, 1.65);
+    CU_ASSERT_PTR_NULL(e->rhs2);
+    CU_ASSERT_DOUBLE_EQUAL(e->within->num, 0.02, 1e-18);
+
+    e = s[10];
+    CU_ASSERT_EQUAL(e->cmp, CMP_BETWEEN);
+    CU_ASSERT_EQUAL(e->rhs->num, 1);
+    CU_ASSERT_EQUAL(e->rhs2->num, 2);
+    CU_ASSERT_PTR_NULL(e->within);
+
+    const ls_stmt *r = s[11];
+    CU_ASSERT_EQUAL(r->kind, S_RULE);
+    CU_ASSERT_STRING_EQUAL(r->name, "ratio");
+    CU_ASSERT_EQUAL(r->cmp, CMP_GE);
+    CU_ASSERT_EQUAL(r->rhs->num, 10);
+
+    CU_ASSERT_FALSE(a.failed);
+    ls_diags_free(&d);
+    ls_arena_free(&a);
+}
+
+/* The program's list is sized for the top file's lines; an include brings
+ * more statements than that, so the list grows: every statement is kept, in
+ * order, the included ones spliced in where the include stands. */
+static void test_many_statements_with_include(void)
+{
+    char inc[] = "/tmp/ls_front_incXXXXXX";
+    int fd = mkstemp(inc);
+    CU_ASSERT_FATAL(fd >= 0);
+    FILE *f = fdopen(fd, "w");
+    for (int i = 0; i < 3000; i++)
+        fprintf(f, "resistor x%d a%d -> a%d 1\n", i, i, i + 1);
+    fclose(f);
+    size_t cap = 1 << 20, n = 0;
+    char *text = malloc(cap);
+    n += (size_t)snprintf(text + n, cap - n, "ground a0\ninclude \"%s\"\n", inc);
+    for (int i = 0; i < 2000; i++)
+        n += (size_t)snprintf(text + n, cap - n, "resistor y%d b%d -> b%d 2\n", i, i, i + 1);
+    ls_arena a;
+    ls_diags d;
+    ls_arena_init(&a);
+    ls_diags_init(&d, &a);
+    ls_program prog;
+    CU_ASSERT_EQUAL(ls_parse_string(&d, "main.stack", text, n, &prog), 0);
+    CU_ASSERT_EQUAL_FATAL(prog.n, 1 + 3000 + 2000);
+    int wrong = 0;
+    for (int i = 0; i < 3000; i++) {
+        char want[16];
+        snprintf(want, sizeof want, "x%d", i);
+        wrong += strcmp(prog.stmts[1 + i]->name, want) != 0;
+    }
+    for (int i = 0; i < 2000; i++) {
+        char want[16];
+        snprintf(want, sizeof want, "y%d", i);
+        wrong += strcmp(prog.stmts[3001 + i]->name, want) != 0;
+    }
+    CU_ASSERT_EQUAL(wrong, 0);
+    ls_diags_free(&d);
+    ls_arena_free(&a);
+    free(text);
+    remove(inc);
+}
+
+int main(void)
+{
+    if (CU_initialize_registry() != CUE_SUCCESS)
+        return 1;
+    CU_pSuite s = CU_add_suite("front", NULL, NULL);
+    CU_add_test(s, "arena alignment", test_arena_alignment);
+    CU_add_test(s, "arena zeroed memory and contents", test_arena_zero_and_contents);
+    CU_add_test(s, "arena printf", test_arena_printf);
+    CU_add_test(s, "arena failure flag", test_arena_failed);
+    CU_add_test(s, "numbers as strtod reads them", test_numbers_match_strtod);
+    CU_add_test(s, "tree fields of every statement kind", test_tree_fields);
+    CU_add_test(s, "many statements with an include", test_many_statements_with_include);
+    CU_basic_set_mode(CU_BRM_VERBOSE);
+    CU_basic_run_tests();
+    unsigned fails = CU_get_number_of_failures();
+    CU_cleanup_registry();
+    return fails ? 1 : 0;
+}
