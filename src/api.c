@@ -333,7 +333,7 @@ int ls_circuit_part_index(const ls_circuit *c, const char *name)
 /* The word for an op-amp's output limit in force (as the JSON report has it). */
 static const char *limit_word(const ls_part *p)
 {
-    switch (p->state) {
+    switch (p->run->state) {
     case LS_LIM_RAIL_HIGH: return "rail-high";
     case LS_LIM_RAIL_LOW: return "rail-low";
     case LS_LIM_CURRENT_SOURCE:

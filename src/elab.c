@@ -125,21 +125,22 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         ls_error(x->d, loc, "name is longer than %d bytes", LS_MAX_NAME_BYTES);
         return -1;
     }
-    int e = ls_hash_get(&nl->names, full);
-    if (e >= 0) {
+    /* Room for the entity first, so nothing can fail once the name is in. */
+    if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
+        return -1;
+    int e;
+    int r = ls_hash_intern(&nl->names, full, nl->nents, &e);
+    if (r < 0) {
+        out_of_memory(x);
+        return -1;
+    }
+    if (r == 0) {
         ls_entity *o = &nl->ents[e];
         ls_error(x->d, loc, "'%s' is already declared as a %s", full, ent_what(o->kind));
         note_decl(x, o->loc, full);
         return -1;
     }
-    if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
-        return -1;
-    e = nl->nents++;
-    nl->ents[e] = (ls_entity){kind, index, loc};
-    if (ls_hash_put(&nl->names, full, e) != 0) {
-        out_of_memory(x);
-        return -1;
-    }
+    nl->ents[nl->nents++] = (ls_entity){kind, index, loc};
     return e;
 }
 
@@ -170,8 +171,27 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
     if (strcmp(name, "ground") == 0 || (nl->ground_name && strcmp(name, nl->ground_name) == 0))
         return 0;
     const char *full = qualify(x, s, name);
-    int e = ls_hash_get(&nl->names, full);
     bool dotted = strchr(name, '.') != NULL;
+    int e = -1, i = -1;
+    /* One probe finds the node or makes it, when a new node cannot fail;
+     * otherwise (a limit or no memory) new_node reports why. */
+    if (nl->nnodes < LS_MAX_NODES && strlen(full) <= LS_MAX_NAME_BYTES &&
+        grow((void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents) &&
+        grow((void **)&nl->nodes, &nl->cap_nodes, nl->nnodes + 1, sizeof *nl->nodes)) {
+        int r = ls_hash_intern(&nl->names, full, nl->nents, &e);
+        if (r < 0) {
+            out_of_memory(x);
+            return -1;
+        }
+        if (r == 1) {
+            i = nl->nnodes++;
+            nl->nodes[i] = (ls_node){.name = full, .loc = loc, .scope_depth = s->depth};
+            nl->ents[nl->nents++] = (ls_entity){ENT_NODE, i, loc};
+            e = -1;
+        }
+    } else {
+        e = ls_hash_get(&nl->names, full);
+    }
     if (e >= 0) {
         ls_entity *o = &nl->ents[e];
         if (o->kind == ENT_NODE || o->kind == ENT_ALIAS) {
@@ -183,7 +203,8 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
         note_decl(x, o->loc, full);
         return -1;
     }
-    int i = new_node(x, full, loc, s->depth);
+    if (i < 0)
+        i = new_node(x, full, loc, s->depth);
     if (i < 0)
         return -1;
     if (dotted) {
@@ -866,6 +887,13 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         p.pin[i] = -1;
     p.name = qualify(x, s, st->name);
     p.instance = s->prefix[0] ? s->prefix : NULL;
+    if (k->has_run) {
+        p.run = ls_arena_alloc(x->a, sizeof *p.run);
+        if (!p.run) {
+            out_of_memory(x);
+            return;
+        }
+    }
     int errs = x->d->errors;
 
     if (k->shape == SHAPE_TWO && !st->arrow) {
@@ -1441,7 +1469,7 @@ static bool size_block(elab *x, int bi, bsize *sz)
  * blocks that use each other twice at every level make 2^n): the error is at
  * the top-level statement that crosses the limit.  Returns true when the
  * expansion may go ahead. */
-static bool expansion_fits(elab *x, const ls_program *prog)
+static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
 {
     bsize *sz = calloc((size_t)(x->nblocks ? x->nblocks : 1), sizeof *sz);
     if (!sz)
@@ -1474,6 +1502,7 @@ static bool expansion_fits(elab *x, const ls_program *prog)
         }
     }
     free(sz);
+    *nparts = parts;
     return ok;
 }
 
@@ -1495,8 +1524,14 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
     collect_blocks(&x, prog);
     ground_and_title(&x, prog);
     scope top = {"", NULL, NULL, 0};
-    if (expansion_fits(&x, prog))
+    long long nparts = 0;
+    if (expansion_fits(&x, prog, &nparts)) {
+        /* Room in the name table for every part and, as a guess, half as many
+         * nodes again, so that a large circuit does not rehash as it grows
+         * (a failure here only means the table grows as it goes). */
+        ls_hash_reserve(&nl->names, (size_t)nparts + (size_t)nparts / 2 + 16);
         elab_body(&x, &top, prog->stmts, prog->n);
+    }
     resolve_refs(&x);
     final_checks(&x);
     /* names and syntax live in the arena: a failed allocation there may have

@@ -33,6 +33,24 @@ typedef struct ls_node {
     bool claimed;          /* a block body declared it */
 } ls_node;
 
+/* Analysis state, written by the operating-point iteration (analysis.c,
+ * newton.c) and read by the stamps, so every analysis that re-stamps the
+ * system (ports, sag, sens) sees the circuit linearized at its solution.
+ * Only sources, op-amps, junctions, thermistors and ADC inputs have one. */
+typedef struct ls_part_run {
+    double op_v;           /* junction: voltage (V, anode -> cathode) the companion model is stamped at */
+    double op_t;           /* ntc: body temperature (degC) its resistance is stamped at */
+    double heat_t, heat_f; /* ntc: the previous temperature and its image (secant on self-heating) */
+    double shunt_s;        /* gmin stepping: extra conductance (S) across a junction */
+    double src_cut;        /* source stepping: fraction of a source's value left out (0 = all of it) */
+    int state;             /* op-amp: LS_LIM_* in force */
+    int side;              /* op-amp: 1 while sinking (its current returns into the lower rail) */
+    int releases;          /* op-amp: times a rail was let go (positive feedback shows as repeats) */
+    bool open_loop;        /* op-amp: ideal with rails, singular when free (a comparator): only rails */
+    bool probed;           /* op-amp: its upper rail has been tried once from a free solution */
+    bool probing;          /* op-amp: held at that rail only to try it */
+} ls_part_run;
+
 /* One part of the flat circuit.  The record is kept small (a large grid has
  * millions of them): options and ranges live in side arrays in the netlist's
  * arena, allocated only for the parts that use them. */
@@ -47,14 +65,7 @@ typedef struct ls_part {
     const char *ref_name;  /* via= as written, resolved after elaboration */
     const char *ref_scope;
     double value;          /* the main value (resistance, voltage, gain, ...) */
-    /* Analysis state, written by the operating-point iteration (analysis.c,
-     * newton.c) and read by the stamps, so every analysis that re-stamps the
-     * system (ports, sag, sens) sees the circuit linearized at its solution. */
-    double op_v;           /* junction: voltage (V, anode -> cathode) the companion model is stamped at */
-    double op_t;           /* ntc: body temperature (degC) its resistance is stamped at */
-    double heat_t, heat_f; /* ntc: the previous temperature and its image (secant on self-heating) */
-    double shunt_s;        /* gmin stepping: extra conductance (S) across a junction */
-    double src_cut;        /* source stepping: fraction of a source's value left out (0 = all of it) */
+    ls_part_run *run;      /* analysis state for kinds that have one (ls_kind.has_run), else NULL */
     ls_loc loc;            /* the name in the statement */
     ls_loc value_loc;
     ls_loc ref_loc;
@@ -62,13 +73,7 @@ typedef struct ls_part {
     uint32_t has_opt;      /* bit i: option i was given */
     int ref;               /* via= part index, -1 */
     int branch;            /* first MNA branch unknown, -1 if none (set by the MNA builder) */
-    int state;             /* op-amp: LS_LIM_* in force */
-    int side;              /* op-amp: 1 while sinking (its current returns into the lower rail) */
-    int releases;          /* op-amp: times a rail was let go (positive feedback shows as repeats) */
     bool has_value;
-    bool open_loop;        /* op-amp: ideal with rails, singular when free (a comparator): only rails */
-    bool probed;           /* op-amp: its upper rail has been tried once from a free solution */
-    bool probing;          /* op-amp: held at that rail only to try it */
 } ls_part;
 _Static_assert(LS_MAX_OPTS <= 32, "ls_part.has_opt holds one bit per option");
 

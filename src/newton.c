@@ -57,14 +57,16 @@ void ls_newton_init(const ls_netlist *nl)
 {
     for (int i = 0; i < nl->nparts; i++) {
         ls_part *p = &nl->parts[i];
-        p->state = LS_LIM_NONE;
-        p->side = 0;
-        p->open_loop = false;
-        p->probed = false;
-        p->probing = false;
-        p->releases = 0;
-        p->shunt_s = 0;
-        p->src_cut = 0;
+        if (!p->run)
+            continue; /* a part without analysis state */
+        p->run->state = LS_LIM_NONE;
+        p->run->side = 0;
+        p->run->open_loop = false;
+        p->run->probed = false;
+        p->run->probing = false;
+        p->run->releases = 0;
+        p->run->shunt_s = 0;
+        p->run->src_cut = 0;
         if (p->kind->init)
             p->kind->init(p);
     }
@@ -81,10 +83,12 @@ static int save(const ls_netlist *nl, saved *s)
     if (!s->state || !s->side || !s->op_v || !s->op_t)
         return -1;
     for (int i = 0; i < nl->nparts; i++) {
-        s->state[i] = nl->parts[i].state;
-        s->side[i] = nl->parts[i].side;
-        s->op_v[i] = nl->parts[i].op_v;
-        s->op_t[i] = nl->parts[i].op_t;
+        if (!nl->parts[i].run)
+            continue;
+        s->state[i] = nl->parts[i].run->state;
+        s->side[i] = nl->parts[i].run->side;
+        s->op_v[i] = nl->parts[i].run->op_v;
+        s->op_t[i] = nl->parts[i].run->op_t;
     }
     return 0;
 }
@@ -93,12 +97,14 @@ static int save(const ls_netlist *nl, saved *s)
 static void restore(const ls_netlist *nl, const saved *s)
 {
     for (int i = 0; i < nl->nparts; i++) {
-        nl->parts[i].state = s->state[i];
-        nl->parts[i].side = s->side[i];
-        nl->parts[i].op_v = s->op_v[i];
-        nl->parts[i].op_t = s->op_t[i];
-        if (nl->parts[i].open_loop && nl->parts[i].state == LS_LIM_NONE)
-            nl->parts[i].state = LS_LIM_RAIL_HIGH; /* a comparator is never free */
+        if (!nl->parts[i].run)
+            continue;
+        nl->parts[i].run->state = s->state[i];
+        nl->parts[i].run->side = s->side[i];
+        nl->parts[i].run->op_v = s->op_v[i];
+        nl->parts[i].run->op_t = s->op_t[i];
+        if (nl->parts[i].run->open_loop && nl->parts[i].run->state == LS_LIM_NONE)
+            nl->parts[i].run->state = LS_LIM_RAIL_HIGH; /* a comparator is never free */
     }
 }
 
@@ -116,14 +122,16 @@ static void saved_free(saved *s)
 static void set_shunt(const ls_netlist *nl, double g)
 {
     for (int i = 0; i < nl->nparts; i++)
-        nl->parts[i].shunt_s = g;
+        if (nl->parts[i].run)
+            nl->parts[i].run->shunt_s = g;
 }
 
 /* Every independent source at the fraction a of its value. */
 static void set_source_scale(const ls_netlist *nl, double a)
 {
     for (int i = 0; i < nl->nparts; i++)
-        nl->parts[i].src_cut = 1 - a;
+        if (nl->parts[i].run)
+            nl->parts[i].run->src_cut = 1 - a;
 }
 
 /* Move every nonlinear part's linearization point; marks the ones that moved
@@ -156,22 +164,22 @@ static int update_opamps(ls_op *op, bool one_at_a_time, bool *moving)
         if (!p->kind->is_opamp || !ls_opamp_limited(p))
             continue;
         int side, next = ls_opamp_next(p, op->x, op->v, &side);
-        if (next == p->state && side == p->side)
+        if (next == p->run->state && side == p->run->side)
             continue;
         if (one_at_a_time && n)
             continue;
-        bool rail = p->state == LS_LIM_RAIL_HIGH || p->state == LS_LIM_RAIL_LOW;
-        bool counts = rail && next == LS_LIM_NONE && !p->probing;
-        p->probing = false;
-        if (counts && ++p->releases >= RELEASES_MAX && ls_part_has(p, ls_kind_opt(p->kind, "rails"))) {
+        bool rail = p->run->state == LS_LIM_RAIL_HIGH || p->run->state == LS_LIM_RAIL_LOW;
+        bool counts = rail && next == LS_LIM_NONE && !p->run->probing;
+        p->run->probing = false;
+        if (counts && ++p->run->releases >= RELEASES_MAX && ls_part_has(p, ls_kind_opt(p->kind, "rails"))) {
             /* Let go of a rail again and again: the free solution lies beyond the
              * rail while the rail pushes the other way, which is positive
              * feedback.  The output belongs at the rail its drive points to. */
-            p->open_loop = true;
-            next = p->state == LS_LIM_RAIL_HIGH ? LS_LIM_RAIL_LOW : LS_LIM_RAIL_HIGH;
+            p->run->open_loop = true;
+            next = p->run->state == LS_LIM_RAIL_HIGH ? LS_LIM_RAIL_LOW : LS_LIM_RAIL_HIGH;
         }
-        p->state = next;
-        p->side = side;
+        p->run->state = next;
+        p->run->side = side;
         if (moving)
             moving[i] = true;
         n++;
@@ -183,7 +191,7 @@ static int update_opamps(ls_op *op, bool one_at_a_time, bool *moving)
 static bool open_loop_candidate(const ls_part *p)
 {
     return p->kind->is_opamp && !p->has_value && ls_part_has(p, ls_kind_opt(p->kind, "rails")) &&
-           p->state == LS_LIM_NONE && !p->open_loop;
+           p->run->state == LS_LIM_NONE && !p->run->open_loop;
 }
 
 bool ls_newton_open_loop(ls_op *op, int col)
@@ -197,8 +205,8 @@ bool ls_newton_open_loop(ls_op *op, int col)
             pick = i;
     if (pick < 0)
         return false;
-    nl->parts[pick].open_loop = true;
-    nl->parts[pick].state = LS_LIM_RAIL_HIGH;
+    nl->parts[pick].run->open_loop = true;
+    nl->parts[pick].run->state = LS_LIM_RAIL_HIGH;
     return true;
 }
 
@@ -225,17 +233,17 @@ static int probe_rails(ls_op *op, bool *moving)
     int n = 0;
     for (int i = 0; i < nl->nparts; i++) {
         ls_part *p = &nl->parts[i];
-        if (!p->kind->is_opamp || p->probed || p->state != LS_LIM_NONE ||
+        if (!p->kind->is_opamp || p->run->probed || p->run->state != LS_LIM_NONE ||
             !ls_part_has(p, ls_kind_opt(p->kind, "rails")))
             continue;
-        p->probed = true;
+        p->run->probed = true;
         double hr = ls_part_opt(p, "headroom", 0), vout = op->v[p->pin[2]];
         double vhi = ls_level_v(&p->range[OA_RAILS][1], op->v) - hr;
         double vlo = ls_level_v(&p->range[OA_RAILS][0], op->v) + hr;
         if (!(vout < vhi - 1e-6 * (1 + fabs(vhi)) && vout > vlo + 1e-6 * (1 + fabs(vlo))))
             continue;
-        p->state = LS_LIM_RAIL_HIGH;
-        p->probing = true;
+        p->run->state = LS_LIM_RAIL_HIGH;
+        p->run->probing = true;
         moving[i] = true;
         n++;
     }
@@ -334,9 +342,9 @@ static int rails_only(const ls_netlist *nl, const bool *moving)
     int n = 0;
     for (int i = 0; i < nl->nparts; i++) {
         ls_part *p = &nl->parts[i];
-        if (!moving[i] || !p->kind->is_opamp || p->open_loop || !ls_part_has(p, ls_kind_opt(p->kind, "rails")))
+        if (!moving[i] || !p->kind->is_opamp || p->run->open_loop || !ls_part_has(p, ls_kind_opt(p->kind, "rails")))
             continue;
-        p->open_loop = true;
+        p->run->open_loop = true;
         n++;
     }
     return n;
@@ -384,14 +392,14 @@ static int beyond_check(ls_op *op)
         if (!nonlinear(p) || strcmp(p->kind->name, "ntc") == 0)
             continue;
         bool beyond;
-        double cur = ls_junction_current(p, p->op_v, &beyond);
-        if (fabs(p->op_v) > JUNCTION_VMAX) {
+        double cur = ls_junction_current(p, p->run->op_v, &beyond);
+        if (fabs(p->run->op_v) > JUNCTION_VMAX) {
             n++;
             ls_error(nl->diags, p->loc,
                      "the circuit cannot be solved: %s '%s' did not settle: it would need %.4g V across it, beyond "
                      "what any junction holds; the circuit forces a current through it that it blocks (a current "
                      "source into a junction in reverse?)",
-                     p->kind->name, p->name, p->op_v);
+                     p->kind->name, p->name, p->run->op_v);
             continue;
         }
         if (!beyond)
@@ -400,7 +408,7 @@ static int beyond_check(ls_op *op)
         ls_error(nl->diags, p->loc,
                  "the circuit cannot be solved: %s '%s' did not settle: it is held at %.4g V, where it would carry "
                  "%.3g A (beyond %g A no junction is modelled); nothing limits its current: add a series resistance",
-                 p->kind->name, p->name, p->op_v, cur, LS_JUNCTION_IMAX);
+                 p->kind->name, p->name, p->run->op_v, cur, LS_JUNCTION_IMAX);
     }
     return n;
 }
@@ -550,13 +558,13 @@ static void opamp_warnings(ls_op *op, int i)
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[i];
     char a[48], b[48];
-    switch (p->state) {
+    switch (p->run->state) {
     case LS_LIM_RAIL_HIGH:
     case LS_LIM_RAIL_LOW:
-        if (p->open_loop) {
+        if (p->run->open_loop) {
             ls_warning(nl->diags, p->loc, "opamp-saturated",
                        "op-amp '%s' has no negative feedback (a comparator): its output sits at its %s rail, %s",
-                       p->name, p->state == LS_LIM_RAIL_HIGH ? "upper" : "lower",
+                       p->name, p->run->state == LS_LIM_RAIL_HIGH ? "upper" : "lower",
                        eng(a, sizeof a, op->v[p->pin[2]], "V"));
             break;
         }
@@ -564,14 +572,14 @@ static void opamp_warnings(ls_op *op, int i)
                    "op-amp '%s' is saturated: its output is held at %s, its %s rail %s headroom, so its feedback no "
                    "longer sets the output",
                    p->name, eng(a, sizeof a, op->v[p->pin[2]], "V"),
-                   p->state == LS_LIM_RAIL_HIGH ? "upper" : "lower", p->state == LS_LIM_RAIL_HIGH ? "minus" : "plus");
+                   p->run->state == LS_LIM_RAIL_HIGH ? "upper" : "lower", p->run->state == LS_LIM_RAIL_HIGH ? "minus" : "plus");
         break;
     case LS_LIM_CURRENT_SOURCE:
     case LS_LIM_CURRENT_SINK:
         ls_warning(nl->diags, p->loc, "opamp-current-limit",
                    "op-amp '%s' is at its output current limit (%s %s): the load, not the feedback, sets its output "
                    "(%s)",
-                   p->name, p->state == LS_LIM_CURRENT_SOURCE ? "sourcing" : "sinking",
+                   p->name, p->run->state == LS_LIM_CURRENT_SOURCE ? "sourcing" : "sinking",
                    eng(a, sizeof a, ls_part_opt(p, "imax", 0), "A"), eng(b, sizeof b, op->v[p->pin[2]], "V"));
         break;
     default:

@@ -107,7 +107,7 @@ static void branch_rise(ls_sink *s, int from, int to, int k)
 /* Scale of a source's value during source stepping. */
 static double src_scale(const ls_part *p)
 {
-    return 1 - p->src_cut;
+    return 1 - p->run->src_cut;
 }
 
 static void lin_add(ls_lin *l, int idx, double c)
@@ -329,7 +329,7 @@ static void ccvs_stamp(const ls_part *p, ls_stamp_ctx *c)
 /* ---- op-amp ---------------------------------------------------------------------- */
 /* Pins: 0 plus, 1 minus, 2 out.  Without gain= it is a nullor: V+ = V-, no input
  * current, and the output supplies whatever current that takes.  Its branch
- * row depends on the limit in force (p->state):
+ * row depends on the limit in force (p->run->state):
  *   none        ideal: V+ - V- = -vos;  finite: V(out) - A (V+ - V- + vos) + rout I = 0
  *   rail-high   V(out) = V(upper rail) - headroom
  *   rail-low    V(out) = V(lower rail) + headroom
@@ -337,7 +337,7 @@ static void ccvs_stamp(const ls_part *p, ls_stamp_ctx *c)
  * The DC error model: vos in series with the + input, ib + ios/2 into the +
  * input and ib - ios/2 into the - input.  With rails= naming nodes, the output
  * current is drawn from the upper rail while sourcing and returned into the
- * lower rail while sinking (p->side), and iq flows from the upper rail to the
+ * lower rail while sinking (p->run->side), and iq flows from the upper rail to the
  * lower one. */
 
 /* Was option `name` given on this part? */
@@ -399,11 +399,11 @@ static void opamp_supply(const ls_part *p, ls_stamp_ctx *c)
     int hi = p->range[OA_RAILS][1].node, lo = p->range[OA_RAILS][0].node;
     double iq = ls_part_opt(p, "iq", 0) * sc;
     if (hi > 0) {
-        keep_a(s, ls_node_unknown(hi), k, p->side ? 0 : 1);
+        keep_a(s, ls_node_unknown(hi), k, p->run->side ? 0 : 1);
         ls_sink_b(s, ls_node_unknown(hi), -iq);
     }
     if (lo > 0) {
-        keep_a(s, ls_node_unknown(lo), k, p->side ? 1 : 0);
+        keep_a(s, ls_node_unknown(lo), k, p->run->side ? 1 : 0);
         ls_sink_b(s, ls_node_unknown(lo), iq);
     }
 }
@@ -415,7 +415,7 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
     double rin = ls_part_opt(p, "rin", 0), vos = ls_part_opt(p, "vos", 0) * src_scale(p);
     double hr = ls_part_opt(p, "headroom", 0) * src_scale(p), imax = ls_part_opt(p, "imax", INFINITY);
     if (c->derivative) {
-        if (p->has_value && p->state == LS_LIM_NONE) {
+        if (p->has_value && p->run->state == LS_LIM_NONE) {
             ls_sink_a(c->sink, k, pl, -1);
             ls_sink_a(c->sink, k, mi, 1);
             ls_sink_b(c->sink, k, vos);
@@ -431,7 +431,7 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (rin > 0)
         conductance(c->sink, pl, mi, 1 / rin);
     opamp_supply(p, c);
-    switch (p->state) {
+    switch (p->run->state) {
     case LS_LIM_RAIL_HIGH:
         clamp_row(c->sink, out, k, &p->range[OA_RAILS][1], -hr);
         return;
@@ -441,7 +441,7 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
     case LS_LIM_CURRENT_SOURCE:
     case LS_LIM_CURRENT_SINK:
         ls_sink_a(c->sink, k, k, 1);
-        ls_sink_b(c->sink, k, p->state == LS_LIM_CURRENT_SOURCE ? imax : -imax);
+        ls_sink_b(c->sink, k, p->run->state == LS_LIM_CURRENT_SOURCE ? imax : -imax);
         return;
     default:
         break;
@@ -480,24 +480,24 @@ int ls_opamp_next(const ls_part *p, const double *x, const double *v, int *side)
     double ei = isfinite(imax) ? 1e-9 * imax : 0;
     double d = opamp_drive(p, x, v);
     const double iside = 1e-12;
-    *side = i < -iside ? 1 : i > iside ? 0 : p->side;
-    if (p->open_loop) {
+    *side = i < -iside ? 1 : i > iside ? 0 : p->run->side;
+    if (p->run->open_loop) {
         /* no feedback sets it: the sign of the input difference picks the rail */
-        if (p->state == LS_LIM_NONE)
+        if (p->run->state == LS_LIM_NONE)
             return d >= 0 ? LS_LIM_RAIL_HIGH : LS_LIM_RAIL_LOW;
-        if (p->state == LS_LIM_RAIL_HIGH && d < -ev)
+        if (p->run->state == LS_LIM_RAIL_HIGH && d < -ev)
             return LS_LIM_RAIL_LOW;
-        if (p->state == LS_LIM_RAIL_LOW && d > ev)
+        if (p->run->state == LS_LIM_RAIL_LOW && d > ev)
             return LS_LIM_RAIL_HIGH;
-        if ((p->state == LS_LIM_RAIL_HIGH || p->state == LS_LIM_RAIL_LOW) && fabs(i) > imax + ei)
+        if ((p->run->state == LS_LIM_RAIL_HIGH || p->run->state == LS_LIM_RAIL_LOW) && fabs(i) > imax + ei)
             return i > 0 ? LS_LIM_CURRENT_SOURCE : LS_LIM_CURRENT_SINK;
-        if (p->state == LS_LIM_CURRENT_SOURCE && (d < -ev || vout > vhi + ev))
+        if (p->run->state == LS_LIM_CURRENT_SOURCE && (d < -ev || vout > vhi + ev))
             return d < -ev ? LS_LIM_RAIL_LOW : LS_LIM_RAIL_HIGH;
-        if (p->state == LS_LIM_CURRENT_SINK && (d > ev || vout < vlo - ev))
+        if (p->run->state == LS_LIM_CURRENT_SINK && (d > ev || vout < vlo - ev))
             return d > ev ? LS_LIM_RAIL_HIGH : LS_LIM_RAIL_LOW;
-        return p->state;
+        return p->run->state;
     }
-    switch (p->state) {
+    switch (p->run->state) {
     case LS_LIM_RAIL_HIGH:
         if (d < -ev)
             return LS_LIM_NONE;
@@ -640,10 +640,10 @@ static void junction_stamp(const ls_part *p, ls_stamp_ctx *c)
     }
     bool beyond = false;
     double g;
-    double i = junction_eval(&j, p->op_v, &g, &beyond);
-    g += LS_GMIN + p->shunt_s;
-    i += (LS_GMIN + p->shunt_s) * p->op_v;
-    double ieq = i - g * p->op_v;
+    double i = junction_eval(&j, p->run->op_v, &g, &beyond);
+    g += LS_GMIN + p->run->shunt_s;
+    i += (LS_GMIN + p->run->shunt_s) * p->run->op_v;
+    double ieq = i - g * p->run->op_v;
     int ja = a;
     if (in >= 0) {
         conductance(c->sink, a, in, 1 / j.rs);
@@ -673,12 +673,12 @@ static void junction_current(const ls_part *p, const ls_netlist *nl, ls_lin *out
     }
     bool beyond = false;
     double g;
-    double i = junction_eval(&j, p->op_v, &g, &beyond);
-    g += LS_GMIN + p->shunt_s;
-    i += (LS_GMIN + p->shunt_s) * p->op_v;
+    double i = junction_eval(&j, p->run->op_v, &g, &beyond);
+    g += LS_GMIN + p->run->shunt_s;
+    i += (LS_GMIN + p->run->shunt_s) * p->run->op_v;
     lin_add(out, N(p, 0), g);
     lin_add(out, N(p, 1), -g);
-    out->constant += i - g * p->op_v;
+    out->constant += i - g * p->run->op_v;
 }
 
 /* Junctions are always nonlinear. */
@@ -689,11 +689,11 @@ static void junction_init(ls_part *p)
 {
     junction j = junction_of(p);
     if (strcmp(p->kind->name, "led") == 0)
-        p->op_v = ls_part_opt(p, "vf", 2) - ls_part_opt(p, "at", 20e-3) * j.rs;
+        p->run->op_v = ls_part_opt(p, "vf", 2) - ls_part_opt(p, "at", 20e-3) * j.rs;
     else if (strcmp(p->kind->name, "zener") == 0)
-        p->op_v = 0;
+        p->run->op_v = 0;
     else
-        p->op_v = j.nvt * log(j.nvt / (sqrt(2) * j.is));
+        p->run->op_v = j.nvt * log(j.nvt / (sqrt(2) * j.is));
 }
 
 /* Junction-voltage limiting of one exponential term i0 exp(u/nvt): a step up
@@ -713,7 +713,7 @@ static double limit_up(double unew, double uold, double i0, double nvt)
 static bool junction_update(ls_part *p, const double *x)
 {
     junction j = junction_of(p);
-    double vnew = ls_junction_v(p, x), vold = p->op_v;
+    double vnew = ls_junction_v(p, x), vold = p->run->op_v;
     double v = vnew;
     if (vnew > vold) {
         v = limit_up(vnew, vold, j.is, j.nvt);
@@ -724,7 +724,7 @@ static bool junction_update(ls_part *p, const double *x)
     }
     if (!isfinite(v))
         v = vold;
-    p->op_v = v;
+    p->run->op_v = v;
     double tol = 1e-9 * j.nvt + 1e-12 * fabs(vnew);
     return v == vnew && fabs(vnew - vold) <= tol;
 }
@@ -805,7 +805,7 @@ double ls_ntc_r(const ls_part *p, double t_c)
 
 double ls_ntc_body(const ls_part *p)
 {
-    return ls_part_has(p, ls_kind_opt(p->kind, "dissipation")) ? p->op_t : ls_part_opt(p, "temp", 25);
+    return ls_part_has(p, ls_kind_opt(p->kind, "dissipation")) ? p->run->op_t : ls_part_opt(p, "temp", 25);
 }
 
 /* The conductance at the body temperature; derivative: d/d r25. */
@@ -839,8 +839,8 @@ static bool ntc_nonlinear(const ls_part *p)
 
 static void ntc_init(ls_part *p)
 {
-    p->op_t = ls_part_opt(p, "temp", 25);
-    p->heat_t = p->heat_f = NAN;
+    p->run->op_t = ls_part_opt(p, "temp", 25);
+    p->run->heat_t = p->run->heat_f = NAN;
 }
 
 /* Self-heating: the body temperature T solves T = F(T) = temp + P(T) /
@@ -850,22 +850,22 @@ static void ntc_init(ls_part *p)
  * runaway) it takes plain steps, which then run off to NTC_T_MAX. */
 static bool ntc_update(ls_part *p, const double *x)
 {
-    double v = xval(x, N(p, 0)) - xval(x, N(p, 1)), t = p->op_t;
+    double v = xval(x, N(p, 0)) - xval(x, N(p, 1)), t = p->run->op_t;
     double f = ls_part_opt(p, "temp", 25) + v * v / ls_ntc_r(p, t) / ls_part_opt(p, "dissipation", 1);
     double w = 1;
-    if (isfinite(p->heat_t) && t != p->heat_t) {
-        double slope = (f - p->heat_f) / (t - p->heat_t);
+    if (isfinite(p->run->heat_t) && t != p->run->heat_t) {
+        double slope = (f - p->run->heat_f) / (t - p->run->heat_t);
         if (slope < 0.95)
             w = fmin(20, 1 / (1 - slope));
     }
-    p->heat_t = t;
-    p->heat_f = f;
+    p->run->heat_t = t;
+    p->run->heat_f = f;
     double next = t + w * (f - t);
     if (!isfinite(next) || next > NTC_T_MAX)
         next = NTC_T_MAX;
     if (next < -KELVIN + 1)
         next = -KELVIN + 1;
-    p->op_t = next;
+    p->run->op_t = next;
     return fabs(f - t) <= 1e-9 * (1 + fabs(t)) && t < NTC_T_MAX;
 }
 
@@ -964,12 +964,12 @@ static const ls_kind kinds[] = {
                                    {"vmax", OPT_VALUE, LS_VOLT, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2,
      .branches = no_branch, .stamp = resistor_stamp, .current = resistor_current, .edges = two_edge},
-    {.name = "voltage", .shape = SHAPE_TWO, .doc = "voltage FROM -> TO VALUE [rs=R]  (V(TO) - V(FROM) = VALUE)",
+    {.name = "voltage", .has_run = true, .shape = SHAPE_TWO, .doc = "voltage FROM -> TO VALUE [rs=R]  (V(TO) - V(FROM) = VALUE)",
      .value_slot = true, .value_dims = LS_VOLT, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"rs", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL}}, .nopts = NCOMMON + 1,
      .npins = 2, .branches = one_branch, .stamp = vsource_stamp, .current = current_branch,
      .edges = vsource_edges},
-    {.name = "current", .shape = SHAPE_TWO, .doc = "current FROM -> TO VALUE  (VALUE flows FROM -> TO through it)",
+    {.name = "current", .has_run = true, .shape = SHAPE_TWO, .doc = "current FROM -> TO VALUE  (VALUE flows FROM -> TO through it)",
      .value_slot = true, .value_dims = LS_AMP, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS}, .nopts = NCOMMON, .npins = 2, .branches = no_branch,
      .stamp = isource_stamp, .current = isource_current, .edges = no_edges},
@@ -1004,7 +1004,7 @@ static const ls_kind kinds[] = {
               {"via", OPT_PART, LS_FREE, OPTF_REQUIRED, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2, .branches = one_branch, .stamp = ccvs_stamp,
      .current = current_branch, .edges = vdef_edges},
-    {.name = "opamp", .shape = SHAPE_PINNED,
+    {.name = "opamp", .has_run = true, .shape = SHAPE_PINNED,
      .doc = "opamp plus=A minus=B out=Y [gain=G rin=R rout=R rails=LO..HI headroom=V imax=A cm=LO..HI vos=V ib=A "
             "ios=A iq=A]",
      .vsign = VSIGN_OUT, .is_opamp = true,
@@ -1024,7 +1024,7 @@ static const ls_kind kinds[] = {
               {"iq", OPT_VALUE, LS_AMP, OPTF_NONNEG, -1, NULL}},
      .nopts = NCOMMON + 14, .npins = 3, .branches = one_branch, .stamp = opamp_stamp,
      .current = current_branch, .edges = opamp_edges},
-    {.name = "diode", .shape = SHAPE_TWO, .doc = "diode ANODE -> CATHODE [is=A n=N rs=R imax=A]",
+    {.name = "diode", .has_run = true, .shape = SHAPE_TWO, .doc = "diode ANODE -> CATHODE [is=A n=N rs=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"is", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
               {"n", OPT_VALUE, LS_FREE, OPTF_POSITIVE, -1, NULL},
@@ -1033,7 +1033,7 @@ static const ls_kind kinds[] = {
      .nopts = NCOMMON + 4, .npins = 2, .branches = junction_branches, .stamp = junction_stamp,
      .current = junction_current, .edges = junction_edges, .is_nonlinear = always, .init = junction_init,
      .update = junction_update},
-    {.name = "led", .shape = SHAPE_TWO, .doc = "led ANODE -> CATHODE vf=V [at=A n=N rs=R imax=A]",
+    {.name = "led", .has_run = true, .shape = SHAPE_TWO, .doc = "led ANODE -> CATHODE vf=V [at=A n=N rs=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"vf", OPT_VALUE, LS_VOLT, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"at", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
@@ -1043,7 +1043,7 @@ static const ls_kind kinds[] = {
      .nopts = NCOMMON + 5, .npins = 2, .branches = junction_branches, .stamp = junction_stamp,
      .current = junction_current, .edges = junction_edges, .is_nonlinear = always, .init = junction_init,
      .update = junction_update},
-    {.name = "zener", .shape = SHAPE_TWO, .doc = "zener ANODE -> CATHODE vz=V [at=A n=N is=A rs=R imax=A]",
+    {.name = "zener", .has_run = true, .shape = SHAPE_TWO, .doc = "zener ANODE -> CATHODE vz=V [at=A n=N is=A rs=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"vz", OPT_VALUE, LS_VOLT, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"at", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
@@ -1062,7 +1062,7 @@ static const ls_kind kinds[] = {
               {"at", OPT_VALUE, LS_FREE, OPTF_FRACTION, -1, NULL}},
      .nopts = NCOMMON + 4, .npins = 3, .branches = no_branch, .stamp = pot_stamp, .current = pot_current,
      .edges = pot_edges, .results = pot_results},
-    {.name = "ntc", .shape = SHAPE_TWO, .doc = "ntc FROM -> TO r25=R beta=K [temp=degC dissipation=W/K]",
+    {.name = "ntc", .has_run = true, .shape = SHAPE_TWO, .doc = "ntc FROM -> TO r25=R beta=K [temp=degC dissipation=W/K]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"r25", OPT_VALUE, LS_OHM, OPTF_MAIN | OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"beta", OPT_VALUE, LS_FREE, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
@@ -1077,7 +1077,7 @@ static const ls_kind kinds[] = {
               {"roff", OPT_VALUE, LS_OHM, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 3, .npins = 2, .branches = one_branch, .stamp = switch_stamp,
      .current = current_branch, .edges = switch_edges},
-    {.name = "adc", .shape = SHAPE_PINNED,
+    {.name = "adc", .has_run = true, .shape = SHAPE_PINNED,
      .doc = "adc NAME in=NODE ref=V bits=N [rin=R leak=A max_source=R]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"in", OPT_NODE, LS_FREE, OPTF_REQUIRED, 0, NULL},

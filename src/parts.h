@@ -87,6 +87,7 @@ typedef struct ls_kind {
     ls_vsign vsign;              /* how `voltage` reads */
     bool is_port;
     bool is_opamp;
+    bool has_run;                /* keeps analysis state (ls_part.run): sources, op-amps, junctions, ... */
     ls_optdef opts[LS_MAX_OPTS];
     int nopts;
     int npins;                   /* SHAPE_TWO: 2 + node options */

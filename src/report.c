@@ -383,7 +383,7 @@ static void warnings_text(ls_report *rp)
 /* The JSON word for an op-amp's limit in force. */
 static const char *limit_name(const ls_part *p)
 {
-    switch (p->state) {
+    switch (p->run->state) {
     case LS_LIM_RAIL_HIGH: return "rail-high";
     case LS_LIM_RAIL_LOW: return "rail-low";
     case LS_LIM_CURRENT_SOURCE:
@@ -401,7 +401,7 @@ static bool is_kind(const ls_part *p, const char *k)
 static const char *limit_text(ls_report *rp, const ls_part *p, char *buf, size_t n)
 {
     char a[64];
-    switch (p->state) {
+    switch (p->run->state) {
     case LS_LIM_RAIL_HIGH: snprintf(buf, n, "rail-high (upper rail - %s)",
                                     ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
     case LS_LIM_RAIL_LOW: snprintf(buf, n, "rail-low (lower rail + %s)",

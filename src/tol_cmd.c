@@ -125,8 +125,29 @@ static void draw_trial(const mc_job *job, ls_part *parts, long i)
     }
 }
 
-/* Thread body: a private netlist (its own parts and diagnostics) and
- * operating point; fills job->value and job->pass for its trials. */
+/* Point the copied parts at analysis states of their own (a copy shares the
+ * base netlist's): *runs gets one for every part that has one, in part
+ * order.  Returns their number, or -1 when out of memory. */
+static int own_runs(ls_part *parts, int n, ls_part_run **runs)
+{
+    int k = 0;
+    for (int i = 0; i < n; i++)
+        k += parts[i].run != NULL;
+    *runs = malloc((size_t)(k ? k : 1) * sizeof **runs);
+    if (!*runs)
+        return -1;
+    k = 0;
+    for (int i = 0; i < n; i++)
+        if (parts[i].run) {
+            (*runs)[k] = *parts[i].run;
+            parts[i].run = &(*runs)[k++];
+        }
+    return k;
+}
+
+/* Thread body: a private netlist (its own parts, their analysis states and
+ * diagnostics) and operating point; fills job->value and job->pass for its
+ * trials. */
 static void *mc_run(void *arg)
 {
     mc_worker *w = arg;
@@ -141,16 +162,23 @@ static void *mc_run(void *arg)
     size_t psize = (size_t)(nl.nparts ? nl.nparts : 1) * sizeof *nl.parts;
     ls_part *nominal = malloc(psize);
     double *x0 = NULL;
+    ls_part_run *runs = NULL, *nominal_runs = NULL;
+    int nruns = -1;
     ls_op op;
     bool have_op = false;
     w->status = -1;
     if (nl.parts && nominal) {
         memcpy(nl.parts, job->base->parts, (size_t)nl.nparts * sizeof *nl.parts);
+        nruns = own_runs(nl.parts, nl.nparts, &runs);
+        nominal_runs = malloc((size_t)(nruns > 0 ? nruns : 1) * sizeof *nominal_runs);
+    }
+    if (nruns >= 0 && nominal_runs) {
         have_op = true;
         if (ls_op_solve(&op, &nl, &job->opt) == LS_EXIT_OK) {
             /* Every trial starts from the nominal solution and part states, so a
              * trial's result does not depend on the trial solved before it. */
             memcpy(nominal, nl.parts, psize);
+            memcpy(nominal_runs, runs, (size_t)nruns * sizeof *runs);
             x0 = malloc((size_t)(op.mna.n ? op.mna.n : 1) * sizeof *x0);
             if (x0) {
                 memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
@@ -160,6 +188,7 @@ static void *mc_run(void *arg)
     }
     for (long i = w->first; w->status == 0 && i < w->last; i++) {
         memcpy(nl.parts, nominal, psize);
+        memcpy(runs, nominal_runs, (size_t)nruns * sizeof *runs);
         memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
         draw_trial(job, nl.parts, i);
         if (ls_op_resolve(&op) != LS_EXIT_OK) {
@@ -180,6 +209,8 @@ static void *mc_run(void *arg)
         ls_op_free(&op);
     free(x0);
     free(nominal);
+    free(nominal_runs);
+    free(runs);
     free(nl.parts);
     ls_diags_free(&diags);
     ls_arena_free(&arena);

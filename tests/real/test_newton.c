@@ -99,8 +99,8 @@ static void test_limits_keep_pattern(void)
     CU_ASSERT_EQUAL_FATAL(w.code, LS_EXIT_OK);
     const ls_solver_stats *st = ls_solver_stats_of(w.op.solver);
     int u1 = ls_netlist_find_part(&w.nl, "u1"), u2 = ls_netlist_find_part(&w.nl, "u2");
-    CU_ASSERT_EQUAL(w.nl.parts[u1].state, LS_LIM_RAIL_HIGH);
-    CU_ASSERT_EQUAL(w.nl.parts[u2].state, LS_LIM_CURRENT_SOURCE);
+    CU_ASSERT_EQUAL(w.nl.parts[u1].run->state, LS_LIM_RAIL_HIGH);
+    CU_ASSERT_EQUAL(w.nl.parts[u2].run->state, LS_LIM_CURRENT_SOURCE);
     CU_ASSERT_EQUAL(st->analyses, 1);
     /* rail minus headroom; imax x R (Ohm's law) */
     CU_ASSERT_DOUBLE_EQUAL(volts(&w, "out"), 4.9, 1e-12);
