@@ -19,7 +19,7 @@ case $build in /*) ;; *) build=$root/$build ;; esac
 if [ -d "$build" ]; then
   meson setup --reconfigure "$build" -Dfuzz=true >/tmp/ci-fuzz-setup.log 2>&1
 else
-  CC=clang meson setup "$build" -Dfuzz=true >/tmp/ci-fuzz-setup.log 2>&1
+  CC=clang CXX=clang++ meson setup "$build" -Dfuzz=true >/tmp/ci-fuzz-setup.log 2>&1
 fi || { tail -30 /tmp/ci-fuzz-setup.log; echo "fuzz: setup failed"; exit 1; }
 ninja -C "$build" tests/fuzz/fuzz_circuit >/tmp/ci-fuzz-build.log 2>&1 \
   || { tail -30 /tmp/ci-fuzz-build.log; echo "fuzz: build failed"; exit 1; }

@@ -112,12 +112,12 @@ int ls_cmd_thevenin(ls_cli *cli)
         }
         fputs("}\n", o);
     } else if (cli->fmt == FMT_CSV) {
-        fprintf(o, "field,value\nvth,%.17g\nrth,%.17g\nnorton,%s\n", vth, rth,
+        fprintf(o, "field,value\nvth,%s\nrth,%s\nnorton,%s\n", LS_G17(vth), LS_G17(rth),
                 isfinite(norton) ? ls_fmt_full(b1, sizeof b1, norton) : "");
         if (cli->load)
-            fprintf(o, "load_r,%.17g\nload_v,%.17g\nload_i,%.17g\n", rload, vl, il);
+            fprintf(o, "load_r,%s\nload_v,%s\nload_i,%s\n", LS_G17(rload), LS_G17(vl), LS_G17(il));
         if (cli->meter)
-            fprintf(o, "meter_r,%.17g\nmeter_reading,%.17g\nmeter_error,%.17g\n", rmeter, rd, err);
+            fprintf(o, "meter_r,%s\nmeter_reading,%s\nmeter_error,%s\n", LS_G17(rmeter), LS_G17(rd), LS_G17(err));
     } else {
         fprintf(o, "Thevenin equivalent at '%s' (against ground)\n", name);
         fprintf(o, "  open-circuit voltage  vth     %s\n", ls_eng(&rp, b1, sizeof b1, vth, "V"));
@@ -328,7 +328,7 @@ int ls_cmd_sens(ls_cli *cli)
         for (int i = 0; i < n; i++) {
             char b[40];
             ls_csv_field(o, s.nl.parts[items[i].part].name);
-            fprintf(o, ",%.17g,%.17g,%s\n", items[i].nominal, items[i].derivative,
+            fprintf(o, ",%s,%s,%s\n", LS_G17(items[i].nominal), LS_G17(items[i].derivative),
                     isfinite(items[i].normalized) ? ls_fmt_full(b, sizeof b, items[i].normalized) : "");
         }
     } else {

@@ -144,8 +144,8 @@ int ls_cmd_pick(ls_cli *cli)
     } else if (cli->fmt == FMT_CSV) {
         fputs("rank,rtop,rbot,ratio,error,zout\n", o);
         for (int i = 0; i < n; i++)
-            fprintf(o, "%d,%.17g,%.17g,%.17g,%.17g,%.17g\n", i + 1, items[i].rtop, items[i].rbot, items[i].ratio,
-                    items[i].error, items[i].zout);
+            fprintf(o, "%d,%s,%s,%s,%s,%s\n", i + 1, LS_G17(items[i].rtop), LS_G17(items[i].rbot),
+                    LS_G17(items[i].ratio), LS_G17(items[i].error), LS_G17(items[i].zout));
     } else {
         pick_text(o, &rp, cli, ratio, es, lo, hi, zmax, items, n);
     }

@@ -2,12 +2,174 @@
 #include "report.h"
 
 #include <math.h>
+#include <stdarg.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "elab.h"
 #include "fmt.h"
 #include "newton.h"
+#include "numfmt.h"
+
+/* ---- buffered output -------------------------------------------------------------------
+ *
+ * A large circuit's report is millions of short pieces (a grid of a million
+ * nodes writes some 300 MB of JSON).  Each stdio call costs more than the copy
+ * it makes, so the writers below put their pieces into one block and hand it to
+ * the stream in large fwrite calls.  A writer flushes its block before anything
+ * else writes to the stream and before it returns, so the order of the output
+ * is the order of the calls.  Errors stay on the stream (ferror), as before. */
+typedef struct obuf {
+    FILE *f;
+    char *p;              /* next free byte of b */
+    char b[32768];
+} obuf;
+
+static void ob_init(obuf *o, FILE *f)
+{
+    o->f = f;
+    o->p = o->b;
+}
+
+static void ob_flush(obuf *o)
+{
+    if (o->p != o->b)
+        fwrite(o->b, 1, (size_t)(o->p - o->b), o->f);
+    o->p = o->b;
+}
+
+static size_t ob_room(const obuf *o)
+{
+    return (size_t)(o->b + sizeof o->b - o->p);
+}
+
+static void ob_write(obuf *o, const char *s, size_t n)
+{
+    if (n > ob_room(o)) {
+        ob_flush(o);
+        if (n > sizeof o->b) {
+            fwrite(s, 1, n, o->f);
+            return;
+        }
+    }
+    memcpy(o->p, s, n);
+    o->p += n;
+}
+
+static void ob_puts(obuf *o, const char *s)
+{
+    ob_write(o, s, strlen(s));
+}
+
+static void ob_putc(obuf *o, char c)
+{
+    if (!ob_room(o))
+        ob_flush(o);
+    *o->p++ = c;
+}
+
+static void ob_printf(obuf *o, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void ob_printf(obuf *o, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    size_t room = ob_room(o);
+    int n = vsnprintf(o->p, room, fmt, ap);
+    va_end(ap);
+    if (n < 0)
+        return;
+    if ((size_t)n < room) {
+        o->p += n;
+        return;
+    }
+    ob_flush(o);
+    va_start(ap, fmt);
+    if ((size_t)n < sizeof o->b) {
+        vsnprintf(o->p, sizeof o->b, fmt, ap);
+        o->p += n;
+    } else {
+        vfprintf(o->f, fmt, ap);
+    }
+    va_end(ap);
+}
+
+/* %.17g, or null when not finite (as ls_fmt_full) */
+static void ob_number(obuf *o, double v)
+{
+    if (!isfinite(v)) {
+        ob_write(o, "null", 4);
+        return;
+    }
+    if (ob_room(o) < LS_NUM_G17_MAX)
+        ob_flush(o);
+    o->p += ls_num_g17(o->p, v);
+}
+
+/* %.17g, or nothing when not finite: a CSV value */
+static void ob_csv_number(obuf *o, double v)
+{
+    if (isfinite(v))
+        ob_number(o, v);
+}
+
+static void ob_json_string(obuf *o, const char *s)
+{
+    ob_putc(o, '"');
+    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
+        /* runs that need no escape go out in one copy (names are mostly that) */
+        const unsigned char *q = p;
+        while (*q >= 0x20 && *q != '"' && *q != '\\')
+            q++;
+        if (q != p) {
+            ob_write(o, (const char *)p, (size_t)(q - p));
+            p = q;
+            if (!*p)
+                break;
+        }
+        switch (*p) {
+        case '"': ob_write(o, "\\\"", 2); break;
+        case '\\': ob_write(o, "\\\\", 2); break;
+        case '\n': ob_write(o, "\\n", 2); break;
+        case '\r': ob_write(o, "\\r", 2); break;
+        case '\t': ob_write(o, "\\t", 2); break;
+        default: ob_printf(o, "\\u%04x", *p); break; /* the other controls (below 0x20) */
+        }
+    }
+    ob_putc(o, '"');
+}
+
+static void ob_csv_field(obuf *o, const char *s)
+{
+    if (strpbrk(s, ",\"\n\r")) {
+        ob_putc(o, '"');
+        for (; *s; s++) {
+            if (*s == '"')
+                ob_putc(o, '"');
+            ob_putc(o, *s);
+        }
+        ob_putc(o, '"');
+    } else {
+        ob_puts(o, s);
+    }
+}
+
+/* The names of a large circuit's nodes and parts lie scattered over its arena,
+ * and the first read of each is a cache miss that the row loops would wait for
+ * one at a time; asking for the name some rows ahead lets those misses overlap
+ * (on a million-node grid this halves the time of the text report). */
+#define NAME_AHEAD 16
+
+static void prefetch_node_name(const ls_netlist *nl, int i)
+{
+    if (i + NAME_AHEAD < nl->nnodes)
+        __builtin_prefetch(nl->nodes[i + NAME_AHEAD].name);
+}
+
+static void prefetch_part_name(const ls_netlist *nl, int i)
+{
+    if (i + NAME_AHEAD < nl->nparts)
+        __builtin_prefetch(nl->parts[i + NAME_AHEAD].name);
+}
 
 /* ---- shared pieces ------------------------------------------------------------------ */
 
@@ -86,41 +248,55 @@ static int width(const char *s)
     return w;
 }
 
-/* k spaces, written in blocks rather than one fputc each (a report may have
+/* The byte length of s, and its display width in *w: one pass for both (the
+ * table code measures every cell). */
+static size_t measure(const char *s, int *w)
+{
+    const char *p = s;
+    int k = 0;
+    for (; *p; p++)
+        k += ((unsigned char)*p & 0xC0) != 0x80;
+    *w = k;
+    return (size_t)(p - s);
+}
+
+/* k spaces, written in blocks rather than one at a time (a report may have
  * millions of cells). */
-static void spaces(FILE *out, int k)
+static void spaces(obuf *out, int k)
 {
     static const char blanks[] = "                                                                ";
     while (k > 0) {
         int c = k < (int)sizeof blanks - 1 ? k : (int)sizeof blanks - 1;
-        fwrite(blanks, 1, (size_t)c, out);
+        ob_write(out, blanks, (size_t)c);
         k -= c;
     }
 }
 
-static void pad(FILE *out, const char *s, int w, bool right)
+/* s (len bytes, sw columns) padded with spaces to w columns, on the left or
+ * the right */
+static void pad(obuf *out, const char *s, size_t len, int sw, int w, bool right)
 {
-    int k = w - width(s);
+    int k = w - sw;
     if (right)
         spaces(out, k);
-    fputs(s, out);
+    ob_write(out, s, len);
     if (!right)
         spaces(out, k);
 }
 
 /* ---- a small table printer for aligned text columns ---------------------------- */
 
-/* The cells of all rows live in one growing text buffer (offsets per cell), and
- * the column widths are kept up to date as rows arrive, so a table of a million
- * rows costs no per-cell allocation and one pass to print. */
+/* The cells of all rows live in one growing text buffer, NUL-terminated and
+ * back to back in row order, and the column widths are kept up to date as rows
+ * arrive, so a table of a million rows costs no per-cell allocation and one
+ * pass to print, which reads the cells in the order they were stored. */
 typedef struct table {
     int ncol;
     const char *head[10];
     bool right[10];
     char *text;           /* NUL-terminated cells, back to back */
     size_t len, text_cap;
-    size_t *off;          /* rows * ncol offsets into text */
-    int rows, cap;
+    int rows;
     int w[10];            /* widest cell of each column so far */
     bool failed;          /* out of memory: rows after it are dropped */
 } table;
@@ -130,74 +306,70 @@ static void t_row(table *t, const char *const *cells)
 {
     if (t->failed)
         return;
-    if (t->rows == t->cap) {
-        int cap = t->cap ? t->cap * 2 : 32;
-        size_t *o = realloc(t->off, (size_t)cap * (size_t)t->ncol * sizeof *o);
-        if (!o) {
+    size_t n[10], total = 0;
+    int cw[10];
+    for (int i = 0; i < t->ncol; i++) {
+        n[i] = measure(cells[i] ? cells[i] : "", &cw[i]) + 1;
+        total += n[i];
+    }
+    if (t->len + total > t->text_cap) {
+        size_t cap = t->text_cap ? t->text_cap * 2 : 4096;
+        while (cap < t->len + total)
+            cap *= 2;
+        char *b = realloc(t->text, cap);
+        if (!b) {
             t->failed = true;
             return;
         }
-        t->off = o;
-        t->cap = cap;
+        t->text = b;
+        t->text_cap = cap;
     }
     for (int i = 0; i < t->ncol; i++) {
         const char *c = cells[i] ? cells[i] : "";
-        size_t n = strlen(c) + 1;
-        if (t->len + n > t->text_cap) {
-            size_t cap = t->text_cap ? t->text_cap * 2 : 4096;
-            while (cap < t->len + n)
-                cap *= 2;
-            char *b = realloc(t->text, cap);
-            if (!b) {
-                t->failed = true;
-                return;
-            }
-            t->text = b;
-            t->text_cap = cap;
-        }
-        memcpy(t->text + t->len, c, n);
-        t->off[(size_t)t->rows * (size_t)t->ncol + (size_t)i] = t->len;
-        t->len += n;
-        int k = width(c);
-        t->w[i] = k > t->w[i] ? k : t->w[i];
+        memcpy(t->text + t->len, c, n[i]);
+        t->len += n[i];
+        t->w[i] = cw[i] > t->w[i] ? cw[i] : t->w[i];
     }
     t->rows++;
 }
 
 /* Print the heading and the rows aligned, then empty the table. */
-static void t_print(table *t, FILE *out)
+static void t_print(table *t, FILE *f)
 {
+    obuf ob, *out = &ob;
     int w[10];
     for (int c = 0; c < t->ncol; c++) {
         w[c] = width(t->head[c]);
         w[c] = t->w[c] > w[c] ? t->w[c] : w[c];
     }
-    fputs("  ", out);
+    ob_init(out, f);
+    ob_puts(out, "  ");
     for (int c = 0; c < t->ncol; c++) {
         if (c + 1 == t->ncol && !t->right[c])
-            fputs(t->head[c], out);
+            ob_puts(out, t->head[c]);
         else
-            pad(out, t->head[c], w[c], t->right[c]);
-        fputs(c + 1 < t->ncol ? "  " : "\n", out);
+            pad(out, t->head[c], strlen(t->head[c]), width(t->head[c]), w[c], t->right[c]);
+        ob_puts(out, c + 1 < t->ncol ? "  " : "\n");
     }
+    const char *s = t->text;
     for (int r = 0; r < t->rows; r++) {
-        fputs("  ", out);
+        ob_puts(out, "  ");
         for (int c = 0; c < t->ncol; c++) {
-            const char *s = t->text + t->off[(size_t)r * (size_t)t->ncol + (size_t)c];
-            if (c + 1 == t->ncol && !t->right[c]) {
-                fputs(s, out);
-            } else {
-                pad(out, s, w[c], t->right[c]);
-            }
-            fputs(c + 1 < t->ncol ? "  " : "\n", out);
+            int sw;
+            size_t len = measure(s, &sw);
+            if (c + 1 == t->ncol && !t->right[c])
+                ob_write(out, s, len);
+            else
+                pad(out, s, len, sw, w[c], t->right[c]);
+            ob_puts(out, c + 1 < t->ncol ? "  " : "\n");
+            s += len + 1;
         }
     }
+    ob_flush(out);
     free(t->text);
-    free(t->off);
     t->text = NULL;
-    t->off = NULL;
     t->len = t->text_cap = 0;
-    t->rows = t->cap = 0;
+    t->rows = 0;
     memset(t->w, 0, sizeof t->w);
 }
 
@@ -279,31 +451,30 @@ static const char *loc_file(const ls_diags *d, ls_loc l)
     return l.file >= 0 ? d->files[l.file].path : "";
 }
 
-static void checks_json(ls_report *rp, const ls_checks *c)
+static void checks_json(ls_report *rp, obuf *o, const ls_checks *c)
 {
-    FILE *o = rp->out;
-    fputs("[", o);
+    ob_puts(o, "[");
     for (int i = 0; i < c->n; i++) {
         const ls_check_row *r = &c->rows[i];
-        fprintf(o, "%s\n    {\"file\": ", i ? "," : "");
-        ls_json_string(o, loc_file(rp->diags, r->loc));
-        fprintf(o, ", \"line\": %d, \"instance\": ", loc_line(rp->diags, r->loc));
+        ob_puts(o, i ? ",\n    {\"file\": " : "\n    {\"file\": ");
+        ob_json_string(o, loc_file(rp->diags, r->loc));
+        ob_printf(o, ", \"line\": %d, \"instance\": ", loc_line(rp->diags, r->loc));
         if (r->instance)
-            ls_json_string(o, r->instance);
+            ob_json_string(o, r->instance);
         else
-            fputs("null", o);
-        fputs(", \"text\": ", o);
-        ls_json_string(o, r->text);
-        fputs(", \"value\": ", o);
-        ls_json_number(o, r->r.value);
-        fprintf(o, ", \"pass\": %s", r->r.pass ? "true" : "false");
+            ob_puts(o, "null");
+        ob_puts(o, ", \"text\": ");
+        ob_json_string(o, r->text);
+        ob_puts(o, ", \"value\": ");
+        ob_number(o, r->r.value);
+        ob_puts(o, r->r.pass ? ", \"pass\": true" : ", \"pass\": false");
         if (r->r.reason) {
-            fputs(", \"reason\": ", o);
-            ls_json_string(o, r->r.reason);
+            ob_puts(o, ", \"reason\": ");
+            ob_json_string(o, r->r.reason);
         }
-        fputs("}", o);
+        ob_puts(o, "}");
     }
-    fputs(c->n ? "\n  ]" : "]", o);
+    ob_puts(o, c->n ? "\n  ]" : "]");
 }
 
 static void checks_text(ls_report *rp, const ls_checks *c)
@@ -469,16 +640,16 @@ static void ntc_text(ls_report *rp, ls_op *op)
         t_print(&t, o);
 }
 
-static void kv(FILE *o, const char *k, double v, bool comma);
+static void kv(obuf *o, const char *k, double v, bool comma);
 
 /* Extra JSON keys of the real parts' entries in "parts": an adc's reading,
  * a thermistor's resistance and temperatures. */
-static void part_extra_json(FILE *o, ls_op *op, int i)
+static void part_extra_json(obuf *o, ls_op *op, int i)
 {
     const ls_part *p = &op->nl->parts[i];
     ls_adc_result r;
     if (ls_op_adc(op, i, &r) == 0) {
-        fprintf(o, ", \"code\": %lld", r.code);
+        ob_printf(o, ", \"code\": %lld", r.code);
         kv(o, "lsb", r.lsb, true);
         kv(o, "unloaded", r.v_open, true);
         kv(o, "error_lsb", r.error_lsb, true);
@@ -554,6 +725,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
         hazard |= fabs(op->v[i]) > LS_TOUCH_SAFE_DC;
     table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
     for (int i = 0; i < nl->nnodes; i++) {
+        prefetch_node_name(nl, i);
         const char *c[3] = {nl->nodes[i].name, ls_eng(rp, b1, sizeof b1, op->v[i], V),
                             fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
         t_row(&t, c);
@@ -572,6 +744,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
                    .right = {false, false, true, true, true}};
         for (int i = 0; i < nl->nparts; i++) {
             const ls_part *pt = &nl->parts[i];
+            prefetch_part_name(nl, i);
             if (pt->kind->is_port)
                 continue;
             const char *c[5] = {pt->name, pt->kind->name, ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
@@ -647,63 +820,68 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 
 /* ---- solve: JSON and CSV ------------------------------------------------------------------ */
 
-static void kv(FILE *o, const char *k, double v, bool comma)
+static void kv(obuf *o, const char *k, double v, bool comma)
 {
-    fputs(comma ? ", \"" : "\"", o); /* plain writes: this runs for every part */
-    fputs(k, o);
-    fputs("\": ", o);
-    ls_json_number(o, v);
+    ob_puts(o, comma ? ", \"" : "\""); /* plain copies: this runs for every part */
+    ob_puts(o, k);
+    ob_puts(o, "\": ");
+    ob_number(o, v);
 }
 
 static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
-    FILE *o = rp->out;
+    obuf ob, *o = &ob;
+    ob_init(o, rp->out);
     const ls_netlist *nl = op->nl;
-    fputs("{\n  \"title\": ", o);
+    ob_puts(o, "{\n  \"title\": ");
     if (nl->title)
-        ls_json_string(o, nl->title);
+        ob_json_string(o, nl->title);
     else
-        fputs("null", o);
-    fprintf(o, ",\n  \"solver\": {\"method\": \"%s\", \"library\": \"%s\", \"unknowns\": %d", method_name(op->method),
+        ob_puts(o, "null");
+    ob_printf(o, ",\n  \"solver\": {\"method\": \"%s\", \"library\": \"%s\", \"unknowns\": %d", method_name(op->method),
             ls_solver_stats_of(op->solver)->library, op->mna.n);
     kv(o, "rcond", op->rcond, true);
     kv(o, "residual", op->residual, true);
-    fprintf(o, ", \"iterations\": %d},\n  \"nodes\": {", op->iterations);
+    ob_printf(o, ", \"iterations\": %d},\n  \"nodes\": {", op->iterations);
     for (int i = 0; i < nl->nnodes; i++) {
-        fputs(i ? ",\n    " : "\n    ", o);
-        ls_json_string(o, nl->nodes[i].name);
-        fputs(": ", o);
-        ls_json_number(o, op->v[i]);
+        prefetch_node_name(nl, i);
+        ob_puts(o, i ? ",\n    " : "\n    ");
+        ob_json_string(o, nl->nodes[i].name);
+        ob_puts(o, ": ");
+        ob_number(o, op->v[i]);
     }
-    fputs("\n  },\n  \"parts\": {", o);
+    ob_puts(o, "\n  },\n  \"parts\": {");
     int k = 0;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
+        prefetch_part_name(nl, i);
         if (p->kind->is_port)
             continue;
-        fputs(k++ ? ",\n    " : "\n    ", o);
-        ls_json_string(o, p->name);
-        fprintf(o, ": {\"kind\": \"%s\"", p->kind->name);
+        ob_puts(o, k++ ? ",\n    " : "\n    ");
+        ob_json_string(o, p->name);
+        ob_puts(o, ": {\"kind\": \"");
+        ob_puts(o, p->kind->name);
+        ob_putc(o, '"');
         kv(o, "current", op->ipart[i], true);
         kv(o, "voltage", op->vpart[i], true);
         kv(o, "power", op->ppart[i], true);
         part_extra_json(o, op, i);
-        fputs("}", o);
+        ob_putc(o, '}');
     }
-    fputs(k ? "\n  },\n  \"ports\": {" : "},\n  \"ports\": {", o);
+    ob_puts(o, k ? "\n  },\n  \"ports\": {" : "},\n  \"ports\": {");
     k = 0;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         if (!p->kind->is_port)
             continue;
         const ls_port_result *pr = ls_op_port(op, i);
-        fputs(k++ ? ",\n    " : "\n    ", o);
-        ls_json_string(o, p->name);
-        fputs(": {\"from\": ", o);
-        ls_json_string(o, nl->nodes[p->pin[0]].name);
-        fputs(", \"to\": ", o);
-        ls_json_string(o, nl->nodes[p->pin[1]].name);
-        fprintf(o, ", \"mode\": \"%s\"", pr->current_mode ? "current" : "voltage");
+        ob_puts(o, k++ ? ",\n    " : "\n    ");
+        ob_json_string(o, p->name);
+        ob_puts(o, ": {\"from\": ");
+        ob_json_string(o, nl->nodes[p->pin[0]].name);
+        ob_puts(o, ", \"to\": ");
+        ob_json_string(o, nl->nodes[p->pin[1]].name);
+        ob_printf(o, ", \"mode\": \"%s\"", pr->current_mode ? "current" : "voltage");
         kv(o, "open", pr->open, true);
         kv(o, "loaded", pr->loaded, true);
         kv(o, "sag", pr->sag, true);
@@ -712,52 +890,57 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         kv(o, "zin", pr->zin, true);
         kv(o, "ratio", pr->ratio, true);
         kv(o, "current", pr->current, true);
-        fprintf(o, ", \"verdict\": \"%s\"}", verdict_name(pr->verdict));
+        ob_printf(o, ", \"verdict\": \"%s\"}", verdict_name(pr->verdict));
     }
-    fputs(k ? "\n  },\n  \"opamps\": {" : "},\n  \"opamps\": {", o);
+    ob_puts(o, k ? "\n  },\n  \"opamps\": {" : "},\n  \"opamps\": {");
     k = 0;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         if (!p->kind->is_opamp)
             continue;
-        fputs(k++ ? ",\n    " : "\n    ", o);
-        ls_json_string(o, p->name);
-        fputs(": {", o);
+        ob_puts(o, k++ ? ",\n    " : "\n    ");
+        ob_json_string(o, p->name);
+        ob_puts(o, ": {");
         kv(o, "out", op->v[p->pin[2]], false);
         kv(o, "current", op->ipart[i], true);
-        fprintf(o, ", \"limited\": \"%s\"", limit_name(p));
+        ob_printf(o, ", \"limited\": \"%s\"", limit_name(p));
         kv(o, "dissipation", ls_opamp_dissipation(op, i), true);
-        fputs("}", o);
+        ob_putc(o, '}');
     }
-    fputs(k ? "\n  },\n  \"checks\": " : "},\n  \"checks\": ", o);
-    checks_json(rp, checks);
-    fputs(",\n  \"warnings\": ", o);
+    ob_puts(o, k ? "\n  },\n  \"checks\": " : "},\n  \"checks\": ");
+    checks_json(rp, o, checks);
+    ob_puts(o, ",\n  \"warnings\": ");
+    ob_flush(o); /* the warnings go straight to the stream */
     ls_report_warnings_json(rp);
-    fputs("\n}\n", o);
+    ob_puts(o, "\n}\n");
+    ob_flush(o);
 }
 
-static void csv_row(FILE *o, const char *section, const char *name, const char *field, double v)
+static void csv_row(obuf *o, const char *section, const char *name, const char *field, double v)
 {
-    char b[40];
-    ls_csv_field(o, section);
-    fputc(',', o);
-    ls_csv_field(o, name);
-    fputc(',', o);
-    ls_csv_field(o, field);
-    fputc(',', o);
-    fputs(isfinite(v) ? ls_fmt_full(b, sizeof b, v) : "", o);
-    fputc('\n', o);
+    ob_csv_field(o, section);
+    ob_putc(o, ',');
+    ob_csv_field(o, name);
+    ob_putc(o, ',');
+    ob_csv_field(o, field);
+    ob_putc(o, ',');
+    ob_csv_number(o, v);
+    ob_putc(o, '\n');
 }
 
 static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
-    FILE *o = rp->out;
+    obuf ob, *o = &ob;
+    ob_init(o, rp->out);
     const ls_netlist *nl = op->nl;
-    fputs("section,name,field,value\n", o);
-    for (int i = 0; i < nl->nnodes; i++)
+    ob_puts(o, "section,name,field,value\n");
+    for (int i = 0; i < nl->nnodes; i++) {
+        prefetch_node_name(nl, i);
         csv_row(o, "node", nl->nodes[i].name, "voltage", op->v[i]);
+    }
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
+        prefetch_part_name(nl, i);
         if (p->kind->is_port) {
             const ls_port_result *pr = ls_op_port(op, i);
             const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current"};
@@ -787,6 +970,7 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
     }
     for (int i = 0; i < checks->n; i++)
         csv_row(o, "check", checks->rows[i].text, checks->rows[i].r.pass ? "pass" : "fail", checks->rows[i].r.value);
+    ob_flush(o);
 }
 
 void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
@@ -803,22 +987,28 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
     FILE *o = rp->out;
     (void)op;
     if (rp->fmt == FMT_JSON) {
-        fputs("{\n  \"checks\": ", o);
-        checks_json(rp, checks);
-        fprintf(o, ",\n  \"passed\": %d,\n  \"failed\": %d\n}\n", checks->passed, checks->failed);
+        obuf ob;
+        ob_init(&ob, o);
+        ob_puts(&ob, "{\n  \"checks\": ");
+        checks_json(rp, &ob, checks);
+        ob_printf(&ob, ",\n  \"passed\": %d,\n  \"failed\": %d\n}\n", checks->passed, checks->failed);
+        ob_flush(&ob);
     } else if (rp->fmt == FMT_CSV) {
-        fputs("file,line,instance,text,value,pass\n", o);
+        obuf ob;
+        ob_init(&ob, o);
+        ob_puts(&ob, "file,line,instance,text,value,pass\n");
         for (int i = 0; i < checks->n; i++) {
             const ls_check_row *r = &checks->rows[i];
-            char b[40];
-            ls_csv_field(o, loc_file(rp->diags, r->loc));
-            fprintf(o, ",%d,", loc_line(rp->diags, r->loc));
-            ls_csv_field(o, r->instance ? r->instance : "");
-            fputc(',', o);
-            ls_csv_field(o, r->text);
-            fprintf(o, ",%s,%s\n", isfinite(r->r.value) ? ls_fmt_full(b, sizeof b, r->r.value) : "",
-                    r->r.pass ? "true" : "false");
+            ob_csv_field(&ob, loc_file(rp->diags, r->loc));
+            ob_printf(&ob, ",%d,", loc_line(rp->diags, r->loc));
+            ob_csv_field(&ob, r->instance ? r->instance : "");
+            ob_putc(&ob, ',');
+            ob_csv_field(&ob, r->text);
+            ob_putc(&ob, ',');
+            ob_csv_number(&ob, r->r.value);
+            ob_puts(&ob, r->r.pass ? ",true\n" : ",false\n");
         }
+        ob_flush(&ob);
     } else {
         if (!checks->n)
             fputs("no checks in this circuit (add 'expect' lines or a 'rule')\n", o);

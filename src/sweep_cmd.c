@@ -60,7 +60,7 @@ static bool point_cli(const ls_cli *cli, const char *param, double value, char *
             out->sets[out->nsets++] = cli->sets[i];
     if (out->nsets == LS_MAX_SETS)
         return false;
-    snprintf(buf, n, "%s=%.17g", param, value);
+    snprintf(buf, n, "%s=%s", param, LS_G17(value));
     out->sets[out->nsets++] = buf;
     return true;
 }
