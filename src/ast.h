@@ -98,6 +98,12 @@ typedef struct ls_stmt {
 typedef struct ls_program {
     ls_stmt **stmts;
     int n;
+    /* Where the tree's structures (statements, expressions, lists) are:
+     * an arena of the caller's (ls_parse_file_to), or NULL for the
+     * diagnostics' arena.  Names and text always go to the diagnostics'
+     * arena, and the netlist keeps no pointer into the tree, so the caller
+     * may free this arena once the program is elaborated for the last time. */
+    ls_arena *syntax;
 } ls_program;
 
 #endif

@@ -39,7 +39,8 @@ typedef struct ls_cli {
 typedef struct ls_session {
     ls_arena arena;
     ls_diags diags;
-    ls_program prog;
+    ls_arena syntax;            /* the syntax tree, freed once the circuit is elaborated */
+    ls_program prog;            /* empty after ls_session_load */
     ls_netlist nl;
     ls_op op;
     bool have_op;

@@ -96,12 +96,13 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
     s->input_path = path;
     double t0 = now_s();
     ls_arena_init(&s->arena);
+    ls_arena_init(&s->syntax);
     ls_diags_init(&s->diags, &s->arena);
     int errs;
     if (text)
-        errs = ls_parse_string(&s->diags, path, text, strlen(text), &s->prog);
+        errs = ls_parse_string_to(&s->diags, path, text, strlen(text), &s->syntax, &s->prog);
     else
-        errs = ls_parse_file(&s->diags, path, &s->prog);
+        errs = ls_parse_file_to(&s->diags, path, &s->syntax, &s->prog);
     phase_done("parse", &t0);
     ls_setting sets[LS_MAX_SETS];
     if (parse_sets(s, sets) != 0)
@@ -109,6 +110,10 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
     /* Elaborate even after syntax errors (the broken statements are left out),
      * so one run reports the name and unit errors too. */
     int bad = ls_elaborate(&s->prog, &s->diags, sets, cli->nsets, &s->nl) || errs;
+    /* A command elaborates once: the tree (a large part of the memory of a
+     * big circuit) goes before the solve.  The netlist keeps only names. */
+    ls_arena_free(&s->syntax);
+    s->prog = (ls_program){0};
     phase_done("elaborate", &t0);
     return bad ? LS_EXIT_USAGE : LS_EXIT_OK;
 }
@@ -129,6 +134,7 @@ void ls_session_free(ls_session *s)
         ls_op_free(&s->op);
     ls_netlist_free(&s->nl);
     ls_diags_free(&s->diags);
+    ls_arena_free(&s->syntax);
     ls_arena_free(&s->arena);
 }
 

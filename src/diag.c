@@ -36,9 +36,11 @@ int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len
     f->path = ls_arena_strdup(d->arena, path);
     f->text = ls_arena_strndup(d->arena, text, len);
     f->len = len;
+    /* Line starts, for locations: memchr runs many bytes a step. */
     int lines = 1;
-    for (unsigned i = 0; i < len; i++)
-        lines += text[i] == '\n';
+    const char *end = text + len;
+    for (const char *c = text; (c = memchr(c, '\n', (size_t)(end - c))) != NULL; c++)
+        lines++;
     f->line_start = malloc((size_t)lines * sizeof *f->line_start);
     if (!f->path || !f->text || !f->line_start) {
         free(f->line_start);
@@ -46,9 +48,8 @@ int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len
     }
     int k = 0;
     f->line_start[k++] = 0;
-    for (unsigned i = 0; i < len; i++)
-        if (text[i] == '\n')
-            f->line_start[k++] = i + 1;
+    for (const char *c = text; (c = memchr(c, '\n', (size_t)(end - c))) != NULL; c++)
+        f->line_start[k++] = (unsigned)(c - text) + 1;
     f->nlines = lines;
     return d->nfiles++;
 }

@@ -688,7 +688,7 @@ static const char *stmt_text(elab *x, const ls_stmt *st)
 static void add_check(elab *x, const scope *s, const ls_stmt *st)
 {
     ls_netlist *nl = x->nl;
-    ls_check c = {.stmt = st, .instance = s->prefix[0] ? s->prefix : NULL, .text = stmt_text(x, st),
+    ls_check c = {.loc = st->loc, .instance = s->prefix[0] ? s->prefix : NULL, .text = stmt_text(x, st),
                   .cmp = st->cmp};
     c.lhs = bind(x, s, st->lhs);
     c.rhs = bind(x, s, st->rhs);

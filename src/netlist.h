@@ -100,7 +100,7 @@ typedef struct ls_q {
 } ls_q;
 
 typedef struct ls_check {
-    const ls_stmt *stmt;
+    ls_loc loc;            /* the statement's keyword */
     const char *instance;  /* NULL at the top level */
     const char *text;      /* "expect adc_in = 1.65 V within 1%" */
     ls_q *lhs, *rhs, *rhs2, *within;

@@ -20,7 +20,8 @@ typedef struct inc_frame {
 
 typedef struct parser {
     ls_diags *d;
-    ls_arena *a;
+    ls_arena *a;              /* names and text: they outlive the tree */
+    ls_arena *sa;             /* the tree's structures (ls_program.syntax, else a) */
     ls_lexer lx;
     ls_token tok;             /* current */
     ls_token ahead;           /* one token of look-ahead */
@@ -135,7 +136,7 @@ static ls_expr *parse_sum(parser *p);
 /* A zeroed expression of kind k, only as large as that kind needs. */
 static ls_expr *new_expr(parser *p, ls_ekind k, ls_loc loc)
 {
-    ls_expr *e = ls_arena_alloc(p->a, ls_expr_size(k));
+    ls_expr *e = ls_arena_alloc(p->sa, ls_expr_size(k));
     if (e) {
         e->kind = k;
         e->loc = loc;
@@ -189,7 +190,7 @@ static ls_expr *parse_call(parser *p, int f)
     }
     e->loc = span(e->loc, p->tok.loc);
     advance(p);
-    e->args = ls_arena_alloc(p->a, (size_t)(n ? n : 1) * sizeof *e->args);
+    e->args = ls_arena_alloc(p->sa, (size_t)(n ? n : 1) * sizeof *e->args);
     if (!e->args)
         return NULL;
     memcpy(e->args, args, (size_t)n * sizeof *args);
@@ -381,7 +382,7 @@ static ls_expr *parse_sum(parser *p)
 
 static ls_stmt *new_stmt(parser *p, ls_skind k)
 {
-    ls_stmt *s = ls_arena_alloc(p->a, sizeof *s);
+    ls_stmt *s = ls_arena_alloc(p->sa, sizeof *s);
     if (s) {
         s->kind = k;
         s->loc = p->tok.loc;
@@ -466,7 +467,7 @@ static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_val
     }
     if (n == 0)
         return true; /* opts stays NULL */
-    s->opts = ls_arena_alloc(p->a, (size_t)n * sizeof *s->opts);
+    s->opts = ls_arena_alloc(p->sa, (size_t)n * sizeof *s->opts);
     if (!s->opts)
         return false;
     memcpy(s->opts, buf, (size_t)n * sizeof *buf);
@@ -652,8 +653,8 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
         advance(p);
     }
     if (n > 0) { /* no pins: both stay NULL */
-        s->pins = ls_arena_alloc(p->a, (size_t)n * sizeof *s->pins);
-        s->pin_locs = ls_arena_alloc(p->a, (size_t)n * sizeof *s->pin_locs);
+        s->pins = ls_arena_alloc(p->sa, (size_t)n * sizeof *s->pins);
+        s->pin_locs = ls_arena_alloc(p->sa, (size_t)n * sizeof *s->pin_locs);
         if (!s->pins || !s->pin_locs)
             return NULL;
         memcpy(s->pins, pins, (size_t)n * sizeof *pins);
@@ -738,7 +739,7 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
             stmt_list body = {0};
             parse_lines(p, &body, s);
             if (body.n) { /* an empty body stays NULL */
-                s->body = ls_arena_alloc(p->a, (size_t)body.n * sizeof *s->body);
+                s->body = ls_arena_alloc(p->sa, (size_t)body.n * sizeof *s->body);
                 if (s->body)
                     memcpy(s->body, body.v, (size_t)body.n * sizeof *body.v);
             }
@@ -906,6 +907,7 @@ static void parse_registered(parser *outer, int file, const char *dir, inc_frame
     memset(&p, 0, sizeof p);
     p.d = outer->d;
     p.a = outer->a;
+    p.sa = outer->sa;
     p.dir = dir;
     p.incs = frames;
     p.inc_depth = depth;
@@ -993,6 +995,7 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
     memset(&p, 0, sizeof p);
     p.d = d;
     p.a = d->arena;
+    p.sa = prog->syntax ? prog->syntax : d->arena;
     int errors0 = d->errors;
     char real[PATH_MAX];
     inc_frame fr = {NULL, path, NULL};
@@ -1009,21 +1012,23 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
     stmt_list out = {0};
     size_t most = d->files[file].len / 6 + 1;
     int cap = (size_t)d->files[file].nlines < most ? d->files[file].nlines : (int)most;
-    out.v = ls_arena_alloc(p.a, (size_t)cap * sizeof *out.v);
+    out.v = ls_arena_alloc(p.sa, (size_t)cap * sizeof *out.v);
     if (out.v) {
         out.cap = cap;
-        out.a = p.a;
+        out.a = p.sa;
     }
     parse_registered(&p, file, dir_of(p.a, path), &fr, 0, &out, NULL);
     if (out.a) {
         prog->stmts = out.v;
     } else {
-        prog->stmts = ls_arena_alloc(p.a, (size_t)(out.n ? out.n : 1) * sizeof *prog->stmts);
+        prog->stmts = ls_arena_alloc(p.sa, (size_t)(out.n ? out.n : 1) * sizeof *prog->stmts);
         if (prog->stmts && out.n) /* an empty file has no array to copy */
             memcpy(prog->stmts, out.v, (size_t)out.n * sizeof *out.v);
         free(out.v);
     }
     prog->n = prog->stmts ? out.n : 0;
+    if (p.sa->failed) /* the callers look at the diagnostics' arena for out of memory */
+        p.a->failed = 1;
     return d->errors - errors0;
 }
 
@@ -1040,16 +1045,17 @@ static int register_text(ls_diags *d, const char *name, const char *text, size_t
     return id;
 }
 
-int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog)
+int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
+                       ls_program *prog)
 {
-    memset(prog, 0, sizeof *prog);
+    *prog = (ls_program){.syntax = syntax};
     int id = register_text(d, name, text, len);
     return id < 0 ? 1 : parse_top(d, id, name, prog);
 }
 
-int ls_parse_file(ls_diags *d, const char *path, ls_program *prog)
+int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program *prog)
 {
-    memset(prog, 0, sizeof *prog);
+    *prog = (ls_program){.syntax = syntax};
     size_t len = 0;
     ls_arena tmp;
     ls_arena_init(&tmp);
@@ -1065,12 +1071,22 @@ int ls_parse_file(ls_diags *d, const char *path, ls_program *prog)
     return id < 0 ? 1 : parse_top(d, id, path, prog);
 }
 
+int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog)
+{
+    return ls_parse_string_to(d, name, text, len, NULL, prog);
+}
+
+int ls_parse_file(ls_diags *d, const char *path, ls_program *prog)
+{
+    return ls_parse_file_to(d, path, NULL, prog);
+}
+
 ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect)
 {
     parser p;
     memset(&p, 0, sizeof p);
     p.d = d;
-    p.a = d->arena;
+    p.a = p.sa = d->arena;
     p.in_expect = in_expect;
     ls_lex_init(&p.lx, d, file);
     p.lx.pos = offset;

@@ -14,6 +14,12 @@ int ls_parse_file(ls_diags *d, const char *path, ls_program *prog);
 /* Parse text held in memory; `name` is used in diagnostics and for includes
  * (relative to the current directory when name has no directory part). */
 int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog);
+/* The same with the tree's structures in the arena `syntax` (names and text
+ * still in the diagnostics' arena): the caller may free `syntax` once it has
+ * elaborated the program for the last time (see ls_program.syntax). */
+int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program *prog);
+int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
+                       ls_program *prog);
 /* Parse one expression from text (for --set values and command-line quantities).
  * Returns NULL after reporting an error. */
 ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect);

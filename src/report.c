@@ -397,7 +397,7 @@ int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
         ls_check_row *row = &out->rows[out->n++];
         row->text = c->text;
         row->instance = c->instance;
-        row->loc = c->stmt->loc;
+        row->loc = c->loc;
         row->dims = c->lhs->dims;
         row->port = -1;
         ls_check_eval(op, c, &row->r);
