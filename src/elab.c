@@ -1221,6 +1221,21 @@ static void elab_param(elab *x, const scope *s, const ls_stmt *st)
 }
 
 /* Params first (in order), then parts, instances and checks. */
+enum { PREFETCH_AHEAD = 8 };
+
+/* Ask for the name-table slots of statement i's names (a part at the top level). */
+static void prefetch_names(elab *x, ls_stmt *const *stmts, int n, int i)
+{
+    if (i >= n || stmts[i]->kind != S_PART)
+        return;
+    const ls_stmt *a = stmts[i];
+    ls_hash_prefetch(&x->nl->names, a->name);
+    if (a->arrow) {
+        ls_hash_prefetch(&x->nl->names, a->from);
+        ls_hash_prefetch(&x->nl->names, a->to);
+    }
+}
+
 static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n)
 {
     for (int i = 0; i < n; i++)
@@ -1228,6 +1243,11 @@ static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n)
             elab_param(x, s, stmts[i]);
     for (int i = 0; i < n; i++) {
         const ls_stmt *st = stmts[i];
+        /* A large flat circuit is bound by the name table's cache misses:
+         * ask for the slots of a statement a few lines ahead. */
+        if (!s->prefix[0]) {
+            prefetch_names(x, stmts, n, i + PREFETCH_AHEAD);
+        }
         switch (st->kind) {
         case S_PART: elab_part(x, s, st); break;
         case S_USE: elab_use(x, s, st); break;

@@ -111,6 +111,12 @@ int ls_hash_reserve(ls_hash *h, size_t n)
     return cap > h->cap ? rebuild(h, cap) : 0;
 }
 
+void ls_hash_prefetch(const ls_hash *h, const char *key)
+{
+    if (h->cap)
+        __builtin_prefetch(&h->slots[(uint32_t)ls_hash_string(key) & (h->cap - 1)], 0, 1);
+}
+
 /* The slot holding key, or the empty slot where it would go (cap > 0). */
 static inline ls_hash_slot *probe(const ls_hash *h, const char *key, uint32_t hv)
 {

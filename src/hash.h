@@ -41,6 +41,11 @@ int ls_hash_reserve(ls_hash *h, size_t n);
  * the key is in the table. */
 int ls_hash_intern(ls_hash *h, const char *key, int val_if_new, int *val);
 
+/* Start loading the slot where key's probe begins (a hint, no effect on the
+ * table): a caller about to look up many keys in a large table can ask a few
+ * keys ahead, so that the memory latency of one overlaps the work of others. */
+void ls_hash_prefetch(const ls_hash *h, const char *key);
+
 /* The hash of a NUL-terminated string (64 bits, well mixed; the table uses
  * its low 32 bits).  Exposed for tests. */
 uint64_t ls_hash_string(const char *key);
