@@ -2,7 +2,8 @@
  *
  * Linear probing; each slot keeps its key's 32-bit hash beside the key, so a
  * probe compares strings only when the hashes agree, and growing never hashes
- * a key again.  The table grows to keep at most half its slots in use. */
+ * a key again.  The table grows to keep at most three quarters of its slots
+ * in use. */
 #ifndef LS_HASH_H
 #define LS_HASH_H
 

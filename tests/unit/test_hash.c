@@ -71,7 +71,7 @@ static int table_consistent(const ls_hash *h)
             if (!h->slots[j].key)
                 return 0;
     }
-    return used == h->count && (h->cap == 0 || (h->cap & (h->cap - 1)) == 0) && 2 * h->count <= h->cap;
+    return used == h->count && (h->cap == 0 || (h->cap & (h->cap - 1)) == 0) && 4 * h->count <= 3 * h->cap;
 }
 
 static void test_put_get_replace(void)
