@@ -20,31 +20,39 @@
 
 
 /* r = b - op(A) x; returns the normwise relative residual
- * ||r|| / (||A|| ||x|| + ||b||) and, in *berr, the componentwise backward error
- * max_i |r_i| / (|A| |x| + |b|)_i that decides whether refinement can help. */
-static double residuals(const ls_csc *a, const double *x, const double *b, double *r, double *absax, int transpose,
-                        double *berr)
+ * ||r|| / (||A|| ||x|| + ||b||), with ||A|| taken as amax (the largest |a_ij|),
+ * and, in *berr, the componentwise backward error
+ * max_i |r_i| / (|A| |x| + |b|)_i that decides whether refinement can help.
+ * absax gets (|op(A)| |x|)_i. */
+static double residuals(const ls_csc *a, double amax, const double *x, const double *b, double *r, double *absax,
+                        int transpose, double *berr)
 {
     int n = a->n;
-    double anorm = 0;
-    for (int p = 0; p < ls_csc_nnz(a); p++)
-        anorm = fmax(anorm, fabs(a->val[p]));
-    memset(r, 0, (size_t)n * sizeof *r);
-    memset(absax, 0, (size_t)n * sizeof *absax);
-    for (int j = 0; j < n; j++) {
-        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
-            int i = a->rowind[p];
-            double v = a->val[p];
-            if (!transpose) {
-                r[i] += v * x[j];
-                absax[i] += fabs(v * x[j]);
-            } else {
-                r[j] += v * x[i];
-                absax[j] += fabs(v * x[i]);
+    double rn = 0, xn = 0, bn = 0, be = 0;
+    if (!transpose) {
+        memset(r, 0, (size_t)n * sizeof *r);
+        memset(absax, 0, (size_t)n * sizeof *absax);
+        for (int j = 0; j < n; j++) {
+            double xj = x[j];
+            for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
+                int i = a->rowind[p];
+                double t = a->val[p] * xj;
+                r[i] += t;
+                absax[i] += fabs(t);
             }
         }
+    } else {
+        for (int j = 0; j < n; j++) {
+            double s = 0, sa = 0;
+            for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
+                double t = a->val[p] * x[a->rowind[p]];
+                s += t;
+                sa += fabs(t);
+            }
+            r[j] = s;
+            absax[j] = sa;
+        }
     }
-    double rn = 0, xn = 0, bn = 0, be = 0;
     for (int i = 0; i < n; i++) {
         r[i] = b[i] - r[i];
         rn = fmax(rn, fabs(r[i]));
@@ -57,32 +65,43 @@ static double residuals(const ls_csc *a, const double *x, const double *b, doubl
             be = INFINITY;
     }
     *berr = be;
-    double den = anorm * xn + bn;
+    double den = amax * xn + bn;
     return den > 0 ? rn / den : rn;
 }
 
-/* Solve with the factorization, then refine against the exact matrix until the
- * componentwise backward error stops improving (at most 4 corrections). */
-static int refined_solve(ls_op *op, double *b, int transpose, double *residual_out, int *iters)
+/* The refinement workspace of op for its order: rhs, r and |A||x|, n doubles
+ * each, allocated once (an operating-point solve touches only the last two).
+ * NULL without memory. */
+static double *refine_work(ls_op *op)
+{
+    size_t n = (size_t)(op->mna.n ? op->mna.n : 1);
+    if (op->work && op->work_n == n)
+        return op->work;
+    free(op->work);
+    op->work = malloc(3 * n * sizeof *op->work);
+    op->work_n = op->work ? n : 0;
+    return op->work;
+}
+
+/* x holds b on entry and the solution on return; rhs is b, left unchanged (and
+ * not x).  Solve with the factorization, then refine against the exact matrix
+ * until the componentwise backward error stops improving (at most 4
+ * corrections). */
+static int refined_solve(ls_op *op, const double *rhs, double *x, int transpose, double *residual_out, int *iters)
 {
     const ls_csc *a = &op->mna.a;
     int n = a->n;
-    size_t m = (size_t)(n ? n : 1);
-    double *rhs = malloc(m * sizeof *rhs), *r = malloc(m * sizeof *r), *w = malloc(m * sizeof *w);
-    double *x = b;
-    if (!rhs || !r || !w) {
-        free(rhs);
-        free(r);
-        free(w);
+    double *work = refine_work(op);
+    if (!work)
         return LS_SOLVER_NOMEM;
-    }
-    memcpy(rhs, b, (size_t)n * sizeof *rhs);
+    size_t m = op->work_n;
+    double *r = work + m, *w = work + 2 * m;
     int st = ls_solver_solve(op->solver, x, transpose);
     double res = INFINITY, berr_prev = INFINITY;
     int k = 0;
     while (st == LS_SOLVER_OK) {
         double berr;
-        res = residuals(a, x, rhs, r, w, transpose, &berr);
+        res = residuals(a, op->mna.amax, x, rhs, r, w, transpose, &berr);
         if (berr <= 2 * DBL_EPSILON || k == 4 || !(berr < 0.5 * berr_prev))
             break;
         berr_prev = berr;
@@ -95,15 +114,16 @@ static int refined_solve(ls_op *op, double *b, int transpose, double *residual_o
         *residual_out = res;
     if (iters)
         *iters = k;
-    free(rhs);
-    free(r);
-    free(w);
     return st;
 }
 
 int ls_op_solve_vec(ls_op *op, double *b, int transpose)
 {
-    return refined_solve(op, b, transpose, NULL, NULL);
+    double *work = refine_work(op);
+    if (!work)
+        return LS_SOLVER_NOMEM;
+    memcpy(work, b, (size_t)op->mna.n * sizeof *work);
+    return refined_solve(op, work, b, transpose, NULL, NULL);
 }
 
 static void widest_spread(const ls_netlist *nl, char *buf, size_t n)
@@ -171,9 +191,7 @@ static int factor(ls_op *op)
             ls_error(nl->diags, LS_NOLOC, "out of memory creating the solver");
             return LS_EXIT_UNSOLVABLE;
         }
-        int st = ls_solver_analyze(op->solver, &op->mna.a);
-        if (st == LS_SOLVER_OK)
-            st = ls_solver_factor(op->solver, &op->mna.a);
+        int st = ls_solver_analyze_factor(op->solver, &op->mna.a);
         const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
         op->method = m;
         op->rcond = ss->rcond;
@@ -231,8 +249,6 @@ static void chop_noise(ls_op *op)
     for (int i = 0; i < n; i++)
         if (fabs(op->x[i]) < NOISE_FLOOR * (i < nn ? vmax : imax))
             op->x[i] = 0;
-    for (int i = 1; i < op->nl->nnodes; i++)
-        op->v[i] = op->x[i - 1];
 }
 
 static void part_results(ls_op *op)
@@ -266,24 +282,20 @@ static void part_results(ls_op *op)
     }
 }
 
+/* The unknowns and node voltages are one array: v[0] = 0 (ground), then x,
+ * whose first nnodes - 1 entries are the node voltages, so v[i] = x[i - 1]
+ * holds without a copy.  Freed through v. */
 static int alloc_results(ls_op *op)
 {
     const ls_netlist *nl = op->nl;
-    size_t n = (size_t)(op->mna.n ? op->mna.n : 1), np = (size_t)(nl->nparts ? nl->nparts : 1);
-    op->x = calloc(n, sizeof *op->x);
-    op->v = calloc((size_t)nl->nnodes, sizeof *op->v);
+    size_t n = (size_t)op->mna.n, np = (size_t)(nl->nparts ? nl->nparts : 1);
+    op->v = calloc(n + 1, sizeof *op->v);
+    op->x = op->v ? op->v + 1 : NULL;
     op->ipart = calloc(np, sizeof *op->ipart);
     op->vpart = calloc(np, sizeof *op->vpart);
     op->ppart = calloc(np, sizeof *op->ppart);
     op->port = calloc(np, sizeof *op->port);
     return op->x && op->v && op->ipart && op->vpart && op->ppart && op->port ? 0 : -1;
-}
-
-/* Node voltages from the unknowns. */
-static void node_voltages(ls_op *op)
-{
-    for (int i = 1; i < op->nl->nnodes; i++)
-        op->v[i] = op->x[i - 1];
 }
 
 int ls_op_step(ls_op *op)
@@ -300,18 +312,14 @@ int ls_op_step(ls_op *op)
         if (!op->solver)
             return LS_SOLVER_NOMEM;
         op->method = LS_METHOD_SPARSE_LU;
-        st = ls_solver_analyze(op->solver, &op->mna.a);
-        if (st == LS_SOLVER_OK)
-            st = ls_solver_factor(op->solver, &op->mna.a);
+        st = ls_solver_analyze_factor(op->solver, &op->mna.a);
     }
 #endif
     op->rcond = ls_solver_stats_of(op->solver)->rcond;
     if (st != LS_SOLVER_OK)
         return st;
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    st = refined_solve(op, op->x, 0, &op->residual, &op->refinements);
-    if (st == LS_SOLVER_OK)
-        node_voltages(op);
+    st = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements);
     op->iterations++;
     return st;
 }
@@ -332,12 +340,11 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (r != LS_EXIT_OK)
         return r;
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    if (refined_solve(op, op->x, 0, &op->residual, &op->refinements) != LS_SOLVER_OK) {
+    if (refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements) != LS_SOLVER_OK) {
         ls_error(nl->diags, LS_NOLOC, "the linear solver failed while solving");
         return LS_EXIT_UNSOLVABLE;
     }
     op->iterations = 1;
-    node_voltages(op);
     if (ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
         return r;
     part_results(op);
@@ -346,8 +353,8 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     double dsum = 0;
     int dn = 0;
     for (int j = 0; j < op->mna.nn; j++)
-        for (int p = op->mna.a.colptr[j]; p < op->mna.a.colptr[j + 1]; p++)
-            if (op->mna.a.rowind[p] == j && op->mna.a.val[p] > 0) {
+        for (int p = op->mna.a.colptr[j]; p < op->mna.a.colptr[j + 1] && op->mna.a.rowind[p] <= j; p++)
+            if (op->mna.a.rowind[p] == j && op->mna.a.val[p] > 0) { /* rows are sorted: stop at the diagonal */
                 dsum += op->mna.a.val[p];
                 dn++;
             }
@@ -381,10 +388,9 @@ int ls_op_resolve(ls_op *op)
     if (st != LS_SOLVER_OK)
         return LS_EXIT_UNSOLVABLE;
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    if (refined_solve(op, op->x, 0, &op->residual, &op->refinements) != LS_SOLVER_OK)
+    if (refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements) != LS_SOLVER_OK)
         return LS_EXIT_UNSOLVABLE;
     op->iterations = 1;
-    node_voltages(op);
     if (ls_newton_needed(nl)) {
         int r = ls_newton_solve(op);
         if (r != LS_EXIT_OK)
@@ -400,8 +406,8 @@ void ls_op_free(ls_op *op)
 {
     ls_solver_free(&op->solver);
     ls_mna_free(&op->mna);
-    free(op->x);
-    free(op->v);
+    free(op->v); /* x lives in the same array */
+    free(op->work);
     free(op->ipart);
     free(op->vpart);
     free(op->ppart);

@@ -31,7 +31,7 @@ typedef struct ls_op {
     ls_solver *solver;
     ls_method method;
     double *x;               /* unknowns */
-    double *v;               /* node voltages, v[0] = 0 */
+    double *v;               /* node voltages, v[0] = 0: the same array as x, one slot before it (v[i] = x[i - 1]) */
     double *ipart, *vpart, *ppart;   /* per part: current (A), voltage (V), absorbed power (W) */
     double rcond, residual;
     int iterations;          /* linear solves of the operating-point iteration (1 for a linear circuit) */
@@ -43,6 +43,8 @@ typedef struct ls_op {
     bool *bridge_part;       /* removing this part's (single) edge floats nodes */
     int *bridge_child;       /* the DFS child endpoint of that bridge */
     int *order;              /* nodes by tin */
+    double *work;            /* refinement workspace: 3 work_n doubles */
+    size_t work_n;
 } ls_op;
 
 /* Exit codes of the program (cli.md). */

@@ -2,6 +2,7 @@
 #include "mna.h"
 
 #include <float.h>
+#include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -91,15 +92,129 @@ fail:
     return -1;
 }
 
-/* Stamp every part into triplets, compress them into m->a and free them (on a
- * large grid they would outweigh the matrix); the count is kept so the next
- * restamp allocates once.  0 ok, -1 no memory. */
-static int stamp_all(ls_mna *m)
+/* Position of row i in column j of a, or -1.  Rows are sorted within a column. */
+static int csc_find(const ls_csc *a, int i, int j)
+{
+    int lo = a->colptr[j], hi = a->colptr[j + 1] - 1;
+    while (lo <= hi) {
+        int mid = lo + (hi - lo) / 2;
+        int r = a->rowind[mid];
+        if (r == i)
+            return mid;
+        if (r < i)
+            lo = mid + 1;
+        else
+            hi = mid - 1;
+    }
+    return -1;
+}
+
+/* Largest |a_ij| (0 for an empty matrix). */
+static double csc_amax(const ls_csc *a)
+{
+    double m = 0;
+    for (int p = 0; p < ls_csc_nnz(a); p++)
+        m = fmax(m, fabs(a->val[p]));
+    return m;
+}
+
+/* Restamps go through a triplet buffer of about this many entries at a time. */
+#define RESTAMP_CHUNK 16384
+
+/* Add the buffered triplets into m->a, whose pattern they must fit: the first
+ * triplet of an entry sets it, later ones add to it, in stamp order (as
+ * compression sums them).  Returns 1 when every triplet has its entry, 0 when
+ * one has none. */
+static int flush_into_pattern(ls_mna *m, size_t *covered)
+{
+    ls_csc *a = &m->a;
+    const ls_triplets *t = &m->t;
+    for (size_t k = 0; k < t->nnz; k++) {
+        int i = t->ti[k], j = t->tj[k];
+        if (i < 0 || i >= a->n || j < 0 || j >= a->n)
+            return 0;
+        int p = csc_find(a, i, j);
+        if (p < 0)
+            return 0;
+        if (m->seen[p]) {
+            a->val[p] += t->tx[k];
+        } else {
+            a->val[p] = t->tx[k];
+            m->seen[p] = 1;
+            ++*covered;
+        }
+    }
+    return 1;
+}
+
+/* Restamp into the compressed pattern of the last assembly, a few parts at a
+ * time through a small triplet buffer.  Returns 1 done (m->a holds exactly
+ * what compressing every triplet would give), 0 the pattern changed (m->a
+ * and m->b are then to be rebuilt), -1 no memory. */
+static int restamp_in_place(ls_mna *m)
 {
     const ls_netlist *nl = m->nl;
+    size_t nnz = (size_t)ls_csc_nnz(&m->a);
+    if (m->seen_n != nnz || !m->seen) {
+        free(m->seen);
+        m->seen = malloc(nnz ? nnz : 1);
+        m->seen_n = m->seen ? nnz : 0;
+        if (!m->seen)
+            return -1;
+    }
+    memset(m->seen, 0, nnz);
+    ls_triplets_free(&m->t);
+    size_t cap = (m->nnz_hint < RESTAMP_CHUNK ? m->nnz_hint : RESTAMP_CHUNK) + 64;
+    m->t.ti = malloc(cap * sizeof *m->t.ti);
+    m->t.tj = malloc(cap * sizeof *m->t.tj);
+    m->t.tx = malloc(cap * sizeof *m->t.tx);
+    if (!m->t.ti || !m->t.tj || !m->t.tx) {
+        ls_triplets_free(&m->t);
+        return -1;
+    }
+    m->t.cap = cap;
+    memset(m->b, 0, (size_t)m->n * sizeof *m->b);
     ls_sink sink = {.mode = SINK_ASSEMBLE, .t = &m->t, .b = m->b, .scale = 1};
-    m->t.nnz = 0;
-    if (!m->t.cap && m->nnz_hint) {
+    size_t covered = 0, total = 0;
+    int fits = 1;
+    for (int i = 0; i < nl->nparts && fits; i++) {
+        ls_stamp_ctx c = {.nl = nl, .sink = &sink};
+        nl->parts[i].kind->stamp(&nl->parts[i], &c);
+        if (m->t.failed)
+            break;
+        if (m->t.nnz >= RESTAMP_CHUNK || i == nl->nparts - 1) {
+            fits = flush_into_pattern(m, &covered);
+            total += m->t.nnz;
+            m->t.nnz = 0;
+        }
+    }
+    int failed = m->t.failed;
+    ls_triplets_free(&m->t);
+    if (failed)
+        return -1;
+    if (!fits || covered != nnz)
+        return 0;
+    m->nnz_hint = total;
+    m->amax = csc_amax(&m->a);
+    m->in_place++;
+    return 1;
+}
+
+/* Stamp every part: into the pattern of the last assembly when it still fits,
+ * else into triplets that are compressed into m->a (and so freed: on a large
+ * grid they would outweigh the matrix); the count is kept so the next full
+ * assembly allocates once.  0 ok, -1 no memory. */
+static int stamp_all(ls_mna *m)
+{
+    if (m->a.colptr) {
+        int r = restamp_in_place(m);
+        if (r != 0)
+            return r > 0 ? 0 : -1;
+    }
+    const ls_netlist *nl = m->nl;
+    ls_sink sink = {.mode = SINK_ASSEMBLE, .t = &m->t, .b = m->b, .scale = 1};
+    ls_triplets_free(&m->t);
+    if (m->nnz_hint) {
         m->t.ti = malloc(m->nnz_hint * sizeof *m->t.ti);
         m->t.tj = malloc(m->nnz_hint * sizeof *m->t.tj);
         m->t.tx = malloc(m->nnz_hint * sizeof *m->t.tx);
@@ -114,13 +229,18 @@ static int stamp_all(ls_mna *m)
         ls_stamp_ctx c = {.nl = nl, .sink = &sink};
         nl->parts[i].kind->stamp(&nl->parts[i], &c);
     }
-    if (m->t.failed)
+    if (m->t.failed) {
+        ls_triplets_free(&m->t);
         return -1;
+    }
     ls_csc_free(&m->a);
     int rc = ls_triplets_to_csc(&m->t, m->n, &m->a);
     m->nnz_hint = m->t.nnz;
     ls_triplets_free(&m->t);
-    return rc;
+    if (rc != 0)
+        return -1;
+    m->amax = csc_amax(&m->a);
+    return 0;
 }
 
 int ls_mna_build(ls_mna *m, const ls_netlist *nl)
@@ -156,6 +276,7 @@ int ls_mna_restamp(ls_mna *m)
 void ls_mna_free(ls_mna *m)
 {
     ls_triplets_free(&m->t);
+    free(m->seen);
     ls_csc_free(&m->a);
     free(m->b);
     free(m->branch_part);
@@ -410,23 +531,6 @@ out:
 
 #ifdef LS_HAVE_SPARSE
 
-/* Position of row i in column j of a, or -1.  Rows are sorted within a column. */
-static int csc_find(const ls_csc *a, int i, int j)
-{
-    int lo = a->colptr[j], hi = a->colptr[j + 1] - 1;
-    while (lo <= hi) {
-        int mid = lo + (hi - lo) / 2;
-        int r = a->rowind[mid];
-        if (r == i)
-            return mid;
-        if (r < i)
-            lo = mid + 1;
-        else
-            hi = mid - 1;
-    }
-    return -1;
-}
-
 /* 1 when x and y agree to a few ulps (a symmetric pair summed in another order). */
 static int same_value(double x, double y)
 {
@@ -495,20 +599,31 @@ static int reducible_split(const ls_csc *a, int *fixes, int *mark)
     }
     if (nfixed == m)
         return -1; /* nothing left to factor: LU handles it directly */
-    /* the node block is symmetric; its rows below m couple to branches only as
-     * the mirror of the branch columns (checked from the branch side above, so
-     * a node column's entry at row k >= m must have its mirror) */
-    for (int j = 0; j < m; j++)
+    /* A is structurally symmetric, its node block numerically so (to rounding),
+     * and every node-branch coupling is mirrored with the opposite sign.  The
+     * columns are walked left to right: the mirror of an entry (i, j) below the
+     * diagonal must be the next unmatched entry above the diagonal in column
+     * i, as those rows are sorted and met in increasing j; an entry above the
+     * diagonal still unmatched when its own column comes up has no mirror.
+     * mark is free again and holds that next position per column. */
+    int *next = mark;
+    for (int j = 0; j < n; j++)
+        next[j] = a->colptr[j];
+    for (int j = 0; j < n; j++) {
+        if (next[j] < a->colptr[j + 1] && a->rowind[next[j]] < j)
+            return -1;
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
             int i = a->rowind[p];
-            if (i == j)
+            if (i <= j)
                 continue;
-            int q = csc_find(a, j, i);
-            if (q < 0)
+            int q = next[i];
+            if (q >= a->colptr[i + 1] || a->rowind[q] != j)
                 return -1;
             if (i < m ? !same_value(a->val[q], a->val[p]) : a->val[q] != -a->val[p])
                 return -1;
+            next[i]++;
         }
+    }
     return m;
 }
 
@@ -538,6 +653,7 @@ typedef struct reduced {
     int *subcol;           /* per unknown (n): its column in a, or -1 */
     double *r;             /* nu scratch */
     double *bsave;         /* per branch: the KCL right-hand side of the node it fixes */
+    bool factored;         /* the inner backend holds M's factor and h->a its columns */
 } reduced;
 
 /* A new reduced-form backend state, or NULL without memory.  Freed by reduced_destroy. */
@@ -765,10 +881,22 @@ static int inner_status(reduced *h, int st, ls_solver_stats *s)
 static int reduced_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
 {
     reduced *h = self;
+    h->factored = false;
     int rc = reduce(h, a);
     if (rc != LS_SOLVER_OK)
         return rc;
     return inner_status(h, h->inner->analyze(h->in, &h->mr, st), st);
+}
+
+/* Factor the M that reduce built; M is freed after (the solve reads only h->a
+ * and the numbering, and the next factor builds M again), so it is not held
+ * beside the factor and the solves' workspace.  LS_SOLVER_* status. */
+static int factor_reduced(reduced *h, ls_solver_stats *st)
+{
+    int rc = h->inner->factor(h->in, &h->mr, st);
+    ls_csc_free(&h->mr);
+    h->factored = rc == LS_SOLVER_OK;
+    return inner_status(h, rc, st);
 }
 
 /* Rebuild M from a's values and factor it; the inner backend reuses its
@@ -776,10 +904,24 @@ static int reduced_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
 static int reduced_factor(void *self, const ls_csc *a, ls_solver_stats *st)
 {
     reduced *h = self;
+    h->factored = false;
     int rc = reduce(h, a);
     if (rc != LS_SOLVER_OK)
         return rc;
-    return inner_status(h, h->inner->factor(h->in, &h->mr, st), st);
+    return factor_reduced(h, st);
+}
+
+/* reduced_analyze and reduced_factor with one split and one M.  LS_SOLVER_* status. */
+static int reduced_analyze_factor(void *self, const ls_csc *a, ls_solver_stats *st)
+{
+    reduced *h = self;
+    h->factored = false;
+    int rc = reduce(h, a);
+    if (rc == LS_SOLVER_OK)
+        rc = inner_status(h, h->inner->analyze(h->in, &h->mr, st), st);
+    if (rc != LS_SOLVER_OK)
+        return rc;
+    return factor_reduced(h, st);
 }
 
 /* x = A^-1 b in place (the steps are in the banner above).  LS_SOLVER_* status. */
@@ -871,7 +1013,7 @@ static int reduced_solve(void *self, double *b, int transpose, ls_solver_stats *
 {
     reduced *h = self;
     (void)st;
-    if (!h->mr.colptr)
+    if (!h->factored)
         return LS_SOLVER_FAILED;
     if (transpose)
         for (int k = h->m; k < h->n; k++)
@@ -885,6 +1027,7 @@ static int reduced_solve(void *self, double *b, int transpose, ls_solver_stats *
 
 const ls_backend ls_backend_reduced = {
     "cholmod-reduced", reduced_create, reduced_analyze, reduced_factor, reduced_solve, reduced_destroy,
+    reduced_analyze_factor,
 };
 
 #endif /* LS_HAVE_SPARSE */

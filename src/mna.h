@@ -10,15 +10,23 @@ typedef struct ls_mna {
     int nn;                /* node unknowns: nnodes - 1 */
     int n;                 /* all unknowns: nodes, then branch currents */
     int *branch_part;      /* for each branch unknown (index - nn): its part */
-    ls_triplets t;         /* assembled entries (duplicates not yet summed); empty between stamps */
+    ls_triplets t;         /* entries being stamped (duplicates not yet summed); empty between stamps */
     size_t nnz_hint;       /* triplet count of the last stamp */
     double *b;             /* right-hand side, n */
     ls_csc a;              /* compressed, duplicates summed */
+    double amax;           /* largest |a_ij| */
+    unsigned char *seen;   /* restamp scratch: per entry of a, set once a triplet reached it */
+    size_t seen_n;
+    unsigned in_place;     /* restamps summed straight into a's pattern (for tests) */
 } ls_mna;
 
 /* Number branch unknowns and stamp every part.  0 ok, -1 out of memory. */
 int ls_mna_build(ls_mna *m, const ls_netlist *nl);
-/* Re-stamp the values (same structure) after part values changed. */
+/* Re-stamp the values after part values changed.  When every entry lands in
+ * the pattern of the last assembly and fills all of it, the values are summed
+ * straight into m->a (same arrays, same pattern, the same numbers compression
+ * would give) through a small triplet buffer; otherwise the system is
+ * assembled afresh.  0 ok, -1 out of memory. */
 int ls_mna_restamp(ls_mna *m);
 void ls_mna_free(ls_mna *m);
 

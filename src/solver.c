@@ -56,8 +56,12 @@ static void blas_threads_for(ls_method m, int n)
     int big = m == LS_METHOD_DENSE_LU ? 1000 : 200000;
     int want = n >= big ? openblas_get_num_procs() : 1;
 #ifdef LS_HAVE_OPENMP
-    /* OpenMP's thread count is per calling thread: set it every time */
+    /* OpenMP's thread count is per calling thread: set it every time.  CHOLMOD
+     * asks for a fixed team size in its num_threads clauses, which overrides
+     * omp_set_num_threads; with dynamic adjustment on, the runtime bounds
+     * every team by that count (and by the idle processors), so the cap holds. */
     omp_set_num_threads(want);
+    omp_set_dynamic(1);
 #endif
     pthread_mutex_lock(&lock);
     if (want != current) {
@@ -72,6 +76,20 @@ int ls_solver_factor(ls_solver *s, const ls_csc *a)
     blas_threads_for(s->st.method, a->n);
     s->st.bad_column = -1;
     int r = s->be->factor(s->self, a, &s->st);
+    s->factored = r == LS_SOLVER_OK;
+    return r;
+}
+
+int ls_solver_analyze_factor(ls_solver *s, const ls_csc *a)
+{
+    if (!s->be->analyze_factor) {
+        int r = ls_solver_analyze(s, a);
+        return r == LS_SOLVER_OK ? ls_solver_factor(s, a) : r;
+    }
+    s->factored = 0;
+    blas_threads_for(s->st.method, a->n);
+    s->st.bad_column = -1;
+    int r = s->be->analyze_factor(s->self, a, &s->st);
     s->factored = r == LS_SOLVER_OK;
     return r;
 }

@@ -61,6 +61,9 @@ typedef struct ls_backend {
      * b is n values.  Only valid after a successful factor. */
     int (*solve)(void *self, double *b, int transpose, ls_solver_stats *st);
     void (*destroy)(void *self);
+    /* Optional (NULL: analyze, then factor): both at once, for a backend whose
+     * analysis already does most of the factor's work on the same matrix. */
+    int (*analyze_factor)(void *self, const ls_csc *a, ls_solver_stats *st);
 } ls_backend;
 
 extern const ls_backend ls_backend_dense;
@@ -73,6 +76,9 @@ extern const ls_backend ls_backend_cholmod;
 ls_solver *ls_solver_new(const ls_backend *be, ls_method method);
 int ls_solver_analyze(ls_solver *s, const ls_csc *a);
 int ls_solver_factor(ls_solver *s, const ls_csc *a);
+/* ls_solver_analyze then ls_solver_factor on the same matrix, in one step where
+ * the backend can share their work.  Returns the first failing status. */
+int ls_solver_analyze_factor(ls_solver *s, const ls_csc *a);
 /* Solve in place; `work` scratch is internal.  Returns LS_SOLVER_OK or an error. */
 int ls_solver_solve(ls_solver *s, double *b, int transpose);
 const ls_solver_stats *ls_solver_stats_of(const ls_solver *s);
