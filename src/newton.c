@@ -526,6 +526,8 @@ static void rating_warnings(ls_op *op, int i)
 {
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[i];
+    if (!p->has_opt)
+        return; /* every warning here is against a rating option */
     char a[48], b[48], c[48];
     int ri = ls_kind_opt(p->kind, "rating"), vi = ls_kind_opt(p->kind, "vmax"), ii = ls_kind_opt(p->kind, "imax");
     double derate = op->opt.derate > 0 ? op->opt.derate : 1;

@@ -1162,6 +1162,10 @@ const char *ls_kind_suggest(const char *name)
 
 void ls_part_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative)
 {
-    memset(out, 0, sizeof *out);
+    /* idx[] and coef[] are read only below n: clearing them too was a fifth of
+     * the per-part results of a large grid */
+    out->n = 0;
+    out->constant = 0;
+    out->overflow = false;
     p->kind->current(p, nl, out, derivative, 0);
 }
