@@ -5,7 +5,7 @@
  * linear analyses use (A x = b holds for the final x); op-amp stamps against
  * the rows written out by hand for each limit (MNA: a voltage-defined row per
  * output; KCL rows sum the currents leaving a node). */
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -170,17 +170,12 @@ static void test_resolve(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 1;
-    CU_pSuite s = CU_add_suite("newton", NULL, NULL);
-    CU_add_test(s, "one symbolic analysis (sparse)", test_one_analysis_sparse);
-    CU_add_test(s, "limits keep the pattern", test_limits_keep_pattern);
-    CU_add_test(s, "clamped row by hand", test_clamp_row);
-    CU_add_test(s, "unsolvable names the part", test_unsolvable_names_part);
-    CU_add_test(s, "resolve iterates", test_resolve);
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned failed = CU_get_number_of_failures();
-    CU_cleanup_registry();
-    return failed ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"one symbolic analysis (sparse)", test_one_analysis_sparse},
+        {"limits keep the pattern", test_limits_keep_pattern},
+        {"clamped row by hand", test_clamp_row},
+        {"unsolvable names the part", test_unsolvable_names_part},
+        {"resolve iterates", test_resolve},
+    };
+    return ls_cu_run("newton", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

@@ -2,7 +2,7 @@
  * params), and each part kind's MNA stamp against the hand-derived entries of
  * modified nodal analysis (KCL rows: currents leaving the node; one extra row
  * and column per voltage-defined branch). */
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <math.h>
 #include <string.h>
 
@@ -270,19 +270,14 @@ static void test_topology(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 1;
-    CU_pSuite s = CU_add_suite("core", NULL, NULL);
-    CU_add_test(s, "expressions", test_expressions);
-    CU_add_test(s, "unit algebra", test_unit_algebra);
-    CU_add_test(s, "blocks", test_blocks);
-    CU_add_test(s, "stamp: resistor and sources", test_stamp_resistor_and_sources);
-    CU_add_test(s, "stamp: controlled sources", test_stamp_controlled);
-    CU_add_test(s, "stamp: op-amp and port", test_stamp_opamp_and_port);
-    CU_add_test(s, "topology", test_topology);
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"expressions", test_expressions},
+        {"unit algebra", test_unit_algebra},
+        {"blocks", test_blocks},
+        {"stamp: resistor and sources", test_stamp_resistor_and_sources},
+        {"stamp: controlled sources", test_stamp_controlled},
+        {"stamp: op-amp and port", test_stamp_opamp_and_port},
+        {"topology", test_topology},
+    };
+    return ls_cu_run("core", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

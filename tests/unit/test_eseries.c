@@ -3,7 +3,7 @@
  * tests/ref/test_pick_ref.py (via pick_driver.c); here only closed-form cases. */
 #include "eseries.h"
 
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <math.h>
 #include <string.h>
 
@@ -171,23 +171,15 @@ static void test_pick_bad(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 2;
-    CU_pSuite s = CU_add_suite("eseries", NULL, NULL);
-    if (!s || !CU_add_test(s, "values per decade, lookup", test_counts) ||
-        !CU_add_test(s, "spot values", test_spot_values) ||
-        !CU_add_test(s, "defining formula and historic values", test_formula) ||
-        !CU_add_test(s, "series nesting", test_nesting) ||
-        !CU_add_test(s, "snap", test_snap) ||
-        !CU_add_test(s, "pick ratio 1/2", test_pick_half) ||
-        !CU_add_test(s, "pick ratio 1/11 with zout limit", test_pick_eleventh) ||
-        !CU_add_test(s, "pick bad arguments", test_pick_bad)) {
-        CU_cleanup_registry();
-        return 2;
-    }
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures() + CU_get_number_of_tests_failed();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"values per decade, lookup", test_counts},
+        {"spot values", test_spot_values},
+        {"defining formula and historic values", test_formula},
+        {"series nesting", test_nesting},
+        {"snap", test_snap},
+        {"pick ratio 1/2", test_pick_half},
+        {"pick ratio 1/11 with zout limit", test_pick_eleventh},
+        {"pick bad arguments", test_pick_bad},
+    };
+    return ls_cu_run("eseries", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

@@ -10,7 +10,7 @@
  * prefix. */
 #include "fmt.h"
 
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <float.h>
 #include <math.h>
 #include <stdint.h>
@@ -284,21 +284,13 @@ static void test_fixed(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 1;
-    CU_pSuite s = CU_add_suite("fmt: engineering notation as the original algorithm writes it", NULL, NULL);
-    if (!s || !CU_add_test(s, "random prefixed magnitudes", test_random_prefixed) ||
-        !CU_add_test(s, "random short values and halves", test_random_short) ||
-        !CU_add_test(s, "random bit patterns", test_random_bits) ||
-        !CU_add_test(s, "carries, powers of ten, range ends", test_edges) ||
-        !CU_add_test(s, "digit counts and short buffers", test_sig_and_cut) ||
-        !CU_add_test(s, "fixed decimals against printf", test_fixed)) {
-        CU_cleanup_registry();
-        return 1;
-    }
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures() + CU_get_number_of_tests_failed();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"random prefixed magnitudes", test_random_prefixed},
+        {"random short values and halves", test_random_short},
+        {"random bit patterns", test_random_bits},
+        {"carries, powers of ten, range ends", test_edges},
+        {"digit counts and short buffers", test_sig_and_cut},
+        {"fixed decimals against printf", test_fixed},
+    };
+    return ls_cu_run("fmt: engineering notation as the original algorithm writes it", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

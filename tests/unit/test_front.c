@@ -2,7 +2,7 @@
  * zeroed memory, large blocks, the failure flag), numbers read without strtod
  * against the C library's strtod, and every statement kind's fields in the
  * compact syntax tree against the positions of the source text. */
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <math.h>
 #include <stdalign.h>
 #include <stdint.h>
@@ -389,19 +389,14 @@ static void test_many_statements_with_include(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 1;
-    CU_pSuite s = CU_add_suite("front", NULL, NULL);
-    CU_add_test(s, "arena alignment", test_arena_alignment);
-    CU_add_test(s, "arena zeroed memory and contents", test_arena_zero_and_contents);
-    CU_add_test(s, "arena printf", test_arena_printf);
-    CU_add_test(s, "arena failure flag", test_arena_failed);
-    CU_add_test(s, "numbers as strtod reads them", test_numbers_match_strtod);
-    CU_add_test(s, "tree fields of every statement kind", test_tree_fields);
-    CU_add_test(s, "many statements with an include", test_many_statements_with_include);
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"arena alignment", test_arena_alignment},
+        {"arena zeroed memory and contents", test_arena_zero_and_contents},
+        {"arena printf", test_arena_printf},
+        {"arena failure flag", test_arena_failed},
+        {"numbers as strtod reads them", test_numbers_match_strtod},
+        {"tree fields of every statement kind", test_tree_fields},
+        {"many statements with an include", test_many_statements_with_include},
+    };
+    return ls_cu_run("front", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

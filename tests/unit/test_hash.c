@@ -3,7 +3,7 @@
  * growth, many keys, keys that share a home slot and keys whose stored 32-bit
  * hashes are equal; and the spread of the hash function (Pearson's chi-square
  * goodness-of-fit test). */
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -343,20 +343,15 @@ static void test_spread(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 1;
-    CU_pSuite s = CU_add_suite("hash", NULL, NULL);
-    CU_add_test(s, "put, get, replace", test_put_get_replace);
-    CU_add_test(s, "intern", test_intern);
-    CU_add_test(s, "growth", test_growth);
-    CU_add_test(s, "reserve", test_reserve);
-    CU_add_test(s, "random operations against a linear list", test_random_against_list);
-    CU_add_test(s, "keys with one home slot", test_same_home_slot);
-    CU_add_test(s, "keys with one stored hash", test_equal_stored_hash);
-    CU_add_test(s, "spread (chi-square)", test_spread);
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"put, get, replace", test_put_get_replace},
+        {"intern", test_intern},
+        {"growth", test_growth},
+        {"reserve", test_reserve},
+        {"random operations against a linear list", test_random_against_list},
+        {"keys with one home slot", test_same_home_slot},
+        {"keys with one stored hash", test_equal_stored_hash},
+        {"spread (chi-square)", test_spread},
+    };
+    return ls_cu_run("hash", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

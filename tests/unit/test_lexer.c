@@ -1,5 +1,5 @@
 /* test_lexer.c — tokens, positions, numbers, SI prefixes, IEC 60062 codes, units. */
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <math.h>
 #include <string.h>
 
@@ -166,19 +166,14 @@ static void test_continuation(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 1;
-    CU_pSuite s = CU_add_suite("lexer", NULL, NULL);
-    CU_add_test(s, "SI prefixes", test_si_prefixes);
-    CU_add_test(s, "IEC 60062 codes", test_iec60062);
-    CU_add_test(s, "units", test_units);
-    CU_add_test(s, "detached prefix", test_detached_prefix_is_error);
-    CU_add_test(s, "overflow", test_overflow_is_error);
-    CU_add_test(s, "tokens and positions", test_tokens_and_positions);
-    CU_add_test(s, "continuation", test_continuation);
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"SI prefixes", test_si_prefixes},
+        {"IEC 60062 codes", test_iec60062},
+        {"units", test_units},
+        {"detached prefix", test_detached_prefix_is_error},
+        {"overflow", test_overflow_is_error},
+        {"tokens and positions", test_tokens_and_positions},
+        {"continuation", test_continuation},
+    };
+    return ls_cu_run("lexer", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

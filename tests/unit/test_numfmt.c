@@ -10,7 +10,7 @@
 #include "fmt.h"
 #include "numfmt.h"
 
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <float.h>
 #include <math.h>
 #include <stdint.h>
@@ -212,22 +212,14 @@ static void test_full_cut(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 1;
-    CU_pSuite s = CU_add_suite("numfmt: %.17g as printf writes it", NULL, NULL);
-    if (!s || !CU_add_test(s, "random bit patterns", test_random_bits) ||
-        !CU_add_test(s, "subnormals and range ends", test_subnormal) ||
-        !CU_add_test(s, "integers", test_integers) ||
-        !CU_add_test(s, "powers of two and ten", test_powers) ||
-        !CU_add_test(s, "halfway cases round to even", test_halfway) ||
-        !CU_add_test(s, "report-like values, form switches", test_report_like) ||
-        !CU_add_test(s, "short buffers", test_full_cut)) {
-        CU_cleanup_registry();
-        return 1;
-    }
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures() + CU_get_number_of_tests_failed();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"random bit patterns", test_random_bits},
+        {"subnormals and range ends", test_subnormal},
+        {"integers", test_integers},
+        {"powers of two and ten", test_powers},
+        {"halfway cases round to even", test_halfway},
+        {"report-like values, form switches", test_report_like},
+        {"short buffers", test_full_cut},
+    };
+    return ls_cu_run("numfmt: %.17g as printf writes it", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

@@ -5,7 +5,7 @@
  * histogram_bin_edges(..., 'fd') — both from Debian's /usr/bin/python3. */
 #include "plot.h"
 
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <dirent.h>
 #include <math.h>
 #include <stdint.h>
@@ -327,22 +327,13 @@ static void test_hist_one_value(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 2;
-    CU_pSuite s = CU_add_suite("plot", make_dir, remove_dir);
-    if (!s || !CU_add_test(s, "nice ticks", test_nice_ticks) ||
-        !CU_add_test(s, "Freedman-Diaconis bins vs numpy", test_hist_bins) ||
-        !CU_add_test(s, "line plot SVG/PNG", test_line_files) ||
-        !CU_add_test(s, "histogram SVG/PNG", test_hist_files) ||
-        !CU_add_test(s, "errors leave no file", test_errors) ||
-        !CU_add_test(s, "histogram of one value", test_hist_one_value)) {
-        CU_cleanup_registry();
-        return 2;
-    }
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures() + CU_get_number_of_tests_failed() +
-                     CU_get_number_of_suites_failed();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"nice ticks", test_nice_ticks},
+        {"Freedman-Diaconis bins vs numpy", test_hist_bins},
+        {"line plot SVG/PNG", test_line_files},
+        {"histogram SVG/PNG", test_hist_files},
+        {"errors leave no file", test_errors},
+        {"histogram of one value", test_hist_one_value},
+    };
+    return ls_cu_run("plot", make_dir, remove_dir, cases, LS_CU_COUNT(cases));
 }

@@ -2,7 +2,7 @@
  * against their closed forms. */
 #include "rng.h"
 
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <math.h>
 #include <stdint.h>
 
@@ -127,21 +127,13 @@ static void test_normal(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 2;
-    CU_pSuite s = CU_add_suite("rng", NULL, NULL);
-    if (!s || !CU_add_test(s, "pcg32 reference output", test_reference_vector) ||
-        !CU_add_test(s, "seed and stream", test_streams) ||
-        !CU_add_test(s, "neighbouring streams uncorrelated", test_stream_correlation) ||
-        !CU_add_test(s, "uniform [0,1) moments", test_uniform) ||
-        !CU_add_test(s, "uniform [-1,1) moments", test_uniform_pm1) ||
-        !CU_add_test(s, "normal moments and tails", test_normal)) {
-        CU_cleanup_registry();
-        return 2;
-    }
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned fails = CU_get_number_of_failures() + CU_get_number_of_tests_failed();
-    CU_cleanup_registry();
-    return fails ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"pcg32 reference output", test_reference_vector},
+        {"seed and stream", test_streams},
+        {"neighbouring streams uncorrelated", test_stream_correlation},
+        {"uniform [0,1) moments", test_uniform},
+        {"uniform [-1,1) moments", test_uniform_pm1},
+        {"normal moments and tails", test_normal},
+    };
+    return ls_cu_run("rng", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

@@ -3,7 +3,7 @@
 #include "solver.h"
 #include "sparse.h"
 
-#include <CUnit/Basic.h>
+#include "../cu_run.h"
 #include <lapacke.h>
 
 #include <math.h>
@@ -446,22 +446,15 @@ static void test_pick(void)
 
 int main(void)
 {
-    if (CU_initialize_registry() != CUE_SUCCESS)
-        return 2;
-    CU_pSuite s = CU_add_suite("sparse", NULL, NULL);
-    if (!s || !CU_add_test(s, "chain closed form", test_chain_closed_form) ||
-        !CU_add_test(s, "grid two-point resistance", test_grid_two_point) ||
-        !CU_add_test(s, "transposed solves", test_transpose) ||
-        !CU_add_test(s, "refactor same pattern", test_refactor) ||
-        !CU_add_test(s, "refactor needs pivoting", test_refactor_needs_pivoting) ||
-        !CU_add_test(s, "singular", test_singular) ||
-        !CU_add_test(s, "not SPD", test_not_spd) || !CU_add_test(s, "pick", test_pick)) {
-        CU_cleanup_registry();
-        return 2;
-    }
-    CU_basic_set_mode(CU_BRM_VERBOSE);
-    CU_basic_run_tests();
-    unsigned failed = CU_get_number_of_failures() + CU_get_number_of_tests_failed();
-    CU_cleanup_registry();
-    return failed ? 1 : 0;
+    static const ls_cu_case cases[] = {
+        {"chain closed form", test_chain_closed_form},
+        {"grid two-point resistance", test_grid_two_point},
+        {"transposed solves", test_transpose},
+        {"refactor same pattern", test_refactor},
+        {"refactor needs pivoting", test_refactor_needs_pivoting},
+        {"singular", test_singular},
+        {"not SPD", test_not_spd},
+        {"pick", test_pick},
+    };
+    return ls_cu_run("sparse", NULL, NULL, cases, LS_CU_COUNT(cases));
 }
