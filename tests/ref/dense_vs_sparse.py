@@ -39,7 +39,7 @@ def values(rep):
 
 
 def main():
-    exe, dirs = sys.argv[1], sys.argv[2:]
+    exe, dirs = os.path.abspath(sys.argv[1]), sys.argv[2:]
     files = sorted(os.path.abspath(os.path.join(r, f)) for d in dirs for r, _, fs in os.walk(d) for f in fs if f.endswith(".stack"))
     compared = same_refusal = bad = 0
     for path in files:
