@@ -330,18 +330,6 @@ int ls_circuit_part_index(const ls_circuit *c, const char *name)
     return ls_netlist_find_part(&c->nl, name);
 }
 
-/* The word for an op-amp's output limit in force (as the JSON report has it). */
-static const char *limit_word(const ls_part *p)
-{
-    switch (p->run->state) {
-    case LS_LIM_RAIL_HIGH: return "rail-high";
-    case LS_LIM_RAIL_LOW: return "rail-low";
-    case LS_LIM_CURRENT_SOURCE:
-    case LS_LIM_CURRENT_SINK: return "current";
-    default: return "none";
-    }
-}
-
 ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out)
 {
     if (!c || !out || !c->elaborated || i < 0 || i >= c->nl.nparts)
@@ -355,7 +343,7 @@ ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out)
     if (!c->solved)
         return LS_E_NOT_SOLVED;
     if (p->kind->is_opamp)
-        out->limited = limit_word(p);
+        out->limited = ls_opamp_limit_word(p);
     out->current = c->op.ipart[i];
     out->voltage = c->op.vpart[i];
     out->power = c->op.ppart[i];

@@ -356,6 +356,17 @@ bool ls_opamp_limited(const ls_part *p)
     return opamp_has(p, "rails") || opamp_has(p, "imax");
 }
 
+const char *ls_opamp_limit_word(const ls_part *p)
+{
+    switch (p->run->state) {
+    case LS_LIM_RAIL_HIGH: return "rail-high";
+    case LS_LIM_RAIL_LOW: return "rail-low";
+    case LS_LIM_CURRENT_SOURCE:
+    case LS_LIM_CURRENT_SINK: return "current";
+    default: return "none";
+    }
+}
+
 /* Unknown idx of x, or 0 V for ground (idx < 0). */
 static double xval(const double *x, int idx)
 {

@@ -135,6 +135,9 @@ double ls_level_v(const ls_level *l, const double *v);
  * and node voltages v of the last solve; *side is set to the supply side
  * (1 sinking) that current calls for. */
 int ls_opamp_next(const ls_part *p, const double *x, const double *v, int *side);
+/* The word for the op-amp's output limit in force, as the JSON report and the
+ * C API give it: "rail-high", "rail-low", "current" or "none". */
+const char *ls_opamp_limit_word(const ls_part *p);
 /* Does the op-amp have any output limit (rails= or imax=)? */
 bool ls_opamp_limited(const ls_part *p);
 /* Junction current (A, anode -> cathode) of a diode, led or zener at junction

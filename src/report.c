@@ -551,18 +551,6 @@ static void warnings_text(ls_report *rp)
 
 /* ---- real parts: limits, ADC inputs, thermistors ----------------------------------------- */
 
-/* The JSON word for an op-amp's limit in force. */
-static const char *limit_name(const ls_part *p)
-{
-    switch (p->run->state) {
-    case LS_LIM_RAIL_HIGH: return "rail-high";
-    case LS_LIM_RAIL_LOW: return "rail-low";
-    case LS_LIM_CURRENT_SOURCE:
-    case LS_LIM_CURRENT_SINK: return "current";
-    default: return "none";
-    }
-}
-
 static bool is_kind(const ls_part *p, const char *k)
 {
     return strcmp(p->kind->name, k) == 0;
@@ -903,7 +891,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         ob_puts(o, ": {");
         kv(o, "out", op->v[p->pin[2]], false);
         kv(o, "current", op->ipart[i], true);
-        ob_printf(o, ", \"limited\": \"%s\"", limit_name(p));
+        ob_printf(o, ", \"limited\": \"%s\"", ls_opamp_limit_word(p));
         kv(o, "dissipation", ls_opamp_dissipation(op, i), true);
         ob_putc(o, '}');
     }
