@@ -116,11 +116,14 @@ static void note_decl(elab *x, ls_loc loc, const char *name)
         ls_note(x->d, loc, "'%s' was declared here", name);
 }
 
-/* Declare a name in its scope; a clash is an error naming both places.
- * Returns the entity index, or -1. */
-static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_loc loc)
+/* Declare a name in its scope; a clash is an error naming both places, or,
+ * with `found`, no error: *found is set to the entity already there (else -1).
+ * Returns the new entity's index, or -1. */
+static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_loc loc, int *found)
 {
     ls_netlist *nl = x->nl;
+    if (found)
+        *found = -1;
     if (strlen(full) > LS_MAX_NAME_BYTES) {
         ls_error(x->d, loc, "name is longer than %d bytes", LS_MAX_NAME_BYTES);
         return -1;
@@ -135,6 +138,10 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         return -1;
     }
     if (r == 0) {
+        if (found) {
+            *found = e;
+            return -1;
+        }
         ls_entity *o = &nl->ents[e];
         ls_error(x->d, loc, "'%s' is already declared as a %s", full, ent_what(o->kind));
         note_decl(x, o->loc, full);
@@ -144,10 +151,16 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
     return e;
 }
 
-static int new_node(elab *x, const char *full, ls_loc loc, int depth)
+/* A new node named full; with `found` as for declare (a name already there is
+ * no error, and no limit applies to it).  Returns its index, or -1. */
+static int new_node(elab *x, const char *full, ls_loc loc, int depth, int *found)
 {
     ls_netlist *nl = x->nl;
+    if (found)
+        *found = -1;
     if (nl->nnodes >= LS_MAX_NODES) {
+        if (found && (*found = ls_hash_get(&nl->names, full)) >= 0)
+            return -1;
         if (nl->nnodes == LS_MAX_NODES && !x->nodes_capped) /* say it once */
             ls_error(x->d, loc, "more than %d nodes after the blocks are expanded", LS_MAX_NODES);
         x->nodes_capped = true;
@@ -157,7 +170,7 @@ static int new_node(elab *x, const char *full, ls_loc loc, int depth)
         return -1;
     int i = nl->nnodes++;
     nl->nodes[i] = (ls_node){.name = full, .loc = loc, .scope_depth = depth};
-    if (declare(x, full, ENT_NODE, i, loc) < 0) {
+    if (declare(x, full, ENT_NODE, i, loc, found) < 0) {
         nl->nnodes--;
         return -1;
     }
@@ -172,26 +185,8 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
         return 0;
     const char *full = qualify(x, s, name);
     bool dotted = strchr(name, '.') != NULL;
-    int e = -1, i = -1;
-    /* One probe finds the node or makes it, when a new node cannot fail;
-     * otherwise (a limit or no memory) new_node reports why. */
-    if (nl->nnodes < LS_MAX_NODES && strlen(full) <= LS_MAX_NAME_BYTES &&
-        grow((void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents) &&
-        grow((void **)&nl->nodes, &nl->cap_nodes, nl->nnodes + 1, sizeof *nl->nodes)) {
-        int r = ls_hash_intern(&nl->names, full, nl->nents, &e);
-        if (r < 0) {
-            out_of_memory(x);
-            return -1;
-        }
-        if (r == 1) {
-            i = nl->nnodes++;
-            nl->nodes[i] = (ls_node){.name = full, .loc = loc, .scope_depth = s->depth};
-            nl->ents[nl->nents++] = (ls_entity){ENT_NODE, i, loc};
-            e = -1;
-        }
-    } else {
-        e = ls_hash_get(&nl->names, full);
-    }
+    int e;
+    int i = new_node(x, full, loc, s->depth, &e); /* one probe finds it or makes it */
     if (e >= 0) {
         ls_entity *o = &nl->ents[e];
         if (o->kind == ENT_NODE || o->kind == ENT_ALIAS) {
@@ -203,8 +198,6 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
         note_decl(x, o->loc, full);
         return -1;
     }
-    if (i < 0)
-        i = new_node(x, full, loc, s->depth);
     if (i < 0)
         return -1;
     if (dotted) {
@@ -244,7 +237,7 @@ static int add_param(elab *x, const scope *s, const char *name, double v, ls_dim
         return -1;
     int i = nl->nparams++;
     nl->params[i] = (ls_param){v, d, loc};
-    if (declare(x, qualify(x, s, name), ENT_PARAM, i, loc) < 0)
+    if (declare(x, qualify(x, s, name), ENT_PARAM, i, loc, NULL) < 0)
         return -1;
     return i;
 }
@@ -1042,7 +1035,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     if (!grow_x(x, (void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
         return;
     nl->parts[nl->nparts] = p;
-    if (declare(x, p.name, ENT_PART, nl->nparts, st->name_loc) >= 0)
+    if (declare(x, p.name, ENT_PART, nl->nparts, st->name_loc, NULL) >= 0)
         nl->nparts++;
 }
 
@@ -1114,7 +1107,7 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
         return;
     }
     const char *full = qualify(x, s, st->name);
-    if (declare(x, full, ENT_INSTANCE, bi, st->name_loc) < 0)
+    if (declare(x, full, ENT_INSTANCE, bi, st->name_loc, NULL) < 0)
         return;
     scope in = {full, b, s, s->depth + 1};
     int errs = x->d->errors;
@@ -1135,7 +1128,7 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
             }
             int node = node_ref(x, s, o->value->name, o->value->loc);
             if (node >= 0)
-                declare(x, qualify(x, &in, o->name), ENT_ALIAS, node, o->name_loc);
+                declare(x, qualify(x, &in, o->name), ENT_ALIAS, node, o->name_loc, NULL);
             continue;
         }
         int qi = find_bparam(b, o->name);
@@ -1338,9 +1331,9 @@ static void ground_and_title(elab *x, const ls_program *prog)
         nl->ground_name = g->name;
         nl->ground_loc = g->name_loc;
     }
-    new_node(x, nl->ground_name, g ? g->name_loc : LS_NOLOC, 0);
+    new_node(x, nl->ground_name, g ? g->name_loc : LS_NOLOC, 0, NULL);
     if (strcmp(nl->ground_name, "ground") != 0)
-        declare(x, "ground", ENT_ALIAS, 0, g ? g->name_loc : LS_NOLOC);
+        declare(x, "ground", ENT_ALIAS, 0, g ? g->name_loc : LS_NOLOC, NULL);
 }
 
 static void resolve_refs(elab *x)
