@@ -59,6 +59,10 @@ FILE *ls_out_open(ls_session *s, char **tmp_path);
 /* Finish: flush, check, rename into place.  Returns an exit code. */
 int ls_out_close(ls_session *s, FILE *f, char *tmp_path, int code);
 
+/* A report to out for the session's command: format, character set, digits,
+ * diagnostics and the JSON meta (command, circuit file, --set texts). */
+ls_report ls_report_for(const ls_session *s, FILE *out);
+
 /* Parse a number with units from text (for --load 10k, --min-ratio 10 ...). */
 bool ls_cli_number(const char *text, double *v);
 

@@ -211,6 +211,14 @@ int ls_out_close(ls_session *s, FILE *f, char *tmp, int code)
     return code;
 }
 
+ls_report ls_report_for(const ls_session *s, FILE *out)
+{
+    const ls_cli *cli = s->cli;
+    return (ls_report){.out = out, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4,
+                       .diags = s->diags.files || s->diags.n ? &s->diags : NULL, .command = cli->command,
+                       .file = s->input_path, .sets = cli->sets, .nsets = cli->nsets};
+}
+
 /* ---- solve, check, demo ---------------------------------------------------------------------- */
 
 static int run_report(ls_cli *cli, const char *path, const char *text, bool check_mode)
@@ -240,7 +248,7 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
         return LS_EXIT_USAGE;
     }
     phase_done("checks", &t0);
-    ls_report rp = {.out = out, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = ls_report_for(&s, out);
     if (check_mode)
         ls_report_check(&rp, &s.op, &checks);
     else

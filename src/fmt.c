@@ -51,10 +51,13 @@ static void put_cut(char *buf, size_t n, const char *s, size_t len)
  *     relative 1e-9 of a power of ten, where log10 itself decides (anywhere else
  *     its error, a few units in the last place, cannot cross an integer);
  *   - floor(e / 3.0) * 3 is integer arithmetic;
- *   - %.*f of the mantissa is exact integer arithmetic on the double's bits,
- *     rounding to nearest with ties to even as printf does, or printf itself
- *     when the numbers do not fit in 128 bits.
- * tests/unit/test_fmt.c compares the two over millions of inputs. */
+ *   - %.*f of the mantissa comes from double-conversion's correctly rounded
+ *     fixed-point digits.  That library rounds an exact tie away from zero
+ *     where printf rounds it to even, but no tie reaches it: the mantissa is
+ *     r / 10^e3 with r already rounded to `sig` digits, so it lies within a few
+ *     units in the last place of a number with exactly `decimals` decimals,
+ *     never half way between two.
+ * tests/unit/test_fmt.c compares the two on random and edge inputs. */
 
 /* The slow original, kept for what the fast path leaves to it (more than 17
  * digits, magnitudes beyond FAST_LO..FAST_HI). */
@@ -137,57 +140,6 @@ static int floor_log10(double x)
     return k;
 }
 
-int ls_fmt_fixed(char *out, double x, int d)
-{
-    static const uint64_t p10[] = {1ULL, 10ULL, 100ULL, 1000ULL, 10000ULL, 100000ULL, 1000000ULL, 10000000ULL,
-                                   100000000ULL, 1000000000ULL, 10000000000ULL, 100000000000ULL,
-                                   1000000000000ULL, 10000000000000ULL, 100000000000000ULL,
-                                   1000000000000000ULL, 10000000000000000ULL, 100000000000000000ULL,
-                                   1000000000000000000ULL};
-    if (d < 0 || d > 18)
-        return 0;
-    uint64_t u;
-    memcpy(&u, &x, sizeof u);
-    int be = (int)(u >> 52) & 0x7ff;
-    if (be == 0 || be == 0x7ff)
-        return 0;
-    uint64_t m = (u & ((UINT64_C(1) << 52) - 1)) | (UINT64_C(1) << 52);
-    int e = be - 1075; /* x = m * 2^e */
-    unsigned __int128 t = (unsigned __int128)m * p10[d]; /* below 2^113 */
-    unsigned __int128 q;
-    if (e >= 0) {
-        if (e > 10)
-            return 0;
-        q = t << e;
-    } else {
-        int s = -e;
-        if (s > 120)
-            return 0;
-        q = t >> s;
-        unsigned __int128 rem = t - (q << s), half = (unsigned __int128)1 << (s - 1);
-        if (rem > half || (rem == half && (q & 1)))
-            q++;
-    }
-    if (q >> 64)
-        return 0;
-    char tmp[24];
-    int nd = 0;
-    uint64_t w = (uint64_t)q;
-    do {
-        tmp[nd++] = (char)('0' + w % 10);
-        w /= 10;
-    } while (w);
-    while (nd < d + 1) /* at least one digit before the point */
-        tmp[nd++] = '0';
-    int len = 0;
-    for (int i = nd - 1; i >= 0; i--) {
-        out[len++] = tmp[i];
-        if (i == d && d > 0)
-            out[len++] = '.';
-    }
-    return len;
-}
-
 char *ls_fmt_eng(char *buf, size_t n, double v, const char *unit, int sig, bool ascii)
 {
     const char *u = unit_text(unit ? unit : "", ascii);
@@ -231,7 +183,7 @@ char *ls_fmt_eng(char *buf, size_t n, double v, const char *unit, int sig, bool 
     size_t len = 0;
     if (v < 0)
         t[len++] = '-';
-    int k = ls_fmt_fixed(t + len, m, decimals);
+    int k = ls_num_fixed(t + len, m, decimals);
     if (!k) {
         snprintf(buf, n, "%s%.*f%s%s%s", v < 0 ? "-" : "", decimals, m, sep, p, u);
         return buf;
@@ -253,26 +205,26 @@ char *ls_fmt_eng(char *buf, size_t n, double v, const char *unit, int sig, bool 
     return buf;
 }
 
-char *ls_fmt_full(char *buf, size_t n, double v)
+char *ls_fmt_num(char *buf, size_t n, double v)
 {
     if (!isfinite(v)) {
-        snprintf(buf, n, "null");
+        put_cut(buf, n, "null", 4);
         return buf;
     }
-    return ls_fmt_g17(buf, n, v);
-}
-
-char *ls_fmt_g17(char *buf, size_t n, double v)
-{
-    if (!isfinite(v)) {
-        snprintf(buf, n, "%.17g", v);
-        return buf;
-    }
-    if (n >= LS_NUM_G17_MAX) {
-        ls_num_g17(buf, v);
+    if (n >= LS_NUM_MAX) {
+        ls_num_shortest(buf, v);
     } else {
-        char t[LS_NUM_G17_MAX];
-        put_cut(buf, n, t, ls_num_g17(t, v));
+        char t[LS_NUM_MAX];
+        put_cut(buf, n, t, ls_num_shortest(t, v));
     }
     return buf;
+}
+
+char *ls_fmt_csv(char *buf, size_t n, double v)
+{
+    if (!isfinite(v)) {
+        put_cut(buf, n, "", 0);
+        return buf;
+    }
+    return ls_fmt_num(buf, n, v);
 }

@@ -11,21 +11,17 @@
  * "unbounded" (with its sign), NaN as "undefined".  Returns buf. */
 char *ls_fmt_eng(char *buf, size_t n, double v, const char *unit, int sig, bool ascii);
 
-/* x (positive, finite) with d decimals, as printf's "%.*f" writes it in the
- * default rounding mode (exact, ties to even), without a NUL: the length, or 0
- * when x * 10^d is beyond the exact 64-bit reckoning (d > 18, x >= 2^63,
- * subnormal x), left to printf.  out needs 40 bytes. */
-int ls_fmt_fixed(char *out, double x, int d);
+/* The machine formats' number: the shortest decimal that reads back to v
+ * exactly (numfmt.h), "0" for both zeros, or "null" when v is not finite.
+ * Cut to n - 1 bytes as snprintf would.  Returns buf. */
+char *ls_fmt_num(char *buf, size_t n, double v);
 
-/* Full precision for machine formats: %.17g, or "null" when not finite. */
-char *ls_fmt_full(char *buf, size_t n, double v);
+/* As ls_fmt_num, but an empty field for a value that is not finite: a CSV cell. */
+char *ls_fmt_csv(char *buf, size_t n, double v);
 
-/* Exactly snprintf(buf, n, "%.17g", v), for every v ("inf", "nan" too); finite
- * values by the fast path of numfmt.h.  Returns buf. */
-char *ls_fmt_g17(char *buf, size_t n, double v);
-
-/* ls_fmt_g17 into a buffer that lives until the end of the enclosing block, for
- * a printf argument: printf("%s", LS_G17(v)) writes what "%.17g" would. */
-#define LS_G17(v) ls_fmt_g17((char[32]){0}, 32, (v))
+/* ls_fmt_num / ls_fmt_csv into a buffer that lives until the end of the
+ * enclosing block, for a printf argument: printf("%s", LS_NUM(v)). */
+#define LS_NUM(v) ls_fmt_num((char[32]){0}, 32, (v))
+#define LS_CSV(v) ls_fmt_csv((char[32]){0}, 32, (v))
 
 #endif

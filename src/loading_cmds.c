@@ -80,44 +80,39 @@ int ls_cmd_thevenin(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = ls_report_for(&s, o);
     const char *name = s.nl.nodes[node].name, *OHM = ls_unit_of(LS_OHM, cli->ascii);
     char b1[64], b2[64], b3[64];
     if (cli->fmt == FMT_JSON) {
-        fputs("{\"node\": ", o);
-        ls_json_string(o, name);
-        fputs(", \"vth\": ", o);
-        ls_json_number(o, vth);
-        fputs(", \"rth\": ", o);
-        ls_json_number(o, rth);
-        fputs(", \"norton\": ", o);
-        ls_json_number(o, norton);
+        ls_jw jw, *w = &jw;
+        ls_report_json_begin(&rp, w);
+        ls_jw_str(w, "node", name);
+        ls_jw_num(w, "vth", vth);
+        ls_jw_num(w, "rth", rth);
+        ls_jw_num(w, "norton", norton);
         if (cli->load) {
-            fputs(", \"load\": {\"r\": ", o);
-            ls_json_number(o, rload);
-            fputs(", \"v\": ", o);
-            ls_json_number(o, vl);
-            fputs(", \"i\": ", o);
-            ls_json_number(o, il);
-            fputs("}", o);
+            ls_jw_obj(w, "load");
+            ls_jw_num(w, "r", rload);
+            ls_jw_num(w, "v", vl);
+            ls_jw_num(w, "i", il);
+            ls_jw_end(w);
         }
         if (cli->meter) {
-            fputs(", \"meter\": {\"r\": ", o);
-            ls_json_number(o, rmeter);
-            fputs(", \"reading\": ", o);
-            ls_json_number(o, rd);
-            fputs(", \"error\": ", o);
-            ls_json_number(o, err);
-            fputs("}", o);
+            ls_jw_obj(w, "meter");
+            ls_jw_num(w, "r", rmeter);
+            ls_jw_num(w, "reading", rd);
+            ls_jw_num(w, "error", err);            /* V */
+            ls_jw_num(w, "error_rel", err / vth);  /* a fraction of vth */
+            ls_jw_end(w);
         }
-        fputs("}\n", o);
+        ls_jw_finish(w);
     } else if (cli->fmt == FMT_CSV) {
-        fprintf(o, "field,value\nvth,%s\nrth,%s\nnorton,%s\n", LS_G17(vth), LS_G17(rth),
-                isfinite(norton) ? ls_fmt_full(b1, sizeof b1, norton) : "");
+        fprintf(o, "field,value\nvth,%s\nrth,%s\nnorton,%s\n", LS_CSV(vth), LS_CSV(rth), LS_CSV(norton));
         if (cli->load)
-            fprintf(o, "load_r,%s\nload_v,%s\nload_i,%s\n", LS_G17(rload), LS_G17(vl), LS_G17(il));
+            fprintf(o, "load_r,%s\nload_v,%s\nload_i,%s\n", LS_CSV(rload), LS_CSV(vl), LS_CSV(il));
         if (cli->meter)
-            fprintf(o, "meter_r,%s\nmeter_reading,%s\nmeter_error,%s\n", LS_G17(rmeter), LS_G17(rd), LS_G17(err));
+            fprintf(o, "meter_r,%s\nmeter_reading,%s\nmeter_error,%s\nmeter_error_rel,%s\n", LS_CSV(rmeter),
+                    LS_CSV(rd), LS_CSV(err), LS_CSV(err / vth));
     } else {
         fprintf(o, "Thevenin equivalent at '%s' (against ground)\n", name);
         fprintf(o, "  open-circuit voltage  vth     %s\n", ls_eng(&rp, b1, sizeof b1, vth, "V"));
@@ -240,33 +235,32 @@ int ls_cmd_sag(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = ls_report_for(&s, o);
     if (cli->fmt == FMT_JSON) {
-        fputs("{\"node\": ", o);
-        ls_json_string(o, nl->nodes[node].name);
-        fputs(", \"voltage\": ", o);
-        ls_json_number(o, v0);
-        fputs(",\n \"items\": [", o);
+        ls_jw jw, *w = &jw;
+        ls_report_json_begin(&rp, w);
+        ls_jw_str(w, "node", nl->nodes[node].name);
+        ls_jw_num(w, "voltage", v0);
+        ls_jw_arr(w, "items");
         for (int i = 0; i < nl->nparts; i++) {
             const ls_part *p = &nl->parts[items[i].part];
-            fprintf(o, "%s\n  {\"kind\": \"%s\", \"name\": ", i ? "," : "", p->kind->is_port ? "port" : "part");
-            ls_json_string(o, p->name);
-            fputs(", \"without\": ", o);
-            ls_json_number(o, items[i].without);
-            fputs(", \"delta\": ", o);
-            ls_json_number(o, items[i].delta);
-            fputs("}", o);
+            /* a removal that leaves the circuit without a solution */
+            const char *why = isnan(items[i].delta) ? LS_WHY_UNSOLVED : LS_WHY_UNBOUNDED;
+            ls_jw_obj(w, NULL);
+            ls_jw_str(w, "kind", p->kind->is_port ? "port" : "part");
+            ls_jw_str(w, "name", p->name);
+            ls_jw_num_why(w, "without", items[i].without, why);
+            ls_jw_num_why(w, "delta", items[i].delta, why);
+            ls_jw_end(w);
         }
-        fputs("]}\n", o);
+        ls_jw_finish(w);
     } else if (cli->fmt == FMT_CSV) {
         fputs("kind,name,without,delta\n", o);
         for (int i = 0; i < nl->nparts; i++) {
             const ls_part *p = &nl->parts[items[i].part];
-            char b1[40], b2[40];
             fprintf(o, "%s,", p->kind->is_port ? "port" : "part");
             ls_csv_field(o, p->name);
-            fprintf(o, ",%s,%s\n", isfinite(items[i].without) ? ls_fmt_full(b1, sizeof b1, items[i].without) : "",
-                    isfinite(items[i].delta) ? ls_fmt_full(b2, sizeof b2, items[i].delta) : "");
+            fprintf(o, ",%s,%s\n", LS_CSV(items[i].without), LS_CSV(items[i].delta));
         }
     } else {
         sag_text(&rp, &s.op, node, items, culprit, via, total);
@@ -303,33 +297,32 @@ int ls_cmd_sens(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = ls_report_for(&s, o);
     const char *qu = ls_unit_of(q->dims, cli->ascii);
     if (cli->fmt == FMT_JSON) {
-        fputs("{\"quantity\": ", o);
-        ls_json_string(o, cli->pos[1]);
-        fputs(", \"value\": ", o);
-        ls_json_number(o, value);
-        fputs(",\n \"items\": [", o);
+        ls_jw jw, *w = &jw;
+        ls_report_json_begin(&rp, w);
+        ls_jw_str(w, "quantity", cli->pos[1]);
+        ls_jw_num(w, "value", value);
+        ls_jw_arr(w, "items");
         for (int i = 0; i < n; i++) {
-            fprintf(o, "%s\n  {\"part\": ", i ? "," : "");
-            ls_json_string(o, s.nl.parts[items[i].part].name);
-            fputs(", \"nominal\": ", o);
-            ls_json_number(o, items[i].nominal);
-            fputs(", \"derivative\": ", o);
-            ls_json_number(o, items[i].derivative);
-            fputs(", \"normalized\": ", o);
-            ls_json_number(o, items[i].normalized);
-            fputs("}", o);
+            const ls_part *p = &s.nl.parts[items[i].part];
+            ls_jw_obj(w, NULL);
+            ls_jw_str(w, "part", p->name);
+            ls_jw_str(w, "kind", p->kind->name);
+            ls_jw_num(w, "part_value", items[i].nominal);
+            ls_jw_num(w, "per_unit", items[i].derivative);
+            ls_jw_num(w, "percent_per_percent", items[i].normalized);
+            ls_jw_end(w);
         }
-        fputs("]}\n", o);
+        ls_jw_finish(w);
     } else if (cli->fmt == FMT_CSV) {
-        fputs("part,nominal,derivative,normalized\n", o);
+        fputs("part,kind,part_value,per_unit,percent_per_percent\n", o);
         for (int i = 0; i < n; i++) {
-            char b[40];
-            ls_csv_field(o, s.nl.parts[items[i].part].name);
-            fprintf(o, ",%s,%s,%s\n", LS_G17(items[i].nominal), LS_G17(items[i].derivative),
-                    isfinite(items[i].normalized) ? ls_fmt_full(b, sizeof b, items[i].normalized) : "");
+            const ls_part *p = &s.nl.parts[items[i].part];
+            ls_csv_field(o, p->name);
+            fprintf(o, ",%s,%s,%s,%s\n", p->kind->name, LS_CSV(items[i].nominal), LS_CSV(items[i].derivative),
+                    LS_CSV(items[i].normalized));
         }
     } else {
         char b1[64];

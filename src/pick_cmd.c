@@ -58,26 +58,28 @@ static int pick_args(const ls_cli *cli, double *ratio, const ls_eseries **es, do
     return 0;
 }
 
-/* The pick report as one JSON object (cli.md keys). */
-static void pick_json(FILE *o, double ratio, const ls_eseries *es, const ls_pick_item *it, int n)
+/* The pick report as one JSON object (cli.md keys): each pair's ratio, its
+ * error (ratio - R, as the ratio is a plain number) and error_rel (that
+ * over R, a fraction; the text shows it in %). */
+static void pick_json(const ls_report *rp, double ratio, const ls_eseries *es, const ls_pick_item *it, int n)
 {
-    fputs("{\"ratio\": ", o);
-    ls_json_number(o, ratio);
-    fprintf(o, ", \"series\": \"%s\",\n \"items\": [", es->name);
+    ls_jw jw, *w = &jw;
+    ls_report_json_begin(rp, w);
+    ls_jw_num(w, "ratio", ratio);
+    ls_jw_str(w, "series", es->name);
+    ls_jw_arr(w, "items");
     for (int i = 0; i < n; i++) {
-        fprintf(o, "%s\n  {\"rtop\": ", i ? "," : "");
-        ls_json_number(o, it[i].rtop);
-        fputs(", \"rbot\": ", o);
-        ls_json_number(o, it[i].rbot);
-        fputs(", \"ratio\": ", o);
-        ls_json_number(o, it[i].ratio);
-        fputs(", \"error\": ", o);
-        ls_json_number(o, it[i].error);
-        fputs(", \"zout\": ", o);
-        ls_json_number(o, it[i].zout);
-        fputs("}", o);
+        ls_jw_obj(w, NULL);
+        ls_jw_num(w, "rtop", it[i].rtop);
+        ls_jw_num(w, "rbot", it[i].rbot);
+        ls_jw_num(w, "ratio", it[i].ratio);
+        ls_jw_num(w, "error", it[i].ratio - ratio);
+        ls_jw_num(w, "error_rel", it[i].error);
+        ls_jw_num(w, "zout", it[i].zout);
+        ls_jw_end(w);
     }
-    fputs("]}\n", o);
+    ls_jw_end(w);
+    ls_jw_finish(w);
 }
 
 /* Print s right-aligned in w columns, counting UTF-8 code points (Ω is two bytes). */
@@ -138,14 +140,15 @@ int ls_cmd_pick(ls_cli *cli)
     FILE *o = ls_out_open(&s, &tmp);
     if (!o)
         return LS_EXIT_USAGE;
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4};
+    ls_report rp = ls_report_for(&s, o);
     if (cli->fmt == FMT_JSON) {
-        pick_json(o, ratio, es, items, n);
+        pick_json(&rp, ratio, es, items, n);
     } else if (cli->fmt == FMT_CSV) {
-        fputs("rank,rtop,rbot,ratio,error,zout\n", o);
+        fputs("rank,rtop,rbot,ratio,error,error_rel,zout\n", o);
         for (int i = 0; i < n; i++)
-            fprintf(o, "%d,%s,%s,%s,%s,%s\n", i + 1, LS_G17(items[i].rtop), LS_G17(items[i].rbot),
-                    LS_G17(items[i].ratio), LS_G17(items[i].error), LS_G17(items[i].zout));
+            fprintf(o, "%d,%s,%s,%s,%s,%s,%s\n", i + 1, LS_CSV(items[i].rtop), LS_CSV(items[i].rbot),
+                    LS_CSV(items[i].ratio), LS_CSV(items[i].ratio - ratio), LS_CSV(items[i].error),
+                    LS_CSV(items[i].zout));
     } else {
         pick_text(o, &rp, cli, ratio, es, lo, hi, zmax, items, n);
     }

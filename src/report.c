@@ -93,49 +93,14 @@ static void ob_printf(obuf *o, const char *fmt, ...)
     va_end(ap);
 }
 
-/* %.17g, or null when not finite (as ls_fmt_full) */
-static void ob_number(obuf *o, double v)
-{
-    if (!isfinite(v)) {
-        ob_write(o, "null", 4);
-        return;
-    }
-    if (ob_room(o) < LS_NUM_G17_MAX)
-        ob_flush(o);
-    o->p += ls_num_g17(o->p, v);
-}
-
-/* %.17g, or nothing when not finite: a CSV value */
+/* The shortest exact text, or nothing when not finite: a CSV value */
 static void ob_csv_number(obuf *o, double v)
 {
-    if (isfinite(v))
-        ob_number(o, v);
-}
-
-static void ob_json_string(obuf *o, const char *s)
-{
-    ob_putc(o, '"');
-    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
-        /* runs that need no escape go out in one copy (names are mostly that) */
-        const unsigned char *q = p;
-        while (*q >= 0x20 && *q != '"' && *q != '\\')
-            q++;
-        if (q != p) {
-            ob_write(o, (const char *)p, (size_t)(q - p));
-            p = q;
-            if (!*p)
-                break;
-        }
-        switch (*p) {
-        case '"': ob_write(o, "\\\"", 2); break;
-        case '\\': ob_write(o, "\\\\", 2); break;
-        case '\n': ob_write(o, "\\n", 2); break;
-        case '\r': ob_write(o, "\\r", 2); break;
-        case '\t': ob_write(o, "\\t", 2); break;
-        default: ob_printf(o, "\\u%04x", *p); break; /* the other controls (below 0x20) */
-        }
-    }
-    ob_putc(o, '"');
+    if (!isfinite(v))
+        return;
+    if (ob_room(o) < LS_NUM_MAX)
+        ob_flush(o);
+    o->p += ls_num_shortest(o->p, v);
 }
 
 static void ob_csv_field(obuf *o, const char *s)
@@ -173,40 +138,17 @@ static void prefetch_part_name(const ls_netlist *nl, int i)
 
 /* ---- shared pieces ------------------------------------------------------------------ */
 
-void ls_json_string(FILE *out, const char *s)
+void ls_report_json_begin(const ls_report *rp, ls_jw *w)
 {
-    fputc('"', out);
-    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
-        /* runs that need no escape go out in one write (names are mostly that) */
-        const unsigned char *q = p;
-        while (*q >= 0x20 && *q != '"' && *q != '\\')
-            q++;
-        if (q != p) {
-            fwrite(p, 1, (size_t)(q - p), out);
-            p = q;
-            if (!*p)
-                break;
-        }
-        switch (*p) {
-        case '"': fputs("\\\"", out); break;
-        case '\\': fputs("\\\\", out); break;
-        case '\n': fputs("\\n", out); break;
-        case '\r': fputs("\\r", out); break;
-        case '\t': fputs("\\t", out); break;
-        default:
-            if (*p < 0x20)
-                fprintf(out, "\\u%04x", *p);
-            else
-                fputc(*p, out);
-        }
-    }
-    fputc('"', out);
+    ls_jw_init(w, rp->out, 2);
+    ls_jw_obj(w, NULL);
+    ls_jw_meta(w, rp->command, rp->file, rp->sets, rp->nsets);
 }
 
-void ls_json_number(FILE *out, double v)
+void ls_csv_number(FILE *out, double v)
 {
-    char b[40];
-    fputs(ls_fmt_full(b, sizeof b, v), out);
+    char b[LS_NUM_MAX];
+    fputs(ls_fmt_csv(b, sizeof b, v), out);
 }
 
 void ls_csv_field(FILE *out, const char *s)
@@ -451,30 +393,32 @@ static const char *loc_file(const ls_diags *d, ls_loc l)
     return l.file >= 0 ? d->files[l.file].path : "";
 }
 
-static void checks_json(ls_report *rp, obuf *o, const ls_checks *c)
+/* Line and column of a location (0, 0 for none). */
+static void loc_linecol(const ls_diags *d, ls_loc l, int *line, int *col)
 {
-    ob_puts(o, "[");
+    *line = *col = 0;
+    if (l.file >= 0)
+        ls_loc_linecol(d, l.file, l.start, line, col);
+}
+
+/* The "checks" array. */
+static void checks_json(const ls_report *rp, ls_jw *w, const ls_checks *c)
+{
+    ls_jw_arr(w, "checks");
     for (int i = 0; i < c->n; i++) {
         const ls_check_row *r = &c->rows[i];
-        ob_puts(o, i ? ",\n    {\"file\": " : "\n    {\"file\": ");
-        ob_json_string(o, loc_file(rp->diags, r->loc));
-        ob_printf(o, ", \"line\": %d, \"instance\": ", loc_line(rp->diags, r->loc));
-        if (r->instance)
-            ob_json_string(o, r->instance);
-        else
-            ob_puts(o, "null");
-        ob_puts(o, ", \"text\": ");
-        ob_json_string(o, r->text);
-        ob_puts(o, ", \"value\": ");
-        ob_number(o, r->r.value);
-        ob_puts(o, r->r.pass ? ", \"pass\": true" : ", \"pass\": false");
-        if (r->r.reason) {
-            ob_puts(o, ", \"reason\": ");
-            ob_json_string(o, r->r.reason);
-        }
-        ob_puts(o, "}");
+        ls_jw_obj(w, NULL);
+        ls_jw_str(w, "file", r->loc.file >= 0 ? loc_file(rp->diags, r->loc) : NULL);
+        ls_jw_int(w, "line", loc_line(rp->diags, r->loc));
+        ls_jw_str(w, "instance", r->instance);
+        ls_jw_str(w, "text", r->text);
+        ls_jw_num(w, "value", r->r.value);
+        ls_jw_bool(w, "pass", r->r.pass);
+        if (r->r.reason)
+            ls_jw_str(w, "reason", r->r.reason);
+        ls_jw_end(w);
     }
-    ob_puts(o, c->n ? "\n  ]" : "]");
+    ls_jw_end(w);
 }
 
 static void checks_text(ls_report *rp, const ls_checks *c)
@@ -504,33 +448,62 @@ static void checks_text(ls_report *rp, const ls_checks *c)
 
 /* ---- warnings ----------------------------------------------------------------------- */
 
-void ls_report_warnings_json(ls_report *rp)
+/* "caution" for a warning about a hazard to people (its message says so),
+ * "warning" for the rest. */
+static const char *warning_level(const ls_diag *g)
 {
-    FILE *o = rp->out;
+    return strncmp(g->msg, "caution", 7) == 0 ? "caution" : "warning";
+}
+
+void ls_report_warnings_json(const ls_report *rp, ls_jw *w)
+{
     const ls_diags *d = rp->diags;
-    fputs("[", o);
-    int k = 0;
-    for (int i = 0; i < d->n; i++) {
+    ls_jw_arr(w, "warnings");
+    for (int i = 0; d && i < d->n; i++) {
         const ls_diag *g = &d->items[i];
         if (g->sev != LS_SEV_WARNING)
             continue;
-        fprintf(o, "%s\n    {\"code\": ", k++ ? "," : "");
-        ls_json_string(o, g->code ? g->code : "warning");
-        fputs(", \"message\": ", o);
-        ls_json_string(o, g->msg);
-        fputs(", \"file\": ", o);
-        if (g->loc.file >= 0)
-            ls_json_string(o, loc_file(d, g->loc));
-        else
-            fputs("null", o);
-        fputs(", \"line\": ", o);
-        if (g->loc.file >= 0)
-            fprintf(o, "%d", loc_line(d, g->loc));
-        else
-            fputs("null", o);
-        fputs("}", o);
+        int line, col;
+        loc_linecol(d, g->loc, &line, &col);
+        ls_jw_obj(w, NULL);
+        ls_jw_str(w, "code", g->code ? g->code : "warning");
+        ls_jw_str(w, "level", warning_level(g));
+        ls_jw_str(w, "message", g->msg);
+        ls_jw_str(w, "file", g->loc.file >= 0 ? loc_file(d, g->loc) : NULL);
+        if (g->loc.file >= 0) {
+            ls_jw_int(w, "line", line);
+            ls_jw_int(w, "column", col);
+        } else {
+            ls_jw_null(w, "line", LS_WHY_NONE);
+            ls_jw_null(w, "column", LS_WHY_NONE);
+        }
+        ls_jw_end(w);
     }
-    fputs(k ? "\n  ]" : "]", o);
+    ls_jw_end(w);
+}
+
+void ls_report_warnings_csv(const ls_report *rp, FILE *out)
+{
+    const ls_diags *d = rp->diags;
+    int k = 0;
+    for (int i = 0; d && i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (g->sev != LS_SEV_WARNING)
+            continue;
+        int line, col;
+        loc_linecol(d, g->loc, &line, &col);
+        k++;
+        fprintf(out, "warning,%d,code,", k);
+        ls_csv_field(out, g->code ? g->code : "warning");
+        fprintf(out, "\nwarning,%d,level,%s\nwarning,%d,message,", k, warning_level(g), k);
+        ls_csv_field(out, g->msg);
+        fprintf(out, "\nwarning,%d,file,", k);
+        ls_csv_field(out, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
+        if (g->loc.file >= 0)
+            fprintf(out, "\nwarning,%d,line,%d\nwarning,%d,column,%d\n", k, line, k, col);
+        else
+            fprintf(out, "\nwarning,%d,line,\nwarning,%d,column,\n", k, k);
+    }
 }
 
 static void warnings_text(ls_report *rp)
@@ -628,26 +601,61 @@ static void ntc_text(ls_report *rp, ls_op *op)
         t_print(&t, o);
 }
 
-static void kv(obuf *o, const char *k, double v, bool comma);
-
 /* Extra JSON keys of the real parts' entries in "parts": an adc's reading,
  * a thermistor's resistance and temperatures. */
-static void part_extra_json(obuf *o, ls_op *op, int i)
+static void part_extra_json(ls_jw *w, ls_op *op, int i)
 {
     const ls_part *p = &op->nl->parts[i];
     ls_adc_result r;
     if (ls_op_adc(op, i, &r) == 0) {
-        ob_printf(o, ", \"code\": %lld", r.code);
-        kv(o, "lsb", r.lsb, true);
-        kv(o, "unloaded", r.v_open, true);
-        kv(o, "error_lsb", r.error_lsb, true);
-        kv(o, "source_resistance", r.rth, true);
+        ls_jw_int(w, "code", r.code);
+        ls_jw_num(w, "lsb", r.lsb);
+        ls_jw_num(w, "unloaded", r.v_open);
+        ls_jw_num(w, "error_lsb", r.error_lsb);
+        ls_jw_num(w, "source_resistance", r.rth);
     } else if (is_kind(p, "ntc")) {
         double t = ls_ntc_body(p);
-        kv(o, "resistance", ls_ntc_r(p, t), true);
-        kv(o, "temperature", t, true);
-        kv(o, "self_heating", t - ls_part_opt(p, "temp", 25), true);
+        ls_jw_num(w, "resistance", ls_ntc_r(p, t));
+        ls_jw_num(w, "temperature", t);
+        ls_jw_num(w, "self_heating", t - ls_part_opt(p, "temp", 25));
     }
+}
+
+/* An adc's verdict on its source: "ok" within its max_source, "loading"
+ * above it, NULL without a max_source. */
+static const char *adc_verdict(const ls_part *p, const ls_adc_result *r)
+{
+    int mi = ls_kind_opt(p->kind, "max_source");
+    if (!ls_part_has(p, mi))
+        return NULL;
+    return r->rth <= p->opt[mi] ? "ok" : "loading";
+}
+
+/* The "adcs" object: what the text's ADC table shows. */
+static void adcs_json(ls_jw *w, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    ls_jw_obj(w, "adcs");
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_adc_result r;
+        const ls_part *p = &nl->parts[i];
+        if (ls_op_adc(op, i, &r) != 0)
+            continue;
+        int mi = ls_kind_opt(p->kind, "max_source");
+        ls_jw_obj(w, p->name);
+        ls_jw_num(w, "input", r.vin);
+        ls_jw_int(w, "code", r.code);
+        ls_jw_num(w, "unloaded", r.v_open);
+        ls_jw_num(w, "error_lsb", r.error_lsb);
+        ls_jw_num(w, "source", r.rth);
+        if (ls_part_has(p, mi))
+            ls_jw_num(w, "max_source", p->opt[mi]);
+        else
+            ls_jw_null(w, "max_source", LS_WHY_NONE);
+        ls_jw_str(w, "verdict", adc_verdict(p, &r));
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
 }
 
 /* ---- solve: text ----------------------------------------------------------------------- */
@@ -808,103 +816,94 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 
 /* ---- solve: JSON and CSV ------------------------------------------------------------------ */
 
-static void kv(obuf *o, const char *k, double v, bool comma)
-{
-    ob_puts(o, comma ? ", \"" : "\""); /* plain copies: this runs for every part */
-    ob_puts(o, k);
-    ob_puts(o, "\": ");
-    ob_number(o, v);
-}
-
 static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
-    obuf ob, *o = &ob;
-    ob_init(o, rp->out);
+    ls_jw jw, *w = &jw;
     const ls_netlist *nl = op->nl;
-    ob_puts(o, "{\n  \"title\": ");
-    if (nl->title)
-        ob_json_string(o, nl->title);
-    else
-        ob_puts(o, "null");
-    ob_printf(o, ",\n  \"solver\": {\"method\": \"%s\", \"library\": \"%s\", \"unknowns\": %d", method_name(op->method),
-            ls_solver_stats_of(op->solver)->library, op->mna.n);
-    kv(o, "rcond", op->rcond, true);
-    kv(o, "residual", op->residual, true);
-    ob_printf(o, ", \"iterations\": %d},\n  \"nodes\": {", op->iterations);
+    ls_report_json_begin(rp, w);
+    ls_jw_str(w, "title", nl->title);
+    int wrap = w->wrap;
+    w->wrap = 1; /* the solver on one line */
+    ls_jw_obj(w, "solver");
+    ls_jw_str(w, "method", method_name(op->method));
+    ls_jw_str(w, "library", ls_solver_stats_of(op->solver)->library);
+    ls_jw_int(w, "unknowns", op->mna.n);
+    ls_jw_num(w, "rcond", op->rcond);
+    ls_jw_num(w, "residual", op->residual);
+    ls_jw_int(w, "iterations", op->iterations);
+    ls_jw_end(w);
+    w->wrap = wrap;
+    ls_jw_obj(w, "nodes");
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
-        ob_puts(o, i ? ",\n    " : "\n    ");
-        ob_json_string(o, nl->nodes[i].name);
-        ob_puts(o, ": ");
-        ob_number(o, op->v[i]);
+        ls_jw_num(w, nl->nodes[i].name, op->v[i]);
     }
-    ob_puts(o, "\n  },\n  \"parts\": {");
-    int k = 0;
+    ls_jw_end(w);
+    ls_jw_obj(w, "parts");
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         prefetch_part_name(nl, i);
         if (p->kind->is_port)
             continue;
-        ob_puts(o, k++ ? ",\n    " : "\n    ");
-        ob_json_string(o, p->name);
-        ob_puts(o, ": {\"kind\": \"");
-        ob_puts(o, p->kind->name);
-        ob_putc(o, '"');
-        kv(o, "current", op->ipart[i], true);
-        kv(o, "voltage", op->vpart[i], true);
-        kv(o, "power", op->ppart[i], true);
-        part_extra_json(o, op, i);
-        ob_putc(o, '}');
+        ls_jw_obj(w, p->name);
+        ls_jw_str(w, "kind", p->kind->name);
+        ls_jw_num(w, "current", op->ipart[i]);
+        ls_jw_num(w, "voltage", op->vpart[i]);
+        ls_jw_num(w, "power", op->ppart[i]);
+        part_extra_json(w, op, i);
+        ls_jw_end(w);
     }
-    ob_puts(o, k ? "\n  },\n  \"ports\": {" : "},\n  \"ports\": {");
-    k = 0;
+    ls_jw_end(w);
+    ls_jw_obj(w, "ports");
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         if (!p->kind->is_port)
             continue;
         const ls_port_result *pr = ls_op_port(op, i);
-        ob_puts(o, k++ ? ",\n    " : "\n    ");
-        ob_json_string(o, p->name);
-        ob_puts(o, ": {\"from\": ");
-        ob_json_string(o, nl->nodes[p->pin[0]].name);
-        ob_puts(o, ", \"to\": ");
-        ob_json_string(o, nl->nodes[p->pin[1]].name);
-        ob_printf(o, ", \"mode\": \"%s\"", pr->current_mode ? "current" : "voltage");
-        kv(o, "open", pr->open, true);
-        kv(o, "loaded", pr->loaded, true);
-        kv(o, "sag", pr->sag, true);
-        kv(o, "sag_rel", pr->sag_rel, true);
-        kv(o, "zout", pr->zout, true);
-        kv(o, "zin", pr->zin, true);
-        kv(o, "ratio", pr->ratio, true);
-        kv(o, "current", pr->current, true);
-        ob_printf(o, ", \"verdict\": \"%s\"}", verdict_name(pr->verdict));
+        ls_jw_obj(w, p->name);
+        ls_jw_str(w, "from", nl->nodes[p->pin[0]].name);
+        ls_jw_str(w, "to", nl->nodes[p->pin[1]].name);
+        ls_jw_str(w, "mode", pr->current_mode ? "current" : "voltage");
+        ls_jw_num(w, "open", pr->open);
+        ls_jw_num(w, "loaded", pr->loaded);
+        ls_jw_num(w, "sag", pr->sag);
+        ls_jw_num(w, "sag_rel", pr->sag_rel);
+        ls_jw_num(w, "zout", pr->zout);
+        ls_jw_num(w, "zin", pr->zin);
+        ls_jw_num(w, "ratio", pr->ratio);
+        ls_jw_num(w, "current", pr->current);
+        ls_jw_str(w, "verdict", verdict_name(pr->verdict));
+        if (pr->note)
+            ls_jw_str(w, "note", pr->note);
+        ls_jw_end(w);
     }
-    ob_puts(o, k ? "\n  },\n  \"opamps\": {" : "},\n  \"opamps\": {");
-    k = 0;
+    ls_jw_end(w);
+    ls_jw_obj(w, "opamps");
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         if (!p->kind->is_opamp)
             continue;
-        ob_puts(o, k++ ? ",\n    " : "\n    ");
-        ob_json_string(o, p->name);
-        ob_puts(o, ": {");
-        kv(o, "out", op->v[p->pin[2]], false);
-        kv(o, "current", op->ipart[i], true);
-        ob_printf(o, ", \"limited\": \"%s\"", ls_opamp_limit_word(p));
-        kv(o, "dissipation", ls_opamp_dissipation(op, i), true);
-        ob_putc(o, '}');
+        ls_jw_obj(w, p->name);
+        ls_jw_num(w, "out", op->v[p->pin[2]]);
+        ls_jw_num(w, "current", op->ipart[i]);
+        ls_jw_str(w, "limited", ls_opamp_limit_word(p));
+        double pd = ls_opamp_dissipation(op, i);
+        if (isfinite(pd))
+            ls_jw_num(w, "dissipation", pd);
+        else
+            ls_jw_null(w, "dissipation", LS_WHY_NONE); /* no rails= to reckon it from */
+        ls_jw_end(w);
     }
-    ob_puts(o, k ? "\n  },\n  \"checks\": " : "},\n  \"checks\": ");
-    checks_json(rp, o, checks);
-    ob_puts(o, ",\n  \"warnings\": ");
-    ob_flush(o); /* the warnings go straight to the stream */
-    ls_report_warnings_json(rp);
-    ob_puts(o, "\n}\n");
-    ob_flush(o);
+    ls_jw_end(w);
+    adcs_json(w, op);
+    checks_json(rp, w, checks);
+    ls_jw_int(w, "passed", checks->passed);
+    ls_jw_int(w, "failed", checks->failed);
+    ls_report_warnings_json(rp, w);
+    ls_jw_finish(w);
 }
 
-static void csv_row(obuf *o, const char *section, const char *name, const char *field, double v)
+static void csv_head(obuf *o, const char *section, const char *name, const char *field)
 {
     ob_csv_field(o, section);
     ob_putc(o, ',');
@@ -912,8 +911,35 @@ static void csv_row(obuf *o, const char *section, const char *name, const char *
     ob_putc(o, ',');
     ob_csv_field(o, field);
     ob_putc(o, ',');
+}
+
+/* One section,name,field,value row of a number (empty when not finite). */
+static void csv_row(obuf *o, const char *section, const char *name, const char *field, double v)
+{
+    csv_head(o, section, name, field);
     ob_csv_number(o, v);
     ob_putc(o, '\n');
+}
+
+/* One row of a word (a verdict, a limit, a name); empty for NULL. */
+static void csv_word(obuf *o, const char *section, const char *name, const char *field, const char *word)
+{
+    csv_head(o, section, name, field);
+    ob_csv_field(o, word ? word : "");
+    ob_putc(o, '\n');
+}
+
+/* The check rows shared by solve's CSV: value and result (pass or fail, the
+ * words of check's CSV). */
+static void checks_csv_rows(obuf *o, const ls_checks *checks)
+{
+    for (int i = 0; i < checks->n; i++) {
+        const ls_check_row *r = &checks->rows[i];
+        csv_row(o, "check", r->text, "value", r->r.value);
+        csv_word(o, "check", r->text, "result", r->r.pass ? "pass" : "fail");
+        if (r->r.reason)
+            csv_word(o, "check", r->text, "reason", r->r.reason);
+    }
 }
 
 static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
@@ -933,22 +959,36 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
             const ls_port_result *pr = ls_op_port(op, i);
             const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current"};
             double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current};
+            csv_word(o, "port", p->name, "from", nl->nodes[p->pin[0]].name);
+            csv_word(o, "port", p->name, "to", nl->nodes[p->pin[1]].name);
+            csv_word(o, "port", p->name, "mode", pr->current_mode ? "current" : "voltage");
             for (int j = 0; j < 8; j++)
                 csv_row(o, "port", p->name, f[j], v[j]);
+            csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
+            if (pr->note)
+                csv_word(o, "port", p->name, "note", pr->note);
             continue;
         }
+        csv_word(o, "part", p->name, "kind", p->kind->name);
         csv_row(o, "part", p->name, "current", op->ipart[i]);
         csv_row(o, "part", p->name, "voltage", op->vpart[i]);
         csv_row(o, "part", p->name, "power", op->ppart[i]);
-        if (p->kind->is_opamp)
+        if (p->kind->is_opamp) {
             csv_row(o, "opamp", p->name, "out", op->v[p->pin[2]]);
+            csv_word(o, "opamp", p->name, "limited", ls_opamp_limit_word(p));
+            csv_row(o, "opamp", p->name, "dissipation", ls_opamp_dissipation(op, i));
+        }
         ls_adc_result r;
         if (ls_op_adc(op, i, &r) == 0) {
-            csv_row(o, "part", p->name, "code", (double)r.code);
-            csv_row(o, "part", p->name, "lsb", r.lsb);
-            csv_row(o, "part", p->name, "unloaded", r.v_open);
-            csv_row(o, "part", p->name, "error_lsb", r.error_lsb);
-            csv_row(o, "part", p->name, "source_resistance", r.rth);
+            int mi = ls_kind_opt(p->kind, "max_source");
+            csv_row(o, "adc", p->name, "input", r.vin);
+            csv_row(o, "adc", p->name, "code", (double)r.code);
+            csv_row(o, "adc", p->name, "lsb", r.lsb);
+            csv_row(o, "adc", p->name, "unloaded", r.v_open);
+            csv_row(o, "adc", p->name, "error_lsb", r.error_lsb);
+            csv_row(o, "adc", p->name, "source", r.rth);
+            csv_row(o, "adc", p->name, "max_source", ls_part_has(p, mi) ? p->opt[mi] : NAN);
+            csv_word(o, "adc", p->name, "verdict", adc_verdict(p, &r));
         } else if (is_kind(p, "ntc")) {
             double t = ls_ntc_body(p);
             csv_row(o, "part", p->name, "resistance", ls_ntc_r(p, t));
@@ -956,9 +996,11 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
             csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "temp", 25));
         }
     }
-    for (int i = 0; i < checks->n; i++)
-        csv_row(o, "check", checks->rows[i].text, checks->rows[i].r.pass ? "pass" : "fail", checks->rows[i].r.value);
+    checks_csv_rows(o, checks);
+    csv_row(o, "checks", "all", "passed", checks->passed);
+    csv_row(o, "checks", "all", "failed", checks->failed);
     ob_flush(o);
+    ls_report_warnings_csv(rp, rp->out);
 }
 
 void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
@@ -975,16 +1017,17 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
     FILE *o = rp->out;
     (void)op;
     if (rp->fmt == FMT_JSON) {
-        obuf ob;
-        ob_init(&ob, o);
-        ob_puts(&ob, "{\n  \"checks\": ");
-        checks_json(rp, &ob, checks);
-        ob_printf(&ob, ",\n  \"passed\": %d,\n  \"failed\": %d\n}\n", checks->passed, checks->failed);
-        ob_flush(&ob);
+        ls_jw w;
+        ls_report_json_begin(rp, &w);
+        checks_json(rp, &w, checks);
+        ls_jw_int(&w, "passed", checks->passed);
+        ls_jw_int(&w, "failed", checks->failed);
+        ls_report_warnings_json(rp, &w);
+        ls_jw_finish(&w);
     } else if (rp->fmt == FMT_CSV) {
         obuf ob;
         ob_init(&ob, o);
-        ob_puts(&ob, "file,line,instance,text,value,pass\n");
+        ob_puts(&ob, "file,line,instance,text,value,result\n");
         for (int i = 0; i < checks->n; i++) {
             const ls_check_row *r = &checks->rows[i];
             ob_csv_field(&ob, loc_file(rp->diags, r->loc));
@@ -994,7 +1037,7 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
             ob_csv_field(&ob, r->text);
             ob_putc(&ob, ',');
             ob_csv_number(&ob, r->r.value);
-            ob_puts(&ob, r->r.pass ? ",true\n" : ",false\n");
+            ob_puts(&ob, r->r.pass ? ",pass\n" : ",fail\n");
         }
         ob_flush(&ob);
     } else {

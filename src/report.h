@@ -5,6 +5,7 @@
 #include <stdio.h>
 
 #include "analysis.h"
+#include "jsonw.h"
 
 typedef enum ls_format { FMT_TEXT, FMT_JSON, FMT_CSV } ls_format;
 
@@ -14,6 +15,11 @@ typedef struct ls_report {
     bool ascii;
     int sig;                 /* significant digits in text (4) */
     const ls_diags *diags;
+    /* the JSON "meta" object: the command, the circuit file (NULL: none) and
+     * the --set texts ("NAME=VALUE") */
+    const char *command, *file;
+    const char *const *sets;
+    int nsets;
 } ls_report;
 
 /* Check results for every expect and rule (allocated by the caller). */
@@ -39,11 +45,18 @@ void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks);
 void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks);
 
 /* Pieces shared with the other commands' reporters. */
-void ls_json_string(FILE *out, const char *s);
-void ls_json_number(FILE *out, double v);
+/* Start a JSON report on rp->out: the top-level object and its "meta". */
+void ls_report_json_begin(const ls_report *rp, ls_jw *w);
 void ls_csv_field(FILE *out, const char *s);
+/* One CSV number: the shortest exact text, empty when not finite. */
+void ls_csv_number(FILE *out, double v);
 const char *ls_eng(const ls_report *rp, char *buf, size_t n, double v, const char *unit);
 const char *ls_unit_of(ls_dims d, bool ascii);
-void ls_report_warnings_json(ls_report *rp);
+/* The "warnings" array: code, level ("warning", or "caution" for a hazard to
+ * people), message, file, line, column. */
+void ls_report_warnings_json(const ls_report *rp, ls_jw *w);
+/* The "warning" rows of a section,name,field,value CSV: one row per warning
+ * (name: its code; field: its file:line:col; value: the message). */
+void ls_report_warnings_csv(const ls_report *rp, FILE *out);
 
 #endif

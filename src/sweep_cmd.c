@@ -60,7 +60,7 @@ static bool point_cli(const ls_cli *cli, const char *param, double value, char *
             out->sets[out->nsets++] = cli->sets[i];
     if (out->nsets == LS_MAX_SETS)
         return false;
-    snprintf(buf, n, "%s=%s", param, LS_G17(value));
+    snprintf(buf, n, "%s=%s", param, LS_NUM(value));
     out->sets[out->nsets++] = buf;
     return true;
 }
@@ -266,26 +266,25 @@ static void solve_point(sweep *w, int i)
 /* Value of quantity k at point i (NaN when not solved). */
 static double yat(const sweep *w, int i, int k) { return w->y[(size_t)i * (size_t)w->nq + (size_t)k]; }
 
-/* The sweep as one JSON object: the param, then one object per point. */
-static void sweep_json(FILE *o, const sweep *w)
+/* The sweep as one JSON object: the let, then one object per point; a
+ * quantity at a point that could not be solved is null, "unsolved". */
+static void sweep_json(const ls_report *rp, const sweep *w)
 {
-    fputs("{\"param\": ", o);
-    ls_json_string(o, w->param);
-    fputs(",\n \"points\": [", o);
+    ls_jw jw, *j = &jw;
+    ls_report_json_begin(rp, j);
+    ls_jw_str(j, "let", w->param);
+    ls_jw_arr(j, "points");
     for (int i = 0; i < w->steps; i++) {
-        fprintf(o, "%s\n  {", i ? "," : "");
-        ls_json_string(o, w->param);
-        fputs(": ", o);
-        ls_json_number(o, w->x[i]);
+        ls_jw_obj(j, NULL);
+        ls_jw_num(j, w->param, w->x[i]);
         for (int k = 0; k < w->nq; k++) {
-            fputs(", ", o);
-            ls_json_string(o, w->qtext[k]);
-            fputs(": ", o);
-            ls_json_number(o, yat(w, i, k));
+            double v = yat(w, i, k);
+            ls_jw_num_why(j, w->qtext[k], v, !w->solved[i] ? LS_WHY_UNSOLVED : ls_jw_why_of(v));
         }
-        fputs("}", o);
+        ls_jw_end(j);
     }
-    fputs("]}\n", o);
+    ls_jw_end(j);
+    ls_jw_finish(j);
 }
 
 /* The sweep as CSV: a header row, then one row per point, the param first. */
@@ -298,11 +297,10 @@ static void sweep_csv(FILE *o, const sweep *w)
     }
     fputc('\n', o);
     for (int i = 0; i < w->steps; i++) {
-        char b[40];
-        fputs(ls_fmt_full(b, sizeof b, w->x[i]), o);
+        ls_csv_number(o, w->x[i]);
         for (int k = 0; k < w->nq; k++) {
-            double v = yat(w, i, k);
-            fprintf(o, ",%s", isfinite(v) ? ls_fmt_full(b, sizeof b, v) : "");
+            fputc(',', o);
+            ls_csv_number(o, yat(w, i, k));
         }
         fputc('\n', o);
     }
@@ -459,9 +457,9 @@ int ls_cmd_sweep(ls_cli *cli)
         char *tmp;
         FILE *o = ls_out_open(&s, &tmp);
         if (o) {
-            ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4};
+            ls_report rp = ls_report_for(&s, o);
             if (cli->fmt == FMT_JSON)
-                sweep_json(o, &w);
+                sweep_json(&rp, &w);
             else if (cli->fmt == FMT_CSV)
                 sweep_csv(o, &w);
             else

@@ -451,47 +451,45 @@ typedef struct tol_ctx {
 } tol_ctx;
 
 /* The tol report as one JSON object (cli.md keys; "rss" only with the
- * sensitivity method). */
-static void tol_json(FILE *o, const tol_ctx *t)
+ * sensitivity method).  A statistic of no finite trial is "unsolved". */
+static void tol_json(const ls_report *rp, const tol_ctx *t)
 {
     const tol_result *r = &t->r;
-    fputs("{\"quantity\": ", o);
-    ls_json_string(o, t->qtext);
-    fputs(", \"nominal\": ", o);
-    ls_json_number(o, r->nominal);
-    fputs(",\n \"worst_case\": {\"min\": ", o);
-    ls_json_number(o, r->wc_min);
-    fputs(", \"max\": ", o);
-    ls_json_number(o, r->wc_max);
-    fprintf(o, ", \"method\": \"%s\"", r->corners ? "corners" : "sensitivity");
-    if (!r->corners) {
-        fputs(", \"rss\": ", o);
-        ls_json_number(o, r->rss);
-    }
-    fprintf(o, "},\n \"monte_carlo\": {\"trials\": %ld, \"seed\": %llu, \"mean\": ", t->trials,
-            (unsigned long long)t->seed);
-    ls_json_number(o, r->mean);
-    fputs(", \"std\": ", o);
-    ls_json_number(o, r->std);
-    fputs(", \"min\": ", o);
-    ls_json_number(o, r->min);
-    fputs(", \"max\": ", o);
-    ls_json_number(o, r->max);
-    fputs(",\n                 \"percentiles\": {", o);
-    for (int k = 0; k < 5; k++) {
-        fprintf(o, "%s\"%s\": ", k ? ", " : "", pct_keys[k]);
-        ls_json_number(o, r->pct[k]);
-    }
-    fputs("}},\n \"yield\": ", o);
-    ls_json_number(o, r->yield);
-    fputs("}\n", o);
+    ls_jw jw, *w = &jw;
+    ls_report_json_begin(rp, w);
+    ls_jw_str(w, "quantity", t->qtext);
+    ls_jw_num(w, "nominal", r->nominal);
+    ls_jw_obj(w, "worst_case");
+    ls_jw_num(w, "min", r->wc_min);
+    ls_jw_num(w, "max", r->wc_max);
+    ls_jw_str(w, "method", r->corners ? "corners" : "sensitivity");
+    if (!r->corners)
+        ls_jw_num(w, "rss", r->rss);
+    ls_jw_end(w);
+    ls_jw_obj(w, "monte_carlo");
+    ls_jw_int(w, "trials", t->trials);
+    ls_jw_int(w, "seed", (long long)t->seed);
+    ls_jw_str(w, "dist", t->normal ? "normal" : "uniform");
+    ls_jw_num(w, "mean", r->mean);
+    ls_jw_num(w, "std", r->std);
+    ls_jw_num(w, "min", r->min);
+    ls_jw_num(w, "max", r->max);
+    ls_jw_obj(w, "percentiles");
+    for (int k = 0; k < 5; k++)
+        ls_jw_num(w, pct_keys[k], r->pct[k]);
+    ls_jw_end(w);
+    ls_jw_end(w);
+    if (isfinite(r->yield))
+        ls_jw_num(w, "yield", r->yield);
+    else
+        ls_jw_null(w, "yield", t->nchecks ? LS_WHY_UNSOLVED : LS_WHY_NONE);
+    ls_jw_finish(w);
 }
 
 /* One `field,value` CSV row; an empty value when v is not finite. */
 static void csv_num(FILE *o, const char *field, double v)
 {
-    char b[40];
-    fprintf(o, "%s,%s\n", field, isfinite(v) ? ls_fmt_full(b, sizeof b, v) : "");
+    fprintf(o, "%s,%s\n", field, LS_CSV(v));
 }
 
 /* The tol report as `field,value` rows. */
@@ -507,7 +505,8 @@ static void tol_csv(FILE *o, const tol_ctx *t)
     fprintf(o, "worst_case.method,%s\n", r->corners ? "corners" : "sensitivity");
     if (!r->corners)
         csv_num(o, "worst_case.rss", r->rss);
-    fprintf(o, "monte_carlo.trials,%ld\nmonte_carlo.seed,%llu\n", t->trials, (unsigned long long)t->seed);
+    fprintf(o, "monte_carlo.trials,%ld\nmonte_carlo.seed,%llu\nmonte_carlo.dist,%s\n", t->trials,
+            (unsigned long long)t->seed, t->normal ? "normal" : "uniform");
     csv_num(o, "monte_carlo.mean", r->mean);
     csv_num(o, "monte_carlo.std", r->std);
     csv_num(o, "monte_carlo.min", r->min);
@@ -787,9 +786,9 @@ int ls_cmd_tol(ls_cli *cli)
     char *tmp;
     FILE *o = ls_out_open(&s, &tmp);
     if (o) {
-        ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+        ls_report rp = ls_report_for(&s, o);
         if (cli->fmt == FMT_JSON)
-            tol_json(o, &t);
+            tol_json(&rp, &t);
         else if (cli->fmt == FMT_CSV)
             tol_csv(o, &t);
         else
