@@ -3,6 +3,7 @@
 
 #include "fmt.h"
 
+#include <cairo-pdf.h>
 #include <cairo-svg.h>
 #include <cairo.h>
 #include <errno.h>
@@ -160,6 +161,26 @@ static void axis_label(const axis *a, double v, char *buf, size_t n)
     ls_fmt_eng(buf, n, v, a->unit, sig, false);
 }
 
+/* An axis whose ends are exactly lo and hi (a sweep's FROM and TO), with the
+ * nice ticks that fall inside.  Returns false as axis_make does. */
+static bool axis_make_exact(axis *a, double lo, double hi, bool logscale, const char *unit, int target)
+{
+    if (!(lo < hi))
+        return axis_make(a, lo, hi, logscale, unit, target);
+    axis t;
+    if (!axis_make(&t, lo, hi, logscale, unit, target))
+        return false;
+    *a = t;
+    a->lo = lo;
+    a->hi = hi;
+    a->nt = 0;
+    double eps = 1e-9 * (hi - lo);
+    for (size_t i = 0; i < t.nt; i++)
+        if (t.t[i] >= lo - eps && t.t[i] <= hi + eps)
+            a->t[a->nt++] = t.t[i];
+    return true;
+}
+
 /* ---- drawing helpers ------------------------------------------------------ */
 
 typedef struct frame {
@@ -167,6 +188,13 @@ typedef struct frame {
     double fs;              /* base font size, pixels */
     int w, h;
 } frame;
+
+/* The boxes of every text drawn so far, so no new text lands on one. */
+#define MAX_BOXES 512
+typedef struct boxes {
+    double r[MAX_BOXES][4]; /* x0, y0, x1, y1 */
+    int n;
+} boxes;
 
 static double px(const frame *f, const axis *a, double v)
 {
@@ -186,6 +214,14 @@ static double text_w(cairo_t *cr, const char *s)
     return te.x_advance;
 }
 
+/* Height of a line of text at the current font. */
+static double text_h(cairo_t *cr)
+{
+    cairo_font_extents_t fe;
+    cairo_font_extents(cr, &fe);
+    return fe.ascent + fe.descent;
+}
+
 /* Shows s with the point (x, y) at fraction (ax, ay) of its box: (0, 0) top
  * left, (0.5, 0.5) centre, (1, 1) bottom right. */
 static void text_at(cairo_t *cr, double x, double y, const char *s, double ax, double ay)
@@ -197,86 +233,206 @@ static void text_at(cairo_t *cr, double x, double y, const char *s, double ax, d
     cairo_show_text(cr, s);
 }
 
+static bool box_hits(const boxes *b, const double r[4])
+{
+    for (int i = 0; i < b->n; i++)
+        if (r[0] < b->r[i][2] && b->r[i][0] < r[2] && r[1] < b->r[i][3] && b->r[i][1] < r[3])
+            return true;
+    return false;
+}
+
+static void box_add(boxes *b, double x0, double y0, double x1, double y1)
+{
+    if (b->n < MAX_BOXES) {
+        double *r = b->r[b->n++];
+        r[0] = x0, r[1] = y0, r[2] = x1, r[3] = y1;
+    }
+}
+
+/* Draw s as text_at would, moved up or down by whole lines (0, -1, +1, -2, +2 ...
+ * when `move`) to the first place where its box (with a pixel of margin) hits
+ * no text drawn before and stays within ymin..ymax.  Returns false, drawing
+ * nothing, when there is no such place. */
+static bool text_free(cairo_t *cr, boxes *b, double x, double y, const char *s, double ax, double ay, bool move,
+                      double ymin, double ymax)
+{
+    double w = text_w(cr, s), h = text_h(cr);
+    double left = x - ax * w, top = y - ay * h;
+    for (int k = 0; k < (move ? 40 : 1); k++) {
+        double dy = (k % 2 ? -1 : 1) * ((k + 1) / 2) * (h + 2);
+        double r[4] = {left - 1, top + dy - 1, left + w + 1, top + dy + h + 1};
+        if (r[1] < ymin || r[3] > ymax || box_hits(b, r))
+            continue;
+        text_at(cr, x, y + dy, s, ax, ay);
+        box_add(b, r[0], r[1], r[2], r[3]);
+        return true;
+    }
+    return false;
+}
+
+/* s cut (ending in "...") to at most maxw pixels, into buf (n bytes). */
+static const char *fit_text(cairo_t *cr, const char *s, double maxw, char *buf, size_t n)
+{
+    snprintf(buf, n, "%s", s);
+    size_t len = strlen(buf);
+    while (len > 0 && text_w(cr, buf) > maxw) {
+        do
+            len--;
+        while (len > 0 && ((unsigned char)buf[len] & 0xC0) == 0x80); /* whole UTF-8 characters */
+        if (len + 4 <= n)
+            memcpy(buf + len, "...", 4);
+    }
+    return buf;
+}
+
 static const double palette[LS_PLOT_MAX_SERIES][3] = {
     {0.00, 0.45, 0.70}, {0.84, 0.37, 0.00}, {0.00, 0.62, 0.45}, {0.80, 0.47, 0.65},
     {0.35, 0.35, 0.35}, {0.90, 0.62, 0.00}, {0.34, 0.71, 0.91}, {0.60, 0.20, 0.20},
 };
 
-/* Lays out the plot area for a w × h picture whose y tick labels are in ya,
- * then draws background, grid, ticks, labels, box and title. */
-static frame draw_frame(cairo_t *cr, int w, int h, const axis *xa, const axis *ya,
-                        const char *title, const char *xlabel, const char *ylabel)
+/* The base font size of a w × h picture, set on cr. */
+static double set_font(cairo_t *cr, int w, int h)
 {
-    frame f = {.w = w, .h = h};
     double sc = sqrt((double)w * h / (800.0 * 500.0));
-    f.fs = 12.0 * (sc < 0.6 ? 0.6 : sc > 2.5 ? 2.5 : sc);
-    char buf[64];
+    double fs = 12.0 * (sc < 0.6 ? 0.6 : sc > 2.5 ? 2.5 : sc);
     cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, f.fs);
+    cairo_set_font_size(cr, fs);
+    return fs;
+}
+
+/* Widest y tick label of ya. */
+static double ylabels_w(cairo_t *cr, const axis *ya)
+{
+    char buf[64];
     double lw = 0;
     for (size_t i = 0; i < ya->nt; i++) {
         axis_label(ya, ya->t[i], buf, sizeof buf);
         lw = fmax(lw, text_w(cr, buf));
     }
-    f.x0 = lw + f.fs * (ylabel && *ylabel ? 2.6 : 1.2);
+    return lw;
+}
+
+/* Every k-th tick gets a label, the smallest k whose labels (extent each,
+ * pixels along the axis) leave a gap of at least `gap` between neighbours. */
+static size_t label_stride(const double *pos, const double *extent, size_t n, double gap)
+{
+    for (size_t k = 1; k < n; k++) {
+        bool ok = true;
+        for (size_t i = k; i < n && ok; i += k)
+            ok = fabs(pos[i] - pos[i - k]) >= (extent[i] + extent[i - k]) / 2 + gap;
+        if (ok)
+            return k;
+    }
+    return n ? n : 1;
+}
+
+/* Background of the whole picture, once. */
+static void paint_white(cairo_t *cr)
+{
+    cairo_set_source_rgb(cr, 1, 1, 1);
+    cairo_paint(cr);
+}
+
+/* One panel: grid, box, ticks, the y tick labels and (xlabels) the x tick
+ * labels below it, and its rotated y label cut to the panel's height. */
+static void draw_panel(cairo_t *cr, const frame *f, const axis *xa, const axis *ya, bool xlabels,
+                       const char *ylabel, boxes *bx)
+{
+    char buf[64];
+    cairo_set_line_width(cr, 1);
+    cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
+    for (size_t i = 0; i < xa->nt; i++) {
+        double x = round(px(f, xa, xa->t[i])) + 0.5;
+        cairo_move_to(cr, x, f->y0);
+        cairo_line_to(cr, x, f->y1);
+    }
+    for (size_t i = 0; i < ya->nt; i++) {
+        double y = round(py(f, ya, ya->t[i])) + 0.5;
+        cairo_move_to(cr, f->x0, y);
+        cairo_line_to(cr, f->x1, y);
+    }
+    cairo_stroke(cr);
+
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_rectangle(cr, f->x0, f->y0, f->x1 - f->x0, f->y1 - f->y0);
+    cairo_stroke(cr);
+    double tl = f->fs * 0.35, pos[MAX_TICKS] = {0}, ext[MAX_TICKS] = {0};
+    for (size_t i = 0; i < xa->nt; i++) {
+        double x = px(f, xa, xa->t[i]);
+        cairo_move_to(cr, x, f->y1);
+        cairo_line_to(cr, x, f->y1 + tl);
+        cairo_stroke(cr);
+        axis_label(xa, xa->t[i], buf, sizeof buf);
+        pos[i] = x;
+        ext[i] = text_w(cr, buf);
+    }
+    size_t k = label_stride(pos, ext, xa->nt, f->fs * 0.8);
+    for (size_t i = 0; xlabels && i < xa->nt; i += k) {
+        axis_label(xa, xa->t[i], buf, sizeof buf);
+        text_free(cr, bx, pos[i], f->y1 + tl + 2, buf, 0.5, 0, false, 0, f->h);
+    }
+    for (size_t i = 0; i < ya->nt; i++) {
+        pos[i] = py(f, ya, ya->t[i]);
+        ext[i] = text_h(cr);
+        cairo_move_to(cr, f->x0 - tl, pos[i]);
+        cairo_line_to(cr, f->x0, pos[i]);
+        cairo_stroke(cr);
+    }
+    k = label_stride(pos, ext, ya->nt, 2);
+    for (size_t i = 0; i < ya->nt; i += k) {
+        axis_label(ya, ya->t[i], buf, sizeof buf);
+        text_free(cr, bx, f->x0 - tl - 2, pos[i], buf, 1, 0.5, false, 0, f->h);
+    }
+    if (ylabel && *ylabel) {
+        char cut[512];
+        fit_text(cr, ylabel, f->y1 - f->y0, cut, sizeof cut);
+        double w = text_w(cr, cut), h = text_h(cr), ym = (f->y0 + f->y1) / 2;
+        cairo_save(cr);
+        cairo_translate(cr, f->fs * 0.4, ym);
+        cairo_rotate(cr, -M_PI / 2);
+        text_at(cr, 0, 0, cut, 0.5, 0);
+        cairo_restore(cr);
+        box_add(bx, f->fs * 0.4, ym - w / 2, f->fs * 0.4 + h, ym + w / 2);
+    }
+}
+
+/* The title centred at the top and the x label centred at the bottom. */
+static void draw_titles(cairo_t *cr, const frame *f, const char *title, const char *xlabel, boxes *bx)
+{
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    if (xlabel && *xlabel) {
+        char cut[512];
+        text_free(cr, bx, (f->x0 + f->x1) / 2, f->h - f->fs * 0.4, fit_text(cr, xlabel, f->w - 8, cut, sizeof cut),
+                  0.5, 1, false, 0, f->h);
+    }
+    if (title && *title) {
+        char cut[512];
+        cairo_save(cr);
+        cairo_set_font_size(cr, f->fs * 1.25);
+        cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_BOLD);
+        text_free(cr, bx, f->w / 2.0, f->fs * 0.8, fit_text(cr, title, f->w - 8, cut, sizeof cut), 0.5, 0, false, 0,
+                  f->h);
+        cairo_restore(cr);
+    }
+}
+
+/* Lays out a single-panel plot area for a w × h picture whose y tick labels
+ * are in ya, then draws background, grid, ticks, labels, box and title. */
+static frame draw_frame(cairo_t *cr, int w, int h, const axis *xa, const axis *ya, const char *title,
+                        const char *xlabel, const char *ylabel, boxes *bx)
+{
+    frame f = {.w = w, .h = h};
+    char buf[64];
+    f.fs = set_font(cr, w, h);
+    f.x0 = ylabels_w(cr, ya) + f.fs * (ylabel && *ylabel ? 2.6 : 1.2);
     /* Room for half of the last x tick label, which is centred on the edge. */
     axis_label(xa, xa->t[xa->nt - 1], buf, sizeof buf);
     f.x1 = w - fmax(f.fs * 1.8, text_w(cr, buf) / 2 + 4);
     f.y0 = f.fs * (title && *title ? 3.0 : 1.2);
     f.y1 = h - f.fs * (xlabel && *xlabel ? 3.6 : 2.2);
-
-    cairo_set_source_rgb(cr, 1, 1, 1);
-    cairo_paint(cr);
-    cairo_set_line_width(cr, 1);
-    cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
-    for (size_t i = 0; i < xa->nt; i++) {
-        double x = round(px(&f, xa, xa->t[i])) + 0.5;
-        cairo_move_to(cr, x, f.y0);
-        cairo_line_to(cr, x, f.y1);
-    }
-    for (size_t i = 0; i < ya->nt; i++) {
-        double y = round(py(&f, ya, ya->t[i])) + 0.5;
-        cairo_move_to(cr, f.x0, y);
-        cairo_line_to(cr, f.x1, y);
-    }
-    cairo_stroke(cr);
-
-    cairo_set_source_rgb(cr, 0, 0, 0);
-    cairo_rectangle(cr, f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
-    cairo_stroke(cr);
-    double tl = f.fs * 0.35;
-    for (size_t i = 0; i < xa->nt; i++) {
-        double x = px(&f, xa, xa->t[i]);
-        cairo_move_to(cr, x, f.y1);
-        cairo_line_to(cr, x, f.y1 + tl);
-        cairo_stroke(cr);
-        axis_label(xa, xa->t[i], buf, sizeof buf);
-        text_at(cr, x, f.y1 + tl + 2, buf, 0.5, 0);
-    }
-    for (size_t i = 0; i < ya->nt; i++) {
-        double y = py(&f, ya, ya->t[i]);
-        cairo_move_to(cr, f.x0 - tl, y);
-        cairo_line_to(cr, f.x0, y);
-        cairo_stroke(cr);
-        axis_label(ya, ya->t[i], buf, sizeof buf);
-        text_at(cr, f.x0 - tl - 2, y, buf, 1, 0.5);
-    }
-    if (xlabel && *xlabel)
-        text_at(cr, (f.x0 + f.x1) / 2, h - f.fs * 0.4, xlabel, 0.5, 1);
-    if (ylabel && *ylabel) {
-        cairo_save(cr);
-        cairo_translate(cr, f.fs * 0.4, (f.y0 + f.y1) / 2);
-        cairo_rotate(cr, -M_PI / 2);
-        text_at(cr, 0, 0, ylabel, 0.5, 0);
-        cairo_restore(cr);
-    }
-    if (title && *title) {
-        cairo_save(cr);
-        cairo_set_font_size(cr, f.fs * 1.25);
-        cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_BOLD);
-        text_at(cr, w / 2.0, f.fs * 0.8, title, 0.5, 0);
-        cairo_restore(cr);
-    }
+    paint_white(cr);
+    draw_titles(cr, &f, title, xlabel, bx);
+    draw_panel(cr, &f, xa, ya, true, ylabel, bx);
     return f;
 }
 
@@ -306,7 +462,7 @@ static cairo_status_t write_cb(void *closure, const unsigned char *data, unsigne
                                                           : CAIRO_STATUS_WRITE_ERROR;
 }
 
-/* Draws with fn onto an SVG or PNG surface streamed to a fresh temporary file
+/* Draws with fn onto an SVG, PDF or PNG surface streamed to a fresh temporary file
  * beside path, then renames it over path.  Returns an ls_plot_status; the
  * temporary file is removed on any failure. */
 static int render(const char *path, int w, int h, draw_fn fn, const void *desc,
@@ -315,8 +471,9 @@ static int render(const char *path, int w, int h, draw_fn fn, const void *desc,
     size_t len = path ? strlen(path) : 0;
     bool svg = len > 4 && strcasecmp(path + len - 4, ".svg") == 0;
     bool png = len > 4 && strcasecmp(path + len - 4, ".png") == 0;
-    if (!svg && !png)
-        return fail(msg, msgn, LS_PLOT_EFORMAT, "'%s': a plot file must end in .svg or .png",
+    bool pdf = len > 4 && strcasecmp(path + len - 4, ".pdf") == 0;
+    if (!svg && !png && !pdf)
+        return fail(msg, msgn, LS_PLOT_EFORMAT, "'%s': a plot file must end in .svg, .png or .pdf",
                     path ? path : "");
     char *tmp = malloc(len + 32);
     if (!tmp)
@@ -343,8 +500,10 @@ static int render(const char *path, int w, int h, draw_fn fn, const void *desc,
         free(tmp);
         return rc;
     }
-    cairo_surface_t *s = svg ? cairo_svg_surface_create_for_stream(write_cb, fp, w, h)
-                             : cairo_image_surface_create(CAIRO_FORMAT_RGB24, w, h);
+    /* a PDF page of w × h points: the pixel sizes read as points */
+    cairo_surface_t *s = svg   ? cairo_svg_surface_create_for_stream(write_cb, fp, w, h)
+                         : pdf ? cairo_pdf_surface_create_for_stream(write_cb, fp, w, h)
+                               : cairo_image_surface_create(CAIRO_FORMAT_RGB24, w, h);
     if (svg && cairo_surface_status(s) == CAIRO_STATUS_SUCCESS)
         cairo_svg_surface_set_document_unit(s, CAIRO_SVG_UNIT_PX);
     cairo_t *cr = cairo_create(s);
@@ -402,58 +561,66 @@ static int check_marks(const ls_plot_mark *m, size_t n, double *lo, double *hi, 
 
 /* ---- line plot ------------------------------------------------------------- */
 
-static void draw_line(cairo_t *cr, const void *desc, const axis *xa, const axis *ya, int w,
-                      int h)
-{
-    const ls_plot_line *p = desc;
-    frame f = draw_frame(cr, w, h, xa, ya, p->title, p->xlabel, p->ylabel);
-    cairo_save(cr);
-    cairo_rectangle(cr, f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
-    cairo_clip(cr);
-    for (size_t i = 0; i < p->nbounds; i++) {
-        double y = py(&f, ya, p->bounds[i].value);
-        mark_line(cr, f.x0, y, f.x1, y);
-        if (p->bounds[i].label) {
-            cairo_set_source_rgb(cr, 0.75, 0.1, 0.1);
-            text_at(cr, f.x0 + 4, y - 2, p->bounds[i].label, 0, 1); /* left: the legend is right */
-        }
-    }
-    cairo_set_line_width(cr, 1.8);
-    cairo_set_line_cap(cr, CAIRO_LINE_CAP_ROUND); /* a lone point between gaps shows as a dot */
-    cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
-    for (size_t s = 0; s < p->nseries; s++) {
-        const ls_plot_series *se = &p->series[s];
-        bool pen = false;
-        for (size_t i = 0; i < se->n; i++) {
-            if (!isfinite(se->x[i]) || !isfinite(se->y[i])) {
-                pen = false;
-                continue;
-            }
-            double x = px(&f, xa, se->x[i]), y = py(&f, ya, se->y[i]);
-            if (!pen)
-                cairo_move_to(cr, x, y);
-            cairo_line_to(cr, x, y);
-            pen = true;
-        }
-        cairo_set_source_rgb(cr, palette[s][0], palette[s][1], palette[s][2]);
-        cairo_stroke(cr);
-    }
-    cairo_restore(cr);
+#define MAX_PANELS LS_PLOT_MAX_SERIES
 
-    /* Legend box in the top right corner of the plot area. */
+/* The panels of a line plot: one per y unit, in order of first appearance. */
+typedef struct panels {
+    int n;
+    const char *unit[MAX_PANELS];
+    int of[LS_PLOT_MAX_SERIES + LS_PLOT_MAX_MARKS]; /* each series' panel */
+    int bounds_panel;                                /* the panel of p->yunit (bounds) */
+    axis ya[MAX_PANELS];
+    char ylabel[MAX_PANELS][512];
+} panels;
+
+static const char *series_unit(const ls_plot_line *p, const ls_plot_series *se)
+{
+    return se->unit ? se->unit : p->yunit ? p->yunit : "";
+}
+
+/* Panel of unit u, added when new; -1 when there are too many. */
+static int panel_of(panels *pn, const char *u)
+{
+    for (int i = 0; i < pn->n; i++)
+        if (strcmp(pn->unit[i], u) == 0)
+            return i;
+    if (pn->n == MAX_PANELS)
+        return -1;
+    pn->unit[pn->n] = u;
+    return pn->n++;
+}
+
+/* Panel frames stacked between top and bottom with gap pixels between them. */
+static frame panel_frame(const frame *all, int i, int n, double gap)
+{
+    frame f = *all;
+    double ph = (all->y1 - all->y0 - (n - 1) * gap) / n;
+    f.y0 = all->y0 + i * (ph + gap);
+    f.y1 = f.y0 + ph;
+    return f;
+}
+
+typedef struct line_draw {
+    const ls_plot_line *p;
+    panels *pn;
+} line_draw;
+
+/* The legend of panel k's curves in its top right corner (a box of text). */
+static void draw_legend(cairo_t *cr, const ls_plot_line *p, const panels *pn, int k, const frame *f, boxes *bx)
+{
     double tw = 0;
     int rows = 0;
     for (size_t s = 0; s < p->nseries; s++)
-        if (p->series[s].name && *p->series[s].name) {
+        if (pn->of[s] == k && !p->series[s].limit && p->series[s].name && *p->series[s].name) {
             tw = fmax(tw, text_w(cr, p->series[s].name));
             rows++;
         }
     if (!rows)
         return;
-    double rh = f.fs * 1.4, sw = f.fs * 2.2, pad = f.fs * 0.5;
+    double rh = f->fs * 1.4, sw = f->fs * 2.2, pad = f->fs * 0.5;
     double bw = tw + sw + 3 * pad, bh = rows * rh + pad;
-    double bx = f.x1 - bw - 6, by = f.y0 + 6;
-    cairo_rectangle(cr, bx, by, bw, bh);
+    double bx0 = f->x1 - bw - 6, by0 = f->y0 + 6;
+    cairo_rectangle(cr, bx0, by0, bw, bh);
     cairo_set_source_rgba(cr, 1, 1, 1, 0.85);
     cairo_fill_preserve(cr);
     cairo_set_source_rgb(cr, 0.5, 0.5, 0.5);
@@ -461,29 +628,197 @@ static void draw_line(cairo_t *cr, const void *desc, const axis *xa, const axis 
     cairo_stroke(cr);
     int r = 0;
     for (size_t s = 0; s < p->nseries; s++) {
-        if (!p->series[s].name || !*p->series[s].name)
+        const ls_plot_series *se = &p->series[s];
+        if (pn->of[s] != k || se->limit || !se->name || !*se->name)
             continue;
-        double y = by + pad / 2 + (r++ + 0.5) * rh;
-        cairo_set_source_rgb(cr, palette[s][0], palette[s][1], palette[s][2]);
+        double y = by0 + pad / 2 + (r++ + 0.5) * rh;
+        int c = (int)s % LS_PLOT_MAX_SERIES;
+        cairo_set_source_rgb(cr, palette[c][0], palette[c][1], palette[c][2]);
         cairo_set_line_width(cr, 2.5);
-        cairo_move_to(cr, bx + pad, y);
-        cairo_line_to(cr, bx + pad + sw, y);
+        cairo_move_to(cr, bx0 + pad, y);
+        cairo_line_to(cr, bx0 + pad + sw, y);
         cairo_stroke(cr);
         cairo_set_source_rgb(cr, 0, 0, 0);
-        text_at(cr, bx + 2 * pad + sw, y, p->series[s].name, 0, 0.5);
+        text_at(cr, bx0 + 2 * pad + sw, y, se->name, 0, 0.5);
     }
+    box_add(bx, bx0, by0, bx0 + bw, by0 + bh);
+}
+
+/* One curve (a limit dashed), clipped to the panel. */
+static void draw_curve(cairo_t *cr, const ls_plot_series *se, const frame *f, const axis *xa, const axis *ya,
+                       int colour)
+{
+    static const double dash[] = {6, 4};
+    bool pen = false;
+    for (size_t i = 0; i < se->n; i++) {
+        if (!isfinite(se->x[i]) || !isfinite(se->y[i])) {
+            pen = false;
+            continue;
+        }
+        double x = px(f, xa, se->x[i]), y = py(f, ya, se->y[i]);
+        if (!pen)
+            cairo_move_to(cr, x, y);
+        cairo_line_to(cr, x, y);
+        pen = true;
+    }
+    cairo_save(cr);
+    if (se->limit) {
+        cairo_set_source_rgb(cr, 0.75, 0.1, 0.1);
+        cairo_set_line_width(cr, 1.5);
+        cairo_set_dash(cr, dash, 2, 0);
+    } else {
+        cairo_set_source_rgb(cr, palette[colour][0], palette[colour][1], palette[colour][2]);
+    }
+    cairo_stroke(cr);
+    cairo_restore(cr);
+}
+
+/* The label of a limit curve at its last finite point, right-aligned, on the
+ * nearest free row of its panel. */
+static void label_limit(cairo_t *cr, const ls_plot_series *se, const frame *f, const axis *xa, const axis *ya,
+                        boxes *bx)
+{
+    for (size_t i = se->n; i-- > 0;) {
+        if (!isfinite(se->x[i]) || !isfinite(se->y[i]))
+            continue;
+        double x = fmin(px(f, xa, se->x[i]), f->x1) - 4, y = py(f, ya, se->y[i]) - 2;
+        cairo_set_source_rgb(cr, 0.75, 0.1, 0.1);
+        text_free(cr, bx, x, y, se->name, 1, 1, true, f->y0, f->y1);
+        return;
+    }
+}
+
+static void draw_line(cairo_t *cr, const void *desc, const axis *xa, const axis *unused, int w, int h)
+{
+    (void)unused;
+    const line_draw *ld = desc;
+    const ls_plot_line *p = ld->p;
+    panels *pn = ld->pn;
+    boxes boxes_, *bx = &boxes_; /* 16 KB */
+    bx->n = 0;
+    frame all = {.w = w, .h = h};
+    char buf[64];
+    all.fs = set_font(cr, w, h);
+    double lw = 0;
+    for (int k = 0; k < pn->n; k++)
+        lw = fmax(lw, ylabels_w(cr, &pn->ya[k]));
+    bool ylabel = false;
+    for (int k = 0; k < pn->n; k++)
+        ylabel |= pn->ylabel[k][0] != '\0';
+    all.x0 = lw + all.fs * (ylabel ? 2.6 : 1.2);
+    axis_label(xa, xa->t[xa->nt ? xa->nt - 1 : 0], buf, sizeof buf);
+    all.x1 = w - fmax(all.fs * 1.8, text_w(cr, buf) / 2 + 4);
+    all.y0 = all.fs * (p->title && *p->title ? 3.0 : 1.2);
+    all.y1 = h - all.fs * (p->xlabel && *p->xlabel ? 3.6 : 2.2);
+    paint_white(cr);
+    draw_titles(cr, &all, p->title, p->xlabel, bx);
+    double gap = all.fs * 1.8;
+    for (int k = 0; k < pn->n; k++) {
+        frame f = panel_frame(&all, k, pn->n, gap);
+        const axis *ya = &pn->ya[k];
+        cairo_set_source_rgb(cr, 0, 0, 0);
+        draw_panel(cr, &f, xa, ya, k == pn->n - 1, pn->ylabel[k], bx);
+        cairo_save(cr);
+        cairo_rectangle(cr, f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+        cairo_clip(cr);
+        for (size_t i = 0; k == pn->bounds_panel && i < p->nbounds; i++) {
+            double y = py(&f, ya, p->bounds[i].value);
+            mark_line(cr, f.x0, y, f.x1, y);
+        }
+        cairo_set_line_width(cr, 1.8);
+        cairo_set_line_cap(cr, CAIRO_LINE_CAP_ROUND); /* a lone point between gaps shows as a dot */
+        cairo_set_line_join(cr, CAIRO_LINE_JOIN_ROUND);
+        for (size_t s = 0; s < p->nseries; s++)
+            if (pn->of[s] == k)
+                draw_curve(cr, &p->series[s], &f, xa, ya, (int)s % LS_PLOT_MAX_SERIES);
+        cairo_restore(cr);
+        draw_legend(cr, p, pn, k, &f, bx);
+        for (size_t i = 0; k == pn->bounds_panel && i < p->nbounds; i++) {
+            if (!p->bounds[i].label)
+                continue;
+            cairo_set_source_rgb(cr, 0.75, 0.1, 0.1);
+            text_free(cr, bx, f.x0 + 4, py(&f, ya, p->bounds[i].value) - 2, p->bounds[i].label, 0, 1, true, f.y0,
+                      f.y1); /* left: the legend is right */
+        }
+        for (size_t s = 0; s < p->nseries; s++)
+            if (pn->of[s] == k && p->series[s].limit && p->series[s].name && *p->series[s].name)
+                label_limit(cr, &p->series[s], &f, xa, ya, bx);
+    }
+}
+
+/* Groups the curves into panels by unit and makes each panel's y axis from
+ * its curves (and the bounds, in the panel of the plot's yunit).  Returns an
+ * ls_plot_status. */
+static int make_panels(const ls_plot_line *p, panels *pn, int h, char *msg, size_t msgn)
+{
+    memset(pn, 0, sizeof *pn);
+    double lo[MAX_PANELS], hi[MAX_PANELS];
+    for (size_t s = 0; s < p->nseries; s++) {
+        int k = panel_of(pn, series_unit(p, &p->series[s]));
+        if (k < 0)
+            return fail(msg, msgn, LS_PLOT_EARG, "at most %d different units in one plot", MAX_PANELS);
+        pn->of[s] = k;
+    }
+    pn->bounds_panel = p->nbounds ? panel_of(pn, p->yunit ? p->yunit : "") : 0;
+    if (pn->bounds_panel < 0)
+        return fail(msg, msgn, LS_PLOT_EARG, "at most %d different units in one plot", MAX_PANELS);
+    for (int k = 0; k < pn->n; k++)
+        lo[k] = INFINITY, hi[k] = -INFINITY;
+    for (size_t s = 0; s < p->nseries; s++) {
+        const ls_plot_series *se = &p->series[s];
+        for (size_t i = 0; i < se->n; i++)
+            if (isfinite(se->x[i]) && isfinite(se->y[i])) {
+                lo[pn->of[s]] = fmin(lo[pn->of[s]], se->y[i]);
+                hi[pn->of[s]] = fmax(hi[pn->of[s]], se->y[i]);
+            }
+    }
+    if (p->nbounds) {
+        int rc = check_marks(p->bounds, p->nbounds, &lo[pn->bounds_panel], &hi[pn->bounds_panel], msg, msgn);
+        if (rc)
+            return rc;
+    }
+    /* about one tick per 45 pixels of panel height, at least 2 */
+    int target = (int)(h / pn->n / 45);
+    for (int k = 0; k < pn->n; k++) {
+        if (!(lo[k] <= hi[k]))
+            lo[k] = hi[k] = 0; /* a panel of limits or curves with no finite point */
+        if (!axis_make(&pn->ya[k], lo[k], hi[k], false, pn->unit[k], target > 2 ? target : 2))
+            return fail(msg, msgn, LS_PLOT_EARG, "data range too wide to draw");
+        /* the y label: the names of the panel's curves (or the plot's ylabel
+         * when there is one panel) */
+        char *yl = pn->ylabel[k];
+        if (pn->n == 1 && p->ylabel) {
+            snprintf(yl, sizeof pn->ylabel[k], "%s", p->ylabel);
+            continue;
+        }
+        for (size_t s = 0; s < p->nseries; s++) {
+            const ls_plot_series *se = &p->series[s];
+            size_t len = strlen(yl);
+            if (pn->of[s] == k && !se->limit && se->name && *se->name)
+                snprintf(yl + len, sizeof pn->ylabel[k] - len, "%s%s", len ? ", " : "", se->name);
+        }
+    }
+    return LS_PLOT_OK;
 }
 
 /* See the header.  Validates everything before any file is created. */
 int ls_plot_line_write(const ls_plot_line *p, const char *path, char *msg, size_t msgn)
 {
-    if (!p || !p->series || p->nseries < 1 || p->nseries > LS_PLOT_MAX_SERIES)
+    if (!p || !p->series || p->nseries < 1 || p->nseries > LS_PLOT_MAX_SERIES + LS_PLOT_MAX_MARKS)
         return fail(msg, msgn, LS_PLOT_EARG, "a line plot needs 1..%d series", LS_PLOT_MAX_SERIES);
+    size_t ncurves = 0, nlimits = 0;
+    for (size_t s = 0; s < p->nseries; s++) {
+        ncurves += !p->series[s].limit;
+        nlimits += p->series[s].limit;
+    }
+    if (ncurves > LS_PLOT_MAX_SERIES || nlimits > LS_PLOT_MAX_MARKS)
+        return fail(msg, msgn, LS_PLOT_EARG, "a line plot takes at most %d curves and %d limits",
+                    LS_PLOT_MAX_SERIES, LS_PLOT_MAX_MARKS);
     int w = p->width, h = p->height;
     int rc = check_size(&w, &h, msg, msgn);
     if (rc)
         return rc;
-    double x0 = INFINITY, x1 = -INFINITY, y0 = INFINITY, y1 = -INFINITY;
+    double x0 = INFINITY, x1 = -INFINITY;
     for (size_t s = 0; s < p->nseries; s++) {
         const ls_plot_series *se = &p->series[s];
         if (se->n && (!se->x || !se->y))
@@ -496,20 +831,23 @@ int ls_plot_line_write(const ls_plot_line *p, const char *path, char *msg, size_
                             s + 1, se->x[i]);
             x0 = fmin(x0, se->x[i]);
             x1 = fmax(x1, se->x[i]);
-            y0 = fmin(y0, se->y[i]);
-            y1 = fmax(y1, se->y[i]);
         }
     }
     if (!(x0 <= x1))
         return fail(msg, msgn, LS_PLOT_EARG, "no point with finite x and y to plot");
-    rc = check_marks(p->bounds, p->nbounds, &y0, &y1, msg, msgn);
-    if (rc)
-        return rc;
-    axis xa, ya;
-    if (!axis_make(&xa, x0, x1, p->logx, p->xunit, w / 110 > 2 ? w / 110 : 2) ||
-        !axis_make(&ya, y0, y1, false, p->yunit, h / 70 > 2 ? h / 70 : 2))
-        return fail(msg, msgn, LS_PLOT_EARG, "data range too wide to draw");
-    return render(path, w, h, draw_line, p, &xa, &ya, msg, msgn);
+    panels *pn = malloc(sizeof *pn);
+    if (!pn)
+        return fail(msg, msgn, LS_PLOT_EIO, "out of memory");
+    rc = make_panels(p, pn, h, msg, msgn);
+    axis xa;
+    if (rc == LS_PLOT_OK && !axis_make_exact(&xa, x0, x1, p->logx, p->xunit, w / 110 > 2 ? w / 110 : 2))
+        rc = fail(msg, msgn, LS_PLOT_EARG, "data range too wide to draw");
+    if (rc == LS_PLOT_OK) {
+        line_draw ld = {p, pn};
+        rc = render(path, w, h, draw_line, &ld, &xa, &pn->ya[0], msg, msgn);
+    }
+    free(pn);
+    return rc;
 }
 
 /* ---- histogram ------------------------------------------------------------- */
@@ -565,7 +903,9 @@ static void draw_hist(cairo_t *cr, const void *desc, const axis *xa, const axis 
 {
     const hist_data *d = desc;
     const ls_plot_hist *p = d->p;
-    frame f = draw_frame(cr, w, h, xa, ya, p->title, p->xlabel, p->ylabel ? p->ylabel : "count");
+    boxes boxes_, *bx = &boxes_; /* 16 KB */
+    bx->n = 0;
+    frame f = draw_frame(cr, w, h, xa, ya, p->title, p->xlabel, p->ylabel ? p->ylabel : "count", bx);
     cairo_save(cr);
     cairo_rectangle(cr, f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
     cairo_clip(cr);
@@ -582,17 +922,33 @@ static void draw_hist(cairo_t *cr, const void *desc, const axis *xa, const axis 
     cairo_set_line_width(cr, 0.8);
     cairo_stroke(cr);
     for (size_t i = 0; i < p->nmarks; i++) {
-        double x = px(&f, xa, p->marks[i].value);
-        mark_line(cr, x, f.y0, x, f.y1);
-        if (!p->marks[i].label)
-            continue;
-        /* Labels on three staggered rows, on the side facing the centre. */
-        double y = f.y0 + 4 + (double)(i % 3) * f.fs * 1.3;
-        bool left = x > (f.x0 + f.x1) / 2;
-        cairo_set_source_rgb(cr, 0.75, 0.1, 0.1);
-        text_at(cr, left ? x - 3 : x + 3, y, p->marks[i].label, left ? 1 : 0, 0);
+        double v = p->marks[i].value;
+        if (v >= xa->lo && v <= xa->hi) {
+            double x = px(&f, xa, v);
+            mark_line(cr, x, f.y0, x, f.y1);
+        }
     }
     cairo_restore(cr);
+    /* Labels on the side facing the centre, each on the first free row; a
+     * mark beyond the shown range is an arrow at the nearer edge. */
+    for (size_t i = 0; i < p->nmarks; i++) {
+        const char *label = p->marks[i].label ? p->marks[i].label : "";
+        double v = p->marks[i].value;
+        char b[300];
+        cairo_set_source_rgb(cr, 0.75, 0.1, 0.1);
+        if (v < xa->lo || v > xa->hi) {
+            bool right = v > xa->hi;
+            snprintf(b, sizeof b, right ? "%s \xE2\x86\x92" : "\xE2\x86\x90 %s", label); /* arrows */
+            text_free(cr, bx, right ? f.x1 - 3 : f.x0 + 3, f.y0 + 4, b, right ? 1 : 0, 0, true, f.y0, f.y1);
+            continue;
+        }
+        if (!*label)
+            continue;
+        double x = px(&f, xa, v);
+        bool left = x > (f.x0 + f.x1) / 2;
+        if (!text_free(cr, bx, left ? x - 3 : x + 3, f.y0 + 4, label, left ? 1 : 0, 0, true, f.y0, f.y1))
+            text_free(cr, bx, left ? x + 3 : x - 3, f.y0 + 4, label, left ? 0 : 1, 0, true, f.y0, f.y1);
+    }
 }
 
 /* See the header.  The bin counts are malloc'd here and freed before return. */
@@ -635,8 +991,17 @@ int ls_plot_hist_write(const ls_plot_hist *p, const char *path, char *msg, size_
         if (++d.count[b] > top)
             top = d.count[b];
     }
-    double xlo = lo, xhi = hi;
-    rc = check_marks(p->marks, p->nmarks, &xlo, &xhi, msg, msgn);
+    /* The shown range follows the data (marks beyond it are arrows at the
+     * edge); a mark within 10 % of the data's span beside it is taken in. */
+    double xlo = lo, xhi = hi, mlo = INFINITY, mhi = -INFINITY;
+    rc = check_marks(p->marks, p->nmarks, &mlo, &mhi, msg, msgn);
+    for (size_t i = 0; rc == LS_PLOT_OK && i < p->nmarks; i++) {
+        double v = p->marks[i].value, span = hi - lo;
+        if (v < xlo && v >= lo - 0.1 * span)
+            xlo = v;
+        if (v > xhi && v <= hi + 0.1 * span)
+            xhi = v;
+    }
     if (rc == LS_PLOT_OK) {
         /* 2 % air each side, so extreme markers do not sit on the frame. */
         double air = 0.02 * (xhi - xlo);
@@ -645,7 +1010,7 @@ int ls_plot_hist_write(const ls_plot_hist *p, const char *path, char *msg, size_
         axis xa, ya;
         int yt = h / 70 > 2 ? h / 70 : 2;
         /* At least `yt` counts tall, so the tick step is a whole count. */
-        if (!axis_make(&xa, xlo, xhi, false, p->xunit, w / 110 > 2 ? w / 110 : 2) ||
+        if (!axis_make_exact(&xa, xlo, xhi, false, p->xunit, w / 110 > 2 ? w / 110 : 2) ||
             !axis_make(&ya, 0, top > (unsigned)yt ? top : (unsigned)yt, false, "", yt))
             rc = fail(msg, msgn, LS_PLOT_EARG, "data range too wide to draw");
         else

@@ -1,12 +1,14 @@
-/* plot.h — line plots and histograms drawn with cairo, written as SVG or PNG.
+/* plot.h — line plots and histograms drawn with cairo, written as SVG, PNG or PDF.
  *
  * The caller fills a plain description struct (all pointers are borrowed and
  * only read during the call) and names the output file; the extension picks
- * the format: ".svg" or ".png" (any case), anything else is an error.  The
+ * the format: ".svg", ".png" or ".pdf" (any case), anything else is an error.  The
  * picture is drawn into a temporary file in the same directory and renamed
  * over the target only when complete, so a failed call leaves no partial file.
  * Tick labels are "nice" 1-2-5 values in engineering notation with the axis
- * unit (ls_fmt_eng: "1.5 mV", "10 kΩ"), so axis labels carry no unit. */
+ * unit (ls_fmt_eng: "1.5 mV", "10 kΩ"), so axis labels carry no unit.
+ * Every text is placed where it overlaps no other text (tick labels are thinned,
+ * limit labels and histogram marks moved to a free row). */
 #ifndef LS_PLOT_H
 #define LS_PLOT_H
 
@@ -21,16 +23,21 @@
 enum ls_plot_status {
     LS_PLOT_OK = 0,
     LS_PLOT_EARG,     /* bad description: no data, too many series, x ≤ 0 on a log axis, ... */
-    LS_PLOT_EFORMAT,  /* file name is neither .svg nor .png */
+    LS_PLOT_EFORMAT,  /* file name is not .svg, .png or .pdf */
     LS_PLOT_EIO,      /* temporary file cannot be created, written or renamed */
     LS_PLOT_ECAIRO,   /* cairo reported an error while drawing or encoding */
 };
 
-/* One curve; points with a non-finite x or y are gaps in the line. */
+/* One curve; points with a non-finite x or y are gaps in the line.  Curves of
+ * different units go to separate panels, stacked over one shared x axis, one
+ * panel per unit in order of first appearance. */
 typedef struct ls_plot_series {
     const char *name;     /* legend text; NULL or "" leaves it out of the legend */
     const double *x, *y;  /* n points each */
     size_t n;
+    const char *unit;     /* y unit (as for ls_fmt_eng); NULL: the plot's yunit */
+    bool limit;           /* a limit that may vary along x: drawn dashed in dark red and
+                           * labelled with its name at its right end, not in the legend */
 } ls_plot_series;
 
 /* A labelled reference line: horizontal (y = value) on a line plot, vertical
@@ -45,13 +52,18 @@ typedef struct ls_plot_line {
     const char *xlabel, *xunit;        /* unit as given to ls_fmt_eng: "V", "Ω", "" */
     const char *ylabel, *yunit;
     bool logx;                         /* log x axis; every finite x must then be > 0 */
-    const ls_plot_series *series;      /* 1..LS_PLOT_MAX_SERIES */
+    /* 1..LS_PLOT_MAX_SERIES curves plus 0..LS_PLOT_MAX_MARKS limits.  The x
+     * axis spans exactly the curves' x range (a sweep's FROM to TO). */
+    const ls_plot_series *series;
     size_t nseries;
-    const ls_plot_mark *bounds;        /* 0..LS_PLOT_MAX_MARKS horizontal lines */
+    const ls_plot_mark *bounds;        /* 0..LS_PLOT_MAX_MARKS horizontal lines (yunit's panel) */
     size_t nbounds;
     int width, height;                 /* pixels, 100..20000; 0 = default 800 × 500 */
 } ls_plot_line;
 
+/* The x range shows the data (2 % air each side); a mark beyond it is drawn
+ * at the nearer edge as an arrow with its label and value, so a distant
+ * limit neither hides nor squashes the distribution. */
 typedef struct ls_plot_hist {
     const char *title;
     const char *xlabel, *xunit;

@@ -28,13 +28,16 @@ typedef struct sweep {
     double *y;                 /* steps × nq, row-major; NaN: not solved / undefined */
     bool *solved;
     ls_dims xdims, qdims[MAX_QUANTITIES];
-    /* bounds of the expects on each quantity (constant over the sweep) */
-    ls_plot_mark marks[LS_PLOT_MAX_MARKS];
-    char mark_text[LS_PLOT_MAX_MARKS][128];
-    size_t nmarks;
+    /* the limits of the expects on each quantity, at every point (a limit
+     * may depend on the swept let) */
+    struct limit {
+        int k, check, side;    /* quantity, index of the expect, 0 lower / 1 upper */
+        double *y;             /* steps values; NaN where not solved */
+        char text[160];
+    } lim[LS_PLOT_MAX_MARKS];
+    int nlim;
     /* the last point solved, kept so the next continues from its solution */
     ls_session *base;
-    const ls_q *bq[MAX_QUANTITIES];
 } sweep;
 
 /* The param values: evenly spaced, or evenly in log with --log. */
@@ -65,27 +68,46 @@ static bool point_cli(const ls_cli *cli, const char *param, double value, char *
     return true;
 }
 
-/* Add a horizontal line for each finite limit of every expect on quantity k. */
-static void collect_bounds(sweep *w, ls_session *s, const ls_q *q, int k)
+/* Make a limit curve for each finite limit of every expect on quantity k
+ * (from the first point solved). */
+static void collect_limits(sweep *w, ls_session *s, const ls_q *q, int k)
 {
-    for (int c = 0; c < s->nl.nchecks && w->nmarks + 2 <= LS_PLOT_MAX_MARKS; c++) {
+    for (int c = 0; c < s->nl.nchecks && w->nlim + 2 <= LS_PLOT_MAX_MARKS; c++) {
         const ls_check *ck = &s->nl.checks[c];
         if (ck->is_rule || !ck->lhs || !ls_q_same(ck->lhs, q))
             continue;
         ls_check_result r;
         ls_check_eval(&s->op, ck, &r);
-        const char *u = ls_unit_of(w->qdims[k], w->cli->ascii);
         for (int side = 0; side < 2; side++) {
-            double v = side ? r.hi : r.lo;
-            if (!isfinite(v))
+            if (!isfinite(side ? r.hi : r.lo))
                 continue;
-            char b[64];
-            const char *rel = side ? (w->cli->ascii ? "<=" : "\xE2\x89\xA4") : (w->cli->ascii ? ">=" : "\xE2\x89\xA5");
-            snprintf(w->mark_text[w->nmarks], sizeof w->mark_text[0], "expect %s %s %s", w->qtext[k], rel,
-                     ls_fmt_eng(b, sizeof b, v, u, 4, w->cli->ascii));
-            w->marks[w->nmarks] = (ls_plot_mark){v, w->mark_text[w->nmarks]};
-            w->nmarks++;
+            struct limit *l = &w->lim[w->nlim];
+            l->y = malloc((size_t)w->steps * sizeof *l->y);
+            if (!l->y)
+                return;
+            for (int i = 0; i < w->steps; i++)
+                l->y[i] = NAN;
+            l->k = k;
+            l->check = c;
+            l->side = side;
+            bool two = isfinite(r.lo) && isfinite(r.hi);
+            snprintf(l->text, sizeof l->text, "%s%s", ck->text, !two ? "" : side ? " (upper)" : " (lower)");
+            w->nlim++;
         }
+    }
+}
+
+/* The limits at point i, from the expects of the circuit as elaborated for
+ * that point (nl) and its solution (op). */
+static void record_limits(sweep *w, int i, ls_op *op, const ls_netlist *nl)
+{
+    for (int j = 0; j < w->nlim; j++) {
+        struct limit *l = &w->lim[j];
+        if (l->check >= nl->nchecks)
+            continue;
+        ls_check_result r;
+        ls_check_eval(op, &nl->checks[l->check], &r);
+        l->y[i] = l->side ? r.hi : r.lo;
     }
 }
 
@@ -191,8 +213,10 @@ static void copy_values(ls_netlist *dst, const ls_netlist *src)
     }
 }
 
-/* Record point i's values from the solved op with the bound quantities q. */
-static void record(sweep *w, int i, ls_session *s, const ls_q *const *q)
+/* Record point i's values from the solved op with the quantities q and the
+ * expects of nl, both bound in the circuit as elaborated for this point (so
+ * a let they use has this point's value). */
+static void record(sweep *w, int i, ls_session *s, const ls_q *const *q, const ls_netlist *nl)
 {
     bool first = true;
     for (int j = 0; j < i; j++)
@@ -201,8 +225,9 @@ static void record(sweep *w, int i, ls_session *s, const ls_q *const *q)
     for (int k = 0; k < w->nq; k++) {
         w->y[(size_t)i * (size_t)w->nq + (size_t)k] = ls_q_eval(&s->op, q[k]);
         if (first)
-            collect_bounds(w, s, q[k], k);
+            collect_limits(w, s, q[k], k);
     }
+    record_limits(w, i, &s->op, nl);
 }
 
 /* Solve point i: the circuit is re-elaborated with PARAM at x[i]; when its
@@ -233,7 +258,7 @@ static void solve_point(sweep *w, int i)
     if (code == LS_EXIT_OK && w->base && same_structure(&w->base->nl, &s->nl)) {
         copy_values(&w->base->nl, &s->nl);
         if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
-            record(w, i, w->base, w->bq);
+            record(w, i, w->base, q, &s->nl);
             ls_session_free(s);
             free(s);
             return;
@@ -242,13 +267,12 @@ static void solve_point(sweep *w, int i)
     if (code == LS_EXIT_OK)
         code = ls_session_solve(s);
     if (code == LS_EXIT_OK) {
-        record(w, i, s, q);
+        record(w, i, s, q, &s->nl);
         if (w->base) {   /* this point becomes the one the next continues from */
             ls_session_free(w->base);
             free(w->base);
         }
         w->base = s;
-        memcpy(w->bq, q, sizeof w->bq);
         return;
     }
     const char *why = "";
@@ -344,32 +368,27 @@ static void sweep_text(FILE *o, const ls_report *rp, const sweep *w)
 /* Draw the curves.  Returns 0, or LS_EXIT_USAGE after saying why. */
 static int sweep_plot(const sweep *w)
 {
-    ls_plot_series ser[LS_PLOT_MAX_SERIES];
+    ls_plot_series ser[LS_PLOT_MAX_SERIES + LS_PLOT_MAX_MARKS];
     int ns = w->nq < LS_PLOT_MAX_SERIES ? w->nq : LS_PLOT_MAX_SERIES;
     double *cols = malloc((size_t)w->steps * (size_t)(ns ? ns : 1) * sizeof *cols);
     if (!cols)
         return LS_EXIT_UNSOLVABLE;
-    bool same_unit = true;
+    /* each quantity in the panel of its unit; its limits beside it */
     for (int k = 0; k < ns; k++) {
         for (int i = 0; i < w->steps; i++)
             cols[(size_t)k * (size_t)w->steps + (size_t)i] = yat(w, i, k);
-        ser[k] = (ls_plot_series){w->qtext[k], w->x, cols + (size_t)k * (size_t)w->steps, (size_t)w->steps};
-        same_unit &= ls_dims_eq(w->qdims[k], w->qdims[0]);
+        ser[k] = (ls_plot_series){w->qtext[k], w->x, cols + (size_t)k * (size_t)w->steps, (size_t)w->steps,
+                                  ls_unit_of(w->qdims[k], w->cli->ascii), false};
     }
-    char names[LS_PLOT_MAX_SERIES][128];
-    for (int k = 0; k < ns && !same_unit; k++) {   /* mixed units: each name carries its unit */
-        const char *u = ls_unit_of(w->qdims[k], w->cli->ascii);
-        snprintf(names[k], sizeof names[k], *u ? "%s (%s)" : "%s", w->qtext[k], u);
-        ser[k].name = names[k];
-    }
-    char title[256], ylabel[256] = "";
+    int nser = ns;
+    for (int j = 0; j < w->nlim; j++)
+        if (w->lim[j].k < ns)
+            ser[nser++] = (ls_plot_series){w->lim[j].text, w->x, w->lim[j].y, (size_t)w->steps,
+                                           ls_unit_of(w->qdims[w->lim[j].k], w->cli->ascii), true};
+    char title[256];
     snprintf(title, sizeof title, "sweep of %s", w->param);
-    for (int k = 0; k < ns; k++)
-        snprintf(ylabel + strlen(ylabel), sizeof ylabel - strlen(ylabel), "%s%s", k ? ", " : "", w->qtext[k]);
     ls_plot_line p = {.title = title, .xlabel = w->param, .xunit = ls_unit_of(w->xdims, w->cli->ascii),
-                      .ylabel = ylabel, .yunit = same_unit ? ls_unit_of(w->qdims[0], w->cli->ascii) : "",
-                      .logx = w->cli->log, .series = ser, .nseries = (size_t)ns,
-                      .bounds = same_unit ? w->marks : NULL, .nbounds = same_unit ? w->nmarks : 0};
+                      .logx = w->cli->log, .series = ser, .nseries = (size_t)nser};
     char msg[256] = "";
     int st = ls_plot_line_write(&p, w->cli->plot, msg, sizeof msg);
     free(cols);
@@ -472,5 +491,7 @@ int ls_cmd_sweep(ls_cli *cli)
     free(w.x);
     free(w.y);
     free(w.solved);
+    for (int j = 0; j < w.nlim; j++)
+        free(w.lim[j].y);
     return code;
 }

@@ -44,10 +44,11 @@ def main():
             print(f"ok   {series} {ratio} {extra}: 10 pairs agree with the brute force")
         for g, w in zip(got, want):
             close(g["ratio"], w[2], rel=1e-14, what="  achieved ratio rbot/(rtop+rbot)")
-            close(g["error"], w[3], rel=1e-9, abs_=1e-15, what="  relative error")
+            close(g["error_rel"], w[3], rel=1e-9, abs_=1e-15, what="  relative error")
+            close(g["error"], w[2] - ratio, rel=1e-9, abs_=1e-15, what="  error = achieved - asked ratio")
             close(g["zout"], w[4], rel=1e-14, what="  zout = rtop || rbot")
     rc, out, err = run(["pick", "ratio", "0.66", "--format", "csv"], check_rc=0)
-    check(out.splitlines()[0] == "rank,rtop,rbot,ratio,error,zout" and len(out.splitlines()) == 11, "CSV: header + 10")
+    check(out.splitlines()[0] == "rank,rtop,rbot,ratio,error,error_rel,zout" and len(out.splitlines()) == 11, "CSV: header + 10")
     rc, out, err = run(["pick", "ratio", "0.66"], check_rc=0)
     check("E24" in out and "rtop" in out, "text report names the series (E24 by default)")
     for args in (["pick", "ratio", "0"], ["pick", "ratio", "1"], ["pick", "ratio", "abc"],

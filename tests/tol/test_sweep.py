@@ -34,7 +34,7 @@ def test_linear():
     j = run_json(["sweep", DIVIDER, "r_sender", "1k", "100k", "mid", "r_top.current"])
     if not j:
         return
-    check(j["param"] == "r_sender" and len(j["points"]) == n, "51 points by default, param named")
+    check(j["let"] == "r_sender" and len(j["points"]) == n, "51 points by default, param named")
     xs = np.linspace(1e3, 100e3, n)
     bad = 0
     for p, x in zip(j["points"], xs):

@@ -195,7 +195,7 @@ static int count_files(void)
 /* A bench-supply monitor: sense voltage against load current, with a gap. */
 enum { NP = 41 };
 static double xs[NP], ynom[NP], yhot[NP];
-static const ls_plot_series series[2] = {{"sense (nominal)", xs, ynom, NP}, {"sense (hot)", xs, yhot, NP}};
+static const ls_plot_series series[2] = {{"sense (nominal)", xs, ynom, NP, NULL, false}, {"sense (hot)", xs, yhot, NP, NULL, false}};
 static const ls_plot_mark bounds[2] = {{0.2, "expect \xE2\x89\xA5 0.2 V"}, {1.1, "expect \xE2\x89\xA4 1.1 V"}};
 
 static ls_plot_line line_desc(bool logx)
@@ -296,7 +296,7 @@ static void test_errors(void)
     p.width = 50;
     CU_ASSERT_EQUAL(ls_plot_line_write(&p, in_dir(path, sizeof path, "bad.svg"), msg, sizeof msg), LS_PLOT_EARG);
     double nan2[2] = {NAN, NAN};
-    ls_plot_series gap = {"all gaps", nan2, nan2, 2};
+    ls_plot_series gap = {"all gaps", nan2, nan2, 2, NULL, false};
     p = line_desc(false);
     p.series = &gap, p.nseries = 1;
     CU_ASSERT_EQUAL(ls_plot_line_write(&p, in_dir(path, sizeof path, "bad.svg"), msg, sizeof msg), LS_PLOT_EARG);
@@ -305,7 +305,7 @@ static void test_errors(void)
     p.bounds = &nanmark, p.nbounds = 1;
     CU_ASSERT_EQUAL(ls_plot_line_write(&p, in_dir(path, sizeof path, "bad.svg"), msg, sizeof msg), LS_PLOT_EARG);
     double wide[2] = {-1e308, 1e308}; /* span overflows a double */
-    ls_plot_series huge = {"huge", wide, wide, 2};
+    ls_plot_series huge = {"huge", wide, wide, 2, NULL, false};
     p = line_desc(false);
     p.series = &huge, p.nseries = 1;
     CU_ASSERT_EQUAL(ls_plot_line_write(&p, in_dir(path, sizeof path, "bad.svg"), msg, sizeof msg), LS_PLOT_EARG);
