@@ -673,6 +673,23 @@ static void draw_curve(cairo_t *cr, const ls_plot_series *se, const frame *f, co
     cairo_restore(cr);
 }
 
+/* A limit's label at height y (just above its line), right- (ax 1) or
+ * left-aligned (ax 0) at x; a limit beyond the panel is labelled at the
+ * nearer edge with an arrow pointing to where it lies. */
+static void edge_label(cairo_t *cr, boxes *bx, const frame *f, double x, double y, const char *name, double ax)
+{
+    char b[300];
+    if (y < f->y0) {
+        snprintf(b, sizeof b, "\xE2\x86\x91 %s", name); /* up arrow */
+        text_free(cr, bx, x, f->y0 + 3, b, ax, 0, true, f->y0, f->y1);
+    } else if (y > f->y1) {
+        snprintf(b, sizeof b, "\xE2\x86\x93 %s", name); /* down arrow */
+        text_free(cr, bx, x, f->y1 - 3, b, ax, 1, true, f->y0, f->y1);
+    } else {
+        text_free(cr, bx, x, y - 2, name, ax, 1, true, f->y0, f->y1);
+    }
+}
+
 /* The label of a limit curve at its last finite point, right-aligned, on the
  * nearest free row of its panel. */
 static void label_limit(cairo_t *cr, const ls_plot_series *se, const frame *f, const axis *xa, const axis *ya,
@@ -681,9 +698,9 @@ static void label_limit(cairo_t *cr, const ls_plot_series *se, const frame *f, c
     for (size_t i = se->n; i-- > 0;) {
         if (!isfinite(se->x[i]) || !isfinite(se->y[i]))
             continue;
-        double x = fmin(px(f, xa, se->x[i]), f->x1) - 4, y = py(f, ya, se->y[i]) - 2;
+        double x = fmin(px(f, xa, se->x[i]), f->x1) - 4, y = py(f, ya, se->y[i]);
         cairo_set_source_rgb(cr, 0.75, 0.1, 0.1);
-        text_free(cr, bx, x, y, se->name, 1, 1, true, f->y0, f->y1);
+        edge_label(cr, bx, f, x, y, se->name, 1);
         return;
     }
 }
@@ -737,13 +754,26 @@ static void draw_line(cairo_t *cr, const void *desc, const axis *xa, const axis 
             if (!p->bounds[i].label)
                 continue;
             cairo_set_source_rgb(cr, 0.75, 0.1, 0.1);
-            text_free(cr, bx, f.x0 + 4, py(&f, ya, p->bounds[i].value) - 2, p->bounds[i].label, 0, 1, true, f.y0,
-                      f.y1); /* left: the legend is right */
+            edge_label(cr, bx, &f, f.x0 + 4, py(&f, ya, p->bounds[i].value), p->bounds[i].label, 0); /* left: the legend is right */
         }
         for (size_t s = 0; s < p->nseries; s++)
             if (pn->of[s] == k && p->series[s].limit && p->series[s].name && *p->series[s].name)
                 label_limit(cr, &p->series[s], &f, xa, ya, bx);
     }
+}
+
+/* Widen [*lo, *hi] to take in v when v lies within NEAR of the data's span
+ * (dlo..dhi) beside it. */
+#define NEAR 0.25
+static void take_in(double *lo, double *hi, double dlo, double dhi, double v)
+{
+    double span = dhi - dlo;
+    if (!(span > 0))
+        span = dhi != 0 ? fabs(dhi) * 0.1 : 1;
+    if (v < *lo && v >= dlo - NEAR * span)
+        *lo = v;
+    if (v > *hi && v <= dhi + NEAR * span)
+        *hi = v;
 }
 
 /* Groups the curves into panels by unit and makes each panel's y axis from
@@ -762,20 +792,45 @@ static int make_panels(const ls_plot_line *p, panels *pn, int h, char *msg, size
     pn->bounds_panel = p->nbounds ? panel_of(pn, p->yunit ? p->yunit : "") : 0;
     if (pn->bounds_panel < 0)
         return fail(msg, msgn, LS_PLOT_EARG, "at most %d different units in one plot", MAX_PANELS);
+    /* Each panel's range follows its curves; a limit is taken in only where
+     * it lies within NEAR of the curves' span beside them, so a distant limit
+     * does not squash the curves (it is marked at the edge instead). */
     for (int k = 0; k < pn->n; k++)
         lo[k] = INFINITY, hi[k] = -INFINITY;
-    for (size_t s = 0; s < p->nseries; s++) {
-        const ls_plot_series *se = &p->series[s];
-        for (size_t i = 0; i < se->n; i++)
-            if (isfinite(se->x[i]) && isfinite(se->y[i])) {
-                lo[pn->of[s]] = fmin(lo[pn->of[s]], se->y[i]);
-                hi[pn->of[s]] = fmax(hi[pn->of[s]], se->y[i]);
-            }
-    }
+    for (int pass = 0; pass < 2; pass++) /* curves; then limits, for panels with no curve */
+        for (size_t s = 0; s < p->nseries; s++) {
+            const ls_plot_series *se = &p->series[s];
+            int k = pn->of[s];
+            if (se->limit != (pass == 1) || (pass == 1 && lo[k] <= hi[k]))
+                continue;
+            for (size_t i = 0; i < se->n; i++)
+                if (isfinite(se->x[i]) && isfinite(se->y[i])) {
+                    lo[k] = fmin(lo[k], se->y[i]);
+                    hi[k] = fmax(hi[k], se->y[i]);
+                }
+        }
     if (p->nbounds) {
-        int rc = check_marks(p->bounds, p->nbounds, &lo[pn->bounds_panel], &hi[pn->bounds_panel], msg, msgn);
+        double blo = INFINITY, bhi = -INFINITY;
+        int rc = check_marks(p->bounds, p->nbounds, &blo, &bhi, msg, msgn);
         if (rc)
             return rc;
+        int k = pn->bounds_panel;
+        if (!(lo[k] <= hi[k]))
+            lo[k] = blo, hi[k] = bhi;
+    }
+    double dlo[MAX_PANELS], dhi[MAX_PANELS];
+    memcpy(dlo, lo, sizeof dlo);
+    memcpy(dhi, hi, sizeof dhi);
+    for (size_t i = 0; i < p->nbounds; i++) {
+        int k = pn->bounds_panel;
+        take_in(&lo[k], &hi[k], dlo[k], dhi[k], p->bounds[i].value);
+    }
+    for (size_t s = 0; s < p->nseries; s++) {
+        const ls_plot_series *se = &p->series[s];
+        int k = pn->of[s];
+        for (size_t i = 0; se->limit && i < se->n; i++)
+            if (isfinite(se->x[i]) && isfinite(se->y[i]))
+                take_in(&lo[k], &hi[k], dlo[k], dhi[k], se->y[i]);
     }
     /* about one tick per 45 pixels of panel height, at least 2 */
     int target = (int)(h / pn->n / 45);
@@ -992,16 +1047,11 @@ int ls_plot_hist_write(const ls_plot_hist *p, const char *path, char *msg, size_
             top = d.count[b];
     }
     /* The shown range follows the data (marks beyond it are arrows at the
-     * edge); a mark within 10 % of the data's span beside it is taken in. */
+     * edge); a mark within NEAR of the data's span beside it is taken in. */
     double xlo = lo, xhi = hi, mlo = INFINITY, mhi = -INFINITY;
     rc = check_marks(p->marks, p->nmarks, &mlo, &mhi, msg, msgn);
-    for (size_t i = 0; rc == LS_PLOT_OK && i < p->nmarks; i++) {
-        double v = p->marks[i].value, span = hi - lo;
-        if (v < xlo && v >= lo - 0.1 * span)
-            xlo = v;
-        if (v > xhi && v <= hi + 0.1 * span)
-            xhi = v;
-    }
+    for (size_t i = 0; rc == LS_PLOT_OK && i < p->nmarks; i++)
+        take_in(&xlo, &xhi, lo, hi, p->marks[i].value);
     if (rc == LS_PLOT_OK) {
         /* 2 % air each side, so extreme markers do not sit on the frame. */
         double air = 0.02 * (xhi - xlo);
