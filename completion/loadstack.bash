@@ -101,6 +101,7 @@ _loadstack()
         --plot)
             compopt -o filenames 2>/dev/null
             COMPREPLY=($(compgen -f -X '!*.svg' -- "$cur") $(compgen -f -X '!*.png' -- "$cur") \
+                $(compgen -f -X '!*.pdf' -- "$cur") \
                 $(compgen -d -- "$cur")); return ;;
         --set)
             compopt -o nospace 2>/dev/null
