@@ -51,8 +51,33 @@ static void putc_(ls_jw *w, char c)
     *w->p++ = c;
 }
 
+/* Length of the valid UTF-8 sequence at p (1..4), or 0 when the bytes there
+ * are not one (a stray continuation byte, an overlong form, a surrogate, a
+ * code point above U+10FFFF, a sequence cut short). */
+static int utf8_len(const unsigned char *p)
+{
+    unsigned char c = p[0];
+    int n;
+    unsigned char lo = 0x80, hi = 0xBF; /* the second byte's range */
+    if (c >= 0xC2 && c <= 0xDF)
+        n = 2;
+    else if (c >= 0xE0 && c <= 0xEF)
+        n = 3, lo = c == 0xE0 ? 0xA0 : 0x80, hi = c == 0xED ? 0x9F : 0xBF;
+    else if (c >= 0xF0 && c <= 0xF4)
+        n = 4, lo = c == 0xF0 ? 0x90 : 0x80, hi = c == 0xF4 ? 0x8F : 0xBF;
+    else
+        return 0;
+    if (p[1] < lo || p[1] > hi)
+        return 0;
+    for (int i = 2; i < n; i++)
+        if ((p[i] & 0xC0) != 0x80)
+            return 0;
+    return n;
+}
+
 /* A JSON string literal of s: quotes, backslashes and control bytes escaped;
- * other bytes copied (the reports' text is UTF-8, checked at input). */
+ * valid UTF-8 copied; a byte that is not part of valid UTF-8 (a Latin-1 file
+ * name on the command line) becomes U+FFFD, so the output is always UTF-8. */
 static void string(ls_jw *w, const char *s)
 {
     static const char hex[] = "0123456789abcdef";
@@ -60,11 +85,20 @@ static void string(ls_jw *w, const char *s)
     const unsigned char *p = (const unsigned char *)s;
     while (*p) {
         const unsigned char *q = p;
-        while (*q >= 0x20 && *q != '"' && *q != '\\')
+        while (*q >= 0x20 && *q < 0x80 && *q != '"' && *q != '\\')
             q++;
         put(w, (const char *)p, (size_t)(q - p)); /* a run that needs no escape: one copy */
         if (!*q)
             break;
+        if (*q >= 0x80) {
+            int n = utf8_len(q);
+            if (n)
+                put(w, (const char *)q, (size_t)n);
+            else
+                put(w, "\\ufffd", 6);
+            p = q + (n ? n : 1);
+            continue;
+        }
         char e[6] = {'\\', 'u', '0', '0', hex[*q >> 4], hex[*q & 15]};
         switch (*q) {
         case '"': put(w, "\\\"", 2); break;

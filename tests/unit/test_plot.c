@@ -228,7 +228,14 @@ static void test_line_files(void)
     p.width = p.height = 0;
     CU_ASSERT_EQUAL(ls_plot_line_write(&p, in_dir(path, sizeof path, "line_def.png"), msg, sizeof msg), LS_PLOT_OK);
     CU_ASSERT(png_size(path, &w, &h) && w == 800 && h == 500);
-    CU_ASSERT_EQUAL(count_files(), 4); /* no temporary file left behind */
+    /* PDF: the file header of ISO 32000-1, 7.5.2 */
+    CU_ASSERT_EQUAL(ls_plot_line_write(&p, in_dir(path, sizeof path, "line.Pdf"), msg, sizeof msg), LS_PLOT_OK);
+    char head[8] = "";
+    FILE *f = fopen(path, "rb");
+    CU_ASSERT(f && fread(head, 1, 5, f) == 5 && memcmp(head, "%PDF-", 5) == 0);
+    if (f)
+        fclose(f);
+    CU_ASSERT_EQUAL(count_files(), 5); /* no temporary file left behind */
 }
 
 /* Histogram of a soil-probe reading with worst-case and expect markers. */
@@ -251,7 +258,7 @@ static void test_hist_files(void)
     CU_ASSERT_EQUAL(ls_plot_hist_write(&p, in_dir(path, sizeof path, "hist.png"), msg, sizeof msg), LS_PLOT_OK);
     uint32_t w = 0, h = 0;
     CU_ASSERT(png_size(path, &w, &h) && w == 1024 && h == 300);
-    CU_ASSERT_EQUAL(count_files(), 6);
+    CU_ASSERT_EQUAL(count_files(), 7);
 }
 
 /* Errors: a status code and a message, no crash, and no file left behind. */
