@@ -608,11 +608,12 @@ typedef struct line_draw {
 /* The legend of panel k's curves in its top right corner (a box of text). */
 static void draw_legend(cairo_t *cr, const ls_plot_line *p, const panels *pn, int k, const frame *f, boxes *bx)
 {
-    double tw = 0;
+    double tw = 0, maxw = (f->x1 - f->x0) / 2; /* a long name is cut to half the panel's width */
     int rows = 0;
+    char cut[512];
     for (size_t s = 0; s < p->nseries; s++)
         if (pn->of[s] == k && !p->series[s].limit && p->series[s].name && *p->series[s].name) {
-            tw = fmax(tw, text_w(cr, p->series[s].name));
+            tw = fmax(tw, text_w(cr, fit_text(cr, p->series[s].name, maxw, cut, sizeof cut)));
             rows++;
         }
     if (!rows)
@@ -639,7 +640,7 @@ static void draw_legend(cairo_t *cr, const ls_plot_line *p, const panels *pn, in
         cairo_line_to(cr, bx0 + pad + sw, y);
         cairo_stroke(cr);
         cairo_set_source_rgb(cr, 0, 0, 0);
-        text_at(cr, bx0 + 2 * pad + sw, y, se->name, 0, 0.5);
+        text_at(cr, bx0 + 2 * pad + sw, y, fit_text(cr, se->name, maxw, cut, sizeof cut), 0, 0.5);
     }
     box_add(bx, bx0, by0, bx0 + bw, by0 + bh);
 }
