@@ -18,7 +18,7 @@ fail=0
 # one compiler run for all the C files (gcc names the file of each error)
 files=$(git ls-files 'src/*.c' 'tests/*.c' 'include/*.c' 2>/dev/null || find src tests include -name '*.c')
 n=$(echo "$files" | wc -w)
-if ! gcc -m32 -std=c11 -D_GNU_SOURCE $inc -fsyntax-only -Wall -Wextra $files; then
+if ! gcc -m32 -std=c11 -D_GNU_SOURCE "-DLS_VERSION=\"m32\"" $inc -fsyntax-only -Wall -Wextra $files; then
     echo "FAIL: gcc -m32 -fsyntax-only (the errors above name the files)"
     fail=1
 fi
