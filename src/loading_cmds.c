@@ -244,8 +244,11 @@ int ls_cmd_sag(ls_cli *cli)
         ls_jw_arr(w, "items");
         for (int i = 0; i < nl->nparts; i++) {
             const ls_part *p = &nl->parts[items[i].part];
-            /* a removal that leaves the circuit without a solution */
-            const char *why = isnan(items[i].delta) ? LS_WHY_UNSOLVED : LS_WHY_UNBOUNDED;
+            /* a removal that leaves NODE floating has no voltage there; one
+             * that leaves the circuit without a solution is unsolved */
+            const char *why = !isnan(items[i].delta) ? LS_WHY_UNBOUNDED
+                              : items[i].floats      ? LS_WHY_UNDEFINED
+                                                     : LS_WHY_UNSOLVED;
             ls_jw_obj(w, NULL);
             ls_jw_str(w, "kind", p->kind->is_port ? "port" : "part");
             ls_jw_str(w, "name", p->name);

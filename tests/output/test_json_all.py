@@ -305,6 +305,12 @@ def other_commands(path, cwd, name, j):
         elif command == "influence":
             m = re.search(r" = (.+)$", text.splitlines()[0])
             agrees(o["value"], None, m.group(1) if m else "?", f"{what}: value")
+        elif command == "sweep":
+            rows = [re.split(r"\s{2,}", ln.strip()) for ln in text.splitlines()[3:] if ln.strip()]
+            check(len(rows) == len(o["points"]) == 5, f"{what}: 5 rows in text and JSON")
+            for row, pt in zip(rows, o["points"]):
+                agrees(pt[lt[0]], None, row[0], f"{what}: the let")
+                agrees(pt[node], pt.get("why", {}).get(node), row[1], f"{what}: {node}")
         elif command == "tol":
             m = re.search(r"nominal ([^)]+)\)", text)
             agrees(o["nominal"], None, m.group(1) if m else "?", f"{what}: nominal")
@@ -331,6 +337,16 @@ def main():
     if o:
         meta_ok(o, "pick", None, "pick")
         walk_why(o, "pick", "pick")
+        rc, text, err = run(["pick", "ratio", "0.33"], ROOT)
+        rows = [ln.split() for ln in text.splitlines() if re.match(r"\s+\d+\s", ln)]
+        check(len(rows) == len(o["items"]) > 0, "pick: as many pairs in text as in JSON")
+        for row, it in zip(rows, o["items"]):
+            # rank, rtop (2 cells), rbot (2), ratio (%.6f), error (%+.3f%%), zout (2)
+            agrees(it["rtop"], None, " ".join(row[1:3]), "pick: rtop")
+            agrees(it["rbot"], None, " ".join(row[3:5]), "pick: rbot")
+            check(abs(float(row[5]) - it["ratio"]) <= 5e-7, f"pick: ratio {row[5]} vs {it['ratio']}")
+            check(abs(float(row[6].rstrip("%")) - 100 * it["error_rel"]) <= 5e-4, f"pick: error {row[6]} vs {it}")
+            agrees(it["zout"], None, " ".join(row[7:9]), "pick: zout")
         for it in o["items"]:
             check(abs(it["error"] - (it["ratio"] - 0.33)) < 1e-15 and abs(it["error_rel"] * 0.33 - it["error"]) < 1e-15,
                   f"pick: error is ratio - R, error_rel is that over R: {it}")

@@ -71,7 +71,9 @@ def test_null_points_and_set():
     if not j:
         return
     pts = j["points"]
-    check(pts[0]["mid"] is None, "a zero resistance is an unsolvable point: null")
+    check(pts[0]["mid"] is None and pts[0]["why"] == {"mid": "unsolved"},
+          "a zero resistance is an unsolvable point: null, why unsolved (cli.md)")
+    check(j["meta"]["set"] == {"r_sender": "1k", "v_bus": "6V"}, f"meta.set lists the --set options: {j['meta']['set']}")
     close(pts[1]["mid"], 6 * 5e3 / 15e3, rel=1e-12, what="--set of another let applies; the swept one wins")
     close(pts[2]["mid"], 6 * 10e3 / 20e3, rel=1e-12, what="last point = TO")
 
