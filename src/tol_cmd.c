@@ -450,6 +450,47 @@ typedef struct tol_ctx {
     bool normal;
 } tol_ctx;
 
+/* "inside" when the worst case lies within the expect's limits, "outside"
+ * when not, NULL when the worst case is unknown. */
+static const char *check_wc_word(const tol_ctx *t, const ls_check *ck)
+{
+    ls_check_result cr;
+    ls_check_eval(&t->s->op, ck, &cr);
+    if (!isfinite(t->r.wc_min))
+        return NULL;
+    return t->r.wc_min >= cr.lo && t->r.wc_max <= cr.hi ? "inside" : "outside";
+}
+
+/* The worst case's "parts": each varied part's value and tol (a fraction),
+ * and where it sits at the minimum and the maximum (+tol or -tol, as a
+ * fraction) with the corners, or its share of the linear half-width with the
+ * sensitivities: what the text's part table shows. */
+static void tol_parts_json(ls_jw *w, const tol_ctx *t)
+{
+    const tol_result *r = &t->r;
+    double lin = r->corners ? 0 : (r->wc_max - r->wc_min) / 2;
+    ls_jw_arr(w, "parts");
+    for (int j = 0; j < t->nv; j++) {
+        const ls_part *p = &t->s->nl.parts[t->v[j].part];
+        ls_jw_obj(w, NULL);
+        ls_jw_str(w, "part", p->name);
+        ls_jw_str(w, "kind", p->kind->name);
+        ls_jw_num(w, "part_value", t->v[j].nominal);
+        ls_jw_num(w, "tol", t->v[j].tol);
+        if (r->corners) {
+            bool known = isfinite(r->wc_min);
+            double lo = ((r->wc_min_mask >> j) & 1 ? 1 : -1) * t->v[j].tol;
+            double hi = ((r->wc_max_mask >> j) & 1 ? 1 : -1) * t->v[j].tol;
+            ls_jw_num_why(w, "at_min", known ? lo : NAN, LS_WHY_UNSOLVED);
+            ls_jw_num_why(w, "at_max", known ? hi : NAN, LS_WHY_UNSOLVED);
+        } else {
+            ls_jw_num_why(w, "share", lin > 0 ? t->v[j].dev / lin : NAN, LS_WHY_UNDEFINED);
+        }
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+}
+
 /* The tol report as one JSON object (cli.md keys; "rss" only with the
  * sensitivity method).  A statistic of no finite trial is "unsolved". */
 static void tol_json(const ls_report *rp, const tol_ctx *t)
@@ -465,6 +506,7 @@ static void tol_json(const ls_report *rp, const tol_ctx *t)
     ls_jw_str(w, "method", r->corners ? "corners" : "sensitivity");
     if (!r->corners)
         ls_jw_num(w, "rss", r->rss);
+    tol_parts_json(w, t);
     ls_jw_end(w);
     ls_jw_obj(w, "monte_carlo");
     ls_jw_int(w, "trials", t->trials);
@@ -474,6 +516,7 @@ static void tol_json(const ls_report *rp, const tol_ctx *t)
     ls_jw_num(w, "std", r->std);
     ls_jw_num(w, "min", r->min);
     ls_jw_num(w, "max", r->max);
+    ls_jw_int(w, "finite", r->finite);
     ls_jw_obj(w, "percentiles");
     for (int k = 0; k < 5; k++)
         ls_jw_num(w, pct_keys[k], r->pct[k]);
@@ -483,6 +526,16 @@ static void tol_json(const ls_report *rp, const tol_ctx *t)
         ls_jw_num(w, "yield", r->yield);
     else
         ls_jw_null(w, "yield", t->nchecks ? LS_WHY_UNSOLVED : LS_WHY_NONE);
+    ls_jw_arr(w, "checks");
+    for (int c = 0; c < t->nchecks; c++) {
+        const ls_check *ck = &t->s->nl.checks[t->checks[c]];
+        ls_jw_obj(w, NULL);
+        ls_jw_str(w, "text", ck->text);
+        ls_jw_str(w, "instance", ck->instance);
+        ls_jw_str(w, "worst_case", check_wc_word(t, ck));
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
     ls_jw_finish(w);
 }
 
@@ -516,7 +569,32 @@ static void tol_csv(FILE *o, const tol_ctx *t)
         snprintf(f, sizeof f, "monte_carlo.percentiles.%s", pct_keys[k]);
         csv_num(o, f, r->pct[k]);
     }
+    csv_num(o, "monte_carlo.finite", (double)r->finite);
     csv_num(o, "yield", r->yield);
+    double lin = r->corners ? 0 : (r->wc_max - r->wc_min) / 2;
+    for (int j = 0; j < t->nv; j++) {
+        const char *name = t->s->nl.parts[t->v[j].part].name;
+        char f[300];
+        snprintf(f, sizeof f, "worst_case.parts.%s.tol", name);
+        csv_num(o, f, t->v[j].tol);
+        if (r->corners && isfinite(r->wc_min)) {
+            snprintf(f, sizeof f, "worst_case.parts.%s.at_min", name);
+            csv_num(o, f, ((r->wc_min_mask >> j) & 1 ? 1 : -1) * t->v[j].tol);
+            snprintf(f, sizeof f, "worst_case.parts.%s.at_max", name);
+            csv_num(o, f, ((r->wc_max_mask >> j) & 1 ? 1 : -1) * t->v[j].tol);
+        } else if (!r->corners) {
+            snprintf(f, sizeof f, "worst_case.parts.%s.share", name);
+            csv_num(o, f, lin > 0 ? t->v[j].dev / lin : NAN);
+        }
+    }
+    for (int c = 0; c < t->nchecks; c++) {
+        const ls_check *ck = &t->s->nl.checks[t->checks[c]];
+        const char *wc = check_wc_word(t, ck);
+        char f[600];
+        snprintf(f, sizeof f, "check.%s.worst_case", ck->text);
+        ls_csv_field(o, f);
+        fprintf(o, ",%s\n", wc ? wc : "");
+    }
 }
 
 /* "+1%" / "-5%" for part j at the corner mask. */
@@ -598,11 +676,9 @@ static void tol_text(FILE *o, ls_report *rp, const tol_ctx *t)
     fprintf(o, "\nYield %.2f%% (trials meeting every expect on %s):\n", 100 * r->yield, t->qtext);
     for (int c = 0; c < t->nchecks; c++) {
         const ls_check *ck = &nl->checks[t->checks[c]];
-        ls_check_result cr;
-        ls_check_eval(&t->s->op, ck, &cr);
-        bool inside = isfinite(r->wc_min) && r->wc_min >= cr.lo && r->wc_max <= cr.hi;
+        const char *wc = check_wc_word(t, ck);
         fprintf(o, "  %s%s%s  worst case %s\n", ck->text, ck->instance ? "  in " : "", ck->instance ? ck->instance : "",
-                !isfinite(r->wc_min) ? "unknown" : inside ? "inside" : "OUTSIDE");
+                !wc ? "unknown" : strcmp(wc, "inside") == 0 ? "inside" : "OUTSIDE");
     }
 }
 

@@ -315,6 +315,21 @@ def other_commands(path, cwd, name, j):
             m = re.search(r"nominal ([^)]+)\)", text)
             agrees(o["nominal"], None, m.group(1) if m else "?", f"{what}: nominal")
             check(o["monte_carlo"]["dist"] == "uniform", f"{what}: dist")
+            lines = text.splitlines()
+            for p in o["worst_case"]["parts"]:
+                row = next((ln.split() for ln in lines if ln.split()[:2] == [p["part"], p["kind"]]), None)
+                if not check(row is not None, f"{what}: part {p['part']} in the text table"):
+                    continue
+                check(abs(float(row[-3].rstrip("%")) - 100 * p["tol"]) <= 1e-9 * 100 + 5e-4 * 100 * p["tol"],
+                      f"{what}: {p['part']} tol {row[-3]} vs {p['tol']}")
+                if o["worst_case"]["method"] == "corners" and p["at_min"] is not None:
+                    check(row[-2].startswith("+" if p["at_min"] > 0 else "-") and
+                          row[-1].startswith("+" if p["at_max"] > 0 else "-"),
+                          f"{what}: {p['part']} corners {row[-2:]} vs {p['at_min']}, {p['at_max']}")
+            for c in o["checks"]:
+                ln = next((ln for ln in lines if ln.strip().startswith(c["text"])), "")
+                check(ln.rstrip().endswith({"inside": "inside", "outside": "OUTSIDE", None: "unknown"}[c["worst_case"]]),
+                      f"{what}: {c['text']} worst case {c['worst_case']} vs text {ln!r}")
 
 
 def main():
