@@ -666,6 +666,24 @@ static const char *method_name(ls_method m)
     return n[m];
 }
 
+/* The numbers of the text's "To meet it" line for a port that fails the
+ * ratio rule: with a voltage port, the largest driver zout and the smallest
+ * load zin that would meet it (fields "zout_max", "zin_min"); with a current
+ * port, the largest load zin and the smallest source zout ("zin_max",
+ * "zout_min").  Returns false (nothing to say) for a port that passes, whose
+ * ratio is undefined, or whose load is a short to ground. */
+static bool fix_limits(ls_op *op, const ls_port_result *pr, const char *field[2], double v[2])
+{
+    double min = ls_op_min_ratio(op);
+    if (pr->verdict == VERDICT_OK || isnan(pr->ratio) || (!pr->current_mode && pr->zin == 0))
+        return false;
+    field[0] = pr->current_mode ? "zin_max" : "zout_max";
+    field[1] = pr->current_mode ? "zout_min" : "zin_min";
+    v[0] = pr->current_mode ? pr->zout / min : pr->zin / min;
+    v[1] = pr->current_mode ? pr->zin * min : pr->zout * min;
+    return true;
+}
+
 /* One line for a port that fails the ratio: the largest zout or the smallest zin
  * that would meet it, or a buffer. */
 static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
@@ -682,21 +700,24 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
         return;
     }
     ls_eng(rp, r, sizeof r, pr->ratio, "");
-    if (pr->current_mode) {
-        ls_eng(rp, lo, sizeof lo, pr->zout / min, OHM);
-        ls_eng(rp, hi, sizeof hi, pr->zin * min, OHM);
+    const char *ff[2];
+    double fv[2];
+    bool fix = fix_limits(op, pr, ff, fv); /* the numbers the JSON's "fix" carries */
+    if (pr->current_mode && fix) {
+        ls_eng(rp, lo, sizeof lo, fv[0], OHM);
+        ls_eng(rp, hi, sizeof hi, fv[1], OHM);
         fprintf(rp->out, "  -> %s: zout/zin = %s is below %g. To meet it: a load (zin) of at most %s, or a source "
                          "(zout) of at least %s.\n",
                 p->name, r, min, lo, hi);
         return;
     }
-    if (pr->zin == 0) {
+    if (!fix) {
         fprintf(rp->out, "  -> %s: the load side is a short to ground (zin = 0); no driver can meet the ratio.\n",
                 p->name);
         return;
     }
-    ls_eng(rp, lo, sizeof lo, pr->zin / min, OHM);
-    ls_eng(rp, hi, sizeof hi, pr->zout * min, OHM);
+    ls_eng(rp, lo, sizeof lo, fv[0], OHM);
+    ls_eng(rp, hi, sizeof hi, fv[1], OHM);
     fprintf(rp->out, "  -> %s: zin/zout = %s is below the %g x rule. To meet it: a driver with zout at most %s, or a load "
                      "with zin at least %s, or a buffer (an op-amp follower) between them.\n",
             p->name, r, min, lo, hi);
@@ -854,6 +875,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         ls_jw_end(w);
     }
     ls_jw_end(w);
+    ls_jw_num(w, "min_ratio", ls_op_min_ratio(op));
     ls_jw_obj(w, "ports");
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
@@ -875,6 +897,14 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         ls_jw_str(w, "verdict", verdict_name(pr->verdict));
         if (pr->note)
             ls_jw_str(w, "note", pr->note);
+        const char *ff[2];
+        double fv[2];
+        if (fix_limits(op, pr, ff, fv)) {
+            ls_jw_obj(w, "fix");
+            ls_jw_num(w, ff[0], fv[0]);
+            ls_jw_num(w, ff[1], fv[1]);
+            ls_jw_end(w);
+        }
         ls_jw_end(w);
     }
     ls_jw_end(w);
@@ -948,6 +978,7 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
     ob_init(o, rp->out);
     const ls_netlist *nl = op->nl;
     ob_puts(o, "section,name,field,value\n");
+    csv_row(o, "rule", "ratio", "min", ls_op_min_ratio(op));
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
         csv_row(o, "node", nl->nodes[i].name, "voltage", op->v[i]);
@@ -967,6 +998,13 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
             csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
             if (pr->note)
                 csv_word(o, "port", p->name, "note", pr->note);
+            const char *ff[2];
+            double fv[2];
+            for (int j = 0; fix_limits(op, pr, ff, fv) && j < 2; j++) {
+                char fld[32];
+                snprintf(fld, sizeof fld, "fix.%s", ff[j]);
+                csv_row(o, "port", p->name, fld, fv[j]);
+            }
             continue;
         }
         csv_word(o, "part", p->name, "kind", p->kind->name);

@@ -194,6 +194,14 @@ def solve_checks(path, cwd, name):
         for col, key in ((2, "open"), (3, "loaded"), (5, "zout"), (6, "zin"), (7, "ratio"), (8, "current")):
             agrees(p.get(key), why.get(key), row[col], f"{what}: {row[0]}.{key}")
         check(p.get("verdict") == row[9], f"{what}: {row[0]} verdict text {row[9]} JSON {p.get('verdict')}")
+        # the "To meet it" line under the table and the port's "fix"
+        adv = re.search(r"-> " + re.escape(row[0]) + r": .*?at most (.+?), or .*?at least (.+?)[,.]( or|$)", text, re.M)
+        fix = p.get("fix")
+        check((adv is None) == (fix is None), f"{what}: {row[0]} advice in text and fix in JSON go together")
+        if adv and fix:
+            first, second = list(fix.values())
+            agrees(first, None, adv.group(1), f"{what}: {row[0]} fix {list(fix)[0]}")
+            agrees(second, None, adv.group(2), f"{what}: {row[0]} fix {list(fix)[1]}")
     for row in table(text, "Op-amps"):
         o = j["opamps"].get(row[0], {})
         agrees(o.get("out"), None, row[1], f"{what}: {row[0]}.out")
@@ -334,7 +342,9 @@ def other_commands(path, cwd, name, j):
 
 def main():
     paths = sorted(glob.glob(os.path.join(ROOT, "circuits", "*.stack")) +
-                   glob.glob(os.path.join(ROOT, "docs", "examples", "*.stack")))
+                   glob.glob(os.path.join(ROOT, "docs", "examples", "*.stack")) +
+                   glob.glob(os.path.join(ROOT, "tests", "loading", "closed", "*.stack")) +
+                   glob.glob(os.path.join(ROOT, "tests", "loading", "failing", "*.stack")))
     check(len(paths) >= 6, f"example circuits found: {len(paths)}")
     for path in paths:
         cwd, name = os.path.dirname(path), os.path.basename(path)
