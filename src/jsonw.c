@@ -14,6 +14,7 @@
 
 /* ---- the block -------------------------------------------------------------------------- */
 
+/* Hand the block to the stream and empty it. */
 static void flush(ls_jw *w)
 {
     if (w->p != w->b)
@@ -21,11 +22,13 @@ static void flush(ls_jw *w)
     w->p = w->b;
 }
 
+/* Free bytes left in the block. */
 static size_t room(const ls_jw *w)
 {
     return (size_t)(w->b + sizeof w->b - w->p);
 }
 
+/* n bytes of s into the block (straight to the stream when larger than it). */
 static void put(ls_jw *w, const char *s, size_t n)
 {
     if (n > room(w)) {
@@ -39,12 +42,14 @@ static void put(ls_jw *w, const char *s, size_t n)
     w->p += n;
 }
 
-static void puts_(ls_jw *w, const char *s)
+/* A NUL-terminated string, unescaped. */
+static void put_str(ls_jw *w, const char *s)
 {
     put(w, s, strlen(s));
 }
 
-static void putc_(ls_jw *w, char c)
+/* One byte. */
+static void put_chr(ls_jw *w, char c)
 {
     if (!room(w))
         flush(w);
@@ -81,7 +86,7 @@ static int utf8_len(const unsigned char *p)
 static void string(ls_jw *w, const char *s)
 {
     static const char hex[] = "0123456789abcdef";
-    putc_(w, '"');
+    put_chr(w, '"');
     const unsigned char *p = (const unsigned char *)s;
     while (*p) {
         const unsigned char *q = p;
@@ -110,15 +115,16 @@ static void string(ls_jw *w, const char *s)
         }
         p = q + 1;
     }
-    putc_(w, '"');
+    put_chr(w, '"');
 }
 
 /* ---- layout -------------------------------------------------------------------------------- */
 
+/* A line break and the indent of a member at depth (two spaces a level). */
 static void newline(ls_jw *w, int depth)
 {
     static const char blanks[] = "                                ";
-    putc_(w, '\n');
+    put_chr(w, '\n');
     int k = 2 * depth;
     put(w, blanks, (size_t)(k < (int)sizeof blanks - 1 ? k : (int)sizeof blanks - 1));
 }
@@ -129,11 +135,11 @@ static void member(ls_jw *w, const char *key)
     int d = w->depth;
     if (d > 0) {
         if (w->n[d - 1]++)
-            putc_(w, ',');
+            put_chr(w, ',');
         if (d <= w->wrap)
             newline(w, d);
         else if (w->n[d - 1] > 1)
-            putc_(w, ' ');
+            put_chr(w, ' ');
     }
     if (key && d > 0 && w->obj[d - 1]) {
         string(w, key);
@@ -152,11 +158,12 @@ void ls_jw_init(ls_jw *w, FILE *f, int wrap)
     w->p = w->b;
 }
 
-static void open_(ls_jw *w, const char *key, bool obj)
+/* Open an object or an array as member key of the innermost container. */
+static void open_container(ls_jw *w, const char *key, bool obj)
 {
     member(w, key);
-    putc_(w, obj ? '{' : '[');
-    if (w->depth == LS_JW_DEPTH) { /* deeper than any report: keep the text valid, lose the layout */
+    put_chr(w, obj ? '{' : '[');
+    if (w->depth == LS_JW_DEPTH) { /* a programming error (the reports nest 4 deep): flagged */
         w->failed = true;
         return;
     }
@@ -166,8 +173,8 @@ static void open_(ls_jw *w, const char *key, bool obj)
     w->depth++;
 }
 
-void ls_jw_obj(ls_jw *w, const char *key) { open_(w, key, true); }
-void ls_jw_arr(ls_jw *w, const char *key) { open_(w, key, false); }
+void ls_jw_obj(ls_jw *w, const char *key) { open_container(w, key, true); }
+void ls_jw_arr(ls_jw *w, const char *key) { open_container(w, key, false); }
 
 /* The "why" member of the innermost object, from its remembered nulls. */
 static void why_member(ls_jw *w)
@@ -176,7 +183,7 @@ static void why_member(ls_jw *w)
     if (w->nwhy == first)
         return;
     member(w, "why");
-    putc_(w, '{');
+    put_chr(w, '{');
     for (int i = first; i < w->nwhy; i++) {
         if (i > first)
             put(w, ", ", 2);
@@ -185,7 +192,7 @@ static void why_member(ls_jw *w)
         string(w, w->whys[i].why);
         free(w->whys[i].key);
     }
-    putc_(w, '}');
+    put_chr(w, '}');
     w->nwhy = first;
 }
 
@@ -198,7 +205,7 @@ void ls_jw_end(ls_jw *w)
         why_member(w);
     if (w->depth <= w->wrap && w->n[d])
         newline(w, d);
-    putc_(w, w->obj[d] ? '}' : ']');
+    put_chr(w, w->obj[d] ? '}' : ']');
     w->depth--;
 }
 
@@ -268,7 +275,7 @@ void ls_jw_int(ls_jw *w, const char *key, long long v)
 void ls_jw_bool(ls_jw *w, const char *key, bool v)
 {
     member(w, key);
-    puts_(w, v ? "true" : "false");
+    put_str(w, v ? "true" : "false");
 }
 
 void ls_jw_str(ls_jw *w, const char *key, const char *s)
@@ -312,7 +319,7 @@ int ls_jw_finish(ls_jw *w)
 {
     while (w->depth > 0)
         ls_jw_end(w);
-    putc_(w, '\n');
+    put_chr(w, '\n');
     flush(w);
     for (int i = 0; i < w->nwhy; i++)
         free(w->whys[i].key);
