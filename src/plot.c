@@ -263,6 +263,13 @@ static bool text_free(cairo_t *cr, boxes *b, double x, double y, const char *s, 
         double r[4] = {left - 1, top + dy - 1, left + w + 1, top + dy + h + 1};
         if (r[1] < ymin || r[3] > ymax || box_hits(b, r))
             continue;
+        if (move) { /* a label inside the plot: a light backdrop keeps it readable over lines and bars */
+            cairo_save(cr);
+            cairo_set_source_rgba(cr, 1, 1, 1, 0.8);
+            cairo_rectangle(cr, r[0], r[1], r[2] - r[0], r[3] - r[1]);
+            cairo_fill(cr);
+            cairo_restore(cr);
+        }
         text_at(cr, x, y + dy, s, ax, ay);
         box_add(b, r[0], r[1], r[2], r[3]);
         return true;
