@@ -567,7 +567,7 @@ static void sag_text(ls_report *rp, const ls_op *op, const ls_sag_report *r)
         else
             fprintf(o, "the linearized shares left more than a tenth of the sag unexplained.\n");
     } else {
-        fprintf(o, "\n  Shares: current times transfer resistance (Z(node, driver) - Z(node, load), every port open);\n"
+        fprintf(o, "\n  Shares: current times transfer resistance (Z(node, driver) - Z(node, load), every port opened);\n"
                    "  they add up to the sag in a linear circuit, and interaction is what the nonlinear parts add.\n");
         if (r->note)
             fprintf(o, "  Note: %s.\n", r->note);

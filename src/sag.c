@@ -10,6 +10,7 @@
  * share becomes its Shapley value: its average marginal effect over the
  * orders of connecting the ports, from exact solves, which add up to the sag
  * by construction. */
+#include <float.h>
 #include <math.h>
 #include <stdint.h>
 #include <stdlib.h>
@@ -450,6 +451,9 @@ int ls_sag_connections(ls_op *op, int node, ls_sag_report *r)
             }
         }
     }
+    /* a remainder at the rounding level of the node's voltages is none */
+    if (fabs(r->interaction) < 64 * DBL_EPSILON * fmax(fabs(r->alone), fabs(r->voltage)))
+        r->interaction = 0;
     for (int k = 0; k < r->nports; k++) {
         ls_sag_port *sp = &r->ports[k];
         sp->share_rel = r->sag != 0 && isfinite(sp->share) ? sp->share / r->sag : NAN;
