@@ -511,7 +511,7 @@ static void sag_text(ls_report *rp, const ls_op *op, const ls_sag_report *r)
     fprintf(o, "  every port opened    alone      %s\n", ls_eng(rp, b1, sizeof b1, r->alone, "V"));
     fprintf(o, "  everything connected voltage    %s\n", ls_eng(rp, b1, sizeof b1, r->voltage, "V"));
     fprintf(o, "  alone - voltage      sag        %s", ls_eng(rp, b1, sizeof b1, r->sag, "V"));
-    if (isfinite(r->sag) && r->alone != 0 && isfinite(r->alone))
+    if (isfinite(r->sag) && r->sag != 0 && r->alone != 0 && isfinite(r->alone))
         fprintf(o, "  (%.3g%% of alone)", 100 * r->sag / r->alone);
     fputc('\n', o);
     if (r->why) {

@@ -330,6 +330,58 @@ def test_led_rail_bridge(b, tmp):
     near("bridge current", cur["p_bridge"], 2 * (2.5 - d["sag"]) / 20e3, rtol=1e-9, source="Ohm's law")
 
 
+def test_sampled_shapley(b, tmp):
+    # The same follower (10 mA limit) with twelve light loads (100k..111k) and
+    # one 100 ohm stray: 13 ports, so the Shapley value is averaged over
+    # sampled orders.  The game is known in closed form (the output is
+    # min(2.5 V, 10 mA * R_connected)), so the exact values over all 8192
+    # combinations are computed here and the sampled ones compared; whatever
+    # the sample, the shares add up to the sag (each order telescopes).
+    rs = [(100 + k) * 1e3 for k in range(12)] + [100.0]
+    lines = ['title "many"', "ground gnd", "voltage vsup gnd -> vcc 5 V", "voltage vref gnd -> ref 2.5 V",
+             "opamp u1 plus=ref minus=o out=o rails=gnd..vcc imax=10mA"]
+    for k in range(12):
+        lines += ["port p%d o -> l%d" % (k, k), "resistor rl%d l%d -> gnd %dk" % (k, k, 100 + k)]
+    lines += ["port p_stray o -> s", "resistor r_stray s -> gnd 100"]
+    f = write(tmp, "many.stack", "\n".join(lines) + "\n")
+    d = js(b, ["sag", f, "o"])
+    if not d:
+        return
+    P = len(rs)
+
+    def out(mask):
+        g = sum(1 / rs[k] for k in range(P) if mask >> k & 1)
+        return 2.5 if g == 0 else min(2.5, 10e-3 / g)
+
+    vals = [out(m) for m in range(1 << P)]
+    w = [math.factorial(k) * math.factorial(P - k - 1) / math.factorial(P) for k in range(P)]
+    stray = sum(w[bin(m).count("1")] * (vals[m] - vals[m | 1 << (P - 1)])
+                for m in range(1 << (P - 1)))
+    truth("13 ports: method shapley", d["method"] == "shapley", "the buffer enters its current limit")
+    truth("13 ports: culprit p_stray", d["culprit"] == "p_stray", "the 100 ohm load")
+    sh = {p["name"]: p["share"] for p in d["ports"]}
+    near("13 ports: sampled stray share", sh.get("p_stray"), stray, rtol=1e-3,
+         source="exact Shapley value over 8192 combinations of the closed-form game")
+    near("13 ports: shares add up to the sag", sum(sh.values()), d["sag"], rtol=1e-9,
+         source="each sampled order telescopes to the sag")
+    near("13 ports: sag", d["sag"], 2.5 - vals[-1], rtol=1e-8, source="10 mA into every load in parallel")
+    again = js(b, ["sag", f, "o"])
+    truth("13 ports: the same answer twice", again == d, "deterministic seed")
+
+
+def test_no_port(b, tmp):
+    f = write(tmp, "noport.stack", 'title "n"\nground gnd\nvoltage vs gnd -> top 5 V\n'
+              "resistor r1 top -> mid 10k\nresistor r2 mid -> gnd 10k\nresistor rl mid -> gnd 47k\n")
+    text, _ = run(b, ["sag", f, "mid"])
+    truth("no port: said clearly", "No port is in the way" in text, "cli spec")
+    truth("no port: loads at the node listed", "'rl'" in text and "'r2'" in text and "'r1'" not in text,
+          "removing r2 or rl raises mid; removing r1 lowers it (Ohm's law)")
+    truth("no port: a port suggested", "port p_NAME mid -> NEW_NODE" in text, "cli spec: suggest where a port goes")
+    d = js(b, ["sag", f, "mid"])
+    truth("no port: culprit null with why", d and d["culprit"] is None and "culprit" in d.get("why", {}),
+          "cli spec: every null says why")
+
+
 # ---------------------------------------------------------------------------
 # 3. thevenin of a port, --load with limits, units
 
@@ -360,16 +412,6 @@ def test_thevenin_limits(b, tmp):
     # 25 mA (0.25 V), not 2.5 V / 10 ohm; its short-circuit current is 25 mA.
     f = write(tmp, "lim.stack", 'title "l"\nground gnd\nvoltage vsup gnd -> vcc 5 V\nvoltage vin gnd -> a 2.5 V\n'
               "opamp u1 plus=a minus=o out=o rails=gnd..vcc imax=25mA rout=0.04\nresistor rl o -> gnd 10k\n")
-    d = js(b, ["thevenin", f, "o", "--load", "10", "--meter", "10M"])
-    if d:
-        near("--load current at the limit", d["load"]["i"], 25e-3 * 10e3 / (10e3 + 10), rtol=1e-6,
-             source="the op-amp's imax, split between the 10 ohm load and rl (current divider)")
-        near("--load voltage", d["load"]["v"], 25e-3 * par(10.0, 10e3), rtol=1e-6,
-             source="imax into 10 ohm || 10k (Ohm's law)")
-        truth("limit named: %r" % d["load"]["limited"], "u1" in d["load"]["limited"] and
-              "current" in d["load"]["limited"], "issue 12: the limit is named")
-        near("norton is the current limit", d["norton"], 25e-3, rtol=1e-6, source="a short draws imax, not vth/rth")
-        near("a 10M meter reads the follower", d["meter"]["reading"], 2.5, rtol=1e-6, source="far below the limit")
     _, err = run(b, ["thevenin", f, "o", "--load", "5V"], want_rc=2)
     truth("--load 5V names the unit: %r" % err.strip(), "resistance" in err and "voltage" in err,
           "cli spec: units checked (ohms)")
@@ -377,6 +419,16 @@ def test_thevenin_limits(b, tmp):
     truth("--meter 10mA names the unit", "resistance" in err and "current" in err, "cli spec")
     run(b, ["thevenin", f, "o", "--load", "4.7kohm"], want_rc=0)
     run(b, ["thevenin", f, "o", "--load", "0"], want_rc=2)
+    d = js(b, ["thevenin", f, "o", "--load", "10", "--meter", "10M"])
+    if d:
+        near("--load current at the limit", d["load"]["i"], 25e-3 * 10e3 / (10e3 + 10), rtol=1e-6,
+             source="the op-amp's imax, split between the 10 ohm load and rl (current divider)")
+        near("--load voltage", d["load"]["v"], 25e-3 * par(10.0, 10e3), rtol=1e-6,
+             source="imax into 10 ohm || 10k (Ohm's law)")
+        lim = d["load"].get("limited", "")
+        truth("limit named: %r" % lim, "u1" in lim and "current" in lim, "issue 12: the limit is named")
+        near("norton is the current limit", d["norton"], 25e-3, rtol=1e-6, source="a short draws imax, not vth/rth")
+        near("a 10M meter reads the follower", d["meter"]["reading"], 2.5, rtol=1e-6, source="far below the limit")
 
 
 # ---------------------------------------------------------------------------
@@ -404,6 +456,14 @@ def test_what_if(b, tmp):
         if r["without"] is not None:
             truth("row %s within the supply: %r" % (r["name"], r["without"]), abs(r["without"]) <= 5.0 + 1e-9,
                   "nothing in the circuit exceeds its 5 V supply")
+    # the same stage with no rails: nothing stops the open loop, so the
+    # estimate (gain times the input, far beyond 5 V) is flagged and not given
+    f2 = write(tmp, "wi2.stack", open(f).read().replace(" rails=gnd..vcc headroom=0.1V", ""))
+    d2 = js(b, ["sag", f2, "n", "--what-if"])
+    rf2 = {r["name"]: r for r in d2["what_if"]}.get("rf") if d2 else None
+    truth("no rails: rf row flagged without a value: %r" % rf2,
+          rf2 is not None and rf2["beyond_limit"] and rf2["without"] is None and rf2["why"]["without"] == "unbounded",
+          "issue 12: never printed as if physical")
     truth("sag JSON without --what-if has no what_if", "what_if" not in (js(b, ["sag", f, "n"]) or {}), "cli spec")
     text, _ = run(b, ["sag", f, "n", "--what-if"])
     truth("what-if table labelled", "What-if table" in text, "cli spec: labelled as such")
@@ -422,6 +482,8 @@ def main():
                  ("divider, ADC and pull-down", lambda: test_divider_adc_pulldown(b, tmp)),
                  ("buffer in its current limit", lambda: test_buffer_current_limit(b, tmp)),
                  ("LED on the bridge's rail", lambda: test_led_rail_bridge(b, tmp)),
+                 ("Shapley over sampled orders", lambda: test_sampled_shapley(b, tmp)),
+                 ("no port in the way", lambda: test_no_port(b, tmp)),
                  ("thevenin of a port", lambda: test_thevenin_port(b, tmp)),
                  ("thevenin --load limits", lambda: test_thevenin_limits(b, tmp)),
                  ("what-if past a limit", lambda: test_what_if(b, tmp))]
