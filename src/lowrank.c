@@ -1243,8 +1243,15 @@ static int sag_resolve(ls_op *op, int node, ls_sag_item *it, const ls_runs *base
         it->resolved = true;
         it->floats = node > 0 && v.floating[node];
         it->without = NAN;
-        if (!it->floats && ls_variant_solve(&v, op, false) == LS_EXIT_OK)
+        if (!it->floats && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
             it->without = v.op.v[node];
+            /* name what the exact solve ended at, not what the estimate crossed */
+            char now[sizeof it->limit];
+            if (ls_limits_in_force(op->nl, base, now, sizeof now) > 0)
+                memcpy(it->limit, now, sizeof now);
+            else
+                snprintf(it->limit, sizeof it->limit, "re-solved: no limit in force");
+        }
         ls_runs_restore(op->nl, base);
     }
     ls_variant_free(&v);
