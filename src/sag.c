@@ -25,6 +25,7 @@
  * linearization is not trusted for the shares. */
 #define INTERACTION_LIMIT 0.1
 
+/* Frees r's arrays and zeroes it. */
 void ls_sag_report_free(ls_sag_report *r)
 {
     for (int i = 0; i < r->nports; i++)
@@ -66,6 +67,7 @@ static double draw_of(const ls_op *op, const ls_part *q, int node, ls_triplets *
     return sum;
 }
 
+/* qsort order: largest |current| first, ties in part order. */
 static int by_abs_draw(const void *a, const void *b)
 {
     double x = fabs(((const ls_sag_draw *)a)->current), y = fabs(((const ls_sag_draw *)b)->current);
@@ -377,6 +379,7 @@ static int open_every_port(ls_op *op, ls_sag_report *r, const ls_runs *base, boo
     return rc;
 }
 
+/* qsort order: largest |share| first, undefined last, ties in part order. */
 static int by_abs_share(const void *a, const void *b)
 {
     const ls_sag_port *x = a, *y = b;
@@ -413,6 +416,8 @@ static int suggestions(ls_op *op, ls_sag_report *r)
     return 0;
 }
 
+/* The analysis of sag.h: ports, alone, shares (substitution, else Shapley),
+ * draws, order, culprit, suggestions.  0, or -1 no memory (r freed). */
 int ls_sag_connections(ls_op *op, int node, ls_sag_report *r)
 {
     memset(r, 0, sizeof *r);
@@ -436,7 +441,10 @@ int ls_sag_connections(ls_op *op, int node, ls_sag_report *r)
         for (int k = 0; k < r->nports; k++)
             sum += r->ports[k].share;
         r->interaction = r->sag - sum;
-        bool loose = !(fabs(r->interaction) <= INTERACTION_LIMIT * fabs(r->sag)) && ls_newton_needed(op->nl);
+        /* a remainder at the rounding level of the voltages is no reason for exact solves */
+        double floor_v = 1e-9 * fmax(fabs(r->alone), fabs(r->voltage));
+        bool loose = !(fabs(r->interaction) <= fmax(INTERACTION_LIMIT * fabs(r->sag), floor_v)) &&
+                     ls_newton_needed(op->nl);
         if (r->changed >= 0 || loose || no_z) {
             if (shapley(op, r, &base) < 0)
                 goto nomem;

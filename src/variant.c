@@ -9,6 +9,7 @@
 
 /* ---- saved part states ---------------------------------------------------------------------- */
 
+/* Every part's state into r->saved (freed by ls_runs_free).  0, or -1 no memory. */
 int ls_runs_save(const ls_netlist *nl, ls_runs *r)
 {
     r->n = nl->nparts;
@@ -21,6 +22,7 @@ int ls_runs_save(const ls_netlist *nl, ls_runs *r)
     return 0;
 }
 
+/* The saved states back into the parts. */
 void ls_runs_restore(const ls_netlist *nl, const ls_runs *r)
 {
     for (int i = 0; i < r->n && i < nl->nparts; i++)
@@ -28,6 +30,7 @@ void ls_runs_restore(const ls_netlist *nl, const ls_runs *r)
             *nl->parts[i].run = r->saved[i];
 }
 
+/* Frees the saved states; r may be zeroed or already freed. */
 void ls_runs_free(ls_runs *r)
 {
     free(r->saved);
@@ -37,6 +40,8 @@ void ls_runs_free(ls_runs *r)
 
 /* ---- the variant ------------------------------------------------------------------------------ */
 
+/* v for base's circuit: the netlist record copied with its diagnostics
+ * diverted, nothing opened or tied.  0, or -1 no memory (v freed). */
 int ls_variant_init(ls_variant *v, const ls_op *base)
 {
     memset(v, 0, sizeof *v);
@@ -69,6 +74,8 @@ static void join_edge(void *ctx, int a, int b, bool vdef, int part)
         ls_uf_union(u->parent, a, b);
 }
 
+/* Union-find over the DC paths the variant keeps; floating nodes are tied at
+ * their voltage in base.  Their count, or -1 no memory. */
 int ls_variant_hold_floating(ls_variant *v, const ls_op *base)
 {
     const ls_netlist *nl = base->nl;
@@ -99,6 +106,7 @@ int ls_variant_hold_floating(ls_variant *v, const ls_op *base)
     return count;
 }
 
+/* The variant solved with base's options (see variant.h); an exit code. */
 int ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only)
 {
     if (v->have_op)
@@ -112,6 +120,7 @@ int ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only)
     return ls_op_solve(&v->op, &v->nl, &o);
 }
 
+/* Frees everything v owns (never base's parts); v is zeroed. */
 void ls_variant_free(ls_variant *v)
 {
     if (v->have_op)
@@ -152,6 +161,8 @@ static int junction_change(const ls_part *p, const ls_part_run *saved)
     return now > 10 * then ? 1 : then > 10 * now ? -1 : 0;
 }
 
+/* First op-amp whose limit state, or junction whose conduction, differs from
+ * the saved state (see variant.h). */
 bool ls_states_differ(const ls_netlist *nl, const ls_runs *saved, int *what)
 {
     for (int i = 0; i < nl->nparts && i < saved->n; i++) {
@@ -169,6 +180,7 @@ bool ls_states_differ(const ls_netlist *nl, const ls_runs *saved, int *what)
     return false;
 }
 
+/* The limits in force and the junctions that changed, as words (see variant.h). */
 int ls_limits_in_force(const ls_netlist *nl, const ls_runs *saved, char *buf, size_t n)
 {
     int found = 0;
