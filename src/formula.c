@@ -19,6 +19,7 @@
 #include <flint/fmpq.h>
 #include <flint/fmpq_mpoly.h>
 #include <flint/fmpq_mpoly_factor.h>
+#include <float.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
@@ -444,26 +445,28 @@ static int sym_find(const fx *F, const char *name)
 }
 
 /* Names of the top-level lets an expression uses directly, appended to
- * names[*n] (no repeats). */
-static void lets_used(const fx *F, const ls_expr *e, const char **names, int *n, int cap)
+ * names[*n] (no repeats).  Returns how many it uses, repeats included. */
+static int lets_used(const fx *F, const ls_expr *e, const char **names, int *n, int cap)
 {
+    int k = 0;
     switch (e->kind) {
     case E_NAME:
-        if (isfinite(let_value(F, e->name))) {
-            for (int i = 0; i < *n; i++)
-                if (strcmp(names[i], e->name) == 0)
-                    return;
-            if (*n < cap)
-                names[(*n)++] = e->name;
-        }
-        return;
-    case E_NEG: lets_used(F, e->a, names, n, cap); return;
-    case E_BIN: lets_used(F, e->a, names, n, cap); lets_used(F, e->b, names, n, cap); return;
+        if (!isfinite(let_value(F, e->name)))
+            return 0;
+        for (int i = 0; i < *n && i < cap; i++)
+            if (strcmp(names[i], e->name) == 0)
+                return 1;
+        if (*n < cap)
+            names[*n] = e->name;
+        (*n)++;
+        return 1;
+    case E_NEG: return lets_used(F, e->a, names, n, cap);
+    case E_BIN: return lets_used(F, e->a, names, n, cap) + lets_used(F, e->b, names, n, cap);
     case E_CALL:
         for (int i = 0; i < e->nargs; i++)
-            lets_used(F, e->args[i], names, n, cap);
-        return;
-    default: return;
+            k += lets_used(F, e->args[i], names, n, cap);
+        return k;
+    default: return 0;
     }
 }
 
@@ -478,10 +481,7 @@ static int default_symbols(const fx *F, const char **names, int cap)
         if (!has_symbolic_value(p))
             continue;
         const ls_expr *e = F->req->ideal && is_gain(p) ? NULL : value_expr(F, p);
-        int before = n;
-        if (e)
-            lets_used(F, e, names, &n, cap);
-        if (n == before) {
+        if (!e || lets_used(F, e, names, &n, cap) == 0) {
             if (n < cap)
                 names[n] = p->name;
             n++;
@@ -542,7 +542,9 @@ static int choose_symbols(fx *F)
             name = ls_arena_strdup(F->nl->arena, names[i]);
         }
         if (!add_sym(F, name, part, part >= 0 && is_gain(&F->nl->parts[part]))) {
-            code = too_big_error(F, "too many symbols");
+            char why[96];
+            snprintf(why, sizeof why, "%d symbols%s", n, F->req->symbols ? " asked for" : " by default");
+            code = too_big_error(F, why);
             break;
         }
     }
@@ -2061,38 +2063,54 @@ static bool text_reads_back(fx *F, const char *text, double want)
 
 /* ---- the command's work ---------------------------------------------------------------------- */
 
-/* Relative difference of the formula's value and the solver's, against the
- * larger of the two or of the formula's terms before they cancel (so a
- * balanced bridge's 0 V is not failed for the solver's rounding). */
-static double rel_difference(fx *F, const rf *a, double value, double solve)
+/* The size of the numbers the solver combined to get q: |v| for a node,
+ * sum |c_j x_j| for a part's current, |a| + |b| for a sum or difference.  A
+ * difference of two nearly equal node voltages carries the rounding of the
+ * node voltages, so it is judged against their size. */
+static double q_magnitude(ls_op *op, const ls_q *q)
 {
-    double scale = fmax(fabs(value), fabs(solve));
-    /* sum of |terms| of the numerator over |denominator| */
-    fmpq_mpoly_t absn;
-    fmpq_mpoly_init(absn, F->ctx);
-    fmpq_mpoly_set(absn, a->n, F->ctx);
-    slong len = fmpq_mpoly_length(absn, F->ctx);
-    double sum = 0;
-    slong exps[LS_FORMULA_MAX_SYMBOLS + 2];
-    fmpq_t c;
-    fmpq_init(c);
-    for (slong t = 0; t < len; t++) {
-        fmpq_mpoly_get_term_coeff_fmpq(c, absn, t, F->ctx);
-        fmpq_mpoly_get_term_exp_si(exps, absn, t, F->ctx);
-        double term = fabs(fmpq_get_d(c));
-        for (int v = 0; v < F->nsym; v++)
-            term *= pow(fabs(fmpq_get_d(F->sym[v].value)), (double)exps[v]);
-        sum += term;
+    switch (q->kind) {
+    case Q_CONST: return fabs(q->value);
+    case Q_NODE: return fabs(op->v[q->index]);
+    case Q_NEG: return q_magnitude(op, q->a);
+    case Q_BIN:
+        switch (q->op) {
+        case T_PLUS:
+        case T_MINUS: return q_magnitude(op, q->a) + q_magnitude(op, q->b);
+        case T_STAR: return q_magnitude(op, q->a) * q_magnitude(op, q->b);
+        case T_SLASH: return q_magnitude(op, q->a) / fabs(ls_q_eval(op, q->b));
+        default: return fabs(ls_q_eval(op, q));
+        }
+    case Q_PROP: {
+        const ls_part *p = &op->nl->parts[q->index];
+        if (q->prop == PROP_CURRENT || q->prop == PROP_POWER) {
+            ls_lin l;
+            ls_part_current(p, op->nl, &l, false);
+            double m = fabs(l.constant);
+            for (int i = 0; i < l.n; i++)
+                m += fabs(l.coef[i] * op->x[l.idx[i]]);
+            if (q->prop == PROP_POWER)
+                m *= fabs(op->v[p->pin[0]]) + (p->kind->npins > 1 ? fabs(op->v[p->pin[1]]) : 0);
+            return fmax(m, fabs(ls_q_eval(op, q)));
+        }
+        if (q->prop == PROP_VOLTAGE && p->kind->npins > 1)
+            return fabs(op->v[p->pin[0]]) + fabs(op->v[p->pin[1]]);
+        if (q->prop == PROP_SAG || q->prop == PROP_SAG_REL) {
+            const ls_port_result *pr = ls_op_port(op, q->index);
+            double m = pr ? fabs(pr->open) + fabs(pr->loaded) : 0;
+            return q->prop == PROP_SAG_REL && pr && pr->open != 0 ? m / fabs(pr->open) : m;
+        }
+        return fabs(ls_q_eval(op, q));
     }
-    fmpq_clear(c);
-    fmpq_mpoly_clear(absn, F->ctx);
-    rf den;
-    rf_init(F, &den);
-    fmpq_mpoly_set(den.n, a->d, F->ctx);
-    double dv = fabs(rf_eval_d(F, &den));
-    rf_clear(F, &den);
-    if (dv > 0)
-        scale = fmax(scale, 1e-3 * sum / dv);
+    default: return fabs(ls_q_eval(op, q));
+    }
+}
+
+/* Relative difference of the formula's value and the solver's, against the
+ * larger of the two and the size of what the solver combined (q_magnitude). */
+static double rel_difference(fx *F, const ls_q *q, double value, double solve)
+{
+    double scale = fmax(fmax(fabs(value), fabs(solve)), q_magnitude(F->op, q));
     if (value == solve)
         return 0;
     return scale > 0 ? fabs(value - solve) / scale : INFINITY;
@@ -2215,11 +2233,17 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
     /* the self-check, on the formula with the file's gains */
     res->solve = ls_q_eval(F->op, q);
     res->finite_value = rf_eval_d(F, &a);
-    double diff = rel_difference(F, &a, res->finite_value, res->solve);
-    if (!(diff <= LS_FORMULA_SELF_CHECK)) {
+    double diff = rel_difference(F, q, res->finite_value, res->solve);
+    /* The solver's own error grows with the condition of the system: a
+     * difference within its bound (eps / rcond) is the solver's, not the formula's. */
+    double bound = LS_FORMULA_SELF_CHECK;
+    if (F->op->rcond > 0 && isfinite(F->op->rcond))
+        bound = fmax(bound, 4 * DBL_EPSILON / F->op->rcond);
+    res->bound = bound;
+    if (!(diff <= bound)) {
         ls_error(F->d, F->qloc,
                  "formula: self-check failed for '%s': the formula gives %.17g at the file's numbers, the solver %.17g "
-                 "(relative difference %.3g > %g)", text, res->finite_value, res->solve, diff, LS_FORMULA_SELF_CHECK);
+                 "(relative difference %.3g > %.3g)", text, res->finite_value, res->solve, diff, bound);
         rf_clear(F, &a);
         return LS_EXIT_UNSOLVABLE;
     }
@@ -2237,7 +2261,7 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
         }
     }
     res->value = rf_eval_d(F, &a);
-    res->difference = F->req->ideal ? rel_difference(F, &a, res->value, res->solve) : diff;
+    res->difference = F->req->ideal ? rel_difference(F, q, res->value, res->solve) : diff;
     code = list_symbols(F, &a, res) == 0 ? write_texts(F, &a, res) : LS_EXIT_UNSOLVABLE;
     rf_clear(F, &a);
     if (code == LS_EXIT_OK && F->too_big)

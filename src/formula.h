@@ -11,7 +11,8 @@
 #define LS_FORMULA_MAX_UNKNOWNS 40     /* MNA unknowns */
 #define LS_FORMULA_MAX_TERMS 4000      /* terms of any polynomial during the elimination */
 #define LS_FORMULA_WORK 40000000.0     /* term products over the whole computation (about half a second) */
-#define LS_FORMULA_SELF_CHECK 1e-12    /* relative: formula at the file's numbers against the solver */
+#define LS_FORMULA_SELF_CHECK 1e-12    /* relative: formula at the file's numbers against the solver
+                                          (or the solver's own error bound, 4 eps / rcond, when larger) */
 
 typedef struct ls_formula_req {
     const char *quantity;    /* the quantity as the user wrote it, for messages */
@@ -29,7 +30,8 @@ typedef struct ls_formula_result {
     bool ideal;
     double value;            /* the formula at the file's numbers */
     double solve;            /* the solver's value of the quantity */
-    double difference;       /* |value - solve| relative to the larger of the two (floored, see formula.c) */
+    double difference;       /* |value - solve| relative to the size of what the solver combined (formula.c) */
+    double bound;            /* the self-check's bound: 1e-12, or the solver's error bound eps/rcond when larger */
     double finite_value;     /* --ideal: the formula before the limit, at the file's numbers (checked); else = value */
     int opamps_limited;      /* --ideal: finite-gain op-amps taken to infinite gain */
 } ls_formula_result;

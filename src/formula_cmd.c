@@ -56,6 +56,8 @@ static void report_json(FILE *o, const ls_cli *cli, const ls_formula_result *r)
     ls_json_number(o, r->solve);
     fputs(", \"difference\": ", o);
     ls_json_number(o, r->difference);
+    fputs(", \"bound\": ", o);
+    ls_json_number(o, r->bound);
     fputs(",\n \"numbers\": [", o);
     for (int i = 0; i < r->nnotes; i++) {
         fputs(i ? ", " : "", o);
@@ -111,14 +113,18 @@ static void report_text(FILE *o, const ls_cli *cli, const ls_formula_result *r, 
         fprintf(o, "\n  ideal formula at the file's numbers    %s\n", ls_fmt_full(b1, sizeof b1, r->value));
         fprintf(o, "  finite-gain formula at those numbers   %s\n", ls_fmt_full(b1, sizeof b1, r->finite_value));
         fprintf(o, "  solver                                 %s\n", ls_fmt_full(b2, sizeof b2, r->solve));
-        fprintf(o, "  self-check: the finite-gain formula agrees with the solver to 1e-12\n");
+        fprintf(o, "  self-check: the finite-gain formula agrees with the solver to %.2g\n", r->bound);
         if (r->opamps_limited)
             fprintf(o, "  the ideal formula differs from the solver by %.3g (relative): the finite gain's share\n",
                     r->difference);
     } else {
         fprintf(o, "\n  formula at the file's numbers   %s\n", ls_fmt_full(b1, sizeof b1, r->value));
         fprintf(o, "  solver                          %s\n", ls_fmt_full(b2, sizeof b2, r->solve));
-        fprintf(o, "  self-check: relative difference %.2g (at most 1e-12)\n", r->difference);
+        if (r->bound > LS_FORMULA_SELF_CHECK)
+            fprintf(o, "  self-check: relative difference %.2g (at most %.2g, the solver's own error bound here:\n"
+                       "              the system is ill-conditioned)\n", r->difference, r->bound);
+        else
+            fprintf(o, "  self-check: relative difference %.2g (at most 1e-12)\n", r->difference);
     }
     if (r->nnotes) {
         fputs("\n  taken as numbers, not symbols:\n", o);
