@@ -1310,18 +1310,87 @@ static void node_form(fx *F, lform *l, int node, int sign)
 
 static int q_rf(fx *F, const ls_q *q, rf *out, const char *text);
 
+static int port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text);
+static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text);
+
+/* The fields of a mode=current port: `open` is the current the driver
+ * delivers into a short to ground with the load side disconnected, which for
+ * the (linearized) network is its open voltage over zout (Norton); `loaded`
+ * the port's current; `sag` their difference (A); `ratio` zout / zin. */
+static int current_port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
+{
+    rf a, b;
+    rf_init(F, &a);
+    rf_init(F, &b);
+    int code = LS_EXIT_OK;
+    const char *why = NULL;
+    switch (prop) {
+    case PROP_LOADED: {
+        lform l;
+        lform_init(F, &l);
+        if (l.c) {
+            lf_add_si(F, &l, F->nl->parts[part].branch, 1);
+            code = solve_in(F, -1, 0, &l, -1, out, &why);
+        } else {
+            code = LS_EXIT_UNSOLVABLE;
+        }
+        lform_clear(F, &l);
+        break;
+    }
+    case PROP_OPEN:
+        /* the voltage-mode open and zout of the same connection */
+        code = port_prop_voltage(F, part, PROP_OPEN, &a, text);
+        if (code == LS_EXIT_OK)
+            code = port_prop_voltage(F, part, PROP_ZOUT, &b, text);
+        if (code == LS_EXIT_OK && !rf_div(F, out, &a, &b))
+            why = "zout is zero (the short-circuit current is unbounded)";
+        break;
+    case PROP_SAG:
+    case PROP_SAG_REL:
+        code = current_port_prop(F, part, PROP_OPEN, &a, text);
+        if (code == LS_EXIT_OK)
+            code = current_port_prop(F, part, PROP_LOADED, &b, text);
+        if (code == LS_EXIT_OK)
+            rf_addsub(F, out, &a, &b, -1);
+        if (code == LS_EXIT_OK && prop == PROP_SAG_REL && !rf_div(F, out, out, &a))
+            why = "the short-circuit current is zero";
+        break;
+    case PROP_RATIO:
+        code = port_prop_voltage(F, part, PROP_ZOUT, &a, text);
+        if (code == LS_EXIT_OK)
+            code = port_prop_voltage(F, part, PROP_ZIN, &b, text);
+        if (code == LS_EXIT_OK && !rf_div(F, out, &a, &b))
+            why = "zin is zero";
+        break;
+    default:
+        code = port_prop_voltage(F, part, prop, out, text);
+        break;
+    }
+    if (why) {
+        ls_error(F->d, F->qloc, "formula: '%s' has no finite formula: %s", text, why);
+        code = LS_EXIT_USAGE;
+    }
+    rf_clear(F, &a);
+    rf_clear(F, &b);
+    return code;
+}
+
 /* A port's field as the spec defines it (the other ports connected). */
 static int port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
+{
+    const ls_part *p = &F->nl->parts[part];
+    if (ls_part_has(p, ls_kind_opt(p->kind, "mode")) && opt(p, "mode", 0) != 0)
+        return current_port_prop(F, part, prop, out, text);
+    return port_prop_voltage(F, part, prop, out, text);
+}
+
+/* The fields of a voltage-mode port (and zout, zin, open voltage of any). */
+static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
     const ls_part *p = &F->nl->parts[part];
     int dn = p->pin[0], ln = p->pin[1];
     const char *why = NULL;
     int code = LS_EXIT_OK;
-    if (ls_part_has(p, ls_kind_opt(p->kind, "mode")) && opt(p, "mode", 0) != 0) {
-        ls_error(F->d, F->qloc, "formula: '%s' has no formula: port '%s' has mode=current, which formula does not treat",
-                 text, p->name);
-        return LS_EXIT_USAGE;
-    }
     lform l;
     lform_init(F, &l);
     if (!l.c)
@@ -1351,18 +1420,18 @@ static int port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
     }
     case PROP_SAG:
     case PROP_SAG_REL:
-        code = port_prop(F, part, PROP_OPEN, &a, text);
+        code = port_prop_voltage(F, part, PROP_OPEN, &a, text);
         if (code == LS_EXIT_OK)
-            code = port_prop(F, part, PROP_LOADED, &b, text);
+            code = port_prop_voltage(F, part, PROP_LOADED, &b, text);
         if (code == LS_EXIT_OK)
             rf_addsub(F, out, &a, &b, -1);
         if (code == LS_EXIT_OK && prop == PROP_SAG_REL && !rf_div(F, out, out, &a))
             why = "the open voltage is zero";
         break;
     case PROP_RATIO:
-        code = port_prop(F, part, PROP_ZIN, &a, text);
+        code = port_prop_voltage(F, part, PROP_ZIN, &a, text);
         if (code == LS_EXIT_OK)
-            code = port_prop(F, part, PROP_ZOUT, &b, text);
+            code = port_prop_voltage(F, part, PROP_ZOUT, &b, text);
         if (code == LS_EXIT_OK && !rf_div(F, out, &a, &b))
             why = "zout is zero";
         break;
@@ -1455,6 +1524,10 @@ static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
         return code;
     }
     case Q_PROP:
+        if (strcmp(ls_prop_name(q->prop), "value") == 0) {
+            rf_set(F, out, &F->pval[q->index]);
+            return LS_EXIT_OK;
+        }
         if (q->prop == PROP_CURRENT || q->prop == PROP_VOLTAGE || q->prop == PROP_POWER)
             return part_prop(F, q->index, q->prop, out, text);
         if (F->nl->parts[q->index].kind->is_port)
@@ -2234,16 +2307,23 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
     res->solve = ls_q_eval(F->op, q);
     res->finite_value = rf_eval_d(F, &a);
     double diff = rel_difference(F, q, res->finite_value, res->solve);
-    /* The solver's own error grows with the condition of the system: a
-     * difference within its bound (eps / rcond) is the solver's, not the formula's. */
-    double bound = LS_FORMULA_SELF_CHECK;
+    /* The solver's own error grows with the condition of the system.  Where the
+     * solve already warned that the system is ill-conditioned, a difference
+     * within its error bound (4 eps / rcond) is the solver's, not the formula's;
+     * elsewhere the bound is 1e-12. */
+    double bound = LS_FORMULA_SELF_CHECK, solver_bound = INFINITY;
     if (F->op->rcond > 0 && isfinite(F->op->rcond))
-        bound = fmax(bound, 4 * DBL_EPSILON / F->op->rcond);
+        solver_bound = 4 * DBL_EPSILON / F->op->rcond;
+    if (F->op->rcond < LS_FORMULA_RCOND_ILL)
+        bound = fmax(bound, solver_bound);
     res->bound = bound;
     if (!(diff <= bound)) {
         ls_error(F->d, F->qloc,
                  "formula: self-check failed for '%s': the formula gives %.17g at the file's numbers, the solver %.17g "
-                 "(relative difference %.3g > %.3g)", text, res->finite_value, res->solve, diff, bound);
+                 "(relative difference %.3g > %.3g)%s", text, res->finite_value, res->solve, diff, bound,
+                 diff <= solver_bound ? "; the difference is within the solver's own error bound for this system "
+                                        "(4 eps / rcond), so the solver's value is the likelier to be off"
+                                      : "");
         rf_clear(F, &a);
         return LS_EXIT_UNSOLVABLE;
     }

@@ -11,6 +11,7 @@
 #define LS_FORMULA_MAX_UNKNOWNS 40     /* MNA unknowns */
 #define LS_FORMULA_MAX_TERMS 4000      /* terms of any polynomial during the elimination */
 #define LS_FORMULA_WORK 40000000.0     /* term products over the whole computation (about half a second) */
+#define LS_FORMULA_RCOND_ILL 1e-11    /* below this the solve warns "ill-conditioned" (analysis.c) */
 #define LS_FORMULA_SELF_CHECK 1e-12    /* relative: formula at the file's numbers against the solver
                                           (or the solver's own error bound, 4 eps / rcond, when larger) */
 

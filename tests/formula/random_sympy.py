@@ -163,7 +163,7 @@ def main():
     ap.add_argument("--seed", type=int, default=1)
     a = ap.parse_args()
     rng = random.Random(a.seed)
-    bad = done = 0
+    bad = done = solver_off = 0
     with tempfile.TemporaryDirectory() as d:
         path = os.path.join(d, "net.stack")
         while done < a.count:
@@ -194,6 +194,9 @@ def main():
                                       or "no convergence" in p.stderr or "self-check" not in p.stderr
                                       and "loop" in p.stderr):
                 continue                           # a network the solver rightly refuses: draw another
+            if p.returncode == 3 and "within the solver's own error bound" in p.stderr:
+                solver_off += 1                    # an ill-conditioned network: the solver, not the formula
+                continue
             done += 1
             if p.returncode != 0:
                 print("FAIL %d: exit %d\n%s%s" % (done, p.returncode, circuit_text(parts), p.stderr))
@@ -205,6 +208,10 @@ def main():
                 print("FAIL %d: %s\n%sloadstack: %s\nsympy:     %s" % (done, qtext, circuit_text(parts), got, want))
                 bad += 1
     print("%d of %d random networks: loadstack's formula equals sympy's solution" % (a.count - bad, a.count))
+    print("%d more were set aside: the solver's own error bound exceeded 1e-12 there" % solver_off)
+    if solver_off > a.count // 8:
+        print("FAIL: too many networks set aside (%d)" % solver_off)
+        bad += 1
     return 1 if bad else 0
 
 
