@@ -69,7 +69,7 @@ static const cmd commands[] = {
     {"sweep", "sweep FILE LET FROM TO QUANTITY...", "sweep a top-level let and tabulate (or plot) quantities",
      "loadstack sweep circuits/demo.stack moisture_r 1k 100k adc_in --log --plot sweep.svg", ls_cmd_sweep, 5},
     {"formula", "formula FILE QUANTITY", "QUANTITY as an exact formula of the parts' values (small circuits)",
-     "loadstack formula circuits/demo.stack adc_in --ideal", ls_cmd_formula, 2},
+     "loadstack formula circuits/strain_bridge.stack out --symbols vex,strain", ls_cmd_formula, 2},
     {"pick", "pick ratio R", "best pairs of standard (IEC 60063) values for a divider ratio R = rbot/(rtop+rbot)",
      "loadstack pick ratio 0.66 --series E24 --total 10k..100k", ls_cmd_pick, 2},
     {"demo", "demo", "the built-in demo circuit, solved (needs no file)", "loadstack demo", ls_cmd_demo, 0},
