@@ -470,6 +470,18 @@ static int lets_used(const fx *F, const ls_expr *e, const char **names, int *n, 
     }
 }
 
+/* Does the expression call a function (sqrt, min, ...)?  Such a value is no
+ * rational function of its lets, so the part's own name is its symbol. */
+static bool has_call(const ls_expr *e)
+{
+    switch (e->kind) {
+    case E_CALL: return true;
+    case E_NEG: return has_call(e->a);
+    case E_BIN: return has_call(e->a) || has_call(e->b);
+    default: return false;
+    }
+}
+
 /* The default symbols, in order of first mention: each part's main value
  * under the part's name, or the lets its value uses.  Returns the count (may
  * exceed cap: the caller reports it). */
@@ -481,7 +493,7 @@ static int default_symbols(const fx *F, const char **names, int cap)
         if (!has_symbolic_value(p))
             continue;
         const ls_expr *e = F->req->ideal && is_gain(p) ? NULL : value_expr(F, p);
-        if (!e || lets_used(F, e, names, &n, cap) == 0) {
+        if (!e || has_call(e) || lets_used(F, e, names, &n, cap) == 0) {
             if (n < cap)
                 names[n] = p->name;
             n++;
@@ -2085,19 +2097,21 @@ static char *poly_text(fx *F, const fmpq_mpoly_t p, bool paren)
  * denominator's leading one positive. */
 static void integral(fx *F, rf *a)
 {
-    fmpq_t c;
+    /* through plain pointers: gcc 12 misjudges the array-typed FLINT handles here */
+    fmpq_mpoly_struct *num = a->n, *den = a->d;
+    const fmpq_mpoly_ctx_struct *ctx = F->ctx;
+    if (fmpq_mpoly_is_zero(den, ctx))
+        return;
+    fmpq_t c, lc;
     fmpq_init(c);
-    fmpq_mpoly_content(c, a->d, F->ctx);
-    if (!fmpq_is_zero(c)) {
-        fmpq_t lc;
-        fmpq_init(lc);
-        fmpq_mpoly_get_term_coeff_fmpq(lc, a->d, 0, F->ctx);
-        if (fmpq_sgn(lc) < 0)
-            fmpq_neg(c, c);
-        fmpq_mpoly_scalar_div_fmpq(a->n, a->n, c, F->ctx);
-        fmpq_mpoly_scalar_div_fmpq(a->d, a->d, c, F->ctx);
-        fmpq_clear(lc);
-    }
+    fmpq_init(lc);
+    fmpq_mpoly_content(c, den, ctx);
+    fmpq_mpoly_get_term_coeff_fmpq(lc, den, 0, ctx);
+    if (fmpq_sgn(lc) < 0)
+        fmpq_neg(c, c);
+    fmpq_mpoly_scalar_div_fmpq(num, num, c, ctx);
+    fmpq_mpoly_scalar_div_fmpq(den, den, c, ctx);
+    fmpq_clear(lc);
     fmpq_clear(c);
 }
 
@@ -2198,30 +2212,108 @@ static char *join3(const char *a, const char *b, const char *c)
     return s;
 }
 
-/* Fill res's texts from the final rational function. */
-static int write_texts(fx *F, rf *a, ls_formula_result *res)
+/* The shorter of two texts (the first on a tie); frees the other. */
+static char *shorter(char *a, char *b)
+{
+    if (!a || (b && strlen(b) < strlen(a))) {
+        free(a);
+        return b;
+    }
+    free(b);
+    return a;
+}
+
+static char *best_text(fx *F, rf *a, int depth);
+
+/* A sum of parallel pairs and a rest: for a denominator factor a + b of two
+ * symbols, a/b's parallel pair (a || b) is taken out when that removes the
+ * factor from the denominator (a bridge's r1 || r2 + r3 || r4).  NULL when no
+ * factor comes out. */
+static char *parallel_sum_text(fx *F, const rf *a, int depth)
+{
+    factored fd;
+    if (depth > 4 || F->too_big || !factorize(F, a->d, &fd))
+        return NULL;
+    char *best = NULL;
+    slong dd = fmpq_mpoly_total_degree_si(a->d, F->ctx);
+    for (int i = 0; i < fd.n && !F->too_big; i++) {
+        const fmpq_mpoly_struct *d = fd.f[i].p;
+        if (fmpq_mpoly_length(d, F->ctx) != 2 || fmpq_mpoly_total_degree_si(d, F->ctx) != 1)
+            continue;
+        int va = -1, vb = -1;
+        for (int v = 0; v < F->nsym; v++)
+            if (fmpq_mpoly_degree_si(d, v, F->ctx) == 1) {
+                if (va < 0)
+                    va = v;
+                else
+                    vb = v;
+            }
+        if (va < 0 || vb < 0)
+            continue;
+        fmpq_t c;
+        fmpq_init(c);
+        bool ones = true;
+        for (slong t = 0; t < 2; t++) {
+            fmpq_mpoly_get_term_coeff_fmpq(c, d, t, F->ctx);
+            ones = ones && fmpq_is_one(c);
+        }
+        fmpq_clear(c);
+        if (!ones)
+            continue;
+        /* rest = a - va vb / (va + vb) */
+        rf par, rest;
+        rf_init(F, &par);
+        rf_init(F, &rest);
+        rf_set_var(F, &par, va);
+        rf_set_var(F, &rest, vb);
+        fmpq_mpoly_mul(par.n, par.n, rest.n, F->ctx);
+        fmpq_mpoly_set(par.d, d, F->ctx);
+        rf_addsub(F, &rest, a, &par, -1);
+        if (!rf_is_zero(F, &rest) && fmpq_mpoly_total_degree_si(rest.d, F->ctx) < dd) {
+            char *r = best_text(F, &rest, depth + 1);
+            if (r) {
+                size_t n = strlen(r) + strlen(F->sym[va].name) + strlen(F->sym[vb].name) + 16;
+                char *t = malloc(n);
+                if (t)
+                    snprintf(t, n, "(%s || %s) %s %s", F->sym[va].name, F->sym[vb].name, r[0] == '-' ? "-" : "+",
+                             r[0] == '-' ? r + 1 : r);
+                free(r);
+                best = shorter(best, t);
+            }
+        }
+        rf_clear(F, &par);
+        rf_clear(F, &rest);
+    }
+    factored_clear(F, &fd);
+    return best;
+}
+
+/* The shortest of the factored text, the expanded N / D and a sum of
+ * parallel pairs; NULL when out of memory.  a is made integral (integral()). */
+static char *best_text(fx *F, rf *a, int depth)
 {
     integral(F, a);
-    char *num = poly_text(F, a->n, false), *den = poly_text(F, a->d, false);
-    char *fac = factored_text(F, a);
     bool den1 = fmpq_mpoly_is_one(a->d, F->ctx);
     char *pn = poly_text(F, a->n, !den1), *pd = poly_text(F, a->d, true);
     char *expanded = den1 ? (pn ? strdup(pn) : NULL) : (pn && pd ? join3(pn, " / ", pd) : NULL);
     free(pn);
     free(pd);
-    if (!num || !den || !expanded) {
+    char *best = shorter(factored_text(F, a), expanded);
+    if (!den1)
+        best = shorter(best, parallel_sum_text(F, a, depth));
+    return best;
+}
+
+/* Fill res's texts from the final rational function. */
+static int write_texts(fx *F, rf *a, ls_formula_result *res)
+{
+    integral(F, a);
+    char *num = poly_text(F, a->n, false), *den = poly_text(F, a->d, false);
+    res->expression = best_text(F, a, 0);
+    if (!num || !den || !res->expression) {
         free(num);
         free(den);
-        free(fac);
-        free(expanded);
         return LS_EXIT_UNSOLVABLE;
-    }
-    if (fac && strlen(fac) <= strlen(expanded)) {
-        res->expression = fac;
-        free(expanded);
-    } else {
-        res->expression = expanded;
-        free(fac);
     }
     /* the numerator and denominator each as the shorter of factored and expanded */
     rf part;
@@ -2250,9 +2342,13 @@ static int list_symbols(fx *F, const rf *a, ls_formula_result *res)
     res->symbols = calloc((size_t)F->nsym + 1, sizeof *res->symbols);
     if (!res->symbols)
         return -1;
-    for (int v = 0; v < F->nsym; v++)
+    for (int v = 0; v < F->nsym; v++) {
         if (depends_on(F, a, v))
             res->symbols[res->nsymbols++] = strdup(F->sym[v].name);
+        else if (F->req->symbols && !(F->req->ideal && F->sym[v].gain))
+            note(F, "%s: asked for as a symbol, but the quantity does not depend on it (or it reaches the "
+                 "circuit only through a block's parameters, which go in as numbers)", F->sym[v].name);
+    }
     return 0;
 }
 

@@ -58,7 +58,7 @@ static void report_json(FILE *o, const ls_cli *cli, const ls_formula_result *r)
     ls_json_number(o, r->difference);
     fputs(", \"bound\": ", o);
     ls_json_number(o, r->bound);
-    fputs(",\n \"numbers\": [", o);
+    fputs(",\n \"notes\": [", o);
     for (int i = 0; i < r->nnotes; i++) {
         fputs(i ? ", " : "", o);
         ls_json_string(o, r->notes[i]);
@@ -127,7 +127,7 @@ static void report_text(FILE *o, const ls_cli *cli, const ls_formula_result *r, 
             fprintf(o, "  self-check: relative difference %.2g (at most 1e-12)\n", r->difference);
     }
     if (r->nnotes) {
-        fputs("\n  taken as numbers, not symbols:\n", o);
+        fputs("\n  notes:\n", o);
         for (int i = 0; i < r->nnotes; i++)
             fprintf(o, "    %s\n", r->notes[i]);
     }
