@@ -17,6 +17,7 @@
 #include "formula.h"
 
 #include <flint/fmpq.h>
+#include <flint/fmpz_vec.h>
 #include <flint/fmpq_mpoly.h>
 #include <flint/fmpq_mpoly_factor.h>
 #include <float.h>
@@ -110,10 +111,19 @@ static bool check_len(fx *F, const fmpq_mpoly_t p)
     return !F->too_big;
 }
 
-/* p <- a * b, charged. */
+/* Machine words of the largest coefficient of a (its integer part's). */
+static double coeff_words(const fmpq_mpoly_t a)
+{
+    slong bits = _fmpz_vec_max_bits(a->zpoly->coeffs, a->zpoly->length);
+    return 1 + (double)FLINT_ABS(bits) / 64;
+}
+
+/* p <- a * b, charged its term products weighted by the coefficients' size
+ * (long numbers multiply slower). */
 static void pmul(fx *F, fmpq_mpoly_t p, const fmpq_mpoly_t a, const fmpq_mpoly_t b)
 {
-    if (!charge(F, fmpq_mpoly_length(a, F->ctx), fmpq_mpoly_length(b, F->ctx)))
+    double w = 0.5 * (coeff_words(a) + coeff_words(b));
+    if (!charge(F, (slong)((double)fmpq_mpoly_length(a, F->ctx) * w), fmpq_mpoly_length(b, F->ctx)))
         return;
     fmpq_mpoly_mul(p, a, b, F->ctx);
     check_len(F, p);
@@ -1651,8 +1661,32 @@ static void sb_put(sbuf *b, const char *t)
 }
 
 /* Text of |q|: a whole number, an exact decimal (1.5, 0.0047, 2.2e-9), or p / q. */
+/* Does the exact text of q need more than 20 digits?  Such a number (it comes
+ * from many numeric values multiplied together) is printed rounded. */
+static bool long_number(const fmpq_t q)
+{
+    return fmpz_sizeinbase(fmpq_numref(q), 10) + fmpz_sizeinbase(fmpq_denref(q), 10) > 21;
+}
+
+/* |q| as the shortest decimal that reads back as the double nearest to it. */
+static void put_rounded(sbuf *b, const fmpq_t q)
+{
+    double v = fabs(fmpq_get_d(q));
+    char buf[40];
+    for (int prec = 1; prec <= 17; prec++) {
+        snprintf(buf, sizeof buf, "%.*g", prec, v);
+        if (strtod(buf, NULL) == v)
+            break;
+    }
+    sb_put(b, buf);
+}
+
 static void put_number(sbuf *b, const fmpq_t q)
 {
+    if (long_number(q)) {
+        put_rounded(b, q);
+        return;
+    }
     fmpz_t num, den, r;
     fmpz_init(num);
     fmpz_init(den);
@@ -2111,8 +2145,42 @@ static void integral(fx *F, rf *a)
         fmpq_neg(c, c);
     fmpq_mpoly_scalar_div_fmpq(num, num, c, ctx);
     fmpq_mpoly_scalar_div_fmpq(den, den, c, ctx);
+    /* Whole coefficients of more than 15 digits (many numeric values
+     * multiplied) are divided by a common power of ten, exactly, so that the
+     * printed numbers stay within what a double holds. */
+    slong len = fmpq_mpoly_length(den, ctx);
+    size_t digits = 0;
+    for (slong t = 0; t < len; t++) {
+        fmpq_mpoly_get_term_coeff_fmpq(lc, den, t, ctx);
+        size_t dg = fmpz_sizeinbase(fmpq_numref(lc), 10);
+        digits = dg > digits ? dg : digits;
+    }
+    if (digits > 15) {
+        fmpz_t p10;
+        fmpz_init(p10);
+        fmpz_set_ui(p10, 10);
+        fmpz_pow_ui(p10, p10, digits - 1);
+        fmpq_set_fmpz(c, p10);
+        fmpq_mpoly_scalar_div_fmpq(num, num, c, ctx);
+        fmpq_mpoly_scalar_div_fmpq(den, den, c, ctx);
+        fmpz_clear(p10);
+    }
     fmpq_clear(lc);
     fmpq_clear(c);
+}
+
+/* Does the text of the polynomial need rounded numbers (long_number)? */
+static bool has_long_number(fx *F, const fmpq_mpoly_t p)
+{
+    fmpq_t c;
+    fmpq_init(c);
+    bool any = false;
+    for (slong t = 0; t < fmpq_mpoly_length(p, F->ctx) && !any; t++) {
+        fmpq_mpoly_get_term_coeff_fmpq(c, p, t, F->ctx);
+        any = long_number(c);
+    }
+    fmpq_clear(c);
+    return any;
 }
 
 /* ---- reading the text back ------------------------------------------------------------------- */
@@ -2310,6 +2378,9 @@ static int write_texts(fx *F, rf *a, ls_formula_result *res)
     integral(F, a);
     char *num = poly_text(F, a->n, false), *den = poly_text(F, a->d, false);
     res->expression = best_text(F, a, 0);
+    if (has_long_number(F, a->n) || has_long_number(F, a->d))
+        note(F, "coefficients of more than 20 digits are printed rounded to 17 significant digits (the "
+                "computation and the value are exact)");
     if (!num || !den || !res->expression) {
         free(num);
         free(den);
