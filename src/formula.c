@@ -1661,11 +1661,12 @@ static void sb_put(sbuf *b, const char *t)
 }
 
 /* Text of |q|: a whole number, an exact decimal (1.5, 0.0047, 2.2e-9), or p / q. */
-/* Does the exact text of q need more than 20 digits?  Such a number (it comes
- * from many numeric values multiplied together) is printed rounded. */
+/* Would the exact text of q need a number of more than 40 digits?  Such a
+ * number (from many numeric values multiplied together) is printed rounded:
+ * the language reads numbers of up to 127 characters, as doubles. */
 static bool long_number(const fmpq_t q)
 {
-    return fmpz_sizeinbase(fmpq_numref(q), 10) + fmpz_sizeinbase(fmpq_denref(q), 10) > 21;
+    return fmpz_sizeinbase(fmpq_numref(q), 10) > 40 || fmpz_sizeinbase(fmpq_denref(q), 10) > 40;
 }
 
 /* |q| as the shortest decimal that reads back as the double nearest to it. */
@@ -2145,7 +2146,7 @@ static void integral(fx *F, rf *a)
         fmpq_neg(c, c);
     fmpq_mpoly_scalar_div_fmpq(num, num, c, ctx);
     fmpq_mpoly_scalar_div_fmpq(den, den, c, ctx);
-    /* Whole coefficients of more than 15 digits (many numeric values
+    /* Whole coefficients of more than 30 digits (many numeric values
      * multiplied) are divided by a common power of ten, exactly, so that the
      * printed numbers stay within what a double holds. */
     slong len = fmpq_mpoly_length(den, ctx);
@@ -2155,7 +2156,7 @@ static void integral(fx *F, rf *a)
         size_t dg = fmpz_sizeinbase(fmpq_numref(lc), 10);
         digits = dg > digits ? dg : digits;
     }
-    if (digits > 15) {
+    if (digits > 30) {
         fmpz_t p10;
         fmpz_init(p10);
         fmpz_set_ui(p10, 10);
@@ -2379,7 +2380,7 @@ static int write_texts(fx *F, rf *a, ls_formula_result *res)
     char *num = poly_text(F, a->n, false), *den = poly_text(F, a->d, false);
     res->expression = best_text(F, a, 0);
     if (has_long_number(F, a->n) || has_long_number(F, a->d))
-        note(F, "coefficients of more than 20 digits are printed rounded to 17 significant digits (the "
+        note(F, "numbers of more than 40 digits are printed rounded to 17 significant digits (the "
                 "computation and the value are exact)");
     if (!num || !den || !res->expression) {
         free(num);
