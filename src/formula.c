@@ -2219,6 +2219,42 @@ static bool text_reads_back(fx *F, const char *text, double want)
 
 /* ---- the command's work ---------------------------------------------------------------------- */
 
+/* Sum of |current| of every part touching node (A): the scale of the terms
+ * Kirchhoff's current law adds up there, so of the rounding in a branch
+ * current the law determines. */
+static double node_current_scale(ls_op *op, int node)
+{
+    double s = 0;
+    if (node <= 0)
+        return 0;
+    for (int i = 0; i < op->nl->nparts; i++)
+        for (int k = 0; k < op->nl->parts[i].kind->npins && k < LS_MAX_PINS; k++)
+            if (op->nl->parts[i].pin[k] == node && isfinite(op->ipart[i])) {
+                s += fabs(op->ipart[i]);
+                break;
+            }
+    return s;
+}
+
+/* Is q (or a part of it) a port field the solver computes in a modified
+ * system (a port opened): open, zout, zin, sag, sag_rel, ratio? */
+static bool uses_modified_system(const ls_q *q)
+{
+    switch (q->kind) {
+    case Q_PROP:
+        return q->prop == PROP_OPEN || q->prop == PROP_SAG || q->prop == PROP_SAG_REL || q->prop == PROP_ZOUT ||
+               q->prop == PROP_ZIN || q->prop == PROP_RATIO;
+    case Q_NEG: return uses_modified_system(q->a);
+    case Q_BIN: return uses_modified_system(q->a) || uses_modified_system(q->b);
+    case Q_CALL:
+        for (int i = 0; i < q->nargs; i++)
+            if (uses_modified_system(q->args[i]))
+                return true;
+        return false;
+    default: return false;
+    }
+}
+
 /* The size of the numbers the solver combined to get q: |v| for a node,
  * sum |c_j x_j| for a part's current, |a| + |b| for a sum or difference.  A
  * difference of two nearly equal node voltages carries the rounding of the
@@ -2245,6 +2281,7 @@ static double q_magnitude(ls_op *op, const ls_q *q)
             double m = fabs(l.constant);
             for (int i = 0; i < l.n; i++)
                 m += fabs(l.coef[i] * op->x[l.idx[i]]);
+            m = fmax(m, 1e-3 * node_current_scale(op, p->pin[0]));
             if (q->prop == PROP_POWER)
                 m *= fabs(op->v[p->pin[0]]) + (p->kind->npins > 1 ? fabs(op->v[p->pin[1]]) : 0);
             return fmax(m, fabs(ls_q_eval(op, q)));
@@ -2479,7 +2516,8 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
      * solve already warned that the system is ill-conditioned, a difference
      * within its error bound (4 eps / rcond) is the solver's, not the formula's;
      * elsewhere the bound is 1e-12. */
-    double bound = LS_FORMULA_SELF_CHECK, solver_bound = INFINITY;
+    double bound = uses_modified_system(q) ? LS_FORMULA_SELF_CHECK_PORTS : LS_FORMULA_SELF_CHECK;
+    double solver_bound = INFINITY;
     if (F->op->rcond > 0 && isfinite(F->op->rcond))
         solver_bound = 4 * DBL_EPSILON / F->op->rcond;
     if (F->op->rcond < LS_FORMULA_RCOND_ILL)

@@ -12,6 +12,8 @@
 #define LS_FORMULA_MAX_TERMS 4000      /* terms of any polynomial during the elimination */
 #define LS_FORMULA_WORK 40000000.0     /* term products over the whole computation (about half a second) */
 #define LS_FORMULA_RCOND_ILL 1e-11    /* below this the solve warns "ill-conditioned" (analysis.c) */
+#define LS_FORMULA_SELF_CHECK_PORTS 1e-9 /* port fields the solver gets from low-rank updates of its
+                                           factorization (open, zout, zin, sag, ratio): more rounding */
 #define LS_FORMULA_SELF_CHECK 1e-12    /* relative: formula at the file's numbers against the solver
                                           (or the solver's own error bound, 4 eps / rcond, when larger) */
 

@@ -120,11 +120,10 @@ static void report_text(FILE *o, const ls_cli *cli, const ls_formula_result *r, 
     } else {
         fprintf(o, "\n  formula at the file's numbers   %s\n", ls_fmt_full(b1, sizeof b1, r->value));
         fprintf(o, "  solver                          %s\n", ls_fmt_full(b2, sizeof b2, r->solve));
-        if (r->bound > LS_FORMULA_SELF_CHECK)
-            fprintf(o, "  self-check: relative difference %.2g (at most %.2g, the solver's own error bound here:\n"
-                       "              the system is ill-conditioned)\n", r->difference, r->bound);
-        else
-            fprintf(o, "  self-check: relative difference %.2g (at most 1e-12)\n", r->difference);
+        fprintf(o, "  self-check: relative difference %.2g (at most %.2g%s)\n", r->difference, r->bound,
+                r->bound == LS_FORMULA_SELF_CHECK         ? ""
+                : r->bound == LS_FORMULA_SELF_CHECK_PORTS ? ": a port field, which the solver gets by low-rank updates"
+                                                          : ": the solver's own error bound, the system is ill-conditioned");
     }
     if (r->nnotes) {
         fputs("\n  notes:\n", o);
