@@ -2,7 +2,8 @@
 
 Each network (3 to 8 nodes: resistors, voltage sources with and without an
 internal resistance, current sources, op-amps with a finite gain, some with an
-output or input resistance) is written as a circuit file; loadstack gives a
+output or input resistance, sometimes a port into a load of its own) is written
+as a circuit file; loadstack gives a
 quantity as a formula of some of the parts' values.  The same nodal equations,
 written here independently from Kirchhoff's current law and each part's
 branch equation, are solved by sympy (Debian's python3-sympy) with the same
@@ -73,8 +74,14 @@ def network(rng):
         if rng.random() < 0.3:
             extra += " rin=%s" % val(5, 6)
         parts.append(dict(kind="opamp", pins=(plus, minus, out), value=val(3, 5), opts=extra))
+    if rng.random() < 0.4:
+        # a port from a node into a load of its own (a resistor to ground)
+        drv = rng.choice(nodes[1:])
+        nodes.append("ld")
+        parts.append(dict(kind="port", pins=(drv, "ld"), value=""))
+        parts.append(dict(kind="resistor", pins=("ld", "gnd"), value=val(3, 5)))
     for k, p in enumerate(parts):
-        p["name"] = {"resistor": "r", "voltage": "v", "current": "i", "opamp": "u"}[p["kind"]] + str(k)
+        p["name"] = {"resistor": "r", "voltage": "v", "current": "i", "opamp": "u", "port": "p"}[p["kind"]] + str(k)
         p.setdefault("opts", "")
     return parts, nodes
 
@@ -82,7 +89,9 @@ def network(rng):
 def circuit_text(parts):
     lines = ["ground gnd"]
     for p in parts:
-        if p["kind"] == "opamp":
+        if p["kind"] == "port":
+            lines.append("port %s %s -> %s" % ((p["name"],) + p["pins"]))
+        elif p["kind"] == "opamp":
             lines.append("opamp %s plus=%s minus=%s out=%s gain=%s%s" % ((p["name"],) + p["pins"] + (p["value"], p["opts"])))
         else:
             lines.append("%s %s %s -> %s %s%s" % (p["kind"], p["name"], p["pins"][0], p["pins"][1], p["value"], p["opts"]))
@@ -101,15 +110,48 @@ def opt(p, name):
 
 
 def reference(parts, nodes, symbols, quantity):
-    """Solve the nodal equations with sympy; the quantity as a rational function."""
+    """The quantity as a rational function, from sympy's solutions of the nodal equations."""
+    kind, what = quantity
+    if kind == "port":
+        port, field = what
+        drv, ld = next(p["pins"] for p in parts if p["name"] == port)
+        loaded = solve_nodes(parts, nodes, symbols, ("node", drv))
+        opened = solve_nodes(parts, nodes, symbols, ("node", drv), opened=port)
+        if field == "loaded":
+            return loaded
+        if field == "open":
+            return opened
+        if field == "sag":
+            return sp.cancel(sp.together(opened - loaded))
+        node = drv if field == "zout" else ld
+        return solve_nodes(parts, nodes, symbols, ("node", node), opened=port, inject=node)
+    return solve_nodes(parts, nodes, symbols, quantity)
+
+
+def solve_nodes(parts, nodes, symbols, quantity, opened=None, inject=None):
+    """Solve the nodal equations with sympy, the port `opened` left out; with
+    `inject`, independent sources zeroed and 1 A driven into that node (the
+    driving-point resistance there)."""
     v = {n: (sp.Integer(0) if n == "gnd" else sp.Symbol("V_" + n)) for n in nodes}
-    value = {p["name"]: (sp.Symbol(p["name"]) if p["name"] in symbols else num(p["value"])) for p in parts}
+    value = {p["name"]: (sp.Symbol(p["name"]) if p["name"] in symbols else num(p["value"]))
+             for p in parts if p["kind"] != "port"}
     leaving = {n: sp.Integer(0) for n in nodes}          # current leaving each node into the parts
     eqs, unknowns = [], [v[n] for n in nodes[1:]]
     current = {}
+    if inject:
+        leaving[inject] -= 1
     for p in parts:
         a = p["pins"][0]
-        if p["kind"] == "resistor":
+        src = sp.Integer(0) if inject else value.get(p["name"], 0)
+        if p["kind"] == "port":
+            if p["name"] != opened:                  # a zero-volt branch, current from a to b
+                b = p["pins"][1]
+                i = sp.Symbol("I_" + p["name"])
+                unknowns.append(i)
+                leaving[a] += i
+                leaving[b] -= i
+                eqs.append(sp.Eq(v[b] - v[a], 0))
+        elif p["kind"] == "resistor":
             b = p["pins"][1]
             i = (v[a] - v[b]) / value[p["name"]]
             leaving[a] += i
@@ -117,15 +159,15 @@ def reference(parts, nodes, symbols, quantity):
             current[p["name"]] = i
         elif p["kind"] == "current":
             b = p["pins"][1]
-            leaving[a] += value[p["name"]]
-            leaving[b] -= value[p["name"]]
+            leaving[a] += src
+            leaving[b] -= src
         elif p["kind"] == "voltage":
             b = p["pins"][1]
             i = sp.Symbol("I_" + p["name"])          # through the source, from a to b
             unknowns.append(i)
             leaving[a] += i
             leaving[b] -= i
-            eqs.append(sp.Eq(v[b] - v[a], value[p["name"]] - opt(p, "rint") * i))
+            eqs.append(sp.Eq(v[b] - v[a], src - opt(p, "rint") * i))
         else:                                        # op-amp: V(out) = A (V+ - V-) - rout * I(out)
             plus, minus, out = p["pins"]
             i = sp.Symbol("I_" + p["name"])          # delivered into out
@@ -164,11 +206,12 @@ def main():
     a = ap.parse_args()
     rng = random.Random(a.seed)
     bad = done = solver_off = 0
+    kinds = {}
     with tempfile.TemporaryDirectory() as d:
         path = os.path.join(d, "net.stack")
         while done < a.count:
             parts, nodes = network(rng)
-            names = [p["name"] for p in parts]
+            names = [p["name"] for p in parts if p["kind"] != "port"]
             k = rng.randint(2, min(5, len(names)))
             symbols = rng.sample(names, k)
             gains = [p["name"] for p in parts if p["kind"] == "opamp"]
@@ -176,7 +219,12 @@ def main():
                 symbols[0] = gains[0]
             r = rng.random()
             resistors = [p["name"] for p in parts if p["kind"] == "resistor"]
-            if r < 0.6:
+            ports = [p["name"] for p in parts if p["kind"] == "port"]
+            if ports and r < 0.7:
+                field = rng.choice(["open", "loaded", "sag", "zout", "zin"])
+                quantity = ("port", (ports[0], field))
+                qtext = "%s.%s" % (ports[0], field)
+            elif r < 0.6:
                 quantity = ("node", rng.choice(nodes[1:]))
                 qtext = quantity[1]
             elif r < 0.8:
@@ -190,6 +238,8 @@ def main():
                 f.write(circuit_text(parts))
             args = [a.prog, "formula", path, qtext, "--format", "json", "--symbols", ",".join(symbols)]
             p = subprocess.run(args, capture_output=True, text=True, timeout=60)
+            if p.returncode == 2 and "no finite formula" in p.stderr:
+                continue                           # a port field that is unbounded there: draw another
             if p.returncode == 3 and ("singular" in p.stderr or "cannot be solved" in p.stderr
                                       or "no convergence" in p.stderr or "self-check" not in p.stderr
                                       and "loop" in p.stderr):
@@ -198,6 +248,7 @@ def main():
                 solver_off += 1                    # an ill-conditioned network: the solver, not the formula
                 continue
             done += 1
+            kinds[quantity[0]] = kinds.get(quantity[0], 0) + 1
             if p.returncode != 0:
                 print("FAIL %d: exit %d\n%s%s" % (done, p.returncode, circuit_text(parts), p.stderr))
                 bad += 1
@@ -208,6 +259,7 @@ def main():
                 print("FAIL %d: %s\n%sloadstack: %s\nsympy:     %s" % (done, qtext, circuit_text(parts), got, want))
                 bad += 1
     print("%d of %d random networks: loadstack's formula equals sympy's solution" % (a.count - bad, a.count))
+    print("quantities: %s" % ", ".join("%d %s" % (n, k) for k, n in sorted(kinds.items())))
     print("%d more were set aside: the solver's own error bound exceeded 1e-12 there" % solver_off)
     if solver_off > a.count // 8:
         print("FAIL: too many networks set aside (%d)" % solver_off)
