@@ -651,6 +651,34 @@ void ls_real_warnings(ls_op *op)
 
 /* ---- ADC inputs ---------------------------------------------------------------------------- */
 
+/* The verdict of adc i from its error in LSB (against the budget of the
+ * port that feeds it, else half an LSB) and its source resistance. */
+static void adc_verdict(ls_op *op, int i, ls_adc_result *r)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    r->budget_lsb = 0.5;
+    for (int j = 0; j < nl->nparts; j++) {
+        if (!nl->parts[j].kind->is_port || nl->parts[j].pin[1] != p->pin[0])
+            continue;
+        const ls_port_result *pr = ls_op_port(op, j);
+        if (pr && pr->by_budget && pr->budget_from != LS_BUDGET_FROM_ADC)
+            r->budget_lsb = pr->budget / r->lsb;
+        break;
+    }
+    int mi = ls_kind_opt(p->kind, "max_source");
+    r->source_high = ls_part_has(p, mi) && !(r->rth <= p->opt[mi]);
+    double e = fabs(r->error_lsb), b = r->budget_lsb;
+    if (!isfinite(e) || e > 2 * b + ls_check_slack(2 * b))
+        r->verdict = VERDICT_LOADING;
+    else if (e > b + ls_check_slack(b))
+        r->verdict = VERDICT_MARGINAL;
+    else
+        r->verdict = VERDICT_OK;
+    if (r->source_high)
+        r->verdict = VERDICT_LOADING;
+}
+
 int ls_op_adc(ls_op *op, int i, ls_adc_result *r)
 {
     const ls_part *p = &op->nl->parts[i];
@@ -658,10 +686,10 @@ int ls_op_adc(ls_op *op, int i, ls_adc_result *r)
         return -1;
     int node = p->pin[0];
     double rin = ls_part_opt(p, "rin", 0), leak = ls_part_opt(p, "leak", 0);
-    double ref = ls_part_opt(p, "ref", 1), levels = ldexp(1, (int)ls_part_opt(p, "bits", 1));
+    double levels = ldexp(1, (int)ls_part_opt(p, "bits", 1));
     memset(r, 0, sizeof *r);
     r->vin = op->v[node];
-    r->lsb = ref / levels;
+    r->lsb = ls_adc_lsb(p);
     /* The driving-point resistance includes the ADC's own rin in parallel. */
     double zd = ls_op_zdrive(op, node);
     if (rin > 0)
@@ -673,5 +701,6 @@ int ls_op_adc(ls_op *op, int i, ls_adc_result *r)
     r->error_lsb = (r->vin - r->v_open) / r->lsb;
     double code = floor(r->vin / r->lsb);
     r->code = (long long)fmax(0, fmin(levels - 1, code));
+    adc_verdict(op, i, r);
     return 0;
 }

@@ -349,6 +349,54 @@ static bool alloc_dual(ctx *c, dual *d)
 
 static bool eval(ctx *c, const ls_q *q, dual *out);
 
+/* A thermistor's resistance or temperature with its gradient.  Without
+ * self-heating the body sits at celsius=, so the temperature is fixed and
+ * R = r25 exp(B (1/T - 1/T25)) is proportional to r25 (its main value). */
+static bool ntc_prop(ctx *c, int j, ls_prop prop, dual *out)
+{
+    const ls_part *p = &c->op->nl->parts[j];
+    double t = ls_ntc_body(p);
+    if (ls_part_has(p, ls_kind_opt(p->kind, "dissipation"))) {
+        c->error = "a self-heating thermistor's resistance and temperature have no adjoint here; use tol or sweep";
+        return false;
+    }
+    memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+    out->v = prop == PROP_TEMPERATURE ? t : ls_ntc_r(p, t);
+    if (prop == PROP_RESISTANCE)
+        out->g[j] = out->v / p->value;
+    return true;
+}
+
+static bool port_field(ctx *c, int j, ls_prop prop, dual *out);
+
+/* A port's budget with its gradient: a fraction of open moves with open,
+ * volts, amperes and LSB are fixed. */
+static bool port_budget_dual(ctx *c, int j, dual *out)
+{
+    const ls_netlist *nl = c->op->nl;
+    const ls_part *p = &nl->parts[j];
+    const ls_port_result *pr = ls_op_port(c->op, j);
+    if (!pr) {
+        c->error = "out of memory";
+        return false;
+    }
+    int bi = ls_kind_opt(p->kind, "budget");
+    const ls_budget *b = pr->budget_from == LS_BUDGET_FROM_PORT ? &nl->budgets[(int)p->opt[bi]]
+                       : pr->budget_from == LS_BUDGET_FROM_RULE ? &nl->rule_sag : NULL;
+    memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+    if (b && b->unit == LS_BUDGET_FRACTION && isfinite(pr->budget)) {
+        if (!port_field(c, j, PROP_OPEN, out))
+            return false;
+        double sgn = pr->open < 0 ? -1 : 1;
+        for (int k = 0; k < c->np; k++)
+            out->g[k] *= sgn * b->value;
+    }
+    out->v = pr->budget;
+    if (!isfinite(out->v))
+        fill_nan(c, out->g);
+    return true;
+}
+
 /* A property leaf (PART.current, PORT.zout, ...) with its gradient. */
 static bool eval_prop(ctx *c, const ls_q *q, dual *out)
 {
@@ -379,6 +427,25 @@ static bool eval_prop(ctx *c, const ls_q *q, dual *out)
     }
     case PROP_LOADED:
         return port_loaded(c, q->index, out);
+    case PROP_VALUE:
+        /* d(value of j)/d(value of m) is 1 for m = j */
+        memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+        out->v = p->value;
+        if (has_main(p))
+            out->g[q->index] = 1;
+        return true;
+    case PROP_RESISTANCE:
+    case PROP_TEMPERATURE:
+        return ntc_prop(c, q->index, q->prop, out);
+    case PROP_BUDGET:
+        return port_budget_dual(c, q->index, out);
+    case PROP_CODE:
+    case PROP_ERROR_LSB:
+    case PROP_UNLOADED:
+    case PROP_SOURCE:
+        c->error = "an adc's code, error_lsb, unloaded and source have no adjoint here; "
+                   "use tol or sweep for how they move";
+        return false;
     default:
         if (!p->kind->is_port) {
             c->error = "only a port has open, sag, zout, zin and ratio fields";
