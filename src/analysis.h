@@ -20,6 +20,7 @@ typedef struct ls_port_result {
     bool done;
     bool current_mode;
     double open, loaded, sag, sag_rel, zout, zin, ratio, current;  /* NaN undefined, inf unbounded */
+    double load_open;        /* V(LOAD) with the port opened (voltage mode; NaN when unknown) */
     double budget;           /* largest |sag| allowed (V, or A in current mode); NaN: none */
     int budget_from;         /* LS_BUDGET_FROM_*: where the budget comes from */
     int adc;                 /* an adc part on the load node (the one with the smallest LSB), or -1 */

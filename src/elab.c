@@ -1552,9 +1552,64 @@ static void resolve_refs(elab *x)
     }
 }
 
+/* The node with a name nearest to node i's (edit distance at most 2) among
+ * the nodes some part touches (cnt), or -1. */
+static int near_node(const ls_netlist *nl, int i, const int *cnt)
+{
+    int best = -1, bd = 3;
+    for (int j = 0; j < nl->nnodes; j++) {
+        if (j == i || cnt[j] < 1)
+            continue;
+        int d = ls_edit_distance(nl->nodes[i].name, nl->nodes[j].name);
+        if (d < bd) {
+            bd = d;
+            best = j;
+        }
+    }
+    return best;
+}
+
+/* A node that only one pin of one part touches joins nothing: most often a
+ * mistyped name that made a new node.  Suggestions are looked for only for
+ * the first few (each costs a pass over the nodes). */
+static void single_connection_warnings(elab *x)
+{
+    ls_netlist *nl = x->nl;
+    int *cnt = calloc((size_t)(nl->nnodes ? nl->nnodes : 1), sizeof *cnt);
+    int *who = malloc((size_t)(nl->nnodes ? nl->nnodes : 1) * sizeof *who);
+    if (!cnt || !who) {
+        free(cnt);
+        free(who);
+        return;
+    }
+    for (int i = 0; i < nl->nparts; i++)
+        for (int j = 0; j < nl->parts[i].kind->npins; j++) {
+            int n = nl->parts[i].pin[j];
+            if (n >= 0 && n < nl->nnodes) {
+                cnt[n]++;
+                who[n] = i;
+            }
+        }
+    int warned = 0;
+    for (int i = 1; i < nl->nnodes; i++) {
+        if (cnt[i] != 1)
+            continue;
+        const ls_part *p = &nl->parts[who[i]];
+        int near = warned++ < 20 ? near_node(nl, i, cnt) : -1;
+        ls_warning(x->d, nl->nodes[i].loc, "single-connection",
+                   "node '%s' has only one connection (%s '%s'), so it joins nothing; is the name mistyped?%s%s%s",
+                   nl->nodes[i].name, p->kind->name, p->name, near >= 0 ? " (did you mean '" : "",
+                   near >= 0 ? nl->nodes[near].name : "", near >= 0 ? "'?)" : "");
+    }
+    free(cnt);
+    free(who);
+}
+
 static void final_checks(elab *x)
 {
     ls_netlist *nl = x->nl;
+    if (x->d->errors == 0)
+        single_connection_warnings(x);
     for (int i = 0; i < nl->nnodes; i++) {
         const ls_node *n = &nl->nodes[i];
         if (n->dotted_ref && !n->claimed) {

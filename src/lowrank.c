@@ -19,6 +19,7 @@
 #include <string.h>
 
 #include "elab.h"
+#include "fmt.h"
 #include "lowrank.h"
 
 #define MAX_RANK 64
@@ -1214,6 +1215,30 @@ static void note_warning(ls_op *op, int pi, const char *note)
     ls_warning(d, p->loc, "port-undefined", "port '%s': %s", p->name, note);
 }
 
+/* A voltage-mode port whose current flows from LOAD back to DRIVER while,
+ * opened, the load side stands at more than ten times the driver's open
+ * voltage: the load side is the one that makes the signal, so the arrow is
+ * most likely reversed (the sag is then meaningless, often huge). */
+static void reversed_warning(ls_op *op, int pi, const ls_port_result *r)
+{
+    const ls_part *p = &op->nl->parts[pi];
+    if (r->current_mode || !(r->current < 0) || !isfinite(r->load_open) || !isfinite(r->open) ||
+        !(fabs(r->load_open) > 10 * fabs(r->open)) || !(fabs(r->load_open) > 1e-9 * ls_op_volts(op)))
+        return;
+    ls_diags *d = op->nl->diags;
+    for (int i = 0; i < d->n; i++)
+        if (d->items[i].code && strcmp(d->items[i].code, "port-reversed") == 0 && d->items[i].loc.file == p->loc.file &&
+            d->items[i].loc.start == p->loc.start)
+            return;
+    char a[48], b[48];
+    ls_warning(d, p->loc, "port-reversed",
+               "port '%s': its current flows backwards, from '%s' to '%s', and opened the load side stands at %s "
+               "against the driver side's %s; is the arrow reversed (port %s %s -> %s)?",
+               p->name, op->nl->nodes[p->pin[1]].name, op->nl->nodes[p->pin[0]].name,
+               ls_fmt_eng(a, sizeof a, r->load_open, "V", 4, true), ls_fmt_eng(b, sizeof b, r->open, "V", 4, true),
+               p->name, op->nl->nodes[p->pin[1]].name, op->nl->nodes[p->pin[0]].name);
+}
+
 /* Voltage-mode fields: open from the port opened, impedances at both ends. */
 static void voltage_fields(ls_op *op, ls_mod *m, const ls_part *p, ls_port_result *r)
 {
@@ -1221,6 +1246,7 @@ static void voltage_fields(ls_op *op, ls_mod *m, const ls_part *p, ls_port_resul
     r->zout = z_at(m, f);
     r->zin = z_at(m, t);
     r->open = node_value(m, f);
+    r->load_open = node_value(m, t);
     r->loaded = op->v[f];
     if (m->singular)
         r->note = "opening this port leaves the circuit without a DC solution (is it inside a feedback loop?); "
@@ -1302,6 +1328,7 @@ static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r)
     r->zout = f >= 0 ? af[0] - af[2] * akf / akk : 0;
     r->zin = t >= 0 ? at[1] - at[2] * akt / akk : 0;
     r->open = f >= 0 ? op->x[f] - af[2] * op->x[k] / akk : 0;
+    r->load_open = t >= 0 ? op->x[t] - at[2] * op->x[k] / akk : 0;
     r->loaded = op->v[p->pin[0]];
     return true;
 }
@@ -1338,6 +1365,7 @@ static void port_report(ls_op *op, int pi, ls_port_result *r)
     r->current = op->x[p->branch];
     r->adc = -1;
     r->budget = NAN;
+    r->load_open = NAN;
     if (!r->current_mode && load_floats_when_open(op, pi) && port_held(op, pi, r)) {
         finish_report(op, pi, r);
         return;
@@ -1366,6 +1394,13 @@ static void port_report(ls_op *op, int pi, ls_port_result *r)
 static void finish_report(ls_op *op, int pi, ls_port_result *r)
 {
     r->ratio = r->current_mode ? ratio_of(r->zout, r->zin) : ratio_of(r->zin, r->zout);
+    if (!r->current_mode) {
+        /* an open voltage at the rounding level of the port's own voltages is 0 V */
+        const ls_part *p = &op->nl->parts[pi];
+        double scale = fmax(fmax(fabs(r->loaded), fabs(op->v[p->pin[1]])), isfinite(r->load_open) ? fabs(r->load_open) : 0);
+        if (fabs(r->open) < 64 * DBL_EPSILON * scale)
+            r->open = 0;
+    }
     r->sag = r->open - r->loaded;
     /* a difference at the rounding level of the two voltages is no sag (two
      * identical connections must not differ by the noise of their solves) */
@@ -1379,6 +1414,7 @@ static void finish_report(ls_op *op, int pi, ls_port_result *r)
     judge(op, pi, r);
     if (r->note)
         note_warning(op, pi, r->note);
+    reversed_warning(op, pi, r);
 }
 
 /* The cached report of port p (owned by op), or NULL when p is not a port. */

@@ -555,8 +555,35 @@ static void rating_warnings(ls_op *op, int i)
 }
 
 /* An op-amp at a limit, or with an input outside cm=. */
+/* An ideal op-amp working linearly (no limit in force) whose output pulls its
+ * plus input harder than its minus input: a positive-feedback balance that a
+ * real circuit leaves for a rail, most often plus and minus swapped.  With
+ * z = A^-1 e_k (k the op-amp's row V+ - V- = vos), z_out is dV(out)/d(vos):
+ * negative feedback makes the output move against an input offset (a
+ * follower: -1), positive feedback with it. */
+static void positive_feedback_warning(ls_op *op, int i)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    int out = p->pin[2];
+    if (p->has_value || p->run->state != LS_LIM_NONE || p->run->open_loop || out <= 0 || p->branch < 0)
+        return;
+    double *z = calloc((size_t)op->mna.n, sizeof *z);
+    if (!z)
+        return;
+    z[p->branch] = 1;
+    if (ls_op_solve_vec(op, z, 0) == LS_SOLVER_OK && z[out - 1] > 1e-9)
+        ls_warning(nl->diags, p->loc, "opamp-positive-feedback",
+                   "op-amp '%s' is in positive feedback: its output pulls its plus input ('%s') more than its minus "
+                   "input ('%s'), so the solution is a balance a real circuit would leave for a rail; are plus and "
+                   "minus swapped?",
+                   p->name, nl->nodes[p->pin[0]].name, nl->nodes[p->pin[1]].name);
+    free(z);
+}
+
 static void opamp_warnings(ls_op *op, int i)
 {
+    positive_feedback_warning(op, i);
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[i];
     char a[48], b[48];
