@@ -2,6 +2,7 @@
  * values and bind the checks.  Errors are collected; elaboration goes on past
  * them so one run reports as much as it can. */
 #include "elab.h"
+#include "mna.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -1569,6 +1570,15 @@ static int near_node(const ls_netlist *nl, int i, const int *cnt)
     return best;
 }
 
+/* Edge callback: a DC path joins its two nodes' groups (ctx: the parents). */
+static void join_edge(void *ctx, int a, int b, bool vdef, int part)
+{
+    (void)vdef;
+    (void)part;
+    if (a >= 0 && b >= 0)
+        ls_uf_union(ctx, a, b);
+}
+
 /* A node that only one pin of one part touches joins nothing: most often a
  * mistyped name that made a new node.  Suggestions are looked for only for
  * the first few (each costs a pass over the nodes). */
@@ -1590,9 +1600,20 @@ static void single_connection_warnings(elab *x)
                 who[n] = i;
             }
         }
+    /* a node with no DC path to ground gets the topology error instead */
+    int *parent = malloc((size_t)(nl->nnodes ? nl->nnodes : 1) * sizeof *parent);
+    if (!parent) {
+        free(cnt);
+        free(who);
+        return;
+    }
+    for (int i = 0; i < nl->nnodes; i++)
+        parent[i] = i;
+    for (int i = 0; i < nl->nparts; i++)
+        nl->parts[i].kind->edges(&nl->parts[i], parent, join_edge);
     int warned = 0;
     for (int i = 1; i < nl->nnodes; i++) {
-        if (cnt[i] != 1)
+        if (cnt[i] != 1 || ls_uf_find(parent, i) != ls_uf_find(parent, 0))
             continue;
         const ls_part *p = &nl->parts[who[i]];
         int near = warned++ < 20 ? near_node(nl, i, cnt) : -1;
@@ -1603,6 +1624,7 @@ static void single_connection_warnings(elab *x)
     }
     free(cnt);
     free(who);
+    free(parent);
 }
 
 static void final_checks(elab *x)
