@@ -663,7 +663,7 @@ static void ntc_text(ls_report *rp, ls_op *op)
         const ls_part *p = &nl->parts[i];
         if (!is_kind(p, "ntc"))
             continue;
-        double t_amb = ls_part_opt(p, "temp", 25), t_body = ls_ntc_body(p);
+        double t_amb = ls_part_opt(p, "celsius", 25), t_body = ls_ntc_body(p);
         char b1[64], b2[64], b3[64];
         snprintf(b2, sizeof b2, "%.4g degC", t_body);
         snprintf(b3, sizeof b3, "%.3g K", t_body - t_amb);
@@ -695,7 +695,7 @@ static void part_extra_json(obuf *o, ls_op *op, int i)
         double t = ls_ntc_body(p);
         kv(o, "resistance", ls_ntc_r(p, t), true);
         kv(o, "temperature", t, true);
-        kv(o, "self_heating", t - ls_part_opt(p, "temp", 25), true);
+        kv(o, "self_heating", t - ls_part_opt(p, "celsius", 25), true);
     }
 }
 
@@ -1164,7 +1164,7 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
             double t = ls_ntc_body(p);
             csv_row(o, "part", p->name, "resistance", ls_ntc_r(p, t));
             csv_row(o, "part", p->name, "temperature", t);
-            csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "temp", 25));
+            csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "celsius", 25));
         }
     }
     for (int i = 0; i < checks->n; i++)

@@ -245,7 +245,7 @@ def test_sweep_let_in_quantity(b, tmp):
     # expression is vin (rb/(ra+rb) - 1/2) at every point, and the column
     # `vin` is the swept value itself.
     text = """title "Sweep of a let"
-param vin = 2 V
+let vin = 2 V
 ground gnd
 voltage  v1 gnd -> a vin
 resistor ra a -> b 1k
@@ -268,7 +268,7 @@ resistor rb b -> gnd 3k
 
 TWIN = """title "Twin level followers"
 ground gnd
-voltage  vsup gnd -> vcc {vs} V rs=2
+voltage  vsup gnd -> vcc {vs} V rint=2
 resistor ra1 vcc -> m1 10k
 resistor rb1 m1 -> gnd 10k
 port     p1 m1 -> in1
@@ -375,14 +375,14 @@ def test_properties(b, tmp):
     r25, beta, tc = 10e3, 3950, 40.0
     r_ntc = r25 * math.exp(beta * (1 / (tc + 273.15) - 1 / 298.15))   # Beta equation
     text = """title "Properties"
-param tc = 40
+let tc = 40
 ground gnd
 voltage  vs gnd -> top 3 V
 resistor rt top -> mid 10k
 resistor rb mid -> gnd 22k
 port     p mid -> pin
 adc      a1 in=pin ref=3.3V bits=12 rin=100k leak=100nA
-ntc      th1 top -> t r25=10k beta=3950 temp=tc
+ntc      th1 top -> t r25=10k beta=3950 celsius=tc
 resistor rt2 t -> gnd 10k
 """
     path = write(tmp, "props.stack", text)
@@ -401,12 +401,12 @@ resistor rt2 t -> gnd 10k
              r25 * math.exp(beta * (1 / (pt["tc"] + 273.15) - 1 / 298.15)), 1e-12, source="Beta equation")
     # influence: R of an ntc is proportional to its r25 (Beta equation), so
     # d ln R / d ln r25 = 1; a part's value moves only itself
-    d = js(b, ["sens", path, "th1.resistance"])
+    d = js(b, ["influence", path, "th1.resistance"])
     items = {it["part"]: it for it in d["items"]} if d else {}
     pp = lambda it: it.get("percent_per_percent", it.get("normalized"))   # v2 key, v1 key
     near("influence of r25 on th1.resistance", pp(items.get("th1", {})), 1.0, 1e-12,
          source="R proportional to r25")
-    d = js(b, ["sens", path, "rt.value"])
+    d = js(b, ["influence", path, "rt.value"])
     items = {it["part"]: it for it in d["items"]} if d else {}
     near("influence of rt on rt.value", pp(items.get("rt", {})), 1.0, 1e-12,
          source="d value / d value = 1")
