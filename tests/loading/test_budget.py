@@ -423,6 +423,54 @@ expect p.budget = 3.3 V / 2^13 within 1e-12
           "sag %.3g V against half an LSB" % (vopen - vin))
 
 
+# ---- influence of the new quantities: adjoint against finite differences -----------------------
+
+ADC_LETS = """title "ADC influence"
+let rt = 10k
+let v = 3 V
+ground gnd
+voltage  vs gnd -> top v
+resistor r_t top -> mid rt
+resistor r_b mid -> gnd 22k
+resistor r_s mid -> pin 1k
+adc      a1 in=pin ref=3.3V bits=12 rin=100k leak=100nA
+"""
+
+TWIN_LETS = TWIN.replace("resistor ra1 vcc -> m1 10k", "resistor ra1 vcc -> m1 ra").replace(
+    "resistor rl1 o1 -> vcc 1k", "resistor rl1 o1 -> vcc rl").replace("ground gnd", "let ra = 10k\nlet rl = 1k\nground gnd")
+
+
+def fd_slope(b, path, let, val, q):
+    """Central finite difference of quantity q in let (any numerical analysis text):
+    (f(x+h) - f(x-h)) / 2h with h = 1e-4 x, each point a fresh solve."""
+    h = 1e-4 * val
+    ys = []
+    for x in (val + h, val - h):
+        d = js(b, ["sweep", path, let, repr(x), repr(x), q, "--steps", "2"])
+        ys.append(d["points"][0][q] if d else float("nan"))
+    return (ys[0] - ys[1]) / (2 * h)
+
+
+def test_influence_new_quantities(b, tmp):
+    # influence of ADC.error_lsb|unloaded|source and of a held port's open and
+    # zout: the adjoint derivative per unit of each part against a central
+    # finite difference of fresh solves (truncation ~h^2: rtol 1e-6)
+    adc = write(tmp, "adc_lets.stack", ADC_LETS)
+    twin = write(tmp, "twin_lets.stack", TWIN_LETS.format(vs=5))
+    cases = [(adc, "a1.error_lsb", [("r_t", "rt", 10e3), ("vs", "v", 3.0)]),
+             (adc, "a1.unloaded", [("r_t", "rt", 10e3), ("vs", "v", 3.0)]),
+             (adc, "a1.source", [("r_t", "rt", 10e3)]),
+             (twin, "p1.open", [("ra1", "ra", 10e3), ("rl1", "rl", 1e3)]),
+             (twin, "p1.zout", [("ra1", "ra", 10e3), ("rl1", "rl", 1e3)])]
+    for path, q, parts in cases:
+        d = js(b, ["influence", path, q])
+        items = {it["part"]: it for it in d["items"]} if d else {}
+        for part, let, val in parts:
+            fd = fd_slope(b, path, let, val, q)
+            near("influence of %s on %s" % (part, q), items.get(part, {}).get("per_unit"), fd, 1e-5,
+                 source="central finite difference of fresh solves")
+
+
 def main():
     if len(sys.argv) != 2 or not os.access(sys.argv[1], os.X_OK):
         print(__doc__)
@@ -430,7 +478,7 @@ def main():
     b = sys.argv[1]
     tests = [test_half_lsb_verdicts, test_advice_numbers, test_budget_units, test_check_tolerance,
              test_check_within_slack, test_sweep_let_in_quantity, test_twin_held_load, test_warnings,
-             test_properties]
+             test_properties, test_influence_new_quantities]
     with tempfile.TemporaryDirectory(prefix="loadstack_budget_") as tmp:
         for t in tests:
             before = len(FAILS)
