@@ -410,6 +410,17 @@ resistor rt2 t -> gnd 10k
     items = {it["part"]: it for it in d["items"]} if d else {}
     near("influence of rt on rt.value", pp(items.get("rt", {})), 1.0, 1e-12,
          source="d value / d value = 1")
+    # tol of a property: a part's value spreads exactly by its tol= at the
+    # corners, and uniformly (std = a/sqrt(3) for a uniform spread of +-a, any
+    # statistics text) in the Monte Carlo run
+    tv = write(tmp, "tol_value.stack", "title \"tol\"\nground gnd\nvoltage vs gnd -> top 3 V\n"
+               "resistor r_t top -> mid 10k tol=1%\nresistor r_b mid -> gnd 22k tol=5%\n")
+    d = js(b, ["tol", tv, "r_t.value"])
+    if d:
+        near("tol: r_t.value min", d["worst_case"]["min"], 9900, 1e-12, source="10k - 1%")
+        near("tol: r_t.value max", d["worst_case"]["max"], 10100, 1e-12, source="10k + 1%")
+        near("tol: r_t.value std", d["monte_carlo"]["std"], 100 / math.sqrt(3), 0.03,
+             source="uniform +-100 ohm: std 100/sqrt(3), 10k trials")
     # the same properties in expects (check exits 1: port p misses its half-LSB budget)
     d = js(b, ["check", write(tmp, "props_expect.stack", text + """
 expect rt.value = 10k within 1e-12
