@@ -1042,9 +1042,15 @@ done:
     free(stack);
     free(it);
     free(via);
-    if (rc != 0) {
+    if (rc != 0) {   /* all or nothing: a later call starts afresh */
         free(op->bridge_part);
+        free(op->bridge_child);
+        free(op->tin);
+        free(op->tout);
+        free(op->low);
         op->bridge_part = NULL;
+        op->bridge_child = NULL;
+        op->tin = op->tout = op->low = NULL;
     }
     return rc;
 }
