@@ -1372,15 +1372,12 @@ static void port_report(ls_op *op, int pi, ls_port_result *r)
     r->adc = -1;
     r->budget = NAN;
     r->load_open = NAN;
-    if (!r->current_mode && load_floats_when_open(op, pi) && port_held(op, pi, r)) {
+    bool held = !r->current_mode && load_floats_when_open(op, pi);
+    if (held ? port_held(op, pi, r) : !r->current_mode && port_fast(op, p, r)) {
         finish_report(op, pi, r);
         return;
     }
-    if (!r->current_mode && port_fast(op, p, r)) {
-        finish_report(op, pi, r);
-        return;
-    }
-    ls_mod *m = ls_mod_new(op, pi, MOD_REMOVE_PART);
+    ls_mod *m = held ? NULL : ls_mod_new(op, pi, MOD_REMOVE_PART);   /* a held side failed only for memory */
     if (!m) {
         r->open = r->zout = r->zin = r->sag = r->sag_rel = r->ratio = NAN;
         r->loaded = r->current_mode ? r->current : op->v[p->pin[0]];
