@@ -291,14 +291,16 @@ static void pad(obuf *out, const char *s, size_t len, int sw, int w, bool right)
  * back to back in row order, and the column widths are kept up to date as rows
  * arrive, so a table of a million rows costs no per-cell allocation and one
  * pass to print, which reads the cells in the order they were stored. */
+#define TABLE_MAXCOL 12   /* the widest table, the ports', has 11 columns */
+
 typedef struct table {
     int ncol;
-    const char *head[12];
-    bool right[12];
+    const char *head[TABLE_MAXCOL];
+    bool right[TABLE_MAXCOL];
     char *text;           /* NUL-terminated cells, back to back */
     size_t len, text_cap;
     int rows;
-    int w[12];            /* widest cell of each column so far */
+    int w[TABLE_MAXCOL];  /* widest cell of each column so far */
     bool failed;          /* out of memory: rows after it are dropped */
 } table;
 
@@ -307,8 +309,8 @@ static void t_row(table *t, const char *const *cells)
 {
     if (t->failed)
         return;
-    size_t n[10], total = 0;
-    int cw[10];
+    size_t n[TABLE_MAXCOL], total = 0;
+    int cw[TABLE_MAXCOL];
     for (int i = 0; i < t->ncol; i++) {
         n[i] = measure(cells[i] ? cells[i] : "", &cw[i]) + 1;
         total += n[i];
@@ -338,7 +340,7 @@ static void t_row(table *t, const char *const *cells)
 static void t_print(table *t, FILE *f)
 {
     obuf ob, *out = &ob;
-    int w[12];
+    int w[TABLE_MAXCOL];
     for (int c = 0; c < t->ncol; c++) {
         w[c] = width(t->head[c]);
         w[c] = t->w[c] > w[c] ? t->w[c] : w[c];
