@@ -174,9 +174,10 @@ int ls_acc_refine(ls_op *op)
             contraction = fmax(contraction, dz / prev);
         last = dz;
         op->acc.steps++;
-        /* done when the correction is below what the tail carries, or when a
-         * step no longer halves it (rounding has the last word) */
-        if (dz <= 0x1p-90 || dz > 0.5 * prev)
+        /* done when the correction is below double precision (x + tail is
+         * then right to about cond * eps times that), or when a step no
+         * longer halves it (rounding has the last word) */
+        if (dz <= CONVERGED || dz > 0.5 * prev)
             break;
         prev = dz;
     }
