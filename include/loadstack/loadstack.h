@@ -38,7 +38,7 @@
  *     run with the solve's count; the host's value is restored when the last
  *     concurrent solve returns.
  *   - Memory: a handle's size does not grow with use.  The text, syntax and
- *     binding of a quantity given to ls_circuit_eval or ls_circuit_sens are
+ *     binding of a quantity given to ls_circuit_eval or ls_circuit_influence are
  *     scratch for that call and freed before it returns, and so are the
  *     working arrays of every analysis; a ratio-rule text of
  *     ls_circuit_checks is kept once per port.  Only a call that adds

@@ -129,11 +129,11 @@ static double one_round(run *r, ls_circuit *c, int round)
     if (ls_circuit_thevenin(c, node, &th) != LS_OK)
         fail(r, "thevenin", round);
     sum += th.rth;
-    ls_sens_entry *se = NULL;
-    if (ls_circuit_sens(c, node, &v, &se, &n) != LS_OK)
-        fail(r, "sens", round);
+    ls_influence_entry *se = NULL;
+    if (ls_circuit_influence(c, node, &v, &se, &n) != LS_OK)
+        fail(r, "influence", round);
     for (int i = 0; i < n; i++)
-        sum += se[i].derivative;
+        sum += se[i].per_unit;
     ls_free(se);
     /* a sweep point and back: the library's form of `sweep` */
     ls_part_info p0;
