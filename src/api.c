@@ -291,6 +291,22 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
     return LS_OK;
 }
 
+ls_status ls_circuit_error_bound(ls_circuit *c, const char *name, double *bound)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!name || !bound)
+        return LS_E_ARGUMENT;
+    int node = ls_netlist_find_node(&c->nl, name), part = node < 0 ? ls_netlist_find_part(&c->nl, name) : -1;
+    if (node < 0 && part < 0)
+        return LS_E_NOT_FOUND;
+    if (ls_acc_bounds(&c->op) != 0)
+        return LS_E_NOMEM;
+    *bound = node >= 0 ? c->op.acc.node_bound[node] : c->op.acc.part_bound[part];
+    return LS_OK;
+}
+
 /* ---- nodes and parts ------------------------------------------------------------------------- */
 
 int ls_circuit_node_count(const ls_circuit *c) { return c && c->elaborated ? c->nl.nnodes : 0; }

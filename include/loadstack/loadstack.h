@@ -159,6 +159,16 @@ typedef struct ls_solve_info {
 
 ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out);
 
+/* A bound on the absolute error of a result of the last solve (see
+ * docs/accuracy.md): of node `name`'s voltage (V) or of part `name`'s
+ * current (A), from the extra-precise residual and the rounding of the
+ * parts' own values.  *bound is +INFINITY when the equations are too
+ * ill-conditioned for any bound to hold, NaN for a part whose current is not
+ * a linear form of the unknowns (a pot, an adc).  A name that is both a node
+ * and a part means the node.  Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED,
+ * LS_E_ARGUMENT or LS_E_NOMEM. */
+ls_status ls_circuit_error_bound(ls_circuit *c, const char *name, double *bound);
+
 /* ---- nodes ------------------------------------------------------------------------------------ */
 
 /* Number of nodes, ground included (node 0).  Available after a successful parse. */

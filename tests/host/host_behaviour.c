@@ -96,6 +96,8 @@ static double one_round(run *r, ls_circuit *c, int round)
         if (ls_circuit_node_index(c, name) < 0 || ls_circuit_voltage(c, name, &v) != LS_OK)
             fail(r, "voltage", round);
         sum += v;
+        if (ls_circuit_error_bound(c, name, &v) != LS_OK)
+            fail(r, "error_bound", round);
     }
     for (int i = 0; i < ls_circuit_part_count(c); i++) {
         ls_part_info p;
