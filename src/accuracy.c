@@ -15,7 +15,6 @@ void dlacn2_(int *n, double *v, double *x, int *isgn, double *est, int *kase, in
 #define MAX_STEPS 8
 #define CONVERGED 1e-15         /* relative correction: below double precision */
 #define MAX_CONTRACTION 1e-2    /* error shrink per step beyond which bounds are not first order */
-#define RCOND_UNRELIABLE 1e-13  /* without refinement (nonlinear circuits): the same judged from rcond */
 /* Rounding of a part's own value and stamp, in units of its contribution: the
  * value read from decimal text (1/2 ulp), 1/R (1/2 ulp), a product in the
  * stamp (1/2 ulp), with room to spare. */
@@ -325,6 +324,28 @@ static bool part_form(const ls_op *op, int i, ls_lin *l)
     return !l->overflow;
 }
 
+/* For a solution that is kept as it is (a nonlinear circuit's last Newton
+ * solve): run the extra-precise refinement on a copy to learn whether
+ * first-order bounds hold (a->reliable), then put the solution back.  The
+ * rcond estimates of the backends (KLU's is of the unscaled matrix) are no
+ * guide.  0, or -1 when out of memory. */
+static int trial_refine(ls_op *op)
+{
+    size_t n = (size_t)op->mna.n;
+    double *keep = malloc((n ? n : 1) * sizeof *keep);
+    if (!keep)
+        return -1;
+    memcpy(keep, op->x, n * sizeof *keep);
+    int r = ls_acc_refine(op);
+    memcpy(op->x, keep, n * sizeof *keep);
+    free(keep);
+    if (op->acc.tail)
+        memset(op->acc.tail, 0, n * sizeof *op->acc.tail);
+    op->acc.refined = op->acc.extended = false;
+    op->acc.steps = 0;
+    return r;
+}
+
 int ls_acc_bounds(ls_op *op)
 {
     if (op->acc.have_bounds)
@@ -346,8 +367,11 @@ int ls_acc_bounds(ls_op *op)
         free(isgn);
         return -1;
     }
-    if (!a->refined)
-        a->reliable = !(op->rcond < RCOND_UNRELIABLE);
+    if (!a->refined && trial_refine(op) != 0) {
+        free(buf);
+        free(isgn);
+        return -1;
+    }
     if (!a->reliable) {
         for (int i = 0; i < nl->nnodes; i++)
             a->node_bound[i] = i ? INFINITY : 0;
