@@ -105,10 +105,12 @@ static void stamp_residual(ls_op *op, double *r, double *absr, double *work)
     memset(work, 0, 2 * (size_t)n * sizeof *work);
     memset(absr, 0, (size_t)n * sizeof *absr);
     ls_sink sink = {.mode = SINK_RESIDUAL, .resid = &res, .scale = 1};
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_stamp_ctx c = {.nl = nl, .sink = &sink};
+    for (int i = 0; i <= nl->nparts; i++) { /* every part, then the variant's ties */
         res.nrows = 0;
-        nl->parts[i].kind->stamp(&nl->parts[i], &c);
+        if (i < nl->nparts)
+            ls_mna_stamp_part(&op->mna, i, &sink);
+        else
+            ls_mna_stamp_ties(&op->mna, &sink);
         for (int k = 0; k < res.nrows; k++)
             absr[res.rows[k]] += fabs(res.phi[k] + res.plo[k]);
     }

@@ -423,7 +423,8 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (!(op->residual <= RESIDUAL_WARN))
         ls_warning(nl->diags, LS_NOLOC, "inaccurate",
                    "the solution's relative residual is %.2g: treat the results as approximate", op->residual);
-    ls_acc_warn(op, 4); /* the report's default digits; the report marks against its own */
+    if (!o->no_bounds)
+        ls_acc_warn(op, 4); /* the report's default digits; the report marks against its own */
     ls_real_warnings(op);
     return LS_EXIT_OK;
 }

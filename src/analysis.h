@@ -18,6 +18,7 @@ typedef struct ls_options {
     const ls_tie *ties;           /* per node, or NULL: conductances to fixed voltages */
     bool keep_states;       /* start from the parts' present linearization points and limits */
     bool linear_only;       /* one linear solve at those points (no iteration) */
+    bool no_bounds;         /* inner solves (variants): no error bounds and no untrusted-digits warning */
 } ls_options;
 
 typedef enum ls_verdict { VERDICT_OK, VERDICT_MARGINAL, VERDICT_LOADING } ls_verdict;
