@@ -1,0 +1,409 @@
+/* chain.c — the stage partition and its signal order (see chain.h). */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "chain.h"
+#include "fmt.h"
+#include "parts.h"
+
+/* ---- union-find over nodes ------------------------------------------------------------ */
+
+static int uf_find(int *up, int a)
+{
+    while (up[a] != a) {
+        up[a] = up[up[a]]; /* path halving */
+        a = up[a];
+    }
+    return a;
+}
+
+/* Join a and b; the smaller index becomes the root, so a root is the first
+ * mention of its piece. */
+static void uf_join(int *up, int a, int b)
+{
+    a = uf_find(up, a);
+    b = uf_find(up, b);
+    if (a < b)
+        up[b] = a;
+    else if (b < a)
+        up[a] = b;
+}
+
+/* ---- rails ------------------------------------------------------------------------------ */
+
+static bool is_kind(const ls_part *p, const char *name)
+{
+    return strcmp(p->kind->name, name) == 0;
+}
+
+/* A voltage source's internal resistance (ohm): rint= in the current
+ * language, rs= in the first one; 0 when not given. */
+static double source_rint(const ls_part *p)
+{
+    int i = ls_kind_opt(p->kind, "rint");
+    if (i < 0)
+        i = ls_kind_opt(p->kind, "rs");
+    return ls_part_has(p, i) ? p->opt[i] : 0;
+}
+
+/* Is part p a stiff voltage source (a supply candidate)? */
+static bool stiff_source(const ls_part *p)
+{
+    return is_kind(p, "voltage") && source_rint(p) <= LS_RAIL_RINT_MAX;
+}
+
+/* Mark ground and the rails in rail[] (nnodes, zeroed by the caller).  A node
+ * that drives a port stays a signal node. */
+static void mark_rails(const ls_netlist *nl, bool *rail, const bool *drives)
+{
+    rail[0] = true;
+    for (bool grew = true; grew;) {
+        grew = false;
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *p = &nl->parts[i];
+            if (!stiff_source(p))
+                continue;
+            int a = p->pin[0], b = p->pin[1];
+            if (rail[a] && !rail[b] && !drives[b])
+                rail[b] = grew = true;
+            else if (rail[b] && !rail[a] && !drives[a])
+                rail[a] = grew = true;
+        }
+    }
+}
+
+int ls_chain_rail_source(const ls_netlist *nl, const ls_chain *c, int node)
+{
+    for (int i = 0; node > 0 && c->rail[node] && i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (stiff_source(p) && (p->pin[0] == node || p->pin[1] == node))
+            return i;
+    }
+    return -1;
+}
+
+/* ---- stages ------------------------------------------------------------------------------ */
+
+/* The node of part p that places it in a stage (its first pin off the rails), or -1. */
+static int part_anchor(const ls_part *p, const bool *rail)
+{
+    for (int k = 0; k < p->kind->npins; k++)
+        if (p->pin[k] >= 0 && !rail[p->pin[k]])
+            return p->pin[k];
+    return -1;
+}
+
+static unsigned part_flags(const ls_part *p)
+{
+    if (p->kind->is_opamp)
+        return LS_STAGE_OPAMP;
+    if (is_kind(p, "adc"))
+        return LS_STAGE_ADC;
+    if (is_kind(p, "current") || is_kind(p, "ntc") || is_kind(p, "pot"))
+        return LS_STAGE_SENSOR;
+    if (is_kind(p, "voltage"))
+        return LS_STAGE_SOURCE;
+    return 0;
+}
+
+/* Name stage s: its block instance when every part of the stage belongs to one
+ * instance and that instance has no part elsewhere; else the driver node of
+ * its first outgoing port; else its first part; else its first node. */
+static void name_stage(const ls_netlist *nl, const ls_chain *c, ls_stage *s, int sidx, const int *inst_parts)
+{
+    const char *inst = s->nparts ? nl->parts[s->parts[0]].instance : NULL;
+    for (int k = 1; inst && k < s->nparts; k++) {
+        const char *o = nl->parts[s->parts[k]].instance;
+        if (!o || strcmp(o, inst) != 0)
+            inst = NULL;
+    }
+    if (inst && inst_parts[s->parts[0]] == s->nparts) {
+        s->name = inst;
+        s->named_by = "instance";
+        return;
+    }
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (p->kind->is_port && c->node_stage[p->pin[0]] == sidx) {
+            s->name = nl->nodes[p->pin[0]].name;
+            s->named_by = "driver node";
+            return;
+        }
+    }
+    if (s->nparts) {
+        s->name = nl->parts[s->parts[0]].name;
+        s->named_by = "first part";
+    } else {
+        s->name = nl->nodes[s->first].name;
+        s->named_by = "node";
+    }
+}
+
+/* For every part, how many parts share its instance (0 at the top level). */
+static void count_instances(const ls_netlist *nl, int *inst_parts)
+{
+    for (int i = 0; i < nl->nparts; i++) {
+        const char *a = nl->parts[i].instance;
+        int n = 0;
+        for (int j = 0; a && j < nl->nparts; j++) {
+            const char *b = nl->parts[j].instance;
+            n += !nl->parts[j].kind->is_port && b && strcmp(a, b) == 0;
+        }
+        inst_parts[i] = n;
+    }
+}
+
+/* ---- signal order ------------------------------------------------------------------------ */
+
+/* Kahn's topological sort of the pieces (by first mention when several are
+ * ready, so the order is stable); on a loop the earliest remaining piece goes
+ * next and *cyclic is set.  piece_of_conn gives each port's two piece ids
+ * (-1 rail).  Writes rank[piece] = position.  Returns 0 or -1. */
+static int order_pieces(int npieces, const int *cfrom, const int *cto, int nc, int *rank, bool *cyclic)
+{
+    int *indeg = calloc((size_t)npieces + 1, sizeof *indeg);
+    if (!indeg)
+        return -1;
+    for (int k = 0; k < nc; k++)
+        if (cfrom[k] >= 0 && cto[k] >= 0 && cfrom[k] != cto[k])
+            indeg[cto[k]]++;
+    for (int i = 0; i < npieces; i++)
+        rank[i] = -1;
+    *cyclic = false;
+    for (int pos = 0; pos < npieces; pos++) {
+        int pick = -1;
+        for (int i = 0; i < npieces && pick < 0; i++)
+            if (rank[i] < 0 && indeg[i] == 0)
+                pick = i;
+        if (pick < 0) { /* a loop: break it at its earliest piece */
+            for (int i = 0; i < npieces && pick < 0; i++)
+                if (rank[i] < 0)
+                    pick = i;
+            *cyclic = true;
+        }
+        rank[pick] = pos;
+        for (int k = 0; k < nc; k++)
+            if (cfrom[k] == pick && cto[k] >= 0 && cto[k] != pick && rank[cto[k]] < 0)
+                indeg[cto[k]]--;
+    }
+    free(indeg);
+    return 0;
+}
+
+static int cmp_conn(const void *a, const void *b)
+{
+    const ls_conn *x = a, *y = b;
+    int fx = x->from < 0 ? -1 : x->from, fy = y->from < 0 ? -1 : y->from;
+    if (fx != fy)
+        return fx < fy ? -1 : 1;
+    return (x->port > y->port) - (x->port < y->port);
+}
+
+/* ---- build ---------------------------------------------------------------------------- */
+
+/* Working arrays of one build, freed together. */
+typedef struct work {
+    int *up, *piece, *rank, *cfrom, *cto, *inst_parts, *count;
+    bool *drives;
+} work;
+
+static void work_free(work *w)
+{
+    free(w->up), free(w->piece), free(w->rank), free(w->cfrom), free(w->cto);
+    free(w->inst_parts), free(w->count), free(w->drives);
+}
+
+/* Join the pins of every part that is not a port, off the rails. */
+static void join_parts(const ls_netlist *nl, const bool *rail, int *up)
+{
+    for (int i = 0; i < nl->nnodes; i++)
+        up[i] = i;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        int a = p->kind->is_port ? -1 : part_anchor(p, rail);
+        for (int k = 0; a >= 0 && k < p->kind->npins; k++)
+            if (p->pin[k] >= 0 && !rail[p->pin[k]])
+                uf_join(up, a, p->pin[k]);
+    }
+}
+
+/* Number the pieces by first mention: piece[node] = id or -1 (rails, and nodes
+ * no part or port touches).  Returns the count. */
+static int number_pieces(const ls_netlist *nl, const bool *rail, int *up, int *piece)
+{
+    bool *used = calloc((size_t)nl->nnodes + 1, sizeof *used);
+    if (!used)
+        return -1;
+    for (int i = 0; i < nl->nparts; i++)
+        for (int k = 0; k < nl->parts[i].kind->npins; k++)
+            if (nl->parts[i].pin[k] >= 0)
+                used[nl->parts[i].pin[k]] = true;
+    int n = 0;
+    for (int i = 0; i < nl->nnodes; i++)
+        piece[i] = -1;
+    for (int i = 0; i < nl->nnodes; i++) {
+        if (rail[i] || !used[i])
+            continue;
+        int r = uf_find(up, i);
+        if (piece[r] < 0)
+            piece[r] = n++;
+        piece[i] = piece[r];
+    }
+    free(used);
+    return n;
+}
+
+/* Fill the stages' part lists (storage in c->pool) and flags. */
+static int fill_stages(const ls_netlist *nl, ls_chain *c, const int *piece, const int *rank, int *count)
+{
+    c->pool = malloc(((size_t)nl->nparts + 1) * sizeof *c->pool);
+    c->supply_parts = malloc(((size_t)nl->nparts + 1) * sizeof *c->supply_parts);
+    if (!c->pool || !c->supply_parts)
+        return -1;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        int a = p->kind->is_port ? -2 : part_anchor(p, c->rail);
+        if (a == -1)
+            c->supply_parts[c->nsupply++] = i;
+        else if (a >= 0)
+            count[rank[piece[a]]]++;
+    }
+    int at = 0;
+    for (int s = 0; s < c->nstages; s++) {
+        c->stages[s].parts = c->pool + at;
+        at += count[s];
+    }
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        int a = p->kind->is_port ? -1 : part_anchor(p, c->rail);
+        if (a < 0)
+            continue;
+        ls_stage *s = &c->stages[rank[piece[a]]];
+        s->parts[s->nparts++] = i;
+        s->has |= part_flags(p);
+    }
+    return 0;
+}
+
+static int build(const ls_netlist *nl, ls_chain *c, work *w)
+{
+    size_t nn = (size_t)nl->nnodes, np = (size_t)nl->nparts + 1;
+    w->up = malloc(nn * sizeof *w->up);
+    w->piece = malloc(nn * sizeof *w->piece);
+    w->rank = malloc(nn * sizeof *w->rank);
+    w->cfrom = malloc(np * sizeof *w->cfrom);
+    w->cto = malloc(np * sizeof *w->cto);
+    w->inst_parts = malloc(np * sizeof *w->inst_parts);
+    w->count = calloc(nn + 1, sizeof *w->count);
+    w->drives = calloc(nn, sizeof *w->drives);
+    c->rail = calloc(nn, sizeof *c->rail);
+    c->node_stage = malloc(nn * sizeof *c->node_stage);
+    c->conns = malloc(np * sizeof *c->conns);
+    if (!w->up || !w->piece || !w->rank || !w->cfrom || !w->cto || !w->inst_parts || !w->count || !w->drives ||
+        !c->rail || !c->node_stage || !c->conns)
+        return -1;
+    for (int i = 0; i < nl->nparts; i++)
+        if (nl->parts[i].kind->is_port)
+            w->drives[nl->parts[i].pin[0]] = true;
+    mark_rails(nl, c->rail, w->drives);
+    join_parts(nl, c->rail, w->up);
+    int npieces = number_pieces(nl, c->rail, w->up, w->piece);
+    if (npieces < 0)
+        return -1;
+    int nc = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_port)
+            continue;
+        w->cfrom[nc] = w->piece[p->pin[0]];
+        w->cto[nc] = w->piece[p->pin[1]];
+        c->conns[nc++] = (ls_conn){.port = i};
+    }
+    if (order_pieces(npieces, w->cfrom, w->cto, nc, w->rank, &c->cyclic) != 0)
+        return -1;
+    c->stages = calloc((size_t)npieces + 1, sizeof *c->stages);
+    if (!c->stages)
+        return -1;
+    c->nstages = npieces;
+    for (int i = (int)nn - 1; i >= 0; i--) {
+        c->node_stage[i] = w->piece[i] < 0 ? -1 : w->rank[w->piece[i]];
+        if (c->node_stage[i] >= 0)
+            c->stages[c->node_stage[i]].first = i;
+    }
+    for (int k = 0; k < nc; k++) {
+        c->conns[k].from = w->cfrom[k] < 0 ? -1 : w->rank[w->cfrom[k]];
+        c->conns[k].to = w->cto[k] < 0 ? -1 : w->rank[w->cto[k]];
+    }
+    c->nconns = nc;
+    qsort(c->conns, (size_t)nc, sizeof *c->conns, cmp_conn);
+    if (fill_stages(nl, c, w->piece, w->rank, w->count) != 0)
+        return -1;
+    count_instances(nl, w->inst_parts);
+    for (int s = 0; s < c->nstages; s++)
+        name_stage(nl, c, &c->stages[s], s, w->inst_parts);
+    return 0;
+}
+
+int ls_chain_build(const ls_netlist *nl, ls_chain *c)
+{
+    memset(c, 0, sizeof *c);
+    work w = {0};
+    int rc = build(nl, c, &w);
+    work_free(&w);
+    if (rc != 0)
+        ls_chain_free(c);
+    return rc;
+}
+
+void ls_chain_free(ls_chain *c)
+{
+    free(c->stages);
+    free(c->conns);
+    free(c->node_stage);
+    free(c->rail);
+    free(c->supply_parts);
+    free(c->pool);
+    memset(c, 0, sizeof *c);
+}
+
+/* ---- words ---------------------------------------------------------------------------- */
+
+const char *ls_stage_flag_word(int bit, bool json)
+{
+    static const char *const people[LS_STAGE_NFLAGS] = {"op-amp", "ADC", "sensor", "source"};
+    static const char *const keys[LS_STAGE_NFLAGS] = {"opamp", "adc", "sensor", "source"};
+    return bit >= 0 && bit < LS_STAGE_NFLAGS ? (json ? keys : people)[bit] : "";
+}
+
+const char *ls_verdict_word(ls_verdict v)
+{
+    static const char *const n[] = {"ok", "marginal", "loading"};
+    return n[v];
+}
+
+char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii)
+{
+    const ls_port_result *pr = ls_op_port(op, port);
+    const char *OHM = ascii ? "ohm" : "\xCE\xA9", *LE = ascii ? "<=" : "\xE2\x89\xA4",
+               *GE = ascii ? ">=" : "\xE2\x89\xA5";
+    double min = ls_op_min_ratio(op);
+    char lo[48], hi[48];
+    buf[0] = 0;
+    if (pr->verdict == VERDICT_OK)
+        return buf;
+    if (isnan(pr->ratio)) {
+        snprintf(buf, n, "ratio undefined: see the port report");
+    } else if (pr->current_mode) {
+        snprintf(buf, n, "fix: zin %s %s or zout %s %s", LE,
+                 ls_fmt_eng(lo, sizeof lo, pr->zout / min, OHM, 3, ascii), GE,
+                 ls_fmt_eng(hi, sizeof hi, pr->zin * min, OHM, 3, ascii));
+    } else if (pr->zin == 0) {
+        snprintf(buf, n, "fix: the load shorts the node to ground");
+    } else {
+        snprintf(buf, n, "fix: zout %s %s, zin %s %s or a buffer", LE,
+                 ls_fmt_eng(lo, sizeof lo, pr->zin / min, OHM, 3, ascii), GE,
+                 ls_fmt_eng(hi, sizeof hi, pr->zout * min, OHM, 3, ascii));
+    }
+    return buf;
+}
