@@ -395,13 +395,13 @@ char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii)
     if (isnan(pr->ratio)) {
         snprintf(buf, n, "ratio undefined: see the port report");
     } else if (pr->current_mode) {
-        snprintf(buf, n, "fix: zin %s %s or zout %s %s", LE,
+        snprintf(buf, n, "fix: zin %s %s; or zout %s %s", LE,
                  ls_fmt_eng(lo, sizeof lo, pr->zout / min, OHM, 3, ascii), GE,
                  ls_fmt_eng(hi, sizeof hi, pr->zin * min, OHM, 3, ascii));
     } else if (pr->zin == 0) {
         snprintf(buf, n, "fix: the load shorts the node to ground");
     } else {
-        snprintf(buf, n, "fix: zout %s %s, zin %s %s or a buffer", LE,
+        snprintf(buf, n, "fix: zout %s %s; or zin %s %s; or a buffer", LE,
                  ls_fmt_eng(lo, sizeof lo, pr->zin / min, OHM, 3, ascii), GE,
                  ls_fmt_eng(hi, sizeof hi, pr->zout * min, OHM, 3, ascii));
     }

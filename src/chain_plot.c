@@ -33,7 +33,7 @@
 #define LANE_GAP 8.0        /* px between lanes in a channel */
 #define LANE_BARE 14.0      /* px: a lane without a label */
 #define CORRIDOR 10.0       /* px per vertical track in the left margin */
-#define MAX_LINES 8
+#define MAX_LINES 10
 #define PNG_SCALE 2.0       /* PNG pixels per CSS pixel: sharp on high-density screens and in print */
 
 /* Okabe–Ito colours: lines and borders, darker shades for text on white, and a
