@@ -48,7 +48,7 @@ static const char *const dash_css[3] = {"", "7 4", "10 4"};
 
 typedef struct line {
     const char *s;
-    bool bold;
+    bool bold, italic;   /* italic: a stage's roles, in grey */
     double size;
     int verdict;          /* -1 plain text, else coloured as that verdict */
     double w;             /* measured advance, px */
@@ -85,7 +85,8 @@ struct ls_chain_pic {
 static void measure(cairo_t *cr, line *l)
 {
     cairo_text_extents_t e;
-    cairo_select_font_face(cr, FONT, CAIRO_FONT_SLANT_NORMAL, l->bold ? CAIRO_FONT_WEIGHT_BOLD : CAIRO_FONT_WEIGHT_NORMAL);
+    cairo_select_font_face(cr, FONT, l->italic ? CAIRO_FONT_SLANT_ITALIC : CAIRO_FONT_SLANT_NORMAL,
+                           l->bold ? CAIRO_FONT_WEIGHT_BOLD : CAIRO_FONT_WEIGHT_NORMAL);
     cairo_set_font_size(cr, l->size);
     cairo_text_extents(cr, l->s, &e);
     l->w = e.x_advance;
@@ -143,8 +144,11 @@ static void stage_box(ls_chain_pic *pic, cairo_t *cr, const ls_netlist *nl, cons
     it->verdict = -1;
     it->id = st->name;
     add_line(pic, cr, it, true, SIZE_NAME, -1, "%s", st->name);
-    if (roles[0])
+    if (roles[0]) {
         add_line(pic, cr, it, false, SIZE_TEXT, -1, "%s", roles);
+        it->lines[it->nlines - 1].italic = true;
+        measure(cr, &it->lines[it->nlines - 1]);
+    }
     /* key parts, one a line: op-amps, ADCs and sensors first, then the rest in declaration order */
     int shown = 0;
     for (int pass = 0; pass < 2; pass++)
@@ -525,15 +529,26 @@ static void xml_text(FILE *f, const char *s)
         }
 }
 
+/* Baseline of line i of an item: the lines are centred in the item's height. */
+static double line_y(const item *it, int i)
+{
+    return it->y + (it->h - it->nlines * LINE_H) / 2 + LINE_H * i + LINE_H * 0.75;
+}
+
+static const char *line_colour(const line *l)
+{
+    return l->verdict >= 0 ? text_css[l->verdict] : l->italic ? "#4A4A4A" : "#1A1A1A";
+}
+
 static void svg_lines(FILE *f, const item *it, bool centre)
 {
     for (int i = 0; i < it->nlines; i++) {
         const line *l = &it->lines[i];
-        double x = centre ? it->x + it->w / 2 : it->x + PAD, y = it->y + PAD + LINE_H * i + LINE_H * 0.75;
-        fprintf(f, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"%g\"%s%s fill=\"%s\" textLength=\"%.1f\" "
+        double x = centre ? it->x + it->w / 2 : it->x + PAD, y = line_y(it, i);
+        fprintf(f, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"%g\"%s%s%s fill=\"%s\" textLength=\"%.1f\" "
                    "lengthAdjust=\"spacingAndGlyphs\">",
-                x, y, l->size, l->bold ? " font-weight=\"bold\"" : "", centre ? " text-anchor=\"middle\"" : "",
-                l->verdict >= 0 ? text_css[l->verdict] : "#1A1A1A", l->w);
+                x, y, l->size, l->bold ? " font-weight=\"bold\"" : "", l->italic ? " font-style=\"italic\"" : "",
+                centre ? " text-anchor=\"middle\"" : "", line_colour(l), l->w);
         xml_text(f, l->s);
         fputs("</text>", f);
     }
@@ -634,9 +649,10 @@ static void rounded(cairo_t *cr, double x, double y, double w, double h, double 
 
 static void cairo_line(cairo_t *cr, const line *l, double x, double y, bool centre)
 {
-    cairo_select_font_face(cr, FONT, CAIRO_FONT_SLANT_NORMAL, l->bold ? CAIRO_FONT_WEIGHT_BOLD : CAIRO_FONT_WEIGHT_NORMAL);
+    cairo_select_font_face(cr, FONT, l->italic ? CAIRO_FONT_SLANT_ITALIC : CAIRO_FONT_SLANT_NORMAL,
+                           l->bold ? CAIRO_FONT_WEIGHT_BOLD : CAIRO_FONT_WEIGHT_NORMAL);
     cairo_set_font_size(cr, l->size);
-    rgb(cr, l->verdict >= 0 ? text_css[l->verdict] : "#1A1A1A");
+    rgb(cr, line_colour(l));
     cairo_move_to(cr, centre ? x - l->w / 2 : x, y);
     cairo_show_text(cr, l->s);
 }
@@ -652,8 +668,7 @@ static void cairo_item(cairo_t *cr, const item *it)
     set_dash(cr, it->rail ? "4 3" : "");
     cairo_stroke(cr);
     for (int i = 0; i < it->nlines; i++)
-        cairo_line(cr, &it->lines[i], label ? it->x + PAD : it->x + it->w / 2,
-                   it->y + PAD + LINE_H * i + LINE_H * 0.75, !label);
+        cairo_line(cr, &it->lines[i], label ? it->x + PAD : it->x + it->w / 2, line_y(it, i), !label);
 }
 
 static void cairo_arrow(cairo_t *cr, const arrow *a)
