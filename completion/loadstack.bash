@@ -3,11 +3,11 @@
 # Completes the command, its options and their fixed values, *.stack files,
 # node names for the commands that take a NODE (read from the circuit by
 # `loadstack solve FILE --format json`), node names and part and port
-# properties for a QUANTITY, and the circuit's top-level params for `sweep`
+# properties for a QUANTITY, and the circuit's top-level lets for `sweep`
 # and `--set`.
 # Installed as share/bash-completion/completions/loadstack.
 
-_loadstack_commands="solve check sag thevenin sens tol sweep pick chain demo"
+_loadstack_commands="solve check sag thevenin influence tol sweep pick chain demo"
 _loadstack_common="--set --format --output --min-ratio --ascii --solver --derate --help --version"
 
 # The options one command takes, common ones included.
@@ -45,11 +45,11 @@ _loadstack_quantities()
         -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1.open\n\1.loaded\n\1.sag\n\1.sag_rel\n\1.zout\n\1.zin\n\1.ratio\n\1.current/p'
 }
 
-# Top-level param names of circuit file $1 (statements `param NAME = ...`).
-_loadstack_params()
+# Top-level let names of circuit file $1 (statements `let NAME = ...`).
+_loadstack_lets()
 {
     [ -r "$1" ] || return
-    sed -n 's/^[[:space:]]*param[[:space:]]\{1,\}\([A-Za-z_][A-Za-z0-9_]*\).*/\1/p' "$1" 2>/dev/null
+    sed -n 's/^[[:space:]]*let[[:space:]]\{1,\}\([A-Za-z_][A-Za-z0-9_]*\).*/\1/p' "$1" 2>/dev/null
 }
 
 _loadstack()
@@ -107,7 +107,7 @@ _loadstack()
                 $(compgen -d -- "$cur")); return ;;
         --set)
             compopt -o nospace 2>/dev/null
-            COMPREPLY=($(compgen -S = -W "$(_loadstack_params "$file")" -- "$cur")); return ;;
+            COMPREPLY=($(compgen -S = -W "$(_loadstack_lets "$file")" -- "$cur")); return ;;
         --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout)
             return ;;
     esac
@@ -140,11 +140,11 @@ _loadstack()
     case $cmd in
         sag | thevenin)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes "$file")" -- "$cur")) ;;
-        sens | tol)
+        influence | tol)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_quantities "$file")" -- "$cur")) ;;
         sweep)
             if [ $npos -eq 1 ]; then
-                COMPREPLY=($(compgen -W "$(_loadstack_params "$file")" -- "$cur"))
+                COMPREPLY=($(compgen -W "$(_loadstack_lets "$file")" -- "$cur"))
             elif [ $npos -ge 4 ]; then
                 COMPREPLY=($(compgen -W "$(_loadstack_quantities "$file")" -- "$cur"))
             fi ;;

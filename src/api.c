@@ -553,7 +553,8 @@ ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info 
     return LS_OK;
 }
 
-ls_status ls_circuit_sens(ls_circuit *c, const char *quantity, double *value, ls_sens_entry **entries, int *n)
+ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *value, ls_influence_entry **entries,
+                               int *n)
 {
     ls_status st = need_solved(c);
     if (st != LS_OK)
@@ -568,16 +569,16 @@ ls_status ls_circuit_sens(ls_circuit *c, const char *quantity, double *value, ls
     int k = ls_sens(&c->op, q, &v, &items);
     if (k < 0)
         return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
-    ls_sens_entry *e = calloc((size_t)(k ? k : 1), sizeof *e);
+    ls_influence_entry *e = calloc((size_t)(k ? k : 1), sizeof *e);
     if (!e) {
         free(items);
         return LS_E_NOMEM;
     }
     for (int i = 0; i < k; i++) {
         e[i].part = c->nl.parts[items[i].part].name;
-        e[i].nominal = items[i].nominal;
-        e[i].derivative = items[i].derivative;
-        e[i].normalized = items[i].normalized;
+        e[i].part_value = items[i].nominal;
+        e[i].per_unit = items[i].derivative;
+        e[i].percent_per_percent = items[i].normalized;
     }
     free(items);
     if (value)

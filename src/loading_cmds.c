@@ -1,4 +1,4 @@
-/* loading_cmds.c — the sag, thevenin and sens commands. */
+/* loading_cmds.c — the sag, thevenin and influence commands. */
 #include <float.h>
 #include <math.h>
 #include <stdlib.h>
@@ -275,10 +275,138 @@ int ls_cmd_sag(ls_cli *cli)
     return finish(&s, o, tmp, LS_EXIT_OK);
 }
 
-/* ---- sens ---------------------------------------------------------------------------------- */
+/* ---- influence ----------------------------------------------------------------------------- */
 
-/* loadstack sens FILE QUANTITY: adjoint derivatives for every part's main value. */
-int ls_cmd_sens(ls_cli *cli)
+/* One part's change per unit as text: "-46.78 µV/Ω" (the quantity's unit per
+ * the part's), "10.64 mV" for a unitless part, "1.121 m per Ω" for a unitless
+ * quantity (so a prefix is not read as a unit of its own).  Writes into buf
+ * (n bytes) and returns it. */
+static const char *per_unit_text(const ls_report *rp, char *buf, size_t n, double v, const char *qu,
+                                 const ls_part *p)
+{
+    const char *pu = ls_unit_of(ls_kind_main_dims(p->kind), rp->ascii);
+    char unit[48], num[48];
+    if (!isfinite(v))
+        return ls_eng(rp, buf, n, v, "");
+    if (*qu || !*pu) {
+        snprintf(unit, sizeof unit, "%s%s%s", qu, *pu ? "/" : "", pu);
+        return ls_eng(rp, buf, n, v, unit);
+    }
+    snprintf(buf, n, "%s per %s", ls_eng(rp, num, sizeof num, v, ""), pu);
+    return buf;
+}
+
+/* The influence table as JSON: {"quantity", "value", "items": [...]}; a
+ * null field is explained in the item's "why". */
+static void influence_json(FILE *o, const ls_session *s, const char *quantity, double value,
+                           const ls_sens_item *items, int n)
+{
+    fputs("{\"quantity\": ", o);
+    ls_json_string(o, quantity);
+    fputs(", \"value\": ", o);
+    ls_json_number(o, value);
+    fputs(",\n \"items\": [", o);
+    for (int i = 0; i < n; i++) {
+        const ls_part *p = &s->nl.parts[items[i].part];
+        fprintf(o, "%s\n  {\"part\": ", i ? "," : "");
+        ls_json_string(o, p->name);
+        fputs(", \"kind\": ", o);
+        ls_json_string(o, p->kind->name);
+        fputs(", \"part_value\": ", o);
+        ls_json_number(o, items[i].nominal);
+        fputs(", \"per_unit\": ", o);
+        ls_json_number(o, items[i].derivative);
+        fputs(", \"percent_per_percent\": ", o);
+        ls_json_number(o, items[i].normalized);
+        bool du = !isfinite(items[i].derivative), dp = !isfinite(items[i].normalized);
+        if (du || dp) {
+            /* no finite derivative: the quantity itself has none; a finite
+             * derivative without a relative one: the quantity is 0 */
+            fputs(", \"why\": {", o);
+            if (du)
+                fputs("\"per_unit\": \"undefined\"", o);
+            if (dp)
+                fprintf(o, "%s\"percent_per_percent\": \"undefined\"", du ? ", " : "");
+            fputs("}", o);
+        }
+        fputs("}", o);
+    }
+    fputs("]}\n", o);
+}
+
+/* The influence table as CSV, one row per part. */
+static void influence_csv(FILE *o, const ls_session *s, const ls_sens_item *items, int n)
+{
+    fputs("part,kind,part_value,per_unit,percent_per_percent\n", o);
+    for (int i = 0; i < n; i++) {
+        const ls_part *p = &s->nl.parts[items[i].part];
+        char b1[40], b2[40], b3[40];
+        ls_csv_field(o, p->name);
+        fprintf(o, ",%s,%s,%s,%s\n", p->kind->name,
+                isfinite(items[i].nominal) ? ls_fmt_full(b1, sizeof b1, items[i].nominal) : "",
+                isfinite(items[i].derivative) ? ls_fmt_full(b2, sizeof b2, items[i].derivative) : "",
+                isfinite(items[i].normalized) ? ls_fmt_full(b3, sizeof b3, items[i].normalized) : "");
+    }
+}
+
+/* Print s padded to w display columns (UTF-8 code points), left- or right-aligned. */
+static void cell(FILE *o, const char *s, int w, bool right)
+{
+    int n = 0;
+    for (const char *c = s; *c; c++)
+        n += ((unsigned char)*c & 0xC0) != 0x80;
+    int pad = w > n ? w - n : 0;
+    fprintf(o, "%*s%s%*s", right ? pad : 0, "", s, right ? 0 : pad, "");
+}
+
+/* The influence table as text: part, kind, value, change per unit, % per %. */
+static void influence_text(ls_report *rp, const ls_session *s, const char *quantity, ls_dims qd, double value,
+                           const ls_sens_item *items, int n)
+{
+    FILE *o = rp->out;
+    const char *qu = ls_unit_of(qd, rp->ascii);
+    char b1[64], b2[64], b3[64];
+    fprintf(o, "Influence of each part's main value on %s = %s\n", quantity, ls_eng(rp, b1, sizeof b1, value, qu));
+    fputs("  change per unit: how much the quantity moves per unit of the part's value\n"
+          "  % per %: the quantity's change in percent for a 1 % change of the part\n\n", o);
+    int wn = 4;
+    for (int i = 0; i < n; i++) {
+        int l = (int)strlen(s->nl.parts[items[i].part].name);
+        wn = l > wn ? l : wn;
+    }
+    fputs("  ", o);
+    cell(o, "part", wn, false);
+    fputs("  ", o);
+    cell(o, "kind", 9, false);
+    cell(o, "value", 13, true);
+    cell(o, "change per unit", 20, true);
+    cell(o, "% per %", 12, true);
+    fputc('\n', o);
+    for (int i = 0; i < n; i++) {
+        const ls_part *p = &s->nl.parts[items[i].part];
+        fputs("  ", o);
+        cell(o, p->name, wn, false);
+        fputs("  ", o);
+        cell(o, p->kind->name, 9, false);
+        cell(o, ls_eng(rp, b1, sizeof b1, items[i].nominal, ls_unit_of(ls_kind_main_dims(p->kind), rp->ascii)), 13,
+             true);
+        cell(o, per_unit_text(rp, b2, sizeof b2, items[i].derivative, qu, p), 20, true);
+        if (isfinite(items[i].normalized))
+            snprintf(b3, sizeof b3, "%+#.*g", rp->sig, items[i].normalized);
+        else
+            snprintf(b3, sizeof b3, "undefined");
+        cell(o, b3, 12, true);
+        fputc('\n', o);
+    }
+    if (!isfinite(value))
+        fputs("\n  The quantity has no finite value here, so it has no derivatives (see the warnings).\n", o);
+    else if (value == 0)
+        fputs("\n  The quantity is 0 here, so a change in percent of it is undefined.\n", o);
+}
+
+/* loadstack influence FILE QUANTITY: how much each part's main value moves
+ * QUANTITY, by adjoint derivatives (one transposed solve serves every part). */
+int ls_cmd_influence(ls_cli *cli)
 {
     ls_session s;
     int code = prepare(&s, cli, NULL);
@@ -304,49 +432,12 @@ int ls_cmd_sens(ls_cli *cli)
         return LS_EXIT_USAGE;
     }
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
-    const char *qu = ls_unit_of(q->dims, cli->ascii);
-    if (cli->fmt == FMT_JSON) {
-        fputs("{\"quantity\": ", o);
-        ls_json_string(o, cli->pos[1]);
-        fputs(", \"value\": ", o);
-        ls_json_number(o, value);
-        fputs(",\n \"items\": [", o);
-        for (int i = 0; i < n; i++) {
-            fprintf(o, "%s\n  {\"part\": ", i ? "," : "");
-            ls_json_string(o, s.nl.parts[items[i].part].name);
-            fputs(", \"nominal\": ", o);
-            ls_json_number(o, items[i].nominal);
-            fputs(", \"derivative\": ", o);
-            ls_json_number(o, items[i].derivative);
-            fputs(", \"normalized\": ", o);
-            ls_json_number(o, items[i].normalized);
-            fputs("}", o);
-        }
-        fputs("]}\n", o);
-    } else if (cli->fmt == FMT_CSV) {
-        fputs("part,nominal,derivative,normalized\n", o);
-        for (int i = 0; i < n; i++) {
-            char b[40];
-            ls_csv_field(o, s.nl.parts[items[i].part].name);
-            fprintf(o, ",%s,%s,%s\n", LS_G17(items[i].nominal), LS_G17(items[i].derivative),
-                    isfinite(items[i].normalized) ? ls_fmt_full(b, sizeof b, items[i].normalized) : "");
-        }
-    } else {
-        char b1[64];
-        fprintf(o, "Sensitivity of %s = %s to each part's main value\n", cli->pos[1], ls_eng(&rp, b1, sizeof b1, value, qu));
-        fprintf(o, "  (normalized: the %% change of the quantity for a 1%% change of the part)\n\n");
-        fprintf(o, "  %-20s %-9s %14s %14s %12s\n", "part", "kind", "value", "dQ/dp", "normalized");
-        for (int i = 0; i < n; i++) {
-            const ls_part *p = &s.nl.parts[items[i].part];
-            char bd[32], bn[32];
-            snprintf(bd, sizeof bd, "%.6g", items[i].derivative);
-            snprintf(bn, sizeof bn, "%+.4f", items[i].normalized);
-            fprintf(o, "  %-20s %-9s %14.6g %14s %12s\n", p->name, p->kind->name, items[i].nominal,
-                    isfinite(items[i].derivative) ? bd : "-", isfinite(items[i].normalized) ? bn : "-");
-        }
-        if (!isfinite(value))
-            fprintf(o, "\n  The quantity has no finite value here, so it has no derivatives (see the warnings).\n");
-    }
+    if (cli->fmt == FMT_JSON)
+        influence_json(o, &s, cli->pos[1], value, items, n);
+    else if (cli->fmt == FMT_CSV)
+        influence_csv(o, &s, items, n);
+    else
+        influence_text(&rp, &s, cli->pos[1], q->dims, value, items, n);
     free(items);
     return finish(&s, o, tmp, LS_EXIT_OK);
 }

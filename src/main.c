@@ -20,7 +20,7 @@ typedef struct optdef {
 } optdef;
 
 static const optdef options[] = {
-    {"set", true, "*", "NAME=VALUE  override a top-level param (repeatable)"},
+    {"set", true, "*", "NAME=VALUE  override a top-level let (repeatable)"},
     {"format", true, "*", "text|json|csv|html  report format (default text; html: solve and chain)"},
     {"output", true, "*", "FILE  write the report to FILE (whole or not at all)"},
     {"min-ratio", true, "*", "X  minimum zin/zout for a port to pass (default: the circuit's rule, else 10)"},
@@ -61,11 +61,11 @@ static const cmd commands[] = {
      "loadstack sag circuits/demo.stack adc_in", ls_cmd_sag, 2},
     {"thevenin", "thevenin FILE NODE", "Thevenin and Norton equivalent seen at NODE against ground",
      "loadstack thevenin circuits/demo.stack probe --meter 10M", ls_cmd_thevenin, 2},
-    {"sens", "sens FILE QUANTITY", "sensitivity of QUANTITY to every part's main value (adjoint method)",
-     "loadstack sens circuits/demo.stack 'adc_in'", ls_cmd_sens, 2},
+    {"influence", "influence FILE QUANTITY", "how much each part's main value moves QUANTITY (adjoint method)",
+     "loadstack influence circuits/demo.stack adc_in", ls_cmd_influence, 2},
     {"tol", "tol FILE QUANTITY", "tolerance analysis from the parts' tol=: worst case, Monte Carlo spread and yield",
      "loadstack tol circuits/demo.stack adc_in --plot adc_in.svg", ls_cmd_tol, 2},
-    {"sweep", "sweep FILE PARAM FROM TO QUANTITY...", "sweep a top-level param and tabulate (or plot) quantities",
+    {"sweep", "sweep FILE LET FROM TO QUANTITY...", "sweep a top-level let and tabulate (or plot) quantities",
      "loadstack sweep circuits/demo.stack moisture_r 1k 100k adc_in --log --plot sweep.svg", ls_cmd_sweep, 5},
     {"pick", "pick ratio R", "best pairs of standard (IEC 60063) values for a divider ratio R = rbot/(rtop+rbot)",
      "loadstack pick ratio 0.66 --series E24 --total 10k..100k", ls_cmd_pick, 2},
@@ -287,6 +287,8 @@ int main(int argc, char **argv)
             return bad_usage("unknown option '%s' (options are written --name)%s", a, "");
         } else if (!c) {
             c = find_cmd(a);
+            if (!c && strcmp(a, "sens") == 0)
+                return bad_usage("'%s' is now spelled '%s' (loadstack influence FILE QUANTITY)", a, "influence");
             if (!c) {
                 const char *near = nearest(a, true, NULL);
                 if (near)

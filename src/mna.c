@@ -394,7 +394,7 @@ static void on_edge(void *ctx, int a, int b, bool vdef, int part)
                 loop_parts(t, a, b, parts, sizeof parts);
             ls_error(t->nl->diags, p->loc,
                      "%s '%s' closes a loop made only of voltage-defined branches (with %s): the currents in the loop are "
-                     "undefined; add a resistance (e.g. rs= on a source) or remove one branch",
+                     "undefined; add a resistance (e.g. rint= on a source) or remove one branch",
                      p->kind->name, p->name, parts[0] ? parts : "itself");
         }
         return;

@@ -78,7 +78,7 @@ typedef struct ls_diagnostic {
 
 /* Parse and elaborate the circuit file at `path`.
  *   path   in: the .stack file; includes resolve relative to it.
- *   sets   in: nsets strings "NAME=VALUE" overriding top-level params (as
+ *   sets   in: nsets strings "NAME=VALUE" overriding top-level lets (as
  *          --set does); may be NULL when nsets is 0.  Copied; the caller keeps them.
  *   out    out: the new circuit, even on LS_E_CIRCUIT or LS_E_IO, so the caller
  *          can walk the diagnostics; NULL on LS_E_NOMEM and LS_E_ARGUMENT.  The
@@ -271,22 +271,23 @@ typedef struct ls_thevenin_info {
 
 ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info *out);
 
-/* Sensitivity of a quantity to one part's main value (adjoint method). */
-typedef struct ls_sens_entry {
+/* How much one part's main value moves a quantity (adjoint method). */
+typedef struct ls_influence_entry {
     const char *part;
-    double nominal;           /* the part's main value */
-    double derivative;        /* dQ/dp, in Q's unit per the part's unit */
-    double normalized;        /* (p/Q) dQ/dp; NaN when Q = 0 */
-} ls_sens_entry;
+    double part_value;            /* the part's main value */
+    double per_unit;              /* dQ/dp, in Q's unit per the part's unit */
+    double percent_per_percent;   /* (p/Q) dQ/dp: % change of Q per 1 % of p; NaN when Q = 0 */
+} ls_influence_entry;
 
-/* Sensitivities of `quantity` (as in ls_circuit_eval) to every part with a
- * main value.
+/* The influence of every part with a main value on `quantity` (as in
+ * ls_circuit_eval).
  *   value out (may be NULL): the quantity's value.
- *   entries out: *n entries sorted by |normalized|, largest first; caller
+ *   entries out: *n entries sorted by |percent_per_percent|, largest first; caller
  *          frees with ls_free.
  * Returns LS_OK, LS_E_CIRCUIT (bad quantity, see the diagnostics),
  * LS_E_NOT_SOLVED or LS_E_NOMEM. */
-ls_status ls_circuit_sens(ls_circuit *c, const char *quantity, double *value, ls_sens_entry **entries, int *n);
+ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *value, ls_influence_entry **entries,
+                               int *n);
 
 /* Change part `name`'s main value (ohm for a resistor, V for a voltage
  * source, ...) and re-solve with the same structure; port reports are
@@ -298,7 +299,7 @@ ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value);
 /* Sweeps and tolerance studies: the program's `sweep` and `tol` commands have
  * no library form yet.  A caller sweeps a part's value with
  * ls_circuit_set_value (one refactorization per point, the structure kept),
- * and a param by parsing again with a "NAME=VALUE" setting per point. */
+ * and a let by parsing again with a "NAME=VALUE" setting per point. */
 
 /* Release an array returned by this library (NULL is fine). */
 void ls_free(void *p);

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Loading analysis against closed forms: thevenin, sag, sens, check exit codes.
+"""Loading analysis against closed forms: thevenin, sag, influence, check exit codes.
 
 Usage: test_loading.py LOADSTACK_BINARY
 
@@ -203,40 +203,40 @@ def test_sens_divider(b, tmp):
     f = write(tmp, "sdiv.stack", 'title "s"\nground gnd\nvoltage vs gnd -> a %g V\n'
               "resistor rt a -> m %g\nresistor rb m -> gnd %g\nport p m -> q\nresistor rl q -> gnd 47k\n"
               % (vs, rt, rb))
-    d = js(b, ["sens", f, "p.open"])
+    d = js(b, ["influence", f, "p.open"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("S_rt of open", it["rt"]["normalized"], -rt / (rt + rb), source="divider: -Rt/(Rt+Rb)")
-        near("S_rb of open", it["rb"]["normalized"], rt / (rt + rb), source="divider: Rt/(Rt+Rb)")
-        near("S_vs of open", it["vs"]["normalized"], 1.0, source="linear in the source")
-        near("S_rl of open", it["rl"]["normalized"], 0.0, atol=1e-12, source="the load is disconnected")
-        near("dopen/drt", it["rt"]["derivative"], -vs * rb / (rt + rb) ** 2, source="d/dRt of Vs*Rb/(Rt+Rb)")
-    d = js(b, ["sens", f, "p.zout"])
+        near("S_rt of open", it["rt"]["percent_per_percent"], -rt / (rt + rb), source="divider: -Rt/(Rt+Rb)")
+        near("S_rb of open", it["rb"]["percent_per_percent"], rt / (rt + rb), source="divider: Rt/(Rt+Rb)")
+        near("S_vs of open", it["vs"]["percent_per_percent"], 1.0, source="linear in the source")
+        near("S_rl of open", it["rl"]["percent_per_percent"], 0.0, atol=1e-12, source="the load is disconnected")
+        near("dopen/drt", it["rt"]["per_unit"], -vs * rb / (rt + rb) ** 2, source="d/dRt of Vs*Rb/(Rt+Rb)")
+    d = js(b, ["influence", f, "p.zout"])
     if d:
         it = {x["part"]: x for x in d["items"]}
         # zout = Rt*Rb/(Rt+Rb): S_Rt = Rb/(Rt+Rb), S_Rb = Rt/(Rt+Rb)
-        near("S_rt of zout", it["rt"]["normalized"], rb / (rt + rb), source="d ln(Rt||Rb)/d ln Rt = Rb/(Rt+Rb)")
-        near("S_rb of zout", it["rb"]["normalized"], rt / (rt + rb), source="d ln(Rt||Rb)/d ln Rb = Rt/(Rt+Rb)")
-        near("S_vs of zout", it["vs"]["normalized"], 0.0, atol=1e-12, source="sources zeroed")
-    d = js(b, ["sens", f, "p.ratio"])
+        near("S_rt of zout", it["rt"]["percent_per_percent"], rb / (rt + rb), source="d ln(Rt||Rb)/d ln Rt = Rb/(Rt+Rb)")
+        near("S_rb of zout", it["rb"]["percent_per_percent"], rt / (rt + rb), source="d ln(Rt||Rb)/d ln Rb = Rt/(Rt+Rb)")
+        near("S_vs of zout", it["vs"]["percent_per_percent"], 0.0, atol=1e-12, source="sources zeroed")
+    d = js(b, ["influence", f, "p.ratio"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("S_rl of ratio", it["rl"]["normalized"], 1.0, source="ratio = RL/(Rt||Rb)")
-        near("S_rt of ratio", it["rt"]["normalized"], -rb / (rt + rb), source="ratio = RL/(Rt||Rb)")
-    d = js(b, ["sens", f, "m"])
+        near("S_rl of ratio", it["rl"]["percent_per_percent"], 1.0, source="ratio = RL/(Rt||Rb)")
+        near("S_rt of ratio", it["rt"]["percent_per_percent"], -rb / (rt + rb), source="ratio = RL/(Rt||Rb)")
+    d = js(b, ["influence", f, "m"])
     if d:
         it = {x["part"]: x for x in d["items"]}
         rbl = par(rb, 47e3)
-        near("S_rt of the loaded node", it["rt"]["normalized"], -rt / (rt + rbl),
+        near("S_rt of the loaded node", it["rt"]["percent_per_percent"], -rt / (rt + rbl),
              source="loaded divider: -Rt/(Rt + Rb||RL)")
     # a quantity that is zero gets derivatives only (normalized null)
     f0 = write(tmp, "szero.stack", 'title "z"\nground gnd\nvoltage vs gnd -> a 0 V\n'
                "resistor rt a -> m 1k\nresistor rb m -> gnd 1k\n")
-    d = js(b, ["sens", f0, "m"])
+    d = js(b, ["influence", f0, "m"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        truth("zero quantity: normalized is null", it["rt"]["normalized"] is None, "cli spec")
-        near("zero quantity: dV/dVs", it["vs"]["derivative"], 0.5, source="divider ratio Rb/(Rt+Rb)")
+        truth("zero quantity: percent_per_percent is null", it["rt"]["percent_per_percent"] is None, "cli spec")
+        near("zero quantity: dV/dVs", it["vs"]["per_unit"], 0.5, source="divider ratio Rb/(Rt+Rb)")
 
 
 # ---------------------------------------------------------------------------
@@ -250,25 +250,25 @@ def test_sens_current_mode(b, tmp):
     i, rsh, rl = 10e-6, 1e6, 100e3
     f = write(tmp, "scur.stack", 'title "c"\nground gnd\ncurrent src gnd -> pd %g A\n'
               "resistor rsh pd -> gnd %g\nport p pd -> ld mode=current\nresistor rl ld -> gnd %g\n" % (i, rsh, rl))
-    d = js(b, ["sens", f, "p.open"])
+    d = js(b, ["influence", f, "p.open"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("d open/d I", it["src"]["derivative"], 1.0, source="short-circuit current = I")
-        near("d open/d Rsh", it["rsh"]["derivative"], 0.0, atol=1e-15, source="a short takes all of I")
-    d = js(b, ["sens", f, "p.loaded"])
+        near("d open/d I", it["src"]["per_unit"], 1.0, source="short-circuit current = I")
+        near("d open/d Rsh", it["rsh"]["per_unit"], 0.0, atol=1e-15, source="a short takes all of I")
+    d = js(b, ["influence", f, "p.loaded"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("d loaded/d Rsh", it["rsh"]["derivative"], i * rl / (rsh + rl) ** 2, source="d/dRsh of I*Rsh/(Rsh+RL)")
-        near("d loaded/d RL", it["rl"]["derivative"], -i * rsh / (rsh + rl) ** 2, source="d/dRL of I*Rsh/(Rsh+RL)")
-    d = js(b, ["sens", f, "p.sag"])
+        near("d loaded/d Rsh", it["rsh"]["per_unit"], i * rl / (rsh + rl) ** 2, source="d/dRsh of I*Rsh/(Rsh+RL)")
+        near("d loaded/d RL", it["rl"]["per_unit"], -i * rsh / (rsh + rl) ** 2, source="d/dRL of I*Rsh/(Rsh+RL)")
+    d = js(b, ["influence", f, "p.sag"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("d sag/d RL", it["rl"]["derivative"], i * rsh / (rsh + rl) ** 2, source="sag = I - I*Rsh/(Rsh+RL)")
-    d = js(b, ["sens", f, "p.ratio"])
+        near("d sag/d RL", it["rl"]["per_unit"], i * rsh / (rsh + rl) ** 2, source="sag = I - I*Rsh/(Rsh+RL)")
+    d = js(b, ["influence", f, "p.ratio"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("S_Rsh of ratio", it["rsh"]["normalized"], 1.0, source="ratio = Rsh/RL")
-        near("S_RL of ratio", it["rl"]["normalized"], -1.0, source="ratio = Rsh/RL")
+        near("S_Rsh of ratio", it["rsh"]["percent_per_percent"], 1.0, source="ratio = Rsh/RL")
+        near("S_RL of ratio", it["rl"]["percent_per_percent"], -1.0, source="ratio = Rsh/RL")
 
 
 def test_check_exit_codes(b, tmp):
