@@ -110,7 +110,7 @@ static unsigned part_flags(const ls_part *p)
 /* Name stage s: its block instance when every part of the stage belongs to one
  * instance and that instance has no part elsewhere; else the driver node of
  * its first outgoing port; else its first part; else its first node. */
-static void name_stage(const ls_netlist *nl, const ls_chain *c, ls_stage *s, int sidx, const int *inst_parts)
+static void name_stage(const ls_netlist *nl, ls_stage *s, int driver, const int *inst_parts)
 {
     const char *inst = s->nparts ? nl->parts[s->parts[0]].instance : NULL;
     for (int k = 1; inst && k < s->nparts; k++) {
@@ -123,13 +123,10 @@ static void name_stage(const ls_netlist *nl, const ls_chain *c, ls_stage *s, int
         s->named_by = "instance";
         return;
     }
-    for (int i = 0; i < nl->nparts; i++) {
-        const ls_part *p = &nl->parts[i];
-        if (p->kind->is_port && c->node_stage[p->pin[0]] == sidx) {
-            s->name = nl->nodes[p->pin[0]].name;
-            s->named_by = "driver node";
-            return;
-        }
+    if (driver >= 0) {
+        s->name = nl->nodes[driver].name;
+        s->named_by = "driver node";
+        return;
     }
     if (s->nparts) {
         s->name = nl->parts[s->parts[0]].name;
@@ -140,54 +137,124 @@ static void name_stage(const ls_netlist *nl, const ls_chain *c, ls_stage *s, int
     }
 }
 
-/* For every part, how many parts share its instance (0 at the top level). */
-static void count_instances(const ls_netlist *nl, int *inst_parts)
+typedef struct inst_ref {
+    const char *inst;
+    int part;
+} inst_ref;
+
+/* qsort order of parts by instance name (the parts of one instance together). */
+static int cmp_instance(const void *a, const void *b)
 {
+    return strcmp(((const inst_ref *)a)->inst, ((const inst_ref *)b)->inst);
+}
+
+/* For every part, how many parts (ports left out) share its instance (0 at
+ * the top level): the parts sorted by instance name, then counted run by run.
+ * Returns 0, or -1 when out of memory. */
+static int count_instances(const ls_netlist *nl, int *inst_parts)
+{
+    inst_ref *r = malloc(((size_t)nl->nparts + 1) * sizeof *r);
+    int n = 0;
+    if (!r)
+        return -1;
     for (int i = 0; i < nl->nparts; i++) {
-        const char *a = nl->parts[i].instance;
-        int n = 0;
-        for (int j = 0; a && j < nl->nparts; j++) {
-            const char *b = nl->parts[j].instance;
-            n += !nl->parts[j].kind->is_port && b && strcmp(a, b) == 0;
-        }
-        inst_parts[i] = n;
+        inst_parts[i] = 0;
+        if (nl->parts[i].instance && !nl->parts[i].kind->is_port)
+            r[n++] = (inst_ref){nl->parts[i].instance, i};
     }
+    qsort(r, (size_t)n, sizeof *r, cmp_instance);
+    for (int a = 0, b; a < n; a = b) {
+        for (b = a + 1; b < n && strcmp(r[a].inst, r[b].inst) == 0; b++)
+            ;
+        for (int k = a; k < b; k++)
+            inst_parts[r[k].part] = b - a;
+    }
+    free(r);
+    return 0;
 }
 
 /* ---- signal order ------------------------------------------------------------------------ */
 
-/* Kahn's topological sort of the pieces (by first mention when several are
- * ready, so the order is stable); on a loop the earliest remaining piece goes
- * next and *cyclic is set.  piece_of_conn gives each port's two piece ids
- * (-1 rail).  Writes rank[piece] = position.  Returns 0 or -1. */
-static int order_pieces(int npieces, const int *cfrom, const int *cto, int nc, int *rank, bool *cyclic)
+/* A binary min-heap of piece ids (the ready pieces, earliest first). */
+typedef struct heap {
+    int *a;
+    int n;
+} heap;
+
+static void heap_push(heap *h, int v)
 {
-    int *indeg = calloc((size_t)npieces + 1, sizeof *indeg);
-    if (!indeg)
+    int i = h->n++;
+    for (; i > 0 && h->a[(i - 1) / 2] > v; i = (i - 1) / 2)
+        h->a[i] = h->a[(i - 1) / 2];
+    h->a[i] = v;
+}
+
+static int heap_pop(heap *h)
+{
+    int top = h->a[0], v = h->a[--h->n], i = 0;
+    for (;;) {
+        int c = 2 * i + 1;
+        if (c >= h->n)
+            break;
+        if (c + 1 < h->n && h->a[c + 1] < h->a[c])
+            c++;
+        if (h->a[c] >= v)
+            break;
+        h->a[i] = h->a[c];
+        i = c;
+    }
+    if (h->n)
+        h->a[i] = v;
+    return top;
+}
+
+/* Kahn's topological sort of the pieces, the earliest-mentioned ready piece
+ * first (so the order is stable); on a loop the earliest remaining piece goes
+ * next and *cyclic is set.  cfrom/cto give each port's two pieces (-1 rail).
+ * Writes rank[piece] = position.  O((P + C) log P).  Returns 0 or -1. */
+static int order_pieces(int np, const int *cfrom, const int *cto, int nc, int *rank, bool *cyclic)
+{
+    int *indeg = calloc((size_t)np + 1, sizeof *indeg), *start = calloc((size_t)np + 2, sizeof *start);
+    int *adj = malloc(((size_t)nc + 1) * sizeof *adj);
+    heap h = {malloc(((size_t)np + 1) * sizeof *h.a), 0};
+    if (!indeg || !start || !adj || !h.a) {
+        free(indeg), free(start), free(adj), free(h.a);
         return -1;
+    }
+    for (int k = 0; k < nc; k++) /* the port graph as adjacency lists (CSR) */
+        if (cfrom[k] >= 0 && cto[k] >= 0 && cfrom[k] != cto[k])
+            indeg[cto[k]]++, start[cfrom[k] + 2]++;
+    for (int i = 0; i < np; i++)
+        start[i + 2] += start[i + 1];
     for (int k = 0; k < nc; k++)
         if (cfrom[k] >= 0 && cto[k] >= 0 && cfrom[k] != cto[k])
-            indeg[cto[k]]++;
-    for (int i = 0; i < npieces; i++)
+            adj[start[cfrom[k] + 1]++] = cto[k];
+    for (int i = 0; i < np; i++) {
         rank[i] = -1;
+        if (!indeg[i])
+            heap_push(&h, i);
+    }
     *cyclic = false;
-    for (int pos = 0; pos < npieces; pos++) {
+    int next_left = 0; /* every piece below it is ranked */
+    for (int pos = 0; pos < np; pos++) {
         int pick = -1;
-        for (int i = 0; i < npieces && pick < 0; i++)
-            if (rank[i] < 0 && indeg[i] == 0)
-                pick = i;
+        while (h.n && pick < 0) {
+            pick = heap_pop(&h);
+            if (rank[pick] >= 0) /* already placed to break a loop */
+                pick = -1;
+        }
         if (pick < 0) { /* a loop: break it at its earliest piece */
-            for (int i = 0; i < npieces && pick < 0; i++)
-                if (rank[i] < 0)
-                    pick = i;
+            while (rank[next_left] >= 0)
+                next_left++;
+            pick = next_left;
             *cyclic = true;
         }
         rank[pick] = pos;
-        for (int k = 0; k < nc; k++)
-            if (cfrom[k] == pick && cto[k] >= 0 && cto[k] != pick && rank[cto[k]] < 0)
-                indeg[cto[k]]--;
+        for (int e = start[pick]; e < start[pick + 1]; e++)
+            if (rank[adj[e]] < 0 && --indeg[adj[e]] == 0)
+                heap_push(&h, adj[e]);
     }
-    free(indeg);
+    free(indeg), free(start), free(adj), free(h.a);
     return 0;
 }
 
@@ -339,9 +406,19 @@ static int build(const ls_netlist *nl, ls_chain *c, work *w)
     qsort(c->conns, (size_t)nc, sizeof *c->conns, cmp_conn);
     if (fill_stages(nl, c, w->piece, w->rank, w->count) != 0)
         return -1;
-    count_instances(nl, w->inst_parts);
+    if (count_instances(nl, w->inst_parts) != 0)
+        return -1;
+    /* the driver node of each stage's first outgoing port (in declaration order) */
+    int *driver = w->rank; /* free again: reused, one slot per stage */
     for (int s = 0; s < c->nstages; s++)
-        name_stage(nl, c, &c->stages[s], s, w->inst_parts);
+        driver[s] = -1;
+    for (int i = nl->nparts - 1; i >= 0; i--) {
+        const ls_part *p = &nl->parts[i];
+        if (p->kind->is_port && c->node_stage[p->pin[0]] >= 0)
+            driver[c->node_stage[p->pin[0]]] = p->pin[0];
+    }
+    for (int s = 0; s < c->nstages; s++)
+        name_stage(nl, &c->stages[s], driver[s], w->inst_parts);
     return 0;
 }
 

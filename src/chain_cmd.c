@@ -19,7 +19,8 @@
 
 /* ---- JSON ---------------------------------------------------------------------------- */
 
-void ls_json_meta(FILE *o, const ls_cli *cli, const char *file)
+/* The report's "meta" object: "meta": {"program", "version", "command", "file", "set"}. */
+static void json_meta(FILE *o, const ls_cli *cli, const char *file)
 {
     fputs("\"meta\": {\"program\": \"loadstack\", \"version\": ", o);
     ls_json_string(o, LS_VERSION);
@@ -88,7 +89,7 @@ static void chain_json(FILE *o, ls_session *s, const ls_chain *c)
 {
     const ls_netlist *nl = &s->nl;
     fputs("{", o);
-    ls_json_meta(o, s->cli, s->input_path);
+    json_meta(o, s->cli, s->input_path);
     fputs(",\n  \"title\": ", o);
     if (nl->title)
         ls_json_string(o, nl->title);

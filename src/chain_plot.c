@@ -277,45 +277,46 @@ static void grid(ls_chain_pic *pic, place *pl, int ncorr, double title_w)
 }
 
 /* Which connections are straight arrows between neighbours in a row (the
- * first such port of each neighbouring pair). */
-static void mark_direct(const ls_chain *c, place *pl)
+ * first such port of each neighbouring pair; a box has one such arrow out).
+ * used: pl->nbox flags, scratch. */
+static void mark_direct(const ls_chain *c, place *pl, bool *used)
 {
+    memset(used, 0, (size_t)pl->nbox * sizeof *used);
     for (int k = 0; k < c->nconns; k++) {
         int f = pl->from[k], t = pl->to[k];
-        pl->direct[k] = row_of(pl, f) == row_of(pl, t) && t == f + 1 && col_of(pl, t) == col_of(pl, f) + 1;
-        for (int j = 0; j < k && pl->direct[k]; j++)
-            if (pl->direct[j] && pl->from[j] == f && pl->to[j] == t)
-                pl->direct[k] = false;
+        pl->direct[k] = !used[f] && row_of(pl, f) == row_of(pl, t) && t == f + 1;
+        used[f] |= pl->direct[k];
     }
 }
 
-/* How many routed connections leave box b from below (or enter it from
- * above), and the rank of connection k among them. */
-static void attach(const ls_chain *c, const place *pl, int k, bool out, int *rank, int *count)
+/* For every routed connection k, its rank among the routed connections that
+ * leave its driver's box from below (ro) and enter its load's box from above
+ * (ri); the counts per box go to nout/nin (pl->nbox each, zeroed). */
+static void attach(const ls_chain *c, const place *pl, int *ro, int *ri, int *nout, int *nin)
 {
-    int b = out ? pl->from[k] : pl->to[k];
-    *rank = *count = 0;
-    for (int j = 0; j < c->nconns; j++) {
-        if (pl->direct[j] || (out ? pl->from[j] : pl->to[j]) != b)
-            continue;
-        if (j < k)
-            (*rank)++;
-        (*count)++;
-    }
+    for (int k = 0; k < c->nconns; k++)
+        if (!pl->direct[k]) {
+            ro[k] = nout[pl->from[k]]++;
+            ri[k] = nin[pl->to[k]]++;
+        }
 }
 
-/* Lay out every routed connection: its lanes, corridor and label.  Fills
- * the row tops; returns the picture height. */
+/* Place the boxes, and every connection: a direct arrow with its label in the
+ * gap, or its lanes, corridor and label.  Returns the picture height, or -1
+ * when out of memory. */
 static double route(ls_chain_pic *pic, const ls_chain *c, place *pl, double top)
 {
     int nch = pl->nrow + 1;
     double *ch_h = calloc((size_t)nch, sizeof *ch_h), *row_y = calloc((size_t)pl->nrow + 1, sizeof *row_y);
     double *lane_a = calloc((size_t)c->nconns + 1, sizeof *lane_a), *lane_b = calloc((size_t)c->nconns + 1, sizeof *lane_b);
     int *corr = calloc((size_t)c->nconns + 1, sizeof *corr);
-    if (!ch_h || !row_y || !lane_a || !lane_b || !corr) {
-        free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr);
-        return top;
+    int *att = calloc(2 * ((size_t)c->nconns + (size_t)pl->nbox) + 1, sizeof *att);
+    if (!ch_h || !row_y || !lane_a || !lane_b || !corr || !att) {
+        free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr), free(att);
+        return -1;
     }
+    int *ro = att, *ri = ro + c->nconns, *nout = ri + c->nconns, *nin = nout + pl->nbox;
+    attach(c, pl, ro, ri, nout, nin);
     /* first pass: lane offsets inside each channel, measured from its top */
     int ncorr = 0;
     for (int k = 0; k < c->nconns; k++) {
@@ -335,8 +336,8 @@ static double route(ls_chain_pic *pic, const ls_chain *c, place *pl, double top)
     /* vertical positions: channel 0, row 0, channel 1, ... */
     double y = top, *ch_y = calloc((size_t)nch, sizeof *ch_y);
     if (!ch_y) {
-        free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr);
-        return top;
+        free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr), free(att);
+        return -1;
     }
     for (int r = 0; r <= pl->nrow; r++) {
         ch_y[r] = y;
@@ -368,10 +369,8 @@ static double route(ls_chain_pic *pic, const ls_chain *c, place *pl, double top)
             lb->y = ym - lb->h / 2;
             continue;
         }
-        int ro, no, ri, ni;
-        attach(c, pl, k, true, &ro, &no);
-        attach(c, pl, k, false, &ri, &ni);
-        double xd = f->x + f->w * (ro + 1) / (no + 1), xl = t->x + t->w * (ri + 1) / (ni + 1);
+        double xd = f->x + f->w * (ro[k] + 1) / (nout[pl->from[k]] + 1);
+        double xl = t->x + t->w * (ri[k] + 1) / (nin[pl->to[k]] + 1);
         int rf = row_of(pl, pl->from[k]), rt = row_of(pl, pl->to[k]);
         double ya = ch_y[rf + 1] + lane_a[k];
         a->pt[0][0] = xd, a->pt[0][1] = f->y + f->h;
@@ -393,7 +392,7 @@ static double route(ls_chain_pic *pic, const ls_chain *c, place *pl, double top)
         lb->x = cx < lo ? lo : cx > hi ? hi : cx;
         lb->y = ya - lb->h / 2;
     }
-    free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr), free(ch_y);
+    free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr), free(ch_y), free(att);
     return y + MARGIN;
 }
 
@@ -446,16 +445,19 @@ static int layout(ls_chain_pic *pic, cairo_t *cr, ls_op *op, const ls_chain *c, 
     }
     /* the corridor count depends on the columns and the columns on the corridors' width: settle it */
     int ncorr = 0;
+    bool *used = ls_arena_alloc(&pic->arena, (size_t)pl->nbox + 1);
+    if (!used)
+        return -1;
     for (int iter = 0; iter < 4; iter++) {
         grid(pic, pl, ncorr, pic->title ? pic->title_line.w : 0);
-        mark_direct(c, pl);
+        mark_direct(c, pl, used);
         int n = corridors(c, pl);
         if (n == ncorr)
             break;
         ncorr = n;
     }
     pic->h = ceil(route(pic, c, pl, top));
-    return 0;
+    return pic->h < 0 ? -1 : 0;
 }
 
 /* A one-sentence summary for the picture's title and alt text. */

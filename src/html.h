@@ -20,9 +20,6 @@
  * drawn with --plot-all, or when some part has a tol=.  Returns an exit code. */
 int ls_html_page(FILE *o, ls_session *s, const ls_chain *c, const ls_chain_pic *pic);
 
-/* The "meta" object of the JSON reports: "meta": {...} (chain_cmd.c). */
-void ls_json_meta(FILE *o, const ls_cli *cli, const char *file);
-
 /* Monte Carlo values of q over `trials` trials, each part uniform within its
  * tol=, from `seed` (as `loadstack tol`).  *values gets `trials` values (NaN
  * where a trial did not solve; caller frees).  Returns 0, or -1 when out of
