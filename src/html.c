@@ -28,7 +28,7 @@ static const char css[] =
     "table{border-collapse:collapse;margin:.3em 0;font-variant-numeric:tabular-nums}\n"
     "th,td{border:1px solid #c8ccd4;padding:3px 8px;text-align:left;vertical-align:top}\n"
     "th{background:#eef1f5}td.num{text-align:right;white-space:nowrap}\n"
-    ".v-ok{color:#00684c}.v-marginal{color:#7a5000;font-weight:bold}\n"
+    ".v-ok{color:#00684c}.v-marginal{color:#7a5000;font-weight:bold}td[class^=v-]{white-space:nowrap}\n"
     ".v-loading{color:#a63a00;font-weight:bold}tr.loading td{background:#fbe3d6}tr.marginal td{background:#fff6e0}\n"
     ".alert{border:3px solid #d55e00;background:#fbe3d6;padding:8px 12px;margin:.8em 0}\n"
     ".good{border:2px solid #009e73;padding:8px 12px;margin:.8em 0}\n"
@@ -100,12 +100,16 @@ static void cell_num(FILE *o, ls_report *rp, double v, const char *unit)
     fputs("</td>", o);
 }
 
-static void cell_verdict(FILE *o, ls_verdict v)
+/* A verdict cell: the word, a mark and the verdict's colour. */
+static void cell_verdict_text(FILE *o, ls_verdict v, const char *word)
 {
     static const char *const mark[3] = {"\xE2\x9C\x93", "\xE2\x96\xB3", "\xE2\x9C\x97"};
-    fprintf(o, "<td class=\"v-%s\"><span aria-hidden=\"true\">%s</span> %s</td>", ls_verdict_word(v), mark[v],
-            ls_verdict_word(v));
+    fprintf(o, "<td class=\"v-%s\"><span aria-hidden=\"true\">%s</span> ", ls_verdict_word(v), mark[v]);
+    esc(o, word);
+    fputs("</td>", o);
 }
+
+static void cell_verdict(FILE *o, ls_verdict v) { cell_verdict_text(o, v, ls_verdict_word(v)); }
 
 /* ---- sections ------------------------------------------------------------------------------ */
 
@@ -281,7 +285,8 @@ static void adcs_section(FILE *o, ls_report *rp, ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
-    const char *head[] = {"adc", "input", "code", "unloaded", "error (LSB)", "source resistance"};
+    const char *head[] = {"adc", "input", "code", "unloaded", "error (LSB)", "source resistance", "max source",
+                          "settling"};
     bool any = false;
     for (int i = 0; i < nl->nparts; i++) {
         ls_adc_result r;
@@ -289,7 +294,7 @@ static void adcs_section(FILE *o, ls_report *rp, ls_op *op)
             continue;
         if (!any) {
             fputs("<h2 id=\"adcs\">ADC inputs</h2>\n", o);
-            table_open(o, "ADC inputs", head, 6);
+            table_open(o, "ADC inputs", head, 8);
             any = true;
         }
         char code[32];
@@ -300,6 +305,16 @@ static void adcs_section(FILE *o, ls_report *rp, ls_op *op)
         cell_num(o, rp, r.v_open, "V");
         cell_num(o, rp, r.error_lsb, "");
         cell_num(o, rp, r.rth, OHM);
+        const ls_part *p = &nl->parts[i];
+        int mi = ls_kind_opt(p->kind, "max_source");
+        if (ls_part_has(p, mi)) {
+            cell_num(o, rp, p->opt[mi], OHM);
+            cell_verdict_text(o, r.rth <= p->opt[mi] ? VERDICT_OK : VERDICT_LOADING,
+                              r.rth <= p->opt[mi] ? "ok" : "source too high");
+        } else {
+            cell(o, "-");
+            cell(o, "-");
+        }
         fputs("</tr>\n", o);
     }
     if (any)
