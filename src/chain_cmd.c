@@ -80,8 +80,11 @@ static void conn_json(FILE *o, ls_op *op, const ls_conn *k)
     for (int j = 0; j < 4; j++)
         if (why_null(vals[j]))
             fprintf(o, "%s\"%s\": \"%s\"", nwhy++ ? ", " : ", \"why\": {", keys[j], why_null(vals[j]));
-    if (k->from < 0 || k->to < 0)
-        fprintf(o, "%s\"%s\": \"rail\"", nwhy++ ? ", " : ", \"why\": {", k->from < 0 ? "from_stage" : "to_stage");
+    const ls_part *p = &nl->parts[k->port];
+    if (k->from < 0)
+        fprintf(o, "%s\"from_stage\": \"%s\"", nwhy++ ? ", " : ", \"why\": {", p->pin[0] ? "rail" : "ground");
+    if (k->to < 0)
+        fprintf(o, "%s\"to_stage\": \"%s\"", nwhy++ ? ", " : ", \"why\": {", p->pin[1] ? "rail" : "ground");
     fputs(nwhy ? "}}" : "}", o);
 }
 
@@ -203,6 +206,10 @@ static void stages_text(FILE *o, ls_report *rp, const ls_netlist *nl, const ls_c
 {
     (void)rp;
     fprintf(o, "Stages, in signal order (%d)\n", c->nstages);
+    if (!c->nstages) {
+        fputs("  (none: every part sits between ground and the supply rails)\n", o);
+        return;
+    }
     char **cells = calloc((size_t)c->nstages * 4 + 1, sizeof *cells);
     if (!cells)
         return;

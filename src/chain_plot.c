@@ -185,7 +185,7 @@ static void conn_label(ls_chain_pic *pic, cairo_t *cr, ls_op *op, int port, bool
     add_line(pic, cr, it, false, SIZE_TEXT, -1, "ratio %s", ls_fmt_eng(c, sizeof c, pr->ratio, "", 3, ascii));
     ls_fmt_eng(a, sizeof a, pr->sag, pr->current_mode ? "A" : "V", 3, ascii);
     if (isfinite(pr->sag_rel) && pr->sag != 0)
-        add_line(pic, cr, it, false, SIZE_TEXT, -1, "sag %s (%.2g%%)", a, pr->sag_rel * 100);
+        add_line(pic, cr, it, false, SIZE_TEXT, -1, "sag %s (%.3g%%)", a, pr->sag_rel * 100);
     else
         add_line(pic, cr, it, false, SIZE_TEXT, -1, "sag %s", a);
     add_line(pic, cr, it, true, SIZE_TEXT, it->verdict, "%s", (ascii ? mark_ascii : mark)[pr->verdict]);
@@ -218,29 +218,27 @@ static int row_of(const place *pl, int b) { return b / pl->ncol; }
 static int col_of(const place *pl, int b) { return b % pl->ncol; }
 static double box_x(const place *pl, int b) { return pl->x0 + col_of(pl, b) * (pl->bw + pl->gap); }
 
-/* Boxes for the rail and ground ends of ports: one per node, before the stages. */
-static int rail_boxes(ls_chain_pic *pic, cairo_t *cr, ls_op *op, const ls_chain *c, int *rail_box, place *pl)
+/* Boxes for the rail and ground ends of ports, one per node, numbered from
+ * *n: with drivers, the rails that drive a port (they go before the stages);
+ * else the rails that are only loads (after them). */
+static void rail_boxes(ls_chain_pic *pic, cairo_t *cr, ls_op *op, const ls_chain *c, int *rail_box, int *n,
+                       bool drivers)
 {
     const ls_netlist *nl = op->nl;
-    int n = 0;
     for (int k = 0; k < c->nconns; k++) {
         const ls_part *p = &nl->parts[c->conns[k].port];
-        int ends[2] = {c->conns[k].from < 0 ? p->pin[0] : -1, c->conns[k].to < 0 ? p->pin[1] : -1};
-        for (int e = 0; e < 2; e++) {
-            if (ends[e] < 0 || rail_box[ends[e]] >= 0)
-                continue;
-            item *it = &pic->boxes[n];
-            rail_box[ends[e]] = n++;
-            it->verdict = -1;
-            it->rail = true;
-            it->id = nl->nodes[ends[e]].name;
-            add_line(pic, cr, it, true, SIZE_NAME, -1, "%s", it->id);
-            add_line(pic, cr, it, false, SIZE_TEXT, -1, "%s", ends[e] == 0 ? "ground" : "supply rail");
-            it->tip = ls_arena_printf(&pic->arena, "%s %s", ends[e] == 0 ? "ground" : "supply rail", it->id);
-        }
+        int node = drivers ? (c->conns[k].from < 0 ? p->pin[0] : -1) : (c->conns[k].to < 0 ? p->pin[1] : -1);
+        if (node < 0 || rail_box[node] >= 0)
+            continue;
+        item *it = &pic->boxes[*n];
+        rail_box[node] = (*n)++;
+        it->verdict = -1;
+        it->rail = true;
+        it->id = nl->nodes[node].name;
+        add_line(pic, cr, it, true, SIZE_NAME, -1, "%s", it->id);
+        add_line(pic, cr, it, false, SIZE_TEXT, -1, "%s", node == 0 ? "ground" : "supply rail");
+        it->tip = ls_arena_printf(&pic->arena, "%s %s", node == 0 ? "ground" : "supply rail", it->id);
     }
-    (void)pl;
-    return n;
 }
 
 /* Sizes shared by all boxes and the gap between them; columns and rows. */
@@ -425,10 +423,13 @@ static int layout(ls_chain_pic *pic, cairo_t *cr, ls_op *op, const ls_chain *c, 
     memset(pic->labels, 0, ((size_t)c->nconns + 1) * sizeof *pic->labels);
     for (int i = 0; i < nl->nnodes; i++)
         rail_box[i] = -1;
-    int nrail = rail_boxes(pic, cr, op, c, rail_box, pl);
+    int nrail = 0;
+    rail_boxes(pic, cr, op, c, rail_box, &nrail, true);
     for (int s = 0; s < c->nstages; s++)
         stage_box(pic, cr, nl, &c->stages[s], &pic->boxes[nrail + s]);
-    pl->nbox = pic->nboxes = nrail + c->nstages;
+    int nbox = nrail + c->nstages;
+    rail_boxes(pic, cr, op, c, rail_box, &nbox, false);
+    pl->nbox = pic->nboxes = nbox;
     for (int k = 0; k < c->nconns; k++) {
         const ls_part *p = &nl->parts[c->conns[k].port];
         pl->from[k] = c->conns[k].from >= 0 ? nrail + c->conns[k].from : rail_box[p->pin[0]];
