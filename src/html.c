@@ -429,6 +429,20 @@ static unsigned char *slurp(const char *path, size_t *n)
     return b;
 }
 
+/* The quantity an expect compares: its text between "expect " and the first
+ * comparison ("probe" of "expect probe between 1 V and 2 V"). */
+static void quantity_text(const char *text, char *buf, size_t n)
+{
+    static const char *const cmp[] = {" between ", " <= ", " >= ", " < ", " > ", " = ", " == ", " != "};
+    const char *q = strncmp(text, "expect ", 7) == 0 ? text + 7 : text, *end = q + strlen(q);
+    for (size_t i = 0; i < sizeof cmp / sizeof cmp[0]; i++) {
+        const char *at = strstr(q, cmp[i]);
+        if (at && at < end)
+            end = at;
+    }
+    snprintf(buf, n, "%.*s", (int)(end - q), q);
+}
+
 /* One histogram of check row's quantity: drawn by the tol command's plotter
  * into a scratch SVG, embedded as an image.  Returns 0 or -1. */
 static int histogram(FILE *o, ls_session *s, const ls_check *ck, const char *dir, int k)
@@ -436,12 +450,29 @@ static int histogram(FILE *o, ls_session *s, const ls_check *ck, const char *dir
     double *v;
     if (ls_tol_sample(s, ck->lhs, LS_HTML_TRIALS, 1, &v) != 0)
         return -1;
-    const char *q = strncmp(ck->text, "expect ", 7) == 0 ? ck->text + 7 : ck->text;
-    char title[300], path[600], msg[200];
+    char q[200], title[300], path[600], msg[200];
+    quantity_text(ck->text, q, sizeof q);
     snprintf(title, sizeof title, "%s: Monte Carlo, %ld trials (uniform within tol=, seed 1)", q, LS_HTML_TRIALS);
     snprintf(path, sizeof path, "%s/h%d.svg", dir, k);
-    ls_plot_hist h = {.title = title, .xlabel = q, .xunit = ls_unit_of(ck->lhs->dims, s->cli->ascii),
-                      .ylabel = "trials", .values = v, .n = (size_t)LS_HTML_TRIALS};
+    /* the expect's limits as lines on the histogram */
+    ls_check_result cr;
+    ls_check_eval(&s->op, ck, &cr);
+    const char *unit = ls_unit_of(ck->lhs->dims, s->cli->ascii);
+    ls_plot_mark marks[2];
+    char lab[2][80], b[48];
+    size_t nm = 0;
+    if (isfinite(cr.lo)) {
+        snprintf(lab[nm], sizeof lab[nm], "expect \xE2\x89\xA5 %s", ls_fmt_eng(b, sizeof b, cr.lo, unit, 4, s->cli->ascii));
+        marks[nm] = (ls_plot_mark){cr.lo, lab[nm]};
+        nm++;
+    }
+    if (isfinite(cr.hi)) {
+        snprintf(lab[nm], sizeof lab[nm], "expect \xE2\x89\xA4 %s", ls_fmt_eng(b, sizeof b, cr.hi, unit, 4, s->cli->ascii));
+        marks[nm] = (ls_plot_mark){cr.hi, lab[nm]};
+        nm++;
+    }
+    ls_plot_hist h = {.title = title, .xlabel = q, .xunit = unit, .ylabel = "trials", .values = v,
+                      .n = (size_t)LS_HTML_TRIALS, .marks = marks, .nmarks = nm};
     int rc = ls_plot_hist_write(&h, path, msg, sizeof msg);
     free(v);
     size_t n;
