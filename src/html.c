@@ -113,9 +113,13 @@ static void cell_verdict(FILE *o, ls_verdict v) { cell_verdict_text(o, v, ls_ver
 
 /* ---- sections ------------------------------------------------------------------------------ */
 
+/* A warning about a hazard to people or parts: its message starts with
+ * "caution", or it is one of the ratings' warnings. */
 static bool is_caution(const ls_diag *g)
 {
     static const char *const codes[] = {"hazardous-voltage", "over-rating", "over-voltage", "over-current"};
+    if (g->msg && strncmp(g->msg, "caution", 7) == 0)
+        return true;
     for (size_t i = 0; g->code && i < sizeof codes / sizeof codes[0]; i++)
         if (strcmp(g->code, codes[i]) == 0)
             return true;
