@@ -158,6 +158,10 @@ static void summary(FILE *o, ls_op *op, const ls_chain *c, const ls_diags *d)
     } else if (c->nconns) {
         fprintf(o, "<p class=\"good\"><span aria-hidden=\"true\">\xE2\x9C\x93</span> All %d connection%s ok.</p>\n",
                 c->nconns, c->nconns > 1 ? "s" : "");
+    } else {
+        fputs("<p class=\"caution\">This circuit has no port, so no connection is judged: mark each connection "
+              "between stages with <code>port NAME DRIVER -&gt; LOAD</code> to see its loading.</p>\n",
+              o);
     }
 }
 
