@@ -80,11 +80,11 @@ static void conn_json(FILE *o, ls_op *op, const ls_conn *k)
     for (int j = 0; j < 4; j++)
         if (why_null(vals[j]))
             fprintf(o, "%s\"%s\": \"%s\"", nwhy++ ? ", " : ", \"why\": {", keys[j], why_null(vals[j]));
-    const ls_part *p = &nl->parts[k->port];
+    /* an end on ground or a rail has no stage: the field does not apply */
     if (k->from < 0)
-        fprintf(o, "%s\"from_stage\": \"%s\"", nwhy++ ? ", " : ", \"why\": {", p->pin[0] ? "rail" : "ground");
+        fprintf(o, "%s\"from_stage\": \"none\"", nwhy++ ? ", " : ", \"why\": {");
     if (k->to < 0)
-        fprintf(o, "%s\"to_stage\": \"%s\"", nwhy++ ? ", " : ", \"why\": {", p->pin[1] ? "rail" : "ground");
+        fprintf(o, "%s\"to_stage\": \"none\"", nwhy++ ? ", " : ", \"why\": {");
     fputs(nwhy ? "}}" : "}", o);
 }
 
@@ -140,7 +140,8 @@ static void chain_json(FILE *o, ls_session *s, const ls_chain *c)
         fputs(k ? ", " : "", o);
         ls_json_string(o, nl->parts[c->supply_parts[k]].name);
     }
-    fprintf(o, "],\n  \"loop\": %s\n}\n", c->cyclic ? "true" : "false");
+    fprintf(o, "],\n  \"loop\": %s", c->cyclic ? "true" : "false");
+    fputs(nl->title ? "\n}\n" : ",\n  \"why\": {\"title\": \"none\"}\n}\n", o);
 }
 
 /* ---- CSV ------------------------------------------------------------------------------ */

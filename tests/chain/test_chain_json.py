@@ -37,7 +37,7 @@ def one(path):
         n = len(chain.get("stages", []))
         for end in ("from_stage", "to_stage"):
             v = c.get(end)
-            check(v is None and c.get("why", {}).get(end) in ("rail", "ground") or isinstance(v, int) and 0 <= v < n,
+            check(v is None and c.get("why", {}).get(end) == "none" or isinstance(v, int) and 0 <= v < n,
                   f"{path}: {c['port']}.{end} = {v!r}")
     for key in ("meta", "stages", "connections"):
         check(key in chain, f"{path}: chain JSON lacks '{key}'")
