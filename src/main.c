@@ -31,6 +31,7 @@ static const optdef options[] = {
     {"version", false, "*", "print the version"},
     {"load", true, "thevenin", "R  voltage and current into a load resistance R"},
     {"meter", true, "thevenin", "R  what a meter of input resistance R would read"},
+    {"what-if", false, "sag", "add the table of each port opened and each part removed in turn"},
     {"trials", true, "tol", "N  Monte Carlo trials (default 10000)"},
     {"seed", true, "tol", "S  random seed, a whole number (default 1): the same seed gives the same answer"},
     {"dist", true, "tol", "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)"},
@@ -57,9 +58,9 @@ static const cmd commands[] = {
      "loadstack solve circuits/demo.stack --format json", ls_cmd_solve, 1},
     {"check", "check FILE", "evaluate every expect and rule; exit 1 if any fails (for a design's CI)",
      "loadstack check circuits/demo.stack && echo design ok", ls_cmd_check, 1},
-    {"sag", "sag FILE NODE", "which ports and parts pull NODE away from where it would be without them",
+    {"sag", "sag FILE NODE", "which connections (ports) make NODE sag, and by how much each",
      "loadstack sag circuits/demo.stack adc_in", ls_cmd_sag, 2},
-    {"thevenin", "thevenin FILE NODE", "Thevenin and Norton equivalent seen at NODE against ground",
+    {"thevenin", "thevenin FILE NODE|PORT", "Thevenin and Norton equivalent at NODE, or of each side of PORT",
      "loadstack thevenin circuits/demo.stack probe --meter 10M", ls_cmd_thevenin, 2},
     {"influence", "influence FILE QUANTITY", "how much each part's main value moves QUANTITY (adjoint method)",
      "loadstack influence circuits/demo.stack adc_in", ls_cmd_influence, 2},
@@ -197,6 +198,8 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         cli->load = val;
     } else if (strcmp(n, "meter") == 0) {
         cli->meter = val;
+    } else if (strcmp(n, "what-if") == 0) {
+        cli->what_if = true;
     } else if (strcmp(n, "trials") == 0) {
         if (!whole_number(val, 1, 10000000, &cli->trials))
             return bad_usage("--trials takes a whole number from 1 to 10000000, not '%s'%s", val, "");
