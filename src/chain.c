@@ -7,29 +7,6 @@
 #include "fmt.h"
 #include "parts.h"
 
-/* ---- union-find over nodes ------------------------------------------------------------ */
-
-static int uf_find(int *up, int a)
-{
-    while (up[a] != a) {
-        up[a] = up[up[a]]; /* path halving */
-        a = up[a];
-    }
-    return a;
-}
-
-/* Join a and b; the smaller index becomes the root, so a root is the first
- * mention of its piece. */
-static void uf_join(int *up, int a, int b)
-{
-    a = uf_find(up, a);
-    b = uf_find(up, b);
-    if (a < b)
-        up[b] = a;
-    else if (b < a)
-        up[a] = b;
-}
-
 /* ---- rails ------------------------------------------------------------------------------ */
 
 static bool is_kind(const ls_part *p, const char *name)
@@ -291,7 +268,7 @@ static void join_parts(const ls_netlist *nl, const bool *rail, int *up)
         int a = p->kind->is_port ? -1 : part_anchor(p, rail);
         for (int k = 0; a >= 0 && k < p->kind->npins; k++)
             if (p->pin[k] >= 0 && !rail[p->pin[k]])
-                uf_join(up, a, p->pin[k]);
+                ls_uf_union(up, a, p->pin[k]); /* the smaller index is the root: a piece's first mention */
     }
 }
 
@@ -312,7 +289,7 @@ static int number_pieces(const ls_netlist *nl, const bool *rail, int *up, int *p
     for (int i = 0; i < nl->nnodes; i++) {
         if (rail[i] || !used[i])
             continue;
-        int r = uf_find(up, i);
+        int r = ls_uf_find(up, i);
         if (piece[r] < 0)
             piece[r] = n++;
         piece[i] = piece[r];
