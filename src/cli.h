@@ -35,6 +35,9 @@ typedef struct ls_cli {
     bool log;
     bool plot_all;                     /* solve, chain with --format html: histograms even without tol= */
     int threads;
+    const char *symbols;               /* formula: --symbols A,B,... */
+    bool ideal;                        /* formula: --ideal */
+    bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
 } ls_cli;
 
 /* Everything a command needs from a loaded circuit. */
@@ -79,6 +82,7 @@ int ls_cmd_tol(ls_cli *cli);     /* tol_cmd.c */
 int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
 int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
 int ls_cmd_chain(ls_cli *cli);   /* chain_cmd.c */
+int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
 
 extern const char ls_demo_text[];
 
