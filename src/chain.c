@@ -442,6 +442,9 @@ char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii)
     const char *OHM = ascii ? "ohm" : "\xCE\xA9", *LE = ascii ? "<=" : "\xE2\x89\xA4",
                *GE = ascii ? ">=" : "\xE2\x89\xA5";
     double min = ls_op_min_ratio(op);
+    /* judged by a budget B: |sag| = |open|/(1 + ratio) <= B asks for ratio >= |open|/B - 1 */
+    if (pr->by_budget && isfinite(pr->budget) && pr->budget > 0 && isfinite(pr->open))
+        min = fabs(pr->open) / pr->budget - 1;
     char lo[48], hi[48];
     buf[0] = 0;
     if (pr->verdict == VERDICT_OK)

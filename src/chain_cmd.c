@@ -75,8 +75,13 @@ static void conn_json(FILE *o, ls_op *op, const ls_conn *k)
         fprintf(o, ", \"%s\": ", keys[j]);
         ls_json_number(o, vals[j]);
     }
-    fprintf(o, ", \"verdict\": \"%s\"", ls_verdict_word(pr->verdict));
+    fputs(", \"budget\": ", o);
+    ls_json_number(o, pr->budget);
+    fprintf(o, ", \"by\": \"%s\", \"verdict\": \"%s\"", pr->by_budget ? "budget" : "ratio",
+            ls_verdict_word(pr->verdict));
     int nwhy = 0;
+    if (isnan(pr->budget))
+        fprintf(o, "%s\"budget\": \"none\"", nwhy++ ? ", " : ", \"why\": {");
     for (int j = 0; j < 4; j++)
         if (why_null(vals[j]))
             fprintf(o, "%s\"%s\": \"%s\"", nwhy++ ? ", " : ", \"why\": {", keys[j], why_null(vals[j]));
@@ -252,7 +257,8 @@ static void conns_text(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
         const ls_conn *k = &c->conns[i];
         const ls_part *p = &nl->parts[k->port];
         const ls_port_result *pr = ls_op_port(op, k->port);
-        char a[160], b[160], conn[400], z1[64], z2[64], zz[160], r[64], sag[64], sagt[96];
+        char a[160], b[160], conn[400], z1[64], z2[64], zz[160], r[64], sag[64], sagt[96], verdict[64];
+        snprintf(verdict, sizeof verdict, "%s (%s)", ls_verdict_word(pr->verdict), pr->by_budget ? "budget" : "ratio");
         snprintf(conn, sizeof conn, "%s %s %s", end_text(c, nl, k->from, p->pin[0], a, sizeof a), ARROW,
                  end_text(c, nl, k->to, p->pin[1], b, sizeof b));
         snprintf(zz, sizeof zz, "%s %s %s", ls_eng(rp, z1, sizeof z1, pr->zout, OHM), ARROW,
@@ -263,7 +269,7 @@ static void conns_text(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
         else
             snprintf(sagt, sizeof sagt, "%s", sag);
         const char *row[NC] = {p->name, conn, zz, ls_eng(rp, r, sizeof r, pr->ratio, ""), sagt,
-                               pr->current_mode ? "current" : "voltage", ls_verdict_word(pr->verdict)};
+                               pr->current_mode ? "current" : "voltage", verdict};
         for (int j = 0; j < NC; j++)
             cells[NC * i + j] = strdup(row[j]);
     }

@@ -188,6 +188,8 @@ static void conn_label(ls_chain_pic *pic, cairo_t *cr, ls_op *op, int port, bool
         add_line(pic, cr, it, false, SIZE_TEXT, -1, "sag %s (%.3g%%)", a, pr->sag_rel * 100);
     else
         add_line(pic, cr, it, false, SIZE_TEXT, -1, "sag %s", a);
+    if (isfinite(pr->budget))
+        add_line(pic, cr, it, false, SIZE_TEXT, -1, "budget %s", ls_fmt_eng(a, sizeof a, pr->budget, pr->current_mode ? "A" : "V", 3, ascii));
     add_line(pic, cr, it, true, SIZE_TEXT, it->verdict, "%s", (ascii ? mark_ascii : mark)[pr->verdict]);
     char fix[200];
     ls_chain_fix(op, port, fix, sizeof fix, ascii);
