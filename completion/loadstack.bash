@@ -7,7 +7,7 @@
 # and `--set`.
 # Installed as share/bash-completion/completions/loadstack.
 
-_loadstack_commands="solve check sag thevenin influence tol sweep formula pick demo"
+_loadstack_commands="solve check sag thevenin influence tol sweep formula pick chain demo"
 _loadstack_common="--set --format --output --min-ratio --ascii --solver --derate --help --version"
 
 # The options one command takes, common ones included.
@@ -20,6 +20,8 @@ _loadstack_options()
         tol) extra="--trials --seed --dist --plot" ;;
         sweep) extra="--steps --log --plot" ;;
         pick) extra="--series --total --zout" ;;
+        chain) extra="--plot --plot-all" ;;
+        solve | demo) extra="--plot-all" ;;
         formula) extra="--symbols --ideal" ;;
     esac
     echo "$_loadstack_common $extra"
@@ -115,7 +117,7 @@ _loadstack()
 
     # Values of options.
     case $prev in
-        --format) COMPREPLY=($(compgen -W "text json csv" -- "$cur")); return ;;
+        --format) COMPREPLY=($(compgen -W "text json csv html" -- "$cur")); return ;;
         --solver) COMPREPLY=($(compgen -W "auto dense sparse" -- "$cur")); return ;;
         --dist) COMPREPLY=($(compgen -W "uniform normal" -- "$cur")); return ;;
         --series) COMPREPLY=($(compgen -W "E6 E12 E24 E48 E96 E192" -- "$cur")); return ;;
@@ -123,6 +125,7 @@ _loadstack()
         --plot)
             compopt -o filenames 2>/dev/null
             COMPREPLY=($(compgen -f -X '!*.svg' -- "$cur") $(compgen -f -X '!*.png' -- "$cur") \
+                $(compgen -f -X '!*.pdf' -- "$cur") \
                 $(compgen -d -- "$cur")); return ;;
         --set)
             compopt -o nospace 2>/dev/null

@@ -1267,6 +1267,7 @@ void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
     case FMT_TEXT: solve_text(rp, op, checks); break;
     case FMT_JSON: solve_json(rp, op, checks); break;
     case FMT_CSV: solve_csv(rp, op, checks); break;
+    case FMT_HTML: break; /* the page is html.c's, called by the command */
     }
 }
 
@@ -1304,4 +1305,19 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
         fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass", checks->passed,
                 checks->failed);
     }
+}
+
+/* ---- aligned tables for the other commands' text reports ------------------------------- */
+
+void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right, const char *const *cells,
+                   int nrows)
+{
+    table t = {.ncol = ncol < 10 ? ncol : 10};
+    for (int c = 0; c < t.ncol; c++) {
+        t.head[c] = head[c];
+        t.right[c] = right[c];
+    }
+    for (int r = 0; r < nrows; r++)
+        t_row(&t, cells + (size_t)r * (size_t)ncol);
+    t_print(&t, f);
 }
