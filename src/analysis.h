@@ -4,6 +4,7 @@
 #ifndef LS_ANALYSIS_H
 #define LS_ANALYSIS_H
 
+#include "accuracy.h"
 #include "mna.h"
 
 typedef enum ls_solver_choice { LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE } ls_solver_choice;
@@ -17,6 +18,7 @@ typedef struct ls_options {
     const ls_tie *ties;           /* per node, or NULL: conductances to fixed voltages */
     bool keep_states;       /* start from the parts' present linearization points and limits */
     bool linear_only;       /* one linear solve at those points (no iteration) */
+    bool no_bounds;         /* inner solves (variants): no error bounds and no untrusted-digits warning */
 } ls_options;
 
 typedef enum ls_verdict { VERDICT_OK, VERDICT_MARGINAL, VERDICT_LOADING } ls_verdict;
@@ -25,9 +27,18 @@ typedef struct ls_port_result {
     bool done;
     bool current_mode;
     double open, loaded, sag, sag_rel, zout, zin, ratio, current;  /* NaN undefined, inf unbounded */
+    double load_open;        /* V(LOAD) with the port opened (voltage mode; NaN when unknown) */
+    double budget;           /* largest |sag| allowed (V, or A in current mode); NaN: none */
+    int budget_from;         /* LS_BUDGET_FROM_*: where the budget comes from */
+    int adc;                 /* an adc part on the load node (the one with the smallest LSB), or -1 */
+    bool by_budget;          /* the verdict was decided by the budget, not the ratio rule */
+    bool load_held;          /* the load side floats when opened: held at its loaded voltage */
     ls_verdict verdict;
     const char *note;        /* why a field is undefined, or NULL */
 } ls_port_result;
+
+/* Where a port's budget comes from. */
+enum { LS_BUDGET_FROM_NONE, LS_BUDGET_FROM_PORT, LS_BUDGET_FROM_RULE, LS_BUDGET_FROM_ADC };
 
 typedef struct ls_op {
     const ls_netlist *nl;
@@ -50,7 +61,12 @@ typedef struct ls_op {
     int *order;              /* nodes by tin */
     double *work;            /* refinement workspace: 3 work_n doubles */
     size_t work_n;
+    ls_accuracy acc;         /* extra-precise tail of x and the error bounds (accuracy.h) */
 } ls_op;
+
+/* "; the widest spread of values is resistor 'a' (...) against 'b' (...)",
+ * or "" with fewer than two resistors: the usual cause of ill-conditioning. */
+void ls_widest_spread(const ls_netlist *nl, char *buf, size_t n);
 
 /* Exit codes of the program (cli.md). */
 enum { LS_EXIT_OK = 0, LS_EXIT_CHECK = 1, LS_EXIT_USAGE = 2, LS_EXIT_UNSOLVABLE = 3 };
@@ -83,6 +99,12 @@ typedef struct ls_check_result {
 
 void ls_check_eval(ls_op *op, const ls_check *c, ls_check_result *r);
 
+/* A comparison holds within this relative distance of its limit. */
+#define LS_CHECK_REL 1e-9
+/* The slack (in the limit's unit) a comparison against limit allows; 0 for an
+ * infinite limit. */
+double ls_check_slack(double limit);
+
 /* ---- modified systems (low-rank updates of the factored system) ---- */
 
 /* A modification of the base system A x = b: a few changed rows (and rhs
@@ -90,7 +112,10 @@ void ls_check_eval(ls_op *op, const ls_check *c, ls_check_result *r);
  * or through a fresh factorization when the rank is large. */
 typedef struct ls_mod ls_mod;
 
-typedef enum ls_mod_kind { MOD_REMOVE_PART, MOD_SHORT_PORT_TO_GROUND } ls_mod_kind;
+/* MOD_HOLD_PORT_LOAD: a port opened with its load end held at its loaded
+ * voltage (a source from ground through the port's own branch unknown), for
+ * a load side that has no DC path of its own once the port is open. */
+typedef enum ls_mod_kind { MOD_REMOVE_PART, MOD_SHORT_PORT_TO_GROUND, MOD_HOLD_PORT_LOAD } ls_mod_kind;
 
 /* Build the modification "part p removed" (a port opened).  Never NULL unless
  * out of memory; check ls_mod_singular. */

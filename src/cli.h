@@ -33,6 +33,7 @@ typedef struct ls_cli {
     const char *plot;                  /* tol, sweep */
     int steps;                         /* sweep (default 51) */
     bool log;
+    bool plot_all;                     /* solve, chain with --format html: histograms even without tol= */
     int threads;
     const char *symbols;               /* formula: --symbols A,B,... */
     bool ideal;                        /* formula: --ideal */
@@ -84,6 +85,7 @@ bool ls_q_same(const ls_q *a, const ls_q *b);
 int ls_cmd_tol(ls_cli *cli);     /* tol_cmd.c */
 int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
 int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
+int ls_cmd_chain(ls_cli *cli);   /* chain_cmd.c */
 int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
 
 extern const char ls_demo_text[];

@@ -11,6 +11,7 @@
 
 #include "cli.h"
 #include "elab.h"
+#include "html.h"
 #include "parser.h"
 
 /* ---- numbers on the command line ------------------------------------------------------ */
@@ -251,11 +252,13 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
     }
     phase_done("checks", &t0);
     ls_report rp = ls_report_for(&s, out);
+    code = check_mode && checks.failed ? LS_EXIT_CHECK : LS_EXIT_OK;
     if (check_mode)
         ls_report_check(&rp, &s.op, &checks);
+    else if (cli->fmt == FMT_HTML)
+        code = ls_html_page(out, &s, NULL, NULL);
     else
         ls_report_solve(&rp, &s.op, &checks);
-    code = check_mode && checks.failed ? LS_EXIT_CHECK : LS_EXIT_OK;
     code = ls_out_close(&s, out, tmp, code);
     phase_done("report", &t0);
     ls_diags_print(&s.diags, stderr);

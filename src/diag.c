@@ -54,6 +54,12 @@ int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len
     return d->nfiles++;
 }
 
+void ls_sources_truncate(ls_diags *d, int nfiles)
+{
+    while (d->nfiles > nfiles)
+        free(d->files[--d->nfiles].line_start);
+}
+
 void ls_loc_linecol(const ls_diags *d, int file, unsigned off, int *line, int *col)
 {
     const ls_file *f = &d->files[file];

@@ -52,6 +52,10 @@ void ls_diags_init(ls_diags *d, ls_arena *a);
 void ls_diags_free(ls_diags *d);
 /* Register a file's text (copied into the arena); returns its id, -1 on no memory. */
 int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len);
+/* Forget the files registered after the first `nfiles` (their text lives in
+ * the arena, which the caller rolls back); only when no diagnostic points
+ * into them. */
+void ls_sources_truncate(ls_diags *d, int nfiles);
 /* 1-based line and column (code points) of a byte offset. */
 void ls_loc_linecol(const ls_diags *d, int file, unsigned off, int *line, int *col);
 

@@ -7,6 +7,7 @@
 
 #include "cli.h"
 #include "parts.h"
+#include "solver.h"
 
 #ifndef LS_VERSION
 #define LS_VERSION "0.0.0"
@@ -21,7 +22,7 @@ typedef struct optdef {
 
 static const optdef options[] = {
     {"set", true, "*", "NAME=VALUE  override a top-level let (repeatable)"},
-    {"format", true, "*", "text|json|csv  report format (default text)"},
+    {"format", true, "*", "text|json|csv|html  report format (default text; html: solve and chain)"},
     {"output", true, "*", "FILE  write the report to FILE (whole or not at all)"},
     {"min-ratio", true, "*", "X  minimum zin/zout for a port to pass (default: the circuit's rule, else 10)"},
     {"ascii", false, "*", "plain ASCII output (u for micro, ohm for the omega sign)"},
@@ -35,7 +36,8 @@ static const optdef options[] = {
     {"trials", true, "tol", "N  Monte Carlo trials (default 10000)"},
     {"seed", true, "tol", "S  random seed, a whole number (default 1): the same seed gives the same answer"},
     {"dist", true, "tol", "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)"},
-    {"plot", true, "tol sweep", "FILE.svg|FILE.png  draw a picture (tol: histogram; sweep: the curves)"},
+    {"plot", true, "tol sweep chain", "FILE.svg|FILE.png  draw a picture (tol: histogram; sweep: the curves; chain: the stages, also .pdf)"},
+    {"plot-all", false, "solve chain demo", "with --format html: tolerance histograms even when no part has tol="},
     {"steps", true, "sweep", "N  points from FROM to TO, both included (default 51)"},
     {"log", false, "sweep", "space the points evenly on a log scale (FROM and TO > 0)"},
     {"series", true, "pick", "E6|E12|E24|E48|E96|E192  standard value series (default E24)"},
@@ -73,6 +75,8 @@ static const cmd commands[] = {
      "loadstack formula circuits/strain_bridge.stack out --symbols vex,strain", ls_cmd_formula, 2},
     {"pick", "pick ratio R", "best pairs of standard (IEC 60063) values for a divider ratio R = rbot/(rtop+rbot)",
      "loadstack pick ratio 0.66 --series E24 --total 10k..100k", ls_cmd_pick, 2},
+    {"chain", "chain FILE", "the stages in signal order and every connection between them, with its verdict",
+     "loadstack chain circuits/demo.stack --plot chain.png", ls_cmd_chain, 1},
     {"demo", "demo", "the built-in demo circuit, solved (needs no file)", "loadstack demo", ls_cmd_demo, 0},
 };
 
@@ -176,7 +180,8 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         if (strcmp(val, "text") == 0) cli->fmt = FMT_TEXT;
         else if (strcmp(val, "json") == 0) cli->fmt = FMT_JSON;
         else if (strcmp(val, "csv") == 0) cli->fmt = FMT_CSV;
-        else return bad_usage("--format takes text, json or csv, not '%s'%s", val, "");
+        else if (strcmp(val, "html") == 0) cli->fmt = FMT_HTML;
+        else return bad_usage("--format takes text, json, csv or html, not '%s'%s", val, "");
     } else if (strcmp(n, "output") == 0) {
         cli->output = val;
     } else if (strcmp(n, "min-ratio") == 0) {
@@ -220,6 +225,8 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         if (!whole_number(val, 2, 100000, &st))
             return bad_usage("--steps takes a whole number from 2 to 100000, not '%s'%s", val, "");
         cli->steps = (int)st;
+    } else if (strcmp(n, "plot-all") == 0) {
+        cli->plot_all = true;
     } else if (strcmp(n, "log") == 0) {
         cli->log = true;
     } else if (strcmp(n, "series") == 0) {
@@ -238,6 +245,7 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
 
 int main(int argc, char **argv)
 {
+    ls_solver_threads_for_program(); /* measured: small solves run fastest on one thread */
     ls_cli cli;
     memset(&cli, 0, sizeof cli);
     cli.derate = 1;
@@ -327,6 +335,8 @@ int main(int argc, char **argv)
         fprintf(stderr, "loadstack: error: unexpected argument '%s': loadstack %s\n", cli.pos[c->npos], c->usage);
         return LS_EXIT_USAGE;
     }
+    if (cli.fmt == FMT_HTML && !strstr("solve chain demo", c->name))
+        return bad_usage("--format html is for solve and chain, not '%s'%s", c->name, "");
     cli.command = c->name;
     return c->run(&cli);
 }

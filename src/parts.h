@@ -14,7 +14,8 @@ enum {
     OPTF_NONNEG = 4,     /* >= 0 */
     OPTF_MAIN = 8,       /* this option is the part's main value */
     OPTF_FRACTION = 16,  /* 0..1 */
-    OPTF_INTEGER = 32    /* a whole number */
+    OPTF_INTEGER = 32,   /* a whole number */
+    OPTF_BUDGET = 64     /* a port's sag budget: volts, a fraction, or LSB (elab.c stores its ls_budget index) */
 };
 
 typedef struct ls_optdef {
@@ -36,9 +37,14 @@ typedef struct ls_lin {
     bool overflow;
 } ls_lin;
 
-/* Where stamps go: assembly into triplets and a right-hand side, or the adjoint
- * accumulation lambda^T (db - dA x) used by the sensitivity analysis. */
-typedef enum ls_sink_mode { SINK_ASSEMBLE, SINK_ADJOINT } ls_sink_mode;
+/* Where stamps go: assembly into triplets and a right-hand side, the adjoint
+ * accumulation lambda^T (db - dA x) used by the sensitivity analysis, or the
+ * residual b - A x accumulated part by part in extended precision
+ * (accuracy.c), which never sums two parts' conductances in double. */
+typedef enum ls_sink_mode { SINK_ASSEMBLE, SINK_ADJOINT, SINK_RESIDUAL } ls_sink_mode;
+typedef struct ls_resid ls_resid;
+void ls_resid_a(ls_resid *r, int row, int col, double v);
+void ls_resid_b(ls_resid *r, int row, double v);
 
 typedef struct ls_triplets {
     int n;                 /* order */
@@ -55,6 +61,7 @@ typedef struct ls_sink {
     const double *lambda;  /* SINK_ADJOINT */
     const double *x;       /* SINK_ADJOINT */
     double acc;            /* SINK_ADJOINT result */
+    ls_resid *resid;       /* SINK_RESIDUAL */
     double scale;          /* every stamp is multiplied by this (1 normally) */
 } ls_sink;
 
@@ -158,6 +165,8 @@ double ls_junction_current(const ls_part *p, double vj, bool *beyond);
 double ls_junction_v(const ls_part *p, const double *x);
 /* Thermistor resistance (ohm) at temperature t_c (degC), by the Beta equation. */
 double ls_ntc_r(const ls_part *p, double t_c);
+/* An adc's LSB (V): ref / 2^bits. */
+double ls_adc_lsb(const ls_part *p);
 /* Thermistor body temperature (degC): celsius=, plus self-heating when solved with dissipation=. */
 double ls_ntc_body(const ls_part *p);
 

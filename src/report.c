@@ -8,6 +8,7 @@
 
 #include "elab.h"
 #include "fmt.h"
+#include "lowrank.h"
 #include "newton.h"
 #include "numfmt.h"
 
@@ -145,6 +146,12 @@ void ls_report_json_begin(const ls_report *rp, ls_jw *w)
     ls_jw_meta(w, rp->command, rp->file, rp->sets, rp->nsets);
 }
 
+void ls_report_budget_json(ls_jw *w, const ls_port_result *pr)
+{
+    ls_jw_num_why(w, "budget", pr->budget, isnan(pr->budget) ? LS_WHY_NONE : ls_jw_why_of(pr->budget));
+    ls_jw_str(w, "by", pr->by_budget ? "budget" : "ratio");
+}
+
 void ls_csv_number(FILE *out, double v)
 {
     char b[LS_NUM_MAX];
@@ -232,14 +239,16 @@ static void pad(obuf *out, const char *s, size_t len, int sw, int w, bool right)
  * back to back in row order, and the column widths are kept up to date as rows
  * arrive, so a table of a million rows costs no per-cell allocation and one
  * pass to print, which reads the cells in the order they were stored. */
+#define TABLE_MAXCOL 12   /* the widest table, the ports', has 11 columns */
+
 typedef struct table {
     int ncol;
-    const char *head[10];
-    bool right[10];
+    const char *head[TABLE_MAXCOL];
+    bool right[TABLE_MAXCOL];
     char *text;           /* NUL-terminated cells, back to back */
     size_t len, text_cap;
     int rows;
-    int w[10];            /* widest cell of each column so far */
+    int w[TABLE_MAXCOL];  /* widest cell of each column so far */
     bool failed;          /* out of memory: rows after it are dropped */
 } table;
 
@@ -248,8 +257,8 @@ static void t_row(table *t, const char *const *cells)
 {
     if (t->failed)
         return;
-    size_t n[10], total = 0;
-    int cw[10];
+    size_t n[TABLE_MAXCOL], total = 0;
+    int cw[TABLE_MAXCOL];
     for (int i = 0; i < t->ncol; i++) {
         n[i] = measure(cells[i] ? cells[i] : "", &cw[i]) + 1;
         total += n[i];
@@ -279,7 +288,7 @@ static void t_row(table *t, const char *const *cells)
 static void t_print(table *t, FILE *f)
 {
     obuf ob, *out = &ob;
-    int w[10];
+    int w[TABLE_MAXCOL];
     for (int c = 0; c < t->ncol; c++) {
         w[c] = width(t->head[c]);
         w[c] = t->w[c] > w[c] ? t->w[c] : w[c];
@@ -323,6 +332,55 @@ static const char *verdict_name(ls_verdict v)
     return n[v];
 }
 
+/* The check row of a port judged by the ratio rule. */
+static void ratio_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
+{
+    const ls_netlist *nl = op->nl;
+    double min = ls_op_min_ratio(op);
+    row->text = ls_arena_printf(nl->arena, "rule ratio >= %g (port %s)", min, nl->parts[i].name);
+    row->instance = nl->parts[i].instance;
+    row->loc = nl->parts[i].loc;
+    row->dims = LS_FREE;
+    row->port = i;
+    row->r.value = pr->ratio;
+    row->r.lo = min;
+    row->r.hi = INFINITY;
+    row->r.pass = pr->verdict == VERDICT_OK;
+    if (isnan(pr->ratio) && !row->r.pass)
+        row->r.reason = pr->note ? pr->note : "the ratio is undefined";
+}
+
+/* Where a port's budget comes from, in words. */
+static const char *budget_source(const ls_port_result *pr)
+{
+    switch (pr->budget_from) {
+    case LS_BUDGET_FROM_PORT: return "budget";
+    case LS_BUDGET_FROM_RULE: return "rule sag";
+    case LS_BUDGET_FROM_ADC: return "half an LSB";
+    default: return "none";
+    }
+}
+
+/* The check row of a port judged by its budget: |sag| <= budget. */
+static void budget_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    char b[64];
+    ls_fmt_eng(b, sizeof b, pr->budget, pr->current_mode ? "A" : "V", 4, true);
+    row->text = ls_arena_printf(nl->arena, "port %s: abs(sag) <= %s (%s)", p->name, b, budget_source(pr));
+    row->instance = p->instance;
+    row->loc = p->loc;
+    row->dims = pr->current_mode ? LS_AMP : LS_VOLT;
+    row->port = i;
+    row->r.value = fabs(pr->sag);
+    row->r.lo = -INFINITY;
+    row->r.hi = pr->budget;
+    row->r.pass = pr->verdict == VERDICT_OK;
+    if (isnan(pr->sag))
+        row->r.reason = pr->note ? pr->note : "the sag is undefined";
+}
+
 int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
 {
     const ls_netlist *nl = op->nl;
@@ -330,7 +388,7 @@ int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
     int nports = 0;
     for (int i = 0; i < nl->nparts; i++)
         nports += nl->parts[i].kind->is_port;
-    int cap = nl->nchecks + (with_rule ? nports : 0);
+    int cap = nl->nchecks + nports;
     out->rows = calloc((size_t)(cap ? cap : 1), sizeof *out->rows);
     if (!out->rows)
         return -1;
@@ -344,25 +402,14 @@ int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
         row->port = -1;
         ls_check_eval(op, c, &row->r);
     }
-    if (with_rule) {
-        double min = ls_op_min_ratio(op);
-        for (int i = 0; i < nl->nparts; i++) {
-            if (!nl->parts[i].kind->is_port)
-                continue;
-            const ls_port_result *pr = ls_op_port(op, i);
-            ls_check_row *row = &out->rows[out->n++];
-            row->text = ls_arena_printf(nl->arena, "rule ratio >= %g (port %s)", min, nl->parts[i].name);
-            row->instance = nl->parts[i].instance;
-            row->loc = nl->parts[i].loc;
-            row->dims = LS_FREE;
-            row->port = i;
-            row->r.value = pr->ratio;
-            row->r.lo = min;
-            row->r.hi = INFINITY;
-            row->r.pass = pr->verdict == VERDICT_OK;
-            if (isnan(pr->ratio) && !row->r.pass)
-                row->r.reason = pr->note ? pr->note : "the ratio is undefined";
-        }
+    for (int i = 0; i < nl->nparts; i++) {
+        if (!nl->parts[i].kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_op_port(op, i);
+        if (pr->by_budget)
+            budget_row(op, i, pr, &out->rows[out->n++]);
+        else if (with_rule)
+            ratio_row(op, i, pr, &out->rows[out->n++]);
     }
     for (int i = 0; i < out->n; i++) {
         if (out->rows[i].r.pass)
@@ -562,15 +609,25 @@ static void adc_text(ls_report *rp, ls_op *op)
         char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64];
         int mi = ls_kind_opt(p->kind, "max_source");
         bool has_max = ls_part_has(p, mi);
+        char verdict[96];
         snprintf(b2, sizeof b2, "%lld", r.code);
         snprintf(b4, sizeof b4, "%+.3g LSB", r.error_lsb);
+        if (r.source_high && fabs(r.error_lsb) > r.budget_lsb)
+            snprintf(verdict, sizeof verdict, "%s: error over %.3g LSB, source too high", verdict_name(r.verdict),
+                     r.budget_lsb);
+        else if (r.source_high)
+            snprintf(verdict, sizeof verdict, "%s: source too high", verdict_name(r.verdict));
+        else if (r.verdict != VERDICT_OK)
+            snprintf(verdict, sizeof verdict, "%s: error over %.3g LSB", verdict_name(r.verdict), r.budget_lsb);
+        else
+            snprintf(verdict, sizeof verdict, "ok");
         const char *c[8] = {p->name, ls_eng(rp, b1, sizeof b1, r.vin, "V"), b2,
                             ls_eng(rp, b3, sizeof b3, r.v_open, "V"), isfinite(r.error_lsb) ? b4 : "undefined",
                             ls_eng(rp, b5, sizeof b5, r.rth, OHM),
-                            has_max ? ls_eng(rp, b6, sizeof b6, p->opt[mi], OHM) : "-",
-                            !has_max ? "-" : r.rth <= p->opt[mi] ? "ok" : "source too high"};
+                            has_max ? ls_eng(rp, b6, sizeof b6, p->opt[mi], OHM) : "-", verdict};
         if (!t.rows)
-            fputs("\nADC inputs (error: the reading's shift from loading and leakage)\n", o);
+            fputs("\nADC inputs (error: the reading's shift from loading and leakage, judged against the feeding "
+                  "port's budget, else half an LSB)\n", o);
         t_row(&t, c);
     }
     if (t.rows)
@@ -587,7 +644,7 @@ static void ntc_text(ls_report *rp, ls_op *op)
         const ls_part *p = &nl->parts[i];
         if (!is_kind(p, "ntc"))
             continue;
-        double t_amb = ls_part_opt(p, "temp", 25), t_body = ls_ntc_body(p);
+        double t_amb = ls_part_opt(p, "celsius", 25), t_body = ls_ntc_body(p);
         char b1[64], b2[64], b3[64];
         snprintf(b2, sizeof b2, "%.4g degC", t_body);
         snprintf(b3, sizeof b3, "%.3g K", t_body - t_amb);
@@ -617,21 +674,13 @@ static void part_extra_json(ls_jw *w, ls_op *op, int i)
         double t = ls_ntc_body(p);
         ls_jw_num(w, "resistance", ls_ntc_r(p, t));
         ls_jw_num(w, "temperature", t);
-        ls_jw_num(w, "self_heating", t - ls_part_opt(p, "temp", 25));
+        ls_jw_num(w, "self_heating", t - ls_part_opt(p, "celsius", 25));
     }
 }
 
-/* An adc's verdict on its source: "ok" within its max_source, "loading"
- * above it, NULL without a max_source. */
-static const char *adc_verdict(const ls_part *p, const ls_adc_result *r)
-{
-    int mi = ls_kind_opt(p->kind, "max_source");
-    if (!ls_part_has(p, mi))
-        return NULL;
-    return r->rth <= p->opt[mi] ? "ok" : "loading";
-}
-
-/* The "adcs" object: what the text's ADC table shows. */
+/* The "adcs" object: what the text's ADC table shows.  The verdict judges the
+ * reading's error against budget_lsb (the feeding port's budget, else half an
+ * LSB) and the source against max_source (source_too_high). */
 static void adcs_json(ls_jw *w, ls_op *op)
 {
     const ls_netlist *nl = op->nl;
@@ -647,12 +696,14 @@ static void adcs_json(ls_jw *w, ls_op *op)
         ls_jw_int(w, "code", r.code);
         ls_jw_num(w, "unloaded", r.v_open);
         ls_jw_num(w, "error_lsb", r.error_lsb);
+        ls_jw_num(w, "budget_lsb", r.budget_lsb);
         ls_jw_num(w, "source", r.rth);
         if (ls_part_has(p, mi))
             ls_jw_num(w, "max_source", p->opt[mi]);
         else
             ls_jw_null(w, "max_source", LS_WHY_NONE);
-        ls_jw_str(w, "verdict", adc_verdict(p, &r));
+        ls_jw_bool(w, "source_too_high", r.source_high);
+        ls_jw_str(w, "verdict", verdict_name(r.verdict));
         ls_jw_end(w);
     }
     ls_jw_end(w);
@@ -666,26 +717,107 @@ static const char *method_name(ls_method m)
     return n[m];
 }
 
-/* The numbers of the text's "To meet it" line for a port that fails the
- * ratio rule: with a voltage port, the largest driver zout and the smallest
- * load zin that would meet it (fields "zout_max", "zin_min"); with a current
- * port, the largest load zin and the smallest source zout ("zin_max",
- * "zout_min").  Returns false (nothing to say) for a port that passes, whose
- * ratio is undefined, or whose load is a short to ground. */
-static bool fix_limits(ls_op *op, const ls_port_result *pr, const char *field[2], double v[2])
+/* The resistors at port i's driver node whose value alone would bring zout
+ * down to zmax, as "r_bot at most 1.2 kΩ" phrases (at most two, the
+ * smallest change first), into buf; empty when none can. */
+static const char *resistor_advice(ls_report *rp, ls_op *op, int i, double zmax, char *buf, size_t n)
 {
+    const ls_netlist *nl = op->nl;
+    int f = nl->parts[i].pin[0], best[2] = {-1, -1};
+    double val[2] = {NAN, NAN}, change[2] = {INFINITY, INFINITY};
+    buf[0] = 0;
+    for (int j = 0; j < nl->nparts && f > 0; j++) {
+        const ls_part *r = &nl->parts[j];
+        if (strcmp(r->kind->name, "resistor") != 0 || (r->pin[0] != f && r->pin[1] != f))
+            continue;
+        double v = ls_port_resistor_for_zout(op, i, j, zmax);
+        if (!(v > 0) || !(v < r->value))
+            continue;
+        double c = r->value / v;   /* how many times smaller */
+        int k = c < change[0] ? 0 : c < change[1] ? 1 : 2;
+        if (k == 2)
+            continue;
+        if (k == 0) {
+            best[1] = best[0], val[1] = val[0], change[1] = change[0];
+        }
+        best[k] = j, val[k] = v, change[k] = c;
+    }
+    for (int k = 0; k < 2 && best[k] >= 0; k++) {
+        char v[64];
+        size_t l = strlen(buf);
+        snprintf(buf + l, n - l, "%s%s at most %s", k ? ", or " : "", nl->parts[best[k]].name,
+                 ls_eng(rp, v, sizeof v, val[k], ls_unit_of(LS_OHM, rp->ascii)));
+    }
+    return buf;
+}
+
+/* Advice for a voltage-mode port that misses its budget, in the budget's
+ * terms: sag = open zout / (zout + zin) of a loaded divider is within B when
+ * zin/zout >= |open|/B - 1, which sets the ratio needed, the largest zout and
+ * the smallest zin. */
+static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+{
+    const ls_part *p = &op->nl->parts[i];
+    const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char sag[64], bud[64], need[64], zmax[64], zmin[64], parts[300], lsb[96] = "";
+    ls_eng(rp, sag, sizeof sag, fabs(pr->sag), "V");
+    ls_eng(rp, bud, sizeof bud, pr->budget, "V");
+    if (pr->adc >= 0) {
+        const ls_part *a = &op->nl->parts[pr->adc];
+        snprintf(lsb, sizeof lsb, " (%.3g LSB of %s)", fabs(pr->sag) / ls_adc_lsb(a), a->name);
+    }
+    fprintf(rp->out, "  -> %s: the sag of %s%s is over its budget of %s (%s).", p->name, sag, lsb, bud,
+            budget_source(pr));
+    double req = fabs(pr->open) / pr->budget - 1;
+    if (!isfinite(req) || !(req > 0) || !isfinite(pr->zin) || !(pr->zout > 0)) {
+        fputs(" A buffer (an op-amp follower) between the stages removes the load from the driver.\n", rp->out);
+        return;
+    }
+    double zo = pr->zin / req;
+    ls_eng(rp, need, sizeof need, req, "");
+    ls_eng(rp, zmax, sizeof zmax, zo, OHM);
+    ls_eng(rp, zmin, sizeof zmin, pr->zout * req, OHM);
+    resistor_advice(rp, op, i, zo, parts, sizeof parts);
+    fprintf(rp->out, " To meet it: zin/zout of at least %s, e.g. a buffer (an op-amp follower) between them, "
+                     "or a driver with zout at most %s%s%s%s, or a load with zin at least %s.\n",
+            need, zmax, parts[0] ? " (" : "", parts, parts[0] ? ")" : "", zmin);
+}
+
+/* The numbers of the advice for a port that fails its verdict, as the JSON's
+ * "fix" carries them.  By the ratio rule: with a voltage port, the largest
+ * driver zout and the smallest load zin that would meet it ("zout_max",
+ * "zin_min"); with a current port, the largest load zin and the smallest
+ * source zout ("zin_max", "zout_min").  By a budget (voltage ports): the
+ * zin/zout the budget needs ("ratio_min"), then "zout_max" and "zin_min" for
+ * that ratio.  Returns how many fields were set (0: nothing to say: the port
+ * passes, its ratio is undefined, its load is a short to ground, or its budget
+ * gives no finite ratio). */
+static int fix_limits(ls_op *op, const ls_port_result *pr, const char *field[3], double v[3])
+{
+    if (pr->verdict == VERDICT_OK)
+        return 0;
+    if (pr->by_budget) {
+        double req = fabs(pr->open) / pr->budget - 1;
+        if (pr->current_mode || !isfinite(pr->sag) || !isfinite(req) || !(req > 0) || !isfinite(pr->zin) ||
+            !(pr->zout > 0))
+            return 0;
+        field[0] = "ratio_min", v[0] = req;
+        field[1] = "zout_max", v[1] = pr->zin / req;
+        field[2] = "zin_min", v[2] = pr->zout * req;
+        return 3;
+    }
     double min = ls_op_min_ratio(op);
-    if (pr->verdict == VERDICT_OK || isnan(pr->ratio) || (!pr->current_mode && pr->zin == 0))
-        return false;
+    if (isnan(pr->ratio) || (!pr->current_mode && pr->zin == 0))
+        return 0;
     field[0] = pr->current_mode ? "zin_max" : "zout_max";
     field[1] = pr->current_mode ? "zout_min" : "zin_min";
     v[0] = pr->current_mode ? pr->zout / min : pr->zin / min;
     v[1] = pr->current_mode ? pr->zin * min : pr->zout * min;
-    return true;
+    return 2;
 }
 
-/* One line for a port that fails the ratio: the largest zout or the smallest zin
- * that would meet it, or a buffer. */
+/* One line for a port that fails its budget or the ratio: the largest zout or
+ * the smallest zin that would meet it, or a buffer. */
 static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
 {
     const ls_part *p = &op->nl->parts[i];
@@ -694,15 +826,26 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
     char r[64], lo[64], hi[64];
     if (pr->verdict == VERDICT_OK)
         return;
+    if (pr->by_budget && !pr->current_mode && isfinite(pr->sag)) {
+        budget_advice(rp, op, i, pr);
+        return;
+    }
     if (isnan(pr->ratio)) {
         fprintf(rp->out, "  -> %s: the loading ratio is undefined%s%s.\n", p->name, pr->note ? ": " : "",
                 pr->note ? pr->note : "");
         return;
     }
+    if (pr->by_budget) {   /* current mode, or an unbounded sag: the ratio still says which side to change */
+        char s[64], b[64];
+        fprintf(rp->out, "  -> %s: the sag of %s is over its budget of %s (%s).\n", p->name,
+                ls_eng(rp, s, sizeof s, fabs(pr->sag), pr->current_mode ? "A" : "V"),
+                ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V"), budget_source(pr));
+        return;
+    }
     ls_eng(rp, r, sizeof r, pr->ratio, "");
-    const char *ff[2];
-    double fv[2];
-    bool fix = fix_limits(op, pr, ff, fv); /* the numbers the JSON's "fix" carries */
+    const char *ff[3];
+    double fv[3];
+    bool fix = fix_limits(op, pr, ff, fv) > 0; /* the numbers the JSON's "fix" carries */
     if (pr->current_mode && fix) {
         ls_eng(rp, lo, sizeof lo, fv[0], OHM);
         ls_eng(rp, hi, sizeof hi, fv[1], OHM);
@@ -723,18 +866,125 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
             p->name, r, min, lo, hi);
 }
 
+/* The budget cell of a port: "402.8 µV (½ LSB)", "-" without one. */
+static const char *budget_cell(ls_report *rp, const ls_port_result *pr, char *buf, size_t n)
+{
+    char b[64];
+    if (isnan(pr->budget))
+        return "-";
+    ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V");
+    const char *src = pr->budget_from == LS_BUDGET_FROM_ADC ? "half LSB"
+                    : pr->budget_from == LS_BUDGET_FROM_RULE ? "rule" : "";
+    snprintf(buf, n, *src ? "%s (%s)" : "%s", b, src);
+    return buf;
+}
+
+/* The ports table, the note on held load sides (once) and the advice. */
+static void ports_text(ls_report *rp, ls_op *op)
+{
+    FILE *o = rp->out;
+    const ls_netlist *nl = op->nl;
+    const char *V = "V", *A = "A", *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64], b7[64], bud[96], verdict[48];
+    fprintf(o, "\nPorts (verdict: the sag against the port's budget where it has one, else zin/zout of at least %g)\n",
+            ls_op_min_ratio(op));
+    table p = {.ncol = 11,
+               .head = {"port", "driver -> load", "open", "loaded", "sag", "budget", "zout", "zin", "ratio", "current",
+                        "verdict"},
+               .right = {false, false, true, true, true, true, true, true, true, true, false}};
+    int held = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *pt = &nl->parts[i];
+        if (!pt->kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_op_port(op, i);
+        const char *u = pr->current_mode ? A : V;
+        char conn[600], sag[96];
+        held += pr->load_held;
+        snprintf(conn, sizeof conn, "%s -> %s%s", nl->nodes[pt->pin[0]].name, nl->nodes[pt->pin[1]].name,
+                 pr->current_mode ? " (current)" : "");
+        ls_eng(rp, b3, sizeof b3, pr->sag, u);
+        if (isfinite(pr->sag_rel) && pr->sag != 0)
+            snprintf(sag, sizeof sag, "%s (%.3g%%)", b3, pr->sag_rel * 100);
+        else
+            snprintf(sag, sizeof sag, "%s", b3);
+        snprintf(verdict, sizeof verdict, "%s (%s)", verdict_name(pr->verdict), pr->by_budget ? "budget" : "ratio");
+        const char *c[11] = {pt->name, conn, ls_eng(rp, b1, sizeof b1, pr->open, u),
+                             ls_eng(rp, b2, sizeof b2, pr->loaded, u), sag, budget_cell(rp, pr, bud, sizeof bud),
+                             ls_eng(rp, b4, sizeof b4, pr->zout, OHM), ls_eng(rp, b5, sizeof b5, pr->zin, OHM),
+                             ls_eng(rp, b6, sizeof b6, pr->ratio, ""), ls_eng(rp, b7, sizeof b7, pr->current, A),
+                             verdict};
+        t_row(&p, c);
+    }
+    t_print(&p, o);
+    if (held) {
+        fputs("  note: the load side of", o);
+        int k = 0;
+        for (int i = 0; i < nl->nparts; i++)
+            if (nl->parts[i].kind->is_port && ls_op_port(op, i)->load_held)
+                fprintf(o, "%s %s", k++ ? (k == held ? " and" : ",") : "", nl->parts[i].name);
+        fprintf(o, " has no DC path of its own once opened (an input that only a controlled source senses); "
+                   "it was held at its loaded voltage while open and zout were computed, and zin is unbounded.\n");
+    }
+    for (int i = 0; i < nl->nparts; i++)
+        if (nl->parts[i].kind->is_port)
+            fix_advice(rp, op, i, ls_op_port(op, i));
+}
+
+/* v formatted as ls_eng does, with a leading "~" when its error bound says
+ * its last printed digit may be wrong (accuracy.h). */
+static const char *eng_bounded(ls_report *rp, char *buf, size_t n, double v, const char *unit, double bound,
+                               double scale, int *marked)
+{
+    if (!ls_acc_doubtful(v, bound, rp->sig, scale))
+        return ls_eng(rp, buf, n, v, unit);
+    buf[0] = '~';
+    ls_eng(rp, buf + 1, n - 1, v, unit);
+    (*marked)++;
+    return buf;
+}
+
+/* The accuracy line under the solver line: which refinement ran and whether
+ * the printed digits are all within their error bounds. */
+static void accuracy_text(ls_report *rp, ls_op *op, int marked)
+{
+    const ls_accuracy *a = &op->acc;
+    const char *how = !a->refined ? "iterative refinement in double precision (a circuit with nonlinear parts)"
+                      : a->extended ? "extra-precise refinement (residuals in double-double), needed here"
+                                    : "double precision, confirmed by an extra-precise residual";
+    if (!a->have_bounds)
+        fprintf(rp->out, "accuracy: %s; no error bounds (out of memory)\n", how);
+    else if (marked)
+        fprintf(rp->out, "accuracy: %s; %d number%s marked ~ may be wrong in %s last printed digit\n", how, marked,
+                marked == 1 ? "" : "s", marked == 1 ? "its" : "their");
+    else
+        fprintf(rp->out, "accuracy: %s; every voltage and current is right to the digits printed%s\n", how,
+                a->estimated ? " (by an estimated bound)" : "");
+}
+
 static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
     FILE *o = rp->out;
     const ls_netlist *nl = op->nl;
-    const char *V = "V", *A = "A", *W = "W", *OHM = ls_unit_of(LS_OHM, rp->ascii);
-    char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64], b7[64];
+    const char *V = "V", *A = "A", *W = "W";
+    char b1[64], b2[64], b3[64];
     fprintf(o, "%s\n", nl->title ? nl->title : "(untitled circuit)");
     fprintf(o, "solved: %d unknowns by %s (%s), reciprocal condition %.2g, relative residual %.2g\n", op->mna.n,
             method_name(op->method), ls_solver_stats_of(op->solver)->library, op->rcond, op->residual);
 
     if (op->iterations > 1)
         fprintf(o, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
+    /* marks need the bounds; count them first so the accuracy line can say how many */
+    bool bounds = ls_acc_bounds(op) == 0;
+    const ls_accuracy *acc = &op->acc;
+    double vscale = ls_acc_scale(op, 0), iscale = ls_acc_scale(op, 1);
+    int marked = 0;
+    for (int i = 0; bounds && i < nl->nnodes; i++)
+        marked += ls_acc_doubtful(op->v[i], acc->node_bound[i], rp->sig, vscale);
+    for (int i = 0; bounds && i < nl->nparts; i++)
+        marked += !nl->parts[i].kind->is_port && ls_acc_doubtful(op->ipart[i], acc->part_bound[i], rp->sig, iscale);
+    accuracy_text(rp, op, marked);
+    int dummy = 0;
 
     fputs("\nNodes\n", o);
     bool hazard = false;
@@ -743,7 +993,9 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
-        const char *c[3] = {nl->nodes[i].name, ls_eng(rp, b1, sizeof b1, op->v[i], V),
+        const char *c[3] = {nl->nodes[i].name,
+                            bounds ? eng_bounded(rp, b1, sizeof b1, op->v[i], V, acc->node_bound[i], vscale, &dummy)
+                                   : ls_eng(rp, b1, sizeof b1, op->v[i], V),
                             fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
         t_row(&t, c);
     }
@@ -764,43 +1016,17 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
             prefetch_part_name(nl, i);
             if (pt->kind->is_port)
                 continue;
-            const char *c[5] = {pt->name, pt->kind->name, ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
+            const char *c[5] = {pt->name, pt->kind->name,
+                                bounds ? eng_bounded(rp, b1, sizeof b1, op->ipart[i], A, acc->part_bound[i], iscale,
+                                                     &dummy)
+                                       : ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
                                 ls_eng(rp, b2, sizeof b2, op->vpart[i], V), ls_eng(rp, b3, sizeof b3, op->ppart[i], W)};
             t_row(&p, c);
         }
         t_print(&p, o);
     }
-    if (nports) {
-        fprintf(o, "\nPorts (loading: zin/zout should be at least %g)\n", ls_op_min_ratio(op));
-        table p = {.ncol = 10,
-                   .head = {"port", "driver -> load", "open", "loaded", "sag", "zout", "zin", "ratio", "current", "verdict"},
-                   .right = {false, false, true, true, true, true, true, true, true, false}};
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *pt = &nl->parts[i];
-            if (!pt->kind->is_port)
-                continue;
-            const ls_port_result *pr = ls_op_port(op, i);
-            const char *u = pr->current_mode ? A : V;
-            char conn[600], sag[96];
-            snprintf(conn, sizeof conn, "%s -> %s%s", nl->nodes[pt->pin[0]].name, nl->nodes[pt->pin[1]].name,
-                     pr->current_mode ? " (current)" : "");
-            ls_eng(rp, b3, sizeof b3, pr->sag, u);
-            if (isfinite(pr->sag_rel) && pr->sag != 0)
-                snprintf(sag, sizeof sag, "%s (%.3g%%)", b3, pr->sag_rel * 100);
-            else
-                snprintf(sag, sizeof sag, "%s", b3);
-            const char *c[10] = {pt->name, conn, ls_eng(rp, b1, sizeof b1, pr->open, u),
-                                 ls_eng(rp, b2, sizeof b2, pr->loaded, u), sag,
-                                 ls_eng(rp, b4, sizeof b4, pr->zout, OHM), ls_eng(rp, b5, sizeof b5, pr->zin, OHM),
-                                 ls_eng(rp, b6, sizeof b6, pr->ratio, ""), ls_eng(rp, b7, sizeof b7, pr->current, A),
-                                 verdict_name(pr->verdict)};
-            t_row(&p, c);
-        }
-        t_print(&p, o);
-        for (int i = 0; i < nl->nparts; i++)
-            if (nl->parts[i].kind->is_port)
-                fix_advice(rp, op, i, ls_op_port(op, i));
-    }
+    if (nports)
+        ports_text(rp, op);
     if (nops) {
         fputs("\nOp-amps\n", o);
         /* the dissipation column only where some op-amp has rails= to reckon it from */
@@ -837,6 +1063,33 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 
 /* ---- solve: JSON and CSV ------------------------------------------------------------------ */
 
+/* The "accuracy" object: how the error bounds were found, the bound of every
+ * node voltage (V; null, unbounded, when no first-order bound holds), and the
+ * worst node and part against their own values. */
+static void accuracy_json(ls_jw *w, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_accuracy *a = &op->acc;
+    ls_jw_obj(w, "accuracy");
+    ls_jw_str(w, "bounds", !a->reliable ? "none" : a->estimated ? "estimate" : "per-result");
+    int wrap = w->wrap;
+    w->wrap = 1; /* the bounds on one line */
+    ls_jw_obj(w, "nodes");
+    for (int i = 0; i < nl->nnodes; i++)
+        ls_jw_num_why(w, nl->nodes[i].name, a->reliable ? a->node_bound[i] : INFINITY, LS_WHY_UNBOUNDED);
+    ls_jw_end(w);
+    w->wrap = wrap;
+    if (a->worst_node >= 0) {
+        ls_jw_str(w, "worst_node", nl->nodes[a->worst_node].name);
+        ls_jw_num(w, "worst_node_rel", a->worst_node_rel);
+    }
+    if (a->worst_part >= 0) {
+        ls_jw_str(w, "worst_part", nl->parts[a->worst_part].name);
+        ls_jw_num(w, "worst_part_rel", a->worst_part_rel);
+    }
+    ls_jw_end(w);
+}
+
 static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
     ls_jw jw, *w = &jw;
@@ -852,8 +1105,11 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     ls_jw_num(w, "rcond", op->rcond);
     ls_jw_num(w, "residual", op->residual);
     ls_jw_int(w, "iterations", op->iterations);
+    ls_jw_str(w, "refinement", !op->acc.refined ? "double" : op->acc.extended ? "extended" : "double-confirmed");
+    ls_jw_int(w, "refinement_steps", op->acc.steps);
     ls_jw_end(w);
     w->wrap = wrap;
+    bool bounds = ls_acc_bounds(op) == 0;
     ls_jw_obj(w, "nodes");
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
@@ -871,6 +1127,8 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         ls_jw_num(w, "current", op->ipart[i]);
         ls_jw_num(w, "voltage", op->vpart[i]);
         ls_jw_num(w, "power", op->ppart[i]);
+        if (bounds && !isnan(op->acc.part_bound[i]))
+            ls_jw_num_why(w, "error_bound", op->acc.part_bound[i], LS_WHY_UNBOUNDED);
         part_extra_json(w, op, i);
         ls_jw_end(w);
     }
@@ -894,15 +1152,19 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         ls_jw_num(w, "zin", pr->zin);
         ls_jw_num(w, "ratio", pr->ratio);
         ls_jw_num(w, "current", pr->current);
+        ls_report_budget_json(w, pr);
+        if (pr->load_held)
+            ls_jw_bool(w, "load_held", true);
         ls_jw_str(w, "verdict", verdict_name(pr->verdict));
         if (pr->note)
             ls_jw_str(w, "note", pr->note);
-        const char *ff[2];
-        double fv[2];
-        if (fix_limits(op, pr, ff, fv)) {
+        const char *ff[3];
+        double fv[3];
+        int nf = fix_limits(op, pr, ff, fv);
+        if (nf) {
             ls_jw_obj(w, "fix");
-            ls_jw_num(w, ff[0], fv[0]);
-            ls_jw_num(w, ff[1], fv[1]);
+            for (int j = 0; j < nf; j++)
+                ls_jw_num(w, ff[j], fv[j]);
             ls_jw_end(w);
         }
         ls_jw_end(w);
@@ -929,6 +1191,8 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     checks_json(rp, w, checks);
     ls_jw_int(w, "passed", checks->passed);
     ls_jw_int(w, "failed", checks->failed);
+    if (bounds)
+        accuracy_json(w, op);
     ls_report_warnings_json(rp, w);
     ls_jw_finish(w);
 }
@@ -988,19 +1252,24 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
         prefetch_part_name(nl, i);
         if (p->kind->is_port) {
             const ls_port_result *pr = ls_op_port(op, i);
-            const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current"};
-            double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current};
+            const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget"};
+            double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current,
+                          pr->budget};
             csv_word(o, "port", p->name, "from", nl->nodes[p->pin[0]].name);
             csv_word(o, "port", p->name, "to", nl->nodes[p->pin[1]].name);
             csv_word(o, "port", p->name, "mode", pr->current_mode ? "current" : "voltage");
-            for (int j = 0; j < 8; j++)
+            for (int j = 0; j < 9; j++)
                 csv_row(o, "port", p->name, f[j], v[j]);
+            csv_word(o, "port", p->name, "by", pr->by_budget ? "budget" : "ratio");
+            if (pr->load_held)
+                csv_word(o, "port", p->name, "load_held", "true");
             csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
             if (pr->note)
                 csv_word(o, "port", p->name, "note", pr->note);
-            const char *ff[2];
-            double fv[2];
-            for (int j = 0; fix_limits(op, pr, ff, fv) && j < 2; j++) {
+            const char *ff[3];
+            double fv[3];
+            int nf = fix_limits(op, pr, ff, fv);
+            for (int j = 0; j < nf; j++) {
                 char fld[32];
                 snprintf(fld, sizeof fld, "fix.%s", ff[j]);
                 csv_row(o, "port", p->name, fld, fv[j]);
@@ -1024,14 +1293,16 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
             csv_row(o, "adc", p->name, "lsb", r.lsb);
             csv_row(o, "adc", p->name, "unloaded", r.v_open);
             csv_row(o, "adc", p->name, "error_lsb", r.error_lsb);
+            csv_row(o, "adc", p->name, "budget_lsb", r.budget_lsb);
             csv_row(o, "adc", p->name, "source", r.rth);
             csv_row(o, "adc", p->name, "max_source", ls_part_has(p, mi) ? p->opt[mi] : NAN);
-            csv_word(o, "adc", p->name, "verdict", adc_verdict(p, &r));
+            csv_word(o, "adc", p->name, "source_too_high", r.source_high ? "true" : "false");
+            csv_word(o, "adc", p->name, "verdict", verdict_name(r.verdict));
         } else if (is_kind(p, "ntc")) {
             double t = ls_ntc_body(p);
             csv_row(o, "part", p->name, "resistance", ls_ntc_r(p, t));
             csv_row(o, "part", p->name, "temperature", t);
-            csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "temp", 25));
+            csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "celsius", 25));
         }
     }
     checks_csv_rows(o, checks);
@@ -1047,6 +1318,7 @@ void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
     case FMT_TEXT: solve_text(rp, op, checks); break;
     case FMT_JSON: solve_json(rp, op, checks); break;
     case FMT_CSV: solve_csv(rp, op, checks); break;
+    case FMT_HTML: break; /* the page is html.c's, called by the command */
     }
 }
 
@@ -1085,4 +1357,19 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
         fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass", checks->passed,
                 checks->failed);
     }
+}
+
+/* ---- aligned tables for the other commands' text reports ------------------------------- */
+
+void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right, const char *const *cells,
+                   int nrows)
+{
+    table t = {.ncol = ncol < 10 ? ncol : 10};
+    for (int c = 0; c < t.ncol; c++) {
+        t.head[c] = head[c];
+        t.right[c] = right[c];
+    }
+    for (int r = 0; r < nrows; r++)
+        t_row(&t, cells + (size_t)r * (size_t)ncol);
+    t_print(&t, f);
 }

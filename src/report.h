@@ -7,7 +7,7 @@
 #include "analysis.h"
 #include "jsonw.h"
 
-typedef enum ls_format { FMT_TEXT, FMT_JSON, FMT_CSV } ls_format;
+typedef enum ls_format { FMT_TEXT, FMT_JSON, FMT_CSV, FMT_HTML } ls_format;
 
 typedef struct ls_report {
     FILE *out;
@@ -47,6 +47,9 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks);
 /* Pieces shared with the other commands' reporters. */
 /* Start a JSON report on rp->out: the top-level object and its "meta". */
 void ls_report_json_begin(const ls_report *rp, ls_jw *w);
+/* A port's "budget" (null, "none", without one) and "by" (the rule that
+ * decided its verdict: "budget" or "ratio"). */
+void ls_report_budget_json(ls_jw *w, const ls_port_result *pr);
 void ls_csv_field(FILE *out, const char *s);
 /* One CSV number: the shortest exact text, empty when not finite. */
 void ls_csv_number(FILE *out, double v);
@@ -58,5 +61,10 @@ void ls_report_warnings_json(const ls_report *rp, ls_jw *w);
 /* The "warning" rows of a section,name,field,value CSV: one row per warning
  * (name: its code; field: its file:line:col; value: the message). */
 void ls_report_warnings_csv(const ls_report *rp, FILE *out);
+/* Print nrows rows of ncol (at most 10) cells, row after row in `cells`, under
+ * the heading `head`, aligned (right[c]: right-aligned column); indented by two
+ * spaces as every text report.  NULL cells print empty. */
+void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right, const char *const *cells,
+                   int nrows);
 
 #endif

@@ -258,6 +258,10 @@ static void solve_point(sweep *w, int i)
     if (code == LS_EXIT_OK && w->base && same_structure(&w->base->nl, &s->nl)) {
         copy_values(&w->base->nl, &s->nl);
         if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
+            /* this point's own bindings: a let inside a QUANTITY is a
+             * constant of the binding, and the base's hold the value of
+             * the point it was bound at (the structures match, so part
+             * and node indices agree) */
             record(w, i, w->base, q, &s->nl);
             ls_session_free(s);
             free(s);

@@ -871,3 +871,26 @@ int ls_cmd_tol(ls_cli *cli)
     ls_session_free(&s);
     return code;
 }
+
+/* ---- samples for other reports ------------------------------------------------------------- */
+
+int ls_tol_sample(ls_session *s, const ls_q *q, long trials, uint64_t seed, double **values)
+{
+    vary *v;
+    int nv = varying_parts(&s->nl, &v);
+    *values = NULL;
+    if (nv < 0)
+        return -1;
+    mc_job job = {.base = &s->nl, .opt = s->op.opt, .q = q, .v = v, .nv = nv, .trials = trials, .seed = seed};
+    job.value = malloc((size_t)trials * sizeof *job.value);
+    job.pass = malloc((size_t)trials);
+    int rc = job.value && job.pass ? mc_all(&job, thread_count(trials)) : -1;
+    free(job.pass);
+    free(v);
+    if (rc != 0) {
+        free(job.value);
+        return -1;
+    }
+    *values = job.value;
+    return 0;
+}

@@ -28,6 +28,21 @@
  *   - Handles share no state of the library's own: many circuits may be
  *     built and solved side by side.  One handle must not be used by two
  *     threads at once.
+ *   - Threads: a factorization or solve picks its own BLAS and OpenMP thread
+ *     counts (one thread for small systems, where worker threads only spin)
+ *     and puts the caller's back before it returns: OpenBLAS's thread count
+ *     (openblas_get_num_threads) and the calling thread's OpenMP maximum and
+ *     dynamic setting (omp_get_max_threads, omp_get_dynamic) are the same
+ *     after every call as before it.  OpenBLAS's count is process-wide, so
+ *     while a solve is running, BLAS calls the host makes from another thread
+ *     run with the solve's count; the host's value is restored when the last
+ *     concurrent solve returns.
+ *   - Memory: a handle's size does not grow with use.  The text, syntax and
+ *     binding of a quantity given to ls_circuit_eval or ls_circuit_influence are
+ *     scratch for that call and freed before it returns, and so are the
+ *     working arrays of every analysis; a ratio-rule text of
+ *     ls_circuit_checks is kept once per port.  Only a call that adds
+ *     diagnostics keeps what they point to, until ls_circuit_free.
  *
  * This header holds types and prototypes only; it needs <stdio.h> for FILE. */
 #ifndef LOADSTACK_LOADSTACK_H
@@ -144,6 +159,16 @@ typedef struct ls_solve_info {
 
 ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out);
 
+/* A bound on the absolute error of a result of the last solve (see
+ * docs/accuracy.md): of node `name`'s voltage (V) or of part `name`'s
+ * current (A), from the extra-precise residual and the rounding of the
+ * parts' own values.  *bound is +INFINITY when the equations are too
+ * ill-conditioned for any bound to hold, NaN for a part whose current is not
+ * a linear form of the unknowns (a pot, an adc).  A name that is both a node
+ * and a part means the node.  Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED,
+ * LS_E_ARGUMENT or LS_E_NOMEM. */
+ls_status ls_circuit_error_bound(ls_circuit *c, const char *name, double *bound);
+
 /* ---- nodes ------------------------------------------------------------------------------------ */
 
 /* Number of nodes, ground included (node 0).  Available after a successful parse. */
@@ -186,9 +211,9 @@ ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out);
 /* ---- ports: the loading report --------------------------------------------------------------------- */
 
 typedef enum ls_port_verdict {
-    LS_VERDICT_OK,            /* ratio >= the minimum */
-    LS_VERDICT_MARGINAL,      /* ratio >= half the minimum */
-    LS_VERDICT_LOADING        /* below, or undefined */
+    LS_VERDICT_OK,            /* |sag| <= budget; without a budget, ratio >= the minimum */
+    LS_VERDICT_MARGINAL,      /* |sag| <= twice the budget; ratio >= half the minimum */
+    LS_VERDICT_LOADING        /* beyond, or undefined */
 } ls_port_verdict;
 
 /* The loading report of one port (see "Ports" in the language).  With
@@ -205,6 +230,10 @@ typedef struct ls_port_info {
     double current;           /* A, DRIVER -> LOAD */
     ls_port_verdict verdict;
     const char *note;         /* why a field is NaN, or NULL */
+    double budget;            /* largest |sag| allowed (V, or A in current mode): budget=, rule sag, or half
+                                 an LSB of an adc on LOAD; NaN when none */
+    int by_budget;            /* 1 when the budget decided the verdict, 0 the ratio rule */
+    int load_held;            /* 1 when the load side floats once opened and was held at its loaded voltage */
 } ls_port_info;
 
 /* Number of ports. */

@@ -60,8 +60,10 @@ json_quantities=$("$prog" solve chain.stack --format json | /usr/bin/python3 -c 
 import json, sys
 r = json.load(sys.stdin)
 q = list(r["nodes"])
-q += [p + "." + f for p in r["parts"] for f in ("current", "voltage", "power")]
-q += [p + "." + f for p in r["ports"] for f in ("open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current")]
+own = {"adc": ("code", "error_lsb", "unloaded", "source"), "ntc": ("resistance", "temperature")}
+q += [p + "." + f for p in r["parts"] for f in ("current", "voltage", "power") + own.get(r["parts"][p]["kind"], ())]
+q += [p + "." + f for p in r["ports"]
+      for f in ("open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget")]
 print("\n".join(sorted(q)))')
 
 run_all() {
@@ -83,9 +85,9 @@ run_all() {
     expect "sweep PARAM" "$(lines r_load vset)" "$(complete_words sweep chain.stack '')"
     expect "sweep QUANTITY" "$json_quantities" "$(complete_words sweep chain.stack vset 1 10 '')"
     expect "--set" "vset=" "$(complete_words solve chain.stack --set v)"
-    expect "--format" "$(lines csv json text)" "$(complete_words solve chain.stack --format '')"
+    expect "--format" "$(lines csv html json text)" "$(complete_words solve chain.stack --format '')"
     expect "--solver d" "dense" "$(complete_words solve chain.stack --solver d)"
-    expect "--format=" "$(lines csv json text)" "$(complete_words solve chain.stack --format = '')"
+    expect "--format=" "$(lines csv html json text)" "$(complete_words solve chain.stack --format = '')"
     expect "--format=j" "json" "$(complete_words solve chain.stack --format = j)"
     expect "NODE after --format=json" "$json_nodes" "$(complete_words sag --format = json chain.stack '')"
     expect "--dist" "$(lines normal uniform)" "$(complete_words tol chain.stack mid --dist '')"

@@ -191,12 +191,27 @@ def solve_checks(path, cwd, name):
     for row in table(text, "Ports"):
         p = j["ports"].get(row[0], {})
         why = p.get("why", {})
-        for col, key in ((2, "open"), (3, "loaded"), (5, "zout"), (6, "zin"), (7, "ratio"), (8, "current")):
+        for col, key in ((2, "open"), (3, "loaded"), (6, "zout"), (7, "zin"), (8, "ratio"), (9, "current")):
             agrees(p.get(key), why.get(key), row[col], f"{what}: {row[0]}.{key}")
-        check(p.get("verdict") == row[9], f"{what}: {row[0]} verdict text {row[9]} JSON {p.get('verdict')}")
+        if row[5] == "-":
+            check(p.get("budget") is None and why.get("budget") == "none", f"{what}: {row[0]} has no budget")
+        else:
+            agrees(p.get("budget"), why.get("budget"), row[5].split(" (")[0], f"{what}: {row[0]}.budget")
+        verdict = row[10].split(" ")[0]
+        by = row[10].split("(")[-1].rstrip(")")
+        check(p.get("verdict") == verdict and p.get("by") == by,
+              f"{what}: {row[0]} verdict text {row[10]} JSON {p.get('verdict')} by {p.get('by')}")
         # the "To meet it" line under the table and the port's "fix"
-        adv = re.search(r"-> " + re.escape(row[0]) + r": .*?at most (.+?), or .*?at least (.+?)[,.]( or|$)", text, re.M)
         fix = p.get("fix")
+        if fix and "ratio_min" in fix:  # by a budget: the ratio it needs, then zout and zin
+            adv = re.search(r"-> " + re.escape(row[0]) + r": .*?To meet it: zin/zout of at least (\S+),"
+                            r".*?zout at most (\S+ \S+).*?zin at least (\S+ [^\s.,]+)", text, re.M)
+            check(adv is not None, f"{what}: {row[0]} budget advice in text with fix in JSON")
+            if adv:
+                for g, key in ((1, "ratio_min"), (2, "zout_max"), (3, "zin_min")):
+                    agrees(fix[key], None, adv.group(g), f"{what}: {row[0]} fix {key}")
+            continue
+        adv = re.search(r"-> " + re.escape(row[0]) + r": .*?at most (.+?), or .*?at least (.+?)[,.]( or|$)", text, re.M)
         check((adv is None) == (fix is None), f"{what}: {row[0]} advice in text and fix in JSON go together")
         if adv and fix:
             first, second = list(fix.values())
@@ -210,8 +225,8 @@ def solve_checks(path, cwd, name):
         a = j["adcs"].get(row[0], {})
         agrees(a.get("input"), None, row[1], f"{what}: {row[0]}.input")
         check(str(a.get("code")) == row[2], f"{what}: {row[0]} code")
-        words = {"ok": "ok", "source too high": "loading", "-": None}
-        check(words.get(row[7], "?") == a.get("verdict"), f"{what}: {row[0]} verdict {row[7]} vs {a.get('verdict')}")
+        check(row[7].split(":")[0] == a.get("verdict"), f"{what}: {row[0]} verdict {row[7]} vs {a.get('verdict')}")
+        check(("source too high" in row[7]) == a.get("source_too_high"), f"{what}: {row[0]} source_too_high")
     csv_checks(j, cwd, name)
     return j
 
@@ -235,14 +250,15 @@ def csv_checks(j, cwd, name):
         for f in ("kind", "current", "voltage", "power"):
             same("part", n, f, p[f])
     for n, p in j["ports"].items():
-        for f in ("open", "loaded", "sag", "zout", "zin", "ratio", "current", "verdict", "mode"):
+        for f in ("open", "loaded", "sag", "zout", "zin", "ratio", "current", "budget", "by", "verdict", "mode"):
             same("port", n, f, p[f])
     for n, o in j["opamps"].items():
         for f in ("out", "limited", "dissipation"):
             same("opamp", n, f, o[f])
     for n, a in j["adcs"].items():
-        for f in ("input", "code", "unloaded", "error_lsb", "source", "verdict"):
+        for f in ("input", "code", "unloaded", "error_lsb", "budget_lsb", "source", "verdict"):
             same("adc", n, f, a[f])
+        same("adc", n, "source_too_high", "true" if a["source_too_high"] else "false")
     for c in j["checks"]:
         same("check", c["text"], "result", "pass" if c["pass"] else "fail")
     same("checks", "all", "passed", j["passed"])
@@ -280,6 +296,7 @@ def other_commands(path, cwd, name, j):
         (["tol", name, node, "--trials", "300"], "tol"),
         (["check", name], "check"),
         (["formula", name, node], "formula"),
+        (["chain", name], "chain"),
     ]
     lt = let_of(path)
     if lt:
@@ -313,6 +330,13 @@ def other_commands(path, cwd, name, j):
             else:
                 check(abs(mt["error_rel"] * o["vth"] - mt["error"]) <= 1e-12 * abs(o["vth"]),
                       f"{what}: error (V) and error_rel (fraction of vth)")
+        elif command == "chain":
+            for c in o["connections"]:
+                p = j["ports"].get(c["port"], {})
+                check(c["verdict"] == p.get("verdict") and c["by"] == p.get("by"),
+                      f"{what}: connection {c['port']} has solve's verdict")
+                for k in ("zout", "zin", "ratio", "sag", "budget"):
+                    check(c[k] == p.get(k), f"{what}: connection {c['port']} {k} as in solve")
         elif command == "influence":
             m = re.search(r" = (.+)$", text.splitlines()[0])
             agrees(o["value"], None, m.group(1) if m else "?", f"{what}: value")
