@@ -33,6 +33,11 @@ typedef struct ls_cli {
     int steps;                         /* sweep (default 51) */
     bool log;
     int threads;
+    int digits;                        /* significant digits in text (default 4) */
+    bool quiet;                        /* no progress lines */
+    const char *fail_on;               /* check: "warnings" or CODE,CODE... (NULL: none) */
+    char *stdin_text;                  /* FILE '-': the circuit read from standard input */
+    size_t stdin_len;
 } ls_cli;
 
 /* Everything a command needs from a loaded circuit. */
@@ -78,5 +83,8 @@ int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
 int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
 
 extern const char ls_demo_text[];
+/* Every warning code the program gives, NULL-terminated (generated from
+ * docs/warnings.md). */
+extern const char *const ls_warning_codes[];
 
 #endif

@@ -52,6 +52,11 @@ void ls_diags_init(ls_diags *d, ls_arena *a);
 void ls_diags_free(ls_diags *d);
 /* Register a file's text (copied into the arena); returns its id, -1 on no memory. */
 int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len);
+/* Check that file `file`'s text is UTF-8: each line's first byte that is
+ * not part of a well-formed sequence (RFC 3629) is an error at its column,
+ * and every such byte is replaced by '?' in the stored text, so no report,
+ * excerpt or output carries it.  Returns the number of bytes replaced. */
+int ls_sources_check_utf8(ls_diags *d, int file);
 /* 1-based line and column (code points) of a byte offset. */
 void ls_loc_linecol(const ls_diags *d, int file, unsigned off, int *line, int *col);
 
@@ -62,6 +67,9 @@ void ls_note(ls_diags *d, ls_loc loc, const char *fmt, ...) __attribute__((forma
 
 /* Print every diagnostic as `file:line:col: severity: message`, the line and a caret. */
 void ls_diags_print(const ls_diags *d, FILE *out);
+/* The same, leaving out the warnings unless with_warnings (a report that
+ * lists them is on the same terminal). */
+void ls_diags_print_sel(const ls_diags *d, FILE *out, bool with_warnings);
 /* "file:line:col" of a location into buf (or "" for none). */
 char *ls_loc_str(const ls_diags *d, ls_loc loc, char *buf, size_t n);
 

@@ -80,7 +80,7 @@ int ls_cmd_thevenin(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     const char *name = s.nl.nodes[node].name, *OHM = ls_unit_of(LS_OHM, cli->ascii);
     char b1[64], b2[64], b3[64];
     if (cli->fmt == FMT_JSON) {
@@ -240,7 +240,7 @@ int ls_cmd_sag(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     if (cli->fmt == FMT_JSON) {
         fputs("{\"node\": ", o);
         ls_json_string(o, nl->nodes[node].name);
@@ -431,7 +431,7 @@ int ls_cmd_influence(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     if (cli->fmt == FMT_JSON)
         influence_json(o, &s, cli->pos[1], value, items, n);
     else if (cli->fmt == FMT_CSV)
