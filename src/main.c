@@ -126,6 +126,15 @@ static void usage_all(FILE *f)
           f);
 }
 
+/* Index of --fail-on in the option table. */
+static int k_fail_on(void)
+{
+    int k = 0;
+    while (strcmp(options[k].name, "fail-on") != 0)
+        k++;
+    return k;
+}
+
 /* A command's help: its usage, what it does, and only the options it takes. */
 static void usage_cmd(FILE *f, const cmd *c)
 {
@@ -133,6 +142,12 @@ static void usage_cmd(FILE *f, const cmd *c)
     for (int i = 0; i < noptions; i++)
         if (opt_for(&options[i], c))
             fprintf(f, "  --%-11s %s\n", options[i].name, options[i].help);
+    if (opt_for(&options[k_fail_on()], c)) {
+        fputs("\nwarning codes for --fail-on (docs/warnings.md explains each):\n  warning codes: ", f);
+        for (int i = 0; ls_warning_codes[i]; i++)
+            fprintf(f, "%s%s", i ? "," : "", ls_warning_codes[i]);
+        fputc('\n', f);
+    }
     if (c->circuit && c->npos > 0)
         fputs("\nFILE '-' reads the circuit from standard input (includes then resolve from the\n"
               "current directory); '--' ends the options.\n", f);
