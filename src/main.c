@@ -2,6 +2,7 @@
  * Nothing else lives here. */
 #include <errno.h>
 #include <math.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -184,10 +185,15 @@ static const char *nearest(const char *word, bool commands_too, const cmd *c)
     return best;
 }
 
-static int bad_usage(const char *fmt, const char *a, const char *b)
+/* Say what is wrong with the command line (printf-style) and return the
+ * usage exit code. */
+__attribute__((format(printf, 1, 2))) static int bad_usage(const char *fmt, ...)
 {
+    va_list ap;
+    va_start(ap, fmt);
     fputs("loadstack: error: ", stderr);
-    fprintf(stderr, fmt, a, b);
+    vfprintf(stderr, fmt, ap);
+    va_end(ap);
     fputs("\n(try 'loadstack --help')\n", stderr);
     return LS_EXIT_USAGE;
 }
@@ -391,7 +397,7 @@ int main(int argc, char **argv)
                         elsewhere = &options[k];
                 }
             if (!o && elsewhere && c)
-                return bad_usage("'%s' takes no option --%s (see 'loadstack %s --help')", c->name, name);
+                return bad_usage("'%s' takes no option --%s (see 'loadstack %s --help')", c->name, name, c->name);
             if (!o) {
                 const char *near = nearest(name, false, c);
                 if (near)

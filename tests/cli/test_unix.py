@@ -211,17 +211,17 @@ check(tty.decode().count("dissipates") == 1 and errp.decode().count("dissipates"
       "with stderr redirected the warning is in the report and on stderr", errp.decode())
 check(b"\x1b" not in tty, "no escape sequences (no colour) on a terminal", repr(tty[:300]))
 
-# progress: a tol run long enough (doubling the trials until one takes over 1.5 s)
+# progress: a tol run long enough (doubling the trials until one takes over 1.25 s: the line shows after 1 s)
 trials, seen = 160000, None
 big = circuit("big.stack", DIVIDER)
 while trials <= 2560000:
     rc, tty, _, dt = run_pty([LOADSTACK, "tol", big, "mid", "--trials", str(trials), "--format", "json"],
                              env=env, cwd=TMP)
-    if dt > 1.5:
+    if dt > 1.25:
         seen = (rc, tty, dt)
         break
     trials *= 2
-if check(seen is not None, "a tol run of over 1.5 s could be made"):
+if check(seen is not None, "a tol run of over 1.25 s could be made"):
     rc, tty, dt = seen
     check(rc == 0 and b"\rloadstack tol: " in tty and b" trials (" in tty,
           "progress on a terminal for a run of %.1f s (%d trials)" % (dt, trials), repr(tty[-400:]))
@@ -237,5 +237,24 @@ if check(seen is not None, "a tol run of over 1.5 s could be made"):
     check(rc == 0 and b"trials (" not in tty, "--quiet hides the progress line", repr(tty[-300:]))
     rc, out, err = run(["tol", big, "mid", "--trials", str(trials)])
     check(rc == 0 and "\r" not in err, "no progress when stderr is not a terminal (a pipe)", repr(err[-300:]))
+
+# progress for sweep points, the same way (doubling the points until a run takes over 1.25 s)
+swp = circuit("sweep.stack", "let r = 10k\nground gnd\nvoltage v gnd -> a 12 V\nresistor rt a -> m r\n"
+              "resistor rb m -> gnd 10k\n")
+steps, seen = 8000, None
+while steps <= 100000:
+    rc, tty, _, dt = run_pty([LOADSTACK, "sweep", swp, "r", "1k", "100k", "m", "--steps", str(steps)], env=env,
+                             cwd=TMP)
+    if dt > 1.25:
+        seen = (rc, tty, dt)
+        break
+    steps = min(steps * 2, 100000) if steps < 100000 else 100001
+if check(seen is not None, "a sweep of over 1.25 s could be made"):
+    rc, tty, dt = seen
+    check(rc == 0 and b"\rloadstack sweep: " in tty and b" points (" in tty,
+          "sweep shows progress on a terminal for a run of %.1f s (%d points)" % (dt, steps), repr(tty[-300:]))
+    rc, tty, _, dt = run_pty([LOADSTACK, "sweep", swp, "r", "1k", "100k", "m", "--steps", str(steps), "--quiet"],
+                             env=env, cwd=TMP)
+    check(rc == 0 and b" points (" not in tty, "sweep --quiet hides it", repr(tty[-300:]))
 
 report()
