@@ -264,6 +264,24 @@ static int failed_warnings(const ls_diags *d, const char *spec, const char **out
     return n;
 }
 
+/* What a report on the same terminal as stderr already shows: every warning
+ * (solve's Warnings table), or those --fail-on fails on (check's report). */
+typedef struct shown_ctx {
+    bool all;
+    const ls_report *rp;
+} shown_ctx;
+
+static bool already_shown(const ls_diag *g, void *ctx)
+{
+    const shown_ctx *c = ctx;
+    if (g->sev != LS_SEV_WARNING)
+        return false;
+    for (int k = 0; !c->all && g->code && k < c->rp->nfailed_warnings; k++)
+        if (strcmp(c->rp->failed_warnings[k], g->code) == 0)
+            return true;
+    return c->all;
+}
+
 /* Are the report (on stdout) and stderr the same terminal?  Then a warning the
  * report shows is not shown on stderr again. */
 static bool report_on_terminal(const ls_cli *cli)
@@ -309,9 +327,10 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
     code = check_mode && (checks.failed || rp.nfailed_warnings) ? LS_EXIT_CHECK : LS_EXIT_OK;
     code = ls_out_close(&s, out, tmp, code);
     phase_done("report", &t0);
-    /* the text report of solve lists the warnings: on one terminal, once */
-    bool shown = !check_mode && cli->fmt == FMT_TEXT && report_on_terminal(cli);
-    ls_diags_print_sel(&s.diags, stderr, !shown);
+    /* a text report that lists warnings, on the terminal stderr is on: each once */
+    shown_ctx sc = {.all = !check_mode, .rp = &rp};
+    bool one_terminal = cli->fmt == FMT_TEXT && report_on_terminal(cli);
+    ls_diags_print_sel(&s.diags, stderr, one_terminal ? already_shown : NULL, &sc);
     ls_checks_free(&checks);
     ls_session_free(&s);
     phase_done("free", &t0);

@@ -234,15 +234,15 @@ static void print_excerpt(const ls_diags *d, ls_loc loc, FILE *out)
 
 void ls_diags_print(const ls_diags *d, FILE *out)
 {
-    ls_diags_print_sel(d, out, true);
+    ls_diags_print_sel(d, out, NULL, NULL);
 }
 
-void ls_diags_print_sel(const ls_diags *d, FILE *out, bool with_warnings)
+void ls_diags_print_sel(const ls_diags *d, FILE *out, bool (*skip)(const ls_diag *g, void *ctx), void *ctx)
 {
     static const char *const sev[] = {"note", "warning", "error"};
     for (int i = 0; i < d->n; i++) {
         const ls_diag *g = &d->items[i];
-        if (g->sev == LS_SEV_WARNING && !with_warnings)
+        if (skip && skip(g, ctx))
             continue;
         if (g->loc.file >= 0) {
             char where[512];

@@ -67,9 +67,9 @@ void ls_note(ls_diags *d, ls_loc loc, const char *fmt, ...) __attribute__((forma
 
 /* Print every diagnostic as `file:line:col: severity: message`, the line and a caret. */
 void ls_diags_print(const ls_diags *d, FILE *out);
-/* The same, leaving out the warnings unless with_warnings (a report that
- * lists them is on the same terminal). */
-void ls_diags_print_sel(const ls_diags *d, FILE *out, bool with_warnings);
+/* The same, leaving out each diagnostic for which skip(g, ctx) is true (the
+ * warnings a report on the same terminal already shows). */
+void ls_diags_print_sel(const ls_diags *d, FILE *out, bool (*skip)(const ls_diag *g, void *ctx), void *ctx);
 /* "file:line:col" of a location into buf (or "" for none). */
 char *ls_loc_str(const ls_diags *d, ls_loc loc, char *buf, size_t n);
 

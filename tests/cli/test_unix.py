@@ -210,6 +210,10 @@ rc, tty, errp, _ = run_pty([LOADSTACK, "solve", hot], env=env, cwd=TMP, stderr_p
 check(tty.decode().count("dissipates") == 1 and errp.decode().count("dissipates") == 1,
       "with stderr redirected the warning is in the report and on stderr", errp.decode())
 check(b"\x1b" not in tty, "no escape sequences (no colour) on a terminal", repr(tty[:300]))
+for args, what in ((["--fail-on", "over-rating"], "check --fail-on lists the warning: not again on stderr"),
+                   ([], "check without --fail-on: the warning on stderr only")):
+    rc, tty, _, _ = run_pty([LOADSTACK, "check", hot] + args, env=env, cwd=TMP)
+    check(tty.decode("utf-8", "replace").count("dissipates") == 1, "on a terminal, " + what, tty.decode())
 
 # progress: a tol run long enough (doubling the trials until one takes over 1.25 s: the line shows after 1 s)
 trials, seen = 160000, None
