@@ -108,8 +108,12 @@ static void usage_all(FILE *f)
 {
     fprintf(f, "loadstack %s — DC loading analysis of analog signal chains\n\n", LS_VERSION);
     fputs("usage: loadstack COMMAND [ARGS] [OPTIONS]\n\ncommands:\n", f);
-    for (int i = 0; i < ncommands; i++)
-        fprintf(f, "  %-22s %s\n", commands[i].usage, commands[i].summary);
+    for (int i = 0; i < ncommands; i++) {
+        if (strlen(commands[i].usage) > 23) /* a long usage gets a line of its own */
+            fprintf(f, "  %s\n  %-23s %s\n", commands[i].usage, "", commands[i].summary);
+        else
+            fprintf(f, "  %-23s %s\n", commands[i].usage, commands[i].summary);
+    }
     fputs("\noptions for every command:\n", f);
     for (int i = 0; i < noptions; i++)
         if (options[i].scope == FOR_ALL)
@@ -350,6 +354,31 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
     return 0;
 }
 
+/* The command of the command line, wherever it stands among the options (so
+ * that an option of that command may come before it), or NULL.  An option
+ * that takes a value and is written without '=' skips the next word. */
+static const cmd *command_word(int argc, char **argv)
+{
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        if (strcmp(a, "--") == 0)
+            return i + 1 < argc ? find_cmd(argv[i + 1]) : NULL;
+        if (strncmp(a, "--", 2) == 0) {
+            const char *name = a + 2;
+            size_t len = strcspn(name, "=");
+            for (int k = 0; k < noptions; k++)
+                if (strlen(options[k].name) == len && strncmp(options[k].name, name, len) == 0 && options[k].arg &&
+                    !name[len])
+                    i++;
+            continue;
+        }
+        if (a[0] == '-' && a[1])
+            continue;
+        return find_cmd(a);
+    }
+    return NULL;
+}
+
 /* Read the circuit from standard input for FILE '-' (once: sweep loads the
  * circuit again for every point).  Returns 0 or an exit code. */
 static int read_stdin(ls_cli *cli)
@@ -374,7 +403,7 @@ int main(int argc, char **argv)
     cli.trials = 10000;
     cli.steps = 51;
     cli.digits = 4;
-    const cmd *c = NULL;
+    const cmd *c = NULL, *cw = command_word(argc, argv);
     bool want_version = false, options_done = false;
     for (int i = 1; i < argc; i++) {
         const char *a = argv[i];
@@ -391,15 +420,16 @@ int main(int argc, char **argv)
             const optdef *o = NULL, *elsewhere = NULL;
             for (int k = 0; k < noptions; k++)
                 if (strcmp(options[k].name, name) == 0) {
-                    if (opt_for(&options[k], c))
+                    if (opt_for(&options[k], c ? c : cw))
                         o = &options[k];
                     else
                         elsewhere = &options[k];
                 }
-            if (!o && elsewhere && c)
-                return bad_usage("'%s' takes no option --%s (see 'loadstack %s --help')", c->name, name, c->name);
+            if (!o && elsewhere && (c || cw))
+                return bad_usage("'%s' takes no option --%s (see 'loadstack %s --help')", (c ? c : cw)->name, name,
+                                 (c ? c : cw)->name);
             if (!o) {
-                const char *near = nearest(name, false, c);
+                const char *near = nearest(name, false, c ? c : cw);
                 if (near)
                     return bad_usage("unknown option '--%s'; did you mean '--%s'?", name, near);
                 return bad_usage("unknown option '--%s'%s", name, "");

@@ -138,6 +138,14 @@ for cmd in ("solve", "check", "sag", "thevenin", "influence", "tol", "sweep", "p
         else:
             check(rc2 == 2 and ("takes no option " + o) in err2, "%s refuses %s by name" % (cmd, o), err2)
 
+# options may come before the command word too (cli.md: "before or after the arguments")
+rc, out, err = run(["--format", "json", "--set", "x=1", "--digits", "6", "solve", circuit("x.stack",
+                    "let x = 2\n" + DIVIDER)])
+check(rc == 0 and "mid" in strict_json(out)["nodes"], "options before the command word are taken", err)
+rc, out, err = run(["--trials", "5", "solve", "x.stack"])
+check(rc == 2 and "takes no option --trials" in err, "an option of another command before the word is refused",
+      err)
+
 # ---- --digits, --trials with SI prefixes (cli.md) ------------------------------------------------
 p = circuit("div.stack", DIVIDER.replace("30k", "33k"))
 v = 12 * 10e3 / 43e3   # divider rule
