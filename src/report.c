@@ -1053,10 +1053,12 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
             fputs("no checks in this circuit (add 'expect' lines or a 'rule')\n", o);
         checks_text(rp, checks);
         failed_warnings_text(rp);
-        if (rp->nfailed_warnings)
-            fprintf(o, "\nFAILED: %d passed, %d failed, and %d kind%s of warning that --fail-on fails on\n",
-                    checks->passed, checks->failed, rp->nfailed_warnings, rp->nfailed_warnings == 1 ? "" : "s");
-        else
+        if (rp->nfailed_warnings) {
+            fprintf(o, "\nFAILED: %d passed, %d failed; warnings named by --fail-on:", checks->passed, checks->failed);
+            for (int i = 0; i < rp->nfailed_warnings; i++)
+                fprintf(o, "%s %s", i ? "," : "", rp->failed_warnings[i]);
+            fputc('\n', o);
+        } else
             fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass",
                     checks->passed, checks->failed);
     }
