@@ -79,7 +79,7 @@ static int parse_sets(ls_session *s, ls_setting *sets)
         size_t nlen = (size_t)(eq - cli->sets[i]);
         sets[i].name = ls_arena_strndup(&s->arena, cli->sets[i], nlen);
         int id = ls_sources_add(&s->diags, "--set", cli->sets[i], (unsigned)strlen(cli->sets[i]));
-        if (id < 0)
+        if (id < 0 || ls_sources_check_utf8(&s->diags, id) > 0)
             return -1;
         sets[i].value = ls_parse_expr_at(&s->diags, id, (unsigned)nlen + 1, false);
         sets[i].loc = (ls_loc){id, 0, (unsigned)nlen};

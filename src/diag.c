@@ -98,7 +98,7 @@ int ls_sources_check_utf8(ls_diags *d, int file)
         ls_loc_linecol(d, file, (unsigned)i, &line, &col);
         if (line != last_line) /* one error a line: a Latin-1 file would flood */
             ls_error(d, (ls_loc){file, (unsigned)i, (unsigned)i + 1},
-                     "byte 0x%02X is not UTF-8 (save the file as UTF-8; a Latin-1 or Windows-1252 file needs converting)",
+                     "byte 0x%02X is not UTF-8 (text must be UTF-8; a Latin-1 or Windows-1252 file needs converting)",
                      t[i]);
         last_line = line;
         t[i] = '?';

@@ -90,6 +90,13 @@ for name, seq in (("overlong", b"\xc0\xaf"), ("surrogate", b"\xed\xa0\x80"), ("b
     p = circuit("bad_%s.stack" % name, b"# note " + seq + b"\n" + bad_line, mode="wb")
     rc, out, err = run(["check", p])
     check(rc == 2 and err.startswith(p + ":1:8: error:"), "RFC 3629 %s sequence is an error at 1:8" % name, err)
+# command-line text is held to the same rule: a --set value and a QUANTITY
+plain = circuit("plain.stack", "let x = 1\n" + bad_line.decode())
+for argv, what in (([b"solve", plain.encode(), b"--set", b"x=1\xb0"], "--set:1:4: error:"),
+                   ([b"influence", plain.encode(), b"mid\xb0"], "quantity:1:4: error:")):
+    p = subprocess.run([LOADSTACK.encode()] + argv, capture_output=True)
+    check(p.returncode == 2 and p.stderr.decode("utf-8", "strict").startswith(what) and b"0xB0" in p.stderr,
+          "a Latin-1 byte on the command line is an error at its column (%s)" % what, repr(p.stderr[:300]))
 ok_utf8 = circuit("utf8.stack", 'title "Kiln 1200 °C probe — µA range, 4.7 kΩ"\n' + bad_line.decode())
 rc, out, err = run(["solve", ok_utf8, "--format", "json"])
 check(rc == 0 and strict_json(out)["title"] == "Kiln 1200 °C probe — µA range, 4.7 kΩ",
