@@ -19,6 +19,7 @@ _loadstack_options()
     case $1 in
         check) extra="$_loadstack_circuit --fail-on" ;;
         thevenin) extra="$_loadstack_circuit --load --meter" ;;
+        sag) extra="$_loadstack_circuit --what-if" ;;
         tol) extra="$_loadstack_circuit --trials --seed --dist --plot" ;;
         sweep) extra="$_loadstack_circuit --steps --log --plot" ;;
         pick) extra="--series --total --zout" ;;
@@ -41,6 +42,15 @@ _loadstack_nodes()
     [ -r "$1" ] || return
     "${_loadstack_prog:-loadstack}" solve "$1" --format json 2>/dev/null \
         | sed -n '/^  "nodes": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p'
+}
+
+# Node and port names of circuit file $1 (what thevenin takes), one a line.
+_loadstack_nodes_ports()
+{
+    [ -r "$1" ] || return
+    "${_loadstack_prog:-loadstack}" solve "$1" --format json 2>/dev/null | sed -n \
+        -e '/^  "nodes": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p' \
+        -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p'
 }
 
 # What a QUANTITY may name in circuit file $1: node names, PART.current,
@@ -151,8 +161,10 @@ _loadstack()
         return
     fi
     case $cmd in
-        sag | thevenin)
+        sag)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes "$file")" -- "$cur")) ;;
+        thevenin)
+            [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes_ports "$file")" -- "$cur")) ;;
         influence | tol)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_quantities "$file")" -- "$cur")) ;;
         sweep)

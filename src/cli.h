@@ -25,6 +25,7 @@ typedef struct ls_cli {
     double derate;
     /* command options */
     const char *load, *meter;          /* thevenin */
+    bool what_if;                      /* sag */
     const char *series, *total, *zout; /* pick */
     long trials;                       /* tol (default 10000) */
     unsigned long long seed;           /* default 1 */

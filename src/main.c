@@ -43,6 +43,7 @@ static const optdef options[] = {
     {"fail-on", true, FOR_LISTED, "check", "CODE,...|warnings  also fail (exit 1) when one of these warnings occurs"},
     {"load", true, FOR_LISTED, "thevenin", "R  voltage and current into a load resistance R"},
     {"meter", true, FOR_LISTED, "thevenin", "R  what a meter of input resistance R would read"},
+    {"what-if", false, FOR_LISTED, "sag", "add the table of each port opened and each part removed in turn"},
     {"trials", true, FOR_LISTED, "tol", "N  Monte Carlo trials, SI prefixes allowed: 100k (default 10000)"},
     {"seed", true, FOR_LISTED, "tol", "S  random seed, a whole number (default 1): the same seed gives the same answer"},
     {"dist", true, FOR_LISTED, "tol", "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)"},
@@ -69,9 +70,9 @@ static const cmd commands[] = {
      "loadstack solve circuits/demo.stack --format json", ls_cmd_solve, 1, true},
     {"check", "check FILE", "evaluate every expect and rule; exit 1 if any fails (for a design's CI)",
      "loadstack check circuits/demo.stack --fail-on over-rating && echo design ok", ls_cmd_check, 1, true},
-    {"sag", "sag FILE NODE", "which ports and parts pull NODE away from where it would be without them",
+    {"sag", "sag FILE NODE", "which connections (ports) make NODE sag, and by how much each",
      "loadstack sag circuits/demo.stack adc_in", ls_cmd_sag, 2, true},
-    {"thevenin", "thevenin FILE NODE", "Thevenin and Norton equivalent seen at NODE against ground",
+    {"thevenin", "thevenin FILE NODE|PORT", "Thevenin and Norton equivalent at NODE, or of each side of PORT",
      "loadstack thevenin circuits/demo.stack probe --meter 10M", ls_cmd_thevenin, 2, true},
     {"influence", "influence FILE QUANTITY", "how much each part's main value moves QUANTITY (adjoint method)",
      "loadstack influence circuits/demo.stack adc_in", ls_cmd_influence, 2, true},
@@ -312,6 +313,8 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         cli->load = val;
     } else if (strcmp(n, "meter") == 0) {
         cli->meter = val;
+    } else if (strcmp(n, "what-if") == 0) {
+        cli->what_if = true;
     } else if (strcmp(n, "trials") == 0) {
         if (!count_si(val, 1, 10000000, &cli->trials))
             return bad_usage("--trials takes a whole number from 1 to 10M (SI prefixes allowed: 100k), not '%s'%s",

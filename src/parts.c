@@ -224,6 +224,13 @@ static void port_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (c->derivative)
         return;
     int f = N(p, 0), t = N(p, 1), k = p->branch;
+    if (c->buffered) {
+        /* V(t) = V(f), with the current entering t from nowhere (sag's "alone") */
+        ls_sink_a(c->sink, t, k, -1);
+        ls_sink_a(c->sink, k, f, 1);
+        ls_sink_a(c->sink, k, t, -1);
+        return;
+    }
     branch_kcl(c->sink, f, t, k);
     if (c->removed) {
         branch_open(c->sink, k);

@@ -66,6 +66,7 @@ typedef struct ls_stamp_ctx {
     const ls_netlist *nl;
     ls_sink *sink;
     bool removed;          /* stamp the part as removed (opened / set to zero) */
+    bool buffered;         /* a port: its load side gets the driver's voltage, the driver supplies nothing */
     bool derivative;       /* stamp d/d(main value) instead of the value */
 } ls_stamp_ctx;
 

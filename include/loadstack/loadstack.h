@@ -245,17 +245,51 @@ ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks
 
 /* ---- analyses ----------------------------------------------------------------------------- */
 
-/* Sag: what each port or part does to a node.  Every part and port is removed
+/* Sag by connection (`loadstack sag`): with every port opened (each stage
+ * alone; the stage after a port still sees its driver's voltage) the node sits
+ * at `alone`; each port's share is its part of alone - voltage, I_p times the
+ * transfer resistance Z(node, driver) - Z(node, load) in that network, or,
+ * where a limit or junction changes state, its Shapley value over exact solves.
+ * Parts that set the node (a divider's legs) are never ranked: only ports are. */
+typedef struct ls_sag_share {
+    const char *port;         /* port name */
+    double current;           /* A, driver -> load */
+    double transfer;          /* ohm; NaN when undefined */
+    double share;             /* V of the sag; NaN when undefined */
+    double share_rel;         /* share / sag; NaN when the sag is zero */
+} ls_sag_share;
+
+typedef struct ls_sag_info {
+    double voltage;           /* V, everything connected */
+    double alone;             /* V, every port opened; NaN when undefined */
+    double sag;               /* alone - voltage */
+    double interaction;       /* sag - sum of the shares (the nonlinear remainder) */
+    int shapley;              /* 1: the shares are Shapley values over exact solves; 0: substitution */
+    const char *culprit;      /* the port with the largest share in the sag's direction, or NULL */
+} ls_sag_info;
+
+/* Sag by connection at node `node`.
+ *   info out: the summary.
+ *   shares out: *n entries, one per port, largest |share| first; the caller
+ *          frees the array with ls_free.
+ * Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED or LS_E_NOMEM. */
+ls_status ls_circuit_sag_ports(ls_circuit *c, const char *node, ls_sag_info *info, ls_sag_share **shares, int *n);
+
+/* The what-if table (`loadstack sag --what-if`): every part and port removed
  * in turn (a port opened, a resistor opened, a source set to zero) and the
- * node's voltage without it recorded. */
+ * node's voltage without it recorded; a row whose linear estimate crosses a
+ * limit is re-solved exactly with every limit active. */
 typedef struct ls_sag_entry {
     const char *name;         /* part or port name */
     int is_port;
     double without;           /* V at the node without it; NaN when the circuit is then unsolvable */
     double delta;             /* without - voltage; NaN likewise */
+    int beyond_limit;         /* the linear estimate crossed a limit: without is the exact re-solve, or
+                                 (a circuit with no limit to stop it) an estimate beyond every voltage of
+                                 the circuit, not a physical value */
 } ls_sag_entry;
 
-/* Sag analysis at node `node`.
+/* The what-if table at node `node`.
  *   voltage out (may be NULL): the node's loaded voltage, V.
  *   entries out: *n entries sorted by |delta|, largest first (ties in circuit
  *          order), unsolvable ones last; the caller frees the array with ls_free.

@@ -75,12 +75,12 @@ def main():
     near("stiff loaded", num(r"with r_hi = 10k[^\n]*\n[^\n]*loaded (\S+) V"), tap(10e3, 2.2e3)[0], 2e-4)
     if len(sys.argv) > 3:
         cli = sys.argv[3]
-        sag = json.loads(subprocess.run([cli, "sag", stack, "tap", "--format", "json"], capture_output=True,
-                                        text=True, timeout=60).stdout)
+        sag = json.loads(subprocess.run([cli, "sag", stack, "tap", "--what-if", "--format", "json"],
+                                        capture_output=True, text=True, timeout=60).stdout)
         lines = re.findall(r"\n  without (\S+) +(?:\(port\))? *(\S+) V \(delta ([-+]\S+) V\)", out)
         if len(lines) != 3:
             fails.append(f"{len(lines)} sag lines, want 3")
-        for (name, without, delta), item in zip(lines, sag["items"]):
+        for (name, without, delta), item in zip(lines, sag["what_if"]):
             if name != item["name"]:
                 fails.append(f"sag order: example has {name}, loadstack sag has {item['name']}")
             near(f"sag without {name}", float(without), item["without"], 2e-4)
