@@ -39,6 +39,9 @@ typedef struct ls_cli {
     const char *fail_on;               /* check: "warnings" or CODE,CODE... (NULL: none) */
     char *stdin_text;                  /* FILE '-': the circuit read from standard input */
     size_t stdin_len;
+    const char *symbols;               /* formula: --symbols A,B,... */
+    bool ideal;                        /* formula: --ideal */
+    bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
 } ls_cli;
 
 /* Everything a command needs from a loaded circuit. */
@@ -82,6 +85,7 @@ bool ls_q_same(const ls_q *a, const ls_q *b);
 int ls_cmd_tol(ls_cli *cli);     /* tol_cmd.c */
 int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
 int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
+int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
 
 extern const char ls_demo_text[];
 /* Every warning code the program gives, NULL-terminated (generated from

@@ -134,8 +134,9 @@ check("--fail-on" not in opts and "--set" in opts, "solve --help lists --set, no
 ALL = {"--set": "x=1", "--format": "text", "--output": "-", "--min-ratio": "10", "--ascii": None, "--digits": "5",
        "--quiet": None, "--solver": "auto", "--derate": "1", "--fail-on": "warnings", "--load": "1k",
        "--meter": "10M", "--trials": "10", "--seed": "2", "--dist": "normal", "--plot": "p.svg", "--steps": "3",
-       "--log": None, "--series": "E12", "--total": "1k..100k", "--zout": "10k", "--what-if": None}
-for cmd in ("solve", "check", "sag", "thevenin", "influence", "tol", "sweep", "pick", "demo"):
+       "--log": None, "--series": "E12", "--total": "1k..100k", "--zout": "10k", "--what-if": None,
+       "--symbols": "rt", "--ideal": None}
+for cmd in ("solve", "check", "sag", "thevenin", "influence", "tol", "sweep", "formula", "pick", "demo"):
     rc, listed = help_options(cmd)
     for o, v in ALL.items():
         args = [cmd, o] + ([v] if v else []) + ["--help"]
