@@ -176,7 +176,7 @@ int ls_cmd_pick(ls_cli *cli)
     FILE *o = ls_out_open(&s, &tmp);
     if (!o)
         return LS_EXIT_USAGE;
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4};
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits};
     if (cli->fmt == FMT_JSON) {
         pick_json(o, ratio, es, items, n);
     } else if (cli->fmt == FMT_CSV) {

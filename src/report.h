@@ -14,6 +14,8 @@ typedef struct ls_report {
     bool ascii;
     int sig;                 /* significant digits in text (4) */
     const ls_diags *diags;
+    const char *const *failed_warnings;   /* check: codes that --fail-on fails on */
+    int nfailed_warnings;
 } ls_report;
 
 /* Check results for every expect and rule (allocated by the caller). */
