@@ -1322,6 +1322,52 @@ void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
     }
 }
 
+/* Is warning g one that --fail-on fails on? */
+static bool failing_warning(const ls_report *rp, const ls_diag *g)
+{
+    for (int k = 0; g->sev == LS_SEV_WARNING && g->code && k < rp->nfailed_warnings; k++)
+        if (strcmp(rp->failed_warnings[k], g->code) == 0)
+            return true;
+    return false;
+}
+
+/* check, text: each warning that --fail-on fails on, as a failed line. */
+static void failed_warnings_text(ls_report *rp)
+{
+    const ls_diags *d = rp->diags;
+    int k = 0;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (!failing_warning(rp, g))
+            continue;
+        if (!k++)
+            fputs("\nWarnings that fail the check (--fail-on)\n", rp->out);
+        char where[600];
+        ls_loc_str(d, g->loc, where, sizeof where);
+        fprintf(rp->out, "  FAIL    %s  %s%s%s\n", g->code, where, where[0] ? ": " : "", g->msg);
+    }
+}
+
+/* check, CSV: each warning that --fail-on fails on, as a row that did not pass. */
+static void failed_warnings_csv(ls_report *rp, obuf *ob)
+{
+    const ls_diags *d = rp->diags;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (!failing_warning(rp, g))
+            continue;
+        char text[1200];
+        snprintf(text, sizeof text, "warning %s: %s", g->code, g->msg);
+        ob_csv_field(ob, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
+        if (g->loc.file >= 0)
+            ob_printf(ob, ",%d,,", loc_line(d, g->loc));
+        else
+            ob_puts(ob, ",,,");
+        ob_csv_field(ob, text);
+        ob_puts(ob, ",,false\n");
+    }
+}
+
 void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
     FILE *o = rp->out;
@@ -1332,6 +1378,10 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
         checks_json(rp, &w, checks);
         ls_jw_int(&w, "passed", checks->passed);
         ls_jw_int(&w, "failed", checks->failed);
+        ls_jw_arr(&w, "failed_warnings");
+        for (int i = 0; i < rp->nfailed_warnings; i++)
+            ls_jw_str(&w, NULL, rp->failed_warnings[i]);
+        ls_jw_end(&w);
         ls_report_warnings_json(rp, &w);
         ls_jw_finish(&w);
     } else if (rp->fmt == FMT_CSV) {
@@ -1349,13 +1399,21 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
             ob_csv_number(&ob, r->r.value);
             ob_puts(&ob, r->r.pass ? ",pass\n" : ",fail\n");
         }
+        failed_warnings_csv(rp, &ob);
         ob_flush(&ob);
     } else {
         if (!checks->n)
             fputs("no checks in this circuit (add 'expect' lines or a 'rule')\n", o);
         checks_text(rp, checks);
-        fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass", checks->passed,
-                checks->failed);
+        failed_warnings_text(rp);
+        if (rp->nfailed_warnings) {
+            fprintf(o, "\nFAILED: %d passed, %d failed; warnings named by --fail-on:", checks->passed, checks->failed);
+            for (int i = 0; i < rp->nfailed_warnings; i++)
+                fprintf(o, "%s %s", i ? "," : "", rp->failed_warnings[i]);
+            fputc('\n', o);
+        } else
+            fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass",
+                    checks->passed, checks->failed);
     }
 }
 

@@ -20,6 +20,8 @@ typedef struct ls_report {
     const char *command, *file;
     const char *const *sets;
     int nsets;
+    const char *const *failed_warnings;   /* check: codes that --fail-on fails on */
+    int nfailed_warnings;
 } ls_report;
 
 /* Check results for every expect and rule (allocated by the caller). */

@@ -10,11 +10,13 @@
  * numbers on every machine and with any number of threads; each thread owns
  * a copy of the parts and its own operating point. */
 #include <errno.h>
+#include <stdatomic.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 #include <unistd.h>
 
 #include "cli.h"
@@ -23,6 +25,7 @@
 #include "parser.h"
 #include "parts.h"
 #include "plot.h"
+#include "progress.h"
 #include "rng.h"
 #include "sens.h"
 
@@ -106,12 +109,15 @@ typedef struct mc_job {
     bool normal;                   /* tol is 3 sigma of a normal law; else uniform +-tol */
     double *value;                 /* per trial, NaN when it did not solve */
     unsigned char *pass;           /* per trial: every matching expect holds */
+    bool quiet;                    /* --quiet: no progress line */
+    atomic_long done;              /* trials finished, for the progress line */
 } mc_job;
 
 typedef struct mc_worker {
-    const mc_job *job;
+    mc_job *job;
     long first, last;              /* trials [first, last) */
     int status;                    /* 0 ok, -1 could not set up */
+    atomic_bool finished;          /* the worker has returned */
 } mc_worker;
 
 /* Draw the part values of trial i into parts[] (a function of (seed, i) alone). */
@@ -151,7 +157,7 @@ static int own_runs(ls_part *parts, int n, ls_part_run **runs)
 static void *mc_run(void *arg)
 {
     mc_worker *w = arg;
-    const mc_job *job = w->job;
+    mc_job *job = w->job;
     ls_arena arena;
     ls_diags diags;
     ls_arena_init(&arena);
@@ -204,6 +210,7 @@ static void *mc_run(void *arg)
             ok = r.pass;
         }
         job->pass[i] = ok;
+        atomic_fetch_add_explicit(&job->done, 1, memory_order_relaxed);
     }
     if (have_op)
         ls_op_free(&op);
@@ -214,6 +221,7 @@ static void *mc_run(void *arg)
     free(nl.parts);
     ls_diags_free(&diags);
     ls_arena_free(&arena);
+    atomic_store(&w->finished, true);
     return NULL;
 }
 
@@ -239,7 +247,9 @@ static int thread_count(long trials)
 }
 
 /* Run every trial on `nthreads` threads (the caller's thread takes the first
- * share).  Returns 0, or -1 when a worker could not set up. */
+ * share; with a progress line on the terminal it starts that share on a
+ * thread too and keeps the line while all of them run).  Returns 0, or -1
+ * when a worker could not set up. */
 static int mc_all(mc_job *job, int nthreads)
 {
     mc_worker w[MAX_THREADS];
@@ -250,15 +260,30 @@ static int mc_all(mc_job *job, int nthreads)
         w[t].first = job->trials * t / nthreads;
         w[t].last = job->trials * (t + 1) / nthreads;
         w[t].status = -1;
+        atomic_init(&w[t].finished, false);
     }
-    for (int t = 1; t < nthreads; t++)
+    atomic_init(&job->done, 0);
+    ls_progress pg;
+    ls_progress_start(&pg, "tol", "trials", job->quiet);
+    for (int t = pg.out ? 0 : 1; t < nthreads; t++)
         started[t] = pthread_create(&tid[t], NULL, mc_run, &w[t]) == 0;
-    mc_run(&w[0]);
-    for (int t = 1; t < nthreads; t++) {
+    if (pg.out && started[0]) {
+        const struct timespec tick = {0, 50 * 1000 * 1000}; /* 50 ms */
+        bool all;
+        do {
+            nanosleep(&tick, NULL);
+            ls_progress_update(&pg, atomic_load(&job->done), job->trials);
+            all = true;
+            for (int t = 0; t < nthreads; t++)
+                all = all && (!started[t] || atomic_load(&w[t].finished));
+        } while (!all);
+        ls_progress_end(&pg);
+    }
+    for (int t = 0; t < nthreads; t++) {
         if (started[t])
             pthread_join(tid[t], NULL);
         else
-            mc_run(&w[t]); /* no thread available: do its share here */
+            mc_run(&w[t]); /* no thread (or no progress line): do its share here */
     }
     for (int t = 0; t < nthreads; t++)
         if (w[t].status != 0)
@@ -623,6 +648,16 @@ static void tol_text(FILE *o, ls_report *rp, const tol_ctx *t)
     char b1[64], b2[64], b3[64], b4[64];
     fprintf(o, "Tolerance of %s (nominal %s): %d part%s vary\n\n", t->qtext, ls_eng(rp, b1, sizeof b1, r->nominal, u),
             t->nv, t->nv == 1 ? "" : "s");
+    if (t->nv == 0) {
+        fputs("Nothing varies (no part has tol=): the worst case and every Monte Carlo trial would give the nominal\n"
+              "value, so no trials were run.\n", o);
+        if (t->nchecks > 0)
+            fprintf(o, "\nYield %s (the nominal design %s every expect on %s)\n", r->yield > 0 ? "100%" : "0%",
+                    r->yield > 0 ? "meets" : "does not meet", t->qtext);
+        else
+            fprintf(o, "\nYield: no expect on %s in the circuit\n", t->qtext);
+        return;
+    }
     if (r->corners)
         fprintf(o, "Worst case, every corner (%lu solves):\n", 1ul << t->nv);
     else
@@ -729,6 +764,11 @@ static int tol_plot(const tol_ctx *t, const double *values)
              t->normal ? "normal, tol = 3 sigma" : "uniform");
     ls_plot_hist h = {.title = title, .xlabel = t->qtext, .xunit = t->unit, .ylabel = "trials",
                       .values = values, .n = (size_t)t->trials, .marks = marks, .nmarks = nm};
+    if (t->trials == 0) { /* nothing varies: the one value every trial would give */
+        snprintf(title, sizeof title, "%s: nothing varies (no part has tol=)", t->qtext);
+        h.values = &t->r.nominal;
+        h.n = 1;
+    }
     char msg[256] = "";
     if (ls_plot_hist_write(&h, t->cli->plot, msg, sizeof msg) != LS_PLOT_OK) {
         fprintf(stderr, "loadstack: error: cannot draw '%s': %s\n", t->cli->plot, msg);
@@ -774,6 +814,27 @@ static int varying_parts(const ls_netlist *nl, vary **out)
     return n;
 }
 
+/* With no part varying every trial would give the nominal value: the
+ * Monte Carlo run is not made (0 trials) and its statistics are that value
+ * exactly; the yield is whether the nominal design meets every expect on Q. */
+static void nothing_varies(tol_ctx *t)
+{
+    tol_result *r = &t->r;
+    t->trials = 0;
+    r->finite = 0;
+    r->mean = r->min = r->max = r->nominal;
+    r->std = 0;
+    for (int k = 0; k < 5; k++)
+        r->pct[k] = r->nominal;
+    bool ok = true;
+    for (int c = 0; c < t->nchecks && ok; c++) {
+        ls_check_result cr;
+        ls_check_eval(&t->s->op, &t->s->nl.checks[t->checks[c]], &cr);
+        ok = cr.pass;
+    }
+    r->yield = t->nchecks > 0 ? (ok ? 1.0 : 0.0) : NAN;
+}
+
 /* Worst case then Monte Carlo; fills t->r.  Returns an exit code. */
 static int tol_compute(tol_ctx *t, double **values_out)
 {
@@ -781,8 +842,14 @@ static int tol_compute(tol_ctx *t, double **values_out)
     int code = t->nv <= CORNER_LIMIT ? corners(s, t->q, t->v, t->nv, &t->r) : linear_wc(s, t->q, t->v, t->nv, &t->r);
     if (code)
         return code;
+    if (t->nv == 0) {
+        nothing_varies(t);
+        *values_out = NULL;
+        return 0;
+    }
     mc_job job = {.base = &s->nl, .opt = s->op.opt, .q = t->q, .v = t->v, .nv = t->nv, .checks = t->checks,
-                  .nchecks = t->nchecks, .trials = t->trials, .seed = t->seed, .normal = t->normal};
+                  .nchecks = t->nchecks, .trials = t->trials, .seed = t->seed, .normal = t->normal,
+                  .quiet = t->cli->quiet};
     job.value = malloc((size_t)t->trials * sizeof *job.value);
     job.pass = malloc((size_t)t->trials);
     if (!job.value || !job.pass) {
