@@ -39,9 +39,9 @@ static int prepare(ls_session *s, ls_cli *cli, int *node)
 }
 
 /* Close the report, print the diagnostics, free the session; the exit code. */
-static int finish(ls_session *s, FILE *out, char *tmp, int code)
+static int finish(ls_session *s, int code)
 {
-    code = ls_out_close(s, out, tmp, code);
+    code = ls_out_close(s->cli, code);
     ls_diags_print(&s->diags, stderr);
     ls_session_free(s);
     return code;
@@ -74,12 +74,7 @@ int ls_cmd_thevenin(ls_cli *cli)
     double norton = rth == 0 ? (vth == 0 ? NAN : copysign(INFINITY, vth)) : vth / rth;
     double vl = vth * rload / (rload + rth), il = vl / rload;
     double rd = vth * rmeter / (rmeter + rth), err = rd - vth;
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
     const char *name = s.nl.nodes[node].name, *OHM = ls_unit_of(LS_OHM, cli->ascii);
     char b1[64], b2[64], b3[64];
@@ -131,7 +126,7 @@ int ls_cmd_thevenin(ls_cli *cli)
                     ls_eng(&rp, b1, sizeof b1, rmeter, OHM), ls_eng(&rp, b2, sizeof b2, rd, "V"),
                     ls_eng(&rp, b3, sizeof b3, err, "V"), vth != 0 ? 100 * err / vth : 0.0);
     }
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }
 
 /* ---- sag ------------------------------------------------------------------------------------ */
@@ -233,13 +228,7 @@ int ls_cmd_sag(ls_cli *cli)
                 fabs(items[i].delta - items[culprit].delta) <= 1e-9 * fabs(items[culprit].delta))
                 via = i;
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        free(items);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
     if (cli->fmt == FMT_JSON) {
         fputs("{\"node\": ", o);
@@ -272,7 +261,7 @@ int ls_cmd_sag(ls_cli *cli)
         sag_text(&rp, &s.op, node, items, culprit, via, total);
     }
     free(items);
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }
 
 /* ---- sens ---------------------------------------------------------------------------------- */
@@ -296,13 +285,7 @@ int ls_cmd_sens(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        free(items);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
     const char *qu = ls_unit_of(q->dims, cli->ascii);
     if (cli->fmt == FMT_JSON) {
@@ -348,5 +331,5 @@ int ls_cmd_sens(ls_cli *cli)
             fprintf(o, "\n  The quantity has no finite value here, so it has no derivatives (see the warnings).\n");
     }
     free(items);
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }

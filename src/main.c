@@ -315,5 +315,9 @@ int main(int argc, char **argv)
         return LS_EXIT_USAGE;
     }
     cli.command = c->name;
-    return c->run(&cli);
+    int code = ls_out_prepare(&cli);   /* destinations checked before any work */
+    if (code == LS_EXIT_OK)
+        code = c->run(&cli);
+    ls_out_abandon(&cli);   /* a run that stopped early leaves no temporary file */
+    return code;
 }

@@ -664,7 +664,7 @@ static int tol_plot(const tol_ctx *t, const double *values)
     ls_plot_hist h = {.title = title, .xlabel = t->qtext, .xunit = t->unit, .ylabel = "trials",
                       .values = values, .n = (size_t)t->trials, .marks = marks, .nmarks = nm};
     char msg[256] = "";
-    if (ls_plot_hist_write(&h, t->cli->plot, msg, sizeof msg) != LS_PLOT_OK) {
+    if (ls_plot_hist_write_to(&h, &t->cli->plot_dest, msg, sizeof msg) != LS_PLOT_OK) {
         fprintf(stderr, "loadstack: error: cannot draw '%s': %s\n", t->cli->plot, msg);
         return LS_EXIT_USAGE;
     }
@@ -784,20 +784,15 @@ int ls_cmd_tol(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (o) {
-        ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
-        if (cli->fmt == FMT_JSON)
-            tol_json(o, &t);
-        else if (cli->fmt == FMT_CSV)
-            tol_csv(o, &t);
-        else
-            tol_text(o, &rp, &t);
-        code = ls_out_close(&s, o, tmp, LS_EXIT_OK);
-    } else {
-        code = LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    if (cli->fmt == FMT_JSON)
+        tol_json(o, &t);
+    else if (cli->fmt == FMT_CSV)
+        tol_csv(o, &t);
+    else
+        tol_text(o, &rp, &t);
+    code = ls_out_close(cli, LS_EXIT_OK);
     ls_diags_print(&s.diags, stderr);
     free(values);
     free(checks);
