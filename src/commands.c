@@ -197,6 +197,8 @@ int ls_out_prepare(ls_cli *cli)
         return refuse(cli, "%s%s", msg, "");
     if (ls_dest_open(&cli->out_dest, "--output", cli->output, msg, sizeof msg) != 0)
         return refuse(cli, "%s%s", msg, "");
+    if (ls_dest_text(&cli->out_dest) != 0)   /* reports are UTF-8, whatever the names hold */
+        return refuse(cli, "out of memory%s%s", "", "");
     if (ls_dest_same(&cli->out_dest, input))
         return refuse(cli, "--output '%s' is the input circuit; refusing to overwrite it%s", cli->output, "");
     if (cli->plot && ls_dest_same(&cli->plot_dest, input))
@@ -255,8 +257,7 @@ int ls_out_close(ls_cli *cli, int code)
 void ls_out_abandon(ls_cli *cli)
 {
     ls_dest_discard(&cli->plot_dest);
-    if (!cli->out_dest.is_stdout)
-        ls_dest_discard(&cli->out_dest);
+    ls_dest_discard(&cli->out_dest);   /* standard output: only flushed */
 }
 
 /* ---- solve, check, demo ---------------------------------------------------------------------- */

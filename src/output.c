@@ -202,6 +202,143 @@ static int make_tmp(ls_dest *d, const char *what, char *msg, size_t msgn)
     return 0;
 }
 
+/* ---- the UTF-8 filter -------------------------------------------------------------------------- */
+
+int ls_utf8_seq(const unsigned char *s, size_t n)
+{
+    unsigned c = s[0];
+    if (c < 0x80)
+        return 1;
+    int len;
+    unsigned lo = 0x80, hi = 0xBF; /* the allowed range of the second byte (RFC 3629, table 3-7 of Unicode) */
+    if (c >= 0xC2 && c <= 0xDF)
+        len = 2;
+    else if (c >= 0xE0 && c <= 0xEF) {
+        len = 3;
+        if (c == 0xE0)
+            lo = 0xA0; /* no overlong forms */
+        if (c == 0xED)
+            hi = 0x9F; /* no surrogates */
+    } else if (c >= 0xF0 && c <= 0xF4) {
+        len = 4;
+        if (c == 0xF0)
+            lo = 0x90;
+        if (c == 0xF4)
+            hi = 0x8F; /* nothing above U+10FFFF */
+    } else
+        return 0;
+    for (int i = 1; i < len; i++) {
+        if ((size_t)i >= n)
+            return -1;
+        unsigned b = s[i];
+        if (i == 1 ? (b < lo || b > hi) : (b < 0x80 || b > 0xBF))
+            return 0;
+    }
+    return len;
+}
+
+typedef struct u8filter {
+    FILE *to;
+    unsigned char pend[4]; /* the start of a sequence that the next write completes */
+    int npend;
+} u8filter;
+
+static const char REPLACEMENT[] = "\xEF\xBF\xBD"; /* U+FFFD */
+
+/* Copy the well-formed runs of p[0..n) to s->to and U+FFFD for each broken
+ * sequence; an unfinished sequence at the end is kept when `more`
+ * may follow.  Returns false on a write error. */
+static bool u8_pass(u8filter *s, const unsigned char *p, size_t n, bool more)
+{
+    size_t i = 0, run = 0;
+    while (i < n) {
+        int k = ls_utf8_seq(p + i, n - i);
+        if (k > 0) {
+            i += (size_t)k;
+            continue;
+        }
+        if (i > run && fwrite(p + run, 1, i - run, s->to) != i - run)
+            return false;
+        if (k < 0 && more) {
+            s->npend = (int)(n - i);
+            memcpy(s->pend, p + i, n - i);
+            return true;
+        }
+        /* one U+FFFD for the longest start of a sequence there (the
+         * "maximal subpart" of the Unicode Standard, section 3.9) */
+        size_t m = 1;
+        while (m < 4 && i + m < n && ls_utf8_seq(p + i, m + 1) < 0)
+            m++;
+        if (k < 0)
+            m = n - i;
+        if (fwrite(REPLACEMENT, 1, 3, s->to) != 3)
+            return false;
+        i += m;
+        run = i;
+    }
+    return i == run || fwrite(p + run, 1, i - run, s->to) == i - run;
+}
+
+/* The filter's write: a carried unfinished sequence goes first, joined to
+ * the new bytes in a scratch copy (a few bytes more than one buffer). */
+static ssize_t u8_write(void *c, const char *buf, size_t n)
+{
+    u8filter *s = c;
+    if (s->npend == 0)
+        return u8_pass(s, (const unsigned char *)buf, n, true) ? (ssize_t)n : -1;
+    unsigned char *all = malloc((size_t)s->npend + n);
+    if (!all)
+        return -1;
+    size_t h = (size_t)s->npend;
+    memcpy(all, s->pend, h);
+    memcpy(all + h, buf, n);
+    s->npend = 0;
+    bool ok = u8_pass(s, all, h + n, true);
+    free(all);
+    return ok ? (ssize_t)n : -1;
+}
+
+/* Close the filter: an unfinished sequence at the very end is one U+FFFD. */
+static int u8_close(void *c)
+{
+    u8filter *s = c;
+    bool ok = s->npend == 0 || fwrite(REPLACEMENT, 1, 3, s->to) == 3;
+    free(s);
+    return ok ? 0 : -1;
+}
+
+int ls_dest_text(ls_dest *d)
+{
+    if (!d->f || d->raw)
+        return d->f ? 0 : -1;
+    u8filter *s = calloc(1, sizeof *s);
+    if (!s)
+        return -1;
+    s->to = d->f;
+    cookie_io_functions_t io = {.write = u8_write, .close = u8_close};
+    FILE *f = fopencookie(s, "w", io);
+    if (!f) {
+        free(s);
+        return -1;
+    }
+    setvbuf(f, NULL, _IOFBF, 1 << 16);
+    d->raw = d->f;
+    d->f = f;
+    return 0;
+}
+
+/* Close the filter (if any), so that everything is in d->raw, and go back to
+ * it.  Returns false when a write failed. */
+static bool unfilter(ls_dest *d)
+{
+    if (!d->raw)
+        return true;
+    bool ok = fclose(d->f) == 0;
+    d->f = d->raw;
+    d->raw = NULL;
+    return ok;
+}
+
 /* ---- the interface ----------------------------------------------------------------------------- */
 
 int ls_dest_open(ls_dest *d, const char *what, const char *path, char *msg, size_t msgn)
@@ -244,8 +381,9 @@ bool ls_dest_same_dest(const ls_dest *a, const ls_dest *b)
 
 int ls_dest_commit(ls_dest *d, char *msg, size_t msgn)
 {
+    bool filtered = unfilter(d);
     if (d->is_stdout) {
-        bool bad = fflush(stdout) != 0 || ferror(stdout);
+        bool bad = !filtered || fflush(stdout) != 0 || ferror(stdout);
         int err = errno;
         memset(d, 0, sizeof *d);
         d->slot = -1;
@@ -254,7 +392,7 @@ int ls_dest_commit(ls_dest *d, char *msg, size_t msgn)
     if (!d->f)
         return fail(msg, msgn, "nothing to write");
     int fd = fileno(d->f), err = 0;
-    bool bad = fflush(d->f) != 0 || ferror(d->f) || fsync(fd) != 0;
+    bool bad = !filtered || fflush(d->f) != 0 || ferror(d->f) || fsync(fd) != 0;
     if (bad)
         err = errno;
     /* The file as it is now (another program may have made or changed it
@@ -299,6 +437,7 @@ void ls_dest_discard(ls_dest *d)
 {
     if (!d)
         return;
+    unfilter(d);
     if (d->f && !d->is_stdout)
         fclose(d->f);
     if (d->tmp) {

@@ -29,7 +29,8 @@ typedef struct ls_dest {
     bool exists;            /* target exists: st holds its mode and owner */
     struct stat st;
     char *tmp;              /* the temporary file beside target while open; malloc'd */
-    FILE *f;                /* open on tmp, or stdout */
+    FILE *f;                /* where to write: tmp or stdout, or the UTF-8 filter over it */
+    FILE *raw;              /* under the filter (ls_dest_text), else NULL */
     int slot;               /* index in the signal-cleanup table, -1 if none */
 } ls_dest;
 
@@ -41,6 +42,17 @@ typedef struct ls_dest {
  * d->f is ready; free with ls_dest_commit or ls_dest_discard.  `what` names
  * the option in messages ("--output"). */
 int ls_dest_open(ls_dest *d, const char *what, const char *path, char *msg, size_t msgn);
+
+/* Make d a text destination: from now on d->f replaces every byte that is not
+ * part of well-formed UTF-8 (RFC 3629) with U+FFFD, so no report (text, JSON
+ * or CSV) carries invalid UTF-8 whatever its names and titles hold.  Returns
+ * 0, or -1 when out of memory (d unchanged). */
+int ls_dest_text(ls_dest *d);
+
+/* The length of the well-formed UTF-8 sequence at s (n bytes available): 1..4;
+ * 0 when the bytes there are not one; -1 when they are the start of one that
+ * needs more bytes than n. */
+int ls_utf8_seq(const unsigned char *s, size_t n);
 
 /* Is `other` (a path) the same file as d's target?  Compared by device and
  * inode when both exist, and by their absolute, symlink-resolved paths
