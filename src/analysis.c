@@ -1,6 +1,7 @@
 /* analysis.c — operating point: assemble, check the topology, factor, solve with
  * iterative refinement, derive part results; quantities and checks. */
 #include "analysis.h"
+#include "memprobe.h"
 #include "elab.h"
 #include "newton.h"
 
@@ -205,6 +206,16 @@ static int factor(ls_op *op)
             continue;
         }
 #endif
+        if (st == LS_SOLVER_NOMEM && m != LS_METHOD_DENSE_LU) {
+            /* the sparse libraries do not say what they asked for: the size
+             * of the system is what the user can act on */
+            ls_error(nl->diags, LS_NOLOC,
+                     "out of memory in the sparse factorization (%s) of %d unknowns with %d nonzeros (the matrix "
+                     "alone takes %.1f MB)",
+                     ss->library, op->mna.n, ls_csc_nnz(&op->mna.a),
+                     (double)ls_csc_nnz(&op->mna.a) * (sizeof(double) + sizeof(int)) / 1e6);
+            return LS_EXIT_UNSOLVABLE;
+        }
         if (st == LS_SOLVER_TOO_LARGE || st == LS_SOLVER_NOMEM) {
             ls_error(nl->diags, LS_NOLOC,
                      "the system has %d unknowns; the dense solver would need %.1f MB%s", op->mna.n,
@@ -331,6 +342,11 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     op->opt = *o;
     if (ls_topology_check(nl))
         return LS_EXIT_UNSOLVABLE;
+    if (!ls_blas_buffer_fits()) { /* else OpenBLAS would wait for it forever (memprobe.h) */
+        ls_error(nl->diags, LS_NOLOC, "out of memory before the solve: the linear algebra library needs work "
+                 "buffers of %.1f MB that the process cannot get", 2.0 * (double)LS_BLAS_BUFFER_BYTES / 1e6);
+        return LS_EXIT_UNSOLVABLE;
+    }
     ls_newton_init(nl);
     if (ls_mna_build(&op->mna, nl) != 0 || alloc_results(op) != 0) {
         ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);

@@ -75,6 +75,10 @@ int ls_out_close(ls_cli *cli, int code);
 /* Remove whatever temporary file is still open (a run that stopped early). */
 void ls_out_abandon(ls_cli *cli);
 
+/* End the process with `code` once standard output and error are flushed,
+ * without running the exit handlers of the libraries (see commands.c). */
+_Noreturn void ls_exit_now(int code);
+
 /* Parse a number with units from text (for --load 10k, --min-ratio 10 ...). */
 bool ls_cli_number(const char *text, double *v);
 

@@ -70,6 +70,32 @@ static void phase_done(const char *phase, double *t0)
     *t0 = t;
 }
 
+/* ---- the end of the process -------------------------------------------------------------------- */
+
+#if defined(__SANITIZE_ADDRESS__)
+#define LS_UNDER_ASAN 1
+#elif defined(__has_feature)
+#if __has_feature(address_sanitizer)
+#define LS_UNDER_ASAN 1
+#endif
+#endif
+
+/* Every file is committed or removed before this.  The exit handlers are
+ * skipped on purpose: OpenBLAS joins its worker threads there, and under a
+ * tight address-space limit (below about 256 MB) a worker that could not get
+ * its buffer never ends, so exit() would wait forever after the work is done.
+ * Under the sanitizers the handlers run (they hold the leak check). */
+_Noreturn void ls_exit_now(int code)
+{
+    fflush(stdout);
+    fflush(stderr);
+#ifdef LS_UNDER_ASAN
+    exit(code);
+#else
+    _exit(code);
+#endif
+}
+
 /* ---- sessions ------------------------------------------------------------------------ */
 
 static int parse_sets(ls_session *s, ls_setting *sets)

@@ -225,7 +225,8 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
     return 0;
 }
 
-int main(int argc, char **argv)
+/* The program proper; main only ends the process. */
+static int run_main(int argc, char **argv)
 {
     ls_cli cli;
     memset(&cli, 0, sizeof cli);
@@ -320,4 +321,9 @@ int main(int argc, char **argv)
         code = c->run(&cli);
     ls_out_abandon(&cli);   /* a run that stopped early leaves no temporary file */
     return code;
+}
+
+int main(int argc, char **argv)
+{
+    ls_exit_now(run_main(argc, argv));
 }
