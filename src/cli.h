@@ -57,6 +57,12 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
 /* Solve the operating point.  Returns an exit code. */
 int ls_session_solve(ls_session *s);
 void ls_session_free(ls_session *s);
+/* Parse and bind a quantity written as in an `expect`; NULL after an error
+ * in the diagnostics (out of memory included). */
+ls_q *ls_session_quantity(ls_session *s, const char *text);
+/* An analysis that reported an error after the solve (out of memory) has no
+ * report: code, or 3 when the diagnostics hold an error. */
+int ls_session_verdict(const ls_session *s, int code);
 
 /* Before any work: check --output and --plot (regular files only, not the
  * input, not each other; docs/output.md), create their temporary files and

@@ -158,6 +158,22 @@ int ls_session_solve(ls_session *s)
     return code;
 }
 
+ls_q *ls_session_quantity(ls_session *s, const char *text)
+{
+    int e0 = s->diags.errors;
+    ls_expr *e = ls_parse_expr_string(&s->diags, "quantity", text, true);
+    ls_q *q = e ? ls_bind_quantity(&s->nl, e) : NULL;
+    if (!q && s->diags.errors == e0) /* the only silent failure is the arena's */
+        ls_error(&s->diags, LS_NOLOC, "out of memory reading the quantity '%s' (%zu bytes)", text,
+                 s->arena.failed_bytes);
+    return q;
+}
+
+int ls_session_verdict(const ls_session *s, int code)
+{
+    return code <= LS_EXIT_CHECK && s->diags.errors > 0 ? LS_EXIT_UNSOLVABLE : code;
+}
+
 void ls_session_free(ls_session *s)
 {
     if (s->have_op)
@@ -315,7 +331,7 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
     else
         ls_report_solve(&rp, &s.op, &checks);
     code = check_mode && checks.failed ? LS_EXIT_CHECK : LS_EXIT_OK;
-    code = ls_out_close(cli, code);
+    code = ls_out_close(cli, ls_session_verdict(&s, code));
     phase_done("report", &t0);
     ls_diags_print(&s.diags, stderr);
     ls_checks_free(&checks);

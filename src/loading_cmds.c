@@ -41,7 +41,7 @@ static int prepare(ls_session *s, ls_cli *cli, int *node)
 /* Close the report, print the diagnostics, free the session; the exit code. */
 static int finish(ls_session *s, int code)
 {
-    code = ls_out_close(s->cli, code);
+    code = ls_out_close(s->cli, ls_session_verdict(s, code));
     ls_diags_print(&s->diags, stderr);
     ls_session_free(s);
     return code;
@@ -275,8 +275,7 @@ int ls_cmd_sens(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    ls_expr *e = ls_parse_expr_string(&s.diags, "quantity", cli->pos[1], true);
-    ls_q *q = e ? ls_bind_quantity(&s.nl, e) : NULL;
+    ls_q *q = ls_session_quantity(&s, cli->pos[1]);
     ls_sens_item *items = NULL;
     double value = NAN;
     int n = q ? ls_sens(&s.op, q, &value, &items) : -1;

@@ -145,8 +145,7 @@ static int probe(sweep *w)
         }
     }
     for (int k = 0; k < w->nq && code == LS_EXIT_OK; k++) {
-        ls_expr *ex = ls_parse_expr_string(&s.diags, "quantity", w->qtext[k], true);
-        const ls_q *q = ex ? ls_bind_quantity(&s.nl, ex) : NULL;
+        const ls_q *q = ls_session_quantity(&s, w->qtext[k]);
         if (q)
             w->qdims[k] = q->dims;
         else
@@ -225,8 +224,7 @@ static void solve_point(sweep *w, int i)
     int code = ls_session_load(s, &pc, w->cli->pos[0], NULL);
     const ls_q *q[MAX_QUANTITIES] = {NULL};
     for (int k = 0; k < w->nq && code == LS_EXIT_OK; k++) {
-        ls_expr *e = ls_parse_expr_string(&s->diags, "quantity", w->qtext[k], true);
-        q[k] = e ? ls_bind_quantity(&s->nl, e) : NULL;
+        q[k] = ls_session_quantity(s, w->qtext[k]);
         if (!q[k])
             code = LS_EXIT_USAGE;
     }

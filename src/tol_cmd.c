@@ -755,8 +755,7 @@ int ls_cmd_tol(ls_cli *cli)
     ls_session s;
     t.s = &s;
     int code = ls_session_load(&s, cli, cli->pos[0], NULL);
-    ls_expr *e = code == LS_EXIT_OK ? ls_parse_expr_string(&s.diags, "quantity", cli->pos[1], true) : NULL;
-    t.q = e ? ls_bind_quantity(&s.nl, e) : NULL;
+    t.q = code == LS_EXIT_OK ? ls_session_quantity(&s, cli->pos[1]) : NULL;
     if (code == LS_EXIT_OK && !t.q)
         code = LS_EXIT_USAGE;
     if (code == LS_EXIT_OK)
@@ -795,7 +794,7 @@ int ls_cmd_tol(ls_cli *cli)
         tol_csv(o, &t);
     else
         tol_text(o, &rp, &t);
-    code = ls_out_close(cli, LS_EXIT_OK);
+    code = ls_out_close(cli, ls_session_verdict(&s, LS_EXIT_OK));
     ls_diags_print(&s.diags, stderr);
     free(values);
     free(checks);
