@@ -2,6 +2,7 @@
  * iterative refinement, derive part results; quantities and checks. */
 #include "analysis.h"
 #include "memprobe.h"
+#include "selfcheck.h"
 #include "elab.h"
 #include "newton.h"
 
@@ -364,6 +365,8 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
         return r;
     part_results(op);
+    if (ls_selfcheck_on() && ls_selfcheck(op) != 0)
+        return LS_EXIT_UNSOLVABLE;
     /* Pins for floating nodes in modified systems: a conductance on the scale of
      * the circuit's own, so the update stays well conditioned. */
     double dsum = 0;
@@ -413,6 +416,8 @@ int ls_op_resolve(ls_op *op)
             return r;
     }
     part_results(op);
+    if (ls_selfcheck_on() && ls_selfcheck(op) != 0)
+        return LS_EXIT_UNSOLVABLE;
     for (int i = 0; i < nl->nparts; i++)
         op->port[i].done = false;
     return LS_EXIT_OK;
