@@ -33,7 +33,8 @@ static double accuracy(const ls_op *op)
     return SLACK * fmax(r, 64 * DBL_EPSILON);
 }
 
-/* KCL at every node row; the first failing node into *bad. */
+/* KCL at every node row; the first failing node into *bad, with what it is
+ * off by and the scale the allowance was taken from. */
 static bool kcl_holds(const ls_op *op, double acc, int *bad, double *off, double *scale)
 {
     const ls_csc *a = &op->mna.a;
@@ -57,9 +58,25 @@ static bool kcl_holds(const ls_op *op, double acc, int *bad, double *off, double
             sum[i] += t;
             mag[i] += fabs(t) + fabs(a->val[p]) * 1e-14 * (j < nn ? vmax : imax);
         }
+    /* The residual is a norm over the whole system (|A| |x| + |b|, infinity
+     * norms): a row of tiny currents at the far end of a long ladder may be
+     * off by that much times the residual without the solution being wrong. */
+    double anorm = 0, bnorm = 0, xnorm = fmax(vmax, imax);
+    double *rowsum = calloc(n > 0 ? (size_t)n : 1, sizeof *rowsum);
+    if (rowsum) {
+        for (int j = 0; j < n; j++)
+            for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+                rowsum[a->rowind[p]] += fabs(a->val[p]);
+        for (int i = 0; i < n; i++) {
+            anorm = fmax(anorm, rowsum[i]);
+            bnorm = fmax(bnorm, fabs(op->mna.b[i]));
+        }
+        free(rowsum);
+    }
+    double global = anorm * xnorm + bnorm;
     bool ok = true;
     for (int i = 0; i < nn && ok; i++) {
-        double r = op->mna.b[i] - sum[i], s = mag[i] + fabs(op->mna.b[i]);
+        double r = op->mna.b[i] - sum[i], s = fmax(mag[i] + fabs(op->mna.b[i]), global);
         if (!(fabs(r) <= acc * s + DBL_MIN)) {
             ok = false;
             *bad = i + 1;
