@@ -3,11 +3,11 @@
 # Completes the command, its options and their fixed values, *.stack files,
 # node names for the commands that take a NODE (read from the circuit by
 # `loadstack solve FILE --format json`), node names and part and port
-# properties for a QUANTITY, and the circuit's top-level params for `sweep`
+# properties for a QUANTITY, and the circuit's top-level lets for `sweep`
 # and `--set`.
 # Installed as share/bash-completion/completions/loadstack.
 
-_loadstack_commands="solve check sag thevenin sens tol sweep pick demo"
+_loadstack_commands="solve check sag thevenin influence tol sweep pick demo"
 _loadstack_common="--set --format --output --min-ratio --ascii --solver --derate --help --version"
 
 # The options one command takes, common ones included.
@@ -16,6 +16,7 @@ _loadstack_options()
     local extra=""
     case $1 in
         thevenin) extra="--load --meter" ;;
+        sag) extra="--what-if" ;;
         tol) extra="--trials --seed --dist --plot" ;;
         sweep) extra="--steps --log --plot" ;;
         pick) extra="--series --total --zout" ;;
@@ -32,6 +33,15 @@ _loadstack_nodes()
         | sed -n '/^  "nodes": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p'
 }
 
+# Node and port names of circuit file $1 (what thevenin takes), one a line.
+_loadstack_nodes_ports()
+{
+    [ -r "$1" ] || return
+    "${_loadstack_prog:-loadstack}" solve "$1" --format json 2>/dev/null | sed -n \
+        -e '/^  "nodes": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p' \
+        -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p'
+}
+
 # What a QUANTITY may name in circuit file $1: node names, PART.current,
 # PART.voltage, PART.power and the fields of every PORT.
 _loadstack_quantities()
@@ -43,11 +53,11 @@ _loadstack_quantities()
         -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1.open\n\1.loaded\n\1.sag\n\1.sag_rel\n\1.zout\n\1.zin\n\1.ratio\n\1.current/p'
 }
 
-# Top-level param names of circuit file $1 (statements `param NAME = ...`).
-_loadstack_params()
+# Top-level let names of circuit file $1 (statements `let NAME = ...`).
+_loadstack_lets()
 {
     [ -r "$1" ] || return
-    sed -n 's/^[[:space:]]*param[[:space:]]\{1,\}\([A-Za-z_][A-Za-z0-9_]*\).*/\1/p' "$1" 2>/dev/null
+    sed -n 's/^[[:space:]]*let[[:space:]]\{1,\}\([A-Za-z_][A-Za-z0-9_]*\).*/\1/p' "$1" 2>/dev/null
 }
 
 _loadstack()
@@ -104,7 +114,7 @@ _loadstack()
                 $(compgen -d -- "$cur")); return ;;
         --set)
             compopt -o nospace 2>/dev/null
-            COMPREPLY=($(compgen -S = -W "$(_loadstack_params "$file")" -- "$cur")); return ;;
+            COMPREPLY=($(compgen -S = -W "$(_loadstack_lets "$file")" -- "$cur")); return ;;
         --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout)
             return ;;
     esac
@@ -135,13 +145,15 @@ _loadstack()
         return
     fi
     case $cmd in
-        sag | thevenin)
+        sag)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes "$file")" -- "$cur")) ;;
-        sens | tol)
+        thevenin)
+            [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes_ports "$file")" -- "$cur")) ;;
+        influence | tol)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_quantities "$file")" -- "$cur")) ;;
         sweep)
             if [ $npos -eq 1 ]; then
-                COMPREPLY=($(compgen -W "$(_loadstack_params "$file")" -- "$cur"))
+                COMPREPLY=($(compgen -W "$(_loadstack_lets "$file")" -- "$cur"))
             elif [ $npos -ge 4 ]; then
                 COMPREPLY=($(compgen -W "$(_loadstack_quantities "$file")" -- "$cur"))
             fi ;;

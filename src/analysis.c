@@ -341,15 +341,18 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     memset(op, 0, sizeof *op);
     op->nl = nl;
     op->opt = *o;
-    if (ls_topology_check(nl))
+    bool variant = o->opened || o->ties;
+    /* a variant's circuit has passed the checks once already */
+    if (!variant && ls_topology_check(nl))
         return LS_EXIT_UNSOLVABLE;
     if (!ls_blas_buffer_fits()) { /* else OpenBLAS would wait for it forever (memprobe.h) */
         ls_error(nl->diags, LS_NOLOC, "out of memory before the solve: the linear algebra library needs work "
                  "buffers of %.1f MB that the process cannot get", 2.0 * (double)LS_BLAS_BUFFER_BYTES / 1e6);
         return LS_EXIT_UNSOLVABLE;
     }
-    ls_newton_init(nl);
-    if (ls_mna_build(&op->mna, nl) != 0 || alloc_results(op) != 0) {
+    if (!o->keep_states)
+        ls_newton_init(nl);
+    if (ls_mna_build_variant(&op->mna, nl, o->opened, o->ties) != 0 || alloc_results(op) != 0) {
         ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
         return LS_EXIT_UNSOLVABLE;
     }
@@ -362,7 +365,7 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
         return LS_EXIT_UNSOLVABLE;
     }
     op->iterations = 1;
-    if (ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
+    if (!o->linear_only && ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
         return r;
     part_results(op);
     if (ls_selfcheck_on() && ls_selfcheck(op) != 0)

@@ -12,6 +12,11 @@ typedef struct ls_options {
     ls_solver_choice solver;
     double min_ratio;       /* <= 0: the circuit's rule, else 10 */
     double derate;          /* rating multiplier, default 1 */
+    /* A variant of a circuit already solved once (sag, thevenin --load): */
+    const unsigned char *opened;  /* per part, or NULL: parts stamped as removed */
+    const ls_tie *ties;           /* per node, or NULL: conductances to fixed voltages */
+    bool keep_states;       /* start from the parts' present linearization points and limits */
+    bool linear_only;       /* one linear solve at those points (no iteration) */
 } ls_options;
 
 typedef enum ls_verdict { VERDICT_OK, VERDICT_MARGINAL, VERDICT_LOADING } ls_verdict;
@@ -107,12 +112,17 @@ void ls_mod_free(ls_mod **m);
 /* Driving-point resistance at node in the base system. */
 double ls_op_zdrive(ls_op *op, int node);
 
-/* ---- sag: every part and port removed in turn ---- */
+/* ---- sag --what-if: every part and port removed in turn ---- */
 
 typedef struct ls_sag_item {
     int part;
     double without, delta;   /* V at the node with the part removed, and without - now; NaN undefined */
     bool floats;             /* undefined because nothing sets the node any more */
+    bool beyond_limit;       /* the linear estimate crossed a limit: without is the exact re-solve
+                                (NaN when that fails), or the estimate beyond every voltage of a
+                                circuit that has no limit to stop it */
+    bool resolved;           /* without comes from an exact re-solve with every limit active */
+    char limit[96];          /* the limit crossed ("u1 rail-high", "d1 on"), or "" */
 } ls_sag_item;
 
 /* The largest voltage the circuit itself has (V): node voltages and voltage
@@ -120,8 +130,10 @@ typedef struct ls_sag_item {
 double ls_op_volts(const ls_op *op);
 /* Fill items[nparts] for `node`, one low-rank update per part (no
  * refactorization), rounding noise of the updates set to zero, sorted by
- * |delta| largest first with undefined items last (ties in part order).
- * Returns 0, or -1 when out of memory. */
+ * |delta| largest first with undefined items last (ties in part order).  A
+ * row whose linear estimate crosses a limit (an op-amp's rail or current
+ * limit, a junction turning on or off) is re-solved exactly with the limits
+ * active and marked beyond_limit.  Returns 0, or -1 when out of memory. */
 int ls_sag(ls_op *op, int node, ls_sag_item *items);
 
 #endif

@@ -13,6 +13,7 @@
 #include "elab.h"
 #include "parser.h"
 #include "report.h"
+#include "sag.h"
 #include "sens.h"
 
 #ifndef LS_VERSION
@@ -512,13 +513,43 @@ ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sa
     double v0 = c->op.v[k];
     for (int i = 0; i < np; i++) {
         const ls_part *p = &c->nl.parts[rows[i].part];
-        e[i] = (ls_sag_entry){p->name, p->kind->is_port, rows[i].without, rows[i].delta};
+        e[i] = (ls_sag_entry){p->name, p->kind->is_port, rows[i].without, rows[i].delta, rows[i].beyond_limit};
     }
     free(rows);
     if (voltage)
         *voltage = v0;
     *entries = e;
     *n = np;
+    return LS_OK;
+}
+
+ls_status ls_circuit_sag_ports(ls_circuit *c, const char *node, ls_sag_info *info, ls_sag_share **shares, int *n)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!node || !info || !shares || !n)
+        return LS_E_ARGUMENT;
+    int k = ls_netlist_find_node(&c->nl, node);
+    if (k < 0)
+        return LS_E_NOT_FOUND;
+    ls_sag_report r;
+    if (ls_sag_connections(&c->op, k, &r) != 0)
+        return LS_E_NOMEM;
+    ls_sag_share *e = calloc((size_t)(r.nports ? r.nports : 1), sizeof *e);
+    if (!e) {
+        ls_sag_report_free(&r);
+        return LS_E_NOMEM;
+    }
+    for (int i = 0; i < r.nports; i++) {
+        const ls_sag_port *sp = &r.ports[i];
+        e[i] = (ls_sag_share){c->nl.parts[sp->part].name, sp->current, sp->transfer, sp->share, sp->share_rel};
+    }
+    *info = (ls_sag_info){r.voltage, r.alone, r.sag, r.interaction, r.method == LS_SAG_SHAPLEY,
+                          r.culprit >= 0 ? c->nl.parts[r.ports[r.culprit].part].name : NULL};
+    *shares = e;
+    *n = r.nports;
+    ls_sag_report_free(&r);
     return LS_OK;
 }
 
@@ -553,7 +584,8 @@ ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info 
     return LS_OK;
 }
 
-ls_status ls_circuit_sens(ls_circuit *c, const char *quantity, double *value, ls_sens_entry **entries, int *n)
+ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *value, ls_influence_entry **entries,
+                               int *n)
 {
     ls_status st = need_solved(c);
     if (st != LS_OK)
@@ -568,16 +600,16 @@ ls_status ls_circuit_sens(ls_circuit *c, const char *quantity, double *value, ls
     int k = ls_sens(&c->op, q, &v, &items);
     if (k < 0)
         return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
-    ls_sens_entry *e = calloc((size_t)(k ? k : 1), sizeof *e);
+    ls_influence_entry *e = calloc((size_t)(k ? k : 1), sizeof *e);
     if (!e) {
         free(items);
         return LS_E_NOMEM;
     }
     for (int i = 0; i < k; i++) {
         e[i].part = c->nl.parts[items[i].part].name;
-        e[i].nominal = items[i].nominal;
-        e[i].derivative = items[i].derivative;
-        e[i].normalized = items[i].normalized;
+        e[i].part_value = items[i].nominal;
+        e[i].per_unit = items[i].derivative;
+        e[i].percent_per_percent = items[i].normalized;
     }
     free(items);
     if (value)

@@ -26,6 +26,7 @@ typedef struct ls_cli {
     double derate;
     /* command options */
     const char *load, *meter;          /* thevenin */
+    bool what_if;                      /* sag */
     const char *series, *total, *zout; /* pick */
     long trials;                       /* tol (default 10000) */
     unsigned long long seed;           /* default 1 */
@@ -93,7 +94,7 @@ int ls_cmd_check(ls_cli *cli);
 int ls_cmd_demo(ls_cli *cli);
 int ls_cmd_sag(ls_cli *cli);
 int ls_cmd_thevenin(ls_cli *cli);
-int ls_cmd_sens(ls_cli *cli);
+int ls_cmd_influence(ls_cli *cli);
 /* Do two bound quantities have the same structure (same nodes, properties,
  * operators and constants)?  An expect is "on" QUANTITY when its left side is
  * the same as QUANTITY's.  (tol_cmd.c) */

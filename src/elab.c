@@ -382,7 +382,7 @@ static bool arity_ok(elab *x, const ls_expr *e)
     return true;
 }
 
-/* ---- value expressions (params only) ------------------------------------------------- */
+/* ---- value expressions (lets and block parameters only) ------------------------------------------------- */
 
 static double apply(int op, double a, double b)
 {
@@ -439,10 +439,10 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
             return false;
         int en = ls_hash_get(&x->nl->names, full);
         if (en >= 0 && x->nl->ents[en].kind != ENT_PARAM)
-            ls_error(x->d, e->loc, "'%s' is a %s; a value is expected here (a number or a param)", e->name,
+            ls_error(x->d, e->loc, "'%s' is a %s; a value is expected here (a number or a let)", e->name,
                      ent_what(x->nl->ents[en].kind));
         else
-            ls_error(x->d, e->loc, "unknown parameter '%s'", e->name);
+            ls_error(x->d, e->loc, "unknown name '%s' (no let or block parameter of that name)", e->name);
         return false;
     }
     case E_NEG:
@@ -787,8 +787,8 @@ static bool set_word(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *
             w += n + (bar ? 1 : 0);
         }
     }
-    /* A param stands for the word with its value as the index (state=pump_on
-     * with param pump_on = 1 is closed), so --set can flip it. */
+    /* A let stands for the word with its value as the index (state=pump_on
+     * with let pump_on = 1 is closed), so --set can flip it. */
     double v;
     ls_dims d;
     int nwords = 1;
@@ -801,11 +801,11 @@ static bool set_word(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *
             p->opt[oi] = v;
             return true;
         }
-        ls_error(x->d, o->value->loc, "%s= takes one of: %s, or a param whose value is 0 to %d ('%s' is %g)",
+        ls_error(x->d, o->value->loc, "%s= takes one of: %s, or a let whose value is 0 to %d ('%s' is %g)",
                  od->name, od->words, nwords - 1, o->value->name, v);
         return false;
     }
-    ls_error(x->d, o->value->loc, "%s= takes one of: %s, or a param whose value is 0 to %d", od->name, od->words,
+    ls_error(x->d, o->value->loc, "%s= takes one of: %s, or a let whose value is 0 to %d", od->name, od->words,
              nwords - 1);
     return false;
 }
@@ -949,6 +949,11 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     for (int i = 0; i < st->nopts; i++) {
         const ls_opt *o = &st->opts[i];
         int oi = ls_kind_opt(k, o->name);
+        const char *now = oi < 0 ? ls_kind_renamed(k, o->name) : NULL;
+        if (now) {
+            ls_error(x->d, o->name_loc, "%s option '%s=' is now spelled '%s='", k->name, o->name, now);
+            continue;
+        }
         if (oi < 0) {
             const char *best = NULL;
             char names[512];
@@ -1233,7 +1238,7 @@ static void elab_param(elab *x, const scope *s, const ls_stmt *st)
             sv = v;
         } else if (norm(sd).known && norm(d).known && !ls_dims_eq(norm(sd), norm(d))) {
             char b1[64], b2[64];
-            ls_error(x->d, set->value->loc, "param '%s' is %s, but --set gives %s", st->name,
+            ls_error(x->d, set->value->loc, "let '%s' is %s, but --set gives %s", st->name,
                      dname(d, b1, sizeof b1), dname(sd, b2, sizeof b2));
             sv = v;
             sd = d;
@@ -1445,7 +1450,7 @@ static void final_checks(elab *x)
     }
     for (int i = 0; i < x->nsets; i++)
         if (!x->sets[i].used)
-            ls_error(x->d, x->sets[i].loc, "--set %s: the circuit has no top-level param '%s'", x->sets[i].name,
+            ls_error(x->d, x->sets[i].loc, "--set %s: the circuit has no top-level let '%s'", x->sets[i].name,
                      x->sets[i].name);
 }
 

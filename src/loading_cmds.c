@@ -1,6 +1,7 @@
-/* loading_cmds.c — the sag, thevenin and sens commands. */
+/* loading_cmds.c — the sag, thevenin and influence commands. */
 #include <float.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -8,26 +9,53 @@
 #include "elab.h"
 #include "fmt.h"
 #include "parser.h"
+#include "lexer.h"
+#include "newton.h"
+#include "sag.h"
 #include "sens.h"
+#include "variant.h"
 
-/* Load, solve and find NODE; on failure prints diagnostics and returns the code. */
-static int prepare(ls_session *s, ls_cli *cli, int *node)
+/* "did you mean" for a name that is neither a node nor (where allowed) a port. */
+static void no_such_name(ls_session *s, const char *name, const char *file, bool ports)
+{
+    const char *best = NULL;
+    int bd = 3;
+    for (int i = 0; i < s->nl.nnodes; i++) {
+        int d = ls_edit_distance(name, s->nl.nodes[i].name);
+        if (d < bd)
+            bd = d, best = s->nl.nodes[i].name;
+    }
+    for (int i = 0; ports && i < s->nl.nparts; i++) {
+        if (!s->nl.parts[i].kind->is_port)
+            continue;
+        int d = ls_edit_distance(name, s->nl.parts[i].name);
+        if (d < bd)
+            bd = d, best = s->nl.parts[i].name;
+    }
+    const char *what = ports ? "node or port" : "node";
+    if (best)
+        ls_error(&s->diags, LS_NOLOC, "no %s '%s' in %s; did you mean '%s'?", what, name, file, best);
+    else
+        ls_error(&s->diags, LS_NOLOC, "no %s '%s' in %s", what, name, file);
+}
+
+/* Load, solve and find NODE (or, when port is not NULL, a PORT by that name:
+ * then *node is -1 and *port its part index); on failure prints diagnostics
+ * and returns the code. */
+static int prepare_at(ls_session *s, ls_cli *cli, int *node, int *port)
 {
     int code = ls_session_load(s, cli, cli->pos[0], NULL);
+    if (port)
+        *port = -1;
     if (code == LS_EXIT_OK && node) {
         *node = ls_netlist_find_node(&s->nl, cli->pos[1]);
-        if (*node < 0) {
-            const char *best = NULL;
-            int bd = 3;
-            for (int i = 0; i < s->nl.nnodes; i++) {
-                int d = ls_edit_distance(cli->pos[1], s->nl.nodes[i].name);
-                if (d < bd)
-                    bd = d, best = s->nl.nodes[i].name;
-            }
-            if (best)
-                ls_error(&s->diags, LS_NOLOC, "no node '%s' in %s; did you mean '%s'?", cli->pos[1], cli->pos[0], best);
-            else
-                ls_error(&s->diags, LS_NOLOC, "no node '%s' in %s", cli->pos[1], cli->pos[0]);
+        if (*node < 0 && port) {
+            int p = ls_netlist_find_part(&s->nl, cli->pos[1]);
+            if (p >= 0 && s->nl.parts[p].kind->is_port)
+                *port = p;
+        }
+        if (*node < 0 && (!port || *port < 0)) {
+            no_such_name(s, cli->pos[1], cli->pos[0], port != NULL);
             code = LS_EXIT_USAGE;
         }
     }
@@ -36,6 +64,11 @@ static int prepare(ls_session *s, ls_cli *cli, int *node)
     if (code != LS_EXIT_OK)
         ls_diags_print(&s->diags, stderr);
     return code;
+}
+
+static int prepare(ls_session *s, ls_cli *cli, int *node)
+{
+    return prepare_at(s, cli, node, NULL);
 }
 
 /* Close the report, print the diagnostics, free the session; the exit code. */
@@ -47,142 +80,606 @@ static int finish(ls_session *s, int code)
     return code;
 }
 
+/* ---- JSON pieces ------------------------------------------------------------------------------- */
+
+/* The word for a field with no finite value: "unbounded" or "undefined". */
+static const char *why_word(double v)
+{
+    return isinf(v) ? "unbounded" : "undefined";
+}
+
+/* `, "key": number` */
+static void jnum(FILE *o, const char *key, double v)
+{
+    fprintf(o, ", \"%s\": ", key);
+    ls_json_number(o, v);
+}
+
+/* `, "why": {...}` for the fields among keys[0..n) whose value is not finite
+ * (reason[i] overrides the word when not NULL); nothing when all are finite. */
+static void jwhy(FILE *o, const char *const *keys, const double *vals, const char *const *reason, int n)
+{
+    int k = 0;
+    for (int i = 0; i < n; i++) {
+        if (isfinite(vals[i]))
+            continue;
+        fprintf(o, "%s\"%s\": \"%s\"", k++ ? ", " : ", \"why\": {", keys[i],
+                reason && reason[i] ? reason[i] : why_word(vals[i]));
+    }
+    if (k)
+        fputs("}", o);
+}
+
 /* ---- thevenin ------------------------------------------------------------------------------ */
 
-/* loadstack thevenin FILE NODE [--load R] [--meter R]: vth, rth, Norton current. */
+/* The unit of a constant expression from the command line (a plain number
+ * adopts its partner's unit in + and -, is pure in * and /); *mixed is set
+ * when two units meet where they cannot (1V + 1mA). */
+static ls_dims expr_dims(const ls_expr *e, bool *mixed)
+{
+    switch (e->kind) {
+    case E_NUM: return e->dims;
+    case E_NEG: return expr_dims(e->a, mixed);
+    case E_BIN: {
+        ls_dims a = expr_dims(e->a, mixed), b = expr_dims(e->b, mixed);
+        if (e->op == T_STAR || e->op == T_SLASH) {
+            int s = e->op == T_STAR ? 1 : -1;
+            if (!a.known && !b.known)
+                return LS_FREE;
+            return (ls_dims){(signed char)(a.v + s * b.v), (signed char)(a.a + s * b.a), true};
+        }
+        if (e->op == T_CARET)
+            return a.known ? (*mixed = true, a) : LS_FREE;
+        if (a.known && b.known && !ls_dims_eq(a, b))
+            *mixed = true;
+        return a.known ? a : b;
+    }
+    default: *mixed = true; return LS_FREE;
+    }
+}
+
+/* --load and --meter take a resistance: a plain number or one in ohms.
+ * Prints the usage error and returns false otherwise. */
+static bool ohms_option(const char *opt, const char *text, double *v)
+{
+    ls_arena a;
+    ls_diags d;
+    ls_arena_init(&a);
+    ls_diags_init(&d, &a);
+    ls_expr *e = ls_parse_expr_string(&d, "argument", text, false);
+    ls_dims dims = LS_FREE;
+    bool mixed = false;
+    bool ok = e && ls_cli_number(text, v) && (dims = expr_dims(e, &mixed), !mixed);
+    ls_diags_free(&d);
+    ls_arena_free(&a);
+    if (ok && dims.known && !ls_dims_eq(dims, LS_OHM)) {
+        char buf[64];
+        fprintf(stderr, "loadstack: error: %s takes a resistance (ohms), got %s ('%s')\n", opt,
+                ls_dims_name(dims, buf, sizeof buf), text);
+        return false;
+    }
+    if (!ok || !(*v > 0) || !isfinite(*v)) {
+        fprintf(stderr, "loadstack: error: %s takes a positive resistance in ohms (e.g. 4.7k), not '%s'\n", opt, text);
+        return false;
+    }
+    return true;
+}
+
+/* One side's equivalent, and what a load or a meter does to it. */
+typedef struct th_side {
+    int node;                /* seen at this node against ground */
+    double vth, rth, norton; /* V, ohm, A; NaN undefined, inf unbounded */
+    const char *why_vth, *why_norton;   /* overriding reasons ("unsolved"), or NULL */
+    double load_v, load_i, meter_v;     /* with --load / --meter */
+    char load_limited[256], meter_limited[256], norton_limited[256];
+} th_side;
+
+/* NODE's voltage with a resistance r (ohm) from it to ground, solved with
+ * every limit active; `opened` part (a port, or -1) disconnected.  The limits
+ * in force then go into limited.  NaN when that circuit cannot be solved. */
+static double loaded_exact(ls_op *op, int node, int opened, double r, char *limited, size_t n)
+{
+    ls_runs base = {0};
+    ls_variant v;
+    double out = NAN;
+    snprintf(limited, n, "unsolved");
+    if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
+        ls_runs_free(&base);
+        return NAN;
+    }
+    if (opened >= 0)
+        v.opened[opened] = LS_OPENED;
+    v.ties[node] = (ls_tie){1 / r, 0};
+    if (ls_variant_hold_floating(&v, op) >= 0 && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
+        out = v.op.v[node];
+        ls_limits_in_force(op->nl, &base, limited, n);
+    }
+    ls_runs_restore(op->nl, &base);
+    ls_runs_free(&base);
+    ls_variant_free(&v);
+    return out;
+}
+
+/* A load of r ohm on side t: linear circuits by the equivalent's closed form,
+ * anything with a limit or a junction by an exact solve. */
+static double side_loaded(ls_op *op, const th_side *t, int opened, double r, char *limited, size_t n)
+{
+    if (!ls_newton_needed(op->nl)) {
+        snprintf(limited, n, "none");
+        return isinf(t->rth) ? 0 : t->vth * r / (r + t->rth);
+    }
+    return loaded_exact(op, t->node, opened, r, limited, n);
+}
+
+/* The short-circuit current of side t: vth / rth in a linear circuit; with
+ * limits or junctions, solved exactly into a conductance a thousand million
+ * times the circuit's own (or rth's): an output limit caps the current, and
+ * only a side that no limit caps has an unbounded one when rth is 0. */
+static void side_norton(ls_op *op, th_side *t, int opened)
+{
+    snprintf(t->norton_limited, sizeof t->norton_limited, "none");
+    bool exact = ls_newton_needed(op->nl) && isfinite(t->vth) && !isnan(t->rth) && !isinf(t->rth);
+    if (exact) {
+        double r = 1e-9 * (t->rth > 0 ? t->rth : 1 / op->g_pin);
+        double v = loaded_exact(op, t->node, opened, r, t->norton_limited, sizeof t->norton_limited);
+        if (isnan(v)) {
+            t->norton = NAN;
+            t->why_norton = "unsolved";
+            return;
+        }
+        if (t->rth > 0 || strcmp(t->norton_limited, "none") != 0) {
+            t->norton = v / r;
+            return;
+        }
+    }
+    if (t->rth == 0 || isnan(t->rth) || !isfinite(t->vth))
+        t->norton = t->rth == 0 && t->vth != 0 && !isnan(t->vth) ? copysign(INFINITY, t->vth) : NAN;
+    else
+        t->norton = isinf(t->rth) ? 0 : t->vth / t->rth;
+}
+
+/* --load and --meter on side t. */
+static void side_loads(ls_op *op, th_side *t, int opened, double rload, double rmeter)
+{
+    if (!isnan(rload)) {
+        t->load_v = side_loaded(op, t, opened, rload, t->load_limited, sizeof t->load_limited);
+        t->load_i = t->load_v / rload;
+    }
+    if (!isnan(rmeter))
+        t->meter_v = side_loaded(op, t, opened, rmeter, t->meter_limited, sizeof t->meter_limited);
+}
+
+/* The node's own voltage with port pi opened, solved exactly; NaN when the
+ * node is then left without a DC path (nothing sets it) or unsolvable. */
+static double opened_voltage(ls_op *op, int pi, int node, bool *unsolved)
+{
+    ls_runs base = {0};
+    ls_variant v;
+    double out = NAN;
+    *unsolved = false;
+    if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
+        ls_runs_free(&base);
+        return NAN;
+    }
+    v.opened[pi] = LS_OPENED;
+    if (ls_variant_hold_floating(&v, op) >= 0 && !v.floating[node]) {
+        if (ls_variant_solve(&v, op, false) == LS_EXIT_OK)
+            out = v.op.v[node];
+        else
+            *unsolved = true;
+    }
+    ls_runs_restore(op->nl, &base);
+    ls_runs_free(&base);
+    ls_variant_free(&v);
+    return out;
+}
+
+/* JSON of one side's equivalent (without the closing brace). */
+static void side_json(FILE *o, const ls_netlist *nl, const th_side *t, const ls_cli *cli, double rload, double rmeter,
+                      bool norton)
+{
+    fputs("\"node\": ", o);
+    ls_json_string(o, nl->nodes[t->node].name);
+    jnum(o, "vth", t->vth);
+    jnum(o, "rth", t->rth);
+    if (norton)
+        jnum(o, "norton", t->norton);
+    if (cli->load) {
+        fputs(", \"load\": {\"r\": ", o);
+        ls_json_number(o, rload);
+        jnum(o, "v", t->load_v);
+        jnum(o, "i", t->load_i);
+        fputs(", \"limited\": ", o);
+        ls_json_string(o, t->load_limited);
+        const char *k[] = {"v", "i"}, *why[] = {"unsolved", "unsolved"};
+        double vals[] = {t->load_v, t->load_i};
+        jwhy(o, k, vals, why, 2);
+        fputs("}", o);
+    }
+    if (cli->meter) {
+        double err = t->meter_v - t->vth, rel = t->vth != 0 ? err / t->vth : NAN;
+        fputs(", \"meter\": {\"r\": ", o);
+        ls_json_number(o, rmeter);
+        jnum(o, "reading", t->meter_v);
+        jnum(o, "error", err);
+        jnum(o, "error_rel", rel);
+        const char *k[] = {"reading", "error", "error_rel"};
+        double vals[] = {t->meter_v, err, rel};
+        jwhy(o, k, vals, NULL, 3);
+        fputs("}", o);
+    }
+    const char *k[] = {"vth", "rth", "norton"}, *why[] = {t->why_vth, NULL, t->why_norton};
+    double vals[] = {t->vth, t->rth, norton ? t->norton : 0};
+    jwhy(o, k, vals, why, 3);
+}
+
+/* Text of one side's equivalent, indented by ind spaces. */
+static void side_text(ls_report *rp, const th_side *t, const ls_cli *cli, double rload, double rmeter, bool norton,
+                      int ind, const char *rth_label)
+{
+    FILE *o = rp->out;
+    const char *OHM = ls_unit_of(LS_OHM, cli->ascii);
+    char b1[64], b2[64], b3[64];
+    fprintf(o, "%*sopen-circuit voltage  vth     %s\n", ind, "", ls_eng(rp, b1, sizeof b1, t->vth, "V"));
+    fprintf(o, "%*s%-21s rth     %s\n", ind, "", rth_label, ls_eng(rp, b1, sizeof b1, t->rth, OHM));
+    if (norton) {
+        fprintf(o, "%*sshort-circuit current norton  %s", ind, "", ls_eng(rp, b1, sizeof b1, t->norton, "A"));
+        if (strcmp(t->norton_limited, "none") != 0)
+            fprintf(o, "  (limited: %s)", t->norton_limited);
+        fputc('\n', o);
+    }
+    if (cli->load) {
+        fprintf(o, "%*swith a %s load: %s, %s", ind, "", ls_eng(rp, b1, sizeof b1, rload, OHM),
+                ls_eng(rp, b2, sizeof b2, t->load_v, "V"), ls_eng(rp, b3, sizeof b3, t->load_i, "A"));
+        if (strcmp(t->load_limited, "none") != 0)
+            fprintf(o, "  (limited: %s)", t->load_limited);
+        fputc('\n', o);
+    }
+    if (cli->meter) {
+        double err = t->meter_v - t->vth;
+        fprintf(o, "%*sa meter of %s input resistance reads %s (error %s", ind, "", ls_eng(rp, b1, sizeof b1, rmeter, OHM),
+                ls_eng(rp, b2, sizeof b2, t->meter_v, "V"), ls_eng(rp, b3, sizeof b3, err, "V"));
+        if (t->vth != 0 && isfinite(err))
+            fprintf(o, ", %.3g%%", 100 * err / t->vth);
+        fputs(")", o);
+        if (strcmp(t->meter_limited, "none") != 0)
+            fprintf(o, "  (limited: %s)", t->meter_limited);
+        fputc('\n', o);
+    }
+}
+
+/* CSV rows of one side, field names prefixed. */
+static void side_csv(FILE *o, const char *prefix, const th_side *t, const ls_cli *cli, double rload, double rmeter,
+                     bool norton)
+{
+    char b[40];
+#define ROW(name, v) fprintf(o, "%s%s,%s\n", prefix, name, isfinite(v) ? ls_fmt_full(b, sizeof b, v) : "")
+    ROW("vth", t->vth);
+    ROW("rth", t->rth);
+    if (norton)
+        ROW("norton", t->norton);
+    if (cli->load) {
+        ROW("load_r", rload);
+        ROW("load_v", t->load_v);
+        ROW("load_i", t->load_i);
+        fprintf(o, "%sload_limited,", prefix);
+        ls_csv_field(o, t->load_limited);
+        fputc('\n', o);
+    }
+    if (cli->meter) {
+        ROW("meter_r", rmeter);
+        ROW("meter_reading", t->meter_v);
+        ROW("meter_error", t->meter_v - t->vth);
+    }
+#undef ROW
+}
+
+/* loadstack thevenin FILE NODE|PORT [--load R] [--meter R]: vth, rth, Norton
+ * current; for a port, the driver side's and the load side's. */
 int ls_cmd_thevenin(ls_cli *cli)
 {
+    double rload = NAN, rmeter = NAN;
+    if ((cli->load && !ohms_option("--load", cli->load, &rload)) ||
+        (cli->meter && !ohms_option("--meter", cli->meter, &rmeter)))
+        return LS_EXIT_USAGE;
     ls_session s;
-    int node;
-    int code = prepare(&s, cli, &node);
+    int node, port;
+    int code = prepare_at(&s, cli, &node, &port);
     if (code != LS_EXIT_OK) {
         ls_session_free(&s);
         return code;
     }
-    double rload = NAN, rmeter = NAN;
-    if (cli->load && !(ls_cli_number(cli->load, &rload) && rload > 0)) {
-        fprintf(stderr, "loadstack: error: --load takes a positive resistance, not '%s'\n", cli->load);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
+    ls_op *op = &s.op;
+    th_side drv = {0}, ld = {0};
+    if (port < 0) {
+        drv.node = node;
+        drv.vth = op->v[node];
+        drv.rth = ls_op_zdrive(op, node);
+        side_norton(op, &drv, -1);
+        side_loads(op, &drv, -1, rload, rmeter);
+    } else {
+        const ls_part *p = &s.nl.parts[port];
+        const ls_port_result *pr = ls_op_port(op, port);
+        bool unsolved;
+        drv.node = p->pin[0];
+        drv.rth = pr->zout;
+        drv.vth = opened_voltage(op, port, drv.node, &unsolved);
+        if (isnan(drv.vth) && !unsolved)
+            drv.vth = pr->open;   /* a driver that floats once opened: the report's unbounded/undefined */
+        if (unsolved)
+            drv.why_vth = "unsolved";
+        side_norton(op, &drv, port);
+        side_loads(op, &drv, port, rload, rmeter);
+        ld.node = p->pin[1];
+        ld.rth = pr->zin;
+        ld.vth = opened_voltage(op, port, ld.node, &unsolved);
+        if (unsolved)
+            ld.why_vth = "unsolved";
     }
-    if (cli->meter && !(ls_cli_number(cli->meter, &rmeter) && rmeter > 0)) {
-        fprintf(stderr, "loadstack: error: --meter takes a positive resistance, not '%s'\n", cli->meter);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
-    double vth = s.op.v[node], rth = ls_op_zdrive(&s.op, node);
-    double norton = rth == 0 ? (vth == 0 ? NAN : copysign(INFINITY, vth)) : vth / rth;
-    double vl = vth * rload / (rload + rth), il = vl / rload;
-    double rd = vth * rmeter / (rmeter + rth), err = rd - vth;
     FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
-    const char *name = s.nl.nodes[node].name, *OHM = ls_unit_of(LS_OHM, cli->ascii);
-    char b1[64], b2[64], b3[64];
-    if (cli->fmt == FMT_JSON) {
-        fputs("{\"node\": ", o);
-        ls_json_string(o, name);
-        fputs(", \"vth\": ", o);
-        ls_json_number(o, vth);
-        fputs(", \"rth\": ", o);
-        ls_json_number(o, rth);
-        fputs(", \"norton\": ", o);
-        ls_json_number(o, norton);
-        if (cli->load) {
-            fputs(", \"load\": {\"r\": ", o);
-            ls_json_number(o, rload);
-            fputs(", \"v\": ", o);
-            ls_json_number(o, vl);
-            fputs(", \"i\": ", o);
-            ls_json_number(o, il);
-            fputs("}", o);
-        }
-        if (cli->meter) {
-            fputs(", \"meter\": {\"r\": ", o);
-            ls_json_number(o, rmeter);
-            fputs(", \"reading\": ", o);
-            ls_json_number(o, rd);
-            fputs(", \"error\": ", o);
-            ls_json_number(o, err);
-            fputs("}", o);
-        }
+    char b1[64];
+    if (cli->fmt == FMT_JSON && port < 0) {
+        fputs("{", o);
+        side_json(o, &s.nl, &drv, cli, rload, rmeter, true);
         fputs("}\n", o);
+    } else if (cli->fmt == FMT_JSON) {
+        fputs("{\"port\": ", o);
+        ls_json_string(o, s.nl.parts[port].name);
+        fputs(",\n \"driver\": {", o);
+        side_json(o, &s.nl, &drv, cli, rload, rmeter, true);
+        fputs("},\n \"load\": {", o);
+        ls_cli none = {0};
+        side_json(o, &s.nl, &ld, &none, NAN, NAN, false);
+        fputs("}}\n", o);
     } else if (cli->fmt == FMT_CSV) {
-        fprintf(o, "field,value\nvth,%s\nrth,%s\nnorton,%s\n", LS_G17(vth), LS_G17(rth),
-                isfinite(norton) ? ls_fmt_full(b1, sizeof b1, norton) : "");
-        if (cli->load)
-            fprintf(o, "load_r,%s\nload_v,%s\nload_i,%s\n", LS_G17(rload), LS_G17(vl), LS_G17(il));
-        if (cli->meter)
-            fprintf(o, "meter_r,%s\nmeter_reading,%s\nmeter_error,%s\n", LS_G17(rmeter), LS_G17(rd), LS_G17(err));
+        fputs("field,value\n", o);
+        side_csv(o, port < 0 ? "" : "driver_", &drv, cli, rload, rmeter, true);
+        if (port >= 0) {
+            ls_cli none = {0};
+            side_csv(o, "load_", &ld, &none, NAN, NAN, false);
+        }
+    } else if (port < 0) {
+        fprintf(o, "Thevenin equivalent at '%s' (against ground)\n", s.nl.nodes[node].name);
+        side_text(&rp, &drv, cli, rload, rmeter, true, 2, "source resistance");
     } else {
-        fprintf(o, "Thevenin equivalent at '%s' (against ground)\n", name);
-        fprintf(o, "  open-circuit voltage  vth     %s\n", ls_eng(&rp, b1, sizeof b1, vth, "V"));
-        fprintf(o, "  source resistance     rth     %s\n", ls_eng(&rp, b1, sizeof b1, rth, OHM));
-        fprintf(o, "  short-circuit current norton  %s\n", ls_eng(&rp, b1, sizeof b1, norton, "A"));
-        if (cli->load)
-            fprintf(o, "  with a %s load: %s, %s\n", ls_eng(&rp, b1, sizeof b1, rload, OHM),
-                    ls_eng(&rp, b2, sizeof b2, vl, "V"), ls_eng(&rp, b3, sizeof b3, il, "A"));
-        if (cli->meter)
-            fprintf(o, "  a meter of %s input resistance reads %s (error %s, %.3g%%)\n",
-                    ls_eng(&rp, b1, sizeof b1, rmeter, OHM), ls_eng(&rp, b2, sizeof b2, rd, "V"),
-                    ls_eng(&rp, b3, sizeof b3, err, "V"), vth != 0 ? 100 * err / vth : 0.0);
+        const ls_part *p = &s.nl.parts[port];
+        fprintf(o, "Port '%s' (%s -> %s) opened: each side's equivalent against ground\n", p->name,
+                s.nl.nodes[p->pin[0]].name, s.nl.nodes[p->pin[1]].name);
+        fprintf(o, "  driver side, at '%s' (what the port delivers):\n", s.nl.nodes[p->pin[0]].name);
+        side_text(&rp, &drv, cli, rload, rmeter, true, 4, "source resistance");
+        fprintf(o, "  load side, at '%s' (what the port feeds):\n", s.nl.nodes[p->pin[1]].name);
+        ls_cli none = {.ascii = cli->ascii};
+        side_text(&rp, &ld, &none, NAN, NAN, false, 4, "input resistance");
+        if (isfinite(drv.rth) && isfinite(ld.rth) && drv.rth > 0)
+            fprintf(o, "  ratio zin/zout        %s\n", ls_eng(&rp, b1, sizeof b1, ld.rth / drv.rth, ""));
     }
     return finish(&s, LS_EXIT_OK);
 }
 
 /* ---- sag ------------------------------------------------------------------------------------ */
 
-/* Is item it a load pulling the node towards ground (removal moves it away
- * from 0 V, and not beyond the circuit's own voltages)? */
-static bool pulls_down(const ls_sag_item *it, double v0, double vmax)
+/* The name and kind word of a what-if row. */
+static const char *row_kind(const ls_part *p)
 {
-    double d = it->delta;
-    if (!isfinite(d) || d == 0 || v0 == 0)
-        return false;
-    if (v0 > 0 ? d < 0 : d > 0)
-        return false;
-    return fabs(it->without) <= vmax * (1 + 1e-9);
+    return p->kind->is_port ? "port" : p->kind->name;
 }
 
-/* Text form of the sag report. */
-static void sag_text(ls_report *rp, const ls_op *op, int node, const ls_sag_item *items, int culprit, int via,
-                     double total)
+/* The what-if table in text: linear estimates, limit-crossing rows re-solved. */
+static void what_if_text(ls_report *rp, const ls_op *op, const ls_sag_item *items)
 {
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
-    double v0 = op->v[node], vmax = ls_op_volts(op);
-    char b1[64], b2[64], b3[64];
-    fprintf(o, "What pulls '%s' (now %s) away from where it would be without each part\n", nl->nodes[node].name,
-            ls_eng(rp, b1, sizeof b1, v0, "V"));
-    fprintf(o, "  (a port is opened; a part is removed: resistors opened, sources set to zero)\n\n");
-    fprintf(o, "  %-4s %-9s %-20s %14s %14s %8s\n", "rank", "kind", "name", "without it", "delta", "share");
+    char b1[64], b2[64];
+    fputs("\nWhat-if table: each port opened and each part removed in turn (resistors opened, sources set\n"
+          "to zero).  This is not an explanation of the sag: the parts that set the node's voltage (a\n"
+          "divider's own legs, the source) move it too.  Rows marked * crossed a limit in the linear\n"
+          "estimate and were re-solved with every limit active.\n\n", o);
+    fprintf(o, "  %-9s %-20s %14s %14s  %s\n", "kind", "name", "without it", "change", "note");
     for (int i = 0; i < nl->nparts; i++) {
-        const ls_part *p = &nl->parts[items[i].part];
-        double d = items[i].delta;
-        char share[32] = "";
-        if (total > 0 && pulls_down(&items[i], v0, vmax))
-            snprintf(share, sizeof share, "%.1f%%", 100 * fabs(d) / total);
-        if (isnan(d))
-            fprintf(o, "  %-4d %-9s %-20s %14s %14s\n", i + 1, p->kind->is_port ? "port" : p->kind->name, p->name,
-                    items[i].floats ? "floats" : "unsolvable", "-");
+        const ls_sag_item *it = &items[i];
+        const ls_part *p = &nl->parts[it->part];
+        char note[160] = "";
+        if (it->beyond_limit && it->resolved)
+            snprintf(note, sizeof note, "* %s", it->limit);
+        else if (it->beyond_limit)
+            snprintf(note, sizeof note, "not physical: %s", it->limit);
+        if (isnan(it->without))
+            fprintf(o, "  %-9s %-20s %14s %14s  %s\n", row_kind(p), p->name,
+                    it->floats ? "floats" : "unsolvable", "-", note);
+        else if (it->beyond_limit && !it->resolved)
+            fprintf(o, "  %-9s %-20s %14s %14s  %s\n", row_kind(p), p->name, "-", "-", note);
         else
-            fprintf(o, "  %-4d %-9s %-20s %14s %14s %8s\n", i + 1, p->kind->is_port ? "port" : p->kind->name,
-                    p->name, ls_eng(rp, b1, sizeof b1, items[i].without, "V"), ls_eng(rp, b2, sizeof b2, d, "V"),
-                    share);
+            fprintf(o, "  %-9s %-20s %14s %14s  %s\n", row_kind(p), p->name,
+                    ls_eng(rp, b1, sizeof b1, it->without, "V"), ls_eng(rp, b2, sizeof b2, it->delta, "V"), note);
     }
-    if (culprit < 0) {
-        fprintf(o, "\nNothing pulls '%s' towards ground.\n", nl->nodes[node].name);
-        return;
-    }
-    const ls_part *p = &nl->parts[items[culprit].part];
-    char through[300] = "";
-    if (via >= 0)
-        snprintf(through, sizeof through, " (through port '%s')", nl->parts[items[via].part].name);
-    fprintf(o, "\nMain culprit: %s '%s'%s pulls '%s' towards ground by %s, %.0f%% of what all loads together pull.\n",
-            p->kind->is_port ? "port" : p->kind->name, p->name, through, nl->nodes[node].name,
-            ls_eng(rp, b3, sizeof b3, fabs(items[culprit].delta), "V"), 100 * fabs(items[culprit].delta) / total);
 }
 
-/* loadstack sag FILE NODE: every part and port taken out in turn. */
+/* The sag report in text. */
+static void sag_text(ls_report *rp, const ls_op *op, const ls_sag_report *r)
+{
+    const ls_netlist *nl = op->nl;
+    FILE *o = rp->out;
+    const char *name = nl->nodes[r->node].name, *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char b1[64], b2[64], b3[64], b4[64];
+    fprintf(o, "The sag of '%s', explained by its connections (ports)\n", name);
+    fprintf(o, "  every port opened    alone      %s\n", ls_eng(rp, b1, sizeof b1, r->alone, "V"));
+    fprintf(o, "  everything connected voltage    %s\n", ls_eng(rp, b1, sizeof b1, r->voltage, "V"));
+    fprintf(o, "  alone - voltage      sag        %s", ls_eng(rp, b1, sizeof b1, r->sag, "V"));
+    if (isfinite(r->sag) && r->sag != 0 && r->alone != 0 && isfinite(r->alone))
+        fprintf(o, "  (%.3g%% of alone)", 100 * r->sag / r->alone);
+    fputc('\n', o);
+    if (r->why) {
+        fprintf(o, "\n  No explanation: %s.\n", r->why);
+        return;
+    }
+    if (r->nports == 0 || r->nsuggest > 0 || (r->culprit < 0 && r->sag == 0)) {
+        if (r->nports == 0)
+            fprintf(o, "\nNo port is in the way: the circuit has no port, so there is no connection to blame.\n");
+        else
+            fprintf(o, "\nNo port is in the way: no port's current reaches '%s'.\n", name);
+        if (r->nsuggest > 0) {
+            fprintf(o, "A port marks where one stage hands its signal to the next.  Attached at '%s', these parts\n"
+                       "pull it towards ground (without each, it would sit further from 0 V):\n", name);
+            for (int k = 0; k < r->nsuggest; k++)
+                fprintf(o, "  %s '%s'\n", nl->parts[r->suggest[k]].kind->name, nl->parts[r->suggest[k]].name);
+            fprintf(o, "Where one of them belongs to the next stage, give it a node of its own and join the\n"
+                       "two with `port p_NAME %s -> NEW_NODE`; then this command names that connection.\n", name);
+        }
+        if (r->nports == 0)
+            return;
+    }
+    fprintf(o, "\n  %-4s %-16s %12s %12s %12s %8s  %s\n", "rank", "port", "current", "transfer", "share", "of sag",
+            "drawn at the load by");
+    for (int k = 0; k < r->nports; k++) {
+        const ls_sag_port *sp = &r->ports[k];
+        char rel[32] = "-", by[400] = "";
+        if (isfinite(sp->share_rel))
+            snprintf(rel, sizeof rel, "%.1f%%", 100 * sp->share_rel);
+        size_t len = 0;
+        for (int d = 0; d < sp->ndraws && d < 4 && len < sizeof by; d++) {
+            int w = snprintf(by + len, sizeof by - len, "%s%s %s", d ? ", " : "", nl->parts[sp->draws[d].part].name,
+                             ls_eng(rp, b4, sizeof b4, sp->draws[d].current, "A"));
+            len += w > 0 ? (size_t)w : 0;
+        }
+        if (sp->ndraws > 4 && len < sizeof by)
+            snprintf(by + len, sizeof by - len, ", +%d more", sp->ndraws - 4);
+        fprintf(o, "  %-4d %-16s %12s %12s %12s %8s  %s\n", k + 1, nl->parts[sp->part].name,
+                ls_eng(rp, b1, sizeof b1, sp->current, "A"), ls_eng(rp, b2, sizeof b2, sp->transfer, OHM),
+                ls_eng(rp, b3, sizeof b3, sp->share, "V"), rel, by);
+    }
+    fprintf(o, "  %-4s %-16s %12s %12s %12s\n", "", "interaction", "", "", ls_eng(rp, b1, sizeof b1, r->interaction, "V"));
+    if (r->method == LS_SAG_SHAPLEY) {
+        fprintf(o, "\n  Shares: each port's average effect over the orders of connecting the ports (exact solves");
+        if (r->orders)
+            fprintf(o, ", %d sampled orders, seed 1", r->orders);
+        else
+            fprintf(o, " of every combination");
+        fprintf(o, "),\n  because ");
+        if (r->changed >= 0)
+            fprintf(o, "%s '%s' changes state between alone and connected.\n", nl->parts[r->changed].kind->name,
+                    nl->parts[r->changed].name);
+        else
+            fprintf(o, "the linearized shares left more than a tenth of the sag unexplained.\n");
+    } else {
+        fprintf(o, "\n  Shares: current times transfer resistance (Z(node, driver) - Z(node, load), every port opened);\n"
+                   "  they add up to the sag in a linear circuit, and interaction is what the nonlinear parts add.\n");
+        if (r->note)
+            fprintf(o, "  Note: %s.\n", r->note);
+    }
+    if (r->culprit >= 0) {
+        const ls_sag_port *sp = &r->ports[r->culprit];
+        const ls_part *p = &nl->parts[sp->part];
+        fprintf(o, "\nCulprit: port '%s' (%s -> %s) accounts for %s of the %s sag", p->name, nl->nodes[p->pin[0]].name,
+                nl->nodes[p->pin[1]].name, ls_eng(rp, b1, sizeof b1, sp->share, "V"),
+                ls_eng(rp, b2, sizeof b2, r->sag, "V"));
+        if (isfinite(sp->share_rel))
+            fprintf(o, " (%.0f%%)", 100 * sp->share_rel);
+        if (sp->ndraws > 0)
+            fprintf(o, "; its current is drawn mostly by %s '%s'", nl->parts[sp->draws[0].part].kind->name,
+                    nl->parts[sp->draws[0].part].name);
+        fputs(".\n", o);
+    } else if (r->nports > 0 && r->nsuggest == 0) {
+        fprintf(o, "\nNo culprit: no port pulls '%s' in the direction of its sag.\n", name);
+    }
+}
+
+/* One what-if row in JSON. */
+static void what_if_json(FILE *o, const ls_netlist *nl, const ls_sag_item *it, bool first)
+{
+    const ls_part *p = &nl->parts[it->part];
+    bool shown = !it->beyond_limit || it->resolved;
+    double w = shown ? it->without : NAN, d = shown ? it->delta : NAN;
+    fprintf(o, "%s\n   {\"kind\": \"%s\", \"name\": ", first ? "" : ",", p->kind->is_port ? "port" : "part");
+    ls_json_string(o, p->name);
+    jnum(o, "without", w);
+    jnum(o, "delta", d);
+    fprintf(o, ", \"beyond_limit\": %s", it->beyond_limit ? "true" : "false");
+    const char *reason = !shown ? "unbounded" : it->floats ? "undefined" : "unsolved";
+    const char *k[] = {"without", "delta"}, *why[] = {reason, reason};
+    double vals[] = {w, d};
+    jwhy(o, k, vals, why, 2);
+    fputs("}", o);
+}
+
+/* The sag report in JSON. */
+static void sag_json(FILE *o, const ls_netlist *nl, const ls_sag_report *r, const ls_sag_item *items)
+{
+    fputs("{\"node\": ", o);
+    ls_json_string(o, nl->nodes[r->node].name);
+    jnum(o, "voltage", r->voltage);
+    jnum(o, "alone", r->alone);
+    jnum(o, "sag", r->sag);
+    fputs(",\n \"ports\": [", o);
+    for (int k = 0; k < r->nports; k++) {
+        const ls_sag_port *sp = &r->ports[k];
+        fprintf(o, "%s\n  {\"name\": ", k ? "," : "");
+        ls_json_string(o, nl->parts[sp->part].name);
+        jnum(o, "current", sp->current);
+        jnum(o, "transfer", sp->transfer);
+        jnum(o, "share", sp->share);
+        jnum(o, "share_rel", sp->share_rel);
+        fputs(", \"load_parts\": [", o);
+        for (int d = 0; d < sp->ndraws; d++) {
+            fprintf(o, "%s{\"name\": ", d ? ", " : "");
+            ls_json_string(o, nl->parts[sp->draws[d].part].name);
+            jnum(o, "current", sp->draws[d].current);
+            fputs("}", o);
+        }
+        fputs("]", o);
+        const char *why_rel = r->sag == 0 ? "undefined" : r->why ? "unsolved" : NULL;
+        const char *k4[] = {"transfer", "share", "share_rel"}, *why[] = {r->why ? "unsolved" : NULL,
+                                                                           r->why ? "unsolved" : NULL, why_rel};
+        double vals[] = {sp->transfer, sp->share, sp->share_rel};
+        jwhy(o, k4, vals, why, 3);
+        fputs("}", o);
+    }
+    fputs("]", o);
+    jnum(o, "interaction", r->interaction);
+    fprintf(o, ", \"method\": \"%s\", \"culprit\": ", r->method == LS_SAG_SHAPLEY ? "shapley" : "substitution");
+    if (r->culprit >= 0)
+        ls_json_string(o, nl->parts[r->ports[r->culprit].part].name);
+    else
+        fputs("null", o);
+    if (items) {
+        fputs(",\n \"what_if\": [", o);
+        for (int i = 0; i < nl->nparts; i++)
+            what_if_json(o, nl, &items[i], i == 0);
+        fputs("]", o);
+    }
+    /* culprit null: no port pulls the node the way it sags (or nothing is solved) */
+    const char *w = r->why ? "unsolved" : "undefined";
+    const char *k[] = {"alone", "sag", "interaction", "culprit"}, *why[] = {w, w, w, w};
+    double vals[] = {r->alone, r->sag, r->interaction, r->culprit >= 0 ? 0 : NAN};
+    jwhy(o, k, vals, why, 4);
+    fputs("}\n", o);
+}
+
+/* The sag report in CSV: one row per port, then (with --what-if) one per
+ * what-if row. */
+static void sag_csv(FILE *o, const ls_netlist *nl, const ls_sag_report *r, const ls_sag_item *items)
+{
+    char b[5][40];
+#define F(i, v) (isfinite(v) ? ls_fmt_full(b[i], sizeof b[i], v) : "")
+    fputs("table,kind,name,current,transfer,share,share_rel,without,delta,beyond_limit\n", o);
+    for (int k = 0; k < r->nports; k++) {
+        const ls_sag_port *sp = &r->ports[k];
+        fputs("ports,port,", o);
+        ls_csv_field(o, nl->parts[sp->part].name);
+        fprintf(o, ",%s,%s,%s,%s,,,\n", F(0, sp->current), F(1, sp->transfer), F(2, sp->share), F(3, sp->share_rel));
+    }
+    for (int i = 0; items && i < nl->nparts; i++) {
+        const ls_sag_item *it = &items[i];
+        bool shown = !it->beyond_limit || it->resolved;
+        fprintf(o, "what_if,%s,", nl->parts[it->part].kind->is_port ? "port" : "part");
+        ls_csv_field(o, nl->parts[it->part].name);
+        fprintf(o, ",,,,,%s,%s,%s\n", shown ? F(0, it->without) : "", shown ? F(1, it->delta) : "",
+                it->beyond_limit ? "true" : "false");
+    }
+#undef F
+}
+
+/* loadstack sag FILE NODE [--what-if]: the sag explained by connections. */
 int ls_cmd_sag(ls_cli *cli)
 {
     ls_session s;
@@ -193,81 +690,171 @@ int ls_cmd_sag(ls_cli *cli)
         return code;
     }
     const ls_netlist *nl = &s.nl;
-    double v0 = s.op.v[node], vmax = ls_op_volts(&s.op);
-    ls_sag_item *items = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *items);
-    if (!items || ls_sag(&s.op, node, items) != 0) {
+    ls_sag_report r;
+    ls_sag_item *items = NULL;
+    if (ls_sag_connections(&s.op, node, &r) != 0) {
         fprintf(stderr, "loadstack: error: out of memory in the sag analysis\n");
-        free(items);
         ls_session_free(&s);
         return LS_EXIT_UNSOLVABLE;
     }
-    /* The main culprit is the part (a port only when no part qualifies) that
-     * pulls hardest; the total counts parts only, so a load and the port it
-     * hangs on are not counted twice. */
-    double total = 0, ptotal = 0;
-    int culprit = -1, pculprit = -1, via = -1;
-    for (int i = 0; i < nl->nparts; i++) {
-        if (!pulls_down(&items[i], v0, vmax))
-            continue;
-        if (nl->parts[items[i].part].kind->is_port) {
-            ptotal += fabs(items[i].delta);
-            if (pculprit < 0)
-                pculprit = i;
-        } else {
-            total += fabs(items[i].delta);
-            if (culprit < 0)
-                culprit = i;
+    if (cli->what_if) {
+        items = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *items);
+        if (!items || ls_sag(&s.op, node, items) != 0) {
+            fprintf(stderr, "loadstack: error: out of memory in the sag analysis\n");
+            free(items);
+            ls_sag_report_free(&r);
+            ls_session_free(&s);
+            return LS_EXIT_UNSOLVABLE;
         }
-    }
-    if (culprit < 0) {
-        culprit = pculprit;
-        total = ptotal;
-    } else {
-        for (int i = 0; i < nl->nparts && via < 0; i++)
-            if (nl->parts[items[i].part].kind->is_port &&
-                fabs(items[i].delta - items[culprit].delta) <= 1e-9 * fabs(items[culprit].delta))
-                via = i;
     }
     FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
-    if (cli->fmt == FMT_JSON) {
-        fputs("{\"node\": ", o);
-        ls_json_string(o, nl->nodes[node].name);
-        fputs(", \"voltage\": ", o);
-        ls_json_number(o, v0);
-        fputs(",\n \"items\": [", o);
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *p = &nl->parts[items[i].part];
-            fprintf(o, "%s\n  {\"kind\": \"%s\", \"name\": ", i ? "," : "", p->kind->is_port ? "port" : "part");
-            ls_json_string(o, p->name);
-            fputs(", \"without\": ", o);
-            ls_json_number(o, items[i].without);
-            fputs(", \"delta\": ", o);
-            ls_json_number(o, items[i].delta);
-            fputs("}", o);
-        }
-        fputs("]}\n", o);
-    } else if (cli->fmt == FMT_CSV) {
-        fputs("kind,name,without,delta\n", o);
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *p = &nl->parts[items[i].part];
-            char b1[40], b2[40];
-            fprintf(o, "%s,", p->kind->is_port ? "port" : "part");
-            ls_csv_field(o, p->name);
-            fprintf(o, ",%s,%s\n", isfinite(items[i].without) ? ls_fmt_full(b1, sizeof b1, items[i].without) : "",
-                    isfinite(items[i].delta) ? ls_fmt_full(b2, sizeof b2, items[i].delta) : "");
-        }
-    } else {
-        sag_text(&rp, &s.op, node, items, culprit, via, total);
+    if (cli->fmt == FMT_JSON)
+        sag_json(o, nl, &r, items);
+    else if (cli->fmt == FMT_CSV)
+        sag_csv(o, nl, &r, items);
+    else {
+        sag_text(&rp, &s.op, &r);
+        if (items)
+            what_if_text(&rp, &s.op, items);
     }
     free(items);
+    ls_sag_report_free(&r);
     return finish(&s, LS_EXIT_OK);
 }
 
-/* ---- sens ---------------------------------------------------------------------------------- */
+/* ---- influence ----------------------------------------------------------------------------- */
 
-/* loadstack sens FILE QUANTITY: adjoint derivatives for every part's main value. */
-int ls_cmd_sens(ls_cli *cli)
+/* One part's change per unit as text: "-46.78 µV/Ω" (the quantity's unit per
+ * the part's), "10.64 mV" for a unitless part, "1.121 m per Ω" for a unitless
+ * quantity (so a prefix is not read as a unit of its own).  Writes into buf
+ * (n bytes) and returns it. */
+static const char *per_unit_text(const ls_report *rp, char *buf, size_t n, double v, const char *qu,
+                                 const ls_part *p)
+{
+    const char *pu = ls_unit_of(ls_kind_main_dims(p->kind), rp->ascii);
+    char unit[48], num[48];
+    if (!isfinite(v))
+        return ls_eng(rp, buf, n, v, "");
+    if (*qu || !*pu) {
+        snprintf(unit, sizeof unit, "%s%s%s", qu, *pu ? "/" : "", pu);
+        return ls_eng(rp, buf, n, v, unit);
+    }
+    snprintf(buf, n, "%s per %s", ls_eng(rp, num, sizeof num, v, ""), pu);
+    return buf;
+}
+
+/* The influence table as JSON: {"quantity", "value", "items": [...]}; a
+ * null field is explained in the item's "why". */
+static void influence_json(FILE *o, const ls_session *s, const char *quantity, double value,
+                           const ls_sens_item *items, int n)
+{
+    fputs("{\"quantity\": ", o);
+    ls_json_string(o, quantity);
+    fputs(", \"value\": ", o);
+    ls_json_number(o, value);
+    fputs(",\n \"items\": [", o);
+    for (int i = 0; i < n; i++) {
+        const ls_part *p = &s->nl.parts[items[i].part];
+        fprintf(o, "%s\n  {\"part\": ", i ? "," : "");
+        ls_json_string(o, p->name);
+        fputs(", \"kind\": ", o);
+        ls_json_string(o, p->kind->name);
+        fputs(", \"part_value\": ", o);
+        ls_json_number(o, items[i].nominal);
+        fputs(", \"per_unit\": ", o);
+        ls_json_number(o, items[i].derivative);
+        fputs(", \"percent_per_percent\": ", o);
+        ls_json_number(o, items[i].normalized);
+        bool du = !isfinite(items[i].derivative), dp = !isfinite(items[i].normalized);
+        if (du || dp) {
+            /* no finite derivative: the quantity itself has none; a finite
+             * derivative without a relative one: the quantity is 0 */
+            fputs(", \"why\": {", o);
+            if (du)
+                fputs("\"per_unit\": \"undefined\"", o);
+            if (dp)
+                fprintf(o, "%s\"percent_per_percent\": \"undefined\"", du ? ", " : "");
+            fputs("}", o);
+        }
+        fputs("}", o);
+    }
+    fputs("]}\n", o);
+}
+
+/* The influence table as CSV, one row per part. */
+static void influence_csv(FILE *o, const ls_session *s, const ls_sens_item *items, int n)
+{
+    fputs("part,kind,part_value,per_unit,percent_per_percent\n", o);
+    for (int i = 0; i < n; i++) {
+        const ls_part *p = &s->nl.parts[items[i].part];
+        char b1[40], b2[40], b3[40];
+        ls_csv_field(o, p->name);
+        fprintf(o, ",%s,%s,%s,%s\n", p->kind->name,
+                isfinite(items[i].nominal) ? ls_fmt_full(b1, sizeof b1, items[i].nominal) : "",
+                isfinite(items[i].derivative) ? ls_fmt_full(b2, sizeof b2, items[i].derivative) : "",
+                isfinite(items[i].normalized) ? ls_fmt_full(b3, sizeof b3, items[i].normalized) : "");
+    }
+}
+
+/* Print s padded to w display columns (UTF-8 code points), left- or right-aligned. */
+static void cell(FILE *o, const char *s, int w, bool right)
+{
+    int n = 0;
+    for (const char *c = s; *c; c++)
+        n += ((unsigned char)*c & 0xC0) != 0x80;
+    int pad = w > n ? w - n : 0;
+    fprintf(o, "%*s%s%*s", right ? pad : 0, "", s, right ? 0 : pad, "");
+}
+
+/* The influence table as text: part, kind, value, change per unit, % per %. */
+static void influence_text(ls_report *rp, const ls_session *s, const char *quantity, ls_dims qd, double value,
+                           const ls_sens_item *items, int n)
+{
+    FILE *o = rp->out;
+    const char *qu = ls_unit_of(qd, rp->ascii);
+    char b1[64], b2[64], b3[64];
+    fprintf(o, "Influence of each part's main value on %s = %s\n", quantity, ls_eng(rp, b1, sizeof b1, value, qu));
+    fputs("  change per unit: how much the quantity moves per unit of the part's value\n"
+          "  % per %: the quantity's change in percent for a 1 % change of the part\n\n", o);
+    int wn = 4;
+    for (int i = 0; i < n; i++) {
+        int l = (int)strlen(s->nl.parts[items[i].part].name);
+        wn = l > wn ? l : wn;
+    }
+    fputs("  ", o);
+    cell(o, "part", wn, false);
+    fputs("  ", o);
+    cell(o, "kind", 9, false);
+    cell(o, "value", 13, true);
+    cell(o, "change per unit", 20, true);
+    cell(o, "% per %", 12, true);
+    fputc('\n', o);
+    for (int i = 0; i < n; i++) {
+        const ls_part *p = &s->nl.parts[items[i].part];
+        fputs("  ", o);
+        cell(o, p->name, wn, false);
+        fputs("  ", o);
+        cell(o, p->kind->name, 9, false);
+        cell(o, ls_eng(rp, b1, sizeof b1, items[i].nominal, ls_unit_of(ls_kind_main_dims(p->kind), rp->ascii)), 13,
+             true);
+        cell(o, per_unit_text(rp, b2, sizeof b2, items[i].derivative, qu, p), 20, true);
+        if (isfinite(items[i].normalized))
+            snprintf(b3, sizeof b3, "%+#.*g", rp->sig, items[i].normalized);
+        else
+            snprintf(b3, sizeof b3, "undefined");
+        cell(o, b3, 12, true);
+        fputc('\n', o);
+    }
+    if (!isfinite(value))
+        fputs("\n  The quantity has no finite value here, so it has no derivatives (see the warnings).\n", o);
+    else if (value == 0)
+        fputs("\n  The quantity is 0 here, so a change in percent of it is undefined.\n", o);
+}
+
+/* loadstack influence FILE QUANTITY: how much each part's main value moves
+ * QUANTITY, by adjoint derivatives (one transposed solve serves every part). */
+int ls_cmd_influence(ls_cli *cli)
 {
     ls_session s;
     int code = prepare(&s, cli, NULL);
@@ -286,49 +873,12 @@ int ls_cmd_sens(ls_cli *cli)
     }
     FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
-    const char *qu = ls_unit_of(q->dims, cli->ascii);
-    if (cli->fmt == FMT_JSON) {
-        fputs("{\"quantity\": ", o);
-        ls_json_string(o, cli->pos[1]);
-        fputs(", \"value\": ", o);
-        ls_json_number(o, value);
-        fputs(",\n \"items\": [", o);
-        for (int i = 0; i < n; i++) {
-            fprintf(o, "%s\n  {\"part\": ", i ? "," : "");
-            ls_json_string(o, s.nl.parts[items[i].part].name);
-            fputs(", \"nominal\": ", o);
-            ls_json_number(o, items[i].nominal);
-            fputs(", \"derivative\": ", o);
-            ls_json_number(o, items[i].derivative);
-            fputs(", \"normalized\": ", o);
-            ls_json_number(o, items[i].normalized);
-            fputs("}", o);
-        }
-        fputs("]}\n", o);
-    } else if (cli->fmt == FMT_CSV) {
-        fputs("part,nominal,derivative,normalized\n", o);
-        for (int i = 0; i < n; i++) {
-            char b[40];
-            ls_csv_field(o, s.nl.parts[items[i].part].name);
-            fprintf(o, ",%s,%s,%s\n", LS_G17(items[i].nominal), LS_G17(items[i].derivative),
-                    isfinite(items[i].normalized) ? ls_fmt_full(b, sizeof b, items[i].normalized) : "");
-        }
-    } else {
-        char b1[64];
-        fprintf(o, "Sensitivity of %s = %s to each part's main value\n", cli->pos[1], ls_eng(&rp, b1, sizeof b1, value, qu));
-        fprintf(o, "  (normalized: the %% change of the quantity for a 1%% change of the part)\n\n");
-        fprintf(o, "  %-20s %-9s %14s %14s %12s\n", "part", "kind", "value", "dQ/dp", "normalized");
-        for (int i = 0; i < n; i++) {
-            const ls_part *p = &s.nl.parts[items[i].part];
-            char bd[32], bn[32];
-            snprintf(bd, sizeof bd, "%.6g", items[i].derivative);
-            snprintf(bn, sizeof bn, "%+.4f", items[i].normalized);
-            fprintf(o, "  %-20s %-9s %14.6g %14s %12s\n", p->name, p->kind->name, items[i].nominal,
-                    isfinite(items[i].derivative) ? bd : "-", isfinite(items[i].normalized) ? bn : "-");
-        }
-        if (!isfinite(value))
-            fprintf(o, "\n  The quantity has no finite value here, so it has no derivatives (see the warnings).\n");
-    }
+    if (cli->fmt == FMT_JSON)
+        influence_json(o, &s, cli->pos[1], value, items, n);
+    else if (cli->fmt == FMT_CSV)
+        influence_csv(o, &s, items, n);
+    else
+        influence_text(&rp, &s, cli->pos[1], q->dims, value, items, n);
     free(items);
     return finish(&s, LS_EXIT_OK);
 }

@@ -15,10 +15,13 @@
  * node is unbounded. */
 #include <float.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "lowrank.h"
+#include "newton.h"
+#include "variant.h"
 
 #define MAX_RANK 64
 #define DEPEND_TOL 1e-9
@@ -241,7 +244,7 @@ static void uf_edge(void *ctx, int a, int b, bool vdef, int part)
 
 /* Removing a voltage source or a voltage-defined controlled source leaves a
  * short (its value set to zero); removing anything else opens it. */
-static bool removal_keeps_edges(const ls_part *p)
+bool ls_removal_keeps_edges(const ls_part *p)
 {
     const char *k = p->kind->name;
     return strcmp(k, "voltage") == 0 || strcmp(k, "vcvs") == 0 || strcmp(k, "ccvs") == 0;
@@ -260,7 +263,7 @@ static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
         return -1;
     for (int i = 0; i < nn; i++)
         m->float_row[i] = -1;
-    if (removal_keeps_edges(p) && kind == MOD_REMOVE_PART)
+    if (ls_removal_keeps_edges(p) && kind == MOD_REMOVE_PART)
         return 0;
     int *parent = malloc((size_t)nn * sizeof *parent);
     if (!parent)
@@ -1168,25 +1171,116 @@ static int by_delta(const void *a, const void *b)
     return x->part - y->part;
 }
 
+/* Does the modified solution x (node voltages vv, vv[0] = 0) cross a limit
+ * that the linear update cannot see: an op-amp whose limit state would
+ * change, a junction whose conductance would change more than tenfold?
+ * Part `skip` (the one removed) is not asked.  Names the first in limit. */
+static bool crosses_limit(const ls_op *op, const double *x, const double *vv, int skip, char *limit, size_t n)
+{
+    const ls_netlist *nl = op->nl;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (i == skip || !p->run)
+            continue;
+        if (p->kind->is_opamp && ls_opamp_limited(p)) {
+            int side, next = ls_opamp_next(p, x, vv, &side);
+            if (next != p->run->state) {
+                ls_part q = *p;
+                ls_part_run r = *p->run;
+                r.state = next;
+                q.run = &r;
+                snprintf(limit, n, "%s %s", p->name, ls_opamp_limit_word(&q));
+                return true;
+            }
+        } else if (p->kind->is_nonlinear && strcmp(p->kind->name, "ntc") != 0) {
+            bool beyond;
+            double v1 = ls_junction_v(p, x), v0 = p->run->op_v, h = 1e-4;
+            double g1 = (ls_junction_current(p, v1 + h, &beyond) - ls_junction_current(p, v1 - h, &beyond)) / (2 * h);
+            double g0 = (ls_junction_current(p, v0 + h, &beyond) - ls_junction_current(p, v0 - h, &beyond)) / (2 * h);
+            if (g0 > 0 && g1 > 0 && (g1 > 10 * g0 || g0 > 10 * g1)) {
+                snprintf(limit, n, "%s %s", p->name, g1 > g0 ? "on" : "off");
+                return true;
+            }
+        }
+    }
+    return false;
+}
+
+/* The row of part i: the node's voltage with i removed, by the low-rank
+ * update; a row whose estimate crosses a limit is flagged for a re-solve.
+ * vv: scratch of n + 1 values.  0, or -1 out of memory. */
+static int sag_row(ls_op *op, int node, int i, ls_sag_item *it, double *vv, double vmax)
+{
+    ls_mod *m = ls_mod_new(op, i, MOD_REMOVE_PART);
+    if (!m)
+        return -1;
+    *it = (ls_sag_item){.part = i, .without = NAN};
+    if (!ls_mod_singular(m)) {
+        const double *x = ls_mod_x(m);
+        vv[0] = 0;
+        memcpy(vv + 1, x, (size_t)op->mna.n * sizeof *vv);
+        if (node == 0)
+            it->without = 0;
+        else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
+            it->without = x[node - 1];
+        else
+            it->floats = true;
+        it->beyond_limit = crosses_limit(op, x, vv, i, it->limit, sizeof it->limit);
+        if (!it->beyond_limit && isfinite(it->without) && fabs(it->without) > vmax * (1 + 1e-9)) {
+            it->beyond_limit = true;
+            snprintf(it->limit, sizeof it->limit, "beyond every voltage of the circuit");
+        }
+    }
+    ls_mod_free(&m);
+    return 0;
+}
+
+/* Re-solve row it exactly (part removed, every limit active, nodes left
+ * floating held where they were).  base: the parts' states to return to.
+ * 0, or -1 out of memory. */
+static int sag_resolve(ls_op *op, int node, ls_sag_item *it, const ls_runs *base)
+{
+    ls_variant v;
+    if (ls_variant_init(&v, op) != 0)
+        return -1;
+    v.opened[it->part] = LS_OPENED;
+    int rc = ls_variant_hold_floating(&v, op) < 0 ? -1 : 0;
+    if (rc == 0 && ls_newton_needed(op->nl)) {
+        it->resolved = true;
+        it->floats = node > 0 && v.floating[node];
+        it->without = NAN;
+        if (!it->floats && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
+            it->without = v.op.v[node];
+            /* name what the exact solve ended at, not what the estimate crossed */
+            char now[sizeof it->limit];
+            if (ls_limits_in_force(op->nl, base, now, sizeof now) > 0)
+                memcpy(it->limit, now, sizeof now);
+            else
+                snprintf(it->limit, sizeof it->limit, "re-solved: no limit in force");
+        }
+        ls_runs_restore(op->nl, base);
+    }
+    ls_variant_free(&v);
+    return rc;
+}
+
 int ls_sag(ls_op *op, int node, ls_sag_item *items)
 {
     const ls_netlist *nl = op->nl;
-    double v0 = op->v[node], noise = 64 * DBL_EPSILON * ls_op_volts(op);
+    double v0 = op->v[node], vmax = ls_op_volts(op), noise = 64 * DBL_EPSILON * vmax;
+    double *vv = malloc(((size_t)op->mna.n + 1) * sizeof *vv);
+    ls_runs base = {0};
+    if (!vv || ls_runs_save(nl, &base) != 0) {
+        free(vv);
+        return -1;
+    }
     for (int i = 0; i < nl->nparts; i++) {
         ls_sag_item *it = &items[i];
-        ls_mod *m = ls_mod_new(op, i, MOD_REMOVE_PART);
-        if (!m)
+        if (sag_row(op, node, i, it, vv, vmax) != 0 || (it->beyond_limit && sag_resolve(op, node, it, &base) != 0)) {
+            free(vv);
+            ls_runs_free(&base);
             return -1;
-        *it = (ls_sag_item){.part = i, .without = NAN};
-        if (!ls_mod_singular(m)) {
-            if (node == 0)
-                it->without = 0;
-            else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
-                it->without = ls_mod_x(m)[node - 1];
-            else
-                it->floats = true;
         }
-        ls_mod_free(&m);
         /* rounding noise of the update is no voltage */
         if (fabs(it->without) < noise)
             it->without = 0;
@@ -1194,6 +1288,8 @@ int ls_sag(ls_op *op, int node, ls_sag_item *items)
         if (fabs(it->delta) < noise)
             it->delta = 0;
     }
+    free(vv);
+    ls_runs_free(&base);
     qsort(items, (size_t)nl->nparts, sizeof *items, by_delta);
     return 0;
 }

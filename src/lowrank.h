@@ -11,4 +11,9 @@
  * factorization.  Returns LS_SOLVER_OK, LS_SOLVER_SINGULAR or an error. */
 int ls_mod_solve_t(ls_mod *m, double *y);
 
+/* Does removing part p keep its DC paths?  A voltage source or a
+ * voltage-defined controlled source removed is set to zero, a short; any
+ * other part removed is opened. */
+bool ls_removal_keeps_edges(const ls_part *p);
+
 #endif

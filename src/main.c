@@ -20,7 +20,7 @@ typedef struct optdef {
 } optdef;
 
 static const optdef options[] = {
-    {"set", true, "*", "NAME=VALUE  override a top-level param (repeatable)"},
+    {"set", true, "*", "NAME=VALUE  override a top-level let (repeatable)"},
     {"format", true, "*", "text|json|csv  report format (default text)"},
     {"output", true, "*", "FILE  write the report to FILE (whole or not at all)"},
     {"min-ratio", true, "*", "X  minimum zin/zout for a port to pass (default: the circuit's rule, else 10)"},
@@ -31,6 +31,7 @@ static const optdef options[] = {
     {"version", false, "*", "print the version"},
     {"load", true, "thevenin", "R  voltage and current into a load resistance R"},
     {"meter", true, "thevenin", "R  what a meter of input resistance R would read"},
+    {"what-if", false, "sag", "add the table of each port opened and each part removed in turn"},
     {"trials", true, "tol", "N  Monte Carlo trials (default 10000)"},
     {"seed", true, "tol", "S  random seed, a whole number (default 1): the same seed gives the same answer"},
     {"dist", true, "tol", "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)"},
@@ -56,15 +57,15 @@ static const cmd commands[] = {
      "loadstack solve circuits/demo.stack --format json", ls_cmd_solve, 1},
     {"check", "check FILE", "evaluate every expect and rule; exit 1 if any fails (for a design's CI)",
      "loadstack check circuits/demo.stack && echo design ok", ls_cmd_check, 1},
-    {"sag", "sag FILE NODE", "which ports and parts pull NODE away from where it would be without them",
+    {"sag", "sag FILE NODE", "which connections (ports) make NODE sag, and by how much each",
      "loadstack sag circuits/demo.stack adc_in", ls_cmd_sag, 2},
-    {"thevenin", "thevenin FILE NODE", "Thevenin and Norton equivalent seen at NODE against ground",
+    {"thevenin", "thevenin FILE NODE|PORT", "Thevenin and Norton equivalent at NODE, or of each side of PORT",
      "loadstack thevenin circuits/demo.stack probe --meter 10M", ls_cmd_thevenin, 2},
-    {"sens", "sens FILE QUANTITY", "sensitivity of QUANTITY to every part's main value (adjoint method)",
-     "loadstack sens circuits/demo.stack 'adc_in'", ls_cmd_sens, 2},
+    {"influence", "influence FILE QUANTITY", "how much each part's main value moves QUANTITY (adjoint method)",
+     "loadstack influence circuits/demo.stack adc_in", ls_cmd_influence, 2},
     {"tol", "tol FILE QUANTITY", "tolerance analysis from the parts' tol=: worst case, Monte Carlo spread and yield",
      "loadstack tol circuits/demo.stack adc_in --plot adc_in.svg", ls_cmd_tol, 2},
-    {"sweep", "sweep FILE PARAM FROM TO QUANTITY...", "sweep a top-level param and tabulate (or plot) quantities",
+    {"sweep", "sweep FILE LET FROM TO QUANTITY...", "sweep a top-level let and tabulate (or plot) quantities",
      "loadstack sweep circuits/demo.stack moisture_r 1k 100k adc_in --log --plot sweep.svg", ls_cmd_sweep, 5},
     {"pick", "pick ratio R", "best pairs of standard (IEC 60063) values for a divider ratio R = rbot/(rtop+rbot)",
      "loadstack pick ratio 0.66 --series E24 --total 10k..100k", ls_cmd_pick, 2},
@@ -193,6 +194,8 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         cli->load = val;
     } else if (strcmp(n, "meter") == 0) {
         cli->meter = val;
+    } else if (strcmp(n, "what-if") == 0) {
+        cli->what_if = true;
     } else if (strcmp(n, "trials") == 0) {
         if (!whole_number(val, 1, 10000000, &cli->trials))
             return bad_usage("--trials takes a whole number from 1 to 10000000, not '%s'%s", val, "");
@@ -282,6 +285,8 @@ static int run_main(int argc, char **argv)
             return bad_usage("unknown option '%s' (options are written --name)%s", a, "");
         } else if (!c) {
             c = find_cmd(a);
+            if (!c && strcmp(a, "sens") == 0)
+                return bad_usage("'%s' is now spelled '%s' (loadstack influence FILE QUANTITY)", a, "influence");
             if (!c) {
                 const char *near = nearest(a, true, NULL);
                 if (near)

@@ -147,6 +147,24 @@ static int flush_into_pattern(ls_mna *m, size_t *covered)
     return 1;
 }
 
+/* Stamp part i, as removed or buffered when the variant says so. */
+static void stamp_part(ls_mna *m, int i, ls_sink *sink)
+{
+    unsigned char how = m->opened ? m->opened[i] : 0;
+    ls_stamp_ctx c = {.nl = m->nl, .sink = sink, .removed = how == LS_OPENED, .buffered = how == LS_BUFFERED};
+    m->nl->parts[i].kind->stamp(&m->nl->parts[i], &c);
+}
+
+/* Stamp the variant's ties: g on the node's diagonal, g*v into its rhs. */
+static void stamp_ties(ls_mna *m, ls_sink *sink)
+{
+    for (int i = 1; m->ties && i < m->nl->nnodes; i++)
+        if (m->ties[i].g > 0) {
+            ls_sink_a(sink, i - 1, i - 1, m->ties[i].g);
+            ls_sink_b(sink, i - 1, m->ties[i].g * m->ties[i].v);
+        }
+}
+
 /* Restamp into the compressed pattern of the last assembly, a few parts at a
  * time through a small triplet buffer.  Returns 1 done (m->a holds exactly
  * what compressing every triplet would give), 0 the pattern changed (m->a
@@ -178,15 +196,20 @@ static int restamp_in_place(ls_mna *m)
     size_t covered = 0, total = 0;
     int fits = 1;
     for (int i = 0; i < nl->nparts && fits; i++) {
-        ls_stamp_ctx c = {.nl = nl, .sink = &sink};
-        nl->parts[i].kind->stamp(&nl->parts[i], &c);
+        stamp_part(m, i, &sink);
         if (m->t.failed)
             break;
-        if (m->t.nnz >= RESTAMP_CHUNK || i == nl->nparts - 1) {
+        if (m->t.nnz >= RESTAMP_CHUNK) {
             fits = flush_into_pattern(m, &covered);
             total += m->t.nnz;
             m->t.nnz = 0;
         }
+    }
+    stamp_ties(m, &sink);
+    if (fits && !m->t.failed) {
+        fits = flush_into_pattern(m, &covered);
+        total += m->t.nnz;
+        m->t.nnz = 0;
     }
     int failed = m->t.failed;
     ls_triplets_free(&m->t);
@@ -225,10 +248,9 @@ static int stamp_all(ls_mna *m)
         m->t.cap = m->nnz_hint;
     }
     memset(m->b, 0, (size_t)m->n * sizeof *m->b);
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_stamp_ctx c = {.nl = nl, .sink = &sink};
-        nl->parts[i].kind->stamp(&nl->parts[i], &c);
-    }
+    for (int i = 0; i < nl->nparts; i++)
+        stamp_part(m, i, &sink);
+    stamp_ties(m, &sink);
     if (m->t.failed) {
         ls_triplets_free(&m->t);
         return -1;
@@ -245,8 +267,15 @@ static int stamp_all(ls_mna *m)
 
 int ls_mna_build(ls_mna *m, const ls_netlist *nl)
 {
+    return ls_mna_build_variant(m, nl, NULL, NULL);
+}
+
+int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *opened, const ls_tie *ties)
+{
     memset(m, 0, sizeof *m);
     m->nl = nl;
+    m->opened = opened;
+    m->ties = ties;
     m->nn = nl->nnodes - 1;
     int nb = 0;
     for (int i = 0; i < nl->nparts; i++)
@@ -394,7 +423,7 @@ static void on_edge(void *ctx, int a, int b, bool vdef, int part)
                 loop_parts(t, a, b, parts, sizeof parts);
             ls_error(t->nl->diags, p->loc,
                      "%s '%s' closes a loop made only of voltage-defined branches (with %s): the currents in the loop are "
-                     "undefined; add a resistance (e.g. rs= on a source) or remove one branch",
+                     "undefined; add a resistance (e.g. rint= on a source) or remove one branch",
                      p->kind->name, p->name, parts[0] ? parts : "itself");
         }
         return;

@@ -5,6 +5,15 @@
 #include "parts.h"
 #include "solver.h"
 
+/* A conductance (S) from a node to a fixed voltage (V): a load resistor to
+ * ground (v = 0), or a node held at a voltage.  g = 0: none. */
+/* How a variant changes a part (ls_mna.opened). */
+enum { LS_KEPT = 0, LS_OPENED = 1, LS_BUFFERED = 2 };
+
+typedef struct ls_tie {
+    double g, v;
+} ls_tie;
+
 typedef struct ls_mna {
     const ls_netlist *nl;
     int nn;                /* node unknowns: nnodes - 1 */
@@ -18,10 +27,18 @@ typedef struct ls_mna {
     unsigned char *seen;   /* restamp scratch: per entry of a, set once a triplet reached it */
     size_t seen_n;
     unsigned in_place;     /* restamps summed straight into a's pattern (for tests) */
+    /* A variant of the circuit (sag, thevenin --load): both NULL normally. */
+    const unsigned char *opened;   /* per part, or NULL: LS_OPENED, LS_BUFFERED (ports) or 0 */
+    const ls_tie *ties;            /* per node, or NULL: a conductance to a fixed voltage */
 } ls_mna;
 
 /* Number branch unknowns and stamp every part.  0 ok, -1 out of memory. */
 int ls_mna_build(ls_mna *m, const ls_netlist *nl);
+/* The same for a variant: the parts marked in opened (per part, or NULL) are
+ * stamped as removed (LS_OPENED) or, for a port, as delivering its driver's
+ * voltage without drawing on the driver (LS_BUFFERED), and every node with ties[node].g > 0 (per node, or NULL)
+ * gets its tie; both arrays must outlive m. */
+int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *opened, const ls_tie *ties);
 /* Re-stamp the values after part values changed.  When every entry lands in
  * the pattern of the last assembly and fills all of it, the values are summed
  * straight into m->a (same arrays, same pattern, the same numbers compression

@@ -35,14 +35,14 @@ typedef struct ls_node {
 
 /* Analysis state, written by the operating-point iteration (analysis.c,
  * newton.c) and read by the stamps, so every analysis that re-stamps the
- * system (ports, sag, sens) sees the circuit linearized at its solution.
+ * system (ports, sag, influence) sees the circuit linearized at its solution.
  * Only sources, op-amps, junctions, thermistors and ADC inputs have one. */
 typedef struct ls_part_run {
     double op_v;           /* junction: voltage (V, anode -> cathode) the companion model is stamped at */
     double op_t;           /* ntc: body temperature (degC) its resistance is stamped at */
     double heat_t, heat_f; /* ntc: the previous temperature and its image (secant on self-heating) */
-    double shunt_s;        /* gmin stepping: extra conductance (S) across a junction */
-    double src_cut;        /* source stepping: fraction of a source's value left out (0 = all of it) */
+    double shunt_s;        /* shrinking junction shunts: extra conductance (S) across a junction */
+    double src_cut;        /* ramping the sources: fraction of a source's value left out (0 = all of it) */
     int state;             /* op-amp: LS_LIM_* in force */
     int side;              /* op-amp: 1 while sinking (its current returns into the lower rail) */
     int releases;          /* op-amp: times a rail was let go (positive feedback shows as repeats) */

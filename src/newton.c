@@ -8,9 +8,9 @@
  * linear: each has a limit in force (none, a rail, the current limit) and the
  * loop switches limits that the solution contradicts (an active-set
  * iteration) until every one is consistent.  When plain Newton does not
- * settle, gmin stepping (a shunt across every junction, shrunk decade by
- * decade) and then source stepping (every independent source ramped up from
- * zero) are tried.  Every solve reuses the one solver: the pattern of the
+ * settle, shrinking junction shunts (a conductance across every junction,
+ * shrunk decade by decade) and then ramping the sources (every independent
+ * source raised from zero) are tried.  Every solve reuses the one solver: the pattern of the
  * matrix does not change, so its symbolic analysis is done once. */
 #include "newton.h"
 
@@ -266,7 +266,7 @@ static run_status run(ls_op *op, int max_it, bool *moving)
             if (update_opamps(op, one, moving) == 0 && probe_rails(op, moving) == 0) {
                 /* Settled: the last solve was stamped within tolerance of the
                  * solution; stamp exactly there so the stored system is the
-                 * one the port, sag and sens analyses linearize about. */
+                 * one the port, sag and influence analyses linearize about. */
                 return step(op);
             }
         }
@@ -441,8 +441,8 @@ static void report_noconv(ls_op *op, const bool *moving)
         heat |= moving[i] && strcmp(nl->parts[i].kind->name, "ntc") == 0;
     }
     ls_error(nl->diags, at,
-             "the circuit cannot be solved: the operating point did not converge in %d iterations (Newton, gmin "
-             "stepping and source stepping tried); %s%s%s",
+             "the circuit cannot be solved: the operating point did not converge in %d iterations (Newton, "
+             "shrinking junction shunts and ramping the sources tried); %s%s%s",
              op->iterations, n ? "parts that did not settle: " : "no part settled on a consistent state", names,
              heat     ? " (thermal runaway? a thermistor whose self-heating does not settle heats itself faster than "
                         "its dissipation constant sheds the heat; limit its current)"

@@ -1,6 +1,6 @@
 /* newton.h — the operating point of circuits with real parts: Newton-Raphson
  * for junctions and self-heating, the active-set iteration for op-amp limits,
- * the gmin- and source-stepping fall-backs; ratings and cautions; ADC inputs.
+ * the fall-backs (shrinking junction shunts, ramping the sources); ratings and cautions; ADC inputs.
  * Internal to the library (analysis.c calls it). */
 #ifndef LS_NEWTON_H
 #define LS_NEWTON_H

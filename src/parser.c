@@ -517,15 +517,15 @@ static ls_stmt *parse_part(parser *p, const ls_kind *k)
     return s;
 }
 
-/* param -> 'param' NAME '=' sum */
-static ls_stmt *parse_param(parser *p)
+/* let -> 'let' NAME '=' sum */
+static ls_stmt *parse_let(parser *p)
 {
     ls_stmt *s = new_stmt(p, S_PARAM);
     advance(p);
-    if (!s || !expect_ident(p, "a parameter name", &s->name, &s->name_loc))
+    if (!s || !expect_ident(p, "a name for the let", &s->name, &s->name_loc))
         return NULL;
     if (p->tok.kind != T_EQ) {
-        expected(p, "'=' after the parameter name");
+        expected(p, "'=' after the let's name");
         return NULL;
     }
     advance(p);
@@ -686,7 +686,7 @@ static const ls_kind *find_kind(parser *p, const ls_token *t)
     return k;
 }
 
-/* statement -> title | param | ground | include | block | use | expect | rule | part */
+/* statement -> title | let | ground | include | block | use | expect | rule | part */
 static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
 {
     ls_token kw = p->tok;
@@ -711,8 +711,13 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
             ls_error(p->d, kw.loc, "'title' belongs at the top level, not inside a block");
             s = NULL;
         }
+    } else if (is_word(&kw, "let")) {
+        s = parse_let(p);
     } else if (is_word(&kw, "param")) {
-        s = parse_param(p);
+        /* the earlier spelling: say so, then read the statement as a let so
+         * that its name does not cause follow-on errors */
+        ls_error(p->d, kw.loc, "'param' is now spelled 'let' (let NAME = VALUE)");
+        s = parse_let(p);
     } else if (is_word(&kw, "ground")) {
         s = new_stmt(p, S_GROUND);
         advance(p);

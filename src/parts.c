@@ -104,7 +104,7 @@ static void branch_rise(ls_sink *s, int from, int to, int k)
     ls_sink_a(s, k, from, -1);
 }
 
-/* Scale of a source's value during source stepping. */
+/* Scale of a source's value while the sources are ramped up. */
 static double src_scale(const ls_part *p)
 {
     return 1 - p->run->src_cut;
@@ -180,7 +180,7 @@ static void two_edge(const ls_part *p, void *ctx, ls_edge_fn emit)
 static void vsource_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     int f = N(p, 0), t = N(p, 1), k = p->branch;
-    double rs = ls_part_opt(p, "rs", 0);
+    double rs = ls_part_opt(p, "rint", 0);
     if (c->derivative) {
         ls_sink_b(c->sink, k, 1);
         return;
@@ -194,7 +194,7 @@ static void vsource_stamp(const ls_part *p, ls_stamp_ctx *c)
 
 static void vsource_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 {
-    emit(ctx, p->pin[0], p->pin[1], ls_part_opt(p, "rs", 0) == 0, -1);
+    emit(ctx, p->pin[0], p->pin[1], ls_part_opt(p, "rint", 0) == 0, -1);
 }
 
 static void isource_stamp(const ls_part *p, ls_stamp_ctx *c)
@@ -224,6 +224,13 @@ static void port_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (c->derivative)
         return;
     int f = N(p, 0), t = N(p, 1), k = p->branch;
+    if (c->buffered) {
+        /* V(t) = V(f), with the current entering t from nowhere (sag's "alone") */
+        ls_sink_a(c->sink, t, k, -1);
+        ls_sink_a(c->sink, k, f, 1);
+        ls_sink_a(c->sink, k, t, -1);
+        return;
+    }
     branch_kcl(c->sink, f, t, k);
     if (c->removed) {
         branch_open(c->sink, k);
@@ -556,7 +563,7 @@ static void opamp_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
  * exponentials go on as straight lines, so no current overflows; a solution
  * out there is reported as one that cannot be solved.  The companion model
  * stamped at op_v is the conductance g = dI/dv in parallel with the current
- * I(op_v) - g op_v; LS_GMIN and the gmin-stepping shunt sit across it. */
+ * I(op_v) - g op_v; LS_GMIN and the shrinking junction shunt sit across it. */
 
 typedef struct junction {
     double is, nvt;        /* forward term */
@@ -569,21 +576,21 @@ static junction junction_of(const ls_part *p)
 {
     junction j = {0};
     const char *k = p->kind->name;
-    double n = ls_part_opt(p, "n", strcmp(k, "led") == 0 ? 2 : 1);
-    j.rs = ls_part_opt(p, "rs", 0);
+    double n = ls_part_opt(p, "ideality", strcmp(k, "led") == 0 ? 2 : 1);
+    j.rs = ls_part_opt(p, "rbulk", 0);
     j.nvt = n * LS_THERMAL_VOLTAGE;
     if (strcmp(k, "led") == 0) {
         double vf = ls_part_opt(p, "vf", 2), at = ls_part_opt(p, "at", 20e-3);
         j.is = at / expm1(fmax((vf - at * j.rs) / j.nvt, 1e-3));
     } else if (strcmp(k, "zener") == 0) {
         double at = ls_part_opt(p, "at", 5e-3);
-        j.is = ls_part_opt(p, "is", 1e-14);
+        j.is = ls_part_opt(p, "isat", 1e-14);
         j.nvt = LS_THERMAL_VOLTAGE;
         j.ib0 = at;
         j.nbvt = n * LS_THERMAL_VOLTAGE;
         j.vbd = ls_part_opt(p, "vz", 5) - at * j.rs;
     } else {
-        j.is = ls_part_opt(p, "is", 1e-14);
+        j.is = ls_part_opt(p, "isat", 1e-14);
     }
     return j;
 }
@@ -631,10 +638,10 @@ double ls_junction_v(const ls_part *p, const double *x)
     return xval(x, an) - xval(x, N(p, 1));
 }
 
-/* With rs= the junction's anode side is an internal unknown (one branch). */
+/* With rbulk= the junction's anode side is an internal unknown (one branch). */
 static int junction_branches(const ls_part *p)
 {
-    return ls_part_opt(p, "rs", 0) > 0 ? 1 : 0;
+    return ls_part_opt(p, "rbulk", 0) > 0 ? 1 : 0;
 }
 
 /* Companion model at op_v; removed: open (the internal unknown pinned). */
@@ -816,7 +823,7 @@ double ls_ntc_r(const ls_part *p, double t_c)
 
 double ls_ntc_body(const ls_part *p)
 {
-    return ls_part_has(p, ls_kind_opt(p->kind, "dissipation")) ? p->run->op_t : ls_part_opt(p, "temp", 25);
+    return ls_part_has(p, ls_kind_opt(p->kind, "dissipation")) ? p->run->op_t : ls_part_opt(p, "celsius", 25);
 }
 
 /* The conductance at the body temperature; derivative: d/d r25. */
@@ -850,7 +857,7 @@ static bool ntc_nonlinear(const ls_part *p)
 
 static void ntc_init(ls_part *p)
 {
-    p->run->op_t = ls_part_opt(p, "temp", 25);
+    p->run->op_t = ls_part_opt(p, "celsius", 25);
     p->run->heat_t = p->run->heat_f = NAN;
 }
 
@@ -862,7 +869,7 @@ static void ntc_init(ls_part *p)
 static bool ntc_update(ls_part *p, const double *x)
 {
     double v = xval(x, N(p, 0)) - xval(x, N(p, 1)), t = p->run->op_t;
-    double f = ls_part_opt(p, "temp", 25) + v * v / ls_ntc_r(p, t) / ls_part_opt(p, "dissipation", 1);
+    double f = ls_part_opt(p, "celsius", 25) + v * v / ls_ntc_r(p, t) / ls_part_opt(p, "dissipation", 1);
     double w = 1;
     if (isfinite(p->run->heat_t) && t != p->run->heat_t) {
         double slope = (f - p->run->heat_f) / (t - p->run->heat_t);
@@ -967,6 +974,8 @@ static void adc_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
     {"tol", OPT_VALUE, LS_FREE, OPTF_NONNEG, -1, NULL},          \
     {"rating", OPT_VALUE, LS_WATT, OPTF_POSITIVE, -1, NULL}
 #define NCOMMON 2
+/* Earlier spellings of the junction options, each answered with its new name. */
+#define JUNCTION_RENAMED {{"is", "isat"}, {"n", "ideality"}, {"rs", "rbulk"}}
 
 static const ls_kind kinds[] = {
     {.name = "resistor", .shape = SHAPE_TWO, .doc = "resistor FROM -> TO VALUE [rating=W vmax=V]",
@@ -975,9 +984,10 @@ static const ls_kind kinds[] = {
                                    {"vmax", OPT_VALUE, LS_VOLT, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2,
      .branches = no_branch, .stamp = resistor_stamp, .current = resistor_current, .edges = two_edge},
-    {.name = "voltage", .has_run = true, .shape = SHAPE_TWO, .doc = "voltage FROM -> TO VALUE [rs=R]  (V(TO) - V(FROM) = VALUE)",
+    {.name = "voltage", .has_run = true, .shape = SHAPE_TWO, .doc = "voltage FROM -> TO VALUE [rint=R]  (V(TO) - V(FROM) = VALUE)",
      .value_slot = true, .value_dims = LS_VOLT, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
-     .opts = {COMMON_OPTS, {"rs", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL}}, .nopts = NCOMMON + 1,
+     .opts = {COMMON_OPTS, {"rint", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL}}, .nopts = NCOMMON + 1,
+     .renamed = {{"rs", "rint"}},
      .npins = 2, .branches = one_branch, .stamp = vsource_stamp, .current = current_branch,
      .edges = vsource_edges},
     {.name = "current", .has_run = true, .shape = SHAPE_TWO, .doc = "current FROM -> TO VALUE  (VALUE flows FROM -> TO through it)",
@@ -1035,35 +1045,38 @@ static const ls_kind kinds[] = {
               {"iq", OPT_VALUE, LS_AMP, OPTF_NONNEG, -1, NULL}},
      .nopts = NCOMMON + 14, .npins = 3, .branches = one_branch, .stamp = opamp_stamp,
      .current = current_branch, .edges = opamp_edges},
-    {.name = "diode", .has_run = true, .shape = SHAPE_TWO, .doc = "diode ANODE -> CATHODE [is=A n=N rs=R imax=A]",
+    {.name = "diode", .has_run = true, .shape = SHAPE_TWO, .doc = "diode ANODE -> CATHODE [isat=A ideality=N rbulk=R imax=A]",
      .vsign = VSIGN_DROP,
-     .opts = {COMMON_OPTS, {"is", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
-              {"n", OPT_VALUE, LS_FREE, OPTF_POSITIVE, -1, NULL},
-              {"rs", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL},
+     .opts = {COMMON_OPTS, {"isat", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
+              {"ideality", OPT_VALUE, LS_FREE, OPTF_POSITIVE, -1, NULL},
+              {"rbulk", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL},
               {"imax", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 4, .npins = 2, .branches = junction_branches, .stamp = junction_stamp,
-     .current = junction_current, .edges = junction_edges, .is_nonlinear = always, .init = junction_init,
+     .current = junction_current, .edges = junction_edges, .renamed = JUNCTION_RENAMED,
+     .is_nonlinear = always, .init = junction_init,
      .update = junction_update},
-    {.name = "led", .has_run = true, .shape = SHAPE_TWO, .doc = "led ANODE -> CATHODE vf=V [at=A n=N rs=R imax=A]",
+    {.name = "led", .has_run = true, .shape = SHAPE_TWO, .doc = "led ANODE -> CATHODE vf=V [at=A ideality=N rbulk=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"vf", OPT_VALUE, LS_VOLT, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"at", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
-              {"n", OPT_VALUE, LS_FREE, OPTF_POSITIVE, -1, NULL},
-              {"rs", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL},
+              {"ideality", OPT_VALUE, LS_FREE, OPTF_POSITIVE, -1, NULL},
+              {"rbulk", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL},
               {"imax", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 5, .npins = 2, .branches = junction_branches, .stamp = junction_stamp,
-     .current = junction_current, .edges = junction_edges, .is_nonlinear = always, .init = junction_init,
+     .current = junction_current, .edges = junction_edges, .renamed = JUNCTION_RENAMED,
+     .is_nonlinear = always, .init = junction_init,
      .update = junction_update},
-    {.name = "zener", .has_run = true, .shape = SHAPE_TWO, .doc = "zener ANODE -> CATHODE vz=V [at=A n=N is=A rs=R imax=A]",
+    {.name = "zener", .has_run = true, .shape = SHAPE_TWO, .doc = "zener ANODE -> CATHODE vz=V [at=A ideality=N isat=A rbulk=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"vz", OPT_VALUE, LS_VOLT, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"at", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
-              {"n", OPT_VALUE, LS_FREE, OPTF_POSITIVE, -1, NULL},
-              {"is", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
-              {"rs", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL},
+              {"ideality", OPT_VALUE, LS_FREE, OPTF_POSITIVE, -1, NULL},
+              {"isat", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
+              {"rbulk", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL},
               {"imax", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 6, .npins = 2, .branches = junction_branches, .stamp = junction_stamp,
-     .current = junction_current, .edges = junction_edges, .is_nonlinear = always, .init = junction_init,
+     .current = junction_current, .edges = junction_edges, .renamed = JUNCTION_RENAMED,
+     .is_nonlinear = always, .init = junction_init,
      .update = junction_update},
     {.name = "pot", .shape = SHAPE_PINNED, .doc = "pot NAME TOTAL a=A wiper=W b=B [at=0..1]",
      .value_slot = true, .value_dims = LS_OHM, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE, .vsign = VSIGN_DROP,
@@ -1073,15 +1086,16 @@ static const ls_kind kinds[] = {
               {"at", OPT_VALUE, LS_FREE, OPTF_FRACTION, -1, NULL}},
      .nopts = NCOMMON + 4, .npins = 3, .branches = no_branch, .stamp = pot_stamp, .current = pot_current,
      .edges = pot_edges, .results = pot_results},
-    {.name = "ntc", .has_run = true, .shape = SHAPE_TWO, .doc = "ntc FROM -> TO r25=R beta=K [temp=degC dissipation=W/K]",
+    {.name = "ntc", .has_run = true, .shape = SHAPE_TWO, .doc = "ntc FROM -> TO r25=R beta=K [celsius=degC dissipation=W/K]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"r25", OPT_VALUE, LS_OHM, OPTF_MAIN | OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"beta", OPT_VALUE, LS_FREE, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
-              {"temp", OPT_VALUE, LS_FREE, 0, -1, NULL},
+              {"celsius", OPT_VALUE, LS_FREE, 0, -1, NULL},
               {"dissipation", OPT_VALUE, LS_WATT, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 4, .npins = 2, .branches = no_branch, .stamp = ntc_stamp, .current = ntc_current,
-     .edges = two_edge, .is_nonlinear = ntc_nonlinear, .init = ntc_init, .update = ntc_update},
-    {.name = "switch", .shape = SHAPE_TWO, .doc = "switch FROM -> TO state=open|closed|PARAM [ron=R roff=R]",
+     .edges = two_edge, .renamed = {{"temp", "celsius"}},
+     .is_nonlinear = ntc_nonlinear, .init = ntc_init, .update = ntc_update},
+    {.name = "switch", .shape = SHAPE_TWO, .doc = "switch FROM -> TO state=open|closed|LET [ron=R roff=R]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"state", OPT_WORD, LS_FREE, OPTF_REQUIRED, -1, "open|closed"},
               {"ron", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL},
@@ -1101,7 +1115,7 @@ static const ls_kind kinds[] = {
      .edges = adc_edges, .results = adc_results},
 };
 
-static const char *const keywords[] = {"title", "param", "ground", "include", "block",
+static const char *const keywords[] = {"title", "let", "ground", "include", "block",
                                        "use", "expect", "rule", "end"};
 
 int ls_kind_count(void) { return (int)(sizeof kinds / sizeof kinds[0]); }
@@ -1126,6 +1140,22 @@ int ls_kind_opt(const ls_kind *k, const char *name)
         if (strcmp(k->opts[i].name, name) == 0)
             return i;
     return -1;
+}
+
+ls_dims ls_kind_main_dims(const ls_kind *k)
+{
+    for (int i = 0; i < k->nopts; i++)
+        if (k->opts[i].flags & OPTF_MAIN)
+            return k->opts[i].dims;
+    return k->value_dims;
+}
+
+const char *ls_kind_renamed(const ls_kind *k, const char *name)
+{
+    for (int i = 0; i < LS_MAX_RENAMED && k->renamed[i].old; i++)
+        if (strcmp(k->renamed[i].old, name) == 0)
+            return k->renamed[i].now;
+    return NULL;
 }
 
 int ls_edit_distance(const char *a, const char *b)

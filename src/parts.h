@@ -66,6 +66,7 @@ typedef struct ls_stamp_ctx {
     const ls_netlist *nl;
     ls_sink *sink;
     bool removed;          /* stamp the part as removed (opened / set to zero) */
+    bool buffered;         /* a port: its load side gets the driver's voltage, the driver supplies nothing */
     bool derivative;       /* stamp d/d(main value) instead of the value */
 } ls_stamp_ctx;
 
@@ -76,6 +77,8 @@ typedef enum ls_vsign { VSIGN_DROP, VSIGN_RISE, VSIGN_OUT } ls_vsign;
 
 /* Topology: conductive edges (DC paths) and voltage-defined edges. */
 typedef void (*ls_edge_fn)(void *ctx, int a, int b, bool voltage_defined, int part);
+
+#define LS_MAX_RENAMED 4
 
 typedef struct ls_kind {
     const char *name;
@@ -90,6 +93,9 @@ typedef struct ls_kind {
     bool has_run;                /* keeps analysis state (ls_part.run): sources, op-amps, junctions, ... */
     ls_optdef opts[LS_MAX_OPTS];
     int nopts;
+    /* Options that were spelled differently before; naming one is an error
+     * that gives the new name.  Unused slots have old == NULL. */
+    struct { const char *old, *now; } renamed[LS_MAX_RENAMED];
     int npins;                   /* SHAPE_TWO: 2 + node options */
     int (*branches)(const ls_part *p);
     void (*stamp)(const ls_part *p, ls_stamp_ctx *c);
@@ -114,6 +120,10 @@ const ls_kind *ls_kind_findn(const char *name, size_t n);
 const char *ls_kind_suggest(const char *name);
 int ls_kind_count(void);
 const ls_kind *ls_kind_at(int i);
+/* Unit of a kind's main value: its OPTF_MAIN option's, else the value slot's. */
+ls_dims ls_kind_main_dims(const ls_kind *k);
+/* The current name of an option that `name` used to spell, or NULL. */
+const char *ls_kind_renamed(const ls_kind *k, const char *name);
 /* Index of option `name` in the kind, or -1. */
 int ls_kind_opt(const ls_kind *k, const char *name);
 
@@ -148,7 +158,7 @@ double ls_junction_current(const ls_part *p, double vj, bool *beyond);
 double ls_junction_v(const ls_part *p, const double *x);
 /* Thermistor resistance (ohm) at temperature t_c (degC), by the Beta equation. */
 double ls_ntc_r(const ls_part *p, double t_c);
-/* Thermistor body temperature (degC): temp=, plus self-heating when solved with dissipation=. */
+/* Thermistor body temperature (degC): celsius=, plus self-heating when solved with dissipation=. */
 double ls_ntc_body(const ls_part *p);
 
 #define LS_JUNCTION_IMAX 1e3     /* A: past this the exponential is continued linearly */

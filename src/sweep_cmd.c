@@ -1,8 +1,8 @@
-/* sweep_cmd.c — the sweep command: a top-level param stepped from FROM to TO,
+/* sweep_cmd.c — the sweep command: a top-level let stepped from FROM to TO,
  * the quantities tabulated at every point (text, CSV, JSON) and drawn.
  *
- * Each point re-elaborates the circuit with `--set PARAM=value` added, so a
- * param may change anything it feeds (values, options, even which parts a
+ * Each point re-elaborates the circuit with `--set LET=value` added, so a
+ * let may change anything it feeds (values, options, even which parts a
  * block builds).  Points are solved in order, FROM first, each continuing from
  * the previous point's solution when the structure is unchanged; a point that
  * does not solve is reported as null and the sweep goes on. */
@@ -118,7 +118,7 @@ static int check_arg_units(sweep *w, ls_diags *d)
             w->xdims = ad;
         } else if (!ls_dims_eq(ad, w->xdims)) {
             char b1[64], b2[64];
-            ls_error(d, LS_NOLOC, "sweep: %s '%s' is %s, but param '%s' is %s", i == 2 ? "FROM" : "TO",
+            ls_error(d, LS_NOLOC, "sweep: %s '%s' is %s, but let '%s' is %s", i == 2 ? "FROM" : "TO",
                      w->cli->pos[i], ls_dims_name(ad, b1, sizeof b1), w->param, ls_dims_name(w->xdims, b2, sizeof b2));
             return LS_EXIT_USAGE;
         }
@@ -127,7 +127,7 @@ static int check_arg_units(sweep *w, ls_diags *d)
 }
 
 /* Load the circuit as given (the user's --set list) and bind the quantities:
- * PARAM must be a top-level param.  Records the units; prints the
+ * LET must be a top-level let.  Records the units; prints the
  * diagnostics (so warnings appear once).  Returns an exit code. */
 static int probe(sweep *w)
 {
@@ -136,7 +136,7 @@ static int probe(sweep *w)
     if (code == LS_EXIT_OK) {
         int e = ls_hash_get(&s.nl.names, w->param);
         if (e < 0 || s.nl.ents[e].kind != ENT_PARAM) {
-            ls_error(&s.diags, LS_NOLOC, "sweep: the circuit has no top-level param '%s' (declare it with 'param %s = ...')",
+            ls_error(&s.diags, LS_NOLOC, "sweep: the circuit has no top-level let '%s' (declare it with 'let %s = ...')",
                      w->param, w->param);
             code = LS_EXIT_USAGE;
         } else {
@@ -264,10 +264,10 @@ static void solve_point(sweep *w, int i)
 /* Value of quantity k at point i (NaN when not solved). */
 static double yat(const sweep *w, int i, int k) { return w->y[(size_t)i * (size_t)w->nq + (size_t)k]; }
 
-/* The sweep as one JSON object: the param, then one object per point. */
+/* The sweep as one JSON object: the let, then one object per point. */
 static void sweep_json(FILE *o, const sweep *w)
 {
-    fputs("{\"param\": ", o);
+    fputs("{\"let\": ", o);
     ls_json_string(o, w->param);
     fputs(",\n \"points\": [", o);
     for (int i = 0; i < w->steps; i++) {

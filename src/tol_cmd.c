@@ -530,15 +530,6 @@ static const char *corner_word(char *b, size_t n, const vary *v, unsigned long m
     return b;
 }
 
-/* Unit of a kind's main value: its OPTF_MAIN option's, else the value slot's. */
-static ls_dims main_dims(const ls_kind *k)
-{
-    for (int i = 0; i < k->nopts; i++)
-        if (k->opts[i].flags & OPTF_MAIN)
-            return k->opts[i].dims;
-    return k->value_dims;
-}
-
 /* Print s right-aligned in w columns after a space, counting UTF-8 code points. */
 static void rpad(FILE *o, const char *s, int w)
 {
@@ -585,7 +576,7 @@ static void tol_text(FILE *o, ls_report *rp, const tol_ctx *t)
         } else if (!r->corners && lin > 0) {
             snprintf(c1, sizeof c1, "%.1f%%", 100 * t->v[j].dev / lin);
         }
-        ls_eng(rp, vb, sizeof vb, t->v[j].nominal, ls_unit_of(main_dims(p->kind), t->cli->ascii));
+        ls_eng(rp, vb, sizeof vb, t->v[j].nominal, ls_unit_of(ls_kind_main_dims(p->kind), t->cli->ascii));
         fprintf(o, "  %-20s %-9s", p->name, p->kind->name);
         rpad(o, vb, 14);
         if (r->corners)

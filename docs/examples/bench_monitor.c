@@ -40,11 +40,11 @@ static ls_port_verdict show_port(ls_circuit *c, const char *name)
     return p.verdict;
 }
 
-/* The three parts that move the ADC reading most, by sag and by sensitivity. */
+/* The three parts that move the ADC reading most, by sag and by influence. */
 static void explain(ls_circuit *c)
 {
     ls_sag_entry *sag = NULL;
-    ls_sens_entry *sens = NULL;
+    ls_influence_entry *inf = NULL;
     int n = 0;
     double v = 0;
     if (ls_circuit_sag(c, "tap", &v, &sag, &n) == LS_OK) {
@@ -54,12 +54,12 @@ static void explain(ls_circuit *c)
                    sag[i].without, sag[i].delta);
     }
     ls_free(sag);
-    if (ls_circuit_sens(c, "adc", &v, &sens, &n) == LS_OK) {
-        printf("sensitivity of adc (%.4f V):\n", v);
+    if (ls_circuit_influence(c, "adc", &v, &inf, &n) == LS_OK) {
+        printf("influence on adc (%.4f V):\n", v);
         for (int i = 0; i < n && i < 3; i++)
-            printf("  %-6s normalized %+.4f\n", sens[i].part, sens[i].normalized);
+            printf("  %-6s %+.4f %% per %%\n", inf[i].part, inf[i].percent_per_percent);
     }
-    ls_free(sens);
+    ls_free(inf);
 }
 
 int main(int argc, char **argv)

@@ -78,7 +78,7 @@ typedef struct ls_diagnostic {
 
 /* Parse and elaborate the circuit file at `path`.
  *   path   in: the .stack file; includes resolve relative to it.
- *   sets   in: nsets strings "NAME=VALUE" overriding top-level params (as
+ *   sets   in: nsets strings "NAME=VALUE" overriding top-level lets (as
  *          --set does); may be NULL when nsets is 0.  Copied; the caller keeps them.
  *   out    out: the new circuit, even on LS_E_CIRCUIT or LS_E_IO, so the caller
  *          can walk the diagnostics; NULL on LS_E_NOMEM and LS_E_ARGUMENT.  The
@@ -245,17 +245,51 @@ ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks
 
 /* ---- analyses ----------------------------------------------------------------------------- */
 
-/* Sag: what each port or part does to a node.  Every part and port is removed
+/* Sag by connection (`loadstack sag`): with every port opened (each stage
+ * alone; the stage after a port still sees its driver's voltage) the node sits
+ * at `alone`; each port's share is its part of alone - voltage, I_p times the
+ * transfer resistance Z(node, driver) - Z(node, load) in that network, or,
+ * where a limit or junction changes state, its Shapley value over exact solves.
+ * Parts that set the node (a divider's legs) are never ranked: only ports are. */
+typedef struct ls_sag_share {
+    const char *port;         /* port name */
+    double current;           /* A, driver -> load */
+    double transfer;          /* ohm; NaN when undefined */
+    double share;             /* V of the sag; NaN when undefined */
+    double share_rel;         /* share / sag; NaN when the sag is zero */
+} ls_sag_share;
+
+typedef struct ls_sag_info {
+    double voltage;           /* V, everything connected */
+    double alone;             /* V, every port opened; NaN when undefined */
+    double sag;               /* alone - voltage */
+    double interaction;       /* sag - sum of the shares (the nonlinear remainder) */
+    int shapley;              /* 1: the shares are Shapley values over exact solves; 0: substitution */
+    const char *culprit;      /* the port with the largest share in the sag's direction, or NULL */
+} ls_sag_info;
+
+/* Sag by connection at node `node`.
+ *   info out: the summary.
+ *   shares out: *n entries, one per port, largest |share| first; the caller
+ *          frees the array with ls_free.
+ * Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED or LS_E_NOMEM. */
+ls_status ls_circuit_sag_ports(ls_circuit *c, const char *node, ls_sag_info *info, ls_sag_share **shares, int *n);
+
+/* The what-if table (`loadstack sag --what-if`): every part and port removed
  * in turn (a port opened, a resistor opened, a source set to zero) and the
- * node's voltage without it recorded. */
+ * node's voltage without it recorded; a row whose linear estimate crosses a
+ * limit is re-solved exactly with every limit active. */
 typedef struct ls_sag_entry {
     const char *name;         /* part or port name */
     int is_port;
     double without;           /* V at the node without it; NaN when the circuit is then unsolvable */
     double delta;             /* without - voltage; NaN likewise */
+    int beyond_limit;         /* the linear estimate crossed a limit: without is the exact re-solve, or
+                                 (a circuit with no limit to stop it) an estimate beyond every voltage of
+                                 the circuit, not a physical value */
 } ls_sag_entry;
 
-/* Sag analysis at node `node`.
+/* The what-if table at node `node`.
  *   voltage out (may be NULL): the node's loaded voltage, V.
  *   entries out: *n entries sorted by |delta|, largest first (ties in circuit
  *          order), unsolvable ones last; the caller frees the array with ls_free.
@@ -271,22 +305,23 @@ typedef struct ls_thevenin_info {
 
 ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info *out);
 
-/* Sensitivity of a quantity to one part's main value (adjoint method). */
-typedef struct ls_sens_entry {
+/* How much one part's main value moves a quantity (adjoint method). */
+typedef struct ls_influence_entry {
     const char *part;
-    double nominal;           /* the part's main value */
-    double derivative;        /* dQ/dp, in Q's unit per the part's unit */
-    double normalized;        /* (p/Q) dQ/dp; NaN when Q = 0 */
-} ls_sens_entry;
+    double part_value;            /* the part's main value */
+    double per_unit;              /* dQ/dp, in Q's unit per the part's unit */
+    double percent_per_percent;   /* (p/Q) dQ/dp: % change of Q per 1 % of p; NaN when Q = 0 */
+} ls_influence_entry;
 
-/* Sensitivities of `quantity` (as in ls_circuit_eval) to every part with a
- * main value.
+/* The influence of every part with a main value on `quantity` (as in
+ * ls_circuit_eval).
  *   value out (may be NULL): the quantity's value.
- *   entries out: *n entries sorted by |normalized|, largest first; caller
+ *   entries out: *n entries sorted by |percent_per_percent|, largest first; caller
  *          frees with ls_free.
  * Returns LS_OK, LS_E_CIRCUIT (bad quantity, see the diagnostics),
  * LS_E_NOT_SOLVED or LS_E_NOMEM. */
-ls_status ls_circuit_sens(ls_circuit *c, const char *quantity, double *value, ls_sens_entry **entries, int *n);
+ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *value, ls_influence_entry **entries,
+                               int *n);
 
 /* Change part `name`'s main value (ohm for a resistor, V for a voltage
  * source, ...) and re-solve with the same structure; port reports are
@@ -298,7 +333,7 @@ ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value);
 /* Sweeps and tolerance studies: the program's `sweep` and `tol` commands have
  * no library form yet.  A caller sweeps a part's value with
  * ls_circuit_set_value (one refactorization per point, the structure kept),
- * and a param by parsing again with a "NAME=VALUE" setting per point. */
+ * and a let by parsing again with a "NAME=VALUE" setting per point. */
 
 /* Release an array returned by this library (NULL is fine). */
 void ls_free(void *p);

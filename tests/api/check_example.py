@@ -9,7 +9,7 @@ circuit, docs/examples/bench_monitor.stack:
 Closed forms used (series/parallel reduction and the voltage-divider rule;
 Thevenin's theorem for zout and rth; the sensitivities by central finite
 differences of the same closed form).  The sag and sensitivity lines must
-also agree with the program's own `sag` and `sens` reports in JSON, since
+also agree with the program's own `sag` and `influence` reports in JSON, since
 the library and the program compute them separately.
 Usage: check_example.py EXE STACK LOADSTACK
 """
@@ -64,34 +64,34 @@ def main():
     near("zin", num(r"zin (\S+) ohm"), RADC, 1e-4)
     near("ratio", num(r"ratio (\S+): loading"), RADC / zout, 1e-3)
     near("rth", num(r"behind (\S+) ohm"), par(rlo, RADC, rhi + par(RS, RDUT)), 1e-4)
-    # normalized sensitivities (p/Q) dQ/dp by central differences
+    # influence in % per % ((p/Q) dQ/dp) by central differences
     h = 1e-6
     for name, f, p in (("r_hi", lambda x: tap(x, rlo)[0], rhi), ("r_lo", lambda x: tap(rhi, x)[0], rlo)):
         d = (f(p * (1 + h)) - f(p * (1 - h))) / (2 * p * h)
-        near(f"sens {name}", num(rf"\n  {name}\s+normalized (\S+)"), p / vtap * d, 1e-3)
+        near(f"influence {name}", num(rf"\n  {name}\s+(\S+) % per %"), p / vtap * d, 1e-3)
     # the divider ten times stiffer
     zout2 = par(2.2e3, 10e3 + par(RS, RDUT))
     near("stiff ratio", num(r"ratio (\S+): ok"), RADC / zout2, 1e-3)
     near("stiff loaded", num(r"with r_hi = 10k[^\n]*\n[^\n]*loaded (\S+) V"), tap(10e3, 2.2e3)[0], 2e-4)
     if len(sys.argv) > 3:
         cli = sys.argv[3]
-        sag = json.loads(subprocess.run([cli, "sag", stack, "tap", "--format", "json"], capture_output=True,
-                                        text=True, timeout=60).stdout)
+        sag = json.loads(subprocess.run([cli, "sag", stack, "tap", "--what-if", "--format", "json"],
+                                        capture_output=True, text=True, timeout=60).stdout)
         lines = re.findall(r"\n  without (\S+) +(?:\(port\))? *(\S+) V \(delta ([-+]\S+) V\)", out)
         if len(lines) != 3:
             fails.append(f"{len(lines)} sag lines, want 3")
-        for (name, without, delta), item in zip(lines, sag["items"]):
+        for (name, without, delta), item in zip(lines, sag["what_if"]):
             if name != item["name"]:
                 fails.append(f"sag order: example has {name}, loadstack sag has {item['name']}")
             near(f"sag without {name}", float(without), item["without"], 2e-4)
             near(f"sag delta {name}", float(delta), item["delta"], 2e-4)
-        sens = json.loads(subprocess.run([cli, "sens", stack, "adc", "--format", "json"], capture_output=True,
+        inf = json.loads(subprocess.run([cli, "influence", stack, "adc", "--format", "json"], capture_output=True,
                                          text=True, timeout=60).stdout)
-        got = re.findall(r"\n  (\S+) +normalized (\S+)", out)
-        for (name, norm), item in zip(got, sens["items"]):
+        got = re.findall(r"\n  (\S+) +(\S+) % per %", out)
+        for (name, norm), item in zip(got, inf["items"]):
             if name != item["part"]:
-                fails.append(f"sens order: example has {name}, loadstack sens has {item['part']}")
-            near(f"sens {name} against the program", float(norm), item["normalized"], 1e-3)
+                fails.append(f"influence order: example has {name}, loadstack influence has {item['part']}")
+            near(f"influence {name} against the program", float(norm), item["percent_per_percent"], 1e-3)
     if "checks: 2 of 2 pass" not in out:
         fails.append("the checks line is missing or wrong")
     if fails:

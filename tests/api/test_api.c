@@ -178,35 +178,65 @@ static void test_sag(void)
     ls_circuit_free(&c);
 }
 
+/* Sag by connection at mid of the loaded divider: every port opened, mid is
+ * 2.5 V; the one port's share is its current (100 uA) times the divider's
+ * Thevenin resistance 5k = 0.5 V, the whole sag (substitution theorem). */
+static void test_sag_ports(void)
+{
+    ls_circuit *c = solved(loaded, NULL);
+    if (!c)
+        return;
+    ls_sag_info info;
+    ls_sag_share *e = NULL;
+    int n = 0;
+    CU_ASSERT_EQUAL(ls_circuit_sag_ports(c, "mid", &info, &e, &n), LS_OK);
+    CU_ASSERT(REL(info.alone, 2.5, 1e-12));
+    CU_ASSERT(REL(info.sag, 0.5, 1e-12));
+    CU_ASSERT_EQUAL(info.shapley, 0);
+    CU_ASSERT_PTR_NOT_NULL(info.culprit);
+    if (info.culprit)
+        CU_ASSERT_STRING_EQUAL(info.culprit, "p");
+    CU_ASSERT_EQUAL(n, 1);
+    if (e && n == 1) {
+        CU_ASSERT(REL(e[0].current, 100e-6, 1e-12));
+        CU_ASSERT(REL(e[0].transfer, 5e3, 1e-12));
+        CU_ASSERT(REL(e[0].share, 0.5, 1e-12));
+        CU_ASSERT(REL(e[0].share_rel, 1.0, 1e-12));
+    }
+    ls_free(e);
+    CU_ASSERT_EQUAL(ls_circuit_sag_ports(c, "nowhere", &info, &e, &n), LS_E_NOT_FOUND);
+    ls_circuit_free(&c);
+}
+
 /* Divider out = V r2 / (r1 + r2): normalized sensitivities (p/Q) dQ/dp are
  * +1 to V, +r1/(r1+r2) to r2 and -r1/(r1+r2) to r1 (differentiating the
  * closed form); dQ/dr2 = V r1 / (r1+r2)^2. */
-static void test_sens(void)
+static void test_influence(void)
 {
     ls_circuit *c = solved(divider, NULL);
     if (!c)
         return;
-    ls_sens_entry *e = NULL;
+    ls_influence_entry *e = NULL;
     int n = 0;
     double q = 0;
-    CU_ASSERT_EQUAL(ls_circuit_sens(c, "mid", &q, &e, &n), LS_OK);
+    CU_ASSERT_EQUAL(ls_circuit_influence(c, "mid", &q, &e, &n), LS_OK);
     CU_ASSERT(REL(q, 10.0 * 4.7 / 14.7, 1e-12));
     CU_ASSERT_EQUAL(n, 3);
     int seen = 0;
     for (int i = 0; e && i < n; i++) {
         if (strcmp(e[i].part, "vs") == 0)
-            seen += REL(e[i].normalized, 1.0, 1e-9);
+            seen += REL(e[i].percent_per_percent, 1.0, 1e-9);
         if (strcmp(e[i].part, "r1") == 0)
-            seen += REL(e[i].normalized, -10 / 14.7, 1e-9);
+            seen += REL(e[i].percent_per_percent, -10 / 14.7, 1e-9);
         if (strcmp(e[i].part, "r2") == 0)
-            seen += REL(e[i].normalized, 10 / 14.7, 1e-9) && REL(e[i].derivative, 10 * 10e3 / (14.7e3 * 14.7e3), 1e-9);
+            seen += REL(e[i].percent_per_percent, 10 / 14.7, 1e-9) && REL(e[i].per_unit, 10 * 10e3 / (14.7e3 * 14.7e3), 1e-9);
     }
     CU_ASSERT_EQUAL(seen, 3);
     if (e && n == 3)
-        CU_ASSERT_STRING_EQUAL(e[0].part, "vs");   /* largest |normalized| first */
+        CU_ASSERT_STRING_EQUAL(e[0].part, "vs");   /* largest |percent_per_percent| first */
     ls_free(e);
     int before = ls_circuit_diag_count(c);
-    CU_ASSERT_EQUAL(ls_circuit_sens(c, "mid +", &q, &e, &n), LS_E_CIRCUIT);
+    CU_ASSERT_EQUAL(ls_circuit_influence(c, "mid +", &q, &e, &n), LS_E_CIRCUIT);
     CU_ASSERT(ls_circuit_diag_count(c) > before);
     ls_circuit_free(&c);
 }
@@ -232,7 +262,7 @@ static void test_set_value(void)
 /* --set style overrides: vset = 12 V makes the divider give 12 * 4.7/14.7. */
 static void test_settings(void)
 {
-    const char *text = "param vset = 5 V\nground gnd\nvoltage vs gnd -> top vset\n"
+    const char *text = "let vset = 5 V\nground gnd\nvoltage vs gnd -> top vset\n"
                        "resistor r1 top -> mid 10k\nresistor r2 mid -> gnd 4k7\n";
     const char *sets[] = {"vset=12V"};
     ls_circuit *c = NULL;
@@ -430,7 +460,8 @@ int main(void)
     CU_pSuite s = CU_add_suite("api", NULL, NULL);
     if (!s || !CU_add_test(s, "divider and Thevenin", test_divider_thevenin) ||
         !CU_add_test(s, "part results", test_parts) || !CU_add_test(s, "port loading", test_port_loading) ||
-        !CU_add_test(s, "sag", test_sag) || !CU_add_test(s, "sensitivity", test_sens) ||
+        !CU_add_test(s, "sag", test_sag) ||
+        !CU_add_test(s, "sag by connection", test_sag_ports) || !CU_add_test(s, "influence", test_influence) ||
         !CU_add_test(s, "set value", test_set_value) || !CU_add_test(s, "settings", test_settings) ||
         !CU_add_test(s, "diagnostics list", test_diagnostics) ||
         !CU_add_test(s, "warning", test_warning) || !CU_add_test(s, "missing file", test_missing_file) || !CU_add_test(s, "unsolvable", test_unsolvable) ||

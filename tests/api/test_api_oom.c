@@ -80,9 +80,9 @@ static void analyses(ls_circuit *c, long k)
             want(n == 5 && NEAR(v, 2.0) && NEAR(fabs(e[0].delta), 2.0) && NEAR(e[4].delta, 0.5), "sag", k);
         ls_free(e);
     }
-    ls_sens_entry *s = NULL;
-    if (ls_circuit_sens(c, "mid", &v, &s, &n) == LS_OK) {
-        want(n == 4 && NEAR(v, 2.0), "sens", k);
+    ls_influence_entry *s = NULL;
+    if (ls_circuit_influence(c, "mid", &v, &s, &n) == LS_OK) {
+        want(n == 4 && NEAR(v, 2.0), "influence", k);
         ls_free(s);
     }
     ls_check_info *ck = NULL;

@@ -15,8 +15,8 @@ mkdir sub
 touch notes.txt other.stack
 cat > chain.stack <<'STACK'
 title "Completion fixture"
-param vset = 5 V
-param r_load = 10k
+let vset = 5 V
+let r_load = 10k
 ground gnd
 voltage  vs   gnd -> top  vset
 resistor r1   top -> mid  10k
@@ -76,9 +76,9 @@ run_all() {
     expect "sag NODE" "$json_nodes" "$(complete_words sag chain.stack '')"
     expect "thevenin NODE m" "mid" "$(complete_words thevenin chain.stack m)"
     expect "NODE after options" "$json_nodes" "$(complete_words sag --format json chain.stack '')"
-    expect "sens QUANTITY" "$json_quantities" "$(complete_words sens chain.stack '')"
+    expect "influence QUANTITY" "$json_quantities" "$(complete_words influence chain.stack '')"
     expect "tol QUANTITY p." "$(echo "$json_quantities" | grep '^p\.')" "$(complete_words tol chain.stack p.)"
-    expect "sens r1." "$(lines r1.current r1.power r1.voltage)" "$(complete_words sens chain.stack r1.)"
+    expect "influence r1." "$(lines r1.current r1.power r1.voltage)" "$(complete_words influence chain.stack r1.)"
     expect "no third argument" "" "$(complete_words sag chain.stack mid '')"
     expect "sweep PARAM" "$(lines r_load vset)" "$(complete_words sweep chain.stack '')"
     expect "sweep QUANTITY" "$json_quantities" "$(complete_words sweep chain.stack vset 1 10 '')"

@@ -49,7 +49,7 @@ kinds=$(sed -n 's/.*{\.name = "\([a-z]*\)", \.shape.*/\1/p' "$src/src/parts.c")
 for k in $kinds; do
     grep -qE "^\.B $k$|^$k NAME" "$work/m5" || fail "loadstack-language.5 does not describe the part kind '$k'"
 done
-for kw in title param ground include block use expect rule end; do
+for kw in title let ground include block use expect rule end; do
     grep -qE "^\.BI? $kw( |$)|^$kw( |$)" "$work/m5" || fail "loadstack-language.5 does not describe the keyword '$kw'"
 done
 

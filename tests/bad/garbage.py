@@ -7,7 +7,7 @@ Deterministic inputs (a fixed seed, so a failure can be rerun): random byte
 strings, soups of the language's own tokens, and random edits of a valid
 circuit.  Each goes through `loadstack check FILE`, the soups and edits also
 through `loadstack solve FILE --format json`, and the edits that still solve
-through sag, thevenin, sens, tol and sweep as well, each under a timeout.  Passing
+through sag, thevenin, influence, tol and sweep as well, each under a timeout.  Passing
 means: the program ends by itself, with an exit code of the CLI contract (0..3,
 shared/spec/cli.md), never by a signal and with no sanitizer report; an exit of
 2 or 3 comes with an "error:" message; and an exit of 0 from `--format json`
@@ -24,21 +24,21 @@ SEED = 20261201
 TIMEOUT_S = 20
 
 TOKENS = ["resistor", "voltage", "current", "port", "vcvs", "vccs", "cccs", "ccvs", "opamp",
-          "title", "param", "ground", "include", "block", "end", "use", "expect", "rule", "ratio",
+          "title", "let", "ground", "include", "block", "end", "use", "expect", "rule", "ratio",
           "within", "between", "and", "gnd", "ground", "a", "b", "vcc", "out", "x.y", "d1.mid",
           "->", "..", "||", "+", "-", "*", "/", "^", "(", ")", ",", "=", "<", "<=", ">", ">=",
           "1", "0", "-1", "4k7", "0R47", "47R", "2M2", "1e999", "1e-320", "1e308", ".5", "5",
           "V", "mV", "A", "uA", "µA", "ohm", "kΩ", "W", "S", "%", "ppm", "k", "K",
-          "tol=", "rating=", "rs=", "gain=", "gm=", "rm=", "via=", "cplus=", "cminus=",
+          "tol=", "rating=", "rint=", "rbulk=", "isat=", "ideality=", "celsius=", "gain=", "gm=", "rm=", "via=", "cplus=", "cminus=",
           "plus=", "minus=", "out=", "rin=", "rout=", "mode=", "current", "voltage",
           "sqrt(", "ln(", "exp(", "min(", "max(", "abs(", "log10(",
           "\"str\"", "\"", "#", "\\", "\t", "\r", "\x00", "\xff", "é", ".open", ".zout", ".ratio"]
 SEPS = [" ", " ", " ", "", "\n", "\\\n", "  "]
 
 VALID = """title "Rain-gauge sender"
-param vref = 3.3 V
+let vref = 3.3 V
 ground gnd
-voltage vs gnd -> vcc vref rs=1
+voltage vs gnd -> vcc vref rint=1
 resistor r1 vcc -> mid 10k tol=1%
 resistor r2 mid -> gnd 4k7
 port p mid -> buf
@@ -132,7 +132,7 @@ def main():
             if not why and kind == "edit" and p.returncode == 0:
                 # a circuit that solves: every other analysis must end cleanly on it too
                 for args in (["sag", path, "mid"], ["thevenin", path, "mid", "--load", "1k"],
-                             ["sens", path, "mid"], ["tol", path, "mid", "--trials", "50"],
+                             ["influence", path, "mid"], ["tol", path, "mid", "--trials", "50"],
                              ["sweep", path, "vref", "1", "5", "mid", "--steps", "5"]):
                     why = run([exe] + args)[1]
                     if why:

@@ -74,7 +74,7 @@ def write_chain(k, f):
 def write_ports(m, f):
     f.write('title "Soil probe array, %d channels"\n' % m)
     f.write("ground gnd\n")
-    f.write("voltage vref gnd -> ref 3.3 V rs=0.5\n")
+    f.write("voltage vref gnd -> ref 3.3 V rint=0.5\n")
     for c in range(m):
         f.write("resistor rt%d ref -> s%d 10k\n" % (c, c))
         f.write("resistor rb%d s%d -> gnd %dk\n" % (c, c, 5 + c % 20))
@@ -85,7 +85,7 @@ def write_ports(m, f):
 def write_tol(f):
     f.write('title "Bench supply monitor ladder, 50 parts"\n')
     f.write("ground gnd\n")
-    f.write("voltage vsup gnd -> t0 12 V rs=0.1 tol=2%\n")
+    f.write("voltage vsup gnd -> t0 12 V rint=0.1 tol=2%\n")
     # 24 rungs of (series, shunt) + a load: 1 + 48 + 1 = 50 parts
     for r in range(24):
         f.write("resistor rs%d t%d -> t%d %dk tol=1%%\n" % (r, r, r + 1, 1 + r % 5))

@@ -76,7 +76,7 @@ static void pick_names(const char *text, size_t len, char *node, char *param, si
 static int run_command(int which, ls_format fmt, bool sparse, const char *node, const char *param)
 {
     static int (*const run[])(ls_cli *) = {ls_cmd_solve, ls_cmd_check, ls_cmd_sag, ls_cmd_thevenin,
-                                           ls_cmd_sens, ls_cmd_tol, ls_cmd_sweep, ls_cmd_pick};
+                                           ls_cmd_influence, ls_cmd_tol, ls_cmd_sweep, ls_cmd_pick};
     static const char *const names[] = {"solve", "check", "sag", "thevenin", "influence", "tol", "sweep", "pick"};
     ls_cli cli;
     memset(&cli, 0, sizeof cli);
@@ -135,8 +135,8 @@ static void run_api(const char *text, size_t len, const char *node, bool sparse)
             ls_thevenin_info th;
             if (node[0])
                 (void)ls_circuit_thevenin(c, node, &th);
-            ls_sens_entry *se = NULL;
-            if (node[0] && ls_circuit_sens(c, node, &v, &se, &n) == LS_OK)
+            ls_influence_entry *se = NULL;
+            if (node[0] && ls_circuit_influence(c, node, &v, &se, &n) == LS_OK)
                 ls_free(se);
             if (node[0])
                 (void)ls_circuit_eval(c, node, &v);

@@ -14,7 +14,7 @@ a current source drives VALUE from FROM to TO through itself), and by loadstack
 with --solver sparse (which must report the reduced form) and --solver dense.
 Checked to 1e-9 (relative to the largest value of the same kind):
   * every node voltage and every part's current (solve);
-  * d V(probe) / d R for every resistor (sens; the adjoint runs a transposed
+  * d V(probe) / d R for every resistor (influence; the adjoint runs a transposed
     solve), against numpy's exact derivative -x_a^T dA x from the same system;
   * the Thevenin resistance at the probe (thevenin), against numpy's
     (A^-1)_{probe,probe} with the sources zeroed.
@@ -67,7 +67,7 @@ def write(path, nodes, parts):
         for (k, name, a, b, v, rs) in parts:
             unit = {"resistor": "", "voltage": " V", "current": " A"}[k]
             f.write("%s %s %s -> %s %r%s%s\n" % (k, name, nodes[a], nodes[b], v, unit,
-                                                  " rs=%r" % rs if rs else ""))
+                                                  " rint=%r" % rs if rs else ""))
 
 
 def mna(nodes, parts, zero_sources=False):
@@ -163,8 +163,8 @@ def main():
             e = np.zeros(len(b))
             e[probe - 1] = 1
             lam = np.linalg.solve(a.T, e)
-            js = run(exe, ["sens", path, nodes[probe], "--solver", "sparse"])
-            got = {it["part"]: it["derivative"] for it in js["items"]}
+            js = run(exe, ["influence", path, nodes[probe], "--solver", "sparse"])
+            got = {it["part"]: it["per_unit"] for it in js["items"]}
             ders = {}
             for (kind, name, f, t, val, rs) in parts:
                 if kind != "resistor":
@@ -178,7 +178,7 @@ def main():
             ds = max(max(abs(q) for q in ders.values()), 1e-30)
             for name, q in ders.items():
                 if name not in got or not close(got[name], q, ds):
-                    errs.append("sens dV(%s)/dR(%s) = %r, numpy %r" % (nodes[probe], name, got.get(name), q))
+                    errs.append("influence dV(%s)/dR(%s) = %r, numpy %r" % (nodes[probe], name, got.get(name), q))
             # Thevenin resistance at the probe, sources zeroed
             a0, _, _ = mna(nodes, parts, zero_sources=True)
             rth = np.linalg.inv(a0)[probe - 1, probe - 1]

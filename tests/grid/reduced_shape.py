@@ -73,7 +73,7 @@ def make(rng, index, spoiler):
         v, rs = round(rng.uniform(-5, 5), 3), round(rng.uniform(0.1, 50), 3)
         nm = net.name("v")
         net.add({"kind": "voltage", "name": nm, "a": a, "b": b, "v": v, "rs": rs},
-                "voltage %s %s -> %s %s V rs=%s" % (nm, a, b, num(v), num(rs)))
+                "voltage %s %s -> %s %s V rint=%s" % (nm, a, b, num(v), num(rs)))
     for _ in range(rng.randint(0, 2)):
         a, b = rng.sample(placed, 2)
         i = round(rng.uniform(-0.01, 0.01), 6)

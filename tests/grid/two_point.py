@@ -52,7 +52,7 @@ def write_grid(path, m, n, a, b, feed, rs=None):
         if feed == "current":
             f.write("current itest g -> %s 1 A\n" % na)
         else:
-            f.write("voltage vtest g -> %s 1 V%s\n" % (na, " rs=%r" % rs if rs else ""))
+            f.write("voltage vtest g -> %s 1 V%s\n" % (na, " rint=%r" % rs if rs else ""))
         for x in range(m):
             for y in range(n):
                 p = name(x, y, b[0], b[1])

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Loading analysis against closed forms: thevenin, sag, sens, check exit codes.
+"""Loading analysis against closed forms: thevenin, sag, influence, check exit codes.
 
 Usage: test_loading.py LOADSTACK_BINARY
 
@@ -142,9 +142,12 @@ def test_thevenin_load_meter(b, tmp):
 def test_sag_ranking(b, tmp):
     # A 5 V rail with a 2 ohm source resistance feeding four loads in parallel,
     # each behind a port.  Hand computation (Ohm's and Kirchhoff's laws):
-    #   V = Vs*Rp/(Rs+Rp), Rp = parallel of all loads; without load i the
-    #   node is Vs*Rp_i/(Rs+Rp_i), Rp_i = parallel of the others; opening
-    #   its port gives the same number.  Removing the source gives 0 V.
+    #   V = Vs*Rp/(Rs+Rp), Rp = parallel of all loads; every port opened the
+    #   rail sits at Vs; each port's share of the sag is its current times Rs
+    #   (the substitution theorem: the loads are current sinks on the rail).
+    #   The what-if table: without load i the node is Vs*Rp_i/(Rs+Rp_i),
+    #   Rp_i = parallel of the others; opening its port gives the same number;
+    #   removing the source gives 0 V.
     vs, rs = 5.0, 2.0
     loads = {"heater": 10.0, "lamp": 50.0, "fan": 25.0, "radio": 200.0}
     lines = ['title "rail"', "ground gnd", "voltage batt gnd -> src %g V" % vs,
@@ -153,12 +156,21 @@ def test_sag_ranking(b, tmp):
         lines.append("port p_%s rail -> %s_in" % (nm, nm))
         lines.append("resistor r_%s %s_in -> gnd %g" % (nm, nm, r))
     f = write(tmp, "rail.stack", "\n".join(lines) + "\n")
-    d = js(b, ["sag", f, "rail"])
+    d = js(b, ["sag", f, "rail", "--what-if"])
     if not d:
         return
     rp = par(*loads.values())
     v0 = vs * rp / (rs + rp)
     near("rail voltage", d["voltage"], v0, source="Ohm's law, source resistance and parallel loads")
+    near("rail alone", d["alone"], vs, source="no load current, no drop across r_src")
+    near("rail sag", d["sag"], vs - v0, source="alone - voltage (cli spec)")
+    shares = {p["name"]: p["share"] for p in d["ports"]}
+    for nm, r in loads.items():
+        near("share of p_%s" % nm, shares.get("p_" + nm), v0 / r * rs, source="I_load * Rs (substitution theorem)")
+    truth("ports ranked heater, fan, lamp, radio: %s" % [p["name"] for p in d["ports"]],
+          [p["name"] for p in d["ports"]] == ["p_heater", "p_fan", "p_lamp", "p_radio"],
+          "hand computation: the smallest load resistance pulls hardest")
+    truth("culprit p_heater", d["culprit"] == "p_heater", "the 10 ohm load")
     want = {}
     for nm, r in loads.items():
         rpi = par(*[x for k, x in loads.items() if k != nm])
@@ -167,30 +179,21 @@ def test_sag_ranking(b, tmp):
         want["r_" + nm] = vi
     want["batt"] = 0.0
     want["r_src"] = 0.0
-    got = {it["name"]: it for it in d["items"]}
+    got = {it["name"]: it for it in d["what_if"]}
     for nm, vi in want.items():
         if nm not in got:
-            FAILS.append("sag: item %s missing" % nm)
+            FAILS.append("sag: what-if row %s missing" % nm)
             continue
-        near("sag %s without" % nm, got[nm]["without"], vi, atol=1e-12, source="hand computation, parallel loads")
-        near("sag %s delta" % nm, got[nm]["delta"], vi - v0, atol=1e-12, source="delta = without - voltage (cli spec)")
-    # order: by |delta|, largest first
-    deltas = [abs(it["delta"]) for it in d["items"] if it["delta"] is not None]
-    truth("sag items sorted by |delta|", all(deltas[i] >= deltas[i + 1] - 1e-15 for i in range(len(deltas) - 1)),
-          "cli spec: sorted by |delta|")
-    loads_rank = [it["name"] for it in d["items"] if it["kind"] == "port"]
-    truth("ports ranked heater, fan, lamp, radio: %s" % loads_rank,
-          loads_rank == ["p_heater", "p_fan", "p_lamp", "p_radio"],
-          "hand computation: the smallest load resistance pulls hardest")
+        near("what-if %s without" % nm, got[nm]["without"], vi, atol=1e-12, source="hand computation, parallel loads")
+        near("what-if %s delta" % nm, got[nm]["delta"], vi - v0, atol=1e-12, source="delta = without - voltage")
+    deltas = [abs(it["delta"]) for it in d["what_if"] if it["delta"] is not None]
+    truth("what-if rows sorted by |delta|", all(deltas[i] >= deltas[i + 1] - 1e-15 for i in range(len(deltas) - 1)),
+          "largest change first")
     text, _ = run(b, ["sag", f, "rail"])
-    # the loads are the resistors; each hangs on a port, which is not counted twice
-    total = sum(want["r_" + nm] - v0 for nm in loads)
-    share = 100 * (want["r_heater"] - v0) / total
-    tail = text.split("Main culprit")[-1]
-    truth("text names r_heater through p_heater: %r" % tail.strip(),
-          "'r_heater' (through port 'p_heater')" in tail, "hand computation: the 10 ohm load")
-    truth("culprit share %.0f%% printed" % share, ("%.0f%%" % share) in tail,
-          "share = its delta over the sum of the loads' deltas (hand computation)")
+    tail = text.split("Culprit")[-1]
+    truth("text names p_heater: %r" % tail.strip(), ": port 'p_heater'" in tail, "hand computation: the 10 ohm load")
+    share = 100 * (v0 / 10.0 * rs) / (vs - v0)
+    truth("culprit share %.0f%% printed" % share, ("(%.0f%%)" % share) in tail, "share over the sag")
 
 
 # ---------------------------------------------------------------------------
@@ -203,40 +206,40 @@ def test_sens_divider(b, tmp):
     f = write(tmp, "sdiv.stack", 'title "s"\nground gnd\nvoltage vs gnd -> a %g V\n'
               "resistor rt a -> m %g\nresistor rb m -> gnd %g\nport p m -> q\nresistor rl q -> gnd 47k\n"
               % (vs, rt, rb))
-    d = js(b, ["sens", f, "p.open"])
+    d = js(b, ["influence", f, "p.open"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("S_rt of open", it["rt"]["normalized"], -rt / (rt + rb), source="divider: -Rt/(Rt+Rb)")
-        near("S_rb of open", it["rb"]["normalized"], rt / (rt + rb), source="divider: Rt/(Rt+Rb)")
-        near("S_vs of open", it["vs"]["normalized"], 1.0, source="linear in the source")
-        near("S_rl of open", it["rl"]["normalized"], 0.0, atol=1e-12, source="the load is disconnected")
-        near("dopen/drt", it["rt"]["derivative"], -vs * rb / (rt + rb) ** 2, source="d/dRt of Vs*Rb/(Rt+Rb)")
-    d = js(b, ["sens", f, "p.zout"])
+        near("S_rt of open", it["rt"]["percent_per_percent"], -rt / (rt + rb), source="divider: -Rt/(Rt+Rb)")
+        near("S_rb of open", it["rb"]["percent_per_percent"], rt / (rt + rb), source="divider: Rt/(Rt+Rb)")
+        near("S_vs of open", it["vs"]["percent_per_percent"], 1.0, source="linear in the source")
+        near("S_rl of open", it["rl"]["percent_per_percent"], 0.0, atol=1e-12, source="the load is disconnected")
+        near("dopen/drt", it["rt"]["per_unit"], -vs * rb / (rt + rb) ** 2, source="d/dRt of Vs*Rb/(Rt+Rb)")
+    d = js(b, ["influence", f, "p.zout"])
     if d:
         it = {x["part"]: x for x in d["items"]}
         # zout = Rt*Rb/(Rt+Rb): S_Rt = Rb/(Rt+Rb), S_Rb = Rt/(Rt+Rb)
-        near("S_rt of zout", it["rt"]["normalized"], rb / (rt + rb), source="d ln(Rt||Rb)/d ln Rt = Rb/(Rt+Rb)")
-        near("S_rb of zout", it["rb"]["normalized"], rt / (rt + rb), source="d ln(Rt||Rb)/d ln Rb = Rt/(Rt+Rb)")
-        near("S_vs of zout", it["vs"]["normalized"], 0.0, atol=1e-12, source="sources zeroed")
-    d = js(b, ["sens", f, "p.ratio"])
+        near("S_rt of zout", it["rt"]["percent_per_percent"], rb / (rt + rb), source="d ln(Rt||Rb)/d ln Rt = Rb/(Rt+Rb)")
+        near("S_rb of zout", it["rb"]["percent_per_percent"], rt / (rt + rb), source="d ln(Rt||Rb)/d ln Rb = Rt/(Rt+Rb)")
+        near("S_vs of zout", it["vs"]["percent_per_percent"], 0.0, atol=1e-12, source="sources zeroed")
+    d = js(b, ["influence", f, "p.ratio"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("S_rl of ratio", it["rl"]["normalized"], 1.0, source="ratio = RL/(Rt||Rb)")
-        near("S_rt of ratio", it["rt"]["normalized"], -rb / (rt + rb), source="ratio = RL/(Rt||Rb)")
-    d = js(b, ["sens", f, "m"])
+        near("S_rl of ratio", it["rl"]["percent_per_percent"], 1.0, source="ratio = RL/(Rt||Rb)")
+        near("S_rt of ratio", it["rt"]["percent_per_percent"], -rb / (rt + rb), source="ratio = RL/(Rt||Rb)")
+    d = js(b, ["influence", f, "m"])
     if d:
         it = {x["part"]: x for x in d["items"]}
         rbl = par(rb, 47e3)
-        near("S_rt of the loaded node", it["rt"]["normalized"], -rt / (rt + rbl),
+        near("S_rt of the loaded node", it["rt"]["percent_per_percent"], -rt / (rt + rbl),
              source="loaded divider: -Rt/(Rt + Rb||RL)")
     # a quantity that is zero gets derivatives only (normalized null)
     f0 = write(tmp, "szero.stack", 'title "z"\nground gnd\nvoltage vs gnd -> a 0 V\n'
                "resistor rt a -> m 1k\nresistor rb m -> gnd 1k\n")
-    d = js(b, ["sens", f0, "m"])
+    d = js(b, ["influence", f0, "m"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        truth("zero quantity: normalized is null", it["rt"]["normalized"] is None, "cli spec")
-        near("zero quantity: dV/dVs", it["vs"]["derivative"], 0.5, source="divider ratio Rb/(Rt+Rb)")
+        truth("zero quantity: percent_per_percent is null", it["rt"]["percent_per_percent"] is None, "cli spec")
+        near("zero quantity: dV/dVs", it["vs"]["per_unit"], 0.5, source="divider ratio Rb/(Rt+Rb)")
 
 
 # ---------------------------------------------------------------------------
@@ -250,25 +253,25 @@ def test_sens_current_mode(b, tmp):
     i, rsh, rl = 10e-6, 1e6, 100e3
     f = write(tmp, "scur.stack", 'title "c"\nground gnd\ncurrent src gnd -> pd %g A\n'
               "resistor rsh pd -> gnd %g\nport p pd -> ld mode=current\nresistor rl ld -> gnd %g\n" % (i, rsh, rl))
-    d = js(b, ["sens", f, "p.open"])
+    d = js(b, ["influence", f, "p.open"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("d open/d I", it["src"]["derivative"], 1.0, source="short-circuit current = I")
-        near("d open/d Rsh", it["rsh"]["derivative"], 0.0, atol=1e-15, source="a short takes all of I")
-    d = js(b, ["sens", f, "p.loaded"])
+        near("d open/d I", it["src"]["per_unit"], 1.0, source="short-circuit current = I")
+        near("d open/d Rsh", it["rsh"]["per_unit"], 0.0, atol=1e-15, source="a short takes all of I")
+    d = js(b, ["influence", f, "p.loaded"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("d loaded/d Rsh", it["rsh"]["derivative"], i * rl / (rsh + rl) ** 2, source="d/dRsh of I*Rsh/(Rsh+RL)")
-        near("d loaded/d RL", it["rl"]["derivative"], -i * rsh / (rsh + rl) ** 2, source="d/dRL of I*Rsh/(Rsh+RL)")
-    d = js(b, ["sens", f, "p.sag"])
+        near("d loaded/d Rsh", it["rsh"]["per_unit"], i * rl / (rsh + rl) ** 2, source="d/dRsh of I*Rsh/(Rsh+RL)")
+        near("d loaded/d RL", it["rl"]["per_unit"], -i * rsh / (rsh + rl) ** 2, source="d/dRL of I*Rsh/(Rsh+RL)")
+    d = js(b, ["influence", f, "p.sag"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("d sag/d RL", it["rl"]["derivative"], i * rsh / (rsh + rl) ** 2, source="sag = I - I*Rsh/(Rsh+RL)")
-    d = js(b, ["sens", f, "p.ratio"])
+        near("d sag/d RL", it["rl"]["per_unit"], i * rsh / (rsh + rl) ** 2, source="sag = I - I*Rsh/(Rsh+RL)")
+    d = js(b, ["influence", f, "p.ratio"])
     if d:
         it = {x["part"]: x for x in d["items"]}
-        near("S_Rsh of ratio", it["rsh"]["normalized"], 1.0, source="ratio = Rsh/RL")
-        near("S_RL of ratio", it["rl"]["normalized"], -1.0, source="ratio = Rsh/RL")
+        near("S_Rsh of ratio", it["rsh"]["percent_per_percent"], 1.0, source="ratio = Rsh/RL")
+        near("S_RL of ratio", it["rl"]["percent_per_percent"], -1.0, source="ratio = Rsh/RL")
 
 
 def test_check_exit_codes(b, tmp):
@@ -348,7 +351,7 @@ def test_float_load_json(b, tmp):
         truth("no warning for a merely unbounded field",
               not any(w["code"] == "port-undefined" and "p_buf" in w["message"] for w in d["warnings"]),
               "an ideal input is normal, not a fault")
-    text, _ = run(b, ["sag", os.path.join(HERE, "closed", "float_load.stack"), "nin"])
+    text, _ = run(b, ["sag", os.path.join(HERE, "closed", "float_load.stack"), "nin", "--what-if"])
     line = [ln for ln in text.splitlines() if " p_buf " in ln]
     truth("sag: opening p_buf leaves nin floating", line and "floats" in line[0], "nothing sets the input then")
 

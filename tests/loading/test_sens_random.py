@@ -17,7 +17,7 @@ opened (its branch row replaced by I = 0).  From it:
     (definitions of the language spec); compared with `solve --format json`;
   * sensitivities: central finite differences (relative steps 1e-3 and 1e-4) of node
     voltages, part currents and every port field with respect to every part's
-    main value, compared with `sens QUANTITY --format json` (the adjoint).
+    main value, compared with `influence QUANTITY --format json` (the adjoint).
 
 Tolerances: port fields 1e-8 relative plus 1e-10 of the network's largest
 voltage (current) for voltages (currents), 1e-10 of the value for impedances;
@@ -353,9 +353,9 @@ def check_network(binary, net, ports, rng, path, verbose, stats):
                                                           "loaded")]
     fd = fd_derivatives(net, qlist)
     for qi, q in enumerate(qlist):
-        d, err = run_json(binary, ["sens", path, qtext(q)])
+        d, err = run_json(binary, ["influence", path, qtext(q)])
         if err:
-            bad.append("sens %s: %s" % (qtext(q), err))
+            bad.append("influence %s: %s" % (qtext(q), err))
             continue
         got = {it["part"]: it for it in d["items"]}
         big = max([abs(v[qi][0]) for v in fd.values()] + [0.0])
@@ -377,12 +377,12 @@ def check_network(binary, net, ports, rng, path, verbose, stats):
             stats["compared"] += 1
             if spread > 1e-3 * abs(want) + floor:
                 stats["unresolved"] += 1
-            if it is None or not isinstance(it.get("derivative"), (int, float)):
-                bad.append("sens %s / %s: missing or null" % (qtext(q), name))
+            if it is None or not isinstance(it.get("per_unit"), (int, float)):
+                bad.append("influence %s / %s: missing or null" % (qtext(q), name))
                 continue
-            have = it["nominal"] * it["derivative"]
+            have = it["part_value"] * it["per_unit"]
             if abs(have - want) > 2e-5 * abs(want) + floor + 2 * spread:
-                bad.append("sens %s / %s: p*dQ/dp adjoint %.9g, numpy FD %.9g" % (qtext(q), name, have, want))
+                bad.append("influence %s / %s: p*dQ/dp adjoint %.9g, numpy FD %.9g" % (qtext(q), name, have, want))
     return bad, checked
 
 

@@ -31,7 +31,7 @@ LOADSTACK = os.environ.get("LOADSTACK") or (sys.argv[1] if len(sys.argv) > 1 els
 if not LOADSTACK:
     sys.exit("LOADSTACK is not set (run under meson test, or pass the binary)")
 
-LET = "param"  # TODO-merge: "let" in spec version 2
+LET = "let"  # the top-level value statement (spec version 2)
 failures = []
 
 

@@ -111,7 +111,7 @@ def add_voltage(c, value=None, name=None):
     if c.vdef_ok(a, b) and c.rng.random() < 0.5:
         rs = ""
     else:
-        rs = " rs=%.6g" % c.resistance()
+        rs = " rint=%.6g" % c.resistance()
     c.lines.append("voltage %s %s -> %s %s%s" % (p, a, b, value or "%.6g V" % c.rng.uniform(-15, 15), rs))
     c.terms[p] = (a, b)
     return p
@@ -249,7 +249,7 @@ def run_linearity(exe, rng, count):
     bad, solved = 0, 0
     for k in range(count):
         c = Circuit(rng)
-        c.lines.append("param kscale = 1")
+        c.lines.append("let kscale = 1")
         scale = " * kscale"
         resistive_net(c, rng.randint(2, 25), rng.randint(0, 15), scale=scale)
         for _ in range(rng.randint(1, 4)):
@@ -287,7 +287,7 @@ def run_superposition(exe, rng, count):
     bad, solved = 0, 0
     for k in range(count):
         c = Circuit(rng)
-        c.lines += ["param sa = 1", "param sb = 1"]
+        c.lines += ["let sa = 1", "let sb = 1"]
         resistive_net(c, rng.randint(2, 25), rng.randint(0, 15))
         kinds = [rng.choice(["voltage", "current"]) for _ in range(2)]
         for kind, s in zip(kinds, ["sa", "sb"]):

@@ -68,8 +68,8 @@ static double residual(world *w)
 
 static const char *diodes =
     "ground gnd\nvoltage v1 gnd -> a 24 V\nresistor r1 a -> n1 470\n"
-    "diode d1 n1 -> n2 is=5n n=1.9\nled d2 n2 -> n3 vf=2V at=20mA\nzener d3 gnd -> n3 vz=3.3V rs=5\n"
-    "diode d4 n3 -> n4 rs=2\nresistor r2 n4 -> gnd 100\n";
+    "diode d1 n1 -> n2 isat=5n ideality=1.9\nled d2 n2 -> n3 vf=2V at=20mA\nzener d3 gnd -> n3 vz=3.3V rbulk=5\n"
+    "diode d4 n3 -> n4 rbulk=2\nresistor r2 n4 -> gnd 100\n";
 
 /* Sparse LU: many Newton iterations, one symbolic analysis. */
 static void test_one_analysis_sparse(void)

@@ -81,11 +81,11 @@ for v, r, i_s, n, rs in [(5, 1000, 2e-9, 1.8, 0.5), (1, 100, 1e-14, 1.0, 0), (12
     d = solve(f"""ground gnd
 voltage vin gnd -> a {v} V
 resistor r1 a -> k {r}
-diode d1 k -> gnd is={i_s} n={n} rs={rs}
+diode d1 k -> gnd isat={i_s} ideality={n} rbulk={rs}
 """)
     want = lambert_current(v, r + rs, i_s, n)
     close(d["parts"].get("d1", {}).get("current"), want, 1e-9,
-          f"diode current V={v} R={r} is={i_s} n={n} rs={rs} vs Lambert W (Banwell-Jayakumar 2000)")
+          f"diode current V={v} R={r} isat={i_s} ideality={n} rbulk={rs} vs Lambert W (Banwell-Jayakumar 2000)")
     check(d["solver"].get("iterations", 0) >= 2, "a diode circuit reports its Newton iterations")
 
 # ---- 2. an LED at its rated forward voltage carries its rated current ----------------------
@@ -93,9 +93,9 @@ diode d1 k -> gnd is={i_s} n={n} rs={rs}
 for vf, at, n, rs in [(2.0, 20e-3, 2, 0), (2.1, 20e-3, 2, 5), (3.1, 10e-3, 3, 8)]:
     d = solve(f"""ground gnd
 voltage v1 gnd -> a {vf} V
-led d1 a -> gnd vf={vf}V at={at}A n={n} rs={rs}
+led d1 a -> gnd vf={vf}V at={at}A ideality={n} rbulk={rs}
 """)
-    close(d["parts"].get("d1", {}).get("current"), at, 1e-9, f"LED vf={vf} at={at} rs={rs}: current at rated vf")
+    close(d["parts"].get("d1", {}).get("current"), at, 1e-9, f"LED vf={vf} at={at} rbulk={rs}: current at rated vf")
 
 # ---- 3. non-inverting stage past its rail ---------------------------------------------------
 # Textbook: gain 1 + Rf/Rg = 2 asks 2 x 3 V = 6 V from a 5 V supply; a real
@@ -273,7 +273,7 @@ close(d["nodes"].get("mid"), 5 + 2e-3 * 1e3, 1e-12, "sunk current raises a divid
 for t in [-20, 0, 25, 40, 85]:
     d = solve(f"""ground gnd
 current i1 gnd -> t 10uA
-ntc th1 t -> gnd r25=10k beta=3950 temp={t}
+ntc th1 t -> gnd r25=10k beta=3950 celsius={t}
 """)
     want = 10e3 * math.exp(3950 * (1 / (t + 273.15) - 1 / 298.15))
     close(d["parts"].get("th1", {}).get("resistance"), want, 1e-12, f"ntc at {t} degC vs the Beta equation")
@@ -294,7 +294,7 @@ t_body = brentq(heat, 25, 200)
 d = solve(f"""ground gnd
 voltage v1 gnd -> a {va} V
 resistor rs a -> t {rser}
-ntc th1 t -> gnd r25=10k beta=3950 temp=25 dissipation={delta}W
+ntc th1 t -> gnd r25=10k beta=3950 celsius=25 dissipation={delta}W
 """)
 close(d["parts"].get("th1", {}).get("temperature"), t_body, 1e-9, "ntc self-heating vs brentq on T = Ta + P/delta")
 
@@ -304,7 +304,7 @@ for delta in [1.5e-3, 1e-4, 1e-5]:
                     25, 500)
     d = solve(f"""ground gnd
 current i1 gnd -> t 1mA
-ntc th1 t -> gnd r25=10k beta=3950 temp=25 dissipation={delta}W
+ntc th1 t -> gnd r25=10k beta=3950 celsius=25 dissipation={delta}W
 """)
     close(d["parts"].get("th1", {}).get("temperature"), t_body, 1e-9,
           f"current-driven self-heating, dissipation {delta:g} W/K, vs brentq")
@@ -312,7 +312,7 @@ ntc th1 t -> gnd r25=10k beta=3950 temp=25 dissipation={delta}W
 # steady temperature (T - 25 = V^2 / (R(T) delta) has no root below 1e4 degC).
 rc, _, err = run("""ground gnd
 voltage v1 gnd -> t 10 V
-ntc th_hot t -> gnd r25=10k beta=3950 temp=25 dissipation=1mW
+ntc th_hot t -> gnd r25=10k beta=3950 celsius=25 dissipation=1mW
 """)
 check(all(t - 25 < 100 / (10e3 * math.exp(3950 * (1 / (t + 273.15) - 1 / 298.15))) / 1e-3
           for t in np.linspace(25, 1e4, 4000)), "the runaway case indeed has no steady temperature")
@@ -324,7 +324,7 @@ check(rc == 3 and "th_hot" in err and "runaway" in err, "thermal runaway is exit
 chain = ["ground gnd", "voltage v1 gnd -> n0 24 V", "resistor r1 n0 -> n1 470"]
 for k in range(1, 11):
     kind = "diode" if k % 2 else "led"
-    opt = "is=5n n=1.9" if k % 2 else "vf=2.0V at=20mA n=2"
+    opt = "isat=5n ideality=1.9" if k % 2 else "vf=2.0V at=20mA ideality=2"
     chain.append(f"{kind} d{k} n{k} -> n{k + 1} {opt}")
 chain.append("resistor r2 n11 -> gnd 10")
 d = solve("\n".join(chain) + "\n")
@@ -374,7 +374,7 @@ vk = brentq(lambda v: (vsup - v) / rser - v / rload - zener_i(v), 0, vsup)
 d = solve(f"""ground gnd
 voltage v1 gnd -> a {vsup} V
 resistor r1 a -> k {rser}
-zener z1 gnd -> k vz={vz}V at={at}A rs={rsz}
+zener z1 gnd -> k vz={vz}V at={at}A rbulk={rsz}
 resistor rl k -> gnd {rload}
 """)
 close(d["nodes"].get("k"), vk, 1e-9, "zener regulator vs brentq on KCL with the zener model")
@@ -436,7 +436,7 @@ check("adc-source-resistance" in codes(d), "23.5 kohm source above a 10 kohm max
 
 # ---- 13. switch flipped by --set, pot position ---------------------------------------------------
 text = """ground gnd
-param pump_on = 1
+let pump_on = 1
 voltage vs gnd -> vcc 12 V
 switch s1 vcc -> m state=pump_on
 resistor r1 m -> gnd 100
@@ -476,7 +476,7 @@ check(rc == 1 and d and d["failed"] == 1, "check fails (exit 1) when a stage sat
 text = """ground gnd
 voltage vin gnd -> a 5 V
 resistor r1 a -> k 1k
-diode d1 k -> gnd is=2n n=1.8
+diode d1 k -> gnd isat=2n ideality=1.8
 port p1 k -> load
 resistor rl load -> gnd 1G
 """
@@ -484,9 +484,9 @@ d = solve(text)
 i_d = d["parts"].get("d1", {}).get("current", 1)
 rd = 1.8 * VT / (i_d + 2e-9)
 close(d["ports"].get("p1", {}).get("zout"), 1e3 * rd / (1e3 + rd), 1e-6, "port zout = R1 || n Vt / I (small-signal)")
-rc, s, err = run(text, "d1.current", cmd="sens")
+rc, s, err = run(text, "d1.current", cmd="influence")
 item = next((it for it in (s or {}).get("items", []) if it["part"] == "vin"), {})
-close(item.get("derivative"), 1 / (1e3 + rd), 1e-6, "sens dI/dVin = 1 / (R1 + rd) (small-signal)")
+close(item.get("per_unit"), 1 / (1e3 + rd), 1e-6, "influence dI/dVin = 1 / (R1 + rd) (small-signal)")
 
 # ---- 16. robustness: random circuits of real parts never crash or hang -----------------------
 # Random ladders of junctions, resistors and limited op-amps (seeded): each
@@ -495,7 +495,7 @@ close(item.get("derivative"), 1 / (1e3 + rd), 1e-6, "sens dI/dVin = 1 / (R1 + rd
 rng = np.random.default_rng(4)
 for trial in range(60):
     nn = int(rng.integers(3, 8))
-    lines = ["ground gnd", f"voltage vs gnd -> n1 {rng.uniform(-30, 30):.3g} V rs={rng.choice([0, 1, 50])}",
+    lines = ["ground gnd", f"voltage vs gnd -> n1 {rng.uniform(-30, 30):.3g} V rint={rng.choice([0, 1, 50])}",
              "voltage vcc gnd -> vp 12 V", "voltage vee gnd -> vm -12 V"]
     for k in range(int(rng.integers(3, 12))):
         a, b = (f"n{int(rng.integers(0, nn))}".replace("n0", "gnd") for _ in range(2))
@@ -503,9 +503,9 @@ for trial in range(60):
         if kind == "resistor" or a == b:
             lines.append(f"resistor r{k} {a} -> n{int(rng.integers(1, nn))} {rng.choice([10, 1e3, 1e5])}")
         elif kind == "diode":
-            lines.append(f"diode d{k} {a} -> {b} is={rng.choice([1e-14, 1e-9])} n={rng.choice([1, 2])}")
+            lines.append(f"diode d{k} {a} -> {b} isat={rng.choice([1e-14, 1e-9])} ideality={rng.choice([1, 2])}")
         elif kind == "led":
-            lines.append(f"led l{k} {a} -> {b} vf=2V rs={rng.choice([0, 5])}")
+            lines.append(f"led l{k} {a} -> {b} vf=2V rbulk={rng.choice([0, 5])}")
         elif kind == "zener":
             lines.append(f"zener z{k} {a} -> {b} vz={rng.choice([3.3, 5.1, 12])}V")
         else:

@@ -241,7 +241,7 @@ def generate(rng, n_target, index):
         if has_rs:
             rtxt, r = resistance(rng, 0, 3)
             part["rs"] = r
-            line += " rs=%s" % rtxt
+            line += " rint=%s" % rtxt
         else:
             net.vdef.union(a, b)
         net.add(part, line)

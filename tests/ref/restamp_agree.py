@@ -52,7 +52,7 @@ def well_posed(rng, n_target, index):
 
 
 def swept_text(net, part):
-    """The network's text with resistor `part`'s value replaced by param rsw."""
+    """The network's text with resistor `part`'s value replaced by the let rsw."""
     lines = net.text.splitlines()
     out = []
     for ln in lines:
@@ -61,7 +61,7 @@ def swept_text(net, part):
             ln = "resistor %s %s -> %s rsw" % (part["name"], part["a"], part["b"])
         out.append(ln)
         if words[:1] == ["ground"]:
-            out.append("param rsw = %r" % part["r"])
+            out.append("let rsw = %r" % part["r"])
     return "\n".join(out) + "\n"
 
 

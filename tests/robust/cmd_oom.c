@@ -184,7 +184,7 @@ int main(int argc, char **argv)
     } else {
         fputs("title \"Soil probe divider\"\nground gnd\nvoltage vs gnd -> top 5 V tol=2%\n"
               "resistor r1 top -> mid 10k tol=1%\nresistor r2 mid -> gnd 10k tol=1%\n"
-              "param rl_value = 20k\n" /* TODO-merge: let */
+              "let rl_value = 20k\n"
               "port p mid -> in\nresistor rl in -> gnd rl_value\nexpect in > 1 V\nrule ratio >= 10\n", f);
     }
     fclose(f);
@@ -199,14 +199,14 @@ int main(int argc, char **argv)
         {"check", ls_cmd_check, {circuit}, 1, false, false},
         {"sag", ls_cmd_sag, {circuit, node}, 2, false, false},
         {"thevenin", ls_cmd_thevenin, {circuit, node}, 2, false, false},
-        {"influence", ls_cmd_sens, {circuit, node}, 2, false, false},
+        {"influence", ls_cmd_influence, {circuit, node}, 2, false, false},
         {"tol", ls_cmd_tol, {circuit, node}, 2, true, true},
         {"sweep", ls_cmd_sweep, {circuit, "rl_value", "10k", "30k", node}, 5, true, true},
         {"pick", ls_cmd_pick, {"ratio", "0.33"}, 2, false, false},
     };
     int ncases = (int)(sizeof cases / sizeof cases[0]);
     for (int i = 0; i < ncases; i++) {
-        if (large && cases[i].run != ls_cmd_solve && cases[i].run != ls_cmd_thevenin && cases[i].run != ls_cmd_sens)
+        if (large && cases[i].run != ls_cmd_solve && cases[i].run != ls_cmd_thevenin && cases[i].run != ls_cmd_influence)
             continue; /* sag (a solve per part) and the rest run on the sparse path in "sparse" */
         for (int fmt = FMT_TEXT; fmt <= FMT_CSV; fmt++) {
             if ((large || sparse) && fmt != FMT_JSON)

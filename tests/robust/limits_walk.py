@@ -22,7 +22,7 @@ import tempfile
 
 LOADSTACK = os.environ.get("LOADSTACK") or sys.argv[1]
 ROOT = os.environ.get("SOURCE_ROOT") or os.path.join(os.path.dirname(__file__), "..", "..")
-LET = "param"  # TODO-merge: "let" in spec version 2
+LET = "let"  # the top-level value statement (spec version 2)
 TMP = tempfile.mkdtemp(prefix="ls_limits_")
 failures = []
 

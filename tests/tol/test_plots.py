@@ -17,7 +17,7 @@ from lsrun import TMP, circuit, run, check, finish  # noqa: E402
 
 PATH = circuit("plot_div.stack", """\
 title "Bench supply monitor"
-param r_low = 4.7k
+let r_low = 4.7k
 ground gnd
 voltage  psu   gnd -> vin 5 V tol=5%
 resistor r_top vin -> mon 10k tol=1%

@@ -19,8 +19,8 @@ import numpy as np  # noqa: E402
 
 DIVIDER = circuit("sweep_div.stack", """\
 title "Tank-level sender divider"
-param r_sender = 4.7k
-param v_bus = 12 V
+let r_sender = 4.7k
+let v_bus = 12 V
 ground gnd
 voltage  bus   gnd -> vin v_bus
 resistor r_top vin -> mid 10k
@@ -34,11 +34,11 @@ def test_linear():
     j = run_json(["sweep", DIVIDER, "r_sender", "1k", "100k", "mid", "r_top.current"])
     if not j:
         return
-    check(j["param"] == "r_sender" and len(j["points"]) == n, "51 points by default, param named")
+    check(j["let"] == "r_sender" and len(j["points"]) == n, "51 points by default, the let named")
     xs = np.linspace(1e3, 100e3, n)
     bad = 0
     for p, x in zip(j["points"], xs):
-        bad += not close(p["r_sender"], x, rel=1e-14, what=f"point {x:.6g}: the param value (numpy linspace)")
+        bad += not close(p["r_sender"], x, rel=1e-14, what=f"point {x:.6g}: the let's value (numpy linspace)")
         bad += not close(p["mid"], 12 * x / (10e3 + x), rel=1e-12, what="  divider law")
         bad += not close(p["r_top.current"], 12 / (10e3 + x), rel=1e-12, what="  Ohm's law for the current")
     check(bad == 0, "every point of the linear sweep matches its closed form")
@@ -47,7 +47,7 @@ def test_linear():
 def test_log_csv():
     path = circuit("sweep_isrc.stack", """\
 title "Soil probe excitation"
-param i_exc = 100 uA
+let i_exc = 100 uA
 ground gnd
 current  src gnd -> probe i_exc
 resistor r_probe probe -> gnd 2.2k
@@ -55,7 +55,7 @@ resistor r_probe probe -> gnd 2.2k
     rc, out, err = run(["sweep", path, "i_exc", "1uA", "1mA", "probe", "--steps", "7", "--log", "--format", "csv"],
                        check_rc=0)
     rows = list(csv.reader(io.StringIO(out)))
-    check(rows[0] == ["i_exc", "probe"], f"CSV header is the param then the quantities, got {rows[0]}")
+    check(rows[0] == ["i_exc", "probe"], f"CSV header is the let then the quantities, got {rows[0]}")
     xs = np.geomspace(1e-6, 1e-3, 7)
     check(len(rows) == 8, "one CSV row per point")
     for r, x in zip(rows[1:], xs):
@@ -72,18 +72,18 @@ def test_null_points_and_set():
         return
     pts = j["points"]
     check(pts[0]["mid"] is None, "a zero resistance is an unsolvable point: null")
-    close(pts[1]["mid"], 6 * 5e3 / 15e3, rel=1e-12, what="--set of another param applies; the swept one wins")
+    close(pts[1]["mid"], 6 * 5e3 / 15e3, rel=1e-12, what="--set of another let applies; the swept one wins")
     close(pts[2]["mid"], 6 * 10e3 / 20e3, rel=1e-12, what="last point = TO")
 
 
 def test_diode_monotonic():
     path = circuit("sweep_diode.stack", """\
 title "Indicator LED drive"
-param v_in = 1 V
+let v_in = 1 V
 ground gnd
 voltage  src gnd -> a v_in
 resistor r_lim a -> k 1k
-diode    d1 k -> gnd is=2n n=1.8
+diode    d1 k -> gnd isat=2n ideality=1.8
 """)
     rc, out, err = run(["solve", path])
     if rc == 2 and "diode" in err:
@@ -103,13 +103,13 @@ diode    d1 k -> gnd is=2n n=1.8
 
 def test_bad():
     rc, out, err = run(["sweep", DIVIDER, "nope", "1k", "2k", "mid"], check_rc=2)
-    check("nope" in err, "an unknown param is named")
+    check("nope" in err, "an unknown let is named")
     rc, out, err = run(["sweep", DIVIDER, "r_sender", "-1k", "2k", "mid", "--log"], check_rc=2)
     rc, out, err = run(["sweep", DIVIDER, "r_sender", "one", "2k", "mid"], check_rc=2)
     rc, out, err = run(["sweep", DIVIDER, "r_sender", "1k", "2k", "mid *"], check_rc=2)
     check("quantity:1:" in err and "^" in err, "a bad QUANTITY gets file:line:col and a caret")
     rc, out, err = run(["sweep", DIVIDER, "v_bus", "1kohm", "2kohm", "mid"], check_rc=2)
-    check("resistance" in err and "voltage" in err, "FROM in ohms for a voltage param is refused, both named")
+    check("resistance" in err and "voltage" in err, "FROM in ohms for a voltage let is refused, both named")
     rc, out, err = run(["sweep", DIVIDER, "r_sender", "1k", "2k", "mid", "--steps", "1"], check_rc=2)
     rc, out, err = run(["sweep", DIVIDER, "r_sender", "1k", "2k"], check_rc=2)
 

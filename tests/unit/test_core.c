@@ -69,16 +69,16 @@ static void test_expressions(void)
 {
     world w;
     CU_ASSERT_EQUAL_FATAL(load(&w, "ground g\n"
-                                   "param a = 2 + 3 * 4\n"
-                                   "param b = -2 ^ 2\n"
-                                   "param c = 2 ^ 3 ^ 2\n"
-                                   "param d = 10k || 10k\n"
-                                   "param e = 1k + 3k || 6k\n"
-                                   "param f = sqrt(16) + abs(-2) + min(3, 1, 2) + max(1, 5)\n"
-                                   "param g2 = ln(exp(2)) + log10(1000)\n"
-                                   "param h = (1 + 2) * 3\n"
-                                   "param i = 5 V / 1 mA\n"
-                                   "param j = 4k7 / 47R\n"),
+                                   "let a = 2 + 3 * 4\n"
+                                   "let b = -2 ^ 2\n"
+                                   "let c = 2 ^ 3 ^ 2\n"
+                                   "let d = 10k || 10k\n"
+                                   "let e = 1k + 3k || 6k\n"
+                                   "let f = sqrt(16) + abs(-2) + min(3, 1, 2) + max(1, 5)\n"
+                                   "let g2 = ln(exp(2)) + log10(1000)\n"
+                                   "let h = (1 + 2) * 3\n"
+                                   "let i = 5 V / 1 mA\n"
+                                   "let j = 4k7 / 47R\n"),
                           0);
     CU_ASSERT(near(param(&w, "a"), 14));
     CU_ASSERT(near(param(&w, "b"), -4));
@@ -107,15 +107,15 @@ static int errors_of(const char *text)
 /* Units are exponents of V and A, checked where known. */
 static void test_unit_algebra(void)
 {
-    CU_ASSERT(errors_of("ground g\nparam x = 1 V + 1 mA\n") > 0);
+    CU_ASSERT(errors_of("ground g\nlet x = 1 V + 1 mA\n") > 0);
     CU_ASSERT(errors_of("ground g\nresistor r g -> a 5 V\ncurrent i g -> a 1 mA\n") > 0);
     CU_ASSERT(errors_of("ground g\nresistor r g -> a 5 V / 1 mA\ncurrent i g -> a 1 mA\n") == 0);
-    CU_ASSERT(errors_of("ground g\nparam p = 2 W / 1 A\nvoltage v g -> a p rs=1\n") == 0);
-    CU_ASSERT(errors_of("ground g\nparam p = 2 W / 1 A\ncurrent i g -> a p\nresistor r a -> g 1k\n") > 0);
-    CU_ASSERT(errors_of("ground g\nparam x = 2 ^ 1 V\n") > 0);
-    CU_ASSERT(errors_of("ground g\nparam x = sqrt(4 V)\n") > 0);
-    CU_ASSERT(errors_of("ground g\nparam x = exp(1 A)\n") > 0);
-    CU_ASSERT(errors_of("ground g\nparam x = 1 / 0\n") > 0);
+    CU_ASSERT(errors_of("ground g\nlet p = 2 W / 1 A\nvoltage v g -> a p rint=1\n") == 0);
+    CU_ASSERT(errors_of("ground g\nlet p = 2 W / 1 A\ncurrent i g -> a p\nresistor r a -> g 1k\n") > 0);
+    CU_ASSERT(errors_of("ground g\nlet x = 2 ^ 1 V\n") > 0);
+    CU_ASSERT(errors_of("ground g\nlet x = sqrt(4 V)\n") > 0);
+    CU_ASSERT(errors_of("ground g\nlet x = exp(1 A)\n") > 0);
+    CU_ASSERT(errors_of("ground g\nlet x = 1 / 0\n") > 0);
     CU_ASSERT(errors_of("ground g\nresistor r g -> a 0\ncurrent i g -> a 1 mA\n") > 0);
     CU_ASSERT(errors_of("ground g\nresistor r g -> a -1k\ncurrent i g -> a 1 mA\n") > 0);
 }
@@ -160,7 +160,7 @@ static void test_stamp_resistor_and_sources(void)
 {
     world w;
     CU_ASSERT_EQUAL_FATAL(load(&w, "ground g\n"
-                                   "voltage v g -> a 5 V rs=2\n"
+                                   "voltage v g -> a 5 V rint=2\n"
                                    "resistor r a -> b 4\n"
                                    "current i g -> b 3 mA\n"
                                    "resistor rb b -> g 8\n"),
@@ -263,7 +263,7 @@ static void test_topology(void)
     load(&w, "ground g\nvoltage v1 g -> a 1 V\nvoltage v2 g -> a 2 V\n");
     CU_ASSERT(ls_topology_check(&w.nl) > 0); /* loop of voltage-defined branches */
     unload(&w);
-    load(&w, "ground g\nvoltage v1 g -> a 1 V rs=1\nvoltage v2 g -> a 2 V\n");
+    load(&w, "ground g\nvoltage v1 g -> a 1 V rint=1\nvoltage v2 g -> a 2 V\n");
     CU_ASSERT(ls_topology_check(&w.nl) == 0); /* rs breaks the loop */
     unload(&w);
 }

@@ -197,8 +197,8 @@ static void test_numbers_match_strtod(void)
 
 static const char *const CIRCUIT =
     "title \"Soil probe\"\n"
-    "param vref = 3.3 V\n"
-    "param k = max(1, 2, 3) * -vref\n"
+    "let vref = 3.3 V\n"
+    "let k = max(1, 2, 3) * -vref\n"
     "ground gnd\n"
     "block divider top bottom mid ratio=0.5 spare=\n"
     "  resistor ra top -> mid 10k\n"
@@ -244,22 +244,22 @@ static void test_tree_fields(void)
 
     CU_ASSERT_EQUAL(s[1]->kind, S_PARAM);
     CU_ASSERT_STRING_EQUAL(s[1]->name, "vref");
-    CU_ASSERT(loc_is(s[1]->name_loc, at("param vref", "vref", 0), 4));
+    CU_ASSERT(loc_is(s[1]->name_loc, at("let vref", "vref", 0), 4));
     CU_ASSERT_EQUAL(s[1]->value->kind, E_NUM);
     CU_ASSERT_EQUAL(s[1]->value->num, 3.3);
     CU_ASSERT(s[1]->value->dims.known && s[1]->value->dims.v == 1 && s[1]->value->dims.a == 0);
-    CU_ASSERT(loc_is(s[1]->value->loc, at("param vref", "3.3 V", 0), 5));
+    CU_ASSERT(loc_is(s[1]->value->loc, at("let vref", "3.3 V", 0), 5));
 
     const ls_expr *k = s[2]->value; /* max(1, 2, 3) * -vref */
     CU_ASSERT_EQUAL_FATAL(k->kind, E_BIN);
     CU_ASSERT_EQUAL(k->op, T_STAR);
-    CU_ASSERT(loc_is(k->op_loc, at("param k", "*", 0), 1));
+    CU_ASSERT(loc_is(k->op_loc, at("let k", "*", 0), 1));
     CU_ASSERT_EQUAL_FATAL(k->a->kind, E_CALL);
     CU_ASSERT_EQUAL(k->a->op, F_MAX);
     CU_ASSERT_EQUAL_FATAL(k->a->nargs, 3);
     CU_ASSERT_EQUAL(k->a->args[2]->kind, E_NUM);
     CU_ASSERT_EQUAL(k->a->args[2]->num, 3);
-    CU_ASSERT(loc_is(k->a->loc, at("param k", "max", 0), strlen("max(1, 2, 3)")));
+    CU_ASSERT(loc_is(k->a->loc, at("let k", "max", 0), strlen("max(1, 2, 3)")));
     CU_ASSERT_EQUAL_FATAL(k->b->kind, E_NEG);
     CU_ASSERT_EQUAL_FATAL(k->b->a->kind, E_NAME);
     CU_ASSERT_STRING_EQUAL(k->b->a->name, "vref");
