@@ -368,7 +368,9 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (!o->linear_only && ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
         return r;
     part_results(op);
-    if (ls_selfcheck_on() && ls_selfcheck(op) != 0)
+    /* (sag's variants with ports opened or tied are left out: not yet
+     * checked, see docs/limits.md) */
+    if (!variant && ls_selfcheck_on() && ls_selfcheck(op) != 0)
         return LS_EXIT_UNSOLVABLE;
     /* Pins for floating nodes in modified systems: a conductance on the scale of
      * the circuit's own, so the update stays well conditioned. */
