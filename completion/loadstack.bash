@@ -7,7 +7,7 @@
 # and `--set`.
 # Installed as share/bash-completion/completions/loadstack.
 
-_loadstack_commands="solve check sag thevenin influence tol sweep pick demo"
+_loadstack_commands="solve check sag thevenin influence tol sweep formula pick demo"
 _loadstack_common="--set --format --output --min-ratio --ascii --solver --derate --help --version"
 
 # The options one command takes, common ones included.
@@ -20,6 +20,7 @@ _loadstack_options()
         tol) extra="--trials --seed --dist --plot" ;;
         sweep) extra="--steps --log --plot" ;;
         pick) extra="--series --total --zout" ;;
+        formula) extra="--symbols --ideal" ;;
     esac
     echo "$_loadstack_common $extra"
 }
@@ -43,14 +44,25 @@ _loadstack_nodes_ports()
 }
 
 # What a QUANTITY may name in circuit file $1: node names, PART.current,
-# PART.voltage, PART.power and the fields of every PORT.
+# PART.voltage, PART.power, an adc's and a thermistor's own properties and the
+# fields of every PORT.  (The first rule that matches a line prints it.)
 _loadstack_quantities()
 {
     [ -r "$1" ] || return
     "${_loadstack_prog:-loadstack}" solve "$1" --format json 2>/dev/null | sed -n \
         -e '/^  "nodes": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p' \
+        -e '/^  "parts": {/,/^  }/s/^    "\([^"]*\)": {"kind": "adc".*/\1.current\n\1.voltage\n\1.power\n\1.code\n\1.error_lsb\n\1.unloaded\n\1.source/p' \
+        -e '/^  "parts": {/,/^  }/s/^    "\([^"]*\)": {"kind": "ntc".*/\1.current\n\1.voltage\n\1.power\n\1.resistance\n\1.temperature/p' \
         -e '/^  "parts": {/,/^  }/s/^    "\([^"]*\)":.*/\1.current\n\1.voltage\n\1.power/p' \
-        -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1.open\n\1.loaded\n\1.sag\n\1.sag_rel\n\1.zout\n\1.zin\n\1.ratio\n\1.current/p'
+        -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1.open\n\1.loaded\n\1.sag\n\1.sag_rel\n\1.zout\n\1.zin\n\1.ratio\n\1.current\n\1.budget/p'
+}
+
+# Part names of circuit file $1, from the solve report in JSON.
+_loadstack_parts()
+{
+    [ -r "$1" ] || return
+    "${_loadstack_prog:-loadstack}" solve "$1" --format json 2>/dev/null \
+        | sed -n '/^  "parts": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p'
 }
 
 # Top-level let names of circuit file $1 (statements `let NAME = ...`).
@@ -87,7 +99,7 @@ _loadstack()
     for ((i = 1; i < cword; i++)); do
         case ${words[i]} in
             --set | --format | --output | --min-ratio | --solver | --derate | --load | --meter | \
-            --trials | --seed | --dist | --plot | --steps | --series | --total | --zout)
+            --trials | --seed | --dist | --plot | --steps | --series | --total | --zout | --symbols)
                 # the value follows, as a word, or after a "=" word of its own
                 if [[ ${words[i+1]} == "=" ]]; then ((i += 2)); else ((i++)); fi ;;
             -* | = ) ;;
@@ -115,6 +127,13 @@ _loadstack()
         --set)
             compopt -o nospace 2>/dev/null
             COMPREPLY=($(compgen -S = -W "$(_loadstack_lets "$file")" -- "$cur")); return ;;
+        --symbols)
+            # a comma-separated list: complete the name after the last comma
+            local done_part="" last=$cur
+            [[ $cur == *,* ]] && done_part=${cur%,*}, && last=${cur##*,}
+            compopt -o nospace 2>/dev/null
+            COMPREPLY=($(compgen -P "$done_part" -W "$(_loadstack_parts "$file") $(_loadstack_lets "$file")" -- "$last"))
+            return ;;
         --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout)
             return ;;
     esac
@@ -149,7 +168,7 @@ _loadstack()
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes "$file")" -- "$cur")) ;;
         thevenin)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes_ports "$file")" -- "$cur")) ;;
-        influence | tol)
+        influence | tol | formula)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_quantities "$file")" -- "$cur")) ;;
         sweep)
             if [ $npos -eq 1 ]; then

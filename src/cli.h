@@ -38,6 +38,9 @@ typedef struct ls_cli {
     /* where the report and the plot go: opened by ls_out_prepare before any
      * work, committed by ls_out_close, removed by ls_out_abandon */
     ls_dest out_dest, plot_dest;
+    const char *symbols;               /* formula: --symbols A,B,... */
+    bool ideal;                        /* formula: --ideal */
+    bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
 } ls_cli;
 
 /* Everything a command needs from a loaded circuit. */
@@ -103,6 +106,7 @@ bool ls_q_same(const ls_q *a, const ls_q *b);
 int ls_cmd_tol(ls_cli *cli);     /* tol_cmd.c */
 int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
 int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
+int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
 
 extern const char ls_demo_text[];
 

@@ -186,9 +186,9 @@ ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out);
 /* ---- ports: the loading report --------------------------------------------------------------------- */
 
 typedef enum ls_port_verdict {
-    LS_VERDICT_OK,            /* ratio >= the minimum */
-    LS_VERDICT_MARGINAL,      /* ratio >= half the minimum */
-    LS_VERDICT_LOADING        /* below, or undefined */
+    LS_VERDICT_OK,            /* |sag| <= budget; without a budget, ratio >= the minimum */
+    LS_VERDICT_MARGINAL,      /* |sag| <= twice the budget; ratio >= half the minimum */
+    LS_VERDICT_LOADING        /* beyond, or undefined */
 } ls_port_verdict;
 
 /* The loading report of one port (see "Ports" in the language).  With
@@ -205,6 +205,10 @@ typedef struct ls_port_info {
     double current;           /* A, DRIVER -> LOAD */
     ls_port_verdict verdict;
     const char *note;         /* why a field is NaN, or NULL */
+    double budget;            /* largest |sag| allowed (V, or A in current mode): budget=, rule sag, or half
+                                 an LSB of an adc on LOAD; NaN when none */
+    int by_budget;            /* 1 when the budget decided the verdict, 0 the ratio rule */
+    int load_held;            /* 1 when the load side floats once opened and was held at its loaded voltage */
 } ls_port_info;
 
 /* Number of ports. */
@@ -322,6 +326,22 @@ typedef struct ls_influence_entry {
  * LS_E_NOT_SOLVED or LS_E_NOMEM. */
 ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *value, ls_influence_entry **entries,
                                int *n);
+
+/* QUANTITY (as in ls_circuit_eval) as an exact formula of the parts' values,
+ * as `loadstack formula` prints it (see docs/formula.md).
+ *   symbols in (may be NULL): "a,b,...": only these parts' values and top-level
+ *          lets stay symbols; NULL: every part's main value and the lets used in values.
+ *   ideal  in: nonzero for the limit as every finite op-amp gain goes to infinity.
+ *   formula out: the formula in the language's expression syntax; the caller
+ *          frees it with ls_free.
+ *   value  out (may be NULL): the formula at the circuit's numbers.
+ * The formula is checked against the solver's value every time.
+ * Returns LS_OK, LS_E_CIRCUIT (a bad quantity or symbol, a quantity with no
+ * finite formula, or a circuit past the size limits: see the diagnostics),
+ * LS_E_UNSOLVABLE (the self-check failed), LS_E_NOT_SOLVED, LS_E_ARGUMENT or
+ * LS_E_NOMEM. */
+ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *symbols, int ideal, char **formula,
+                             double *value);
 
 /* Change part `name`'s main value (ohm for a resistor, V for a voltage
  * source, ...) and re-solve with the same structure; port reports are

@@ -66,6 +66,30 @@ static void test_divider_thevenin(void)
     CU_ASSERT_PTR_NULL(c);
 }
 
+/* The formula of the divider's tap is the divider rule vs * r2 / (r1 + r2)
+ * (Ohm's and Kirchhoff's laws); its value is 10 * 4.7 / 14.7 V; with only r2
+ * a symbol it is 10 * r2 / (r2 + 10000); a bad symbol is an error. */
+static void test_formula(void)
+{
+    ls_circuit *c = solved(divider, NULL);
+    if (!c)
+        return;
+    char *f = NULL;
+    double v = 0;
+    CU_ASSERT_EQUAL(ls_circuit_formula(c, "mid", NULL, 0, &f, &v), LS_OK);
+    CU_ASSERT_PTR_NOT_NULL_FATAL(f);
+    CU_ASSERT_STRING_EQUAL(f, "vs * r2 / (r1 + r2)");
+    CU_ASSERT(REL(v, 10.0 * 4.7 / 14.7, 1e-15));
+    ls_free(f);
+    CU_ASSERT_EQUAL(ls_circuit_formula(c, "mid", "r2", 0, &f, NULL), LS_OK);
+    CU_ASSERT_STRING_EQUAL(f, "10 * r2 / (r2 + 10000)");
+    ls_free(f);
+    CU_ASSERT_EQUAL(ls_circuit_formula(c, "mid", "nothing_here", 0, &f, NULL), LS_E_CIRCUIT);
+    CU_ASSERT_PTR_NULL(f);
+    CU_ASSERT_EQUAL(ls_circuit_formula(c, NULL, NULL, 0, &f, NULL), LS_E_ARGUMENT);
+    ls_circuit_free(&c);
+}
+
 /* Part results: I(r1) = 10 V / 14.7k = 680.27 uA; P(r1) = I^2 * 10k; the
  * source delivers 10 V * I, so it absorbs -10 V * I; its voltage reads as the
  * rise, +10 V (language: "a battery gnd -> vcc reads +9 V"). */
@@ -146,6 +170,31 @@ static void test_port_loading(void)
     CU_ASSERT_EQUAL(ls_circuit_solve_info(c, &si), LS_OK);
     CU_ASSERT_EQUAL(strncmp(si.method, "sparse-", 7), 0);
     ls_circuit_free(&c);
+}
+
+/* The same divider with budget=0.6V on its port: sag 0.5 V (closed form
+ * above) is within it, so the budget decides ok although the ratio 4 would
+ * say loading; with budget=0.3V the sag is within twice it: marginal.  The
+ * language's port table. */
+static void test_port_budget(void)
+{
+    const char *src[2] = {"ground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> mid 10k\n"
+                          "resistor r2 mid -> gnd 10k\nport p mid -> in budget=0.6V\nresistor rl in -> gnd 20k\n",
+                          "ground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> mid 10k\n"
+                          "resistor r2 mid -> gnd 10k\nport p mid -> in budget=0.3V\nresistor rl in -> gnd 20k\n"};
+    ls_port_verdict want[2] = {LS_VERDICT_OK, LS_VERDICT_MARGINAL};
+    for (int k = 0; k < 2; k++) {
+        ls_circuit *c = solved(src[k], NULL);
+        if (!c)
+            return;
+        ls_port_info p;
+        CU_ASSERT_EQUAL(ls_circuit_port(c, 0, &p), LS_OK);
+        CU_ASSERT(REL(p.budget, k ? 0.3 : 0.6, 1e-15));
+        CU_ASSERT_EQUAL(p.by_budget, 1);
+        CU_ASSERT_EQUAL(p.load_held, 0);
+        CU_ASSERT_EQUAL(p.verdict, want[k]);
+        ls_circuit_free(&c);
+    }
 }
 
 /* Sag at mid of the loaded divider: without rl (or with p opened) mid returns
@@ -460,7 +509,8 @@ int main(void)
     CU_pSuite s = CU_add_suite("api", NULL, NULL);
     if (!s || !CU_add_test(s, "divider and Thevenin", test_divider_thevenin) ||
         !CU_add_test(s, "part results", test_parts) || !CU_add_test(s, "port loading", test_port_loading) ||
-        !CU_add_test(s, "sag", test_sag) ||
+        !CU_add_test(s, "port budget", test_port_budget) ||
+        !CU_add_test(s, "sag", test_sag) || !CU_add_test(s, "formula", test_formula) ||
         !CU_add_test(s, "sag by connection", test_sag_ports) || !CU_add_test(s, "influence", test_influence) ||
         !CU_add_test(s, "set value", test_set_value) || !CU_add_test(s, "settings", test_settings) ||
         !CU_add_test(s, "diagnostics list", test_diagnostics) ||
