@@ -72,9 +72,9 @@ static int prepare(ls_session *s, ls_cli *cli, int *node)
 }
 
 /* Close the report, print the diagnostics, free the session; the exit code. */
-static int finish(ls_session *s, FILE *out, char *tmp, int code)
+static int finish(ls_session *s, int code)
 {
-    code = ls_out_close(s, out, tmp, code);
+    code = ls_out_close(s->cli, ls_session_verdict(s, code));
     ls_diags_print(&s->diags, stderr);
     ls_session_free(s);
     return code;
@@ -377,12 +377,7 @@ int ls_cmd_thevenin(ls_cli *cli)
         if (unsolved)
             ld.why_vth = "unsolved";
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = ls_report_for(&s, o);
     char b1[64];
     if (cli->fmt == FMT_JSON) {
@@ -423,7 +418,7 @@ int ls_cmd_thevenin(ls_cli *cli)
         if (isfinite(drv.rth) && isfinite(ld.rth) && drv.rth > 0)
             fprintf(o, "  ratio zin/zout        %s\n", ls_eng(&rp, b1, sizeof b1, ld.rth / drv.rth, ""));
     }
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }
 
 /* ---- sag ------------------------------------------------------------------------------------ */
@@ -667,14 +662,7 @@ int ls_cmd_sag(ls_cli *cli)
             return LS_EXIT_UNSOLVABLE;
         }
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        free(items);
-        ls_sag_report_free(&r);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = ls_report_for(&s, o);
     if (cli->fmt == FMT_JSON)
         sag_json(&rp, nl, &r, items);
@@ -687,7 +675,7 @@ int ls_cmd_sag(ls_cli *cli)
     }
     free(items);
     ls_sag_report_free(&r);
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }
 
 /* ---- influence ----------------------------------------------------------------------------- */
@@ -813,8 +801,7 @@ int ls_cmd_influence(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    ls_expr *e = ls_parse_expr_string(&s.diags, "quantity", cli->pos[1], true);
-    ls_q *q = e ? ls_bind_quantity(&s.nl, e) : NULL;
+    ls_q *q = ls_session_quantity(&s, cli->pos[1]);
     ls_sens_item *items = NULL;
     double value = NAN;
     int n = q ? ls_sens(&s.op, q, &value, &items) : -1;
@@ -823,13 +810,7 @@ int ls_cmd_influence(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        free(items);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = ls_report_for(&s, o);
     if (cli->fmt == FMT_JSON)
         influence_json(&rp, &s, cli->pos[1], value, items, n);
@@ -838,5 +819,5 @@ int ls_cmd_influence(ls_cli *cli)
     else
         influence_text(&rp, &s, cli->pos[1], q->dims, value, items, n);
     free(items);
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }

@@ -174,7 +174,8 @@ static void *mc_run(void *arg)
     bool have_op = false;
     w->status = -1;
     if (nl.parts && nominal) {
-        memcpy(nl.parts, job->base->parts, (size_t)nl.nparts * sizeof *nl.parts);
+        if (nl.nparts > 0) /* a circuit with no parts has no part table (memcpy from NULL is undefined) */
+            memcpy(nl.parts, job->base->parts, (size_t)nl.nparts * sizeof *nl.parts);
         nruns = own_runs(nl.parts, nl.nparts, &runs);
         nominal_runs = malloc((size_t)(nruns > 0 ? nruns : 1) * sizeof *nominal_runs);
     }
@@ -187,7 +188,8 @@ static void *mc_run(void *arg)
             memcpy(nominal_runs, runs, (size_t)nruns * sizeof *runs);
             x0 = malloc((size_t)(op.mna.n ? op.mna.n : 1) * sizeof *x0);
             if (x0) {
-                memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
+                if (op.mna.n > 0)
+                    memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
                 w->status = 0;
             }
         }
@@ -195,7 +197,8 @@ static void *mc_run(void *arg)
     for (long i = w->first; w->status == 0 && i < w->last; i++) {
         memcpy(nl.parts, nominal, psize);
         memcpy(runs, nominal_runs, (size_t)nruns * sizeof *runs);
-        memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
+        if (op.mna.n > 0)
+            memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
         draw_trial(job, nl.parts, i);
         if (ls_op_resolve(&op) != LS_EXIT_OK) {
             job->value[i] = NAN;
@@ -770,7 +773,7 @@ static int tol_plot(const tol_ctx *t, const double *values)
         h.n = 1;
     }
     char msg[256] = "";
-    if (ls_plot_hist_write(&h, t->cli->plot, msg, sizeof msg) != LS_PLOT_OK) {
+    if (ls_plot_hist_write_to(&h, &t->cli->plot_dest, msg, sizeof msg) != LS_PLOT_OK) {
         fprintf(stderr, "loadstack: error: cannot draw '%s': %s\n", t->cli->plot, msg);
         return LS_EXIT_USAGE;
     }
@@ -885,8 +888,7 @@ int ls_cmd_tol(ls_cli *cli)
     ls_session s;
     t.s = &s;
     int code = ls_session_load(&s, cli, cli->pos[0], NULL);
-    ls_expr *e = code == LS_EXIT_OK ? ls_parse_expr_string(&s.diags, "quantity", cli->pos[1], true) : NULL;
-    t.q = e ? ls_bind_quantity(&s.nl, e) : NULL;
+    t.q = code == LS_EXIT_OK ? ls_session_quantity(&s, cli->pos[1]) : NULL;
     if (code == LS_EXIT_OK && !t.q)
         code = LS_EXIT_USAGE;
     if (code == LS_EXIT_OK)
@@ -917,20 +919,15 @@ int ls_cmd_tol(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (o) {
-        ls_report rp = ls_report_for(&s, o);
-        if (cli->fmt == FMT_JSON)
-            tol_json(&rp, &t);
-        else if (cli->fmt == FMT_CSV)
-            tol_csv(o, &t);
-        else
-            tol_text(o, &rp, &t);
-        code = ls_out_close(&s, o, tmp, LS_EXIT_OK);
-    } else {
-        code = LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
+    ls_report rp = ls_report_for(&s, o);
+    if (cli->fmt == FMT_JSON)
+        tol_json(&rp, &t);
+    else if (cli->fmt == FMT_CSV)
+        tol_csv(o, &t);
+    else
+        tol_text(o, &rp, &t);
+    code = ls_out_close(cli, ls_session_verdict(&s, LS_EXIT_OK));
     ls_diags_print(&s.diags, stderr);
     free(values);
     free(checks);
