@@ -1,5 +1,6 @@
 /* selfcheck.c — see selfcheck.h. */
 #include "selfcheck.h"
+#include "newton.h"
 
 #include "parts.h"
 
@@ -38,10 +39,7 @@ static double accuracy(const ls_op *op)
     /* An iterated circuit (junctions, limits, a self-heating thermistor) is
      * solved to its iteration's tolerance, not to the last linear solve's
      * residual: its results hold KCL only to that. */
-    for (int i = 0; i < op->nl->nparts; i++)
-        if (op->nl->parts[i].kind->has_run)
-            return fmax(acc, LS_SELFCHECK_ITERATED);
-    return acc;
+    return ls_newton_needed(op->nl) ? fmax(acc, LS_SELFCHECK_ITERATED) : acc;
 }
 
 /* KCL at every node row; the first failing node into *bad, with what it is
@@ -130,9 +128,7 @@ int ls_selfcheck(ls_op *op)
     /* An iterated circuit's junction currents carry the iteration's absolute
      * tolerance, which no relative allowance on a near-zero total can hold:
      * Tellegen is checked on linear circuits only (KCL above covers both). */
-    bool iterated = false;
-    for (int i = 0; i < nl->nparts; i++)
-        iterated |= nl->parts[i].kind->has_run;
+    bool iterated = ls_newton_needed(nl);
     if (all_two && !iterated && !(fabs(total) <= acc * mag + DBL_MIN)) {
         ls_error(nl->diags, LS_NOLOC,
                  "self-check: Tellegen's theorem fails: the parts' powers sum to %.3g W, against %.3g W in all and "

@@ -351,7 +351,7 @@ def test_checked_first():
         if rc != 2 or "no/such/dir" not in err or "absent.stack" in err:
             fail(f"{args[0]}: bad --plot directory not reported first: exit {rc}: {err.strip()}")
         rc, _, err = run(args + ["--plot", "p.jpg"], d)
-        if rc != 2 or ".svg or .png" not in err or "absent.stack" in err:
+        if rc != 2 or ".svg, .png or .pdf" not in err or "absent.stack" in err:
             fail(f"{args[0]}: bad --plot extension not reported first: exit {rc}: {err.strip()}")
         rc, _, err = run(args + ["--output", "no/such/dir/r.txt"], d)
         if rc != 2 or "no/such/dir" not in err or "absent.stack" in err:
