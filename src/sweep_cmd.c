@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "tolerance.h"
 #include "elab.h"
 #include "fmt.h"
 #include "parser.h"
