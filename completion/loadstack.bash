@@ -7,7 +7,7 @@
 # and `--set`.
 # Installed as share/bash-completion/completions/loadstack.
 
-_loadstack_commands="solve check sag thevenin influence tol sweep pick demo"
+_loadstack_commands="solve check sag thevenin influence tol sweep formula pick demo"
 _loadstack_common="--set --format --output --min-ratio --ascii --solver --derate --help --version"
 
 # The options one command takes, common ones included.
@@ -20,6 +20,7 @@ _loadstack_options()
         tol) extra="--trials --seed --dist --plot" ;;
         sweep) extra="--steps --log --plot" ;;
         pick) extra="--series --total --zout" ;;
+        formula) extra="--symbols --ideal" ;;
     esac
     echo "$_loadstack_common $extra"
 }
@@ -51,6 +52,14 @@ _loadstack_quantities()
         -e '/^  "nodes": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p' \
         -e '/^  "parts": {/,/^  }/s/^    "\([^"]*\)":.*/\1.current\n\1.voltage\n\1.power/p' \
         -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1.open\n\1.loaded\n\1.sag\n\1.sag_rel\n\1.zout\n\1.zin\n\1.ratio\n\1.current/p'
+}
+
+# Part names of circuit file $1, from the solve report in JSON.
+_loadstack_parts()
+{
+    [ -r "$1" ] || return
+    "${_loadstack_prog:-loadstack}" solve "$1" --format json 2>/dev/null \
+        | sed -n '/^  "parts": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p'
 }
 
 # Top-level let names of circuit file $1 (statements `let NAME = ...`).
@@ -87,7 +96,7 @@ _loadstack()
     for ((i = 1; i < cword; i++)); do
         case ${words[i]} in
             --set | --format | --output | --min-ratio | --solver | --derate | --load | --meter | \
-            --trials | --seed | --dist | --plot | --steps | --series | --total | --zout)
+            --trials | --seed | --dist | --plot | --steps | --series | --total | --zout | --symbols)
                 # the value follows, as a word, or after a "=" word of its own
                 if [[ ${words[i+1]} == "=" ]]; then ((i += 2)); else ((i++)); fi ;;
             -* | = ) ;;
@@ -115,6 +124,13 @@ _loadstack()
         --set)
             compopt -o nospace 2>/dev/null
             COMPREPLY=($(compgen -S = -W "$(_loadstack_lets "$file")" -- "$cur")); return ;;
+        --symbols)
+            # a comma-separated list: complete the name after the last comma
+            local done_part="" last=$cur
+            [[ $cur == *,* ]] && done_part=${cur%,*}, && last=${cur##*,}
+            compopt -o nospace 2>/dev/null
+            COMPREPLY=($(compgen -P "$done_part" -W "$(_loadstack_parts "$file") $(_loadstack_lets "$file")" -- "$last"))
+            return ;;
         --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout)
             return ;;
     esac
@@ -149,7 +165,7 @@ _loadstack()
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes "$file")" -- "$cur")) ;;
         thevenin)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_nodes_ports "$file")" -- "$cur")) ;;
-        influence | tol)
+        influence | tol | formula)
             [ $npos -eq 1 ] && COMPREPLY=($(compgen -W "$(_loadstack_quantities "$file")" -- "$cur")) ;;
         sweep)
             if [ $npos -eq 1 ]; then

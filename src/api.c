@@ -11,6 +11,7 @@
 
 #include "analysis.h"
 #include "elab.h"
+#include "formula.h"
 #include "parser.h"
 #include "report.h"
 #include "sag.h"
@@ -478,6 +479,33 @@ ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value)
         return LS_E_NOMEM;
     *value = v;
     return LS_OK;
+}
+
+ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *symbols, int ideal, char **formula,
+                             double *value)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!quantity || !formula)
+        return LS_E_ARGUMENT;
+    *formula = NULL;
+    ls_q *q = bind_quantity(c, quantity);
+    if (!q)
+        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+    ls_formula_req req = {.quantity = quantity, .symbols = symbols, .ideal = ideal != 0};
+    ls_formula_result r;
+    int code = ls_formula(&c->op, &c->prog, q, &req, &r, &c->diags);
+    if (code == LS_EXIT_OK) {
+        *formula = r.expression;
+        r.expression = NULL;
+        if (value)
+            *value = r.value;
+    }
+    ls_formula_result_free(&r);
+    if (forget_oom_ports(c))
+        return LS_E_NOMEM;
+    return code == LS_EXIT_OK ? LS_OK : code == LS_EXIT_USAGE ? LS_E_CIRCUIT : LS_E_UNSOLVABLE;
 }
 
 /* 1-based line of a location, 0 for none. */

@@ -34,6 +34,9 @@ typedef struct ls_cli {
     int steps;                         /* sweep (default 51) */
     bool log;
     int threads;
+    const char *symbols;               /* formula: --symbols A,B,... */
+    bool ideal;                        /* formula: --ideal */
+    bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
 } ls_cli;
 
 /* Everything a command needs from a loaded circuit. */
@@ -74,6 +77,7 @@ int ls_cmd_influence(ls_cli *cli);
 int ls_cmd_tol(ls_cli *cli);     /* tol_cmd.c */
 int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
 int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
+int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
 
 extern const char ls_demo_text[];
 

@@ -112,8 +112,10 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
     int bad = ls_elaborate(&s->prog, &s->diags, sets, cli->nsets, &s->nl) || errs;
     /* A command elaborates once: the tree (a large part of the memory of a
      * big circuit) goes before the solve.  The netlist keeps only names. */
-    ls_arena_free(&s->syntax);
-    s->prog = (ls_program){0};
+    if (!cli->keep_syntax) {
+        ls_arena_free(&s->syntax);
+        s->prog = (ls_program){0};
+    }
     phase_done("elaborate", &t0);
     return bad ? LS_EXIT_USAGE : LS_EXIT_OK;
 }

@@ -41,6 +41,8 @@ static const optdef options[] = {
     {"series", true, "pick", "E6|E12|E24|E48|E96|E192  standard value series (default E24)"},
     {"total", true, "pick", "LO..HI  range of rtop + rbot (default 1k..1M)"},
     {"zout", true, "pick", "MAX  largest acceptable rtop || rbot"},
+    {"symbols", true, "formula", "A,B,...  keep only these parts' values and lets as symbols (the rest as numbers)"},
+    {"ideal", false, "formula", "take every finite op-amp gain to infinity (the formula designers write first)"},
 };
 
 typedef struct cmd {
@@ -67,6 +69,8 @@ static const cmd commands[] = {
      "loadstack tol circuits/demo.stack adc_in --plot adc_in.svg", ls_cmd_tol, 2},
     {"sweep", "sweep FILE LET FROM TO QUANTITY...", "sweep a top-level let and tabulate (or plot) quantities",
      "loadstack sweep circuits/demo.stack moisture_r 1k 100k adc_in --log --plot sweep.svg", ls_cmd_sweep, 5},
+    {"formula", "formula FILE QUANTITY", "QUANTITY as an exact formula of the parts' values (small circuits)",
+     "loadstack formula circuits/strain_bridge.stack out --symbols vex,strain", ls_cmd_formula, 2},
     {"pick", "pick ratio R", "best pairs of standard (IEC 60063) values for a divider ratio R = rbot/(rtop+rbot)",
      "loadstack pick ratio 0.66 --series E24 --total 10k..100k", ls_cmd_pick, 2},
     {"demo", "demo", "the built-in demo circuit, solved (needs no file)", "loadstack demo", ls_cmd_demo, 0},
@@ -224,6 +228,10 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         cli->total = val;
     } else if (strcmp(n, "zout") == 0) {
         cli->zout = val;
+    } else if (strcmp(n, "symbols") == 0) {
+        cli->symbols = val;
+    } else if (strcmp(n, "ideal") == 0) {
+        cli->ideal = true;
     }
     return 0;
 }

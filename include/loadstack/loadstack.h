@@ -328,6 +328,22 @@ typedef struct ls_influence_entry {
 ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *value, ls_influence_entry **entries,
                                int *n);
 
+/* QUANTITY (as in ls_circuit_eval) as an exact formula of the parts' values,
+ * as `loadstack formula` prints it (see docs/formula.md).
+ *   symbols in (may be NULL): "a,b,...": only these parts' values and top-level
+ *          lets stay symbols; NULL: every part's main value and the lets used in values.
+ *   ideal  in: nonzero for the limit as every finite op-amp gain goes to infinity.
+ *   formula out: the formula in the language's expression syntax; the caller
+ *          frees it with ls_free.
+ *   value  out (may be NULL): the formula at the circuit's numbers.
+ * The formula is checked against the solver's value every time.
+ * Returns LS_OK, LS_E_CIRCUIT (a bad quantity or symbol, a quantity with no
+ * finite formula, or a circuit past the size limits: see the diagnostics),
+ * LS_E_UNSOLVABLE (the self-check failed), LS_E_NOT_SOLVED, LS_E_ARGUMENT or
+ * LS_E_NOMEM. */
+ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *symbols, int ideal, char **formula,
+                             double *value);
+
 /* Change part `name`'s main value (ohm for a resistor, V for a voltage
  * source, ...) and re-solve with the same structure; port reports are
  * recomputed on the next request.  Returns as ls_circuit_solve, or

@@ -139,6 +139,9 @@ _proto("ls_circuit_sweep", _I, _P, ctypes.c_char_p, ctypes.c_double, ctypes.c_do
        ctypes.POINTER(ctypes.c_char_p), _I, ctypes.POINTER(_c_double_p), ctypes.POINTER(_c_double_p),
        ctypes.POINTER(_I))
 
+_proto("ls_circuit_formula", _I, _P, ctypes.c_char_p, ctypes.c_char_p, _I, ctypes.POINTER(ctypes.c_void_p),
+       _c_double_p)
+
 _LS_E_CIRCUIT, _LS_E_NOT_FOUND = -4, -6
 _BACKENDS = {"auto": 0, "dense": 1, "sparse": 2}
 _VERDICTS = ("ok", "marginal", "loading")
@@ -363,6 +366,18 @@ class ToleranceReport:
     percentiles: Dict[str, float]
     yield_: float
     values: object = None
+
+
+@dataclass(frozen=True)
+class Formula:
+    """A quantity as an exact formula of the parts' values (text in the
+    language's expression syntax) and its value at the circuit's numbers."""
+    quantity: str
+    text: str
+    value: float
+
+    def __str__(self) -> str:
+        return f"{self.quantity} = {self.text}"
 
 
 @dataclass
@@ -642,6 +657,25 @@ class Circuit:
                                "corners" if info.corners else "sensitivity", info.rss, info.varying, info.trials,
                                seed, info.finite, info.mean, info.std, info.min, info.max,
                                dict(zip(keys, list(info.pct))), info.yield_, values)
+
+    def formula(self, quantity: str, symbols: Optional[Sequence[str]] = None, ideal: bool = False) -> Formula:
+        """quantity as an exact formula of the parts' values, as `loadstack
+        formula` prints it.  symbols keeps only those parts' values and lets
+        as symbols (None: every part's main value and the lets used); ideal
+        takes the limit as every finite op-amp gain goes to infinity.  The
+        formula is checked against the solver's value every time."""
+        self._need_solved()
+        text = ctypes.c_void_p()
+        v = ctypes.c_double()
+        sym = ",".join(symbols).encode() if symbols is not None else None
+        n0 = len(self.diagnostics())
+        self._check(_lib.ls_circuit_formula(self._handle(), quantity.encode(), sym, int(bool(ideal)),
+                                            ctypes.byref(text), ctypes.byref(v)), n0)
+        try:
+            out = ctypes.string_at(text.value).decode()
+        finally:
+            _lib.ls_free(text)
+        return Formula(quantity, out, v.value)
 
     def sweep(self, let: str, start: float, stop: float, quantities: Union[str, Sequence[str]],
               steps: int = 51, log: bool = False) -> SweepResult:

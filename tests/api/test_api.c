@@ -66,6 +66,30 @@ static void test_divider_thevenin(void)
     CU_ASSERT_PTR_NULL(c);
 }
 
+/* The formula of the divider's tap is the divider rule vs * r2 / (r1 + r2)
+ * (Ohm's and Kirchhoff's laws); its value is 10 * 4.7 / 14.7 V; with only r2
+ * a symbol it is 10 * r2 / (r2 + 10000); a bad symbol is an error. */
+static void test_formula(void)
+{
+    ls_circuit *c = solved(divider, NULL);
+    if (!c)
+        return;
+    char *f = NULL;
+    double v = 0;
+    CU_ASSERT_EQUAL(ls_circuit_formula(c, "mid", NULL, 0, &f, &v), LS_OK);
+    CU_ASSERT_PTR_NOT_NULL_FATAL(f);
+    CU_ASSERT_STRING_EQUAL(f, "vs * r2 / (r1 + r2)");
+    CU_ASSERT(REL(v, 10.0 * 4.7 / 14.7, 1e-15));
+    ls_free(f);
+    CU_ASSERT_EQUAL(ls_circuit_formula(c, "mid", "r2", 0, &f, NULL), LS_OK);
+    CU_ASSERT_STRING_EQUAL(f, "10 * r2 / (r2 + 10000)");
+    ls_free(f);
+    CU_ASSERT_EQUAL(ls_circuit_formula(c, "mid", "nothing_here", 0, &f, NULL), LS_E_CIRCUIT);
+    CU_ASSERT_PTR_NULL(f);
+    CU_ASSERT_EQUAL(ls_circuit_formula(c, NULL, NULL, 0, &f, NULL), LS_E_ARGUMENT);
+    ls_circuit_free(&c);
+}
+
 /* Part results: I(r1) = 10 V / 14.7k = 680.27 uA; P(r1) = I^2 * 10k; the
  * source delivers 10 V * I, so it absorbs -10 V * I; its voltage reads as the
  * rise, +10 V (language: "a battery gnd -> vcc reads +9 V"). */
@@ -460,7 +484,7 @@ int main(void)
     CU_pSuite s = CU_add_suite("api", NULL, NULL);
     if (!s || !CU_add_test(s, "divider and Thevenin", test_divider_thevenin) ||
         !CU_add_test(s, "part results", test_parts) || !CU_add_test(s, "port loading", test_port_loading) ||
-        !CU_add_test(s, "sag", test_sag) ||
+        !CU_add_test(s, "sag", test_sag) || !CU_add_test(s, "formula", test_formula) ||
         !CU_add_test(s, "sag by connection", test_sag_ports) || !CU_add_test(s, "influence", test_influence) ||
         !CU_add_test(s, "set value", test_set_value) || !CU_add_test(s, "settings", test_settings) ||
         !CU_add_test(s, "diagnostics list", test_diagnostics) ||

@@ -8,6 +8,7 @@ output contract, shared/spec/cli.md), on every example circuit:
 - sag, thevenin, influence: the same numbers as the CLI's JSON, exactly;
 - tol with the same seed: the same worst case and Monte Carlo statistics as
   `loadstack tol --seed`, exactly;
+- formula: the same expression text as `loadstack formula`;
 - sweep: the same points as `loadstack sweep`, exactly, and the same values
   to 1e-12 relative (the CLI continues each point from the last solution, the
   library solves each afresh: both are refined solves of the same system);
@@ -123,8 +124,19 @@ for i, pt in enumerate(rs["points"]):
     same(f"sweep x[{i}]", float(sw.x[i]), pt["moisture_r"])
     close(f"sweep adc_in[{i}]", float(sw.y["adc_in"][i]), pt["adc_in"])
     close(f"sweep p_adc.sag[{i}]", float(sw.y["p_adc.sag"][i]), pt["p_adc.sag"])
-# set(): a let re-reads the circuit as --set does
-c.set("vsupply", "3.3V") if "vsupply" in open(demo).read() else None
+# formula: the same text and value as `loadstack formula`
+bridge = os.path.join(root, "circuits", "strain_bridge.stack")
+f = loadstack.Circuit.from_file(bridge).formula("out", symbols=["vex", "strain"])
+rf = cli("formula", bridge, "out", "--symbols", "vex,strain")
+same("formula text", f.text == rf["expression"], True)
+if "value" in rf:
+    same("formula value", f.value, rf["value"])
+# set(): a let re-reads the circuit as --set does: the same nodes as --set
+c.set("vsupply", "3.3V")
+ref = cli("solve", demo, "--set", "vsupply=3.3V")
+op = c.solve()
+for node, v in ref["nodes"].items():
+    same(f"set vsupply node {node}", op.nodes[node], v)
 
 # the bad-input corpus: same first error place as the CLI
 cases = os.path.join(root, "tests", "bad", "cases")
