@@ -1,4 +1,4 @@
-"""loadstack — DC operating point and loading analysis of analog signal chains.
+"""DC operating point and loading analysis of analog signal chains.
 
 A thin layer over the loadstack C library (libloadstack.so.0) through ctypes,
 the standard library's foreign-function module: nothing is compiled when the

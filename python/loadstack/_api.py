@@ -408,11 +408,18 @@ class Circuit:
     as a context manager).  One Circuit must not be used by two threads at
     once; distinct circuits may."""
 
-    def __init__(self, _handle: ctypes.c_void_p, _source: tuple, _sets: Dict[str, str]):
-        self._h = _handle
-        self._source = _source  # ("file", path) or ("text", text, name)
-        self._sets = dict(_sets)
-        self._solved = False
+    def __init__(self, *args, **kwargs):
+        raise TypeError("make a Circuit with Circuit.from_file(path) or Circuit.from_text(text)")
+
+    @classmethod
+    def _wrap(cls, handle: ctypes.c_void_p, source: tuple, sets: Dict[str, str]) -> "Circuit":
+        """A Circuit over a C handle (it owns the handle from now on)."""
+        c = object.__new__(cls)
+        c._h = handle
+        c._source = source  # ("file", path) or ("text", text, name)
+        c._sets = dict(sets)
+        c._solved = False
+        return c
 
     # -- construction --
     @classmethod
@@ -424,7 +431,7 @@ class Circuit:
         else:
             data = source[1].encode("utf-8") if isinstance(source[1], str) else bytes(source[1])
             st = _lib.ls_circuit_parse_string(source[2].encode(), data, len(data), arr, n, ctypes.byref(h))
-        c = cls(h, source, sets)
+        c = cls._wrap(h, source, sets)
         if st < 0:
             diags = c.diagnostics() if h.value else []
             c.close()
