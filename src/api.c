@@ -17,6 +17,7 @@
 #include "sag.h"
 #include "sens.h"
 #include "sweep.h"
+#include "thevenin.h"
 #include "tolerance.h"
 
 #ifndef LS_VERSION
@@ -641,9 +642,34 @@ ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info 
         if (sst != LS_SOLVER_OK)
             return sst == LS_SOLVER_NOMEM ? LS_E_NOMEM : LS_E_UNSOLVABLE;
     }
+    /* the short-circuit current as the program finds it: exact where a part is nonlinear */
+    ls_th_side side = {.node = k, .vth = vth, .rth = rth};
+    ls_thevenin_norton(&c->op, &side, -1);
+    if (c->arena.failed)
+        return LS_E_NOMEM;
     out->vth = vth;
     out->rth = rth;
-    out->norton = rth == 0 ? (vth == 0 ? NAN : copysign(INFINITY, vth)) : vth / rth;
+    out->norton = side.norton;
+    return LS_OK;
+}
+
+ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_side *driver, ls_thevenin_side *load)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!port || !driver || !load)
+        return LS_E_ARGUMENT;
+    int i = ls_netlist_find_part(&c->nl, port);
+    if (i < 0 || !c->nl.parts[i].kind->is_port)
+        return LS_E_NOT_FOUND;
+    ls_th_side d, l;
+    ls_thevenin_sides(&c->op, -1, i, NAN, NAN, &d, &l);
+    if (c->arena.failed)
+        return LS_E_NOMEM;
+    *driver = (ls_thevenin_side){c->nl.nodes[d.node].name, d.vth, d.rth, d.norton,
+                                 d.why_vth ? d.why_vth : d.why_norton};
+    *load = (ls_thevenin_side){c->nl.nodes[l.node].name, l.vth, l.rth, NAN, l.why_vth};
     return LS_OK;
 }
 

@@ -305,10 +305,30 @@ ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sa
 typedef struct ls_thevenin_info {
     double vth;               /* V, open-circuit voltage */
     double rth;               /* ohm; +inf when nothing ties the node to ground */
-    double norton;            /* A, short-circuit current node -> ground (vth / rth) */
+    double norton;            /* A, short-circuit current node -> ground (see ls_circuit_thevenin) */
 } ls_thevenin_info;
 
+/* The equivalent at `node` (`loadstack thevenin FILE NODE`): vth and rth from
+ * the solved system (rth small-signal at the operating point); norton is
+ * vth / rth in a linear circuit, and where a part is nonlinear the current
+ * into a near-short solved with every limit active (so an output limit caps
+ * it).  Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED, LS_E_UNSOLVABLE or
+ * LS_E_NOMEM. */
 ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info *out);
+
+/* One side of a port opened, seen against ground. */
+typedef struct ls_thevenin_side {
+    const char *node;         /* the DRIVER or LOAD node */
+    double vth;               /* V at the node with the port opened (solved exactly) */
+    double rth;               /* ohm: the port's zout (driver side) or zin (load side) */
+    double norton;            /* A, short-circuit current (driver side); NaN on the load side */
+    const char *why;          /* "unsolved" when a re-solve failed (its field NaN), else NULL */
+} ls_thevenin_side;
+
+/* The equivalent of each side of `port` opened (`loadstack thevenin FILE
+ * PORT`).  Returns LS_OK, LS_E_NOT_FOUND (no port of that name),
+ * LS_E_NOT_SOLVED or LS_E_NOMEM. */
+ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_side *driver, ls_thevenin_side *load);
 
 /* How much one part's main value moves a quantity (adjoint method). */
 typedef struct ls_influence_entry {

@@ -26,9 +26,9 @@ libloadstack.so.0.  In a build tree:
     LOADSTACK_LIBRARY=build/src/libloadstack.so PYTHONPATH=python python3 ...
 """
 from ._api import (Circuit, CircuitError, Diagnostic, Formula, InfluenceRow, LoadstackError, OperatingPoint,
-                   Part, Port, SagReport, SagShare, SweepResult, Thevenin, ToleranceReport,
+                   Part, Port, PortThevenin, SagReport, SagShare, SweepResult, Thevenin, ToleranceReport,
                    library_version)
 
 __all__ = ["Circuit", "CircuitError", "Diagnostic", "Formula", "InfluenceRow", "LoadstackError", "OperatingPoint",
-           "Part", "Port", "SagReport", "SagShare", "SweepResult", "Thevenin", "ToleranceReport",
+           "Part", "Port", "PortThevenin", "SagReport", "SagShare", "SweepResult", "Thevenin", "ToleranceReport",
            "library_version"]

@@ -79,6 +79,11 @@ class _TheveninInfo(ctypes.Structure):
     _fields_ = [("vth", ctypes.c_double), ("rth", ctypes.c_double), ("norton", ctypes.c_double)]
 
 
+class _TheveninSide(ctypes.Structure):
+    _fields_ = [("node", ctypes.c_char_p), ("vth", ctypes.c_double), ("rth", ctypes.c_double),
+                ("norton", ctypes.c_double), ("why", ctypes.c_char_p)]
+
+
 class _InfluenceEntry(ctypes.Structure):
     _fields_ = [("part", ctypes.c_char_p), ("part_value", ctypes.c_double), ("per_unit", ctypes.c_double),
                 ("percent_per_percent", ctypes.c_double)]
@@ -130,6 +135,8 @@ _proto("ls_circuit_eval", _I, _P, ctypes.c_char_p, _c_double_p)
 _proto("ls_circuit_sag_ports", _I, _P, ctypes.c_char_p, ctypes.POINTER(_SagInfo),
        ctypes.POINTER(ctypes.POINTER(_SagShare)), ctypes.POINTER(_I))
 _proto("ls_circuit_thevenin", _I, _P, ctypes.c_char_p, ctypes.POINTER(_TheveninInfo))
+_proto("ls_circuit_thevenin_port", _I, _P, ctypes.c_char_p, ctypes.POINTER(_TheveninSide),
+       ctypes.POINTER(_TheveninSide))
 _proto("ls_circuit_influence", _I, _P, ctypes.c_char_p, _c_double_p,
        ctypes.POINTER(ctypes.POINTER(_InfluenceEntry)), ctypes.POINTER(_I))
 _proto("ls_circuit_set_value", _I, _P, ctypes.c_char_p, ctypes.c_double)
@@ -323,12 +330,23 @@ class SagReport:
 class Thevenin:
     """The Thevenin/Norton equivalent at a node against ground: vth (V), rth
     (ohm; inf when nothing ties the node to ground) and the short-circuit
-    current norton (A).  For a port, the driver side (vth = the port's open
-    voltage, rth = its zout)."""
+    current norton (A; nan where undefined, e.g. a port's load side); why
+    says "unsolved" when a re-solve failed."""
     node: str
     vth: float
     rth: float
     norton: float
+    why: Optional[str] = None
+
+
+@dataclass(frozen=True)
+class PortThevenin:
+    """Each side of a port opened: the driver side (what the port delivers:
+    vth the open voltage, rth the port's zout) and the load side (what it
+    feeds: rth the port's zin)."""
+    port: str
+    driver: Thevenin
+    load: Thevenin
 
 
 @dataclass(frozen=True)
@@ -607,14 +625,17 @@ class Circuit:
         return SagReport(node, info.voltage, info.alone, info.sag, info.interaction, bool(info.shapley),
                          _s(info.culprit), shares)
 
-    def thevenin(self, node_or_port: str) -> Thevenin:
-        """The Thevenin/Norton equivalent at a node, or at the driver side of a port."""
+    def thevenin(self, node_or_port: str) -> Union[Thevenin, PortThevenin]:
+        """The Thevenin/Norton equivalent at a node (a Thevenin), or at each
+        side of a port opened (a PortThevenin), as `loadstack thevenin`."""
         self._need_solved()
         h = self._handle()
-        p = _PortInfo()
-        if _lib.ls_circuit_port_by_name(h, node_or_port.encode(), ctypes.byref(p)) == 0:
-            norton = p.open / p.zout if p.zout != 0 else math.copysign(math.inf, p.open)
-            return Thevenin(_s(p.from_), p.open, p.zout, norton)
+        d, ld = _TheveninSide(), _TheveninSide()
+        st = _lib.ls_circuit_thevenin_port(h, node_or_port.encode(), ctypes.byref(d), ctypes.byref(ld))
+        if st != _LS_E_NOT_FOUND:
+            self._check(st)
+            side = lambda x: Thevenin(_s(x.node), x.vth, x.rth, x.norton, _s(x.why))  # noqa: E731
+            return PortThevenin(node_or_port, side(d), side(ld))
         t = _TheveninInfo()
         st = _lib.ls_circuit_thevenin(h, node_or_port.encode(), ctypes.byref(t))
         if st == _LS_E_NOT_FOUND:

@@ -93,11 +93,16 @@ for path in circuits:
                 same(f"{name} sag {share['name']}.{key}", getattr(mine, key), share.get(key))
     t = c.thevenin(node)
     rt = cli("thevenin", path, node)
-    # norton is left out: the library gives vth/rth (small-signal), the
-    # program re-solves with the node shorted (they differ where a part is
-    # nonlinear); see docs/python.md
-    for key in ("vth", "rth"):
+    for key in ("vth", "rth", "norton"):
         same(f"{name} thevenin {node}.{key}", getattr(t, key), rt.get(key))
+    for pname in ref.get("ports", {}):
+        pt = c.thevenin(pname)
+        rp = cli("thevenin", path, pname)
+        for side in ("driver", "load"):
+            mine = getattr(pt, side)
+            same(f"{name} thevenin {pname} {side} node", mine.node == rp[side]["node"], True)
+            for key in ("vth", "rth") + (("norton",) if side == "driver" else ()):
+                same(f"{name} thevenin {pname} {side}.{key}", getattr(mine, key), rp[side].get(key))
     rows = {r.part: r for r in c.influence(node)}
     ri = cli("influence", path, node)
     for item in ri["items"]:
