@@ -665,7 +665,8 @@ ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_
         return LS_E_NOT_FOUND;
     ls_th_side d, l;
     ls_thevenin_sides(&c->op, -1, i, NAN, NAN, &d, &l);
-    if (c->arena.failed)
+    const char *oom = "out of memory";
+    if (c->arena.failed || (d.why_vth && !strcmp(d.why_vth, oom)) || (l.why_vth && !strcmp(l.why_vth, oom)))
         return LS_E_NOMEM;
     *driver = (ls_thevenin_side){c->nl.nodes[d.node].name, d.vth, d.rth, d.norton,
                                  d.why_vth ? d.why_vth : d.why_norton};

@@ -87,23 +87,28 @@ static void side_loads(ls_op *op, ls_th_side *t, int opened, double rload, doubl
 }
 
 /* The node's own voltage with port pi opened, solved exactly; NaN when the
- * node is then left without a DC path (nothing sets it) or unsolvable. */
-static double opened_voltage(ls_op *op, int pi, int node, bool *unsolved)
+ * node is then left without a DC path (nothing sets it: *why stays NULL), or
+ * with *why "unsolved" or "out of memory". */
+static double opened_voltage(ls_op *op, int pi, int node, const char **why)
 {
     ls_runs base = {0};
     ls_variant v;
     double out = NAN;
-    *unsolved = false;
+    *why = NULL;
     if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
         ls_runs_free(&base);
+        *why = "out of memory";
         return NAN;
     }
     v.opened[pi] = LS_OPENED;
-    if (ls_variant_hold_floating(&v, op) >= 0 && !v.floating[node]) {
+    int held = ls_variant_hold_floating(&v, op);
+    if (held < 0)
+        *why = "out of memory";
+    else if (!v.floating[node]) {
         if (ls_variant_solve(&v, op, false) == LS_EXIT_OK)
             out = v.op.v[node];
         else
-            *unsolved = true;
+            *why = "unsolved";
     }
     ls_runs_restore(op->nl, &base);
     ls_runs_free(&base);
@@ -127,20 +132,15 @@ void ls_thevenin_sides(ls_op *op, int node, int port, double rload, double rmete
     }
     const ls_part *p = &op->nl->parts[port];
     const ls_port_result *pr = ls_op_port(op, port);
-    bool unsolved;
     drv->node = p->pin[0];
     drv->rth = pr->zout;
-    drv->vth = opened_voltage(op, port, drv->node, &unsolved);
-    if (isnan(drv->vth) && !unsolved)
+    drv->vth = opened_voltage(op, port, drv->node, &drv->why_vth);
+    if (isnan(drv->vth) && !drv->why_vth)
         drv->vth = pr->open;   /* a driver that floats once opened: the report's unbounded/undefined */
-    if (unsolved)
-        drv->why_vth = "unsolved";
     ls_thevenin_norton(op, drv, port);
     side_loads(op, drv, port, rload, rmeter);
     ld->node = p->pin[1];
     ld->rth = pr->zin;
-    ld->vth = opened_voltage(op, port, ld->node, &unsolved);
-    if (unsolved)
-        ld->why_vth = "unsolved";
+    ld->vth = opened_voltage(op, port, ld->node, &ld->why_vth);
     ld->norton = NAN;
 }

@@ -322,7 +322,8 @@ typedef struct ls_thevenin_side {
     double vth;               /* V at the node with the port opened (solved exactly) */
     double rth;               /* ohm: the port's zout (driver side) or zin (load side) */
     double norton;            /* A, short-circuit current (driver side); NaN on the load side */
-    const char *why;          /* "unsolved" when a re-solve failed (its field NaN), else NULL */
+    const char *why;          /* "unsolved" when a re-solve failed (its field NaN), else NULL; vth is also
+                                 NaN, with why NULL, when nothing sets the node once the port is open */
 } ls_thevenin_side;
 
 /* The equivalent of each side of `port` opened (`loadstack thevenin FILE

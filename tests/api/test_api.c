@@ -454,6 +454,27 @@ static void test_opamp_limit(void)
 
 /* NULL handles and pointers are refused, never dereferenced; two circuits
  * live side by side without sharing anything. */
+/* Each side of a port opened: a 10k/10k divider from 5 V (Thevenin: 2.5 V
+ * behind 10k || 10k = 5k, short-circuit 2.5 V / 5k = 0.5 mA) feeding a 20k
+ * load (nothing drives it: 0 V behind 20k). */
+static void test_thevenin_port(void)
+{
+    ls_circuit *c = solved("ground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> mid 10k\n"
+                           "resistor r2 mid -> gnd 10k\nport p mid -> in\nresistor rl in -> gnd 20k\n",
+                           NULL);
+    if (!c)
+        return;
+    ls_thevenin_side d, l;
+    CU_ASSERT_EQUAL(ls_circuit_thevenin_port(c, "p", &d, &l), LS_OK);
+    CU_ASSERT_STRING_EQUAL(d.node, "mid");
+    CU_ASSERT_STRING_EQUAL(l.node, "in");
+    CU_ASSERT(REL(d.vth, 2.5, 1e-12) && REL(d.rth, 5e3, 1e-9) && REL(d.norton, 0.5e-3, 1e-9));
+    CU_ASSERT(l.vth == 0 && REL(l.rth, 20e3, 1e-9) && isnan(l.norton));
+    CU_ASSERT_PTR_NULL(d.why);
+    CU_ASSERT_EQUAL(ls_circuit_thevenin_port(c, "r1", &d, &l), LS_E_NOT_FOUND);   /* a part, not a port */
+    ls_circuit_free(&c);
+}
+
 /* Tolerance of a 10k/10k divider from 10 V, both 1 %: the worst corners are
  * r1 high and r2 low (10 V * 9.9k / 20k = 4.95 V) and the reverse (5.05 V),
  * by the divider rule.  Monte Carlo with uniform +-1 %: every trial lies
@@ -562,7 +583,7 @@ int main(void)
         !CU_add_test(s, "diagnostics list", test_diagnostics) ||
         !CU_add_test(s, "warning", test_warning) || !CU_add_test(s, "missing file", test_missing_file) || !CU_add_test(s, "unsolvable", test_unsolvable) ||
         !CU_add_test(s, "checks", test_checks) || !CU_add_test(s, "op-amp limit", test_opamp_limit) ||
-        !CU_add_test(s, "tolerance", test_tol) || !CU_add_test(s, "sweep", test_sweep) ||
+        !CU_add_test(s, "thevenin of a port", test_thevenin_port) || !CU_add_test(s, "tolerance", test_tol) || !CU_add_test(s, "sweep", test_sweep) ||
         !CU_add_test(s, "NULL and side by side", test_null_and_side_by_side)) {
         CU_cleanup_registry();
         return 2;

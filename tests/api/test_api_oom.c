@@ -104,6 +104,15 @@ static void analyses(ls_circuit *c, long k)
         want(NEAR(th.vth, 2.0) && NEAR(th.rth, 4e3), "thevenin", k);
     if (ls_circuit_eval(c, "in - 1 V", &v) == LS_OK)
         want(NEAR(v, 1.0), "eval", k);
+    ls_thevenin_side td, tl;   /* the port opened: 2.5 V behind 5k; 20k to ground behind it */
+    if (ls_circuit_thevenin_port(c, "p", &td, &tl) == LS_OK) {
+        if (td.why || tl.why)
+            degraded++;
+        else
+            want(NEAR(td.vth, 2.5) && NEAR(td.rth, 5e3) && NEAR(td.norton, 0.5e-3) && tl.vth == 0 &&
+                     NEAR(tl.rth, 20e3),
+                 "thevenin_port", k);
+    }
     ls_sag_info si;
     ls_sag_share *sh = NULL;
     if (ls_circuit_sag_ports(c, "mid", &si, &sh, &n) == LS_OK) {   /* the port alone carries the sag */
