@@ -44,14 +44,17 @@ _loadstack_nodes_ports()
 }
 
 # What a QUANTITY may name in circuit file $1: node names, PART.current,
-# PART.voltage, PART.power and the fields of every PORT.
+# PART.voltage, PART.power, an adc's and a thermistor's own properties and the
+# fields of every PORT.  (The first rule that matches a line prints it.)
 _loadstack_quantities()
 {
     [ -r "$1" ] || return
     "${_loadstack_prog:-loadstack}" solve "$1" --format json 2>/dev/null | sed -n \
         -e '/^  "nodes": {/,/^  }/s/^    "\([^"]*\)":.*/\1/p' \
+        -e '/^  "parts": {/,/^  }/s/^    "\([^"]*\)": {"kind": "adc".*/\1.current\n\1.voltage\n\1.power\n\1.code\n\1.error_lsb\n\1.unloaded\n\1.source/p' \
+        -e '/^  "parts": {/,/^  }/s/^    "\([^"]*\)": {"kind": "ntc".*/\1.current\n\1.voltage\n\1.power\n\1.resistance\n\1.temperature/p' \
         -e '/^  "parts": {/,/^  }/s/^    "\([^"]*\)":.*/\1.current\n\1.voltage\n\1.power/p' \
-        -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1.open\n\1.loaded\n\1.sag\n\1.sag_rel\n\1.zout\n\1.zin\n\1.ratio\n\1.current/p'
+        -e '/^  "ports": {/,/^  }/s/^    "\([^"]*\)":.*/\1.open\n\1.loaded\n\1.sag\n\1.sag_rel\n\1.zout\n\1.zin\n\1.ratio\n\1.current\n\1.budget/p'
 }
 
 # Part names of circuit file $1, from the solve report in JSON.

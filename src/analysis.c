@@ -402,6 +402,15 @@ int ls_op_resolve(ls_op *op)
     part_results(op);
     for (int i = 0; i < nl->nparts; i++)
         op->port[i].done = false;
+    /* a switch's state may have changed the DC paths: the bridges are redone on demand */
+    free(op->bridge_part);
+    free(op->bridge_child);
+    op->bridge_part = NULL;
+    op->bridge_child = NULL;
+    free(op->tin);
+    free(op->tout);
+    free(op->low);
+    op->tin = op->tout = op->low = NULL;
     return LS_EXIT_OK;
 }
 
@@ -433,6 +442,26 @@ double ls_op_min_ratio(const ls_op *op)
 
 /* ---- quantities ----------------------------------------------------------------------- */
 
+/* An adc's or a thermistor's property (NaN when part is neither). */
+static double real_prop(ls_op *op, int part, ls_prop prop)
+{
+    const ls_part *p = &op->nl->parts[part];
+    ls_adc_result a;
+    if (prop == PROP_RESISTANCE || prop == PROP_TEMPERATURE) {
+        double t = ls_ntc_body(p);
+        return prop == PROP_TEMPERATURE ? t : ls_ntc_r(p, t);
+    }
+    if (ls_op_adc(op, part, &a) != 0)
+        return NAN;
+    switch (prop) {
+    case PROP_CODE: return (double)a.code;
+    case PROP_ERROR_LSB: return a.error_lsb;
+    case PROP_UNLOADED: return a.v_open;
+    case PROP_SOURCE: return a.rth;
+    default: return NAN;
+    }
+}
+
 static double prop_value(ls_op *op, int part, ls_prop prop)
 {
     const ls_port_result *pr;
@@ -440,6 +469,9 @@ static double prop_value(ls_op *op, int part, ls_prop prop)
     case PROP_CURRENT: return op->ipart[part];
     case PROP_VOLTAGE: return op->vpart[part];
     case PROP_POWER: return op->ppart[part];
+    case PROP_VALUE: return op->nl->parts[part].value;
+    case PROP_CODE: case PROP_ERROR_LSB: case PROP_UNLOADED: case PROP_SOURCE:
+    case PROP_RESISTANCE: case PROP_TEMPERATURE: return real_prop(op, part, prop);
     default: break;
     }
     pr = ls_op_port(op, part);
@@ -453,6 +485,7 @@ static double prop_value(ls_op *op, int part, ls_prop prop)
     case PROP_ZOUT: return pr->zout;
     case PROP_ZIN: return pr->zin;
     case PROP_RATIO: return pr->ratio;
+    case PROP_BUDGET: return pr->budget;
     default: return NAN;
     }
 }
@@ -475,10 +508,20 @@ double ls_q_eval(ls_op *op, const ls_q *q)
     return NAN;
 }
 
+/* Slack (same unit as limit) within which a comparison against `limit`
+ * holds: a relative 1e-9 of it (language.md, Checks), so the rounding of a
+ * computed value (a ratio of 999.9999999999998 against 1000) never decides a
+ * check. */
+double ls_check_slack(double limit)
+{
+    return isfinite(limit) ? LS_CHECK_REL * fabs(limit) : 0;
+}
+
 void ls_check_eval(ls_op *op, const ls_check *c, ls_check_result *r)
 {
     memset(r, 0, sizeof *r);
     double L = ls_q_eval(op, c->lhs), R = ls_q_eval(op, c->rhs);
+    double sR = ls_check_slack(R);
     r->value = L;
     r->lo = -INFINITY;
     r->hi = INFINITY;
@@ -488,18 +531,18 @@ void ls_check_eval(ls_op *op, const ls_check *c, ls_check_result *r)
         double tol = c->relative ? fabs(w * R) : fabs(w);
         r->lo = R - tol;
         r->hi = R + tol;
-        r->pass = fabs(L - R) <= tol || L == R;
+        r->pass = fabs(L - R) <= tol + sR || L == R;
         break;
     }
-    case CMP_LT: r->hi = R; r->pass = L < R; break;
-    case CMP_LE: r->hi = R; r->pass = L <= R; break;
-    case CMP_GT: r->lo = R; r->pass = L > R; break;
-    case CMP_GE: r->lo = R; r->pass = L >= R; break;
+    case CMP_LT: r->hi = R; r->pass = L < R + sR; break;
+    case CMP_LE: r->hi = R; r->pass = L <= R + sR; break;
+    case CMP_GT: r->lo = R; r->pass = L > R - sR; break;
+    case CMP_GE: r->lo = R; r->pass = L >= R - sR; break;
     case CMP_BETWEEN: {
         double H = ls_q_eval(op, c->rhs2);
         r->lo = fmin(R, H);
         r->hi = fmax(R, H);
-        r->pass = L >= r->lo && L <= r->hi;
+        r->pass = L >= r->lo - ls_check_slack(r->lo) && L <= r->hi + ls_check_slack(r->hi);
         break;
     }
     }

@@ -25,9 +25,18 @@ typedef struct ls_port_result {
     bool done;
     bool current_mode;
     double open, loaded, sag, sag_rel, zout, zin, ratio, current;  /* NaN undefined, inf unbounded */
+    double load_open;        /* V(LOAD) with the port opened (voltage mode; NaN when unknown) */
+    double budget;           /* largest |sag| allowed (V, or A in current mode); NaN: none */
+    int budget_from;         /* LS_BUDGET_FROM_*: where the budget comes from */
+    int adc;                 /* an adc part on the load node (the one with the smallest LSB), or -1 */
+    bool by_budget;          /* the verdict was decided by the budget, not the ratio rule */
+    bool load_held;          /* the load side floats when opened: held at its loaded voltage */
     ls_verdict verdict;
     const char *note;        /* why a field is undefined, or NULL */
 } ls_port_result;
+
+/* Where a port's budget comes from. */
+enum { LS_BUDGET_FROM_NONE, LS_BUDGET_FROM_PORT, LS_BUDGET_FROM_RULE, LS_BUDGET_FROM_ADC };
 
 typedef struct ls_op {
     const ls_netlist *nl;
@@ -83,6 +92,12 @@ typedef struct ls_check_result {
 
 void ls_check_eval(ls_op *op, const ls_check *c, ls_check_result *r);
 
+/* A comparison holds within this relative distance of its limit. */
+#define LS_CHECK_REL 1e-9
+/* The slack (in the limit's unit) a comparison against limit allows; 0 for an
+ * infinite limit. */
+double ls_check_slack(double limit);
+
 /* ---- modified systems (low-rank updates of the factored system) ---- */
 
 /* A modification of the base system A x = b: a few changed rows (and rhs
@@ -90,7 +105,10 @@ void ls_check_eval(ls_op *op, const ls_check *c, ls_check_result *r);
  * or through a fresh factorization when the rank is large. */
 typedef struct ls_mod ls_mod;
 
-typedef enum ls_mod_kind { MOD_REMOVE_PART, MOD_SHORT_PORT_TO_GROUND } ls_mod_kind;
+/* MOD_HOLD_PORT_LOAD: a port opened with its load end held at its loaded
+ * voltage (a source from ground through the port's own branch unknown), for
+ * a load side that has no DC path of its own once the port is open. */
+typedef enum ls_mod_kind { MOD_REMOVE_PART, MOD_SHORT_PORT_TO_GROUND, MOD_HOLD_PORT_LOAD } ls_mod_kind;
 
 /* Build the modification "part p removed" (a port opened).  Never NULL unless
  * out of memory; check ls_mod_singular. */

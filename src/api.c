@@ -430,6 +430,9 @@ static ls_status port_info(ls_circuit *c, int p, ls_port_info *out)
     out->current = r->current;
     out->verdict = verdict[r->verdict];
     out->note = r->note;
+    out->budget = r->budget;
+    out->by_budget = r->by_budget;
+    out->load_held = r->load_held;
     return c->arena.failed ? LS_E_NOMEM : LS_OK;
 }
 

@@ -2,6 +2,7 @@
  * values and bind the checks.  Errors are collected; elaboration goes on past
  * them so one run reports as much as it can. */
 #include "elab.h"
+#include "mna.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -32,6 +33,7 @@ typedef struct elab {
     int nlocals, cap_locals;
     bool nodes_capped, parts_capped;  /* LS_MAX_NODES / LS_MAX_PARTS reported */
     bool oom;                         /* out of memory reported */
+    bool allow_lsb;                   /* evaluating a port's budget=: LSB is a unit here */
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -73,6 +75,7 @@ void ls_netlist_free(ls_netlist *nl)
     free(nl->nodes);
     free(nl->parts);
     free(nl->checks);
+    free(nl->budgets);
     free(nl->params);
     free(nl->ents);
     ls_hash_free(&nl->names);
@@ -394,13 +397,24 @@ double ls_apply_func(int f, const double *v, int n)
 
 double ls_apply_op(int op, double a, double b) { return apply(op, a, b); }
 
+/* LSB is a unit only in a port's budget= (where an adc on the load side
+ * defines it); anywhere else it is an error at its column. */
+static bool lsb_allowed(elab *x, const ls_expr *e)
+{
+    if (!ls_dims_is_lsb(e->dims) || x->allow_lsb)
+        return true;
+    ls_error(x->d, e->loc, "'LSB' is a unit only in a port's budget= (the LSB of the adc on its load side); "
+                           "write volts or a %% here");
+    return false;
+}
+
 static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *d)
 {
     switch (e->kind) {
     case E_NUM:
         *v = e->num;
         *d = e->dims;
-        return true;
+        return lsb_allowed(x, e);
     case E_NAME: {
         const ls_param *p = param_ref(x, s, e->name);
         if (p) {
@@ -483,8 +497,50 @@ static bool eval_slot(elab *x, const scope *s, const ls_expr *e, ls_dims want, d
 const char *ls_prop_name(ls_prop p)
 {
     static const char *const n[PROP_COUNT] = {"current", "voltage", "power", "open", "loaded",
-                                              "sag", "sag_rel", "zout", "zin", "ratio"};
+                                              "sag", "sag_rel", "zout", "zin", "ratio", "budget",
+                                              "value", "code", "error_lsb", "unloaded", "source",
+                                              "resistance", "temperature"};
     return n[p];
+}
+
+/* Dimension of a part's main value (its VALUE, or the option marked main). */
+static ls_dims main_dims(const ls_kind *k)
+{
+    for (int i = 0; i < k->nopts; i++)
+        if (k->opts[i].flags & OPTF_MAIN)
+            return k->opts[i].dims;
+    return k->value_dims;
+}
+
+bool ls_prop_applies(const ls_part *p, ls_prop prop)
+{
+    const char *k = p->kind->name;
+    switch (prop) {
+    case PROP_CURRENT: return true;
+    case PROP_VOLTAGE: case PROP_POWER: return !p->kind->is_port;
+    case PROP_VALUE: return !p->kind->is_port && p->has_value;
+    case PROP_CODE: case PROP_ERROR_LSB: case PROP_UNLOADED: case PROP_SOURCE: return strcmp(k, "adc") == 0;
+    case PROP_RESISTANCE: case PROP_TEMPERATURE: return strcmp(k, "ntc") == 0;
+    default: return p->kind->is_port; /* open .. budget */
+    }
+}
+
+/* The properties of p, "current, voltage, power, value", into buf (n bytes). */
+static const char *prop_list(const ls_part *p, char *buf, size_t n)
+{
+    buf[0] = 0;
+    int k = 0, last = -1;
+    for (int i = 0; i < PROP_COUNT; i++)
+        if (ls_prop_applies(p, (ls_prop)i))
+            last = i;
+    for (int i = 0; i < PROP_COUNT; i++) {
+        if (!ls_prop_applies(p, (ls_prop)i))
+            continue;
+        if (k++)
+            strncat(buf, i == last ? " or " : ", ", n - strlen(buf) - 1);
+        strncat(buf, ls_prop_name((ls_prop)i), n - strlen(buf) - 1);
+    }
+    return buf;
 }
 
 ls_dims ls_prop_dims(const ls_part *p, ls_prop prop)
@@ -494,9 +550,11 @@ ls_dims ls_prop_dims(const ls_part *p, ls_prop prop)
     case PROP_CURRENT: return LS_AMP;
     case PROP_VOLTAGE: return LS_VOLT;
     case PROP_POWER: return LS_WATT;
-    case PROP_OPEN: case PROP_LOADED: case PROP_SAG: return cur ? LS_AMP : LS_VOLT;
-    case PROP_ZOUT: case PROP_ZIN: return LS_OHM;
-    default: return LS_FREE;
+    case PROP_OPEN: case PROP_LOADED: case PROP_SAG: case PROP_BUDGET: return cur ? LS_AMP : LS_VOLT;
+    case PROP_ZOUT: case PROP_ZIN: case PROP_SOURCE: case PROP_RESISTANCE: return LS_OHM;
+    case PROP_UNLOADED: return LS_VOLT;
+    case PROP_VALUE: return main_dims(p->kind);
+    default: return LS_FREE;   /* ratio, sag_rel, code, error_lsb, temperature (degC) */
     }
 }
 
@@ -545,10 +603,9 @@ static ls_q *bind_name(elab *x, const scope *s, const ls_expr *e)
         }
         if (o->kind == ENT_PART) {
             const ls_part *pt = &nl->parts[o->index];
+            char props[256];
             ls_error(x->d, e->loc, "'%s' is a %s; name a property: %s.%s", e->name,
-                     pt->kind->is_port ? "port" : "part", e->name,
-                     pt->kind->is_port ? "open, loaded, sag, sag_rel, zout, zin, ratio or current"
-                                       : "current, voltage or power");
+                     pt->kind->is_port ? "port" : "part", e->name, prop_list(pt, props, sizeof props));
             return NULL;
         }
         ls_error(x->d, e->loc, "'%s' is a %s; a node voltage or a property is expected", e->name,
@@ -561,18 +618,19 @@ static ls_q *bind_name(elab *x, const scope *s, const ls_expr *e)
         int pe = base ? ls_hash_get(&nl->names, base) : -1;
         if (pe >= 0 && nl->ents[pe].kind == ENT_PART) {
             const ls_part *pt = &nl->parts[nl->ents[pe].index];
+            char props[256];
             for (int k = 0; k < PROP_COUNT; k++) {
                 if (strcmp(dot + 1, ls_prop_name((ls_prop)k)) != 0)
                     continue;
-                bool port_only = k >= PROP_OPEN;
-                if (port_only && !pt->kind->is_port) {
-                    ls_error(x->d, e->loc, "'%s' is only a property of ports, and '%s' is a %s", dot + 1,
-                             base, pt->kind->name);
-                    return NULL;
-                }
                 if (pt->kind->is_port && (k == PROP_VOLTAGE || k == PROP_POWER)) {
                     ls_error(x->d, e->loc, "a port has no '%s' (it is a zero-volt connection); try %s.loaded",
                              dot + 1, base);
+                    return NULL;
+                }
+                if (!ls_prop_applies(pt, (ls_prop)k)) {
+                    ls_error(x->d, e->loc, "%s '%s' has no property '%s'%s; its properties are %s", pt->kind->name,
+                             base, dot + 1, k == PROP_VALUE ? " (it has no main value)" : "",
+                             prop_list(pt, props, sizeof props));
                     return NULL;
                 }
                 ls_q *q = new_q(x, Q_PROP, e->loc);
@@ -583,7 +641,8 @@ static ls_q *bind_name(elab *x, const scope *s, const ls_expr *e)
                 }
                 return q;
             }
-            ls_error(x->d, e->loc, "'%s' has no property '%s'", base, dot + 1);
+            ls_error(x->d, e->loc, "%s '%s' has no property '%s'; its properties are %s", pt->kind->name, base,
+                     dot + 1, prop_list(pt, props, sizeof props));
             return NULL;
         }
     }
@@ -596,6 +655,8 @@ static ls_q *bind(elab *x, const scope *s, const ls_expr *e)
     ls_q *q = NULL;
     switch (e->kind) {
     case E_NUM:
+        if (!lsb_allowed(x, e))
+            return NULL;
         q = new_q(x, Q_CONST, e->loc);
         if (q) {
             q->value = e->num;
@@ -641,6 +702,101 @@ static ls_q *bind(elab *x, const scope *s, const ls_expr *e)
     }
     }
     return NULL;
+}
+
+/* ---- budgets ------------------------------------------------------------------------- */
+
+/* Evaluate a sag budget (budget= or `rule sag`): volts, amperes, a pure
+ * number or % (a fraction of open) or, with lsb, LSB.  Fills *b; false after
+ * an error at the value. */
+static bool eval_budget(elab *x, const scope *s, const ls_expr *e, bool lsb, ls_budget *b)
+{
+    ls_dims d;
+    double v;
+    x->allow_lsb = lsb;
+    bool ok = eval(x, s, e, &v, &d);
+    x->allow_lsb = false;
+    if (!ok)
+        return false;
+    d = norm(d);
+    char buf[64];
+    if (!d.known)
+        b->unit = LS_BUDGET_FRACTION;
+    else if (ls_dims_is_lsb(d))
+        b->unit = LS_BUDGET_LSB;
+    else if (ls_dims_eq(d, LS_VOLT))
+        b->unit = LS_BUDGET_VOLT;
+    else if (ls_dims_eq(d, LS_AMP))
+        b->unit = LS_BUDGET_AMP;
+    else {
+        ls_error(x->d, e->loc, "a sag budget is volts, a %% of the open value%s; got %s ('%s')",
+                 lsb ? " or LSB" : "", dname(d, buf, sizeof buf), src_text(x, e->loc));
+        return false;
+    }
+    if (!(v > 0)) {
+        ls_error(x->d, e->loc, "a sag budget must be above zero ('%s')", src_text(x, e->loc));
+        return false;
+    }
+    b->value = v;
+    b->loc = e->loc;
+    return true;
+}
+
+/* A port's budget=: stored in nl->budgets, its index into *index. */
+static bool add_budget(elab *x, const scope *s, const ls_expr *e, double *index)
+{
+    ls_netlist *nl = x->nl;
+    ls_budget b;
+    if (!eval_budget(x, s, e, true, &b) ||
+        !grow_x(x, (void **)&nl->budgets, &nl->cap_budgets, nl->nbudgets + 1, sizeof *nl->budgets))
+        return false;
+    nl->budgets[nl->nbudgets] = b;
+    *index = nl->nbudgets++;
+    return true;
+}
+
+int ls_port_adc(const ls_netlist *nl, int port)
+{
+    int load = nl->parts[port].pin[1], best = -1;
+    double best_lsb = INFINITY;
+    if (load <= 0)
+        return -1;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (strcmp(p->kind->name, "adc") != 0 || p->pin[0] != load)
+            continue;
+        double lsb = ls_adc_lsb(p);
+        if (lsb < best_lsb) {
+            best_lsb = lsb;
+            best = i;
+        }
+    }
+    return best;
+}
+
+/* Budgets whose unit does not fit their port: LSB without an adc on the load
+ * node, volts on a current-mode port, amperes on a voltage-mode one. */
+static void check_budgets(elab *x)
+{
+    ls_netlist *nl = x->nl;
+    int bi = ls_kind_opt(ls_kind_find("port"), "budget");
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_port || !ls_part_has(p, bi))
+            continue;
+        const ls_budget *b = &nl->budgets[(int)p->opt[bi]];
+        bool cur = ls_part_opt(p, "mode", 0) == 1;
+        if (b->unit == LS_BUDGET_LSB && (cur || ls_port_adc(nl, i) < 0))
+            ls_error(x->d, b->loc, "budget in LSB needs an adc input on the port's load node, and '%s' has none%s; "
+                     "write volts or a %% of the open value",
+                     nl->nodes[p->pin[1]].name, cur ? " (and a current-mode port's sag is a current)" : "");
+        else if (b->unit == LS_BUDGET_VOLT && cur)
+            ls_error(x->d, b->loc, "port '%s' is current-mode: its sag, and so its budget, is a current (or a %%)",
+                     p->name);
+        else if (b->unit == LS_BUDGET_AMP && !cur)
+            ls_error(x->d, b->loc, "port '%s' is voltage-mode: its budget is volts, a %% or LSB, not a current",
+                     p->name);
+    }
 }
 
 /* ---- statements --------------------------------------------------------------------- */
@@ -961,6 +1117,12 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         switch (od->kind) {
         case OPT_VALUE: {
             double v;
+            if (od->flags & OPTF_BUDGET) {
+                if (!add_budget(x, s, o->value, &v))
+                    continue;
+                p.opt[oi] = v;
+                break;
+            }
             if (!eval_slot(x, s, o->value, od->dims, &v) || !check_flags(x, od->flags, v, o->value->loc, o->name))
                 continue;
             if (od->flags & OPTF_MAIN) {
@@ -1311,6 +1473,12 @@ static void ground_and_title(elab *x, const ls_program *prog)
                 ls_error(x->d, s->loc, "a second 'title': a circuit has one title");
             else
                 t = s;
+        } else if (s->kind == S_RULE && strcmp(s->name, "sag") == 0) {
+            scope top = {"", NULL, NULL, 0};
+            if (nl->has_rule_sag)
+                ls_error(x->d, s->loc, "a second 'rule sag'; keep one");
+            else if (eval_budget(x, &top, s->rhs, false, &nl->rule_sag))
+                nl->has_rule_sag = true;
         } else if (s->kind == S_RULE) {
             if (nl->has_rule) {
                 ls_error(x->d, s->loc, "a second 'rule ratio'; keep one");
@@ -1390,9 +1558,85 @@ static void resolve_refs(elab *x)
     }
 }
 
+/* The node with a name nearest to node i's (edit distance at most 2) among
+ * the nodes some part touches (cnt), or -1. */
+static int near_node(const ls_netlist *nl, int i, const int *cnt)
+{
+    int best = -1, bd = 3;
+    for (int j = 0; j < nl->nnodes; j++) {
+        if (j == i || cnt[j] < 1)
+            continue;
+        int d = ls_edit_distance(nl->nodes[i].name, nl->nodes[j].name);
+        if (d < bd) {
+            bd = d;
+            best = j;
+        }
+    }
+    return best;
+}
+
+/* Edge callback: a DC path joins its two nodes' groups (ctx: the parents). */
+static void join_edge(void *ctx, int a, int b, bool vdef, int part)
+{
+    (void)vdef;
+    (void)part;
+    if (a >= 0 && b >= 0)
+        ls_uf_union(ctx, a, b);
+}
+
+/* A node that only one pin of one part touches joins nothing: most often a
+ * mistyped name that made a new node.  Suggestions are looked for only for
+ * the first few (each costs a pass over the nodes). */
+static void single_connection_warnings(elab *x)
+{
+    ls_netlist *nl = x->nl;
+    int *cnt = calloc((size_t)(nl->nnodes ? nl->nnodes : 1), sizeof *cnt);
+    int *who = malloc((size_t)(nl->nnodes ? nl->nnodes : 1) * sizeof *who);
+    if (!cnt || !who) {
+        free(cnt);
+        free(who);
+        return;
+    }
+    for (int i = 0; i < nl->nparts; i++)
+        for (int j = 0; j < nl->parts[i].kind->npins; j++) {
+            int n = nl->parts[i].pin[j];
+            if (n >= 0 && n < nl->nnodes) {
+                cnt[n]++;
+                who[n] = i;
+            }
+        }
+    /* a node with no DC path to ground gets the topology error instead */
+    int *parent = malloc((size_t)(nl->nnodes ? nl->nnodes : 1) * sizeof *parent);
+    if (!parent) {
+        free(cnt);
+        free(who);
+        return;
+    }
+    for (int i = 0; i < nl->nnodes; i++)
+        parent[i] = i;
+    for (int i = 0; i < nl->nparts; i++)
+        nl->parts[i].kind->edges(&nl->parts[i], parent, join_edge);
+    int warned = 0;
+    for (int i = 1; i < nl->nnodes; i++) {
+        if (cnt[i] != 1 || ls_uf_find(parent, i) != ls_uf_find(parent, 0))
+            continue;
+        const ls_part *p = &nl->parts[who[i]];
+        int near = warned++ < 20 ? near_node(nl, i, cnt) : -1;
+        ls_warning(x->d, nl->nodes[i].loc, "single-connection",
+                   "node '%s' has only one connection (%s '%s'), so it joins nothing; is the name mistyped?%s%s%s",
+                   nl->nodes[i].name, p->kind->name, p->name, near >= 0 ? " (did you mean '" : "",
+                   near >= 0 ? nl->nodes[near].name : "", near >= 0 ? "'?)" : "");
+    }
+    free(cnt);
+    free(who);
+    free(parent);
+}
+
 static void final_checks(elab *x)
 {
     ls_netlist *nl = x->nl;
+    if (x->d->errors == 0)
+        single_connection_warnings(x);
     for (int i = 0; i < nl->nnodes; i++) {
         const ls_node *n = &nl->nodes[i];
         if (n->dotted_ref && !n->claimed) {
@@ -1551,6 +1795,7 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
         elab_body(&x, &top, prog->stmts, prog->n);
     }
     resolve_refs(&x);
+    check_budgets(&x);
     final_checks(&x);
     /* names and syntax live in the arena: a failed allocation there may have
      * left a name or a value out */

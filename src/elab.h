@@ -30,6 +30,10 @@ ls_q *ls_bind_quantity(ls_netlist *nl, const ls_expr *e);
 /* Dimensions of a property of a part. */
 ls_dims ls_prop_dims(const ls_part *p, ls_prop prop);
 const char *ls_prop_name(ls_prop p);
+/* Does part p have property prop (an adc its code, a port its budget, ...)? */
+bool ls_prop_applies(const ls_part *p, ls_prop prop);
+/* The adc whose input is port's load node (the one with the smallest LSB), or -1. */
+int ls_port_adc(const ls_netlist *nl, int port);
 
 /* Arithmetic shared by every evaluator: a binary operator (an ls_tok) and the
  * built-in functions (an ls_func). */

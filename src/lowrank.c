@@ -19,6 +19,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "elab.h"
+#include "fmt.h"
 #include "lowrank.h"
 #include "newton.h"
 #include "variant.h"
@@ -276,6 +278,8 @@ static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
             nl->parts[i].kind->edges(&nl->parts[i], &u, uf_edge);
     if (kind == MOD_SHORT_PORT_TO_GROUND)
         ls_uf_union(parent, 0, p->pin[0]);
+    if (kind == MOD_HOLD_PORT_LOAD)
+        ls_uf_union(parent, 0, p->pin[1]);
     int count = 0;
     for (int i = 1; i < nn; i++)
         if (ls_uf_find(parent, i) != ls_uf_find(parent, 0)) {
@@ -314,6 +318,15 @@ static int delta_triplets(ls_mod *m, int part, ls_mod_kind kind, ls_triplets *t)
         s.scale = 1;
         c.removed = true;
         p->kind->stamp(p, &c);
+    } else if (kind == MOD_HOLD_PORT_LOAD) {
+        /* The driver end is disconnected (its KCL entry and its voltage in
+         * the branch row dropped): the row becomes -V(load) = -v_loaded, and
+         * the branch current is what holds the load end there. */
+        s.scale = 1;
+        int f = ls_node_unknown(p->pin[0]), k = p->branch;
+        ls_sink_a(&s, f, k, -1);
+        ls_sink_a(&s, k, f, -1);
+        m->db[k] = -op->v[p->pin[1]];
     } else {
         /* The port's load end is disconnected and its driver end shorted to
          * ground: drop the load-side KCL entry and the load voltage from the
@@ -896,6 +909,176 @@ double ls_op_zdrive(ls_op *op, int node)
     return z;
 }
 
+/* ---- bridges of the DC graph: which ports float a side when opened -------------------------- */
+
+typedef struct edge_list {
+    int *a, *b, *part;
+    int n, cap;
+    int cur;                 /* the part whose edges are being listed */
+    bool failed;
+} edge_list;
+
+/* Edge callback: record one DC path with the part that makes it. */
+static void list_edge(void *ctx, int a, int b, bool vdef, int part)
+{
+    (void)vdef;
+    (void)part;
+    edge_list *e = ctx;
+    if (a < 0 || b < 0 || a == b || e->failed)
+        return;
+    if (e->n == e->cap) {
+        int c = e->cap ? 2 * e->cap : 64;
+        int *na = realloc(e->a, (size_t)c * sizeof *na);
+        if (na)
+            e->a = na;
+        int *nb = realloc(e->b, (size_t)c * sizeof *nb);
+        if (nb)
+            e->b = nb;
+        int *np = realloc(e->part, (size_t)c * sizeof *np);
+        if (np)
+            e->part = np;
+        if (!na || !nb || !np) {
+            e->failed = true;
+            return;
+        }
+        e->cap = c;
+    }
+    e->a[e->n] = a;
+    e->b[e->n] = b;
+    e->part[e->n++] = e->cur;
+}
+
+/* The DC graph's bridges, once per operating point: op->tin/tout (DFS entry
+ * and exit times from ground, -1 when a node is not reached), and for every
+ * part whose only DC path is a bridge, bridge_part and bridge_child (the end
+ * of it away from ground).  Iterative (a grid can be deep).  A structural
+ * answer: which side of an opened port loses its DC path is a matter of
+ * topology, never of a threshold on a nearly singular solve.  0, or -1 when
+ * out of memory. */
+static int dc_bridges(ls_op *op)
+{
+    if (op->bridge_part)
+        return 0;
+    const ls_netlist *nl = op->nl;
+    int nn = nl->nnodes, np = nl->nparts;
+    edge_list e = {0};
+    int *nedges = calloc((size_t)(np ? np : 1), sizeof *nedges);
+    for (int i = 0; i < np && nedges; i++) {
+        int before = e.n;
+        e.cur = i;
+        nl->parts[i].kind->edges(&nl->parts[i], &e, list_edge);
+        nedges[i] = e.n - before;
+    }
+    int *ptr = calloc((size_t)nn + 1, sizeof *ptr);
+    int *adj = malloc((size_t)(2 * e.n + 1) * sizeof *adj);   /* edge ids */
+    int *stack = malloc((size_t)(nn + 1) * sizeof *stack), *it = malloc((size_t)(nn + 1) * sizeof *it);
+    int *via = malloc((size_t)(nn + 1) * sizeof *via);
+    op->tin = malloc((size_t)nn * sizeof *op->tin);
+    op->tout = malloc((size_t)nn * sizeof *op->tout);
+    op->low = malloc((size_t)nn * sizeof *op->low);
+    op->bridge_part = calloc((size_t)(np ? np : 1), sizeof *op->bridge_part);
+    op->bridge_child = malloc((size_t)(np ? np : 1) * sizeof *op->bridge_child);
+    int rc = -1;
+    if (e.failed || !nedges || !ptr || !adj || !stack || !it || !via || !op->tin || !op->tout || !op->low ||
+        !op->bridge_part || !op->bridge_child)
+        goto done;
+    for (int k = 0; k < e.n; k++) {
+        ptr[e.a[k] + 1]++;
+        ptr[e.b[k] + 1]++;
+    }
+    for (int i = 0; i < nn; i++)
+        ptr[i + 1] += ptr[i];
+    {
+        int *fill = it;   /* borrowed as the fill cursor */
+        memcpy(fill, ptr, (size_t)nn * sizeof *fill);
+        for (int k = 0; k < e.n; k++) {
+            adj[fill[e.a[k]]++] = k;
+            adj[fill[e.b[k]]++] = k;
+        }
+    }
+    for (int i = 0; i < nn; i++)
+        op->tin[i] = op->tout[i] = -1;
+    for (int i = 0; i < np; i++)
+        op->bridge_child[i] = -1;
+    int clock = 0, top = 0;
+    stack[top] = 0;
+    it[0] = ptr[0];
+    via[0] = -1;
+    op->tin[0] = op->low[0] = clock++;
+    while (top >= 0) {
+        int u = stack[top];
+        if (it[u] < ptr[u + 1]) {
+            int k = adj[it[u]++];
+            if (k == via[top])
+                continue;        /* the tree edge back to the parent (a parallel edge is another id) */
+            int w = e.a[k] == u ? e.b[k] : e.a[k];
+            if (op->tin[w] < 0) {
+                op->tin[w] = op->low[w] = clock++;
+                stack[++top] = w;
+                it[w] = ptr[w];
+                via[top] = k;
+            } else if (op->tin[w] < op->low[u]) {
+                op->low[u] = op->tin[w];
+            }
+            continue;
+        }
+        op->tout[u] = clock;
+        if (top > 0) {
+            int parent = stack[top - 1], k = via[top];
+            if (op->low[u] < op->low[parent])
+                op->low[parent] = op->low[u];
+            if (op->low[u] > op->tin[parent] && nedges[e.part[k]] == 1) {
+                op->bridge_part[e.part[k]] = true;
+                op->bridge_child[e.part[k]] = u;
+            }
+        }
+        top--;
+    }
+    rc = 0;
+done:
+    free(e.a);
+    free(e.b);
+    free(e.part);
+    free(nedges);
+    free(ptr);
+    free(adj);
+    free(stack);
+    free(it);
+    free(via);
+    if (rc != 0) {   /* all or nothing: a later call starts afresh */
+        free(op->bridge_part);
+        free(op->bridge_child);
+        free(op->tin);
+        free(op->tout);
+        free(op->low);
+        op->bridge_part = NULL;
+        op->bridge_child = NULL;
+        op->tin = op->tout = op->low = NULL;
+    }
+    return rc;
+}
+
+/* Does opening port p leave its load end (and not its driver end) without a
+ * DC path to ground?  Then the load side is an input that only a controlled
+ * source senses (an op-amp input without rin, say). */
+static bool load_floats_when_open(ls_op *op, int p)
+{
+    const ls_part *pt = &op->nl->parts[p];
+    if (dc_bridges(op) != 0 || pt->pin[1] <= 0)
+        return false;
+    return op->bridge_part[p] && op->bridge_child[p] == pt->pin[1] && op->tin[pt->pin[0]] >= 0;
+}
+
+/* Does opening port p leave node on a side with no DC path (an input only a
+ * controlled source senses), so that nothing sets its voltage? */
+static bool port_floats_node(ls_op *op, int p, int node)
+{
+    if (!op->nl->parts[p].kind->is_port || node <= 0 || !load_floats_when_open(op, p))
+        return false;
+    int c = op->bridge_child[p];
+    return op->tin[node] >= op->tin[c] && op->tin[node] < op->tout[c];
+}
+
 /* ---- the port report ---------------------------------------------------------------------- */
 
 /* Net current (A) flowing into the floating island that contains `node`, read
@@ -963,16 +1146,66 @@ static double ratio_of(double num, double den)
     return num / den;
 }
 
-/* The verdict against the minimum ratio; an undefined ratio passes only when
- * the side that should be large is unbounded. */
-static void judge(ls_op *op, ls_port_result *r)
+/* The port's budget (V, or A in current mode) into r: its own budget=, else
+ * `rule sag` where its unit fits the port, else half an LSB of an adc on the
+ * load node; NaN when none applies (or a % of an undefined open). */
+static void port_budget(ls_op *op, int pi, ls_port_result *r)
 {
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[pi];
+    int bi = ls_kind_opt(p->kind, "budget");
+    r->adc = r->current_mode ? -1 : ls_port_adc(nl, pi);
+    const ls_budget *b = NULL;
+    r->budget = NAN;
+    r->budget_from = LS_BUDGET_FROM_NONE;
+    if (ls_part_has(p, bi)) {
+        b = &nl->budgets[(int)p->opt[bi]];
+        r->budget_from = LS_BUDGET_FROM_PORT;
+    } else if (nl->has_rule_sag && (nl->rule_sag.unit == LS_BUDGET_FRACTION ||
+                                    nl->rule_sag.unit == (r->current_mode ? LS_BUDGET_AMP : LS_BUDGET_VOLT))) {
+        b = &nl->rule_sag;
+        r->budget_from = LS_BUDGET_FROM_RULE;
+    } else if (r->adc >= 0) {
+        r->budget = 0.5 * ls_adc_lsb(&nl->parts[r->adc]);
+        r->budget_from = LS_BUDGET_FROM_ADC;
+        return;
+    }
+    if (!b)
+        return;
+    switch (b->unit) {
+    case LS_BUDGET_VOLT:
+    case LS_BUDGET_AMP: r->budget = b->value; break;
+    case LS_BUDGET_FRACTION: r->budget = isfinite(r->open) ? b->value * fabs(r->open) : NAN; break;
+    case LS_BUDGET_LSB: r->budget = r->adc >= 0 ? b->value * ls_adc_lsb(&nl->parts[r->adc]) : NAN; break;
+    }
+}
+
+/* The verdict: against the budget where the port has one (|sag| within it
+ * ok, within twice it marginal), else against the minimum ratio, where an
+ * undefined ratio passes only when the side that should be large is
+ * unbounded.  Both comparisons hold within a relative 1e-9 of their limit. */
+static void judge(ls_op *op, int pi, ls_port_result *r)
+{
+    port_budget(op, pi, r);
+    if (!isnan(r->budget)) {
+        double s = fabs(r->sag), b = r->budget;
+        r->by_budget = true;
+        if (isnan(s) || isinf(s))
+            r->verdict = VERDICT_LOADING;
+        else if (s <= b + ls_check_slack(b))
+            r->verdict = VERDICT_OK;
+        else if (s <= 2 * b + ls_check_slack(2 * b))
+            r->verdict = VERDICT_MARGINAL;
+        else
+            r->verdict = VERDICT_LOADING;
+        return;
+    }
     double min = ls_op_min_ratio(op);
     if (isnan(r->ratio))
         r->verdict = isinf(r->current_mode ? r->zout : r->zin) ? VERDICT_OK : VERDICT_LOADING;
-    else if (r->ratio >= min)
+    else if (r->ratio >= min - ls_check_slack(min))
         r->verdict = VERDICT_OK;
-    else if (r->ratio >= min / 2)
+    else if (r->ratio >= min / 2 - ls_check_slack(min / 2))
         r->verdict = VERDICT_MARGINAL;
     else
         r->verdict = VERDICT_LOADING;
@@ -991,6 +1224,30 @@ static void note_warning(ls_op *op, int pi, const char *note)
     ls_warning(d, p->loc, "port-undefined", "port '%s': %s", p->name, note);
 }
 
+/* A voltage-mode port whose current flows from LOAD back to DRIVER while,
+ * opened, the load side stands at more than ten times the driver's open
+ * voltage: the load side is the one that makes the signal, so the arrow is
+ * most likely reversed (the sag is then meaningless, often huge). */
+static void reversed_warning(ls_op *op, int pi, const ls_port_result *r)
+{
+    const ls_part *p = &op->nl->parts[pi];
+    if (r->current_mode || !(r->current < 0) || !isfinite(r->load_open) || !isfinite(r->open) ||
+        !(fabs(r->load_open) > 10 * fabs(r->open)) || !(fabs(r->load_open) > 1e-9 * ls_op_volts(op)))
+        return;
+    ls_diags *d = op->nl->diags;
+    for (int i = 0; i < d->n; i++)
+        if (d->items[i].code && strcmp(d->items[i].code, "port-reversed") == 0 && d->items[i].loc.file == p->loc.file &&
+            d->items[i].loc.start == p->loc.start)
+            return;
+    char a[48], b[48];
+    ls_warning(d, p->loc, "port-reversed",
+               "port '%s': its current flows backwards, from '%s' to '%s', and opened the load side stands at %s "
+               "against the driver side's %s; is the arrow reversed (port %s %s -> %s)?",
+               p->name, op->nl->nodes[p->pin[1]].name, op->nl->nodes[p->pin[0]].name,
+               ls_fmt_eng(a, sizeof a, r->load_open, "V", 4, true), ls_fmt_eng(b, sizeof b, r->open, "V", 4, true),
+               p->name, op->nl->nodes[p->pin[1]].name, op->nl->nodes[p->pin[0]].name);
+}
+
 /* Voltage-mode fields: open from the port opened, impedances at both ends. */
 static void voltage_fields(ls_op *op, ls_mod *m, const ls_part *p, ls_port_result *r)
 {
@@ -998,6 +1255,7 @@ static void voltage_fields(ls_op *op, ls_mod *m, const ls_part *p, ls_port_resul
     r->zout = z_at(m, f);
     r->zin = z_at(m, t);
     r->open = node_value(m, f);
+    r->load_open = node_value(m, t);
     r->loaded = op->v[f];
     if (m->singular)
         r->note = "opening this port leaves the circuit without a DC solution (is it inside a feedback loop?); "
@@ -1079,7 +1337,31 @@ static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r)
     r->zout = f >= 0 ? af[0] - af[2] * akf / akk : 0;
     r->zin = t >= 0 ? at[1] - at[2] * akt / akk : 0;
     r->open = f >= 0 ? op->x[f] - af[2] * op->x[k] / akk : 0;
+    r->load_open = t >= 0 ? op->x[t] - at[2] * op->x[k] / akk : 0;
     r->loaded = op->v[p->pin[0]];
+    return true;
+}
+
+/* A voltage-mode port whose load side has no DC path once it is opened: the
+ * load end is held at its loaded voltage while the driver side's open and
+ * zout are computed (so identical connections get identical answers), and
+ * zin is unbounded (no DC current can flow into that side).  Returns false
+ * when out of memory. */
+static bool port_held(ls_op *op, int pi, ls_port_result *r)
+{
+    const ls_part *p = &op->nl->parts[pi];
+    ls_mod *m = ls_mod_new(op, pi, MOD_HOLD_PORT_LOAD);
+    if (!m)
+        return false;
+    r->load_held = true;
+    r->zin = INFINITY;
+    r->loaded = op->v[p->pin[0]];
+    r->zout = z_at(m, p->pin[0]);
+    r->open = node_value(m, p->pin[0]);
+    if (m->singular)
+        r->note = "with the load side held at its loaded voltage the driver side has no DC solution; "
+                  "open, sag and zout are undefined";
+    ls_mod_free(&m);
     return true;
 }
 
@@ -1090,11 +1372,15 @@ static void port_report(ls_op *op, int pi, ls_port_result *r)
     memset(r, 0, sizeof *r);
     r->current_mode = ls_part_opt(p, "mode", 0) == 1;
     r->current = op->x[p->branch];
-    if (!r->current_mode && port_fast(op, p, r)) {
+    r->adc = -1;
+    r->budget = NAN;
+    r->load_open = NAN;
+    bool held = !r->current_mode && load_floats_when_open(op, pi);
+    if (held ? port_held(op, pi, r) : !r->current_mode && port_fast(op, p, r)) {
         finish_report(op, pi, r);
         return;
     }
-    ls_mod *m = ls_mod_new(op, pi, MOD_REMOVE_PART);
+    ls_mod *m = held ? NULL : ls_mod_new(op, pi, MOD_REMOVE_PART);   /* a held side failed only for memory */
     if (!m) {
         r->open = r->zout = r->zin = r->sag = r->sag_rel = r->ratio = NAN;
         r->loaded = r->current_mode ? r->current : op->v[p->pin[0]];
@@ -1114,15 +1400,27 @@ static void port_report(ls_op *op, int pi, ls_port_result *r)
 static void finish_report(ls_op *op, int pi, ls_port_result *r)
 {
     r->ratio = r->current_mode ? ratio_of(r->zout, r->zin) : ratio_of(r->zin, r->zout);
+    if (!r->current_mode) {
+        /* an open voltage at the rounding level of the port's own voltages is 0 V */
+        const ls_part *p = &op->nl->parts[pi];
+        double scale = fmax(fmax(fabs(r->loaded), fabs(op->v[p->pin[1]])), isfinite(r->load_open) ? fabs(r->load_open) : 0);
+        if (fabs(r->open) < 64 * DBL_EPSILON * scale)
+            r->open = 0;
+    }
     r->sag = r->open - r->loaded;
+    /* a difference at the rounding level of the two voltages is no sag (two
+     * identical connections must not differ by the noise of their solves) */
+    if (fabs(r->sag) <= 64 * DBL_EPSILON * fmax(fabs(r->open), fabs(r->loaded)))
+        r->sag = 0;
     r->sag_rel = r->sag == 0 ? 0 : ratio_of(r->sag, r->open);
     if (isinf(r->sag_rel))
         r->sag_rel = NAN;
     if (isinf(r->open))
         r->sag_rel = NAN;
-    judge(op, r);
+    judge(op, pi, r);
     if (r->note)
         note_warning(op, pi, r->note);
+    reversed_warning(op, pi, r);
 }
 
 /* The cached report of port p (owned by op), or NULL when p is not a port. */
@@ -1136,6 +1434,54 @@ const ls_port_result *ls_op_port(ls_op *op, int p)
         r->done = true;
     }
     return r;
+}
+
+/* ---- advice: the value of one part that meets a zout ------------------------------------------ */
+
+/* Column `node` of the opened system's resistance matrix into z (n values):
+ * A'^-1 e_node with the sources zeroed.  false when it cannot be solved. */
+static bool open_column(ls_mod *m, int node, double *z)
+{
+    memset(z, 0, (size_t)m->n * sizeof *z);
+    if (node <= 0)
+        return true;
+    z[node - 1] = 1;
+    return ls_mod_solve(m, z) == LS_SOLVER_OK;
+}
+
+double ls_port_resistor_for_zout(ls_op *op, int port, int part, double target)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[port], *r = &nl->parts[part];
+    int f = p->pin[0];
+    if (strcmp(r->kind->name, "resistor") != 0 || f <= 0 || !(target >= 0))
+        return NAN;
+    int other = r->pin[0] == f ? r->pin[1] : r->pin[1] == f ? r->pin[0] : -1;
+    if (other < 0 || other == f)
+        return NAN;
+    ls_mod *m = ls_mod_new(op, port, load_floats_when_open(op, port) ? MOD_HOLD_PORT_LOAD : MOD_REMOVE_PART);
+    if (!m)
+        return NAN;
+    double out = NAN;
+    double *cf = malloc((size_t)(m->n ? m->n : 1) * sizeof *cf), *co = malloc((size_t)(m->n ? m->n : 1) * sizeof *co);
+    if (cf && co && !m->singular && !m->nfloating && open_column(m, f, cf) && open_column(m, other, co)) {
+        /* Adding dG between f and other, u = e_f - e_other, changes
+         *   Z_ff -> Z_ff - dG (u'Z e_f)(e_f'Z u) / (1 + dG u'Z u)   (Sherman-Morrison),
+         * so dG = (Z_ff - T) / (P - (Z_ff - T) Q), P = (u'Z e_f)(e_f'Z u), Q = u'Z u. */
+        double zff = cf[f - 1], zof = other > 0 ? cf[other - 1] : 0;
+        double zfo = other > 0 ? co[f - 1] : 0, zoo = other > 0 ? co[other - 1] : 0;
+        double P = (zff - zof) * (zff - zfo), Q = zff - zfo - zof + zoo, d = zff - target;
+        double den = P - d * Q;
+        if (den != 0) {
+            double g = 1 / r->value + d / den;
+            if (g > 0)
+                out = 1 / g;
+        }
+    }
+    free(cf);
+    free(co);
+    ls_mod_free(&m);
+    return out;
 }
 
 /* ---- sag ------------------------------------------------------------------------------------------ */
@@ -1215,10 +1561,11 @@ static int sag_row(ls_op *op, int node, int i, ls_sag_item *it, double *vv, doub
         memcpy(vv + 1, x, (size_t)op->mna.n * sizeof *vv);
         if (node == 0)
             it->without = 0;
-        else if (!ls_mod_is_floating(m, node) && !ls_mod_depends_on_floating(m, node))
+        else if (!port_floats_node(op, i, node) && !ls_mod_is_floating(m, node) &&
+                 !ls_mod_depends_on_floating(m, node))
             it->without = x[node - 1];
         else
-            it->floats = true;
+            it->floats = true;   /* by topology for an opened port: nothing sets that side */
         it->beyond_limit = crosses_limit(op, x, vv, i, it->limit, sizeof it->limit);
         if (!it->beyond_limit && isfinite(it->without) && fabs(it->without) > vmax * (1 + 1e-9)) {
             it->beyond_limit = true;

@@ -11,6 +11,12 @@
  * factorization.  Returns LS_SOLVER_OK, LS_SOLVER_SINGULAR or an error. */
 int ls_mod_solve_t(ls_mod *m, double *y);
 
+/* The value (ohm) resistor `part`, one end on port's driver node, would need
+ * for the port's zout to be `target` (ohm), the other parts unchanged: exact
+ * for the linearized circuit (one conductance added by the Sherman-Morrison
+ * formula).  NaN when part is no such resistor or no positive value does it. */
+double ls_port_resistor_for_zout(ls_op *op, int port, int part, double target);
+
 /* Does removing part p keep its DC paths?  A voltage source or a
  * voltage-defined controlled source removed is set to zero, a short; any
  * other part removed is opened. */

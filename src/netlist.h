@@ -82,7 +82,8 @@ typedef enum ls_qkind { Q_CONST, Q_NODE, Q_PROP, Q_NEG, Q_BIN, Q_CALL } ls_qkind
 
 typedef enum ls_prop {
     PROP_CURRENT, PROP_VOLTAGE, PROP_POWER,
-    PROP_OPEN, PROP_LOADED, PROP_SAG, PROP_SAG_REL, PROP_ZOUT, PROP_ZIN, PROP_RATIO,
+    PROP_OPEN, PROP_LOADED, PROP_SAG, PROP_SAG_REL, PROP_ZOUT, PROP_ZIN, PROP_RATIO, PROP_BUDGET,
+    PROP_VALUE, PROP_CODE, PROP_ERROR_LSB, PROP_UNLOADED, PROP_SOURCE, PROP_RESISTANCE, PROP_TEMPERATURE,
     PROP_COUNT
 } ls_prop;
 
@@ -123,6 +124,16 @@ typedef struct ls_param {
     ls_loc loc;
 } ls_param;
 
+/* A sag budget as written: volts, amperes (current-mode ports), a fraction
+ * of the port's open value, or LSBs of the adc on the port's load node. */
+typedef enum ls_budget_unit { LS_BUDGET_VOLT, LS_BUDGET_AMP, LS_BUDGET_FRACTION, LS_BUDGET_LSB } ls_budget_unit;
+
+typedef struct ls_budget {
+    double value;          /* in its unit */
+    ls_budget_unit unit;
+    ls_loc loc;            /* the value as written */
+} ls_budget;
+
 typedef struct ls_netlist {
     ls_arena *arena;
     ls_diags *diags;
@@ -142,6 +153,10 @@ typedef struct ls_netlist {
     ls_hash names;         /* full name -> entity */
     double min_ratio;      /* from `rule ratio`, else 10 */
     bool has_rule;
+    ls_budget *budgets;    /* ports' budget= (a port's opt[budget] is its index here) */
+    int nbudgets, cap_budgets;
+    ls_budget rule_sag;    /* `rule sag <= X`, when has_rule_sag */
+    bool has_rule_sag;
     int instances;
 } ls_netlist;
 

@@ -555,8 +555,35 @@ static void rating_warnings(ls_op *op, int i)
 }
 
 /* An op-amp at a limit, or with an input outside cm=. */
+/* An ideal op-amp working linearly (no limit in force) whose output pulls its
+ * plus input harder than its minus input: a positive-feedback balance that a
+ * real circuit leaves for a rail, most often plus and minus swapped.  With
+ * z = A^-1 e_k (k the op-amp's row V+ - V- = vos), z_out is dV(out)/d(vos):
+ * negative feedback makes the output move against an input offset (a
+ * follower: -1), positive feedback with it. */
+static void positive_feedback_warning(ls_op *op, int i)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    int out = p->pin[2];
+    if (p->has_value || p->run->state != LS_LIM_NONE || p->run->open_loop || out <= 0 || p->branch < 0)
+        return;
+    double *z = calloc((size_t)op->mna.n, sizeof *z);
+    if (!z)
+        return;
+    z[p->branch] = 1;
+    if (ls_op_solve_vec(op, z, 0) == LS_SOLVER_OK && z[out - 1] > 1e-9)
+        ls_warning(nl->diags, p->loc, "opamp-positive-feedback",
+                   "op-amp '%s' is in positive feedback: its output pulls its plus input ('%s') more than its minus "
+                   "input ('%s'), so the solution is a balance a real circuit would leave for a rail; are plus and "
+                   "minus swapped?",
+                   p->name, nl->nodes[p->pin[0]].name, nl->nodes[p->pin[1]].name);
+    free(z);
+}
+
 static void opamp_warnings(ls_op *op, int i)
 {
+    positive_feedback_warning(op, i);
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[i];
     char a[48], b[48];
@@ -651,6 +678,34 @@ void ls_real_warnings(ls_op *op)
 
 /* ---- ADC inputs ---------------------------------------------------------------------------- */
 
+/* The verdict of adc i from its error in LSB (against the budget of the
+ * port that feeds it, else half an LSB) and its source resistance. */
+static void adc_verdict(ls_op *op, int i, ls_adc_result *r)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    r->budget_lsb = 0.5;
+    for (int j = 0; j < nl->nparts; j++) {
+        if (!nl->parts[j].kind->is_port || nl->parts[j].pin[1] != p->pin[0])
+            continue;
+        const ls_port_result *pr = ls_op_port(op, j);
+        if (pr && pr->by_budget && pr->budget_from != LS_BUDGET_FROM_ADC)
+            r->budget_lsb = pr->budget / r->lsb;
+        break;
+    }
+    int mi = ls_kind_opt(p->kind, "max_source");
+    r->source_high = ls_part_has(p, mi) && !(r->rth <= p->opt[mi]);
+    double e = fabs(r->error_lsb), b = r->budget_lsb;
+    if (!isfinite(e) || e > 2 * b + ls_check_slack(2 * b))
+        r->verdict = VERDICT_LOADING;
+    else if (e > b + ls_check_slack(b))
+        r->verdict = VERDICT_MARGINAL;
+    else
+        r->verdict = VERDICT_OK;
+    if (r->source_high)
+        r->verdict = VERDICT_LOADING;
+}
+
 int ls_op_adc(ls_op *op, int i, ls_adc_result *r)
 {
     const ls_part *p = &op->nl->parts[i];
@@ -658,10 +713,10 @@ int ls_op_adc(ls_op *op, int i, ls_adc_result *r)
         return -1;
     int node = p->pin[0];
     double rin = ls_part_opt(p, "rin", 0), leak = ls_part_opt(p, "leak", 0);
-    double ref = ls_part_opt(p, "ref", 1), levels = ldexp(1, (int)ls_part_opt(p, "bits", 1));
+    double levels = ldexp(1, (int)ls_part_opt(p, "bits", 1));
     memset(r, 0, sizeof *r);
     r->vin = op->v[node];
-    r->lsb = ref / levels;
+    r->lsb = ls_adc_lsb(p);
     /* The driving-point resistance includes the ADC's own rin in parallel. */
     double zd = ls_op_zdrive(op, node);
     if (rin > 0)
@@ -673,5 +728,6 @@ int ls_op_adc(ls_op *op, int i, ls_adc_result *r)
     r->error_lsb = (r->vin - r->v_open) / r->lsb;
     double code = floor(r->vin / r->lsb);
     r->code = (long long)fmax(0, fmin(levels - 1, code));
+    adc_verdict(op, i, r);
     return 0;
 }

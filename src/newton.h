@@ -49,6 +49,10 @@ typedef struct ls_adc_result {
     double lsb;            /* V per code */
     long long code;        /* the code read, 0 .. 2^bits - 1 */
     double error_lsb;      /* (vin - v_open) / lsb: the reading's error from loading and leakage */
+    double budget_lsb;     /* the error allowed: the feeding port's budget in LSB, else half an LSB */
+    bool source_high;      /* rth above max_source= */
+    int verdict;           /* ls_verdict: |error| within the budget ok, within twice it marginal, else
+                              loading; a source above max_source= is loading too */
 } ls_adc_result;
 
 /* Results of adc part index i.  0 ok, -1 when i is not an adc. */

@@ -601,16 +601,21 @@ static ls_stmt *parse_rule(parser *p)
     if (!s)
         return NULL;
     advance(p);
-    if (!expect_ident(p, "a rule name (ratio)", &s->name, &s->name_loc))
+    if (!expect_ident(p, "a rule name (ratio or sag)", &s->name, &s->name_loc))
         return NULL;
-    if (strcmp(s->name, "ratio") != 0) {
-        ls_error(p->d, s->name_loc, "unknown rule '%s'; the rule loadstack knows is 'ratio'", s->name);
+    bool sag = strcmp(s->name, "sag") == 0;
+    if (!sag && strcmp(s->name, "ratio") != 0) {
+        ls_error(p->d, s->name_loc, "unknown rule '%s'; the rules loadstack knows are 'ratio' and 'sag'", s->name);
         return NULL;
     }
     if (!parse_cmp(p, &s->cmp))
         return NULL;
-    if (s->cmp != CMP_GE && s->cmp != CMP_GT) {
+    if (!sag && s->cmp != CMP_GE && s->cmp != CMP_GT) {
         ls_error(p->d, s->loc, "a ratio rule sets a minimum: write 'rule ratio >= 10'");
+        return NULL;
+    }
+    if (sag && s->cmp != CMP_LE && s->cmp != CMP_LT) {
+        ls_error(p->d, s->loc, "a sag rule sets a budget, a maximum: write 'rule sag <= 0.2%%' or 'rule sag <= 1 mV'");
         return NULL;
     }
     s->rhs = parse_sum(p);

@@ -961,6 +961,11 @@ static void adc_results(const ls_part *p, const double *x, const double *v, doub
     out[2] = vin * out[0];
 }
 
+double ls_adc_lsb(const ls_part *p)
+{
+    return ls_part_opt(p, "ref", 1) / ldexp(1, (int)ls_part_opt(p, "bits", 1));
+}
+
 /* rin= is a DC path to ground. */
 static void adc_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 {
@@ -994,9 +999,10 @@ static const ls_kind kinds[] = {
      .value_slot = true, .value_dims = LS_AMP, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS}, .nopts = NCOMMON, .npins = 2, .branches = no_branch,
      .stamp = isource_stamp, .current = isource_current, .edges = no_edges},
-    {.name = "port", .shape = SHAPE_TWO, .doc = "port DRIVER -> LOAD [mode=voltage|current]",
+    {.name = "port", .shape = SHAPE_TWO, .doc = "port DRIVER -> LOAD [mode=voltage|current budget=V|%|LSB]",
      .vsign = VSIGN_DROP, .is_port = true,
-     .opts = {COMMON_OPTS, {"mode", OPT_WORD, LS_FREE, 0, -1, "voltage|current"}}, .nopts = NCOMMON + 1,
+     .opts = {COMMON_OPTS, {"mode", OPT_WORD, LS_FREE, 0, -1, "voltage|current"},
+              {"budget", OPT_VALUE, LS_VOLT, OPTF_BUDGET, -1, NULL}}, .nopts = NCOMMON + 2,
      .npins = 2, .branches = one_branch, .stamp = port_stamp, .current = current_branch,
      .edges = vdef_edges},
     {.name = "vcvs", .shape = SHAPE_TWO, .doc = "vcvs FROM -> TO gain=G cplus=A cminus=B",

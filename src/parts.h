@@ -14,7 +14,8 @@ enum {
     OPTF_NONNEG = 4,     /* >= 0 */
     OPTF_MAIN = 8,       /* this option is the part's main value */
     OPTF_FRACTION = 16,  /* 0..1 */
-    OPTF_INTEGER = 32    /* a whole number */
+    OPTF_INTEGER = 32,   /* a whole number */
+    OPTF_BUDGET = 64     /* a port's sag budget: volts, a fraction, or LSB (elab.c stores its ls_budget index) */
 };
 
 typedef struct ls_optdef {
@@ -158,6 +159,8 @@ double ls_junction_current(const ls_part *p, double vj, bool *beyond);
 double ls_junction_v(const ls_part *p, const double *x);
 /* Thermistor resistance (ohm) at temperature t_c (degC), by the Beta equation. */
 double ls_ntc_r(const ls_part *p, double t_c);
+/* An adc's LSB (V): ref / 2^bits. */
+double ls_adc_lsb(const ls_part *p);
 /* Thermistor body temperature (degC): celsius=, plus self-heating when solved with dissipation=. */
 double ls_ntc_body(const ls_part *p);
 

@@ -8,6 +8,7 @@
 
 #include "elab.h"
 #include "fmt.h"
+#include "lowrank.h"
 #include "newton.h"
 #include "numfmt.h"
 
@@ -290,14 +291,16 @@ static void pad(obuf *out, const char *s, size_t len, int sw, int w, bool right)
  * back to back in row order, and the column widths are kept up to date as rows
  * arrive, so a table of a million rows costs no per-cell allocation and one
  * pass to print, which reads the cells in the order they were stored. */
+#define TABLE_MAXCOL 12   /* the widest table, the ports', has 11 columns */
+
 typedef struct table {
     int ncol;
-    const char *head[10];
-    bool right[10];
+    const char *head[TABLE_MAXCOL];
+    bool right[TABLE_MAXCOL];
     char *text;           /* NUL-terminated cells, back to back */
     size_t len, text_cap;
     int rows;
-    int w[10];            /* widest cell of each column so far */
+    int w[TABLE_MAXCOL];  /* widest cell of each column so far */
     bool failed;          /* out of memory: rows after it are dropped */
 } table;
 
@@ -306,8 +309,8 @@ static void t_row(table *t, const char *const *cells)
 {
     if (t->failed)
         return;
-    size_t n[10], total = 0;
-    int cw[10];
+    size_t n[TABLE_MAXCOL], total = 0;
+    int cw[TABLE_MAXCOL];
     for (int i = 0; i < t->ncol; i++) {
         n[i] = measure(cells[i] ? cells[i] : "", &cw[i]) + 1;
         total += n[i];
@@ -337,7 +340,7 @@ static void t_row(table *t, const char *const *cells)
 static void t_print(table *t, FILE *f)
 {
     obuf ob, *out = &ob;
-    int w[10];
+    int w[TABLE_MAXCOL];
     for (int c = 0; c < t->ncol; c++) {
         w[c] = width(t->head[c]);
         w[c] = t->w[c] > w[c] ? t->w[c] : w[c];
@@ -381,6 +384,55 @@ static const char *verdict_name(ls_verdict v)
     return n[v];
 }
 
+/* The check row of a port judged by the ratio rule. */
+static void ratio_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
+{
+    const ls_netlist *nl = op->nl;
+    double min = ls_op_min_ratio(op);
+    row->text = ls_arena_printf(nl->arena, "rule ratio >= %g (port %s)", min, nl->parts[i].name);
+    row->instance = nl->parts[i].instance;
+    row->loc = nl->parts[i].loc;
+    row->dims = LS_FREE;
+    row->port = i;
+    row->r.value = pr->ratio;
+    row->r.lo = min;
+    row->r.hi = INFINITY;
+    row->r.pass = pr->verdict == VERDICT_OK;
+    if (isnan(pr->ratio) && !row->r.pass)
+        row->r.reason = pr->note ? pr->note : "the ratio is undefined";
+}
+
+/* Where a port's budget comes from, in words. */
+static const char *budget_source(const ls_port_result *pr)
+{
+    switch (pr->budget_from) {
+    case LS_BUDGET_FROM_PORT: return "budget";
+    case LS_BUDGET_FROM_RULE: return "rule sag";
+    case LS_BUDGET_FROM_ADC: return "half an LSB";
+    default: return "none";
+    }
+}
+
+/* The check row of a port judged by its budget: |sag| <= budget. */
+static void budget_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    char b[64];
+    ls_fmt_eng(b, sizeof b, pr->budget, pr->current_mode ? "A" : "V", 4, true);
+    row->text = ls_arena_printf(nl->arena, "port %s: abs(sag) <= %s (%s)", p->name, b, budget_source(pr));
+    row->instance = p->instance;
+    row->loc = p->loc;
+    row->dims = pr->current_mode ? LS_AMP : LS_VOLT;
+    row->port = i;
+    row->r.value = fabs(pr->sag);
+    row->r.lo = -INFINITY;
+    row->r.hi = pr->budget;
+    row->r.pass = pr->verdict == VERDICT_OK;
+    if (isnan(pr->sag))
+        row->r.reason = pr->note ? pr->note : "the sag is undefined";
+}
+
 int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
 {
     const ls_netlist *nl = op->nl;
@@ -388,7 +440,7 @@ int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
     int nports = 0;
     for (int i = 0; i < nl->nparts; i++)
         nports += nl->parts[i].kind->is_port;
-    int cap = nl->nchecks + (with_rule ? nports : 0);
+    int cap = nl->nchecks + nports;
     out->rows = calloc((size_t)(cap ? cap : 1), sizeof *out->rows);
     if (!out->rows)
         return -1;
@@ -402,25 +454,14 @@ int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
         row->port = -1;
         ls_check_eval(op, c, &row->r);
     }
-    if (with_rule) {
-        double min = ls_op_min_ratio(op);
-        for (int i = 0; i < nl->nparts; i++) {
-            if (!nl->parts[i].kind->is_port)
-                continue;
-            const ls_port_result *pr = ls_op_port(op, i);
-            ls_check_row *row = &out->rows[out->n++];
-            row->text = ls_arena_printf(nl->arena, "rule ratio >= %g (port %s)", min, nl->parts[i].name);
-            row->instance = nl->parts[i].instance;
-            row->loc = nl->parts[i].loc;
-            row->dims = LS_FREE;
-            row->port = i;
-            row->r.value = pr->ratio;
-            row->r.lo = min;
-            row->r.hi = INFINITY;
-            row->r.pass = pr->verdict == VERDICT_OK;
-            if (isnan(pr->ratio) && !row->r.pass)
-                row->r.reason = pr->note ? pr->note : "the ratio is undefined";
-        }
+    for (int i = 0; i < nl->nparts; i++) {
+        if (!nl->parts[i].kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_op_port(op, i);
+        if (pr->by_budget)
+            budget_row(op, i, pr, &out->rows[out->n++]);
+        else if (with_rule)
+            ratio_row(op, i, pr, &out->rows[out->n++]);
     }
     for (int i = 0; i < out->n; i++) {
         if (out->rows[i].r.pass)
@@ -589,15 +630,25 @@ static void adc_text(ls_report *rp, ls_op *op)
         char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64];
         int mi = ls_kind_opt(p->kind, "max_source");
         bool has_max = ls_part_has(p, mi);
+        char verdict[96];
         snprintf(b2, sizeof b2, "%lld", r.code);
         snprintf(b4, sizeof b4, "%+.3g LSB", r.error_lsb);
+        if (r.source_high && fabs(r.error_lsb) > r.budget_lsb)
+            snprintf(verdict, sizeof verdict, "%s: error over %.3g LSB, source too high", verdict_name(r.verdict),
+                     r.budget_lsb);
+        else if (r.source_high)
+            snprintf(verdict, sizeof verdict, "%s: source too high", verdict_name(r.verdict));
+        else if (r.verdict != VERDICT_OK)
+            snprintf(verdict, sizeof verdict, "%s: error over %.3g LSB", verdict_name(r.verdict), r.budget_lsb);
+        else
+            snprintf(verdict, sizeof verdict, "ok");
         const char *c[8] = {p->name, ls_eng(rp, b1, sizeof b1, r.vin, "V"), b2,
                             ls_eng(rp, b3, sizeof b3, r.v_open, "V"), isfinite(r.error_lsb) ? b4 : "undefined",
                             ls_eng(rp, b5, sizeof b5, r.rth, OHM),
-                            has_max ? ls_eng(rp, b6, sizeof b6, p->opt[mi], OHM) : "-",
-                            !has_max ? "-" : r.rth <= p->opt[mi] ? "ok" : "source too high"};
+                            has_max ? ls_eng(rp, b6, sizeof b6, p->opt[mi], OHM) : "-", verdict};
         if (!t.rows)
-            fputs("\nADC inputs (error: the reading's shift from loading and leakage)\n", o);
+            fputs("\nADC inputs (error: the reading's shift from loading and leakage, judged against the feeding "
+                  "port's budget, else half an LSB)\n", o);
         t_row(&t, c);
     }
     if (t.rows)
@@ -614,7 +665,7 @@ static void ntc_text(ls_report *rp, ls_op *op)
         const ls_part *p = &nl->parts[i];
         if (!is_kind(p, "ntc"))
             continue;
-        double t_amb = ls_part_opt(p, "temp", 25), t_body = ls_ntc_body(p);
+        double t_amb = ls_part_opt(p, "celsius", 25), t_body = ls_ntc_body(p);
         char b1[64], b2[64], b3[64];
         snprintf(b2, sizeof b2, "%.4g degC", t_body);
         snprintf(b3, sizeof b3, "%.3g K", t_body - t_amb);
@@ -646,7 +697,7 @@ static void part_extra_json(obuf *o, ls_op *op, int i)
         double t = ls_ntc_body(p);
         kv(o, "resistance", ls_ntc_r(p, t), true);
         kv(o, "temperature", t, true);
-        kv(o, "self_heating", t - ls_part_opt(p, "temp", 25), true);
+        kv(o, "self_heating", t - ls_part_opt(p, "celsius", 25), true);
     }
 }
 
@@ -658,8 +709,74 @@ static const char *method_name(ls_method m)
     return n[m];
 }
 
-/* One line for a port that fails the ratio: the largest zout or the smallest zin
- * that would meet it, or a buffer. */
+/* The resistors at port i's driver node whose value alone would bring zout
+ * down to zmax, as "r_bot at most 1.2 kΩ" phrases (at most two, the
+ * smallest change first), into buf; empty when none can. */
+static const char *resistor_advice(ls_report *rp, ls_op *op, int i, double zmax, char *buf, size_t n)
+{
+    const ls_netlist *nl = op->nl;
+    int f = nl->parts[i].pin[0], best[2] = {-1, -1};
+    double val[2] = {NAN, NAN}, change[2] = {INFINITY, INFINITY};
+    buf[0] = 0;
+    for (int j = 0; j < nl->nparts && f > 0; j++) {
+        const ls_part *r = &nl->parts[j];
+        if (strcmp(r->kind->name, "resistor") != 0 || (r->pin[0] != f && r->pin[1] != f))
+            continue;
+        double v = ls_port_resistor_for_zout(op, i, j, zmax);
+        if (!(v > 0) || !(v < r->value))
+            continue;
+        double c = r->value / v;   /* how many times smaller */
+        int k = c < change[0] ? 0 : c < change[1] ? 1 : 2;
+        if (k == 2)
+            continue;
+        if (k == 0) {
+            best[1] = best[0], val[1] = val[0], change[1] = change[0];
+        }
+        best[k] = j, val[k] = v, change[k] = c;
+    }
+    for (int k = 0; k < 2 && best[k] >= 0; k++) {
+        char v[64];
+        size_t l = strlen(buf);
+        snprintf(buf + l, n - l, "%s%s at most %s", k ? ", or " : "", nl->parts[best[k]].name,
+                 ls_eng(rp, v, sizeof v, val[k], ls_unit_of(LS_OHM, rp->ascii)));
+    }
+    return buf;
+}
+
+/* Advice for a voltage-mode port that misses its budget, in the budget's
+ * terms: sag = open zout / (zout + zin) of a loaded divider is within B when
+ * zin/zout >= |open|/B - 1, which sets the ratio needed, the largest zout and
+ * the smallest zin. */
+static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+{
+    const ls_part *p = &op->nl->parts[i];
+    const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char sag[64], bud[64], need[64], zmax[64], zmin[64], parts[300], lsb[96] = "";
+    ls_eng(rp, sag, sizeof sag, fabs(pr->sag), "V");
+    ls_eng(rp, bud, sizeof bud, pr->budget, "V");
+    if (pr->adc >= 0) {
+        const ls_part *a = &op->nl->parts[pr->adc];
+        snprintf(lsb, sizeof lsb, " (%.3g LSB of %s)", fabs(pr->sag) / ls_adc_lsb(a), a->name);
+    }
+    fprintf(rp->out, "  -> %s: the sag of %s%s is over its budget of %s (%s).", p->name, sag, lsb, bud,
+            budget_source(pr));
+    double req = fabs(pr->open) / pr->budget - 1;
+    if (!isfinite(req) || !(req > 0) || !isfinite(pr->zin) || !(pr->zout > 0)) {
+        fputs(" A buffer (an op-amp follower) between the stages removes the load from the driver.\n", rp->out);
+        return;
+    }
+    double zo = pr->zin / req;
+    ls_eng(rp, need, sizeof need, req, "");
+    ls_eng(rp, zmax, sizeof zmax, zo, OHM);
+    ls_eng(rp, zmin, sizeof zmin, pr->zout * req, OHM);
+    resistor_advice(rp, op, i, zo, parts, sizeof parts);
+    fprintf(rp->out, " To meet it: zin/zout of at least %s, e.g. a buffer (an op-amp follower) between them, "
+                     "or a driver with zout at most %s%s%s%s, or a load with zin at least %s.\n",
+            need, zmax, parts[0] ? " (" : "", parts, parts[0] ? ")" : "", zmin);
+}
+
+/* One line for a port that fails its budget or the ratio: the largest zout or
+ * the smallest zin that would meet it, or a buffer. */
 static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
 {
     const ls_part *p = &op->nl->parts[i];
@@ -668,9 +785,20 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
     char r[64], lo[64], hi[64];
     if (pr->verdict == VERDICT_OK)
         return;
+    if (pr->by_budget && !pr->current_mode && isfinite(pr->sag)) {
+        budget_advice(rp, op, i, pr);
+        return;
+    }
     if (isnan(pr->ratio)) {
         fprintf(rp->out, "  -> %s: the loading ratio is undefined%s%s.\n", p->name, pr->note ? ": " : "",
                 pr->note ? pr->note : "");
+        return;
+    }
+    if (pr->by_budget) {   /* current mode, or an unbounded sag: the ratio still says which side to change */
+        char s[64], b[64];
+        fprintf(rp->out, "  -> %s: the sag of %s is over its budget of %s (%s).\n", p->name,
+                ls_eng(rp, s, sizeof s, fabs(pr->sag), pr->current_mode ? "A" : "V"),
+                ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V"), budget_source(pr));
         return;
     }
     ls_eng(rp, r, sizeof r, pr->ratio, "");
@@ -694,12 +822,77 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
             p->name, r, min, lo, hi);
 }
 
+/* The budget cell of a port: "402.8 µV (½ LSB)", "-" without one. */
+static const char *budget_cell(ls_report *rp, const ls_port_result *pr, char *buf, size_t n)
+{
+    char b[64];
+    if (isnan(pr->budget))
+        return "-";
+    ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V");
+    const char *src = pr->budget_from == LS_BUDGET_FROM_ADC ? "half LSB"
+                    : pr->budget_from == LS_BUDGET_FROM_RULE ? "rule" : "";
+    snprintf(buf, n, *src ? "%s (%s)" : "%s", b, src);
+    return buf;
+}
+
+/* The ports table, the note on held load sides (once) and the advice. */
+static void ports_text(ls_report *rp, ls_op *op)
+{
+    FILE *o = rp->out;
+    const ls_netlist *nl = op->nl;
+    const char *V = "V", *A = "A", *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64], b7[64], bud[96], verdict[48];
+    fprintf(o, "\nPorts (verdict: the sag against the port's budget where it has one, else zin/zout of at least %g)\n",
+            ls_op_min_ratio(op));
+    table p = {.ncol = 11,
+               .head = {"port", "driver -> load", "open", "loaded", "sag", "budget", "zout", "zin", "ratio", "current",
+                        "verdict"},
+               .right = {false, false, true, true, true, true, true, true, true, true, false}};
+    int held = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *pt = &nl->parts[i];
+        if (!pt->kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_op_port(op, i);
+        const char *u = pr->current_mode ? A : V;
+        char conn[600], sag[96];
+        held += pr->load_held;
+        snprintf(conn, sizeof conn, "%s -> %s%s", nl->nodes[pt->pin[0]].name, nl->nodes[pt->pin[1]].name,
+                 pr->current_mode ? " (current)" : "");
+        ls_eng(rp, b3, sizeof b3, pr->sag, u);
+        if (isfinite(pr->sag_rel) && pr->sag != 0)
+            snprintf(sag, sizeof sag, "%s (%.3g%%)", b3, pr->sag_rel * 100);
+        else
+            snprintf(sag, sizeof sag, "%s", b3);
+        snprintf(verdict, sizeof verdict, "%s (%s)", verdict_name(pr->verdict), pr->by_budget ? "budget" : "ratio");
+        const char *c[11] = {pt->name, conn, ls_eng(rp, b1, sizeof b1, pr->open, u),
+                             ls_eng(rp, b2, sizeof b2, pr->loaded, u), sag, budget_cell(rp, pr, bud, sizeof bud),
+                             ls_eng(rp, b4, sizeof b4, pr->zout, OHM), ls_eng(rp, b5, sizeof b5, pr->zin, OHM),
+                             ls_eng(rp, b6, sizeof b6, pr->ratio, ""), ls_eng(rp, b7, sizeof b7, pr->current, A),
+                             verdict};
+        t_row(&p, c);
+    }
+    t_print(&p, o);
+    if (held) {
+        fputs("  note: the load side of", o);
+        int k = 0;
+        for (int i = 0; i < nl->nparts; i++)
+            if (nl->parts[i].kind->is_port && ls_op_port(op, i)->load_held)
+                fprintf(o, "%s %s", k++ ? (k == held ? " and" : ",") : "", nl->parts[i].name);
+        fprintf(o, " has no DC path of its own once opened (an input that only a controlled source senses); "
+                   "it was held at its loaded voltage while open and zout were computed, and zin is unbounded.\n");
+    }
+    for (int i = 0; i < nl->nparts; i++)
+        if (nl->parts[i].kind->is_port)
+            fix_advice(rp, op, i, ls_op_port(op, i));
+}
+
 static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
     FILE *o = rp->out;
     const ls_netlist *nl = op->nl;
-    const char *V = "V", *A = "A", *W = "W", *OHM = ls_unit_of(LS_OHM, rp->ascii);
-    char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64], b7[64];
+    const char *V = "V", *A = "A", *W = "W";
+    char b1[64], b2[64], b3[64];
     fprintf(o, "%s\n", nl->title ? nl->title : "(untitled circuit)");
     fprintf(o, "solved: %d unknowns by %s (%s), reciprocal condition %.2g, relative residual %.2g\n", op->mna.n,
             method_name(op->method), ls_solver_stats_of(op->solver)->library, op->rcond, op->residual);
@@ -741,37 +934,8 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
         }
         t_print(&p, o);
     }
-    if (nports) {
-        fprintf(o, "\nPorts (loading: zin/zout should be at least %g)\n", ls_op_min_ratio(op));
-        table p = {.ncol = 10,
-                   .head = {"port", "driver -> load", "open", "loaded", "sag", "zout", "zin", "ratio", "current", "verdict"},
-                   .right = {false, false, true, true, true, true, true, true, true, false}};
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *pt = &nl->parts[i];
-            if (!pt->kind->is_port)
-                continue;
-            const ls_port_result *pr = ls_op_port(op, i);
-            const char *u = pr->current_mode ? A : V;
-            char conn[600], sag[96];
-            snprintf(conn, sizeof conn, "%s -> %s%s", nl->nodes[pt->pin[0]].name, nl->nodes[pt->pin[1]].name,
-                     pr->current_mode ? " (current)" : "");
-            ls_eng(rp, b3, sizeof b3, pr->sag, u);
-            if (isfinite(pr->sag_rel) && pr->sag != 0)
-                snprintf(sag, sizeof sag, "%s (%.3g%%)", b3, pr->sag_rel * 100);
-            else
-                snprintf(sag, sizeof sag, "%s", b3);
-            const char *c[10] = {pt->name, conn, ls_eng(rp, b1, sizeof b1, pr->open, u),
-                                 ls_eng(rp, b2, sizeof b2, pr->loaded, u), sag,
-                                 ls_eng(rp, b4, sizeof b4, pr->zout, OHM), ls_eng(rp, b5, sizeof b5, pr->zin, OHM),
-                                 ls_eng(rp, b6, sizeof b6, pr->ratio, ""), ls_eng(rp, b7, sizeof b7, pr->current, A),
-                                 verdict_name(pr->verdict)};
-            t_row(&p, c);
-        }
-        t_print(&p, o);
-        for (int i = 0; i < nl->nparts; i++)
-            if (nl->parts[i].kind->is_port)
-                fix_advice(rp, op, i, ls_op_port(op, i));
-    }
+    if (nports)
+        ports_text(rp, op);
     if (nops) {
         fputs("\nOp-amps\n", o);
         /* the dissipation column only where some op-amp has rails= to reckon it from */
@@ -814,6 +978,31 @@ static void kv(obuf *o, const char *k, double v, bool comma)
     ob_puts(o, k);
     ob_puts(o, "\": ");
     ob_number(o, v);
+}
+
+/* The "adcs" object's members: each adc's reading and verdict.  Returns how
+ * many were written. */
+static int adcs_json(obuf *o, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    int k = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_adc_result r;
+        if (ls_op_adc(op, i, &r) != 0)
+            continue;
+        ob_puts(o, k++ ? ",\n    " : "\n    ");
+        ob_json_string(o, nl->parts[i].name);
+        ob_puts(o, ": {");
+        kv(o, "input", r.vin, false);
+        ob_printf(o, ", \"code\": %lld", r.code);
+        kv(o, "unloaded", r.v_open, true);
+        kv(o, "error_lsb", r.error_lsb, true);
+        kv(o, "budget_lsb", r.budget_lsb, true);
+        kv(o, "source", r.rth, true);
+        ob_printf(o, ", \"source_too_high\": %s, \"verdict\": \"%s\"}", r.source_high ? "true" : "false",
+                  verdict_name(r.verdict));
+    }
+    return k;
 }
 
 static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
@@ -878,6 +1067,10 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         kv(o, "zin", pr->zin, true);
         kv(o, "ratio", pr->ratio, true);
         kv(o, "current", pr->current, true);
+        kv(o, "budget", pr->budget, true);
+        ob_printf(o, ", \"by\": \"%s\"", pr->by_budget ? "budget" : "ratio");
+        if (pr->load_held)
+            ob_puts(o, ", \"load_held\": true");
         ob_printf(o, ", \"verdict\": \"%s\"}", verdict_name(pr->verdict));
     }
     ob_puts(o, k ? "\n  },\n  \"opamps\": {" : "},\n  \"opamps\": {");
@@ -895,6 +1088,8 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         kv(o, "dissipation", ls_opamp_dissipation(op, i), true);
         ob_putc(o, '}');
     }
+    ob_puts(o, k ? "\n  },\n  \"adcs\": {" : "},\n  \"adcs\": {");
+    k = adcs_json(o, op);
     ob_puts(o, k ? "\n  },\n  \"checks\": " : "},\n  \"checks\": ");
     checks_json(rp, o, checks);
     ob_puts(o, ",\n  \"warnings\": ");
@@ -916,6 +1111,19 @@ static void csv_row(obuf *o, const char *section, const char *name, const char *
     ob_putc(o, '\n');
 }
 
+/* A CSV row whose value is a word (a verdict, a rule's name). */
+static void csv_word(obuf *o, const char *section, const char *name, const char *field, const char *word)
+{
+    ob_csv_field(o, section);
+    ob_putc(o, ',');
+    ob_csv_field(o, name);
+    ob_putc(o, ',');
+    ob_csv_field(o, field);
+    ob_putc(o, ',');
+    ob_csv_field(o, word);
+    ob_putc(o, '\n');
+}
+
 static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
     obuf ob, *o = &ob;
@@ -931,10 +1139,13 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
         prefetch_part_name(nl, i);
         if (p->kind->is_port) {
             const ls_port_result *pr = ls_op_port(op, i);
-            const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current"};
-            double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current};
-            for (int j = 0; j < 8; j++)
+            const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget"};
+            double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current,
+                          pr->budget};
+            for (int j = 0; j < 9; j++)
                 csv_row(o, "port", p->name, f[j], v[j]);
+            csv_word(o, "port", p->name, "by", pr->by_budget ? "budget" : "ratio");
+            csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
             continue;
         }
         csv_row(o, "part", p->name, "current", op->ipart[i]);
@@ -949,11 +1160,13 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
             csv_row(o, "part", p->name, "unloaded", r.v_open);
             csv_row(o, "part", p->name, "error_lsb", r.error_lsb);
             csv_row(o, "part", p->name, "source_resistance", r.rth);
+            csv_row(o, "part", p->name, "budget_lsb", r.budget_lsb);
+            csv_word(o, "part", p->name, "verdict", verdict_name(r.verdict));
         } else if (is_kind(p, "ntc")) {
             double t = ls_ntc_body(p);
             csv_row(o, "part", p->name, "resistance", ls_ntc_r(p, t));
             csv_row(o, "part", p->name, "temperature", t);
-            csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "temp", 25));
+            csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "celsius", 25));
         }
     }
     for (int i = 0; i < checks->n; i++)

@@ -7,6 +7,7 @@
  * quotients and functions of leaves are differentiated by forward-mode dual
  * numbers over the parts. */
 #include "sens.h"
+#include "newton.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -151,6 +152,31 @@ static bool mod_z_grad(ctx *c, ls_mod *m, int idx, double *g)
     return ok;
 }
 
+static bool leaf_node(ctx *c, int node, dual *out);
+
+/* Gradient of open for a port whose load side is held at its loaded voltage
+ * v_t: the held system's own adjoint (the hold fixed) plus the hold's share,
+ * d open/d b_k times d b_k/dp, where the hold row's right-hand side is
+ * b_k = -v_t and d open/d b_k = (A'^-T e_f)_k. */
+static bool held_open_grad(ctx *c, ls_mod *m, int j, double *g)
+{
+    const ls_part *p = &c->op->nl->parts[j];
+    int n = c->op->mna.n, f = ls_node_unknown(p->pin[0]);
+    double *lam = calloc((size_t)(n ? n : 1), sizeof *lam);
+    dual vt = {0};
+    bool ok = lam && alloc_dual(c, &vt) && mod_value_grad(c, m, f, g);
+    if (ok) {
+        lam[f] = 1;
+        ok = ls_mod_solve_t(m, lam) == LS_SOLVER_OK && leaf_node(c, p->pin[1], &vt);
+    }
+    if (ok)
+        for (int k = 0; k < c->np; k++)
+            g[k] -= lam[p->branch] * vt.g[k];
+    free(lam);
+    free(vt.g);
+    return ok;
+}
+
 /* Every derivative undefined. */
 static void fill_nan(ctx *c, double *g)
 {
@@ -181,7 +207,8 @@ static bool port_piece(ctx *c, int j, piece what, dual *out)
         return true;
     }
     bool shorted = what == PIECE_OPEN && pr->current_mode;
-    ls_mod *m = ls_mod_new(c->op, j, shorted ? MOD_SHORT_PORT_TO_GROUND : MOD_REMOVE_PART);
+    ls_mod *m = ls_mod_new(c->op, j, shorted ? MOD_SHORT_PORT_TO_GROUND
+                                   : pr->load_held ? MOD_HOLD_PORT_LOAD : MOD_REMOVE_PART);
     if (!m) {
         c->error = "out of memory";
         return false;
@@ -191,6 +218,8 @@ static bool port_piece(ctx *c, int j, piece what, dual *out)
         fill_nan(c, out->g);
     else if (what == PIECE_OPEN && node == 0 && !shorted)
         memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+    else if (what == PIECE_OPEN && pr->load_held)
+        ok = held_open_grad(c, m, j, out->g);
     else if (what == PIECE_OPEN)
         ok = mod_value_grad(c, m, shorted ? p->branch : ls_node_unknown(node), out->g);
     else
@@ -349,6 +378,118 @@ static bool alloc_dual(ctx *c, dual *d)
 
 static bool eval(ctx *c, const ls_q *q, dual *out);
 
+/* A thermistor's resistance or temperature with its gradient.  Without
+ * self-heating the body sits at celsius=, so the temperature is fixed and
+ * R = r25 exp(B (1/T - 1/T25)) is proportional to r25 (its main value). */
+static bool ntc_prop(ctx *c, int j, ls_prop prop, dual *out)
+{
+    const ls_part *p = &c->op->nl->parts[j];
+    double t = ls_ntc_body(p);
+    if (ls_part_has(p, ls_kind_opt(p->kind, "dissipation"))) {
+        c->error = "a self-heating thermistor's resistance and temperature have no adjoint here; use tol or sweep";
+        return false;
+    }
+    memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+    out->v = prop == PROP_TEMPERATURE ? t : ls_ntc_r(p, t);
+    if (prop == PROP_RESISTANCE)
+        out->g[j] = out->v / p->value;
+    return true;
+}
+
+static bool port_field(ctx *c, int j, ls_prop prop, dual *out);
+
+/* The driving-point resistance zd = e^T A^-1 e at unknown idx of the base
+ * system with its gradient: dz/dp = -u^T dA_p v, u = A^-T e, v = A^-1 e (the
+ * adjoint sink's u^T db_p taken out by a second pass at x = 0). */
+static bool base_z_grad(ctx *c, int idx, double *z, double *g)
+{
+    int n = c->op->mna.n, np = c->np;
+    double *u = calloc((size_t)(n ? n : 1), sizeof *u), *v = calloc((size_t)(n ? n : 1), sizeof *v);
+    double *zero = calloc((size_t)(n ? n : 1), sizeof *zero), *gb = calloc((size_t)(np ? np : 1), sizeof *gb);
+    bool ok = u && v && zero && gb;
+    if (ok) {
+        u[idx] = v[idx] = 1;
+        ok = ls_op_solve_vec(c->op, u, 1) == LS_SOLVER_OK && ls_op_solve_vec(c->op, v, 0) == LS_SOLVER_OK;
+    }
+    if (ok) {
+        *z = v[idx];
+        adjoint_all(c, u, v, g);
+        adjoint_all(c, u, zero, gb);
+        for (int k = 0; k < np; k++)
+            g[k] -= gb[k];
+    }
+    free(u);
+    free(v);
+    free(zero);
+    free(gb);
+    return ok;
+}
+
+/* An adc's error_lsb, unloaded or source with its gradient (newton.c's
+ * ls_op_adc differentiated): with zd the driving-point resistance at the
+ * input, rth = 1/(1/zd - 1/rin), iload = vin/rin + leak,
+ * unloaded = vin + iload rth, error_lsb = -iload rth / lsb; rin, leak and the
+ * LSB are options, not main values, so they are constants here. */
+static bool adc_prop(ctx *c, int j, ls_prop prop, dual *out)
+{
+    const ls_part *p = &c->op->nl->parts[j];
+    ls_adc_result a;
+    dual vin = {0}, zd = {0};
+    if (ls_op_adc(c->op, j, &a) != 0 || p->pin[0] <= 0) {
+        c->error = "not an adc input";
+        return false;
+    }
+    bool ok = alloc_dual(c, &vin) && alloc_dual(c, &zd) && leaf_node(c, p->pin[0], &vin) &&
+              base_z_grad(c, ls_node_unknown(p->pin[0]), &zd.v, zd.g);
+    if (ok) {
+        double rin = ls_part_opt(p, "rin", 0), rth = a.rth, iload = a.vin * (rin > 0 ? 1 / rin : 0) +
+                                                                  ls_part_opt(p, "leak", 0);
+        double k = rin > 0 ? rth * rth / (zd.v * zd.v) : 1;    /* d rth / d zd */
+        out->v = prop == PROP_SOURCE ? a.rth : prop == PROP_UNLOADED ? a.v_open : a.error_lsb;
+        for (int m = 0; m < c->np; m++) {
+            double drth = k * zd.g[m], dvin = vin.g[m], dil = rin > 0 ? dvin / rin : 0;
+            out->g[m] = prop == PROP_SOURCE ? drth
+                      : prop == PROP_UNLOADED ? dvin + dil * rth + iload * drth
+                      : -(dil * rth + iload * drth) / a.lsb;
+        }
+        if (!isfinite(out->v) || !isfinite(rth))
+            fill_nan(c, out->g);
+    } else if (!c->error) {
+        c->error = "a solve for the adc's source resistance failed";
+    }
+    free(vin.g);
+    free(zd.g);
+    return ok;
+}
+
+/* A port's budget with its gradient: a fraction of open moves with open,
+ * volts, amperes and LSB are fixed. */
+static bool port_budget_dual(ctx *c, int j, dual *out)
+{
+    const ls_netlist *nl = c->op->nl;
+    const ls_part *p = &nl->parts[j];
+    const ls_port_result *pr = ls_op_port(c->op, j);
+    if (!pr) {
+        c->error = "out of memory";
+        return false;
+    }
+    int bi = ls_kind_opt(p->kind, "budget");
+    const ls_budget *b = pr->budget_from == LS_BUDGET_FROM_PORT ? &nl->budgets[(int)p->opt[bi]]
+                       : pr->budget_from == LS_BUDGET_FROM_RULE ? &nl->rule_sag : NULL;
+    memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+    if (b && b->unit == LS_BUDGET_FRACTION && isfinite(pr->budget)) {
+        if (!port_field(c, j, PROP_OPEN, out))
+            return false;
+        double sgn = pr->open < 0 ? -1 : 1;
+        for (int k = 0; k < c->np; k++)
+            out->g[k] *= sgn * b->value;
+    }
+    out->v = pr->budget;
+    if (!isfinite(out->v))
+        fill_nan(c, out->g);
+    return true;
+}
+
 /* A property leaf (PART.current, PORT.zout, ...) with its gradient. */
 static bool eval_prop(ctx *c, const ls_q *q, dual *out)
 {
@@ -379,6 +520,26 @@ static bool eval_prop(ctx *c, const ls_q *q, dual *out)
     }
     case PROP_LOADED:
         return port_loaded(c, q->index, out);
+    case PROP_VALUE:
+        /* d(value of j)/d(value of m) is 1 for m = j */
+        memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+        out->v = p->value;
+        if (has_main(p))
+            out->g[q->index] = 1;
+        return true;
+    case PROP_RESISTANCE:
+    case PROP_TEMPERATURE:
+        return ntc_prop(c, q->index, q->prop, out);
+    case PROP_BUDGET:
+        return port_budget_dual(c, q->index, out);
+    case PROP_CODE:
+        c->error = "an adc's code is a whole number, which no part moves smoothly; ask for the influence on its "
+                   "input node (or error_lsb) instead";
+        return false;
+    case PROP_ERROR_LSB:
+    case PROP_UNLOADED:
+    case PROP_SOURCE:
+        return adc_prop(c, q->index, q->prop, out);
     default:
         if (!p->kind->is_port) {
             c->error = "only a port has open, sag, zout, zin and ratio fields";

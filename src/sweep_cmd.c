@@ -36,7 +36,6 @@ typedef struct sweep {
     size_t nmarks;
     /* the last point solved, kept so the next continues from its solution */
     ls_session *base;
-    const ls_q *bq[MAX_QUANTITIES];
 } sweep;
 
 /* A copy of cli whose --set list drops PARAM and ends with PARAM=value
@@ -224,7 +223,11 @@ static void solve_point(sweep *w, int i)
     if (code == LS_EXIT_OK && w->base && same_structure(&w->base->nl, &s->nl)) {
         copy_values(&w->base->nl, &s->nl);
         if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
-            record(w, i, w->base, w->bq);
+            /* this point's own bindings: a let inside a QUANTITY is a
+             * constant of the binding, and the base's hold the value of
+             * the point it was bound at (the structures match, so part
+             * and node indices agree) */
+            record(w, i, w->base, q);
             ls_session_free(s);
             free(s);
             return;
@@ -239,7 +242,6 @@ static void solve_point(sweep *w, int i)
             free(w->base);
         }
         w->base = s;
-        memcpy(w->bq, q, sizeof w->bq);
         return;
     }
     const char *why = "";

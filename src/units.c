@@ -48,6 +48,11 @@ bool ls_unit_parse(const char *s, size_t n, double *scale, ls_dims *dims)
         *dims = LS_FREE;
         return true;
     }
+    if (n == 3 && memcmp(s, "LSB", 3) == 0) {
+        *scale = 1;
+        *dims = LS_LSB;
+        return true;
+    }
     if (plain_unit(s, n, dims)) {
         *scale = 1;
         return true;
@@ -64,6 +69,8 @@ const char *ls_dims_name(ls_dims d, char *buf, size_t n)
 {
     if (!d.known || (d.v == 0 && d.a == 0))
         return "a pure number";
+    if (ls_dims_is_lsb(d))
+        return "a number of LSB";
     if (d.v == 1 && d.a == 0) return "a voltage";
     if (d.v == 0 && d.a == 1) return "a current";
     if (d.v == 1 && d.a == 1) return "a power";
@@ -76,6 +83,7 @@ const char *ls_dims_name(ls_dims d, char *buf, size_t n)
 const char *ls_dims_symbol(ls_dims d)
 {
     if (!d.known || (d.v == 0 && d.a == 0)) return "";
+    if (ls_dims_is_lsb(d)) return "LSB";
     if (d.v == 1 && d.a == 0) return "V";
     if (d.v == 0 && d.a == 1) return "A";
     if (d.v == 1 && d.a == 1) return "W";

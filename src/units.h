@@ -18,6 +18,12 @@ typedef struct ls_dims {
 #define LS_WATT     ((ls_dims){1, 1, true})
 #define LS_OHM      ((ls_dims){1, -1, true})
 #define LS_SIEMENS  ((ls_dims){-1, 1, true})
+/* LSB of an adc: not a physical dimension, so a marker exponent that no
+ * product of volts and amperes in a circuit reaches; it is accepted only in a
+ * port's budget= (elab.c) and is an error anywhere else. */
+#define LS_LSB      ((ls_dims){64, 0, true})
+
+static inline bool ls_dims_is_lsb(ls_dims d) { return d.known && d.v == 64 && d.a == 0; }
 
 static inline bool ls_dims_eq(ls_dims x, ls_dims y)
 {

@@ -191,9 +191,9 @@ ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out);
 /* ---- ports: the loading report --------------------------------------------------------------------- */
 
 typedef enum ls_port_verdict {
-    LS_VERDICT_OK,            /* ratio >= the minimum */
-    LS_VERDICT_MARGINAL,      /* ratio >= half the minimum */
-    LS_VERDICT_LOADING        /* below, or undefined */
+    LS_VERDICT_OK,            /* |sag| <= budget; without a budget, ratio >= the minimum */
+    LS_VERDICT_MARGINAL,      /* |sag| <= twice the budget; ratio >= half the minimum */
+    LS_VERDICT_LOADING        /* beyond, or undefined */
 } ls_port_verdict;
 
 /* The loading report of one port (see "Ports" in the language).  With
@@ -210,6 +210,10 @@ typedef struct ls_port_info {
     double current;           /* A, DRIVER -> LOAD */
     ls_port_verdict verdict;
     const char *note;         /* why a field is NaN, or NULL */
+    double budget;            /* largest |sag| allowed (V, or A in current mode): budget=, rule sag, or half
+                                 an LSB of an adc on LOAD; NaN when none */
+    int by_budget;            /* 1 when the budget decided the verdict, 0 the ratio rule */
+    int load_held;            /* 1 when the load side floats once opened and was held at its loaded voltage */
 } ls_port_info;
 
 /* Number of ports. */

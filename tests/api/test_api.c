@@ -172,6 +172,31 @@ static void test_port_loading(void)
     ls_circuit_free(&c);
 }
 
+/* The same divider with budget=0.6V on its port: sag 0.5 V (closed form
+ * above) is within it, so the budget decides ok although the ratio 4 would
+ * say loading; with budget=0.3V the sag is within twice it: marginal.  The
+ * language's port table. */
+static void test_port_budget(void)
+{
+    const char *src[2] = {"ground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> mid 10k\n"
+                          "resistor r2 mid -> gnd 10k\nport p mid -> in budget=0.6V\nresistor rl in -> gnd 20k\n",
+                          "ground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> mid 10k\n"
+                          "resistor r2 mid -> gnd 10k\nport p mid -> in budget=0.3V\nresistor rl in -> gnd 20k\n"};
+    ls_port_verdict want[2] = {LS_VERDICT_OK, LS_VERDICT_MARGINAL};
+    for (int k = 0; k < 2; k++) {
+        ls_circuit *c = solved(src[k], NULL);
+        if (!c)
+            return;
+        ls_port_info p;
+        CU_ASSERT_EQUAL(ls_circuit_port(c, 0, &p), LS_OK);
+        CU_ASSERT(REL(p.budget, k ? 0.3 : 0.6, 1e-15));
+        CU_ASSERT_EQUAL(p.by_budget, 1);
+        CU_ASSERT_EQUAL(p.load_held, 0);
+        CU_ASSERT_EQUAL(p.verdict, want[k]);
+        ls_circuit_free(&c);
+    }
+}
+
 /* Sag at mid of the loaded divider: without rl (or with p opened) mid returns
  * to its open value, so both deltas are the sag, +0.5 V, and they lead the
  * list; without r2, mid = 5 * 20/30 = 3.3333 V (delta +1.3333 V) leads them;
@@ -577,6 +602,7 @@ int main(void)
     CU_pSuite s = CU_add_suite("api", NULL, NULL);
     if (!s || !CU_add_test(s, "divider and Thevenin", test_divider_thevenin) ||
         !CU_add_test(s, "part results", test_parts) || !CU_add_test(s, "port loading", test_port_loading) ||
+        !CU_add_test(s, "port budget", test_port_budget) ||
         !CU_add_test(s, "sag", test_sag) || !CU_add_test(s, "formula", test_formula) ||
         !CU_add_test(s, "sag by connection", test_sag_ports) || !CU_add_test(s, "influence", test_influence) ||
         !CU_add_test(s, "set value", test_set_value) || !CU_add_test(s, "settings", test_settings) ||

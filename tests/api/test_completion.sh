@@ -60,8 +60,10 @@ json_quantities=$("$prog" solve chain.stack --format json | /usr/bin/python3 -c 
 import json, sys
 r = json.load(sys.stdin)
 q = list(r["nodes"])
-q += [p + "." + f for p in r["parts"] for f in ("current", "voltage", "power")]
-q += [p + "." + f for p in r["ports"] for f in ("open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current")]
+own = {"adc": ("code", "error_lsb", "unloaded", "source"), "ntc": ("resistance", "temperature")}
+q += [p + "." + f for p in r["parts"] for f in ("current", "voltage", "power") + own.get(r["parts"][p]["kind"], ())]
+q += [p + "." + f for p in r["ports"]
+      for f in ("open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget")]
 print("\n".join(sorted(q)))')
 
 run_all() {
