@@ -62,7 +62,8 @@ class _PortInfo(ctypes.Structure):
                 ("current_mode", ctypes.c_int), ("open", ctypes.c_double), ("loaded", ctypes.c_double),
                 ("sag", ctypes.c_double), ("sag_rel", ctypes.c_double), ("zout", ctypes.c_double),
                 ("zin", ctypes.c_double), ("ratio", ctypes.c_double), ("current", ctypes.c_double),
-                ("verdict", ctypes.c_int), ("note", ctypes.c_char_p)]
+                ("verdict", ctypes.c_int), ("note", ctypes.c_char_p), ("budget", ctypes.c_double),
+                ("by_budget", ctypes.c_int), ("load_held", ctypes.c_int)]
 
 
 class _SagShare(ctypes.Structure):
@@ -243,7 +244,11 @@ class Port:
     for a current-mode port), sag (V) and as a fraction of open, zout at the
     driver and zin at the load (ohm; inf for an ideal input), ratio zin/zout
     (zout/zin for current mode), current driver -> load (A), the verdict
-    ("ok", "marginal", "loading") and, when a field is nan, why."""
+    ("ok", "marginal", "loading") and, when a field is nan, why.  budget is
+    the largest |sag| allowed (budget=, rule sag, or half an LSB of an ADC on
+    the load; nan when none); by says what decided the verdict ("budget" or
+    "ratio"); load_held is True when the load side floats once opened and was
+    held at its loaded voltage."""
     name: str
     driver: str
     load: str
@@ -258,12 +263,17 @@ class Port:
     current: float
     verdict: str
     note: Optional[str] = None
+    budget: float = math.nan
+    by: str = "ratio"
+    load_held: bool = False
 
     def __str__(self) -> str:
         u = "A" if self.mode == "current" else "V"
         return (f"{self.name:<12} {self.driver} -> {self.load}: open {_eng(self.open, u)}, loaded "
                 f"{_eng(self.loaded, u)}, sag {_eng(self.sag, u)}, zout {_eng(self.zout, 'ohm')}, zin "
-                f"{_eng(self.zin, 'ohm')}, ratio {_eng(self.ratio, '')}".rstrip() + f"  {self.verdict}"
+                f"{_eng(self.zin, 'ohm')}, ratio {_eng(self.ratio, '')}".rstrip()
+                + (f", budget {_eng(self.budget, u)}" if not math.isnan(self.budget) else "")
+                + f"  {self.verdict} (by {self.by})"
                 + (f"  ({self.note})" if self.note else ""))
 
 
@@ -583,7 +593,8 @@ class Circuit:
             self._check(_lib.ls_circuit_port(h, i, ctypes.byref(p)))
             out.append(Port(_s(p.name), _s(p.from_), _s(p.to), "current" if p.current_mode else "voltage",
                             p.open, p.loaded, p.sag, p.sag_rel, p.zout, p.zin, p.ratio, p.current,
-                            _VERDICTS[p.verdict], _s(p.note)))
+                            _VERDICTS[p.verdict], _s(p.note), p.budget, "budget" if p.by_budget else "ratio",
+                            bool(p.load_held)))
         return out
 
     def voltage(self, node: str) -> float:

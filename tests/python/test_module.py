@@ -74,9 +74,11 @@ for path in circuits:
     for pname, r in ref.get("ports", {}).items():
         p = op.ports.by_name(pname)
         same(f"{name} port {pname} from", p.driver == r["from"], True)
-        for key in ("open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current"):
+        for key in ("open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget"):
             same(f"{name} port {pname}.{key}", getattr(p, key), r.get(key))
         same(f"{name} port {pname} verdict", p.verdict == r["verdict"], True)
+        same(f"{name} port {pname} by", p.by == r["by"], True)
+        same(f"{name} port {pname} load_held", p.load_held == r.get("load_held", False), True)
     if not op.nodes:
         continue
     # the node with the largest voltage that is not ground: sag, thevenin, influence there
