@@ -13,7 +13,8 @@ output contract, shared/spec/cli.md), on every example circuit:
   to 1e-12 relative (the CLI continues each point from the last solution, the
   library solves each afresh: both are refined solves of the same system);
 - the bad-input corpus (tests/bad/cases): a CircuitError whose first error is
-  at the same file:line:col as the CLI's first `error:` line.
+  at the same file:line:col as the CLI's first `error:` line;
+- the Python example of docs/python.md runs as written.
 
 Usage: test_module.py LOADSTACK LIBRARY SOURCE_ROOT
 """
@@ -171,6 +172,15 @@ for path in sorted(glob.glob(os.path.join(cases, "*.stack"))):
         checked += 1
 if checked < 50:
     failures.append(f"only {checked} bad cases compared")
+
+# the Python example of docs/python.md runs as written (on the build tree's demo)
+doc = open(os.path.join(root, "docs", "python.md")).read()
+block = re.search(r"^```python\n(.*?)^```", doc, re.S | re.M).group(1)
+block = block.replace("/usr/share/loadstack/circuits/", os.path.join(root, "circuits") + "/")
+try:
+    exec(compile(block, "docs/python.md", "exec"), {"print": lambda *a, **k: None})
+except Exception as e:  # noqa: BLE001 - any failure of the documented example is a failure
+    failures.append(f"docs/python.md example: {type(e).__name__}: {e}")
 
 for f in failures[:40]:
     print("FAIL", f)
