@@ -7,22 +7,35 @@
 # and `--set`.
 # Installed as share/bash-completion/completions/loadstack.
 
-_loadstack_commands="solve check sag thevenin influence tol sweep formula pick demo"
-_loadstack_common="--set --format --output --min-ratio --ascii --solver --derate --help --version"
+_loadstack_commands="solve check sag thevenin influence tol sweep formula pick chain demo"
+_loadstack_all="--format --output --ascii --digits --quiet --help --version"
+_loadstack_circuit="--set --min-ratio --solver --derate"
 
-# The options one command takes, common ones included.
+# The options one command takes: those of every command, those of every
+# command that reads a circuit (all but pick), and its own.
 _loadstack_options()
 {
     local extra=""
     case $1 in
-        thevenin) extra="--load --meter" ;;
-        sag) extra="--what-if" ;;
-        tol) extra="--trials --seed --dist --plot" ;;
-        sweep) extra="--steps --log --plot" ;;
+        check) extra="$_loadstack_circuit --fail-on" ;;
+        thevenin) extra="$_loadstack_circuit --load --meter" ;;
+        sag) extra="$_loadstack_circuit --what-if" ;;
+        tol) extra="$_loadstack_circuit --trials --seed --dist --plot" ;;
+        sweep) extra="$_loadstack_circuit --steps --log --plot" ;;
         pick) extra="--series --total --zout" ;;
-        formula) extra="--symbols --ideal" ;;
+        chain) extra="$_loadstack_circuit --plot --plot-all" ;;
+        solve | demo) extra="$_loadstack_circuit --plot-all" ;;
+        formula) extra="$_loadstack_circuit --symbols --ideal" ;;
+        *) extra="$_loadstack_circuit" ;;
     esac
-    echo "$_loadstack_common $extra"
+    echo "$_loadstack_all $extra"
+}
+
+# The warning codes for --fail-on, as `loadstack check --help` lists them.
+_loadstack_codes()
+{
+    echo warnings
+    "${_loadstack_prog:-loadstack}" check --help 2>/dev/null | sed -n 's/^  warning codes: //p' | tr ',' ' '
 }
 
 # Node names of circuit file $1, one a line, from the solve report in JSON
@@ -115,14 +128,20 @@ _loadstack()
 
     # Values of options.
     case $prev in
-        --format) COMPREPLY=($(compgen -W "text json csv" -- "$cur")); return ;;
+        --format) COMPREPLY=($(compgen -W "text json csv html" -- "$cur")); return ;;
         --solver) COMPREPLY=($(compgen -W "auto dense sparse" -- "$cur")); return ;;
         --dist) COMPREPLY=($(compgen -W "uniform normal" -- "$cur")); return ;;
         --series) COMPREPLY=($(compgen -W "E6 E12 E24 E48 E96 E192" -- "$cur")); return ;;
+        --fail-on)
+            # a comma-separated list: complete the code after the last comma
+            local head=${cur%,*} last=${cur##*,}
+            [ "$head" = "$cur" ] && head="" || head="$head,"
+            COMPREPLY=($(compgen -P "$head" -W "$(_loadstack_codes)" -- "$last")); return ;;
         --output) compopt -o filenames 2>/dev/null; COMPREPLY=($(compgen -f -- "$cur")); return ;;
         --plot)
             compopt -o filenames 2>/dev/null
             COMPREPLY=($(compgen -f -X '!*.svg' -- "$cur") $(compgen -f -X '!*.png' -- "$cur") \
+                $(compgen -f -X '!*.pdf' -- "$cur") \
                 $(compgen -d -- "$cur")); return ;;
         --set)
             compopt -o nospace 2>/dev/null
@@ -134,7 +153,7 @@ _loadstack()
             compopt -o nospace 2>/dev/null
             COMPREPLY=($(compgen -P "$done_part" -W "$(_loadstack_parts "$file") $(_loadstack_lets "$file")" -- "$last"))
             return ;;
-        --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout)
+        --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout | --digits)
             return ;;
     esac
 

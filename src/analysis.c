@@ -126,7 +126,7 @@ int ls_op_solve_vec(ls_op *op, double *b, int transpose)
     return refined_solve(op, work, b, transpose, NULL, NULL);
 }
 
-static void widest_spread(const ls_netlist *nl, char *buf, size_t n)
+void ls_widest_spread(const ls_netlist *nl, char *buf, size_t n)
 {
     int lo = -1, hi = -1;
     for (int i = 0; i < nl->nparts; i++) {
@@ -162,6 +162,34 @@ void ls_op_report_singular(ls_op *op, int col)
             hint = " (an ideal op-amp needs negative feedback, a path from out back to minus)";
         else
             hint = " (controlled sources whose gains cancel, or a source whose current nothing limits)";
+    }
+    if (op->rcond > 0 && isfinite(op->rcond)) {
+        /* no zero pivot, but too small a one for double precision to carry
+         * (tiny resistances in a cluster tied to the rest by huge ones) */
+        char spread[400];
+        ls_widest_spread(nl, spread, sizeof spread);
+        ls_error(nl->diags, at,
+                 "the circuit cannot be solved in double precision: the equations are numerically singular at %s "
+                 "(reciprocal condition %.2g)%s",
+                 what, op->rcond, spread);
+        return;
+    }
+    /* an exact zero pivot can also come from rounding when the values span
+     * too wide a range for double precision: say so where they do */
+    double lo = INFINITY, hi = 0;
+    for (int i = 0; i < nl->nparts; i++)
+        if (strcmp(nl->parts[i].kind->name, "resistor") == 0) {
+            lo = fmin(lo, nl->parts[i].value);
+            hi = fmax(hi, nl->parts[i].value);
+        }
+    if (hi / lo >= 1e12) {
+        char spread[400];
+        ls_widest_spread(nl, spread, sizeof spread);
+        ls_error(nl->diags, at,
+                 "the circuit cannot be solved: the equations are singular at %s%s, or numerically singular in "
+                 "double precision%s",
+                 what, hint, spread);
+        return;
     }
     ls_error(nl->diags, at, "the circuit cannot be solved: the equations are singular at %s%s", what, hint);
 }
@@ -247,8 +275,25 @@ static void chop_noise(ls_op *op)
     for (int i = nn; i < n; i++)
         imax = fmax(imax, fabs(op->x[i]));
     for (int i = 0; i < n; i++)
-        if (fabs(op->x[i]) < NOISE_FLOOR * (i < nn ? vmax : imax))
+        if (fabs(op->x[i]) < NOISE_FLOOR * (i < nn ? vmax : imax)) {
             op->x[i] = 0;
+            if (op->acc.tail)
+                op->acc.tail[i] = 0;
+        }
+}
+
+/* Extra-precise refinement for a linear circuit (accuracy.c).  A circuit
+ * with diodes, thermistors or limited op-amps keeps its last Newton solve: its
+ * stamps describe the next linearization, not the system just solved, and
+ * the bounds say what that leaves.  Bounds are recomputed on demand.  0, or
+ * -1 when out of memory. */
+static int polish(ls_op *op)
+{
+    op->acc.have_bounds = false;
+    op->acc.refined = false;
+    if (ls_newton_needed(op->nl))
+        return 0;
+    return ls_acc_refine(op);
 }
 
 static void part_results(ls_op *op)
@@ -267,13 +312,15 @@ static void part_results(ls_op *op)
         }
         ls_lin l;
         ls_part_current(p, nl, &l, false);
-        double cur = ls_lin_eval(&l, op->x);
+        /* from x + tail: a current through a small resistance between two
+         * nearly equal node voltages cancels in double-double, not in double */
+        double cur = ls_acc_lin_eval(op, &l);
         double vv, drop;
         if (p->kind->vsign == VSIGN_OUT) {
             vv = op->v[p->pin[2]];
             drop = -vv;
         } else {
-            drop = op->v[p->pin[0]] - op->v[p->pin[1]];
+            drop = ls_acc_drop(op, p->pin[0], p->pin[1]);
             vv = p->kind->vsign == VSIGN_RISE ? -drop : drop;
         }
         op->ipart[i] = cur;
@@ -350,6 +397,10 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     op->iterations = 1;
     if (!o->linear_only && ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
         return r;
+    if (polish(op) != 0) {
+        ls_error(nl->diags, LS_NOLOC, "out of memory refining the solution");
+        return LS_EXIT_UNSOLVABLE;
+    }
     part_results(op);
     /* Pins for floating nodes in modified systems: a conductance on the scale of
      * the circuit's own, so the update stays well conditioned. */
@@ -364,7 +415,7 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     op->g_pin = dn ? dsum / dn : 1;
     if (op->rcond < RCOND_WARN) {
         char spread[400];
-        widest_spread(nl, spread, sizeof spread);
+        ls_widest_spread(nl, spread, sizeof spread);
         ls_warning(nl->diags, LS_NOLOC, "ill-conditioned",
                    "the system is ill-conditioned (reciprocal condition %.2g): results may carry few correct digits%s",
                    op->rcond, spread);
@@ -372,6 +423,8 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (!(op->residual <= RESIDUAL_WARN))
         ls_warning(nl->diags, LS_NOLOC, "inaccurate",
                    "the solution's relative residual is %.2g: treat the results as approximate", op->residual);
+    if (!o->no_bounds)
+        ls_acc_warn(op, 4); /* the report's default digits; the report marks against its own */
     ls_real_warnings(op);
     return LS_EXIT_OK;
 }
@@ -399,6 +452,8 @@ int ls_op_resolve(ls_op *op)
         if (r != LS_EXIT_OK)
             return r;
     }
+    if (polish(op) != 0)
+        return LS_EXIT_UNSOLVABLE;
     part_results(op);
     for (int i = 0; i < nl->nparts; i++)
         op->port[i].done = false;
@@ -430,6 +485,7 @@ void ls_op_free(ls_op *op)
     free(op->bridge_part);
     free(op->bridge_child);
     free(op->order);
+    ls_acc_free(&op->acc);
     memset(op, 0, sizeof *op);
 }
 

@@ -4,6 +4,7 @@
 #ifndef LS_ANALYSIS_H
 #define LS_ANALYSIS_H
 
+#include "accuracy.h"
 #include "mna.h"
 
 typedef enum ls_solver_choice { LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE } ls_solver_choice;
@@ -17,6 +18,7 @@ typedef struct ls_options {
     const ls_tie *ties;           /* per node, or NULL: conductances to fixed voltages */
     bool keep_states;       /* start from the parts' present linearization points and limits */
     bool linear_only;       /* one linear solve at those points (no iteration) */
+    bool no_bounds;         /* inner solves (variants): no error bounds and no untrusted-digits warning */
 } ls_options;
 
 typedef enum ls_verdict { VERDICT_OK, VERDICT_MARGINAL, VERDICT_LOADING } ls_verdict;
@@ -59,7 +61,12 @@ typedef struct ls_op {
     int *order;              /* nodes by tin */
     double *work;            /* refinement workspace: 3 work_n doubles */
     size_t work_n;
+    ls_accuracy acc;         /* extra-precise tail of x and the error bounds (accuracy.h) */
 } ls_op;
+
+/* "; the widest spread of values is resistor 'a' (...) against 'b' (...)",
+ * or "" with fewer than two resistors: the usual cause of ill-conditioning. */
+void ls_widest_spread(const ls_netlist *nl, char *buf, size_t n);
 
 /* Exit codes of the program (cli.md). */
 enum { LS_EXIT_OK = 0, LS_EXIT_CHECK = 1, LS_EXIT_USAGE = 2, LS_EXIT_UNSOLVABLE = 3 };

@@ -44,6 +44,7 @@ struct ls_circuit {
     const char **sets;         /* the settings it was read with, nsets of them, in the arena */
     int nsets;
     ls_solve_options solve_opt;   /* of the last ls_circuit_solve */
+    const char **rule_text;    /* per port (nports): the last ratio-rule text handed out, in the arena */
 };
 
 /* ---- small helpers ----------------------------------------------------------------------- */
@@ -234,6 +235,7 @@ void ls_circuit_free(ls_circuit **pc)
     if (c->have_op)
         ls_op_free(&c->op);
     free(c->ports);
+    free(c->rule_text);
     ls_netlist_free(&c->nl);
     ls_diags_free(&c->diags);
     ls_arena_free(&c->arena);
@@ -324,6 +326,22 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
     out->rcond = c->op.rcond;
     out->residual = c->op.residual;
     out->iterations = c->op.iterations;
+    return LS_OK;
+}
+
+ls_status ls_circuit_error_bound(ls_circuit *c, const char *name, double *bound)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!name || !bound)
+        return LS_E_ARGUMENT;
+    int node = ls_netlist_find_node(&c->nl, name), part = node < 0 ? ls_netlist_find_part(&c->nl, name) : -1;
+    if (node < 0 && part < 0)
+        return LS_E_NOT_FOUND;
+    if (ls_acc_bounds(&c->op) != 0)
+        return LS_E_NOMEM;
+    *bound = node >= 0 ? c->op.acc.node_bound[node] : c->op.acc.part_bound[part];
     return LS_OK;
 }
 
@@ -461,6 +479,28 @@ ls_status ls_circuit_port_by_name(ls_circuit *c, const char *name, ls_port_info 
 
 /* ---- quantities and checks ------------------------------------------------------------------- */
 
+/* Per-call scratch: a quantity's text, syntax and binding live in the
+ * circuit's arena only for the call that evaluates it, so a handle evaluated
+ * a million times keeps its size.  A call that reported a diagnostic keeps
+ * its scratch: the diagnostic points into it. */
+typedef struct scratch {
+    ls_arena_mark mark;
+    int nfiles, ndiags;
+} scratch;
+
+static scratch scratch_begin(const ls_circuit *c)
+{
+    return (scratch){ls_arena_mark_now(&c->arena), c->diags.nfiles, c->diags.n};
+}
+
+static void scratch_end(ls_circuit *c, const scratch *s)
+{
+    if (c->diags.n != s->ndiags || c->arena.failed)
+        return;
+    ls_sources_truncate(&c->diags, s->nfiles);
+    ls_arena_release(&c->arena, &s->mark);
+}
+
 /* Parse and bind a quantity; NULL after reporting an error. */
 static ls_q *bind_quantity(ls_circuit *c, const char *text)
 {
@@ -475,10 +515,12 @@ ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value)
         return st;
     if (!quantity || !value)
         return LS_E_ARGUMENT;
+    scratch s = scratch_begin(c);
     ls_q *q = bind_quantity(c, quantity);
     if (!q)
         return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
     double v = ls_q_eval(&c->op, q);
+    scratch_end(c, &s);
     if (forget_oom_ports(c))
         return LS_E_NOMEM;
     *value = v;
@@ -521,6 +563,30 @@ static int loc_line(const ls_diags *d, ls_loc l)
     return line;
 }
 
+/* The text of port k's ratio rule as the circuit keeps it: the last one
+ * handed out when it reads the same, else a new arena copy of t (which
+ * lives in scratch).  NULL when out of memory. */
+static const char *keep_rule_text(ls_circuit *c, int k, const char *t)
+{
+    if (!c->rule_text) {
+        c->rule_text = calloc((size_t)(c->nports ? c->nports : 1), sizeof *c->rule_text);
+        if (!c->rule_text)
+            return NULL;
+    }
+    if (!c->rule_text[k] || strcmp(c->rule_text[k], t) != 0)
+        c->rule_text[k] = ls_arena_strdup(&c->arena, t);
+    return c->rule_text[k];
+}
+
+/* Port number (0..nports-1) of part index p, or -1. */
+static int port_number(const ls_circuit *c, int p)
+{
+    for (int k = 0; k < c->nports; k++)
+        if (c->ports[k] == p)
+            return k;
+    return -1;
+}
+
 ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks, int *n, int *failed)
 {
     ls_status st = need_solved(c);
@@ -529,17 +595,19 @@ ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks
     if (!checks || !n)
         return LS_E_ARGUMENT;
     ls_checks rows;
+    /* The rule rows' texts are made in scratch; the ones handed out are
+     * kept once per port (see keep_rule_text), copied out before release. */
+    scratch s = scratch_begin(c);
     if (ls_checks_run(&c->op, with_rule != 0, &rows) != 0)
         return LS_E_NOMEM;
     ls_check_info *out = calloc((size_t)(rows.n ? rows.n : 1), sizeof *out);
-    if (!out || c->arena.failed || forget_oom_ports(c)) {
-        free(out);
-        ls_checks_free(&rows);
-        return LS_E_NOMEM;
-    }
-    for (int i = 0; i < rows.n; i++) {
+    char **rule = calloc((size_t)(rows.n ? rows.n : 1), sizeof *rule);
+    bool oom = !out || !rule || c->arena.failed || forget_oom_ports(c);
+    for (int i = 0; i < rows.n && !oom; i++) {
         const ls_check_row *r = &rows.rows[i];
         out[i].text = r->text;
+        if (r->port >= 0 && !(rule[i] = strdup(r->text)))
+            oom = true;
         out[i].file = r->loc.file >= 0 ? c->diags.files[r->loc.file].path : NULL;
         out[i].line = loc_line(&c->diags, r->loc);
         out[i].instance = r->instance;
@@ -549,11 +617,29 @@ ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks
         out[i].pass = r->r.pass;
         out[i].reason = r->r.reason;
     }
-    *checks = out;
-    *n = rows.n;
-    if (failed)
-        *failed = rows.failed;
+    int nrows = rows.n, nfailed = rows.failed;
+    int *port_of = NULL;
+    if (!oom && with_rule && !(port_of = malloc((size_t)(nrows ? nrows : 1) * sizeof *port_of)))
+        oom = true;
+    for (int i = 0; i < nrows && port_of; i++)
+        port_of[i] = rows.rows[i].port;
     ls_checks_free(&rows);
+    scratch_end(c, &s);
+    for (int i = 0; i < nrows && !oom && port_of; i++)
+        if (rule[i] && !(out[i].text = keep_rule_text(c, port_number(c, port_of[i]), rule[i])))
+            oom = true;
+    for (int i = 0; rule && i < nrows; i++)
+        free(rule[i]);
+    free(rule);
+    free(port_of);
+    if (oom || c->arena.failed) {
+        free(out);
+        return LS_E_NOMEM;
+    }
+    *checks = out;
+    *n = nrows;
+    if (failed)
+        *failed = nfailed;
     return LS_OK;
 }
 
@@ -685,12 +771,14 @@ ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *valu
         return st;
     if (!quantity || !entries || !n)
         return LS_E_ARGUMENT;
+    scratch s = scratch_begin(c);
     ls_q *q = bind_quantity(c, quantity);
     if (!q)
         return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
     ls_sens_item *items = NULL;
     double v = NAN;
     int k = ls_sens(&c->op, q, &v, &items);
+    scratch_end(c, &s);
     if (k < 0)
         return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
     ls_influence_entry *e = calloc((size_t)(k ? k : 1), sizeof *e);
@@ -765,6 +853,7 @@ ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_optio
         o.trials = 10000;
     if (o.trials > LS_TOL_MAX_TRIALS || (o.law != LS_TOL_UNIFORM && o.law != LS_TOL_NORMAL))
         return LS_E_ARGUMENT;
+    scratch sc = scratch_begin(c);   /* the quantity's binding is scratch for this call */
     ls_q *q = bind_quantity(c, quantity);
     if (!q)
         return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
@@ -781,7 +870,7 @@ ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_optio
     }
     const ls_tol_result *r = &t.r;
     *out = (ls_tol_info){.nominal = r->nominal, .wc_min = r->wc_min, .wc_max = r->wc_max, .corners = r->corners,
-                         .rss = r->corners ? NAN : r->rss, .varying = t.nv, .trials = o.trials,
+                         .rss = r->corners ? NAN : r->rss, .varying = t.nv, .trials = t.trials,
                          .finite = r->finite, .mean = r->mean, .std = r->std, .min = r->min, .max = r->max,
                          .yield = r->yield};
     memcpy(out->pct, r->pct, sizeof out->pct);
@@ -790,8 +879,9 @@ ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_optio
         t.values = NULL;
     }
     ls_tol_free(&t);
-    /* port reports were computed at the nominal values the study returned to */
-    return ok_status(c, w0);
+    ls_status done = ok_status(c, w0);
+    scratch_end(c, &sc);
+    return done;
 }
 
 /* ---- sweeps --------------------------------------------------------------------------------- */

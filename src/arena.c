@@ -171,10 +171,18 @@ char *ls_arena_printf(ls_arena *a, const char *fmt, ...)
     return p;
 }
 
-void ls_arena_free(ls_arena *a)
+ls_arena_mark ls_arena_mark_now(const ls_arena *a)
 {
-    ls_arena_block *b = a->head;
-    while (b) {
+    ls_arena_mark m = {a->head, a->head ? a->head->next : NULL, a->head ? a->head->off : 0, a->used,
+                       a->reserved, a->next_cap};
+    return m;
+}
+
+/* Give the blocks from b up to (not including) stop back to the system;
+ * returns stop. */
+static ls_arena_block *drop_blocks(ls_arena_block *b, const ls_arena_block *stop)
+{
+    while (b && b != stop) {
         ls_arena_block *n = b->next;
         if (b->map_len)
             munmap(b, b->map_len);
@@ -182,6 +190,30 @@ void ls_arena_free(ls_arena *a)
             free(b);
         b = n;
     }
+    return b;
+}
+
+void ls_arena_release(ls_arena *a, const ls_arena_mark *m)
+{
+    /* Blocks obtained since the mark sit before the marked head (ordinary
+     * blocks are pushed in front) or right after it (a large object's block
+     * is placed second). */
+    ls_arena_block *b = drop_blocks(a->head, m->head);
+    a->head = b;
+    if (b) {
+        b->next = drop_blocks(b->next, m->head_next);
+        if (b->off > m->head_off)
+            memset((char *)b->data + m->head_off, 0, b->off - m->head_off);
+        b->off = m->head_off;
+    }
+    a->used = m->used;
+    a->reserved = m->reserved;
+    a->next_cap = m->next_cap;
+}
+
+void ls_arena_free(ls_arena *a)
+{
+    drop_blocks(a->head, NULL);
     a->head = NULL;
     a->used = 0;
     a->reserved = 0;

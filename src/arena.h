@@ -35,6 +35,22 @@ char *ls_arena_strdup(ls_arena *a, const char *s);
 /* printf into the arena. */
 char *ls_arena_printf(ls_arena *a, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)));
+/* A point in the arena's history, to return to: per-call scratch (a quantity
+ * parsed and bound for one evaluation) is allocated after a mark and handed
+ * back by ls_arena_release, so a long-lived circuit does not grow with each
+ * call. */
+typedef struct ls_arena_mark {
+    ls_arena_block *head, *head_next;  /* the list's first two blocks at the mark */
+    size_t head_off;                   /* bytes of head handed out at the mark */
+    size_t used, reserved, next_cap;
+} ls_arena_mark;
+
+ls_arena_mark ls_arena_mark_now(const ls_arena *a);
+/* Free everything allocated since mark m (blocks obtained since, and the tail
+ * of the block that was current, cleared again so that fresh memory stays
+ * zero).  Nothing allocated since m may be used afterwards; marks are
+ * released innermost first.  `failed` is kept. */
+void ls_arena_release(ls_arena *a, const ls_arena_mark *m);
 /* Frees every block; the arena may be used again.  `failed` is kept. */
 void ls_arena_free(ls_arena *a);
 

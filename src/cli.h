@@ -33,7 +33,13 @@ typedef struct ls_cli {
     const char *plot;                  /* tol, sweep */
     int steps;                         /* sweep (default 51) */
     bool log;
+    bool plot_all;                     /* solve, chain with --format html: histograms even without tol= */
     int threads;
+    int digits;                        /* significant digits in text (default 4) */
+    bool quiet;                        /* no progress lines */
+    const char *fail_on;               /* check: "warnings" or CODE,CODE... (NULL: none) */
+    char *stdin_text;                  /* FILE '-': the circuit read from standard input */
+    size_t stdin_len;
     const char *symbols;               /* formula: --symbols A,B,... */
     bool ideal;                        /* formula: --ideal */
     bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
@@ -77,8 +83,12 @@ int ls_cmd_influence(ls_cli *cli);
 int ls_cmd_tol(ls_cli *cli);     /* tol_cmd.c */
 int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
 int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
+int ls_cmd_chain(ls_cli *cli);   /* chain_cmd.c */
 int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
 
 extern const char ls_demo_text[];
+/* Every warning code the program gives, NULL-terminated (generated from
+ * docs/warnings.md). */
+extern const char *const ls_warning_codes[];
 
 #endif

@@ -11,7 +11,9 @@
 
 #include "cli.h"
 #include "elab.h"
+#include "html.h"
 #include "parser.h"
+#include "progress.h"
 
 /* ---- numbers on the command line ------------------------------------------------------ */
 
@@ -78,7 +80,7 @@ static int parse_sets(ls_session *s, ls_setting *sets)
         size_t nlen = (size_t)(eq - cli->sets[i]);
         sets[i].name = ls_arena_strndup(&s->arena, cli->sets[i], nlen);
         int id = ls_sources_add(&s->diags, "--set", cli->sets[i], (unsigned)strlen(cli->sets[i]));
-        if (id < 0)
+        if (id < 0 || ls_sources_check_utf8(&s->diags, id) > 0)
             return -1;
         sets[i].value = ls_parse_expr_at(&s->diags, id, (unsigned)nlen + 1, false);
         sets[i].loc = (ls_loc){id, 0, (unsigned)nlen};
@@ -99,11 +101,19 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
     ls_arena_init(&s->syntax);
     ls_diags_init(&s->diags, &s->arena);
     int errs;
-    if (text)
+    if (!text && strcmp(path, "-") == 0 && cli->stdin_text) {
+        /* FILE '-': the text main() read from standard input; includes
+         * resolve from the current directory */
+        s->input_path = NULL;
+        errs = ls_parse_string_to(&s->diags, "<stdin>", cli->stdin_text, cli->stdin_len, &s->syntax, &s->prog);
+    } else if (text) {
         errs = ls_parse_string_to(&s->diags, path, text, strlen(text), &s->syntax, &s->prog);
-    else
+    } else {
         errs = ls_parse_file_to(&s->diags, path, &s->syntax, &s->prog);
+    }
     phase_done("parse", &t0);
+    if (s->diags.nfiles == 0)
+        return LS_EXIT_USAGE; /* unreadable: that one error, not a report on an empty circuit */
     ls_setting sets[LS_MAX_SETS];
     if (parse_sets(s, sets) != 0)
         return LS_EXIT_USAGE;
@@ -120,12 +130,24 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
     return bad ? LS_EXIT_USAGE : LS_EXIT_OK;
 }
 
+/* Circuits this large take about a second or more to solve: the progress
+ * line says what is happening meanwhile. */
+#define LARGE_SOLVE_NODES 100000
+
 int ls_session_solve(ls_session *s)
 {
     ls_options o = {.solver = s->cli->solver, .min_ratio = s->cli->min_ratio, .derate = s->cli->derate};
     s->have_op = true;
     double t0 = now_s();
+    ls_progress pg;
+    ls_progress_start(&pg, s->cli->command ? s->cli->command : "solve", "", s->cli->quiet);
+    if (s->nl.nnodes >= LARGE_SOLVE_NODES) {
+        char note[96];
+        snprintf(note, sizeof note, "solving %d nodes and %d parts ...", s->nl.nnodes, s->nl.nparts);
+        ls_progress_note(&pg, note);
+    }
     int code = ls_op_solve(&s->op, &s->nl, &o);
+    ls_progress_end(&pg);
     phase_done("solve", &t0);
     return code;
 }
@@ -215,6 +237,61 @@ int ls_out_close(ls_session *s, FILE *f, char *tmp, int code)
 
 /* ---- solve, check, demo ---------------------------------------------------------------------- */
 
+/* Does warning `code` match --fail-on `spec` ("warnings", or CODE,CODE...)? */
+static bool fails_on(const char *spec, const char *code)
+{
+    if (strcmp(spec, "warnings") == 0)
+        return true;
+    size_t n = strlen(code);
+    for (const char *p = spec; (p = strstr(p, code)) != NULL; p += n)
+        if ((p == spec || p[-1] == ',') && (p[n] == ',' || p[n] == 0))
+            return true;
+    return false;
+}
+
+/* The distinct codes of the warnings that --fail-on names, in the order they
+ * first occur, into out (at most max); their number. */
+static int failed_warnings(const ls_diags *d, const char *spec, const char **out, int max)
+{
+    int n = 0;
+    for (int i = 0; spec && i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (g->sev != LS_SEV_WARNING || !g->code || !fails_on(spec, g->code))
+            continue;
+        bool seen = false;
+        for (int k = 0; k < n && !seen; k++)
+            seen = strcmp(out[k], g->code) == 0;
+        if (!seen && n < max)
+            out[n++] = g->code;
+    }
+    return n;
+}
+
+/* What a report on the same terminal as stderr already shows: every warning
+ * (solve's Warnings table), or those --fail-on fails on (check's report). */
+typedef struct shown_ctx {
+    bool all;
+    const ls_report *rp;
+} shown_ctx;
+
+static bool already_shown(const ls_diag *g, void *ctx)
+{
+    const shown_ctx *c = ctx;
+    if (g->sev != LS_SEV_WARNING)
+        return false;
+    for (int k = 0; !c->all && g->code && k < c->rp->nfailed_warnings; k++)
+        if (strcmp(c->rp->failed_warnings[k], g->code) == 0)
+            return true;
+    return c->all;
+}
+
+/* Are the report (on stdout) and stderr the same terminal?  Then a warning the
+ * report shows is not shown on stderr again. */
+static bool report_on_terminal(const ls_cli *cli)
+{
+    return (!cli->output || strcmp(cli->output, "-") == 0) && isatty(STDOUT_FILENO) && isatty(STDERR_FILENO);
+}
+
 static int run_report(ls_cli *cli, const char *path, const char *text, bool check_mode)
 {
     ls_session s;
@@ -242,15 +319,23 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
         return LS_EXIT_USAGE;
     }
     phase_done("checks", &t0);
-    ls_report rp = {.out = out, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = {.out = out, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
+    const char *failed_codes[64];
+    rp.failed_warnings = failed_codes;
+    rp.nfailed_warnings = check_mode ? failed_warnings(&s.diags, cli->fail_on, failed_codes, 64) : 0;
     if (check_mode)
         ls_report_check(&rp, &s.op, &checks);
+    else if (cli->fmt == FMT_HTML)
+        code = ls_html_page(out, &s, NULL, NULL);
     else
         ls_report_solve(&rp, &s.op, &checks);
-    code = check_mode && checks.failed ? LS_EXIT_CHECK : LS_EXIT_OK;
+    code = check_mode && (checks.failed || rp.nfailed_warnings) ? LS_EXIT_CHECK : LS_EXIT_OK;
     code = ls_out_close(&s, out, tmp, code);
     phase_done("report", &t0);
-    ls_diags_print(&s.diags, stderr);
+    /* a text report that lists warnings, on the terminal stderr is on: each once */
+    shown_ctx sc = {.all = !check_mode, .rp = &rp};
+    bool one_terminal = cli->fmt == FMT_TEXT && report_on_terminal(cli);
+    ls_diags_print_sel(&s.diags, stderr, one_terminal ? already_shown : NULL, &sc);
     ls_checks_free(&checks);
     ls_session_free(&s);
     phase_done("free", &t0);

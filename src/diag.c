@@ -54,6 +54,66 @@ int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len
     return d->nfiles++;
 }
 
+void ls_sources_truncate(ls_diags *d, int nfiles)
+{
+    while (d->nfiles > nfiles)
+        free(d->files[--d->nfiles].line_start);
+}
+
+/* Length of the well-formed UTF-8 sequence at s (n bytes left), or 0 when
+ * the byte at s does not start one (RFC 3629, table 3-7 of Unicode). */
+static unsigned utf8_len(const unsigned char *s, size_t n)
+{
+    unsigned char c = s[0];
+    if (c < 0x80)
+        return 1;
+    unsigned k;
+    unsigned char lo = 0x80, hi = 0xBF;   /* the range of the second byte */
+    if (c >= 0xC2 && c <= 0xDF)
+        k = 2;
+    else if (c >= 0xE0 && c <= 0xEF) {
+        k = 3;
+        if (c == 0xE0) lo = 0xA0;          /* no overlong forms */
+        if (c == 0xED) hi = 0x9F;          /* no surrogates */
+    } else if (c >= 0xF0 && c <= 0xF4) {
+        k = 4;
+        if (c == 0xF0) lo = 0x90;
+        if (c == 0xF4) hi = 0x8F;          /* nothing above U+10FFFF */
+    } else
+        return 0;
+    if (n < k || s[1] < lo || s[1] > hi)
+        return 0;
+    for (unsigned i = 2; i < k; i++)
+        if ((s[i] & 0xC0) != 0x80)
+            return 0;
+    return k;
+}
+
+int ls_sources_check_utf8(ls_diags *d, int file)
+{
+    ls_file *f = &d->files[file];
+    unsigned char *t = (unsigned char *)f->text;
+    int bad = 0, last_line = -1;
+    for (size_t i = 0; i < f->len;) {
+        unsigned k = utf8_len(t + i, f->len - i);
+        if (k) {
+            i += k;
+            continue;
+        }
+        int line, col;
+        ls_loc_linecol(d, file, (unsigned)i, &line, &col);
+        if (line != last_line) /* one error a line: a Latin-1 file would flood */
+            ls_error(d, (ls_loc){file, (unsigned)i, (unsigned)i + 1},
+                     "byte 0x%02X is not UTF-8 (text must be UTF-8; a Latin-1 or Windows-1252 file needs converting)",
+                     t[i]);
+        last_line = line;
+        t[i] = '?';
+        bad++;
+        i++;
+    }
+    return bad;
+}
+
 void ls_loc_linecol(const ls_diags *d, int file, unsigned off, int *line, int *col)
 {
     const ls_file *f = &d->files[file];
@@ -180,9 +240,16 @@ static void print_excerpt(const ls_diags *d, ls_loc loc, FILE *out)
 
 void ls_diags_print(const ls_diags *d, FILE *out)
 {
+    ls_diags_print_sel(d, out, NULL, NULL);
+}
+
+void ls_diags_print_sel(const ls_diags *d, FILE *out, bool (*skip)(const ls_diag *g, void *ctx), void *ctx)
+{
     static const char *const sev[] = {"note", "warning", "error"};
     for (int i = 0; i < d->n; i++) {
         const ls_diag *g = &d->items[i];
+        if (skip && skip(g, ctx))
+            continue;
         if (g->loc.file >= 0) {
             char where[512];
             fprintf(out, "%s: %s: %s\n", ls_loc_str(d, g->loc, where, sizeof where),

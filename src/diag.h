@@ -52,6 +52,16 @@ void ls_diags_init(ls_diags *d, ls_arena *a);
 void ls_diags_free(ls_diags *d);
 /* Register a file's text (copied into the arena); returns its id, -1 on no memory. */
 int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len);
+/* Forget the files registered after the first `nfiles` (their text lives in
+ * the arena, which the caller rolls back); only when no diagnostic points
+ * into them. */
+void ls_sources_truncate(ls_diags *d, int nfiles);
+
+/* Check that file `file`'s text is UTF-8: each line's first byte that is
+ * not part of a well-formed sequence (RFC 3629) is an error at its column,
+ * and every such byte is replaced by '?' in the stored text, so no report,
+ * excerpt or output carries it.  Returns the number of bytes replaced. */
+int ls_sources_check_utf8(ls_diags *d, int file);
 /* 1-based line and column (code points) of a byte offset. */
 void ls_loc_linecol(const ls_diags *d, int file, unsigned off, int *line, int *col);
 
@@ -62,6 +72,9 @@ void ls_note(ls_diags *d, ls_loc loc, const char *fmt, ...) __attribute__((forma
 
 /* Print every diagnostic as `file:line:col: severity: message`, the line and a caret. */
 void ls_diags_print(const ls_diags *d, FILE *out);
+/* The same, leaving out each diagnostic for which skip(g, ctx) is true (the
+ * warnings a report on the same terminal already shows). */
+void ls_diags_print_sel(const ls_diags *d, FILE *out, bool (*skip)(const ls_diag *g, void *ctx), void *ctx);
 /* "file:line:col" of a location into buf (or "" for none). */
 char *ls_loc_str(const ls_diags *d, ls_loc loc, char *buf, size_t n);
 

@@ -111,6 +111,24 @@ static int better(const ls_pick_item *a, const ls_pick_item *b)
     return a->rtop < b->rtop;
 }
 
+void ls_pick_part_range(double total_lo, double total_hi, double *part_lo, double *part_hi)
+{
+    *part_lo = total_lo > 0 ? fmin(LS_PICK_PART_LO, total_lo) : LS_PICK_PART_LO;
+    *part_hi = total_hi > 0 && isfinite(total_hi) ? fmax(LS_PICK_PART_HI, total_hi) : LS_PICK_PART_HI;
+}
+
+double ls_eseries_tolerance(const ls_eseries *s)
+{
+    switch (s->count) {
+    case 6: return 0.2;
+    case 12: return 0.1;
+    case 24: return 0.05;
+    case 48: return 0.02;
+    case 96: return 0.01;
+    default: return 0.005;
+    }
+}
+
 /* See the header.  The candidate list is malloc'd here and freed before
  * returning; the kept best results are insertion-sorted into out[]. */
 int ls_pick_ratio(const ls_eseries *s, double ratio, double total_lo, double total_hi,
@@ -125,9 +143,11 @@ int ls_pick_ratio(const ls_eseries *s, double ratio, double total_lo, double tot
     if (!(zout_max > 0))
         zout_max = INFINITY;
     const double slack = 1e-12;
-    int dmin = (int)floor(log10(fmin(ratio, 1 - ratio) * total_lo)) - 1;
-    int dmax = (int)floor(log10(total_hi));
-    double vmin = scaled(1, dmin);
+    double part_lo, part_hi;
+    ls_pick_part_range(total_lo, total_hi, &part_lo, &part_hi);
+    int dmin = (int)floor(log10(fmax(fmin(ratio, 1 - ratio) * total_lo, part_lo))) - 1;
+    int dmax = (int)floor(log10(fmin(total_hi, part_hi)));
+    double vmin = fmax(scaled(1, dmin), part_lo * (1 - slack));
     size_t cap = (size_t)(dmax - dmin + 1) * (size_t)s->count, nc = 0;
     double *cand = malloc(cap * sizeof *cand);
     if (!cand)
@@ -135,7 +155,7 @@ int ls_pick_ratio(const ls_eseries *s, double ratio, double total_lo, double tot
     for (int d = dmin; d <= dmax; d++)
         for (int i = 0; i < s->count; i++) {
             double v = ls_eseries_value(s, i, d);
-            if (v >= vmin && v <= total_hi * (1 + slack))
+            if (v >= vmin && v <= total_hi * (1 + slack) && v <= part_hi * (1 + slack))
                 cand[nc++] = v;
         }
     size_t kept = 0;

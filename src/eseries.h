@@ -50,4 +50,16 @@ double ls_eseries_snap(const ls_eseries *s, double v);
 int ls_pick_ratio(const ls_eseries *s, double ratio, double total_lo, double total_hi,
                   double zout_max, ls_pick_item *out, size_t max_results);
 
+/* The range of values resistors are made in (Ω): 0.1 Ω to 100 MΩ, widened to
+ * reach a --total range that goes beyond it.  ls_pick_ratio keeps every
+ * candidate inside it (a 1.1e-297 Ω "standard value" is no part). */
+#define LS_PICK_PART_LO 0.1
+#define LS_PICK_PART_HI 100e6
+void ls_pick_part_range(double total_lo, double total_hi, double *part_lo, double *part_hi);
+
+/* The tolerance usually paired with a series (a fraction: E6 0.2, E12 0.1,
+ * E24 0.05, E48 0.02, E96 0.01, E192 0.005; common practice): a divider whose
+ * ratio misses by more than this does not fit. */
+double ls_eseries_tolerance(const ls_eseries *s);
+
 #endif

@@ -290,7 +290,7 @@ int ls_cmd_thevenin(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     char b1[64];
     if (cli->fmt == FMT_JSON && port < 0) {
         fputs("{", o);
@@ -588,7 +588,7 @@ int ls_cmd_sag(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     if (cli->fmt == FMT_JSON)
         sag_json(o, nl, &r, items);
     else if (cli->fmt == FMT_CSV)
@@ -759,7 +759,7 @@ int ls_cmd_influence(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     if (cli->fmt == FMT_JSON)
         influence_json(o, &s, cli->pos[1], value, items, n);
     else if (cli->fmt == FMT_CSV)

@@ -148,7 +148,7 @@ static int flush_into_pattern(ls_mna *m, size_t *covered)
 }
 
 /* Stamp part i, as removed or buffered when the variant says so. */
-static void stamp_part(ls_mna *m, int i, ls_sink *sink)
+void ls_mna_stamp_part(const ls_mna *m, int i, ls_sink *sink)
 {
     unsigned char how = m->opened ? m->opened[i] : 0;
     ls_stamp_ctx c = {.nl = m->nl, .sink = sink, .removed = how == LS_OPENED, .buffered = how == LS_BUFFERED};
@@ -156,7 +156,7 @@ static void stamp_part(ls_mna *m, int i, ls_sink *sink)
 }
 
 /* Stamp the variant's ties: g on the node's diagonal, g*v into its rhs. */
-static void stamp_ties(ls_mna *m, ls_sink *sink)
+void ls_mna_stamp_ties(const ls_mna *m, ls_sink *sink)
 {
     for (int i = 1; m->ties && i < m->nl->nnodes; i++)
         if (m->ties[i].g > 0) {
@@ -196,7 +196,7 @@ static int restamp_in_place(ls_mna *m)
     size_t covered = 0, total = 0;
     int fits = 1;
     for (int i = 0; i < nl->nparts && fits; i++) {
-        stamp_part(m, i, &sink);
+        ls_mna_stamp_part(m, i, &sink);
         if (m->t.failed)
             break;
         if (m->t.nnz >= RESTAMP_CHUNK) {
@@ -205,7 +205,7 @@ static int restamp_in_place(ls_mna *m)
             m->t.nnz = 0;
         }
     }
-    stamp_ties(m, &sink);
+    ls_mna_stamp_ties(m, &sink);
     if (fits && !m->t.failed) {
         fits = flush_into_pattern(m, &covered);
         total += m->t.nnz;
@@ -249,8 +249,8 @@ static int stamp_all(ls_mna *m)
     }
     memset(m->b, 0, (size_t)m->n * sizeof *m->b);
     for (int i = 0; i < nl->nparts; i++)
-        stamp_part(m, i, &sink);
-    stamp_ties(m, &sink);
+        ls_mna_stamp_part(m, i, &sink);
+    ls_mna_stamp_ties(m, &sink);
     if (m->t.failed) {
         ls_triplets_free(&m->t);
         return -1;

@@ -47,6 +47,12 @@ int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *o
 int ls_mna_restamp(ls_mna *m);
 void ls_mna_free(ls_mna *m);
 
+/* Stamp part i into sink as the assembly does (removed or buffered where the
+ * variant says so), and the variant's ties: for sinks of other kinds, such
+ * as the extra-precise residual of accuracy.c. */
+void ls_mna_stamp_part(const ls_mna *m, int i, ls_sink *sink);
+void ls_mna_stamp_ties(const ls_mna *m, ls_sink *sink);
+
 /* Compress triplets (summing duplicates) into a CSC matrix; 0 ok, -1 no memory.
  * Explicit zeros that result from cancellation are kept so the pattern is stable. */
 int ls_triplets_to_csc(const ls_triplets *t, int n, ls_csc *out);

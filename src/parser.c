@@ -672,6 +672,7 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
 }
 
 static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
+static int add_source(ls_diags *d, const char *name, const char *text, size_t len);
 
 /* The part kind a name token names, or NULL.  The kind of the previous part
  * statement is tried first: in a large circuit most lines repeat it. */
@@ -825,13 +826,21 @@ char *ls_read_file(const char *path, size_t *len)
     FILE *f = fopen(path, "rb");
     if (!f)
         return NULL;
+    char *buf = ls_read_stream(f, len);
+    int err = errno;
+    fclose(f);
+    errno = err;
+    return buf;
+}
+
+char *ls_read_stream(FILE *f, size_t *len)
+{
     /* A regular file's size is known: one buffer one byte larger, so the read
      * ends without growing it (a file that grows meanwhile still fits). */
     size_t cap = 1 << 16, n = 0;
     struct stat st;
     if (fstat(fileno(f), &st) == 0 && S_ISREG(st.st_mode) && st.st_size > 0) {
         if ((uintmax_t)st.st_size >= LS_MAX_FILE_BYTES) {
-            fclose(f);
             errno = EFBIG;
             return NULL;
         }
@@ -861,7 +870,6 @@ char *ls_read_file(const char *path, size_t *len)
         }
     }
     int err = ferror(f) ? errno : 0;
-    fclose(f);
     if (buf && err) {
         free(buf);
         errno = err;
@@ -988,7 +996,7 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
         ls_arena_free(&tmp);
         return;
     }
-    int id = len < UINT_MAX ? ls_sources_add(p->d, path, text, (unsigned)len) : -1;
+    int id = len < UINT_MAX ? add_source(p->d, path, text, len) : -1;
     free(heap);
     ls_arena_free(&tmp);
     if (id < 0) {
@@ -1042,6 +1050,22 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
     return d->errors - errors0;
 }
 
+/* Register a circuit text under `name`: a UTF-8 byte-order mark at its start
+ * is skipped (editors on some systems write one), and bytes that are not
+ * UTF-8 are reported and replaced (ls_sources_check_utf8).  Its file id, or
+ * -1 (nothing reported: the caller says why). */
+static int add_source(ls_diags *d, const char *name, const char *text, size_t len)
+{
+    if (len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0) {
+        text += 3;
+        len -= 3;
+    }
+    int id = ls_sources_add(d, name, text, (unsigned)len);
+    if (id >= 0)
+        ls_sources_check_utf8(d, id);
+    return id;
+}
+
 /* Register a top-level text; its file id, or -1 after reporting why not. */
 static int register_text(ls_diags *d, const char *name, const char *text, size_t len)
 {
@@ -1049,7 +1073,7 @@ static int register_text(ls_diags *d, const char *name, const char *text, size_t
         ls_error(d, LS_NOLOC, "'%s' is larger than %u bytes", name, LS_MAX_FILE_BYTES);
         return -1;
     }
-    int id = ls_sources_add(d, name, text, (unsigned)len);
+    int id = add_source(d, name, text, len);
     if (id < 0)
         ls_error(d, LS_NOLOC, "out of memory reading '%s'", name);
     return id;
@@ -1059,8 +1083,12 @@ int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t l
                        ls_program *prog)
 {
     *prog = (ls_program){.syntax = syntax};
+    int errors0 = d->errors; /* counting the text's UTF-8 errors too */
     int id = register_text(d, name, text, len);
-    return id < 0 ? 1 : parse_top(d, id, name, prog);
+    if (id < 0)
+        return 1;
+    parse_top(d, id, name, prog);
+    return d->errors - errors0;
 }
 
 int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program *prog)
@@ -1075,10 +1103,14 @@ int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program
         ls_arena_free(&tmp);
         return 1;
     }
+    int errors0 = d->errors; /* counting the text's UTF-8 errors too */
     int id = register_text(d, path, text, len);
     free(heap); /* before parsing, so the tree can reuse the pages */
     ls_arena_free(&tmp);
-    return id < 0 ? 1 : parse_top(d, id, path, prog);
+    if (id < 0)
+        return 1;
+    parse_top(d, id, path, prog);
+    return d->errors - errors0;
 }
 
 int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog)
@@ -1113,7 +1145,7 @@ ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect
 ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect)
 {
     int id = ls_sources_add(d, name, text, (unsigned)strlen(text));
-    if (id < 0)
+    if (id < 0 || ls_sources_check_utf8(d, id) > 0) /* command-line text must be UTF-8 too */
         return NULL;
     return ls_parse_expr_at(d, id, 0, in_expect);
 }

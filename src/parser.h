@@ -2,6 +2,8 @@
 #ifndef LS_PARSER_H
 #define LS_PARSER_H
 
+#include <stdio.h>
+
 #include "ast.h"
 
 #define LS_MAX_INCLUDE_DEPTH 16
@@ -29,5 +31,8 @@ ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect
 
 /* Read a whole file; NULL (errno set) on failure.  Caller frees. */
 char *ls_read_file(const char *path, size_t *len);
+/* The same for an open stream (standard input), read to its end; the
+ * stream stays open. */
+char *ls_read_stream(FILE *f, size_t *len);
 
 #endif

@@ -20,6 +20,10 @@ void ls_sink_a(ls_sink *s, int row, int col, double v)
         s->acc -= s->lambda[row] * v * s->x[col];
         return;
     }
+    if (s->mode == SINK_RESIDUAL) {
+        ls_resid_a(s->resid, row, col, v);
+        return;
+    }
     ls_triplets *t = s->t;
     if (t->nnz == t->cap) {
         size_t cap = t->cap ? t->cap * 2 : 1024;
@@ -48,6 +52,8 @@ void ls_sink_b(ls_sink *s, int row, double v)
     v *= s->scale;
     if (s->mode == SINK_ADJOINT)
         s->acc += s->lambda[row] * v;
+    else if (s->mode == SINK_RESIDUAL)
+        ls_resid_b(s->resid, row, v);
     else
         s->b[row] += v;
 }
@@ -59,7 +65,7 @@ static void keep_a(ls_sink *s, int row, int col, double v)
 {
     if (row < 0 || col < 0)
         return;
-    if (v != 0 || s->mode == SINK_ADJOINT) {
+    if (v != 0 || s->mode != SINK_ASSEMBLE) { /* only assembly keeps zeros */
         ls_sink_a(s, row, col, v);
         return;
     }

@@ -37,9 +37,14 @@ typedef struct ls_lin {
     bool overflow;
 } ls_lin;
 
-/* Where stamps go: assembly into triplets and a right-hand side, or the adjoint
- * accumulation lambda^T (db - dA x) used by the sensitivity analysis. */
-typedef enum ls_sink_mode { SINK_ASSEMBLE, SINK_ADJOINT } ls_sink_mode;
+/* Where stamps go: assembly into triplets and a right-hand side, the adjoint
+ * accumulation lambda^T (db - dA x) used by the sensitivity analysis, or the
+ * residual b - A x accumulated part by part in extended precision
+ * (accuracy.c), which never sums two parts' conductances in double. */
+typedef enum ls_sink_mode { SINK_ASSEMBLE, SINK_ADJOINT, SINK_RESIDUAL } ls_sink_mode;
+typedef struct ls_resid ls_resid;
+void ls_resid_a(ls_resid *r, int row, int col, double v);
+void ls_resid_b(ls_resid *r, int row, double v);
 
 typedef struct ls_triplets {
     int n;                 /* order */
@@ -56,6 +61,7 @@ typedef struct ls_sink {
     const double *lambda;  /* SINK_ADJOINT */
     const double *x;       /* SINK_ADJOINT */
     double acc;            /* SINK_ADJOINT result */
+    ls_resid *resid;       /* SINK_RESIDUAL */
     double scale;          /* every stamp is multiplied by this (1 normally) */
 } ls_sink;
 

@@ -58,12 +58,34 @@ static int pick_args(const ls_cli *cli, double *ratio, const ls_eseries **es, do
     return 0;
 }
 
-/* The pick report as one JSON object (cli.md keys). */
+/* Does the best pair come within the series' tolerance of the ratio? */
+static bool pick_fits(const ls_eseries *es, const ls_pick_item *it, int n)
+{
+    return n > 0 && fabs(it[0].error) <= ls_eseries_tolerance(es);
+}
+
+/* The pick report as one JSON object (cli.md keys; "fits" and "closest" say
+ * when no pair comes within the series' tolerance, and which came nearest). */
 static void pick_json(FILE *o, double ratio, const ls_eseries *es, const ls_pick_item *it, int n)
 {
     fputs("{\"ratio\": ", o);
     ls_json_number(o, ratio);
-    fprintf(o, ", \"series\": \"%s\",\n \"items\": [", es->name);
+    fprintf(o, ", \"series\": \"%s\", \"fits\": %s,", es->name, pick_fits(es, it, n) ? "true" : "false");
+    if (!pick_fits(es, it, n)) {
+        if (n > 0) {
+            fputs(" \"closest\": {\"rtop\": ", o);
+            ls_json_number(o, it[0].rtop);
+            fputs(", \"rbot\": ", o);
+            ls_json_number(o, it[0].rbot);
+            fputs(", \"ratio\": ", o);
+            ls_json_number(o, it[0].ratio);
+            fputs(", \"error\": ", o);
+            ls_json_number(o, it[0].error);
+            fputs("},", o);
+        }
+        n = 0;
+    }
+    fputs("\n \"items\": [", o);
     for (int i = 0; i < n; i++) {
         fprintf(o, "%s\n  {\"rtop\": ", i ? "," : "");
         ls_json_number(o, it[i].rtop);
@@ -95,23 +117,39 @@ static void pick_text(FILE *o, const ls_report *rp, const ls_cli *cli, double ra
 {
     const char *OHM = ls_unit_of(LS_OHM, cli->ascii);
     char b1[64], b2[64], b3[64];
-    fprintf(o, "Dividers of %s standard values for rbot/(rtop+rbot) = %.6g\n", es->name, ratio);
+    double plo, phi;
+    ls_pick_part_range(lo, hi, &plo, &phi);
+    fprintf(o, "Dividers of %s standard values for rbot/(rtop+rbot) = %.12g\n", es->name, ratio);
     fprintf(o, "  (rtop + rbot from %s to %s", ls_eng(rp, b1, sizeof b1, lo, OHM), ls_eng(rp, b2, sizeof b2, hi, OHM));
     if (zmax > 0)
         fprintf(o, ", zout at most %s", ls_eng(rp, b3, sizeof b3, zmax, OHM));
-    fputs(")\n\n", o);
+    fprintf(o, "; each value from %s", ls_eng(rp, b1, sizeof b1, plo, OHM));
+    fprintf(o, " to %s)\n\n", ls_eng(rp, b2, sizeof b2, phi, OHM));
     if (n == 0) {
         fputs("  no pair of values meets those limits\n", o);
+        return;
+    }
+    if (!pick_fits(es, it, n)) {
+        fprintf(o, "  no pair comes within %g%% (the tolerance of %s parts) of that ratio.\n", 100 * ls_eseries_tolerance(es),
+                es->name);
+        fprintf(o, "  The closest is rtop %s, rbot %s: ratio %.6g, off by %+.3g%%.\n",
+                ls_eng(rp, b1, sizeof b1, it[0].rtop, OHM), ls_eng(rp, b2, sizeof b2, it[0].rbot, OHM), it[0].ratio,
+                100 * it[0].error);
+        fputs("  Widen --total, or make the ratio with more than two resistors or a trimmer.\n", o);
         return;
     }
     fprintf(o, "  %-4s %12s %12s %12s %11s %12s\n", "rank", "rtop", "rbot", "ratio", "error", "zout");
     for (int i = 0; i < n; i++) {
         char e[32];
-        snprintf(e, sizeof e, "%+.3f%%", 100 * it[i].error);
+        /* errors below the third decimal and ratios within 1e-6 of 0 or 1
+         * keep their digits instead of printing as -0.000% and 1.000000 */
+        double pct = 100 * it[i].error;
+        snprintf(e, sizeof e, fabs(pct) >= 0.0005 || pct == 0 ? "%+.3f%%" : "%+.2e%%", pct);
         fprintf(o, "  %-4d", i + 1);
         rpad(o, ls_eng(rp, b1, sizeof b1, it[i].rtop, OHM), 12);
         rpad(o, ls_eng(rp, b2, sizeof b2, it[i].rbot, OHM), 12);
-        fprintf(o, " %12.6f %11s", it[i].ratio, e);
+        double r = it[i].ratio;
+        fprintf(o, r >= 1e-6 && r <= 1 - 1e-6 ? " %12.6f %11s" : " %12.10g %11s", r, e);
         rpad(o, ls_eng(rp, b3, sizeof b3, it[i].zout, OHM), 12);
         fputc('\n', o);
     }
@@ -138,16 +176,17 @@ int ls_cmd_pick(ls_cli *cli)
     FILE *o = ls_out_open(&s, &tmp);
     if (!o)
         return LS_EXIT_USAGE;
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4};
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits};
     if (cli->fmt == FMT_JSON) {
         pick_json(o, ratio, es, items, n);
     } else if (cli->fmt == FMT_CSV) {
         fputs("rank,rtop,rbot,ratio,error,zout\n", o);
-        for (int i = 0; i < n; i++)
+        for (int i = 0; i < n && pick_fits(es, items, n); i++)
             fprintf(o, "%d,%s,%s,%s,%s,%s\n", i + 1, LS_G17(items[i].rtop), LS_G17(items[i].rbot),
                     LS_G17(items[i].ratio), LS_G17(items[i].error), LS_G17(items[i].zout));
     } else {
         pick_text(o, &rp, cli, ratio, es, lo, hi, zmax, items, n);
     }
-    return ls_out_close(&s, o, tmp, LS_EXIT_OK);
+    /* no pair that fits is a failed search, as for fit (docs/cli.md) */
+    return ls_out_close(&s, o, tmp, pick_fits(es, items, n) ? LS_EXIT_OK : LS_EXIT_CHECK);
 }

@@ -887,6 +887,37 @@ static void ports_text(ls_report *rp, ls_op *op)
             fix_advice(rp, op, i, ls_op_port(op, i));
 }
 
+/* v formatted as ls_eng does, with a leading "~" when its error bound says
+ * its last printed digit may be wrong (accuracy.h). */
+static const char *eng_bounded(ls_report *rp, char *buf, size_t n, double v, const char *unit, double bound,
+                               double scale, int *marked)
+{
+    if (!ls_acc_doubtful(v, bound, rp->sig, scale))
+        return ls_eng(rp, buf, n, v, unit);
+    buf[0] = '~';
+    ls_eng(rp, buf + 1, n - 1, v, unit);
+    (*marked)++;
+    return buf;
+}
+
+/* The accuracy line under the solver line: which refinement ran and whether
+ * the printed digits are all within their error bounds. */
+static void accuracy_text(ls_report *rp, ls_op *op, int marked)
+{
+    const ls_accuracy *a = &op->acc;
+    const char *how = !a->refined ? "iterative refinement in double precision (a circuit with nonlinear parts)"
+                      : a->extended ? "extra-precise refinement (residuals in double-double), needed here"
+                                    : "double precision, confirmed by an extra-precise residual";
+    if (!a->have_bounds)
+        fprintf(rp->out, "accuracy: %s; no error bounds (out of memory)\n", how);
+    else if (marked)
+        fprintf(rp->out, "accuracy: %s; %d number%s marked ~ may be wrong in %s last printed digit\n", how, marked,
+                marked == 1 ? "" : "s", marked == 1 ? "its" : "their");
+    else
+        fprintf(rp->out, "accuracy: %s; every voltage and current is right to the digits printed%s\n", how,
+                a->estimated ? " (by an estimated bound)" : "");
+}
+
 static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
     FILE *o = rp->out;
@@ -899,6 +930,17 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 
     if (op->iterations > 1)
         fprintf(o, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
+    /* marks need the bounds; count them first so the accuracy line can say how many */
+    bool bounds = ls_acc_bounds(op) == 0;
+    const ls_accuracy *acc = &op->acc;
+    double vscale = ls_acc_scale(op, 0), iscale = ls_acc_scale(op, 1);
+    int marked = 0;
+    for (int i = 0; bounds && i < nl->nnodes; i++)
+        marked += ls_acc_doubtful(op->v[i], acc->node_bound[i], rp->sig, vscale);
+    for (int i = 0; bounds && i < nl->nparts; i++)
+        marked += !nl->parts[i].kind->is_port && ls_acc_doubtful(op->ipart[i], acc->part_bound[i], rp->sig, iscale);
+    accuracy_text(rp, op, marked);
+    int dummy = 0;
 
     fputs("\nNodes\n", o);
     bool hazard = false;
@@ -907,7 +949,9 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
-        const char *c[3] = {nl->nodes[i].name, ls_eng(rp, b1, sizeof b1, op->v[i], V),
+        const char *c[3] = {nl->nodes[i].name,
+                            bounds ? eng_bounded(rp, b1, sizeof b1, op->v[i], V, acc->node_bound[i], vscale, &dummy)
+                                   : ls_eng(rp, b1, sizeof b1, op->v[i], V),
                             fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
         t_row(&t, c);
     }
@@ -928,7 +972,10 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
             prefetch_part_name(nl, i);
             if (pt->kind->is_port)
                 continue;
-            const char *c[5] = {pt->name, pt->kind->name, ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
+            const char *c[5] = {pt->name, pt->kind->name,
+                                bounds ? eng_bounded(rp, b1, sizeof b1, op->ipart[i], A, acc->part_bound[i], iscale,
+                                                     &dummy)
+                                       : ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
                                 ls_eng(rp, b2, sizeof b2, op->vpart[i], V), ls_eng(rp, b3, sizeof b3, op->ppart[i], W)};
             t_row(&p, c);
         }
@@ -1005,6 +1052,36 @@ static int adcs_json(obuf *o, ls_op *op)
     return k;
 }
 
+/* ,"accuracy": the error bound of every node voltage (V), how they were
+ * found, and the worst node and part against their own values. */
+static void accuracy_json(obuf *o, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_accuracy *a = &op->acc;
+    ob_printf(o, ",\n  \"accuracy\": {\"bounds\": \"%s\", \"nodes\": {",
+              !a->reliable ? "none" : a->estimated ? "estimate" : "per-result");
+    for (int i = 0; i < nl->nnodes; i++) {
+        ob_puts(o, i ? ", " : "");
+        ob_json_string(o, nl->nodes[i].name);
+        ob_puts(o, ": ");
+        ob_number(o, a->node_bound[i]);
+    }
+    ob_puts(o, "}");
+    if (!a->reliable)
+        ob_puts(o, ", \"why\": {\"nodes\": \"unbounded\"}");
+    if (a->worst_node >= 0) {
+        ob_puts(o, ", \"worst_node\": ");
+        ob_json_string(o, nl->nodes[a->worst_node].name);
+        kv(o, "worst_node_rel", a->worst_node_rel, true);
+    }
+    if (a->worst_part >= 0) {
+        ob_puts(o, ", \"worst_part\": ");
+        ob_json_string(o, nl->parts[a->worst_part].name);
+        kv(o, "worst_part_rel", a->worst_part_rel, true);
+    }
+    ob_putc(o, '}');
+}
+
 static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
 {
     obuf ob, *o = &ob;
@@ -1019,7 +1096,10 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
             ls_solver_stats_of(op->solver)->library, op->mna.n);
     kv(o, "rcond", op->rcond, true);
     kv(o, "residual", op->residual, true);
-    ob_printf(o, ", \"iterations\": %d},\n  \"nodes\": {", op->iterations);
+    ob_printf(o, ", \"iterations\": %d, \"refinement\": \"%s\", \"refinement_steps\": %d},\n  \"nodes\": {",
+              op->iterations, !op->acc.refined ? "double" : op->acc.extended ? "extended" : "double-confirmed",
+              op->acc.steps);
+    bool bounds = ls_acc_bounds(op) == 0;
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
         ob_puts(o, i ? ",\n    " : "\n    ");
@@ -1042,6 +1122,11 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         kv(o, "current", op->ipart[i], true);
         kv(o, "voltage", op->vpart[i], true);
         kv(o, "power", op->ppart[i], true);
+        if (bounds && !isnan(op->acc.part_bound[i])) {
+            kv(o, "error_bound", op->acc.part_bound[i], true);
+            if (isinf(op->acc.part_bound[i]))
+                ob_puts(o, ", \"why\": {\"error_bound\": \"unbounded\"}");
+        }
         part_extra_json(o, op, i);
         ob_putc(o, '}');
     }
@@ -1092,6 +1177,8 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     k = adcs_json(o, op);
     ob_puts(o, k ? "\n  },\n  \"checks\": " : "},\n  \"checks\": ");
     checks_json(rp, o, checks);
+    if (bounds)
+        accuracy_json(o, op);
     ob_puts(o, ",\n  \"warnings\": ");
     ob_flush(o); /* the warnings go straight to the stream */
     ls_report_warnings_json(rp);
@@ -1180,6 +1267,53 @@ void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
     case FMT_TEXT: solve_text(rp, op, checks); break;
     case FMT_JSON: solve_json(rp, op, checks); break;
     case FMT_CSV: solve_csv(rp, op, checks); break;
+    case FMT_HTML: break; /* the page is html.c's, called by the command */
+    }
+}
+
+/* Is warning g one that --fail-on fails on? */
+static bool failing_warning(const ls_report *rp, const ls_diag *g)
+{
+    for (int k = 0; g->sev == LS_SEV_WARNING && g->code && k < rp->nfailed_warnings; k++)
+        if (strcmp(rp->failed_warnings[k], g->code) == 0)
+            return true;
+    return false;
+}
+
+/* check, text: each warning that --fail-on fails on, as a failed line. */
+static void failed_warnings_text(ls_report *rp)
+{
+    const ls_diags *d = rp->diags;
+    int k = 0;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (!failing_warning(rp, g))
+            continue;
+        if (!k++)
+            fputs("\nWarnings that fail the check (--fail-on)\n", rp->out);
+        char where[600];
+        ls_loc_str(d, g->loc, where, sizeof where);
+        fprintf(rp->out, "  FAIL    %s  %s%s%s\n", g->code, where, where[0] ? ": " : "", g->msg);
+    }
+}
+
+/* check, CSV: each warning that --fail-on fails on, as a row that did not pass. */
+static void failed_warnings_csv(ls_report *rp, obuf *ob)
+{
+    const ls_diags *d = rp->diags;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (!failing_warning(rp, g))
+            continue;
+        char text[1200];
+        snprintf(text, sizeof text, "warning %s: %s", g->code, g->msg);
+        ob_csv_field(ob, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
+        if (g->loc.file >= 0)
+            ob_printf(ob, ",%d,,", loc_line(d, g->loc));
+        else
+            ob_puts(ob, ",,,");
+        ob_csv_field(ob, text);
+        ob_puts(ob, ",,false\n");
     }
 }
 
@@ -1192,7 +1326,11 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
         ob_init(&ob, o);
         ob_puts(&ob, "{\n  \"checks\": ");
         checks_json(rp, &ob, checks);
-        ob_printf(&ob, ",\n  \"passed\": %d,\n  \"failed\": %d\n}\n", checks->passed, checks->failed);
+        ob_printf(&ob, ",\n  \"passed\": %d,\n  \"failed\": %d,\n  \"failed_warnings\": [", checks->passed,
+                  checks->failed);
+        for (int i = 0; i < rp->nfailed_warnings; i++)
+            ob_printf(&ob, "%s\"%s\"", i ? ", " : "", rp->failed_warnings[i]); /* codes are [a-z0-9-] */
+        ob_puts(&ob, "]\n}\n");
         ob_flush(&ob);
     } else if (rp->fmt == FMT_CSV) {
         obuf ob;
@@ -1209,12 +1347,35 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
             ob_csv_number(&ob, r->r.value);
             ob_puts(&ob, r->r.pass ? ",true\n" : ",false\n");
         }
+        failed_warnings_csv(rp, &ob);
         ob_flush(&ob);
     } else {
         if (!checks->n)
             fputs("no checks in this circuit (add 'expect' lines or a 'rule')\n", o);
         checks_text(rp, checks);
-        fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass", checks->passed,
-                checks->failed);
+        failed_warnings_text(rp);
+        if (rp->nfailed_warnings) {
+            fprintf(o, "\nFAILED: %d passed, %d failed; warnings named by --fail-on:", checks->passed, checks->failed);
+            for (int i = 0; i < rp->nfailed_warnings; i++)
+                fprintf(o, "%s %s", i ? "," : "", rp->failed_warnings[i]);
+            fputc('\n', o);
+        } else
+            fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass",
+                    checks->passed, checks->failed);
     }
+}
+
+/* ---- aligned tables for the other commands' text reports ------------------------------- */
+
+void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right, const char *const *cells,
+                   int nrows)
+{
+    table t = {.ncol = ncol < 10 ? ncol : 10};
+    for (int c = 0; c < t.ncol; c++) {
+        t.head[c] = head[c];
+        t.right[c] = right[c];
+    }
+    for (int r = 0; r < nrows; r++)
+        t_row(&t, cells + (size_t)r * (size_t)ncol);
+    t_print(&t, f);
 }

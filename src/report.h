@@ -6,7 +6,7 @@
 
 #include "analysis.h"
 
-typedef enum ls_format { FMT_TEXT, FMT_JSON, FMT_CSV } ls_format;
+typedef enum ls_format { FMT_TEXT, FMT_JSON, FMT_CSV, FMT_HTML } ls_format;
 
 typedef struct ls_report {
     FILE *out;
@@ -14,6 +14,8 @@ typedef struct ls_report {
     bool ascii;
     int sig;                 /* significant digits in text (4) */
     const ls_diags *diags;
+    const char *const *failed_warnings;   /* check: codes that --fail-on fails on */
+    int nfailed_warnings;
 } ls_report;
 
 /* Check results for every expect and rule (allocated by the caller). */
@@ -45,5 +47,10 @@ void ls_csv_field(FILE *out, const char *s);
 const char *ls_eng(const ls_report *rp, char *buf, size_t n, double v, const char *unit);
 const char *ls_unit_of(ls_dims d, bool ascii);
 void ls_report_warnings_json(ls_report *rp);
+/* Print nrows rows of ncol (at most 10) cells, row after row in `cells`, under
+ * the heading `head`, aligned (right[c]: right-aligned column); indented by two
+ * spaces as every text report.  NULL cells print empty. */
+void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right, const char *const *cells,
+                   int nrows);
 
 #endif

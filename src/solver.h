@@ -82,6 +82,11 @@ int ls_solver_analyze_factor(ls_solver *s, const ls_csc *a);
 /* Solve in place; `work` scratch is internal.  Returns LS_SOLVER_OK or an error. */
 int ls_solver_solve(ls_solver *s, double *b, int transpose);
 const ls_solver_stats *ls_solver_stats_of(const ls_solver *s);
+/* The program's own thread settings between solves: one BLAS and one OpenMP
+ * thread (a factorization of a large system raises them for its duration).
+ * For the command-line program only: a library caller keeps its own, which
+ * every call puts back. */
+void ls_solver_threads_for_program(void);
 void ls_solver_free(ls_solver **s);
 
 /* Largest order the dense backend accepts, and the bytes it would need for n. */

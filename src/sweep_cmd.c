@@ -17,6 +17,7 @@
 #include "fmt.h"
 #include "parser.h"
 #include "plot.h"
+#include "progress.h"
 
 #define MAX_QUANTITIES (LS_MAX_POS - 4)
 
@@ -425,11 +426,15 @@ int ls_cmd_sweep(ls_cli *cli)
         ls_sweep_points(from, to, w.steps, cli->log, w.x);
     if (code == LS_EXIT_OK)
         code = probe(&w);
+    ls_progress pg;
+    ls_progress_start(&pg, "sweep", "points", cli->quiet);
     for (int i = 0; code == LS_EXIT_OK && i < w.steps; i++) {
         for (int k = 0; k < w.nq; k++)
             w.y[(size_t)i * (size_t)w.nq + (size_t)k] = NAN;
         solve_point(&w, i);
+        ls_progress_update(&pg, i + 1, w.steps);
     }
+    ls_progress_end(&pg);
     if (w.base) {
         ls_session_free(w.base);
         free(w.base);
@@ -452,7 +457,7 @@ int ls_cmd_sweep(ls_cli *cli)
         char *tmp;
         FILE *o = ls_out_open(&s, &tmp);
         if (o) {
-            ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4};
+            ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits};
             if (cli->fmt == FMT_JSON)
                 sweep_json(o, &w);
             else if (cli->fmt == FMT_CSV)

@@ -12,6 +12,7 @@
 #include "parser.h"
 #include "parts.h"
 #include "plot.h"
+#include "progress.h"
 #include "tolerance.h"
 
 /* ---- reports ------------------------------------------------------------------------------- */
@@ -128,6 +129,16 @@ static void tol_text(FILE *o, ls_report *rp, const tol_ctx *t)
     char b1[64], b2[64], b3[64], b4[64];
     fprintf(o, "Tolerance of %s (nominal %s): %d part%s vary\n\n", t->qtext, ls_eng(rp, b1, sizeof b1, r->nominal, u),
             t->nv, t->nv == 1 ? "" : "s");
+    if (t->nv == 0) {
+        fputs("Nothing varies (no part has tol=): the worst case and every Monte Carlo trial would give the nominal\n"
+              "value, so no trials were run.\n", o);
+        if (t->nchecks > 0)
+            fprintf(o, "\nYield %s (the nominal design %s every expect on %s)\n", r->yield > 0 ? "100%" : "0%",
+                    r->yield > 0 ? "meets" : "does not meet", t->qtext);
+        else
+            fprintf(o, "\nYield: no expect on %s in the circuit\n", t->qtext);
+        return;
+    }
     if (r->corners)
         fprintf(o, "Worst case, every corner (%lu solves):\n", 1ul << t->nv);
     else
@@ -236,6 +247,11 @@ static int tol_plot(const tol_ctx *t, const double *values)
              t->normal ? "normal, tol = 3 sigma" : "uniform");
     ls_plot_hist h = {.title = title, .xlabel = t->qtext, .xunit = t->unit, .ylabel = "trials",
                       .values = values, .n = (size_t)t->trials, .marks = marks, .nmarks = nm};
+    if (t->trials == 0) { /* nothing varies: the one value every trial would give */
+        snprintf(title, sizeof title, "%s: nothing varies (no part has tol=)", t->qtext);
+        h.values = &t->r.nominal;
+        h.n = 1;
+    }
     char msg[256] = "";
     if (ls_plot_hist_write(&h, t->cli->plot, msg, sizeof msg) != LS_PLOT_OK) {
         fprintf(stderr, "loadstack: error: cannot draw '%s': %s\n", t->cli->plot, msg);
@@ -243,6 +259,9 @@ static int tol_plot(const tol_ctx *t, const double *values)
     }
     return 0;
 }
+
+/* The study's progress hook: the terminal's progress line. */
+static void show_progress(void *ctx, long done, long total) { ls_progress_update(ctx, done, total); }
 
 /* ---- the command --------------------------------------------------------------------------- */
 
@@ -281,12 +300,18 @@ int ls_cmd_tol(ls_cli *cli)
         code = LS_EXIT_USAGE;
     if (code == LS_EXIT_OK)
         code = ls_session_solve(&s);
+    ls_progress pg;
+    ls_progress_start(&pg, "tol", "trials", cli->quiet);
     ls_tol_study st = {.nl = &s.nl, .op = &s.op, .arena = &s.arena, .diags = &s.diags, .q = t.q,
-                       .trials = t.trials, .seed = t.seed, .normal = t.normal};
+                       .trials = t.trials, .seed = t.seed, .normal = t.normal,
+                       .progress = pg.out ? show_progress : NULL, .progress_ctx = &pg};
     double *values = NULL;
     if (code == LS_EXIT_OK) {
         t.unit = ls_unit_of(t.q->dims, cli->ascii);
         code = ls_tol_run(&st);
+        if (pg.out)
+            ls_progress_end(&pg);
+        t.trials = st.trials;   /* 0 when nothing varies */
         if (code == LS_TOL_NOMEM || code == LS_TOL_SETUP) {
             fprintf(stderr, code == LS_TOL_NOMEM ? "loadstack: error: out of memory for %ld trials\n"
                                                  : "loadstack: error: the Monte Carlo run could not be set up "
@@ -313,7 +338,7 @@ int ls_cmd_tol(ls_cli *cli)
     char *tmp;
     FILE *o = ls_out_open(&s, &tmp);
     if (o) {
-        ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s.diags};
+        ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
         if (cli->fmt == FMT_JSON)
             tol_json(o, &t);
         else if (cli->fmt == FMT_CSV)
@@ -328,4 +353,11 @@ int ls_cmd_tol(ls_cli *cli)
     ls_tol_free(&st);
     ls_session_free(&s);
     return code;
+}
+
+/* ---- samples for other reports ------------------------------------------------------------- */
+
+int ls_tol_sample(ls_session *s, const ls_q *q, long trials, uint64_t seed, double **values)
+{
+    return ls_tol_trials(&s->nl, &s->op, q, trials, seed, values);
 }

@@ -13,6 +13,8 @@
 
 #include <math.h>
 #include <pthread.h>
+#include <stdatomic.h>
+#include <time.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -77,12 +79,16 @@ typedef struct mc_job {
     bool normal;                   /* tol is 3 sigma of a normal law; else uniform +-tol */
     double *value;                 /* per trial, NaN when it did not solve */
     unsigned char *pass;           /* per trial: every matching expect holds */
+    void (*progress)(void *ctx, long done, long total);   /* or NULL */
+    void *progress_ctx;
+    atomic_long done;              /* trials finished, for the progress hook */
 } mc_job;
 
 typedef struct mc_worker {
-    const mc_job *job;
+    mc_job *job;
     long first, last;              /* trials [first, last) */
     int status;                    /* 0 ok, -1 could not set up */
+    atomic_bool finished;          /* the worker has returned */
 } mc_worker;
 
 /* Draw the part values of trial i into parts[] (a function of (seed, i) alone). */
@@ -122,7 +128,7 @@ static int own_runs(ls_part *parts, int n, ls_part_run **runs)
 static void *mc_run(void *arg)
 {
     mc_worker *w = arg;
-    const mc_job *job = w->job;
+    mc_job *job = w->job;
     ls_arena arena;
     ls_diags diags;
     ls_arena_init(&arena);
@@ -175,6 +181,7 @@ static void *mc_run(void *arg)
             ok = r.pass;
         }
         job->pass[i] = ok;
+        atomic_fetch_add_explicit(&job->done, 1, memory_order_relaxed);
     }
     if (have_op)
         ls_op_free(&op);
@@ -185,6 +192,7 @@ static void *mc_run(void *arg)
     free(nl.parts);
     ls_diags_free(&diags);
     ls_arena_free(&arena);
+    atomic_store(&w->finished, true);
     return NULL;
 }
 
@@ -210,7 +218,9 @@ static int thread_count(long trials)
 }
 
 /* Run every trial on `nthreads` threads (the caller's thread takes the first
- * share).  Returns 0, or -1 when a worker could not set up. */
+ * share; with a progress hook it starts that share on a thread too and calls
+ * the hook every 50 ms while all of them run).  Returns 0, or -1 when a worker
+ * could not set up. */
 static int mc_all(mc_job *job, int nthreads)
 {
     mc_worker w[LS_TOL_MAX_THREADS];
@@ -221,15 +231,27 @@ static int mc_all(mc_job *job, int nthreads)
         w[t].first = job->trials * t / nthreads;
         w[t].last = job->trials * (t + 1) / nthreads;
         w[t].status = -1;
+        atomic_init(&w[t].finished, false);
     }
-    for (int t = 1; t < nthreads; t++)
+    atomic_init(&job->done, 0);
+    for (int t = job->progress ? 0 : 1; t < nthreads; t++)
         started[t] = pthread_create(&tid[t], NULL, mc_run, &w[t]) == 0;
-    mc_run(&w[0]);
-    for (int t = 1; t < nthreads; t++) {
+    if (job->progress && started[0]) {
+        const struct timespec tick = {0, 50 * 1000 * 1000}; /* 50 ms */
+        bool all;
+        do {
+            nanosleep(&tick, NULL);
+            job->progress(job->progress_ctx, atomic_load(&job->done), job->trials);
+            all = true;
+            for (int t = 0; t < nthreads; t++)
+                all = all && (!started[t] || atomic_load(&w[t].finished));
+        } while (!all);
+    }
+    for (int t = 0; t < nthreads; t++) {
         if (started[t])
             pthread_join(tid[t], NULL);
         else
-            mc_run(&w[t]); /* no thread available: do its share here */
+            mc_run(&w[t]); /* no thread (or no progress hook): do its share here */
     }
     for (int t = 0; t < nthreads; t++)
         if (w[t].status != 0)
@@ -429,6 +451,27 @@ static int varying_parts(const ls_netlist *nl, ls_tol_vary **out)
     return n;
 }
 
+/* With no part varying every trial would give the nominal value: the
+ * Monte Carlo run is not made (trials becomes 0) and its statistics are that
+ * value exactly; the yield is whether the nominal design meets every expect on Q. */
+static void nothing_varies(ls_tol_study *t)
+{
+    ls_tol_result *r = &t->r;
+    t->trials = 0;
+    r->finite = 0;
+    r->mean = r->min = r->max = r->nominal;
+    r->std = 0;
+    for (int k = 0; k < 5; k++)
+        r->pct[k] = r->nominal;
+    bool ok = true;
+    for (int c = 0; c < t->nchecks && ok; c++) {
+        ls_check_result cr;
+        ls_check_eval(t->op, &t->nl->checks[t->checks[c]], &cr);
+        ok = cr.pass;
+    }
+    r->yield = t->nchecks > 0 ? (ok ? 1.0 : 0.0) : NAN;
+}
+
 int ls_tol_run(ls_tol_study *t)
 {
     t->v = NULL;
@@ -445,8 +488,13 @@ int ls_tol_run(ls_tol_study *t)
     int code = t->nv <= LS_TOL_CORNER_LIMIT ? corners(t) : linear_wc(t);
     if (code)
         return code;
+    if (t->nv == 0) {
+        nothing_varies(t);
+        return 0;
+    }
     mc_job job = {.base = t->nl, .opt = t->op->opt, .q = t->q, .v = t->v, .nv = t->nv, .checks = t->checks,
-                  .nchecks = t->nchecks, .trials = t->trials, .seed = t->seed, .normal = t->normal};
+                  .nchecks = t->nchecks, .trials = t->trials, .seed = t->seed, .normal = t->normal,
+                  .progress = t->progress, .progress_ctx = t->progress_ctx};
     job.value = malloc((size_t)t->trials * sizeof *job.value);
     job.pass = malloc((size_t)t->trials);
     if (!job.value || !job.pass) {
@@ -479,4 +527,25 @@ void ls_tol_free(ls_tol_study *t)
     t->v = NULL;
     t->checks = NULL;
     t->values = NULL;
+}
+
+int ls_tol_trials(const ls_netlist *nl, const ls_op *op, const ls_q *q, long trials, uint64_t seed, double **values)
+{
+    ls_tol_vary *v;
+    int nv = varying_parts(nl, &v);
+    *values = NULL;
+    if (nv < 0)
+        return -1;
+    mc_job job = {.base = nl, .opt = op->opt, .q = q, .v = v, .nv = nv, .trials = trials, .seed = seed};
+    job.value = malloc((size_t)trials * sizeof *job.value);
+    job.pass = malloc((size_t)trials);
+    int rc = job.value && job.pass ? mc_all(&job, thread_count(trials)) : -1;
+    free(job.pass);
+    free(v);
+    if (rc != 0) {
+        free(job.value);
+        return -1;
+    }
+    *values = job.value;
+    return 0;
 }

@@ -50,7 +50,10 @@ typedef struct ls_tol_study {
     uint64_t seed;
     bool normal;                   /* tol is 3 sigma of a normal law; else uniform +-tol */
     int threads;                   /* <= 0: LOADSTACK_THREADS, else the online processors */
-    /* out */
+    void (*progress)(void *ctx, long done, long total);   /* called every 50 ms during the trials, or NULL */
+    void *progress_ctx;
+    /* out (trials becomes 0 when nothing varies: no trials are run, the
+       statistics are the nominal value and the yield the nominal verdict) */
     ls_tol_vary *v;                /* the varying parts, nv of them */
     int nv;
     int *checks;                   /* indices of the expects on q, nchecks of them */
@@ -67,6 +70,11 @@ enum { LS_TOL_OK = 0, LS_TOL_NOMEM = -1, LS_TOL_SETUP = -2 };
  * memory for the varying parts or the trials) or LS_TOL_SETUP (a worker could
  * not set up).  Free the outputs with ls_tol_free in every case. */
 int ls_tol_run(ls_tol_study *t);
+
+/* Only the Monte Carlo values of q over `trials` trials with `seed` (no worst
+ * case, no yield), into *values (caller frees).  Returns 0, or -1 when out of
+ * memory or a worker could not set up. */
+int ls_tol_trials(const ls_netlist *nl, const ls_op *op, const ls_q *q, long trials, uint64_t seed, double **values);
 
 /* Release the study's outputs (v, checks, values); the inputs are the caller's. */
 void ls_tol_free(ls_tol_study *t);

@@ -33,6 +33,21 @@
  *   - Unbounded versus undefined: +-INFINITY is a value with no bound (an
  *     ideal input's impedance, a node nothing ties to ground); NaN is a value
  *     with no definition (0/0, a solve that failed, a share of no sag).
+ *   - Threads: a factorization or solve picks its own BLAS and OpenMP thread
+ *     counts (one thread for small systems, where worker threads only spin)
+ *     and puts the caller's back before it returns: OpenBLAS's thread count
+ *     (openblas_get_num_threads) and the calling thread's OpenMP maximum and
+ *     dynamic setting (omp_get_max_threads, omp_get_dynamic) are the same
+ *     after every call as before it.  OpenBLAS's count is process-wide, so
+ *     while a solve is running, BLAS calls the host makes from another thread
+ *     run with the solve's count; the host's value is restored when the last
+ *     concurrent solve returns.
+ *   - Memory: a handle's size does not grow with use.  The text, syntax and
+ *     binding of a quantity given to ls_circuit_eval or ls_circuit_influence are
+ *     scratch for that call and freed before it returns, and so are the
+ *     working arrays of every analysis; a ratio-rule text of
+ *     ls_circuit_checks is kept once per port.  Only a call that adds
+ *     diagnostics keeps what they point to, until ls_circuit_free.
  *
  * This header holds types and prototypes only; it needs <stdio.h> for FILE. */
 #ifndef LOADSTACK_LOADSTACK_H
@@ -148,6 +163,16 @@ typedef struct ls_solve_info {
 } ls_solve_info;
 
 ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out);
+
+/* A bound on the absolute error of a result of the last solve (see
+ * docs/accuracy.md): of node `name`'s voltage (V) or of part `name`'s
+ * current (A), from the extra-precise residual and the rounding of the
+ * parts' own values.  *bound is +INFINITY when the equations are too
+ * ill-conditioned for any bound to hold, NaN for a part whose current is not
+ * a linear form of the unknowns (a pot, an adc).  A name that is both a node
+ * and a part means the node.  Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED,
+ * LS_E_ARGUMENT or LS_E_NOMEM. */
+ls_status ls_circuit_error_bound(ls_circuit *c, const char *name, double *bound);
 
 /* ---- nodes ------------------------------------------------------------------------------------ */
 
@@ -399,7 +424,8 @@ typedef struct ls_tol_info {
     int corners;              /* 1: every corner was solved; 0: linear from the sensitivities */
     double rss;               /* with corners == 0: root-sum-square half-width; else NaN */
     int varying;              /* how many parts vary */
-    long trials;              /* Monte Carlo trials run */
+    long trials;              /* Monte Carlo trials run; 0 when nothing varies (the statistics are then the
+                                 nominal value and the yield whether the nominal design meets the expects) */
     long finite;              /* trials that solved with a finite value */
     double mean, std, min, max;   /* of the finite trials (std with n - 1); NaN when none */
     double pct[5];            /* percentiles 0.1, 1, 50, 99, 99.9 (linear between order statistics) */
@@ -417,6 +443,7 @@ typedef struct ls_tol_info {
  * range), LS_E_NOT_SOLVED, LS_E_UNSOLVABLE or LS_E_NOMEM. */
 ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_options *opt, ls_tol_info *out,
                          double **values);
+/* (values is NULL when no trial was run.) */
 
 /* ---- sweeps --------------------------------------------------------------------------------- */
 

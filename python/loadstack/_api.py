@@ -688,7 +688,7 @@ class Circuit:
         self._check(_lib.ls_circuit_tol(self._handle(), quantity.encode(), ctypes.byref(opt), ctypes.byref(info),
                                         ctypes.byref(vals)), n0)
         try:
-            values = _array(vals[:info.trials])
+            values = _array(vals[:info.trials] if vals else [])
         finally:
             _lib.ls_free(vals)
         keys = ("0.1", "1", "50", "99", "99.9")

@@ -595,6 +595,33 @@ static void test_null_and_side_by_side(void)
     ls_circuit_free(&b);
 }
 
+/* The issue's series case: 1 V, a 1 mOhm wire and a 1 TOhm leakage carry one
+ * current, 1/(1e12 + 1e-3) A (Ohm's law on the series sum).  Each part's
+ * current is within its error bound of that, and the bound is below a
+ * millionth of it; the node bound of b holds V(b) = 1e12/(1e12 + 1e-3) V. */
+static void test_error_bounds(void)
+{
+    ls_circuit *c = solved("ground gnd\nvoltage vs gnd -> a 1 V\nresistor rw a -> b 1m\n"
+                           "resistor rl b -> gnd 1T\n", NULL);
+    if (!c)
+        return;
+    double want = 1 / (1e12 + 1e-3), b = 0;
+    const char *names[] = {"vs", "rw", "rl"};
+    for (int k = 0; k < 3; k++) {
+        ls_part_info p;
+        CU_ASSERT_EQUAL(ls_circuit_part(c, ls_circuit_part_index(c, names[k]), &p), LS_OK);
+        CU_ASSERT_EQUAL(ls_circuit_error_bound(c, names[k], &b), LS_OK);
+        CU_ASSERT(b < 1e-6 * want);
+        CU_ASSERT(fabs(p.current - want) <= b + 1e-16 * want); /* plus the rounding of want itself */
+    }
+    double v = 0;
+    CU_ASSERT_EQUAL(ls_circuit_voltage(c, "b", &v), LS_OK);
+    CU_ASSERT_EQUAL(ls_circuit_error_bound(c, "b", &b), LS_OK);
+    CU_ASSERT(fabs(v - 1e12 / (1e12 + 1e-3)) <= b + 1e-16);
+    CU_ASSERT_EQUAL(ls_circuit_error_bound(c, "nowhere", &b), LS_E_NOT_FOUND);
+    ls_circuit_free(&c);
+}
+
 int main(void)
 {
     if (CU_initialize_registry() != CUE_SUCCESS)
@@ -610,7 +637,8 @@ int main(void)
         !CU_add_test(s, "warning", test_warning) || !CU_add_test(s, "missing file", test_missing_file) || !CU_add_test(s, "unsolvable", test_unsolvable) ||
         !CU_add_test(s, "checks", test_checks) || !CU_add_test(s, "op-amp limit", test_opamp_limit) ||
         !CU_add_test(s, "thevenin of a port", test_thevenin_port) || !CU_add_test(s, "tolerance", test_tol) || !CU_add_test(s, "sweep", test_sweep) ||
-        !CU_add_test(s, "NULL and side by side", test_null_and_side_by_side)) {
+        !CU_add_test(s, "NULL and side by side", test_null_and_side_by_side) ||
+        !CU_add_test(s, "error bounds", test_error_bounds)) {
         CU_cleanup_registry();
         return 2;
     }

@@ -85,13 +85,18 @@ run_all() {
     expect "sweep PARAM" "$(lines r_load vset)" "$(complete_words sweep chain.stack '')"
     expect "sweep QUANTITY" "$json_quantities" "$(complete_words sweep chain.stack vset 1 10 '')"
     expect "--set" "vset=" "$(complete_words solve chain.stack --set v)"
-    expect "--format" "$(lines csv json text)" "$(complete_words solve chain.stack --format '')"
+    expect "--format" "$(lines csv html json text)" "$(complete_words solve chain.stack --format '')"
     expect "--solver d" "dense" "$(complete_words solve chain.stack --solver d)"
-    expect "--format=" "$(lines csv json text)" "$(complete_words solve chain.stack --format = '')"
+    expect "--format=" "$(lines csv html json text)" "$(complete_words solve chain.stack --format = '')"
     expect "--format=j" "json" "$(complete_words solve chain.stack --format = j)"
     expect "NODE after --format=json" "$json_nodes" "$(complete_words sag --format = json chain.stack '')"
     expect "--dist" "$(lines normal uniform)" "$(complete_words tol chain.stack mid --dist '')"
     expect "pick ratio" "ratio" "$(complete_words pick '')"
+    # --fail-on: the codes of docs/warnings.md (and "warnings"), after a comma too
+    doc_codes=$(sed -n 's/^### `\([a-z0-9-]*\)`$/\1/p' "$src/docs/warnings.md")
+    expect "--fail-on" "$(lines warnings $doc_codes)" "$(complete_words check chain.stack --fail-on '')"
+    expect "--fail-on over-rating,tol-" "$(lines over-rating,tol-corner over-rating,tol-none over-rating,tol-trials)" \
+        "$(complete_words check chain.stack --fail-on over-rating,tol-)"
     expect "demo" "" "$(complete_words demo '')"
     expect "no nodes from a missing file" "" "$(complete_words sag missing.stack '')"
 }

@@ -31,6 +31,10 @@ for f in bin/loadstack include/loadstack/loadstack.h share/man/man1/loadstack.1 
          share/doc/loadstack/tutorial/greenhouse1.stack; do
     [ -f "$root/$f" ] || fail "$f is not installed"
 done
+# Every page of docs/ (the user documentation) is installed, not only the tutorial.
+for md in "$src"/docs/*.md; do
+    [ -f "$root/share/doc/loadstack/$(basename "$md")" ] || fail "docs/$(basename "$md") is not installed"
+done
 [ -e "$libdir/libloadstack.so" ] || fail "no shared library in $libdir"
 [ -f "$libdir/libloadstack.a" ] || fail "no static library in $libdir"
 # No internal header may leak into the installed tree.

@@ -40,6 +40,16 @@ for c in $commands; do
         grep -qE "^\.(B|BI|BR) $o( |$)" "$work/m1" || fail "loadstack.1 does not describe $o (an option of $c)"
     done
 done
+# ENVIRONMENT names the variables the program reads; WARNING CODES every code of docs/warnings.md.
+for var in LOADSTACK_THREADS LOADSTACK_TIMING; do
+    grep -q "$var" "$src/src/"*.c || fail "$var is no longer read by the program; update loadstack.1"
+    sed -n '/^\.SH ENVIRONMENT/,/^\.SH /p' "$work/m1" | grep -q "^\.B $var$" \
+        || fail "loadstack.1's ENVIRONMENT does not describe $var"
+done
+for wc in $(sed -n 's/^### `\([a-z0-9-]*\)`$/\1/p' "$src/docs/warnings.md"); do
+    sed -n '/^\.SH WARNING CODES/,/^\.SH /p' "$work/m1" | grep -q "^\.B $wc$" \
+        || fail "loadstack.1's WARNING CODES does not list '$wc' (docs/warnings.md)"
+done
 for code in 0 1 2 3; do
     sed -n '/^\.SH EXIT STATUS/,/^\.SH /p' "$work/m1" | grep -q "^\.B $code$" || fail "exit code $code is not in loadstack.1"
 done

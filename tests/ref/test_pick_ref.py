@@ -36,13 +36,16 @@ def value(code, k):
     return float(code * 10 ** k) if k >= 0 else code / 10 ** (-k)
 
 
-def brute(name, ratio, lo, hi, zmax, n):
+def brute(name, ratio, lo, hi, zmax, n, part=None):
+    """part: (lowest, highest) value allowed, default 0.1 ohm..100 Mohm widened to
+    reach [lo, hi] (the program's documented part range)."""
     lo = lo if lo > 0 else 1e3
     hi = hi if hi > 0 else 1e6
     zmax = zmax if zmax > 0 else math.inf
-    vmin = 10.0 ** (math.floor(math.log10(min(ratio, 1 - ratio) * lo)) - 1)
+    plo, phi = part if part else (min(0.1, lo), max(100e6, hi))
+    vmin = max(10.0 ** (math.floor(math.log10(max(min(ratio, 1 - ratio) * lo, plo))) - 1), plo * (1 - 1e-12))
     vals = sorted({value(c, d - 2) for d in range(-4, 10) for c in mantissas(name)})
-    vals = [v for v in vals if vmin * (1 - 1e-15) <= v <= hi * (1 + 1e-12)]
+    vals = [v for v in vals if vmin * (1 - 1e-15) <= v <= min(hi, phi) * (1 + 1e-12)]
     rows = []
     for rt in vals:
         for rb in vals:

@@ -55,7 +55,34 @@ def main():
                  ["pick", "ratio", "0.5", "--zout", "-1"], ["pick", "share", "0.5"], ["pick", "ratio"]):
         rc, out, err = run(args)
         check(rc == 2 and "error" in err, f"{' '.join(args)}: exit 2 with a message (got {rc})")
+    part_ranges()
     finish()
+
+
+def part_ranges():
+    """Candidates stay within the values resistors are made in, 0.1 ohm to 100 Mohm
+    (common practice: the ranges of ordinary thick- and thin-film resistor families),
+    unless --total reaches beyond; a ratio no pair can reach within the series'
+    tolerance (E24: 5 %) is said to be out of reach, with exit 1 and the closest pair."""
+    rc, out, err = run(["pick", "ratio", "1e-300", "--format", "json"])
+    j = __import__("json").loads(out)
+    check(rc == 1 and j["fits"] is False and j["items"] == [], f"ratio 1e-300: no pair fits, exit 1 (got {rc})")
+    c = j.get("closest", {})
+    check(c.get("rbot", 0) >= 0.1 and c.get("rtop", 1e9) <= 100e6, "ratio 1e-300: the closest pair uses real values")
+    rc, out, err = run(["pick", "ratio", "1e-300"])
+    check(rc == 1 and "no pair comes within 5%" in out, "ratio 1e-300: the text says no pair comes within 5 %")
+    rc, out, err = run(["pick", "ratio", "0.999999999999", "--format", "json"])
+    j = __import__("json").loads(out)
+    vals = [v for it in j["items"] for v in (it["rtop"], it["rbot"])]
+    check(rc == 0 and vals and min(vals) >= 0.1 and max(vals) <= 100e6,
+          "ratio 0.999999999999: every value from 0.1 ohm to 100 Mohm (no 1 nohm)")
+    want = brute("E24", 0.999999999999, 1e3, 1e6, float("inf"), 10, part=(0.1, 100e6))
+    got = [(it["rtop"], it["rbot"]) for it in j["items"]]
+    check(got == [(w[0], w[1]) for w in want], "ratio 0.999999999999: the brute force's pairs within the part range")
+    rc, out, err = run(["pick", "ratio", "1e-9", "--total", "1..1G", "--format", "json"])
+    j = __import__("json").loads(out)
+    check(rc == 0 and j["fits"] and max(it["rtop"] for it in j["items"]) > 100e6 - 1,
+          "--total 1..1G widens the part range up to 1 Gohm")
 
 
 if __name__ == "__main__":

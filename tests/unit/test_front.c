@@ -387,9 +387,39 @@ static void test_many_statements_with_include(void)
     remove(inc);
 }
 
+/* Scratch after a mark: small objects, a new ordinary block and a large
+ * object's own block, released; the arena is back to its size and what it
+ * hands out next is zero again, and what came before the mark is intact. */
+static void test_arena_mark_release(void)
+{
+    ls_arena a;
+    ls_arena_init(&a);
+    char *keep = ls_arena_strdup(&a, "kept across the release");
+    for (int round = 0; round < 3; round++) {
+        ls_arena_mark m = ls_arena_mark_now(&a);
+        size_t reserved = a.reserved, used = a.used;
+        for (int i = 0; i < 2000; i++)
+            memset(ls_arena_alloc(&a, 64), 0xab, 64);              /* 128 KB: past the first block */
+        memset(ls_arena_alloc(&a, (size_t)3 << 20), 0xcd, 16);      /* a block of its own, mapped */
+        memset(ls_arena_alloc(&a, 48), 0xef, 48);
+        CU_ASSERT(a.reserved > reserved);
+        ls_arena_release(&a, &m);
+        CU_ASSERT_EQUAL(a.reserved, reserved);
+        CU_ASSERT_EQUAL(a.used, used);
+        unsigned char *z = ls_arena_alloc(&a, 4096);
+        int nonzero = 0;
+        for (int i = 0; i < 4096; i++)
+            nonzero += z[i] != 0;
+        CU_ASSERT_EQUAL(nonzero, 0);
+        CU_ASSERT_STRING_EQUAL(keep, "kept across the release");
+    }
+    ls_arena_free(&a);
+}
+
 int main(void)
 {
     static const ls_cu_case cases[] = {
+        {"arena mark and release", test_arena_mark_release},
         {"arena alignment", test_arena_alignment},
         {"arena zeroed memory and contents", test_arena_zero_and_contents},
         {"arena printf", test_arena_printf},
