@@ -28,7 +28,7 @@
  *     when unbounded (no DC path, an ideal input).
  *   - Handles share no state of the library's own: many circuits may be
  *     built and solved side by side, also on different threads at once
- *     (tests/api/test_api_threads.c runs two under ThreadSanitizer).  One
+ *     (tests/api/test_api_threads.c runs two, also under ThreadSanitizer).  One
  *     handle must not be used by two threads at once.
  *   - Unbounded versus undefined: +-INFINITY is a value with no bound (an
  *     ideal input's impedance, a node nothing ties to ground); NaN is a value

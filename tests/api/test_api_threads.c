@@ -3,7 +3,8 @@
  * report, sag by connection, Thevenin, influence, a tolerance study and a sweep
  * on a circuit of its own; the results are compared bit for bit with the same
  * calls made before the threads start.  Built as well with ThreadSanitizer by
- * tests/api/tsan.sh, which then reports any data race between the two.
+ * tests/tsan/run.sh (the api-threads-tsan test), which then reports any data race
+ * between the two.
  *
  * The circuits: a 10k/10k divider from 5 V into a 20k load through a port, and
  * a 1k/3k divider from 12 V into a 6k load (closed forms by the divider rule:
