@@ -1,7 +1,12 @@
 #!/usr/bin/env bash
-# A short fuzz session for CI (about a minute): build the libFuzzer target
-# tests/fuzz/fuzz_circuit with clang, run it on the stored corpus, the fuzzing
-# regressions, the example circuits and the bad-input corpus, and fail on any
+# A fuzz session: CI's is about a minute; before a release the project runs
+# `bash .ci/fuzz.sh 1800` (30 minutes, or longer).  The one argument is the
+# length in seconds (default: $LOADSTACK_FUZZ_SECONDS, else 60), shared by the
+# two libFuzzer targets: tests/fuzz/fuzz_circuit (parse to solve and the JSON
+# report) and tests/fuzz/fuzz_commands (every command and report format, the
+# output module and the C interface; docs/limits.md).  Each is built with
+# clang and run on the stored corpus, the fuzzing
+# regressions, the example circuits and the bad-input corpus, and fails on any
 # crash, leak, undefined behaviour, timeout (25 s for one input: the largest
 # legal expansion, about a million block instances, takes some 5 s, 10 s under
 # the sanitizers) or out-of-memory (2 GB) it finds.  What it
@@ -12,7 +17,8 @@
 set -uo pipefail
 cd "$(dirname "$0")/.."
 root=$PWD
-secs=${LOADSTACK_FUZZ_SECONDS:-60}
+secs=${1:-${LOADSTACK_FUZZ_SECONDS:-60}}
+case $secs in *[!0-9]*|'') echo "fuzz: the length is a whole number of seconds, not '$secs'"; exit 2 ;; esac
 build=${LOADSTACK_FUZZ_BUILD:-build-fuzz}
 case $build in /*) ;; *) build=$root/$build ;; esac
 
@@ -21,7 +27,7 @@ if [ -d "$build" ]; then
 else
   CC=clang CXX=clang++ meson setup "$build" -Dfuzz=true >/tmp/ci-fuzz-setup.log 2>&1
 fi || { tail -30 /tmp/ci-fuzz-setup.log; echo "fuzz: setup failed"; exit 1; }
-ninja -C "$build" tests/fuzz/fuzz_circuit >/tmp/ci-fuzz-build.log 2>&1 \
+ninja -C "$build" tests/fuzz/fuzz_circuit tests/fuzz/fuzz_commands >/tmp/ci-fuzz-build.log 2>&1 \
   || { tail -30 /tmp/ci-fuzz-build.log; echo "fuzz: build failed"; exit 1; }
 
 work=$(mktemp -d)
@@ -39,19 +45,25 @@ for f in circuits/*.stack circuits/*/*.stack tests/cases/*/*.stack tests/bad/cas
 done
 
 # Run in an empty directory: the inputs' relative includes resolve there.
+# Each target gets half the time; its own corpus grows in $work.
+cp tests/fuzz/corpus_commands/* "$work/corpus/" 2>/dev/null
+half=$(( secs / 2 > 0 ? secs / 2 : 1 ))
 cd "$work/run"
-ASAN_OPTIONS=detect_leaks=1:abort_on_error=1 UBSAN_OPTIONS=halt_on_error=1:print_stacktrace=1 \
-LSAN_OPTIONS=suppressions=$root/.ci/lsan.supp \
-  nice -n 10 "$build/tests/fuzz/fuzz_circuit" \
-    -max_total_time="$secs" -timeout=25 -report_slow_units=25 -rss_limit_mb=2048 -max_len=4096 \
-    -dict="$root/tests/fuzz/circuit.dict" -artifact_prefix="$work/artifacts/" \
-    -print_final_stats=1 "$work/corpus" >"$work/fuzz.log" 2>&1
-rc=$?
-tail -25 "$work/fuzz.log"
+rc=0
+for target in fuzz_circuit fuzz_commands; do
+  ASAN_OPTIONS=detect_leaks=1:abort_on_error=1 UBSAN_OPTIONS=halt_on_error=1:print_stacktrace=1 \
+  LSAN_OPTIONS=suppressions=$root/.ci/lsan.supp LOADSTACK_SELFCHECK=abort \
+    nice -n 10 "$build/tests/fuzz/$target" \
+      -max_total_time="$half" -timeout=25 -report_slow_units=25 -rss_limit_mb=2048 -max_len=4096 \
+      -dict="$root/tests/fuzz/circuit.dict" -artifact_prefix="$work/artifacts/${target}-" \
+      -print_final_stats=1 "$work/corpus" >"$work/$target.log" 2>&1 || rc=$?
+  tail -8 "$work/$target.log"
+done
+cat "$work"/fuzz_*.log > "$work/fuzz.log"
 # crash-, leak-, timeout- and oom- files are faults; a slow-unit- file is only
 # a note (an input that is legitimately large, such as a million instances)
-found=$(ls "$work/artifacts" | grep -cv '^slow-unit-')
-ls "$work/artifacts" | grep '^slow-unit-' | sed 's/^/fuzz: note: slow input /'
+found=$(ls "$work/artifacts" | grep -cv 'slow-unit-')
+ls "$work/artifacts" | grep 'slow-unit-' | sed 's/^/fuzz: note: slow input /'
 if [ "$rc" -ne 0 ] || [ "$found" -gt 0 ]; then
   mkdir -p "$build/fuzz-artifacts"
   cp "$work/artifacts/"* "$build/fuzz-artifacts/" 2>/dev/null
@@ -59,4 +71,4 @@ if [ "$rc" -ne 0 ] || [ "$found" -gt 0 ]; then
   echo "fuzz: FAILED (exit $rc, $found findings kept in $build/fuzz-artifacts)"
   exit 1
 fi
-echo "fuzz: ${secs} s, no crash"
+echo "fuzz: ${secs} s over two targets, no crash"

@@ -83,6 +83,8 @@ static ls_arena_block *new_block(size_t cap)
 static __attribute__((noinline)) void *bump_new(ls_arena *a, size_t size, size_t align)
 {
     if (size > SIZE_MAX / 4) {
+        if (!a->failed)
+            a->failed_bytes = size;
         a->failed = 1;
         return NULL;
     }
@@ -91,6 +93,8 @@ static __attribute__((noinline)) void *bump_new(ls_arena *a, size_t size, size_t
     bool alone = size > a->next_cap / 4;
     ls_arena_block *b = new_block(alone ? size : a->next_cap);
     if (!b) {
+        if (!a->failed)
+            a->failed_bytes = alone ? size : a->next_cap;
         a->failed = 1;
         return NULL;
     }

@@ -18,6 +18,7 @@ typedef struct ls_arena {
     size_t reserved;        /* bytes of blocks obtained from the system (statistics) */
     size_t next_cap;        /* data bytes of the next ordinary block; 0 before the first */
     int failed;             /* set once an allocation fails; stays set */
+    size_t failed_bytes;    /* the block (or object) the first failure asked the system for */
 } ls_arena;
 
 void ls_arena_init(ls_arena *a);

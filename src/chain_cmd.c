@@ -328,11 +328,8 @@ static void chain_text(FILE *o, ls_report *rp, ls_session *s, const ls_chain *c)
 static int chain_output(ls_session *s, const ls_chain *c, const ls_chain_pic *pic)
 {
     ls_cli *cli = s->cli;
-    char *tmp;
-    FILE *o = ls_out_open(s, &tmp);
-    if (!o)
-        return LS_EXIT_USAGE;
-    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = 4, .diags = &s->diags};
+    FILE *o = ls_out_open(cli);
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s->diags};
     int code = LS_EXIT_OK;
     switch (cli->fmt) {
     case FMT_JSON: chain_json(o, s, c); break;
@@ -340,7 +337,7 @@ static int chain_output(ls_session *s, const ls_chain *c, const ls_chain_pic *pi
     case FMT_TEXT: chain_text(o, &rp, s, c); break;
     case FMT_HTML: code = ls_html_page(o, s, c, pic); break;
     }
-    return ls_out_close(s, o, tmp, code);
+    return ls_out_close(cli, ls_session_verdict(s, code));
 }
 
 int ls_cmd_chain(ls_cli *cli)
@@ -363,7 +360,7 @@ int ls_cmd_chain(ls_cli *cli)
         }
     }
     char msg[300];
-    if (code == LS_EXIT_OK && cli->plot && ls_chain_plot_write(pic, cli->plot, msg, sizeof msg) != 0) {
+    if (code == LS_EXIT_OK && cli->plot && ls_chain_plot_write(pic, &cli->plot_dest, msg, sizeof msg) != 0) {
         fprintf(stderr, "loadstack: error: cannot draw '%s': %s\n", cli->plot, msg);
         code = LS_EXIT_USAGE;
     }

@@ -12,6 +12,7 @@
 
 #include "arena.h"
 #include "chain_plot.h"
+#include "output.h"
 #include "fmt.h"
 #include "parts.h"
 
@@ -751,46 +752,23 @@ static int fail(char *msg, size_t n, const char *fmt, const char *a, const char 
     return -1;
 }
 
-int ls_chain_plot_write(const ls_chain_pic *pic, const char *path, char *msg, size_t msgn)
+int ls_chain_plot_write(const ls_chain_pic *pic, ls_dest *dest, char *msg, size_t msgn)
 {
+    const char *path = dest->path ? dest->path : "-";
     size_t len = strlen(path);
     const char *ext = len > 4 ? path + len - 4 : "";
     bool svg = strcasecmp(ext, ".svg") == 0, png = strcasecmp(ext, ".png") == 0, pdf = strcasecmp(ext, ".pdf") == 0;
     if (!svg && !png && !pdf)
         return fail(msg, msgn, "'%s': a drawing's file name must end in .svg, .png or .pdf%s", path, "");
-    char *tmp = malloc(len + 32);
-    if (!tmp)
-        return fail(msg, msgn, "out of memory%s%s", "", "");
-    int fd = -1;
-    for (int k = 0; k < 100 && fd < 0; k++) {
-        snprintf(tmp, len + 32, "%s.tmp%ld-%d", path, (long)getpid(), k);
-        fd = open(tmp, O_WRONLY | O_CREAT | O_EXCL, 0666);
-        if (fd < 0 && errno != EEXIST)
-            break;
-    }
-    FILE *fp = fd >= 0 ? fdopen(fd, "wb") : NULL;
-    if (!fp) {
-        int rc = fail(msg, msgn, "cannot create '%s': %s", tmp, strerror(errno));
-        if (fd >= 0)
-            close(fd), unlink(tmp);
-        free(tmp);
-        return rc;
-    }
+    FILE *fp = dest->f;
     cairo_status_t st = CAIRO_STATUS_SUCCESS;
     if (svg)
         ls_chain_svg(pic, fp, false);
     else
         st = cairo_write(pic, fp, pdf);
-    bool ioerr = ferror(fp) != 0;
-    int rc = 0;
-    if (fclose(fp) != 0 || ioerr)
-        rc = fail(msg, msgn, "cannot write '%s': %s", tmp, strerror(errno));
-    else if (st != CAIRO_STATUS_SUCCESS)
-        rc = fail(msg, msgn, "cairo: %s%s", cairo_status_to_string(st), "");
-    else if (rename(tmp, path) != 0)
-        rc = fail(msg, msgn, "cannot write '%s': %s", path, strerror(errno));
-    if (rc != 0)
-        unlink(tmp);
-    free(tmp);
-    return rc;
+    if (ferror(fp))
+        return fail(msg, msgn, "cannot write '%s': %s", path, strerror(errno));
+    if (st != CAIRO_STATUS_SUCCESS)
+        return fail(msg, msgn, "cairo: %s%s", cairo_status_to_string(st), "");
+    return 0;
 }

@@ -16,6 +16,7 @@
 #ifndef LS_CHAIN_PLOT_H
 #define LS_CHAIN_PLOT_H
 
+#include "output.h"
 #include <stdio.h>
 
 #include "chain.h"
@@ -34,9 +35,9 @@ void ls_chain_pic_size(const ls_chain_pic *pic, double *w, double *h);
  * HTML page) to f. */
 void ls_chain_svg(const ls_chain_pic *pic, FILE *f, bool inline_svg);
 
-/* Write the picture to path: .svg (as ls_chain_svg), .png or .pdf (cairo),
- * through a temporary file renamed into place.  Returns 0, or -1 with a
- * one-line reason in msg. */
-int ls_chain_plot_write(const ls_chain_pic *pic, const char *path, char *msg, size_t msgn);
+/* Write the picture into dest (opened by the output module, which commits
+ * it): .svg (as ls_chain_svg), .png or .pdf (cairo) by the path's ending.
+ * Returns 0, or -1 with a one-line reason in msg. */
+int ls_chain_plot_write(const ls_chain_pic *pic, ls_dest *dest, char *msg, size_t msgn);
 
 #endif

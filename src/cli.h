@@ -6,6 +6,7 @@
 #include <stdio.h>
 
 #include "analysis.h"
+#include "output.h"
 #include "report.h"
 
 #define LS_MAX_SETS 256
@@ -40,6 +41,9 @@ typedef struct ls_cli {
     const char *fail_on;               /* check: "warnings" or CODE,CODE... (NULL: none) */
     char *stdin_text;                  /* FILE '-': the circuit read from standard input */
     size_t stdin_len;
+    /* where the report and the plot go: opened by ls_out_prepare before any
+     * work, committed by ls_out_close, removed by ls_out_abandon */
+    ls_dest out_dest, plot_dest;
     const char *symbols;               /* formula: --symbols A,B,... */
     bool ideal;                        /* formula: --ideal */
     bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
@@ -63,11 +67,33 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
 /* Solve the operating point.  Returns an exit code. */
 int ls_session_solve(ls_session *s);
 void ls_session_free(ls_session *s);
+/* Parse and bind a quantity written as in an `expect`; NULL after an error
+ * in the diagnostics (out of memory included). */
+ls_q *ls_session_quantity(ls_session *s, const char *text);
+/* An analysis that reported an error after the solve (out of memory) has no
+ * report: code, or 3 when the diagnostics hold an error. */
+int ls_session_verdict(const ls_session *s, int code);
 
-/* Open the report destination: stdout, or a temporary file beside --output. */
-FILE *ls_out_open(ls_session *s, char **tmp_path);
-/* Finish: flush, check, rename into place.  Returns an exit code. */
-int ls_out_close(ls_session *s, FILE *f, char *tmp_path, int code);
+/* Before any work: check --output and --plot (regular files only, not the
+ * input, not each other; docs/output.md), create their temporary files and
+ * arrange for SIGINT and SIGTERM to remove them.  Returns an exit code (2
+ * after saying why). */
+int ls_out_prepare(ls_cli *cli);
+/* The included files of a loaded circuit are not targets either: after
+ * loading, an error for each destination that is one.  Returns an exit code. */
+int ls_out_protect(ls_session *s);
+/* The report stream: stdout, or the temporary file of --output. */
+FILE *ls_out_open(ls_cli *cli);
+/* Finish the run's files: with code 0 or 1 (a report was made) put the plot
+ * and the report into place, otherwise remove them.  Returns code, or 2 when a
+ * file cannot be written. */
+int ls_out_close(ls_cli *cli, int code);
+/* Remove whatever temporary file is still open (a run that stopped early). */
+void ls_out_abandon(ls_cli *cli);
+
+/* End the process with `code` once standard output and error are flushed,
+ * without running the exit handlers of the libraries (see commands.c). */
+_Noreturn void ls_exit_now(int code);
 
 /* Parse a number with units from text (for --load 10k, --min-ratio 10 ...). */
 bool ls_cli_number(const char *text, double *v);

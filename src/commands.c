@@ -2,6 +2,7 @@
  * check and demo commands. */
 #include <errno.h>
 #include <math.h>
+#include <signal.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/resource.h>
@@ -14,6 +15,7 @@
 #include "html.h"
 #include "parser.h"
 #include "progress.h"
+#include "plot.h"
 
 /* ---- numbers on the command line ------------------------------------------------------ */
 
@@ -70,6 +72,32 @@ static void phase_done(const char *phase, double *t0)
     *t0 = t;
 }
 
+/* ---- the end of the process -------------------------------------------------------------------- */
+
+#if defined(__SANITIZE_ADDRESS__)
+#define LS_UNDER_ASAN 1
+#elif defined(__has_feature)
+#if __has_feature(address_sanitizer)
+#define LS_UNDER_ASAN 1
+#endif
+#endif
+
+/* Every file is committed or removed before this.  The exit handlers are
+ * skipped on purpose: OpenBLAS joins its worker threads there, and under a
+ * tight address-space limit (below about 256 MB) a worker that could not get
+ * its buffer never ends, so exit() would wait forever after the work is done.
+ * Under the sanitizers the handlers run (they hold the leak check). */
+_Noreturn void ls_exit_now(int code)
+{
+    fflush(stdout);
+    fflush(stderr);
+#ifdef LS_UNDER_ASAN
+    exit(code);
+#else
+    _exit(code);
+#endif
+}
+
 /* ---- sessions ------------------------------------------------------------------------ */
 
 static int parse_sets(ls_session *s, ls_setting *sets)
@@ -114,6 +142,8 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
     phase_done("parse", &t0);
     if (s->diags.nfiles == 0)
         return LS_EXIT_USAGE; /* unreadable: that one error, not a report on an empty circuit */
+    if (ls_out_protect(s) != LS_EXIT_OK)
+        return LS_EXIT_USAGE;
     ls_setting sets[LS_MAX_SETS];
     if (parse_sets(s, sets) != 0)
         return LS_EXIT_USAGE;
@@ -152,6 +182,22 @@ int ls_session_solve(ls_session *s)
     return code;
 }
 
+ls_q *ls_session_quantity(ls_session *s, const char *text)
+{
+    int e0 = s->diags.errors;
+    ls_expr *e = ls_parse_expr_string(&s->diags, "quantity", text, true);
+    ls_q *q = e ? ls_bind_quantity(&s->nl, e) : NULL;
+    if (!q && s->diags.errors == e0) /* the only silent failure is the arena's */
+        ls_error(&s->diags, LS_NOLOC, "out of memory reading the quantity '%s' (%zu bytes)", text,
+                 s->arena.failed_bytes);
+    return q;
+}
+
+int ls_session_verdict(const ls_session *s, int code)
+{
+    return code <= LS_EXIT_CHECK && s->diags.errors > 0 ? LS_EXIT_UNSOLVABLE : code;
+}
+
 void ls_session_free(ls_session *s)
 {
     if (s->have_op)
@@ -162,77 +208,122 @@ void ls_session_free(ls_session *s)
     ls_arena_free(&s->arena);
 }
 
-/* ---- output, written whole or not at all ------------------------------------------------- */
+/* ---- output, written whole or not at all (docs/output.md) ------------------------------------ */
 
-static bool same_file(const char *a, const char *b)
+/* SIGINT/SIGTERM: remove the temporary files, then die of the same signal
+ * (SA_RESETHAND restored the default action), so the shell sees 130 or 143
+ * and a calling script stops as it would for any interrupted program. */
+static void on_stop_signal(int sig)
 {
-    struct stat sa, sb;
-    return a && b && stat(a, &sa) == 0 && stat(b, &sb) == 0 && sa.st_dev == sb.st_dev && sa.st_ino == sb.st_ino;
+    ls_dest_signal_cleanup();
+    raise(sig);
 }
 
-FILE *ls_out_open(ls_session *s, char **tmp_path)
+/* Install on_stop_signal for SIGINT and SIGTERM (not where they are ignored:
+ * a program started in the background with them ignored keeps that). */
+static void catch_stop_signals(void)
 {
-    const char *out = s->cli->output;
-    *tmp_path = NULL;
-    if (!out || strcmp(out, "-") == 0)
-        return stdout;
-    if (same_file(out, s->input_path)) {
-        fprintf(stderr, "loadstack: error: --output '%s' is the input circuit; refusing to overwrite it\n", out);
-        return NULL;
+    static const int sigs[] = {SIGINT, SIGTERM};
+    for (size_t i = 0; i < sizeof sigs / sizeof sigs[0]; i++) {
+        struct sigaction old, sa;
+        memset(&sa, 0, sizeof sa);
+        sa.sa_handler = on_stop_signal;
+        sa.sa_flags = SA_RESETHAND;
+        sigemptyset(&sa.sa_mask);
+        if (sigaction(sigs[i], NULL, &old) == 0 && old.sa_handler != SIG_IGN)
+            sigaction(sigs[i], &sa, NULL);
     }
-    for (int i = 0; i < s->diags.nfiles; i++)
-        if (same_file(out, s->diags.files[i].path)) {
-            fprintf(stderr, "loadstack: error: --output '%s' is an included circuit file; refusing to overwrite it\n",
-                    out);
-            return NULL;
-        }
-    size_t n = strlen(out) + 16;
-    char *tmp = malloc(n);
-    if (!tmp)
-        return NULL;
-    snprintf(tmp, n, "%s.tmpXXXXXX", out);
-    int fd = mkstemp(tmp);
-    if (fd < 0) {
-        fprintf(stderr, "loadstack: error: cannot write '%s': %s\n", out, strerror(errno));
-        free(tmp);
-        return NULL;
-    }
-    fchmod(fd, 0644);
-    FILE *f = fdopen(fd, "w");
-    if (!f) {
-        close(fd);
-        unlink(tmp);
-        free(tmp);
-        return NULL;
-    }
-    *tmp_path = tmp;
-    return f;
 }
 
-int ls_out_close(ls_session *s, FILE *f, char *tmp, int code)
+/* The circuit file a command reads (its first argument), or NULL. */
+static const char *input_of(const ls_cli *cli)
 {
-    const char *out = s->cli->output;
-    if (f == stdout) {
-        if (fflush(stdout) != 0 || ferror(stdout)) {
-            fprintf(stderr, "loadstack: error: writing the report failed: %s\n", strerror(errno));
-            return LS_EXIT_USAGE;
+    if (!cli->command || cli->npos < 1 || strcmp(cli->command, "pick") == 0 || strcmp(cli->command, "demo") == 0)
+        return NULL;
+    return cli->pos[0];
+}
+
+/* Say why a destination is refused; returns LS_EXIT_USAGE. */
+static int refuse(ls_cli *cli, const char *fmt, const char *a, const char *b)
+{
+    fputs("loadstack: error: ", stderr);
+    fprintf(stderr, fmt, a, b);
+    fputc('\n', stderr);
+    ls_out_abandon(cli);
+    return LS_EXIT_USAGE;
+}
+
+int ls_out_prepare(ls_cli *cli)
+{
+    char msg[700];
+    const char *input = input_of(cli);
+    if (cli->plot && (strcmp(cli->plot, "-") == 0 || !ls_plot_format(cli->plot)))
+        return refuse(cli, "--plot '%s': a plot file must end in .svg or .png%s", cli->plot, "");
+    if (cli->plot && ls_dest_open(&cli->plot_dest, "--plot", cli->plot, msg, sizeof msg) != 0)
+        return refuse(cli, "%s%s", msg, "");
+    if (ls_dest_open(&cli->out_dest, "--output", cli->output, msg, sizeof msg) != 0)
+        return refuse(cli, "%s%s", msg, "");
+    if (ls_dest_text(&cli->out_dest) != 0)   /* reports are UTF-8, whatever the names hold */
+        return refuse(cli, "out of memory%s%s", "", "");
+    if (ls_dest_same(&cli->out_dest, input))
+        return refuse(cli, "--output '%s' is the input circuit; refusing to overwrite it%s", cli->output, "");
+    if (cli->plot && ls_dest_same(&cli->plot_dest, input))
+        return refuse(cli, "--plot '%s' is the input circuit; refusing to overwrite it%s", cli->plot, "");
+    if (cli->plot && ls_dest_same_dest(&cli->plot_dest, &cli->out_dest))
+        return refuse(cli, "--plot '%s' and --output '%s' are the same file; give each its own", cli->plot,
+                      cli->output);
+    if (cli->plot || !cli->out_dest.is_stdout)
+        catch_stop_signals();
+    return LS_EXIT_OK;
+}
+
+int ls_out_protect(ls_session *s)
+{
+    ls_cli *cli = s->cli;
+    int code = LS_EXIT_OK;
+    for (int i = 1; i < s->diags.nfiles; i++) {   /* file 0 is the input, checked before */
+        const char *inc = s->diags.files[i].path;
+        const char *hit = ls_dest_same(&cli->out_dest, inc) ? "--output"
+                          : cli->plot && ls_dest_same(&cli->plot_dest, inc) ? "--plot" : NULL;
+        if (hit) {
+            ls_error(&s->diags, LS_NOLOC, "%s '%s' is an included circuit file; refusing to overwrite it", hit,
+                     strcmp(hit, "--plot") == 0 ? cli->plot : cli->output);
+            code = LS_EXIT_USAGE;
         }
+    }
+    return code;
+}
+
+FILE *ls_out_open(ls_cli *cli)
+{
+    return cli->out_dest.f ? cli->out_dest.f : stdout;
+}
+
+int ls_out_close(ls_cli *cli, int code)
+{
+    char msg[700];
+    if (code != LS_EXIT_OK && code != LS_EXIT_CHECK) {
+        ls_out_abandon(cli);
         return code;
     }
-    bool bad = fflush(f) != 0 || ferror(f) || fsync(fileno(f)) != 0;
-    int err = errno;
-    bad |= fclose(f) != 0;
-    if (!bad && rename(tmp, out) != 0) {
-        err = errno;
-        bad = true;
+    bool plot_open = cli->plot_dest.f != NULL;
+    if (!cli->out_dest.f) {   /* not prepared (a caller of the command functions that wants stdout) */
+        cli->out_dest.is_stdout = true;
+        cli->out_dest.f = stdout;
     }
-    if (bad) {
-        unlink(tmp);
-        fprintf(stderr, "loadstack: error: cannot write '%s': %s\n", out, strerror(err));
-        code = LS_EXIT_USAGE;
+    if ((plot_open && ls_dest_commit(&cli->plot_dest, msg, sizeof msg) != 0) ||
+        ls_dest_commit(&cli->out_dest, msg, sizeof msg) != 0) {
+        fprintf(stderr, "loadstack: error: %s\n", msg);
+        ls_out_abandon(cli);
+        return LS_EXIT_USAGE;
     }
-    free(tmp);
     return code;
+}
+
+void ls_out_abandon(ls_cli *cli)
+{
+    ls_dest_discard(&cli->plot_dest);
+    ls_dest_discard(&cli->out_dest);   /* standard output: only flushed */
 }
 
 /* ---- solve, check, demo ---------------------------------------------------------------------- */
@@ -311,13 +402,7 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
         ls_session_free(&s);
         return LS_EXIT_UNSOLVABLE;
     }
-    char *tmp;
-    FILE *out = ls_out_open(&s, &tmp);
-    if (!out) {
-        ls_checks_free(&checks);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *out = ls_out_open(cli);
     phase_done("checks", &t0);
     ls_report rp = {.out = out, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     const char *failed_codes[64];
@@ -330,7 +415,7 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
     else
         ls_report_solve(&rp, &s.op, &checks);
     code = check_mode && (checks.failed || rp.nfailed_warnings) ? LS_EXIT_CHECK : LS_EXIT_OK;
-    code = ls_out_close(&s, out, tmp, code);
+    code = ls_out_close(cli, ls_session_verdict(&s, code));
     phase_done("report", &t0);
     /* a text report that lists warnings, on the terminal stderr is on: each once */
     shown_ctx sc = {.all = !check_mode, .rp = &rp};

@@ -55,18 +55,31 @@ static bool grow(void **v, int *cap, int need, size_t elem)
 
 /* Out of memory in the elaborator is an error, reported once: a statement is
  * never dropped silently. */
-static void out_of_memory(elab *x)
+static void out_of_memory_n(elab *x, size_t bytes)
 {
     if (!x->oom)
-        ls_error(x->d, LS_NOLOC, "out of memory while expanding the circuit");
+        ls_error(x->d, LS_NOLOC,
+                 "out of memory while expanding the circuit: a request for %.1f MB failed, with %d nodes and %d "
+                 "parts made so far",
+                 (double)bytes / 1e6, x->nl->nnodes, x->nl->nparts);
     x->oom = true;
+}
+
+/* The same for a failure in the arena (names, values): its size is the
+ * arena's record of it. */
+static void out_of_memory(elab *x)
+{
+    out_of_memory_n(x, x->a->failed_bytes ? x->a->failed_bytes : x->d->arena->failed_bytes);
 }
 
 static bool grow_x(elab *x, void **v, int *cap, int need, size_t elem)
 {
     if (grow(v, cap, need, elem))
         return true;
-    out_of_memory(x);
+    size_t c = *cap ? (size_t)*cap : 64; /* what grow asked for */
+    while (c < (size_t)need)
+        c *= 2;
+    out_of_memory_n(x, c * elem);
     return false;
 }
 
@@ -100,11 +113,17 @@ int ls_netlist_find_node(const ls_netlist *nl, const char *name)
 
 /* ---- names ----------------------------------------------------------------------- */
 
+/* NAME in scope s: "prefix.name" in the arena, or name itself at the top
+ * level.  NULL (the elaboration flagged out of memory) when the arena is full:
+ * every caller checks. */
 static const char *qualify(elab *x, const scope *s, const char *name)
 {
     if (!s->prefix[0])
         return name;
-    return ls_arena_printf(x->a, "%s.%s", s->prefix, name);
+    const char *full = ls_arena_printf(x->a, "%s.%s", s->prefix, name);
+    if (!full)
+        out_of_memory(x);
+    return full;
 }
 
 static const char *ent_what(ls_ent_kind k)
@@ -127,6 +146,8 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
     ls_netlist *nl = x->nl;
     if (found)
         *found = -1;
+    if (!full) /* qualify ran out of memory */
+        return -1;
     if (strlen(full) > LS_MAX_NAME_BYTES) {
         ls_error(x->d, loc, "name is longer than %d bytes", LS_MAX_NAME_BYTES);
         return -1;
@@ -137,7 +158,7 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
     int e;
     int r = ls_hash_intern(&nl->names, full, nl->nents, &e);
     if (r < 0) {
-        out_of_memory(x);
+        out_of_memory_n(x, 2 * (nl->names.cap ? nl->names.cap : 16) * sizeof(ls_hash_slot)); /* the doubled table */
         return -1;
     }
     if (r == 0) {
@@ -161,6 +182,8 @@ static int new_node(elab *x, const char *full, ls_loc loc, int depth, int *found
     ls_netlist *nl = x->nl;
     if (found)
         *found = -1;
+    if (!full) /* qualify ran out of memory */
+        return -1;
     if (nl->nnodes >= LS_MAX_NODES) {
         if (found && (*found = ls_hash_get(&nl->names, full)) >= 0)
             return -1;
@@ -222,7 +245,10 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
 static const ls_param *param_ref(elab *x, const scope *s, const char *name)
 {
     ls_netlist *nl = x->nl;
-    int e = ls_hash_get(&nl->names, qualify(x, s, name));
+    const char *full = qualify(x, s, name);
+    if (!full)
+        return NULL;
+    int e = ls_hash_get(&nl->names, full);
     if (e >= 0 && nl->ents[e].kind == ENT_PARAM)
         return &nl->params[nl->ents[e].index];
     if (s->prefix[0]) {
@@ -423,6 +449,8 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
             return true;
         }
         const char *full = qualify(x, s, e->name);
+        if (!full)
+            return false;
         int en = ls_hash_get(&x->nl->names, full);
         if (en >= 0 && x->nl->ents[en].kind != ENT_PARAM)
             ls_error(x->d, e->loc, "'%s' is a %s; a value is expected here (a number or a let)", e->name,
@@ -590,6 +618,8 @@ static ls_q *bind_name(elab *x, const scope *s, const ls_expr *e)
         return q;
     }
     const char *full = qualify(x, s, e->name);
+    if (!full)
+        return NULL;
     int en = ls_hash_get(&nl->names, full);
     if (en >= 0) {
         ls_entity *o = &nl->ents[en];
@@ -1035,6 +1065,8 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     for (int i = 0; i < LS_MAX_PINS; i++)
         p.pin[i] = -1;
     p.name = qualify(x, s, st->name);
+    if (!p.name)
+        return;
     p.instance = s->prefix[0] ? s->prefix : NULL;
     if (k->has_run) {
         p.run = ls_arena_alloc(x->a, sizeof *p.run);

@@ -57,6 +57,7 @@ typedef struct fx {
     fsym sym[LS_FORMULA_MAX_SYMBOLS + 1];
     int nsym;
     int tie;                 /* variable of the tie conductance (modified systems only) */
+    const rf *hold;          /* the opened port's load end held at this voltage (a held port), or NULL */
     rf *pval;                /* per part: its main value */
     bool *pexact;            /* per part: stamped exactly from pval (else numbers at the operating point) */
     int n;                   /* unknowns */
@@ -971,6 +972,15 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
         add_b(F, S, f, v, -1);
         add_b(F, S, t, v, 1);
     } else if (kind_is(p, "port")) {
+        if (removed && F->hold) {
+            /* opened with its load end held at its loaded voltage: the driver
+             * end is disconnected, the branch row reads V(load) = held value
+             * and the branch current is what holds it there */
+            add_a_si(F, S, t, k, -1);
+            add_a_si(F, S, k, t, 1);
+            add_b(F, S, k, F->hold, 1);
+            return;
+        }
         branch(F, S, f, t, k, false);
         if (removed) {
             add_a_si(F, S, k, k, 1);
@@ -1406,10 +1416,52 @@ static int port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
     return port_prop_voltage(F, part, prop, out, text);
 }
 
+/* Does the solver hold port part's load side when it opens it (a load side
+ * with no DC path of its own, loading.md)?  Its own decision, from the
+ * circuit's DC paths, so both describe the same modified circuit. */
+static bool port_load_held(fx *F, int part)
+{
+    const ls_port_result *pr = ls_op_port(F->op, part);
+    return pr && pr->load_held;
+}
+
+/* A linear form in the system with held port `part` opened: its load end
+ * held at its loaded voltage (the load node's voltage in the whole circuit,
+ * itself a formula), the driver side free.  For zout (unit >= 0) the held
+ * voltage is an independent source and drops out with the rhs. */
+static int held_solve(fx *F, int part, const lform *l, int unit, rf *out, const char **why)
+{
+    const ls_part *p = &F->nl->parts[part];
+    rf v;
+    rf_init(F, &v);
+    int code = LS_EXIT_OK;
+    if (unit < 0) {
+        lform lv;
+        lform_init(F, &lv);
+        if (!lv.c)
+            code = LS_EXIT_UNSOLVABLE;
+        if (code == LS_EXIT_OK) {
+            node_form(F, &lv, p->pin[1], 1);
+            code = solve_in(F, -1, 0, &lv, -1, &v, why);
+        }
+        lform_clear(F, &lv);
+    }
+    if (code == LS_EXIT_OK) {
+        F->hold = &v;
+        code = solve_in(F, part, 0, l, unit, out, why);
+        F->hold = NULL;
+        if (code != LS_EXIT_OK && *why)
+            *why = "with the load side held at its loaded voltage the driver side has no DC solution";
+    }
+    rf_clear(F, &v);
+    return code;
+}
+
 /* The fields of a voltage-mode port (and zout, zin, open voltage of any). */
 static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
     const ls_part *p = &F->nl->parts[part];
+    bool held = port_load_held(F, part);
     int dn = p->pin[0], ln = p->pin[1];
     const char *why = NULL;
     int code = LS_EXIT_OK;
@@ -1427,6 +1479,10 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
         break;
     case PROP_OPEN:
         node_form(F, &l, dn, 1);
+        if (held) {
+            code = held_solve(F, part, &l, -1, out, &why);
+            break;
+        }
         code = solve_in(F, part, ln, &l, -1, out, &why);
         break;
     case PROP_ZOUT:
@@ -1436,7 +1492,16 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
             rf_set_si(F, out, 0);
             break;
         }
+        if (held && prop == PROP_ZIN) {
+            why = "the load side has no DC path of its own with the port open (it is held at its loaded voltage), "
+                  "so zin is unbounded";
+            break;
+        }
         node_form(F, &l, node, 1);
+        if (held) {
+            code = held_solve(F, part, &l, ls_node_unknown(node), out, &why);
+            break;
+        }
         code = solve_in(F, part, prop == PROP_ZOUT ? ln : dn, &l, ls_node_unknown(node), out, &why);
         break;
     }
@@ -1749,27 +1814,23 @@ static void put_number(sbuf *b, const fmpq_t q)
 }
 
 /* Text of a polynomial: terms joined by + and -, each "c * a * b^2". */
-static void put_poly(fx *F, sbuf *b, const fmpq_mpoly_t p)
+/* Terms [lo, hi) of p, each with its sign (the first one's only when
+ * negative). */
+static void put_terms(fx *F, sbuf *b, const fmpq_mpoly_t p, slong lo, slong hi)
 {
-    slong len = fmpq_mpoly_length(p, F->ctx);
-    if (len == 0) {
-        sb_put(b, "0");
-        return;
-    }
     slong exps[LS_FORMULA_MAX_SYMBOLS + 2];
     fmpq_t c;
     fmpq_init(c);
-    for (slong t = 0; t < len; t++) {
+    for (slong t = lo; t < hi; t++) {
         fmpq_mpoly_get_term_coeff_fmpq(c, p, t, F->ctx);
         fmpq_mpoly_get_term_exp_si(exps, p, t, F->ctx);
         bool neg = fmpq_sgn(c) < 0;
-        sb_put(b, t == 0 ? (neg ? "-" : "") : (neg ? " - " : " + "));
+        sb_put(b, t == lo ? (neg ? "-" : "") : (neg ? " - " : " + "));
         bool first = true;
         if (!fmpq_is_pm1(c)) {
             put_number(b, c);
             first = false;
         }
-        bool den_only = false;
         for (int v = 0; v <= F->nsym; v++) {
             if (!exps[v])
                 continue;
@@ -1782,11 +1843,43 @@ static void put_poly(fx *F, sbuf *b, const fmpq_mpoly_t p)
             }
             first = false;
         }
-        (void)den_only;
         if (first)
             sb_put(b, "1");
     }
     fmpq_clear(c);
+}
+
+/* Terms [lo, hi) of p as a sum.  The language limits how deep an expression
+ * may nest, and each operator of a chain counts one level (limits.md), so a
+ * sum of more than LS_FORMULA_CHAIN terms is written as a sum of
+ * parenthesized groups (of LS_FORMULA_CHAIN^k terms, k as small as keeps the
+ * groups within LS_FORMULA_CHAIN): the printed formula then always reads
+ * back, whatever the number of terms. */
+static void put_sum(fx *F, sbuf *b, const fmpq_mpoly_t p, slong lo, slong hi)
+{
+    slong n = hi - lo;
+    if (n <= LS_FORMULA_CHAIN) {
+        put_terms(F, b, p, lo, hi);
+        return;
+    }
+    slong size = LS_FORMULA_CHAIN;
+    while ((n + size - 1) / size > LS_FORMULA_CHAIN)
+        size *= LS_FORMULA_CHAIN;
+    for (slong g = lo; g < hi; g += size) {
+        sb_put(b, g == lo ? "(" : " + (");
+        put_sum(F, b, p, g, g + size < hi ? g + size : hi);
+        sb_put(b, ")");
+    }
+}
+
+static void put_poly(fx *F, sbuf *b, const fmpq_mpoly_t p)
+{
+    slong len = fmpq_mpoly_length(p, F->ctx);
+    if (len == 0) {
+        sb_put(b, "0");
+        return;
+    }
+    put_sum(F, b, p, 0, len);
 }
 
 /* One factor of a factored polynomial, normalized: primitive integer
@@ -2202,7 +2295,7 @@ static double eval_text_expr(fx *F, const ls_expr *e)
 }
 
 /* Does the text, read back by the language's own parser, give `want`? */
-static bool text_reads_back(fx *F, const char *text, double want)
+static bool text_reads_back(fx *F, const char *text, double want, double *got_out)
 {
     ls_arena a;
     ls_diags d;
@@ -2212,6 +2305,7 @@ static bool text_reads_back(fx *F, const char *text, double want)
     double got = e ? eval_text_expr(F, e) : NAN;
     ls_diags_free(&d);
     ls_arena_free(&a);
+    *got_out = got;
     if (got == want)
         return true;
     return fabs(got - want) <= 1e-9 * fmax(fabs(got), fabs(want));
@@ -2522,6 +2616,13 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
         solver_bound = 4 * DBL_EPSILON / F->op->rcond;
     if (F->op->rcond < LS_FORMULA_RCOND_ILL)
         bound = fmax(bound, solver_bound);
+    /* A port field of the modified system comes from a low-rank update of
+     * the base factorization (Sherman-Morrison), whose cancellation adds to
+     * the base solve's error: it is held to the larger of 1e-9 and
+     * LS_FORMULA_UPDATE_GROWTH times the base solve's bound.  (The error-bound
+     * API bounds linear forms of the base solution only, not the update.) */
+    if (uses_modified_system(q) && isfinite(solver_bound))
+        bound = fmax(bound, LS_FORMULA_UPDATE_GROWTH * solver_bound);
     res->bound = bound;
     if (!(diff <= bound)) {
         ls_error(F->d, F->qloc,
@@ -2552,9 +2653,10 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
     rf_clear(F, &a);
     if (code == LS_EXIT_OK && F->too_big)
         code = too_big_error(F, F->too_big_why);
-    if (code == LS_EXIT_OK && (!text_reads_back(F, res->expression, res->value))) {
-        ls_error(F->d, LS_NOLOC, "formula: internal error: the printed formula '%s' does not read back to %.17g",
-                 res->expression, res->value);
+    double got = NAN;
+    if (code == LS_EXIT_OK && (!text_reads_back(F, res->expression, res->value, &got))) {
+        ls_error(F->d, LS_NOLOC, "formula: internal error: the printed formula '%s' does not read back to %.17g "
+                 "(it reads %.17g)", res->expression, res->value, got);
         code = LS_EXIT_UNSOLVABLE;
     }
     return code;

@@ -10,10 +10,13 @@
 #define LS_FORMULA_MAX_SYMBOLS 16      /* symbols kept in the formula (gains limited away by --ideal count too) */
 #define LS_FORMULA_MAX_UNKNOWNS 40     /* MNA unknowns */
 #define LS_FORMULA_MAX_TERMS 4000      /* terms of any polynomial during the elimination */
+#define LS_FORMULA_CHAIN 32            /* terms of a printed sum before it is written in groups (the language's depth limit) */
 #define LS_FORMULA_WORK 40000000.0     /* term products over the whole computation (about half a second) */
 #define LS_FORMULA_RCOND_ILL 1e-11    /* below this the solve warns "ill-conditioned" (analysis.c) */
 #define LS_FORMULA_SELF_CHECK_PORTS 1e-9 /* port fields the solver gets from low-rank updates of its
                                            factorization (open, zout, zin, sag, ratio): more rounding */
+#define LS_FORMULA_UPDATE_GROWTH 16    /* ... at most this many times the base solve's 4 eps / rcond:
+                                          the update's own cancellation (self-check of port fields) */
 #define LS_FORMULA_SELF_CHECK 1e-12    /* relative: formula at the file's numbers against the solver
                                           (or the solver's own error bound, 4 eps / rcond, when larger) */
 

@@ -158,13 +158,7 @@ int ls_cmd_formula(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        ls_formula_result_free(&r);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     if (cli->fmt == FMT_JSON)
         report_json(o, cli, &r);
     else if (cli->fmt == FMT_CSV)
@@ -172,7 +166,7 @@ int ls_cmd_formula(ls_cli *cli)
     else
         report_text(o, cli, &r, ls_unit_of(q->dims, cli->ascii));
     ls_formula_result_free(&r);
-    code = ls_out_close(&s, o, tmp, LS_EXIT_OK);
+    code = ls_out_close(cli, ls_session_verdict(&s, LS_EXIT_OK));
     ls_diags_print(&s.diags, stderr);
     ls_session_free(&s);
     return code;

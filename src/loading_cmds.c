@@ -73,9 +73,9 @@ static int prepare(ls_session *s, ls_cli *cli, int *node)
 }
 
 /* Close the report, print the diagnostics, free the session; the exit code. */
-static int finish(ls_session *s, FILE *out, char *tmp, int code)
+static int finish(ls_session *s, int code)
 {
-    code = ls_out_close(s, out, tmp, code);
+    code = ls_out_close(s->cli, ls_session_verdict(s, code));
     ls_diags_print(&s->diags, stderr);
     ls_session_free(s);
     return code;
@@ -284,12 +284,7 @@ int ls_cmd_thevenin(ls_cli *cli)
     ls_op *op = &s.op;
     ls_th_side drv, ld;
     ls_thevenin_sides(op, node, port, rload, rmeter, &drv, &ld);
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     char b1[64];
     if (cli->fmt == FMT_JSON && port < 0) {
@@ -327,7 +322,7 @@ int ls_cmd_thevenin(ls_cli *cli)
         if (isfinite(drv.rth) && isfinite(ld.rth) && drv.rth > 0)
             fprintf(o, "  ratio zin/zout        %s\n", ls_eng(&rp, b1, sizeof b1, ld.rth / drv.rth, ""));
     }
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }
 
 /* ---- sag ------------------------------------------------------------------------------------ */
@@ -580,14 +575,7 @@ int ls_cmd_sag(ls_cli *cli)
             return LS_EXIT_UNSOLVABLE;
         }
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        free(items);
-        ls_sag_report_free(&r);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     if (cli->fmt == FMT_JSON)
         sag_json(o, nl, &r, items);
@@ -600,7 +588,7 @@ int ls_cmd_sag(ls_cli *cli)
     }
     free(items);
     ls_sag_report_free(&r);
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }
 
 /* ---- influence ----------------------------------------------------------------------------- */
@@ -742,8 +730,7 @@ int ls_cmd_influence(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    ls_expr *e = ls_parse_expr_string(&s.diags, "quantity", cli->pos[1], true);
-    ls_q *q = e ? ls_bind_quantity(&s.nl, e) : NULL;
+    ls_q *q = ls_session_quantity(&s, cli->pos[1]);
     ls_sens_item *items = NULL;
     double value = NAN;
     int n = q ? ls_sens(&s.op, q, &value, &items) : -1;
@@ -752,13 +739,7 @@ int ls_cmd_influence(ls_cli *cli)
         ls_session_free(&s);
         return LS_EXIT_USAGE;
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o) {
-        free(items);
-        ls_session_free(&s);
-        return LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
     if (cli->fmt == FMT_JSON)
         influence_json(o, &s, cli->pos[1], value, items, n);
@@ -767,5 +748,5 @@ int ls_cmd_influence(ls_cli *cli)
     else
         influence_text(&rp, &s, cli->pos[1], q->dims, value, items, n);
     free(items);
-    return finish(&s, o, tmp, LS_EXIT_OK);
+    return finish(&s, LS_EXIT_OK);
 }

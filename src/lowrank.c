@@ -901,11 +901,17 @@ double ls_op_zdrive(ls_op *op, int node)
     if (node <= 0)
         return 0;
     double *y = calloc((size_t)op->mna.n, sizeof *y);
-    if (!y)
-        return NAN;
-    y[node - 1] = 1;
-    double z = base_solve(op, y, 0, -1) == LS_SOLVER_OK ? y[node - 1] : NAN;
+    int st = y ? LS_SOLVER_OK : LS_SOLVER_NOMEM;
+    if (y) {
+        y[node - 1] = 1;
+        st = base_solve(op, y, 0, -1);
+    }
+    double z = st == LS_SOLVER_OK ? y[node - 1] : NAN;
     free(y);
+    /* out of memory is an error, never an undefined resistance */
+    if (st == LS_SOLVER_NOMEM)
+        ls_error(op->nl->diags, LS_NOLOC, "out of memory finding the resistance at a node (%zu bytes)",
+                 (size_t)op->mna.n * sizeof(double));
     return z;
 }
 

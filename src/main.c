@@ -412,7 +412,8 @@ static int read_stdin(ls_cli *cli)
     return 0;
 }
 
-int main(int argc, char **argv)
+/* The program proper; main only ends the process. */
+static int run_main(int argc, char **argv)
 {
     ls_solver_threads_for_program(); /* measured: small solves run fastest on one thread */
     ls_cli cli;
@@ -522,7 +523,15 @@ int main(int argc, char **argv)
         if (r)
             return r;
     }
-    int code = c->run(&cli);
+    int code = ls_out_prepare(&cli);   /* destinations checked before any work */
+    if (code == LS_EXIT_OK)
+        code = c->run(&cli);
+    ls_out_abandon(&cli);   /* a run that stopped early leaves no temporary file */
     free(cli.stdin_text);
     return code;
+}
+
+int main(int argc, char **argv)
+{
+    ls_exit_now(run_main(argc, argv));
 }

@@ -423,7 +423,10 @@ static bool option_ahead(parser *p)
  * 10k at=0.3`) when it was not given before them: with_value. */
 static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_value)
 {
-    ls_opt buf[64];
+    /* A `use` connects every pin of its block (up to LS_MAX_BLOCK_PINS) and
+     * sets its params, so it may carry that many more options than a part. */
+    int max = s->kind == S_USE ? LS_MAX_USE_OPTIONS : LS_MAX_OPTIONS;
+    ls_opt buf[LS_MAX_USE_OPTIONS];
     int n = 0;
     while (!at_eol(p)) {
         if (!option_ahead(p)) {
@@ -437,8 +440,9 @@ static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_val
                                                : "an option NAME=VALUE");
             return false;
         }
-        if (n == 64) {
-            ls_error(p->d, p->tok.loc, "too many options on one statement (at most 64)");
+        if (n == max) {
+            ls_error(p->d, p->tok.loc, "too many options on one %s (at most %d)", s->kind == S_USE ? "use" : "statement",
+                     max);
             return false;
         }
         ls_opt *o = &buf[n++];
@@ -645,12 +649,12 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
     advance(p);
     if (!expect_ident(p, "a block name", &s->name, &s->name_loc))
         return NULL;
-    const char *pins[256];
-    ls_loc locs[256];
+    const char *pins[LS_MAX_BLOCK_PINS];
+    ls_loc locs[LS_MAX_BLOCK_PINS];
     int n = 0;
     while (p->tok.kind == T_IDENT && !option_ahead(p)) {
-        if (n == 256) {
-            ls_error(p->d, p->tok.loc, "too many pins (at most 256)");
+        if (n == LS_MAX_BLOCK_PINS) {
+            ls_error(p->d, p->tok.loc, "too many pins (at most %d)", LS_MAX_BLOCK_PINS);
             return NULL;
         }
         locs[n] = p->tok.loc;

@@ -9,6 +9,9 @@
 #define LS_MAX_INCLUDE_DEPTH 16
 #define LS_MAX_EXPR_DEPTH 200
 #define LS_MAX_FILE_BYTES (1u << 30)
+#define LS_MAX_OPTIONS 64      /* NAME=VALUE options on one part or block statement */
+#define LS_MAX_BLOCK_PINS 256  /* pins of one block */
+#define LS_MAX_USE_OPTIONS (LS_MAX_BLOCK_PINS + LS_MAX_OPTIONS) /* a use: every pin, and params */
 
 /* Parse the file at path into *prog (allocated in the diagnostics' arena).
  * Returns the number of errors reported (0 on success). */

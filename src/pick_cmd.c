@@ -168,14 +168,7 @@ int ls_cmd_pick(ls_cli *cli)
         fprintf(stderr, "loadstack: error: the standard-value search failed (out of memory)\n");
         return LS_EXIT_UNSOLVABLE;
     }
-    /* A session only for the safe output file (no circuit). */
-    ls_session s;
-    memset(&s, 0, sizeof s);
-    s.cli = cli;
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (!o)
-        return LS_EXIT_USAGE;
+    FILE *o = ls_out_open(cli);
     ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits};
     if (cli->fmt == FMT_JSON) {
         pick_json(o, ratio, es, items, n);
@@ -188,5 +181,5 @@ int ls_cmd_pick(ls_cli *cli)
         pick_text(o, &rp, cli, ratio, es, lo, hi, zmax, items, n);
     }
     /* no pair that fits is a failed search, as for fit (docs/cli.md) */
-    return ls_out_close(&s, o, tmp, pick_fits(es, items, n) ? LS_EXIT_OK : LS_EXIT_CHECK);
+    return ls_out_close(cli, pick_fits(es, items, n) ? LS_EXIT_OK : LS_EXIT_CHECK);
 }

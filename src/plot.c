@@ -306,43 +306,38 @@ static cairo_status_t write_cb(void *closure, const unsigned char *data, unsigne
                                                           : CAIRO_STATUS_WRITE_ERROR;
 }
 
-/* Draws with fn onto an SVG or PNG surface streamed to a fresh temporary file
- * beside path, then renames it over path.  Returns an ls_plot_status; the
- * temporary file is removed on any failure. */
-static int render(const char *path, int w, int h, draw_fn fn, const void *desc,
-                  const axis *xa, const axis *ya, char *msg, size_t msgn)
+int ls_plot_format(const char *path)
 {
     size_t len = path ? strlen(path) : 0;
-    bool svg = len > 4 && strcasecmp(path + len - 4, ".svg") == 0;
-    bool png = len > 4 && strcasecmp(path + len - 4, ".png") == 0;
-    if (!svg && !png)
+    if (len > 4 && strcasecmp(path + len - 4, ".svg") == 0)
+        return LS_PLOT_SVG;
+    if (len > 4 && strcasecmp(path + len - 4, ".png") == 0)
+        return LS_PLOT_PNG;
+    return 0;
+}
+
+/* Draws with fn onto an SVG or PNG surface streamed into dest's temporary
+ * file; with dest NULL, into a destination opened here on path (see
+ * output.h: only a regular file, renamed into place when complete) and
+ * committed or discarded before returning.  A caller's dest is left for the
+ * caller to commit or discard.  Returns an ls_plot_status. */
+static int render(ls_dest *dest, const char *path, int w, int h, draw_fn fn, const void *desc,
+                  const axis *xa, const axis *ya, char *msg, size_t msgn)
+{
+    const char *name = dest ? dest->path : path;
+    int format = ls_plot_format(name);
+    if (!format)
         return fail(msg, msgn, LS_PLOT_EFORMAT, "'%s': a plot file must end in .svg or .png",
-                    path ? path : "");
-    char *tmp = malloc(len + 32);
-    if (!tmp)
-        return fail(msg, msgn, LS_PLOT_EIO, "out of memory");
-    /* O_EXCL with our pid and a retry count: no clash with other writers, and
-     * mode 0666 lets the umask decide the final permissions. */
-    int fd = -1;
-    for (int k = 0; k < 100 && fd < 0; k++) {
-        snprintf(tmp, len + 32, "%s.tmp%ld-%d", path, (long)getpid(), k);
-        fd = open(tmp, O_WRONLY | O_CREAT | O_EXCL, 0666);
-        if (fd < 0 && errno != EEXIST)
-            break;
+                    name ? name : "");
+    ls_dest own;
+    if (!dest) {
+        char why[600];
+        if (ls_dest_open(&own, "plot", path, why, sizeof why) != 0)
+            return fail(msg, msgn, LS_PLOT_EIO, "%s", why);
+        dest = &own;
     }
-    if (fd < 0) {
-        int rc = fail(msg, msgn, LS_PLOT_EIO, "cannot create '%s': %s", tmp, strerror(errno));
-        free(tmp);
-        return rc;
-    }
-    FILE *fp = fdopen(fd, "wb");
-    if (!fp) {
-        int rc = fail(msg, msgn, LS_PLOT_EIO, "cannot open '%s': %s", tmp, strerror(errno));
-        close(fd);
-        unlink(tmp);
-        free(tmp);
-        return rc;
-    }
+    FILE *fp = dest->f;
+    bool svg = format == LS_PLOT_SVG, png = format == LS_PLOT_PNG;
     cairo_surface_t *s = svg ? cairo_svg_surface_create_for_stream(write_cb, fp, w, h)
                              : cairo_image_surface_create(CAIRO_FORMAT_RGB24, w, h);
     if (svg && cairo_surface_status(s) == CAIRO_STATUS_SUCCESS)
@@ -359,17 +354,17 @@ static int render(const char *path, int w, int h, draw_fn fn, const void *desc,
         st = cairo_surface_status(s);
     cairo_surface_destroy(s);
     int rc = LS_PLOT_OK;
-    bool ioerr = ferror(fp) != 0;
-    if (fclose(fp) != 0 || ioerr)
-        rc = fail(msg, msgn, LS_PLOT_EIO, "cannot write '%s': %s", tmp, strerror(errno));
+    if (ferror(fp))
+        rc = fail(msg, msgn, LS_PLOT_EIO, "cannot write '%s': %s", name, strerror(errno));
     else if (st != CAIRO_STATUS_SUCCESS)
         rc = fail(msg, msgn, LS_PLOT_ECAIRO, "cairo: %s", cairo_status_to_string(st));
-    else if (rename(tmp, path) != 0)
-        rc = fail(msg, msgn, LS_PLOT_EIO, "cannot rename '%s' to '%s': %s", tmp, path,
-                  strerror(errno));
-    if (rc != LS_PLOT_OK)
-        unlink(tmp);
-    free(tmp);
+    if (dest == &own) {
+        char why[600];
+        if (rc != LS_PLOT_OK)
+            ls_dest_discard(&own);
+        else if (ls_dest_commit(&own, why, sizeof why) != 0)
+            rc = fail(msg, msgn, LS_PLOT_EIO, "%s", why);
+    }
     return rc;
 }
 
@@ -474,8 +469,9 @@ static void draw_line(cairo_t *cr, const void *desc, const axis *xa, const axis 
     }
 }
 
-/* See the header.  Validates everything before any file is created. */
-int ls_plot_line_write(const ls_plot_line *p, const char *path, char *msg, size_t msgn)
+/* Validates everything before any file is created, then draws into dest (or
+ * a file at path when dest is NULL). */
+static int line_write(const ls_plot_line *p, ls_dest *dest, const char *path, char *msg, size_t msgn)
 {
     if (!p || !p->series || p->nseries < 1 || p->nseries > LS_PLOT_MAX_SERIES)
         return fail(msg, msgn, LS_PLOT_EARG, "a line plot needs 1..%d series", LS_PLOT_MAX_SERIES);
@@ -509,7 +505,17 @@ int ls_plot_line_write(const ls_plot_line *p, const char *path, char *msg, size_
     if (!axis_make(&xa, x0, x1, p->logx, p->xunit, w / 110 > 2 ? w / 110 : 2) ||
         !axis_make(&ya, y0, y1, false, p->yunit, h / 70 > 2 ? h / 70 : 2))
         return fail(msg, msgn, LS_PLOT_EARG, "data range too wide to draw");
-    return render(path, w, h, draw_line, p, &xa, &ya, msg, msgn);
+    return render(dest, path, w, h, draw_line, p, &xa, &ya, msg, msgn);
+}
+
+int ls_plot_line_write(const ls_plot_line *p, const char *path, char *msg, size_t msgn)
+{
+    return line_write(p, NULL, path, msg, msgn);
+}
+
+int ls_plot_line_write_to(const ls_plot_line *p, ls_dest *dest, char *msg, size_t msgn)
+{
+    return dest ? line_write(p, dest, NULL, msg, msgn) : fail(msg, msgn, LS_PLOT_EARG, "no destination");
 }
 
 /* ---- histogram ------------------------------------------------------------- */
@@ -595,8 +601,9 @@ static void draw_hist(cairo_t *cr, const void *desc, const axis *xa, const axis 
     cairo_restore(cr);
 }
 
-/* See the header.  The bin counts are malloc'd here and freed before return. */
-int ls_plot_hist_write(const ls_plot_hist *p, const char *path, char *msg, size_t msgn)
+/* Validates, counts and draws into dest (or a file at path when dest is
+ * NULL).  The bin counts are malloc'd here and freed before return. */
+static int hist_write(const ls_plot_hist *p, ls_dest *dest, const char *path, char *msg, size_t msgn)
 {
     if (!p || (p->n && !p->values))
         return fail(msg, msgn, LS_PLOT_EARG, "a histogram needs values");
@@ -649,8 +656,18 @@ int ls_plot_hist_write(const ls_plot_hist *p, const char *path, char *msg, size_
             !axis_make(&ya, 0, top > (unsigned)yt ? top : (unsigned)yt, false, "", yt))
             rc = fail(msg, msgn, LS_PLOT_EARG, "data range too wide to draw");
         else
-            rc = render(path, w, h, draw_hist, &d, &xa, &ya, msg, msgn);
+            rc = render(dest, path, w, h, draw_hist, &d, &xa, &ya, msg, msgn);
     }
     free(d.count);
     return rc;
+}
+
+int ls_plot_hist_write(const ls_plot_hist *p, const char *path, char *msg, size_t msgn)
+{
+    return hist_write(p, NULL, path, msg, msgn);
+}
+
+int ls_plot_hist_write_to(const ls_plot_hist *p, ls_dest *dest, char *msg, size_t msgn)
+{
+    return dest ? hist_write(p, dest, NULL, msg, msgn) : fail(msg, msgn, LS_PLOT_EARG, "no destination");
 }

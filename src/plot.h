@@ -4,7 +4,8 @@
  * only read during the call) and names the output file; the extension picks
  * the format: ".svg" or ".png" (any case), anything else is an error.  The
  * picture is drawn into a temporary file in the same directory and renamed
- * over the target only when complete, so a failed call leaves no partial file.
+ * over the target only when complete, so a failed call leaves no partial file;
+ * only a regular file is ever written (output.h, docs/output.md).
  * Tick labels are "nice" 1-2-5 values in engineering notation with the axis
  * unit (ls_fmt_eng: "1.5 mV", "10 kΩ"), so axis labels carry no unit. */
 #ifndef LS_PLOT_H
@@ -12,6 +13,8 @@
 
 #include <stdbool.h>
 #include <stddef.h>
+
+#include "output.h"
 
 #define LS_PLOT_MAX_SERIES 8
 #define LS_PLOT_MAX_MARKS 16
@@ -68,6 +71,17 @@ typedef struct ls_plot_hist {
  * goes to msg (msgn bytes, may be NULL/0) and no file is left at path. */
 int ls_plot_line_write(const ls_plot_line *p, const char *path, char *msg, size_t msgn);
 int ls_plot_hist_write(const ls_plot_hist *p, const char *path, char *msg, size_t msgn);
+
+/* The same into a destination the caller opened (ls_dest_open on a .svg or
+ * .png path) and commits or discards: how a command writes its plot, checked
+ * before the work and committed with the report. */
+int ls_plot_line_write_to(const ls_plot_line *p, ls_dest *dest, char *msg, size_t msgn);
+int ls_plot_hist_write_to(const ls_plot_hist *p, ls_dest *dest, char *msg, size_t msgn);
+
+enum ls_plot_format { LS_PLOT_SVG = 1, LS_PLOT_PNG };
+
+/* The picture format a file name asks for (an ls_plot_format), 0 for none. */
+int ls_plot_format(const char *path);
 
 /* Ticks at k·step, step = 1, 2 or 5 × 10^e chosen so about `target` (≥ 1)
  * intervals cover [lo, hi]; the first tick is ≤ lo and the last ≥ hi.  lo > hi

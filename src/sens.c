@@ -657,8 +657,10 @@ int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
     ctx c = {.op = op, .np = nl->nparts};
     dual d;
     *items = NULL;
-    if (!alloc_dual(&c, &d))
+    if (!alloc_dual(&c, &d)) {
+        ls_error(nl->diags, LS_NOLOC, "out of memory in the sensitivity analysis (%d parts)", nl->nparts);
         return -1;
+    }
     if (!eval(&c, q, &d)) {
         ls_error(nl->diags, q->loc, "%s", c.error ? c.error : "the sensitivity analysis failed");
         free(d.g);
@@ -668,6 +670,8 @@ int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
     int k = 0;
     ls_sens_item *it = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *it);
     if (!it) {
+        ls_error(nl->diags, LS_NOLOC, "out of memory in the sensitivity analysis (%zu bytes for %d parts)",
+                 (size_t)(nl->nparts ? nl->nparts : 1) * sizeof *it, nl->nparts);
         free(d.g);
         return -1;
     }

@@ -136,8 +136,7 @@ static int probe(sweep *w)
         }
     }
     for (int k = 0; k < w->nq && code == LS_EXIT_OK; k++) {
-        ls_expr *ex = ls_parse_expr_string(&s.diags, "quantity", w->qtext[k], true);
-        const ls_q *q = ex ? ls_bind_quantity(&s.nl, ex) : NULL;
+        const ls_q *q = ls_session_quantity(&s, w->qtext[k]);
         if (q)
             w->qdims[k] = q->dims;
         else
@@ -216,8 +215,7 @@ static void solve_point(sweep *w, int i)
     int code = ls_session_load(s, &pc, w->cli->pos[0], NULL);
     const ls_q *q[MAX_QUANTITIES] = {NULL};
     for (int k = 0; k < w->nq && code == LS_EXIT_OK; k++) {
-        ls_expr *e = ls_parse_expr_string(&s->diags, "quantity", w->qtext[k], true);
-        q[k] = e ? ls_bind_quantity(&s->nl, e) : NULL;
+        q[k] = ls_session_quantity(s, w->qtext[k]);
         if (!q[k])
             code = LS_EXIT_USAGE;
     }
@@ -367,7 +365,7 @@ static int sweep_plot(const sweep *w)
                       .logx = w->cli->log, .series = ser, .nseries = (size_t)ns,
                       .bounds = same_unit ? w->marks : NULL, .nbounds = same_unit ? w->nmarks : 0};
     char msg[256] = "";
-    int st = ls_plot_line_write(&p, w->cli->plot, msg, sizeof msg);
+    int st = ls_plot_line_write_to(&p, &w->cli->plot_dest, msg, sizeof msg);
     free(cols);
     if (st != LS_PLOT_OK) {
         fprintf(stderr, "loadstack: error: cannot draw '%s': %s\n", w->cli->plot, msg);
@@ -450,25 +448,16 @@ int ls_cmd_sweep(ls_cli *cli)
     if (code == LS_EXIT_OK && cli->plot)
         code = sweep_plot(&w);
     if (code == LS_EXIT_OK) {
-        ls_session s;   /* only for the safe output file */
-        memset(&s, 0, sizeof s);
-        s.cli = cli;
-        s.input_path = cli->pos[0];
-        char *tmp;
-        FILE *o = ls_out_open(&s, &tmp);
-        if (o) {
-            ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits};
-            if (cli->fmt == FMT_JSON)
-                sweep_json(o, &w);
-            else if (cli->fmt == FMT_CSV)
-                sweep_csv(o, &w);
-            else
-                sweep_text(o, &rp, &w);
-            code = ls_out_close(&s, o, tmp, LS_EXIT_OK);
-        } else {
-            code = LS_EXIT_USAGE;
-        }
+        FILE *o = ls_out_open(cli);
+        ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits};
+        if (cli->fmt == FMT_JSON)
+            sweep_json(o, &w);
+        else if (cli->fmt == FMT_CSV)
+            sweep_csv(o, &w);
+        else
+            sweep_text(o, &rp, &w);
     }
+    code = ls_out_close(cli, code);
     free(w.x);
     free(w.y);
     free(w.solved);

@@ -253,7 +253,7 @@ static int tol_plot(const tol_ctx *t, const double *values)
         h.n = 1;
     }
     char msg[256] = "";
-    if (ls_plot_hist_write(&h, t->cli->plot, msg, sizeof msg) != LS_PLOT_OK) {
+    if (ls_plot_hist_write_to(&h, &t->cli->plot_dest, msg, sizeof msg) != LS_PLOT_OK) {
         fprintf(stderr, "loadstack: error: cannot draw '%s': %s\n", t->cli->plot, msg);
         return LS_EXIT_USAGE;
     }
@@ -294,8 +294,7 @@ int ls_cmd_tol(ls_cli *cli)
     ls_session s;
     t.s = &s;
     int code = ls_session_load(&s, cli, cli->pos[0], NULL);
-    ls_expr *e = code == LS_EXIT_OK ? ls_parse_expr_string(&s.diags, "quantity", cli->pos[1], true) : NULL;
-    t.q = e ? ls_bind_quantity(&s.nl, e) : NULL;
+    t.q = code == LS_EXIT_OK ? ls_session_quantity(&s, cli->pos[1]) : NULL;
     if (code == LS_EXIT_OK && !t.q)
         code = LS_EXIT_USAGE;
     if (code == LS_EXIT_OK)
@@ -335,20 +334,15 @@ int ls_cmd_tol(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    char *tmp;
-    FILE *o = ls_out_open(&s, &tmp);
-    if (o) {
-        ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
-        if (cli->fmt == FMT_JSON)
-            tol_json(o, &t);
-        else if (cli->fmt == FMT_CSV)
-            tol_csv(o, &t);
-        else
-            tol_text(o, &rp, &t);
-        code = ls_out_close(&s, o, tmp, LS_EXIT_OK);
-    } else {
-        code = LS_EXIT_USAGE;
-    }
+    FILE *o = ls_out_open(cli);
+    ls_report rp = {.out = o, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .diags = &s.diags};
+    if (cli->fmt == FMT_JSON)
+        tol_json(o, &t);
+    else if (cli->fmt == FMT_CSV)
+        tol_csv(o, &t);
+    else
+        tol_text(o, &rp, &t);
+    code = ls_out_close(cli, ls_session_verdict(&s, LS_EXIT_OK));
     ls_diags_print(&s.diags, stderr);
     ls_tol_free(&st);
     ls_session_free(&s);

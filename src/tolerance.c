@@ -145,7 +145,8 @@ static void *mc_run(void *arg)
     bool have_op = false;
     w->status = -1;
     if (nl.parts && nominal) {
-        memcpy(nl.parts, job->base->parts, (size_t)nl.nparts * sizeof *nl.parts);
+        if (nl.nparts > 0) /* a circuit with no parts has no part table (memcpy from NULL is undefined) */
+            memcpy(nl.parts, job->base->parts, (size_t)nl.nparts * sizeof *nl.parts);
         nruns = own_runs(nl.parts, nl.nparts, &runs);
         nominal_runs = malloc((size_t)(nruns > 0 ? nruns : 1) * sizeof *nominal_runs);
     }
@@ -158,7 +159,8 @@ static void *mc_run(void *arg)
             memcpy(nominal_runs, runs, (size_t)nruns * sizeof *runs);
             x0 = malloc((size_t)(op.mna.n ? op.mna.n : 1) * sizeof *x0);
             if (x0) {
-                memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
+                if (op.mna.n > 0)
+                    memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
                 w->status = 0;
             }
         }
@@ -166,7 +168,8 @@ static void *mc_run(void *arg)
     for (long i = w->first; w->status == 0 && i < w->last; i++) {
         memcpy(nl.parts, nominal, psize);
         memcpy(runs, nominal_runs, (size_t)nruns * sizeof *runs);
-        memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
+        if (op.mna.n > 0)
+            memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
         draw_trial(job, nl.parts, i);
         if (ls_op_resolve(&op) != LS_EXIT_OK) {
             job->value[i] = NAN;

@@ -114,7 +114,9 @@ case("title_not_quoted", 2, "a title without quotes",
 case("statement_starts_with_number", 2, "a line that starts with a number",
  "ground gnd\n⟦42 resistor r a -> b 1k\n")
 case("too_many_options", 2, "65 options on one statement",
- "ground gnd\nuse stage s1 " + " ".join("o%d=1" % i for i in range(64)) + " ⟦o64=1\n")
+ "ground gnd\nresistor r1 a -> gnd 1k " + " ".join("o%d=1" % i for i in range(64)) + " ⟦o64=1\n")
+case("too_many_use_options", 2, "321 options on one use (a block's 256 pins and 64 params are the most)",
+ "ground gnd\nuse stage s1 " + " ".join("o%d=1" % i for i in range(320)) + " ⟦o320=1\n")
 case("too_many_pins", 2, "a block with 257 pins",
  "ground gnd\nblock wide " + " ".join("p%d" % i for i in range(256)) + " ⟦p256\nend\n")
 case("include_self", 2, "a file that includes itself",

@@ -195,6 +195,69 @@ case("chain: --ideal", "product of the stages: divider * (1 + rf/rg) * divider",
      vs * r2 / (r1 + r2) * (1 + rf / rg) * r4 / (r3 + r4), args=["--ideal"],
      shows="vs * r2 / (r1 + r2) * (1 + rf / rg) * r4 / (r3 + r4)")
 
+# Held ports: a port whose load side has no DC path of its own once opened (an
+# input that only a controlled source senses) is opened with its load end held
+# at its loaded voltage (docs/loading.md).  A divider whose midpoint also gets
+# a share of its own voltage back through a vcvs that senses the load end:
+# loaded, nodal analysis at mid gives v = (vs/r_t) / (1/r_t + 1/r_b + (1 - e1)/r_fb);
+# held, the vcvs still sees v, so the open voltage is v itself (the load side
+# draws no current) and the sag is 0; with the sources zeroed (the hold
+# included) the vcvs output is 0 V and zout is r_t || r_b || r_fb.  Opening the
+# port with the load end grounded instead would give (vs/r_t)/(1/r_t + 1/r_b + 1/r_fb).
+HELD_FEEDBACK = """
+ground gnd
+voltage  vs   gnd -> top 5 V
+resistor r_t  top -> mid 10k
+resistor r_b  mid -> gnd 4k7
+port     p_h  mid -> sense
+vcvs     e1   gnd -> back gain=0.5 cplus=sense cminus=gnd
+resistor r_fb back -> mid 22k
+"""
+r_fb, e1 = S("r_fb e1")
+held_v = (vs / r_t) / (1 / r_t + 1 / r_b + (1 - e1) / r_fb)
+case("held port: open is the loaded voltage", "nodal analysis at the midpoint with the fed-back share",
+     HELD_FEEDBACK, "p_h.open", held_v)
+case("held port: loaded", "nodal analysis at the midpoint with the fed-back share", HELD_FEEDBACK, "p_h.loaded",
+     held_v)
+case("held port: sag", "open minus loaded: the held load side draws no current", HELD_FEEDBACK, "p_h.sag",
+     sp.Integer(0))
+case("held port: zout", "three resistances to ground in parallel (the held end and vs zeroed)",
+     HELD_FEEDBACK, "p_h.zout", par(par(r_t, r_b), r_fb))
+
+# A follower's input is a held load side too: the unloaded divider rule for
+# open and loaded alike, r_t || r_b for zout.
+HELD_FOLLOWER = """
+ground gnd
+voltage  vs  gnd -> top 5 V
+resistor r_t top -> mid 10k
+resistor r_b mid -> gnd 4k7
+port     p_f mid -> buf_in
+opamp    u1  plus=buf_in minus=buf_out out=buf_out
+resistor r_l buf_out -> gnd 1k
+"""
+case("held follower input: open", "voltage divider rule, no load current", HELD_FOLLOWER, "p_f.open",
+     vs * r_b / (r_t + r_b))
+case("held follower input: zout", "Thevenin resistance of a divider: r_t || r_b", HELD_FOLLOWER, "p_f.zout",
+     par(r_t, r_b))
+
+# and the zin of a held port has no finite formula (exit 2, the reason given)
+UNBOUNDED = [(HELD_FEEDBACK, "p_h.zin"), (HELD_FEEDBACK, "p_h.ratio"), (HELD_FOLLOWER, "p_f.zin")]
+
+
+def unbounded(prog, d):
+    bad = 0
+    for circuit, quantity in UNBOUNDED:
+        path = os.path.join(d, "held.stack")
+        with open(path, "w") as f:
+            f.write(circuit)
+        p = subprocess.run([prog, "formula", path, quantity], capture_output=True, text=True, timeout=60)
+        ok = p.returncode == 2 and "no finite formula" in p.stderr and "held at its loaded voltage" in p.stderr
+        print("%s: held port: %s has no finite formula" % ("ok" if ok else "FAIL", quantity))
+        if not ok:
+            print("    exit %d: %s" % (p.returncode, p.stderr.strip()))
+            bad += 1
+    return bad
+
 
 def run(prog, c, d):
     path = os.path.join(d, "case.stack")
@@ -238,7 +301,9 @@ def main():
             if err:
                 print("   ", err)
                 bad += 1
+        bad_unbounded = unbounded(prog, d)
     print("%d of %d closed forms agree" % (len(CASES) - bad, len(CASES)))
+    bad += bad_unbounded
     return 1 if bad else 0
 
 

@@ -33,6 +33,10 @@ def self_checks(prog, root):
         if p.returncode not in (0, 1):
             continue
         report = json.loads(p.stdout)
+        # port fields of the opened system come from a low-rank update: held
+        # to the larger of 1e-9 and 16 times the base solve's 4 eps / rcond
+        rcond = report.get("solver", {}).get("rcond") or 0
+        port_bound = max(1e-9, 16 * 4 * 2.220446049250313e-16 / rcond) if rcond > 0 else 1e-9
         nodes = list(report["nodes"])[1:]
         for port in report.get("ports", {}):
             nodes += ["%s.%s" % (port, f) for f in ("open", "loaded", "sag", "zout", "zin", "current")]
@@ -49,11 +53,11 @@ def self_checks(prog, root):
                 continue
             out = json.loads(p.stdout)
             v, s = out["value"], out["solve"]
-            if not (out["difference"] <= out["bound"] <= (1e-9 if "." in node else 1e-12)):
+            if not (out["difference"] <= out["bound"] <= (port_bound * (1 + 1e-12) if "." in node else 1e-12)):
                 print("FAIL self-check: %s %s: %r against %r" % (f, node, v, s))
                 bad += 1
     print("self-check: %d formulas of example circuits (nodes, and port fields) agree with the solver "
-          "to 1e-12 (port fields 1e-9)" % (checked - bad))
+          "to 1e-12 (port fields 1e-9, or 16 times the solve's 4 eps / rcond)" % (checked - bad))
     return bad
 
 
