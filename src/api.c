@@ -16,6 +16,9 @@
 #include "report.h"
 #include "sag.h"
 #include "sens.h"
+#include "sweep.h"
+#include "thevenin.h"
+#include "tolerance.h"
 
 #ifndef LS_VERSION
 #define LS_VERSION "0.0.0"
@@ -34,6 +37,13 @@ struct ls_circuit {
     bool solved;               /* op holds a valid operating point */
     int *ports;                /* part index of each port, nports of them */
     int nports;
+    /* what it was read from, kept for sweeps (which parse it again per point) */
+    const char *source_name;
+    const char *source;        /* source_len bytes, in the arena; NULL when unread */
+    size_t source_len;
+    const char **sets;         /* the settings it was read with, nsets of them, in the arena */
+    int nsets;
+    ls_solve_options solve_opt;   /* of the last ls_circuit_solve */
     const char **rule_text;    /* per port (nports): the last ratio-rule text handed out, in the arena */
 };
 
@@ -141,6 +151,27 @@ static ls_circuit *circuit_new(void)
     return c;
 }
 
+/* Keep the circuit's text, name and settings in its arena (for sweeps).
+ * Returns 0, or -1 when out of memory. */
+static int keep_source(ls_circuit *c, const char *name, const char *text, size_t len, const char *const *sets,
+                       int nsets)
+{
+    c->source_name = ls_arena_strdup(&c->arena, name);
+    char *t = ls_arena_alloc_bytes(&c->arena, len + 1);
+    c->sets = ls_arena_alloc(&c->arena, (size_t)(nsets > 0 ? nsets : 1) * sizeof *c->sets);
+    if (!c->source_name || !t || !c->sets)
+        return -1;
+    memcpy(t, text, len);
+    t[len] = 0;
+    c->source = t;
+    c->source_len = len;
+    for (int i = 0; i < nsets; i++)
+        if (!(c->sets[i] = ls_arena_strdup(&c->arena, sets[i] ? sets[i] : "")))
+            return -1;
+    c->nsets = nsets;
+    return 0;
+}
+
 /* Both parse entry points: check the arguments, read the file `name` (when
  * text is NULL) or take text, parse, elaborate, hand the circuit out. */
 static ls_status parse_any(const char *name, const char *text, size_t len, const char *const *sets, int nsets,
@@ -164,9 +195,13 @@ static ls_status parse_any(const char *name, const char *text, size_t len, const
             return c->arena.failed ? LS_E_NOMEM : LS_E_IO;
         }
         st = ls_parse_string(&c->diags, name, body, n, &c->prog) ? LS_E_CIRCUIT : LS_OK;
+        if (keep_source(c, name, body, n, sets, nsets) != 0)
+            st = LS_E_NOMEM;
         free(body);
     } else {
         st = ls_parse_string(&c->diags, name, text, len, &c->prog) ? LS_E_CIRCUIT : LS_OK;
+        if (keep_source(c, name, text, len, sets, nsets) != 0)
+            st = LS_E_NOMEM;
     }
     if (c->arena.failed)
         st = LS_E_NOMEM;
@@ -262,6 +297,7 @@ ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
         o.min_ratio = opt->min_ratio > 0 ? opt->min_ratio : 0;
         o.derate = opt->derate > 0 ? opt->derate : 1;
     }
+    c->solve_opt = opt ? *opt : (ls_solve_options){0};
     if (c->have_op)
         ls_op_free(&c->op);
     c->solved = false;
@@ -695,9 +731,35 @@ ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info 
         if (sst != LS_SOLVER_OK)
             return sst == LS_SOLVER_NOMEM ? LS_E_NOMEM : LS_E_UNSOLVABLE;
     }
+    /* the short-circuit current as the program finds it: exact where a part is nonlinear */
+    ls_th_side side = {.node = k, .vth = vth, .rth = rth};
+    ls_thevenin_norton(&c->op, &side, -1);
+    if (c->arena.failed)
+        return LS_E_NOMEM;
     out->vth = vth;
     out->rth = rth;
-    out->norton = rth == 0 ? (vth == 0 ? NAN : copysign(INFINITY, vth)) : vth / rth;
+    out->norton = side.norton;
+    return LS_OK;
+}
+
+ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_side *driver, ls_thevenin_side *load)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!port || !driver || !load)
+        return LS_E_ARGUMENT;
+    int i = ls_netlist_find_part(&c->nl, port);
+    if (i < 0 || !c->nl.parts[i].kind->is_port)
+        return LS_E_NOT_FOUND;
+    ls_th_side d, l;
+    ls_thevenin_sides(&c->op, -1, i, NAN, NAN, &d, &l);
+    const char *oom = "out of memory";
+    if (c->arena.failed || (d.why_vth && !strcmp(d.why_vth, oom)) || (l.why_vth && !strcmp(l.why_vth, oom)))
+        return LS_E_NOMEM;
+    *driver = (ls_thevenin_side){c->nl.nodes[d.node].name, d.vth, d.rth, d.norton,
+                                 d.why_vth ? d.why_vth : d.why_norton};
+    *load = (ls_thevenin_side){c->nl.nodes[l.node].name, l.vth, l.rth, NAN, l.why_vth};
     return LS_OK;
 }
 
@@ -774,4 +836,139 @@ ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value)
         return c->arena.failed ? LS_E_NOMEM : LS_E_UNSOLVABLE;
     c->solved = true;
     return ok_status(c, w0);
+}
+
+/* ---- tolerance ------------------------------------------------------------------------------ */
+
+ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_options *opt, ls_tol_info *out,
+                         double **values)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!quantity || !out)
+        return LS_E_ARGUMENT;
+    ls_tol_options o = opt ? *opt : (ls_tol_options){0};
+    if (o.trials <= 0)
+        o.trials = 10000;
+    if (o.trials > LS_TOL_MAX_TRIALS || (o.law != LS_TOL_UNIFORM && o.law != LS_TOL_NORMAL))
+        return LS_E_ARGUMENT;
+    scratch sc = scratch_begin(c);   /* the quantity's binding is scratch for this call */
+    ls_q *q = bind_quantity(c, quantity);
+    if (!q)
+        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+    int w0 = c->diags.warnings;
+    ls_tol_study t = {.nl = &c->nl, .op = &c->op, .arena = &c->arena, .diags = &c->diags, .q = q,
+                      .trials = o.trials, .seed = (uint64_t)o.seed, .normal = o.law == LS_TOL_NORMAL,
+                      .threads = o.threads};
+    int code = ls_tol_run(&t);
+    if (code == LS_EXIT_UNSOLVABLE)
+        c->solved = false;   /* the nominal circuit no longer solves: results would be stale */
+    if (code != 0 || c->arena.failed) {
+        ls_tol_free(&t);
+        return code == LS_EXIT_UNSOLVABLE ? LS_E_UNSOLVABLE : LS_E_NOMEM;
+    }
+    const ls_tol_result *r = &t.r;
+    *out = (ls_tol_info){.nominal = r->nominal, .wc_min = r->wc_min, .wc_max = r->wc_max, .corners = r->corners,
+                         .rss = r->corners ? NAN : r->rss, .varying = t.nv, .trials = t.trials,
+                         .finite = r->finite, .mean = r->mean, .std = r->std, .min = r->min, .max = r->max,
+                         .yield = r->yield};
+    memcpy(out->pct, r->pct, sizeof out->pct);
+    if (values) {
+        *values = t.values;
+        t.values = NULL;
+    }
+    ls_tol_free(&t);
+    ls_status done = ok_status(c, w0);
+    scratch_end(c, &sc);
+    return done;
+}
+
+/* ---- sweeps --------------------------------------------------------------------------------- */
+
+#define SWEEP_MAX_STEPS 100000
+#define SWEEP_MAX_QUANTITIES 64
+
+/* Point i of a sweep: parse the kept text again with the kept settings (any
+ * setting of `let` dropped) and let=x, solve, evaluate the quantities into
+ * row[0..nq-1] (NaN where undefined).  Returns LS_OK, LS_E_CIRCUIT (the
+ * quantities or the setting are not valid; their diagnostics go to c when
+ * report is set), LS_E_UNSOLVABLE or LS_E_NOMEM. */
+static ls_status sweep_point(ls_circuit *c, const char *let, double x, const char *const *quantities, int nq,
+                             double *row, bool report)
+{
+    for (int k = 0; k < nq; k++)
+        row[k] = NAN;
+    const char **sets = malloc((size_t)(c->nsets + 1) * sizeof *sets);
+    if (!sets)
+        return LS_E_NOMEM;
+    size_t ll = strlen(let);
+    int n = 0;
+    for (int i = 0; i < c->nsets; i++)
+        if (!(strncmp(c->sets[i], let, ll) == 0 && c->sets[i][ll] == '='))
+            sets[n++] = c->sets[i];
+    char setting[512];
+    snprintf(setting, sizeof setting, "%s=%.17g", let, x);
+    sets[n++] = setting;
+    ls_circuit *p = NULL;
+    ls_status st = ls_circuit_parse_string(c->source_name, c->source, c->source_len, sets, n, &p);
+    free(sets);
+    if (st >= 0)
+        st = ls_circuit_solve(p, &c->solve_opt);
+    for (int k = 0; st >= 0 && k < nq; k++) {
+        ls_status e = ls_circuit_eval(p, quantities[k], &row[k]);
+        if (e < 0)
+            st = e;
+    }
+    if (st == LS_E_CIRCUIT && report && p) {
+        /* the first point's errors are the caller's to read */
+        for (int i = 0; i < p->diags.n; i++)
+            if (p->diags.items[i].sev == LS_SEV_ERROR)
+                ls_error(&c->diags, LS_NOLOC, "sweep of %s at %.6g: %s", let, x, p->diags.items[i].msg);
+    }
+    ls_circuit_free(&p);
+    return st < 0 ? st : LS_OK;
+}
+
+ls_status ls_circuit_sweep(ls_circuit *c, const char *let, double from, double to, int steps, int log_scale,
+                           const char *const *quantities, int nq, double **x, double **y, int *solved)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!let || !*let || strchr(let, '=') || !quantities || nq < 1 || nq > SWEEP_MAX_QUANTITIES || !x || !y ||
+        steps < 2 || steps > SWEEP_MAX_STEPS || !isfinite(from) || !isfinite(to) ||
+        (log_scale && !(from > 0 && to > 0)) || !c->source)
+        return LS_E_ARGUMENT;
+    for (int k = 0; k < nq; k++)
+        if (!quantities[k])
+            return LS_E_ARGUMENT;
+    double *xs = malloc((size_t)steps * sizeof *xs);
+    double *ys = malloc((size_t)steps * (size_t)nq * sizeof *ys);
+    if (!xs || !ys) {
+        free(xs);
+        free(ys);
+        return LS_E_NOMEM;
+    }
+    ls_sweep_points(from, to, steps, log_scale != 0, xs);
+    int nsolved = 0;
+    st = LS_OK;
+    for (int i = 0; i < steps; i++) {
+        ls_status p = sweep_point(c, let, xs[i], quantities, nq, ys + (size_t)i * (size_t)nq, i == 0);
+        if (p == LS_E_NOMEM || (i == 0 && p == LS_E_CIRCUIT)) {
+            st = p;
+            break;
+        }
+        nsolved += p == LS_OK;
+    }
+    if (st != LS_OK || c->arena.failed) {
+        free(xs);
+        free(ys);
+        return c->arena.failed ? LS_E_NOMEM : st;
+    }
+    *x = xs;
+    *y = ys;
+    if (solved)
+        *solved = nsolved;
+    return LS_OK;
 }

@@ -108,10 +108,7 @@ int ls_cmd_demo(ls_cli *cli);
 int ls_cmd_sag(ls_cli *cli);
 int ls_cmd_thevenin(ls_cli *cli);
 int ls_cmd_influence(ls_cli *cli);
-/* Do two bound quantities have the same structure (same nodes, properties,
- * operators and constants)?  An expect is "on" QUANTITY when its left side is
- * the same as QUANTITY's.  (tol_cmd.c) */
-bool ls_q_same(const ls_q *a, const ls_q *b);
+/* ls_q_same (whether an expect is "on" a quantity) is in tolerance.h. */
 
 int ls_cmd_tol(ls_cli *cli);     /* tol_cmd.c */
 int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */

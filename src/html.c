@@ -6,6 +6,7 @@
 
 #include "fmt.h"
 #include "html.h"
+#include "tolerance.h"
 #include "newton.h"
 #include "parts.h"
 #include "plot.h"

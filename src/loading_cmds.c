@@ -13,6 +13,7 @@
 #include "newton.h"
 #include "sag.h"
 #include "sens.h"
+#include "thevenin.h"
 #include "variant.h"
 
 /* "did you mean" for a name that is neither a node nor (where allowed) a port. */
@@ -137,117 +138,8 @@ static bool ohms_option(const char *opt, const char *text, double *v)
     return true;
 }
 
-/* One side's equivalent, and what a load or a meter does to it. */
-typedef struct th_side {
-    int node;                /* seen at this node against ground */
-    double vth, rth, norton; /* V, ohm, A; NaN undefined, inf unbounded */
-    const char *why_vth, *why_norton;   /* overriding reasons ("unsolved"), or NULL */
-    double load_v, load_i, meter_v;     /* with --load / --meter */
-    char load_limited[256], meter_limited[256], norton_limited[256];
-} th_side;
-
-/* NODE's voltage with a resistance r (ohm) from it to ground, solved with
- * every limit active; `opened` part (a port, or -1) disconnected.  The limits
- * in force then go into limited.  NaN when that circuit cannot be solved. */
-static double loaded_exact(ls_op *op, int node, int opened, double r, char *limited, size_t n)
-{
-    ls_runs base = {0};
-    ls_variant v;
-    double out = NAN;
-    snprintf(limited, n, "unsolved");
-    if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
-        ls_runs_free(&base);
-        return NAN;
-    }
-    if (opened >= 0)
-        v.opened[opened] = LS_OPENED;
-    v.ties[node] = (ls_tie){1 / r, 0};
-    if (ls_variant_hold_floating(&v, op) >= 0 && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
-        out = v.op.v[node];
-        ls_limits_in_force(op->nl, &base, limited, n);
-    }
-    ls_runs_restore(op->nl, &base);
-    ls_runs_free(&base);
-    ls_variant_free(&v);
-    return out;
-}
-
-/* A load of r ohm on side t: linear circuits by the equivalent's closed form,
- * anything with a limit or a junction by an exact solve. */
-static double side_loaded(ls_op *op, const th_side *t, int opened, double r, char *limited, size_t n)
-{
-    if (!ls_newton_needed(op->nl)) {
-        snprintf(limited, n, "none");
-        return isinf(t->rth) ? 0 : t->vth * r / (r + t->rth);
-    }
-    return loaded_exact(op, t->node, opened, r, limited, n);
-}
-
-/* The short-circuit current of side t: vth / rth in a linear circuit; with
- * limits or junctions, solved exactly into a conductance a thousand million
- * times the circuit's own (or rth's): an output limit caps the current, and
- * only a side that no limit caps has an unbounded one when rth is 0. */
-static void side_norton(ls_op *op, th_side *t, int opened)
-{
-    snprintf(t->norton_limited, sizeof t->norton_limited, "none");
-    bool exact = ls_newton_needed(op->nl) && isfinite(t->vth) && !isnan(t->rth) && !isinf(t->rth);
-    if (exact) {
-        double r = 1e-9 * (t->rth > 0 ? t->rth : 1 / op->g_pin);
-        double v = loaded_exact(op, t->node, opened, r, t->norton_limited, sizeof t->norton_limited);
-        if (isnan(v)) {
-            t->norton = NAN;
-            t->why_norton = "unsolved";
-            return;
-        }
-        if (t->rth > 0 || strcmp(t->norton_limited, "none") != 0) {
-            t->norton = v / r;
-            return;
-        }
-    }
-    if (t->rth == 0 || isnan(t->rth) || !isfinite(t->vth))
-        t->norton = t->rth == 0 && t->vth != 0 && !isnan(t->vth) ? copysign(INFINITY, t->vth) : NAN;
-    else
-        t->norton = isinf(t->rth) ? 0 : t->vth / t->rth;
-}
-
-/* --load and --meter on side t. */
-static void side_loads(ls_op *op, th_side *t, int opened, double rload, double rmeter)
-{
-    if (!isnan(rload)) {
-        t->load_v = side_loaded(op, t, opened, rload, t->load_limited, sizeof t->load_limited);
-        t->load_i = t->load_v / rload;
-    }
-    if (!isnan(rmeter))
-        t->meter_v = side_loaded(op, t, opened, rmeter, t->meter_limited, sizeof t->meter_limited);
-}
-
-/* The node's own voltage with port pi opened, solved exactly; NaN when the
- * node is then left without a DC path (nothing sets it) or unsolvable. */
-static double opened_voltage(ls_op *op, int pi, int node, bool *unsolved)
-{
-    ls_runs base = {0};
-    ls_variant v;
-    double out = NAN;
-    *unsolved = false;
-    if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
-        ls_runs_free(&base);
-        return NAN;
-    }
-    v.opened[pi] = LS_OPENED;
-    if (ls_variant_hold_floating(&v, op) >= 0 && !v.floating[node]) {
-        if (ls_variant_solve(&v, op, false) == LS_EXIT_OK)
-            out = v.op.v[node];
-        else
-            *unsolved = true;
-    }
-    ls_runs_restore(op->nl, &base);
-    ls_runs_free(&base);
-    ls_variant_free(&v);
-    return out;
-}
-
 /* The members of one side's equivalent in the open JSON object. */
-static void side_json(ls_jw *w, const ls_netlist *nl, const th_side *t, const ls_cli *cli, double rload, double rmeter,
+static void side_json(ls_jw *w, const ls_netlist *nl, const ls_th_side *t, const ls_cli *cli, double rload, double rmeter,
                       bool norton)
 {
     ls_jw_str(w, "node", nl->nodes[t->node].name);
@@ -275,7 +167,7 @@ static void side_json(ls_jw *w, const ls_netlist *nl, const th_side *t, const ls
 }
 
 /* Text of one side's equivalent, indented by ind spaces. */
-static void side_text(ls_report *rp, const th_side *t, const ls_cli *cli, double rload, double rmeter, bool norton,
+static void side_text(ls_report *rp, const ls_th_side *t, const ls_cli *cli, double rload, double rmeter, bool norton,
                       int ind, const char *rth_label)
 {
     FILE *o = rp->out;
@@ -310,7 +202,7 @@ static void side_text(ls_report *rp, const th_side *t, const ls_cli *cli, double
 }
 
 /* CSV rows of one side, field names prefixed. */
-static void side_csv(FILE *o, const char *prefix, const th_side *t, const ls_cli *cli, double rload, double rmeter,
+static void side_csv(FILE *o, const char *prefix, const ls_th_side *t, const ls_cli *cli, double rload, double rmeter,
                      bool norton)
 {
 #define ROW(name, v) fprintf(o, "%s%s,%s\n", prefix, name, LS_CSV(v))
@@ -351,32 +243,8 @@ int ls_cmd_thevenin(ls_cli *cli)
         return code;
     }
     ls_op *op = &s.op;
-    th_side drv = {0}, ld = {0};
-    if (port < 0) {
-        drv.node = node;
-        drv.vth = op->v[node];
-        drv.rth = ls_op_zdrive(op, node);
-        side_norton(op, &drv, -1);
-        side_loads(op, &drv, -1, rload, rmeter);
-    } else {
-        const ls_part *p = &s.nl.parts[port];
-        const ls_port_result *pr = ls_op_port(op, port);
-        bool unsolved;
-        drv.node = p->pin[0];
-        drv.rth = pr->zout;
-        drv.vth = opened_voltage(op, port, drv.node, &unsolved);
-        if (isnan(drv.vth) && !unsolved)
-            drv.vth = pr->open;   /* a driver that floats once opened: the report's unbounded/undefined */
-        if (unsolved)
-            drv.why_vth = "unsolved";
-        side_norton(op, &drv, port);
-        side_loads(op, &drv, port, rload, rmeter);
-        ld.node = p->pin[1];
-        ld.rth = pr->zin;
-        ld.vth = opened_voltage(op, port, ld.node, &unsolved);
-        if (unsolved)
-            ld.why_vth = "unsolved";
-    }
+    ls_th_side drv, ld;
+    ls_thevenin_sides(op, node, port, rload, rmeter, &drv, &ld);
     FILE *o = ls_out_open(cli);
     ls_report rp = ls_report_for(&s, o);
     char b1[64];

@@ -11,6 +11,8 @@
 #include <string.h>
 
 #include "cli.h"
+#include "sweep.h"
+#include "tolerance.h"
 #include "elab.h"
 #include "fmt.h"
 #include "parser.h"
@@ -40,17 +42,6 @@ typedef struct sweep {
     /* the last point solved, kept so the next continues from its solution */
     ls_session *base;
 } sweep;
-
-/* The param values: evenly spaced, or evenly in log with --log. */
-static void sweep_points(double from, double to, int n, bool log_scale, double *x)
-{
-    for (int i = 0; i < n; i++) {
-        double f = (double)i / (double)(n - 1);
-        x[i] = log_scale ? from * pow(to / from, f) : from + (to - from) * f;
-    }
-    x[0] = from;
-    x[n - 1] = to;
-}
 
 /* A copy of cli whose --set list drops PARAM and ends with PARAM=value
  * (text kept in buf).  Returns false when there is no room. */
@@ -449,7 +440,7 @@ int ls_cmd_sweep(ls_cli *cli)
     if (code != LS_EXIT_OK)
         fprintf(stderr, "loadstack: error: out of memory for %d sweep points\n", w.steps);
     if (code == LS_EXIT_OK)
-        sweep_points(from, to, w.steps, cli->log, w.x);
+        ls_sweep_points(from, to, w.steps, cli->log, w.x);
     if (code == LS_EXIT_OK)
         code = probe(&w);
     ls_progress pg;

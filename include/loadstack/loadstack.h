@@ -3,7 +3,8 @@
  * Read a circuit written in the loadstack language (loadstack-language(5)),
  * solve its DC operating point, and read node
  * voltages, part results and the loading report of every port; run the sag,
- * Thevenin and sensitivity analyses and the circuit's own checks.
+ * Thevenin, influence, tolerance and sweep analyses and the circuit's own
+ * checks.
  *
  * Lifecycle
  *   ls_circuit *c = NULL;
@@ -26,8 +27,12 @@
  *     value with no finite answer is NaN when undefined (0/0) and +-INFINITY
  *     when unbounded (no DC path, an ideal input).
  *   - Handles share no state of the library's own: many circuits may be
- *     built and solved side by side.  One handle must not be used by two
- *     threads at once.
+ *     built and solved side by side, also on different threads at once
+ *     (tests/api/test_api_threads.c runs two, also under ThreadSanitizer).  One
+ *     handle must not be used by two threads at once.
+ *   - Unbounded versus undefined: +-INFINITY is a value with no bound (an
+ *     ideal input's impedance, a node nothing ties to ground); NaN is a value
+ *     with no definition (0/0, a solve that failed, a share of no sag).
  *   - Threads: a factorization or solve picks its own BLAS and OpenMP thread
  *     counts (one thread for small systems, where worker threads only spin)
  *     and puts the caller's back before it returns: OpenBLAS's thread count
@@ -329,10 +334,31 @@ ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sa
 typedef struct ls_thevenin_info {
     double vth;               /* V, open-circuit voltage */
     double rth;               /* ohm; +inf when nothing ties the node to ground */
-    double norton;            /* A, short-circuit current node -> ground (vth / rth) */
+    double norton;            /* A, short-circuit current node -> ground (see ls_circuit_thevenin) */
 } ls_thevenin_info;
 
+/* The equivalent at `node` (`loadstack thevenin FILE NODE`): vth and rth from
+ * the solved system (rth small-signal at the operating point); norton is
+ * vth / rth in a linear circuit, and where a part is nonlinear the current
+ * into a near-short solved with every limit active (so an output limit caps
+ * it).  Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED, LS_E_UNSOLVABLE or
+ * LS_E_NOMEM. */
 ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info *out);
+
+/* One side of a port opened, seen against ground. */
+typedef struct ls_thevenin_side {
+    const char *node;         /* the DRIVER or LOAD node */
+    double vth;               /* V at the node with the port opened (solved exactly) */
+    double rth;               /* ohm: the port's zout (driver side) or zin (load side) */
+    double norton;            /* A, short-circuit current (driver side); NaN on the load side */
+    const char *why;          /* "unsolved" when a re-solve failed (its field NaN), else NULL; vth is also
+                                 NaN, with why NULL, when nothing sets the node once the port is open */
+} ls_thevenin_side;
+
+/* The equivalent of each side of `port` opened (`loadstack thevenin FILE
+ * PORT`).  Returns LS_OK, LS_E_NOT_FOUND (no port of that name),
+ * LS_E_NOT_SOLVED or LS_E_NOMEM. */
+ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_side *driver, ls_thevenin_side *load);
 
 /* How much one part's main value moves a quantity (adjoint method). */
 typedef struct ls_influence_entry {
@@ -375,10 +401,69 @@ ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *sy
  * not allowed, e.g. a resistance <= 0). */
 ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value);
 
-/* Sweeps and tolerance studies: the program's `sweep` and `tol` commands have
- * no library form yet.  A caller sweeps a part's value with
- * ls_circuit_set_value (one refactorization per point, the structure kept),
- * and a let by parsing again with a "NAME=VALUE" setting per point. */
+/* ---- tolerance ------------------------------------------------------------------------------ */
+
+typedef enum ls_tol_law {
+    LS_TOL_UNIFORM = 0,       /* each part uniform within +-tol */
+    LS_TOL_NORMAL             /* each part normal with tol = 3 sigma */
+} ls_tol_law;
+
+typedef struct ls_tol_options {
+    long trials;              /* Monte Carlo trials, 1 .. 10 000 000; <= 0 means 10 000 (as the program) */
+    unsigned long long seed;  /* the same seed gives the same numbers as `loadstack tol --seed` */
+    ls_tol_law law;
+    int threads;              /* <= 0: LOADSTACK_THREADS, else the online processors (at most 16);
+                                 the numbers do not depend on it */
+} ls_tol_options;
+
+/* The tolerance study of one quantity (`loadstack tol`).  Every part with a
+ * main value and tol > 0 varies. */
+typedef struct ls_tol_info {
+    double nominal;           /* the quantity at the nominal values */
+    double wc_min, wc_max;    /* worst case; NaN when some corner did not solve */
+    int corners;              /* 1: every corner was solved; 0: linear from the sensitivities */
+    double rss;               /* with corners == 0: root-sum-square half-width; else NaN */
+    int varying;              /* how many parts vary */
+    long trials;              /* Monte Carlo trials run; 0 when nothing varies (the statistics are then the
+                                 nominal value and the yield whether the nominal design meets the expects) */
+    long finite;              /* trials that solved with a finite value */
+    double mean, std, min, max;   /* of the finite trials (std with n - 1); NaN when none */
+    double pct[5];            /* percentiles 0.1, 1, 50, 99, 99.9 (linear between order statistics) */
+    double yield;             /* fraction of trials meeting every expect on the quantity; NaN when it has none */
+} ls_tol_info;
+
+/* Run the tolerance study of `quantity` (as in ls_circuit_eval).
+ *   opt    in: options, or NULL for the defaults (10 000 trials, seed 0, uniform).
+ *   out    out: the summary.
+ *   values out (may be NULL): the quantity in each trial, out->trials of them
+ *          (NaN where a trial did not solve); the caller frees it with ls_free.
+ * The parts are back at their values and the circuit solved on return.
+ * Returns LS_OK, LS_WARNINGS (nothing varies, unsolved corners or trials: see
+ * the diagnostics), LS_E_CIRCUIT (bad quantity), LS_E_ARGUMENT (trials out of
+ * range), LS_E_NOT_SOLVED, LS_E_UNSOLVABLE or LS_E_NOMEM. */
+ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_options *opt, ls_tol_info *out,
+                         double **values);
+/* (values is NULL when no trial was run.) */
+
+/* ---- sweeps --------------------------------------------------------------------------------- */
+
+/* Sweep the top-level let `let` (`loadstack sweep`): the circuit is parsed
+ * again from the text it was read from, with the settings it was read with and
+ * NAME=VALUE for each point, solved with the options of its last
+ * ls_circuit_solve, and every quantity evaluated.
+ *   steps  in: points from `from` to `to`, both included, 2 .. 100 000.
+ *   log_scale in: nonzero spaces the points evenly on a log scale (from, to > 0).
+ *   quantities in: nq quantity texts (as in ls_circuit_eval), 1 .. 64.
+ *   x      out: steps values of the let; caller frees with ls_free.
+ *   y      out: steps x nq values, row-major (point i, quantity k at
+ *          y[i*nq + k]); NaN where the point did not solve or the quantity is
+ *          undefined there; caller frees with ls_free.
+ *   solved out (may be NULL): how many points solved.
+ * The circuit itself is not changed.  Returns LS_OK, LS_E_ARGUMENT,
+ * LS_E_CIRCUIT (a quantity or the let is not valid at the first point: see
+ * the diagnostics), LS_E_NOT_SOLVED or LS_E_NOMEM. */
+ls_status ls_circuit_sweep(ls_circuit *c, const char *let, double from, double to, int steps, int log_scale,
+                           const char *const *quantities, int nq, double **x, double **y, int *solved);
 
 /* Release an array returned by this library (NULL is fine). */
 void ls_free(void *p);

@@ -479,6 +479,99 @@ static void test_opamp_limit(void)
 
 /* NULL handles and pointers are refused, never dereferenced; two circuits
  * live side by side without sharing anything. */
+/* Each side of a port opened: a 10k/10k divider from 5 V (Thevenin: 2.5 V
+ * behind 10k || 10k = 5k, short-circuit 2.5 V / 5k = 0.5 mA) feeding a 20k
+ * load (nothing drives it: 0 V behind 20k). */
+static void test_thevenin_port(void)
+{
+    ls_circuit *c = solved("ground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> mid 10k\n"
+                           "resistor r2 mid -> gnd 10k\nport p mid -> in\nresistor rl in -> gnd 20k\n",
+                           NULL);
+    if (!c)
+        return;
+    ls_thevenin_side d, l;
+    CU_ASSERT_EQUAL(ls_circuit_thevenin_port(c, "p", &d, &l), LS_OK);
+    CU_ASSERT_STRING_EQUAL(d.node, "mid");
+    CU_ASSERT_STRING_EQUAL(l.node, "in");
+    CU_ASSERT(REL(d.vth, 2.5, 1e-12) && REL(d.rth, 5e3, 1e-9) && REL(d.norton, 0.5e-3, 1e-9));
+    CU_ASSERT(l.vth == 0 && REL(l.rth, 20e3, 1e-9) && isnan(l.norton));
+    CU_ASSERT_PTR_NULL(d.why);
+    CU_ASSERT_EQUAL(ls_circuit_thevenin_port(c, "r1", &d, &l), LS_E_NOT_FOUND);   /* a part, not a port */
+    ls_circuit_free(&c);
+}
+
+/* Tolerance of a 10k/10k divider from 10 V, both 1 %: the worst corners are
+ * r1 high and r2 low (10 V * 9.9k / 20k = 4.95 V) and the reverse (5.05 V),
+ * by the divider rule.  Monte Carlo with uniform +-1 %: every trial lies
+ * inside the corners, the mean near 5 V (the ratio is symmetric to first
+ * order), and the same seed gives the same numbers on 1 and 3 threads. */
+static void test_tol(void)
+{
+    ls_circuit *c = solved("ground gnd\nvoltage vs gnd -> top 10 V\nresistor r1 top -> mid 10k tol=1%\n"
+                           "resistor r2 mid -> gnd 10k tol=1%\nexpect mid between 4.96 V and 5.04 V\n",
+                           NULL);
+    if (!c)
+        return;
+    ls_tol_options o = {.trials = 4000, .seed = 9, .threads = 1};
+    ls_tol_info a, b;
+    double *va = NULL, *vb = NULL;
+    CU_ASSERT_EQUAL(ls_circuit_tol(c, "mid", &o, &a, &va), LS_OK);
+    o.threads = 3;
+    CU_ASSERT_EQUAL(ls_circuit_tol(c, "mid", &o, &b, &vb), LS_OK);
+    CU_ASSERT(a.corners == 1 && a.varying == 2 && a.trials == 4000 && a.finite == 4000);
+    CU_ASSERT(REL(a.nominal, 5.0, 1e-12));
+    CU_ASSERT(REL(a.wc_min, 4.95, 1e-12));
+    CU_ASSERT(REL(a.wc_max, 5.05, 1e-12));
+    CU_ASSERT(isnan(a.rss));
+    CU_ASSERT(a.min >= a.wc_min && a.max <= a.wc_max);
+    CU_ASSERT(fabs(a.mean - 5.0) < 1e-3);
+    CU_ASSERT(a.yield > 0.5 && a.yield < 1);   /* 4.96..5.04 is inside the 4.95..5.05 corners */
+    CU_ASSERT(a.mean == b.mean && a.std == b.std && a.pct[2] == b.pct[2] && a.yield == b.yield);
+    if (va && vb)
+        CU_ASSERT(memcmp(va, vb, 4000 * sizeof *va) == 0);
+    ls_free(va);
+    ls_free(vb);
+    o.trials = 20000000;
+    CU_ASSERT_EQUAL(ls_circuit_tol(c, "mid", &o, &a, NULL), LS_E_ARGUMENT);
+    CU_ASSERT_EQUAL(ls_circuit_tol(c, "nowhere", NULL, &a, NULL), LS_E_CIRCUIT);
+    ls_circuit_free(&c);
+}
+
+/* A sweep of the supply let of a 10k/30k divider: mid = 3/4 of the supply
+ * (divider rule) at each of 1, 2, ... 5 V; log spacing from 1 to 100 gives
+ * 1, 10, 100. */
+static void test_sweep(void)
+{
+    ls_circuit *c = solved("ground gnd\nlet vin = 3 V\nvoltage vs gnd -> top vin\nresistor r1 top -> mid 10k\n"
+                           "resistor r2 mid -> gnd 30k\n",
+                           NULL);
+    if (!c)
+        return;
+    const char *q[] = {"mid", "r1.power"};
+    double *x = NULL, *y = NULL;
+    int solved_n = 0;
+    CU_ASSERT_EQUAL(ls_circuit_sweep(c, "vin", 1, 5, 5, 0, q, 2, &x, &y, &solved_n), LS_OK);
+    CU_ASSERT_EQUAL(solved_n, 5);
+    for (int i = 0; x && y && i < 5; i++) {
+        CU_ASSERT_EQUAL(x[i], 1.0 + i);
+        CU_ASSERT(REL(y[2 * i], 0.75 * x[i], 1e-12));
+        CU_ASSERT(REL(y[2 * i + 1], x[i] * x[i] / 40e3 / 40e3 * 10e3, 1e-12));   /* I^2 R */
+    }
+    ls_free(x);
+    ls_free(y);
+    CU_ASSERT_EQUAL(ls_circuit_sweep(c, "vin", 1, 100, 3, 1, q, 1, &x, &y, NULL), LS_OK);
+    if (x)
+        CU_ASSERT(x[0] == 1 && REL(x[1], 10, 1e-12) && x[2] == 100);
+    ls_free(x);
+    ls_free(y);
+    double v = 0;   /* the circuit itself is not changed */
+    CU_ASSERT(ls_circuit_voltage(c, "mid", &v) == LS_OK && REL(v, 2.25, 1e-12));
+    CU_ASSERT_EQUAL(ls_circuit_sweep(c, "vin", 0, 5, 3, 1, q, 1, &x, &y, NULL), LS_E_ARGUMENT);
+    CU_ASSERT_EQUAL(ls_circuit_sweep(c, "vin", 1, 5, 1, 0, q, 1, &x, &y, NULL), LS_E_ARGUMENT);
+    CU_ASSERT_EQUAL(ls_circuit_sweep(c, "nolet", 1, 5, 3, 0, q, 1, &x, &y, NULL), LS_E_CIRCUIT);
+    ls_circuit_free(&c);
+}
+
 static void test_null_and_side_by_side(void)
 {
     ls_circuit *none = NULL;
@@ -543,6 +636,7 @@ int main(void)
         !CU_add_test(s, "diagnostics list", test_diagnostics) ||
         !CU_add_test(s, "warning", test_warning) || !CU_add_test(s, "missing file", test_missing_file) || !CU_add_test(s, "unsolvable", test_unsolvable) ||
         !CU_add_test(s, "checks", test_checks) || !CU_add_test(s, "op-amp limit", test_opamp_limit) ||
+        !CU_add_test(s, "thevenin of a port", test_thevenin_port) || !CU_add_test(s, "tolerance", test_tol) || !CU_add_test(s, "sweep", test_sweep) ||
         !CU_add_test(s, "NULL and side by side", test_null_and_side_by_side) ||
         !CU_add_test(s, "error bounds", test_error_bounds)) {
         CU_cleanup_registry();
