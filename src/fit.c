@@ -16,7 +16,7 @@
 #include "parts.h"
 #include "tolerance.h"
 
-#define MARGIN_CLAMP 10.0       /* margins seen by the continuous stage are clamped to +-this */
+#define MARGIN_CLAMP 50.0       /* margins seen by the continuous stage stay within +-this */
 #define DESCENT_BUDGET 20000    /* candidate solves the descent may spend */
 #define BOX_LIMIT 4096          /* combinations of the neighbourhood box solved one by one */
 #define TIE_REL 1e-9            /* goal figures this close (relative) are a tie */
@@ -519,9 +519,16 @@ typedef struct cont {
     long evals;
 } cont;
 
+/* A margin as the continuous stage sees it: itself within +-1, compressed
+ * logarithmically beyond (so a far-off check still has a slope, and a huge
+ * ratio does not swamp the others), within +-MARGIN_CLAMP; undefined is the
+ * worst. */
 static double clamp_margin(double m)
 {
-    return isnan(m) ? -MARGIN_CLAMP : fmax(-MARGIN_CLAMP, fmin(MARGIN_CLAMP, m));
+    if (isnan(m))
+        return -MARGIN_CLAMP;
+    double a = fabs(m) <= 1 ? m : copysign(1 + log(fabs(m)), m);
+    return fmax(-MARGIN_CLAMP, fmin(MARGIN_CLAMP, a));
 }
 
 /* Solve at exp(y) (the first nvars of y) unless that was the last point. */
@@ -861,7 +868,8 @@ static int save_start(fit_run *r)
 static int search(fit_run *r)
 {
     ls_fit_study *f = r->f;
-    if (f->combinations <= LS_FIT_EXHAUSTIVE) {
+    double limit = f->exhaustive_limit > 0 ? f->exhaustive_limit : LS_FIT_EXHAUSTIVE;
+    if (f->combinations <= limit) {
         f->exhaustive = true;
         return exhaustive(r);
     }

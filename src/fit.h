@@ -96,6 +96,7 @@ typedef struct ls_fit_study {
     bool normal;
     void (*progress)(void *ctx, long done, long total);   /* or NULL */
     void *progress_ctx;
+    double exhaustive_limit;   /* <= 0: LS_FIT_EXHAUSTIVE; the tests lower it to try the continuous path */
     /* out */
     ls_fit_var *vars;
     int nvars;

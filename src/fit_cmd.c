@@ -104,6 +104,8 @@ static void fit_json(const ls_report *rp, const ls_fit_study *f)
     ls_jw_num(w, "combinations", f->combinations);
     ls_jw_int(w, "solved", f->evaluated);
     ls_jw_int(w, "continuous_solves", f->nlopt_evals);
+    if (!f->exhaustive)
+        ls_jw_int(w, "continuous_status", f->nlopt_status);
     if (f->have_yield) {
         ls_jw_int(w, "trials", f->yield_trials);
         ls_jw_int(w, "seed", (long long)f->seed);
@@ -423,6 +425,11 @@ static int fit_options(ls_cli *cli, ls_fit_study *f)
     f->trials = cli->trials > 0 ? cli->trials : FIT_DEFAULT_TRIALS;
     f->seed = cli->seed;
     f->normal = cli->dist && strcmp(cli->dist, "normal") == 0;
+    /* the tests set this to try the continuous path on cases small enough to enumerate (docs/fit.md) */
+    const char *lim = getenv("LOADSTACK_FIT_EXHAUSTIVE");
+    f->exhaustive_limit = lim && *lim ? strtod(lim, NULL) : 0;
+    if (lim && *lim && f->exhaustive_limit <= 0)
+        f->exhaustive_limit = 0.5; /* 0 or less: never enumerate */
     return 0;
 }
 
