@@ -262,16 +262,21 @@ static int make_slots(fit_run *r)
     return 0;
 }
 
-/* Current drawn from the supplies (A): every voltage source's, and every
- * op-amp's output current and quiescent current (its rails supply them). */
+/* Current drawn from the supplies (A): every voltage source's, every
+ * op-amp's quiescent current, and the output current of an op-amp whose
+ * rails are not nodes (with rails=gnd..vcc the model already draws its
+ * output current through the source on vcc). */
 static double supply_current(const ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     double sum = 0;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (p->kind->is_opamp)
-            sum += fabs(op->ipart[i]) + ls_part_opt(p, "iq", 0);
+        if (p->kind->is_opamp) {
+            int ri = ls_kind_opt(p->kind, "rails");
+            bool through_rails = ls_part_has(p, ri) && p->range[OA_RAILS][0].node >= 0 && p->range[OA_RAILS][1].node >= 0;
+            sum += (through_rails ? 0 : fabs(op->ipart[i])) + ls_part_opt(p, "iq", 0);
+        }
         else if (strcmp(p->kind->name, "voltage") == 0)
             sum += fabs(op->ipart[i]);
     }
