@@ -583,9 +583,9 @@ static void cont_constraints(unsigned m, double *out, unsigned n, const double *
     }
 }
 
-/* Run COBYLA from the written values; the optimum goes to vars[].optimum.
- * Returns 0, -1 on no memory. */
-static int continuous(fit_run *r)
+/* Run COBYLA from start[] (nvars values); its optimum goes to
+ * vars[].optimum and its objective to *obj.  Returns 0, -1 on no memory. */
+static int continuous(fit_run *r, const double *start, double *obj)
 {
     ls_fit_study *f = r->f;
     int n = f->nvars, dim = n + (f->goal != LS_FIT_CURRENT);
@@ -600,7 +600,7 @@ static int continuous(fit_run *r)
         for (int j = 0; j < n; j++) {
             lb[j] = log(f->vars[j].lo);
             ub[j] = log(f->vars[j].hi);
-            y[j] = log(f->vars[j].start);
+            y[j] = log(start[j]);
             step[j] = fmin(0.5, (ub[j] - lb[j]) / 4);
         }
         if (dim > n) { /* t starts at the written values' smallest margin */
@@ -621,13 +621,12 @@ static int continuous(fit_run *r)
             nlopt_add_inequality_mconstraint(o, (unsigned)r->nslots, cont_constraints, &c, NULL);
         nlopt_set_xtol_rel(o, 1e-4);
         nlopt_set_maxeval(o, 100 * (n + 1) < 1500 ? 100 * (n + 1) : 1500);
-        double best;
-        f->nlopt_status = (int)nlopt_optimize(o, y, &best);
+        f->nlopt_status = (int)nlopt_optimize(o, y, obj);
         for (int j = 0; j < n; j++)
             f->vars[j].optimum = exp(fmin(ub[j], fmax(lb[j], y[j])));
         rc = 0;
     }
-    f->nlopt_evals = c.evals;
+    f->nlopt_evals += c.evals;
     if (o)
         nlopt_destroy(o);
     free(c.last_y);
@@ -878,9 +877,26 @@ static int search(fit_run *r)
         f->exhaustive = true;
         return exhaustive(r);
     }
-    if (continuous(r) != 0 || neighbourhood(r) != 0 || descent(r) != 0)
-        return -1;
-    return 0;
+    /* Two starts, the written values and the middle of the ranges (on a log
+     * scale): the continuous optimum is local, and the written values may sit
+     * in a corner.  Each start's neighbourhood is searched; the optimum
+     * reported is the better start's. */
+    double start[LS_FIT_MAX_FREE], opt[LS_FIT_MAX_FREE], best = INFINITY;
+    for (int k = 0; k < 2; k++) {
+        for (int j = 0; j < f->nvars; j++)
+            start[j] = k == 0 ? f->vars[j].start : sqrt(f->vars[j].lo * f->vars[j].hi);
+        double obj = INFINITY;
+        if (continuous(r, start, &obj) != 0 || neighbourhood(r) != 0)
+            return -1;
+        if (k == 0 || obj < best) {
+            best = obj;
+            for (int j = 0; j < f->nvars; j++)
+                opt[j] = f->vars[j].optimum;
+        }
+    }
+    for (int j = 0; j < f->nvars; j++)
+        f->vars[j].optimum = opt[j];
+    return descent(r);
 }
 
 int ls_fit_run(ls_fit_study *f)
