@@ -737,47 +737,74 @@ static bool trial_feasible(void *ctx, ls_op *op)
     return true;
 }
 
-/* Does the ranking of the feasible finalists need their yields: the yield
- * goal, or a tie on the goals before it among the first top + 1? */
-static bool yields_needed(const ls_fit_study *f, const fit_run *r)
+/* Which feasible finalists need a yield: with the yield goal the first
+ * 2 * top of them; otherwise those in a group that ties on the goals before
+ * the yield and reaches into the first top + 1 (only ties need it).  Marks
+ * need[i]; returns how many. */
+static int yields_needed(const ls_fit_study *f, const fit_run *r, bool *need)
 {
-    if (f->goal == LS_FIT_YIELD)
-        return true;
-    int n = r->nkeep < f->top + 1 ? r->nkeep : f->top + 1;
-    for (int i = 1; i < n; i++) {
-        if (!r->keep[i].meets)
-            break;
-        if (cmp_goal(f->goal, &r->keep[i - 1], &r->keep[i]) == 0 &&
-            (f->goal == LS_FIT_MARGIN || cmp_goal(LS_FIT_MARGIN, &r->keep[i - 1], &r->keep[i]) == 0))
-            return true;
+    int n = 0;
+    if (f->goal == LS_FIT_YIELD) {
+        for (int i = 0; i < r->nkeep && i < 2 * f->top; i++)
+            n += need[i] = r->keep[i].meets;
+        return n;
     }
-    return false;
+    int reach = r->nkeep < f->top + 1 ? r->nkeep : f->top + 1;
+    for (int i = 1; i < r->nkeep; i++) {
+        const ls_fit_cand *a = &r->keep[i - 1], *b = &r->keep[i];
+        if (!b->meets)
+            break;
+        bool tie = cmp_goal(f->goal, a, b) == 0 && (f->goal == LS_FIT_MARGIN || cmp_goal(LS_FIT_MARGIN, a, b) == 0);
+        if (tie && (i < reach || need[i - 1])) {
+            n += !need[i - 1] + !need[i];
+            need[i - 1] = need[i] = true;
+        }
+    }
+    return n;
 }
 
-/* The feasible finalists' yields, then the final order. */
+/* The feasible finalists' yields where the ranking needs them, then the
+ * final order.  Returns 0, -1 on no memory. */
 static int rank_finalists(fit_run *r)
 {
     ls_fit_study *f = r->f;
-    if (!yields_needed(f, r))
+    bool *need = calloc((size_t)(r->nkeep ? r->nkeep : 1), sizeof *need);
+    if (!need)
+        return -1;
+    int n = yields_needed(f, r, need);
+    if (n == 0) {
+        free(need);
         return 0;
+    }
     f->have_yield = true;
     bool varies = false;
     for (int i = 0; i < f->nl->nparts; i++)
         varies = varies || (f->nl->parts[i].has_value && ls_part_opt(&f->nl->parts[i], "tol", 0) > 0);
     f->yield_trials = varies ? f->trials : 0;
+    int done = 0;
     for (int i = 0; i < r->nkeep; i++) {
         ls_fit_cand *c = &r->keep[i];
-        c->yield = c->meets ? 1 : 0; /* nothing varies: every trial would be the nominal design */
-        if (!c->meets || !varies)
+        if (!need[i])
+            continue;
+        c->yield = 1; /* nothing varies: every trial would be the nominal design, which is feasible */
+        if (!varies)
             continue;
         for (int j = 0; j < f->nvars; j++)
             f->nl->parts[f->vars[j].part].value = c->value[j];
-        if (ls_tol_pass_rate(f->nl, f->op, f->trials, f->seed, f->normal, trial_feasible, r, &c->yield) != 0)
+        if (ls_tol_pass_rate(f->nl, f->op, f->trials, f->seed, f->normal, trial_feasible, r, &c->yield) != 0) {
+            free(need);
             return -1;
+        }
         if (f->progress)
-            f->progress(f->progress_ctx, i + 1, r->nkeep);
+            f->progress(f->progress_ctx, ++done, n);
     }
-    for (int i = 1; i < r->nkeep; i++) /* insertion sort: stable, and the list is short */
+    free(need);
+    if (f->goal == LS_FIT_YIELD) /* only the finalists with a yield are ranked by it */
+        while (r->nkeep > 2 * f->top)
+            cand_free(&r->keep[--r->nkeep]);
+    /* insertion sort: stable, and the list is short; a candidate without a
+     * yield ties with every other on it, so the yields reorder only their groups */
+    for (int i = 1; i < r->nkeep; i++)
         for (int j = i; j > 0 && cmp_cand(f->goal, &r->keep[j], &r->keep[j - 1]) < 0; j--) {
             ls_fit_cand t = r->keep[j];
             r->keep[j] = r->keep[j - 1];
