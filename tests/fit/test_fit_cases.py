@@ -16,6 +16,7 @@
   values meet the budget; exit 1, the closest candidate and its miss named.
 - The yield goal draws the trials `tol` draws: on a circuit whose only check
   is an expect on one node, fit's yield equals tol's yield for the same seed.
+- E-series: n values per decade of E-n and the E6 table (IEC 60063, from memory).
 - Bad usage and bad circuits: exit 2 with file:line:col and a caret.
 """
 import json
@@ -185,6 +186,23 @@ expect mid between 2.3 V and 2.6 V
     check(all(ys[0] >= y for y in ys), f"candidates ranked by yield: {ys}")
 
 
+def series_tables():
+    """IEC 60063: the E-n series has n values per decade, so a range over three decades
+    (ends included) holds 3n + 1 of them; E6 is 1.0 1.5 2.2 3.3 4.7 6.8 (the standard's
+    table, from memory).  fit's candidates for one free part are exactly those values."""
+    path = circuit("one.stack", "ground gnd\nvoltage v gnd -> a 1 V\nresistor r a -> b 10k free=1k..1M\n"
+                   "resistor rl b -> gnd 10k\nexpect b between 0.1 V and 0.9 V\n")
+    for n in (6, 12, 24, 48, 96, 192):
+        j = fit_json([path, "--series", f"E{n}", "--top", "1"])
+        if j:
+            check(j["free"][0]["values"] == 3 * n + 1, f"E{n} over 1k..1M: {3 * n + 1} values, got {j['free'][0]['values']}")
+    j = fit_json([path, "--series", "E6", "--top", "19"])
+    if j:
+        got = sorted(c["values"]["r"] for c in j["candidates"])
+        want = sorted(round(m * 10 ** d) for d in (3, 4, 5) for m in (1.0, 1.5, 2.2, 3.3, 4.7, 6.8)) + [1e6]
+        check(got == want, f"E6 candidates over 1k..1M are the IEC 60063 table: {got}")
+
+
 def bad_usage():
     path = circuit("plain.stack", "ground gnd\nvoltage v gnd -> a 1 V\nresistor r a -> gnd 1k free=100..10k\n")
     run(["fit", path, "--write", path], check_rc=2)
@@ -212,6 +230,7 @@ def main():
     non_inverting()
     adc_chain()
     yield_as_tol()
+    series_tables()
     bad_usage()
     finish()
 
