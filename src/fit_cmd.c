@@ -510,6 +510,8 @@ int ls_cmd_fit(ls_cli *cli)
         fprintf(stderr, "loadstack: no standard values meet every check; '%s' was not written\n", cli->write);
     }
     code = ls_out_close(cli, ls_session_verdict(&s, code));
+    if (s.diags.warnings > 0) /* they come from the solve at the written values, not from the chosen ones */
+        fputs("loadstack: the warnings below are about the circuit as written, before fit chose its values\n", stderr);
     ls_diags_print(&s.diags, stderr);
     ls_fit_free(&f);
     ls_session_free(&s);
