@@ -655,22 +655,31 @@ static int lower_index(const ls_fit_var *v, double x)
 }
 
 /* Every combination of the w series values on each side of the optimum
- * (w = 2, or 1 when that box is larger than BOX_LIMIT). */
+ * (w = 2, or 1 when that box is larger than BOX_LIMIT; when even that is,
+ * only the value nearest the optimum on a log scale, and the descent goes on
+ * from there). */
 static int neighbourhood(fit_run *r)
 {
     ls_fit_study *f = r->f;
     int n = f->nvars, first[LS_FIT_MAX_FREE], count[LS_FIT_MAX_FREE], idx[LS_FIT_MAX_FREE];
-    for (int w = 2; w >= 1; w--) {
+    for (int w = 2; w >= 0; w--) {
         double box = 1;
         for (int j = 0; j < n; j++) {
             const ls_fit_var *v = &f->vars[j];
             int at = lower_index(v, v->optimum);
+            if (w == 0) { /* the nearer of the two values around the optimum */
+                if (at >= v->nvalues || (at > 0 && v->optimum / v->values[at - 1] < v->values[at] / v->optimum))
+                    at--;
+                first[j] = at;
+                count[j] = 1;
+                continue;
+            }
             first[j] = at - w < 0 ? 0 : at - w;
             int last = at + w - 1 >= v->nvalues ? v->nvalues - 1 : at + w - 1;
             count[j] = last - first[j] + 1;
             box *= count[j];
         }
-        if (box <= BOX_LIMIT || w == 1)
+        if (box <= BOX_LIMIT)
             break;
     }
     int k[LS_FIT_MAX_FREE] = {0};

@@ -442,7 +442,8 @@ static int fit_failed(ls_session *s, const ls_fit_study *f, int code)
                         "loadstack-language')\n");
         return LS_EXIT_USAGE;
     case LS_FIT_TOOMANY:
-        fprintf(stderr, "loadstack: error: %d parts are free; fit takes at most %d\n", s->nl.nfrees, LS_FIT_MAX_FREE);
+        fprintf(stderr, "loadstack: error: fit takes at most %d free parts (%d are free)\n", LS_FIT_MAX_FREE,
+                s->nl.nfrees);
         return LS_EXIT_USAGE;
     case LS_FIT_EMPTY:
         for (int j = 0; j < f->nvars; j++)
