@@ -31,7 +31,6 @@ KNOWN = {
     ("mna/mna.h", "solve/solver.h"): "the compressed-column type lives in the solver interface",
     ("netlist/elab.c", "mna/mna.h"): "union-find for the connectivity checks lives in mna/",
     ("netlist/elab.c", "parts/parts.h"): "the elaborator binds each part to its kind in the table",
-    ("report/html.h", "cli/cli.h"): "the HTML page reads the command-line session",
 }
 # Include cycles still in the tree, as sorted tuples of modules (folder/basename).
 KNOWN_CYCLES = {
