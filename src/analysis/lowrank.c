@@ -20,6 +20,7 @@
 #include <string.h>
 
 #include "netlist/elab.h"
+#include "base/unionfind.h"
 #include "base/fmt.h"
 #include "analysis/lowrank.h"
 #include "analysis/newton.h"

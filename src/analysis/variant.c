@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "analysis/lowrank.h"
+#include "base/unionfind.h"
 #include "analysis/variant.h"
 
 /* ---- saved part states ---------------------------------------------------------------------- */

@@ -1,5 +1,6 @@
 /* mna.c — assembly of the modified-nodal system and the topology checks. */
 #include "mna/mna.h"
+#include "base/unionfind.h"
 
 #include <float.h>
 #include <limits.h>
@@ -331,23 +332,6 @@ const char *ls_unknown_desc(const ls_mna *m, int idx, char *buf, size_t n)
 }
 
 /* ---- topology --------------------------------------------------------------------- */
-
-int ls_uf_find(int *parent, int x)
-{
-    while (parent[x] != x) {
-        parent[x] = parent[parent[x]];
-        x = parent[x];
-    }
-    return x;
-}
-
-void ls_uf_union(int *parent, int a, int b)
-{
-    a = ls_uf_find(parent, a);
-    b = ls_uf_find(parent, b);
-    if (a != b)
-        parent[a < b ? b : a] = a < b ? a : b; /* the smaller index (ground = 0) is the root */
-}
 
 typedef struct topo {
     const ls_netlist *nl;

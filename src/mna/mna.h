@@ -80,8 +80,5 @@ extern const ls_backend ls_backend_reduced;
  * else 0.  O(nnz log). */
 int ls_mna_reducible(const ls_csc *a);
 
-/* Union-find helpers, shared with the analyses that open parts. */
-int ls_uf_find(int *parent, int x);
-void ls_uf_union(int *parent, int a, int b);
 
 #endif

@@ -29,7 +29,6 @@ LAYERS = ["base", "lang", "netlist", "parts", "mna", "solve", "analysis", "repor
 KNOWN = {
     ("lang/parser.c", "parts/parts.h"): "the parser asks the part table which words start a part statement",
     ("mna/mna.h", "solve/solver.h"): "the compressed-column type lives in the solver interface",
-    ("netlist/elab.c", "mna/mna.h"): "union-find for the connectivity checks lives in mna/",
     ("netlist/elab.c", "parts/parts.h"): "the elaborator binds each part to its kind in the table",
 }
 # Include cycles still in the tree, as sorted tuples of modules (folder/basename).
