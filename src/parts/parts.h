@@ -87,6 +87,12 @@ typedef void (*ls_edge_fn)(void *ctx, int a, int b, bool voltage_defined, int pa
 
 #define LS_MAX_RENAMED 4
 
+/* What a part becomes when `sag`, the port report or a what-if removes it. */
+typedef enum ls_removal {
+    LS_REMOVE_OPEN = 0,   /* opened: no current (the default) */
+    LS_REMOVE_SHORT       /* set to zero: a voltage-defined part keeps its two ends at one voltage */
+} ls_removal;
+
 typedef struct ls_kind {
     const char *name;
     ls_shape shape;
@@ -98,6 +104,9 @@ typedef struct ls_kind {
     bool is_port;
     bool is_opamp;
     bool has_run;                /* keeps analysis state (ls_part.run): sources, op-amps, junctions, ... */
+    ls_removal removal;          /* how it is removed (sag, ports, what-if) */
+    bool is_junction;            /* iterates as a pn junction (ls_junction_current/_v): the iteration's
+                                    polishing, its past-the-model check and sag's on/off limits */
     ls_optdef opts[LS_MAX_OPTS];
     int nopts;
     /* Options that were spelled differently before; naming one is an error
