@@ -110,6 +110,9 @@ static void branch_rise(ls_sink *s, int from, int to, int k)
     ls_sink_a(s, k, from, -1);
 }
 
+/* The helpers of family files outside this one (parts.h). */
+void ls_stamp_conductance(ls_sink *s, int a, int b, double g) { conductance(s, a, b, g); }
+
 /* Scale of a source's value while the sources are ramped up. */
 static double src_scale(const ls_part *p)
 {
@@ -133,6 +136,8 @@ static void lin_add(ls_lin *l, int idx, double c)
     l->idx[l->n] = idx;
     l->coef[l->n++] = c;
 }
+
+void ls_lin_add(ls_lin *l, int idx, double c) { lin_add(l, idx, c); }
 
 double ls_lin_eval(const ls_lin *l, const double *x)
 {
@@ -988,6 +993,18 @@ static void adc_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 /* Earlier spellings of the junction options, each answered with its new name. */
 #define JUNCTION_RENAMED {{"is", "isat"}, {"n", "ideality"}, {"rs", "rbulk"}}
 
+#ifdef LS_TEST_KINDS
+/* tests/house/testsink_kind.c: a current sink with a compliance limit, built
+ * only into the test program loadstack_toy (tests/house/meson.build). */
+int ls_testsink_branches(const ls_part *p);
+void ls_testsink_stamp(const ls_part *p, ls_stamp_ctx *c);
+void ls_testsink_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative, int depth);
+void ls_testsink_edges(const ls_part *p, void *ctx, ls_edge_fn emit);
+bool ls_testsink_nonlinear(const ls_part *p);
+void ls_testsink_init(ls_part *p);
+bool ls_testsink_update(ls_part *p, const double *x);
+#endif
+
 static const ls_kind kinds[] = {
     {.name = "resistor", .shape = SHAPE_TWO, .doc = "resistor FROM -> TO VALUE [rating=W vmax=V]",
      .value_slot = true, .value_dims = LS_OHM, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE,
@@ -1125,6 +1142,17 @@ static const ls_kind kinds[] = {
               {"max_source", OPT_VALUE, LS_OHM, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 6, .npins = 1, .branches = no_branch, .stamp = adc_stamp, .current = adc_current,
      .edges = adc_edges, .results = adc_results},
+#ifdef LS_TEST_KINDS
+    /* Built only into the tests' loadstack_toy: a kind with a limit, added as
+     * one family file (tests/house/testsink_kind.c) plus this entry. */
+    {.name = "testsink", .has_run = true, .shape = SHAPE_TWO, .removal = LS_REMOVE_OPEN,
+     .doc = "testsink FROM -> TO VALUE compliance=V  (draws VALUE FROM -> TO while V(FROM) - V(TO) >= compliance)",
+     .value_slot = true, .value_dims = LS_AMP, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE, .vsign = VSIGN_DROP,
+     .opts = {COMMON_OPTS, {"compliance", OPT_VALUE, LS_VOLT, OPTF_REQUIRED | OPTF_POSITIVE, -1, NULL}},
+     .nopts = NCOMMON + 1, .npins = 2, .branches = ls_testsink_branches, .stamp = ls_testsink_stamp,
+     .current = ls_testsink_current, .edges = ls_testsink_edges,
+     .is_nonlinear = ls_testsink_nonlinear, .init = ls_testsink_init, .update = ls_testsink_update},
+#endif
 };
 
 static const char *const keywords[] = {"title", "let", "ground", "include", "block",

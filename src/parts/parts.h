@@ -143,6 +143,15 @@ const char *ls_kind_renamed(const ls_kind *k, const char *name);
 /* Index of option `name` in the kind, or -1. */
 int ls_kind_opt(const ls_kind *k, const char *name);
 
+/* Helpers for the kinds' stamp and current functions (parts.c and family
+ * files of their own, DEVELOPERS.md "Adding a part kind"). */
+/* A conductance g (S) between unknowns a and b (either < 0: ground). */
+void ls_stamp_conductance(ls_sink *s, int a, int b, double g);
+/* Adds c times unknown idx to a current's linear form (idx < 0: ground, dropped). */
+void ls_lin_add(ls_lin *l, int idx, double c);
+/* Unknown idx of a solution x (0 for ground, idx < 0). */
+static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx] : 0; }
+
 /* Option value helpers. */
 static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && (p->has_opt >> opt & 1u); }
 double ls_part_opt(const ls_part *p, const char *name, double dflt);
