@@ -152,6 +152,11 @@ void ls_lin_add(ls_lin *l, int idx, double c);
 /* Unknown idx of a solution x (0 for ground, idx < 0). */
 static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx] : 0; }
 
+/* Removing a part of a kind removed as a short (a voltage source, a
+ * voltage-defined controlled source: its value set to zero) keeps its DC
+ * edges; removing anything else opens it (the table's .removal). */
+static inline bool ls_removal_keeps_edges(const ls_part *p) { return p->kind->removal == LS_REMOVE_SHORT; }
+
 /* Option value helpers. */
 static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && (p->has_opt >> opt & 1u); }
 double ls_part_opt(const ls_part *p, const char *name, double dflt);
