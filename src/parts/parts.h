@@ -93,6 +93,16 @@ typedef enum ls_removal {
     LS_REMOVE_SHORT       /* set to zero: a voltage-defined part keeps its two ends at one voltage */
 } ls_removal;
 
+/* The part's role in a stage of `chain` (what a stage holding it is drawn and
+ * described as). */
+typedef enum ls_stage_role {
+    LS_ROLE_NONE = 0,     /* wiring: resistors, ports, controlled sources, ... */
+    LS_ROLE_SOURCE,       /* a voltage source: a supply or a signal source */
+    LS_ROLE_SENSOR,       /* a current source, thermistor or potentiometer: a sensor's model */
+    LS_ROLE_OPAMP,        /* an amplifier */
+    LS_ROLE_ADC           /* a converter input */
+} ls_stage_role;
+
 typedef struct ls_kind {
     const char *name;
     ls_shape shape;
@@ -105,6 +115,7 @@ typedef struct ls_kind {
     bool is_opamp;
     bool has_run;                /* keeps analysis state (ls_part.run): sources, op-amps, junctions, ... */
     ls_removal removal;          /* how it is removed (sag, ports, what-if) */
+    ls_stage_role stage_role;    /* its role in a stage of `chain` */
     bool is_junction;            /* iterates as a pn junction (ls_junction_current/_v): the iteration's
                                     polishing, its past-the-model check and sag's on/off limits */
     ls_optdef opts[LS_MAX_OPTS];
