@@ -319,9 +319,8 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
         return st;
     if (!out)
         return LS_E_ARGUMENT;
-    static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky"};
-    int m = c->op.method == LS_METHOD_SPARSE_LU ? 1 : c->op.method == LS_METHOD_SPARSE_CHOLESKY ? 2 : 0;
-    out->method = method[m];
+    static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
+    out->method = method[c->op.method];
     out->unknowns = c->op.mna.n;
     out->rcond = c->op.rcond;
     out->residual = c->op.residual;

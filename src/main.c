@@ -37,7 +37,7 @@ static const optdef options[] = {
     {"ascii", false, FOR_ALL, NULL, "plain ASCII output (u for micro, ohm for the omega sign)"},
     {"digits", true, FOR_ALL, NULL, "N  significant digits of numbers in text (default 4)"},
     {"quiet", false, FOR_ALL, NULL, "no progress lines on stderr"},
-    {"solver", true, FOR_CIRCUIT, NULL, "auto|dense|sparse  linear solver (default auto)"},
+    {"solver", true, FOR_CIRCUIT, NULL, "auto|dense|sparse|iterative  linear solver (default auto)"},
     {"derate", true, FOR_CIRCUIT, NULL, "F  multiply power ratings by F before comparing (default 1)"},
     {"help", false, FOR_ALL, NULL, "show help for the command"},
     {"version", false, FOR_ALL, NULL, "print the version"},
@@ -310,7 +310,15 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         if (strcmp(val, "auto") == 0) cli->solver = LS_CHOOSE_AUTO;
         else if (strcmp(val, "dense") == 0) cli->solver = LS_CHOOSE_DENSE;
         else if (strcmp(val, "sparse") == 0) cli->solver = LS_CHOOSE_SPARSE;
+#ifdef LS_HAVE_AMG
+        else if (strcmp(val, "iterative") == 0) cli->solver = LS_CHOOSE_ITERATIVE;
+        else return bad_usage("--solver takes auto, dense, sparse or iterative, not '%s'%s", val, "");
+#else
+        else if (strcmp(val, "iterative") == 0)
+            return bad_usage("--solver iterative needs the build with the iterative solver (meson setup -Dmpi=enabled, "
+                             "with libhypre-dev and libopenmpi-dev); this one has auto, dense and sparse%s", "");
         else return bad_usage("--solver takes auto, dense or sparse, not '%s'%s", val, "");
+#endif
     } else if (strcmp(n, "derate") == 0) {
         if (!ls_cli_number(val, &cli->derate) || !(cli->derate > 0))
             return bad_usage("--derate takes a positive factor, not '%s'%s", val, "");
