@@ -8,6 +8,7 @@
 #include "analysis.h"
 #include "output.h"
 #include "report.h"
+#include "share.h"
 
 #define LS_MAX_SETS 256
 #define LS_MAX_POS 16
@@ -47,6 +48,7 @@ typedef struct ls_cli {
     const char *symbols;               /* formula: --symbols A,B,... */
     bool ideal;                        /* formula: --ideal */
     bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
+    const ls_share *share;             /* loadstack-mpi: tol's trials and sweep's points split among processes */
 } ls_cli;
 
 /* Everything a command needs from a loaded circuit. */

@@ -12,6 +12,9 @@
 #include "parser.h"
 #include "parts.h"
 #include "solver.h"
+#ifdef LS_MPI_PROGRAM
+#include "mpi_share.h"
+#endif
 
 #ifndef LS_VERSION
 #define LS_VERSION "0.0.0"
@@ -420,8 +423,9 @@ static int read_stdin(ls_cli *cli)
     return 0;
 }
 
-/* The program proper; main only ends the process. */
-static int run_main(int argc, char **argv)
+/* The program proper; main only ends the process.  share: the processes of
+ * loadstack-mpi, or NULL. */
+static int run_main(int argc, char **argv, const ls_share *share)
 {
     ls_solver_threads_for_program(); /* measured: small solves run fastest on one thread */
     ls_cli cli;
@@ -431,6 +435,7 @@ static int run_main(int argc, char **argv)
     cli.trials = 10000;
     cli.steps = 51;
     cli.digits = 4;
+    cli.share = share;
     const cmd *c = NULL, *cw = command_word(argc, argv);
     bool want_version = false, options_done = false;
     for (int i = 1; i < argc; i++) {
@@ -539,7 +544,60 @@ static int run_main(int argc, char **argv)
     return code;
 }
 
+#ifdef LS_MPI_PROGRAM
+/* A rank other than the first computes its share and writes nothing: its
+ * --output and --plot are dropped (argv shortened in place; the new argc is
+ * returned) and its standard output and error go to /dev/null. */
+static int quiet_rank(int argc, char **argv)
+{
+    int w = 1;
+    bool done = false;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        done |= strcmp(a, "--") == 0;
+        if (!done && (strcmp(a, "--output") == 0 || strcmp(a, "--plot") == 0)) {
+            i++; /* and its value */
+            continue;
+        }
+        if (!done && (strncmp(a, "--output=", 9) == 0 || strncmp(a, "--plot=", 7) == 0))
+            continue;
+        argv[w++] = argv[i];
+    }
+    argv[w] = NULL;
+    if (!freopen("/dev/null", "w", stdout) || !freopen("/dev/null", "w", stderr))
+        return -1;
+    return w;
+}
+
+/* loadstack-mpi: the same program, run as MPI_COMM_WORLD's ranks; tol's
+ * trials and sweep's points are split among them (src/share.h) and the first
+ * rank writes the report, identical to one process's. */
 int main(int argc, char **argv)
 {
-    ls_exit_now(run_main(argc, argv));
+    ls_share share;
+    if (ls_mpi_start(&argc, &argv, &share) != 0) {
+        fputs("loadstack-mpi: error: MPI could not start\n", stderr);
+        ls_exit_now(LS_EXIT_USAGE);
+    }
+    int code = LS_EXIT_OK;
+    for (int i = 1; i < argc && share.size > 1; i++)
+        if (strcmp(argv[i], "-") == 0) {
+            if (share.rank == 0)
+                fputs("loadstack-mpi: error: with several processes the circuit must be a file (standard input "
+                      "reaches only the first)\n", stderr);
+            code = LS_EXIT_USAGE;
+            break;
+        }
+    if (code == LS_EXIT_OK && share.rank > 0 && (argc = quiet_rank(argc, argv)) < 0)
+        code = LS_EXIT_USAGE;
+    if (code == LS_EXIT_OK)
+        code = run_main(argc, argv, &share);
+    ls_mpi_end();
+    ls_exit_now(code);
 }
+#else
+int main(int argc, char **argv)
+{
+    ls_exit_now(run_main(argc, argv, NULL));
+}
+#endif
