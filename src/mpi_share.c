@@ -1,5 +1,7 @@
 /* mpi_share.c — ls_share over MPI, for the loadstack-mpi program only (the
  * library and the plain program link no MPI). */
+#ifdef LS_MPI_PROGRAM /* (only loadstack-mpi compiles it with MPI's headers) */
+
 #include "mpi_share.h"
 
 #include <limits.h>
@@ -45,3 +47,5 @@ void ls_mpi_end(void)
 {
     MPI_Finalize();
 }
+
+#endif /* LS_MPI_PROGRAM */
