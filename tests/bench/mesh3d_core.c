@@ -1,7 +1,7 @@
 /* mesh3d_core.c — the solver core on a 3-D mesh, without the front end: the
  * direct (CHOLMOD) and the iterative (hypre AMG-PCG) backends side by side.
  *
- * Usage: mesh3d_core N cholmod|amg|2d-cholmod|2d-amg
+ * Usage: mesh3d_core N cholmod|amg|pick|2d-cholmod|2d-amg|2d-pick
  * Assembles the nodal matrix of an N x N x N cubic lattice of one-ohm
  * resistors (N x N square with the 2d- methods) with the corner (0,0,0)
  * grounded and 1 A injected at the centre node, in compressed columns as
@@ -9,7 +9,8 @@
  * one backend.  Prints one line of key=value pairs: the order, the seconds
  * of factor and solve, AMD's fill estimate (the automatic rule's input), the centre voltage (V), for a cross-check between the
  * two methods, and for AMG the CG iterations and the true relative
- * residual.  Peak memory is measured from outside (/usr/bin/time -v, by
+ * residual.  `pick` solves nothing: it prints the automatic choice
+ * (ls_amg_preferred, "auto=iterative-amg" or "auto=direct") and the fill.  Peak memory is measured from outside (/usr/bin/time -v, by
  * mesh3d.sh).  Exit 0 ok, 1 bad usage or no memory, 3 solver failure. */
 #include "amg.h"
 #include "mna.h"
@@ -56,7 +57,8 @@ int main(int argc, char **argv)
     const char *m = dim == 2 ? which + 3 : which;
     const ls_backend *be = NULL;
     ls_method meth = LS_METHOD_SPARSE_CHOLESKY;
-    if (strcmp(m, "cholmod") == 0)
+    bool pick = strcmp(m, "pick") == 0;
+    if (strcmp(m, "cholmod") == 0 || pick)
         be = &ls_backend_cholmod;
 #ifdef LS_HAVE_AMG
     if (strcmp(m, "amg") == 0) {
@@ -65,7 +67,8 @@ int main(int argc, char **argv)
     }
 #endif
     if (n < 2 || n > (dim == 3 ? 400 : 8000) || !be) {
-        fprintf(stderr, "usage: mesh3d_core N cholmod|amg|2d-cholmod|2d-amg (amg: the -Dmpi=enabled build)\n");
+        fprintf(stderr, "usage: mesh3d_core N cholmod|amg|pick|2d-cholmod|2d-amg|2d-pick (amg, pick: the "
+                "-Dmpi=enabled build)\n");
         return 1;
     }
     long nodes = dim == 3 ? (long)n * n * n : (long)n * n;
@@ -94,6 +97,15 @@ int main(int argc, char **argv)
     if (ls_triplets_to_csc(&t, nu, &a) != 0)
         return 1;
     ls_triplets_free(&t);
+#ifdef LS_HAVE_AMG
+    if (pick) {
+        printf("method=%s n=%d amd_fill_per_col=%.1f auto=%s\n", which, nu, ls_csc_fill_per_column(&a),
+               ls_amg_preferred(&a, nu) ? "iterative-amg" : "direct");
+        ls_csc_free(&a);
+        free(b);
+        return 0;
+    }
+#endif
     ls_solver *s = ls_solver_new(be, meth);
     if (!s)
         return 1;

@@ -46,8 +46,6 @@ same() { # name, ranks, then the command's arguments
 }
 same "tol json" 2 tol "$demo" adc_in --trials 4000 --seed 11 --format json
 same "tol text + plot" 3 tol "$demo" probe --trials 3001 --seed 5 --dist normal --plot "$tmp/plot.svg"
-same "tol csv" 3 tol "$demo" "p_adc.sag" --trials 2000 --seed 3 --format csv
-same "sweep json" 2 sweep "$demo" moisture_r 1k 100k probe adc_in --steps 41 --format json
 same "sweep text + plot" 3 sweep "$demo" moisture_r 1k 1M probe --steps 25 --log --plot "$tmp/plot.svg"
 same "sweep nonlinear json" 2 sweep "$ebike" pack_temp -20 90 t_out v5 --steps 37 --format json
 same "sweep nonlinear csv" 3 sweep "$ebike" pack_v 10 100 v5 d_stat.current --steps 31 --format csv
