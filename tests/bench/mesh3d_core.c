@@ -12,10 +12,10 @@
  * residual.  `pick` solves nothing: it prints the automatic choice
  * (ls_amg_preferred, "auto=iterative-amg" or "auto=direct") and the fill.  Peak memory is measured from outside (/usr/bin/time -v, by
  * mesh3d.sh).  Exit 0 ok, 1 bad usage or no memory, 3 solver failure. */
-#include "amg.h"
-#include "mna.h"
-#include "solver.h"
-#include "sparse.h"
+#include "mna/mna.h"
+#include "solve/amg.h"
+#include "solve/solver.h"
+#include "solve/sparse.h"
 
 #include <stdio.h>
 #include <stdlib.h>

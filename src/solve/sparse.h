@@ -1,0 +1,30 @@
+/* sparse.h — choosing among the SuiteSparse backends declared in solver.h. */
+#ifndef LS_SPARSE_H
+#define LS_SPARSE_H
+
+#include "solve/solver.h"
+
+/* Pick the sparse backend for `a` from its structure and values (see the rule in
+ * sparse_select.c).  Never NULL.  *method_out (may be NULL) gets
+ * LS_METHOD_SPARSE_CHOLESKY for CHOLMOD, else LS_METHOD_SPARSE_LU.  A CHOLMOD
+ * pick is a prediction: on LS_SOLVER_NOT_SPD the caller retries with LU. */
+const ls_backend *ls_sparse_pick(const ls_csc *a, ls_method *method_out);
+
+/* Relative tolerance under which a_ij and a_ji count as equal. */
+#define LS_SPARSE_SYM_TOL (8 * 2.220446049250313e-16)
+
+/* -1 if A equals A^T (pattern, and values within LS_SPARSE_SYM_TOL), otherwise a
+ * column where they differ.  `work` is n ints of scratch.  O(nnz). */
+int ls_csc_asym_column(const ls_csc *a, int *work);
+
+/* Positive diagonal and weak column dominance (a_jj >= sum_i!=j |a_ij|, up
+ * to rounding): -1 when every column has them, else the first column that
+ * does not.  strict (n bytes, may be NULL) gets 1 per column whose diagonal
+ * exceeds that sum (a conductance to ground).  O(nnz). */
+int ls_csc_dominance(const ls_csc *a, unsigned char *strict);
+
+/* AMD's estimate of nnz(L)/n for A+A^T (the fill of a direct factor), or -1
+ * if it could not be computed (no memory).  O(nnz) time. */
+double ls_csc_fill_per_column(const ls_csc *a);
+
+#endif
