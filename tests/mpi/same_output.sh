@@ -55,5 +55,14 @@ out=$tmp/report.json
 "$ls1" tol "$demo" adc_in --trials 500 --format json >"$tmp/ref.json" 2>/dev/null
 n=$((n + 1))
 if cmp -s "$out" "$tmp/ref.json"; then echo "ok   --output"; else echo "FAIL --output differs"; fail=$((fail + 1)); fi
+# standard input reaches only the first rank: refused with exit 2, said once
+"$mpirun" -n 2 --oversubscribe "$lsm" tol - adc_in <"$demo" >"$tmp/stdin.out" 2>"$tmp/stdin.err"
+rc=$?
+n=$((n + 1))
+if [ $rc -eq 2 ] && [ "$(grep -c 'must be a file' "$tmp/stdin.err")" = 1 ] && [ ! -s "$tmp/stdin.out" ]; then
+    echo "ok   standard input refused"
+else
+    echo "FAIL standard input: exit $rc"; cat "$tmp/stdin.err"; fail=$((fail + 1))
+fi
 echo "same_output: $n runs, $fail failed"
 [ $fail -eq 0 ]
