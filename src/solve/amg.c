@@ -188,11 +188,12 @@ static void amg_set_nodes(void *self, int m)
     ((amg *)self)->nodes_hint = m;
 }
 
-/* Copy the leading m x m block of a into g (rows sorted, as in a).  0, or -1
- * without memory. */
+/* Copy the leading m x m block of a into g (rows sorted, as in a), with a
+ * diagonal entry in every column (0 where a has none: a node that only
+ * sources touch).  0, or -1 without memory. */
 static int take_block(const ls_csc *a, int m, ls_csc *g)
 {
-    size_t nnz = 0;
+    size_t nnz = (size_t)m;
     for (int j = 0; j < m; j++)
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
             nnz += a->rowind[p] < m;
@@ -205,14 +206,53 @@ static int take_block(const ls_csc *a, int m, ls_csc *g)
     int w = 0;
     for (int j = 0; j < m; j++) {
         g->colptr[j] = w;
-        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
-            if (a->rowind[p] < m) {
-                g->rowind[w] = a->rowind[p];
-                g->val[w++] = a->val[p];
+        bool diag = false;
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
+            int i = a->rowind[p];
+            if (i >= m)
+                continue;
+            if (i > j && !diag) {
+                g->rowind[w] = j;
+                g->val[w++] = 0;
             }
+            diag |= i >= j;
+            g->rowind[w] = i;
+            g->val[w++] = a->val[p];
+        }
+        if (!diag) {
+            g->rowind[w] = j;
+            g->val[w++] = 0;
+        }
     }
     g->colptr[m] = w;
     return 0;
+}
+
+/* The diagonal entry of column j of g (take_block put one in every column). */
+static double *diag_of(ls_csc *g, int j)
+{
+    for (int p = g->colptr[j]; p < g->colptr[j + 1]; p++)
+        if (g->rowind[p] == j)
+            return &g->val[p];
+    return NULL;
+}
+
+/* Nodes with no conductance at all (only sources touch them: a node
+ * between two stacked cells) get the pin conductance gpin on their diagonal
+ * and are listed in pin[]; returns their number. */
+static int bare_nodes(ls_csc *g, double gpin, int *pin)
+{
+    int np = 0;
+    for (int j = 0; j < g->n; j++) {
+        bool any = false;
+        for (int p = g->colptr[j]; p < g->colptr[j + 1]; p++)
+            any |= g->val[p] != 0;
+        if (!any) {
+            *diag_of(g, j) = gpin;
+            pin[np++] = j;
+        }
+    }
+    return np;
 }
 
 /* ls_csc's arrays freed (the solver stage keeps no helper for it: the
@@ -523,28 +563,39 @@ static int amg_build(amg *h, const ls_csc *a, ls_solver_stats *st)
         free(strict);
         return LS_SOLVER_NOMEM;
     }
-    int bad = ls_csc_asym_column(&h->g, work);
+    /* a pin's conductance: the mean positive diagonal, so G + g e e^T stays
+     * as well conditioned as the mesh itself */
+    double dsum = 0;
+    int dn = 0;
+    for (int j = 0; j < m; j++) {
+        double d = *diag_of(&h->g, j);
+        if (d > 0) {
+            dsum += d;
+            dn++;
+        }
+    }
+    double gpin = dn ? dsum / dn : 1;
+    int nbare = bare_nodes(&h->g, gpin, work);
+    int *scratch = malloc((size_t)m * sizeof *scratch);
+    int bad = scratch ? ls_csc_asym_column(&h->g, scratch) : -1;
+    free(scratch);
+    if (!scratch) {
+        free(work);
+        free(strict);
+        return LS_SOLVER_NOMEM;
+    }
     if (bad < 0)
         bad = ls_csc_dominance(&h->g, strict);
-    int npin = bad < 0 ? floating_parts(&h->g, strict, work) : 0;
+    int nfloat = bad < 0 ? floating_parts(&h->g, strict, work + nbare) : 0;
     free(strict);
-    if (bad >= 0 || npin < 0) {
+    if (bad >= 0 || nfloat < 0) {
         free(work);
         st->bad_column = bad;
         return bad >= 0 ? LS_SOLVER_NOT_SPD : LS_SOLVER_NOMEM;
     }
-    /* a pin's conductance: the mean diagonal, so G + g e e^T stays as well
-     * conditioned as the mesh itself */
-    double dsum = 0;
-    for (int j = 0; j < m; j++)
-        for (int p = h->g.colptr[j]; p < h->g.colptr[j + 1]; p++)
-            if (h->g.rowind[p] == j)
-                dsum += h->g.val[p];
-    double gpin = dsum / m;
-    for (int q = 0; q < npin; q++)
-        for (int p = h->g.colptr[work[q]]; p < h->g.colptr[work[q] + 1]; p++)
-            if (h->g.rowind[p] == work[q])
-                h->g.val[p] += gpin;
+    for (int q = nbare; q < nbare + nfloat; q++)
+        *diag_of(&h->g, work[q]) += gpin;
+    int npin = nbare + nfloat;
     h->k = a->n - m + npin;
     int rc = take_border(h, a, work, npin, gpin);
     free(work);

@@ -22,7 +22,11 @@ Checks, each with its source:
     resistances between nodes are not symmetric (a vccs or cccs couples two
     nodes one way) must instead be refused with exit 3 and the error that
     says so.
- 3. Every third network with a port added: sag, thevenin (of each side) and influence
+ 3. Two cells stacked in series (a node that only sources touch) and a
+    resistor loop hung from a floating source (tied to ground only through
+    it): the iterative solver pins both and must agree with --solver sparse
+    to 1e-9 on every number of the report.
+ 4. Every third network with a port added: sag, thevenin (of each side) and influence
     (transposed solves) agree with --solver sparse to 1e-9 (relative to the
     largest value of the report).
 Exit 0 when every check holds, 1 otherwise.
@@ -89,6 +93,37 @@ def check_lattice(exe, tmp, sizes):
     if not abs(d - r) <= 1e-9 * abs(d):
         bad.append("lattice %d: iterative %r, direct %r" % (sizes[-1], r, d))
     return bad
+
+
+STACKED = """title "Two cells in series into a logger divider"
+ground gnd
+voltage c1 gnd -> mid 3.6 V
+voltage c2 mid -> top 3.6 V
+resistor r1 top -> sense 10k
+resistor r2 sense -> gnd 4.7k
+port p1 sense -> adc
+resistor radc adc -> gnd 100k
+voltage fl sense -> island 1 V
+resistor ra island -> ib 1k
+resistor rb ib -> island 2k
+current ib1 ib -> island 1 mA
+"""
+
+
+def check_stacked(exe, tmp):
+    path = os.path.join(tmp, "stacked.stack")
+    with open(path, "w") as f:
+        f.write(STACKED)
+    a, b = run(exe, ["solve", path], "iterative"), run(exe, ["solve", path], "sparse")
+    if a.returncode or b.returncode:
+        return ["stacked cells: exit %d / %d: %s" % (a.returncode, b.returncode, a.stderr[-300:])]
+    ja, jb = json.loads(a.stdout), json.loads(b.stdout)
+    for j in (ja, jb):  # the error bounds are each path's own estimates
+        for p in j["parts"].values():
+            p.pop("error_bound", None)
+        j.pop("accuracy", None)
+    print("stacked cells: %s, V(sense) %.12g" % (ja["solver"]["method"], ja["nodes"]["sense"]))
+    return [] if ja["solver"]["method"] == "iterative-amg" and same_report(ja, jb) else ["stacked cells differ"]
 
 
 def numbers(x, out):
@@ -162,7 +197,7 @@ def main():
     count, seed = int(arg("--count", "12")), int(arg("--seed", "5"))
     failures = 0
     with tempfile.TemporaryDirectory() as tmp:
-        bad = check_lattice(exe, tmp, sizes)
+        bad = check_lattice(exe, tmp, sizes) + check_stacked(exe, tmp)
         for b in bad:
             print("  FAIL " + b)
         failures += bool(bad)
