@@ -288,10 +288,16 @@ ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
         return LS_E_ARGUMENT;
     if (!c->elaborated)
         return LS_E_CIRCUIT;
-    static const ls_solver_choice choice[] = {LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE};
+    static const ls_solver_choice choice[] = {LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE,
+                                              LS_CHOOSE_ITERATIVE};
+#ifdef LS_HAVE_AMG
+    const int last = LS_BACKEND_ITERATIVE;
+#else
+    const int last = LS_BACKEND_SPARSE; /* no iterative solver in this build */
+#endif
     ls_options o = {.solver = LS_CHOOSE_AUTO, .min_ratio = 0, .derate = 1};
     if (opt) {
-        if ((int)opt->backend < 0 || opt->backend > LS_BACKEND_SPARSE)
+        if ((int)opt->backend < 0 || (int)opt->backend > last)
             return LS_E_ARGUMENT;
         o.solver = choice[opt->backend];
         o.min_ratio = opt->min_ratio > 0 ? opt->min_ratio : 0;

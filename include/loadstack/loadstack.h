@@ -137,7 +137,11 @@ const char *ls_circuit_title(const ls_circuit *c);
 typedef enum ls_backend_choice {
     LS_BACKEND_AUTO = 0,      /* dense LU for small systems, sparse above */
     LS_BACKEND_DENSE,         /* LAPACK dense LU */
-    LS_BACKEND_SPARSE         /* SuiteSparse: Cholesky when symmetric positive definite, else LU */
+    LS_BACKEND_SPARSE,        /* SuiteSparse: Cholesky when symmetric positive definite, else LU */
+    LS_BACKEND_ITERATIVE      /* AMG-preconditioned CG (hypre), only in a library built with
+                                 -Dmpi=enabled (elsewhere LS_E_ARGUMENT); a circuit whose
+                                 resistances between nodes are not symmetric positive definite
+                                 is LS_E_UNSOLVABLE with a diagnostic (docs/iterative.md) */
 } ls_backend_choice;
 
 typedef struct ls_solve_options {
