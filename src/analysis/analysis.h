@@ -6,6 +6,7 @@
 
 #include "analysis/accuracy.h"
 #include "mna/mna.h"
+#include "solve/solver.h"
 
 /* LS_CHOOSE_ITERATIVE: AMG-PCG (amg.h), in the -Dmpi=enabled build only. */
 typedef enum ls_solver_choice { LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE, LS_CHOOSE_ITERATIVE } ls_solver_choice;

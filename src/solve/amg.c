@@ -34,6 +34,8 @@
  * refines against the whole A as it does for the direct solvers. */
 #ifdef LS_HAVE_AMG
 
+#include "base/csc.h"
+#include "base/unionfind.h"
 #include "solve/amg.h"
 #include "solve/sparse.h"
 
@@ -114,8 +116,6 @@ static void *amg_create(void)
     return calloc(1, sizeof(amg));
 }
 
-static void csc_release(ls_csc *a);
-
 /* Release the hypre objects (under the lock). */
 static void hypre_release(amg *h)
 {
@@ -141,7 +141,7 @@ static void hypre_release(amg *h)
 static void amg_release(amg *h)
 {
     hypre_release(h);
-    csc_release(&h->g);
+    ls_csc_free(&h->g);
     free(h->bp); free(h->bi); free(h->bv);
     free(h->cp); free(h->ci); free(h->cv);
     free(h->s); free(h->ipiv);
@@ -255,25 +255,6 @@ static int bare_nodes(ls_csc *g, double gpin, int *pin)
     return np;
 }
 
-/* ls_csc's arrays freed (the solver stage keeps no helper for it: the
- * assembly's ls_csc_free is a stage before this one). */
-static void csc_release(ls_csc *a)
-{
-    free(a->colptr);
-    free(a->rowind);
-    free(a->val);
-    a->colptr = a->rowind = NULL;
-    a->val = NULL;
-}
-
-/* The root of x's set, halving the path on the way. */
-static int root_of(int *parent, int x)
-{
-    while (parent[x] != x)
-        x = parent[x] = parent[parent[x]];
-    return x;
-}
-
 /* The components of G's graph with no conductance to ground: one node of
  * each into pin[] (at most m).  Returns their number, or -1 without memory. */
 static int floating_parts(const ls_csc *g, const unsigned char *strict, int *pin)
@@ -291,12 +272,12 @@ static int floating_parts(const ls_csc *g, const unsigned char *strict, int *pin
     for (int j = 0; j < m; j++)
         for (int p = g->colptr[j]; p < g->colptr[j + 1]; p++)
             if (g->rowind[p] != j && g->val[p] != 0)
-                parent[root_of(parent, g->rowind[p])] = root_of(parent, j);
+                ls_uf_union(parent, g->rowind[p], j);
     for (int j = 0; j < m; j++)
         if (strict[j])
-            grounded[root_of(parent, j)] = 1;
+            grounded[ls_uf_find(parent, j)] = 1;
     for (int j = 0; j < m; j++) {
-        int r = root_of(parent, j);
+        int r = ls_uf_find(parent, j);
         if (!grounded[r]) {
             grounded[r] = 1;
             pin[np++] = j;
@@ -726,7 +707,7 @@ int ls_amg_preferred(const ls_csc *a, int nodes)
              ls_csc_dominance(&g, strict) < 0;
     free(work);
     free(strict);
-    csc_release(&g);
+    ls_csc_free(&g);
     return ok && ls_csc_fill_per_column(a) >= AMG_MIN_FILL;
 }
 
