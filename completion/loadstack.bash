@@ -131,7 +131,7 @@ _loadstack()
     # Values of options.
     case $prev in
         --format) COMPREPLY=($(compgen -W "text json csv html" -- "$cur")); return ;;
-        --solver) COMPREPLY=($(compgen -W "auto dense sparse" -- "$cur")); return ;;
+        --solver) COMPREPLY=($(compgen -W "auto dense sparse iterative" -- "$cur")); return ;;
         --dist) COMPREPLY=($(compgen -W "uniform normal" -- "$cur")); return ;;
         --goal) COMPREPLY=($(compgen -W "margin yield current" -- "$cur")); return ;;
         --write)
