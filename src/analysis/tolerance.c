@@ -592,8 +592,8 @@ int ls_tol_pass_rate(const ls_netlist *nl, const ls_op *op, long trials, uint64_
     *rate = NAN;
     if (nv < 0)
         return -1;
-    mc_job job = {.base = nl, .opt = op->opt, .v = v, .nv = nv, .trials = trials, .seed = seed, .normal = normal,
-                  .accept = accept, .accept_ctx = ctx};
+    mc_job job = {.base = nl, .opt = op->opt, .v = v, .nv = nv, .trials = trials, .first = 0, .last = trials,
+                  .seed = seed, .normal = normal, .accept = accept, .accept_ctx = ctx};   /* one process: every trial */
     job.value = malloc((size_t)trials * sizeof *job.value);
     job.pass = malloc((size_t)trials);
     int rc = job.value && job.pass ? mc_all(&job, thread_count(trials)) : -1;
