@@ -14,6 +14,7 @@ is installed beside.
     >>> c.tol("adc_in", trials=10000, seed=1).yield_
     >>> c.sweep("moisture_r", 1e3, 100e3, ["adc_in"], log=True)
     >>> print(c.formula("adc_in", symbols=["r_top", "r_bot"]))
+    >>> loadstack.Circuit.from_file("circuits/level_shifter.stack").fit().chosen
 
 Numbers are SI floats without prefix (volts, amperes, ohms, watts).  A value
 with no finite answer is nan when undefined (0/0) and +-inf when unbounded
@@ -25,10 +26,10 @@ libloadstack.so.0.  In a build tree:
 
     LOADSTACK_LIBRARY=build/src/libloadstack.so PYTHONPATH=python python3 ...
 """
-from ._api import (Circuit, CircuitError, Diagnostic, Formula, InfluenceRow, LoadstackError, OperatingPoint,
+from ._api import (Circuit, CircuitError, Diagnostic, FitCandidate, FitResult, Formula, InfluenceRow, LoadstackError, OperatingPoint,
                    Part, Port, PortThevenin, SagReport, SagShare, SweepResult, Thevenin, ToleranceReport,
                    library_version)
 
-__all__ = ["Circuit", "CircuitError", "Diagnostic", "Formula", "InfluenceRow", "LoadstackError", "OperatingPoint",
+__all__ = ["Circuit", "CircuitError", "Diagnostic", "FitCandidate", "FitResult", "Formula", "InfluenceRow", "LoadstackError", "OperatingPoint",
            "Part", "Port", "PortThevenin", "SagReport", "SagShare", "SweepResult", "Thevenin", "ToleranceReport",
            "library_version"]

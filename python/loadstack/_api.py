@@ -103,6 +103,16 @@ class _TolInfo(ctypes.Structure):
                 ("pct", ctypes.c_double * 5), ("yield_", ctypes.c_double)]
 
 
+class _FitOptions(ctypes.Structure):
+    _fields_ = [("series", ctypes.c_char_p), ("aim", ctypes.c_int), ("top", ctypes.c_int), ("trials", ctypes.c_long),
+                ("seed", ctypes.c_ulonglong), ("law", ctypes.c_int)]
+
+
+class _FitCandidate(ctypes.Structure):
+    _fields_ = [("meets", ctypes.c_int), ("failed", ctypes.c_int), ("margin", ctypes.c_double),
+                ("yield_", ctypes.c_double), ("current", ctypes.c_double)]
+
+
 def _proto(name: str, restype, *argtypes) -> None:
     fn = getattr(_lib, name)
     fn.restype = restype
@@ -147,6 +157,9 @@ _proto("ls_circuit_sweep", _I, _P, ctypes.c_char_p, ctypes.c_double, ctypes.c_do
        ctypes.POINTER(ctypes.c_char_p), _I, ctypes.POINTER(_c_double_p), ctypes.POINTER(_c_double_p),
        ctypes.POINTER(_I))
 
+_proto("ls_circuit_fit", _I, _P, ctypes.POINTER(_FitOptions), ctypes.POINTER(ctypes.POINTER(_FitCandidate)),
+       ctypes.POINTER(_I), ctypes.POINTER(_c_double_p), ctypes.POINTER(_I),
+       ctypes.POINTER(ctypes.POINTER(ctypes.c_char_p)))
 _proto("ls_circuit_formula", _I, _P, ctypes.c_char_p, ctypes.c_char_p, _I, ctypes.POINTER(ctypes.c_void_p),
        _c_double_p)
 
@@ -406,6 +419,35 @@ class Formula:
 
     def __str__(self) -> str:
         return f"{self.quantity} = {self.text}"
+
+
+@dataclass(frozen=True)
+class FitCandidate:
+    """One set of standard values for the free parts (part name -> value in
+    its unit): whether it meets every expect, rule, port verdict and limit,
+    how many checks it fails, its smallest normalised margin, its Monte Carlo
+    yield (nan when not computed; `yield` is a Python keyword, hence yield_)
+    and the current it draws from the supplies (A)."""
+    values: Dict[str, float]
+    meets: bool
+    failed: int
+    margin: float
+    yield_: float
+    current: float
+
+
+@dataclass
+class FitResult:
+    """The candidates of `Circuit.fit`, best first, under its goal and
+    series; `chosen` is the first when it meets everything, else None (then
+    `candidates[0]` is the closest miss, as `loadstack fit` reports it)."""
+    goal: str
+    series: str
+    candidates: List[FitCandidate]
+
+    @property
+    def chosen(self) -> Optional[FitCandidate]:
+        return self.candidates[0] if self.candidates and self.candidates[0].meets else None
 
 
 @dataclass
@@ -696,6 +738,44 @@ class Circuit:
                                "corners" if info.corners else "sensitivity", info.rss, info.varying, info.trials,
                                seed, info.finite, info.mean, info.std, info.min, info.max,
                                dict(zip(keys, list(info.pct))), info.yield_, values)
+
+    def fit(self, goal: str = "margin", series: str = "E24", top: int = 5, trials: int = 2000, seed: int = 1,
+            dist: str = "uniform") -> FitResult:
+        """Standard values (IEC 60063) for the parts marked free=LO..HI that
+        meet every expect, rule and port verdict, as `loadstack fit` chooses
+        them: goal "margin" (the largest smallest margin), "yield" (Monte
+        Carlo over the parts' tol=, trials and seed as tol) or "current" (the
+        least supply current); series for a free part without snap=.  The
+        circuit keeps its written values."""
+        aims = {"margin": 0, "yield": 1, "current": 2}
+        if goal not in aims:
+            raise ValueError("goal is 'margin', 'yield' or 'current'")
+        if dist not in ("uniform", "normal"):
+            raise ValueError("dist is 'uniform' or 'normal'")
+        self._need_solved()
+        opt = _FitOptions(series.encode(), aims[goal], top, trials, seed, 1 if dist == "normal" else 0)
+        cands = ctypes.POINTER(_FitCandidate)()
+        ncands, nfree = ctypes.c_int(), ctypes.c_int()
+        vals = _c_double_p()
+        names = ctypes.POINTER(ctypes.c_char_p)()
+        n0 = len(self.diagnostics())
+        st = _lib.ls_circuit_fit(self._handle(), ctypes.byref(opt), ctypes.byref(cands), ctypes.byref(ncands),
+                                 ctypes.byref(vals), ctypes.byref(nfree), ctypes.byref(names))
+        if st == -1:
+            raise ValueError("fit: a bad option, no part marked free=, or a free range without a series value")
+        self._check(st, n0)
+        try:
+            free = [_s(names[j]) for j in range(nfree.value)]
+            out = []
+            for i in range(ncands.value):
+                k = cands[i]
+                out.append(FitCandidate({free[j]: vals[i * nfree.value + j] for j in range(nfree.value)},
+                                        bool(k.meets), k.failed, k.margin, k.yield_, k.current))
+        finally:
+            _lib.ls_free(cands)
+            _lib.ls_free(vals)
+            _lib.ls_free(names)
+        return FitResult(goal, series, out)
 
     def formula(self, quantity: str, symbols: Optional[Sequence[str]] = None, ideal: bool = False) -> Formula:
         """quantity as an exact formula of the parts' values, as `loadstack

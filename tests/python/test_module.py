@@ -132,6 +132,23 @@ for i, pt in enumerate(rs["points"]):
     same(f"sweep x[{i}]", float(sw.x[i]), pt["moisture_r"])
     close(f"sweep adc_in[{i}]", float(sw.y["adc_in"][i]), pt["adc_in"])
     close(f"sweep p_adc.sag[{i}]", float(sw.y["p_adc.sag"][i]), pt["p_adc.sag"])
+# fit on the level shifter, against `loadstack fit` (the same search, so the
+# same candidates, values and margins exactly)
+shifter = os.path.join(root, "circuits", "level_shifter.stack")
+cf = loadstack.Circuit.from_file(shifter)
+before = cf.solve().nodes["buf_out"]
+fr = cf.fit(top=3)
+rf = cli("fit", shifter, "--top", "3")
+same("fit candidates", len(fr.candidates), len(rf["candidates"]))
+for i, (mine, theirs) in enumerate(zip(fr.candidates, rf["candidates"])):
+    same(f"fit[{i}] values", mine.values == {k: float(v) for k, v in theirs["values"].items()}, True)
+    same(f"fit[{i}] meets", mine.meets, theirs["meets"])
+    same(f"fit[{i}] failed", mine.failed, theirs["failed"])
+    for key in ("margin", "current"):
+        same(f"fit[{i}] {key}", getattr(mine, key), theirs.get(key))
+same("fit chosen", fr.chosen is not None and fr.chosen.values == rf["chosen"]["values"], True)
+same("fit leaves the written values", cf.solve().nodes["buf_out"], before)
+cf.close()
 # formula: the same text and value as `loadstack formula`
 bridge = os.path.join(root, "circuits", "strain_bridge.stack")
 f = loadstack.Circuit.from_file(bridge).formula("out", symbols=["vex", "strain"])
