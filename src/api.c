@@ -734,7 +734,7 @@ ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info 
     /* the short-circuit current as the program finds it: exact where a part is nonlinear */
     ls_th_side side = {.node = k, .vth = vth, .rth = rth};
     ls_thevenin_norton(&c->op, &side, -1);
-    if (c->arena.failed)
+    if (c->arena.failed || side.nomem)
         return LS_E_NOMEM;
     out->vth = vth;
     out->rth = rth;
@@ -754,8 +754,7 @@ ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_
         return LS_E_NOT_FOUND;
     ls_th_side d, l;
     ls_thevenin_sides(&c->op, -1, i, NAN, NAN, &d, &l);
-    const char *oom = "out of memory";
-    if (c->arena.failed || (d.why_vth && !strcmp(d.why_vth, oom)) || (l.why_vth && !strcmp(l.why_vth, oom)))
+    if (c->arena.failed || d.nomem || l.nomem)
         return LS_E_NOMEM;
     *driver = (ls_thevenin_side){c->nl.nodes[d.node].name, d.vth, d.rth, d.norton,
                                  d.why_vth ? d.why_vth : d.why_norton};

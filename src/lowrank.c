@@ -1392,6 +1392,8 @@ static void port_report(ls_op *op, int pi, ls_port_result *r)
         r->loaded = r->current_mode ? r->current : op->v[p->pin[0]];
         r->note = "out of memory";
         r->verdict = VERDICT_LOADING;
+        /* an error, not a verdict: a command that reports this port fails (exit 3) */
+        ls_error(op->nl->diags, p->loc, "out of memory in the report of port '%s' (%d unknowns)", p->name, op->mna.n);
         return;
     }
     if (r->current_mode)
@@ -1604,6 +1606,8 @@ static int sag_resolve(ls_op *op, int node, ls_sag_item *it, const ls_runs *base
                 memcpy(it->limit, now, sizeof now);
             else
                 snprintf(it->limit, sizeof it->limit, "re-solved: no limit in force");
+        } else if (v.op.nomem) {
+            rc = -1;   /* no memory is no row without a solution */
         }
         ls_runs_restore(op->nl, base);
     }

@@ -460,6 +460,7 @@ int ls_newton_solve(ls_op *op)
         free(moving);
         saved_free(&start);
         ls_error(nl->diags, LS_NOLOC, "out of memory in the operating-point iteration");
+        op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
     set_shunt(nl, 0);
@@ -496,6 +497,7 @@ int ls_newton_solve(ls_op *op)
         code = LS_EXIT_UNSOLVABLE;
     } else {
         ls_error(nl->diags, LS_NOLOC, "out of memory in the operating-point iteration");
+        op->nomem = true;
         code = LS_EXIT_UNSOLVABLE;
     }
     free(moving);
