@@ -304,8 +304,8 @@ ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
     int w0 = c->diags.warnings;
     c->have_op = true;
     int code = ls_op_solve(&c->op, &c->nl, &o);
-    if (c->arena.failed)
-        return LS_E_NOMEM;
+    if (c->arena.failed || c->op.nomem || c->diags.nomem || c->diags.lost)
+        return LS_E_NOMEM;   /* no memory is no property of the circuit */
     if (code != LS_EXIT_OK)
         return LS_E_UNSOLVABLE;
     c->solved = true;
@@ -832,7 +832,7 @@ ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value)
     int w0 = c->diags.warnings;
     c->solved = false;
     if (ls_op_resolve(&c->op) != LS_EXIT_OK)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_UNSOLVABLE;
+        return c->arena.failed || c->op.nomem ? LS_E_NOMEM : LS_E_UNSOLVABLE;
     c->solved = true;
     return ok_status(c, w0);
 }
@@ -919,6 +919,9 @@ static ls_status sweep_point(ls_circuit *c, const char *let, double x, const cha
         if (e < 0)
             st = e;
     }
+    if (st < 0 && st != LS_E_NOMEM && p &&
+        (p->arena.failed || p->diags.nomem || p->diags.lost || (p->have_op && p->op.nomem)))
+        st = LS_E_NOMEM;   /* a point lost to memory is not a point without a solution */
     if (st == LS_E_CIRCUIT && report && p) {
         /* the first point's errors are the caller's to read */
         for (int i = 0; i < p->diags.n; i++)
