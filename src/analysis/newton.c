@@ -369,6 +369,10 @@ static run_status polish(ls_op *op, bool *moving)
     run_status r = step(op);
     if (r == RUN_OK)
         r = run(op, NEWTON_MAX / 3, moving);
+    if (r == RUN_NOMEM) { /* not a reason to keep the shunt: the answer would quietly differ */
+        saved_free(&with);
+        return r;
+    }
     if (r != RUN_OK || !(op->rcond >= POLISH_RCOND)) {
         restore(nl, &with);
         set_shunt(nl, 0);
