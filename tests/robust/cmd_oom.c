@@ -10,10 +10,21 @@
  * malloc, calloc and realloc wrapped (ld --wrap), so only their own
  * allocations are counted and failed (not those of LAPACK or SuiteSparse).
  *
+ * Every command is run (solve, check, sag with and without --what-if,
+ * thevenin at a node and at a port with --load, influence, tol and sweep with
+ * their plots, pick, chain, formula) in text, JSON and CSV on a linear
+ * divider, and the ones with solves of their own also in JSON on a circuit
+ * with an LED, whose every solve iterates and allocates.  The HTML page is
+ * left out: cairo numbers the glyphs and surfaces of its SVG pictures per
+ * process, so two pages made in one process differ even with enough memory.
+ *
  * Usage: cmd_oom DIR [sparse|large]  (DIR: a scratch directory; "sparse":
  * every command in JSON with --solver sparse; "large": solve, thevenin and
  * influence on a ladder of 1601 unknowns, above the dense choice's 1500, so
- * the automatic choice takes the sparse path with its larger tables). */
+ * the automatic choice takes the sparse path with its larger tables).
+ * For debugging: CMD_OOM_ONLY=COMMAND, CMD_OOM_FORMAT=0..2 (text, JSON, CSV),
+ * CMD_OOM_SHOW=1 (print the report, stderr and the reference of a wrong
+ * outcome), CMD_OOM_TRACE=1 (a backtrace of every failed allocation). */
 #include <execinfo.h>
 #include <fcntl.h>
 #include <stdatomic.h>
