@@ -14,6 +14,9 @@
 # and fix it.
 #   LOADSTACK_FUZZ_SECONDS  length of the session (default 60)
 #   LOADSTACK_FUZZ_BUILD    build directory (default build-fuzz)
+#   LOADSTACK_FUZZ_KEEP     a directory to keep the session in: both targets'
+#                           logs (executions, coverage) and the grown corpus
+#                           (for a release run's record; default: nothing kept)
 set -uo pipefail
 cd "$(dirname "$0")/.."
 root=$PWD
@@ -60,6 +63,12 @@ for target in fuzz_circuit fuzz_commands; do
   tail -8 "$work/$target.log"
 done
 cat "$work"/fuzz_*.log > "$work/fuzz.log"
+if [ -n "${LOADSTACK_FUZZ_KEEP:-}" ]; then
+  mkdir -p "$LOADSTACK_FUZZ_KEEP/corpus"
+  cp "$work"/fuzz_*.log "$LOADSTACK_FUZZ_KEEP/"
+  cp "$work/corpus/"* "$LOADSTACK_FUZZ_KEEP/corpus/" 2>/dev/null
+  cp -r "$work/artifacts" "$LOADSTACK_FUZZ_KEEP/" 2>/dev/null
+fi
 # crash-, leak-, timeout- and oom- files are faults; a slow-unit- file is only
 # a note (an input that is legitimately large, such as a million instances)
 found=$(ls "$work/artifacts" | grep -cv 'slow-unit-')

@@ -312,8 +312,8 @@ ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
     int w0 = c->diags.warnings;
     c->have_op = true;
     int code = ls_op_solve(&c->op, &c->nl, &o);
-    if (c->arena.failed)
-        return LS_E_NOMEM;
+    if (c->arena.failed || c->op.nomem || c->diags.nomem || c->diags.lost)
+        return LS_E_NOMEM;   /* no memory is no property of the circuit */
     if (code != LS_EXIT_OK)
         return LS_E_UNSOLVABLE;
     c->solved = true;
@@ -741,7 +741,7 @@ ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info 
     /* the short-circuit current as the program finds it: exact where a part is nonlinear */
     ls_th_side side = {.node = k, .vth = vth, .rth = rth};
     ls_thevenin_norton(&c->op, &side, -1);
-    if (c->arena.failed)
+    if (c->arena.failed || side.nomem)
         return LS_E_NOMEM;
     out->vth = vth;
     out->rth = rth;
@@ -761,8 +761,7 @@ ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_
         return LS_E_NOT_FOUND;
     ls_th_side d, l;
     ls_thevenin_sides(&c->op, -1, i, NAN, NAN, &d, &l);
-    const char *oom = "out of memory";
-    if (c->arena.failed || (d.why_vth && !strcmp(d.why_vth, oom)) || (l.why_vth && !strcmp(l.why_vth, oom)))
+    if (c->arena.failed || d.nomem || l.nomem)
         return LS_E_NOMEM;
     *driver = (ls_thevenin_side){c->nl.nodes[d.node].name, d.vth, d.rth, d.norton,
                                  d.why_vth ? d.why_vth : d.why_norton};
@@ -840,7 +839,7 @@ ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value)
     int w0 = c->diags.warnings;
     c->solved = false;
     if (ls_op_resolve(&c->op) != LS_EXIT_OK)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_UNSOLVABLE;
+        return c->arena.failed || c->op.nomem ? LS_E_NOMEM : LS_E_UNSOLVABLE;
     c->solved = true;
     return ok_status(c, w0);
 }
@@ -994,6 +993,9 @@ static ls_status sweep_point(ls_circuit *c, const char *let, double x, const cha
         if (e < 0)
             st = e;
     }
+    if (st < 0 && st != LS_E_NOMEM && p &&
+        (p->arena.failed || p->diags.nomem || p->diags.lost || (p->have_op && p->op.nomem)))
+        st = LS_E_NOMEM;   /* a point lost to memory is not a point without a solution */
     if (st == LS_E_CIRCUIT && report && p) {
         /* the first point's errors are the caller's to read */
         for (int i = 0; i < p->diags.n; i++)

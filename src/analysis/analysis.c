@@ -251,6 +251,7 @@ static int factor(ls_op *op)
         op->solver = ls_solver_new(be, m);
         if (!op->solver) {
             ls_error(nl->diags, LS_NOLOC, "out of memory creating the solver");
+            op->nomem = true;
             return LS_EXIT_UNSOLVABLE;
         }
         ls_solver_set_nodes(op->solver, op->mna.nn);
@@ -278,6 +279,7 @@ static int factor(ls_op *op)
                      "alone takes %.1f MB)",
                      ss->library, op->mna.n, ls_csc_nnz(&op->mna.a),
                      (double)ls_csc_nnz(&op->mna.a) * (sizeof(double) + sizeof(int)) / 1e6);
+            op->nomem = true;
             return LS_EXIT_UNSOLVABLE;
         }
         if (st == LS_SOLVER_TOO_LARGE || st == LS_SOLVER_NOMEM) {
@@ -286,6 +288,7 @@ static int factor(ls_op *op)
                      ss->bytes_needed / 1e6,
                      st == LS_SOLVER_TOO_LARGE ? " and takes at most " "8000 unknowns: use --solver sparse"
                                                : ", more memory than is available");
+            op->nomem = st == LS_SOLVER_NOMEM;
             return LS_EXIT_UNSOLVABLE;
         }
         if (st == LS_SOLVER_SINGULAR && ls_newton_open_loop(op, ss->bad_column)) {
@@ -293,6 +296,7 @@ static int factor(ls_op *op)
             ls_solver_free(&op->solver);
             if (ls_mna_restamp(&op->mna) != 0) {
                 ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
+                op->nomem = true;
                 return LS_EXIT_UNSOLVABLE;
             }
             attempt--;
@@ -418,6 +422,24 @@ int ls_op_step(ls_op *op)
     return st;
 }
 
+/* A solve or re-solve that failed in the linear algebra with status st
+ * (LS_SOLVER_*) while `doing` ("solving", "refining the solution"): the error
+ * in the diagnostics; out of memory also sets op->nomem, so that a caller
+ * does not take it for a circuit without a solution.  Returns
+ * LS_EXIT_UNSOLVABLE. */
+static int solve_failed(ls_op *op, int st, const char *doing)
+{
+    if (st != LS_SOLVER_NOMEM && iterative_failed(op, st)) /* the iterative solver's own reasons */
+        return LS_EXIT_UNSOLVABLE;
+    if (st == LS_SOLVER_NOMEM) {
+        op->nomem = true;
+        ls_error(op->nl->diags, LS_NOLOC, "out of memory %s (%d unknowns)", doing, op->mna.n);
+    } else {
+        ls_error(op->nl->diags, LS_NOLOC, "the linear solver failed while %s", doing);
+    }
+    return LS_EXIT_UNSOLVABLE;
+}
+
 int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
 {
     memset(op, 0, sizeof *op);
@@ -430,33 +452,29 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (!ls_blas_buffer_fits()) { /* else OpenBLAS would wait for it forever (memprobe.h) */
         ls_error(nl->diags, LS_NOLOC, "out of memory before the solve: the linear algebra library needs work "
                  "buffers of %.1f MB that the process cannot get", 2.0 * (double)LS_BLAS_BUFFER_BYTES / 1e6);
+        op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
     if (!o->keep_states)
         ls_newton_init(nl);
     if (ls_mna_build_variant(&op->mna, nl, o->opened, o->ties) != 0 || alloc_results(op) != 0) {
         ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
+        op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
     int r = factor(op);
     if (r != LS_EXIT_OK)
         return r;
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    int sst = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements);
-    if (sst != LS_SOLVER_OK) {
-        if (!iterative_failed(op, sst))
-            ls_error(nl->diags, LS_NOLOC, "the linear solver failed while solving");
-        return LS_EXIT_UNSOLVABLE;
-    }
+    if ((r = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements)) != LS_SOLVER_OK)
+        return solve_failed(op, r, "solving");
     op->iterations = 1;
     op->cg_iterations = ls_solver_stats_of(op->solver)->cg_iterations;
     op->cg_residual = ls_solver_stats_of(op->solver)->cg_residual;
     if (!o->linear_only && ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
         return r;
-    if (polish(op) != 0) {
-        ls_error(nl->diags, LS_NOLOC, "out of memory refining the solution");
-        return LS_EXIT_UNSOLVABLE;
-    }
+    if (polish(op) != 0)
+        return solve_failed(op, LS_SOLVER_NOMEM, "refining the solution");
     part_results(op);
     /* (sag's variants with ports opened or tied are left out: not yet
      * checked, see docs/limits.md) */
@@ -492,8 +510,9 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
 int ls_op_resolve(ls_op *op)
 {
     const ls_netlist *nl = op->nl;
+    op->nomem = false;
     if (ls_mna_restamp(&op->mna) != 0)
-        return LS_EXIT_UNSOLVABLE;
+        return solve_failed(op, LS_SOLVER_NOMEM, "assembling the system");
     int st = ls_solver_factor(op->solver, &op->mna.a);
     const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
     op->rcond = ss->rcond;
@@ -502,10 +521,10 @@ int ls_op_resolve(ls_op *op)
         return LS_EXIT_UNSOLVABLE;
     }
     if (st != LS_SOLVER_OK)
-        return LS_EXIT_UNSOLVABLE;
+        return solve_failed(op, st, "factoring");
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    if (refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements) != LS_SOLVER_OK)
-        return LS_EXIT_UNSOLVABLE;
+    if ((st = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements)) != LS_SOLVER_OK)
+        return solve_failed(op, st, "solving");
     op->iterations = 1;
     if (ls_newton_needed(nl)) {
         int r = ls_newton_solve(op);
@@ -513,7 +532,7 @@ int ls_op_resolve(ls_op *op)
             return r;
     }
     if (polish(op) != 0)
-        return LS_EXIT_UNSOLVABLE;
+        return solve_failed(op, LS_SOLVER_NOMEM, "refining the solution");
     part_results(op);
     if (ls_selfcheck_on() && ls_selfcheck(op) != 0)
         return LS_EXIT_UNSOLVABLE;

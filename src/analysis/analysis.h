@@ -66,6 +66,9 @@ typedef struct ls_op {
     double *work;            /* refinement workspace: 3 work_n doubles */
     size_t work_n;
     ls_accuracy acc;         /* extra-precise tail of x and the error bounds (accuracy.h) */
+    bool nomem;              /* the last ls_op_solve / ls_op_resolve failed because memory ran out
+                                (not a property of the circuit: a caller must not count it as
+                                "not solved") */
 } ls_op;
 
 /* "; the widest spread of values is resistor 'a' (...) against 'b' (...)",
@@ -83,6 +86,8 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o);
  * the circuit has nonlinear parts or limited op-amps).  Port results are
  * recomputed on demand.  The warnings of ls_op_solve are not repeated. */
 int ls_op_resolve(ls_op *op);
+/* Both set op->nomem when they fail because memory ran out (with an "out of
+ * memory" error in the netlist's diagnostics), and clear it otherwise. */
 void ls_op_free(ls_op *op);
 double ls_op_min_ratio(const ls_op *op);
 

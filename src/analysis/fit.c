@@ -42,6 +42,7 @@ typedef struct fit_run {
     size_t seen_cap, seen_n;
     long total_hint;         /* for the progress line */
     double *scratch;         /* nvars values */
+    bool nomem;              /* a candidate's solve ran out of memory: the search has no answer */
 } fit_run;
 
 /* Relative distance of v above lo (one-sided limit): scaled by |lo|, else by
@@ -300,7 +301,12 @@ static bool solve_at(fit_run *r, const double *values)
             *nl->parts[i].run = r->runs0[k++];
     if (f->op->mna.n > 0)
         memcpy(f->op->x, r->x0, (size_t)f->op->mna.n * sizeof *r->x0);
-    return ls_op_resolve(f->op) == LS_EXIT_OK;
+    if (ls_op_resolve(f->op) == LS_EXIT_OK)
+        return true;
+    /* a solve without memory says nothing of the candidate: never ranked as
+     * one that does not solve (docs/limits.md, out of memory) */
+    r->nomem |= f->op->nomem;
+    return false;
 }
 
 /* Summarise the checks on the solved op into c (and keep them when c->checks
@@ -962,16 +968,22 @@ int ls_fit_run(ls_fit_study *f)
     f->nl->diags = &scratch;   /* a candidate that does not solve is a candidate that fails, not an error */
     code = LS_FIT_NOMEM;
     if (r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0 &&
-        rank_finalists(&r) == 0 && report_checks(&r) == 0)
+        rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_FIT_OK;
     double *start = r.scratch;
     for (int j = 0; start && j < f->nvars; j++)
         start[j] = f->vars[j].start;
     bool back = start && r.x0 && r.runs0 && solve_at(&r, start);   /* the session's op as it was */
     f->nl->diags = kept;
+    /* a port report or an expect that ran short of memory during the search
+     * left its error in the scratch list: the candidates are not what they seem */
+    if (scratch.nomem > 0 && code == LS_FIT_OK)
+        code = LS_FIT_NOMEM;
+    if (scratch.nomem > 0)
+        r.nomem = true;
     ls_diags_free(&scratch);
     if (code == LS_FIT_OK && !back)
-        code = LS_EXIT_UNSOLVABLE;
+        code = r.nomem ? LS_FIT_NOMEM : LS_EXIT_UNSOLVABLE;
     f->best = r.keep;
     f->nbest = r.nkeep;
     f->any_feasible = r.nkeep > 0 && r.keep[0].meets;

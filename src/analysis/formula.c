@@ -46,6 +46,7 @@ typedef struct fsym {
 } fsym;
 
 typedef struct fx {
+    bool nomem;              /* a text ran out of memory: the run fails rather than print another form */
     ls_op *op;
     const ls_netlist *nl;
     const ls_program *prog;
@@ -2023,6 +2024,7 @@ static char *factored_text(fx *F, const rf *a)
     fmpq_init(k);
     fmpq_div(k, fn.k, fd.k);
     group *g = calloc((size_t)(fn.n + fd.n + 1), sizeof *g);
+    bool lost = !g;   /* out of memory: a factor's text is missing or cut short */
     int ng = 0;
     sbuf b = {0};
     /* parallel pairs */
@@ -2065,6 +2067,7 @@ static char *factored_text(fx *F, const rf *a)
         sb_put(&t, " || ");
         sb_put(&t, F->sym[va < vb ? vb : va].name);
         sb_put(&t, ")");
+        lost |= t.failed;
         g[ng++] = (group){t.s, va < vb ? va : vb};
     }
     /* ratios: a denominator factor with the numerator factor that belongs to it */
@@ -2102,6 +2105,7 @@ static char *factored_text(fx *F, const rf *a)
             }
             if (t.s) {
                 nf->used = d->used = true;
+                lost |= t.failed;
                 g[ng++] = (group){t.s, first_var(F, nf->p)};
                 break;
             }
@@ -2130,6 +2134,7 @@ static char *factored_text(fx *F, const rf *a)
         sb_put(&t, " / ");
         put_factor(F, &t, d);
         d->used = true;
+        lost |= t.failed;
         g[ng++] = (group){t.s, key};
     }
     /* the rest of the numerator, one factor each */
@@ -2138,6 +2143,7 @@ static char *factored_text(fx *F, const rf *a)
             continue;
         sbuf t = {0};
         put_factor(F, &t, &fn.f[j]);
+        lost |= t.failed;
         g[ng++] = (group){t.s, first_var(F, fn.f[j].p)};
     }
     if (g)
@@ -2206,7 +2212,12 @@ static char *factored_text(fx *F, const rf *a)
     fmpq_clear(k);
     factored_clear(F, &fn);
     factored_clear(F, &fd);
-    return b.failed ? (free(b.s), NULL) : b.s;
+    if (lost || b.failed) { /* not "not available": the text would silently differ */
+        F->nomem = true;
+        free(b.s);
+        return NULL;
+    }
+    return b.s;
 }
 
 /* The expanded text of a polynomial, parenthesized when it has more than one
@@ -2536,7 +2547,7 @@ static int write_texts(fx *F, rf *a, ls_formula_result *res)
         }
     }
     rf_clear(F, &part);
-    return LS_EXIT_OK;
+    return F->nomem ? LS_EXIT_UNSOLVABLE : LS_EXIT_OK;
 }
 
 /* The symbols the final formula uses, in order. */

@@ -1296,8 +1296,10 @@ static void finish_report(ls_op *op, int pi, ls_port_result *r);
  * so zout = a_ff - a_fk a_kf / a_kk, zin = a_tt - a_tk a_kt / a_kk and
  * open = x_f - a_fk x_k / a_kk.  Rows f (or t) and k cost one transposed
  * solve each.  Returns false (nothing set) when a_kk is too small to trust:
- * then opening the port may leave nodes undetermined, for the general path. */
-static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r)
+ * then opening the port may leave nodes undetermined, for the general path;
+ * also false, with *nomem set, when memory ran out (then the general path,
+ * whose numbers differ in the last digits, must not stand in for it). */
+static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r, bool *nomem)
 {
     int n = op->mna.n, f = p->pin[0] - 1, t = p->pin[1] - 1, k = p->branch;
     if (f == t)
@@ -1310,7 +1312,13 @@ static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r)
     if (ok) {
         yk[k] = 1;
         ys[s] = 1;
-        ok = base_solve(op, yk, 1, anorm) == LS_SOLVER_OK && base_solve(op, ys, 1, anorm) == LS_SOLVER_OK;
+        int st = base_solve(op, yk, 1, anorm);
+        if (st == LS_SOLVER_OK)
+            st = base_solve(op, ys, 1, anorm);
+        ok = st == LS_SOLVER_OK;
+        *nomem = st == LS_SOLVER_NOMEM;
+    } else {
+        *nomem = true;
     }
     /* rows f and t of A^-1 at columns f, t, k (a ground end's row is 0) */
     double af[3] = {0, 0, 0}, at[3] = {0, 0, 0};   /* columns f, t, k */
@@ -1374,17 +1382,20 @@ static void port_report(ls_op *op, int pi, ls_port_result *r)
     r->adc = -1;
     r->budget = NAN;
     r->load_open = NAN;
-    bool held = !r->current_mode && load_floats_when_open(op, pi);
-    if (held ? port_held(op, pi, r) : !r->current_mode && port_fast(op, p, r)) {
+    bool held = !r->current_mode && load_floats_when_open(op, pi), nomem = false;
+    if (held ? port_held(op, pi, r) : !r->current_mode && port_fast(op, p, r, &nomem)) {
         finish_report(op, pi, r);
         return;
     }
-    ls_mod *m = held ? NULL : ls_mod_new(op, pi, MOD_REMOVE_PART);   /* a held side failed only for memory */
+    /* a held side failed only for memory */
+    ls_mod *m = held || nomem ? NULL : ls_mod_new(op, pi, MOD_REMOVE_PART);
     if (!m) {
         r->open = r->zout = r->zin = r->sag = r->sag_rel = r->ratio = NAN;
         r->loaded = r->current_mode ? r->current : op->v[p->pin[0]];
         r->note = "out of memory";
         r->verdict = VERDICT_LOADING;
+        /* an error, not a verdict: a command that reports this port fails (exit 3) */
+        ls_error(op->nl->diags, p->loc, "out of memory in the report of port '%s' (%d unknowns)", p->name, op->mna.n);
         return;
     }
     if (r->current_mode)
@@ -1597,6 +1608,8 @@ static int sag_resolve(ls_op *op, int node, ls_sag_item *it, const ls_runs *base
                 memcpy(it->limit, now, sizeof now);
             else
                 snprintf(it->limit, sizeof it->limit, "re-solved: no limit in force");
+        } else if (v.op.nomem) {
+            rc = -1;   /* no memory is no row without a solution */
         }
         ls_runs_restore(op->nl, base);
     }

@@ -369,6 +369,10 @@ static run_status polish(ls_op *op, bool *moving)
     run_status r = step(op);
     if (r == RUN_OK)
         r = run(op, NEWTON_MAX / 3, moving);
+    if (r == RUN_NOMEM) { /* not a reason to keep the shunt: the answer would quietly differ */
+        saved_free(&with);
+        return r;
+    }
     if (r != RUN_OK || !(op->rcond >= POLISH_RCOND)) {
         restore(nl, &with);
         set_shunt(nl, 0);
@@ -460,6 +464,7 @@ int ls_newton_solve(ls_op *op)
         free(moving);
         saved_free(&start);
         ls_error(nl->diags, LS_NOLOC, "out of memory in the operating-point iteration");
+        op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
     set_shunt(nl, 0);
@@ -496,6 +501,7 @@ int ls_newton_solve(ls_op *op)
         code = LS_EXIT_UNSOLVABLE;
     } else {
         ls_error(nl->diags, LS_NOLOC, "out of memory in the operating-point iteration");
+        op->nomem = true;
         code = LS_EXIT_UNSOLVABLE;
     }
     free(moving);

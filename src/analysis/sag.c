@@ -128,6 +128,7 @@ typedef struct combos {
     double *vals;
     unsigned char *used;
     size_t cap;
+    bool nomem;              /* a combination's solve ran out of memory */
 } combos;
 
 /* NODE's voltage (V) with the ports of mask connected and the others open,
@@ -144,10 +145,14 @@ static double solve_mask(combos *c, uint64_t mask)
     for (int k = 0; k < c->P; k++)
         if (!(mask >> k & 1))
             c->v.opened[c->ports[k].part] = LS_BUFFERED;
-    if (ls_variant_hold_floating(&c->v, c->op) < 0)
+    if (ls_variant_hold_floating(&c->v, c->op) < 0) {
+        c->nomem = true;
         return NAN;
-    if (c->v.floating[c->node] || ls_variant_solve(&c->v, c->op, false) != LS_EXIT_OK)
+    }
+    if (c->v.floating[c->node] || ls_variant_solve(&c->v, c->op, false) != LS_EXIT_OK) {
+        c->nomem |= c->v.op.nomem;
         return NAN;
+    }
     return c->v.op.v[c->node];
 }
 
@@ -272,6 +277,8 @@ static int shapley(ls_op *op, ls_sag_report *r, const ls_runs *base)
         rc = shapley_sampled(&c, r->alone, phi, orders);
     }
     ls_runs_restore(op->nl, base);
+    if (c.nomem) /* a combination lost to memory is not one without a solution */
+        rc = -1;
     if (rc == 0) {
         r->method = LS_SAG_SHAPLEY;
         r->orders = orders;
@@ -355,7 +362,7 @@ static int open_every_port(ls_op *op, ls_sag_report *r, const ls_runs *base, boo
     if (rc == 0 && ls_variant_solve(&v, op, !nonlinear) != LS_EXIT_OK) {
         r->why = nonlinear ? "with every port opened the circuit cannot be solved (its iteration does not settle)"
                            : "with every port opened the circuit has no DC solution";
-        rc = 1;
+        rc = v.op.nomem ? -1 : 1;
     }
     if (rc == 0) {
         r->alone = v.op.v[r->node];
@@ -363,8 +370,10 @@ static int open_every_port(ls_op *op, ls_sag_report *r, const ls_runs *base, boo
         if (nonlinear && ls_states_differ(op->nl, base, &what))
             r->changed = what;
         ls_runs_restore(op->nl, base);
-        if (nonlinear && ls_variant_solve(&v, op, true) != LS_EXIT_OK)
+        if (nonlinear && ls_variant_solve(&v, op, true) != LS_EXIT_OK) {
             *no_z = true;
+            rc = v.op.nomem ? -1 : 0;
+        }
     }
     double *z = rc == 0 && !*no_z ? malloc((size_t)(op->mna.n ? op->mna.n : 1) * sizeof *z) : NULL;
     if (rc == 0 && !*no_z && !z)

@@ -17,6 +17,11 @@
 #include "lang/lexer.h"
 #include "analysis/lowrank.h"
 
+/* The error of a gradient that ran out of memory (compared by address:
+ * ls_sens then returns LS_SENS_NOMEM, which a caller must not take for a
+ * quantity without derivatives). */
+static const char nomem_error[] = "out of memory";
+
 typedef struct ctx {
     ls_op *op;
     int np;
@@ -203,7 +208,7 @@ static bool port_piece(ctx *c, int j, piece what, dual *out)
     const ls_part *p = &c->op->nl->parts[j];
     const ls_port_result *pr = ls_op_port(c->op, j);
     if (!pr) {
-        c->error = "out of memory";
+        c->error = nomem_error;
         return false;
     }
     out->v = what == PIECE_OPEN ? pr->open : what == PIECE_ZOUT ? pr->zout : pr->zin;
@@ -220,7 +225,7 @@ static bool port_piece(ctx *c, int j, piece what, dual *out)
     ls_mod *m = ls_mod_new(c->op, j, shorted ? MOD_SHORT_PORT_TO_GROUND
                                    : pr->load_held ? MOD_HOLD_PORT_LOAD : MOD_REMOVE_PART);
     if (!m) {
-        c->error = "out of memory";
+        c->error = nomem_error;
         return false;
     }
     bool ok = true;
@@ -265,7 +270,7 @@ static bool port_field(ctx *c, int j, ls_prop prop, dual *out)
 {
     const ls_port_result *pr = ls_op_port(c->op, j);
     if (!pr) {
-        c->error = "out of memory";
+        c->error = nomem_error;
         return false;
     }
     dual b = {0};
@@ -383,6 +388,8 @@ static bool leaf_drop(ctx *c, int j, dual *out)
 static bool alloc_dual(ctx *c, dual *d)
 {
     d->g = calloc((size_t)(c->np ? c->np : 1), sizeof *d->g);
+    if (!d->g)
+        c->error = nomem_error;
     return d->g != NULL;
 }
 
@@ -473,7 +480,7 @@ static bool port_budget_dual(ctx *c, int j, dual *out)
     const ls_part *p = &nl->parts[j];
     const ls_port_result *pr = ls_op_port(c->op, j);
     if (!pr) {
-        c->error = "out of memory";
+        c->error = nomem_error;
         return false;
     }
     int bi = ls_kind_opt(p->kind, "budget");
@@ -662,12 +669,15 @@ int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
     *items = NULL;
     if (!alloc_dual(&c, &d)) {
         ls_error(nl->diags, LS_NOLOC, "out of memory in the sensitivity analysis (%d parts)", nl->nparts);
-        return -1;
+        return LS_SENS_NOMEM;
     }
     if (!eval(&c, q, &d)) {
-        ls_error(nl->diags, q->loc, "%s", c.error ? c.error : "the sensitivity analysis failed");
+        if (c.error == nomem_error)
+            ls_error(nl->diags, q->loc, "out of memory in the sensitivity analysis (%d parts)", nl->nparts);
+        else
+            ls_error(nl->diags, q->loc, "%s", c.error ? c.error : "the sensitivity analysis failed");
         free(d.g);
-        return -1;
+        return c.error == nomem_error ? LS_SENS_NOMEM : -1;
     }
     *value = d.v;
     int k = 0;
@@ -676,7 +686,7 @@ int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
         ls_error(nl->diags, LS_NOLOC, "out of memory in the sensitivity analysis (%zu bytes for %d parts)",
                  (size_t)(nl->nparts ? nl->nparts : 1) * sizeof *it, nl->nparts);
         free(d.g);
-        return -1;
+        return LS_SENS_NOMEM;
     }
     for (int m = 0; m < nl->nparts; m++) {
         const ls_part *p = &nl->parts[m];

@@ -14,7 +14,9 @@ typedef struct ls_sens_item {
 } ls_sens_item;
 
 /* Fill items (one per part that has a main value; caller frees *items).
- * Returns the count, or -1 with an error reported (unsupported leaf, no memory). */
+ * Returns the count, or -1 with an error reported (a quantity with no
+ * adjoint derivative), or LS_SENS_NOMEM with an error reported (no memory). */
+#define LS_SENS_NOMEM (-2)
 int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items);
 
 #endif

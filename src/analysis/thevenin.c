@@ -13,8 +13,9 @@
 
 /* NODE's voltage with a resistance r (ohm) from it to ground, solved with
  * every limit active; `opened` part (a port, or -1) disconnected.  The limits
- * in force then go into limited.  NaN when that circuit cannot be solved. */
-static double loaded_exact(ls_op *op, int node, int opened, double r, char *limited, size_t n)
+ * in force then go into limited.  NaN when that circuit cannot be solved, or
+ * (with *nomem set) when memory ran out. */
+static double loaded_exact(ls_op *op, int node, int opened, double r, char *limited, size_t n, bool *nomem)
 {
     ls_runs base = {0};
     ls_variant v;
@@ -22,14 +23,18 @@ static double loaded_exact(ls_op *op, int node, int opened, double r, char *limi
     snprintf(limited, n, "unsolved");
     if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
         ls_runs_free(&base);
+        *nomem = true;
         return NAN;
     }
     if (opened >= 0)
         v.opened[opened] = LS_OPENED;
     v.ties[node] = (ls_tie){1 / r, 0};
-    if (ls_variant_hold_floating(&v, op) >= 0 && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
+    int held = ls_variant_hold_floating(&v, op);
+    if (held >= 0 && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
         out = v.op.v[node];
         ls_limits_in_force(op->nl, &base, limited, n);
+    } else if (held < 0 || v.op.nomem) {
+        *nomem = true;
     }
     ls_runs_restore(op->nl, &base);
     ls_runs_free(&base);
@@ -39,13 +44,13 @@ static double loaded_exact(ls_op *op, int node, int opened, double r, char *limi
 
 /* A load of r ohm on side t: linear circuits by the equivalent's closed form,
  * anything with a limit or a junction by an exact solve. */
-static double side_loaded(ls_op *op, const ls_th_side *t, int opened, double r, char *limited, size_t n)
+static double side_loaded(ls_op *op, ls_th_side *t, int opened, double r, char *limited, size_t n)
 {
     if (!ls_newton_needed(op->nl)) {
         snprintf(limited, n, "none");
         return isinf(t->rth) ? 0 : t->vth * r / (r + t->rth);
     }
-    return loaded_exact(op, t->node, opened, r, limited, n);
+    return loaded_exact(op, t->node, opened, r, limited, n, &t->nomem);
 }
 
 /* The short-circuit current of side t: vth / rth in a linear circuit; with
@@ -58,7 +63,7 @@ void ls_thevenin_norton(ls_op *op, ls_th_side *t, int opened)
     bool exact = ls_newton_needed(op->nl) && isfinite(t->vth) && !isnan(t->rth) && !isinf(t->rth);
     if (exact) {
         double r = 1e-9 * (t->rth > 0 ? t->rth : 1 / op->g_pin);
-        double v = loaded_exact(op, t->node, opened, r, t->norton_limited, sizeof t->norton_limited);
+        double v = loaded_exact(op, t->node, opened, r, t->norton_limited, sizeof t->norton_limited, &t->nomem);
         if (isnan(v)) {
             t->norton = NAN;
             t->why_norton = "unsolved";
@@ -87,9 +92,9 @@ static void side_loads(ls_op *op, ls_th_side *t, int opened, double rload, doubl
 }
 
 /* The node's own voltage with port pi opened, solved exactly; NaN when the
- * node is then left without a DC path (nothing sets it: *why stays NULL), or
- * with *why "unsolved" or "out of memory". */
-static double opened_voltage(ls_op *op, int pi, int node, const char **why)
+ * node is then left without a DC path (nothing sets it: *why stays NULL),
+ * with *why "unsolved", or with *nomem set when memory ran out. */
+static double opened_voltage(ls_op *op, int pi, int node, const char **why, bool *nomem)
 {
     ls_runs base = {0};
     ls_variant v;
@@ -97,18 +102,21 @@ static double opened_voltage(ls_op *op, int pi, int node, const char **why)
     *why = NULL;
     if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
         ls_runs_free(&base);
-        *why = "out of memory";
+        *why = "unsolved";
+        *nomem = true;
         return NAN;
     }
     v.opened[pi] = LS_OPENED;
     int held = ls_variant_hold_floating(&v, op);
-    if (held < 0)
-        *why = "out of memory";
-    else if (!v.floating[node]) {
+    if (held < 0) {
+        *why = "unsolved";
+        *nomem = true;
+    } else if (!v.floating[node]) {
         if (ls_variant_solve(&v, op, false) == LS_EXIT_OK)
             out = v.op.v[node];
         else
             *why = "unsolved";
+        *nomem |= v.op.nomem;
     }
     ls_runs_restore(op->nl, &base);
     ls_runs_free(&base);
@@ -132,15 +140,20 @@ void ls_thevenin_sides(ls_op *op, int node, int port, double rload, double rmete
     }
     const ls_part *p = &op->nl->parts[port];
     const ls_port_result *pr = ls_op_port(op, port);
+    if (!pr) { /* the port report ran out of memory */
+        drv->nomem = ld->nomem = true;
+        drv->vth = drv->rth = drv->norton = ld->vth = ld->rth = ld->norton = NAN;
+        return;
+    }
     drv->node = p->pin[0];
     drv->rth = pr->zout;
-    drv->vth = opened_voltage(op, port, drv->node, &drv->why_vth);
+    drv->vth = opened_voltage(op, port, drv->node, &drv->why_vth, &drv->nomem);
     if (isnan(drv->vth) && !drv->why_vth)
         drv->vth = pr->open;   /* a driver that floats once opened: the report's unbounded/undefined */
     ls_thevenin_norton(op, drv, port);
     side_loads(op, drv, port, rload, rmeter);
     ld->node = p->pin[1];
     ld->rth = pr->zin;
-    ld->vth = opened_voltage(op, port, ld->node, &ld->why_vth);
+    ld->vth = opened_voltage(op, port, ld->node, &ld->why_vth, &ld->nomem);
     ld->norton = NAN;
 }

@@ -13,6 +13,8 @@ typedef struct ls_th_side {
     const char *why_vth, *why_norton;   /* overriding reasons ("unsolved"), or NULL */
     double load_v, load_i, meter_v;     /* with --load / --meter; NaN without */
     char load_limited[256], meter_limited[256], norton_limited[256];
+    bool nomem;              /* a solve of this side ran out of memory: its numbers are not
+                                results (the caller reports an error instead) */
 } ls_th_side;
 
 /* The equivalent at `node` (port < 0: into *drv; *ld is cleared), or at both

@@ -90,7 +90,7 @@ typedef struct mc_job {
 typedef struct mc_worker {
     mc_job *job;
     long first, last;              /* trials [first, last) */
-    int status;                    /* 0 ok, -1 could not set up */
+    int status;                    /* 0 ok, -1 could not set up, -2 a trial ran out of memory */
     atomic_bool finished;          /* the worker has returned */
 } mc_worker;
 
@@ -175,6 +175,10 @@ static void *mc_run(void *arg)
             memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
         draw_trial(job, nl.parts, i);
         if (ls_op_resolve(&op) != LS_EXIT_OK) {
+            if (op.nomem) { /* not a trial that has no solution: the study cannot go on */
+                w->status = -2;
+                break;
+            }
             job->value[i] = NAN;
             job->pass[i] = 0;
             continue;
@@ -227,8 +231,8 @@ static int thread_count(long trials)
 
 /* Run every trial on `nthreads` threads (the caller's thread takes the first
  * share; with a progress hook it starts that share on a thread too and calls
- * the hook every 50 ms while all of them run).  Returns 0, or -1 when a worker
- * could not set up. */
+ * the hook every 50 ms while all of them run).  Returns 0, -1 when a worker
+ * could not set up, or -2 when a trial ran out of memory. */
 static int mc_all(mc_job *job, int nthreads)
 {
     mc_worker w[LS_TOL_MAX_THREADS];
@@ -262,10 +266,11 @@ static int mc_all(mc_job *job, int nthreads)
         else
             mc_run(&w[t]); /* no thread (or no progress hook): do its share here */
     }
+    int rc = 0;
     for (int t = 0; t < nthreads; t++)
-        if (w[t].status != 0)
-            return -1;
-    return 0;
+        if (w[t].status < rc)
+            rc = w[t].status;
+    return rc;
 }
 
 /* With a share: every process's trials (values and verdicts) to all, and
@@ -372,9 +377,12 @@ static int corners(ls_tol_study *t)
     ls_diags_init(&scratch, t->arena);
     ls_diags *keep = t->nl->diags;
     t->nl->diags = &scratch;   /* a singular corner is counted, not reported as an error */
-    for (unsigned long m = 0; m < (1ul << nv); m++) {
+    bool nomem = false;
+    for (unsigned long m = 0; m < (1ul << nv) && !nomem; m++) {
         set_corner(t->nl, v, nv, m);
         double x = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        if ((nomem = t->op->nomem))   /* no memory is no property of the corner */
+            break;
         if (isnan(x)) {
             r->wc_failed++;
             continue;
@@ -390,6 +398,10 @@ static int corners(ls_tol_study *t)
     int st = ls_op_resolve(t->op);
     t->nl->diags = keep;
     ls_diags_free(&scratch);
+    if (nomem || t->op->nomem) {
+        t->failed_stage = "the worst-case corners";
+        return LS_TOL_NOMEM;
+    }
     if (r->nominal < r->wc_min)
         r->wc_min = r->nominal;
     if (r->nominal > r->wc_max)
@@ -414,12 +426,24 @@ static int fd_derivatives(ls_tol_study *t, double *dq)
         double p = t->v[j].nominal, h = fabs(p) * 1e-6;
         pt->value = p + h;
         double a = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        bool nomem = t->op->nomem;
         pt->value = p - h;
-        double b = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        double b = !nomem && ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        nomem |= t->op->nomem;
         pt->value = p;
+        if (nomem) {
+            ls_op_resolve(t->op);   /* back at nominal, if memory allows */
+            t->failed_stage = "the sensitivities";
+            return LS_TOL_NOMEM;
+        }
         dq[j] = (a - b) / (2 * h);
     }
-    return ls_op_resolve(t->op) == LS_EXIT_OK ? 0 : LS_EXIT_UNSOLVABLE;
+    int st = ls_op_resolve(t->op);
+    if (t->op->nomem) {
+        t->failed_stage = "the sensitivities";
+        return LS_TOL_NOMEM;
+    }
+    return st == LS_EXIT_OK ? 0 : LS_EXIT_UNSOLVABLE;
 }
 
 /* Linear worst case nominal ± Σ|dQ/dp|·|p|·tol, and the RSS half-width. */
@@ -430,8 +454,10 @@ static int linear_wc(ls_tol_study *t)
     int nv = t->nv;
     r->corners = false;
     double *dq = calloc((size_t)(nv ? nv : 1), sizeof *dq);
-    if (!dq)
+    if (!dq) {
+        t->failed_stage = "the sensitivities";
         return LS_TOL_NOMEM;
+    }
     ls_diags scratch;
     ls_diags_init(&scratch, t->arena);
     ls_diags *keep = t->nl->diags;
@@ -442,6 +468,11 @@ static int linear_wc(ls_tol_study *t)
     t->nl->diags = keep;
     ls_diags_free(&scratch);
     int st = 0;
+    if (n == LS_SENS_NOMEM) {   /* differences would give other numbers: no fallback */
+        free(dq);
+        t->failed_stage = "the sensitivities";
+        return LS_TOL_NOMEM;
+    }
     if (n >= 0) {
         for (int j = 0; j < nv; j++)
             for (int i = 0; i < n; i++)
@@ -511,8 +542,10 @@ int ls_tol_run(ls_tol_study *t)
     memset(&t->r, 0, sizeof t->r);
     t->nv = varying_parts(t->nl, &t->v);
     t->nchecks = matching_checks(t->nl, t->q, &t->checks);
+    t->failed_stage = "the varying parts";
     if (t->nv < 0 || t->nchecks < 0)
         return LS_TOL_NOMEM;
+    t->failed_stage = NULL;
     t->r.nominal = ls_q_eval(t->op, t->q);
     if (t->nv == 0)
         ls_warning(t->diags, LS_NOLOC, "tol-none", "no part has a tol= option: nothing varies");
@@ -531,16 +564,23 @@ int ls_tol_run(ls_tol_study *t)
     if (!job.value || !job.pass) {
         free(job.value);
         free(job.pass);
+        t->failed_stage = "the table of trials";
         return LS_TOL_NOMEM;
     }
     ls_share_range(t->share, t->trials, &job.first, &job.last);
     int threads = t->threads > 0 ? t->threads : thread_count(job.last - job.first);
     if (threads > LS_TOL_MAX_THREADS)
         threads = LS_TOL_MAX_THREADS;
-    code = mc_all(&job, threads) == 0 ? 0 : LS_TOL_SETUP;
+    int rc = mc_all(&job, threads);
+    code = rc == 0 ? 0 : rc == -2 ? LS_TOL_NOMEM : LS_TOL_SETUP;
+    t->failed_stage = rc == -2 ? "a Monte Carlo trial" : rc ? "a Monte Carlo worker's copy of the circuit" : NULL;
     code = share_trials(t->share, &job, code);
-    if (code == 0 && mc_stats(&job, t->nchecks > 0, &t->r) != 0)
+    if (code == LS_TOL_NOMEM && !t->failed_stage)
+        t->failed_stage = "a Monte Carlo trial (in another process)";
+    if (code == 0 && mc_stats(&job, t->nchecks > 0, &t->r) != 0) {
         code = LS_TOL_NOMEM;
+        t->failed_stage = "the statistics";
+    }
     free(job.pass);
     t->values = job.value;
     if (code != 0)

@@ -152,6 +152,8 @@ static void add(ls_diags *d, ls_severity sev, ls_loc loc, const char *code,
     }
     if (sev == LS_SEV_ERROR) {
         d->errors++;
+        if (strncmp(buf, "out of memory", 13) == 0)
+            d->nomem++;
         if (d->errors > d->max_errors)
             return;
     } else if (sev == LS_SEV_WARNING) {
@@ -160,8 +162,12 @@ static void add(ls_diags *d, ls_severity sev, ls_loc loc, const char *code,
     if (d->n == d->cap) {
         int cap = d->cap ? d->cap * 2 : 16;
         ls_diag *p = realloc(d->items, (size_t)cap * sizeof *p);
-        if (!p)
+        if (!p) { /* lost: counted as an error, so no report goes out without it */
+            d->lost++;
+            if (sev != LS_SEV_ERROR)
+                d->errors++;
             return;
+        }
         d->items = p;
         d->cap = cap;
     }
@@ -261,4 +267,7 @@ void ls_diags_print_sel(const ls_diags *d, FILE *out, bool (*skip)(const ls_diag
     }
     if (d->errors > d->max_errors)
         fprintf(out, "loadstack: note: %d more errors not shown\n", d->errors - d->max_errors);
+    if (d->lost)
+        fprintf(out, "loadstack: error: out of memory keeping the diagnostics: %d could not be kept (%zu bytes "
+                "each)\n", d->lost, sizeof(ls_diag));
 }

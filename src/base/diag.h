@@ -46,6 +46,12 @@ typedef struct ls_diags {
     int max_errors;        /* stop collecting past this many (0: 200) */
     ls_hash seen;          /* "file:offset:severity:message" of every diagnostic, to drop repeats */
     bool dropping;         /* the last error or warning was a repeat: drop its notes too */
+    int nomem;             /* errors that say memory ran out: every such message begins "out of
+                              memory" (the convention that lets a caller tell a want of memory
+                              from a fault of the circuit) */
+    int lost;              /* diagnostics that could not be kept for want of memory: each also
+                              counts as an error (a report must not go out without them), and
+                              ls_diags_print says how many there were */
 } ls_diags;
 
 void ls_diags_init(ls_diags *d, ls_arena *a);

@@ -43,7 +43,7 @@ static void conn_json(ls_jw *w, ls_op *op, const ls_conn *k)
     ls_jw_end(w);
 }
 
-static void chain_json(const ls_report *rp, ls_session *s, const ls_chain *c)
+static void chain_json(ls_report *rp, ls_session *s, const ls_chain *c)
 {
     const ls_netlist *nl = &s->nl;
     ls_jw jw, *w = &jw;
@@ -87,7 +87,7 @@ static void chain_json(const ls_report *rp, ls_session *s, const ls_chain *c)
         ls_jw_str(w, NULL, nl->parts[c->supply_parts[k]].name);
     ls_jw_end(w);
     ls_jw_bool(w, "loop", c->cyclic);
-    ls_jw_finish(w);
+    ls_report_json_end(rp, w);
 }
 
 /* ---- CSV ------------------------------------------------------------------------------ */
@@ -156,8 +156,11 @@ static void stages_text(FILE *o, ls_report *rp, const ls_netlist *nl, const ls_c
         return;
     }
     char **cells = calloc((size_t)c->nstages * 4 + 1, sizeof *cells);
-    if (!cells)
+    if (!cells) {
+        rp->nomem = "the table of stages";
+        rp->nomem_bytes = ((size_t)c->nstages * 4 + 1) * sizeof *cells;
         return;
+    }
     for (int i = 0; i < c->nstages; i++) {
         const ls_stage *st = &c->stages[i];
         char num[16], roles[64], parts[200];
@@ -175,10 +178,13 @@ static void stages_text(FILE *o, ls_report *rp, const ls_netlist *nl, const ls_c
         cells[4 * i + 1] = strdup(st->name);
         cells[4 * i + 2] = strdup(stage_roles(st, roles, sizeof roles));
         cells[4 * i + 3] = strdup(st->nparts ? parts : "(no parts: a node between two ports)");
+        for (int j = 0; j < 4; j++)
+            if (!cells[4 * i + j]) /* a cell lost is a table that is not whole */
+                rp->nomem = "the table of stages";
     }
     const char *head[4] = {"#", "stage", "holds", "parts"};
     const bool right[4] = {true, false, false, false};
-    ls_text_table(o, 4, head, right, (const char *const *)cells, c->nstages);
+    ls_text_table(rp, 4, head, right, (const char *const *)cells, c->nstages);
     for (int i = 0; i < 4 * c->nstages; i++)
         free(cells[i]);
     free(cells);
@@ -190,8 +196,11 @@ static void conns_text(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii), *ARROW = rp->ascii ? "->" : "\xE2\x86\x92";
     enum { NC = 7 };
     char **cells = calloc((size_t)c->nconns * NC + 1, sizeof *cells);
-    if (!cells)
+    if (!cells) {
+        rp->nomem = "the table of connections";
+        rp->nomem_bytes = ((size_t)c->nconns * NC + 1) * sizeof *cells;
         return;
+    }
     for (int i = 0; i < c->nconns; i++) {
         const ls_conn *k = &c->conns[i];
         const ls_part *p = &nl->parts[k->port];
@@ -210,11 +219,12 @@ static void conns_text(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
         const char *row[NC] = {p->name, conn, zz, ls_eng(rp, r, sizeof r, pr->ratio, ""), sagt,
                                pr->current_mode ? "current" : "voltage", verdict};
         for (int j = 0; j < NC; j++)
-            cells[NC * i + j] = strdup(row[j]);
+            if (!(cells[NC * i + j] = strdup(row[j])))
+                rp->nomem = "the table of connections";
     }
     const char *head[NC] = {"port", "from -> to", "zout -> zin", "ratio", "sag", "mode", "verdict"};
     const bool right[NC] = {false, false, false, true, true, false, false};
-    ls_text_table(o, NC, head, right, (const char *const *)cells, c->nconns);
+    ls_text_table(rp, NC, head, right, (const char *const *)cells, c->nconns);
     for (int i = 0; i < NC * c->nconns; i++)
         free(cells[i]);
     free(cells);
@@ -276,7 +286,7 @@ static int chain_output(ls_session *s, const ls_chain *c, const ls_chain_pic *pi
     case FMT_TEXT: chain_text(o, &rp, s, c); break;
     case FMT_HTML: code = ls_html_page(o, s, c, pic); break;
     }
-    return ls_out_close(cli, ls_session_verdict(s, code));
+    return ls_out_close(cli, ls_session_verdict(s, ls_report_done(&rp, code)));
 }
 
 int ls_cmd_chain(ls_cli *cli)

@@ -79,6 +79,10 @@ ls_q *ls_session_quantity(ls_session *s, const char *text);
 /* An analysis that reported an error after the solve (out of memory) has no
  * report: code, or 3 when the diagnostics hold an error. */
 int ls_session_verdict(const ls_session *s, int code);
+/* Did anything of the session run out of memory (its arenas, a diagnostic
+ * that could not be kept, the last solve)?  Then a failure is no property of
+ * the circuit and must not be reported as one. */
+bool ls_session_nomem(const ls_session *s);
 
 /* Before any work: check --output and --plot (regular files only, not the
  * input, not each other; docs/output.md), create their temporary files and
@@ -104,6 +108,10 @@ _Noreturn void ls_exit_now(int code);
 /* A report to out for the session's command: format, character set, digits,
  * diagnostics and the JSON meta (command, circuit file, --set texts). */
 ls_report ls_report_for(const ls_session *s, FILE *out);
+/* After a reporter ran: when memory ran out while it wrote (rp->nomem), say
+ * what was lost and return LS_EXIT_UNSOLVABLE (ls_out_close then removes the
+ * incomplete report); otherwise code. */
+int ls_report_done(const ls_report *rp, int code);
 
 /* Parse a number with units from text (for --load 10k, --min-ratio 10 ...). */
 bool ls_cli_number(const char *text, double *v);

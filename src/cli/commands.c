@@ -108,7 +108,12 @@ static int parse_sets(ls_session *s, ls_setting *sets)
         size_t nlen = (size_t)(eq - cli->sets[i]);
         sets[i].name = ls_arena_strndup(&s->arena, cli->sets[i], nlen);
         int id = ls_sources_add(&s->diags, "--set", cli->sets[i], (unsigned)strlen(cli->sets[i]));
-        if (id < 0 || ls_sources_check_utf8(&s->diags, id) > 0)
+        if (id < 0) {
+            ls_error(&s->diags, LS_NOLOC, "out of memory reading --set '%s' (%zu bytes)", cli->sets[i],
+                     strlen(cli->sets[i]) + 1);
+            return -1;
+        }
+        if (ls_sources_check_utf8(&s->diags, id) > 0)
             return -1;
         sets[i].value = ls_parse_expr_at(&s->diags, id, (unsigned)nlen + 1, false);
         sets[i].loc = (ls_loc){id, 0, (unsigned)nlen};
@@ -196,6 +201,11 @@ ls_q *ls_session_quantity(ls_session *s, const char *text)
 int ls_session_verdict(const ls_session *s, int code)
 {
     return code <= LS_EXIT_CHECK && s->diags.errors > 0 ? LS_EXIT_UNSOLVABLE : code;
+}
+
+bool ls_session_nomem(const ls_session *s)
+{
+    return s->arena.failed || s->syntax.failed || s->diags.nomem || s->diags.lost || (s->have_op && s->op.nomem);
 }
 
 void ls_session_free(ls_session *s)
@@ -346,6 +356,18 @@ ls_report ls_report_for(const ls_session *s, FILE *out)
                        .file = s->input_path, .sets = cli->sets, .nsets = cli->nsets};
 }
 
+int ls_report_done(const ls_report *rp, int code)
+{
+    if (!rp->nomem)
+        return code;
+    if (rp->nomem_bytes)
+        fprintf(stderr, "loadstack: error: out of memory writing the report: %s (%zu bytes); no report was made\n",
+                rp->nomem, rp->nomem_bytes);
+    else
+        fprintf(stderr, "loadstack: error: out of memory writing the report: %s; no report was made\n", rp->nomem);
+    return LS_EXIT_UNSOLVABLE;
+}
+
 void ls_out_abandon(ls_cli *cli)
 {
     ls_dest_discard(&cli->plot_dest);
@@ -435,14 +457,17 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
     const char *failed_codes[64];
     rp.failed_warnings = failed_codes;
     rp.nfailed_warnings = check_mode ? failed_warnings(&s.diags, cli->fail_on, failed_codes, 64) : 0;
+    int page = LS_EXIT_OK;
     if (check_mode)
         ls_report_check(&rp, &s.op, &checks);
     else if (cli->fmt == FMT_HTML)
-        code = ls_html_page(out, &s, NULL, NULL);
+        page = ls_html_page(out, &s, NULL, NULL);   /* (it says why when it fails) */
     else
         ls_report_solve(&rp, &s.op, &checks);
     code = check_mode && (checks.failed || rp.nfailed_warnings) ? LS_EXIT_CHECK : LS_EXIT_OK;
-    code = ls_out_close(cli, ls_session_verdict(&s, code));
+    if (page != LS_EXIT_OK)
+        code = page;
+    code = ls_out_close(cli, ls_session_verdict(&s, ls_report_done(&rp, code)));
     phase_done("report", &t0);
     /* a text report that lists warnings, on the terminal stderr is on: each once */
     shown_ctx sc = {.all = !check_mode, .rp = &rp};

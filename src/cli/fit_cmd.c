@@ -93,7 +93,7 @@ static void cand_json(ls_jw *w, const ls_fit_study *f, const ls_fit_cand *c, con
     ls_jw_end(w);
 }
 
-static void fit_json(const ls_report *rp, const ls_fit_study *f)
+static void fit_json(ls_report *rp, const ls_fit_study *f)
 {
     ls_jw jw, *w = &jw;
     ls_report_json_begin(rp, w);
@@ -137,7 +137,7 @@ static void fit_json(const ls_report *rp, const ls_fit_study *f)
         ls_jw_null(w, "chosen", LS_WHY_NONE);
     if (!f->any_feasible && f->nbest > 0)
         cand_json(w, f, &f->best[0], "closest");
-    ls_jw_finish(w);
+    ls_report_json_end(rp, w);
 }
 
 /* ---- CSV ----------------------------------------------------------------------------------- */
@@ -175,16 +175,19 @@ static const char *pct(char *b, size_t n, double x)
 }
 
 /* The table of one candidate's checks (all, or only the failing ones). */
-static void checks_text(FILE *o, const ls_report *rp, const ls_fit_study *f, const ls_fit_cand *c, bool failing)
+static void checks_text(FILE *o, ls_report *rp, const ls_fit_study *f, const ls_fit_cand *c, bool failing)
 {
+    (void)o;   /* the tables write through rp */
     const char *head[] = {"check", "value", "limit", "margin", failing ? "misses by" : "verdict"};
     const bool right[] = {false, true, true, true, false};
     int n = 0;
     for (int k = 0; k < c->nchecks; k++)
         n += !failing || !c->checks[k].pass;
     char **cells = calloc((size_t)(n ? n : 1) * 5, sizeof *cells);
-    if (!cells)
+    if (!cells) {
+        rp->nomem = "fit's table of checks";
         return;
+    }
     int row = 0;
     for (int k = 0; k < c->nchecks; k++) {
         const ls_fit_check *ck = &c->checks[k];
@@ -212,17 +215,21 @@ static void checks_text(FILE *o, const ls_report *rp, const ls_fit_study *f, con
             snprintf(verdict, sizeof verdict, "%s", ck->why ? ck->why : "undefined");
         const char *src[5] = {t, v, lim, m, verdict};
         for (int col = 0; col < 5; col++)
-            cells[row * 5 + col] = strdup(src[col]);
+            if (!(cells[row * 5 + col] = strdup(src[col]))) {
+                rp->nomem = "fit's table of checks";
+                cells[row * 5 + col] = (char *)"";   /* the report is dropped; the table stays printable */
+            }
         row++;
     }
-    ls_text_table(o, 5, head, right, (const char *const *)cells, n);
+    ls_text_table(rp, 5, head, right, (const char *const *)cells, n);
     for (int i = 0; i < n * 5; i++)
-        free(cells[i]);
+        if (cells[i] && *cells[i])
+            free(cells[i]);
     free(cells);
 }
 
 /* "r1 12 kΩ, r2 3.9 kΩ" */
-static void values_text(FILE *o, const ls_report *rp, const ls_fit_study *f, const ls_fit_cand *c, bool ascii)
+static void values_text(FILE *o, ls_report *rp, const ls_fit_study *f, const ls_fit_cand *c, bool ascii)
 {
     for (int j = 0; j < f->nvars; j++) {
         const ls_part *p = &f->nl->parts[f->vars[j].part];
@@ -232,14 +239,16 @@ static void values_text(FILE *o, const ls_report *rp, const ls_fit_study *f, con
     }
 }
 
-static void free_parts_text(FILE *o, const ls_report *rp, const ls_fit_study *f, bool ascii)
+static void free_parts_text(FILE *o, ls_report *rp, const ls_fit_study *f, bool ascii)
 {
+    (void)o;   /* the tables write through rp */
     const char *head[] = {"part", "kind", "range", "series", "values", "written", "optimum"};
     const bool right[] = {false, false, true, false, true, true, true};
     int n = f->nvars;
     char (*buf)[7][64] = calloc((size_t)(n ? n : 1), sizeof *buf);
     const char **cells = calloc((size_t)(n ? n : 1) * 7, sizeof *cells);
     if (!buf || !cells) {
+        rp->nomem = "fit's table of free parts";
         free(buf);
         free(cells);
         return;
@@ -262,13 +271,13 @@ static void free_parts_text(FILE *o, const ls_report *rp, const ls_fit_study *f,
         for (int c = 0; c < 7; c++)
             cells[j * 7 + c] = buf[j][c];
     }
-    ls_text_table(o, 7, head, right, cells, n);
+    ls_text_table(rp, 7, head, right, cells, n);
     free(buf);
     free(cells);
 }
 
 /* The ranked candidates: one row each. */
-static void ranking_text(FILE *o, const ls_report *rp, const ls_fit_study *f, bool ascii)
+static void ranking_text(FILE *o, ls_report *rp, const ls_fit_study *f, bool ascii)
 {
     fputs("Candidates, best first:\n", o);
     for (int i = 0; i < f->nbest; i++) {
@@ -286,7 +295,7 @@ static void ranking_text(FILE *o, const ls_report *rp, const ls_fit_study *f, bo
     }
 }
 
-static void fit_text(FILE *o, const ls_report *rp, const ls_fit_study *f, bool ascii)
+static void fit_text(FILE *o, ls_report *rp, const ls_fit_study *f, bool ascii)
 {
     fprintf(o, "Fit of %d free part%s to standard values, goal: %s\n", f->nvars, f->nvars == 1 ? "" : "s",
             ls_fit_goal_name(f->goal));
@@ -501,7 +510,15 @@ int ls_cmd_fit(ls_cli *cli)
         fit_csv(o, &f);
     else
         fit_text(o, &rp, &f, cli->ascii);
-    code = f.any_feasible ? LS_EXIT_OK : LS_EXIT_CHECK;
+    code = ls_report_done(&rp, f.any_feasible ? LS_EXIT_OK : LS_EXIT_CHECK);
+    if (code == LS_EXIT_UNSOLVABLE && rp.nomem) {   /* the report was not whole: nothing written */
+        if (cli->write)
+            ls_dest_discard(&cli->write_dest);
+        code = ls_out_close(cli, code);
+        ls_fit_free(&f);
+        ls_session_free(&s);
+        return code;
+    }
     if (cli->write && f.any_feasible && write_circuit(cli, &s, &f) != 0) {
         fprintf(stderr, "loadstack: error: cannot write '%s'\n", cli->write);
         code = LS_EXIT_USAGE;

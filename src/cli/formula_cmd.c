@@ -11,7 +11,7 @@
 
 /* The formula report as one JSON object (cli.md keys), through the JSON
  * writer: meta first, a null value with its reason. */
-static void report_json(const ls_report *rp, const ls_cli *cli, const ls_formula_result *r)
+static void report_json(ls_report *rp, const ls_cli *cli, const ls_formula_result *r)
 {
     ls_jw jw, *w = &jw;
     ls_report_json_begin(rp, w);
@@ -32,10 +32,10 @@ static void report_json(const ls_report *rp, const ls_cli *cli, const ls_formula
     for (int i = 0; i < r->nnotes; i++)
         ls_jw_str(w, NULL, r->notes[i]);
     ls_jw_end(w);
-    ls_jw_finish(w);
+    ls_report_json_end(rp, w);
 }
 
-static void report_csv(FILE *o, const ls_cli *cli, const ls_formula_result *r)
+static void report_csv(ls_report *rp, FILE *o, const ls_cli *cli, const ls_formula_result *r)
 {
     fputs("field,value\nquantity,", o);
     ls_csv_field(o, cli->pos[1]);
@@ -50,6 +50,10 @@ static void report_csv(FILE *o, const ls_cli *cli, const ls_formula_result *r)
     for (int i = 0; i < r->nsymbols; i++)
         n += strlen(r->symbols[i]) + 1;
     char *list = calloc(n, 1);
+    if (!list) { /* an empty list would be a wrong one */
+        rp->nomem = "the list of symbols";
+        rp->nomem_bytes = n;
+    }
     for (int i = 0; list && i < r->nsymbols; i++) {
         strcat(list, i ? " " : "");
         strcat(list, r->symbols[i]);
@@ -109,16 +113,15 @@ int ls_cmd_formula(ls_cli *cli)
     if (code == LS_EXIT_OK)
         code = ls_session_solve(&s);
     ls_q *q = NULL;
-    if (code == LS_EXIT_OK) {
-        ls_expr *e = ls_parse_expr_string(&s.diags, "quantity", cli->pos[1], true);
-        q = e ? ls_bind_quantity(&s.nl, e) : NULL;
-        if (!q)
-            code = LS_EXIT_USAGE;
-    }
+    if (code == LS_EXIT_OK && !(q = ls_session_quantity(&s, cli->pos[1])))
+        code = LS_EXIT_USAGE;
     ls_formula_result r = {0};
     if (code == LS_EXIT_OK) {
         ls_formula_req req = {.quantity = cli->pos[1], .symbols = cli->symbols, .ideal = cli->ideal};
+        int e0 = s.diags.errors;
         code = ls_formula(&s.op, &s.prog, q, &req, &r, &s.diags);
+        if (code != LS_EXIT_OK && s.diags.errors == e0) /* every other failure gives its reason */
+            ls_error(&s.diags, LS_NOLOC, "out of memory making the exact formula of '%s'", cli->pos[1]);
     }
     if (code != LS_EXIT_OK) {
         ls_diags_print(&s.diags, stderr);
@@ -131,11 +134,11 @@ int ls_cmd_formula(ls_cli *cli)
     if (cli->fmt == FMT_JSON)
         report_json(&rp, cli, &r);
     else if (cli->fmt == FMT_CSV)
-        report_csv(o, cli, &r);
+        report_csv(&rp, o, cli, &r);
     else
         report_text(o, cli, &r, ls_unit_of(q->dims, cli->ascii));
     ls_formula_result_free(&r);
-    code = ls_out_close(cli, ls_session_verdict(&s, LS_EXIT_OK));
+    code = ls_out_close(cli, ls_session_verdict(&s, ls_report_done(&rp, LS_EXIT_OK)));
     ls_diags_print(&s.diags, stderr);
     ls_session_free(&s);
     return code;

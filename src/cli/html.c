@@ -500,26 +500,28 @@ static int histogram(FILE *o, ls_session *s, const ls_check *ck, const char *dir
     return 0;
 }
 
-/* The histograms of the distinct quantities the expects name. */
-static void histograms_section(FILE *o, ls_session *s)
+/* The histograms of the distinct quantities the expects name.  Returns 0, or
+ * -1 after saying which one could not be drawn (its trials or its picture ran
+ * out of memory): a page without it is not the page asked for. */
+static int histograms_section(FILE *o, ls_session *s)
 {
     const ls_netlist *nl = &s->nl;
     bool tol = false;
     for (int i = 0; i < nl->nparts; i++)
         tol |= ls_part_opt(&nl->parts[i], "tol", 0) > 0;
     if (!s->cli->plot_all && !tol)
-        return;
+        return 0;
     fputs("<h2 id=\"tolerance\">Tolerance: the checked quantities over the parts' tol=</h2>\n", o);
     if (!tol) {
         fputs("<p>No part has a <code>tol=</code>: nothing varies.</p>\n", o);
-        return;
+        return 0;
     }
     const char *tmp = getenv("TMPDIR");
     char dir[512];
     snprintf(dir, sizeof dir, "%s/loadstack-html-XXXXXX", tmp && *tmp ? tmp : "/tmp");
     if (!mkdtemp(dir)) {
         fputs("<p>The histograms could not be drawn (no scratch folder).</p>\n", o);
-        return;
+        return 0;
     }
     int shown = 0;
     for (int i = 0; i < nl->nchecks && shown < MAX_HISTOGRAMS; i++) {
@@ -529,12 +531,18 @@ static void histograms_section(FILE *o, ls_session *s)
             seen = !nl->checks[j].is_rule && nl->checks[j].lhs && ls_q_same(nl->checks[j].lhs, ck->lhs);
         if (seen)
             continue;
-        if (histogram(o, s, ck, dir, shown) == 0)
-            shown++;
+        if (histogram(o, s, ck, dir, shown) != 0) {
+            rmdir(dir);
+            fprintf(stderr, "loadstack: error: the histogram of '%s' (%ld trials) could not be drawn: out of memory, "
+                    "or no room in the scratch folder '%s'\n", ck->text, (long)LS_HTML_TRIALS, dir);
+            return -1;
+        }
+        shown++;
     }
     rmdir(dir);
     if (!shown)
         fputs("<p>No <code>expect</code> names a quantity to draw.</p>\n", o);
+    return 0;
 }
 
 /* ---- the page ---------------------------------------------------------------------------- */
@@ -582,7 +590,8 @@ static int page(FILE *o, ls_session *s, const ls_chain *c, const ls_chain_pic *p
     adcs_section(o, &rp, &s->op);
     checks_section(o, &rp, ch);
     warnings_section(o, &s->diags);
-    histograms_section(o, s);
+    if (histograms_section(o, s) != 0)
+        return LS_EXIT_UNSOLVABLE;
     fputs("</main>\n<footer><p class=\"meta\">Made by loadstack from the circuit file alone; a DC analysis, no "
           "substitute for measurement, local codes or licensed practice.</p></footer>\n</body>\n</html>\n",
           o);

@@ -245,6 +245,11 @@ int ls_cmd_thevenin(ls_cli *cli)
     ls_op *op = &s.op;
     ls_th_side drv, ld;
     ls_thevenin_sides(op, node, port, rload, rmeter, &drv, &ld);
+    if (drv.nomem || ld.nomem) { /* never a null "unsolved": memory is no property of the circuit */
+        fprintf(stderr, "loadstack: error: out of memory in the Thevenin equivalent (the exact re-solves of %d "
+                "unknowns)\n", op->mna.n);
+        return finish(&s, LS_EXIT_UNSOLVABLE);
+    }
     FILE *o = ls_out_open(cli);
     ls_report rp = ls_report_for(&s, o);
     char b1[64];
@@ -263,7 +268,7 @@ int ls_cmd_thevenin(ls_cli *cli)
             side_json(w, &s.nl, &ld, &none, NAN, NAN, false);
             ls_jw_end(w);
         }
-        ls_jw_finish(w);
+        ls_report_json_end(&rp, w);
     } else if (cli->fmt == FMT_CSV) {
         fputs("field,value\n", o);
         side_csv(o, port < 0 ? "" : "driver_", &drv, cli, rload, rmeter, true);
@@ -286,7 +291,7 @@ int ls_cmd_thevenin(ls_cli *cli)
         if (isfinite(drv.rth) && isfinite(ld.rth) && drv.rth > 0)
             fprintf(o, "  ratio zin/zout        %s\n", ls_eng(&rp, b1, sizeof b1, ld.rth / drv.rth, ""));
     }
-    return finish(&s, LS_EXIT_OK);
+    return finish(&s, ls_report_done(&rp, LS_EXIT_OK));
 }
 
 /* ---- sag ------------------------------------------------------------------------------------ */
@@ -432,7 +437,7 @@ static void what_if_json(ls_jw *w, const ls_netlist *nl, const ls_sag_item *it)
 }
 
 /* The sag report in JSON. */
-static void sag_json(const ls_report *rp, const ls_netlist *nl, const ls_sag_report *r, const ls_sag_item *items)
+static void sag_json(ls_report *rp, const ls_netlist *nl, const ls_sag_report *r, const ls_sag_item *items)
 {
     ls_jw jw, *w = &jw;
     /* a null alone, sag, interaction or culprit: nothing solved, or no port
@@ -476,7 +481,7 @@ static void sag_json(const ls_report *rp, const ls_netlist *nl, const ls_sag_rep
             what_if_json(w, nl, &items[i]);
         ls_jw_end(w);
     }
-    ls_jw_finish(w);
+    ls_report_json_end(rp, w);
 }
 
 /* The sag report in CSV: one row per port, then (with --what-if) one per
@@ -543,7 +548,7 @@ int ls_cmd_sag(ls_cli *cli)
     }
     free(items);
     ls_sag_report_free(&r);
-    return finish(&s, LS_EXIT_OK);
+    return finish(&s, ls_report_done(&rp, LS_EXIT_OK));
 }
 
 /* ---- influence ----------------------------------------------------------------------------- */
@@ -569,7 +574,7 @@ static const char *per_unit_text(const ls_report *rp, char *buf, size_t n, doubl
 
 /* The influence table as JSON: {"quantity", "value", "items": [...]}; a
  * null field is explained in the item's "why". */
-static void influence_json(const ls_report *rp, const ls_session *s, const char *quantity, double value,
+static void influence_json(ls_report *rp, const ls_session *s, const char *quantity, double value,
                            const ls_sens_item *items, int n)
 {
     ls_jw jw, *w = &jw;
@@ -589,7 +594,7 @@ static void influence_json(const ls_report *rp, const ls_session *s, const char 
         ls_jw_num_why(w, "percent_per_percent", items[i].normalized, LS_WHY_UNDEFINED);
         ls_jw_end(w);
     }
-    ls_jw_finish(w);
+    ls_report_json_end(rp, w);
 }
 
 /* The influence table as CSV, the JSON keys as the header. */
@@ -687,5 +692,5 @@ int ls_cmd_influence(ls_cli *cli)
     else
         influence_text(&rp, &s, cli->pos[1], q->dims, value, items, n);
     free(items);
-    return finish(&s, LS_EXIT_OK);
+    return finish(&s, ls_report_done(&rp, LS_EXIT_OK));
 }

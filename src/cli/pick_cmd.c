@@ -78,7 +78,7 @@ static void pick_pair_json(ls_jw *w, double ratio, const ls_pick_item *p)
 
 /* The pick report as one JSON object (cli.md keys; "fits" and "closest" say
  * when no pair comes within the series' tolerance, and which came nearest). */
-static void pick_json(const ls_report *rp, double ratio, const ls_eseries *es, const ls_pick_item *it, int n)
+static void pick_json(ls_report *rp, double ratio, const ls_eseries *es, const ls_pick_item *it, int n)
 {
     ls_jw jw, *w = &jw;
     ls_report_json_begin(rp, w);
@@ -101,7 +101,7 @@ static void pick_json(const ls_report *rp, double ratio, const ls_eseries *es, c
         ls_jw_end(w);
     }
     ls_jw_end(w);
-    ls_jw_finish(w);
+    ls_report_json_end(rp, w);
 }
 
 /* Print s right-aligned in w columns, counting UTF-8 code points (Ω is two bytes). */
@@ -187,5 +187,5 @@ int ls_cmd_pick(ls_cli *cli)
         pick_text(o, &rp, cli, ratio, es, lo, hi, zmax, items, n);
     }
     /* no pair that fits is a failed search, as for fit (docs/cli.md) */
-    return ls_out_close(cli, pick_fits(es, items, n) ? LS_EXIT_OK : LS_EXIT_CHECK);
+    return ls_out_close(cli, ls_report_done(&rp, pick_fits(es, items, n) ? LS_EXIT_OK : LS_EXIT_CHECK));
 }

@@ -70,8 +70,9 @@ static bool point_cli(const ls_cli *cli, const char *param, double value, char *
 }
 
 /* Make a limit curve for each finite limit of every expect on quantity k
- * (from the first point solved). */
-static void collect_limits(sweep *w, ls_session *s, const ls_q *q, int k)
+ * (from the first point solved).  Returns 0, or -1 when out of memory (a
+ * limit curve the plot would lose). */
+static int collect_limits(sweep *w, ls_session *s, const ls_q *q, int k)
 {
     for (int c = 0; c < s->nl.nchecks && w->nlim + 2 <= LS_PLOT_MAX_MARKS; c++) {
         const ls_check *ck = &s->nl.checks[c];
@@ -85,7 +86,7 @@ static void collect_limits(sweep *w, ls_session *s, const ls_q *q, int k)
             struct limit *l = &w->lim[w->nlim];
             l->y = malloc((size_t)w->padded * sizeof *l->y);
             if (!l->y)
-                return;
+                return -1;
             for (int i = 0; i < w->padded; i++)
                 l->y[i] = NAN;
             l->k = k;
@@ -96,6 +97,7 @@ static void collect_limits(sweep *w, ls_session *s, const ls_q *q, int k)
             w->nlim++;
         }
     }
+    return 0;
 }
 
 /* The limits at point i, from the expects of the circuit as elaborated for
@@ -215,8 +217,9 @@ static void copy_values(ls_netlist *dst, const ls_netlist *src)
 
 /* Record point i's values from the solved op with the quantities q and the
  * expects of nl, both bound in the circuit as elaborated for this point (so
- * a let they use has this point's value). */
-static void record(sweep *w, int i, ls_session *s, const ls_q *const *q, const ls_netlist *nl)
+ * a let they use has this point's value).  Returns 0, or -1 when out of
+ * memory. */
+static int record(sweep *w, int i, ls_session *s, const ls_q *const *q, const ls_netlist *nl)
 {
     bool first = true;
     for (int j = 0; j < i; j++)
@@ -224,19 +227,37 @@ static void record(sweep *w, int i, ls_session *s, const ls_q *const *q, const l
     w->solved[i] = true;
     for (int k = 0; k < w->nq; k++) {
         w->y[(size_t)i * (size_t)w->nq + (size_t)k] = ls_q_eval(&s->op, q[k]);
-        if (first)
-            collect_limits(w, s, q[k], k);
+        if (first && collect_limits(w, s, q[k], k) != 0)
+            return -1;
     }
     record_limits(w, i, &s->op, nl);
+    return 0;
+}
+
+/* Out of memory at point i: say so with the stage's own message (the first
+ * error of the point's session, when it has one).  Never a null point: a
+ * point is null only when its circuit has no solution.  Returns
+ * LS_EXIT_UNSOLVABLE. */
+static int point_nomem(const sweep *w, int i, const ls_session *s)
+{
+    const char *why = "";
+    for (int j = 0; s && j < s->diags.n && !*why; j++)
+        if (s->diags.items[j].sev == LS_SEV_ERROR)
+            why = s->diags.items[j].msg;
+    fprintf(stderr, "loadstack: error: out of memory at %s = %.6g (point %d of %d)%s%s\n", w->param, w->x[i], i + 1,
+            w->steps, *why ? ": " : "", why);
+    return LS_EXIT_UNSOLVABLE;
 }
 
 /* Solve point i: the circuit is re-elaborated with PARAM at x[i]; when its
  * structure matches the last solved point's, the new values are stamped into
  * that system and re-solved from its solution (continuation: a nonlinear
  * circuit starts from the previous point's operating point); otherwise, or if
- * that fails, it is solved afresh.  A point that fails is left null with a
- * one-line warning. */
-static void solve_point(sweep *w, int i)
+ * that fails, it is solved afresh.  A point whose circuit has no solution is
+ * left null with a one-line warning.  Returns 0, or LS_EXIT_UNSOLVABLE after
+ * an error when memory ran out (the sweep stops: a point lost to memory is
+ * not a point without a solution). */
+static int solve_point(sweep *w, int i)
 {
     char buf[256];
     ls_cli pc;
@@ -246,11 +267,12 @@ static void solve_point(sweep *w, int i)
         w->base = NULL;
     }
     ls_session *s = malloc(sizeof *s);
-    if (!s || !point_cli(w->cli, w->param, w->x[i], buf, sizeof buf, &pc)) {
-        fprintf(stderr, "loadstack: warning: %s = %.6g is left out (%s)\n", w->param, w->x[i],
-                s ? "too many --set options" : "out of memory");
+    if (!s)
+        return point_nomem(w, i, NULL);
+    if (!point_cli(w->cli, w->param, w->x[i], buf, sizeof buf, &pc)) {
+        fprintf(stderr, "loadstack: warning: %s = %.6g is left out (too many --set options)\n", w->param, w->x[i]);
         free(s);
-        return;
+        return 0;
     }
     int code = ls_session_load(s, &pc, w->cli->pos[0], NULL);
     const ls_q *q[MAX_QUANTITIES] = {NULL};
@@ -259,6 +281,7 @@ static void solve_point(sweep *w, int i)
         if (!q[k])
             code = LS_EXIT_USAGE;
     }
+    int rc = 0;
     if (code == LS_EXIT_OK && w->base && same_structure(&w->base->nl, &s->nl)) {
         copy_values(&w->base->nl, &s->nl);
         if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
@@ -266,22 +289,36 @@ static void solve_point(sweep *w, int i)
              * constant of the binding, and the base's hold the value of
              * the point it was bound at (the structures match, so part
              * and node indices agree) */
-            record(w, i, w->base, q, &s->nl);
+            if (record(w, i, w->base, q, &s->nl) != 0)
+                rc = point_nomem(w, i, NULL);
             ls_session_free(s);
             free(s);
-            return;
+            return rc;
+        }
+        if (w->base->op.nomem) {
+            rc = point_nomem(w, i, w->base);
+            ls_session_free(s);
+            free(s);
+            return rc;
         }
     }
     if (code == LS_EXIT_OK)
         code = ls_session_solve(s);
     if (code == LS_EXIT_OK) {
-        record(w, i, s, q, &s->nl);
+        if (record(w, i, s, q, &s->nl) != 0)
+            rc = point_nomem(w, i, NULL);
         if (w->base) {   /* this point becomes the one the next continues from */
             ls_session_free(w->base);
             free(w->base);
         }
         w->base = s;
-        return;
+        return rc;
+    }
+    if (ls_session_nomem(s)) {
+        rc = point_nomem(w, i, s);
+        ls_session_free(s);
+        free(s);
+        return rc;
     }
     const char *why = "";
     for (int j = 0; j < s->diags.n && !*why; j++)
@@ -291,6 +328,7 @@ static void solve_point(sweep *w, int i)
             w->x[i], *why ? ": " : "", why);
     ls_session_free(s);
     free(s);
+    return 0;
 }
 
 /* ---- reports ------------------------------------------------------------------------------- */
@@ -300,7 +338,7 @@ static double yat(const sweep *w, int i, int k) { return w->y[(size_t)i * (size_
 
 /* The sweep as one JSON object: the let, then one object per point; a
  * quantity at a point that could not be solved is null, "unsolved". */
-static void sweep_json(const ls_report *rp, const sweep *w)
+static void sweep_json(ls_report *rp, const sweep *w)
 {
     ls_jw jw, *j = &jw;
     ls_report_json_begin(rp, j);
@@ -316,7 +354,7 @@ static void sweep_json(const ls_report *rp, const sweep *w)
         ls_jw_end(j);
     }
     ls_jw_end(j);
-    ls_jw_finish(j);
+    ls_report_json_end(rp, j);
 }
 
 /* The sweep as CSV: a header row, then one row per point, the param first. */
@@ -379,8 +417,10 @@ static int sweep_plot(const sweep *w)
     ls_plot_series ser[LS_PLOT_MAX_SERIES + LS_PLOT_MAX_MARKS];
     int ns = w->nq < LS_PLOT_MAX_SERIES ? w->nq : LS_PLOT_MAX_SERIES;
     double *cols = malloc((size_t)w->steps * (size_t)(ns ? ns : 1) * sizeof *cols);
-    if (!cols)
+    if (!cols) {
+        fprintf(stderr, "loadstack: error: out of memory drawing '%s' (%d points)\n", w->cli->plot, w->steps);
         return LS_EXIT_UNSOLVABLE;
+    }
     /* each quantity in the panel of its unit; its limits beside it */
     for (int k = 0; k < ns; k++) {
         for (int i = 0; i < w->steps; i++)
@@ -500,7 +540,7 @@ int ls_cmd_sweep(ls_cli *cli)
     for (long i = first; code == LS_EXIT_OK && i < last; i++) {
         for (int k = 0; k < w.nq; k++)
             w.y[(size_t)i * (size_t)w.nq + (size_t)k] = NAN;
-        solve_point(&w, (int)i);
+        code = solve_point(&w, (int)i);
         ls_progress_update(&pg, i - first + 1, last - first);
     }
     ls_progress_end(&pg);
@@ -535,6 +575,7 @@ int ls_cmd_sweep(ls_cli *cli)
             sweep_csv(o, &w);
         else
             sweep_text(o, &rp, &w);
+        code = ls_report_done(&rp, code);
     }
     code = ls_out_close(cli, code);
     free(w.x);

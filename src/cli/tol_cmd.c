@@ -76,7 +76,7 @@ static void tol_parts_json(ls_jw *w, const tol_ctx *t)
 
 /* The tol report as one JSON object (cli.md keys; "rss" only with the
  * sensitivity method).  A statistic of no finite trial is "unsolved". */
-static void tol_json(const ls_report *rp, const tol_ctx *t)
+static void tol_json(ls_report *rp, const tol_ctx *t)
 {
     const ls_tol_result *r = &t->r;
     ls_jw jw, *w = &jw;
@@ -119,7 +119,7 @@ static void tol_json(const ls_report *rp, const tol_ctx *t)
         ls_jw_end(w);
     }
     ls_jw_end(w);
-    ls_jw_finish(w);
+    ls_report_json_end(rp, w);
 }
 
 /* One `field,value` CSV row; an empty value when v is not finite. */
@@ -387,10 +387,9 @@ int ls_cmd_tol(ls_cli *cli)
             ls_progress_end(&pg);
         t.trials = st.trials;   /* 0 when nothing varies */
         if (code == LS_TOL_NOMEM || code == LS_TOL_SETUP) {
-            fprintf(stderr, code == LS_TOL_NOMEM ? "loadstack: error: out of memory for %ld trials\n"
-                                                 : "loadstack: error: the Monte Carlo run could not be set up "
-                                                   "(out of memory for %ld trials)\n",
-                    t.trials);
+            /* never a statistic: a trial or corner that ran out of memory ends the run */
+            fprintf(stderr, "loadstack: error: out of memory in the tolerance study: %s (%d varying parts, %ld trials)\n",
+                    st.failed_stage ? st.failed_stage : "the Monte Carlo run", st.nv > 0 ? st.nv : 0, t.trials);
             code = LS_EXIT_UNSOLVABLE;
         }
         /* the reports read the study through the command's context */
@@ -417,7 +416,7 @@ int ls_cmd_tol(ls_cli *cli)
         tol_csv(o, &t);
     else
         tol_text(o, &rp, &t);
-    code = ls_out_close(cli, ls_session_verdict(&s, LS_EXIT_OK));
+    code = ls_out_close(cli, ls_session_verdict(&s, ls_report_done(&rp, LS_EXIT_OK)));
     ls_diags_print(&s.diags, stderr);
     ls_tol_free(&st);
     ls_session_free(&s);

@@ -1149,7 +1149,11 @@ ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect
 ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect)
 {
     int id = ls_sources_add(d, name, text, (unsigned)strlen(text));
-    if (id < 0 || ls_sources_check_utf8(d, id) > 0) /* command-line text must be UTF-8 too */
+    if (id < 0) {
+        ls_error(d, LS_NOLOC, "out of memory reading %s '%s' (%zu bytes)", name, text, strlen(text) + 1);
+        return NULL;
+    }
+    if (ls_sources_check_utf8(d, id) > 0) /* command-line text must be UTF-8 too */
         return NULL;
     return ls_parse_expr_at(d, id, 0, in_expect);
 }

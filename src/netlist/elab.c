@@ -1525,8 +1525,11 @@ static void collect_blocks(elab *x, const ls_program *prog)
     for (int i = 0; i < prog->n; i++)
         n += prog->stmts[i]->kind == S_BLOCK;
     x->blockv = calloc((size_t)(n ? n : 1), sizeof *x->blockv);
-    if (!x->blockv)
+    if (!x->blockv) {
+        ls_error(x->d, LS_NOLOC, "out of memory elaborating the blocks (%zu bytes)",
+                 (size_t)(n ? n : 1) * sizeof *x->blockv);
         return;
+    }
     for (int i = 0; i < prog->n; i++) {
         const ls_stmt *b = prog->stmts[i];
         if (b->kind != S_BLOCK)

@@ -155,6 +155,7 @@ void ls_jw_init(ls_jw *w, FILE *f, int wrap)
     w->whys = NULL;
     w->nwhy = w->capwhy = 0;
     w->failed = false;
+    w->failed_bytes = 0;
     w->p = w->b;
 }
 
@@ -220,6 +221,7 @@ static void remember(ls_jw *w, const char *key, const char *why)
         ls_jw_why *n = realloc(w->whys, (size_t)cap * sizeof *n);
         if (!n) {
             w->failed = true;
+            w->failed_bytes = (size_t)cap * sizeof *n;
             return;
         }
         w->whys = n;
@@ -228,6 +230,7 @@ static void remember(ls_jw *w, const char *key, const char *why)
     char *k = strdup(key);
     if (!k) {
         w->failed = true;
+        w->failed_bytes = strlen(key) + 1;
         return;
     }
     w->whys[w->nwhy++] = (ls_jw_why){k, why};

@@ -34,6 +34,7 @@ typedef struct ls_jw {
     ls_jw_why *whys;         /* reasons of the nulls of the open objects, innermost last */
     int nwhy, capwhy;
     bool failed;             /* out of memory: a why was lost */
+    size_t failed_bytes;     /* what the failed allocation asked for */
     char *p;                 /* next free byte of b */
     char b[16384];
 } ls_jw;

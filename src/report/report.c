@@ -146,6 +146,15 @@ void ls_report_json_begin(const ls_report *rp, ls_jw *w)
     ls_jw_meta(w, rp->command, rp->file, rp->sets, rp->nsets);
 }
 
+int ls_report_json_end(ls_report *rp, ls_jw *w)
+{
+    if (ls_jw_finish(w) == 0)
+        return 0;
+    rp->nomem = "the reasons of the JSON report's null fields";
+    rp->nomem_bytes = w->failed_bytes;
+    return -1;
+}
+
 void ls_report_budget_json(ls_jw *w, const ls_port_result *pr)
 {
     ls_jw_num_why(w, "budget", pr->budget, isnan(pr->budget) ? LS_WHY_NONE : ls_jw_why_of(pr->budget));
@@ -249,7 +258,8 @@ typedef struct table {
     size_t len, text_cap;
     int rows;
     int w[TABLE_MAXCOL];  /* widest cell of each column so far */
-    bool failed;          /* out of memory: rows after it are dropped */
+    bool failed;          /* out of memory: rows after it are dropped (t_print tells the report) */
+    size_t failed_bytes;  /* what the failed allocation asked for */
 } table;
 
 /* Append one row of ncol cells (NULL counts as empty); copies the text. */
@@ -270,6 +280,7 @@ static void t_row(table *t, const char *const *cells)
         char *b = realloc(t->text, cap);
         if (!b) {
             t->failed = true;
+            t->failed_bytes = cap;
             return;
         }
         t->text = b;
@@ -284,9 +295,17 @@ static void t_row(table *t, const char *const *cells)
     t->rows++;
 }
 
-/* Print the heading and the rows aligned, then empty the table. */
-static void t_print(table *t, FILE *f)
+/* Print the heading and the rows aligned to rp->out, then empty the table.
+ * A table that lost rows for want of memory marks the report (rp->nomem):
+ * what is printed is not the whole table.  Returns 0, or -1 then. */
+static int t_print(table *t, ls_report *rp)
 {
+    FILE *f = rp->out;
+    bool lost = t->failed;
+    if (lost) {
+        rp->nomem = "a table of the text report";
+        rp->nomem_bytes = t->failed_bytes;
+    }
     obuf ob, *out = &ob;
     int w[TABLE_MAXCOL];
     for (int c = 0; c < t->ncol; c++) {
@@ -321,7 +340,9 @@ static void t_print(table *t, FILE *f)
     t->text = NULL;
     t->len = t->text_cap = 0;
     t->rows = 0;
+    t->failed = false;
     memset(t->w, 0, sizeof t->w);
+    return lost ? -1 : 0;
 }
 
 /* ---- checks ------------------------------------------------------------------------- */
@@ -487,7 +508,7 @@ static void checks_text(ls_report *rp, const ls_checks *c)
         const char *cells[4] = {r->r.pass ? "pass" : "FAIL", text, val, where};
         t_row(&t, cells);
     }
-    t_print(&t, o);
+    t_print(&t, rp);
     for (int i = 0; i < c->n; i++)
         if (c->rows[i].r.reason)
             fprintf(o, "  note: %s: %s\n", c->rows[i].text, c->rows[i].r.reason);
@@ -631,7 +652,7 @@ static void adc_text(ls_report *rp, ls_op *op)
         t_row(&t, c);
     }
     if (t.rows)
-        t_print(&t, o);
+        t_print(&t, rp);
 }
 
 static void ntc_text(ls_report *rp, ls_op *op)
@@ -655,7 +676,7 @@ static void ntc_text(ls_report *rp, ls_op *op)
         t_row(&t, c);
     }
     if (t.rows)
-        t_print(&t, o);
+        t_print(&t, rp);
 }
 
 /* Extra JSON keys of the real parts' entries in "parts": an adc's reading,
@@ -916,7 +937,7 @@ static void ports_text(ls_report *rp, ls_op *op)
                              verdict};
         t_row(&p, c);
     }
-    t_print(&p, o);
+    t_print(&p, rp);
     if (held) {
         fputs("  note: the load side of", o);
         int k = 0;
@@ -942,6 +963,18 @@ static const char *eng_bounded(ls_report *rp, char *buf, size_t n, double v, con
     ls_eng(rp, buf + 1, n - 1, v, unit);
     (*marked)++;
     return buf;
+}
+
+/* Compute the error bounds for the report: true when it has them.  They
+ * fail only for want of memory, and a report that leaves them out is not the
+ * report asked for: rp->nomem says so. */
+static bool error_bounds(ls_report *rp, ls_op *op)
+{
+    if (ls_acc_bounds(op) == 0)
+        return true;
+    rp->nomem = "the error bounds of the solution";
+    rp->nomem_bytes = 0; /* (the bounds do not say what they asked for) */
+    return false;
 }
 
 /* The accuracy line under the solver line: which refinement ran and whether
@@ -980,7 +1013,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     if (op->iterations > 1)
         fprintf(o, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
     /* marks need the bounds; count them first so the accuracy line can say how many */
-    bool bounds = ls_acc_bounds(op) == 0;
+    bool bounds = error_bounds(rp, op);
     const ls_accuracy *acc = &op->acc;
     double vscale = ls_acc_scale(op, 0), iscale = ls_acc_scale(op, 1);
     int marked = 0;
@@ -1004,7 +1037,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
                             fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
         t_row(&t, c);
     }
-    t_print(&t, o);
+    t_print(&t, rp);
 
     int nparts = 0, nports = 0, nops = 0;
     for (int i = 0; i < nl->nparts; i++) {
@@ -1028,7 +1061,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
                                 ls_eng(rp, b2, sizeof b2, op->vpart[i], V), ls_eng(rp, b3, sizeof b3, op->ppart[i], W)};
             t_row(&p, c);
         }
-        t_print(&p, o);
+        t_print(&p, rp);
     }
     if (nports)
         ports_text(rp, op);
@@ -1058,7 +1091,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
                 c[3] = c[4];
             t_row(&p, c);
         }
-        t_print(&p, o);
+        t_print(&p, rp);
     }
     adc_text(rp, op);
     ntc_text(rp, op);
@@ -1121,7 +1154,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     ls_jw_int(w, "refinement_steps", op->acc.steps);
     ls_jw_end(w);
     w->wrap = wrap;
-    bool bounds = ls_acc_bounds(op) == 0;
+    bool bounds = error_bounds(rp, op);
     ls_jw_obj(w, "nodes");
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
@@ -1206,7 +1239,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     if (bounds)
         accuracy_json(w, op);
     ls_report_warnings_json(rp, w);
-    ls_jw_finish(w);
+    ls_report_json_end(rp, w);
 }
 
 static void csv_head(obuf *o, const char *section, const char *name, const char *field)
@@ -1395,7 +1428,7 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
             ls_jw_str(&w, NULL, rp->failed_warnings[i]);
         ls_jw_end(&w);
         ls_report_warnings_json(rp, &w);
-        ls_jw_finish(&w);
+        ls_report_json_end(rp, &w);
     } else if (rp->fmt == FMT_CSV) {
         obuf ob;
         ob_init(&ob, o);
@@ -1431,8 +1464,8 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
 
 /* ---- aligned tables for the other commands' text reports ------------------------------- */
 
-void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right, const char *const *cells,
-                   int nrows)
+int ls_text_table(ls_report *rp, int ncol, const char *const *head, const bool *right, const char *const *cells,
+                  int nrows)
 {
     table t = {.ncol = ncol < 10 ? ncol : 10};
     for (int c = 0; c < t.ncol; c++) {
@@ -1441,5 +1474,5 @@ void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right
     }
     for (int r = 0; r < nrows; r++)
         t_row(&t, cells + (size_t)r * (size_t)ncol);
-    t_print(&t, f);
+    return t_print(&t, rp);
 }

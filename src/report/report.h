@@ -22,6 +22,12 @@ typedef struct ls_report {
     int nsets;
     const char *const *failed_warnings;   /* check: codes that --fail-on fails on */
     int nfailed_warnings;
+    /* Set by a reporter when memory ran out while it wrote (what it was
+     * writing, with the size it asked for in nomem_bytes): the report is not
+     * whole, so the command must fail instead of handing it out
+     * (ls_report_done in cli.h). */
+    const char *nomem;
+    size_t nomem_bytes;
 } ls_report;
 
 /* Check results for every expect and rule (allocated by the caller). */
@@ -49,6 +55,9 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks);
 /* Pieces shared with the other commands' reporters. */
 /* Start a JSON report on rp->out: the top-level object and its "meta". */
 void ls_report_json_begin(const ls_report *rp, ls_jw *w);
+/* Finish it (ls_jw_finish); when the writer lost a reason for want of memory,
+ * rp->nomem says so.  Returns 0, or -1 then. */
+int ls_report_json_end(ls_report *rp, ls_jw *w);
 /* A port's "budget" (null, "none", without one) and "by" (the rule that
  * decided its verdict: "budget" or "ratio"). */
 void ls_report_budget_json(ls_jw *w, const ls_port_result *pr);
@@ -64,9 +73,10 @@ void ls_report_warnings_json(const ls_report *rp, ls_jw *w);
  * (name: its code; field: its file:line:col; value: the message). */
 void ls_report_warnings_csv(const ls_report *rp, FILE *out);
 /* Print nrows rows of ncol (at most 10) cells, row after row in `cells`, under
- * the heading `head`, aligned (right[c]: right-aligned column); indented by two
- * spaces as every text report.  NULL cells print empty. */
-void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right, const char *const *cells,
-                   int nrows);
+ * the heading `head`, aligned (right[c]: right-aligned column), to rp->out;
+ * indented by two spaces as every text report.  NULL cells print empty.
+ * Returns 0, or -1 when memory ran out (rows were lost: rp->nomem says so). */
+int ls_text_table(ls_report *rp, int ncol, const char *const *head, const bool *right, const char *const *cells,
+                  int nrows);
 
 #endif
