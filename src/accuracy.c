@@ -95,27 +95,31 @@ void ls_resid_b(ls_resid *r, int row, double v)
     r->absr[row] += fabs(v);
 }
 
-/* r = b - A (x + tail) rounded to double, from every part's stamp; absr as
- * in ls_resid.  work: 2 n doubles. */
-static void stamp_residual(ls_op *op, double *r, double *absr, double *work)
+void ls_acc_residual(const ls_mna *m, const double *x, const double *tail, double *r, double *absr, double *work)
 {
-    const ls_netlist *nl = op->nl;
-    int n = op->mna.n;
-    ls_resid res = {.x = op->x, .tail = op->acc.tail, .rhi = work, .rlo = work + n, .absr = absr};
+    const ls_netlist *nl = m->nl;
+    int n = m->n;
+    ls_resid res = {.x = x, .tail = tail, .rhi = work, .rlo = work + n, .absr = absr};
     memset(work, 0, 2 * (size_t)n * sizeof *work);
     memset(absr, 0, (size_t)n * sizeof *absr);
     ls_sink sink = {.mode = SINK_RESIDUAL, .resid = &res, .scale = 1};
     for (int i = 0; i <= nl->nparts; i++) { /* every part, then the variant's ties */
         res.nrows = 0;
         if (i < nl->nparts)
-            ls_mna_stamp_part(&op->mna, i, &sink);
+            ls_mna_stamp_part(m, i, &sink);
         else
-            ls_mna_stamp_ties(&op->mna, &sink);
+            ls_mna_stamp_ties(m, &sink);
         for (int k = 0; k < res.nrows; k++)
             absr[res.rows[k]] += fabs(res.phi[k] + res.plo[k]);
     }
     for (int i = 0; i < n; i++)
         r[i] = res.rhi[i] + res.rlo[i];
+}
+
+/* The residual of op's solution x + tail (ls_acc_residual). */
+static void stamp_residual(ls_op *op, double *r, double *absr, double *work)
+{
+    ls_acc_residual(&op->mna, op->x, op->acc.tail, r, absr, work);
 }
 
 /* ---- refinement ---------------------------------------------------------------------------- */
@@ -157,30 +161,46 @@ int ls_acc_refine(ls_op *op)
     memcpy(x0, op->x, (size_t)n * sizeof *x0);
     double scale[2];
     kind_scales(op, scale);
-    double prev = INFINITY, last = INFINITY, contraction = 0;
+    /* Two measures of each correction d (as LAPACK's extra-precise refinement
+     * keeps them): dz, componentwise, |d_i| / |x_i|, which says when every
+     * unknown is right to double precision; dx, normwise, |d_i| against the
+     * largest unknown of its kind, whose ratio from step to step estimates
+     * cond * eps.  A zero unknown (the current of a port into an ideal input)
+     * picks up rounding noise of the correction solve, some eps times the
+     * other corrections, and loses it again at the next step: its dz then
+     * stays put without saying anything about the conditioning.  So the
+     * contraction and "did it converge" are normwise; dz only decides
+     * whether another step can still help. */
+    double prev_z = INFINITY, prev_x = INFINITY, last_x = INFINITY, contraction = 0;
     for (int step = 0; step < MAX_STEPS; step++) {
         stamp_residual(op, r, absr, work);
         if (ls_solver_solve(op->solver, r, 0) != LS_SOLVER_OK)
             break;
-        double dz = 0;
+        double dz = 0, dx = 0;
         for (int i = 0; i < n; i++) {
+            int k = i >= op->mna.nn;
             /* relative change; a value that is zero in double counts against
              * a tiny fraction of the largest of its kind */
-            double size = fmax(fabs(op->x[i]), 1e-24 * scale[i >= op->mna.nn]);
-            if (r[i] != 0)
+            double size = fmax(fabs(op->x[i]), 1e-24 * scale[k]);
+            if (r[i] != 0) {
                 dz = fmax(dz, size > 0 ? fabs(r[i]) / size : INFINITY);
+                dx = fmax(dx, scale[k] > 0 ? fabs(r[i]) / scale[k] : INFINITY);
+            }
             dd_add(&op->x[i], &tail[i], r[i], 0);
         }
-        if (prev > CONVERGED && dz > 0)
-            contraction = fmax(contraction, dz / prev);
-        last = dz;
+        if (prev_x > CONVERGED && dx > 0)
+            contraction = fmax(contraction, dx / prev_x);
+        last_x = dx;
         op->acc.steps++;
-        /* done when the correction is below double precision (x + tail is
-         * then right to about cond * eps times that), or when a step no
-         * longer halves it (rounding has the last word) */
-        if (dz <= CONVERGED || dz > 0.5 * prev)
+        /* done when every correction is below double precision (x + tail is
+         * then right to about cond * eps times that); when the normwise
+         * correction no longer halves (rounding has the last word); or when
+         * only the componentwise one stalls after the normwise one converged
+         * (noise on unknowns that are zero or nearly so) */
+        if (dz <= CONVERGED || dx > 0.5 * prev_x || (dx <= CONVERGED && dz > 0.5 * prev_z))
             break;
-        prev = dz;
+        prev_z = dz;
+        prev_x = dx;
     }
     for (int i = 0; i < n && !op->acc.extended; i++)
         op->acc.extended = fabs(op->x[i] - x0[i]) > 2 * DBL_EPSILON * fabs(x0[i]);
@@ -188,7 +208,7 @@ int ls_acc_refine(ls_op *op)
      * small, or the steps never got below double precision, the system is
      * too ill-conditioned for first-order bounds (the rounding of the parts'
      * own values alone moves the answer by a good part of itself). */
-    op->acc.reliable = last <= CONVERGED && contraction <= MAX_CONTRACTION;
+    op->acc.reliable = last_x <= CONVERGED && contraction <= MAX_CONTRACTION;
     op->acc.refined = true;
     free(buf);
     return 0;

@@ -22,6 +22,7 @@
 
 struct ls_op;
 struct ls_lin;
+struct ls_mna;
 
 /* Per-result bounds for systems up to this many unknowns (and four times as
  * many parts); one estimate above. */
@@ -67,5 +68,13 @@ void ls_acc_warn(struct ls_op *op, int digits);
  * the scale ls_acc_doubtful judges a zero against. */
 double ls_acc_scale(const struct ls_op *op, int kind);
 void ls_acc_free(ls_accuracy *a);
+/* r = b - A (x + tail), summed part by part from every part's stamp (and the
+ * variant's ties) in double-double and rounded to double; absr[row] = the sum
+ * over parts of |that part's net contribution to the row| (the scale the
+ * rounding of the parts' own values acts on).  tail may be all zero; r, absr:
+ * n doubles; work: 2 n doubles of scratch (n = m->n).  The refinement's
+ * residual, exported so a test can hold it against the assembled matrix. */
+void ls_acc_residual(const struct ls_mna *m, const double *x, const double *tail, double *r, double *absr,
+                     double *work);
 
 #endif

@@ -954,6 +954,9 @@ static void accuracy_text(ls_report *rp, ls_op *op, int marked)
                                     : "double precision, confirmed by an extra-precise residual";
     if (!a->have_bounds)
         fprintf(rp->out, "accuracy: %s; no error bounds (out of memory)\n", how);
+    else if (!a->reliable)
+        fprintf(rp->out, "accuracy: %s; no error bounds: the equations are too ill-conditioned for double "
+                         "precision, so every number is marked ~\n", how);
     else if (marked)
         fprintf(rp->out, "accuracy: %s; %d number%s marked ~ may be wrong in %s last printed digit\n", how, marked,
                 marked == 1 ? "" : "s", marked == 1 ? "its" : "their");
