@@ -8,8 +8,8 @@
  *   chain  S inverting stages (R1 = R2 = 1k, op-amp = VCVS of gain 1e5):
  *          3 unknowns per stage, very sparse, unsymmetric.
  */
-#include "solver.h"
-#include "sparse.h"
+#include "solve/solver.h"
+#include "solve/sparse.h"
 
 #include <amd.h>
 
