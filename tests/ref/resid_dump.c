@@ -14,11 +14,11 @@
  *     r V I RESIDUAL ABSR      ls_acc_residual at that x (tail zero)
  * for every unknown of every variant XFILE gives an x for.  Exit 0, or 2 when
  * the circuit does not load or solve. */
-#include "accuracy.h"
-#include "analysis.h"
-#include "elab.h"
-#include "mna.h"
-#include "parser.h"
+#include "analysis/accuracy.h"
+#include "analysis/analysis.h"
+#include "netlist/elab.h"
+#include "mna/mna.h"
+#include "lang/parser.h"
 
 #include <stdio.h>
 #include <stdlib.h>
