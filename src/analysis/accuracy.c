@@ -297,6 +297,50 @@ static int estimate_node_bound(ls_op *op, const double *w, double *v, double *x,
     return 0;
 }
 
+/* The sign of every column of A^-1 in its node rows, into s (n doubles), when
+ * every part keeps them one-signed (ls_kind.monotone: positive resistances,
+ * current sources, sources with one end on ground; the system an M-matrix
+ * once the sources' rows are eliminated); false when some part does not, or
+ * for a variant's system. */
+static bool column_signs(const ls_op *op, double *s)
+{
+    const ls_netlist *nl = op->nl;
+    if (op->mna.opened || op->mna.ties)
+        return false;
+    for (int i = 0; i < op->mna.n; i++)
+        s[i] = 1;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        int sg = p->kind->monotone ? p->kind->monotone(p) : 0;
+        if (sg == 0)
+            return false;
+        if (p->branch >= 0)
+            s[p->branch] = sg;
+    }
+    return true;
+}
+
+/* y = A^-1 (s .* w): in the node rows, where every column of A^-1 has the
+ * sign s gives it, that is (|A^-1| w), each node's exact bound before the
+ * solve's own rounding, for the price of one solve.  0 done; 1 some node row
+ * came out clearly negative (the signs do not hold: use the estimate);
+ * -1 the solve failed.  y: n doubles. */
+static int signed_node_bound(ls_op *op, const double *w, const double *s, double *y)
+{
+    int n = op->mna.n, nn = op->mna.nn;
+    for (int i = 0; i < n; i++)
+        y[i] = s[i] * w[i];
+    if (ls_solver_solve(op->solver, y, 0) != LS_SOLVER_OK)
+        return -1;
+    double top = 0;
+    for (int i = 0; i < nn; i++)
+        top = fmax(top, fabs(y[i]));
+    for (int i = 0; i < nn; i++)
+        if (y[i] < -1e-6 * top)
+            return 1;
+    return 0;
+}
+
 /* How far a value is from trustworthy: its bound against its own size, or,
  * for a zero, against a millionth of a millionth of the largest of its kind. */
 static double untrust(double value, double bound, double scale)
@@ -412,18 +456,32 @@ int ls_acc_bounds(ls_op *op)
     for (int i = 0; i < n; i++)
         w[i] = fabs(w[i]) + DATA_ROUNDING * absr[i];
     int bad = 0;
-    a->estimated = n > LS_ACC_EXACT_LIMIT || nl->nparts > 4 * LS_ACC_EXACT_LIMIT;
+    bool large = n > LS_ACC_EXACT_LIMIT || nl->nparts > 4 * LS_ACC_EXACT_LIMIT;
+    a->estimated = a->per_node = false;
     double est = 0;
-    if (a->estimated)
-        bad = estimate_node_bound(op, w, y, work, isgn, &est) != 0;
+    if (large) {
+        /* a network of resistances and grounded sources: every node's bound
+         * exactly, by one solve; else one estimate for all */
+        int sr = column_signs(op, work) ? signed_node_bound(op, w, work, y) : 1;
+        if (sr < 0)
+            bad = 1;
+        a->per_node = sr == 0;
+        a->estimated = sr > 0;
+        if (a->estimated)
+            bad = estimate_node_bound(op, w, y, work, isgn, &est) != 0;
+    }
+    /* the bound of node unknown k, per node or estimated (large systems) */
+#define NODE_RAW(k) (SOLVE_SAFETY * (a->per_node ? fmax(y[k], 0) : est))
     a->node_bound[0] = 0;
     for (int i = 1; i < nl->nnodes && !bad; i++) {
-        double b = est;
-        if (!a->estimated) {
+        double b;
+        if (large) {
+            b = NODE_RAW(i - 1);
+        } else {
             ls_lin l = {.n = 1, .idx = {i - 1}, .coef = {1}};
             bad = form_bound(op, &l, w, y, &b) != 0;
         }
-        a->node_bound[i] = b * (a->estimated ? SOLVE_SAFETY : 1) + DBL_EPSILON * fabs(op->v[i]);
+        a->node_bound[i] = b + DBL_EPSILON * fabs(op->v[i]);
     }
     for (int i = 0; i < nl->nparts && !bad; i++) {
         ls_lin l;
@@ -431,9 +489,9 @@ int ls_acc_bounds(ls_op *op)
         if (!part_form(op, i, &l))
             continue;
         double b = 0;
-        if (a->estimated) { /* from the node bound, without the help of correlation */
+        if (large) { /* from the node bounds, without the help of correlation */
             for (int k = 0; k < l.n; k++)
-                b += fabs(l.coef[k]) * (l.idx[k] < nn ? est * SOLVE_SAFETY : NAN);
+                b += fabs(l.coef[k]) * (l.idx[k] < nn ? NODE_RAW(l.idx[k]) : NAN);
             if (isnan(b))
                 continue; /* a branch current: no per-unknown estimate */
         } else {
@@ -441,6 +499,7 @@ int ls_acc_bounds(ls_op *op)
         }
         a->part_bound[i] = b + DBL_EPSILON * fabs(op->ipart[i]);
     }
+#undef NODE_RAW
     free(buf);
     free(isgn);
     if (bad)

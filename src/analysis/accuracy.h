@@ -12,9 +12,11 @@
  * extra-precise residual and g bounds, row by row, what rounding each part's
  * own value and stamp (a few units of the last place of every part's
  * contribution) does to the equations.  Exact per result for small systems
- * (one transposed solve each); above LS_ACC_EXACT_LIMIT unknowns one estimate
- * of the largest node error (LAPACK's dlacn2 on A^-1 diag(|r| + g), as its
- * xGERFSX does) stands for every node. */
+ * (one transposed solve each); above LS_ACC_EXACT_LIMIT unknowns, exact per
+ * node by one solve for a network whose A^-1 has one-signed columns in its node
+ * rows (ls_kind.monotone: resistances, current sources, grounded sources), else
+ * one estimate of the largest node error (LAPACK's dlacn2 on A^-1 diag(|r| + g),
+ * as its xGERFSX does) stands for every node. */
 #ifndef LS_ACCURACY_H
 #define LS_ACCURACY_H
 
@@ -36,6 +38,7 @@ typedef struct ls_accuracy {
     bool reliable;         /* first-order bounds hold; else every bound is +inf */
     bool have_bounds;      /* node_bound and part_bound are valid */
     bool estimated;        /* one estimate for every node (large system) */
+    bool per_node;         /* large system of resistances and grounded sources: every node's bound by one solve */
     double *node_bound;    /* nnodes: V, absolute; [0] = 0 (ground) */
     double *part_bound;    /* nparts: A, absolute, on the part's current; NaN where none */
     int worst_node, worst_part;     /* largest bound against its value (-1: none untrusted) */

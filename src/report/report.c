@@ -1102,7 +1102,7 @@ static void accuracy_json(ls_jw *w, ls_op *op)
     const ls_netlist *nl = op->nl;
     const ls_accuracy *a = &op->acc;
     ls_jw_obj(w, "accuracy");
-    ls_jw_str(w, "bounds", !a->reliable ? "none" : a->estimated ? "estimate" : "per-result");
+    ls_jw_str(w, "bounds", !a->reliable ? "none" : a->estimated ? "estimate" : a->per_node ? "per-node" : "per-result");
     int wrap = w->wrap;
     w->wrap = 1; /* the bounds on one line */
     ls_jw_obj(w, "nodes");

@@ -12,8 +12,14 @@
  *     variant V n N            then "a I J VALUE" and "b I VALUE" lines
  * With XFILE (lines "x V I VALUE", VALUE in any form strtod reads), also
  *     r V I RESIDUAL ABSR      ls_acc_residual at that x (tail zero)
- * for every unknown of every variant XFILE gives an x for.  Exit 0, or 2 when
- * the circuit does not load or solve. */
+ * for every unknown of every variant XFILE gives an x for.
+ *
+ * Usage: resid_dump --bounds FILE.stack
+ * Solves the circuit and prints its system as variant 0, then the solution
+ * x + tail ("x I VALUE TAIL"), the refinement's residual there ("r 0 I R ABSR"),
+ * the kind of bounds ("bounds per-result|per-node|estimate|none") and every
+ * node's error bound ("nb NODE-UNKNOWN BOUND").
+ * Exit 0, or 2 when the circuit does not load or solve. */
 #include "analysis/accuracy.h"
 #include "analysis/analysis.h"
 #include "netlist/elab.h"
@@ -73,10 +79,39 @@ static int dump_residual(const ls_mna *m, int v, const char *xpath)
     return 0;
 }
 
+/* --bounds: the solved system, its residual and the node bounds. */
+static int dump_bounds(ls_op *op)
+{
+    const ls_mna *m = &op->mna;
+    size_t n = (size_t)(m->n ? m->n : 1);
+    double *buf = calloc(4 * n, sizeof *buf);
+    if (!buf || ls_acc_bounds(op) != 0) {
+        free(buf);
+        return 2;
+    }
+    dump_system(m, 0);
+    ls_acc_residual(m, op->x, op->acc.tail, buf, buf + n, buf + 2 * n);
+    for (int i = 0; i < m->n; i++) {
+        printf("x %d %a %a\n", i, op->x[i], op->acc.tail[i]);
+        printf("r 0 %d %a %a\n", i, buf[i], buf[n + (size_t)i]);
+    }
+    const ls_accuracy *a = &op->acc;
+    printf("bounds %s\n", !a->reliable ? "none" : a->estimated ? "estimate" : a->per_node ? "per-node" : "per-result");
+    for (int i = 1; i < op->nl->nnodes; i++)
+        printf("nb %d %a\n", i - 1, a->node_bound[i]);
+    free(buf);
+    return 0;
+}
+
 int main(int argc, char **argv)
 {
+    bool bounds = argc == 3 && strcmp(argv[1], "--bounds") == 0;
+    if (bounds) {
+        argv++;
+        argc--;
+    }
     if (argc < 2 || argc > 3) {
-        fprintf(stderr, "usage: resid_dump FILE.stack [XFILE]\n");
+        fprintf(stderr, "usage: resid_dump FILE.stack [XFILE] | resid_dump --bounds FILE.stack\n");
         return 2;
     }
     ls_arena arena;
@@ -98,6 +133,10 @@ int main(int argc, char **argv)
     if (ls_parse_file(&diags, argv[1], &prog) || ls_elaborate(&prog, &diags, NULL, 0, &nl) ||
         ls_op_solve(&op, &nl, &o) != LS_EXIT_OK || ls_mna_restamp(&op.mna) != 0) {
         fprintf(stderr, "resid_dump: %s does not load or solve\n", argv[1]);
+        goto out;
+    }
+    if (bounds) {
+        rc = dump_bounds(&op);
         goto out;
     }
     opened = calloc((size_t)nl.nparts + 1, 1);
