@@ -7,7 +7,7 @@
 # and `--set`.
 # Installed as share/bash-completion/completions/loadstack.
 
-_loadstack_commands="solve check sag thevenin influence tol sweep formula pick chain demo"
+_loadstack_commands="solve check sag thevenin influence tol sweep formula fit pick chain demo"
 _loadstack_all="--format --output --ascii --digits --quiet --help --version"
 _loadstack_circuit="--set --min-ratio --solver --derate"
 
@@ -26,6 +26,7 @@ _loadstack_options()
         chain) extra="$_loadstack_circuit --plot --plot-all" ;;
         solve | demo) extra="$_loadstack_circuit --plot-all" ;;
         formula) extra="$_loadstack_circuit --symbols --ideal" ;;
+        fit) extra="$_loadstack_circuit --series --goal --top --write --trials --seed --dist" ;;
         *) extra="$_loadstack_circuit" ;;
     esac
     echo "$_loadstack_all $extra"
@@ -112,7 +113,8 @@ _loadstack()
     for ((i = 1; i < cword; i++)); do
         case ${words[i]} in
             --set | --format | --output | --min-ratio | --solver | --derate | --load | --meter | \
-            --trials | --seed | --dist | --plot | --steps | --series | --total | --zout | --symbols)
+            --trials | --seed | --dist | --plot | --steps | --series | --total | --zout | --symbols | \
+            --goal | --top | --write)
                 # the value follows, as a word, or after a "=" word of its own
                 if [[ ${words[i+1]} == "=" ]]; then ((i += 2)); else ((i++)); fi ;;
             -* | = ) ;;
@@ -131,6 +133,10 @@ _loadstack()
         --format) COMPREPLY=($(compgen -W "text json csv html" -- "$cur")); return ;;
         --solver) COMPREPLY=($(compgen -W "auto dense sparse iterative" -- "$cur")); return ;;
         --dist) COMPREPLY=($(compgen -W "uniform normal" -- "$cur")); return ;;
+        --goal) COMPREPLY=($(compgen -W "margin yield current" -- "$cur")); return ;;
+        --write)
+            compopt -o filenames 2>/dev/null
+            COMPREPLY=($(compgen -f -X '!*.stack' -- "$cur") $(compgen -d -- "$cur")); return ;;
         --series) COMPREPLY=($(compgen -W "E6 E12 E24 E48 E96 E192" -- "$cur")); return ;;
         --fail-on)
             # a comma-separated list: complete the code after the last comma
@@ -153,7 +159,7 @@ _loadstack()
             compopt -o nospace 2>/dev/null
             COMPREPLY=($(compgen -P "$done_part" -W "$(_loadstack_parts "$file") $(_loadstack_lets "$file")" -- "$last"))
             return ;;
-        --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout | --digits)
+        --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout | --digits | --top)
             return ;;
     esac
 

@@ -11,6 +11,8 @@
 
 #include "analysis/analysis.h"
 #include "netlist/elab.h"
+#include "base/eseries.h"
+#include "analysis/fit.h"
 #include "analysis/formula.h"
 #include "lang/parser.h"
 #include "report/report.h"
@@ -887,6 +889,73 @@ ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_optio
     ls_status done = ok_status(c, w0);
     scratch_end(c, &sc);
     return done;
+}
+
+/* ---- standard values for the free parts ------------------------------------------------------ */
+
+/* The candidates of a finished study into the caller's arrays.  Returns LS_OK or LS_E_NOMEM. */
+static ls_status fit_out(const ls_circuit *c, const ls_fit_study *f, ls_fit_candidate **cands, double **values,
+                         const char ***names)
+{
+    int n = f->nbest, m = f->nvars;
+    *cands = malloc((size_t)(n ? n : 1) * sizeof **cands);
+    *values = malloc((size_t)(n * m > 0 ? n * m : 1) * sizeof **values);
+    if (names)
+        *names = malloc((size_t)(m ? m : 1) * sizeof **names);
+    if (!*cands || !*values || (names && !*names)) {
+        free(*cands);
+        free(*values);
+        *cands = NULL;
+        *values = NULL;
+        if (names) {
+            free((void *)*names);
+            *names = NULL;
+        }
+        return LS_E_NOMEM;
+    }
+    for (int i = 0; i < n; i++) {
+        const ls_fit_cand *b = &f->best[i];
+        (*cands)[i] = (ls_fit_candidate){.meets = b->meets, .failed = b->failed, .margin = b->margin,
+                                         .yield = b->yield, .current = b->current};
+        memcpy(*values + (size_t)i * m, b->value, (size_t)m * sizeof **values);
+    }
+    for (int j = 0; names && j < m; j++)
+        (*names)[j] = c->nl.parts[f->vars[j].part].name;
+    return LS_OK;
+}
+
+ls_status ls_circuit_fit(ls_circuit *c, const ls_fit_options *opt, ls_fit_candidate **cands, int *ncands,
+                         double **values, int *nfree, const char ***names)
+{
+    ls_status st = need_solved(c);
+    if (st != LS_OK)
+        return st;
+    if (!cands || !ncands || !values || !nfree)
+        return LS_E_ARGUMENT;
+    *cands = NULL;
+    *values = NULL;
+    *ncands = *nfree = 0;
+    ls_fit_options o = opt ? *opt : (ls_fit_options){0};
+    const ls_eseries *es = ls_eseries_find(o.series ? o.series : "E24");
+    if (!es || (int)o.aim < 0 || o.aim > LS_FIT_AIM_CURRENT || o.trials > LS_TOL_MAX_TRIALS ||
+        (o.law != LS_TOL_UNIFORM && o.law != LS_TOL_NORMAL))
+        return LS_E_ARGUMENT;
+    ls_fit_study f = {.nl = &c->nl, .op = &c->op, .arena = &c->arena, .goal = (ls_fit_goal)o.aim,
+                      .series = es->name, .top = o.top > 0 ? o.top : 5, .trials = o.trials > 0 ? o.trials : 2000,
+                      .seed = (uint64_t)o.seed, .normal = o.law == LS_TOL_NORMAL};
+    int code = ls_fit_run(&f);
+    if (code == LS_EXIT_UNSOLVABLE)
+        c->solved = false;   /* the written values no longer solve: results would be stale */
+    if (code == LS_FIT_OK)
+        st = fit_out(c, &f, cands, values, names);
+    else
+        st = code == LS_EXIT_UNSOLVABLE ? LS_E_UNSOLVABLE : code == LS_FIT_NOMEM ? LS_E_NOMEM : LS_E_ARGUMENT;
+    if (st == LS_OK) {
+        *ncands = f.nbest;
+        *nfree = f.nvars;
+    }
+    ls_fit_free(&f);
+    return st;
 }
 
 /* ---- sweeps --------------------------------------------------------------------------------- */

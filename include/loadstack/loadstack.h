@@ -458,6 +458,48 @@ LS_API ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_to
                          double **values);
 /* (values is NULL when no trial was run.) */
 
+/* ---- standard values for the free parts ------------------------------------------------------ */
+
+typedef enum ls_fit_aim {
+    LS_FIT_AIM_MARGIN = 0,    /* the largest smallest margin of an expect, rule or port to its limit */
+    LS_FIT_AIM_YIELD,         /* the largest Monte Carlo yield (the parts' tol=, trials as ls_circuit_tol) */
+    LS_FIT_AIM_CURRENT        /* the least current from the supplies */
+} ls_fit_aim;
+
+typedef struct ls_fit_options {
+    const char *series;       /* series of a free part without snap=: "E6" .. "E192"; NULL means "E24" */
+    ls_fit_aim aim;
+    int top;                  /* candidates wanted, best first; <= 0 means 5 */
+    long trials;              /* Monte Carlo trials per finalist for the yield; <= 0 means 2000 */
+    unsigned long long seed;  /* as ls_tol_options */
+    ls_tol_law law;
+} ls_fit_options;
+
+/* One candidate of `loadstack fit` (docs/fit.md). */
+typedef struct ls_fit_candidate {
+    int meets;                /* 1: every expect, rule, port verdict and limit holds */
+    int failed;               /* checks it fails */
+    double margin;            /* smallest margin of the expects, rules and ports (+inf with none) */
+    double yield;             /* fraction of feasible trials; NaN when not computed */
+    double current;           /* A drawn from the supplies; NaN when it did not solve */
+} ls_fit_candidate;
+
+/* Choose standard values (IEC 60063) for the parts marked free=LO..HI.
+ *   opt        in: options, or NULL for the defaults.
+ *   cands      out: *ncands candidates, best first (the first is the chosen
+ *              one when its meets is 1, else the closest); the caller frees
+ *              the array with ls_free.
+ *   values     out: *ncands x *nfree values, candidate by candidate, in the
+ *              order of the free parts in the circuit; the caller frees it with ls_free.
+ *   names      out (may be NULL): *nfree part names, valid until ls_circuit_free;
+ *              the caller frees the array (not the names) with ls_free.
+ * The parts are back at their written values and the circuit solved on
+ * return.  Returns LS_OK (whether or not a candidate meets everything: see
+ * cands[0].meets), LS_E_ARGUMENT (a bad option, no free part, or a free
+ * range without a series value), LS_E_NOT_SOLVED, LS_E_UNSOLVABLE or LS_E_NOMEM. */
+LS_API ls_status ls_circuit_fit(ls_circuit *c, const ls_fit_options *opt, ls_fit_candidate **cands, int *ncands,
+                         double **values, int *nfree, const char ***names);
+
 /* ---- sweeps --------------------------------------------------------------------------------- */
 
 /* Sweep the top-level let `let` (`loadstack sweep`): the circuit is parsed

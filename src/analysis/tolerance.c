@@ -79,7 +79,9 @@ typedef struct mc_job {
     uint64_t seed;
     bool normal;                   /* tol is 3 sigma of a normal law; else uniform +-tol */
     double *value;                 /* per trial, NaN when it did not solve */
-    unsigned char *pass;           /* per trial: every matching expect holds */
+    unsigned char *pass;           /* per trial: every matching expect holds (or accept says so) */
+    bool (*accept)(void *ctx, ls_op *op);   /* or NULL: instead of the matching expects */
+    void *accept_ctx;
     void (*progress)(void *ctx, long done, long total);   /* or NULL */
     void *progress_ctx;
     atomic_long done;              /* trials finished, for the progress hook */
@@ -177,8 +179,10 @@ static void *mc_run(void *arg)
             job->pass[i] = 0;
             continue;
         }
-        job->value[i] = ls_q_eval(&op, job->q);
+        job->value[i] = job->q ? ls_q_eval(&op, job->q) : NAN;
         bool ok = true;
+        if (job->accept)
+            ok = job->accept(job->accept_ctx, &op);
         for (int c = 0; c < job->nchecks && ok; c++) {
             ls_check_result r;
             ls_check_eval(&op, &nl.checks[job->checks[c]], &r);
@@ -578,4 +582,29 @@ int ls_tol_trials(const ls_netlist *nl, const ls_op *op, const ls_q *q, long tri
     }
     *values = job.value;
     return 0;
+}
+
+int ls_tol_pass_rate(const ls_netlist *nl, const ls_op *op, long trials, uint64_t seed, bool normal,
+                     bool (*accept)(void *ctx, ls_op *op), void *ctx, double *rate)
+{
+    ls_tol_vary *v;
+    int nv = varying_parts(nl, &v);
+    *rate = NAN;
+    if (nv < 0)
+        return -1;
+    mc_job job = {.base = nl, .opt = op->opt, .v = v, .nv = nv, .trials = trials, .first = 0, .last = trials,
+                  .seed = seed, .normal = normal, .accept = accept, .accept_ctx = ctx};   /* one process: every trial */
+    job.value = malloc((size_t)trials * sizeof *job.value);
+    job.pass = malloc((size_t)trials);
+    int rc = job.value && job.pass ? mc_all(&job, thread_count(trials)) : -1;
+    if (rc == 0) {
+        long pass = 0;
+        for (long i = 0; i < trials; i++)
+            pass += job.pass[i];
+        *rate = (double)pass / (double)trials;
+    }
+    free(job.value);
+    free(job.pass);
+    free(v);
+    return rc;
 }

@@ -78,6 +78,15 @@ int ls_tol_run(ls_tol_study *t);
  * memory or a worker could not set up. */
 int ls_tol_trials(const ls_netlist *nl, const ls_op *op, const ls_q *q, long trials, uint64_t seed, double **values);
 
+/* The fraction of `trials` Monte Carlo trials (the parts' tol=, drawn as
+ * `tol` draws them for `seed`: trial i from stream i) for which accept(ctx,
+ * op) holds on the trial's solved operating point (a trial that does not
+ * solve fails).  accept runs on several threads at once, each with its own
+ * op.  Returns 0 with *rate set, or -1 when out of memory or a worker could
+ * not set up. */
+int ls_tol_pass_rate(const ls_netlist *nl, const ls_op *op, long trials, uint64_t seed, bool normal,
+                     bool (*accept)(void *ctx, ls_op *op), void *ctx, double *rate);
+
 /* Release the study's outputs (v, checks, values); the inputs are the caller's. */
 void ls_tol_free(ls_tol_study *t);
 

@@ -48,6 +48,10 @@ typedef struct ls_cli {
     ls_dest out_dest, plot_dest;
     const char *symbols;               /* formula: --symbols A,B,... */
     bool ideal;                        /* formula: --ideal */
+    const char *goal;                  /* fit: --goal margin|yield|current */
+    int top;                           /* fit: --top K (default 5) */
+    const char *write;                 /* fit: --write FILE.stack */
+    ls_dest write_dest;                /* its destination, prepared with the others */
     bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
     const ls_share *share;             /* loadstack-mpi: tol's trials and sweep's points split among processes */
 } ls_cli;
@@ -118,6 +122,7 @@ int ls_cmd_sweep(ls_cli *cli);   /* sweep_cmd.c */
 int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
 int ls_cmd_chain(ls_cli *cli);   /* chain_cmd.c */
 int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
+int ls_cmd_fit(ls_cli *cli);     /* fit_cmd.c */
 
 extern const char ls_demo_text[];
 /* Every warning code the program gives, NULL-terminated (generated from

@@ -273,6 +273,13 @@ static int refuse(ls_cli *cli, const char *fmt, const char *a, const char *b)
     return LS_EXIT_USAGE;
 }
 
+/* --write names a circuit file: FILE.stack, not standard output. */
+static bool write_ok(const char *path)
+{
+    size_t n = strlen(path);
+    return n > 6 && strcmp(path + n - 6, ".stack") == 0;
+}
+
 int ls_out_prepare(ls_cli *cli)
 {
     char msg[700];
@@ -289,10 +296,19 @@ int ls_out_prepare(ls_cli *cli)
         return refuse(cli, "--output '%s' is the input circuit; refusing to overwrite it%s", cli->output, "");
     if (cli->plot && ls_dest_same(&cli->plot_dest, input))
         return refuse(cli, "--plot '%s' is the input circuit; refusing to overwrite it%s", cli->plot, "");
+    if (cli->write && !write_ok(cli->write))
+        return refuse(cli, "--write '%s': the chosen circuit is written to a file ending in .stack%s", cli->write, "");
+    if (cli->write && ls_dest_open(&cli->write_dest, "--write", cli->write, msg, sizeof msg) != 0)
+        return refuse(cli, "%s%s", msg, "");
+    if (cli->write && ls_dest_same(&cli->write_dest, input))
+        return refuse(cli, "--write '%s' is the input circuit; refusing to overwrite it%s", cli->write, "");
+    if (cli->write && (ls_dest_same_dest(&cli->write_dest, &cli->out_dest) ||
+                       (cli->plot && ls_dest_same_dest(&cli->write_dest, &cli->plot_dest))))
+        return refuse(cli, "--write '%s' is also another output of this run%s; give each its own file", cli->write, "");
     if (cli->plot && ls_dest_same_dest(&cli->plot_dest, &cli->out_dest))
         return refuse(cli, "--plot '%s' and --output '%s' are the same file; give each its own", cli->plot,
                       cli->output);
-    if (cli->plot || !cli->out_dest.is_stdout)
+    if (cli->plot || cli->write || !cli->out_dest.is_stdout)
         catch_stop_signals();
     return LS_EXIT_OK;
 }
@@ -304,10 +320,11 @@ int ls_out_protect(ls_session *s)
     for (int i = 1; i < s->diags.nfiles; i++) {   /* file 0 is the input, checked before */
         const char *inc = s->diags.files[i].path;
         const char *hit = ls_dest_same(&cli->out_dest, inc) ? "--output"
-                          : cli->plot && ls_dest_same(&cli->plot_dest, inc) ? "--plot" : NULL;
+                          : cli->plot && ls_dest_same(&cli->plot_dest, inc) ? "--plot"
+                          : cli->write && ls_dest_same(&cli->write_dest, inc) ? "--write" : NULL;
         if (hit) {
             ls_error(&s->diags, LS_NOLOC, "%s '%s' is an included circuit file; refusing to overwrite it", hit,
-                     strcmp(hit, "--plot") == 0 ? cli->plot : cli->output);
+                     strcmp(hit, "--plot") == 0 ? cli->plot : strcmp(hit, "--write") == 0 ? cli->write : cli->output);
             code = LS_EXIT_USAGE;
         }
     }
@@ -326,12 +343,13 @@ int ls_out_close(ls_cli *cli, int code)
         ls_out_abandon(cli);
         return code;
     }
-    bool plot_open = cli->plot_dest.f != NULL;
+    bool plot_open = cli->plot_dest.f != NULL, write_open = cli->write_dest.f != NULL;
     if (!cli->out_dest.f) {   /* not prepared (a caller of the command functions that wants stdout) */
         cli->out_dest.is_stdout = true;
         cli->out_dest.f = stdout;
     }
     if ((plot_open && ls_dest_commit(&cli->plot_dest, msg, sizeof msg) != 0) ||
+        (write_open && ls_dest_commit(&cli->write_dest, msg, sizeof msg) != 0) ||
         ls_dest_commit(&cli->out_dest, msg, sizeof msg) != 0) {
         fprintf(stderr, "loadstack: error: %s\n", msg);
         ls_out_abandon(cli);
@@ -351,6 +369,7 @@ ls_report ls_report_for(const ls_session *s, FILE *out)
 void ls_out_abandon(ls_cli *cli)
 {
     ls_dest_discard(&cli->plot_dest);
+    ls_dest_discard(&cli->write_dest);
     ls_dest_discard(&cli->out_dest);   /* standard output: only flushed */
 }
 

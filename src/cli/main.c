@@ -48,16 +48,19 @@ static const optdef options[] = {
     {"load", true, FOR_LISTED, "thevenin", "R  voltage and current into a load resistance R"},
     {"meter", true, FOR_LISTED, "thevenin", "R  what a meter of input resistance R would read"},
     {"what-if", false, FOR_LISTED, "sag", "add the table of each port opened and each part removed in turn"},
-    {"trials", true, FOR_LISTED, "tol", "N  Monte Carlo trials, SI prefixes allowed: 100k (default 10000)"},
-    {"seed", true, FOR_LISTED, "tol", "S  random seed, a whole number (default 1): the same seed gives the same answer"},
-    {"dist", true, FOR_LISTED, "tol", "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)"},
+    {"trials", true, FOR_LISTED, "tol fit", "N  Monte Carlo trials, SI prefixes allowed: 100k (default: tol 10000, fit 2000 per finalist)"},
+    {"seed", true, FOR_LISTED, "tol fit", "S  random seed, a whole number (default 1): the same seed gives the same answer"},
+    {"dist", true, FOR_LISTED, "tol fit", "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)"},
     {"plot", true, FOR_LISTED, "tol sweep chain", "FILE.svg|FILE.png|FILE.pdf  draw a picture (tol: histogram; sweep: the curves; chain: the stages)"},
     {"plot-all", false, FOR_LISTED, "solve chain demo", "with --format html: tolerance histograms even when no part has tol="},
     {"steps", true, FOR_LISTED, "sweep", "N  points from FROM to TO, both included (default 51)"},
     {"log", false, FOR_LISTED, "sweep", "space the points evenly on a log scale (FROM and TO > 0)"},
-    {"series", true, FOR_LISTED, "pick", "E6|E12|E24|E48|E96|E192  standard value series (default E24)"},
+    {"series", true, FOR_LISTED, "pick fit", "E6|E12|E24|E48|E96|E192  standard value series (default E24; fit: for parts without snap=)"},
     {"total", true, FOR_LISTED, "pick", "LO..HI  range of rtop + rbot (default 1k..1M)"},
     {"zout", true, FOR_LISTED, "pick", "MAX  largest acceptable rtop || rbot"},
+    {"goal", true, FOR_LISTED, "fit", "margin|yield|current  what the best candidate has most of (least current) (default margin)"},
+    {"top", true, FOR_LISTED, "fit", "K  candidates to report, best first (default 5)"},
+    {"write", true, FOR_LISTED, "fit", "FILE.stack  a copy of the circuit with the chosen values (never the input)"},
     {"symbols", true, FOR_LISTED, "formula", "A,B,...  keep only these parts' values and lets as symbols (the rest as numbers)"},
     {"ideal", false, FOR_LISTED, "formula", "take every finite op-amp gain to infinity (the formula designers write first)"},
 };
@@ -91,6 +94,8 @@ static const cmd commands[] = {
      "loadstack formula circuits/strain_bridge.stack out --symbols vex,strain", ls_cmd_formula, 2, true},
     {"pick", "pick ratio R", "best pairs of standard (IEC 60063) values for a divider ratio R = rbot/(rtop+rbot)",
      "loadstack pick ratio 0.66 --series E24 --total 10k..100k", ls_cmd_pick, 2, false},
+    {"fit", "fit FILE", "standard values for the parts marked free= that meet every expect, rule and port verdict",
+     "loadstack fit circuits/level_shifter.stack --series E24 --write chosen.stack", ls_cmd_fit, 1, true},
     {"chain", "chain FILE", "the stages in signal order and every connection between them, with its verdict",
      "loadstack chain circuits/demo.stack --plot chain.png", ls_cmd_chain, 1, true},
     {"demo", "demo", "the built-in demo circuit, solved (needs no file)", "loadstack demo", ls_cmd_demo, 0, true},
@@ -135,7 +140,8 @@ static void usage_all(FILE *f)
         if (options[i].scope == FOR_CIRCUIT)
             fprintf(f, "  --%-11s %s\n", options[i].name, options[i].help);
     fputs("\nFILE '-' reads the circuit from standard input; '--' ends the options.\n"
-          "\nexit codes: 0 done (checks pass), 1 a check failed (check), 2 bad usage or circuit file,\n"
+          "\nexit codes: 0 done (checks pass), 1 a check failed (check) or nothing fits (fit),\n"
+          "            2 bad usage or circuit file,\n"
           "            3 the circuit cannot be solved\n"
           "\nexamples:\n  loadstack demo\n  loadstack solve circuits/demo.stack --set vsupply=3.3V\n"
           "  loadstack check circuits/demo.stack --format json\n"
@@ -376,6 +382,17 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         cli->total = val;
     } else if (strcmp(n, "zout") == 0) {
         cli->zout = val;
+    } else if (strcmp(n, "goal") == 0) {
+        if (strcmp(val, "margin") != 0 && strcmp(val, "yield") != 0 && strcmp(val, "current") != 0)
+            return bad_usage("--goal takes margin, yield or current, not '%s'%s", val, "");
+        cli->goal = val;
+    } else if (strcmp(n, "top") == 0) {
+        long k;
+        if (!whole_number(val, 1, 1000, &k))
+            return bad_usage("--top takes a whole number from 1 to 1000, not '%s'%s", val, "");
+        cli->top = (int)k;
+    } else if (strcmp(n, "write") == 0) {
+        cli->write = val;
     } else if (strcmp(n, "symbols") == 0) {
         cli->symbols = val;
     } else if (strcmp(n, "ideal") == 0) {
@@ -433,7 +450,7 @@ static int run_main(int argc, char **argv, const ls_share *share)
     memset(&cli, 0, sizeof cli);
     cli.derate = 1;
     cli.seed = 1;
-    cli.trials = 10000;
+    cli.trials = 0;   /* each command's default (tol 10000, fit 2000) */
     cli.steps = 51;
     cli.digits = 4;
     cli.share = share;

@@ -89,6 +89,7 @@ void ls_netlist_free(ls_netlist *nl)
     free(nl->parts);
     free(nl->checks);
     free(nl->budgets);
+    free(nl->frees);
     free(nl->params);
     free(nl->ents);
     ls_hash_free(&nl->names);
@@ -1029,6 +1030,62 @@ static bool set_range(elab *x, const scope *s, ls_part *p, int oi, const ls_opt 
     return true;
 }
 
+/* free=LO..HI: both ends in the unit of the part's main value, 0 < LO < HI;
+ * stored in nl->frees, its index in p->opt[oi]. */
+static bool set_free(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *o)
+{
+    ls_netlist *nl = x->nl;
+    const ls_kind *k = p->kind;
+    ls_dims d = ls_kind_main_dims(k);
+    bool has_main = k->value_slot;
+    for (int i = 0; i < k->nopts; i++)
+        has_main = has_main || (k->opts[i].flags & OPTF_MAIN);
+    if (!has_main) {
+        ls_error(x->d, o->name_loc, "free= is for a part with a main value; a %s has none", k->name);
+        return false;
+    }
+    if (!o->hi) {
+        ls_error(x->d, o->value->loc, "free= takes a range LO..HI of the part's value (e.g. free=1k..100k)");
+        return false;
+    }
+    ls_freevar f = {.part = nl->nparts, .series = NULL,
+                 .loc = {o->value->loc.file, o->value->loc.start, o->hi->loc.end}};
+    bool ok_lo = eval_slot(x, s, o->value, d, &f.lo), ok_hi = eval_slot(x, s, o->hi, d, &f.hi);
+    if (!ok_lo || !ok_hi)
+        return false;
+    if (!(f.lo > 0 && f.hi > f.lo && isfinite(f.hi))) {
+        ls_error(x->d, f.loc, "free= %s: the range must be 0 < LO < HI (standard values are positive)",
+                 src_text(x, f.loc));
+        return false;
+    }
+    if (!grow_x(x, (void **)&nl->frees, &nl->cap_frees, nl->nfrees + 1, sizeof *nl->frees))
+        return false;
+    nl->frees[nl->nfrees] = f;
+    p->opt[oi] = nl->nfrees++;
+    return true;
+}
+
+/* After a part's options: its free= record learns the snap= series (before
+ * snap_value turns that option into the rounding error), and the written
+ * value, the starting point, must lie in the range. */
+static void finish_free(elab *x, ls_part *p)
+{
+    const ls_kind *k = p->kind;
+    int fi = ls_kind_opt(k, "free"), si = ls_kind_opt(k, "snap");
+    if (!ls_part_has(p, fi))
+        return;
+    ls_freevar *f = &x->nl->frees[(int)p->opt[fi]];
+    if (ls_part_has(p, si)) {
+        static const char *const names[] = {"E6", "E12", "E24", "E48", "E96", "E192"};
+        int w = (int)p->opt[si];
+        if (w >= 0 && w < 6)
+            f->series = names[w];
+    }
+    if (p->has_value && !(p->value >= f->lo * (1 - 1e-12) && p->value <= f->hi * (1 + 1e-12)))
+        ls_error(x->d, p->value_loc, "%s '%s': its value %g lies outside its free= range %s",
+                 k->name, p->name, p->value, src_text(x, f->loc));
+}
+
 /* snap=SERIES: round the value to the nearest IEC 60063 value of the series
  * and warn with the rounding error; opt[oi] then holds that error as a
  * fraction (snapped / written - 1) instead of the word's index. */
@@ -1142,7 +1199,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         const ls_optdef *od = &k->opts[oi];
         if (od->kind == OPT_WORD && strcmp(od->name, "snap") == 0)
             snap_loc = o->value->loc;
-        if (o->hi && od->kind != OPT_RANGE) {
+        if (o->hi && od->kind != OPT_RANGE && od->kind != OPT_FREE) {
             ls_error(x->d, o->hi->loc, "%s= takes one value, not a range", o->name);
             continue;
         }
@@ -1197,6 +1254,10 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
             if (!set_range(x, s, &p, oi, o))
                 continue;
             break;
+        case OPT_FREE:
+            if (!set_free(x, s, &p, oi, o))
+                continue;
+            break;
         }
         p.has_opt |= 1u << oi;
     }
@@ -1217,6 +1278,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
             continue; /* the positional value was given but had an error */
         ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
     }
+    finish_free(x, &p);
     if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
         snap_value(x, &p, ls_kind_opt(k, "snap"), snap_loc);
     if (st->arrow && p.pin[0] >= 0 && p.pin[0] == p.pin[1])

@@ -134,6 +134,15 @@ typedef struct ls_budget {
     ls_loc loc;            /* the value as written */
 } ls_budget;
 
+/* A design variable: a part whose main value has free=LO..HI (language.md),
+ * for `fit`.  The part's opt[free] holds its index in nl->frees. */
+typedef struct ls_freevar {
+    int part;
+    double lo, hi;         /* the range, in the part's main unit; 0 < lo < hi */
+    const char *series;    /* the part's snap= series ("E96"), or NULL: the command's --series */
+    ls_loc loc;            /* free=LO..HI as written */
+} ls_freevar;
+
 typedef struct ls_netlist {
     ls_arena *arena;
     ls_diags *diags;
@@ -155,6 +164,8 @@ typedef struct ls_netlist {
     bool has_rule;
     ls_budget *budgets;    /* ports' budget= (a port's opt[budget] is its index here) */
     int nbudgets, cap_budgets;
+    ls_freevar *frees;        /* free= design variables, in part order */
+    int nfrees, cap_frees;
     ls_budget rule_sag;    /* `rule sag <= X`, when has_rule_sag */
     bool has_rule_sag;
     int instances;

@@ -1012,8 +1012,9 @@ static void adc_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 
 #define COMMON_OPTS                                              \
     {"tol", OPT_VALUE, LS_FREE, OPTF_NONNEG, -1, NULL},          \
-    {"rating", OPT_VALUE, LS_WATT, OPTF_POSITIVE, -1, NULL}
-#define NCOMMON 2
+    {"rating", OPT_VALUE, LS_WATT, OPTF_POSITIVE, -1, NULL},     \
+    {"free", OPT_FREE, LS_FREE, 0, -1, NULL}
+#define NCOMMON 3
 /* Earlier spellings of the junction options, each answered with its new name. */
 #define JUNCTION_RENAMED {{"is", "isat"}, {"n", "ideality"}, {"rs", "rbulk"}}
 

@@ -6,7 +6,8 @@
 
 #include "netlist/netlist.h"
 
-typedef enum ls_optkind { OPT_VALUE, OPT_NODE, OPT_PART, OPT_WORD, OPT_RANGE } ls_optkind;
+/* OPT_FREE: free=LO..HI, a range of the part's main value (kept in nl->frees). */
+typedef enum ls_optkind { OPT_VALUE, OPT_NODE, OPT_PART, OPT_WORD, OPT_RANGE, OPT_FREE } ls_optkind;
 
 enum {
     OPTF_REQUIRED = 1,   /* must be given */

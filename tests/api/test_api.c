@@ -537,6 +537,41 @@ static void test_tol(void)
     ls_circuit_free(&c);
 }
 
+/* fit through the C API: a 5 V divider with r2 = 10k and r1 free in E12 from
+ * 1k to 100k, mid between 2.4 V and 2.6 V.  By the divider rule mid = 5 V *
+ * 10k / (r1 + 10k), so r1 must lie in 9.23k..10.83k: of E12 only 10k does
+ * (8.2k gives 2.75 V, 12k 2.27 V); it centres mid at 2.5 V (margin 1) and
+ * draws 5 V / 20k = 250 uA (Ohm's law).  The written 9.1k is put back. */
+static void test_fit(void)
+{
+    ls_circuit *c = solved("ground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> mid 9.1k free=1k..100k\n"
+                           "resistor r2 mid -> gnd 10k\nexpect mid between 2.4 V and 2.6 V\n",
+                           NULL);
+    if (!c)
+        return;
+    ls_fit_options o = {.series = "E12", .top = 3};
+    ls_fit_candidate *cand = NULL;
+    double *values = NULL, v = 0;
+    const char **names = NULL;
+    int n = 0, m = 0;
+    CU_ASSERT_EQUAL(ls_circuit_fit(c, &o, &cand, &n, &values, &m, &names), LS_OK);
+    CU_ASSERT(n == 3 && m == 1);
+    if (cand && values && names && n >= 2 && m == 1) {
+        CU_ASSERT(cand[0].meets == 1 && values[0] == 10e3 && strcmp(names[0], "r1") == 0);
+        CU_ASSERT(REL(cand[0].margin, 1.0, 1e-9));
+        CU_ASSERT(REL(cand[0].current, 250e-6, 1e-9));
+        CU_ASSERT(cand[1].meets == 0 && cand[1].failed == 1);
+    }
+    ls_free(cand);
+    ls_free(values);
+    ls_free((void *)names);
+    CU_ASSERT_EQUAL(ls_circuit_eval(c, "r1.value", &v), LS_OK);
+    CU_ASSERT(v == 9100);
+    o.series = "E7";
+    CU_ASSERT_EQUAL(ls_circuit_fit(c, &o, &cand, &n, &values, &m, NULL), LS_E_ARGUMENT);
+    ls_circuit_free(&c);
+}
+
 /* A sweep of the supply let of a 10k/30k divider: mid = 3/4 of the supply
  * (divider rule) at each of 1, 2, ... 5 V; log spacing from 1 to 100 gives
  * 1, 10, 100. */
@@ -636,7 +671,7 @@ int main(void)
         !CU_add_test(s, "diagnostics list", test_diagnostics) ||
         !CU_add_test(s, "warning", test_warning) || !CU_add_test(s, "missing file", test_missing_file) || !CU_add_test(s, "unsolvable", test_unsolvable) ||
         !CU_add_test(s, "checks", test_checks) || !CU_add_test(s, "op-amp limit", test_opamp_limit) ||
-        !CU_add_test(s, "thevenin of a port", test_thevenin_port) || !CU_add_test(s, "tolerance", test_tol) || !CU_add_test(s, "sweep", test_sweep) ||
+        !CU_add_test(s, "thevenin of a port", test_thevenin_port) || !CU_add_test(s, "tolerance", test_tol) || !CU_add_test(s, "fit", test_fit) || !CU_add_test(s, "sweep", test_sweep) ||
         !CU_add_test(s, "NULL and side by side", test_null_and_side_by_side) ||
         !CU_add_test(s, "error bounds", test_error_bounds)) {
         CU_cleanup_registry();

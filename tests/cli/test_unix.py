@@ -135,8 +135,8 @@ ALL = {"--set": "x=1", "--format": "text", "--output": "-", "--min-ratio": "10",
        "--quiet": None, "--solver": "auto", "--derate": "1", "--fail-on": "warnings", "--load": "1k",
        "--meter": "10M", "--trials": "10", "--seed": "2", "--dist": "normal", "--plot": "p.svg", "--steps": "3",
        "--log": None, "--series": "E12", "--total": "1k..100k", "--zout": "10k", "--what-if": None,
-       "--symbols": "rt", "--ideal": None}
-for cmd in ("solve", "check", "sag", "thevenin", "influence", "tol", "sweep", "formula", "pick", "demo"):
+       "--symbols": "rt", "--ideal": None, "--goal": "yield", "--top": "3", "--write": "w.stack"}
+for cmd in ("solve", "check", "sag", "thevenin", "influence", "tol", "sweep", "formula", "fit", "pick", "demo"):
     rc, listed = help_options(cmd)
     for o, v in ALL.items():
         args = [cmd, o] + ([v] if v else []) + ["--help"]

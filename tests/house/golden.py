@@ -121,6 +121,9 @@ def circuit_report(exe, root, rel, version):
         runs += [["influence", rel, node], ["thevenin", rel, target], ["sag", rel, node]]
         if unknowns <= FORMULA_MAX_UNKNOWNS:
             runs.append(["formula", rel, node])
+    with open(os.path.join(root, rel), encoding="utf-8", errors="replace") as f:
+        if "free=" in f.read():   # a design with parts left to choose: fit's report too
+            runs.append(["fit", rel, "--quiet"])
     return "".join(run(exe, a, root, version) for a in runs)
 
 

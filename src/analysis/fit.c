@@ -1,0 +1,1043 @@
+/* fit.c — the search for standard values of the free parts (fit.h,
+ * docs/fit.md).
+ *
+ * Sections: the checks of a candidate and their margins; one candidate
+ * solved; the ranking; the kept list; the exhaustive walk; the continuous
+ * stage (NLopt); the neighbourhood and the descent; the finalists' yields. */
+#include "analysis/fit.h"
+
+#include <math.h>
+#include <nlopt.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "base/eseries.h"
+#include "analysis/newton.h"
+#include "parts/parts.h"
+#include "analysis/tolerance.h"
+
+#define MARGIN_CLAMP 50.0       /* margins seen by the continuous stage stay within +-this */
+#define DESCENT_BUDGET 20000    /* candidate solves the descent may spend */
+#define BOX_LIMIT 4096          /* combinations of the neighbourhood box solved one by one */
+#define TIE_REL 1e-9            /* goal figures this close (relative) are a tie */
+
+/* ---- the checks of a candidate --------------------------------------------------------------- */
+
+typedef struct slot {
+    ls_fit_kind kind;
+    int index;
+} slot;
+
+/* Private state of one run, beside the study. */
+typedef struct fit_run {
+    ls_fit_study *f;
+    slot *slots;
+    int nslots;
+    double *x0;              /* the operating point at the written values */
+    ls_part_run *runs0;      /* the parts' analysis states there, in part order of those that have one */
+    int nruns;
+    ls_fit_cand *keep;       /* the best candidates so far, best first */
+    int nkeep, cap_keep;
+    uint64_t *seen;          /* hashes of the index vectors solved (open addressing, 0 empty) */
+    size_t seen_cap, seen_n;
+    long total_hint;         /* for the progress line */
+    double *scratch;         /* nvars values */
+} fit_run;
+
+/* Relative distance of v above lo (one-sided limit): scaled by |lo|, else by
+ * |v|, else 1 (docs/fit.md). */
+static double one_sided(double dist, double limit, double v)
+{
+    double scale = limit != 0 ? fabs(limit) : v != 0 ? fabs(v) : 1;
+    return dist / scale;
+}
+
+/* Margin of v in [lo, hi]: with both ends finite, the distance to the nearer
+ * end over half the width (1 in the middle, 0 at an end); with one, the
+ * distance over that limit's size. */
+static double range_margin(double v, double lo, double hi)
+{
+    if (isnan(v))
+        return -INFINITY;
+    if (isfinite(lo) && isfinite(hi))
+        return hi > lo ? fmin(v - lo, hi - v) / ((hi - lo) / 2) : (v == lo ? 0 : -INFINITY);
+    if (isfinite(lo))
+        return isinf(v) ? (v > 0 ? INFINITY : -INFINITY) : one_sided(v - lo, lo, v);
+    if (isfinite(hi))
+        return isinf(v) ? (v < 0 ? INFINITY : -INFINITY) : one_sided(hi - v, hi, v);
+    return INFINITY;
+}
+
+/* An expect or rule line. */
+static void eval_expect(ls_op *op, int i, ls_fit_check *c)
+{
+    ls_check_result r;
+    ls_check_eval(op, &op->nl->checks[i], &r);
+    c->value = r.value;
+    c->lo = r.lo;
+    c->hi = r.hi;
+    c->pass = r.pass;
+    c->why = r.reason;
+    c->margin = range_margin(r.value, r.lo, r.hi);
+    c->in_goal = true;
+}
+
+/* A port's verdict: by its budget (|sag| <= budget) or by the ratio rule. */
+static void eval_port(ls_op *op, int i, ls_fit_check *c)
+{
+    const ls_port_result *pr = ls_op_port(op, i);
+    c->in_goal = true;
+    c->pass = pr->verdict == VERDICT_OK;
+    c->why = pr->note;
+    if (pr->by_budget) {
+        c->value = fabs(pr->sag);
+        c->lo = -INFINITY;
+        c->hi = pr->budget;
+        c->margin = isnan(pr->sag) ? -INFINITY : (pr->budget - fabs(pr->sag)) / pr->budget;
+    } else {
+        double min = ls_op_min_ratio(op);
+        c->value = pr->ratio;
+        c->lo = min;
+        c->hi = INFINITY;
+        c->margin = isnan(pr->ratio) ? -INFINITY : isinf(pr->ratio) ? INFINITY : (pr->ratio - min) / min;
+    }
+}
+
+/* 1 - |x| / limit: how much of a rating is left. */
+static void eval_rating(double x, double limit, ls_fit_check *c)
+{
+    c->value = fabs(x);
+    c->lo = -INFINITY;
+    c->hi = limit;
+    c->margin = isnan(x) ? -INFINITY : 1 - fabs(x) / limit;
+    c->pass = c->margin >= -ls_check_slack(1);
+}
+
+/* An op-amp's output: inside its rails less headroom and its current limit.
+ * At a limit it fails; its margin is then minus the imbalance of its inputs
+ * over the rails' span (how hard the feedback asks for more, docs/fit.md). */
+static void eval_opamp_out(ls_op *op, int i, ls_fit_check *c)
+{
+    const ls_part *p = &op->nl->parts[i];
+    double vout = op->v[p->pin[2]];
+    int ri = ls_kind_opt(p->kind, "rails"), ii = ls_kind_opt(p->kind, "imax");
+    double lo = -INFINITY, hi = INFINITY, span = fmax(ls_op_volts(op), 1e-9);
+    if (ls_part_has(p, ri)) {
+        double head = ls_part_opt(p, "headroom", 0);
+        lo = ls_level_v(&p->range[OA_RAILS][0], op->v) + head;
+        hi = ls_level_v(&p->range[OA_RAILS][1], op->v) - head;
+        span = fmax(hi - lo, 1e-9);
+    }
+    c->value = vout;
+    c->lo = lo;
+    c->hi = hi;
+    if (p->run->open_loop) { /* a comparator: at a rail by design */
+        c->margin = INFINITY;
+        c->pass = true;
+        return;
+    }
+    if (p->run->state != LS_LIM_NONE) {
+        double imbalance = fabs(op->v[p->pin[0]] - op->v[p->pin[1]]);
+        c->margin = -fmax(imbalance / span, 1e-12);
+        c->pass = false;
+        c->why = p->run->state == LS_LIM_RAIL_HIGH  ? "saturated at its upper rail"
+                 : p->run->state == LS_LIM_RAIL_LOW ? "saturated at its lower rail"
+                                                    : "at its output current limit";
+        return;
+    }
+    c->margin = INFINITY;
+    if (isfinite(lo))
+        c->margin = range_margin(vout, lo, hi);
+    if (ls_part_has(p, ii))
+        c->margin = fmin(c->margin, 1 - fabs(op->ipart[i]) / p->opt[ii]);
+    c->pass = c->margin >= -ls_check_slack(1);
+}
+
+/* An op-amp's inputs inside cm=. */
+static void eval_opamp_cm(ls_op *op, int i, ls_fit_check *c)
+{
+    const ls_part *p = &op->nl->parts[i];
+    double lo = ls_level_v(&p->range[OA_CM][0], op->v), hi = ls_level_v(&p->range[OA_CM][1], op->v);
+    double vp = op->v[p->pin[0]], vm = op->v[p->pin[1]];
+    double mp = range_margin(vp, lo, hi), mm = range_margin(vm, lo, hi);
+    c->value = mp <= mm ? vp : vm;
+    c->lo = lo;
+    c->hi = hi;
+    c->margin = fmin(mp, mm);
+    c->pass = c->margin >= -ls_check_slack(1);
+}
+
+/* An adc: its input inside 0..ref, or its source below max_source=. */
+static void eval_adc(ls_op *op, int i, bool source, ls_fit_check *c)
+{
+    const ls_part *p = &op->nl->parts[i];
+    ls_adc_result r;
+    if (ls_op_adc(op, i, &r) != 0) {
+        c->value = NAN;
+        c->margin = -INFINITY;
+        c->pass = false;
+        return;
+    }
+    if (source) {
+        eval_rating(r.rth, ls_part_opt(p, "max_source", INFINITY), c);
+        return;
+    }
+    double ref = ls_part_opt(p, "ref", 0);
+    c->value = r.vin;
+    c->lo = 0;
+    c->hi = ref;
+    c->margin = range_margin(r.vin, 0, ref);
+    c->pass = c->margin >= -ls_check_slack(1);
+}
+
+/* Fill c for check s on the solved operating point op. */
+static void eval_slot(ls_op *op, const slot *s, ls_fit_check *c)
+{
+    const ls_part *p = s->kind == LS_FITC_EXPECT ? NULL : &op->nl->parts[s->index];
+    memset(c, 0, sizeof *c);
+    c->kind = s->kind;
+    c->index = s->index;
+    c->lo = -INFINITY;
+    c->hi = INFINITY;
+    double derate = op->opt.derate > 0 ? op->opt.derate : 1;
+    switch (s->kind) {
+    case LS_FITC_EXPECT: eval_expect(op, s->index, c); break;
+    case LS_FITC_PORT: eval_port(op, s->index, c); break;
+    case LS_FITC_RATING: {
+        double pw = op->ppart[s->index];
+        if (p->kind->is_opamp && isfinite(ls_opamp_dissipation(op, s->index)))
+            pw = ls_opamp_dissipation(op, s->index);
+        eval_rating(pw, ls_part_opt(p, "rating", INFINITY) * derate, c);
+        break;
+    }
+    case LS_FITC_VMAX: eval_rating(op->vpart[s->index], ls_part_opt(p, "vmax", INFINITY), c); break;
+    case LS_FITC_IMAX: eval_rating(op->ipart[s->index], ls_part_opt(p, "imax", INFINITY), c); break;
+    case LS_FITC_OPAMP_OUT: eval_opamp_out(op, s->index, c); break;
+    case LS_FITC_OPAMP_CM: eval_opamp_cm(op, s->index, c); break;
+    case LS_FITC_ADC_RANGE: eval_adc(op, s->index, false, c); break;
+    case LS_FITC_ADC_SOURCE: eval_adc(op, s->index, true, c); break;
+    }
+    if (c->pass && c->margin < 0)
+        c->margin = 0; /* within the comparison's slack of its limit */
+    if (!c->pass && !(c->margin < 0))
+        c->margin = -1e-12;
+}
+
+/* Every check that applies to the circuit, into r->slots.  Returns 0, -1 on no memory. */
+static int make_slots(fit_run *r)
+{
+    const ls_netlist *nl = r->f->nl;
+    r->slots = malloc((size_t)(nl->nchecks + 4 * nl->nparts + 1) * sizeof *r->slots);
+    if (!r->slots)
+        return -1;
+    int n = 0;
+    for (int i = 0; i < nl->nchecks; i++)
+        r->slots[n++] = (slot){LS_FITC_EXPECT, i};
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        const ls_kind *k = p->kind;
+        if (k->is_port) {
+            r->slots[n++] = (slot){LS_FITC_PORT, i};
+            continue;
+        }
+        if (ls_part_has(p, ls_kind_opt(k, "rating")))
+            r->slots[n++] = (slot){LS_FITC_RATING, i};
+        if (ls_part_has(p, ls_kind_opt(k, "vmax")))
+            r->slots[n++] = (slot){LS_FITC_VMAX, i};
+        if (k->is_opamp) {
+            if (ls_opamp_limited(p))
+                r->slots[n++] = (slot){LS_FITC_OPAMP_OUT, i};
+            if (ls_part_has(p, ls_kind_opt(k, "cm")))
+                r->slots[n++] = (slot){LS_FITC_OPAMP_CM, i};
+        } else if (ls_part_has(p, ls_kind_opt(k, "imax"))) {
+            r->slots[n++] = (slot){LS_FITC_IMAX, i};
+        }
+        if (strcmp(k->name, "adc") == 0) {
+            r->slots[n++] = (slot){LS_FITC_ADC_RANGE, i};
+            if (ls_part_has(p, ls_kind_opt(k, "max_source")))
+                r->slots[n++] = (slot){LS_FITC_ADC_SOURCE, i};
+        }
+    }
+    r->nslots = n;
+    return 0;
+}
+
+/* Current drawn from the supplies (A): every voltage source's, every
+ * op-amp's quiescent current, and the output current of an op-amp whose
+ * rails are not nodes (with rails=gnd..vcc the model already draws its
+ * output current through the source on vcc). */
+static double supply_current(const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    double sum = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (p->kind->is_opamp) {
+            int ri = ls_kind_opt(p->kind, "rails");
+            bool through_rails = ls_part_has(p, ri) && p->range[OA_RAILS][0].node >= 0 && p->range[OA_RAILS][1].node >= 0;
+            sum += (through_rails ? 0 : fabs(op->ipart[i])) + ls_part_opt(p, "iq", 0);
+        }
+        else if (strcmp(p->kind->name, "voltage") == 0)
+            sum += fabs(op->ipart[i]);
+    }
+    return sum;
+}
+
+/* ---- one candidate --------------------------------------------------------------------------- */
+
+/* Put the free parts at values[], restart from the written values' operating
+ * point (so a result never depends on the candidate solved before it) and
+ * solve.  Returns true when it solved. */
+static bool solve_at(fit_run *r, const double *values)
+{
+    ls_fit_study *f = r->f;
+    ls_netlist *nl = f->nl;
+    for (int j = 0; j < f->nvars; j++)
+        nl->parts[f->vars[j].part].value = values[j];
+    int k = 0;
+    for (int i = 0; i < nl->nparts; i++)
+        if (nl->parts[i].run)
+            *nl->parts[i].run = r->runs0[k++];
+    if (f->op->mna.n > 0)
+        memcpy(f->op->x, r->x0, (size_t)f->op->mna.n * sizeof *r->x0);
+    return ls_op_resolve(f->op) == LS_EXIT_OK;
+}
+
+/* Summarise the checks on the solved op into c (and keep them when c->checks
+ * is set: nslots of them). */
+static void judge(fit_run *r, ls_op *op, ls_fit_cand *c)
+{
+    c->margin = INFINITY;
+    c->worst = INFINITY;
+    c->failed = 0;
+    for (int s = 0; s < r->nslots; s++) {
+        ls_fit_check k;
+        eval_slot(op, &r->slots[s], &k);
+        if (k.in_goal)
+            c->margin = fmin(c->margin, k.margin);
+        c->worst = fmin(c->worst, k.margin);
+        c->failed += !k.pass;
+        if (c->checks)
+            c->checks[s] = k;
+    }
+    c->meets = c->failed == 0;
+    c->current = supply_current(op);
+}
+
+/* Solve candidate c (its value[] set) and judge it. */
+static void evaluate(fit_run *r, ls_fit_cand *c)
+{
+    c->yield = NAN;
+    c->solved = solve_at(r, c->value);
+    if (!c->solved) {
+        c->meets = false;
+        c->margin = c->worst = -INFINITY;
+        c->current = NAN;
+        c->failed = r->nslots ? r->nslots : 1;
+        return;
+    }
+    judge(r, r->f->op, c);
+}
+
+/* ---- the ranking ----------------------------------------------------------------------------- */
+
+/* -1 when a is better than b on one goal's figure, 1 when worse, 0 for a tie
+ * (or when a figure is unknown: a yield not computed). */
+static int cmp_goal(ls_fit_goal g, const ls_fit_cand *a, const ls_fit_cand *b)
+{
+    double x, y;
+    bool larger = true;
+    switch (g) {
+    case LS_FIT_MARGIN: x = a->margin, y = b->margin; break;
+    case LS_FIT_YIELD: x = a->yield, y = b->yield; break;
+    default: x = a->current, y = b->current, larger = false; break;
+    }
+    if (isnan(x) || isnan(y) || x == y)
+        return 0;
+    if (isfinite(x) && isfinite(y) && fabs(x - y) <= TIE_REL * fmax(fabs(x), fabs(y)))
+        return 0;
+    return (x > y) == larger ? -1 : 1;
+}
+
+/* Order of candidates: feasible ones first, by the goal and then the next
+ * goals in turn; infeasible ones by how close they come (worst margin), then
+ * by how many checks they fail. */
+static int cmp_cand(ls_fit_goal goal, const ls_fit_cand *a, const ls_fit_cand *b)
+{
+    if (a->meets != b->meets)
+        return a->meets ? -1 : 1;
+    if (!a->meets) {
+        if (a->worst != b->worst)
+            return a->worst > b->worst ? -1 : 1;
+        return (a->failed > b->failed) - (a->failed < b->failed);
+    }
+    for (int k = 0; k < 3; k++) {
+        int c = cmp_goal((ls_fit_goal)((goal + k) % 3), a, b);
+        if (c)
+            return c;
+    }
+    return 0;
+}
+
+/* ---- the kept list --------------------------------------------------------------------------- */
+
+static void cand_free(ls_fit_cand *c)
+{
+    free(c->idx);
+    free(c->value);
+    free(c->checks);
+    memset(c, 0, sizeof *c);
+}
+
+/* A copy of c's vectors into d.  Returns 0, -1 on no memory. */
+static int cand_copy(const ls_fit_study *f, ls_fit_cand *d, const ls_fit_cand *c)
+{
+    *d = *c;
+    d->checks = NULL;
+    d->idx = malloc((size_t)f->nvars * sizeof *d->idx);
+    d->value = malloc((size_t)f->nvars * sizeof *d->value);
+    if (!d->idx || !d->value) {
+        free(d->idx);
+        free(d->value);
+        return -1;
+    }
+    memcpy(d->idx, c->idx, (size_t)f->nvars * sizeof *d->idx);
+    memcpy(d->value, c->value, (size_t)f->nvars * sizeof *d->value);
+    return 0;
+}
+
+static bool same_values(const ls_fit_study *f, const ls_fit_cand *a, const ls_fit_cand *b)
+{
+    return memcmp(a->value, b->value, (size_t)f->nvars * sizeof *a->value) == 0;
+}
+
+/* Keep c among the best cap_keep candidates (a copy).  Returns 0, -1 on no memory. */
+static int keep(fit_run *r, const ls_fit_cand *c)
+{
+    ls_fit_goal g = r->f->goal == LS_FIT_YIELD ? LS_FIT_MARGIN : r->f->goal; /* yields come later */
+    for (int i = 0; i < r->nkeep; i++)
+        if (same_values(r->f, &r->keep[i], c))
+            return 0;
+    int at = r->nkeep;
+    while (at > 0 && cmp_cand(g, c, &r->keep[at - 1]) < 0)
+        at--;
+    if (at >= r->cap_keep)
+        return 0;
+    if (r->nkeep == r->cap_keep)
+        cand_free(&r->keep[--r->nkeep]);
+    ls_fit_cand copy;
+    if (cand_copy(r->f, &copy, c) != 0)
+        return -1;
+    memmove(&r->keep[at + 1], &r->keep[at], (size_t)(r->nkeep - at) * sizeof *r->keep);
+    r->keep[at] = copy;
+    r->nkeep++;
+    return 0;
+}
+
+/* Has the index vector idx been solved already?  Marks it solved.  (A 64-bit
+ * hash stands for the vector; a collision only skips one candidate.) */
+static bool seen_before(fit_run *r, const int *idx, int n)
+{
+    uint64_t h = 1469598103934665603ull;
+    for (int j = 0; j < n; j++) {
+        h ^= (uint64_t)(unsigned)idx[j] + 0x9e3779b97f4a7c15ull;
+        h *= 1099511628211ull;
+    }
+    if (h == 0)
+        h = 1;
+    if (2 * (r->seen_n + 1) > r->seen_cap) {
+        size_t cap = r->seen_cap ? 2 * r->seen_cap : 1024;
+        uint64_t *t = calloc(cap, sizeof *t);
+        if (!t)
+            return false; /* no memory: solve it again rather than fail */
+        for (size_t i = 0; i < r->seen_cap; i++)
+            if (r->seen[i]) {
+                size_t k = r->seen[i] & (cap - 1);
+                while (t[k])
+                    k = (k + 1) & (cap - 1);
+                t[k] = r->seen[i];
+            }
+        free(r->seen);
+        r->seen = t;
+        r->seen_cap = cap;
+    }
+    size_t k = h & (r->seen_cap - 1);
+    while (r->seen[k]) {
+        if (r->seen[k] == h)
+            return true;
+        k = (k + 1) & (r->seen_cap - 1);
+    }
+    r->seen[k] = h;
+    r->seen_n++;
+    return false;
+}
+
+/* Solve the series candidate idx[] (unless solved before) and keep it.
+ * Returns 0, -1 on no memory; *out (when not NULL) gets its summary. */
+static int try_idx(fit_run *r, const int *idx, ls_fit_cand *out, bool *fresh)
+{
+    ls_fit_study *f = r->f;
+    if (fresh)
+        *fresh = false;
+    if (seen_before(r, idx, f->nvars))
+        return 0;
+    if (fresh)
+        *fresh = true;
+    ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch};
+    for (int j = 0; j < f->nvars; j++)
+        c.value[j] = f->vars[j].values[idx[j]];
+    evaluate(r, &c);
+    f->evaluated++;
+    if (f->progress && (f->evaluated & 63) == 0)
+        f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
+    if (out)
+        *out = c;
+    return keep(r, &c);
+}
+
+/* ---- every combination ------------------------------------------------------------------------- */
+
+static int exhaustive(fit_run *r)
+{
+    ls_fit_study *f = r->f;
+    int idx[LS_FIT_MAX_FREE] = {0};
+    r->total_hint = (long)f->combinations;
+    while (true) {
+        if (try_idx(r, idx, NULL, NULL) != 0)
+            return -1;
+        int j = 0;
+        while (j < f->nvars && ++idx[j] == f->vars[j].nvalues)
+            idx[j++] = 0;
+        if (j == f->nvars)
+            return 0;
+    }
+}
+
+/* ---- the continuous stage ---------------------------------------------------------------------- */
+
+typedef struct cont {
+    fit_run *r;
+    double *last_y;          /* the point judged last (n + 1 values) */
+    ls_fit_check *checks;    /* its checks */
+    double current;
+    bool solved, have;
+    long evals;
+} cont;
+
+/* A margin as the continuous stage sees it: itself within +-1, compressed
+ * logarithmically beyond (so a far-off check still has a slope, and a huge
+ * ratio does not swamp the others), within +-MARGIN_CLAMP; undefined is the
+ * worst. */
+static double clamp_margin(double m)
+{
+    if (isnan(m))
+        return -MARGIN_CLAMP;
+    double a = fabs(m) <= 1 ? m : copysign(1 + log(fabs(m)), m);
+    return fmax(-MARGIN_CLAMP, fmin(MARGIN_CLAMP, a));
+}
+
+/* Solve at exp(y) (the first nvars of y) unless that was the last point. */
+static void cont_at(cont *c, const double *y)
+{
+    fit_run *r = c->r;
+    int n = r->f->nvars;
+    if (c->have && memcmp(c->last_y, y, (size_t)n * sizeof *y) == 0)
+        return;
+    memcpy(c->last_y, y, (size_t)n * sizeof *y);
+    c->have = true;
+    for (int j = 0; j < n; j++)
+        r->scratch[j] = exp(y[j]);
+    c->solved = solve_at(r, r->scratch);
+    c->evals++;
+    if (!c->solved)
+        return;
+    for (int s = 0; s < r->nslots; s++)
+        eval_slot(r->f->op, &r->slots[s], &c->checks[s]);
+    c->current = supply_current(r->f->op);
+}
+
+/* Objective: -t (the margin goal; t is y[n]) or log(current). */
+static double cont_objective(unsigned n, const double *y, double *grad, void *data)
+{
+    (void)grad; /* COBYLA asks for none */
+    cont *c = data;
+    if (c->r->f->goal != LS_FIT_CURRENT)
+        return -y[n - 1];
+    cont_at(c, y);
+    return c->solved && c->current > 0 ? log(c->current) : 1e3;
+}
+
+/* Constraints: t - margin <= 0 for the goal's checks, -margin <= 0 for the
+ * limits (every check with the current goal). */
+static void cont_constraints(unsigned m, double *out, unsigned n, const double *y, double *grad, void *data)
+{
+    (void)grad;
+    (void)n;
+    cont *c = data;
+    cont_at(c, y);
+    bool margin_goal = c->r->f->goal != LS_FIT_CURRENT;
+    double t = margin_goal ? y[c->r->f->nvars] : 0;
+    for (unsigned s = 0; s < m; s++) {
+        double mg = c->solved ? clamp_margin(c->checks[s].margin) : -MARGIN_CLAMP;
+        out[s] = (margin_goal && c->checks[s].in_goal ? t : 0) - mg;
+    }
+}
+
+/* Run COBYLA from start[] (nvars values); its optimum goes to
+ * vars[].optimum and its objective to *obj.  Returns 0, -1 on no memory. */
+static int continuous(fit_run *r, const double *start, double *obj)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars, dim = n + (f->goal != LS_FIT_CURRENT);
+    cont c = {.r = r};
+    c.last_y = calloc((size_t)dim, sizeof *c.last_y);
+    c.checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *c.checks);
+    double *y = calloc((size_t)dim, sizeof *y), *lb = calloc((size_t)dim, sizeof *lb),
+           *ub = calloc((size_t)dim, sizeof *ub), *step = calloc((size_t)dim, sizeof *step);
+    nlopt_opt o = dim > 0 ? nlopt_create(NLOPT_LN_COBYLA, (unsigned)dim) : NULL;
+    int rc = -1;
+    if (c.last_y && c.checks && y && lb && ub && step && o) {
+        for (int j = 0; j < n; j++) {
+            lb[j] = log(f->vars[j].lo);
+            ub[j] = log(f->vars[j].hi);
+            y[j] = log(start[j]);
+            step[j] = fmin(0.5, (ub[j] - lb[j]) / 4);
+        }
+        if (dim > n) { /* t starts at the written values' smallest margin */
+            lb[n] = -MARGIN_CLAMP;
+            ub[n] = MARGIN_CLAMP;
+            cont_at(&c, y);
+            double t = MARGIN_CLAMP;
+            for (int s = 0; s < r->nslots; s++)
+                t = fmin(t, c.solved ? clamp_margin(c.checks[s].margin) : -MARGIN_CLAMP);
+            y[n] = t;
+            step[n] = 0.5;
+        }
+        nlopt_set_lower_bounds(o, lb);
+        nlopt_set_upper_bounds(o, ub);
+        nlopt_set_initial_step(o, step);
+        nlopt_set_min_objective(o, cont_objective, &c);
+        if (r->nslots > 0)
+            nlopt_add_inequality_mconstraint(o, (unsigned)r->nslots, cont_constraints, &c, NULL);
+        nlopt_set_xtol_rel(o, 1e-4);
+        nlopt_set_maxeval(o, 100 * (n + 1) < 1500 ? 100 * (n + 1) : 1500);
+        f->nlopt_status = (int)nlopt_optimize(o, y, obj);
+        for (int j = 0; j < n; j++)
+            f->vars[j].optimum = exp(fmin(ub[j], fmax(lb[j], y[j])));
+        rc = 0;
+    }
+    f->nlopt_evals += c.evals;
+    if (o)
+        nlopt_destroy(o);
+    free(c.last_y);
+    free(c.checks);
+    free(y);
+    free(lb);
+    free(ub);
+    free(step);
+    return rc;
+}
+
+/* ---- the neighbourhood and the descent ---------------------------------------------------------- */
+
+/* Index of the first value >= v in var's values (nvalues when none). */
+static int lower_index(const ls_fit_var *v, double x)
+{
+    int lo = 0, hi = v->nvalues;
+    while (lo < hi) {
+        int mid = (lo + hi) / 2;
+        if (v->values[mid] < x)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    return lo;
+}
+
+/* Every combination of the w series values on each side of the optimum
+ * (w = 2, or 1 when that box is larger than BOX_LIMIT; when even that is,
+ * only the value nearest the optimum on a log scale, and the descent goes on
+ * from there). */
+static int neighbourhood(fit_run *r)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars, first[LS_FIT_MAX_FREE], count[LS_FIT_MAX_FREE], idx[LS_FIT_MAX_FREE];
+    for (int w = 2; w >= 0; w--) {
+        double box = 1;
+        for (int j = 0; j < n; j++) {
+            const ls_fit_var *v = &f->vars[j];
+            int at = lower_index(v, v->optimum);
+            if (w == 0) { /* the nearer of the two values around the optimum */
+                if (at >= v->nvalues || (at > 0 && v->optimum / v->values[at - 1] < v->values[at] / v->optimum))
+                    at--;
+                first[j] = at;
+                count[j] = 1;
+                continue;
+            }
+            first[j] = at - w < 0 ? 0 : at - w;
+            int last = at + w - 1 >= v->nvalues ? v->nvalues - 1 : at + w - 1;
+            count[j] = last - first[j] + 1;
+            box *= count[j];
+        }
+        if (box <= BOX_LIMIT)
+            break;
+    }
+    int k[LS_FIT_MAX_FREE] = {0};
+    r->total_hint = f->evaluated + 1000;
+    while (true) {
+        for (int j = 0; j < n; j++)
+            idx[j] = first[j] + k[j];
+        if (try_idx(r, idx, NULL, NULL) != 0)
+            return -1;
+        int j = 0;
+        while (j < n && ++k[j] == count[j])
+            k[j++] = 0;
+        if (j == n)
+            return 0;
+    }
+}
+
+/* From the best candidate, move one part one series step at a time while
+ * that improves the ranking (steepest step first), within DESCENT_BUDGET solves. */
+static int descent(fit_run *r)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars, cur[LS_FIT_MAX_FREE], idx[LS_FIT_MAX_FREE];
+    ls_fit_goal g = f->goal == LS_FIT_YIELD ? LS_FIT_MARGIN : f->goal;
+    if (r->nkeep == 0)
+        return 0;
+    memcpy(cur, r->keep[0].idx, (size_t)n * sizeof *cur);
+    long start = f->evaluated;
+    bool moved = true;
+    while (moved && f->evaluated - start < DESCENT_BUDGET) {
+        moved = false;
+        ls_fit_cand here = r->keep[0];   /* the best so far (its vectors stay valid until keep() moves them) */
+        if (memcmp(here.idx, cur, (size_t)n * sizeof *cur) != 0)
+            memcpy(cur, here.idx, (size_t)n * sizeof *cur);
+        for (int j = 0; j < n; j++)
+            for (int d = -1; d <= 1; d += 2) {
+                memcpy(idx, cur, (size_t)n * sizeof *idx);
+                idx[j] += d;
+                if (idx[j] < 0 || idx[j] >= f->vars[j].nvalues)
+                    continue;
+                ls_fit_cand c;
+                bool fresh;
+                if (try_idx(r, idx, &c, &fresh) != 0)
+                    return -1;
+                if (fresh && cmp_cand(g, &c, &r->keep[0]) <= 0 && memcmp(r->keep[0].idx, idx, (size_t)n * sizeof *idx) == 0)
+                    moved = true;
+            }
+    }
+    return 0;
+}
+
+/* ---- finalists --------------------------------------------------------------------------------- */
+
+/* Monte Carlo acceptance: every check passes on the trial's op. */
+static bool trial_feasible(void *ctx, ls_op *op)
+{
+    const fit_run *r = ctx;
+    for (int s = 0; s < r->nslots; s++) {
+        ls_fit_check k;
+        eval_slot(op, &r->slots[s], &k);
+        if (!k.pass)
+            return false;
+    }
+    return true;
+}
+
+/* Which feasible finalists need a yield: with the yield goal the first
+ * 2 * top of them; otherwise those in a group that ties on the goals before
+ * the yield and reaches into the first top + 1 (only ties need it).  Marks
+ * need[i]; returns how many. */
+static int yields_needed(const ls_fit_study *f, const fit_run *r, bool *need)
+{
+    int n = 0;
+    if (f->goal == LS_FIT_YIELD) {
+        for (int i = 0; i < r->nkeep && i < 2 * f->top; i++)
+            n += need[i] = r->keep[i].meets;
+        return n;
+    }
+    int reach = r->nkeep < f->top + 1 ? r->nkeep : f->top + 1;
+    for (int i = 1; i < r->nkeep; i++) {
+        const ls_fit_cand *a = &r->keep[i - 1], *b = &r->keep[i];
+        if (!b->meets)
+            break;
+        bool tie = cmp_goal(f->goal, a, b) == 0 && (f->goal == LS_FIT_MARGIN || cmp_goal(LS_FIT_MARGIN, a, b) == 0);
+        if (tie && (i < reach || need[i - 1])) {
+            n += !need[i - 1] + !need[i];
+            need[i - 1] = need[i] = true;
+        }
+    }
+    return n;
+}
+
+/* The feasible finalists' yields where the ranking needs them, then the
+ * final order.  Returns 0, -1 on no memory. */
+static int rank_finalists(fit_run *r)
+{
+    ls_fit_study *f = r->f;
+    bool *need = calloc((size_t)(r->nkeep ? r->nkeep : 1), sizeof *need);
+    if (!need)
+        return -1;
+    int n = yields_needed(f, r, need);
+    if (n == 0) {
+        free(need);
+        return 0;
+    }
+    f->have_yield = true;
+    bool varies = false;
+    for (int i = 0; i < f->nl->nparts; i++)
+        varies = varies || (f->nl->parts[i].has_value && ls_part_opt(&f->nl->parts[i], "tol", 0) > 0);
+    f->yield_trials = varies ? f->trials : 0;
+    int done = 0;
+    for (int i = 0; i < r->nkeep; i++) {
+        ls_fit_cand *c = &r->keep[i];
+        if (!need[i])
+            continue;
+        c->yield = 1; /* nothing varies: every trial would be the nominal design, which is feasible */
+        if (!varies)
+            continue;
+        for (int j = 0; j < f->nvars; j++)
+            f->nl->parts[f->vars[j].part].value = c->value[j];
+        if (ls_tol_pass_rate(f->nl, f->op, f->trials, f->seed, f->normal, trial_feasible, r, &c->yield) != 0) {
+            free(need);
+            return -1;
+        }
+        if (f->progress)
+            f->progress(f->progress_ctx, ++done, n);
+    }
+    free(need);
+    if (f->goal == LS_FIT_YIELD) /* only the finalists with a yield are ranked by it */
+        while (r->nkeep > 2 * f->top)
+            cand_free(&r->keep[--r->nkeep]);
+    /* insertion sort: stable, and the list is short; a candidate without a
+     * yield ties with every other on it, so the yields reorder only their groups */
+    for (int i = 1; i < r->nkeep; i++)
+        for (int j = i; j > 0 && cmp_cand(f->goal, &r->keep[j], &r->keep[j - 1]) < 0; j--) {
+            ls_fit_cand t = r->keep[j];
+            r->keep[j] = r->keep[j - 1];
+            r->keep[j - 1] = t;
+        }
+    return 0;
+}
+
+/* The reported candidates with every check kept. */
+static int report_checks(fit_run *r)
+{
+    ls_fit_study *f = r->f;
+    int n = r->nkeep < f->top ? r->nkeep : f->top;
+    for (int i = 0; i < n; i++) {
+        ls_fit_cand *c = &r->keep[i];
+        c->checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *c->checks);
+        if (!c->checks)
+            return -1;
+        c->nchecks = r->nslots;
+        if (solve_at(r, c->value))
+            judge(r, f->op, c);
+        else
+            c->nchecks = 0;
+    }
+    for (int i = n; i < r->nkeep; i++)
+        cand_free(&r->keep[i]);
+    r->nkeep = n;
+    return 0;
+}
+
+/* ---- set-up ------------------------------------------------------------------------------------ */
+
+/* The series values of each free part inside its range.  Returns LS_FIT_OK,
+ * LS_FIT_EMPTY or LS_FIT_NOMEM. */
+static int make_vars(ls_fit_study *f)
+{
+    const ls_netlist *nl = f->nl;
+    f->vars = calloc((size_t)nl->nfrees, sizeof *f->vars);
+    if (!f->vars)
+        return LS_FIT_NOMEM;
+    f->nvars = nl->nfrees;
+    f->combinations = 1;
+    int code = LS_FIT_OK;
+    for (int j = 0; j < nl->nfrees; j++) {
+        const ls_freevar *fv = &nl->frees[j];
+        ls_fit_var *v = &f->vars[j];
+        v->part = fv->part;
+        v->lo = fv->lo;
+        v->hi = fv->hi;
+        v->series = fv->series ? fv->series : f->series;
+        v->start = nl->parts[fv->part].value;
+        v->optimum = NAN;
+        const ls_eseries *es = ls_eseries_find(v->series);
+        int d0 = (int)floor(log10(fv->lo)) - 1, d1 = (int)floor(log10(fv->hi)) + 1;
+        v->values = malloc((size_t)(d1 - d0 + 1) * (size_t)es->count * sizeof *v->values);
+        if (!v->values)
+            return LS_FIT_NOMEM;
+        for (int d = d0; d <= d1; d++)
+            for (int i = 0; i < es->count; i++) {
+                double x = ls_eseries_value(es, i, d);
+                if (x >= fv->lo * (1 - 1e-9) && x <= fv->hi * (1 + 1e-9))
+                    v->values[v->nvalues++] = x;
+            }
+        if (v->nvalues == 0)
+            code = LS_FIT_EMPTY;
+        f->combinations *= v->nvalues;
+    }
+    return code;
+}
+
+/* Save the operating point at the written values (every candidate starts there). */
+static int save_start(fit_run *r)
+{
+    const ls_netlist *nl = r->f->nl;
+    ls_op *op = r->f->op;
+    r->x0 = malloc((size_t)(op->mna.n ? op->mna.n : 1) * sizeof *r->x0);
+    for (int i = 0; i < nl->nparts; i++)
+        r->nruns += nl->parts[i].run != NULL;
+    r->runs0 = malloc((size_t)(r->nruns ? r->nruns : 1) * sizeof *r->runs0);
+    if (!r->x0 || !r->runs0)
+        return -1;
+    if (op->mna.n > 0)
+        memcpy(r->x0, op->x, (size_t)op->mna.n * sizeof *r->x0);
+    int k = 0;
+    for (int i = 0; i < nl->nparts; i++)
+        if (nl->parts[i].run)
+            r->runs0[k++] = *nl->parts[i].run;
+    return 0;
+}
+
+/* The search proper, once set up. */
+static int search(fit_run *r)
+{
+    ls_fit_study *f = r->f;
+    double limit = f->exhaustive_limit > 0 ? f->exhaustive_limit : LS_FIT_EXHAUSTIVE;
+    if (f->combinations <= limit) {
+        f->exhaustive = true;
+        return exhaustive(r);
+    }
+    /* Two starts, the written values and the middle of the ranges (on a log
+     * scale): the continuous optimum is local, and the written values may sit
+     * in a corner.  Each start's neighbourhood is searched; the optimum
+     * reported is the better start's. */
+    double start[LS_FIT_MAX_FREE], opt[LS_FIT_MAX_FREE], best = INFINITY;
+    for (int k = 0; k < 2; k++) {
+        for (int j = 0; j < f->nvars; j++)
+            start[j] = k == 0 ? f->vars[j].start : sqrt(f->vars[j].lo * f->vars[j].hi);
+        double obj = INFINITY;
+        if (continuous(r, start, &obj) != 0 || neighbourhood(r) != 0)
+            return -1;
+        if (k == 0 || obj < best) {
+            best = obj;
+            for (int j = 0; j < f->nvars; j++)
+                opt[j] = f->vars[j].optimum;
+        }
+    }
+    for (int j = 0; j < f->nvars; j++)
+        f->vars[j].optimum = opt[j];
+    return descent(r);
+}
+
+int ls_fit_run(ls_fit_study *f)
+{
+    f->vars = NULL;
+    f->best = NULL;
+    f->nvars = f->nbest = 0;
+    f->evaluated = f->nlopt_evals = 0;
+    f->nlopt_status = 0;
+    f->exhaustive = f->any_feasible = f->have_yield = false;
+    if (f->nl->nfrees == 0)
+        return LS_FIT_NOFREE;
+    if (f->nl->nfrees > LS_FIT_MAX_FREE)
+        return LS_FIT_TOOMANY;
+    if (f->top < 1)
+        f->top = 1;
+    int code = make_vars(f);
+    if (code != LS_FIT_OK)
+        return code;
+    fit_run r = {.f = f};
+    r.cap_keep = f->top * 4 > 20 ? f->top * 4 : 20;
+    r.keep = calloc((size_t)r.cap_keep, sizeof *r.keep);
+    r.scratch = malloc((size_t)f->nvars * sizeof *r.scratch);
+    ls_diags scratch;
+    ls_diags_init(&scratch, f->arena);
+    ls_diags *kept = f->nl->diags;
+    f->nl->diags = &scratch;   /* a candidate that does not solve is a candidate that fails, not an error */
+    code = LS_FIT_NOMEM;
+    if (r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0 &&
+        rank_finalists(&r) == 0 && report_checks(&r) == 0)
+        code = LS_FIT_OK;
+    double *start = r.scratch;
+    for (int j = 0; start && j < f->nvars; j++)
+        start[j] = f->vars[j].start;
+    bool back = start && r.x0 && r.runs0 && solve_at(&r, start);   /* the session's op as it was */
+    f->nl->diags = kept;
+    ls_diags_free(&scratch);
+    if (code == LS_FIT_OK && !back)
+        code = LS_EXIT_UNSOLVABLE;
+    f->best = r.keep;
+    f->nbest = r.nkeep;
+    f->any_feasible = r.nkeep > 0 && r.keep[0].meets;
+    if (code != LS_FIT_OK) {
+        for (int i = 0; i < r.nkeep; i++)
+            cand_free(&r.keep[i]);
+        free(r.keep);
+        f->best = NULL;
+        f->nbest = 0;
+    }
+    free(r.slots);
+    free(r.x0);
+    free(r.runs0);
+    free(r.seen);
+    free(r.scratch);
+    return code;
+}
+
+void ls_fit_free(ls_fit_study *f)
+{
+    for (int i = 0; i < f->nbest; i++)
+        cand_free(&f->best[i]);
+    free(f->best);
+    for (int j = 0; f->vars && j < f->nvars; j++)
+        free(f->vars[j].values);
+    free(f->vars);
+    f->best = NULL;
+    f->vars = NULL;
+    f->nbest = f->nvars = 0;
+}
+
+/* ---- words --------------------------------------------------------------------------------------- */
+
+const char *ls_fit_check_text(const ls_fit_study *f, const ls_fit_check *c, char *buf, size_t n)
+{
+    const ls_netlist *nl = f->nl;
+    const char *name = c->kind == LS_FITC_EXPECT ? NULL : nl->parts[c->index].name;
+    switch (c->kind) {
+    case LS_FITC_EXPECT: snprintf(buf, n, "%s", nl->checks[c->index].text); break;
+    case LS_FITC_PORT:
+        if (isinf(c->lo) && c->lo < 0)
+            snprintf(buf, n, "port %s: abs(sag) <= budget", name);
+        else
+            snprintf(buf, n, "port %s: ratio >= %g", name, c->lo);
+        break;
+    case LS_FITC_RATING: snprintf(buf, n, "%s: power <= rating", name); break;
+    case LS_FITC_VMAX: snprintf(buf, n, "%s: abs(voltage) <= vmax", name); break;
+    case LS_FITC_IMAX: snprintf(buf, n, "%s: abs(current) <= imax", name); break;
+    case LS_FITC_OPAMP_OUT: snprintf(buf, n, "%s: output inside its rails and current limit", name); break;
+    case LS_FITC_OPAMP_CM: snprintf(buf, n, "%s: inputs inside cm=", name); break;
+    case LS_FITC_ADC_RANGE: snprintf(buf, n, "%s: input inside 0..ref", name); break;
+    case LS_FITC_ADC_SOURCE: snprintf(buf, n, "%s: source resistance <= max_source", name); break;
+    }
+    return buf;
+}
+
+const char *ls_fit_goal_name(ls_fit_goal g)
+{
+    static const char *const names[] = {"margin", "yield", "current"};
+    return names[g];
+}
+
+int ls_fit_goal_of(const char *name)
+{
+    for (int g = 0; g < 3; g++)
+        if (strcmp(name, ls_fit_goal_name((ls_fit_goal)g)) == 0)
+            return g;
+    return -1;
+}
