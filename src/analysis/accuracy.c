@@ -95,27 +95,31 @@ void ls_resid_b(ls_resid *r, int row, double v)
     r->absr[row] += fabs(v);
 }
 
-/* r = b - A (x + tail) rounded to double, from every part's stamp; absr as
- * in ls_resid.  work: 2 n doubles. */
-static void stamp_residual(ls_op *op, double *r, double *absr, double *work)
+void ls_acc_residual(const ls_mna *m, const double *x, const double *tail, double *r, double *absr, double *work)
 {
-    const ls_netlist *nl = op->nl;
-    int n = op->mna.n;
-    ls_resid res = {.x = op->x, .tail = op->acc.tail, .rhi = work, .rlo = work + n, .absr = absr};
+    const ls_netlist *nl = m->nl;
+    int n = m->n;
+    ls_resid res = {.x = x, .tail = tail, .rhi = work, .rlo = work + n, .absr = absr};
     memset(work, 0, 2 * (size_t)n * sizeof *work);
     memset(absr, 0, (size_t)n * sizeof *absr);
     ls_sink sink = {.mode = SINK_RESIDUAL, .resid = &res, .scale = 1};
     for (int i = 0; i <= nl->nparts; i++) { /* every part, then the variant's ties */
         res.nrows = 0;
         if (i < nl->nparts)
-            ls_mna_stamp_part(&op->mna, i, &sink);
+            ls_mna_stamp_part(m, i, &sink);
         else
-            ls_mna_stamp_ties(&op->mna, &sink);
+            ls_mna_stamp_ties(m, &sink);
         for (int k = 0; k < res.nrows; k++)
             absr[res.rows[k]] += fabs(res.phi[k] + res.plo[k]);
     }
     for (int i = 0; i < n; i++)
         r[i] = res.rhi[i] + res.rlo[i];
+}
+
+/* The residual of op's solution x + tail (ls_acc_residual). */
+static void stamp_residual(ls_op *op, double *r, double *absr, double *work)
+{
+    ls_acc_residual(&op->mna, op->x, op->acc.tail, r, absr, work);
 }
 
 /* ---- refinement ---------------------------------------------------------------------------- */
@@ -157,30 +161,46 @@ int ls_acc_refine(ls_op *op)
     memcpy(x0, op->x, (size_t)n * sizeof *x0);
     double scale[2];
     kind_scales(op, scale);
-    double prev = INFINITY, last = INFINITY, contraction = 0;
+    /* Two measures of each correction d (as LAPACK's extra-precise refinement
+     * keeps them): dz, componentwise, |d_i| / |x_i|, which says when every
+     * unknown is right to double precision; dx, normwise, |d_i| against the
+     * largest unknown of its kind, whose ratio from step to step estimates
+     * cond * eps.  A zero unknown (the current of a port into an ideal input)
+     * picks up rounding noise of the correction solve, some eps times the
+     * other corrections, and loses it again at the next step: its dz then
+     * stays put without saying anything about the conditioning.  So the
+     * contraction and "did it converge" are normwise; dz only decides
+     * whether another step can still help. */
+    double prev_z = INFINITY, prev_x = INFINITY, last_x = INFINITY, contraction = 0;
     for (int step = 0; step < MAX_STEPS; step++) {
         stamp_residual(op, r, absr, work);
         if (ls_solver_solve(op->solver, r, 0) != LS_SOLVER_OK)
             break;
-        double dz = 0;
+        double dz = 0, dx = 0;
         for (int i = 0; i < n; i++) {
+            int k = i >= op->mna.nn;
             /* relative change; a value that is zero in double counts against
              * a tiny fraction of the largest of its kind */
-            double size = fmax(fabs(op->x[i]), 1e-24 * scale[i >= op->mna.nn]);
-            if (r[i] != 0)
+            double size = fmax(fabs(op->x[i]), 1e-24 * scale[k]);
+            if (r[i] != 0) {
                 dz = fmax(dz, size > 0 ? fabs(r[i]) / size : INFINITY);
+                dx = fmax(dx, scale[k] > 0 ? fabs(r[i]) / scale[k] : INFINITY);
+            }
             dd_add(&op->x[i], &tail[i], r[i], 0);
         }
-        if (prev > CONVERGED && dz > 0)
-            contraction = fmax(contraction, dz / prev);
-        last = dz;
+        if (prev_x > CONVERGED && dx > 0)
+            contraction = fmax(contraction, dx / prev_x);
+        last_x = dx;
         op->acc.steps++;
-        /* done when the correction is below double precision (x + tail is
-         * then right to about cond * eps times that), or when a step no
-         * longer halves it (rounding has the last word) */
-        if (dz <= CONVERGED || dz > 0.5 * prev)
+        /* done when every correction is below double precision (x + tail is
+         * then right to about cond * eps times that); when the normwise
+         * correction no longer halves (rounding has the last word); or when
+         * only the componentwise one stalls after the normwise one converged
+         * (noise on unknowns that are zero or nearly so) */
+        if (dz <= CONVERGED || dx > 0.5 * prev_x || (dx <= CONVERGED && dz > 0.5 * prev_z))
             break;
-        prev = dz;
+        prev_z = dz;
+        prev_x = dx;
     }
     for (int i = 0; i < n && !op->acc.extended; i++)
         op->acc.extended = fabs(op->x[i] - x0[i]) > 2 * DBL_EPSILON * fabs(x0[i]);
@@ -188,7 +208,7 @@ int ls_acc_refine(ls_op *op)
      * small, or the steps never got below double precision, the system is
      * too ill-conditioned for first-order bounds (the rounding of the parts'
      * own values alone moves the answer by a good part of itself). */
-    op->acc.reliable = last <= CONVERGED && contraction <= MAX_CONTRACTION;
+    op->acc.reliable = last_x <= CONVERGED && contraction <= MAX_CONTRACTION;
     op->acc.refined = true;
     free(buf);
     return 0;
@@ -274,6 +294,50 @@ static int estimate_node_bound(ls_op *op, const double *w, double *v, double *x,
                 x[i] = 0;
         }
     }
+    return 0;
+}
+
+/* The sign of every column of A^-1 in its node rows, into s (n doubles), when
+ * every part keeps them one-signed (ls_kind.monotone: positive resistances,
+ * current sources, sources with one end on ground; the system an M-matrix
+ * once the sources' rows are eliminated); false when some part does not, or
+ * for a variant's system. */
+static bool column_signs(const ls_op *op, double *s)
+{
+    const ls_netlist *nl = op->nl;
+    if (op->mna.opened || op->mna.ties)
+        return false;
+    for (int i = 0; i < op->mna.n; i++)
+        s[i] = 1;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        int sg = p->kind->monotone ? p->kind->monotone(p) : 0;
+        if (sg == 0)
+            return false;
+        if (p->branch >= 0)
+            s[p->branch] = sg;
+    }
+    return true;
+}
+
+/* y = A^-1 (s .* w): in the node rows, where every column of A^-1 has the
+ * sign s gives it, that is (|A^-1| w), each node's exact bound before the
+ * solve's own rounding, for the price of one solve.  0 done; 1 some node row
+ * came out clearly negative (the signs do not hold: use the estimate);
+ * -1 the solve failed.  y: n doubles. */
+static int signed_node_bound(ls_op *op, const double *w, const double *s, double *y)
+{
+    int n = op->mna.n, nn = op->mna.nn;
+    for (int i = 0; i < n; i++)
+        y[i] = s[i] * w[i];
+    if (ls_solver_solve(op->solver, y, 0) != LS_SOLVER_OK)
+        return -1;
+    double top = 0;
+    for (int i = 0; i < nn; i++)
+        top = fmax(top, fabs(y[i]));
+    for (int i = 0; i < nn; i++)
+        if (y[i] < -1e-6 * top)
+            return 1;
     return 0;
 }
 
@@ -392,18 +456,32 @@ int ls_acc_bounds(ls_op *op)
     for (int i = 0; i < n; i++)
         w[i] = fabs(w[i]) + DATA_ROUNDING * absr[i];
     int bad = 0;
-    a->estimated = n > LS_ACC_EXACT_LIMIT || nl->nparts > 4 * LS_ACC_EXACT_LIMIT;
+    bool large = n > LS_ACC_EXACT_LIMIT || nl->nparts > 4 * LS_ACC_EXACT_LIMIT;
+    a->estimated = a->per_node = false;
     double est = 0;
-    if (a->estimated)
-        bad = estimate_node_bound(op, w, y, work, isgn, &est) != 0;
+    if (large) {
+        /* a network of resistances and grounded sources: every node's bound
+         * exactly, by one solve; else one estimate for all */
+        int sr = column_signs(op, work) ? signed_node_bound(op, w, work, y) : 1;
+        if (sr < 0)
+            bad = 1;
+        a->per_node = sr == 0;
+        a->estimated = sr > 0;
+        if (a->estimated)
+            bad = estimate_node_bound(op, w, y, work, isgn, &est) != 0;
+    }
+    /* the bound of node unknown k, per node or estimated (large systems) */
+#define NODE_RAW(k) (SOLVE_SAFETY * (a->per_node ? fmax(y[k], 0) : est))
     a->node_bound[0] = 0;
     for (int i = 1; i < nl->nnodes && !bad; i++) {
-        double b = est;
-        if (!a->estimated) {
+        double b;
+        if (large) {
+            b = NODE_RAW(i - 1);
+        } else {
             ls_lin l = {.n = 1, .idx = {i - 1}, .coef = {1}};
             bad = form_bound(op, &l, w, y, &b) != 0;
         }
-        a->node_bound[i] = b * (a->estimated ? SOLVE_SAFETY : 1) + DBL_EPSILON * fabs(op->v[i]);
+        a->node_bound[i] = b + DBL_EPSILON * fabs(op->v[i]);
     }
     for (int i = 0; i < nl->nparts && !bad; i++) {
         ls_lin l;
@@ -411,9 +489,9 @@ int ls_acc_bounds(ls_op *op)
         if (!part_form(op, i, &l))
             continue;
         double b = 0;
-        if (a->estimated) { /* from the node bound, without the help of correlation */
+        if (large) { /* from the node bounds, without the help of correlation */
             for (int k = 0; k < l.n; k++)
-                b += fabs(l.coef[k]) * (l.idx[k] < nn ? est * SOLVE_SAFETY : NAN);
+                b += fabs(l.coef[k]) * (l.idx[k] < nn ? NODE_RAW(l.idx[k]) : NAN);
             if (isnan(b))
                 continue; /* a branch current: no per-unknown estimate */
         } else {
@@ -421,6 +499,7 @@ int ls_acc_bounds(ls_op *op)
         }
         a->part_bound[i] = b + DBL_EPSILON * fabs(op->ipart[i]);
     }
+#undef NODE_RAW
     free(buf);
     free(isgn);
     if (bad)

@@ -12,9 +12,11 @@
  * extra-precise residual and g bounds, row by row, what rounding each part's
  * own value and stamp (a few units of the last place of every part's
  * contribution) does to the equations.  Exact per result for small systems
- * (one transposed solve each); above LS_ACC_EXACT_LIMIT unknowns one estimate
- * of the largest node error (LAPACK's dlacn2 on A^-1 diag(|r| + g), as its
- * xGERFSX does) stands for every node. */
+ * (one transposed solve each); above LS_ACC_EXACT_LIMIT unknowns, exact per
+ * node by one solve for a network whose A^-1 has one-signed columns in its node
+ * rows (ls_kind.monotone: resistances, current sources, grounded sources), else
+ * one estimate of the largest node error (LAPACK's dlacn2 on A^-1 diag(|r| + g),
+ * as its xGERFSX does) stands for every node. */
 #ifndef LS_ACCURACY_H
 #define LS_ACCURACY_H
 
@@ -22,6 +24,7 @@
 
 struct ls_op;
 struct ls_lin;
+struct ls_mna;
 
 /* Per-result bounds for systems up to this many unknowns (and four times as
  * many parts); one estimate above. */
@@ -35,6 +38,7 @@ typedef struct ls_accuracy {
     bool reliable;         /* first-order bounds hold; else every bound is +inf */
     bool have_bounds;      /* node_bound and part_bound are valid */
     bool estimated;        /* one estimate for every node (large system) */
+    bool per_node;         /* large system of resistances and grounded sources: every node's bound by one solve */
     double *node_bound;    /* nnodes: V, absolute; [0] = 0 (ground) */
     double *part_bound;    /* nparts: A, absolute, on the part's current; NaN where none */
     int worst_node, worst_part;     /* largest bound against its value (-1: none untrusted) */
@@ -67,5 +71,13 @@ void ls_acc_warn(struct ls_op *op, int digits);
  * the scale ls_acc_doubtful judges a zero against. */
 double ls_acc_scale(const struct ls_op *op, int kind);
 void ls_acc_free(ls_accuracy *a);
+/* r = b - A (x + tail), summed part by part from every part's stamp (and the
+ * variant's ties) in double-double and rounded to double; absr[row] = the sum
+ * over parts of |that part's net contribution to the row| (the scale the
+ * rounding of the parts' own values acts on).  tail may be all zero; r, absr:
+ * n doubles; work: 2 n doubles of scratch (n = m->n).  The refinement's
+ * residual, exported so a test can hold it against the assembled matrix. */
+void ls_acc_residual(const struct ls_mna *m, const double *x, const double *tail, double *r, double *absr,
+                     double *work);
 
 #endif

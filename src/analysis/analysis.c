@@ -440,6 +440,13 @@ static int solve_failed(ls_op *op, int st, const char *doing)
     return LS_EXIT_UNSOLVABLE;
 }
 
+/* Tell the caller's phase hook, if any, that phase `what` starts. */
+static void phase(const ls_op *op, const char *what)
+{
+    if (op->opt.phase)
+        op->opt.phase(op->opt.phase_ctx, what);
+}
+
 int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
 {
     memset(op, 0, sizeof *op);
@@ -447,6 +454,8 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     op->opt = *o;
     bool variant = o->opened || o->ties;
     /* a variant's circuit has passed the checks once already */
+    if (!variant)
+        phase(op, "checking the topology");
     if (!variant && ls_topology_check(nl))
         return LS_EXIT_UNSOLVABLE;
     if (!ls_blas_buffer_fits()) { /* else OpenBLAS would wait for it forever (memprobe.h) */
@@ -457,24 +466,32 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     }
     if (!o->keep_states)
         ls_newton_init(nl);
+    phase(op, "assembling the equations");
     if (ls_mna_build_variant(&op->mna, nl, o->opened, o->ties) != 0 || alloc_results(op) != 0) {
         ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
         op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
+    phase(op, "factoring");
     int r = factor(op);
     if (r != LS_EXIT_OK)
         return r;
+    phase(op, "solving");
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
     if ((r = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements)) != LS_SOLVER_OK)
         return solve_failed(op, r, "solving");
     op->iterations = 1;
     op->cg_iterations = ls_solver_stats_of(op->solver)->cg_iterations;
     op->cg_residual = ls_solver_stats_of(op->solver)->cg_residual;
-    if (!o->linear_only && ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
-        return r;
+    if (!o->linear_only && ls_newton_needed(nl)) {
+        phase(op, "iterating the nonlinear parts");
+        if ((r = ls_newton_solve(op)) != LS_EXIT_OK)
+            return r;
+    }
+    phase(op, "refining in extra precision");
     if (polish(op) != 0)
         return solve_failed(op, LS_SOLVER_NOMEM, "refining the solution");
+    phase(op, "part currents");
     part_results(op);
     /* (sag's variants with ports opened or tied are left out: not yet
      * checked, see docs/limits.md) */
@@ -501,8 +518,10 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (!(op->residual <= RESIDUAL_WARN))
         ls_warning(nl->diags, LS_NOLOC, "inaccurate",
                    "the solution's relative residual is %.2g: treat the results as approximate", op->residual);
-    if (!o->no_bounds)
+    if (!o->no_bounds) {
+        phase(op, "error bounds");
         ls_acc_warn(op, 4); /* the report's default digits; the report marks against its own */
+    }
     ls_real_warnings(op);
     return LS_EXIT_OK;
 }

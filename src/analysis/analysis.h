@@ -21,6 +21,10 @@ typedef struct ls_options {
     bool keep_states;       /* start from the parts' present linearization points and limits */
     bool linear_only;       /* one linear solve at those points (no iteration) */
     bool no_bounds;         /* inner solves (variants): no error bounds and no untrusted-digits warning */
+    /* When set, told as each long phase of ls_op_solve starts ("assembling",
+     * "factoring", ...): the program's progress line on large solves. */
+    void (*phase)(void *ctx, const char *what);
+    void *phase_ctx;
 } ls_options;
 
 typedef enum ls_verdict { VERDICT_OK, VERDICT_MARGINAL, VERDICT_LOADING } ls_verdict;

@@ -432,7 +432,7 @@ const char *ls_verdict_word(ls_verdict v)
     return n[v];
 }
 
-char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii)
+char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii, int sig)
 {
     const ls_port_result *pr = ls_op_port(op, port);
     const char *OHM = ascii ? "ohm" : "\xCE\xA9", *LE = ascii ? "<=" : "\xE2\x89\xA4",
@@ -449,14 +449,14 @@ char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii)
         snprintf(buf, n, "ratio undefined: see the port report");
     } else if (pr->current_mode) {
         snprintf(buf, n, "fix: zin %s %s; or zout %s %s", LE,
-                 ls_fmt_eng(lo, sizeof lo, pr->zout / min, OHM, 3, ascii), GE,
-                 ls_fmt_eng(hi, sizeof hi, pr->zin * min, OHM, 3, ascii));
+                 ls_fmt_eng(lo, sizeof lo, pr->zout / min, OHM, sig, ascii), GE,
+                 ls_fmt_eng(hi, sizeof hi, pr->zin * min, OHM, sig, ascii));
     } else if (pr->zin == 0) {
         snprintf(buf, n, "fix: the load shorts the node to ground");
     } else {
         snprintf(buf, n, "fix: zout %s %s; or zin %s %s; or a buffer", LE,
-                 ls_fmt_eng(lo, sizeof lo, pr->zin / min, OHM, 3, ascii), GE,
-                 ls_fmt_eng(hi, sizeof hi, pr->zout * min, OHM, 3, ascii));
+                 ls_fmt_eng(lo, sizeof lo, pr->zin / min, OHM, sig, ascii), GE,
+                 ls_fmt_eng(hi, sizeof hi, pr->zout * min, OHM, sig, ascii));
     }
     return buf;
 }

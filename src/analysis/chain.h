@@ -75,8 +75,8 @@ const char *ls_verdict_word(ls_verdict v);
 
 /* A few words saying what would make port `port` pass (empty when it passes):
  * "fix: zout <= 1.2 kOhm; or zin >= 47 kOhm; or a buffer" (the drawing puts each
- * alternative on a line of its own).  Writes into buf and
- * returns it. */
-char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii);
+ * alternative on a line of its own), the values with `sig` significant digits
+ * (3 unless --digits says otherwise).  Writes into buf and returns it. */
+char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii, int sig);
 
 #endif

@@ -117,6 +117,7 @@ int ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only)
     o.keep_states = linear_only;
     o.linear_only = linear_only;
     o.no_bounds = true; /* an inner solve: its digits are not printed as they are */
+    o.phase = NULL;     /* ... and no progress line of its own */
     v->have_op = true;
     return ls_op_solve(&v->op, &v->nl, &o);
 }

@@ -213,7 +213,7 @@ static void conns_text(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
                  ls_eng(rp, z2, sizeof z2, pr->zin, OHM));
         ls_eng(rp, sag, sizeof sag, pr->sag, pr->current_mode ? "A" : "V");
         if (isfinite(pr->sag_rel) && pr->sag != 0)
-            snprintf(sagt, sizeof sagt, "%s (%.3g%%)", sag, pr->sag_rel * 100);
+            snprintf(sagt, sizeof sagt, "%s (%s%%)", sag, ls_fixed(rp, r, sizeof r, "%.3g", pr->sag_rel * 100));
         else
             snprintf(sagt, sizeof sagt, "%s", sag);
         const char *row[NC] = {p->name, conn, zz, ls_eng(rp, r, sizeof r, pr->ratio, ""), sagt,
@@ -230,7 +230,7 @@ static void conns_text(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
     free(cells);
     for (int i = 0; i < c->nconns; i++) {
         char fix[200];
-        if (*ls_chain_fix(op, c->conns[i].port, fix, sizeof fix, rp->ascii))
+        if (*ls_chain_fix(op, c->conns[i].port, fix, sizeof fix, rp->ascii, rp->sig_given ? rp->sig : 3))
             fprintf(o, "  %s %s: %s\n", ARROW, nl->parts[c->conns[i].port].name, fix);
     }
 }

@@ -38,6 +38,7 @@ typedef struct ls_cli {
     bool plot_all;                     /* solve, chain with --format html: histograms even without tol= */
     int threads;
     int digits;                        /* significant digits in text (default 4) */
+    bool digits_given;                 /* --digits was given: every number in text follows it */
     bool quiet;                        /* no progress lines */
     const char *fail_on;               /* check: "warnings" or CODE,CODE... (NULL: none) */
     char *stdin_text;                  /* FILE '-': the circuit read from standard input */

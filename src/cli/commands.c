@@ -169,20 +169,40 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
  * line says what is happening meanwhile. */
 #define LARGE_SOLVE_NODES 100000
 
+/* The progress line of one large solve: each phase as it starts, with the
+ * time so far. */
+typedef struct solve_progress {
+    ls_progress pg;
+    const ls_netlist *nl;
+} solve_progress;
+
+/* ls_options.phase: show the phase when the circuit is large (its phases
+ * take seconds) or the solve has already taken a second. */
+static void solve_phase(void *ctx, const char *what)
+{
+    solve_progress *sp = ctx;
+    double t = ls_progress_now() - sp->pg.t0;
+    if (sp->nl->nnodes < LARGE_SOLVE_NODES && t < LS_PROGRESS_AFTER_S)
+        return;
+    char note[160];
+    snprintf(note, sizeof note, "%d nodes, %d parts: %s ... (%.1f s)", sp->nl->nnodes, sp->nl->nparts, what, t);
+    ls_progress_note(&sp->pg, note);
+}
+
 int ls_session_solve(ls_session *s)
 {
-    ls_options o = {.solver = s->cli->solver, .min_ratio = s->cli->min_ratio, .derate = s->cli->derate};
+    solve_progress sp = {.nl = &s->nl};
+    ls_options o = {.solver = s->cli->solver, .min_ratio = s->cli->min_ratio, .derate = s->cli->derate,
+                    .phase = solve_phase, .phase_ctx = &sp};
     s->have_op = true;
     double t0 = now_s();
-    ls_progress pg;
-    ls_progress_start(&pg, s->cli->command ? s->cli->command : "solve", "", s->cli->quiet);
-    if (s->nl.nnodes >= LARGE_SOLVE_NODES) {
-        char note[96];
-        snprintf(note, sizeof note, "solving %d nodes and %d parts ...", s->nl.nnodes, s->nl.nparts);
-        ls_progress_note(&pg, note);
-    }
+    ls_progress_start(&sp.pg, s->cli->command ? s->cli->command : "solve", "", s->cli->quiet);
     int code = ls_op_solve(&s->op, &s->nl, &o);
-    ls_progress_end(&pg);
+    /* the hook's context lives on this stack: the op's options are copied
+     * into later solves (variants, tol's trials on other threads) */
+    s->op.opt.phase = NULL;
+    s->op.opt.phase_ctx = NULL;
+    ls_progress_end(&sp.pg);
     phase_done("solve", &t0);
     return code;
 }
@@ -351,7 +371,7 @@ int ls_out_close(ls_cli *cli, int code)
 ls_report ls_report_for(const ls_session *s, FILE *out)
 {
     const ls_cli *cli = s->cli;
-    return (ls_report){.out = out, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits,
+    return (ls_report){.out = out, .fmt = cli->fmt, .ascii = cli->ascii, .sig = cli->digits, .sig_given = cli->digits_given,
                        .diags = s->diags.files || s->diags.n ? &s->diags : NULL, .command = cli->command,
                        .file = s->input_path, .sets = cli->sets, .nsets = cli->nsets};
 }

@@ -152,7 +152,7 @@ static void summary(FILE *o, ls_op *op, const ls_chain *c, const ls_diags *d)
                     pr->verdict == VERDICT_LOADING ? "\xE2\x9C\x97" : "\xE2\x96\xB3", ls_verdict_word(pr->verdict));
             esc(o, op->nl->parts[c->conns[k].port].name);
             fputs("</strong> &mdash; ", o);
-            esc(o, ls_chain_fix(op, c->conns[k].port, fix, sizeof fix, false));
+            esc(o, ls_chain_fix(op, c->conns[k].port, fix, sizeof fix, false, 3));
             fputs("</li>", o);
         }
         fputs("</ul></div>\n", o);
@@ -224,7 +224,7 @@ static void ports_section(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
         cell_num(o, rp, pr->current, "A");
         cell_verdict(o, pr->verdict);
         cell(o, pr->note && pr->verdict != VERDICT_OK && isnan(pr->ratio) ? pr->note
-                                                                          : ls_chain_fix(op, i, fix, sizeof fix, false));
+                                                                          : ls_chain_fix(op, i, fix, sizeof fix, false, 3));
         fputs("</tr>\n", o);
     }
     table_close(o);

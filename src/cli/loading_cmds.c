@@ -193,7 +193,7 @@ static void side_text(ls_report *rp, const ls_th_side *t, const ls_cli *cli, dou
         fprintf(o, "%*sa meter of %s input resistance reads %s (error %s", ind, "", ls_eng(rp, b1, sizeof b1, rmeter, OHM),
                 ls_eng(rp, b2, sizeof b2, t->meter_v, "V"), ls_eng(rp, b3, sizeof b3, err, "V"));
         if (t->vth != 0 && isfinite(err))
-            fprintf(o, ", %.3g%%", 100 * err / t->vth);
+            fprintf(o, ", %s%%", ls_fixed(rp, b1, sizeof b1, "%.3g", 100 * err / t->vth));
         fputs(")", o);
         if (strcmp(t->meter_limited, "none") != 0)
             fprintf(o, "  (limited: %s)", t->meter_limited);
@@ -344,7 +344,7 @@ static void sag_text(ls_report *rp, const ls_op *op, const ls_sag_report *r)
     fprintf(o, "  everything connected voltage    %s\n", ls_eng(rp, b1, sizeof b1, r->voltage, "V"));
     fprintf(o, "  alone - voltage      sag        %s", ls_eng(rp, b1, sizeof b1, r->sag, "V"));
     if (isfinite(r->sag) && r->sag != 0 && r->alone != 0 && isfinite(r->alone))
-        fprintf(o, "  (%.3g%% of alone)", 100 * r->sag / r->alone);
+        fprintf(o, "  (%s%% of alone)", ls_fixed(rp, b1, sizeof b1, "%.3g", 100 * r->sag / r->alone));
     fputc('\n', o);
     if (r->why) {
         fprintf(o, "\n  No explanation: %s.\n", r->why);
@@ -370,9 +370,9 @@ static void sag_text(ls_report *rp, const ls_op *op, const ls_sag_report *r)
             "drawn at the load by");
     for (int k = 0; k < r->nports; k++) {
         const ls_sag_port *sp = &r->ports[k];
-        char rel[32] = "-", by[400] = "";
+        char rel[48] = "-", by[400] = "";
         if (isfinite(sp->share_rel))
-            snprintf(rel, sizeof rel, "%.1f%%", 100 * sp->share_rel);
+            snprintf(rel, sizeof rel, "%s%%", ls_fixed(rp, b3, sizeof b3, "%.1f", 100 * sp->share_rel));
         size_t len = 0;
         for (int d = 0; d < sp->ndraws && d < 4 && len < sizeof by; d++) {
             int w = snprintf(by + len, sizeof by - len, "%s%s %s", d ? ", " : "", nl->parts[sp->draws[d].part].name,
@@ -411,7 +411,7 @@ static void sag_text(ls_report *rp, const ls_op *op, const ls_sag_report *r)
                 nl->nodes[p->pin[1]].name, ls_eng(rp, b1, sizeof b1, sp->share, "V"),
                 ls_eng(rp, b2, sizeof b2, r->sag, "V"));
         if (isfinite(sp->share_rel))
-            fprintf(o, " (%.0f%%)", 100 * sp->share_rel);
+            fprintf(o, " (%s%%)", ls_fixed(rp, b3, sizeof b3, "%.0f", 100 * sp->share_rel));
         if (sp->ndraws > 0)
             fprintf(o, "; its current is drawn mostly by %s '%s'", nl->parts[sp->draws[0].part].kind->name,
                     nl->parts[sp->draws[0].part].name);

@@ -350,6 +350,7 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         if (!whole_number(val, 1, 17, &dg))
             return bad_usage("--digits takes a whole number from 1 to 17, not '%s'%s", val, "");
         cli->digits = (int)dg;
+        cli->digits_given = true;
     } else if (strcmp(n, "quiet") == 0) {
         cli->quiet = true;
     } else if (strcmp(n, "fail-on") == 0) {

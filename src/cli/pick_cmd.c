@@ -134,24 +134,25 @@ static void pick_text(FILE *o, const ls_report *rp, const ls_cli *cli, double ra
     if (!pick_fits(es, it, n)) {
         fprintf(o, "  no pair comes within %g%% (the tolerance of %s parts) of that ratio.\n", 100 * ls_eseries_tolerance(es),
                 es->name);
-        fprintf(o, "  The closest is rtop %s, rbot %s: ratio %.6g, off by %+.3g%%.\n",
-                ls_eng(rp, b1, sizeof b1, it[0].rtop, OHM), ls_eng(rp, b2, sizeof b2, it[0].rbot, OHM), it[0].ratio,
-                100 * it[0].error);
+        char rt[48], er[48];
+        fprintf(o, "  The closest is rtop %s, rbot %s: ratio %s, off by %s%%.\n",
+                ls_eng(rp, b1, sizeof b1, it[0].rtop, OHM), ls_eng(rp, b2, sizeof b2, it[0].rbot, OHM),
+                ls_fixed(rp, rt, sizeof rt, "%.6g", it[0].ratio), ls_fixed(rp, er, sizeof er, "%+.3g", 100 * it[0].error));
         fputs("  Widen --total, or make the ratio with more than two resistors or a trimmer.\n", o);
         return;
     }
     fprintf(o, "  %-4s %12s %12s %12s %11s %12s\n", "rank", "rtop", "rbot", "ratio", "error", "zout");
     for (int i = 0; i < n; i++) {
-        char e[32];
+        char e[48], en[40], rt[48];
         /* errors below the third decimal and ratios within 1e-6 of 0 or 1
          * keep their digits instead of printing as -0.000% and 1.000000 */
         double pct = 100 * it[i].error;
-        snprintf(e, sizeof e, fabs(pct) >= 0.0005 || pct == 0 ? "%+.3f%%" : "%+.2e%%", pct);
+        snprintf(e, sizeof e, "%s%%", ls_fixed(rp, en, sizeof en, fabs(pct) >= 0.0005 || pct == 0 ? "%+.3f" : "%+.2e", pct));
         fprintf(o, "  %-4d", i + 1);
         rpad(o, ls_eng(rp, b1, sizeof b1, it[i].rtop, OHM), 12);
         rpad(o, ls_eng(rp, b2, sizeof b2, it[i].rbot, OHM), 12);
         double r = it[i].ratio;
-        fprintf(o, r >= 1e-6 && r <= 1 - 1e-6 ? " %12.6f %11s" : " %12.10g %11s", r, e);
+        fprintf(o, " %s %11s", ls_fixed(rp, rt, sizeof rt, r >= 1e-6 && r <= 1 - 1e-6 ? "%12.6f" : "%12.10g", r), e);
         rpad(o, ls_eng(rp, b3, sizeof b3, it[i].zout, OHM), 12);
         fputc('\n', o);
     }

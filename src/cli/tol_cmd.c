@@ -222,8 +222,8 @@ static void tol_text(FILE *o, ls_report *rp, const tol_ctx *t)
         fprintf(o, "Worst case, linear from the sensitivities (%d parts are too many for every corner):\n", t->nv);
     fprintf(o, "  min %s   max %s", ls_eng(rp, b1, sizeof b1, r->wc_min, u), ls_eng(rp, b2, sizeof b2, r->wc_max, u));
     if (r->nominal != 0 && isfinite(r->wc_min))
-        fprintf(o, "   (%+.3g%% .. %+.3g%% of nominal)", 100 * (r->wc_min / r->nominal - 1),
-                100 * (r->wc_max / r->nominal - 1));
+        fprintf(o, "   (%s%% .. %s%% of nominal)", ls_fixed(rp, b3, sizeof b3, "%+.3g", 100 * (r->wc_min / r->nominal - 1)),
+                ls_fixed(rp, b4, sizeof b4, "%+.3g", 100 * (r->wc_max / r->nominal - 1)));
     fputc('\n', o);
     if (!r->corners)
         fprintf(o, "  root-sum-square estimate: %s +- %s\n", ls_eng(rp, b1, sizeof b1, r->nominal, u),
@@ -235,13 +235,13 @@ static void tol_text(FILE *o, ls_report *rp, const tol_ctx *t)
     double lin = r->corners ? 0 : (r->wc_max - r->wc_min) / 2;
     for (int j = 0; j < t->nv; j++) {
         const ls_part *p = &nl->parts[t->v[j].part];
-        char tb[32], c1[32] = "", c2[32] = "", vb[64];
+        char tb[32], c1[48] = "", c2[32] = "", vb[64];
         snprintf(tb, sizeof tb, "%.4g%%", 100 * t->v[j].tol);
         if (r->corners && isfinite(r->wc_min)) {
             corner_word(c1, sizeof c1, t->v, r->wc_min_mask, j);
             corner_word(c2, sizeof c2, t->v, r->wc_max_mask, j);
         } else if (!r->corners && lin > 0) {
-            snprintf(c1, sizeof c1, "%.1f%%", 100 * t->v[j].dev / lin);
+            snprintf(c1, sizeof c1, "%s%%", ls_fixed(rp, b3, sizeof b3, "%.1f", 100 * t->v[j].dev / lin));
         }
         ls_eng(rp, vb, sizeof vb, t->v[j].nominal, ls_unit_of(ls_kind_main_dims(p->kind), t->cli->ascii));
         fprintf(o, "  %-20s %-9s", p->name, p->kind->name);
@@ -266,7 +266,8 @@ static void tol_text(FILE *o, ls_report *rp, const tol_ctx *t)
         fprintf(o, "\nYield: no expect on %s in the circuit\n", t->qtext);
         return;
     }
-    fprintf(o, "\nYield %.2f%% (trials meeting every expect on %s):\n", 100 * r->yield, t->qtext);
+    fprintf(o, "\nYield %s%% (trials meeting every expect on %s):\n", ls_fixed(rp, b1, sizeof b1, "%.2f", 100 * r->yield),
+            t->qtext);
     for (int c = 0; c < t->nchecks; c++) {
         const ls_check *ck = &nl->checks[t->checks[c]];
         const char *wc = check_wc_word(t, ck);

@@ -1702,6 +1702,20 @@ static void single_connection_warnings(elab *x)
                 who[n] = i;
             }
         }
+    /* a node named in a range option (an op-amp's rails=, cm=) is used there
+     * too: the rail a supply feeds is not a mistyped name */
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        for (int o = 0; p->range && o < p->kind->nopts; o++) {
+            if (p->kind->opts[o].kind != OPT_RANGE || !ls_part_has(p, o))
+                continue;
+            for (int e = 0; e < 2; e++) {
+                int n = p->range[p->kind->opts[o].pin][e].node;
+                if (n > 0 && n < nl->nnodes)
+                    cnt[n]++;
+            }
+        }
+    }
     /* a node with no DC path to ground gets the topology error instead */
     int *parent = malloc((size_t)(nl->nnodes ? nl->nnodes : 1) * sizeof *parent);
     if (!parent) {

@@ -186,6 +186,12 @@ static void two_edge(const ls_part *p, void *ctx, ls_edge_fn emit)
     emit(ctx, p->pin[0], p->pin[1], false, -1);
 }
 
+/* A positive conductance between two nodes keeps the nodal matrix an M-matrix. */
+static int resistor_monotone(const ls_part *p)
+{
+    return p->value > 0 && isfinite(p->value);
+}
+
 /* ---- independent sources ------------------------------------------------------ */
 
 static void vsource_stamp(const ls_part *p, ls_stamp_ctx *c)
@@ -201,6 +207,24 @@ static void vsource_stamp(const ls_part *p, ls_stamp_ctx *c)
     ls_sink_a(c->sink, k, k, rs);
     if (!c->removed)
         ls_sink_b(c->sink, k, p->value * src_scale(p));
+}
+
+/* A source with one end on ground fixes (or, through rint, feeds) a node:
+ * raising its value raises every node voltage when ground is FROM, lowers
+ * every one when ground is TO.  Between two other nodes the response has
+ * both signs. */
+static int vsource_monotone(const ls_part *p)
+{
+    if (ls_part_opt(p, "rint", 0) < 0)
+        return 0;
+    return p->pin[0] == 0 ? 1 : p->pin[1] == 0 ? -1 : 0;
+}
+
+/* A current source only enters the right-hand side. */
+static int isource_monotone(const ls_part *p)
+{
+    (void)p;
+    return 1;
 }
 
 static void vsource_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
@@ -1012,17 +1036,18 @@ static const ls_kind kinds[] = {
      .vsign = VSIGN_DROP, .opts = {COMMON_OPTS, {"snap", OPT_WORD, LS_FREE, 0, -1, "E6|E12|E24|E48|E96|E192"},
                                    {"vmax", OPT_VALUE, LS_VOLT, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2,
-     .branches = no_branch, .stamp = resistor_stamp, .current = resistor_current, .edges = two_edge},
+     .branches = no_branch, .stamp = resistor_stamp, .current = resistor_current, .edges = two_edge,
+     .monotone = resistor_monotone},
     {.name = "voltage", .has_run = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SOURCE, .removal = LS_REMOVE_SHORT, .doc = "voltage FROM -> TO VALUE [rint=R]  (V(TO) - V(FROM) = VALUE)",
      .value_slot = true, .value_dims = LS_VOLT, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"rint", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL}}, .nopts = NCOMMON + 1,
      .renamed = {{"rs", "rint"}},
      .npins = 2, .branches = one_branch, .stamp = vsource_stamp, .current = current_branch,
-     .edges = vsource_edges},
+     .edges = vsource_edges, .monotone = vsource_monotone},
     {.name = "current", .has_run = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SENSOR, .doc = "current FROM -> TO VALUE  (VALUE flows FROM -> TO through it)",
      .value_slot = true, .value_dims = LS_AMP, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS}, .nopts = NCOMMON, .npins = 2, .branches = no_branch,
-     .stamp = isource_stamp, .current = isource_current, .edges = no_edges},
+     .stamp = isource_stamp, .current = isource_current, .edges = no_edges, .monotone = isource_monotone},
     {.name = "port", .shape = SHAPE_TWO, .doc = "port DRIVER -> LOAD [mode=voltage|current budget=V|%|LSB]",
      .vsign = VSIGN_DROP, .is_port = true,
      .opts = {COMMON_OPTS, {"mode", OPT_WORD, LS_FREE, 0, -1, "voltage|current"},

@@ -140,6 +140,12 @@ typedef struct ls_kind {
     /* Current (A), voltage (V, as vsign reads) and absorbed power (W) for parts
      * whose results are not the generic ones (pot, adc); NULL otherwise. */
     void (*results)(const ls_part *p, const double *x, const double *v, double out[3]);
+    /* Error bounds (accuracy.c): does this part keep every node row of A^-1
+     * one-signed, column by column, as a network of positive resistances and
+     * grounded sources does (an M-matrix)?  0 no (or NULL); else the sign of
+     * its branch column in the node rows, +1 or -1 (+1 for a part without a
+     * branch).  Then |A^-1| w on the node rows is one solve. */
+    int (*monotone)(const ls_part *p);
 } ls_kind;
 
 const ls_kind *ls_kind_find(const char *name);

@@ -193,7 +193,7 @@ static void conn_label(ls_chain_pic *pic, cairo_t *cr, ls_op *op, int port, bool
         add_line(pic, cr, it, false, SIZE_TEXT, -1, "budget %s", ls_fmt_eng(a, sizeof a, pr->budget, pr->current_mode ? "A" : "V", 3, ascii));
     add_line(pic, cr, it, true, SIZE_TEXT, it->verdict, "%s", (ascii ? mark_ascii : mark)[pr->verdict]);
     char fix[200];
-    ls_chain_fix(op, port, fix, sizeof fix, ascii);
+    ls_chain_fix(op, port, fix, sizeof fix, ascii, 3);
     for (char *s = fix, *semi; *s; s = semi) { /* one line per alternative */
         semi = strstr(s, "; ");
         if (semi)

@@ -187,6 +187,32 @@ const char *ls_eng(const ls_report *rp, char *buf, size_t n, double v, const cha
     return ls_fmt_eng(buf, n, v, unit, rp->sig, rp->ascii);
 }
 
+const char *ls_fixed(const ls_report *rp, char *buf, size_t n, const char *fmt, double v)
+{
+    if (!rp->sig_given || v == 0 || !isfinite(v) || fmt[0] != '%') {
+        snprintf(buf, n, fmt, v);
+        return buf;
+    }
+    /* fmt's flags and width ("%+", "%12"), then '#' (keep trailing zeros) and
+     * the digits asked for */
+    char f[32] = "%#";
+    size_t k = 2;
+    const char *c = fmt + 1;
+    for (; *c && strchr("+- 0#", *c) && k + 8 < sizeof f; c++)
+        f[k++] = *c;
+    for (; *c >= '0' && *c <= '9' && k + 8 < sizeof f; c++)
+        f[k++] = *c;
+    memcpy(f + k, ".*g", 4);
+    int len = snprintf(buf, n, f, rp->sig, v);
+    /* '#' leaves a bare point after a whole number ("12345679."): drop it */
+    if (len > 0 && (size_t)len < n) {
+        char *dot = strchr(buf, '.');
+        if (dot && (dot[1] == '\0' || dot[1] == 'e' || dot[1] == ' '))
+            memmove(dot, dot + 1, strlen(dot));
+    }
+    return buf;
+}
+
 const char *ls_unit_of(ls_dims d, bool ascii)
 {
     const char *u = ls_dims_symbol(d);
@@ -630,16 +656,16 @@ static void adc_text(ls_report *rp, ls_op *op)
         char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64];
         int mi = ls_kind_opt(p->kind, "max_source");
         bool has_max = ls_part_has(p, mi);
-        char verdict[96];
+        char verdict[128], e[48], bl[48];
         snprintf(b2, sizeof b2, "%lld", r.code);
-        snprintf(b4, sizeof b4, "%+.3g LSB", r.error_lsb);
+        snprintf(b4, sizeof b4, "%s LSB", ls_fixed(rp, e, sizeof e, "%+.3g", r.error_lsb));
+        ls_fixed(rp, bl, sizeof bl, "%.3g", r.budget_lsb);
         if (r.source_high && fabs(r.error_lsb) > r.budget_lsb)
-            snprintf(verdict, sizeof verdict, "%s: error over %.3g LSB, source too high", verdict_name(r.verdict),
-                     r.budget_lsb);
+            snprintf(verdict, sizeof verdict, "%s: error over %s LSB, source too high", verdict_name(r.verdict), bl);
         else if (r.source_high)
             snprintf(verdict, sizeof verdict, "%s: source too high", verdict_name(r.verdict));
         else if (r.verdict != VERDICT_OK)
-            snprintf(verdict, sizeof verdict, "%s: error over %.3g LSB", verdict_name(r.verdict), r.budget_lsb);
+            snprintf(verdict, sizeof verdict, "%s: error over %s LSB", verdict_name(r.verdict), bl);
         else
             snprintf(verdict, sizeof verdict, "ok");
         const char *c[8] = {p->name, ls_eng(rp, b1, sizeof b1, r.vin, "V"), b2,
@@ -666,9 +692,9 @@ static void ntc_text(ls_report *rp, ls_op *op)
         if (!is_kind(p, "ntc"))
             continue;
         double t_amb = ls_part_opt(p, "celsius", 25), t_body = ls_ntc_body(p);
-        char b1[64], b2[64], b3[64];
-        snprintf(b2, sizeof b2, "%.4g degC", t_body);
-        snprintf(b3, sizeof b3, "%.3g K", t_body - t_amb);
+        char b1[64], b2[64], b3[64], n1[48], n2[48];
+        snprintf(b2, sizeof b2, "%s degC", ls_fixed(rp, n1, sizeof n1, "%.4g", t_body));
+        snprintf(b3, sizeof b3, "%s K", ls_fixed(rp, n2, sizeof n2, "%.3g", t_body - t_amb));
         const char *c[4] = {p->name, ls_eng(rp, b1, sizeof b1, ls_ntc_r(p, t_body), ls_unit_of(LS_OHM, rp->ascii)),
                             b2, b3};
         if (!t.rows)
@@ -785,7 +811,9 @@ static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result 
     ls_eng(rp, bud, sizeof bud, pr->budget, "V");
     if (pr->adc >= 0) {
         const ls_part *a = &op->nl->parts[pr->adc];
-        snprintf(lsb, sizeof lsb, " (%.3g LSB of %s)", fabs(pr->sag) / ls_adc_lsb(a), a->name);
+        char nb[48];
+        snprintf(lsb, sizeof lsb, " (%s LSB of %s)", ls_fixed(rp, nb, sizeof nb, "%.3g", fabs(pr->sag) / ls_adc_lsb(a)),
+                 a->name);
     }
     fprintf(rp->out, "  -> %s: the sag of %s%s is over its budget of %s (%s).", p->name, sag, lsb, bud,
             budget_source(pr));
@@ -926,7 +954,7 @@ static void ports_text(ls_report *rp, ls_op *op)
                  pr->current_mode ? " (current)" : "");
         ls_eng(rp, b3, sizeof b3, pr->sag, u);
         if (isfinite(pr->sag_rel) && pr->sag != 0)
-            snprintf(sag, sizeof sag, "%s (%.3g%%)", b3, pr->sag_rel * 100);
+            snprintf(sag, sizeof sag, "%s (%s%%)", b3, ls_fixed(rp, b4, sizeof b4, "%.3g", pr->sag_rel * 100));
         else
             snprintf(sag, sizeof sag, "%s", b3);
         snprintf(verdict, sizeof verdict, "%s (%s)", verdict_name(pr->verdict), pr->by_budget ? "budget" : "ratio");
@@ -987,6 +1015,9 @@ static void accuracy_text(ls_report *rp, ls_op *op, int marked)
                                     : "double precision, confirmed by an extra-precise residual";
     if (!a->have_bounds)
         fprintf(rp->out, "accuracy: %s; no error bounds (out of memory)\n", how);
+    else if (!a->reliable)
+        fprintf(rp->out, "accuracy: %s; no error bounds: the equations are too ill-conditioned for double "
+                         "precision, so every number is marked ~\n", how);
     else if (marked)
         fprintf(rp->out, "accuracy: %s; %d number%s marked ~ may be wrong in %s last printed digit\n", how, marked,
                 marked == 1 ? "" : "s", marked == 1 ? "its" : "their");
@@ -1109,7 +1140,7 @@ static void accuracy_json(ls_jw *w, ls_op *op)
     const ls_netlist *nl = op->nl;
     const ls_accuracy *a = &op->acc;
     ls_jw_obj(w, "accuracy");
-    ls_jw_str(w, "bounds", !a->reliable ? "none" : a->estimated ? "estimate" : "per-result");
+    ls_jw_str(w, "bounds", !a->reliable ? "none" : a->estimated ? "estimate" : a->per_node ? "per-node" : "per-result");
     int wrap = w->wrap;
     w->wrap = 1; /* the bounds on one line */
     ls_jw_obj(w, "nodes");

@@ -14,6 +14,7 @@ typedef struct ls_report {
     ls_format fmt;
     bool ascii;
     int sig;                 /* significant digits in text (4) */
+    bool sig_given;          /* --digits given: ls_fixed numbers follow sig too */
     const ls_diags *diags;
     /* the JSON "meta" object: the command, the circuit file (NULL: none) and
      * the --set texts ("NAME=VALUE") */
@@ -65,6 +66,12 @@ void ls_csv_field(FILE *out, const char *s);
 /* One CSV number: the shortest exact text, empty when not finite. */
 void ls_csv_number(FILE *out, double v);
 const char *ls_eng(const ls_report *rp, char *buf, size_t n, double v, const char *unit);
+/* v printed by `fmt`, one printf conversion of a double with the text's own
+ * precision for that number ("%+.3g", "%.1f", "%12.6f"); or, when --digits
+ * was given, with fmt's flags and width and rp->sig significant digits,
+ * trailing zeros kept as ls_eng keeps them.  A zero or a value that is not
+ * finite is printed by fmt.  Returns buf. */
+const char *ls_fixed(const ls_report *rp, char *buf, size_t n, const char *fmt, double v);
 const char *ls_unit_of(ls_dims d, bool ascii);
 /* The "warnings" array: code, level ("warning", or "caution" for a hazard to
  * people), message, file, line, column. */

@@ -306,6 +306,10 @@ def test_warnings(b, tmp):
     base = "title \"w\"\nground gnd\nvoltage v1 gnd -> a 1 V\nresistor r1 a -> b 1k\nresistor r2 b -> gnd 1k\n"
     cases = [
         ("single-connection", "resistor r3 b -> outt 1k\n", "resistor r3 b -> gnd 1k\n"),
+        # a supply whose only other use is an op-amp's rails= is connected: the
+        # rails count (the defect: they did not); without them it joins nothing
+        ("single-connection", "voltage vsup gnd -> vcc 5 V\nopamp u1 plus=b minus=o out=o\nresistor rl o -> gnd 1k\n",
+         "voltage vsup gnd -> vcc 5 V\nopamp u1 plus=b minus=o out=o rails=gnd..vcc\nresistor rl o -> gnd 1k\n"),
         ("opamp-positive-feedback", "opamp u1 plus=o minus=b out=o\nresistor rl o -> gnd 1k\n",
          "opamp u1 plus=b minus=o out=o\nresistor rl o -> gnd 1k\n"),
         ("port-reversed", "resistor r4 adc -> gnd 100k\nport p_rev adc -> b\n",
@@ -316,7 +320,7 @@ def test_warnings(b, tmp):
         truth("%s given" % code, code in warning_codes(d), "the issue's list of missing warnings")
         d = js(b, ["solve", write(tmp, "w_good.stack", base + good)])
         truth("%s not given when right" % code, code not in warning_codes(d), "no false alarm")
-    d = js(b, ["solve", write(tmp, "w_bad.stack", base + cases[2][1])])
+    d = js(b, ["solve", write(tmp, "w_bad.stack", base + cases[3][1])])
     if d:
         truth("reversed port: no sag_rel of 1e17 %", d["ports"]["p_rev"]["sag_rel"] is None,
               "an open of 0 V has no relative sag")
