@@ -12,7 +12,7 @@
  *
  * Usage: cmd_oom DIR [sparse|large]  (DIR: a scratch directory; "sparse":
  * every command in JSON with --solver sparse; "large": solve, thevenin and
- * influence on a ladder of 1601 unknowns, above the dense choice's 1500, so
+ * influence on a ladder of 1601 unknowns, sparse by the automatic choice, so
  * the automatic choice takes the sparse path with its larger tables). */
 #include <fcntl.h>
 #include <stdatomic.h>
