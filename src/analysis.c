@@ -517,6 +517,9 @@ int ls_op_resolve(ls_op *op)
     free(op->tout);
     free(op->low);
     op->tin = op->tout = op->low = NULL;
+    op->anorm = 0; /* the values (and an adc's range) may have changed */
+    free(op->adc_at);
+    op->adc_at = NULL;
     return LS_EXIT_OK;
 }
 
@@ -536,6 +539,7 @@ void ls_op_free(ls_op *op)
     free(op->bridge_part);
     free(op->bridge_child);
     free(op->order);
+    free(op->adc_at);
     ls_acc_free(&op->acc);
     memset(op, 0, sizeof *op);
 }

@@ -60,6 +60,10 @@ typedef struct ls_op {
     int *bridge_child;       /* the DFS child endpoint of that bridge */
     int *order;              /* nodes by tin */
     double *work;            /* refinement workspace: 3 work_n doubles */
+    /* once per solution for the port report (lowrank.c), so a port's work
+     * does not grow with the circuit: */
+    double anorm;            /* max |a_ij| of mna.a; 0: not yet computed */
+    int *adc_at;             /* per node: the adc with the smallest LSB on it, or -1; NULL: not yet built */
     size_t work_n;
     ls_accuracy acc;         /* extra-precise tail of x and the error bounds (accuracy.h) */
 } ls_op;

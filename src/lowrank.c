@@ -1152,6 +1152,34 @@ static double ratio_of(double num, double den)
     return num / den;
 }
 
+/* The adc on port pi's load node with the smallest LSB (the first of equals),
+ * or -1: ls_port_adc's answer from a per-node index built once per solution
+ * (a scan of the part table per port made the report quadratic).  Falls back
+ * to the scan when the index cannot be allocated. */
+static int port_adc(ls_op *op, int pi)
+{
+    const ls_netlist *nl = op->nl;
+    if (!op->adc_at) {
+        op->adc_at = malloc((size_t)(nl->nnodes > 0 ? nl->nnodes : 1) * sizeof *op->adc_at);
+        if (!op->adc_at)
+            return ls_port_adc(nl, pi);
+        for (int i = 0; i < nl->nnodes; i++)
+            op->adc_at[i] = -1;
+        const ls_kind *adc = ls_kind_find("adc");
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *p = &nl->parts[i];
+            int node = p->pin[0], *best = &op->adc_at[node > 0 ? node : 0];
+            if (p->kind != adc || node <= 0)
+                continue;
+            /* as ls_port_adc: strictly smaller than the best so far (from inf) */
+            if (ls_adc_lsb(p) < (*best < 0 ? INFINITY : ls_adc_lsb(&nl->parts[*best])))
+                *best = i;
+        }
+    }
+    int load = nl->parts[pi].pin[1];
+    return load > 0 ? op->adc_at[load] : -1;
+}
+
 /* The port's budget (V, or A in current mode) into r: its own budget=, else
  * `rule sag` where its unit fits the port, else half an LSB of an adc on the
  * load node; NaN when none applies (or a % of an undefined open). */
@@ -1160,7 +1188,7 @@ static void port_budget(ls_op *op, int pi, ls_port_result *r)
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[pi];
     int bi = ls_kind_opt(p->kind, "budget");
-    r->adc = r->current_mode ? -1 : ls_port_adc(nl, pi);
+    r->adc = r->current_mode ? -1 : port_adc(op, pi);
     const ls_budget *b = NULL;
     r->budget = NAN;
     r->budget_from = LS_BUDGET_FROM_NONE;
@@ -1295,6 +1323,15 @@ static void current_fields(ls_op *op, ls_mod *m, int pi, ls_port_result *r)
 
 static void finish_report(ls_op *op, int pi, ls_port_result *r);
 
+/* max |a_ij| of the op's matrix, computed once per solution (ls_op_resolve
+ * resets it): every port's refinement tests against it. */
+static double op_anorm(ls_op *op)
+{
+    if (!(op->anorm > 0))
+        op->anorm = max_abs(&op->mna.a);
+    return op->anorm;
+}
+
 /* The fast path of a voltage-mode port, from two rows of A^-1.  The port's
  * branch row k of A is V(f) - V(t) = 0, so (e_f - e_t)^T A^-1 = e_k^T: row t
  * of A^-1 is row f minus e_k^T.  Opening the port replaces row k by I = 0,
@@ -1309,7 +1346,7 @@ static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r)
     int n = op->mna.n, f = p->pin[0] - 1, t = p->pin[1] - 1, k = p->branch;
     if (f == t)
         return false;                 /* both ends on one node: no such row identity */
-    double anorm = max_abs(&op->mna.a);
+    double anorm = op_anorm(op);
     double *yk = calloc((size_t)(n ? n : 1), sizeof *yk);
     double *ys = calloc((size_t)(n ? n : 1), sizeof *ys);
     bool ok = yk && ys;
