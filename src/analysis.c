@@ -5,6 +5,7 @@
 #include "selfcheck.h"
 #include "elab.h"
 #include "newton.h"
+#include "selinv.h"
 
 #include <float.h>
 #include <math.h>
@@ -520,6 +521,8 @@ int ls_op_resolve(ls_op *op)
     op->anorm = 0; /* the values (and an adc's range) may have changed */
     free(op->adc_at);
     op->adc_at = NULL;
+    ls_selinv_free(&op->selinv);
+    op->selinv_state = 0;
     return LS_EXIT_OK;
 }
 
@@ -540,6 +543,7 @@ void ls_op_free(ls_op *op)
     free(op->bridge_child);
     free(op->order);
     free(op->adc_at);
+    ls_selinv_free(&op->selinv);
     ls_acc_free(&op->acc);
     memset(op, 0, sizeof *op);
 }
