@@ -189,6 +189,15 @@ static double max_abs(const ls_csc *a)
     return m;
 }
 
+/* max |a_ij| of the op's matrix, computed once per solution (ls_op_resolve
+ * resets it): every port's and every what-if row's refinement tests against it. */
+static double op_anorm(ls_op *op)
+{
+    if (!(op->anorm > 0))
+        op->anorm = max_abs(&op->mna.a);
+    return op->anorm;
+}
+
 /* Relative residual |r| / (anorm |x| + |rhs|), max norms, r already rhs - A x. */
 static double rel_residual(const double *r, const double *x, const double *rhs, int n, double anorm)
 {
@@ -804,7 +813,7 @@ static ls_mod *mod_build(ls_op *op, int part, ls_mod_kind kind, bool pin, int *t
         return NULL;
     m->op = op;
     m->n = op->mna.n;
-    m->anorm = max_abs(&op->mna.a);
+    m->anorm = op_anorm(op);
     ls_triplets dt = {0};
     *topo = find_floating(m, part, kind);
     if (*topo < 0)
@@ -1335,15 +1344,6 @@ static void current_fields(ls_op *op, ls_mod *m, int pi, ls_port_result *r)
 }
 
 static void finish_report(ls_op *op, int pi, ls_port_result *r);
-
-/* max |a_ij| of the op's matrix, computed once per solution (ls_op_resolve
- * resets it): every port's refinement tests against it. */
-static double op_anorm(ls_op *op)
-{
-    if (!(op->anorm > 0))
-        op->anorm = max_abs(&op->mna.a);
-    return op->anorm;
-}
 
 /* The selected-inverse factor of the op's matrix (selinv.h), built on first
  * use for systems of at least LS_SELINV_MIN_N unknowns whose KLU pivot
