@@ -9,16 +9,16 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "analysis.h"
-#include "elab.h"
-#include "formula.h"
-#include "parser.h"
-#include "report.h"
-#include "sag.h"
-#include "sens.h"
-#include "sweep.h"
-#include "thevenin.h"
-#include "tolerance.h"
+#include "analysis/analysis.h"
+#include "netlist/elab.h"
+#include "analysis/formula.h"
+#include "lang/parser.h"
+#include "report/report.h"
+#include "analysis/sag.h"
+#include "analysis/sens.h"
+#include "analysis/sweep.h"
+#include "analysis/thevenin.h"
+#include "analysis/tolerance.h"
 
 #ifndef LS_VERSION
 #define LS_VERSION "0.0.0"

@@ -42,7 +42,7 @@ for c in $commands; do
 done
 # ENVIRONMENT names the variables the program reads; WARNING CODES every code of docs/warnings.md.
 for var in LOADSTACK_THREADS LOADSTACK_TIMING; do
-    grep -q "$var" "$src/src/"*.c || fail "$var is no longer read by the program; update loadstack.1"
+    grep -rq --include="*.c" "$var" "$src/src/" || fail "$var is no longer read by the program; update loadstack.1"
     sed -n '/^\.SH ENVIRONMENT/,/^\.SH /p' "$work/m1" | grep -q "^\.B $var$" \
         || fail "loadstack.1's ENVIRONMENT does not describe $var"
 done
@@ -54,8 +54,8 @@ for code in 0 1 2 3; do
     sed -n '/^\.SH EXIT STATUS/,/^\.SH /p' "$work/m1" | grep -q "^\.B $code$" || fail "exit code $code is not in loadstack.1"
 done
 
-kinds=$(sed -n 's/.*{\.name = "\([a-z]*\)", \.shape.*/\1/p' "$src/src/parts.c")
-[ -n "$kinds" ] || fail "no part kinds read from src/parts.c"
+kinds=$(sed -n 's/.*{\.name = "\([a-z]*\)", \.shape.*/\1/p' "$src/src/parts/parts.c")
+[ -n "$kinds" ] || fail "no part kinds read from src/parts/parts.c"
 for k in $kinds; do
     grep -qE "^\.B $k$|^$k NAME" "$work/m5" || fail "loadstack-language.5 does not describe the part kind '$k'"
 done

@@ -36,7 +36,7 @@ def main():
     root = sys.argv[1]
     bad = 0
     codes = set()
-    for path in glob.glob(os.path.join(root, "src", "*.c")):
+    for path in glob.glob(os.path.join(root, "src", "**", "*.c"), recursive=True):
         text = open(path, encoding="utf-8").read()
         for m in re.finditer(r"ls_warning\(\s*[^,]+,\s*[^,]+,\s*\"([a-z0-9-]+)\"", text):
             codes.add(m.group(1))
@@ -51,7 +51,7 @@ def main():
     print("%d warning codes in src/, %d documented" % (len(codes), len(documented)))
 
     defines = {}
-    for path in glob.glob(os.path.join(root, "src", "*.h")):
+    for path in glob.glob(os.path.join(root, "src", "**", "*.h"), recursive=True):
         for m in re.finditer(r"^#define (LS_\w+) (.+)$", open(path, encoding="utf-8").read(), re.M):
             defines[m.group(1)] = m.group(2)
     limits = open(os.path.join(root, "docs", "limits.md"), encoding="utf-8").read()

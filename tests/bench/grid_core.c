@@ -10,8 +10,8 @@
  * full MNA matrix went to before it.  Prints the seconds of each step and
  * V(n0_1), for a cross-check against scipy's spsolve (gen.py gridmatrix).
  * Exit 0 ok, 1 bad usage or no memory, 3 solver failure. */
-#include "mna.h"
-#include "solver.h"
+#include "mna/mna.h"
+#include "solve/solver.h"
 
 #include <stdio.h>
 #include <stdlib.h>

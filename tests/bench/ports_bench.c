@@ -16,9 +16,9 @@
 #include <string.h>
 #include <time.h>
 
-#include "analysis.h"
-#include "elab.h"
-#include "parser.h"
+#include "analysis/analysis.h"
+#include "netlist/elab.h"
+#include "lang/parser.h"
 
 /* Seconds on the monotonic clock. */
 static double now(void)

@@ -13,8 +13,8 @@
  * of n nodes, each tied to d others, timed through the dense LU and KLU
  * (analyze + factor + one solve), beside ls_sparse_lu_flops.
  */
-#include "solver.h"
-#include "sparse.h"
+#include "solve/solver.h"
+#include "solve/sparse.h"
 
 #include <amd.h>
 

@@ -13,10 +13,10 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "analysis.h"
-#include "elab.h"
-#include "parser.h"
-#include "report.h"
+#include "analysis/analysis.h"
+#include "netlist/elab.h"
+#include "lang/parser.h"
+#include "report/report.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 

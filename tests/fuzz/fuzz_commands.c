@@ -25,9 +25,9 @@
 #include <string.h>
 #include <unistd.h>
 
-#include "cli.h"
-#include "elab.h"
-#include "parser.h"
+#include "cli/cli.h"
+#include "netlist/elab.h"
+#include "lang/parser.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 

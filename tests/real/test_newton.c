@@ -10,9 +10,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "analysis.h"
-#include "elab.h"
-#include "parser.h"
+#include "analysis/analysis.h"
+#include "netlist/elab.h"
+#include "lang/parser.h"
 
 typedef struct world {
     ls_arena a;

@@ -23,7 +23,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#include "cli.h"
+#include "cli/cli.h"
 
 void *__real_malloc(size_t n);
 void *__real_calloc(size_t n, size_t size);

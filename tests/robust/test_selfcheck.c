@@ -8,10 +8,10 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "analysis.h"
-#include "elab.h"
-#include "parser.h"
-#include "selfcheck.h"
+#include "analysis/analysis.h"
+#include "netlist/elab.h"
+#include "lang/parser.h"
+#include "analysis/selfcheck.h"
 
 static const char *text = "ground gnd\nvoltage vs gnd -> top 10 V\nresistor r1 top -> a 1k\n"
                           "resistor r2 a -> gnd 2k\nresistor r3 top -> b 3k\nresistor r4 b -> gnd 4k\n"

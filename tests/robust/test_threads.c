@@ -18,7 +18,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "cli.h"
+#include "cli/cli.h"
 
 typedef struct job {
     const char *text;

@@ -5,7 +5,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 
-#include "output.h"
+#include "report/output.h"
 
 int main(int argc, char **argv)
 {

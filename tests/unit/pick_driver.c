@@ -1,7 +1,7 @@
 /* pick_driver.c — runs ls_pick_ratio once for tests/ref/test_pick_ref.py.
  * Usage: pick_driver SERIES RATIO TOTAL_LO TOTAL_HI ZOUT_MAX N  (0 = default)
  * Prints one line per result: rtop rbot ratio error zout (%.17g). */
-#include "eseries.h"
+#include "base/eseries.h"
 
 #include <stdio.h>
 #include <stdlib.h>

@@ -6,9 +6,9 @@
 #include "../cu_run.h"
 #include <string.h>
 
-#include "chain.h"
-#include "elab.h"
-#include "parser.h"
+#include "analysis/chain.h"
+#include "netlist/elab.h"
+#include "lang/parser.h"
 
 typedef struct world {
     ls_arena a;

@@ -6,9 +6,9 @@
 #include <math.h>
 #include <string.h>
 
-#include "elab.h"
-#include "mna.h"
-#include "parser.h"
+#include "netlist/elab.h"
+#include "mna/mna.h"
+#include "lang/parser.h"
 
 typedef struct world {
     ls_arena a;

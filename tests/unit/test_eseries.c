@@ -1,7 +1,7 @@
 /* test_eseries.c — IEC 60063 tables, snapping and divider picking.
  * The full pick search is compared with an independent Python brute force in
  * tests/ref/test_pick_ref.py (via pick_driver.c); here only closed-form cases. */
-#include "eseries.h"
+#include "base/eseries.h"
 
 #include "../cu_run.h"
 #include <math.h>

@@ -9,8 +9,8 @@
  * buffers, and the edge cases where rounding carries into the next decade or
  * prefix.  A few hundred thousand random inputs: enough to reach every branch,
  * a second or so of the suite. */
-#include "fmt.h"
-#include "numfmt.h"
+#include "base/fmt.h"
+#include "base/numfmt.h"
 
 #include "../cu_run.h"
 #include <float.h>

@@ -10,8 +10,8 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "lexer.h"
-#include "parser.h"
+#include "lang/lexer.h"
+#include "lang/parser.h"
 
 static uint64_t next64(uint64_t *s) /* splitmix64 (Steele, Lea, Flood, OOPSLA 2014) */
 {

@@ -9,7 +9,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "hash.h"
+#include "base/hash.h"
 
 /* splitmix64 (G. Steele, D. Lea, C. Flood, "Fast splittable pseudorandom
  * number generators", OOPSLA 2014): deterministic test inputs. */

@@ -6,7 +6,7 @@
  * well-formed UTF-8 byte sequences (chapter 3, table 3-7) for what counts as
  * valid input; an ill-formed byte is replaced by U+FFFD, the replacement
  * character.  Each case compares the bytes written with the text expected. */
-#include "jsonw.h"
+#include "report/jsonw.h"
 
 #include "../cu_run.h"
 #include <math.h>

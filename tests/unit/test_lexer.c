@@ -3,7 +3,7 @@
 #include <math.h>
 #include <string.h>
 
-#include "lexer.h"
+#include "lang/lexer.h"
 
 typedef struct fixture {
     ls_arena a;

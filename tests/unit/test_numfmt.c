@@ -7,8 +7,8 @@
  * round-trip property).  The layout follows the JSON number grammar of
  * RFC 8259, section 6.  The digits are also compared with Python's repr, which
  * prints the same shortest text, in tests/tol/test_json_all.py. */
-#include "fmt.h"
-#include "numfmt.h"
+#include "base/fmt.h"
+#include "base/numfmt.h"
 
 #include "../cu_run.h"
 #include <float.h>

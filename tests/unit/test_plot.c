@@ -3,7 +3,7 @@
  * IHDR chunk (PNG specification, ISO/IEC 15948: signature, then IHDR with
  * big-endian width and height at bytes 16..23), bin counts by numpy's
  * histogram_bin_edges(..., 'fd') — both from Debian's /usr/bin/python3. */
-#include "plot.h"
+#include "report/plot.h"
 
 #include "../cu_run.h"
 #include <dirent.h>

@@ -1,6 +1,6 @@
 /* test_rng.c — pcg32 against its published output, and the deviates' moments
  * against their closed forms. */
-#include "rng.h"
+#include "base/rng.h"
 
 #include "../cu_run.h"
 #include <math.h>

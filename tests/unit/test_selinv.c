@@ -5,9 +5,9 @@
  * diagonal (so KLU must pivot), and controlled-source entries off the
  * symmetric pattern. */
 #include "../cu_run.h"
-#include "mna.h"
-#include "rng.h"
-#include "selinv.h"
+#include "mna/mna.h"
+#include "base/rng.h"
+#include "solve/selinv.h"
 
 #include <lapacke.h>
 #include <math.h>

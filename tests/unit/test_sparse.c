@@ -1,7 +1,7 @@
 /* test_sparse.c — the KLU, UMFPACK and CHOLMOD backends against closed forms
  * and against LAPACK (an outside reference), and ls_sparse_pick's choices. */
-#include "solver.h"
-#include "sparse.h"
+#include "solve/solver.h"
+#include "solve/sparse.h"
 
 #include "../cu_run.h"
 #include <lapacke.h>

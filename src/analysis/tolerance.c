@@ -1,0 +1,554 @@
+/* tolerance.c — the tolerance study of one quantity from the parts' tol=
+ * options, shared by the `tol` command and the C API (ls_circuit_tol).
+ *
+ * Every part with a main value and tol > 0 varies (sources too).  The worst
+ * case enumerates every corner (each part at its -tol or +tol end) when at most
+ * LS_TOL_CORNER_LIMIT parts vary, re-solving with the factorization structure
+ * kept; beyond that it takes the linear worst case from the sensitivities (and
+ * their root-sum-square).  The Monte Carlo run draws trial i from stream i of
+ * PCG32 (rng.h) seeded from the run's seed and i, so a seed gives the same
+ * numbers on every machine and with any number of threads; each thread owns
+ * a copy of the parts and its own operating point. */
+#include "analysis/tolerance.h"
+
+#include <math.h>
+#include <pthread.h>
+#include <stdatomic.h>
+#include <time.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "parts/parts.h"
+#include "base/rng.h"
+#include "analysis/sens.h"
+
+const double ls_tol_pct_levels[5] = {0.1, 1, 50, 99, 99.9};
+const char *const ls_tol_pct_keys[5] = {"0.1", "1", "50", "99", "99.9"};
+
+/* ---- which expects are "on QUANTITY" ----------------------------------------------------- */
+
+bool ls_q_same(const ls_q *a, const ls_q *b)
+{
+    if (a->kind != b->kind)
+        return false;
+    switch (a->kind) {
+    case Q_CONST: return a->value == b->value;
+    case Q_NODE: return a->index == b->index;
+    case Q_PROP: return a->index == b->index && a->prop == b->prop;
+    case Q_NEG: return ls_q_same(a->a, b->a);
+    case Q_BIN: return a->op == b->op && ls_q_same(a->a, b->a) && ls_q_same(a->b, b->b);
+    case Q_CALL:
+        if (a->op != b->op || a->nargs != b->nargs)
+            return false;
+        for (int i = 0; i < a->nargs; i++)
+            if (!ls_q_same(a->args[i], b->args[i]))
+                return false;
+        return true;
+    }
+    return false;
+}
+
+/* Indices of the expects whose left side is q, into *out (caller frees).
+ * Returns the count, -1 on no memory. */
+static int matching_checks(const ls_netlist *nl, const ls_q *q, int **out)
+{
+    *out = malloc((size_t)(nl->nchecks ? nl->nchecks : 1) * sizeof **out);
+    if (!*out)
+        return -1;
+    int n = 0;
+    for (int i = 0; i < nl->nchecks; i++)
+        if (!nl->checks[i].is_rule && nl->checks[i].lhs && ls_q_same(nl->checks[i].lhs, q))
+            (*out)[n++] = i;
+    return n;
+}
+
+/* ---- Monte Carlo workers ----------------------------------------------------------------- */
+
+typedef struct mc_job {
+    const ls_netlist *base;        /* the session's netlist, only read */
+    ls_options opt;
+    const ls_q *q;
+    const ls_tol_vary *v;
+    int nv;
+    const int *checks;             /* matching expects */
+    int nchecks;
+    long trials;
+    uint64_t seed;
+    bool normal;                   /* tol is 3 sigma of a normal law; else uniform +-tol */
+    double *value;                 /* per trial, NaN when it did not solve */
+    unsigned char *pass;           /* per trial: every matching expect holds */
+    void (*progress)(void *ctx, long done, long total);   /* or NULL */
+    void *progress_ctx;
+    atomic_long done;              /* trials finished, for the progress hook */
+} mc_job;
+
+typedef struct mc_worker {
+    mc_job *job;
+    long first, last;              /* trials [first, last) */
+    int status;                    /* 0 ok, -1 could not set up */
+    atomic_bool finished;          /* the worker has returned */
+} mc_worker;
+
+/* Draw the part values of trial i into parts[] (a function of (seed, i) alone). */
+static void draw_trial(const mc_job *job, ls_part *parts, long i)
+{
+    ls_rng r;
+    ls_rng_seed_trial(&r, job->seed, (uint64_t)i);
+    for (int j = 0; j < job->nv; j++) {
+        double d = job->normal ? ls_rng_normal(&r) * job->v[j].tol / 3 : ls_rng_uniform_pm1(&r) * job->v[j].tol;
+        parts[job->v[j].part].value = job->v[j].nominal * (1 + d);
+    }
+}
+
+/* Point the copied parts at analysis states of their own (a copy shares the
+ * base netlist's): *runs gets one for every part that has one, in part
+ * order.  Returns their number, or -1 when out of memory. */
+static int own_runs(ls_part *parts, int n, ls_part_run **runs)
+{
+    int k = 0;
+    for (int i = 0; i < n; i++)
+        k += parts[i].run != NULL;
+    *runs = malloc((size_t)(k ? k : 1) * sizeof **runs);
+    if (!*runs)
+        return -1;
+    k = 0;
+    for (int i = 0; i < n; i++)
+        if (parts[i].run) {
+            (*runs)[k] = *parts[i].run;
+            parts[i].run = &(*runs)[k++];
+        }
+    return k;
+}
+
+/* Thread body: a private netlist (its own parts, their analysis states and
+ * diagnostics) and operating point; fills job->value and job->pass for its
+ * trials. */
+static void *mc_run(void *arg)
+{
+    mc_worker *w = arg;
+    mc_job *job = w->job;
+    ls_arena arena;
+    ls_diags diags;
+    ls_arena_init(&arena);
+    ls_diags_init(&diags, &arena);
+    ls_netlist nl = *job->base;
+    nl.diags = &diags;
+    nl.parts = malloc((size_t)(nl.nparts ? nl.nparts : 1) * sizeof *nl.parts);
+    size_t psize = (size_t)(nl.nparts ? nl.nparts : 1) * sizeof *nl.parts;
+    ls_part *nominal = malloc(psize);
+    double *x0 = NULL;
+    ls_part_run *runs = NULL, *nominal_runs = NULL;
+    int nruns = -1;
+    ls_op op;
+    bool have_op = false;
+    w->status = -1;
+    if (nl.parts && nominal) {
+        if (nl.nparts > 0) /* a circuit with no parts has no part table (memcpy from NULL is undefined) */
+            memcpy(nl.parts, job->base->parts, (size_t)nl.nparts * sizeof *nl.parts);
+        nruns = own_runs(nl.parts, nl.nparts, &runs);
+        nominal_runs = malloc((size_t)(nruns > 0 ? nruns : 1) * sizeof *nominal_runs);
+    }
+    if (nruns >= 0 && nominal_runs) {
+        have_op = true;
+        if (ls_op_solve(&op, &nl, &job->opt) == LS_EXIT_OK) {
+            /* Every trial starts from the nominal solution and part states, so a
+             * trial's result does not depend on the trial solved before it. */
+            memcpy(nominal, nl.parts, psize);
+            memcpy(nominal_runs, runs, (size_t)nruns * sizeof *runs);
+            x0 = malloc((size_t)(op.mna.n ? op.mna.n : 1) * sizeof *x0);
+            if (x0) {
+                if (op.mna.n > 0)
+                    memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
+                w->status = 0;
+            }
+        }
+    }
+    for (long i = w->first; w->status == 0 && i < w->last; i++) {
+        memcpy(nl.parts, nominal, psize);
+        memcpy(runs, nominal_runs, (size_t)nruns * sizeof *runs);
+        if (op.mna.n > 0)
+            memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
+        draw_trial(job, nl.parts, i);
+        if (ls_op_resolve(&op) != LS_EXIT_OK) {
+            job->value[i] = NAN;
+            job->pass[i] = 0;
+            continue;
+        }
+        job->value[i] = ls_q_eval(&op, job->q);
+        bool ok = true;
+        for (int c = 0; c < job->nchecks && ok; c++) {
+            ls_check_result r;
+            ls_check_eval(&op, &nl.checks[job->checks[c]], &r);
+            ok = r.pass;
+        }
+        job->pass[i] = ok;
+        atomic_fetch_add_explicit(&job->done, 1, memory_order_relaxed);
+    }
+    if (have_op)
+        ls_op_free(&op);
+    free(x0);
+    free(nominal);
+    free(nominal_runs);
+    free(runs);
+    free(nl.parts);
+    ls_diags_free(&diags);
+    ls_arena_free(&arena);
+    atomic_store(&w->finished, true);
+    return NULL;
+}
+
+/* Number of threads: LOADSTACK_THREADS if set (1..LS_TOL_MAX_THREADS), else the
+ * online processors, at most LS_TOL_MAX_THREADS and never more than trials / 64 + 1. */
+static int thread_count(long trials)
+{
+    long n = sysconf(_SC_NPROCESSORS_ONLN);
+    const char *env = getenv("LOADSTACK_THREADS");
+    if (env && *env) {
+        char *end;
+        long e = strtol(env, &end, 10);
+        if (*end == 0 && e >= 1)
+            n = e;
+    }
+    if (n < 1)
+        n = 1;
+    if (n > LS_TOL_MAX_THREADS)
+        n = LS_TOL_MAX_THREADS;
+    if (n > trials / 64 + 1)
+        n = trials / 64 + 1;
+    return (int)n;
+}
+
+/* Run every trial on `nthreads` threads (the caller's thread takes the first
+ * share; with a progress hook it starts that share on a thread too and calls
+ * the hook every 50 ms while all of them run).  Returns 0, or -1 when a worker
+ * could not set up. */
+static int mc_all(mc_job *job, int nthreads)
+{
+    mc_worker w[LS_TOL_MAX_THREADS];
+    pthread_t tid[LS_TOL_MAX_THREADS];
+    bool started[LS_TOL_MAX_THREADS] = {false};
+    for (int t = 0; t < nthreads; t++) {
+        w[t].job = job;
+        w[t].first = job->trials * t / nthreads;
+        w[t].last = job->trials * (t + 1) / nthreads;
+        w[t].status = -1;
+        atomic_init(&w[t].finished, false);
+    }
+    atomic_init(&job->done, 0);
+    for (int t = job->progress ? 0 : 1; t < nthreads; t++)
+        started[t] = pthread_create(&tid[t], NULL, mc_run, &w[t]) == 0;
+    if (job->progress && started[0]) {
+        const struct timespec tick = {0, 50 * 1000 * 1000}; /* 50 ms */
+        bool all;
+        do {
+            nanosleep(&tick, NULL);
+            job->progress(job->progress_ctx, atomic_load(&job->done), job->trials);
+            all = true;
+            for (int t = 0; t < nthreads; t++)
+                all = all && (!started[t] || atomic_load(&w[t].finished));
+        } while (!all);
+    }
+    for (int t = 0; t < nthreads; t++) {
+        if (started[t])
+            pthread_join(tid[t], NULL);
+        else
+            mc_run(&w[t]); /* no thread (or no progress hook): do its share here */
+    }
+    for (int t = 0; t < nthreads; t++)
+        if (w[t].status != 0)
+            return -1;
+    return 0;
+}
+
+/* ---- statistics ---------------------------------------------------------------------------- */
+
+/* qsort order of doubles, ascending. */
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return x < y ? -1 : x > y;
+}
+
+/* Percentile p (0..100) of sorted s[0..n-1], linear between order statistics
+ * at rank (n - 1)·p/100 (numpy's default "linear" method). */
+static double percentile(const double *s, long n, double p)
+{
+    double pos = (double)(n - 1) * p / 100;
+    long k = (long)floor(pos);
+    if (k >= n - 1)
+        return s[n - 1];
+    double f = pos - (double)k;
+    return s[k] + f * (s[k + 1] - s[k]);
+}
+
+/* Mean, sample standard deviation (n - 1), extremes and percentiles of the
+ * finite values; yield over every trial.  Returns 0, -1 on no memory. */
+static int mc_stats(const mc_job *job, bool want_yield, ls_tol_result *r)
+{
+    double *s = malloc((size_t)job->trials * sizeof *s);
+    if (!s)
+        return -1;
+    long n = 0, pass = 0;
+    for (long i = 0; i < job->trials; i++) {
+        if (isfinite(job->value[i]))
+            s[n++] = job->value[i];
+        pass += job->pass[i];
+    }
+    r->finite = n;
+    r->yield = want_yield ? (double)pass / (double)job->trials : NAN;
+    r->mean = r->std = r->min = r->max = NAN;
+    for (int k = 0; k < 5; k++)
+        r->pct[k] = NAN;
+    if (n > 0) {
+        double sum = 0;
+        for (long i = 0; i < n; i++)
+            sum += s[i];
+        r->mean = sum / (double)n;
+        double ss = 0;
+        for (long i = 0; i < n; i++)
+            ss += (s[i] - r->mean) * (s[i] - r->mean);
+        r->std = n > 1 ? sqrt(ss / (double)(n - 1)) : 0;
+        qsort(s, (size_t)n, sizeof *s, cmp_double);
+        r->min = s[0];
+        r->max = s[n - 1];
+        for (int k = 0; k < 5; k++)
+            r->pct[k] = percentile(s, n, ls_tol_pct_levels[k]);
+    }
+    free(s);
+    return 0;
+}
+
+/* ---- worst case ---------------------------------------------------------------------------- */
+
+/* Set the varying parts to the corner `mask` (bit j: part j at +tol). */
+static void set_corner(ls_netlist *nl, const ls_tol_vary *v, int nv, unsigned long mask)
+{
+    for (int j = 0; j < nv; j++)
+        nl->parts[v[j].part].value = v[j].nominal * (1 + ((mask >> j) & 1 ? v[j].tol : -v[j].tol));
+}
+
+/* Every corner, re-solved; the nominal value is included.  The parts are back
+ * at nominal (and solved) on return.  Returns 0, or an exit code. */
+static int corners(ls_tol_study *t)
+{
+    ls_tol_result *r = &t->r;
+    const ls_tol_vary *v = t->v;
+    int nv = t->nv;
+    r->corners = true;
+    r->wc_min = r->wc_max = r->nominal;
+    r->wc_min_mask = r->wc_max_mask = 0;
+    bool any = false;
+    ls_diags scratch;
+    ls_diags_init(&scratch, t->arena);
+    ls_diags *keep = t->nl->diags;
+    t->nl->diags = &scratch;   /* a singular corner is counted, not reported as an error */
+    for (unsigned long m = 0; m < (1ul << nv); m++) {
+        set_corner(t->nl, v, nv, m);
+        double x = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        if (isnan(x)) {
+            r->wc_failed++;
+            continue;
+        }
+        if (!any || x < r->wc_min)
+            r->wc_min = x, r->wc_min_mask = m;
+        if (!any || x > r->wc_max)
+            r->wc_max = x, r->wc_max_mask = m;
+        any = true;
+    }
+    for (int j = 0; j < nv; j++)
+        t->nl->parts[v[j].part].value = v[j].nominal;
+    int st = ls_op_resolve(t->op);
+    t->nl->diags = keep;
+    ls_diags_free(&scratch);
+    if (r->nominal < r->wc_min)
+        r->wc_min = r->nominal;
+    if (r->nominal > r->wc_max)
+        r->wc_max = r->nominal;
+    if (r->wc_failed) {
+        ls_warning(t->diags, LS_NOLOC, "tol-corner",
+                   "%ld of %lu corners could not be solved (or the quantity is undefined there); the worst case "
+                   "is unknown",
+                   r->wc_failed, 1ul << nv);
+        r->wc_min = r->wc_max = NAN;
+    }
+    return st == LS_EXIT_OK ? 0 : LS_EXIT_UNSOLVABLE;
+}
+
+/* dQ/dp of each varying part by central differences (when the adjoint
+ * cannot handle the quantity).  Returns 0, or an exit code. */
+static int fd_derivatives(ls_tol_study *t, double *dq)
+{
+    ls_part *parts = t->nl->parts;
+    for (int j = 0; j < t->nv; j++) {
+        ls_part *pt = &parts[t->v[j].part];
+        double p = t->v[j].nominal, h = fabs(p) * 1e-6;
+        pt->value = p + h;
+        double a = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        pt->value = p - h;
+        double b = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        pt->value = p;
+        dq[j] = (a - b) / (2 * h);
+    }
+    return ls_op_resolve(t->op) == LS_EXIT_OK ? 0 : LS_EXIT_UNSOLVABLE;
+}
+
+/* Linear worst case nominal ± Σ|dQ/dp|·|p|·tol, and the RSS half-width. */
+static int linear_wc(ls_tol_study *t)
+{
+    ls_tol_result *r = &t->r;
+    ls_tol_vary *v = t->v;
+    int nv = t->nv;
+    r->corners = false;
+    double *dq = calloc((size_t)(nv ? nv : 1), sizeof *dq);
+    if (!dq)
+        return LS_TOL_NOMEM;
+    ls_diags scratch;
+    ls_diags_init(&scratch, t->arena);
+    ls_diags *keep = t->nl->diags;
+    t->nl->diags = &scratch;   /* an unsupported leaf falls back to differences, silently */
+    ls_sens_item *items = NULL;
+    double value;
+    int n = ls_sens(t->op, t->q, &value, &items);
+    t->nl->diags = keep;
+    ls_diags_free(&scratch);
+    int st = 0;
+    if (n >= 0) {
+        for (int j = 0; j < nv; j++)
+            for (int i = 0; i < n; i++)
+                if (items[i].part == v[j].part)
+                    dq[j] = items[i].derivative;
+    } else {
+        st = fd_derivatives(t, dq);
+    }
+    free(items);
+    double lin = 0, ss = 0;
+    for (int j = 0; j < nv; j++) {
+        v[j].dev = fabs(dq[j] * v[j].nominal) * v[j].tol;
+        lin += v[j].dev;
+        ss += v[j].dev * v[j].dev;
+    }
+    free(dq);
+    r->wc_min = r->nominal - lin;
+    r->wc_max = r->nominal + lin;
+    r->rss = sqrt(ss);
+    return st;
+}
+
+/* ---- the study ----------------------------------------------------------------------------- */
+
+/* The varying parts, into *out (caller frees).  Returns the count, -1 on no memory. */
+static int varying_parts(const ls_netlist *nl, ls_tol_vary **out)
+{
+    *out = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof **out);
+    if (!*out)
+        return -1;
+    int n = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        double t = ls_part_opt(p, "tol", 0);
+        if (p->has_value && t > 0)
+            (*out)[n++] = (ls_tol_vary){.part = i, .nominal = p->value, .tol = t};
+    }
+    return n;
+}
+
+/* With no part varying every trial would give the nominal value: the
+ * Monte Carlo run is not made (trials becomes 0) and its statistics are that
+ * value exactly; the yield is whether the nominal design meets every expect on Q. */
+static void nothing_varies(ls_tol_study *t)
+{
+    ls_tol_result *r = &t->r;
+    t->trials = 0;
+    r->finite = 0;
+    r->mean = r->min = r->max = r->nominal;
+    r->std = 0;
+    for (int k = 0; k < 5; k++)
+        r->pct[k] = r->nominal;
+    bool ok = true;
+    for (int c = 0; c < t->nchecks && ok; c++) {
+        ls_check_result cr;
+        ls_check_eval(t->op, &t->nl->checks[t->checks[c]], &cr);
+        ok = cr.pass;
+    }
+    r->yield = t->nchecks > 0 ? (ok ? 1.0 : 0.0) : NAN;
+}
+
+int ls_tol_run(ls_tol_study *t)
+{
+    t->v = NULL;
+    t->checks = NULL;
+    t->values = NULL;
+    memset(&t->r, 0, sizeof t->r);
+    t->nv = varying_parts(t->nl, &t->v);
+    t->nchecks = matching_checks(t->nl, t->q, &t->checks);
+    if (t->nv < 0 || t->nchecks < 0)
+        return LS_TOL_NOMEM;
+    t->r.nominal = ls_q_eval(t->op, t->q);
+    if (t->nv == 0)
+        ls_warning(t->diags, LS_NOLOC, "tol-none", "no part has a tol= option: nothing varies");
+    int code = t->nv <= LS_TOL_CORNER_LIMIT ? corners(t) : linear_wc(t);
+    if (code)
+        return code;
+    if (t->nv == 0) {
+        nothing_varies(t);
+        return 0;
+    }
+    mc_job job = {.base = t->nl, .opt = t->op->opt, .q = t->q, .v = t->v, .nv = t->nv, .checks = t->checks,
+                  .nchecks = t->nchecks, .trials = t->trials, .seed = t->seed, .normal = t->normal,
+                  .progress = t->progress, .progress_ctx = t->progress_ctx};
+    job.value = malloc((size_t)t->trials * sizeof *job.value);
+    job.pass = malloc((size_t)t->trials);
+    if (!job.value || !job.pass) {
+        free(job.value);
+        free(job.pass);
+        return LS_TOL_NOMEM;
+    }
+    int threads = t->threads > 0 ? t->threads : thread_count(t->trials);
+    if (threads > LS_TOL_MAX_THREADS)
+        threads = LS_TOL_MAX_THREADS;
+    code = mc_all(&job, threads) == 0 ? 0 : LS_TOL_SETUP;
+    if (code == 0 && mc_stats(&job, t->nchecks > 0, &t->r) != 0)
+        code = LS_TOL_NOMEM;
+    free(job.pass);
+    t->values = job.value;
+    if (code != 0)
+        return code;
+    if (t->r.finite < t->trials)
+        ls_warning(t->diags, LS_NOLOC, "tol-trials",
+                   "%ld of %ld trials did not solve or gave no finite value; the statistics leave them out",
+                   t->trials - t->r.finite, t->trials);
+    return 0;
+}
+
+void ls_tol_free(ls_tol_study *t)
+{
+    free(t->v);
+    free(t->checks);
+    free(t->values);
+    t->v = NULL;
+    t->checks = NULL;
+    t->values = NULL;
+}
+
+int ls_tol_trials(const ls_netlist *nl, const ls_op *op, const ls_q *q, long trials, uint64_t seed, double **values)
+{
+    ls_tol_vary *v;
+    int nv = varying_parts(nl, &v);
+    *values = NULL;
+    if (nv < 0)
+        return -1;
+    mc_job job = {.base = nl, .opt = op->opt, .q = q, .v = v, .nv = nv, .trials = trials, .seed = seed};
+    job.value = malloc((size_t)trials * sizeof *job.value);
+    job.pass = malloc((size_t)trials);
+    int rc = job.value && job.pass ? mc_all(&job, thread_count(trials)) : -1;
+    free(job.pass);
+    free(v);
+    if (rc != 0) {
+        free(job.value);
+        return -1;
+    }
+    *values = job.value;
+    return 0;
+}

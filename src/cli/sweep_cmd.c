@@ -1,0 +1,490 @@
+/* sweep_cmd.c — the sweep command: a top-level let stepped from FROM to TO,
+ * the quantities tabulated at every point (text, CSV, JSON) and drawn.
+ *
+ * Each point re-elaborates the circuit with `--set LET=value` added, so a
+ * let may change anything it feeds (values, options, even which parts a
+ * block builds).  Points are solved in order, FROM first, each continuing from
+ * the previous point's solution when the structure is unchanged; a point that
+ * does not solve is reported as null and the sweep goes on. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli/cli.h"
+#include "analysis/sweep.h"
+#include "analysis/tolerance.h"
+#include "netlist/elab.h"
+#include "base/fmt.h"
+#include "lang/parser.h"
+#include "report/plot.h"
+#include "cli/progress.h"
+
+#define MAX_QUANTITIES (LS_MAX_POS - 4)
+
+typedef struct sweep {
+    ls_cli *cli;
+    const char *param;
+    const char *qtext[MAX_QUANTITIES];
+    int nq;
+    int steps;
+    double *x;                 /* steps param values */
+    double *y;                 /* steps × nq, row-major; NaN: not solved / undefined */
+    bool *solved;
+    ls_dims xdims, qdims[MAX_QUANTITIES];
+    /* the limits of the expects on each quantity, at every point (a limit
+     * may depend on the swept let) */
+    struct limit {
+        int k, check, side;    /* quantity, index of the expect, 0 lower / 1 upper */
+        double *y;             /* steps values; NaN where not solved */
+        char text[160];
+    } lim[LS_PLOT_MAX_MARKS];
+    int nlim;
+    /* the last point solved, kept so the next continues from its solution */
+    ls_session *base;
+} sweep;
+
+/* A copy of cli whose --set list drops PARAM and ends with PARAM=value
+ * (text kept in buf).  Returns false when there is no room. */
+static bool point_cli(const ls_cli *cli, const char *param, double value, char *buf, size_t n, ls_cli *out)
+{
+    *out = *cli;
+    out->nsets = 0;
+    size_t pl = strlen(param);
+    for (int i = 0; i < cli->nsets; i++)
+        if (!(strncmp(cli->sets[i], param, pl) == 0 && cli->sets[i][pl] == '='))
+            out->sets[out->nsets++] = cli->sets[i];
+    if (out->nsets == LS_MAX_SETS)
+        return false;
+    snprintf(buf, n, "%s=%s", param, LS_NUM(value));
+    out->sets[out->nsets++] = buf;
+    return true;
+}
+
+/* Make a limit curve for each finite limit of every expect on quantity k
+ * (from the first point solved). */
+static void collect_limits(sweep *w, ls_session *s, const ls_q *q, int k)
+{
+    for (int c = 0; c < s->nl.nchecks && w->nlim + 2 <= LS_PLOT_MAX_MARKS; c++) {
+        const ls_check *ck = &s->nl.checks[c];
+        if (ck->is_rule || !ck->lhs || !ls_q_same(ck->lhs, q))
+            continue;
+        ls_check_result r;
+        ls_check_eval(&s->op, ck, &r);
+        for (int side = 0; side < 2; side++) {
+            if (!isfinite(side ? r.hi : r.lo))
+                continue;
+            struct limit *l = &w->lim[w->nlim];
+            l->y = malloc((size_t)w->steps * sizeof *l->y);
+            if (!l->y)
+                return;
+            for (int i = 0; i < w->steps; i++)
+                l->y[i] = NAN;
+            l->k = k;
+            l->check = c;
+            l->side = side;
+            bool two = isfinite(r.lo) && isfinite(r.hi);
+            snprintf(l->text, sizeof l->text, "%s%s", ck->text, !two ? "" : side ? " (upper)" : " (lower)");
+            w->nlim++;
+        }
+    }
+}
+
+/* The limits at point i, from the expects of the circuit as elaborated for
+ * that point (nl) and its solution (op). */
+static void record_limits(sweep *w, int i, ls_op *op, const ls_netlist *nl)
+{
+    for (int j = 0; j < w->nlim; j++) {
+        struct limit *l = &w->lim[j];
+        if (l->check >= nl->nchecks)
+            continue;
+        ls_check_result r;
+        ls_check_eval(op, &nl->checks[l->check], &r);
+        l->y[i] = l->side ? r.hi : r.lo;
+    }
+}
+
+/* Units written on a FROM or TO argument ("3.3V", "-1 mA"); unitless when
+ * none (or the text is an expression). */
+static ls_dims arg_dims(const char *text)
+{
+    ls_arena a;
+    ls_diags d;
+    ls_arena_init(&a);
+    ls_diags_init(&d, &a);
+    const ls_expr *e = ls_parse_expr_string(&d, "argument", text, false);
+    if (e && e->kind == E_NEG)
+        e = e->a;
+    ls_dims dims = e && e->kind == E_NUM ? e->dims : LS_FREE;
+    ls_diags_free(&d);
+    ls_arena_free(&a);
+    return dims;
+}
+
+/* FROM and TO must carry the param's unit, or none.  Adopts their unit when
+ * the param is a plain number.  Returns 0, or LS_EXIT_USAGE after an error. */
+static int check_arg_units(sweep *w, ls_diags *d)
+{
+    for (int i = 2; i <= 3; i++) {
+        ls_dims ad = arg_dims(w->cli->pos[i]);
+        if (!ad.known)
+            continue;
+        if (!w->xdims.known) {
+            w->xdims = ad;
+        } else if (!ls_dims_eq(ad, w->xdims)) {
+            char b1[64], b2[64];
+            ls_error(d, LS_NOLOC, "sweep: %s '%s' is %s, but let '%s' is %s", i == 2 ? "FROM" : "TO",
+                     w->cli->pos[i], ls_dims_name(ad, b1, sizeof b1), w->param, ls_dims_name(w->xdims, b2, sizeof b2));
+            return LS_EXIT_USAGE;
+        }
+    }
+    return 0;
+}
+
+/* Load the circuit as given (the user's --set list) and bind the quantities:
+ * LET must be a top-level let.  Records the units; prints the
+ * diagnostics (so warnings appear once).  Returns an exit code. */
+static int probe(sweep *w)
+{
+    ls_session s;
+    int code = ls_session_load(&s, w->cli, w->cli->pos[0], NULL);
+    if (code == LS_EXIT_OK) {
+        int e = ls_hash_get(&s.nl.names, w->param);
+        if (e < 0 || s.nl.ents[e].kind != ENT_PARAM) {
+            ls_error(&s.diags, LS_NOLOC, "sweep: the circuit has no top-level let '%s' (declare it with 'let %s = ...')",
+                     w->param, w->param);
+            code = LS_EXIT_USAGE;
+        } else {
+            w->xdims = s.nl.params[s.nl.ents[e].index].dims;
+            code = check_arg_units(w, &s.diags);
+        }
+    }
+    for (int k = 0; k < w->nq && code == LS_EXIT_OK; k++) {
+        const ls_q *q = ls_session_quantity(&s, w->qtext[k]);
+        if (q)
+            w->qdims[k] = q->dims;
+        else
+            code = LS_EXIT_USAGE;
+    }
+    ls_diags_print(&s.diags, stderr);
+    ls_session_free(&s);
+    return code;
+}
+
+/* Do two elaborations of the circuit have the same parts on the same nodes
+ * with the same options given (so one's values can be stamped into the
+ * other's system)? */
+static bool same_structure(const ls_netlist *a, const ls_netlist *b)
+{
+    if (a->nparts != b->nparts || a->nnodes != b->nnodes)
+        return false;
+    for (int i = 0; i < a->nparts; i++) {
+        const ls_part *p = &a->parts[i], *q = &b->parts[i];
+        if (p->kind != q->kind || p->ref != q->ref || p->has_value != q->has_value || strcmp(p->name, q->name) != 0 ||
+            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || p->has_opt != q->has_opt)
+            return false;
+    }
+    return true;
+}
+
+/* Copy the values (main value, options, ranges) of src's parts into dst's,
+ * keeping dst's analysis state: the linearization points the last solution
+ * left, from which the next solve continues. */
+static void copy_values(ls_netlist *dst, const ls_netlist *src)
+{
+    for (int i = 0; i < dst->nparts; i++) {
+        ls_part *p = &dst->parts[i];
+        const ls_part *q = &src->parts[i];
+        p->value = q->value;
+        /* Same structure: the same options given, so both or neither have the
+         * side arrays (a range only where a range option was given). */
+        if (p->opt && q->opt)
+            memcpy(p->opt, q->opt, LS_MAX_OPTS * sizeof *p->opt);
+        if (p->range && q->range)
+            memcpy(p->range, q->range, LS_MAX_RANGES * sizeof *p->range);
+    }
+}
+
+/* Record point i's values from the solved op with the quantities q and the
+ * expects of nl, both bound in the circuit as elaborated for this point (so
+ * a let they use has this point's value). */
+static void record(sweep *w, int i, ls_session *s, const ls_q *const *q, const ls_netlist *nl)
+{
+    bool first = true;
+    for (int j = 0; j < i; j++)
+        first &= !w->solved[j];
+    w->solved[i] = true;
+    for (int k = 0; k < w->nq; k++) {
+        w->y[(size_t)i * (size_t)w->nq + (size_t)k] = ls_q_eval(&s->op, q[k]);
+        if (first)
+            collect_limits(w, s, q[k], k);
+    }
+    record_limits(w, i, &s->op, nl);
+}
+
+/* Solve point i: the circuit is re-elaborated with PARAM at x[i]; when its
+ * structure matches the last solved point's, the new values are stamped into
+ * that system and re-solved from its solution (continuation: a nonlinear
+ * circuit starts from the previous point's operating point); otherwise, or if
+ * that fails, it is solved afresh.  A point that fails is left null with a
+ * one-line warning. */
+static void solve_point(sweep *w, int i)
+{
+    char buf[256];
+    ls_cli pc;
+    ls_session *s = malloc(sizeof *s);
+    if (!s || !point_cli(w->cli, w->param, w->x[i], buf, sizeof buf, &pc)) {
+        fprintf(stderr, "loadstack: warning: %s = %.6g is left out (%s)\n", w->param, w->x[i],
+                s ? "too many --set options" : "out of memory");
+        free(s);
+        return;
+    }
+    int code = ls_session_load(s, &pc, w->cli->pos[0], NULL);
+    const ls_q *q[MAX_QUANTITIES] = {NULL};
+    for (int k = 0; k < w->nq && code == LS_EXIT_OK; k++) {
+        q[k] = ls_session_quantity(s, w->qtext[k]);
+        if (!q[k])
+            code = LS_EXIT_USAGE;
+    }
+    if (code == LS_EXIT_OK && w->base && same_structure(&w->base->nl, &s->nl)) {
+        copy_values(&w->base->nl, &s->nl);
+        if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
+            /* this point's own bindings: a let inside a QUANTITY is a
+             * constant of the binding, and the base's hold the value of
+             * the point it was bound at (the structures match, so part
+             * and node indices agree) */
+            record(w, i, w->base, q, &s->nl);
+            ls_session_free(s);
+            free(s);
+            return;
+        }
+    }
+    if (code == LS_EXIT_OK)
+        code = ls_session_solve(s);
+    if (code == LS_EXIT_OK) {
+        record(w, i, s, q, &s->nl);
+        if (w->base) {   /* this point becomes the one the next continues from */
+            ls_session_free(w->base);
+            free(w->base);
+        }
+        w->base = s;
+        return;
+    }
+    const char *why = "";
+    for (int j = 0; j < s->diags.n && !*why; j++)
+        if (s->diags.items[j].sev == LS_SEV_ERROR)
+            why = s->diags.items[j].msg;
+    fprintf(stderr, "loadstack: warning: at %s = %.6g the circuit cannot be solved%s%s; that point is null\n", w->param,
+            w->x[i], *why ? ": " : "", why);
+    ls_session_free(s);
+    free(s);
+}
+
+/* ---- reports ------------------------------------------------------------------------------- */
+
+/* Value of quantity k at point i (NaN when not solved). */
+static double yat(const sweep *w, int i, int k) { return w->y[(size_t)i * (size_t)w->nq + (size_t)k]; }
+
+/* The sweep as one JSON object: the let, then one object per point; a
+ * quantity at a point that could not be solved is null, "unsolved". */
+static void sweep_json(const ls_report *rp, const sweep *w)
+{
+    ls_jw jw, *j = &jw;
+    ls_report_json_begin(rp, j);
+    ls_jw_str(j, "let", w->param);
+    ls_jw_arr(j, "points");
+    for (int i = 0; i < w->steps; i++) {
+        ls_jw_obj(j, NULL);
+        ls_jw_num(j, w->param, w->x[i]);
+        for (int k = 0; k < w->nq; k++) {
+            double v = yat(w, i, k);
+            ls_jw_num_why(j, w->qtext[k], v, !w->solved[i] ? LS_WHY_UNSOLVED : ls_jw_why_of(v));
+        }
+        ls_jw_end(j);
+    }
+    ls_jw_end(j);
+    ls_jw_finish(j);
+}
+
+/* The sweep as CSV: a header row, then one row per point, the param first. */
+static void sweep_csv(FILE *o, const sweep *w)
+{
+    ls_csv_field(o, w->param);
+    for (int k = 0; k < w->nq; k++) {
+        fputc(',', o);
+        ls_csv_field(o, w->qtext[k]);
+    }
+    fputc('\n', o);
+    for (int i = 0; i < w->steps; i++) {
+        ls_csv_number(o, w->x[i]);
+        for (int k = 0; k < w->nq; k++) {
+            fputc(',', o);
+            ls_csv_number(o, yat(w, i, k));
+        }
+        fputc('\n', o);
+    }
+}
+
+/* Print s right-aligned in w columns after two spaces, counting UTF-8 code
+ * points (a unit may hold multi-byte signs such as Ω). */
+static void rpad(FILE *o, const char *s, int w)
+{
+    int n = 0;
+    for (const char *c = s; *c; c++)
+        n += ((unsigned char)*c & 0xC0) != 0x80;
+    fprintf(o, "  %*s%s", w > n ? w - n : 0, "", s);
+}
+
+/* The sweep as an aligned table in engineering notation with units. */
+static void sweep_text(FILE *o, const ls_report *rp, const sweep *w)
+{
+    char b[64];
+    const char *xu = ls_unit_of(w->xdims, w->cli->ascii);
+    fprintf(o, "Sweep of %s from %s to %s, %d points%s\n\n", w->param, ls_eng(rp, b, sizeof b, w->x[0], xu),
+            ls_eng(rp, b + 32, 32, w->x[w->steps - 1], xu), w->steps, w->cli->log ? " (log spacing)" : "");
+    int width[MAX_QUANTITIES + 1];
+    width[0] = (int)strlen(w->param) > 12 ? (int)strlen(w->param) : 12;
+    fprintf(o, "  %*s", width[0], w->param);
+    for (int k = 0; k < w->nq; k++) {
+        width[k + 1] = (int)strlen(w->qtext[k]) > 12 ? (int)strlen(w->qtext[k]) : 12;
+        fprintf(o, "  %*s", width[k + 1], w->qtext[k]);
+    }
+    fputc('\n', o);
+    for (int i = 0; i < w->steps; i++) {
+        rpad(o, ls_eng(rp, b, sizeof b, w->x[i], xu), width[0]);
+        for (int k = 0; k < w->nq; k++)
+            rpad(o, w->solved[i] ? ls_eng(rp, b, sizeof b, yat(w, i, k), ls_unit_of(w->qdims[k], w->cli->ascii))
+                                 : "unsolved",
+                 width[k + 1]);
+        fputc('\n', o);
+    }
+}
+
+/* Draw the curves.  Returns 0, or LS_EXIT_USAGE after saying why. */
+static int sweep_plot(const sweep *w)
+{
+    ls_plot_series ser[LS_PLOT_MAX_SERIES + LS_PLOT_MAX_MARKS];
+    int ns = w->nq < LS_PLOT_MAX_SERIES ? w->nq : LS_PLOT_MAX_SERIES;
+    double *cols = malloc((size_t)w->steps * (size_t)(ns ? ns : 1) * sizeof *cols);
+    if (!cols)
+        return LS_EXIT_UNSOLVABLE;
+    /* each quantity in the panel of its unit; its limits beside it */
+    for (int k = 0; k < ns; k++) {
+        for (int i = 0; i < w->steps; i++)
+            cols[(size_t)k * (size_t)w->steps + (size_t)i] = yat(w, i, k);
+        ser[k] = (ls_plot_series){w->qtext[k], w->x, cols + (size_t)k * (size_t)w->steps, (size_t)w->steps,
+                                  ls_unit_of(w->qdims[k], w->cli->ascii), false};
+    }
+    int nser = ns;
+    for (int j = 0; j < w->nlim; j++)
+        if (w->lim[j].k < ns)
+            ser[nser++] = (ls_plot_series){w->lim[j].text, w->x, w->lim[j].y, (size_t)w->steps,
+                                           ls_unit_of(w->qdims[w->lim[j].k], w->cli->ascii), true};
+    char title[256];
+    snprintf(title, sizeof title, "sweep of %s", w->param);
+    ls_plot_line p = {.title = title, .xlabel = w->param, .xunit = ls_unit_of(w->xdims, w->cli->ascii),
+                      .logx = w->cli->log, .series = ser, .nseries = (size_t)nser};
+    char msg[256] = "";
+    int st = ls_plot_line_write_to(&p, &w->cli->plot_dest, msg, sizeof msg);
+    free(cols);
+    if (st != LS_PLOT_OK) {
+        fprintf(stderr, "loadstack: error: cannot draw '%s': %s\n", w->cli->plot, msg);
+        return LS_EXIT_USAGE;
+    }
+    if (w->nq > ns)
+        fprintf(stderr, "loadstack: warning: the plot shows the first %d quantities\n", ns);
+    return 0;
+}
+
+/* ---- the command --------------------------------------------------------------------------- */
+
+/* Read PARAM FROM TO QUANTITY... from the positional arguments.  Returns 0 or
+ * LS_EXIT_USAGE after saying why. */
+static int sweep_args(ls_cli *cli, sweep *w, double *from, double *to)
+{
+    w->cli = cli;
+    w->param = cli->pos[1];
+    w->steps = cli->steps >= 2 ? cli->steps : 51;
+    if (!ls_cli_number(cli->pos[2], from) || !ls_cli_number(cli->pos[3], to) || !isfinite(*from) ||
+        !isfinite(*to)) {
+        fprintf(stderr, "loadstack: error: sweep FROM and TO must be numbers, not '%s' and '%s'\n", cli->pos[2],
+                cli->pos[3]);
+        return LS_EXIT_USAGE;
+    }
+    if (cli->log && !(*from > 0 && *to > 0)) {
+        fprintf(stderr, "loadstack: error: --log needs FROM and TO greater than zero\n");
+        return LS_EXIT_USAGE;
+    }
+    w->nq = cli->npos - 4;
+    if (w->nq > MAX_QUANTITIES) {
+        fprintf(stderr, "loadstack: error: a sweep takes at most %d quantities\n", MAX_QUANTITIES);
+        return LS_EXIT_USAGE;
+    }
+    for (int k = 0; k < w->nq; k++)
+        w->qtext[k] = cli->pos[4 + k];
+    return 0;
+}
+
+/* `loadstack sweep FILE PARAM FROM TO QUANTITY...`: every point in order,
+ * then the plot and the report.  Returns the exit code. */
+int ls_cmd_sweep(ls_cli *cli)
+{
+    sweep w;
+    memset(&w, 0, sizeof w);
+    double from, to;
+    if (sweep_args(cli, &w, &from, &to))
+        return LS_EXIT_USAGE;
+    w.x = malloc((size_t)w.steps * sizeof *w.x);
+    w.y = malloc((size_t)w.steps * (size_t)w.nq * sizeof *w.y);
+    w.solved = calloc((size_t)w.steps, sizeof *w.solved);
+    int code = w.x && w.y && w.solved ? LS_EXIT_OK : LS_EXIT_UNSOLVABLE;
+    if (code != LS_EXIT_OK)
+        fprintf(stderr, "loadstack: error: out of memory for %d sweep points\n", w.steps);
+    if (code == LS_EXIT_OK)
+        ls_sweep_points(from, to, w.steps, cli->log, w.x);
+    if (code == LS_EXIT_OK)
+        code = probe(&w);
+    ls_progress pg;
+    ls_progress_start(&pg, "sweep", "points", cli->quiet);
+    for (int i = 0; code == LS_EXIT_OK && i < w.steps; i++) {
+        for (int k = 0; k < w.nq; k++)
+            w.y[(size_t)i * (size_t)w.nq + (size_t)k] = NAN;
+        solve_point(&w, i);
+        ls_progress_update(&pg, i + 1, w.steps);
+    }
+    ls_progress_end(&pg);
+    if (w.base) {
+        ls_session_free(w.base);
+        free(w.base);
+        w.base = NULL;
+    }
+    int nsolved = 0;
+    for (int i = 0; code == LS_EXIT_OK && i < w.steps; i++)
+        nsolved += w.solved[i];
+    if (code == LS_EXIT_OK && nsolved == 0) {
+        fprintf(stderr, "loadstack: error: the circuit cannot be solved at any point of the sweep\n");
+        code = LS_EXIT_UNSOLVABLE;
+    }
+    if (code == LS_EXIT_OK && cli->plot)
+        code = sweep_plot(&w);
+    if (code == LS_EXIT_OK) {
+        FILE *o = ls_out_open(cli);
+        ls_session s;   /* only for the report's meta */
+        memset(&s, 0, sizeof s);
+        s.cli = cli;
+        s.input_path = cli->pos[0];
+        ls_report rp = ls_report_for(&s, o);
+        if (cli->fmt == FMT_JSON)
+            sweep_json(&rp, &w);
+        else if (cli->fmt == FMT_CSV)
+            sweep_csv(o, &w);
+        else
+            sweep_text(o, &rp, &w);
+    }
+    code = ls_out_close(cli, code);
+    free(w.x);
+    free(w.y);
+    free(w.solved);
+    for (int j = 0; j < w.nlim; j++)
+        free(w.lim[j].y);
+    return code;
+}

@@ -1,0 +1,1155 @@
+/* parser.c — recursive descent over one statement per line.
+ * On an error the rest of the line is skipped, so one run reports many errors. */
+#include "lang/parser.h"
+
+#include <errno.h>
+#include <limits.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include "lang/lexer.h"
+#include "parts/parts.h"
+
+typedef struct inc_frame {
+    const char *real;         /* canonical path, for cycle detection */
+    const char *shown;        /* as written, for the message */
+    struct inc_frame *up;
+} inc_frame;
+
+typedef struct parser {
+    ls_diags *d;
+    ls_arena *a;              /* names and text: they outlive the tree */
+    ls_arena *sa;             /* the tree's structures (ls_program.syntax, else a) */
+    ls_lexer lx;
+    ls_token tok;             /* current */
+    ls_token ahead;           /* one token of look-ahead */
+    bool have_ahead;
+    bool in_expect;
+    int expr_depth;
+    int inc_depth;
+    inc_frame *incs;
+    const char *dir;          /* directory of this file, for includes */
+    const ls_kind *last_kind; /* the part kind of the last part statement, */
+    unsigned last_kind_len;   /* most often that of the next one too */
+} parser;
+
+typedef struct stmt_list {
+    ls_stmt **v;
+    int n, cap;
+    ls_arena *a;              /* v is in this arena (the program's list, until it outgrows it); NULL: malloc */
+} stmt_list;
+
+static void parse_lines(parser *p, stmt_list *out, ls_stmt *block);
+
+/* ---- small helpers ---------------------------------------------------- */
+
+static void advance(parser *p)
+{
+    if (p->have_ahead) {
+        p->tok = p->ahead;
+        p->have_ahead = false;
+    } else {
+        ls_lex_next(&p->lx, &p->tok);
+    }
+}
+
+static const ls_token *peek(parser *p)
+{
+    if (!p->have_ahead) {
+        ls_lex_next(&p->lx, &p->ahead);
+        p->have_ahead = true;
+    }
+    return &p->ahead;
+}
+
+static bool at_eol(const parser *p)
+{
+    return p->tok.kind == T_NEWLINE || p->tok.kind == T_EOF;
+}
+
+static void skip_line(parser *p)
+{
+    while (!at_eol(p))
+        advance(p);
+}
+
+static char *tok_str(parser *p, const ls_token *t)
+{
+    return ls_arena_strndup(p->a, t->text, t->len);
+}
+
+static bool is_word(const ls_token *t, const char *w)
+{
+    return t->kind == T_IDENT && strlen(w) == t->len && memcmp(t->text, w, t->len) == 0;
+}
+
+/* Append a statement; out of memory marks the arena failed, which the
+ * elaborator turns into an error, so a statement is never lost silently. */
+static void push(parser *p, stmt_list *l, ls_stmt *s)
+{
+    if (l->n == l->cap) {
+        int cap = l->cap ? l->cap * 2 : 16;
+        ls_stmt **v = NULL;
+        if (l->cap <= INT_MAX / 2 && l->a) { /* outgrew its arena array: go on on the heap */
+            v = malloc((size_t)cap * sizeof *v);
+            if (v && l->n)
+                memcpy(v, l->v, (size_t)l->n * sizeof *v);
+        } else if (l->cap <= INT_MAX / 2) {
+            v = realloc(l->v, (size_t)cap * sizeof *v);
+        }
+        if (!v) {
+            p->a->failed = 1;
+            return;
+        }
+        l->a = NULL;
+        l->v = v;
+        l->cap = cap;
+    }
+    l->v[l->n++] = s;
+}
+
+/* Describe the current token for "expected X, got Y" messages. */
+static const char *got(parser *p)
+{
+    if (p->tok.kind == T_IDENT || p->tok.kind == T_NUMBER)
+        return ls_arena_printf(p->a, "'%.*s'", (int)p->tok.len, p->tok.text);
+    return ls_tok_name(p->tok.kind);
+}
+
+static void expected(parser *p, const char *what)
+{
+    if (p->tok.kind != T_ERROR) /* the lexer already said what is wrong */
+        ls_error(p->d, p->tok.loc, "%s expected, got %s", what, got(p));
+}
+
+static ls_loc span(ls_loc a, ls_loc b)
+{
+    return (ls_loc){a.file, a.start, b.end > a.start ? b.end : a.end};
+}
+
+/* ---- expressions -------------------------------------------------------- */
+
+static ls_expr *parse_sum(parser *p);
+
+/* A zeroed expression of kind k, only as large as that kind needs. */
+static ls_expr *new_expr(parser *p, ls_ekind k, ls_loc loc)
+{
+    ls_expr *e = ls_arena_alloc(p->sa, ls_expr_size(k));
+    if (e) {
+        e->kind = k;
+        e->loc = loc;
+    }
+    return e;
+}
+
+static int func_id(const ls_token *t)
+{
+    static const char *const names[F_COUNT] = {"sqrt", "abs", "min", "max", "exp", "ln", "log10"};
+    for (int i = 0; i < F_COUNT; i++)
+        if (is_word(t, names[i]))
+            return i;
+    return -1;
+}
+
+static bool reserved_in_expect(const ls_token *t)
+{
+    return is_word(t, "within") || is_word(t, "between") || is_word(t, "and");
+}
+
+/* call -> FUNC '(' sum {',' sum} ')' */
+static ls_expr *parse_call(parser *p, int f)
+{
+    ls_expr *e = new_expr(p, E_CALL, p->tok.loc);
+    if (!e)
+        return NULL;
+    e->op = f;
+    advance(p); /* name */
+    advance(p); /* ( */
+    ls_expr *args[8];
+    int n = 0;
+    if (p->tok.kind != T_RPAREN) {
+        for (;;) {
+            ls_expr *x = parse_sum(p);
+            if (!x)
+                return NULL;
+            if (n == 8) {
+                ls_error(p->d, x->loc, "too many arguments (at most 8)");
+                return NULL;
+            }
+            args[n++] = x;
+            if (p->tok.kind != T_COMMA)
+                break;
+            advance(p);
+        }
+    }
+    if (p->tok.kind != T_RPAREN) {
+        expected(p, "',' or ')'");
+        return NULL;
+    }
+    e->loc = span(e->loc, p->tok.loc);
+    advance(p);
+    e->args = ls_arena_alloc(p->sa, (size_t)(n ? n : 1) * sizeof *e->args);
+    if (!e->args)
+        return NULL;
+    memcpy(e->args, args, (size_t)n * sizeof *args);
+    e->nargs = n;
+    return e;
+}
+
+/* primary -> NUMBER | NAME | FUNC '(' args ')' | '(' sum ')' */
+static ls_expr *parse_primary(parser *p)
+{
+    ls_token t = p->tok;
+    if (t.kind == T_NUMBER) {
+        ls_expr *e = new_expr(p, E_NUM, t.loc);
+        if (e) {
+            e->num = t.num;
+            e->dims = t.dims;
+        }
+        advance(p);
+        return e;
+    }
+    if (t.kind == T_IDENT) {
+        if (p->in_expect && reserved_in_expect(&t)) {
+            ls_error(p->d, t.loc, "a value expected before '%.*s'", (int)t.len, t.text);
+            return NULL;
+        }
+        int f = func_id(&t);
+        if (f >= 0 && peek(p)->kind == T_LPAREN)
+            return parse_call(p, f);
+        ls_expr *e = new_expr(p, E_NAME, t.loc);
+        if (e)
+            e->name = tok_str(p, &t);
+        advance(p);
+        return e;
+    }
+    if (t.kind == T_LPAREN) {
+        advance(p);
+        ls_expr *e = parse_sum(p);
+        if (!e)
+            return NULL;
+        if (p->tok.kind != T_RPAREN) {
+            int line, col;
+            ls_loc_linecol(p->d, t.loc.file, t.loc.start, &line, &col);
+            if (p->tok.kind != T_ERROR)
+                ls_error(p->d, p->tok.loc, "')' expected to close the '(' at column %d, got %s", col, got(p));
+            return NULL;
+        }
+        e->loc = span(t.loc, p->tok.loc);
+        advance(p);
+        return e;
+    }
+    expected(p, "a value");
+    return NULL;
+}
+
+/* Enter one more level of the expression tree: a nesting (parentheses, a
+ * sign, a call) or one more operator of a chain (1 + 2 + 3 ... is as deep as
+ * it is long, and every walker of the tree recurses on it).  Returns false,
+ * after reporting once, past LS_MAX_EXPR_DEPTH; the caller leaves the level
+ * (expr_depth--) either way. */
+static bool enter(parser *p)
+{
+    if (++p->expr_depth <= LS_MAX_EXPR_DEPTH)
+        return true;
+    if (p->expr_depth == LS_MAX_EXPR_DEPTH + 1)
+        ls_error(p->d, p->tok.loc, "expression nested more than %d deep", LS_MAX_EXPR_DEPTH);
+    return false;
+}
+
+static ls_expr *binary(parser *p, int op, ls_loc op_loc, ls_expr *a, ls_expr *b)
+{
+    ls_expr *e = new_expr(p, E_BIN, span(a->loc, b->loc));
+    if (e) {
+        e->op = op;
+        e->op_loc = op_loc;
+        e->a = a;
+        e->b = b;
+    }
+    return e;
+}
+
+static ls_expr *parse_unary(parser *p);
+
+/* power -> primary ['^' unary]     (right-associative) */
+static ls_expr *parse_power(parser *p)
+{
+    ls_expr *a = parse_primary(p);
+    if (!a || p->tok.kind != T_CARET)
+        return a;
+    ls_loc op = p->tok.loc;
+    advance(p);
+    ls_expr *b = parse_unary(p);
+    return b ? binary(p, T_CARET, op, a, b) : NULL;
+}
+
+/* unary -> ('-' | '+') unary | power */
+static ls_expr *parse_unary(parser *p)
+{
+    if (!enter(p)) {
+        p->expr_depth--;
+        return NULL;
+    }
+    ls_expr *e;
+    if (p->tok.kind == T_MINUS || p->tok.kind == T_PLUS) {
+        ls_token t = p->tok;
+        advance(p);
+        ls_expr *a = parse_unary(p);
+        if (!a) {
+            e = NULL;
+        } else if (t.kind == T_PLUS) {
+            e = a;
+        } else {
+            e = new_expr(p, E_NEG, span(t.loc, a->loc));
+            if (e)
+                e->a = a;
+        }
+    } else {
+        e = parse_power(p);
+    }
+    p->expr_depth--;
+    return e;
+}
+
+/* The left-associative binary levels, loosest first:
+ *   sum      -> parallel {('+' | '-') parallel}
+ *   parallel -> product {'||' product}
+ *   product  -> unary {('*' | '/') unary}
+ * Every chained operator counts towards the depth limit, because the
+ * evaluators recurse on the tree it builds. */
+enum { LEVEL_SUM, LEVEL_PARALLEL, LEVEL_PRODUCT, LEVEL_UNARY };
+
+static bool level_op(int level, ls_tok k)
+{
+    switch (level) {
+    case LEVEL_SUM: return k == T_PLUS || k == T_MINUS;
+    case LEVEL_PARALLEL: return k == T_PARALLEL;
+    default: return k == T_STAR || k == T_SLASH;
+    }
+}
+
+static ls_expr *parse_level(parser *p, int level)
+{
+    if (level == LEVEL_UNARY)
+        return parse_unary(p);
+    ls_expr *a = parse_level(p, level + 1);
+    int chained = 0;
+    while (a && level_op(level, p->tok.kind)) {
+        chained++;
+        if (!enter(p)) {
+            a = NULL;
+            break;
+        }
+        int op = p->tok.kind;
+        ls_loc l = p->tok.loc;
+        advance(p);
+        ls_expr *b = parse_level(p, level + 1);
+        a = b ? binary(p, op, l, a, b) : NULL;
+    }
+    p->expr_depth -= chained;
+    return a;
+}
+
+/* Whether a number is the whole operand: nothing after it binds to it. */
+static bool ends_operand(ls_tok k)
+{
+    switch (k) {
+    case T_PLUS: case T_MINUS: case T_STAR: case T_SLASH: case T_CARET: case T_PARALLEL: return false;
+    default: return true;
+    }
+}
+
+/* sum: a whole expression */
+static ls_expr *parse_sum(parser *p)
+{
+    /* A lone number at the top of an expression (most part values) is its
+     * own tree: the levels below would each pass it up unchanged, and at
+     * depth 0 none of them can reach the depth limit. */
+    if (p->expr_depth == 0 && p->tok.kind == T_NUMBER && ends_operand(peek(p)->kind))
+        return parse_primary(p);
+    if (!enter(p)) {
+        p->expr_depth--;
+        return NULL;
+    }
+    ls_expr *a = parse_level(p, LEVEL_SUM);
+    p->expr_depth--;
+    return a;
+}
+
+/* ---- statements ----------------------------------------------------------- */
+
+static ls_stmt *new_stmt(parser *p, ls_skind k)
+{
+    ls_stmt *s = ls_arena_alloc(p->sa, sizeof *s);
+    if (s) {
+        s->kind = k;
+        s->loc = p->tok.loc;
+        s->text_loc = p->tok.loc;
+    }
+    return s;
+}
+
+static bool expect_ident(parser *p, const char *what, const char **name, ls_loc *loc)
+{
+    if (p->tok.kind != T_IDENT) {
+        expected(p, what);
+        return false;
+    }
+    *name = tok_str(p, &p->tok);
+    *loc = p->tok.loc;
+    advance(p);
+    return *name != NULL;
+}
+
+/* After a statement: the line must end here. */
+static bool end_of_statement(parser *p)
+{
+    if (at_eol(p))
+        return true;
+    if (p->tok.kind != T_ERROR)
+        ls_error(p->d, p->tok.loc, "end of line expected, got %s", got(p));
+    return false;
+}
+
+static bool option_ahead(parser *p)
+{
+    return p->tok.kind == T_IDENT && peek(p)->kind == T_EQ;
+}
+
+/* options -> {NAME '=' [sum ['..' sum]]}   (empty only when allow_empty)
+ * A part's VALUE may also stand between its options (`pot p1 a=x wiper=w b=y
+ * 10k at=0.3`) when it was not given before them: with_value. */
+static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_value)
+{
+    /* A `use` connects every pin of its block (up to LS_MAX_BLOCK_PINS) and
+     * sets its params, so it may carry that many more options than a part. */
+    int max = s->kind == S_USE ? LS_MAX_USE_OPTIONS : LS_MAX_OPTIONS;
+    ls_opt buf[LS_MAX_USE_OPTIONS];
+    int n = 0;
+    while (!at_eol(p)) {
+        if (!option_ahead(p)) {
+            if (with_value && !s->value) {
+                s->value = parse_sum(p);
+                if (!s->value)
+                    return false;
+                continue;
+            }
+            expected(p, with_value && s->value ? "an option NAME=VALUE (the value is already given)"
+                                               : "an option NAME=VALUE");
+            return false;
+        }
+        if (n == max) {
+            ls_error(p->d, p->tok.loc, "too many options on one %s (at most %d)", s->kind == S_USE ? "use" : "statement",
+                     max);
+            return false;
+        }
+        ls_opt *o = &buf[n++];
+        memset(o, 0, sizeof *o);
+        o->name = tok_str(p, &p->tok);
+        o->name_loc = p->tok.loc;
+        advance(p); /* name */
+        ls_loc eq = p->tok.loc;
+        advance(p); /* = */
+        if (at_eol(p) || option_ahead(p)) {
+            if (!allow_empty) {
+                ls_error(p->d, eq, "a value expected after '%s='", o->name);
+                return false;
+            }
+            continue;
+        }
+        o->value = parse_sum(p);
+        if (!o->value)
+            return false;
+        if (p->tok.kind == T_DOTDOT) {
+            advance(p);
+            o->hi = parse_sum(p);
+            if (!o->hi)
+                return false;
+        }
+    }
+    if (n == 0)
+        return true; /* opts stays NULL */
+    s->opts = ls_arena_alloc(p->sa, (size_t)n * sizeof *s->opts);
+    if (!s->opts)
+        return false;
+    memcpy(s->opts, buf, (size_t)n * sizeof *buf);
+    s->nopts = n;
+    return true;
+}
+
+/* part -> KIND NAME [FROM '->' TO] [VALUE] {OPTION}
+ * The keyword is the part table's own string (k->name), not a copy. */
+static ls_stmt *parse_part(parser *p, const ls_kind *k)
+{
+    ls_stmt *s = new_stmt(p, S_PART);
+    if (!s)
+        return NULL;
+    s->kw = k->name;
+    advance(p);
+    if (!expect_ident(p, "a part name", &s->name, &s->name_loc))
+        return NULL;
+    if (p->tok.kind == T_IDENT && peek(p)->kind == T_ARROW) {
+        s->from = tok_str(p, &p->tok);
+        s->from_loc = p->tok.loc;
+        advance(p);
+        advance(p);
+        if (!expect_ident(p, "a node name after '->'", &s->to, &s->to_loc))
+            return NULL;
+        s->arrow = true;
+    } else if (p->tok.kind == T_IDENT && !option_ahead(p) && !at_eol(p)) {
+        /* Two names without an arrow: say how polarity is written. */
+        const ls_token *n2 = peek(p);
+        if (n2->kind == T_IDENT || n2->kind == T_NUMBER) {
+            ls_error(p->d, p->tok.loc, "'->' expected between the two nodes of '%s' (write FROM -> TO)",
+                     s->name);
+            return NULL;
+        }
+    }
+    if (!at_eol(p) && !option_ahead(p)) {
+        s->value = parse_sum(p);
+        if (!s->value)
+            return NULL;
+    }
+    if (!parse_options(p, s, false, true))
+        return NULL;
+    return s;
+}
+
+/* let -> 'let' NAME '=' sum */
+static ls_stmt *parse_let(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_PARAM);
+    advance(p);
+    if (!s || !expect_ident(p, "a name for the let", &s->name, &s->name_loc))
+        return NULL;
+    if (p->tok.kind != T_EQ) {
+        expected(p, "'=' after the let's name");
+        return NULL;
+    }
+    advance(p);
+    s->value = parse_sum(p);
+    return s->value ? s : NULL;
+}
+
+/* cmp -> '=' | '<' | '<=' | '>' | '>=' | 'between'   (into an ls_cmp) */
+static bool parse_cmp(parser *p, unsigned char *c)
+{
+    switch (p->tok.kind) {
+    case T_EQ: *c = CMP_EQ; break;
+    case T_LT: *c = CMP_LT; break;
+    case T_LE: *c = CMP_LE; break;
+    case T_GT: *c = CMP_GT; break;
+    case T_GE: *c = CMP_GE; break;
+    default:
+        if (is_word(&p->tok, "between")) {
+            *c = CMP_BETWEEN;
+            break;
+        }
+        expected(p, "a comparison ('=', '<', '<=', '>', '>=' or 'between')");
+        return false;
+    }
+    advance(p);
+    return true;
+}
+
+/* expect -> 'expect' sum cmp sum ['within' sum] | 'expect' sum 'between' sum 'and' sum */
+static ls_stmt *parse_expect(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_EXPECT);
+    if (!s)
+        return NULL;
+    advance(p);
+    p->in_expect = true;
+    s->lhs = parse_sum(p);
+    if (!s->lhs || !parse_cmp(p, &s->cmp))
+        goto fail;
+    s->rhs = parse_sum(p);
+    if (!s->rhs)
+        goto fail;
+    if (s->cmp == CMP_BETWEEN) {
+        if (!is_word(&p->tok, "and")) {
+            expected(p, "'and' (between LOW and HIGH)");
+            goto fail;
+        }
+        advance(p);
+        if (!(s->rhs2 = parse_sum(p)))
+            goto fail;
+    } else if (is_word(&p->tok, "within")) {
+        if (s->cmp != CMP_EQ) {
+            ls_error(p->d, p->tok.loc, "'within' goes only with '='");
+            goto fail;
+        }
+        advance(p);
+        if (!(s->within = parse_sum(p)))
+            goto fail;
+    } else if (s->cmp == CMP_EQ) {
+        if (at_eol(p))
+            ls_error(p->d, s->rhs->loc, "'=' needs a tolerance: add 'within 1%%' or 'within 5 mV'");
+        else
+            expected(p, "'within'");
+        goto fail;
+    }
+    p->in_expect = false;
+    return s;
+fail:
+    p->in_expect = false;
+    return NULL;
+}
+
+/* rule -> 'rule' NAME cmp sum */
+static ls_stmt *parse_rule(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_RULE);
+    if (!s)
+        return NULL;
+    advance(p);
+    if (!expect_ident(p, "a rule name (ratio or sag)", &s->name, &s->name_loc))
+        return NULL;
+    bool sag = strcmp(s->name, "sag") == 0;
+    if (!sag && strcmp(s->name, "ratio") != 0) {
+        ls_error(p->d, s->name_loc, "unknown rule '%s'; the rules loadstack knows are 'ratio' and 'sag'", s->name);
+        return NULL;
+    }
+    if (!parse_cmp(p, &s->cmp))
+        return NULL;
+    if (!sag && s->cmp != CMP_GE && s->cmp != CMP_GT) {
+        ls_error(p->d, s->loc, "a ratio rule sets a minimum: write 'rule ratio >= 10'");
+        return NULL;
+    }
+    if (sag && s->cmp != CMP_LE && s->cmp != CMP_LT) {
+        ls_error(p->d, s->loc, "a sag rule sets a budget, a maximum: write 'rule sag <= 0.2%%' or 'rule sag <= 1 mV'");
+        return NULL;
+    }
+    s->rhs = parse_sum(p);
+    return s->rhs ? s : NULL;
+}
+
+/* use -> 'use' BLOCK NAME {PIN=NODE | PARAM=VALUE} */
+static ls_stmt *parse_use(parser *p)
+{
+    ls_stmt *s = new_stmt(p, S_USE);
+    if (!s)
+        return NULL;
+    advance(p);
+    if (!expect_ident(p, "a block name", &s->kw, &s->kw_loc) ||
+        !expect_ident(p, "an instance name", &s->name, &s->name_loc))
+        return NULL;
+    return parse_options(p, s, false, false) ? s : NULL;
+}
+
+/* block -> 'block' NAME {PIN} {PARAM=[DEFAULT]} NEWLINE {statement} 'end' */
+static ls_stmt *parse_block(parser *p, stmt_list *out)
+{
+    (void)out;
+    ls_stmt *s = new_stmt(p, S_BLOCK);
+    if (!s)
+        return NULL;
+    advance(p);
+    if (!expect_ident(p, "a block name", &s->name, &s->name_loc))
+        return NULL;
+    const char *pins[LS_MAX_BLOCK_PINS];
+    ls_loc locs[LS_MAX_BLOCK_PINS];
+    int n = 0;
+    while (p->tok.kind == T_IDENT && !option_ahead(p)) {
+        if (n == LS_MAX_BLOCK_PINS) {
+            ls_error(p->d, p->tok.loc, "too many pins (at most %d)", LS_MAX_BLOCK_PINS);
+            return NULL;
+        }
+        locs[n] = p->tok.loc;
+        pins[n++] = tok_str(p, &p->tok);
+        advance(p);
+    }
+    if (n > 0) { /* no pins: both stay NULL */
+        s->pins = ls_arena_alloc(p->sa, (size_t)n * sizeof *s->pins);
+        s->pin_locs = ls_arena_alloc(p->sa, (size_t)n * sizeof *s->pin_locs);
+        if (!s->pins || !s->pin_locs)
+            return NULL;
+        memcpy(s->pins, pins, (size_t)n * sizeof *pins);
+        memcpy(s->pin_locs, locs, (size_t)n * sizeof *locs);
+        s->npins = n;
+    }
+    if (!parse_options(p, s, true, false))
+        return NULL;
+    return s;
+}
+
+static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
+static int add_source(ls_diags *d, const char *name, const char *text, size_t len);
+
+/* The part kind a name token names, or NULL.  The kind of the previous part
+ * statement is tried first: in a large circuit most lines repeat it. */
+static const ls_kind *find_kind(parser *p, const ls_token *t)
+{
+    if (p->last_kind && t->len == p->last_kind_len && memcmp(t->text, p->last_kind->name, t->len) == 0)
+        return p->last_kind;
+    const ls_kind *k = ls_kind_findn(t->text, t->len);
+    if (k) {
+        p->last_kind = k;
+        p->last_kind_len = t->len;
+    }
+    return k;
+}
+
+/* statement -> title | let | ground | include | block | use | expect | rule | part */
+static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
+{
+    ls_token kw = p->tok;
+    ls_stmt *s = NULL;
+    const ls_kind *k;
+    if (kw.kind != T_IDENT) {
+        expected(p, "a statement (a part kind or a keyword)");
+        skip_line(p);
+        return;
+    }
+    if (is_word(&kw, "title")) {
+        s = new_stmt(p, S_TITLE);
+        advance(p);
+        if (p->tok.kind != T_STRING) {
+            expected(p, "a quoted title");
+            s = NULL;
+        } else {
+            s->name = tok_str(p, &p->tok);
+            advance(p);
+        }
+        if (s && block) {
+            ls_error(p->d, kw.loc, "'title' belongs at the top level, not inside a block");
+            s = NULL;
+        }
+    } else if (is_word(&kw, "let")) {
+        s = parse_let(p);
+    } else if (is_word(&kw, "param")) {
+        /* the earlier spelling: say so, then read the statement as a let so
+         * that its name does not cause follow-on errors */
+        ls_error(p->d, kw.loc, "'param' is now spelled 'let' (let NAME = VALUE)");
+        s = parse_let(p);
+    } else if (is_word(&kw, "ground")) {
+        s = new_stmt(p, S_GROUND);
+        advance(p);
+        if (s && !expect_ident(p, "the ground node's name", &s->name, &s->name_loc))
+            s = NULL;
+        if (s && block) {
+            ls_error(p->d, kw.loc, "'ground' belongs at the top level; inside a block, write 'ground' as a node name");
+            s = NULL;
+        }
+    } else if (is_word(&kw, "include")) {
+        parse_include(p, out, block);
+        return;
+    } else if (is_word(&kw, "block")) {
+        if (block) {
+            int line, col;
+            ls_loc_linecol(p->d, block->loc.file, block->loc.start, &line, &col);
+            ls_error(p->d, kw.loc, "blocks cannot be defined inside a block ('%s' opened at line %d)",
+                     block->name, line);
+            skip_line(p);
+            return;
+        }
+        s = parse_block(p, out);
+        if (s) {
+            if (!end_of_statement(p))
+                skip_line(p);
+            s->text_loc = span(s->loc, p->tok.loc);
+            s->text_loc.end = p->tok.loc.start;
+            stmt_list body = {0};
+            parse_lines(p, &body, s);
+            if (body.n) { /* an empty body stays NULL */
+                s->body = ls_arena_alloc(p->sa, (size_t)body.n * sizeof *s->body);
+                if (s->body)
+                    memcpy(s->body, body.v, (size_t)body.n * sizeof *body.v);
+            }
+            s->nbody = s->body ? body.n : 0; /* out of memory: the arena is marked failed */
+            free(body.v);
+            push(p, out, s);
+            return;
+        }
+    } else if (is_word(&kw, "use")) {
+        s = parse_use(p);
+    } else if (is_word(&kw, "expect")) {
+        s = parse_expect(p);
+    } else if (is_word(&kw, "rule")) {
+        s = parse_rule(p);
+    } else if (is_word(&kw, "end")) {
+        ls_error(p->d, kw.loc, "'end' without a 'block' to close");
+        advance(p);
+    } else if ((k = find_kind(p, &kw))) {
+        s = parse_part(p, k);
+    } else {
+        char name[64];
+        snprintf(name, sizeof name, "%.*s", (int)(kw.len < 60 ? kw.len : 60), kw.text);
+        const char *near = ls_kind_suggest(name);
+        if (near)
+            ls_error(p->d, kw.loc, "unknown part kind or keyword '%s'; did you mean '%s'?", name, near);
+        else
+            ls_error(p->d, kw.loc, "unknown part kind or keyword '%s'", name);
+    }
+    if (s && end_of_statement(p)) {
+        s->text_loc = (ls_loc){kw.loc.file, kw.loc.start, p->tok.loc.start};
+        push(p, out, s);
+    }
+    skip_line(p);
+}
+
+/* lines -> {NEWLINE | statement NEWLINE}   up to EOF, or 'end' inside a block */
+static void parse_lines(parser *p, stmt_list *out, ls_stmt *block)
+{
+    for (;;) {
+        if (p->tok.kind == T_NEWLINE) {
+            advance(p);
+            continue;
+        }
+        if (p->tok.kind == T_EOF) {
+            if (block && block->loc.file == p->lx.file) {
+                int line, col;
+                ls_loc_linecol(p->d, block->loc.file, block->loc.start, &line, &col);
+                ls_error(p->d, p->tok.loc, "'end' expected to close 'block %s' at line %d", block->name, line);
+            }
+            return;
+        }
+        if (block && is_word(&p->tok, "end")) {
+            if (p->lx.file != block->loc.file) {
+                /* An included file cannot close a block opened outside it. */
+                ls_error(p->d, p->tok.loc, "an included file cannot end a block opened outside it ('%s')",
+                         block->name);
+                skip_line(p);
+                continue;
+            }
+            advance(p);
+            if (!end_of_statement(p))
+                skip_line(p);
+            return;
+        }
+        parse_statement(p, out, block);
+    }
+}
+
+/* ---- files and includes ------------------------------------------------- */
+
+char *ls_read_file(const char *path, size_t *len)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return NULL;
+    char *buf = ls_read_stream(f, len);
+    int err = errno;
+    fclose(f);
+    errno = err;
+    return buf;
+}
+
+char *ls_read_stream(FILE *f, size_t *len)
+{
+    /* A regular file's size is known: one buffer one byte larger, so the read
+     * ends without growing it (a file that grows meanwhile still fits). */
+    size_t cap = 1 << 16, n = 0;
+    struct stat st;
+    if (fstat(fileno(f), &st) == 0 && S_ISREG(st.st_mode) && st.st_size > 0) {
+        if ((uintmax_t)st.st_size >= LS_MAX_FILE_BYTES) {
+            errno = EFBIG;
+            return NULL;
+        }
+        cap = (size_t)st.st_size + 1;
+    }
+    char *buf = malloc(cap + 1);
+    while (buf) {
+        size_t r = fread(buf + n, 1, cap - n, f);
+        n += r;
+        if (r == 0)
+            break;
+        if (n == cap) {
+            if (cap >= LS_MAX_FILE_BYTES) {
+                free(buf);
+                buf = NULL;
+                errno = EFBIG;
+                break;
+            }
+            char *b = realloc(buf, cap * 2 + 1);
+            if (!b) {
+                free(buf);
+                buf = NULL;
+                break;
+            }
+            buf = b;
+            cap *= 2;
+        }
+    }
+    int err = ferror(f) ? errno : 0;
+    if (buf && err) {
+        free(buf);
+        errno = err;
+        return NULL;
+    }
+    if (buf) {
+        buf[n] = 0;
+        *len = n;
+    }
+    return buf;
+}
+
+/* A file's text, NUL-terminated, to parse and let go: a regular file is read
+ * at its size into `tmp` (an arena of the caller's; a large one gets huge
+ * pages), anything else (or a file that changes size meanwhile) by
+ * ls_read_file into *heap, which the caller frees.  NULL (errno set) when the
+ * file cannot be read. */
+static char *load_text(ls_arena *tmp, const char *path, size_t *len, char **heap)
+{
+    *heap = NULL;
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return NULL;
+    struct stat st;
+    if (fstat(fileno(f), &st) == 0 && S_ISREG(st.st_mode) && (uintmax_t)st.st_size < LS_MAX_FILE_BYTES) {
+        size_t want = (size_t)st.st_size;
+        char *buf = ls_arena_alloc_bytes(tmp, want + 1);
+        size_t n = buf ? fread(buf, 1, want + 1, f) : 0;
+        if (buf && n == want && !ferror(f)) {
+            fclose(f);
+            buf[n] = 0;
+            *len = n;
+            return buf;
+        }
+    }
+    fclose(f);
+    return *heap = ls_read_file(path, len);
+}
+
+static const char *dir_of(ls_arena *a, const char *path)
+{
+    const char *slash = strrchr(path, '/');
+    if (!slash)
+        return "";
+    return ls_arena_strndup(a, path, (size_t)(slash - path + 1));
+}
+
+/* Parse a registered file's statements into out. */
+static void parse_registered(parser *outer, int file, const char *dir, inc_frame *frames, int depth,
+                             stmt_list *out, ls_stmt *block)
+{
+    parser p;
+    memset(&p, 0, sizeof p);
+    p.d = outer->d;
+    p.a = outer->a;
+    p.sa = outer->sa;
+    p.dir = dir;
+    p.incs = frames;
+    p.inc_depth = depth;
+    ls_lex_init(&p.lx, p.d, file);
+    advance(&p);
+    parse_lines(&p, out, block);
+    if (block && p.tok.kind != T_EOF) {
+        /* 'end' inside an included file closed the including file's block */
+        ls_error(p.d, p.tok.loc, "an included file cannot end a block opened outside it");
+    }
+}
+
+/* include -> 'include' STRING */
+static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
+{
+    ls_loc kwloc = p->tok.loc;
+    advance(p);
+    if (p->tok.kind != T_STRING) {
+        expected(p, "a quoted file name");
+        skip_line(p);
+        return;
+    }
+    ls_loc sloc = p->tok.loc;
+    char *name = tok_str(p, &p->tok);
+    advance(p);
+    if (!end_of_statement(p)) {
+        skip_line(p);
+        return;
+    }
+    (void)kwloc;
+    if (p->inc_depth + 1 > LS_MAX_INCLUDE_DEPTH) {
+        ls_error(p->d, sloc, "includes nested more than %d deep", LS_MAX_INCLUDE_DEPTH);
+        return;
+    }
+    const char *path = name[0] == '/' ? name : ls_arena_printf(p->a, "%s%s", p->dir, name);
+    char real[PATH_MAX];
+    if (!realpath(path, real)) {
+        ls_error(p->d, sloc, "cannot open included file '%s': %s", path, strerror(errno));
+        return;
+    }
+    for (inc_frame *f = p->incs; f; f = f->up) {
+        if (strcmp(f->real, real) == 0) {
+            /* name the whole chain, outermost first: a -> b -> a */
+            char chain[600];
+            snprintf(chain, sizeof chain, "'%s'", name);
+            for (inc_frame *g = p->incs; g; g = g->up) {
+                char tmp[600];
+                snprintf(tmp, sizeof tmp, "'%.200s' -> %.380s", g->shown, chain); /* truncated, never overflowing */
+                memcpy(chain, tmp, sizeof chain);
+            }
+            ls_error(p->d, sloc, "include cycle: %s (a file cannot include itself, directly or through others)",
+                     chain);
+            return;
+        }
+    }
+    struct stat st;
+    if (stat(real, &st) == 0 && !S_ISREG(st.st_mode)) {
+        /* a device or a pipe could block or never end (/dev/zero, a fifo) */
+        ls_error(p->d, sloc, "included file '%s' is not a regular file", path);
+        return;
+    }
+    size_t len = 0;
+    ls_arena tmp;
+    ls_arena_init(&tmp);
+    char *heap, *text = load_text(&tmp, path, &len, &heap);
+    if (!text) {
+        ls_error(p->d, sloc, "cannot read included file '%s': %s", path, strerror(errno));
+        ls_arena_free(&tmp);
+        return;
+    }
+    int id = len < UINT_MAX ? add_source(p->d, path, text, len) : -1;
+    free(heap);
+    ls_arena_free(&tmp);
+    if (id < 0) {
+        ls_error(p->d, sloc, "out of memory reading '%s'", path);
+        return;
+    }
+    inc_frame fr = {ls_arena_strdup(p->a, real), name, p->incs};
+    parse_registered(p, id, dir_of(p->a, path), &fr, p->inc_depth + 1, out, block);
+}
+
+static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
+{
+    parser p;
+    memset(&p, 0, sizeof p);
+    p.d = d;
+    p.a = d->arena;
+    p.sa = prog->syntax ? prog->syntax : d->arena;
+    int errors0 = d->errors;
+    char real[PATH_MAX];
+    inc_frame fr = {NULL, path, NULL};
+    if (realpath(path, real))
+        fr.real = ls_arena_strdup(p.a, real);
+    else
+        fr.real = "";
+    /* The program's list goes straight into the arena, sized for the most
+     * statements the file can hold: one a line, and one per 6 bytes (the
+     * shortest, `led d`, and its newline), so the list is never much larger
+     * than the text.  Includes can make it outgrow that (as would a
+     * miscount: it is only a first size); it then goes on on the heap and is
+     * copied into the arena at the end. */
+    stmt_list out = {0};
+    size_t most = d->files[file].len / 6 + 1;
+    int cap = (size_t)d->files[file].nlines < most ? d->files[file].nlines : (int)most;
+    out.v = ls_arena_alloc(p.sa, (size_t)cap * sizeof *out.v);
+    if (out.v) {
+        out.cap = cap;
+        out.a = p.sa;
+    }
+    parse_registered(&p, file, dir_of(p.a, path), &fr, 0, &out, NULL);
+    if (out.a) {
+        prog->stmts = out.v;
+    } else {
+        prog->stmts = ls_arena_alloc(p.sa, (size_t)(out.n ? out.n : 1) * sizeof *prog->stmts);
+        if (prog->stmts && out.n) /* an empty file has no array to copy */
+            memcpy(prog->stmts, out.v, (size_t)out.n * sizeof *out.v);
+        free(out.v);
+    }
+    prog->n = prog->stmts ? out.n : 0;
+    if (p.sa->failed) /* the callers look at the diagnostics' arena for out of memory */
+        p.a->failed = 1;
+    return d->errors - errors0;
+}
+
+/* Register a circuit text under `name`: a UTF-8 byte-order mark at its start
+ * is skipped (editors on some systems write one), and bytes that are not
+ * UTF-8 are reported and replaced (ls_sources_check_utf8).  Its file id, or
+ * -1 (nothing reported: the caller says why). */
+static int add_source(ls_diags *d, const char *name, const char *text, size_t len)
+{
+    if (len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0) {
+        text += 3;
+        len -= 3;
+    }
+    int id = ls_sources_add(d, name, text, (unsigned)len);
+    if (id >= 0)
+        ls_sources_check_utf8(d, id);
+    return id;
+}
+
+/* Register a top-level text; its file id, or -1 after reporting why not. */
+static int register_text(ls_diags *d, const char *name, const char *text, size_t len)
+{
+    if (len >= LS_MAX_FILE_BYTES) {
+        ls_error(d, LS_NOLOC, "'%s' is larger than %u bytes", name, LS_MAX_FILE_BYTES);
+        return -1;
+    }
+    int id = add_source(d, name, text, len);
+    if (id < 0)
+        ls_error(d, LS_NOLOC, "out of memory reading '%s'", name);
+    return id;
+}
+
+int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
+                       ls_program *prog)
+{
+    *prog = (ls_program){.syntax = syntax};
+    int errors0 = d->errors; /* counting the text's UTF-8 errors too */
+    int id = register_text(d, name, text, len);
+    if (id < 0)
+        return 1;
+    parse_top(d, id, name, prog);
+    return d->errors - errors0;
+}
+
+int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program *prog)
+{
+    *prog = (ls_program){.syntax = syntax};
+    size_t len = 0;
+    ls_arena tmp;
+    ls_arena_init(&tmp);
+    char *heap, *text = load_text(&tmp, path, &len, &heap);
+    if (!text) {
+        ls_error(d, LS_NOLOC, "cannot read '%s': %s", path, strerror(errno));
+        ls_arena_free(&tmp);
+        return 1;
+    }
+    int errors0 = d->errors; /* counting the text's UTF-8 errors too */
+    int id = register_text(d, path, text, len);
+    free(heap); /* before parsing, so the tree can reuse the pages */
+    ls_arena_free(&tmp);
+    if (id < 0)
+        return 1;
+    parse_top(d, id, path, prog);
+    return d->errors - errors0;
+}
+
+int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog)
+{
+    return ls_parse_string_to(d, name, text, len, NULL, prog);
+}
+
+int ls_parse_file(ls_diags *d, const char *path, ls_program *prog)
+{
+    return ls_parse_file_to(d, path, NULL, prog);
+}
+
+ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect)
+{
+    parser p;
+    memset(&p, 0, sizeof p);
+    p.d = d;
+    p.a = p.sa = d->arena;
+    p.in_expect = in_expect;
+    ls_lex_init(&p.lx, d, file);
+    p.lx.pos = offset;
+    advance(&p);
+    int e0 = d->errors;
+    ls_expr *e = parse_sum(&p);
+    if (e && p.tok.kind != T_EOF && p.tok.kind != T_NEWLINE) {
+        expected(&p, "end of the expression");
+        return NULL;
+    }
+    return d->errors == e0 ? e : NULL;
+}
+
+ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect)
+{
+    int id = ls_sources_add(d, name, text, (unsigned)strlen(text));
+    if (id < 0 || ls_sources_check_utf8(d, id) > 0) /* command-line text must be UTF-8 too */
+        return NULL;
+    return ls_parse_expr_at(d, id, 0, in_expect);
+}

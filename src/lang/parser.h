@@ -1,0 +1,41 @@
+/* parser.h — circuit text to a syntax tree; includes are spliced in here. */
+#ifndef LS_PARSER_H
+#define LS_PARSER_H
+
+#include <stdio.h>
+
+#include "lang/ast.h"
+
+#define LS_MAX_INCLUDE_DEPTH 16
+#define LS_MAX_EXPR_DEPTH 200
+#define LS_MAX_FILE_BYTES (1u << 30)
+#define LS_MAX_OPTIONS 64      /* NAME=VALUE options on one part or block statement */
+#define LS_MAX_BLOCK_PINS 256  /* pins of one block */
+#define LS_MAX_USE_OPTIONS (LS_MAX_BLOCK_PINS + LS_MAX_OPTIONS) /* a use: every pin, and params */
+
+/* Parse the file at path into *prog (allocated in the diagnostics' arena).
+ * Returns the number of errors reported (0 on success). */
+int ls_parse_file(ls_diags *d, const char *path, ls_program *prog);
+/* Parse text held in memory; `name` is used in diagnostics and for includes
+ * (relative to the current directory when name has no directory part). */
+int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog);
+/* The same with the tree's structures in the arena `syntax` (names and text
+ * still in the diagnostics' arena): the caller may free `syntax` once it has
+ * elaborated the program for the last time (see ls_program.syntax). */
+int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program *prog);
+int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
+                       ls_program *prog);
+/* Parse one expression from text (for --set values and command-line quantities).
+ * Returns NULL after reporting an error. */
+ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect);
+
+/* The same for an expression starting at byte `offset` of a registered file. */
+ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect);
+
+/* Read a whole file; NULL (errno set) on failure.  Caller frees. */
+char *ls_read_file(const char *path, size_t *len);
+/* The same for an open stream (standard input), read to its end; the
+ * stream stays open. */
+char *ls_read_stream(FILE *f, size_t *len);
+
+#endif

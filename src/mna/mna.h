@@ -1,0 +1,87 @@
+/* mna.h — the modified-nodal system of a netlist, and its topology checks. */
+#ifndef LS_MNA_H
+#define LS_MNA_H
+
+#include "parts/parts.h"
+#include "solve/solver.h"
+
+/* A conductance (S) from a node to a fixed voltage (V): a load resistor to
+ * ground (v = 0), or a node held at a voltage.  g = 0: none. */
+/* How a variant changes a part (ls_mna.opened). */
+enum { LS_KEPT = 0, LS_OPENED = 1, LS_BUFFERED = 2 };
+
+typedef struct ls_tie {
+    double g, v;
+} ls_tie;
+
+typedef struct ls_mna {
+    const ls_netlist *nl;
+    int nn;                /* node unknowns: nnodes - 1 */
+    int n;                 /* all unknowns: nodes, then branch currents */
+    int *branch_part;      /* for each branch unknown (index - nn): its part */
+    ls_triplets t;         /* entries being stamped (duplicates not yet summed); empty between stamps */
+    size_t nnz_hint;       /* triplet count of the last stamp */
+    double *b;             /* right-hand side, n */
+    ls_csc a;              /* compressed, duplicates summed */
+    double amax;           /* largest |a_ij| */
+    unsigned char *seen;   /* restamp scratch: per entry of a, set once a triplet reached it */
+    size_t seen_n;
+    unsigned in_place;     /* restamps summed straight into a's pattern (for tests) */
+    /* A variant of the circuit (sag, thevenin --load): both NULL normally. */
+    const unsigned char *opened;   /* per part, or NULL: LS_OPENED, LS_BUFFERED (ports) or 0 */
+    const ls_tie *ties;            /* per node, or NULL: a conductance to a fixed voltage */
+} ls_mna;
+
+/* Number branch unknowns and stamp every part.  0 ok, -1 out of memory. */
+int ls_mna_build(ls_mna *m, const ls_netlist *nl);
+/* The same for a variant: the parts marked in opened (per part, or NULL) are
+ * stamped as removed (LS_OPENED) or, for a port, as delivering its driver's
+ * voltage without drawing on the driver (LS_BUFFERED), and every node with ties[node].g > 0 (per node, or NULL)
+ * gets its tie; both arrays must outlive m. */
+int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *opened, const ls_tie *ties);
+/* Re-stamp the values after part values changed.  When every entry lands in
+ * the pattern of the last assembly and fills all of it, the values are summed
+ * straight into m->a (same arrays, same pattern, the same numbers compression
+ * would give) through a small triplet buffer; otherwise the system is
+ * assembled afresh.  0 ok, -1 out of memory. */
+int ls_mna_restamp(ls_mna *m);
+void ls_mna_free(ls_mna *m);
+
+/* Stamp part i into sink as the assembly does (removed or buffered where the
+ * variant says so), and the variant's ties: for sinks of other kinds, such
+ * as the extra-precise residual of accuracy.c. */
+void ls_mna_stamp_part(const ls_mna *m, int i, ls_sink *sink);
+void ls_mna_stamp_ties(const ls_mna *m, ls_sink *sink);
+
+/* Compress triplets (summing duplicates) into a CSC matrix; 0 ok, -1 no memory.
+ * Explicit zeros that result from cancellation are kept so the pattern is stable. */
+int ls_triplets_to_csc(const ls_triplets *t, int n, ls_csc *out);
+void ls_csc_free(ls_csc *a);
+void ls_triplets_free(ls_triplets *t);
+
+/* What an unknown stands for, in the user's words ("node 'mid'",
+ * "the current of voltage source 'vbat'"). */
+const char *ls_unknown_desc(const ls_mna *m, int idx, char *buf, size_t n);
+
+/* Topology checks before any numbers: nodes with no DC path to ground (and
+ * cut-sets of current sources), loops of voltage-defined branches.  Errors go
+ * to the netlist's diagnostics; returns their number. */
+int ls_topology_check(const ls_netlist *nl);
+
+/* Reduced nodal form (mna.c): a backend that solves the MNA system of resistors,
+ * current sources and voltage sources through a symmetric positive definite
+ * system of the free node voltages, factored by CHOLMOD.  Sources without rs
+ * between ground and a node fix that node; sources with rs are
+ * Norton-converted.  It solves the same A as the other backends (plain or
+ * transposed), so the unknown layout and ls_op.x are unchanged. */
+extern const ls_backend ls_backend_reduced;
+/* 1 when the MNA matrix a has that shape (nodes, then source branches whose
+ * rows mirror their KCL columns with opposite sign, a symmetric node block),
+ * else 0.  O(nnz log). */
+int ls_mna_reducible(const ls_csc *a);
+
+/* Union-find helpers, shared with the analyses that open parts. */
+int ls_uf_find(int *parent, int x);
+void ls_uf_union(int *parent, int a, int b);
+
+#endif

@@ -1,0 +1,43 @@
+/* elab.h — syntax tree to flat netlist: blocks expanded, names resolved,
+ * units checked, values evaluated. */
+#ifndef LS_ELAB_H
+#define LS_ELAB_H
+
+#include "netlist/netlist.h"
+
+#define LS_MAX_BLOCK_DEPTH 32
+#define LS_MAX_INSTANCES 1000000
+#define LS_MAX_NAME_BYTES 1024
+#define LS_MAX_NODES 4000000      /* after expansion */
+#define LS_MAX_PARTS 4000000      /* after expansion */
+#define LS_MAX_VIA_CHAIN 32       /* via= links followed from one source */
+
+typedef struct ls_setting {
+    const char *name;      /* param name */
+    ls_expr *value;        /* parsed from the --set text */
+    ls_loc loc;            /* in the "--set" pseudo-file */
+    bool used;
+} ls_setting;
+
+/* Elaborate prog into nl (which must be zeroed; its arena and diags are taken
+ * from d).  Returns the number of errors. */
+int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl);
+
+/* Bind an expression of node voltages and properties at the top level (for a
+ * QUANTITY on the command line).  NULL after reporting an error. */
+ls_q *ls_bind_quantity(ls_netlist *nl, const ls_expr *e);
+
+/* Dimensions of a property of a part. */
+ls_dims ls_prop_dims(const ls_part *p, ls_prop prop);
+const char *ls_prop_name(ls_prop p);
+/* Does part p have property prop (an adc its code, a port its budget, ...)? */
+bool ls_prop_applies(const ls_part *p, ls_prop prop);
+/* The adc whose input is port's load node (the one with the smallest LSB), or -1. */
+int ls_port_adc(const ls_netlist *nl, int port);
+
+/* Arithmetic shared by every evaluator: a binary operator (an ls_tok) and the
+ * built-in functions (an ls_func). */
+double ls_apply_op(int op, double a, double b);
+double ls_apply_func(int f, const double *v, int n);
+
+#endif

@@ -1,0 +1,180 @@
+/* parts.h — the part table.  Every part kind is one entry here plus its stamp
+ * functions in parts.c: name, terminals, options, how it enters the MNA system,
+ * how its current is expressed and what it contributes to the topology checks. */
+#ifndef LS_PARTS_H
+#define LS_PARTS_H
+
+#include "netlist/netlist.h"
+
+typedef enum ls_optkind { OPT_VALUE, OPT_NODE, OPT_PART, OPT_WORD, OPT_RANGE } ls_optkind;
+
+enum {
+    OPTF_REQUIRED = 1,   /* must be given */
+    OPTF_POSITIVE = 2,   /* > 0 */
+    OPTF_NONNEG = 4,     /* >= 0 */
+    OPTF_MAIN = 8,       /* this option is the part's main value */
+    OPTF_FRACTION = 16,  /* 0..1 */
+    OPTF_INTEGER = 32,   /* a whole number */
+    OPTF_BUDGET = 64     /* a port's sag budget: volts, a fraction, or LSB (elab.c stores its ls_budget index) */
+};
+
+typedef struct ls_optdef {
+    const char *name;
+    ls_optkind kind;
+    ls_dims dims;        /* OPT_VALUE / OPT_RANGE of values */
+    unsigned flags;
+    int pin;             /* OPT_NODE: the pin slot it fills; OPT_RANGE: its slot in ls_part.range */
+    const char *words;   /* OPT_WORD: "open|closed" (stored as the word's index) */
+} ls_optdef;
+
+/* Linear form of a part's current (A, FROM -> TO) in the MNA unknowns. */
+#define LS_LIN_MAX 16
+typedef struct ls_lin {
+    int n;
+    int idx[LS_LIN_MAX];   /* unknown index */
+    double coef[LS_LIN_MAX];
+    double constant;
+    bool overflow;
+} ls_lin;
+
+/* Where stamps go: assembly into triplets and a right-hand side, the adjoint
+ * accumulation lambda^T (db - dA x) used by the sensitivity analysis, or the
+ * residual b - A x accumulated part by part in extended precision
+ * (accuracy.c), which never sums two parts' conductances in double. */
+typedef enum ls_sink_mode { SINK_ASSEMBLE, SINK_ADJOINT, SINK_RESIDUAL } ls_sink_mode;
+typedef struct ls_resid ls_resid;
+void ls_resid_a(ls_resid *r, int row, int col, double v);
+void ls_resid_b(ls_resid *r, int row, double v);
+
+typedef struct ls_triplets {
+    int n;                 /* order */
+    int *ti, *tj;
+    double *tx;
+    size_t nnz, cap;
+    int failed;
+} ls_triplets;
+
+typedef struct ls_sink {
+    ls_sink_mode mode;
+    ls_triplets *t;        /* SINK_ASSEMBLE */
+    double *b;             /* SINK_ASSEMBLE, order n */
+    const double *lambda;  /* SINK_ADJOINT */
+    const double *x;       /* SINK_ADJOINT */
+    double acc;            /* SINK_ADJOINT result */
+    ls_resid *resid;       /* SINK_RESIDUAL */
+    double scale;          /* every stamp is multiplied by this (1 normally) */
+} ls_sink;
+
+void ls_sink_a(ls_sink *s, int row, int col, double v);  /* row/col < 0: ground, dropped */
+void ls_sink_b(ls_sink *s, int row, double v);
+
+/* What a stamp needs: the unknown index of a node, of a branch, the netlist. */
+typedef struct ls_stamp_ctx {
+    const ls_netlist *nl;
+    ls_sink *sink;
+    bool removed;          /* stamp the part as removed (opened / set to zero) */
+    bool buffered;         /* a port: its load side gets the driver's voltage, the driver supplies nothing */
+    bool derivative;       /* stamp d/d(main value) instead of the value */
+} ls_stamp_ctx;
+
+static inline int ls_node_unknown(int node) { return node - 1; }
+
+typedef enum ls_shape { SHAPE_TWO, SHAPE_PINNED } ls_shape;
+typedef enum ls_vsign { VSIGN_DROP, VSIGN_RISE, VSIGN_OUT } ls_vsign;
+
+/* Topology: conductive edges (DC paths) and voltage-defined edges. */
+typedef void (*ls_edge_fn)(void *ctx, int a, int b, bool voltage_defined, int part);
+
+#define LS_MAX_RENAMED 4
+
+typedef struct ls_kind {
+    const char *name;
+    ls_shape shape;
+    const char *doc;             /* one line for --help and docs */
+    bool value_slot;             /* a positional VALUE is allowed */
+    ls_dims value_dims;
+    unsigned value_flags;
+    ls_vsign vsign;              /* how `voltage` reads */
+    bool is_port;
+    bool is_opamp;
+    bool has_run;                /* keeps analysis state (ls_part.run): sources, op-amps, junctions, ... */
+    ls_optdef opts[LS_MAX_OPTS];
+    int nopts;
+    /* Options that were spelled differently before; naming one is an error
+     * that gives the new name.  Unused slots have old == NULL. */
+    struct { const char *old, *now; } renamed[LS_MAX_RENAMED];
+    int npins;                   /* SHAPE_TWO: 2 + node options */
+    int (*branches)(const ls_part *p);
+    void (*stamp)(const ls_part *p, ls_stamp_ctx *c);
+    void (*current)(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative, int depth);
+    void (*edges)(const ls_part *p, void *ctx, ls_edge_fn emit);
+    /* Nonlinear parts (NULL for linear ones) --------------------------------- */
+    /* Is this part nonlinear as configured (an ntc only with dissipation=)? */
+    bool (*is_nonlinear)(const ls_part *p);
+    /* The first linearization point (op_v / op_t). */
+    void (*init)(ls_part *p);
+    /* Move the linearization point towards the solution x of the last
+     * linear solve (with damping and limiting); true when it has settled. */
+    bool (*update)(ls_part *p, const double *x);
+    /* Current (A), voltage (V, as vsign reads) and absorbed power (W) for parts
+     * whose results are not the generic ones (pot, adc); NULL otherwise. */
+    void (*results)(const ls_part *p, const double *x, const double *v, double out[3]);
+} ls_kind;
+
+const ls_kind *ls_kind_find(const char *name);
+const ls_kind *ls_kind_findn(const char *name, size_t n);
+/* Closest kind or keyword name for a misspelling, or NULL. */
+const char *ls_kind_suggest(const char *name);
+int ls_kind_count(void);
+const ls_kind *ls_kind_at(int i);
+/* Unit of a kind's main value: its OPTF_MAIN option's, else the value slot's. */
+ls_dims ls_kind_main_dims(const ls_kind *k);
+/* The current name of an option that `name` used to spell, or NULL. */
+const char *ls_kind_renamed(const ls_kind *k, const char *name);
+/* Index of option `name` in the kind, or -1. */
+int ls_kind_opt(const ls_kind *k, const char *name);
+
+/* Option value helpers. */
+static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && (p->has_opt >> opt & 1u); }
+double ls_part_opt(const ls_part *p, const char *name, double dflt);
+
+/* Part current as a linear form (recursing through via=); depth guards cycles. */
+void ls_part_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative);
+double ls_lin_eval(const ls_lin *l, const double *x);
+
+/* ---- real parts: helpers for the iteration and the reports ---- */
+
+enum { OA_RAILS = 0, OA_CM = 1 };   /* op-amp range slots in ls_part.range */
+
+/* Voltage of one end of a range option given node voltages v (v[0] = 0). */
+double ls_level_v(const ls_level *l, const double *v);
+/* The op-amp limit (LS_LIM_*) that should be in force given the solution x
+ * and node voltages v of the last solve; *side is set to the supply side
+ * (1 sinking) that current calls for. */
+int ls_opamp_next(const ls_part *p, const double *x, const double *v, int *side);
+/* The word for the op-amp's output limit in force, as the JSON report and the
+ * C API give it: "rail-high", "rail-low", "current" or "none". */
+const char *ls_opamp_limit_word(const ls_part *p);
+/* Does the op-amp have any output limit (rails= or imax=)? */
+bool ls_opamp_limited(const ls_part *p);
+/* Junction current (A, anode -> cathode) of a diode, led or zener at junction
+ * voltage vj (V), without the shunt terms; *beyond is set when vj is past the
+ * point where the model's current exceeds LS_JUNCTION_IMAX. */
+double ls_junction_current(const ls_part *p, double vj, bool *beyond);
+/* Junction voltage (V) of a diode, led or zener in the solution x. */
+double ls_junction_v(const ls_part *p, const double *x);
+/* Thermistor resistance (ohm) at temperature t_c (degC), by the Beta equation. */
+double ls_ntc_r(const ls_part *p, double t_c);
+/* An adc's LSB (V): ref / 2^bits. */
+double ls_adc_lsb(const ls_part *p);
+/* Thermistor body temperature (degC): celsius=, plus self-heating when solved with dissipation=. */
+double ls_ntc_body(const ls_part *p);
+
+#define LS_JUNCTION_IMAX 1e3     /* A: past this the exponential is continued linearly */
+#define LS_GMIN 1e-12            /* S: always across every junction (keeps a cut-off node defined) */
+#define LS_THERMAL_VOLTAGE (1.380649e-23 * 298.15 / 1.602176634e-19) /* V: kT/q at 25 degC (SI 2019 exact k, q) */
+
+/* Levenshtein distance, capped; used for "did you mean" suggestions. */
+int ls_edit_distance(const char *a, const char *b);
+
+#endif

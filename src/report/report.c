@@ -1,0 +1,1433 @@
+/* report.c — the operating-point and check reports in text, JSON and CSV. */
+#include "report/report.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "netlist/elab.h"
+#include "base/fmt.h"
+#include "analysis/lowrank.h"
+#include "analysis/newton.h"
+#include "base/numfmt.h"
+
+/* ---- buffered output -------------------------------------------------------------------
+ *
+ * A large circuit's report is millions of short pieces (a grid of a million
+ * nodes writes some 300 MB of JSON).  Each stdio call costs more than the copy
+ * it makes, so the writers below put their pieces into one block and hand it to
+ * the stream in large fwrite calls.  A writer flushes its block before anything
+ * else writes to the stream and before it returns, so the order of the output
+ * is the order of the calls.  Errors stay on the stream (ferror), as before. */
+typedef struct obuf {
+    FILE *f;
+    char *p;              /* next free byte of b */
+    char b[32768];
+} obuf;
+
+static void ob_init(obuf *o, FILE *f)
+{
+    o->f = f;
+    o->p = o->b;
+}
+
+static void ob_flush(obuf *o)
+{
+    if (o->p != o->b)
+        fwrite(o->b, 1, (size_t)(o->p - o->b), o->f);
+    o->p = o->b;
+}
+
+static size_t ob_room(const obuf *o)
+{
+    return (size_t)(o->b + sizeof o->b - o->p);
+}
+
+static void ob_write(obuf *o, const char *s, size_t n)
+{
+    if (n > ob_room(o)) {
+        ob_flush(o);
+        if (n > sizeof o->b) {
+            fwrite(s, 1, n, o->f);
+            return;
+        }
+    }
+    memcpy(o->p, s, n);
+    o->p += n;
+}
+
+static void ob_puts(obuf *o, const char *s)
+{
+    ob_write(o, s, strlen(s));
+}
+
+static void ob_putc(obuf *o, char c)
+{
+    if (!ob_room(o))
+        ob_flush(o);
+    *o->p++ = c;
+}
+
+static void ob_printf(obuf *o, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void ob_printf(obuf *o, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    size_t room = ob_room(o);
+    int n = vsnprintf(o->p, room, fmt, ap);
+    va_end(ap);
+    if (n < 0)
+        return;
+    if ((size_t)n < room) {
+        o->p += n;
+        return;
+    }
+    ob_flush(o);
+    va_start(ap, fmt);
+    if ((size_t)n < sizeof o->b) {
+        vsnprintf(o->p, sizeof o->b, fmt, ap);
+        o->p += n;
+    } else {
+        vfprintf(o->f, fmt, ap);
+    }
+    va_end(ap);
+}
+
+/* The shortest exact text, or nothing when not finite: a CSV value */
+static void ob_csv_number(obuf *o, double v)
+{
+    if (!isfinite(v))
+        return;
+    if (ob_room(o) < LS_NUM_MAX)
+        ob_flush(o);
+    o->p += ls_num_shortest(o->p, v);
+}
+
+static void ob_csv_field(obuf *o, const char *s)
+{
+    if (strpbrk(s, ",\"\n\r")) {
+        ob_putc(o, '"');
+        for (; *s; s++) {
+            if (*s == '"')
+                ob_putc(o, '"');
+            ob_putc(o, *s);
+        }
+        ob_putc(o, '"');
+    } else {
+        ob_puts(o, s);
+    }
+}
+
+/* The names of a large circuit's nodes and parts lie scattered over its arena,
+ * and the first read of each is a cache miss that the row loops would wait for
+ * one at a time; asking for the name some rows ahead lets those misses overlap
+ * (on a million-node grid this halves the time of the text report). */
+#define NAME_AHEAD 16
+
+static void prefetch_node_name(const ls_netlist *nl, int i)
+{
+    if (i + NAME_AHEAD < nl->nnodes)
+        __builtin_prefetch(nl->nodes[i + NAME_AHEAD].name);
+}
+
+static void prefetch_part_name(const ls_netlist *nl, int i)
+{
+    if (i + NAME_AHEAD < nl->nparts)
+        __builtin_prefetch(nl->parts[i + NAME_AHEAD].name);
+}
+
+/* ---- shared pieces ------------------------------------------------------------------ */
+
+void ls_report_json_begin(const ls_report *rp, ls_jw *w)
+{
+    ls_jw_init(w, rp->out, 2);
+    ls_jw_obj(w, NULL);
+    ls_jw_meta(w, rp->command, rp->file, rp->sets, rp->nsets);
+}
+
+void ls_report_budget_json(ls_jw *w, const ls_port_result *pr)
+{
+    ls_jw_num_why(w, "budget", pr->budget, isnan(pr->budget) ? LS_WHY_NONE : ls_jw_why_of(pr->budget));
+    ls_jw_str(w, "by", pr->by_budget ? "budget" : "ratio");
+}
+
+void ls_csv_number(FILE *out, double v)
+{
+    char b[LS_NUM_MAX];
+    fputs(ls_fmt_csv(b, sizeof b, v), out);
+}
+
+void ls_csv_field(FILE *out, const char *s)
+{
+    if (strpbrk(s, ",\"\n\r")) {
+        fputc('"', out);
+        for (; *s; s++) {
+            if (*s == '"')
+                fputc('"', out);
+            fputc(*s, out);
+        }
+        fputc('"', out);
+    } else {
+        fputs(s, out);
+    }
+}
+
+const char *ls_eng(const ls_report *rp, char *buf, size_t n, double v, const char *unit)
+{
+    return ls_fmt_eng(buf, n, v, unit, rp->sig, rp->ascii);
+}
+
+const char *ls_unit_of(ls_dims d, bool ascii)
+{
+    const char *u = ls_dims_symbol(d);
+    if (!u)
+        return "";
+    if (ascii && strcmp(u, "\xCE\xA9") == 0)
+        return "ohm";
+    return u;
+}
+
+/* Display width of a UTF-8 string (code points). */
+static int width(const char *s)
+{
+    int w = 0;
+    for (; *s; s++)
+        w += ((unsigned char)*s & 0xC0) != 0x80;
+    return w;
+}
+
+/* The byte length of s, and its display width in *w: one pass for both (the
+ * table code measures every cell). */
+static size_t measure(const char *s, int *w)
+{
+    const char *p = s;
+    int k = 0;
+    for (; *p; p++)
+        k += ((unsigned char)*p & 0xC0) != 0x80;
+    *w = k;
+    return (size_t)(p - s);
+}
+
+/* k spaces, written in blocks rather than one at a time (a report may have
+ * millions of cells). */
+static void spaces(obuf *out, int k)
+{
+    static const char blanks[] = "                                                                ";
+    while (k > 0) {
+        int c = k < (int)sizeof blanks - 1 ? k : (int)sizeof blanks - 1;
+        ob_write(out, blanks, (size_t)c);
+        k -= c;
+    }
+}
+
+/* s (len bytes, sw columns) padded with spaces to w columns, on the left or
+ * the right */
+static void pad(obuf *out, const char *s, size_t len, int sw, int w, bool right)
+{
+    int k = w - sw;
+    if (right)
+        spaces(out, k);
+    ob_write(out, s, len);
+    if (!right)
+        spaces(out, k);
+}
+
+/* ---- a small table printer for aligned text columns ---------------------------- */
+
+/* The cells of all rows live in one growing text buffer, NUL-terminated and
+ * back to back in row order, and the column widths are kept up to date as rows
+ * arrive, so a table of a million rows costs no per-cell allocation and one
+ * pass to print, which reads the cells in the order they were stored. */
+#define TABLE_MAXCOL 12   /* the widest table, the ports', has 11 columns */
+
+typedef struct table {
+    int ncol;
+    const char *head[TABLE_MAXCOL];
+    bool right[TABLE_MAXCOL];
+    char *text;           /* NUL-terminated cells, back to back */
+    size_t len, text_cap;
+    int rows;
+    int w[TABLE_MAXCOL];  /* widest cell of each column so far */
+    bool failed;          /* out of memory: rows after it are dropped */
+} table;
+
+/* Append one row of ncol cells (NULL counts as empty); copies the text. */
+static void t_row(table *t, const char *const *cells)
+{
+    if (t->failed)
+        return;
+    size_t n[TABLE_MAXCOL], total = 0;
+    int cw[TABLE_MAXCOL];
+    for (int i = 0; i < t->ncol; i++) {
+        n[i] = measure(cells[i] ? cells[i] : "", &cw[i]) + 1;
+        total += n[i];
+    }
+    if (t->len + total > t->text_cap) {
+        size_t cap = t->text_cap ? t->text_cap * 2 : 4096;
+        while (cap < t->len + total)
+            cap *= 2;
+        char *b = realloc(t->text, cap);
+        if (!b) {
+            t->failed = true;
+            return;
+        }
+        t->text = b;
+        t->text_cap = cap;
+    }
+    for (int i = 0; i < t->ncol; i++) {
+        const char *c = cells[i] ? cells[i] : "";
+        memcpy(t->text + t->len, c, n[i]);
+        t->len += n[i];
+        t->w[i] = cw[i] > t->w[i] ? cw[i] : t->w[i];
+    }
+    t->rows++;
+}
+
+/* Print the heading and the rows aligned, then empty the table. */
+static void t_print(table *t, FILE *f)
+{
+    obuf ob, *out = &ob;
+    int w[TABLE_MAXCOL];
+    for (int c = 0; c < t->ncol; c++) {
+        w[c] = width(t->head[c]);
+        w[c] = t->w[c] > w[c] ? t->w[c] : w[c];
+    }
+    ob_init(out, f);
+    ob_puts(out, "  ");
+    for (int c = 0; c < t->ncol; c++) {
+        if (c + 1 == t->ncol && !t->right[c])
+            ob_puts(out, t->head[c]);
+        else
+            pad(out, t->head[c], strlen(t->head[c]), width(t->head[c]), w[c], t->right[c]);
+        ob_puts(out, c + 1 < t->ncol ? "  " : "\n");
+    }
+    const char *s = t->text;
+    for (int r = 0; r < t->rows; r++) {
+        ob_puts(out, "  ");
+        for (int c = 0; c < t->ncol; c++) {
+            int sw;
+            size_t len = measure(s, &sw);
+            if (c + 1 == t->ncol && !t->right[c])
+                ob_write(out, s, len);
+            else
+                pad(out, s, len, sw, w[c], t->right[c]);
+            ob_puts(out, c + 1 < t->ncol ? "  " : "\n");
+            s += len + 1;
+        }
+    }
+    ob_flush(out);
+    free(t->text);
+    t->text = NULL;
+    t->len = t->text_cap = 0;
+    t->rows = 0;
+    memset(t->w, 0, sizeof t->w);
+}
+
+/* ---- checks ------------------------------------------------------------------------- */
+
+static const char *verdict_name(ls_verdict v)
+{
+    static const char *const n[] = {"ok", "marginal", "loading"};
+    return n[v];
+}
+
+/* The check row of a port judged by the ratio rule. */
+static void ratio_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
+{
+    const ls_netlist *nl = op->nl;
+    double min = ls_op_min_ratio(op);
+    row->text = ls_arena_printf(nl->arena, "rule ratio >= %g (port %s)", min, nl->parts[i].name);
+    row->instance = nl->parts[i].instance;
+    row->loc = nl->parts[i].loc;
+    row->dims = LS_FREE;
+    row->port = i;
+    row->r.value = pr->ratio;
+    row->r.lo = min;
+    row->r.hi = INFINITY;
+    row->r.pass = pr->verdict == VERDICT_OK;
+    if (isnan(pr->ratio) && !row->r.pass)
+        row->r.reason = pr->note ? pr->note : "the ratio is undefined";
+}
+
+/* Where a port's budget comes from, in words. */
+static const char *budget_source(const ls_port_result *pr)
+{
+    switch (pr->budget_from) {
+    case LS_BUDGET_FROM_PORT: return "budget";
+    case LS_BUDGET_FROM_RULE: return "rule sag";
+    case LS_BUDGET_FROM_ADC: return "half an LSB";
+    default: return "none";
+    }
+}
+
+/* The check row of a port judged by its budget: |sag| <= budget. */
+static void budget_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    char b[64];
+    ls_fmt_eng(b, sizeof b, pr->budget, pr->current_mode ? "A" : "V", 4, true);
+    row->text = ls_arena_printf(nl->arena, "port %s: abs(sag) <= %s (%s)", p->name, b, budget_source(pr));
+    row->instance = p->instance;
+    row->loc = p->loc;
+    row->dims = pr->current_mode ? LS_AMP : LS_VOLT;
+    row->port = i;
+    row->r.value = fabs(pr->sag);
+    row->r.lo = -INFINITY;
+    row->r.hi = pr->budget;
+    row->r.pass = pr->verdict == VERDICT_OK;
+    if (isnan(pr->sag))
+        row->r.reason = pr->note ? pr->note : "the sag is undefined";
+}
+
+int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
+{
+    const ls_netlist *nl = op->nl;
+    memset(out, 0, sizeof *out);
+    int nports = 0;
+    for (int i = 0; i < nl->nparts; i++)
+        nports += nl->parts[i].kind->is_port;
+    int cap = nl->nchecks + nports;
+    out->rows = calloc((size_t)(cap ? cap : 1), sizeof *out->rows);
+    if (!out->rows)
+        return -1;
+    for (int i = 0; i < nl->nchecks; i++) {
+        const ls_check *c = &nl->checks[i];
+        ls_check_row *row = &out->rows[out->n++];
+        row->text = c->text;
+        row->instance = c->instance;
+        row->loc = c->loc;
+        row->dims = c->lhs->dims;
+        row->port = -1;
+        ls_check_eval(op, c, &row->r);
+    }
+    for (int i = 0; i < nl->nparts; i++) {
+        if (!nl->parts[i].kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_op_port(op, i);
+        if (pr->by_budget)
+            budget_row(op, i, pr, &out->rows[out->n++]);
+        else if (with_rule)
+            ratio_row(op, i, pr, &out->rows[out->n++]);
+    }
+    for (int i = 0; i < out->n; i++) {
+        if (out->rows[i].r.pass)
+            out->passed++;
+        else
+            out->failed++;
+    }
+    return 0;
+}
+
+void ls_checks_free(ls_checks *c)
+{
+    free(c->rows);
+    memset(c, 0, sizeof *c);
+}
+
+static int loc_line(const ls_diags *d, ls_loc l)
+{
+    if (l.file < 0)
+        return 0;
+    int line, col;
+    ls_loc_linecol(d, l.file, l.start, &line, &col);
+    return line;
+}
+
+static const char *loc_file(const ls_diags *d, ls_loc l)
+{
+    return l.file >= 0 ? d->files[l.file].path : "";
+}
+
+/* Line and column of a location (0, 0 for none). */
+static void loc_linecol(const ls_diags *d, ls_loc l, int *line, int *col)
+{
+    *line = *col = 0;
+    if (l.file >= 0)
+        ls_loc_linecol(d, l.file, l.start, line, col);
+}
+
+/* The "checks" array. */
+static void checks_json(const ls_report *rp, ls_jw *w, const ls_checks *c)
+{
+    ls_jw_arr(w, "checks");
+    for (int i = 0; i < c->n; i++) {
+        const ls_check_row *r = &c->rows[i];
+        ls_jw_obj(w, NULL);
+        ls_jw_str(w, "file", r->loc.file >= 0 ? loc_file(rp->diags, r->loc) : NULL);
+        ls_jw_int(w, "line", loc_line(rp->diags, r->loc));
+        ls_jw_str(w, "instance", r->instance);
+        ls_jw_str(w, "text", r->text);
+        ls_jw_num(w, "value", r->r.value);
+        ls_jw_bool(w, "pass", r->r.pass);
+        if (r->r.reason)
+            ls_jw_str(w, "reason", r->r.reason);
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+}
+
+static void checks_text(ls_report *rp, const ls_checks *c)
+{
+    FILE *o = rp->out;
+    if (!c->n)
+        return;
+    fprintf(o, "\nChecks (%d passed, %d failed)\n", c->passed, c->failed);
+    table t = {.ncol = 4, .head = {"result", "check", "value", "where"}};
+    for (int i = 0; i < c->n; i++) {
+        const ls_check_row *r = &c->rows[i];
+        char val[64], where[600], text[600];
+        ls_eng(rp, val, sizeof val, r->r.value, ls_unit_of(r->dims, rp->ascii));
+        ls_loc_str(rp->diags, r->loc, where, sizeof where);
+        if (r->instance && r->port < 0)
+            snprintf(text, sizeof text, "%s  [in %s]", r->text, r->instance);
+        else
+            snprintf(text, sizeof text, "%s", r->text);
+        const char *cells[4] = {r->r.pass ? "pass" : "FAIL", text, val, where};
+        t_row(&t, cells);
+    }
+    t_print(&t, o);
+    for (int i = 0; i < c->n; i++)
+        if (c->rows[i].r.reason)
+            fprintf(o, "  note: %s: %s\n", c->rows[i].text, c->rows[i].r.reason);
+}
+
+/* ---- warnings ----------------------------------------------------------------------- */
+
+/* "caution" for a warning about a hazard to people (its message says so),
+ * "warning" for the rest. */
+static const char *warning_level(const ls_diag *g)
+{
+    return strncmp(g->msg, "caution", 7) == 0 ? "caution" : "warning";
+}
+
+void ls_report_warnings_json(const ls_report *rp, ls_jw *w)
+{
+    const ls_diags *d = rp->diags;
+    ls_jw_arr(w, "warnings");
+    for (int i = 0; d && i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (g->sev != LS_SEV_WARNING)
+            continue;
+        int line, col;
+        loc_linecol(d, g->loc, &line, &col);
+        ls_jw_obj(w, NULL);
+        ls_jw_str(w, "code", g->code ? g->code : "warning");
+        ls_jw_str(w, "level", warning_level(g));
+        ls_jw_str(w, "message", g->msg);
+        ls_jw_str(w, "file", g->loc.file >= 0 ? loc_file(d, g->loc) : NULL);
+        if (g->loc.file >= 0) {
+            ls_jw_int(w, "line", line);
+            ls_jw_int(w, "column", col);
+        } else {
+            ls_jw_null(w, "line", LS_WHY_NONE);
+            ls_jw_null(w, "column", LS_WHY_NONE);
+        }
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+}
+
+void ls_report_warnings_csv(const ls_report *rp, FILE *out)
+{
+    const ls_diags *d = rp->diags;
+    int k = 0;
+    for (int i = 0; d && i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (g->sev != LS_SEV_WARNING)
+            continue;
+        int line, col;
+        loc_linecol(d, g->loc, &line, &col);
+        k++;
+        fprintf(out, "warning,%d,code,", k);
+        ls_csv_field(out, g->code ? g->code : "warning");
+        fprintf(out, "\nwarning,%d,level,%s\nwarning,%d,message,", k, warning_level(g), k);
+        ls_csv_field(out, g->msg);
+        fprintf(out, "\nwarning,%d,file,", k);
+        ls_csv_field(out, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
+        if (g->loc.file >= 0)
+            fprintf(out, "\nwarning,%d,line,%d\nwarning,%d,column,%d\n", k, line, k, col);
+        else
+            fprintf(out, "\nwarning,%d,line,\nwarning,%d,column,\n", k, k);
+    }
+}
+
+static void warnings_text(ls_report *rp)
+{
+    const ls_diags *d = rp->diags;
+    int k = 0;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (g->sev != LS_SEV_WARNING)
+            continue;
+        if (!k++)
+            fputs("\nWarnings\n", rp->out);
+        char where[600];
+        ls_loc_str(d, g->loc, where, sizeof where);
+        fprintf(rp->out, "  %s%s%s [%s]\n", where, where[0] ? ": " : "", g->msg, g->code ? g->code : "warning");
+    }
+}
+
+/* ---- real parts: limits, ADC inputs, thermistors ----------------------------------------- */
+
+static bool is_kind(const ls_part *p, const char *k)
+{
+    return strcmp(p->kind->name, k) == 0;
+}
+
+/* The text column: which limit holds the output, with its value. */
+static const char *limit_text(ls_report *rp, const ls_part *p, char *buf, size_t n)
+{
+    char a[64];
+    switch (p->run->state) {
+    case LS_LIM_RAIL_HIGH: snprintf(buf, n, "rail-high (upper rail - %s)",
+                                    ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
+    case LS_LIM_RAIL_LOW: snprintf(buf, n, "rail-low (lower rail + %s)",
+                                   ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
+    case LS_LIM_CURRENT_SOURCE: snprintf(buf, n, "current (sourcing %s)",
+                                         ls_eng(rp, a, sizeof a, ls_part_opt(p, "imax", 0), "A")); break;
+    case LS_LIM_CURRENT_SINK: snprintf(buf, n, "current (sinking %s)",
+                                       ls_eng(rp, a, sizeof a, ls_part_opt(p, "imax", 0), "A")); break;
+    default: snprintf(buf, n, "none"); break;
+    }
+    return buf;
+}
+
+static void adc_text(ls_report *rp, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    FILE *o = rp->out;
+    const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    table t = {.ncol = 8, .head = {"adc", "input", "code", "unloaded", "error", "source", "max source", "verdict"},
+               .right = {false, true, true, true, true, true, true, false}};
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_adc_result r;
+        const ls_part *p = &nl->parts[i];
+        if (ls_op_adc(op, i, &r) != 0)
+            continue;
+        char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64];
+        int mi = ls_kind_opt(p->kind, "max_source");
+        bool has_max = ls_part_has(p, mi);
+        char verdict[96];
+        snprintf(b2, sizeof b2, "%lld", r.code);
+        snprintf(b4, sizeof b4, "%+.3g LSB", r.error_lsb);
+        if (r.source_high && fabs(r.error_lsb) > r.budget_lsb)
+            snprintf(verdict, sizeof verdict, "%s: error over %.3g LSB, source too high", verdict_name(r.verdict),
+                     r.budget_lsb);
+        else if (r.source_high)
+            snprintf(verdict, sizeof verdict, "%s: source too high", verdict_name(r.verdict));
+        else if (r.verdict != VERDICT_OK)
+            snprintf(verdict, sizeof verdict, "%s: error over %.3g LSB", verdict_name(r.verdict), r.budget_lsb);
+        else
+            snprintf(verdict, sizeof verdict, "ok");
+        const char *c[8] = {p->name, ls_eng(rp, b1, sizeof b1, r.vin, "V"), b2,
+                            ls_eng(rp, b3, sizeof b3, r.v_open, "V"), isfinite(r.error_lsb) ? b4 : "undefined",
+                            ls_eng(rp, b5, sizeof b5, r.rth, OHM),
+                            has_max ? ls_eng(rp, b6, sizeof b6, p->opt[mi], OHM) : "-", verdict};
+        if (!t.rows)
+            fputs("\nADC inputs (error: the reading's shift from loading and leakage, judged against the feeding "
+                  "port's budget, else half an LSB)\n", o);
+        t_row(&t, c);
+    }
+    if (t.rows)
+        t_print(&t, o);
+}
+
+static void ntc_text(ls_report *rp, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    FILE *o = rp->out;
+    table t = {.ncol = 4, .head = {"thermistor", "resistance", "body", "self-heating"},
+               .right = {false, true, true, true}};
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!is_kind(p, "ntc"))
+            continue;
+        double t_amb = ls_part_opt(p, "celsius", 25), t_body = ls_ntc_body(p);
+        char b1[64], b2[64], b3[64];
+        snprintf(b2, sizeof b2, "%.4g degC", t_body);
+        snprintf(b3, sizeof b3, "%.3g K", t_body - t_amb);
+        const char *c[4] = {p->name, ls_eng(rp, b1, sizeof b1, ls_ntc_r(p, t_body), ls_unit_of(LS_OHM, rp->ascii)),
+                            b2, b3};
+        if (!t.rows)
+            fputs("\nThermistors\n", o);
+        t_row(&t, c);
+    }
+    if (t.rows)
+        t_print(&t, o);
+}
+
+/* Extra JSON keys of the real parts' entries in "parts": an adc's reading,
+ * a thermistor's resistance and temperatures. */
+static void part_extra_json(ls_jw *w, ls_op *op, int i)
+{
+    const ls_part *p = &op->nl->parts[i];
+    ls_adc_result r;
+    if (ls_op_adc(op, i, &r) == 0) {
+        ls_jw_int(w, "code", r.code);
+        ls_jw_num(w, "lsb", r.lsb);
+        ls_jw_num(w, "unloaded", r.v_open);
+        ls_jw_num(w, "error_lsb", r.error_lsb);
+        ls_jw_num(w, "source_resistance", r.rth);
+    } else if (is_kind(p, "ntc")) {
+        double t = ls_ntc_body(p);
+        ls_jw_num(w, "resistance", ls_ntc_r(p, t));
+        ls_jw_num(w, "temperature", t);
+        ls_jw_num(w, "self_heating", t - ls_part_opt(p, "celsius", 25));
+    }
+}
+
+/* The "adcs" object: what the text's ADC table shows.  The verdict judges the
+ * reading's error against budget_lsb (the feeding port's budget, else half an
+ * LSB) and the source against max_source (source_too_high). */
+static void adcs_json(ls_jw *w, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    ls_jw_obj(w, "adcs");
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_adc_result r;
+        const ls_part *p = &nl->parts[i];
+        if (ls_op_adc(op, i, &r) != 0)
+            continue;
+        int mi = ls_kind_opt(p->kind, "max_source");
+        ls_jw_obj(w, p->name);
+        ls_jw_num(w, "input", r.vin);
+        ls_jw_int(w, "code", r.code);
+        ls_jw_num(w, "unloaded", r.v_open);
+        ls_jw_num(w, "error_lsb", r.error_lsb);
+        ls_jw_num(w, "budget_lsb", r.budget_lsb);
+        ls_jw_num(w, "source", r.rth);
+        if (ls_part_has(p, mi))
+            ls_jw_num(w, "max_source", p->opt[mi]);
+        else
+            ls_jw_null(w, "max_source", LS_WHY_NONE);
+        ls_jw_bool(w, "source_too_high", r.source_high);
+        ls_jw_str(w, "verdict", verdict_name(r.verdict));
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+}
+
+/* ---- solve: text ----------------------------------------------------------------------- */
+
+static const char *method_name(ls_method m)
+{
+    static const char *const n[] = {"dense-lu", "sparse-lu", "sparse-cholesky"};
+    return n[m];
+}
+
+/* The resistors at port i's driver node whose value alone would bring zout
+ * down to zmax, as "r_bot at most 1.2 kΩ" phrases (at most two, the
+ * smallest change first), into buf; empty when none can. */
+static const char *resistor_advice(ls_report *rp, ls_op *op, int i, double zmax, char *buf, size_t n)
+{
+    const ls_netlist *nl = op->nl;
+    int f = nl->parts[i].pin[0], best[2] = {-1, -1};
+    double val[2] = {NAN, NAN}, change[2] = {INFINITY, INFINITY};
+    buf[0] = 0;
+    for (int j = 0; j < nl->nparts && f > 0; j++) {
+        const ls_part *r = &nl->parts[j];
+        if (strcmp(r->kind->name, "resistor") != 0 || (r->pin[0] != f && r->pin[1] != f))
+            continue;
+        double v = ls_port_resistor_for_zout(op, i, j, zmax);
+        if (!(v > 0) || !(v < r->value))
+            continue;
+        double c = r->value / v;   /* how many times smaller */
+        int k = c < change[0] ? 0 : c < change[1] ? 1 : 2;
+        if (k == 2)
+            continue;
+        if (k == 0) {
+            best[1] = best[0], val[1] = val[0], change[1] = change[0];
+        }
+        best[k] = j, val[k] = v, change[k] = c;
+    }
+    for (int k = 0; k < 2 && best[k] >= 0; k++) {
+        char v[64];
+        size_t l = strlen(buf);
+        snprintf(buf + l, n - l, "%s%s at most %s", k ? ", or " : "", nl->parts[best[k]].name,
+                 ls_eng(rp, v, sizeof v, val[k], ls_unit_of(LS_OHM, rp->ascii)));
+    }
+    return buf;
+}
+
+/* Advice for a voltage-mode port that misses its budget, in the budget's
+ * terms: sag = open zout / (zout + zin) of a loaded divider is within B when
+ * zin/zout >= |open|/B - 1, which sets the ratio needed, the largest zout and
+ * the smallest zin. */
+static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+{
+    const ls_part *p = &op->nl->parts[i];
+    const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char sag[64], bud[64], need[64], zmax[64], zmin[64], parts[300], lsb[96] = "";
+    ls_eng(rp, sag, sizeof sag, fabs(pr->sag), "V");
+    ls_eng(rp, bud, sizeof bud, pr->budget, "V");
+    if (pr->adc >= 0) {
+        const ls_part *a = &op->nl->parts[pr->adc];
+        snprintf(lsb, sizeof lsb, " (%.3g LSB of %s)", fabs(pr->sag) / ls_adc_lsb(a), a->name);
+    }
+    fprintf(rp->out, "  -> %s: the sag of %s%s is over its budget of %s (%s).", p->name, sag, lsb, bud,
+            budget_source(pr));
+    double req = fabs(pr->open) / pr->budget - 1;
+    if (!isfinite(req) || !(req > 0) || !isfinite(pr->zin) || !(pr->zout > 0)) {
+        fputs(" A buffer (an op-amp follower) between the stages removes the load from the driver.\n", rp->out);
+        return;
+    }
+    double zo = pr->zin / req;
+    ls_eng(rp, need, sizeof need, req, "");
+    ls_eng(rp, zmax, sizeof zmax, zo, OHM);
+    ls_eng(rp, zmin, sizeof zmin, pr->zout * req, OHM);
+    resistor_advice(rp, op, i, zo, parts, sizeof parts);
+    fprintf(rp->out, " To meet it: zin/zout of at least %s, e.g. a buffer (an op-amp follower) between them, "
+                     "or a driver with zout at most %s%s%s%s, or a load with zin at least %s.\n",
+            need, zmax, parts[0] ? " (" : "", parts, parts[0] ? ")" : "", zmin);
+}
+
+/* The numbers of the advice for a port that fails its verdict, as the JSON's
+ * "fix" carries them.  By the ratio rule: with a voltage port, the largest
+ * driver zout and the smallest load zin that would meet it ("zout_max",
+ * "zin_min"); with a current port, the largest load zin and the smallest
+ * source zout ("zin_max", "zout_min").  By a budget (voltage ports): the
+ * zin/zout the budget needs ("ratio_min"), then "zout_max" and "zin_min" for
+ * that ratio.  Returns how many fields were set (0: nothing to say: the port
+ * passes, its ratio is undefined, its load is a short to ground, or its budget
+ * gives no finite ratio). */
+static int fix_limits(ls_op *op, const ls_port_result *pr, const char *field[3], double v[3])
+{
+    if (pr->verdict == VERDICT_OK)
+        return 0;
+    if (pr->by_budget) {
+        double req = fabs(pr->open) / pr->budget - 1;
+        if (pr->current_mode || !isfinite(pr->sag) || !isfinite(req) || !(req > 0) || !isfinite(pr->zin) ||
+            !(pr->zout > 0))
+            return 0;
+        field[0] = "ratio_min", v[0] = req;
+        field[1] = "zout_max", v[1] = pr->zin / req;
+        field[2] = "zin_min", v[2] = pr->zout * req;
+        return 3;
+    }
+    double min = ls_op_min_ratio(op);
+    if (isnan(pr->ratio) || (!pr->current_mode && pr->zin == 0))
+        return 0;
+    field[0] = pr->current_mode ? "zin_max" : "zout_max";
+    field[1] = pr->current_mode ? "zout_min" : "zin_min";
+    v[0] = pr->current_mode ? pr->zout / min : pr->zin / min;
+    v[1] = pr->current_mode ? pr->zin * min : pr->zout * min;
+    return 2;
+}
+
+/* One line for a port that fails its budget or the ratio: the largest zout or
+ * the smallest zin that would meet it, or a buffer. */
+static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+{
+    const ls_part *p = &op->nl->parts[i];
+    double min = ls_op_min_ratio(op);
+    const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char r[64], lo[64], hi[64];
+    if (pr->verdict == VERDICT_OK)
+        return;
+    if (pr->by_budget && !pr->current_mode && isfinite(pr->sag)) {
+        budget_advice(rp, op, i, pr);
+        return;
+    }
+    if (isnan(pr->ratio)) {
+        fprintf(rp->out, "  -> %s: the loading ratio is undefined%s%s.\n", p->name, pr->note ? ": " : "",
+                pr->note ? pr->note : "");
+        return;
+    }
+    if (pr->by_budget) {   /* current mode, or an unbounded sag: the ratio still says which side to change */
+        char s[64], b[64];
+        fprintf(rp->out, "  -> %s: the sag of %s is over its budget of %s (%s).\n", p->name,
+                ls_eng(rp, s, sizeof s, fabs(pr->sag), pr->current_mode ? "A" : "V"),
+                ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V"), budget_source(pr));
+        return;
+    }
+    ls_eng(rp, r, sizeof r, pr->ratio, "");
+    const char *ff[3];
+    double fv[3];
+    bool fix = fix_limits(op, pr, ff, fv) > 0; /* the numbers the JSON's "fix" carries */
+    if (pr->current_mode && fix) {
+        ls_eng(rp, lo, sizeof lo, fv[0], OHM);
+        ls_eng(rp, hi, sizeof hi, fv[1], OHM);
+        fprintf(rp->out, "  -> %s: zout/zin = %s is below %g. To meet it: a load (zin) of at most %s, or a source "
+                         "(zout) of at least %s.\n",
+                p->name, r, min, lo, hi);
+        return;
+    }
+    if (!fix) {
+        fprintf(rp->out, "  -> %s: the load side is a short to ground (zin = 0); no driver can meet the ratio.\n",
+                p->name);
+        return;
+    }
+    ls_eng(rp, lo, sizeof lo, fv[0], OHM);
+    ls_eng(rp, hi, sizeof hi, fv[1], OHM);
+    fprintf(rp->out, "  -> %s: zin/zout = %s is below the %g x rule. To meet it: a driver with zout at most %s, or a load "
+                     "with zin at least %s, or a buffer (an op-amp follower) between them.\n",
+            p->name, r, min, lo, hi);
+}
+
+/* The budget cell of a port: "402.8 µV (½ LSB)", "-" without one. */
+static const char *budget_cell(ls_report *rp, const ls_port_result *pr, char *buf, size_t n)
+{
+    char b[64];
+    if (isnan(pr->budget))
+        return "-";
+    ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V");
+    const char *src = pr->budget_from == LS_BUDGET_FROM_ADC ? "half LSB"
+                    : pr->budget_from == LS_BUDGET_FROM_RULE ? "rule" : "";
+    snprintf(buf, n, *src ? "%s (%s)" : "%s", b, src);
+    return buf;
+}
+
+/* The ports table, the note on held load sides (once) and the advice. */
+static void ports_text(ls_report *rp, ls_op *op)
+{
+    FILE *o = rp->out;
+    const ls_netlist *nl = op->nl;
+    const char *V = "V", *A = "A", *OHM = ls_unit_of(LS_OHM, rp->ascii);
+    char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64], b7[64], bud[96], verdict[48];
+    fprintf(o, "\nPorts (verdict: the sag against the port's budget where it has one, else zin/zout of at least %g)\n",
+            ls_op_min_ratio(op));
+    table p = {.ncol = 11,
+               .head = {"port", "driver -> load", "open", "loaded", "sag", "budget", "zout", "zin", "ratio", "current",
+                        "verdict"},
+               .right = {false, false, true, true, true, true, true, true, true, true, false}};
+    int held = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *pt = &nl->parts[i];
+        if (!pt->kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_op_port(op, i);
+        const char *u = pr->current_mode ? A : V;
+        char conn[600], sag[96];
+        held += pr->load_held;
+        snprintf(conn, sizeof conn, "%s -> %s%s", nl->nodes[pt->pin[0]].name, nl->nodes[pt->pin[1]].name,
+                 pr->current_mode ? " (current)" : "");
+        ls_eng(rp, b3, sizeof b3, pr->sag, u);
+        if (isfinite(pr->sag_rel) && pr->sag != 0)
+            snprintf(sag, sizeof sag, "%s (%.3g%%)", b3, pr->sag_rel * 100);
+        else
+            snprintf(sag, sizeof sag, "%s", b3);
+        snprintf(verdict, sizeof verdict, "%s (%s)", verdict_name(pr->verdict), pr->by_budget ? "budget" : "ratio");
+        const char *c[11] = {pt->name, conn, ls_eng(rp, b1, sizeof b1, pr->open, u),
+                             ls_eng(rp, b2, sizeof b2, pr->loaded, u), sag, budget_cell(rp, pr, bud, sizeof bud),
+                             ls_eng(rp, b4, sizeof b4, pr->zout, OHM), ls_eng(rp, b5, sizeof b5, pr->zin, OHM),
+                             ls_eng(rp, b6, sizeof b6, pr->ratio, ""), ls_eng(rp, b7, sizeof b7, pr->current, A),
+                             verdict};
+        t_row(&p, c);
+    }
+    t_print(&p, o);
+    if (held) {
+        fputs("  note: the load side of", o);
+        int k = 0;
+        for (int i = 0; i < nl->nparts; i++)
+            if (nl->parts[i].kind->is_port && ls_op_port(op, i)->load_held)
+                fprintf(o, "%s %s", k++ ? (k == held ? " and" : ",") : "", nl->parts[i].name);
+        fprintf(o, " has no DC path of its own once opened (an input that only a controlled source senses); "
+                   "it was held at its loaded voltage while open and zout were computed, and zin is unbounded.\n");
+    }
+    for (int i = 0; i < nl->nparts; i++)
+        if (nl->parts[i].kind->is_port)
+            fix_advice(rp, op, i, ls_op_port(op, i));
+}
+
+/* v formatted as ls_eng does, with a leading "~" when its error bound says
+ * its last printed digit may be wrong (accuracy.h). */
+static const char *eng_bounded(ls_report *rp, char *buf, size_t n, double v, const char *unit, double bound,
+                               double scale, int *marked)
+{
+    if (!ls_acc_doubtful(v, bound, rp->sig, scale))
+        return ls_eng(rp, buf, n, v, unit);
+    buf[0] = '~';
+    ls_eng(rp, buf + 1, n - 1, v, unit);
+    (*marked)++;
+    return buf;
+}
+
+/* The accuracy line under the solver line: which refinement ran and whether
+ * the printed digits are all within their error bounds. */
+static void accuracy_text(ls_report *rp, ls_op *op, int marked)
+{
+    const ls_accuracy *a = &op->acc;
+    const char *how = !a->refined ? "iterative refinement in double precision (a circuit with nonlinear parts)"
+                      : a->extended ? "extra-precise refinement (residuals in double-double), needed here"
+                                    : "double precision, confirmed by an extra-precise residual";
+    if (!a->have_bounds)
+        fprintf(rp->out, "accuracy: %s; no error bounds (out of memory)\n", how);
+    else if (marked)
+        fprintf(rp->out, "accuracy: %s; %d number%s marked ~ may be wrong in %s last printed digit\n", how, marked,
+                marked == 1 ? "" : "s", marked == 1 ? "its" : "their");
+    else
+        fprintf(rp->out, "accuracy: %s; every voltage and current is right to the digits printed%s\n", how,
+                a->estimated ? " (by an estimated bound)" : "");
+}
+
+static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    FILE *o = rp->out;
+    const ls_netlist *nl = op->nl;
+    const char *V = "V", *A = "A", *W = "W";
+    char b1[64], b2[64], b3[64];
+    fprintf(o, "%s\n", nl->title ? nl->title : "(untitled circuit)");
+    fprintf(o, "solved: %d unknowns by %s (%s), reciprocal condition %.2g, relative residual %.2g\n", op->mna.n,
+            method_name(op->method), ls_solver_stats_of(op->solver)->library, op->rcond, op->residual);
+
+    if (op->iterations > 1)
+        fprintf(o, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
+    /* marks need the bounds; count them first so the accuracy line can say how many */
+    bool bounds = ls_acc_bounds(op) == 0;
+    const ls_accuracy *acc = &op->acc;
+    double vscale = ls_acc_scale(op, 0), iscale = ls_acc_scale(op, 1);
+    int marked = 0;
+    for (int i = 0; bounds && i < nl->nnodes; i++)
+        marked += ls_acc_doubtful(op->v[i], acc->node_bound[i], rp->sig, vscale);
+    for (int i = 0; bounds && i < nl->nparts; i++)
+        marked += !nl->parts[i].kind->is_port && ls_acc_doubtful(op->ipart[i], acc->part_bound[i], rp->sig, iscale);
+    accuracy_text(rp, op, marked);
+    int dummy = 0;
+
+    fputs("\nNodes\n", o);
+    bool hazard = false;
+    for (int i = 0; i < nl->nnodes; i++)
+        hazard |= fabs(op->v[i]) > LS_TOUCH_SAFE_DC;
+    table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
+    for (int i = 0; i < nl->nnodes; i++) {
+        prefetch_node_name(nl, i);
+        const char *c[3] = {nl->nodes[i].name,
+                            bounds ? eng_bounded(rp, b1, sizeof b1, op->v[i], V, acc->node_bound[i], vscale, &dummy)
+                                   : ls_eng(rp, b1, sizeof b1, op->v[i], V),
+                            fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
+        t_row(&t, c);
+    }
+    t_print(&t, o);
+
+    int nparts = 0, nports = 0, nops = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        nports += nl->parts[i].kind->is_port;
+        nops += nl->parts[i].kind->is_opamp;
+        nparts += !nl->parts[i].kind->is_port;
+    }
+    if (nparts) {
+        fputs("\nParts\n", o);
+        table p = {.ncol = 5, .head = {"part", "kind", "current", "voltage", "power"},
+                   .right = {false, false, true, true, true}};
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *pt = &nl->parts[i];
+            prefetch_part_name(nl, i);
+            if (pt->kind->is_port)
+                continue;
+            const char *c[5] = {pt->name, pt->kind->name,
+                                bounds ? eng_bounded(rp, b1, sizeof b1, op->ipart[i], A, acc->part_bound[i], iscale,
+                                                     &dummy)
+                                       : ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
+                                ls_eng(rp, b2, sizeof b2, op->vpart[i], V), ls_eng(rp, b3, sizeof b3, op->ppart[i], W)};
+            t_row(&p, c);
+        }
+        t_print(&p, o);
+    }
+    if (nports)
+        ports_text(rp, op);
+    if (nops) {
+        fputs("\nOp-amps\n", o);
+        /* the dissipation column only where some op-amp has rails= to reckon it from */
+        bool rails = false;
+        for (int i = 0; i < nl->nparts; i++)
+            rails |= isfinite(ls_opamp_dissipation(op, i));
+        table p = {.ncol = rails ? 5 : 4, .head = {"op-amp", "out", "current", "dissipation", "limit"},
+                   .right = {false, true, true, true, false}};
+        if (!rails) {
+            p.head[3] = "limit";
+            p.right[3] = false;
+        }
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *pt = &nl->parts[i];
+            if (!pt->kind->is_opamp)
+                continue;
+            char lim[96];
+            double pd = ls_opamp_dissipation(op, i);
+            const char *c[5] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], V),
+                                ls_eng(rp, b2, sizeof b2, op->ipart[i], A),
+                                isfinite(pd) ? ls_eng(rp, b3, sizeof b3, pd, W) : "-",
+                                limit_text(rp, pt, lim, sizeof lim)};
+            if (!rails)
+                c[3] = c[4];
+            t_row(&p, c);
+        }
+        t_print(&p, o);
+    }
+    adc_text(rp, op);
+    ntc_text(rp, op);
+    checks_text(rp, checks);
+    warnings_text(rp);
+}
+
+/* ---- solve: JSON and CSV ------------------------------------------------------------------ */
+
+/* The "accuracy" object: how the error bounds were found, the bound of every
+ * node voltage (V; null, unbounded, when no first-order bound holds), and the
+ * worst node and part against their own values. */
+static void accuracy_json(ls_jw *w, ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_accuracy *a = &op->acc;
+    ls_jw_obj(w, "accuracy");
+    ls_jw_str(w, "bounds", !a->reliable ? "none" : a->estimated ? "estimate" : "per-result");
+    int wrap = w->wrap;
+    w->wrap = 1; /* the bounds on one line */
+    ls_jw_obj(w, "nodes");
+    for (int i = 0; i < nl->nnodes; i++)
+        ls_jw_num_why(w, nl->nodes[i].name, a->reliable ? a->node_bound[i] : INFINITY, LS_WHY_UNBOUNDED);
+    ls_jw_end(w);
+    w->wrap = wrap;
+    if (a->worst_node >= 0) {
+        ls_jw_str(w, "worst_node", nl->nodes[a->worst_node].name);
+        ls_jw_num(w, "worst_node_rel", a->worst_node_rel);
+    }
+    if (a->worst_part >= 0) {
+        ls_jw_str(w, "worst_part", nl->parts[a->worst_part].name);
+        ls_jw_num(w, "worst_part_rel", a->worst_part_rel);
+    }
+    ls_jw_end(w);
+}
+
+static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    ls_jw jw, *w = &jw;
+    const ls_netlist *nl = op->nl;
+    ls_report_json_begin(rp, w);
+    ls_jw_str(w, "title", nl->title);
+    int wrap = w->wrap;
+    w->wrap = 1; /* the solver on one line */
+    ls_jw_obj(w, "solver");
+    ls_jw_str(w, "method", method_name(op->method));
+    ls_jw_str(w, "library", ls_solver_stats_of(op->solver)->library);
+    ls_jw_int(w, "unknowns", op->mna.n);
+    ls_jw_num(w, "rcond", op->rcond);
+    ls_jw_num(w, "residual", op->residual);
+    ls_jw_int(w, "iterations", op->iterations);
+    ls_jw_str(w, "refinement", !op->acc.refined ? "double" : op->acc.extended ? "extended" : "double-confirmed");
+    ls_jw_int(w, "refinement_steps", op->acc.steps);
+    ls_jw_end(w);
+    w->wrap = wrap;
+    bool bounds = ls_acc_bounds(op) == 0;
+    ls_jw_obj(w, "nodes");
+    for (int i = 0; i < nl->nnodes; i++) {
+        prefetch_node_name(nl, i);
+        ls_jw_num(w, nl->nodes[i].name, op->v[i]);
+    }
+    ls_jw_end(w);
+    ls_jw_obj(w, "parts");
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        prefetch_part_name(nl, i);
+        if (p->kind->is_port)
+            continue;
+        ls_jw_obj(w, p->name);
+        ls_jw_str(w, "kind", p->kind->name);
+        ls_jw_num(w, "current", op->ipart[i]);
+        ls_jw_num(w, "voltage", op->vpart[i]);
+        ls_jw_num(w, "power", op->ppart[i]);
+        if (bounds && !isnan(op->acc.part_bound[i]))
+            ls_jw_num_why(w, "error_bound", op->acc.part_bound[i], LS_WHY_UNBOUNDED);
+        part_extra_json(w, op, i);
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+    ls_jw_num(w, "min_ratio", ls_op_min_ratio(op));
+    ls_jw_obj(w, "ports");
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_op_port(op, i);
+        ls_jw_obj(w, p->name);
+        ls_jw_str(w, "from", nl->nodes[p->pin[0]].name);
+        ls_jw_str(w, "to", nl->nodes[p->pin[1]].name);
+        ls_jw_str(w, "mode", pr->current_mode ? "current" : "voltage");
+        ls_jw_num(w, "open", pr->open);
+        ls_jw_num(w, "loaded", pr->loaded);
+        ls_jw_num(w, "sag", pr->sag);
+        ls_jw_num(w, "sag_rel", pr->sag_rel);
+        ls_jw_num(w, "zout", pr->zout);
+        ls_jw_num(w, "zin", pr->zin);
+        ls_jw_num(w, "ratio", pr->ratio);
+        ls_jw_num(w, "current", pr->current);
+        ls_report_budget_json(w, pr);
+        if (pr->load_held)
+            ls_jw_bool(w, "load_held", true);
+        ls_jw_str(w, "verdict", verdict_name(pr->verdict));
+        if (pr->note)
+            ls_jw_str(w, "note", pr->note);
+        const char *ff[3];
+        double fv[3];
+        int nf = fix_limits(op, pr, ff, fv);
+        if (nf) {
+            ls_jw_obj(w, "fix");
+            for (int j = 0; j < nf; j++)
+                ls_jw_num(w, ff[j], fv[j]);
+            ls_jw_end(w);
+        }
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+    ls_jw_obj(w, "opamps");
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_opamp)
+            continue;
+        ls_jw_obj(w, p->name);
+        ls_jw_num(w, "out", op->v[p->pin[2]]);
+        ls_jw_num(w, "current", op->ipart[i]);
+        ls_jw_str(w, "limited", ls_opamp_limit_word(p));
+        double pd = ls_opamp_dissipation(op, i);
+        if (isfinite(pd))
+            ls_jw_num(w, "dissipation", pd);
+        else
+            ls_jw_null(w, "dissipation", LS_WHY_NONE); /* no rails= to reckon it from */
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+    adcs_json(w, op);
+    checks_json(rp, w, checks);
+    ls_jw_int(w, "passed", checks->passed);
+    ls_jw_int(w, "failed", checks->failed);
+    if (bounds)
+        accuracy_json(w, op);
+    ls_report_warnings_json(rp, w);
+    ls_jw_finish(w);
+}
+
+static void csv_head(obuf *o, const char *section, const char *name, const char *field)
+{
+    ob_csv_field(o, section);
+    ob_putc(o, ',');
+    ob_csv_field(o, name);
+    ob_putc(o, ',');
+    ob_csv_field(o, field);
+    ob_putc(o, ',');
+}
+
+/* One section,name,field,value row of a number (empty when not finite). */
+static void csv_row(obuf *o, const char *section, const char *name, const char *field, double v)
+{
+    csv_head(o, section, name, field);
+    ob_csv_number(o, v);
+    ob_putc(o, '\n');
+}
+
+/* One row of a word (a verdict, a limit, a name); empty for NULL. */
+static void csv_word(obuf *o, const char *section, const char *name, const char *field, const char *word)
+{
+    csv_head(o, section, name, field);
+    ob_csv_field(o, word ? word : "");
+    ob_putc(o, '\n');
+}
+
+/* The check rows shared by solve's CSV: value and result (pass or fail, the
+ * words of check's CSV). */
+static void checks_csv_rows(obuf *o, const ls_checks *checks)
+{
+    for (int i = 0; i < checks->n; i++) {
+        const ls_check_row *r = &checks->rows[i];
+        csv_row(o, "check", r->text, "value", r->r.value);
+        csv_word(o, "check", r->text, "result", r->r.pass ? "pass" : "fail");
+        if (r->r.reason)
+            csv_word(o, "check", r->text, "reason", r->r.reason);
+    }
+}
+
+static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    obuf ob, *o = &ob;
+    ob_init(o, rp->out);
+    const ls_netlist *nl = op->nl;
+    ob_puts(o, "section,name,field,value\n");
+    csv_row(o, "rule", "ratio", "min", ls_op_min_ratio(op));
+    for (int i = 0; i < nl->nnodes; i++) {
+        prefetch_node_name(nl, i);
+        csv_row(o, "node", nl->nodes[i].name, "voltage", op->v[i]);
+    }
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        prefetch_part_name(nl, i);
+        if (p->kind->is_port) {
+            const ls_port_result *pr = ls_op_port(op, i);
+            const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget"};
+            double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current,
+                          pr->budget};
+            csv_word(o, "port", p->name, "from", nl->nodes[p->pin[0]].name);
+            csv_word(o, "port", p->name, "to", nl->nodes[p->pin[1]].name);
+            csv_word(o, "port", p->name, "mode", pr->current_mode ? "current" : "voltage");
+            for (int j = 0; j < 9; j++)
+                csv_row(o, "port", p->name, f[j], v[j]);
+            csv_word(o, "port", p->name, "by", pr->by_budget ? "budget" : "ratio");
+            if (pr->load_held)
+                csv_word(o, "port", p->name, "load_held", "true");
+            csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
+            if (pr->note)
+                csv_word(o, "port", p->name, "note", pr->note);
+            const char *ff[3];
+            double fv[3];
+            int nf = fix_limits(op, pr, ff, fv);
+            for (int j = 0; j < nf; j++) {
+                char fld[32];
+                snprintf(fld, sizeof fld, "fix.%s", ff[j]);
+                csv_row(o, "port", p->name, fld, fv[j]);
+            }
+            continue;
+        }
+        csv_word(o, "part", p->name, "kind", p->kind->name);
+        csv_row(o, "part", p->name, "current", op->ipart[i]);
+        csv_row(o, "part", p->name, "voltage", op->vpart[i]);
+        csv_row(o, "part", p->name, "power", op->ppart[i]);
+        if (p->kind->is_opamp) {
+            csv_row(o, "opamp", p->name, "out", op->v[p->pin[2]]);
+            csv_word(o, "opamp", p->name, "limited", ls_opamp_limit_word(p));
+            csv_row(o, "opamp", p->name, "dissipation", ls_opamp_dissipation(op, i));
+        }
+        ls_adc_result r;
+        if (ls_op_adc(op, i, &r) == 0) {
+            int mi = ls_kind_opt(p->kind, "max_source");
+            csv_row(o, "adc", p->name, "input", r.vin);
+            csv_row(o, "adc", p->name, "code", (double)r.code);
+            csv_row(o, "adc", p->name, "lsb", r.lsb);
+            csv_row(o, "adc", p->name, "unloaded", r.v_open);
+            csv_row(o, "adc", p->name, "error_lsb", r.error_lsb);
+            csv_row(o, "adc", p->name, "budget_lsb", r.budget_lsb);
+            csv_row(o, "adc", p->name, "source", r.rth);
+            csv_row(o, "adc", p->name, "max_source", ls_part_has(p, mi) ? p->opt[mi] : NAN);
+            csv_word(o, "adc", p->name, "source_too_high", r.source_high ? "true" : "false");
+            csv_word(o, "adc", p->name, "verdict", verdict_name(r.verdict));
+        } else if (is_kind(p, "ntc")) {
+            double t = ls_ntc_body(p);
+            csv_row(o, "part", p->name, "resistance", ls_ntc_r(p, t));
+            csv_row(o, "part", p->name, "temperature", t);
+            csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "celsius", 25));
+        }
+    }
+    checks_csv_rows(o, checks);
+    csv_row(o, "checks", "all", "passed", checks->passed);
+    csv_row(o, "checks", "all", "failed", checks->failed);
+    ob_flush(o);
+    ls_report_warnings_csv(rp, rp->out);
+}
+
+void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    switch (rp->fmt) {
+    case FMT_TEXT: solve_text(rp, op, checks); break;
+    case FMT_JSON: solve_json(rp, op, checks); break;
+    case FMT_CSV: solve_csv(rp, op, checks); break;
+    case FMT_HTML: break; /* the page is html.c's, called by the command */
+    }
+}
+
+/* Is warning g one that --fail-on fails on? */
+static bool failing_warning(const ls_report *rp, const ls_diag *g)
+{
+    for (int k = 0; g->sev == LS_SEV_WARNING && g->code && k < rp->nfailed_warnings; k++)
+        if (strcmp(rp->failed_warnings[k], g->code) == 0)
+            return true;
+    return false;
+}
+
+/* check, text: each warning that --fail-on fails on, as a failed line. */
+static void failed_warnings_text(ls_report *rp)
+{
+    const ls_diags *d = rp->diags;
+    int k = 0;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (!failing_warning(rp, g))
+            continue;
+        if (!k++)
+            fputs("\nWarnings that fail the check (--fail-on)\n", rp->out);
+        char where[600];
+        ls_loc_str(d, g->loc, where, sizeof where);
+        fprintf(rp->out, "  FAIL    %s  %s%s%s\n", g->code, where, where[0] ? ": " : "", g->msg);
+    }
+}
+
+/* check, CSV: each warning that --fail-on fails on, as a row that did not pass. */
+static void failed_warnings_csv(ls_report *rp, obuf *ob)
+{
+    const ls_diags *d = rp->diags;
+    for (int i = 0; i < d->n; i++) {
+        const ls_diag *g = &d->items[i];
+        if (!failing_warning(rp, g))
+            continue;
+        char text[1200];
+        snprintf(text, sizeof text, "warning %s: %s", g->code, g->msg);
+        ob_csv_field(ob, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
+        if (g->loc.file >= 0)
+            ob_printf(ob, ",%d,,", loc_line(d, g->loc));
+        else
+            ob_puts(ob, ",,,");
+        ob_csv_field(ob, text);
+        ob_puts(ob, ",,false\n");
+    }
+}
+
+void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
+{
+    FILE *o = rp->out;
+    (void)op;
+    if (rp->fmt == FMT_JSON) {
+        ls_jw w;
+        ls_report_json_begin(rp, &w);
+        checks_json(rp, &w, checks);
+        ls_jw_int(&w, "passed", checks->passed);
+        ls_jw_int(&w, "failed", checks->failed);
+        ls_jw_arr(&w, "failed_warnings");
+        for (int i = 0; i < rp->nfailed_warnings; i++)
+            ls_jw_str(&w, NULL, rp->failed_warnings[i]);
+        ls_jw_end(&w);
+        ls_report_warnings_json(rp, &w);
+        ls_jw_finish(&w);
+    } else if (rp->fmt == FMT_CSV) {
+        obuf ob;
+        ob_init(&ob, o);
+        ob_puts(&ob, "file,line,instance,text,value,result\n");
+        for (int i = 0; i < checks->n; i++) {
+            const ls_check_row *r = &checks->rows[i];
+            ob_csv_field(&ob, loc_file(rp->diags, r->loc));
+            ob_printf(&ob, ",%d,", loc_line(rp->diags, r->loc));
+            ob_csv_field(&ob, r->instance ? r->instance : "");
+            ob_putc(&ob, ',');
+            ob_csv_field(&ob, r->text);
+            ob_putc(&ob, ',');
+            ob_csv_number(&ob, r->r.value);
+            ob_puts(&ob, r->r.pass ? ",pass\n" : ",fail\n");
+        }
+        failed_warnings_csv(rp, &ob);
+        ob_flush(&ob);
+    } else {
+        if (!checks->n)
+            fputs("no checks in this circuit (add 'expect' lines or a 'rule')\n", o);
+        checks_text(rp, checks);
+        failed_warnings_text(rp);
+        if (rp->nfailed_warnings) {
+            fprintf(o, "\nFAILED: %d passed, %d failed; warnings named by --fail-on:", checks->passed, checks->failed);
+            for (int i = 0; i < rp->nfailed_warnings; i++)
+                fprintf(o, "%s %s", i ? "," : "", rp->failed_warnings[i]);
+            fputc('\n', o);
+        } else
+            fprintf(o, "\n%s: %d passed, %d failed\n", checks->failed ? "FAILED" : "all checks pass",
+                    checks->passed, checks->failed);
+    }
+}
+
+/* ---- aligned tables for the other commands' text reports ------------------------------- */
+
+void ls_text_table(FILE *f, int ncol, const char *const *head, const bool *right, const char *const *cells,
+                   int nrows)
+{
+    table t = {.ncol = ncol < 10 ? ncol : 10};
+    for (int c = 0; c < t.ncol; c++) {
+        t.head[c] = head[c];
+        t.right[c] = right[c];
+    }
+    for (int r = 0; r < nrows; r++)
+        t_row(&t, cells + (size_t)r * (size_t)ncol);
+    t_print(&t, f);
+}

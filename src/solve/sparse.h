@@ -1,0 +1,25 @@
+/* sparse.h — choosing among the SuiteSparse backends declared in solver.h. */
+#ifndef LS_SPARSE_H
+#define LS_SPARSE_H
+
+#include "solve/solver.h"
+
+/* Pick the sparse backend for `a` from its structure and values (see the rule in
+ * sparse_select.c).  Never NULL.  *method_out (may be NULL) gets
+ * LS_METHOD_SPARSE_CHOLESKY for CHOLMOD, else LS_METHOD_SPARSE_LU.  A CHOLMOD
+ * pick is a prediction: on LS_SOLVER_NOT_SPD the caller retries with LU. */
+const ls_backend *ls_sparse_pick(const ls_csc *a, ls_method *method_out);
+
+/* Estimated floating-point operations of a sparse LU of `a` (divisions plus
+ * twice the multiply-subtract pairs of AMD's ordering of A+A^T, no pivoting),
+ * or -1 when the estimate could not be made (memory).  O(nnz) time. */
+double ls_sparse_lu_flops(const ls_csc *a);
+
+/* Relative tolerance under which a_ij and a_ji count as equal. */
+#define LS_SPARSE_SYM_TOL (8 * 2.220446049250313e-16)
+
+/* -1 if A equals A^T (pattern, and values within LS_SPARSE_SYM_TOL), otherwise a
+ * column where they differ.  `work` is n ints of scratch.  O(nnz). */
+int ls_csc_asym_column(const ls_csc *a, int *work);
+
+#endif
