@@ -518,6 +518,7 @@ int ls_op_resolve(ls_op *op)
     free(op->tout);
     free(op->low);
     op->tin = op->tout = op->low = NULL;
+    op->grounded_nodes = 0;
     op->anorm = 0; /* the values (and an adc's range) may have changed */
     free(op->adc_at);
     op->adc_at = NULL;

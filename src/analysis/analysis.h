@@ -66,6 +66,7 @@ typedef struct ls_op {
     int *adc_at;             /* per node: the adc with the smallest LSB on it, or -1; NULL: not yet built */
     struct ls_selinv *selinv;   /* entries of A^-1 for large systems (selinv.h); owned */
     int selinv_state;        /* 0 not tried, 1 built, -1 not used (small, inaccurate or no memory) */
+    int grounded_nodes;      /* 1 + the nodes with a DC path to ground (from tin); 0: not yet counted */
     size_t work_n;
     ls_accuracy acc;         /* extra-precise tail of x and the error bounds (accuracy.h) */
 } ls_op;

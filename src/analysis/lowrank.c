@@ -274,6 +274,39 @@ bool ls_removal_keeps_edges(const ls_part *p)
     return strcmp(k, "voltage") == 0 || strcmp(k, "vcvs") == 0 || strcmp(k, "ccvs") == 0;
 }
 
+static int dc_bridges(ls_op *op);
+
+/* Edge callback: count a part's DC paths. */
+static void count_edge(void *ctx, int a, int b, bool vdef, int part)
+{
+    (void)a;
+    (void)b;
+    (void)vdef;
+    (void)part;
+    (*(int *)ctx)++;
+}
+
+/* Does removing (opening) part leave every node with its DC path to ground,
+ * by the bridges found once per solution?  True only when every node has a
+ * path in the whole circuit and the part's single DC path is no bridge; false
+ * when unsure (then the union-find decides).  Saves a pass over every part
+ * per what-if row. */
+static bool removal_floats_nothing(ls_op *op, const ls_part *p, int part)
+{
+    if (dc_bridges(op) != 0)
+        return false;
+    int nn = op->nl->nnodes, edges = 0;
+    if (op->grounded_nodes == 0) {   /* counted once per solution */
+        op->grounded_nodes = 1;
+        for (int i = 0; i < nn; i++)
+            op->grounded_nodes += op->tin[i] >= 0;
+    }
+    if (op->grounded_nodes - 1 != nn)
+        return false;
+    p->kind->edges(p, &edges, count_edge);
+    return edges == 0 || (edges == 1 && !op->bridge_part[part]);
+}
+
 /* Mark the nodes with no DC path to ground once the part is changed.
  * Returns their number, or -1 when out of memory. */
 static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
@@ -287,7 +320,7 @@ static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
         return -1;
     for (int i = 0; i < nn; i++)
         m->float_row[i] = -1;
-    if (ls_removal_keeps_edges(p) && kind == MOD_REMOVE_PART)
+    if (kind == MOD_REMOVE_PART && (ls_removal_keeps_edges(p) || removal_floats_nothing(m->op, p, part)))
         return 0;
     int *parent = malloc((size_t)nn * sizeof *parent);
     if (!parent)
