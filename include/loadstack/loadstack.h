@@ -59,6 +59,15 @@
 extern "C" {
 #endif
 
+/* LS_API marks the functions the shared library exports: it is built with
+ * hidden visibility, so exactly the functions declared here are its ABI
+ * (tests/house/exports.py compares the library's dynamic symbols with them). */
+#if defined(__GNUC__) || defined(__clang__)
+#define LS_API __attribute__((visibility("default")))
+#else
+#define LS_API
+#endif
+
 /* ---- status ----------------------------------------------------------------------------- */
 
 typedef enum ls_status {
@@ -74,10 +83,10 @@ typedef enum ls_status {
 } ls_status;
 
 /* A short English description of a status ("out of memory"); static storage. */
-const char *ls_status_str(ls_status st);
+LS_API const char *ls_status_str(ls_status st);
 
 /* The library version, "MAJOR.MINOR.PATCH"; static storage. */
-const char *ls_version(void);
+LS_API const char *ls_version(void);
 
 /* ---- circuits and diagnostics ----------------------------------------------------------------- */
 
@@ -105,32 +114,32 @@ typedef struct ls_diagnostic {
  *          caller frees it with ls_circuit_free.  A malformed setting (no '=')
  *          is a diagnostic and LS_E_CIRCUIT.
  * Returns LS_OK, LS_WARNINGS, LS_E_IO, LS_E_CIRCUIT, LS_E_ARGUMENT or LS_E_NOMEM. */
-ls_status ls_circuit_parse_file(const char *path, const char *const *sets, int nsets, ls_circuit **out);
+LS_API ls_status ls_circuit_parse_file(const char *path, const char *const *sets, int nsets, ls_circuit **out);
 
 /* The same for circuit text held in memory.
  *   name   in: the name used in diagnostics and as the base of relative
  *          includes (the current directory when it has no directory part).
  *   text   in: len bytes of circuit text (need not be NUL-terminated); copied. */
-ls_status ls_circuit_parse_string(const char *name, const char *text, size_t len, const char *const *sets,
+LS_API ls_status ls_circuit_parse_string(const char *name, const char *text, size_t len, const char *const *sets,
                                   int nsets, ls_circuit **out);
 
 /* Free the circuit and everything it handed out except ls_free arrays; sets
  * *c to NULL.  Accepts NULL and a pointer to NULL. */
-void ls_circuit_free(ls_circuit **c);
+LS_API void ls_circuit_free(ls_circuit **c);
 
 /* Number of diagnostics collected so far (parsing, solving and analyses add to
  * one list, in the order they were found).  0 for NULL. */
-int ls_circuit_diag_count(const ls_circuit *c);
+LS_API int ls_circuit_diag_count(const ls_circuit *c);
 
 /* Diagnostic i (0 <= i < ls_circuit_diag_count) into *out.  LS_E_ARGUMENT when out of range. */
-ls_status ls_circuit_diag(const ls_circuit *c, int i, ls_diagnostic *out);
+LS_API ls_status ls_circuit_diag(const ls_circuit *c, int i, ls_diagnostic *out);
 
 /* Print every diagnostic to f in the program's form: `file:line:col: error: message`,
  * then the source line and a caret. */
-void ls_circuit_print_diags(const ls_circuit *c, FILE *f);
+LS_API void ls_circuit_print_diags(const ls_circuit *c, FILE *f);
 
 /* The circuit's title, or "" when it has none. */
-const char *ls_circuit_title(const ls_circuit *c);
+LS_API const char *ls_circuit_title(const ls_circuit *c);
 
 /* ---- solving ------------------------------------------------------------------------------- */
 
@@ -151,7 +160,7 @@ typedef struct ls_solve_options {
  * Returns LS_OK, LS_WARNINGS (e.g. ill-conditioned; see the diagnostics),
  * LS_E_UNSOLVABLE, LS_E_CIRCUIT (the circuit had parse errors) or LS_E_NOMEM.
  * Calling it again re-solves from scratch with the new options. */
-ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt);
+LS_API ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt);
 
 /* Facts about the last solve. */
 typedef struct ls_solve_info {
@@ -162,7 +171,7 @@ typedef struct ls_solve_info {
     int iterations;           /* refinement steps */
 } ls_solve_info;
 
-ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out);
+LS_API ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out);
 
 /* A bound on the absolute error of a result of the last solve (see
  * docs/accuracy.md): of node `name`'s voltage (V) or of part `name`'s
@@ -172,21 +181,21 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out);
  * a linear form of the unknowns (a pot, an adc).  A name that is both a node
  * and a part means the node.  Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED,
  * LS_E_ARGUMENT or LS_E_NOMEM. */
-ls_status ls_circuit_error_bound(ls_circuit *c, const char *name, double *bound);
+LS_API ls_status ls_circuit_error_bound(ls_circuit *c, const char *name, double *bound);
 
 /* ---- nodes ------------------------------------------------------------------------------------ */
 
 /* Number of nodes, ground included (node 0).  Available after a successful parse. */
-int ls_circuit_node_count(const ls_circuit *c);
+LS_API int ls_circuit_node_count(const ls_circuit *c);
 
 /* Name of node i as reported ("vin", "d1.x"), or NULL when out of range. */
-const char *ls_circuit_node_name(const ls_circuit *c, int i);
+LS_API const char *ls_circuit_node_name(const ls_circuit *c, int i);
 
 /* Index of the node called name (a block pin resolves to its outer node), or -1. */
-int ls_circuit_node_index(const ls_circuit *c, const char *name);
+LS_API int ls_circuit_node_index(const ls_circuit *c, const char *name);
 
 /* Voltage of node `name` against ground, volts.  LS_E_NOT_FOUND, LS_E_NOT_SOLVED. */
-ls_status ls_circuit_voltage(const ls_circuit *c, const char *name, double *volts);
+LS_API ls_status ls_circuit_voltage(const ls_circuit *c, const char *name, double *volts);
 
 /* ---- parts --------------------------------------------------------------------------------- */
 
@@ -203,15 +212,15 @@ typedef struct ls_part_info {
 } ls_part_info;
 
 /* Number of parts (ports included).  Available after a successful parse. */
-int ls_circuit_part_count(const ls_circuit *c);
+LS_API int ls_circuit_part_count(const ls_circuit *c);
 
 /* Index of the part called name, or -1. */
-int ls_circuit_part_index(const ls_circuit *c, const char *name);
+LS_API int ls_circuit_part_index(const ls_circuit *c, const char *name);
 
 /* Part i (0 <= i < ls_circuit_part_count) into *out.  Before a solve the name,
  * kind and value are filled and the results are NaN; the return is then
  * LS_E_NOT_SOLVED. */
-ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out);
+LS_API ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out);
 
 /* ---- ports: the loading report --------------------------------------------------------------------- */
 
@@ -242,21 +251,21 @@ typedef struct ls_port_info {
 } ls_port_info;
 
 /* Number of ports. */
-int ls_circuit_port_count(const ls_circuit *c);
+LS_API int ls_circuit_port_count(const ls_circuit *c);
 
 /* Port i (0 <= i < ls_circuit_port_count, in the order of the circuit) into
  * *out.  Computed on first request (one low-rank solve), then cached. */
-ls_status ls_circuit_port(ls_circuit *c, int i, ls_port_info *out);
+LS_API ls_status ls_circuit_port(ls_circuit *c, int i, ls_port_info *out);
 
 /* The port called name into *out. */
-ls_status ls_circuit_port_by_name(ls_circuit *c, const char *name, ls_port_info *out);
+LS_API ls_status ls_circuit_port_by_name(ls_circuit *c, const char *name, ls_port_info *out);
 
 /* ---- quantities and checks ------------------------------------------------------------------ */
 
 /* Value of a quantity written as in an `expect`: "adc_in", "r_top.power",
  * "p_adc.ratio", "u1_out - ref".  Errors in the text become diagnostics
  * (LS_E_CIRCUIT).  *value may be NaN or infinite (see Conventions). */
-ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value);
+LS_API ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value);
 
 /* One evaluated expect (or ratio rule row).  Strings belong to the circuit. */
 typedef struct ls_check_info {
@@ -275,7 +284,7 @@ typedef struct ls_check_info {
  *   checks out: array of *n entries, the caller frees it with ls_free.
  *   failed out (may be NULL): how many failed.
  * Returns LS_OK, LS_E_NOT_SOLVED or LS_E_NOMEM. */
-ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks, int *n, int *failed);
+LS_API ls_status ls_circuit_checks(ls_circuit *c, int with_rule, ls_check_info **checks, int *n, int *failed);
 
 /* ---- analyses ----------------------------------------------------------------------------- */
 
@@ -307,7 +316,7 @@ typedef struct ls_sag_info {
  *   shares out: *n entries, one per port, largest |share| first; the caller
  *          frees the array with ls_free.
  * Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED or LS_E_NOMEM. */
-ls_status ls_circuit_sag_ports(ls_circuit *c, const char *node, ls_sag_info *info, ls_sag_share **shares, int *n);
+LS_API ls_status ls_circuit_sag_ports(ls_circuit *c, const char *node, ls_sag_info *info, ls_sag_share **shares, int *n);
 
 /* The what-if table (`loadstack sag --what-if`): every part and port removed
  * in turn (a port opened, a resistor opened, a source set to zero) and the
@@ -328,7 +337,7 @@ typedef struct ls_sag_entry {
  *   entries out: *n entries sorted by |delta|, largest first (ties in circuit
  *          order), unsolvable ones last; the caller frees the array with ls_free.
  * Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED or LS_E_NOMEM. */
-ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sag_entry **entries, int *n);
+LS_API ls_status ls_circuit_sag(ls_circuit *c, const char *node, double *voltage, ls_sag_entry **entries, int *n);
 
 /* The Thevenin / Norton equivalent seen at a node against ground. */
 typedef struct ls_thevenin_info {
@@ -343,7 +352,7 @@ typedef struct ls_thevenin_info {
  * into a near-short solved with every limit active (so an output limit caps
  * it).  Returns LS_OK, LS_E_NOT_FOUND, LS_E_NOT_SOLVED, LS_E_UNSOLVABLE or
  * LS_E_NOMEM. */
-ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info *out);
+LS_API ls_status ls_circuit_thevenin(ls_circuit *c, const char *node, ls_thevenin_info *out);
 
 /* One side of a port opened, seen against ground. */
 typedef struct ls_thevenin_side {
@@ -358,7 +367,7 @@ typedef struct ls_thevenin_side {
 /* The equivalent of each side of `port` opened (`loadstack thevenin FILE
  * PORT`).  Returns LS_OK, LS_E_NOT_FOUND (no port of that name),
  * LS_E_NOT_SOLVED or LS_E_NOMEM. */
-ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_side *driver, ls_thevenin_side *load);
+LS_API ls_status ls_circuit_thevenin_port(ls_circuit *c, const char *port, ls_thevenin_side *driver, ls_thevenin_side *load);
 
 /* How much one part's main value moves a quantity (adjoint method). */
 typedef struct ls_influence_entry {
@@ -375,7 +384,7 @@ typedef struct ls_influence_entry {
  *          frees with ls_free.
  * Returns LS_OK, LS_E_CIRCUIT (bad quantity, see the diagnostics),
  * LS_E_NOT_SOLVED or LS_E_NOMEM. */
-ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *value, ls_influence_entry **entries,
+LS_API ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *value, ls_influence_entry **entries,
                                int *n);
 
 /* QUANTITY (as in ls_circuit_eval) as an exact formula of the parts' values,
@@ -391,7 +400,7 @@ ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *valu
  * finite formula, or a circuit past the size limits: see the diagnostics),
  * LS_E_UNSOLVABLE (the self-check failed), LS_E_NOT_SOLVED, LS_E_ARGUMENT or
  * LS_E_NOMEM. */
-ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *symbols, int ideal, char **formula,
+LS_API ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *symbols, int ideal, char **formula,
                              double *value);
 
 /* Change part `name`'s main value (ohm for a resistor, V for a voltage
@@ -399,7 +408,7 @@ ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *sy
  * recomputed on the next request.  Returns as ls_circuit_solve, or
  * LS_E_NOT_FOUND, LS_E_ARGUMENT (the part has no main value, or the value is
  * not allowed, e.g. a resistance <= 0). */
-ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value);
+LS_API ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value);
 
 /* ---- tolerance ------------------------------------------------------------------------------ */
 
@@ -441,7 +450,7 @@ typedef struct ls_tol_info {
  * Returns LS_OK, LS_WARNINGS (nothing varies, unsolved corners or trials: see
  * the diagnostics), LS_E_CIRCUIT (bad quantity), LS_E_ARGUMENT (trials out of
  * range), LS_E_NOT_SOLVED, LS_E_UNSOLVABLE or LS_E_NOMEM. */
-ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_options *opt, ls_tol_info *out,
+LS_API ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_options *opt, ls_tol_info *out,
                          double **values);
 /* (values is NULL when no trial was run.) */
 
@@ -462,11 +471,11 @@ ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_optio
  * The circuit itself is not changed.  Returns LS_OK, LS_E_ARGUMENT,
  * LS_E_CIRCUIT (a quantity or the let is not valid at the first point: see
  * the diagnostics), LS_E_NOT_SOLVED or LS_E_NOMEM. */
-ls_status ls_circuit_sweep(ls_circuit *c, const char *let, double from, double to, int steps, int log_scale,
+LS_API ls_status ls_circuit_sweep(ls_circuit *c, const char *let, double from, double to, int steps, int log_scale,
                            const char *const *quantities, int nq, double **x, double **y, int *solved);
 
 /* Release an array returned by this library (NULL is fine). */
-void ls_free(void *p);
+LS_API void ls_free(void *p);
 
 #ifdef __cplusplus
 }

@@ -6,6 +6,7 @@
 
 #include "analysis/accuracy.h"
 #include "mna/mna.h"
+#include "solve/solver.h"
 
 typedef enum ls_solver_choice { LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE } ls_solver_choice;
 

@@ -4,6 +4,7 @@
 #include <string.h>
 
 #include "analysis/chain.h"
+#include "base/unionfind.h"
 #include "base/fmt.h"
 #include "parts/parts.h"
 

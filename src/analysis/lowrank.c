@@ -20,6 +20,7 @@
 #include <string.h>
 
 #include "netlist/elab.h"
+#include "base/unionfind.h"
 #include "base/fmt.h"
 #include "analysis/lowrank.h"
 #include "analysis/newton.h"
@@ -266,12 +267,12 @@ static void uf_edge(void *ctx, int a, int b, bool vdef, int part)
         ls_uf_union(u->parent, a, b);
 }
 
-/* Removing a voltage source or a voltage-defined controlled source leaves a
- * short (its value set to zero); removing anything else opens it. */
+/* Removing a part of a kind removed as a short (a voltage source, a
+ * voltage-defined controlled source: its value set to zero) keeps its DC
+ * edges; removing anything else opens it (the part table's .removal). */
 bool ls_removal_keeps_edges(const ls_part *p)
 {
-    const char *k = p->kind->name;
-    return strcmp(k, "voltage") == 0 || strcmp(k, "vcvs") == 0 || strcmp(k, "ccvs") == 0;
+    return p->kind->removal == LS_REMOVE_SHORT;
 }
 
 static int dc_bridges(ls_op *op);
@@ -1710,7 +1711,7 @@ static bool crosses_limit(const ls_op *op, const double *x, const double *vv, in
                 snprintf(limit, n, "%s %s", p->name, ls_opamp_limit_word(&q));
                 return true;
             }
-        } else if (p->kind->is_nonlinear && strcmp(p->kind->name, "ntc") != 0) {
+        } else if (p->kind->is_junction && p->run) {
             bool beyond;
             double v1 = ls_junction_v(p, x), v0 = p->run->op_v, h = 1e-4;
             double g1 = (ls_junction_current(p, v1 + h, &beyond) - ls_junction_current(p, v1 - h, &beyond)) / (2 * h);

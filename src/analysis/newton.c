@@ -359,7 +359,7 @@ static run_status polish(ls_op *op, bool *moving)
     const ls_netlist *nl = op->nl;
     bool junctions = false;
     for (int i = 0; i < nl->nparts; i++)
-        junctions |= nonlinear(&nl->parts[i]) && strcmp(nl->parts[i].kind->name, "ntc") != 0;
+        junctions |= nonlinear(&nl->parts[i]) && nl->parts[i].kind->is_junction;
     if (!junctions)
         return RUN_OK;
     saved with = {0};
@@ -389,7 +389,7 @@ static int beyond_check(ls_op *op)
     int n = 0;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (!nonlinear(p) || strcmp(p->kind->name, "ntc") == 0)
+        if (!nonlinear(p) || !p->kind->is_junction)
             continue;
         bool beyond;
         double cur = ls_junction_current(p, p->run->op_v, &beyond);

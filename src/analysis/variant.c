@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "analysis/lowrank.h"
+#include "base/unionfind.h"
 #include "analysis/variant.h"
 
 /* ---- saved part states ---------------------------------------------------------------------- */
@@ -136,11 +137,11 @@ void ls_variant_free(ls_variant *v)
 
 /* ---- what changed --------------------------------------------------------------------------- */
 
-/* A diode, led or zener: a part whose state is its junction's conduction. */
+/* A junction kind (the part table's .is_junction: diode, led, zener): a part
+ * whose state is its junction's conduction. */
 static bool is_junction(const ls_part *p)
 {
-    const char *k = p->kind->name;
-    return p->run && (strcmp(k, "diode") == 0 || strcmp(k, "led") == 0 || strcmp(k, "zener") == 0);
+    return p->run && p->kind->is_junction;
 }
 
 /* Small-signal conductance (S) of a junction at vj, by a central difference

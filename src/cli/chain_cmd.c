@@ -10,7 +10,7 @@
 #include "report/chain_plot.h"
 #include "cli/cli.h"
 #include "base/fmt.h"
-#include "report/html.h"
+#include "cli/html.h"
 #include "report/jsonw.h"
 #include "parts/parts.h"
 

@@ -12,7 +12,7 @@
 
 #include "cli/cli.h"
 #include "netlist/elab.h"
-#include "report/html.h"
+#include "cli/html.h"
 #include "lang/parser.h"
 #include "cli/progress.h"
 #include "report/plot.h"

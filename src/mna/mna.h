@@ -3,7 +3,7 @@
 #define LS_MNA_H
 
 #include "parts/parts.h"
-#include "solve/solver.h"
+#include "base/csc.h"
 
 /* A conductance (S) from a node to a fixed voltage (V): a load resistor to
  * ground (v = 0), or a node held at a voltage.  g = 0: none. */
@@ -56,7 +56,6 @@ void ls_mna_stamp_ties(const ls_mna *m, ls_sink *sink);
 /* Compress triplets (summing duplicates) into a CSC matrix; 0 ok, -1 no memory.
  * Explicit zeros that result from cancellation are kept so the pattern is stable. */
 int ls_triplets_to_csc(const ls_triplets *t, int n, ls_csc *out);
-void ls_csc_free(ls_csc *a);
 void ls_triplets_free(ls_triplets *t);
 
 /* What an unknown stands for, in the user's words ("node 'mid'",
@@ -67,21 +66,5 @@ const char *ls_unknown_desc(const ls_mna *m, int idx, char *buf, size_t n);
  * cut-sets of current sources), loops of voltage-defined branches.  Errors go
  * to the netlist's diagnostics; returns their number. */
 int ls_topology_check(const ls_netlist *nl);
-
-/* Reduced nodal form (mna.c): a backend that solves the MNA system of resistors,
- * current sources and voltage sources through a symmetric positive definite
- * system of the free node voltages, factored by CHOLMOD.  Sources without rs
- * between ground and a node fix that node; sources with rs are
- * Norton-converted.  It solves the same A as the other backends (plain or
- * transposed), so the unknown layout and ls_op.x are unchanged. */
-extern const ls_backend ls_backend_reduced;
-/* 1 when the MNA matrix a has that shape (nodes, then source branches whose
- * rows mirror their KCL columns with opposite sign, a symmetric node block),
- * else 0.  O(nnz log). */
-int ls_mna_reducible(const ls_csc *a);
-
-/* Union-find helpers, shared with the analyses that open parts. */
-int ls_uf_find(int *parent, int x);
-void ls_uf_union(int *parent, int a, int b);
 
 #endif

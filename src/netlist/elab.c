@@ -2,7 +2,7 @@
  * values and bind the checks.  Errors are collected; elaboration goes on past
  * them so one run reports as much as it can. */
 #include "netlist/elab.h"
-#include "mna/mna.h"
+#include "base/unionfind.h"
 
 #include <math.h>
 #include <stdlib.h>

@@ -110,6 +110,9 @@ static void branch_rise(ls_sink *s, int from, int to, int k)
     ls_sink_a(s, k, from, -1);
 }
 
+/* The helpers of family files outside this one (parts.h). */
+void ls_stamp_conductance(ls_sink *s, int a, int b, double g) { conductance(s, a, b, g); }
+
 /* Scale of a source's value while the sources are ramped up. */
 static double src_scale(const ls_part *p)
 {
@@ -133,6 +136,8 @@ static void lin_add(ls_lin *l, int idx, double c)
     l->idx[l->n] = idx;
     l->coef[l->n++] = c;
 }
+
+void ls_lin_add(ls_lin *l, int idx, double c) { lin_add(l, idx, c); }
 
 double ls_lin_eval(const ls_lin *l, const double *x)
 {
@@ -988,6 +993,18 @@ static void adc_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 /* Earlier spellings of the junction options, each answered with its new name. */
 #define JUNCTION_RENAMED {{"is", "isat"}, {"n", "ideality"}, {"rs", "rbulk"}}
 
+#ifdef LS_TEST_KINDS
+/* tests/house/testsink_kind.c: a current sink with a compliance limit, built
+ * only into the test program loadstack_toy (tests/house/meson.build). */
+int ls_testsink_branches(const ls_part *p);
+void ls_testsink_stamp(const ls_part *p, ls_stamp_ctx *c);
+void ls_testsink_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative, int depth);
+void ls_testsink_edges(const ls_part *p, void *ctx, ls_edge_fn emit);
+bool ls_testsink_nonlinear(const ls_part *p);
+void ls_testsink_init(ls_part *p);
+bool ls_testsink_update(ls_part *p, const double *x);
+#endif
+
 static const ls_kind kinds[] = {
     {.name = "resistor", .shape = SHAPE_TWO, .doc = "resistor FROM -> TO VALUE [rating=W vmax=V]",
      .value_slot = true, .value_dims = LS_OHM, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE,
@@ -995,7 +1012,7 @@ static const ls_kind kinds[] = {
                                    {"vmax", OPT_VALUE, LS_VOLT, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2,
      .branches = no_branch, .stamp = resistor_stamp, .current = resistor_current, .edges = two_edge},
-    {.name = "voltage", .has_run = true, .shape = SHAPE_TWO, .doc = "voltage FROM -> TO VALUE [rint=R]  (V(TO) - V(FROM) = VALUE)",
+    {.name = "voltage", .has_run = true, .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "voltage FROM -> TO VALUE [rint=R]  (V(TO) - V(FROM) = VALUE)",
      .value_slot = true, .value_dims = LS_VOLT, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"rint", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL}}, .nopts = NCOMMON + 1,
      .renamed = {{"rs", "rint"}},
@@ -1011,7 +1028,7 @@ static const ls_kind kinds[] = {
               {"budget", OPT_VALUE, LS_VOLT, OPTF_BUDGET, -1, NULL}}, .nopts = NCOMMON + 2,
      .npins = 2, .branches = one_branch, .stamp = port_stamp, .current = current_branch,
      .edges = vdef_edges},
-    {.name = "vcvs", .shape = SHAPE_TWO, .doc = "vcvs FROM -> TO gain=G cplus=A cminus=B",
+    {.name = "vcvs", .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "vcvs FROM -> TO gain=G cplus=A cminus=B",
      .value_slot = true, .value_dims = LS_FREE, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"gain", OPT_VALUE, LS_FREE, OPTF_MAIN | OPTF_REQUIRED, -1, NULL},
               {"cplus", OPT_NODE, LS_FREE, OPTF_REQUIRED, 2, NULL},
@@ -1031,7 +1048,7 @@ static const ls_kind kinds[] = {
               {"via", OPT_PART, LS_FREE, OPTF_REQUIRED, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2, .branches = no_branch, .stamp = cccs_stamp,
      .current = cccs_current, .edges = no_edges},
-    {.name = "ccvs", .shape = SHAPE_TWO, .doc = "ccvs FROM -> TO rm=R via=PART",
+    {.name = "ccvs", .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "ccvs FROM -> TO rm=R via=PART",
      .value_slot = true, .value_dims = LS_OHM, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"rm", OPT_VALUE, LS_OHM, OPTF_MAIN | OPTF_REQUIRED, -1, NULL},
               {"via", OPT_PART, LS_FREE, OPTF_REQUIRED, -1, NULL}},
@@ -1057,7 +1074,7 @@ static const ls_kind kinds[] = {
               {"iq", OPT_VALUE, LS_AMP, OPTF_NONNEG, -1, NULL}},
      .nopts = NCOMMON + 14, .npins = 3, .branches = one_branch, .stamp = opamp_stamp,
      .current = current_branch, .edges = opamp_edges},
-    {.name = "diode", .has_run = true, .shape = SHAPE_TWO, .doc = "diode ANODE -> CATHODE [isat=A ideality=N rbulk=R imax=A]",
+    {.name = "diode", .has_run = true, .shape = SHAPE_TWO, .is_junction = true, .doc = "diode ANODE -> CATHODE [isat=A ideality=N rbulk=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"isat", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
               {"ideality", OPT_VALUE, LS_FREE, OPTF_POSITIVE, -1, NULL},
@@ -1067,7 +1084,7 @@ static const ls_kind kinds[] = {
      .current = junction_current, .edges = junction_edges, .renamed = JUNCTION_RENAMED,
      .is_nonlinear = always, .init = junction_init,
      .update = junction_update},
-    {.name = "led", .has_run = true, .shape = SHAPE_TWO, .doc = "led ANODE -> CATHODE vf=V [at=A ideality=N rbulk=R imax=A]",
+    {.name = "led", .has_run = true, .shape = SHAPE_TWO, .is_junction = true, .doc = "led ANODE -> CATHODE vf=V [at=A ideality=N rbulk=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"vf", OPT_VALUE, LS_VOLT, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"at", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
@@ -1078,7 +1095,7 @@ static const ls_kind kinds[] = {
      .current = junction_current, .edges = junction_edges, .renamed = JUNCTION_RENAMED,
      .is_nonlinear = always, .init = junction_init,
      .update = junction_update},
-    {.name = "zener", .has_run = true, .shape = SHAPE_TWO, .doc = "zener ANODE -> CATHODE vz=V [at=A ideality=N isat=A rbulk=R imax=A]",
+    {.name = "zener", .has_run = true, .shape = SHAPE_TWO, .is_junction = true, .doc = "zener ANODE -> CATHODE vz=V [at=A ideality=N isat=A rbulk=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"vz", OPT_VALUE, LS_VOLT, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"at", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
@@ -1125,6 +1142,17 @@ static const ls_kind kinds[] = {
               {"max_source", OPT_VALUE, LS_OHM, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 6, .npins = 1, .branches = no_branch, .stamp = adc_stamp, .current = adc_current,
      .edges = adc_edges, .results = adc_results},
+#ifdef LS_TEST_KINDS
+    /* Built only into the tests' loadstack_toy: a kind with a limit, added as
+     * one family file (tests/house/testsink_kind.c) plus this entry. */
+    {.name = "testsink", .has_run = true, .shape = SHAPE_TWO, .removal = LS_REMOVE_OPEN,
+     .doc = "testsink FROM -> TO VALUE compliance=V  (draws VALUE FROM -> TO while V(FROM) - V(TO) >= compliance)",
+     .value_slot = true, .value_dims = LS_AMP, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE, .vsign = VSIGN_DROP,
+     .opts = {COMMON_OPTS, {"compliance", OPT_VALUE, LS_VOLT, OPTF_REQUIRED | OPTF_POSITIVE, -1, NULL}},
+     .nopts = NCOMMON + 1, .npins = 2, .branches = ls_testsink_branches, .stamp = ls_testsink_stamp,
+     .current = ls_testsink_current, .edges = ls_testsink_edges,
+     .is_nonlinear = ls_testsink_nonlinear, .init = ls_testsink_init, .update = ls_testsink_update},
+#endif
 };
 
 static const char *const keywords[] = {"title", "let", "ground", "include", "block",

@@ -87,6 +87,12 @@ typedef void (*ls_edge_fn)(void *ctx, int a, int b, bool voltage_defined, int pa
 
 #define LS_MAX_RENAMED 4
 
+/* What a part becomes when `sag`, the port report or a what-if removes it. */
+typedef enum ls_removal {
+    LS_REMOVE_OPEN = 0,   /* opened: no current (the default) */
+    LS_REMOVE_SHORT       /* set to zero: a voltage-defined part keeps its two ends at one voltage */
+} ls_removal;
+
 typedef struct ls_kind {
     const char *name;
     ls_shape shape;
@@ -98,6 +104,9 @@ typedef struct ls_kind {
     bool is_port;
     bool is_opamp;
     bool has_run;                /* keeps analysis state (ls_part.run): sources, op-amps, junctions, ... */
+    ls_removal removal;          /* how it is removed (sag, ports, what-if) */
+    bool is_junction;            /* iterates as a pn junction (ls_junction_current/_v): the iteration's
+                                    polishing, its past-the-model check and sag's on/off limits */
     ls_optdef opts[LS_MAX_OPTS];
     int nopts;
     /* Options that were spelled differently before; naming one is an error
@@ -133,6 +142,15 @@ ls_dims ls_kind_main_dims(const ls_kind *k);
 const char *ls_kind_renamed(const ls_kind *k, const char *name);
 /* Index of option `name` in the kind, or -1. */
 int ls_kind_opt(const ls_kind *k, const char *name);
+
+/* Helpers for the kinds' stamp and current functions (parts.c and family
+ * files of their own, DEVELOPERS.md "Adding a part kind"). */
+/* A conductance g (S) between unknowns a and b (either < 0: ground). */
+void ls_stamp_conductance(ls_sink *s, int a, int b, double g);
+/* Adds c times unknown idx to a current's linear form (idx < 0: ground, dropped). */
+void ls_lin_add(ls_lin *l, int idx, double c);
+/* Unknown idx of a solution x (0 for ground, idx < 0). */
+static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx] : 0; }
 
 /* Option value helpers. */
 static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && (p->has_opt >> opt & 1u); }

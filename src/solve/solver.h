@@ -14,14 +14,7 @@
 
 #include <stddef.h>
 
-typedef struct ls_csc {
-    int n;          /* order */
-    int *colptr;    /* n+1 entries: column j holds rowind/val[colptr[j] .. colptr[j+1]-1] */
-    int *rowind;    /* nnz row indices */
-    double *val;    /* nnz values */
-} ls_csc;
-
-static inline int ls_csc_nnz(const ls_csc *a) { return a->colptr[a->n]; }
+#include "base/csc.h"
 
 typedef enum ls_method {
     LS_METHOD_DENSE_LU = 0,      /* LAPACK dgetrf with equilibration */

@@ -12,7 +12,7 @@
  *     Symmetric matrices that are not dominant are not guessed at: a failed
  *     Cholesky costs an analysis and part of a factorization, and LU is
  *     never wrong.
- *  1b. The reduced nodal form (mna.c: ls_backend_reduced, CHOLMOD inside)
+ *  1b. The reduced nodal form (reduced.c: ls_backend_reduced, CHOLMOD inside)
  *     when A is the MNA matrix of resistors, current sources and voltage
  *     sources: grounded sources without rs fix their node, sources with rs
  *     are Norton-converted, and what is left is a nodal matrix like rule 1's.
@@ -36,7 +36,7 @@
  *     UMFPACK is 2x faster.  25 splits the bracket.
  */
 #include "solve/sparse.h"
-#include "mna/mna.h"
+#include "solve/reduced.h"
 
 #include <amd.h>
 

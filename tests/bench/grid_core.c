@@ -11,6 +11,7 @@
  * V(n0_1), for a cross-check against scipy's spsolve (gen.py gridmatrix).
  * Exit 0 ok, 1 bad usage or no memory, 3 solver failure. */
 #include "mna/mna.h"
+#include "solve/reduced.h"
 #include "solve/solver.h"
 
 #include <stdio.h>

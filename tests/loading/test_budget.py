@@ -12,51 +12,12 @@ import json
 import math
 import os
 import re
-import subprocess
 import sys
-import tempfile
 
 import numpy as np
 
-FAILS = []
-COUNT = [0]
+from lscheck import js, near, run, run_tests, truth, write  # noqa: E402
 
-
-def run(binary, args, want_rc=0):
-    """Run the program; return (stdout, stderr).  A wrong exit code is a failure."""
-    p = subprocess.run([binary] + args, capture_output=True, text=True, timeout=120)
-    if want_rc is not None and p.returncode != want_rc:
-        FAILS.append("%s: exit %d, expected %d: %s" % (" ".join(args), p.returncode, want_rc, p.stderr.strip()[:400]))
-    return p.stdout, p.stderr
-
-
-def js(binary, args, want_rc=0):
-    out, _ = run(binary, args + ["--format", "json"], want_rc)
-    try:
-        return json.loads(out)
-    except ValueError:
-        FAILS.append("%s: output is not JSON: %r" % (" ".join(args), out[:200]))
-        return None
-
-
-def near(what, got, want, rtol=1e-9, atol=0.0, source=""):
-    COUNT[0] += 1
-    ok = isinstance(got, (int, float)) and abs(got - want) <= rtol * abs(want) + atol
-    if not ok:
-        FAILS.append("%s: got %r, expected %r (%s)" % (what, got, want, source))
-
-
-def truth(what, cond, source=""):
-    COUNT[0] += 1
-    if not cond:
-        FAILS.append("%s (%s)" % (what, source))
-
-
-def write(tmp, name, text):
-    path = os.path.join(tmp, name)
-    with open(path, "w", encoding="utf-8") as f:
-        f.write(text)
-    return path
 
 
 PREFIX = {"p": 1e-12, "n": 1e-9, "µ": 1e-6, "u": 1e-6, "m": 1e-3, "": 1.0, "k": 1e3, "M": 1e6, "G": 1e9}
@@ -490,18 +451,7 @@ def main():
     tests = [test_half_lsb_verdicts, test_advice_numbers, test_budget_units, test_check_tolerance,
              test_check_within_slack, test_sweep_let_in_quantity, test_twin_held_load, test_warnings,
              test_properties, test_influence_new_quantities]
-    with tempfile.TemporaryDirectory(prefix="loadstack_budget_") as tmp:
-        for t in tests:
-            before = len(FAILS)
-            try:
-                t(b, tmp)
-            except Exception as e:  # a crash of the test is a failure, not a pass
-                FAILS.append("%s raised %r" % (t.__name__, e))
-            print("%-28s %s" % (t.__name__, "ok" if len(FAILS) == before else "FAIL"))
-    for f in FAILS:
-        print("  " + f)
-    print("%d checks, %d failures" % (COUNT[0], len(FAILS)))
-    return 1 if FAILS else 0
+    return run_tests([(t.__name__, lambda tmp, t=t: t(b, tmp)) for t in tests], "loadstack_budget_")
 
 
 if __name__ == "__main__":

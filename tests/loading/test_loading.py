@@ -8,58 +8,12 @@ directory; every run of the program is checked for its exit code and parsed
 from `--format json`.  Exit 0 when every check holds, 1 otherwise.
 """
 
-import json
-import math
 import os
-import subprocess
 import sys
-import tempfile
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-FAILS = []
-COUNT = [0]
 
-
-def run(binary, args, want_rc=0):
-    """Run the program; return (stdout, stderr).  A wrong exit code is a failure."""
-    p = subprocess.run([binary] + args, capture_output=True, text=True, timeout=120)
-    if p.returncode != want_rc:
-        FAILS.append("%s: exit %d, expected %d: %s" % (" ".join(args), p.returncode, want_rc,
-                                                       p.stderr.strip()[:400]))
-    return p.stdout, p.stderr
-
-
-def js(binary, args, want_rc=0):
-    out, _ = run(binary, args + ["--format", "json"], want_rc)
-    try:
-        return json.loads(out)
-    except ValueError:
-        FAILS.append("%s: output is not JSON: %r" % (" ".join(args), out[:200]))
-        return None
-
-
-def near(what, got, want, rtol=1e-9, atol=0.0, source=""):
-    COUNT[0] += 1
-    ok = got is not None and isinstance(got, (int, float)) and abs(got - want) <= rtol * abs(want) + atol
-    if not ok:
-        FAILS.append("%s: got %r, expected %r (%s)" % (what, got, want, source))
-
-
-def truth(what, cond, source=""):
-    COUNT[0] += 1
-    if not cond:
-        FAILS.append("%s (%s)" % (what, source))
-
-
-def write(tmp, name, text):
-    path = os.path.join(tmp, name)
-    with open(path, "w", encoding="utf-8") as f:
-        f.write(text)
-    return path
-
-
-def par(*rs):
-    return 1.0 / sum(1.0 / r for r in rs)
+from lscheck import FAILS, js, near, run, run_tests, truth, write, par  # noqa: E402
 
 
 # ---------------------------------------------------------------------------
@@ -363,18 +317,7 @@ def main():
     b = sys.argv[1]
     tests = [test_thevenin_cube, test_thevenin_r2r, test_thevenin_load_meter, test_sag_ranking,
              test_sens_divider, test_sens_current_mode, test_check_exit_codes, test_verdicts, test_feedback_port, test_float_load_json]
-    with tempfile.TemporaryDirectory(prefix="loadstack_loading_") as tmp:
-        for t in tests:
-            before = len(FAILS)
-            try:
-                t(b, tmp)
-            except Exception as e:  # a crash of the test is a failure, not a pass
-                FAILS.append("%s raised %r" % (t.__name__, e))
-            print("%-28s %s" % (t.__name__, "ok" if len(FAILS) == before else "FAIL"))
-    for f in FAILS:
-        print("  " + f)
-    print("%d checks, %d failures" % (COUNT[0], len(FAILS)))
-    return 1 if FAILS else 0
+    return run_tests([(t.__name__, lambda tmp, t=t: t(b, tmp)) for t in tests], "loadstack_loading_")
 
 
 if __name__ == "__main__":

@@ -26,58 +26,15 @@ Usage: test_sag_connections.py LOADSTACK_BINARY [--count 36] [--seed 7]
 Exit 0 when every check holds, 1 otherwise.
 """
 
-import json
 import math
 import os
 import random
-import subprocess
 import sys
-import tempfile
 
 import numpy as np
 
-FAILS = []
-COUNT = [0]
+from lscheck import js, near, run, run_tests, truth, write, par  # noqa: E402
 
-
-def run(binary, args, want_rc=0):
-    p = subprocess.run([binary] + args, capture_output=True, text=True, timeout=120)
-    if p.returncode != want_rc:
-        FAILS.append("%s: exit %d, expected %d: %s" % (" ".join(args), p.returncode, want_rc, p.stderr.strip()[:400]))
-    return p.stdout, p.stderr
-
-
-def js(binary, args, want_rc=0):
-    out, _ = run(binary, args + ["--format", "json"], want_rc)
-    try:
-        return json.loads(out)
-    except ValueError:
-        FAILS.append("%s: output is not JSON: %r" % (" ".join(args), out[:300]))
-        return None
-
-
-def near(what, got, want, rtol=1e-9, atol=0.0, source=""):
-    COUNT[0] += 1
-    ok = isinstance(got, (int, float)) and abs(got - want) <= rtol * abs(want) + atol
-    if not ok:
-        FAILS.append("%s: got %r, expected %r (%s)" % (what, got, want, source))
-
-
-def truth(what, cond, source=""):
-    COUNT[0] += 1
-    if not cond:
-        FAILS.append("%s (%s)" % (what, source))
-
-
-def write(tmp, name, text):
-    path = os.path.join(tmp, name)
-    with open(path, "w", encoding="utf-8") as f:
-        f.write(text)
-    return path
-
-
-def par(*rs):
-    return 1.0 / sum(1.0 / r for r in rs)
 
 
 # ---------------------------------------------------------------------------
@@ -477,27 +434,16 @@ def main():
     b = args[0]
     count = int(args[args.index("--count") + 1]) if "--count" in args else 36
     seed = int(args[args.index("--seed") + 1]) if "--seed" in args else 7
-    with tempfile.TemporaryDirectory(prefix="loadstack_sag_") as tmp:
-        tests = [("random networks", lambda: test_random(b, tmp, count, seed)),
-                 ("divider, ADC and pull-down", lambda: test_divider_adc_pulldown(b, tmp)),
-                 ("buffer in its current limit", lambda: test_buffer_current_limit(b, tmp)),
-                 ("LED on the bridge's rail", lambda: test_led_rail_bridge(b, tmp)),
-                 ("Shapley over sampled orders", lambda: test_sampled_shapley(b, tmp)),
-                 ("no port in the way", lambda: test_no_port(b, tmp)),
-                 ("thevenin of a port", lambda: test_thevenin_port(b, tmp)),
-                 ("thevenin --load limits", lambda: test_thevenin_limits(b, tmp)),
-                 ("what-if past a limit", lambda: test_what_if(b, tmp))]
-        for name, t in tests:
-            before = len(FAILS)
-            try:
-                t()
-            except Exception as e:  # a crash of the test is a failure, not a pass
-                FAILS.append("%s raised %r" % (name, e))
-            print("%-32s %s" % (name, "ok" if len(FAILS) == before else "FAIL"))
-    for f in FAILS[:60]:
-        print("FAIL:", f)
-    print("%d checks, %d failures" % (COUNT[0], len(FAILS)))
-    return 1 if FAILS else 0
+    tests = [("random networks", lambda tmp: test_random(b, tmp, count, seed)),
+             ("divider, ADC and pull-down", lambda tmp: test_divider_adc_pulldown(b, tmp)),
+             ("buffer in its current limit", lambda tmp: test_buffer_current_limit(b, tmp)),
+             ("LED on the bridge's rail", lambda tmp: test_led_rail_bridge(b, tmp)),
+             ("Shapley over sampled orders", lambda tmp: test_sampled_shapley(b, tmp)),
+             ("no port in the way", lambda tmp: test_no_port(b, tmp)),
+             ("thevenin of a port", lambda tmp: test_thevenin_port(b, tmp)),
+             ("thevenin --load limits", lambda tmp: test_thevenin_limits(b, tmp)),
+             ("what-if past a limit", lambda tmp: test_what_if(b, tmp))]
+    return run_tests(tests, "loadstack_sag_", width=32, shown=60)
 
 
 if __name__ == "__main__":

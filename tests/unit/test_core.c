@@ -6,9 +6,8 @@
 #include <math.h>
 #include <string.h>
 
-#include "netlist/elab.h"
+#include "front_world.h"
 #include "mna/mna.h"
-#include "lang/parser.h"
 
 typedef struct world {
     ls_arena a;
@@ -22,11 +21,7 @@ typedef struct world {
 static int load(world *w, const char *text)
 {
     memset(w, 0, sizeof *w);
-    ls_arena_init(&w->a);
-    ls_diags_init(&w->d, &w->a);
-    w->errors = ls_parse_string(&w->d, "t.stack", text, strlen(text), &w->prog);
-    if (!w->errors)
-        w->errors = ls_elaborate(&w->prog, &w->d, NULL, 0, &w->nl);
+    w->errors = ls_test_front(&w->a, &w->d, &w->prog, &w->nl, text);
     if (!w->errors)
         ls_mna_build(&w->m, &w->nl);
     return w->errors;
@@ -35,9 +30,7 @@ static int load(world *w, const char *text)
 static void unload(world *w)
 {
     ls_mna_free(&w->m);
-    ls_netlist_free(&w->nl);
-    ls_diags_free(&w->d);
-    ls_arena_free(&w->a);
+    ls_test_front_free(&w->a, &w->d, &w->nl);
 }
 
 static double param(world *w, const char *name)

@@ -5,7 +5,7 @@
 #include <unistd.h>
 
 #include "base/fmt.h"
-#include "report/html.h"
+#include "cli/html.h"
 #include "analysis/tolerance.h"
 #include "analysis/newton.h"
 #include "parts/parts.h"

@@ -1,0 +1,102 @@
+/* testsink_kind.c — a part kind written the way DEVELOPERS.md "Adding a part
+ * kind" says, compiled only into the test program loadstack_toy: a current sink
+ * with a compliance limit.
+ *
+ *   testsink FROM -> TO VALUE compliance=V
+ *
+ * While V(FROM) - V(TO) >= compliance it draws VALUE (A) from FROM to TO
+ * through itself.  Below its compliance it cannot hold the current and acts as
+ * the resistance compliance / VALUE, so its current falls in proportion to its
+ * voltage and is continuous at the knee.  Its state (the limit in force) lives
+ * in the part's run state and is settled by the operating-point iteration
+ * through the table's init/update hooks; removed (sag, ports) it is opened. */
+#include "parts/parts.h"
+
+#include <math.h>
+
+enum { SINK_REGULATING = 0, SINK_SATURATED = 1 };
+
+static double compliance(const ls_part *p)
+{
+    return ls_part_opt(p, "compliance", 1);
+}
+
+/* S: the conductance below the compliance. */
+static double saturated_g(const ls_part *p)
+{
+    return p->value / compliance(p);
+}
+
+/* No branch current unknown: its current is VALUE or g (V(FROM) - V(TO)). */
+int ls_testsink_branches(const ls_part *p)
+{
+    (void)p;
+    return 0;
+}
+
+/* MNA entries: a current VALUE out of FROM into TO while regulating, the
+ * conductance compliance / VALUE while saturated; nothing when removed.  The
+ * derivative is d/d VALUE of the same entries. */
+void ls_testsink_stamp(const ls_part *p, ls_stamp_ctx *c)
+{
+    if (c->removed)
+        return;
+    int from = ls_node_unknown(p->pin[0]), to = ls_node_unknown(p->pin[1]);
+    if (p->run->state == SINK_SATURATED) {
+        double g = c->derivative ? 1 / compliance(p) : saturated_g(p);
+        ls_stamp_conductance(c->sink, from, to, g);
+        return;
+    }
+    double i = c->derivative ? 1 : p->value;
+    ls_sink_b(c->sink, from, -i);
+    ls_sink_b(c->sink, to, i);
+}
+
+/* Its current FROM -> TO (A) as a linear form in the unknowns. */
+void ls_testsink_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative, int depth)
+{
+    (void)nl;
+    (void)depth;
+    if (p->run->state == SINK_SATURATED) {
+        double g = derivative ? 1 / compliance(p) : saturated_g(p);
+        ls_lin_add(out, ls_node_unknown(p->pin[0]), g);
+        ls_lin_add(out, ls_node_unknown(p->pin[1]), -g);
+        return;
+    }
+    out->constant += derivative ? 1 : p->value;
+}
+
+/* A current sink is no DC path for the topology checks (like a current source). */
+void ls_testsink_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
+{
+    (void)p;
+    (void)ctx;
+    (void)emit;
+}
+
+/* Its limit makes it piecewise linear: it always iterates. */
+bool ls_testsink_nonlinear(const ls_part *p)
+{
+    (void)p;
+    return true;
+}
+
+/* Starts regulating. */
+void ls_testsink_init(ls_part *p)
+{
+    p->run->state = SINK_REGULATING;
+}
+
+/* The state the last solve x calls for; true when it is the one in force. */
+bool ls_testsink_update(ls_part *p, const double *x)
+{
+    double v = ls_x_at(x, ls_node_unknown(p->pin[0])) - ls_x_at(x, ls_node_unknown(p->pin[1]));
+    int want;
+    if (p->run->state == SINK_REGULATING)
+        want = v >= compliance(p) ? SINK_REGULATING : SINK_SATURATED;
+    else   /* saturated: its current g v reaches VALUE exactly at the compliance */
+        want = v > compliance(p) ? SINK_REGULATING : SINK_SATURATED;
+    bool settled = want == p->run->state;
+    p->run->state = want;
+    return settled;
+}
