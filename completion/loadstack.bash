@@ -129,7 +129,7 @@ _loadstack()
     # Values of options.
     case $prev in
         --format) COMPREPLY=($(compgen -W "text json csv html" -- "$cur")); return ;;
-        --solver) COMPREPLY=($(compgen -W "auto dense sparse" -- "$cur")); return ;;
+        --solver) COMPREPLY=($(compgen -W "auto dense sparse iterative" -- "$cur")); return ;;
         --dist) COMPREPLY=($(compgen -W "uniform normal" -- "$cur")); return ;;
         --series) COMPREPLY=($(compgen -W "E6 E12 E24 E48 E96 E192" -- "$cur")); return ;;
         --fail-on)

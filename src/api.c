@@ -288,10 +288,16 @@ ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
         return LS_E_ARGUMENT;
     if (!c->elaborated)
         return LS_E_CIRCUIT;
-    static const ls_solver_choice choice[] = {LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE};
+    static const ls_solver_choice choice[] = {LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE,
+                                              LS_CHOOSE_ITERATIVE};
+#ifdef LS_HAVE_AMG
+    const int last = LS_BACKEND_ITERATIVE;
+#else
+    const int last = LS_BACKEND_SPARSE; /* no iterative solver in this build */
+#endif
     ls_options o = {.solver = LS_CHOOSE_AUTO, .min_ratio = 0, .derate = 1};
     if (opt) {
-        if ((int)opt->backend < 0 || opt->backend > LS_BACKEND_SPARSE)
+        if ((int)opt->backend < 0 || (int)opt->backend > last)
             return LS_E_ARGUMENT;
         o.solver = choice[opt->backend];
         o.min_ratio = opt->min_ratio > 0 ? opt->min_ratio : 0;
@@ -319,9 +325,8 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
         return st;
     if (!out)
         return LS_E_ARGUMENT;
-    static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky"};
-    int m = c->op.method == LS_METHOD_SPARSE_LU ? 1 : c->op.method == LS_METHOD_SPARSE_CHOLESKY ? 2 : 0;
-    out->method = method[m];
+    static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
+    out->method = method[c->op.method];
     out->unknowns = c->op.mna.n;
     out->rcond = c->op.rcond;
     out->residual = c->op.residual;

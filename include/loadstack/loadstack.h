@@ -146,7 +146,11 @@ LS_API const char *ls_circuit_title(const ls_circuit *c);
 typedef enum ls_backend_choice {
     LS_BACKEND_AUTO = 0,      /* dense LU for small systems, sparse above */
     LS_BACKEND_DENSE,         /* LAPACK dense LU */
-    LS_BACKEND_SPARSE         /* SuiteSparse: Cholesky when symmetric positive definite, else LU */
+    LS_BACKEND_SPARSE,        /* SuiteSparse: Cholesky when symmetric positive definite, else LU */
+    LS_BACKEND_ITERATIVE      /* AMG-preconditioned CG (hypre), only in a library built with
+                                 -Dmpi=enabled (elsewhere LS_E_ARGUMENT); a circuit whose
+                                 resistances between nodes are not symmetric positive definite
+                                 is LS_E_UNSOLVABLE with a diagnostic (docs/iterative.md) */
 } ls_backend_choice;
 
 typedef struct ls_solve_options {
@@ -164,7 +168,7 @@ LS_API ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt);
 
 /* Facts about the last solve. */
 typedef struct ls_solve_info {
-    const char *method;       /* "dense-lu", "sparse-lu" or "sparse-cholesky" */
+    const char *method;       /* "dense-lu", "sparse-lu", "sparse-cholesky" or "iterative-amg" */
     int unknowns;             /* size of the modified-nodal system */
     double rcond;             /* reciprocal condition estimate */
     double residual;          /* relative residual after refinement */

@@ -15,6 +15,7 @@
 #ifdef LS_HAVE_SPARSE
 #include "solve/sparse.h"
 #endif
+#include "solve/amg.h"
 
 /* The automatic choice between dense LU and the sparse backends, by estimated
  * work (tests/bench/sparse_pick_bench dense; docs/performance.md, "Dense or
@@ -229,6 +230,12 @@ static bool dense_pays(const ls_csc *a)
 static const ls_backend *pick_backend(ls_op *op, ls_method *m)
 {
     bool dense = op->opt.solver == LS_CHOOSE_DENSE || (op->opt.solver == LS_CHOOSE_AUTO && dense_pays(&op->mna.a));
+#ifdef LS_HAVE_AMG
+    if (op->opt.solver == LS_CHOOSE_ITERATIVE || (op->opt.solver == LS_CHOOSE_AUTO && ls_amg_preferred(&op->mna.a, op->mna.nn))) {
+        *m = LS_METHOD_ITERATIVE_AMG;
+        return &ls_backend_amg;
+    }
+#endif
 #ifdef LS_HAVE_SPARSE
     if (!dense)
         return ls_sparse_pick(&op->mna.a, m);
@@ -237,6 +244,31 @@ static const ls_backend *pick_backend(ls_op *op, ls_method *m)
 #endif
     *m = LS_METHOD_DENSE_LU;
     return &ls_backend_dense;
+}
+
+/* Report why the iterative backend could not take the system, when the user
+ * asked for it (--solver iterative); an automatic pick falls back to LU.
+ * Returns true when an error was reported. */
+static bool iterative_failed(ls_op *op, int st)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
+    if (st == LS_SOLVER_NOT_CONVERGED) {
+        ls_error(nl->diags, LS_NOLOC,
+                 "the iterative solver did not converge: the true relative residual stayed at %.2g, above %.0e "
+                 "(use --solver sparse)", ss->cg_residual, LS_AMG_RTOL);
+        return true;
+    }
+    if (op->opt.solver != LS_CHOOSE_ITERATIVE || st != LS_SOLVER_NOT_SPD)
+        return false;
+    char what[300];
+    ls_unknown_desc(&op->mna, ss->bad_column, what, sizeof what);
+    ls_error(nl->diags, LS_NOLOC,
+             "--solver iterative needs a symmetric positive definite network of resistances between the nodes "
+             "(resistors, diodes, current sources; voltage sources, ports and op-amps are taken apart), and at %s it "
+             "is not (a controlled source or op-amp input between nodes, or a negative resistance): use --solver "
+             "sparse", what);
+    return true;
 }
 
 static int factor(ls_op *op)
@@ -250,12 +282,15 @@ static int factor(ls_op *op)
             ls_error(nl->diags, LS_NOLOC, "out of memory creating the solver");
             return LS_EXIT_UNSOLVABLE;
         }
+        ls_solver_set_nodes(op->solver, op->mna.nn);
         int st = ls_solver_analyze_factor(op->solver, &op->mna.a);
         const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
         op->method = m;
         op->rcond = ss->rcond;
         if (st == LS_SOLVER_OK)
             return LS_EXIT_OK;
+        if (m == LS_METHOD_ITERATIVE_AMG && iterative_failed(op, st))
+            return LS_EXIT_UNSOLVABLE;
 #ifdef LS_HAVE_SPARSE
         if (st == LS_SOLVER_NOT_SPD && attempt == 0) {
             ls_solver_free(&op->solver);
@@ -436,11 +471,15 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     if (r != LS_EXIT_OK)
         return r;
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    if (refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements) != LS_SOLVER_OK) {
-        ls_error(nl->diags, LS_NOLOC, "the linear solver failed while solving");
+    int sst = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements);
+    if (sst != LS_SOLVER_OK) {
+        if (!iterative_failed(op, sst))
+            ls_error(nl->diags, LS_NOLOC, "the linear solver failed while solving");
         return LS_EXIT_UNSOLVABLE;
     }
     op->iterations = 1;
+    op->cg_iterations = ls_solver_stats_of(op->solver)->cg_iterations;
+    op->cg_residual = ls_solver_stats_of(op->solver)->cg_residual;
     if (!o->linear_only && ls_newton_needed(nl) && (r = ls_newton_solve(op)) != LS_EXIT_OK)
         return r;
     if (polish(op) != 0) {

@@ -8,7 +8,8 @@
 #include "mna/mna.h"
 #include "solve/solver.h"
 
-typedef enum ls_solver_choice { LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE } ls_solver_choice;
+/* LS_CHOOSE_ITERATIVE: AMG-PCG (amg.h), in the -Dmpi=enabled build only. */
+typedef enum ls_solver_choice { LS_CHOOSE_AUTO, LS_CHOOSE_DENSE, LS_CHOOSE_SPARSE, LS_CHOOSE_ITERATIVE } ls_solver_choice;
 
 typedef struct ls_options {
     ls_solver_choice solver;
@@ -51,6 +52,8 @@ typedef struct ls_op {
     double *v;               /* node voltages, v[0] = 0: the same array as x, one slot before it (v[i] = x[i - 1]) */
     double *ipart, *vpart, *ppart;   /* per part: current (A), voltage (V), absorbed power (W) */
     double rcond, residual;
+    long cg_iterations;      /* iterative backend: CG iterations of the operating point's solves */
+    double cg_residual;      /* iterative backend: the largest true relative residual they ended with */
     int iterations;          /* linear solves of the operating-point iteration (1 for a linear circuit) */
     int refinements;         /* iterative-refinement steps of the last solve */
     double g_pin;            /* conductance used to pin floating nodes in modified systems */

@@ -10,11 +10,6 @@
 
 /* ---- rails ------------------------------------------------------------------------------ */
 
-static bool is_kind(const ls_part *p, const char *name)
-{
-    return strcmp(p->kind->name, name) == 0;
-}
-
 /* A voltage source's internal resistance (ohm): rint= in the current
  * language, rs= in the first one; 0 when not given. */
 static double source_rint(const ls_part *p)
@@ -28,7 +23,7 @@ static double source_rint(const ls_part *p)
 /* Is part p a stiff voltage source (a supply candidate)? */
 static bool stiff_source(const ls_part *p)
 {
-    return is_kind(p, "voltage") && source_rint(p) <= LS_RAIL_RINT_MAX;
+    return p->kind->stage_role == LS_ROLE_SOURCE && source_rint(p) <= LS_RAIL_RINT_MAX;
 }
 
 /* Mark ground and the rails in rail[] (nnodes, zeroed by the caller).  A node
@@ -72,16 +67,16 @@ static int part_anchor(const ls_part *p, const bool *rail)
     return -1;
 }
 
+/* The stage flag of a part's role (the part table's .stage_role), or 0. */
 static unsigned part_flags(const ls_part *p)
 {
-    if (p->kind->is_opamp)
-        return LS_STAGE_OPAMP;
-    if (is_kind(p, "adc"))
-        return LS_STAGE_ADC;
-    if (is_kind(p, "current") || is_kind(p, "ntc") || is_kind(p, "pot"))
-        return LS_STAGE_SENSOR;
-    if (is_kind(p, "voltage"))
-        return LS_STAGE_SOURCE;
+    switch (p->kind->stage_role) {
+    case LS_ROLE_OPAMP: return LS_STAGE_OPAMP;
+    case LS_ROLE_ADC: return LS_STAGE_ADC;
+    case LS_ROLE_SENSOR: return LS_STAGE_SENSOR;
+    case LS_ROLE_SOURCE: return LS_STAGE_SOURCE;
+    case LS_ROLE_NONE: break;
+    }
     return 0;
 }
 

@@ -267,14 +267,6 @@ static void uf_edge(void *ctx, int a, int b, bool vdef, int part)
         ls_uf_union(u->parent, a, b);
 }
 
-/* Removing a part of a kind removed as a short (a voltage source, a
- * voltage-defined controlled source: its value set to zero) keeps its DC
- * edges; removing anything else opens it (the part table's .removal). */
-bool ls_removal_keeps_edges(const ls_part *p)
-{
-    return p->kind->removal == LS_REMOVE_SHORT;
-}
-
 static int dc_bridges(ls_op *op);
 
 /* Edge callback: count a part's DC paths. */

@@ -17,9 +17,4 @@ int ls_mod_solve_t(ls_mod *m, double *y);
  * formula).  NaN when part is no such resistor or no positive value does it. */
 double ls_port_resistor_for_zout(ls_op *op, int port, int part, double target);
 
-/* Does removing part p keep its DC paths?  A voltage source or a
- * voltage-defined controlled source removed is set to zero, a short; any
- * other part removed is opened. */
-bool ls_removal_keeps_edges(const ls_part *p);
-
 #endif

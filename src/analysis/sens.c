@@ -165,31 +165,41 @@ static bool mod_value_grad(ctx *c, ls_mod *m, int idx, double *g)
     return ok;
 }
 
-/* Gradient of the driving-point resistance z = e^T A'^-1 e at unknown idx:
- * dz/dp = -u^T dA_p v with u = A'^-T e, v = A'^-1 e.  The adjoint sink also
- * adds u^T db_p, so that part is taken out by a second pass at x = 0. */
-static bool mod_z_grad(ctx *c, ls_mod *m, int idx, double *g)
+/* g = -u^T dA_p v for every parameter p, from the adjoint sink (which adds
+ * u^T db_p; a second pass at x = 0 takes it out).  False when out of memory. */
+static bool z_grad_from(ctx *c, const double *u, const double *v, double *g)
 {
     int n = c->op->mna.n, np = c->np;
-    double *u = calloc((size_t)(n ? n : 1), sizeof *u);
-    double *v = calloc((size_t)(n ? n : 1), sizeof *v);
     double *zero = calloc((size_t)(n ? n : 1), sizeof *zero);
     double *gb = calloc((size_t)(np ? np : 1), sizeof *gb);
-    bool ok = u && v && zero && gb;
-    if (ok) {
-        u[idx] = v[idx] = 1;
-        ok = ls_mod_solve_t(m, u) == LS_SOLVER_OK && ls_mod_solve(m, v) == LS_SOLVER_OK;
-    }
+    bool ok = zero && gb;
     if (ok) {
         adjoint_all(c, u, v, g);
         adjoint_all(c, u, zero, gb);
         for (int k = 0; k < np; k++)
             g[k] -= gb[k];
     }
-    free(u);
-    free(v);
     free(zero);
     free(gb);
+    return ok;
+}
+
+/* Gradient of the driving-point resistance z = e^T A'^-1 e at unknown idx:
+ * dz/dp = -u^T dA_p v with u = A'^-T e, v = A'^-1 e.  The adjoint sink also
+ * adds u^T db_p, so that part is taken out by a second pass at x = 0. */
+static bool mod_z_grad(ctx *c, ls_mod *m, int idx, double *g)
+{
+    int n = c->op->mna.n;
+    double *u = calloc((size_t)(n ? n : 1), sizeof *u);
+    double *v = calloc((size_t)(n ? n : 1), sizeof *v);
+    bool ok = u && v;
+    if (ok) {
+        u[idx] = v[idx] = 1;
+        ok = ls_mod_solve_t(m, u) == LS_SOLVER_OK && ls_mod_solve(m, v) == LS_SOLVER_OK;
+    }
+    ok = ok && z_grad_from(c, u, v, g);
+    free(u);
+    free(v);
     return ok;
 }
 
@@ -444,25 +454,18 @@ static bool port_field(ctx *c, int j, ls_prop prop, dual *out);
  * adjoint sink's u^T db_p taken out by a second pass at x = 0). */
 static bool base_z_grad(ctx *c, int idx, double *z, double *g)
 {
-    int n = c->op->mna.n, np = c->np;
+    int n = c->op->mna.n;
     double *u = calloc((size_t)(n ? n : 1), sizeof *u), *v = calloc((size_t)(n ? n : 1), sizeof *v);
-    double *zero = calloc((size_t)(n ? n : 1), sizeof *zero), *gb = calloc((size_t)(np ? np : 1), sizeof *gb);
-    bool ok = u && v && zero && gb;
+    bool ok = u && v;
     if (ok) {
         u[idx] = v[idx] = 1;
         ok = ls_op_solve_vec(c->op, u, 1) == LS_SOLVER_OK && ls_op_solve_vec(c->op, v, 0) == LS_SOLVER_OK;
     }
-    if (ok) {
+    if (ok)
         *z = v[idx];
-        adjoint_all(c, u, v, g);
-        adjoint_all(c, u, zero, gb);
-        for (int k = 0; k < np; k++)
-            g[k] -= gb[k];
-    }
+    ok = ok && z_grad_from(c, u, v, g);
     free(u);
     free(v);
-    free(zero);
-    free(gb);
     return ok;
 }
 

@@ -75,6 +75,7 @@ typedef struct mc_job {
     const int *checks;             /* matching expects */
     int nchecks;
     long trials;
+    long first, last;              /* the trials this process runs (all of them without a share) */
     uint64_t seed;
     bool normal;                   /* tol is 3 sigma of a normal law; else uniform +-tol */
     double *value;                 /* per trial, NaN when it did not solve */
@@ -231,8 +232,9 @@ static int mc_all(mc_job *job, int nthreads)
     bool started[LS_TOL_MAX_THREADS] = {false};
     for (int t = 0; t < nthreads; t++) {
         w[t].job = job;
-        w[t].first = job->trials * t / nthreads;
-        w[t].last = job->trials * (t + 1) / nthreads;
+        long span = job->last - job->first;
+        w[t].first = job->first + span * t / nthreads;
+        w[t].last = job->first + span * (t + 1) / nthreads;
         w[t].status = -1;
         atomic_init(&w[t].finished, false);
     }
@@ -244,7 +246,7 @@ static int mc_all(mc_job *job, int nthreads)
         bool all;
         do {
             nanosleep(&tick, NULL);
-            job->progress(job->progress_ctx, atomic_load(&job->done), job->trials);
+            job->progress(job->progress_ctx, atomic_load(&job->done), job->last - job->first);
             all = true;
             for (int t = 0; t < nthreads; t++)
                 all = all && (!started[t] || atomic_load(&w[t].finished));
@@ -260,6 +262,28 @@ static int mc_all(mc_job *job, int nthreads)
         if (w[t].status != 0)
             return -1;
     return 0;
+}
+
+/* With a share: every process's trials (values and verdicts) to all, and
+ * the worst status of any process.  Returns that status (code without a share). */
+static int share_trials(const ls_share *s, mc_job *job, int code)
+{
+    if (!s || s->size <= 1)
+        return code;
+    int *status = calloc((size_t)s->size, sizeof *status);
+    if (!status)
+        return LS_TOL_NOMEM; /* (the other processes then wait: out of memory ends them all) */
+    status[s->rank] = code;
+    int rc = ls_share_gather(s, status, s->size, sizeof *status);
+    for (int r = 0; r < s->size && rc == 0; r++)
+        if (status[r] != 0)
+            code = status[r];
+    free(status);
+    if (rc == 0 && code == 0)
+        rc = ls_share_gather(s, job->value, job->trials, sizeof *job->value);
+    if (rc == 0 && code == 0)
+        rc = ls_share_gather(s, job->pass, job->trials, 1);
+    return rc != 0 ? LS_TOL_SETUP : code;
 }
 
 /* ---- statistics ---------------------------------------------------------------------------- */
@@ -505,10 +529,12 @@ int ls_tol_run(ls_tol_study *t)
         free(job.pass);
         return LS_TOL_NOMEM;
     }
-    int threads = t->threads > 0 ? t->threads : thread_count(t->trials);
+    ls_share_range(t->share, t->trials, &job.first, &job.last);
+    int threads = t->threads > 0 ? t->threads : thread_count(job.last - job.first);
     if (threads > LS_TOL_MAX_THREADS)
         threads = LS_TOL_MAX_THREADS;
     code = mc_all(&job, threads) == 0 ? 0 : LS_TOL_SETUP;
+    code = share_trials(t->share, &job, code);
     if (code == 0 && mc_stats(&job, t->nchecks > 0, &t->r) != 0)
         code = LS_TOL_NOMEM;
     free(job.pass);
@@ -539,7 +565,8 @@ int ls_tol_trials(const ls_netlist *nl, const ls_op *op, const ls_q *q, long tri
     *values = NULL;
     if (nv < 0)
         return -1;
-    mc_job job = {.base = nl, .opt = op->opt, .q = q, .v = v, .nv = nv, .trials = trials, .seed = seed};
+    mc_job job = {.base = nl, .opt = op->opt, .q = q, .v = v, .nv = nv, .trials = trials, .first = 0,
+                  .last = trials, .seed = seed};
     job.value = malloc((size_t)trials * sizeof *job.value);
     job.pass = malloc((size_t)trials);
     int rc = job.value && job.pass ? mc_all(&job, thread_count(trials)) : -1;

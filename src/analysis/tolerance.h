@@ -8,6 +8,7 @@
 #include <stdint.h>
 
 #include "analysis/analysis.h"
+#include "analysis/share.h"
 
 #define LS_TOL_CORNER_LIMIT 16       /* exact corners up to 2^16 solves */
 #define LS_TOL_MAX_TRIALS 10000000L
@@ -52,6 +53,7 @@ typedef struct ls_tol_study {
     int threads;                   /* <= 0: LOADSTACK_THREADS, else the online processors */
     void (*progress)(void *ctx, long done, long total);   /* called every 50 ms during the trials, or NULL */
     void *progress_ctx;
+    const ls_share *share;         /* or NULL: trials split among processes (share.h), values gathered */
     /* out (trials becomes 0 when nothing varies: no trials are run, the
        statistics are the nominal value and the yield the nominal verdict) */
     ls_tol_vary *v;                /* the varying parts, nv of them */

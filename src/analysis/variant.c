@@ -4,7 +4,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "analysis/lowrank.h"
 #include "base/unionfind.h"
 #include "analysis/variant.h"
 

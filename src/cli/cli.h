@@ -6,6 +6,7 @@
 #include <stdio.h>
 
 #include "analysis/analysis.h"
+#include "analysis/share.h"
 #include "report/output.h"
 #include "report/report.h"
 
@@ -47,6 +48,7 @@ typedef struct ls_cli {
     const char *symbols;               /* formula: --symbols A,B,... */
     bool ideal;                        /* formula: --ideal */
     bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
+    const ls_share *share;             /* loadstack-mpi: tol's trials and sweep's points split among processes */
 } ls_cli;
 
 /* Everything a command needs from a loaded circuit. */

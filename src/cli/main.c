@@ -12,6 +12,9 @@
 #include "lang/parser.h"
 #include "parts/parts.h"
 #include "solve/solver.h"
+#ifdef LS_MPI_PROGRAM
+#include "cli/mpi_share.h"
+#endif
 
 #ifndef LS_VERSION
 #define LS_VERSION "0.0.0"
@@ -37,7 +40,7 @@ static const optdef options[] = {
     {"ascii", false, FOR_ALL, NULL, "plain ASCII output (u for micro, ohm for the omega sign)"},
     {"digits", true, FOR_ALL, NULL, "N  significant digits of numbers in text (default 4)"},
     {"quiet", false, FOR_ALL, NULL, "no progress lines on stderr"},
-    {"solver", true, FOR_CIRCUIT, NULL, "auto|dense|sparse  linear solver (default auto)"},
+    {"solver", true, FOR_CIRCUIT, NULL, "auto|dense|sparse|iterative  linear solver (default auto)"},
     {"derate", true, FOR_CIRCUIT, NULL, "F  multiply power ratings by F before comparing (default 1)"},
     {"help", false, FOR_ALL, NULL, "show help for the command"},
     {"version", false, FOR_ALL, NULL, "print the version"},
@@ -310,7 +313,15 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         if (strcmp(val, "auto") == 0) cli->solver = LS_CHOOSE_AUTO;
         else if (strcmp(val, "dense") == 0) cli->solver = LS_CHOOSE_DENSE;
         else if (strcmp(val, "sparse") == 0) cli->solver = LS_CHOOSE_SPARSE;
+#ifdef LS_HAVE_AMG
+        else if (strcmp(val, "iterative") == 0) cli->solver = LS_CHOOSE_ITERATIVE;
+        else return bad_usage("--solver takes auto, dense, sparse or iterative, not '%s'%s", val, "");
+#else
+        else if (strcmp(val, "iterative") == 0)
+            return bad_usage("--solver iterative needs the build with the iterative solver (meson setup -Dmpi=enabled, "
+                             "with libhypre-dev and libopenmpi-dev); this one has auto, dense and sparse%s", "");
         else return bad_usage("--solver takes auto, dense or sparse, not '%s'%s", val, "");
+#endif
     } else if (strcmp(n, "derate") == 0) {
         if (!ls_cli_number(val, &cli->derate) || !(cli->derate > 0))
             return bad_usage("--derate takes a positive factor, not '%s'%s", val, "");
@@ -412,8 +423,9 @@ static int read_stdin(ls_cli *cli)
     return 0;
 }
 
-/* The program proper; main only ends the process. */
-static int run_main(int argc, char **argv)
+/* The program proper; main only ends the process.  share: the processes of
+ * loadstack-mpi, or NULL. */
+static int run_main(int argc, char **argv, const ls_share *share)
 {
     ls_solver_threads_for_program(); /* measured: small solves run fastest on one thread */
     ls_cli cli;
@@ -423,6 +435,7 @@ static int run_main(int argc, char **argv)
     cli.trials = 10000;
     cli.steps = 51;
     cli.digits = 4;
+    cli.share = share;
     const cmd *c = NULL, *cw = command_word(argc, argv);
     bool want_version = false, options_done = false;
     for (int i = 1; i < argc; i++) {
@@ -531,7 +544,60 @@ static int run_main(int argc, char **argv)
     return code;
 }
 
+#ifdef LS_MPI_PROGRAM
+/* A rank other than the first computes its share and writes nothing: its
+ * --output and --plot are dropped (argv shortened in place; the new argc is
+ * returned) and its standard output and error go to /dev/null. */
+static int quiet_rank(int argc, char **argv)
+{
+    int w = 1;
+    bool done = false;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        done |= strcmp(a, "--") == 0;
+        if (!done && (strcmp(a, "--output") == 0 || strcmp(a, "--plot") == 0)) {
+            i++; /* and its value */
+            continue;
+        }
+        if (!done && (strncmp(a, "--output=", 9) == 0 || strncmp(a, "--plot=", 7) == 0))
+            continue;
+        argv[w++] = argv[i];
+    }
+    argv[w] = NULL;
+    if (!freopen("/dev/null", "w", stdout) || !freopen("/dev/null", "w", stderr))
+        return -1;
+    return w;
+}
+
+/* loadstack-mpi: the same program, run as MPI_COMM_WORLD's ranks; tol's
+ * trials and sweep's points are split among them (src/share.h) and the first
+ * rank writes the report, identical to one process's. */
 int main(int argc, char **argv)
 {
-    ls_exit_now(run_main(argc, argv));
+    ls_share share;
+    if (ls_mpi_start(&argc, &argv, &share) != 0) {
+        fputs("loadstack-mpi: error: MPI could not start\n", stderr);
+        ls_exit_now(LS_EXIT_USAGE);
+    }
+    int code = LS_EXIT_OK;
+    for (int i = 1; i < argc && share.size > 1; i++)
+        if (strcmp(argv[i], "-") == 0) {
+            if (share.rank == 0)
+                fputs("loadstack-mpi: error: with several processes the circuit must be a file (standard input "
+                      "reaches only the first)\n", stderr);
+            code = LS_EXIT_USAGE;
+            break;
+        }
+    if (code == LS_EXIT_OK && share.rank > 0 && (argc = quiet_rank(argc, argv)) < 0)
+        code = LS_EXIT_USAGE;
+    if (code == LS_EXIT_OK)
+        code = run_main(argc, argv, &share);
+    ls_mpi_end();
+    ls_exit_now(code);
 }
+#else
+int main(int argc, char **argv)
+{
+    ls_exit_now(run_main(argc, argv, NULL));
+}
+#endif

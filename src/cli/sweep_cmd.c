@@ -4,8 +4,9 @@
  * Each point re-elaborates the circuit with `--set LET=value` added, so a
  * let may change anything it feeds (values, options, even which parts a
  * block builds).  Points are solved in order, FROM first, each continuing from
- * the previous point's solution when the structure is unchanged; a point that
- * does not solve is reported as null and the sweep goes on. */
+ * the previous point's solution when the structure is unchanged, in chains of
+ * SWEEP_CHAIN points that each start afresh; a point that does not solve is
+ * reported as null and the sweep goes on. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -20,6 +21,13 @@
 #include "cli/progress.h"
 
 #define MAX_QUANTITIES (LS_MAX_POS - 4)
+/* Continuation runs in chains of this many points, each starting with a
+ * fresh solve: a chain's results (to the last bit, for a circuit that
+ * iterates) do not depend on the points before it, so loadstack-mpi hands
+ * whole chains to its processes and its report is identical to one
+ * process's.  A fresh solve every 8 points costs little beside the 7 that
+ * continue. */
+#define SWEEP_CHAIN 8
 
 typedef struct sweep {
     ls_cli *cli;
@@ -27,9 +35,10 @@ typedef struct sweep {
     const char *qtext[MAX_QUANTITIES];
     int nq;
     int steps;
+    int padded;                /* steps rounded up to whole chains (the arrays' length) */
     double *x;                 /* steps param values */
-    double *y;                 /* steps × nq, row-major; NaN: not solved / undefined */
-    bool *solved;
+    double *y;                 /* padded × nq, row-major; NaN: not solved / undefined */
+    bool *solved;              /* padded */
     ls_dims xdims, qdims[MAX_QUANTITIES];
     /* the limits of the expects on each quantity, at every point (a limit
      * may depend on the swept let) */
@@ -74,10 +83,10 @@ static void collect_limits(sweep *w, ls_session *s, const ls_q *q, int k)
             if (!isfinite(side ? r.hi : r.lo))
                 continue;
             struct limit *l = &w->lim[w->nlim];
-            l->y = malloc((size_t)w->steps * sizeof *l->y);
+            l->y = malloc((size_t)w->padded * sizeof *l->y);
             if (!l->y)
                 return;
-            for (int i = 0; i < w->steps; i++)
+            for (int i = 0; i < w->padded; i++)
                 l->y[i] = NAN;
             l->k = k;
             l->check = c;
@@ -231,6 +240,11 @@ static void solve_point(sweep *w, int i)
 {
     char buf[256];
     ls_cli pc;
+    if (i % SWEEP_CHAIN == 0 && w->base) { /* a new chain starts afresh */
+        ls_session_free(w->base);
+        free(w->base);
+        w->base = NULL;
+    }
     ls_session *s = malloc(sizeof *s);
     if (!s || !point_cli(w->cli, w->param, w->x[i], buf, sizeof buf, &pc)) {
         fprintf(stderr, "loadstack: warning: %s = %.6g is left out (%s)\n", w->param, w->x[i],
@@ -397,6 +411,39 @@ static int sweep_plot(const sweep *w)
 
 /* ---- the command --------------------------------------------------------------------------- */
 
+/* With a share: every process's points (values, solved flags and the limit
+ * curves) to all.  A process's limit curves come from the first point it
+ * solved; when the processes found different numbers of them (expects whose
+ * limits are finite only at some points) the plot leaves them out.  0, or -1
+ * when the exchange fails. */
+static int share_points(const ls_share *s, sweep *w)
+{
+    if (!s || s->size <= 1)
+        return 0;
+    int *nlim = calloc((size_t)s->size, sizeof *nlim);
+    if (!nlim)
+        return -1;
+    nlim[s->rank] = w->nlim;
+    int rc = ls_share_gather(s, nlim, s->size, sizeof *nlim);
+    bool same = true;
+    for (int r = 0; r < s->size; r++)
+        same = same && nlim[r] == nlim[0];
+    free(nlim);
+    long chains = w->padded / SWEEP_CHAIN;
+    if (rc == 0)
+        rc = ls_share_gather(s, w->y, chains, SWEEP_CHAIN * (size_t)w->nq * sizeof *w->y);
+    if (rc == 0)
+        rc = ls_share_gather(s, w->solved, chains, SWEEP_CHAIN * sizeof *w->solved);
+    if (!same) {
+        for (int j = 0; j < w->nlim; j++)
+            free(w->lim[j].y);
+        w->nlim = 0;
+    }
+    for (int j = 0; j < w->nlim && rc == 0; j++)
+        rc = ls_share_gather(s, w->lim[j].y, chains, SWEEP_CHAIN * sizeof *w->lim[j].y);
+    return rc;
+}
+
 /* Read PARAM FROM TO QUANTITY... from the positional arguments.  Returns 0 or
  * LS_EXIT_USAGE after saying why. */
 static int sweep_args(ls_cli *cli, sweep *w, double *from, double *to)
@@ -433,9 +480,10 @@ int ls_cmd_sweep(ls_cli *cli)
     double from, to;
     if (sweep_args(cli, &w, &from, &to))
         return LS_EXIT_USAGE;
+    w.padded = (w.steps + SWEEP_CHAIN - 1) / SWEEP_CHAIN * SWEEP_CHAIN;
     w.x = malloc((size_t)w.steps * sizeof *w.x);
-    w.y = malloc((size_t)w.steps * (size_t)w.nq * sizeof *w.y);
-    w.solved = calloc((size_t)w.steps, sizeof *w.solved);
+    w.y = malloc((size_t)w.padded * (size_t)w.nq * sizeof *w.y);
+    w.solved = calloc((size_t)w.padded, sizeof *w.solved);
     int code = w.x && w.y && w.solved ? LS_EXIT_OK : LS_EXIT_UNSOLVABLE;
     if (code != LS_EXIT_OK)
         fprintf(stderr, "loadstack: error: out of memory for %d sweep points\n", w.steps);
@@ -445,13 +493,21 @@ int ls_cmd_sweep(ls_cli *cli)
         code = probe(&w);
     ls_progress pg;
     ls_progress_start(&pg, "sweep", "points", cli->quiet);
-    for (int i = 0; code == LS_EXIT_OK && i < w.steps; i++) {
+    long first, last; /* this process's chains, then points (all of them without a share) */
+    ls_share_range(cli->share, w.padded / SWEEP_CHAIN, &first, &last);
+    first *= SWEEP_CHAIN;
+    last = last * SWEEP_CHAIN < w.steps ? last * SWEEP_CHAIN : w.steps;
+    for (long i = first; code == LS_EXIT_OK && i < last; i++) {
         for (int k = 0; k < w.nq; k++)
             w.y[(size_t)i * (size_t)w.nq + (size_t)k] = NAN;
-        solve_point(&w, i);
-        ls_progress_update(&pg, i + 1, w.steps);
+        solve_point(&w, (int)i);
+        ls_progress_update(&pg, i - first + 1, last - first);
     }
     ls_progress_end(&pg);
+    if (code == LS_EXIT_OK && share_points(cli->share, &w) != 0) {
+        fprintf(stderr, "loadstack: error: the processes could not exchange the sweep's points\n");
+        code = LS_EXIT_UNSOLVABLE;
+    }
     if (w.base) {
         ls_session_free(w.base);
         free(w.base);

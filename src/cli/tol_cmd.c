@@ -378,7 +378,7 @@ int ls_cmd_tol(ls_cli *cli)
     ls_progress_start(&pg, "tol", "trials", cli->quiet);
     ls_tol_study st = {.nl = &s.nl, .op = &s.op, .arena = &s.arena, .diags = &s.diags, .q = t.q,
                        .trials = t.trials, .seed = t.seed, .normal = t.normal,
-                       .progress = pg.out ? show_progress : NULL, .progress_ctx = &pg};
+                       .progress = pg.out ? show_progress : NULL, .progress_ctx = &pg, .share = cli->share};
     double *values = NULL;
     if (code == LS_EXIT_OK) {
         t.unit = ls_unit_of(t.q->dims, cli->ascii);

@@ -93,6 +93,16 @@ typedef enum ls_removal {
     LS_REMOVE_SHORT       /* set to zero: a voltage-defined part keeps its two ends at one voltage */
 } ls_removal;
 
+/* The part's role in a stage of `chain` (what a stage holding it is drawn and
+ * described as). */
+typedef enum ls_stage_role {
+    LS_ROLE_NONE = 0,     /* wiring: resistors, ports, controlled sources, ... */
+    LS_ROLE_SOURCE,       /* a voltage source: a supply or a signal source */
+    LS_ROLE_SENSOR,       /* a current source, thermistor or potentiometer: a sensor's model */
+    LS_ROLE_OPAMP,        /* an amplifier */
+    LS_ROLE_ADC           /* a converter input */
+} ls_stage_role;
+
 typedef struct ls_kind {
     const char *name;
     ls_shape shape;
@@ -105,6 +115,7 @@ typedef struct ls_kind {
     bool is_opamp;
     bool has_run;                /* keeps analysis state (ls_part.run): sources, op-amps, junctions, ... */
     ls_removal removal;          /* how it is removed (sag, ports, what-if) */
+    ls_stage_role stage_role;    /* its role in a stage of `chain` */
     bool is_junction;            /* iterates as a pn junction (ls_junction_current/_v): the iteration's
                                     polishing, its past-the-model check and sag's on/off limits */
     ls_optdef opts[LS_MAX_OPTS];
@@ -151,6 +162,11 @@ void ls_stamp_conductance(ls_sink *s, int a, int b, double g);
 void ls_lin_add(ls_lin *l, int idx, double c);
 /* Unknown idx of a solution x (0 for ground, idx < 0). */
 static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx] : 0; }
+
+/* Removing a part of a kind removed as a short (a voltage source, a
+ * voltage-defined controlled source: its value set to zero) keeps its DC
+ * edges; removing anything else opens it (the table's .removal). */
+static inline bool ls_removal_keeps_edges(const ls_part *p) { return p->kind->removal == LS_REMOVE_SHORT; }
 
 /* Option value helpers. */
 static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && (p->has_opt >> opt & 1u); }

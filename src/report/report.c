@@ -713,7 +713,7 @@ static void adcs_json(ls_jw *w, ls_op *op)
 
 static const char *method_name(ls_method m)
 {
-    static const char *const n[] = {"dense-lu", "sparse-lu", "sparse-cholesky"};
+    static const char *const n[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
     return n[m];
 }
 
@@ -969,8 +969,13 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     const char *V = "V", *A = "A", *W = "W";
     char b1[64], b2[64], b3[64];
     fprintf(o, "%s\n", nl->title ? nl->title : "(untitled circuit)");
-    fprintf(o, "solved: %d unknowns by %s (%s), reciprocal condition %.2g, relative residual %.2g\n", op->mna.n,
-            method_name(op->method), ls_solver_stats_of(op->solver)->library, op->rcond, op->residual);
+    if (op->method == LS_METHOD_ITERATIVE_AMG)
+        fprintf(o, "solved: %d unknowns by %s (%s), %ld conjugate-gradient iterations to a true relative residual "
+                "of %.2g, relative residual %.2g\n", op->mna.n, method_name(op->method),
+                ls_solver_stats_of(op->solver)->library, op->cg_iterations, op->cg_residual, op->residual);
+    else
+        fprintf(o, "solved: %d unknowns by %s (%s), reciprocal condition %.2g, relative residual %.2g\n", op->mna.n,
+                method_name(op->method), ls_solver_stats_of(op->solver)->library, op->rcond, op->residual);
 
     if (op->iterations > 1)
         fprintf(o, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
@@ -1102,7 +1107,14 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     ls_jw_str(w, "method", method_name(op->method));
     ls_jw_str(w, "library", ls_solver_stats_of(op->solver)->library);
     ls_jw_int(w, "unknowns", op->mna.n);
-    ls_jw_num(w, "rcond", op->rcond);
+    if (op->method == LS_METHOD_ITERATIVE_AMG) {
+        /* no condition estimate: what the iteration reached stands for it */
+        ls_jw_null(w, "rcond", LS_WHY_UNDEFINED);
+        ls_jw_int(w, "cg_iterations", op->cg_iterations);
+        ls_jw_num(w, "cg_residual", op->cg_residual);
+    } else {
+        ls_jw_num(w, "rcond", op->rcond);
+    }
     ls_jw_num(w, "residual", op->residual);
     ls_jw_int(w, "iterations", op->iterations);
     ls_jw_str(w, "refinement", !op->acc.refined ? "double" : op->acc.extended ? "extended" : "double-confirmed");

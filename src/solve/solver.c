@@ -167,6 +167,12 @@ int ls_solver_solve(ls_solver *s, double *b, int transpose)
     return r;
 }
 
+void ls_solver_set_nodes(ls_solver *s, int m)
+{
+    if (s->be->set_nodes)
+        s->be->set_nodes(s->self, m);
+}
+
 const ls_solver_stats *ls_solver_stats_of(const ls_solver *s)
 {
     return &s->st;

@@ -19,7 +19,8 @@
 typedef enum ls_method {
     LS_METHOD_DENSE_LU = 0,      /* LAPACK dgetrf with equilibration */
     LS_METHOD_SPARSE_LU,         /* KLU or UMFPACK, chosen by structure */
-    LS_METHOD_SPARSE_CHOLESKY    /* CHOLMOD, symmetric positive definite systems only */
+    LS_METHOD_SPARSE_CHOLESKY,   /* CHOLMOD, symmetric positive definite systems only */
+    LS_METHOD_ITERATIVE_AMG      /* hypre BoomerAMG-PCG on the node block (amg.c; -Dmpi=enabled builds) */
 } ls_method;
 
 typedef enum ls_solver_status {
@@ -28,18 +29,24 @@ typedef enum ls_solver_status {
     LS_SOLVER_NOMEM = -2,
     LS_SOLVER_TOO_LARGE = -3,    /* refused before allocating: see bytes_needed */
     LS_SOLVER_NOT_SPD = -4,      /* Cholesky asked for a matrix that is not positive definite */
-    LS_SOLVER_FAILED = -5        /* any other library failure */
+    LS_SOLVER_FAILED = -5,       /* any other library failure */
+    LS_SOLVER_NOT_CONVERGED = -6 /* an iterative solve stopped above its tolerance: see cg_residual */
 } ls_solver_status;
 
 /* Statistics a backend fills in; controls are the arguments of the calls. */
 typedef struct ls_solver_stats {
     ls_method method;
-    const char *library;   /* "lapack", "klu", "umfpack", "cholmod" */
+    const char *library;   /* "lapack", "klu", "umfpack", "cholmod", "hypre" */
     double rcond;          /* reciprocal condition estimate (1-norm); NAN if unknown */
     int bad_column;        /* first zero or tiny pivot column, -1 if none */
     size_t bytes_needed;   /* with LS_SOLVER_TOO_LARGE: what the factor would take */
     int factorizations;    /* numeric factorizations done */
     int analyses;          /* symbolic analyses done */
+    /* Iterative backend only: CG iterations since the last factor (its setup
+     * and every solve, runs and restarts), and the largest true relative
+     * residual ||b - G x||_2 / ||b||_2 the last solve ended with. */
+    long cg_iterations;
+    double cg_residual;
 } ls_solver_stats;
 
 typedef struct ls_solver ls_solver;
@@ -57,6 +64,9 @@ typedef struct ls_backend {
     /* Optional (NULL: analyze, then factor): both at once, for a backend whose
      * analysis already does most of the factor's work on the same matrix. */
     int (*analyze_factor)(void *self, const ls_csc *a, ls_solver_stats *st);
+    /* Optional (NULL: ignored): the leading m unknowns are node voltages and
+     * the rest branch currents, for a backend that treats them apart. */
+    void (*set_nodes)(void *self, int m);
 } ls_backend;
 
 extern const ls_backend ls_backend_dense;
@@ -75,6 +85,9 @@ int ls_solver_analyze_factor(ls_solver *s, const ls_csc *a);
 /* Solve in place; `work` scratch is internal.  Returns LS_SOLVER_OK or an error. */
 int ls_solver_solve(ls_solver *s, double *b, int transpose);
 const ls_solver_stats *ls_solver_stats_of(const ls_solver *s);
+/* Tell the backend that the leading m unknowns are node voltages (before
+ * analyze; a backend that does not need it ignores it). */
+void ls_solver_set_nodes(ls_solver *s, int m);
 /* The program's own thread settings between solves: one BLAS and one OpenMP
  * thread (a factorization of a large system raises them for its duration).
  * For the command-line program only: a library caller keeps its own, which

@@ -22,4 +22,14 @@ double ls_sparse_lu_flops(const ls_csc *a);
  * column where they differ.  `work` is n ints of scratch.  O(nnz). */
 int ls_csc_asym_column(const ls_csc *a, int *work);
 
+/* Positive diagonal and weak column dominance (a_jj >= sum_i!=j |a_ij|, up
+ * to rounding): -1 when every column has them, else the first column that
+ * does not.  strict (n bytes, may be NULL) gets 1 per column whose diagonal
+ * exceeds that sum (a conductance to ground).  O(nnz). */
+int ls_csc_dominance(const ls_csc *a, unsigned char *strict);
+
+/* AMD's estimate of nnz(L)/n for A+A^T (the fill of a direct factor), or -1
+ * if it could not be computed (no memory).  O(nnz) time. */
+double ls_csc_fill_per_column(const ls_csc *a);
+
 #endif

@@ -51,9 +51,9 @@
 #define PICK_UMF_MIN_FILL 25.0
 #endif
 
-/* Positive diagonal and weak column dominance.  Columns are the rows of a
- * symmetric matrix, so column sums are the Gershgorin radii. */
-static int dominant_positive_diagonal(const ls_csc *a)
+/* See sparse.h.  Columns are the rows of a symmetric matrix, so column sums
+ * are the Gershgorin radii. */
+int ls_csc_dominance(const ls_csc *a, unsigned char *strict)
 {
     for (int j = 0; j < a->n; j++) {
         double diag = 0, off = 0;
@@ -65,14 +65,16 @@ static int dominant_positive_diagonal(const ls_csc *a)
         }
         /* the slack absorbs rounding when diag and off sum the same stamps */
         if (!(diag > 0) || diag < off * (1 - 64 * 2.220446049250313e-16))
-            return 0;
+            return j;
+        if (strict)
+            strict[j] = diag > off * (1 + 64 * 2.220446049250313e-16);
     }
-    return 1;
+    return -1;
 }
 
 static int likely_spd(const ls_csc *a)
 {
-    if (!dominant_positive_diagonal(a)) /* cheap, and rejects most MNA matrices */
+    if (ls_csc_dominance(a, NULL) >= 0) /* cheap, and rejects most MNA matrices */
         return 0;
     int *work = malloc((size_t)a->n * sizeof(int));
     if (!work)
@@ -96,8 +98,8 @@ static bool amd_stats(const ls_csc *a, double *info)
     return s == AMD_OK || s == AMD_OK_BUT_JUMBLED;
 }
 
-/* AMD's nnz(L)/n for A+A^T, or -1 if it could not be computed. */
-static double fill_per_column(const ls_csc *a)
+/* See sparse.h. */
+double ls_csc_fill_per_column(const ls_csc *a)
 {
     double info[AMD_INFO];
     if (!amd_stats(a, info))
@@ -127,7 +129,7 @@ const ls_backend *ls_sparse_pick(const ls_csc *a, ls_method *method_out)
             m = LS_METHOD_SPARSE_CHOLESKY;
         } else if (a->n >= PICK_UMF_MIN_N &&
                    (double)ls_csc_nnz(a) / a->n >= PICK_UMF_MIN_PER_COL &&
-                   fill_per_column(a) >= PICK_UMF_MIN_FILL) {
+                   ls_csc_fill_per_column(a) >= PICK_UMF_MIN_FILL) {
             be = &ls_backend_umfpack;
         }
     }

@@ -56,24 +56,20 @@ case("loaded divider: current of the load", "Ohm's law on the loaded node", LOAD
 # the bridge; e.g. Hambley, Electrical Engineering: Principles and
 # Applications, chapter 2 -- chapter from memory).
 r1, r2, r3, r4 = S("r1 r2 r3 r4")
-case("Wheatstone bridge: Thevenin voltage", "bridge Thevenin voltage vs*(r2/(r1+r2) - r4/(r3+r4)) (Hambley ch. 2)", """
-ground gnd
-voltage  vs gnd -> top 10 V
+BRIDGE = """
+ground {ground}
+voltage  vs {bottom} -> top 10 V
 resistor r1 top -> a 1k
-resistor r2 a -> gnd 1k2
+resistor r2 a -> {bottom} 1k2
 resistor r3 top -> b 2k2
-resistor r4 b -> gnd 1k8
-""", "a - b", vs * (r2 / (r1 + r2) - r4 / (r3 + r4)))
-case("Wheatstone bridge: Thevenin resistance", "bridge Thevenin resistance r1||r2 + r3||r4 (Hambley ch. 2)", """
-ground b
-voltage  vs bot -> top 10 V
-resistor r1 top -> a 1k
-resistor r2 a -> bot 1k2
-resistor r3 top -> b 2k2
-resistor r4 b -> bot 1k8
-port     p  a -> meter
-resistor r_m meter -> b 10M
-""", "p.zout", par(r1, r2) + par(r3, r4), symbols=["r1", "r2", "r3", "r4"], shows="(r1 || r2)")
+resistor r4 b -> {bottom} 1k8
+{meter}"""
+case("Wheatstone bridge: Thevenin voltage", "bridge Thevenin voltage vs*(r2/(r1+r2) - r4/(r3+r4)) (Hambley ch. 2)",
+     BRIDGE.format(ground="gnd", bottom="gnd", meter=""), "a - b", vs * (r2 / (r1 + r2) - r4 / (r3 + r4)))
+# The same bridge seen from a meter between its midpoints (b as the reference).
+case("Wheatstone bridge: Thevenin resistance", "bridge Thevenin resistance r1||r2 + r3||r4 (Hambley ch. 2)",
+     BRIDGE.format(ground="b", bottom="bot", meter="port     p  a -> meter\nresistor r_m meter -> b 10M\n"),
+     "p.zout", par(r1, r2) + par(r3, r4), symbols=["r1", "r2", "r3", "r4"], shows="(r1 || r2)")
 
 # Op-amp stages with a finite open-loop gain: Black's feedback formula
 # A/(1 + A*beta) (H. S. Black, "Stabilized feedback amplifiers", Bell System

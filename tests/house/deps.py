@@ -35,7 +35,6 @@ KNOWN_CYCLES = {
     ("analysis/accuracy", "analysis/analysis", "analysis/newton", "analysis/selfcheck"):
         "the operating point and its iteration call each other; the accuracy and self-check"
         " modules take the ls_op declared with the analysis functions",
-    ("analysis/lowrank", "analysis/variant"): "a variant re-solve and the low-rank rows call each other",
 }
 
 INCLUDE = re.compile(r'^\s*#\s*include\s*"([^"]+)"', re.M)

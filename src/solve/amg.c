@@ -1,0 +1,718 @@
+/* amg.c — the iterative backend: conjugate gradients preconditioned by
+ * algebraic multigrid (hypre's BoomerAMG and PCG), for systems whose
+ * resistor network is symmetric positive definite, however large.
+ *
+ * A direct factor of a 3-D mesh fills in by orders of magnitude (a 100^3
+ * mesh's Cholesky factor takes gigabytes); AMG-PCG needs memory proportional
+ * to the matrix and a number of iterations that hardly grows with the mesh.
+ * hypre is Debian's well-kept implementation (libhypre-dev); it links MPI,
+ * so this backend exists only in the build with `-Dmpi=enabled`
+ * (docs/iterative.md).
+ *
+ * The MNA matrix is bordered:
+ *
+ *     A = [ G  B ]   G: the node block (m x m), symmetric, positive diagonal,
+ *         [ C  D ]      weakly diagonally dominant: the resistors, the
+ *                       conductances of diodes at their operating point;
+ *                    B, C, D: the k branch unknowns of voltage sources, ports,
+ *                       op-amps and controlled sources (any signs: C need not
+ *                       be B^T).
+ *
+ * G is solved by AMG-PCG; the branches through the k x k Schur complement
+ * S = D - C G^-1 B (k solves with G at setup, then a dense LU), so that
+ *     t = G^-1 b1,  S y = b2 - C t,  x = G^-1 (b1 - B y)
+ * (two solves with G per solve; one when k = 0).  A^T has the same form with
+ * B and C^T exchanged, so transposed solves cost the same.  A part of the
+ * resistor network tied to ground only through sources (G singular on it) is
+ * pinned: G + g e e^T with one more border unknown z = e^T x taking the
+ * conductance out again, exactly.
+ *
+ * Stopping rule, on the true residual: each G solve runs PCG until the
+ * recursively updated residual is below LS_AMG_RTOL (relative, 2-norm), then
+ * computes b - G x itself and restarts from x while that true residual is
+ * above LS_AMG_RTOL (at most AMG_RESTARTS times).  The operating point then
+ * refines against the whole A as it does for the direct solvers. */
+#ifdef LS_HAVE_AMG
+
+#include "base/csc.h"
+#include "base/unionfind.h"
+#include "solve/amg.h"
+#include "solve/sparse.h"
+
+#include <HYPRE.h>
+#include <HYPRE_krylov.h>
+#include <HYPRE_parcsr_ls.h>
+#include <lapacke.h>
+#include <mpi.h>
+
+#include <math.h>
+#include <pthread.h>
+#include <stdbool.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define AMG_MAX_ITER 500     /* PCG iterations per run; a mesh needs tens */
+#define AMG_RESTARTS 4       /* runs after the first while the true residual is too large */
+#define AMG_MIN_N 50000      /* the automatic choice: see ls_amg_preferred */
+#define AMG_MIN_FILL 150.0
+#define AMG_MAX_AUTO_BORDER 16
+
+/* hypre keeps process-wide state (its error flag, its memory bookkeeping)
+ * and needs MPI initialized: one lock serializes every hypre call of the
+ * process (tol's worker threads solve one at a time through it), and MPI is
+ * initialized on first use unless the program (loadstack-mpi) did it. */
+static pthread_mutex_t hypre_lock = PTHREAD_MUTEX_INITIALIZER;
+static pthread_once_t hypre_once = PTHREAD_ONCE_INIT;
+static int hypre_ready; /* written once under hypre_once */
+
+static void hypre_start(void)
+{
+    int up = 0;
+    MPI_Initialized(&up);
+    if (!up) {
+        /* A singleton that talks to no one: OpenMPI then starts no helper
+         * daemon and probes no network transport, 0.1 s instead of 0.6
+         * (measured).  setenv(.., 0) leaves whatever the user set. */
+        static const char *const quiet[][2] = {
+            {"OMPI_MCA_ess_singleton_isolated", "1"}, {"OMPI_MCA_pml", "ob1"}, {"OMPI_MCA_btl", "self"},
+            {"OMPI_MCA_osc", "^ucx"}, {"OMPI_MCA_mtl", "^ofi"},
+        };
+        for (size_t i = 0; i < sizeof quiet / sizeof quiet[0]; i++)
+            setenv(quiet[i][0], quiet[i][1], 0);
+        int provided;
+        if (MPI_Init_thread(NULL, NULL, MPI_THREAD_SERIALIZED, &provided) != MPI_SUCCESS)
+            return;
+    }
+    HYPRE_Init();
+    hypre_ready = 1;
+}
+
+typedef struct amg {
+    int n, m, k;            /* order, node block, border (branches and pins) */
+    int nodes_hint;         /* set_nodes: m, or 0 when not told */
+    ls_csc g;               /* the node block G (pinned), full symmetric pattern */
+    int *bp, *bi;           /* B: k columns over rows < m (CSC) */
+    double *bv;
+    int *cp, *ci;           /* C^T: k columns over rows < m (row i of C as column i) */
+    double *cv;
+    double *s;              /* k x k Schur complement, LU-factored (column-major) */
+    int *ipiv;
+    double *t, *r, *y, *z;  /* scratch: m, m, k, k+m */
+    HYPRE_IJMatrix ij;
+    HYPRE_ParCSRMatrix pg;
+    HYPRE_IJVector ijb, ijx;
+    HYPRE_ParVector pb, px;
+    HYPRE_Solver pcg, prec;
+    int *rows;              /* 0 .. m-1, for vector transfers */
+    bool factored;
+} amg;
+
+/* A new backend state, or NULL without memory (or without MPI).  Freed by amg_destroy. */
+static void *amg_create(void)
+{
+    pthread_once(&hypre_once, hypre_start);
+    if (!hypre_ready)
+        return NULL;
+    return calloc(1, sizeof(amg));
+}
+
+/* Release the hypre objects (under the lock). */
+static void hypre_release(amg *h)
+{
+    pthread_mutex_lock(&hypre_lock);
+    if (h->pcg)
+        HYPRE_ParCSRPCGDestroy(h->pcg);
+    if (h->prec)
+        HYPRE_BoomerAMGDestroy(h->prec);
+    if (h->ij)
+        HYPRE_IJMatrixDestroy(h->ij);
+    if (h->ijb)
+        HYPRE_IJVectorDestroy(h->ijb);
+    if (h->ijx)
+        HYPRE_IJVectorDestroy(h->ijx);
+    HYPRE_ClearAllErrors();
+    pthread_mutex_unlock(&hypre_lock);
+    h->pcg = h->prec = NULL;
+    h->ij = NULL;
+    h->ijb = h->ijx = NULL;
+}
+
+/* Free everything the last factor built; h stays usable. */
+static void amg_release(amg *h)
+{
+    hypre_release(h);
+    ls_csc_free(&h->g);
+    free(h->bp); free(h->bi); free(h->bv);
+    free(h->cp); free(h->ci); free(h->cv);
+    free(h->s); free(h->ipiv);
+    free(h->t); free(h->r); free(h->y); free(h->z);
+    free(h->rows);
+    h->bp = h->bi = h->cp = h->ci = h->ipiv = h->rows = NULL;
+    h->bv = h->cv = h->s = h->t = h->r = h->y = h->z = NULL;
+    h->factored = false;
+}
+
+/* Free the state; accepts NULL. */
+static void amg_destroy(void *self)
+{
+    amg *h = self;
+    if (!h)
+        return;
+    amg_release(h);
+    free(h);
+}
+
+/* ---- splitting A into G, B, C, D ------------------------------------------------ */
+
+/* The node block's order: the hint of set_nodes, else the leading columns
+ * with a positive diagonal (a matrix with no branches has only those). */
+static int node_count(const amg *h, const ls_csc *a)
+{
+    if (h && h->nodes_hint > 0 && h->nodes_hint <= a->n)
+        return h->nodes_hint;
+    int m = 0;
+    while (m < a->n) {
+        double d = 0;
+        for (int p = a->colptr[m]; p < a->colptr[m + 1]; p++)
+            if (a->rowind[p] == m)
+                d = a->val[p];
+        if (!(d > 0))
+            break;
+        m++;
+    }
+    return m;
+}
+
+static void amg_set_nodes(void *self, int m)
+{
+    ((amg *)self)->nodes_hint = m;
+}
+
+/* Copy the leading m x m block of a into g (rows sorted, as in a), with a
+ * diagonal entry in every column (0 where a has none: a node that only
+ * sources touch).  0, or -1 without memory. */
+static int take_block(const ls_csc *a, int m, ls_csc *g)
+{
+    size_t nnz = (size_t)m;
+    for (int j = 0; j < m; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            nnz += a->rowind[p] < m;
+    g->n = m;
+    g->colptr = malloc(((size_t)m + 1) * sizeof(int));
+    g->rowind = malloc((nnz ? nnz : 1) * sizeof(int));
+    g->val = malloc((nnz ? nnz : 1) * sizeof(double));
+    if (!g->colptr || !g->rowind || !g->val)
+        return -1;
+    int w = 0;
+    for (int j = 0; j < m; j++) {
+        g->colptr[j] = w;
+        bool diag = false;
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
+            int i = a->rowind[p];
+            if (i >= m)
+                continue;
+            if (i > j && !diag) {
+                g->rowind[w] = j;
+                g->val[w++] = 0;
+            }
+            diag |= i >= j;
+            g->rowind[w] = i;
+            g->val[w++] = a->val[p];
+        }
+        if (!diag) {
+            g->rowind[w] = j;
+            g->val[w++] = 0;
+        }
+    }
+    g->colptr[m] = w;
+    return 0;
+}
+
+/* The diagonal entry of column j of g (take_block put one in every column). */
+static double *diag_of(ls_csc *g, int j)
+{
+    for (int p = g->colptr[j]; p < g->colptr[j + 1]; p++)
+        if (g->rowind[p] == j)
+            return &g->val[p];
+    return NULL;
+}
+
+/* Nodes with no conductance at all (only sources touch them: a node
+ * between two stacked cells) get the pin conductance gpin on their diagonal
+ * and are listed in pin[]; returns their number. */
+static int bare_nodes(ls_csc *g, double gpin, int *pin)
+{
+    int np = 0;
+    for (int j = 0; j < g->n; j++) {
+        bool any = false;
+        for (int p = g->colptr[j]; p < g->colptr[j + 1]; p++)
+            any |= g->val[p] != 0;
+        if (!any) {
+            *diag_of(g, j) = gpin;
+            pin[np++] = j;
+        }
+    }
+    return np;
+}
+
+/* The components of G's graph with no conductance to ground: one node of
+ * each into pin[] (at most m).  Returns their number, or -1 without memory. */
+static int floating_parts(const ls_csc *g, const unsigned char *strict, int *pin)
+{
+    int m = g->n, np = 0;
+    int *parent = malloc(((size_t)m + 1) * sizeof *parent);
+    unsigned char *grounded = calloc((size_t)m + 1, 1);
+    if (!parent || !grounded) {
+        free(parent);
+        free(grounded);
+        return -1;
+    }
+    for (int i = 0; i < m; i++)
+        parent[i] = i;
+    for (int j = 0; j < m; j++)
+        for (int p = g->colptr[j]; p < g->colptr[j + 1]; p++)
+            if (g->rowind[p] != j && g->val[p] != 0)
+                ls_uf_union(parent, g->rowind[p], j);
+    for (int j = 0; j < m; j++)
+        if (strict[j])
+            grounded[ls_uf_find(parent, j)] = 1;
+    for (int j = 0; j < m; j++) {
+        int r = ls_uf_find(parent, j);
+        if (!grounded[r]) {
+            grounded[r] = 1;
+            pin[np++] = j;
+        }
+    }
+    free(parent);
+    free(grounded);
+    return np;
+}
+
+/* The border: B and C^T as k sparse columns over the node rows, D dense
+ * (into h->s, column-major), with one pin per floating component (B: -g e,
+ * C: e^T, D: -1) after the branches.  0, or -1 without memory. */
+static int take_border(amg *h, const ls_csc *a, const int *pin, int npin, double gpin)
+{
+    int m = h->m, kb = a->n - m, k = h->k;
+    size_t nb = (size_t)npin, nc = (size_t)npin;
+    for (int j = m; j < a->n; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            nb += a->rowind[p] < m;
+    for (int j = 0; j < m; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            nc += a->rowind[p] >= m;
+    h->bp = calloc((size_t)k + 1, sizeof(int));
+    h->cp = calloc((size_t)k + 2, sizeof(int));
+    h->bi = malloc((nb ? nb : 1) * sizeof(int));
+    h->bv = malloc((nb ? nb : 1) * sizeof(double));
+    h->ci = malloc((nc ? nc : 1) * sizeof(int));
+    h->cv = malloc((nc ? nc : 1) * sizeof(double));
+    h->s = calloc((size_t)(k ? k : 1) * (k ? k : 1), sizeof(double));
+    if (!h->bp || !h->cp || !h->bi || !h->bv || !h->ci || !h->cv || !h->s)
+        return -1;
+    int w = 0;
+    for (int c = 0; c < kb; c++) {
+        h->bp[c] = w;
+        for (int p = a->colptr[m + c]; p < a->colptr[m + c + 1]; p++) {
+            int i = a->rowind[p];
+            if (i < m) {
+                h->bi[w] = i;
+                h->bv[w++] = a->val[p];
+            } else {
+                h->s[(size_t)c * k + (i - m)] = a->val[p];
+            }
+        }
+    }
+    for (int q = 0; q < npin; q++) {
+        h->bp[kb + q] = w;
+        h->bi[w] = pin[q];
+        h->bv[w++] = -gpin;
+        h->s[(size_t)(kb + q) * k + kb + q] = -1;
+    }
+    h->bp[k] = w;
+    /* C^T: count per border row, then fill (node columns in order: sorted) */
+    for (int j = 0; j < m; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            if (a->rowind[p] >= m)
+                h->cp[a->rowind[p] - m + 2]++;
+    for (int q = 0; q < npin; q++)
+        h->cp[kb + q + 2]++;
+    for (int c = 0; c < k; c++)
+        h->cp[c + 2] += h->cp[c + 1];
+    for (int j = 0; j < m; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            if (a->rowind[p] >= m) {
+                int at = h->cp[a->rowind[p] - m + 1]++;
+                h->ci[at] = j;
+                h->cv[at] = a->val[p];
+            }
+    for (int q = 0; q < npin; q++) {
+        int at = h->cp[kb + q + 1]++;
+        h->ci[at] = pin[q];
+        h->cv[at] = 1;
+    }
+    return 0;
+}
+
+/* ---- hypre ------------------------------------------------------------------------ */
+
+/* G to hypre, BoomerAMG set up as PCG's preconditioner.  Under the lock.
+ * LS_SOLVER_* status. */
+static int hypre_setup(amg *h)
+{
+    int m = h->m;
+    const ls_csc *g = &h->g;
+    int *ncols = malloc((size_t)(m ? m : 1) * sizeof *ncols);
+    h->rows = malloc((size_t)(m ? m : 1) * sizeof *h->rows);
+    if (!ncols || !h->rows) {
+        free(ncols);
+        return LS_SOLVER_NOMEM;
+    }
+    for (int i = 0; i < m; i++) {
+        h->rows[i] = i;
+        ncols[i] = g->colptr[i + 1] - g->colptr[i];
+    }
+    MPI_Comm comm = MPI_COMM_SELF; /* each process solves its own systems */
+    /* G is symmetric: its column i is its row i, so the compressed columns
+     * are handed over as rows */
+    HYPRE_IJMatrixCreate(comm, 0, m - 1, 0, m - 1, &h->ij);
+    HYPRE_IJMatrixSetObjectType(h->ij, HYPRE_PARCSR);
+    HYPRE_IJMatrixSetRowSizes(h->ij, ncols);
+    HYPRE_IJMatrixInitialize(h->ij);
+    HYPRE_IJMatrixSetValues(h->ij, m, ncols, h->rows, g->rowind, g->val);
+    HYPRE_IJMatrixAssemble(h->ij);
+    HYPRE_IJMatrixGetObject(h->ij, (void **)&h->pg);
+    free(ncols);
+    HYPRE_IJVectorCreate(comm, 0, m - 1, &h->ijb);
+    HYPRE_IJVectorSetObjectType(h->ijb, HYPRE_PARCSR);
+    HYPRE_IJVectorInitialize(h->ijb);
+    HYPRE_IJVectorAssemble(h->ijb);
+    HYPRE_IJVectorGetObject(h->ijb, (void **)&h->pb);
+    HYPRE_IJVectorCreate(comm, 0, m - 1, &h->ijx);
+    HYPRE_IJVectorSetObjectType(h->ijx, HYPRE_PARCSR);
+    HYPRE_IJVectorInitialize(h->ijx);
+    HYPRE_IJVectorAssemble(h->ijx);
+    HYPRE_IJVectorGetObject(h->ijx, (void **)&h->px);
+
+    /* BoomerAMG as one V-cycle per PCG step: HMIS coarsening with extended+i
+     * interpolation truncated to 4 entries a row keeps the coarse operators
+     * sparse on 3-D meshes; symmetric hybrid Gauss-Seidel keeps the
+     * preconditioner symmetric, as CG needs.  Strength threshold 0.25:
+     * measured on 50^3 and 60^3 meshes against 0.5, a third less time for
+     * the same iterations (tests/bench/mesh3d.sh). */
+    HYPRE_BoomerAMGCreate(&h->prec);
+    HYPRE_BoomerAMGSetPrintLevel(h->prec, 0);
+    HYPRE_BoomerAMGSetCoarsenType(h->prec, 10);
+    HYPRE_BoomerAMGSetInterpType(h->prec, 6);
+    HYPRE_BoomerAMGSetPMaxElmts(h->prec, 4);
+    HYPRE_BoomerAMGSetStrongThreshold(h->prec, 0.25);
+    HYPRE_BoomerAMGSetRelaxType(h->prec, 6);
+    HYPRE_BoomerAMGSetNumSweeps(h->prec, 1);
+    HYPRE_BoomerAMGSetTol(h->prec, 0.0);
+    HYPRE_BoomerAMGSetMaxIter(h->prec, 1);
+    HYPRE_ParCSRPCGCreate(comm, &h->pcg);
+    HYPRE_PCGSetMaxIter(h->pcg, AMG_MAX_ITER);
+    HYPRE_PCGSetTol(h->pcg, LS_AMG_RTOL);
+    HYPRE_PCGSetTwoNorm(h->pcg, 1);
+    HYPRE_PCGSetPrintLevel(h->pcg, 0);
+    HYPRE_PCGSetLogging(h->pcg, 1);
+    HYPRE_PCGSetPrecond(h->pcg, (HYPRE_PtrToSolverFcn)HYPRE_BoomerAMGSolve,
+                        (HYPRE_PtrToSolverFcn)HYPRE_BoomerAMGSetup, h->prec);
+    int err = HYPRE_ParCSRPCGSetup(h->pcg, h->pg, h->pb, h->px);
+    HYPRE_ClearAllErrors();
+    return err == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
+}
+
+/* One PCG run on G x = b from x = 0; *iters gets its iterations.  Under the lock. */
+static void pcg_run(amg *h, const double *b, double *x, int *iters)
+{
+    HYPRE_IJVectorSetValues(h->ijb, h->m, h->rows, b);
+    memset(x, 0, (size_t)h->m * sizeof *x);
+    HYPRE_IJVectorSetValues(h->ijx, h->m, h->rows, x);
+    HYPRE_ParCSRPCGSolve(h->pcg, h->pg, h->pb, h->px);
+    HYPRE_IJVectorGetValues(h->ijx, h->m, h->rows, x);
+    HYPRE_Int it = 0;
+    HYPRE_PCGGetNumIterations(h->pcg, &it);
+    *iters = (int)it;
+    HYPRE_ClearAllErrors(); /* a run that stopped short is judged below, by its true residual */
+}
+
+static double norm2(const double *v, int n)
+{
+    double s = 0;
+    for (int i = 0; i < n; i++)
+        s += v[i] * v[i];
+    return sqrt(s);
+}
+
+/* x = G^-1 b (b kept), by PCG runs restarted on the true residual b - G x
+ * until it is below LS_AMG_RTOL relative to b.  Adds the iterations to
+ * st->cg_iterations and raises st->cg_residual to the true relative
+ * residual reached.  LS_SOLVER_OK or LS_SOLVER_NOT_CONVERGED. */
+static int g_solve(amg *h, const double *b, double *x, ls_solver_stats *st)
+{
+    int m = h->m;
+    double bn = norm2(b, m);
+    if (bn == 0) {
+        memset(x, 0, (size_t)m * sizeof *x);
+        return LS_SOLVER_OK;
+    }
+    double *r = h->r, *d = h->t;
+    memcpy(r, b, (size_t)m * sizeof *r);
+    memset(x, 0, (size_t)m * sizeof *x);
+    double rel = 1;
+    pthread_mutex_lock(&hypre_lock);
+    for (int run = 0; run <= AMG_RESTARTS && rel > LS_AMG_RTOL; run++) {
+        int it;
+        pcg_run(h, r, d, &it);
+        st->cg_iterations += it;
+        for (int i = 0; i < m; i++)
+            x[i] += d[i];
+        ls_csc_matvec(&h->g, x, r, 0);
+        for (int i = 0; i < m; i++)
+            r[i] = b[i] - r[i];
+        rel = norm2(r, m) / bn;
+    }
+    pthread_mutex_unlock(&hypre_lock);
+    if (!(rel <= st->cg_residual))
+        st->cg_residual = rel;
+    return rel <= LS_AMG_RTOL ? LS_SOLVER_OK : LS_SOLVER_NOT_CONVERGED;
+}
+
+/* ---- factor and solve ------------------------------------------------------------- */
+
+/* The Schur complement S = D - C G^-1 B, column by column, LU-factored.
+ * LS_SOLVER_* status; a singular S names its column (a branch). */
+static int schur(amg *h, ls_solver_stats *st)
+{
+    int m = h->m, k = h->k;
+    if (k == 0)
+        return LS_SOLVER_OK;
+    double *col = calloc((size_t)m, sizeof *col), *w = malloc((size_t)m * sizeof *w);
+    h->ipiv = malloc((size_t)k * sizeof *h->ipiv);
+    if (!col || !w || !h->ipiv) {
+        free(col);
+        free(w);
+        return LS_SOLVER_NOMEM;
+    }
+    int rc = LS_SOLVER_OK;
+    for (int c = 0; c < k && rc == LS_SOLVER_OK; c++) {
+        for (int p = h->bp[c]; p < h->bp[c + 1]; p++)
+            col[h->bi[p]] = h->bv[p];
+        rc = g_solve(h, col, w, st);
+        for (int p = h->bp[c]; p < h->bp[c + 1]; p++)
+            col[h->bi[p]] = 0;
+        for (int i = 0; i < k; i++) { /* S_ic -= (C w)_i */
+            double s = 0;
+            for (int p = h->cp[i]; p < h->cp[i + 1]; p++)
+                s += h->cv[p] * w[h->ci[p]];
+            h->s[(size_t)c * k + i] -= s;
+        }
+    }
+    free(col);
+    free(w);
+    if (rc != LS_SOLVER_OK)
+        return rc;
+    int info = LAPACKE_dgetrf(LAPACK_COL_MAJOR, k, k, h->s, k, h->ipiv);
+    if (info > 0) {
+        st->bad_column = m + info - 1;
+        return LS_SOLVER_SINGULAR;
+    }
+    return info == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
+}
+
+/* Split a, check G, pin its floating parts, set up AMG and the Schur
+ * complement.  LS_SOLVER_* status: not this shape (or G not positive
+ * definite) is LS_SOLVER_NOT_SPD with st->bad_column at the first column
+ * that shows it. */
+static int amg_build(amg *h, const ls_csc *a, ls_solver_stats *st)
+{
+    amg_release(h);
+    h->n = a->n;
+    h->m = node_count(h, a);
+    if (h->m <= 0) {
+        st->bad_column = 0;
+        return LS_SOLVER_NOT_SPD;
+    }
+    if (take_block(a, h->m, &h->g) != 0)
+        return LS_SOLVER_NOMEM;
+    int m = h->m;
+    int *work = malloc((size_t)m * sizeof *work);
+    unsigned char *strict = calloc((size_t)m, 1);
+    if (!work || !strict) {
+        free(work);
+        free(strict);
+        return LS_SOLVER_NOMEM;
+    }
+    /* a pin's conductance: the mean positive diagonal, so G + g e e^T stays
+     * as well conditioned as the mesh itself */
+    double dsum = 0;
+    int dn = 0;
+    for (int j = 0; j < m; j++) {
+        double d = *diag_of(&h->g, j);
+        if (d > 0) {
+            dsum += d;
+            dn++;
+        }
+    }
+    double gpin = dn ? dsum / dn : 1;
+    int nbare = bare_nodes(&h->g, gpin, work);
+    int *scratch = malloc((size_t)m * sizeof *scratch);
+    int bad = scratch ? ls_csc_asym_column(&h->g, scratch) : -1;
+    free(scratch);
+    if (!scratch) {
+        free(work);
+        free(strict);
+        return LS_SOLVER_NOMEM;
+    }
+    if (bad < 0)
+        bad = ls_csc_dominance(&h->g, strict);
+    int nfloat = bad < 0 ? floating_parts(&h->g, strict, work + nbare) : 0;
+    free(strict);
+    if (bad >= 0 || nfloat < 0) {
+        free(work);
+        st->bad_column = bad;
+        return bad >= 0 ? LS_SOLVER_NOT_SPD : LS_SOLVER_NOMEM;
+    }
+    for (int q = nbare; q < nbare + nfloat; q++)
+        *diag_of(&h->g, work[q]) += gpin;
+    int npin = nbare + nfloat;
+    h->k = a->n - m + npin;
+    int rc = take_border(h, a, work, npin, gpin);
+    free(work);
+    if (rc != 0)
+        return LS_SOLVER_NOMEM;
+    size_t sk = (size_t)h->k;
+    h->t = malloc((size_t)m * sizeof *h->t);
+    h->r = malloc((size_t)m * sizeof *h->r);
+    h->y = malloc((sk ? sk : 1) * sizeof *h->y);
+    h->z = malloc(((size_t)m + sk) * sizeof *h->z);
+    if (!h->t || !h->r || !h->y || !h->z)
+        return LS_SOLVER_NOMEM;
+    pthread_mutex_lock(&hypre_lock);
+    rc = hypre_setup(h);
+    pthread_mutex_unlock(&hypre_lock);
+    if (rc != LS_SOLVER_OK)
+        return rc;
+    st->cg_iterations = 0;
+    st->cg_residual = 0;
+    rc = schur(h, st);
+    h->factored = rc == LS_SOLVER_OK;
+    return rc;
+}
+
+static int amg_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
+{
+    (void)self;
+    (void)a;
+    st->analyses++;
+    return LS_SOLVER_OK; /* the AMG setup reads the values: all of it is in factor */
+}
+
+static int amg_factor(void *self, const ls_csc *a, ls_solver_stats *st)
+{
+    st->method = LS_METHOD_ITERATIVE_AMG;
+    st->library = "hypre";
+    st->rcond = NAN; /* not estimated: the iterations and the residual stand for it */
+    int rc = amg_build(self, a, st);
+    if (rc == LS_SOLVER_OK)
+        st->factorizations++;
+    return rc;
+}
+
+static int amg_analyze_factor(void *self, const ls_csc *a, ls_solver_stats *st)
+{
+    st->analyses++;
+    return amg_factor(self, a, st);
+}
+
+/* y -= M^T x over the k sparse columns (p, i, v) of an m x k matrix M:
+ * y_c -= sum_i M_ic x_i. */
+static void sub_cols_t(const int *cp, const int *ci, const double *cv, int k, const double *x, double *y)
+{
+    for (int c = 0; c < k; c++) {
+        double s = 0;
+        for (int p = cp[c]; p < cp[c + 1]; p++)
+            s += cv[p] * x[ci[p]];
+        y[c] -= s;
+    }
+}
+
+/* x -= M y over the k sparse columns of M. */
+static void sub_cols(const int *cp, const int *ci, const double *cv, int k, const double *y, double *x)
+{
+    for (int c = 0; c < k; c++)
+        for (int p = cp[c]; p < cp[c + 1]; p++)
+            x[ci[p]] -= cv[p] * y[c];
+}
+
+/* Solve A x = b (or A^T x = b) in place through the Schur complement (the
+ * steps in the banner); pins' unknowns live only in scratch.  LS_SOLVER_* status. */
+static int amg_solve(void *self, double *b, int transpose, ls_solver_stats *st)
+{
+    amg *h = self;
+    if (!h->factored)
+        return LS_SOLVER_FAILED;
+    int m = h->m, k = h->k, kb = h->n - m;
+    st->cg_residual = 0;
+    /* A: right border B (bp), bottom border rows C (cp); A^T: right C^T, bottom B^T */
+    const int *rp = transpose ? h->cp : h->bp, *ri = transpose ? h->ci : h->bi;
+    const double *rv = transpose ? h->cv : h->bv;
+    const int *lp = transpose ? h->bp : h->cp, *li = transpose ? h->bi : h->ci;
+    const double *lv = transpose ? h->bv : h->cv;
+    double *x = h->z, *y = h->y;
+    int rc = g_solve(h, b, x, st); /* t = G^-1 b1 */
+    if (rc != LS_SOLVER_OK || k == 0) {
+        if (rc == LS_SOLVER_OK)
+            memcpy(b, x, (size_t)m * sizeof *b);
+        return rc;
+    }
+    for (int c = 0; c < k; c++) /* y = b2 - C t (a pin's b2 is 0) */
+        y[c] = c < kb ? b[m + c] : 0;
+    sub_cols_t(lp, li, lv, k, x, y);
+    int info = LAPACKE_dgetrs(LAPACK_COL_MAJOR, transpose ? 'T' : 'N', k, 1, h->s, k, h->ipiv, y, k);
+    if (info != 0)
+        return LS_SOLVER_FAILED;
+    sub_cols(rp, ri, rv, k, y, b); /* b1 - B y */
+    rc = g_solve(h, b, x, st);
+    if (rc != LS_SOLVER_OK)
+        return rc;
+    memcpy(b, x, (size_t)m * sizeof *b);
+    memcpy(b + m, y, (size_t)kb * sizeof *b);
+    return LS_SOLVER_OK;
+}
+
+/* ---- the automatic choice --------------------------------------------------------- */
+
+/* See amg.h.  The rule, measured with tests/bench/mesh3d.py (figures in
+ * docs/performance.md): the iterative backend when the system has at least
+ * AMG_MIN_N unknowns, its node block is the SPD shape this backend takes
+ * (checked as amg_build does, O(nnz)), the border is small, and AMD's
+ * estimate of the direct factor's fill is at least AMG_MIN_FILL entries per
+ * column.  A 2-D mesh's factor holds about 30-60 entries per column at these
+ * sizes and CHOLMOD solves it faster than AMG-PCG; a 3-D mesh's holds
+ * hundreds and grows with the mesh, and there AMG-PCG wins in time and,
+ * by far, in memory. */
+int ls_amg_preferred(const ls_csc *a, int nodes)
+{
+    if (!a || a->n < AMG_MIN_N || nodes <= 0 || nodes > a->n)
+        return 0;
+    int m = nodes;
+    if (m <= 0 || a->n - m > AMG_MAX_AUTO_BORDER)
+        return 0;
+    ls_csc g = {0};
+    int *work = malloc((size_t)m * sizeof *work);
+    unsigned char *strict = calloc((size_t)m, 1);
+    int ok = work && strict && take_block(a, m, &g) == 0 && ls_csc_asym_column(&g, work) < 0 &&
+             ls_csc_dominance(&g, strict) < 0;
+    free(work);
+    free(strict);
+    ls_csc_free(&g);
+    return ok && ls_csc_fill_per_column(a) >= AMG_MIN_FILL;
+}
+
+const ls_backend ls_backend_amg = {
+    "hypre", amg_create, amg_analyze, amg_factor, amg_solve, amg_destroy, amg_analyze_factor, amg_set_nodes,
+};
+
+#endif /* LS_HAVE_AMG */
