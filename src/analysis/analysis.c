@@ -5,6 +5,7 @@
 #include "analysis/selfcheck.h"
 #include "netlist/elab.h"
 #include "analysis/newton.h"
+#include "solve/selinv.h"
 
 #include <float.h>
 #include <math.h>
@@ -16,8 +17,19 @@
 #endif
 #include "solve/amg.h"
 
-/* Dense LU up to this many unknowns when the solver is chosen automatically. */
-#define AUTO_DENSE_LIMIT 1500
+/* The automatic choice between dense LU and the sparse backends, by estimated
+ * work (tests/bench/sparse_pick_bench dense; docs/performance.md, "Dense or
+ * sparse"): dense LU up to AUTO_DENSE_SMALL unknowns (either takes well under
+ * a millisecond there); from there to AUTO_DENSE_MAX only when its (2/3) n^3
+ * flops are under AUTO_DENSE_FLOP_RATIO times the sparse LU's estimate.  The
+ * dense LU runs blocked BLAS-3, 10-20x the flop rate of KLU's left-looking
+ * kernel on these sizes: measured crossover at a ratio of 8-18.  Circuits
+ * (ladders, channels, meshes) have ratios in the hundreds to thousands and go
+ * sparse; only nearly full matrices stay dense.  Above AUTO_DENSE_MAX always
+ * sparse (the dense LU's 8 n^2 bytes). */
+#define AUTO_DENSE_SMALL 100
+#define AUTO_DENSE_MAX 4000
+#define AUTO_DENSE_FLOP_RATIO 12.0
 #define RCOND_WARN 1e-11
 #define RESIDUAL_WARN 1e-9
 
@@ -197,10 +209,27 @@ void ls_op_report_singular(ls_op *op, int col)
     ls_error(nl->diags, at, "the circuit cannot be solved: the equations are singular at %s%s", what, hint);
 }
 
+/* Does the dense LU pay for this automatic choice (see AUTO_DENSE_SMALL)? */
+static bool dense_pays(const ls_csc *a)
+{
+    if (a->n <= AUTO_DENSE_SMALL)
+        return true;
+    if (a->n > AUTO_DENSE_MAX)
+        return false;
+#ifdef LS_HAVE_SPARSE
+    double sparse_flops = ls_sparse_lu_flops(a);
+    double dense_flops = 2.0 / 3.0 * a->n * (double)a->n * a->n;
+    if (sparse_flops < 0) /* AMD out of memory: the size rule of old */
+        return a->n <= 1500;
+    return dense_flops < AUTO_DENSE_FLOP_RATIO * sparse_flops;
+#else
+    return true;
+#endif
+}
+
 static const ls_backend *pick_backend(ls_op *op, ls_method *m)
 {
-    int n = op->mna.n;
-    bool dense = op->opt.solver == LS_CHOOSE_DENSE || (op->opt.solver == LS_CHOOSE_AUTO && n <= AUTO_DENSE_LIMIT);
+    bool dense = op->opt.solver == LS_CHOOSE_DENSE || (op->opt.solver == LS_CHOOSE_AUTO && dense_pays(&op->mna.a));
 #ifdef LS_HAVE_AMG
     if (op->opt.solver == LS_CHOOSE_ITERATIVE || (op->opt.solver == LS_CHOOSE_AUTO && ls_amg_preferred(&op->mna.a, op->mna.nn))) {
         *m = LS_METHOD_ITERATIVE_AMG;
@@ -566,6 +595,12 @@ int ls_op_resolve(ls_op *op)
     free(op->tout);
     free(op->low);
     op->tin = op->tout = op->low = NULL;
+    op->grounded_nodes = 0;
+    op->anorm = 0; /* the values (and an adc's range) may have changed */
+    free(op->adc_at);
+    op->adc_at = NULL;
+    ls_selinv_free(&op->selinv);
+    op->selinv_state = 0;
     return LS_EXIT_OK;
 }
 
@@ -585,6 +620,8 @@ void ls_op_free(ls_op *op)
     free(op->bridge_part);
     free(op->bridge_child);
     free(op->order);
+    free(op->adc_at);
+    ls_selinv_free(&op->selinv);
     ls_acc_free(&op->acc);
     memset(op, 0, sizeof *op);
 }

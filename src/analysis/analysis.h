@@ -68,6 +68,13 @@ typedef struct ls_op {
     int *bridge_child;       /* the DFS child endpoint of that bridge */
     int *order;              /* nodes by tin */
     double *work;            /* refinement workspace: 3 work_n doubles */
+    /* once per solution for the port report (lowrank.c), so a port's work
+     * does not grow with the circuit: */
+    double anorm;            /* max |a_ij| of mna.a; 0: not yet computed */
+    int *adc_at;             /* per node: the adc with the smallest LSB on it, or -1; NULL: not yet built */
+    struct ls_selinv *selinv;   /* entries of A^-1 for large systems (selinv.h); owned */
+    int selinv_state;        /* 0 not tried, 1 built, -1 not used (small, inaccurate or no memory) */
+    int grounded_nodes;      /* 1 + the nodes with a DC path to ground (from tin); 0: not yet counted */
     size_t work_n;
     ls_accuracy acc;         /* extra-precise tail of x and the error bounds (accuracy.h) */
     bool nomem;              /* the last ls_op_solve / ls_op_resolve failed because memory ran out

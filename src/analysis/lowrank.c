@@ -24,7 +24,20 @@
 #include "base/fmt.h"
 #include "analysis/lowrank.h"
 #include "analysis/newton.h"
+#include "solve/selinv.h"
 #include "analysis/variant.h"
+
+/* The port report takes A^-1's entries from a selected-inverse factor from
+ * this many unknowns on (below, two refined solves per port cost less than
+ * one more factorization), when KLU's pivot ratio is at least
+ * SELINV_MIN_RCOND (else the refined solves, which check their residual). */
+#define LS_SELINV_MIN_N 2000
+#define SELINV_MIN_RCOND 1e-10
+/* A port field from the selected inverse whose two terms' magnitudes add to
+ * more than this times the field is computed again from refined solves: the
+ * entries' rounding (a few units in the last place of the larger term) must
+ * stay below 1e-12 of the field (tests/scale/fast_paths.py). */
+#define SELINV_MAX_CANCEL 16.0
 
 #define MAX_RANK 64
 #define DEPEND_TOL 1e-9
@@ -177,6 +190,15 @@ static double max_abs(const ls_csc *a)
     return m;
 }
 
+/* max |a_ij| of the op's matrix, computed once per solution (ls_op_resolve
+ * resets it): every port's and every what-if row's refinement tests against it. */
+static double op_anorm(ls_op *op)
+{
+    if (!(op->anorm > 0))
+        op->anorm = max_abs(&op->mna.a);
+    return op->anorm;
+}
+
 /* Relative residual |r| / (anorm |x| + |rhs|), max norms, r already rhs - A x. */
 static double rel_residual(const double *r, const double *x, const double *rhs, int n, double anorm)
 {
@@ -245,6 +267,39 @@ static void uf_edge(void *ctx, int a, int b, bool vdef, int part)
         ls_uf_union(u->parent, a, b);
 }
 
+static int dc_bridges(ls_op *op);
+
+/* Edge callback: count a part's DC paths. */
+static void count_edge(void *ctx, int a, int b, bool vdef, int part)
+{
+    (void)a;
+    (void)b;
+    (void)vdef;
+    (void)part;
+    (*(int *)ctx)++;
+}
+
+/* Does removing (opening) part leave every node with its DC path to ground,
+ * by the bridges found once per solution?  True only when every node has a
+ * path in the whole circuit and the part's single DC path is no bridge; false
+ * when unsure (then the union-find decides).  Saves a pass over every part
+ * per what-if row. */
+static bool removal_floats_nothing(ls_op *op, const ls_part *p, int part)
+{
+    if (dc_bridges(op) != 0)
+        return false;
+    int nn = op->nl->nnodes, edges = 0;
+    if (op->grounded_nodes == 0) {   /* counted once per solution */
+        op->grounded_nodes = 1;
+        for (int i = 0; i < nn; i++)
+            op->grounded_nodes += op->tin[i] >= 0;
+    }
+    if (op->grounded_nodes - 1 != nn)
+        return false;
+    p->kind->edges(p, &edges, count_edge);
+    return edges == 0 || (edges == 1 && !op->bridge_part[part]);
+}
+
 /* Mark the nodes with no DC path to ground once the part is changed.
  * Returns their number, or -1 when out of memory. */
 static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
@@ -258,7 +313,7 @@ static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
         return -1;
     for (int i = 0; i < nn; i++)
         m->float_row[i] = -1;
-    if (ls_removal_keeps_edges(p) && kind == MOD_REMOVE_PART)
+    if (kind == MOD_REMOVE_PART && (ls_removal_keeps_edges(p) || removal_floats_nothing(m->op, p, part)))
         return 0;
     int *parent = malloc((size_t)nn * sizeof *parent);
     if (!parent)
@@ -784,7 +839,7 @@ static ls_mod *mod_build(ls_op *op, int part, ls_mod_kind kind, bool pin, int *t
         return NULL;
     m->op = op;
     m->n = op->mna.n;
-    m->anorm = max_abs(&op->mna.a);
+    m->anorm = op_anorm(op);
     ls_triplets dt = {0};
     *topo = find_floating(m, part, kind);
     if (*topo < 0)
@@ -1145,6 +1200,34 @@ static double ratio_of(double num, double den)
     return num / den;
 }
 
+/* The adc on port pi's load node with the smallest LSB (the first of equals),
+ * or -1: ls_port_adc's answer from a per-node index built once per solution
+ * (a scan of the part table per port made the report quadratic).  Falls back
+ * to the scan when the index cannot be allocated. */
+static int port_adc(ls_op *op, int pi)
+{
+    const ls_netlist *nl = op->nl;
+    if (!op->adc_at) {
+        op->adc_at = malloc((size_t)(nl->nnodes > 0 ? nl->nnodes : 1) * sizeof *op->adc_at);
+        if (!op->adc_at)
+            return ls_port_adc(nl, pi);
+        for (int i = 0; i < nl->nnodes; i++)
+            op->adc_at[i] = -1;
+        const ls_kind *adc = ls_kind_find("adc");
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *p = &nl->parts[i];
+            int node = p->pin[0], *best = &op->adc_at[node > 0 ? node : 0];
+            if (p->kind != adc || node <= 0)
+                continue;
+            /* as ls_port_adc: strictly smaller than the best so far (from inf) */
+            if (ls_adc_lsb(p) < (*best < 0 ? INFINITY : ls_adc_lsb(&nl->parts[*best])))
+                *best = i;
+        }
+    }
+    int load = nl->parts[pi].pin[1];
+    return load > 0 ? op->adc_at[load] : -1;
+}
+
 /* The port's budget (V, or A in current mode) into r: its own budget=, else
  * `rule sag` where its unit fits the port, else half an LSB of an adc on the
  * load node; NaN when none applies (or a % of an undefined open). */
@@ -1153,7 +1236,7 @@ static void port_budget(ls_op *op, int pi, ls_port_result *r)
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[pi];
     int bi = ls_kind_opt(p->kind, "budget");
-    r->adc = r->current_mode ? -1 : ls_port_adc(nl, pi);
+    r->adc = r->current_mode ? -1 : port_adc(op, pi);
     const ls_budget *b = NULL;
     r->budget = NAN;
     r->budget_from = LS_BUDGET_FROM_NONE;
@@ -1288,6 +1371,68 @@ static void current_fields(ls_op *op, ls_mod *m, int pi, ls_port_result *r)
 
 static void finish_report(ls_op *op, int pi, ls_port_result *r);
 
+/* The selected-inverse factor of the op's matrix (selinv.h), built on first
+ * use for systems of at least LS_SELINV_MIN_N unknowns whose KLU pivot
+ * ratio says the plain LU is accurate; NULL otherwise (then every entry
+ * costs a refined solve).  LOADSTACK_SELINV_MIN_N overrides the size, so the
+ * tests can compare both paths on small circuits. */
+static ls_selinv *op_selinv(ls_op *op)
+{
+    if (op->selinv_state == 0) {
+        op->selinv_state = -1;
+        const char *env = getenv("LOADSTACK_SELINV_MIN_N");
+        long min_n = env && *env ? strtol(env, NULL, 10) : LS_SELINV_MIN_N;
+        double rcond = 0;
+        if (min_n >= 0 && op->mna.n >= min_n) {
+            op->selinv = ls_selinv_new(&op->mna.a, &rcond);
+            if (op->selinv && rcond >= SELINV_MIN_RCOND)
+                op->selinv_state = 1;
+            else
+                ls_selinv_free(&op->selinv);
+        }
+    }
+    return op->selinv_state == 1 ? op->selinv : NULL;
+}
+
+/* e[0..2] = row k of A^-1 and e[3..5] = row s, at columns f, t, k (f or t
+ * negative: ground, 0): from the selected-inverse factor where there is one
+ * and `selected`, else from two refined transposed solves; mag[] the scale
+ * their rounding is relative to (ls_selinv_block).  false when a solve
+ * failed (*nomem set when for want of memory). */
+static bool port_entries(ls_op *op, int k, int s, int f, int t, double *e, double *mag, bool selected, bool *nomem)
+{
+    int rows[2] = {k, s}, cols[3] = {f, t, k};
+    ls_selinv *si = selected ? op_selinv(op) : NULL;
+    if (si)
+        return ls_selinv_block(si, rows, 2, cols, 3, e, mag) == 0;
+    int n = op->mna.n;
+    double anorm = op_anorm(op);
+    double *yk = calloc((size_t)(n ? n : 1), sizeof *yk);
+    double *ys = calloc((size_t)(n ? n : 1), sizeof *ys);
+    bool ok = yk && ys;
+    *nomem = !ok;
+    if (ok) {
+        yk[k] = 1;
+        ys[s] = 1;
+        int st = base_solve(op, yk, 1, anorm);
+        if (st == LS_SOLVER_OK)
+            st = base_solve(op, ys, 1, anorm);
+        ok = st == LS_SOLVER_OK;
+        *nomem = st == LS_SOLVER_NOMEM;
+    }
+    for (int j = 0; j < 3 && ok; j++) {
+        e[j] = cols[j] >= 0 ? yk[cols[j]] : 0;
+        e[3 + j] = cols[j] >= 0 ? ys[cols[j]] : 0;
+        mag[j] = fabs(e[j]);   /* refined: accurate to their own size */
+        mag[3 + j] = fabs(e[3 + j]);
+    }
+    free(yk);
+    free(ys);
+    return ok;
+}
+
+static bool port_fast_from(ls_op *op, const ls_part *p, ls_port_result *r, bool selected, bool *nomem);
+
 /* The fast path of a voltage-mode port, from two rows of A^-1.  The port's
  * branch row k of A is V(f) - V(t) = 0, so (e_f - e_t)^T A^-1 = e_k^T: row t
  * of A^-1 is row f minus e_k^T.  Opening the port replaces row k by I = 0,
@@ -1301,39 +1446,46 @@ static void finish_report(ls_op *op, int pi, ls_port_result *r);
  * whose numbers differ in the last digits, must not stand in for it). */
 static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r, bool *nomem)
 {
-    int n = op->mna.n, f = p->pin[0] - 1, t = p->pin[1] - 1, k = p->branch;
-    if (f == t)
+    if (p->pin[0] == p->pin[1])
         return false;                 /* both ends on one node: no such row identity */
-    double anorm = max_abs(&op->mna.a);
-    double *yk = calloc((size_t)(n ? n : 1), sizeof *yk);
-    double *ys = calloc((size_t)(n ? n : 1), sizeof *ys);
-    bool ok = yk && ys;
+    /* the selected inverse's entries carry the plain LU's rounding, which a
+     * difference of nearly equal terms would magnify: then the refined solves */
+    *nomem = false;
+    if (port_fast_from(op, p, r, true, nomem))
+        return true;
+    return !*nomem && port_fast_from(op, p, r, false, nomem);
+}
+
+/* port_fast with the entries from the selected inverse (selected) or from
+ * refined solves; with selected, false also when a field would lose more
+ * than SELINV_MAX_CANCEL to cancellation. */
+static bool port_fast_from(ls_op *op, const ls_part *p, ls_port_result *r, bool selected, bool *nomem)
+{
+    int f = p->pin[0] - 1, t = p->pin[1] - 1, k = p->branch;
     int s = f >= 0 ? f : t;           /* the end that is not ground */
-    if (ok) {
-        yk[k] = 1;
-        ys[s] = 1;
-        int st = base_solve(op, yk, 1, anorm);
-        if (st == LS_SOLVER_OK)
-            st = base_solve(op, ys, 1, anorm);
-        ok = st == LS_SOLVER_OK;
-        *nomem = st == LS_SOLVER_NOMEM;
-    } else {
-        *nomem = true;
-    }
-    /* rows f and t of A^-1 at columns f, t, k (a ground end's row is 0) */
+    if (selected && !op_selinv(op))
+        return false;
+    /* rows k and s of A^-1 at columns f, t, k (a ground column's entry is 0) */
+    double e[6], mag[6];
+    bool ok = port_entries(op, k, s, f, t, e, mag, selected, nomem);
+    /* rows f and t of A^-1 at columns f, t, k (a ground end's row is 0), and
+     * the scale of each entry's rounding */
     double af[3] = {0, 0, 0}, at[3] = {0, 0, 0};   /* columns f, t, k */
+    double mf[3] = {0, 0, 0}, mt[3] = {0, 0, 0};
     if (ok) {
         double *row = s == f ? af : at, *other = s == f ? at : af, sign = s == f ? -1 : 1;
-        row[0] = f >= 0 ? ys[f] : 0;
-        row[1] = t >= 0 ? ys[t] : 0;
-        row[2] = ys[k];
+        double *mrow = s == f ? mf : mt, *mother = s == f ? mt : mf;
+        for (int j = 0; j < 3; j++) {
+            row[j] = e[3 + j];
+            mrow[j] = mag[3 + j];
+        }
         if ((s == f ? t : f) >= 0)
-            for (int j = 0; j < 3; j++)
+            for (int j = 0; j < 3; j++) {
                 other[j] = row[j] + (j == 2 ? sign : 0);   /* row t = row f - e_k */
+                mother[j] = mrow[j] + (j == 2 ? 1 : 0);
+            }
     }
-    double akf = ok && f >= 0 ? yk[f] : 0, akt = ok && t >= 0 ? yk[t] : 0, akk = ok ? yk[k] : 0;
-    free(yk);
-    free(ys);
+    double akf = e[0], akt = e[1], akk = e[2];
     if (!ok)
         return false;
     /* a_kk in units of the circuit's own conductance, against the terms that
@@ -1341,10 +1493,32 @@ static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r, bool *nome
     double alpha = op->g_pin > 0 ? 1 / op->g_pin : 1;
     if (!(alpha * fabs(akk) > SINGULAR_TOL * (1 + alpha * fabs(akk) + fabs(af[2]) + fabs(at[2]))))
         return false;
-    r->zout = f >= 0 ? af[0] - af[2] * akf / akk : 0;
-    r->zin = t >= 0 ? at[1] - at[2] * akt / akk : 0;
-    r->open = f >= 0 ? op->x[f] - af[2] * op->x[k] / akk : 0;
-    r->load_open = t >= 0 ? op->x[t] - at[2] * op->x[k] / akk : 0;
+    /* each field is first - b c / a_kk; the scale of its rounding is the
+     * first's scale plus the product of the factors' scales (a factor that
+     * is zero by cancellation has a scale, one zero by structure has none),
+     * widened by a_kk's own relative scale */
+    double kk = 1 + mag[2] / fabs(akk);
+    double xk = fabs(op->x[k]);
+    double first[4] = {f >= 0 ? af[0] : 0, t >= 0 ? at[1] : 0, f >= 0 ? op->x[f] : 0, t >= 0 ? op->x[t] : 0};
+    double mfirst[4] = {f >= 0 ? mf[0] : 0, t >= 0 ? mt[1] : 0, fabs(first[2]), fabs(first[3])};
+    double second[4] = {f >= 0 ? af[2] * akf / akk : 0, t >= 0 ? at[2] * akt / akk : 0,
+                        f >= 0 ? af[2] * op->x[k] / akk : 0, t >= 0 ? at[2] * op->x[k] / akk : 0};
+    double msecond[4] = {f >= 0 ? mf[2] * mag[0] : 0, t >= 0 ? mt[2] * mag[1] : 0, f >= 0 ? mf[2] * xk : 0,
+                         t >= 0 ? mt[2] * xk : 0};
+    double v[4];
+    for (int q = 0; q < 4; q++) {
+        v[q] = first[q] - second[q];
+        double scale = mfirst[q] + msecond[q] / fabs(akk) * kk;
+        /* load_open is only compared with open and the circuit's volts (the
+         * reversed-current warning): its rounding counts against those */
+        double ref = q < 3 ? fabs(v[q]) : fmax(fabs(v[3]), fmax(fabs(v[2]), fabs(op->v[p->pin[0]])));
+        if (selected && scale != 0 && !(scale <= SELINV_MAX_CANCEL * ref))
+            return false;
+    }
+    r->zout = v[0];
+    r->zin = v[1];
+    r->open = v[2];
+    r->load_open = v[3];
     r->loaded = op->v[p->pin[0]];
     return true;
 }

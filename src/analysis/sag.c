@@ -76,36 +76,93 @@ static int by_abs_draw(const void *a, const void *b)
     return ((const ls_sag_draw *)a)->part - ((const ls_sag_draw *)b)->part;
 }
 
+/* The parts with a pin on each node, built once for every port's draws (a
+ * scan of the part table per port made sag quadratic): the parts on node v
+ * are at[start[v] .. start[v + 1]), in ascending part order, each once. */
+typedef struct incidence {
+    int *start, *at;
+    ls_triplets t;   /* draw_of's scratch, shared by the ports */
+    double *b;       /* draw_of's scratch right-hand side, order n */
+} incidence;
+
+/* Builds inc for op's netlist.  0, or -1 no memory (inc then freed). */
+static int incidence_build(const ls_op *op, incidence *inc)
+{
+    const ls_netlist *nl = op->nl;
+    memset(inc, 0, sizeof *inc);
+    inc->start = calloc((size_t)nl->nnodes + 1, sizeof *inc->start);
+    inc->b = calloc((size_t)(op->mna.n ? op->mna.n : 1), sizeof *inc->b);
+    if (!inc->start || !inc->b)
+        goto fail;
+    for (int pass = 0; pass < 2; pass++) {   /* count, then fill */
+        for (int i = 0; i < nl->nparts; i++) {
+            const ls_part *q = &nl->parts[i];
+            int np = q->kind->npins < LS_MAX_PINS ? q->kind->npins : LS_MAX_PINS;
+            for (int k = 0; k < np; k++) {
+                int v = q->pin[k], dup = 0;
+                for (int j = 0; j < k; j++)
+                    dup |= q->pin[j] == v;
+                if (v < 0 || v >= nl->nnodes || dup)
+                    continue;
+                if (pass == 0)
+                    inc->start[v + 1]++;
+                else
+                    inc->at[inc->start[v]++] = i;
+            }
+        }
+        if (pass == 0) {
+            for (int v = 0; v < nl->nnodes; v++)
+                inc->start[v + 1] += inc->start[v];
+            inc->at = malloc((size_t)(inc->start[nl->nnodes] ? inc->start[nl->nnodes] : 1) * sizeof *inc->at);
+            if (!inc->at)
+                goto fail;
+        }
+    }
+    for (int v = nl->nnodes; v > 0; v--)   /* the fill moved each start to the next one's */
+        inc->start[v] = inc->start[v - 1];
+    inc->start[0] = 0;
+    return 0;
+fail:
+    free(inc->start);
+    free(inc->at);
+    free(inc->b);
+    memset(inc, 0, sizeof *inc);
+    return -1;
+}
+
+/* Frees what incidence_build made. */
+static void incidence_free(incidence *inc)
+{
+    free(inc->start);
+    free(inc->at);
+    free(inc->b);
+    ls_triplets_free(&inc->t);
+    memset(inc, 0, sizeof *inc);
+}
+
 /* The parts that draw port sp's current at its load node, largest first;
  * parts that draw nothing (an ideal input) are left out.  0, or -1 no memory. */
-static int port_draws(const ls_op *op, ls_sag_port *sp)
+static int port_draws(const ls_op *op, ls_sag_port *sp, incidence *inc)
 {
     const ls_netlist *nl = op->nl;
     int load = nl->parts[sp->part].pin[1];
     if (load <= 0)
         return 0;
-    ls_triplets t = {0};
-    double *b = calloc((size_t)(op->mna.n ? op->mna.n : 1), sizeof *b);
-    sp->draws = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *sp->draws);
-    if (!b || !sp->draws) {
-        free(b);
+    int from = inc->start[load], to = inc->start[load + 1];
+    sp->draws = calloc((size_t)(to > from ? to - from : 1), sizeof *sp->draws);
+    if (!sp->draws)
         return -1;
-    }
     double big = fabs(sp->current);
-    for (int i = 0; i < nl->nparts; i++) {
-        if (i == sp->part || !touches(&nl->parts[i], load))
+    for (int a = from; a < to; a++) {
+        int i = inc->at[a];
+        if (i == sp->part)
             continue;
-        double c = draw_of(op, &nl->parts[i], load, &t, b);
-        if (isnan(c)) {
-            ls_triplets_free(&t);
-            free(b);
+        double c = draw_of(op, &nl->parts[i], load, &inc->t, inc->b);
+        if (isnan(c))
             return -1;
-        }
         sp->draws[sp->ndraws++] = (ls_sag_draw){i, c};
         big = fmax(big, fabs(c));
     }
-    ls_triplets_free(&t);
-    free(b);
     /* rounding noise of the solve is no current */
     int w = 0;
     for (int k = 0; k < sp->ndraws; k++)
@@ -471,12 +528,18 @@ int ls_sag_connections(ls_op *op, int node, ls_sag_report *r)
     /* a remainder at the rounding level of the node's voltages is none */
     if (fabs(r->interaction) < 64 * DBL_EPSILON * fmax(fabs(r->alone), fabs(r->voltage)))
         r->interaction = 0;
+    incidence inc;
+    if (incidence_build(op, &inc) != 0)
+        goto nomem;
     for (int k = 0; k < r->nports; k++) {
         ls_sag_port *sp = &r->ports[k];
         sp->share_rel = r->sag != 0 && isfinite(sp->share) ? sp->share / r->sag : NAN;
-        if (port_draws(op, sp) != 0)
+        if (port_draws(op, sp, &inc) != 0) {
+            incidence_free(&inc);
             goto nomem;
+        }
     }
+    incidence_free(&inc);
     qsort(r->ports, (size_t)r->nports, sizeof *r->ports, by_abs_share);
     /* the culprit pulls the same way as the sag, and by more than rounding */
     for (int k = 0; k < r->nports && r->sag != 0 && isfinite(r->sag); k++)

@@ -26,6 +26,12 @@ typedef struct ctx {
     ls_op *op;
     int np;
     const char *error;
+    /* The current-controlled sources reading each part's current, built once
+     * per analysis so that via_terms costs the readers of one part, not a scan
+     * of the table: readers of part m are via_list[via_start[m] .. via_start[m+1]),
+     * in ascending part order (the order of the scan they replace, so sums are
+     * bit for bit the same).  NULL when no part has a via= reader. */
+    int *via_start, *via_list;
 } ctx;
 
 typedef struct dual {
@@ -39,24 +45,59 @@ static bool has_main(const ls_part *p)
     return p->has_value && !p->kind->is_port;
 }
 
+/* A cccs or a ccvs: its stamps read the current of its via= part. */
+static bool reads_via(const ls_part *p)
+{
+    return p->ref >= 0 && (strcmp(p->kind->name, "cccs") == 0 || strcmp(p->kind->name, "ccvs") == 0);
+}
+
+/* Builds c->via_start / c->via_list (see ctx) by a counting sort over the
+ * readers' via= parts: O(parts).  Returns false when out of memory; both stay
+ * NULL when no part is read (the common case costs one pass and no memory). */
+static bool index_via(ctx *c)
+{
+    const ls_netlist *nl = c->op->nl;
+    int readers = 0;
+    for (int j = 0; j < nl->nparts; j++)
+        readers += reads_via(&nl->parts[j]);
+    if (readers == 0)
+        return true;
+    c->via_start = calloc((size_t)nl->nparts + 1, sizeof *c->via_start);
+    c->via_list = malloc((size_t)readers * sizeof *c->via_list);
+    if (!c->via_start || !c->via_list)
+        return false;
+    for (int j = 0; j < nl->nparts; j++)
+        if (reads_via(&nl->parts[j]))
+            c->via_start[nl->parts[j].ref + 1]++;
+    for (int m = 0; m < nl->nparts; m++)
+        c->via_start[m + 1] += c->via_start[m];
+    int *fill = malloc((size_t)nl->nparts * sizeof *fill);
+    if (!fill)
+        return false;
+    memcpy(fill, c->via_start, (size_t)nl->nparts * sizeof *fill);
+    for (int j = 0; j < nl->nparts; j++) /* ascending j: each list stays sorted */
+        if (reads_via(&nl->parts[j]))
+            c->via_list[fill[nl->parts[j].ref]++] = j;
+    free(fill);
+    return true;
+}
+
 /* The stamps of a cccs or ccvs read the current of their via= part, so they
  * change with that part's value too (a resistor's current is V/R): returns
  * lambda^T (db - dA x) of those stamps for d/d(value of part m). */
 static double via_terms(ctx *c, int m, const double *lambda, const double *x)
 {
+    if (!c->via_start || c->via_start[m] == c->via_start[m + 1])
+        return 0;
     const ls_netlist *nl = c->op->nl;
     double acc = 0;
     ls_lin dl;
     ls_part_current(&nl->parts[m], nl, &dl, true);
     if (dl.n == 0 && dl.constant == 0)
         return 0;
-    for (int j = 0; j < nl->nparts; j++) {
-        const ls_part *p = &nl->parts[j];
-        if (p->ref != m)
-            continue;
-        bool cccs = strcmp(p->kind->name, "cccs") == 0, ccvs = strcmp(p->kind->name, "ccvs") == 0;
-        if (!cccs && !ccvs)
-            continue;
+    for (int v = c->via_start[m]; v < c->via_start[m + 1]; v++) {
+        const ls_part *p = &nl->parts[c->via_list[v]];
+        bool cccs = strcmp(p->kind->name, "cccs") == 0;
         /* current lin: rows f, t get +-gain * coef (a cccs); row k gets -rm * coef (a ccvs) */
         int rows[2] = {cccs ? ls_node_unknown(p->pin[0]) : p->branch, cccs ? ls_node_unknown(p->pin[1]) : -1};
         double w[2] = {cccs ? p->value : -p->value, cccs ? -p->value : 0};
@@ -649,6 +690,14 @@ static bool eval(ctx *c, const ls_q *q, dual *out)
     return false;
 }
 
+/* Frees the via index of index_via (NULL-safe). */
+static void free_via(ctx *c)
+{
+    free(c->via_start);
+    free(c->via_list);
+    c->via_start = c->via_list = NULL;
+}
+
 /* qsort order: largest |normalized| (|derivative| when undefined) first. */
 static int by_norm(const void *a, const void *b)
 {
@@ -667,11 +716,14 @@ int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
     ctx c = {.op = op, .np = nl->nparts};
     dual d;
     *items = NULL;
-    if (!alloc_dual(&c, &d)) {
+    if (!index_via(&c) || !alloc_dual(&c, &d)) {
         ls_error(nl->diags, LS_NOLOC, "out of memory in the sensitivity analysis (%d parts)", nl->nparts);
+        free_via(&c);
         return LS_SENS_NOMEM;
     }
-    if (!eval(&c, q, &d)) {
+    bool ok = eval(&c, q, &d);
+    free_via(&c);
+    if (!ok) {
         if (c.error == nomem_error)
             ls_error(nl->diags, q->loc, "out of memory in the sensitivity analysis (%d parts)", nl->nparts);
         else

@@ -28,6 +28,7 @@
 #include <float.h>
 #include <limits.h>
 #include <math.h>
+#include <stdbool.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -478,7 +479,17 @@ static void *chol_be_create(void)
         free(h);
         return NULL;
     }
-    h->c.supernodal = CHOLMOD_SUPERNODAL;
+    /* AMD only: CHOLMOD's default also tries METIS when AMD's flops per
+     * nonzero of L pass 500, a measure that is not monotonic in the grid's
+     * size, so the time jumped from one size to the next (a 1100 grid 2.4x
+     * slower than 1000); AMD alone runs in 0.63-0.66 of the time for 8-11 %
+     * more memory (docs/performance.md, "Sparse Cholesky settings"). */
+    h->c.nmethods = 1;
+    h->c.method[0].ordering = CHOLMOD_AMD;
+    h->c.postorder = 1;
+    /* Simplicial or supernodal by CHOLMOD's flop estimate: forcing supernodal
+     * made small thin matrices (a tol trial) pay BLAS thread start-ups. */
+    h->c.supernodal = CHOLMOD_AUTO;
     h->c.quick_return_if_not_posdef = 1; /* the caller retries with LU anyway */
     h->c.print = 0;                      /* statuses are returned, not printed */
     return h;
@@ -522,24 +533,47 @@ static int chol_be_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
     return LS_SOLVER_OK;
 }
 
-/* Smallest diagonal entry of the supernodal LL' factor, as a column of A. */
-static int chol_min_diag_column(const cholmod_factor *L)
+/* Column of A (through the fill-reducing permutation) of the pivot with the
+ * smallest magnitude: the diagonal of a supernodal LL' factor, or D of a
+ * simplicial LDL' one.  When sign_only, the first pivot that is not positive
+ * instead (-1 if none): a simplicial LDL' factorization goes on past a
+ * negative pivot, where LL' stops and says the matrix is not positive. */
+static int chol_pivot_column(const cholmod_factor *L, bool sign_only)
 {
-    const int *super = L->super, *pi = L->pi, *px = L->px, *perm = L->Perm;
+    const int *perm = L->Perm;
     const double *x = L->x;
-    int best = 0;
+    int best = sign_only ? -1 : 0;
     double dmin = INFINITY;
-    for (size_t s = 0; s < L->nsuper; s++) {
-        int nrow = pi[s + 1] - pi[s]; /* rows of the supernode, column-major */
-        for (int k = super[s]; k < super[s + 1]; k++) {
-            int jj = k - super[s];
-            double d = fabs(x[px[s] + (size_t)jj * nrow + jj]);
-            if (d < dmin) {
-                dmin = d;
+    if (L->is_super) {
+        const int *super = L->super, *pi = L->pi, *px = L->px;
+        for (size_t s = 0; s < L->nsuper; s++) {
+            int nrow = pi[s + 1] - pi[s]; /* rows of the supernode, column-major */
+            for (int k = super[s]; k < super[s + 1]; k++) {
+                int jj = k - super[s];
+                double d = fabs(x[px[s] + (size_t)jj * nrow + jj]);
+                if (d < dmin) {
+                    dmin = d;
+                    best = k;
+                }
+            }
+        }
+    } else {
+        const int *lp = L->p; /* the diagonal comes first in each column */
+        for (int k = 0; k < (int)L->n; k++) {
+            double d = x[lp[k]];
+            if (sign_only) {
+                if (!(d > 0)) {
+                    best = k;
+                    break;
+                }
+            } else if (fabs(d) < dmin) {
+                dmin = fabs(d);
                 best = k;
             }
         }
     }
+    if (best < 0)
+        return -1;
     return perm ? perm[best] : best;
 }
 
@@ -574,9 +608,17 @@ static int chol_be_factor(void *self, const ls_csc *a, ls_solver_stats *st)
             st->bad_column = ((const int *)h->L->Perm)[h->L->minor];
         return LS_SOLVER_NOT_SPD;
     }
-    st->rcond = cholmod_rcond(h->L, &h->c); /* (min L_kk / max L_kk)^2 */
+    if (!h->L->is_super && !h->L->is_ll) {
+        int bad = chol_pivot_column(h->L, true);
+        if (bad >= 0) {
+            st->bad_column = bad;
+            return LS_SOLVER_NOT_SPD;
+        }
+    }
+    /* (min L_kk / max L_kk)^2 for LL', min D_kk / max D_kk for LDL': the same number */
+    st->rcond = cholmod_rcond(h->L, &h->c);
     if (!(st->rcond >= RCOND_SINGULAR)) {
-        st->bad_column = chol_min_diag_column(h->L);
+        st->bad_column = chol_pivot_column(h->L, false);
         return LS_SOLVER_SINGULAR;
     }
     h->ready = 1;

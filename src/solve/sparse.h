@@ -10,6 +10,11 @@
  * pick is a prediction: on LS_SOLVER_NOT_SPD the caller retries with LU. */
 const ls_backend *ls_sparse_pick(const ls_csc *a, ls_method *method_out);
 
+/* Estimated floating-point operations of a sparse LU of `a` (divisions plus
+ * twice the multiply-subtract pairs of AMD's ordering of A+A^T, no pivoting),
+ * or -1 when the estimate could not be made (memory).  O(nnz) time. */
+double ls_sparse_lu_flops(const ls_csc *a);
+
 /* Relative tolerance under which a_ij and a_ji count as equal. */
 #define LS_SPARSE_SYM_TOL (8 * 2.220446049250313e-16)
 

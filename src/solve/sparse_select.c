@@ -41,6 +41,7 @@
 #include <amd.h>
 
 #include <math.h>
+#include <stdbool.h>
 #include <stdint.h>
 #include <stdlib.h>
 
@@ -83,19 +84,36 @@ static int likely_spd(const ls_csc *a)
     return sym;
 }
 
-/* See sparse.h. */
-double ls_csc_fill_per_column(const ls_csc *a)
+/* AMD's statistics (info[AMD_INFO]) of its ordering of A+A^T; false if
+ * it could not run (memory). */
+static bool amd_stats(const ls_csc *a, double *info)
 {
     int *perm = malloc((size_t)a->n * sizeof(int));
     if (!perm)
-        return -1;
-    double control[AMD_CONTROL], info[AMD_INFO];
+        return false;
+    double control[AMD_CONTROL];
     amd_defaults(control);
     int s = amd_order(a->n, a->colptr, a->rowind, perm, control, info);
     free(perm);
-    if (s != AMD_OK && s != AMD_OK_BUT_JUMBLED)
+    return s == AMD_OK || s == AMD_OK_BUT_JUMBLED;
+}
+
+/* See sparse.h. */
+double ls_csc_fill_per_column(const ls_csc *a)
+{
+    double info[AMD_INFO];
+    if (!amd_stats(a, info))
         return -1;
     return (info[AMD_LNZ] + a->n) / a->n;
+}
+
+/* See sparse.h. */
+double ls_sparse_lu_flops(const ls_csc *a)
+{
+    double info[AMD_INFO];
+    if (!a || a->n <= 0 || !amd_stats(a, info))
+        return -1;
+    return info[AMD_NDIV] + 2 * info[AMD_NMULTSUBS_LU];
 }
 
 const ls_backend *ls_sparse_pick(const ls_csc *a, ls_method *method_out)

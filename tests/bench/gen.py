@@ -13,8 +13,9 @@ Usage:
   gen.py ports M [--out FILE]
       M buffered sensor channels, each a divider driving an ADC input through a
       port (a many-port loading report).
-  gen.py tol [--out FILE]
-      A 50-part resistor ladder with tolerances (tolerance runs).
+  gen.py tol [PARTS] [--out FILE]
+      A resistor ladder of PARTS parts (default 50) with tolerances (tolerance
+      runs): a source, (PARTS - 2) / 2 rungs of (series, shunt) and a load.
   gen.py dense N [--out FILE]
       N unknowns for the dense path: N pads, each with a resistor to ground and
       resistors to its next 8 pads, fed by a grounded current source; with
@@ -82,16 +83,18 @@ def write_ports(m, f):
         f.write("resistor rin%d adc%d -> gnd 1M\n" % (c, c))
 
 
-def write_tol(f):
-    f.write('title "Bench supply monitor ladder, 50 parts"\n')
+def write_tol(parts, f):
+    rungs = (max(parts, 4) - 2) // 2
+    f.write('title "Bench supply monitor ladder, %d parts"\n' % (2 * rungs + 2))
     f.write("ground gnd\n")
     f.write("voltage vsup gnd -> t0 12 V rint=0.1 tol=2%\n")
-    # 24 rungs of (series, shunt) + a load: 1 + 48 + 1 = 50 parts
-    for r in range(24):
+    # rungs of (series, shunt) + a load: 1 + 2 * rungs + 1 parts
+    for r in range(rungs):
         f.write("resistor rs%d t%d -> t%d %dk tol=1%%\n" % (r, r, r + 1, 1 + r % 5))
-        f.write("resistor rp%d t%d -> gnd %dk tol=5%%\n" % (r, r + 1, 47 + r))
-    f.write("resistor rl t24 -> gnd 100k tol=1%\n")
-    f.write("expect t24 between 0.001 V and 12 V\n")
+        f.write("resistor rp%d t%d -> gnd %dk tol=5%%\n" % (r, r + 1, 47 + r % 50))
+    f.write("resistor rl t%d -> gnd 100k tol=1%%\n" % rungs)
+    if rungs <= 24:
+        f.write("expect t%d between 0.001 V and 12 V\n" % rungs)
 
 
 DENSE_WINDOW = 8
@@ -181,7 +184,7 @@ def main():
         dense_matrix(a.size, a.matrix)
     f = out_stream(a.out)
     {"grid": lambda: write_grid(a.size, a.feed, f), "chain": lambda: write_chain(a.size, f),
-     "ports": lambda: write_ports(a.size, f), "tol": lambda: write_tol(f),
+     "ports": lambda: write_ports(a.size, f), "tol": lambda: write_tol(a.size or 50, f),
      "dense": lambda: write_dense(a.size, f)}[a.what]()
     if f is not sys.stdout:
         f.close()

@@ -7,6 +7,11 @@
  *   grid+  the same with 8 VCCS stamps between far-apart nodes: unsymmetric.
  *   chain  S inverting stages (R1 = R2 = 1k, op-amp = VCVS of gain 1e5):
  *          3 unknowns per stage, very sparse, unsymmetric.
+ *
+ * `sparse_pick_bench dense` instead measures the automatic dense-or-sparse
+ * rule of src/analysis.c (docs/performance.md): random unsymmetric networks
+ * of n nodes, each tied to d others, timed through the dense LU and KLU
+ * (analyze + factor + one solve), beside ls_sparse_lu_flops.
  */
 #include "solve/solver.h"
 #include "solve/sparse.h"
@@ -238,8 +243,80 @@ static void run(const char *name, const ls_csc *a, const ls_backend *be, int rep
     free(b); free(x); free(y); free(a2.val);
 }
 
+/* n nodes, node k tied by 1 S to d nodes (k + 1 + (s * 7919 + k) mod (n - 1)),
+ * each leaking 1e-3 S, plus a VCCS per node towards its neighbour: unsymmetric
+ * like an MNA matrix with controlled sources.  d >= n - 1 is a full matrix. */
+static ls_csc network(int n, int d)
+{
+    coo t = {n, 0, 0, NULL, NULL, NULL};
+    for (int k = 0; k < n; k++) {
+        for (int s = 0; s < d && s < n - 1; s++) {
+            int o = d >= n - 1 ? s : (int)(((long)s * 7919 + k) % (n - 1));
+            int j = (k + 1 + o) % n;
+            if (j > k || d >= n - 1)
+                conductance(&t, k, j, 1.0);
+        }
+        add(&t, k, k, 1e-3);
+        add(&t, k, (k + 1) % n, 0.05); /* VCCS gm 0.05: row k, column k+1 */
+    }
+    ls_csc a = to_csc(&t);
+    free(t.r); free(t.c); free(t.v);
+    return a;
+}
+
+/* Best of `reps` whole solves (analyze, factor, one solve) through `be`, in ms. */
+static double whole_solve_ms(const ls_csc *a, const ls_backend *be, int reps)
+{
+    double best = INFINITY;
+    double *b = malloc((size_t)a->n * sizeof(double));
+    if (!b)
+        die("out of memory");
+    for (int r = 0; r < reps; r++) {
+        for (int i = 0; i < a->n; i++)
+            b[i] = 1.0 + (i % 7);
+        ls_solver *s = ls_solver_new(be, be == &ls_backend_dense ? LS_METHOD_DENSE_LU : LS_METHOD_SPARSE_LU);
+        if (!s)
+            die("out of memory");
+        double t0 = now();
+        int rc = ls_solver_analyze_factor(s, a);
+        if (rc == 0)
+            rc = ls_solver_solve(s, b, 0);
+        double t1 = now();
+        ls_solver_free(&s);
+        if (rc != 0)
+            die("a network did not solve");
+        best = fmin(best, (t1 - t0) * 1e3);
+    }
+    free(b);
+    return best;
+}
+
+/* The dense-or-sparse table: see the file comment. */
+static int dense_rule(void)
+{
+    const int ns[] = {100, 200, 400, 800, 1500}, ds[] = {3, 10, 30, 100, 1 << 30};
+    printf("| n | d | nnz | dense flops | sparse flops (est.) | ratio | dense ms | klu ms | dense/klu |\n");
+    printf("|--:|--:|--:|--:|--:|--:|--:|--:|--:|\n");
+    for (int i = 0; i < 5; i++)
+        for (int k = 0; k < 5; k++) {
+            int n = ns[i], d = ds[k] < n ? ds[k] : n - 1;
+            if (k == 4 && ds[3] >= n - 1)
+                continue;
+            ls_csc a = network(n, d);
+            double fs = ls_sparse_lu_flops(&a), fd = 2.0 / 3.0 * n * (double)n * n;
+            int reps = n <= 400 ? 7 : 3;
+            double td = whole_solve_ms(&a, &ls_backend_dense, reps), ts = whole_solve_ms(&a, &ls_backend_klu, reps);
+            printf("| %d | %d | %d | %.3g | %.3g | %.1f | %.3f | %.3f | %.2f |\n", n, d, ls_csc_nnz(&a), fd, fs,
+                   fd / fs, td, ts, td / ts);
+            free(a.colptr); free(a.rowind); free(a.val);
+        }
+    return 0;
+}
+
 int main(int argc, char **argv)
 {
+    if (argc > 1 && strcmp(argv[1], "dense") == 0)
+        return dense_rule();
     double scale = argc > 1 ? atof(argv[1]) : 1.0;
     const int Ns[] = {30, 100, 300, 500}, Ss[] = {1000, 30000, 300000};
     const ls_backend *bes[] = {&ls_backend_klu, &ls_backend_umfpack, &ls_backend_cholmod};

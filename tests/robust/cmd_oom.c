@@ -20,7 +20,7 @@
  *
  * Usage: cmd_oom DIR [sparse|large]  (DIR: a scratch directory; "sparse":
  * every command in JSON with --solver sparse; "large": solve, thevenin and
- * influence on a ladder of 1601 unknowns, above the dense choice's 1500, so
+ * influence on a ladder of 1601 unknowns, sparse by the automatic choice, so
  * the automatic choice takes the sparse path with its larger tables).
  * For debugging: CMD_OOM_ONLY=COMMAND, CMD_OOM_FORMAT=0..2 (text, JSON, CSV),
  * CMD_OOM_SHOW=1 (print the report, stderr and the reference of a wrong

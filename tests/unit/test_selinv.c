@@ -1,0 +1,132 @@
+/* test_selinv.c — entries of A^-1 from the selected-inverse factor (src/selinv.c)
+ * against LAPACK's dgesv on the identity (Debian's liblapacke, the outside
+ * reference), on random sparse unsymmetric matrices shaped like MNA systems:
+ * conductances between random nodes, voltage-source branch rows with a zero
+ * diagonal (so KLU must pivot), and controlled-source entries off the
+ * symmetric pattern. */
+#include "../cu_run.h"
+#include "mna/mna.h"
+#include "base/rng.h"
+#include "solve/selinv.h"
+
+#include <lapacke.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* Stamp into a dense column-major n x n matrix and triplets alike. */
+static void put(double *d, ls_triplets *t, int n, int i, int j, double v)
+{
+    if (i < 0 || j < 0)
+        return;
+    d[i + (size_t)j * n] += v;
+    if (t->nnz == t->cap) {
+        t->cap = t->cap ? 2 * t->cap : 64;
+        t->ti = realloc(t->ti, t->cap * sizeof *t->ti);
+        t->tj = realloc(t->tj, t->cap * sizeof *t->tj);
+        t->tx = realloc(t->tx, t->cap * sizeof *t->tx);
+        if (!t->ti || !t->tj || !t->tx)
+            abort();
+    }
+    t->ti[t->nnz] = i;
+    t->tj[t->nnz] = j;
+    t->tx[t->nnz++] = v;
+}
+
+/* A conductance g between a and b (-1: ground). */
+static void conductance(double *d, ls_triplets *t, int n, int a, int b, double g)
+{
+    put(d, t, n, a, a, g);
+    put(d, t, n, b, b, g);
+    put(d, t, n, a, b, -g);
+    put(d, t, n, b, a, -g);
+}
+
+/* One random network of `nodes` nodes and `vs` grounded voltage sources. */
+static void random_system(ls_rng *r, int nodes, int vs, double *d, ls_triplets *t)
+{
+    int n = nodes + vs;
+    for (int i = 0; i < nodes; i++) /* a spanning tree to ground keeps it regular */
+        conductance(d, t, n, i, i == 0 ? -1 : (int)(ls_rng_uniform(r) * i), pow(10, -3 + 4 * ls_rng_uniform(r)));
+    for (int e = 0; e < nodes; e++) { /* extra conductances */
+        int a = (int)(ls_rng_uniform(r) * nodes), b = (int)(ls_rng_uniform(r) * nodes);
+        if (a != b)
+            conductance(d, t, n, a, b, pow(10, -3 + 4 * ls_rng_uniform(r)));
+    }
+    for (int k = 0; k < vs; k++) { /* V(node) = value: branch row, zero diagonal */
+        int node = (int)(ls_rng_uniform(r) * nodes), br = nodes + k;
+        put(d, t, n, node, br, 1);
+        put(d, t, n, br, node, 1);
+    }
+    for (int c = 0; c < nodes / 4; c++) { /* a transconductance: off the symmetric pattern */
+        int a = (int)(ls_rng_uniform(r) * nodes), b = (int)(ls_rng_uniform(r) * nodes);
+        put(d, t, n, a, b, 0.01 * ls_rng_uniform(r));
+    }
+}
+
+static void test_entries_match_lapack(void)
+{
+    ls_rng r;
+    ls_rng_seed(&r, 19, 0);
+    int checked = 0, systems = 0;
+    for (int trial = 0; trial < 40; trial++) {
+        int nodes = 3 + trial * 2, vs = 1 + trial % 4, n = nodes + vs;
+        double *d = calloc((size_t)n * n, sizeof *d), *inv = calloc((size_t)n * n, sizeof *inv);
+        double *m = malloc((size_t)n * n * sizeof *m);
+        lapack_int *piv = malloc((size_t)n * sizeof *piv);
+        ls_triplets t = {0};
+        ls_csc a = {0};
+        if (!d || !inv || !m || !piv)
+            abort();
+        random_system(&r, nodes, vs, d, &t);
+        CU_ASSERT_EQUAL_FATAL(ls_triplets_to_csc(&t, n, &a), 0);
+        for (int i = 0; i < n; i++)
+            inv[i + (size_t)i * n] = 1;
+        memcpy(m, d, (size_t)n * n * sizeof *m);
+        /* two sources on one node make it singular by chance: nothing to compare */
+        if (LAPACKE_dgesv(LAPACK_COL_MAJOR, n, n, m, n, piv, inv, n) == 0) {
+            systems++;
+            double rcond = 0, big = 0;
+            for (size_t q = 0; q < (size_t)n * n; q++)
+                big = fmax(big, fabs(inv[q]));
+            ls_selinv *s = ls_selinv_new(&a, &rcond);
+            CU_ASSERT_PTR_NOT_NULL_FATAL(s);
+            CU_ASSERT(rcond > 0);
+            for (int i0 = 0; i0 < n; i0 += 2)
+                for (int j0 = 0; j0 < n; j0 += 3) {
+                    int rows[2] = {i0, i0 + 1 < n ? i0 + 1 : -1}, cols[3];
+                    for (int c = 0; c < 3; c++)
+                        cols[c] = j0 + c < n ? j0 + c : -1;
+                    double out[6];
+                    double mag[6];
+                    CU_ASSERT_EQUAL(ls_selinv_block(s, rows, 2, cols, 3, out, mag), 0);
+                    for (int rr = 0; rr < 2; rr++)
+                        for (int c = 0; c < 3; c++) {
+                            double want = rows[rr] < 0 || cols[c] < 0 ? 0 : inv[rows[rr] + (size_t)cols[c] * n];
+                            /* against the inverse's scale: both are backward-stable LUs */
+                            CU_ASSERT(fabs(out[rr * 3 + c] - want) <= 1e-9 * big);
+                            CU_ASSERT(mag[rr * 3 + c] >= fabs(out[rr * 3 + c]));
+                            checked++;
+                        }
+                }
+            int bad_rows[1] = {n}, cols1[1] = {0};
+            double o;
+            CU_ASSERT_EQUAL(ls_selinv_block(s, bad_rows, 1, cols1, 1, &o, NULL), -1);
+            ls_selinv_free(&s);
+            CU_ASSERT_PTR_NULL(s);
+        }
+        free(m); free(d); free(inv); free(piv);
+        ls_triplets_free(&t);
+        ls_csc_free(&a);
+    }
+    CU_ASSERT(systems >= 30);
+    CU_ASSERT(checked > 10000);
+}
+
+int main(void)
+{
+    static const ls_cu_case cases[] = {
+        {"entries of A^-1 match LAPACK's inverse", test_entries_match_lapack},
+    };
+    return ls_cu_run("selinv", NULL, NULL, cases, LS_CU_COUNT(cases));
+}
