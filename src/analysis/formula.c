@@ -1468,8 +1468,10 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
     int code = LS_EXIT_OK;
     lform l;
     lform_init(F, &l);
-    if (!l.c)
+    if (!l.c) {
+        lform_clear(F, &l);   /* c0 was made even when c was not */
         return LS_EXIT_UNSOLVABLE;
+    }
     rf a, b;
     rf_init(F, &a);
     rf_init(F, &b);
@@ -1601,8 +1603,10 @@ static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
     case Q_NODE: {
         lform l;
         lform_init(F, &l);
-        if (!l.c)
+        if (!l.c) {
+            lform_clear(F, &l);   /* c0 was made even when c was not */
             return LS_EXIT_UNSOLVABLE;
+        }
         const char *why = NULL;
         node_form(F, &l, q->index, 1);
         code = solve_in(F, -1, 0, &l, -1, out, &why);

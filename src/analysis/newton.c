@@ -72,7 +72,10 @@ void ls_newton_init(const ls_netlist *nl)
     }
 }
 
-/* Copy every part's state into s (allocated here; saved_free frees). 0 ok, -1 no memory. */
+static void saved_free(saved *s);
+
+/* Copy every part's state into s (allocated here; saved_free frees). 0 ok,
+ * -1 no memory (then nothing is left allocated in s). */
 static int save(const ls_netlist *nl, saved *s)
 {
     size_t n = (size_t)(nl->nparts ? nl->nparts : 1);
@@ -80,8 +83,10 @@ static int save(const ls_netlist *nl, saved *s)
     s->side = malloc(n * sizeof *s->side);
     s->op_v = malloc(n * sizeof *s->op_v);
     s->op_t = malloc(n * sizeof *s->op_t);
-    if (!s->state || !s->side || !s->op_v || !s->op_t)
+    if (!s->state || !s->side || !s->op_v || !s->op_t) {
+        saved_free(s);
         return -1;
+    }
     for (int i = 0; i < nl->nparts; i++) {
         if (!nl->parts[i].run)
             continue;

@@ -60,6 +60,10 @@ def env():
     e = {k: v for k, v in os.environ.items() if not k.startswith("LOADSTACK_")}
     e["LOADSTACK_SELFCHECK"] = "1"
     e["LC_ALL"] = "C.UTF-8"
+    # under the sanitizer build, LeakSanitizer lists the suppressions it used
+    # (the font library's) on stderr: not part of any report
+    if "LSAN_OPTIONS" in e:
+        e["LSAN_OPTIONS"] += ":print_suppressions=0"
     return e
 
 
