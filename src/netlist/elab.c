@@ -4,6 +4,7 @@
 #include "netlist/elab.h"
 #include "base/unionfind.h"
 
+#include <limits.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -72,9 +73,25 @@ static void out_of_memory(elab *x)
     out_of_memory_n(x, x->a->failed_bytes ? x->a->failed_bytes : x->d->arena->failed_bytes);
 }
 
-static bool grow_x(elab *x, void **v, int *cap, int need, size_t elem)
+/* Make room for exactly `need` elements when the array holds fewer (the
+ * elaborator's size estimate, so that a large circuit does not copy its
+ * tables as they double); a failure changes nothing (they grow as they go). */
+static void reserve(void **v, int *cap, long long need, size_t elem)
 {
-    if (grow(v, cap, need, elem))
+    if (need <= *cap || need > INT_MAX / 2)
+        return;
+    void *p = realloc(*v, (size_t)need * elem);
+    if (p) {
+        *v = p;
+        *cap = (int)need;
+    }
+}
+
+/* Room for `need` elements, else the out-of-memory error; true when there
+ * is room.  The common case, room already there, stays inline. */
+static inline bool grow_x(elab *x, void **v, int *cap, int need, size_t elem)
+{
+    if (need <= *cap || grow(v, cap, need, elem))
         return true;
     size_t c = *cap ? (size_t)*cap : 64; /* what grow asked for */
     while (c < (size_t)need)
@@ -208,7 +225,9 @@ static int new_node(elab *x, const char *full, ls_loc loc, int depth, int *found
 static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
 {
     ls_netlist *nl = x->nl;
-    if (strcmp(name, "ground") == 0 || (nl->ground_name && strcmp(name, nl->ground_name) == 0))
+    /* the first bytes rule out most names before a string comparison */
+    if ((name[0] == 'g' && strcmp(name, "ground") == 0) ||
+        (nl->ground_name && name[0] == nl->ground_name[0] && strcmp(name, nl->ground_name) == 0))
         return 0;
     const char *full = qualify(x, s, name);
     bool dotted = strchr(name, '.') != NULL;
@@ -1278,9 +1297,11 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
             continue; /* the positional value was given but had an error */
         ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
     }
-    finish_free(x, &p);
-    if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
-        snap_value(x, &p, ls_kind_opt(k, "snap"), snap_loc);
+    if (p.has_opt) { /* free= and snap= are options: without any, nothing to finish */
+        finish_free(x, &p);
+        if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
+            snap_value(x, &p, ls_kind_opt(k, "snap"), snap_loc);
+    }
     if (st->arrow && p.pin[0] >= 0 && p.pin[0] == p.pin[1])
         ls_warning(x->d, st->from_loc, "same-node", "both ends of %s '%s' are the same node '%s'", k->name, st->name,
                    nl->nodes[p.pin[0]].name);
@@ -1903,6 +1924,9 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
          * nodes again, so that a large circuit does not rehash as it grows
          * (a failure here only means the table grows as it goes). */
         ls_hash_reserve(&nl->names, (size_t)nparts + (size_t)nparts / 2 + 16);
+        reserve((void **)&nl->parts, &nl->cap_parts, nparts, sizeof *nl->parts);
+        reserve((void **)&nl->ents, &nl->cap_ents, nparts + nparts / 2 + 16, sizeof *nl->ents);
+        reserve((void **)&nl->nodes, &nl->cap_nodes, nparts / 2 + 16, sizeof *nl->nodes);
         elab_body(&x, &top, prog->stmts, prog->n);
     }
     resolve_refs(&x);
