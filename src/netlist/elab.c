@@ -824,19 +824,47 @@ int ls_port_adc(const ls_netlist *nl, int port)
     return best;
 }
 
+/* Per node, whether ls_port_adc would find an adc input there (the same
+ * rule: an adc whose LSB is below infinity), from one pass over the parts, so
+ * that the budget check does not scan the part table per port.  Malloc'd,
+ * nnodes flags; NULL when out of memory (then ls_port_adc per port). */
+static bool *adc_on_node(const ls_netlist *nl)
+{
+    bool *has = calloc((size_t)(nl->nnodes ? nl->nnodes : 1), sizeof *has);
+    if (!has)
+        return NULL;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (strcmp(p->kind->name, "adc") == 0 && p->pin[0] > 0 && p->pin[0] < nl->nnodes &&
+            ls_adc_lsb(p) < INFINITY)
+            has[p->pin[0]] = true;
+    }
+    return has;
+}
+
 /* Budgets whose unit does not fit their port: LSB without an adc on the load
  * node, volts on a current-mode port, amperes on a voltage-mode one. */
 static void check_budgets(elab *x)
 {
     ls_netlist *nl = x->nl;
     int bi = ls_kind_opt(ls_kind_find("port"), "budget");
+    bool *adc = NULL, adc_tried = false;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         if (!p->kind->is_port || !ls_part_has(p, bi))
             continue;
         const ls_budget *b = &nl->budgets[(int)p->opt[bi]];
         bool cur = ls_part_opt(p, "mode", 0) == 1;
-        if (b->unit == LS_BUDGET_LSB && (cur || ls_port_adc(nl, i) < 0))
+        bool no_adc = false;
+        if (b->unit == LS_BUDGET_LSB && !cur) {
+            if (!adc_tried) {
+                adc = adc_on_node(nl);
+                adc_tried = true;
+            }
+            int load = p->pin[1];
+            no_adc = adc ? !(load > 0 && load < nl->nnodes && adc[load]) : ls_port_adc(nl, i) < 0;
+        }
+        if (b->unit == LS_BUDGET_LSB && (cur || no_adc))
             ls_error(x->d, b->loc, "budget in LSB needs an adc input on the port's load node, and '%s' has none%s; "
                      "write volts or a %% of the open value",
                      nl->nodes[p->pin[1]].name, cur ? " (and a current-mode port's sag is a current)" : "");
@@ -847,6 +875,7 @@ static void check_budgets(elab *x)
             ls_error(x->d, b->loc, "port '%s' is voltage-mode: its budget is volts, a %% or LSB, not a current",
                      p->name);
     }
+    free(adc);
 }
 
 /* ---- statements --------------------------------------------------------------------- */
