@@ -666,30 +666,30 @@ static int mod_solve_once(ls_mod *m, double *y, double *orig)
 
 static double mod_residual(const ls_mod *m, const double *x, const double *rhs, double *r, int transpose);
 
-/* y <- A'^-1 y in place (see analysis.h), refined against A'. */
-int ls_mod_solve(ls_mod *m, double *y)
+static int mod_solve_t_once(ls_mod *m, double *y);
+
+/* y <- A'^-1 y (transpose 0) or A'^-T y (1) in place: one pass, then up to two
+ * refinement steps against A' itself (a nearly cancelling update leaves
+ * round-off of the size of the base solution).  Returns an ls_solver_status. */
+static int mod_solve_refined(ls_mod *m, double *y, int transpose)
 {
-    if (m->singular)
-        return LS_SOLVER_SINGULAR;
     size_t bytes = (size_t)(m->n ? m->n : 1) * sizeof(double);
-    double *rhs = malloc(bytes), *orig = malloc(bytes), *r = malloc(bytes);
-    if (!rhs || !orig || !r) {
+    double *rhs = malloc(bytes), *r = malloc(bytes), *orig = transpose ? NULL : malloc(bytes);
+    if (!rhs || !r || (!transpose && !orig)) {
         free(rhs);
         free(orig);
         free(r);
         return LS_SOLVER_NOMEM;
     }
     memcpy(rhs, y, bytes);
-    int st = mod_solve_once(m, y, orig);
-    /* refined against A' itself: a nearly cancelling update leaves round-off
-     * of the size of the base solution */
+    int st = transpose ? mod_solve_t_once(m, y) : mod_solve_once(m, y, orig);
     double last = INFINITY;
     for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
-        double rel = mod_residual(m, y, rhs, r, 0);
+        double rel = mod_residual(m, y, rhs, r, transpose);
         if (rel <= REFINE_TOL || !(rel < 0.5 * last))
             break;
         last = rel;
-        st = mod_solve_once(m, r, orig);
+        st = transpose ? mod_solve_t_once(m, r) : mod_solve_once(m, r, orig);
         for (int i = 0; i < m->n && st == LS_SOLVER_OK; i++)
             y[i] += r[i];
     }
@@ -697,6 +697,14 @@ int ls_mod_solve(ls_mod *m, double *y)
     free(orig);
     free(r);
     return st;
+}
+
+/* y <- A'^-1 y in place (see analysis.h), refined against A'. */
+int ls_mod_solve(ls_mod *m, double *y)
+{
+    if (m->singular)
+        return LS_SOLVER_SINGULAR;
+    return mod_solve_refined(m, y, 0);
 }
 
 /* Y = A^-T D^T, one transposed solve per changed row.  0 ok, -1 failure. */
@@ -750,28 +758,7 @@ int ls_mod_solve_t(ls_mod *m, double *y)
         return LS_SOLVER_SINGULAR;
     if (!m->own && m->r > 0 && !m->Y && build_y(m) != 0)
         return LS_SOLVER_NOMEM;
-    size_t bytes = (size_t)(m->n ? m->n : 1) * sizeof(double);
-    double *rhs = malloc(bytes), *r = malloc(bytes);
-    if (!rhs || !r) {
-        free(rhs);
-        free(r);
-        return LS_SOLVER_NOMEM;
-    }
-    memcpy(rhs, y, bytes);
-    int st = mod_solve_t_once(m, y);
-    double last = INFINITY;
-    for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
-        double rel = mod_residual(m, y, rhs, r, 1);
-        if (rel <= REFINE_TOL || !(rel < 0.5 * last))
-            break;
-        last = rel;
-        st = mod_solve_t_once(m, r);
-        for (int i = 0; i < m->n && st == LS_SOLVER_OK; i++)
-            y[i] += r[i];
-    }
-    free(rhs);
-    free(r);
-    return st;
+    return mod_solve_refined(m, y, 1);
 }
 
 /* r <- rhs - A' x with A' = A + E_R D (or A'^T = A^T + D^T E_R^T when
