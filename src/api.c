@@ -10,12 +10,12 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
+#include "analysis/checks.h"
 #include "netlist/elab.h"
 #include "base/eseries.h"
 #include "analysis/fit.h"
 #include "analysis/formula.h"
 #include "lang/parser.h"
-#include "report/report.h"
 #include "analysis/sag.h"
 #include "analysis/sens.h"
 #include "analysis/sweep.h"

@@ -301,6 +301,8 @@ int ls_cmd_chain(ls_cli *cli)
         fprintf(stderr, "loadstack: error: out of memory\n");
         code = LS_EXIT_UNSOLVABLE;
     }
+    if (code == LS_EXIT_OK)
+        ls_chain_ports(&s.op, &c);   /* the connections' port reports, read by the picture and the report */
     if (code == LS_EXIT_OK && (cli->plot || cli->fmt == FMT_HTML)) {
         pic = ls_chain_layout(&s.op, &c, s.nl.title, cli->ascii);
         if (!pic) {

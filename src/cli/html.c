@@ -609,6 +609,8 @@ int ls_html_page(FILE *o, ls_session *s, const ls_chain *c, const ls_chain_pic *
             code = LS_EXIT_UNSOLVABLE;
         c = &own;
     }
+    if (code == LS_EXIT_OK)
+        ls_chain_ports(&s->op, c);
     if (code == LS_EXIT_OK && !pic) {
         pic = own_pic = ls_chain_layout(&s->op, c, s->nl.title, s->cli->ascii);
         if (!pic)

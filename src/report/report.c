@@ -8,7 +8,6 @@
 
 #include "netlist/elab.h"
 #include "base/fmt.h"
-#include "analysis/lowrank.h"
 #include "analysis/newton.h"
 #include "base/numfmt.h"
 
@@ -379,100 +378,6 @@ static const char *verdict_name(ls_verdict v)
     return n[v];
 }
 
-/* The check row of a port judged by the ratio rule. */
-static void ratio_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
-{
-    const ls_netlist *nl = op->nl;
-    double min = ls_op_min_ratio(op);
-    row->text = ls_arena_printf(nl->arena, "rule ratio >= %g (port %s)", min, nl->parts[i].name);
-    row->instance = nl->parts[i].instance;
-    row->loc = nl->parts[i].loc;
-    row->dims = LS_FREE;
-    row->port = i;
-    row->r.value = pr->ratio;
-    row->r.lo = min;
-    row->r.hi = INFINITY;
-    row->r.pass = pr->verdict == VERDICT_OK;
-    if (isnan(pr->ratio) && !row->r.pass)
-        row->r.reason = pr->note ? pr->note : "the ratio is undefined";
-}
-
-/* Where a port's budget comes from, in words. */
-static const char *budget_source(const ls_port_result *pr)
-{
-    switch (pr->budget_from) {
-    case LS_BUDGET_FROM_PORT: return "budget";
-    case LS_BUDGET_FROM_RULE: return "rule sag";
-    case LS_BUDGET_FROM_ADC: return "half an LSB";
-    default: return "none";
-    }
-}
-
-/* The check row of a port judged by its budget: |sag| <= budget. */
-static void budget_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
-{
-    const ls_netlist *nl = op->nl;
-    const ls_part *p = &nl->parts[i];
-    char b[64];
-    ls_fmt_eng(b, sizeof b, pr->budget, pr->current_mode ? "A" : "V", 4, true);
-    row->text = ls_arena_printf(nl->arena, "port %s: abs(sag) <= %s (%s)", p->name, b, budget_source(pr));
-    row->instance = p->instance;
-    row->loc = p->loc;
-    row->dims = pr->current_mode ? LS_AMP : LS_VOLT;
-    row->port = i;
-    row->r.value = fabs(pr->sag);
-    row->r.lo = -INFINITY;
-    row->r.hi = pr->budget;
-    row->r.pass = pr->verdict == VERDICT_OK;
-    if (isnan(pr->sag))
-        row->r.reason = pr->note ? pr->note : "the sag is undefined";
-}
-
-int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
-{
-    const ls_netlist *nl = op->nl;
-    memset(out, 0, sizeof *out);
-    int nports = 0;
-    for (int i = 0; i < nl->nparts; i++)
-        nports += nl->parts[i].kind->is_port;
-    int cap = nl->nchecks + nports;
-    out->rows = calloc((size_t)(cap ? cap : 1), sizeof *out->rows);
-    if (!out->rows)
-        return -1;
-    for (int i = 0; i < nl->nchecks; i++) {
-        const ls_check *c = &nl->checks[i];
-        ls_check_row *row = &out->rows[out->n++];
-        row->text = c->text;
-        row->instance = c->instance;
-        row->loc = c->loc;
-        row->dims = c->lhs->dims;
-        row->port = -1;
-        ls_check_eval(op, c, &row->r);
-    }
-    for (int i = 0; i < nl->nparts; i++) {
-        if (!nl->parts[i].kind->is_port)
-            continue;
-        const ls_port_result *pr = ls_op_port(op, i);
-        if (pr->by_budget)
-            budget_row(op, i, pr, &out->rows[out->n++]);
-        else if (with_rule)
-            ratio_row(op, i, pr, &out->rows[out->n++]);
-    }
-    for (int i = 0; i < out->n; i++) {
-        if (out->rows[i].r.pass)
-            out->passed++;
-        else
-            out->failed++;
-    }
-    return 0;
-}
-
-void ls_checks_free(ls_checks *c)
-{
-    free(c->rows);
-    memset(c, 0, sizeof *c);
-}
-
 static int loc_line(const ls_diags *d, ls_loc l)
 {
     if (l.file < 0)
@@ -641,18 +546,17 @@ static const char *limit_text(ls_report *rp, const ls_part *p, char *buf, size_t
     return buf;
 }
 
-static void adc_text(ls_report *rp, ls_op *op)
+static void adc_text(ls_report *rp, const ls_results *res)
 {
+    const ls_op *op = res->op;
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
     table t = {.ncol = 8, .head = {"adc", "input", "code", "unloaded", "error", "source", "max source", "verdict"},
                .right = {false, true, true, true, true, true, true, false}};
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_adc_result r;
-        const ls_part *p = &nl->parts[i];
-        if (ls_op_adc(op, i, &r) != 0)
-            continue;
+    for (int k = 0; k < res->nadcs; k++) {
+        const ls_adc_result r = res->adcs[k].r;
+        const ls_part *p = &nl->parts[res->adcs[k].part];
         char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64];
         int mi = ls_kind_opt(p->kind, "max_source");
         bool has_max = ls_part_has(p, mi);
@@ -681,7 +585,7 @@ static void adc_text(ls_report *rp, ls_op *op)
         t_print(&t, rp);
 }
 
-static void ntc_text(ls_report *rp, ls_op *op)
+static void ntc_text(ls_report *rp, const ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
@@ -707,16 +611,17 @@ static void ntc_text(ls_report *rp, ls_op *op)
 
 /* Extra JSON keys of the real parts' entries in "parts": an adc's reading,
  * a thermistor's resistance and temperatures. */
-static void part_extra_json(ls_jw *w, ls_op *op, int i)
+static void part_extra_json(ls_jw *w, const ls_results *res, int i)
 {
+    const ls_op *op = res->op;
     const ls_part *p = &op->nl->parts[i];
-    ls_adc_result r;
-    if (ls_op_adc(op, i, &r) == 0) {
-        ls_jw_int(w, "code", r.code);
-        ls_jw_num(w, "lsb", r.lsb);
-        ls_jw_num(w, "unloaded", r.v_open);
-        ls_jw_num(w, "error_lsb", r.error_lsb);
-        ls_jw_num(w, "source_resistance", r.rth);
+    const ls_adc_result *r = ls_results_adc(res, i);
+    if (r) {
+        ls_jw_int(w, "code", r->code);
+        ls_jw_num(w, "lsb", r->lsb);
+        ls_jw_num(w, "unloaded", r->v_open);
+        ls_jw_num(w, "error_lsb", r->error_lsb);
+        ls_jw_num(w, "source_resistance", r->rth);
     } else if (is_kind(p, "ntc")) {
         double t = ls_ntc_body(p);
         ls_jw_num(w, "resistance", ls_ntc_r(p, t));
@@ -728,15 +633,14 @@ static void part_extra_json(ls_jw *w, ls_op *op, int i)
 /* The "adcs" object: what the text's ADC table shows.  The verdict judges the
  * reading's error against budget_lsb (the feeding port's budget, else half an
  * LSB) and the source against max_source (source_too_high). */
-static void adcs_json(ls_jw *w, ls_op *op)
+static void adcs_json(ls_jw *w, const ls_results *res)
 {
+    const ls_op *op = res->op;
     const ls_netlist *nl = op->nl;
     ls_jw_obj(w, "adcs");
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_adc_result r;
-        const ls_part *p = &nl->parts[i];
-        if (ls_op_adc(op, i, &r) != 0)
-            continue;
+    for (int k = 0; k < res->nadcs; k++) {
+        const ls_adc_result r = res->adcs[k].r;
+        const ls_part *p = &nl->parts[res->adcs[k].part];
         int mi = ls_kind_opt(p->kind, "max_source");
         ls_jw_obj(w, p->name);
         ls_jw_num(w, "input", r.vin);
@@ -764,36 +668,18 @@ static const char *method_name(ls_method m)
     return n[m];
 }
 
-/* The resistors at port i's driver node whose value alone would bring zout
- * down to zmax, as "r_bot at most 1.2 kΩ" phrases (at most two, the
- * smallest change first), into buf; empty when none can. */
-static const char *resistor_advice(ls_report *rp, ls_op *op, int i, double zmax, char *buf, size_t n)
+/* The resistors of port i's advice (results.h) as "r_bot at most 1.2 kΩ"
+ * phrases into buf; empty when none can meet it. */
+static const char *resistor_advice(ls_report *rp, const ls_results *res, int i, char *buf, size_t n)
 {
-    const ls_netlist *nl = op->nl;
-    int f = nl->parts[i].pin[0], best[2] = {-1, -1};
-    double val[2] = {NAN, NAN}, change[2] = {INFINITY, INFINITY};
+    const ls_netlist *nl = res->op->nl;
+    const ls_port_advice *a = ls_results_advice(res, i);
     buf[0] = 0;
-    for (int j = 0; j < nl->nparts && f > 0; j++) {
-        const ls_part *r = &nl->parts[j];
-        if (strcmp(r->kind->name, "resistor") != 0 || (r->pin[0] != f && r->pin[1] != f))
-            continue;
-        double v = ls_port_resistor_for_zout(op, i, j, zmax);
-        if (!(v > 0) || !(v < r->value))
-            continue;
-        double c = r->value / v;   /* how many times smaller */
-        int k = c < change[0] ? 0 : c < change[1] ? 1 : 2;
-        if (k == 2)
-            continue;
-        if (k == 0) {
-            best[1] = best[0], val[1] = val[0], change[1] = change[0];
-        }
-        best[k] = j, val[k] = v, change[k] = c;
-    }
-    for (int k = 0; k < 2 && best[k] >= 0; k++) {
+    for (int k = 0; a && k < 2 && a->part[k] >= 0; k++) {
         char v[64];
         size_t l = strlen(buf);
-        snprintf(buf + l, n - l, "%s%s at most %s", k ? ", or " : "", nl->parts[best[k]].name,
-                 ls_eng(rp, v, sizeof v, val[k], ls_unit_of(LS_OHM, rp->ascii)));
+        snprintf(buf + l, n - l, "%s%s at most %s", k ? ", or " : "", nl->parts[a->part[k]].name,
+                 ls_eng(rp, v, sizeof v, a->ohm[k], ls_unit_of(LS_OHM, rp->ascii)));
     }
     return buf;
 }
@@ -802,8 +688,9 @@ static const char *resistor_advice(ls_report *rp, ls_op *op, int i, double zmax,
  * terms: sag = open zout / (zout + zin) of a loaded divider is within B when
  * zin/zout >= |open|/B - 1, which sets the ratio needed, the largest zout and
  * the smallest zin. */
-static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+static void budget_advice(ls_report *rp, const ls_results *res, int i, const ls_port_result *pr)
 {
+    const ls_op *op = res->op;
     const ls_part *p = &op->nl->parts[i];
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
     char sag[64], bud[64], need[64], zmax[64], zmin[64], parts[300], lsb[96] = "";
@@ -816,7 +703,7 @@ static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result 
                  a->name);
     }
     fprintf(rp->out, "  -> %s: the sag of %s%s is over its budget of %s (%s).", p->name, sag, lsb, bud,
-            budget_source(pr));
+            ls_budget_source(pr));
     double req = fabs(pr->open) / pr->budget - 1;
     if (!isfinite(req) || !(req > 0) || !isfinite(pr->zin) || !(pr->zout > 0)) {
         fputs(" A buffer (an op-amp follower) between the stages removes the load from the driver.\n", rp->out);
@@ -826,7 +713,7 @@ static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result 
     ls_eng(rp, need, sizeof need, req, "");
     ls_eng(rp, zmax, sizeof zmax, zo, OHM);
     ls_eng(rp, zmin, sizeof zmin, pr->zout * req, OHM);
-    resistor_advice(rp, op, i, zo, parts, sizeof parts);
+    resistor_advice(rp, res, i, parts, sizeof parts);
     fprintf(rp->out, " To meet it: zin/zout of at least %s, e.g. a buffer (an op-amp follower) between them, "
                      "or a driver with zout at most %s%s%s%s, or a load with zin at least %s.\n",
             need, zmax, parts[0] ? " (" : "", parts, parts[0] ? ")" : "", zmin);
@@ -841,7 +728,7 @@ static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result 
  * that ratio.  Returns how many fields were set (0: nothing to say: the port
  * passes, its ratio is undefined, its load is a short to ground, or its budget
  * gives no finite ratio). */
-static int fix_limits(ls_op *op, const ls_port_result *pr, const char *field[3], double v[3])
+static int fix_limits(const ls_op *op, const ls_port_result *pr, const char *field[3], double v[3])
 {
     if (pr->verdict == VERDICT_OK)
         return 0;
@@ -867,8 +754,9 @@ static int fix_limits(ls_op *op, const ls_port_result *pr, const char *field[3],
 
 /* One line for a port that fails its budget or the ratio: the largest zout or
  * the smallest zin that would meet it, or a buffer. */
-static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+static void fix_advice(ls_report *rp, const ls_results *res, int i, const ls_port_result *pr)
 {
+    const ls_op *op = res->op;
     const ls_part *p = &op->nl->parts[i];
     double min = ls_op_min_ratio(op);
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
@@ -876,7 +764,7 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
     if (pr->verdict == VERDICT_OK)
         return;
     if (pr->by_budget && !pr->current_mode && isfinite(pr->sag)) {
-        budget_advice(rp, op, i, pr);
+        budget_advice(rp, res, i, pr);
         return;
     }
     if (isnan(pr->ratio)) {
@@ -888,7 +776,7 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
         char s[64], b[64];
         fprintf(rp->out, "  -> %s: the sag of %s is over its budget of %s (%s).\n", p->name,
                 ls_eng(rp, s, sizeof s, fabs(pr->sag), pr->current_mode ? "A" : "V"),
-                ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V"), budget_source(pr));
+                ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V"), ls_budget_source(pr));
         return;
     }
     ls_eng(rp, r, sizeof r, pr->ratio, "");
@@ -929,8 +817,9 @@ static const char *budget_cell(ls_report *rp, const ls_port_result *pr, char *bu
 }
 
 /* The ports table, the note on held load sides (once) and the advice. */
-static void ports_text(ls_report *rp, ls_op *op)
+static void ports_text(ls_report *rp, const ls_results *res)
 {
+    const ls_op *op = res->op;
     FILE *o = rp->out;
     const ls_netlist *nl = op->nl;
     const char *V = "V", *A = "A", *OHM = ls_unit_of(LS_OHM, rp->ascii);
@@ -946,7 +835,7 @@ static void ports_text(ls_report *rp, ls_op *op)
         const ls_part *pt = &nl->parts[i];
         if (!pt->kind->is_port)
             continue;
-        const ls_port_result *pr = ls_op_port(op, i);
+        const ls_port_result *pr = ls_port_read(op, i);
         const char *u = pr->current_mode ? A : V;
         char conn[600], sag[96];
         held += pr->load_held;
@@ -970,14 +859,14 @@ static void ports_text(ls_report *rp, ls_op *op)
         fputs("  note: the load side of", o);
         int k = 0;
         for (int i = 0; i < nl->nparts; i++)
-            if (nl->parts[i].kind->is_port && ls_op_port(op, i)->load_held)
+            if (nl->parts[i].kind->is_port && ls_port_read(op, i)->load_held)
                 fprintf(o, "%s %s", k++ ? (k == held ? " and" : ",") : "", nl->parts[i].name);
         fprintf(o, " has no DC path of its own once opened (an input that only a controlled source senses); "
                    "it was held at its loaded voltage while open and zout were computed, and zin is unbounded.\n");
     }
     for (int i = 0; i < nl->nparts; i++)
         if (nl->parts[i].kind->is_port)
-            fix_advice(rp, op, i, ls_op_port(op, i));
+            fix_advice(rp, res, i, ls_port_read(op, i));
 }
 
 /* v formatted as ls_eng does, with a leading "~" when its error bound says
@@ -993,12 +882,12 @@ static const char *eng_bounded(ls_report *rp, char *buf, size_t n, double v, con
     return buf;
 }
 
-/* Compute the error bounds for the report: true when it has them.  They
- * fail only for want of memory, and a report that leaves them out is not the
- * report asked for: rp->nomem says so. */
-static bool error_bounds(ls_report *rp, ls_op *op)
+/* Does the report have the error bounds?  They fail only for want of memory
+ * (results.h), and a report that leaves them out is not the report asked
+ * for: rp->nomem says so. */
+static bool error_bounds(ls_report *rp, const ls_results *res)
 {
-    if (ls_acc_bounds(op) == 0)
+    if (res->bounds)
         return true;
     rp->nomem = "the error bounds of the solution";
     rp->nomem_bytes = 0; /* (the bounds do not say what they asked for) */
@@ -1007,7 +896,7 @@ static bool error_bounds(ls_report *rp, ls_op *op)
 
 /* The accuracy line under the solver line: which refinement ran and whether
  * the printed digits are all within their error bounds. */
-static void accuracy_text(ls_report *rp, ls_op *op, int marked)
+static void accuracy_text(ls_report *rp, const ls_op *op, int marked)
 {
     const ls_accuracy *a = &op->acc;
     const char *how = !a->refined ? "iterative refinement in double precision (a circuit with nonlinear parts)"
@@ -1026,8 +915,9 @@ static void accuracy_text(ls_report *rp, ls_op *op, int marked)
                 a->estimated ? " (by an estimated bound)" : "");
 }
 
-static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
+static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *checks)
 {
+    const ls_op *op = res->op;
     FILE *o = rp->out;
     const ls_netlist *nl = op->nl;
     const char *V = "V", *A = "A", *W = "W";
@@ -1044,7 +934,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     if (op->iterations > 1)
         fprintf(o, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
     /* marks need the bounds; count them first so the accuracy line can say how many */
-    bool bounds = error_bounds(rp, op);
+    bool bounds = error_bounds(rp, res);
     const ls_accuracy *acc = &op->acc;
     double vscale = ls_acc_scale(op, 0), iscale = ls_acc_scale(op, 1);
     int marked = 0;
@@ -1095,7 +985,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
         t_print(&p, rp);
     }
     if (nports)
-        ports_text(rp, op);
+        ports_text(rp, res);
     if (nops) {
         fputs("\nOp-amps\n", o);
         /* the dissipation column only where some op-amp has rails= to reckon it from */
@@ -1124,7 +1014,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
         }
         t_print(&p, rp);
     }
-    adc_text(rp, op);
+    adc_text(rp, res);
     ntc_text(rp, op);
     checks_text(rp, checks);
     warnings_text(rp);
@@ -1135,7 +1025,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 /* The "accuracy" object: how the error bounds were found, the bound of every
  * node voltage (V; null, unbounded, when no first-order bound holds), and the
  * worst node and part against their own values. */
-static void accuracy_json(ls_jw *w, ls_op *op)
+static void accuracy_json(ls_jw *w, const ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     const ls_accuracy *a = &op->acc;
@@ -1159,8 +1049,9 @@ static void accuracy_json(ls_jw *w, ls_op *op)
     ls_jw_end(w);
 }
 
-static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
+static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *checks)
 {
+    const ls_op *op = res->op;
     ls_jw jw, *w = &jw;
     const ls_netlist *nl = op->nl;
     ls_report_json_begin(rp, w);
@@ -1185,7 +1076,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     ls_jw_int(w, "refinement_steps", op->acc.steps);
     ls_jw_end(w);
     w->wrap = wrap;
-    bool bounds = error_bounds(rp, op);
+    bool bounds = error_bounds(rp, res);
     ls_jw_obj(w, "nodes");
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
@@ -1205,7 +1096,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         ls_jw_num(w, "power", op->ppart[i]);
         if (bounds && !isnan(op->acc.part_bound[i]))
             ls_jw_num_why(w, "error_bound", op->acc.part_bound[i], LS_WHY_UNBOUNDED);
-        part_extra_json(w, op, i);
+        part_extra_json(w, res, i);
         ls_jw_end(w);
     }
     ls_jw_end(w);
@@ -1215,7 +1106,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         const ls_part *p = &nl->parts[i];
         if (!p->kind->is_port)
             continue;
-        const ls_port_result *pr = ls_op_port(op, i);
+        const ls_port_result *pr = ls_port_read(op, i);
         ls_jw_obj(w, p->name);
         ls_jw_str(w, "from", nl->nodes[p->pin[0]].name);
         ls_jw_str(w, "to", nl->nodes[p->pin[1]].name);
@@ -1263,7 +1154,7 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         ls_jw_end(w);
     }
     ls_jw_end(w);
-    adcs_json(w, op);
+    adcs_json(w, res);
     checks_json(rp, w, checks);
     ls_jw_int(w, "passed", checks->passed);
     ls_jw_int(w, "failed", checks->failed);
@@ -1312,8 +1203,9 @@ static void checks_csv_rows(obuf *o, const ls_checks *checks)
     }
 }
 
-static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
+static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *checks)
 {
+    const ls_op *op = res->op;
     obuf ob, *o = &ob;
     ob_init(o, rp->out);
     const ls_netlist *nl = op->nl;
@@ -1327,7 +1219,7 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
         const ls_part *p = &nl->parts[i];
         prefetch_part_name(nl, i);
         if (p->kind->is_port) {
-            const ls_port_result *pr = ls_op_port(op, i);
+            const ls_port_result *pr = ls_port_read(op, i);
             const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget"};
             double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current,
                           pr->budget};
@@ -1361,8 +1253,9 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
             csv_word(o, "opamp", p->name, "limited", ls_opamp_limit_word(p));
             csv_row(o, "opamp", p->name, "dissipation", ls_opamp_dissipation(op, i));
         }
-        ls_adc_result r;
-        if (ls_op_adc(op, i, &r) == 0) {
+        const ls_adc_result *ar = ls_results_adc(res, i);
+        if (ar) {
+            const ls_adc_result r = *ar;
             int mi = ls_kind_opt(p->kind, "max_source");
             csv_row(o, "adc", p->name, "input", r.vin);
             csv_row(o, "adc", p->name, "code", (double)r.code);
@@ -1388,12 +1281,22 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
     ls_report_warnings_csv(rp, rp->out);
 }
 
-void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
+unsigned ls_report_needs(const ls_report *rp)
 {
     switch (rp->fmt) {
-    case FMT_TEXT: solve_text(rp, op, checks); break;
-    case FMT_JSON: solve_json(rp, op, checks); break;
-    case FMT_CSV: solve_csv(rp, op, checks); break;
+    case FMT_TEXT: return LS_NEED_PORTS | LS_NEED_BOUNDS | LS_NEED_ADCS | LS_NEED_ADVICE;
+    case FMT_JSON: return LS_NEED_PORTS | LS_NEED_BOUNDS | LS_NEED_ADCS;
+    case FMT_CSV: return LS_NEED_PORTS | LS_NEED_ADCS;
+    default: return 0; /* the page (html.c) reads the session itself */
+    }
+}
+
+void ls_report_solve(ls_report *rp, const ls_results *res, const ls_checks *checks)
+{
+    switch (rp->fmt) {
+    case FMT_TEXT: solve_text(rp, res, checks); break;
+    case FMT_JSON: solve_json(rp, res, checks); break;
+    case FMT_CSV: solve_csv(rp, res, checks); break;
     case FMT_HTML: break; /* the page is html.c's, called by the command */
     }
 }
@@ -1444,10 +1347,9 @@ static void failed_warnings_csv(ls_report *rp, obuf *ob)
     }
 }
 
-void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
+void ls_report_check(ls_report *rp, const ls_checks *checks)
 {
     FILE *o = rp->out;
-    (void)op;
     if (rp->fmt == FMT_JSON) {
         ls_jw w;
         ls_report_json_begin(rp, &w);
