@@ -333,6 +333,7 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
     out->rcond = c->op.rcond;
     out->residual = c->op.residual;
     out->iterations = c->op.iterations;
+    out->refinement_steps = c->op.acc.steps;
     return LS_OK;
 }
 
