@@ -1,5 +1,6 @@
 /* report.c — the operating-point and check reports in text, JSON and CSV. */
 #include "report/report.h"
+#include "report/textbuf.h"
 
 #include <math.h>
 #include <stdarg.h>
@@ -10,113 +11,6 @@
 #include "base/fmt.h"
 #include "analysis/newton.h"
 #include "base/numfmt.h"
-
-/* ---- buffered output -------------------------------------------------------------------
- *
- * A large circuit's report is millions of short pieces (a grid of a million
- * nodes writes some 300 MB of JSON).  Each stdio call costs more than the copy
- * it makes, so the writers below put their pieces into one block and hand it to
- * the stream in large fwrite calls.  A writer flushes its block before anything
- * else writes to the stream and before it returns, so the order of the output
- * is the order of the calls.  Errors stay on the stream (ferror), as before. */
-typedef struct obuf {
-    FILE *f;
-    char *p;              /* next free byte of b */
-    char b[32768];
-} obuf;
-
-static void ob_init(obuf *o, FILE *f)
-{
-    o->f = f;
-    o->p = o->b;
-}
-
-static void ob_flush(obuf *o)
-{
-    if (o->p != o->b)
-        fwrite(o->b, 1, (size_t)(o->p - o->b), o->f);
-    o->p = o->b;
-}
-
-static size_t ob_room(const obuf *o)
-{
-    return (size_t)(o->b + sizeof o->b - o->p);
-}
-
-static void ob_write(obuf *o, const char *s, size_t n)
-{
-    if (n > ob_room(o)) {
-        ob_flush(o);
-        if (n > sizeof o->b) {
-            fwrite(s, 1, n, o->f);
-            return;
-        }
-    }
-    memcpy(o->p, s, n);
-    o->p += n;
-}
-
-static void ob_puts(obuf *o, const char *s)
-{
-    ob_write(o, s, strlen(s));
-}
-
-static void ob_putc(obuf *o, char c)
-{
-    if (!ob_room(o))
-        ob_flush(o);
-    *o->p++ = c;
-}
-
-static void ob_printf(obuf *o, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static void ob_printf(obuf *o, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    size_t room = ob_room(o);
-    int n = vsnprintf(o->p, room, fmt, ap);
-    va_end(ap);
-    if (n < 0)
-        return;
-    if ((size_t)n < room) {
-        o->p += n;
-        return;
-    }
-    ob_flush(o);
-    va_start(ap, fmt);
-    if ((size_t)n < sizeof o->b) {
-        vsnprintf(o->p, sizeof o->b, fmt, ap);
-        o->p += n;
-    } else {
-        vfprintf(o->f, fmt, ap);
-    }
-    va_end(ap);
-}
-
-/* The shortest exact text, or nothing when not finite: a CSV value */
-static void ob_csv_number(obuf *o, double v)
-{
-    if (!isfinite(v))
-        return;
-    if (ob_room(o) < LS_NUM_MAX)
-        ob_flush(o);
-    o->p += ls_num_shortest(o->p, v);
-}
-
-static void ob_csv_field(obuf *o, const char *s)
-{
-    if (strpbrk(s, ",\"\n\r")) {
-        ob_putc(o, '"');
-        for (; *s; s++) {
-            if (*s == '"')
-                ob_putc(o, '"');
-            ob_putc(o, *s);
-        }
-        ob_putc(o, '"');
-    } else {
-        ob_puts(o, s);
-    }
-}
 
 /* The names of a large circuit's nodes and parts lie scattered over its arena,
  * and the first read of each is a cache miss that the row loops would wait for
@@ -222,154 +116,6 @@ const char *ls_unit_of(ls_dims d, bool ascii)
     return u;
 }
 
-/* Display width of a UTF-8 string (code points). */
-static int width(const char *s)
-{
-    int w = 0;
-    for (; *s; s++)
-        w += ((unsigned char)*s & 0xC0) != 0x80;
-    return w;
-}
-
-/* The byte length of s, and its display width in *w: one pass for both (the
- * table code measures every cell). */
-static size_t measure(const char *s, int *w)
-{
-    const char *p = s;
-    int k = 0;
-    for (; *p; p++)
-        k += ((unsigned char)*p & 0xC0) != 0x80;
-    *w = k;
-    return (size_t)(p - s);
-}
-
-/* k spaces, written in blocks rather than one at a time (a report may have
- * millions of cells). */
-static void spaces(obuf *out, int k)
-{
-    static const char blanks[] = "                                                                ";
-    while (k > 0) {
-        int c = k < (int)sizeof blanks - 1 ? k : (int)sizeof blanks - 1;
-        ob_write(out, blanks, (size_t)c);
-        k -= c;
-    }
-}
-
-/* s (len bytes, sw columns) padded with spaces to w columns, on the left or
- * the right */
-static void pad(obuf *out, const char *s, size_t len, int sw, int w, bool right)
-{
-    int k = w - sw;
-    if (right)
-        spaces(out, k);
-    ob_write(out, s, len);
-    if (!right)
-        spaces(out, k);
-}
-
-/* ---- a small table printer for aligned text columns ---------------------------- */
-
-/* The cells of all rows live in one growing text buffer, NUL-terminated and
- * back to back in row order, and the column widths are kept up to date as rows
- * arrive, so a table of a million rows costs no per-cell allocation and one
- * pass to print, which reads the cells in the order they were stored. */
-#define TABLE_MAXCOL 12   /* the widest table, the ports', has 11 columns */
-
-typedef struct table {
-    int ncol;
-    const char *head[TABLE_MAXCOL];
-    bool right[TABLE_MAXCOL];
-    char *text;           /* NUL-terminated cells, back to back */
-    size_t len, text_cap;
-    int rows;
-    int w[TABLE_MAXCOL];  /* widest cell of each column so far */
-    bool failed;          /* out of memory: rows after it are dropped (t_print tells the report) */
-    size_t failed_bytes;  /* what the failed allocation asked for */
-} table;
-
-/* Append one row of ncol cells (NULL counts as empty); copies the text. */
-static void t_row(table *t, const char *const *cells)
-{
-    if (t->failed)
-        return;
-    size_t n[TABLE_MAXCOL], total = 0;
-    int cw[TABLE_MAXCOL];
-    for (int i = 0; i < t->ncol; i++) {
-        n[i] = measure(cells[i] ? cells[i] : "", &cw[i]) + 1;
-        total += n[i];
-    }
-    if (t->len + total > t->text_cap) {
-        size_t cap = t->text_cap ? t->text_cap * 2 : 4096;
-        while (cap < t->len + total)
-            cap *= 2;
-        char *b = realloc(t->text, cap);
-        if (!b) {
-            t->failed = true;
-            t->failed_bytes = cap;
-            return;
-        }
-        t->text = b;
-        t->text_cap = cap;
-    }
-    for (int i = 0; i < t->ncol; i++) {
-        const char *c = cells[i] ? cells[i] : "";
-        memcpy(t->text + t->len, c, n[i]);
-        t->len += n[i];
-        t->w[i] = cw[i] > t->w[i] ? cw[i] : t->w[i];
-    }
-    t->rows++;
-}
-
-/* Print the heading and the rows aligned to rp->out, then empty the table.
- * A table that lost rows for want of memory marks the report (rp->nomem):
- * what is printed is not the whole table.  Returns 0, or -1 then. */
-static int t_print(table *t, ls_report *rp)
-{
-    FILE *f = rp->out;
-    bool lost = t->failed;
-    if (lost) {
-        rp->nomem = "a table of the text report";
-        rp->nomem_bytes = t->failed_bytes;
-    }
-    obuf ob, *out = &ob;
-    int w[TABLE_MAXCOL];
-    for (int c = 0; c < t->ncol; c++) {
-        w[c] = width(t->head[c]);
-        w[c] = t->w[c] > w[c] ? t->w[c] : w[c];
-    }
-    ob_init(out, f);
-    ob_puts(out, "  ");
-    for (int c = 0; c < t->ncol; c++) {
-        if (c + 1 == t->ncol && !t->right[c])
-            ob_puts(out, t->head[c]);
-        else
-            pad(out, t->head[c], strlen(t->head[c]), width(t->head[c]), w[c], t->right[c]);
-        ob_puts(out, c + 1 < t->ncol ? "  " : "\n");
-    }
-    const char *s = t->text;
-    for (int r = 0; r < t->rows; r++) {
-        ob_puts(out, "  ");
-        for (int c = 0; c < t->ncol; c++) {
-            int sw;
-            size_t len = measure(s, &sw);
-            if (c + 1 == t->ncol && !t->right[c])
-                ob_write(out, s, len);
-            else
-                pad(out, s, len, sw, w[c], t->right[c]);
-            ob_puts(out, c + 1 < t->ncol ? "  " : "\n");
-            s += len + 1;
-        }
-    }
-    ob_flush(out);
-    free(t->text);
-    t->text = NULL;
-    t->len = t->text_cap = 0;
-    t->rows = 0;
-    t->failed = false;
-    memset(t->w, 0, sizeof t->w);
-    return lost ? -1 : 0;
-}
-
 /* ---- checks ------------------------------------------------------------------------- */
 
 static const char *verdict_name(ls_verdict v)
@@ -426,7 +172,7 @@ static void checks_text(ls_report *rp, const ls_checks *c)
     if (!c->n)
         return;
     fprintf(o, "\nChecks (%d passed, %d failed)\n", c->passed, c->failed);
-    table t = {.ncol = 4, .head = {"result", "check", "value", "where"}};
+    ls_table t = {.ncol = 4, .head = {"result", "check", "value", "where"}};
     for (int i = 0; i < c->n; i++) {
         const ls_check_row *r = &c->rows[i];
         char val[64], where[600], text[600];
@@ -437,9 +183,9 @@ static void checks_text(ls_report *rp, const ls_checks *c)
         else
             snprintf(text, sizeof text, "%s", r->text);
         const char *cells[4] = {r->r.pass ? "pass" : "FAIL", text, val, where};
-        t_row(&t, cells);
+        ls_t_row(&t, cells);
     }
-    t_print(&t, rp);
+    ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
     for (int i = 0; i < c->n; i++)
         if (c->rows[i].r.reason)
             fprintf(o, "  note: %s: %s\n", c->rows[i].text, c->rows[i].r.reason);
@@ -552,7 +298,7 @@ static void adc_text(ls_report *rp, const ls_results *res)
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
-    table t = {.ncol = 8, .head = {"adc", "input", "code", "unloaded", "error", "source", "max source", "verdict"},
+    ls_table t = {.ncol = 8, .head = {"adc", "input", "code", "unloaded", "error", "source", "max source", "verdict"},
                .right = {false, true, true, true, true, true, true, false}};
     for (int k = 0; k < res->nadcs; k++) {
         const ls_adc_result r = res->adcs[k].r;
@@ -579,17 +325,17 @@ static void adc_text(ls_report *rp, const ls_results *res)
         if (!t.rows)
             fputs("\nADC inputs (error: the reading's shift from loading and leakage, judged against the feeding "
                   "port's budget, else half an LSB)\n", o);
-        t_row(&t, c);
+        ls_t_row(&t, c);
     }
     if (t.rows)
-        t_print(&t, rp);
+        ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
 }
 
 static void ntc_text(ls_report *rp, const ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
-    table t = {.ncol = 4, .head = {"thermistor", "resistance", "body", "self-heating"},
+    ls_table t = {.ncol = 4, .head = {"thermistor", "resistance", "body", "self-heating"},
                .right = {false, true, true, true}};
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
@@ -603,10 +349,10 @@ static void ntc_text(ls_report *rp, const ls_op *op)
                             b2, b3};
         if (!t.rows)
             fputs("\nThermistors\n", o);
-        t_row(&t, c);
+        ls_t_row(&t, c);
     }
     if (t.rows)
-        t_print(&t, rp);
+        ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
 }
 
 /* Extra JSON keys of the real parts' entries in "parts": an adc's reading,
@@ -826,7 +572,7 @@ static void ports_text(ls_report *rp, const ls_results *res)
     char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64], b7[64], bud[96], verdict[48];
     fprintf(o, "\nPorts (verdict: the sag against the port's budget where it has one, else zin/zout of at least %g)\n",
             ls_op_min_ratio(op));
-    table p = {.ncol = 11,
+    ls_table p = {.ncol = 11,
                .head = {"port", "driver -> load", "open", "loaded", "sag", "budget", "zout", "zin", "ratio", "current",
                         "verdict"},
                .right = {false, false, true, true, true, true, true, true, true, true, false}};
@@ -852,9 +598,9 @@ static void ports_text(ls_report *rp, const ls_results *res)
                              ls_eng(rp, b4, sizeof b4, pr->zout, OHM), ls_eng(rp, b5, sizeof b5, pr->zin, OHM),
                              ls_eng(rp, b6, sizeof b6, pr->ratio, ""), ls_eng(rp, b7, sizeof b7, pr->current, A),
                              verdict};
-        t_row(&p, c);
+        ls_t_row(&p, c);
     }
-    t_print(&p, rp);
+    ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
     if (held) {
         fputs("  note: the load side of", o);
         int k = 0;
@@ -949,16 +695,16 @@ static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *ch
     bool hazard = false;
     for (int i = 0; i < nl->nnodes; i++)
         hazard |= fabs(op->v[i]) > LS_TOUCH_SAFE_DC;
-    table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
+    ls_table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
         const char *c[3] = {nl->nodes[i].name,
                             bounds ? eng_bounded(rp, b1, sizeof b1, op->v[i], V, acc->node_bound[i], vscale, &dummy)
                                    : ls_eng(rp, b1, sizeof b1, op->v[i], V),
                             fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
-        t_row(&t, c);
+        ls_t_row(&t, c);
     }
-    t_print(&t, rp);
+    ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
 
     int nparts = 0, nports = 0, nops = 0;
     for (int i = 0; i < nl->nparts; i++) {
@@ -968,7 +714,7 @@ static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *ch
     }
     if (nparts) {
         fputs("\nParts\n", o);
-        table p = {.ncol = 5, .head = {"part", "kind", "current", "voltage", "power"},
+        ls_table p = {.ncol = 5, .head = {"part", "kind", "current", "voltage", "power"},
                    .right = {false, false, true, true, true}};
         for (int i = 0; i < nl->nparts; i++) {
             const ls_part *pt = &nl->parts[i];
@@ -980,9 +726,9 @@ static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *ch
                                                      &dummy)
                                        : ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
                                 ls_eng(rp, b2, sizeof b2, op->vpart[i], V), ls_eng(rp, b3, sizeof b3, op->ppart[i], W)};
-            t_row(&p, c);
+            ls_t_row(&p, c);
         }
-        t_print(&p, rp);
+        ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
     }
     if (nports)
         ports_text(rp, res);
@@ -992,7 +738,7 @@ static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *ch
         bool rails = false;
         for (int i = 0; i < nl->nparts; i++)
             rails |= isfinite(ls_opamp_dissipation(op, i));
-        table p = {.ncol = rails ? 5 : 4, .head = {"op-amp", "out", "current", "dissipation", "limit"},
+        ls_table p = {.ncol = rails ? 5 : 4, .head = {"op-amp", "out", "current", "dissipation", "limit"},
                    .right = {false, true, true, true, false}};
         if (!rails) {
             p.head[3] = "limit";
@@ -1010,9 +756,9 @@ static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *ch
                                 limit_text(rp, pt, lim, sizeof lim)};
             if (!rails)
                 c[3] = c[4];
-            t_row(&p, c);
+            ls_t_row(&p, c);
         }
-        t_print(&p, rp);
+        ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
     }
     adc_text(rp, res);
     ntc_text(rp, op);
@@ -1164,35 +910,35 @@ static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *ch
     ls_report_json_end(rp, w);
 }
 
-static void csv_head(obuf *o, const char *section, const char *name, const char *field)
+static void csv_head(ls_obuf *o, const char *section, const char *name, const char *field)
 {
-    ob_csv_field(o, section);
-    ob_putc(o, ',');
-    ob_csv_field(o, name);
-    ob_putc(o, ',');
-    ob_csv_field(o, field);
-    ob_putc(o, ',');
+    ls_ob_csv_field(o, section);
+    ls_ob_putc(o, ',');
+    ls_ob_csv_field(o, name);
+    ls_ob_putc(o, ',');
+    ls_ob_csv_field(o, field);
+    ls_ob_putc(o, ',');
 }
 
 /* One section,name,field,value row of a number (empty when not finite). */
-static void csv_row(obuf *o, const char *section, const char *name, const char *field, double v)
+static void csv_row(ls_obuf *o, const char *section, const char *name, const char *field, double v)
 {
     csv_head(o, section, name, field);
-    ob_csv_number(o, v);
-    ob_putc(o, '\n');
+    ls_ob_csv_number(o, v);
+    ls_ob_putc(o, '\n');
 }
 
 /* One row of a word (a verdict, a limit, a name); empty for NULL. */
-static void csv_word(obuf *o, const char *section, const char *name, const char *field, const char *word)
+static void csv_word(ls_obuf *o, const char *section, const char *name, const char *field, const char *word)
 {
     csv_head(o, section, name, field);
-    ob_csv_field(o, word ? word : "");
-    ob_putc(o, '\n');
+    ls_ob_csv_field(o, word ? word : "");
+    ls_ob_putc(o, '\n');
 }
 
 /* The check rows shared by solve's CSV: value and result (pass or fail, the
  * words of check's CSV). */
-static void checks_csv_rows(obuf *o, const ls_checks *checks)
+static void checks_csv_rows(ls_obuf *o, const ls_checks *checks)
 {
     for (int i = 0; i < checks->n; i++) {
         const ls_check_row *r = &checks->rows[i];
@@ -1206,10 +952,10 @@ static void checks_csv_rows(obuf *o, const ls_checks *checks)
 static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *checks)
 {
     const ls_op *op = res->op;
-    obuf ob, *o = &ob;
-    ob_init(o, rp->out);
+    ls_obuf ob, *o = &ob;
+    ls_ob_init(o, rp->out);
     const ls_netlist *nl = op->nl;
-    ob_puts(o, "section,name,field,value\n");
+    ls_ob_puts(o, "section,name,field,value\n");
     csv_row(o, "rule", "ratio", "min", ls_op_min_ratio(op));
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
@@ -1277,7 +1023,7 @@ static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *che
     checks_csv_rows(o, checks);
     csv_row(o, "checks", "all", "passed", checks->passed);
     csv_row(o, "checks", "all", "failed", checks->failed);
-    ob_flush(o);
+    ls_ob_flush(o);
     ls_report_warnings_csv(rp, rp->out);
 }
 
@@ -1328,7 +1074,7 @@ static void failed_warnings_text(ls_report *rp)
 }
 
 /* check, CSV: each warning that --fail-on fails on, as a row that did not pass. */
-static void failed_warnings_csv(ls_report *rp, obuf *ob)
+static void failed_warnings_csv(ls_report *rp, ls_obuf *ob)
 {
     const ls_diags *d = rp->diags;
     for (int i = 0; i < d->n; i++) {
@@ -1337,13 +1083,13 @@ static void failed_warnings_csv(ls_report *rp, obuf *ob)
             continue;
         char text[1200];
         snprintf(text, sizeof text, "warning %s: %s", g->code, g->msg);
-        ob_csv_field(ob, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
+        ls_ob_csv_field(ob, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
         if (g->loc.file >= 0)
-            ob_printf(ob, ",%d,,", loc_line(d, g->loc));
+            ls_ob_printf(ob, ",%d,,", loc_line(d, g->loc));
         else
-            ob_puts(ob, ",,,");
-        ob_csv_field(ob, text);
-        ob_puts(ob, ",,false\n");
+            ls_ob_puts(ob, ",,,");
+        ls_ob_csv_field(ob, text);
+        ls_ob_puts(ob, ",,false\n");
     }
 }
 
@@ -1363,22 +1109,22 @@ void ls_report_check(ls_report *rp, const ls_checks *checks)
         ls_report_warnings_json(rp, &w);
         ls_report_json_end(rp, &w);
     } else if (rp->fmt == FMT_CSV) {
-        obuf ob;
-        ob_init(&ob, o);
-        ob_puts(&ob, "file,line,instance,text,value,result\n");
+        ls_obuf ob;
+        ls_ob_init(&ob, o);
+        ls_ob_puts(&ob, "file,line,instance,text,value,result\n");
         for (int i = 0; i < checks->n; i++) {
             const ls_check_row *r = &checks->rows[i];
-            ob_csv_field(&ob, loc_file(rp->diags, r->loc));
-            ob_printf(&ob, ",%d,", loc_line(rp->diags, r->loc));
-            ob_csv_field(&ob, r->instance ? r->instance : "");
-            ob_putc(&ob, ',');
-            ob_csv_field(&ob, r->text);
-            ob_putc(&ob, ',');
-            ob_csv_number(&ob, r->r.value);
-            ob_puts(&ob, r->r.pass ? ",pass\n" : ",fail\n");
+            ls_ob_csv_field(&ob, loc_file(rp->diags, r->loc));
+            ls_ob_printf(&ob, ",%d,", loc_line(rp->diags, r->loc));
+            ls_ob_csv_field(&ob, r->instance ? r->instance : "");
+            ls_ob_putc(&ob, ',');
+            ls_ob_csv_field(&ob, r->text);
+            ls_ob_putc(&ob, ',');
+            ls_ob_csv_number(&ob, r->r.value);
+            ls_ob_puts(&ob, r->r.pass ? ",pass\n" : ",fail\n");
         }
         failed_warnings_csv(rp, &ob);
-        ob_flush(&ob);
+        ls_ob_flush(&ob);
     } else {
         if (!checks->n)
             fputs("no checks in this circuit (add 'expect' lines or a 'rule')\n", o);
@@ -1400,12 +1146,12 @@ void ls_report_check(ls_report *rp, const ls_checks *checks)
 int ls_text_table(ls_report *rp, int ncol, const char *const *head, const bool *right, const char *const *cells,
                   int nrows)
 {
-    table t = {.ncol = ncol < 10 ? ncol : 10};
+    ls_table t = {.ncol = ncol < 10 ? ncol : 10};
     for (int c = 0; c < t.ncol; c++) {
         t.head[c] = head[c];
         t.right[c] = right[c];
     }
     for (int r = 0; r < nrows; r++)
-        t_row(&t, cells + (size_t)r * (size_t)ncol);
-    return t_print(&t, rp);
+        ls_t_row(&t, cells + (size_t)r * (size_t)ncol);
+    return ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
 }
