@@ -58,6 +58,14 @@ int ls_results_compute(ls_results *r, ls_op *op, unsigned need);
 /* Free r's tables and empty it; safe on an emptied one. */
 void ls_results_free(ls_results *r);
 
+/* The numbers of a port's report, in the order every report lists them; each
+ * is a property of the language, so its one name is ls_prop_name's (the
+ * name an expect uses is the name the JSON, CSV and text reports print). */
+#define LS_PORT_NFIELDS 9
+extern const ls_prop ls_port_fields[LS_PORT_NFIELDS];
+/* The value of port field f (one of ls_port_fields) in pr; NaN for another. */
+double ls_port_value(const ls_port_result *pr, ls_prop f);
+
 /* The cached report of port p, which must have been computed (LS_NEED_PORTS,
  * ls_checks_run, ls_chain_ports or ls_op_port); NULL when p is not a port. */
 const ls_port_result *ls_port_read(const ls_op *op, int p);

@@ -2,6 +2,7 @@
 #include "report/report.h"
 #include "report/textbuf.h"
 
+#include <assert.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdlib.h>
@@ -50,7 +51,7 @@ int ls_report_json_end(ls_report *rp, ls_jw *w)
 
 void ls_report_budget_json(ls_jw *w, const ls_port_result *pr)
 {
-    ls_jw_num_why(w, "budget", pr->budget, isnan(pr->budget) ? LS_WHY_NONE : ls_jw_why_of(pr->budget));
+    ls_jw_num_why(w, ls_prop_name(PROP_BUDGET), pr->budget, isnan(pr->budget) ? LS_WHY_NONE : ls_jw_why_of(pr->budget));
     ls_jw_str(w, "by", pr->by_budget ? "budget" : "ratio");
 }
 
@@ -573,8 +574,9 @@ static void ports_text(ls_report *rp, const ls_results *res)
     fprintf(o, "\nPorts (verdict: the sag against the port's budget where it has one, else zin/zout of at least %g)\n",
             ls_op_min_ratio(op));
     ls_table p = {.ncol = 11,
-               .head = {"port", "driver -> load", "open", "loaded", "sag", "budget", "zout", "zin", "ratio", "current",
-                        "verdict"},
+               .head = {"port", "driver -> load", ls_prop_name(PROP_OPEN), ls_prop_name(PROP_LOADED),
+                        ls_prop_name(PROP_SAG), ls_prop_name(PROP_BUDGET), ls_prop_name(PROP_ZOUT),
+                        ls_prop_name(PROP_ZIN), ls_prop_name(PROP_RATIO), ls_prop_name(PROP_CURRENT), "verdict"},
                .right = {false, false, true, true, true, true, true, true, true, true, false}};
     int held = 0;
     for (int i = 0; i < nl->nparts; i++) {
@@ -857,14 +859,9 @@ static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *ch
         ls_jw_str(w, "from", nl->nodes[p->pin[0]].name);
         ls_jw_str(w, "to", nl->nodes[p->pin[1]].name);
         ls_jw_str(w, "mode", pr->current_mode ? "current" : "voltage");
-        ls_jw_num(w, "open", pr->open);
-        ls_jw_num(w, "loaded", pr->loaded);
-        ls_jw_num(w, "sag", pr->sag);
-        ls_jw_num(w, "sag_rel", pr->sag_rel);
-        ls_jw_num(w, "zout", pr->zout);
-        ls_jw_num(w, "zin", pr->zin);
-        ls_jw_num(w, "ratio", pr->ratio);
-        ls_jw_num(w, "current", pr->current);
+        assert(ls_port_fields[LS_PORT_NFIELDS - 1] == PROP_BUDGET);
+        for (int f = 0; f < LS_PORT_NFIELDS - 1; f++)   /* the budget last, with its source */
+            ls_jw_num(w, ls_prop_name(ls_port_fields[f]), ls_port_value(pr, ls_port_fields[f]));
         ls_report_budget_json(w, pr);
         if (pr->load_held)
             ls_jw_bool(w, "load_held", true);
@@ -966,14 +963,11 @@ static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *che
         prefetch_part_name(nl, i);
         if (p->kind->is_port) {
             const ls_port_result *pr = ls_port_read(op, i);
-            const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget"};
-            double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current,
-                          pr->budget};
             csv_word(o, "port", p->name, "from", nl->nodes[p->pin[0]].name);
             csv_word(o, "port", p->name, "to", nl->nodes[p->pin[1]].name);
             csv_word(o, "port", p->name, "mode", pr->current_mode ? "current" : "voltage");
-            for (int j = 0; j < 9; j++)
-                csv_row(o, "port", p->name, f[j], v[j]);
+            for (int f = 0; f < LS_PORT_NFIELDS; f++)
+                csv_row(o, "port", p->name, ls_prop_name(ls_port_fields[f]), ls_port_value(pr, ls_port_fields[f]));
             csv_word(o, "port", p->name, "by", pr->by_budget ? "budget" : "ratio");
             if (pr->load_held)
                 csv_word(o, "port", p->name, "load_held", "true");
