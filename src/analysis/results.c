@@ -123,22 +123,6 @@ void ls_results_free(ls_results *r)
 const ls_prop ls_port_fields[LS_PORT_NFIELDS] = {PROP_OPEN, PROP_LOADED, PROP_SAG,     PROP_SAG_REL, PROP_ZOUT,
                                                   PROP_ZIN,  PROP_RATIO,  PROP_CURRENT, PROP_BUDGET};
 
-double ls_port_value(const ls_port_result *pr, ls_prop f)
-{
-    switch (f) {
-    case PROP_OPEN: return pr->open;
-    case PROP_LOADED: return pr->loaded;
-    case PROP_SAG: return pr->sag;
-    case PROP_SAG_REL: return pr->sag_rel;
-    case PROP_ZOUT: return pr->zout;
-    case PROP_ZIN: return pr->zin;
-    case PROP_RATIO: return pr->ratio;
-    case PROP_CURRENT: return pr->current;
-    case PROP_BUDGET: return pr->budget;
-    default: return NAN;
-    }
-}
-
 const ls_port_result *ls_port_read(const ls_op *op, int p)
 {
     if (p < 0 || p >= op->nl->nparts || !op->nl->parts[p].kind->is_port)

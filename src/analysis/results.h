@@ -63,8 +63,7 @@ void ls_results_free(ls_results *r);
  * name an expect uses is the name the JSON, CSV and text reports print). */
 #define LS_PORT_NFIELDS 9
 extern const ls_prop ls_port_fields[LS_PORT_NFIELDS];
-/* The value of port field f (one of ls_port_fields) in pr; NaN for another. */
-double ls_port_value(const ls_port_result *pr, ls_prop f);
+/* (ls_port_value, analysis.h, reads one of them) */
 
 /* The cached report of port p, which must have been computed (LS_NEED_PORTS,
  * ls_checks_run, ls_chain_ports or ls_op_port); NULL when p is not a port. */

@@ -663,13 +663,13 @@ static void accuracy_text(ls_report *rp, const ls_op *op, int marked)
                 a->estimated ? " (by an estimated bound)" : "");
 }
 
-static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *checks)
+/* The title, the solver line, the iteration line and the accuracy line.
+ * Returns whether the report has error bounds. */
+static bool solve_head_text(ls_report *rp, const ls_results *res)
 {
     const ls_op *op = res->op;
     FILE *o = rp->out;
     const ls_netlist *nl = op->nl;
-    const char *V = "V", *A = "A", *W = "W";
-    char b1[64], b2[64], b3[64];
     fprintf(o, "%s\n", nl->title ? nl->title : "(untitled circuit)");
     if (op->method == LS_METHOD_ITERATIVE_AMG)
         fprintf(o, "solved: %d unknowns by %s (%s), %ld conjugate-gradient iterations to a true relative residual "
@@ -691,9 +691,19 @@ static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *ch
     for (int i = 0; bounds && i < nl->nparts; i++)
         marked += !nl->parts[i].kind->is_port && ls_acc_doubtful(op->ipart[i], acc->part_bound[i], rp->sig, iscale);
     accuracy_text(rp, op, marked);
-    int dummy = 0;
+    return bounds;
+}
 
-    fputs("\nNodes\n", o);
+/* The node voltages (~ where the bounds doubt the last digit), with the
+ * touch-safety caution column when some node is above it. */
+static void nodes_text(ls_report *rp, const ls_op *op, bool bounds)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_accuracy *acc = &op->acc;
+    double vscale = ls_acc_scale(op, 0);
+    char b1[64];
+    int dummy = 0;
+    fputs("\nNodes\n", rp->out);
     bool hazard = false;
     for (int i = 0; i < nl->nnodes; i++)
         hazard |= fabs(op->v[i]) > LS_TOUCH_SAFE_DC;
@@ -701,67 +711,90 @@ static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *ch
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
         const char *c[3] = {nl->nodes[i].name,
-                            bounds ? eng_bounded(rp, b1, sizeof b1, op->v[i], V, acc->node_bound[i], vscale, &dummy)
-                                   : ls_eng(rp, b1, sizeof b1, op->v[i], V),
+                            bounds ? eng_bounded(rp, b1, sizeof b1, op->v[i], "V", acc->node_bound[i], vscale, &dummy)
+                                   : ls_eng(rp, b1, sizeof b1, op->v[i], "V"),
                             fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
         ls_t_row(&t, c);
     }
     ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
+}
 
+/* The parts but the ports: current (~ where doubtful), voltage, power. */
+static void parts_text(ls_report *rp, const ls_op *op, bool bounds)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_accuracy *acc = &op->acc;
+    double iscale = ls_acc_scale(op, 1);
+    char b1[64], b2[64], b3[64];
+    int dummy = 0;
+    fputs("\nParts\n", rp->out);
+    ls_table p = {.ncol = 5, .head = {"part", "kind", "current", "voltage", "power"},
+                  .right = {false, false, true, true, true}};
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *pt = &nl->parts[i];
+        prefetch_part_name(nl, i);
+        if (pt->kind->is_port)
+            continue;
+        const char *c[5] = {pt->name, pt->kind->name,
+                            bounds ? eng_bounded(rp, b1, sizeof b1, op->ipart[i], "A", acc->part_bound[i], iscale,
+                                                 &dummy)
+                                   : ls_eng(rp, b1, sizeof b1, op->ipart[i], "A"),
+                            ls_eng(rp, b2, sizeof b2, op->vpart[i], "V"), ls_eng(rp, b3, sizeof b3, op->ppart[i], "W")};
+        ls_t_row(&p, c);
+    }
+    ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
+}
+
+/* The op-amps: output voltage and current, dissipation (where some op-amp
+ * has rails= to reckon it from) and the limit in force. */
+static void opamps_text(ls_report *rp, const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    char b1[64], b2[64], b3[64];
+    fputs("\nOp-amps\n", rp->out);
+    bool rails = false;
+    for (int i = 0; i < nl->nparts; i++)
+        rails |= isfinite(ls_opamp_dissipation(op, i));
+    ls_table p = {.ncol = rails ? 5 : 4, .head = {"op-amp", "out", "current", "dissipation", "limit"},
+                  .right = {false, true, true, true, false}};
+    if (!rails) {
+        p.head[3] = "limit";
+        p.right[3] = false;
+    }
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *pt = &nl->parts[i];
+        if (!pt->kind->is_opamp)
+            continue;
+        char lim[96];
+        double pd = ls_opamp_dissipation(op, i);
+        const char *c[5] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], "V"),
+                            ls_eng(rp, b2, sizeof b2, op->ipart[i], "A"),
+                            isfinite(pd) ? ls_eng(rp, b3, sizeof b3, pd, "W") : "-", limit_text(rp, pt, lim, sizeof lim)};
+        if (!rails)
+            c[3] = c[4];
+        ls_t_row(&p, c);
+    }
+    ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
+}
+
+static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *checks)
+{
+    const ls_op *op = res->op;
+    const ls_netlist *nl = op->nl;
+    bool bounds = solve_head_text(rp, res);
+    nodes_text(rp, op, bounds);
     int nparts = 0, nports = 0, nops = 0;
     for (int i = 0; i < nl->nparts; i++) {
         nports += nl->parts[i].kind->is_port;
         nops += nl->parts[i].kind->is_opamp;
         nparts += !nl->parts[i].kind->is_port;
     }
-    if (nparts) {
-        fputs("\nParts\n", o);
-        ls_table p = {.ncol = 5, .head = {"part", "kind", "current", "voltage", "power"},
-                   .right = {false, false, true, true, true}};
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *pt = &nl->parts[i];
-            prefetch_part_name(nl, i);
-            if (pt->kind->is_port)
-                continue;
-            const char *c[5] = {pt->name, pt->kind->name,
-                                bounds ? eng_bounded(rp, b1, sizeof b1, op->ipart[i], A, acc->part_bound[i], iscale,
-                                                     &dummy)
-                                       : ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
-                                ls_eng(rp, b2, sizeof b2, op->vpart[i], V), ls_eng(rp, b3, sizeof b3, op->ppart[i], W)};
-            ls_t_row(&p, c);
-        }
-        ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
-    }
+    if (nparts)
+        parts_text(rp, op, bounds);
     if (nports)
         ports_text(rp, res);
-    if (nops) {
-        fputs("\nOp-amps\n", o);
-        /* the dissipation column only where some op-amp has rails= to reckon it from */
-        bool rails = false;
-        for (int i = 0; i < nl->nparts; i++)
-            rails |= isfinite(ls_opamp_dissipation(op, i));
-        ls_table p = {.ncol = rails ? 5 : 4, .head = {"op-amp", "out", "current", "dissipation", "limit"},
-                   .right = {false, true, true, true, false}};
-        if (!rails) {
-            p.head[3] = "limit";
-            p.right[3] = false;
-        }
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *pt = &nl->parts[i];
-            if (!pt->kind->is_opamp)
-                continue;
-            char lim[96];
-            double pd = ls_opamp_dissipation(op, i);
-            const char *c[5] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], V),
-                                ls_eng(rp, b2, sizeof b2, op->ipart[i], A),
-                                isfinite(pd) ? ls_eng(rp, b3, sizeof b3, pd, W) : "-",
-                                limit_text(rp, pt, lim, sizeof lim)};
-            if (!rails)
-                c[3] = c[4];
-            ls_t_row(&p, c);
-        }
-        ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
-    }
+    if (nops)
+        opamps_text(rp, op);
     adc_text(rp, res);
     ntc_text(rp, op);
     checks_text(rp, checks);
@@ -797,13 +830,10 @@ static void accuracy_json(ls_jw *w, const ls_op *op)
     ls_jw_end(w);
 }
 
-static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *checks)
+/* The "solver" object, on one line: method, library, size, conditioning or
+ * the iteration's reach, residual, iterations and refinement. */
+static void solver_json(ls_jw *w, const ls_op *op)
 {
-    const ls_op *op = res->op;
-    ls_jw jw, *w = &jw;
-    const ls_netlist *nl = op->nl;
-    ls_report_json_begin(rp, w);
-    ls_jw_str(w, "title", nl->title);
     int wrap = w->wrap;
     w->wrap = 1; /* the solver on one line */
     ls_jw_obj(w, "solver");
@@ -824,31 +854,13 @@ static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *ch
     ls_jw_int(w, "refinement_steps", op->acc.steps);
     ls_jw_end(w);
     w->wrap = wrap;
-    bool bounds = error_bounds(rp, res);
-    ls_jw_obj(w, "nodes");
-    for (int i = 0; i < nl->nnodes; i++) {
-        prefetch_node_name(nl, i);
-        ls_jw_num(w, nl->nodes[i].name, op->v[i]);
-    }
-    ls_jw_end(w);
-    ls_jw_obj(w, "parts");
-    for (int i = 0; i < nl->nparts; i++) {
-        const ls_part *p = &nl->parts[i];
-        prefetch_part_name(nl, i);
-        if (p->kind->is_port)
-            continue;
-        ls_jw_obj(w, p->name);
-        ls_jw_str(w, "kind", p->kind->name);
-        ls_jw_num(w, "current", op->ipart[i]);
-        ls_jw_num(w, "voltage", op->vpart[i]);
-        ls_jw_num(w, "power", op->ppart[i]);
-        if (bounds && !isnan(op->acc.part_bound[i]))
-            ls_jw_num_why(w, "error_bound", op->acc.part_bound[i], LS_WHY_UNBOUNDED);
-        part_extra_json(w, res, i);
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-    ls_jw_num(w, "min_ratio", ls_op_min_ratio(op));
+}
+
+/* The "ports" object: every port's fields (ls_port_fields), budget, verdict,
+ * note and the numbers of its fix. */
+static void ports_json(ls_jw *w, const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
     ls_jw_obj(w, "ports");
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
@@ -880,6 +892,12 @@ static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *ch
         ls_jw_end(w);
     }
     ls_jw_end(w);
+}
+
+/* The "opamps" object: output, current, the limit in force, dissipation. */
+static void opamps_json(ls_jw *w, const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
     ls_jw_obj(w, "opamps");
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
@@ -897,6 +915,43 @@ static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *ch
         ls_jw_end(w);
     }
     ls_jw_end(w);
+}
+
+static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *checks)
+{
+    const ls_op *op = res->op;
+    ls_jw jw, *w = &jw;
+    const ls_netlist *nl = op->nl;
+    ls_report_json_begin(rp, w);
+    ls_jw_str(w, "title", nl->title);
+    solver_json(w, op);
+    bool bounds = error_bounds(rp, res);
+    ls_jw_obj(w, "nodes");
+    for (int i = 0; i < nl->nnodes; i++) {
+        prefetch_node_name(nl, i);
+        ls_jw_num(w, nl->nodes[i].name, op->v[i]);
+    }
+    ls_jw_end(w);
+    ls_jw_obj(w, "parts");
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        prefetch_part_name(nl, i);
+        if (p->kind->is_port)
+            continue;
+        ls_jw_obj(w, p->name);
+        ls_jw_str(w, "kind", p->kind->name);
+        ls_jw_num(w, "current", op->ipart[i]);
+        ls_jw_num(w, "voltage", op->vpart[i]);
+        ls_jw_num(w, "power", op->ppart[i]);
+        if (bounds && !isnan(op->acc.part_bound[i]))
+            ls_jw_num_why(w, "error_bound", op->acc.part_bound[i], LS_WHY_UNBOUNDED);
+        part_extra_json(w, res, i);
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+    ls_jw_num(w, "min_ratio", ls_op_min_ratio(op));
+    ports_json(w, op);
+    opamps_json(w, op);
     adcs_json(w, res);
     checks_json(rp, w, checks);
     ls_jw_int(w, "passed", checks->passed);
@@ -946,6 +1001,34 @@ static void checks_csv_rows(ls_obuf *o, const ls_checks *checks)
     }
 }
 
+/* The rows of port i: its nodes and mode, its fields (ls_port_fields), how
+ * it was judged, the verdict, a note and the numbers of its fix. */
+static void port_csv(ls_obuf *o, const ls_op *op, int i)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    const ls_port_result *pr = ls_port_read(op, i);
+    csv_word(o, "port", p->name, "from", nl->nodes[p->pin[0]].name);
+    csv_word(o, "port", p->name, "to", nl->nodes[p->pin[1]].name);
+    csv_word(o, "port", p->name, "mode", pr->current_mode ? "current" : "voltage");
+    for (int f = 0; f < LS_PORT_NFIELDS; f++)
+        csv_row(o, "port", p->name, ls_prop_name(ls_port_fields[f]), ls_port_value(pr, ls_port_fields[f]));
+    csv_word(o, "port", p->name, "by", pr->by_budget ? "budget" : "ratio");
+    if (pr->load_held)
+        csv_word(o, "port", p->name, "load_held", "true");
+    csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
+    if (pr->note)
+        csv_word(o, "port", p->name, "note", pr->note);
+    const char *ff[3];
+    double fv[3];
+    int nf = fix_limits(op, pr, ff, fv);
+    for (int j = 0; j < nf; j++) {
+        char fld[32];
+        snprintf(fld, sizeof fld, "fix.%s", ff[j]);
+        csv_row(o, "port", p->name, fld, fv[j]);
+    }
+}
+
 static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *checks)
 {
     const ls_op *op = res->op;
@@ -962,26 +1045,7 @@ static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *che
         const ls_part *p = &nl->parts[i];
         prefetch_part_name(nl, i);
         if (p->kind->is_port) {
-            const ls_port_result *pr = ls_port_read(op, i);
-            csv_word(o, "port", p->name, "from", nl->nodes[p->pin[0]].name);
-            csv_word(o, "port", p->name, "to", nl->nodes[p->pin[1]].name);
-            csv_word(o, "port", p->name, "mode", pr->current_mode ? "current" : "voltage");
-            for (int f = 0; f < LS_PORT_NFIELDS; f++)
-                csv_row(o, "port", p->name, ls_prop_name(ls_port_fields[f]), ls_port_value(pr, ls_port_fields[f]));
-            csv_word(o, "port", p->name, "by", pr->by_budget ? "budget" : "ratio");
-            if (pr->load_held)
-                csv_word(o, "port", p->name, "load_held", "true");
-            csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
-            if (pr->note)
-                csv_word(o, "port", p->name, "note", pr->note);
-            const char *ff[3];
-            double fv[3];
-            int nf = fix_limits(op, pr, ff, fv);
-            for (int j = 0; j < nf; j++) {
-                char fld[32];
-                snprintf(fld, sizeof fld, "fix.%s", ff[j]);
-                csv_row(o, "port", p->name, fld, fv[j]);
-            }
+            port_csv(o, op, i);
             continue;
         }
         csv_word(o, "part", p->name, "kind", p->kind->name);
