@@ -18,16 +18,99 @@ void ls_wr_begin(ls_wr *w, ls_report *rp)
 int ls_wr_finish(ls_wr *w)
 {
     free(w->rbuf);
-    w->rbuf = NULL;
+    free(w->join);
+    w->rbuf = w->join = NULL;
+    if (w->ob) {
+        ls_ob_flush(w->ob);
+        free(w->ob);
+        w->ob = NULL;
+    }
     if (w->rp->fmt == FMT_JSON)
         return ls_report_json_end(w->rp, &w->jw);
     return w->rp->nomem ? -1 : 0;
 }
 
-/* Is the report JSON?  The members are written only there. */
+/* Is the report JSON?  The members are written there (and as CSV field rows
+ * where asked). */
 static bool json(const ls_wr *w)
 {
     return w->rp->fmt == FMT_JSON;
+}
+
+/* Does a member go to a CSV field row now? */
+static bool csv_row_on(const ls_wr *w)
+{
+    return w->rp->fmt == FMT_CSV && w->fields && w->rows_on && w->ob;
+}
+
+/* Say that memory ran out for a CSV row (what, bytes asked). */
+static void csv_lost(ls_wr *w, const char *what, size_t bytes)
+{
+    w->rp->nomem = what;
+    w->rp->nomem_bytes = bytes;
+}
+
+/* Add item s to the array being joined; false when memory ran out. */
+static bool join_item(ls_wr *w, const char *s)
+{
+    size_t n = strlen(s) + 2;
+    if (w->jlen + n > w->jcap) {
+        size_t cap = w->jcap ? w->jcap * 2 : 256;
+        while (cap < w->jlen + n)
+            cap *= 2;
+        char *b = realloc(w->join, cap);
+        if (!b) {
+            csv_lost(w, "a list of the CSV report", cap);
+            return false;
+        }
+        w->join = b;
+        w->jcap = cap;
+    }
+    if (w->jlen)
+        w->join[w->jlen++] = ' ';
+    memcpy(w->join + w->jlen, s, n - 1);
+    w->jlen += n - 2;
+    w->join[w->jlen] = 0;
+    return true;
+}
+
+/* One FIELD,VALUE row of text v (already CSV: a number or a word), or of a
+ * string to quote when quote; inside a joined array, one more item. */
+static void csv_member(ls_wr *w, const char *key, const char *v, bool quote)
+{
+    if (w->arr_key) {
+        join_item(w, v);
+        return;
+    }
+    ls_ob_csv_field(w->ob, key);
+    ls_ob_putc(w->ob, ',');
+    if (quote)
+        ls_ob_csv_field(w->ob, v);
+    else
+        ls_ob_puts(w->ob, v);
+    ls_ob_putc(w->ob, '\n');
+}
+
+void ls_wr_fields(ls_wr *w, const char *field, const char *value)
+{
+    if (w->rp->fmt != FMT_CSV)
+        return;
+    w->fields = w->rows_on = true;
+    w->ob = malloc(sizeof *w->ob);
+    if (!w->ob) {
+        csv_lost(w, "the CSV report", sizeof *w->ob);
+        return;
+    }
+    ls_ob_init(w->ob, w->rp->out);
+    ls_ob_csv_field(w->ob, field);
+    ls_ob_putc(w->ob, ',');
+    ls_ob_csv_field(w->ob, value);
+    ls_ob_putc(w->ob, '\n');
+}
+
+void ls_wr_csv_rows(ls_wr *w, bool on)
+{
+    w->rows_on = on;
 }
 
 void ls_wr_obj(ls_wr *w, const char *key)
@@ -40,36 +123,56 @@ void ls_wr_arr(ls_wr *w, const char *key)
 {
     if (json(w))
         ls_jw_arr(&w->jw, key);
+    else if (csv_row_on(w) && key) {
+        w->arr_key = key;
+        w->jlen = 0;
+    }
 }
 
 void ls_wr_end(ls_wr *w)
 {
-    if (json(w))
+    if (json(w)) {
         ls_jw_end(&w->jw);
+    } else if (csv_row_on(w) && w->arr_key) {
+        const char *key = w->arr_key;
+        w->arr_key = NULL;
+        csv_member(w, key, w->jlen ? w->join : "", true);
+    }
 }
 
 void ls_wr_num(ls_wr *w, const char *key, double v)
 {
     if (json(w))
         ls_jw_num(&w->jw, key, v);
+    else if (csv_row_on(w))
+        csv_member(w, key, LS_CSV(v), false);
 }
 
 void ls_wr_int(ls_wr *w, const char *key, long long v)
 {
-    if (json(w))
+    char b[32];
+    if (json(w)) {
         ls_jw_int(&w->jw, key, v);
+    } else if (csv_row_on(w)) {
+        snprintf(b, sizeof b, "%lld", v);
+        csv_member(w, key, b, false);
+    }
 }
 
 void ls_wr_bool(ls_wr *w, const char *key, bool v)
 {
     if (json(w))
         ls_jw_bool(&w->jw, key, v);
+    else if (csv_row_on(w))
+        csv_member(w, key, v ? "true" : "false", false);
 }
 
 void ls_wr_str(ls_wr *w, const char *key, const char *s)
 {
     if (json(w))
         ls_jw_str(&w->jw, key, s);
+    else if (csv_row_on(w))
+        csv_member(w, key, s ? s : "", true);
 }
 
 void ls_wr_null(ls_wr *w, const char *key, const char *why)
@@ -104,13 +207,14 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
     switch (w->rp->fmt) {
     case FMT_JSON: ls_jw_arr(&w->jw, key); break;
     case FMT_CSV:
-        w->ob = malloc(sizeof *w->ob);
-        if (!w->ob) {
-            w->rp->nomem = "the CSV table";
-            w->rp->nomem_bytes = sizeof *w->ob;
-            return;
+        if (!w->ob) {   /* (a report of field rows has its block already) */
+            w->ob = malloc(sizeof *w->ob);
+            if (!w->ob) {
+                csv_lost(w, "the CSV table", sizeof *w->ob);
+                return;
+            }
+            ls_ob_init(w->ob, w->rp->out);
         }
-        ls_ob_init(w->ob, w->rp->out);
         for (int c = 0; c < w->ncol; c++) {
             if (!cols[c].csv)
                 continue;
@@ -270,8 +374,10 @@ int ls_wr_table_end(ls_wr *w)
     case FMT_CSV:
         if (w->ob) {
             ls_ob_flush(w->ob);
-            free(w->ob);
-            w->ob = NULL;
+            if (!w->fields) {
+                free(w->ob);
+                w->ob = NULL;
+            }
         } else {
             rc = -1;
         }

@@ -8,6 +8,10 @@
  *             its why, jsonw.h).  The text and CSV reports do not show them:
  *             the text says what matters in its own lines (ls_wr_say), and a
  *             CSV report is its table.
+ *             A report whose CSV is one row per field (FIELD,VALUE) says so
+ *             with ls_wr_fields; then the members written while
+ *             ls_wr_csv_rows is on are rows too (an array of strings one row,
+ *             its items joined by spaces).
  *   prose     ls_wr_say: a line of the text report only.
  *   a table   ls_wr_table, then per row ls_wr_cell_* and ls_wr_row, then
  *             ls_wr_table_end: in JSON an array of objects (one member per
@@ -57,6 +61,11 @@ typedef struct ls_wr {
     char *rbuf;              /* the row's text cells, back to back (malloc'd) */
     size_t rlen, rcap, off[LS_WR_MAXCOL];
     bool lost;               /* out of memory in a cell: the text row is not whole */
+    /* CSV of field rows (ls_wr_fields) */
+    bool fields, rows_on;    /* field rows asked for; members are rows now */
+    const char *arr_key;     /* the array being joined into one row, or NULL */
+    char *join;              /* its items, space-separated (malloc'd) */
+    size_t jlen, jcap;
 } ls_wr;
 
 /* Start the report of rp (JSON: the top object and its "meta"). */
@@ -74,6 +83,13 @@ void ls_wr_int(ls_wr *w, const char *key, long long v);
 void ls_wr_bool(ls_wr *w, const char *key, bool v);
 void ls_wr_str(ls_wr *w, const char *key, const char *s);
 void ls_wr_null(ls_wr *w, const char *key, const char *why);
+
+/* The CSV report is one row per field under the heading "FIELD,VALUE"
+ * (names given); members become rows while ls_wr_csv_rows is on (it is, from
+ * here). */
+void ls_wr_fields(ls_wr *w, const char *field, const char *value);
+/* Whether the members written from now on are CSV rows too. */
+void ls_wr_csv_rows(ls_wr *w, bool on);
 
 /* A line of the text report (printf format; the newline is the caller's). */
 void ls_wr_say(ls_wr *w, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
