@@ -362,7 +362,8 @@ static void chop_noise(ls_op *op)
         }
 }
 
-/* Extra-precise refinement for a linear circuit (accuracy.c).  A circuit
+/* Extra-precise refinement for a linear circuit (accuracy.c), except in a
+ * study's trial (ls_options.trial): x is then the double solve's.  A circuit
  * with diodes, thermistors or limited op-amps keeps its last Newton solve: its
  * stamps describe the next linearization, not the system just solved, and
  * the bounds say what that leaves.  Bounds are recomputed on demand.  0, or
@@ -371,7 +372,7 @@ static int polish(ls_op *op)
 {
     op->acc.have_bounds = false;
     op->acc.refined = false;
-    if (ls_newton_needed(op->nl))
+    if (op->opt.trial || ls_newton_needed(op->nl))
         return 0;
     return ls_acc_refine(op);
 }

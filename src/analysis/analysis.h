@@ -21,6 +21,10 @@ typedef struct ls_options {
     bool keep_states;       /* start from the parts' present linearization points and limits */
     bool linear_only;       /* one linear solve at those points (no iteration) */
     bool no_bounds;         /* inner solves (variants): no error bounds and no untrusted-digits warning */
+    bool trial;             /* a study's trial (tol's Monte Carlo): the solution to the double solve's own
+                               accuracy (refined in double), no extra-precise refinement: a trial's value
+                               feeds statistics whose spread is far above it, and its digits are never
+                               printed one by one (docs/accuracy.md) */
     /* When set, told as each long phase of ls_op_solve starts ("assembling",
      * "factoring", ...): the program's progress line on large solves. */
     void (*phase)(void *ctx, const char *what);

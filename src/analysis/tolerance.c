@@ -132,6 +132,12 @@ static void *mc_run(void *arg)
 {
     mc_worker *w = arg;
     mc_job *job = w->job;
+    /* Trials need their value to the statistics' accuracy, not per-trial
+     * bounds: no extra-precise refinement and no error bounds (the
+     * session's nominal solve keeps both). */
+    ls_options opt = job->opt;
+    opt.trial = true;
+    opt.no_bounds = true;
     ls_arena arena;
     ls_diags diags;
     ls_arena_init(&arena);
@@ -155,7 +161,7 @@ static void *mc_run(void *arg)
     }
     if (nruns >= 0 && nominal_runs) {
         have_op = true;
-        if (ls_op_solve(&op, &nl, &job->opt) == LS_EXIT_OK) {
+        if (ls_op_solve(&op, &nl, &opt) == LS_EXIT_OK) {
             /* Every trial starts from the nominal solution and part states, so a
              * trial's result does not depend on the trial solved before it. */
             memcpy(nominal, nl.parts, psize);
