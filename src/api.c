@@ -4,6 +4,7 @@
  * into the public structs here, and internal exit codes become ls_status. */
 #include "loadstack/loadstack.h"
 
+#include <assert.h>
 #include <errno.h>
 #include <math.h>
 #include <stdlib.h>
@@ -328,6 +329,7 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
     if (!out)
         return LS_E_ARGUMENT;
     static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
+    assert((int)c->op.method >= 0 && (size_t)c->op.method < sizeof method / sizeof method[0]);
     out->method = method[c->op.method];
     out->unknowns = c->op.mna.n;
     out->rcond = c->op.rcond;

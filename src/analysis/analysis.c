@@ -7,6 +7,7 @@
 #include "analysis/newton.h"
 #include "solve/selinv.h"
 
+#include <assert.h>
 #include <float.h>
 #include <math.h>
 #include <stdlib.h>
@@ -699,6 +700,7 @@ double ls_q_eval(ls_op *op, const ls_q *q)
         return ls_apply_func(q->op, v, q->nargs);
     }
     }
+    assert(!"a bound quantity of no known kind");
     return NAN;
 }
 

@@ -6,6 +6,7 @@
  * stage (NLopt); the neighbourhood and the descent; the finalists' yields. */
 #include "analysis/fit.h"
 
+#include <assert.h>
 #include <math.h>
 #include <nlopt.h>
 #include <stdlib.h>
@@ -1043,6 +1044,7 @@ const char *ls_fit_check_text(const ls_fit_study *f, const ls_fit_check *c, char
 const char *ls_fit_goal_name(ls_fit_goal g)
 {
     static const char *const names[] = {"margin", "yield", "current"};
+    assert((int)g >= 0 && (size_t)g < sizeof names / sizeof names[0]);
     return names[g];
 }
 

@@ -14,6 +14,7 @@
  * matrix does not change, so its symbolic analysis is done once. */
 #include "analysis/newton.h"
 
+#include <assert.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -598,6 +599,7 @@ static void opamp_warnings(ls_op *op, int i)
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[i];
     char a[48], b[48];
+    assert(p->run && p->run->state >= LS_LIM_NONE && p->run->state <= LS_LIM_CURRENT_SINK);
     switch (p->run->state) {
     case LS_LIM_RAIL_HIGH:
     case LS_LIM_RAIL_LOW:

@@ -11,6 +11,7 @@
  * a copy of the parts and its own operating point. */
 #include "analysis/tolerance.h"
 
+#include <assert.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdatomic.h>
@@ -47,6 +48,7 @@ bool ls_q_same(const ls_q *a, const ls_q *b)
                 return false;
         return true;
     }
+    assert(!"a bound quantity of no known kind");
     return false;
 }
 

@@ -2,6 +2,7 @@
 #include "mna/mna.h"
 #include "base/unionfind.h"
 
+#include <assert.h>
 #include <float.h>
 #include <limits.h>
 #include <math.h>
@@ -263,9 +264,9 @@ int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *o
         return -1;
     int k = m->nn;
     for (int i = 0; i < nl->nparts; i++) {
-        ls_part *p = &nl->parts[i];
+        const ls_part *p = &nl->parts[i];
         int c = p->kind->branches(p);
-        p->branch = c ? k : -1;
+        assert(p->branch == (c ? k : -1)); /* numbered once by the elaborator */
         for (int j = 0; j < c; j++)
             m->branch_part[k - m->nn + j] = i;
         k += c;

@@ -4,6 +4,7 @@
 #include "netlist/elab.h"
 #include "base/unionfind.h"
 
+#include <assert.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -130,6 +131,8 @@ static const char *qualify(elab *x, const scope *s, const char *name)
 static const char *ent_what(ls_ent_kind k)
 {
     static const char *const w[] = {"node", "pin", "part", "instance", "parameter", "block"};
+    _Static_assert(sizeof w / sizeof w[0] == ENT_BLOCK + 1, "one word per ls_ent_kind");
+    assert(k >= ENT_NODE && k <= ENT_BLOCK);
     return w[k];
 }
 
@@ -378,6 +381,7 @@ static bool call_dims(elab *x, const ls_expr *e, const ls_dims *ad, ls_dims *out
 static bool arity_ok(elab *x, const ls_expr *e)
 {
     static const char *const names[F_COUNT] = {"sqrt", "abs", "min", "max", "exp", "ln", "log10"};
+    assert(e->op >= 0 && e->op < F_COUNT);
     bool many = e->op == F_MIN || e->op == F_MAX;
     if ((many && e->nargs < 1) || (!many && e->nargs != 1)) {
         ls_error(x->d, e->loc, "'%s' takes %s", names[e->op], many ? "one or more arguments" : "one argument");
@@ -529,6 +533,7 @@ const char *ls_prop_name(ls_prop p)
                                               "sag", "sag_rel", "zout", "zin", "ratio", "budget",
                                               "value", "code", "error_lsb", "unloaded", "source",
                                               "resistance", "temperature"};
+    assert(p >= 0 && p < PROP_COUNT);
     return n[p];
 }
 
@@ -1879,6 +1884,21 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
     return ok;
 }
 
+/* Number the branch unknowns once, here, for every solve of the netlist: a
+ * part's first is nnodes - 1 plus the branches of the parts before it, -1
+ * for a part without one.  The MNA builder reads them and never writes (one
+ * netlist may back several solves at once). */
+static void number_branches(ls_netlist *nl)
+{
+    int k = nl->nnodes - 1;
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_part *p = &nl->parts[i];
+        int c = p->kind->branches(p);
+        p->branch = c ? k : -1;
+        k += c;
+    }
+}
+
 int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl)
 {
     elab x;
@@ -1908,6 +1928,7 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
     resolve_refs(&x);
     check_budgets(&x);
     final_checks(&x);
+    number_branches(nl);
     /* names and syntax live in the arena: a failed allocation there may have
      * left a name or a value out */
     if (d->arena->failed)

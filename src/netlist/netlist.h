@@ -72,7 +72,7 @@ typedef struct ls_part {
     int pin[LS_MAX_PINS];  /* node indices; -1 when not given */
     uint32_t has_opt;      /* bit i: option i was given */
     int ref;               /* via= part index, -1 */
-    int branch;            /* first MNA branch unknown, -1 if none (set by the MNA builder) */
+    int branch;            /* first MNA branch unknown, -1 if none (numbered once by the elaborator) */
     bool has_value;
 } ls_part;
 _Static_assert(LS_MAX_OPTS <= 32, "ls_part.has_opt holds one bit per option");

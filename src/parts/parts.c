@@ -5,6 +5,7 @@
  * from FROM to TO (for an op-amp: out of the output into `out`). */
 #include "parts/parts.h"
 
+#include <assert.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -16,6 +17,7 @@ void ls_sink_a(ls_sink *s, int row, int col, double v)
     if (row < 0 || col < 0 || v == 0)
         return;
     v *= s->scale;
+    assert(s->mode == SINK_ASSEMBLE || s->mode == SINK_ADJOINT || s->mode == SINK_RESIDUAL);
     if (s->mode == SINK_ADJOINT) {
         s->acc -= s->lambda[row] * v * s->x[col];
         return;
@@ -116,6 +118,7 @@ void ls_stamp_conductance(ls_sink *s, int a, int b, double g) { conductance(s, a
 /* Scale of a source's value while the sources are ramped up. */
 static double src_scale(const ls_part *p)
 {
+    assert(p->run); /* a source keeps a state (has_run) */
     return 1 - p->run->src_cut;
 }
 
@@ -400,6 +403,7 @@ bool ls_opamp_limited(const ls_part *p)
 
 const char *ls_opamp_limit_word(const ls_part *p)
 {
+    assert(p->run && p->run->state >= LS_LIM_NONE && p->run->state <= LS_LIM_CURRENT_SINK);
     switch (p->run->state) {
     case LS_LIM_RAIL_HIGH: return "rail-high";
     case LS_LIM_RAIL_LOW: return "rail-low";
@@ -484,6 +488,7 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (rin > 0)
         conductance(c->sink, pl, mi, 1 / rin);
     opamp_supply(p, c);
+    assert(p->run && p->run->state >= LS_LIM_NONE && p->run->state <= LS_LIM_CURRENT_SINK);
     switch (p->run->state) {
     case LS_LIM_RAIL_HIGH:
         clamp_row(c->sink, out, k, &p->range[OA_RAILS][1], -hr);
@@ -550,6 +555,7 @@ int ls_opamp_next(const ls_part *p, const double *x, const double *v, int *side)
             return d > ev ? LS_LIM_RAIL_HIGH : LS_LIM_RAIL_LOW;
         return p->run->state;
     }
+    assert(p->run && p->run->state >= LS_LIM_NONE && p->run->state <= LS_LIM_CURRENT_SINK);
     switch (p->run->state) {
     case LS_LIM_RAIL_HIGH:
         if (d < -ev)
@@ -1185,7 +1191,11 @@ static const char *const keywords[] = {"title", "let", "ground", "include", "blo
                                        "use", "expect", "rule", "end"};
 
 int ls_kind_count(void) { return (int)(sizeof kinds / sizeof kinds[0]); }
-const ls_kind *ls_kind_at(int i) { return &kinds[i]; }
+const ls_kind *ls_kind_at(int i)
+{
+    assert(i >= 0 && i < ls_kind_count());
+    return &kinds[i];
+}
 
 const ls_kind *ls_kind_findn(const char *name, size_t n)
 {

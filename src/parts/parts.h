@@ -6,6 +6,8 @@
 
 #include "netlist/netlist.h"
 
+#include <assert.h>
+
 /* OPT_FREE: free=LO..HI, a range of the part's main value (kept in nl->frees). */
 typedef enum ls_optkind { OPT_VALUE, OPT_NODE, OPT_PART, OPT_WORD, OPT_RANGE, OPT_FREE } ls_optkind;
 
@@ -176,7 +178,11 @@ static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx
 static inline bool ls_removal_keeps_edges(const ls_part *p) { return p->kind->removal == LS_REMOVE_SHORT; }
 
 /* Option value helpers. */
-static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && (p->has_opt >> opt & 1u); }
+static inline bool ls_part_has(const ls_part *p, int opt)
+{
+    assert(opt < LS_MAX_OPTS); /* an option index from ls_kind_opt: -1 (none) or a slot */
+    return opt >= 0 && (p->has_opt >> opt & 1u);
+}
 double ls_part_opt(const ls_part *p, const char *name, double dflt);
 
 /* Part current as a linear form (recursing through via=); depth guards cycles. */

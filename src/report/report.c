@@ -1,6 +1,7 @@
 /* report.c — the operating-point and check reports in text, JSON and CSV. */
 #include "report/report.h"
 
+#include <assert.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdlib.h>
@@ -376,6 +377,8 @@ static int t_print(table *t, ls_report *rp)
 static const char *verdict_name(ls_verdict v)
 {
     static const char *const n[] = {"ok", "marginal", "loading"};
+    _Static_assert(sizeof n / sizeof n[0] == VERDICT_LOADING + 1, "one word per ls_verdict");
+    assert(v >= VERDICT_OK && v <= VERDICT_LOADING);
     return n[v];
 }
 
@@ -627,6 +630,7 @@ static bool is_kind(const ls_part *p, const char *k)
 static const char *limit_text(ls_report *rp, const ls_part *p, char *buf, size_t n)
 {
     char a[64];
+    assert(p->run && p->run->state >= LS_LIM_NONE && p->run->state <= LS_LIM_CURRENT_SINK);
     switch (p->run->state) {
     case LS_LIM_RAIL_HIGH: snprintf(buf, n, "rail-high (upper rail - %s)",
                                     ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
@@ -761,6 +765,7 @@ static void adcs_json(ls_jw *w, ls_op *op)
 static const char *method_name(ls_method m)
 {
     static const char *const n[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
+    assert((int)m >= 0 && (size_t)m < sizeof n / sizeof n[0]);
     return n[m];
 }
 
