@@ -1130,13 +1130,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     if (!p.name)
         return;
     p.instance = s->prefix[0] ? s->prefix : NULL;
-    if (k->has_run) {
-        p.run = ls_arena_alloc(x->a, sizeof *p.run);
-        if (!p.run) {
-            out_of_memory(x);
-            return;
-        }
-    }
+    p.slot = -1;
     int errs = x->d->errors;
 
     if (k->shape == SHAPE_TWO && !st->arrow) {
@@ -1886,16 +1880,19 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
 
 /* Number the branch unknowns once, here, for every solve of the netlist: a
  * part's first is nnodes - 1 plus the branches of the parts before it, -1
- * for a part without one.  The MNA builder reads them and never writes (one
- * netlist may back several solves at once). */
+ * for a part without one; and the analysis states' slots in a run (run.h).
+ * The MNA builder reads them and never writes (one netlist may back several
+ * solves at once). */
 static void number_branches(ls_netlist *nl)
 {
     int k = nl->nnodes - 1;
+    nl->nstates = 0;
     for (int i = 0; i < nl->nparts; i++) {
         ls_part *p = &nl->parts[i];
         int c = p->kind->branches(p);
         p->branch = c ? k : -1;
         k += c;
+        p->slot = p->kind->has_run ? nl->nstates++ : -1;
     }
 }
 
