@@ -4,6 +4,7 @@
  * into the public structs here, and internal exit codes become ls_status. */
 #include "loadstack/loadstack.h"
 
+#include <assert.h>
 #include <errno.h>
 #include <math.h>
 #include <stdlib.h>
@@ -328,6 +329,7 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
     if (!out)
         return LS_E_ARGUMENT;
     static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
+    assert((int)c->op.method >= 0 && (size_t)c->op.method < sizeof method / sizeof method[0]);
     out->method = method[c->op.method];
     out->unknowns = c->op.mna.n;
     out->rcond = c->op.rcond;
@@ -401,13 +403,13 @@ ls_status ls_circuit_part(ls_circuit *c, int i, ls_part_info *out)
     const ls_part *p = &c->nl.parts[i];
     out->name = p->name;
     out->kind = p->kind->name;
-    out->value = p->has_value ? p->value : NAN;
+    out->value = p->has_value ? ls_run_value(&c->op.run, p) : NAN;
     out->current = out->voltage = out->power = NAN;
     out->limited = NULL;
     if (!c->solved)
         return LS_E_NOT_SOLVED;
     if (p->kind->is_opamp)
-        out->limited = ls_opamp_limit_word(p);
+        out->limited = ls_opamp_limit_word(p, &c->op.run);
     out->current = c->op.ipart[i];
     out->voltage = c->op.vpart[i];
     out->power = c->op.ppart[i];
@@ -831,12 +833,13 @@ ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value)
     int i = ls_netlist_find_part(&c->nl, part);
     if (i < 0)
         return LS_E_NOT_FOUND;
-    ls_part *p = &c->nl.parts[i];
+    const ls_part *p = &c->nl.parts[i];
     unsigned f = main_flags(p);
     if (!p->has_value || p->kind->is_port || !isfinite(value) || ((f & OPTF_POSITIVE) && !(value > 0)) ||
         ((f & OPTF_NONNEG) && !(value >= 0)) || ((f & OPTF_FRACTION) && !(value >= 0 && value <= 1)))
         return LS_E_ARGUMENT;
-    p->value = value;
+    if (ls_run_set_value(&c->op.run, i, value) != 0) /* the netlist keeps its value: the solve's run changes */
+        return LS_E_NOMEM;
     int w0 = c->diags.warnings;
     c->solved = false;
     if (ls_op_resolve(&c->op) != LS_EXIT_OK)

@@ -386,7 +386,7 @@ static bool part_form(const ls_op *op, int i, ls_lin *l)
     const ls_part *p = &op->nl->parts[i];
     if (p->kind->results || p->kind->is_port)
         return false;
-    ls_part_current(p, op->nl, l, false);
+    ls_part_current(p, &op->run, l, false);
     return !l->overflow;
 }
 
@@ -567,7 +567,7 @@ static void part_why(const ls_op *op, int i, char *buf, size_t n)
         snprintf(buf, n,
                  "its small resistance (%.3g ohm) turns the last-digit uncertainty of the voltages at its ends into a "
                  "current uncertainty",
-                 p->value);
+                 ls_run_value(&op->run, p));
         return;
     }
     snprintf(buf, n, "it is the small difference of larger currents at its nodes (reciprocal condition %.2g)",

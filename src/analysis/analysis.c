@@ -7,6 +7,7 @@
 #include "analysis/newton.h"
 #include "solve/selinv.h"
 
+#include <assert.h>
 #include <float.h>
 #include <math.h>
 #include <stdlib.h>
@@ -194,8 +195,8 @@ void ls_op_report_singular(ls_op *op, int col)
     double lo = INFINITY, hi = 0;
     for (int i = 0; i < nl->nparts; i++)
         if (strcmp(nl->parts[i].kind->name, "resistor") == 0) {
-            lo = fmin(lo, nl->parts[i].value);
-            hi = fmax(hi, nl->parts[i].value);
+            lo = fmin(lo, ls_run_value(&op->run, &nl->parts[i]));
+            hi = fmax(hi, ls_run_value(&op->run, &nl->parts[i]));
         }
     if (hi / lo >= 1e12) {
         char spread[400];
@@ -362,7 +363,8 @@ static void chop_noise(ls_op *op)
         }
 }
 
-/* Extra-precise refinement for a linear circuit (accuracy.c).  A circuit
+/* Extra-precise refinement for a linear circuit (accuracy.c), except in a
+ * study's trial (ls_options.trial): x is then the double solve's.  A circuit
  * with diodes, thermistors or limited op-amps keeps its last Newton solve: its
  * stamps describe the next linearization, not the system just solved, and
  * the bounds say what that leaves.  Bounds are recomputed on demand.  0, or
@@ -371,7 +373,7 @@ static int polish(ls_op *op)
 {
     op->acc.have_bounds = false;
     op->acc.refined = false;
-    if (ls_newton_needed(op->nl))
+    if (op->opt.trial || ls_newton_needed(op->nl))
         return 0;
     return ls_acc_refine(op);
 }
@@ -384,14 +386,14 @@ static void part_results(ls_op *op)
         const ls_part *p = &nl->parts[i];
         if (p->kind->results) {
             double r[3];
-            p->kind->results(p, op->x, op->v, r);
+            p->kind->results(p, &op->run, op->x, op->v, r);
             op->ipart[i] = r[0];
             op->vpart[i] = r[1];
             op->ppart[i] = r[2];
             continue;
         }
         ls_lin l;
-        ls_part_current(p, nl, &l, false);
+        ls_part_current(p, &op->run, &l, false);
         /* from x + tail: a current through a small resistance between two
          * nearly equal node voltages cancels in double-double, not in double */
         double cur = ls_acc_lin_eval(op, &l);
@@ -481,6 +483,11 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     memset(op, 0, sizeof *op);
     op->nl = nl;
     op->opt = *o;
+    if (ls_run_init(&op->run, nl) != 0 || (o->start && ls_run_copy(&op->run, o->start) != 0)) {
+        ls_error(nl->diags, LS_NOLOC, "out of memory setting up the solve of %d parts", nl->nparts);
+        op->nomem = true;
+        return LS_EXIT_UNSOLVABLE;
+    }
     bool variant = o->opened || o->ties;
     /* a variant's circuit has passed the checks once already */
     if (!variant)
@@ -493,10 +500,10 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
         op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
-    if (!o->keep_states)
-        ls_newton_init(nl);
+    if (!o->keep_states || !o->start)
+        ls_newton_init(&op->run);
     phase(op, "assembling the equations");
-    if (ls_mna_build_variant(&op->mna, nl, o->opened, o->ties) != 0 || alloc_results(op) != 0) {
+    if (ls_mna_build_variant(&op->mna, nl, &op->run, o->opened, o->ties) != 0 || alloc_results(op) != 0) {
         ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
         op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
@@ -608,6 +615,7 @@ void ls_op_free(ls_op *op)
 {
     ls_solver_free(&op->solver);
     ls_mna_free(&op->mna);
+    ls_run_free(&op->run);
     free(op->v); /* x lives in the same array */
     free(op->work);
     free(op->ipart);
@@ -641,8 +649,8 @@ static double real_prop(ls_op *op, int part, ls_prop prop)
     const ls_part *p = &op->nl->parts[part];
     ls_adc_result a;
     if (prop == PROP_RESISTANCE || prop == PROP_TEMPERATURE) {
-        double t = ls_ntc_body(p);
-        return prop == PROP_TEMPERATURE ? t : ls_ntc_r(p, t);
+        double t = ls_ntc_body(p, &op->run);
+        return prop == PROP_TEMPERATURE ? t : ls_ntc_r(p, &op->run, t);
     }
     if (ls_op_adc(op, part, &a) != 0)
         return NAN;
@@ -679,7 +687,7 @@ static double prop_value(ls_op *op, int part, ls_prop prop)
     case PROP_CURRENT: return op->ipart[part];
     case PROP_VOLTAGE: return op->vpart[part];
     case PROP_POWER: return op->ppart[part];
-    case PROP_VALUE: return op->nl->parts[part].value;
+    case PROP_VALUE: return ls_run_value(&op->run, &op->nl->parts[part]);
     case PROP_CODE: case PROP_ERROR_LSB: case PROP_UNLOADED: case PROP_SOURCE:
     case PROP_RESISTANCE: case PROP_TEMPERATURE: return real_prop(op, part, prop);
     default: break;
@@ -703,6 +711,7 @@ double ls_q_eval(ls_op *op, const ls_q *q)
         return ls_apply_func(q->op, v, q->nargs);
     }
     }
+    assert(!"a bound quantity of no known kind");
     return NAN;
 }
 

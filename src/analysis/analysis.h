@@ -18,9 +18,14 @@ typedef struct ls_options {
     /* A variant of a circuit already solved once (sag, thevenin --load): */
     const unsigned char *opened;  /* per part, or NULL: parts stamped as removed */
     const ls_tie *ties;           /* per node, or NULL: conductances to fixed voltages */
-    bool keep_states;       /* start from the parts' present linearization points and limits */
+    bool keep_states;       /* start from start's linearization points, limits and values */
+    const struct ls_run *start;   /* with keep_states: the run to start from (a solved op's), same netlist */
     bool linear_only;       /* one linear solve at those points (no iteration) */
     bool no_bounds;         /* inner solves (variants): no error bounds and no untrusted-digits warning */
+    bool trial;             /* a study's trial (tol's Monte Carlo): the solution to the double solve's own
+                               accuracy (refined in double), no extra-precise refinement: a trial's value
+                               feeds statistics whose spread is far above it, and its digits are never
+                               printed one by one (docs/accuracy.md) */
     /* When set, told as each long phase of ls_op_solve starts ("assembling",
      * "factoring", ...): the program's progress line on large solves. */
     void (*phase)(void *ctx, const char *what);
@@ -48,6 +53,8 @@ enum { LS_BUDGET_FROM_NONE, LS_BUDGET_FROM_PORT, LS_BUDGET_FROM_RULE, LS_BUDGET_
 
 typedef struct ls_op {
     const ls_netlist *nl;
+    ls_run run;              /* the parts' states and values of this solve (run.h); owned: the netlist
+                                is only read, so several ops may share it */
     ls_options opt;
     ls_mna mna;
     ls_solver *solver;

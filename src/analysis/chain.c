@@ -1,4 +1,5 @@
 /* chain.c — the stage partition and its signal order (see chain.h). */
+#include <assert.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -430,6 +431,8 @@ const char *ls_stage_flag_word(int bit, bool json)
 const char *ls_verdict_word(ls_verdict v)
 {
     static const char *const n[] = {"ok", "marginal", "loading"};
+    _Static_assert(sizeof n / sizeof n[0] == VERDICT_LOADING + 1, "one word per ls_verdict");
+    assert(v >= VERDICT_OK && v <= VERDICT_LOADING);
     return n[v];
 }
 

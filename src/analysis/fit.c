@@ -6,6 +6,7 @@
  * stage (NLopt); the neighbourhood and the descent; the finalists' yields. */
 #include "analysis/fit.h"
 
+#include <assert.h>
 #include <math.h>
 #include <nlopt.h>
 #include <stdlib.h>
@@ -34,8 +35,8 @@ typedef struct fit_run {
     slot *slots;
     int nslots;
     double *x0;              /* the operating point at the written values */
-    ls_part_run *runs0;      /* the parts' analysis states there, in part order of those that have one */
-    int nruns;
+    ls_run run0;             /* the parts' states and values there (run.h) */
+    bool have_run0;
     ls_fit_cand *keep;       /* the best candidates so far, best first */
     int nkeep, cap_keep;
     uint64_t *seen;          /* hashes of the index vectors solved (open addressing, 0 empty) */
@@ -132,17 +133,17 @@ static void eval_opamp_out(ls_op *op, int i, ls_fit_check *c)
     c->value = vout;
     c->lo = lo;
     c->hi = hi;
-    if (p->run->open_loop) { /* a comparator: at a rail by design */
+    if (ls_run_state(&op->run, p)->open_loop) { /* a comparator: at a rail by design */
         c->margin = INFINITY;
         c->pass = true;
         return;
     }
-    if (p->run->state != LS_LIM_NONE) {
+    if (ls_run_state(&op->run, p)->state != LS_LIM_NONE) {
         double imbalance = fabs(op->v[p->pin[0]] - op->v[p->pin[1]]);
         c->margin = -fmax(imbalance / span, 1e-12);
         c->pass = false;
-        c->why = p->run->state == LS_LIM_RAIL_HIGH  ? "saturated at its upper rail"
-                 : p->run->state == LS_LIM_RAIL_LOW ? "saturated at its lower rail"
+        c->why = ls_run_state(&op->run, p)->state == LS_LIM_RAIL_HIGH  ? "saturated at its upper rail"
+                 : ls_run_state(&op->run, p)->state == LS_LIM_RAIL_LOW ? "saturated at its lower rail"
                                                     : "at its output current limit";
         return;
     }
@@ -292,13 +293,13 @@ static double supply_current(const ls_op *op)
 static bool solve_at(fit_run *r, const double *values)
 {
     ls_fit_study *f = r->f;
-    ls_netlist *nl = f->nl;
-    for (int j = 0; j < f->nvars; j++)
-        nl->parts[f->vars[j].part].value = values[j];
-    int k = 0;
-    for (int i = 0; i < nl->nparts; i++)
-        if (nl->parts[i].run)
-            *nl->parts[i].run = r->runs0[k++];
+    bool nomem = ls_run_copy(&f->op->run, &r->run0) != 0;
+    for (int j = 0; j < f->nvars && !nomem; j++)
+        nomem = ls_run_set_value(&f->op->run, f->vars[j].part, values[j]) != 0;
+    if (nomem) {
+        r->nomem = true;
+        return false;
+    }
     if (f->op->mna.n > 0)
         memcpy(f->op->x, r->x0, (size_t)f->op->mna.n * sizeof *r->x0);
     if (ls_op_resolve(f->op) == LS_EXIT_OK)
@@ -805,7 +806,10 @@ static int rank_finalists(fit_run *r)
         if (!varies)
             continue;
         for (int j = 0; j < f->nvars; j++)
-            f->nl->parts[f->vars[j].part].value = c->value[j];
+            if (ls_run_set_value(&f->op->run, f->vars[j].part, c->value[j]) != 0) {
+                free(need);
+                return -1;
+            }
         if (ls_tol_pass_rate(f->nl, f->op, f->trials, f->seed, f->normal, trial_feasible, r, &c->yield) != 0) {
             free(need);
             return -1;
@@ -896,17 +900,11 @@ static int save_start(fit_run *r)
     const ls_netlist *nl = r->f->nl;
     ls_op *op = r->f->op;
     r->x0 = malloc((size_t)(op->mna.n ? op->mna.n : 1) * sizeof *r->x0);
-    for (int i = 0; i < nl->nparts; i++)
-        r->nruns += nl->parts[i].run != NULL;
-    r->runs0 = malloc((size_t)(r->nruns ? r->nruns : 1) * sizeof *r->runs0);
-    if (!r->x0 || !r->runs0)
+    r->have_run0 = ls_run_init(&r->run0, nl) == 0 && ls_run_copy(&r->run0, &op->run) == 0;
+    if (!r->x0 || !r->have_run0)
         return -1;
     if (op->mna.n > 0)
         memcpy(r->x0, op->x, (size_t)op->mna.n * sizeof *r->x0);
-    int k = 0;
-    for (int i = 0; i < nl->nparts; i++)
-        if (nl->parts[i].run)
-            r->runs0[k++] = *nl->parts[i].run;
     return 0;
 }
 
@@ -973,7 +971,7 @@ int ls_fit_run(ls_fit_study *f)
     double *start = r.scratch;
     for (int j = 0; start && j < f->nvars; j++)
         start[j] = f->vars[j].start;
-    bool back = start && r.x0 && r.runs0 && solve_at(&r, start);   /* the session's op as it was */
+    bool back = start && r.x0 && r.have_run0 && solve_at(&r, start);   /* the session's op as it was */
     f->nl->diags = kept;
     /* a port report or an expect that ran short of memory during the search
      * left its error in the scratch list: the candidates are not what they seem */
@@ -996,7 +994,7 @@ int ls_fit_run(ls_fit_study *f)
     }
     free(r.slots);
     free(r.x0);
-    free(r.runs0);
+    ls_run_free(&r.run0);
     free(r.seen);
     free(r.scratch);
     return code;
@@ -1043,6 +1041,7 @@ const char *ls_fit_check_text(const ls_fit_study *f, const ls_fit_check *c, char
 const char *ls_fit_goal_name(ls_fit_goal g)
 {
     static const char *const names[] = {"margin", "yield", "current"};
+    assert((int)g >= 0 && (size_t)g < sizeof names / sizeof names[0]);
     return names[g];
 }
 

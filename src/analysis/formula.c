@@ -388,20 +388,20 @@ static int too_big_error(fx *F, const char *why)
  * stamps at the operating point. */
 static bool kind_is(const ls_part *p, const char *name) { return strcmp(p->kind->name, name) == 0; }
 
-static bool exact_kind(const ls_part *p)
+static bool exact_kind(const ls_part *p, const ls_run *run)
 {
     static const char *const k[] = {"resistor", "voltage", "current", "port", "vcvs", "vccs",
                                     "cccs", "ccvs", "switch", "adc"};
     for (size_t i = 0; i < sizeof k / sizeof k[0]; i++)
         if (kind_is(p, k[i]))
             return true;
-    return kind_is(p, "opamp") && p->run && p->run->state == LS_LIM_NONE;
+    return kind_is(p, "opamp") && p->slot >= 0 && ls_run_state(run, p)->state == LS_LIM_NONE;
 }
 
 /* Does the part have a main value that can be a symbol? */
-static bool has_symbolic_value(const ls_part *p)
+static bool has_symbolic_value(const ls_part *p, const ls_run *run)
 {
-    if (!exact_kind(p) || kind_is(p, "port") || kind_is(p, "switch") || kind_is(p, "adc"))
+    if (!exact_kind(p, run) || kind_is(p, "port") || kind_is(p, "switch") || kind_is(p, "adc"))
         return false;
     return !kind_is(p, "opamp") || p->has_value;
 }
@@ -502,7 +502,7 @@ static int default_symbols(const fx *F, const char **names, int cap)
     int n = 0;
     for (int i = 0; i < F->nl->nparts; i++) {
         const ls_part *p = &F->nl->parts[i];
-        if (!has_symbolic_value(p))
+        if (!has_symbolic_value(p, &F->op->run))
             continue;
         const ls_expr *e = F->req->ideal && is_gain(p) ? NULL : value_expr(F, p);
         if (!e || has_call(e) || lets_used(F, e, names, &n, cap) == 0) {
@@ -549,7 +549,7 @@ static int choose_symbols(fx *F)
     for (int i = 0; i < n && i < CAP && code == LS_EXIT_OK; i++) {
         int part = ls_netlist_find_part(F->nl, names[i]);
         const char *name = names[i];
-        if (part >= 0 && has_symbolic_value(&F->nl->parts[part])) {
+        if (part >= 0 && has_symbolic_value(&F->nl->parts[part], &F->op->run)) {
             name = F->nl->parts[part].name;
         } else if (part >= 0) {
             ls_error(F->d, LS_NOLOC, "formula: --symbols: part '%s' (%s) has no main value that can be a symbol",
@@ -576,7 +576,7 @@ static int choose_symbols(fx *F)
         code = too_big_error(F, "too many symbols");
     /* --ideal: every finite gain is a symbol of its own, taken to infinity at the end. */
     for (int i = 0; i < F->nl->nparts && code == LS_EXIT_OK && F->req->ideal; i++)
-        if (is_gain(&F->nl->parts[i]) && exact_kind(&F->nl->parts[i]))
+        if (is_gain(&F->nl->parts[i]) && exact_kind(&F->nl->parts[i], &F->op->run))
             if (!add_sym(F, F->nl->parts[i].name, i, true))
                 code = too_big_error(F, "too many symbols (every finite op-amp gain counts under --ideal)");
     free(list);
@@ -671,13 +671,14 @@ static void part_values(fx *F)
             rf_set_var(F, r, s);
             continue;
         }
-        const ls_expr *e = has_symbolic_value(p) ? value_expr(F, p) : NULL;
+        const ls_expr *e = has_symbolic_value(p, &F->op->run) ? value_expr(F, p) : NULL;
+        double value = ls_run_value(&F->op->run, p);   /* the solve's (the C API may have set it) */
         if (e && expr_to_rf(F, e, r, 0)) {
             double got = rf_eval_d(F, r);
-            if (got == p->value || fabs(got - p->value) <= 1e-13 * fabs(p->value))
+            if (got == value || fabs(got - value) <= 1e-13 * fabs(value))
                 continue;
         }
-        rf_set_double(F, r, p->value);
+        rf_set_double(F, r, value);
     }
 }
 
@@ -688,7 +689,8 @@ static void symbol_values(fx *F)
 {
     for (int s = 0; s < F->nsym; s++) {
         int part = F->sym[s].part;
-        q_from_double(F->sym[s].value, part >= 0 ? F->nl->parts[part].value : let_value(F, F->sym[s].name));
+        q_from_double(F->sym[s].value,
+                      part >= 0 ? ls_run_value(&F->op->run, &F->nl->parts[part]) : let_value(F, F->sym[s].name));
     }
     for (int s = 0; s < F->nsym; s++) {
         int part = F->sym[s].part;
@@ -899,11 +901,11 @@ static void opamp_exact(fx *F, sys *S, const ls_part *p, const rf *gain)
         int hi = p->range[OA_RAILS][1].node, lo = p->range[OA_RAILS][0].node;
         double iq = opt(p, "iq", 0);
         if (hi > 0) {
-            add_a_si(F, S, ls_node_unknown(hi), k, p->run->side ? 0 : 1);
+            add_a_si(F, S, ls_node_unknown(hi), k, ls_run_state(&F->op->run, p)->side ? 0 : 1);
             add_b_d(F, S, ls_node_unknown(hi), -iq);
         }
         if (lo > 0) {
-            add_a_si(F, S, ls_node_unknown(lo), k, p->run->side ? 1 : 0);
+            add_a_si(F, S, ls_node_unknown(lo), k, ls_run_state(&F->op->run, p)->side ? 1 : 0);
             add_b_d(F, S, ls_node_unknown(lo), iq);
         }
     }
@@ -936,7 +938,7 @@ static void numeric_stamp(fx *F, sys *S, const ls_part *p, bool removed)
     if (!b)
         return;
     ls_sink sink = {.mode = SINK_ASSEMBLE, .t = &t, .b = b, .scale = 1};
-    ls_stamp_ctx c = {.nl = F->nl, .sink = &sink, .removed = removed};
+    ls_stamp_ctx c = {.nl = F->nl, .run = &F->op->run, .sink = &sink, .removed = removed};
     p->kind->stamp(p, &c);
     for (size_t i = 0; i < t.nnz && !t.failed; i++)
         add_a_d(F, S, t.ti[i], t.tj[i], t.tx[i]);
@@ -1120,7 +1122,7 @@ static void part_lform(fx *F, int part, lform *l, int depth)
         lf_add_si(F, l, p->branch, 1);
     } else {
         ls_lin nl;
-        ls_part_current(p, F->nl, &nl, false);
+        ls_part_current(p, &F->op->run, &nl, false);
         for (int i = 0; i < nl.n; i++) {
             rf c;
             rf_init(F, &c);
@@ -2386,7 +2388,7 @@ static double q_magnitude(ls_op *op, const ls_q *q)
         const ls_part *p = &op->nl->parts[q->index];
         if (q->prop == PROP_CURRENT || q->prop == PROP_POWER) {
             ls_lin l;
-            ls_part_current(p, op->nl, &l, false);
+            ls_part_current(p, &op->run, &l, false);
             double m = fabs(l.constant);
             for (int i = 0; i < l.n; i++)
                 m += fabs(l.coef[i] * op->x[l.idx[i]]);
@@ -2575,13 +2577,15 @@ static void mark_exact_parts(fx *F)
 {
     for (int i = 0; i < F->nl->nparts; i++) {
         const ls_part *p = &F->nl->parts[i];
-        F->pexact[i] = exact_kind(p);
+        F->pexact[i] = exact_kind(p, &F->op->run);
         if (F->pexact[i])
             continue;
         if (kind_is(p, "opamp"))
             note(F, "%s: op-amp held at its %s limit at the operating point (a fixed %s), not a symbol",
-                 p->name, ls_opamp_limit_word(p),
-                 p->run->state == LS_LIM_RAIL_HIGH || p->run->state == LS_LIM_RAIL_LOW ? "output voltage"
+                 p->name, ls_opamp_limit_word(p, &F->op->run),
+                 ls_run_state(&F->op->run, p)->state == LS_LIM_RAIL_HIGH ||
+                         ls_run_state(&F->op->run, p)->state == LS_LIM_RAIL_LOW
+                     ? "output voltage"
                                                                                         : "output current");
         else if (p->kind->is_nonlinear && p->kind->is_nonlinear(p))
             note(F, "%s: %s linearized at its operating point (its conductance and offset there, as numbers)",

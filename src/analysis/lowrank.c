@@ -361,7 +361,7 @@ static int delta_triplets(ls_mod *m, int part, ls_mod_kind kind, ls_triplets *t)
         return -1;
     ls_sink s = {.mode = SINK_ASSEMBLE, .t = t, .b = m->db, .scale = -1};
     if (kind == MOD_REMOVE_PART) {
-        ls_stamp_ctx c = {.nl = nl, .sink = &s};
+        ls_stamp_ctx c = {.nl = nl, .run = &op->run, .sink = &s};
         p->kind->stamp(p, &c);
         s.scale = 1;
         c.removed = true;
@@ -1665,7 +1665,7 @@ double ls_op_volts(const ls_op *op)
         vmax = fmax(vmax, fabs(op->v[i]));
     for (int i = 0; i < nl->nparts; i++)
         if (strcmp(nl->parts[i].kind->name, "voltage") == 0)
-            vmax = fmax(vmax, fabs(nl->parts[i].value));
+            vmax = fmax(vmax, fabs(ls_run_value(&op->run, &nl->parts[i])));
     return vmax;
 }
 
@@ -1691,21 +1691,17 @@ static bool crosses_limit(const ls_op *op, const double *x, const double *vv, in
     const ls_netlist *nl = op->nl;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (i == skip || !p->run)
+        if (i == skip || p->slot < 0)
             continue;
         if (p->kind->is_opamp && ls_opamp_limited(p)) {
-            int side, next = ls_opamp_next(p, x, vv, &side);
-            if (next != p->run->state) {
-                ls_part q = *p;
-                ls_part_run r = *p->run;
-                r.state = next;
-                q.run = &r;
-                snprintf(limit, n, "%s %s", p->name, ls_opamp_limit_word(&q));
+            int side, next = ls_opamp_next(p, &op->run, x, vv, &side);
+            if (next != ls_run_state(&op->run, p)->state) {
+                snprintf(limit, n, "%s %s", p->name, ls_lim_word(next));
                 return true;
             }
-        } else if (p->kind->is_junction && p->run) {
+        } else if (p->kind->is_junction && p->slot >= 0) {
             bool beyond;
-            double v1 = ls_junction_v(p, x), v0 = p->run->op_v, h = 1e-4;
+            double v1 = ls_junction_v(p, x), v0 = ls_run_state(&op->run, p)->op_v, h = 1e-4;
             double g1 = (ls_junction_current(p, v1 + h, &beyond) - ls_junction_current(p, v1 - h, &beyond)) / (2 * h);
             double g0 = (ls_junction_current(p, v0 + h, &beyond) - ls_junction_current(p, v0 - h, &beyond)) / (2 * h);
             if (g0 > 0 && g1 > 0 && (g1 > 10 * g0 || g0 > 10 * g1)) {
@@ -1765,14 +1761,14 @@ static int sag_resolve(ls_op *op, int node, ls_sag_item *it, const ls_runs *base
             it->without = v.op.v[node];
             /* name what the exact solve ended at, not what the estimate crossed */
             char now[sizeof it->limit];
-            if (ls_limits_in_force(op->nl, base, now, sizeof now) > 0)
+            if (ls_limits_in_force(&v.op.run, base, now, sizeof now) > 0)
                 memcpy(it->limit, now, sizeof now);
             else
                 snprintf(it->limit, sizeof it->limit, "re-solved: no limit in force");
         } else if (v.op.nomem) {
             rc = -1;   /* no memory is no row without a solution */
         }
-        ls_runs_restore(op->nl, base);
+        ls_runs_restore(op, base);
     }
     ls_variant_free(&v);
     return rc;
@@ -1801,7 +1797,7 @@ static int sag_fast_init(ls_op *op, int node, sag_fast *f)
         return 0;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (p->kind->is_junction || (p->kind->is_opamp && p->run && ls_opamp_limited(p)))
+        if (p->kind->is_junction || (p->kind->is_opamp && ls_opamp_limited(p)))
             return 0;
     }
     f->si = op_selinv(op);
@@ -1879,7 +1875,7 @@ static int sag_row_fast(ls_op *op, int node, int i, ls_sag_item *it, sag_fast *f
      * removed stamp put in */
     f->t.nnz = 0;
     ls_sink s = {.mode = SINK_ASSEMBLE, .t = &f->t, .b = f->b, .scale = -1};
-    ls_stamp_ctx c = {.nl = nl, .sink = &s};
+    ls_stamp_ctx c = {.nl = nl, .run = &op->run, .sink = &s};
     p->kind->stamp(p, &c);
     s.scale = 1;
     c.removed = true;
@@ -1955,7 +1951,7 @@ int ls_sag(ls_op *op, int node, ls_sag_item *items)
     double v0 = op->v[node], vmax = ls_op_volts(op), noise = 64 * DBL_EPSILON * vmax;
     double *vv = malloc(((size_t)op->mna.n + 1) * sizeof *vv);
     ls_runs base = {0};
-    if (!vv || ls_runs_save(nl, &base) != 0) {
+    if (!vv || ls_runs_save(op, &base) != 0) {
         free(vv);
         return -1;
     }

@@ -14,6 +14,7 @@
  * matrix does not change, so its symbolic analysis is done once. */
 #include "analysis/newton.h"
 
+#include <assert.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -53,22 +54,23 @@ bool ls_newton_needed(const ls_netlist *nl)
     return false;
 }
 
-void ls_newton_init(const ls_netlist *nl)
+void ls_newton_init(ls_run *r)
 {
+    const ls_netlist *nl = r->nl;
     for (int i = 0; i < nl->nparts; i++) {
-        ls_part *p = &nl->parts[i];
-        if (!p->run)
+        const ls_part *p = &nl->parts[i];
+        if (p->slot < 0)
             continue; /* a part without analysis state */
-        p->run->state = LS_LIM_NONE;
-        p->run->side = 0;
-        p->run->open_loop = false;
-        p->run->probed = false;
-        p->run->probing = false;
-        p->run->releases = 0;
-        p->run->shunt_s = 0;
-        p->run->src_cut = 0;
+        ls_run_state(r, p)->state = LS_LIM_NONE;
+        ls_run_state(r, p)->side = 0;
+        ls_run_state(r, p)->open_loop = false;
+        ls_run_state(r, p)->probed = false;
+        ls_run_state(r, p)->probing = false;
+        ls_run_state(r, p)->releases = 0;
+        ls_run_state(r, p)->shunt_s = 0;
+        ls_run_state(r, p)->src_cut = 0;
         if (p->kind->init)
-            p->kind->init(p);
+            p->kind->init(p, r);
     }
 }
 
@@ -76,8 +78,9 @@ static void saved_free(saved *s);
 
 /* Copy every part's state into s (allocated here; saved_free frees). 0 ok,
  * -1 no memory (then nothing is left allocated in s). */
-static int save(const ls_netlist *nl, saved *s)
+static int save(const ls_run *r, saved *s)
 {
+    const ls_netlist *nl = r->nl;
     size_t n = (size_t)(nl->nparts ? nl->nparts : 1);
     s->state = malloc(n * sizeof *s->state);
     s->side = malloc(n * sizeof *s->side);
@@ -88,28 +91,29 @@ static int save(const ls_netlist *nl, saved *s)
         return -1;
     }
     for (int i = 0; i < nl->nparts; i++) {
-        if (!nl->parts[i].run)
+        if (nl->parts[i].slot < 0)
             continue;
-        s->state[i] = nl->parts[i].run->state;
-        s->side[i] = nl->parts[i].run->side;
-        s->op_v[i] = nl->parts[i].run->op_v;
-        s->op_t[i] = nl->parts[i].run->op_t;
+        s->state[i] = ls_run_state(r, &nl->parts[i])->state;
+        s->side[i] = ls_run_state(r, &nl->parts[i])->side;
+        s->op_v[i] = ls_run_state(r, &nl->parts[i])->op_v;
+        s->op_t[i] = ls_run_state(r, &nl->parts[i])->op_t;
     }
     return 0;
 }
 
 /* Put the states of s back. */
-static void restore(const ls_netlist *nl, const saved *s)
+static void restore(const ls_run *r, const saved *s)
 {
+    const ls_netlist *nl = r->nl;
     for (int i = 0; i < nl->nparts; i++) {
-        if (!nl->parts[i].run)
+        if (nl->parts[i].slot < 0)
             continue;
-        nl->parts[i].run->state = s->state[i];
-        nl->parts[i].run->side = s->side[i];
-        nl->parts[i].run->op_v = s->op_v[i];
-        nl->parts[i].run->op_t = s->op_t[i];
-        if (nl->parts[i].run->open_loop && nl->parts[i].run->state == LS_LIM_NONE)
-            nl->parts[i].run->state = LS_LIM_RAIL_HIGH; /* a comparator is never free */
+        ls_run_state(r, &nl->parts[i])->state = s->state[i];
+        ls_run_state(r, &nl->parts[i])->side = s->side[i];
+        ls_run_state(r, &nl->parts[i])->op_v = s->op_v[i];
+        ls_run_state(r, &nl->parts[i])->op_t = s->op_t[i];
+        if (ls_run_state(r, &nl->parts[i])->open_loop && ls_run_state(r, &nl->parts[i])->state == LS_LIM_NONE)
+            ls_run_state(r, &nl->parts[i])->state = LS_LIM_RAIL_HIGH; /* a comparator is never free */
     }
 }
 
@@ -124,19 +128,21 @@ static void saved_free(saved *s)
 }
 
 /* The gmin-stepping shunt (S) across every junction. */
-static void set_shunt(const ls_netlist *nl, double g)
+static void set_shunt(const ls_run *r, double g)
 {
+    const ls_netlist *nl = r->nl;
     for (int i = 0; i < nl->nparts; i++)
-        if (nl->parts[i].run)
-            nl->parts[i].run->shunt_s = g;
+        if (nl->parts[i].slot >= 0)
+            ls_run_state(r, &nl->parts[i])->shunt_s = g;
 }
 
 /* Every independent source at the fraction a of its value. */
-static void set_source_scale(const ls_netlist *nl, double a)
+static void set_source_scale(const ls_run *r, double a)
 {
+    const ls_netlist *nl = r->nl;
     for (int i = 0; i < nl->nparts; i++)
-        if (nl->parts[i].run)
-            nl->parts[i].run->src_cut = 1 - a;
+        if (nl->parts[i].slot >= 0)
+            ls_run_state(r, &nl->parts[i])->src_cut = 1 - a;
 }
 
 /* Move every nonlinear part's linearization point; marks the ones that moved
@@ -146,10 +152,10 @@ static int update_nonlinear(ls_op *op, bool *moving)
     const ls_netlist *nl = op->nl;
     int n = 0;
     for (int i = 0; i < nl->nparts; i++) {
-        ls_part *p = &nl->parts[i];
+        const ls_part *p = &nl->parts[i];
         bool still = true;
         if (nonlinear(p))
-            still = p->kind->update(p, op->x);
+            still = p->kind->update(p, &op->run, op->x);
         if (moving)
             moving[i] = !still;
         n += !still;
@@ -165,26 +171,26 @@ static int update_opamps(ls_op *op, bool one_at_a_time, bool *moving)
     const ls_netlist *nl = op->nl;
     int n = 0;
     for (int i = 0; i < nl->nparts; i++) {
-        ls_part *p = &nl->parts[i];
+        const ls_part *p = &nl->parts[i];
         if (!p->kind->is_opamp || !ls_opamp_limited(p))
             continue;
-        int side, next = ls_opamp_next(p, op->x, op->v, &side);
-        if (next == p->run->state && side == p->run->side)
+        int side, next = ls_opamp_next(p, &op->run, op->x, op->v, &side);
+        if (next == ls_run_state(&op->run, p)->state && side == ls_run_state(&op->run, p)->side)
             continue;
         if (one_at_a_time && n)
             continue;
-        bool rail = p->run->state == LS_LIM_RAIL_HIGH || p->run->state == LS_LIM_RAIL_LOW;
-        bool counts = rail && next == LS_LIM_NONE && !p->run->probing;
-        p->run->probing = false;
-        if (counts && ++p->run->releases >= RELEASES_MAX && ls_part_has(p, ls_kind_opt(p->kind, "rails"))) {
+        bool rail = ls_run_state(&op->run, p)->state == LS_LIM_RAIL_HIGH || ls_run_state(&op->run, p)->state == LS_LIM_RAIL_LOW;
+        bool counts = rail && next == LS_LIM_NONE && !ls_run_state(&op->run, p)->probing;
+        ls_run_state(&op->run, p)->probing = false;
+        if (counts && ++ls_run_state(&op->run, p)->releases >= RELEASES_MAX && ls_part_has(p, ls_kind_opt(p->kind, "rails"))) {
             /* Let go of a rail again and again: the free solution lies beyond the
              * rail while the rail pushes the other way, which is positive
              * feedback.  The output belongs at the rail its drive points to. */
-            p->run->open_loop = true;
-            next = p->run->state == LS_LIM_RAIL_HIGH ? LS_LIM_RAIL_LOW : LS_LIM_RAIL_HIGH;
+            ls_run_state(&op->run, p)->open_loop = true;
+            next = ls_run_state(&op->run, p)->state == LS_LIM_RAIL_HIGH ? LS_LIM_RAIL_LOW : LS_LIM_RAIL_HIGH;
         }
-        p->run->state = next;
-        p->run->side = side;
+        ls_run_state(&op->run, p)->state = next;
+        ls_run_state(&op->run, p)->side = side;
         if (moving)
             moving[i] = true;
         n++;
@@ -193,25 +199,25 @@ static int update_opamps(ls_op *op, bool one_at_a_time, bool *moving)
 }
 
 /* An ideal op-amp with rails, free, not yet found open-loop. */
-static bool open_loop_candidate(const ls_part *p)
+static bool open_loop_candidate(const ls_part *p, const ls_run *r)
 {
     return p->kind->is_opamp && !p->has_value && ls_part_has(p, ls_kind_opt(p->kind, "rails")) &&
-           p->run->state == LS_LIM_NONE && !p->run->open_loop;
+           ls_run_state(r, p)->state == LS_LIM_NONE && !ls_run_state(r, p)->open_loop;
 }
 
 bool ls_newton_open_loop(ls_op *op, int col)
 {
     const ls_netlist *nl = op->nl;
     int pick = -1;
-    if (col >= op->mna.nn && col < op->mna.n && open_loop_candidate(&nl->parts[op->mna.branch_part[col - op->mna.nn]]))
+    if (col >= op->mna.nn && col < op->mna.n && open_loop_candidate(&nl->parts[op->mna.branch_part[col - op->mna.nn]], &op->run))
         pick = op->mna.branch_part[col - op->mna.nn];
     for (int i = 0; i < nl->nparts && pick < 0; i++)
-        if (open_loop_candidate(&nl->parts[i]))
+        if (open_loop_candidate(&nl->parts[i], &op->run))
             pick = i;
     if (pick < 0)
         return false;
-    nl->parts[pick].run->open_loop = true;
-    nl->parts[pick].run->state = LS_LIM_RAIL_HIGH;
+    ls_run_state(&op->run, &nl->parts[pick])->open_loop = true;
+    ls_run_state(&op->run, &nl->parts[pick])->state = LS_LIM_RAIL_HIGH;
     return true;
 }
 
@@ -237,18 +243,18 @@ static int probe_rails(ls_op *op, bool *moving)
     const ls_netlist *nl = op->nl;
     int n = 0;
     for (int i = 0; i < nl->nparts; i++) {
-        ls_part *p = &nl->parts[i];
-        if (!p->kind->is_opamp || p->run->probed || p->run->state != LS_LIM_NONE ||
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_opamp || ls_run_state(&op->run, p)->probed || ls_run_state(&op->run, p)->state != LS_LIM_NONE ||
             !ls_part_has(p, ls_kind_opt(p->kind, "rails")))
             continue;
-        p->run->probed = true;
+        ls_run_state(&op->run, p)->probed = true;
         double hr = ls_part_opt(p, "headroom", 0), vout = op->v[p->pin[2]];
         double vhi = ls_level_v(&p->range[OA_RAILS][1], op->v) - hr;
         double vlo = ls_level_v(&p->range[OA_RAILS][0], op->v) + hr;
         if (!(vout < vhi - 1e-6 * (1 + fabs(vhi)) && vout > vlo + 1e-6 * (1 + fabs(vlo))))
             continue;
-        p->run->state = LS_LIM_RAIL_HIGH;
-        p->run->probing = true;
+        ls_run_state(&op->run, p)->state = LS_LIM_RAIL_HIGH;
+        ls_run_state(&op->run, p)->probing = true;
         moving[i] = true;
         n++;
     }
@@ -285,15 +291,14 @@ static run_status run(ls_op *op, int max_it, bool *moving)
 /* gmin stepping: a shunt across every junction from GMIN_START down. */
 static run_status gmin_stepping(ls_op *op, bool *moving)
 {
-    const ls_netlist *nl = op->nl;
     run_status r = RUN_OK;
     for (double g = GMIN_START; g >= GMIN_STOP && r == RUN_OK; g /= 10) {
-        set_shunt(nl, g);
+        set_shunt(&op->run, g);
         r = step(op);
         if (r == RUN_OK)
             r = run(op, NEWTON_MAX, moving);
     }
-    set_shunt(nl, 0);
+    set_shunt(&op->run, 0);
     if (r == RUN_OK) {
         r = step(op);
         if (r == RUN_OK)
@@ -306,23 +311,22 @@ static run_status gmin_stepping(ls_op *op, bool *moving)
  * the increment growing after a success and shrinking after a failure. */
 static run_status source_stepping(ls_op *op, bool *moving)
 {
-    const ls_netlist *nl = op->nl;
     saved good = {0};
-    if (save(nl, &good) != 0)
+    if (save(&op->run, &good) != 0)
         return RUN_NOMEM;
     double a = 0, inc = 0.1;
-    set_source_scale(nl, 0);
+    set_source_scale(&op->run, 0);
     run_status r = step(op);
     if (r == RUN_OK)
         r = run(op, NEWTON_MAX, moving);
     while (r == RUN_OK && a < 1) {
         saved_free(&good);
-        if (save(nl, &good) != 0) {
+        if (save(&op->run, &good) != 0) {
             r = RUN_NOMEM;
             break;
         }
         double next = fmin(1, a + inc);
-        set_source_scale(nl, next);
+        set_source_scale(&op->run, next);
         r = step(op);
         if (r == RUN_OK)
             r = run(op, NEWTON_MAX, moving);
@@ -330,26 +334,28 @@ static run_status source_stepping(ls_op *op, bool *moving)
             a = next;
             inc *= 2;
         } else if (r == RUN_NOCONV && inc > SOURCE_STEP_MIN) {
-            restore(nl, &good);
+            restore(&op->run, &good);
             inc /= 4;
             r = RUN_OK;
         }
     }
-    set_source_scale(nl, 1);
+    set_source_scale(&op->run, 1);
     saved_free(&good);
     return r;
 }
 
 /* Mark the op-amps with rails that were still switching as rail-only
  * (open_loop); returns how many. */
-static int rails_only(const ls_netlist *nl, const bool *moving)
+static int rails_only(const ls_run *r, const bool *moving)
 {
+    const ls_netlist *nl = r->nl;
     int n = 0;
     for (int i = 0; i < nl->nparts; i++) {
-        ls_part *p = &nl->parts[i];
-        if (!moving[i] || !p->kind->is_opamp || p->run->open_loop || !ls_part_has(p, ls_kind_opt(p->kind, "rails")))
+        const ls_part *p = &nl->parts[i];
+        if (!moving[i] || !p->kind->is_opamp || ls_run_state(r, p)->open_loop ||
+            !ls_part_has(p, ls_kind_opt(p->kind, "rails")))
             continue;
-        p->run->open_loop = true;
+        ls_run_state(r, p)->open_loop = true;
         n++;
     }
     return n;
@@ -368,9 +374,9 @@ static run_status polish(ls_op *op, bool *moving)
     if (!junctions)
         return RUN_OK;
     saved with = {0};
-    if (save(nl, &with) != 0)
+    if (save(&op->run, &with) != 0)
         return RUN_NOMEM;
-    set_shunt(nl, -LS_GMIN);
+    set_shunt(&op->run, -LS_GMIN);
     run_status r = step(op);
     if (r == RUN_OK)
         r = run(op, NEWTON_MAX / 3, moving);
@@ -379,8 +385,8 @@ static run_status polish(ls_op *op, bool *moving)
         return r;
     }
     if (r != RUN_OK || !(op->rcond >= POLISH_RCOND)) {
-        restore(nl, &with);
-        set_shunt(nl, 0);
+        restore(&op->run, &with);
+        set_shunt(&op->run, 0);
         r = step(op);
         if (r == RUN_OK)
             r = run(op, NEWTON_MAX, moving);
@@ -401,14 +407,14 @@ static int beyond_check(ls_op *op)
         if (!nonlinear(p) || !p->kind->is_junction)
             continue;
         bool beyond;
-        double cur = ls_junction_current(p, p->run->op_v, &beyond);
-        if (fabs(p->run->op_v) > JUNCTION_VMAX) {
+        double cur = ls_junction_current(p, ls_run_state(&op->run, p)->op_v, &beyond);
+        if (fabs(ls_run_state(&op->run, p)->op_v) > JUNCTION_VMAX) {
             n++;
             ls_error(nl->diags, p->loc,
                      "the circuit cannot be solved: %s '%s' did not settle: it would need %.4g V across it, beyond "
                      "what any junction holds; the circuit forces a current through it that it blocks (a current "
                      "source into a junction in reverse?)",
-                     p->kind->name, p->name, p->run->op_v);
+                     p->kind->name, p->name, ls_run_state(&op->run, p)->op_v);
             continue;
         }
         if (!beyond)
@@ -417,7 +423,7 @@ static int beyond_check(ls_op *op)
         ls_error(nl->diags, p->loc,
                  "the circuit cannot be solved: %s '%s' did not settle: it is held at %.4g V, where it would carry "
                  "%.3g A (beyond %g A no junction is modelled); nothing limits its current: add a series resistance",
-                 p->kind->name, p->name, p->run->op_v, cur, LS_JUNCTION_IMAX);
+                 p->kind->name, p->name, ls_run_state(&op->run, p)->op_v, cur, LS_JUNCTION_IMAX);
     }
     return n;
 }
@@ -465,28 +471,28 @@ int ls_newton_solve(ls_op *op)
     const ls_netlist *nl = op->nl;
     bool *moving = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *moving);
     saved start = {0};
-    if (!moving || save(nl, &start) != 0) {
+    if (!moving || save(&op->run, &start) != 0) {
         free(moving);
         saved_free(&start);
         ls_error(nl->diags, LS_NOLOC, "out of memory in the operating-point iteration");
         op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
-    set_shunt(nl, 0);
+    set_shunt(&op->run, 0);
     run_status r = run(op, NEWTON_MAX, moving);
     if (r == RUN_NOCONV) {
-        restore(nl, &start);
+        restore(&op->run, &start);
         r = gmin_stepping(op, moving);
     }
     if (r == RUN_NOCONV) {
-        restore(nl, &start);
+        restore(&op->run, &start);
         r = source_stepping(op, moving);
     }
-    if (r == RUN_NOCONV && rails_only(nl, moving)) {
+    if (r == RUN_NOCONV && rails_only(&op->run, moving)) {
         /* The limits went round in circles: positive feedback somewhere.
          * Those op-amps are let choose only between their rails; any state
          * that then settles is consistent, so it is a solution. */
-        restore(nl, &start);
+        restore(&op->run, &start);
         r = step(op);
         if (r == RUN_OK)
             r = run(op, NEWTON_MAX, moving);
@@ -577,7 +583,7 @@ static void positive_feedback_warning(ls_op *op, int i)
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[i];
     int out = p->pin[2];
-    if (p->has_value || p->run->state != LS_LIM_NONE || p->run->open_loop || out <= 0 || p->branch < 0)
+    if (p->has_value || ls_run_state(&op->run, p)->state != LS_LIM_NONE || ls_run_state(&op->run, p)->open_loop || out <= 0 || p->branch < 0)
         return;
     double *z = calloc((size_t)op->mna.n, sizeof *z);
     if (!z)
@@ -598,13 +604,14 @@ static void opamp_warnings(ls_op *op, int i)
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[i];
     char a[48], b[48];
-    switch (p->run->state) {
+    assert(ls_run_state(&op->run, p)->state >= LS_LIM_NONE && ls_run_state(&op->run, p)->state <= LS_LIM_CURRENT_SINK);
+    switch (ls_run_state(&op->run, p)->state) {
     case LS_LIM_RAIL_HIGH:
     case LS_LIM_RAIL_LOW:
-        if (p->run->open_loop) {
+        if (ls_run_state(&op->run, p)->open_loop) {
             ls_warning(nl->diags, p->loc, "opamp-saturated",
                        "op-amp '%s' has no negative feedback (a comparator): its output sits at its %s rail, %s",
-                       p->name, p->run->state == LS_LIM_RAIL_HIGH ? "upper" : "lower",
+                       p->name, ls_run_state(&op->run, p)->state == LS_LIM_RAIL_HIGH ? "upper" : "lower",
                        eng(a, sizeof a, op->v[p->pin[2]], "V"));
             break;
         }
@@ -612,14 +619,14 @@ static void opamp_warnings(ls_op *op, int i)
                    "op-amp '%s' is saturated: its output is held at %s, its %s rail %s headroom, so its feedback no "
                    "longer sets the output",
                    p->name, eng(a, sizeof a, op->v[p->pin[2]], "V"),
-                   p->run->state == LS_LIM_RAIL_HIGH ? "upper" : "lower", p->run->state == LS_LIM_RAIL_HIGH ? "minus" : "plus");
+                   ls_run_state(&op->run, p)->state == LS_LIM_RAIL_HIGH ? "upper" : "lower", ls_run_state(&op->run, p)->state == LS_LIM_RAIL_HIGH ? "minus" : "plus");
         break;
     case LS_LIM_CURRENT_SOURCE:
     case LS_LIM_CURRENT_SINK:
         ls_warning(nl->diags, p->loc, "opamp-current-limit",
                    "op-amp '%s' is at its output current limit (%s %s): the load, not the feedback, sets its output "
                    "(%s)",
-                   p->name, p->run->state == LS_LIM_CURRENT_SOURCE ? "sourcing" : "sinking",
+                   p->name, ls_run_state(&op->run, p)->state == LS_LIM_CURRENT_SOURCE ? "sourcing" : "sinking",
                    eng(a, sizeof a, ls_part_opt(p, "imax", 0), "A"), eng(b, sizeof b, op->v[p->pin[2]], "V"));
         break;
     default:

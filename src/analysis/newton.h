@@ -17,7 +17,7 @@ void ls_op_report_singular(ls_op *op, int col);
 /* Does the circuit need the iteration (a nonlinear part, a limited op-amp)? */
 bool ls_newton_needed(const ls_netlist *nl);
 /* Set every part's first linearization point and limit state. */
-void ls_newton_init(const ls_netlist *nl);
+void ls_newton_init(ls_run *r);
 /* Iterate from op->x (the solution of the system stamped at the parts'
  * present states) until every part has settled and every op-amp limit is
  * consistent; on return op->x, op->v and the stamped system are those of the

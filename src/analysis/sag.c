@@ -53,7 +53,7 @@ static bool touches(const ls_part *q, int node)
 static double draw_of(const ls_op *op, const ls_part *q, int node, ls_triplets *t, double *b)
 {
     ls_sink s = {.mode = SINK_ASSEMBLE, .t = t, .b = b, .scale = 1};
-    ls_stamp_ctx c = {.nl = op->nl, .sink = &s};
+    ls_stamp_ctx c = {.nl = op->nl, .run = &op->run, .sink = &s};
     t->nnz = 0;
     q->kind->stamp(q, &c);
     if (t->failed)
@@ -333,7 +333,7 @@ static int shapley(ls_op *op, ls_sag_report *r, const ls_runs *base)
         orders = 4096 / P < 16 ? 16 : 4096 / P > 256 ? 256 : 4096 / P;
         rc = shapley_sampled(&c, r->alone, phi, orders);
     }
-    ls_runs_restore(op->nl, base);
+    ls_runs_restore(op, base);
     if (c.nomem) /* a combination lost to memory is not one without a solution */
         rc = -1;
     if (rc == 0) {
@@ -424,9 +424,9 @@ static int open_every_port(ls_op *op, ls_sag_report *r, const ls_runs *base, boo
     if (rc == 0) {
         r->alone = v.op.v[r->node];
         int what = -1;
-        if (nonlinear && ls_states_differ(op->nl, base, &what))
+        if (nonlinear && ls_states_differ(&v.op.run, base, &what))
             r->changed = what;
-        ls_runs_restore(op->nl, base);
+        ls_runs_restore(op, base);
         if (nonlinear && ls_variant_solve(&v, op, true) != LS_EXIT_OK) {
             *no_z = true;
             rc = v.op.nomem ? -1 : 0;
@@ -440,7 +440,7 @@ static int open_every_port(ls_op *op, ls_sag_report *r, const ls_runs *base, boo
         rc = 0;
     }
     free(z);
-    ls_runs_restore(op->nl, base);
+    ls_runs_restore(op, base);
     ls_variant_free(&v);
     return rc;
 }
@@ -492,7 +492,7 @@ int ls_sag_connections(ls_op *op, int node, ls_sag_report *r)
     r->alone = r->sag = r->interaction = NAN;
     r->culprit = r->changed = -1;
     ls_runs base = {0};
-    if (collect_ports(op, r) != 0 || ls_runs_save(op->nl, &base) != 0)
+    if (collect_ports(op, r) != 0 || ls_runs_save(op, &base) != 0)
         goto nomem;
     bool no_z = false;
     int rc = r->nports && node > 0 ? open_every_port(op, r, &base, &no_z) : 0;

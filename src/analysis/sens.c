@@ -92,7 +92,7 @@ static double via_terms(ctx *c, int m, const double *lambda, const double *x)
     const ls_netlist *nl = c->op->nl;
     double acc = 0;
     ls_lin dl;
-    ls_part_current(&nl->parts[m], nl, &dl, true);
+    ls_part_current(&nl->parts[m], &c->op->run, &dl, true);
     if (dl.n == 0 && dl.constant == 0)
         return 0;
     for (int v = c->via_start[m]; v < c->via_start[m + 1]; v++) {
@@ -100,7 +100,7 @@ static double via_terms(ctx *c, int m, const double *lambda, const double *x)
         bool cccs = strcmp(p->kind->name, "cccs") == 0;
         /* current lin: rows f, t get +-gain * coef (a cccs); row k gets -rm * coef (a ccvs) */
         int rows[2] = {cccs ? ls_node_unknown(p->pin[0]) : p->branch, cccs ? ls_node_unknown(p->pin[1]) : -1};
-        double w[2] = {cccs ? p->value : -p->value, cccs ? -p->value : 0};
+        double w[2] = {cccs ? ls_run_value(&c->op->run, p) : -ls_run_value(&c->op->run, p), cccs ? -ls_run_value(&c->op->run, p) : 0};
         for (int r = 0; r < 2; r++) {
             if (rows[r] < 0)
                 continue;
@@ -127,7 +127,7 @@ static void adjoint_all(ctx *c, const double *lambda, const double *x, double *g
             continue;
         }
         s.acc = 0;
-        ls_stamp_ctx sc = {.nl = nl, .sink = &s, .derivative = true};
+        ls_stamp_ctx sc = {.nl = nl, .run = &c->op->run, .sink = &s, .derivative = true};
         p->kind->stamp(p, &sc);
         g[m] = s.acc + via_terms(c, m, lambda, x);
     }
@@ -362,11 +362,11 @@ static double explicit_current(ctx *c, int j, int m, int depth)
         return 0;
     if (j == m) {
         ls_lin l;
-        ls_part_current(p, nl, &l, true);
+        ls_part_current(p, &c->op->run, &l, true);
         d += ls_lin_eval(&l, c->op->x);
     }
     if (strcmp(p->kind->name, "cccs") == 0 && p->ref >= 0)
-        d += p->value * explicit_current(c, p->ref, m, depth + 1);
+        d += ls_run_value(&c->op->run, p) * explicit_current(c, p->ref, m, depth + 1);
     return d;
 }
 
@@ -387,7 +387,7 @@ static bool leaf_current(ctx *c, int j, dual *out)
 {
     const ls_netlist *nl = c->op->nl;
     ls_lin l;
-    ls_part_current(&nl->parts[j], nl, &l, false);
+    ls_part_current(&nl->parts[j], &c->op->run, &l, false);
     out->v = c->op->ipart[j];
     if (l.overflow) {
         c->error = "the current depends on too many unknowns for the sensitivity analysis";
@@ -442,15 +442,15 @@ static bool eval(ctx *c, const ls_q *q, dual *out);
 static bool ntc_prop(ctx *c, int j, ls_prop prop, dual *out)
 {
     const ls_part *p = &c->op->nl->parts[j];
-    double t = ls_ntc_body(p);
+    double t = ls_ntc_body(p, &c->op->run);
     if (ls_part_has(p, ls_kind_opt(p->kind, "dissipation"))) {
         c->error = "a self-heating thermistor's resistance and temperature have no adjoint here; use tol or sweep";
         return false;
     }
     memset(out->g, 0, (size_t)c->np * sizeof *out->g);
-    out->v = prop == PROP_TEMPERATURE ? t : ls_ntc_r(p, t);
+    out->v = prop == PROP_TEMPERATURE ? t : ls_ntc_r(p, &c->op->run, t);
     if (prop == PROP_RESISTANCE)
-        out->g[j] = out->v / p->value;
+        out->g[j] = out->v / ls_run_value(&c->op->run, p);
     return true;
 }
 
@@ -574,7 +574,7 @@ static bool eval_prop(ctx *c, const ls_q *q, dual *out)
     case PROP_VALUE:
         /* d(value of j)/d(value of m) is 1 for m = j */
         memset(out->g, 0, (size_t)c->np * sizeof *out->g);
-        out->v = p->value;
+        out->v = ls_run_value(&c->op->run, p);
         if (has_main(p))
             out->g[q->index] = 1;
         return true;
@@ -745,9 +745,9 @@ int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
         if (!has_main(p))
             continue;
         it[k].part = m;
-        it[k].nominal = p->value;
+        it[k].nominal = ls_run_value(&op->run, p);
         it[k].derivative = d.g[m];
-        it[k].normalized = d.v != 0 ? p->value / d.v * d.g[m] : NAN;
+        it[k].normalized = d.v != 0 ? ls_run_value(&op->run, p) / d.v * d.g[m] : NAN;
         k++;
     }
     qsort(it, (size_t)k, sizeof *it, by_norm);

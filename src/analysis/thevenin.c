@@ -21,7 +21,7 @@ static double loaded_exact(ls_op *op, int node, int opened, double r, char *limi
     ls_variant v;
     double out = NAN;
     snprintf(limited, n, "unsolved");
-    if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
+    if (ls_runs_save(op, &base) != 0 || ls_variant_init(&v, op) != 0) {
         ls_runs_free(&base);
         *nomem = true;
         return NAN;
@@ -32,11 +32,11 @@ static double loaded_exact(ls_op *op, int node, int opened, double r, char *limi
     int held = ls_variant_hold_floating(&v, op);
     if (held >= 0 && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
         out = v.op.v[node];
-        ls_limits_in_force(op->nl, &base, limited, n);
+        ls_limits_in_force(&v.op.run, &base, limited, n);
     } else if (held < 0 || v.op.nomem) {
         *nomem = true;
     }
-    ls_runs_restore(op->nl, &base);
+    ls_runs_restore(op, &base);
     ls_runs_free(&base);
     ls_variant_free(&v);
     return out;
@@ -100,7 +100,7 @@ static double opened_voltage(ls_op *op, int pi, int node, const char **why, bool
     ls_variant v;
     double out = NAN;
     *why = NULL;
-    if (ls_runs_save(op->nl, &base) != 0 || ls_variant_init(&v, op) != 0) {
+    if (ls_runs_save(op, &base) != 0 || ls_variant_init(&v, op) != 0) {
         ls_runs_free(&base);
         *why = "unsolved";
         *nomem = true;
@@ -118,7 +118,7 @@ static double opened_voltage(ls_op *op, int pi, int node, const char **why, bool
             *why = "unsolved";
         *nomem |= v.op.nomem;
     }
-    ls_runs_restore(op->nl, &base);
+    ls_runs_restore(op, &base);
     ls_runs_free(&base);
     ls_variant_free(&v);
     return out;

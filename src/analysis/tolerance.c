@@ -7,10 +7,12 @@
  * kept; beyond that it takes the linear worst case from the sensitivities (and
  * their root-sum-square).  The Monte Carlo run draws trial i from stream i of
  * PCG32 (rng.h) seeded from the run's seed and i, so a seed gives the same
- * numbers on every machine and with any number of threads; each thread owns
- * a copy of the parts and its own operating point. */
+ * numbers on every machine and with any number of threads; the threads share
+ * the netlist's parts (only read) and each owns its operating point, whose
+ * run (run.h) holds the trial's values and the parts' states. */
 #include "analysis/tolerance.h"
 
+#include <assert.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdatomic.h>
@@ -47,6 +49,7 @@ bool ls_q_same(const ls_q *a, const ls_q *b)
                 return false;
         return true;
     }
+    assert(!"a bound quantity of no known kind");
     return false;
 }
 
@@ -68,6 +71,7 @@ static int matching_checks(const ls_netlist *nl, const ls_q *q, int **out)
 
 typedef struct mc_job {
     const ls_netlist *base;        /* the session's netlist, only read */
+    const ls_run *start;           /* the solved op's run: the values the trials vary about */
     ls_options opt;
     const ls_q *q;
     const ls_tol_vary *v;
@@ -94,86 +98,65 @@ typedef struct mc_worker {
     atomic_bool finished;          /* the worker has returned */
 } mc_worker;
 
-/* Draw the part values of trial i into parts[] (a function of (seed, i) alone). */
-static void draw_trial(const mc_job *job, ls_part *parts, long i)
+/* Draw the part values of trial i into run (a function of (seed, i) alone).
+ * 0, or -1 when out of memory. */
+static int draw_trial(const mc_job *job, ls_run *run, long i)
 {
     ls_rng r;
     ls_rng_seed_trial(&r, job->seed, (uint64_t)i);
     for (int j = 0; j < job->nv; j++) {
         double d = job->normal ? ls_rng_normal(&r) * job->v[j].tol / 3 : ls_rng_uniform_pm1(&r) * job->v[j].tol;
-        parts[job->v[j].part].value = job->v[j].nominal * (1 + d);
+        if (ls_run_set_value(run, job->v[j].part, job->v[j].nominal * (1 + d)) != 0)
+            return -1;
     }
+    return 0;
 }
 
-/* Point the copied parts at analysis states of their own (a copy shares the
- * base netlist's): *runs gets one for every part that has one, in part
- * order.  Returns their number, or -1 when out of memory. */
-static int own_runs(ls_part *parts, int n, ls_part_run **runs)
-{
-    int k = 0;
-    for (int i = 0; i < n; i++)
-        k += parts[i].run != NULL;
-    *runs = malloc((size_t)(k ? k : 1) * sizeof **runs);
-    if (!*runs)
-        return -1;
-    k = 0;
-    for (int i = 0; i < n; i++)
-        if (parts[i].run) {
-            (*runs)[k] = *parts[i].run;
-            parts[i].run = &(*runs)[k++];
-        }
-    return k;
-}
-
-/* Thread body: a private netlist (its own parts, their analysis states and
- * diagnostics) and operating point; fills job->value and job->pass for its
- * trials. */
+/* Thread body: the shared netlist's record with diagnostics of its own (the
+ * parts are the session's, only read) and an operating point of its own;
+ * fills job->value and job->pass for its trials. */
 static void *mc_run(void *arg)
 {
     mc_worker *w = arg;
     mc_job *job = w->job;
+    /* Trials need their value to the statistics' accuracy, not per-trial
+     * bounds: no extra-precise refinement and no error bounds (the
+     * session's nominal solve keeps both). */
+    ls_options opt = job->opt;
+    opt.trial = true;
+    opt.no_bounds = true;
     ls_arena arena;
     ls_diags diags;
     ls_arena_init(&arena);
     ls_diags_init(&diags, &arena);
-    ls_netlist nl = *job->base;
+    ls_netlist nl = *job->base;   /* the record only: its parts stay the session's */
     nl.diags = &diags;
-    nl.parts = malloc((size_t)(nl.nparts ? nl.nparts : 1) * sizeof *nl.parts);
-    size_t psize = (size_t)(nl.nparts ? nl.nparts : 1) * sizeof *nl.parts;
-    ls_part *nominal = malloc(psize);
+    opt.start = job->start;
+    opt.keep_states = false;
     double *x0 = NULL;
-    ls_part_run *runs = NULL, *nominal_runs = NULL;
-    int nruns = -1;
+    ls_run nominal = {0};
     ls_op op;
-    bool have_op = false;
+    bool have_op = true;
     w->status = -1;
-    if (nl.parts && nominal) {
-        if (nl.nparts > 0) /* a circuit with no parts has no part table (memcpy from NULL is undefined) */
-            memcpy(nl.parts, job->base->parts, (size_t)nl.nparts * sizeof *nl.parts);
-        nruns = own_runs(nl.parts, nl.nparts, &runs);
-        nominal_runs = malloc((size_t)(nruns > 0 ? nruns : 1) * sizeof *nominal_runs);
-    }
-    if (nruns >= 0 && nominal_runs) {
-        have_op = true;
-        if (ls_op_solve(&op, &nl, &job->opt) == LS_EXIT_OK) {
-            /* Every trial starts from the nominal solution and part states, so a
-             * trial's result does not depend on the trial solved before it. */
-            memcpy(nominal, nl.parts, psize);
-            memcpy(nominal_runs, runs, (size_t)nruns * sizeof *runs);
-            x0 = malloc((size_t)(op.mna.n ? op.mna.n : 1) * sizeof *x0);
-            if (x0) {
-                if (op.mna.n > 0)
-                    memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
-                w->status = 0;
-            }
+    if (ls_op_solve(&op, &nl, &opt) == LS_EXIT_OK && ls_run_init(&nominal, &nl) == 0 &&
+        ls_run_copy(&nominal, &op.run) == 0 && (job->nv == 0 || ls_run_set_value(&nominal, job->v[0].part,
+                                                                                  job->v[0].nominal) == 0)) {
+        /* Every trial starts from the nominal solution and part states, so a
+         * trial's result does not depend on the trial solved before it. */
+        x0 = malloc((size_t)(op.mna.n ? op.mna.n : 1) * sizeof *x0);
+        if (x0) {
+            if (op.mna.n > 0)
+                memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
+            w->status = 0;
         }
     }
     for (long i = w->first; w->status == 0 && i < w->last; i++) {
-        memcpy(nl.parts, nominal, psize);
-        memcpy(runs, nominal_runs, (size_t)nruns * sizeof *runs);
         if (op.mna.n > 0)
             memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
-        draw_trial(job, nl.parts, i);
+        if (ls_run_copy(&op.run, &nominal) != 0 || draw_trial(job, &op.run, i) != 0) {
+            w->status = -2;
+            break;
+        }
         if (ls_op_resolve(&op) != LS_EXIT_OK) {
             if (op.nomem) { /* not a trial that has no solution: the study cannot go on */
                 w->status = -2;
@@ -198,10 +181,7 @@ static void *mc_run(void *arg)
     if (have_op)
         ls_op_free(&op);
     free(x0);
-    free(nominal);
-    free(nominal_runs);
-    free(runs);
-    free(nl.parts);
+    ls_run_free(&nominal);
     ls_diags_free(&diags);
     ls_arena_free(&arena);
     atomic_store(&w->finished, true);
@@ -355,11 +335,22 @@ static int mc_stats(const mc_job *job, bool want_yield, ls_tol_result *r)
 
 /* ---- worst case ---------------------------------------------------------------------------- */
 
-/* Set the varying parts to the corner `mask` (bit j: part j at +tol). */
-static void set_corner(ls_netlist *nl, const ls_tol_vary *v, int nv, unsigned long mask)
+/* Set the varying parts to the corner `mask` (bit j: part j at +tol) in
+ * run.  0, or -1 when out of memory. */
+static int set_corner(ls_run *run, const ls_tol_vary *v, int nv, unsigned long mask)
 {
     for (int j = 0; j < nv; j++)
-        nl->parts[v[j].part].value = v[j].nominal * (1 + ((mask >> j) & 1 ? v[j].tol : -v[j].tol));
+        if (ls_run_set_value(run, v[j].part, v[j].nominal * (1 + ((mask >> j) & 1 ? v[j].tol : -v[j].tol))) != 0)
+            return -1;
+    return 0;
+}
+
+/* The varying parts back at nominal in run (no memory is needed: each has a
+ * value of its own there once set). */
+static void set_nominal(ls_run *run, const ls_tol_vary *v, int nv)
+{
+    for (int j = 0; j < nv; j++)
+        (void)ls_run_set_value(run, v[j].part, v[j].nominal);
 }
 
 /* Every corner, re-solved; the nominal value is included.  The parts are back
@@ -379,7 +370,8 @@ static int corners(ls_tol_study *t)
     t->nl->diags = &scratch;   /* a singular corner is counted, not reported as an error */
     bool nomem = false;
     for (unsigned long m = 0; m < (1ul << nv) && !nomem; m++) {
-        set_corner(t->nl, v, nv, m);
+        if ((nomem = set_corner(&t->op->run, v, nv, m) != 0))
+            break;
         double x = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
         if ((nomem = t->op->nomem))   /* no memory is no property of the corner */
             break;
@@ -393,8 +385,7 @@ static int corners(ls_tol_study *t)
             r->wc_max = x, r->wc_max_mask = m;
         any = true;
     }
-    for (int j = 0; j < nv; j++)
-        t->nl->parts[v[j].part].value = v[j].nominal;
+    set_nominal(&t->op->run, v, nv);
     int st = ls_op_resolve(t->op);
     t->nl->diags = keep;
     ls_diags_free(&scratch);
@@ -420,17 +411,16 @@ static int corners(ls_tol_study *t)
  * cannot handle the quantity).  Returns 0, or an exit code. */
 static int fd_derivatives(ls_tol_study *t, double *dq)
 {
-    ls_part *parts = t->nl->parts;
+    ls_run *run = &t->op->run;
     for (int j = 0; j < t->nv; j++) {
-        ls_part *pt = &parts[t->v[j].part];
+        int part = t->v[j].part;
         double p = t->v[j].nominal, h = fabs(p) * 1e-6;
-        pt->value = p + h;
-        double a = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
-        bool nomem = t->op->nomem;
-        pt->value = p - h;
+        bool nomem = ls_run_set_value(run, part, p + h) != 0;
+        double a = !nomem && ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        nomem |= t->op->nomem || ls_run_set_value(run, part, p - h) != 0;
         double b = !nomem && ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
         nomem |= t->op->nomem;
-        pt->value = p;
+        (void)ls_run_set_value(run, part, p);
         if (nomem) {
             ls_op_resolve(t->op);   /* back at nominal, if memory allows */
             t->failed_stage = "the sensitivities";
@@ -498,7 +488,7 @@ static int linear_wc(ls_tol_study *t)
 /* ---- the study ----------------------------------------------------------------------------- */
 
 /* The varying parts, into *out (caller frees).  Returns the count, -1 on no memory. */
-static int varying_parts(const ls_netlist *nl, ls_tol_vary **out)
+static int varying_parts(const ls_netlist *nl, const ls_run *run, ls_tol_vary **out)
 {
     *out = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof **out);
     if (!*out)
@@ -508,7 +498,7 @@ static int varying_parts(const ls_netlist *nl, ls_tol_vary **out)
         const ls_part *p = &nl->parts[i];
         double t = ls_part_opt(p, "tol", 0);
         if (p->has_value && t > 0)
-            (*out)[n++] = (ls_tol_vary){.part = i, .nominal = p->value, .tol = t};
+            (*out)[n++] = (ls_tol_vary){.part = i, .nominal = ls_run_value(run, p), .tol = t};
     }
     return n;
 }
@@ -540,7 +530,7 @@ int ls_tol_run(ls_tol_study *t)
     t->checks = NULL;
     t->values = NULL;
     memset(&t->r, 0, sizeof t->r);
-    t->nv = varying_parts(t->nl, &t->v);
+    t->nv = varying_parts(t->nl, &t->op->run, &t->v);
     t->nchecks = matching_checks(t->nl, t->q, &t->checks);
     t->failed_stage = "the varying parts";
     if (t->nv < 0 || t->nchecks < 0)
@@ -556,7 +546,7 @@ int ls_tol_run(ls_tol_study *t)
         nothing_varies(t);
         return 0;
     }
-    mc_job job = {.base = t->nl, .opt = t->op->opt, .q = t->q, .v = t->v, .nv = t->nv, .checks = t->checks,
+    mc_job job = {.base = t->nl, .start = &t->op->run, .opt = t->op->opt, .q = t->q, .v = t->v, .nv = t->nv, .checks = t->checks,
                   .nchecks = t->nchecks, .trials = t->trials, .seed = t->seed, .normal = t->normal,
                   .progress = t->progress, .progress_ctx = t->progress_ctx};
     job.value = malloc((size_t)t->trials * sizeof *job.value);
@@ -605,11 +595,11 @@ void ls_tol_free(ls_tol_study *t)
 int ls_tol_trials(const ls_netlist *nl, const ls_op *op, const ls_q *q, long trials, uint64_t seed, double **values)
 {
     ls_tol_vary *v;
-    int nv = varying_parts(nl, &v);
+    int nv = varying_parts(nl, &op->run, &v);
     *values = NULL;
     if (nv < 0)
         return -1;
-    mc_job job = {.base = nl, .opt = op->opt, .q = q, .v = v, .nv = nv, .trials = trials, .first = 0,
+    mc_job job = {.base = nl, .start = &op->run, .opt = op->opt, .q = q, .v = v, .nv = nv, .trials = trials, .first = 0,
                   .last = trials, .seed = seed};
     job.value = malloc((size_t)trials * sizeof *job.value);
     job.pass = malloc((size_t)trials);
@@ -628,11 +618,11 @@ int ls_tol_pass_rate(const ls_netlist *nl, const ls_op *op, long trials, uint64_
                      bool (*accept)(void *ctx, ls_op *op), void *ctx, double *rate)
 {
     ls_tol_vary *v;
-    int nv = varying_parts(nl, &v);
+    int nv = varying_parts(nl, &op->run, &v);
     *rate = NAN;
     if (nv < 0)
         return -1;
-    mc_job job = {.base = nl, .opt = op->opt, .v = v, .nv = nv, .trials = trials, .first = 0, .last = trials,
+    mc_job job = {.base = nl, .start = &op->run, .opt = op->opt, .v = v, .nv = nv, .trials = trials, .first = 0, .last = trials,
                   .seed = seed, .normal = normal, .accept = accept, .accept_ctx = ctx};   /* one process: every trial */
     job.value = malloc((size_t)trials * sizeof *job.value);
     job.pass = malloc((size_t)trials);

@@ -9,33 +9,28 @@
 
 /* ---- saved part states ---------------------------------------------------------------------- */
 
-/* Every part's state into r->saved (freed by ls_runs_free).  0, or -1 no memory. */
-int ls_runs_save(const ls_netlist *nl, ls_runs *r)
+/* A copy of op's run into r (freed by ls_runs_free).  0, or -1 no memory. */
+int ls_runs_save(const ls_op *op, ls_runs *r)
 {
-    r->n = nl->nparts;
-    r->saved = calloc((size_t)(r->n ? r->n : 1), sizeof *r->saved);
-    if (!r->saved)
+    if (ls_run_init(&r->run, op->nl) != 0 || ls_run_copy(&r->run, &op->run) != 0) {
+        ls_run_free(&r->run);
         return -1;
-    for (int i = 0; i < r->n; i++)
-        if (nl->parts[i].run)
-            r->saved[i] = *nl->parts[i].run;
+    }
     return 0;
 }
 
-/* The saved states back into the parts. */
-void ls_runs_restore(const ls_netlist *nl, const ls_runs *r)
+/* The saved run back into op (the values too: a study may have changed them).
+ * Out of memory for the values leaves op's values the netlist's, which is
+ * what a saved run without its own values holds anyway. */
+void ls_runs_restore(ls_op *op, const ls_runs *r)
 {
-    for (int i = 0; i < r->n && i < nl->nparts; i++)
-        if (nl->parts[i].run)
-            *nl->parts[i].run = r->saved[i];
+    (void)ls_run_copy(&op->run, &r->run);
 }
 
-/* Frees the saved states; r may be zeroed or already freed. */
+/* Frees the saved run; r may be zeroed or already freed. */
 void ls_runs_free(ls_runs *r)
 {
-    free(r->saved);
-    r->saved = NULL;
-    r->n = 0;
+    ls_run_free(&r->run);
 }
 
 /* ---- the variant ------------------------------------------------------------------------------ */
@@ -114,6 +109,7 @@ int ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only)
     ls_options o = base->opt;
     o.opened = v->opened;
     o.ties = v->ties;
+    o.start = &base->run; /* base's values, and with linear_only its states */
     o.keep_states = linear_only;
     o.linear_only = linear_only;
     o.no_bounds = true; /* an inner solve: its digits are not printed as they are */
@@ -141,7 +137,7 @@ void ls_variant_free(ls_variant *v)
  * whose state is its junction's conduction. */
 static bool is_junction(const ls_part *p)
 {
-    return p->run && p->kind->is_junction;
+    return p->slot >= 0 && p->kind->is_junction;
 }
 
 /* Small-signal conductance (S) of a junction at vj, by a central difference
@@ -155,9 +151,9 @@ static double junction_g(const ls_part *p, double vj)
 
 /* +1 when the junction conducts more than tenfold better now than in the
  * saved state (it turned on), -1 tenfold worse (off), 0 otherwise. */
-static int junction_change(const ls_part *p, const ls_part_run *saved)
+static int junction_change(const ls_part *p, const ls_part_run *state, const ls_part_run *saved)
 {
-    double now = junction_g(p, p->run->op_v), then = junction_g(p, saved->op_v);
+    double now = junction_g(p, state->op_v), then = junction_g(p, saved->op_v);
     if (!(now > 0) || !(then > 0))
         return 0;
     return now > 10 * then ? 1 : then > 10 * now ? -1 : 0;
@@ -165,14 +161,15 @@ static int junction_change(const ls_part *p, const ls_part_run *saved)
 
 /* First op-amp whose limit state, or junction whose conduction, differs from
  * the saved state (see variant.h). */
-bool ls_states_differ(const ls_netlist *nl, const ls_runs *saved, int *what)
+bool ls_states_differ(const ls_run *now, const ls_runs *saved, int *what)
 {
-    for (int i = 0; i < nl->nparts && i < saved->n; i++) {
+    const ls_netlist *nl = now->nl;
+    for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (!p->run)
+        if (p->slot < 0)
             continue;
-        bool d = p->kind->is_opamp ? p->run->state != saved->saved[i].state
-                                   : is_junction(p) && junction_change(p, &saved->saved[i]) != 0;
+        const ls_part_run *s = ls_run_state(now, p), *then = ls_run_state(&saved->run, p);
+        bool d = p->kind->is_opamp ? s->state != then->state : is_junction(p) && junction_change(p, s, then) != 0;
         if (d) {
             if (what)
                 *what = i;
@@ -183,18 +180,19 @@ bool ls_states_differ(const ls_netlist *nl, const ls_runs *saved, int *what)
 }
 
 /* The limits in force and the junctions that changed, as words (see variant.h). */
-int ls_limits_in_force(const ls_netlist *nl, const ls_runs *saved, char *buf, size_t n)
+int ls_limits_in_force(const ls_run *now, const ls_runs *saved, char *buf, size_t n)
 {
+    const ls_netlist *nl = now->nl;
     int found = 0;
     size_t len = 0;
     buf[0] = 0;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         const char *word = NULL;
-        if (p->kind->is_opamp && p->run && p->run->state != LS_LIM_NONE)
-            word = ls_opamp_limit_word(p);
-        else if (is_junction(p) && saved && i < saved->n) {
-            int c = junction_change(p, &saved->saved[i]);
+        if (p->kind->is_opamp && p->slot >= 0 && ls_run_state(now, p)->state != LS_LIM_NONE)
+            word = ls_opamp_limit_word(p, now);
+        else if (is_junction(p) && saved) {
+            int c = junction_change(p, ls_run_state(now, p), ls_run_state(&saved->run, p));
             word = c > 0 ? "on" : c < 0 ? "off" : NULL;
         }
         if (!word)

@@ -10,19 +10,17 @@
 
 #include "analysis/analysis.h"
 
-/* Every part's analysis state (op-amp limits, junction linearization points),
- * saved so that a variant's solve can be undone: a variant shares the parts
- * of the circuit it comes from. */
+/* A solved operating point's run (its parts' states and values, run.h)
+ * saved, so a study can go back to it and compare a variant's states with it. */
 typedef struct ls_runs {
-    ls_part_run *saved;      /* per part; meaningful where the part has a run */
-    int n;
+    ls_run run;
 } ls_runs;
 
-/* Save every part's state of nl into r (allocated; ls_runs_free frees).
- * 0 ok, -1 out of memory. */
-int ls_runs_save(const ls_netlist *nl, ls_runs *r);
-/* Put the saved states back. */
-void ls_runs_restore(const ls_netlist *nl, const ls_runs *r);
+/* Save op's run into r (allocated; ls_runs_free frees).  0 ok, -1 out of
+ * memory. */
+int ls_runs_save(const ls_op *op, ls_runs *r);
+/* Put the saved run back into op. */
+void ls_runs_restore(ls_op *op, const ls_runs *r);
 void ls_runs_free(ls_runs *r);
 
 typedef struct ls_variant {
@@ -47,22 +45,22 @@ int ls_variant_init(ls_variant *v, const ls_op *base);
  * side that nothing else sets (an op-amp input) stays where it was.  Returns
  * the number of floating nodes, or -1 out of memory. */
 int ls_variant_hold_floating(ls_variant *v, const ls_op *base);
-/* Solve the variant: from the circuit's first linearization points with
- * every limit free (cold), or, with linear_only, one linear solve at the
- * parts' present states (the system linearized at base's solution).  The
- * parts' states are left as the variant's solve leaves them: restore them
- * with ls_runs_restore before base is used again.  Returns an exit code
+/* Solve the variant with base's part values: from the circuit's first
+ * linearization points with every limit free (cold), or, with linear_only,
+ * one linear solve at base's states (the system linearized at base's
+ * solution).  The states of the solve are the variant's own (v->op.run);
+ * base's are not touched.  Returns an exit code
  * (LS_EXIT_OK, or LS_EXIT_UNSOLVABLE with the reason in v->diags). */
 int ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only);
 void ls_variant_free(ls_variant *v);
 
-/* The limits in force in the parts' present states, and the junctions whose
+/* The limits in force in run now (a variant's), and the junctions whose
  * state differs from the saved one (conductance changed more than tenfold),
  * as "u1 current, d1 on" into buf; "none" when there is none.  Returns the
  * number of limits and changes found. */
-int ls_limits_in_force(const ls_netlist *nl, const ls_runs *saved, char *buf, size_t n);
-/* Does any op-amp limit or junction state of the present states differ from
- * the saved ones?  *what (may be NULL) gets the first such part's index. */
-bool ls_states_differ(const ls_netlist *nl, const ls_runs *saved, int *what);
+int ls_limits_in_force(const ls_run *now, const ls_runs *saved, char *buf, size_t n);
+/* Does any op-amp limit or junction state of run now differ from the saved
+ * ones?  *what (may be NULL) gets the first such part's index. */
+bool ls_states_differ(const ls_run *now, const ls_runs *saved, int *what);
 
 #endif

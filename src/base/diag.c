@@ -1,6 +1,7 @@
 /* diag.c — diagnostics: collection and printing with the source line and a caret. */
 #include "base/diag.h"
 
+#include <assert.h>
 #include <stdarg.h>
 #include <stdint.h>
 #include <stdlib.h>
@@ -265,6 +266,7 @@ void ls_diags_print_sel(const ls_diags *d, FILE *out, bool (*skip)(const ls_diag
             continue;
         if (g->loc.file >= 0) {
             char where[512];
+            assert(g->sev >= 0 && (size_t)g->sev < sizeof sev / sizeof sev[0]);
             fprintf(out, "%s: %s: %s\n", ls_loc_str(d, g->loc, where, sizeof where),
                     sev[g->sev], g->msg);
             print_excerpt(d, g->loc, out);

@@ -285,7 +285,7 @@ static void opamps_section(FILE *o, ls_report *rp, ls_op *op)
         cell_num(o, rp, op->v[p->pin[2]], "V");
         cell_num(o, rp, op->ipart[i], "A");
         cell_num(o, rp, ls_opamp_dissipation(op, i), "W");
-        cell(o, ls_opamp_limit_word(p));
+        cell(o, ls_opamp_limit_word(p, &op->run));
         fputs("</tr>\n", o);
     }
     if (any)

@@ -2,6 +2,7 @@
 #include "mna/mna.h"
 #include "base/unionfind.h"
 
+#include <assert.h>
 #include <float.h>
 #include <limits.h>
 #include <math.h>
@@ -127,7 +128,8 @@ static int flush_into_pattern(ls_mna *m, size_t *covered)
 void ls_mna_stamp_part(const ls_mna *m, int i, ls_sink *sink)
 {
     unsigned char how = m->opened ? m->opened[i] : 0;
-    ls_stamp_ctx c = {.nl = m->nl, .sink = sink, .removed = how == LS_OPENED, .buffered = how == LS_BUFFERED};
+    ls_stamp_ctx c = {.nl = m->nl, .run = ls_mna_run(m), .sink = sink, .removed = how == LS_OPENED,
+                      .buffered = how == LS_BUFFERED};
     m->nl->parts[i].kind->stamp(&m->nl->parts[i], &c);
 }
 
@@ -243,13 +245,17 @@ static int stamp_all(ls_mna *m)
 
 int ls_mna_build(ls_mna *m, const ls_netlist *nl)
 {
-    return ls_mna_build_variant(m, nl, NULL, NULL);
+    return ls_mna_build_variant(m, nl, NULL, NULL, NULL);
 }
 
-int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *opened, const ls_tie *ties)
+int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const ls_run *run, const unsigned char *opened,
+                         const ls_tie *ties)
 {
     memset(m, 0, sizeof *m);
     m->nl = nl;
+    m->run = run;
+    if (!run && ls_run_init(&m->own, nl) != 0)
+        return -1;
     m->opened = opened;
     m->ties = ties;
     m->nn = nl->nnodes - 1;
@@ -264,9 +270,9 @@ int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *o
     int k = m->nn;
     size_t guess = 16;
     for (int i = 0; i < nl->nparts; i++) {
-        ls_part *p = &nl->parts[i];
+        const ls_part *p = &nl->parts[i];
         int c = p->kind->branches(p), np = p->kind->npins;
-        p->branch = c ? k : -1;
+        assert(p->branch == (c ? k : -1)); /* numbered once by the elaborator */
         for (int j = 0; j < c; j++)
             m->branch_part[k - m->nn + j] = i;
         k += c;
@@ -290,6 +296,7 @@ void ls_mna_free(ls_mna *m)
     ls_csc_free(&m->a);
     free(m->b);
     free(m->branch_part);
+    ls_run_free(&m->own);
     memset(m, 0, sizeof *m);
 }
 

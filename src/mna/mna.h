@@ -16,6 +16,8 @@ typedef struct ls_tie {
 
 typedef struct ls_mna {
     const ls_netlist *nl;
+    const ls_run *run;     /* the parts' states and values stamped (the operating point's), or NULL: own */
+    ls_run own;            /* without a run: cleared states and the netlist's values */
     int nn;                /* node unknowns: nnodes - 1 */
     int n;                 /* all unknowns: nodes, then branch currents */
     int *branch_part;      /* for each branch unknown (index - nn): its part */
@@ -32,13 +34,18 @@ typedef struct ls_mna {
     const ls_tie *ties;            /* per node, or NULL: a conductance to a fixed voltage */
 } ls_mna;
 
-/* Number branch unknowns and stamp every part.  0 ok, -1 out of memory. */
+/* Stamp every part of nl with cleared states and the netlist's values (the
+ * branch unknowns are the elaborator's).  0 ok, -1 out of memory. */
 int ls_mna_build(ls_mna *m, const ls_netlist *nl);
-/* The same for a variant: the parts marked in opened (per part, or NULL) are
+/* The same in run (its states and values; NULL: as ls_mna_build), which
+ * must outlive m, and for a variant: the parts marked in opened (per part, or NULL) are
  * stamped as removed (LS_OPENED) or, for a port, as delivering its driver's
  * voltage without drawing on the driver (LS_BUFFERED), and every node with ties[node].g > 0 (per node, or NULL)
  * gets its tie; both arrays must outlive m. */
-int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *opened, const ls_tie *ties);
+int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const ls_run *run, const unsigned char *opened,
+                         const ls_tie *ties);
+/* The run m stamps: its caller's, or its own. */
+static inline const ls_run *ls_mna_run(const ls_mna *m) { return m->run ? m->run : &m->own; }
 /* Re-stamp the values after part values changed.  When every entry lands in
  * the pattern of the last assembly and fills all of it, the values are summed
  * straight into m->a (same arrays, same pattern, the same numbers compression

@@ -4,6 +4,7 @@
 #include "netlist/elab.h"
 #include "base/unionfind.h"
 
+#include <assert.h>
 #include <limits.h>
 #include <math.h>
 #include <stdlib.h>
@@ -147,6 +148,8 @@ static const char *qualify(elab *x, const scope *s, const char *name)
 static const char *ent_what(ls_ent_kind k)
 {
     static const char *const w[] = {"node", "pin", "part", "instance", "parameter", "block"};
+    _Static_assert(sizeof w / sizeof w[0] == ENT_BLOCK + 1, "one word per ls_ent_kind");
+    assert(k >= ENT_NODE && k <= ENT_BLOCK);
     return w[k];
 }
 
@@ -397,6 +400,7 @@ static bool call_dims(elab *x, const ls_expr *e, const ls_dims *ad, ls_dims *out
 static bool arity_ok(elab *x, const ls_expr *e)
 {
     static const char *const names[F_COUNT] = {"sqrt", "abs", "min", "max", "exp", "ln", "log10"};
+    assert(e->op >= 0 && e->op < F_COUNT);
     bool many = e->op == F_MIN || e->op == F_MAX;
     if ((many && e->nargs < 1) || (!many && e->nargs != 1)) {
         ls_error(x->d, e->loc, "'%s' takes %s", names[e->op], many ? "one or more arguments" : "one argument");
@@ -548,6 +552,7 @@ const char *ls_prop_name(ls_prop p)
                                               "sag", "sag_rel", "zout", "zin", "ratio", "budget",
                                               "value", "code", "error_lsb", "unloaded", "source",
                                               "resistance", "temperature"};
+    assert(p >= 0 && p < PROP_COUNT);
     return n[p];
 }
 
@@ -1173,13 +1178,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     if (!p.name)
         return;
     p.instance = s->prefix[0] ? s->prefix : NULL;
-    if (k->has_run) {
-        p.run = ls_arena_alloc(x->a, sizeof *p.run);
-        if (!p.run) {
-            out_of_memory(x);
-            return;
-        }
-    }
+    p.slot = -1;
     int errs = x->d->errors;
 
     if (k->shape == SHAPE_TWO && !st->arrow) {
@@ -1929,6 +1928,24 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
     return ok;
 }
 
+/* Number the branch unknowns once, here, for every solve of the netlist: a
+ * part's first is nnodes - 1 plus the branches of the parts before it, -1
+ * for a part without one; and the analysis states' slots in a run (run.h).
+ * The MNA builder reads them and never writes (one netlist may back several
+ * solves at once). */
+static void number_branches(ls_netlist *nl)
+{
+    int k = nl->nnodes - 1;
+    nl->nstates = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_part *p = &nl->parts[i];
+        int c = p->kind->branches(p);
+        p->branch = c ? k : -1;
+        k += c;
+        p->slot = p->kind->has_run ? nl->nstates++ : -1;
+    }
+}
+
 int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl)
 {
     elab x;
@@ -1961,6 +1978,7 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
     resolve_refs(&x);
     check_budgets(&x);
     final_checks(&x);
+    number_branches(nl);
     /* names and syntax live in the arena: a failed allocation there may have
      * left a name or a value out */
     if (d->arena->failed)

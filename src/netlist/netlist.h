@@ -33,7 +33,8 @@ typedef struct ls_node {
     bool claimed;          /* a block body declared it */
 } ls_node;
 
-/* Analysis state, written by the operating-point iteration (analysis.c,
+/* Analysis state of one part in one solve (kept in an ls_run, run.h, not in
+ * the netlist), written by the operating-point iteration (analysis.c,
  * newton.c) and read by the stamps, so every analysis that re-stamps the
  * system (ports, sag, influence) sees the circuit linearized at its solution.
  * Only sources, op-amps, junctions, thermistors and ADC inputs have one. */
@@ -64,15 +65,16 @@ typedef struct ls_part {
                               slots, zeroed, for kinds that take a range option, else NULL */
     const char *ref_name;  /* via= as written, resolved after elaboration */
     const char *ref_scope;
-    double value;          /* the main value (resistance, voltage, gain, ...) */
-    ls_part_run *run;      /* analysis state for kinds that have one (ls_kind.has_run), else NULL */
+    double value;          /* the main value (resistance, voltage, gain, ...) as elaborated; a solve
+                              reads it through its run (ls_run_value: a study may change it) */
     ls_loc loc;            /* the name in the statement */
     ls_loc value_loc;
     ls_loc ref_loc;
     int pin[LS_MAX_PINS];  /* node indices; -1 when not given */
     uint32_t has_opt;      /* bit i: option i was given */
     int ref;               /* via= part index, -1 */
-    int branch;            /* first MNA branch unknown, -1 if none (set by the MNA builder) */
+    int branch;            /* first MNA branch unknown, -1 if none (numbered once by the elaborator) */
+    int slot;              /* its analysis state's index in a run (ls_run.state), -1: its kind keeps none */
     bool has_value;
 } ls_part;
 _Static_assert(LS_MAX_OPTS <= 32, "ls_part.has_opt holds one bit per option");
@@ -153,6 +155,7 @@ typedef struct ls_netlist {
     int nnodes, cap_nodes;
     ls_part *parts;
     int nparts, cap_parts;
+    int nstates;           /* parts with an analysis state (ls_part.slot 0 .. nstates - 1) */
     ls_check *checks;
     int nchecks, cap_checks;
     ls_param *params;

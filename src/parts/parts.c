@@ -5,6 +5,7 @@
  * from FROM to TO (for an op-amp: out of the output into `out`). */
 #include "parts/parts.h"
 
+#include <assert.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -16,6 +17,7 @@ void ls_sink_a(ls_sink *s, int row, int col, double v)
     if (row < 0 || col < 0 || v == 0)
         return;
     v *= s->scale;
+    assert(s->mode == SINK_ASSEMBLE || s->mode == SINK_ADJOINT || s->mode == SINK_RESIDUAL);
     if (s->mode == SINK_ADJOINT) {
         s->acc -= s->lambda[row] * v * s->x[col];
         return;
@@ -114,9 +116,9 @@ static void branch_rise(ls_sink *s, int from, int to, int k)
 void ls_stamp_conductance(ls_sink *s, int a, int b, double g) { conductance(s, a, b, g); }
 
 /* Scale of a source's value while the sources are ramped up. */
-static double src_scale(const ls_part *p)
+static double src_scale(const ls_part *p, const ls_run *run)
 {
-    return 1 - p->run->src_cut;
+    return 1 - ls_run_state(run, p)->src_cut;
 }
 
 static void lin_add(ls_lin *l, int idx, double c)
@@ -147,9 +149,9 @@ double ls_lin_eval(const ls_lin *l, const double *x)
     return v;
 }
 
-static void current_branch(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void current_branch(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
-    (void)nl; (void)depth;
+    (void)run; (void)depth;
     if (!d)
         lin_add(out, p->branch, 1);
 }
@@ -169,14 +171,14 @@ static void resistor_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     if (c->removed)
         return;
-    double g = c->derivative ? -1 / (p->value * p->value) : 1 / p->value;
+    double g = c->derivative ? -1 / (ls_run_value(c->run, p) * ls_run_value(c->run, p)) : 1 / ls_run_value(c->run, p);
     conductance(c->sink, N(p, 0), N(p, 1), g);
 }
 
-static void resistor_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void resistor_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
-    (void)nl; (void)depth;
-    double g = d ? -1 / (p->value * p->value) : 1 / p->value;
+    (void)run; (void)depth;
+    double g = d ? -1 / (ls_run_value(run, p) * ls_run_value(run, p)) : 1 / ls_run_value(run, p);
     lin_add(out, N(p, 0), g);
     lin_add(out, N(p, 1), -g);
 }
@@ -206,7 +208,7 @@ static void vsource_stamp(const ls_part *p, ls_stamp_ctx *c)
     branch_rise(c->sink, f, t, k);
     ls_sink_a(c->sink, k, k, rs);
     if (!c->removed)
-        ls_sink_b(c->sink, k, p->value * src_scale(p));
+        ls_sink_b(c->sink, k, ls_run_value(c->run, p) * src_scale(p, c->run));
 }
 
 /* A source with one end on ground fixes (or, through rint, feeds) a node:
@@ -236,15 +238,15 @@ static void isource_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     if (c->removed)
         return;
-    double i = c->derivative ? 1 : p->value * src_scale(p);
+    double i = c->derivative ? 1 : ls_run_value(c->run, p) * src_scale(p, c->run);
     ls_sink_b(c->sink, N(p, 0), -i);
     ls_sink_b(c->sink, N(p, 1), i);
 }
 
-static void isource_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void isource_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
-    (void)nl; (void)depth;
-    out->constant += d ? 1 : p->value * src_scale(p);
+    (void)run; (void)depth;
+    out->constant += d ? 1 : ls_run_value(run, p) * src_scale(p, run);
 }
 
 static void no_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
@@ -286,7 +288,7 @@ static void vdef_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 static void vcvs_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     int f = N(p, 0), t = N(p, 1), k = p->branch;
-    double g = c->removed ? 0 : c->derivative ? 1 : p->value;
+    double g = c->removed ? 0 : c->derivative ? 1 : ls_run_value(c->run, p);
     if (!c->derivative) {
         branch_kcl(c->sink, f, t, k);
         branch_rise(c->sink, f, t, k);
@@ -300,30 +302,30 @@ static void vccs_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (c->removed)
         return;
     int f = N(p, 0), t = N(p, 1), cp = N(p, 2), cm = N(p, 3);
-    double g = c->derivative ? 1 : p->value;
+    double g = c->derivative ? 1 : ls_run_value(c->run, p);
     ls_sink_a(c->sink, f, cp, g);
     ls_sink_a(c->sink, f, cm, -g);
     ls_sink_a(c->sink, t, cp, -g);
     ls_sink_a(c->sink, t, cm, g);
 }
 
-static void vccs_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void vccs_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
-    (void)nl; (void)depth;
-    double g = d ? 1 : p->value;
+    (void)run; (void)depth;
+    double g = d ? 1 : ls_run_value(run, p);
     lin_add(out, N(p, 2), g);
     lin_add(out, N(p, 3), -g);
 }
 
-static void via_lin(const ls_part *p, const ls_netlist *nl, ls_lin *out, int depth)
+static void via_lin(const ls_part *p, const ls_run *run, ls_lin *out, int depth)
 {
     memset(out, 0, sizeof *out);
     if (p->ref < 0 || depth > 32) {
         out->overflow = true;
         return;
     }
-    const ls_part *v = &nl->parts[p->ref];
-    v->kind->current(v, nl, out, false, depth + 1);
+    const ls_part *v = &run->nl->parts[p->ref];
+    v->kind->current(v, run, out, false, depth + 1);
 }
 
 static void cccs_stamp(const ls_part *p, ls_stamp_ctx *c)
@@ -331,8 +333,8 @@ static void cccs_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (c->removed)
         return;
     ls_lin l;
-    via_lin(p, c->nl, &l, 0);
-    double g = c->derivative ? 1 : p->value;
+    via_lin(p, c->run, &l, 0);
+    double g = c->derivative ? 1 : ls_run_value(c->run, p);
     int f = N(p, 0), t = N(p, 1);
     for (int i = 0; i < l.n; i++) {
         ls_sink_a(c->sink, f, l.idx[i], g * l.coef[i]);
@@ -342,11 +344,11 @@ static void cccs_stamp(const ls_part *p, ls_stamp_ctx *c)
     ls_sink_b(c->sink, t, g * l.constant);
 }
 
-static void cccs_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void cccs_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
     ls_lin l;
-    via_lin(p, nl, &l, depth);
-    double g = d ? 1 : p->value;
+    via_lin(p, run, &l, depth);
+    double g = d ? 1 : ls_run_value(run, p);
     for (int i = 0; i < l.n; i++)
         lin_add(out, l.idx[i], g * l.coef[i]);
     out->constant += g * l.constant;
@@ -356,13 +358,13 @@ static void cccs_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bo
 static void ccvs_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     int f = N(p, 0), t = N(p, 1), k = p->branch;
-    double rm = c->removed ? 0 : c->derivative ? 1 : p->value;
+    double rm = c->removed ? 0 : c->derivative ? 1 : ls_run_value(c->run, p);
     if (!c->derivative) {
         branch_kcl(c->sink, f, t, k);
         branch_rise(c->sink, f, t, k);
     }
     ls_lin l;
-    via_lin(p, c->nl, &l, 0);
+    via_lin(p, c->run, &l, 0);
     for (int i = 0; i < l.n; i++)
         ls_sink_a(c->sink, k, l.idx[i], -rm * l.coef[i]);
     ls_sink_b(c->sink, k, rm * l.constant);
@@ -371,7 +373,7 @@ static void ccvs_stamp(const ls_part *p, ls_stamp_ctx *c)
 /* ---- op-amp ---------------------------------------------------------------------- */
 /* Pins: 0 plus, 1 minus, 2 out.  Without gain= it is a nullor: V+ = V-, no input
  * current, and the output supplies whatever current that takes.  Its branch
- * row depends on the limit in force (p->run->state):
+ * row depends on the limit in force (the run's state of the part):
  *   none        ideal: V+ - V- = -vos;  finite: V(out) - A (V+ - V- + vos) + rout I = 0
  *   rail-high   V(out) = V(upper rail) - headroom
  *   rail-low    V(out) = V(lower rail) + headroom
@@ -379,7 +381,7 @@ static void ccvs_stamp(const ls_part *p, ls_stamp_ctx *c)
  * The DC error model: vos in series with the + input, ib + ios/2 into the +
  * input and ib - ios/2 into the - input.  With rails= naming nodes, the output
  * current is drawn from the upper rail while sourcing and returned into the
- * lower rail while sinking (p->run->side), and iq flows from the upper rail to the
+ * lower rail while sinking (its state's side), and iq flows from the upper rail to the
  * lower one. */
 
 /* Was option `name` given on this part? */
@@ -398,9 +400,15 @@ bool ls_opamp_limited(const ls_part *p)
     return opamp_has(p, "rails") || opamp_has(p, "imax");
 }
 
-const char *ls_opamp_limit_word(const ls_part *p)
+const char *ls_opamp_limit_word(const ls_part *p, const ls_run *run)
 {
-    switch (p->run->state) {
+    return ls_lim_word(ls_run_state(run, p)->state);
+}
+
+const char *ls_lim_word(int state)
+{
+    assert(state >= LS_LIM_NONE && state <= LS_LIM_CURRENT_SINK);
+    switch (state) {
     case LS_LIM_RAIL_HIGH: return "rail-high";
     case LS_LIM_RAIL_LOW: return "rail-low";
     case LS_LIM_CURRENT_SOURCE:
@@ -443,7 +451,7 @@ static void opamp_supply(const ls_part *p, ls_stamp_ctx *c)
 {
     ls_sink *s = c->sink;
     int pl = N(p, 0), mi = N(p, 1), k = p->branch;
-    double sc = src_scale(p);
+    double sc = src_scale(p, c->run);
     double ib = ls_part_opt(p, "ib", 0), ios = ls_part_opt(p, "ios", 0);
     ls_sink_b(s, pl, -(ib + ios / 2) * sc);
     ls_sink_b(s, mi, -(ib - ios / 2) * sc);
@@ -452,11 +460,11 @@ static void opamp_supply(const ls_part *p, ls_stamp_ctx *c)
     int hi = p->range[OA_RAILS][1].node, lo = p->range[OA_RAILS][0].node;
     double iq = ls_part_opt(p, "iq", 0) * sc;
     if (hi > 0) {
-        keep_a(s, ls_node_unknown(hi), k, p->run->side ? 0 : 1);
+        keep_a(s, ls_node_unknown(hi), k, ls_run_state(c->run, p)->side ? 0 : 1);
         ls_sink_b(s, ls_node_unknown(hi), -iq);
     }
     if (lo > 0) {
-        keep_a(s, ls_node_unknown(lo), k, p->run->side ? 1 : 0);
+        keep_a(s, ls_node_unknown(lo), k, ls_run_state(c->run, p)->side ? 1 : 0);
         ls_sink_b(s, ls_node_unknown(lo), iq);
     }
 }
@@ -465,10 +473,10 @@ static void opamp_supply(const ls_part *p, ls_stamp_ctx *c)
 static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     int pl = N(p, 0), mi = N(p, 1), out = N(p, 2), k = p->branch;
-    double rin = ls_part_opt(p, "rin", 0), vos = ls_part_opt(p, "vos", 0) * src_scale(p);
-    double hr = ls_part_opt(p, "headroom", 0) * src_scale(p), imax = ls_part_opt(p, "imax", INFINITY);
+    double rin = ls_part_opt(p, "rin", 0), vos = ls_part_opt(p, "vos", 0) * src_scale(p, c->run);
+    double hr = ls_part_opt(p, "headroom", 0) * src_scale(p, c->run), imax = ls_part_opt(p, "imax", INFINITY);
     if (c->derivative) {
-        if (p->has_value && p->run->state == LS_LIM_NONE) {
+        if (p->has_value && ls_run_state(c->run, p)->state == LS_LIM_NONE) {
             ls_sink_a(c->sink, k, pl, -1);
             ls_sink_a(c->sink, k, mi, 1);
             ls_sink_b(c->sink, k, vos);
@@ -484,7 +492,8 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (rin > 0)
         conductance(c->sink, pl, mi, 1 / rin);
     opamp_supply(p, c);
-    switch (p->run->state) {
+    assert(ls_run_state(c->run, p)->state >= LS_LIM_NONE && ls_run_state(c->run, p)->state <= LS_LIM_CURRENT_SINK);
+    switch (ls_run_state(c->run, p)->state) {
     case LS_LIM_RAIL_HIGH:
         clamp_row(c->sink, out, k, &p->range[OA_RAILS][1], -hr);
         return;
@@ -494,17 +503,17 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
     case LS_LIM_CURRENT_SOURCE:
     case LS_LIM_CURRENT_SINK:
         ls_sink_a(c->sink, k, k, 1);
-        ls_sink_b(c->sink, k, p->run->state == LS_LIM_CURRENT_SOURCE ? imax : -imax);
+        ls_sink_b(c->sink, k, ls_run_state(c->run, p)->state == LS_LIM_CURRENT_SOURCE ? imax : -imax);
         return;
     default:
         break;
     }
     if (p->has_value) {
         ls_sink_a(c->sink, k, out, 1);
-        ls_sink_a(c->sink, k, pl, -p->value);
-        ls_sink_a(c->sink, k, mi, p->value);
+        ls_sink_a(c->sink, k, pl, -ls_run_value(c->run, p));
+        ls_sink_a(c->sink, k, mi, ls_run_value(c->run, p));
         ls_sink_a(c->sink, k, k, ls_part_opt(p, "rout", 0));
-        ls_sink_b(c->sink, k, p->value * vos);
+        ls_sink_b(c->sink, k, ls_run_value(c->run, p) * vos);
     } else {
         ls_sink_a(c->sink, k, pl, 1);
         ls_sink_a(c->sink, k, mi, -1);
@@ -514,43 +523,44 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
 
 /* How far the op-amp's own model would drive its output above where it is
  * (V): positive means it pushes up.  Ideal: the input difference itself. */
-static double opamp_drive(const ls_part *p, const double *x, const double *v)
+static double opamp_drive(const ls_part *p, const ls_run *run, const double *x, const double *v)
 {
-    double vd = v[p->pin[0]] - v[p->pin[1]] + ls_part_opt(p, "vos", 0) * src_scale(p);
+    double vd = v[p->pin[0]] - v[p->pin[1]] + ls_part_opt(p, "vos", 0) * src_scale(p, run);
     if (!p->has_value)
         return vd;
-    return p->value * vd - ls_part_opt(p, "rout", 0) * x[p->branch] - v[p->pin[2]];
+    return ls_run_value(run, p) * vd - ls_part_opt(p, "rout", 0) * x[p->branch] - v[p->pin[2]];
 }
 
-int ls_opamp_next(const ls_part *p, const double *x, const double *v, int *side)
+int ls_opamp_next(const ls_part *p, const ls_run *run, const double *x, const double *v, int *side)
 {
     double i = x[p->branch], vout = v[p->pin[2]];
     bool rails = opamp_has(p, "rails");
-    double hr = ls_part_opt(p, "headroom", 0) * src_scale(p), imax = ls_part_opt(p, "imax", INFINITY);
+    double hr = ls_part_opt(p, "headroom", 0) * src_scale(p, run), imax = ls_part_opt(p, "imax", INFINITY);
     double vhi = rails ? ls_level_v(&p->range[OA_RAILS][1], v) - hr : INFINITY;
     double vlo = rails ? ls_level_v(&p->range[OA_RAILS][0], v) + hr : -INFINITY;
     double ev = 1e-9 * (1 + fmax(fabs(vhi < INFINITY ? vhi : 0), fabs(vlo > -INFINITY ? vlo : 0)));
     double ei = isfinite(imax) ? 1e-9 * imax : 0;
-    double d = opamp_drive(p, x, v);
+    double d = opamp_drive(p, run, x, v);
     const double iside = 1e-12;
-    *side = i < -iside ? 1 : i > iside ? 0 : p->run->side;
-    if (p->run->open_loop) {
+    *side = i < -iside ? 1 : i > iside ? 0 : ls_run_state(run, p)->side;
+    if (ls_run_state(run, p)->open_loop) {
         /* no feedback sets it: the sign of the input difference picks the rail */
-        if (p->run->state == LS_LIM_NONE)
+        if (ls_run_state(run, p)->state == LS_LIM_NONE)
             return d >= 0 ? LS_LIM_RAIL_HIGH : LS_LIM_RAIL_LOW;
-        if (p->run->state == LS_LIM_RAIL_HIGH && d < -ev)
+        if (ls_run_state(run, p)->state == LS_LIM_RAIL_HIGH && d < -ev)
             return LS_LIM_RAIL_LOW;
-        if (p->run->state == LS_LIM_RAIL_LOW && d > ev)
+        if (ls_run_state(run, p)->state == LS_LIM_RAIL_LOW && d > ev)
             return LS_LIM_RAIL_HIGH;
-        if ((p->run->state == LS_LIM_RAIL_HIGH || p->run->state == LS_LIM_RAIL_LOW) && fabs(i) > imax + ei)
+        if ((ls_run_state(run, p)->state == LS_LIM_RAIL_HIGH || ls_run_state(run, p)->state == LS_LIM_RAIL_LOW) && fabs(i) > imax + ei)
             return i > 0 ? LS_LIM_CURRENT_SOURCE : LS_LIM_CURRENT_SINK;
-        if (p->run->state == LS_LIM_CURRENT_SOURCE && (d < -ev || vout > vhi + ev))
+        if (ls_run_state(run, p)->state == LS_LIM_CURRENT_SOURCE && (d < -ev || vout > vhi + ev))
             return d < -ev ? LS_LIM_RAIL_LOW : LS_LIM_RAIL_HIGH;
-        if (p->run->state == LS_LIM_CURRENT_SINK && (d > ev || vout < vlo - ev))
+        if (ls_run_state(run, p)->state == LS_LIM_CURRENT_SINK && (d > ev || vout < vlo - ev))
             return d > ev ? LS_LIM_RAIL_HIGH : LS_LIM_RAIL_LOW;
-        return p->run->state;
+        return ls_run_state(run, p)->state;
     }
-    switch (p->run->state) {
+    assert(ls_run_state(run, p)->state >= LS_LIM_NONE && ls_run_state(run, p)->state <= LS_LIM_CURRENT_SINK);
+    switch (ls_run_state(run, p)->state) {
     case LS_LIM_RAIL_HIGH:
         if (d < -ev)
             return LS_LIM_NONE;
@@ -693,10 +703,10 @@ static void junction_stamp(const ls_part *p, ls_stamp_ctx *c)
     }
     bool beyond = false;
     double g;
-    double i = junction_eval(&j, p->run->op_v, &g, &beyond);
-    g += LS_GMIN + p->run->shunt_s;
-    i += (LS_GMIN + p->run->shunt_s) * p->run->op_v;
-    double ieq = i - g * p->run->op_v;
+    double i = junction_eval(&j, ls_run_state(c->run, p)->op_v, &g, &beyond);
+    g += LS_GMIN + ls_run_state(c->run, p)->shunt_s;
+    i += (LS_GMIN + ls_run_state(c->run, p)->shunt_s) * ls_run_state(c->run, p)->op_v;
+    double ieq = i - g * ls_run_state(c->run, p)->op_v;
     int ja = a;
     if (in >= 0) {
         conductance(c->sink, a, in, 1 / j.rs);
@@ -713,9 +723,9 @@ static void junction_stamp(const ls_part *p, ls_stamp_ctx *c)
 }
 
 /* Current anode -> cathode: through rs, or the companion model at op_v. */
-static void junction_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void junction_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
-    (void)nl; (void)depth;
+    (void)run; (void)depth;
     if (d)
         return;
     junction j = junction_of(p);
@@ -726,27 +736,27 @@ static void junction_current(const ls_part *p, const ls_netlist *nl, ls_lin *out
     }
     bool beyond = false;
     double g;
-    double i = junction_eval(&j, p->run->op_v, &g, &beyond);
-    g += LS_GMIN + p->run->shunt_s;
-    i += (LS_GMIN + p->run->shunt_s) * p->run->op_v;
+    double i = junction_eval(&j, ls_run_state(run, p)->op_v, &g, &beyond);
+    g += LS_GMIN + ls_run_state(run, p)->shunt_s;
+    i += (LS_GMIN + ls_run_state(run, p)->shunt_s) * ls_run_state(run, p)->op_v;
     lin_add(out, N(p, 0), g);
     lin_add(out, N(p, 1), -g);
-    out->constant += i - g * p->run->op_v;
+    out->constant += i - g * ls_run_state(run, p)->op_v;
 }
 
 /* Junctions are always nonlinear. */
 static bool always(const ls_part *p) { (void)p; return true; }
 
 /* Start forward-biased near the knee (a led at its rated vf, a zener off). */
-static void junction_init(ls_part *p)
+static void junction_init(const ls_part *p, ls_run *run)
 {
     junction j = junction_of(p);
     if (strcmp(p->kind->name, "led") == 0)
-        p->run->op_v = ls_part_opt(p, "vf", 2) - ls_part_opt(p, "at", 20e-3) * j.rs;
+        ls_run_state(run, p)->op_v = ls_part_opt(p, "vf", 2) - ls_part_opt(p, "at", 20e-3) * j.rs;
     else if (strcmp(p->kind->name, "zener") == 0)
-        p->run->op_v = 0;
+        ls_run_state(run, p)->op_v = 0;
     else
-        p->run->op_v = j.nvt * log(j.nvt / (sqrt(2) * j.is));
+        ls_run_state(run, p)->op_v = j.nvt * log(j.nvt / (sqrt(2) * j.is));
 }
 
 /* Junction-voltage limiting of one exponential term i0 exp(u/nvt): a step up
@@ -763,10 +773,10 @@ static double limit_up(double unew, double uold, double i0, double nvt)
 }
 
 /* Newton step of the junction voltage, limited; settled when it stops moving. */
-static bool junction_update(ls_part *p, const double *x)
+static bool junction_update(const ls_part *p, ls_run *run, const double *x)
 {
     junction j = junction_of(p);
-    double vnew = ls_junction_v(p, x), vold = p->run->op_v;
+    double vnew = ls_junction_v(p, x), vold = ls_run_state(run, p)->op_v;
     double v = vnew;
     if (vnew > vold) {
         v = limit_up(vnew, vold, j.is, j.nvt);
@@ -777,7 +787,7 @@ static bool junction_update(ls_part *p, const double *x)
     }
     if (!isfinite(v))
         v = vold;
-    p->run->op_v = v;
+    ls_run_state(run, p)->op_v = v;
     double tol = 1e-9 * j.nvt + 1e-12 * fabs(vnew);
     return v == vnew && fabs(vnew - vold) <= tol;
 }
@@ -795,9 +805,9 @@ static void junction_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 #define POT_END 1e-6
 
 /* Segment conductances a-wiper and wiper-b (S), or their d/d(total). */
-static void pot_g(const ls_part *p, bool d, double *g1, double *g2)
+static void pot_g(const ls_part *p, const ls_run *run, bool d, double *g1, double *g2)
 {
-    double at = ls_part_opt(p, "at", 0.5), r = p->value;
+    double at = ls_part_opt(p, "at", 0.5), r = ls_run_value(run, p);
     double f1 = fmax(at, POT_END), f2 = fmax(1 - at, POT_END);
     *g1 = d ? -1 / (r * r * f1) : 1 / (r * f1);
     *g2 = d ? -1 / (r * r * f2) : 1 / (r * f2);
@@ -809,27 +819,27 @@ static void pot_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (c->removed)
         return;
     double g1, g2;
-    pot_g(p, c->derivative, &g1, &g2);
+    pot_g(p, c->run, c->derivative, &g1, &g2);
     conductance(c->sink, N(p, 0), N(p, 1), g1);
     conductance(c->sink, N(p, 1), N(p, 2), g2);
 }
 
 /* The pot's current is the current in the a -> wiper segment. */
-static void pot_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void pot_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
-    (void)nl; (void)depth;
+    (void)run; (void)depth;
     double g1, g2;
-    pot_g(p, d, &g1, &g2);
+    pot_g(p, run, d, &g1, &g2);
     lin_add(out, N(p, 0), g1);
     lin_add(out, N(p, 1), -g1);
 }
 
 /* current a -> wiper, voltage a - b, power of the whole track. */
-static void pot_results(const ls_part *p, const double *x, const double *v, double out[3])
+static void pot_results(const ls_part *p, const ls_run *run, const double *x, const double *v, double out[3])
 {
     (void)x;
     double g1, g2;
-    pot_g(p, false, &g1, &g2);
+    pot_g(p, run, false, &g1, &g2);
     double d1 = v[p->pin[0]] - v[p->pin[1]], d2 = v[p->pin[1]] - v[p->pin[2]];
     out[0] = d1 * g1;
     out[1] = v[p->pin[0]] - v[p->pin[2]];
@@ -850,15 +860,15 @@ static void pot_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 
 #define KELVIN 273.15
 
-double ls_ntc_r(const ls_part *p, double t_c)
+double ls_ntc_r(const ls_part *p, const ls_run *run, double t_c)
 {
     double beta = ls_part_opt(p, "beta", 3950);
-    return p->value * exp(beta * (1 / (t_c + KELVIN) - 1 / (25 + KELVIN)));
+    return ls_run_value(run, p) * exp(beta * (1 / (t_c + KELVIN) - 1 / (25 + KELVIN)));
 }
 
-double ls_ntc_body(const ls_part *p)
+double ls_ntc_body(const ls_part *p, const ls_run *run)
 {
-    return ls_part_has(p, ls_kind_opt(p->kind, "dissipation")) ? p->run->op_t : ls_part_opt(p, "celsius", 25);
+    return ls_part_has(p, ls_kind_opt(p->kind, "dissipation")) ? ls_run_state(run, p)->op_t : ls_part_opt(p, "celsius", 25);
 }
 
 /* The conductance at the body temperature; derivative: d/d r25. */
@@ -866,18 +876,18 @@ static void ntc_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     if (c->removed)
         return;
-    double r = ls_ntc_r(p, ls_ntc_body(p));
+    double r = ls_ntc_r(p, c->run, ls_ntc_body(p, c->run));
     /* d/d r25 at a fixed body temperature: R is proportional to r25 */
-    double g = c->derivative ? -1 / (r * p->value) : 1 / r;
+    double g = c->derivative ? -1 / (r * ls_run_value(c->run, p)) : 1 / r;
     conductance(c->sink, N(p, 0), N(p, 1), g);
 }
 
 /* Current FROM -> TO through R(T). */
-static void ntc_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void ntc_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
-    (void)nl; (void)depth;
-    double r = ls_ntc_r(p, ls_ntc_body(p));
-    double g = d ? -1 / (r * p->value) : 1 / r;
+    (void)run; (void)depth;
+    double r = ls_ntc_r(p, run, ls_ntc_body(p, run));
+    double g = d ? -1 / (r * ls_run_value(run, p)) : 1 / r;
     lin_add(out, N(p, 0), g);
     lin_add(out, N(p, 1), -g);
 }
@@ -890,10 +900,10 @@ static bool ntc_nonlinear(const ls_part *p)
 
 #define NTC_T_MAX 1e4   /* degC: a body hotter than this has run away */
 
-static void ntc_init(ls_part *p)
+static void ntc_init(const ls_part *p, ls_run *run)
 {
-    p->run->op_t = ls_part_opt(p, "celsius", 25);
-    p->run->heat_t = p->run->heat_f = NAN;
+    ls_run_state(run, p)->op_t = ls_part_opt(p, "celsius", 25);
+    ls_run_state(run, p)->heat_t = ls_run_state(run, p)->heat_f = NAN;
 }
 
 /* Self-heating: the body temperature T solves T = F(T) = temp + P(T) /
@@ -901,24 +911,24 @@ static void ntc_init(ls_part *p)
  * F(T) - T: it damps the fixed point where F falls steeply (current drive)
  * and speeds it up where F rises slowly; where F rises faster than T (thermal
  * runaway) it takes plain steps, which then run off to NTC_T_MAX. */
-static bool ntc_update(ls_part *p, const double *x)
+static bool ntc_update(const ls_part *p, ls_run *run, const double *x)
 {
-    double v = xval(x, N(p, 0)) - xval(x, N(p, 1)), t = p->run->op_t;
-    double f = ls_part_opt(p, "celsius", 25) + v * v / ls_ntc_r(p, t) / ls_part_opt(p, "dissipation", 1);
+    double v = xval(x, N(p, 0)) - xval(x, N(p, 1)), t = ls_run_state(run, p)->op_t;
+    double f = ls_part_opt(p, "celsius", 25) + v * v / ls_ntc_r(p, run, t) / ls_part_opt(p, "dissipation", 1);
     double w = 1;
-    if (isfinite(p->run->heat_t) && t != p->run->heat_t) {
-        double slope = (f - p->run->heat_f) / (t - p->run->heat_t);
+    if (isfinite(ls_run_state(run, p)->heat_t) && t != ls_run_state(run, p)->heat_t) {
+        double slope = (f - ls_run_state(run, p)->heat_f) / (t - ls_run_state(run, p)->heat_t);
         if (slope < 0.95)
             w = fmin(20, 1 / (1 - slope));
     }
-    p->run->heat_t = t;
-    p->run->heat_f = f;
+    ls_run_state(run, p)->heat_t = t;
+    ls_run_state(run, p)->heat_f = f;
     double next = t + w * (f - t);
     if (!isfinite(next) || next > NTC_T_MAX)
         next = NTC_T_MAX;
     if (next < -KELVIN + 1)
         next = -KELVIN + 1;
-    p->run->op_t = next;
+    ls_run_state(run, p)->op_t = next;
     return fabs(f - t) <= 1e-9 * (1 + fabs(t)) && t < NTC_T_MAX;
 }
 
@@ -971,24 +981,25 @@ static void adc_stamp(const ls_part *p, ls_stamp_ctx *c)
     double rin = ls_part_opt(p, "rin", 0);
     if (rin > 0)
         ls_sink_a(c->sink, N(p, 0), N(p, 0), 1 / rin);
-    ls_sink_b(c->sink, N(p, 0), -ls_part_opt(p, "leak", 0) * src_scale(p));
+    ls_sink_b(c->sink, N(p, 0), -ls_part_opt(p, "leak", 0) * src_scale(p, c->run));
 }
 
 /* Current into the pin: V/rin + leak. */
-static void adc_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool d, int depth)
+static void adc_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d, int depth)
 {
-    (void)nl; (void)depth;
+    (void)run; (void)depth;
     if (d)
         return;
     double rin = ls_part_opt(p, "rin", 0);
     if (rin > 0)
         lin_add(out, N(p, 0), 1 / rin);
-    out->constant += ls_part_opt(p, "leak", 0) * src_scale(p);
+    out->constant += ls_part_opt(p, "leak", 0) * src_scale(p, run);
 }
 
 /* current into the pin, voltage at it, power it absorbs. */
-static void adc_results(const ls_part *p, const double *x, const double *v, double out[3])
+static void adc_results(const ls_part *p, const ls_run *run, const double *x, const double *v, double out[3])
 {
+    (void)run;
     double rin = ls_part_opt(p, "rin", 0), vin = v[p->pin[0]];
     (void)x;
     out[0] = (rin > 0 ? vin / rin : 0) + ls_part_opt(p, "leak", 0);
@@ -1023,11 +1034,11 @@ static void adc_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
  * only into the test program loadstack_toy (tests/house/meson.build). */
 int ls_testsink_branches(const ls_part *p);
 void ls_testsink_stamp(const ls_part *p, ls_stamp_ctx *c);
-void ls_testsink_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative, int depth);
+void ls_testsink_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative, int depth);
 void ls_testsink_edges(const ls_part *p, void *ctx, ls_edge_fn emit);
 bool ls_testsink_nonlinear(const ls_part *p);
-void ls_testsink_init(ls_part *p);
-bool ls_testsink_update(ls_part *p, const double *x);
+void ls_testsink_init(const ls_part *p, ls_run *run);
+bool ls_testsink_update(const ls_part *p, ls_run *run, const double *x);
 #endif
 
 static const ls_kind kinds[] = {
@@ -1185,7 +1196,11 @@ static const char *const keywords[] = {"title", "let", "ground", "include", "blo
                                        "use", "expect", "rule", "end"};
 
 int ls_kind_count(void) { return (int)(sizeof kinds / sizeof kinds[0]); }
-const ls_kind *ls_kind_at(int i) { return &kinds[i]; }
+const ls_kind *ls_kind_at(int i)
+{
+    assert(i >= 0 && i < ls_kind_count());
+    return &kinds[i];
+}
 
 const ls_kind *ls_kind_findn(const char *name, size_t n)
 {
@@ -1267,12 +1282,12 @@ const char *ls_kind_suggest(const char *name)
     return best;
 }
 
-void ls_part_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative)
+void ls_part_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative)
 {
     /* idx[] and coef[] are read only below n: clearing them too was a fifth of
      * the per-part results of a large grid */
     out->n = 0;
     out->constant = 0;
     out->overflow = false;
-    p->kind->current(p, nl, out, derivative, 0);
+    p->kind->current(p, run, out, derivative, 0);
 }

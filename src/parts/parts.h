@@ -5,6 +5,9 @@
 #define LS_PARTS_H
 
 #include "netlist/netlist.h"
+#include "netlist/run.h"
+
+#include <assert.h>
 
 /* OPT_FREE: free=LO..HI, a range of the part's main value (kept in nl->frees). */
 typedef enum ls_optkind { OPT_VALUE, OPT_NODE, OPT_PART, OPT_WORD, OPT_RANGE, OPT_FREE } ls_optkind;
@@ -69,9 +72,11 @@ typedef struct ls_sink {
 void ls_sink_a(ls_sink *s, int row, int col, double v);  /* row/col < 0: ground, dropped */
 void ls_sink_b(ls_sink *s, int row, double v);
 
-/* What a stamp needs: the unknown index of a node, of a branch, the netlist. */
+/* What a stamp needs: the unknown index of a node, of a branch, the netlist,
+ * and the run (run.h: the parts' states and values in this solve). */
 typedef struct ls_stamp_ctx {
     const ls_netlist *nl;
+    const ls_run *run;     /* run->nl == nl */
     ls_sink *sink;
     bool removed;          /* stamp the part as removed (opened / set to zero) */
     bool buffered;         /* a port: its load side gets the driver's voltage, the driver supplies nothing */
@@ -114,7 +119,7 @@ typedef struct ls_kind {
     ls_vsign vsign;              /* how `voltage` reads */
     bool is_port;
     bool is_opamp;
-    bool has_run;                /* keeps analysis state (ls_part.run): sources, op-amps, junctions, ... */
+    bool has_run;                /* keeps analysis state in a run (ls_run_state): sources, op-amps, junctions, ... */
     ls_removal removal;          /* how it is removed (sag, ports, what-if) */
     ls_stage_role stage_role;    /* its role in a stage of `chain` */
     bool is_junction;            /* iterates as a pn junction (ls_junction_current/_v): the iteration's
@@ -127,19 +132,19 @@ typedef struct ls_kind {
     int npins;                   /* SHAPE_TWO: 2 + node options */
     int (*branches)(const ls_part *p);
     void (*stamp)(const ls_part *p, ls_stamp_ctx *c);
-    void (*current)(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative, int depth);
+    void (*current)(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative, int depth);
     void (*edges)(const ls_part *p, void *ctx, ls_edge_fn emit);
     /* Nonlinear parts (NULL for linear ones) --------------------------------- */
     /* Is this part nonlinear as configured (an ntc only with dissipation=)? */
     bool (*is_nonlinear)(const ls_part *p);
-    /* The first linearization point (op_v / op_t). */
-    void (*init)(ls_part *p);
+    /* The first linearization point (op_v / op_t) in run's state of p. */
+    void (*init)(const ls_part *p, ls_run *run);
     /* Move the linearization point towards the solution x of the last
      * linear solve (with damping and limiting); true when it has settled. */
-    bool (*update)(ls_part *p, const double *x);
+    bool (*update)(const ls_part *p, ls_run *run, const double *x);
     /* Current (A), voltage (V, as vsign reads) and absorbed power (W) for parts
      * whose results are not the generic ones (pot, adc); NULL otherwise. */
-    void (*results)(const ls_part *p, const double *x, const double *v, double out[3]);
+    void (*results)(const ls_part *p, const ls_run *run, const double *x, const double *v, double out[3]);
     /* Error bounds (accuracy.c): does this part keep every node row of A^-1
      * one-signed, column by column, as a network of positive resistances and
      * grounded sources does (an M-matrix)?  0 no (or NULL); else the sign of
@@ -176,11 +181,15 @@ static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx
 static inline bool ls_removal_keeps_edges(const ls_part *p) { return p->kind->removal == LS_REMOVE_SHORT; }
 
 /* Option value helpers. */
-static inline bool ls_part_has(const ls_part *p, int opt) { return opt >= 0 && (p->has_opt >> opt & 1u); }
+static inline bool ls_part_has(const ls_part *p, int opt)
+{
+    assert(opt < LS_MAX_OPTS); /* an option index from ls_kind_opt: -1 (none) or a slot */
+    return opt >= 0 && (p->has_opt >> opt & 1u);
+}
 double ls_part_opt(const ls_part *p, const char *name, double dflt);
 
-/* Part current as a linear form (recursing through via=); depth guards cycles. */
-void ls_part_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative);
+/* Part current as a linear form in run (recursing through via=); depth guards cycles. */
+void ls_part_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative);
 double ls_lin_eval(const ls_lin *l, const double *x);
 
 /* ---- real parts: helpers for the iteration and the reports ---- */
@@ -192,10 +201,12 @@ double ls_level_v(const ls_level *l, const double *v);
 /* The op-amp limit (LS_LIM_*) that should be in force given the solution x
  * and node voltages v of the last solve; *side is set to the supply side
  * (1 sinking) that current calls for. */
-int ls_opamp_next(const ls_part *p, const double *x, const double *v, int *side);
+int ls_opamp_next(const ls_part *p, const ls_run *run, const double *x, const double *v, int *side);
 /* The word for the op-amp's output limit in force, as the JSON report and the
  * C API give it: "rail-high", "rail-low", "current" or "none". */
-const char *ls_opamp_limit_word(const ls_part *p);
+const char *ls_opamp_limit_word(const ls_part *p, const ls_run *run);
+/* The same word for an op-amp limit state LS_LIM_*. */
+const char *ls_lim_word(int state);
 /* Does the op-amp have any output limit (rails= or imax=)? */
 bool ls_opamp_limited(const ls_part *p);
 /* Junction current (A, anode -> cathode) of a diode, led or zener at junction
@@ -205,11 +216,11 @@ double ls_junction_current(const ls_part *p, double vj, bool *beyond);
 /* Junction voltage (V) of a diode, led or zener in the solution x. */
 double ls_junction_v(const ls_part *p, const double *x);
 /* Thermistor resistance (ohm) at temperature t_c (degC), by the Beta equation. */
-double ls_ntc_r(const ls_part *p, double t_c);
+double ls_ntc_r(const ls_part *p, const ls_run *run, double t_c);
 /* An adc's LSB (V): ref / 2^bits. */
 double ls_adc_lsb(const ls_part *p);
 /* Thermistor body temperature (degC): celsius=, plus self-heating when solved with dissipation=. */
-double ls_ntc_body(const ls_part *p);
+double ls_ntc_body(const ls_part *p, const ls_run *run);
 
 #define LS_JUNCTION_IMAX 1e3     /* A: past this the exponential is continued linearly */
 #define LS_GMIN 1e-12            /* S: always across every junction (keeps a cut-off node defined) */

@@ -122,6 +122,8 @@ const char *ls_unit_of(ls_dims d, bool ascii)
 static const char *verdict_name(ls_verdict v)
 {
     static const char *const n[] = {"ok", "marginal", "loading"};
+    _Static_assert(sizeof n / sizeof n[0] == VERDICT_LOADING + 1, "one word per ls_verdict");
+    assert(v >= VERDICT_OK && v <= VERDICT_LOADING);
     return n[v];
 }
 
@@ -276,10 +278,12 @@ static bool is_kind(const ls_part *p, const char *k)
 }
 
 /* The text column: which limit holds the output, with its value. */
-static const char *limit_text(ls_report *rp, const ls_part *p, char *buf, size_t n)
+static const char *limit_text(ls_report *rp, const ls_run *run, const ls_part *p, char *buf, size_t n)
 {
     char a[64];
-    switch (p->run->state) {
+    int state = ls_run_state(run, p)->state;
+    assert(state >= LS_LIM_NONE && state <= LS_LIM_CURRENT_SINK);
+    switch (state) {
     case LS_LIM_RAIL_HIGH: snprintf(buf, n, "rail-high (upper rail - %s)",
                                     ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
     case LS_LIM_RAIL_LOW: snprintf(buf, n, "rail-low (lower rail + %s)",
@@ -342,11 +346,11 @@ static void ntc_text(ls_report *rp, const ls_op *op)
         const ls_part *p = &nl->parts[i];
         if (!is_kind(p, "ntc"))
             continue;
-        double t_amb = ls_part_opt(p, "celsius", 25), t_body = ls_ntc_body(p);
+        double t_amb = ls_part_opt(p, "celsius", 25), t_body = ls_ntc_body(p, &op->run);
         char b1[64], b2[64], b3[64], n1[48], n2[48];
         snprintf(b2, sizeof b2, "%s degC", ls_fixed(rp, n1, sizeof n1, "%.4g", t_body));
         snprintf(b3, sizeof b3, "%s K", ls_fixed(rp, n2, sizeof n2, "%.3g", t_body - t_amb));
-        const char *c[4] = {p->name, ls_eng(rp, b1, sizeof b1, ls_ntc_r(p, t_body), ls_unit_of(LS_OHM, rp->ascii)),
+        const char *c[4] = {p->name, ls_eng(rp, b1, sizeof b1, ls_ntc_r(p, &op->run, t_body), ls_unit_of(LS_OHM, rp->ascii)),
                             b2, b3};
         if (!t.rows)
             fputs("\nThermistors\n", o);
@@ -370,8 +374,8 @@ static void part_extra_json(ls_jw *w, const ls_results *res, int i)
         ls_jw_num(w, "error_lsb", r->error_lsb);
         ls_jw_num(w, "source_resistance", r->rth);
     } else if (is_kind(p, "ntc")) {
-        double t = ls_ntc_body(p);
-        ls_jw_num(w, "resistance", ls_ntc_r(p, t));
+        double t = ls_ntc_body(p, &op->run);
+        ls_jw_num(w, "resistance", ls_ntc_r(p, &op->run, t));
         ls_jw_num(w, "temperature", t);
         ls_jw_num(w, "self_heating", t - ls_part_opt(p, "celsius", 25));
     }
@@ -412,6 +416,7 @@ static void adcs_json(ls_jw *w, const ls_results *res)
 static const char *method_name(ls_method m)
 {
     static const char *const n[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
+    assert((int)m >= 0 && (size_t)m < sizeof n / sizeof n[0]);
     return n[m];
 }
 
@@ -769,7 +774,7 @@ static void opamps_text(ls_report *rp, const ls_op *op)
         double pd = ls_opamp_dissipation(op, i);
         const char *c[5] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], "V"),
                             ls_eng(rp, b2, sizeof b2, op->ipart[i], "A"),
-                            isfinite(pd) ? ls_eng(rp, b3, sizeof b3, pd, "W") : "-", limit_text(rp, pt, lim, sizeof lim)};
+                            isfinite(pd) ? ls_eng(rp, b3, sizeof b3, pd, "W") : "-", limit_text(rp, &op->run, pt, lim, sizeof lim)};
         if (!rails)
             c[3] = c[4];
         ls_t_row(&p, c);
@@ -906,7 +911,7 @@ static void opamps_json(ls_jw *w, const ls_op *op)
         ls_jw_obj(w, p->name);
         ls_jw_num(w, "out", op->v[p->pin[2]]);
         ls_jw_num(w, "current", op->ipart[i]);
-        ls_jw_str(w, "limited", ls_opamp_limit_word(p));
+        ls_jw_str(w, "limited", ls_opamp_limit_word(p, &op->run));
         double pd = ls_opamp_dissipation(op, i);
         if (isfinite(pd))
             ls_jw_num(w, "dissipation", pd);
@@ -1054,7 +1059,7 @@ static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *che
         csv_row(o, "part", p->name, "power", op->ppart[i]);
         if (p->kind->is_opamp) {
             csv_row(o, "opamp", p->name, "out", op->v[p->pin[2]]);
-            csv_word(o, "opamp", p->name, "limited", ls_opamp_limit_word(p));
+            csv_word(o, "opamp", p->name, "limited", ls_opamp_limit_word(p, &op->run));
             csv_row(o, "opamp", p->name, "dissipation", ls_opamp_dissipation(op, i));
         }
         const ls_adc_result *ar = ls_results_adc(res, i);
@@ -1072,8 +1077,8 @@ static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *che
             csv_word(o, "adc", p->name, "source_too_high", r.source_high ? "true" : "false");
             csv_word(o, "adc", p->name, "verdict", verdict_name(r.verdict));
         } else if (is_kind(p, "ntc")) {
-            double t = ls_ntc_body(p);
-            csv_row(o, "part", p->name, "resistance", ls_ntc_r(p, t));
+            double t = ls_ntc_body(p, &op->run);
+            csv_row(o, "part", p->name, "resistance", ls_ntc_r(p, &op->run, t));
             csv_row(o, "part", p->name, "temperature", t);
             csv_row(o, "part", p->name, "self_heating", t - ls_part_opt(p, "celsius", 25));
         }

@@ -22,9 +22,9 @@ static double compliance(const ls_part *p)
 }
 
 /* S: the conductance below the compliance. */
-static double saturated_g(const ls_part *p)
+static double saturated_g(const ls_part *p, const ls_run *run)
 {
-    return p->value / compliance(p);
+    return ls_run_value(run, p) / compliance(p);
 }
 
 /* No branch current unknown: its current is VALUE or g (V(FROM) - V(TO)). */
@@ -42,28 +42,27 @@ void ls_testsink_stamp(const ls_part *p, ls_stamp_ctx *c)
     if (c->removed)
         return;
     int from = ls_node_unknown(p->pin[0]), to = ls_node_unknown(p->pin[1]);
-    if (p->run->state == SINK_SATURATED) {
-        double g = c->derivative ? 1 / compliance(p) : saturated_g(p);
+    if (ls_run_state(c->run, p)->state == SINK_SATURATED) {
+        double g = c->derivative ? 1 / compliance(p) : saturated_g(p, c->run);
         ls_stamp_conductance(c->sink, from, to, g);
         return;
     }
-    double i = c->derivative ? 1 : p->value;
+    double i = c->derivative ? 1 : ls_run_value(c->run, p);
     ls_sink_b(c->sink, from, -i);
     ls_sink_b(c->sink, to, i);
 }
 
 /* Its current FROM -> TO (A) as a linear form in the unknowns. */
-void ls_testsink_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative, int depth)
+void ls_testsink_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative, int depth)
 {
-    (void)nl;
     (void)depth;
-    if (p->run->state == SINK_SATURATED) {
-        double g = derivative ? 1 / compliance(p) : saturated_g(p);
+    if (ls_run_state(run, p)->state == SINK_SATURATED) {
+        double g = derivative ? 1 / compliance(p) : saturated_g(p, run);
         ls_lin_add(out, ls_node_unknown(p->pin[0]), g);
         ls_lin_add(out, ls_node_unknown(p->pin[1]), -g);
         return;
     }
-    out->constant += derivative ? 1 : p->value;
+    out->constant += derivative ? 1 : ls_run_value(run, p);
 }
 
 /* A current sink is no DC path for the topology checks (like a current source). */
@@ -82,21 +81,21 @@ bool ls_testsink_nonlinear(const ls_part *p)
 }
 
 /* Starts regulating. */
-void ls_testsink_init(ls_part *p)
+void ls_testsink_init(const ls_part *p, ls_run *run)
 {
-    p->run->state = SINK_REGULATING;
+    ls_run_state(run, p)->state = SINK_REGULATING;
 }
 
 /* The state the last solve x calls for; true when it is the one in force. */
-bool ls_testsink_update(ls_part *p, const double *x)
+bool ls_testsink_update(const ls_part *p, ls_run *run, const double *x)
 {
     double v = ls_x_at(x, ls_node_unknown(p->pin[0])) - ls_x_at(x, ls_node_unknown(p->pin[1]));
     int want;
-    if (p->run->state == SINK_REGULATING)
+    if (ls_run_state(run, p)->state == SINK_REGULATING)
         want = v >= compliance(p) ? SINK_REGULATING : SINK_SATURATED;
     else   /* saturated: its current g v reaches VALUE exactly at the compliance */
         want = v > compliance(p) ? SINK_REGULATING : SINK_SATURATED;
-    bool settled = want == p->run->state;
-    p->run->state = want;
+    bool settled = want == ls_run_state(run, p)->state;
+    ls_run_state(run, p)->state = want;
     return settled;
 }

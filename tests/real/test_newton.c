@@ -99,8 +99,8 @@ static void test_limits_keep_pattern(void)
     CU_ASSERT_EQUAL_FATAL(w.code, LS_EXIT_OK);
     const ls_solver_stats *st = ls_solver_stats_of(w.op.solver);
     int u1 = ls_netlist_find_part(&w.nl, "u1"), u2 = ls_netlist_find_part(&w.nl, "u2");
-    CU_ASSERT_EQUAL(w.nl.parts[u1].run->state, LS_LIM_RAIL_HIGH);
-    CU_ASSERT_EQUAL(w.nl.parts[u2].run->state, LS_LIM_CURRENT_SOURCE);
+    CU_ASSERT_EQUAL(ls_run_state(&w.op.run, &w.nl.parts[u1])->state, LS_LIM_RAIL_HIGH);
+    CU_ASSERT_EQUAL(ls_run_state(&w.op.run, &w.nl.parts[u2])->state, LS_LIM_CURRENT_SOURCE);
     CU_ASSERT_EQUAL(st->analyses, 1);
     /* rail minus headroom; imax x R (Ohm's law) */
     CU_ASSERT_DOUBLE_EQUAL(volts(&w, "out"), 4.9, 1e-12);
@@ -116,6 +116,45 @@ static double entry(const ls_csc *a, int i, int j)
         if (a->rowind[p] == i)
             return a->val[p];
     return 0;
+}
+
+/* Two operating points on one netlist: each keeps its parts' states and
+ * values in its own run, and the netlist's records do not change.  Op a
+ * drives in at 3 V (u1's gain 1 + rf/rg = 2, the non-inverting amplifier's
+ * closed form, asks 6 V: held at the rail, 5 V - 0.1 V headroom); op b sets
+ * vi to 1 V for itself (out = 2 V, linear; u2's follower would put 1 V across
+ * 100 ohm, 10 mA > imax: held at 5 mA x 100 ohm = 0.5 V by Ohm's law). */
+static void test_two_runs_one_netlist(void)
+{
+    world w;
+    load(&w, limited, LS_CHOOSE_SPARSE);
+    CU_ASSERT_EQUAL_FATAL(w.code, LS_EXIT_OK);
+    size_t size = (size_t)w.nl.nparts * sizeof *w.nl.parts;
+    ls_part *before = malloc(size);
+    CU_ASSERT_FATAL(before != NULL);
+    memcpy(before, w.nl.parts, size);
+    int vi = ls_netlist_find_part(&w.nl, "vi"), u1 = ls_netlist_find_part(&w.nl, "u1");
+    int u2 = ls_netlist_find_part(&w.nl, "u2"), out = ls_netlist_find_node(&w.nl, "out");
+    int o2 = ls_netlist_find_node(&w.nl, "o2");
+    ls_op b;
+    ls_options o = {.solver = LS_CHOOSE_SPARSE, .derate = 1};
+    CU_ASSERT_EQUAL_FATAL(ls_op_solve(&b, &w.nl, &o), LS_EXIT_OK);
+    CU_ASSERT_EQUAL_FATAL(ls_run_set_value(&b.run, vi, 1.0), 0);
+    CU_ASSERT_EQUAL_FATAL(ls_op_resolve(&b), LS_EXIT_OK);
+    CU_ASSERT_DOUBLE_EQUAL(b.v[out], 2.0, 1e-12);
+    CU_ASSERT_DOUBLE_EQUAL(b.v[o2], 0.5, 1e-12);
+    CU_ASSERT_EQUAL(ls_run_state(&b.run, &w.nl.parts[u1])->state, LS_LIM_NONE);
+    CU_ASSERT_EQUAL(ls_run_state(&b.run, &w.nl.parts[u2])->state, LS_LIM_CURRENT_SOURCE);
+    CU_ASSERT_EQUAL(ls_run_value(&b.run, &w.nl.parts[vi]), 1.0);
+    /* a is as it was: its states, its values, its solution */
+    CU_ASSERT_EQUAL(ls_run_state(&w.op.run, &w.nl.parts[u1])->state, LS_LIM_RAIL_HIGH);
+    CU_ASSERT_EQUAL(ls_run_value(&w.op.run, &w.nl.parts[vi]), 3.0);
+    CU_ASSERT_EQUAL_FATAL(ls_op_resolve(&w.op), LS_EXIT_OK);
+    CU_ASSERT_DOUBLE_EQUAL(volts(&w, "out"), 4.9, 1e-12);
+    CU_ASSERT_EQUAL(memcmp(before, w.nl.parts, size), 0);
+    ls_op_free(&b);
+    free(before);
+    unload(&w);
 }
 
 /* The clamped row by hand: V(out) - V(vcc) = -headroom, the supply entry in
@@ -173,6 +212,7 @@ int main(void)
     static const ls_cu_case cases[] = {
         {"one symbolic analysis (sparse)", test_one_analysis_sparse},
         {"limits keep the pattern", test_limits_keep_pattern},
+        {"two runs on one netlist", test_two_runs_one_netlist},
         {"clamped row by hand", test_clamp_row},
         {"unsolvable names the part", test_unsolvable_names_part},
         {"resolve iterates", test_resolve},

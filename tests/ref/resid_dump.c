@@ -150,8 +150,8 @@ int main(int argc, char **argv)
     }
     if (nl.nnodes > 1)
         ties[1] = (ls_tie){.g = 1e-3, .v = 0.75};
-    if (ls_mna_build_variant(&var[0], &nl, opened, ties) != 0 ||
-        ls_mna_build_variant(&var[1], &nl, buffered, NULL) != 0)
+    if (ls_mna_build_variant(&var[0], &nl, NULL, opened, ties) != 0 ||
+        ls_mna_build_variant(&var[1], &nl, NULL, buffered, NULL) != 0)
         goto out;
     printf("kinds");
     for (int k = 0; k < ls_kind_count(); k++)

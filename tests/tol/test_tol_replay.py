@@ -102,7 +102,52 @@ expect mon between 1.55 V and 1.65 V
                   what=f"{what}: percentile {key} (np.percentile, linear)")
         y = float(np.mean((q >= 1.55) & (q <= 1.65)))
         check(abs(j["yield"] - y) <= 1.5 / n, f"{what}: yield {j['yield']} = counted {y}")
+    ladder_trials()
     finish()
+
+
+def ladder_trials():
+    """A trial is solved to its double solve's accuracy (no extra-precise
+    refinement): on a 40-rung ladder every statistic still agrees to 1e-12
+    with the trials solved here by the ladder's own recurrence (series and
+    parallel resistances from the far end, then the divider law rung by rung:
+    a few roundings per rung, no cancellation)."""
+    rungs = 40
+    lines = ['title "Sensor string, forty taps"', "ground gnd", "voltage vs gnd -> t0 9 V tol=2%"]
+    parts = [(9.0, 0.02)]
+    for k in range(rungs):
+        rs, rp = 1e3 * (1 + k % 3), 22e3 * (1 + k % 4)
+        lines.append(f"resistor rs{k} t{k} -> t{k + 1} {rs:g} ohm tol=1%")
+        lines.append(f"resistor rp{k} t{k + 1} -> gnd {rp:g} ohm tol=5%")
+        parts += [(rs, 0.01), (rp, 0.05)]
+    lines.append("resistor rl t40 -> gnd 100k tol=1%")
+    parts.append((100e3, 0.01))
+    path = circuit("ladder40.stack", "\n".join(lines) + "\n")
+    tap, n, seed = 17, 400, 20261203
+    j = run_json(["tol", path, f"t{tap}", "--trials", str(n), "--seed", str(seed)])
+    if not j:
+        return
+    v = replay(seed, n, parts, False)
+    q = np.empty(n)
+    for i in range(n):
+        src, rs, rp, rl = v[i, 0], v[i, 1:-1:2], v[i, 2:-1:2], v[i, -1]
+        z = [0.0] * (rungs + 1)              # z[k]: resistance from t_k to ground, looking away from the source
+        z[rungs] = rp[rungs - 1] * rl / (rp[rungs - 1] + rl)
+        for k in range(rungs - 1, 0, -1):
+            down = rs[k] + z[k + 1]
+            z[k] = rp[k - 1] * down / (rp[k - 1] + down)
+        u = src
+        for k in range(tap):
+            u = u * z[k + 1] / (rs[k] + z[k + 1])
+        q[i] = u
+    mc = j["monte_carlo"]
+    what = f"40-rung ladder, tap t{tap}"
+    close(mc["mean"], float(np.mean(q)), rel=1e-12, what=f"{what}: mean (numpy)")
+    close(mc["min"], float(np.min(q)), rel=1e-12, what=f"{what}: min")
+    close(mc["max"], float(np.max(q)), rel=1e-12, what=f"{what}: max")
+    for key in ("1", "50", "99"):
+        close(mc["percentiles"][key], float(np.percentile(q, float(key))), rel=1e-12,
+              what=f"{what}: percentile {key} (np.percentile, linear)")
 
 
 if __name__ == "__main__":

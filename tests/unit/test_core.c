@@ -4,6 +4,7 @@
  * and column per voltage-defined branch). */
 #include "../cu_run.h"
 #include <math.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "front_world.h"
@@ -172,6 +173,45 @@ static void test_stamp_resistor_and_sources(void)
     unload(&w);
 }
 
+/* Branch unknowns are numbered by the elaborator (nodes first, then each
+ * voltage-defined part's branch in part order) and the MNA builder writes
+ * nothing in the netlist: one netlist can back several solves at once. */
+static void test_branches_fixed_at_elaboration(void)
+{
+    ls_arena a;
+    ls_diags d;
+    ls_program prog;
+    ls_netlist nl;
+    memset(&nl, 0, sizeof nl);
+    int errors = ls_test_front(&a, &d, &prog, &nl,
+                               "ground g\n"
+                               "voltage v g -> a 5 V\n"
+                               "resistor r a -> b 1k\n"
+                               "vcvs e g -> c gain=2 cplus=b cminus=g\n"
+                               "resistor rc c -> g 1k\n"
+                               "voltage w g -> d 1 V\n"
+                               "resistor rd d -> g 1k\n");
+    CU_ASSERT_EQUAL_FATAL(errors, 0);
+    int nn = nl.nnodes - 1;
+    CU_ASSERT_EQUAL(nl.parts[ls_netlist_find_part(&nl, "v")].branch, nn);
+    CU_ASSERT_EQUAL(nl.parts[ls_netlist_find_part(&nl, "r")].branch, -1);
+    CU_ASSERT_EQUAL(nl.parts[ls_netlist_find_part(&nl, "e")].branch, nn + 1);
+    CU_ASSERT_EQUAL(nl.parts[ls_netlist_find_part(&nl, "w")].branch, nn + 2);
+    size_t size = (size_t)nl.nparts * sizeof *nl.parts;
+    ls_part *before = malloc(size);
+    CU_ASSERT_FATAL(before != NULL);
+    memcpy(before, nl.parts, size);
+    for (int round = 0; round < 2; round++) {
+        ls_mna m;
+        CU_ASSERT_EQUAL(ls_mna_build(&m, &nl), 0);
+        CU_ASSERT_EQUAL(m.n, nn + 3);
+        CU_ASSERT_EQUAL(memcmp(before, nl.parts, size), 0);
+        ls_mna_free(&m);
+    }
+    free(before);
+    ls_test_front_free(&a, &d, &nl);
+}
+
 static void test_stamp_controlled(void)
 {
     world w;
@@ -268,6 +308,7 @@ int main(void)
         {"unit algebra", test_unit_algebra},
         {"blocks", test_blocks},
         {"stamp: resistor and sources", test_stamp_resistor_and_sources},
+        {"branches fixed at elaboration", test_branches_fixed_at_elaboration},
         {"stamp: controlled sources", test_stamp_controlled},
         {"stamp: op-amp and port", test_stamp_opamp_and_port},
         {"topology", test_topology},
