@@ -766,6 +766,7 @@ typedef struct bb_box {
 typedef struct bb_bound {
     double margin, worst, current;
     int unbounded;           /* checks without a bound */
+    int margin_at, worst_at; /* the checks that give margin and worst (-1: none) */
 } bb_bound;
 
 /* Branch and bound's scratch: a cache of solved points' checks (one row each:
@@ -1013,12 +1014,14 @@ static void bb_bounds(fit_run *r, bb_state *b, int k, bb_bound *out)
     int ns = r->nslots, nc = 1 << k;
     out->margin = out->worst = INFINITY;
     out->unbounded = 0;
+    out->margin_at = out->worst_at = -1;
     for (int s = 0; s < ns; s++) {
         double ub = bound_check(r, b, k, s);
         out->unbounded += ub == INFINITY;
-        out->worst = fmin(out->worst, ub);
-        if (r->slots[s].kind == LS_FITC_EXPECT || r->slots[s].kind == LS_FITC_PORT)
-            out->margin = fmin(out->margin, ub);
+        if (ub < out->worst)
+            out->worst = ub, out->worst_at = s;
+        if ((r->slots[s].kind == LS_FITC_EXPECT || r->slots[s].kind == LS_FITC_PORT) && ub < out->margin)
+            out->margin = ub, out->margin_at = s;
     }
     out->current = -INFINITY;
     if (flags_monotone(b->flag + (size_t)ns * k, k)) {
@@ -1077,14 +1080,39 @@ static int bb_enumerate(fit_run *r, const bb_box *x)
     }
 }
 
-/* Split x at the middle of its widest part (the first of equals) into the
- * stack: the half holding the best candidate's value on top.  Returns the stack size. */
-static int bb_split(const fit_run *r, const bb_box *x, bb_box *stack, int top)
+/* The part to split a bounded box along: the one along whose edges the
+ * figure closest to ruling the box out (the check behind the bound that
+ * decides, or the current) changes most, so the halves' bounds tighten
+ * fastest; -1 when that figure does not change (or is unknown). */
+static int bb_split_part(const fit_run *r, const bb_state *b, const bb_bound *bd, const int *act, int k)
 {
-    int n = r->f->nvars, w = 0;
-    for (int j = 1; j < n; j++)
-        if (x->hi[j] - x->lo[j] > x->hi[w] - x->lo[w])
-            w = j;
+    const ls_fit_study *f = r->f;
+    int ns = r->nslots, s = bd->worst < 0 ? bd->worst_at : f->goal == LS_FIT_CURRENT ? ns : bd->margin_at;
+    if (s < 0)
+        return -1;
+    int best = -1;
+    double most = 0;
+    for (int t = 0; t < k; t++) {
+        double sum = 0;
+        for (int m = 0; m < 1 << k; m++)
+            if (!(m >> t & 1))
+                sum += fabs(row_at(b, b->corner, m | 1 << t)[4 * s] - row_at(b, b->corner, m)[4 * s]);
+        if (sum > most) /* NaN never is */
+            most = sum, best = act[t];
+    }
+    return best;
+}
+
+/* Split x at the middle of part w (-1: the widest, the first of equals)
+ * into the stack: the half holding the best candidate's value on top.
+ * Returns the stack size. */
+static int bb_split(const fit_run *r, const bb_box *x, int w, bb_box *stack, int top)
+{
+    int n = r->f->nvars;
+    if (w < 0)
+        for (int j = w = 0; j < n; j++)
+            if (x->hi[j] - x->lo[j] > x->hi[w] - x->lo[w])
+                w = j;
     int mid = (x->lo[w] + x->hi[w]) / 2;
     bb_box a = *x, b = *x;
     a.hi[w] = mid;
@@ -1116,6 +1144,7 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
         f->bb_solves += f->evaluated - before;
         return rc != 0 ? -1 : top;
     }
+    int w = -1;
     if (k <= b->dims) {
         /* the corners first; the inward steps that test monotonicity only
          * when the corners' bounds would rule the box out */
@@ -1135,10 +1164,11 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
             f->bb_pruned++;
             return top;
         }
+        w = bb_split_part(r, b, &bd, act, k);
     } else {
         f->bb_unbounded += r->nslots;
     }
-    return bb_split(r, x, stack, top);
+    return bb_split(r, x, w, stack, top);
 }
 
 static void bb_free(bb_state *b)
