@@ -316,7 +316,10 @@ static void fit_text(FILE *o, ls_report *rp, const ls_fit_study *f, bool ascii)
                    "solves), the series values around it, then branch and bound (%ld solved, %ld of them by branch "
                    "and bound; %ld boxes, %ld ruled out by their bounds)\n",
                 f->combinations, f->nlopt_evals, f->evaluated, f->bb_solves, f->bb_boxes, f->bb_pruned);
-        if (f->proven)
+        if (f->proven && f->goal == LS_FIT_YIELD)
+            fputs("  proven: no other combination has a larger margin than the finalists, whose yields rank "
+                  "them below\n\n", o);
+        else if (f->proven)
             fputs("  proven: no other combination ranks above the candidates below\n\n", o);
         else
             fprintf(o, "  NOT PROVEN: the search stopped at its limit of %ld solves (--max-solves); the candidates "
