@@ -451,9 +451,11 @@ static int keep(fit_run *r, const ls_fit_cand *c)
     return 0;
 }
 
-/* Has the index vector idx been solved already?  Marks it solved.  (A 64-bit
- * hash stands for the vector; a collision only skips one candidate.) */
-static bool seen_before(fit_run *r, const int *idx, int n)
+/* Has the index vector idx been solved already?  Marks it solved.  Returns
+ * 1 (seen), 0 (new) or -1 (no memory to mark it: the search ends with an
+ * error, as every out of memory does).  (A 64-bit hash stands for the
+ * vector; a collision only skips one candidate.) */
+static int seen_before(fit_run *r, const int *idx, int n)
 {
     uint64_t h = 1469598103934665603ull;
     for (int j = 0; j < n; j++) {
@@ -466,7 +468,7 @@ static bool seen_before(fit_run *r, const int *idx, int n)
         size_t cap = r->seen_cap ? 2 * r->seen_cap : 1024;
         uint64_t *t = calloc(cap, sizeof *t);
         if (!t)
-            return false; /* no memory: solve it again rather than fail */
+            return -1;
         for (size_t i = 0; i < r->seen_cap; i++)
             if (r->seen[i]) {
                 size_t k = r->seen[i] & (cap - 1);
@@ -481,12 +483,12 @@ static bool seen_before(fit_run *r, const int *idx, int n)
     size_t k = h & (r->seen_cap - 1);
     while (r->seen[k]) {
         if (r->seen[k] == h)
-            return true;
+            return 1;
         k = (k + 1) & (r->seen_cap - 1);
     }
     r->seen[k] = h;
     r->seen_n++;
-    return false;
+    return 0;
 }
 
 /* Solve the series candidate idx[] (unless solved before) and keep it.
@@ -496,8 +498,9 @@ static int try_idx(fit_run *r, const int *idx, ls_fit_cand *out, bool *fresh)
     ls_fit_study *f = r->f;
     if (fresh)
         *fresh = false;
-    if (seen_before(r, idx, f->nvars))
-        return 0;
+    int seen = seen_before(r, idx, f->nvars);
+    if (seen != 0)
+        return seen < 0 ? -1 : 0;
     if (fresh)
         *fresh = true;
     ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch};
@@ -823,7 +826,8 @@ static int bb_probe(fit_run *r, bb_state *b, const int *idx, double *row)
     c.checks = NULL;
     f->evaluated++;
     f->bb_solves++;
-    (void)seen_before(r, idx, n); /* the other stages need not solve it again */
+    if (seen_before(r, idx, n) < 0) /* marked, so the other stages need not solve it again */
+        return -1;
     if (f->progress && (f->evaluated & 63) == 0)
         f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
     for (int s = 0; s < r->nslots; s++) {
