@@ -1463,9 +1463,13 @@ int ls_fit_run(ls_fit_study *f)
     ls_diags *kept = f->nl->diags;
     f->nl->diags = &scratch;   /* a candidate that does not solve is a candidate that fails, not an error */
     code = LS_FIT_NOMEM;
+    const ls_solver_stats *ss = f->op->solver ? ls_solver_stats_of(f->op->solver) : NULL;
+    long fact0 = ss ? ss->factorizations : 0, an0 = ss ? ss->analyses : 0;
     if (r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0 &&
         rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_FIT_OK;
+    f->factorizations = ss ? ss->factorizations - fact0 : 0;
+    f->analyses = ss ? ss->analyses - an0 : 0;
     double *start = r.scratch;
     for (int j = 0; start && j < f->nvars; j++)
         start[j] = f->vars[j].start;

@@ -116,6 +116,8 @@ typedef struct ls_fit_study {
     long bb_pruned;      /* of them, dropped on their bounds */
     long bb_enumerated;  /* small enough to solve every combination in them */
     long bb_unbounded;   /* (box, check) pairs with no bound: not monotone at the corners, or undefined */
+    long factorizations; /* numeric factorizations the search made (every candidate solve one, at least) */
+    long analyses;       /* symbolic analyses it made: 0, the one of the written values' solve serves all */
     ls_fit_cand *best;   /* the best candidates, best first: feasible ones by the goal, then the closest */
     int nbest;
     bool any_feasible;   /* best[0].meets */

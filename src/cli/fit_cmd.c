@@ -105,6 +105,8 @@ static void fit_json(ls_report *rp, const ls_fit_study *f)
     ls_jw_int(w, "solved", f->evaluated);
     ls_jw_int(w, "continuous_solves", f->nlopt_evals);
     ls_jw_bool(w, "proven", f->proven);
+    ls_jw_int(w, "factorizations", f->factorizations);
+    ls_jw_int(w, "symbolic_analyses", f->analyses);
     if (!f->exhaustive) {
         ls_jw_int(w, "continuous_status", f->nlopt_status);
         ls_jw_obj(w, "branch_and_bound");

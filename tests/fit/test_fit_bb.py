@@ -20,7 +20,8 @@ Sources outside the project:
 Checks: the proven optimum equals the brute-force one; two files that differ
 only in their written values get the same choice; with a non-monotone check
 the search reports checks it could not bound (so it split or solved instead)
-and still finds the brute-force optimum; a small --max-solves stops the
+and still finds the brute-force optimum; the candidate solves refactor
+numerically and make no symbolic analysis; a small --max-solves stops the
 search and both reports say the answer is not proven.
 """
 import os
@@ -132,6 +133,7 @@ def main():
     check(all(abs(v / 10 ** (i / 24) - 1) < 0.05 for i, v in enumerate(E24)), "E24 table against its rule")
     check(len(VALUES) == 20, "20 values per part")
     starts = [("2k", "2k", "2k", "2k"), ("5.6k", "1k", "6.2k", "1.2k")]
+    chosen_power = None
     for power in (False, True):
         best, bm, second, nfeas = brute(power)
         tag = "with r4's power" if power else "monotone checks"
@@ -165,7 +167,20 @@ def main():
                 check(bb.get("unbounded_checks", -1) == 0, "the ladder's voltages and current are all bounded")
         if len(chosen) == 2:
             check(chosen[0] == chosen[1], f"{tag}: the written values do not change the candidates: {chosen}")
+        if power and chosen:
+            chosen_power = chosen[0][0]
     peak_case()
+    # one symbolic analysis (the written values' solve) serves every candidate: the
+    # search refactors numerically only, with the sparse solver as with the dense one
+    for solver in ("sparse", "dense"):
+        j = fit(f"ladder_{solver}.stack", ladder(starts[0], True), ["--solver", solver])
+        if j:
+            s = j["search"]
+            check(s["symbolic_analyses"] == 0, f"{solver}: no symbolic analysis during the search, got "
+                                               f"{s['symbolic_analyses']}")
+            check(s["factorizations"] >= s["solved"] + s["continuous_solves"],
+                  f"{solver}: a numeric factorization per candidate solve ({s['factorizations']})")
+            check(values_of(j) == chosen_power, f"{solver}: the same choice")
     # the cap: a search stopped early says so, in JSON and in words
     path = circuit("ladder_cap.stack", ladder(starts[0], True))
     j = run_json(["fit", path, "--max-solves", "10"])
