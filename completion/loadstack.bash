@@ -26,7 +26,7 @@ _loadstack_options()
         chain) extra="$_loadstack_circuit --plot --plot-all" ;;
         solve | demo) extra="$_loadstack_circuit --plot-all" ;;
         formula) extra="$_loadstack_circuit --symbols --ideal" ;;
-        fit) extra="$_loadstack_circuit --series --goal --top --write --trials --seed --dist" ;;
+        fit) extra="$_loadstack_circuit --series --goal --top --max-solves --write --trials --seed --dist" ;;
         *) extra="$_loadstack_circuit" ;;
     esac
     echo "$_loadstack_all $extra"
@@ -114,7 +114,7 @@ _loadstack()
         case ${words[i]} in
             --set | --format | --output | --min-ratio | --solver | --derate | --load | --meter | \
             --trials | --seed | --dist | --plot | --steps | --series | --total | --zout | --symbols | \
-            --goal | --top | --write)
+            --goal | --top | --max-solves | --write)
                 # the value follows, as a word, or after a "=" word of its own
                 if [[ ${words[i+1]} == "=" ]]; then ((i += 2)); else ((i++)); fi ;;
             -* | = ) ;;
@@ -159,7 +159,7 @@ _loadstack()
             compopt -o nospace 2>/dev/null
             COMPREPLY=($(compgen -P "$done_part" -W "$(_loadstack_parts "$file") $(_loadstack_lets "$file")" -- "$last"))
             return ;;
-        --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout | --digits | --top)
+        --min-ratio | --derate | --load | --meter | --trials | --seed | --steps | --total | --zout | --digits | --top | --max-solves)
             return ;;
     esac
 

@@ -386,6 +386,17 @@ static int cmp_cand(ls_fit_goal goal, const ls_fit_cand *a, const ls_fit_cand *b
     return 0;
 }
 
+/* cmp_cand, then (a full tie) the series positions compared from the last
+ * free part to the first, smaller first: the order the enumeration meets
+ * them, so the ranking never depends on which stage found a candidate first. */
+static int cmp_ranked(const ls_fit_study *f, ls_fit_goal goal, const ls_fit_cand *a, const ls_fit_cand *b)
+{
+    int c = cmp_cand(goal, a, b);
+    for (int j = f->nvars - 1; c == 0 && j >= 0; j--)
+        c = (a->idx[j] > b->idx[j]) - (a->idx[j] < b->idx[j]);
+    return c;
+}
+
 /* ---- the kept list --------------------------------------------------------------------------- */
 
 static void cand_free(ls_fit_cand *c)
@@ -426,7 +437,7 @@ static int keep(fit_run *r, const ls_fit_cand *c)
         if (same_values(r->f, &r->keep[i], c))
             return 0;
     int at = r->nkeep;
-    while (at > 0 && cmp_cand(g, c, &r->keep[at - 1]) < 0)
+    while (at > 0 && cmp_ranked(r->f, g, c, &r->keep[at - 1]) < 0)
         at--;
     if (at >= r->cap_keep)
         return 0;
@@ -441,9 +452,11 @@ static int keep(fit_run *r, const ls_fit_cand *c)
     return 0;
 }
 
-/* Has the index vector idx been solved already?  Marks it solved.  (A 64-bit
- * hash stands for the vector; a collision only skips one candidate.) */
-static bool seen_before(fit_run *r, const int *idx, int n)
+/* Has the index vector idx been solved already?  Marks it solved.  Returns
+ * 1 (seen), 0 (new) or -1 (no memory to mark it: the search ends with an
+ * error, as every out of memory does).  (A 64-bit hash stands for the
+ * vector; a collision only skips one candidate.) */
+static int seen_before(fit_run *r, const int *idx, int n)
 {
     uint64_t h = 1469598103934665603ull;
     for (int j = 0; j < n; j++) {
@@ -456,7 +469,7 @@ static bool seen_before(fit_run *r, const int *idx, int n)
         size_t cap = r->seen_cap ? 2 * r->seen_cap : 1024;
         uint64_t *t = calloc(cap, sizeof *t);
         if (!t)
-            return false; /* no memory: solve it again rather than fail */
+            return -1;
         for (size_t i = 0; i < r->seen_cap; i++)
             if (r->seen[i]) {
                 size_t k = r->seen[i] & (cap - 1);
@@ -471,12 +484,12 @@ static bool seen_before(fit_run *r, const int *idx, int n)
     size_t k = h & (r->seen_cap - 1);
     while (r->seen[k]) {
         if (r->seen[k] == h)
-            return true;
+            return 1;
         k = (k + 1) & (r->seen_cap - 1);
     }
     r->seen[k] = h;
     r->seen_n++;
-    return false;
+    return 0;
 }
 
 /* Solve the series candidate idx[] (unless solved before) and keep it.
@@ -486,8 +499,9 @@ static int try_idx(fit_run *r, const int *idx, ls_fit_cand *out, bool *fresh)
     ls_fit_study *f = r->f;
     if (fresh)
         *fresh = false;
-    if (seen_before(r, idx, f->nvars))
-        return 0;
+    int seen = seen_before(r, idx, f->nvars);
+    if (seen != 0)
+        return seen < 0 ? -1 : 0;
     if (fresh)
         *fresh = true;
     ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch};
@@ -738,6 +752,485 @@ static int descent(fit_run *r)
     return 0;
 }
 
+/* ---- branch and bound ---------------------------------------------------------------------------- */
+
+#define BB_BOUND_DIMS 12        /* a box wider than one value in more parts is split without a bound */
+#define BB_CACHE 16384          /* points whose checks are kept for the bounds (power of two), at most */
+#define BB_BYTES (32L << 20)    /* bytes the cache, and the corner rows, may take each */
+#define BB_NOISE 1e-9           /* relative change below which a check is flat along a part */
+#define BB_SLACK 1e-6           /* relative widening of a limit before a bound may say it is missed */
+
+/* A box: free part j restricted to series positions lo[j]..hi[j]. */
+typedef struct bb_box {
+    int lo[LS_FIT_MAX_FREE], hi[LS_FIT_MAX_FREE];
+} bb_box;
+
+/* Upper bounds over a box of the smallest goal margin and the smallest margin
+ * of every check, and a lower bound of the supply current. */
+typedef struct bb_bound {
+    double margin, worst, current;
+    int unbounded;           /* checks without a bound */
+    int margin_at, worst_at; /* the checks that give margin and worst (-1: none) */
+} bb_bound;
+
+/* Branch and bound's scratch: a cache of solved points' checks (one row each:
+ * value, margin, lo, hi per check, then the current and whether it solved),
+ * the rows of a box's corners, and its monotonicity flags. */
+typedef struct bb_state {
+    int width;               /* doubles in a row: 4 nslots + 2 */
+    int cache;               /* entries of the cache (a power of two: BB_CACHE, fewer for wide rows) */
+    int dims;                /* most active parts a box is bounded with (BB_BOUND_DIMS, fewer for wide rows) */
+    int *keys;               /* BB_CACHE index vectors */
+    double *rows;            /* BB_CACHE rows */
+    unsigned char *used;
+    int filled;
+    double *corner;          /* (1 << BB_BOUND_DIMS) rows */
+    double *tmp;             /* one row */
+    ls_fit_check *checks;    /* nslots */
+    unsigned char *flag;     /* per (check or current, active part): 1 rises, 2 falls, 4 unknown; value and margin */
+    bool limit_varies_any;
+} bb_state;
+
+enum { BB_UP = 1, BB_DOWN = 2, BB_BAD = 4 };
+
+static double *row_at(const bb_state *b, double *rows, long i) { return rows + i * b->width; }
+
+/* Hash of an index vector, for the cache. */
+static size_t idx_hash(const int *idx, int n)
+{
+    uint64_t h = 1469598103934665603ull;
+    for (int j = 0; j < n; j++) {
+        h ^= (uint64_t)(unsigned)idx[j];
+        h *= 1099511628211ull;
+    }
+    return (size_t)(h ^ (h >> 29));
+}
+
+/* The checks of the series point idx into row: from the cache, else solved
+ * (and kept, as every candidate).  Returns 0, -1 on no memory. */
+static int bb_probe(fit_run *r, bb_state *b, const int *idx, double *row)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars;
+    size_t k = idx_hash(idx, n) & (b->cache - 1);
+    while (b->used[k]) {
+        if (memcmp(&b->keys[k * (size_t)n], idx, (size_t)n * sizeof *idx) == 0) {
+            memcpy(row, row_at(b, b->rows, (long)k), (size_t)b->width * sizeof *row);
+            return 0;
+        }
+        k = (k + 1) & (b->cache - 1);
+    }
+    ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch, .checks = b->checks};
+    for (int j = 0; j < n; j++)
+        c.value[j] = f->vars[j].values[idx[j]];
+    evaluate(r, &c);
+    c.checks = NULL;
+    f->evaluated++;
+    f->bb_solves++;
+    if (seen_before(r, idx, n) < 0) /* marked, so the other stages need not solve it again */
+        return -1;
+    if (f->progress && (f->evaluated & 63) == 0)
+        f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
+    for (int s = 0; s < r->nslots; s++) {
+        const ls_fit_check *q = &b->checks[s];
+        row[4 * s] = c.solved ? q->value : NAN;
+        row[4 * s + 1] = c.solved ? q->margin : NAN;
+        row[4 * s + 2] = c.solved ? q->lo : NAN;
+        row[4 * s + 3] = c.solved ? q->hi : NAN;
+    }
+    row[4 * r->nslots] = c.current;
+    row[4 * r->nslots + 1] = c.solved;
+    if (2 * (b->filled + 1) > b->cache) { /* full: start afresh (the cache only saves solves) */
+        memset(b->used, 0, (size_t)b->cache);
+        b->filled = 0;
+        k = idx_hash(idx, n) & (b->cache - 1);
+    }
+    b->used[k] = 1;
+    b->filled++;
+    memcpy(&b->keys[k * (size_t)n], idx, (size_t)n * sizeof *idx);
+    memcpy(row_at(b, b->rows, (long)k), row, (size_t)b->width * sizeof *row);
+    return keep(r, &c);
+}
+
+/* Record the sign of the change d between two figures a -> b along an
+ * active part into *flag (flat within BB_NOISE of their size). */
+static void note_change(unsigned char *flag, double a, double b)
+{
+    double d = b - a;
+    if (a == b) /* the same figure, infinite ones included: flat */
+        return;
+    if (isnan(d))
+        *flag |= BB_BAD;
+    else if (d > BB_NOISE * fmax(fabs(a), fabs(b)))
+        *flag |= BB_UP;
+    else if (d < -BB_NOISE * fmax(fabs(a), fabs(b)))
+        *flag |= BB_DOWN;
+}
+
+/* Note every figure's change from row a to row b (b one or more series
+ * steps up along active part t). */
+static void note_rows(const fit_run *r, bb_state *b, int k, int t, const double *a, const double *c)
+{
+    int ns = r->nslots;
+    unsigned char *fv = b->flag, *fm = b->flag + (size_t)(ns + 1) * k;
+    bool solved = a[4 * ns + 1] != 0 && c[4 * ns + 1] != 0;
+    for (int s = 0; s <= ns; s++) {
+        if (!solved) {
+            fv[s * k + t] |= BB_BAD;
+            fm[s * k + t] |= BB_BAD;
+            continue;
+        }
+        note_change(&fv[s * k + t], a[4 * s], c[4 * s]);   /* (s == ns: the current) */
+        if (s < ns) {
+            note_change(&fm[s * k + t], a[4 * s + 1], c[4 * s + 1]);
+            if (a[4 * s + 2] != c[4 * s + 2] || a[4 * s + 3] != c[4 * s + 3])
+                fv[s * k + t] |= BB_BAD; /* the limits move: bound the margin instead */
+        }
+    }
+}
+
+/* Is a figure monotone in every active part (by the flags)? */
+static bool flags_monotone(const unsigned char *fl, int k)
+{
+    for (int t = 0; t < k; t++)
+        if ((fl[t] & BB_BAD) || (fl[t] & (BB_UP | BB_DOWN)) == (BB_UP | BB_DOWN))
+            return false;
+    return true;
+}
+
+/* The largest margin of a value in [vmin, vmax] against lo..hi, and 0 at
+ * least when the interval reaches the limits widened by BB_SLACK (a check
+ * within its comparison's slack passes with margin 0). */
+static double interval_margin(double vmin, double vmax, double lo, double hi)
+{
+    double at = isfinite(lo) && isfinite(hi) ? fmin(vmax, fmax(vmin, (lo + hi) / 2)) : isfinite(lo) ? vmax : vmin;
+    double m = isfinite(lo) || isfinite(hi) ? range_margin(at, lo, hi) : INFINITY;
+    double wl = isfinite(lo) ? lo - BB_SLACK * fmax(fabs(lo), isfinite(hi) ? hi - lo : 0) : -INFINITY;
+    double wh = isfinite(hi) ? hi + BB_SLACK * fmax(fabs(hi), isfinite(lo) ? hi - lo : 0) : INFINITY;
+    if (vmax >= wl && vmin <= wh)
+        m = fmax(m, 0);
+    return m;
+}
+
+/* Is check s's margin at most range_margin of its value against lo..hi at
+ * every corner, so that a bound of the value bounds the margin?  Not for
+ * cm= (the worse of two inputs), nor for an op-amp output without feedback
+ * (a comparator passes at a rail: margin +inf); an op-amp at a limit has a
+ * margin below that of its clamped output, and one with imax= the smaller
+ * of two. */
+static bool margin_of_value(const fit_run *r, const bb_state *b, int k, int s)
+{
+    if (r->slots[s].kind == LS_FITC_OPAMP_CM)
+        return false;
+    if (r->slots[s].kind == LS_FITC_OPAMP_OUT)
+        for (int m = 0; m < 1 << k; m++)
+            if (row_at(b, b->corner, m)[4 * s + 1] == INFINITY)
+                return false;
+    return true;
+}
+
+/* Upper bound over the box of check s's margin from the corner rows and its
+ * flags, or +inf when it has none. */
+static double bound_check(const fit_run *r, const bb_state *b, int k, int s)
+{
+    int ns = r->nslots, nc = 1 << k;
+    const unsigned char *fv = b->flag + (size_t)s * k, *fm = b->flag + (size_t)(ns + 1) * k + (size_t)s * k;
+    if (margin_of_value(r, b, k, s) && flags_monotone(fv, k)) {
+        double vmin = INFINITY, vmax = -INFINITY;
+        for (int m = 0; m < nc; m++) {
+            double v = row_at(b, b->corner, m)[4 * s];
+            vmin = fmin(vmin, v);
+            vmax = fmax(vmax, v);
+        }
+        if (isfinite(vmin) && isfinite(vmax)) {
+            const double *c0 = row_at(b, b->corner, 0);
+            vmin -= BB_NOISE * fabs(vmin);
+            vmax += BB_NOISE * fabs(vmax);
+            return interval_margin(vmin, vmax, c0[4 * s + 2], c0[4 * s + 3]);
+        }
+    }
+    if (flags_monotone(fm, k)) {
+        double ub = -INFINITY;
+        for (int m = 0; m < nc; m++)
+            ub = fmax(ub, row_at(b, b->corner, m)[4 * s + 1]);
+        if (!isnan(ub))
+            return ub + BB_NOISE * fabs(ub);
+    }
+    return INFINITY;
+}
+
+/* Series positions of corner m of box x (bit t of m: active part act[t] at
+ * its upper end) into idx. */
+static void corner_idx(const fit_run *r, const bb_box *x, const int *act, int k, int m, int *idx)
+{
+    memcpy(idx, x->lo, (size_t)r->f->nvars * sizeof *idx);
+    for (int t = 0; t < k; t++)
+        if (m >> t & 1)
+            idx[act[t]] = x->hi[act[t]];
+}
+
+/* Solve the corners of box x (its active parts act[0..k-1]) into the corner
+ * rows and note the changes along every edge.  Returns 0, -1 on no memory. */
+static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k)
+{
+    int nc = 1 << k, idx[LS_FIT_MAX_FREE];
+    memset(b->flag, 0, (size_t)2 * (r->nslots + 1) * k);
+    for (int m = 0; m < nc; m++) {
+        corner_idx(r, x, act, k, m, idx);
+        if (bb_probe(r, b, idx, row_at(b, b->corner, m)) != 0)
+            return -1;
+    }
+    for (int m = 0; m < nc; m++)
+        for (int t = 0; t < k; t++)
+            if (!(m >> t & 1))
+                note_rows(r, b, k, t, row_at(b, b->corner, m), row_at(b, b->corner, m | 1 << t));
+    return 0;
+}
+
+/* At every corner, the next series value inward along each active part:
+ * the changes there (the derivative's sign at the corner, on the series) go
+ * into the flags too.  Returns 0, -1 on no memory. */
+static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k)
+{
+    int nc = 1 << k, idx[LS_FIT_MAX_FREE];
+    for (int m = 0; m < nc; m++) {
+        const double *c = row_at(b, b->corner, m);
+        for (int t = 0; t < k; t++) {
+            bool up = m >> t & 1;
+            corner_idx(r, x, act, k, m, idx);
+            idx[act[t]] += up ? -1 : 1;
+            if (bb_probe(r, b, idx, b->tmp) != 0)
+                return -1;
+            if (up)
+                note_rows(r, b, k, t, b->tmp, c);
+            else
+                note_rows(r, b, k, t, c, b->tmp);
+        }
+    }
+    return 0;
+}
+
+/* The box's bounds from the corner rows and the flags: a figure whose every
+ * noted change along a part has one sign is taken as monotone in that part
+ * over the box, so its extremes are at corners (docs/fit.md); a check that is
+ * not has no bound (counted in out->unbounded). */
+static void bb_bounds(fit_run *r, bb_state *b, int k, bb_bound *out)
+{
+    int ns = r->nslots, nc = 1 << k;
+    out->margin = out->worst = INFINITY;
+    out->unbounded = 0;
+    out->margin_at = out->worst_at = -1;
+    for (int s = 0; s < ns; s++) {
+        double ub = bound_check(r, b, k, s);
+        out->unbounded += ub == INFINITY;
+        if (ub < out->worst)
+            out->worst = ub, out->worst_at = s;
+        if ((r->slots[s].kind == LS_FITC_EXPECT || r->slots[s].kind == LS_FITC_PORT) && ub < out->margin)
+            out->margin = ub, out->margin_at = s;
+    }
+    out->current = -INFINITY;
+    if (flags_monotone(b->flag + (size_t)ns * k, k)) {
+        out->current = INFINITY;
+        for (int m = 0; m < nc; m++)
+            out->current = fmin(out->current, row_at(b, b->corner, m)[4 * ns]);
+        out->current -= BB_NOISE * fabs(out->current);
+        if (isnan(out->current))
+            out->current = -INFINITY;
+    }
+}
+
+/* x < y by more than a tie (TIE_REL); false when either is not finite and they are equal. */
+static bool clearly_below(double x, double y)
+{
+    if (x == y || isnan(x) || isnan(y))
+        return false;
+    if (isfinite(x) && isfinite(y))
+        return x < y - TIE_REL * fmax(fabs(x), fabs(y));
+    return x < y;
+}
+
+/* Can nothing in a box with these bounds enter the ranks that must be right
+ * (the reported candidates; with the yield goal, the finalists)? */
+static bool bb_prune(const fit_run *r, const bb_bound *bd)
+{
+    const ls_fit_study *f = r->f;
+    int need = f->goal == LS_FIT_YIELD ? 2 * f->top : f->top;
+    if (need > r->cap_keep)
+        need = r->cap_keep;
+    if (r->nkeep < need)
+        return false;
+    const ls_fit_cand *ref = &r->keep[need - 1];
+    if (bd->worst < 0) /* no candidate of the box meets every check */
+        return ref->meets || clearly_below(bd->worst, ref->worst);
+    if (!ref->meets)
+        return false;
+    if (f->goal == LS_FIT_CURRENT)
+        return clearly_below(ref->current, bd->current);
+    return clearly_below(bd->margin, ref->margin);
+}
+
+/* Solve every combination of box x.  Returns 0, -1 on no memory. */
+static int bb_enumerate(fit_run *r, const bb_box *x)
+{
+    int n = r->f->nvars, idx[LS_FIT_MAX_FREE];
+    memcpy(idx, x->lo, (size_t)n * sizeof *idx);
+    while (true) {
+        if (try_idx(r, idx, NULL, NULL) != 0)
+            return -1;
+        int j = 0;
+        while (j < n && ++idx[j] > x->hi[j])
+            idx[j] = x->lo[j], j++;
+        if (j == n)
+            return 0;
+    }
+}
+
+/* The part to split a bounded box along: the one along whose edges the
+ * figure closest to ruling the box out (the check behind the bound that
+ * decides, or the current) changes most, so the halves' bounds tighten
+ * fastest; -1 when that figure does not change (or is unknown). */
+static int bb_split_part(const fit_run *r, const bb_state *b, const bb_bound *bd, const int *act, int k)
+{
+    const ls_fit_study *f = r->f;
+    int ns = r->nslots, s = bd->worst < 0 ? bd->worst_at : f->goal == LS_FIT_CURRENT ? ns : bd->margin_at;
+    if (s < 0)
+        return -1;
+    int best = -1;
+    double most = 0;
+    for (int t = 0; t < k; t++) {
+        double sum = 0;
+        for (int m = 0; m < 1 << k; m++)
+            if (!(m >> t & 1))
+                sum += fabs(row_at(b, b->corner, m | 1 << t)[4 * s] - row_at(b, b->corner, m)[4 * s]);
+        if (sum > most) /* NaN never is */
+            most = sum, best = act[t];
+    }
+    return best;
+}
+
+/* Split x at the middle of part w (-1: the widest, the first of equals)
+ * into the stack: the half holding the best candidate's value on top.
+ * Returns the stack size. */
+static int bb_split(const fit_run *r, const bb_box *x, int w, bb_box *stack, int top)
+{
+    int n = r->f->nvars;
+    if (w < 0)
+        for (int j = w = 0; j < n; j++)
+            if (x->hi[j] - x->lo[j] > x->hi[w] - x->lo[w])
+                w = j;
+    int mid = (x->lo[w] + x->hi[w]) / 2;
+    bb_box a = *x, b = *x;
+    a.hi[w] = mid;
+    b.lo[w] = mid + 1;
+    bool best_in_b = r->nkeep > 0 && r->keep[0].idx[w] > mid;
+    stack[top++] = best_in_b ? a : b;
+    stack[top++] = best_in_b ? b : a;
+    return top;
+}
+
+/* Look at one box popped from the stack: enumerate it when that costs no
+ * more than bounding it, else bound it and prune or split.  Returns the new
+ * stack size, or -1 on no memory. */
+static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int top)
+{
+    ls_fit_study *f = r->f;
+    int act[LS_FIT_MAX_FREE], k = 0;
+    double count = 1;
+    for (int j = 0; j < f->nvars; j++) {
+        count *= x->hi[j] - x->lo[j] + 1;
+        if (x->hi[j] > x->lo[j])
+            act[k++] = j;
+    }
+    f->bb_boxes++;
+    if (count <= 16 || (k <= b->dims && count <= (double)(2 << k))) {
+        f->bb_enumerated++;
+        long before = f->evaluated;
+        int rc = bb_enumerate(r, x);
+        f->bb_solves += f->evaluated - before;
+        return rc != 0 ? -1 : top;
+    }
+    int w = -1;
+    if (k <= b->dims) {
+        /* the corners first; the inward steps that test monotonicity only
+         * when the corners' bounds would rule the box out */
+        bb_bound bd;
+        if (bb_corners(r, b, x, act, k) != 0)
+            return -1;
+        bb_bounds(r, b, k, &bd);
+        bool out = bb_prune(r, &bd);
+        if (out) {
+            if (bb_inward(r, b, x, act, k) != 0)
+                return -1;
+            bb_bounds(r, b, k, &bd);
+            out = bb_prune(r, &bd);
+        }
+        f->bb_unbounded += bd.unbounded;
+        if (out) {
+            f->bb_pruned++;
+            return top;
+        }
+        w = bb_split_part(r, b, &bd, act, k);
+    } else {
+        f->bb_unbounded += r->nslots;
+    }
+    return bb_split(r, x, w, stack, top);
+}
+
+static void bb_free(bb_state *b)
+{
+    free(b->keys);
+    free(b->rows);
+    free(b->used);
+    free(b->corner);
+    free(b->tmp);
+    free(b->checks);
+    free(b->flag);
+}
+
+/* Branch and bound over the whole candidate set, from the incumbents the
+ * earlier stages kept, within max_solves candidate solves (f->proven says
+ * whether it finished).  Returns 0, -1 on no memory. */
+static int branch_and_bound(fit_run *r)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars, depth = 2;
+    long cap = f->max_solves > 0 ? f->max_solves : LS_FIT_MAX_SOLVES;
+    for (int j = 0; j < n; j++)
+        depth += (int)ceil(log2(f->vars[j].nvalues + 1.0)) + 1;
+    bb_state b = {.width = 4 * r->nslots + 2, .cache = BB_CACHE, .dims = BB_BOUND_DIMS};
+    while (b.cache > 64 && (long)b.cache * b.width * (long)sizeof(double) > BB_BYTES)
+        b.cache /= 2;
+    while (b.dims > 2 && (1L << b.dims) * b.width * (long)sizeof(double) > BB_BYTES)
+        b.dims--;
+    b.keys = malloc((size_t)b.cache * (size_t)n * sizeof *b.keys);
+    b.rows = malloc((size_t)b.cache * (size_t)b.width * sizeof *b.rows);
+    b.used = calloc((size_t)b.cache, 1);
+    b.corner = malloc(((size_t)1 << b.dims) * (size_t)b.width * sizeof *b.corner);
+    b.tmp = malloc((size_t)b.width * sizeof *b.tmp);
+    b.checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *b.checks);
+    b.flag = malloc((size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1);
+    bb_box *stack = malloc((size_t)depth * sizeof *stack);
+    int rc = -1;
+    if (b.keys && b.rows && b.used && b.corner && b.tmp && b.checks && b.flag && stack) {
+        int top = 1;
+        for (int j = 0; j < n; j++) {
+            stack[0].lo[j] = 0;
+            stack[0].hi[j] = f->vars[j].nvalues - 1;
+        }
+        r->total_hint = f->evaluated + cap;
+        long start = f->bb_solves;
+        while (top > 0 && f->bb_solves - start < cap && !r->nomem) {
+            bb_box x = stack[--top];
+            top = bb_visit(r, &b, &x, stack, top);
+        }
+        f->proven = top == 0 && !r->nomem;
+        rc = top < 0 ? -1 : 0;
+    }
+    bb_free(&b);
+    free(stack);
+    return rc;
+}
+
 /* ---- finalists --------------------------------------------------------------------------------- */
 
 /* Monte Carlo acceptance: every check passes on the trial's op. */
@@ -914,7 +1407,7 @@ static int search(fit_run *r)
     ls_fit_study *f = r->f;
     double limit = f->exhaustive_limit > 0 ? f->exhaustive_limit : LS_FIT_EXHAUSTIVE;
     if (f->combinations <= limit) {
-        f->exhaustive = true;
+        f->exhaustive = f->proven = true;
         return exhaustive(r);
     }
     /* Two starts, the written values and the middle of the ranges (on a log
@@ -936,7 +1429,9 @@ static int search(fit_run *r)
     }
     for (int j = 0; j < f->nvars; j++)
         f->vars[j].optimum = opt[j];
-    return descent(r);
+    if (descent(r) != 0)
+        return -1;
+    return branch_and_bound(r);
 }
 
 int ls_fit_run(ls_fit_study *f)
@@ -946,7 +1441,8 @@ int ls_fit_run(ls_fit_study *f)
     f->nvars = f->nbest = 0;
     f->evaluated = f->nlopt_evals = 0;
     f->nlopt_status = 0;
-    f->exhaustive = f->any_feasible = f->have_yield = false;
+    f->exhaustive = f->any_feasible = f->have_yield = f->proven = false;
+    f->bb_solves = f->bb_boxes = f->bb_pruned = f->bb_enumerated = f->bb_unbounded = 0;
     if (f->nl->nfrees == 0)
         return LS_FIT_NOFREE;
     if (f->nl->nfrees > LS_FIT_MAX_FREE)
@@ -965,9 +1461,13 @@ int ls_fit_run(ls_fit_study *f)
     ls_diags *kept = f->nl->diags;
     f->nl->diags = &scratch;   /* a candidate that does not solve is a candidate that fails, not an error */
     code = LS_FIT_NOMEM;
+    const ls_solver_stats *ss = f->op->solver ? ls_solver_stats_of(f->op->solver) : NULL;
+    long fact0 = ss ? ss->factorizations : 0, an0 = ss ? ss->analyses : 0;
     if (r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0 &&
         rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_FIT_OK;
+    f->factorizations = ss ? ss->factorizations - fact0 : 0;
+    f->analyses = ss ? ss->analyses - an0 : 0;
     double *start = r.scratch;
     for (int j = 0; start && j < f->nvars; j++)
         start[j] = f->vars[j].start;

@@ -17,7 +17,9 @@
  * the values: maximise t subject to every margin >= t, or minimise the
  * current subject to every margin >= 0), then the series values around it
  * (every combination of the nearest values on each side) and a descent one
- * series step at a time from the best of those.  Every candidate solve reuses
+ * series step at a time from the best of those, then branch and bound over
+ * boxes of series values with the checks' bounds at the boxes' corners, up to
+ * max_solves candidate solves (proven says whether it finished).  Every candidate solve reuses
  * the factorization's symbolic analysis (ls_op_resolve). */
 #ifndef LS_FIT_H
 #define LS_FIT_H
@@ -29,6 +31,7 @@
 
 #define LS_FIT_EXHAUSTIVE 100000   /* combinations enumerated one by one up to this */
 #define LS_FIT_MAX_FREE 64         /* free parts a search takes */
+#define LS_FIT_MAX_SOLVES 500000   /* default cap on branch and bound's candidate solves */
 
 typedef enum ls_fit_goal { LS_FIT_MARGIN, LS_FIT_YIELD, LS_FIT_CURRENT } ls_fit_goal;
 
@@ -97,6 +100,7 @@ typedef struct ls_fit_study {
     void (*progress)(void *ctx, long done, long total);   /* or NULL */
     void *progress_ctx;
     double exhaustive_limit;   /* <= 0: LS_FIT_EXHAUSTIVE; the tests lower it to try the continuous path */
+    long max_solves;     /* candidate solves branch and bound may spend (<= 0: LS_FIT_MAX_SOLVES) */
     /* out */
     ls_fit_var *vars;
     int nvars;
@@ -105,6 +109,15 @@ typedef struct ls_fit_study {
     int nlopt_status;    /* NLopt's result code of the continuous stage (0 when none ran) */
     long nlopt_evals;    /* its circuit solves */
     long evaluated;      /* candidates solved in the discrete search */
+    bool proven;         /* no combination outranks the reported ones: every one was tried, or branch and
+                          * bound finished (docs/fit.md); false when the solve limit stopped it */
+    long bb_solves;      /* candidate solves of branch and bound (its share of evaluated) */
+    long bb_boxes;       /* boxes it looked at */
+    long bb_pruned;      /* of them, dropped on their bounds */
+    long bb_enumerated;  /* small enough to solve every combination in them */
+    long bb_unbounded;   /* (box, check) pairs with no bound: not monotone at the corners, or undefined */
+    long factorizations; /* numeric factorizations the search made (every candidate solve one, at least) */
+    long analyses;       /* symbolic analyses it made: 0, the one of the written values' solve serves all */
     ls_fit_cand *best;   /* the best candidates, best first: feasible ones by the goal, then the closest */
     int nbest;
     bool any_feasible;   /* best[0].meets */

@@ -50,6 +50,7 @@ typedef struct ls_cli {
     bool ideal;                        /* formula: --ideal */
     const char *goal;                  /* fit: --goal margin|yield|current */
     int top;                           /* fit: --top K (default 5) */
+    long max_solves;                   /* fit: --max-solves N, branch and bound's cap (0: LS_FIT_MAX_SOLVES) */
     const char *write;                 /* fit: --write FILE.stack */
     ls_dest write_dest;                /* its destination, prepared with the others */
     bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */

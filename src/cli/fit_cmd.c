@@ -100,12 +100,24 @@ static void fit_json(ls_report *rp, const ls_fit_study *f)
     ls_jw_str(w, "goal", ls_fit_goal_name(f->goal));
     ls_jw_str(w, "series", f->series);
     ls_jw_obj(w, "search");
-    ls_jw_str(w, "method", f->exhaustive ? "every-combination" : "continuous-then-neighbours");
+    ls_jw_str(w, "method", f->exhaustive ? "every-combination" : "continuous-then-branch-and-bound");
     ls_jw_num(w, "combinations", f->combinations);
     ls_jw_int(w, "solved", f->evaluated);
     ls_jw_int(w, "continuous_solves", f->nlopt_evals);
-    if (!f->exhaustive)
+    ls_jw_bool(w, "proven", f->proven);
+    ls_jw_int(w, "factorizations", f->factorizations);
+    ls_jw_int(w, "symbolic_analyses", f->analyses);
+    if (!f->exhaustive) {
         ls_jw_int(w, "continuous_status", f->nlopt_status);
+        ls_jw_obj(w, "branch_and_bound");
+        ls_jw_int(w, "solves", f->bb_solves);
+        ls_jw_int(w, "solve_limit", f->max_solves);
+        ls_jw_int(w, "boxes", f->bb_boxes);
+        ls_jw_int(w, "pruned", f->bb_pruned);
+        ls_jw_int(w, "enumerated", f->bb_enumerated);
+        ls_jw_int(w, "unbounded_checks", f->bb_unbounded);
+        ls_jw_end(w);
+    }
     if (f->have_yield) {
         ls_jw_int(w, "trials", f->yield_trials);
         ls_jw_int(w, "seed", (long long)f->seed);
@@ -301,10 +313,21 @@ static void fit_text(FILE *o, ls_report *rp, const ls_fit_study *f, bool ascii)
             ls_fit_goal_name(f->goal));
     if (f->exhaustive)
         fprintf(o, "  search: every combination (%.0f, each solved)\n\n", f->combinations);
-    else
+    else {
         fprintf(o, "  search: %.3g combinations are too many to try each; continuous optimum (NLopt COBYLA, %ld "
-                   "solves), then the series values around it (%ld solved)\n\n",
-                f->combinations, f->nlopt_evals, f->evaluated);
+                   "solves), the series values around it, then branch and bound (%ld solved, %ld of them by branch "
+                   "and bound; %ld boxes, %ld ruled out by their bounds)\n",
+                f->combinations, f->nlopt_evals, f->evaluated, f->bb_solves, f->bb_boxes, f->bb_pruned);
+        if (f->proven && f->goal == LS_FIT_YIELD)
+            fputs("  proven: no other combination has a larger margin than the finalists, whose yields rank "
+                  "them below\n\n", o);
+        else if (f->proven)
+            fputs("  proven: no other combination ranks above the candidates below\n\n", o);
+        else
+            fprintf(o, "  NOT PROVEN: the search stopped at its limit of %ld solves (--max-solves); the candidates "
+                       "below are the best found, and a combination not tried may rank higher\n\n",
+                    f->max_solves);
+    }
     free_parts_text(o, rp, f, ascii);
     fputc('\n', o);
     ranking_text(o, rp, f, ascii);
@@ -434,6 +457,7 @@ static int fit_options(ls_cli *cli, ls_fit_study *f)
     f->trials = cli->trials > 0 ? cli->trials : FIT_DEFAULT_TRIALS;
     f->seed = cli->seed;
     f->normal = cli->dist && strcmp(cli->dist, "normal") == 0;
+    f->max_solves = cli->max_solves > 0 ? cli->max_solves : LS_FIT_MAX_SOLVES;
     /* the tests set this to try the continuous path on cases small enough to enumerate (docs/fit.md) */
     const char *lim = getenv("LOADSTACK_FIT_EXHAUSTIVE");
     f->exhaustive_limit = lim && *lim ? strtod(lim, NULL) : 0;

@@ -60,6 +60,7 @@ static const optdef options[] = {
     {"zout", true, FOR_LISTED, "pick", "MAX  largest acceptable rtop || rbot"},
     {"goal", true, FOR_LISTED, "fit", "margin|yield|current  what the best candidate has most of (least current) (default margin)"},
     {"top", true, FOR_LISTED, "fit", "K  candidates to report, best first (default 5)"},
+    {"max-solves", true, FOR_LISTED, "fit", "N  candidate solves branch and bound may spend, SI prefixes allowed (default 500k)"},
     {"write", true, FOR_LISTED, "fit", "FILE.stack  a copy of the circuit with the chosen values (never the input)"},
     {"symbols", true, FOR_LISTED, "formula", "A,B,...  keep only these parts' values and lets as symbols (the rest as numbers)"},
     {"ideal", false, FOR_LISTED, "formula", "take every finite op-amp gain to infinity (the formula designers write first)"},
@@ -391,6 +392,10 @@ static int set_option(ls_cli *cli, const optdef *o, const char *val)
         if (!whole_number(val, 1, 1000, &k))
             return bad_usage("--top takes a whole number from 1 to 1000, not '%s'%s", val, "");
         cli->top = (int)k;
+    } else if (strcmp(n, "max-solves") == 0) {
+        if (!count_si(val, 1, 1000000000, &cli->max_solves))
+            return bad_usage("--max-solves takes a whole number from 1 to 1G (SI prefixes allowed: 50k), not '%s'%s",
+                             val, "");
     } else if (strcmp(n, "write") == 0) {
         cli->write = val;
     } else if (strcmp(n, "symbols") == 0) {
