@@ -114,6 +114,7 @@ typedef struct amg {
     HYPRE_ParVector pb, px;
     HYPRE_Solver pcg, prec;
     int *rows;              /* 0 .. m-1, for vector transfers */
+    int *ncols;             /* entries in each of this rank's rows, for hypre's setup */
     bool factored;
     /* Spread over ranks (ls_amg_spread_ranks): this rank owns the rows
      * lo..hi of G in hypre's matrices and vectors; every rank keeps the whole
@@ -166,6 +167,8 @@ static void amg_release(amg *h)
     free(h->s); free(h->ipiv);
     free(h->t); free(h->r); free(h->y); free(h->z);
     free(h->rows);
+    free(h->ncols);
+    h->ncols = NULL;
     free(h->counts);
     free(h->displs);
     h->counts = h->displs = NULL;
@@ -417,9 +420,7 @@ static int hypre_setup(amg *h)
 {
     int m = h->m, lo = h->lo, hi = h->hi, nloc = hi - lo + 1;
     const ls_csc *g = &h->g;
-    int *ncols = malloc((size_t)(nloc > 0 ? nloc : 1) * sizeof *ncols);
-    if (!ncols)
-        return LS_SOLVER_NOMEM;
+    int *ncols = h->ncols; /* (allocated by build_local: no rank may stop here alone) */
     for (int i = 0; i < m; i++)
         h->rows[i] = i;
     for (int i = lo; i <= hi; i++)
@@ -434,7 +435,6 @@ static int hypre_setup(amg *h)
     HYPRE_IJMatrixSetValues(h->ij, nloc, ncols, h->rows + lo, g->rowind + g->colptr[lo], g->val + g->colptr[lo]);
     HYPRE_IJMatrixAssemble(h->ij);
     HYPRE_IJMatrixGetObject(h->ij, (void **)&h->pg);
-    free(ncols);
     HYPRE_IJVectorCreate(comm, lo, hi, &h->ijb);
     HYPRE_IJVectorSetObjectType(h->ijb, HYPRE_PARCSR);
     HYPRE_IJVectorInitialize(h->ijb);
@@ -651,7 +651,8 @@ static int build_local(amg *h, const ls_csc *a, ls_solver_stats *st)
     h->y = malloc((sk ? sk : 1) * sizeof *h->y);
     h->z = malloc(((size_t)m + sk) * sizeof *h->z);
     h->rows = malloc((size_t)m * sizeof *h->rows);
-    if (!h->t || !h->r || !h->y || !h->z || !h->rows)
+    h->ncols = malloc((size_t)(h->hi - h->lo + 1) * sizeof *h->ncols);
+    if (!h->t || !h->r || !h->y || !h->z || !h->rows || !h->ncols)
         return LS_SOLVER_NOMEM;
     return room_for_hypre(h, st);
 }
