@@ -45,6 +45,7 @@
 #include <lapacke.h>
 #include <mpi.h>
 
+#include <float.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdio.h>
@@ -115,6 +116,7 @@ typedef struct amg {
     HYPRE_Solver pcg, prec;
     int *rows;              /* 0 .. m-1, for vector transfers */
     int *ncols;             /* entries in each of this rank's rows, for hypre's setup */
+    double gnorm;           /* ||G||_1 (pins included): the residual's rounding floor */
     bool factored;
     /* Spread over ranks (ls_amg_spread_ranks): this rank owns the rows
      * lo..hi of G in hypre's matrices and vectors; every rank keeps the whole
@@ -502,6 +504,19 @@ static double norm2(const double *v, int n)
     return sqrt(s);
 }
 
+/* The smallest relative residual ||b - G x|| / ||b|| that can be told from
+ * rounding when it is computed in double precision: each row's sum of at
+ * most k + 1 products errs by about (k + 2) eps (|b| + |G| |x|), and
+ * || |G| |x| ||_2 <= ||G||_1 ||x||_2 for a symmetric G.  A large, smooth
+ * solution (a 2-D mesh of millions of nodes, condition ~10^6 and up) puts
+ * this above LS_AMG_RTOL: asking for less would only fail the solve, and
+ * the refinement against the whole system in extra precision takes the
+ * answer the rest of the way. */
+static double residual_floor(const amg *h, const double *x, double bn)
+{
+    return 16 * DBL_EPSILON * (1 + h->gnorm * norm2(x, h->m) / bn);
+}
+
 /* x = G^-1 b (b kept), by PCG runs restarted on the true residual b - G x
  * until it is below LS_AMG_RTOL relative to b.  Adds the iterations to
  * st->cg_iterations and raises st->cg_residual to the true relative
@@ -517,9 +532,9 @@ static int g_solve(amg *h, const double *b, double *x, ls_solver_stats *st)
     double *r = h->r, *d = h->t;
     memcpy(r, b, (size_t)m * sizeof *r);
     memset(x, 0, (size_t)m * sizeof *x);
-    double rel = 1;
+    double rel = 1, goal = LS_AMG_RTOL;
     pthread_mutex_lock(&hypre_lock);
-    for (int run = 0; run <= AMG_RESTARTS && rel > LS_AMG_RTOL; run++) {
+    for (int run = 0; run <= AMG_RESTARTS && rel > goal; run++) {
         int it;
         pcg_run(h, r, d, &it);
         st->cg_iterations += it;
@@ -529,11 +544,12 @@ static int g_solve(amg *h, const double *b, double *x, ls_solver_stats *st)
         for (int i = 0; i < m; i++)
             r[i] = b[i] - r[i];
         rel = norm2(r, m) / bn;
+        goal = fmax(LS_AMG_RTOL, residual_floor(h, x, bn));
     }
     pthread_mutex_unlock(&hypre_lock);
     if (!(rel <= st->cg_residual))
         st->cg_residual = rel;
-    return rel <= LS_AMG_RTOL ? LS_SOLVER_OK : LS_SOLVER_NOT_CONVERGED;
+    return rel <= goal ? LS_SOLVER_OK : LS_SOLVER_NOT_CONVERGED;
 }
 
 /* ---- factor and solve ------------------------------------------------------------- */
@@ -640,6 +656,13 @@ static int build_local(amg *h, const ls_csc *a, ls_solver_stats *st)
     for (int q = nbare; q < nbare + nfloat; q++)
         *diag_of(&h->g, work[q]) += gpin;
     int npin = nbare + nfloat;
+    h->gnorm = 0;
+    for (int j = 0; j < m; j++) {
+        double c = 0;
+        for (int p = h->g.colptr[j]; p < h->g.colptr[j + 1]; p++)
+            c += fabs(h->g.val[p]);
+        h->gnorm = fmax(h->gnorm, c);
+    }
     h->k = a->n - m + npin;
     int rc = take_border(h, a, work, npin, gpin);
     free(work);
