@@ -27,9 +27,9 @@ libloadstack.so.0.  In a build tree:
     LOADSTACK_LIBRARY=build/src/libloadstack.so PYTHONPATH=python python3 ...
 """
 from ._api import (Circuit, CircuitError, Diagnostic, FitCandidate, FitResult, Formula, InfluenceRow, LoadstackError, OperatingPoint,
-                   Part, Port, PortThevenin, SagReport, SagShare, SweepResult, Thevenin, ToleranceReport,
+                   Part, Port, PortThevenin, SagReport, SagShare, SolverUnavailable, SweepResult, Thevenin, ToleranceReport,
                    library_version)
 
 __all__ = ["Circuit", "CircuitError", "Diagnostic", "FitCandidate", "FitResult", "Formula", "InfluenceRow", "LoadstackError", "OperatingPoint",
-           "Part", "Port", "PortThevenin", "SagReport", "SagShare", "SweepResult", "Thevenin", "ToleranceReport",
+           "Part", "Port", "PortThevenin", "SagReport", "SagShare", "SolverUnavailable", "SweepResult", "Thevenin", "ToleranceReport",
            "library_version"]

@@ -165,7 +165,8 @@ _proto("ls_circuit_formula", _I, _P, ctypes.c_char_p, ctypes.c_char_p, _I, ctype
        _c_double_p)
 
 _LS_E_CIRCUIT, _LS_E_NOT_FOUND = -4, -6
-_BACKENDS = {"auto": 0, "dense": 1, "sparse": 2}
+_BACKENDS = {"auto": 0, "dense": 1, "sparse": 2, "iterative": 3}
+_LS_E_ARGUMENT = -1
 _VERDICTS = ("ok", "marginal", "loading")
 _LEVELS = ("note", "warning", "error")
 
@@ -235,6 +236,17 @@ class LoadstackError(Exception):
 
 class CircuitError(LoadstackError):
     """Errors in the circuit text, a quantity or a setting, with file:line:col."""
+
+
+class SolverUnavailable(LoadstackError):
+    """The solver asked for is not in this build of the library: the iterative
+    one (hypre) exists only in a library built with meson -Dmpi=enabled."""
+
+    def __init__(self, status: int):
+        super().__init__(status)
+        self.message = ("this loadstack library was built without the iterative solver (hypre AMG-PCG); "
+                        "build it with 'meson setup build -Dmpi=enabled', or use solver=\"sparse\"")
+        self.args = (self.message,)
 
 
 @dataclass(frozen=True)
@@ -598,15 +610,23 @@ class Circuit:
     # -- solving and reading --
     def solve(self, solver: str = "auto", min_ratio: float = 0.0, derate: float = 1.0) -> OperatingPoint:
         """Solve the DC operating point and return it with the port report.
-        solver is "auto", "dense" or "sparse"; min_ratio the minimum zin/zout
-        for a port's verdict (0: the circuit's rule, else 10); derate
-        multiplies the power ratings.  Raises LoadstackError when the circuit
-        cannot be solved."""
+        solver is "auto", "dense", "sparse" or "iterative" (AMG-preconditioned
+        conjugate gradients, only in a library built with -Dmpi=enabled:
+        docs/iterative.md); min_ratio the minimum zin/zout for a port's
+        verdict (0: the circuit's rule, else 10); derate multiplies the power
+        ratings.  Raises ValueError for an unknown solver, SolverUnavailable
+        when the library has no iterative solver, LoadstackError when the
+        circuit cannot be solved."""
+        if solver not in _BACKENDS:
+            raise ValueError(f"solver must be one of {', '.join(_BACKENDS)}, not {solver!r}")
         h = self._handle()
         n0 = len(self.diagnostics())
         opt = _SolveOptions(_BACKENDS[solver], min_ratio, derate)
         self._solved = False
-        self._check(_lib.ls_circuit_solve(h, ctypes.byref(opt)), n0)
+        st = _lib.ls_circuit_solve(h, ctypes.byref(opt))
+        if st == _LS_E_ARGUMENT and solver == "iterative":
+            raise SolverUnavailable(st)
+        self._check(st, n0)
         self._solved = True
         info = _SolveInfo()
         self._check(_lib.ls_circuit_solve_info(h, ctypes.byref(info)))

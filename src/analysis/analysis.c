@@ -260,6 +260,14 @@ static bool iterative_failed(ls_op *op, int st)
                  "(use --solver sparse)", ss->cg_residual, LS_AMG_RTOL);
         return true;
     }
+    if (st == LS_SOLVER_NOMEM) {
+        ls_error(nl->diags, LS_NOLOC,
+                 "out of memory setting up the iterative solver (%s) for %d unknowns with %d nonzeros: it "
+                 "would take about %.1f MB in each process", ss->library, op->mna.n, ls_csc_nnz(&op->mna.a),
+                 ss->bytes_needed / 1e6);
+        op->nomem = true;
+        return true;
+    }
     if (op->opt.solver != LS_CHOOSE_ITERATIVE || st != LS_SOLVER_NOT_SPD)
         return false;
     char what[300];

@@ -10,12 +10,14 @@
 #include "analysis/newton.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "netlist/elab.h"
 #include "lang/lexer.h"
 #include "analysis/lowrank.h"
+#include "solve/amg.h"
 
 /* The error of a gradient that ran out of memory (compared by address:
  * ls_sens then returns LS_SENS_NOMEM, which a caller must not take for a
@@ -709,6 +711,66 @@ static int by_norm(const void *a, const void *b)
     return x->part - y->part;
 }
 
+/* The iterative solver's adjoint solves stop at a relative residual of
+ * LS_AMG_RTOL, so a derivative whose contribution |p dQ/dp| is below that
+ * share of the largest one (or of |Q|) is noise of the stopping rule (where
+ * the exact answer is 0 it comes out near 1e-26), not a finding: it is
+ * reported as exactly 0 (docs/iterative.md). */
+static void zero_unresolved(ls_sens_item *it, int k, double q)
+{
+    double scale = fabs(q);
+    for (int i = 0; i < k; i++)
+        if (fabs(it[i].nominal * it[i].derivative) > scale)
+            scale = fabs(it[i].nominal * it[i].derivative);
+    for (int i = 0; i < k; i++)
+        if (fabs(it[i].nominal * it[i].derivative) <= LS_AMG_RTOL * scale) {
+            it[i].derivative = 0;
+            it[i].normalized = q != 0 ? 0 : NAN;
+        }
+}
+
+/* An item with its sort key rounded to 7 significant digits. */
+typedef struct keyed {
+    double key;
+    ls_sens_item item;
+} keyed;
+
+/* qsort order of keyed items: largest key first, then by part. */
+static int by_key(const void *a, const void *b)
+{
+    const keyed *x = a, *y = b;
+    if (x->key != y->key)
+        return x->key < y->key ? 1 : -1;
+    return x->item.part - y->item.part;
+}
+
+/* The iterative solver's order: unresolved derivatives made 0
+ * (zero_unresolved), then sorted as by_norm but on keys rounded to 7
+ * significant digits.  Parts that are equal by symmetry get derivatives
+ * that differ in the last digits, differently from one solve to the next
+ * (another count of ranks, another solver); the rounding makes them ties
+ * broken by part, so the order is the same (docs/iterative.md).  0, or -1
+ * without memory. */
+static int sort_unresolved(ls_sens_item *it, int k, double q)
+{
+    zero_unresolved(it, k, q);
+    keyed *ks = malloc((size_t)(k ? k : 1) * sizeof *ks);
+    if (!ks)
+        return -1;
+    for (int i = 0; i < k; i++) {
+        double v = isnan(it[i].normalized) ? fabs(it[i].derivative) : fabs(it[i].normalized);
+        char buf[32];
+        snprintf(buf, sizeof buf, "%.6e", v);
+        ks[i].key = strtod(buf, NULL);
+        ks[i].item = it[i];
+    }
+    qsort(ks, (size_t)k, sizeof *ks, by_key);
+    for (int i = 0; i < k; i++)
+        it[i] = ks[i].item;
+    free(ks);
+    return 0;
+}
+
 /* See sens.h. */
 int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
 {
@@ -750,7 +812,14 @@ int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
         it[k].normalized = d.v != 0 ? ls_run_value(&op->run, p) / d.v * d.g[m] : NAN;
         k++;
     }
-    qsort(it, (size_t)k, sizeof *it, by_norm);
+    if (op->method != LS_METHOD_ITERATIVE_AMG)
+        qsort(it, (size_t)k, sizeof *it, by_norm);
+    else if (sort_unresolved(it, k, d.v) != 0) {
+        ls_error(nl->diags, LS_NOLOC, "out of memory in the sensitivity analysis (%d parts)", nl->nparts);
+        free(d.g);
+        free(it);
+        return LS_SENS_NOMEM;
+    }
     free(d.g);
     *items = it;
     return k;

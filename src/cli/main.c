@@ -14,6 +14,7 @@
 #include "solve/solver.h"
 #ifdef LS_MPI_PROGRAM
 #include "cli/mpi_share.h"
+#include "solve/amg.h"
 #endif
 
 #ifndef LS_VERSION
@@ -570,8 +571,8 @@ static int run_main(int argc, char **argv, const ls_share *share)
 #ifdef LS_MPI_PROGRAM
 /* A rank other than the first computes its share and writes nothing: its
  * --output and --plot are dropped (argv shortened in place; the new argc is
- * returned) and its standard output and error go to /dev/null. */
-static int quiet_rank(int argc, char **argv)
+ * returned) and its standard output and error go elsewhere (ls_mpi_quiet). */
+static int quiet_rank(int argc, char **argv, ls_mpi *mpi)
 {
     int w = 1;
     bool done = false;
@@ -587,36 +588,39 @@ static int quiet_rank(int argc, char **argv)
         argv[w++] = argv[i];
     }
     argv[w] = NULL;
-    if (!freopen("/dev/null", "w", stdout) || !freopen("/dev/null", "w", stderr))
-        return -1;
-    return w;
+    return ls_mpi_quiet(mpi) == 0 ? w : -1;
 }
 
-/* loadstack-mpi: the same program, run as MPI_COMM_WORLD's ranks; tol's
- * trials and sweep's points are split among them (src/share.h) and the first
- * rank writes the report, identical to one process's. */
+/* loadstack-mpi: the same program, run as MPI_COMM_WORLD's ranks.  tol's
+ * trials and sweep's points are split among them (src/share.h); any other
+ * command is run by every rank alike, and the iterative solver splits each
+ * system's rows among them (hypre's distributed matrices, amg.c).  The
+ * first rank writes the report, identical to one process's. */
 int main(int argc, char **argv)
 {
-    ls_share share;
-    if (ls_mpi_start(&argc, &argv, &share) != 0) {
+    ls_mpi mpi;
+    if (ls_mpi_start(&argc, &argv, &mpi) != 0) {
         fputs("loadstack-mpi: error: MPI could not start\n", stderr);
         ls_exit_now(LS_EXIT_USAGE);
     }
+    const ls_share *share = &mpi.share;
     int code = LS_EXIT_OK;
-    for (int i = 1; i < argc && share.size > 1; i++)
+    for (int i = 1; i < argc && share->size > 1; i++)
         if (strcmp(argv[i], "-") == 0) {
-            if (share.rank == 0)
+            if (share->rank == 0)
                 fputs("loadstack-mpi: error: with several processes the circuit must be a file (standard input "
                       "reaches only the first)\n", stderr);
             code = LS_EXIT_USAGE;
             break;
         }
-    if (code == LS_EXIT_OK && share.rank > 0 && (argc = quiet_rank(argc, argv)) < 0)
+    const cmd *c = command_word(argc, argv);
+    if (share->size > 1 && c && strcmp(c->name, "tol") != 0 && strcmp(c->name, "sweep") != 0)
+        ls_amg_spread_ranks();
+    if (code == LS_EXIT_OK && share->rank > 0 && (argc = quiet_rank(argc, argv, &mpi)) < 0)
         code = LS_EXIT_USAGE;
     if (code == LS_EXIT_OK)
-        code = run_main(argc, argv, &share);
-    ls_mpi_end();
-    ls_exit_now(code);
+        code = run_main(argc, argv, share);
+    ls_exit_now(ls_mpi_end(&mpi, code));
 }
 #else
 int main(int argc, char **argv)

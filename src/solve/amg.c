@@ -45,8 +45,10 @@
 #include <lapacke.h>
 #include <mpi.h>
 
+#include <float.h>
 #include <math.h>
 #include <pthread.h>
+#include <stdio.h>
 #include <stdbool.h>
 #include <stdlib.h>
 #include <string.h>
@@ -64,6 +66,15 @@
 static pthread_mutex_t hypre_lock = PTHREAD_MUTEX_INITIALIZER;
 static pthread_once_t hypre_once = PTHREAD_ONCE_INIT;
 static int hypre_ready; /* written once under hypre_once */
+/* Set once by ls_amg_spread_ranks before any solve: each system's node block
+ * is split by rows among MPI_COMM_WORLD's ranks.  A fact about the process
+ * (it is one rank of a distributed run), like hypre's own state. */
+static int spread_ranks;
+
+void ls_amg_spread_ranks(void)
+{
+    spread_ranks = 1;
+}
 
 static void hypre_start(void)
 {
@@ -104,7 +115,18 @@ typedef struct amg {
     HYPRE_ParVector pb, px;
     HYPRE_Solver pcg, prec;
     int *rows;              /* 0 .. m-1, for vector transfers */
+    int *ncols;             /* entries in each of this rank's rows, for hypre's setup */
+    double gnorm;           /* ||G||_1 (pins included): the residual's rounding floor */
     bool factored;
+    /* Spread over ranks (ls_amg_spread_ranks): this rank owns the rows
+     * lo..hi of G in hypre's matrices and vectors; every rank keeps the whole
+     * system and every solution whole (gathered after each PCG run), so all
+     * ranks take the same steps and meet in the same collective calls. */
+    bool spread;
+    MPI_Comm comm;          /* MPI_COMM_WORLD when spread, else MPI_COMM_SELF */
+    int rank, size, lo, hi;
+    int *counts, *displs;   /* rows per rank and their first row, for MPI_Allgatherv */
+    char library[40];       /* "hypre", or "hypre, K ranks" when spread */
 } amg;
 
 /* A new backend state, or NULL without memory (or without MPI).  Freed by amg_destroy. */
@@ -147,6 +169,11 @@ static void amg_release(amg *h)
     free(h->s); free(h->ipiv);
     free(h->t); free(h->r); free(h->y); free(h->z);
     free(h->rows);
+    free(h->ncols);
+    h->ncols = NULL;
+    free(h->counts);
+    free(h->displs);
+    h->counts = h->displs = NULL;
     h->bp = h->bi = h->cp = h->ci = h->ipiv = h->rows = NULL;
     h->bv = h->cv = h->s = h->t = h->r = h->y = h->z = NULL;
     h->factored = false;
@@ -354,41 +381,68 @@ static int take_border(amg *h, const ls_csc *a, const int *pin, int npin, double
     return 0;
 }
 
+/* Bytes this rank's share of hypre's objects is expected to take: the
+ * matrix in hypre's CSR form (a value and a column index per entry, kept
+ * twice while it is assembled), the BoomerAMG hierarchy and the setup's
+ * intermediate products, together counted as six times the fine matrix
+ * (from memory: operator complexities of 1.5 to 3 are usual for HMIS
+ * coarsening with truncated interpolation on meshes), and the vectors of
+ * PCG and of every level (about 12 per row). */
+static size_t hypre_bytes(const amg *h)
+{
+    size_t nnz = (size_t)(h->g.colptr[h->hi + 1] - h->g.colptr[h->lo]), rows = (size_t)(h->hi - h->lo + 1);
+    return nnz * (sizeof(double) + sizeof(HYPRE_Int)) * 6 + rows * (sizeof(double) * 12 + sizeof(HYPRE_Int) * 6);
+}
+
+/* Can this process still get what hypre will take (hypre_bytes)?  hypre
+ * does not survive a failed allocation (it goes on with a null pointer),
+ * so the memory is asked for once beforehand and given back at once
+ * (never touched: it costs no physical memory).  LS_SOLVER_OK, or
+ * LS_SOLVER_NOMEM with st->bytes_needed.  The tests make one rank (0
+ * without ranks) find no room on purpose: LOADSTACK_TEST_HYPRE_NOMEM=RANK
+ * (tests/mpi/one_mesh.py). */
+static int room_for_hypre(const amg *h, ls_solver_stats *st)
+{
+    size_t bytes = hypre_bytes(h);
+    const char *fail = getenv("LOADSTACK_TEST_HYPRE_NOMEM");
+    void *p = fail && *fail && atoi(fail) == h->rank ? NULL : malloc(bytes);
+    bool room = p != NULL;
+    free(p);
+    if (room)
+        return LS_SOLVER_OK;
+    st->bytes_needed = bytes;
+    return LS_SOLVER_NOMEM;
+}
+
 /* ---- hypre ------------------------------------------------------------------------ */
 
 /* G to hypre, BoomerAMG set up as PCG's preconditioner.  Under the lock.
  * LS_SOLVER_* status. */
 static int hypre_setup(amg *h)
 {
-    int m = h->m;
+    int m = h->m, lo = h->lo, hi = h->hi, nloc = hi - lo + 1;
     const ls_csc *g = &h->g;
-    int *ncols = malloc((size_t)(m ? m : 1) * sizeof *ncols);
-    h->rows = malloc((size_t)(m ? m : 1) * sizeof *h->rows);
-    if (!ncols || !h->rows) {
-        free(ncols);
-        return LS_SOLVER_NOMEM;
-    }
-    for (int i = 0; i < m; i++) {
+    int *ncols = h->ncols; /* (allocated by build_local: no rank may stop here alone) */
+    for (int i = 0; i < m; i++)
         h->rows[i] = i;
-        ncols[i] = g->colptr[i + 1] - g->colptr[i];
-    }
-    MPI_Comm comm = MPI_COMM_SELF; /* each process solves its own systems */
+    for (int i = lo; i <= hi; i++)
+        ncols[i - lo] = g->colptr[i + 1] - g->colptr[i];
+    MPI_Comm comm = h->comm;
     /* G is symmetric: its column i is its row i, so the compressed columns
-     * are handed over as rows */
-    HYPRE_IJMatrixCreate(comm, 0, m - 1, 0, m - 1, &h->ij);
+     * are handed over as rows (this rank's: lo..hi) */
+    HYPRE_IJMatrixCreate(comm, lo, hi, lo, hi, &h->ij);
     HYPRE_IJMatrixSetObjectType(h->ij, HYPRE_PARCSR);
     HYPRE_IJMatrixSetRowSizes(h->ij, ncols);
     HYPRE_IJMatrixInitialize(h->ij);
-    HYPRE_IJMatrixSetValues(h->ij, m, ncols, h->rows, g->rowind, g->val);
+    HYPRE_IJMatrixSetValues(h->ij, nloc, ncols, h->rows + lo, g->rowind + g->colptr[lo], g->val + g->colptr[lo]);
     HYPRE_IJMatrixAssemble(h->ij);
     HYPRE_IJMatrixGetObject(h->ij, (void **)&h->pg);
-    free(ncols);
-    HYPRE_IJVectorCreate(comm, 0, m - 1, &h->ijb);
+    HYPRE_IJVectorCreate(comm, lo, hi, &h->ijb);
     HYPRE_IJVectorSetObjectType(h->ijb, HYPRE_PARCSR);
     HYPRE_IJVectorInitialize(h->ijb);
     HYPRE_IJVectorAssemble(h->ijb);
     HYPRE_IJVectorGetObject(h->ijb, (void **)&h->pb);
-    HYPRE_IJVectorCreate(comm, 0, m - 1, &h->ijx);
+    HYPRE_IJVectorCreate(comm, lo, hi, &h->ijx);
     HYPRE_IJVectorSetObjectType(h->ijx, HYPRE_PARCSR);
     HYPRE_IJVectorInitialize(h->ijx);
     HYPRE_IJVectorAssemble(h->ijx);
@@ -419,18 +473,23 @@ static int hypre_setup(amg *h)
     HYPRE_PCGSetPrecond(h->pcg, (HYPRE_PtrToSolverFcn)HYPRE_BoomerAMGSolve,
                         (HYPRE_PtrToSolverFcn)HYPRE_BoomerAMGSetup, h->prec);
     int err = HYPRE_ParCSRPCGSetup(h->pcg, h->pg, h->pb, h->px);
+    /* hypre's own allocations: a failed one sets the memory error flag */
+    int nomem = HYPRE_GetError() & HYPRE_ERROR_MEMORY;
     HYPRE_ClearAllErrors();
-    return err == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
+    return nomem ? LS_SOLVER_NOMEM : err == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
 }
 
 /* One PCG run on G x = b from x = 0; *iters gets its iterations.  Under the lock. */
 static void pcg_run(amg *h, const double *b, double *x, int *iters)
 {
-    HYPRE_IJVectorSetValues(h->ijb, h->m, h->rows, b);
+    int lo = h->lo, nloc = h->hi - h->lo + 1;
+    HYPRE_IJVectorSetValues(h->ijb, nloc, h->rows + lo, b + lo);
     memset(x, 0, (size_t)h->m * sizeof *x);
-    HYPRE_IJVectorSetValues(h->ijx, h->m, h->rows, x);
+    HYPRE_IJVectorSetValues(h->ijx, nloc, h->rows + lo, x + lo);
     HYPRE_ParCSRPCGSolve(h->pcg, h->pg, h->pb, h->px);
-    HYPRE_IJVectorGetValues(h->ijx, h->m, h->rows, x);
+    HYPRE_IJVectorGetValues(h->ijx, nloc, h->rows + lo, x + lo);
+    if (h->spread) /* every rank's rows to all: the rest of the work is whole in every rank */
+        MPI_Allgatherv(MPI_IN_PLACE, 0, MPI_DATATYPE_NULL, x, h->counts, h->displs, MPI_DOUBLE, h->comm);
     HYPRE_Int it = 0;
     HYPRE_PCGGetNumIterations(h->pcg, &it);
     *iters = (int)it;
@@ -443,6 +502,19 @@ static double norm2(const double *v, int n)
     for (int i = 0; i < n; i++)
         s += v[i] * v[i];
     return sqrt(s);
+}
+
+/* The smallest relative residual ||b - G x|| / ||b|| that can be told from
+ * rounding when it is computed in double precision: each row's sum of at
+ * most k + 1 products errs by about (k + 2) eps (|b| + |G| |x|), and
+ * || |G| |x| ||_2 <= ||G||_1 ||x||_2 for a symmetric G.  A large, smooth
+ * solution (a 2-D mesh of millions of nodes, condition ~10^6 and up) puts
+ * this above LS_AMG_RTOL: asking for less would only fail the solve, and
+ * the refinement against the whole system in extra precision takes the
+ * answer the rest of the way. */
+static double residual_floor(const amg *h, const double *x, double bn)
+{
+    return 16 * DBL_EPSILON * (1 + h->gnorm * norm2(x, h->m) / bn);
 }
 
 /* x = G^-1 b (b kept), by PCG runs restarted on the true residual b - G x
@@ -460,9 +532,9 @@ static int g_solve(amg *h, const double *b, double *x, ls_solver_stats *st)
     double *r = h->r, *d = h->t;
     memcpy(r, b, (size_t)m * sizeof *r);
     memset(x, 0, (size_t)m * sizeof *x);
-    double rel = 1;
+    double rel = 1, goal = LS_AMG_RTOL;
     pthread_mutex_lock(&hypre_lock);
-    for (int run = 0; run <= AMG_RESTARTS && rel > LS_AMG_RTOL; run++) {
+    for (int run = 0; run <= AMG_RESTARTS && rel > goal; run++) {
         int it;
         pcg_run(h, r, d, &it);
         st->cg_iterations += it;
@@ -472,14 +544,29 @@ static int g_solve(amg *h, const double *b, double *x, ls_solver_stats *st)
         for (int i = 0; i < m; i++)
             r[i] = b[i] - r[i];
         rel = norm2(r, m) / bn;
+        goal = fmax(LS_AMG_RTOL, residual_floor(h, x, bn));
     }
     pthread_mutex_unlock(&hypre_lock);
     if (!(rel <= st->cg_residual))
         st->cg_residual = rel;
-    return rel <= LS_AMG_RTOL ? LS_SOLVER_OK : LS_SOLVER_NOT_CONVERGED;
+    return rel <= goal ? LS_SOLVER_OK : LS_SOLVER_NOT_CONVERGED;
 }
 
 /* ---- factor and solve ------------------------------------------------------------- */
+
+/* In a run spread over ranks, the worst status of any rank (LS_SOLVER_*
+ * statuses are 0 or negative), so that a rank that fails alone (out of
+ * memory) does not leave the others waiting in hypre's collective calls:
+ * they all fail the same way.  Without ranks, rc itself. */
+static int agree(const amg *h, int rc)
+{
+    if (!h->spread)
+        return rc;
+    int all = rc;
+    if (MPI_Allreduce(&rc, &all, 1, MPI_INT, MPI_MIN, h->comm) != MPI_SUCCESS)
+        return LS_SOLVER_FAILED;
+    return all;
+}
 
 /* The Schur complement S = D - C G^-1 B, column by column, LU-factored.
  * LS_SOLVER_* status; a singular S names its column (a branch). */
@@ -490,12 +577,12 @@ static int schur(amg *h, ls_solver_stats *st)
         return LS_SOLVER_OK;
     double *col = calloc((size_t)m, sizeof *col), *w = malloc((size_t)m * sizeof *w);
     h->ipiv = malloc((size_t)k * sizeof *h->ipiv);
-    if (!col || !w || !h->ipiv) {
+    int rc = agree(h, col && w && h->ipiv ? LS_SOLVER_OK : LS_SOLVER_NOMEM);
+    if (rc != LS_SOLVER_OK) {
         free(col);
         free(w);
-        return LS_SOLVER_NOMEM;
+        return rc;
     }
-    int rc = LS_SOLVER_OK;
     for (int c = 0; c < k && rc == LS_SOLVER_OK; c++) {
         for (int p = h->bp[c]; p < h->bp[c + 1]; p++)
             col[h->bi[p]] = h->bv[p];
@@ -521,19 +608,11 @@ static int schur(amg *h, ls_solver_stats *st)
     return info == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
 }
 
-/* Split a, check G, pin its floating parts, set up AMG and the Schur
- * complement.  LS_SOLVER_* status: not this shape (or G not positive
- * definite) is LS_SOLVER_NOT_SPD with st->bad_column at the first column
- * that shows it. */
-static int amg_build(amg *h, const ls_csc *a, ls_solver_stats *st)
+/* Split a, check G, pin its floating parts, take the border and the
+ * scratch: everything before hypre, in this process alone.  LS_SOLVER_*
+ * status, as amg_build's. */
+static int build_local(amg *h, const ls_csc *a, ls_solver_stats *st)
 {
-    amg_release(h);
-    h->n = a->n;
-    h->m = node_count(h, a);
-    if (h->m <= 0) {
-        st->bad_column = 0;
-        return LS_SOLVER_NOT_SPD;
-    }
     if (take_block(a, h->m, &h->g) != 0)
         return LS_SOLVER_NOMEM;
     int m = h->m;
@@ -577,6 +656,13 @@ static int amg_build(amg *h, const ls_csc *a, ls_solver_stats *st)
     for (int q = nbare; q < nbare + nfloat; q++)
         *diag_of(&h->g, work[q]) += gpin;
     int npin = nbare + nfloat;
+    h->gnorm = 0;
+    for (int j = 0; j < m; j++) {
+        double c = 0;
+        for (int p = h->g.colptr[j]; p < h->g.colptr[j + 1]; p++)
+            c += fabs(h->g.val[p]);
+        h->gnorm = fmax(h->gnorm, c);
+    }
     h->k = a->n - m + npin;
     int rc = take_border(h, a, work, npin, gpin);
     free(work);
@@ -587,11 +673,88 @@ static int amg_build(amg *h, const ls_csc *a, ls_solver_stats *st)
     h->r = malloc((size_t)m * sizeof *h->r);
     h->y = malloc((sk ? sk : 1) * sizeof *h->y);
     h->z = malloc(((size_t)m + sk) * sizeof *h->z);
-    if (!h->t || !h->r || !h->y || !h->z)
+    h->rows = malloc((size_t)m * sizeof *h->rows);
+    h->ncols = malloc((size_t)(h->hi - h->lo + 1) * sizeof *h->ncols);
+    if (!h->t || !h->r || !h->y || !h->z || !h->rows || !h->ncols)
         return LS_SOLVER_NOMEM;
+    return room_for_hypre(h, st);
+}
+
+/* Decide whether this system is spread over the ranks (ls_amg_spread_ranks,
+ * more than one rank, at least one row each: the same answer in every rank,
+ * since every rank has the same system) and this rank's rows lo..hi.
+ * 0, or -1 without memory. */
+static int split_rows(amg *h)
+{
+    int m = h->m;
+    h->comm = MPI_COMM_SELF;
+    h->spread = false;
+    h->rank = 0;
+    h->size = 1;
+    if (spread_ranks) {
+        MPI_Comm_size(MPI_COMM_WORLD, &h->size);
+        MPI_Comm_rank(MPI_COMM_WORLD, &h->rank);
+        h->spread = h->size > 1 && m >= h->size;
+    }
+    if (!h->spread) {
+        h->rank = 0;
+        h->size = 1;
+        h->lo = 0;
+        h->hi = m - 1;
+        return 0;
+    }
+    h->comm = MPI_COMM_WORLD;
+    h->counts = malloc((size_t)h->size * sizeof *h->counts);
+    h->displs = malloc((size_t)h->size * sizeof *h->displs);
+    if (!h->counts || !h->displs)
+        return -1;
+    for (int r = 0; r < h->size; r++) {
+        h->displs[r] = (int)((long long)m * r / h->size);
+        h->counts[r] = (int)((long long)m * (r + 1) / h->size) - h->displs[r];
+    }
+    h->lo = h->displs[h->rank];
+    h->hi = h->lo + h->counts[h->rank] - 1;
+    return 0;
+}
+
+/* The library's name in the report: the ranks change hypre's coarsening
+ * and smoothing, so the iteration count, and the report says how many there
+ * were. */
+static void set_library(amg *h)
+{
+    if (h->spread)
+        snprintf(h->library, sizeof h->library, "hypre, %d ranks", h->size);
+    else
+        snprintf(h->library, sizeof h->library, "hypre");
+}
+
+/* Split a, check G, pin its floating parts, set up AMG and the Schur
+ * complement.  LS_SOLVER_* status: not this shape (or G not positive
+ * definite) is LS_SOLVER_NOT_SPD with st->bad_column at the first column
+ * that shows it.  Spread over ranks, every rank returns the same status. */
+static int amg_build(amg *h, const ls_csc *a, ls_solver_stats *st)
+{
+    amg_release(h);
+    h->n = a->n;
+    h->m = node_count(h, a);
+    if (h->m <= 0) {
+        st->bad_column = 0;
+        return LS_SOLVER_NOT_SPD;
+    }
+    int rc = split_rows(h) == 0 ? build_local(h, a, st) : LS_SOLVER_NOMEM;
+    set_library(h);
+    rc = agree(h, rc);
+    if (rc == LS_SOLVER_NOMEM && h->spread) { /* what the rank that ran short asked for, in every rank */
+        unsigned long long want = st->bytes_needed, most = want;
+        MPI_Allreduce(&want, &most, 1, MPI_UNSIGNED_LONG_LONG, MPI_MAX, h->comm);
+        st->bytes_needed = (size_t)most;
+    }
+    if (rc != LS_SOLVER_OK)
+        return rc;
     pthread_mutex_lock(&hypre_lock);
     rc = hypre_setup(h);
     pthread_mutex_unlock(&hypre_lock);
+    rc = agree(h, rc);
     if (rc != LS_SOLVER_OK)
         return rc;
     st->cg_iterations = 0;
@@ -612,9 +775,11 @@ static int amg_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
 static int amg_factor(void *self, const ls_csc *a, ls_solver_stats *st)
 {
     st->method = LS_METHOD_ITERATIVE_AMG;
-    st->library = "hypre";
+    amg *h = self;
     st->rcond = NAN; /* not estimated: the iterations and the residual stand for it */
-    int rc = amg_build(self, a, st);
+    snprintf(h->library, sizeof h->library, "hypre");
+    st->library = h->library; /* (set_library adds the ranks) */
+    int rc = amg_build(h, a, st);
     if (rc == LS_SOLVER_OK)
         st->factorizations++;
     return rc;

@@ -21,6 +21,13 @@ extern const ls_backend ls_backend_amg;
  * leading `nodes` unknowns are node voltages) rather than a direct
  * factorization?  1 or 0; the measured rule is beside it in amg.c. */
 int ls_amg_preferred(const ls_csc *a, int nodes);
+
+/* From now on, split every system's node block by rows among the ranks of
+ * MPI_COMM_WORLD (hypre's distributed matrices), every rank solving the
+ * same systems in the same order: for loadstack-mpi running one command
+ * that is not split by items (docs/iterative.md).  Call once, after MPI
+ * has started and before any solve. */
+void ls_amg_spread_ranks(void);
 #endif
 
 #endif
