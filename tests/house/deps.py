@@ -32,9 +32,6 @@ KNOWN = {
 }
 # Include cycles still in the tree, as sorted tuples of modules (folder/basename).
 KNOWN_CYCLES = {
-    ("analysis/accuracy", "analysis/analysis", "analysis/newton", "analysis/selfcheck"):
-        "the operating point and its iteration call each other; the accuracy and self-check"
-        " modules take the ls_op declared with the analysis functions",
 }
 
 INCLUDE = re.compile(r'^\s*#\s*include\s*"([^"]+)"', re.M)
