@@ -28,7 +28,6 @@
 #include <string.h>
 
 #include "netlist/elab.h"
-#include "lang/lexer.h"
 #include "lang/parser.h"
 
 /* ---- state --------------------------------------------------------------------------- */
@@ -628,11 +627,11 @@ static bool expr_to_rf(fx *F, const ls_expr *e, rf *r, int depth)
         bool ok = expr_to_rf(F, e->a, &a, depth + 1) && expr_to_rf(F, e->b, &b, depth + 1);
         if (ok) {
             switch (e->op) {
-            case T_PLUS: rf_addsub(F, r, &a, &b, 1); break;
-            case T_MINUS: rf_addsub(F, r, &a, &b, -1); break;
-            case T_STAR: rf_mul(F, r, &a, &b); break;
-            case T_SLASH: ok = rf_div(F, r, &a, &b); break;
-            case T_PARALLEL: {
+            case LS_OP_ADD: rf_addsub(F, r, &a, &b, 1); break;
+            case LS_OP_SUB: rf_addsub(F, r, &a, &b, -1); break;
+            case LS_OP_MUL: rf_mul(F, r, &a, &b); break;
+            case LS_OP_DIV: ok = rf_div(F, r, &a, &b); break;
+            case LS_OP_PAR: {
                 rf s;
                 rf_init(F, &s);
                 rf_addsub(F, &s, &a, &b, 1);
@@ -641,7 +640,7 @@ static bool expr_to_rf(fx *F, const ls_expr *e, rf *r, int depth)
                 rf_clear(F, &s);
                 break;
             }
-            case T_CARET: {
+            case LS_OP_POW: {
                 /* only a whole constant exponent keeps it rational */
                 double ev = rf_eval_d(F, &b);
                 ok = fmpq_mpoly_is_fmpq(b.n, F->ctx) && fmpq_mpoly_is_one(b.d, F->ctx) && ev == floor(ev) &&
@@ -1640,11 +1639,11 @@ static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
         if (code == LS_EXIT_OK) {
             bool ok = true;
             switch (q->op) {
-            case T_PLUS: rf_addsub(F, out, out, &b, 1); break;
-            case T_MINUS: rf_addsub(F, out, out, &b, -1); break;
-            case T_STAR: rf_mul(F, out, out, &b); break;
-            case T_SLASH: ok = rf_div(F, out, out, &b); break;
-            case T_PARALLEL: {
+            case LS_OP_ADD: rf_addsub(F, out, out, &b, 1); break;
+            case LS_OP_SUB: rf_addsub(F, out, out, &b, -1); break;
+            case LS_OP_MUL: rf_mul(F, out, out, &b); break;
+            case LS_OP_DIV: ok = rf_div(F, out, out, &b); break;
+            case LS_OP_PAR: {
                 rf s;
                 rf_init(F, &s);
                 rf_addsub(F, &s, out, &b, 1);
@@ -1653,7 +1652,7 @@ static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
                 rf_clear(F, &s);
                 break;
             }
-            case T_CARET: {
+            case LS_OP_POW: {
                 double e = rf_eval_d(F, &b);
                 ok = fmpq_mpoly_is_fmpq(b.n, F->ctx) && fmpq_mpoly_is_one(b.d, F->ctx) && e == floor(e) &&
                      fabs(e) <= 16 && rf_pow(F, out, out, (long)e);
@@ -2376,10 +2375,10 @@ static double q_magnitude(ls_op *op, const ls_q *q)
     case Q_NEG: return q_magnitude(op, q->a);
     case Q_BIN:
         switch (q->op) {
-        case T_PLUS:
-        case T_MINUS: return q_magnitude(op, q->a) + q_magnitude(op, q->b);
-        case T_STAR: return q_magnitude(op, q->a) * q_magnitude(op, q->b);
-        case T_SLASH: return q_magnitude(op, q->a) / fabs(ls_q_eval(op, q->b));
+        case LS_OP_ADD:
+        case LS_OP_SUB: return q_magnitude(op, q->a) + q_magnitude(op, q->b);
+        case LS_OP_MUL: return q_magnitude(op, q->a) * q_magnitude(op, q->b);
+        case LS_OP_DIV: return q_magnitude(op, q->a) / fabs(ls_q_eval(op, q->b));
         default: return fabs(ls_q_eval(op, q));
         }
     case Q_PROP: {

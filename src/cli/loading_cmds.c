@@ -9,7 +9,6 @@
 #include "netlist/elab.h"
 #include "base/fmt.h"
 #include "lang/parser.h"
-#include "lang/lexer.h"
 #include "analysis/newton.h"
 #include "analysis/sag.h"
 #include "analysis/sens.h"
@@ -95,13 +94,13 @@ static ls_dims expr_dims(const ls_expr *e, bool *mixed)
     case E_NEG: return expr_dims(e->a, mixed);
     case E_BIN: {
         ls_dims a = expr_dims(e->a, mixed), b = expr_dims(e->b, mixed);
-        if (e->op == T_STAR || e->op == T_SLASH) {
-            int s = e->op == T_STAR ? 1 : -1;
+        if (e->op == LS_OP_MUL || e->op == LS_OP_DIV) {
+            int s = e->op == LS_OP_MUL ? 1 : -1;
             if (!a.known && !b.known)
                 return LS_FREE;
             return (ls_dims){(signed char)(a.v + s * b.v), (signed char)(a.a + s * b.a), true};
         }
-        if (e->op == T_CARET)
+        if (e->op == LS_OP_POW)
             return a.known ? (*mixed = true, a) : LS_FREE;
         if (a.known && b.known && !ls_dims_eq(a, b))
             *mixed = true;

@@ -15,6 +15,11 @@
 
 typedef enum ls_ekind { E_NUM, E_NAME, E_NEG, E_BIN, E_CALL } ls_ekind;
 
+/* The binary operators of the language: a + b, a - b, a * b, a / b, a ^ b and
+ * a || b (in parallel: a b / (a + b)).  The syntax tree's own codes, kept by
+ * the netlist's quantities too, so no stage past the parser needs tokens. */
+typedef enum ls_binop { LS_OP_ADD, LS_OP_SUB, LS_OP_MUL, LS_OP_DIV, LS_OP_POW, LS_OP_PAR } ls_binop;
+
 typedef enum ls_func {
     F_SQRT, F_ABS, F_MIN, F_MAX, F_EXP, F_LN, F_LOG10, F_COUNT
 } ls_func;
@@ -25,7 +30,7 @@ typedef struct ls_expr {
     unsigned char kind;            /* an ls_ekind */
     union {
         ls_dims dims;              /* E_NUM: its unit */
-        unsigned char op;          /* E_BIN: an ls_tok; E_CALL: an ls_func */
+        unsigned char op;          /* E_BIN: an ls_binop; E_CALL: an ls_func */
     };
     ls_loc loc;                    /* the whole expression; for E_BIN the operator is op_loc */
     union {

@@ -2,6 +2,7 @@
  * On an error the rest of the line is skipped, so one run reports many errors. */
 #include "lang/parser.h"
 
+#include <assert.h>
 #include <errno.h>
 #include <limits.h>
 #include <stdint.h>
@@ -259,11 +260,25 @@ static bool enter(parser *p)
     return false;
 }
 
-static ls_expr *binary(parser *p, int op, ls_loc op_loc, ls_expr *a, ls_expr *b)
+/* The tree's code of a binary operator token (level_op admits only these). */
+static ls_binop binop_of(ls_tok k)
+{
+    switch (k) {
+    case T_PLUS: return LS_OP_ADD;
+    case T_MINUS: return LS_OP_SUB;
+    case T_STAR: return LS_OP_MUL;
+    case T_SLASH: return LS_OP_DIV;
+    case T_CARET: return LS_OP_POW;
+    default: assert(k == T_PARALLEL); return LS_OP_PAR;
+    }
+}
+
+/* A new E_BIN node a OP b, op a token; NULL when out of memory. */
+static ls_expr *binary(parser *p, ls_tok op, ls_loc op_loc, ls_expr *a, ls_expr *b)
 {
     ls_expr *e = new_expr(p, E_BIN, span(a->loc, b->loc));
     if (e) {
-        e->op = op;
+        e->op = (unsigned char)binop_of(op);
         e->op_loc = op_loc;
         e->a = a;
         e->b = b;
@@ -342,7 +357,7 @@ static ls_expr *parse_level(parser *p, int level)
             a = NULL;
             break;
         }
-        int op = p->tok.kind;
+        ls_tok op = p->tok.kind;
         ls_loc l = p->tok.loc;
         advance(p);
         ls_expr *b = parse_level(p, level + 1);

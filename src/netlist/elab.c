@@ -9,7 +9,6 @@
 #include <string.h>
 
 #include "base/eseries.h"
-#include "lang/lexer.h"
 #include "parts/parts.h"
 
 typedef struct scope {
@@ -303,24 +302,24 @@ static bool combine(elab *x, int op, ls_loc at, ls_dims a, ls_dims b, const ls_e
 {
     char b1[64], b2[64];
     switch (op) {
-    case T_PLUS:
-    case T_MINUS:
-    case T_PARALLEL:
+    case LS_OP_ADD:
+    case LS_OP_SUB:
+    case LS_OP_PAR:
         if (a.known && b.known && (a.v != b.v || a.a != b.a)) {
             ls_error(x->d, at, "cannot %s %s and %s",
-                     op == T_PLUS ? "add" : op == T_MINUS ? "subtract" : "put in parallel",
+                     op == LS_OP_ADD ? "add" : op == LS_OP_SUB ? "subtract" : "put in parallel",
                      dname(a, b1, sizeof b1), dname(b, b2, sizeof b2));
             return false;
         }
         *out = a.known ? a : b;
         return true;
-    case T_STAR:
+    case LS_OP_MUL:
         *out = norm((ls_dims){(signed char)(a.v + b.v), (signed char)(a.a + b.a), a.known || b.known});
         return true;
-    case T_SLASH:
+    case LS_OP_DIV:
         *out = norm((ls_dims){(signed char)(a.v - b.v), (signed char)(a.a - b.a), a.known || b.known});
         return true;
-    case T_CARET:
+    case LS_OP_POW:
         if (b.known) {
             ls_error(x->d, at, "an exponent must be a pure number, got %s", dname(b, b1, sizeof b1));
             return false;
@@ -359,7 +358,7 @@ static bool call_dims(elab *x, const ls_expr *e, const ls_dims *ad, ls_dims *out
     case F_MAX: {
         ls_dims d = ad[0];
         for (int i = 1; i < e->nargs; i++)
-            if (!combine(x, T_PLUS, e->args[i]->loc, d, ad[i], NULL, &d))
+            if (!combine(x, LS_OP_ADD, e->args[i]->loc, d, ad[i], NULL, &d))
                 return false;
         *out = d;
         return true;
@@ -391,12 +390,12 @@ static bool arity_ok(elab *x, const ls_expr *e)
 static double apply(int op, double a, double b)
 {
     switch (op) {
-    case T_PLUS: return a + b;
-    case T_MINUS: return a - b;
-    case T_STAR: return a * b;
-    case T_SLASH: return a / b;
-    case T_CARET: return pow(a, b);
-    case T_PARALLEL: return a * b / (a + b);
+    case LS_OP_ADD: return a + b;
+    case LS_OP_SUB: return a - b;
+    case LS_OP_MUL: return a * b;
+    case LS_OP_DIV: return a / b;
+    case LS_OP_POW: return pow(a, b);
+    case LS_OP_PAR: return a * b / (a + b);
     }
     return NAN;
 }
@@ -474,7 +473,7 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
             return false;
         if (!combine(x, e->op, e->op_loc, da, db, e->b, d))
             return false;
-        if (e->op == T_SLASH && b == 0) {
+        if (e->op == LS_OP_DIV && b == 0) {
             ls_error(x->d, e->op_loc, "division by zero");
             return false;
         }
@@ -877,16 +876,16 @@ static void add_check(elab *x, const scope *s, const ls_stmt *st)
     if (!c.lhs || !c.rhs || (st->rhs2 && !c.rhs2))
         return;
     ls_dims d;
-    if (!combine(x, T_MINUS, st->rhs->loc, c.lhs->dims, c.rhs->dims, NULL, &d))
+    if (!combine(x, LS_OP_SUB, st->rhs->loc, c.lhs->dims, c.rhs->dims, NULL, &d))
         return;
-    if (c.rhs2 && !combine(x, T_MINUS, st->rhs2->loc, d, c.rhs2->dims, NULL, &d))
+    if (c.rhs2 && !combine(x, LS_OP_SUB, st->rhs2->loc, d, c.rhs2->dims, NULL, &d))
         return;
     if (st->within) {
         if (!(c.within = bind(x, s, st->within)))
             return;
         if (!norm(c.within->dims).known) {
             c.relative = true;
-        } else if (!combine(x, T_MINUS, st->within->loc, d, c.within->dims, NULL, &d)) {
+        } else if (!combine(x, LS_OP_SUB, st->within->loc, d, c.within->dims, NULL, &d)) {
             return;
         }
     }
@@ -977,12 +976,12 @@ static bool range_end(elab *x, const scope *s, const ls_expr *e, ls_dims want, l
     out->volts = 0;
     if (e->kind == E_NAME && !param_ref(x, s, e->name)) {
         name = e;
-    } else if (e->kind == E_BIN && (e->op == T_PLUS || e->op == T_MINUS) && e->a->kind == E_NAME &&
+    } else if (e->kind == E_BIN && (e->op == LS_OP_ADD || e->op == LS_OP_SUB) && e->a->kind == E_NAME &&
                !param_ref(x, s, e->a->name)) {
         name = e->a;
         off = e->b;
-        sign = e->op == T_MINUS ? -1 : 1;
-    } else if (e->kind == E_BIN && e->op == T_PLUS && e->b->kind == E_NAME && !param_ref(x, s, e->b->name)) {
+        sign = e->op == LS_OP_SUB ? -1 : 1;
+    } else if (e->kind == E_BIN && e->op == LS_OP_ADD && e->b->kind == E_NAME && !param_ref(x, s, e->b->name)) {
         name = e->b;
         off = e->a;
     }

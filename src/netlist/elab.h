@@ -35,7 +35,7 @@ bool ls_prop_applies(const ls_part *p, ls_prop prop);
 /* The adc whose input is port's load node (the one with the smallest LSB), or -1. */
 int ls_port_adc(const ls_netlist *nl, int port);
 
-/* Arithmetic shared by every evaluator: a binary operator (an ls_tok) and the
+/* Arithmetic shared by every evaluator: a binary operator (an ls_binop) and the
  * built-in functions (an ls_func). */
 double ls_apply_op(int op, double a, double b);
 double ls_apply_func(int f, const double *v, int n);

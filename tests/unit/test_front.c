@@ -252,7 +252,7 @@ static void test_tree_fields(void)
 
     const ls_expr *k = s[2]->value; /* max(1, 2, 3) * -vref */
     CU_ASSERT_EQUAL_FATAL(k->kind, E_BIN);
-    CU_ASSERT_EQUAL(k->op, T_STAR);
+    CU_ASSERT_EQUAL(k->op, LS_OP_MUL);
     CU_ASSERT(loc_is(k->op_loc, at("let k", "*", 0), 1));
     CU_ASSERT_EQUAL_FATAL(k->a->kind, E_CALL);
     CU_ASSERT_EQUAL(k->a->op, F_MAX);
