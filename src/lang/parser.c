@@ -11,7 +11,6 @@
 #include <sys/stat.h>
 
 #include "lang/lexer.h"
-#include "parts/parts.h"
 
 typedef struct inc_frame {
     const char *real;         /* canonical path, for cycle detection */
@@ -32,8 +31,8 @@ typedef struct parser {
     int inc_depth;
     inc_frame *incs;
     const char *dir;          /* directory of this file, for includes */
-    const ls_kind *last_kind; /* the part kind of the last part statement, */
-    unsigned last_kind_len;   /* most often that of the next one too */
+    const char *last_kind;    /* the kind word of the last part statement (in the arena), */
+    unsigned last_kind_len;   /* most often that of the next one too: shared, not copied */
 } parser;
 
 typedef struct stmt_list {
@@ -43,6 +42,11 @@ typedef struct stmt_list {
 } stmt_list;
 
 static void parse_lines(parser *p, stmt_list *out, ls_stmt *block);
+
+/* The words that start a statement other than a part's (a part statement
+ * starts with its kind word: any other word). */
+const char *const ls_statement_keywords[] = {"title", "let", "ground", "include", "block",
+                                             "use", "expect", "rule", "end", NULL};
 
 /* ---- small helpers ---------------------------------------------------- */
 
@@ -494,14 +498,31 @@ static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_val
     return true;
 }
 
+/* The kind word of a part statement, in the arena: the previous part
+ * statement's string when the word is the same (most lines repeat it), so a
+ * large circuit keeps one copy of each kind word.  NULL when out of memory. */
+static const char *kind_word(parser *p, const ls_token *t)
+{
+    if (p->last_kind && t->len == p->last_kind_len && memcmp(t->text, p->last_kind, t->len) == 0)
+        return p->last_kind;
+    const char *w = tok_str(p, t);
+    if (w) {
+        p->last_kind = w;
+        p->last_kind_len = t->len;
+    }
+    return w;
+}
+
 /* part -> KIND NAME [FROM '->' TO] [VALUE] {OPTION}
- * The keyword is the part table's own string (k->name), not a copy. */
-static ls_stmt *parse_part(parser *p, const ls_kind *k)
+ * The grammar alone decides: any word that is not a statement keyword starts
+ * a part statement, and the elaborator asks the part table whether KIND is a
+ * kind.  Returns the statement, or NULL after a syntax error in the words
+ * after KIND (reported) or when out of memory. */
+static ls_stmt *parse_part(parser *p)
 {
     ls_stmt *s = new_stmt(p, S_PART);
-    if (!s)
+    if (!s || !(s->kw = kind_word(p, &p->tok)))
         return NULL;
-    s->kw = k->name;
     advance(p);
     if (!expect_ident(p, "a part name", &s->name, &s->name_loc))
         return NULL;
@@ -693,18 +714,19 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
 static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
 static int add_source(ls_diags *d, const char *name, const char *text, size_t len);
 
-/* The part kind a name token names, or NULL.  The kind of the previous part
- * statement is tried first: in a large circuit most lines repeat it. */
-static const ls_kind *find_kind(parser *p, const ls_token *t)
+/* After a part statement whose words after KIND did not parse: keep its
+ * kind word alone (S_BADPART), so the elaborator can say when the word is no
+ * part kind at all, as it does for a whole statement. */
+static void broken_part(parser *p, stmt_list *out, const ls_token *kw)
 {
-    if (p->last_kind && t->len == p->last_kind_len && memcmp(t->text, p->last_kind->name, t->len) == 0)
-        return p->last_kind;
-    const ls_kind *k = ls_kind_findn(t->text, t->len);
-    if (k) {
-        p->last_kind = k;
-        p->last_kind_len = t->len;
-    }
-    return k;
+    ls_stmt *s = ls_arena_alloc(p->sa, sizeof *s);
+    if (!s)
+        return; /* the arena is marked failed: the elaborator says out of memory */
+    s->kind = S_BADPART;
+    s->loc = s->text_loc = kw->loc;
+    s->kw = kind_word(p, kw);
+    if (s->kw)
+        push(p, out, s);
 }
 
 /* statement -> title | let | ground | include | block | use | expect | rule | part */
@@ -712,7 +734,6 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
 {
     ls_token kw = p->tok;
     ls_stmt *s = NULL;
-    const ls_kind *k;
     if (kw.kind != T_IDENT) {
         expected(p, "a statement (a part kind or a keyword)");
         skip_line(p);
@@ -787,16 +808,14 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
     } else if (is_word(&kw, "end")) {
         ls_error(p->d, kw.loc, "'end' without a 'block' to close");
         advance(p);
-    } else if ((k = find_kind(p, &kw))) {
-        s = parse_part(p, k);
     } else {
-        char name[64];
-        snprintf(name, sizeof name, "%.*s", (int)(kw.len < 60 ? kw.len : 60), kw.text);
-        const char *near = ls_kind_suggest(name);
-        if (near)
-            ls_error(p->d, kw.loc, "unknown part kind or keyword '%s'; did you mean '%s'?", name, near);
-        else
-            ls_error(p->d, kw.loc, "unknown part kind or keyword '%s'", name);
+        s = parse_part(p);
+        if (!s || !end_of_statement(p)) {
+            /* Its syntax error is reported; the elaborator still hears of its
+             * kind word, so an unknown one is named too. */
+            broken_part(p, out, &kw);
+            s = NULL;
+        }
     }
     if (s && end_of_statement(p)) {
         s->text_loc = (ls_loc){kw.loc.file, kw.loc.start, p->tok.loc.start};

@@ -13,6 +13,11 @@
 #define LS_MAX_BLOCK_PINS 256  /* pins of one block */
 #define LS_MAX_USE_OPTIONS (LS_MAX_BLOCK_PINS + LS_MAX_OPTIONS) /* a use: every pin, and params */
 
+/* The language's statement keywords, NULL-terminated: any other first word of
+ * a statement is a part kind's (which kinds exist is the part table's, asked
+ * by the elaborator).  For "did you mean" over kinds and keywords together. */
+extern const char *const ls_statement_keywords[];
+
 /* Parse the file at path into *prog (allocated in the diagnostics' arena).
  * Returns the number of errors reported (0 on success). */
 int ls_parse_file(ls_diags *d, const char *path, ls_program *prog);

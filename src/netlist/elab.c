@@ -9,6 +9,7 @@
 #include <string.h>
 
 #include "base/eseries.h"
+#include "lang/parser.h"
 #include "parts/parts.h"
 
 typedef struct scope {
@@ -33,6 +34,8 @@ typedef struct elab {
     bool nodes_capped, parts_capped;  /* LS_MAX_NODES / LS_MAX_PARTS reported */
     bool oom;                         /* out of memory reported */
     bool allow_lsb;                   /* evaluating a port's budget=: LSB is a unit here */
+    const char *last_kw;              /* the kind word last looked up (the parser shares one string */
+    const ls_kind *last_kind;         /* per word on consecutive lines) and its kind, or NULL */
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -1106,11 +1109,70 @@ static void snap_value(elab *x, ls_part *p, int oi, ls_loc at)
     p->value = v;
 }
 
+/* The part kind a part statement's kind word names, or NULL.  The parser
+ * knows only the grammar; the table is asked here, the last answer first. */
+static const ls_kind *kind_of(elab *x, const char *kw)
+{
+    if (kw != x->last_kw || !x->last_kind) {
+        x->last_kw = kw;
+        x->last_kind = ls_kind_find(kw);
+    }
+    return x->last_kind;
+}
+
+/* The closest part kind or statement keyword to a word that is neither
+ * (within two edits), or NULL. */
+static const char *suggest_kind(const char *word)
+{
+    const char *best = NULL;
+    int bd = 3;
+    for (int i = 0; i < ls_kind_count(); i++) {
+        int d = ls_edit_distance(word, ls_kind_at(i)->name);
+        if (d < bd) {
+            bd = d;
+            best = ls_kind_at(i)->name;
+        }
+    }
+    for (const char *const *k = ls_statement_keywords; *k; k++) {
+        int d = ls_edit_distance(word, *k);
+        if (d < bd) {
+            bd = d;
+            best = *k;
+        }
+    }
+    return best;
+}
+
+/* An error for each part statement (broken ones too) whose kind word is no
+ * part kind, in the order of the text, block bodies included: first of the
+ * elaboration's errors, right after the syntax errors. */
+static void check_kinds(elab *x, ls_stmt *const *stmts, int n)
+{
+    for (int i = 0; i < n; i++) {
+        const ls_stmt *st = stmts[i];
+        if (st->kind == S_BLOCK) {
+            check_kinds(x, st->body, st->nbody);
+            continue;
+        }
+        if ((st->kind != S_PART && st->kind != S_BADPART) || kind_of(x, st->kw))
+            continue;
+        char name[64];
+        snprintf(name, sizeof name, "%.60s", st->kw);
+        const char *near = suggest_kind(name);
+        if (near)
+            ls_error(x->d, st->loc, "unknown part kind or keyword '%s'; did you mean '%s'?", name, near);
+        else
+            ls_error(x->d, st->loc, "unknown part kind or keyword '%s'", name);
+    }
+}
+
 /* part -> fill an ls_part from its statement */
 static void elab_part(elab *x, const scope *s, const ls_stmt *st)
 {
     ls_netlist *nl = x->nl;
-    const ls_kind *k = ls_kind_find(st->kw);
+    const ls_kind *k = kind_of(x, st->kw);
+    if (!k)
+        return; /* named by check_kinds */
     ls_part p;
     ls_loc snap_loc = LS_NOLOC;
     memset(&p, 0, sizeof p);
@@ -1893,6 +1955,7 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
     int e0 = d->errors;
     ls_hash_init(&x.blocks);
     ls_hash_init(&x.warned);
+    check_kinds(&x, prog->stmts, prog->n);
     collect_blocks(&x, prog);
     ground_and_title(&x, prog);
     scope top = {"", NULL, NULL, 0};

@@ -1181,9 +1181,6 @@ static const ls_kind kinds[] = {
 #endif
 };
 
-static const char *const keywords[] = {"title", "let", "ground", "include", "block",
-                                       "use", "expect", "rule", "end"};
-
 int ls_kind_count(void) { return (int)(sizeof kinds / sizeof kinds[0]); }
 const ls_kind *ls_kind_at(int i) { return &kinds[i]; }
 
@@ -1244,27 +1241,6 @@ int ls_edit_distance(const char *a, const char *b)
         }
     }
     return row[lb];
-}
-
-const char *ls_kind_suggest(const char *name)
-{
-    const char *best = NULL;
-    int bd = 3;
-    for (int i = 0; i < ls_kind_count(); i++) {
-        int d = ls_edit_distance(name, kinds[i].name);
-        if (d < bd) {
-            bd = d;
-            best = kinds[i].name;
-        }
-    }
-    for (size_t i = 0; i < sizeof keywords / sizeof keywords[0]; i++) {
-        int d = ls_edit_distance(name, keywords[i]);
-        if (d < bd) {
-            bd = d;
-            best = keywords[i];
-        }
-    }
-    return best;
 }
 
 void ls_part_current(const ls_part *p, const ls_netlist *nl, ls_lin *out, bool derivative)

@@ -150,8 +150,6 @@ typedef struct ls_kind {
 
 const ls_kind *ls_kind_find(const char *name);
 const ls_kind *ls_kind_findn(const char *name, size_t n);
-/* Closest kind or keyword name for a misspelling, or NULL. */
-const char *ls_kind_suggest(const char *name);
 int ls_kind_count(void);
 const ls_kind *ls_kind_at(int i);
 /* Unit of a kind's main value: its OPTF_MAIN option's, else the value slot's. */
