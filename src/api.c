@@ -10,7 +10,7 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/eseries.h"
 #include "analysis/fit.h"
 #include "analysis/formula.h"

@@ -27,7 +27,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "lang/parser.h"
 
 /* ---- state --------------------------------------------------------------------------- */

@@ -13,7 +13,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "analysis/lowrank.h"
 
 /* The error of a gradient that ran out of memory (compared by address:

@@ -11,7 +11,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "cli/html.h"
 #include "lang/parser.h"
 #include "cli/progress.h"

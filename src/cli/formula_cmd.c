@@ -4,7 +4,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/fmt.h"
 #include "analysis/formula.h"
 #include "lang/parser.h"

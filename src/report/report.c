@@ -6,7 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/fmt.h"
 #include "analysis/lowrank.h"
 #include "analysis/newton.h"

@@ -1,7 +1,7 @@
 /* elab.c — elaboration: expand blocks, resolve names, check units, evaluate
  * values and bind the checks.  Errors are collected; elaboration goes on past
  * them so one run reports as much as it can. */
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/unionfind.h"
 
 #include <math.h>
@@ -83,35 +83,6 @@ static bool grow_x(elab *x, void **v, int *cap, int need, size_t elem)
         c *= 2;
     out_of_memory_n(x, c * elem);
     return false;
-}
-
-void ls_netlist_free(ls_netlist *nl)
-{
-    free(nl->nodes);
-    free(nl->parts);
-    free(nl->checks);
-    free(nl->budgets);
-    free(nl->frees);
-    free(nl->params);
-    free(nl->ents);
-    ls_hash_free(&nl->names);
-    memset(nl, 0, sizeof *nl);
-}
-
-int ls_netlist_find_part(const ls_netlist *nl, const char *name)
-{
-    int e = ls_hash_get(&nl->names, name);
-    return e >= 0 && nl->ents[e].kind == ENT_PART ? nl->ents[e].index : -1;
-}
-
-int ls_netlist_find_node(const ls_netlist *nl, const char *name)
-{
-    int e = ls_hash_get(&nl->names, name);
-    if (e < 0)
-        return -1;
-    if (nl->ents[e].kind == ENT_NODE || nl->ents[e].kind == ENT_ALIAS)
-        return nl->ents[e].index;
-    return -1;
 }
 
 /* ---- names ----------------------------------------------------------------------- */
