@@ -20,6 +20,7 @@
 #include <flint/fmpz_vec.h>
 #include <flint/fmpq_mpoly.h>
 #include <flint/fmpq_mpoly_factor.h>
+#include <assert.h>
 #include <float.h>
 #include <math.h>
 #include <stdarg.h>
@@ -383,29 +384,30 @@ static int too_big_error(fx *F, const char *why)
 
 /* ---- which values are symbols ----------------------------------------------------------- */
 
-/* Kinds whose stamp is built exactly here; others enter with their numeric
- * stamps at the operating point. */
 static bool kind_is(const ls_part *p, const char *name) { return strcmp(p->kind->name, name) == 0; }
 
+/* Is the part's stamp built exactly here (its kind's table entry says how,
+ * ls_kind.exact)?  Others enter with their numeric stamps at the operating
+ * point; so does an op-amp held at a limit. */
 static bool exact_kind(const ls_part *p)
 {
-    static const char *const k[] = {"resistor", "voltage", "current", "port", "vcvs", "vccs",
-                                    "cccs", "ccvs", "switch", "adc"};
-    for (size_t i = 0; i < sizeof k / sizeof k[0]; i++)
-        if (kind_is(p, k[i]))
-            return true;
-    return kind_is(p, "opamp") && p->run && p->run->state == LS_LIM_NONE;
+    if (p->kind->exact == LS_EXACT_OPAMP)
+        return p->run && p->run->state == LS_LIM_NONE;
+    return p->kind->exact != LS_EXACT_NONE;
 }
 
 /* Does the part have a main value that can be a symbol? */
 static bool has_symbolic_value(const ls_part *p)
 {
-    if (!exact_kind(p) || kind_is(p, "port") || kind_is(p, "switch") || kind_is(p, "adc"))
-        return false;
-    return !kind_is(p, "opamp") || p->has_value;
+    switch (exact_kind(p) ? p->kind->exact : LS_EXACT_NONE) {
+    case LS_EXACT_NONE: case LS_EXACT_PORT: case LS_EXACT_SWITCH: case LS_EXACT_ADC: return false;
+    case LS_EXACT_OPAMP: return p->has_value;
+    default: return true;
+    }
 }
 
-static bool is_gain(const ls_part *p) { return kind_is(p, "opamp") && p->has_value; }
+/* An op-amp with a finite gain= (a symbol of its own). */
+static bool is_gain(const ls_part *p) { return p->kind->exact == LS_EXACT_OPAMP && p->has_value; }
 
 /* The statement of a top-level part or let named name, or NULL. */
 static const ls_stmt *find_stmt(const fx *F, int kind, const char *name)
@@ -955,7 +957,8 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
         numeric_stamp(F, S, p, removed);
         return;
     }
-    if (kind_is(p, "resistor")) {
+    switch (p->kind->exact) {
+    case LS_EXACT_RESISTOR: {
         rf g, one;
         rf_init(F, &g);
         rf_init(F, &one);
@@ -964,14 +967,18 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
         conductance(F, S, f, t, &g);
         rf_clear(F, &g);
         rf_clear(F, &one);
-    } else if (kind_is(p, "voltage")) {
+        break;
+    }
+    case LS_EXACT_VSOURCE:
         branch(F, S, f, t, k, true);
         add_a_d(F, S, k, k, source_rint(p));
         add_b(F, S, k, v, 1);
-    } else if (kind_is(p, "current")) {
+        break;
+    case LS_EXACT_ISOURCE:
         add_b(F, S, f, v, -1);
         add_b(F, S, t, v, 1);
-    } else if (kind_is(p, "port")) {
+        break;
+    case LS_EXACT_PORT:
         if (removed && F->hold) {
             /* opened with its load end held at its loaded voltage: the driver
              * end is disconnected, the branch row reads V(load) = held value
@@ -988,23 +995,29 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
             add_a_si(F, S, k, f, 1);
             add_a_si(F, S, k, t, -1);
         }
-    } else if (kind_is(p, "vcvs")) {
+        break;
+    case LS_EXACT_VCVS:
         branch(F, S, f, t, k, true);
         add_a(F, S, k, NU(p, 2), v, -1);
         add_a(F, S, k, NU(p, 3), v, 1);
-    } else if (kind_is(p, "vccs")) {
+        break;
+    case LS_EXACT_VCCS:
         add_a(F, S, f, NU(p, 2), v, 1);
         add_a(F, S, f, NU(p, 3), v, -1);
         add_a(F, S, t, NU(p, 2), v, -1);
         add_a(F, S, t, NU(p, 3), v, 1);
-    } else if (kind_is(p, "cccs")) {
+        break;
+    case LS_EXACT_CCCS:
         via_stamp(F, S, p, f, t, -1);
-    } else if (kind_is(p, "ccvs")) {
+        break;
+    case LS_EXACT_CCVS:
         branch(F, S, f, t, k, true);
         via_stamp(F, S, p, f, t, k);
-    } else if (kind_is(p, "opamp")) {
+        break;
+    case LS_EXACT_OPAMP:
         opamp_exact(F, S, p, v);
-    } else if (kind_is(p, "switch")) {
+        break;
+    case LS_EXACT_SWITCH: {
         bool closed = opt(p, "state", 1) != 0, roff = ls_part_has(p, ls_kind_opt(p->kind, "roff"));
         branch(F, S, f, t, k, false);
         if (!closed && !roff) {
@@ -1014,7 +1027,9 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
             add_a_si(F, S, k, t, -1);
             add_a_d(F, S, k, k, -(closed ? opt(p, "ron", 0) : opt(p, "roff", 0)));
         }
-    } else if (kind_is(p, "adc")) {
+        break;
+    }
+    case LS_EXACT_ADC: {
         double rin = opt(p, "rin", 0);
         if (rin > 0) {
             rf g;
@@ -1024,6 +1039,11 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
             rf_clear(F, &g);
         }
         add_b_d(F, S, f, -opt(p, "leak", 0));
+        break;
+    }
+    case LS_EXACT_NONE:
+        assert(!"a part of a kind without exact stamps is marked exact");
+        break;
     }
 }
 
@@ -1070,7 +1090,7 @@ static void part_lform(fx *F, int part, lform *l, int depth)
     int f = NU(p, 0), t = NU(p, 1);
     if (depth > 32)
         return;
-    if (F->pexact[part] && kind_is(p, "resistor")) {
+    if (F->pexact[part] && p->kind->exact == LS_EXACT_RESISTOR) {
         rf g, one;
         rf_init(F, &g);
         rf_init(F, &one);
@@ -1080,12 +1100,12 @@ static void part_lform(fx *F, int part, lform *l, int depth)
         lf_add(F, l, t, &g, -1);
         rf_clear(F, &g);
         rf_clear(F, &one);
-    } else if (F->pexact[part] && kind_is(p, "current")) {
+    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_ISOURCE) {
         rf_addsub(F, &l->c0, &l->c0, v, 1);
-    } else if (F->pexact[part] && kind_is(p, "vccs")) {
+    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_VCCS) {
         lf_add(F, l, NU(p, 2), v, 1);
         lf_add(F, l, NU(p, 3), v, -1);
-    } else if (F->pexact[part] && kind_is(p, "cccs")) {
+    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_CCCS) {
         lform m;
         lform_init(F, &m);
         if (m.c && p->ref >= 0) {
@@ -1101,7 +1121,7 @@ static void part_lform(fx *F, int part, lform *l, int depth)
             rf_clear(F, &t1);
         }
         lform_clear(F, &m);
-    } else if (F->pexact[part] && kind_is(p, "adc")) {
+    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_ADC) {
         double rin = opt(p, "rin", 0);
         if (rin > 0) {
             rf g;
@@ -2577,7 +2597,7 @@ static void mark_exact_parts(fx *F)
         F->pexact[i] = exact_kind(p);
         if (F->pexact[i])
             continue;
-        if (kind_is(p, "opamp"))
+        if (p->kind->exact == LS_EXACT_OPAMP)
             note(F, "%s: op-amp held at its %s limit at the operating point (a fixed %s), not a symbol",
                  p->name, ls_opamp_limit_word(p),
                  p->run->state == LS_LIM_RAIL_HIGH || p->run->state == LS_LIM_RAIL_LOW ? "output voltage"
