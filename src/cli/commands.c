@@ -100,27 +100,12 @@ _Noreturn void ls_exit_now(int code)
 
 /* ---- sessions ------------------------------------------------------------------------ */
 
+/* The --set texts into sets[cli->nsets].  0, or -1 after an error. */
 static int parse_sets(ls_session *s, ls_setting *sets)
 {
-    ls_cli *cli = s->cli;
-    for (int i = 0; i < cli->nsets; i++) {
-        const char *eq = strchr(cli->sets[i], '=');
-        size_t nlen = (size_t)(eq - cli->sets[i]);
-        sets[i].name = ls_arena_strndup(&s->arena, cli->sets[i], nlen);
-        int id = ls_sources_add(&s->diags, "--set", cli->sets[i], (unsigned)strlen(cli->sets[i]));
-        if (id < 0) {
-            ls_error(&s->diags, LS_NOLOC, "out of memory reading --set '%s' (%zu bytes)", cli->sets[i],
-                     strlen(cli->sets[i]) + 1);
+    for (int i = 0; i < s->cli->nsets; i++)
+        if (ls_parse_setting(&s->diags, s->cli->sets[i], &sets[i]) != 0)
             return -1;
-        }
-        if (ls_sources_check_utf8(&s->diags, id) > 0)
-            return -1;
-        sets[i].value = ls_parse_expr_at(&s->diags, id, (unsigned)nlen + 1, false);
-        sets[i].loc = (ls_loc){id, 0, (unsigned)nlen};
-        sets[i].used = false;
-        if (!sets[i].value)
-            return -1;
-    }
     return 0;
 }
 

@@ -3,6 +3,7 @@
 #ifndef LS_ELAB_H
 #define LS_ELAB_H
 
+#include "lang/parser.h"
 #include "netlist/netlist.h"
 
 #define LS_MAX_BLOCK_DEPTH 32
@@ -11,13 +12,6 @@
 #define LS_MAX_NODES 4000000      /* after expansion */
 #define LS_MAX_PARTS 4000000      /* after expansion */
 #define LS_MAX_VIA_CHAIN 32       /* via= links followed from one source */
-
-typedef struct ls_setting {
-    const char *name;      /* param name */
-    ls_expr *value;        /* parsed from the --set text */
-    ls_loc loc;            /* in the "--set" pseudo-file */
-    bool used;
-} ls_setting;
 
 /* Elaborate prog into nl (which must be zeroed; its arena and diags are taken
  * from d).  Returns the number of errors. */

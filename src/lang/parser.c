@@ -857,6 +857,30 @@ static void parse_lines(parser *p, stmt_list *out, ls_stmt *block)
     }
 }
 
+/* ---- settings from outside the file ------------------------------------------------- */
+
+int ls_parse_setting(ls_diags *d, const char *text, ls_setting *out)
+{
+    const char *eq = text ? strchr(text, '=') : NULL;
+    if (!eq || eq == text) {
+        ls_error(d, LS_NOLOC, "a setting takes NAME=VALUE, got '%s'", text ? text : "(null)");
+        return -1;
+    }
+    size_t nlen = (size_t)(eq - text), len = strlen(text);
+    out->name = ls_arena_strndup(d->arena, text, nlen);
+    int id = ls_sources_add(d, "--set", text, (unsigned)len);
+    if (id < 0) {
+        ls_error(d, LS_NOLOC, "out of memory reading --set '%s' (%zu bytes)", text, len + 1);
+        return -1;
+    }
+    if (ls_sources_check_utf8(d, id) > 0)
+        return -1;
+    out->value = ls_parse_expr_at(d, id, (unsigned)nlen + 1, false);
+    out->loc = (ls_loc){id, 0, (unsigned)nlen};
+    out->used = false;
+    return out->name && out->value ? 0 : -1;
+}
+
 /* ---- files and includes ------------------------------------------------- */
 
 char *ls_read_file(const char *path, size_t *len)

@@ -37,6 +37,21 @@ ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, b
 /* The same for an expression starting at byte `offset` of a registered file. */
 ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect);
 
+/* A top-level let's value given from outside the file: NAME=VALUE of the
+ * program's --set, of the library's settings (ls_circuit_read). */
+typedef struct ls_setting {
+    const char *name;      /* the let's name (in the diagnostics' arena) */
+    ls_expr *value;        /* parsed from the VALUE text */
+    ls_loc loc;            /* the NAME, in the "--set" pseudo-file */
+    bool used;             /* the elaborator found the let */
+} ls_setting;
+
+/* Parse one "NAME=VALUE" into *out: the whole text becomes a source named
+ * "--set" (so an error in VALUE points at its column there), checked as
+ * UTF-8, and VALUE is parsed as an expression.  Returns 0, or -1 after
+ * reporting an error (no '=' or no name, bad text, out of memory). */
+int ls_parse_setting(ls_diags *d, const char *text, ls_setting *out);
+
 /* Read a whole file; NULL (errno set) on failure.  Caller frees. */
 char *ls_read_file(const char *path, size_t *len);
 /* The same for an open stream (standard input), read to its end; the
