@@ -2313,19 +2313,25 @@ static bool has_long_number(fx *F, const fmpq_mpoly_t p)
 
 /* ---- reading the text back ------------------------------------------------------------------- */
 
-/* Value of a parsed formula with the symbols at their values (double arithmetic). */
-static double eval_text_expr(fx *F, const ls_expr *e)
+/* ls_eval_const's names in a formula read back: a symbol at its value, as a
+ * plain number (the formula's units are its symbols'; only the value is
+ * compared).  An unknown name is an error in the scratch diagnostics. */
+static bool symbol_value(void *ctx, const ls_expr *e, double *v, ls_dims *d)
 {
-    switch (e->kind) {
-    case E_NUM: return e->num;
-    case E_NAME: {
-        int s = sym_find(F, e->name);
-        return s >= 0 ? fmpq_get_d(F->sym[s].value) : NAN;
-    }
-    case E_NEG: return -eval_text_expr(F, e->a);
-    case E_BIN: return ls_apply_op(e->op, eval_text_expr(F, e->a), eval_text_expr(F, e->b));
-    default: return NAN;
-    }
+    const fx *F = ctx;
+    int s = sym_find(F, e->name);
+    *d = LS_FREE;
+    *v = s >= 0 ? fmpq_get_d(F->sym[s].value) : NAN;
+    return s >= 0;
+}
+
+/* Value of a parsed formula with the symbols at their values (double
+ * arithmetic, through the one constant evaluator); NaN when it has none. */
+static double eval_text_expr(fx *F, ls_diags *d, const ls_expr *e)
+{
+    double v;
+    ls_dims dims;
+    return ls_eval_const(d, e, symbol_value, F, &v, &dims) ? v : NAN;
 }
 
 /* Does the text, read back by the language's own parser, give `want`? */
@@ -2336,7 +2342,7 @@ static bool text_reads_back(fx *F, const char *text, double want, double *got_ou
     ls_arena_init(&a);
     ls_diags_init(&d, &a);
     ls_expr *e = ls_parse_expr_string(&d, "formula", text, true);
-    double got = e ? eval_text_expr(F, e) : NAN;
+    double got = e ? eval_text_expr(F, &d, e) : NAN;
     ls_diags_free(&d);
     ls_arena_free(&a);
     *got_out = got;

@@ -19,32 +19,23 @@
 
 /* ---- numbers on the command line ------------------------------------------------------ */
 
-static bool const_eval(const ls_expr *e, double *v)
-{
-    double a, b;
-    switch (e->kind) {
-    case E_NUM: *v = e->num; return true;
-    case E_NEG: if (!const_eval(e->a, &a)) return false; *v = -a; return true;
-    case E_BIN:
-        if (!const_eval(e->a, &a) || !const_eval(e->b, &b))
-            return false;
-        *v = ls_apply_op(e->op, a, b);
-        return isfinite(*v);
-    default: return false;
-    }
-}
-
-bool ls_cli_number(const char *text, double *v)
+bool ls_cli_number_dims(const char *text, double *v, ls_dims *dims)
 {
     ls_arena a;
     ls_diags d;
     ls_arena_init(&a);
     ls_diags_init(&d, &a);
     ls_expr *e = ls_parse_expr_string(&d, "argument", text, false);
-    bool ok = e && const_eval(e, v);
+    bool ok = e && ls_eval_const(&d, e, NULL, NULL, v, dims);
     ls_diags_free(&d);
     ls_arena_free(&a);
     return ok;
+}
+
+bool ls_cli_number(const char *text, double *v)
+{
+    ls_dims dims;
+    return ls_cli_number_dims(text, v, &dims);
 }
 
 /* ---- phase times (LOADSTACK_TIMING=1) ------------------------------------------------------ */

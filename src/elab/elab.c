@@ -34,6 +34,8 @@ typedef struct elab {
     bool nodes_capped, parts_capped;  /* LS_MAX_NODES / LS_MAX_PARTS reported */
     bool oom;                         /* out of memory reported */
     bool allow_lsb;                   /* evaluating a port's budget=: LSB is a unit here */
+    ls_name_value names;              /* ls_eval_const: how names get values (NULL: lets and params) */
+    void *names_ctx;
     const char *last_kw;              /* the kind word last looked up (the parser shares one string */
     const ls_kind *last_kind;         /* per word on consecutive lines) and its kind, or NULL */
 } elab;
@@ -416,6 +418,8 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
         *d = e->dims;
         return lsb_allowed(x, e);
     case E_NAME: {
+        if (x->names)
+            return x->names(x->names_ctx, e, v, d) && isfinite(*v);
         const ls_param *p = param_ref(x, s, e->name);
         if (p) {
             *v = p->value;
@@ -473,6 +477,30 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
         return false;
     }
     return true;
+}
+
+/* ls_eval_const without names: each one is an error. */
+static bool no_names(void *ctx, const ls_expr *e, double *v, ls_dims *d)
+{
+    ls_diags *diags = ctx;
+    (void)v;
+    (void)d;
+    ls_error(diags, e->loc, "unknown name '%s' (a number is expected here)", e->name);
+    return false;
+}
+
+bool ls_eval_const(ls_diags *d, const ls_expr *e, ls_name_value names, void *ctx, double *v, ls_dims *dims)
+{
+    elab x;
+    memset(&x, 0, sizeof x);
+    x.d = d;
+    x.a = d->arena;
+    x.names = names ? names : no_names;
+    x.names_ctx = names ? ctx : d;
+    scope top = {"", NULL, NULL, 0};
+    bool ok = eval(&x, &top, e, v, dims);
+    *dims = norm(*dims);
+    return ok;
 }
 
 /* Evaluate a value for a slot of dimension want; a free result takes it. */

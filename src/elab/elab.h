@@ -29,6 +29,16 @@ bool ls_prop_applies(const ls_part *p, ls_prop prop);
 /* The adc whose input is port's load node (the one with the smallest LSB), or -1. */
 int ls_port_adc(const ls_netlist *nl, int port);
 
+/* How ls_eval_const gives a name its value: true with *v (and its unit in
+ * *d, LS_FREE when it has none), or false after reporting why at e->loc. */
+typedef bool (*ls_name_value)(void *ctx, const ls_expr *e, double *v, ls_dims *d);
+/* The one evaluator of a constant expression (numbers with units, names,
+ * operators, functions) outside a circuit: the elaborator's own, with its
+ * unit rules and errors (into d), names valued by `names` (NULL: a name is an
+ * error).  True with the value in *v and its unit in *dims; false after an
+ * error (a unit mismatch, a division by zero, a non-finite result). */
+bool ls_eval_const(ls_diags *d, const ls_expr *e, ls_name_value names, void *ctx, double *v, ls_dims *dims);
+
 /* Arithmetic shared by every evaluator: a binary operator (an ls_binop) and the
  * built-in functions (an ls_func). */
 double ls_apply_op(int op, double a, double b);
