@@ -12,6 +12,9 @@
 
 #include "lang/lexer.h"
 
+/* Distinct kind words a parse keeps one copy of (the part table has fewer). */
+#define LS_KIND_WORDS 64
+
 typedef struct inc_frame {
     const char *real;         /* canonical path, for cycle detection */
     const char *shown;        /* as written, for the message */
@@ -31,8 +34,10 @@ typedef struct parser {
     int inc_depth;
     inc_frame *incs;
     const char *dir;          /* directory of this file, for includes */
-    const char *last_kind;    /* the kind word of the last part statement (in the arena), */
-    unsigned last_kind_len;   /* most often that of the next one too: shared, not copied */
+    /* The kind words seen so far (in the arena), each kept once however many
+     * part statements use it; the last one used is tried first. */
+    struct { const char *w; unsigned len; } kinds[LS_KIND_WORDS];
+    int nkinds, last_kind;
 } parser;
 
 typedef struct stmt_list {
@@ -498,17 +503,26 @@ static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_val
     return true;
 }
 
-/* The kind word of a part statement, in the arena: the previous part
- * statement's string when the word is the same (most lines repeat it), so a
- * large circuit keeps one copy of each kind word.  NULL when out of memory. */
+/* The kind word of a part statement, in the arena: the string of an earlier
+ * part statement with the same word (the last one's first: most lines repeat
+ * it), so a large circuit keeps one copy of each kind word (past
+ * LS_KIND_WORDS distinct words, a copy each).  NULL when out of memory. */
 static const char *kind_word(parser *p, const ls_token *t)
 {
-    if (p->last_kind && t->len == p->last_kind_len && memcmp(t->text, p->last_kind, t->len) == 0)
-        return p->last_kind;
+    for (int k = -1; k < p->nkinds; k++) {
+        int i = k < 0 ? p->last_kind : k;
+        if (i >= p->nkinds)
+            continue; /* none yet */
+        if (t->len == p->kinds[i].len && memcmp(t->text, p->kinds[i].w, t->len) == 0) {
+            p->last_kind = i;
+            return p->kinds[i].w;
+        }
+    }
     const char *w = tok_str(p, t);
-    if (w) {
-        p->last_kind = w;
-        p->last_kind_len = t->len;
+    if (w && p->nkinds < LS_KIND_WORDS) {
+        p->kinds[p->nkinds].w = w;
+        p->kinds[p->nkinds].len = t->len;
+        p->last_kind = p->nkinds++;
     }
     return w;
 }
