@@ -20,6 +20,10 @@ int ls_op_resolve(ls_op *op);
 void ls_op_free(ls_op *op);
 double ls_op_min_ratio(const ls_op *op);
 
+/* The value of port property f (open, loaded, sag, sag_rel, zout, zin,
+ * ratio, current, budget) in pr; NaN for another property. */
+double ls_port_value(const ls_port_result *pr, ls_prop f);
+
 /* Value of a bound quantity (NaN undefined, +-inf unbounded). */
 double ls_q_eval(ls_op *op, const ls_q *q);
 
