@@ -12,7 +12,7 @@
 
 #include "analysis/analysis.h"
 #include "analysis/checks.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/eseries.h"
 #include "analysis/fit.h"
 #include "analysis/formula.h"
@@ -95,19 +95,9 @@ static ls_status need_solved(const ls_circuit *c)
  * Returns 0, or -1 after reporting an error. */
 static int parse_sets(ls_circuit *c, const char *const *text, int n, ls_setting *sets)
 {
-    for (int i = 0; i < n; i++) {
-        const char *eq = text[i] ? strchr(text[i], '=') : NULL;
-        if (!eq || eq == text[i]) {
-            ls_error(&c->diags, LS_NOLOC, "a setting takes NAME=VALUE, got '%s'", text[i] ? text[i] : "(null)");
+    for (int i = 0; i < n; i++)
+        if (ls_parse_setting(&c->diags, text[i], &sets[i]) != 0)
             return -1;
-        }
-        sets[i].name = ls_arena_strndup(&c->arena, text[i], (size_t)(eq - text[i]));
-        sets[i].value = ls_parse_expr_string(&c->diags, "--set", eq + 1, false);
-        sets[i].loc = (ls_loc){c->diags.nfiles - 1, 0, (unsigned)strlen(eq + 1)};
-        sets[i].used = false;
-        if (!sets[i].name || !sets[i].value)
-            return -1;
-    }
     return 0;
 }
 

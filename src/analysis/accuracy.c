@@ -1,6 +1,5 @@
 /* accuracy.c — extra-precise refinement and error bounds (see accuracy.h). */
 #include "analysis/accuracy.h"
-#include "analysis/analysis.h"
 
 #include <float.h>
 #include <math.h>

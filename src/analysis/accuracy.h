@@ -22,42 +22,25 @@
 
 #include <stdbool.h>
 
-struct ls_op;
-struct ls_lin;
-struct ls_mna;
+#include "analysis/op.h"
 
 /* Per-result bounds for systems up to this many unknowns (and four times as
  * many parts); one estimate above. */
 #define LS_ACC_EXACT_LIMIT 400
 
-typedef struct ls_accuracy {
-    double *tail;          /* n: the solution is x + tail (tail 0 until refined) */
-    bool refined;          /* the extra-precise refinement ran */
-    bool extended;         /* ... and moved some unknown by more than rounding: double was not enough */
-    int steps;             /* extra-precise refinement steps */
-    bool reliable;         /* first-order bounds hold; else every bound is +inf */
-    bool have_bounds;      /* node_bound and part_bound are valid */
-    bool estimated;        /* one estimate for every node (large system) */
-    bool per_node;         /* large system of resistances and grounded sources: every node's bound by one solve */
-    double *node_bound;    /* nnodes: V, absolute; [0] = 0 (ground) */
-    double *part_bound;    /* nparts: A, absolute, on the part's current; NaN where none */
-    int worst_node, worst_part;     /* largest bound against its value (-1: none untrusted) */
-    double worst_node_rel, worst_part_rel;  /* those bounds / |value| */
-} ls_accuracy;
-
 /* Refine the solution of a linear circuit's system with extra-precise
  * residuals until every unknown is right to well past double precision or the
  * steps stop helping (at most 8).  op->x is updated, op->acc.tail holds the
  * rest.  0, or -1 when out of memory (the solution is then unchanged). */
-int ls_acc_refine(struct ls_op *op);
+int ls_acc_refine(ls_op *op);
 /* Value of a linear form at x + tail, evaluated in double-double (the
  * cancellation of two nearly equal node voltages happens before rounding). */
-double ls_acc_lin_eval(const struct ls_op *op, const struct ls_lin *l);
+double ls_acc_lin_eval(const ls_op *op, const ls_lin *l);
 /* V(a) - V(b) from x + tail (node indices, 0 = ground). */
-double ls_acc_drop(const struct ls_op *op, int a, int b);
+double ls_acc_drop(const ls_op *op, int a, int b);
 /* Compute the error bounds of the solved op (once; cached until the next
  * solve).  0, or -1 when out of memory (have_bounds stays false). */
-int ls_acc_bounds(struct ls_op *op);
+int ls_acc_bounds(ls_op *op);
 /* Is a value printed with `digits` significant digits possibly wrong in its
  * last digit: bound > half a unit of that digit?  A value of 0 is doubtful
  * when its bound exceeds `scale` * 1e-12 (scale: the largest value of its
@@ -66,10 +49,10 @@ bool ls_acc_doubtful(double value, double bound, int digits, double scale);
 /* Compute the bounds and, when some node voltage or part current printed
  * with `digits` significant digits may be wrong in them, add the warning
  * `untrusted-digits` naming the worst and why. */
-void ls_acc_warn(struct ls_op *op, int digits);
+void ls_acc_warn(ls_op *op, int digits);
 /* Largest |value| of the node voltages (kind 0) or part currents (kind 1):
  * the scale ls_acc_doubtful judges a zero against. */
-double ls_acc_scale(const struct ls_op *op, int kind);
+double ls_acc_scale(const ls_op *op, int kind);
 void ls_acc_free(ls_accuracy *a);
 /* r = b - A (x + tail), summed part by part from every part's stamp (and the
  * variant's ties) in double-double and rounded to double; absr[row] = the sum
@@ -77,7 +60,7 @@ void ls_acc_free(ls_accuracy *a);
  * rounding of the parts' own values acts on).  tail may be all zero; r, absr:
  * n doubles; work: 2 n doubles of scratch (n = m->n).  The refinement's
  * residual, exported so a test can hold it against the assembled matrix. */
-void ls_acc_residual(const struct ls_mna *m, const double *x, const double *tail, double *r, double *absr,
+void ls_acc_residual(const ls_mna *m, const double *x, const double *tail, double *r, double *absr,
                      double *work);
 
 #endif

@@ -3,7 +3,7 @@
 #include "analysis/analysis.h"
 #include "solve/memprobe.h"
 #include "analysis/selfcheck.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "analysis/newton.h"
 #include "solve/selinv.h"
 

@@ -20,6 +20,7 @@
 #include <flint/fmpz_vec.h>
 #include <flint/fmpq_mpoly.h>
 #include <flint/fmpq_mpoly_factor.h>
+#include <assert.h>
 #include <float.h>
 #include <math.h>
 #include <stdarg.h>
@@ -27,8 +28,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "netlist/elab.h"
-#include "lang/lexer.h"
+#include "elab/elab.h"
 #include "lang/parser.h"
 
 /* ---- state --------------------------------------------------------------------------- */
@@ -384,29 +384,30 @@ static int too_big_error(fx *F, const char *why)
 
 /* ---- which values are symbols ----------------------------------------------------------- */
 
-/* Kinds whose stamp is built exactly here; others enter with their numeric
- * stamps at the operating point. */
 static bool kind_is(const ls_part *p, const char *name) { return strcmp(p->kind->name, name) == 0; }
 
+/* Is the part's stamp built exactly here (its kind's table entry says how,
+ * ls_kind.exact)?  Others enter with their numeric stamps at the operating
+ * point; so does an op-amp held at a limit. */
 static bool exact_kind(const ls_part *p, const ls_run *run)
 {
-    static const char *const k[] = {"resistor", "voltage", "current", "port", "vcvs", "vccs",
-                                    "cccs", "ccvs", "switch", "adc"};
-    for (size_t i = 0; i < sizeof k / sizeof k[0]; i++)
-        if (kind_is(p, k[i]))
-            return true;
-    return kind_is(p, "opamp") && p->slot >= 0 && ls_run_state(run, p)->state == LS_LIM_NONE;
+    if (p->kind->exact == LS_EXACT_OPAMP)
+        return p->slot >= 0 && ls_run_state(run, p)->state == LS_LIM_NONE;
+    return p->kind->exact != LS_EXACT_NONE;
 }
 
 /* Does the part have a main value that can be a symbol? */
 static bool has_symbolic_value(const ls_part *p, const ls_run *run)
 {
-    if (!exact_kind(p, run) || kind_is(p, "port") || kind_is(p, "switch") || kind_is(p, "adc"))
-        return false;
-    return !kind_is(p, "opamp") || p->has_value;
+    switch (exact_kind(p, run) ? p->kind->exact : LS_EXACT_NONE) {
+    case LS_EXACT_NONE: case LS_EXACT_PORT: case LS_EXACT_SWITCH: case LS_EXACT_ADC: return false;
+    case LS_EXACT_OPAMP: return p->has_value;
+    default: return true;
+    }
 }
 
-static bool is_gain(const ls_part *p) { return kind_is(p, "opamp") && p->has_value; }
+/* An op-amp with a finite gain= (a symbol of its own). */
+static bool is_gain(const ls_part *p) { return p->kind->exact == LS_EXACT_OPAMP && p->has_value; }
 
 /* The statement of a top-level part or let named name, or NULL. */
 static const ls_stmt *find_stmt(const fx *F, int kind, const char *name)
@@ -628,11 +629,11 @@ static bool expr_to_rf(fx *F, const ls_expr *e, rf *r, int depth)
         bool ok = expr_to_rf(F, e->a, &a, depth + 1) && expr_to_rf(F, e->b, &b, depth + 1);
         if (ok) {
             switch (e->op) {
-            case T_PLUS: rf_addsub(F, r, &a, &b, 1); break;
-            case T_MINUS: rf_addsub(F, r, &a, &b, -1); break;
-            case T_STAR: rf_mul(F, r, &a, &b); break;
-            case T_SLASH: ok = rf_div(F, r, &a, &b); break;
-            case T_PARALLEL: {
+            case LS_OP_ADD: rf_addsub(F, r, &a, &b, 1); break;
+            case LS_OP_SUB: rf_addsub(F, r, &a, &b, -1); break;
+            case LS_OP_MUL: rf_mul(F, r, &a, &b); break;
+            case LS_OP_DIV: ok = rf_div(F, r, &a, &b); break;
+            case LS_OP_PAR: {
                 rf s;
                 rf_init(F, &s);
                 rf_addsub(F, &s, &a, &b, 1);
@@ -641,7 +642,7 @@ static bool expr_to_rf(fx *F, const ls_expr *e, rf *r, int depth)
                 rf_clear(F, &s);
                 break;
             }
-            case T_CARET: {
+            case LS_OP_POW: {
                 /* only a whole constant exponent keeps it rational */
                 double ev = rf_eval_d(F, &b);
                 ok = fmpq_mpoly_is_fmpq(b.n, F->ctx) && fmpq_mpoly_is_one(b.d, F->ctx) && ev == floor(ev) &&
@@ -958,7 +959,8 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
         numeric_stamp(F, S, p, removed);
         return;
     }
-    if (kind_is(p, "resistor")) {
+    switch (p->kind->exact) {
+    case LS_EXACT_RESISTOR: {
         rf g, one;
         rf_init(F, &g);
         rf_init(F, &one);
@@ -967,14 +969,18 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
         conductance(F, S, f, t, &g);
         rf_clear(F, &g);
         rf_clear(F, &one);
-    } else if (kind_is(p, "voltage")) {
+        break;
+    }
+    case LS_EXACT_VSOURCE:
         branch(F, S, f, t, k, true);
         add_a_d(F, S, k, k, source_rint(p));
         add_b(F, S, k, v, 1);
-    } else if (kind_is(p, "current")) {
+        break;
+    case LS_EXACT_ISOURCE:
         add_b(F, S, f, v, -1);
         add_b(F, S, t, v, 1);
-    } else if (kind_is(p, "port")) {
+        break;
+    case LS_EXACT_PORT:
         if (removed && F->hold) {
             /* opened with its load end held at its loaded voltage: the driver
              * end is disconnected, the branch row reads V(load) = held value
@@ -991,23 +997,29 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
             add_a_si(F, S, k, f, 1);
             add_a_si(F, S, k, t, -1);
         }
-    } else if (kind_is(p, "vcvs")) {
+        break;
+    case LS_EXACT_VCVS:
         branch(F, S, f, t, k, true);
         add_a(F, S, k, NU(p, 2), v, -1);
         add_a(F, S, k, NU(p, 3), v, 1);
-    } else if (kind_is(p, "vccs")) {
+        break;
+    case LS_EXACT_VCCS:
         add_a(F, S, f, NU(p, 2), v, 1);
         add_a(F, S, f, NU(p, 3), v, -1);
         add_a(F, S, t, NU(p, 2), v, -1);
         add_a(F, S, t, NU(p, 3), v, 1);
-    } else if (kind_is(p, "cccs")) {
+        break;
+    case LS_EXACT_CCCS:
         via_stamp(F, S, p, f, t, -1);
-    } else if (kind_is(p, "ccvs")) {
+        break;
+    case LS_EXACT_CCVS:
         branch(F, S, f, t, k, true);
         via_stamp(F, S, p, f, t, k);
-    } else if (kind_is(p, "opamp")) {
+        break;
+    case LS_EXACT_OPAMP:
         opamp_exact(F, S, p, v);
-    } else if (kind_is(p, "switch")) {
+        break;
+    case LS_EXACT_SWITCH: {
         bool closed = opt(p, "state", 1) != 0, roff = ls_part_has(p, ls_kind_opt(p->kind, "roff"));
         branch(F, S, f, t, k, false);
         if (!closed && !roff) {
@@ -1017,7 +1029,9 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
             add_a_si(F, S, k, t, -1);
             add_a_d(F, S, k, k, -(closed ? opt(p, "ron", 0) : opt(p, "roff", 0)));
         }
-    } else if (kind_is(p, "adc")) {
+        break;
+    }
+    case LS_EXACT_ADC: {
         double rin = opt(p, "rin", 0);
         if (rin > 0) {
             rf g;
@@ -1027,6 +1041,11 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
             rf_clear(F, &g);
         }
         add_b_d(F, S, f, -opt(p, "leak", 0));
+        break;
+    }
+    case LS_EXACT_NONE:
+        assert(!"a part of a kind without exact stamps is marked exact");
+        break;
     }
 }
 
@@ -1073,7 +1092,7 @@ static void part_lform(fx *F, int part, lform *l, int depth)
     int f = NU(p, 0), t = NU(p, 1);
     if (depth > 32)
         return;
-    if (F->pexact[part] && kind_is(p, "resistor")) {
+    if (F->pexact[part] && p->kind->exact == LS_EXACT_RESISTOR) {
         rf g, one;
         rf_init(F, &g);
         rf_init(F, &one);
@@ -1083,12 +1102,12 @@ static void part_lform(fx *F, int part, lform *l, int depth)
         lf_add(F, l, t, &g, -1);
         rf_clear(F, &g);
         rf_clear(F, &one);
-    } else if (F->pexact[part] && kind_is(p, "current")) {
+    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_ISOURCE) {
         rf_addsub(F, &l->c0, &l->c0, v, 1);
-    } else if (F->pexact[part] && kind_is(p, "vccs")) {
+    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_VCCS) {
         lf_add(F, l, NU(p, 2), v, 1);
         lf_add(F, l, NU(p, 3), v, -1);
-    } else if (F->pexact[part] && kind_is(p, "cccs")) {
+    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_CCCS) {
         lform m;
         lform_init(F, &m);
         if (m.c && p->ref >= 0) {
@@ -1104,7 +1123,7 @@ static void part_lform(fx *F, int part, lform *l, int depth)
             rf_clear(F, &t1);
         }
         lform_clear(F, &m);
-    } else if (F->pexact[part] && kind_is(p, "adc")) {
+    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_ADC) {
         double rin = opt(p, "rin", 0);
         if (rin > 0) {
             rf g;
@@ -1642,11 +1661,11 @@ static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
         if (code == LS_EXIT_OK) {
             bool ok = true;
             switch (q->op) {
-            case T_PLUS: rf_addsub(F, out, out, &b, 1); break;
-            case T_MINUS: rf_addsub(F, out, out, &b, -1); break;
-            case T_STAR: rf_mul(F, out, out, &b); break;
-            case T_SLASH: ok = rf_div(F, out, out, &b); break;
-            case T_PARALLEL: {
+            case LS_OP_ADD: rf_addsub(F, out, out, &b, 1); break;
+            case LS_OP_SUB: rf_addsub(F, out, out, &b, -1); break;
+            case LS_OP_MUL: rf_mul(F, out, out, &b); break;
+            case LS_OP_DIV: ok = rf_div(F, out, out, &b); break;
+            case LS_OP_PAR: {
                 rf s;
                 rf_init(F, &s);
                 rf_addsub(F, &s, out, &b, 1);
@@ -1655,7 +1674,7 @@ static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
                 rf_clear(F, &s);
                 break;
             }
-            case T_CARET: {
+            case LS_OP_POW: {
                 double e = rf_eval_d(F, &b);
                 ok = fmpq_mpoly_is_fmpq(b.n, F->ctx) && fmpq_mpoly_is_one(b.d, F->ctx) && e == floor(e) &&
                      fabs(e) <= 16 && rf_pow(F, out, out, (long)e);
@@ -2296,19 +2315,25 @@ static bool has_long_number(fx *F, const fmpq_mpoly_t p)
 
 /* ---- reading the text back ------------------------------------------------------------------- */
 
-/* Value of a parsed formula with the symbols at their values (double arithmetic). */
-static double eval_text_expr(fx *F, const ls_expr *e)
+/* ls_eval_const's names in a formula read back: a symbol at its value, as a
+ * plain number (the formula's units are its symbols'; only the value is
+ * compared).  An unknown name is an error in the scratch diagnostics. */
+static bool symbol_value(void *ctx, const ls_expr *e, double *v, ls_dims *d)
 {
-    switch (e->kind) {
-    case E_NUM: return e->num;
-    case E_NAME: {
-        int s = sym_find(F, e->name);
-        return s >= 0 ? fmpq_get_d(F->sym[s].value) : NAN;
-    }
-    case E_NEG: return -eval_text_expr(F, e->a);
-    case E_BIN: return ls_apply_op(e->op, eval_text_expr(F, e->a), eval_text_expr(F, e->b));
-    default: return NAN;
-    }
+    const fx *F = ctx;
+    int s = sym_find(F, e->name);
+    *d = LS_FREE;
+    *v = s >= 0 ? fmpq_get_d(F->sym[s].value) : NAN;
+    return s >= 0;
+}
+
+/* Value of a parsed formula with the symbols at their values (double
+ * arithmetic, through the one constant evaluator); NaN when it has none. */
+static double eval_text_expr(fx *F, ls_diags *d, const ls_expr *e)
+{
+    double v;
+    ls_dims dims;
+    return ls_eval_const(d, e, symbol_value, F, &v, &dims) ? v : NAN;
 }
 
 /* Does the text, read back by the language's own parser, give `want`? */
@@ -2319,7 +2344,7 @@ static bool text_reads_back(fx *F, const char *text, double want, double *got_ou
     ls_arena_init(&a);
     ls_diags_init(&d, &a);
     ls_expr *e = ls_parse_expr_string(&d, "formula", text, true);
-    double got = e ? eval_text_expr(F, e) : NAN;
+    double got = e ? eval_text_expr(F, &d, e) : NAN;
     ls_diags_free(&d);
     ls_arena_free(&a);
     *got_out = got;
@@ -2378,10 +2403,10 @@ static double q_magnitude(ls_op *op, const ls_q *q)
     case Q_NEG: return q_magnitude(op, q->a);
     case Q_BIN:
         switch (q->op) {
-        case T_PLUS:
-        case T_MINUS: return q_magnitude(op, q->a) + q_magnitude(op, q->b);
-        case T_STAR: return q_magnitude(op, q->a) * q_magnitude(op, q->b);
-        case T_SLASH: return q_magnitude(op, q->a) / fabs(ls_q_eval(op, q->b));
+        case LS_OP_ADD:
+        case LS_OP_SUB: return q_magnitude(op, q->a) + q_magnitude(op, q->b);
+        case LS_OP_MUL: return q_magnitude(op, q->a) * q_magnitude(op, q->b);
+        case LS_OP_DIV: return q_magnitude(op, q->a) / fabs(ls_q_eval(op, q->b));
         default: return fabs(ls_q_eval(op, q));
         }
     case Q_PROP: {
@@ -2580,7 +2605,7 @@ static void mark_exact_parts(fx *F)
         F->pexact[i] = exact_kind(p, &F->op->run);
         if (F->pexact[i])
             continue;
-        if (kind_is(p, "opamp"))
+        if (p->kind->exact == LS_EXACT_OPAMP)
             note(F, "%s: op-amp held at its %s limit at the operating point (a fixed %s), not a symbol",
                  p->name, ls_opamp_limit_word(p, &F->op->run),
                  ls_run_state(&F->op->run, p)->state == LS_LIM_RAIL_HIGH ||

@@ -19,7 +19,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/unionfind.h"
 #include "base/fmt.h"
 #include "analysis/lowrank.h"

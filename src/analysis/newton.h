@@ -5,7 +5,7 @@
 #ifndef LS_NEWTON_H
 #define LS_NEWTON_H
 
-#include "analysis/analysis.h"
+#include "analysis/op.h"
 
 /* From analysis.c: re-stamp at the parts' present states, refactor (reusing
  * the symbolic analysis while the pattern holds) and solve into op->x and

@@ -16,7 +16,7 @@
 
 #include <stdbool.h>
 
-#include "analysis/analysis.h"
+#include "analysis/op.h"
 
 /* Is the self-check asked for (read from the environment at each call)? */
 bool ls_selfcheck_on(void);

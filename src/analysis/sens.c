@@ -14,8 +14,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "netlist/elab.h"
-#include "lang/lexer.h"
+#include "elab/elab.h"
 #include "analysis/lowrank.h"
 #include "solve/amg.h"
 
@@ -634,14 +633,14 @@ static bool eval(ctx *c, const ls_q *q, dual *out)
         for (int m = 0; m < np; m++) {
             double dx = out->g[m], dy = b.g[m];
             switch (q->op) {
-            case T_PLUS: out->g[m] = dx + dy; break;
-            case T_MINUS: out->g[m] = dx - dy; break;
-            case T_STAR: out->g[m] = dx * y + x * dy; break;
-            case T_SLASH: out->g[m] = (dx * y - x * dy) / (y * y); break;
-            case T_PARALLEL: out->g[m] = (dx * y * y + dy * x * x) / ((x + y) * (x + y)); break;
-            case T_CARET: out->g[m] = v * (dy * log(x) + y * dx / x); break;
+            case LS_OP_ADD: out->g[m] = dx + dy; break;
+            case LS_OP_SUB: out->g[m] = dx - dy; break;
+            case LS_OP_MUL: out->g[m] = dx * y + x * dy; break;
+            case LS_OP_DIV: out->g[m] = (dx * y - x * dy) / (y * y); break;
+            case LS_OP_PAR: out->g[m] = (dx * y * y + dy * x * x) / ((x + y) * (x + y)); break;
+            case LS_OP_POW: out->g[m] = v * (dy * log(x) + y * dx / x); break;
             }
-            if (q->op == T_CARET && dy == 0)
+            if (q->op == LS_OP_POW && dy == 0)
                 out->g[m] = y * pow(x, y - 1) * dx;
         }
         out->v = v;

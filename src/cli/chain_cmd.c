@@ -7,7 +7,7 @@
 #include <string.h>
 
 #include "analysis/chain.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "report/chain_plot.h"
 #include "cli/cli.h"
 #include "base/fmt.h"

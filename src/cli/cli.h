@@ -115,8 +115,12 @@ ls_report ls_report_for(const ls_session *s, FILE *out);
  * incomplete report); otherwise code. */
 int ls_report_done(const ls_report *rp, int code);
 
-/* Parse a number with units from text (for --load 10k, --min-ratio 10 ...). */
+/* Parse a number with units from text (for --load 10k, --min-ratio 10 ...)
+ * through the one constant evaluator (ls_eval_const): false when it is no
+ * constant or its units do not go together. */
 bool ls_cli_number(const char *text, double *v);
+/* The same, with the number's unit in *dims (LS_FREE for a plain number). */
+bool ls_cli_number_dims(const char *text, double *v, ls_dims *dims);
 
 int ls_cmd_solve(ls_cli *cli);
 int ls_cmd_check(ls_cli *cli);

@@ -11,7 +11,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "cli/html.h"
 #include "lang/parser.h"
 #include "cli/progress.h"
@@ -19,32 +19,23 @@
 
 /* ---- numbers on the command line ------------------------------------------------------ */
 
-static bool const_eval(const ls_expr *e, double *v)
-{
-    double a, b;
-    switch (e->kind) {
-    case E_NUM: *v = e->num; return true;
-    case E_NEG: if (!const_eval(e->a, &a)) return false; *v = -a; return true;
-    case E_BIN:
-        if (!const_eval(e->a, &a) || !const_eval(e->b, &b))
-            return false;
-        *v = ls_apply_op(e->op, a, b);
-        return isfinite(*v);
-    default: return false;
-    }
-}
-
-bool ls_cli_number(const char *text, double *v)
+bool ls_cli_number_dims(const char *text, double *v, ls_dims *dims)
 {
     ls_arena a;
     ls_diags d;
     ls_arena_init(&a);
     ls_diags_init(&d, &a);
     ls_expr *e = ls_parse_expr_string(&d, "argument", text, false);
-    bool ok = e && const_eval(e, v);
+    bool ok = e && ls_eval_const(&d, e, NULL, NULL, v, dims);
     ls_diags_free(&d);
     ls_arena_free(&a);
     return ok;
+}
+
+bool ls_cli_number(const char *text, double *v)
+{
+    ls_dims dims;
+    return ls_cli_number_dims(text, v, &dims);
 }
 
 /* ---- phase times (LOADSTACK_TIMING=1) ------------------------------------------------------ */
@@ -100,27 +91,12 @@ _Noreturn void ls_exit_now(int code)
 
 /* ---- sessions ------------------------------------------------------------------------ */
 
+/* The --set texts into sets[cli->nsets].  0, or -1 after an error. */
 static int parse_sets(ls_session *s, ls_setting *sets)
 {
-    ls_cli *cli = s->cli;
-    for (int i = 0; i < cli->nsets; i++) {
-        const char *eq = strchr(cli->sets[i], '=');
-        size_t nlen = (size_t)(eq - cli->sets[i]);
-        sets[i].name = ls_arena_strndup(&s->arena, cli->sets[i], nlen);
-        int id = ls_sources_add(&s->diags, "--set", cli->sets[i], (unsigned)strlen(cli->sets[i]));
-        if (id < 0) {
-            ls_error(&s->diags, LS_NOLOC, "out of memory reading --set '%s' (%zu bytes)", cli->sets[i],
-                     strlen(cli->sets[i]) + 1);
+    for (int i = 0; i < s->cli->nsets; i++)
+        if (ls_parse_setting(&s->diags, s->cli->sets[i], &sets[i]) != 0)
             return -1;
-        }
-        if (ls_sources_check_utf8(&s->diags, id) > 0)
-            return -1;
-        sets[i].value = ls_parse_expr_at(&s->diags, id, (unsigned)nlen + 1, false);
-        sets[i].loc = (ls_loc){id, 0, (unsigned)nlen};
-        sets[i].used = false;
-        if (!sets[i].value)
-            return -1;
-    }
     return 0;
 }
 

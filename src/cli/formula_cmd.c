@@ -5,7 +5,7 @@
 
 #include "cli/cli.h"
 #include "report/writer.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/fmt.h"
 #include "analysis/formula.h"
 #include "lang/parser.h"

@@ -6,7 +6,7 @@
 
 #include "base/fmt.h"
 #include "cli/html.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "analysis/tolerance.h"
 #include "analysis/newton.h"
 #include "parts/parts.h"

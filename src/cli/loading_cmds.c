@@ -6,10 +6,9 @@
 #include <string.h>
 
 #include "cli/cli.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/fmt.h"
 #include "lang/parser.h"
-#include "lang/lexer.h"
 #include "analysis/newton.h"
 #include "analysis/sag.h"
 #include "analysis/sens.h"
@@ -85,46 +84,12 @@ static int finish(ls_session *s, int code)
 
 /* ---- thevenin ------------------------------------------------------------------------------ */
 
-/* The unit of a constant expression from the command line (a plain number
- * adopts its partner's unit in + and -, is pure in * and /); *mixed is set
- * when two units meet where they cannot (1V + 1mA). */
-static ls_dims expr_dims(const ls_expr *e, bool *mixed)
-{
-    switch (e->kind) {
-    case E_NUM: return e->dims;
-    case E_NEG: return expr_dims(e->a, mixed);
-    case E_BIN: {
-        ls_dims a = expr_dims(e->a, mixed), b = expr_dims(e->b, mixed);
-        if (e->op == T_STAR || e->op == T_SLASH) {
-            int s = e->op == T_STAR ? 1 : -1;
-            if (!a.known && !b.known)
-                return LS_FREE;
-            return (ls_dims){(signed char)(a.v + s * b.v), (signed char)(a.a + s * b.a), true};
-        }
-        if (e->op == T_CARET)
-            return a.known ? (*mixed = true, a) : LS_FREE;
-        if (a.known && b.known && !ls_dims_eq(a, b))
-            *mixed = true;
-        return a.known ? a : b;
-    }
-    default: *mixed = true; return LS_FREE;
-    }
-}
-
 /* --load and --meter take a resistance: a plain number or one in ohms.
  * Prints the usage error and returns false otherwise. */
 static bool ohms_option(const char *opt, const char *text, double *v)
 {
-    ls_arena a;
-    ls_diags d;
-    ls_arena_init(&a);
-    ls_diags_init(&d, &a);
-    ls_expr *e = ls_parse_expr_string(&d, "argument", text, false);
     ls_dims dims = LS_FREE;
-    bool mixed = false;
-    bool ok = e && ls_cli_number(text, v) && (dims = expr_dims(e, &mixed), !mixed);
-    ls_diags_free(&d);
-    ls_arena_free(&a);
+    bool ok = ls_cli_number_dims(text, v, &dims);
     if (ok && dims.known && !ls_dims_eq(dims, LS_OHM)) {
         char buf[64];
         fprintf(stderr, "loadstack: error: %s takes a resistance (ohms), got %s ('%s')\n", opt,

@@ -14,7 +14,7 @@
 #include "cli/cli.h"
 #include "analysis/sweep.h"
 #include "analysis/tolerance.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/fmt.h"
 #include "lang/parser.h"
 #include "report/plot.h"

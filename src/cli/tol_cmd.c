@@ -7,7 +7,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/fmt.h"
 #include "lang/parser.h"
 #include "parts/parts.h"

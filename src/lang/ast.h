@@ -15,6 +15,11 @@
 
 typedef enum ls_ekind { E_NUM, E_NAME, E_NEG, E_BIN, E_CALL } ls_ekind;
 
+/* The binary operators of the language: a + b, a - b, a * b, a / b, a ^ b and
+ * a || b (in parallel: a b / (a + b)).  The syntax tree's own codes, kept by
+ * the netlist's quantities too, so no stage past the parser needs tokens. */
+typedef enum ls_binop { LS_OP_ADD, LS_OP_SUB, LS_OP_MUL, LS_OP_DIV, LS_OP_POW, LS_OP_PAR } ls_binop;
+
 typedef enum ls_func {
     F_SQRT, F_ABS, F_MIN, F_MAX, F_EXP, F_LN, F_LOG10, F_COUNT
 } ls_func;
@@ -25,7 +30,7 @@ typedef struct ls_expr {
     unsigned char kind;            /* an ls_ekind */
     union {
         ls_dims dims;              /* E_NUM: its unit */
-        unsigned char op;          /* E_BIN: an ls_tok; E_CALL: an ls_func */
+        unsigned char op;          /* E_BIN: an ls_binop; E_CALL: an ls_func */
     };
     ls_loc loc;                    /* the whole expression; for E_BIN the operator is op_loc */
     union {
@@ -60,7 +65,10 @@ typedef struct ls_opt {
 } ls_opt;
 
 typedef enum ls_skind {
-    S_TITLE, S_PARAM, S_GROUND, S_PART, S_BLOCK, S_USE, S_EXPECT, S_RULE
+    S_TITLE, S_PARAM, S_GROUND, S_PART, S_BLOCK, S_USE, S_EXPECT, S_RULE,
+    S_BADPART   /* a part statement whose words after the kind did not parse (the
+                   error is reported): only kw and loc, for the elaborator to
+                   name a kind word that is no part kind */
 } ls_skind;
 
 typedef enum ls_cmp { CMP_EQ, CMP_LT, CMP_LE, CMP_GT, CMP_GE, CMP_BETWEEN } ls_cmp;
@@ -69,12 +77,13 @@ typedef struct ls_stmt {
     unsigned char kind;     /* an ls_skind */
     unsigned char cmp;      /* S_EXPECT, S_RULE: an ls_cmp */
     bool arrow;             /* S_PART: FROM -> TO given */
-    ls_loc loc;             /* the keyword (for S_PART the kind keyword) */
+    ls_loc loc;             /* the keyword (for S_PART and S_BADPART the kind word) */
     ls_loc text_loc;        /* the whole statement, for reports */
     ls_loc name_loc;
     int nopts;
     const char *name;       /* part / param / ground / block / instance / rule / title text */
-    const char *kw;         /* S_PART: kind keyword (the part table's own string); S_USE: block name */
+    const char *kw;         /* S_PART, S_BADPART: the kind word as written (the parser does not know the
+                               kinds: the elaborator looks it up); S_USE: block name */
     ls_expr *value;         /* S_PART value, S_PARAM value */
     ls_opt *opts;           /* S_PART, S_USE, S_BLOCK (params with defaults); NULL when nopts is 0 */
     union {

@@ -2,6 +2,7 @@
  * On an error the rest of the line is skipped, so one run reports many errors. */
 #include "lang/parser.h"
 
+#include <assert.h>
 #include <errno.h>
 #include <limits.h>
 #include <stdint.h>
@@ -10,7 +11,9 @@
 #include <sys/stat.h>
 
 #include "lang/lexer.h"
-#include "parts/parts.h"
+
+/* Distinct kind words a parse keeps one copy of (the part table has fewer). */
+#define LS_KIND_WORDS 64
 
 typedef struct inc_frame {
     const char *real;         /* canonical path, for cycle detection */
@@ -31,8 +34,10 @@ typedef struct parser {
     int inc_depth;
     inc_frame *incs;
     const char *dir;          /* directory of this file, for includes */
-    const ls_kind *last_kind; /* the part kind of the last part statement, */
-    unsigned last_kind_len;   /* most often that of the next one too */
+    /* The kind words seen so far (in the arena), each kept once however many
+     * part statements use it; the last one used is tried first. */
+    struct { const char *w; unsigned len; } kinds[LS_KIND_WORDS];
+    int nkinds, last_kind;
 } parser;
 
 typedef struct stmt_list {
@@ -42,6 +47,11 @@ typedef struct stmt_list {
 } stmt_list;
 
 static void parse_lines(parser *p, stmt_list *out, ls_stmt *block);
+
+/* The words that start a statement other than a part's (a part statement
+ * starts with its kind word: any other word). */
+const char *const ls_statement_keywords[] = {"title", "let", "ground", "include", "block",
+                                             "use", "expect", "rule", "end", NULL};
 
 /* ---- small helpers ---------------------------------------------------- */
 
@@ -259,11 +269,25 @@ static bool enter(parser *p)
     return false;
 }
 
-static ls_expr *binary(parser *p, int op, ls_loc op_loc, ls_expr *a, ls_expr *b)
+/* The tree's code of a binary operator token (level_op admits only these). */
+static ls_binop binop_of(ls_tok k)
+{
+    switch (k) {
+    case T_PLUS: return LS_OP_ADD;
+    case T_MINUS: return LS_OP_SUB;
+    case T_STAR: return LS_OP_MUL;
+    case T_SLASH: return LS_OP_DIV;
+    case T_CARET: return LS_OP_POW;
+    default: assert(k == T_PARALLEL); return LS_OP_PAR;
+    }
+}
+
+/* A new E_BIN node a OP b, op a token; NULL when out of memory. */
+static ls_expr *binary(parser *p, ls_tok op, ls_loc op_loc, ls_expr *a, ls_expr *b)
 {
     ls_expr *e = new_expr(p, E_BIN, span(a->loc, b->loc));
     if (e) {
-        e->op = op;
+        e->op = (unsigned char)binop_of(op);
         e->op_loc = op_loc;
         e->a = a;
         e->b = b;
@@ -342,7 +366,7 @@ static ls_expr *parse_level(parser *p, int level)
             a = NULL;
             break;
         }
-        int op = p->tok.kind;
+        ls_tok op = p->tok.kind;
         ls_loc l = p->tok.loc;
         advance(p);
         ls_expr *b = parse_level(p, level + 1);
@@ -479,14 +503,40 @@ static bool parse_options(parser *p, ls_stmt *s, bool allow_empty, bool with_val
     return true;
 }
 
+/* The kind word of a part statement, in the arena: the string of an earlier
+ * part statement with the same word (the last one's first: most lines repeat
+ * it), so a large circuit keeps one copy of each kind word (past
+ * LS_KIND_WORDS distinct words, a copy each).  NULL when out of memory. */
+static const char *kind_word(parser *p, const ls_token *t)
+{
+    for (int k = -1; k < p->nkinds; k++) {
+        int i = k < 0 ? p->last_kind : k;
+        if (i >= p->nkinds)
+            continue; /* none yet */
+        if (t->len == p->kinds[i].len && memcmp(t->text, p->kinds[i].w, t->len) == 0) {
+            p->last_kind = i;
+            return p->kinds[i].w;
+        }
+    }
+    const char *w = tok_str(p, t);
+    if (w && p->nkinds < LS_KIND_WORDS) {
+        p->kinds[p->nkinds].w = w;
+        p->kinds[p->nkinds].len = t->len;
+        p->last_kind = p->nkinds++;
+    }
+    return w;
+}
+
 /* part -> KIND NAME [FROM '->' TO] [VALUE] {OPTION}
- * The keyword is the part table's own string (k->name), not a copy. */
-static ls_stmt *parse_part(parser *p, const ls_kind *k)
+ * The grammar alone decides: any word that is not a statement keyword starts
+ * a part statement, and the elaborator asks the part table whether KIND is a
+ * kind.  Returns the statement, or NULL after a syntax error in the words
+ * after KIND (reported) or when out of memory. */
+static ls_stmt *parse_part(parser *p)
 {
     ls_stmt *s = new_stmt(p, S_PART);
-    if (!s)
+    if (!s || !(s->kw = kind_word(p, &p->tok)))
         return NULL;
-    s->kw = k->name;
     advance(p);
     if (!expect_ident(p, "a part name", &s->name, &s->name_loc))
         return NULL;
@@ -678,18 +728,19 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
 static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
 static int add_source(ls_diags *d, const char *name, const char *text, size_t len);
 
-/* The part kind a name token names, or NULL.  The kind of the previous part
- * statement is tried first: in a large circuit most lines repeat it. */
-static const ls_kind *find_kind(parser *p, const ls_token *t)
+/* After a part statement whose words after KIND did not parse: keep its
+ * kind word alone (S_BADPART), so the elaborator can say when the word is no
+ * part kind at all, as it does for a whole statement. */
+static void broken_part(parser *p, stmt_list *out, const ls_token *kw)
 {
-    if (p->last_kind && t->len == p->last_kind_len && memcmp(t->text, p->last_kind->name, t->len) == 0)
-        return p->last_kind;
-    const ls_kind *k = ls_kind_findn(t->text, t->len);
-    if (k) {
-        p->last_kind = k;
-        p->last_kind_len = t->len;
-    }
-    return k;
+    ls_stmt *s = ls_arena_alloc(p->sa, sizeof *s);
+    if (!s)
+        return; /* the arena is marked failed: the elaborator says out of memory */
+    s->kind = S_BADPART;
+    s->loc = s->text_loc = kw->loc;
+    s->kw = kind_word(p, kw);
+    if (s->kw)
+        push(p, out, s);
 }
 
 /* statement -> title | let | ground | include | block | use | expect | rule | part */
@@ -697,7 +748,6 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
 {
     ls_token kw = p->tok;
     ls_stmt *s = NULL;
-    const ls_kind *k;
     if (kw.kind != T_IDENT) {
         expected(p, "a statement (a part kind or a keyword)");
         skip_line(p);
@@ -772,16 +822,14 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
     } else if (is_word(&kw, "end")) {
         ls_error(p->d, kw.loc, "'end' without a 'block' to close");
         advance(p);
-    } else if ((k = find_kind(p, &kw))) {
-        s = parse_part(p, k);
     } else {
-        char name[64];
-        snprintf(name, sizeof name, "%.*s", (int)(kw.len < 60 ? kw.len : 60), kw.text);
-        const char *near = ls_kind_suggest(name);
-        if (near)
-            ls_error(p->d, kw.loc, "unknown part kind or keyword '%s'; did you mean '%s'?", name, near);
-        else
-            ls_error(p->d, kw.loc, "unknown part kind or keyword '%s'", name);
+        s = parse_part(p);
+        if (!s || !end_of_statement(p)) {
+            /* Its syntax error is reported; the elaborator still hears of its
+             * kind word, so an unknown one is named too. */
+            broken_part(p, out, &kw);
+            s = NULL;
+        }
     }
     if (s && end_of_statement(p)) {
         s->text_loc = (ls_loc){kw.loc.file, kw.loc.start, p->tok.loc.start};
@@ -821,6 +869,30 @@ static void parse_lines(parser *p, stmt_list *out, ls_stmt *block)
         }
         parse_statement(p, out, block);
     }
+}
+
+/* ---- settings from outside the file ------------------------------------------------- */
+
+int ls_parse_setting(ls_diags *d, const char *text, ls_setting *out)
+{
+    const char *eq = text ? strchr(text, '=') : NULL;
+    if (!eq || eq == text) {
+        ls_error(d, LS_NOLOC, "a setting takes NAME=VALUE, got '%s'", text ? text : "(null)");
+        return -1;
+    }
+    size_t nlen = (size_t)(eq - text), len = strlen(text);
+    out->name = ls_arena_strndup(d->arena, text, nlen);
+    int id = ls_sources_add(d, "--set", text, (unsigned)len);
+    if (id < 0) {
+        ls_error(d, LS_NOLOC, "out of memory reading --set '%s' (%zu bytes)", text, len + 1);
+        return -1;
+    }
+    if (ls_sources_check_utf8(d, id) > 0)
+        return -1;
+    out->value = ls_parse_expr_at(d, id, (unsigned)nlen + 1, false);
+    out->loc = (ls_loc){id, 0, (unsigned)nlen};
+    out->used = false;
+    return out->name && out->value ? 0 : -1;
 }
 
 /* ---- files and includes ------------------------------------------------- */

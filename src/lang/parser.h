@@ -13,6 +13,11 @@
 #define LS_MAX_BLOCK_PINS 256  /* pins of one block */
 #define LS_MAX_USE_OPTIONS (LS_MAX_BLOCK_PINS + LS_MAX_OPTIONS) /* a use: every pin, and params */
 
+/* The language's statement keywords, NULL-terminated: any other first word of
+ * a statement is a part kind's (which kinds exist is the part table's, asked
+ * by the elaborator).  For "did you mean" over kinds and keywords together. */
+extern const char *const ls_statement_keywords[];
+
 /* Parse the file at path into *prog (allocated in the diagnostics' arena).
  * Returns the number of errors reported (0 on success). */
 int ls_parse_file(ls_diags *d, const char *path, ls_program *prog);
@@ -31,6 +36,21 @@ ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, b
 
 /* The same for an expression starting at byte `offset` of a registered file. */
 ls_expr *ls_parse_expr_at(ls_diags *d, int file, unsigned offset, bool in_expect);
+
+/* A top-level let's value given from outside the file: NAME=VALUE of the
+ * program's --set, of the library's settings (ls_circuit_read). */
+typedef struct ls_setting {
+    const char *name;      /* the let's name (in the diagnostics' arena) */
+    ls_expr *value;        /* parsed from the VALUE text */
+    ls_loc loc;            /* the NAME, in the "--set" pseudo-file */
+    bool used;             /* the elaborator found the let */
+} ls_setting;
+
+/* Parse one "NAME=VALUE" into *out: the whole text becomes a source named
+ * "--set" (so an error in VALUE points at its column there), checked as
+ * UTF-8, and VALUE is parsed as an expression.  Returns 0, or -1 after
+ * reporting an error (no '=' or no name, bad text, out of memory). */
+int ls_parse_setting(ls_diags *d, const char *text, ls_setting *out);
 
 /* Read a whole file; NULL (errno set) on failure.  Caller frees. */
 char *ls_read_file(const char *path, size_t *len);

@@ -95,7 +95,7 @@ typedef struct ls_q {
     double value;          /* Q_CONST */
     int index;             /* Q_NODE: node; Q_PROP: part */
     ls_prop prop;          /* Q_PROP */
-    int op;                /* Q_BIN: ls_tok; Q_CALL: ls_func */
+    int op;                /* Q_BIN: ls_binop; Q_CALL: ls_func */
     struct ls_q *a, *b;
     struct ls_q **args;
     int nargs;

@@ -1042,56 +1042,56 @@ bool ls_testsink_update(const ls_part *p, ls_run *run, const double *x);
 #endif
 
 static const ls_kind kinds[] = {
-    {.name = "resistor", .shape = SHAPE_TWO, .doc = "resistor FROM -> TO VALUE [rating=W vmax=V]",
+    {.name = "resistor", .exact = LS_EXACT_RESISTOR, .shape = SHAPE_TWO, .doc = "resistor FROM -> TO VALUE [rating=W vmax=V]",
      .value_slot = true, .value_dims = LS_OHM, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE,
      .vsign = VSIGN_DROP, .opts = {COMMON_OPTS, {"snap", OPT_WORD, LS_FREE, 0, -1, "E6|E12|E24|E48|E96|E192"},
                                    {"vmax", OPT_VALUE, LS_VOLT, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2,
      .branches = no_branch, .stamp = resistor_stamp, .current = resistor_current, .edges = two_edge,
      .monotone = resistor_monotone},
-    {.name = "voltage", .has_run = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SOURCE, .removal = LS_REMOVE_SHORT, .doc = "voltage FROM -> TO VALUE [rint=R]  (V(TO) - V(FROM) = VALUE)",
+    {.name = "voltage", .exact = LS_EXACT_VSOURCE, .has_run = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SOURCE, .removal = LS_REMOVE_SHORT, .doc = "voltage FROM -> TO VALUE [rint=R]  (V(TO) - V(FROM) = VALUE)",
      .value_slot = true, .value_dims = LS_VOLT, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"rint", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL}}, .nopts = NCOMMON + 1,
      .renamed = {{"rs", "rint"}},
      .npins = 2, .branches = one_branch, .stamp = vsource_stamp, .current = current_branch,
      .edges = vsource_edges, .monotone = vsource_monotone},
-    {.name = "current", .has_run = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SENSOR, .doc = "current FROM -> TO VALUE  (VALUE flows FROM -> TO through it)",
+    {.name = "current", .exact = LS_EXACT_ISOURCE, .has_run = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SENSOR, .doc = "current FROM -> TO VALUE  (VALUE flows FROM -> TO through it)",
      .value_slot = true, .value_dims = LS_AMP, .value_flags = OPTF_REQUIRED, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS}, .nopts = NCOMMON, .npins = 2, .branches = no_branch,
      .stamp = isource_stamp, .current = isource_current, .edges = no_edges, .monotone = isource_monotone},
-    {.name = "port", .shape = SHAPE_TWO, .doc = "port DRIVER -> LOAD [mode=voltage|current budget=V|%|LSB]",
+    {.name = "port", .exact = LS_EXACT_PORT, .shape = SHAPE_TWO, .doc = "port DRIVER -> LOAD [mode=voltage|current budget=V|%|LSB]",
      .vsign = VSIGN_DROP, .is_port = true,
      .opts = {COMMON_OPTS, {"mode", OPT_WORD, LS_FREE, 0, -1, "voltage|current"},
               {"budget", OPT_VALUE, LS_VOLT, OPTF_BUDGET, -1, NULL}}, .nopts = NCOMMON + 2,
      .npins = 2, .branches = one_branch, .stamp = port_stamp, .current = current_branch,
      .edges = vdef_edges},
-    {.name = "vcvs", .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "vcvs FROM -> TO gain=G cplus=A cminus=B",
+    {.name = "vcvs", .exact = LS_EXACT_VCVS, .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "vcvs FROM -> TO gain=G cplus=A cminus=B",
      .value_slot = true, .value_dims = LS_FREE, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"gain", OPT_VALUE, LS_FREE, OPTF_MAIN | OPTF_REQUIRED, -1, NULL},
               {"cplus", OPT_NODE, LS_FREE, OPTF_REQUIRED, 2, NULL},
               {"cminus", OPT_NODE, LS_FREE, OPTF_REQUIRED, 3, NULL}},
      .nopts = NCOMMON + 3, .npins = 4, .branches = one_branch, .stamp = vcvs_stamp,
      .current = current_branch, .edges = vdef_edges},
-    {.name = "vccs", .shape = SHAPE_TWO, .doc = "vccs FROM -> TO gm=G cplus=A cminus=B",
+    {.name = "vccs", .exact = LS_EXACT_VCCS, .shape = SHAPE_TWO, .doc = "vccs FROM -> TO gm=G cplus=A cminus=B",
      .value_slot = true, .value_dims = LS_SIEMENS, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"gm", OPT_VALUE, LS_SIEMENS, OPTF_MAIN | OPTF_REQUIRED, -1, NULL},
               {"cplus", OPT_NODE, LS_FREE, OPTF_REQUIRED, 2, NULL},
               {"cminus", OPT_NODE, LS_FREE, OPTF_REQUIRED, 3, NULL}},
      .nopts = NCOMMON + 3, .npins = 4, .branches = no_branch, .stamp = vccs_stamp,
      .current = vccs_current, .edges = no_edges},
-    {.name = "cccs", .shape = SHAPE_TWO, .doc = "cccs FROM -> TO gain=G via=PART",
+    {.name = "cccs", .exact = LS_EXACT_CCCS, .shape = SHAPE_TWO, .doc = "cccs FROM -> TO gain=G via=PART",
      .value_slot = true, .value_dims = LS_FREE, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"gain", OPT_VALUE, LS_FREE, OPTF_MAIN | OPTF_REQUIRED, -1, NULL},
               {"via", OPT_PART, LS_FREE, OPTF_REQUIRED, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2, .branches = no_branch, .stamp = cccs_stamp,
      .current = cccs_current, .edges = no_edges},
-    {.name = "ccvs", .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "ccvs FROM -> TO rm=R via=PART",
+    {.name = "ccvs", .exact = LS_EXACT_CCVS, .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "ccvs FROM -> TO rm=R via=PART",
      .value_slot = true, .value_dims = LS_OHM, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"rm", OPT_VALUE, LS_OHM, OPTF_MAIN | OPTF_REQUIRED, -1, NULL},
               {"via", OPT_PART, LS_FREE, OPTF_REQUIRED, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2, .branches = one_branch, .stamp = ccvs_stamp,
      .current = current_branch, .edges = vdef_edges},
-    {.name = "opamp", .has_run = true, .shape = SHAPE_PINNED, .stage_role = LS_ROLE_OPAMP,
+    {.name = "opamp", .exact = LS_EXACT_OPAMP, .has_run = true, .shape = SHAPE_PINNED, .stage_role = LS_ROLE_OPAMP,
      .doc = "opamp plus=A minus=B out=Y [gain=G rin=R rout=R rails=LO..HI headroom=V imax=A cm=LO..HI vos=V ib=A "
             "ios=A iq=A]",
      .vsign = VSIGN_OUT, .is_opamp = true,
@@ -1161,14 +1161,14 @@ static const ls_kind kinds[] = {
      .nopts = NCOMMON + 4, .npins = 2, .branches = no_branch, .stamp = ntc_stamp, .current = ntc_current,
      .edges = two_edge, .renamed = {{"temp", "celsius"}},
      .is_nonlinear = ntc_nonlinear, .init = ntc_init, .update = ntc_update},
-    {.name = "switch", .shape = SHAPE_TWO, .doc = "switch FROM -> TO state=open|closed|LET [ron=R roff=R]",
+    {.name = "switch", .exact = LS_EXACT_SWITCH, .shape = SHAPE_TWO, .doc = "switch FROM -> TO state=open|closed|LET [ron=R roff=R]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"state", OPT_WORD, LS_FREE, OPTF_REQUIRED, -1, "open|closed"},
               {"ron", OPT_VALUE, LS_OHM, OPTF_NONNEG, -1, NULL},
               {"roff", OPT_VALUE, LS_OHM, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 3, .npins = 2, .branches = one_branch, .stamp = switch_stamp,
      .current = current_branch, .edges = switch_edges},
-    {.name = "adc", .has_run = true, .shape = SHAPE_PINNED, .stage_role = LS_ROLE_ADC,
+    {.name = "adc", .exact = LS_EXACT_ADC, .has_run = true, .shape = SHAPE_PINNED, .stage_role = LS_ROLE_ADC,
      .doc = "adc NAME in=NODE ref=V bits=N [rin=R leak=A max_source=R]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"in", OPT_NODE, LS_FREE, OPTF_REQUIRED, 0, NULL},
@@ -1191,9 +1191,6 @@ static const ls_kind kinds[] = {
      .is_nonlinear = ls_testsink_nonlinear, .init = ls_testsink_init, .update = ls_testsink_update},
 #endif
 };
-
-static const char *const keywords[] = {"title", "let", "ground", "include", "block",
-                                       "use", "expect", "rule", "end"};
 
 int ls_kind_count(void) { return (int)(sizeof kinds / sizeof kinds[0]); }
 const ls_kind *ls_kind_at(int i)
@@ -1259,27 +1256,6 @@ int ls_edit_distance(const char *a, const char *b)
         }
     }
     return row[lb];
-}
-
-const char *ls_kind_suggest(const char *name)
-{
-    const char *best = NULL;
-    int bd = 3;
-    for (int i = 0; i < ls_kind_count(); i++) {
-        int d = ls_edit_distance(name, kinds[i].name);
-        if (d < bd) {
-            bd = d;
-            best = kinds[i].name;
-        }
-    }
-    for (size_t i = 0; i < sizeof keywords / sizeof keywords[0]; i++) {
-        int d = ls_edit_distance(name, keywords[i]);
-        if (d < bd) {
-            bd = d;
-            best = keywords[i];
-        }
-    }
-    return best;
 }
 
 void ls_part_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative)

@@ -109,6 +109,25 @@ typedef enum ls_stage_role {
     LS_ROLE_ADC           /* a converter input */
 } ls_stage_role;
 
+/* How `formula` stamps a kind exactly, its value a symbol (the rows are
+ * those of its numeric stamp; src/analysis/formula.c).  LS_EXACT_NONE: the
+ * kind enters through its numeric stamp at the operating point, which is
+ * always right and reported as "taken as numbers". */
+typedef enum ls_exact {
+    LS_EXACT_NONE = 0,
+    LS_EXACT_RESISTOR,    /* conductance 1/VALUE; VALUE a symbol */
+    LS_EXACT_VSOURCE,     /* a branch V(TO) - V(FROM) = VALUE, with rint=; VALUE a symbol */
+    LS_EXACT_ISOURCE,     /* VALUE from FROM to TO; VALUE a symbol */
+    LS_EXACT_PORT,        /* a zero-volt branch, or opened (no value) */
+    LS_EXACT_VCVS,        /* gain= a symbol */
+    LS_EXACT_VCCS,        /* gm= a symbol */
+    LS_EXACT_CCCS,        /* gain= a symbol, through via='s current */
+    LS_EXACT_CCVS,        /* rm= a symbol, through via='s current */
+    LS_EXACT_OPAMP,       /* exact only while no limit is in force; gain= a symbol when given */
+    LS_EXACT_SWITCH,      /* ron=/roff= as numbers (no value) */
+    LS_EXACT_ADC          /* rin= and leak= as numbers (no value) */
+} ls_exact;
+
 typedef struct ls_kind {
     const char *name;
     ls_shape shape;
@@ -122,6 +141,7 @@ typedef struct ls_kind {
     bool has_run;                /* keeps analysis state in a run (ls_run_state): sources, op-amps, junctions, ... */
     ls_removal removal;          /* how it is removed (sag, ports, what-if) */
     ls_stage_role stage_role;    /* its role in a stage of `chain` */
+    ls_exact exact;              /* how `formula` stamps it exactly (LS_EXACT_NONE: as numbers) */
     bool is_junction;            /* iterates as a pn junction (ls_junction_current/_v): the iteration's
                                     polishing, its past-the-model check and sag's on/off limits */
     ls_optdef opts[LS_MAX_OPTS];
@@ -155,8 +175,6 @@ typedef struct ls_kind {
 
 const ls_kind *ls_kind_find(const char *name);
 const ls_kind *ls_kind_findn(const char *name, size_t n);
-/* Closest kind or keyword name for a misspelling, or NULL. */
-const char *ls_kind_suggest(const char *name);
 int ls_kind_count(void);
 const ls_kind *ls_kind_at(int i);
 /* Unit of a kind's main value: its OPTF_MAIN option's, else the value slot's. */

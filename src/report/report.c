@@ -8,7 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/fmt.h"
 #include "analysis/newton.h"
 #include "base/numfmt.h"

@@ -17,7 +17,7 @@
 #include <time.h>
 
 #include "analysis/analysis.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "lang/parser.h"
 
 /* Seconds on the monotonic clock. */

@@ -14,7 +14,7 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "lang/parser.h"
 #include "report/report.h"
 
@@ -40,25 +40,14 @@ static bool leading_set(const char **text, size_t *len, char **set)
     return true;
 }
 
-/* Parse the --set text as ls_session_load does (the whole NAME=VALUE is the
- * "--set" pseudo-file); returns the number of settings made (0 or 1), -1 when
- * there is no '=' or the value does not parse. */
+/* Parse the --set text as ls_session_load does (ls_parse_setting); returns
+ * the number of settings made (0 or 1), -1 when there is no '=' or the value
+ * does not parse. */
 static int make_setting(ls_diags *d, const char *set, ls_setting *out)
 {
     if (!set)
         return 0;
-    const char *eq = strchr(set, '=');
-    if (!eq)
-        return -1;
-    size_t nlen = (size_t)(eq - set);
-    int id = ls_sources_add(d, "--set", set, (unsigned)strlen(set));
-    if (id < 0)
-        return -1;
-    out->name = ls_arena_strndup(d->arena, set, nlen);
-    out->value = ls_parse_expr_at(d, id, (unsigned)nlen + 1, false);
-    out->loc = (ls_loc){id, 0, (unsigned)nlen};
-    out->used = false;
-    return out->value && out->name ? 1 : -1;
+    return ls_parse_setting(d, set, out) == 0 ? 1 : -1;
 }
 
 /* Solve and exercise every result reader on a circuit that elaborated. */

@@ -26,7 +26,7 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "lang/parser.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);

@@ -11,7 +11,7 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "lang/parser.h"
 
 typedef struct world {

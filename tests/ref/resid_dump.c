@@ -22,7 +22,7 @@
  * Exit 0, or 2 when the circuit does not load or solve. */
 #include "analysis/accuracy.h"
 #include "analysis/analysis.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "mna/mna.h"
 #include "lang/parser.h"
 

@@ -12,7 +12,7 @@
  * counts them), and the others must have fallen back to a full assembly.
  * Prints one line per circuit; exit 0 when all agree, 1 on a mismatch, 2 on
  * bad usage or a circuit that does not load. */
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "mna/mna.h"
 #include "lang/parser.h"
 

@@ -9,7 +9,7 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "lang/parser.h"
 #include "analysis/selfcheck.h"
 

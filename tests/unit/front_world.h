@@ -6,7 +6,7 @@
 #include <string.h>
 
 #include "lang/parser.h"
-#include "netlist/elab.h"
+#include "elab/elab.h"
 
 /* Parses and elaborates text as the file "t.stack" into *nl, with *a and *d
  * initialized here; returns the number of errors.  Free with

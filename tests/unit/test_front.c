@@ -12,6 +12,7 @@
 
 #include "lang/lexer.h"
 #include "lang/parser.h"
+#include "elab/elab.h"
 
 static uint64_t next64(uint64_t *s) /* splitmix64 (Steele, Lea, Flood, OOPSLA 2014) */
 {
@@ -252,7 +253,7 @@ static void test_tree_fields(void)
 
     const ls_expr *k = s[2]->value; /* max(1, 2, 3) * -vref */
     CU_ASSERT_EQUAL_FATAL(k->kind, E_BIN);
-    CU_ASSERT_EQUAL(k->op, T_STAR);
+    CU_ASSERT_EQUAL(k->op, LS_OP_MUL);
     CU_ASSERT(loc_is(k->op_loc, at("let k", "*", 0), 1));
     CU_ASSERT_EQUAL_FATAL(k->a->kind, E_CALL);
     CU_ASSERT_EQUAL(k->a->op, F_MAX);
@@ -416,6 +417,125 @@ static void test_arena_mark_release(void)
     ls_arena_free(&a);
 }
 
+/* The message of diagnostic i, and its line and column through *line, *col. */
+static const char *diag_at(const ls_diags *d, int i, int *line, int *col)
+{
+    ls_loc_linecol(d, d->items[i].loc.file, d->items[i].loc.start, line, col);
+    return d->items[i].msg;
+}
+
+/* Part statements by shape: the parser takes any first word that is not a
+ * statement keyword as a kind word (one shared string per word), and the
+ * elaborator names the words that are no part kind, in the order of the text
+ * and after the syntax errors (docs/language.md "What bad input gets"), a
+ * block body and a statement whose tail did not parse included. */
+static void test_kind_words_by_shape(void)
+{
+    static const char text[] = "ground g\n"                       /* 1 */
+                               "R1 a b 1k\n"                      /* 2: two nodes without '->' */
+                               "block f x\n"                      /* 3 */
+                               "  resistr r1 x -> ground 1k\n"    /* 4 */
+                               "end\n"                            /* 5 */
+                               "flux f1 g -> a 1\n"               /* 6 */
+                               "resistor r2 a -> g 1k\n"          /* 7 */
+                               "resistor r3 a -> g 1k\n";         /* 8 */
+    ls_arena a;
+    ls_diags d;
+    ls_program prog;
+    ls_netlist nl;
+    memset(&nl, 0, sizeof nl);
+    ls_arena_init(&a);
+    ls_diags_init(&d, &a);
+    CU_ASSERT_EQUAL(ls_parse_string(&d, "t.stack", text, strlen(text), &prog), 1);
+    CU_ASSERT_EQUAL_FATAL(prog.n, 6);
+    CU_ASSERT_EQUAL(prog.stmts[1]->kind, S_BADPART);
+    CU_ASSERT_STRING_EQUAL(prog.stmts[1]->kw, "R1");
+    CU_ASSERT_EQUAL(prog.stmts[3]->kind, S_PART);
+    CU_ASSERT_STRING_EQUAL(prog.stmts[3]->kw, "flux");
+    CU_ASSERT_PTR_EQUAL(prog.stmts[4]->kw, prog.stmts[5]->kw);   /* one copy of "resistor" */
+    CU_ASSERT_EQUAL(ls_elaborate(&prog, &d, NULL, 0, &nl), 3);
+    CU_ASSERT_EQUAL_FATAL(d.n, 4);
+    int line, col;
+    const char *m = diag_at(&d, 0, &line, &col);
+    CU_ASSERT(line == 2 && col == 6 && strstr(m, "'->' expected") != NULL);
+    m = diag_at(&d, 1, &line, &col);
+    CU_ASSERT(line == 2 && col == 1);
+    CU_ASSERT_STRING_EQUAL(m, "unknown part kind or keyword 'R1'");
+    m = diag_at(&d, 2, &line, &col);
+    CU_ASSERT(line == 4 && col == 3);
+    CU_ASSERT_STRING_EQUAL(m, "unknown part kind or keyword 'resistr'; did you mean 'resistor'?");
+    m = diag_at(&d, 3, &line, &col);
+    CU_ASSERT(line == 6 && col == 1);
+    CU_ASSERT_STRING_EQUAL(m, "unknown part kind or keyword 'flux'");
+    ls_netlist_free(&nl);
+    ls_diags_free(&d);
+    ls_arena_free(&a);
+}
+
+/* Value of text through the one constant evaluator, NaN after an error; its
+ * unit in *dims. */
+static double const_value(const char *text, ls_dims *dims)
+{
+    ls_arena a;
+    ls_diags d;
+    ls_arena_init(&a);
+    ls_diags_init(&d, &a);
+    ls_expr *e = ls_parse_expr_string(&d, "arg", text, false);
+    double v;
+    bool ok = e && ls_eval_const(&d, e, NULL, NULL, &v, dims);
+    ls_diags_free(&d);
+    ls_arena_free(&a);
+    return ok ? v : NAN;
+}
+
+/* Constant expressions follow the language's rules (docs/language.md "Values
+ * and expressions"): IEC 60062 letter-and-digit codes (4k7 = 4700), a || b =
+ * a b / (a + b), functions, a unit that cancels is a plain number, and two
+ * different units never add. */
+static void test_constant_evaluator(void)
+{
+    ls_dims dims;
+    CU_ASSERT_DOUBLE_EQUAL(const_value("4k7 * 2", &dims), 9400, 1e-9);
+    CU_ASSERT(!dims.known);
+    CU_ASSERT_DOUBLE_EQUAL(const_value("10k || 10k", &dims), 5000, 1e-9);
+    CU_ASSERT_DOUBLE_EQUAL(const_value("sqrt(16) * 1 kohm", &dims), 4000, 1e-9);
+    CU_ASSERT(dims.known && ls_dims_eq(dims, LS_OHM));
+    CU_ASSERT_DOUBLE_EQUAL(const_value("10 V / 2 V", &dims), 5, 1e-12);
+    CU_ASSERT(!dims.known);
+    CU_ASSERT(isnan(const_value("1 V + 1 mA", &dims)));
+    CU_ASSERT(isnan(const_value("1 / 0", &dims)));
+    CU_ASSERT(isnan(const_value("x + 1", &dims)));
+}
+
+/* NAME=VALUE settings: the whole text is the "--set" source, an error in the
+ * value points at its column there, and a text without a name is refused. */
+static void test_settings(void)
+{
+    ls_arena a;
+    ls_diags d;
+    ls_arena_init(&a);
+    ls_diags_init(&d, &a);
+    ls_setting st;
+    CU_ASSERT_EQUAL(ls_parse_setting(&d, "vref=2.5 V", &st), 0);
+    CU_ASSERT_STRING_EQUAL(st.name, "vref");
+    CU_ASSERT_FATAL(st.value != NULL);
+    CU_ASSERT_DOUBLE_EQUAL(st.value->num, 2.5, 0);
+    CU_ASSERT_EQUAL(st.loc.start, 0);
+    CU_ASSERT_EQUAL(st.loc.end, 4);
+    CU_ASSERT_EQUAL(d.errors, 0);
+    CU_ASSERT_EQUAL(ls_parse_setting(&d, "vref=5 +", &st), -1);
+    CU_ASSERT_EQUAL_FATAL(d.n, 1);
+    int line, col;
+    diag_at(&d, 0, &line, &col);
+    CU_ASSERT(line == 1 && col == 9);
+    CU_ASSERT_STRING_EQUAL(d.files[d.items[0].loc.file].path, "--set");
+    CU_ASSERT_EQUAL(ls_parse_setting(&d, "=5", &st), -1);
+    CU_ASSERT_EQUAL(ls_parse_setting(&d, "vref", &st), -1);
+    CU_ASSERT_EQUAL(d.errors, 3);
+    ls_diags_free(&d);
+    ls_arena_free(&a);
+}
+
 int main(void)
 {
     static const ls_cu_case cases[] = {
@@ -427,6 +547,9 @@ int main(void)
         {"numbers as strtod reads them", test_numbers_match_strtod},
         {"tree fields of every statement kind", test_tree_fields},
         {"many statements with an include", test_many_statements_with_include},
+        {"part statements by shape, kinds named by the elaborator", test_kind_words_by_shape},
+        {"the one constant evaluator", test_constant_evaluator},
+        {"NAME=VALUE settings", test_settings},
     };
     return ls_cu_run("front", NULL, NULL, cases, LS_CU_COUNT(cases));
 }

@@ -1,7 +1,7 @@
 /* elab.c — elaboration: expand blocks, resolve names, check units, evaluate
  * values and bind the checks.  Errors are collected; elaboration goes on past
  * them so one run reports as much as it can. */
-#include "netlist/elab.h"
+#include "elab/elab.h"
 #include "base/unionfind.h"
 
 #include <assert.h>
@@ -11,7 +11,7 @@
 #include <string.h>
 
 #include "base/eseries.h"
-#include "lang/lexer.h"
+#include "lang/parser.h"
 #include "parts/parts.h"
 
 typedef struct scope {
@@ -36,6 +36,10 @@ typedef struct elab {
     bool nodes_capped, parts_capped;  /* LS_MAX_NODES / LS_MAX_PARTS reported */
     bool oom;                         /* out of memory reported */
     bool allow_lsb;                   /* evaluating a port's budget=: LSB is a unit here */
+    ls_name_value names;              /* ls_eval_const: how names get values (NULL: lets and params) */
+    void *names_ctx;
+    const char *last_kw;              /* the kind word last looked up (the parser shares one string */
+    const ls_kind *last_kind;         /* per word on consecutive lines) and its kind, or NULL */
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -99,35 +103,6 @@ static inline bool grow_x(elab *x, void **v, int *cap, int need, size_t elem)
         c *= 2;
     out_of_memory_n(x, c * elem);
     return false;
-}
-
-void ls_netlist_free(ls_netlist *nl)
-{
-    free(nl->nodes);
-    free(nl->parts);
-    free(nl->checks);
-    free(nl->budgets);
-    free(nl->frees);
-    free(nl->params);
-    free(nl->ents);
-    ls_hash_free(&nl->names);
-    memset(nl, 0, sizeof *nl);
-}
-
-int ls_netlist_find_part(const ls_netlist *nl, const char *name)
-{
-    int e = ls_hash_get(&nl->names, name);
-    return e >= 0 && nl->ents[e].kind == ENT_PART ? nl->ents[e].index : -1;
-}
-
-int ls_netlist_find_node(const ls_netlist *nl, const char *name)
-{
-    int e = ls_hash_get(&nl->names, name);
-    if (e < 0)
-        return -1;
-    if (nl->ents[e].kind == ENT_NODE || nl->ents[e].kind == ENT_ALIAS)
-        return nl->ents[e].index;
-    return -1;
 }
 
 /* ---- names ----------------------------------------------------------------------- */
@@ -325,24 +300,24 @@ static bool combine(elab *x, int op, ls_loc at, ls_dims a, ls_dims b, const ls_e
 {
     char b1[64], b2[64];
     switch (op) {
-    case T_PLUS:
-    case T_MINUS:
-    case T_PARALLEL:
+    case LS_OP_ADD:
+    case LS_OP_SUB:
+    case LS_OP_PAR:
         if (a.known && b.known && (a.v != b.v || a.a != b.a)) {
             ls_error(x->d, at, "cannot %s %s and %s",
-                     op == T_PLUS ? "add" : op == T_MINUS ? "subtract" : "put in parallel",
+                     op == LS_OP_ADD ? "add" : op == LS_OP_SUB ? "subtract" : "put in parallel",
                      dname(a, b1, sizeof b1), dname(b, b2, sizeof b2));
             return false;
         }
         *out = a.known ? a : b;
         return true;
-    case T_STAR:
+    case LS_OP_MUL:
         *out = norm((ls_dims){(signed char)(a.v + b.v), (signed char)(a.a + b.a), a.known || b.known});
         return true;
-    case T_SLASH:
+    case LS_OP_DIV:
         *out = norm((ls_dims){(signed char)(a.v - b.v), (signed char)(a.a - b.a), a.known || b.known});
         return true;
-    case T_CARET:
+    case LS_OP_POW:
         if (b.known) {
             ls_error(x->d, at, "an exponent must be a pure number, got %s", dname(b, b1, sizeof b1));
             return false;
@@ -381,7 +356,7 @@ static bool call_dims(elab *x, const ls_expr *e, const ls_dims *ad, ls_dims *out
     case F_MAX: {
         ls_dims d = ad[0];
         for (int i = 1; i < e->nargs; i++)
-            if (!combine(x, T_PLUS, e->args[i]->loc, d, ad[i], NULL, &d))
+            if (!combine(x, LS_OP_ADD, e->args[i]->loc, d, ad[i], NULL, &d))
                 return false;
         *out = d;
         return true;
@@ -414,12 +389,12 @@ static bool arity_ok(elab *x, const ls_expr *e)
 static double apply(int op, double a, double b)
 {
     switch (op) {
-    case T_PLUS: return a + b;
-    case T_MINUS: return a - b;
-    case T_STAR: return a * b;
-    case T_SLASH: return a / b;
-    case T_CARET: return pow(a, b);
-    case T_PARALLEL: return a * b / (a + b);
+    case LS_OP_ADD: return a + b;
+    case LS_OP_SUB: return a - b;
+    case LS_OP_MUL: return a * b;
+    case LS_OP_DIV: return a / b;
+    case LS_OP_POW: return pow(a, b);
+    case LS_OP_PAR: return a * b / (a + b);
     }
     return NAN;
 }
@@ -466,6 +441,8 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
         *d = e->dims;
         return lsb_allowed(x, e);
     case E_NAME: {
+        if (x->names)
+            return x->names(x->names_ctx, e, v, d) && isfinite(*v);
         const ls_param *p = param_ref(x, s, e->name);
         if (p) {
             *v = p->value;
@@ -497,7 +474,7 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
             return false;
         if (!combine(x, e->op, e->op_loc, da, db, e->b, d))
             return false;
-        if (e->op == T_SLASH && b == 0) {
+        if (e->op == LS_OP_DIV && b == 0) {
             ls_error(x->d, e->op_loc, "division by zero");
             return false;
         }
@@ -523,6 +500,30 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
         return false;
     }
     return true;
+}
+
+/* ls_eval_const without names: each one is an error. */
+static bool no_names(void *ctx, const ls_expr *e, double *v, ls_dims *d)
+{
+    ls_diags *diags = ctx;
+    (void)v;
+    (void)d;
+    ls_error(diags, e->loc, "unknown name '%s' (a number is expected here)", e->name);
+    return false;
+}
+
+bool ls_eval_const(ls_diags *d, const ls_expr *e, ls_name_value names, void *ctx, double *v, ls_dims *dims)
+{
+    elab x;
+    memset(&x, 0, sizeof x);
+    x.d = d;
+    x.a = d->arena;
+    x.names = names ? names : no_names;
+    x.names_ctx = names ? ctx : d;
+    scope top = {"", NULL, NULL, 0};
+    bool ok = eval(&x, &top, e, v, dims);
+    *dims = norm(*dims);
+    return ok;
 }
 
 /* Evaluate a value for a slot of dimension want; a free result takes it. */
@@ -930,16 +931,16 @@ static void add_check(elab *x, const scope *s, const ls_stmt *st)
     if (!c.lhs || !c.rhs || (st->rhs2 && !c.rhs2))
         return;
     ls_dims d;
-    if (!combine(x, T_MINUS, st->rhs->loc, c.lhs->dims, c.rhs->dims, NULL, &d))
+    if (!combine(x, LS_OP_SUB, st->rhs->loc, c.lhs->dims, c.rhs->dims, NULL, &d))
         return;
-    if (c.rhs2 && !combine(x, T_MINUS, st->rhs2->loc, d, c.rhs2->dims, NULL, &d))
+    if (c.rhs2 && !combine(x, LS_OP_SUB, st->rhs2->loc, d, c.rhs2->dims, NULL, &d))
         return;
     if (st->within) {
         if (!(c.within = bind(x, s, st->within)))
             return;
         if (!norm(c.within->dims).known) {
             c.relative = true;
-        } else if (!combine(x, T_MINUS, st->within->loc, d, c.within->dims, NULL, &d)) {
+        } else if (!combine(x, LS_OP_SUB, st->within->loc, d, c.within->dims, NULL, &d)) {
             return;
         }
     }
@@ -1030,12 +1031,12 @@ static bool range_end(elab *x, const scope *s, const ls_expr *e, ls_dims want, l
     out->volts = 0;
     if (e->kind == E_NAME && !param_ref(x, s, e->name)) {
         name = e;
-    } else if (e->kind == E_BIN && (e->op == T_PLUS || e->op == T_MINUS) && e->a->kind == E_NAME &&
+    } else if (e->kind == E_BIN && (e->op == LS_OP_ADD || e->op == LS_OP_SUB) && e->a->kind == E_NAME &&
                !param_ref(x, s, e->a->name)) {
         name = e->a;
         off = e->b;
-        sign = e->op == T_MINUS ? -1 : 1;
-    } else if (e->kind == E_BIN && e->op == T_PLUS && e->b->kind == E_NAME && !param_ref(x, s, e->b->name)) {
+        sign = e->op == LS_OP_SUB ? -1 : 1;
+    } else if (e->kind == E_BIN && e->op == LS_OP_ADD && e->b->kind == E_NAME && !param_ref(x, s, e->b->name)) {
         name = e->b;
         off = e->a;
     }
@@ -1160,11 +1161,70 @@ static void snap_value(elab *x, ls_part *p, int oi, ls_loc at)
     p->value = v;
 }
 
+/* The part kind a part statement's kind word names, or NULL.  The parser
+ * knows only the grammar; the table is asked here, the last answer first. */
+static const ls_kind *kind_of(elab *x, const char *kw)
+{
+    if (kw != x->last_kw || !x->last_kind) {
+        x->last_kw = kw;
+        x->last_kind = ls_kind_find(kw);
+    }
+    return x->last_kind;
+}
+
+/* The closest part kind or statement keyword to a word that is neither
+ * (within two edits), or NULL. */
+static const char *suggest_kind(const char *word)
+{
+    const char *best = NULL;
+    int bd = 3;
+    for (int i = 0; i < ls_kind_count(); i++) {
+        int d = ls_edit_distance(word, ls_kind_at(i)->name);
+        if (d < bd) {
+            bd = d;
+            best = ls_kind_at(i)->name;
+        }
+    }
+    for (const char *const *k = ls_statement_keywords; *k; k++) {
+        int d = ls_edit_distance(word, *k);
+        if (d < bd) {
+            bd = d;
+            best = *k;
+        }
+    }
+    return best;
+}
+
+/* An error for each part statement (broken ones too) whose kind word is no
+ * part kind, in the order of the text, block bodies included: first of the
+ * elaboration's errors, right after the syntax errors. */
+static void check_kinds(elab *x, ls_stmt *const *stmts, int n)
+{
+    for (int i = 0; i < n; i++) {
+        const ls_stmt *st = stmts[i];
+        if (st->kind == S_BLOCK) {
+            check_kinds(x, st->body, st->nbody);
+            continue;
+        }
+        if ((st->kind != S_PART && st->kind != S_BADPART) || kind_of(x, st->kw))
+            continue;
+        char name[64];
+        snprintf(name, sizeof name, "%.60s", st->kw);
+        const char *near = suggest_kind(name);
+        if (near)
+            ls_error(x->d, st->loc, "unknown part kind or keyword '%s'; did you mean '%s'?", name, near);
+        else
+            ls_error(x->d, st->loc, "unknown part kind or keyword '%s'", name);
+    }
+}
+
 /* part -> fill an ls_part from its statement */
 static void elab_part(elab *x, const scope *s, const ls_stmt *st)
 {
     ls_netlist *nl = x->nl;
-    const ls_kind *k = ls_kind_find(st->kw);
+    const ls_kind *k = kind_of(x, st->kw);
+    if (!k)
+        return; /* named by check_kinds */
     ls_part p;
     ls_loc snap_loc = LS_NOLOC;
     memset(&p, 0, sizeof p);
@@ -1961,6 +2021,7 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
     int e0 = d->errors;
     ls_hash_init(&x.blocks);
     ls_hash_init(&x.warned);
+    check_kinds(&x, prog->stmts, prog->n);
     collect_blocks(&x, prog);
     ground_and_title(&x, prog);
     scope top = {"", NULL, NULL, 0};

@@ -3,6 +3,7 @@
 #ifndef LS_ELAB_H
 #define LS_ELAB_H
 
+#include "lang/parser.h"
 #include "netlist/netlist.h"
 
 #define LS_MAX_BLOCK_DEPTH 32
@@ -11,13 +12,6 @@
 #define LS_MAX_NODES 4000000      /* after expansion */
 #define LS_MAX_PARTS 4000000      /* after expansion */
 #define LS_MAX_VIA_CHAIN 32       /* via= links followed from one source */
-
-typedef struct ls_setting {
-    const char *name;      /* param name */
-    ls_expr *value;        /* parsed from the --set text */
-    ls_loc loc;            /* in the "--set" pseudo-file */
-    bool used;
-} ls_setting;
 
 /* Elaborate prog into nl (which must be zeroed; its arena and diags are taken
  * from d).  Returns the number of errors. */
@@ -35,7 +29,17 @@ bool ls_prop_applies(const ls_part *p, ls_prop prop);
 /* The adc whose input is port's load node (the one with the smallest LSB), or -1. */
 int ls_port_adc(const ls_netlist *nl, int port);
 
-/* Arithmetic shared by every evaluator: a binary operator (an ls_tok) and the
+/* How ls_eval_const gives a name its value: true with *v (and its unit in
+ * *d, LS_FREE when it has none), or false after reporting why at e->loc. */
+typedef bool (*ls_name_value)(void *ctx, const ls_expr *e, double *v, ls_dims *d);
+/* The one evaluator of a constant expression (numbers with units, names,
+ * operators, functions) outside a circuit: the elaborator's own, with its
+ * unit rules and errors (into d), names valued by `names` (NULL: a name is an
+ * error).  True with the value in *v and its unit in *dims; false after an
+ * error (a unit mismatch, a division by zero, a non-finite result). */
+bool ls_eval_const(ls_diags *d, const ls_expr *e, ls_name_value names, void *ctx, double *v, ls_dims *dims);
+
+/* Arithmetic shared by every evaluator: a binary operator (an ls_binop) and the
  * built-in functions (an ls_func). */
 double ls_apply_op(int op, double a, double b);
 double ls_apply_func(int f, const double *v, int n);
