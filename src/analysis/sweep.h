@@ -21,6 +21,13 @@
  * exactly from and to. */
 void ls_sweep_points(double from, double to, int n, bool log_scale, double *x);
 
+/* Points are solved in chains of this many, each starting afresh: a chain's
+ * results (to the last bit, for a circuit that iterates) do not depend on the
+ * points before it, so loadstack-mpi hands whole chains to its processes and
+ * its report is identical to one process's.  A fresh solve every 8 points
+ * costs little beside the 7 that continue. */
+#define LS_SWEEP_CHAIN 8
+
 /* ls_sweeper_solve's answer when the point's values cannot be set without
  * elaborating again (the caller does that for this point). */
 #define LS_SWEEP_REELABORATE (-1)

@@ -24,13 +24,8 @@
 #include "cli/progress.h"
 
 #define MAX_QUANTITIES (LS_MAX_POS - 4)
-/* Continuation runs in chains of this many points, each starting with a
- * fresh solve: a chain's results (to the last bit, for a circuit that
- * iterates) do not depend on the points before it, so loadstack-mpi hands
- * whole chains to its processes and its report is identical to one
- * process's.  A fresh solve every 8 points costs little beside the 7 that
- * continue. */
-#define SWEEP_CHAIN 8
+/* chains of points, each starting afresh (analysis/sweep.h) */
+#define SWEEP_CHAIN LS_SWEEP_CHAIN
 
 typedef struct sweep {
     ls_cli *cli;

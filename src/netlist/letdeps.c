@@ -7,12 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "lang/lexer.h"
-#include "netlist/elab.h"
 
-/* Deepest program the replay evaluates; the elaborator records deeper ones
- * as structural (ls_letdeps_end), so a replay never runs out of stack. */
-#define LD_STACK 64
 
 void ls_letdeps_init(ls_letdeps *d, const char *let)
 {
@@ -112,99 +107,11 @@ void ls_letdeps_end(ls_letdeps *d, int entry)
         depth += c->op == LDC_NUM || c->op == LDC_PARAM ? 1 : c->op == LDC_BIN ? -1 : c->op == LDC_CALL ? 1 - c->nargs : 0;
         most = depth > most ? depth : most;
     }
-    if (most > LD_STACK)
+    if (most > LS_LD_STACK)
         ls_letdeps_structural(d, "an expression nested too deep to recompute");
 }
 
 ls_ld_entry *ls_letdeps_entry(ls_letdeps *d, int i)
 {
     return &d->e[i];
-}
-
-/* Run entry e's program on nl's lets.  Returns false where the elaborator
- * would have reported an error: a division by zero, a value that is not a
- * finite number. */
-static bool run(const ls_letdeps *d, const ls_ld_entry *e, const ls_netlist *nl, double *out)
-{
-    double st[LD_STACK];
-    st[0] = 0;
-    int sp = 0;
-    for (int i = e->code; i < e->code + e->ncode; i++) {
-        const ls_ld_code *c = &d->code[i];
-        switch (c->op) {
-        case LDC_NUM: st[sp++] = c->num; break;
-        case LDC_PARAM: st[sp++] = nl->params[c->arg].value; break;
-        case LDC_NEG: st[sp - 1] = -st[sp - 1]; break;
-        case LDC_BIN:
-            if (c->arg == T_SLASH && st[sp - 1] == 0)
-                return false;
-            st[sp - 2] = ls_apply_op(c->arg, st[sp - 2], st[sp - 1]);
-            sp--;
-            if (!isfinite(st[sp - 1]))
-                return false;
-            break;
-        case LDC_CALL:
-            sp -= c->nargs;
-            st[sp] = ls_apply_func(c->arg, st + sp, c->nargs);
-            if (!isfinite(st[sp++]))
-                return false;
-            break;
-        }
-    }
-    if (sp != 1)
-        return false;
-    *out = st[0];
-    return isfinite(*out);
-}
-
-/* The checks the elaborator makes on a part's value or option, as a
- * predicate. */
-static bool part_value_ok(const ls_ld_entry *e, double v)
-{
-    return ls_elab_value_ok(e->flags, v) && !(e->is_tol && v >= 1);
-}
-
-bool ls_letdeps_apply(const ls_letdeps *d, ls_netlist *nl, double x)
-{
-    if (d->structural || d->nomem || d->root < 0 || d->root >= nl->nparams || !isfinite(x))
-        return false;
-    nl->params[d->root].value = x;
-    for (int i = 0; i < d->n; i++) {
-        const ls_ld_entry *e = &d->e[i];
-        double v = 0;
-        if (e->kind != LD_QCONST && !run(d, e, nl, &v))
-            return false;
-        switch (e->kind) {
-        case LD_PARAM: nl->params[e->target].value = v; break;
-        case LD_VALUE:
-            if (!part_value_ok(e, v))
-                return false;
-            nl->parts[e->target].value = v;
-            break;
-        case LD_OPT:
-            if (!part_value_ok(e, v))
-                return false;
-            nl->parts[e->target].opt[e->slot] = v;
-            if (e->is_main)
-                nl->parts[e->target].value = v;
-            break;
-        case LD_BUDGET:
-            if (!(v > 0))
-                return false;
-            nl->budgets[e->target].value = v;
-            break;
-        case LD_RANGE: {
-            ls_level *r = nl->parts[e->target].range[e->slot / 2];
-            r[e->slot % 2].volts = v * e->sign;
-            /* the elaborator's check on the whole range, once both ends are known */
-            if (e->slot % 2 == 1 || i + 1 == d->n || d->e[i + 1].kind != LD_RANGE ||
-                d->e[i + 1].target != e->target || d->e[i + 1].slot != e->slot + 1)
-                if (r[0].node == r[1].node && !(r[0].volts < r[1].volts))
-                    return false;
-            break;
-        }
-        case LD_QCONST: e->q->value = nl->params[e->target].value; break;
-        }
-    }
-    return true;
 }

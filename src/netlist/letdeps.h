@@ -13,7 +13,7 @@
  * `structural`: such a sweep elaborates every point afresh.
  *
  * Applying the record to the netlist it was made with is all that changes
- * per point (ls_letdeps_apply).  A value that fails the elaborator's checks
+ * per point (ls_sweep_set_value in analysis/sweep.c).  A value that fails the elaborator's checks
  * at some point (a resistance of zero, a division by zero) makes the apply
  * fail; the caller then elaborates that point afresh, which reports it. */
 #ifndef LS_LETDEPS_H
@@ -40,6 +40,10 @@ typedef struct ls_ld_code {
 } ls_ld_code;
 
 enum { LDC_NUM, LDC_PARAM, LDC_NEG, LDC_BIN, LDC_CALL };
+
+/* Deepest program a replay evaluates; deeper ones are recorded as
+ * structural (ls_letdeps_end), so a replay never runs out of stack. */
+#define LS_LD_STACK 64
 
 typedef struct ls_ld_entry {
     ls_ld_kind kind;
@@ -92,11 +96,5 @@ void ls_letdeps_end(ls_letdeps *d, int entry);
 /* The entry at index i (valid until the next begin). */
 ls_ld_entry *ls_letdeps_entry(ls_letdeps *d, int i);
 
-/* Set the followed let to x in nl (the netlist the record was made with) and
- * recompute everything that depends on it, in the order the elaborator
- * evaluated them.  Returns true, or false when a value fails the
- * elaborator's checks at x (nl is then partly updated: apply again before
- * using it) or the record cannot be used (structural, nomem, no root). */
-bool ls_letdeps_apply(const ls_letdeps *d, ls_netlist *nl, double x);
 
 #endif
