@@ -20,6 +20,7 @@
 #include "netlist/elab.h"
 #include "base/fmt.h"
 #include "lang/parser.h"
+#include "parts/parts.h"
 #include "report/plot.h"
 #include "cli/progress.h"
 
@@ -216,8 +217,9 @@ static int probe(sweep *w)
 }
 
 /* Do two elaborations of the circuit have the same parts on the same nodes
- * with the same options given (so one's values can be stamped into the
- * other's system)? */
+ * with the same options given and the same branch unknowns (a junction's
+ * rbulk= from zero to positive adds one), so one's values can be stamped
+ * into the other's system? */
 static bool same_structure(const ls_netlist *a, const ls_netlist *b)
 {
     if (a->nparts != b->nparts || a->nnodes != b->nnodes)
@@ -225,7 +227,8 @@ static bool same_structure(const ls_netlist *a, const ls_netlist *b)
     for (int i = 0; i < a->nparts; i++) {
         const ls_part *p = &a->parts[i], *q = &b->parts[i];
         if (p->kind != q->kind || p->ref != q->ref || p->has_value != q->has_value || strcmp(p->name, q->name) != 0 ||
-            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || p->has_opt != q->has_opt)
+            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || p->has_opt != q->has_opt ||
+            (p->kind->branches && p->kind->branches(p) != q->kind->branches(q)))
             return false;
     }
     return true;

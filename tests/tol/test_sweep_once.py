@@ -17,8 +17,8 @@ elaborating the circuit again with --set LET=x:
    reference) to 1e-9.
 3. The fallbacks: a let that picks a switch's state (a word: the sweep
    elaborates every point), a junction's rbulk= from 0 to positive (a branch
-   unknown appears: that point is solved afresh; every point against a
-   separate solve), and a resistance that goes
+   unknown appears: that point is solved afresh, both ways; every point
+   also against a separate solve), and a resistance that goes
    to zero or below at some points (those points are refused by the
    elaborator and reported null, as before).  Each against the per-point way
    and against closed forms (Ohm's law and the divider rule).
@@ -265,11 +265,8 @@ diode d1 k -> gnd isat=1n ideality=1.8 rbulk=rb
     if rc == 2 and "diode" in err:
         print("skip rbulk: no diode part in this build")
         return
-    # (not compared with the per-point way: that one carried the numbering
-    # of rbulk=0 into the next point of the chain; a separate solve is the
-    # reference here)
-    (ra, oa, ea), _ = sweep_pair(d, "rb", 0, 20, ["k", "d1.current"], steps=9)
-    check(ra == 0, f"rbulk= through zero: solved\n{ea}")
+    (ra, oa, ea), (rb, ob, eb) = sweep_pair(d, "rb", 0, 20, ["k", "d1.current"], steps=9)
+    check(ra == 0 and oa == ob, f"rbulk= through zero: the same both ways\n{ea}\n{eb}")
     pts = points(oa)
     if pts:
         against_solves(d, "rb", pts, ["k"], range(len(pts)))
