@@ -1100,7 +1100,8 @@ static ls_status sweep_once(ls_circuit *c, const char *let, const double *xs, in
             for (int k = 0; k < nq; k++)
                 row[k] = ls_q_eval(&w.op, q[k]);
             (*nsolved)++;
-        } else if (code != LS_SWEEP_REELABORATE && w.op.nomem) {
+        } else if (code != LS_SWEEP_REELABORATE &&
+                   (w.op.nomem || p->arena.failed || p->diags.nomem || p->diags.lost)) {
             st = LS_E_NOMEM;
         } else {
             ls_status pt = sweep_point(c, let, xs[i], quantities, nq, row, i == 0);

@@ -381,7 +381,9 @@ static int solve_point(sweep *w, int i)
     int code = ls_sweeper_solve(&w->sw, w->x[i], i % SWEEP_CHAIN == 0);
     if (code == LS_EXIT_OK)
         return record(w, i, &w->sw.op, w->q, &w->probe->nl) != 0 ? point_nomem(w, i, NULL) : 0;
-    if (code != LS_SWEEP_REELABORATE && w->sw.op.nomem)
+    /* (memory that ran out in a stage that only reports it, such as the
+     * topology check, shows in the session's diagnostics) */
+    if (code != LS_SWEEP_REELABORATE && (w->sw.op.nomem || ls_session_nomem(w->probe)))
         return point_nomem(w, i, w->probe);
     int rc = reelaborate_point(w, i);
     if (w->base) {   /* points continue from the circuit elaborated once */
