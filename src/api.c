@@ -10,12 +10,12 @@
 #include <string.h>
 
 #include "analysis/analysis.h"
+#include "analysis/checks.h"
 #include "netlist/elab.h"
 #include "base/eseries.h"
 #include "analysis/fit.h"
 #include "analysis/formula.h"
 #include "lang/parser.h"
-#include "report/report.h"
 #include "analysis/sag.h"
 #include "analysis/sens.h"
 #include "analysis/sweep.h"
@@ -336,6 +336,7 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
     out->rcond = c->op.rcond;
     out->residual = c->op.residual;
     out->iterations = c->op.iterations;
+    out->refinement_steps = c->op.acc.steps;
     return LS_OK;
 }
 

@@ -172,7 +172,11 @@ typedef struct ls_solve_info {
     int unknowns;             /* size of the modified-nodal system */
     double rcond;             /* reciprocal condition estimate */
     double residual;          /* relative residual after refinement */
-    int iterations;           /* refinement steps */
+    int iterations;           /* linear solves of the operating-point iteration: 1 for a
+                                 linear circuit, more when diodes, thermistors or op-amp
+                                 limits were iterated (the reports' "iterations") */
+    int refinement_steps;     /* extra-precise iterative-refinement steps of the last of
+                                 them (the reports' "refinement_steps"; docs/accuracy.md) */
 } ls_solve_info;
 
 LS_API ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out);

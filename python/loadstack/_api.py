@@ -48,7 +48,8 @@ class _SolveOptions(ctypes.Structure):
 
 class _SolveInfo(ctypes.Structure):
     _fields_ = [("method", ctypes.c_char_p), ("unknowns", ctypes.c_int), ("rcond", ctypes.c_double),
-                ("residual", ctypes.c_double), ("iterations", ctypes.c_int)]
+                ("residual", ctypes.c_double), ("iterations", ctypes.c_int),
+                ("refinement_steps", ctypes.c_int)]
 
 
 class _PartInfo(ctypes.Structure):
@@ -320,6 +321,8 @@ class OperatingPoint:
     rcond: float
     residual: float
     warnings: List[Diagnostic] = field(default_factory=list)
+    iterations: int = 1            # linear solves of the operating-point iteration (1: linear)
+    refinement_steps: int = 0      # extra-precise refinement steps of the last solve
 
 
 @dataclass(frozen=True)
@@ -622,7 +625,7 @@ class Circuit:
             parts[_s(p.name)] = Part(_s(p.name), _s(p.kind), p.value, p.current, p.voltage, p.power, _s(p.limited))
         warnings = [d for d in self.diagnostics()[n0:] if d.level == "warning"]
         return OperatingPoint(self.title, nodes, parts, self.ports, _s(info.method), info.unknowns, info.rcond,
-                              info.residual, warnings)
+                              info.residual, warnings, info.iterations, info.refinement_steps)
 
     @property
     def ports(self) -> PortReport:

@@ -655,6 +655,23 @@ static double real_prop(ls_op *op, int part, ls_prop prop)
     }
 }
 
+/* (analysis.h) */
+double ls_port_value(const ls_port_result *pr, ls_prop f)
+{
+    switch (f) {
+    case PROP_OPEN: return pr->open;
+    case PROP_LOADED: return pr->loaded;
+    case PROP_SAG: return pr->sag;
+    case PROP_SAG_REL: return pr->sag_rel;
+    case PROP_ZOUT: return pr->zout;
+    case PROP_ZIN: return pr->zin;
+    case PROP_RATIO: return pr->ratio;
+    case PROP_CURRENT: return pr->current;
+    case PROP_BUDGET: return pr->budget;
+    default: return NAN;
+    }
+}
+
 static double prop_value(ls_op *op, int part, ls_prop prop)
 {
     const ls_port_result *pr;
@@ -668,19 +685,7 @@ static double prop_value(ls_op *op, int part, ls_prop prop)
     default: break;
     }
     pr = ls_op_port(op, part);
-    if (!pr)
-        return NAN;
-    switch (prop) {
-    case PROP_OPEN: return pr->open;
-    case PROP_LOADED: return pr->loaded;
-    case PROP_SAG: return pr->sag;
-    case PROP_SAG_REL: return pr->sag_rel;
-    case PROP_ZOUT: return pr->zout;
-    case PROP_ZIN: return pr->zin;
-    case PROP_RATIO: return pr->ratio;
-    case PROP_BUDGET: return pr->budget;
-    default: return NAN;
-    }
+    return pr ? ls_port_value(pr, prop) : NAN;
 }
 
 double ls_q_eval(ls_op *op, const ls_q *q)

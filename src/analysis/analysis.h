@@ -107,6 +107,9 @@ int ls_op_solve_vec(ls_op *op, double *b, int transpose);
 
 /* The loading report of port part index p (computed once, then cached). */
 const ls_port_result *ls_op_port(ls_op *op, int p);
+/* The value of port property f (open, loaded, sag, sag_rel, zout, zin,
+ * ratio, current, budget) in pr; NaN for another property. */
+double ls_port_value(const ls_port_result *pr, ls_prop f);
 
 /* Value of a bound quantity (NaN undefined, +-inf unbounded). */
 double ls_q_eval(ls_op *op, const ls_q *q);

@@ -4,6 +4,7 @@
 #include <string.h>
 
 #include "analysis/chain.h"
+#include "analysis/results.h"
 #include "base/unionfind.h"
 #include "base/fmt.h"
 #include "parts/parts.h"
@@ -432,9 +433,15 @@ const char *ls_verdict_word(ls_verdict v)
     return n[v];
 }
 
-char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii, int sig)
+void ls_chain_ports(ls_op *op, const ls_chain *c)
 {
-    const ls_port_result *pr = ls_op_port(op, port);
+    for (int k = 0; k < c->nconns; k++)
+        ls_op_port(op, c->conns[k].port);
+}
+
+char *ls_chain_fix(const ls_op *op, int port, char *buf, size_t n, bool ascii, int sig)
+{
+    const ls_port_result *pr = ls_port_read(op, port);
     const char *OHM = ascii ? "ohm" : "\xCE\xA9", *LE = ascii ? "<=" : "\xE2\x89\xA4",
                *GE = ascii ? ">=" : "\xE2\x89\xA5";
     double min = ls_op_min_ratio(op);

@@ -73,10 +73,14 @@ int ls_chain_rail_source(const ls_netlist *nl, const ls_chain *c, int node);
 /* The verdict as the reports write it: "ok", "marginal" or "loading". */
 const char *ls_verdict_word(ls_verdict v);
 
+/* Compute the report of every connection of c, in connection order: the
+ * ports a chain report and its picture read (ls_port_read). */
+void ls_chain_ports(ls_op *op, const ls_chain *c);
+
 /* A few words saying what would make port `port` pass (empty when it passes):
  * "fix: zout <= 1.2 kOhm; or zin >= 47 kOhm; or a buffer" (the drawing puts each
  * alternative on a line of its own), the values with `sig` significant digits
  * (3 unless --digits says otherwise).  Writes into buf and returns it. */
-char *ls_chain_fix(ls_op *op, int port, char *buf, size_t n, bool ascii, int sig);
+char *ls_chain_fix(const ls_op *op, int port, char *buf, size_t n, bool ascii, int sig);
 
 #endif

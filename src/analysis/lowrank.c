@@ -666,30 +666,30 @@ static int mod_solve_once(ls_mod *m, double *y, double *orig)
 
 static double mod_residual(const ls_mod *m, const double *x, const double *rhs, double *r, int transpose);
 
-/* y <- A'^-1 y in place (see analysis.h), refined against A'. */
-int ls_mod_solve(ls_mod *m, double *y)
+static int mod_solve_t_once(ls_mod *m, double *y);
+
+/* y <- A'^-1 y (transpose 0) or A'^-T y (1) in place: one pass, then up to two
+ * refinement steps against A' itself (a nearly cancelling update leaves
+ * round-off of the size of the base solution).  Returns an ls_solver_status. */
+static int mod_solve_refined(ls_mod *m, double *y, int transpose)
 {
-    if (m->singular)
-        return LS_SOLVER_SINGULAR;
     size_t bytes = (size_t)(m->n ? m->n : 1) * sizeof(double);
-    double *rhs = malloc(bytes), *orig = malloc(bytes), *r = malloc(bytes);
-    if (!rhs || !orig || !r) {
+    double *rhs = malloc(bytes), *r = malloc(bytes), *orig = transpose ? NULL : malloc(bytes);
+    if (!rhs || !r || (!transpose && !orig)) {
         free(rhs);
         free(orig);
         free(r);
         return LS_SOLVER_NOMEM;
     }
     memcpy(rhs, y, bytes);
-    int st = mod_solve_once(m, y, orig);
-    /* refined against A' itself: a nearly cancelling update leaves round-off
-     * of the size of the base solution */
+    int st = transpose ? mod_solve_t_once(m, y) : mod_solve_once(m, y, orig);
     double last = INFINITY;
     for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
-        double rel = mod_residual(m, y, rhs, r, 0);
+        double rel = mod_residual(m, y, rhs, r, transpose);
         if (rel <= REFINE_TOL || !(rel < 0.5 * last))
             break;
         last = rel;
-        st = mod_solve_once(m, r, orig);
+        st = transpose ? mod_solve_t_once(m, r) : mod_solve_once(m, r, orig);
         for (int i = 0; i < m->n && st == LS_SOLVER_OK; i++)
             y[i] += r[i];
     }
@@ -697,6 +697,14 @@ int ls_mod_solve(ls_mod *m, double *y)
     free(orig);
     free(r);
     return st;
+}
+
+/* y <- A'^-1 y in place (see analysis.h), refined against A'. */
+int ls_mod_solve(ls_mod *m, double *y)
+{
+    if (m->singular)
+        return LS_SOLVER_SINGULAR;
+    return mod_solve_refined(m, y, 0);
 }
 
 /* Y = A^-T D^T, one transposed solve per changed row.  0 ok, -1 failure. */
@@ -750,28 +758,7 @@ int ls_mod_solve_t(ls_mod *m, double *y)
         return LS_SOLVER_SINGULAR;
     if (!m->own && m->r > 0 && !m->Y && build_y(m) != 0)
         return LS_SOLVER_NOMEM;
-    size_t bytes = (size_t)(m->n ? m->n : 1) * sizeof(double);
-    double *rhs = malloc(bytes), *r = malloc(bytes);
-    if (!rhs || !r) {
-        free(rhs);
-        free(r);
-        return LS_SOLVER_NOMEM;
-    }
-    memcpy(rhs, y, bytes);
-    int st = mod_solve_t_once(m, y);
-    double last = INFINITY;
-    for (int k = 0; k < 2 && st == LS_SOLVER_OK && m->n > 0; k++) {
-        double rel = mod_residual(m, y, rhs, r, 1);
-        if (rel <= REFINE_TOL || !(rel < 0.5 * last))
-            break;
-        last = rel;
-        st = mod_solve_t_once(m, r);
-        for (int i = 0; i < m->n && st == LS_SOLVER_OK; i++)
-            y[i] += r[i];
-    }
-    free(rhs);
-    free(r);
-    return st;
+    return mod_solve_refined(m, y, 1);
 }
 
 /* r <- rhs - A' x with A' = A + E_R D (or A'^T = A^T + D^T E_R^T when
@@ -1791,6 +1778,177 @@ static int sag_resolve(ls_op *op, int node, ls_sag_item *it, const ls_runs *base
     return rc;
 }
 
+/* What the rows of a linear circuit share when they come from the selected
+ * inverse: NODE's row of A^-1 (w = A^-T e_node, one refined transposed
+ * solve), scratch for a part's stamps, and the factor.  on is false when the
+ * rows take the general path (a circuit with a limit or a junction, whose
+ * rows must see the whole modified solution; no selected inverse; NODE
+ * ground). */
+typedef struct sag_fast {
+    bool on;
+    ls_selinv *si;
+    double *w;        /* n values: row NODE of A^-1 */
+    double *b;        /* n values, zero between rows: the stamps' right-hand side */
+    ls_triplets t;
+} sag_fast;
+
+/* Sets up f for NODE.  0, or -1 out of memory (f then freed). */
+static int sag_fast_init(ls_op *op, int node, sag_fast *f)
+{
+    const ls_netlist *nl = op->nl;
+    memset(f, 0, sizeof *f);
+    if (node <= 0)
+        return 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (p->kind->is_junction || (p->kind->is_opamp && p->run && ls_opamp_limited(p)))
+            return 0;
+    }
+    f->si = op_selinv(op);
+    if (!f->si)
+        return 0;
+    int n = op->mna.n;
+    f->w = calloc((size_t)n, sizeof *f->w);
+    f->b = calloc((size_t)n, sizeof *f->b);
+    if (!f->w || !f->b)
+        goto nomem;
+    f->w[node - 1] = 1;
+    int st = base_solve(op, f->w, 1, op_anorm(op));
+    if (st == LS_SOLVER_NOMEM)
+        goto nomem;
+    f->on = st == LS_SOLVER_OK;
+    return 0;
+nomem:
+    free(f->w);
+    free(f->b);
+    memset(f, 0, sizeof *f);
+    return -1;
+}
+
+static void sag_fast_free(sag_fast *f)
+{
+    free(f->w);
+    free(f->b);
+    ls_triplets_free(&f->t);
+    memset(f, 0, sizeof *f);
+}
+
+/* Index of unknown v in u[0..nu), or -1. */
+static int unknown_at(const int *u, int nu, int v)
+{
+    for (int q = 0; q < nu; q++)
+        if (u[q] == v)
+            return q;
+    return -1;
+}
+
+/* The row of part i from the selected inverse, in work that follows the
+ * factor near the part instead of the order of the system.  With U the
+ * part's own unknowns (its nodes and branches), removing it changes A by
+ * D = E_U Dm E_U^T and b by db (on U), so with x the solution and
+ * g = db - D x, the Woodbury identity gives
+ *     x'_node - x_node = w_U . g - w_U . C^-1 Dm (A^-1)_UU g,   C = I + Dm (A^-1)_UU,
+ * where w = A^-T e_node.  Only (A^-1)_UU comes from the factor.  Returns 1
+ * with the row filled, 0 when the row must take the general path (a port;
+ * a removal that may leave a node floating; a stamp reaching outside U or
+ * more than LS_SELINV_MAX unknowns; entries or a C whose rounding could
+ * show at 1e-12), -1 out of memory. */
+static int sag_row_fast(ls_op *op, int node, int i, ls_sag_item *it, sag_fast *f, double vmax)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[i];
+    if (p->kind->is_port || !(ls_removal_keeps_edges(p) || removal_floats_nothing(op, p, i)))
+        return 0;
+    int u[LS_SELINV_MAX], nu = 0;
+    int np = p->kind->npins < LS_MAX_PINS ? p->kind->npins : LS_MAX_PINS;
+    for (int k = 0; k < np; k++) {
+        int v = ls_node_unknown(p->pin[k]);
+        if (v < 0 || unknown_at(u, nu, v) >= 0)
+            continue;
+        if (nu == LS_SELINV_MAX)
+            return 0;
+        u[nu++] = v;
+    }
+    int nb = p->kind->branches(p);
+    for (int k = 0; k < nb; k++) {
+        if (nu == LS_SELINV_MAX)
+            return 0;
+        u[nu++] = p->branch + k;
+    }
+    /* the change, as delta_triplets makes it: the stamp taken away, the
+     * removed stamp put in */
+    f->t.nnz = 0;
+    ls_sink s = {.mode = SINK_ASSEMBLE, .t = &f->t, .b = f->b, .scale = -1};
+    ls_stamp_ctx c = {.nl = nl, .sink = &s};
+    p->kind->stamp(p, &c);
+    s.scale = 1;
+    c.removed = true;
+    p->kind->stamp(p, &c);
+    double db[LS_SELINV_MAX] = {0}, dm[LS_SELINV_MAX * LS_SELINV_MAX] = {0};
+    for (int q = 0; q < nu; q++) {
+        db[q] = f->b[u[q]];
+        f->b[u[q]] = 0;
+    }
+    if (f->t.failed)
+        return -1;
+    for (size_t k = 0; k < f->t.nnz; k++) {
+        int r = unknown_at(u, nu, f->t.ti[k]), q = unknown_at(u, nu, f->t.tj[k]);
+        if (r < 0 || q < 0)
+            return 0;                  /* a stamp reaching other unknowns (via=) */
+        dm[r * nu + q] += f->t.tx[k];  /* row-major */
+    }
+    double ainv[LS_SELINV_MAX * LS_SELINV_MAX], mag[LS_SELINV_MAX * LS_SELINV_MAX];
+    if (ls_selinv_block(f->si, u, nu, u, nu, ainv, mag) != 0)
+        return 0;
+    for (int k = 0; k < nu * nu; k++)
+        if (mag[k] > SELINV_MAX_CANCEL * fabs(ainv[k]) && ainv[k] != 0)
+            return 0;                  /* an entry made of cancelling terms */
+    /* g = db - Dm x_U;  y = (A^-1)_UU g;  t = Dm y;  C = I + Dm (A^-1)_UU */
+    double g[LS_SELINV_MAX], y[LS_SELINV_MAX], t[LS_SELINV_MAX], cm[LS_SELINV_MAX * LS_SELINV_MAX];
+    double cscale[LS_SELINV_MAX];
+    int piv[LS_SELINV_MAX];
+    for (int r = 0; r < nu; r++) {
+        g[r] = db[r];
+        for (int q = 0; q < nu; q++)
+            g[r] -= dm[r * nu + q] * op->x[u[q]];
+    }
+    for (int r = 0; r < nu; r++) {
+        y[r] = 0;
+        for (int q = 0; q < nu; q++)
+            y[r] += ainv[r * nu + q] * g[q];
+    }
+    for (int r = 0; r < nu; r++) {
+        t[r] = 0;
+        for (int q = 0; q < nu; q++)
+            t[r] += dm[r * nu + q] * y[q];
+    }
+    for (int r = 0; r < nu; r++)          /* column-major for small_lu */
+        for (int q = 0; q < nu; q++) {
+            double v = r == q, sc = r == q;
+            for (int k = 0; k < nu; k++) {
+                v += dm[r * nu + k] * ainv[k * nu + q];
+                sc += fabs(dm[r * nu + k] * ainv[k * nu + q]);
+            }
+            cm[q * nu + r] = v;
+            cscale[q] = r == 0 ? sc : fmax(cscale[q], sc);
+        }
+    if (small_lu(cm, nu, piv))
+        return 0;
+    for (int q = 0; q < nu; q++)          /* a removal close to cutting the circuit */
+        if (!(fabs(cm[q * nu + q]) > 1e-3 * cscale[q]))
+            return 0;
+    small_solve(cm, nu, piv, t, 0);
+    double d = 0;
+    for (int q = 0; q < nu; q++)
+        d += f->w[u[q]] * (g[q] - t[q]);
+    *it = (ls_sag_item){.part = i, .without = op->x[node - 1] + d};
+    if (isfinite(it->without) && fabs(it->without) > vmax * (1 + 1e-9)) {
+        it->beyond_limit = true;
+        snprintf(it->limit, sizeof it->limit, "beyond every voltage of the circuit");
+    }
+    return 1;
+}
+
 int ls_sag(ls_op *op, int node, ls_sag_item *items)
 {
     const ls_netlist *nl = op->nl;
@@ -1801,11 +1959,20 @@ int ls_sag(ls_op *op, int node, ls_sag_item *items)
         free(vv);
         return -1;
     }
+    sag_fast fast;
+    if (sag_fast_init(op, node, &fast) != 0) {
+        free(vv);
+        ls_runs_free(&base);
+        return -1;
+    }
     for (int i = 0; i < nl->nparts; i++) {
         ls_sag_item *it = &items[i];
-        if (sag_row(op, node, i, it, vv, vmax) != 0 || (it->beyond_limit && sag_resolve(op, node, it, &base) != 0)) {
+        int quick = fast.on ? sag_row_fast(op, node, i, it, &fast, vmax) : 0;
+        if (quick < 0 || (quick == 0 && sag_row(op, node, i, it, vv, vmax) != 0) ||
+            (it->beyond_limit && sag_resolve(op, node, it, &base) != 0)) {
             free(vv);
             ls_runs_free(&base);
+            sag_fast_free(&fast);
             return -1;
         }
         /* rounding noise of the update is no voltage */
@@ -1817,6 +1984,7 @@ int ls_sag(ls_op *op, int node, ls_sag_item *items)
     }
     free(vv);
     ls_runs_free(&base);
+    sag_fast_free(&fast);
     qsort(items, (size_t)nl->nparts, sizeof *items, by_delta);
     return 0;
 }

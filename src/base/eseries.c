@@ -13,21 +13,8 @@
 #include <stdlib.h>
 #include <string.h>
 
-static const uint16_t e6[] = {100, 150, 220, 330, 470, 680};
-static const uint16_t e12[] = {100, 120, 150, 180, 220, 270, 330, 390, 470, 560, 680, 820};
 static const uint16_t e24[] = {100, 110, 120, 130, 150, 160, 180, 200, 220, 240, 270, 300,
                                330, 360, 390, 430, 470, 510, 560, 620, 680, 750, 820, 910};
-static const uint16_t e48[] = {
-    100, 105, 110, 115, 121, 127, 133, 140, 147, 154, 162, 169, 178, 187, 196, 205,
-    215, 226, 237, 249, 261, 274, 287, 301, 316, 332, 348, 365, 383, 402, 422, 442,
-    464, 487, 511, 536, 562, 590, 619, 649, 681, 715, 750, 787, 825, 866, 909, 953};
-static const uint16_t e96[] = {
-    100, 102, 105, 107, 110, 113, 115, 118, 121, 124, 127, 130, 133, 137, 140, 143,
-    147, 150, 154, 158, 162, 165, 169, 174, 178, 182, 187, 191, 196, 200, 205, 210,
-    215, 221, 226, 232, 237, 243, 249, 255, 261, 267, 274, 280, 287, 294, 301, 309,
-    316, 324, 332, 340, 348, 357, 365, 374, 383, 392, 402, 412, 422, 432, 442, 453,
-    464, 475, 487, 499, 511, 523, 536, 549, 562, 576, 590, 604, 619, 634, 649, 665,
-    681, 698, 715, 732, 750, 768, 787, 806, 825, 845, 866, 887, 909, 931, 953, 976};
 static const uint16_t e192[] = {
     100, 101, 102, 104, 105, 106, 107, 109, 110, 111, 113, 114, 115, 117, 118, 120,
     121, 123, 124, 126, 127, 129, 130, 132, 133, 135, 137, 138, 140, 142, 143, 145,
@@ -42,10 +29,12 @@ static const uint16_t e192[] = {
     681, 690, 698, 706, 715, 723, 732, 741, 750, 759, 768, 777, 787, 796, 806, 816,
     825, 835, 845, 856, 866, 876, 887, 898, 909, 920, 931, 942, 953, 965, 976, 988};
 
-#define SERIES(n, t) {n, (int)(sizeof t / sizeof t[0]), t}
+/* E24 and E192 hold every value; E12 and E6 are every 2nd and 4th value of
+ * E24, E96 and E48 every 2nd and 4th of E192 (IEC 60063 builds each series
+ * by taking every other value of the next). */
 static const ls_eseries all_series[] = {
-    SERIES("E6", e6),   SERIES("E12", e12), SERIES("E24", e24),
-    SERIES("E48", e48), SERIES("E96", e96), SERIES("E192", e192),
+    {"E6", 6, e24, 4},   {"E12", 12, e24, 2},  {"E24", 24, e24, 1},
+    {"E48", 48, e192, 4}, {"E96", 96, e192, 2}, {"E192", 192, e192, 1},
 };
 
 /* Case-insensitive name match against the table above; static result. */
@@ -78,7 +67,7 @@ double ls_eseries_value(const ls_eseries *s, int index, int decade)
 {
     if (!s || index < 0 || index >= s->count)
         return NAN;
-    return scaled(s->mant[index], decade - 2);
+    return scaled(ls_eseries_mant(s, index), decade - 2);
 }
 
 /* Try every value of the decade below, at and above v's, so rounding of

@@ -12,8 +12,12 @@
 typedef struct ls_eseries {
     const char *name;       /* "E24" */
     int count;              /* values per decade: 6, 12, 24, 48, 96, 192 */
-    const uint16_t *mant;   /* count mantissas in hundredths, ascending, 100..999 */
+    const uint16_t *mant;   /* mantissas in hundredths, ascending, 100..999: value i is mant[i * stride] */
+    int stride;             /* 1, or 2 where the series is every other value of the next (IEC 60063) */
 } ls_eseries;
+
+/* Mantissa number i (0..count-1) of s, in hundredths. */
+static inline int ls_eseries_mant(const ls_eseries *s, int i) { return s->mant[(size_t)i * (size_t)s->stride]; }
 
 /* One divider rtop (input to output) over rbot (output to ground), ohms. */
 typedef struct ls_pick_item {

@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "analysis/chain.h"
+#include "netlist/elab.h"
 #include "report/chain_plot.h"
 #include "cli/cli.h"
 #include "base/fmt.h"
@@ -25,6 +26,10 @@ static void stage_ref(ls_jw *w, const char *key, int s)
         ls_jw_null(w, key, LS_WHY_NONE);
 }
 
+/* The port fields a connection shows, in order. */
+#define NCONN_FIELDS 4
+static const ls_prop conn_fields[NCONN_FIELDS] = {PROP_ZOUT, PROP_ZIN, PROP_RATIO, PROP_SAG};
+
 static void conn_json(ls_jw *w, ls_op *op, const ls_conn *k)
 {
     const ls_netlist *nl = op->nl;
@@ -34,10 +39,8 @@ static void conn_json(ls_jw *w, ls_op *op, const ls_conn *k)
     stage_ref(w, "from_stage", k->from);
     stage_ref(w, "to_stage", k->to);
     ls_jw_str(w, "mode", pr->current_mode ? "current" : "voltage");
-    ls_jw_num(w, "zout", pr->zout);
-    ls_jw_num(w, "zin", pr->zin);
-    ls_jw_num(w, "ratio", pr->ratio);
-    ls_jw_num(w, "sag", pr->sag);
+    for (int f = 0; f < NCONN_FIELDS; f++)
+        ls_jw_num(w, ls_prop_name(conn_fields[f]), ls_port_value(pr, conn_fields[f]));
     ls_report_budget_json(w, pr);
     ls_jw_str(w, "verdict", ls_verdict_word(pr->verdict));
     ls_jw_end(w);
@@ -100,7 +103,10 @@ static void csv_num(FILE *o, double v)
 
 static void chain_csv(FILE *o, ls_session *s, const ls_chain *c)
 {
-    fputs("port,from_stage,to_stage,from,to,zout,zin,ratio,sag,verdict\n", o);
+    fputs("port,from_stage,to_stage,from,to", o);
+    for (int f = 0; f < NCONN_FIELDS; f++)
+        fprintf(o, ",%s", ls_prop_name(conn_fields[f]));
+    fputs(",verdict\n", o);
     for (int i = 0; i < c->nconns; i++) {
         const ls_conn *k = &c->conns[i];
         const ls_port_result *pr = ls_op_port(&s->op, k->port);
@@ -115,10 +121,8 @@ static void chain_csv(FILE *o, ls_session *s, const ls_chain *c)
         ls_csv_field(o, k->from >= 0 ? c->stages[k->from].name : "");
         fputc(',', o);
         ls_csv_field(o, k->to >= 0 ? c->stages[k->to].name : "");
-        csv_num(o, pr->zout);
-        csv_num(o, pr->zin);
-        csv_num(o, pr->ratio);
-        csv_num(o, pr->sag);
+        for (int f = 0; f < NCONN_FIELDS; f++)
+            csv_num(o, ls_port_value(pr, conn_fields[f]));
         fprintf(o, ",%s\n", ls_verdict_word(pr->verdict));
     }
 }
@@ -301,6 +305,8 @@ int ls_cmd_chain(ls_cli *cli)
         fprintf(stderr, "loadstack: error: out of memory\n");
         code = LS_EXIT_UNSOLVABLE;
     }
+    if (code == LS_EXIT_OK)
+        ls_chain_ports(&s.op, &c);   /* the connections' port reports, read by the picture and the report */
     if (code == LS_EXIT_OK && (cli->plot || cli->fmt == FMT_HTML)) {
         pic = ls_chain_layout(&s.op, &c, s.nl.title, cli->ascii);
         if (!pic) {

@@ -478,12 +478,16 @@ static int run_report(ls_cli *cli, const char *path, const char *text, bool chec
     rp.failed_warnings = failed_codes;
     rp.nfailed_warnings = check_mode ? failed_warnings(&s.diags, cli->fail_on, failed_codes, 64) : 0;
     int page = LS_EXIT_OK;
+    ls_results res = {0};
     if (check_mode)
-        ls_report_check(&rp, &s.op, &checks);
+        ls_report_check(&rp, &checks);
     else if (cli->fmt == FMT_HTML)
         page = ls_html_page(out, &s, NULL, NULL);   /* (it says why when it fails) */
+    else if (ls_results_compute(&res, &s.op, ls_report_needs(&rp)) != 0)
+        rp.nomem = "the port report, the ADC readings or the advice";
     else
-        ls_report_solve(&rp, &s.op, &checks);
+        ls_report_solve(&rp, &res, &checks);
+    ls_results_free(&res);
     code = check_mode && (checks.failed || rp.nfailed_warnings) ? LS_EXIT_CHECK : LS_EXIT_OK;
     if (page != LS_EXIT_OK)
         code = page;

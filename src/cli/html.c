@@ -6,6 +6,7 @@
 
 #include "base/fmt.h"
 #include "cli/html.h"
+#include "netlist/elab.h"
 #include "analysis/tolerance.h"
 #include "analysis/newton.h"
 #include "parts/parts.h"
@@ -198,8 +199,9 @@ static void ports_section(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
     fprintf(o, "<h2 id=\"ports\">Connections (ports)</h2>\n<p>zin/zout should be at least %g (a rule of thumb: "
                "a ratio of 10 still costs about 9 %% of the voltage).</p>\n",
             ls_op_min_ratio(op));
-    const char *head[] = {"port", "driver \xE2\x86\x92 load", "open", "loaded", "sag", "zout", "zin", "ratio",
-                          "current", "verdict", "what would fix it"};
+    const char *head[] = {"port", "driver \xE2\x86\x92 load", ls_prop_name(PROP_OPEN), ls_prop_name(PROP_LOADED),
+                          ls_prop_name(PROP_SAG), ls_prop_name(PROP_ZOUT), ls_prop_name(PROP_ZIN),
+                          ls_prop_name(PROP_RATIO), ls_prop_name(PROP_CURRENT), "verdict", "what would fix it"};
     table_open(o, "Connections", head, 11);
     for (int k = 0; k < c->nconns; k++) {
         int i = c->conns[k].port;
@@ -609,6 +611,8 @@ int ls_html_page(FILE *o, ls_session *s, const ls_chain *c, const ls_chain_pic *
             code = LS_EXIT_UNSOLVABLE;
         c = &own;
     }
+    if (code == LS_EXIT_OK)
+        ls_chain_ports(&s->op, c);
     if (code == LS_EXIT_OK && !pic) {
         pic = own_pic = ls_chain_layout(&s->op, c, s->nl.title, s->cli->ascii);
         if (!pic)

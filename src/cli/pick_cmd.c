@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "report/writer.h"
 #include "base/eseries.h"
 #include "base/fmt.h"
 
@@ -66,96 +67,101 @@ static bool pick_fits(const ls_eseries *es, const ls_pick_item *it, int n)
 
 /* One pair's members: its ratio, its error (ratio - R, as the ratio is a
  * plain number) and error_rel (that over R, a fraction; the text shows it in %). */
-static void pick_pair_json(ls_jw *w, double ratio, const ls_pick_item *p)
+static void pick_pair(ls_wr *w, double ratio, const ls_pick_item *p)
 {
-    ls_jw_num(w, "rtop", p->rtop);
-    ls_jw_num(w, "rbot", p->rbot);
-    ls_jw_num(w, "ratio", p->ratio);
-    ls_jw_num(w, "error", p->ratio - ratio);
-    ls_jw_num(w, "error_rel", p->error);
-    ls_jw_num(w, "zout", p->zout);
+    ls_wr_num(w, "rtop", p->rtop);
+    ls_wr_num(w, "rbot", p->rbot);
+    ls_wr_num(w, "ratio", p->ratio);
+    ls_wr_num(w, "error", p->ratio - ratio);
+    ls_wr_num(w, "error_rel", p->error);
+    ls_wr_num(w, "zout", p->zout);
 }
 
-/* The pick report as one JSON object (cli.md keys; "fits" and "closest" say
- * when no pair comes within the series' tolerance, and which came nearest). */
-static void pick_json(ls_report *rp, double ratio, const ls_eseries *es, const ls_pick_item *it, int n)
+/* The limits the search ran under: the text report's heading. */
+static void pick_limits(ls_wr *w, const ls_cli *cli, double ratio, const ls_eseries *es, double lo, double hi,
+                        double zmax)
 {
-    ls_jw jw, *w = &jw;
-    ls_report_json_begin(rp, w);
-    ls_jw_num(w, "ratio", ratio);
-    ls_jw_str(w, "series", es->name);
-    bool fits = pick_fits(es, it, n);
-    ls_jw_bool(w, "fits", fits);
-    if (!fits) {
-        if (n > 0) {
-            ls_jw_obj(w, "closest");
-            pick_pair_json(w, ratio, &it[0]);
-            ls_jw_end(w);
-        }
-        n = 0;
-    }
-    ls_jw_arr(w, "items");
-    for (int i = 0; i < n; i++) {
-        ls_jw_obj(w, NULL);
-        pick_pair_json(w, ratio, &it[i]);
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-    ls_report_json_end(rp, w);
-}
-
-/* Print s right-aligned in w columns, counting UTF-8 code points (Ω is two bytes). */
-static void rpad(FILE *o, const char *s, int w)
-{
-    int n = 0;
-    for (const char *c = s; *c; c++)
-        n += ((unsigned char)*c & 0xC0) != 0x80;
-    fprintf(o, " %*s%s", w > n ? w - n : 0, "", s);
-}
-
-/* The pick report as an aligned table with the limits it was searched under. */
-static void pick_text(FILE *o, const ls_report *rp, const ls_cli *cli, double ratio, const ls_eseries *es,
-                      double lo, double hi, double zmax, const ls_pick_item *it, int n)
-{
+    const ls_report *rp = w->rp;
     const char *OHM = ls_unit_of(LS_OHM, cli->ascii);
     char b1[64], b2[64], b3[64];
     double plo, phi;
     ls_pick_part_range(lo, hi, &plo, &phi);
-    fprintf(o, "Dividers of %s standard values for rbot/(rtop+rbot) = %.12g\n", es->name, ratio);
-    fprintf(o, "  (rtop + rbot from %s to %s", ls_eng(rp, b1, sizeof b1, lo, OHM), ls_eng(rp, b2, sizeof b2, hi, OHM));
+    ls_wr_say(w, "Dividers of %s standard values for rbot/(rtop+rbot) = %.12g\n", es->name, ratio);
+    ls_wr_say(w, "  (rtop + rbot from %s to %s", ls_eng(rp, b1, sizeof b1, lo, OHM), ls_eng(rp, b2, sizeof b2, hi, OHM));
     if (zmax > 0)
-        fprintf(o, ", zout at most %s", ls_eng(rp, b3, sizeof b3, zmax, OHM));
-    fprintf(o, "; each value from %s", ls_eng(rp, b1, sizeof b1, plo, OHM));
-    fprintf(o, " to %s)\n\n", ls_eng(rp, b2, sizeof b2, phi, OHM));
-    if (n == 0) {
-        fputs("  no pair of values meets those limits\n", o);
-        return;
-    }
-    if (!pick_fits(es, it, n)) {
-        fprintf(o, "  no pair comes within %g%% (the tolerance of %s parts) of that ratio.\n", 100 * ls_eseries_tolerance(es),
-                es->name);
-        char rt[48], er[48];
-        fprintf(o, "  The closest is rtop %s, rbot %s: ratio %s, off by %s%%.\n",
-                ls_eng(rp, b1, sizeof b1, it[0].rtop, OHM), ls_eng(rp, b2, sizeof b2, it[0].rbot, OHM),
-                ls_fixed(rp, rt, sizeof rt, "%.6g", it[0].ratio), ls_fixed(rp, er, sizeof er, "%+.3g", 100 * it[0].error));
-        fputs("  Widen --total, or make the ratio with more than two resistors or a trimmer.\n", o);
-        return;
-    }
-    fprintf(o, "  %-4s %12s %12s %12s %11s %12s\n", "rank", "rtop", "rbot", "ratio", "error", "zout");
-    for (int i = 0; i < n; i++) {
-        char e[48], en[40], rt[48];
-        /* errors below the third decimal and ratios within 1e-6 of 0 or 1
-         * keep their digits instead of printing as -0.000% and 1.000000 */
-        double pct = 100 * it[i].error;
-        snprintf(e, sizeof e, "%s%%", ls_fixed(rp, en, sizeof en, fabs(pct) >= 0.0005 || pct == 0 ? "%+.3f" : "%+.2e", pct));
-        fprintf(o, "  %-4d", i + 1);
-        rpad(o, ls_eng(rp, b1, sizeof b1, it[i].rtop, OHM), 12);
-        rpad(o, ls_eng(rp, b2, sizeof b2, it[i].rbot, OHM), 12);
-        double r = it[i].ratio;
-        fprintf(o, " %s %11s", ls_fixed(rp, rt, sizeof rt, r >= 1e-6 && r <= 1 - 1e-6 ? "%12.6f" : "%12.10g", r), e);
-        rpad(o, ls_eng(rp, b3, sizeof b3, it[i].zout, OHM), 12);
-        fputc('\n', o);
-    }
+        ls_wr_say(w, ", zout at most %s", ls_eng(rp, b3, sizeof b3, zmax, OHM));
+    ls_wr_say(w, "; each value from %s", ls_eng(rp, b1, sizeof b1, plo, OHM));
+    ls_wr_say(w, " to %s)\n\n", ls_eng(rp, b2, sizeof b2, phi, OHM));
+}
+
+/* No pair within the series' tolerance: "fits" false, the closest pair, and
+ * in text what to try instead. */
+static void pick_misses(ls_wr *w, const ls_cli *cli, double ratio, const ls_eseries *es, const ls_pick_item *it)
+{
+    const ls_report *rp = w->rp;
+    const char *OHM = ls_unit_of(LS_OHM, cli->ascii);
+    char b1[64], b2[64], rt[48], er[48];
+    ls_wr_obj(w, "closest");
+    pick_pair(w, ratio, &it[0]);
+    ls_wr_end(w);
+    ls_wr_say(w, "  no pair comes within %g%% (the tolerance of %s parts) of that ratio.\n",
+              100 * ls_eseries_tolerance(es), es->name);
+    ls_wr_say(w, "  The closest is rtop %s, rbot %s: ratio %s, off by %s%%.\n",
+              ls_eng(rp, b1, sizeof b1, it[0].rtop, OHM), ls_eng(rp, b2, sizeof b2, it[0].rbot, OHM),
+              ls_fixed(rp, rt, sizeof rt, "%.6g", it[0].ratio), ls_fixed(rp, er, sizeof er, "%+.3g", 100 * it[0].error));
+    ls_wr_say(w, "  Widen --total, or make the ratio with more than two resistors or a trimmer.\n");
+}
+
+/* The pairs' table: in text a rank, the values, the ratio, its error in %
+ * and the divider's zout, in fixed columns. */
+static const ls_wr_col pick_cols[] = {
+    {NULL, "rank", "rank", false, 4},        {"rtop", "rtop", "rtop", true, 12},
+    {"rbot", "rbot", "rbot", true, 12},      {"ratio", "ratio", "ratio", true, 12},
+    {"error", "error", NULL, true, 0},       {"error_rel", "error_rel", "error", true, 11},
+    {"zout", "zout", "zout", true, 12},
+};
+
+/* One row of pick_cols. */
+static void pick_row(ls_wr *w, const ls_cli *cli, double ratio, int rank, const ls_pick_item *p)
+{
+    const ls_report *rp = w->rp;
+    const char *OHM = ls_unit_of(LS_OHM, cli->ascii);
+    char b[64], e[48], en[40], rt[48];
+    /* errors below the third decimal and ratios within 1e-6 of 0 or 1
+     * keep their digits instead of printing as -0.000% and 1.000000 */
+    double pct = 100 * p->error, r = p->ratio;
+    snprintf(e, sizeof e, "%s%%", ls_fixed(rp, en, sizeof en, fabs(pct) >= 0.0005 || pct == 0 ? "%+.3f" : "%+.2e", pct));
+    ls_wr_cell_int(w, rank);
+    ls_wr_cell_num(w, p->rtop, ls_eng(rp, b, sizeof b, p->rtop, OHM));
+    ls_wr_cell_num(w, p->rbot, ls_eng(rp, b, sizeof b, p->rbot, OHM));
+    ls_wr_cell_num(w, r, ls_fixed(rp, rt, sizeof rt, r >= 1e-6 && r <= 1 - 1e-6 ? "%12.6f" : "%12.10g", r));
+    ls_wr_cell_num(w, p->ratio - ratio, NULL);
+    ls_wr_cell_num(w, p->error, e);
+    ls_wr_cell_num(w, p->zout, ls_eng(rp, b, sizeof b, p->zout, OHM));
+    ls_wr_row(w);
+}
+
+/* The pick report, described once for every format (writer.h). */
+static void pick_report(ls_report *rp, const ls_cli *cli, double ratio, const ls_eseries *es, double lo, double hi,
+                        double zmax, const ls_pick_item *it, int n)
+{
+    ls_wr w;
+    ls_wr_begin(&w, rp);
+    pick_limits(&w, cli, ratio, es, lo, hi, zmax);
+    ls_wr_num(&w, "ratio", ratio);
+    ls_wr_str(&w, "series", es->name);
+    bool fits = pick_fits(es, it, n);
+    ls_wr_bool(&w, "fits", fits);
+    if (n == 0)
+        ls_wr_say(&w, "  no pair of values meets those limits\n");
+    else if (!fits)
+        pick_misses(&w, cli, ratio, es, it);
+    static const ls_wr_style fixed = {.lead = "  ", .gap = " ", .fixed = true, .skip_empty = true};
+    ls_wr_table(&w, "items", pick_cols, (int)(sizeof pick_cols / sizeof *pick_cols), &fixed);
+    for (int i = 0; fits && i < n; i++)
+        pick_row(&w, cli, ratio, i + 1, &it[i]);
+    ls_wr_table_end(&w);
+    ls_wr_finish(&w);
 }
 
 /* `loadstack pick ratio R`: search, then report.  Returns the exit code. */
@@ -176,17 +182,7 @@ int ls_cmd_pick(ls_cli *cli)
     s.cli = cli;
     FILE *o = ls_out_open(cli);
     ls_report rp = ls_report_for(&s, o);
-    if (cli->fmt == FMT_JSON) {
-        pick_json(&rp, ratio, es, items, n);
-    } else if (cli->fmt == FMT_CSV) {
-        fputs("rank,rtop,rbot,ratio,error,error_rel,zout\n", o);
-        for (int i = 0; i < n && pick_fits(es, items, n); i++)
-            fprintf(o, "%d,%s,%s,%s,%s,%s,%s\n", i + 1, LS_CSV(items[i].rtop), LS_CSV(items[i].rbot),
-                    LS_CSV(items[i].ratio), LS_CSV(items[i].ratio - ratio), LS_CSV(items[i].error),
-                    LS_CSV(items[i].zout));
-    } else {
-        pick_text(o, &rp, cli, ratio, es, lo, hi, zmax, items, n);
-    }
+    pick_report(&rp, cli, ratio, es, lo, hi, zmax, items, n);
     /* no pair that fits is a failed search, as for fit (docs/cli.md) */
     return ls_out_close(cli, ls_report_done(&rp, pick_fits(es, items, n) ? LS_EXIT_OK : LS_EXIT_CHECK));
 }

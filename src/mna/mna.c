@@ -262,14 +262,19 @@ int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const unsigned char *o
     if (!m->branch_part || !m->b)
         return -1;
     int k = m->nn;
+    size_t guess = 16;
     for (int i = 0; i < nl->nparts; i++) {
         ls_part *p = &nl->parts[i];
-        int c = p->kind->branches(p);
+        int c = p->kind->branches(p), np = p->kind->npins;
         p->branch = c ? k : -1;
         for (int j = 0; j < c; j++)
             m->branch_part[k - m->nn + j] = i;
         k += c;
+        /* a node-to-node stamp per pair of pins, a few entries per branch:
+         * the first assembly's triplets then need no growing copies */
+        guess += (size_t)np * (size_t)np + 4 * (size_t)c;
     }
+    m->nnz_hint = guess;
     return stamp_all(m);
 }
 

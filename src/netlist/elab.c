@@ -4,6 +4,7 @@
 #include "netlist/elab.h"
 #include "base/unionfind.h"
 
+#include <limits.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -74,9 +75,25 @@ static void out_of_memory(elab *x)
     out_of_memory_n(x, x->a->failed_bytes ? x->a->failed_bytes : x->d->arena->failed_bytes);
 }
 
-static bool grow_x(elab *x, void **v, int *cap, int need, size_t elem)
+/* Make room for exactly `need` elements when the array holds fewer (the
+ * elaborator's size estimate, so that a large circuit does not copy its
+ * tables as they double); a failure changes nothing (they grow as they go). */
+static void reserve(void **v, int *cap, long long need, size_t elem)
 {
-    if (grow(v, cap, need, elem))
+    if (need <= *cap || need > INT_MAX / 2)
+        return;
+    void *p = realloc(*v, (size_t)need * elem);
+    if (p) {
+        *v = p;
+        *cap = (int)need;
+    }
+}
+
+/* Room for `need` elements, else the out-of-memory error; true when there
+ * is room.  The common case, room already there, stays inline. */
+static inline bool grow_x(elab *x, void **v, int *cap, int need, size_t elem)
+{
+    if (need <= *cap || grow(v, cap, need, elem))
         return true;
     size_t c = *cap ? (size_t)*cap : 64; /* what grow asked for */
     while (c < (size_t)need)
@@ -210,7 +227,9 @@ static int new_node(elab *x, const char *full, ls_loc loc, int depth, int *found
 static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
 {
     ls_netlist *nl = x->nl;
-    if (strcmp(name, "ground") == 0 || (nl->ground_name && strcmp(name, nl->ground_name) == 0))
+    /* the first bytes rule out most names before a string comparison */
+    if ((name[0] == 'g' && strcmp(name, "ground") == 0) ||
+        (nl->ground_name && name[0] == nl->ground_name[0] && strcmp(name, nl->ground_name) == 0))
         return 0;
     const char *full = qualify(x, s, name);
     bool dotted = strchr(name, '.') != NULL;
@@ -886,19 +905,47 @@ int ls_port_adc(const ls_netlist *nl, int port)
     return best;
 }
 
+/* Per node, whether ls_port_adc would find an adc input there (the same
+ * rule: an adc whose LSB is below infinity), from one pass over the parts, so
+ * that the budget check does not scan the part table per port.  Malloc'd,
+ * nnodes flags; NULL when out of memory (then ls_port_adc per port). */
+static bool *adc_on_node(const ls_netlist *nl)
+{
+    bool *has = calloc((size_t)(nl->nnodes ? nl->nnodes : 1), sizeof *has);
+    if (!has)
+        return NULL;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (strcmp(p->kind->name, "adc") == 0 && p->pin[0] > 0 && p->pin[0] < nl->nnodes &&
+            ls_adc_lsb(p) < INFINITY)
+            has[p->pin[0]] = true;
+    }
+    return has;
+}
+
 /* Budgets whose unit does not fit their port: LSB without an adc on the load
  * node, volts on a current-mode port, amperes on a voltage-mode one. */
 static void check_budgets(elab *x)
 {
     ls_netlist *nl = x->nl;
     int bi = ls_kind_opt(ls_kind_find("port"), "budget");
+    bool *adc = NULL, adc_tried = false;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         if (!p->kind->is_port || !ls_part_has(p, bi))
             continue;
         const ls_budget *b = &nl->budgets[(int)p->opt[bi]];
         bool cur = ls_part_opt(p, "mode", 0) == 1;
-        if (b->unit == LS_BUDGET_LSB && (cur || ls_port_adc(nl, i) < 0))
+        bool no_adc = false;
+        if (b->unit == LS_BUDGET_LSB && !cur) {
+            if (!adc_tried) {
+                adc = adc_on_node(nl);
+                adc_tried = true;
+            }
+            int load = p->pin[1];
+            no_adc = adc ? !(load > 0 && load < nl->nnodes && adc[load]) : ls_port_adc(nl, i) < 0;
+        }
+        if (b->unit == LS_BUDGET_LSB && (cur || no_adc))
             ls_error(x->d, b->loc, "budget in LSB needs an adc input on the port's load node, and '%s' has none%s; "
                      "write volts or a %% of the open value",
                      nl->nodes[p->pin[1]].name, cur ? " (and a current-mode port's sag is a current)" : "");
@@ -909,6 +956,7 @@ static void check_budgets(elab *x)
             ls_error(x->d, b->loc, "port '%s' is voltage-mode: its budget is volts, a %% or LSB, not a current",
                      p->name);
     }
+    free(adc);
 }
 
 /* ---- statements --------------------------------------------------------------------- */
@@ -1411,11 +1459,14 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
             continue; /* the positional value was given but had an error */
         ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
     }
-    finish_free(x, &p);
-    if (x->deps && p.has_value && (ls_part_has(&p, ls_kind_opt(k, "snap")) || ls_part_has(&p, ls_kind_opt(k, "free"))))
-        follow_rounded(x, &p, deps_n0);
-    if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
-        snap_value(x, &p, ls_kind_opt(k, "snap"), snap_loc);
+    if (p.has_opt) { /* free= and snap= are options: without any, nothing to finish */
+        finish_free(x, &p);
+        if (x->deps && p.has_value &&
+            (ls_part_has(&p, ls_kind_opt(k, "snap")) || ls_part_has(&p, ls_kind_opt(k, "free"))))
+            follow_rounded(x, &p, deps_n0);
+        if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
+            snap_value(x, &p, ls_kind_opt(k, "snap"), snap_loc);
+    }
     if (st->arrow && p.pin[0] >= 0 && p.pin[0] == p.pin[1])
         ls_warning(x->d, st->from_loc, "same-node", "both ends of %s '%s' are the same node '%s'", k->name, st->name,
                    nl->nodes[p.pin[0]].name);
@@ -2066,6 +2117,9 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
          * nodes again, so that a large circuit does not rehash as it grows
          * (a failure here only means the table grows as it goes). */
         ls_hash_reserve(&nl->names, (size_t)nparts + (size_t)nparts / 2 + 16);
+        reserve((void **)&nl->parts, &nl->cap_parts, nparts, sizeof *nl->parts);
+        reserve((void **)&nl->ents, &nl->cap_ents, nparts + nparts / 2 + 16, sizeof *nl->ents);
+        reserve((void **)&nl->nodes, &nl->cap_nodes, nparts / 2 + 16, sizeof *nl->nodes);
         elab_body(&x, &top, prog->stmts, prog->n);
     }
     resolve_refs(&x);

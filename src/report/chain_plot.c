@@ -170,10 +170,10 @@ static void stage_box(ls_chain_pic *pic, cairo_t *cr, const ls_netlist *nl, cons
 }
 
 /* The label of a connection: port, zout -> zin, ratio, sag, verdict, fix. */
-static void conn_label(ls_chain_pic *pic, cairo_t *cr, ls_op *op, int port, bool ascii, item *it)
+static void conn_label(ls_chain_pic *pic, cairo_t *cr, const ls_op *op, int port, bool ascii, item *it)
 {
     const ls_part *p = &op->nl->parts[port];
-    const ls_port_result *pr = ls_op_port(op, port);
+    const ls_port_result *pr = ls_port_read(op, port);
     const char *OHM = ascii ? "ohm" : "\xCE\xA9", *ARROW = ascii ? "->" : "\xE2\x86\x92";
     static const char *const mark[3] = {"\xE2\x9C\x93 ok", "\xE2\x96\xB3 marginal", "\xE2\x9C\x97 LOADING"};
     static const char *const mark_ascii[3] = {"+ ok", "~ marginal", "X LOADING"};
@@ -224,7 +224,7 @@ static double box_x(const place *pl, int b) { return pl->x0 + col_of(pl, b) * (p
 /* Boxes for the rail and ground ends of ports, one per node, numbered from
  * *n: with drivers, the rails that drive a port (they go before the stages);
  * else the rails that are only loads (after them). */
-static void rail_boxes(ls_chain_pic *pic, cairo_t *cr, ls_op *op, const ls_chain *c, int *rail_box, int *n,
+static void rail_boxes(ls_chain_pic *pic, cairo_t *cr, const ls_op *op, const ls_chain *c, int *rail_box, int *n,
                        bool drivers)
 {
     const ls_netlist *nl = op->nl;
@@ -407,7 +407,7 @@ static int corridors(const ls_chain *c, const place *pl)
     return n;
 }
 
-static int layout(ls_chain_pic *pic, cairo_t *cr, ls_op *op, const ls_chain *c, bool ascii, place *pl)
+static int layout(ls_chain_pic *pic, cairo_t *cr, const ls_op *op, const ls_chain *c, bool ascii, place *pl)
 {
     const ls_netlist *nl = op->nl;
     int nmax = c->nstages + 2 * c->nconns + 1;
@@ -465,12 +465,12 @@ static int layout(ls_chain_pic *pic, cairo_t *cr, ls_op *op, const ls_chain *c, 
 }
 
 /* A one-sentence summary for the picture's title and alt text. */
-static const char *summary(ls_chain_pic *pic, ls_op *op, const ls_chain *c)
+static const char *summary(ls_chain_pic *pic, const ls_op *op, const ls_chain *c)
 {
     int bad = 0;
     char names[300] = "";
     for (int k = 0; k < c->nconns; k++) {
-        const ls_port_result *pr = ls_op_port(op, c->conns[k].port);
+        const ls_port_result *pr = ls_port_read(op, c->conns[k].port);
         if (pr->verdict == VERDICT_OK)
             continue;
         size_t l = strlen(names);
@@ -484,7 +484,7 @@ static const char *summary(ls_chain_pic *pic, ls_op *op, const ls_chain *c)
                            bad ? "not ok: " : "every connection ok", names);
 }
 
-ls_chain_pic *ls_chain_layout(ls_op *op, const ls_chain *c, const char *title, bool ascii)
+ls_chain_pic *ls_chain_layout(const ls_op *op, const ls_chain *c, const char *title, bool ascii)
 {
     ls_chain_pic *pic = calloc(1, sizeof *pic);
     if (!pic)

@@ -20,12 +20,14 @@
 #include <stdio.h>
 
 #include "analysis/chain.h"
+#include "analysis/results.h"
 
 typedef struct ls_chain_pic ls_chain_pic;
 
-/* Lay out chain c of the solved circuit op.  title may be NULL.  Returns the
+/* Lay out chain c of the solved circuit op, whose connections' port reports
+ * are computed (ls_chain_ports).  title may be NULL.  Returns the
  * layout (free with ls_chain_pic_free), or NULL when out of memory. */
-ls_chain_pic *ls_chain_layout(ls_op *op, const ls_chain *c, const char *title, bool ascii);
+ls_chain_pic *ls_chain_layout(const ls_op *op, const ls_chain *c, const char *title, bool ascii);
 void ls_chain_pic_free(ls_chain_pic *pic);
 
 /* Picture size in CSS pixels. */

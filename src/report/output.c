@@ -8,6 +8,7 @@
 #include <limits.h>
 #include <stdarg.h>
 #include <stdatomic.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
@@ -252,6 +253,12 @@ static bool u8_pass(u8filter *s, const unsigned char *p, size_t n, bool more)
 {
     size_t i = 0, run = 0;
     while (i < n) {
+        /* ASCII, nearly all of a report, eight bytes a step */
+        uint64_t w;
+        while (i + 8 <= n && (memcpy(&w, p + i, 8), (w & 0x8080808080808080ull) == 0))
+            i += 8;
+        if (i >= n)
+            break;
         int k = ls_utf8_seq(p + i, n - i);
         if (k > 0) {
             i += (size_t)k;

@@ -1,6 +1,8 @@
 /* report.c — the operating-point and check reports in text, JSON and CSV. */
 #include "report/report.h"
+#include "report/textbuf.h"
 
+#include <assert.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdlib.h>
@@ -8,116 +10,8 @@
 
 #include "netlist/elab.h"
 #include "base/fmt.h"
-#include "analysis/lowrank.h"
 #include "analysis/newton.h"
 #include "base/numfmt.h"
-
-/* ---- buffered output -------------------------------------------------------------------
- *
- * A large circuit's report is millions of short pieces (a grid of a million
- * nodes writes some 300 MB of JSON).  Each stdio call costs more than the copy
- * it makes, so the writers below put their pieces into one block and hand it to
- * the stream in large fwrite calls.  A writer flushes its block before anything
- * else writes to the stream and before it returns, so the order of the output
- * is the order of the calls.  Errors stay on the stream (ferror), as before. */
-typedef struct obuf {
-    FILE *f;
-    char *p;              /* next free byte of b */
-    char b[32768];
-} obuf;
-
-static void ob_init(obuf *o, FILE *f)
-{
-    o->f = f;
-    o->p = o->b;
-}
-
-static void ob_flush(obuf *o)
-{
-    if (o->p != o->b)
-        fwrite(o->b, 1, (size_t)(o->p - o->b), o->f);
-    o->p = o->b;
-}
-
-static size_t ob_room(const obuf *o)
-{
-    return (size_t)(o->b + sizeof o->b - o->p);
-}
-
-static void ob_write(obuf *o, const char *s, size_t n)
-{
-    if (n > ob_room(o)) {
-        ob_flush(o);
-        if (n > sizeof o->b) {
-            fwrite(s, 1, n, o->f);
-            return;
-        }
-    }
-    memcpy(o->p, s, n);
-    o->p += n;
-}
-
-static void ob_puts(obuf *o, const char *s)
-{
-    ob_write(o, s, strlen(s));
-}
-
-static void ob_putc(obuf *o, char c)
-{
-    if (!ob_room(o))
-        ob_flush(o);
-    *o->p++ = c;
-}
-
-static void ob_printf(obuf *o, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static void ob_printf(obuf *o, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    size_t room = ob_room(o);
-    int n = vsnprintf(o->p, room, fmt, ap);
-    va_end(ap);
-    if (n < 0)
-        return;
-    if ((size_t)n < room) {
-        o->p += n;
-        return;
-    }
-    ob_flush(o);
-    va_start(ap, fmt);
-    if ((size_t)n < sizeof o->b) {
-        vsnprintf(o->p, sizeof o->b, fmt, ap);
-        o->p += n;
-    } else {
-        vfprintf(o->f, fmt, ap);
-    }
-    va_end(ap);
-}
-
-/* The shortest exact text, or nothing when not finite: a CSV value */
-static void ob_csv_number(obuf *o, double v)
-{
-    if (!isfinite(v))
-        return;
-    if (ob_room(o) < LS_NUM_MAX)
-        ob_flush(o);
-    o->p += ls_num_shortest(o->p, v);
-}
-
-static void ob_csv_field(obuf *o, const char *s)
-{
-    if (strpbrk(s, ",\"\n\r")) {
-        ob_putc(o, '"');
-        for (; *s; s++) {
-            if (*s == '"')
-                ob_putc(o, '"');
-            ob_putc(o, *s);
-        }
-        ob_putc(o, '"');
-    } else {
-        ob_puts(o, s);
-    }
-}
 
 /* The names of a large circuit's nodes and parts lie scattered over its arena,
  * and the first read of each is a cache miss that the row loops would wait for
@@ -157,7 +51,7 @@ int ls_report_json_end(ls_report *rp, ls_jw *w)
 
 void ls_report_budget_json(ls_jw *w, const ls_port_result *pr)
 {
-    ls_jw_num_why(w, "budget", pr->budget, isnan(pr->budget) ? LS_WHY_NONE : ls_jw_why_of(pr->budget));
+    ls_jw_num_why(w, ls_prop_name(PROP_BUDGET), pr->budget, isnan(pr->budget) ? LS_WHY_NONE : ls_jw_why_of(pr->budget));
     ls_jw_str(w, "by", pr->by_budget ? "budget" : "ratio");
 }
 
@@ -223,254 +117,12 @@ const char *ls_unit_of(ls_dims d, bool ascii)
     return u;
 }
 
-/* Display width of a UTF-8 string (code points). */
-static int width(const char *s)
-{
-    int w = 0;
-    for (; *s; s++)
-        w += ((unsigned char)*s & 0xC0) != 0x80;
-    return w;
-}
-
-/* The byte length of s, and its display width in *w: one pass for both (the
- * table code measures every cell). */
-static size_t measure(const char *s, int *w)
-{
-    const char *p = s;
-    int k = 0;
-    for (; *p; p++)
-        k += ((unsigned char)*p & 0xC0) != 0x80;
-    *w = k;
-    return (size_t)(p - s);
-}
-
-/* k spaces, written in blocks rather than one at a time (a report may have
- * millions of cells). */
-static void spaces(obuf *out, int k)
-{
-    static const char blanks[] = "                                                                ";
-    while (k > 0) {
-        int c = k < (int)sizeof blanks - 1 ? k : (int)sizeof blanks - 1;
-        ob_write(out, blanks, (size_t)c);
-        k -= c;
-    }
-}
-
-/* s (len bytes, sw columns) padded with spaces to w columns, on the left or
- * the right */
-static void pad(obuf *out, const char *s, size_t len, int sw, int w, bool right)
-{
-    int k = w - sw;
-    if (right)
-        spaces(out, k);
-    ob_write(out, s, len);
-    if (!right)
-        spaces(out, k);
-}
-
-/* ---- a small table printer for aligned text columns ---------------------------- */
-
-/* The cells of all rows live in one growing text buffer, NUL-terminated and
- * back to back in row order, and the column widths are kept up to date as rows
- * arrive, so a table of a million rows costs no per-cell allocation and one
- * pass to print, which reads the cells in the order they were stored. */
-#define TABLE_MAXCOL 12   /* the widest table, the ports', has 11 columns */
-
-typedef struct table {
-    int ncol;
-    const char *head[TABLE_MAXCOL];
-    bool right[TABLE_MAXCOL];
-    char *text;           /* NUL-terminated cells, back to back */
-    size_t len, text_cap;
-    int rows;
-    int w[TABLE_MAXCOL];  /* widest cell of each column so far */
-    bool failed;          /* out of memory: rows after it are dropped (t_print tells the report) */
-    size_t failed_bytes;  /* what the failed allocation asked for */
-} table;
-
-/* Append one row of ncol cells (NULL counts as empty); copies the text. */
-static void t_row(table *t, const char *const *cells)
-{
-    if (t->failed)
-        return;
-    size_t n[TABLE_MAXCOL], total = 0;
-    int cw[TABLE_MAXCOL];
-    for (int i = 0; i < t->ncol; i++) {
-        n[i] = measure(cells[i] ? cells[i] : "", &cw[i]) + 1;
-        total += n[i];
-    }
-    if (t->len + total > t->text_cap) {
-        size_t cap = t->text_cap ? t->text_cap * 2 : 4096;
-        while (cap < t->len + total)
-            cap *= 2;
-        char *b = realloc(t->text, cap);
-        if (!b) {
-            t->failed = true;
-            t->failed_bytes = cap;
-            return;
-        }
-        t->text = b;
-        t->text_cap = cap;
-    }
-    for (int i = 0; i < t->ncol; i++) {
-        const char *c = cells[i] ? cells[i] : "";
-        memcpy(t->text + t->len, c, n[i]);
-        t->len += n[i];
-        t->w[i] = cw[i] > t->w[i] ? cw[i] : t->w[i];
-    }
-    t->rows++;
-}
-
-/* Print the heading and the rows aligned to rp->out, then empty the table.
- * A table that lost rows for want of memory marks the report (rp->nomem):
- * what is printed is not the whole table.  Returns 0, or -1 then. */
-static int t_print(table *t, ls_report *rp)
-{
-    FILE *f = rp->out;
-    bool lost = t->failed;
-    if (lost) {
-        rp->nomem = "a table of the text report";
-        rp->nomem_bytes = t->failed_bytes;
-    }
-    obuf ob, *out = &ob;
-    int w[TABLE_MAXCOL];
-    for (int c = 0; c < t->ncol; c++) {
-        w[c] = width(t->head[c]);
-        w[c] = t->w[c] > w[c] ? t->w[c] : w[c];
-    }
-    ob_init(out, f);
-    ob_puts(out, "  ");
-    for (int c = 0; c < t->ncol; c++) {
-        if (c + 1 == t->ncol && !t->right[c])
-            ob_puts(out, t->head[c]);
-        else
-            pad(out, t->head[c], strlen(t->head[c]), width(t->head[c]), w[c], t->right[c]);
-        ob_puts(out, c + 1 < t->ncol ? "  " : "\n");
-    }
-    const char *s = t->text;
-    for (int r = 0; r < t->rows; r++) {
-        ob_puts(out, "  ");
-        for (int c = 0; c < t->ncol; c++) {
-            int sw;
-            size_t len = measure(s, &sw);
-            if (c + 1 == t->ncol && !t->right[c])
-                ob_write(out, s, len);
-            else
-                pad(out, s, len, sw, w[c], t->right[c]);
-            ob_puts(out, c + 1 < t->ncol ? "  " : "\n");
-            s += len + 1;
-        }
-    }
-    ob_flush(out);
-    free(t->text);
-    t->text = NULL;
-    t->len = t->text_cap = 0;
-    t->rows = 0;
-    t->failed = false;
-    memset(t->w, 0, sizeof t->w);
-    return lost ? -1 : 0;
-}
-
 /* ---- checks ------------------------------------------------------------------------- */
 
 static const char *verdict_name(ls_verdict v)
 {
     static const char *const n[] = {"ok", "marginal", "loading"};
     return n[v];
-}
-
-/* The check row of a port judged by the ratio rule. */
-static void ratio_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
-{
-    const ls_netlist *nl = op->nl;
-    double min = ls_op_min_ratio(op);
-    row->text = ls_arena_printf(nl->arena, "rule ratio >= %g (port %s)", min, nl->parts[i].name);
-    row->instance = nl->parts[i].instance;
-    row->loc = nl->parts[i].loc;
-    row->dims = LS_FREE;
-    row->port = i;
-    row->r.value = pr->ratio;
-    row->r.lo = min;
-    row->r.hi = INFINITY;
-    row->r.pass = pr->verdict == VERDICT_OK;
-    if (isnan(pr->ratio) && !row->r.pass)
-        row->r.reason = pr->note ? pr->note : "the ratio is undefined";
-}
-
-/* Where a port's budget comes from, in words. */
-static const char *budget_source(const ls_port_result *pr)
-{
-    switch (pr->budget_from) {
-    case LS_BUDGET_FROM_PORT: return "budget";
-    case LS_BUDGET_FROM_RULE: return "rule sag";
-    case LS_BUDGET_FROM_ADC: return "half an LSB";
-    default: return "none";
-    }
-}
-
-/* The check row of a port judged by its budget: |sag| <= budget. */
-static void budget_row(ls_op *op, int i, const ls_port_result *pr, ls_check_row *row)
-{
-    const ls_netlist *nl = op->nl;
-    const ls_part *p = &nl->parts[i];
-    char b[64];
-    ls_fmt_eng(b, sizeof b, pr->budget, pr->current_mode ? "A" : "V", 4, true);
-    row->text = ls_arena_printf(nl->arena, "port %s: abs(sag) <= %s (%s)", p->name, b, budget_source(pr));
-    row->instance = p->instance;
-    row->loc = p->loc;
-    row->dims = pr->current_mode ? LS_AMP : LS_VOLT;
-    row->port = i;
-    row->r.value = fabs(pr->sag);
-    row->r.lo = -INFINITY;
-    row->r.hi = pr->budget;
-    row->r.pass = pr->verdict == VERDICT_OK;
-    if (isnan(pr->sag))
-        row->r.reason = pr->note ? pr->note : "the sag is undefined";
-}
-
-int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out)
-{
-    const ls_netlist *nl = op->nl;
-    memset(out, 0, sizeof *out);
-    int nports = 0;
-    for (int i = 0; i < nl->nparts; i++)
-        nports += nl->parts[i].kind->is_port;
-    int cap = nl->nchecks + nports;
-    out->rows = calloc((size_t)(cap ? cap : 1), sizeof *out->rows);
-    if (!out->rows)
-        return -1;
-    for (int i = 0; i < nl->nchecks; i++) {
-        const ls_check *c = &nl->checks[i];
-        ls_check_row *row = &out->rows[out->n++];
-        row->text = c->text;
-        row->instance = c->instance;
-        row->loc = c->loc;
-        row->dims = c->lhs->dims;
-        row->port = -1;
-        ls_check_eval(op, c, &row->r);
-    }
-    for (int i = 0; i < nl->nparts; i++) {
-        if (!nl->parts[i].kind->is_port)
-            continue;
-        const ls_port_result *pr = ls_op_port(op, i);
-        if (pr->by_budget)
-            budget_row(op, i, pr, &out->rows[out->n++]);
-        else if (with_rule)
-            ratio_row(op, i, pr, &out->rows[out->n++]);
-    }
-    for (int i = 0; i < out->n; i++) {
-        if (out->rows[i].r.pass)
-            out->passed++;
-        else
-            out->failed++;
-    }
-    return 0;
-}
-
-void ls_checks_free(ls_checks *c)
-{
-    free(c->rows);
-    memset(c, 0, sizeof *c);
 }
 
 static int loc_line(const ls_diags *d, ls_loc l)
@@ -521,7 +173,7 @@ static void checks_text(ls_report *rp, const ls_checks *c)
     if (!c->n)
         return;
     fprintf(o, "\nChecks (%d passed, %d failed)\n", c->passed, c->failed);
-    table t = {.ncol = 4, .head = {"result", "check", "value", "where"}};
+    ls_table t = {.ncol = 4, .head = {"result", "check", "value", "where"}};
     for (int i = 0; i < c->n; i++) {
         const ls_check_row *r = &c->rows[i];
         char val[64], where[600], text[600];
@@ -532,9 +184,9 @@ static void checks_text(ls_report *rp, const ls_checks *c)
         else
             snprintf(text, sizeof text, "%s", r->text);
         const char *cells[4] = {r->r.pass ? "pass" : "FAIL", text, val, where};
-        t_row(&t, cells);
+        ls_t_row(&t, cells);
     }
-    t_print(&t, rp);
+    ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
     for (int i = 0; i < c->n; i++)
         if (c->rows[i].r.reason)
             fprintf(o, "  note: %s: %s\n", c->rows[i].text, c->rows[i].r.reason);
@@ -641,18 +293,17 @@ static const char *limit_text(ls_report *rp, const ls_part *p, char *buf, size_t
     return buf;
 }
 
-static void adc_text(ls_report *rp, ls_op *op)
+static void adc_text(ls_report *rp, const ls_results *res)
 {
+    const ls_op *op = res->op;
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
-    table t = {.ncol = 8, .head = {"adc", "input", "code", "unloaded", "error", "source", "max source", "verdict"},
+    ls_table t = {.ncol = 8, .head = {"adc", "input", "code", "unloaded", "error", "source", "max source", "verdict"},
                .right = {false, true, true, true, true, true, true, false}};
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_adc_result r;
-        const ls_part *p = &nl->parts[i];
-        if (ls_op_adc(op, i, &r) != 0)
-            continue;
+    for (int k = 0; k < res->nadcs; k++) {
+        const ls_adc_result r = res->adcs[k].r;
+        const ls_part *p = &nl->parts[res->adcs[k].part];
         char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64];
         int mi = ls_kind_opt(p->kind, "max_source");
         bool has_max = ls_part_has(p, mi);
@@ -675,17 +326,17 @@ static void adc_text(ls_report *rp, ls_op *op)
         if (!t.rows)
             fputs("\nADC inputs (error: the reading's shift from loading and leakage, judged against the feeding "
                   "port's budget, else half an LSB)\n", o);
-        t_row(&t, c);
+        ls_t_row(&t, c);
     }
     if (t.rows)
-        t_print(&t, rp);
+        ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
 }
 
-static void ntc_text(ls_report *rp, ls_op *op)
+static void ntc_text(ls_report *rp, const ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
-    table t = {.ncol = 4, .head = {"thermistor", "resistance", "body", "self-heating"},
+    ls_table t = {.ncol = 4, .head = {"thermistor", "resistance", "body", "self-heating"},
                .right = {false, true, true, true}};
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
@@ -699,24 +350,25 @@ static void ntc_text(ls_report *rp, ls_op *op)
                             b2, b3};
         if (!t.rows)
             fputs("\nThermistors\n", o);
-        t_row(&t, c);
+        ls_t_row(&t, c);
     }
     if (t.rows)
-        t_print(&t, rp);
+        ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
 }
 
 /* Extra JSON keys of the real parts' entries in "parts": an adc's reading,
  * a thermistor's resistance and temperatures. */
-static void part_extra_json(ls_jw *w, ls_op *op, int i)
+static void part_extra_json(ls_jw *w, const ls_results *res, int i)
 {
+    const ls_op *op = res->op;
     const ls_part *p = &op->nl->parts[i];
-    ls_adc_result r;
-    if (ls_op_adc(op, i, &r) == 0) {
-        ls_jw_int(w, "code", r.code);
-        ls_jw_num(w, "lsb", r.lsb);
-        ls_jw_num(w, "unloaded", r.v_open);
-        ls_jw_num(w, "error_lsb", r.error_lsb);
-        ls_jw_num(w, "source_resistance", r.rth);
+    const ls_adc_result *r = ls_results_adc(res, i);
+    if (r) {
+        ls_jw_int(w, "code", r->code);
+        ls_jw_num(w, "lsb", r->lsb);
+        ls_jw_num(w, "unloaded", r->v_open);
+        ls_jw_num(w, "error_lsb", r->error_lsb);
+        ls_jw_num(w, "source_resistance", r->rth);
     } else if (is_kind(p, "ntc")) {
         double t = ls_ntc_body(p);
         ls_jw_num(w, "resistance", ls_ntc_r(p, t));
@@ -728,15 +380,14 @@ static void part_extra_json(ls_jw *w, ls_op *op, int i)
 /* The "adcs" object: what the text's ADC table shows.  The verdict judges the
  * reading's error against budget_lsb (the feeding port's budget, else half an
  * LSB) and the source against max_source (source_too_high). */
-static void adcs_json(ls_jw *w, ls_op *op)
+static void adcs_json(ls_jw *w, const ls_results *res)
 {
+    const ls_op *op = res->op;
     const ls_netlist *nl = op->nl;
     ls_jw_obj(w, "adcs");
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_adc_result r;
-        const ls_part *p = &nl->parts[i];
-        if (ls_op_adc(op, i, &r) != 0)
-            continue;
+    for (int k = 0; k < res->nadcs; k++) {
+        const ls_adc_result r = res->adcs[k].r;
+        const ls_part *p = &nl->parts[res->adcs[k].part];
         int mi = ls_kind_opt(p->kind, "max_source");
         ls_jw_obj(w, p->name);
         ls_jw_num(w, "input", r.vin);
@@ -764,36 +415,18 @@ static const char *method_name(ls_method m)
     return n[m];
 }
 
-/* The resistors at port i's driver node whose value alone would bring zout
- * down to zmax, as "r_bot at most 1.2 kΩ" phrases (at most two, the
- * smallest change first), into buf; empty when none can. */
-static const char *resistor_advice(ls_report *rp, ls_op *op, int i, double zmax, char *buf, size_t n)
+/* The resistors of port i's advice (results.h) as "r_bot at most 1.2 kΩ"
+ * phrases into buf; empty when none can meet it. */
+static const char *resistor_advice(ls_report *rp, const ls_results *res, int i, char *buf, size_t n)
 {
-    const ls_netlist *nl = op->nl;
-    int f = nl->parts[i].pin[0], best[2] = {-1, -1};
-    double val[2] = {NAN, NAN}, change[2] = {INFINITY, INFINITY};
+    const ls_netlist *nl = res->op->nl;
+    const ls_port_advice *a = ls_results_advice(res, i);
     buf[0] = 0;
-    for (int j = 0; j < nl->nparts && f > 0; j++) {
-        const ls_part *r = &nl->parts[j];
-        if (strcmp(r->kind->name, "resistor") != 0 || (r->pin[0] != f && r->pin[1] != f))
-            continue;
-        double v = ls_port_resistor_for_zout(op, i, j, zmax);
-        if (!(v > 0) || !(v < r->value))
-            continue;
-        double c = r->value / v;   /* how many times smaller */
-        int k = c < change[0] ? 0 : c < change[1] ? 1 : 2;
-        if (k == 2)
-            continue;
-        if (k == 0) {
-            best[1] = best[0], val[1] = val[0], change[1] = change[0];
-        }
-        best[k] = j, val[k] = v, change[k] = c;
-    }
-    for (int k = 0; k < 2 && best[k] >= 0; k++) {
+    for (int k = 0; a && k < 2 && a->part[k] >= 0; k++) {
         char v[64];
         size_t l = strlen(buf);
-        snprintf(buf + l, n - l, "%s%s at most %s", k ? ", or " : "", nl->parts[best[k]].name,
-                 ls_eng(rp, v, sizeof v, val[k], ls_unit_of(LS_OHM, rp->ascii)));
+        snprintf(buf + l, n - l, "%s%s at most %s", k ? ", or " : "", nl->parts[a->part[k]].name,
+                 ls_eng(rp, v, sizeof v, a->ohm[k], ls_unit_of(LS_OHM, rp->ascii)));
     }
     return buf;
 }
@@ -802,8 +435,9 @@ static const char *resistor_advice(ls_report *rp, ls_op *op, int i, double zmax,
  * terms: sag = open zout / (zout + zin) of a loaded divider is within B when
  * zin/zout >= |open|/B - 1, which sets the ratio needed, the largest zout and
  * the smallest zin. */
-static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+static void budget_advice(ls_report *rp, const ls_results *res, int i, const ls_port_result *pr)
 {
+    const ls_op *op = res->op;
     const ls_part *p = &op->nl->parts[i];
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
     char sag[64], bud[64], need[64], zmax[64], zmin[64], parts[300], lsb[96] = "";
@@ -816,7 +450,7 @@ static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result 
                  a->name);
     }
     fprintf(rp->out, "  -> %s: the sag of %s%s is over its budget of %s (%s).", p->name, sag, lsb, bud,
-            budget_source(pr));
+            ls_budget_source(pr));
     double req = fabs(pr->open) / pr->budget - 1;
     if (!isfinite(req) || !(req > 0) || !isfinite(pr->zin) || !(pr->zout > 0)) {
         fputs(" A buffer (an op-amp follower) between the stages removes the load from the driver.\n", rp->out);
@@ -826,7 +460,7 @@ static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result 
     ls_eng(rp, need, sizeof need, req, "");
     ls_eng(rp, zmax, sizeof zmax, zo, OHM);
     ls_eng(rp, zmin, sizeof zmin, pr->zout * req, OHM);
-    resistor_advice(rp, op, i, zo, parts, sizeof parts);
+    resistor_advice(rp, res, i, parts, sizeof parts);
     fprintf(rp->out, " To meet it: zin/zout of at least %s, e.g. a buffer (an op-amp follower) between them, "
                      "or a driver with zout at most %s%s%s%s, or a load with zin at least %s.\n",
             need, zmax, parts[0] ? " (" : "", parts, parts[0] ? ")" : "", zmin);
@@ -841,7 +475,7 @@ static void budget_advice(ls_report *rp, ls_op *op, int i, const ls_port_result 
  * that ratio.  Returns how many fields were set (0: nothing to say: the port
  * passes, its ratio is undefined, its load is a short to ground, or its budget
  * gives no finite ratio). */
-static int fix_limits(ls_op *op, const ls_port_result *pr, const char *field[3], double v[3])
+static int fix_limits(const ls_op *op, const ls_port_result *pr, const char *field[3], double v[3])
 {
     if (pr->verdict == VERDICT_OK)
         return 0;
@@ -867,8 +501,9 @@ static int fix_limits(ls_op *op, const ls_port_result *pr, const char *field[3],
 
 /* One line for a port that fails its budget or the ratio: the largest zout or
  * the smallest zin that would meet it, or a buffer. */
-static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr)
+static void fix_advice(ls_report *rp, const ls_results *res, int i, const ls_port_result *pr)
 {
+    const ls_op *op = res->op;
     const ls_part *p = &op->nl->parts[i];
     double min = ls_op_min_ratio(op);
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
@@ -876,7 +511,7 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
     if (pr->verdict == VERDICT_OK)
         return;
     if (pr->by_budget && !pr->current_mode && isfinite(pr->sag)) {
-        budget_advice(rp, op, i, pr);
+        budget_advice(rp, res, i, pr);
         return;
     }
     if (isnan(pr->ratio)) {
@@ -888,7 +523,7 @@ static void fix_advice(ls_report *rp, ls_op *op, int i, const ls_port_result *pr
         char s[64], b[64];
         fprintf(rp->out, "  -> %s: the sag of %s is over its budget of %s (%s).\n", p->name,
                 ls_eng(rp, s, sizeof s, fabs(pr->sag), pr->current_mode ? "A" : "V"),
-                ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V"), budget_source(pr));
+                ls_eng(rp, b, sizeof b, pr->budget, pr->current_mode ? "A" : "V"), ls_budget_source(pr));
         return;
     }
     ls_eng(rp, r, sizeof r, pr->ratio, "");
@@ -929,24 +564,26 @@ static const char *budget_cell(ls_report *rp, const ls_port_result *pr, char *bu
 }
 
 /* The ports table, the note on held load sides (once) and the advice. */
-static void ports_text(ls_report *rp, ls_op *op)
+static void ports_text(ls_report *rp, const ls_results *res)
 {
+    const ls_op *op = res->op;
     FILE *o = rp->out;
     const ls_netlist *nl = op->nl;
     const char *V = "V", *A = "A", *OHM = ls_unit_of(LS_OHM, rp->ascii);
     char b1[64], b2[64], b3[64], b4[64], b5[64], b6[64], b7[64], bud[96], verdict[48];
     fprintf(o, "\nPorts (verdict: the sag against the port's budget where it has one, else zin/zout of at least %g)\n",
             ls_op_min_ratio(op));
-    table p = {.ncol = 11,
-               .head = {"port", "driver -> load", "open", "loaded", "sag", "budget", "zout", "zin", "ratio", "current",
-                        "verdict"},
+    ls_table p = {.ncol = 11,
+               .head = {"port", "driver -> load", ls_prop_name(PROP_OPEN), ls_prop_name(PROP_LOADED),
+                        ls_prop_name(PROP_SAG), ls_prop_name(PROP_BUDGET), ls_prop_name(PROP_ZOUT),
+                        ls_prop_name(PROP_ZIN), ls_prop_name(PROP_RATIO), ls_prop_name(PROP_CURRENT), "verdict"},
                .right = {false, false, true, true, true, true, true, true, true, true, false}};
     int held = 0;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *pt = &nl->parts[i];
         if (!pt->kind->is_port)
             continue;
-        const ls_port_result *pr = ls_op_port(op, i);
+        const ls_port_result *pr = ls_port_read(op, i);
         const char *u = pr->current_mode ? A : V;
         char conn[600], sag[96];
         held += pr->load_held;
@@ -963,21 +600,21 @@ static void ports_text(ls_report *rp, ls_op *op)
                              ls_eng(rp, b4, sizeof b4, pr->zout, OHM), ls_eng(rp, b5, sizeof b5, pr->zin, OHM),
                              ls_eng(rp, b6, sizeof b6, pr->ratio, ""), ls_eng(rp, b7, sizeof b7, pr->current, A),
                              verdict};
-        t_row(&p, c);
+        ls_t_row(&p, c);
     }
-    t_print(&p, rp);
+    ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
     if (held) {
         fputs("  note: the load side of", o);
         int k = 0;
         for (int i = 0; i < nl->nparts; i++)
-            if (nl->parts[i].kind->is_port && ls_op_port(op, i)->load_held)
+            if (nl->parts[i].kind->is_port && ls_port_read(op, i)->load_held)
                 fprintf(o, "%s %s", k++ ? (k == held ? " and" : ",") : "", nl->parts[i].name);
         fprintf(o, " has no DC path of its own once opened (an input that only a controlled source senses); "
                    "it was held at its loaded voltage while open and zout were computed, and zin is unbounded.\n");
     }
     for (int i = 0; i < nl->nparts; i++)
         if (nl->parts[i].kind->is_port)
-            fix_advice(rp, op, i, ls_op_port(op, i));
+            fix_advice(rp, res, i, ls_port_read(op, i));
 }
 
 /* v formatted as ls_eng does, with a leading "~" when its error bound says
@@ -993,12 +630,12 @@ static const char *eng_bounded(ls_report *rp, char *buf, size_t n, double v, con
     return buf;
 }
 
-/* Compute the error bounds for the report: true when it has them.  They
- * fail only for want of memory, and a report that leaves them out is not the
- * report asked for: rp->nomem says so. */
-static bool error_bounds(ls_report *rp, ls_op *op)
+/* Does the report have the error bounds?  They fail only for want of memory
+ * (results.h), and a report that leaves them out is not the report asked
+ * for: rp->nomem says so. */
+static bool error_bounds(ls_report *rp, const ls_results *res)
 {
-    if (ls_acc_bounds(op) == 0)
+    if (res->bounds)
         return true;
     rp->nomem = "the error bounds of the solution";
     rp->nomem_bytes = 0; /* (the bounds do not say what they asked for) */
@@ -1007,7 +644,7 @@ static bool error_bounds(ls_report *rp, ls_op *op)
 
 /* The accuracy line under the solver line: which refinement ran and whether
  * the printed digits are all within their error bounds. */
-static void accuracy_text(ls_report *rp, ls_op *op, int marked)
+static void accuracy_text(ls_report *rp, const ls_op *op, int marked)
 {
     const ls_accuracy *a = &op->acc;
     const char *how = !a->refined ? "iterative refinement in double precision (a circuit with nonlinear parts)"
@@ -1026,12 +663,13 @@ static void accuracy_text(ls_report *rp, ls_op *op, int marked)
                 a->estimated ? " (by an estimated bound)" : "");
 }
 
-static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
+/* The title, the solver line, the iteration line and the accuracy line.
+ * Returns whether the report has error bounds. */
+static bool solve_head_text(ls_report *rp, const ls_results *res)
 {
+    const ls_op *op = res->op;
     FILE *o = rp->out;
     const ls_netlist *nl = op->nl;
-    const char *V = "V", *A = "A", *W = "W";
-    char b1[64], b2[64], b3[64];
     fprintf(o, "%s\n", nl->title ? nl->title : "(untitled circuit)");
     if (op->method == LS_METHOD_ITERATIVE_AMG)
         fprintf(o, "solved: %d unknowns by %s (%s), %ld conjugate-gradient iterations to a true relative residual "
@@ -1044,7 +682,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     if (op->iterations > 1)
         fprintf(o, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
     /* marks need the bounds; count them first so the accuracy line can say how many */
-    bool bounds = error_bounds(rp, op);
+    bool bounds = error_bounds(rp, res);
     const ls_accuracy *acc = &op->acc;
     double vscale = ls_acc_scale(op, 0), iscale = ls_acc_scale(op, 1);
     int marked = 0;
@@ -1053,78 +691,111 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
     for (int i = 0; bounds && i < nl->nparts; i++)
         marked += !nl->parts[i].kind->is_port && ls_acc_doubtful(op->ipart[i], acc->part_bound[i], rp->sig, iscale);
     accuracy_text(rp, op, marked);
-    int dummy = 0;
+    return bounds;
+}
 
-    fputs("\nNodes\n", o);
+/* The node voltages (~ where the bounds doubt the last digit), with the
+ * touch-safety caution column when some node is above it. */
+static void nodes_text(ls_report *rp, const ls_op *op, bool bounds)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_accuracy *acc = &op->acc;
+    double vscale = ls_acc_scale(op, 0);
+    char b1[64];
+    int dummy = 0;
+    fputs("\nNodes\n", rp->out);
     bool hazard = false;
     for (int i = 0; i < nl->nnodes; i++)
         hazard |= fabs(op->v[i]) > LS_TOUCH_SAFE_DC;
-    table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
+    ls_table t = {.ncol = hazard ? 3 : 2, .head = {"node", "voltage", "caution"}, .right = {false, true, false}};
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
         const char *c[3] = {nl->nodes[i].name,
-                            bounds ? eng_bounded(rp, b1, sizeof b1, op->v[i], V, acc->node_bound[i], vscale, &dummy)
-                                   : ls_eng(rp, b1, sizeof b1, op->v[i], V),
+                            bounds ? eng_bounded(rp, b1, sizeof b1, op->v[i], "V", acc->node_bound[i], vscale, &dummy)
+                                   : ls_eng(rp, b1, sizeof b1, op->v[i], "V"),
                             fabs(op->v[i]) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : ""};
-        t_row(&t, c);
+        ls_t_row(&t, c);
     }
-    t_print(&t, rp);
+    ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
+}
 
+/* The parts but the ports: current (~ where doubtful), voltage, power. */
+static void parts_text(ls_report *rp, const ls_op *op, bool bounds)
+{
+    const ls_netlist *nl = op->nl;
+    const ls_accuracy *acc = &op->acc;
+    double iscale = ls_acc_scale(op, 1);
+    char b1[64], b2[64], b3[64];
+    int dummy = 0;
+    fputs("\nParts\n", rp->out);
+    ls_table p = {.ncol = 5, .head = {"part", "kind", "current", "voltage", "power"},
+                  .right = {false, false, true, true, true}};
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *pt = &nl->parts[i];
+        prefetch_part_name(nl, i);
+        if (pt->kind->is_port)
+            continue;
+        const char *c[5] = {pt->name, pt->kind->name,
+                            bounds ? eng_bounded(rp, b1, sizeof b1, op->ipart[i], "A", acc->part_bound[i], iscale,
+                                                 &dummy)
+                                   : ls_eng(rp, b1, sizeof b1, op->ipart[i], "A"),
+                            ls_eng(rp, b2, sizeof b2, op->vpart[i], "V"), ls_eng(rp, b3, sizeof b3, op->ppart[i], "W")};
+        ls_t_row(&p, c);
+    }
+    ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
+}
+
+/* The op-amps: output voltage and current, dissipation (where some op-amp
+ * has rails= to reckon it from) and the limit in force. */
+static void opamps_text(ls_report *rp, const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    char b1[64], b2[64], b3[64];
+    fputs("\nOp-amps\n", rp->out);
+    bool rails = false;
+    for (int i = 0; i < nl->nparts; i++)
+        rails |= isfinite(ls_opamp_dissipation(op, i));
+    ls_table p = {.ncol = rails ? 5 : 4, .head = {"op-amp", "out", "current", "dissipation", "limit"},
+                  .right = {false, true, true, true, false}};
+    if (!rails) {
+        p.head[3] = "limit";
+        p.right[3] = false;
+    }
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *pt = &nl->parts[i];
+        if (!pt->kind->is_opamp)
+            continue;
+        char lim[96];
+        double pd = ls_opamp_dissipation(op, i);
+        const char *c[5] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], "V"),
+                            ls_eng(rp, b2, sizeof b2, op->ipart[i], "A"),
+                            isfinite(pd) ? ls_eng(rp, b3, sizeof b3, pd, "W") : "-", limit_text(rp, pt, lim, sizeof lim)};
+        if (!rails)
+            c[3] = c[4];
+        ls_t_row(&p, c);
+    }
+    ls_t_print(&p, rp->out, &rp->nomem, &rp->nomem_bytes);
+}
+
+static void solve_text(ls_report *rp, const ls_results *res, const ls_checks *checks)
+{
+    const ls_op *op = res->op;
+    const ls_netlist *nl = op->nl;
+    bool bounds = solve_head_text(rp, res);
+    nodes_text(rp, op, bounds);
     int nparts = 0, nports = 0, nops = 0;
     for (int i = 0; i < nl->nparts; i++) {
         nports += nl->parts[i].kind->is_port;
         nops += nl->parts[i].kind->is_opamp;
         nparts += !nl->parts[i].kind->is_port;
     }
-    if (nparts) {
-        fputs("\nParts\n", o);
-        table p = {.ncol = 5, .head = {"part", "kind", "current", "voltage", "power"},
-                   .right = {false, false, true, true, true}};
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *pt = &nl->parts[i];
-            prefetch_part_name(nl, i);
-            if (pt->kind->is_port)
-                continue;
-            const char *c[5] = {pt->name, pt->kind->name,
-                                bounds ? eng_bounded(rp, b1, sizeof b1, op->ipart[i], A, acc->part_bound[i], iscale,
-                                                     &dummy)
-                                       : ls_eng(rp, b1, sizeof b1, op->ipart[i], A),
-                                ls_eng(rp, b2, sizeof b2, op->vpart[i], V), ls_eng(rp, b3, sizeof b3, op->ppart[i], W)};
-            t_row(&p, c);
-        }
-        t_print(&p, rp);
-    }
+    if (nparts)
+        parts_text(rp, op, bounds);
     if (nports)
-        ports_text(rp, op);
-    if (nops) {
-        fputs("\nOp-amps\n", o);
-        /* the dissipation column only where some op-amp has rails= to reckon it from */
-        bool rails = false;
-        for (int i = 0; i < nl->nparts; i++)
-            rails |= isfinite(ls_opamp_dissipation(op, i));
-        table p = {.ncol = rails ? 5 : 4, .head = {"op-amp", "out", "current", "dissipation", "limit"},
-                   .right = {false, true, true, true, false}};
-        if (!rails) {
-            p.head[3] = "limit";
-            p.right[3] = false;
-        }
-        for (int i = 0; i < nl->nparts; i++) {
-            const ls_part *pt = &nl->parts[i];
-            if (!pt->kind->is_opamp)
-                continue;
-            char lim[96];
-            double pd = ls_opamp_dissipation(op, i);
-            const char *c[5] = {pt->name, ls_eng(rp, b1, sizeof b1, op->v[pt->pin[2]], V),
-                                ls_eng(rp, b2, sizeof b2, op->ipart[i], A),
-                                isfinite(pd) ? ls_eng(rp, b3, sizeof b3, pd, W) : "-",
-                                limit_text(rp, pt, lim, sizeof lim)};
-            if (!rails)
-                c[3] = c[4];
-            t_row(&p, c);
-        }
-        t_print(&p, rp);
-    }
-    adc_text(rp, op);
+        ports_text(rp, res);
+    if (nops)
+        opamps_text(rp, op);
+    adc_text(rp, res);
     ntc_text(rp, op);
     checks_text(rp, checks);
     warnings_text(rp);
@@ -1135,7 +806,7 @@ static void solve_text(ls_report *rp, ls_op *op, const ls_checks *checks)
 /* The "accuracy" object: how the error bounds were found, the bound of every
  * node voltage (V; null, unbounded, when no first-order bound holds), and the
  * worst node and part against their own values. */
-static void accuracy_json(ls_jw *w, ls_op *op)
+static void accuracy_json(ls_jw *w, const ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     const ls_accuracy *a = &op->acc;
@@ -1159,12 +830,10 @@ static void accuracy_json(ls_jw *w, ls_op *op)
     ls_jw_end(w);
 }
 
-static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
+/* The "solver" object, on one line: method, library, size, conditioning or
+ * the iteration's reach, residual, iterations and refinement. */
+static void solver_json(ls_jw *w, const ls_op *op)
 {
-    ls_jw jw, *w = &jw;
-    const ls_netlist *nl = op->nl;
-    ls_report_json_begin(rp, w);
-    ls_jw_str(w, "title", nl->title);
     int wrap = w->wrap;
     w->wrap = 1; /* the solver on one line */
     ls_jw_obj(w, "solver");
@@ -1185,7 +854,78 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     ls_jw_int(w, "refinement_steps", op->acc.steps);
     ls_jw_end(w);
     w->wrap = wrap;
-    bool bounds = error_bounds(rp, op);
+}
+
+/* The "ports" object: every port's fields (ls_port_fields), budget, verdict,
+ * note and the numbers of its fix. */
+static void ports_json(ls_jw *w, const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    ls_jw_obj(w, "ports");
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_port)
+            continue;
+        const ls_port_result *pr = ls_port_read(op, i);
+        ls_jw_obj(w, p->name);
+        ls_jw_str(w, "from", nl->nodes[p->pin[0]].name);
+        ls_jw_str(w, "to", nl->nodes[p->pin[1]].name);
+        ls_jw_str(w, "mode", pr->current_mode ? "current" : "voltage");
+        assert(ls_port_fields[LS_PORT_NFIELDS - 1] == PROP_BUDGET);
+        for (int f = 0; f < LS_PORT_NFIELDS - 1; f++)   /* the budget last, with its source */
+            ls_jw_num(w, ls_prop_name(ls_port_fields[f]), ls_port_value(pr, ls_port_fields[f]));
+        ls_report_budget_json(w, pr);
+        if (pr->load_held)
+            ls_jw_bool(w, "load_held", true);
+        ls_jw_str(w, "verdict", verdict_name(pr->verdict));
+        if (pr->note)
+            ls_jw_str(w, "note", pr->note);
+        const char *ff[3];
+        double fv[3];
+        int nf = fix_limits(op, pr, ff, fv);
+        if (nf) {
+            ls_jw_obj(w, "fix");
+            for (int j = 0; j < nf; j++)
+                ls_jw_num(w, ff[j], fv[j]);
+            ls_jw_end(w);
+        }
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+}
+
+/* The "opamps" object: output, current, the limit in force, dissipation. */
+static void opamps_json(ls_jw *w, const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    ls_jw_obj(w, "opamps");
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (!p->kind->is_opamp)
+            continue;
+        ls_jw_obj(w, p->name);
+        ls_jw_num(w, "out", op->v[p->pin[2]]);
+        ls_jw_num(w, "current", op->ipart[i]);
+        ls_jw_str(w, "limited", ls_opamp_limit_word(p));
+        double pd = ls_opamp_dissipation(op, i);
+        if (isfinite(pd))
+            ls_jw_num(w, "dissipation", pd);
+        else
+            ls_jw_null(w, "dissipation", LS_WHY_NONE); /* no rails= to reckon it from */
+        ls_jw_end(w);
+    }
+    ls_jw_end(w);
+}
+
+static void solve_json(ls_report *rp, const ls_results *res, const ls_checks *checks)
+{
+    const ls_op *op = res->op;
+    ls_jw jw, *w = &jw;
+    const ls_netlist *nl = op->nl;
+    ls_report_json_begin(rp, w);
+    ls_jw_str(w, "title", nl->title);
+    solver_json(w, op);
+    bool bounds = error_bounds(rp, res);
     ls_jw_obj(w, "nodes");
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
@@ -1205,65 +945,14 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
         ls_jw_num(w, "power", op->ppart[i]);
         if (bounds && !isnan(op->acc.part_bound[i]))
             ls_jw_num_why(w, "error_bound", op->acc.part_bound[i], LS_WHY_UNBOUNDED);
-        part_extra_json(w, op, i);
+        part_extra_json(w, res, i);
         ls_jw_end(w);
     }
     ls_jw_end(w);
     ls_jw_num(w, "min_ratio", ls_op_min_ratio(op));
-    ls_jw_obj(w, "ports");
-    for (int i = 0; i < nl->nparts; i++) {
-        const ls_part *p = &nl->parts[i];
-        if (!p->kind->is_port)
-            continue;
-        const ls_port_result *pr = ls_op_port(op, i);
-        ls_jw_obj(w, p->name);
-        ls_jw_str(w, "from", nl->nodes[p->pin[0]].name);
-        ls_jw_str(w, "to", nl->nodes[p->pin[1]].name);
-        ls_jw_str(w, "mode", pr->current_mode ? "current" : "voltage");
-        ls_jw_num(w, "open", pr->open);
-        ls_jw_num(w, "loaded", pr->loaded);
-        ls_jw_num(w, "sag", pr->sag);
-        ls_jw_num(w, "sag_rel", pr->sag_rel);
-        ls_jw_num(w, "zout", pr->zout);
-        ls_jw_num(w, "zin", pr->zin);
-        ls_jw_num(w, "ratio", pr->ratio);
-        ls_jw_num(w, "current", pr->current);
-        ls_report_budget_json(w, pr);
-        if (pr->load_held)
-            ls_jw_bool(w, "load_held", true);
-        ls_jw_str(w, "verdict", verdict_name(pr->verdict));
-        if (pr->note)
-            ls_jw_str(w, "note", pr->note);
-        const char *ff[3];
-        double fv[3];
-        int nf = fix_limits(op, pr, ff, fv);
-        if (nf) {
-            ls_jw_obj(w, "fix");
-            for (int j = 0; j < nf; j++)
-                ls_jw_num(w, ff[j], fv[j]);
-            ls_jw_end(w);
-        }
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-    ls_jw_obj(w, "opamps");
-    for (int i = 0; i < nl->nparts; i++) {
-        const ls_part *p = &nl->parts[i];
-        if (!p->kind->is_opamp)
-            continue;
-        ls_jw_obj(w, p->name);
-        ls_jw_num(w, "out", op->v[p->pin[2]]);
-        ls_jw_num(w, "current", op->ipart[i]);
-        ls_jw_str(w, "limited", ls_opamp_limit_word(p));
-        double pd = ls_opamp_dissipation(op, i);
-        if (isfinite(pd))
-            ls_jw_num(w, "dissipation", pd);
-        else
-            ls_jw_null(w, "dissipation", LS_WHY_NONE); /* no rails= to reckon it from */
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-    adcs_json(w, op);
+    ports_json(w, op);
+    opamps_json(w, op);
+    adcs_json(w, res);
     checks_json(rp, w, checks);
     ls_jw_int(w, "passed", checks->passed);
     ls_jw_int(w, "failed", checks->failed);
@@ -1273,35 +962,35 @@ static void solve_json(ls_report *rp, ls_op *op, const ls_checks *checks)
     ls_report_json_end(rp, w);
 }
 
-static void csv_head(obuf *o, const char *section, const char *name, const char *field)
+static void csv_head(ls_obuf *o, const char *section, const char *name, const char *field)
 {
-    ob_csv_field(o, section);
-    ob_putc(o, ',');
-    ob_csv_field(o, name);
-    ob_putc(o, ',');
-    ob_csv_field(o, field);
-    ob_putc(o, ',');
+    ls_ob_csv_field(o, section);
+    ls_ob_putc(o, ',');
+    ls_ob_csv_field(o, name);
+    ls_ob_putc(o, ',');
+    ls_ob_csv_field(o, field);
+    ls_ob_putc(o, ',');
 }
 
 /* One section,name,field,value row of a number (empty when not finite). */
-static void csv_row(obuf *o, const char *section, const char *name, const char *field, double v)
+static void csv_row(ls_obuf *o, const char *section, const char *name, const char *field, double v)
 {
     csv_head(o, section, name, field);
-    ob_csv_number(o, v);
-    ob_putc(o, '\n');
+    ls_ob_csv_number(o, v);
+    ls_ob_putc(o, '\n');
 }
 
 /* One row of a word (a verdict, a limit, a name); empty for NULL. */
-static void csv_word(obuf *o, const char *section, const char *name, const char *field, const char *word)
+static void csv_word(ls_obuf *o, const char *section, const char *name, const char *field, const char *word)
 {
     csv_head(o, section, name, field);
-    ob_csv_field(o, word ? word : "");
-    ob_putc(o, '\n');
+    ls_ob_csv_field(o, word ? word : "");
+    ls_ob_putc(o, '\n');
 }
 
 /* The check rows shared by solve's CSV: value and result (pass or fail, the
  * words of check's CSV). */
-static void checks_csv_rows(obuf *o, const ls_checks *checks)
+static void checks_csv_rows(ls_obuf *o, const ls_checks *checks)
 {
     for (int i = 0; i < checks->n; i++) {
         const ls_check_row *r = &checks->rows[i];
@@ -1312,12 +1001,41 @@ static void checks_csv_rows(obuf *o, const ls_checks *checks)
     }
 }
 
-static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
+/* The rows of port i: its nodes and mode, its fields (ls_port_fields), how
+ * it was judged, the verdict, a note and the numbers of its fix. */
+static void port_csv(ls_obuf *o, const ls_op *op, int i)
 {
-    obuf ob, *o = &ob;
-    ob_init(o, rp->out);
     const ls_netlist *nl = op->nl;
-    ob_puts(o, "section,name,field,value\n");
+    const ls_part *p = &nl->parts[i];
+    const ls_port_result *pr = ls_port_read(op, i);
+    csv_word(o, "port", p->name, "from", nl->nodes[p->pin[0]].name);
+    csv_word(o, "port", p->name, "to", nl->nodes[p->pin[1]].name);
+    csv_word(o, "port", p->name, "mode", pr->current_mode ? "current" : "voltage");
+    for (int f = 0; f < LS_PORT_NFIELDS; f++)
+        csv_row(o, "port", p->name, ls_prop_name(ls_port_fields[f]), ls_port_value(pr, ls_port_fields[f]));
+    csv_word(o, "port", p->name, "by", pr->by_budget ? "budget" : "ratio");
+    if (pr->load_held)
+        csv_word(o, "port", p->name, "load_held", "true");
+    csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
+    if (pr->note)
+        csv_word(o, "port", p->name, "note", pr->note);
+    const char *ff[3];
+    double fv[3];
+    int nf = fix_limits(op, pr, ff, fv);
+    for (int j = 0; j < nf; j++) {
+        char fld[32];
+        snprintf(fld, sizeof fld, "fix.%s", ff[j]);
+        csv_row(o, "port", p->name, fld, fv[j]);
+    }
+}
+
+static void solve_csv(ls_report *rp, const ls_results *res, const ls_checks *checks)
+{
+    const ls_op *op = res->op;
+    ls_obuf ob, *o = &ob;
+    ls_ob_init(o, rp->out);
+    const ls_netlist *nl = op->nl;
+    ls_ob_puts(o, "section,name,field,value\n");
     csv_row(o, "rule", "ratio", "min", ls_op_min_ratio(op));
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
@@ -1327,29 +1045,7 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
         const ls_part *p = &nl->parts[i];
         prefetch_part_name(nl, i);
         if (p->kind->is_port) {
-            const ls_port_result *pr = ls_op_port(op, i);
-            const char *f[] = {"open", "loaded", "sag", "sag_rel", "zout", "zin", "ratio", "current", "budget"};
-            double v[] = {pr->open, pr->loaded, pr->sag, pr->sag_rel, pr->zout, pr->zin, pr->ratio, pr->current,
-                          pr->budget};
-            csv_word(o, "port", p->name, "from", nl->nodes[p->pin[0]].name);
-            csv_word(o, "port", p->name, "to", nl->nodes[p->pin[1]].name);
-            csv_word(o, "port", p->name, "mode", pr->current_mode ? "current" : "voltage");
-            for (int j = 0; j < 9; j++)
-                csv_row(o, "port", p->name, f[j], v[j]);
-            csv_word(o, "port", p->name, "by", pr->by_budget ? "budget" : "ratio");
-            if (pr->load_held)
-                csv_word(o, "port", p->name, "load_held", "true");
-            csv_word(o, "port", p->name, "verdict", verdict_name(pr->verdict));
-            if (pr->note)
-                csv_word(o, "port", p->name, "note", pr->note);
-            const char *ff[3];
-            double fv[3];
-            int nf = fix_limits(op, pr, ff, fv);
-            for (int j = 0; j < nf; j++) {
-                char fld[32];
-                snprintf(fld, sizeof fld, "fix.%s", ff[j]);
-                csv_row(o, "port", p->name, fld, fv[j]);
-            }
+            port_csv(o, op, i);
             continue;
         }
         csv_word(o, "part", p->name, "kind", p->kind->name);
@@ -1361,8 +1057,9 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
             csv_word(o, "opamp", p->name, "limited", ls_opamp_limit_word(p));
             csv_row(o, "opamp", p->name, "dissipation", ls_opamp_dissipation(op, i));
         }
-        ls_adc_result r;
-        if (ls_op_adc(op, i, &r) == 0) {
+        const ls_adc_result *ar = ls_results_adc(res, i);
+        if (ar) {
+            const ls_adc_result r = *ar;
             int mi = ls_kind_opt(p->kind, "max_source");
             csv_row(o, "adc", p->name, "input", r.vin);
             csv_row(o, "adc", p->name, "code", (double)r.code);
@@ -1384,16 +1081,26 @@ static void solve_csv(ls_report *rp, ls_op *op, const ls_checks *checks)
     checks_csv_rows(o, checks);
     csv_row(o, "checks", "all", "passed", checks->passed);
     csv_row(o, "checks", "all", "failed", checks->failed);
-    ob_flush(o);
+    ls_ob_flush(o);
     ls_report_warnings_csv(rp, rp->out);
 }
 
-void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks)
+unsigned ls_report_needs(const ls_report *rp)
 {
     switch (rp->fmt) {
-    case FMT_TEXT: solve_text(rp, op, checks); break;
-    case FMT_JSON: solve_json(rp, op, checks); break;
-    case FMT_CSV: solve_csv(rp, op, checks); break;
+    case FMT_TEXT: return LS_NEED_PORTS | LS_NEED_BOUNDS | LS_NEED_ADCS | LS_NEED_ADVICE;
+    case FMT_JSON: return LS_NEED_PORTS | LS_NEED_BOUNDS | LS_NEED_ADCS;
+    case FMT_CSV: return LS_NEED_PORTS | LS_NEED_ADCS;
+    default: return 0; /* the page (html.c) reads the session itself */
+    }
+}
+
+void ls_report_solve(ls_report *rp, const ls_results *res, const ls_checks *checks)
+{
+    switch (rp->fmt) {
+    case FMT_TEXT: solve_text(rp, res, checks); break;
+    case FMT_JSON: solve_json(rp, res, checks); break;
+    case FMT_CSV: solve_csv(rp, res, checks); break;
     case FMT_HTML: break; /* the page is html.c's, called by the command */
     }
 }
@@ -1425,7 +1132,7 @@ static void failed_warnings_text(ls_report *rp)
 }
 
 /* check, CSV: each warning that --fail-on fails on, as a row that did not pass. */
-static void failed_warnings_csv(ls_report *rp, obuf *ob)
+static void failed_warnings_csv(ls_report *rp, ls_obuf *ob)
 {
     const ls_diags *d = rp->diags;
     for (int i = 0; i < d->n; i++) {
@@ -1434,20 +1141,19 @@ static void failed_warnings_csv(ls_report *rp, obuf *ob)
             continue;
         char text[1200];
         snprintf(text, sizeof text, "warning %s: %s", g->code, g->msg);
-        ob_csv_field(ob, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
+        ls_ob_csv_field(ob, g->loc.file >= 0 ? loc_file(d, g->loc) : "");
         if (g->loc.file >= 0)
-            ob_printf(ob, ",%d,,", loc_line(d, g->loc));
+            ls_ob_printf(ob, ",%d,,", loc_line(d, g->loc));
         else
-            ob_puts(ob, ",,,");
-        ob_csv_field(ob, text);
-        ob_puts(ob, ",,false\n");
+            ls_ob_puts(ob, ",,,");
+        ls_ob_csv_field(ob, text);
+        ls_ob_puts(ob, ",,false\n");
     }
 }
 
-void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
+void ls_report_check(ls_report *rp, const ls_checks *checks)
 {
     FILE *o = rp->out;
-    (void)op;
     if (rp->fmt == FMT_JSON) {
         ls_jw w;
         ls_report_json_begin(rp, &w);
@@ -1461,22 +1167,22 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
         ls_report_warnings_json(rp, &w);
         ls_report_json_end(rp, &w);
     } else if (rp->fmt == FMT_CSV) {
-        obuf ob;
-        ob_init(&ob, o);
-        ob_puts(&ob, "file,line,instance,text,value,result\n");
+        ls_obuf ob;
+        ls_ob_init(&ob, o);
+        ls_ob_puts(&ob, "file,line,instance,text,value,result\n");
         for (int i = 0; i < checks->n; i++) {
             const ls_check_row *r = &checks->rows[i];
-            ob_csv_field(&ob, loc_file(rp->diags, r->loc));
-            ob_printf(&ob, ",%d,", loc_line(rp->diags, r->loc));
-            ob_csv_field(&ob, r->instance ? r->instance : "");
-            ob_putc(&ob, ',');
-            ob_csv_field(&ob, r->text);
-            ob_putc(&ob, ',');
-            ob_csv_number(&ob, r->r.value);
-            ob_puts(&ob, r->r.pass ? ",pass\n" : ",fail\n");
+            ls_ob_csv_field(&ob, loc_file(rp->diags, r->loc));
+            ls_ob_printf(&ob, ",%d,", loc_line(rp->diags, r->loc));
+            ls_ob_csv_field(&ob, r->instance ? r->instance : "");
+            ls_ob_putc(&ob, ',');
+            ls_ob_csv_field(&ob, r->text);
+            ls_ob_putc(&ob, ',');
+            ls_ob_csv_number(&ob, r->r.value);
+            ls_ob_puts(&ob, r->r.pass ? ",pass\n" : ",fail\n");
         }
         failed_warnings_csv(rp, &ob);
-        ob_flush(&ob);
+        ls_ob_flush(&ob);
     } else {
         if (!checks->n)
             fputs("no checks in this circuit (add 'expect' lines or a 'rule')\n", o);
@@ -1498,12 +1204,12 @@ void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks)
 int ls_text_table(ls_report *rp, int ncol, const char *const *head, const bool *right, const char *const *cells,
                   int nrows)
 {
-    table t = {.ncol = ncol < 10 ? ncol : 10};
+    ls_table t = {.ncol = ncol < 10 ? ncol : 10};
     for (int c = 0; c < t.ncol; c++) {
         t.head[c] = head[c];
         t.right[c] = right[c];
     }
     for (int r = 0; r < nrows; r++)
-        t_row(&t, cells + (size_t)r * (size_t)ncol);
-    return t_print(&t, rp);
+        ls_t_row(&t, cells + (size_t)r * (size_t)ncol);
+    return ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
 }

@@ -4,7 +4,8 @@
 
 #include <stdio.h>
 
-#include "analysis/analysis.h"
+#include "analysis/checks.h"
+#include "analysis/results.h"
 #include "report/jsonw.h"
 
 typedef enum ls_format { FMT_TEXT, FMT_JSON, FMT_CSV, FMT_HTML } ls_format;
@@ -31,27 +32,14 @@ typedef struct ls_report {
     size_t nomem_bytes;
 } ls_report;
 
-/* Check results for every expect and rule (allocated by the caller). */
-typedef struct ls_check_row {
-    const char *text;
-    const char *instance;
-    ls_loc loc;
-    ls_check_result r;
-    ls_dims dims;
-    int port;                /* rule rows: the port's part index, else -1 */
-} ls_check_row;
-
-typedef struct ls_checks {
-    ls_check_row *rows;
-    int n, passed, failed;
-} ls_checks;
-
-/* Evaluate every expect (and, when asked, the ratio rule on every port). */
-int ls_checks_run(ls_op *op, bool with_rule, ls_checks *out);
-void ls_checks_free(ls_checks *c);
-
-void ls_report_solve(ls_report *rp, ls_op *op, const ls_checks *checks);
-void ls_report_check(ls_report *rp, ls_op *op, const ls_checks *checks);
+/* What the solve report in rp's format reads beyond the operating point
+ * (LS_NEED_*, results.h): the command computes it with ls_results_compute
+ * before calling ls_report_solve. */
+unsigned ls_report_needs(const ls_report *rp);
+/* The solve report of res (computed for ls_report_needs) and its checks. */
+void ls_report_solve(ls_report *rp, const ls_results *res, const ls_checks *checks);
+/* The check report: the rows of checks and the warnings --fail-on names. */
+void ls_report_check(ls_report *rp, const ls_checks *checks);
 
 /* Pieces shared with the other commands' reporters. */
 /* Start a JSON report on rp->out: the top-level object and its "meta". */

@@ -383,13 +383,22 @@ static int inner_status(reduced *h, int st, ls_solver_stats *s)
     return st;
 }
 
+/* The backend's state with M rebuilt from a (any factor forgotten first);
+ * *rc gets reduce's LS_SOLVER_* status. */
+static reduced *reduce_anew(void *self, const ls_csc *a, int *rc)
+{
+    reduced *h = self;
+    h->factored = false;
+    *rc = reduce(h, a);
+    return h;
+}
+
 /* Split a, build M and analyze its pattern.  LS_SOLVER_* status; not this shape
  * is LS_SOLVER_NOT_SPD, so the caller falls back to LU. */
 static int reduced_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
 {
-    reduced *h = self;
-    h->factored = false;
-    int rc = reduce(h, a);
+    int rc;
+    reduced *h = reduce_anew(self, a, &rc);
     if (rc != LS_SOLVER_OK)
         return rc;
     return inner_status(h, h->inner->analyze(h->in, &h->mr, st), st);
@@ -410,9 +419,8 @@ static int factor_reduced(reduced *h, ls_solver_stats *st)
  * analysis when M's pattern is unchanged.  LS_SOLVER_* status. */
 static int reduced_factor(void *self, const ls_csc *a, ls_solver_stats *st)
 {
-    reduced *h = self;
-    h->factored = false;
-    int rc = reduce(h, a);
+    int rc;
+    reduced *h = reduce_anew(self, a, &rc);
     if (rc != LS_SOLVER_OK)
         return rc;
     return factor_reduced(h, st);

@@ -45,7 +45,7 @@ ROWS = [
      lambda m: ["solve", "{f}", "--format", "json"], (0,)),
     ("sag NODE with ports, M channels", "ports", ([1000, 2000, 4000, 8000], [10, 20, 40, 80]), lambda m: 3 * m + 1,
      lambda m: ["sag", "{f}", "s0", "--format", "json"], (0,)),
-    ("sag NODE without ports, grid N x N", "grid", ([20, 28, 40, 57], [5, 7, 10, 14]), grid_parts,
+    ("sag NODE without ports, grid N x N", "grid", ([46, 57, 80, 113], [5, 7, 10, 14]), grid_parts,
      lambda n: ["sag", "{f}", "n%d_%d" % (n // 2, n // 2), "--format", "json"], (0,)),
     ("tol, ladder of P parts, 1000 trials", "tol", ([250, 500, 1000, 2000], [10, 20, 40, 80]), lambda p: p,
      lambda p: ["tol", "{f}", "t3", "--trials", "1000", "--format", "json"], (0, 1)),

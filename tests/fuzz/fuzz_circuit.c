@@ -70,7 +70,10 @@ static void solve_and_report(ls_netlist *nl, FILE *sink)
         ls_checks checks;
         if (ls_checks_run(&op, true, &checks) == 0) {
             ls_report rp = {.out = sink, .fmt = FMT_JSON, .sig = 4, .diags = nl->diags};
-            ls_report_solve(&rp, &op, &checks);
+            ls_results res;
+            if (ls_results_compute(&res, &op, ls_report_needs(&rp)) == 0)
+                ls_report_solve(&rp, &res, &checks);
+            ls_results_free(&res);
             ls_checks_free(&checks);
         }
     }
