@@ -47,6 +47,7 @@ struct ls_circuit {
     const char **sets;         /* the settings it was read with, nsets of them, in the arena */
     int nsets;
     ls_solve_options solve_opt;   /* of the last ls_circuit_solve */
+    ls_options solve_options;     /* the same, as the analyses take them */
     const char **rule_text;    /* per port (nports): the last ratio-rule text handed out, in the arena */
 };
 
@@ -113,15 +114,16 @@ static int index_ports(ls_circuit *c)
     return 0;
 }
 
-/* Elaborate the parsed program with the settings; the status of the parse. */
-static ls_status elaborate(ls_circuit *c, const char *const *sets, int nsets)
+/* Elaborate the parsed program with the settings (following deps->let when
+ * deps is not NULL, letdeps.h); the status of the parse. */
+static ls_status elaborate(ls_circuit *c, const char *const *sets, int nsets, ls_letdeps *deps)
 {
     ls_setting *st = calloc((size_t)(nsets > 0 ? nsets : 1), sizeof *st);
     if (!st)
         return LS_E_NOMEM;
     int bad = parse_sets(c, sets, nsets, st);
     if (bad == 0)
-        bad = ls_elaborate(&c->prog, &c->diags, st, nsets, &c->nl);
+        bad = ls_elaborate_following(&c->prog, &c->diags, st, nsets, &c->nl, deps);
     free(st);
     if (c->arena.failed)
         return LS_E_NOMEM;
@@ -168,7 +170,7 @@ static int keep_source(ls_circuit *c, const char *name, const char *text, size_t
 /* Both parse entry points: check the arguments, read the file `name` (when
  * text is NULL) or take text, parse, elaborate, hand the circuit out. */
 static ls_status parse_any(const char *name, const char *text, size_t len, const char *const *sets, int nsets,
-                           ls_circuit **out)
+                           ls_letdeps *deps, ls_circuit **out)
 {
     if (!out)
         return LS_E_ARGUMENT;
@@ -199,14 +201,14 @@ static ls_status parse_any(const char *name, const char *text, size_t len, const
     if (c->arena.failed)
         st = LS_E_NOMEM;
     if (st == LS_OK)
-        st = elaborate(c, sets, nsets);
+        st = elaborate(c, sets, nsets, deps);
     *out = c;
     return st;
 }
 
 ls_status ls_circuit_parse_file(const char *path, const char *const *sets, int nsets, ls_circuit **out)
 {
-    return parse_any(path, NULL, 0, sets, nsets, out);
+    return parse_any(path, NULL, 0, sets, nsets, NULL, out);
 }
 
 ls_status ls_circuit_parse_string(const char *name, const char *text, size_t len, const char *const *sets,
@@ -217,7 +219,7 @@ ls_status ls_circuit_parse_string(const char *name, const char *text, size_t len
             *out = NULL;
         return LS_E_ARGUMENT;
     }
-    return parse_any(name, text, len, sets, nsets, out);
+    return parse_any(name, text, len, sets, nsets, NULL, out);
 }
 
 void ls_circuit_free(ls_circuit **pc)
@@ -296,6 +298,7 @@ ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
         o.min_ratio = opt->min_ratio > 0 ? opt->min_ratio : 0;
         o.derate = opt->derate > 0 ? opt->derate : 1;
     }
+    c->solve_options = o;   /* a sweep solves its points the same way */
     c->solve_opt = opt ? *opt : (ls_solve_options){0};
     if (c->have_op)
         ls_op_free(&c->op);
@@ -956,6 +959,19 @@ ls_status ls_circuit_fit(ls_circuit *c, const ls_fit_options *opt, ls_fit_candid
 #define SWEEP_MAX_STEPS 100000
 #define SWEEP_MAX_QUANTITIES 64
 
+/* The sweep at xs[0..steps-1] with the circuit read and elaborated once,
+ * following the let (letdeps.h): each point sets the let's value and what
+ * depends on it, and is solved afresh at the start of each chain of
+ * LS_SWEEP_CHAIN points, else continuing from the last (analysis/sweep.h).
+ * A point whose values the elaborator would refuse, or that does not solve,
+ * is read again whole by sweep_point.  Fills ys (steps x nq) and *nsolved.
+ * Returns LS_OK, LS_E_NOMEM or the status of a first point that
+ * sweep_point refuses; *done is false (and nothing done) when the let
+ * reaches more than values or the circuit cannot be followed: the caller
+ * then reads every point again. */
+static ls_status sweep_once(ls_circuit *c, const char *let, const double *xs, int steps,
+                            const char *const *quantities, int nq, double *ys, int *nsolved, bool *done);
+
 /* Point i of a sweep: parse the kept text again with the kept settings (any
  * setting of `let` dropped) and let=x, solve, evaluate the quantities into
  * row[0..nq-1] (NaN where undefined).  Returns LS_OK, LS_E_CIRCUIT (the
@@ -1022,8 +1038,9 @@ ls_status ls_circuit_sweep(ls_circuit *c, const char *let, double from, double t
     }
     ls_sweep_points(from, to, steps, log_scale != 0, xs);
     int nsolved = 0;
-    st = LS_OK;
-    for (int i = 0; i < steps; i++) {
+    bool done = false;
+    st = sweep_once(c, let, xs, steps, quantities, nq, ys, &nsolved, &done);
+    for (int i = 0; !done && i < steps; i++) {
         ls_status p = sweep_point(c, let, xs[i], quantities, nq, ys + (size_t)i * (size_t)nq, i == 0);
         if (p == LS_E_NOMEM || (i == 0 && p == LS_E_CIRCUIT)) {
             st = p;
@@ -1041,4 +1058,55 @@ ls_status ls_circuit_sweep(ls_circuit *c, const char *let, double from, double t
     if (solved)
         *solved = nsolved;
     return LS_OK;
+}
+
+/* Bind quantity text in circuit p, following deps; NULL after an error. */
+static const ls_q *bind_following(ls_circuit *p, const char *text, ls_letdeps *deps)
+{
+    ls_expr *e = ls_parse_expr_string(&p->diags, "quantity", text, true);
+    return e ? ls_bind_quantity_following(&p->nl, e, deps) : NULL;
+}
+
+static ls_status sweep_once(ls_circuit *c, const char *let, const double *xs, int steps,
+                            const char *const *quantities, int nq, double *ys, int *nsolved, bool *done)
+{
+    ls_letdeps deps;
+    ls_letdeps_init(&deps, let);
+    ls_circuit *p = NULL;
+    const ls_q **q = calloc((size_t)nq, sizeof *q);
+    ls_status st = q ? parse_any(c->source_name, c->source, c->source_len, c->sets, c->nsets, &deps, &p)
+                     : LS_E_NOMEM;
+    for (int k = 0; st == LS_OK && k < nq; k++)
+        if (!(q[k] = bind_following(p, quantities[k], &deps)))
+            st = LS_E_CIRCUIT;
+    if (p && p->arena.failed)
+        st = LS_E_NOMEM;
+    *done = st == LS_E_NOMEM || (st == LS_OK && !deps.structural && !deps.nomem && deps.root >= 0);
+    if (!*done)
+        st = LS_E_CIRCUIT;
+    ls_sweeper w;
+    ls_sweeper_init(&w, p ? &p->nl : NULL, &deps, &c->solve_options);
+    *nsolved = 0;
+    for (int i = 0; st == LS_OK && i < steps; i++) {
+        double *row = ys + (size_t)i * (size_t)nq;
+        int code = ls_sweeper_solve(&w, xs[i], i % LS_SWEEP_CHAIN == 0);
+        if (code == LS_EXIT_OK) {
+            for (int k = 0; k < nq; k++)
+                row[k] = ls_q_eval(&w.op, q[k]);
+            (*nsolved)++;
+        } else if (code != LS_SWEEP_REELABORATE &&
+                   (w.op.nomem || p->arena.failed || p->diags.nomem || p->diags.lost)) {
+            st = LS_E_NOMEM;
+        } else {
+            ls_status pt = sweep_point(c, let, xs[i], quantities, nq, row, i == 0);
+            if (pt == LS_E_NOMEM || (i == 0 && pt == LS_E_CIRCUIT))
+                st = pt;
+            *nsolved += pt == LS_OK;
+        }
+    }
+    ls_sweeper_free(&w);
+    ls_letdeps_free(&deps);
+    ls_circuit_free(&p);
+    free(q);
+    return st;
 }

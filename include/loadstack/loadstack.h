@@ -507,9 +507,12 @@ LS_API ls_status ls_circuit_fit(ls_circuit *c, const ls_fit_options *opt, ls_fit
 /* ---- sweeps --------------------------------------------------------------------------------- */
 
 /* Sweep the top-level let `let` (`loadstack sweep`): the circuit is parsed
- * again from the text it was read from, with the settings it was read with and
- * NAME=VALUE for each point, solved with the options of its last
- * ls_circuit_solve, and every quantity evaluated.
+ * once more from the text it was read from, with the settings it was read
+ * with, following `let`; each point sets it and recomputes only the values it
+ * reaches (as NAME=VALUE would make them), is solved with the options of its
+ * last ls_circuit_solve (in chains of 8 points continuing from the last
+ * solution), and every quantity evaluated.  A let that picks a word, or a
+ * value refused at a point, reads the text again for that sweep or point.
  *   steps  in: points from `from` to `to`, both included, 2 .. 100 000.
  *   log_scale in: nonzero spaces the points evenly on a log scale (from, to > 0).
  *   quantities in: nq quantity texts (as in ls_circuit_eval), 1 .. 64.

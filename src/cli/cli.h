@@ -54,6 +54,7 @@ typedef struct ls_cli {
     const char *write;                 /* fit: --write FILE.stack */
     ls_dest write_dest;                /* its destination, prepared with the others */
     bool keep_syntax;                  /* keep the syntax tree after loading (formula reads values from it) */
+    struct ls_letdeps *follow;         /* sweep: record what this let reaches while loading (letdeps.h) */
     const ls_share *share;             /* loadstack-mpi: tol's trials and sweep's points split among processes */
 } ls_cli;
 

@@ -130,7 +130,7 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
         return LS_EXIT_USAGE;
     /* Elaborate even after syntax errors (the broken statements are left out),
      * so one run reports the name and unit errors too. */
-    int bad = ls_elaborate(&s->prog, &s->diags, sets, cli->nsets, &s->nl) || errs;
+    int bad = ls_elaborate_following(&s->prog, &s->diags, sets, cli->nsets, &s->nl, cli->follow) || errs;
     /* A command elaborates once: the tree (a large part of the memory of a
      * big circuit) goes before the solve.  The netlist keeps only names. */
     if (!cli->keep_syntax) {
@@ -187,7 +187,7 @@ ls_q *ls_session_quantity(ls_session *s, const char *text)
 {
     int e0 = s->diags.errors;
     ls_expr *e = ls_parse_expr_string(&s->diags, "quantity", text, true);
-    ls_q *q = e ? ls_bind_quantity(&s->nl, e) : NULL;
+    ls_q *q = e ? ls_bind_quantity_following(&s->nl, e, s->cli ? s->cli->follow : NULL) : NULL;
     if (!q && s->diags.errors == e0) /* the only silent failure is the arena's */
         ls_error(&s->diags, LS_NOLOC, "out of memory reading the quantity '%s' (%zu bytes)", text,
                  s->arena.failed_bytes);

@@ -1,12 +1,15 @@
 /* sweep_cmd.c — the sweep command: a top-level let stepped from FROM to TO,
  * the quantities tabulated at every point (text, CSV, JSON) and drawn.
  *
- * Each point re-elaborates the circuit with `--set LET=value` added, so a
- * let may change anything it feeds (values, options, even which parts a
- * block builds).  Points are solved in order, FROM first, each continuing from
- * the previous point's solution when the structure is unchanged, in chains of
- * SWEEP_CHAIN points that each start afresh; a point that does not solve is
- * reported as null and the sweep goes on. */
+ * The circuit is read and elaborated once, following the let (letdeps.h):
+ * each point sets the let and recomputes only the values that depend on it
+ * (analysis/sweep.h).  When the let reaches more than values (a switch's
+ * state=, a snapped value), or a value at some point is one the elaborator
+ * refuses, that sweep (or that point) re-elaborates the circuit with
+ * `--set LET=value` added, which reports the error.  Points are solved in
+ * order, FROM first, each continuing from the previous point's solution, in
+ * chains of SWEEP_CHAIN points that each start afresh; a point that does not
+ * solve is reported as null and the sweep goes on. */
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -17,17 +20,13 @@
 #include "elab/elab.h"
 #include "base/fmt.h"
 #include "lang/parser.h"
+#include "parts/parts.h"
 #include "report/plot.h"
 #include "cli/progress.h"
 
 #define MAX_QUANTITIES (LS_MAX_POS - 4)
-/* Continuation runs in chains of this many points, each starting with a
- * fresh solve: a chain's results (to the last bit, for a circuit that
- * iterates) do not depend on the points before it, so loadstack-mpi hands
- * whole chains to its processes and its report is identical to one
- * process's.  A fresh solve every 8 points costs little beside the 7 that
- * continue. */
-#define SWEEP_CHAIN 8
+/* chains of points, each starting afresh (analysis/sweep.h) */
+#define SWEEP_CHAIN LS_SWEEP_CHAIN
 
 typedef struct sweep {
     ls_cli *cli;
@@ -48,8 +47,16 @@ typedef struct sweep {
         char text[160];
     } lim[LS_PLOT_MAX_MARKS];
     int nlim;
-    /* the last point solved, kept so the next continues from its solution */
+    /* the last point solved, kept so the next continues from its solution
+     * (per-point elaboration) */
     ls_session *base;
+    /* elaborated once: the circuit as given, what the let reaches in it, the
+     * quantities bound in it and its solver */
+    bool once;
+    ls_session *probe;
+    ls_letdeps deps;
+    const ls_q *q[MAX_QUANTITIES];
+    ls_sweeper sw;
 } sweep;
 
 /* A copy of cli whose --set list drops PARAM and ends with PARAM=value
@@ -62,6 +69,7 @@ static bool point_cli(const ls_cli *cli, const char *param, double value, char *
     for (int i = 0; i < cli->nsets; i++)
         if (!(strncmp(cli->sets[i], param, pl) == 0 && cli->sets[i][pl] == '='))
             out->sets[out->nsets++] = cli->sets[i];
+    out->follow = NULL;
     if (out->nsets == LS_MAX_SETS)
         return false;
     snprintf(buf, n, "%s=%s", param, LS_NUM(value));
@@ -72,14 +80,15 @@ static bool point_cli(const ls_cli *cli, const char *param, double value, char *
 /* Make a limit curve for each finite limit of every expect on quantity k
  * (from the first point solved).  Returns 0, or -1 when out of memory (a
  * limit curve the plot would lose). */
-static int collect_limits(sweep *w, ls_session *s, const ls_q *q, int k)
+static int collect_limits(sweep *w, ls_op *op, const ls_q *q, int k)
 {
-    for (int c = 0; c < s->nl.nchecks && w->nlim + 2 <= LS_PLOT_MAX_MARKS; c++) {
-        const ls_check *ck = &s->nl.checks[c];
+    const ls_netlist *nl = op->nl;
+    for (int c = 0; c < nl->nchecks && w->nlim + 2 <= LS_PLOT_MAX_MARKS; c++) {
+        const ls_check *ck = &nl->checks[c];
         if (ck->is_rule || !ck->lhs || !ls_q_same(ck->lhs, q))
             continue;
         ls_check_result r;
-        ls_check_eval(&s->op, ck, &r);
+        ls_check_eval(op, ck, &r);
         for (int side = 0; side < 2; side++) {
             if (!isfinite(side ? r.hi : r.lo))
                 continue;
@@ -151,39 +160,66 @@ static int check_arg_units(sweep *w, ls_diags *d)
     return 0;
 }
 
-/* Load the circuit as given (the user's --set list) and bind the quantities:
- * LET must be a top-level let.  Records the units; prints the
- * diagnostics (so warnings appear once).  Returns an exit code. */
+/* Should every point be elaborated afresh?  LOADSTACK_SWEEP_REELABORATE=1
+ * asks for it (the tests compare both ways). */
+static bool reelaborate_asked(void)
+{
+    const char *e = getenv("LOADSTACK_SWEEP_REELABORATE");
+    return e && *e && strcmp(e, "0") != 0;
+}
+
+/* Load the circuit as given (the user's --set list), following LET, and bind
+ * the quantities: LET must be a top-level let.  Records the units; prints
+ * the diagnostics (so warnings appear once).  Keeps the session as w->probe
+ * for the points when the let reaches only values.  Returns an exit code. */
 static int probe(sweep *w)
 {
-    ls_session s;
-    int code = ls_session_load(&s, w->cli, w->cli->pos[0], NULL);
+    ls_session *s = malloc(sizeof *s);
+    if (!s) {
+        fprintf(stderr, "loadstack: error: out of memory loading the circuit\n");
+        return LS_EXIT_UNSOLVABLE;
+    }
+    ls_letdeps_init(&w->deps, w->param);
+    w->cli->follow = &w->deps;
+    int code = ls_session_load(s, w->cli, w->cli->pos[0], NULL);
     if (code == LS_EXIT_OK) {
-        int e = ls_hash_get(&s.nl.names, w->param);
-        if (e < 0 || s.nl.ents[e].kind != ENT_PARAM) {
-            ls_error(&s.diags, LS_NOLOC, "sweep: the circuit has no top-level let '%s' (declare it with 'let %s = ...')",
+        int e = ls_hash_get(&s->nl.names, w->param);
+        if (e < 0 || s->nl.ents[e].kind != ENT_PARAM) {
+            ls_error(&s->diags, LS_NOLOC, "sweep: the circuit has no top-level let '%s' (declare it with 'let %s = ...')",
                      w->param, w->param);
             code = LS_EXIT_USAGE;
         } else {
-            w->xdims = s.nl.params[s.nl.ents[e].index].dims;
-            code = check_arg_units(w, &s.diags);
+            w->xdims = s->nl.params[s->nl.ents[e].index].dims;
+            code = check_arg_units(w, &s->diags);
         }
     }
     for (int k = 0; k < w->nq && code == LS_EXIT_OK; k++) {
-        const ls_q *q = ls_session_quantity(&s, w->qtext[k]);
-        if (q)
-            w->qdims[k] = q->dims;
+        w->q[k] = ls_session_quantity(s, w->qtext[k]);
+        if (w->q[k])
+            w->qdims[k] = w->q[k]->dims;
         else
             code = LS_EXIT_USAGE;
     }
-    ls_diags_print(&s.diags, stderr);
-    ls_session_free(&s);
+    w->cli->follow = NULL;
+    ls_diags_print(&s->diags, stderr);
+    w->once = code == LS_EXIT_OK && !w->deps.structural && !w->deps.nomem && w->deps.root >= 0 &&
+              !ls_session_nomem(s) && !reelaborate_asked();
+    if (w->once) {
+        ls_options o = {.solver = w->cli->solver, .min_ratio = w->cli->min_ratio, .derate = w->cli->derate};
+        ls_sweeper_init(&w->sw, &s->nl, &w->deps, &o);
+        w->probe = s;
+    } else {
+        ls_session_free(s);
+        free(s);
+        ls_letdeps_free(&w->deps);
+    }
     return code;
 }
 
 /* Do two elaborations of the circuit have the same parts on the same nodes
- * with the same options given (so one's values can be stamped into the
- * other's system)? */
+ * with the same options given and the same branch unknowns (a junction's
+ * rbulk= from zero to positive adds one), so one's values can be stamped
+ * into the other's system? */
 static bool same_structure(const ls_netlist *a, const ls_netlist *b)
 {
     if (a->nparts != b->nparts || a->nnodes != b->nnodes)
@@ -191,7 +227,8 @@ static bool same_structure(const ls_netlist *a, const ls_netlist *b)
     for (int i = 0; i < a->nparts; i++) {
         const ls_part *p = &a->parts[i], *q = &b->parts[i];
         if (p->kind != q->kind || p->ref != q->ref || p->has_value != q->has_value || strcmp(p->name, q->name) != 0 ||
-            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || p->has_opt != q->has_opt)
+            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || p->has_opt != q->has_opt ||
+            (p->kind->branches && p->kind->branches(p) != q->kind->branches(q)))
             return false;
     }
     return true;
@@ -216,21 +253,21 @@ static void copy_values(ls_netlist *dst, const ls_netlist *src)
 }
 
 /* Record point i's values from the solved op with the quantities q and the
- * expects of nl, both bound in the circuit as elaborated for this point (so
- * a let they use has this point's value).  Returns 0, or -1 when out of
- * memory. */
-static int record(sweep *w, int i, ls_session *s, const ls_q *const *q, const ls_netlist *nl)
+ * expects of nl, both bound in the circuit as elaborated (or set) for this
+ * point (so a let they use has this point's value).  Returns 0, or -1 when
+ * out of memory. */
+static int record(sweep *w, int i, ls_op *op, const ls_q *const *q, const ls_netlist *nl)
 {
     bool first = true;
     for (int j = 0; j < i; j++)
         first &= !w->solved[j];
     w->solved[i] = true;
     for (int k = 0; k < w->nq; k++) {
-        w->y[(size_t)i * (size_t)w->nq + (size_t)k] = ls_q_eval(&s->op, q[k]);
-        if (first && collect_limits(w, s, q[k], k) != 0)
+        w->y[(size_t)i * (size_t)w->nq + (size_t)k] = ls_q_eval(op, q[k]);
+        if (first && collect_limits(w, op, q[k], k) != 0)
             return -1;
     }
-    record_limits(w, i, &s->op, nl);
+    record_limits(w, i, op, nl);
     return 0;
 }
 
@@ -249,7 +286,7 @@ static int point_nomem(const sweep *w, int i, const ls_session *s)
     return LS_EXIT_UNSOLVABLE;
 }
 
-/* Solve point i: the circuit is re-elaborated with PARAM at x[i]; when its
+/* Solve point i by elaborating again: the circuit is re-elaborated with PARAM at x[i]; when its
  * structure matches the last solved point's, the new values are stamped into
  * that system and re-solved from its solution (continuation: a nonlinear
  * circuit starts from the previous point's operating point); otherwise, or if
@@ -257,7 +294,7 @@ static int point_nomem(const sweep *w, int i, const ls_session *s)
  * left null with a one-line warning.  Returns 0, or LS_EXIT_UNSOLVABLE after
  * an error when memory ran out (the sweep stops: a point lost to memory is
  * not a point without a solution). */
-static int solve_point(sweep *w, int i)
+static int reelaborate_point(sweep *w, int i)
 {
     char buf[256];
     ls_cli pc;
@@ -289,7 +326,7 @@ static int solve_point(sweep *w, int i)
              * constant of the binding, and the base's hold the value of
              * the point it was bound at (the structures match, so part
              * and node indices agree) */
-            if (record(w, i, w->base, q, &s->nl) != 0)
+            if (record(w, i, &w->base->op, q, &s->nl) != 0)
                 rc = point_nomem(w, i, NULL);
             ls_session_free(s);
             free(s);
@@ -305,7 +342,7 @@ static int solve_point(sweep *w, int i)
     if (code == LS_EXIT_OK)
         code = ls_session_solve(s);
     if (code == LS_EXIT_OK) {
-        if (record(w, i, s, q, &s->nl) != 0)
+        if (record(w, i, &s->op, q, &s->nl) != 0)
             rc = point_nomem(w, i, NULL);
         if (w->base) {   /* this point becomes the one the next continues from */
             ls_session_free(w->base);
@@ -329,6 +366,39 @@ static int solve_point(sweep *w, int i)
     ls_session_free(s);
     free(s);
     return 0;
+}
+
+/* Solve point i in the circuit elaborated once: its values set, then solved
+ * afresh at the start of a chain, else continuing.  A point whose values
+ * the elaborator would refuse, or that does not solve, goes the way of
+ * reelaborate_point (which says why; it keeps no base here, so the next
+ * point starts afresh).  Returns 0, or LS_EXIT_UNSOLVABLE after an error
+ * when memory ran out. */
+static int solve_point(sweep *w, int i)
+{
+    if (!w->once)
+        return reelaborate_point(w, i);
+    int code = ls_sweeper_solve(&w->sw, w->x[i], i % SWEEP_CHAIN == 0);
+    if (code == LS_EXIT_OK)
+        return record(w, i, &w->sw.op, w->q, &w->probe->nl) != 0 ? point_nomem(w, i, NULL) : 0;
+    /* (memory that ran out in a stage that only reports it, such as the
+     * topology check, shows in the session's diagnostics) */
+    if (code != LS_SWEEP_REELABORATE && (w->sw.op.nomem || ls_session_nomem(w->probe)))
+        return point_nomem(w, i, w->probe);
+    if (w->sw.restructured) {
+        /* the let changes how many unknowns a part has: from this point on
+         * every point is elaborated, continuing from the one before, as a
+         * sweep that cannot follow its let */
+        w->once = false;
+        return reelaborate_point(w, i);
+    }
+    int rc = reelaborate_point(w, i);
+    if (w->base) {   /* points continue from the circuit elaborated once */
+        ls_session_free(w->base);
+        free(w->base);
+        w->base = NULL;
+    }
+    return rc;
 }
 
 /* ---- reports ------------------------------------------------------------------------------- */
@@ -552,6 +622,13 @@ int ls_cmd_sweep(ls_cli *cli)
         ls_session_free(w.base);
         free(w.base);
         w.base = NULL;
+    }
+    if (w.probe) {
+        ls_sweeper_free(&w.sw);
+        ls_session_free(w.probe);
+        free(w.probe);
+        w.probe = NULL;
+        ls_letdeps_free(&w.deps);
     }
     int nsolved = 0;
     for (int i = 0; code == LS_EXIT_OK && i < w.steps; i++)

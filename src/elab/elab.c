@@ -12,6 +12,7 @@
 
 #include "base/eseries.h"
 #include "lang/parser.h"
+#include "netlist/letdeps.h"
 #include "parts/parts.h"
 
 typedef struct scope {
@@ -40,6 +41,7 @@ typedef struct elab {
     void *names_ctx;
     const char *last_kw;              /* the kind word last looked up (the parser shares one string */
     const ls_kind *last_kind;         /* per word on consecutive lines) and its kind, or NULL */
+    ls_letdeps *deps;                 /* a let being followed (sweeps), or NULL */
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -545,6 +547,79 @@ static bool eval_slot(elab *x, const scope *s, const ls_expr *e, ls_dims want, d
     return true;
 }
 
+/* ---- following one let (letdeps.h) ------------------------------------------------------ */
+
+/* Does e read a let that the followed let reaches? */
+static bool reads_followed(elab *x, const scope *s, const ls_expr *e)
+{
+    switch (e->kind) {
+    case E_NAME: {
+        const ls_param *p = param_ref(x, s, e->name);
+        return p && ls_letdeps_reaches(x->deps, (int)(p - x->nl->params));
+    }
+    case E_NEG: return reads_followed(x, s, e->a);
+    case E_BIN: return reads_followed(x, s, e->a) || reads_followed(x, s, e->b);
+    case E_CALL:
+        for (int i = 0; i < e->nargs; i++)
+            if (reads_followed(x, s, e->args[i]))
+                return true;
+        return false;
+    default: return false;
+    }
+}
+
+/* e as a postfix program over the lets (already evaluated without error). */
+static void emit_expr(elab *x, const scope *s, const ls_expr *e)
+{
+    switch (e->kind) {
+    case E_NUM: ls_letdeps_emit(x->deps, LDC_NUM, 0, 0, e->num); break;
+    case E_NAME:
+        ls_letdeps_emit(x->deps, LDC_PARAM, (int)(param_ref(x, s, e->name) - x->nl->params), 0, 0);
+        break;
+    case E_NEG:
+        emit_expr(x, s, e->a);
+        ls_letdeps_emit(x->deps, LDC_NEG, 0, 0, 0);
+        break;
+    case E_BIN:
+        emit_expr(x, s, e->a);
+        emit_expr(x, s, e->b);
+        ls_letdeps_emit(x->deps, LDC_BIN, e->op, 0, 0);
+        break;
+    case E_CALL:
+        for (int i = 0; i < e->nargs; i++)
+            emit_expr(x, s, e->args[i]);
+        ls_letdeps_emit(x->deps, LDC_CALL, e->op, e->nargs, 0);
+        break;
+    }
+}
+
+/* A value just evaluated from e into (kind, target): when a let is followed
+ * and e reads it, record how to recompute the value.  Returns the entry's
+ * index (its other fields for the caller to fill in), else -1. */
+static int follow(elab *x, const scope *s, const ls_expr *e, ls_ld_kind kind, int target)
+{
+    if (!x->deps || !reads_followed(x, s, e))
+        return -1;
+    int en = ls_letdeps_begin(x->deps, kind, target);
+    if (en < 0)
+        return -1;
+    emit_expr(x, s, e);
+    ls_letdeps_end(x->deps, en);
+    return en;
+}
+
+/* A word, a range of free= or a rounded value read from the followed let:
+ * more than a value changes with it. */
+static void follow_structural(elab *x, const scope *s, const ls_expr *e, const char *what, const char *kind,
+                              const char *name)
+{
+    if (!x->deps || !e || !reads_followed(x, s, e))
+        return;
+    char why[160];
+    snprintf(why, sizeof why, "the %s of %s '%s'", what, kind, name);
+    ls_letdeps_structural(x->deps, why);
+}
+
 /* ---- quantities (expects) ---------------------------------------------------------------- */
 
 const char *ls_prop_name(ls_prop p)
@@ -632,6 +707,12 @@ static ls_q *bind_name(elab *x, const scope *s, const ls_expr *e)
         if (q) {
             q->value = p->value;
             q->dims = p->dims;
+            int pi = (int)(p - nl->params);
+            if (x->deps && ls_letdeps_reaches(x->deps, pi)) {
+                int en = ls_letdeps_begin(x->deps, LD_QCONST, pi);
+                if (en >= 0)
+                    ls_letdeps_entry(x->deps, en)->q = q;
+            }
         }
         return q;
     }
@@ -962,8 +1043,16 @@ static const char *opt_names(const ls_kind *k, char *buf, size_t n)
     return buf;
 }
 
+bool ls_elab_value_ok(unsigned flags, double v)
+{
+    return !((flags & OPTF_POSITIVE) && !(v > 0)) && !((flags & OPTF_NONNEG) && v < 0) &&
+           !((flags & OPTF_FRACTION) && (v < 0 || v > 1)) && !((flags & OPTF_INTEGER) && (v != floor(v) || v > 62));
+}
+
 static bool check_flags(elab *x, unsigned flags, double v, ls_loc loc, const char *what)
 {
+    if (ls_elab_value_ok(flags, v))
+        return true;
     if ((flags & OPTF_POSITIVE) && !(v > 0)) {
         ls_error(x->d, loc, "%s must be greater than zero", what);
         return false;
@@ -1008,6 +1097,7 @@ static bool set_word(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *
     if (o->value->kind == E_NAME && !o->hi && param_ref(x, s, o->value->name)) {
         if (!eval(x, s, o->value, &v, &d))
             return false;
+        follow_structural(x, s, o->value, od->name, p->kind->name, p->name);
         if (v == floor(v) && v >= 0 && v < nwords) {
             p->opt[oi] = v;
             return true;
@@ -1023,7 +1113,7 @@ static bool set_word(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *
 
 /* One end of a range option: a node, a node plus or minus a voltage
  * (vcc-1.5V), or a value of the option's unit. */
-static bool range_end(elab *x, const scope *s, const ls_expr *e, ls_dims want, ls_level *out)
+static bool range_end(elab *x, const scope *s, const ls_expr *e, ls_dims want, ls_level *out, int slot)
 {
     const ls_expr *name = NULL, *off = NULL;
     double sign = 1;
@@ -1040,8 +1130,14 @@ static bool range_end(elab *x, const scope *s, const ls_expr *e, ls_dims want, l
         name = e->b;
         off = e->a;
     }
-    if (!name)
-        return eval_slot(x, s, e, want, &out->volts);
+    if (!name) {
+        if (!eval_slot(x, s, e, want, &out->volts))
+            return false;
+        int en = follow(x, s, e, LD_RANGE, x->nl->nparts);
+        if (en >= 0)
+            ls_letdeps_entry(x->deps, en)->slot = slot;
+        return true;
+    }
     if (!ls_dims_eq(norm(want), LS_VOLT)) {
         ls_error(x->d, name->loc, "'%s': only a voltage range may name a node", name->name);
         return false;
@@ -1052,6 +1148,11 @@ static bool range_end(elab *x, const scope *s, const ls_expr *e, ls_dims want, l
     if (off && !eval_slot(x, s, off, LS_VOLT, &out->volts))
         return false;
     out->volts *= sign;
+    int en = off ? follow(x, s, off, LD_RANGE, x->nl->nparts) : -1;
+    if (en >= 0) {
+        ls_letdeps_entry(x->deps, en)->slot = slot;
+        ls_letdeps_entry(x->deps, en)->sign = sign;
+    }
     return true;
 }
 
@@ -1072,8 +1173,8 @@ static bool set_range(elab *x, const scope *s, ls_part *p, int oi, const ls_opt 
         }
     }
     ls_level *r = p->range[od->pin];
-    bool ok_lo = range_end(x, s, o->value, od->dims, &r[0]); /* both ends, to report both */
-    bool ok_hi = range_end(x, s, o->hi, od->dims, &r[1]);
+    bool ok_lo = range_end(x, s, o->value, od->dims, &r[0], 2 * od->pin); /* both ends, to report both */
+    bool ok_hi = range_end(x, s, o->hi, od->dims, &r[1], 2 * od->pin + 1);
     if (!ok_lo || !ok_hi)
         return false;
     if (r[0].node == r[1].node && !(r[0].volts < r[1].volts)) {
@@ -1107,6 +1208,8 @@ static bool set_free(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *
     bool ok_lo = eval_slot(x, s, o->value, d, &f.lo), ok_hi = eval_slot(x, s, o->hi, d, &f.hi);
     if (!ok_lo || !ok_hi)
         return false;
+    follow_structural(x, s, o->value, "free= range", k->name, p->name);
+    follow_structural(x, s, o->hi, "free= range", k->name, p->name);
     if (!(f.lo > 0 && f.hi > f.lo && isfinite(f.hi))) {
         ls_error(x->d, f.loc, "free= %s: the range must be 0 < LO < HI (standard values are positive)",
                  src_text(x, f.loc));
@@ -1218,6 +1321,23 @@ static void check_kinds(elab *x, ls_stmt *const *stmts, int n)
     }
 }
 
+/* A part whose main value is rounded by snap= or checked against free=:
+ * when the followed let reaches that value (an entry since n0), more than
+ * the value changes with it. */
+static void follow_rounded(elab *x, const ls_part *p, int n0)
+{
+    for (int i = n0; i < x->deps->n; i++) {
+        const ls_ld_entry *e = ls_letdeps_entry(x->deps, i);
+        if (e->kind == LD_VALUE || (e->kind == LD_OPT && e->is_main)) {
+            char why[160];
+            snprintf(why, sizeof why, "the value of %s '%s', rounded by snap= or bounded by free=", p->kind->name,
+                     p->name);
+            ls_letdeps_structural(x->deps, why);
+            return;
+        }
+    }
+}
+
 /* part -> fill an ls_part from its statement */
 static void elab_part(elab *x, const scope *s, const ls_stmt *st)
 {
@@ -1240,6 +1360,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     p.instance = s->prefix[0] ? s->prefix : NULL;
     p.slot = -1;
     int errs = x->d->errors;
+    int deps_n0 = x->deps ? x->deps->n : 0;
 
     if (k->shape == SHAPE_TWO && !st->arrow) {
         ls_error(x->d, st->name_loc, "%s '%s' needs its nodes: %s", k->name, st->name, k->doc);
@@ -1264,6 +1385,9 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         } else if (eval_slot(x, s, st->value, vd, &p.value)) {
             p.has_value = true;
             p.value_loc = st->value->loc;
+            int en = follow(x, s, st->value, LD_VALUE, nl->nparts);
+            if (en >= 0)
+                ls_letdeps_entry(x->deps, en)->flags = main_opt < 0 ? k->value_flags : 0;
         }
     }
     for (int i = 0; i < st->nopts; i++) {
@@ -1317,6 +1441,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
                 if (!add_budget(x, s, o->value, &v))
                     continue;
                 p.opt[oi] = v;
+                follow(x, s, o->value, LD_BUDGET, (int)v);
                 break;
             }
             if (!eval_slot(x, s, o->value, od->dims, &v) || !check_flags(x, od->flags, v, o->value->loc, o->name))
@@ -1335,6 +1460,14 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
                 continue;
             }
             p.opt[oi] = v;
+            int en = follow(x, s, o->value, LD_OPT, nl->nparts);
+            if (en >= 0) {
+                ls_ld_entry *le = ls_letdeps_entry(x->deps, en);
+                le->slot = oi;
+                le->flags = od->flags;
+                le->is_main = od->flags & OPTF_MAIN;
+                le->is_tol = strcmp(od->name, "tol") == 0;
+            }
             break;
         }
         case OPT_NODE:
@@ -1387,6 +1520,9 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     }
     if (p.has_opt) { /* free= and snap= are options: without any, nothing to finish */
         finish_free(x, &p);
+        if (x->deps && p.has_value &&
+            (ls_part_has(&p, ls_kind_opt(k, "snap")) || ls_part_has(&p, ls_kind_opt(k, "free"))))
+            follow_rounded(x, &p, deps_n0);
         if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
             snap_value(x, &p, ls_kind_opt(k, "snap"), snap_loc);
     }
@@ -1535,9 +1671,13 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
         if (param_given[i]) {
             if (!eval(x, s, param_given[i]->value, &v, &d))
                 continue;
+            if (follow(x, s, param_given[i]->value, LD_PARAM, nl->nparams) >= 0)
+                ls_letdeps_mark(x->deps, nl->nparams);
         } else if (bo->value) {
             if (!eval(x, &in, bo->value, &v, &d))
                 continue;
+            if (follow(x, &in, bo->value, LD_PARAM, nl->nparams) >= 0)
+                ls_letdeps_mark(x->deps, nl->nparams);
         } else {
             ls_error(x->d, st->name_loc, "'%s' needs parameter '%s' of block '%s' (it has no default)", st->name,
                      bo->name, b->name);
@@ -1548,6 +1688,20 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
     if (x->d->errors != errs)
         return;
     elab_body(x, &in, b->body, b->nbody);
+}
+
+/* Let i (declared by st, its value from `used`) is the followed let itself,
+ * or depends on it. */
+static void follow_param(elab *x, const scope *s, const ls_stmt *st, const ls_expr *used, int i)
+{
+    if (!x->deps || i < 0)
+        return;
+    if (!s->prefix[0] && strcmp(st->name, x->deps->let) == 0) {
+        x->deps->root = i;
+        ls_letdeps_mark(x->deps, i);
+    } else if (follow(x, s, used, LD_PARAM, i) >= 0) {
+        ls_letdeps_mark(x->deps, i);
+    }
 }
 
 static void elab_param(elab *x, const scope *s, const ls_stmt *st)
@@ -1562,6 +1716,7 @@ static void elab_param(elab *x, const scope *s, const ls_stmt *st)
     ls_dims d;
     if (!eval(x, s, e, &v, &d))
         return;
+    const ls_expr *used = e;   /* the expression the let's value comes from */
     if (set) {
         set->used = true;
         double sv;
@@ -1575,12 +1730,14 @@ static void elab_param(elab *x, const scope *s, const ls_stmt *st)
                      dname(d, b1, sizeof b1), dname(sd, b2, sizeof b2));
             sv = v;
             sd = d;
+        } else {
+            used = set->value;
         }
         v = sv;
         if (norm(sd).known)
             d = sd;
     }
-    add_param(x, s, st->name, v, d, st->name_loc);
+    follow_param(x, s, st, used, add_param(x, s, st->name, v, d, st->name_loc));
 }
 
 /* Params first (in order), then parts, instances and checks. */
@@ -2008,8 +2165,15 @@ static void number_branches(ls_netlist *nl)
 
 int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl)
 {
+    return ls_elaborate_following(prog, d, sets, nsets, nl, NULL);
+}
+
+int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl,
+                           ls_letdeps *deps)
+{
     elab x;
     memset(&x, 0, sizeof x);
+    x.deps = deps;
     x.nl = nl;
     x.d = d;
     x.a = d->arena;
@@ -2053,8 +2217,14 @@ int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nset
 
 ls_q *ls_bind_quantity(ls_netlist *nl, const ls_expr *e)
 {
+    return ls_bind_quantity_following(nl, e, NULL);
+}
+
+ls_q *ls_bind_quantity_following(ls_netlist *nl, const ls_expr *e, ls_letdeps *deps)
+{
     elab x;
     memset(&x, 0, sizeof x);
+    x.deps = deps;
     x.nl = nl;
     x.d = nl->diags;
     x.a = nl->arena;

@@ -17,9 +17,22 @@
  * from d).  Returns the number of errors. */
 int ls_elaborate(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl);
 
+struct ls_letdeps;
+
+/* ls_elaborate, also recording in deps (when not NULL; see letdeps.h) what
+ * the let deps->let reaches, so that a sweep of it need not elaborate again. */
+int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets, int nsets, ls_netlist *nl,
+                           struct ls_letdeps *deps);
+
 /* Bind an expression of node voltages and properties at the top level (for a
  * QUANTITY on the command line).  NULL after reporting an error. */
 ls_q *ls_bind_quantity(ls_netlist *nl, const ls_expr *e);
+/* ls_bind_quantity, recording in deps (when not NULL) the constants that
+ * come from lets the followed let reaches. */
+ls_q *ls_bind_quantity_following(ls_netlist *nl, const ls_expr *e, struct ls_letdeps *deps);
+
+/* Would the elaborator accept v for a value with the checks flags (OPTF_*)? */
+bool ls_elab_value_ok(unsigned flags, double v);
 
 /* Dimensions of a property of a part. */
 ls_dims ls_prop_dims(const ls_part *p, ls_prop prop);
