@@ -247,16 +247,24 @@ double ls_acc_drop(const ls_op *op, int a, int b)
 
 /* ---- bounds ------------------------------------------------------------------------------ */
 
+/* A bound solve's failure: -1 when memory ran out, -2 when the solver could
+ * not solve (an iterative solve that stopped short): no bound, not an error. */
+static int bound_fail(int st)
+{
+    return st == LS_SOLVER_NOMEM ? -1 : -2;
+}
+
 /* |y|^T w, y = A^-T c (c given as a linear form), into *bound.  y: n doubles
- * of work.  0, or -1 when the solve fails. */
+ * of work.  0, or bound_fail's code when the solve fails. */
 static int form_bound(ls_op *op, const ls_lin *l, const double *w, double *y, double *bound)
 {
     int n = op->mna.n;
     memset(y, 0, (size_t)n * sizeof *y);
     for (int i = 0; i < l->n; i++)
         y[l->idx[i]] += l->coef[i];
-    if (ls_solver_solve(op->solver, y, 1) != LS_SOLVER_OK)
-        return -1;
+    int st = ls_solver_solve(op->solver, y, 1);
+    if (st != LS_SOLVER_OK)
+        return bound_fail(st);
     double s = 0;
     for (int i = 0; i < n; i++)
         s += fabs(y[i]) * w[i];
@@ -266,7 +274,7 @@ static int form_bound(ls_op *op, const ls_lin *l, const double *w, double *y, do
 
 /* max over node rows of (|A^-1| w), estimated by dlacn2 on
  * B = diag(w) A^-T D, D keeping node entries (||B||_1 = ||D A^-1 diag(w)||_inf).
- * v, x: n doubles; isgn: n ints.  -1 when a solve fails. */
+ * v, x: n doubles; isgn: n ints.  0, or bound_fail's code when a solve fails. */
 static int estimate_node_bound(ls_op *op, const double *w, double *v, double *x, int *isgn, double *est)
 {
     int n = op->mna.n, nn = op->mna.nn, kase = 0, isave[3] = {0, 0, 0};
@@ -280,15 +288,17 @@ static int estimate_node_bound(ls_op *op, const double *w, double *v, double *x,
         if (kase == 1) { /* x <- B x */
             for (int i = nn; i < n; i++)
                 x[i] = 0;
-            if (ls_solver_solve(op->solver, x, 1) != LS_SOLVER_OK)
-                return -1;
+            int st = ls_solver_solve(op->solver, x, 1);
+            if (st != LS_SOLVER_OK)
+                return bound_fail(st);
             for (int i = 0; i < n; i++)
                 x[i] *= w[i];
         } else { /* x <- B^T x */
             for (int i = 0; i < n; i++)
                 x[i] *= w[i];
-            if (ls_solver_solve(op->solver, x, 0) != LS_SOLVER_OK)
-                return -1;
+            int st = ls_solver_solve(op->solver, x, 0);
+            if (st != LS_SOLVER_OK)
+                return bound_fail(st);
             for (int i = nn; i < n; i++)
                 x[i] = 0;
         }
@@ -323,14 +333,15 @@ static bool column_signs(const ls_op *op, double *s)
  * sign s gives it, that is (|A^-1| w), each node's exact bound before the
  * solve's own rounding, for the price of one solve.  0 done; 1 some node row
  * came out clearly negative (the signs do not hold: use the estimate);
- * -1 the solve failed.  y: n doubles. */
+ * bound_fail's code the solve failed.  y: n doubles. */
 static int signed_node_bound(ls_op *op, const double *w, const double *s, double *y)
 {
     int n = op->mna.n, nn = op->mna.nn;
     for (int i = 0; i < n; i++)
         y[i] = s[i] * w[i];
-    if (ls_solver_solve(op->solver, y, 0) != LS_SOLVER_OK)
-        return -1;
+    int st = ls_solver_solve(op->solver, y, 0);
+    if (st != LS_SOLVER_OK)
+        return bound_fail(st);
     double top = 0;
     for (int i = 0; i < nn; i++)
         top = fmax(top, fabs(y[i]));
@@ -411,6 +422,22 @@ static int trial_refine(ls_op *op)
     return r;
 }
 
+/* No bound holds (the refinement did not settle, or a bound's solve could
+ * not be made): every value's digits are unconfirmed, shown as such. */
+static void unbounded(ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    ls_accuracy *a = &op->acc;
+    for (int i = 0; i < nl->nnodes; i++)
+        a->node_bound[i] = i ? INFINITY : 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        ls_lin l;
+        a->part_bound[i] = part_form(op, i, &l) ? INFINITY : NAN;
+    }
+    a->have_bounds = true;
+    name_worst(op);
+}
+
 int ls_acc_bounds(ls_op *op)
 {
     if (op->acc.have_bounds)
@@ -438,16 +465,9 @@ int ls_acc_bounds(ls_op *op)
         return -1;
     }
     if (!a->reliable) {
-        for (int i = 0; i < nl->nnodes; i++)
-            a->node_bound[i] = i ? INFINITY : 0;
-        for (int i = 0; i < nl->nparts; i++) {
-            ls_lin l;
-            a->part_bound[i] = part_form(op, i, &l) ? INFINITY : NAN;
-        }
         free(buf);
         free(isgn);
-        a->have_bounds = true;
-        name_worst(op);
+        unbounded(op);
         return 0;
     }
     double *w = buf, *absr = buf + m, *y = buf + 2 * m, *work = buf + 3 * m;
@@ -463,11 +483,11 @@ int ls_acc_bounds(ls_op *op)
          * exactly, by one solve; else one estimate for all */
         int sr = column_signs(op, work) ? signed_node_bound(op, w, work, y) : 1;
         if (sr < 0)
-            bad = 1;
+            bad = sr;
         a->per_node = sr == 0;
         a->estimated = sr > 0;
         if (a->estimated)
-            bad = estimate_node_bound(op, w, y, work, isgn, &est) != 0;
+            bad = estimate_node_bound(op, w, y, work, isgn, &est);
     }
     /* the bound of node unknown k, per node or estimated (large systems) */
 #define NODE_RAW(k) (SOLVE_SAFETY * (a->per_node ? fmax(y[k], 0) : est))
@@ -478,7 +498,7 @@ int ls_acc_bounds(ls_op *op)
             b = NODE_RAW(i - 1);
         } else {
             ls_lin l = {.n = 1, .idx = {i - 1}, .coef = {1}};
-            bad = form_bound(op, &l, w, y, &b) != 0;
+            bad = form_bound(op, &l, w, y, &b);
         }
         a->node_bound[i] = b + DBL_EPSILON * fabs(op->v[i]);
     }
@@ -494,15 +514,19 @@ int ls_acc_bounds(ls_op *op)
             if (isnan(b))
                 continue; /* a branch current: no per-unknown estimate */
         } else {
-            bad = form_bound(op, &l, w, y, &b) != 0;
+            bad = form_bound(op, &l, w, y, &b);
         }
         a->part_bound[i] = b + DBL_EPSILON * fabs(op->ipart[i]);
     }
 #undef NODE_RAW
     free(buf);
     free(isgn);
-    if (bad)
+    if (bad == -1)
         return -1;
+    if (bad) { /* a solve that stopped short: no bound, said as such */
+        unbounded(op);
+        return 0;
+    }
     a->have_bounds = true;
     name_worst(op);
     return 0;
