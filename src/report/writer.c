@@ -50,21 +50,31 @@ static void csv_lost(ls_wr *w, const char *what, size_t bytes)
     w->rp->nomem_bytes = bytes;
 }
 
+/* Make *buf (of *cap bytes, doubling from 256) hold at least need bytes.
+ * 0, or the size that could not be had (*buf is then unchanged). */
+static size_t room(char **buf, size_t *cap, size_t need)
+{
+    if (need <= *cap)
+        return 0;
+    size_t c = *cap ? *cap * 2 : 256;
+    while (c < need)
+        c *= 2;
+    char *b = realloc(*buf, c);
+    if (!b)
+        return c;
+    *buf = b;
+    *cap = c;
+    return 0;
+}
+
 /* Add item s to the array being joined; false when memory ran out. */
 static bool join_item(ls_wr *w, const char *s)
 {
     size_t n = strlen(s) + 2;
-    if (w->jlen + n > w->jcap) {
-        size_t cap = w->jcap ? w->jcap * 2 : 256;
-        while (cap < w->jlen + n)
-            cap *= 2;
-        char *b = realloc(w->join, cap);
-        if (!b) {
-            csv_lost(w, "a list of the CSV report", cap);
-            return false;
-        }
-        w->join = b;
-        w->jcap = cap;
+    size_t cap = room(&w->join, &w->jcap, w->jlen + n);
+    if (cap) {
+        csv_lost(w, "a list of the CSV report", cap);
+        return false;
     }
     if (w->jlen)
         w->join[w->jlen++] = ' ';
@@ -257,19 +267,12 @@ static bool csv_cell(ls_wr *w, const ls_wr_col *c)
 static void text_cell(ls_wr *w, const char *s)
 {
     size_t n = strlen(s) + 1;
-    if (w->rlen + n > w->rcap) {
-        size_t cap = w->rcap ? w->rcap * 2 : 256;
-        while (cap < w->rlen + n)
-            cap *= 2;
-        char *b = realloc(w->rbuf, cap);
-        if (!b) {
-            w->lost = true;
-            w->rp->nomem = "a row of the text report";
-            w->rp->nomem_bytes = cap;
-            return;
-        }
-        w->rbuf = b;
-        w->rcap = cap;
+    size_t cap = room(&w->rbuf, &w->rcap, w->rlen + n);
+    if (cap) {
+        w->lost = true;
+        w->rp->nomem = "a row of the text report";
+        w->rp->nomem_bytes = cap;
+        return;
     }
     w->off[w->cell] = w->rlen;
     memcpy(w->rbuf + w->rlen, s, n);
