@@ -1,6 +1,7 @@
 /* writer.c — the report writer and its text, JSON and CSV backends (writer.h). */
 #include "report/writer.h"
 
+#include <assert.h>
 #include <stdarg.h>
 #include <stdlib.h>
 #include <string.h>
@@ -11,6 +12,7 @@ void ls_wr_begin(ls_wr *w, ls_report *rp)
 {
     memset(w, 0, sizeof *w);
     w->rp = rp;
+    w->to = LS_WR_ALL;
     if (rp->fmt == FMT_JSON)
         ls_report_json_begin(rp, &w->jw);
 }
@@ -30,17 +32,22 @@ int ls_wr_finish(ls_wr *w)
     return w->rp->nomem ? -1 : 0;
 }
 
-/* Is the report JSON?  The members are written there (and as CSV field rows
- * where asked). */
-static bool json(const ls_wr *w)
+/* Is the report JSON? */
+static bool fmt_json(const ls_wr *w)
 {
     return w->rp->fmt == FMT_JSON;
+}
+
+/* Does a member go to the JSON tree now? */
+static bool json(const ls_wr *w)
+{
+    return fmt_json(w) && (w->to & LS_WR_JSON);
 }
 
 /* Does a member go to a CSV field row now? */
 static bool csv_row_on(const ls_wr *w)
 {
-    return w->rp->fmt == FMT_CSV && w->fields && w->rows_on && w->ob;
+    return w->rp->fmt == FMT_CSV && w->fields && w->rows_on && w->ob && (w->to & LS_WR_CSV);
 }
 
 /* Say that memory ran out for a CSV row (what, bytes asked). */
@@ -92,7 +99,19 @@ static void csv_member(ls_wr *w, const char *key, const char *v, bool quote)
         join_item(w, v);
         return;
     }
-    ls_ob_csv_field(w->ob, key);
+    if (w->keyed) {
+        for (int k = 0; k < 2; k++) {
+            ls_ob_csv_field(w->ob, w->key[k] ? w->key[k] : "");
+            ls_ob_putc(w->ob, ',');
+        }
+    }
+    if (w->depth && w->prelen[w->depth]) {
+        char f[512];
+        snprintf(f, sizeof f, "%.*s%s", (int)w->prelen[w->depth], w->pre, key);
+        ls_ob_csv_field(w->ob, f);
+    } else {
+        ls_ob_csv_field(w->ob, key);
+    }
     ls_ob_putc(w->ob, ',');
     if (quote)
         ls_ob_csv_field(w->ob, v);
@@ -101,10 +120,9 @@ static void csv_member(ls_wr *w, const char *key, const char *v, bool quote)
     ls_ob_putc(w->ob, '\n');
 }
 
-void ls_wr_fields(ls_wr *w, const char *field, const char *value)
+/* Open the CSV block of a field report and write its heading of n names. */
+static void fields_head(ls_wr *w, int n, const char *const *names)
 {
-    if (w->rp->fmt != FMT_CSV)
-        return;
     w->fields = w->rows_on = true;
     w->ob = malloc(sizeof *w->ob);
     if (!w->ob) {
@@ -112,10 +130,49 @@ void ls_wr_fields(ls_wr *w, const char *field, const char *value)
         return;
     }
     ls_ob_init(w->ob, w->rp->out);
-    ls_ob_csv_field(w->ob, field);
-    ls_ob_putc(w->ob, ',');
-    ls_ob_csv_field(w->ob, value);
+    for (int k = 0; k < n; k++) {
+        if (k)
+            ls_ob_putc(w->ob, ',');
+        ls_ob_csv_field(w->ob, names[k]);
+    }
     ls_ob_putc(w->ob, '\n');
+}
+
+void ls_wr_fields(ls_wr *w, const char *field, const char *value)
+{
+    if (w->rp->fmt == FMT_CSV)
+        fields_head(w, 2, (const char *const[]){field, value});
+}
+
+void ls_wr_fields_keyed(ls_wr *w, const char *k1, const char *k2, const char *field, const char *value)
+{
+    if (w->rp->fmt != FMT_CSV)
+        return;
+    w->keyed = true;
+    fields_head(w, 4, (const char *const[]){k1, k2, field, value});
+}
+
+void ls_wr_keys(ls_wr *w, const char *k1, const char *k2)
+{
+    w->key[0] = k1;
+    w->key[1] = k2;
+}
+
+void ls_wr_route(ls_wr *w, unsigned to)
+{
+    w->to = to;
+}
+
+void ls_wr_compact(ls_wr *w, bool on)
+{
+    if (!fmt_json(w))
+        return;
+    if (on) {
+        w->wrap = w->jw.wrap;
+        w->jw.wrap = 1;
+    } else {
+        w->jw.wrap = w->wrap;
+    }
 }
 
 void ls_wr_csv_rows(ls_wr *w, bool on)
@@ -123,27 +180,56 @@ void ls_wr_csv_rows(ls_wr *w, bool on)
     w->rows_on = on;
 }
 
+/* What a container did, kept per depth so that ls_wr_end undoes it whatever
+ * the route is by then. */
+enum { OPEN_JSON = 1, OPEN_PREFIX = 4, OPEN_JOIN = 8 };
+
+/* Push the record of a container (prefix: the CSV field prefix it adds). */
+static void push_open(ls_wr *w, unsigned rec, const char *prefix)
+{
+    assert(w->depth < LS_WR_DEPTH);
+    size_t at = w->prelen[w->depth];
+    w->open[w->depth++] = (unsigned char)rec;
+    w->prelen[w->depth] = at;
+    if (rec & OPEN_PREFIX) {
+        int n = snprintf(w->pre + at, sizeof w->pre - at, "%s.", prefix);
+        w->prelen[w->depth] = n > 0 && at + (size_t)n < sizeof w->pre ? at + (size_t)n : at;
+    }
+}
+
 void ls_wr_obj(ls_wr *w, const char *key)
 {
-    if (json(w))
+    unsigned rec = 0;
+    if (json(w)) {
         ls_jw_obj(&w->jw, key);
+        rec = OPEN_JSON;
+    } else if (csv_row_on(w) && w->keyed && key) {
+        rec = OPEN_PREFIX;
+    }
+    push_open(w, rec, key);
 }
 
 void ls_wr_arr(ls_wr *w, const char *key)
 {
-    if (json(w))
+    unsigned rec = 0;
+    if (json(w)) {
         ls_jw_arr(&w->jw, key);
-    else if (csv_row_on(w) && key) {
+        rec = OPEN_JSON;
+    } else if (csv_row_on(w) && key) {
         w->arr_key = key;
         w->jlen = 0;
+        rec = OPEN_JOIN;
     }
+    push_open(w, rec, NULL);
 }
 
 void ls_wr_end(ls_wr *w)
 {
-    if (json(w)) {
+    assert(w->depth > 0);
+    unsigned rec = w->open[--w->depth];
+    if (rec & OPEN_JSON) {
         ls_jw_end(&w->jw);
-    } else if (csv_row_on(w) && w->arr_key) {
+    } else if ((rec & OPEN_JOIN) && w->arr_key) {
         const char *key = w->arr_key;
         w->arr_key = NULL;
         csv_member(w, key, w->jlen ? w->join : "", true);
@@ -191,6 +277,14 @@ void ls_wr_null(ls_wr *w, const char *key, const char *why)
         ls_jw_null(&w->jw, key, why);
 }
 
+void ls_wr_num_why(ls_wr *w, const char *key, double v, const char *why)
+{
+    if (json(w))
+        ls_jw_num_why(&w->jw, key, v, why);
+    else if (csv_row_on(w))
+        csv_member(w, key, LS_CSV(v), false);
+}
+
 void ls_wr_say(ls_wr *w, const char *fmt, ...)
 {
     if (w->rp->fmt != FMT_TEXT)
@@ -203,6 +297,46 @@ void ls_wr_say(ls_wr *w, const char *fmt, ...)
 
 /* ---- tables ---------------------------------------------------------------------------- */
 
+/* CSV: the open table's block and its heading (none when it continues the
+ * table before). */
+static void csv_table_open(ls_wr *w, bool heading)
+{
+    if (!w->ob) {   /* (a report of field rows has its block already) */
+        w->ob = malloc(sizeof *w->ob);
+        if (!w->ob) {
+            csv_lost(w, "the CSV table", sizeof *w->ob);
+            return;
+        }
+        ls_ob_init(w->ob, w->rp->out);
+    }
+    if (!heading)
+        return;
+    for (int c = 0; c < w->ncol; c++) {
+        if (!w->cols[c].csv)
+            continue;
+        if (!w->csv_first)
+            ls_ob_putc(w->ob, ',');
+        ls_ob_csv_field(w->ob, w->cols[c].csv);
+        w->csv_first = false;
+    }
+    ls_ob_putc(w->ob, '\n');
+    w->csv_first = true;
+}
+
+/* Text: the open table's aligned layout. */
+static void text_table_open(ls_wr *w, const ls_wr_style *style)
+{
+    ls_table t = {.lead = style->lead, .gap = style->gap, .fixed = style->fixed};
+    for (int c = 0; c < w->ncol; c++) {
+        if (!w->cols[c].head)
+            continue;
+        t.head[t.ncol] = w->cols[c].head;
+        t.right[t.ncol] = w->cols[c].right;
+        t.minw[t.ncol++] = w->cols[c].width;
+    }
+    w->tab = t;
+}
+
 void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, const ls_wr_style *style)
 {
     ls_wr_style none = {0};
@@ -214,40 +348,21 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
     w->skip_empty = style->skip_empty;
     w->csv_first = true;
     w->rlen = 0;
-    switch (w->rp->fmt) {
-    case FMT_JSON: ls_jw_arr(&w->jw, key); break;
-    case FMT_CSV:
-        if (!w->ob) {   /* (a report of field rows has its block already) */
-            w->ob = malloc(sizeof *w->ob);
-            if (!w->ob) {
-                csv_lost(w, "the CSV table", sizeof *w->ob);
-                return;
-            }
-            ls_ob_init(w->ob, w->rp->out);
-        }
-        for (int c = 0; c < w->ncol; c++) {
-            if (!cols[c].csv)
-                continue;
-            if (!w->csv_first)
-                ls_ob_putc(w->ob, ',');
-            ls_ob_csv_field(w->ob, cols[c].csv);
-            w->csv_first = false;
-        }
-        ls_ob_putc(w->ob, '\n');
-        w->csv_first = true;
-        break;
-    case FMT_TEXT: {
-        ls_table t = {.lead = style->lead, .gap = style->gap, .fixed = style->fixed};
-        for (int c = 0; c < w->ncol; c++) {
-            if (!cols[c].head)
-                continue;
-            t.head[t.ncol] = cols[c].head;
-            t.right[t.ncol] = cols[c].right;
-            t.minw[t.ncol++] = cols[c].width;
-        }
-        w->tab = t;
-        break;
+    w->tjson = w->tcsv = false;
+    for (int c = 0; c < w->ncol; c++) {
+        w->tjson |= cols[c].json != NULL;
+        w->tcsv |= cols[c].csv != NULL;
     }
+    switch (w->rp->fmt) {
+    case FMT_JSON:
+        if (w->tjson)
+            ls_jw_arr(&w->jw, key);
+        break;
+    case FMT_CSV:
+        if (w->tcsv)
+            csv_table_open(w, !style->csv_continue);
+        break;
+    case FMT_TEXT: text_table_open(w, style); break;
     default: break;
     }
 }
@@ -279,20 +394,19 @@ static void text_cell(ls_wr *w, const char *s)
     w->rlen += n;
 }
 
-/* Called before a row's first cell: JSON opens the row's object. */
-static void row_open(ls_wr *w)
-{
-    if (json(w))
-        ls_jw_obj(&w->jw, NULL);
-}
-
-/* The column of the next cell (a row's first cell opens the row), or NULL
- * when the row is full. */
+/* The column of the next cell (a row's first cell opens the row's JSON
+ * object), or NULL when the row is full. */
 static const ls_wr_col *next_col(ls_wr *w)
 {
-    if (w->cell == 0 && w->ncol)
-        row_open(w);
+    if (w->cell == 0 && w->ncol && fmt_json(w) && w->tjson)
+        ls_jw_obj(&w->jw, NULL);
     return w->cell < w->ncol ? &w->cols[w->cell] : NULL;
+}
+
+/* Is the text report showing column c? */
+static bool text_col(const ls_wr *w, const ls_wr_col *c)
+{
+    return w->rp->fmt == FMT_TEXT && c->head;
 }
 
 void ls_wr_cell_num(ls_wr *w, double v, const char *text)
@@ -300,11 +414,11 @@ void ls_wr_cell_num(ls_wr *w, double v, const char *text)
     const ls_wr_col *c = next_col(w);
     if (!c)
         return;
-    if (json(w) && c->json)
+    if (fmt_json(w) && c->json)
         ls_jw_num(&w->jw, c->json, v);
     if (csv_cell(w, c))
         ls_ob_csv_number(w->ob, v);
-    if (w->rp->fmt == FMT_TEXT && c->head) {
+    if (text_col(w, c)) {
         char b[64];
         text_cell(w, text ? text : ls_eng(w->rp, b, sizeof b, v, ""));
     }
@@ -318,11 +432,11 @@ void ls_wr_cell_int(ls_wr *w, long long v)
         return;
     char b[32];
     snprintf(b, sizeof b, "%lld", v);
-    if (json(w) && c->json)
+    if (fmt_json(w) && c->json)
         ls_jw_int(&w->jw, c->json, v);
     if (csv_cell(w, c))
         ls_ob_puts(w->ob, b);
-    if (w->rp->fmt == FMT_TEXT && c->head)
+    if (text_col(w, c))
         text_cell(w, b);
     w->cell++;
 }
@@ -332,12 +446,26 @@ void ls_wr_cell_str(ls_wr *w, const char *s)
     const ls_wr_col *c = next_col(w);
     if (!c)
         return;
-    if (json(w) && c->json)
+    if (fmt_json(w) && c->json)
         ls_jw_str(&w->jw, c->json, s);
     if (csv_cell(w, c))
         ls_ob_csv_field(w->ob, s ? s : "");
-    if (w->rp->fmt == FMT_TEXT && c->head)
+    if (text_col(w, c))
         text_cell(w, s ? s : "");
+    w->cell++;
+}
+
+void ls_wr_cell_bool(ls_wr *w, bool v, const char *text)
+{
+    const ls_wr_col *c = next_col(w);
+    if (!c)
+        return;
+    if (fmt_json(w) && c->json)
+        ls_jw_bool(&w->jw, c->json, v);
+    if (csv_cell(w, c))
+        ls_ob_puts(w->ob, v ? "true" : "false");
+    if (text_col(w, c))
+        text_cell(w, text ? text : v ? "true" : "false");
     w->cell++;
 }
 
@@ -345,11 +473,11 @@ void ls_wr_row(ls_wr *w)
 {
     switch (w->rp->fmt) {
     case FMT_JSON:
-        if (w->cell)
+        if (w->cell && w->tjson)
             ls_jw_end(&w->jw);
         break;
     case FMT_CSV:
-        if (w->ob)
+        if (w->tcsv && w->ob)
             ls_ob_putc(w->ob, '\n');
         break;
     case FMT_TEXT:
@@ -369,21 +497,30 @@ void ls_wr_row(ls_wr *w)
     w->csv_first = true;
 }
 
+/* CSV: hand the table's rows on (the block stays for a field report). */
+static int csv_table_end(ls_wr *w)
+{
+    if (!w->ob)
+        return -1;
+    ls_ob_flush(w->ob);
+    if (!w->fields) {
+        free(w->ob);
+        w->ob = NULL;
+    }
+    return 0;
+}
+
 int ls_wr_table_end(ls_wr *w)
 {
     int rc = w->lost ? -1 : 0;
     switch (w->rp->fmt) {
-    case FMT_JSON: ls_jw_end(&w->jw); break;
+    case FMT_JSON:
+        if (w->tjson)
+            ls_jw_end(&w->jw);
+        break;
     case FMT_CSV:
-        if (w->ob) {
-            ls_ob_flush(w->ob);
-            if (!w->fields) {
-                free(w->ob);
-                w->ob = NULL;
-            }
-        } else {
-            rc = -1;
-        }
+        if (w->tcsv)
+            rc |= csv_table_end(w);
         break;
     case FMT_TEXT:
         if (w->tab.rows || w->tab.failed || !w->skip_empty)   /* a lost row is told */

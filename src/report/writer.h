@@ -11,7 +11,13 @@
  *             A report whose CSV is one row per field (FIELD,VALUE) says so
  *             with ls_wr_fields; then the members written while
  *             ls_wr_csv_rows is on are rows too (an array of strings one row,
- *             its items joined by spaces).
+ *             its items joined by spaces).  A report whose rows carry two
+ *             keys first (SECTION,NAME,FIELD,VALUE) opens with
+ *             ls_wr_fields_keyed and sets the keys with ls_wr_keys; there
+ *             the members of a named object are fields "OBJECT.MEMBER".
+ *   routing   ls_wr_route: which backends the members go to from here (the
+ *             JSON tree, the CSV field rows, or both: where two formats
+ *             order or name a thing differently, each gets its own call).
  *   prose     ls_wr_say: a line of the text report only.
  *   a table   ls_wr_table, then per row ls_wr_cell_* and ls_wr_row, then
  *             ls_wr_table_end: in JSON an array of objects (one member per
@@ -20,8 +26,11 @@
  *             shortest exact text, empty when not finite), in text an aligned
  *             table (the columns that have a heading; each number shown as
  *             the text the command formatted for it: units, %, digits).
+ *             A format with no column of its own writes nothing of the table
+ *             (a text-only table, a table only JSON has); members written
+ *             between a row's cells and ls_wr_row go into the row's object.
  *
- * The HTML page keeps its own layout (cli/html.c). */
+ * The HTML page keeps its own layout (cli/html.c; DEVELOPERS.md says why). */
 #ifndef LS_WRITER_H
 #define LS_WRITER_H
 
@@ -47,7 +56,13 @@ typedef struct ls_wr_style {
     const char *lead, *gap;  /* before each line, between columns; NULL: two spaces */
     bool fixed;              /* each column exactly its width (ls_table.fixed) */
     bool skip_empty;         /* no heading either when the table has no row */
+    bool csv_continue;       /* CSV: the rows continue the table before (no heading) */
 } ls_wr_style;
+
+/* Where members go (ls_wr_route). */
+enum { LS_WR_JSON = 1u, LS_WR_CSV = 2u, LS_WR_ALL = 3u };
+
+#define LS_WR_DEPTH 16
 
 typedef struct ls_wr {
     ls_report *rp;
@@ -66,6 +81,15 @@ typedef struct ls_wr {
     const char *arr_key;     /* the array being joined into one row, or NULL */
     char *join;              /* its items, space-separated (malloc'd) */
     size_t jlen, jcap;
+    unsigned to;             /* where members go (LS_WR_JSON | LS_WR_CSV) */
+    bool tjson, tcsv;        /* the open table has a JSON, a CSV column */
+    bool keyed;              /* field rows start with two keys (ls_wr_fields_keyed) */
+    const char *key[2];      /* the keys of the next field rows */
+    int depth;               /* containers open through the writer */
+    unsigned char open[LS_WR_DEPTH];  /* per depth: LS_WR_JSON when JSON opened it, | 4 when it prefixes CSV fields */
+    char pre[256];           /* the CSV field prefix ("fix."), keyed reports */
+    size_t prelen[LS_WR_DEPTH + 1];
+    int wrap;                /* the JSON wrap before ls_wr_compact */
 } ls_wr;
 
 /* Start the report of rp (JSON: the top object and its "meta"). */
@@ -83,6 +107,8 @@ void ls_wr_int(ls_wr *w, const char *key, long long v);
 void ls_wr_bool(ls_wr *w, const char *key, bool v);
 void ls_wr_str(ls_wr *w, const char *key, const char *s);
 void ls_wr_null(ls_wr *w, const char *key, const char *why);
+/* A number; when not finite, JSON's null carries `why`, CSV's cell is empty. */
+void ls_wr_num_why(ls_wr *w, const char *key, double v, const char *why);
 
 /* The CSV report is one row per field under the heading "FIELD,VALUE"
  * (names given); members become rows while ls_wr_csv_rows is on (it is, from
@@ -90,6 +116,17 @@ void ls_wr_null(ls_wr *w, const char *key, const char *why);
 void ls_wr_fields(ls_wr *w, const char *field, const char *value);
 /* Whether the members written from now on are CSV rows too. */
 void ls_wr_csv_rows(ls_wr *w, bool on);
+/* The CSV report is one row per field under the heading
+ * "K1,K2,FIELD,VALUE" (names given); each row starts with the two keys last
+ * given to ls_wr_keys (they must stay valid until the next call). */
+void ls_wr_fields_keyed(ls_wr *w, const char *k1, const char *k2, const char *field, const char *value);
+void ls_wr_keys(ls_wr *w, const char *k1, const char *k2);
+/* Send the members (and containers) written from now on to the backends in
+ * `to` (LS_WR_JSON, LS_WR_CSV, LS_WR_ALL, the default); a container ends
+ * where it was opened whatever the route is then. */
+void ls_wr_route(ls_wr *w, unsigned to);
+/* JSON: while on, the containers opened are written on one line. */
+void ls_wr_compact(ls_wr *w, bool on);
 
 /* A line of the text report (printf format; the newline is the caller's). */
 void ls_wr_say(ls_wr *w, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
@@ -102,6 +139,9 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
 void ls_wr_cell_num(ls_wr *w, double v, const char *text);
 void ls_wr_cell_int(ls_wr *w, long long v);
 void ls_wr_cell_str(ls_wr *w, const char *s);
+/* A yes/no cell: JSON true/false, CSV "true"/"false", text `text` (NULL:
+ * "true"/"false"). */
+void ls_wr_cell_bool(ls_wr *w, bool v, const char *text);
 /* End the row (every column given a cell). */
 void ls_wr_row(ls_wr *w);
 /* Close the table.  Returns 0, or -1 when memory ran out (rp->nomem says so). */
