@@ -425,6 +425,28 @@ void ls_wr_cell_num(ls_wr *w, double v, const char *text)
     w->cell++;
 }
 
+void ls_wr_cell_eng(ls_wr *w, double v, const char *unit, const char *mark)
+{
+    const ls_wr_col *c = next_col(w);
+    if (!c)
+        return;
+    if (fmt_json(w) && c->json)
+        ls_jw_num(&w->jw, c->json, v);
+    if (csv_cell(w, c))
+        ls_ob_csv_number(w->ob, v);
+    if (text_col(w, c)) {
+        char b[72];
+        size_t m = mark ? strlen(mark) : 0;
+        if (m >= 8)
+            m = 0;
+        if (m)
+            memcpy(b, mark, m);
+        ls_eng(w->rp, b + m, sizeof b - m, v, unit);
+        text_cell(w, b);
+    }
+    w->cell++;
+}
+
 void ls_wr_cell_int(ls_wr *w, long long v)
 {
     const ls_wr_col *c = next_col(w);

@@ -139,6 +139,9 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
 void ls_wr_cell_num(ls_wr *w, double v, const char *text);
 void ls_wr_cell_int(ls_wr *w, long long v);
 void ls_wr_cell_str(ls_wr *w, const char *s);
+/* A number whose text is its engineering notation (ls_eng) with `unit`,
+ * after `mark` ("~", or NULL for none); formatted only when text shows it. */
+void ls_wr_cell_eng(ls_wr *w, double v, const char *unit, const char *mark);
 /* A yes/no cell: JSON true/false, CSV "true"/"false", text `text` (NULL:
  * "true"/"false"). */
 void ls_wr_cell_bool(ls_wr *w, bool v, const char *text);
