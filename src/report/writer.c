@@ -348,10 +348,11 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
     w->skip_empty = style->skip_empty;
     w->csv_first = true;
     w->rlen = 0;
-    w->tjson = w->tcsv = false;
+    w->tjson = w->tcsv = w->ttext = false;
     for (int c = 0; c < w->ncol; c++) {
         w->tjson |= cols[c].json != NULL;
         w->tcsv |= cols[c].csv != NULL;
+        w->ttext |= cols[c].head != NULL;
     }
     switch (w->rp->fmt) {
     case FMT_JSON:
@@ -362,7 +363,10 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
         if (w->tcsv)
             csv_table_open(w, !style->csv_continue);
         break;
-    case FMT_TEXT: text_table_open(w, style); break;
+    case FMT_TEXT:
+        if (w->ttext)
+            text_table_open(w, style);
+        break;
     default: break;
     }
 }
@@ -477,6 +481,19 @@ void ls_wr_cell_str(ls_wr *w, const char *s)
     w->cell++;
 }
 
+void ls_wr_cell_null(ls_wr *w, const char *why)
+{
+    const ls_wr_col *c = next_col(w);
+    if (!c)
+        return;
+    if (fmt_json(w) && c->json)
+        ls_jw_null(&w->jw, c->json, why);
+    csv_cell(w, c);
+    if (text_col(w, c))
+        text_cell(w, "");
+    w->cell++;
+}
+
 void ls_wr_cell_bool(ls_wr *w, bool v, const char *text)
 {
     const ls_wr_col *c = next_col(w);
@@ -503,7 +520,7 @@ void ls_wr_row(ls_wr *w)
             ls_ob_putc(w->ob, '\n');
         break;
     case FMT_TEXT:
-        if (!w->lost) {
+        if (w->ttext && !w->lost) {
             const char *cells[LS_WR_MAXCOL];
             int k = 0;
             for (int c = 0; c < w->ncol; c++)
@@ -545,6 +562,8 @@ int ls_wr_table_end(ls_wr *w)
             rc |= csv_table_end(w);
         break;
     case FMT_TEXT:
+        if (!w->ttext)
+            break;
         if (w->tab.rows || w->tab.failed || !w->skip_empty)   /* a lost row is told */
             rc |= ls_t_print(&w->tab, w->rp->out, &w->rp->nomem, &w->rp->nomem_bytes);
         else

@@ -40,7 +40,7 @@
 #include "report/report.h"
 #include "report/textbuf.h"
 
-#define LS_WR_MAXCOL 12
+#define LS_WR_MAXCOL 16
 
 /* One column of a table. */
 typedef struct ls_wr_col {
@@ -82,7 +82,7 @@ typedef struct ls_wr {
     char *join;              /* its items, space-separated (malloc'd) */
     size_t jlen, jcap;
     unsigned to;             /* where members go (LS_WR_JSON | LS_WR_CSV) */
-    bool tjson, tcsv;        /* the open table has a JSON, a CSV column */
+    bool tjson, tcsv, ttext; /* the open table has a JSON, a CSV, a text column */
     bool keyed;              /* field rows start with two keys (ls_wr_fields_keyed) */
     const char *key[2];      /* the keys of the next field rows */
     int depth;               /* containers open through the writer */
@@ -142,6 +142,8 @@ void ls_wr_cell_str(ls_wr *w, const char *s);
 /* A number whose text is its engineering notation (ls_eng) with `unit`,
  * after `mark` ("~", or NULL for none); formatted only when text shows it. */
 void ls_wr_cell_eng(ls_wr *w, double v, const char *unit, const char *mark);
+/* A cell with no value: JSON null with `why` (jsonw.h), CSV and text empty. */
+void ls_wr_cell_null(ls_wr *w, const char *why);
 /* A yes/no cell: JSON true/false, CSV "true"/"false", text `text` (NULL:
  * "true"/"false"). */
 void ls_wr_cell_bool(ls_wr *w, bool v, const char *text);
