@@ -49,7 +49,8 @@ void ls_report_json_begin(const ls_report *rp, ls_jw *w);
 int ls_report_json_end(ls_report *rp, ls_jw *w);
 /* A port's "budget" (null, "none", without one) and "by" (the rule that
  * decided its verdict: "budget" or "ratio"). */
-void ls_report_budget_json(ls_jw *w, const ls_port_result *pr);
+struct ls_wr;
+void ls_report_budget(struct ls_wr *w, const ls_port_result *pr);
 void ls_csv_field(FILE *out, const char *s);
 /* One CSV number: the shortest exact text, empty when not finite. */
 void ls_csv_number(FILE *out, double v);
@@ -61,12 +62,11 @@ const char *ls_eng(const ls_report *rp, char *buf, size_t n, double v, const cha
  * finite is printed by fmt.  Returns buf. */
 const char *ls_fixed(const ls_report *rp, char *buf, size_t n, const char *fmt, double v);
 const char *ls_unit_of(ls_dims d, bool ascii);
-/* The "warnings" array: code, level ("warning", or "caution" for a hazard to
- * people), message, file, line, column. */
-void ls_report_warnings_json(const ls_report *rp, ls_jw *w);
-/* The "warning" rows of a section,name,field,value CSV: one row per warning
- * (name: its code; field: its file:line:col; value: the message). */
-void ls_report_warnings_csv(const ls_report *rp, FILE *out);
+/* The warnings of rp->diags through writer w: JSON's "warnings" array (code,
+ * level: "warning", or "caution" for a hazard to people, message, file, line,
+ * column), in a SECTION,NAME,FIELD,VALUE CSV the rows "warning,N,FIELD,VALUE"
+ * of the same fields; nothing in text (each report says them in its words). */
+void ls_report_warnings(struct ls_wr *w);
 /* Print nrows rows of ncol (at most 10) cells, row after row in `cells`, under
  * the heading `head`, aligned (right[c]: right-aligned column), to rp->out;
  * indented by two spaces as every text report.  NULL cells print empty.
