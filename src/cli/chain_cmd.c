@@ -2,6 +2,7 @@
  * connection's loading numbers and verdict, as text, JSON, CSV or an HTML
  * page, with an optional drawing (--plot).  The numbers are the port report's
  * (ls_op_port), the same the solve report prints. */
+#include <assert.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -13,121 +14,14 @@
 #include "base/fmt.h"
 #include "cli/html.h"
 #include "report/jsonw.h"
+#include "report/writer.h"
 #include "parts/parts.h"
-
-/* ---- JSON ---------------------------------------------------------------------------- */
-
-/* A stage index, or null ("none": an end on ground or a rail has no stage). */
-static void stage_ref(ls_jw *w, const char *key, int s)
-{
-    if (s >= 0)
-        ls_jw_int(w, key, s);
-    else
-        ls_jw_null(w, key, LS_WHY_NONE);
-}
 
 /* The port fields a connection shows, in order. */
 #define NCONN_FIELDS 4
 static const ls_prop conn_fields[NCONN_FIELDS] = {PROP_ZOUT, PROP_ZIN, PROP_RATIO, PROP_SAG};
 
-static void conn_json(ls_jw *w, ls_op *op, const ls_conn *k)
-{
-    const ls_netlist *nl = op->nl;
-    const ls_port_result *pr = ls_op_port(op, k->port);
-    ls_jw_obj(w, NULL);
-    ls_jw_str(w, "port", nl->parts[k->port].name);
-    stage_ref(w, "from_stage", k->from);
-    stage_ref(w, "to_stage", k->to);
-    ls_jw_str(w, "mode", pr->current_mode ? "current" : "voltage");
-    for (int f = 0; f < NCONN_FIELDS; f++)
-        ls_jw_num(w, ls_prop_name(conn_fields[f]), ls_port_value(pr, conn_fields[f]));
-    ls_report_budget_json(w, pr);
-    ls_jw_str(w, "verdict", ls_verdict_word(pr->verdict));
-    ls_jw_end(w);
-}
-
-static void chain_json(ls_report *rp, ls_session *s, const ls_chain *c)
-{
-    const ls_netlist *nl = &s->nl;
-    ls_jw jw, *w = &jw;
-    ls_report_json_begin(rp, w);
-    ls_jw_str(w, "title", nl->title);
-    ls_jw_arr(w, "stages");
-    for (int i = 0; i < c->nstages; i++) {
-        const ls_stage *st = &c->stages[i];
-        ls_jw_obj(w, NULL); /* a stage on one line */
-        ls_jw_str(w, "name", st->name);
-        ls_jw_str(w, "named_by", st->named_by);
-        ls_jw_arr(w, "parts");
-        for (int k = 0; k < st->nparts; k++)
-            ls_jw_str(w, NULL, nl->parts[st->parts[k]].name);
-        ls_jw_end(w);
-        ls_jw_arr(w, "has");
-        for (int b = 0; b < LS_STAGE_NFLAGS; b++)
-            if (st->has >> b & 1u)
-                ls_jw_str(w, NULL, ls_stage_flag_word(b, true));
-        ls_jw_end(w);
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-    ls_jw_arr(w, "connections");
-    for (int i = 0; i < c->nconns; i++)
-        conn_json(w, &s->op, &c->conns[i]); /* a connection on one line */
-    ls_jw_end(w);
-    ls_jw_arr(w, "rails");
-    for (int n = 1; n < nl->nnodes; n++) {
-        if (!c->rail[n])
-            continue;
-        int src = ls_chain_rail_source(nl, c, n);
-        ls_jw_obj(w, NULL);
-        ls_jw_str(w, "node", nl->nodes[n].name);
-        ls_jw_str(w, "source", src >= 0 ? nl->parts[src].name : NULL); /* null: "none" */
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-    ls_jw_arr(w, "supply_parts");
-    for (int k = 0; k < c->nsupply; k++)
-        ls_jw_str(w, NULL, nl->parts[c->supply_parts[k]].name);
-    ls_jw_end(w);
-    ls_jw_bool(w, "loop", c->cyclic);
-    ls_report_json_end(rp, w);
-}
-
-/* ---- CSV ------------------------------------------------------------------------------ */
-
-static void csv_num(FILE *o, double v)
-{
-    fputc(',', o);
-    fputs(LS_CSV(v), o);
-}
-
-static void chain_csv(FILE *o, ls_session *s, const ls_chain *c)
-{
-    fputs("port,from_stage,to_stage,from,to", o);
-    for (int f = 0; f < NCONN_FIELDS; f++)
-        fprintf(o, ",%s", ls_prop_name(conn_fields[f]));
-    fputs(",verdict\n", o);
-    for (int i = 0; i < c->nconns; i++) {
-        const ls_conn *k = &c->conns[i];
-        const ls_port_result *pr = ls_op_port(&s->op, k->port);
-        ls_csv_field(o, s->nl.parts[k->port].name);
-        fputc(',', o);
-        if (k->from >= 0)
-            fprintf(o, "%d", k->from);
-        fputc(',', o);
-        if (k->to >= 0)
-            fprintf(o, "%d", k->to);
-        fputc(',', o);
-        ls_csv_field(o, k->from >= 0 ? c->stages[k->from].name : "");
-        fputc(',', o);
-        ls_csv_field(o, k->to >= 0 ? c->stages[k->to].name : "");
-        for (int f = 0; f < NCONN_FIELDS; f++)
-            csv_num(o, ls_port_value(pr, conn_fields[f]));
-        fprintf(o, ",%s\n", ls_verdict_word(pr->verdict));
-    }
-}
-
-/* ---- text ----------------------------------------------------------------------------- */
+/* ---- stages --------------------------------------------------------------------------- */
 
 /* The stage's role words ("op-amp, ADC") into buf. */
 static char *stage_roles(const ls_stage *st, char *buf, size_t n)
@@ -141,6 +35,58 @@ static char *stage_roles(const ls_stage *st, char *buf, size_t n)
     return buf;
 }
 
+/* The text's list of a stage's parts, cut after about 150 bytes. */
+static const char *stage_parts(const ls_netlist *nl, const ls_stage *st, char *buf, size_t n)
+{
+    buf[0] = 0;
+    for (int k = 0; k < st->nparts; k++) {
+        size_t l = strlen(buf);
+        if (l > 150) {
+            snprintf(buf + l, n - l, ", ... (%d parts)", st->nparts);
+            break;
+        }
+        snprintf(buf + l, n - l, "%s%s", k ? ", " : "", nl->parts[st->parts[k]].name);
+    }
+    return st->nparts ? buf : "(no parts: a node between two ports)";
+}
+
+/* The stages in signal order: the text's table, JSON's "stages" (each on one
+ * line: name, named_by, its parts and what it holds). */
+static void stages_write(ls_wr *w, const ls_netlist *nl, const ls_chain *c)
+{
+    static const ls_wr_col cols[] = {
+        {.head = "#", .right = true}, {.json = "name", .head = "stage"}, {.json = "named_by"},
+        {.head = "holds"},            {.head = "parts"},
+    };
+    static const ls_wr_style quiet = {.skip_empty = true};
+    ls_wr_say(w, "Stages, in signal order (%d)\n", c->nstages);
+    if (!c->nstages)
+        ls_wr_say(w, "  (none: every part sits between ground and the supply rails)\n");
+    ls_wr_table(w, "stages", cols, (int)(sizeof cols / sizeof *cols), &quiet);
+    for (int i = 0; i < c->nstages; i++) {
+        const ls_stage *st = &c->stages[i];
+        char roles[64], parts[200];
+        ls_wr_cell_int(w, i + 1);
+        ls_wr_cell_str(w, st->name);
+        ls_wr_cell_str(w, st->named_by);
+        ls_wr_cell_str(w, stage_roles(st, roles, sizeof roles));
+        ls_wr_cell_str(w, stage_parts(nl, st, parts, sizeof parts));
+        ls_wr_arr(w, "parts");
+        for (int k = 0; k < st->nparts; k++)
+            ls_wr_str(w, NULL, nl->parts[st->parts[k]].name);
+        ls_wr_end(w);
+        ls_wr_arr(w, "has");
+        for (int b = 0; b < LS_STAGE_NFLAGS; b++)
+            if (st->has >> b & 1u)
+                ls_wr_str(w, NULL, ls_stage_flag_word(b, true));
+        ls_wr_end(w);
+        ls_wr_row(w);
+    }
+    ls_wr_table_end(w);
+}
+
+/* ---- connections ---------------------------------------------------------------------- */
+
 /* "3 name" for a stage end, or the rail node's name. */
 static char *end_text(const ls_chain *c, const ls_netlist *nl, int stage, int node, char *buf, size_t n)
 {
@@ -151,128 +97,150 @@ static char *end_text(const ls_chain *c, const ls_netlist *nl, int stage, int no
     return buf;
 }
 
-static void stages_text(FILE *o, ls_report *rp, const ls_netlist *nl, const ls_chain *c)
+/* A stage index cell; none for an end on ground or a rail. */
+static void stage_cell(ls_wr *w, int s)
 {
-    (void)rp;
-    fprintf(o, "Stages, in signal order (%d)\n", c->nstages);
-    if (!c->nstages) {
-        fputs("  (none: every part sits between ground and the supply rails)\n", o);
-        return;
-    }
-    char **cells = calloc((size_t)c->nstages * 4 + 1, sizeof *cells);
-    if (!cells) {
-        rp->nomem = "the table of stages";
-        rp->nomem_bytes = ((size_t)c->nstages * 4 + 1) * sizeof *cells;
-        return;
-    }
-    for (int i = 0; i < c->nstages; i++) {
-        const ls_stage *st = &c->stages[i];
-        char num[16], roles[64], parts[200];
-        snprintf(num, sizeof num, "%d", i + 1);
-        parts[0] = 0;
-        for (int k = 0; k < st->nparts; k++) {
-            size_t l = strlen(parts);
-            if (l > 150) {
-                snprintf(parts + l, sizeof parts - l, ", ... (%d parts)", st->nparts);
-                break;
-            }
-            snprintf(parts + l, sizeof parts - l, "%s%s", k ? ", " : "", nl->parts[st->parts[k]].name);
-        }
-        cells[4 * i] = strdup(num);
-        cells[4 * i + 1] = strdup(st->name);
-        cells[4 * i + 2] = strdup(stage_roles(st, roles, sizeof roles));
-        cells[4 * i + 3] = strdup(st->nparts ? parts : "(no parts: a node between two ports)");
-        for (int j = 0; j < 4; j++)
-            if (!cells[4 * i + j]) /* a cell lost is a table that is not whole */
-                rp->nomem = "the table of stages";
-    }
-    const char *head[4] = {"#", "stage", "holds", "parts"};
-    const bool right[4] = {true, false, false, false};
-    ls_text_table(rp, 4, head, right, (const char *const *)cells, c->nstages);
-    for (int i = 0; i < 4 * c->nstages; i++)
-        free(cells[i]);
-    free(cells);
+    if (s >= 0)
+        ls_wr_cell_int(w, s);
+    else
+        ls_wr_cell_null(w, LS_WHY_NONE);
 }
 
-static void conns_text(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
+/* The connections: each format's columns (JSON's port fields, budget and
+ * verdict; CSV's stage names; text's joined from -> to and zout -> zin). */
+static const ls_wr_col conn_cols[] = {
+    {.json = "port", .csv = "port", .head = "port"},
+    {.json = "from_stage", .csv = "from_stage"},
+    {.json = "to_stage", .csv = "to_stage"},
+    {.csv = "from"},
+    {.csv = "to"},
+    {.head = "from -> to"},
+    {.json = "mode"},
+    {.json = "zout", .csv = "zout"},
+    {.json = "zin", .csv = "zin"},
+    {.head = "zout -> zin"},
+    {.json = "ratio", .csv = "ratio", .head = "ratio", .right = true},
+    {.json = "sag", .csv = "sag", .head = "sag", .right = true},
+    {.csv = "verdict"},
+    {.head = "mode"},
+    {.head = "verdict"},
+};
+_Static_assert(sizeof conn_cols / sizeof *conn_cols <= LS_WR_MAXCOL, "the writer's columns");
+
+/* One connection's row. */
+static void conn_row(ls_wr *w, ls_op *op, const ls_chain *c, const ls_conn *k)
 {
+    ls_report *rp = w->rp;
     const ls_netlist *nl = op->nl;
+    const ls_part *p = &nl->parts[k->port];
+    const ls_port_result *pr = ls_op_port(op, k->port);
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii), *ARROW = rp->ascii ? "->" : "\xE2\x86\x92";
-    enum { NC = 7 };
-    char **cells = calloc((size_t)c->nconns * NC + 1, sizeof *cells);
-    if (!cells) {
-        rp->nomem = "the table of connections";
-        rp->nomem_bytes = ((size_t)c->nconns * NC + 1) * sizeof *cells;
-        return;
-    }
-    for (int i = 0; i < c->nconns; i++) {
-        const ls_conn *k = &c->conns[i];
-        const ls_part *p = &nl->parts[k->port];
-        const ls_port_result *pr = ls_op_port(op, k->port);
-        char a[160], b[160], conn[400], z1[64], z2[64], zz[160], r[64], sag[64], sagt[96], verdict[64];
-        snprintf(verdict, sizeof verdict, "%s (%s)", ls_verdict_word(pr->verdict), pr->by_budget ? "budget" : "ratio");
-        snprintf(conn, sizeof conn, "%s %s %s", end_text(c, nl, k->from, p->pin[0], a, sizeof a), ARROW,
-                 end_text(c, nl, k->to, p->pin[1], b, sizeof b));
-        snprintf(zz, sizeof zz, "%s %s %s", ls_eng(rp, z1, sizeof z1, pr->zout, OHM), ARROW,
-                 ls_eng(rp, z2, sizeof z2, pr->zin, OHM));
-        ls_eng(rp, sag, sizeof sag, pr->sag, pr->current_mode ? "A" : "V");
-        if (isfinite(pr->sag_rel) && pr->sag != 0)
-            snprintf(sagt, sizeof sagt, "%s (%s%%)", sag, ls_fixed(rp, r, sizeof r, "%.3g", pr->sag_rel * 100));
-        else
-            snprintf(sagt, sizeof sagt, "%s", sag);
-        const char *row[NC] = {p->name, conn, zz, ls_eng(rp, r, sizeof r, pr->ratio, ""), sagt,
-                               pr->current_mode ? "current" : "voltage", verdict};
-        for (int j = 0; j < NC; j++)
-            if (!(cells[NC * i + j] = strdup(row[j])))
-                rp->nomem = "the table of connections";
-    }
-    const char *head[NC] = {"port", "from -> to", "zout -> zin", "ratio", "sag", "mode", "verdict"};
-    const bool right[NC] = {false, false, false, true, true, false, false};
-    ls_text_table(rp, NC, head, right, (const char *const *)cells, c->nconns);
-    for (int i = 0; i < NC * c->nconns; i++)
-        free(cells[i]);
-    free(cells);
+    const char *mode = pr->current_mode ? "current" : "voltage";
+    char a[160], b[160], conn[400], z1[64], z2[64], zz[160], r[64], sag[64], sagt[96], verdict[64];
+    assert(conn_fields[0] == PROP_ZOUT && conn_fields[1] == PROP_ZIN && conn_fields[2] == PROP_RATIO &&
+           conn_fields[3] == PROP_SAG);
+    snprintf(verdict, sizeof verdict, "%s (%s)", ls_verdict_word(pr->verdict), pr->by_budget ? "budget" : "ratio");
+    snprintf(conn, sizeof conn, "%s %s %s", end_text(c, nl, k->from, p->pin[0], a, sizeof a), ARROW,
+             end_text(c, nl, k->to, p->pin[1], b, sizeof b));
+    snprintf(zz, sizeof zz, "%s %s %s", ls_eng(rp, z1, sizeof z1, pr->zout, OHM), ARROW,
+             ls_eng(rp, z2, sizeof z2, pr->zin, OHM));
+    ls_eng(rp, sag, sizeof sag, pr->sag, pr->current_mode ? "A" : "V");
+    if (isfinite(pr->sag_rel) && pr->sag != 0)
+        snprintf(sagt, sizeof sagt, "%s (%s%%)", sag, ls_fixed(rp, r, sizeof r, "%.3g", pr->sag_rel * 100));
+    else
+        snprintf(sagt, sizeof sagt, "%s", sag);
+    ls_wr_cell_str(w, p->name);
+    stage_cell(w, k->from);
+    stage_cell(w, k->to);
+    ls_wr_cell_str(w, k->from >= 0 ? c->stages[k->from].name : "");
+    ls_wr_cell_str(w, k->to >= 0 ? c->stages[k->to].name : "");
+    ls_wr_cell_str(w, conn);
+    ls_wr_cell_str(w, mode);
+    ls_wr_cell_num(w, pr->zout, NULL);
+    ls_wr_cell_num(w, pr->zin, NULL);
+    ls_wr_cell_str(w, zz);
+    ls_wr_cell_eng(w, pr->ratio, "", NULL);
+    ls_wr_cell_num(w, pr->sag, sagt);
+    ls_report_budget(w, pr);
+    ls_wr_str(w, "verdict", ls_verdict_word(pr->verdict));
+    ls_wr_cell_str(w, ls_verdict_word(pr->verdict));
+    ls_wr_cell_str(w, mode);
+    ls_wr_cell_str(w, verdict);
+    ls_wr_row(w);
+}
+
+/* The connections: the table (JSON's "connections", CSV's rows) and in text
+ * the fix of each that fails. */
+static void conns_write(ls_wr *w, ls_op *op, const ls_chain *c)
+{
+    ls_report *rp = w->rp;
+    const char *ARROW = rp->ascii ? "->" : "\xE2\x86\x92";
+    if (c->nconns)
+        ls_wr_say(w, "\nConnections (ports; zin/zout should be at least %g)\n", ls_op_min_ratio(op));
+    else
+        ls_wr_say(w, "\nNo connections: the circuit has no port.  Mark each connection between stages with\n"
+                     "'port NAME DRIVER -> LOAD' to see its loading.\n");
+    static const ls_wr_style quiet = {.skip_empty = true};
+    ls_wr_table(w, "connections", conn_cols, (int)(sizeof conn_cols / sizeof *conn_cols), &quiet);
+    for (int i = 0; i < c->nconns; i++)
+        conn_row(w, op, c, &c->conns[i]); /* a connection on one line */
+    ls_wr_table_end(w);
     for (int i = 0; i < c->nconns; i++) {
         char fix[200];
         if (*ls_chain_fix(op, c->conns[i].port, fix, sizeof fix, rp->ascii, rp->sig_given ? rp->sig : 3))
-            fprintf(o, "  %s %s: %s\n", ARROW, nl->parts[c->conns[i].port].name, fix);
+            ls_wr_say(w, "  %s %s: %s\n", ARROW, op->nl->parts[c->conns[i].port].name, fix);
     }
 }
 
-static void chain_text(FILE *o, ls_report *rp, ls_session *s, const ls_chain *c)
+/* ---- rails and the supply --------------------------------------------------------------- */
+
+/* The supply rails (JSON's "rails": node and source, null when none), the
+ * parts on the supply only and whether the stages close a loop. */
+static void supply_write(ls_wr *w, const ls_netlist *nl, const ls_chain *c)
 {
-    const ls_netlist *nl = &s->nl;
-    fprintf(o, "%s\n\n", nl->title ? nl->title : "(untitled circuit)");
-    stages_text(o, rp, nl, c);
-    if (c->nconns) {
-        fprintf(o, "\nConnections (ports; zin/zout should be at least %g)\n", ls_op_min_ratio(&s->op));
-        conns_text(o, rp, &s->op, c);
-    } else {
-        fputs("\nNo connections: the circuit has no port.  Mark each connection between stages with\n"
-              "'port NAME DRIVER -> LOAD' to see its loading.\n",
-              o);
-    }
+    static const ls_wr_col cols[] = {{.json = "node"}, {.json = "source"}};
     if (c->cyclic)
-        fputs("\nSome ports close a loop between stages; the order breaks it at the first-declared stage.\n", o);
+        ls_wr_say(w, "\nSome ports close a loop between stages; the order breaks it at the first-declared stage.\n");
     int nrails = 0;
     for (int n = 1; n < nl->nnodes; n++)
         nrails += c->rail[n];
-    if (nrails) {
-        fputs("\nSupply rails (they feed the stages and do not join them):", o);
-        for (int n = 1, k = 0; n < nl->nnodes; n++) {
-            if (!c->rail[n])
-                continue;
-            int src = ls_chain_rail_source(nl, c, n);
-            fprintf(o, "%s %s (%s)", k++ ? "," : "", nl->nodes[n].name, src >= 0 ? nl->parts[src].name : "?");
-        }
-        fputc('\n', o);
+    if (nrails)
+        ls_wr_say(w, "\nSupply rails (they feed the stages and do not join them):");
+    ls_wr_table(w, "rails", cols, 2, NULL);
+    for (int n = 1, k = 0; n < nl->nnodes; n++) {
+        if (!c->rail[n])
+            continue;
+        int src = ls_chain_rail_source(nl, c, n);
+        ls_wr_say(w, "%s %s (%s)", k++ ? "," : "", nl->nodes[n].name, src >= 0 ? nl->parts[src].name : "?");
+        ls_wr_cell_str(w, nl->nodes[n].name);
+        ls_wr_cell_str(w, src >= 0 ? nl->parts[src].name : NULL); /* null: "none" */
+        ls_wr_row(w);
     }
-    if (c->nsupply) {
-        fputs("Parts on the supply only:", o);
-        for (int k = 0; k < c->nsupply; k++)
-            fprintf(o, "%s %s", k ? "," : "", nl->parts[c->supply_parts[k]].name);
-        fputc('\n', o);
+    ls_wr_table_end(w);
+    if (nrails)
+        ls_wr_say(w, "\n");
+    if (c->nsupply)
+        ls_wr_say(w, "Parts on the supply only:");
+    ls_wr_arr(w, "supply_parts");
+    for (int k = 0; k < c->nsupply; k++) {
+        ls_wr_say(w, "%s %s", k ? "," : "", nl->parts[c->supply_parts[k]].name);
+        ls_wr_str(w, NULL, nl->parts[c->supply_parts[k]].name);
     }
+    ls_wr_end(w);
+    if (c->nsupply)
+        ls_wr_say(w, "\n");
+    ls_wr_bool(w, "loop", c->cyclic);
+}
+
+/* The chain report, one description for text, JSON and CSV. */
+static void chain_write(ls_wr *w, ls_session *s, const ls_chain *c)
+{
+    const ls_netlist *nl = &s->nl;
+    ls_wr_str(w, "title", nl->title);
+    ls_wr_say(w, "%s\n\n", nl->title ? nl->title : "(untitled circuit)");
+    stages_write(w, nl, c);
+    conns_write(w, &s->op, c);
+    supply_write(w, nl, c);
 }
 
 /* ---- the command ---------------------------------------------------------------------- */
@@ -284,11 +252,13 @@ static int chain_output(ls_session *s, const ls_chain *c, const ls_chain_pic *pi
     FILE *o = ls_out_open(cli);
     ls_report rp = ls_report_for(s, o);
     int code = LS_EXIT_OK;
-    switch (cli->fmt) {
-    case FMT_JSON: chain_json(&rp, s, c); break;
-    case FMT_CSV: chain_csv(o, s, c); break;
-    case FMT_TEXT: chain_text(o, &rp, s, c); break;
-    case FMT_HTML: code = ls_html_page(o, s, c, pic); break;
+    if (cli->fmt == FMT_HTML) {   /* the page has its own layout (DEVELOPERS.md, "The HTML page") */
+        code = ls_html_page(o, s, c, pic);
+    } else {
+        ls_wr w;
+        ls_wr_begin(&w, &rp);
+        chain_write(&w, s, c);
+        ls_wr_finish(&w);
     }
     return ls_out_close(cli, ls_session_verdict(s, ls_report_done(&rp, code)));
 }
