@@ -328,7 +328,7 @@ static void text_table_open(ls_wr *w, const ls_wr_style *style)
 {
     ls_table t = {.lead = style->lead, .gap = style->gap, .fixed = style->fixed};
     for (int c = 0; c < w->ncol; c++) {
-        if (!w->cols[c].head)
+        if (!w->cols[c].head || t.ncol == LS_TABLE_MAXCOL)
             continue;
         t.head[t.ncol] = w->cols[c].head;
         t.right[t.ncol] = w->cols[c].right;
@@ -523,7 +523,7 @@ void ls_wr_row(ls_wr *w)
         if (w->ttext && !w->lost) {
             const char *cells[LS_WR_MAXCOL];
             int k = 0;
-            for (int c = 0; c < w->ncol; c++)
+            for (int c = 0; c < w->ncol && k < LS_TABLE_MAXCOL; c++)
                 if (w->cols[c].head)
                     cells[k++] = w->rbuf + w->off[c];
             ls_t_row(&w->tab, cells);

@@ -40,7 +40,7 @@
 #include "report/report.h"
 #include "report/textbuf.h"
 
-#define LS_WR_MAXCOL 16
+#define LS_WR_MAXCOL 72   /* fit's CSV: seven columns and one per free part (at most 64) */
 
 /* One column of a table. */
 typedef struct ls_wr_col {
