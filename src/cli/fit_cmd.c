@@ -2,6 +2,7 @@
  * (text, JSON, CSV) and the chosen values written into a copy of the
  * circuit (--write). */
 #include <math.h>
+#include <stddef.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -11,6 +12,7 @@
 #include "base/fmt.h"
 #include "parts/parts.h"
 #include "cli/progress.h"
+#include "report/writer.h"
 
 #define FIT_DEFAULT_TRIALS 2000   /* Monte Carlo trials per finalist for the yield */
 
@@ -50,126 +52,98 @@ static double goal_figure(const ls_fit_study *f, const ls_fit_cand *c)
 
 /* ---- JSON ---------------------------------------------------------------------------------- */
 
-static void check_json(ls_jw *w, const ls_fit_study *f, const ls_fit_check *c)
+/* One check of a candidate (JSON's "checks"). */
+static void check_members(ls_wr *w, const ls_fit_study *f, const ls_fit_check *c)
 {
     static const char *const kinds[] = {"expect", "port", "rating", "vmax", "imax", "opamp-output", "opamp-cm",
                                         "adc-range", "adc-source"};
     char t[512];
-    ls_jw_obj(w, NULL);
-    ls_jw_str(w, "text", ls_fit_check_text(f, c, t, sizeof t));
-    ls_jw_str(w, "kind", kinds[c->kind]);
-    ls_jw_num(w, "value", c->value);
-    ls_jw_num(w, "lo", c->lo);
-    ls_jw_num(w, "hi", c->hi);
-    ls_jw_num(w, "margin", c->margin);
-    ls_jw_bool(w, "pass", c->pass);
+    ls_wr_obj(w, NULL);
+    ls_wr_str(w, "text", ls_fit_check_text(f, c, t, sizeof t));
+    ls_wr_str(w, "kind", kinds[c->kind]);
+    ls_wr_num(w, "value", c->value);
+    ls_wr_num(w, "lo", c->lo);
+    ls_wr_num(w, "hi", c->hi);
+    ls_wr_num(w, "margin", c->margin);
+    ls_wr_bool(w, "pass", c->pass);
     if (!c->pass)
-        ls_jw_num_why(w, "miss", miss_of(c), LS_WHY_UNDEFINED);
+        ls_wr_num_why(w, "miss", miss_of(c), LS_WHY_UNDEFINED);
     if (c->why)
-        ls_jw_str(w, "reason", c->why);
-    ls_jw_end(w);
+        ls_wr_str(w, "reason", c->why);
+    ls_wr_end(w);
 }
 
-static void cand_json(ls_jw *w, const ls_fit_study *f, const ls_fit_cand *c, const char *key)
+/* A candidate as JSON object `key` (NULL inside an array). */
+static void cand_members(ls_wr *w, const ls_fit_study *f, const ls_fit_cand *c, const char *key)
 {
-    ls_jw_obj(w, key);
-    ls_jw_obj(w, "values");
+    ls_wr_obj(w, key);
+    ls_wr_obj(w, "values");
     for (int j = 0; j < f->nvars; j++)
-        ls_jw_num(w, f->nl->parts[f->vars[j].part].name, c->value[j]);
-    ls_jw_end(w);
-    ls_jw_num_why(w, "goal", goal_figure(f, c), c->solved ? LS_WHY_UNDEFINED : LS_WHY_UNSOLVED);
-    ls_jw_bool(w, "meets", c->meets);
-    ls_jw_int(w, "failed", c->failed);
-    ls_jw_num_why(w, "margin", c->margin, c->solved ? LS_WHY_UNBOUNDED : LS_WHY_UNSOLVED);
-    if (isnan(c->yield))
-        ls_jw_null(w, "yield", LS_WHY_NONE);
-    else
-        ls_jw_num(w, "yield", c->yield);
-    ls_jw_num_why(w, "current", c->current, LS_WHY_UNSOLVED);
-    ls_jw_arr(w, "checks");
+        ls_wr_num(w, f->nl->parts[f->vars[j].part].name, c->value[j]);
+    ls_wr_end(w);
+    ls_wr_num_why(w, "goal", goal_figure(f, c), c->solved ? LS_WHY_UNDEFINED : LS_WHY_UNSOLVED);
+    ls_wr_bool(w, "meets", c->meets);
+    ls_wr_int(w, "failed", c->failed);
+    ls_wr_num_why(w, "margin", c->margin, c->solved ? LS_WHY_UNBOUNDED : LS_WHY_UNSOLVED);
+    ls_wr_num_why(w, "yield", c->yield, LS_WHY_NONE);
+    ls_wr_num_why(w, "current", c->current, LS_WHY_UNSOLVED);
+    ls_wr_arr(w, "checks");
     for (int k = 0; k < c->nchecks; k++)
-        check_json(w, f, &c->checks[k]);
-    ls_jw_end(w);
-    ls_jw_end(w);
+        check_members(w, f, &c->checks[k]);
+    ls_wr_end(w);
+    ls_wr_end(w);
 }
 
-static void fit_json(ls_report *rp, const ls_fit_study *f)
+/* The search's counts, each a long of the study: JSON's members of "search"
+ * and of its "branch_and_bound". */
+typedef struct fit_count {
+    const char *key;
+    size_t off;    /* offsetof(ls_fit_study, ...), a long */
+} fit_count;
+
+static const fit_count search_counts[] = {
+    {"solved", offsetof(ls_fit_study, evaluated)},
+    {"continuous_solves", offsetof(ls_fit_study, nlopt_evals)},
+};
+static const fit_count work_counts[] = {
+    {"factorizations", offsetof(ls_fit_study, factorizations)},
+    {"symbolic_analyses", offsetof(ls_fit_study, analyses)},
+};
+static const fit_count bb_counts[] = {
+    {"solves", offsetof(ls_fit_study, bb_solves)},         {"solve_limit", offsetof(ls_fit_study, max_solves)},
+    {"boxes", offsetof(ls_fit_study, bb_boxes)},           {"pruned", offsetof(ls_fit_study, bb_pruned)},
+    {"enumerated", offsetof(ls_fit_study, bb_enumerated)}, {"unbounded_checks", offsetof(ls_fit_study, bb_unbounded)},
+};
+
+/* The n counts of table t as members. */
+static void counts(ls_wr *w, const ls_fit_study *f, const fit_count *t, size_t n)
 {
-    ls_jw jw, *w = &jw;
-    ls_report_json_begin(rp, w);
-    ls_jw_str(w, "goal", ls_fit_goal_name(f->goal));
-    ls_jw_str(w, "series", f->series);
-    ls_jw_obj(w, "search");
-    ls_jw_str(w, "method", f->exhaustive ? "every-combination" : "continuous-then-branch-and-bound");
-    ls_jw_num(w, "combinations", f->combinations);
-    ls_jw_int(w, "solved", f->evaluated);
-    ls_jw_int(w, "continuous_solves", f->nlopt_evals);
-    ls_jw_bool(w, "proven", f->proven);
-    ls_jw_int(w, "factorizations", f->factorizations);
-    ls_jw_int(w, "symbolic_analyses", f->analyses);
+    for (size_t k = 0; k < n; k++)
+        ls_wr_int(w, t[k].key, *(const long *)((const char *)f + t[k].off));
+}
+
+#define COUNTS(w, f, t) counts(w, f, t, sizeof t / sizeof *t)
+
+/* JSON's "search": how the combinations were searched and what it cost. */
+static void search_members(ls_wr *w, const ls_fit_study *f)
+{
+    ls_wr_obj(w, "search");
+    ls_wr_str(w, "method", f->exhaustive ? "every-combination" : "continuous-then-branch-and-bound");
+    ls_wr_num(w, "combinations", f->combinations);
+    COUNTS(w, f, search_counts);
+    ls_wr_bool(w, "proven", f->proven);
+    COUNTS(w, f, work_counts);
     if (!f->exhaustive) {
-        ls_jw_int(w, "continuous_status", f->nlopt_status);
-        ls_jw_obj(w, "branch_and_bound");
-        ls_jw_int(w, "solves", f->bb_solves);
-        ls_jw_int(w, "solve_limit", f->max_solves);
-        ls_jw_int(w, "boxes", f->bb_boxes);
-        ls_jw_int(w, "pruned", f->bb_pruned);
-        ls_jw_int(w, "enumerated", f->bb_enumerated);
-        ls_jw_int(w, "unbounded_checks", f->bb_unbounded);
-        ls_jw_end(w);
+        ls_wr_int(w, "continuous_status", f->nlopt_status);
+        ls_wr_obj(w, "branch_and_bound");
+        COUNTS(w, f, bb_counts);
+        ls_wr_end(w);
     }
     if (f->have_yield) {
-        ls_jw_int(w, "trials", f->yield_trials);
-        ls_jw_int(w, "seed", (long long)f->seed);
+        ls_wr_int(w, "trials", f->yield_trials);
+        ls_wr_int(w, "seed", (long long)f->seed);
     }
-    ls_jw_end(w);
-    ls_jw_arr(w, "free");
-    for (int j = 0; j < f->nvars; j++) {
-        const ls_fit_var *v = &f->vars[j];
-        const ls_part *p = &f->nl->parts[v->part];
-        ls_jw_obj(w, NULL);
-        ls_jw_str(w, "part", p->name);
-        ls_jw_str(w, "kind", p->kind->name);
-        ls_jw_num(w, "lo", v->lo);
-        ls_jw_num(w, "hi", v->hi);
-        ls_jw_str(w, "series", v->series);
-        ls_jw_int(w, "values", v->nvalues);
-        ls_jw_num(w, "written", v->start);
-        ls_jw_num_why(w, "optimum", v->optimum, LS_WHY_NONE);
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-    ls_jw_arr(w, "candidates");
-    for (int i = 0; i < f->nbest; i++)
-        cand_json(w, f, &f->best[i], NULL);
-    ls_jw_end(w);
-    if (f->any_feasible)
-        cand_json(w, f, &f->best[0], "chosen");
-    else
-        ls_jw_null(w, "chosen", LS_WHY_NONE);
-    if (!f->any_feasible && f->nbest > 0)
-        cand_json(w, f, &f->best[0], "closest");
-    ls_report_json_end(rp, w);
-}
-
-/* ---- CSV ----------------------------------------------------------------------------------- */
-
-static void fit_csv(FILE *o, const ls_fit_study *f)
-{
-    fputs("rank,meets,goal,margin,yield,current,failed", o);
-    for (int j = 0; j < f->nvars; j++) {
-        fputc(',', o);
-        ls_csv_field(o, f->nl->parts[f->vars[j].part].name);
-    }
-    fputc('\n', o);
-    for (int i = 0; i < f->nbest; i++) {
-        const ls_fit_cand *c = &f->best[i];
-        fprintf(o, "%d,%s,%s,%s,%s,%s,%d", i + 1, c->meets ? "true" : "false", LS_CSV(goal_figure(f, c)),
-                LS_CSV(c->margin), LS_CSV(c->yield), LS_CSV(c->current), c->failed);
-        for (int j = 0; j < f->nvars; j++)
-            fprintf(o, ",%s", LS_CSV(c->value[j]));
-        fputc('\n', o);
-    }
+    ls_wr_end(w);
 }
 
 /* ---- text ---------------------------------------------------------------------------------- */
@@ -186,38 +160,36 @@ static const char *pct(char *b, size_t n, double x)
     return b;
 }
 
-/* The table of one candidate's checks (all, or only the failing ones). */
-static void checks_text(FILE *o, ls_report *rp, const ls_fit_study *f, const ls_fit_cand *c, bool failing)
+/* A check's limits as text: "lo..hi", ">= lo", "<= hi" or "-". */
+static const char *limit_text(ls_report *rp, const ls_fit_check *ck, const char *u, char *lim, size_t n)
 {
-    (void)o;   /* the tables write through rp */
-    const char *head[] = {"check", "value", "limit", "margin", failing ? "misses by" : "verdict"};
-    const bool right[] = {false, true, true, true, false};
-    int n = 0;
-    for (int k = 0; k < c->nchecks; k++)
-        n += !failing || !c->checks[k].pass;
-    char **cells = calloc((size_t)(n ? n : 1) * 5, sizeof *cells);
-    if (!cells) {
-        rp->nomem = "fit's table of checks";
-        return;
-    }
-    int row = 0;
+    char l1[64], l2[64];
+    if (isfinite(ck->lo) && isfinite(ck->hi))
+        snprintf(lim, n, "%s..%s", ls_eng(rp, l1, sizeof l1, ck->lo, u), ls_eng(rp, l2, sizeof l2, ck->hi, u));
+    else if (isfinite(ck->lo))
+        snprintf(lim, n, ">= %s", ls_eng(rp, l1, sizeof l1, ck->lo, u));
+    else if (isfinite(ck->hi))
+        snprintf(lim, n, "<= %s", ls_eng(rp, l1, sizeof l1, ck->hi, u));
+    else
+        snprintf(lim, n, "-");
+    return lim;
+}
+
+/* The text's table of one candidate's checks (all, or only the failing ones). */
+static void checks_text(ls_wr *w, const ls_fit_study *f, const ls_fit_cand *c, bool failing)
+{
+    const ls_wr_col cols[] = {
+        {.head = "check"}, {.head = "value", .right = true}, {.head = "limit", .right = true},
+        {.head = "margin", .right = true}, {.head = failing ? "misses by" : "verdict"},
+    };
+    ls_report *rp = w->rp;
+    ls_wr_table(w, NULL, cols, 5, NULL);
     for (int k = 0; k < c->nchecks; k++) {
         const ls_fit_check *ck = &c->checks[k];
         if (failing && ck->pass)
             continue;
         const char *u = check_unit(f, ck, rp->ascii);
-        char t[512], v[64], l1[64], l2[64], lim[160], m[32], verdict[200];
-        ls_fit_check_text(f, ck, t, sizeof t);
-        ls_eng(rp, v, sizeof v, ck->value, u);
-        if (isfinite(ck->lo) && isfinite(ck->hi))
-            snprintf(lim, sizeof lim, "%s..%s", ls_eng(rp, l1, sizeof l1, ck->lo, u), ls_eng(rp, l2, sizeof l2, ck->hi, u));
-        else if (isfinite(ck->lo))
-            snprintf(lim, sizeof lim, ">= %s", ls_eng(rp, l1, sizeof l1, ck->lo, u));
-        else if (isfinite(ck->hi))
-            snprintf(lim, sizeof lim, "<= %s", ls_eng(rp, l1, sizeof l1, ck->hi, u));
-        else
-            snprintf(lim, sizeof lim, "-");
-        pct(m, sizeof m, ck->margin);
+        char t[512], lim[160], m[32], verdict[200];
         double miss = miss_of(ck);
         if (!failing)
             snprintf(verdict, sizeof verdict, "%s", ck->pass ? "ok" : "FAILS");
@@ -225,138 +197,193 @@ static void checks_text(FILE *o, ls_report *rp, const ls_fit_study *f, const ls_
             ls_eng(rp, verdict, sizeof verdict, miss, u);
         else
             snprintf(verdict, sizeof verdict, "%s", ck->why ? ck->why : "undefined");
-        const char *src[5] = {t, v, lim, m, verdict};
-        for (int col = 0; col < 5; col++)
-            if (!(cells[row * 5 + col] = strdup(src[col]))) {
-                rp->nomem = "fit's table of checks";
-                cells[row * 5 + col] = (char *)"";   /* the report is dropped; the table stays printable */
-            }
-        row++;
+        ls_wr_cell_str(w, ls_fit_check_text(f, ck, t, sizeof t));
+        ls_wr_cell_eng(w, ck->value, u, NULL);
+        ls_wr_cell_str(w, limit_text(rp, ck, u, lim, sizeof lim));
+        ls_wr_cell_str(w, pct(m, sizeof m, ck->margin));
+        ls_wr_cell_str(w, verdict);
+        ls_wr_row(w);
     }
-    ls_text_table(rp, 5, head, right, (const char *const *)cells, n);
-    for (int i = 0; i < n * 5; i++)
-        if (cells[i] && *cells[i])
-            free(cells[i]);
-    free(cells);
+    ls_wr_table_end(w);
 }
 
 /* "r1 12 kΩ, r2 3.9 kΩ" */
-static void values_text(FILE *o, ls_report *rp, const ls_fit_study *f, const ls_fit_cand *c, bool ascii)
+static void values_text(ls_wr *w, const ls_fit_study *f, const ls_fit_cand *c)
 {
     for (int j = 0; j < f->nvars; j++) {
         const ls_part *p = &f->nl->parts[f->vars[j].part];
         char b[64];
-        fprintf(o, "%s%s %s", j ? ", " : "", p->name,
-                ls_eng(rp, b, sizeof b, c->value[j], ls_unit_of(ls_kind_main_dims(p->kind), ascii)));
+        ls_wr_say(w, "%s%s %s", j ? ", " : "", p->name,
+                  ls_eng(w->rp, b, sizeof b, c->value[j], ls_unit_of(ls_kind_main_dims(p->kind), w->rp->ascii)));
     }
 }
 
-static void free_parts_text(FILE *o, ls_report *rp, const ls_fit_study *f, bool ascii)
+/* The free parts: the text's table, JSON's "free". */
+static void free_parts(ls_wr *w, const ls_fit_study *f)
 {
-    (void)o;   /* the tables write through rp */
-    const char *head[] = {"part", "kind", "range", "series", "values", "written", "optimum"};
-    const bool right[] = {false, false, true, false, true, true, true};
-    int n = f->nvars;
-    char (*buf)[7][64] = calloc((size_t)(n ? n : 1), sizeof *buf);
-    const char **cells = calloc((size_t)(n ? n : 1) * 7, sizeof *cells);
-    if (!buf || !cells) {
-        rp->nomem = "fit's table of free parts";
-        free(buf);
-        free(cells);
-        return;
-    }
-    for (int j = 0; j < n; j++) {
+    static const ls_wr_col cols[] = {
+        {.json = "part", .head = "part"},
+        {.json = "kind", .head = "kind"},
+        {.json = "lo"},
+        {.json = "hi"},
+        {.head = "range", .right = true},
+        {.json = "series", .head = "series"},
+        {.json = "values", .head = "values", .right = true},
+        {.json = "written", .head = "written", .right = true},
+        {.json = "optimum"},
+        {.head = "optimum", .right = true},
+    };
+    ls_report *rp = w->rp;
+    ls_wr_table(w, "free", cols, (int)(sizeof cols / sizeof *cols), NULL);
+    for (int j = 0; j < f->nvars; j++) {
         const ls_fit_var *v = &f->vars[j];
         const ls_part *p = &f->nl->parts[v->part];
-        const char *u = ls_unit_of(ls_kind_main_dims(p->kind), ascii);
-        char a[32], b[32];
-        snprintf(buf[j][0], 64, "%s", p->name);
-        snprintf(buf[j][1], 64, "%s", p->kind->name);
-        snprintf(buf[j][2], 64, "%s..%s", ls_eng(rp, a, sizeof a, v->lo, u), ls_eng(rp, b, sizeof b, v->hi, u));
-        snprintf(buf[j][3], 64, "%s", v->series);
-        snprintf(buf[j][4], 64, "%d", v->nvalues);
-        ls_eng(rp, buf[j][5], 64, v->start, u);
-        if (isnan(v->optimum))
-            snprintf(buf[j][6], 64, "-");
-        else
-            ls_eng(rp, buf[j][6], 64, v->optimum, u);
-        for (int c = 0; c < 7; c++)
-            cells[j * 7 + c] = buf[j][c];
+        const char *u = ls_unit_of(ls_kind_main_dims(p->kind), rp->ascii);
+        char a[32], b[32], range[72];
+        snprintf(range, sizeof range, "%s..%s", ls_eng(rp, a, sizeof a, v->lo, u), ls_eng(rp, b, sizeof b, v->hi, u));
+        ls_wr_cell_str(w, p->name);
+        ls_wr_cell_str(w, p->kind->name);
+        ls_wr_cell_num(w, v->lo, NULL);
+        ls_wr_cell_num(w, v->hi, NULL);
+        ls_wr_cell_str(w, range);
+        ls_wr_cell_str(w, v->series);
+        ls_wr_cell_int(w, v->nvalues);
+        ls_wr_cell_eng(w, v->start, u, NULL);
+        if (isnan(v->optimum)) {   /* no continuous stage ran */
+            ls_wr_cell_null(w, LS_WHY_NONE);
+            ls_wr_cell_str(w, "-");
+        } else {
+            ls_wr_cell_num(w, v->optimum, NULL);
+            ls_wr_cell_eng(w, v->optimum, u, NULL);
+        }
+        ls_wr_row(w);
     }
-    ls_text_table(rp, 7, head, right, cells, n);
-    free(buf);
-    free(cells);
+    ls_wr_table_end(w);
 }
 
-/* The ranked candidates: one row each. */
-static void ranking_text(FILE *o, ls_report *rp, const ls_fit_study *f, bool ascii)
+/* The ranked candidates: text's lines, JSON's "candidates", CSV's table (one
+ * column per free part after the figures). */
+static void ranking(ls_wr *w, const ls_fit_study *f)
 {
-    fputs("Candidates, best first:\n", o);
+    static const ls_wr_col figures[] = {
+        {.csv = "rank"}, {.csv = "meets"}, {.csv = "goal"}, {.csv = "margin"},
+        {.csv = "yield"}, {.csv = "current"}, {.csv = "failed"},
+    };
+    enum { NFIG = sizeof figures / sizeof *figures };
+    _Static_assert(NFIG + LS_FIT_MAX_FREE <= LS_WR_MAXCOL, "the writer's columns");
+    ls_wr_col cols[LS_WR_MAXCOL];
+    memcpy(cols, figures, sizeof figures);
+    for (int j = 0; j < f->nvars; j++)
+        cols[NFIG + j] = (ls_wr_col){.csv = f->nl->parts[f->vars[j].part].name};
+    ls_report *rp = w->rp;
+    ls_wr_say(w, "Candidates, best first:\n");
+    ls_wr_arr(w, "candidates");
+    ls_wr_table(w, NULL, cols, NFIG + f->nvars, NULL);
     for (int i = 0; i < f->nbest; i++) {
         const ls_fit_cand *c = &f->best[i];
         char m[32], y[32], cur[64];
-        fprintf(o, "  %2d. ", i + 1);
-        values_text(o, rp, f, c, ascii);
-        fprintf(o, "\n      margin %s", pct(m, sizeof m, c->margin));
+        ls_wr_say(w, "  %2d. ", i + 1);
+        values_text(w, f, c);
+        ls_wr_say(w, "\n      margin %s", pct(m, sizeof m, c->margin));
         if (!isnan(c->yield))
-            fprintf(o, "   yield %s", pct(y, sizeof y, c->yield));
-        fprintf(o, "   supply current %s   %s\n", ls_eng(rp, cur, sizeof cur, c->current, "A"),
-                c->meets ? "meets every check" : c->solved ? "fails" : "does not solve");
+            ls_wr_say(w, "   yield %s", pct(y, sizeof y, c->yield));
+        ls_wr_say(w, "   supply current %s   %s\n", ls_eng(rp, cur, sizeof cur, c->current, "A"),
+                  c->meets ? "meets every check" : c->solved ? "fails" : "does not solve");
         if (!c->meets && c->solved)
-            fprintf(o, "      fails %d check%s\n", c->failed, c->failed == 1 ? "" : "s");
+            ls_wr_say(w, "      fails %d check%s\n", c->failed, c->failed == 1 ? "" : "s");
+        cand_members(w, f, c, NULL);
+        ls_wr_cell_int(w, i + 1);
+        ls_wr_cell_bool(w, c->meets, NULL);
+        ls_wr_cell_num(w, goal_figure(f, c), NULL);
+        ls_wr_cell_num(w, c->margin, NULL);
+        ls_wr_cell_num(w, c->yield, NULL);
+        ls_wr_cell_num(w, c->current, NULL);
+        ls_wr_cell_int(w, c->failed);
+        for (int j = 0; j < f->nvars; j++)
+            ls_wr_cell_num(w, c->value[j], NULL);
+        ls_wr_row(w);
     }
+    ls_wr_table_end(w);
+    ls_wr_end(w);
 }
 
-static void fit_text(FILE *o, ls_report *rp, const ls_fit_study *f, bool ascii)
+/* The text's account of the search. */
+static void search_text(ls_wr *w, const ls_fit_study *f)
 {
-    fprintf(o, "Fit of %d free part%s to standard values, goal: %s\n", f->nvars, f->nvars == 1 ? "" : "s",
-            ls_fit_goal_name(f->goal));
-    if (f->exhaustive)
-        fprintf(o, "  search: every combination (%.0f, each solved)\n\n", f->combinations);
-    else {
-        fprintf(o, "  search: %.3g combinations are too many to try each; continuous optimum (NLopt COBYLA, %ld "
-                   "solves), the series values around it, then branch and bound (%ld solved, %ld of them by branch "
-                   "and bound; %ld boxes, %ld ruled out by their bounds)\n",
-                f->combinations, f->nlopt_evals, f->evaluated, f->bb_solves, f->bb_boxes, f->bb_pruned);
-        if (f->proven && f->goal == LS_FIT_YIELD)
-            fputs("  proven: no other combination has a larger margin than the finalists, whose yields rank "
-                  "them below\n\n", o);
-        else if (f->proven)
-            fputs("  proven: no other combination ranks above the candidates below\n\n", o);
-        else
-            fprintf(o, "  NOT PROVEN: the search stopped at its limit of %ld solves (--max-solves); the candidates "
-                       "below are the best found, and a combination not tried may rank higher\n\n",
-                    f->max_solves);
+    ls_wr_say(w, "Fit of %d free part%s to standard values, goal: %s\n", f->nvars, f->nvars == 1 ? "" : "s",
+              ls_fit_goal_name(f->goal));
+    if (f->exhaustive) {
+        ls_wr_say(w, "  search: every combination (%.0f, each solved)\n\n", f->combinations);
+        return;
     }
-    free_parts_text(o, rp, f, ascii);
-    fputc('\n', o);
-    ranking_text(o, rp, f, ascii);
+    ls_wr_say(w, "  search: %.3g combinations are too many to try each; continuous optimum (NLopt COBYLA, %ld "
+                 "solves), the series values around it, then branch and bound (%ld solved, %ld of them by branch "
+                 "and bound; %ld boxes, %ld ruled out by their bounds)\n",
+              f->combinations, f->nlopt_evals, f->evaluated, f->bb_solves, f->bb_boxes, f->bb_pruned);
+    if (f->proven && f->goal == LS_FIT_YIELD)
+        ls_wr_say(w, "  proven: no other combination has a larger margin than the finalists, whose yields rank "
+                     "them below\n\n");
+    else if (f->proven)
+        ls_wr_say(w, "  proven: no other combination ranks above the candidates below\n\n");
+    else
+        ls_wr_say(w, "  NOT PROVEN: the search stopped at its limit of %ld solves (--max-solves); the candidates "
+                     "below are the best found, and a combination not tried may rank higher\n\n",
+                  f->max_solves);
+}
+
+/* The text's note on the yield. */
+static void yield_text(ls_wr *w, const ls_fit_study *f)
+{
     if (f->have_yield && f->yield_trials > 0)
-        fprintf(o, "  (yield: %ld Monte Carlo trials per candidate from the parts' tol=, seed %llu; a trial counts when "
-                   "it meets every check)\n",
-                f->yield_trials, (unsigned long long)f->seed);
+        ls_wr_say(w, "  (yield: %ld Monte Carlo trials per candidate from the parts' tol=, seed %llu; a trial counts "
+                     "when it meets every check)\n",
+                  f->yield_trials, (unsigned long long)f->seed);
     else if (f->have_yield)
-        fputs("  (yield: no part has tol=, so nothing varies: 100% for a candidate that meets every check)\n", o);
-    fputc('\n', o);
+        ls_wr_say(w, "  (yield: no part has tol=, so nothing varies: 100%% for a candidate that meets every check)\n");
+    ls_wr_say(w, "\n");
+}
+
+/* The chosen candidate (JSON's "chosen", null when none meets every check,
+ * and then "closest"), with its checks in text. */
+static void outcome(ls_wr *w, const ls_fit_study *f)
+{
+    if (f->any_feasible)
+        cand_members(w, f, &f->best[0], "chosen");
+    else
+        ls_wr_null(w, "chosen", LS_WHY_NONE);
     if (f->nbest == 0)
         return;
     const ls_fit_cand *c = &f->best[0];
     if (f->any_feasible) {
-        fputs("Chosen: ", o);
-        values_text(o, rp, f, c, ascii);
-        fputs("\n", o);
-        checks_text(o, rp, f, c, false);
-        fputs("\nMargins: 100% is the middle of a range, 0% its edge; a one-sided limit's margin is the distance to "
-              "it over its size.\nBefore building, check the chosen parts' ratings and voltages against their "
-              "data sheets.\n",
-              o);
+        ls_wr_say(w, "Chosen: ");
+        values_text(w, f, c);
+        ls_wr_say(w, "\n");
+        checks_text(w, f, c, false);
+        ls_wr_say(w, "\nMargins: 100%% is the middle of a range, 0%% its edge; a one-sided limit's margin is the "
+                     "distance to it over its size.\nBefore building, check the chosen parts' ratings and voltages "
+                     "against their data sheets.\n");
         return;
     }
-    fputs("No combination of standard values meets every check.\nThe closest: ", o);
-    values_text(o, rp, f, c, ascii);
-    fprintf(o, "\nIt misses %d check%s:\n", c->failed, c->failed == 1 ? "" : "s");
-    checks_text(o, rp, f, c, true);
-    fputs("\nWiden a free= range, choose a finer series (--series E96), or relax a budget.\n", o);
+    cand_members(w, f, c, "closest");
+    ls_wr_say(w, "No combination of standard values meets every check.\nThe closest: ");
+    values_text(w, f, c);
+    ls_wr_say(w, "\nIt misses %d check%s:\n", c->failed, c->failed == 1 ? "" : "s");
+    checks_text(w, f, c, true);
+    ls_wr_say(w, "\nWiden a free= range, choose a finer series (--series E96), or relax a budget.\n");
+}
+
+/* The fit report, one description for text, JSON and CSV. */
+static void fit_write(ls_wr *w, const ls_fit_study *f)
+{
+    ls_wr_str(w, "goal", ls_fit_goal_name(f->goal));
+    ls_wr_str(w, "series", f->series);
+    search_members(w, f);
+    search_text(w, f);
+    free_parts(w, f);
+    ls_wr_say(w, "\n");
+    ranking(w, f);
+    yield_text(w, f);
+    outcome(w, f);
 }
 
 /* ---- --write ------------------------------------------------------------------------------- */
@@ -528,12 +555,10 @@ int ls_cmd_fit(ls_cli *cli)
     }
     FILE *o = ls_out_open(cli);
     ls_report rp = ls_report_for(&s, o);
-    if (cli->fmt == FMT_JSON)
-        fit_json(&rp, &f);
-    else if (cli->fmt == FMT_CSV)
-        fit_csv(o, &f);
-    else
-        fit_text(o, &rp, &f, cli->ascii);
+    ls_wr w;
+    ls_wr_begin(&w, &rp);
+    fit_write(&w, &f);
+    ls_wr_finish(&w);
     code = ls_report_done(&rp, f.any_feasible ? LS_EXIT_OK : LS_EXIT_CHECK);
     if (code == LS_EXIT_UNSOLVABLE && rp.nomem) {   /* the report was not whole: nothing written */
         if (cli->write)
