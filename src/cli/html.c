@@ -9,6 +9,7 @@
 #include "elab/elab.h"
 #include "analysis/tolerance.h"
 #include "analysis/newton.h"
+#include "analysis/results.h"
 #include "parts/parts.h"
 #include "report/plot.h"
 
@@ -133,7 +134,7 @@ static void summary(FILE *o, ls_op *op, const ls_chain *c, const ls_diags *d)
 {
     int n[3] = {0, 0, 0};
     for (int k = 0; k < c->nconns; k++)
-        n[ls_op_port(op, c->conns[k].port)->verdict]++;
+        n[ls_port_read(op, c->conns[k].port)->verdict]++;
     int cautions = 0;
     for (int i = 0; i < d->n; i++)
         cautions += d->items[i].sev == LS_SEV_WARNING && is_caution(&d->items[i]);
@@ -145,7 +146,7 @@ static void summary(FILE *o, ls_op *op, const ls_chain *c, const ls_diags *d)
     if (n[VERDICT_LOADING] + n[VERDICT_MARGINAL]) {
         fputs("<div class=\"alert\" role=\"alert\"><strong>Not every connection holds up:</strong><ul>", o);
         for (int k = 0; k < c->nconns; k++) {
-            const ls_port_result *pr = ls_op_port(op, c->conns[k].port);
+            const ls_port_result *pr = ls_port_read(op, c->conns[k].port);
             if (pr->verdict == VERDICT_OK)
                 continue;
             char fix[200];
@@ -206,7 +207,7 @@ static void ports_section(FILE *o, ls_report *rp, ls_op *op, const ls_chain *c)
     for (int k = 0; k < c->nconns; k++) {
         int i = c->conns[k].port;
         const ls_part *p = &nl->parts[i];
-        const ls_port_result *pr = ls_op_port(op, i);
+        const ls_port_result *pr = ls_port_read(op, i);
         const char *u = pr->current_mode ? "A" : "V";
         char conn[600], fix[200];
         snprintf(conn, sizeof conn, "%s \xE2\x86\x92 %s%s", nl->nodes[p->pin[0]].name, nl->nodes[p->pin[1]].name,
@@ -292,43 +293,39 @@ static void opamps_section(FILE *o, ls_report *rp, ls_op *op)
         table_close(o);
 }
 
-static void adcs_section(FILE *o, ls_report *rp, ls_op *op)
+/* The ADC inputs, as the analysis read them (results.h). */
+static void adcs_section(FILE *o, ls_report *rp, const ls_results *res)
 {
-    const ls_netlist *nl = op->nl;
+    const ls_netlist *nl = res->op->nl;
     const char *OHM = ls_unit_of(LS_OHM, rp->ascii);
     const char *head[] = {"adc", "input", "code", "unloaded", "error (LSB)", "source resistance", "max source",
                           "settling"};
-    bool any = false;
-    for (int i = 0; i < nl->nparts; i++) {
-        ls_adc_result r;
-        if (ls_op_adc(op, i, &r) != 0)
-            continue;
-        if (!any) {
-            fputs("<h2 id=\"adcs\">ADC inputs</h2>\n", o);
-            table_open(o, "ADC inputs", head, 8);
-            any = true;
-        }
+    if (res->nadcs) {
+        fputs("<h2 id=\"adcs\">ADC inputs</h2>\n", o);
+        table_open(o, "ADC inputs", head, 8);
+    }
+    for (int k = 0; k < res->nadcs; k++) {
+        const ls_adc_result r = res->adcs[k].r;
+        const ls_part *p = &nl->parts[res->adcs[k].part];
         char code[32];
         snprintf(code, sizeof code, "%lld", r.code);
-        cell_head(o, nl->parts[i].name);
+        cell_head(o, p->name);
         cell_num(o, rp, r.vin, "V");
         fprintf(o, "<td class=\"num\">%s</td>", code);
         cell_num(o, rp, r.v_open, "V");
         cell_num(o, rp, r.error_lsb, "");
         cell_num(o, rp, r.rth, OHM);
-        const ls_part *p = &nl->parts[i];
         int mi = ls_kind_opt(p->kind, "max_source");
         if (ls_part_has(p, mi)) {
             cell_num(o, rp, p->opt[mi], OHM);
-            cell_verdict_text(o, r.rth <= p->opt[mi] ? VERDICT_OK : VERDICT_LOADING,
-                              r.rth <= p->opt[mi] ? "ok" : "source too high");
+            cell_verdict_text(o, r.source_high ? VERDICT_LOADING : VERDICT_OK, r.source_high ? "source too high" : "ok");
         } else {
             cell(o, "-");
             cell(o, "-");
         }
         fputs("</tr>\n", o);
     }
-    if (any)
+    if (res->nadcs)
         table_close(o);
 }
 
@@ -572,7 +569,8 @@ static void head(FILE *o, ls_session *s)
     fputs("</p>\n</header>\n<main>\n", o);
 }
 
-static int page(FILE *o, ls_session *s, const ls_chain *c, const ls_chain_pic *pic, const ls_checks *ch)
+static int page(FILE *o, ls_session *s, const ls_chain *c, const ls_chain_pic *pic, const ls_checks *ch,
+                const ls_results *res)
 {
     ls_report rp = {.out = o, .fmt = FMT_HTML, .ascii = s->cli->ascii, .sig = 4, .diags = &s->diags};
     head(o, s);
@@ -589,7 +587,7 @@ static int page(FILE *o, ls_session *s, const ls_chain *c, const ls_chain_pic *p
     nodes_section(o, &rp, &s->op);
     parts_section(o, &rp, &s->op);
     opamps_section(o, &rp, &s->op);
-    adcs_section(o, &rp, &s->op);
+    adcs_section(o, &rp, res);
     checks_section(o, &rp, ch);
     warnings_section(o, &s->diags);
     if (histograms_section(o, s) != 0)
@@ -620,9 +618,15 @@ int ls_html_page(FILE *o, ls_session *s, const ls_chain *c, const ls_chain_pic *
     }
     if (code == LS_EXIT_OK && ls_checks_run(&s->op, false, &ch) != 0)
         code = LS_EXIT_UNSOLVABLE;
-    if (code == LS_EXIT_OK) {
-        code = page(o, s, c, pic, &ch);
+    ls_results res = {0};
+    if (code == LS_EXIT_OK && ls_results_compute(&res, &s->op, LS_NEED_PORTS | LS_NEED_ADCS) != 0) {
         ls_checks_free(&ch);
+        code = LS_EXIT_UNSOLVABLE;
+    }
+    if (code == LS_EXIT_OK) {
+        code = page(o, s, c, pic, &ch, &res);
+        ls_checks_free(&ch);
+        ls_results_free(&res);
     } else {
         fprintf(stderr, "loadstack: error: out of memory\n");
     }
