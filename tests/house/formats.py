@@ -1,0 +1,87 @@
+#!/usr/bin/python3
+"""Keep DEVELOPERS.md "Adding an output format" honest.
+
+usage: formats.py SOURCE_ROOT
+
+The steps say: a format is one ls_format value (src/report/report.h), one word
+of --format (src/cli/main.c), and one backend in src/report/writer.c (a case
+in the table calls); the reports described through the writer then need no
+branch of their own.  This checks, from the source:
+  1. every ls_format but the HTML page has a case in each of the writer's
+     table calls (ls_wr_table, ls_wr_row, ls_wr_table_end), and the HTML page
+     none (it is its own document, cli/html.c);
+  2. --format accepts exactly the words of the formats, and its error message
+     lists them all;
+  3. the reports on the writer (WRITER_REPORTS) compare the format with
+     nothing but FMT_HTML (the page), so a new format needs no edit in them;
+  4. every file the section names exists.
+It fails with a line per broken step.
+"""
+import os
+import re
+import sys
+
+WRITER_REPORTS = ["src/report/op_report.c", "src/report/report.c", "src/cli/chain_cmd.c", "src/cli/fit_cmd.c",
+                  "src/cli/pick_cmd.c", "src/cli/formula_cmd.c"]
+TABLE_CALLS = ["ls_wr_table", "ls_wr_row", "ls_wr_table_end"]
+DISPATCH = re.compile(r"fmt\s*[!=]=\s*(FMT_\w+)|switch\s*\([^)]*fmt\)")
+
+
+def read(root, rel):
+    with open(os.path.join(root, rel), encoding="utf-8") as f:
+        return f.read()
+
+
+def body(src, name):
+    """The text of function `name` (from its definition to the closing brace at column 0)."""
+    m = re.search(r"^\w[^\n]*\b%s\([^)]*\)\n\{\n" % re.escape(name), src, re.M)
+    if not m:
+        return None
+    end = src.index("\n}\n", m.end())
+    return src[m.start():end]
+
+
+def main():
+    root = sys.argv[1]
+    fails = []
+    enum = re.search(r"typedef enum ls_format \{([^}]*)\}", read(root, "src/report/report.h"))
+    formats = [f.strip() for f in enum.group(1).split(",") if f.strip()]
+    words = {f: f[len("FMT_"):].lower() for f in formats}
+    writer = read(root, "src/report/writer.c")
+    for call in TABLE_CALLS:
+        b = body(writer, call)
+        if b is None:
+            fails.append("writer.c has no %s" % call)
+            continue
+        for f in formats:
+            has = ("case %s:" % f) in b
+            if f == "FMT_HTML" and has:
+                fails.append("%s has a case for the HTML page, which has its own layout" % call)
+            elif f != "FMT_HTML" and not has:
+                fails.append("%s has no backend case for %s" % (call, f))
+    main_c = read(root, "src/cli/main.c")
+    for f, w in words.items():
+        if not re.search(r'strcmp\(val, "%s"\) == 0\) cli->fmt = %s;' % (w, f), main_c):
+            fails.append("--format does not take '%s' (%s)" % (w, f))
+    msg = re.search(r'"--format takes ([^"]*), not', main_c)
+    if not msg or any(w not in msg.group(1) for w in words.values()):
+        fails.append("--format's error message does not list every format")
+    for rel in WRITER_REPORTS:
+        for m in DISPATCH.finditer(read(root, rel)):
+            if m.group(1) != "FMT_HTML":
+                line = read(root, rel)[:m.start()].count("\n") + 1
+                fails.append("%s:%d: a report on the writer branches on the format" % (rel, line))
+    dev = read(root, "DEVELOPERS.md")
+    sec = dev[dev.index("## Adding an output format"):]
+    sec = sec[:sec.index("\n## ", 5)]
+    for rel in sorted(set(re.findall(r"`((?:src|tests|docs|man)/[\w./-]+)`", sec))):
+        if not os.path.exists(os.path.join(root, rel)):
+            fails.append("DEVELOPERS.md names %s, which does not exist" % rel)
+    for f in fails:
+        print("FAIL", f)
+    print("%d formats, %d reports on the writer, %d failed" % (len(formats), len(WRITER_REPORTS), len(fails)))
+    return 1 if fails else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
