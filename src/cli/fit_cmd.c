@@ -519,6 +519,37 @@ static int fit_failed(ls_session *s, const ls_fit_study *f, int code)
     }
 }
 
+/* Write fit's report and, when asked and a candidate meets every check, the
+ * circuit with the chosen values (--write).  Returns the exit code; *closed
+ * says the output is closed already (the report was not whole: then nothing
+ * is written and the code is final). */
+static int fit_output(ls_cli *cli, ls_session *s, const ls_fit_study *f, bool *closed)
+{
+    *closed = false;
+    FILE *o = ls_out_open(cli);
+    ls_report rp = ls_report_for(s, o);
+    ls_wr w;
+    ls_wr_begin(&w, &rp);
+    fit_write(&w, f);
+    ls_wr_finish(&w);
+    int code = ls_report_done(&rp, f->any_feasible ? LS_EXIT_OK : LS_EXIT_CHECK);
+    if (code == LS_EXIT_UNSOLVABLE && rp.nomem) {
+        if (cli->write)
+            ls_dest_discard(&cli->write_dest);
+        *closed = true;
+        return ls_out_close(cli, code);
+    }
+    if (cli->write && f->any_feasible && write_circuit(cli, s, f) != 0) {
+        fprintf(stderr, "loadstack: error: cannot write '%s'\n", cli->write);
+        code = LS_EXIT_USAGE;
+    }
+    if (cli->write && !f->any_feasible) {
+        ls_dest_discard(&cli->write_dest);   /* nothing chosen: no file */
+        fprintf(stderr, "loadstack: no standard values meet every check; '%s' was not written\n", cli->write);
+    }
+    return code;
+}
+
 /* `loadstack fit FILE`: load, solve at the written values, search, report,
  * write the chosen values.  Exit 1 when no candidate meets every check. */
 int ls_cmd_fit(ls_cli *cli)
@@ -553,28 +584,12 @@ int ls_cmd_fit(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    FILE *o = ls_out_open(cli);
-    ls_report rp = ls_report_for(&s, o);
-    ls_wr w;
-    ls_wr_begin(&w, &rp);
-    fit_write(&w, &f);
-    ls_wr_finish(&w);
-    code = ls_report_done(&rp, f.any_feasible ? LS_EXIT_OK : LS_EXIT_CHECK);
-    if (code == LS_EXIT_UNSOLVABLE && rp.nomem) {   /* the report was not whole: nothing written */
-        if (cli->write)
-            ls_dest_discard(&cli->write_dest);
-        code = ls_out_close(cli, code);
+    bool closed;
+    code = fit_output(cli, &s, &f, &closed);
+    if (closed) {
         ls_fit_free(&f);
         ls_session_free(&s);
         return code;
-    }
-    if (cli->write && f.any_feasible && write_circuit(cli, &s, &f) != 0) {
-        fprintf(stderr, "loadstack: error: cannot write '%s'\n", cli->write);
-        code = LS_EXIT_USAGE;
-    }
-    if (cli->write && !f.any_feasible) {
-        ls_dest_discard(&cli->write_dest);   /* nothing chosen: no file */
-        fprintf(stderr, "loadstack: no standard values meet every check; '%s' was not written\n", cli->write);
     }
     code = ls_out_close(cli, ls_session_verdict(&s, code));
     if (s.diags.warnings > 0) /* they come from the solve at the written values, not from the chosen ones */
