@@ -302,49 +302,74 @@ static void attach(const ls_chain *c, const place *pl, int *ro, int *ri, int *no
         }
 }
 
-/* Place the boxes, and every connection: a direct arrow with its label in the
- * gap, or its lanes, corridor and label.  Returns the picture height, or -1
- * when out of memory. */
-static double route(ls_chain_pic *pic, const ls_chain *c, place *pl, double top)
+/* The working tables of route: per channel (the space above each row of
+ * boxes, and below the last) its height and top, per row its top, per
+ * routed connection its lane offsets, corridor and attachment ranks. */
+typedef struct routing {
+    double *ch_h, *ch_y, *row_y;     /* pl->nrow + 1 each */
+    double *lane_a, *lane_b;         /* per connection: the driver's lane, the load's lane (from the channel top) */
+    int *corr;                       /* per connection: its corridor, -1 for none */
+    int *ro, *ri, *nout, *nin;       /* attach's ranks and counts (one block, ro first) */
+} routing;
+
+/* Free rt's tables (any may be NULL). */
+static void routing_free(routing *rt)
 {
-    int nch = pl->nrow + 1;
-    double *ch_h = calloc((size_t)nch, sizeof *ch_h), *row_y = calloc((size_t)pl->nrow + 1, sizeof *row_y);
-    double *lane_a = calloc((size_t)c->nconns + 1, sizeof *lane_a), *lane_b = calloc((size_t)c->nconns + 1, sizeof *lane_b);
-    int *corr = calloc((size_t)c->nconns + 1, sizeof *corr);
-    int *att = calloc(2 * ((size_t)c->nconns + (size_t)pl->nbox) + 1, sizeof *att);
-    if (!ch_h || !row_y || !lane_a || !lane_b || !corr || !att) {
-        free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr), free(att);
-        return -1;
+    free(rt->ch_h), free(rt->ch_y), free(rt->row_y), free(rt->lane_a), free(rt->lane_b), free(rt->corr), free(rt->ro);
+}
+
+/* Allocate rt's tables for c placed by pl; false when out of memory (rt freed). */
+static bool routing_alloc(routing *rt, const ls_chain *c, const place *pl)
+{
+    size_t nch = (size_t)pl->nrow + 1, nk = (size_t)c->nconns + 1;
+    rt->ch_h = calloc(nch, sizeof *rt->ch_h);
+    rt->ch_y = calloc(nch, sizeof *rt->ch_y);
+    rt->row_y = calloc(nch, sizeof *rt->row_y);
+    rt->lane_a = calloc(nk, sizeof *rt->lane_a);
+    rt->lane_b = calloc(nk, sizeof *rt->lane_b);
+    rt->corr = calloc(nk, sizeof *rt->corr);
+    rt->ro = calloc(2 * ((size_t)c->nconns + (size_t)pl->nbox) + 1, sizeof *rt->ro);
+    if (!rt->ch_h || !rt->ch_y || !rt->row_y || !rt->lane_a || !rt->lane_b || !rt->corr || !rt->ro) {
+        routing_free(rt);
+        return false;
     }
-    int *ro = att, *ri = ro + c->nconns, *nout = ri + c->nconns, *nin = nout + pl->nbox;
-    attach(c, pl, ro, ri, nout, nin);
-    /* first pass: lane offsets inside each channel, measured from its top */
+    rt->ri = rt->ro + c->nconns;
+    rt->nout = rt->ri + c->nconns;
+    rt->nin = rt->nout + pl->nbox;
+    return true;
+}
+
+/* Lane offsets inside each channel, measured from its top, and the corridor
+ * of each connection that skips rows. */
+static void lanes(routing *rt, const ls_chain_pic *pic, const ls_chain *c, const place *pl)
+{
     int ncorr = 0;
     for (int k = 0; k < c->nconns; k++) {
         if (pl->direct[k])
             continue;
-        int rf = row_of(pl, pl->from[k]), rt = row_of(pl, pl->to[k]);
+        int rf = row_of(pl, pl->from[k]), rto = row_of(pl, pl->to[k]);
         double lh = pic->labels[k].h;
-        lane_a[k] = ch_h[rf + 1] + LANE_GAP + lh / 2;
-        ch_h[rf + 1] += LANE_GAP + lh;
-        corr[k] = -1;
-        if (rt != rf + 1) {
-            lane_b[k] = ch_h[rt] + LANE_GAP + LANE_BARE / 2;
-            ch_h[rt] += LANE_GAP + LANE_BARE;
-            corr[k] = ncorr++;
+        rt->lane_a[k] = rt->ch_h[rf + 1] + LANE_GAP + lh / 2;
+        rt->ch_h[rf + 1] += LANE_GAP + lh;
+        rt->corr[k] = -1;
+        if (rto != rf + 1) {
+            rt->lane_b[k] = rt->ch_h[rto] + LANE_GAP + LANE_BARE / 2;
+            rt->ch_h[rto] += LANE_GAP + LANE_BARE;
+            rt->corr[k] = ncorr++;
         }
     }
-    /* vertical positions: channel 0, row 0, channel 1, ... */
-    double y = top, *ch_y = calloc((size_t)nch, sizeof *ch_y);
-    if (!ch_y) {
-        free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr), free(att);
-        return -1;
-    }
+}
+
+/* The vertical positions: channel 0, row 0, channel 1, ... from top; the
+ * boxes in their rows.  Returns the bottom of the last channel. */
+static double stack_rows(routing *rt, ls_chain_pic *pic, const place *pl, double top)
+{
+    double y = top;
     for (int r = 0; r <= pl->nrow; r++) {
-        ch_y[r] = y;
-        y += ch_h[r] + (ch_h[r] > 0 ? LANE_GAP : 0);
+        rt->ch_y[r] = y;
+        y += rt->ch_h[r] + (rt->ch_h[r] > 0 ? LANE_GAP : 0);
         if (r < pl->nrow) {
-            row_y[r] = y;
+            rt->row_y[r] = y;
             y += pl->rh;
         }
     }
@@ -353,47 +378,75 @@ static double route(ls_chain_pic *pic, const ls_chain *c, place *pl, double top)
         it->w = pl->bw;
         it->h = pl->bh;
         it->x = box_x(pl, b);
-        it->y = row_y[row_of(pl, b)] + (pl->rh - pl->bh) / 2;
+        it->y = rt->row_y[row_of(pl, b)] + (pl->rh - pl->bh) / 2;
     }
+    return y;
+}
+
+/* Connection k between neighbouring boxes of a row: a straight arrow, its
+ * label in the gap. */
+static void direct_arrow(const routing *rt, const place *pl, int k, const item *f, const item *t, arrow *a, item *lb)
+{
+    double ym = rt->row_y[row_of(pl, pl->from[k])] + pl->rh / 2;
+    a->npt = 2;
+    a->pt[0][0] = f->x + f->w, a->pt[0][1] = ym;
+    a->pt[1][0] = t->x, a->pt[1][1] = ym;
+    lb->x = f->x + f->w + (pl->gap - lb->w) / 2;
+    lb->y = ym - lb->h / 2;
+}
+
+/* Connection k routed: down from its driver to its lane, across (through a
+ * corridor when it skips rows) and down into its load; its label on the
+ * driver's lane, centred on its run, inside the picture. */
+static void routed_arrow(const routing *rt, const ls_chain_pic *pic, const place *pl, int k, const item *f,
+                         const item *t, arrow *a, item *lb)
+{
+    double xd = f->x + f->w * (rt->ro[k] + 1) / (rt->nout[pl->from[k]] + 1);
+    double xl = t->x + t->w * (rt->ri[k] + 1) / (rt->nin[pl->to[k]] + 1);
+    int rf = row_of(pl, pl->from[k]), rto = row_of(pl, pl->to[k]);
+    double ya = rt->ch_y[rf + 1] + rt->lane_a[k];
+    a->pt[0][0] = xd, a->pt[0][1] = f->y + f->h;
+    a->pt[1][0] = xd, a->pt[1][1] = ya;
+    if (rt->corr[k] < 0) {
+        a->pt[2][0] = xl, a->pt[2][1] = ya;
+        a->npt = 4;
+    } else {
+        double xc = MARGIN + CORRIDOR * (rt->corr[k] + 0.5), yb = rt->ch_y[rto] + rt->lane_b[k];
+        a->pt[2][0] = xc, a->pt[2][1] = ya;
+        a->pt[3][0] = xc, a->pt[3][1] = yb;
+        a->pt[4][0] = xl, a->pt[4][1] = yb;
+        a->npt = 6;
+    }
+    a->pt[a->npt - 1][0] = xl, a->pt[a->npt - 1][1] = t->y;
+    double x1 = a->pt[1][0], x2 = a->pt[2][0];
+    double cx = (x1 + x2) / 2 - lb->w / 2, lo = pl->x0, hi = pic->w - MARGIN - lb->w;
+    lb->x = cx < lo ? lo : cx > hi ? hi : cx;
+    lb->y = ya - lb->h / 2;
+}
+
+/* Place the boxes, and every connection: a direct arrow with its label in the
+ * gap, or its lanes, corridor and label.  Returns the picture height, or -1
+ * when out of memory. */
+static double route(ls_chain_pic *pic, const ls_chain *c, place *pl, double top)
+{
+    routing rt;
+    if (!routing_alloc(&rt, c, pl))
+        return -1;
+    attach(c, pl, rt.ro, rt.ri, rt.nout, rt.nin);
+    lanes(&rt, pic, c, pl);
+    double y = stack_rows(&rt, pic, pl, top);
     for (int k = 0; k < c->nconns; k++) {
         item *lb = &pic->labels[k];
         const item *f = &pic->boxes[pl->from[k]], *t = &pic->boxes[pl->to[k]];
         arrow *a = &pic->arrows[pic->narrows++];
         a->verdict = lb->verdict;
         a->port = lb->id;
-        if (pl->direct[k]) {
-            double ym = row_y[row_of(pl, pl->from[k])] + pl->rh / 2;
-            a->npt = 2;
-            a->pt[0][0] = f->x + f->w, a->pt[0][1] = ym;
-            a->pt[1][0] = t->x, a->pt[1][1] = ym;
-            lb->x = f->x + f->w + (pl->gap - lb->w) / 2;
-            lb->y = ym - lb->h / 2;
-            continue;
-        }
-        double xd = f->x + f->w * (ro[k] + 1) / (nout[pl->from[k]] + 1);
-        double xl = t->x + t->w * (ri[k] + 1) / (nin[pl->to[k]] + 1);
-        int rf = row_of(pl, pl->from[k]), rt = row_of(pl, pl->to[k]);
-        double ya = ch_y[rf + 1] + lane_a[k];
-        a->pt[0][0] = xd, a->pt[0][1] = f->y + f->h;
-        a->pt[1][0] = xd, a->pt[1][1] = ya;
-        if (corr[k] < 0) {
-            a->pt[2][0] = xl, a->pt[2][1] = ya;
-            a->npt = 4;
-        } else {
-            double xc = MARGIN + CORRIDOR * (corr[k] + 0.5), yb = ch_y[rt] + lane_b[k];
-            a->pt[2][0] = xc, a->pt[2][1] = ya;
-            a->pt[3][0] = xc, a->pt[3][1] = yb;
-            a->pt[4][0] = xl, a->pt[4][1] = yb;
-            a->npt = 6;
-        }
-        a->pt[a->npt - 1][0] = xl, a->pt[a->npt - 1][1] = t->y;
-        /* the label on the driver's lane, centred on its run, inside the picture */
-        double x1 = a->pt[1][0], x2 = a->pt[2][0];
-        double cx = (x1 + x2) / 2 - lb->w / 2, lo = pl->x0, hi = pic->w - MARGIN - lb->w;
-        lb->x = cx < lo ? lo : cx > hi ? hi : cx;
-        lb->y = ya - lb->h / 2;
+        if (pl->direct[k])
+            direct_arrow(&rt, pl, k, f, t, a, lb);
+        else
+            routed_arrow(&rt, pic, pl, k, f, t, a, lb);
     }
-    free(ch_h), free(row_y), free(lane_a), free(lane_b), free(corr), free(ch_y), free(att);
+    routing_free(&rt);
     return y + MARGIN;
 }
 
