@@ -780,25 +780,12 @@ static void take_in(double *lo, double *hi, double dlo, double dhi, double v)
         *hi = v;
 }
 
-/* Groups the curves into panels by unit and makes each panel's y axis from
- * its curves (and the bounds, in the panel of the plot's yunit).  Returns an
- * ls_plot_status. */
-static int make_panels(const ls_plot_line *p, panels *pn, int h, char *msg, size_t msgn)
+/* The y range of each of pn's panels into lo/hi: it follows the panel's
+ * curves; a limit is taken in only where it lies within NEAR of the curves'
+ * span beside them, so a distant limit does not squash the curves (it is
+ * marked at the edge instead).  Returns an ls_plot_status. */
+static int panel_ranges(const ls_plot_line *p, const panels *pn, double *lo, double *hi, char *msg, size_t msgn)
 {
-    memset(pn, 0, sizeof *pn);
-    double lo[MAX_PANELS], hi[MAX_PANELS];
-    for (size_t s = 0; s < p->nseries; s++) {
-        int k = panel_of(pn, series_unit(p, &p->series[s]));
-        if (k < 0)
-            return fail(msg, msgn, LS_PLOT_EARG, "at most %d different units in one plot", MAX_PANELS);
-        pn->of[s] = k;
-    }
-    pn->bounds_panel = p->nbounds ? panel_of(pn, p->yunit ? p->yunit : "") : 0;
-    if (pn->bounds_panel < 0)
-        return fail(msg, msgn, LS_PLOT_EARG, "at most %d different units in one plot", MAX_PANELS);
-    /* Each panel's range follows its curves; a limit is taken in only where
-     * it lies within NEAR of the curves' span beside them, so a distant limit
-     * does not squash the curves (it is marked at the edge instead). */
     for (int k = 0; k < pn->n; k++)
         lo[k] = INFINITY, hi[k] = -INFINITY;
     for (int pass = 0; pass < 2; pass++) /* curves; then limits, for panels with no curve */
@@ -836,6 +823,45 @@ static int make_panels(const ls_plot_line *p, panels *pn, int h, char *msg, size
             if (isfinite(se->x[i]) && isfinite(se->y[i]))
                 take_in(&lo[k], &hi[k], dlo[k], dhi[k], se->y[i]);
     }
+    return LS_PLOT_OK;
+}
+
+/* Panel k's y label: the names of its curves (or the plot's ylabel when
+ * there is one panel). */
+static void panel_label(const ls_plot_line *p, panels *pn, int k)
+{
+    char *yl = pn->ylabel[k];
+    if (pn->n == 1 && p->ylabel) {
+        snprintf(yl, sizeof pn->ylabel[k], "%s", p->ylabel);
+        return;
+    }
+    for (size_t s = 0; s < p->nseries; s++) {
+        const ls_plot_series *se = &p->series[s];
+        size_t len = strlen(yl);
+        if (pn->of[s] == k && !se->limit && se->name && *se->name)
+            snprintf(yl + len, sizeof pn->ylabel[k] - len, "%s%s", len ? ", " : "", se->name);
+    }
+}
+
+/* Groups the curves into panels by unit and makes each panel's y axis from
+ * its curves (and the bounds, in the panel of the plot's yunit).  Returns an
+ * ls_plot_status. */
+static int make_panels(const ls_plot_line *p, panels *pn, int h, char *msg, size_t msgn)
+{
+    memset(pn, 0, sizeof *pn);
+    double lo[MAX_PANELS], hi[MAX_PANELS];
+    for (size_t s = 0; s < p->nseries; s++) {
+        int k = panel_of(pn, series_unit(p, &p->series[s]));
+        if (k < 0)
+            return fail(msg, msgn, LS_PLOT_EARG, "at most %d different units in one plot", MAX_PANELS);
+        pn->of[s] = k;
+    }
+    pn->bounds_panel = p->nbounds ? panel_of(pn, p->yunit ? p->yunit : "") : 0;
+    if (pn->bounds_panel < 0)
+        return fail(msg, msgn, LS_PLOT_EARG, "at most %d different units in one plot", MAX_PANELS);
+    int rc = panel_ranges(p, pn, lo, hi, msg, msgn);
+    if (rc)
+        return rc;
     /* about one tick per 45 pixels of panel height, at least 2 */
     int target = (int)(h / pn->n / 45);
     for (int k = 0; k < pn->n; k++) {
@@ -843,19 +869,7 @@ static int make_panels(const ls_plot_line *p, panels *pn, int h, char *msg, size
             lo[k] = hi[k] = 0; /* a panel of limits or curves with no finite point */
         if (!axis_make(&pn->ya[k], lo[k], hi[k], false, pn->unit[k], target > 2 ? target : 2))
             return fail(msg, msgn, LS_PLOT_EARG, "data range too wide to draw");
-        /* the y label: the names of the panel's curves (or the plot's ylabel
-         * when there is one panel) */
-        char *yl = pn->ylabel[k];
-        if (pn->n == 1 && p->ylabel) {
-            snprintf(yl, sizeof pn->ylabel[k], "%s", p->ylabel);
-            continue;
-        }
-        for (size_t s = 0; s < p->nseries; s++) {
-            const ls_plot_series *se = &p->series[s];
-            size_t len = strlen(yl);
-            if (pn->of[s] == k && !se->limit && se->name && *se->name)
-                snprintf(yl + len, sizeof pn->ylabel[k] - len, "%s%s", len ? ", " : "", se->name);
-        }
+        panel_label(p, pn, k);
     }
     return LS_PLOT_OK;
 }
@@ -1023,6 +1037,47 @@ static void draw_hist(cairo_t *cr, const void *desc, const axis *xa, const axis 
 
 /* Validates, counts and draws into dest (or a file at path when dest is
  * NULL).  The bin counts are malloc'd here and freed before return. */
+/* Count p's finite values into bins (d, its count malloc'd): the span
+ * lo..hi of the values (widened around a single value) and the tallest
+ * bin's count.  Returns an ls_plot_status (nothing allocated on failure). */
+static int hist_count(const ls_plot_hist *p, hist_data *d, double *lo_out, double *hi_out, unsigned *top_out,
+                      char *msg, size_t msgn)
+{
+    double lo = INFINITY, hi = -INFINITY;
+    for (size_t i = 0; i < p->n; i++)
+        if (isfinite(p->values[i])) {
+            lo = fmin(lo, p->values[i]);
+            hi = fmax(hi, p->values[i]);
+        }
+    if (!(lo <= hi))
+        return fail(msg, msgn, LS_PLOT_EARG, "no finite value to count");
+    *d = (hist_data){.p = p, .bins = p->bins ? p->bins : ls_plot_hist_bins(p->values, p->n)};
+    if (lo == hi) { /* one distinct value: a single bin of width 1 % of it (or 1) */
+        double e = lo == 0 ? 0.5 : fabs(lo) * 0.005;
+        lo -= e;
+        hi += e;
+    }
+    d->lo = lo;
+    d->width = (hi - lo) / d->bins;
+    d->count = calloc((size_t)d->bins, sizeof *d->count);
+    if (!d->count)
+        return fail(msg, msgn, LS_PLOT_EIO, "out of memory");
+    unsigned top = 0;
+    for (size_t i = 0; i < p->n; i++) {
+        double v = p->values[i];
+        if (!isfinite(v))
+            continue;
+        int b = (int)((v - lo) / d->width);
+        b = b < 0 ? 0 : b >= d->bins ? d->bins - 1 : b; /* the maximum falls in the last bin */
+        if (++d->count[b] > top)
+            top = d->count[b];
+    }
+    *lo_out = lo;
+    *hi_out = hi;
+    *top_out = top;
+    return LS_PLOT_OK;
+}
+
 static int hist_write(const ls_plot_hist *p, ls_dest *dest, const char *path, char *msg, size_t msgn)
 {
     if (!p || (p->n && !p->values))
@@ -1033,35 +1088,12 @@ static int hist_write(const ls_plot_hist *p, ls_dest *dest, const char *path, ch
     int rc = check_size(&w, &h, msg, msgn);
     if (rc)
         return rc;
-    double lo = INFINITY, hi = -INFINITY;
-    for (size_t i = 0; i < p->n; i++)
-        if (isfinite(p->values[i])) {
-            lo = fmin(lo, p->values[i]);
-            hi = fmax(hi, p->values[i]);
-        }
-    if (!(lo <= hi))
-        return fail(msg, msgn, LS_PLOT_EARG, "no finite value to count");
-    hist_data d = {.p = p, .bins = p->bins ? p->bins : ls_plot_hist_bins(p->values, p->n)};
-    if (lo == hi) { /* one distinct value: a single bin of width 1 % of it (or 1) */
-        double e = lo == 0 ? 0.5 : fabs(lo) * 0.005;
-        lo -= e;
-        hi += e;
-    }
-    d.lo = lo;
-    d.width = (hi - lo) / d.bins;
-    d.count = calloc((size_t)d.bins, sizeof *d.count);
-    if (!d.count)
-        return fail(msg, msgn, LS_PLOT_EIO, "out of memory");
+    hist_data d;
+    double lo = 0, hi = 0;   /* (set by hist_count when it succeeds) */
     unsigned top = 0;
-    for (size_t i = 0; i < p->n; i++) {
-        double v = p->values[i];
-        if (!isfinite(v))
-            continue;
-        int b = (int)((v - lo) / d.width);
-        b = b < 0 ? 0 : b >= d.bins ? d.bins - 1 : b; /* the maximum falls in the last bin */
-        if (++d.count[b] > top)
-            top = d.count[b];
-    }
+    rc = hist_count(p, &d, &lo, &hi, &top, msg, msgn);
+    if (rc)
+        return rc;
     /* The shown range follows the data (marks beyond it are arrows at the
      * edge); a mark within NEAR of the data's span beside it is taken in. */
     double xlo = lo, xhi = hi, mlo = INFINITY, mhi = -INFINITY;
