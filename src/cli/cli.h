@@ -7,6 +7,7 @@
 
 #include "analysis/analysis.h"
 #include "analysis/share.h"
+#include "circuit.h"
 #include "report/output.h"
 #include "report/report.h"
 
@@ -58,18 +59,12 @@ typedef struct ls_cli {
     const ls_share *share;             /* loadstack-mpi: tol's trials and sweep's points split among processes */
 } ls_cli;
 
-/* Everything a command needs from a loaded circuit. */
-typedef struct ls_session {
-    ls_arena arena;
-    ls_diags diags;
-    ls_arena syntax;            /* the syntax tree, freed once the circuit is elaborated */
-    ls_program prog;            /* empty after ls_session_load */
-    ls_netlist nl;
-    ls_op op;
-    bool have_op;
-    ls_cli *cli;
-    const char *input_path;
-} ls_session;
+/* Everything a command needs from a loaded circuit: the library's circuit
+ * itself (circuit.h), read, elaborated and solved by the same code as the
+ * public API's.  A command reads its netlist (nl), operating point (op),
+ * diagnostics and arena directly; cli is the command line it was loaded for,
+ * input_path the file the reports name (NULL for standard input). */
+typedef struct ls_circuit ls_session;
 
 /* Load FILE (or the demo text): parse, apply --set, elaborate.  Returns an exit code. */
 int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *text);
