@@ -24,6 +24,7 @@ typedef struct ls_cli {
     const char *output;
     double min_ratio;
     bool ascii, help;
+    bool version;                      /* --version: print it and nothing else */
     ls_solver_choice solver;
     double derate;
     /* command options */
