@@ -133,6 +133,9 @@ int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
 int ls_cmd_chain(ls_cli *cli);   /* chain_cmd.c */
 int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
 int ls_cmd_fit(ls_cli *cli);     /* fit_cmd.c */
+#ifdef LS_TEST_COMMANDS
+int ls_cmd_tally(ls_cli *cli);   /* tests/house/tally_cmd.c: in the test program only */
+#endif
 
 extern const char ls_demo_text[];
 /* Every warning code the program gives, NULL-terminated (generated from

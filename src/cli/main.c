@@ -63,6 +63,14 @@ static const int format_values[] = {FMT_TEXT, FMT_JSON, FMT_CSV, FMT_HTML};
 static const char *const dist_words[] = {"uniform", "normal", NULL};
 static const char *const goal_words[] = {"margin", "yield", "current", NULL};
 
+/* The commands compiled only into the test program loadstack_toy
+ * (tests/house/tally_cmd.c) name themselves in the options they take here. */
+#ifdef LS_TEST_COMMANDS
+#define TEST_TOP " tally"
+#else
+#define TEST_TOP ""
+#endif
+
 #define F(member) offsetof(ls_cli, member)
 
 /* Every option, in the order of the help texts. */
@@ -125,7 +133,7 @@ static const optdef options[] = {
     {.name = "goal", .type = VAL_WORD, .field = F(goal), .scope = FOR_LISTED, .cmds = "fit",
      .help = "margin|yield|current  what the best candidate has most of (least current) (default margin)",
      .bad = "--goal takes margin, yield or current, not '%s'", .words = goal_words},
-    {.name = "top", .type = VAL_INT, .field = F(top), .scope = FOR_LISTED, .cmds = "fit",
+    {.name = "top", .type = VAL_INT, .field = F(top), .scope = FOR_LISTED, .cmds = "fit" TEST_TOP,
      .help = "K  candidates to report, best first (default 5)",
      .bad = "--top takes a whole number from 1 to 1000, not '%s'", .lo = 1, .hi = 1000},
     {.name = "max-solves", .type = VAL_COUNT, .field = F(max_solves), .scope = FOR_LISTED, .cmds = "fit",
@@ -179,6 +187,10 @@ static const cmd commands[] = {
     {"chain", "chain FILE", "the stages in signal order and every connection between them, with its verdict",
      "loadstack chain circuits/demo.stack --plot chain.png", ls_cmd_chain, 1, true},
     {"demo", "demo", "the built-in demo circuit, solved (needs no file)", "loadstack demo", ls_cmd_demo, 0, true},
+#ifdef LS_TEST_COMMANDS
+    {"tally", "tally FILE", "the power every part absorbs, the largest first, and their sum",
+     "loadstack_toy tally circuits/demo.stack --top 5", ls_cmd_tally, 1, true},
+#endif
 };
 
 static const int ncommands = (int)(sizeof commands / sizeof commands[0]);
