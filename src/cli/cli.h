@@ -67,10 +67,16 @@ typedef struct ls_cli {
  * input_path the file the reports name (NULL for standard input). */
 typedef struct ls_circuit ls_session;
 
-/* Load FILE (or the demo text): parse, apply --set, elaborate.  Returns an exit code. */
+/* Load FILE ('-': the standard input main() read; or the demo text) for cli
+ * through the one loader (ls_circuit_load): parse, apply --set, elaborate,
+ * keeping the syntax tree when cli->keep_syntax and following cli->follow.
+ * Returns an exit code (2 for any failure; ls_session_nomem says when it was
+ * memory).  Free s with ls_session_free whatever it returns. */
 int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *text);
-/* Solve the operating point.  Returns an exit code. */
+/* Solve the operating point (ls_circuit_solve_op, with cli's solver, ratio
+ * and derating, and the progress line).  Returns an exit code. */
 int ls_session_solve(ls_session *s);
+/* Free what the session holds (not s itself). */
 void ls_session_free(ls_session *s);
 /* Parse and bind a quantity written as in an `expect`; NULL after an error
  * in the diagnostics (out of memory included). */
