@@ -10,8 +10,8 @@ branch of their own.  This checks, from the source:
   1. every ls_format but the HTML page has a case in each of the writer's
      table calls (ls_wr_table, ls_wr_row, ls_wr_table_end), and the HTML page
      none (it is its own document, cli/html.c);
-  2. --format accepts exactly the words of the formats, and its error message
-     lists them all;
+  2. --format's word list (format_words and format_values in the option
+     table) is exactly the formats, and its error message lists them all;
   3. the reports on the writer (WRITER_REPORTS) compare the format with
      nothing but FMT_HTML (the page), so a new format needs no edit in them;
   4. every file the section names exists.
@@ -60,9 +60,12 @@ def main():
             elif f != "FMT_HTML" and not has:
                 fails.append("%s has no backend case for %s" % (call, f))
     main_c = read(root, "src/cli/main.c")
-    for f, w in words.items():
-        if not re.search(r'strcmp\(val, "%s"\) == 0\) cli->fmt = %s;' % (w, f), main_c):
-            fails.append("--format does not take '%s' (%s)" % (w, f))
+    w = re.search(r"format_words\[\] = \{([^}]*)\}", main_c)
+    v = re.search(r"format_values\[\] = \{([^}]*)\}", main_c)
+    taken = [x.strip().strip('"') for x in w.group(1).split(",") if x.strip() != "NULL"] if w else []
+    values = [x.strip() for x in v.group(1).split(",") if x.strip()] if v else []
+    if dict(zip(values, taken)) != words:
+        fails.append("--format's words %s for %s are not the formats' %s" % (taken, values, sorted(words.values())))
     msg = re.search(r'"--format takes ([^"]*), not', main_c)
     if not msg or any(w not in msg.group(1) for w in words.values()):
         fails.append("--format's error message does not list every format")
