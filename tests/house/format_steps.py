@@ -1,7 +1,7 @@
 #!/usr/bin/python3
 """Keep DEVELOPERS.md "Adding an output format" honest.
 
-usage: formats.py SOURCE_ROOT
+usage: format_steps.py SOURCE_ROOT
 
 The steps say: a format is one ls_format value (src/report/report.h), one word
 of --format (src/cli/main.c), and one backend in src/report/writer.c (a case
