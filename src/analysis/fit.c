@@ -987,15 +987,50 @@ static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
     return 0;
 }
 
-/* At every corner, the next series value inward along each active part:
- * the changes there (the derivative's sign at the corner, on the series) go
- * into the flags too.  Returns 0, -1 on no memory. */
-static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k)
+/* The figure a box's corner bounds would rule it out on: the check behind
+ * the bound below 0 when nothing in the box meets every check, else the
+ * current (index nslots) with the current goal, else the check behind the
+ * goal margin's bound. */
+static int bb_deciding(const fit_run *r, const bb_bound *bd)
+{
+    if (bd->worst < 0)
+        return bd->worst_at;
+    return r->f->goal == LS_FIT_CURRENT ? r->nslots : bd->margin_at;
+}
+
+/* Bit mask of the active parts (bits of act) along whose edges figure s
+ * changed at all, or was unknown, between the corners: the parts it depends
+ * on over the box, by the corners' evidence. */
+static unsigned bb_depends(const fit_run *r, const bb_state *b, int k, int s)
+{
+    int ns = r->nslots;
+    const unsigned char *fv = b->flag + (size_t)s * k, *fm = b->flag + (size_t)(ns + 1) * k + (size_t)s * k;
+    unsigned d = 0;
+    for (int t = 0; t < k; t++)
+        if (fv[t] || (s < ns && fm[t]))
+            d |= 1u << t;
+    return d;
+}
+
+/* The inward steps that test figure s (a check, or nslots: the current):
+ * along the parts it depends on (dep, bits of act), at every corner of the
+ * face where the other active parts sit at their lower ends; along each
+ * other part, at both of its ends on that face (a hump whose ends are equal
+ * shows there).  With dep holding every part, that is every corner's step
+ * along every part.  The changes go into every figure's flags, but only s's
+ * are complete enough to bound it.  Returns 0, -1 on no memory. */
+static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, unsigned dep)
 {
     int nc = 1 << k, idx[LS_FIT_MAX_FREE];
+    unsigned flat = ((1u << k) - 1) & ~dep;
     for (int m = 0; m < nc; m++) {
         const double *c = row_at(b, b->corner, m);
+        unsigned high_flat = (unsigned)m & flat;
         for (int t = 0; t < k; t++) {
+            /* along a part s depends on: the face's corners; along another:
+             * those corners and their far ends along that part only */
+            if (dep >> t & 1 ? high_flat != 0 : (high_flat & ~(1u << t)) != 0)
+                continue;
             bool up = m >> t & 1;
             corner_idx(r, x, act, k, m, idx);
             idx[act[t]] += up ? -1 : 1;
@@ -1067,6 +1102,32 @@ static bool bb_prune(const fit_run *r, const bb_bound *bd)
     if (f->goal == LS_FIT_CURRENT)
         return clearly_below(ref->current, bd->current);
     return clearly_below(bd->margin, ref->margin);
+}
+
+/* bb_prune on figure s alone (bb_deciding's), its bound made again from
+ * the flags: the other figures' flags may lack the steps their own bounds
+ * would need.  *lost is set when the steps took s's bound away (it turned). */
+static bool bb_prune_on(fit_run *r, bb_state *b, int k, const bb_bound *before, int s, bool *lost)
+{
+    bb_bound one = {.margin = INFINITY, .worst = INFINITY, .current = -INFINITY, .margin_at = -1, .worst_at = -1};
+    *lost = false;
+    if (s < 0)
+        return false;
+    if (s == r->nslots) {
+        bb_bound all;
+        bb_bounds(r, b, k, &all);
+        one.current = all.current;
+        *lost = one.current == -INFINITY;
+    } else if (before->worst < 0) {
+        one.worst = bound_check(r, b, k, s);
+        *lost = one.worst == INFINITY;
+        if (!(one.worst < 0))
+            return false; /* the figure that would have ruled it out turned */
+    } else {
+        one.margin = bound_check(r, b, k, s);
+        *lost = one.margin == INFINITY;
+    }
+    return bb_prune(r, &one);
 }
 
 /* Solve every combination of box x.  Returns 0, -1 on no memory. */
@@ -1159,10 +1220,15 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
         bb_bounds(r, b, k, &bd);
         bool out = bb_prune(r, &bd);
         if (out) {
-            if (bb_inward(r, b, x, act, k) != 0)
+            /* the steps that test the figure that decides, along the parts it
+             * depends on (a check of two parts in a box of four needs a
+             * quarter of the steps) */
+            int s = bb_deciding(r, &bd);
+            if (bb_inward(r, b, x, act, k, s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, s)) != 0)
                 return -1;
-            bb_bounds(r, b, k, &bd);
-            out = bb_prune(r, &bd);
+            bool lost;
+            out = bb_prune_on(r, b, k, &bd, s, &lost);
+            bd.unbounded += lost;
         }
         f->bb_unbounded += bd.unbounded;
         if (out) {
