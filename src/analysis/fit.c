@@ -1012,34 +1012,103 @@ static unsigned bb_depends(const fit_run *r, const bb_state *b, int k, int s)
     return d;
 }
 
-/* The inward steps that test figure s (a check, or nslots: the current):
- * along the parts it depends on (dep, bits of act), at every corner of the
- * face where the other active parts sit at their lower ends; along each
- * other part, at both of its ends on that face (a hump whose ends are equal
- * shows there).  With dep holding every part, that is every corner's step
- * along every part.  The changes go into every figure's flags, but only s's
- * are complete enough to bound it.  Returns 0, -1 on no memory. */
-static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, unsigned dep)
+/* Which way figure s (a check, or nslots: the current) would have to leave
+ * its corners' range inside the box to break the bound the box would be
+ * ruled out on: 1 above it (a peak), -1 below it (a valley), 0 either; *col
+ * gets the column of the rows that bound is made from (docs/fit.md).  A
+ * value bounded toward the top of its interval (the middle of a range above
+ * it, or a lower limit) is broken by a peak; toward the bottom by a valley;
+ * a margin bounded itself, by a peak; the current's lower bound, by a valley. */
+static int bb_danger(const fit_run *r, const bb_state *b, int k, int s, int *col)
 {
-    int nc = 1 << k, idx[LS_FIT_MAX_FREE];
+    int ns = r->nslots;
+    if (s == ns) {
+        *col = 4 * ns;
+        return -1;
+    }
+    *col = 4 * s + 1;
+    if (!margin_of_value(r, b, k, s) || !flags_monotone(b->flag + (size_t)s * k, k))
+        return 1;
+    double vmin = INFINITY, vmax = -INFINITY;
+    for (int m = 0; m < 1 << k; m++) {
+        double v = row_at(b, b->corner, m)[4 * s];
+        vmin = fmin(vmin, v);
+        vmax = fmax(vmax, v);
+    }
+    if (!isfinite(vmin) || !isfinite(vmax))
+        return 1;
+    const double *c0 = row_at(b, b->corner, 0);
+    double lo = c0[4 * s + 2], hi = c0[4 * s + 3];
+    *col = 4 * s;
+    if (isfinite(lo) && isfinite(hi))
+        return vmax <= (lo + hi) / 2 ? 1 : vmin >= (lo + hi) / 2 ? -1 : 0;
+    return isfinite(lo) ? 1 : isfinite(hi) ? -1 : 0;
+}
+
+/* Is the change from a to b below noise (note_change would note nothing)? */
+static bool flat_change(double a, double b)
+{
+    unsigned char f = 0;
+    note_change(&f, a, b);
+    return f == 0;
+}
+
+/* Solve the step in from corner m along active part t and note its changes
+ * in every figure's flags.  When the edge's ends give figure s the same
+ * value (column col) but the step does not, s is not monotone along t: a
+ * monotone figure with equal ends is constant between them.  Returns 0, -1
+ * on no memory. */
+static int bb_step_in(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int m, int t, int s, int col)
+{
+    int idx[LS_FIT_MAX_FREE], ns = r->nslots;
+    bool up = m >> t & 1;
+    const double *c = row_at(b, b->corner, m), *e = row_at(b, b->corner, m ^ (1 << t));
+    corner_idx(r, x, act, k, m, idx);
+    idx[act[t]] += up ? -1 : 1;
+    if (bb_probe(r, b, idx, b->tmp) != 0)
+        return -1;
+    if (up)
+        note_rows(r, b, k, t, b->tmp, c);
+    else
+        note_rows(r, b, k, t, c, b->tmp);
+    if (s >= 0 && flat_change(c[col], e[col]) && !flat_change(c[col], b->tmp[col])) {
+        b->flag[(size_t)s * k + t] |= BB_BAD;
+        if (s < ns)
+            b->flag[(size_t)(ns + 1) * k + (size_t)s * k + t] |= BB_BAD;
+    }
+    return 0;
+}
+
+/* The inward steps that test figure s (a check, nslots: the current, or -1:
+ * every figure) before the box is ruled out on it.  Only the parts s
+ * depends on (dep, bits of act) and one face of the others (at their lower
+ * ends) are looked at: along a part it does not depend on, each edge's
+ * ends agree, and one step in from the lower end shows a hump between them.
+ * Along a part it depends on, a step in at the end of each edge where an
+ * excursion that breaks the bound would show (bb_danger: the higher end for
+ * a peak, the lower for a valley; both ends when either would; the lower
+ * end, by the rule above, when the edge's ends agree).  The changes go into
+ * every figure's flags, but only s's are complete enough to bound it.
+ * Returns 0, -1 on no memory. */
+static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int s, unsigned dep)
+{
+    int col = 0, danger = s < 0 ? 0 : bb_danger(r, b, k, s, &col);
     unsigned flat = ((1u << k) - 1) & ~dep;
-    for (int m = 0; m < nc; m++) {
-        const double *c = row_at(b, b->corner, m);
-        unsigned high_flat = (unsigned)m & flat;
+    for (int m = 0; m < 1 << k; m++) {
+        if ((unsigned)m & flat)
+            continue; /* the face: the parts s does not depend on at their lower ends */
         for (int t = 0; t < k; t++) {
-            /* along a part s depends on: the face's corners; along another:
-             * those corners and their far ends along that part only */
-            if (dep >> t & 1 ? high_flat != 0 : (high_flat & ~(1u << t)) != 0)
-                continue;
-            bool up = m >> t & 1;
-            corner_idx(r, x, act, k, m, idx);
-            idx[act[t]] += up ? -1 : 1;
-            if (bb_probe(r, b, idx, b->tmp) != 0)
+            if (m >> t & 1)
+                continue; /* each edge once, from its lower end m */
+            int hi = m | 1 << t;
+            const double *a = row_at(b, b->corner, m), *z = row_at(b, b->corner, hi);
+            bool both = s < 0 || (danger == 0 && !flat_change(a[col], z[col]));
+            int end = m;
+            if (!both && danger != 0 && !flat_change(a[col], z[col]))
+                end = (danger > 0) == (z[col] > a[col]) ? hi : m;
+            if (bb_step_in(r, b, x, act, k, end, t, s, col) != 0 ||
+                (both && bb_step_in(r, b, x, act, k, hi, t, s, col) != 0))
                 return -1;
-            if (up)
-                note_rows(r, b, k, t, b->tmp, c);
-            else
-                note_rows(r, b, k, t, c, b->tmp);
         }
     }
     return 0;
@@ -1224,7 +1293,7 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
              * depends on (a check of two parts in a box of four needs a
              * quarter of the steps) */
             int s = bb_deciding(r, &bd);
-            if (bb_inward(r, b, x, act, k, s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, s)) != 0)
+            if (bb_inward(r, b, x, act, k, s, s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, s)) != 0)
                 return -1;
             bool lost;
             out = bb_prune_on(r, b, k, &bd, s, &lost);
