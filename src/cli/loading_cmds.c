@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "report/textbuf.h"
 #include "elab/elab.h"
 #include "base/fmt.h"
 #include "lang/parser.h"
@@ -267,12 +268,21 @@ static const char *row_kind(const ls_part *p)
     return p->kind->is_port ? "port" : p->kind->name;
 }
 
+/* s right-aligned in w display columns (a unit's µ and Ω are one column
+ * each but two bytes, which printf's %*s would count), into buf (n bytes). */
+static const char *rjust(char *buf, size_t n, const char *s, int w)
+{
+    int pad = w - ls_width(s);
+    snprintf(buf, n, "%*s%s", pad > 0 ? pad : 0, "", s);
+    return buf;
+}
+
 /* The what-if table in text: linear estimates, limit-crossing rows re-solved. */
 static void what_if_text(ls_report *rp, const ls_op *op, const ls_sag_item *items)
 {
     const ls_netlist *nl = op->nl;
     FILE *o = rp->out;
-    char b1[64], b2[64];
+    char b1[64], b2[64], j1[80], j2[80];
     fputs("\nWhat-if table: each port opened and each part removed in turn (resistors opened, sources set\n"
           "to zero).  This is not an explanation of the sag: the parts that set the node's voltage (a\n"
           "divider's own legs, the source) move it too.  Rows marked * crossed a limit in the linear\n"
@@ -292,8 +302,9 @@ static void what_if_text(ls_report *rp, const ls_op *op, const ls_sag_item *item
         else if (it->beyond_limit && !it->resolved)
             fprintf(o, "  %-9s %-20s %14s %14s  %s\n", row_kind(p), p->name, "-", "-", note);
         else
-            fprintf(o, "  %-9s %-20s %14s %14s  %s\n", row_kind(p), p->name,
-                    ls_eng(rp, b1, sizeof b1, it->without, "V"), ls_eng(rp, b2, sizeof b2, it->delta, "V"), note);
+            fprintf(o, "  %-9s %-20s %s %s  %s\n", row_kind(p), p->name,
+                    rjust(j1, sizeof j1, ls_eng(rp, b1, sizeof b1, it->without, "V"), 14),
+                    rjust(j2, sizeof j2, ls_eng(rp, b2, sizeof b2, it->delta, "V"), 14), note);
     }
 }
 
@@ -346,11 +357,15 @@ static void sag_text(ls_report *rp, const ls_op *op, const ls_sag_report *r)
         }
         if (sp->ndraws > 4 && len < sizeof by)
             snprintf(by + len, sizeof by - len, ", +%d more", sp->ndraws - 4);
-        fprintf(o, "  %-4d %-16s %12s %12s %12s %8s  %s\n", k + 1, nl->parts[sp->part].name,
-                ls_eng(rp, b1, sizeof b1, sp->current, "A"), ls_eng(rp, b2, sizeof b2, sp->transfer, OHM),
-                ls_eng(rp, b3, sizeof b3, sp->share, "V"), rel, by);
+        char j1[80], j2[80], j3[80];
+        fprintf(o, "  %-4d %-16s %s %s %s %8s  %s\n", k + 1, nl->parts[sp->part].name,
+                rjust(j1, sizeof j1, ls_eng(rp, b1, sizeof b1, sp->current, "A"), 12),
+                rjust(j2, sizeof j2, ls_eng(rp, b2, sizeof b2, sp->transfer, OHM), 12),
+                rjust(j3, sizeof j3, ls_eng(rp, b3, sizeof b3, sp->share, "V"), 12), rel, by);
     }
-    fprintf(o, "  %-4s %-16s %12s %12s %12s\n", "", "interaction", "", "", ls_eng(rp, b1, sizeof b1, r->interaction, "V"));
+    char j1[80];
+    fprintf(o, "  %-4s %-16s %12s %12s %s\n", "", "interaction", "", "",
+            rjust(j1, sizeof j1, ls_eng(rp, b1, sizeof b1, r->interaction, "V"), 12));
     if (r->method == LS_SAG_SHAPLEY) {
         fprintf(o, "\n  Shares: each port's average effect over the orders of connecting the ports (exact solves");
         if (r->orders)
