@@ -15,6 +15,8 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "report/textbuf.h"
+#include "report/writer.h"
 #include "analysis/sweep.h"
 #include "analysis/tolerance.h"
 #include "elab/elab.h"
@@ -406,79 +408,39 @@ static int solve_point(sweep *w, int i)
 /* Value of quantity k at point i (NaN when not solved). */
 static double yat(const sweep *w, int i, int k) { return w->y[(size_t)i * (size_t)w->nq + (size_t)k]; }
 
-/* The sweep as one JSON object: the let, then one object per point; a
- * quantity at a point that could not be solved is null, "unsolved". */
-static void sweep_json(ls_report *rp, const sweep *w)
-{
-    ls_jw jw, *j = &jw;
-    ls_report_json_begin(rp, j);
-    ls_jw_str(j, "let", w->param);
-    ls_jw_arr(j, "points");
-    for (int i = 0; i < w->steps; i++) {
-        ls_jw_obj(j, NULL);
-        ls_jw_num(j, w->param, w->x[i]);
-        for (int k = 0; k < w->nq; k++) {
-            double v = yat(w, i, k);
-            ls_jw_num_why(j, w->qtext[k], v, !w->solved[i] ? LS_WHY_UNSOLVED : ls_jw_why_of(v));
-        }
-        ls_jw_end(j);
-    }
-    ls_jw_end(j);
-    ls_report_json_end(rp, j);
-}
-
-/* The sweep as CSV: a header row, then one row per point, the param first. */
-static void sweep_csv(FILE *o, const sweep *w)
-{
-    ls_csv_field(o, w->param);
-    for (int k = 0; k < w->nq; k++) {
-        fputc(',', o);
-        ls_csv_field(o, w->qtext[k]);
-    }
-    fputc('\n', o);
-    for (int i = 0; i < w->steps; i++) {
-        ls_csv_number(o, w->x[i]);
-        for (int k = 0; k < w->nq; k++) {
-            fputc(',', o);
-            ls_csv_number(o, yat(w, i, k));
-        }
-        fputc('\n', o);
-    }
-}
-
-/* Print s right-aligned in w columns after two spaces, counting UTF-8 code
- * points (a unit may hold multi-byte signs such as Ω). */
-static void rpad(FILE *o, const char *s, int w)
-{
-    int n = 0;
-    for (const char *c = s; *c; c++)
-        n += ((unsigned char)*c & 0xC0) != 0x80;
-    fprintf(o, "  %*s%s", w > n ? w - n : 0, "", s);
-}
-
-/* The sweep as an aligned table in engineering notation with units. */
-static void sweep_text(FILE *o, const ls_report *rp, const sweep *w)
+/* The sweep report, described once for every format (writer.h): the let,
+ * then a table of one row per point, the let's value first; a quantity at
+ * a point that could not be solved is null, "unsolved" (CSV: empty).  In
+ * text, engineering notation with units, each column at least 12 wide. */
+static void sweep_report(ls_report *rp, const sweep *w)
 {
     char b[64];
     const char *xu = ls_unit_of(w->xdims, w->cli->ascii);
-    fprintf(o, "Sweep of %s from %s to %s, %d points%s\n\n", w->param, ls_eng(rp, b, sizeof b, w->x[0], xu),
-            ls_eng(rp, b + 32, 32, w->x[w->steps - 1], xu), w->steps, w->cli->log ? " (log spacing)" : "");
-    int width[MAX_QUANTITIES + 1];
-    width[0] = (int)strlen(w->param) > 12 ? (int)strlen(w->param) : 12;
-    fprintf(o, "  %*s", width[0], w->param);
-    for (int k = 0; k < w->nq; k++) {
-        width[k + 1] = (int)strlen(w->qtext[k]) > 12 ? (int)strlen(w->qtext[k]) : 12;
-        fprintf(o, "  %*s", width[k + 1], w->qtext[k]);
+    ls_wr wr;
+    ls_wr_begin(&wr, rp);
+    ls_wr_str(&wr, "let", w->param);
+    ls_wr_say(&wr, "Sweep of %s from %s to %s, %d points%s\n\n", w->param, ls_eng(rp, b, sizeof b, w->x[0], xu),
+              ls_eng(rp, b + 32, 32, w->x[w->steps - 1], xu), w->steps, w->cli->log ? " (log spacing)" : "");
+    ls_wr_col cols[MAX_QUANTITIES + 1];
+    for (int k = 0; k <= w->nq; k++) {
+        const char *name = k ? w->qtext[k - 1] : w->param;
+        int len = ls_width(name);
+        cols[k] = (ls_wr_col){name, name, name, true, len > 12 ? len : 12};
     }
-    fputc('\n', o);
+    static const ls_wr_style style = {.fixed = true};
+    ls_wr_table(&wr, "points", cols, w->nq + 1, &style);
     for (int i = 0; i < w->steps; i++) {
-        rpad(o, ls_eng(rp, b, sizeof b, w->x[i], xu), width[0]);
-        for (int k = 0; k < w->nq; k++)
-            rpad(o, w->solved[i] ? ls_eng(rp, b, sizeof b, yat(w, i, k), ls_unit_of(w->qdims[k], w->cli->ascii))
-                                 : "unsolved",
-                 width[k + 1]);
-        fputc('\n', o);
+        ls_wr_cell_num(&wr, w->x[i], ls_eng(rp, b, sizeof b, w->x[i], xu));
+        for (int k = 0; k < w->nq; k++) {
+            double v = yat(w, i, k);
+            const char *text = w->solved[i] ? ls_eng(rp, b, sizeof b, v, ls_unit_of(w->qdims[k], w->cli->ascii))
+                                            : "unsolved";
+            ls_wr_cell_why(&wr, v, !w->solved[i] ? LS_WHY_UNSOLVED : ls_jw_why_of(v), text);
+        }
+        ls_wr_row(&wr);
     }
+    ls_wr_table_end(&wr);
+    ls_wr_finish(&wr);
 }
 
 /* Draw the curves.  Returns 0, or LS_EXIT_USAGE after saying why. */
@@ -640,18 +602,12 @@ int ls_cmd_sweep(ls_cli *cli)
     if (code == LS_EXIT_OK && cli->plot)
         code = sweep_plot(&w);
     if (code == LS_EXIT_OK) {
-        FILE *o = ls_out_open(cli);
         ls_session s;   /* only for the report's meta */
         memset(&s, 0, sizeof s);
         s.cli = cli;
         s.input_path = cli->pos[0];
-        ls_report rp = ls_report_for(&s, o);
-        if (cli->fmt == FMT_JSON)
-            sweep_json(&rp, &w);
-        else if (cli->fmt == FMT_CSV)
-            sweep_csv(o, &w);
-        else
-            sweep_text(o, &rp, &w);
+        ls_report rp = ls_report_for(&s, ls_out_open(cli));
+        sweep_report(&rp, &w);
         code = ls_report_done(&rp, code);
     }
     code = ls_out_close(cli, code);
