@@ -148,8 +148,10 @@ void ls_wr_json_members(ls_wr *w, bool on)
  * objects).  An object's key becomes part of the names of the rows inside it. */
 static void push(ls_wr *w, const char *key, bool arr)
 {
-    if (w->depth >= LS_JW_DEPTH)   /* (the JSON writer's own limit) */
+    if (w->depth >= LS_JW_DEPTH) {   /* deeper than the JSON writer goes: counted only */
+        w->depth++;
         return;
+    }
     w->pat[w->depth] = w->plen;
     w->parr[w->depth++] = arr;
     if (arr || !key || !w->sep || !w->fields)
@@ -186,7 +188,9 @@ void ls_wr_arr(ls_wr *w, const char *key)
 void ls_wr_end(ls_wr *w)
 {
     bool arr = false;
-    if (w->depth > 0) {
+    if (w->depth > LS_JW_DEPTH) {
+        w->depth--;
+    } else if (w->depth > 0) {
         w->plen = w->pat[--w->depth];
         arr = w->parr[w->depth];
         if (w->path)
