@@ -6,6 +6,7 @@
 #include "elab/elab.h"
 #include "analysis/newton.h"
 #include "solve/selinv.h"
+#include "analysis/quantity.h"
 
 #include <assert.h>
 #include <float.h>
@@ -704,23 +705,61 @@ static double prop_value(ls_op *op, int part, ls_prop prop)
     return pr ? ls_port_value(pr, prop) : NAN;
 }
 
+/* The double domain of ls_q_walk: plain values, NaN for undefined. */
+static int d_const(void *ctx, const ls_q *q, void *out)
+{
+    (void)ctx;
+    *(double *)out = q->value;
+    return 0;
+}
+
+static int d_node(void *ctx, const ls_q *q, void *out)
+{
+    *(double *)out = ((ls_op *)ctx)->v[q->index];
+    return 0;
+}
+
+static int d_prop(void *ctx, const ls_q *q, void *out)
+{
+    *(double *)out = prop_value(ctx, q->index, q->prop);
+    return 0;
+}
+
+static int d_neg(void *ctx, const ls_q *q, void *a)
+{
+    (void)ctx, (void)q;
+    *(double *)a = -*(double *)a;
+    return 0;
+}
+
+static int d_binop(void *ctx, const ls_q *q, void *a, const void *b)
+{
+    (void)ctx;
+    *(double *)a = ls_apply_op(q->op, *(double *)a, *(const double *)b);
+    return 0;
+}
+
+static int d_call(void *ctx, const ls_q *q, void *const *args, void *out)
+{
+    (void)ctx;
+    double v[LS_Q_MAX_ARGS];
+    for (int i = 0; i < q->nargs; i++)
+        v[i] = *(const double *)args[i];
+    *(double *)out = ls_apply_func(q->op, v, q->nargs);
+    return 0;
+}
+
+static const ls_qdomain double_domain = {
+    .size = sizeof(double), .constant = d_const, .node = d_node, .prop = d_prop,
+    .neg = d_neg, .binop = d_binop, .call = d_call,
+};
+
 double ls_q_eval(ls_op *op, const ls_q *q)
 {
-    switch (q->kind) {
-    case Q_CONST: return q->value;
-    case Q_NODE: return op->v[q->index];
-    case Q_PROP: return prop_value(op, q->index, q->prop);
-    case Q_NEG: return -ls_q_eval(op, q->a);
-    case Q_BIN: return ls_apply_op(q->op, ls_q_eval(op, q->a), ls_q_eval(op, q->b));
-    case Q_CALL: {
-        double v[8];
-        for (int i = 0; i < q->nargs && i < 8; i++)
-            v[i] = ls_q_eval(op, q->args[i]);
-        return ls_apply_func(q->op, v, q->nargs);
-    }
-    }
-    assert(!"a bound quantity of no known kind");
-    return NAN;
+    double v = NAN;
+    if (ls_q_walk(&double_domain, op, q, &v) != 0)
+        return NAN;
+    return v;
 }
 
 /* Slack (same unit as limit) within which a comparison against `limit`

@@ -15,6 +15,7 @@
  * products against a work bound, so a circuit too large for a formula gets an
  * error instead of a long wait. */
 #include "analysis/formula.h"
+#include "analysis/quantity.h"
 
 #include <flint/fmpq.h>
 #include <flint/fmpz_vec.h>
@@ -52,6 +53,7 @@ typedef struct fx {
     const ls_program *prog;
     ls_diags *d;
     ls_loc qloc;             /* the quantity, for errors about it */
+    const char *qtext;       /* its text, for the same */
     const ls_formula_req *req;
     fmpq_mpoly_ctx_t ctx;
     bool ctx_ready;
@@ -1616,89 +1618,139 @@ static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
     return code;
 }
 
+/* ---- the exact domain of ls_q_walk: fractions of polynomials in the symbols ------------------- */
+/* Every operation returns LS_EXIT_OK, or an exit code after reporting why
+ * against the quantity's text (F->qtext). */
+
+static int rq_init(void *fv, void *v)
+{
+    rf_init(fv, v);
+    return LS_EXIT_OK;
+}
+
+static void rq_clear(void *fv, void *v)
+{
+    rf_clear(fv, v);
+}
+
+/* A function has no rational formula: said once, at the call. */
+static int rq_accepts(void *fv, const ls_q *q)
+{
+    fx *F = fv;
+    if (q->kind != Q_CALL)
+        return LS_EXIT_OK;
+    ls_error(F->d, F->qloc, "formula: '%s' uses a function (sqrt, abs, min, max, exp, ln, log10), "
+             "which has no rational formula", F->qtext);
+    return LS_EXIT_USAGE;
+}
+
+static int rq_const(void *fv, const ls_q *q, void *out)
+{
+    rf_set_double(fv, out, q->value);
+    return LS_EXIT_OK;
+}
+
+static int rq_node(void *fv, const ls_q *q, void *out)
+{
+    fx *F = fv;
+    lform l;
+    lform_init(F, &l);
+    if (!l.c) {
+        lform_clear(F, &l);   /* c0 was made even when c was not */
+        return LS_EXIT_UNSOLVABLE;
+    }
+    const char *why = NULL;
+    node_form(F, &l, q->index, 1);
+    int code = solve_in(F, -1, 0, &l, -1, out, &why);
+    if (why)
+        ls_error(F->d, F->qloc, "formula: '%s' has no formula: %s", F->qtext, why);
+    lform_clear(F, &l);
+    return code;
+}
+
+static int rq_prop(void *fv, const ls_q *q, void *out)
+{
+    fx *F = fv;
+    if (q->prop == PROP_VALUE) {
+        rf_set(F, out, &F->pval[q->index]);
+        return LS_EXIT_OK;
+    }
+    if (q->prop == PROP_CURRENT || q->prop == PROP_VOLTAGE || q->prop == PROP_POWER)
+        return part_prop(F, q->index, q->prop, out, F->qtext);
+    if (F->nl->parts[q->index].kind->is_port)
+        return port_prop(F, q->index, q->prop, out, F->qtext);
+    ls_error(F->d, F->qloc, "formula: '%s': formula does not treat the property '%s'", F->qtext,
+             ls_prop_name(q->prop));
+    return LS_EXIT_USAGE;
+}
+
+static int rq_neg(void *fv, const ls_q *q, void *a)
+{
+    (void)q;
+    rf_neg(fv, a, a);
+    return LS_EXIT_OK;
+}
+
+/* A whole constant power up to 16, so the result stays a fraction. */
+static bool rq_pow(fx *F, rf *a, const rf *b)
+{
+    double e = rf_eval_d(F, b);
+    return fmpq_mpoly_is_fmpq(b->n, F->ctx) && fmpq_mpoly_is_one(b->d, F->ctx) && e == floor(e) && fabs(e) <= 16 &&
+           rf_pow(F, a, a, (long)e);
+}
+
+static int rq_binop(void *fv, const ls_q *q, void *av, const void *bv)
+{
+    fx *F = fv;
+    rf *a = av;
+    const rf *b = bv;
+    bool ok = true;
+    switch (q->op) {
+    case LS_OP_ADD: rf_addsub(F, a, a, b, 1); break;
+    case LS_OP_SUB: rf_addsub(F, a, a, b, -1); break;
+    case LS_OP_MUL: rf_mul(F, a, a, b); break;
+    case LS_OP_DIV: ok = rf_div(F, a, a, b); break;
+    case LS_OP_PAR: {
+        rf s;
+        rf_init(F, &s);
+        rf_addsub(F, &s, a, b, 1);
+        rf_mul(F, a, a, b);
+        ok = rf_div(F, a, a, &s);
+        rf_clear(F, &s);
+        break;
+    }
+    case LS_OP_POW: ok = rq_pow(F, a, b); break;
+    default: ok = false; break;
+    }
+    if (!ok) {
+        ls_error(F->d, F->qloc, "formula: '%s' has no finite formula (a division by zero, or a "
+                 "power that is not a whole constant)", F->qtext);
+        return LS_EXIT_USAGE;
+    }
+    return F->too_big ? too_big_error(F, F->too_big_why) : LS_EXIT_OK;
+}
+
+/* Never reached: rq_accepts turns every call away. */
+static int rq_call(void *fv, const ls_q *q, void *const *args, void *out)
+{
+    (void)fv, (void)q, (void)args, (void)out;
+    assert(!"formula takes no function call");
+    return LS_EXIT_USAGE;
+}
+
+static const ls_qdomain exact_domain = {
+    .size = sizeof(rf), .init = rq_init, .clear = rq_clear, .accepts = rq_accepts,
+    .constant = rq_const, .node = rq_node, .prop = rq_prop,
+    .neg = rq_neg, .binop = rq_binop, .call = rq_call,
+};
+
+/* The exact formula of q into out (made by the caller).  LS_EXIT_OK, or an
+ * exit code after reporting why. */
 static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
 {
-    int code = LS_EXIT_OK;
-    switch (q->kind) {
-    case Q_CONST: rf_set_double(F, out, q->value); return LS_EXIT_OK;
-    case Q_NODE: {
-        lform l;
-        lform_init(F, &l);
-        if (!l.c) {
-            lform_clear(F, &l);   /* c0 was made even when c was not */
-            return LS_EXIT_UNSOLVABLE;
-        }
-        const char *why = NULL;
-        node_form(F, &l, q->index, 1);
-        code = solve_in(F, -1, 0, &l, -1, out, &why);
-        if (why)
-            ls_error(F->d, F->qloc, "formula: '%s' has no formula: %s", text, why);
-        lform_clear(F, &l);
-        return code;
-    }
-    case Q_PROP:
-        if (strcmp(ls_prop_name(q->prop), "value") == 0) {
-            rf_set(F, out, &F->pval[q->index]);
-            return LS_EXIT_OK;
-        }
-        if (q->prop == PROP_CURRENT || q->prop == PROP_VOLTAGE || q->prop == PROP_POWER)
-            return part_prop(F, q->index, q->prop, out, text);
-        if (F->nl->parts[q->index].kind->is_port)
-            return port_prop(F, q->index, q->prop, out, text);
-        ls_error(F->d, F->qloc, "formula: '%s': formula does not treat the property '%s'", text,
-                 ls_prop_name(q->prop));
-        return LS_EXIT_USAGE;
-    case Q_NEG:
-        code = q_rf(F, q->a, out, text);
-        rf_neg(F, out, out);
-        return code;
-    case Q_BIN: {
-        rf b;
-        rf_init(F, &b);
-        code = q_rf(F, q->a, out, text);
-        if (code == LS_EXIT_OK)
-            code = q_rf(F, q->b, &b, text);
-        if (code == LS_EXIT_OK) {
-            bool ok = true;
-            switch (q->op) {
-            case LS_OP_ADD: rf_addsub(F, out, out, &b, 1); break;
-            case LS_OP_SUB: rf_addsub(F, out, out, &b, -1); break;
-            case LS_OP_MUL: rf_mul(F, out, out, &b); break;
-            case LS_OP_DIV: ok = rf_div(F, out, out, &b); break;
-            case LS_OP_PAR: {
-                rf s;
-                rf_init(F, &s);
-                rf_addsub(F, &s, out, &b, 1);
-                rf_mul(F, out, out, &b);
-                ok = rf_div(F, out, out, &s);
-                rf_clear(F, &s);
-                break;
-            }
-            case LS_OP_POW: {
-                double e = rf_eval_d(F, &b);
-                ok = fmpq_mpoly_is_fmpq(b.n, F->ctx) && fmpq_mpoly_is_one(b.d, F->ctx) && e == floor(e) &&
-                     fabs(e) <= 16 && rf_pow(F, out, out, (long)e);
-                break;
-            }
-            default: ok = false; break;
-            }
-            if (!ok) {
-                ls_error(F->d, F->qloc, "formula: '%s' has no finite formula (a division by zero, or a "
-                         "power that is not a whole constant)", text);
-                code = LS_EXIT_USAGE;
-            }
-        }
-        rf_clear(F, &b);
-        if (code == LS_EXIT_OK && F->too_big)
-            code = too_big_error(F, F->too_big_why);
-        return code;
-    }
-    case Q_CALL:
-        ls_error(F->d, F->qloc, "formula: '%s' uses a function (sqrt, abs, min, max, exp, ln, log10), "
-                 "which has no rational formula", text);
-        return LS_EXIT_USAGE;
-    }
-    return LS_EXIT_USAGE;
+    F->qtext = text;
+    int code = ls_q_walk(&exact_domain, F, q, out);
+    return code < 0 ? LS_EXIT_UNSOLVABLE : code;
 }
 
 /* ---- --ideal: every finite gain to infinity --------------------------------------------------- */
@@ -2372,67 +2424,164 @@ static double node_current_scale(ls_op *op, int node)
     return s;
 }
 
-/* Is q (or a part of it) a port field the solver computes in a modified
- * system (a port opened): open, zout, zin, sag, sag_rel, ratio? */
-static bool uses_modified_system(const ls_q *q)
+/* ---- two questions about a quantity, as domains of ls_q_walk ---------------------------------- */
+
+/* The "modified system" domain: a value is a bool, whether the quantity so
+ * far reads a port field the solver computes in a modified system (a port
+ * opened): open, zout, zin, sag, sag_rel, ratio. */
+static int mod_leaf(void *ctx, const ls_q *q, void *out)
 {
-    switch (q->kind) {
-    case Q_PROP:
-        return q->prop == PROP_OPEN || q->prop == PROP_SAG || q->prop == PROP_SAG_REL || q->prop == PROP_ZOUT ||
-               q->prop == PROP_ZIN || q->prop == PROP_RATIO;
-    case Q_NEG: return uses_modified_system(q->a);
-    case Q_BIN: return uses_modified_system(q->a) || uses_modified_system(q->b);
-    case Q_CALL:
-        for (int i = 0; i < q->nargs; i++)
-            if (uses_modified_system(q->args[i]))
-                return true;
-        return false;
-    default: return false;
-    }
+    (void)ctx, (void)q;
+    *(bool *)out = false;
+    return 0;
 }
 
-/* The size of the numbers the solver combined to get q: |v| for a node,
- * sum |c_j x_j| for a part's current, |a| + |b| for a sum or difference.  A
- * difference of two nearly equal node voltages carries the rounding of the
- * node voltages, so it is judged against their size. */
+static int mod_prop(void *ctx, const ls_q *q, void *out)
+{
+    (void)ctx;
+    *(bool *)out = q->prop == PROP_OPEN || q->prop == PROP_SAG || q->prop == PROP_SAG_REL || q->prop == PROP_ZOUT ||
+                   q->prop == PROP_ZIN || q->prop == PROP_RATIO;
+    return 0;
+}
+
+static int mod_neg(void *ctx, const ls_q *q, void *a)
+{
+    (void)ctx, (void)q, (void)a;
+    return 0;
+}
+
+static int mod_binop(void *ctx, const ls_q *q, void *a, const void *b)
+{
+    (void)ctx, (void)q;
+    *(bool *)a = *(bool *)a || *(const bool *)b;
+    return 0;
+}
+
+static int mod_call(void *ctx, const ls_q *q, void *const *args, void *out)
+{
+    (void)ctx;
+    *(bool *)out = false;
+    for (int i = 0; i < q->nargs; i++)
+        *(bool *)out = *(bool *)out || *(const bool *)args[i];
+    return 0;
+}
+
+static const ls_qdomain modified_domain = {
+    .size = sizeof(bool), .constant = mod_leaf, .node = mod_leaf, .prop = mod_prop,
+    .neg = mod_neg, .binop = mod_binop, .call = mod_call,
+};
+
+/* Is q (or a part of it) a port field the solver computes in a modified
+ * system (a port opened)? */
+static bool uses_modified_system(const ls_q *q)
+{
+    bool any = false;
+    ls_q_walk(&modified_domain, NULL, q, &any);
+    return any;
+}
+
+/* The "magnitude" domain: a value is the quantity's value with the size of
+ * the numbers the solver combined to get it: |v| for a node, sum |c_j x_j|
+ * for a part's current, |a| + |b| for a sum or difference.  A difference of
+ * two nearly equal node voltages carries the rounding of the node voltages,
+ * so it is judged against their size. */
+typedef struct magn {
+    double mag, val;
+} magn;
+
+static int mag_const(void *ctx, const ls_q *q, void *out)
+{
+    (void)ctx;
+    *(magn *)out = (magn){fabs(q->value), q->value};
+    return 0;
+}
+
+static int mag_node(void *ctx, const ls_q *q, void *out)
+{
+    ls_op *op = ctx;
+    *(magn *)out = (magn){fabs(op->v[q->index]), op->v[q->index]};
+    return 0;
+}
+
+/* A part's or port's property: its current's terms, its ends' voltages,
+ * sag's open and loaded values. */
+static double prop_magnitude(ls_op *op, const ls_q *q, double val)
+{
+    const ls_part *p = &op->nl->parts[q->index];
+    if (q->prop == PROP_CURRENT || q->prop == PROP_POWER) {
+        ls_lin l;
+        ls_part_current(p, &op->run, &l, false);
+        double m = fabs(l.constant);
+        for (int i = 0; i < l.n; i++)
+            m += fabs(l.coef[i] * op->x[l.idx[i]]);
+        m = fmax(m, 1e-3 * node_current_scale(op, p->pin[0]));
+        if (q->prop == PROP_POWER)
+            m *= fabs(op->v[p->pin[0]]) + (p->kind->npins > 1 ? fabs(op->v[p->pin[1]]) : 0);
+        return fmax(m, fabs(val));
+    }
+    if (q->prop == PROP_VOLTAGE && p->kind->npins > 1)
+        return fabs(op->v[p->pin[0]]) + fabs(op->v[p->pin[1]]);
+    if (q->prop == PROP_SAG || q->prop == PROP_SAG_REL) {
+        const ls_port_result *pr = ls_op_port(op, q->index);
+        double m = pr ? fabs(pr->open) + fabs(pr->loaded) : 0;
+        return q->prop == PROP_SAG_REL && pr && pr->open != 0 ? m / fabs(pr->open) : m;
+    }
+    return fabs(val);
+}
+
+static int mag_prop(void *ctx, const ls_q *q, void *out)
+{
+    double val = ls_q_eval(ctx, q);
+    *(magn *)out = (magn){prop_magnitude(ctx, q, val), val};
+    return 0;
+}
+
+static int mag_neg(void *ctx, const ls_q *q, void *a)
+{
+    (void)ctx, (void)q;
+    ((magn *)a)->val = -((magn *)a)->val;
+    return 0;
+}
+
+static int mag_binop(void *ctx, const ls_q *q, void *av, const void *bv)
+{
+    (void)ctx;
+    magn *a = av;
+    const magn *b = bv;
+    double val = ls_apply_op(q->op, a->val, b->val);
+    switch (q->op) {
+    case LS_OP_ADD:
+    case LS_OP_SUB: a->mag = a->mag + b->mag; break;
+    case LS_OP_MUL: a->mag = a->mag * b->mag; break;
+    case LS_OP_DIV: a->mag = a->mag / fabs(b->val); break;
+    default: a->mag = fabs(val); break;
+    }
+    a->val = val;
+    return 0;
+}
+
+static int mag_call(void *ctx, const ls_q *q, void *const *args, void *out)
+{
+    (void)ctx;
+    double v[LS_Q_MAX_ARGS];
+    for (int i = 0; i < q->nargs; i++)
+        v[i] = ((const magn *)args[i])->val;
+    double val = ls_apply_func(q->op, v, q->nargs);
+    *(magn *)out = (magn){fabs(val), val};
+    return 0;
+}
+
+static const ls_qdomain magnitude_domain = {
+    .size = sizeof(magn), .constant = mag_const, .node = mag_node, .prop = mag_prop,
+    .neg = mag_neg, .binop = mag_binop, .call = mag_call,
+};
+
+/* The size of the numbers the solver combined to get q (magnitude_domain). */
 static double q_magnitude(ls_op *op, const ls_q *q)
 {
-    switch (q->kind) {
-    case Q_CONST: return fabs(q->value);
-    case Q_NODE: return fabs(op->v[q->index]);
-    case Q_NEG: return q_magnitude(op, q->a);
-    case Q_BIN:
-        switch (q->op) {
-        case LS_OP_ADD:
-        case LS_OP_SUB: return q_magnitude(op, q->a) + q_magnitude(op, q->b);
-        case LS_OP_MUL: return q_magnitude(op, q->a) * q_magnitude(op, q->b);
-        case LS_OP_DIV: return q_magnitude(op, q->a) / fabs(ls_q_eval(op, q->b));
-        default: return fabs(ls_q_eval(op, q));
-        }
-    case Q_PROP: {
-        const ls_part *p = &op->nl->parts[q->index];
-        if (q->prop == PROP_CURRENT || q->prop == PROP_POWER) {
-            ls_lin l;
-            ls_part_current(p, &op->run, &l, false);
-            double m = fabs(l.constant);
-            for (int i = 0; i < l.n; i++)
-                m += fabs(l.coef[i] * op->x[l.idx[i]]);
-            m = fmax(m, 1e-3 * node_current_scale(op, p->pin[0]));
-            if (q->prop == PROP_POWER)
-                m *= fabs(op->v[p->pin[0]]) + (p->kind->npins > 1 ? fabs(op->v[p->pin[1]]) : 0);
-            return fmax(m, fabs(ls_q_eval(op, q)));
-        }
-        if (q->prop == PROP_VOLTAGE && p->kind->npins > 1)
-            return fabs(op->v[p->pin[0]]) + fabs(op->v[p->pin[1]]);
-        if (q->prop == PROP_SAG || q->prop == PROP_SAG_REL) {
-            const ls_port_result *pr = ls_op_port(op, q->index);
-            double m = pr ? fabs(pr->open) + fabs(pr->loaded) : 0;
-            return q->prop == PROP_SAG_REL && pr && pr->open != 0 ? m / fabs(pr->open) : m;
-        }
-        return fabs(ls_q_eval(op, q));
-    }
-    default: return fabs(ls_q_eval(op, q));
-    }
+    magn m = {0, 0};
+    ls_q_walk(&magnitude_domain, op, q, &m);
+    return m.mag;
 }
 
 /* Relative difference of the formula's value and the solver's, against the
