@@ -148,7 +148,7 @@ void ls_widest_spread(const ls_netlist *nl, char *buf, size_t n)
     int lo = -1, hi = -1;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (strcmp(p->kind->name, "resistor") != 0)
+        if (!p->kind->is_resistance)
             continue;
         if (lo < 0 || p->value < nl->parts[lo].value)
             lo = i;
@@ -156,8 +156,9 @@ void ls_widest_spread(const ls_netlist *nl, char *buf, size_t n)
             hi = i;
     }
     if (lo >= 0 && hi != lo)
-        snprintf(buf, n, "; the widest spread of values is resistor '%s' (%.4g ohm) against '%s' (%.4g ohm)",
-                 nl->parts[lo].name, nl->parts[lo].value, nl->parts[hi].name, nl->parts[hi].value);
+        snprintf(buf, n, "; the widest spread of values is %s '%s' (%.4g ohm) against '%s' (%.4g ohm)",
+                 nl->parts[lo].kind->name, nl->parts[lo].name, nl->parts[lo].value, nl->parts[hi].name,
+                 nl->parts[hi].value);
     else
         buf[0] = 0;
 }
@@ -195,7 +196,7 @@ void ls_op_report_singular(ls_op *op, int col)
      * too wide a range for double precision: say so where they do */
     double lo = INFINITY, hi = 0;
     for (int i = 0; i < nl->nparts; i++)
-        if (strcmp(nl->parts[i].kind->name, "resistor") == 0) {
+        if (nl->parts[i].kind->is_resistance) {
             lo = fmin(lo, ls_run_value(&op->run, &nl->parts[i]));
             hi = fmax(hi, ls_run_value(&op->run, &nl->parts[i]));
         }

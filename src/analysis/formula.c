@@ -386,7 +386,6 @@ static int too_big_error(fx *F, const char *why)
 
 /* ---- which values are symbols ----------------------------------------------------------- */
 
-static bool kind_is(const ls_part *p, const char *name) { return strcmp(p->kind->name, name) == 0; }
 
 /* Is the part's stamp built exactly here (its kind's table entry says how,
  * ls_kind.exact)?  Others enter with their numeric stamps at the operating
@@ -1576,36 +1575,28 @@ static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
         lform_clear(F, &lv);
         return LS_EXIT_UNSOLVABLE;
     }
-    if (kind_is(p, "pot")) {
-        node_form(F, &lv, p->pin[0], 1);
-        node_form(F, &lv, p->pin[2], -1);
-    } else if (kind_is(p, "adc")) {
-        node_form(F, &lv, p->pin[0], 1);
-    } else if (p->kind->vsign == VSIGN_OUT) {
-        node_form(F, &lv, p->pin[2], 1);
-    } else {
-        int s = p->kind->vsign == VSIGN_RISE ? -1 : 1;
-        node_form(F, &lv, p->pin[0], s);
-        node_form(F, &lv, p->pin[1], -s);
-    }
+    int plus, minus;
+    ls_part_vnodes(p, &plus, &minus);
+    node_form(F, &lv, plus, 1);
+    node_form(F, &lv, minus, -1);
     part_lform(F, part, &lc, 0);
     int code;
     if (prop == PROP_CURRENT) {
         code = solve_in(F, -1, 0, &lc, -1, out, &why);
     } else if (prop == PROP_VOLTAGE) {
         code = solve_in(F, -1, 0, &lv, -1, out, &why);
-    } else if (kind_is(p, "pot")) {
-        why = "a pot's power is that of its whole track";
+    } else if (ls_part_power_sign(p) == 0) {
+        why = "its power is not its voltage times its current (a track's: both segments)";
         code = LS_EXIT_USAGE;
     } else {
-        /* power absorbed: the drop FROM -> TO times the current */
+        /* power absorbed: the voltage times the current, signed as the kind reads its voltage */
         rf i;
         rf_init(F, &i);
         code = solve_in(F, -1, 0, &lc, -1, &i, &why);
         if (code == LS_EXIT_OK)
             code = solve_in(F, -1, 0, &lv, -1, out, &why);
         if (code == LS_EXIT_OK) {
-            if (p->kind->vsign == VSIGN_RISE || p->kind->vsign == VSIGN_OUT)
+            if (ls_part_power_sign(p) < 0)
                 rf_neg(F, out, out);
             rf_mul(F, out, out, &i);
         }

@@ -47,10 +47,10 @@ static bool has_main(const ls_part *p)
     return p->has_value && !p->kind->is_port;
 }
 
-/* A cccs or a ccvs: its stamps read the current of its via= part. */
+/* Does the part's stamp read the current of its via= part (its kind's via_use)? */
 static bool reads_via(const ls_part *p)
 {
-    return p->ref >= 0 && (strcmp(p->kind->name, "cccs") == 0 || strcmp(p->kind->name, "ccvs") == 0);
+    return p->ref >= 0 && p->kind->via_use != LS_VIA_NONE;
 }
 
 /* Builds c->via_start / c->via_list (see ctx) by a counting sort over the
@@ -84,9 +84,9 @@ static bool index_via(ctx *c)
     return true;
 }
 
-/* The stamps of a cccs or ccvs read the current of their via= part, so they
- * change with that part's value too (a resistor's current is V/R): returns
- * lambda^T (db - dA x) of those stamps for d/d(value of part m). */
+/* The stamps of a part that reads its via= part's current change with that
+ * part's value too (a resistor's current is V/R), as its kind's via_use says:
+ * returns lambda^T (db - dA x) of those stamps for d/d(value of part m). */
 static double via_terms(ctx *c, int m, const double *lambda, const double *x)
 {
     if (!c->via_start || c->via_start[m] == c->via_start[m + 1])
@@ -99,8 +99,8 @@ static double via_terms(ctx *c, int m, const double *lambda, const double *x)
         return 0;
     for (int v = c->via_start[m]; v < c->via_start[m + 1]; v++) {
         const ls_part *p = &nl->parts[c->via_list[v]];
-        bool cccs = strcmp(p->kind->name, "cccs") == 0;
-        /* current lin: rows f, t get +-gain * coef (a cccs); row k gets -rm * coef (a ccvs) */
+        bool cccs = p->kind->via_use == LS_VIA_CURRENT;
+        /* current lin: rows f, t get +-gain * coef (LS_VIA_CURRENT); row k gets -rm * coef (LS_VIA_VOLTAGE) */
         int rows[2] = {cccs ? ls_node_unknown(p->pin[0]) : p->branch, cccs ? ls_node_unknown(p->pin[1]) : -1};
         double w[2] = {cccs ? ls_run_value(&c->op->run, p) : -ls_run_value(&c->op->run, p), cccs ? -ls_run_value(&c->op->run, p) : 0};
         for (int r = 0; r < 2; r++) {
@@ -367,7 +367,7 @@ static double explicit_current(ctx *c, int j, int m, int depth)
         ls_part_current(p, &c->op->run, &l, true);
         d += ls_lin_eval(&l, c->op->x);
     }
-    if (strcmp(p->kind->name, "cccs") == 0 && p->ref >= 0)
+    if (p->kind->via_use == LS_VIA_CURRENT && p->ref >= 0)   /* its current is VALUE x I(via) */
         d += ls_run_value(&c->op->run, p) * explicit_current(c, p->ref, m, depth + 1);
     return d;
 }
@@ -403,27 +403,22 @@ static bool leaf_current(ctx *c, int j, dual *out)
     return true;
 }
 
-/* The drop V(from) - V(to) of a part (for an op-amp: -V(out)). */
-static bool leaf_drop(ctx *c, int j, dual *out)
+/* A part's voltage as its kind reads it (ls_part_vnodes), with its gradient. */
+static bool leaf_voltage(ctx *c, int j, dual *out)
 {
     const ls_part *p = &c->op->nl->parts[j];
+    int plus, minus;
+    ls_part_vnodes(p, &plus, &minus);
     ls_lin l = {0};
-    if (p->kind->vsign == VSIGN_OUT) {
-        if (p->pin[2] > 0)
-            l = (ls_lin){.n = 1, .idx = {p->pin[2] - 1}, .coef = {-1}};
-        out->v = -c->op->v[p->pin[2]];
-    } else {
-        int a = p->pin[0] - 1, b = p->pin[1] - 1;
-        if (a >= 0) {
-            l.idx[l.n] = a;
-            l.coef[l.n++] = 1;
-        }
-        if (b >= 0) {
-            l.idx[l.n] = b;
-            l.coef[l.n++] = -1;
-        }
-        out->v = c->op->v[p->pin[0]] - c->op->v[p->pin[1]];
+    if (plus > 0) {
+        l.idx[l.n] = plus - 1;
+        l.coef[l.n++] = 1;
     }
+    if (minus > 0) {
+        l.idx[l.n] = minus - 1;
+        l.coef[l.n++] = -1;
+    }
+    out->v = c->op->v[plus] - c->op->v[minus];
     return linear_leaf(c, &l, out->g);
 }
 
@@ -551,22 +546,24 @@ static bool eval_prop(ctx *c, const ls_q *q, dual *out)
     case PROP_CURRENT:
         return leaf_current(c, q->index, out);
     case PROP_VOLTAGE:
-        if (!leaf_drop(c, q->index, out))
-            return false;
-        if (p->kind->vsign != VSIGN_DROP) {
-            out->v = -out->v;
-            for (int m = 0; m < c->np; m++)
-                out->g[m] = -out->g[m];
-        }
-        return true;
+        return leaf_voltage(c, q->index, out);
     case PROP_POWER: {
+        /* absorbed: the voltage times the current, signed as the kind reads its voltage */
+        int sign = ls_part_power_sign(p);
+        if (sign == 0) {
+            c->error = "this part's power is not its voltage times its current (a track's: both segments), so it "
+                       "has no derivative here; ask for the influence on its nodes or its current instead";
+            return false;
+        }
         dual i = {0};
         if (!alloc_dual(c, &i))
             return false;
-        bool ok = leaf_drop(c, q->index, out) && leaf_current(c, q->index, &i);
-        if (ok)
+        bool ok = leaf_voltage(c, q->index, out) && leaf_current(c, q->index, &i);
+        if (ok) {
+            out->v *= sign;
             for (int m = 0; m < c->np; m++)
-                out->g[m] = out->g[m] * i.v + out->v * i.g[m];
+                out->g[m] = sign * out->g[m] * i.v + out->v * i.g[m];
+        }
         out->v *= i.v;
         free(i.g);
         return ok;
