@@ -2075,29 +2075,21 @@ static bool vars_within(fx *F, const fmpq_mpoly_t a, const fmpq_mpoly_t b)
     return true;
 }
 
-/* The factored text of N/D, grouped the way a hand calculation writes it:
- * a * b / (a + b) as (a || b); a numerator factor over the denominator factor
- * it belongs to (r2 / (r1 + r2)); (rf + rg) / rg as (1 + rf / rg).  NULL when
- * factoring is not available. */
-static char *factored_text(fx *F, const rf *a)
+/* The groups of factored_text: the factors of a numerator and a
+ * denominator, each factor used at most once, joined into texts (group). */
+typedef struct grouping {
+    factored *fn, *fd;
+    group *g;              /* room for every factor of both */
+    int ng;
+    bool lost;             /* out of memory: a group's text is missing or cut short */
+} grouping;
+
+/* Parallel pairs: 1/(1/a + 1/b) as (a || b), a denominator a + b over the
+ * numerator's a and b. */
+static void parallel_groups(fx *F, grouping *G)
 {
-    factored fn, fd;
-    if (!factorize(F, a->n, &fn))
-        return NULL;
-    if (!factorize(F, a->d, &fd)) {
-        factored_clear(F, &fn);
-        return NULL;
-    }
-    fmpq_t k;
-    fmpq_init(k);
-    fmpq_div(k, fn.k, fd.k);
-    group *g = calloc((size_t)(fn.n + fd.n + 1), sizeof *g);
-    bool lost = !g;   /* out of memory: a factor's text is missing or cut short */
-    int ng = 0;
-    sbuf b = {0};
-    /* parallel pairs */
-    for (int i = 0; g && i < fd.n; i++) {
-        factor *d = &fd.f[i];
+    for (int i = 0; i < G->fd->n; i++) {
+        factor *d = &G->fd->f[i];
         if (d->e != 1 || fmpq_mpoly_length(d->p, F->ctx) != 2 || fmpq_mpoly_total_degree_si(d->p, F->ctx) != 1)
             continue;
         slong ex[2][LS_FORMULA_MAX_SYMBOLS + 2];
@@ -2119,15 +2111,15 @@ static char *factored_text(fx *F, const rf *a)
         if (!ones || va < 0 || vb < 0)
             continue;
         int ia = -1, ib = -1;
-        for (int j = 0; j < fn.n; j++) {
-            int v = fn.f[j].e > 0 ? single_var(F, fn.f[j].p) : -1;
+        for (int j = 0; j < G->fn->n; j++) {
+            int v = G->fn->f[j].e > 0 ? single_var(F, G->fn->f[j].p) : -1;
             if (v == va) ia = j;
             if (v == vb) ib = j;
         }
         if (ia < 0 || ib < 0)
             continue;
-        fn.f[ia].e--;
-        fn.f[ib].e--;
+        G->fn->f[ia].e--;
+        G->fn->f[ib].e--;
         d->used = true;
         sbuf t = {0};
         sb_put(&t, "(");
@@ -2135,17 +2127,21 @@ static char *factored_text(fx *F, const rf *a)
         sb_put(&t, " || ");
         sb_put(&t, F->sym[va < vb ? vb : va].name);
         sb_put(&t, ")");
-        lost |= t.failed;
-        g[ng++] = (group){t.s, va < vb ? va : vb};
+        G->lost |= t.failed;
+        G->g[G->ng++] = (group){t.s, va < vb ? va : vb};
     }
-    /* ratios: a denominator factor with the numerator factor that belongs to it */
-    for (int i = 0; g && i < fd.n; i++) {
-        factor *d = &fd.f[i];
+}
+
+/* Ratios: a denominator factor with the numerator factor that belongs to it. */
+static void ratio_groups(fx *F, grouping *G)
+{
+    for (int i = 0; i < G->fd->n; i++) {
+        factor *d = &G->fd->f[i];
         if (d->used || d->e != 1)
             continue;
         int dv = single_var(F, d->p);
-        for (int j = 0; j < fn.n; j++) {
-            factor *nf = &fn.f[j];
+        for (int j = 0; j < G->fn->n; j++) {
+            factor *nf = &G->fn->f[j];
             if (nf->e != 1 || nf->used)
                 continue;
             sbuf t = {0};
@@ -2173,22 +2169,26 @@ static char *factored_text(fx *F, const rf *a)
             }
             if (t.s) {
                 nf->used = d->used = true;
-                lost |= t.failed;
-                g[ng++] = (group){t.s, first_var(F, nf->p)};
+                G->lost |= t.failed;
+                G->g[G->ng++] = (group){t.s, first_var(F, nf->p)};
                 break;
             }
         }
     }
-    /* a denominator factor left over, over every numerator factor within its symbols:
-     * Black's A (rf + rg) / (A rg + rf + rg) stays one fraction */
-    for (int i = 0; g && i < fd.n; i++) {
-        factor *d = &fd.f[i];
+}
+
+/* A denominator factor left over, over every numerator factor within its
+ * symbols: Black's A (rf + rg) / (A rg + rf + rg) stays one fraction. */
+static void leftover_groups(fx *F, grouping *G)
+{
+    for (int i = 0; i < G->fd->n; i++) {
+        factor *d = &G->fd->f[i];
         if (d->used || d->e != 1 || single_var(F, d->p) >= 0)
             continue;
         sbuf t = {0};
         int key = F->nsym + 1, count = 0;
-        for (int j = 0; j < fn.n; j++) {
-            factor *nf = &fn.f[j];
+        for (int j = 0; j < G->fn->n; j++) {
+            factor *nf = &G->fn->f[j];
             if (nf->used || nf->e <= 0 || !vars_within(F, nf->p, d->p))
                 continue;
             sb_put(&t, count++ ? " * " : "");
@@ -2202,23 +2202,32 @@ static char *factored_text(fx *F, const rf *a)
         sb_put(&t, " / ");
         put_factor(F, &t, d);
         d->used = true;
-        lost |= t.failed;
-        g[ng++] = (group){t.s, key};
+        G->lost |= t.failed;
+        G->g[G->ng++] = (group){t.s, key};
     }
-    /* the rest of the numerator, one factor each */
-    for (int j = 0; g && j < fn.n; j++) {
-        if (fn.f[j].used || fn.f[j].e <= 0)
+}
+
+/* The rest of the numerator, one factor each. */
+static void rest_groups(fx *F, grouping *G)
+{
+    for (int j = 0; j < G->fn->n; j++) {
+        if (G->fn->f[j].used || G->fn->f[j].e <= 0)
             continue;
         sbuf t = {0};
-        put_factor(F, &t, &fn.f[j]);
-        lost |= t.failed;
-        g[ng++] = (group){t.s, first_var(F, fn.f[j].p)};
+        put_factor(F, &t, &G->fn->f[j]);
+        G->lost |= t.failed;
+        G->g[G->ng++] = (group){t.s, first_var(F, G->fn->f[j].p)};
     }
-    if (g)
-        qsort(g, (size_t)ng, sizeof *g, group_cmp);
+}
+
+/* The constant k in front: its sign, and a whole numerator unless it is 1
+ * before other groups (its denominator joins the division).  Returns
+ * whether anything was written. */
+static bool put_front_constant(sbuf *b, fmpq_t k, int ng)
+{
     bool any = false;
     if (fmpq_sgn(k) < 0)
-        sb_put(&b, "-");
+        sb_put(b, "-");
     fmpq_abs(k, k);
     if (!fmpq_is_one(k) || ng == 0) {
         fmpq_t kn;
@@ -2230,57 +2239,93 @@ static char *factored_text(fx *F, const rf *a)
                 fmpq_t w;
                 fmpq_init(w);
                 fmpz_set(fmpq_numref(w), fmpq_numref(k));
-                put_number(&b, w);
+                put_number(b, w);
                 fmpq_clear(w);
                 any = true;
             }
         }
         fmpq_clear(kn);
     }
-    for (int i = 0; g && i < ng; i++) {
-        if (any)
-            sb_put(&b, " * ");
-        sb_put(&b, g[i].text);
-        free(g[i].text);
-        any = true;
-    }
+    return any;
+}
+
+/* What is left of the denominator: k's and the unused factors, after " / ". */
+static void put_denominator(fx *F, sbuf *b, const fmpq_t k, const factored *fd)
+{
     /* what is left of the denominator */
     int left = 0;
-    for (int i = 0; i < fd.n; i++)
-        left += !fd.f[i].used;
+    for (int i = 0; i < fd->n; i++)
+        left += !fd->f[i].used;
     bool kden = !fmpz_is_one(fmpq_denref(k));
     if (left || kden) {
         int one = -1;
-        for (int i = 0; i < fd.n; i++)
-            if (!fd.f[i].used)
+        for (int i = 0; i < fd->n; i++)
+            if (!fd->f[i].used)
                 one = i;
         /* a single factor needs no parentheses unless it is a power of a product */
         bool paren = left + kden > 1 ||
-                     (left == 1 && !kden && fd.f[one].e > 1 && fmpq_mpoly_length(fd.f[one].p, F->ctx) == 1 &&
-                      fmpq_mpoly_total_degree_si(fd.f[one].p, F->ctx) > 1);
-        sb_put(&b, " / ");
-        sb_put(&b, paren ? "(" : "");
+                     (left == 1 && !kden && fd->f[one].e > 1 && fmpq_mpoly_length(fd->f[one].p, F->ctx) == 1 &&
+                      fmpq_mpoly_total_degree_si(fd->f[one].p, F->ctx) > 1);
+        sb_put(b, " / ");
+        sb_put(b, paren ? "(" : "");
         bool first = true;
         if (kden) {
             char *ds = fmpz_get_str(NULL, 10, fmpq_denref(k));
-            sb_put(&b, ds);
+            sb_put(b, ds);
             flint_free(ds);
             first = false;
         }
-        for (int i = 0; i < fd.n; i++) {
-            if (fd.f[i].used)
+        for (int i = 0; i < fd->n; i++) {
+            if (fd->f[i].used)
                 continue;
-            sb_put(&b, first ? "" : " * ");
-            put_factor(F, &b, &fd.f[i]);
+            sb_put(b, first ? "" : " * ");
+            put_factor(F, b, &fd->f[i]);
             first = false;
         }
-        sb_put(&b, paren ? ")" : "");
+        sb_put(b, paren ? ")" : "");
     }
-    free(g);
+}
+
+/* The factored text of N/D, grouped the way a hand calculation writes it:
+ * a * b / (a + b) as (a || b); a numerator factor over the denominator factor
+ * it belongs to (r2 / (r1 + r2)); (rf + rg) / rg as (1 + rf / rg).  NULL when
+ * factoring is not available. */
+static char *factored_text(fx *F, const rf *a)
+{
+    factored fn, fd;
+    if (!factorize(F, a->n, &fn))
+        return NULL;
+    if (!factorize(F, a->d, &fd)) {
+        factored_clear(F, &fn);
+        return NULL;
+    }
+    fmpq_t k;
+    fmpq_init(k);
+    fmpq_div(k, fn.k, fd.k);
+    grouping G = {.fn = &fn, .fd = &fd, .g = calloc((size_t)(fn.n + fd.n + 1), sizeof *G.g)};
+    G.lost = !G.g;
+    if (G.g) {
+        parallel_groups(F, &G);
+        ratio_groups(F, &G);
+        leftover_groups(F, &G);
+        rest_groups(F, &G);
+        qsort(G.g, (size_t)G.ng, sizeof *G.g, group_cmp);
+    }
+    sbuf b = {0};
+    bool any = put_front_constant(&b, k, G.ng);
+    for (int i = 0; G.g && i < G.ng; i++) {
+        if (any)
+            sb_put(&b, " * ");
+        sb_put(&b, G.g[i].text);
+        free(G.g[i].text);
+        any = true;
+    }
+    put_denominator(F, &b, k, &fd);
+    free(G.g);
     fmpq_clear(k);
     factored_clear(F, &fn);
     factored_clear(F, &fd);
-    if (lost || b.failed) { /* not "not available": the text would silently differ */
+    if (G.lost || b.failed) { /* not "not available": the text would silently differ */
         F->nomem = true;
         free(b.s);
         return NULL;
@@ -2760,35 +2805,14 @@ static void mark_exact_parts(fx *F)
     }
 }
 
-static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
+/* The self-check of formula a of q, at the file's numbers (the gains as
+ * given) against the solver: res->solve, finite_value, bound and difference.
+ * LS_EXIT_OK, or LS_EXIT_UNSOLVABLE after saying by how much they differ. */
+static int self_check(fx *F, const ls_q *q, rf *a, const char *text, ls_formula_result *res)
 {
-    int code = choose_symbols(F);
-    if (code != LS_EXIT_OK)
-        return code;
-    F->tie = F->nsym;
-    fmpq_mpoly_ctx_init(F->ctx, F->nsym + 1, ORD_DEGREVLEX);
-    F->ctx_ready = true;
-    F->pval = calloc((size_t)F->nl->nparts + 1, sizeof *F->pval);
-    F->pexact = calloc((size_t)F->nl->nparts + 1, sizeof *F->pexact);
-    if (!F->pval || !F->pexact)
-        return LS_EXIT_UNSOLVABLE;
-    for (int i = 0; i < F->nl->nparts; i++)
-        rf_init(F, &F->pval[i]);
-    symbol_values(F);
-    part_values(F);
-    mark_exact_parts(F);
-    rf a;
-    rf_init(F, &a);
-    code = q_rf(F, q, &a, text);
-    if (code == LS_EXIT_OK && F->too_big)
-        code = too_big_error(F, F->too_big_why);
-    if (code != LS_EXIT_OK) {
-        rf_clear(F, &a);
-        return code;
-    }
     /* the self-check, on the formula with the file's gains */
     res->solve = ls_q_eval(F->op, q);
-    res->finite_value = rf_eval_d(F, &a);
+    res->finite_value = rf_eval_d(F, a);
     double diff = rel_difference(F, q, res->finite_value, res->solve);
     /* The solver's own error grows with the condition of the system.  Where the
      * solve already warned that the system is ill-conditioned, a difference
@@ -2815,24 +2839,65 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
                  diff <= solver_bound ? "; the difference is within the solver's own error bound for this system "
                                         "(4 eps / rcond), so the solver's value is the likelier to be off"
                                       : "");
-        rf_clear(F, &a);
         return LS_EXIT_UNSOLVABLE;
     }
-    if (F->req->ideal) {
-        for (int v = 0; v < F->nsym; v++) {
-            if (!F->sym[v].gain || !depends_on(F, &a, v))
-                continue;
-            res->opamps_limited++;
-            if (!limit_inf(F, &a, v)) {
-                ls_error(F->d, F->qloc, "formula: '%s' grows without bound as the gain of %s goes to infinity; "
-                         "no ideal formula", text, F->sym[v].name);
-                rf_clear(F, &a);
-                return LS_EXIT_USAGE;
-            }
+    res->difference = diff;
+    return LS_EXIT_OK;
+}
+
+/* --ideal: every finite op-amp gain a depends on taken to infinity, in a.
+ * LS_EXIT_OK, or LS_EXIT_USAGE when a grows without bound. */
+static int ideal_limit(fx *F, rf *a, const char *text, ls_formula_result *res)
+{
+    for (int v = 0; v < F->nsym; v++) {
+        if (!F->sym[v].gain || !depends_on(F, a, v))
+            continue;
+        res->opamps_limited++;
+        if (!limit_inf(F, a, v)) {
+            ls_error(F->d, F->qloc, "formula: '%s' grows without bound as the gain of %s goes to infinity; "
+                     "no ideal formula", text, F->sym[v].name);
+            return LS_EXIT_USAGE;
         }
     }
+    return LS_EXIT_OK;
+}
+
+static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
+{
+    int code = choose_symbols(F);
+    if (code != LS_EXIT_OK)
+        return code;
+    F->tie = F->nsym;
+    fmpq_mpoly_ctx_init(F->ctx, F->nsym + 1, ORD_DEGREVLEX);
+    F->ctx_ready = true;
+    F->pval = calloc((size_t)F->nl->nparts + 1, sizeof *F->pval);
+    F->pexact = calloc((size_t)F->nl->nparts + 1, sizeof *F->pexact);
+    if (!F->pval || !F->pexact)
+        return LS_EXIT_UNSOLVABLE;
+    for (int i = 0; i < F->nl->nparts; i++)
+        rf_init(F, &F->pval[i]);
+    symbol_values(F);
+    part_values(F);
+    mark_exact_parts(F);
+    rf a;
+    rf_init(F, &a);
+    code = q_rf(F, q, &a, text);
+    if (code == LS_EXIT_OK && F->too_big)
+        code = too_big_error(F, F->too_big_why);
+    if (code != LS_EXIT_OK) {
+        rf_clear(F, &a);
+        return code;
+    }
+    code = self_check(F, q, &a, text, res);
+    if (code == LS_EXIT_OK && F->req->ideal)
+        code = ideal_limit(F, &a, text, res);
+    if (code != LS_EXIT_OK) {
+        rf_clear(F, &a);
+        return code;
+    }
     res->value = rf_eval_d(F, &a);
-    res->difference = F->req->ideal ? rel_difference(F, q, res->value, res->solve) : diff;
+    if (F->req->ideal)
+        res->difference = rel_difference(F, q, res->value, res->solve);
     code = list_symbols(F, &a, res) == 0 ? write_texts(F, &a, res) : LS_EXIT_UNSOLVABLE;
     rf_clear(F, &a);
     if (code == LS_EXIT_OK && F->too_big)
