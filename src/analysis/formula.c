@@ -1480,6 +1480,29 @@ static int held_solve(fx *F, int part, const lform *l, int unit, rf *out, const 
     return code;
 }
 
+/* zout (at the driver) or zin (at the load) of port part opened, through
+ * linear form l (empty, made by the caller): 0 at ground; unbounded (*why)
+ * for zin of a held load side.  LS_EXIT_OK, or an exit code. */
+static int port_z(fx *F, int part, ls_prop prop, bool held, lform *l, rf *out, const char **why)
+{
+    const ls_part *p = &F->nl->parts[part];
+    int dn = p->pin[0], ln = p->pin[1];
+    int node = prop == PROP_ZOUT ? dn : ln;
+    if (node <= 0) {
+        rf_set_si(F, out, 0);
+        return LS_EXIT_OK;
+    }
+    if (held && prop == PROP_ZIN) {
+        *why = "the load side has no DC path of its own with the port open (it is held at its loaded voltage), "
+               "so zin is unbounded";
+        return LS_EXIT_OK;
+    }
+    node_form(F, l, node, 1);
+    if (held)
+        return held_solve(F, part, l, ls_node_unknown(node), out, why);
+    return solve_in(F, part, prop == PROP_ZOUT ? ln : dn, l, ls_node_unknown(node), out, why);
+}
+
 /* The fields of a voltage-mode port (and zout, zin, open voltage of any). */
 static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
@@ -1511,25 +1534,9 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
         code = solve_in(F, part, ln, &l, -1, out, &why);
         break;
     case PROP_ZOUT:
-    case PROP_ZIN: {
-        int node = prop == PROP_ZOUT ? dn : ln;
-        if (node <= 0) {
-            rf_set_si(F, out, 0);
-            break;
-        }
-        if (held && prop == PROP_ZIN) {
-            why = "the load side has no DC path of its own with the port open (it is held at its loaded voltage), "
-                  "so zin is unbounded";
-            break;
-        }
-        node_form(F, &l, node, 1);
-        if (held) {
-            code = held_solve(F, part, &l, ls_node_unknown(node), out, &why);
-            break;
-        }
-        code = solve_in(F, part, prop == PROP_ZOUT ? ln : dn, &l, ls_node_unknown(node), out, &why);
+    case PROP_ZIN:
+        code = port_z(F, part, prop, held, &l, out, &why);
         break;
-    }
     case PROP_SAG:
     case PROP_SAG_REL:
         code = port_prop_voltage(F, part, PROP_OPEN, &a, text);
@@ -1816,6 +1823,41 @@ static void put_rounded(sbuf *b, const fmpq_t q)
     sb_put(b, buf);
 }
 
+/* num/den as a decimal with k digits after the point (den divides 10^k):
+ * "0.0047", "12.5", or "4.7e-9" past three leading zeros.  Caller frees;
+ * NULL when out of memory. */
+static char *decimal_text(const fmpz_t num, const fmpz_t den, int k)
+{
+    char *txt;
+    fmpz_t m;
+    fmpz_init(m);
+    fmpz_set_ui(m, 10);
+    fmpz_pow_ui(m, m, (ulong)k);
+    fmpz_divexact(m, m, den);
+    fmpz_mul(m, m, num);          /* value = m * 10^-k */
+    char *digits = fmpz_get_str(NULL, 10, m);
+    size_t nd = strlen(digits);
+    /* strip trailing zeros into the exponent */
+    while (nd > 1 && digits[nd - 1] == '0' && k > 0) {
+        digits[--nd] = 0;
+        k--;
+    }
+    txt = malloc(nd + 32);
+    if (txt && (size_t)k < nd) {
+        snprintf(txt, nd + 32, "%.*s.%s", (int)(nd - (size_t)k), digits, digits + nd - (size_t)k);
+    } else if (txt && k - (int)nd < 4) {
+        snprintf(txt, nd + 32, "0.%0*d%s", k - (int)nd, 0, digits);
+        if (k == (int)nd)
+            snprintf(txt, nd + 32, "0.%s", digits);
+    } else if (txt) {
+        snprintf(txt, nd + 32, "%c%s%s%se-%d", digits[0], nd > 1 ? "." : "", digits + 1, "",
+                 k - (int)nd + 1);
+    }
+    flint_free(digits);
+    fmpz_clear(m);
+    return txt;
+}
+
 static void put_number(sbuf *b, const fmpq_t q)
 {
     if (long_number(q)) {
@@ -1833,36 +1875,7 @@ static void put_number(sbuf *b, const fmpq_t q)
     int k2 = 0, k5 = 0;
     while (fmpz_divisible_si(r, 2)) { fmpz_divexact_si(r, r, 2); k2++; }
     while (fmpz_divisible_si(r, 5)) { fmpz_divexact_si(r, r, 5); k5++; }
-    char *txt = NULL;
-    if (fmpz_is_one(r) && !fmpz_is_one(den)) {
-        int k = k2 > k5 ? k2 : k5;
-        fmpz_t m;
-        fmpz_init(m);
-        fmpz_set_ui(m, 10);
-        fmpz_pow_ui(m, m, (ulong)k);
-        fmpz_divexact(m, m, den);
-        fmpz_mul(m, m, num);          /* value = m * 10^-k */
-        char *digits = fmpz_get_str(NULL, 10, m);
-        size_t nd = strlen(digits);
-        /* strip trailing zeros into the exponent */
-        while (nd > 1 && digits[nd - 1] == '0' && k > 0) {
-            digits[--nd] = 0;
-            k--;
-        }
-        txt = malloc(nd + 32);
-        if (txt && (size_t)k < nd) {
-            snprintf(txt, nd + 32, "%.*s.%s", (int)(nd - (size_t)k), digits, digits + nd - (size_t)k);
-        } else if (txt && k - (int)nd < 4) {
-            snprintf(txt, nd + 32, "0.%0*d%s", k - (int)nd, 0, digits);
-            if (k == (int)nd)
-                snprintf(txt, nd + 32, "0.%s", digits);
-        } else if (txt) {
-            snprintf(txt, nd + 32, "%c%s%s%se-%d", digits[0], nd > 1 ? "." : "", digits + 1, "",
-                     k - (int)nd + 1);
-        }
-        flint_free(digits);
-        fmpz_clear(m);
-    }
+    char *txt = fmpz_is_one(r) && !fmpz_is_one(den) ? decimal_text(num, den, k2 > k5 ? k2 : k5) : NULL;
     if (txt) {
         sb_put(b, txt);
         free(txt);
