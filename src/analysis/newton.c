@@ -453,7 +453,7 @@ static void report_noconv(ls_op *op, const bool *moving)
     bool opamps = false, heat = false;
     for (int i = 0; i < nl->nparts; i++) {
         opamps |= moving[i] && nl->parts[i].kind->is_opamp;
-        heat |= moving[i] && nl->parts[i].kind->self_heating;
+        heat |= moving[i] && nl->parts[i].kind->has_body_temp;
     }
     ls_error(nl->diags, at,
              "the circuit cannot be solved: the operating point did not converge in %d iterations (Newton, "

@@ -1152,7 +1152,7 @@ static const ls_kind kinds[] = {
               {"at", OPT_VALUE, LS_FREE, OPTF_FRACTION, -1, NULL}},
      .nopts = NCOMMON + 4, .npins = 3, .branches = no_branch, .stamp = pot_stamp, .current = pot_current,
      .edges = pot_edges, .results = pot_results},
-    {.name = "ntc", .has_run = true, .self_heating = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SENSOR, .doc = "ntc FROM -> TO r25=R beta=K [celsius=degC dissipation=W/K]",
+    {.name = "ntc", .has_run = true, .has_body_temp = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SENSOR, .doc = "ntc FROM -> TO r25=R beta=K [celsius=degC dissipation=W/K]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"r25", OPT_VALUE, LS_OHM, OPTF_MAIN | OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"beta", OPT_VALUE, LS_FREE, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},

@@ -168,7 +168,8 @@ typedef struct ls_kind {
                                     small-resistance reason of the error bounds */
     bool is_adc;                 /* reads its input node (pin 0) as a code (ls_op_adc): the
                                     readings, the range and source checks, the code property */
-    bool self_heating;           /* its iteration moves a body temperature: one that does not
+    bool has_body_temp;          /* a body temperature (a thermistor's): its resistance and
+                                    temperature properties; one that iterates and does not
                                     settle points at thermal runaway */
     ls_via_use via_use;          /* how its stamp reads the current of its via= part */
     ls_optdef opts[LS_MAX_OPTS];
