@@ -430,6 +430,8 @@ static void part_results(ls_op *op)
         op->ipart[i] = cur;
         op->vpart[i] = vv;
         op->ppart[i] = drop * cur;
+        if (p->kind->pin_power)
+            op->ppart[i] += p->kind->pin_power(p, &op->run, op->v, cur);
     }
 }
 

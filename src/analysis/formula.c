@@ -1593,7 +1593,8 @@ static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
     } else if (prop == PROP_VOLTAGE) {
         code = solve_in(F, -1, 0, &lv, -1, out, &why);
     } else if (ls_part_power_sign(p) == 0) {
-        why = "its power is not its voltage times its current (a track's: both segments)";
+        why = "its power is not its voltage times its current (a track's: both segments; an op-amp's: its "
+                  "inputs and supply rails too)";
         code = LS_EXIT_USAGE;
     } else {
         /* power absorbed: the voltage times the current, signed as the kind reads its voltage */

@@ -551,7 +551,8 @@ static bool eval_prop(ctx *c, const ls_q *q, dual *out)
         /* absorbed: the voltage times the current, signed as the kind reads its voltage */
         int sign = ls_part_power_sign(p);
         if (sign == 0) {
-            c->error = "this part's power is not its voltage times its current (a track's: both segments), so it "
+            c->error = "this part's power is not its voltage times its current (a track's: both segments; an "
+                       "op-amp's: its inputs and supply rails too), so it "
                        "has no derivative here; ask for the influence on its nodes or its current instead";
             return false;
         }

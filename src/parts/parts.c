@@ -469,6 +469,35 @@ static void opamp_supply(const ls_part *p, ls_stamp_ctx *c)
     }
 }
 
+/* Does current flow at the op-amp's inputs or rails (bias, rin, rails= on
+ * nodes)?  Then its power is not its output's alone. */
+static bool opamp_other_pins(const ls_part *p)
+{
+    if (ls_part_opt(p, "ib", 0) != 0 || ls_part_opt(p, "ios", 0) != 0 || ls_part_opt(p, "rin", 0) > 0)
+        return true;
+    return opamp_has(p, "rails") && (p->range[OA_RAILS][0].node > 0 || p->range[OA_RAILS][1].node > 0);
+}
+
+/* Power absorbed at the inputs and rails (W), the currents as opamp_supply
+ * and opamp_stamp draw them: the bias currents into the inputs, rin between
+ * them, the output current from the upper rail while sourcing (into the
+ * lower one while sinking) and iq from the upper rail to the lower one.  A
+ * rail given as a voltage, or ground, is outside the circuit: 0 V here. */
+static double opamp_pin_power(const ls_part *p, const ls_run *run, const double *v, double current)
+{
+    double sc = src_scale(p, run), ib = ls_part_opt(p, "ib", 0), ios = ls_part_opt(p, "ios", 0);
+    double rin = ls_part_opt(p, "rin", 0), vp = v[p->pin[0]], vm = v[p->pin[1]];
+    double w = (vp * (ib + ios / 2) + vm * (ib - ios / 2)) * sc;
+    if (rin > 0)
+        w += (vp - vm) * (vp - vm) / rin;
+    if (!opamp_has(p, "rails"))
+        return w;
+    int hi = p->range[OA_RAILS][1].node, lo = p->range[OA_RAILS][0].node;
+    double vhi = hi > 0 ? v[hi] : 0, vlo = lo > 0 ? v[lo] : 0;
+    w += (ls_run_state(run, p)->side ? vlo : vhi) * current;
+    return w + ls_part_opt(p, "iq", 0) * sc * (vhi - vlo);
+}
+
 /* Row k by the limit in force (see above); derivative: d/d gain when free. */
 static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
@@ -1110,7 +1139,8 @@ static const ls_kind kinds[] = {
               {"ios", OPT_VALUE, LS_AMP, 0, -1, NULL},
               {"iq", OPT_VALUE, LS_AMP, OPTF_NONNEG, -1, NULL}},
      .nopts = NCOMMON + 14, .npins = 3, .branches = one_branch, .stamp = opamp_stamp,
-     .current = current_branch, .edges = opamp_edges},
+     .current = current_branch, .edges = opamp_edges, .other_pins = opamp_other_pins,
+     .pin_power = opamp_pin_power},
     {.name = "diode", .has_run = true, .shape = SHAPE_TWO, .is_junction = true, .doc = "diode ANODE -> CATHODE [isat=A ideality=N rbulk=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"isat", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},

@@ -199,6 +199,13 @@ typedef struct ls_kind {
      * its branch column in the node rows, +1 or -1 (+1 for a part without a
      * branch).  Then |A^-1| w on the node rows is one solve. */
     int (*monotone)(const ls_part *p);
+    /* Parts with pins beyond the ones their voltage reads (an op-amp's inputs
+     * and supply rails; NULL otherwise): does current flow at them for this
+     * part, and the power absorbed there (W) given the node voltages v and
+     * the part's current, so that a part's power is its whole absorbed power
+     * and the parts' powers sum to zero. */
+    bool (*other_pins)(const ls_part *p);
+    double (*pin_power)(const ls_part *p, const ls_run *run, const double *v, double current);
 } ls_kind;
 
 const ls_kind *ls_kind_find(const char *name);
@@ -236,9 +243,12 @@ static inline void ls_part_vnodes(const ls_part *p, int *plus, int *minus)
 }
 
 /* The sign s with absorbed power = s x voltage x current (FROM -> TO) for a
- * part, or 0 when its power is not that product (a track's two segments). */
+ * part, or 0 when its power is not that product (a track's two segments, an
+ * op-amp drawing on its supply rails or inputs). */
 static inline int ls_part_power_sign(const ls_part *p)
 {
+    if (p->kind->other_pins && p->kind->other_pins(p))
+        return 0;
     switch (p->kind->vsign) {
     case VSIGN_DROP: case VSIGN_IN: return 1;
     case VSIGN_RISE: case VSIGN_OUT: return -1;
