@@ -113,13 +113,10 @@ int ls_selfcheck(ls_op *op)
         return -1;
     }
     /* Tellegen: the absorbed powers of all parts sum to zero.  A part's
-     * reported power is its whole power only for two-pin kinds (an op-amp's
-     * is its output stage's, not its input resistance's or its supply's), so
-     * the sum is taken over circuits made of those alone. */
+     * reported power is its whole power at every pin (an op-amp's counts its
+     * inputs and rails, the kind's pin_power), so the sum is over every part. */
     double total = 0, mag = 0;
-    bool all_two = true;
     for (int i = 0; i < nl->nparts; i++) {
-        all_two &= nl->parts[i].kind->shape == SHAPE_TWO && nl->parts[i].kind->npins == 2;
         if (isfinite(op->ppart[i])) {
             total += op->ppart[i];
             mag += fabs(op->ppart[i]);
@@ -129,7 +126,7 @@ int ls_selfcheck(ls_op *op)
      * tolerance, which no relative allowance on a near-zero total can hold:
      * Tellegen is checked on linear circuits only (KCL above covers both). */
     bool iterated = ls_newton_needed(nl);
-    if (all_two && !iterated && !(fabs(total) <= acc * mag + DBL_MIN)) {
+    if (!iterated && !(fabs(total) <= acc * mag + DBL_MIN)) {
         ls_error(nl->diags, LS_NOLOC,
                  "self-check: Tellegen's theorem fails: the parts' powers sum to %.3g W, against %.3g W in all and "
                  "an allowed %.3g W",

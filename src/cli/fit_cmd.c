@@ -141,7 +141,7 @@ static void search_members(ls_wr *w, const ls_fit_study *f)
     }
     if (f->have_yield) {
         ls_wr_int(w, "trials", f->yield_trials);
-        ls_wr_int(w, "seed", (long long)f->seed);
+        ls_wr_uint(w, "seed", (unsigned long long)f->seed);
     }
     ls_wr_end(w);
 }

@@ -469,6 +469,35 @@ static void opamp_supply(const ls_part *p, ls_stamp_ctx *c)
     }
 }
 
+/* Does current flow at the op-amp's inputs or rails (bias, rin, rails= on
+ * nodes)?  Then its power is not its output's alone. */
+static bool opamp_other_pins(const ls_part *p)
+{
+    if (ls_part_opt(p, "ib", 0) != 0 || ls_part_opt(p, "ios", 0) != 0 || ls_part_opt(p, "rin", 0) > 0)
+        return true;
+    return opamp_has(p, "rails") && (p->range[OA_RAILS][0].node > 0 || p->range[OA_RAILS][1].node > 0);
+}
+
+/* Power absorbed at the inputs and rails (W), the currents as opamp_supply
+ * and opamp_stamp draw them: the bias currents into the inputs, rin between
+ * them, the output current from the upper rail while sourcing (into the
+ * lower one while sinking) and iq from the upper rail to the lower one.  A
+ * rail given as a voltage, or ground, is outside the circuit: 0 V here. */
+static double opamp_pin_power(const ls_part *p, const ls_run *run, const double *v, double current)
+{
+    double sc = src_scale(p, run), ib = ls_part_opt(p, "ib", 0), ios = ls_part_opt(p, "ios", 0);
+    double rin = ls_part_opt(p, "rin", 0), vp = v[p->pin[0]], vm = v[p->pin[1]];
+    double w = (vp * (ib + ios / 2) + vm * (ib - ios / 2)) * sc;
+    if (rin > 0)
+        w += (vp - vm) * (vp - vm) / rin;
+    if (!opamp_has(p, "rails"))
+        return w;
+    int hi = p->range[OA_RAILS][1].node, lo = p->range[OA_RAILS][0].node;
+    double vhi = hi > 0 ? v[hi] : 0, vlo = lo > 0 ? v[lo] : 0;
+    w += (ls_run_state(run, p)->side ? vlo : vhi) * current;
+    return w + ls_part_opt(p, "iq", 0) * sc * (vhi - vlo);
+}
+
 /* Row k by the limit in force (see above); derivative: d/d gain when free. */
 static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
@@ -1042,7 +1071,7 @@ bool ls_testsink_update(const ls_part *p, ls_run *run, const double *x);
 #endif
 
 static const ls_kind kinds[] = {
-    {.name = "resistor", .exact = LS_EXACT_RESISTOR, .shape = SHAPE_TWO, .doc = "resistor FROM -> TO VALUE [rating=W vmax=V]",
+    {.name = "resistor", .exact = LS_EXACT_RESISTOR, .is_resistance = true, .shape = SHAPE_TWO, .doc = "resistor FROM -> TO VALUE [rating=W vmax=V]",
      .value_slot = true, .value_dims = LS_OHM, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE,
      .vsign = VSIGN_DROP, .opts = {COMMON_OPTS, {"snap", OPT_WORD, LS_FREE, 0, -1, "E6|E12|E24|E48|E96|E192"},
                                    {"vmax", OPT_VALUE, LS_VOLT, OPTF_POSITIVE, -1, NULL}},
@@ -1079,13 +1108,13 @@ static const ls_kind kinds[] = {
               {"cminus", OPT_NODE, LS_FREE, OPTF_REQUIRED, 3, NULL}},
      .nopts = NCOMMON + 3, .npins = 4, .branches = no_branch, .stamp = vccs_stamp,
      .current = vccs_current, .edges = no_edges},
-    {.name = "cccs", .exact = LS_EXACT_CCCS, .shape = SHAPE_TWO, .doc = "cccs FROM -> TO gain=G via=PART",
+    {.name = "cccs", .exact = LS_EXACT_CCCS, .via_use = LS_VIA_CURRENT, .shape = SHAPE_TWO, .doc = "cccs FROM -> TO gain=G via=PART",
      .value_slot = true, .value_dims = LS_FREE, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"gain", OPT_VALUE, LS_FREE, OPTF_MAIN | OPTF_REQUIRED, -1, NULL},
               {"via", OPT_PART, LS_FREE, OPTF_REQUIRED, -1, NULL}},
      .nopts = NCOMMON + 2, .npins = 2, .branches = no_branch, .stamp = cccs_stamp,
      .current = cccs_current, .edges = no_edges},
-    {.name = "ccvs", .exact = LS_EXACT_CCVS, .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "ccvs FROM -> TO rm=R via=PART",
+    {.name = "ccvs", .exact = LS_EXACT_CCVS, .via_use = LS_VIA_VOLTAGE, .shape = SHAPE_TWO, .removal = LS_REMOVE_SHORT, .doc = "ccvs FROM -> TO rm=R via=PART",
      .value_slot = true, .value_dims = LS_OHM, .vsign = VSIGN_RISE,
      .opts = {COMMON_OPTS, {"rm", OPT_VALUE, LS_OHM, OPTF_MAIN | OPTF_REQUIRED, -1, NULL},
               {"via", OPT_PART, LS_FREE, OPTF_REQUIRED, -1, NULL}},
@@ -1110,7 +1139,8 @@ static const ls_kind kinds[] = {
               {"ios", OPT_VALUE, LS_AMP, 0, -1, NULL},
               {"iq", OPT_VALUE, LS_AMP, OPTF_NONNEG, -1, NULL}},
      .nopts = NCOMMON + 14, .npins = 3, .branches = one_branch, .stamp = opamp_stamp,
-     .current = current_branch, .edges = opamp_edges},
+     .current = current_branch, .edges = opamp_edges, .other_pins = opamp_other_pins,
+     .pin_power = opamp_pin_power},
     {.name = "diode", .has_run = true, .shape = SHAPE_TWO, .is_junction = true, .doc = "diode ANODE -> CATHODE [isat=A ideality=N rbulk=R imax=A]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"isat", OPT_VALUE, LS_AMP, OPTF_POSITIVE, -1, NULL},
@@ -1145,14 +1175,14 @@ static const ls_kind kinds[] = {
      .is_nonlinear = always, .init = junction_init,
      .update = junction_update},
     {.name = "pot", .shape = SHAPE_PINNED, .stage_role = LS_ROLE_SENSOR, .doc = "pot NAME TOTAL a=A wiper=W b=B [at=0..1]",
-     .value_slot = true, .value_dims = LS_OHM, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE, .vsign = VSIGN_DROP,
+     .value_slot = true, .value_dims = LS_OHM, .value_flags = OPTF_REQUIRED | OPTF_POSITIVE, .vsign = VSIGN_ENDS,
      .opts = {COMMON_OPTS, {"a", OPT_NODE, LS_FREE, OPTF_REQUIRED, 0, NULL},
               {"wiper", OPT_NODE, LS_FREE, OPTF_REQUIRED, 1, NULL},
               {"b", OPT_NODE, LS_FREE, OPTF_REQUIRED, 2, NULL},
               {"at", OPT_VALUE, LS_FREE, OPTF_FRACTION, -1, NULL}},
      .nopts = NCOMMON + 4, .npins = 3, .branches = no_branch, .stamp = pot_stamp, .current = pot_current,
      .edges = pot_edges, .results = pot_results},
-    {.name = "ntc", .has_run = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SENSOR, .doc = "ntc FROM -> TO r25=R beta=K [celsius=degC dissipation=W/K]",
+    {.name = "ntc", .has_run = true, .has_body_temp = true, .shape = SHAPE_TWO, .stage_role = LS_ROLE_SENSOR, .doc = "ntc FROM -> TO r25=R beta=K [celsius=degC dissipation=W/K]",
      .vsign = VSIGN_DROP,
      .opts = {COMMON_OPTS, {"r25", OPT_VALUE, LS_OHM, OPTF_MAIN | OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"beta", OPT_VALUE, LS_FREE, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
@@ -1168,9 +1198,9 @@ static const ls_kind kinds[] = {
               {"roff", OPT_VALUE, LS_OHM, OPTF_POSITIVE, -1, NULL}},
      .nopts = NCOMMON + 3, .npins = 2, .branches = one_branch, .stamp = switch_stamp,
      .current = current_branch, .edges = switch_edges},
-    {.name = "adc", .exact = LS_EXACT_ADC, .has_run = true, .shape = SHAPE_PINNED, .stage_role = LS_ROLE_ADC,
+    {.name = "adc", .exact = LS_EXACT_ADC, .is_adc = true, .has_run = true, .shape = SHAPE_PINNED, .stage_role = LS_ROLE_ADC,
      .doc = "adc NAME in=NODE ref=V bits=N [rin=R leak=A max_source=R]",
-     .vsign = VSIGN_DROP,
+     .vsign = VSIGN_IN,
      .opts = {COMMON_OPTS, {"in", OPT_NODE, LS_FREE, OPTF_REQUIRED, 0, NULL},
               {"ref", OPT_VALUE, LS_VOLT, OPTF_POSITIVE | OPTF_REQUIRED, -1, NULL},
               {"bits", OPT_VALUE, LS_FREE, OPTF_POSITIVE | OPTF_REQUIRED | OPTF_INTEGER, -1, NULL},

@@ -1003,7 +1003,7 @@ static void failed_warnings(ls_wr *w)
         {.csv = "file"}, {.csv = "line"},  {.csv = "instance"},
         {.csv = "text"}, {.csv = "value"}, {.csv = "result"},
     };
-    static const ls_wr_style more = {.csv_continue = true};
+    static const ls_wr_style more = {.csv_more = true};
     const ls_diags *d = w->rp->diags;
     int k = 0;
     ls_wr_table(w, NULL, cols, (int)(sizeof cols / sizeof *cols), &more);

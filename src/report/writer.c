@@ -21,7 +21,8 @@ int ls_wr_finish(ls_wr *w)
 {
     free(w->rbuf);
     free(w->join);
-    w->rbuf = w->join = NULL;
+    free(w->path);
+    w->rbuf = w->join = w->path = NULL;
     if (w->ob) {
         ls_ob_flush(w->ob);
         free(w->ob);
@@ -105,13 +106,17 @@ static void csv_member(ls_wr *w, const char *key, const char *v, bool quote)
             ls_ob_putc(w->ob, ',');
         }
     }
-    if (w->depth && w->prelen[w->depth]) {
-        char f[512];
-        snprintf(f, sizeof f, "%.*s%s", (int)w->prelen[w->depth], w->pre, key);
-        ls_ob_csv_field(w->ob, f);
-    } else {
-        ls_ob_csv_field(w->ob, key);
+    if (w->plen && key) {   /* the open objects' keys, then its own */
+        size_t n = strlen(key) + 1;
+        size_t cap = room(&w->path, &w->pcap, w->plen + n);
+        if (cap) {
+            csv_lost(w, "a field name of the CSV report", cap);
+            return;
+        }
+        memcpy(w->path + w->plen, key, n);
+        key = w->path;
     }
+    ls_ob_csv_field(w->ob, key);
     ls_ob_putc(w->ob, ',');
     if (quote)
         ls_ob_csv_field(w->ob, v);
@@ -149,6 +154,8 @@ void ls_wr_fields_keyed(ls_wr *w, const char *k1, const char *k2, const char *fi
     if (w->rp->fmt != FMT_CSV)
         return;
     w->keyed = true;
+    if (!w->sep)
+        w->sep = ".";
     fields_head(w, 4, (const char *const[]){k1, k2, field, value});
 }
 
@@ -161,6 +168,11 @@ void ls_wr_keys(ls_wr *w, const char *k1, const char *k2)
 void ls_wr_route(ls_wr *w, unsigned to)
 {
     w->to = to;
+}
+
+void ls_wr_field_sep(ls_wr *w, const char *sep)
+{
+    w->sep = sep;
 }
 
 void ls_wr_compact(ls_wr *w, bool on)
@@ -182,19 +194,31 @@ void ls_wr_csv_rows(ls_wr *w, bool on)
 
 /* What a container did, kept per depth so that ls_wr_end undoes it whatever
  * the route is by then. */
-enum { OPEN_JSON = 1, OPEN_PREFIX = 4, OPEN_JOIN = 8 };
+enum { OPEN_JSON = 1, OPEN_JOIN = 2 };
 
-/* Push the record of a container (prefix: the CSV field prefix it adds). */
-static void push_open(ls_wr *w, unsigned rec, const char *prefix)
+/* Push the record of a container.  An object's key (name: NULL for an
+ * array or a nameless object) becomes part of the names of the CSV field
+ * rows inside it when the report names its rows by path (sep) and the
+ * members go to CSV rows. */
+static void push(ls_wr *w, unsigned rec, const char *name)
 {
-    assert(w->depth < LS_WR_DEPTH);
-    size_t at = w->prelen[w->depth];
-    w->open[w->depth++] = (unsigned char)rec;
-    w->prelen[w->depth] = at;
-    if (rec & OPEN_PREFIX) {
-        int n = snprintf(w->pre + at, sizeof w->pre - at, "%s.", prefix);
-        w->prelen[w->depth] = n > 0 && at + (size_t)n < sizeof w->pre ? at + (size_t)n : at;
+    if (w->depth >= LS_WR_DEPTH) {   /* deeper than the JSON writer goes: counted only */
+        w->depth++;
+        return;
     }
+    w->pat[w->depth] = w->plen;
+    w->open[w->depth++] = (unsigned char)rec;
+    if (!name || !w->sep || !w->fields || !(w->to & LS_WR_CSV))
+        return;
+    size_t k = strlen(name), s = strlen(w->sep);
+    size_t cap = room(&w->path, &w->pcap, w->plen + k + s + 1);
+    if (cap) {
+        csv_lost(w, "a field name of the CSV report", cap);
+        return;
+    }
+    memcpy(w->path + w->plen, name, k);
+    memcpy(w->path + w->plen + k, w->sep, s + 1);
+    w->plen += k + s;
 }
 
 void ls_wr_obj(ls_wr *w, const char *key)
@@ -203,10 +227,8 @@ void ls_wr_obj(ls_wr *w, const char *key)
     if (json(w)) {
         ls_jw_obj(&w->jw, key);
         rec = OPEN_JSON;
-    } else if (csv_row_on(w) && w->keyed && key) {
-        rec = OPEN_PREFIX;
     }
-    push_open(w, rec, key);
+    push(w, rec, key);
 }
 
 void ls_wr_arr(ls_wr *w, const char *key)
@@ -220,13 +242,22 @@ void ls_wr_arr(ls_wr *w, const char *key)
         w->jlen = 0;
         rec = OPEN_JOIN;
     }
-    push_open(w, rec, NULL);
+    push(w, rec, NULL);
 }
 
 void ls_wr_end(ls_wr *w)
 {
     assert(w->depth > 0);
-    unsigned rec = w->open[--w->depth];
+    unsigned rec = 0;
+    if (w->depth > LS_WR_DEPTH) {
+        w->depth--;
+        rec = json(w) ? OPEN_JSON : 0;
+    } else if (w->depth > 0) {
+        rec = w->open[--w->depth];
+        w->plen = w->pat[w->depth];
+        if (w->path)
+            w->path[w->plen] = 0;
+    }
     if (rec & OPEN_JSON) {
         ls_jw_end(&w->jw);
     } else if ((rec & OPEN_JOIN) && w->arr_key) {
@@ -244,6 +275,14 @@ void ls_wr_num(ls_wr *w, const char *key, double v)
         csv_member(w, key, LS_CSV(v), false);
 }
 
+void ls_wr_num_why(ls_wr *w, const char *key, double v, const char *why)
+{
+    if (json(w))
+        ls_jw_num_why(&w->jw, key, v, why);
+    else if (csv_row_on(w))
+        csv_member(w, key, LS_CSV(v), false);
+}
+
 void ls_wr_int(ls_wr *w, const char *key, long long v)
 {
     char b[32];
@@ -251,6 +290,17 @@ void ls_wr_int(ls_wr *w, const char *key, long long v)
         ls_jw_int(&w->jw, key, v);
     } else if (csv_row_on(w)) {
         snprintf(b, sizeof b, "%lld", v);
+        csv_member(w, key, b, false);
+    }
+}
+
+void ls_wr_uint(ls_wr *w, const char *key, unsigned long long v)
+{
+    char b[32];
+    if (json(w)) {
+        ls_jw_uint(&w->jw, key, v);
+    } else if (csv_row_on(w)) {
+        snprintf(b, sizeof b, "%llu", v);
         csv_member(w, key, b, false);
     }
 }
@@ -275,14 +325,6 @@ void ls_wr_null(ls_wr *w, const char *key, const char *why)
 {
     if (json(w))
         ls_jw_null(&w->jw, key, why);
-}
-
-void ls_wr_num_why(ls_wr *w, const char *key, double v, const char *why)
-{
-    if (json(w))
-        ls_jw_num_why(&w->jw, key, v, why);
-    else if (csv_row_on(w))
-        csv_member(w, key, LS_CSV(v), false);
 }
 
 void ls_wr_say(ls_wr *w, const char *fmt, ...)
@@ -354,6 +396,8 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
         w->tcsv |= cols[c].csv != NULL;
         w->ttext |= cols[c].head != NULL;
     }
+    w->tjson &= json(w);   /* (the members' route at the table's opening holds for it) */
+    w->ttext &= !style->hide_text;
     switch (w->rp->fmt) {
     case FMT_JSON:
         if (w->tjson)
@@ -361,7 +405,7 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
         break;
     case FMT_CSV:
         if (w->tcsv)
-            csv_table_open(w, !style->csv_continue);
+            csv_table_open(w, !style->csv_more);
         break;
     case FMT_TEXT:
         if (w->ttext)
@@ -402,7 +446,7 @@ static void text_cell(ls_wr *w, const char *s)
  * object), or NULL when the row is full. */
 static const ls_wr_col *next_col(ls_wr *w)
 {
-    if (w->cell == 0 && w->ncol && fmt_json(w) && w->tjson)
+    if (w->cell == 0 && w->ncol && w->tjson)
         ls_jw_obj(&w->jw, NULL);
     return w->cell < w->ncol ? &w->cols[w->cell] : NULL;
 }
@@ -410,16 +454,21 @@ static const ls_wr_col *next_col(ls_wr *w)
 /* Is the text report showing column c? */
 static bool text_col(const ls_wr *w, const ls_wr_col *c)
 {
-    return w->rp->fmt == FMT_TEXT && c->head;
+    return w->rp->fmt == FMT_TEXT && w->ttext && c->head;
 }
 
 void ls_wr_cell_num(ls_wr *w, double v, const char *text)
 {
+    ls_wr_cell_why(w, v, ls_jw_why_of(v), text);
+}
+
+void ls_wr_cell_why(ls_wr *w, double v, const char *why, const char *text)
+{
     const ls_wr_col *c = next_col(w);
     if (!c)
         return;
-    if (fmt_json(w) && c->json)
-        ls_jw_num(&w->jw, c->json, v);
+    if (w->tjson && c->json)
+        ls_jw_num_why(&w->jw, c->json, v, why);
     if (csv_cell(w, c))
         ls_ob_csv_number(w->ob, v);
     if (text_col(w, c)) {
@@ -434,7 +483,7 @@ void ls_wr_cell_eng(ls_wr *w, double v, const char *unit, const char *mark)
     const ls_wr_col *c = next_col(w);
     if (!c)
         return;
-    if (fmt_json(w) && c->json)
+    if (w->tjson && c->json)
         ls_jw_num(&w->jw, c->json, v);
     if (csv_cell(w, c))
         ls_ob_csv_number(w->ob, v);
@@ -458,7 +507,7 @@ void ls_wr_cell_int(ls_wr *w, long long v)
         return;
     char b[32];
     snprintf(b, sizeof b, "%lld", v);
-    if (fmt_json(w) && c->json)
+    if (w->tjson && c->json)
         ls_jw_int(&w->jw, c->json, v);
     if (csv_cell(w, c))
         ls_ob_puts(w->ob, b);
@@ -472,7 +521,7 @@ void ls_wr_cell_str(ls_wr *w, const char *s)
     const ls_wr_col *c = next_col(w);
     if (!c)
         return;
-    if (fmt_json(w) && c->json)
+    if (w->tjson && c->json)
         ls_jw_str(&w->jw, c->json, s);
     if (csv_cell(w, c))
         ls_ob_csv_field(w->ob, s ? s : "");
@@ -486,7 +535,7 @@ void ls_wr_cell_null(ls_wr *w, const char *why)
     const ls_wr_col *c = next_col(w);
     if (!c)
         return;
-    if (fmt_json(w) && c->json)
+    if (w->tjson && c->json)
         ls_jw_null(&w->jw, c->json, why);
     csv_cell(w, c);
     if (text_col(w, c))
@@ -499,7 +548,7 @@ void ls_wr_cell_bool(ls_wr *w, bool v, const char *text)
     const ls_wr_col *c = next_col(w);
     if (!c)
         return;
-    if (fmt_json(w) && c->json)
+    if (w->tjson && c->json)
         ls_jw_bool(&w->jw, c->json, v);
     if (csv_cell(w, c))
         ls_ob_puts(w->ob, v ? "true" : "false");

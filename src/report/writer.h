@@ -13,11 +13,14 @@
  *             ls_wr_csv_rows is on are rows too (an array of strings one row,
  *             its items joined by spaces).  A report whose rows carry two
  *             keys first (SECTION,NAME,FIELD,VALUE) opens with
- *             ls_wr_fields_keyed and sets the keys with ls_wr_keys; there
- *             the members of a named object are fields "OBJECT.MEMBER".
- *   routing   ls_wr_route: which backends the members go to from here (the
- *             JSON tree, the CSV field rows, or both: where two formats
- *             order or name a thing differently, each gets its own call).
+ *             ls_wr_fields_keyed and sets the keys with ls_wr_keys.  With
+ *             ls_wr_field_sep (a keyed report: "."), a row is named by the
+ *             keys of the open objects and its own, joined
+ *             ("monte_carlo.mean", "fix.kind").
+ *   routing   ls_wr_route: which backends the members and tables go to from
+ *             here (the JSON tree, the CSV field rows, or both: where two
+ *             formats order or name a thing differently, each gets its own
+ *             call).
  *   prose     ls_wr_say: a line of the text report only.
  *   a table   ls_wr_table, then per row ls_wr_cell_* and ls_wr_row, then
  *             ls_wr_table_end: in JSON an array of objects (one member per
@@ -40,7 +43,8 @@
 #include "report/report.h"
 #include "report/textbuf.h"
 
-#define LS_WR_MAXCOL 72   /* fit's CSV: seven columns and one per free part (at most 64) */
+#define LS_WR_MAXCOL 72   /* fit's CSV: seven columns and one per free part (at most 64);
+                             the text shows at most LS_TABLE_MAXCOL of them */
 
 /* One column of a table. */
 typedef struct ls_wr_col {
@@ -56,13 +60,15 @@ typedef struct ls_wr_style {
     const char *lead, *gap;  /* before each line, between columns; NULL: two spaces */
     bool fixed;              /* each column exactly its width (ls_table.fixed) */
     bool skip_empty;         /* no heading either when the table has no row */
-    bool csv_continue;       /* CSV: the rows continue the table before (no heading) */
+    bool hide_text;          /* not in the text report (its lines say the matter otherwise) */
+    bool csv_more;           /* CSV: the rows go on under the previous table's heading
+                                (the same csv columns), with no heading of their own */
 } ls_wr_style;
 
 /* Where members go (ls_wr_route). */
 enum { LS_WR_JSON = 1u, LS_WR_CSV = 2u, LS_WR_ALL = 3u };
 
-#define LS_WR_DEPTH 16
+#define LS_WR_DEPTH LS_JW_DEPTH
 
 typedef struct ls_wr {
     ls_report *rp;
@@ -82,13 +88,15 @@ typedef struct ls_wr {
     char *join;              /* its items, space-separated (malloc'd) */
     size_t jlen, jcap;
     unsigned to;             /* where members go (LS_WR_JSON | LS_WR_CSV) */
-    bool tjson, tcsv, ttext; /* the open table has a JSON, a CSV, a text column */
+    bool tjson, tcsv, ttext; /* the open table is in the JSON, the CSV, the text */
     bool keyed;              /* field rows start with two keys (ls_wr_fields_keyed) */
     const char *key[2];      /* the keys of the next field rows */
+    const char *sep;         /* joins the keys of a row's name, or NULL (ls_wr_field_sep) */
+    char *path;              /* the open objects' keys, each followed by sep (malloc'd) */
+    size_t plen, pcap;
     int depth;               /* containers open through the writer */
-    unsigned char open[LS_WR_DEPTH];  /* per depth: LS_WR_JSON when JSON opened it, | 4 when it prefixes CSV fields */
-    char pre[256];           /* the CSV field prefix ("fix."), keyed reports */
-    size_t prelen[LS_WR_DEPTH + 1];
+    unsigned char open[LS_WR_DEPTH];  /* per depth: what opening it did (JSON, a joined CSV list) */
+    size_t pat[LS_WR_DEPTH]; /* per depth: plen when it was opened */
     int wrap;                /* the JSON wrap before ls_wr_compact */
 } ls_wr;
 
@@ -104,6 +112,8 @@ void ls_wr_arr(ls_wr *w, const char *key);
 void ls_wr_end(ls_wr *w);
 void ls_wr_num(ls_wr *w, const char *key, double v);
 void ls_wr_int(ls_wr *w, const char *key, long long v);
+/* An unsigned integer member: JSON and CSV write all 64 bits (a seed). */
+void ls_wr_uint(ls_wr *w, const char *key, unsigned long long v);
 void ls_wr_bool(ls_wr *w, const char *key, bool v);
 void ls_wr_str(ls_wr *w, const char *key, const char *s);
 void ls_wr_null(ls_wr *w, const char *key, const char *why);
@@ -121,12 +131,17 @@ void ls_wr_csv_rows(ls_wr *w, bool on);
  * given to ls_wr_keys (they must stay valid until the next call). */
 void ls_wr_fields_keyed(ls_wr *w, const char *k1, const char *k2, const char *field, const char *value);
 void ls_wr_keys(ls_wr *w, const char *k1, const char *k2);
-/* Send the members (and containers) written from now on to the backends in
- * `to` (LS_WR_JSON, LS_WR_CSV, LS_WR_ALL, the default); a container ends
- * where it was opened whatever the route is then. */
+/* Send the members, containers and tables written from now on to the
+ * backends in `to` (LS_WR_JSON, LS_WR_CSV, LS_WR_ALL, the default); a
+ * container or table ends where it was opened whatever the route is then. */
 void ls_wr_route(ls_wr *w, unsigned to);
 /* JSON: while on, the containers opened are written on one line. */
 void ls_wr_compact(ls_wr *w, bool on);
+
+/* CSV field rows are named by the keys of the objects open (opened while the
+ * route has CSV) and the member's, joined by sep (a static string; NULL: the
+ * member's key alone). */
+void ls_wr_field_sep(ls_wr *w, const char *sep);
 
 /* A line of the text report (printf format; the newline is the caller's). */
 void ls_wr_say(ls_wr *w, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
@@ -137,6 +152,8 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
 /* The next cell: a number with the text it shows as (NULL: the engineering
  * notation of rp, no unit). */
 void ls_wr_cell_num(ls_wr *w, double v, const char *text);
+/* ... with the reason of its JSON null when v is not finite. */
+void ls_wr_cell_why(ls_wr *w, double v, const char *why, const char *text);
 void ls_wr_cell_int(ls_wr *w, long long v);
 void ls_wr_cell_str(ls_wr *w, const char *s);
 /* A number whose text is its engineering notation (ls_eng) with `unit`,

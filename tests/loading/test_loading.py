@@ -196,6 +196,70 @@ def test_sens_divider(b, tmp):
         near("zero quantity: dV/dVs", it["vs"]["per_unit"], 0.5, source="divider ratio Rb/(Rt+Rb)")
 
 
+def test_sens_pot(b, tmp):
+    # A pot's voltage is V(a) - V(b) across its whole track (docs/parts-real.md),
+    # here V(a) with b grounded: Va = Vs*Rd/(R1+Rd), Rd = at*T + ((1-at)*T || RL)
+    # (series and parallel resistances); its derivatives by sympy's diff of
+    # that closed form.
+    import sympy
+    vs, r1, t, rl, at = sympy.symbols("vs r1 t rl at", positive=True)
+    seg2 = (1 - at) * t
+    rd = at * t + seg2 * rl / (seg2 + rl)
+    va = vs * rd / (r1 + rd)
+    vals = {vs: 5, r1: 1000, t: 10000, rl: 20000, at: sympy.Rational(3, 10)}
+    f = write(tmp, "spot.stack", 'title "p"\nground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> a 1k\n'
+              "pot trim 10k a=a wiper=w b=gnd at=0.3\nresistor rl w -> gnd 20k\n")
+    d = js(b, ["influence", f, "trim.voltage"])
+    if d:
+        near("pot voltage", d["value"], float(va.subs(vals)), source="series-parallel divider, V(a) - V(b)")
+        it = {x["part"]: x for x in d["items"]}
+        for name, sym in (("vs", vs), ("r1", r1), ("trim", t), ("rl", rl)):
+            near("d pot.voltage/d %s" % name, it[name]["per_unit"], float(sympy.diff(va, sym).subs(vals)),
+                 rtol=1e-8, source="sympy diff of the divider's closed form")
+    # a track's power is its two segments', no product of voltage and current:
+    # no derivative is made up for it
+    _, err = run(b, ["influence", f, "trim.power"], want_rc=2)
+    truth("influence on a pot's power says why it has none", "not its voltage times its current" in err, "cli spec")
+    _, err = run(b, ["formula", f, "trim.power"], want_rc=2)
+    truth("formula on a pot's power says why it has none", "not its voltage times its current" in err, "cli spec")
+
+
+def test_opamp_power(b, tmp):
+    # An op-amp's power is what it absorbs at every pin (language spec: a part's
+    # power is the power it absorbs): with rails= on nodes the output current
+    # comes from the upper rail, iq flows from rail to rail and the bias
+    # currents into the inputs, so its power is (Vcc - Vout)*Iout + iq*Vcc +
+    # ib*(V+ + V-) (Ohm's law and KCL by hand below), and the parts' powers sum
+    # to zero (Tellegen's theorem).
+    vcc, vin, rs, rf, rg, rl, iq, ib = 10.0, 2.0, 1e3, 10e3, 10e3, 2e3, 1e-3, 100e-9
+    vp = vin - ib * rs                      # the bias current through rs
+    vm = vp                                 # ideal: V+ = V-
+    vout = vm + rf * (vm / rg + ib)         # KCL at the feedback node
+    iout = (vout - vm) / rf + vout / rl     # into the divider and the load
+    want = (vcc - vout) * iout + iq * vcc + ib * (vp + vm)
+    f = write(tmp, "opow.stack", 'title "p"\nground gnd\nvoltage vs gnd -> vcc 10 V\nvoltage vi gnd -> src 2 V\n'
+              "resistor rs src -> inp 1k\nopamp u1 plus=inp minus=fb out=out rails=gnd..vcc iq=1mA ib=100nA\n"
+              "resistor rf out -> fb 10k\nresistor rg fb -> gnd 10k\nresistor rl out -> gnd 2k\n")
+    d = js(b, ["solve", f])
+    if d:
+        parts = d["parts"]
+        near("op-amp output", parts["u1"]["voltage"], vout, source="KCL and Ohm's law by hand")
+        near("op-amp power at every pin", parts["u1"]["power"], want, source="sum of V*I over its pins by hand")
+        near("op-amp power is its dissipation", parts["u1"]["power"], d["opamps"]["u1"]["dissipation"] + ib * (vp + vm),
+             source="output stage and quiescent power plus the inputs' bias power")
+        total = sum(x["power"] for x in parts.values())
+        mag = sum(abs(x["power"]) for x in parts.values())
+        truth("the parts' powers sum to zero (%.3g W of %.3g W)" % (total, mag), abs(total) <= 1e-12 * mag,
+              "Tellegen's theorem")
+    # its power is no longer -V(out)*I(out): no derivative or formula is made up for it
+    _, err = run(b, ["influence", f, "u1.power"], want_rc=2)
+    truth("influence on a supplied op-amp's power says why it has none", "not its voltage times its current" in err,
+          "cli spec")
+    _, err = run(b, ["formula", f, "u1.power"], want_rc=2)
+    truth("formula on a supplied op-amp's power says why it has none", "not its voltage times its current" in err,
+          "cli spec")
+
+
 # ---------------------------------------------------------------------------
 # checks and rules through exit codes; edge cases of the port report
 
@@ -316,7 +380,7 @@ def main():
         return 2
     b = sys.argv[1]
     tests = [test_thevenin_cube, test_thevenin_r2r, test_thevenin_load_meter, test_sag_ranking,
-             test_sens_divider, test_sens_current_mode, test_check_exit_codes, test_verdicts, test_feedback_port, test_float_load_json]
+             test_sens_divider, test_sens_current_mode, test_sens_pot, test_opamp_power, test_check_exit_codes, test_verdicts, test_feedback_port, test_float_load_json]
     return run_tests([(t.__name__, lambda tmp, t=t: t(b, tmp)) for t in tests], "loadstack_loading_")
 
 
