@@ -211,7 +211,7 @@ int ls_solver_solve(ls_solver *s, double *b, int transpose)
     int r;
     if (ls_update_active(s->upd)) {
         r = ls_update_solve(s->upd, b, transpose, kept_solve, s);
-        if (r == LS_SOLVER_FAILED) {
+        if (r == LS_UPDATE_REJECTED) {
             /* the updated solution failed its residual check against the
              * true matrix: refactor that matrix and solve plainly */
             const ls_csc *a = ls_update_matrix(s->upd);

@@ -16,10 +16,9 @@
  * update", has the measured crossover).  K close to singular (the change
  * nearly cancels a pivot of A0's factor) means the identity would lose the
  * digits: the caller refactors.  Every solve's residual is checked against
- * the true A; a solve that fails the check is answered LS_SOLVER_FAILED and
+ * the true A; a solve that fails the check is answered LS_UPDATE_REJECTED and
  * the caller refactors A. */
 #include "solve/update.h"
-#include "solve/solver.h"
 
 #include <lapacke.h>
 #include <math.h>
@@ -250,7 +249,7 @@ bool ls_update_try(ls_update *u, const ls_csc *a, double factor_flops, double so
         double *zi = u->z + (size_t)n * i;
         memset(zi, 0, (size_t)n * sizeof *zi);
         zi[u->rows[i]] = 1;
-        if (solve(ctx, zi, 0) != LS_SOLVER_OK)
+        if (solve(ctx, zi, 0) != 0)
             return false;
     }
     for (int k = 0; k < r; k++) /* K = I + Dm Z[C, :] */
@@ -335,6 +334,14 @@ static double berr(ls_update *u, const double *x, int transpose)
     return den > 0 ? rn / den : rn;
 }
 
+/* b given back its right-hand side (kept in u->rhs); LS_UPDATE_REJECTED. */
+static int restore(ls_update *u, double *b)
+{
+    memcpy(b, u->rhs, (size_t)u->n * sizeof *b);
+    u->rejected++;
+    return LS_UPDATE_REJECTED;
+}
+
 int ls_update_solve(ls_update *u, double *b, int transpose, ls_kept_solve solve, void *ctx)
 {
     if (u->r == 0)
@@ -342,7 +349,7 @@ int ls_update_solve(ls_update *u, double *b, int transpose, ls_kept_solve solve,
     int n = u->n, r = u->r, c = u->c;
     memcpy(u->rhs, b, (size_t)n * sizeof *u->rhs);
     int st = solve(ctx, b, transpose); /* y */
-    if (st != LS_SOLVER_OK)
+    if (st != 0)
         return st;
     double s[UPDATE_MAX_RANK];
     if (!transpose) {
@@ -353,7 +360,7 @@ int ls_update_solve(ls_update *u, double *b, int transpose, ls_kept_solve solve,
             s[i] = t;
         }
         if (LAPACKE_dgetrs(LAPACK_COL_MAJOR, 'N', r, 1, u->k, r, u->ipiv, s, r) != 0)
-            return LS_SOLVER_FAILED;
+            return restore(u, b);
         for (int i = 0; i < r; i++) /* y - Z K^-1 Dm y[C] */
             for (int q = 0; q < n; q++)
                 b[q] -= u->z[(size_t)n * i + q] * s[i];
@@ -361,7 +368,7 @@ int ls_update_solve(ls_update *u, double *b, int transpose, ls_kept_solve solve,
         for (int i = 0; i < r; i++)
             s[i] = b[u->rows[i]];
         if (LAPACKE_dgetrs(LAPACK_COL_MAJOR, 'T', r, 1, u->k, r, u->ipiv, s, r) != 0)
-            return LS_SOLVER_FAILED;
+            return restore(u, b);
         double *w = u->w;
         memset(w, 0, (size_t)n * sizeof *w);
         for (int j = 0; j < c; j++) { /* E_C Dm^T K^-T y[R] */
@@ -370,16 +377,14 @@ int ls_update_solve(ls_update *u, double *b, int transpose, ls_kept_solve solve,
                 t += u->dm[i + (size_t)r * j] * s[i];
             w[u->cols[j]] = t;
         }
-        if ((st = solve(ctx, w, 1)) != LS_SOLVER_OK)
+        if ((st = solve(ctx, w, 1)) != 0)
             return st;
         for (int q = 0; q < n; q++)
             b[q] -= w[q];
     }
     double e = berr(u, b, transpose);
     if (!(e <= UPDATE_BERR_MAX)) {
-        memcpy(b, u->rhs, (size_t)n * sizeof *b); /* the caller solves again after a refactorization */
-        u->rejected++;
-        return LS_SOLVER_FAILED;
+        return restore(u, b); /* the caller solves again after a refactorization */
     }
-    return LS_SOLVER_OK;
+    return 0;
 }

@@ -11,7 +11,8 @@
 typedef struct ls_update ls_update;
 
 /* A solve with the kept factor of A0 (plain or transposed, in place): the
- * backend's, given to the update by solver.c. */
+ * backend's, given to the update by solver.c; 0 ok, else the backend's
+ * status (LS_SOLVER_*, all <= 0). */
 typedef int (*ls_kept_solve)(void *ctx, double *b, int transpose);
 
 /* A new, empty update state, or NULL when out of memory. */
@@ -38,10 +39,15 @@ bool ls_update_try(ls_update *u, const ls_csc *a, double factor_flops, double so
 /* Is an update in force (solves must go through ls_update_solve)? */
 bool ls_update_active(const ls_update *u);
 
+/* ls_update_solve's answer when the caller must refactor and solve again
+ * (positive: apart from every LS_SOLVER_* status). */
+#define LS_UPDATE_REJECTED 1
+
 /* Solve a x = b (or a^T x = b) in place through the update.  The solution's
  * residual against the true a (A0 + D) is checked; when it is not small
- * (backward error above 1e-10) the answer is LS_SOLVER_FAILED and the caller
- * refactors a (ls_update_matrix) and solves plainly.  LS_SOLVER_* status. */
+ * (backward error above 1e-10) the answer is LS_UPDATE_REJECTED, b is given
+ * back unchanged, and the caller refactors a (ls_update_matrix) and solves
+ * plainly.  0 ok, LS_UPDATE_REJECTED, or the kept solve's failing status. */
 int ls_update_solve(ls_update *u, double *b, int transpose, ls_kept_solve solve, void *ctx);
 
 /* The matrix of the update in force (A0 + D), for a refactorization. */
