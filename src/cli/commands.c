@@ -138,6 +138,8 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
         s->prog = (ls_program){0};
     }
     phase_done("elaborate", &t0);
+    if (bad && s->diags.nomem) /* memory is no fault of the file: exit 3, as every run out of memory */
+        return LS_EXIT_UNSOLVABLE;
     return bad ? LS_EXIT_USAGE : LS_EXIT_OK;
 }
 

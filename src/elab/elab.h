@@ -9,8 +9,19 @@
 #define LS_MAX_BLOCK_DEPTH 32
 #define LS_MAX_INSTANCES 1000000
 #define LS_MAX_NAME_BYTES 1024
-#define LS_MAX_NODES 4000000      /* after expansion */
-#define LS_MAX_PARTS 4000000      /* after expansion */
+/* Nodes and parts after expansion: the ceiling of the index width.  The
+ * matrix is held with 32-bit (int) indices and entry counts, as CHOLMOD's,
+ * KLU's and hypre's int interfaces take it; 5e7 parts of at most 40 matrix
+ * entries each stay under 2^31.  Below the ceiling the memory the process may
+ * hold is the limit: see LS_PART_MIN_BYTES. */
+#define LS_MAX_NODES 50000000
+#define LS_MAX_PARTS 50000000
+/* Bytes one part takes at the least once elaborated: its row of the part
+ * table and its name, hash slot and pins (measured: the netlist of a 10^7-node
+ * mat takes some 300 bytes a part; docs/limits.md).  A circuit whose parts
+ * alone would take more than the process may hold (ls_memory_limit_bytes) is
+ * refused before anything is expanded. */
+#define LS_PART_MIN_BYTES 200
 #define LS_MAX_VIA_CHAIN 32       /* via= links followed from one source */
 
 /* Elaborate prog into nl (which must be zeroed; its arena and diags are taken
