@@ -38,7 +38,9 @@ measure() { # label, then the command
     local wall rss
     wall=$(grep "Elapsed (wall" "$tmp/err" | awk '{print $NF}')
     rss=$(grep "Maximum resident" "$tmp/err" | awk '{printf "%.0f", $NF / 1024}')
-    echo "    exit $rc, wall $wall, peak RSS $rss MB (of the mpirun process tree's largest)"
+    local cpu
+    cpu=$(awk -F': ' '/User time|System time/ {s += $2} END {printf "%.1f", s}' "$tmp/err")
+    echo "    exit $rc, wall $wall, CPU (user + system, all processes) $cpu s, peak RSS $rss MB (of the mpirun process tree's largest)"
     grep -E "^solved" "$tmp/out" | sed 's/^/    /'
     return $rc
 }
