@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "base/eseries.h"
+#include "base/memlimit.h"
 #include "lang/parser.h"
 #include "netlist/letdeps.h"
 #include "parts/parts.h"
@@ -2114,6 +2115,9 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
         return true; /* the expansion's own counters still apply */
     long long inst = 0, parts = 0;
     bool ok = true;
+    /* what the process may hold, in parts: the memory-derived limit below the
+     * fixed ceiling (docs/limits.md, "Size of the input") */
+    double held = (double)ls_memory_limit_bytes();
     for (int i = 0; i < prog->n && ok; i++) {
         const ls_stmt *st = prog->stmts[i];
         if (st->kind == S_PART) {
@@ -2136,6 +2140,12 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
                      "with this statement the circuit expands to more than %d parts (%s%lld, about %.0f MB "
                      "for the part table alone)", LS_MAX_PARTS, parts == SIZE_CAP ? "at least " : "", parts,
                      (double)parts * sizeof(ls_part) / 1e6);
+            ok = false;
+        } else if ((double)parts * LS_PART_MIN_BYTES > held) {
+            ls_error(x->d, st->kind == S_USE ? st->kw_loc : st->name_loc,
+                     "out of memory: with this statement the circuit expands to %lld parts, whose table and names "
+                     "alone would take about %.1f MB, more than the %.1f MB this process may hold (the machine's "
+                     "memory or its limit, ulimit -v)", parts, (double)parts * LS_PART_MIN_BYTES / 1e6, held / 1e6);
             ok = false;
         }
     }

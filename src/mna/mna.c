@@ -22,6 +22,8 @@ int ls_triplets_to_csc(const ls_triplets *t, int n, ls_csc *out)
 {
     memset(out, 0, sizeof *out);
     out->n = n;
+    if (t->nnz > INT_MAX) /* the int indices cannot count them (LS_MAX_PARTS keeps below this) */
+        return -1;
     int *cnt = calloc((size_t)n + 1, sizeof *cnt);
     int *ri = malloc((t->nnz ? t->nnz : 1) * sizeof *ri);
     double *rv = malloc((t->nnz ? t->nnz : 1) * sizeof *rv);
