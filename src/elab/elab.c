@@ -42,6 +42,10 @@ typedef struct elab {
     const char *last_kw;              /* the kind word last looked up (the parser shares one string */
     const ls_kind *last_kind;         /* per word on consecutive lines) and its kind, or NULL */
     ls_letdeps *deps;                 /* a let being followed (sweeps), or NULL */
+    /* Hashes of the names prefetched a few statements ahead (prefetch_names),
+     * found again by the name's pointer (the tree's strings do not move), so
+     * a name is hashed once; a slot another name took is only a lost hint. */
+    struct { const char *key; uint32_t hv; } hints[64];
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -136,6 +140,28 @@ static void note_decl(elab *x, ls_loc loc, const char *name)
         ls_note(x->d, loc, "'%s' was declared here", name);
 }
 
+/* The name table's hash of full (len bytes): the one prefetch_names kept,
+ * else computed. */
+static uint32_t name_hash(elab *x, const char *full, size_t len)
+{
+    size_t n = sizeof x->hints / sizeof x->hints[0];
+    __typeof__(x->hints[0]) *h = &x->hints[((uintptr_t)full >> 3) % n];
+    if (h->key == full) {
+        h->key = NULL;
+        return h->hv;
+    }
+    return (uint32_t)ls_hash_bytes(full, len);
+}
+
+/* Prefetch full's slot in the name table and keep its hash for name_hash. */
+static void prefetch_name(elab *x, const char *full)
+{
+    size_t n = sizeof x->hints / sizeof x->hints[0];
+    __typeof__(x->hints[0]) *h = &x->hints[((uintptr_t)full >> 3) % n];
+    h->key = full;
+    h->hv = ls_hash_prefetch(&x->nl->names, full);
+}
+
 /* Declare a name in its scope; a clash is an error naming both places, or,
  * with `found`, no error: *found is set to the entity already there (else -1).
  * Returns the new entity's index, or -1. */
@@ -146,7 +172,8 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         *found = -1;
     if (!full) /* qualify ran out of memory */
         return -1;
-    if (strlen(full) > LS_MAX_NAME_BYTES) {
+    size_t len = strlen(full);
+    if (len > LS_MAX_NAME_BYTES) {
         ls_error(x->d, loc, "name is longer than %d bytes", LS_MAX_NAME_BYTES);
         return -1;
     }
@@ -154,7 +181,7 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
     if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
         return -1;
     int e;
-    int r = ls_hash_intern(&nl->names, full, nl->nents, &e);
+    int r = ls_hash_intern_hashed(&nl->names, full, name_hash(x, full, len), nl->nents, &e);
     if (r < 0) {
         out_of_memory_n(x, 2 * (nl->names.cap ? nl->names.cap : 16) * sizeof(ls_hash_slot)); /* the doubled table */
         return -1;
@@ -1749,10 +1776,10 @@ static void prefetch_names(elab *x, ls_stmt *const *stmts, int n, int i)
     if (i >= n || stmts[i]->kind != S_PART)
         return;
     const ls_stmt *a = stmts[i];
-    ls_hash_prefetch(&x->nl->names, a->name);
+    prefetch_name(x, a->name);
     if (a->arrow) {
-        ls_hash_prefetch(&x->nl->names, a->from);
-        ls_hash_prefetch(&x->nl->names, a->to);
+        prefetch_name(x, a->from);
+        prefetch_name(x, a->to);
     }
 }
 

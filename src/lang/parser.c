@@ -727,6 +727,7 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
 
 static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
 static int add_source(ls_diags *d, const char *name, const char *text, size_t len);
+static int add_loaded(ls_diags *d, const char *name, char *text, size_t len, char *heap);
 
 /* After a part statement whose words after KIND did not parse: keep its
  * kind word alone (S_BADPART), so the elaborator can say when the word is no
@@ -958,12 +959,13 @@ char *ls_read_stream(FILE *f, size_t *len)
     return buf;
 }
 
-/* A file's text, NUL-terminated, to parse and let go: a regular file is read
- * at its size into `tmp` (an arena of the caller's; a large one gets huge
- * pages), anything else (or a file that changes size meanwhile) by
- * ls_read_file into *heap, which the caller frees.  NULL (errno set) when the
+/* A file's text, NUL-terminated: a regular file is read at its size into the
+ * arena `into` (the diagnostics' arena, where the text stays for the
+ * messages: read once, never copied; a large one gets huge pages), anything
+ * else (or a file that changes size meanwhile) by ls_read_file into *heap,
+ * which the caller copies into the arena and frees.  NULL (errno set) when the
  * file cannot be read. */
-static char *load_text(ls_arena *tmp, const char *path, size_t *len, char **heap)
+static char *load_text(ls_arena *into, const char *path, size_t *len, char **heap)
 {
     *heap = NULL;
     FILE *f = fopen(path, "rb");
@@ -972,7 +974,7 @@ static char *load_text(ls_arena *tmp, const char *path, size_t *len, char **heap
     struct stat st;
     if (fstat(fileno(f), &st) == 0 && S_ISREG(st.st_mode) && (uintmax_t)st.st_size < LS_MAX_FILE_BYTES) {
         size_t want = (size_t)st.st_size;
-        char *buf = ls_arena_alloc_bytes(tmp, want + 1);
+        char *buf = ls_arena_alloc_bytes(into, want + 1);
         size_t n = buf ? fread(buf, 1, want + 1, f) : 0;
         if (buf && n == want && !ferror(f)) {
             fclose(f);
@@ -1064,17 +1066,13 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
         return;
     }
     size_t len = 0;
-    ls_arena tmp;
-    ls_arena_init(&tmp);
-    char *heap, *text = load_text(&tmp, path, &len, &heap);
+    char *heap, *text = load_text(p->d->arena, path, &len, &heap);
     if (!text) {
         ls_error(p->d, sloc, "cannot read included file '%s': %s", path, strerror(errno));
-        ls_arena_free(&tmp);
         return;
     }
-    int id = len < UINT_MAX ? add_source(p->d, path, text, len) : -1;
+    int id = len < UINT_MAX ? add_loaded(p->d, path, text, len, heap) : -1;
     free(heap);
-    ls_arena_free(&tmp);
     if (id < 0) {
         ls_error(p->d, sloc, "out of memory reading '%s'", path);
         return;
@@ -1142,14 +1140,32 @@ static int add_source(ls_diags *d, const char *name, const char *text, size_t le
     return id;
 }
 
-/* Register a top-level text; its file id, or -1 after reporting why not. */
-static int register_text(ls_diags *d, const char *name, const char *text, size_t len)
+/* add_source for a text from load_text: kept in place when it was read into
+ * the diagnostics' arena (heap NULL), copied there otherwise (the caller
+ * frees heap). */
+static int add_loaded(ls_diags *d, const char *name, char *text, size_t len, char *heap)
+{
+    if (heap)
+        return add_source(d, name, text, len);
+    if (len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0) {
+        text += 3;
+        len -= 3;
+    }
+    int id = ls_sources_adopt(d, name, text, (unsigned)len);
+    if (id >= 0)
+        ls_sources_check_utf8(d, id);
+    return id;
+}
+
+/* Register a top-level text (copied unless it was read into the arena: see
+ * add_loaded); its file id, or -1 after reporting why not. */
+static int register_text(ls_diags *d, const char *name, const char *text, size_t len, char *loaded, char *heap)
 {
     if (len >= LS_MAX_FILE_BYTES) {
         ls_error(d, LS_NOLOC, "'%s' is larger than %u bytes", name, LS_MAX_FILE_BYTES);
         return -1;
     }
-    int id = add_source(d, name, text, len);
+    int id = loaded ? add_loaded(d, name, loaded, len, heap) : add_source(d, name, text, len);
     if (id < 0)
         ls_error(d, LS_NOLOC, "out of memory reading '%s'", name);
     return id;
@@ -1160,7 +1176,7 @@ int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t l
 {
     *prog = (ls_program){.syntax = syntax};
     int errors0 = d->errors; /* counting the text's UTF-8 errors too */
-    int id = register_text(d, name, text, len);
+    int id = register_text(d, name, text, len, NULL, NULL);
     if (id < 0)
         return 1;
     parse_top(d, id, name, prog);
@@ -1171,18 +1187,14 @@ int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program
 {
     *prog = (ls_program){.syntax = syntax};
     size_t len = 0;
-    ls_arena tmp;
-    ls_arena_init(&tmp);
-    char *heap, *text = load_text(&tmp, path, &len, &heap);
+    char *heap, *text = load_text(d->arena, path, &len, &heap);
     if (!text) {
         ls_error(d, LS_NOLOC, "cannot read '%s': %s", path, strerror(errno));
-        ls_arena_free(&tmp);
         return 1;
     }
     int errors0 = d->errors; /* counting the text's UTF-8 errors too */
-    int id = register_text(d, path, text, len);
+    int id = register_text(d, path, text, len, text, heap);
     free(heap); /* before parsing, so the tree can reuse the pages */
-    ls_arena_free(&tmp);
     if (id < 0)
         return 1;
     parse_top(d, id, path, prog);
