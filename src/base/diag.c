@@ -64,7 +64,7 @@ int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len
     return copy ? register_owned(d, path, copy, len) : -1;
 }
 
-int ls_sources_adopt(ls_diags *d, const char *path, char *text, unsigned len)
+int ls_sources_adopt(ls_diags *d, const char *path, const char *text, unsigned len)
 {
     return register_owned(d, path, text, len);
 }

@@ -726,8 +726,7 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
 }
 
 static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
-static int add_source(ls_diags *d, const char *name, const char *text, size_t len);
-static int add_loaded(ls_diags *d, const char *name, char *text, size_t len, char *heap);
+static int add_text(ls_diags *d, const char *name, const char *text, size_t len, bool in_arena);
 
 /* After a part statement whose words after KIND did not parse: keep its
  * kind word alone (S_BADPART), so the elaborator can say when the word is no
@@ -1071,7 +1070,7 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
         ls_error(p->d, sloc, "cannot read included file '%s': %s", path, strerror(errno));
         return;
     }
-    int id = len < UINT_MAX ? add_loaded(p->d, path, text, len, heap) : -1;
+    int id = len < UINT_MAX ? add_text(p->d, path, text, len, !heap) : -1;
     free(heap);
     if (id < 0) {
         ls_error(p->d, sloc, "out of memory reading '%s'", path);
@@ -1127,45 +1126,29 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
 /* Register a circuit text under `name`: a UTF-8 byte-order mark at its start
  * is skipped (editors on some systems write one), and bytes that are not
  * UTF-8 are reported and replaced (ls_sources_check_utf8).  Its file id, or
- * -1 (nothing reported: the caller says why). */
-static int add_source(ls_diags *d, const char *name, const char *text, size_t len)
+ * -1 (nothing reported: the caller says why).  The text is copied into the
+ * diagnostics' arena, or kept in place when it was read there (in_arena:
+ * load_text without a heap copy). */
+static int add_text(ls_diags *d, const char *name, const char *text, size_t len, bool in_arena)
 {
     if (len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0) {
         text += 3;
         len -= 3;
     }
-    int id = ls_sources_add(d, name, text, (unsigned)len);
+    int id = in_arena ? ls_sources_adopt(d, name, text, (unsigned)len) : ls_sources_add(d, name, text, (unsigned)len);
     if (id >= 0)
         ls_sources_check_utf8(d, id);
     return id;
 }
 
-/* add_source for a text from load_text: kept in place when it was read into
- * the diagnostics' arena (heap NULL), copied there otherwise (the caller
- * frees heap). */
-static int add_loaded(ls_diags *d, const char *name, char *text, size_t len, char *heap)
-{
-    if (heap)
-        return add_source(d, name, text, len);
-    if (len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0) {
-        text += 3;
-        len -= 3;
-    }
-    int id = ls_sources_adopt(d, name, text, (unsigned)len);
-    if (id >= 0)
-        ls_sources_check_utf8(d, id);
-    return id;
-}
-
-/* Register a top-level text (copied unless it was read into the arena: see
- * add_loaded); its file id, or -1 after reporting why not. */
-static int register_text(ls_diags *d, const char *name, const char *text, size_t len, char *loaded, char *heap)
+/* Register a top-level text (copied unless in_arena: see add_text); its file id, or -1 after reporting why not. */
+static int register_text(ls_diags *d, const char *name, const char *text, size_t len, bool in_arena)
 {
     if (len >= LS_MAX_FILE_BYTES) {
         ls_error(d, LS_NOLOC, "'%s' is larger than %u bytes", name, LS_MAX_FILE_BYTES);
         return -1;
     }
-    int id = loaded ? add_loaded(d, name, loaded, len, heap) : add_source(d, name, text, len);
+    int id = add_text(d, name, text, len, in_arena);
     if (id < 0)
         ls_error(d, LS_NOLOC, "out of memory reading '%s'", name);
     return id;
@@ -1176,7 +1159,7 @@ int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t l
 {
     *prog = (ls_program){.syntax = syntax};
     int errors0 = d->errors; /* counting the text's UTF-8 errors too */
-    int id = register_text(d, name, text, len, NULL, NULL);
+    int id = register_text(d, name, text, len, false);
     if (id < 0)
         return 1;
     parse_top(d, id, name, prog);
@@ -1193,7 +1176,7 @@ int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program
         return 1;
     }
     int errors0 = d->errors; /* counting the text's UTF-8 errors too */
-    int id = register_text(d, path, text, len, text, heap);
+    int id = register_text(d, path, text, len, !heap);
     free(heap); /* before parsing, so the tree can reuse the pages */
     if (id < 0)
         return 1;
