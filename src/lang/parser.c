@@ -30,6 +30,7 @@ typedef struct parser {
     ls_token ahead;           /* one token of look-ahead */
     bool have_ahead;
     bool in_expect;
+    bool general_only;        /* no simple_part: every statement token by token (ls_parse_string_general) */
     int expr_depth;
     int inc_depth;
     inc_frame *incs;
@@ -527,6 +528,38 @@ static const char *kind_word(parser *p, const ls_token *t)
     return w;
 }
 
+/* The commonest part statement, `KIND NAME FROM -> TO NUMBER` with nothing
+ * after the plain number (ls_lex_simple_part), built without tokens: the
+ * same statement, locations and strings as parse_part builds, in the same
+ * order.  NULL, with nothing read, for any other statement (and when out of
+ * memory: parse_part then meets the same shortage and the arena is marked). */
+static ls_stmt *simple_part(parser *p)
+{
+    ls_simple_part sp;
+    if (p->have_ahead || p->general_only || !ls_lex_simple_part(&p->lx, &sp))
+        return NULL;
+    const char *src = p->lx.src;
+    int f = p->lx.file;
+    ls_stmt *s = new_stmt(p, S_PART);
+    ls_expr *e;
+    if (!s || !(s->kw = kind_word(p, &p->tok)) ||
+        !(s->name = ls_arena_strndup(p->a, src + sp.name, sp.name_end - sp.name)) ||
+        !(s->from = ls_arena_strndup(p->a, src + sp.from, sp.from_end - sp.from)) ||
+        !(s->to = ls_arena_strndup(p->a, src + sp.to, sp.to_end - sp.to)) ||
+        !(e = new_expr(p, E_NUM, (ls_loc){f, sp.num, sp.num_end})))
+        return NULL;
+    s->name_loc = (ls_loc){f, sp.name, sp.name_end};
+    s->from_loc = (ls_loc){f, sp.from, sp.from_end};
+    s->to_loc = (ls_loc){f, sp.to, sp.to_end};
+    s->arrow = true;
+    e->num = sp.value;
+    e->dims = LS_FREE;
+    s->value = e;
+    p->lx.pos = sp.num_end;
+    advance(p); /* the line's end */
+    return s;
+}
+
 /* part -> KIND NAME [FROM '->' TO] [VALUE] {OPTION}
  * The grammar alone decides: any word that is not a statement keyword starts
  * a part statement, and the elaborator asks the part table whether KIND is a
@@ -822,7 +855,7 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
     } else if (is_word(&kw, "end")) {
         ls_error(p->d, kw.loc, "'end' without a 'block' to close");
         advance(p);
-    } else {
+    } else if ((s = simple_part(p)) == NULL) {
         s = parse_part(p);
         if (!s || !end_of_statement(p)) {
             /* Its syntax error is reported; the elaborator still hears of its
@@ -1005,6 +1038,7 @@ static void parse_registered(parser *outer, int file, const char *dir, inc_frame
     p.sa = outer->sa;
     p.dir = dir;
     p.incs = frames;
+    p.general_only = outer->general_only;
     p.inc_depth = depth;
     ls_lex_init(&p.lx, p.d, file);
     advance(&p);
@@ -1080,10 +1114,11 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
     parse_registered(p, id, dir_of(p->a, path), &fr, p->inc_depth + 1, out, block);
 }
 
-static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
+static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog, bool general_only)
 {
     parser p;
     memset(&p, 0, sizeof p);
+    p.general_only = general_only;
     p.d = d;
     p.a = d->arena;
     p.sa = prog->syntax ? prog->syntax : d->arena;
@@ -1154,16 +1189,29 @@ static int register_text(ls_diags *d, const char *name, const char *text, size_t
     return id;
 }
 
-int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
-                       ls_program *prog)
+/* ls_parse_string_to, with or without the fast path for simple part
+ * statements. */
+static int parse_text(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
+                      ls_program *prog, bool general_only)
 {
     *prog = (ls_program){.syntax = syntax};
     int errors0 = d->errors; /* counting the text's UTF-8 errors too */
     int id = register_text(d, name, text, len, false);
     if (id < 0)
         return 1;
-    parse_top(d, id, name, prog);
+    parse_top(d, id, name, prog, general_only);
     return d->errors - errors0;
+}
+
+int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
+                       ls_program *prog)
+{
+    return parse_text(d, name, text, len, syntax, prog, false);
+}
+
+int ls_parse_string_general(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog)
+{
+    return parse_text(d, name, text, len, NULL, prog, true);
 }
 
 int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program *prog)
@@ -1180,7 +1228,7 @@ int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program
     free(heap); /* before parsing, so the tree can reuse the pages */
     if (id < 0)
         return 1;
-    parse_top(d, id, path, prog);
+    parse_top(d, id, path, prog, false);
     return d->errors - errors0;
 }
 
