@@ -1366,6 +1366,212 @@ static void follow_rounded(elab *x, const ls_part *p, int n0)
 }
 
 /* part -> fill an ls_part from its statement */
+/* The error for an option name kind k does not have: the nearest name it
+ * has, or the list of them. */
+static void unknown_option(elab *x, const ls_kind *k, const ls_opt *o)
+{
+    const char *best = NULL;
+    char names[512];
+    int bd = 3;
+    for (int j = 0; j < k->nopts; j++) {
+        int dd = ls_edit_distance(o->name, k->opts[j].name);
+        if (dd < bd) {
+            bd = dd;
+            best = k->opts[j].name;
+        }
+    }
+    if (best)
+        ls_error(x->d, o->name_loc, "%s has no option '%s'; did you mean '%s'?", k->name, o->name, best);
+    else
+        ls_error(x->d, o->name_loc, "%s has no option '%s' (it takes: %s)", k->name, o->name,
+                 opt_names(k, names, sizeof names));
+}
+
+/* A numeric option (OPT_VALUE) oi of part p from o: evaluated, checked and
+ * stored (a budget as its index), with its let dependence followed.  False
+ * after an error (reported). */
+static bool set_value(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *o)
+{
+    const ls_optdef *od = &p->kind->opts[oi];
+    double v;
+    if (od->flags & OPTF_BUDGET) {
+        if (!add_budget(x, s, o->value, &v))
+            return false;
+        p->opt[oi] = v;
+        follow(x, s, o->value, LD_BUDGET, (int)v);
+        return true;
+    }
+    if (!eval_slot(x, s, o->value, od->dims, &v) || !check_flags(x, od->flags, v, o->value->loc, o->name))
+        return false;
+    if (od->flags & OPTF_MAIN) {
+        if (p->has_value) {
+            ls_error(x->d, o->name_loc, "%s is given twice (as the value and as %s=)", o->name, o->name);
+            return false;
+        }
+        p->value = v;
+        p->has_value = true;
+        p->value_loc = o->value->loc;
+    }
+    if (strcmp(od->name, "tol") == 0 && v >= 1) {
+        ls_error(x->d, o->value->loc, "tol= is a fraction below 1 (write 1%% or 0.01)");
+        return false;
+    }
+    p->opt[oi] = v;
+    int en = follow(x, s, o->value, LD_OPT, x->nl->nparts);
+    if (en >= 0) {
+        ls_ld_entry *le = ls_letdeps_entry(x->deps, en);
+        le->slot = oi;
+        le->flags = od->flags;
+        le->is_main = od->flags & OPTF_MAIN;
+        le->is_tol = strcmp(od->name, "tol") == 0;
+    }
+    return true;
+}
+
+/* Option o of part p (of kind k, its index oi in the kind's table) set from
+ * its statement; *snap_loc gets where snap= was written.  1 when set, 0
+ * after an error (reported: the option is left out), -1 out of memory (the
+ * part is to be dropped). */
+static int set_option(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *o, ls_loc *snap_loc)
+{
+    if (ls_part_has(p, oi)) {
+        ls_error(x->d, o->name_loc, "option '%s' is given twice", o->name);
+        return 0;
+    }
+    if (!p->opt) {
+        p->opt = ls_arena_alloc(x->a, LS_MAX_OPTS * sizeof *p->opt);
+        if (!p->opt) {
+            out_of_memory(x);
+            return -1;
+        }
+    }
+    const ls_optdef *od = &p->kind->opts[oi];
+    if (od->kind == OPT_WORD && strcmp(od->name, "snap") == 0)
+        *snap_loc = o->value->loc;
+    if (o->hi && od->kind != OPT_RANGE && od->kind != OPT_FREE) {
+        ls_error(x->d, o->hi->loc, "%s= takes one value, not a range", o->name);
+        return 0;
+    }
+    bool ok = true;
+    switch (od->kind) {
+    case OPT_VALUE:
+        ok = set_value(x, s, p, oi, o);
+        break;
+    case OPT_NODE:
+        if (o->value->kind != E_NAME) {
+            ls_error(x->d, o->value->loc, "%s= takes a node name", o->name);
+            return 0;
+        }
+        p->pin[od->pin] = node_ref(x, s, o->value->name, o->value->loc);
+        break;
+    case OPT_PART:
+        if (o->value->kind != E_NAME) {
+            ls_error(x->d, o->value->loc, "%s= takes the name of a part or port", o->name);
+            return 0;
+        }
+        p->ref_name = o->value->name;
+        p->ref_scope = s->prefix;
+        p->ref_loc = o->value->loc;
+        break;
+    case OPT_WORD: ok = set_word(x, s, p, oi, o); break;
+    case OPT_RANGE: ok = set_range(x, s, p, oi, o); break;
+    case OPT_FREE: ok = set_free(x, s, p, oi, o); break;
+    }
+    if (!ok)
+        return 0;
+    p->has_opt |= 1u << oi;
+    return 1;
+}
+
+/* The options of statement st into part p.  False when out of memory (the
+ * part is to be dropped). */
+static bool set_options(elab *x, const scope *s, const ls_stmt *st, ls_part *p, ls_loc *snap_loc)
+{
+    const ls_kind *k = p->kind;
+    for (int i = 0; i < st->nopts; i++) {
+        const ls_opt *o = &st->opts[i];
+        int oi = ls_kind_opt(k, o->name);
+        const char *now = oi < 0 ? ls_kind_renamed(k, o->name) : NULL;
+        if (now)
+            ls_error(x->d, o->name_loc, "%s option '%s=' is now spelled '%s='", k->name, o->name, now);
+        else if (oi < 0)
+            unknown_option(x, k, o);
+        else if (set_option(x, s, p, oi, o, snap_loc) < 0)
+            return false;
+    }
+    return true;
+}
+
+/* The error for a required value part p of statement st lacks. */
+static void require_value(elab *x, const ls_stmt *st, const ls_part *p)
+{
+    const ls_kind *k = p->kind;
+    if ((k->value_flags & OPTF_REQUIRED) && !p->has_value && !st->value) {
+        char b[64];
+        ls_error(x->d, st->name_loc, "%s '%s' needs a value (%s)", k->name, st->name, dname(k->value_dims, b, sizeof b));
+    }
+}
+
+/* The errors for the required options part p of statement st lacks. */
+static void require_options(elab *x, const ls_stmt *st, const ls_part *p)
+{
+    const ls_kind *k = p->kind;
+    for (int i = 0; i < k->nopts; i++) {
+        const ls_optdef *od = &k->opts[i];
+        if (!(od->flags & OPTF_REQUIRED) || ls_part_has(p, i) || ((od->flags & OPTF_MAIN) && p->has_value))
+            continue;
+        if ((od->flags & OPTF_MAIN) && st->value)
+            continue; /* the positional value was given but had an error */
+        ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
+    }
+}
+
+/* The index of kind k's option that is its main value (OPTF_MAIN), or -1. */
+static int main_option(const ls_kind *k)
+{
+    int main_opt = -1;
+    for (int i = 0; i < k->nopts; i++)
+        if (k->opts[i].flags & OPTF_MAIN)
+            main_opt = i;
+    return main_opt;
+}
+
+/* The value written after the nodes of statement st into part p, evaluated
+ * in the unit of the kind's value (or of its main option, main_opt >= 0). */
+static void set_positional(elab *x, const scope *s, const ls_stmt *st, ls_part *p, int main_opt)
+{
+    const ls_kind *k = p->kind;
+    ls_dims vd = main_opt >= 0 ? k->opts[main_opt].dims : k->value_dims;
+    if (!k->value_slot) {
+        ls_error(x->d, st->value->loc, "a %s takes no value here: %s", k->name, k->doc);
+    } else if (eval_slot(x, s, st->value, vd, &p->value)) {
+        p->has_value = true;
+        p->value_loc = st->value->loc;
+        int en = follow(x, s, st->value, LD_VALUE, x->nl->nparts);
+        if (en >= 0)
+            ls_letdeps_entry(x->deps, en)->flags = main_opt < 0 ? k->value_flags : 0;
+    }
+}
+
+/* Part p of statement st into the netlist under its name (unless the part
+ * table is at its limit or the name is taken: both reported). */
+static void store_part(elab *x, const ls_stmt *st, const ls_part *p)
+{
+    ls_netlist *nl = x->nl;
+    if (nl->nparts >= LS_MAX_PARTS) {
+        if (!x->parts_capped) /* say it once, with what the parts alone would take */
+            ls_error(x->d, st->name_loc, "more than %d parts after the blocks are expanded (%.0f MB for the part "
+                     "table alone)", LS_MAX_PARTS, (double)LS_MAX_PARTS * sizeof(ls_part) / 1e6);
+        x->parts_capped = true;
+        return;
+    }
+    if (!grow_x(x, (void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
+        return;
+    nl->parts[nl->nparts] = *p;
+    if (declare(x, p->name, ENT_PART, nl->nparts, st->name_loc, NULL) >= 0)
+        nl->nparts++;
+}
+
 static void elab_part(elab *x, const scope *s, const ls_stmt *st)
 {
     ls_netlist *nl = x->nl;
@@ -1401,150 +1607,18 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         p.pin[0] = node_ref(x, s, st->from, st->from_loc);
         p.pin[1] = node_ref(x, s, st->to, st->to_loc);
     }
-    int main_opt = -1;
-    for (int i = 0; i < k->nopts; i++)
-        if (k->opts[i].flags & OPTF_MAIN)
-            main_opt = i;
-    ls_dims vd = main_opt >= 0 ? k->opts[main_opt].dims : k->value_dims;
-    if (st->value) {
-        if (!k->value_slot) {
-            ls_error(x->d, st->value->loc, "a %s takes no value here: %s", k->name, k->doc);
-        } else if (eval_slot(x, s, st->value, vd, &p.value)) {
-            p.has_value = true;
-            p.value_loc = st->value->loc;
-            int en = follow(x, s, st->value, LD_VALUE, nl->nparts);
-            if (en >= 0)
-                ls_letdeps_entry(x->deps, en)->flags = main_opt < 0 ? k->value_flags : 0;
-        }
-    }
-    for (int i = 0; i < st->nopts; i++) {
-        const ls_opt *o = &st->opts[i];
-        int oi = ls_kind_opt(k, o->name);
-        const char *now = oi < 0 ? ls_kind_renamed(k, o->name) : NULL;
-        if (now) {
-            ls_error(x->d, o->name_loc, "%s option '%s=' is now spelled '%s='", k->name, o->name, now);
-            continue;
-        }
-        if (oi < 0) {
-            const char *best = NULL;
-            char names[512];
-            int bd = 3;
-            for (int j = 0; j < k->nopts; j++) {
-                int dd = ls_edit_distance(o->name, k->opts[j].name);
-                if (dd < bd) {
-                    bd = dd;
-                    best = k->opts[j].name;
-                }
-            }
-            if (best)
-                ls_error(x->d, o->name_loc, "%s has no option '%s'; did you mean '%s'?", k->name, o->name, best);
-            else
-                ls_error(x->d, o->name_loc, "%s has no option '%s' (it takes: %s)", k->name, o->name,
-                         opt_names(k, names, sizeof names));
-            continue;
-        }
-        if (ls_part_has(&p, oi)) {
-            ls_error(x->d, o->name_loc, "option '%s' is given twice", o->name);
-            continue;
-        }
-        if (!p.opt) {
-            p.opt = ls_arena_alloc(x->a, LS_MAX_OPTS * sizeof *p.opt);
-            if (!p.opt) {
-                out_of_memory(x);
-                return;
-            }
-        }
-        const ls_optdef *od = &k->opts[oi];
-        if (od->kind == OPT_WORD && strcmp(od->name, "snap") == 0)
-            snap_loc = o->value->loc;
-        if (o->hi && od->kind != OPT_RANGE && od->kind != OPT_FREE) {
-            ls_error(x->d, o->hi->loc, "%s= takes one value, not a range", o->name);
-            continue;
-        }
-        switch (od->kind) {
-        case OPT_VALUE: {
-            double v;
-            if (od->flags & OPTF_BUDGET) {
-                if (!add_budget(x, s, o->value, &v))
-                    continue;
-                p.opt[oi] = v;
-                follow(x, s, o->value, LD_BUDGET, (int)v);
-                break;
-            }
-            if (!eval_slot(x, s, o->value, od->dims, &v) || !check_flags(x, od->flags, v, o->value->loc, o->name))
-                continue;
-            if (od->flags & OPTF_MAIN) {
-                if (p.has_value) {
-                    ls_error(x->d, o->name_loc, "%s is given twice (as the value and as %s=)", o->name, o->name);
-                    continue;
-                }
-                p.value = v;
-                p.has_value = true;
-                p.value_loc = o->value->loc;
-            }
-            if (strcmp(od->name, "tol") == 0 && v >= 1) {
-                ls_error(x->d, o->value->loc, "tol= is a fraction below 1 (write 1%% or 0.01)");
-                continue;
-            }
-            p.opt[oi] = v;
-            int en = follow(x, s, o->value, LD_OPT, nl->nparts);
-            if (en >= 0) {
-                ls_ld_entry *le = ls_letdeps_entry(x->deps, en);
-                le->slot = oi;
-                le->flags = od->flags;
-                le->is_main = od->flags & OPTF_MAIN;
-                le->is_tol = strcmp(od->name, "tol") == 0;
-            }
-            break;
-        }
-        case OPT_NODE:
-            if (o->value->kind != E_NAME) {
-                ls_error(x->d, o->value->loc, "%s= takes a node name", o->name);
-                continue;
-            }
-            p.pin[od->pin] = node_ref(x, s, o->value->name, o->value->loc);
-            break;
-        case OPT_PART:
-            if (o->value->kind != E_NAME) {
-                ls_error(x->d, o->value->loc, "%s= takes the name of a part or port", o->name);
-                continue;
-            }
-            p.ref_name = o->value->name;
-            p.ref_scope = s->prefix;
-            p.ref_loc = o->value->loc;
-            break;
-        case OPT_WORD:
-            if (!set_word(x, s, &p, oi, o))
-                continue;
-            break;
-        case OPT_RANGE:
-            if (!set_range(x, s, &p, oi, o))
-                continue;
-            break;
-        case OPT_FREE:
-            if (!set_free(x, s, &p, oi, o))
-                continue;
-            break;
-        }
-        p.has_opt |= 1u << oi;
-    }
-    if ((k->value_flags & OPTF_REQUIRED) && !p.has_value && !st->value) {
-        char b[64];
-        ls_error(x->d, st->name_loc, "%s '%s' needs a value (%s)", k->name, st->name, dname(k->value_dims, b, sizeof b));
-    }
+    int main_opt = main_option(k);
+    if (st->value)
+        set_positional(x, s, st, &p, main_opt);
+    if (!set_options(x, s, st, &p, &snap_loc))
+        return;
+    require_value(x, st, &p);
     if (p.has_value && main_opt < 0 && !check_flags(x, k->value_flags, p.value, p.value_loc,
                                                      k->value_dims.v == 1 && k->value_dims.a == -1
                                                          ? "a resistance (use a port for a zero-ohm connection)"
                                                          : "the value"))
         return;
-    for (int i = 0; i < k->nopts; i++) {
-        const ls_optdef *od = &k->opts[i];
-        if (!(od->flags & OPTF_REQUIRED) || ls_part_has(&p, i) || ((od->flags & OPTF_MAIN) && p.has_value))
-            continue;
-        if ((od->flags & OPTF_MAIN) && st->value)
-            continue; /* the positional value was given but had an error */
-        ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
-    }
+    require_options(x, st, &p);
     if (p.has_opt) { /* free= and snap= are options: without any, nothing to finish */
         finish_free(x, &p);
         if (x->deps && p.has_value &&
@@ -1558,18 +1632,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
                    nl->nodes[p.pin[0]].name);
     if (x->d->errors != errs)
         return;
-    if (nl->nparts >= LS_MAX_PARTS) {
-        if (!x->parts_capped) /* say it once, with what the parts alone would take */
-            ls_error(x->d, st->name_loc, "more than %d parts after the blocks are expanded (%.0f MB for the part "
-                     "table alone)", LS_MAX_PARTS, (double)LS_MAX_PARTS * sizeof(ls_part) / 1e6);
-        x->parts_capped = true;
-        return;
-    }
-    if (!grow_x(x, (void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
-        return;
-    nl->parts[nl->nparts] = p;
-    if (declare(x, p.name, ENT_PART, nl->nparts, st->name_loc, NULL) >= 0)
-        nl->nparts++;
+    store_part(x, st, &p);
 }
 
 static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n);
