@@ -1658,28 +1658,29 @@ static int find_bparam(const ls_stmt *b, const char *name)
     return -1;
 }
 
-/* use -> expand a block as a new instance scope */
-static void elab_use(elab *x, const scope *s, const ls_stmt *st)
+/* The error for a use of a block that is not defined: the nearest block
+ * name, if one is near. */
+static void unknown_block(elab *x, const ls_stmt *st)
 {
-    ls_netlist *nl = x->nl;
-    int bi = block_index(x, st->kw);
-    if (bi < 0) {
-        const char *best = NULL;
-        int bd = 3;
-        for (int i = 0; i < x->nblocks; i++) {
-            int dd = ls_edit_distance(st->kw, x->blockv[i]->name);
-            if (dd < bd) {
-                bd = dd;
-                best = x->blockv[i]->name;
-            }
+    const char *best = NULL;
+    int bd = 3;
+    for (int i = 0; i < x->nblocks; i++) {
+        int dd = ls_edit_distance(st->kw, x->blockv[i]->name);
+        if (dd < bd) {
+            bd = dd;
+            best = x->blockv[i]->name;
         }
-        if (best)
-            ls_error(x->d, st->kw_loc, "unknown block '%s'; did you mean '%s'?", st->kw, best);
-        else
-            ls_error(x->d, st->kw_loc, "unknown block '%s'", st->kw);
-        return;
     }
-    const ls_stmt *b = x->blockv[bi];
+    if (best)
+        ls_error(x->d, st->kw_loc, "unknown block '%s'; did you mean '%s'?", st->kw, best);
+    else
+        ls_error(x->d, st->kw_loc, "unknown block '%s'", st->kw);
+}
+
+/* Whether block b may be expanded for use st in scope s: not inside itself,
+ * not past the nesting depth or the instance count (each reported). */
+static bool use_allowed(elab *x, const scope *s, const ls_stmt *st, const ls_stmt *b)
+{
     for (const scope *u = s; u; u = u->up) {
         if (u->block == b) {
             char chain[512] = "";
@@ -1690,25 +1691,46 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
             }
             ls_error(x->d, st->kw_loc, "block '%s' uses itself (%s <- %s): recursion is not allowed", b->name,
                      b->name, chain);
-            return;
+            return false;
         }
     }
     if (s->depth + 1 > LS_MAX_BLOCK_DEPTH) {
         ls_error(x->d, st->kw_loc, "blocks nested more than %d deep", LS_MAX_BLOCK_DEPTH);
-        return;
+        return false;
     }
-    if (++nl->instances > LS_MAX_INSTANCES) {
-        if (nl->instances == LS_MAX_INSTANCES + 1)
+    if (++x->nl->instances > LS_MAX_INSTANCES) {
+        if (x->nl->instances == LS_MAX_INSTANCES + 1)
             ls_error(x->d, st->kw_loc, "more than %d block instances", LS_MAX_INSTANCES);
-        return;
+        return false;
     }
-    const char *full = qualify(x, s, st->name);
-    if (declare(x, full, ENT_INSTANCE, bi, st->name_loc, NULL) < 0)
-        return;
-    scope in = {full, b, s, s->depth + 1};
-    int errs = x->d->errors;
-    bool pin_given[256] = {0};
-    const ls_opt *param_given[256] = {0};
+    return true;
+}
+
+/* The error for option o of a use that is neither a pin nor a parameter of
+ * block b: the nearest of those names, if one is near. */
+static void unknown_use_option(elab *x, const ls_stmt *b, const ls_opt *o)
+{
+    const char *best = NULL;
+    int bd = 3;
+    for (int j = 0; j < b->npins; j++)
+        if (ls_edit_distance(o->name, b->pins[j]) < bd)
+            bd = ls_edit_distance(o->name, b->pins[j]), best = b->pins[j];
+    for (int j = 0; j < b->nopts; j++)
+        if (ls_edit_distance(o->name, b->opts[j].name) < bd)
+            bd = ls_edit_distance(o->name, b->opts[j].name), best = b->opts[j].name;
+    if (best)
+        ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'; did you mean '%s'?", b->name,
+                 o->name, best);
+    else
+        ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'", b->name, o->name);
+}
+
+/* The options of use st of block b: each pin's node aliased in the
+ * instance's scope `in` (pin_given marks it), each parameter's option kept
+ * in param_given for bind_block_params. */
+static void connect_pins(elab *x, const scope *s, const scope *in, const ls_stmt *st, const ls_stmt *b,
+                         bool *pin_given, const ls_opt **param_given)
+{
     for (int i = 0; i < st->nopts; i++) {
         const ls_opt *o = &st->opts[i];
         int pi = find_pin(b, o->name);
@@ -1724,36 +1746,32 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
             }
             int node = node_ref(x, s, o->value->name, o->value->loc);
             if (node >= 0)
-                declare(x, qualify(x, &in, o->name), ENT_ALIAS, node, o->name_loc, NULL);
+                declare(x, qualify(x, in, o->name), ENT_ALIAS, node, o->name_loc, NULL);
             continue;
         }
         int qi = find_bparam(b, o->name);
         if (qi >= 0) {
-            if (param_given[qi]) {
+            if (param_given[qi])
                 ls_error(x->d, o->name_loc, "parameter '%s' is given twice", o->name);
-                continue;
-            }
-            param_given[qi] = o;
+            else
+                param_given[qi] = o;
             continue;
         }
-        const char *best = NULL;
-        int bd = 3;
-        for (int j = 0; j < b->npins; j++)
-            if (ls_edit_distance(o->name, b->pins[j]) < bd)
-                bd = ls_edit_distance(o->name, b->pins[j]), best = b->pins[j];
-        for (int j = 0; j < b->nopts; j++)
-            if (ls_edit_distance(o->name, b->opts[j].name) < bd)
-                bd = ls_edit_distance(o->name, b->opts[j].name), best = b->opts[j].name;
-        if (best)
-            ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'; did you mean '%s'?", b->name,
-                     o->name, best);
-        else
-            ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'", b->name, o->name);
+        unknown_use_option(x, b, o);
     }
     for (int i = 0; i < b->npins; i++)
         if (!pin_given[i])
             ls_error(x->d, st->name_loc, "pin '%s' of block '%s' is not connected in '%s'", b->pins[i], b->name,
                      st->name);
+}
+
+/* Block b's parameters in the instance's scope `in`: the value use st gave
+ * (param_given, evaluated in the user's scope s) or the default (evaluated
+ * in the instance's scope); a parameter with neither is an error. */
+static void bind_block_params(elab *x, const scope *s, const scope *in, const ls_stmt *st, const ls_stmt *b,
+                              const ls_opt *const *param_given)
+{
+    ls_netlist *nl = x->nl;
     for (int i = 0; i < b->nopts; i++) {
         const ls_opt *bo = &b->opts[i];
         double v;
@@ -1764,17 +1782,40 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
             if (follow(x, s, param_given[i]->value, LD_PARAM, nl->nparams) >= 0)
                 ls_letdeps_mark(x->deps, nl->nparams);
         } else if (bo->value) {
-            if (!eval(x, &in, bo->value, &v, &d))
+            if (!eval(x, in, bo->value, &v, &d))
                 continue;
-            if (follow(x, &in, bo->value, LD_PARAM, nl->nparams) >= 0)
+            if (follow(x, in, bo->value, LD_PARAM, nl->nparams) >= 0)
                 ls_letdeps_mark(x->deps, nl->nparams);
         } else {
             ls_error(x->d, st->name_loc, "'%s' needs parameter '%s' of block '%s' (it has no default)", st->name,
                      bo->name, b->name);
             continue;
         }
-        add_param(x, &in, bo->name, v, d, bo->name_loc);
+        add_param(x, in, bo->name, v, d, bo->name_loc);
     }
+}
+
+/* use -> an instance of a block: its pins tied to the user's nodes, its
+ * parameters bound, its body expanded under the instance's name. */
+static void elab_use(elab *x, const scope *s, const ls_stmt *st)
+{
+    int bi = block_index(x, st->kw);
+    if (bi < 0) {
+        unknown_block(x, st);
+        return;
+    }
+    const ls_stmt *b = x->blockv[bi];
+    if (!use_allowed(x, s, st, b))
+        return;
+    const char *full = qualify(x, s, st->name);
+    if (declare(x, full, ENT_INSTANCE, bi, st->name_loc, NULL) < 0)
+        return;
+    scope in = {full, b, s, s->depth + 1};
+    int errs = x->d->errors;
+    bool pin_given[256] = {0};
+    const ls_opt *param_given[256] = {0};
+    connect_pins(x, s, &in, st, b, pin_given, param_given);
+    bind_block_params(x, s, &in, st, b, param_given);
     if (x->d->errors != errs)
         return;
     elab_body(x, &in, b->body, b->nbody);
