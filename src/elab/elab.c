@@ -237,13 +237,12 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
         (nl->ground_name && name[0] == nl->ground_name[0] && strcmp(name, nl->ground_name) == 0))
         return 0;
     const char *full = qualify(x, s, name);
-    bool dotted = strchr(name, '.') != NULL;
     int e;
     int i = new_node(x, full, loc, s->depth, &e); /* one probe finds it or makes it */
     if (e >= 0) {
         ls_entity *o = &nl->ents[e];
         if (o->kind == ENT_NODE || o->kind == ENT_ALIAS) {
-            if (o->kind == ENT_NODE && !dotted && s->block)
+            if (o->kind == ENT_NODE && s->block && !strchr(name, '.'))
                 nl->nodes[o->index].claimed = true;
             return o->index;
         }
@@ -253,7 +252,7 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
     }
     if (i < 0)
         return -1;
-    if (dotted) {
+    if (strchr(name, '.')) { /* asked only here and above: most references are neither new nor in a block */
         nl->nodes[i].dotted_ref = true;
     } else if (s->block) {
         nl->nodes[i].claimed = true;
