@@ -22,6 +22,7 @@
 #include "analysis/sweep.h"
 #include "analysis/thevenin.h"
 #include "analysis/tolerance.h"
+#include "circuit.h"
 
 #ifndef LS_VERSION
 #define LS_VERSION "0.0.0"
@@ -29,27 +30,7 @@
 
 #define MAX_SETS 256
 
-struct ls_circuit {
-    ls_arena arena;            /* names, syntax, diagnostics */
-    ls_diags diags;
-    ls_program prog;
-    ls_netlist nl;
-    bool elaborated;           /* nl holds a circuit without errors */
-    ls_op op;
-    bool have_op;              /* op holds allocations (freed on re-solve) */
-    bool solved;               /* op holds a valid operating point */
-    int *ports;                /* part index of each port, nports of them */
-    int nports;
-    /* what it was read from, kept for sweeps (which parse it again per point) */
-    const char *source_name;
-    const char *source;        /* source_len bytes, in the arena; NULL when unread */
-    size_t source_len;
-    const char **sets;         /* the settings it was read with, nsets of them, in the arena */
-    int nsets;
-    ls_solve_options solve_opt;   /* of the last ls_circuit_solve */
-    ls_options solve_options;     /* the same, as the analyses take them */
-    const char **rule_text;    /* per port (nports): the last ratio-rule text handed out, in the arena */
-};
+/* struct ls_circuit is in circuit.h: the program loads and solves through it too. */
 
 /* ---- small helpers ----------------------------------------------------------------------- */
 
@@ -92,16 +73,6 @@ static ls_status need_solved(const ls_circuit *c)
 
 /* ---- parsing ---------------------------------------------------------------------------- */
 
-/* Parse the "NAME=VALUE" overrides into sets (entries in the arena).
- * Returns 0, or -1 after reporting an error. */
-static int parse_sets(ls_circuit *c, const char *const *text, int n, ls_setting *sets)
-{
-    for (int i = 0; i < n; i++)
-        if (ls_parse_setting(&c->diags, text[i], &sets[i]) != 0)
-            return -1;
-    return 0;
-}
-
 /* Record the part index of every port, in circuit order.  0 or -1 (no memory). */
 static int index_ports(ls_circuit *c)
 {
@@ -114,61 +85,10 @@ static int index_ports(ls_circuit *c)
     return 0;
 }
 
-/* Elaborate the parsed program with the settings (following deps->let when
- * deps is not NULL, letdeps.h); the status of the parse. */
-static ls_status elaborate(ls_circuit *c, const char *const *sets, int nsets, ls_letdeps *deps)
-{
-    ls_setting *st = calloc((size_t)(nsets > 0 ? nsets : 1), sizeof *st);
-    if (!st)
-        return LS_E_NOMEM;
-    int bad = parse_sets(c, sets, nsets, st);
-    if (bad == 0)
-        bad = ls_elaborate_following(&c->prog, &c->diags, st, nsets, &c->nl, deps);
-    free(st);
-    if (c->arena.failed)
-        return LS_E_NOMEM;
-    if (bad)
-        return LS_E_CIRCUIT;
-    c->elaborated = true;
-    if (index_ports(c) != 0)
-        return LS_E_NOMEM;
-    return ok_status(c, 0);
-}
-
-/* A fresh, empty circuit, or NULL when out of memory. */
-static ls_circuit *circuit_new(void)
-{
-    ls_circuit *c = calloc(1, sizeof *c);
-    if (!c)
-        return NULL;
-    ls_arena_init(&c->arena);
-    ls_diags_init(&c->diags, &c->arena);
-    return c;
-}
-
-/* Keep the circuit's text, name and settings in its arena (for sweeps).
- * Returns 0, or -1 when out of memory. */
-static int keep_source(ls_circuit *c, const char *name, const char *text, size_t len, const char *const *sets,
-                       int nsets)
-{
-    c->source_name = ls_arena_strdup(&c->arena, name);
-    char *t = ls_arena_alloc_bytes(&c->arena, len + 1);
-    c->sets = ls_arena_alloc(&c->arena, (size_t)(nsets > 0 ? nsets : 1) * sizeof *c->sets);
-    if (!c->source_name || !t || !c->sets)
-        return -1;
-    memcpy(t, text, len);
-    t[len] = 0;
-    c->source = t;
-    c->source_len = len;
-    for (int i = 0; i < nsets; i++)
-        if (!(c->sets[i] = ls_arena_strdup(&c->arena, sets[i] ? sets[i] : "")))
-            return -1;
-    c->nsets = nsets;
-    return 0;
-}
-
-/* Both parse entry points: check the arguments, read the file `name` (when
- * text is NULL) or take text, parse, elaborate, hand the circuit out. */
+/* Both parse entry points: check the arguments, then read the file `name`
+ * (when text is NULL) or take text, parse and elaborate through the one
+ * loader (circuit.c, following deps->let when deps is not NULL), and hand
+ * the circuit out. */
 static ls_status parse_any(const char *name, const char *text, size_t len, const char *const *sets, int nsets,
                            ls_letdeps *deps, ls_circuit **out)
 {
@@ -177,33 +97,25 @@ static ls_status parse_any(const char *name, const char *text, size_t len, const
     *out = NULL;
     if (!name || nsets < 0 || nsets > MAX_SETS || (nsets > 0 && !sets))
         return LS_E_ARGUMENT;
-    ls_circuit *c = circuit_new();
+    ls_circuit *c = malloc(sizeof *c);
     if (!c)
         return LS_E_NOMEM;
-    ls_status st;
-    if (!text) {
-        size_t n = 0;
-        char *body = ls_read_file(name, &n);
-        if (!body) {
-            ls_error(&c->diags, LS_NOLOC, "cannot read '%s': %s", name, strerror(errno));
-            *out = c;
-            return c->arena.failed ? LS_E_NOMEM : LS_E_IO;
-        }
-        st = ls_parse_string(&c->diags, name, body, n, &c->prog) ? LS_E_CIRCUIT : LS_OK;
-        if (keep_source(c, name, body, n, sets, nsets) != 0)
-            st = LS_E_NOMEM;
-        free(body);
-    } else {
-        st = ls_parse_string(&c->diags, name, text, len, &c->prog) ? LS_E_CIRCUIT : LS_OK;
-        if (keep_source(c, name, text, len, sets, nsets) != 0)
-            st = LS_E_NOMEM;
-    }
-    if (c->arena.failed)
-        st = LS_E_NOMEM;
-    if (st == LS_OK)
-        st = elaborate(c, sets, nsets, deps);
+    ls_circuit_init(c);
+    /* the library keeps the syntax tree: formula reads values from it */
+    ls_load how = {.name = name, .text = text, .len = len, .input_path = name, .sets = sets, .nsets = nsets,
+                   .keep_syntax = true, .follow = deps};
+    ls_loaded r = ls_circuit_load(c, &how);
     *out = c;
-    return st;
+    switch (r) {
+    case LS_LOADED: break;
+    case LS_LOAD_UNREADABLE: return text ? LS_E_CIRCUIT : LS_E_IO;
+    case LS_LOAD_NOMEM: return LS_E_NOMEM;
+    case LS_LOAD_STOPPED:   /* (no after_read here) */
+    case LS_LOAD_ERRORS: return LS_E_CIRCUIT;
+    }
+    if (index_ports(c) != 0)
+        return LS_E_NOMEM;
+    return ok_status(c, 0);
 }
 
 ls_status ls_circuit_parse_file(const char *path, const char *const *sets, int nsets, ls_circuit **out)
@@ -226,15 +138,8 @@ void ls_circuit_free(ls_circuit **pc)
 {
     if (!pc || !*pc)
         return;
-    ls_circuit *c = *pc;
-    if (c->have_op)
-        ls_op_free(&c->op);
-    free(c->ports);
-    free(c->rule_text);
-    ls_netlist_free(&c->nl);
-    ls_diags_free(&c->diags);
-    ls_arena_free(&c->arena);
-    free(c);
+    ls_circuit_release(*pc);
+    free(*pc);
     *pc = NULL;
 }
 
@@ -300,17 +205,14 @@ ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
     }
     c->solve_options = o;   /* a sweep solves its points the same way */
     c->solve_opt = opt ? *opt : (ls_solve_options){0};
-    if (c->have_op)
-        ls_op_free(&c->op);
-    c->solved = false;
     int w0 = c->diags.warnings;
-    c->have_op = true;
-    int code = ls_op_solve(&c->op, &c->nl, &o);
-    if (c->arena.failed || c->op.nomem || c->diags.nomem || c->diags.lost)
+    int code = ls_circuit_solve_op(c, &o);
+    if (ls_circuit_nomem(c)) {
+        c->solved = false;
         return LS_E_NOMEM;   /* no memory is no property of the circuit */
+    }
     if (code != LS_EXIT_OK)
         return LS_E_UNSOLVABLE;
-    c->solved = true;
     return ok_status(c, w0);
 }
 
@@ -507,8 +409,7 @@ static void scratch_end(ls_circuit *c, const scratch *s)
 /* Parse and bind a quantity; NULL after reporting an error. */
 static ls_q *bind_quantity(ls_circuit *c, const char *text)
 {
-    ls_expr *e = ls_parse_expr_string(&c->diags, "quantity", text, true);
-    return e ? ls_bind_quantity(&c->nl, e) : NULL;
+    return ls_circuit_quantity(c, text, NULL);
 }
 
 ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value)
@@ -1003,8 +904,7 @@ static ls_status sweep_point(ls_circuit *c, const char *let, double x, const cha
         if (e < 0)
             st = e;
     }
-    if (st < 0 && st != LS_E_NOMEM && p &&
-        (p->arena.failed || p->diags.nomem || p->diags.lost || (p->have_op && p->op.nomem)))
+    if (st < 0 && st != LS_E_NOMEM && p && ls_circuit_nomem(p))
         st = LS_E_NOMEM;   /* a point lost to memory is not a point without a solution */
     if (st == LS_E_CIRCUIT && report && p) {
         /* the first point's errors are the caller's to read */
@@ -1060,13 +960,6 @@ ls_status ls_circuit_sweep(ls_circuit *c, const char *let, double from, double t
     return LS_OK;
 }
 
-/* Bind quantity text in circuit p, following deps; NULL after an error. */
-static const ls_q *bind_following(ls_circuit *p, const char *text, ls_letdeps *deps)
-{
-    ls_expr *e = ls_parse_expr_string(&p->diags, "quantity", text, true);
-    return e ? ls_bind_quantity_following(&p->nl, e, deps) : NULL;
-}
-
 static ls_status sweep_once(ls_circuit *c, const char *let, const double *xs, int steps,
                             const char *const *quantities, int nq, double *ys, int *nsolved, bool *done)
 {
@@ -1077,7 +970,7 @@ static ls_status sweep_once(ls_circuit *c, const char *let, const double *xs, in
     ls_status st = q ? parse_any(c->source_name, c->source, c->source_len, c->sets, c->nsets, &deps, &p)
                      : LS_E_NOMEM;
     for (int k = 0; st == LS_OK && k < nq; k++)
-        if (!(q[k] = bind_following(p, quantities[k], &deps)))
+        if (!(q[k] = ls_circuit_quantity(p, quantities[k], &deps)))
             st = LS_E_CIRCUIT;
     if (p && p->arena.failed)
         st = LS_E_NOMEM;

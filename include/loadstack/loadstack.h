@@ -113,6 +113,11 @@ typedef struct ls_diagnostic {
  *          can walk the diagnostics; NULL on LS_E_NOMEM and LS_E_ARGUMENT.  The
  *          caller frees it with ls_circuit_free.  A malformed setting (no '=')
  *          is a diagnostic and LS_E_CIRCUIT.
+ * The program reads circuits through the same code, so the diagnostics are
+ * the program's: a circuit with syntax errors is elaborated too, and its name
+ * and unit errors follow the syntax errors in the list.  A file that cannot
+ * be read, or that is larger than the language's limit (docs/limits.md), is
+ * LS_E_IO.
  * Returns LS_OK, LS_WARNINGS, LS_E_IO, LS_E_CIRCUIT, LS_E_ARGUMENT or LS_E_NOMEM. */
 LS_API ls_status ls_circuit_parse_file(const char *path, const char *const *sets, int nsets, ls_circuit **out);
 

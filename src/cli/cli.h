@@ -7,6 +7,7 @@
 
 #include "analysis/analysis.h"
 #include "analysis/share.h"
+#include "circuit.h"
 #include "report/output.h"
 #include "report/report.h"
 
@@ -23,6 +24,7 @@ typedef struct ls_cli {
     const char *output;
     double min_ratio;
     bool ascii, help;
+    bool version;                      /* --version: print it and nothing else */
     ls_solver_choice solver;
     double derate;
     /* command options */
@@ -58,23 +60,23 @@ typedef struct ls_cli {
     const ls_share *share;             /* loadstack-mpi: tol's trials and sweep's points split among processes */
 } ls_cli;
 
-/* Everything a command needs from a loaded circuit. */
-typedef struct ls_session {
-    ls_arena arena;
-    ls_diags diags;
-    ls_arena syntax;            /* the syntax tree, freed once the circuit is elaborated */
-    ls_program prog;            /* empty after ls_session_load */
-    ls_netlist nl;
-    ls_op op;
-    bool have_op;
-    ls_cli *cli;
-    const char *input_path;
-} ls_session;
+/* Everything a command needs from a loaded circuit: the library's circuit
+ * itself (circuit.h), read, elaborated and solved by the same code as the
+ * public API's.  A command reads its netlist (nl), operating point (op),
+ * diagnostics and arena directly; cli is the command line it was loaded for,
+ * input_path the file the reports name (NULL for standard input). */
+typedef struct ls_circuit ls_session;
 
-/* Load FILE (or the demo text): parse, apply --set, elaborate.  Returns an exit code. */
+/* Load FILE ('-': the standard input main() read; or the demo text) for cli
+ * through the one loader (ls_circuit_load): parse, apply --set, elaborate,
+ * keeping the syntax tree when cli->keep_syntax and following cli->follow.
+ * Returns an exit code (2 for any failure; ls_session_nomem says when it was
+ * memory).  Free s with ls_session_free whatever it returns. */
 int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *text);
-/* Solve the operating point.  Returns an exit code. */
+/* Solve the operating point (ls_circuit_solve_op, with cli's solver, ratio
+ * and derating, and the progress line).  Returns an exit code. */
 int ls_session_solve(ls_session *s);
+/* Free what the session holds (not s itself). */
 void ls_session_free(ls_session *s);
 /* Parse and bind a quantity written as in an `expect`; NULL after an error
  * in the diagnostics (out of memory included). */
@@ -137,6 +139,9 @@ int ls_cmd_pick(ls_cli *cli);    /* pick_cmd.c */
 int ls_cmd_chain(ls_cli *cli);   /* chain_cmd.c */
 int ls_cmd_formula(ls_cli *cli); /* formula_cmd.c */
 int ls_cmd_fit(ls_cli *cli);     /* fit_cmd.c */
+#ifdef LS_TEST_COMMANDS
+int ls_cmd_tally(ls_cli *cli);   /* tests/house/tally_cmd.c: in the test program only */
+#endif
 
 extern const char ls_demo_text[];
 /* Every warning code the program gives, NULL-terminated (generated from

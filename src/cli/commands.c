@@ -11,8 +11,8 @@
 #include <unistd.h>
 
 #include "cli/cli.h"
-#include "elab/elab.h"
 #include "cli/html.h"
+#include "elab/elab.h"
 #include "lang/parser.h"
 #include "cli/progress.h"
 #include "report/plot.h"
@@ -91,54 +91,39 @@ _Noreturn void ls_exit_now(int code)
 
 /* ---- sessions ------------------------------------------------------------------------ */
 
-/* The --set texts into sets[cli->nsets].  0, or -1 after an error. */
-static int parse_sets(ls_session *s, ls_setting *sets)
+/* The loader's after_read hook: the program's output files must not be an
+ * included circuit file. */
+static int protect_hook(ls_circuit *c, void *ctx)
 {
-    for (int i = 0; i < s->cli->nsets; i++)
-        if (ls_parse_setting(&s->diags, s->cli->sets[i], &sets[i]) != 0)
-            return -1;
-    return 0;
+    (void)ctx;
+    return ls_out_protect(c);
+}
+
+/* The loader's phase hook: LOADSTACK_TIMING's lines (ctx: the phase's start). */
+static void load_phase(void *ctx, const char *done)
+{
+    phase_done(done, ctx);
 }
 
 int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *text)
 {
-    memset(s, 0, sizeof *s);
+    ls_circuit_init(s);
     s->cli = cli;
-    s->input_path = path;
     double t0 = now_s();
-    ls_arena_init(&s->arena);
-    ls_arena_init(&s->syntax);
-    ls_diags_init(&s->diags, &s->arena);
-    int errs;
+    ls_load how = {.name = path, .text = text, .len = text ? strlen(text) : 0, .input_path = path,
+                   .sets = cli->sets, .nsets = cli->nsets, .keep_syntax = cli->keep_syntax, .follow = cli->follow,
+                   .after_read = protect_hook, .phase = load_phase, .ctx = &t0};
     if (!text && strcmp(path, "-") == 0 && cli->stdin_text) {
         /* FILE '-': the text main() read from standard input; includes
          * resolve from the current directory */
-        s->input_path = NULL;
-        errs = ls_parse_string_to(&s->diags, "<stdin>", cli->stdin_text, cli->stdin_len, &s->syntax, &s->prog);
-    } else if (text) {
-        errs = ls_parse_string_to(&s->diags, path, text, strlen(text), &s->syntax, &s->prog);
-    } else {
-        errs = ls_parse_file_to(&s->diags, path, &s->syntax, &s->prog);
+        how.name = "<stdin>";
+        how.text = cli->stdin_text;
+        how.len = cli->stdin_len;
+        how.input_path = NULL;
     }
-    phase_done("parse", &t0);
-    if (s->diags.nfiles == 0)
-        return LS_EXIT_USAGE; /* unreadable: that one error, not a report on an empty circuit */
-    if (ls_out_protect(s) != LS_EXIT_OK)
-        return LS_EXIT_USAGE;
-    ls_setting sets[LS_MAX_SETS];
-    if (parse_sets(s, sets) != 0)
-        return LS_EXIT_USAGE;
-    /* Elaborate even after syntax errors (the broken statements are left out),
-     * so one run reports the name and unit errors too. */
-    int bad = ls_elaborate_following(&s->prog, &s->diags, sets, cli->nsets, &s->nl, cli->follow) || errs;
-    /* A command elaborates once: the tree (a large part of the memory of a
-     * big circuit) goes before the solve.  The netlist keeps only names. */
-    if (!cli->keep_syntax) {
-        ls_arena_free(&s->syntax);
-        s->prog = (ls_program){0};
-    }
-    phase_done("elaborate", &t0);
-    return bad ? LS_EXIT_USAGE : LS_EXIT_OK;
+    /* every failure to load is a usage error (exit 2); ls_session_nomem
+     * tells a caller when it was memory */
+    return ls_circuit_load(s, &how) == LS_LOADED ? LS_EXIT_OK : LS_EXIT_USAGE;
 }
 
 /* Circuits this large take about a second or more to solve: the progress
@@ -170,10 +155,9 @@ int ls_session_solve(ls_session *s)
     solve_progress sp = {.nl = &s->nl};
     ls_options o = {.solver = s->cli->solver, .min_ratio = s->cli->min_ratio, .derate = s->cli->derate,
                     .phase = solve_phase, .phase_ctx = &sp};
-    s->have_op = true;
     double t0 = now_s();
     ls_progress_start(&sp.pg, s->cli->command ? s->cli->command : "solve", "", s->cli->quiet);
-    int code = ls_op_solve(&s->op, &s->nl, &o);
+    int code = ls_circuit_solve_op(s, &o);
     /* the hook's context lives on this stack: the op's options are copied
      * into later solves (variants, tol's trials on other threads) */
     s->op.opt.phase = NULL;
@@ -185,13 +169,7 @@ int ls_session_solve(ls_session *s)
 
 ls_q *ls_session_quantity(ls_session *s, const char *text)
 {
-    int e0 = s->diags.errors;
-    ls_expr *e = ls_parse_expr_string(&s->diags, "quantity", text, true);
-    ls_q *q = e ? ls_bind_quantity_following(&s->nl, e, s->cli ? s->cli->follow : NULL) : NULL;
-    if (!q && s->diags.errors == e0) /* the only silent failure is the arena's */
-        ls_error(&s->diags, LS_NOLOC, "out of memory reading the quantity '%s' (%zu bytes)", text,
-                 s->arena.failed_bytes);
-    return q;
+    return ls_circuit_quantity(s, text, s->cli ? s->cli->follow : NULL);
 }
 
 int ls_session_verdict(const ls_session *s, int code)
@@ -201,17 +179,12 @@ int ls_session_verdict(const ls_session *s, int code)
 
 bool ls_session_nomem(const ls_session *s)
 {
-    return s->arena.failed || s->syntax.failed || s->diags.nomem || s->diags.lost || (s->have_op && s->op.nomem);
+    return ls_circuit_nomem(s);
 }
 
 void ls_session_free(ls_session *s)
 {
-    if (s->have_op)
-        ls_op_free(&s->op);
-    ls_netlist_free(&s->nl);
-    ls_diags_free(&s->diags);
-    ls_arena_free(&s->syntax);
-    ls_arena_free(&s->arena);
+    ls_circuit_release(s);
 }
 
 /* ---- output, written whole or not at all (docs/output.md) ------------------------------------ */

@@ -3,6 +3,7 @@
 #include <errno.h>
 #include <math.h>
 #include <stdarg.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -25,47 +26,132 @@
  * circuit (all but pick), or the commands named in `cmds`. */
 typedef enum opt_scope { FOR_ALL, FOR_CIRCUIT, FOR_LISTED } opt_scope;
 
+/* What an option's value is, and where it goes in ls_cli. */
+typedef enum val_type {
+    VAL_FLAG,       /* no value: the bool at `field` becomes true */
+    VAL_TEXT,       /* any text: the const char * at `field` */
+    VAL_WORD,       /* one of `words`: the const char * at `field` */
+    VAL_ENUM,       /* one of `words`: the matching `values` entry into the enum (int-sized) at `field` */
+    VAL_POSITIVE,   /* a number > 0, units and SI prefixes allowed: the double at `field` */
+    VAL_INT,        /* a decimal whole number in lo..hi: the int at `field` */
+    VAL_COUNT,      /* a whole number in lo..hi, SI prefixes allowed (100k): the long at `field` */
+    VAL_CALL,       /* read by `call` (the value's checks are its own) */
+} val_type;
+
 typedef struct optdef {
     const char *name;
-    bool arg;
+    val_type type;
+    size_t field;           /* offsetof(ls_cli, ...); unused for VAL_CALL */
     opt_scope scope;
     const char *cmds;       /* FOR_LISTED: the commands, separated by spaces */
     const char *help;
+    const char *bad;        /* the error for a value of the wrong kind, with one %s for the value */
+    const char *const *words;   /* VAL_WORD, VAL_ENUM: the words allowed, NULL-terminated */
+    const int *values;      /* VAL_ENUM: the value of each word */
+    long lo, hi;            /* VAL_INT, VAL_COUNT: the range */
+    size_t given;           /* when not 0, offsetof a bool that becomes true when the option is given */
+    int (*call)(ls_cli *cli, const char *val);   /* VAL_CALL */
 } optdef;
 
+static int opt_set(ls_cli *cli, const char *val);
+static int opt_solver(ls_cli *cli, const char *val);
+static int opt_seed(ls_cli *cli, const char *val);
+static int fail_on(ls_cli *cli, const char *val);
+
+static const char *const format_words[] = {"text", "json", "csv", "html", NULL};
+static const int format_values[] = {FMT_TEXT, FMT_JSON, FMT_CSV, FMT_HTML};
+static const char *const dist_words[] = {"uniform", "normal", NULL};
+static const char *const goal_words[] = {"margin", "yield", "current", NULL};
+
+/* The commands compiled only into the test program loadstack_toy
+ * (tests/house/tally_cmd.c) name themselves in the options they take here. */
+#ifdef LS_TEST_COMMANDS
+#define TEST_TOP " tally"
+#else
+#define TEST_TOP ""
+#endif
+
+#define F(member) offsetof(ls_cli, member)
+
+/* Every option, in the order of the help texts. */
 static const optdef options[] = {
-    {"set", true, FOR_CIRCUIT, NULL, "NAME=VALUE  override a top-level let (repeatable)"},
-    {"format", true, FOR_ALL, NULL, "text|json|csv|html  report format (default text; html: solve, demo and chain)"},
-    {"output", true, FOR_ALL, NULL, "FILE  write the report to FILE (whole or not at all)"},
-    {"min-ratio", true, FOR_CIRCUIT, NULL, "X  minimum zin/zout for a port to pass (default: the circuit's rule, else 10)"},
-    {"ascii", false, FOR_ALL, NULL, "plain ASCII output (u for micro, ohm for the omega sign)"},
-    {"digits", true, FOR_ALL, NULL, "N  significant digits of numbers in text (default 4)"},
-    {"quiet", false, FOR_ALL, NULL, "no progress lines on stderr"},
-    {"solver", true, FOR_CIRCUIT, NULL, "auto|dense|sparse|iterative  linear solver (default auto)"},
-    {"derate", true, FOR_CIRCUIT, NULL, "F  multiply power ratings by F before comparing (default 1)"},
-    {"help", false, FOR_ALL, NULL, "show help for the command"},
-    {"version", false, FOR_ALL, NULL, "print the version"},
-    {"fail-on", true, FOR_LISTED, "check", "CODE,...|warnings  also fail (exit 1) when one of these warnings occurs"},
-    {"load", true, FOR_LISTED, "thevenin", "R  voltage and current into a load resistance R"},
-    {"meter", true, FOR_LISTED, "thevenin", "R  what a meter of input resistance R would read"},
-    {"what-if", false, FOR_LISTED, "sag", "add the table of each port opened and each part removed in turn"},
-    {"trials", true, FOR_LISTED, "tol fit", "N  Monte Carlo trials, SI prefixes allowed: 100k (default: tol 10000, fit 2000 per finalist)"},
-    {"seed", true, FOR_LISTED, "tol fit", "S  random seed, a whole number (default 1): the same seed gives the same answer"},
-    {"dist", true, FOR_LISTED, "tol fit", "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)"},
-    {"plot", true, FOR_LISTED, "tol sweep chain", "FILE.svg|FILE.png|FILE.pdf  draw a picture (tol: histogram; sweep: the curves; chain: the stages)"},
-    {"plot-all", false, FOR_LISTED, "solve chain demo", "with --format html: tolerance histograms even when no part has tol="},
-    {"steps", true, FOR_LISTED, "sweep", "N  points from FROM to TO, both included (default 51)"},
-    {"log", false, FOR_LISTED, "sweep", "space the points evenly on a log scale (FROM and TO > 0)"},
-    {"series", true, FOR_LISTED, "pick fit", "E6|E12|E24|E48|E96|E192  standard value series (default E24; fit: for parts without snap=)"},
-    {"total", true, FOR_LISTED, "pick", "LO..HI  range of rtop + rbot (default 1k..1M)"},
-    {"zout", true, FOR_LISTED, "pick", "MAX  largest acceptable rtop || rbot"},
-    {"goal", true, FOR_LISTED, "fit", "margin|yield|current  what the best candidate has most of (least current) (default margin)"},
-    {"top", true, FOR_LISTED, "fit", "K  candidates to report, best first (default 5)"},
-    {"max-solves", true, FOR_LISTED, "fit", "N  candidate solves branch and bound may spend, SI prefixes allowed (default 500k)"},
-    {"write", true, FOR_LISTED, "fit", "FILE.stack  a copy of the circuit with the chosen values (never the input)"},
-    {"symbols", true, FOR_LISTED, "formula", "A,B,...  keep only these parts' values and lets as symbols (the rest as numbers)"},
-    {"ideal", false, FOR_LISTED, "formula", "take every finite op-amp gain to infinity (the formula designers write first)"},
+    {.name = "set", .type = VAL_CALL, .scope = FOR_CIRCUIT,
+     .help = "NAME=VALUE  override a top-level let (repeatable)", .call = opt_set},
+    {.name = "format", .type = VAL_ENUM, .field = F(fmt), .scope = FOR_ALL,
+     .help = "text|json|csv|html  report format (default text; html: solve, demo and chain)",
+     .bad = "--format takes text, json, csv or html, not '%s'", .words = format_words, .values = format_values},
+    {.name = "output", .type = VAL_TEXT, .field = F(output), .scope = FOR_ALL,
+     .help = "FILE  write the report to FILE (whole or not at all)"},
+    {.name = "min-ratio", .type = VAL_POSITIVE, .field = F(min_ratio), .scope = FOR_CIRCUIT,
+     .help = "X  minimum zin/zout for a port to pass (default: the circuit's rule, else 10)",
+     .bad = "--min-ratio takes a positive number, not '%s'"},
+    {.name = "ascii", .type = VAL_FLAG, .field = F(ascii), .scope = FOR_ALL,
+     .help = "plain ASCII output (u for micro, ohm for the omega sign)"},
+    {.name = "digits", .type = VAL_INT, .field = F(digits), .scope = FOR_ALL,
+     .help = "N  significant digits of numbers in text (default 4)",
+     .bad = "--digits takes a whole number from 1 to 17, not '%s'", .lo = 1, .hi = 17, .given = F(digits_given)},
+    {.name = "quiet", .type = VAL_FLAG, .field = F(quiet), .scope = FOR_ALL, .help = "no progress lines on stderr"},
+    {.name = "solver", .type = VAL_CALL, .scope = FOR_CIRCUIT,
+     .help = "auto|dense|sparse|iterative  linear solver (default auto)", .call = opt_solver},
+    {.name = "derate", .type = VAL_POSITIVE, .field = F(derate), .scope = FOR_CIRCUIT,
+     .help = "F  multiply power ratings by F before comparing (default 1)",
+     .bad = "--derate takes a positive factor, not '%s'"},
+    {.name = "help", .type = VAL_FLAG, .field = F(help), .scope = FOR_ALL, .help = "show help for the command"},
+    {.name = "version", .type = VAL_FLAG, .field = F(version), .scope = FOR_ALL, .help = "print the version"},
+    {.name = "fail-on", .type = VAL_CALL, .scope = FOR_LISTED, .cmds = "check",
+     .help = "CODE,...|warnings  also fail (exit 1) when one of these warnings occurs", .call = fail_on},
+    {.name = "load", .type = VAL_TEXT, .field = F(load), .scope = FOR_LISTED, .cmds = "thevenin",
+     .help = "R  voltage and current into a load resistance R"},
+    {.name = "meter", .type = VAL_TEXT, .field = F(meter), .scope = FOR_LISTED, .cmds = "thevenin",
+     .help = "R  what a meter of input resistance R would read"},
+    {.name = "what-if", .type = VAL_FLAG, .field = F(what_if), .scope = FOR_LISTED, .cmds = "sag",
+     .help = "add the table of each port opened and each part removed in turn"},
+    {.name = "trials", .type = VAL_COUNT, .field = F(trials), .scope = FOR_LISTED, .cmds = "tol fit",
+     .help = "N  Monte Carlo trials, SI prefixes allowed: 100k (default: tol 10000, fit 2000 per finalist)",
+     .bad = "--trials takes a whole number from 1 to 10M (SI prefixes allowed: 100k), not '%s'", .lo = 1,
+     .hi = 10000000},
+    {.name = "seed", .type = VAL_CALL, .scope = FOR_LISTED, .cmds = "tol fit",
+     .help = "S  random seed, a whole number (default 1): the same seed gives the same answer", .call = opt_seed},
+    {.name = "dist", .type = VAL_WORD, .field = F(dist), .scope = FOR_LISTED, .cmds = "tol fit",
+     .help = "uniform|normal  how a part spreads within tol= (normal: tol is 3 sigma)",
+     .bad = "--dist takes uniform or normal, not '%s'", .words = dist_words},
+    {.name = "plot", .type = VAL_TEXT, .field = F(plot), .scope = FOR_LISTED, .cmds = "tol sweep chain",
+     .help = "FILE.svg|FILE.png|FILE.pdf  draw a picture (tol: histogram; sweep: the curves; chain: the stages)"},
+    {.name = "plot-all", .type = VAL_FLAG, .field = F(plot_all), .scope = FOR_LISTED, .cmds = "solve chain demo",
+     .help = "with --format html: tolerance histograms even when no part has tol="},
+    {.name = "steps", .type = VAL_INT, .field = F(steps), .scope = FOR_LISTED, .cmds = "sweep",
+     .help = "N  points from FROM to TO, both included (default 51)",
+     .bad = "--steps takes a whole number from 2 to 100000, not '%s'", .lo = 2, .hi = 100000},
+    {.name = "log", .type = VAL_FLAG, .field = F(log), .scope = FOR_LISTED, .cmds = "sweep",
+     .help = "space the points evenly on a log scale (FROM and TO > 0)"},
+    {.name = "series", .type = VAL_TEXT, .field = F(series), .scope = FOR_LISTED, .cmds = "pick fit",
+     .help = "E6|E12|E24|E48|E96|E192  standard value series (default E24; fit: for parts without snap=)"},
+    {.name = "total", .type = VAL_TEXT, .field = F(total), .scope = FOR_LISTED, .cmds = "pick",
+     .help = "LO..HI  range of rtop + rbot (default 1k..1M)"},
+    {.name = "zout", .type = VAL_TEXT, .field = F(zout), .scope = FOR_LISTED, .cmds = "pick",
+     .help = "MAX  largest acceptable rtop || rbot"},
+    {.name = "goal", .type = VAL_WORD, .field = F(goal), .scope = FOR_LISTED, .cmds = "fit",
+     .help = "margin|yield|current  what the best candidate has most of (least current) (default margin)",
+     .bad = "--goal takes margin, yield or current, not '%s'", .words = goal_words},
+    {.name = "top", .type = VAL_INT, .field = F(top), .scope = FOR_LISTED, .cmds = "fit" TEST_TOP,
+     .help = "K  candidates to report, best first (default 5)",
+     .bad = "--top takes a whole number from 1 to 1000, not '%s'", .lo = 1, .hi = 1000},
+    {.name = "max-solves", .type = VAL_COUNT, .field = F(max_solves), .scope = FOR_LISTED, .cmds = "fit",
+     .help = "N  candidate solves branch and bound may spend, SI prefixes allowed (default 500k)",
+     .bad = "--max-solves takes a whole number from 1 to 1G (SI prefixes allowed: 50k), not '%s'", .lo = 1,
+     .hi = 1000000000},
+    {.name = "write", .type = VAL_TEXT, .field = F(write), .scope = FOR_LISTED, .cmds = "fit",
+     .help = "FILE.stack  a copy of the circuit with the chosen values (never the input)"},
+    {.name = "symbols", .type = VAL_TEXT, .field = F(symbols), .scope = FOR_LISTED, .cmds = "formula",
+     .help = "A,B,...  keep only these parts' values and lets as symbols (the rest as numbers)"},
+    {.name = "ideal", .type = VAL_FLAG, .field = F(ideal), .scope = FOR_LISTED, .cmds = "formula",
+     .help = "take every finite op-amp gain to infinity (the formula designers write first)"},
 };
+
+#undef F
+
+/* VAL_ENUM writes through an int: the enums it fills must be int-sized. */
+_Static_assert(sizeof(ls_format) == sizeof(int), "ls_format is written as an int");
 
 typedef struct cmd {
     const char *name;
@@ -101,6 +187,10 @@ static const cmd commands[] = {
     {"chain", "chain FILE", "the stages in signal order and every connection between them, with its verdict",
      "loadstack chain circuits/demo.stack --plot chain.png", ls_cmd_chain, 1, true},
     {"demo", "demo", "the built-in demo circuit, solved (needs no file)", "loadstack demo", ls_cmd_demo, 0, true},
+#ifdef LS_TEST_COMMANDS
+    {"tally", "tally FILE", "the power every part absorbs, the largest first, and their sum",
+     "loadstack_toy tally circuits/demo.stack --top 5", ls_cmd_tally, 1, true},
+#endif
 };
 
 static const int ncommands = (int)(sizeof commands / sizeof commands[0]);
@@ -297,113 +387,103 @@ static int fail_on(ls_cli *cli, const char *val)
     }
 }
 
+/* --set NAME=VALUE, repeatable. */
+static int opt_set(ls_cli *cli, const char *val)
+{
+    if (cli->nsets == LS_MAX_SETS)
+        return bad_usage("too many --set options (at most %s)%s", "256", "");
+    if (!strchr(val, '='))
+        return bad_usage("--set takes NAME=VALUE, got '%s'%s", val, "");
+    cli->sets[cli->nsets++] = val;
+    return 0;
+}
+
+/* --solver: the iterative one only in the build that has it, and saying so. */
+static int opt_solver(ls_cli *cli, const char *val)
+{
+    if (strcmp(val, "auto") == 0) cli->solver = LS_CHOOSE_AUTO;
+    else if (strcmp(val, "dense") == 0) cli->solver = LS_CHOOSE_DENSE;
+    else if (strcmp(val, "sparse") == 0) cli->solver = LS_CHOOSE_SPARSE;
+#ifdef LS_HAVE_AMG
+    else if (strcmp(val, "iterative") == 0) cli->solver = LS_CHOOSE_ITERATIVE;
+    else return bad_usage("--solver takes auto, dense, sparse or iterative, not '%s'%s", val, "");
+#else
+    else if (strcmp(val, "iterative") == 0)
+        return bad_usage("--solver iterative needs the build with the iterative solver (meson setup -Dmpi=enabled, "
+                         "with libhypre-dev and libopenmpi-dev); this one has auto, dense and sparse%s", "");
+    else return bad_usage("--solver takes auto, dense or sparse, not '%s'%s", val, "");
+#endif
+    return 0;
+}
+
+/* --seed: a whole number 0 or more, the full 64 bits. */
+static int opt_seed(ls_cli *cli, const char *val)
+{
+    char *end;
+    errno = 0;
+    cli->seed = strtoull(val, &end, 10);
+    if (!*val || *end || errno || strchr(val, '-'))
+        return bad_usage("--seed takes a whole number 0 or more, not '%s'%s", val, "");
+    return 0;
+}
+
+/* The index of val among words (NULL-terminated), or -1. */
+static int word_index(const char *const *words, const char *val)
+{
+    for (int i = 0; words[i]; i++)
+        if (strcmp(words[i], val) == 0)
+            return i;
+    return -1;
+}
+
+/* Say that val is no value of option o (its `bad` message); the usage code. */
+static int bad_value(const optdef *o, const char *val)
+{
+    return bad_usage(o->bad, val);
+}
+
+/* Store option o's value val (NULL for a flag) into cli, by its type in the
+ * table.  Returns 0, or the usage exit code after saying what is wrong. */
 static int set_option(ls_cli *cli, const optdef *o, const char *val)
 {
-    const char *n = o->name;
-    if (strcmp(n, "set") == 0) {
-        if (cli->nsets == LS_MAX_SETS)
-            return bad_usage("too many --set options (at most %s)%s", "256", "");
-        if (!strchr(val, '='))
-            return bad_usage("--set takes NAME=VALUE, got '%s'%s", val, "");
-        cli->sets[cli->nsets++] = val;
-    } else if (strcmp(n, "format") == 0) {
-        if (strcmp(val, "text") == 0) cli->fmt = FMT_TEXT;
-        else if (strcmp(val, "json") == 0) cli->fmt = FMT_JSON;
-        else if (strcmp(val, "csv") == 0) cli->fmt = FMT_CSV;
-        else if (strcmp(val, "html") == 0) cli->fmt = FMT_HTML;
-        else return bad_usage("--format takes text, json, csv or html, not '%s'%s", val, "");
-    } else if (strcmp(n, "output") == 0) {
-        cli->output = val;
-    } else if (strcmp(n, "min-ratio") == 0) {
-        if (!ls_cli_number(val, &cli->min_ratio) || !(cli->min_ratio > 0))
-            return bad_usage("--min-ratio takes a positive number, not '%s'%s", val, "");
-    } else if (strcmp(n, "solver") == 0) {
-        if (strcmp(val, "auto") == 0) cli->solver = LS_CHOOSE_AUTO;
-        else if (strcmp(val, "dense") == 0) cli->solver = LS_CHOOSE_DENSE;
-        else if (strcmp(val, "sparse") == 0) cli->solver = LS_CHOOSE_SPARSE;
-#ifdef LS_HAVE_AMG
-        else if (strcmp(val, "iterative") == 0) cli->solver = LS_CHOOSE_ITERATIVE;
-        else return bad_usage("--solver takes auto, dense, sparse or iterative, not '%s'%s", val, "");
-#else
-        else if (strcmp(val, "iterative") == 0)
-            return bad_usage("--solver iterative needs the build with the iterative solver (meson setup -Dmpi=enabled, "
-                             "with libhypre-dev and libopenmpi-dev); this one has auto, dense and sparse%s", "");
-        else return bad_usage("--solver takes auto, dense or sparse, not '%s'%s", val, "");
-#endif
-    } else if (strcmp(n, "derate") == 0) {
-        if (!ls_cli_number(val, &cli->derate) || !(cli->derate > 0))
-            return bad_usage("--derate takes a positive factor, not '%s'%s", val, "");
-    } else if (strcmp(n, "ascii") == 0) {
-        cli->ascii = true;
-    } else if (strcmp(n, "help") == 0) {
-        cli->help = true;
-    } else if (strcmp(n, "load") == 0) {
-        cli->load = val;
-    } else if (strcmp(n, "meter") == 0) {
-        cli->meter = val;
-    } else if (strcmp(n, "what-if") == 0) {
-        cli->what_if = true;
-    } else if (strcmp(n, "trials") == 0) {
-        if (!count_si(val, 1, 10000000, &cli->trials))
-            return bad_usage("--trials takes a whole number from 1 to 10M (SI prefixes allowed: 100k), not '%s'%s",
-                             val, "");
-    } else if (strcmp(n, "digits") == 0) {
-        long dg;
-        if (!whole_number(val, 1, 17, &dg))
-            return bad_usage("--digits takes a whole number from 1 to 17, not '%s'%s", val, "");
-        cli->digits = (int)dg;
-        cli->digits_given = true;
-    } else if (strcmp(n, "quiet") == 0) {
-        cli->quiet = true;
-    } else if (strcmp(n, "fail-on") == 0) {
-        return fail_on(cli, val);
-    } else if (strcmp(n, "seed") == 0) {
-        char *end;
-        errno = 0;
-        cli->seed = strtoull(val, &end, 10);
-        if (!*val || *end || errno || strchr(val, '-'))
-            return bad_usage("--seed takes a whole number 0 or more, not '%s'%s", val, "");
-    } else if (strcmp(n, "dist") == 0) {
-        if (strcmp(val, "uniform") != 0 && strcmp(val, "normal") != 0)
-            return bad_usage("--dist takes uniform or normal, not '%s'%s", val, "");
-        cli->dist = val;
-    } else if (strcmp(n, "plot") == 0) {
-        cli->plot = val;
-    } else if (strcmp(n, "steps") == 0) {
-        long st;
-        if (!whole_number(val, 2, 100000, &st))
-            return bad_usage("--steps takes a whole number from 2 to 100000, not '%s'%s", val, "");
-        cli->steps = (int)st;
-    } else if (strcmp(n, "plot-all") == 0) {
-        cli->plot_all = true;
-    } else if (strcmp(n, "log") == 0) {
-        cli->log = true;
-    } else if (strcmp(n, "series") == 0) {
-        cli->series = val;
-    } else if (strcmp(n, "total") == 0) {
-        cli->total = val;
-    } else if (strcmp(n, "zout") == 0) {
-        cli->zout = val;
-    } else if (strcmp(n, "goal") == 0) {
-        if (strcmp(val, "margin") != 0 && strcmp(val, "yield") != 0 && strcmp(val, "current") != 0)
-            return bad_usage("--goal takes margin, yield or current, not '%s'%s", val, "");
-        cli->goal = val;
-    } else if (strcmp(n, "top") == 0) {
-        long k;
-        if (!whole_number(val, 1, 1000, &k))
-            return bad_usage("--top takes a whole number from 1 to 1000, not '%s'%s", val, "");
-        cli->top = (int)k;
-    } else if (strcmp(n, "max-solves") == 0) {
-        if (!count_si(val, 1, 1000000000, &cli->max_solves))
-            return bad_usage("--max-solves takes a whole number from 1 to 1G (SI prefixes allowed: 50k), not '%s'%s",
-                             val, "");
-    } else if (strcmp(n, "write") == 0) {
-        cli->write = val;
-    } else if (strcmp(n, "symbols") == 0) {
-        cli->symbols = val;
-    } else if (strcmp(n, "ideal") == 0) {
-        cli->ideal = true;
+    char *at = (char *)cli + o->field;
+    long n;
+    int k;
+    switch (o->type) {
+    case VAL_FLAG:
+        *(bool *)at = true;
+        break;
+    case VAL_TEXT:
+        *(const char **)at = val;
+        break;
+    case VAL_WORD:
+        if (word_index(o->words, val) < 0)
+            return bad_value(o, val);
+        *(const char **)at = val;
+        break;
+    case VAL_ENUM:
+        if ((k = word_index(o->words, val)) < 0)
+            return bad_value(o, val);
+        *(int *)at = o->values[k];
+        break;
+    case VAL_POSITIVE:
+        if (!ls_cli_number(val, (double *)at) || !(*(double *)at > 0))
+            return bad_value(o, val);
+        break;
+    case VAL_INT:
+        if (!whole_number(val, o->lo, o->hi, &n))
+            return bad_value(o, val);
+        *(int *)at = (int)n;
+        break;
+    case VAL_COUNT:
+        if (!count_si(val, o->lo, o->hi, (long *)at))
+            return bad_value(o, val);
+        break;
+    case VAL_CALL:
+        return o->call(cli, val);
     }
+    if (o->given)
+        *(bool *)((char *)cli + o->given) = true;
     return 0;
 }
 
@@ -420,7 +500,8 @@ static const cmd *command_word(int argc, char **argv)
             const char *name = a + 2;
             size_t len = strcspn(name, "=");
             for (int k = 0; k < noptions; k++)
-                if (strlen(options[k].name) == len && strncmp(options[k].name, name, len) == 0 && options[k].arg &&
+                if (strlen(options[k].name) == len && strncmp(options[k].name, name, len) == 0 &&
+                    options[k].type != VAL_FLAG &&
                     !name[len])
                     i++;
             continue;
@@ -447,125 +528,174 @@ static int read_stdin(ls_cli *cli)
     return 0;
 }
 
+/* The defaults of every option that has one (docs/cli.md). */
+static void cli_defaults(ls_cli *cli, const ls_share *share)
+{
+    memset(cli, 0, sizeof *cli);
+    cli->derate = 1;
+    cli->seed = 1;
+    cli->trials = 0;   /* each command's default (tol 10000, fit 2000) */
+    cli->steps = 51;
+    cli->digits = 4;
+    cli->share = share;
+}
+
+/* One "--name" or "--name=value" argument at argv[*i] (taking the next word as
+ * its value when it needs one and has no '='), for command c (NULL: not yet
+ * named; cw: the command found anywhere on the line).  Returns 0 or an exit
+ * code after saying what is wrong. */
+static int long_option(ls_cli *cli, int argc, char **argv, int *i, const cmd *c)
+{
+    const char *a = argv[*i];
+    char name[64];
+    const char *eq = strchr(a + 2, '=');
+    size_t len = eq ? (size_t)(eq - a - 2) : strlen(a + 2);
+    if (len >= sizeof name)
+        len = sizeof name - 1;
+    memcpy(name, a + 2, len);
+    name[len] = 0;
+    const optdef *o = NULL, *elsewhere = NULL;
+    for (int k = 0; k < noptions; k++)
+        if (strcmp(options[k].name, name) == 0) {
+            if (opt_for(&options[k], c))
+                o = &options[k];
+            else
+                elsewhere = &options[k];
+        }
+    if (!o && elsewhere && c)
+        return bad_usage("'%s' takes no option --%s (see 'loadstack %s --help')", c->name, name, c->name);
+    if (!o) {
+        const char *near = nearest(name, false, c);
+        if (near)
+            return bad_usage("unknown option '--%s'; did you mean '--%s'?", name, near);
+        return bad_usage("unknown option '--%s'%s", name, "");
+    }
+    if (o->field == offsetof(ls_cli, version) && o->type == VAL_FLAG) {
+        cli->version = true;   /* whatever follows it: the version is all that is printed */
+        return 0;
+    }
+    const char *val = NULL;
+    if (o->type != VAL_FLAG) {
+        if (eq)
+            val = eq + 1;
+        else if (*i + 1 < argc)
+            val = argv[++*i];
+        else
+            return bad_usage("--%s needs a value%s", o->name, "");
+    } else if (eq) {
+        return bad_usage("--%s takes no value%s", o->name, "");
+    }
+    return set_option(cli, o, val);
+}
+
+/* The command word a, the first word that is no option; *c becomes it.
+ * Returns 0 or the usage exit code. */
+static int command_named(const char *a, const cmd **c)
+{
+    *c = find_cmd(a);
+    if (*c)
+        return 0;
+    if (strcmp(a, "sens") == 0)
+        return bad_usage("'%s' is now spelled '%s' (loadstack influence FILE QUANTITY)", a, "influence");
+    const char *near = nearest(a, true, NULL);
+    if (near)
+        return bad_usage("unknown command '%s'; did you mean '%s'?", a, near);
+    return bad_usage("unknown command '%s'%s", a, "");
+}
+
+/* Every argument into cli and the command into *c (NULL when none is
+ * named).  Returns 0 or an exit code after saying what is wrong. */
+static int parse_args(ls_cli *cli, int argc, char **argv, const cmd **c)
+{
+    const cmd *cw = command_word(argc, argv);
+    bool options_done = false;
+    *c = NULL;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        int r = 0;
+        if (!options_done && strcmp(a, "--") == 0)
+            options_done = true; /* everything after is an argument, even '-x' */
+        else if (!options_done && strncmp(a, "--", 2) == 0)
+            r = long_option(cli, argc, argv, &i, *c ? *c : cw);
+        else if (!options_done && a[0] == '-' && a[1] && !(a[1] >= '0' && a[1] <= '9') && a[1] != '.') {
+            if (strcmp(a, "-h") != 0)
+                return bad_usage("unknown option '%s' (options are written --name)%s", a, "");
+            cli->help = true;
+        } else if (!*c)
+            r = command_named(a, c);
+        else if (cli->npos == LS_MAX_POS)
+            return bad_usage("too many arguments%s%s", "", "");
+        else
+            cli->pos[cli->npos++] = a;
+        if (r)
+            return r;
+    }
+    return 0;
+}
+
+/* After the arguments: the version, the help, and whether command c has
+ * what it needs.  Returns -1 to go on, else the exit code to end with. */
+static int before_command(ls_cli *cli, const cmd *c)
+{
+    if (cli->version) {
+        printf("loadstack %s\n", LS_VERSION);
+        return 0;
+    }
+    if (!c) {
+        usage_all(cli->help ? stdout : stderr);
+        return cli->help ? 0 : LS_EXIT_USAGE;
+    }
+    if (cli->help) {
+        usage_cmd(stdout, c);
+        return 0;
+    }
+    if (cli->npos < c->npos) {
+        fprintf(stderr, "loadstack: error: '%s' needs %d argument%s: loadstack %s\n", c->name, c->npos,
+                c->npos > 1 ? "s" : "", c->usage);
+        return LS_EXIT_USAGE;
+    }
+    if (cli->npos > c->npos && strcmp(c->name, "sweep") != 0) {
+        fprintf(stderr, "loadstack: error: unexpected argument '%s': loadstack %s\n", cli->pos[c->npos], c->usage);
+        return LS_EXIT_USAGE;
+    }
+    if (cli->fmt == FMT_HTML && !strstr("solve chain demo", c->name))
+        return bad_usage("--format html is for solve and chain, not '%s'%s", c->name, "");
+    return -1;
+}
+
+/* Run command c: its circuit from standard input when FILE is '-', its
+ * destinations checked before any work, no temporary file left behind.
+ * Returns its exit code. */
+static int run_command(ls_cli *cli, const cmd *c)
+{
+    cli->command = c->name;
+    if (c->circuit && c->npos > 0 && strcmp(cli->pos[0], "-") == 0) {
+        int r = read_stdin(cli);
+        if (r)
+            return r;
+    }
+    int code = ls_out_prepare(cli);   /* destinations checked before any work */
+    if (code == LS_EXIT_OK)
+        code = c->run(cli);
+    ls_out_abandon(cli);   /* a run that stopped early leaves no temporary file */
+    free(cli->stdin_text);
+    cli->stdin_text = NULL;
+    return code;
+}
+
 /* The program proper; main only ends the process.  share: the processes of
  * loadstack-mpi, or NULL. */
 static int run_main(int argc, char **argv, const ls_share *share)
 {
     ls_solver_threads_for_program(); /* measured: small solves run fastest on one thread */
     ls_cli cli;
-    memset(&cli, 0, sizeof cli);
-    cli.derate = 1;
-    cli.seed = 1;
-    cli.trials = 0;   /* each command's default (tol 10000, fit 2000) */
-    cli.steps = 51;
-    cli.digits = 4;
-    cli.share = share;
-    const cmd *c = NULL, *cw = command_word(argc, argv);
-    bool want_version = false, options_done = false;
-    for (int i = 1; i < argc; i++) {
-        const char *a = argv[i];
-        if (!options_done && strcmp(a, "--") == 0) {
-            options_done = true; /* everything after is an argument, even '-x' */
-        } else if (!options_done && strncmp(a, "--", 2) == 0) {
-            char name[64];
-            const char *eq = strchr(a + 2, '=');
-            size_t len = eq ? (size_t)(eq - a - 2) : strlen(a + 2);
-            if (len >= sizeof name)
-                len = sizeof name - 1;
-            memcpy(name, a + 2, len);
-            name[len] = 0;
-            const optdef *o = NULL, *elsewhere = NULL;
-            for (int k = 0; k < noptions; k++)
-                if (strcmp(options[k].name, name) == 0) {
-                    if (opt_for(&options[k], c ? c : cw))
-                        o = &options[k];
-                    else
-                        elsewhere = &options[k];
-                }
-            if (!o && elsewhere && (c || cw))
-                return bad_usage("'%s' takes no option --%s (see 'loadstack %s --help')", (c ? c : cw)->name, name,
-                                 (c ? c : cw)->name);
-            if (!o) {
-                const char *near = nearest(name, false, c ? c : cw);
-                if (near)
-                    return bad_usage("unknown option '--%s'; did you mean '--%s'?", name, near);
-                return bad_usage("unknown option '--%s'%s", name, "");
-            }
-            if (strcmp(o->name, "version") == 0) {
-                want_version = true;
-                continue;
-            }
-            const char *val = NULL;
-            if (o->arg) {
-                if (eq)
-                    val = eq + 1;
-                else if (i + 1 < argc)
-                    val = argv[++i];
-                else
-                    return bad_usage("--%s needs a value%s", o->name, "");
-            } else if (eq) {
-                return bad_usage("--%s takes no value%s", o->name, "");
-            }
-            int r = set_option(&cli, o, val);
-            if (r)
-                return r;
-        } else if (!options_done && a[0] == '-' && a[1] && !(a[1] >= '0' && a[1] <= '9') && a[1] != '.') {
-            if (strcmp(a, "-h") == 0) {
-                cli.help = true;
-                continue;
-            }
-            return bad_usage("unknown option '%s' (options are written --name)%s", a, "");
-        } else if (!c) {
-            c = find_cmd(a);
-            if (!c && strcmp(a, "sens") == 0)
-                return bad_usage("'%s' is now spelled '%s' (loadstack influence FILE QUANTITY)", a, "influence");
-            if (!c) {
-                const char *near = nearest(a, true, NULL);
-                if (near)
-                    return bad_usage("unknown command '%s'; did you mean '%s'?", a, near);
-                return bad_usage("unknown command '%s'%s", a, "");
-            }
-        } else {
-            if (cli.npos == LS_MAX_POS)
-                return bad_usage("too many arguments%s%s", "", "");
-            cli.pos[cli.npos++] = a;
-        }
-    }
-    if (want_version) {
-        printf("loadstack %s\n", LS_VERSION);
-        return 0;
-    }
-    if (!c) {
-        usage_all(cli.help ? stdout : stderr);
-        return cli.help ? 0 : LS_EXIT_USAGE;
-    }
-    if (cli.help) {
-        usage_cmd(stdout, c);
-        return 0;
-    }
-    if (cli.npos < c->npos) {
-        fprintf(stderr, "loadstack: error: '%s' needs %d argument%s: loadstack %s\n", c->name, c->npos,
-                c->npos > 1 ? "s" : "", c->usage);
-        return LS_EXIT_USAGE;
-    }
-    if (cli.npos > c->npos && strcmp(c->name, "sweep") != 0) {
-        fprintf(stderr, "loadstack: error: unexpected argument '%s': loadstack %s\n", cli.pos[c->npos], c->usage);
-        return LS_EXIT_USAGE;
-    }
-    if (cli.fmt == FMT_HTML && !strstr("solve chain demo", c->name))
-        return bad_usage("--format html is for solve and chain, not '%s'%s", c->name, "");
-    cli.command = c->name;
-    if (c->circuit && c->npos > 0 && strcmp(cli.pos[0], "-") == 0) {
-        int r = read_stdin(&cli);
-        if (r)
-            return r;
-    }
-    int code = ls_out_prepare(&cli);   /* destinations checked before any work */
-    if (code == LS_EXIT_OK)
-        code = c->run(&cli);
-    ls_out_abandon(&cli);   /* a run that stopped early leaves no temporary file */
-    free(cli.stdin_text);
-    return code;
+    cli_defaults(&cli, share);
+    const cmd *c = NULL;
+    int code = parse_args(&cli, argc, argv, &c);
+    if (code != 0)
+        return code;
+    code = before_command(&cli, c);
+    return code >= 0 ? code : run_command(&cli, c);
 }
 
 #ifdef LS_MPI_PROGRAM

@@ -13,9 +13,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "analysis/analysis.h"
-#include "elab/elab.h"
-#include "lang/parser.h"
+#include "analysis/checks.h"
+#include "analysis/results.h"
+#include "circuit.h"
 #include "report/report.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
@@ -40,66 +40,44 @@ static bool leading_set(const char **text, size_t *len, char **set)
     return true;
 }
 
-/* Parse the --set text as ls_session_load does (ls_parse_setting); returns
- * the number of settings made (0 or 1), -1 when there is no '=' or the value
- * does not parse. */
-static int make_setting(ls_diags *d, const char *set, ls_setting *out)
-{
-    if (!set)
-        return 0;
-    return ls_parse_setting(d, set, out) == 0 ? 1 : -1;
-}
-
-/* Solve and exercise every result reader on a circuit that elaborated. */
-static void solve_and_report(ls_netlist *nl, FILE *sink)
+/* Solve and exercise every result reader on a circuit that loaded. */
+static void solve_and_report(ls_circuit *c, FILE *sink)
 {
     ls_options o = {.solver = LS_CHOOSE_AUTO, .min_ratio = 0, .derate = 1};
-    ls_op op;
-    if (ls_op_solve(&op, nl, &o) == LS_EXIT_OK) {
-        ls_checks checks;
-        if (ls_checks_run(&op, true, &checks) == 0) {
-            ls_report rp = {.out = sink, .fmt = FMT_JSON, .sig = 4, .diags = nl->diags};
-            ls_results res;
-            if (ls_results_compute(&res, &op, ls_report_needs(&rp)) == 0)
-                ls_report_solve(&rp, &res, &checks);
-            ls_results_free(&res);
-            ls_checks_free(&checks);
-        }
+    if (ls_circuit_solve_op(c, &o) != LS_EXIT_OK)
+        return;
+    ls_checks checks;
+    if (ls_checks_run(&c->op, true, &checks) == 0) {
+        ls_report rp = {.out = sink, .fmt = FMT_JSON, .sig = 4, .diags = &c->diags};
+        ls_results res;
+        if (ls_results_compute(&res, &c->op, ls_report_needs(&rp)) == 0)
+            ls_report_solve(&rp, &res, &checks);
+        ls_results_free(&res);
+        ls_checks_free(&checks);
     }
-    ls_op_free(&op);
 }
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
-    const char *text = (const char *)data;
+    const char *text = size ? (const char *)data : "";
     size_t len = size;
     char *set = NULL;
     leading_set(&text, &len, &set);
 
-    ls_arena arena;
-    ls_diags diags;
-    ls_arena_init(&arena);
-    ls_diags_init(&diags, &arena);
+    /* the program's and the library's own loader (circuit.c): elaborated
+     * even after syntax errors, solved only without errors */
     FILE *sink = fopen("/dev/null", "w");
-    ls_program prog;
-    int errs = ls_parse_string(&diags, "fuzz.stack", text, len, &prog);
-    ls_setting sets[1];
-    int nsets = make_setting(&diags, set, sets);
-    if (nsets >= 0) {
-        /* like the program: elaborate even after syntax errors, solve only
-         * a circuit without errors */
-        ls_netlist nl;
-        memset(&nl, 0, sizeof nl);
-        if (ls_elaborate(&prog, &diags, sets, nsets, &nl) == 0 && errs == 0)
-            solve_and_report(&nl, sink ? sink : stderr);
-        ls_netlist_free(&nl);
-    }
+    ls_circuit c;
+    ls_circuit_init(&c);
+    const char *sets[1] = {set};
+    ls_load how = {.name = "fuzz.stack", .text = text, .len = len, .sets = sets, .nsets = set ? 1 : 0};
+    if (ls_circuit_load(&c, &how) == LS_LOADED)
+        solve_and_report(&c, sink ? sink : stderr);
     if (sink) {
-        ls_diags_print(&diags, sink); /* the caret excerpts walk the line map */
+        ls_diags_print(&c.diags, sink); /* the caret excerpts walk the line map */
         fclose(sink);
     }
-    ls_diags_free(&diags);
-    ls_arena_free(&arena);
+    ls_circuit_release(&c);
     free(set);
     return 0;
 }

@@ -8,7 +8,8 @@ itself and the stages before it:
 
     base <- lang <- netlist <- parts <- elab <- mna <- solve <- analysis <- report <- api <- cli
 
-(`api` is src/api.c with the public header include/loadstack/loadstack.h; the
+(`api` is src/api.c with the public header include/loadstack/loadstack.h, and
+src/circuit.[ch], the one loader both the library and the program use; the
 program's commands in cli/ sit on top.)  The script reads every `#include "..."`
 line of src/ and fails on
   - an include of a header that is not in the tree (a stale path after a move),
