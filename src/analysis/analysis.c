@@ -589,7 +589,9 @@ int ls_op_resolve(ls_op *op)
     if ((st = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements)) != LS_SOLVER_OK)
         return solve_failed(op, st, "solving");
     op->iterations = 1;
-    if (ls_newton_needed(nl)) {
+    /* the run often starts settled (a candidate or trial near its base): then
+     * the iteration would refactor the same system twice more */
+    if (ls_newton_needed(nl) && !ls_newton_settled(op)) {
         int r = ls_newton_solve(op);
         if (r != LS_EXIT_OK)
             return r;

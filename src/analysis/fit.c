@@ -987,24 +987,128 @@ static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
     return 0;
 }
 
-/* At every corner, the next series value inward along each active part:
- * the changes there (the derivative's sign at the corner, on the series) go
- * into the flags too.  Returns 0, -1 on no memory. */
-static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k)
+/* The figure a box's corner bounds would rule it out on: the check behind
+ * the bound below 0 when nothing in the box meets every check, else the
+ * current (index nslots) with the current goal, else the check behind the
+ * goal margin's bound. */
+static int bb_deciding(const fit_run *r, const bb_bound *bd)
 {
-    int nc = 1 << k, idx[LS_FIT_MAX_FREE];
-    for (int m = 0; m < nc; m++) {
-        const double *c = row_at(b, b->corner, m);
+    if (bd->worst < 0)
+        return bd->worst_at;
+    return r->f->goal == LS_FIT_CURRENT ? r->nslots : bd->margin_at;
+}
+
+/* Bit mask of the active parts (bits of act) along whose edges figure s
+ * changed at all, or was unknown, between the corners: the parts it depends
+ * on over the box, by the corners' evidence. */
+static unsigned bb_depends(const fit_run *r, const bb_state *b, int k, int s)
+{
+    int ns = r->nslots;
+    const unsigned char *fv = b->flag + (size_t)s * k, *fm = b->flag + (size_t)(ns + 1) * k + (size_t)s * k;
+    unsigned d = 0;
+    for (int t = 0; t < k; t++)
+        if (fv[t] || (s < ns && fm[t]))
+            d |= 1u << t;
+    return d;
+}
+
+/* Which way figure s (a check, or nslots: the current) would have to leave
+ * its corners' range inside the box to break the bound the box would be
+ * ruled out on: 1 above it (a peak), -1 below it (a valley), 0 either; *col
+ * gets the column of the rows that bound is made from (docs/fit.md).  A
+ * value bounded toward the top of its interval (the middle of a range above
+ * it, or a lower limit) is broken by a peak; toward the bottom by a valley;
+ * a margin bounded itself, by a peak; the current's lower bound, by a valley. */
+static int bb_danger(const fit_run *r, const bb_state *b, int k, int s, int *col)
+{
+    int ns = r->nslots;
+    if (s == ns) {
+        *col = 4 * ns;
+        return -1;
+    }
+    *col = 4 * s + 1;
+    if (!margin_of_value(r, b, k, s) || !flags_monotone(b->flag + (size_t)s * k, k))
+        return 1;
+    double vmin = INFINITY, vmax = -INFINITY;
+    for (int m = 0; m < 1 << k; m++) {
+        double v = row_at(b, b->corner, m)[4 * s];
+        vmin = fmin(vmin, v);
+        vmax = fmax(vmax, v);
+    }
+    if (!isfinite(vmin) || !isfinite(vmax))
+        return 1;
+    const double *c0 = row_at(b, b->corner, 0);
+    double lo = c0[4 * s + 2], hi = c0[4 * s + 3];
+    *col = 4 * s;
+    if (isfinite(lo) && isfinite(hi))
+        return vmax <= (lo + hi) / 2 ? 1 : vmin >= (lo + hi) / 2 ? -1 : 0;
+    return isfinite(lo) ? 1 : isfinite(hi) ? -1 : 0;
+}
+
+/* Is the change from a to b below noise (note_change would note nothing)? */
+static bool flat_change(double a, double b)
+{
+    unsigned char f = 0;
+    note_change(&f, a, b);
+    return f == 0;
+}
+
+/* Solve the step in from corner m along active part t and note its changes
+ * in every figure's flags.  When the edge's ends give figure s the same
+ * value (column col) but the step does not, s is not monotone along t: a
+ * monotone figure with equal ends is constant between them.  Returns 0, -1
+ * on no memory. */
+static int bb_step_in(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int m, int t, int s, int col)
+{
+    int idx[LS_FIT_MAX_FREE], ns = r->nslots;
+    bool up = m >> t & 1;
+    const double *c = row_at(b, b->corner, m), *e = row_at(b, b->corner, m ^ (1 << t));
+    corner_idx(r, x, act, k, m, idx);
+    idx[act[t]] += up ? -1 : 1;
+    if (bb_probe(r, b, idx, b->tmp) != 0)
+        return -1;
+    if (up)
+        note_rows(r, b, k, t, b->tmp, c);
+    else
+        note_rows(r, b, k, t, c, b->tmp);
+    if (s >= 0 && flat_change(c[col], e[col]) && !flat_change(c[col], b->tmp[col])) {
+        b->flag[(size_t)s * k + t] |= BB_BAD;
+        if (s < ns)
+            b->flag[(size_t)(ns + 1) * k + (size_t)s * k + t] |= BB_BAD;
+    }
+    return 0;
+}
+
+/* The inward steps that test figure s (a check, nslots: the current, or -1:
+ * every figure) before the box is ruled out on it.  Only the parts s
+ * depends on (dep, bits of act) and one face of the others (at their lower
+ * ends) are looked at: along a part it does not depend on, each edge's
+ * ends agree, and one step in from the lower end shows a hump between them.
+ * Along a part it depends on, a step in at the end of each edge where an
+ * excursion that breaks the bound would show (bb_danger: the higher end for
+ * a peak, the lower for a valley; both ends when either would; the lower
+ * end, by the rule above, when the edge's ends agree).  The changes go into
+ * every figure's flags, but only s's are complete enough to bound it.
+ * Returns 0, -1 on no memory. */
+static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int s, unsigned dep)
+{
+    int col = 0, danger = s < 0 ? 0 : bb_danger(r, b, k, s, &col);
+    unsigned flat = ((1u << k) - 1) & ~dep;
+    for (int m = 0; m < 1 << k; m++) {
+        if ((unsigned)m & flat)
+            continue; /* the face: the parts s does not depend on at their lower ends */
         for (int t = 0; t < k; t++) {
-            bool up = m >> t & 1;
-            corner_idx(r, x, act, k, m, idx);
-            idx[act[t]] += up ? -1 : 1;
-            if (bb_probe(r, b, idx, b->tmp) != 0)
+            if (m >> t & 1)
+                continue; /* each edge once, from its lower end m */
+            int hi = m | 1 << t;
+            const double *a = row_at(b, b->corner, m), *z = row_at(b, b->corner, hi);
+            bool both = s < 0 || (danger == 0 && !flat_change(a[col], z[col]));
+            int end = m;
+            if (!both && danger != 0 && !flat_change(a[col], z[col]))
+                end = (danger > 0) == (z[col] > a[col]) ? hi : m;
+            if (bb_step_in(r, b, x, act, k, end, t, s, col) != 0 ||
+                (both && bb_step_in(r, b, x, act, k, hi, t, s, col) != 0))
                 return -1;
-            if (up)
-                note_rows(r, b, k, t, b->tmp, c);
-            else
-                note_rows(r, b, k, t, c, b->tmp);
         }
     }
     return 0;
@@ -1067,6 +1171,32 @@ static bool bb_prune(const fit_run *r, const bb_bound *bd)
     if (f->goal == LS_FIT_CURRENT)
         return clearly_below(ref->current, bd->current);
     return clearly_below(bd->margin, ref->margin);
+}
+
+/* bb_prune on figure s alone (bb_deciding's), its bound made again from
+ * the flags: the other figures' flags may lack the steps their own bounds
+ * would need.  *lost is set when the steps took s's bound away (it turned). */
+static bool bb_prune_on(fit_run *r, bb_state *b, int k, const bb_bound *before, int s, bool *lost)
+{
+    bb_bound one = {.margin = INFINITY, .worst = INFINITY, .current = -INFINITY, .margin_at = -1, .worst_at = -1};
+    *lost = false;
+    if (s < 0)
+        return false;
+    if (s == r->nslots) {
+        bb_bound all;
+        bb_bounds(r, b, k, &all);
+        one.current = all.current;
+        *lost = one.current == -INFINITY;
+    } else if (before->worst < 0) {
+        one.worst = bound_check(r, b, k, s);
+        *lost = one.worst == INFINITY;
+        if (!(one.worst < 0))
+            return false; /* the figure that would have ruled it out turned */
+    } else {
+        one.margin = bound_check(r, b, k, s);
+        *lost = one.margin == INFINITY;
+    }
+    return bb_prune(r, &one);
 }
 
 /* Solve every combination of box x.  Returns 0, -1 on no memory. */
@@ -1159,10 +1289,15 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
         bb_bounds(r, b, k, &bd);
         bool out = bb_prune(r, &bd);
         if (out) {
-            if (bb_inward(r, b, x, act, k) != 0)
+            /* the steps that test the figure that decides, along the parts it
+             * depends on (a check of two parts in a box of four needs a
+             * quarter of the steps) */
+            int s = bb_deciding(r, &bd);
+            if (bb_inward(r, b, x, act, k, s, s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, s)) != 0)
                 return -1;
-            bb_bounds(r, b, k, &bd);
-            out = bb_prune(r, &bd);
+            bool lost;
+            out = bb_prune_on(r, b, k, &bd, s, &lost);
+            bd.unbounded += lost;
         }
         f->bb_unbounded += bd.unbounded;
         if (out) {

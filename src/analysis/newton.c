@@ -54,6 +54,27 @@ bool ls_newton_needed(const ls_netlist *nl)
     return false;
 }
 
+bool ls_newton_settled(const ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        if (nonlinear(p))
+            return false;
+        if (!p->kind->is_opamp)
+            continue;
+        ls_part_run *ps = ls_run_state(&op->run, p);
+        if (ps->state == LS_LIM_NONE && !ps->probed && ls_part_has(p, ls_kind_opt(p->kind, "rails")))
+            return false; /* run() would try it at its rail first */
+        if (!ls_opamp_limited(p))
+            continue;
+        int side, next = ls_opamp_next(p, &op->run, op->x, op->v, &side);
+        if (next != ps->state || side != ps->side)
+            return false;
+    }
+    return true;
+}
+
 void ls_newton_init(ls_run *r)
 {
     const ls_netlist *nl = r->nl;

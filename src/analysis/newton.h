@@ -24,6 +24,13 @@ void ls_newton_init(ls_run *r);
  * solution.  LS_EXIT_OK, or LS_EXIT_UNSOLVABLE after reporting which parts
  * did not settle. */
 int ls_newton_solve(ls_op *op);
+/* Is op->x, solved at the parts' present states, already what
+ * ls_newton_solve would return: no nonlinear part, every limited op-amp's
+ * state the one its solution asks for, every free op-amp with rails= probed?
+ * Then the iteration would only restamp and refactor the same system (a
+ * re-solve that starts from a settled run, as fit's candidates and tol's
+ * trials do, often is).  Changes nothing. */
+bool ls_newton_settled(const ls_op *op);
 
 /* The system is singular at column col: if an ideal op-amp with rails= is
  * free (the bad column's, else the first), hold it at its upper rail from now

@@ -15,6 +15,8 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "report/textbuf.h"
+#include "report/writer.h"
 #include "analysis/sweep.h"
 #include "analysis/tolerance.h"
 #include "elab/elab.h"
@@ -168,6 +170,13 @@ static bool reelaborate_asked(void)
     return e && *e && strcmp(e, "0") != 0;
 }
 
+/* Free a session (malloc'd). */
+static void free_session(ls_session *s)
+{
+    ls_session_free(s);
+    free(s);
+}
+
 /* Load the circuit as given (the user's --set list), following LET, and bind
  * the quantities: LET must be a top-level let.  Records the units; prints
  * the diagnostics (so warnings appear once).  Keeps the session as w->probe
@@ -209,8 +218,7 @@ static int probe(sweep *w)
         ls_sweeper_init(&w->sw, &s->nl, &w->deps, &o);
         w->probe = s;
     } else {
-        ls_session_free(s);
-        free(s);
+        free_session(s);
         ls_letdeps_free(&w->deps);
     }
     return code;
@@ -271,101 +279,118 @@ static int record(sweep *w, int i, ls_op *op, const ls_q *const *q, const ls_net
     return 0;
 }
 
+/* The first error among s's diagnostics, or "" (s may be NULL). */
+static const char *first_error(const ls_session *s)
+{
+    for (int j = 0; s && j < s->diags.n; j++)
+        if (s->diags.items[j].sev == LS_SEV_ERROR)
+            return s->diags.items[j].msg;
+    return "";
+}
+
 /* Out of memory at point i: say so with the stage's own message (the first
  * error of the point's session, when it has one).  Never a null point: a
  * point is null only when its circuit has no solution.  Returns
  * LS_EXIT_UNSOLVABLE. */
 static int point_nomem(const sweep *w, int i, const ls_session *s)
 {
-    const char *why = "";
-    for (int j = 0; s && j < s->diags.n && !*why; j++)
-        if (s->diags.items[j].sev == LS_SEV_ERROR)
-            why = s->diags.items[j].msg;
+    const char *why = first_error(s);
     fprintf(stderr, "loadstack: error: out of memory at %s = %.6g (point %d of %d)%s%s\n", w->param, w->x[i], i + 1,
             w->steps, *why ? ": " : "", why);
     return LS_EXIT_UNSOLVABLE;
 }
 
-/* Solve point i by elaborating again: the circuit is re-elaborated with PARAM at x[i]; when its
- * structure matches the last solved point's, the new values are stamped into
- * that system and re-solved from its solution (continuation: a nonlinear
- * circuit starts from the previous point's operating point); otherwise, or if
- * that fails, it is solved afresh.  A point whose circuit has no solution is
- * left null with a one-line warning.  Returns 0, or LS_EXIT_UNSOLVABLE after
- * an error when memory ran out (the sweep stops: a point lost to memory is
- * not a point without a solution). */
-static int reelaborate_point(sweep *w, int i)
+/* Drop the last solved point: the next starts afresh. */
+static void drop_base(sweep *w)
 {
-    char buf[256];
-    ls_cli pc;
-    if (i % SWEEP_CHAIN == 0 && w->base) { /* a new chain starts afresh */
-        ls_session_free(w->base);
-        free(w->base);
-        w->base = NULL;
-    }
-    ls_session *s = malloc(sizeof *s);
-    if (!s)
-        return point_nomem(w, i, NULL);
-    if (!point_cli(w->cli, w->param, w->x[i], buf, sizeof buf, &pc)) {
-        fprintf(stderr, "loadstack: warning: %s = %.6g is left out (too many --set options)\n", w->param, w->x[i]);
-        free(s);
-        return 0;
-    }
-    int code = ls_session_load(s, &pc, w->cli->pos[0], NULL);
-    const ls_q *q[MAX_QUANTITIES] = {NULL};
+    if (w->base)
+        free_session(w->base);
+    w->base = NULL;
+}
+
+/* Elaborate the circuit for a point (pc: the --set list with PARAM's value)
+ * into s and bind the quantities in it into q.  Returns an exit code. */
+static int load_point(const sweep *w, ls_cli *pc, ls_session *s, const ls_q **q)
+{
+    int code = ls_session_load(s, pc, w->cli->pos[0], NULL);
     for (int k = 0; k < w->nq && code == LS_EXIT_OK; k++) {
         q[k] = ls_session_quantity(s, w->qtext[k]);
         if (!q[k])
             code = LS_EXIT_USAGE;
     }
+    return code;
+}
+
+/* Point i in the last solved point's system, when s (the circuit as
+ * elaborated for point i) has its structure: s's values stamped in and
+ * re-solved from that solution.  The quantities and expects are s's own
+ * bindings (q): a let inside a QUANTITY is a constant of the binding, and
+ * the base's hold the value of the point it was bound at (the structures
+ * match, so part and node indices agree).  Returns true when that settled
+ * the point (*rc: 0, or LS_EXIT_UNSOLVABLE when memory ran out), false when
+ * it is to be solved afresh. */
+static bool continue_base(sweep *w, int i, const ls_session *s, const ls_q *const *q, int *rc)
+{
+    if (!w->base || !same_structure(&w->base->nl, &s->nl))
+        return false;
+    copy_values(&w->base->nl, &s->nl);
+    if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
+        *rc = record(w, i, &w->base->op, q, &s->nl) != 0 ? point_nomem(w, i, NULL) : 0;
+        return true;
+    }
+    if (w->base->op.nomem) {
+        *rc = point_nomem(w, i, w->base);
+        return true;
+    }
+    return false;
+}
+
+/* Solve point i by elaborating again: the circuit is re-elaborated with PARAM
+ * at x[i]; when its structure matches the last solved point's, the new
+ * values are stamped into that system and re-solved from its solution
+ * (continuation: a nonlinear circuit starts from the previous point's
+ * operating point); otherwise, or if that fails, it is solved afresh.  A
+ * point whose circuit has no solution is left null with a one-line warning.
+ * Returns 0, or LS_EXIT_UNSOLVABLE after an error when memory ran out (the
+ * sweep stops: a point lost to memory is not a point without a solution). */
+static int reelaborate_point(sweep *w, int i)
+{
+    if (i % SWEEP_CHAIN == 0)   /* a new chain starts afresh */
+        drop_base(w);
+    char buf[256];
+    ls_cli pc;
+    if (!point_cli(w->cli, w->param, w->x[i], buf, sizeof buf, &pc)) {
+        fprintf(stderr, "loadstack: warning: %s = %.6g is left out (too many --set options)\n", w->param, w->x[i]);
+        return 0;
+    }
+    ls_session *s = malloc(sizeof *s);
+    if (!s)
+        return point_nomem(w, i, NULL);
+    const ls_q *q[MAX_QUANTITIES] = {NULL};
+    int code = load_point(w, &pc, s, q);
     int rc = 0;
-    if (code == LS_EXIT_OK && w->base && same_structure(&w->base->nl, &s->nl)) {
-        copy_values(&w->base->nl, &s->nl);
-        if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
-            /* this point's own bindings: a let inside a QUANTITY is a
-             * constant of the binding, and the base's hold the value of
-             * the point it was bound at (the structures match, so part
-             * and node indices agree) */
-            if (record(w, i, &w->base->op, q, &s->nl) != 0)
-                rc = point_nomem(w, i, NULL);
-            ls_session_free(s);
-            free(s);
-            return rc;
-        }
-        if (w->base->op.nomem) {
-            rc = point_nomem(w, i, w->base);
-            ls_session_free(s);
-            free(s);
-            return rc;
-        }
+    if (code == LS_EXIT_OK && continue_base(w, i, s, q, &rc)) {
+        free_session(s);
+        return rc;
     }
     if (code == LS_EXIT_OK)
         code = ls_session_solve(s);
     if (code == LS_EXIT_OK) {
         if (record(w, i, &s->op, q, &s->nl) != 0)
             rc = point_nomem(w, i, NULL);
-        if (w->base) {   /* this point becomes the one the next continues from */
-            ls_session_free(w->base);
-            free(w->base);
-        }
-        w->base = s;
+        drop_base(w);
+        w->base = s;   /* the point the next continues from */
         return rc;
     }
     if (ls_session_nomem(s)) {
         rc = point_nomem(w, i, s);
-        ls_session_free(s);
-        free(s);
-        return rc;
+    } else {
+        const char *why = first_error(s);
+        fprintf(stderr, "loadstack: warning: at %s = %.6g the circuit cannot be solved%s%s; that point is null\n",
+                w->param, w->x[i], *why ? ": " : "", why);
     }
-    const char *why = "";
-    for (int j = 0; j < s->diags.n && !*why; j++)
-        if (s->diags.items[j].sev == LS_SEV_ERROR)
-            why = s->diags.items[j].msg;
-    fprintf(stderr, "loadstack: warning: at %s = %.6g the circuit cannot be solved%s%s; that point is null\n", w->param,
-            w->x[i], *why ? ": " : "", why);
-    ls_session_free(s);
-    free(s);
-    return 0;
+    free_session(s);
+    return rc;
 }
 
 /* Solve point i in the circuit elaborated once: its values set, then solved
@@ -393,11 +418,7 @@ static int solve_point(sweep *w, int i)
         return reelaborate_point(w, i);
     }
     int rc = reelaborate_point(w, i);
-    if (w->base) {   /* points continue from the circuit elaborated once */
-        ls_session_free(w->base);
-        free(w->base);
-        w->base = NULL;
-    }
+    drop_base(w);   /* points continue from the circuit elaborated once */
     return rc;
 }
 
@@ -406,79 +427,39 @@ static int solve_point(sweep *w, int i)
 /* Value of quantity k at point i (NaN when not solved). */
 static double yat(const sweep *w, int i, int k) { return w->y[(size_t)i * (size_t)w->nq + (size_t)k]; }
 
-/* The sweep as one JSON object: the let, then one object per point; a
- * quantity at a point that could not be solved is null, "unsolved". */
-static void sweep_json(ls_report *rp, const sweep *w)
-{
-    ls_jw jw, *j = &jw;
-    ls_report_json_begin(rp, j);
-    ls_jw_str(j, "let", w->param);
-    ls_jw_arr(j, "points");
-    for (int i = 0; i < w->steps; i++) {
-        ls_jw_obj(j, NULL);
-        ls_jw_num(j, w->param, w->x[i]);
-        for (int k = 0; k < w->nq; k++) {
-            double v = yat(w, i, k);
-            ls_jw_num_why(j, w->qtext[k], v, !w->solved[i] ? LS_WHY_UNSOLVED : ls_jw_why_of(v));
-        }
-        ls_jw_end(j);
-    }
-    ls_jw_end(j);
-    ls_report_json_end(rp, j);
-}
-
-/* The sweep as CSV: a header row, then one row per point, the param first. */
-static void sweep_csv(FILE *o, const sweep *w)
-{
-    ls_csv_field(o, w->param);
-    for (int k = 0; k < w->nq; k++) {
-        fputc(',', o);
-        ls_csv_field(o, w->qtext[k]);
-    }
-    fputc('\n', o);
-    for (int i = 0; i < w->steps; i++) {
-        ls_csv_number(o, w->x[i]);
-        for (int k = 0; k < w->nq; k++) {
-            fputc(',', o);
-            ls_csv_number(o, yat(w, i, k));
-        }
-        fputc('\n', o);
-    }
-}
-
-/* Print s right-aligned in w columns after two spaces, counting UTF-8 code
- * points (a unit may hold multi-byte signs such as Ω). */
-static void rpad(FILE *o, const char *s, int w)
-{
-    int n = 0;
-    for (const char *c = s; *c; c++)
-        n += ((unsigned char)*c & 0xC0) != 0x80;
-    fprintf(o, "  %*s%s", w > n ? w - n : 0, "", s);
-}
-
-/* The sweep as an aligned table in engineering notation with units. */
-static void sweep_text(FILE *o, const ls_report *rp, const sweep *w)
+/* The sweep report, described once for every format (writer.h): the let,
+ * then a table of one row per point, the let's value first; a quantity at
+ * a point that could not be solved is null, "unsolved" (CSV: empty).  In
+ * text, engineering notation with units, each column at least 12 wide. */
+static void sweep_report(ls_report *rp, const sweep *w)
 {
     char b[64];
     const char *xu = ls_unit_of(w->xdims, w->cli->ascii);
-    fprintf(o, "Sweep of %s from %s to %s, %d points%s\n\n", w->param, ls_eng(rp, b, sizeof b, w->x[0], xu),
-            ls_eng(rp, b + 32, 32, w->x[w->steps - 1], xu), w->steps, w->cli->log ? " (log spacing)" : "");
-    int width[MAX_QUANTITIES + 1];
-    width[0] = (int)strlen(w->param) > 12 ? (int)strlen(w->param) : 12;
-    fprintf(o, "  %*s", width[0], w->param);
-    for (int k = 0; k < w->nq; k++) {
-        width[k + 1] = (int)strlen(w->qtext[k]) > 12 ? (int)strlen(w->qtext[k]) : 12;
-        fprintf(o, "  %*s", width[k + 1], w->qtext[k]);
+    ls_wr wr;
+    ls_wr_begin(&wr, rp);
+    ls_wr_str(&wr, "let", w->param);
+    ls_wr_say(&wr, "Sweep of %s from %s to %s, %d points%s\n\n", w->param, ls_eng(rp, b, sizeof b, w->x[0], xu),
+              ls_eng(rp, b + 32, 32, w->x[w->steps - 1], xu), w->steps, w->cli->log ? " (log spacing)" : "");
+    ls_wr_col cols[MAX_QUANTITIES + 1];
+    for (int k = 0; k <= w->nq; k++) {
+        const char *name = k ? w->qtext[k - 1] : w->param;
+        int len = ls_width(name);
+        cols[k] = (ls_wr_col){name, name, name, true, len > 12 ? len : 12};
     }
-    fputc('\n', o);
+    static const ls_wr_style style = {.fixed = true};
+    ls_wr_table(&wr, "points", cols, w->nq + 1, &style);
     for (int i = 0; i < w->steps; i++) {
-        rpad(o, ls_eng(rp, b, sizeof b, w->x[i], xu), width[0]);
-        for (int k = 0; k < w->nq; k++)
-            rpad(o, w->solved[i] ? ls_eng(rp, b, sizeof b, yat(w, i, k), ls_unit_of(w->qdims[k], w->cli->ascii))
-                                 : "unsolved",
-                 width[k + 1]);
-        fputc('\n', o);
+        ls_wr_cell_num(&wr, w->x[i], ls_eng(rp, b, sizeof b, w->x[i], xu));
+        for (int k = 0; k < w->nq; k++) {
+            double v = yat(w, i, k);
+            const char *text = w->solved[i] ? ls_eng(rp, b, sizeof b, v, ls_unit_of(w->qdims[k], w->cli->ascii))
+                                            : "unsolved";
+            ls_wr_cell_why(&wr, v, !w->solved[i] ? LS_WHY_UNSOLVED : ls_jw_why_of(v), text);
+        }
+        ls_wr_row(&wr);
     }
+    ls_wr_table_end(&wr);
+    ls_wr_finish(&wr);
 }
 
 /* Draw the curves.  Returns 0, or LS_EXIT_USAGE after saying why. */
@@ -581,6 +562,87 @@ static int sweep_args(ls_cli *cli, sweep *w, double *from, double *to)
     return 0;
 }
 
+/* The arrays of w's points (steps padded to whole chains) and their let
+ * values from FROM to TO.  Returns an exit code, after an error. */
+static int sweep_alloc(sweep *w, double from, double to)
+{
+    w->padded = (w->steps + SWEEP_CHAIN - 1) / SWEEP_CHAIN * SWEEP_CHAIN;
+    w->x = malloc((size_t)w->steps * sizeof *w->x);
+    w->y = malloc((size_t)w->padded * (size_t)w->nq * sizeof *w->y);
+    w->solved = calloc((size_t)w->padded, sizeof *w->solved);
+    if (!w->x || !w->y || !w->solved) {
+        fprintf(stderr, "loadstack: error: out of memory for %d sweep points\n", w->steps);
+        return LS_EXIT_UNSOLVABLE;
+    }
+    ls_sweep_points(from, to, w->steps, w->cli->log, w->x);
+    return LS_EXIT_OK;
+}
+
+/* Solve this process's points in order (all of them without a share), with
+ * a progress line, then hand them to the other processes.  Returns an exit
+ * code. */
+static int sweep_run(sweep *w)
+{
+    const ls_cli *cli = w->cli;
+    int code = LS_EXIT_OK;
+    ls_progress pg;
+    ls_progress_start(&pg, "sweep", "points", cli->quiet);
+    long first, last; /* this process's chains, then points */
+    ls_share_range(cli->share, w->padded / SWEEP_CHAIN, &first, &last);
+    first *= SWEEP_CHAIN;
+    last = last * SWEEP_CHAIN < w->steps ? last * SWEEP_CHAIN : w->steps;
+    for (long i = first; code == LS_EXIT_OK && i < last; i++) {
+        for (int k = 0; k < w->nq; k++)
+            w->y[(size_t)i * (size_t)w->nq + (size_t)k] = NAN;
+        code = solve_point(w, (int)i);
+        ls_progress_update(&pg, i - first + 1, last - first);
+    }
+    ls_progress_end(&pg);
+    if (code == LS_EXIT_OK && share_points(cli->share, w) != 0) {
+        fprintf(stderr, "loadstack: error: the processes could not exchange the sweep's points\n");
+        code = LS_EXIT_UNSOLVABLE;
+    }
+    return code;
+}
+
+/* Free the sessions the points were solved in. */
+static void sweep_sessions_free(sweep *w)
+{
+    drop_base(w);
+    if (w->probe) {
+        ls_sweeper_free(&w->sw);
+        free_session(w->probe);
+        w->probe = NULL;
+        ls_letdeps_free(&w->deps);
+    }
+}
+
+/* After the points: a sweep of no solved point fails; else the plot and
+ * the report.  Returns the exit code. */
+static int sweep_output(sweep *w)
+{
+    ls_cli *cli = w->cli;
+    int nsolved = 0;
+    for (int i = 0; i < w->steps; i++)
+        nsolved += w->solved[i];
+    if (nsolved == 0) {
+        fprintf(stderr, "loadstack: error: the circuit cannot be solved at any point of the sweep\n");
+        return LS_EXIT_UNSOLVABLE;
+    }
+    if (cli->plot) {
+        int code = sweep_plot(w);
+        if (code != LS_EXIT_OK)
+            return code;
+    }
+    ls_session s;   /* only for the report's meta */
+    memset(&s, 0, sizeof s);
+    s.cli = cli;
+    s.input_path = cli->pos[0];
+    ls_report rp = ls_report_for(&s, ls_out_open(cli));
+    sweep_report(&rp, w);
+    return ls_report_done(&rp, LS_EXIT_OK);
+}
+
 /* `loadstack sweep FILE PARAM FROM TO QUANTITY...`: every point in order,
  * then the plot and the report.  Returns the exit code. */
 int ls_cmd_sweep(ls_cli *cli)
@@ -590,70 +652,14 @@ int ls_cmd_sweep(ls_cli *cli)
     double from, to;
     if (sweep_args(cli, &w, &from, &to))
         return LS_EXIT_USAGE;
-    w.padded = (w.steps + SWEEP_CHAIN - 1) / SWEEP_CHAIN * SWEEP_CHAIN;
-    w.x = malloc((size_t)w.steps * sizeof *w.x);
-    w.y = malloc((size_t)w.padded * (size_t)w.nq * sizeof *w.y);
-    w.solved = calloc((size_t)w.padded, sizeof *w.solved);
-    int code = w.x && w.y && w.solved ? LS_EXIT_OK : LS_EXIT_UNSOLVABLE;
-    if (code != LS_EXIT_OK)
-        fprintf(stderr, "loadstack: error: out of memory for %d sweep points\n", w.steps);
-    if (code == LS_EXIT_OK)
-        ls_sweep_points(from, to, w.steps, cli->log, w.x);
+    int code = sweep_alloc(&w, from, to);
     if (code == LS_EXIT_OK)
         code = probe(&w);
-    ls_progress pg;
-    ls_progress_start(&pg, "sweep", "points", cli->quiet);
-    long first, last; /* this process's chains, then points (all of them without a share) */
-    ls_share_range(cli->share, w.padded / SWEEP_CHAIN, &first, &last);
-    first *= SWEEP_CHAIN;
-    last = last * SWEEP_CHAIN < w.steps ? last * SWEEP_CHAIN : w.steps;
-    for (long i = first; code == LS_EXIT_OK && i < last; i++) {
-        for (int k = 0; k < w.nq; k++)
-            w.y[(size_t)i * (size_t)w.nq + (size_t)k] = NAN;
-        code = solve_point(&w, (int)i);
-        ls_progress_update(&pg, i - first + 1, last - first);
-    }
-    ls_progress_end(&pg);
-    if (code == LS_EXIT_OK && share_points(cli->share, &w) != 0) {
-        fprintf(stderr, "loadstack: error: the processes could not exchange the sweep's points\n");
-        code = LS_EXIT_UNSOLVABLE;
-    }
-    if (w.base) {
-        ls_session_free(w.base);
-        free(w.base);
-        w.base = NULL;
-    }
-    if (w.probe) {
-        ls_sweeper_free(&w.sw);
-        ls_session_free(w.probe);
-        free(w.probe);
-        w.probe = NULL;
-        ls_letdeps_free(&w.deps);
-    }
-    int nsolved = 0;
-    for (int i = 0; code == LS_EXIT_OK && i < w.steps; i++)
-        nsolved += w.solved[i];
-    if (code == LS_EXIT_OK && nsolved == 0) {
-        fprintf(stderr, "loadstack: error: the circuit cannot be solved at any point of the sweep\n");
-        code = LS_EXIT_UNSOLVABLE;
-    }
-    if (code == LS_EXIT_OK && cli->plot)
-        code = sweep_plot(&w);
-    if (code == LS_EXIT_OK) {
-        FILE *o = ls_out_open(cli);
-        ls_session s;   /* only for the report's meta */
-        memset(&s, 0, sizeof s);
-        s.cli = cli;
-        s.input_path = cli->pos[0];
-        ls_report rp = ls_report_for(&s, o);
-        if (cli->fmt == FMT_JSON)
-            sweep_json(&rp, &w);
-        else if (cli->fmt == FMT_CSV)
-            sweep_csv(o, &w);
-        else
-            sweep_text(o, &rp, &w);
-        code = ls_report_done(&rp, code);
-    }
+    if (code == LS_EXIT_OK)
+        code = sweep_run(&w);
+    sweep_sessions_free(&w);
+    if (code == LS_EXIT_OK)
+        code = sweep_output(&w);
     code = ls_out_close(cli, code);
     free(w.x);
     free(w.y);

@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "cli/cli.h"
+#include "report/writer.h"
 #include "elab/elab.h"
 #include "base/fmt.h"
 #include "lang/parser.h"
@@ -44,142 +45,6 @@ static const char *check_wc_word(const tol_ctx *t, const ls_check *ck)
     return t->r.wc_min >= cr.lo && t->r.wc_max <= cr.hi ? "inside" : "outside";
 }
 
-/* The worst case's "parts": each varied part's value and tol (a fraction),
- * and where it sits at the minimum and the maximum (+tol or -tol, as a
- * fraction) with the corners, or its share of the linear half-width with the
- * sensitivities: what the text's part table shows. */
-static void tol_parts_json(ls_jw *w, const tol_ctx *t)
-{
-    const ls_tol_result *r = &t->r;
-    double lin = r->corners ? 0 : (r->wc_max - r->wc_min) / 2;
-    ls_jw_arr(w, "parts");
-    for (int j = 0; j < t->nv; j++) {
-        const ls_part *p = &t->s->nl.parts[t->v[j].part];
-        ls_jw_obj(w, NULL);
-        ls_jw_str(w, "part", p->name);
-        ls_jw_str(w, "kind", p->kind->name);
-        ls_jw_num(w, "part_value", t->v[j].nominal);
-        ls_jw_num(w, "tol", t->v[j].tol);
-        if (r->corners) {
-            bool known = isfinite(r->wc_min);
-            double lo = ((r->wc_min_mask >> j) & 1 ? 1 : -1) * t->v[j].tol;
-            double hi = ((r->wc_max_mask >> j) & 1 ? 1 : -1) * t->v[j].tol;
-            ls_jw_num_why(w, "at_min", known ? lo : NAN, LS_WHY_UNSOLVED);
-            ls_jw_num_why(w, "at_max", known ? hi : NAN, LS_WHY_UNSOLVED);
-        } else {
-            ls_jw_num_why(w, "share", lin > 0 ? t->v[j].dev / lin : NAN, LS_WHY_UNDEFINED);
-        }
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-}
-
-/* The tol report as one JSON object (cli.md keys; "rss" only with the
- * sensitivity method).  A statistic of no finite trial is "unsolved". */
-static void tol_json(ls_report *rp, const tol_ctx *t)
-{
-    const ls_tol_result *r = &t->r;
-    ls_jw jw, *w = &jw;
-    ls_report_json_begin(rp, w);
-    ls_jw_str(w, "quantity", t->qtext);
-    ls_jw_num(w, "nominal", r->nominal);
-    ls_jw_obj(w, "worst_case");
-    ls_jw_num(w, "min", r->wc_min);
-    ls_jw_num(w, "max", r->wc_max);
-    ls_jw_str(w, "method", r->corners ? "corners" : "sensitivity");
-    if (!r->corners)
-        ls_jw_num(w, "rss", r->rss);
-    tol_parts_json(w, t);
-    ls_jw_end(w);
-    ls_jw_obj(w, "monte_carlo");
-    ls_jw_int(w, "trials", t->trials);
-    ls_jw_int(w, "seed", (long long)t->seed);
-    ls_jw_str(w, "dist", t->normal ? "normal" : "uniform");
-    ls_jw_num(w, "mean", r->mean);
-    ls_jw_num(w, "std", r->std);
-    ls_jw_num(w, "min", r->min);
-    ls_jw_num(w, "max", r->max);
-    ls_jw_int(w, "finite", r->finite);
-    ls_jw_obj(w, "percentiles");
-    for (int k = 0; k < 5; k++)
-        ls_jw_num(w, ls_tol_pct_keys[k], r->pct[k]);
-    ls_jw_end(w);
-    ls_jw_end(w);
-    if (isfinite(r->yield))
-        ls_jw_num(w, "yield", r->yield);
-    else
-        ls_jw_null(w, "yield", t->nchecks ? LS_WHY_UNSOLVED : LS_WHY_NONE);
-    ls_jw_arr(w, "checks");
-    for (int c = 0; c < t->nchecks; c++) {
-        const ls_check *ck = &t->s->nl.checks[t->checks[c]];
-        ls_jw_obj(w, NULL);
-        ls_jw_str(w, "text", ck->text);
-        ls_jw_str(w, "instance", ck->instance);
-        ls_jw_str(w, "worst_case", check_wc_word(t, ck));
-        ls_jw_end(w);
-    }
-    ls_jw_end(w);
-    ls_report_json_end(rp, w);
-}
-
-/* One `field,value` CSV row; an empty value when v is not finite. */
-static void csv_num(FILE *o, const char *field, double v)
-{
-    fprintf(o, "%s,%s\n", field, LS_CSV(v));
-}
-
-/* The tol report as `field,value` rows. */
-static void tol_csv(FILE *o, const tol_ctx *t)
-{
-    const ls_tol_result *r = &t->r;
-    fputs("field,value\nquantity,", o);
-    ls_csv_field(o, t->qtext);
-    fputc('\n', o);
-    csv_num(o, "nominal", r->nominal);
-    csv_num(o, "worst_case.min", r->wc_min);
-    csv_num(o, "worst_case.max", r->wc_max);
-    fprintf(o, "worst_case.method,%s\n", r->corners ? "corners" : "sensitivity");
-    if (!r->corners)
-        csv_num(o, "worst_case.rss", r->rss);
-    fprintf(o, "monte_carlo.trials,%ld\nmonte_carlo.seed,%llu\nmonte_carlo.dist,%s\n", t->trials,
-            (unsigned long long)t->seed, t->normal ? "normal" : "uniform");
-    csv_num(o, "monte_carlo.mean", r->mean);
-    csv_num(o, "monte_carlo.std", r->std);
-    csv_num(o, "monte_carlo.min", r->min);
-    csv_num(o, "monte_carlo.max", r->max);
-    for (int k = 0; k < 5; k++) {
-        char f[64];
-        snprintf(f, sizeof f, "monte_carlo.percentiles.%s", ls_tol_pct_keys[k]);
-        csv_num(o, f, r->pct[k]);
-    }
-    csv_num(o, "monte_carlo.finite", (double)r->finite);
-    csv_num(o, "yield", r->yield);
-    double lin = r->corners ? 0 : (r->wc_max - r->wc_min) / 2;
-    for (int j = 0; j < t->nv; j++) {
-        const char *name = t->s->nl.parts[t->v[j].part].name;
-        char f[300];
-        snprintf(f, sizeof f, "worst_case.parts.%s.tol", name);
-        csv_num(o, f, t->v[j].tol);
-        if (r->corners && isfinite(r->wc_min)) {
-            snprintf(f, sizeof f, "worst_case.parts.%s.at_min", name);
-            csv_num(o, f, ((r->wc_min_mask >> j) & 1 ? 1 : -1) * t->v[j].tol);
-            snprintf(f, sizeof f, "worst_case.parts.%s.at_max", name);
-            csv_num(o, f, ((r->wc_max_mask >> j) & 1 ? 1 : -1) * t->v[j].tol);
-        } else if (!r->corners) {
-            snprintf(f, sizeof f, "worst_case.parts.%s.share", name);
-            csv_num(o, f, lin > 0 ? t->v[j].dev / lin : NAN);
-        }
-    }
-    for (int c = 0; c < t->nchecks; c++) {
-        const ls_check *ck = &t->s->nl.checks[t->checks[c]];
-        const char *wc = check_wc_word(t, ck);
-        char f[600];
-        snprintf(f, sizeof f, "check.%s.worst_case", ck->text);
-        ls_csv_field(o, f);
-        fprintf(o, ",%s\n", wc ? wc : "");
-    }
-}
-
 /* "+1%" / "-5%" for part j at the corner mask. */
 static const char *corner_word(char *b, size_t n, const ls_tol_vary *v, unsigned long mask, int j)
 {
@@ -187,93 +52,238 @@ static const char *corner_word(char *b, size_t n, const ls_tol_vary *v, unsigned
     return b;
 }
 
-/* Print s right-aligned in w columns after a space, counting UTF-8 code points. */
-static void rpad(FILE *o, const char *s, int w)
-{
-    int n = 0;
-    for (const char *c = s; *c; c++)
-        n += ((unsigned char)*c & 0xC0) != 0x80;
-    fprintf(o, " %*s%s", w > n ? w - n : 0, "", s);
-}
+/* The worst case's parts (JSON, text): each varied part's value and tol (a
+ * fraction), and where it sits at the minimum and the maximum (+tol or
+ * -tol, as a fraction) with the corners, or its share of the linear
+ * half-width with the sensitivities. */
+static const ls_wr_col corner_cols[] = {
+    {"part", NULL, "part", false, 20},       {"kind", NULL, "kind", false, 9},
+    {"part_value", NULL, "value", true, 14}, {"tol", NULL, "tol", true, 8},
+    {"at_min", NULL, "at min", true, 12},    {"at_max", NULL, "at max", true, 12},
+};
+static const ls_wr_col share_cols[] = {
+    {"part", NULL, "part", false, 20},       {"kind", NULL, "kind", false, 9},
+    {"part_value", NULL, "value", true, 14}, {"tol", NULL, "tol", true, 8},
+    {"share", NULL, "share", true, 12},
+};
 
-/* The tol report for people: worst case with each part's end or share, the
- * Monte Carlo statistics, and the yield with each expect's verdict. */
-static void tol_text(FILE *o, ls_report *rp, const tol_ctx *t)
+/* One row of the parts' table: varied part j. */
+static void tol_part_row(ls_wr *w, const tol_ctx *t, int j, double lin)
 {
+    const ls_report *rp = w->rp;
     const ls_tol_result *r = &t->r;
-    const ls_netlist *nl = &t->s->nl;
-    const char *u = t->unit;
-    char b1[64], b2[64], b3[64], b4[64];
-    fprintf(o, "Tolerance of %s (nominal %s): %d part%s vary\n\n", t->qtext, ls_eng(rp, b1, sizeof b1, r->nominal, u),
-            t->nv, t->nv == 1 ? "" : "s");
-    if (t->nv == 0) {
-        fputs("Nothing varies (no part has tol=): the worst case and every Monte Carlo trial would give the nominal\n"
-              "value, so no trials were run.\n", o);
-        if (t->nchecks > 0)
-            fprintf(o, "\nYield %s (the nominal design %s every expect on %s)\n", r->yield > 0 ? "100%" : "0%",
-                    r->yield > 0 ? "meets" : "does not meet", t->qtext);
-        else
-            fprintf(o, "\nYield: no expect on %s in the circuit\n", t->qtext);
-        return;
-    }
-    if (r->corners)
-        fprintf(o, "Worst case, every corner (%lu solves):\n", 1ul << t->nv);
-    else
-        fprintf(o, "Worst case, linear from the sensitivities (%d parts are too many for every corner):\n", t->nv);
-    fprintf(o, "  min %s   max %s", ls_eng(rp, b1, sizeof b1, r->wc_min, u), ls_eng(rp, b2, sizeof b2, r->wc_max, u));
-    if (r->nominal != 0 && isfinite(r->wc_min))
-        fprintf(o, "   (%s%% .. %s%% of nominal)", ls_fixed(rp, b3, sizeof b3, "%+.3g", 100 * (r->wc_min / r->nominal - 1)),
-                ls_fixed(rp, b4, sizeof b4, "%+.3g", 100 * (r->wc_max / r->nominal - 1)));
-    fputc('\n', o);
-    if (!r->corners)
-        fprintf(o, "  root-sum-square estimate: %s +- %s\n", ls_eng(rp, b1, sizeof b1, r->nominal, u),
-                ls_eng(rp, b2, sizeof b2, r->rss, u));
-    if (r->corners)
-        fprintf(o, "\n  %-20s %-9s %14s %8s %12s %12s\n", "part", "kind", "value", "tol", "at min", "at max");
-    else
-        fprintf(o, "\n  %-20s %-9s %14s %8s %12s\n", "part", "kind", "value", "tol", "share");
-    double lin = r->corners ? 0 : (r->wc_max - r->wc_min) / 2;
-    for (int j = 0; j < t->nv; j++) {
-        const ls_part *p = &nl->parts[t->v[j].part];
-        char tb[32], c1[48] = "", c2[32] = "", vb[64];
-        snprintf(tb, sizeof tb, "%.4g%%", 100 * t->v[j].tol);
-        if (r->corners && isfinite(r->wc_min)) {
+    const ls_tol_vary *v = &t->v[j];
+    const ls_part *p = &t->s->nl.parts[v->part];
+    char tb[32], vb[64], c1[48] = "", c2[32] = "", b[64];
+    snprintf(tb, sizeof tb, "%.4g%%", 100 * v->tol);
+    ls_wr_cell_str(w, p->name);
+    ls_wr_cell_str(w, p->kind->name);
+    ls_wr_cell_num(w, v->nominal, ls_eng(rp, vb, sizeof vb, v->nominal, ls_unit_of(ls_kind_main_dims(p->kind), t->cli->ascii)));
+    ls_wr_cell_num(w, v->tol, tb);
+    if (r->corners) {
+        bool known = isfinite(r->wc_min);
+        double lo = ((r->wc_min_mask >> j) & 1 ? 1 : -1) * v->tol;
+        double hi = ((r->wc_max_mask >> j) & 1 ? 1 : -1) * v->tol;
+        if (known) {
             corner_word(c1, sizeof c1, t->v, r->wc_min_mask, j);
             corner_word(c2, sizeof c2, t->v, r->wc_max_mask, j);
-        } else if (!r->corners && lin > 0) {
-            snprintf(c1, sizeof c1, "%s%%", ls_fixed(rp, b3, sizeof b3, "%.1f", 100 * t->v[j].dev / lin));
         }
-        ls_eng(rp, vb, sizeof vb, t->v[j].nominal, ls_unit_of(ls_kind_main_dims(p->kind), t->cli->ascii));
-        fprintf(o, "  %-20s %-9s", p->name, p->kind->name);
-        rpad(o, vb, 14);
+        ls_wr_cell_why(w, known ? lo : NAN, LS_WHY_UNSOLVED, c1);
+        ls_wr_cell_why(w, known ? hi : NAN, LS_WHY_UNSOLVED, c2);
+    } else {
+        if (lin > 0)
+            snprintf(c1, sizeof c1, "%s%%", ls_fixed(rp, b, sizeof b, "%.1f", 100 * v->dev / lin));
+        ls_wr_cell_why(w, lin > 0 ? v->dev / lin : NAN, LS_WHY_UNDEFINED, c1);
+    }
+    ls_wr_row(w);
+}
+
+/* The worst case: "worst_case" {min, max, method, rss with the
+ * sensitivities, parts}; in text (when a part varies) how it was found,
+ * the range and the parts' table. */
+static void tol_worst_case(ls_wr *w, const tol_ctx *t)
+{
+    const ls_report *rp = w->rp;
+    const ls_tol_result *r = &t->r;
+    const char *u = t->unit;
+    char b1[64], b2[64], b3[64], b4[64];
+    ls_wr_obj(w, "worst_case");
+    ls_wr_num(w, "min", r->wc_min);
+    ls_wr_num(w, "max", r->wc_max);
+    ls_wr_str(w, "method", r->corners ? "corners" : "sensitivity");
+    if (!r->corners)
+        ls_wr_num(w, "rss", r->rss);
+    if (t->nv > 0) {
         if (r->corners)
-            fprintf(o, " %8s %12s %12s\n", tb, c1, c2);
+            ls_wr_say(w, "Worst case, every corner (%lu solves):\n", 1ul << t->nv);
         else
-            fprintf(o, " %8s %12s\n", tb, c1);
+            ls_wr_say(w, "Worst case, linear from the sensitivities (%d parts are too many for every corner):\n", t->nv);
+        ls_wr_say(w, "  min %s   max %s", ls_eng(rp, b1, sizeof b1, r->wc_min, u), ls_eng(rp, b2, sizeof b2, r->wc_max, u));
+        if (r->nominal != 0 && isfinite(r->wc_min))
+            ls_wr_say(w, "   (%s%% .. %s%% of nominal)",
+                      ls_fixed(rp, b3, sizeof b3, "%+.3g", 100 * (r->wc_min / r->nominal - 1)),
+                      ls_fixed(rp, b4, sizeof b4, "%+.3g", 100 * (r->wc_max / r->nominal - 1)));
+        ls_wr_say(w, "\n");
+        if (!r->corners)
+            ls_wr_say(w, "  root-sum-square estimate: %s +- %s\n", ls_eng(rp, b1, sizeof b1, r->nominal, u),
+                      ls_eng(rp, b2, sizeof b2, r->rss, u));
+        ls_wr_say(w, "\n");
     }
-    fprintf(o, "\nMonte Carlo, %ld trials, %s, seed %llu:\n", t->trials,
-            t->normal ? "normal (tol = 3 sigma)" : "uniform within +-tol", (unsigned long long)t->seed);
-    fprintf(o, "  mean %s   std %s   min %s   max %s\n", ls_eng(rp, b1, sizeof b1, r->mean, u),
-            ls_eng(rp, b2, sizeof b2, r->std, u), ls_eng(rp, b3, sizeof b3, r->min, u),
-            ls_eng(rp, b4, sizeof b4, r->max, u));
-    fputs("  percentiles", o);
+    static const ls_wr_style style = {.lead = "  ", .gap = " ", .fixed = true, .skip_empty = true};
+    if (r->corners)
+        ls_wr_table(w, "parts", corner_cols, (int)(sizeof corner_cols / sizeof *corner_cols), &style);
+    else
+        ls_wr_table(w, "parts", share_cols, (int)(sizeof share_cols / sizeof *share_cols), &style);
+    double lin = r->corners ? 0 : (r->wc_max - r->wc_min) / 2;
+    for (int j = 0; j < t->nv; j++)
+        tol_part_row(w, t, j, lin);
+    ls_wr_table_end(w);
+    ls_wr_end(w);
+}
+
+/* The Monte Carlo statistics: "monte_carlo" {trials, seed, dist, mean, std,
+ * min, max, finite, percentiles} (the CSV has finite after the
+ * percentiles); in text (when a part varies) their lines. */
+static void tol_monte_carlo(ls_wr *w, const tol_ctx *t)
+{
+    const ls_report *rp = w->rp;
+    const ls_tol_result *r = &t->r;
+    const char *u = t->unit;
+    char b1[64], b2[64], b3[64], b4[64];
+    ls_wr_obj(w, "monte_carlo");
+    ls_wr_int(w, "trials", t->trials);
+    ls_wr_csv_rows(w, false);
+    ls_wr_int(w, "seed", (long long)t->seed);
+    ls_wr_csv_rows(w, true);
+    ls_wr_json_members(w, false);   /* the seed in CSV: all 64 bits unsigned */
+    snprintf(b1, sizeof b1, "%llu", (unsigned long long)t->seed);
+    ls_wr_str(w, "seed", b1);
+    ls_wr_json_members(w, true);
+    ls_wr_str(w, "dist", t->normal ? "normal" : "uniform");
+    ls_wr_num(w, "mean", r->mean);
+    ls_wr_num(w, "std", r->std);
+    ls_wr_num(w, "min", r->min);
+    ls_wr_num(w, "max", r->max);
+    ls_wr_csv_rows(w, false);
+    ls_wr_int(w, "finite", r->finite);
+    ls_wr_csv_rows(w, true);
+    ls_wr_obj(w, "percentiles");
     for (int k = 0; k < 5; k++)
-        fprintf(o, "  %s%%: %s", ls_tol_pct_keys[k], ls_eng(rp, b1, sizeof b1, r->pct[k], u));
-    fputc('\n', o);
-    if (r->finite < t->trials)
-        fprintf(o, "  %ld trials did not solve or gave no finite value\n", t->trials - r->finite);
-    if (t->nchecks == 0) {
-        fprintf(o, "\nYield: no expect on %s in the circuit\n", t->qtext);
+        ls_wr_num(w, ls_tol_pct_keys[k], r->pct[k]);
+    ls_wr_end(w);
+    ls_wr_json_members(w, false);
+    ls_wr_num(w, "finite", (double)r->finite);
+    ls_wr_json_members(w, true);
+    ls_wr_end(w);
+    if (t->nv == 0)
         return;
+    ls_wr_say(w, "\nMonte Carlo, %ld trials, %s, seed %llu:\n", t->trials,
+              t->normal ? "normal (tol = 3 sigma)" : "uniform within +-tol", (unsigned long long)t->seed);
+    ls_wr_say(w, "  mean %s   std %s   min %s   max %s\n", ls_eng(rp, b1, sizeof b1, r->mean, u),
+              ls_eng(rp, b2, sizeof b2, r->std, u), ls_eng(rp, b3, sizeof b3, r->min, u),
+              ls_eng(rp, b4, sizeof b4, r->max, u));
+    ls_wr_say(w, "  percentiles");
+    for (int k = 0; k < 5; k++)
+        ls_wr_say(w, "  %s%%: %s", ls_tol_pct_keys[k], ls_eng(rp, b1, sizeof b1, r->pct[k], u));
+    ls_wr_say(w, "\n");
+    if (r->finite < t->trials)
+        ls_wr_say(w, "  %ld trials did not solve or gave no finite value\n", t->trials - r->finite);
+}
+
+/* The CSV's rows of the worst case's parts, after the statistics:
+ * worst_case.parts.NAME.tol, .at_min and .at_max (when known) or .share. */
+static void tol_parts_csv(ls_wr *w, const tol_ctx *t)
+{
+    const ls_tol_result *r = &t->r;
+    double lin = r->corners ? 0 : (r->wc_max - r->wc_min) / 2;
+    ls_wr_json_members(w, false);
+    ls_wr_obj(w, "worst_case");
+    ls_wr_obj(w, "parts");
+    for (int j = 0; j < t->nv; j++) {
+        ls_wr_obj(w, t->s->nl.parts[t->v[j].part].name);
+        ls_wr_num(w, "tol", t->v[j].tol);
+        if (r->corners && isfinite(r->wc_min)) {
+            ls_wr_num(w, "at_min", ((r->wc_min_mask >> j) & 1 ? 1 : -1) * t->v[j].tol);
+            ls_wr_num(w, "at_max", ((r->wc_max_mask >> j) & 1 ? 1 : -1) * t->v[j].tol);
+        } else if (!r->corners) {
+            ls_wr_num(w, "share", lin > 0 ? t->v[j].dev / lin : NAN);
+        }
+        ls_wr_end(w);
     }
-    fprintf(o, "\nYield %s%% (trials meeting every expect on %s):\n", ls_fixed(rp, b1, sizeof b1, "%.2f", 100 * r->yield),
-            t->qtext);
+    ls_wr_end(w);
+    ls_wr_end(w);
+    ls_wr_json_members(w, true);
+}
+
+/* The yield and each expect's verdict at the worst case: "yield", "checks"
+ * [{text, instance, worst_case}] (CSV: check.TEXT.worst_case), and their
+ * lines in text. */
+static void tol_yield(ls_wr *w, const tol_ctx *t)
+{
+    const ls_report *rp = w->rp;
+    const ls_tol_result *r = &t->r;
+    const ls_netlist *nl = &t->s->nl;
+    char b1[64];
+    ls_wr_num_why(w, "yield", r->yield, t->nchecks ? LS_WHY_UNSOLVED : LS_WHY_NONE);
+    tol_parts_csv(w, t);
+    if (t->nchecks == 0)
+        ls_wr_say(w, "\nYield: no expect on %s in the circuit\n", t->qtext);
+    else if (t->nv == 0)
+        ls_wr_say(w, "\nYield %s (the nominal design %s every expect on %s)\n", r->yield > 0 ? "100%" : "0%",
+                  r->yield > 0 ? "meets" : "does not meet", t->qtext);
+    else
+        ls_wr_say(w, "\nYield %s%% (trials meeting every expect on %s):\n",
+                  ls_fixed(rp, b1, sizeof b1, "%.2f", 100 * r->yield), t->qtext);
+    ls_wr_csv_rows(w, false);
+    ls_wr_arr(w, "checks");
     for (int c = 0; c < t->nchecks; c++) {
         const ls_check *ck = &nl->checks[t->checks[c]];
         const char *wc = check_wc_word(t, ck);
-        fprintf(o, "  %s%s%s  worst case %s\n", ck->text, ck->instance ? "  in " : "", ck->instance ? ck->instance : "",
-                !wc ? "unknown" : strcmp(wc, "inside") == 0 ? "inside" : "OUTSIDE");
+        ls_wr_obj(w, NULL);
+        ls_wr_str(w, "text", ck->text);
+        ls_wr_str(w, "instance", ck->instance);
+        ls_wr_str(w, "worst_case", wc);
+        ls_wr_end(w);
+        if (t->nv > 0)
+            ls_wr_say(w, "  %s%s%s  worst case %s\n", ck->text, ck->instance ? "  in " : "",
+                      ck->instance ? ck->instance : "", !wc ? "unknown" : strcmp(wc, "inside") == 0 ? "inside" : "OUTSIDE");
     }
+    ls_wr_end(w);
+    ls_wr_csv_rows(w, true);
+    ls_wr_json_members(w, false);
+    ls_wr_obj(w, "check");
+    for (int c = 0; c < t->nchecks; c++) {
+        const ls_check *ck = &nl->checks[t->checks[c]];
+        ls_wr_obj(w, ck->text);
+        ls_wr_str(w, "worst_case", check_wc_word(t, ck));
+        ls_wr_end(w);
+    }
+    ls_wr_end(w);
+    ls_wr_json_members(w, true);
+}
+
+/* The tol report, described once for every format (writer.h): the worst
+ * case with each part's end or share, the Monte Carlo statistics, and the
+ * yield with each expect's verdict.  The CSV is one row per field, named by
+ * its path (monte_carlo.mean). */
+static void tol_report(ls_report *rp, const tol_ctx *t)
+{
+    char b1[64];
+    ls_wr w;
+    ls_wr_begin(&w, rp);
+    ls_wr_fields(&w, "field", "value");
+    ls_wr_field_sep(&w, ".");
+    ls_wr_str(&w, "quantity", t->qtext);
+    ls_wr_num(&w, "nominal", t->r.nominal);
+    ls_wr_say(&w, "Tolerance of %s (nominal %s): %d part%s vary\n\n", t->qtext,
+              ls_eng(rp, b1, sizeof b1, t->r.nominal, t->unit), t->nv, t->nv == 1 ? "" : "s");
+    if (t->nv == 0)
+        ls_wr_say(&w, "Nothing varies (no part has tol=): the worst case and every Monte Carlo trial would give the "
+                      "nominal\nvalue, so no trials were run.\n");
+    tol_worst_case(&w, t);
+    tol_monte_carlo(&w, t);
+    tol_yield(&w, t);
+    ls_wr_finish(&w);
 }
 
 /* ---- the histogram ------------------------------------------------------------------------- */
@@ -409,14 +419,8 @@ int ls_cmd_tol(ls_cli *cli)
         ls_session_free(&s);
         return code;
     }
-    FILE *o = ls_out_open(cli);
-    ls_report rp = ls_report_for(&s, o);
-    if (cli->fmt == FMT_JSON)
-        tol_json(&rp, &t);
-    else if (cli->fmt == FMT_CSV)
-        tol_csv(o, &t);
-    else
-        tol_text(o, &rp, &t);
+    ls_report rp = ls_report_for(&s, ls_out_open(cli));
+    tol_report(&rp, &t);
     code = ls_out_close(cli, ls_session_verdict(&s, ls_report_done(&rp, LS_EXIT_OK)));
     ls_diags_print(&s.diags, stderr);
     ls_tol_free(&st);

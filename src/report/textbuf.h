@@ -53,7 +53,7 @@ void ls_pad(ls_obuf *out, const char *s, size_t len, int sw, int w, bool right);
  * arrive, so a table of a million rows costs no per-cell allocation and one
  * pass to print, which reads the cells in the order they were stored.  Set
  * ncol, head and right (and the layout fields) before the first row. */
-#define LS_TABLE_MAXCOL 12   /* the widest table, the ports', has 11 columns */
+#define LS_TABLE_MAXCOL 16   /* the widest table, a sweep's: the let and up to 12 quantities */
 
 typedef struct ls_table {
     int ncol;

@@ -19,7 +19,8 @@ int ls_wr_finish(ls_wr *w)
 {
     free(w->rbuf);
     free(w->join);
-    w->rbuf = w->join = NULL;
+    free(w->path);
+    w->rbuf = w->join = w->path = NULL;
     if (w->ob) {
         ls_ob_flush(w->ob);
         free(w->ob);
@@ -34,7 +35,7 @@ int ls_wr_finish(ls_wr *w)
  * where asked). */
 static bool json(const ls_wr *w)
 {
-    return w->rp->fmt == FMT_JSON;
+    return w->rp->fmt == FMT_JSON && !w->json_off;
 }
 
 /* Does a member go to a CSV field row now? */
@@ -92,6 +93,16 @@ static void csv_member(ls_wr *w, const char *key, const char *v, bool quote)
         join_item(w, v);
         return;
     }
+    if (w->plen && key) {   /* the open objects' keys, then its own */
+        size_t n = strlen(key) + 1;
+        size_t cap = room(&w->path, &w->pcap, w->plen + n);
+        if (cap) {
+            csv_lost(w, "a field name of the CSV report", cap);
+            return;
+        }
+        memcpy(w->path + w->plen, key, n);
+        key = w->path;
+    }
     ls_ob_csv_field(w->ob, key);
     ls_ob_putc(w->ob, ',');
     if (quote)
@@ -123,14 +134,49 @@ void ls_wr_csv_rows(ls_wr *w, bool on)
     w->rows_on = on;
 }
 
+void ls_wr_field_sep(ls_wr *w, const char *sep)
+{
+    w->sep = sep;
+}
+
+void ls_wr_json_members(ls_wr *w, bool on)
+{
+    w->json_off = !on;
+}
+
+/* Note a container opened (every format: the CSV rows' names follow the
+ * objects).  An object's key becomes part of the names of the rows inside it. */
+static void push(ls_wr *w, const char *key, bool arr)
+{
+    if (w->depth >= LS_JW_DEPTH) {   /* deeper than the JSON writer goes: counted only */
+        w->depth++;
+        return;
+    }
+    w->pat[w->depth] = w->plen;
+    w->parr[w->depth++] = arr;
+    if (arr || !key || !w->sep || !w->fields)
+        return;
+    size_t k = strlen(key), s = strlen(w->sep);
+    size_t cap = room(&w->path, &w->pcap, w->plen + k + s + 1);
+    if (cap) {
+        csv_lost(w, "a field name of the CSV report", cap);
+        return;
+    }
+    memcpy(w->path + w->plen, key, k);
+    memcpy(w->path + w->plen + k, w->sep, s + 1);
+    w->plen += k + s;
+}
+
 void ls_wr_obj(ls_wr *w, const char *key)
 {
+    push(w, key, false);
     if (json(w))
         ls_jw_obj(&w->jw, key);
 }
 
 void ls_wr_arr(ls_wr *w, const char *key)
 {
+    push(w, key, true);
     if (json(w))
         ls_jw_arr(&w->jw, key);
     else if (csv_row_on(w) && key) {
@@ -141,9 +187,18 @@ void ls_wr_arr(ls_wr *w, const char *key)
 
 void ls_wr_end(ls_wr *w)
 {
+    bool arr = false;
+    if (w->depth > LS_JW_DEPTH) {
+        w->depth--;
+    } else if (w->depth > 0) {
+        w->plen = w->pat[--w->depth];
+        arr = w->parr[w->depth];
+        if (w->path)
+            w->path[w->plen] = 0;
+    }
     if (json(w)) {
         ls_jw_end(&w->jw);
-    } else if (csv_row_on(w) && w->arr_key) {
+    } else if (csv_row_on(w) && arr && w->arr_key) {
         const char *key = w->arr_key;
         w->arr_key = NULL;
         csv_member(w, key, w->jlen ? w->join : "", true);
@@ -154,6 +209,14 @@ void ls_wr_num(ls_wr *w, const char *key, double v)
 {
     if (json(w))
         ls_jw_num(&w->jw, key, v);
+    else if (csv_row_on(w))
+        csv_member(w, key, LS_CSV(v), false);
+}
+
+void ls_wr_num_why(ls_wr *w, const char *key, double v, const char *why)
+{
+    if (json(w))
+        ls_jw_num_why(&w->jw, key, v, why);
     else if (csv_row_on(w))
         csv_member(w, key, LS_CSV(v), false);
 }
@@ -212,11 +275,20 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
     w->ncol = ncol < LS_WR_MAXCOL ? ncol : LS_WR_MAXCOL;
     w->cell = 0;
     w->skip_empty = style->skip_empty;
+    w->hidden = style->hide_text;
+    w->csv_none = true;
+    for (int c = 0; c < w->ncol; c++)
+        w->csv_none &= !cols[c].csv;
     w->csv_first = true;
     w->rlen = 0;
     switch (w->rp->fmt) {
-    case FMT_JSON: ls_jw_arr(&w->jw, key); break;
+    case FMT_JSON:
+        if (json(w))
+            ls_jw_arr(&w->jw, key);
+        break;
     case FMT_CSV:
+        if (w->csv_none)
+            break;
         if (!w->ob) {   /* (a report of field rows has its block already) */
             w->ob = malloc(sizeof *w->ob);
             if (!w->ob) {
@@ -225,6 +297,8 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
             }
             ls_ob_init(w->ob, w->rp->out);
         }
+        if (style->csv_more)
+            break;
         for (int c = 0; c < w->ncol; c++) {
             if (!cols[c].csv)
                 continue;
@@ -237,6 +311,8 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
         w->csv_first = true;
         break;
     case FMT_TEXT: {
+        if (w->hidden)
+            break;
         ls_table t = {.lead = style->lead, .gap = style->gap, .fixed = style->fixed};
         for (int c = 0; c < w->ncol; c++) {
             if (!cols[c].head)
@@ -261,6 +337,12 @@ static bool csv_cell(ls_wr *w, const ls_wr_col *c)
         ls_ob_putc(w->ob, ',');
     w->csv_first = false;
     return true;
+}
+
+/* Is the open table in the text report? */
+static bool text_on(const ls_wr *w)
+{
+    return w->rp->fmt == FMT_TEXT && !w->hidden;
 }
 
 /* Keep the text of the next cell for the text row. */
@@ -297,14 +379,19 @@ static const ls_wr_col *next_col(ls_wr *w)
 
 void ls_wr_cell_num(ls_wr *w, double v, const char *text)
 {
+    ls_wr_cell_why(w, v, ls_jw_why_of(v), text);
+}
+
+void ls_wr_cell_why(ls_wr *w, double v, const char *why, const char *text)
+{
     const ls_wr_col *c = next_col(w);
     if (!c)
         return;
     if (json(w) && c->json)
-        ls_jw_num(&w->jw, c->json, v);
+        ls_jw_num_why(&w->jw, c->json, v, why);
     if (csv_cell(w, c))
         ls_ob_csv_number(w->ob, v);
-    if (w->rp->fmt == FMT_TEXT && c->head) {
+    if (text_on(w) && c->head) {
         char b[64];
         text_cell(w, text ? text : ls_eng(w->rp, b, sizeof b, v, ""));
     }
@@ -322,8 +409,23 @@ void ls_wr_cell_int(ls_wr *w, long long v)
         ls_jw_int(&w->jw, c->json, v);
     if (csv_cell(w, c))
         ls_ob_puts(w->ob, b);
-    if (w->rp->fmt == FMT_TEXT && c->head)
+    if (text_on(w) && c->head)
         text_cell(w, b);
+    w->cell++;
+}
+
+void ls_wr_cell_bool(ls_wr *w, bool v)
+{
+    const ls_wr_col *c = next_col(w);
+    if (!c)
+        return;
+    const char *s = v ? "true" : "false";
+    if (json(w) && c->json)
+        ls_jw_bool(&w->jw, c->json, v);
+    if (csv_cell(w, c))
+        ls_ob_puts(w->ob, s);
+    if (text_on(w) && c->head)
+        text_cell(w, s);
     w->cell++;
 }
 
@@ -336,7 +438,7 @@ void ls_wr_cell_str(ls_wr *w, const char *s)
         ls_jw_str(&w->jw, c->json, s);
     if (csv_cell(w, c))
         ls_ob_csv_field(w->ob, s ? s : "");
-    if (w->rp->fmt == FMT_TEXT && c->head)
+    if (text_on(w) && c->head)
         text_cell(w, s ? s : "");
     w->cell++;
 }
@@ -345,15 +447,15 @@ void ls_wr_row(ls_wr *w)
 {
     switch (w->rp->fmt) {
     case FMT_JSON:
-        if (w->cell)
+        if (w->cell && json(w))
             ls_jw_end(&w->jw);
         break;
     case FMT_CSV:
-        if (w->ob)
+        if (w->ob && !w->csv_none)
             ls_ob_putc(w->ob, '\n');
         break;
     case FMT_TEXT:
-        if (!w->lost) {
+        if (!w->lost && !w->hidden) {
             const char *cells[LS_WR_MAXCOL];
             int k = 0;
             for (int c = 0; c < w->ncol; c++)
@@ -373,9 +475,14 @@ int ls_wr_table_end(ls_wr *w)
 {
     int rc = w->lost ? -1 : 0;
     switch (w->rp->fmt) {
-    case FMT_JSON: ls_jw_end(&w->jw); break;
+    case FMT_JSON:
+        if (json(w))
+            ls_jw_end(&w->jw);
+        break;
     case FMT_CSV:
-        if (w->ob) {
+        if (w->csv_none) {
+            break;
+        } else if (w->ob) {
             ls_ob_flush(w->ob);
             if (!w->fields) {
                 free(w->ob);
@@ -386,6 +493,8 @@ int ls_wr_table_end(ls_wr *w)
         }
         break;
     case FMT_TEXT:
+        if (w->hidden)
+            break;
         if (w->tab.rows || w->tab.failed || !w->skip_empty)   /* a lost row is told */
             rc |= ls_t_print(&w->tab, w->rp->out, &w->rp->nomem, &w->rp->nomem_bytes);
         else
@@ -396,6 +505,6 @@ int ls_wr_table_end(ls_wr *w)
     }
     w->cols = NULL;
     w->ncol = 0;
-    w->lost = false;
+    w->lost = w->hidden = w->csv_none = false;
     return rc;
 }

@@ -11,7 +11,11 @@
  *             A report whose CSV is one row per field (FIELD,VALUE) says so
  *             with ls_wr_fields; then the members written while
  *             ls_wr_csv_rows is on are rows too (an array of strings one row,
- *             its items joined by spaces).
+ *             its items joined by spaces).  With ls_wr_field_sep, a row is
+ *             named by the keys of the open objects and its own, joined
+ *             ("monte_carlo.mean").  Where the CSV rows are arranged otherwise
+ *             than the JSON members, ls_wr_json_members turns the JSON off
+ *             for the members written only as rows.
  *   prose     ls_wr_say: a line of the text report only.
  *   a table   ls_wr_table, then per row ls_wr_cell_* and ls_wr_row, then
  *             ls_wr_table_end: in JSON an array of objects (one member per
@@ -31,7 +35,7 @@
 #include "report/report.h"
 #include "report/textbuf.h"
 
-#define LS_WR_MAXCOL 12
+#define LS_WR_MAXCOL LS_TABLE_MAXCOL
 
 /* One column of a table. */
 typedef struct ls_wr_col {
@@ -47,6 +51,9 @@ typedef struct ls_wr_style {
     const char *lead, *gap;  /* before each line, between columns; NULL: two spaces */
     bool fixed;              /* each column exactly its width (ls_table.fixed) */
     bool skip_empty;         /* no heading either when the table has no row */
+    bool hide_text;          /* not in the text report (its lines say the matter otherwise) */
+    bool csv_more;           /* CSV: the rows go on under the previous table's heading
+                                (the same csv columns), with no heading of their own */
 } ls_wr_style;
 
 typedef struct ls_wr {
@@ -57,6 +64,8 @@ typedef struct ls_wr {
     const ls_wr_col *cols;   /* the open table's columns */
     int ncol, cell;          /* columns; the next cell of the row */
     bool skip_empty;
+    bool hidden;             /* the open table is not in the text (ls_wr_style.hide_text) */
+    bool csv_none;           /* the open table has no CSV column: nothing of it in the CSV */
     bool csv_first;          /* no CSV cell in this row yet */
     char *rbuf;              /* the row's text cells, back to back (malloc'd) */
     size_t rlen, rcap, off[LS_WR_MAXCOL];
@@ -66,6 +75,13 @@ typedef struct ls_wr {
     const char *arr_key;     /* the array being joined into one row, or NULL */
     char *join;              /* its items, space-separated (malloc'd) */
     size_t jlen, jcap;
+    const char *sep;         /* joins the keys of a row's name, or NULL (ls_wr_field_sep) */
+    char *path;              /* the open objects' keys, each followed by sep (malloc'd) */
+    size_t plen, pcap;
+    int depth;               /* containers open (every format) */
+    size_t pat[LS_JW_DEPTH];  /* plen when each was opened */
+    bool parr[LS_JW_DEPTH];  /* each an array */
+    bool json_off;           /* members are not JSON now (ls_wr_json_members) */
 } ls_wr;
 
 /* Start the report of rp (JSON: the top object and its "meta"). */
@@ -91,6 +107,15 @@ void ls_wr_fields(ls_wr *w, const char *field, const char *value);
 /* Whether the members written from now on are CSV rows too. */
 void ls_wr_csv_rows(ls_wr *w, bool on);
 
+/* CSV field rows are named by the keys of the open objects and the
+ * member's, joined by sep (a static string; NULL: the member's key alone). */
+void ls_wr_field_sep(ls_wr *w, const char *sep);
+/* Whether the members and tables written from now on are in the JSON (on
+ * from the start).  Turn it off and on again at the same depth. */
+void ls_wr_json_members(ls_wr *w, bool on);
+/* A number member whose null (not finite) gives the reason why. */
+void ls_wr_num_why(ls_wr *w, const char *key, double v, const char *why);
+
 /* A line of the text report (printf format; the newline is the caller's). */
 void ls_wr_say(ls_wr *w, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
@@ -100,7 +125,11 @@ void ls_wr_table(ls_wr *w, const char *key, const ls_wr_col *cols, int ncol, con
 /* The next cell: a number with the text it shows as (NULL: the engineering
  * notation of rp, no unit). */
 void ls_wr_cell_num(ls_wr *w, double v, const char *text);
+/* ... with the reason of its JSON null when v is not finite. */
+void ls_wr_cell_why(ls_wr *w, double v, const char *why, const char *text);
 void ls_wr_cell_int(ls_wr *w, long long v);
+/* A truth: JSON true/false, CSV and text the words. */
+void ls_wr_cell_bool(ls_wr *w, bool v);
 void ls_wr_cell_str(ls_wr *w, const char *s);
 /* End the row (every column given a cell). */
 void ls_wr_row(ls_wr *w);

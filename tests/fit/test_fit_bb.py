@@ -129,6 +129,65 @@ expect r_load.power >= 2.2 mW
     check(j["search"]["proven"] is True, "peak case: proven")
 
 
+def flat_peak_case():
+    """A check that depends on some of a box's parts prunes on those parts
+    alone, with inward steps along the others only at both of their ends
+    (docs/fit.md).  Built to break the wrong rule "a part along which the
+    deciding check's corners are equal is one it does not depend on": the
+    load's power V^2 R / (R + Rs)^2 (maximum power transfer; any circuits
+    text) is the same at R = 1k and R = 6.2k when Rs = sqrt(1k * 6.2k), here
+    to 15 digits, so the top box's corners show that check flat along r_load
+    as well as along r_x (on which it does not depend), and without a step in
+    from an end the box would be ruled out with the peak inside.  The test's
+    own enumerator (numpy) gives the optimum: the margins as docs/fit.md
+    defines them (one-sided: distance over the limit; two-sided: distance to
+    the nearer end over half the width), ranked by the smallest."""
+    rs, v = float(np.sqrt(1e3 * 6.2e3)), 5.0
+    r = np.array(VALUES)
+    rl, rx = np.meshgrid(r, r, indexing="ij")
+    p = v * v * rl / (rl + rs) ** 2
+    vd = v * rx / (1e3 + rx)
+    mp = (p - 2.2e-3) / 2.2e-3
+    md = np.minimum(vd - 2.0, 3.0 - vd) / 0.5
+    m = np.where((mp >= 0) & (md >= 0), np.minimum(mp, md), -np.inf)
+    # ties on the margin (r_x does not move the binding power check) go to the
+    # least supply current (docs/fit.md; no part has tol=, so yields tie at 1)
+    cur = v / (rs + rl) + v / (1e3 + rx)
+    tied = m >= m.max() - 1e-9 * abs(m.max())
+    i = np.unravel_index(np.argmin(np.where(tied, cur, np.inf)), m.shape)
+    check(abs(p[0, 0] / p[-1, 0] - 1) < 1e-12, "the ends of r_load's range give the same power (to 1e-12)")
+    check(np.sum(tied & (np.abs(cur - cur[i]) <= 1e-9 * cur[i])) == 1,
+          "the optimum is unique by margin and current, so the test can tell a wrong answer")
+    text = f"""\
+title "Heater element beside a bias divider"
+ground gnd
+voltage  v_src gnd -> s 5 V
+resistor r_s s -> h {rs:.15g}
+resistor r_load h -> gnd 1k free=1k..6.2k
+resistor r_a s -> d 1k
+resistor r_x d -> gnd 1.5k free=1k..6.2k
+expect r_load.power >= 2.2 mW
+expect d between 2 V and 3 V
+"""
+    rc, out, err = run(["fit", circuit("flat_peak.stack", text), "--format", "json", "--top", "1"],
+                       env={"LOADSTACK_FIT_EXHAUSTIVE": "1"})
+    check(rc == 0, f"flat peak case: exit {rc}\n{err}")
+    if rc != 0:
+        return
+    import json
+    j = json.loads(out)
+    bb = j["search"]["branch_and_bound"]
+    got = (j["chosen"]["values"]["r_load"], j["chosen"]["values"]["r_x"])
+    print(f"flat peak case: brute force {(float(rl[i]), float(rx[i]))} (margin {m[i]:.6f}); fit {got}, "
+          f"{bb['boxes']} boxes, {bb['pruned']} pruned, {bb['unbounded_checks']} unbounded")
+    check(abs(got[0] - rl[i]) <= 1e-9 * rl[i] and abs(got[1] - rx[i]) <= 1e-9 * rx[i],
+          "flat peak case: the brute-force optimum")
+    close(j["chosen"]["margin"], m[i], rel=1e-9, what="flat peak case: the chosen margin")
+    check(bb["boxes"] > 1 and bb["unbounded_checks"] >= 1,
+          "flat peak case: the box whose equal ends hide the peak was split, not ruled out")
+    check(j["search"]["proven"] is True, "flat peak case: proven")
+
+
 def main():
     check(all(abs(v / 10 ** (i / 24) - 1) < 0.05 for i, v in enumerate(E24)), "E24 table against its rule")
     check(len(VALUES) == 20, "20 values per part")
@@ -170,6 +229,7 @@ def main():
         if power and chosen:
             chosen_power = chosen[0][0]
     peak_case()
+    flat_peak_case()
     # one symbolic analysis (the written values' solve) serves every candidate: the
     # search refactors numerically only, with the sparse solver as with the dense one
     for solver in ("sparse", "dense"):

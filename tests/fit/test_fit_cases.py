@@ -225,11 +225,45 @@ def bad_usage():
     check("block.stack:3:" in err and "block" in err, f"--write refuses a free value written in a block\n{err}")
 
 
+def linear_candidates_refactor_once():
+    """Every candidate of this stage keeps its op-amp linear: out = vref (1 + rf/rg)
+    (the non-inverting gain, any op-amp text) lies between 2.02 V and 4 V for
+    rf in 1k..10k and rg in 10k..100k, inside the rails less headroom (0.5 V ..
+    11.5 V).  A candidate then starts from op-amp states its solution agrees
+    with, so it is solved with one numeric factorization (docs/fit.md), not
+    iterated; the choice is the test's own enumeration: the margin of out in
+    2.5 V .. 3.5 V is largest at out = 3 V, so at rf/rg = 0.5."""
+    lo, hi = e24_in(1e3, 10e3), e24_in(10e3, 100e3)
+    outs = [2 * (1 + rf / rg) for rf in lo for rg in hi]
+    check(min(outs) > 0.5 and max(outs) < 11.5, "every candidate's output inside the rails less headroom")
+    path = circuit("linear_stage.stack", """\
+title "Buffer with a little gain for a reference"
+ground gnd
+voltage  v_cc  gnd -> vcc 12 V
+voltage  vref  gnd -> ref 2 V
+opamp    u1    plus=ref minus=fb out=out rails=gnd..vcc headroom=0.5V
+resistor rf    out -> fb 4.7k free=1k..10k
+resistor rg    fb -> gnd 10k free=10k..100k
+resistor rload out -> gnd 10k
+expect out between 2.5 V and 3.5 V
+""")
+    j = fit_json([path, "--top", "1"])
+    if not j:
+        return
+    s = j["search"]
+    check(s["solved"] == len(outs), f"every combination solved ({s['solved']})")
+    check(s["factorizations"] <= 1.05 * s["solved"],
+          f"one factorization per candidate, not an iteration each: {s['factorizations']} for {s['solved']}")
+    v = j["chosen"]["values"]
+    close(2 * (1 + v["rf"] / v["rg"]), 3.0, rel=1e-9, what="out = vref (1 + rf/rg) at the chosen pair")
+
+
 def main():
     divider_like_pick()
     non_inverting()
     adc_chain()
     yield_as_tol()
+    linear_candidates_refactor_once()
     series_tables()
     bad_usage()
     finish()
