@@ -586,7 +586,7 @@ static void part_why(const ls_op *op, int i, char *buf, size_t n)
             return;
         }
     }
-    if (strcmp(p->kind->name, "resistor") == 0) {
+    if (p->kind->is_resistance) {
         snprintf(buf, n,
                  "its small resistance (%.3g ohm) turns the last-digit uncertainty of the voltages at its ends into a "
                  "current uncertainty",

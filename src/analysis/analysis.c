@@ -6,6 +6,7 @@
 #include "elab/elab.h"
 #include "analysis/newton.h"
 #include "solve/selinv.h"
+#include "analysis/quantity.h"
 
 #include <assert.h>
 #include <float.h>
@@ -147,7 +148,7 @@ void ls_widest_spread(const ls_netlist *nl, char *buf, size_t n)
     int lo = -1, hi = -1;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (strcmp(p->kind->name, "resistor") != 0)
+        if (!p->kind->is_resistance)
             continue;
         if (lo < 0 || p->value < nl->parts[lo].value)
             lo = i;
@@ -155,8 +156,9 @@ void ls_widest_spread(const ls_netlist *nl, char *buf, size_t n)
             hi = i;
     }
     if (lo >= 0 && hi != lo)
-        snprintf(buf, n, "; the widest spread of values is resistor '%s' (%.4g ohm) against '%s' (%.4g ohm)",
-                 nl->parts[lo].name, nl->parts[lo].value, nl->parts[hi].name, nl->parts[hi].value);
+        snprintf(buf, n, "; the widest spread of values is %s '%s' (%.4g ohm) against '%s' (%.4g ohm)",
+                 nl->parts[lo].kind->name, nl->parts[lo].name, nl->parts[lo].value, nl->parts[hi].name,
+                 nl->parts[hi].value);
     else
         buf[0] = 0;
 }
@@ -194,7 +196,7 @@ void ls_op_report_singular(ls_op *op, int col)
      * too wide a range for double precision: say so where they do */
     double lo = INFINITY, hi = 0;
     for (int i = 0; i < nl->nparts; i++)
-        if (strcmp(nl->parts[i].kind->name, "resistor") == 0) {
+        if (nl->parts[i].kind->is_resistance) {
             lo = fmin(lo, ls_run_value(&op->run, &nl->parts[i]));
             hi = fmax(hi, ls_run_value(&op->run, &nl->parts[i]));
         }
@@ -280,6 +282,36 @@ static bool iterative_failed(ls_op *op, int st)
     return true;
 }
 
+/* A factorization that failed for its size (out of memory, or past the
+ * dense solver's limit): says so in terms of the system, which is what the
+ * user can act on, sets op->nomem for a shortage, and returns true; false for
+ * any other status. */
+static bool size_failure(ls_op *op, int st, ls_method m, const ls_solver_stats *ss)
+{
+    const ls_netlist *nl = op->nl;
+    if (st == LS_SOLVER_NOMEM && m != LS_METHOD_DENSE_LU) {
+        /* the sparse libraries do not say what they asked for: the size
+         * of the system is what the user can act on */
+        ls_error(nl->diags, LS_NOLOC,
+                 "out of memory in the sparse factorization (%s) of %d unknowns with %d nonzeros (the matrix "
+                 "alone takes %.1f MB)",
+                 ss->library, op->mna.n, ls_csc_nnz(&op->mna.a),
+                 (double)ls_csc_nnz(&op->mna.a) * (sizeof(double) + sizeof(int)) / 1e6);
+        op->nomem = true;
+        return true;
+    }
+    if (st == LS_SOLVER_TOO_LARGE || st == LS_SOLVER_NOMEM) {
+        ls_error(nl->diags, LS_NOLOC,
+                 "the system has %d unknowns; the dense solver would need %.1f MB%s", op->mna.n,
+                 ss->bytes_needed / 1e6,
+                 st == LS_SOLVER_TOO_LARGE ? " and takes at most " "8000 unknowns: use --solver sparse"
+                                           : ", more memory than is available");
+        op->nomem = st == LS_SOLVER_NOMEM;
+        return true;
+    }
+    return false;
+}
+
 static int factor(ls_op *op)
 {
     const ls_netlist *nl = op->nl;
@@ -309,26 +341,8 @@ static int factor(ls_op *op)
             continue;
         }
 #endif
-        if (st == LS_SOLVER_NOMEM && m != LS_METHOD_DENSE_LU) {
-            /* the sparse libraries do not say what they asked for: the size
-             * of the system is what the user can act on */
-            ls_error(nl->diags, LS_NOLOC,
-                     "out of memory in the sparse factorization (%s) of %d unknowns with %d nonzeros (the matrix "
-                     "alone takes %.1f MB)",
-                     ss->library, op->mna.n, ls_csc_nnz(&op->mna.a),
-                     (double)ls_csc_nnz(&op->mna.a) * (sizeof(double) + sizeof(int)) / 1e6);
-            op->nomem = true;
+        if (size_failure(op, st, m, ss))
             return LS_EXIT_UNSOLVABLE;
-        }
-        if (st == LS_SOLVER_TOO_LARGE || st == LS_SOLVER_NOMEM) {
-            ls_error(nl->diags, LS_NOLOC,
-                     "the system has %d unknowns; the dense solver would need %.1f MB%s", op->mna.n,
-                     ss->bytes_needed / 1e6,
-                     st == LS_SOLVER_TOO_LARGE ? " and takes at most " "8000 unknowns: use --solver sparse"
-                                               : ", more memory than is available");
-            op->nomem = st == LS_SOLVER_NOMEM;
-            return LS_EXIT_UNSOLVABLE;
-        }
         if (st == LS_SOLVER_SINGULAR && ls_newton_open_loop(op, ss->bad_column)) {
             /* a comparator: held at a rail, the system may be regular */
             ls_solver_free(&op->solver);
@@ -486,17 +500,50 @@ static void phase(const ls_op *op, const char *what)
         op->opt.phase(op->opt.phase_ctx, what);
 }
 
-int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
+/* The conductance (S) that pins a floating node in the modified systems:
+ * the mean positive diagonal of the node block, on the scale of the
+ * circuit's own, so the update stays well conditioned. */
+static double pin_conductance(const ls_op *op)
 {
-    memset(op, 0, sizeof *op);
-    op->nl = nl;
-    op->opt = *o;
+    double dsum = 0;
+    int dn = 0;
+    for (int j = 0; j < op->mna.nn; j++)
+        for (int p = op->mna.a.colptr[j]; p < op->mna.a.colptr[j + 1] && op->mna.a.rowind[p] <= j; p++)
+            if (op->mna.a.rowind[p] == j && op->mna.a.val[p] > 0) { /* rows are sorted: stop at the diagonal */
+                dsum += op->mna.a.val[p];
+                dn++;
+            }
+    return dn ? dsum / dn : 1;
+}
+
+/* The warnings of a solve whose digits may be few: an ill-conditioned
+ * system (with the widest spread of values), a large residual. */
+static void conditioning_warnings(ls_op *op)
+{
+    const ls_netlist *nl = op->nl;
+    if (op->rcond < RCOND_WARN) {
+        char spread[400];
+        ls_widest_spread(nl, spread, sizeof spread);
+        ls_warning(nl->diags, LS_NOLOC, "ill-conditioned",
+                   "the system is ill-conditioned (reciprocal condition %.2g): results may carry few correct digits%s",
+                   op->rcond, spread);
+    }
+    if (!(op->residual <= RESIDUAL_WARN))
+        ls_warning(nl->diags, LS_NOLOC, "inaccurate",
+                   "the solution's relative residual is %.2g: treat the results as approximate", op->residual);
+}
+
+/* What comes before a solve's assembly: its run (the start's states and
+ * values when given), the topology checks (not for a variant: its circuit
+ * passed them once), the BLAS work buffers.  LS_EXIT_OK, or an exit code
+ * after reporting why. */
+static int prepare(ls_op *op, const ls_netlist *nl, const ls_options *o, bool variant)
+{
     if (ls_run_init(&op->run, nl) != 0 || (o->start && ls_run_copy(&op->run, o->start) != 0)) {
         ls_error(nl->diags, LS_NOLOC, "out of memory setting up the solve of %d parts", nl->nparts);
         op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
-    bool variant = o->opened || o->ties;
     /* a variant's circuit has passed the checks once already */
     if (!variant)
         phase(op, "checking the topology");
@@ -508,6 +555,18 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
         op->nomem = true;
         return LS_EXIT_UNSOLVABLE;
     }
+    return LS_EXIT_OK;
+}
+
+int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
+{
+    memset(op, 0, sizeof *op);
+    op->nl = nl;
+    op->opt = *o;
+    bool variant = o->opened || o->ties;
+    int r = prepare(op, nl, o, variant);
+    if (r != LS_EXIT_OK)
+        return r;
     if (!o->keep_states || !o->start)
         ls_newton_init(&op->run);
     phase(op, "assembling the equations");
@@ -517,7 +576,7 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
         return LS_EXIT_UNSOLVABLE;
     }
     phase(op, "factoring");
-    int r = factor(op);
+    r = factor(op);
     if (r != LS_EXIT_OK)
         return r;
     phase(op, "solving");
@@ -541,27 +600,8 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
      * checked, see docs/limits.md) */
     if (!variant && ls_selfcheck_on() && ls_selfcheck(op) != 0)
         return LS_EXIT_UNSOLVABLE;
-    /* Pins for floating nodes in modified systems: a conductance on the scale of
-     * the circuit's own, so the update stays well conditioned. */
-    double dsum = 0;
-    int dn = 0;
-    for (int j = 0; j < op->mna.nn; j++)
-        for (int p = op->mna.a.colptr[j]; p < op->mna.a.colptr[j + 1] && op->mna.a.rowind[p] <= j; p++)
-            if (op->mna.a.rowind[p] == j && op->mna.a.val[p] > 0) { /* rows are sorted: stop at the diagonal */
-                dsum += op->mna.a.val[p];
-                dn++;
-            }
-    op->g_pin = dn ? dsum / dn : 1;
-    if (op->rcond < RCOND_WARN) {
-        char spread[400];
-        ls_widest_spread(nl, spread, sizeof spread);
-        ls_warning(nl->diags, LS_NOLOC, "ill-conditioned",
-                   "the system is ill-conditioned (reciprocal condition %.2g): results may carry few correct digits%s",
-                   op->rcond, spread);
-    }
-    if (!(op->residual <= RESIDUAL_WARN))
-        ls_warning(nl->diags, LS_NOLOC, "inaccurate",
-                   "the solution's relative residual is %.2g: treat the results as approximate", op->residual);
+    op->g_pin = pin_conductance(op);
+    conditioning_warnings(op);
     if (!o->no_bounds) {
         phase(op, "error bounds");
         ls_acc_warn(op, 4); /* the report's default digits; the report marks against its own */
@@ -706,23 +746,61 @@ static double prop_value(ls_op *op, int part, ls_prop prop)
     return pr ? ls_port_value(pr, prop) : NAN;
 }
 
+/* The double domain of ls_q_walk: plain values, NaN for undefined. */
+static int d_const(void *ctx, const ls_q *q, void *out)
+{
+    (void)ctx;
+    *(double *)out = q->value;
+    return 0;
+}
+
+static int d_node(void *ctx, const ls_q *q, void *out)
+{
+    *(double *)out = ((ls_op *)ctx)->v[q->index];
+    return 0;
+}
+
+static int d_prop(void *ctx, const ls_q *q, void *out)
+{
+    *(double *)out = prop_value(ctx, q->index, q->prop);
+    return 0;
+}
+
+static int d_neg(void *ctx, const ls_q *q, void *a)
+{
+    (void)ctx, (void)q;
+    *(double *)a = -*(double *)a;
+    return 0;
+}
+
+static int d_binop(void *ctx, const ls_q *q, void *a, const void *b)
+{
+    (void)ctx;
+    *(double *)a = ls_apply_op(q->op, *(double *)a, *(const double *)b);
+    return 0;
+}
+
+static int d_call(void *ctx, const ls_q *q, void *const *args, void *out)
+{
+    (void)ctx;
+    double v[LS_Q_MAX_ARGS];
+    for (int i = 0; i < q->nargs; i++)
+        v[i] = *(const double *)args[i];
+    *(double *)out = ls_apply_func(q->op, v, q->nargs);
+    return 0;
+}
+
+static const ls_qdomain double_domain = {
+    .size = sizeof(double), .constant = d_const, .node = d_node, .prop = d_prop,
+    .neg = d_neg, .binop = d_binop, .call = d_call,
+};
+
 double ls_q_eval(ls_op *op, const ls_q *q)
 {
-    switch (q->kind) {
-    case Q_CONST: return q->value;
-    case Q_NODE: return op->v[q->index];
-    case Q_PROP: return prop_value(op, q->index, q->prop);
-    case Q_NEG: return -ls_q_eval(op, q->a);
-    case Q_BIN: return ls_apply_op(q->op, ls_q_eval(op, q->a), ls_q_eval(op, q->b));
-    case Q_CALL: {
-        double v[8];
-        for (int i = 0; i < q->nargs && i < 8; i++)
-            v[i] = ls_q_eval(op, q->args[i]);
-        return ls_apply_func(q->op, v, q->nargs);
-    }
-    }
-    assert(!"a bound quantity of no known kind");
-    return NAN;
+    double v = NAN;
+    if (ls_q_walk(&double_domain, op, q, &v) != 0)
+        return NAN;
+    return v;
 }
 
 /* Slack (same unit as limit) within which a comparison against `limit`

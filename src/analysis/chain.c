@@ -328,7 +328,10 @@ static int fill_stages(const ls_netlist *nl, ls_chain *c, const int *piece, cons
     return 0;
 }
 
-static int build(const ls_netlist *nl, ls_chain *c, work *w)
+/* The work arrays of build and the chain's own per-node and per-port
+ * arrays.  0, or -1 when out of memory (what was allocated is freed with
+ * the work and the chain). */
+static int alloc_work(const ls_netlist *nl, ls_chain *c, work *w)
 {
     size_t nn = (size_t)nl->nnodes, np = (size_t)nl->nparts + 1;
     w->up = malloc(nn * sizeof *w->up);
@@ -344,6 +347,31 @@ static int build(const ls_netlist *nl, ls_chain *c, work *w)
     c->conns = malloc(np * sizeof *c->conns);
     if (!w->up || !w->piece || !w->rank || !w->cfrom || !w->cto || !w->inst_parts || !w->count || !w->drives ||
         !c->rail || !c->node_stage || !c->conns)
+        return -1;
+    return 0;
+}
+
+/* Names every stage from the driver node of its first outgoing port (in
+ * declaration order) and its instances' parts; w->rank is free again by
+ * then and holds one driver per stage. */
+static void name_stages(const ls_netlist *nl, ls_chain *c, work *w)
+{
+    int *driver = w->rank; /* free again: reused, one slot per stage */
+    for (int s = 0; s < c->nstages; s++)
+        driver[s] = -1;
+    for (int i = nl->nparts - 1; i >= 0; i--) {
+        const ls_part *p = &nl->parts[i];
+        if (p->kind->is_port && c->node_stage[p->pin[0]] >= 0)
+            driver[c->node_stage[p->pin[0]]] = p->pin[0];
+    }
+    for (int s = 0; s < c->nstages; s++)
+        name_stage(nl, &c->stages[s], driver[s], w->inst_parts);
+}
+
+static int build(const ls_netlist *nl, ls_chain *c, work *w)
+{
+    size_t nn = (size_t)nl->nnodes;
+    if (alloc_work(nl, c, w) != 0)
         return -1;
     for (int i = 0; i < nl->nparts; i++)
         if (nl->parts[i].kind->is_port)
@@ -383,17 +411,7 @@ static int build(const ls_netlist *nl, ls_chain *c, work *w)
         return -1;
     if (count_instances(nl, w->inst_parts) != 0)
         return -1;
-    /* the driver node of each stage's first outgoing port (in declaration order) */
-    int *driver = w->rank; /* free again: reused, one slot per stage */
-    for (int s = 0; s < c->nstages; s++)
-        driver[s] = -1;
-    for (int i = nl->nparts - 1; i >= 0; i--) {
-        const ls_part *p = &nl->parts[i];
-        if (p->kind->is_port && c->node_stage[p->pin[0]] >= 0)
-            driver[c->node_stage[p->pin[0]]] = p->pin[0];
-    }
-    for (int s = 0; s < c->nstages; s++)
-        name_stage(nl, &c->stages[s], driver[s], w->inst_parts);
+    name_stages(nl, c, w);
     return 0;
 }
 

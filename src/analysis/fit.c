@@ -279,7 +279,7 @@ static double supply_current(const ls_op *op)
             bool through_rails = ls_part_has(p, ri) && p->range[OA_RAILS][0].node >= 0 && p->range[OA_RAILS][1].node >= 0;
             sum += (through_rails ? 0 : fabs(op->ipart[i])) + ls_part_opt(p, "iq", 0);
         }
-        else if (strcmp(p->kind->name, "voltage") == 0)
+        else if (p->kind->stage_role == LS_ROLE_SOURCE)   /* a voltage source: a supply */
             sum += fabs(op->ipart[i]);
     }
     return sum;

@@ -15,6 +15,7 @@
  * products against a work bound, so a circuit too large for a formula gets an
  * error instead of a long wait. */
 #include "analysis/formula.h"
+#include "analysis/quantity.h"
 
 #include <flint/fmpq.h>
 #include <flint/fmpz_vec.h>
@@ -52,6 +53,7 @@ typedef struct fx {
     const ls_program *prog;
     ls_diags *d;
     ls_loc qloc;             /* the quantity, for errors about it */
+    const char *qtext;       /* its text, for the same */
     const ls_formula_req *req;
     fmpq_mpoly_ctx_t ctx;
     bool ctx_ready;
@@ -384,7 +386,6 @@ static int too_big_error(fx *F, const char *why)
 
 /* ---- which values are symbols ----------------------------------------------------------- */
 
-static bool kind_is(const ls_part *p, const char *name) { return strcmp(p->kind->name, name) == 0; }
 
 /* Is the part's stamp built exactly here (its kind's table entry says how,
  * ls_kind.exact)?  Others enter with their numeric stamps at the operating
@@ -1479,6 +1480,29 @@ static int held_solve(fx *F, int part, const lform *l, int unit, rf *out, const 
     return code;
 }
 
+/* zout (at the driver) or zin (at the load) of port part opened, through
+ * linear form l (empty, made by the caller): 0 at ground; unbounded (*why)
+ * for zin of a held load side.  LS_EXIT_OK, or an exit code. */
+static int port_z(fx *F, int part, ls_prop prop, bool held, lform *l, rf *out, const char **why)
+{
+    const ls_part *p = &F->nl->parts[part];
+    int dn = p->pin[0], ln = p->pin[1];
+    int node = prop == PROP_ZOUT ? dn : ln;
+    if (node <= 0) {
+        rf_set_si(F, out, 0);
+        return LS_EXIT_OK;
+    }
+    if (held && prop == PROP_ZIN) {
+        *why = "the load side has no DC path of its own with the port open (it is held at its loaded voltage), "
+               "so zin is unbounded";
+        return LS_EXIT_OK;
+    }
+    node_form(F, l, node, 1);
+    if (held)
+        return held_solve(F, part, l, ls_node_unknown(node), out, why);
+    return solve_in(F, part, prop == PROP_ZOUT ? ln : dn, l, ls_node_unknown(node), out, why);
+}
+
 /* The fields of a voltage-mode port (and zout, zin, open voltage of any). */
 static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
@@ -1510,25 +1534,9 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
         code = solve_in(F, part, ln, &l, -1, out, &why);
         break;
     case PROP_ZOUT:
-    case PROP_ZIN: {
-        int node = prop == PROP_ZOUT ? dn : ln;
-        if (node <= 0) {
-            rf_set_si(F, out, 0);
-            break;
-        }
-        if (held && prop == PROP_ZIN) {
-            why = "the load side has no DC path of its own with the port open (it is held at its loaded voltage), "
-                  "so zin is unbounded";
-            break;
-        }
-        node_form(F, &l, node, 1);
-        if (held) {
-            code = held_solve(F, part, &l, ls_node_unknown(node), out, &why);
-            break;
-        }
-        code = solve_in(F, part, prop == PROP_ZOUT ? ln : dn, &l, ls_node_unknown(node), out, &why);
+    case PROP_ZIN:
+        code = port_z(F, part, prop, held, &l, out, &why);
         break;
-    }
     case PROP_SAG:
     case PROP_SAG_REL:
         code = port_prop_voltage(F, part, PROP_OPEN, &a, text);
@@ -1574,36 +1582,28 @@ static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
         lform_clear(F, &lv);
         return LS_EXIT_UNSOLVABLE;
     }
-    if (kind_is(p, "pot")) {
-        node_form(F, &lv, p->pin[0], 1);
-        node_form(F, &lv, p->pin[2], -1);
-    } else if (kind_is(p, "adc")) {
-        node_form(F, &lv, p->pin[0], 1);
-    } else if (p->kind->vsign == VSIGN_OUT) {
-        node_form(F, &lv, p->pin[2], 1);
-    } else {
-        int s = p->kind->vsign == VSIGN_RISE ? -1 : 1;
-        node_form(F, &lv, p->pin[0], s);
-        node_form(F, &lv, p->pin[1], -s);
-    }
+    int plus, minus;
+    ls_part_vnodes(p, &plus, &minus);
+    node_form(F, &lv, plus, 1);
+    node_form(F, &lv, minus, -1);
     part_lform(F, part, &lc, 0);
     int code;
     if (prop == PROP_CURRENT) {
         code = solve_in(F, -1, 0, &lc, -1, out, &why);
     } else if (prop == PROP_VOLTAGE) {
         code = solve_in(F, -1, 0, &lv, -1, out, &why);
-    } else if (kind_is(p, "pot")) {
-        why = "a pot's power is that of its whole track";
+    } else if (ls_part_power_sign(p) == 0) {
+        why = "its power is not its voltage times its current (a track's: both segments)";
         code = LS_EXIT_USAGE;
     } else {
-        /* power absorbed: the drop FROM -> TO times the current */
+        /* power absorbed: the voltage times the current, signed as the kind reads its voltage */
         rf i;
         rf_init(F, &i);
         code = solve_in(F, -1, 0, &lc, -1, &i, &why);
         if (code == LS_EXIT_OK)
             code = solve_in(F, -1, 0, &lv, -1, out, &why);
         if (code == LS_EXIT_OK) {
-            if (p->kind->vsign == VSIGN_RISE || p->kind->vsign == VSIGN_OUT)
+            if (ls_part_power_sign(p) < 0)
                 rf_neg(F, out, out);
             rf_mul(F, out, out, &i);
         }
@@ -1616,89 +1616,139 @@ static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
     return code;
 }
 
+/* ---- the exact domain of ls_q_walk: fractions of polynomials in the symbols ------------------- */
+/* Every operation returns LS_EXIT_OK, or an exit code after reporting why
+ * against the quantity's text (F->qtext). */
+
+static int rq_init(void *fv, void *v)
+{
+    rf_init(fv, v);
+    return LS_EXIT_OK;
+}
+
+static void rq_clear(void *fv, void *v)
+{
+    rf_clear(fv, v);
+}
+
+/* A function has no rational formula: said once, at the call. */
+static int rq_accepts(void *fv, const ls_q *q)
+{
+    fx *F = fv;
+    if (q->kind != Q_CALL)
+        return LS_EXIT_OK;
+    ls_error(F->d, F->qloc, "formula: '%s' uses a function (sqrt, abs, min, max, exp, ln, log10), "
+             "which has no rational formula", F->qtext);
+    return LS_EXIT_USAGE;
+}
+
+static int rq_const(void *fv, const ls_q *q, void *out)
+{
+    rf_set_double(fv, out, q->value);
+    return LS_EXIT_OK;
+}
+
+static int rq_node(void *fv, const ls_q *q, void *out)
+{
+    fx *F = fv;
+    lform l;
+    lform_init(F, &l);
+    if (!l.c) {
+        lform_clear(F, &l);   /* c0 was made even when c was not */
+        return LS_EXIT_UNSOLVABLE;
+    }
+    const char *why = NULL;
+    node_form(F, &l, q->index, 1);
+    int code = solve_in(F, -1, 0, &l, -1, out, &why);
+    if (why)
+        ls_error(F->d, F->qloc, "formula: '%s' has no formula: %s", F->qtext, why);
+    lform_clear(F, &l);
+    return code;
+}
+
+static int rq_prop(void *fv, const ls_q *q, void *out)
+{
+    fx *F = fv;
+    if (q->prop == PROP_VALUE) {
+        rf_set(F, out, &F->pval[q->index]);
+        return LS_EXIT_OK;
+    }
+    if (q->prop == PROP_CURRENT || q->prop == PROP_VOLTAGE || q->prop == PROP_POWER)
+        return part_prop(F, q->index, q->prop, out, F->qtext);
+    if (F->nl->parts[q->index].kind->is_port)
+        return port_prop(F, q->index, q->prop, out, F->qtext);
+    ls_error(F->d, F->qloc, "formula: '%s': formula does not treat the property '%s'", F->qtext,
+             ls_prop_name(q->prop));
+    return LS_EXIT_USAGE;
+}
+
+static int rq_neg(void *fv, const ls_q *q, void *a)
+{
+    (void)q;
+    rf_neg(fv, a, a);
+    return LS_EXIT_OK;
+}
+
+/* A whole constant power up to 16, so the result stays a fraction. */
+static bool rq_pow(fx *F, rf *a, const rf *b)
+{
+    double e = rf_eval_d(F, b);
+    return fmpq_mpoly_is_fmpq(b->n, F->ctx) && fmpq_mpoly_is_one(b->d, F->ctx) && e == floor(e) && fabs(e) <= 16 &&
+           rf_pow(F, a, a, (long)e);
+}
+
+static int rq_binop(void *fv, const ls_q *q, void *av, const void *bv)
+{
+    fx *F = fv;
+    rf *a = av;
+    const rf *b = bv;
+    bool ok = true;
+    switch (q->op) {
+    case LS_OP_ADD: rf_addsub(F, a, a, b, 1); break;
+    case LS_OP_SUB: rf_addsub(F, a, a, b, -1); break;
+    case LS_OP_MUL: rf_mul(F, a, a, b); break;
+    case LS_OP_DIV: ok = rf_div(F, a, a, b); break;
+    case LS_OP_PAR: {
+        rf s;
+        rf_init(F, &s);
+        rf_addsub(F, &s, a, b, 1);
+        rf_mul(F, a, a, b);
+        ok = rf_div(F, a, a, &s);
+        rf_clear(F, &s);
+        break;
+    }
+    case LS_OP_POW: ok = rq_pow(F, a, b); break;
+    default: ok = false; break;
+    }
+    if (!ok) {
+        ls_error(F->d, F->qloc, "formula: '%s' has no finite formula (a division by zero, or a "
+                 "power that is not a whole constant)", F->qtext);
+        return LS_EXIT_USAGE;
+    }
+    return F->too_big ? too_big_error(F, F->too_big_why) : LS_EXIT_OK;
+}
+
+/* Never reached: rq_accepts turns every call away. */
+static int rq_call(void *fv, const ls_q *q, void *const *args, void *out)
+{
+    (void)fv, (void)q, (void)args, (void)out;
+    assert(!"formula takes no function call");
+    return LS_EXIT_USAGE;
+}
+
+static const ls_qdomain exact_domain = {
+    .size = sizeof(rf), .init = rq_init, .clear = rq_clear, .accepts = rq_accepts,
+    .constant = rq_const, .node = rq_node, .prop = rq_prop,
+    .neg = rq_neg, .binop = rq_binop, .call = rq_call,
+};
+
+/* The exact formula of q into out (made by the caller).  LS_EXIT_OK, or an
+ * exit code after reporting why. */
 static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
 {
-    int code = LS_EXIT_OK;
-    switch (q->kind) {
-    case Q_CONST: rf_set_double(F, out, q->value); return LS_EXIT_OK;
-    case Q_NODE: {
-        lform l;
-        lform_init(F, &l);
-        if (!l.c) {
-            lform_clear(F, &l);   /* c0 was made even when c was not */
-            return LS_EXIT_UNSOLVABLE;
-        }
-        const char *why = NULL;
-        node_form(F, &l, q->index, 1);
-        code = solve_in(F, -1, 0, &l, -1, out, &why);
-        if (why)
-            ls_error(F->d, F->qloc, "formula: '%s' has no formula: %s", text, why);
-        lform_clear(F, &l);
-        return code;
-    }
-    case Q_PROP:
-        if (strcmp(ls_prop_name(q->prop), "value") == 0) {
-            rf_set(F, out, &F->pval[q->index]);
-            return LS_EXIT_OK;
-        }
-        if (q->prop == PROP_CURRENT || q->prop == PROP_VOLTAGE || q->prop == PROP_POWER)
-            return part_prop(F, q->index, q->prop, out, text);
-        if (F->nl->parts[q->index].kind->is_port)
-            return port_prop(F, q->index, q->prop, out, text);
-        ls_error(F->d, F->qloc, "formula: '%s': formula does not treat the property '%s'", text,
-                 ls_prop_name(q->prop));
-        return LS_EXIT_USAGE;
-    case Q_NEG:
-        code = q_rf(F, q->a, out, text);
-        rf_neg(F, out, out);
-        return code;
-    case Q_BIN: {
-        rf b;
-        rf_init(F, &b);
-        code = q_rf(F, q->a, out, text);
-        if (code == LS_EXIT_OK)
-            code = q_rf(F, q->b, &b, text);
-        if (code == LS_EXIT_OK) {
-            bool ok = true;
-            switch (q->op) {
-            case LS_OP_ADD: rf_addsub(F, out, out, &b, 1); break;
-            case LS_OP_SUB: rf_addsub(F, out, out, &b, -1); break;
-            case LS_OP_MUL: rf_mul(F, out, out, &b); break;
-            case LS_OP_DIV: ok = rf_div(F, out, out, &b); break;
-            case LS_OP_PAR: {
-                rf s;
-                rf_init(F, &s);
-                rf_addsub(F, &s, out, &b, 1);
-                rf_mul(F, out, out, &b);
-                ok = rf_div(F, out, out, &s);
-                rf_clear(F, &s);
-                break;
-            }
-            case LS_OP_POW: {
-                double e = rf_eval_d(F, &b);
-                ok = fmpq_mpoly_is_fmpq(b.n, F->ctx) && fmpq_mpoly_is_one(b.d, F->ctx) && e == floor(e) &&
-                     fabs(e) <= 16 && rf_pow(F, out, out, (long)e);
-                break;
-            }
-            default: ok = false; break;
-            }
-            if (!ok) {
-                ls_error(F->d, F->qloc, "formula: '%s' has no finite formula (a division by zero, or a "
-                         "power that is not a whole constant)", text);
-                code = LS_EXIT_USAGE;
-            }
-        }
-        rf_clear(F, &b);
-        if (code == LS_EXIT_OK && F->too_big)
-            code = too_big_error(F, F->too_big_why);
-        return code;
-    }
-    case Q_CALL:
-        ls_error(F->d, F->qloc, "formula: '%s' uses a function (sqrt, abs, min, max, exp, ln, log10), "
-                 "which has no rational formula", text);
-        return LS_EXIT_USAGE;
-    }
-    return LS_EXIT_USAGE;
+    F->qtext = text;
+    int code = ls_q_walk(&exact_domain, F, q, out);
+    return code < 0 ? LS_EXIT_UNSOLVABLE : code;
 }
 
 /* ---- --ideal: every finite gain to infinity --------------------------------------------------- */
@@ -1773,6 +1823,41 @@ static void put_rounded(sbuf *b, const fmpq_t q)
     sb_put(b, buf);
 }
 
+/* num/den as a decimal with k digits after the point (den divides 10^k):
+ * "0.0047", "12.5", or "4.7e-9" past three leading zeros.  Caller frees;
+ * NULL when out of memory. */
+static char *decimal_text(const fmpz_t num, const fmpz_t den, int k)
+{
+    char *txt;
+    fmpz_t m;
+    fmpz_init(m);
+    fmpz_set_ui(m, 10);
+    fmpz_pow_ui(m, m, (ulong)k);
+    fmpz_divexact(m, m, den);
+    fmpz_mul(m, m, num);          /* value = m * 10^-k */
+    char *digits = fmpz_get_str(NULL, 10, m);
+    size_t nd = strlen(digits);
+    /* strip trailing zeros into the exponent */
+    while (nd > 1 && digits[nd - 1] == '0' && k > 0) {
+        digits[--nd] = 0;
+        k--;
+    }
+    txt = malloc(nd + 32);
+    if (txt && (size_t)k < nd) {
+        snprintf(txt, nd + 32, "%.*s.%s", (int)(nd - (size_t)k), digits, digits + nd - (size_t)k);
+    } else if (txt && k - (int)nd < 4) {
+        snprintf(txt, nd + 32, "0.%0*d%s", k - (int)nd, 0, digits);
+        if (k == (int)nd)
+            snprintf(txt, nd + 32, "0.%s", digits);
+    } else if (txt) {
+        snprintf(txt, nd + 32, "%c%s%s%se-%d", digits[0], nd > 1 ? "." : "", digits + 1, "",
+                 k - (int)nd + 1);
+    }
+    flint_free(digits);
+    fmpz_clear(m);
+    return txt;
+}
+
 static void put_number(sbuf *b, const fmpq_t q)
 {
     if (long_number(q)) {
@@ -1790,36 +1875,7 @@ static void put_number(sbuf *b, const fmpq_t q)
     int k2 = 0, k5 = 0;
     while (fmpz_divisible_si(r, 2)) { fmpz_divexact_si(r, r, 2); k2++; }
     while (fmpz_divisible_si(r, 5)) { fmpz_divexact_si(r, r, 5); k5++; }
-    char *txt = NULL;
-    if (fmpz_is_one(r) && !fmpz_is_one(den)) {
-        int k = k2 > k5 ? k2 : k5;
-        fmpz_t m;
-        fmpz_init(m);
-        fmpz_set_ui(m, 10);
-        fmpz_pow_ui(m, m, (ulong)k);
-        fmpz_divexact(m, m, den);
-        fmpz_mul(m, m, num);          /* value = m * 10^-k */
-        char *digits = fmpz_get_str(NULL, 10, m);
-        size_t nd = strlen(digits);
-        /* strip trailing zeros into the exponent */
-        while (nd > 1 && digits[nd - 1] == '0' && k > 0) {
-            digits[--nd] = 0;
-            k--;
-        }
-        txt = malloc(nd + 32);
-        if (txt && (size_t)k < nd) {
-            snprintf(txt, nd + 32, "%.*s.%s", (int)(nd - (size_t)k), digits, digits + nd - (size_t)k);
-        } else if (txt && k - (int)nd < 4) {
-            snprintf(txt, nd + 32, "0.%0*d%s", k - (int)nd, 0, digits);
-            if (k == (int)nd)
-                snprintf(txt, nd + 32, "0.%s", digits);
-        } else if (txt) {
-            snprintf(txt, nd + 32, "%c%s%s%se-%d", digits[0], nd > 1 ? "." : "", digits + 1, "",
-                     k - (int)nd + 1);
-        }
-        flint_free(digits);
-        fmpz_clear(m);
-    }
+    char *txt = fmpz_is_one(r) && !fmpz_is_one(den) ? decimal_text(num, den, k2 > k5 ? k2 : k5) : NULL;
     if (txt) {
         sb_put(b, txt);
         free(txt);
@@ -2032,29 +2088,21 @@ static bool vars_within(fx *F, const fmpq_mpoly_t a, const fmpq_mpoly_t b)
     return true;
 }
 
-/* The factored text of N/D, grouped the way a hand calculation writes it:
- * a * b / (a + b) as (a || b); a numerator factor over the denominator factor
- * it belongs to (r2 / (r1 + r2)); (rf + rg) / rg as (1 + rf / rg).  NULL when
- * factoring is not available. */
-static char *factored_text(fx *F, const rf *a)
+/* The groups of factored_text: the factors of a numerator and a
+ * denominator, each factor used at most once, joined into texts (group). */
+typedef struct grouping {
+    factored *fn, *fd;
+    group *g;              /* room for every factor of both */
+    int ng;
+    bool lost;             /* out of memory: a group's text is missing or cut short */
+} grouping;
+
+/* Parallel pairs: 1/(1/a + 1/b) as (a || b), a denominator a + b over the
+ * numerator's a and b. */
+static void parallel_groups(fx *F, grouping *G)
 {
-    factored fn, fd;
-    if (!factorize(F, a->n, &fn))
-        return NULL;
-    if (!factorize(F, a->d, &fd)) {
-        factored_clear(F, &fn);
-        return NULL;
-    }
-    fmpq_t k;
-    fmpq_init(k);
-    fmpq_div(k, fn.k, fd.k);
-    group *g = calloc((size_t)(fn.n + fd.n + 1), sizeof *g);
-    bool lost = !g;   /* out of memory: a factor's text is missing or cut short */
-    int ng = 0;
-    sbuf b = {0};
-    /* parallel pairs */
-    for (int i = 0; g && i < fd.n; i++) {
-        factor *d = &fd.f[i];
+    for (int i = 0; i < G->fd->n; i++) {
+        factor *d = &G->fd->f[i];
         if (d->e != 1 || fmpq_mpoly_length(d->p, F->ctx) != 2 || fmpq_mpoly_total_degree_si(d->p, F->ctx) != 1)
             continue;
         slong ex[2][LS_FORMULA_MAX_SYMBOLS + 2];
@@ -2076,15 +2124,15 @@ static char *factored_text(fx *F, const rf *a)
         if (!ones || va < 0 || vb < 0)
             continue;
         int ia = -1, ib = -1;
-        for (int j = 0; j < fn.n; j++) {
-            int v = fn.f[j].e > 0 ? single_var(F, fn.f[j].p) : -1;
+        for (int j = 0; j < G->fn->n; j++) {
+            int v = G->fn->f[j].e > 0 ? single_var(F, G->fn->f[j].p) : -1;
             if (v == va) ia = j;
             if (v == vb) ib = j;
         }
         if (ia < 0 || ib < 0)
             continue;
-        fn.f[ia].e--;
-        fn.f[ib].e--;
+        G->fn->f[ia].e--;
+        G->fn->f[ib].e--;
         d->used = true;
         sbuf t = {0};
         sb_put(&t, "(");
@@ -2092,17 +2140,21 @@ static char *factored_text(fx *F, const rf *a)
         sb_put(&t, " || ");
         sb_put(&t, F->sym[va < vb ? vb : va].name);
         sb_put(&t, ")");
-        lost |= t.failed;
-        g[ng++] = (group){t.s, va < vb ? va : vb};
+        G->lost |= t.failed;
+        G->g[G->ng++] = (group){t.s, va < vb ? va : vb};
     }
-    /* ratios: a denominator factor with the numerator factor that belongs to it */
-    for (int i = 0; g && i < fd.n; i++) {
-        factor *d = &fd.f[i];
+}
+
+/* Ratios: a denominator factor with the numerator factor that belongs to it. */
+static void ratio_groups(fx *F, grouping *G)
+{
+    for (int i = 0; i < G->fd->n; i++) {
+        factor *d = &G->fd->f[i];
         if (d->used || d->e != 1)
             continue;
         int dv = single_var(F, d->p);
-        for (int j = 0; j < fn.n; j++) {
-            factor *nf = &fn.f[j];
+        for (int j = 0; j < G->fn->n; j++) {
+            factor *nf = &G->fn->f[j];
             if (nf->e != 1 || nf->used)
                 continue;
             sbuf t = {0};
@@ -2130,22 +2182,26 @@ static char *factored_text(fx *F, const rf *a)
             }
             if (t.s) {
                 nf->used = d->used = true;
-                lost |= t.failed;
-                g[ng++] = (group){t.s, first_var(F, nf->p)};
+                G->lost |= t.failed;
+                G->g[G->ng++] = (group){t.s, first_var(F, nf->p)};
                 break;
             }
         }
     }
-    /* a denominator factor left over, over every numerator factor within its symbols:
-     * Black's A (rf + rg) / (A rg + rf + rg) stays one fraction */
-    for (int i = 0; g && i < fd.n; i++) {
-        factor *d = &fd.f[i];
+}
+
+/* A denominator factor left over, over every numerator factor within its
+ * symbols: Black's A (rf + rg) / (A rg + rf + rg) stays one fraction. */
+static void leftover_groups(fx *F, grouping *G)
+{
+    for (int i = 0; i < G->fd->n; i++) {
+        factor *d = &G->fd->f[i];
         if (d->used || d->e != 1 || single_var(F, d->p) >= 0)
             continue;
         sbuf t = {0};
         int key = F->nsym + 1, count = 0;
-        for (int j = 0; j < fn.n; j++) {
-            factor *nf = &fn.f[j];
+        for (int j = 0; j < G->fn->n; j++) {
+            factor *nf = &G->fn->f[j];
             if (nf->used || nf->e <= 0 || !vars_within(F, nf->p, d->p))
                 continue;
             sb_put(&t, count++ ? " * " : "");
@@ -2159,23 +2215,32 @@ static char *factored_text(fx *F, const rf *a)
         sb_put(&t, " / ");
         put_factor(F, &t, d);
         d->used = true;
-        lost |= t.failed;
-        g[ng++] = (group){t.s, key};
+        G->lost |= t.failed;
+        G->g[G->ng++] = (group){t.s, key};
     }
-    /* the rest of the numerator, one factor each */
-    for (int j = 0; g && j < fn.n; j++) {
-        if (fn.f[j].used || fn.f[j].e <= 0)
+}
+
+/* The rest of the numerator, one factor each. */
+static void rest_groups(fx *F, grouping *G)
+{
+    for (int j = 0; j < G->fn->n; j++) {
+        if (G->fn->f[j].used || G->fn->f[j].e <= 0)
             continue;
         sbuf t = {0};
-        put_factor(F, &t, &fn.f[j]);
-        lost |= t.failed;
-        g[ng++] = (group){t.s, first_var(F, fn.f[j].p)};
+        put_factor(F, &t, &G->fn->f[j]);
+        G->lost |= t.failed;
+        G->g[G->ng++] = (group){t.s, first_var(F, G->fn->f[j].p)};
     }
-    if (g)
-        qsort(g, (size_t)ng, sizeof *g, group_cmp);
+}
+
+/* The constant k in front: its sign, and a whole numerator unless it is 1
+ * before other groups (its denominator joins the division).  Returns
+ * whether anything was written. */
+static bool put_front_constant(sbuf *b, fmpq_t k, int ng)
+{
     bool any = false;
     if (fmpq_sgn(k) < 0)
-        sb_put(&b, "-");
+        sb_put(b, "-");
     fmpq_abs(k, k);
     if (!fmpq_is_one(k) || ng == 0) {
         fmpq_t kn;
@@ -2187,57 +2252,93 @@ static char *factored_text(fx *F, const rf *a)
                 fmpq_t w;
                 fmpq_init(w);
                 fmpz_set(fmpq_numref(w), fmpq_numref(k));
-                put_number(&b, w);
+                put_number(b, w);
                 fmpq_clear(w);
                 any = true;
             }
         }
         fmpq_clear(kn);
     }
-    for (int i = 0; g && i < ng; i++) {
-        if (any)
-            sb_put(&b, " * ");
-        sb_put(&b, g[i].text);
-        free(g[i].text);
-        any = true;
-    }
+    return any;
+}
+
+/* What is left of the denominator: k's and the unused factors, after " / ". */
+static void put_denominator(fx *F, sbuf *b, const fmpq_t k, const factored *fd)
+{
     /* what is left of the denominator */
     int left = 0;
-    for (int i = 0; i < fd.n; i++)
-        left += !fd.f[i].used;
+    for (int i = 0; i < fd->n; i++)
+        left += !fd->f[i].used;
     bool kden = !fmpz_is_one(fmpq_denref(k));
     if (left || kden) {
         int one = -1;
-        for (int i = 0; i < fd.n; i++)
-            if (!fd.f[i].used)
+        for (int i = 0; i < fd->n; i++)
+            if (!fd->f[i].used)
                 one = i;
         /* a single factor needs no parentheses unless it is a power of a product */
         bool paren = left + kden > 1 ||
-                     (left == 1 && !kden && fd.f[one].e > 1 && fmpq_mpoly_length(fd.f[one].p, F->ctx) == 1 &&
-                      fmpq_mpoly_total_degree_si(fd.f[one].p, F->ctx) > 1);
-        sb_put(&b, " / ");
-        sb_put(&b, paren ? "(" : "");
+                     (left == 1 && !kden && fd->f[one].e > 1 && fmpq_mpoly_length(fd->f[one].p, F->ctx) == 1 &&
+                      fmpq_mpoly_total_degree_si(fd->f[one].p, F->ctx) > 1);
+        sb_put(b, " / ");
+        sb_put(b, paren ? "(" : "");
         bool first = true;
         if (kden) {
             char *ds = fmpz_get_str(NULL, 10, fmpq_denref(k));
-            sb_put(&b, ds);
+            sb_put(b, ds);
             flint_free(ds);
             first = false;
         }
-        for (int i = 0; i < fd.n; i++) {
-            if (fd.f[i].used)
+        for (int i = 0; i < fd->n; i++) {
+            if (fd->f[i].used)
                 continue;
-            sb_put(&b, first ? "" : " * ");
-            put_factor(F, &b, &fd.f[i]);
+            sb_put(b, first ? "" : " * ");
+            put_factor(F, b, &fd->f[i]);
             first = false;
         }
-        sb_put(&b, paren ? ")" : "");
+        sb_put(b, paren ? ")" : "");
     }
-    free(g);
+}
+
+/* The factored text of N/D, grouped the way a hand calculation writes it:
+ * a * b / (a + b) as (a || b); a numerator factor over the denominator factor
+ * it belongs to (r2 / (r1 + r2)); (rf + rg) / rg as (1 + rf / rg).  NULL when
+ * factoring is not available. */
+static char *factored_text(fx *F, const rf *a)
+{
+    factored fn, fd;
+    if (!factorize(F, a->n, &fn))
+        return NULL;
+    if (!factorize(F, a->d, &fd)) {
+        factored_clear(F, &fn);
+        return NULL;
+    }
+    fmpq_t k;
+    fmpq_init(k);
+    fmpq_div(k, fn.k, fd.k);
+    grouping G = {.fn = &fn, .fd = &fd, .g = calloc((size_t)(fn.n + fd.n + 1), sizeof *G.g)};
+    G.lost = !G.g;
+    if (G.g) {
+        parallel_groups(F, &G);
+        ratio_groups(F, &G);
+        leftover_groups(F, &G);
+        rest_groups(F, &G);
+        qsort(G.g, (size_t)G.ng, sizeof *G.g, group_cmp);
+    }
+    sbuf b = {0};
+    bool any = put_front_constant(&b, k, G.ng);
+    for (int i = 0; G.g && i < G.ng; i++) {
+        if (any)
+            sb_put(&b, " * ");
+        sb_put(&b, G.g[i].text);
+        free(G.g[i].text);
+        any = true;
+    }
+    put_denominator(F, &b, k, &fd);
+    free(G.g);
     fmpq_clear(k);
     factored_clear(F, &fn);
     factored_clear(F, &fd);
-    if (lost || b.failed) { /* not "not available": the text would silently differ */
+    if (G.lost || b.failed) { /* not "not available": the text would silently differ */
         F->nomem = true;
         free(b.s);
         return NULL;
@@ -2372,67 +2473,164 @@ static double node_current_scale(ls_op *op, int node)
     return s;
 }
 
-/* Is q (or a part of it) a port field the solver computes in a modified
- * system (a port opened): open, zout, zin, sag, sag_rel, ratio? */
-static bool uses_modified_system(const ls_q *q)
+/* ---- two questions about a quantity, as domains of ls_q_walk ---------------------------------- */
+
+/* The "modified system" domain: a value is a bool, whether the quantity so
+ * far reads a port field the solver computes in a modified system (a port
+ * opened): open, zout, zin, sag, sag_rel, ratio. */
+static int mod_leaf(void *ctx, const ls_q *q, void *out)
 {
-    switch (q->kind) {
-    case Q_PROP:
-        return q->prop == PROP_OPEN || q->prop == PROP_SAG || q->prop == PROP_SAG_REL || q->prop == PROP_ZOUT ||
-               q->prop == PROP_ZIN || q->prop == PROP_RATIO;
-    case Q_NEG: return uses_modified_system(q->a);
-    case Q_BIN: return uses_modified_system(q->a) || uses_modified_system(q->b);
-    case Q_CALL:
-        for (int i = 0; i < q->nargs; i++)
-            if (uses_modified_system(q->args[i]))
-                return true;
-        return false;
-    default: return false;
-    }
+    (void)ctx, (void)q;
+    *(bool *)out = false;
+    return 0;
 }
 
-/* The size of the numbers the solver combined to get q: |v| for a node,
- * sum |c_j x_j| for a part's current, |a| + |b| for a sum or difference.  A
- * difference of two nearly equal node voltages carries the rounding of the
- * node voltages, so it is judged against their size. */
+static int mod_prop(void *ctx, const ls_q *q, void *out)
+{
+    (void)ctx;
+    *(bool *)out = q->prop == PROP_OPEN || q->prop == PROP_SAG || q->prop == PROP_SAG_REL || q->prop == PROP_ZOUT ||
+                   q->prop == PROP_ZIN || q->prop == PROP_RATIO;
+    return 0;
+}
+
+static int mod_neg(void *ctx, const ls_q *q, void *a)
+{
+    (void)ctx, (void)q, (void)a;
+    return 0;
+}
+
+static int mod_binop(void *ctx, const ls_q *q, void *a, const void *b)
+{
+    (void)ctx, (void)q;
+    *(bool *)a = *(bool *)a || *(const bool *)b;
+    return 0;
+}
+
+static int mod_call(void *ctx, const ls_q *q, void *const *args, void *out)
+{
+    (void)ctx;
+    *(bool *)out = false;
+    for (int i = 0; i < q->nargs; i++)
+        *(bool *)out = *(bool *)out || *(const bool *)args[i];
+    return 0;
+}
+
+static const ls_qdomain modified_domain = {
+    .size = sizeof(bool), .constant = mod_leaf, .node = mod_leaf, .prop = mod_prop,
+    .neg = mod_neg, .binop = mod_binop, .call = mod_call,
+};
+
+/* Is q (or a part of it) a port field the solver computes in a modified
+ * system (a port opened)? */
+static bool uses_modified_system(const ls_q *q)
+{
+    bool any = false;
+    ls_q_walk(&modified_domain, NULL, q, &any);
+    return any;
+}
+
+/* The "magnitude" domain: a value is the quantity's value with the size of
+ * the numbers the solver combined to get it: |v| for a node, sum |c_j x_j|
+ * for a part's current, |a| + |b| for a sum or difference.  A difference of
+ * two nearly equal node voltages carries the rounding of the node voltages,
+ * so it is judged against their size. */
+typedef struct magn {
+    double mag, val;
+} magn;
+
+static int mag_const(void *ctx, const ls_q *q, void *out)
+{
+    (void)ctx;
+    *(magn *)out = (magn){fabs(q->value), q->value};
+    return 0;
+}
+
+static int mag_node(void *ctx, const ls_q *q, void *out)
+{
+    ls_op *op = ctx;
+    *(magn *)out = (magn){fabs(op->v[q->index]), op->v[q->index]};
+    return 0;
+}
+
+/* A part's or port's property: its current's terms, its ends' voltages,
+ * sag's open and loaded values. */
+static double prop_magnitude(ls_op *op, const ls_q *q, double val)
+{
+    const ls_part *p = &op->nl->parts[q->index];
+    if (q->prop == PROP_CURRENT || q->prop == PROP_POWER) {
+        ls_lin l;
+        ls_part_current(p, &op->run, &l, false);
+        double m = fabs(l.constant);
+        for (int i = 0; i < l.n; i++)
+            m += fabs(l.coef[i] * op->x[l.idx[i]]);
+        m = fmax(m, 1e-3 * node_current_scale(op, p->pin[0]));
+        if (q->prop == PROP_POWER)
+            m *= fabs(op->v[p->pin[0]]) + (p->kind->npins > 1 ? fabs(op->v[p->pin[1]]) : 0);
+        return fmax(m, fabs(val));
+    }
+    if (q->prop == PROP_VOLTAGE && p->kind->npins > 1)
+        return fabs(op->v[p->pin[0]]) + fabs(op->v[p->pin[1]]);
+    if (q->prop == PROP_SAG || q->prop == PROP_SAG_REL) {
+        const ls_port_result *pr = ls_op_port(op, q->index);
+        double m = pr ? fabs(pr->open) + fabs(pr->loaded) : 0;
+        return q->prop == PROP_SAG_REL && pr && pr->open != 0 ? m / fabs(pr->open) : m;
+    }
+    return fabs(val);
+}
+
+static int mag_prop(void *ctx, const ls_q *q, void *out)
+{
+    double val = ls_q_eval(ctx, q);
+    *(magn *)out = (magn){prop_magnitude(ctx, q, val), val};
+    return 0;
+}
+
+static int mag_neg(void *ctx, const ls_q *q, void *a)
+{
+    (void)ctx, (void)q;
+    ((magn *)a)->val = -((magn *)a)->val;
+    return 0;
+}
+
+static int mag_binop(void *ctx, const ls_q *q, void *av, const void *bv)
+{
+    (void)ctx;
+    magn *a = av;
+    const magn *b = bv;
+    double val = ls_apply_op(q->op, a->val, b->val);
+    switch (q->op) {
+    case LS_OP_ADD:
+    case LS_OP_SUB: a->mag = a->mag + b->mag; break;
+    case LS_OP_MUL: a->mag = a->mag * b->mag; break;
+    case LS_OP_DIV: a->mag = a->mag / fabs(b->val); break;
+    default: a->mag = fabs(val); break;
+    }
+    a->val = val;
+    return 0;
+}
+
+static int mag_call(void *ctx, const ls_q *q, void *const *args, void *out)
+{
+    (void)ctx;
+    double v[LS_Q_MAX_ARGS];
+    for (int i = 0; i < q->nargs; i++)
+        v[i] = ((const magn *)args[i])->val;
+    double val = ls_apply_func(q->op, v, q->nargs);
+    *(magn *)out = (magn){fabs(val), val};
+    return 0;
+}
+
+static const ls_qdomain magnitude_domain = {
+    .size = sizeof(magn), .constant = mag_const, .node = mag_node, .prop = mag_prop,
+    .neg = mag_neg, .binop = mag_binop, .call = mag_call,
+};
+
+/* The size of the numbers the solver combined to get q (magnitude_domain). */
 static double q_magnitude(ls_op *op, const ls_q *q)
 {
-    switch (q->kind) {
-    case Q_CONST: return fabs(q->value);
-    case Q_NODE: return fabs(op->v[q->index]);
-    case Q_NEG: return q_magnitude(op, q->a);
-    case Q_BIN:
-        switch (q->op) {
-        case LS_OP_ADD:
-        case LS_OP_SUB: return q_magnitude(op, q->a) + q_magnitude(op, q->b);
-        case LS_OP_MUL: return q_magnitude(op, q->a) * q_magnitude(op, q->b);
-        case LS_OP_DIV: return q_magnitude(op, q->a) / fabs(ls_q_eval(op, q->b));
-        default: return fabs(ls_q_eval(op, q));
-        }
-    case Q_PROP: {
-        const ls_part *p = &op->nl->parts[q->index];
-        if (q->prop == PROP_CURRENT || q->prop == PROP_POWER) {
-            ls_lin l;
-            ls_part_current(p, &op->run, &l, false);
-            double m = fabs(l.constant);
-            for (int i = 0; i < l.n; i++)
-                m += fabs(l.coef[i] * op->x[l.idx[i]]);
-            m = fmax(m, 1e-3 * node_current_scale(op, p->pin[0]));
-            if (q->prop == PROP_POWER)
-                m *= fabs(op->v[p->pin[0]]) + (p->kind->npins > 1 ? fabs(op->v[p->pin[1]]) : 0);
-            return fmax(m, fabs(ls_q_eval(op, q)));
-        }
-        if (q->prop == PROP_VOLTAGE && p->kind->npins > 1)
-            return fabs(op->v[p->pin[0]]) + fabs(op->v[p->pin[1]]);
-        if (q->prop == PROP_SAG || q->prop == PROP_SAG_REL) {
-            const ls_port_result *pr = ls_op_port(op, q->index);
-            double m = pr ? fabs(pr->open) + fabs(pr->loaded) : 0;
-            return q->prop == PROP_SAG_REL && pr && pr->open != 0 ? m / fabs(pr->open) : m;
-        }
-        return fabs(ls_q_eval(op, q));
-    }
-    default: return fabs(ls_q_eval(op, q));
-    }
+    magn m = {0, 0};
+    ls_q_walk(&magnitude_domain, op, q, &m);
+    return m.mag;
 }
 
 /* Relative difference of the formula's value and the solver's, against the
@@ -2620,35 +2818,14 @@ static void mark_exact_parts(fx *F)
     }
 }
 
-static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
+/* The self-check of formula a of q, at the file's numbers (the gains as
+ * given) against the solver: res->solve, finite_value, bound and difference.
+ * LS_EXIT_OK, or LS_EXIT_UNSOLVABLE after saying by how much they differ. */
+static int self_check(fx *F, const ls_q *q, rf *a, const char *text, ls_formula_result *res)
 {
-    int code = choose_symbols(F);
-    if (code != LS_EXIT_OK)
-        return code;
-    F->tie = F->nsym;
-    fmpq_mpoly_ctx_init(F->ctx, F->nsym + 1, ORD_DEGREVLEX);
-    F->ctx_ready = true;
-    F->pval = calloc((size_t)F->nl->nparts + 1, sizeof *F->pval);
-    F->pexact = calloc((size_t)F->nl->nparts + 1, sizeof *F->pexact);
-    if (!F->pval || !F->pexact)
-        return LS_EXIT_UNSOLVABLE;
-    for (int i = 0; i < F->nl->nparts; i++)
-        rf_init(F, &F->pval[i]);
-    symbol_values(F);
-    part_values(F);
-    mark_exact_parts(F);
-    rf a;
-    rf_init(F, &a);
-    code = q_rf(F, q, &a, text);
-    if (code == LS_EXIT_OK && F->too_big)
-        code = too_big_error(F, F->too_big_why);
-    if (code != LS_EXIT_OK) {
-        rf_clear(F, &a);
-        return code;
-    }
     /* the self-check, on the formula with the file's gains */
     res->solve = ls_q_eval(F->op, q);
-    res->finite_value = rf_eval_d(F, &a);
+    res->finite_value = rf_eval_d(F, a);
     double diff = rel_difference(F, q, res->finite_value, res->solve);
     /* The solver's own error grows with the condition of the system.  Where the
      * solve already warned that the system is ill-conditioned, a difference
@@ -2675,24 +2852,65 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
                  diff <= solver_bound ? "; the difference is within the solver's own error bound for this system "
                                         "(4 eps / rcond), so the solver's value is the likelier to be off"
                                       : "");
-        rf_clear(F, &a);
         return LS_EXIT_UNSOLVABLE;
     }
-    if (F->req->ideal) {
-        for (int v = 0; v < F->nsym; v++) {
-            if (!F->sym[v].gain || !depends_on(F, &a, v))
-                continue;
-            res->opamps_limited++;
-            if (!limit_inf(F, &a, v)) {
-                ls_error(F->d, F->qloc, "formula: '%s' grows without bound as the gain of %s goes to infinity; "
-                         "no ideal formula", text, F->sym[v].name);
-                rf_clear(F, &a);
-                return LS_EXIT_USAGE;
-            }
+    res->difference = diff;
+    return LS_EXIT_OK;
+}
+
+/* --ideal: every finite op-amp gain a depends on taken to infinity, in a.
+ * LS_EXIT_OK, or LS_EXIT_USAGE when a grows without bound. */
+static int ideal_limit(fx *F, rf *a, const char *text, ls_formula_result *res)
+{
+    for (int v = 0; v < F->nsym; v++) {
+        if (!F->sym[v].gain || !depends_on(F, a, v))
+            continue;
+        res->opamps_limited++;
+        if (!limit_inf(F, a, v)) {
+            ls_error(F->d, F->qloc, "formula: '%s' grows without bound as the gain of %s goes to infinity; "
+                     "no ideal formula", text, F->sym[v].name);
+            return LS_EXIT_USAGE;
         }
     }
+    return LS_EXIT_OK;
+}
+
+static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
+{
+    int code = choose_symbols(F);
+    if (code != LS_EXIT_OK)
+        return code;
+    F->tie = F->nsym;
+    fmpq_mpoly_ctx_init(F->ctx, F->nsym + 1, ORD_DEGREVLEX);
+    F->ctx_ready = true;
+    F->pval = calloc((size_t)F->nl->nparts + 1, sizeof *F->pval);
+    F->pexact = calloc((size_t)F->nl->nparts + 1, sizeof *F->pexact);
+    if (!F->pval || !F->pexact)
+        return LS_EXIT_UNSOLVABLE;
+    for (int i = 0; i < F->nl->nparts; i++)
+        rf_init(F, &F->pval[i]);
+    symbol_values(F);
+    part_values(F);
+    mark_exact_parts(F);
+    rf a;
+    rf_init(F, &a);
+    code = q_rf(F, q, &a, text);
+    if (code == LS_EXIT_OK && F->too_big)
+        code = too_big_error(F, F->too_big_why);
+    if (code != LS_EXIT_OK) {
+        rf_clear(F, &a);
+        return code;
+    }
+    code = self_check(F, q, &a, text, res);
+    if (code == LS_EXIT_OK && F->req->ideal)
+        code = ideal_limit(F, &a, text, res);
+    if (code != LS_EXIT_OK) {
+        rf_clear(F, &a);
+        return code;
+    }
     res->value = rf_eval_d(F, &a);
-    res->difference = F->req->ideal ? rel_difference(F, q, res->value, res->solve) : diff;
+    if (F->req->ideal)
+        res->difference = rel_difference(F, q, res->value, res->solve);
     code = list_symbols(F, &a, res) == 0 ? write_texts(F, &a, res) : LS_EXIT_UNSOLVABLE;
     rf_clear(F, &a);
     if (code == LS_EXIT_OK && F->too_big)

@@ -1625,7 +1625,7 @@ double ls_port_resistor_for_zout(ls_op *op, int port, int part, double target)
     const ls_netlist *nl = op->nl;
     const ls_part *p = &nl->parts[port], *r = &nl->parts[part];
     int f = p->pin[0];
-    if (strcmp(r->kind->name, "resistor") != 0 || f <= 0 || !(target >= 0))
+    if (!r->kind->is_resistance || f <= 0 || !(target >= 0))
         return NAN;
     int other = r->pin[0] == f ? r->pin[1] : r->pin[1] == f ? r->pin[0] : -1;
     if (other < 0 || other == f)
@@ -1664,7 +1664,7 @@ double ls_op_volts(const ls_op *op)
     for (int i = 0; i < nl->nnodes; i++)
         vmax = fmax(vmax, fabs(op->v[i]));
     for (int i = 0; i < nl->nparts; i++)
-        if (strcmp(nl->parts[i].kind->name, "voltage") == 0)
+        if (nl->parts[i].kind->stage_role == LS_ROLE_SOURCE)   /* a voltage source */
             vmax = fmax(vmax, fabs(ls_run_value(&op->run, &nl->parts[i])));
     return vmax;
 }

@@ -474,7 +474,7 @@ static void report_noconv(ls_op *op, const bool *moving)
     bool opamps = false, heat = false;
     for (int i = 0; i < nl->nparts; i++) {
         opamps |= moving[i] && nl->parts[i].kind->is_opamp;
-        heat |= moving[i] && strcmp(nl->parts[i].kind->name, "ntc") == 0;
+        heat |= moving[i] && nl->parts[i].kind->has_body_temp;
     }
     ls_error(nl->diags, at,
              "the circuit cannot be solved: the operating point did not converge in %d iterations (Newton, "
@@ -701,7 +701,7 @@ void ls_real_warnings(ls_op *op)
         rating_warnings(op, i);
         if (p->kind->is_opamp)
             opamp_warnings(op, i);
-        else if (strcmp(p->kind->name, "adc") == 0)
+        else if (p->kind->is_adc)
             adc_warnings(op, i);
     }
     for (int i = 1; i < nl->nnodes; i++) {
@@ -748,7 +748,7 @@ static void adc_verdict(ls_op *op, int i, ls_adc_result *r)
 int ls_op_adc(ls_op *op, int i, ls_adc_result *r)
 {
     const ls_part *p = &op->nl->parts[i];
-    if (strcmp(p->kind->name, "adc") != 0)
+    if (!p->kind->is_adc)
         return -1;
     int node = p->pin[0];
     double rin = ls_part_opt(p, "rin", 0), leak = ls_part_opt(p, "leak", 0);

@@ -21,7 +21,7 @@ static void resistor_advice(ls_op *op, int i, double zmax, ls_port_advice *a)
     a->ohm[0] = a->ohm[1] = NAN;
     for (int j = 0; j < nl->nparts && f > 0; j++) {
         const ls_part *r = &nl->parts[j];
-        if (strcmp(r->kind->name, "resistor") != 0 || (r->pin[0] != f && r->pin[1] != f))
+        if (!r->kind->is_resistance || (r->pin[0] != f && r->pin[1] != f))
             continue;
         double v = ls_port_resistor_for_zout(op, i, j, zmax);
         if (!(v > 0) || !(v < r->value))
@@ -80,7 +80,7 @@ static int compute_adcs(ls_results *r, ls_op *op)
     const ls_netlist *nl = op->nl;
     int cap = 0;
     for (int i = 0; i < nl->nparts; i++)
-        cap += strcmp(nl->parts[i].kind->name, "adc") == 0;
+        cap += nl->parts[i].kind->is_adc;
     if (!cap)
         return 0;
     r->adcs = malloc((size_t)cap * sizeof *r->adcs);

@@ -16,6 +16,7 @@
 
 #include "elab/elab.h"
 #include "analysis/lowrank.h"
+#include "analysis/quantity.h"
 #include "solve/amg.h"
 
 /* The error of a gradient that ran out of memory (compared by address:
@@ -46,10 +47,10 @@ static bool has_main(const ls_part *p)
     return p->has_value && !p->kind->is_port;
 }
 
-/* A cccs or a ccvs: its stamps read the current of its via= part. */
+/* Does the part's stamp read the current of its via= part (its kind's via_use)? */
 static bool reads_via(const ls_part *p)
 {
-    return p->ref >= 0 && (strcmp(p->kind->name, "cccs") == 0 || strcmp(p->kind->name, "ccvs") == 0);
+    return p->ref >= 0 && p->kind->via_use != LS_VIA_NONE;
 }
 
 /* Builds c->via_start / c->via_list (see ctx) by a counting sort over the
@@ -83,9 +84,9 @@ static bool index_via(ctx *c)
     return true;
 }
 
-/* The stamps of a cccs or ccvs read the current of their via= part, so they
- * change with that part's value too (a resistor's current is V/R): returns
- * lambda^T (db - dA x) of those stamps for d/d(value of part m). */
+/* The stamps of a part that reads its via= part's current change with that
+ * part's value too (a resistor's current is V/R), as its kind's via_use says:
+ * returns lambda^T (db - dA x) of those stamps for d/d(value of part m). */
 static double via_terms(ctx *c, int m, const double *lambda, const double *x)
 {
     if (!c->via_start || c->via_start[m] == c->via_start[m + 1])
@@ -98,8 +99,8 @@ static double via_terms(ctx *c, int m, const double *lambda, const double *x)
         return 0;
     for (int v = c->via_start[m]; v < c->via_start[m + 1]; v++) {
         const ls_part *p = &nl->parts[c->via_list[v]];
-        bool cccs = strcmp(p->kind->name, "cccs") == 0;
-        /* current lin: rows f, t get +-gain * coef (a cccs); row k gets -rm * coef (a ccvs) */
+        bool cccs = p->kind->via_use == LS_VIA_CURRENT;
+        /* current lin: rows f, t get +-gain * coef (LS_VIA_CURRENT); row k gets -rm * coef (LS_VIA_VOLTAGE) */
         int rows[2] = {cccs ? ls_node_unknown(p->pin[0]) : p->branch, cccs ? ls_node_unknown(p->pin[1]) : -1};
         double w[2] = {cccs ? ls_run_value(&c->op->run, p) : -ls_run_value(&c->op->run, p), cccs ? -ls_run_value(&c->op->run, p) : 0};
         for (int r = 0; r < 2; r++) {
@@ -366,7 +367,7 @@ static double explicit_current(ctx *c, int j, int m, int depth)
         ls_part_current(p, &c->op->run, &l, true);
         d += ls_lin_eval(&l, c->op->x);
     }
-    if (strcmp(p->kind->name, "cccs") == 0 && p->ref >= 0)
+    if (p->kind->via_use == LS_VIA_CURRENT && p->ref >= 0)   /* its current is VALUE x I(via) */
         d += ls_run_value(&c->op->run, p) * explicit_current(c, p->ref, m, depth + 1);
     return d;
 }
@@ -402,27 +403,22 @@ static bool leaf_current(ctx *c, int j, dual *out)
     return true;
 }
 
-/* The drop V(from) - V(to) of a part (for an op-amp: -V(out)). */
-static bool leaf_drop(ctx *c, int j, dual *out)
+/* A part's voltage as its kind reads it (ls_part_vnodes), with its gradient. */
+static bool leaf_voltage(ctx *c, int j, dual *out)
 {
     const ls_part *p = &c->op->nl->parts[j];
+    int plus, minus;
+    ls_part_vnodes(p, &plus, &minus);
     ls_lin l = {0};
-    if (p->kind->vsign == VSIGN_OUT) {
-        if (p->pin[2] > 0)
-            l = (ls_lin){.n = 1, .idx = {p->pin[2] - 1}, .coef = {-1}};
-        out->v = -c->op->v[p->pin[2]];
-    } else {
-        int a = p->pin[0] - 1, b = p->pin[1] - 1;
-        if (a >= 0) {
-            l.idx[l.n] = a;
-            l.coef[l.n++] = 1;
-        }
-        if (b >= 0) {
-            l.idx[l.n] = b;
-            l.coef[l.n++] = -1;
-        }
-        out->v = c->op->v[p->pin[0]] - c->op->v[p->pin[1]];
+    if (plus > 0) {
+        l.idx[l.n] = plus - 1;
+        l.coef[l.n++] = 1;
     }
+    if (minus > 0) {
+        l.idx[l.n] = minus - 1;
+        l.coef[l.n++] = -1;
+    }
+    out->v = c->op->v[plus] - c->op->v[minus];
     return linear_leaf(c, &l, out->g);
 }
 
@@ -550,22 +546,24 @@ static bool eval_prop(ctx *c, const ls_q *q, dual *out)
     case PROP_CURRENT:
         return leaf_current(c, q->index, out);
     case PROP_VOLTAGE:
-        if (!leaf_drop(c, q->index, out))
-            return false;
-        if (p->kind->vsign != VSIGN_DROP) {
-            out->v = -out->v;
-            for (int m = 0; m < c->np; m++)
-                out->g[m] = -out->g[m];
-        }
-        return true;
+        return leaf_voltage(c, q->index, out);
     case PROP_POWER: {
+        /* absorbed: the voltage times the current, signed as the kind reads its voltage */
+        int sign = ls_part_power_sign(p);
+        if (sign == 0) {
+            c->error = "this part's power is not its voltage times its current (a track's: both segments), so it "
+                       "has no derivative here; ask for the influence on its nodes or its current instead";
+            return false;
+        }
         dual i = {0};
         if (!alloc_dual(c, &i))
             return false;
-        bool ok = leaf_drop(c, q->index, out) && leaf_current(c, q->index, &i);
-        if (ok)
+        bool ok = leaf_voltage(c, q->index, out) && leaf_current(c, q->index, &i);
+        if (ok) {
+            out->v *= sign;
             for (int m = 0; m < c->np; m++)
-                out->g[m] = out->g[m] * i.v + out->v * i.g[m];
+                out->g[m] = sign * out->g[m] * i.v + out->v * i.g[m];
+        }
         out->v *= i.v;
         free(i.g);
         return ok;
@@ -601,94 +599,124 @@ static bool eval_prop(ctx *c, const ls_q *q, dual *out)
     }
 }
 
-/* Q with its gradient by forward-mode dual numbers over the parts. */
+/* ---- the dual-number domain of ls_q_walk: a value with its gradient ---------------------- */
+/* Every operation returns 0, or 1 with c->error saying why (NULL: the
+ * analysis failed with nothing more to say). */
+
+static int dd_init(void *cv, void *v)
+{
+    return alloc_dual(cv, v) ? 0 : 1;
+}
+
+static void dd_clear(void *cv, void *v)
+{
+    (void)cv;
+    free(((dual *)v)->g);
+}
+
+/* A function other than min and max of more than one argument has no
+ * derivative rule here (the elaborator allows none). */
+static int dd_accepts(void *cv, const ls_q *q)
+{
+    (void)cv;
+    return q->kind == Q_CALL && q->nargs != 1 && q->op != F_MIN && q->op != F_MAX;
+}
+
+static int dd_const(void *cv, const ls_q *q, void *o)
+{
+    ctx *c = cv;
+    dual *out = o;
+    out->v = q->value;
+    memset(out->g, 0, (size_t)c->np * sizeof *out->g);
+    return 0;
+}
+
+static int dd_node(void *cv, const ls_q *q, void *o)
+{
+    return leaf_node(cv, q->index, o) ? 0 : 1;
+}
+
+static int dd_prop(void *cv, const ls_q *q, void *o)
+{
+    return eval_prop(cv, q, o) ? 0 : 1;
+}
+
+static int dd_neg(void *cv, const ls_q *q, void *o)
+{
+    ctx *c = cv;
+    dual *out = o;
+    (void)q;
+    out->v = -out->v;
+    for (int m = 0; m < c->np; m++)
+        out->g[m] = -out->g[m];
+    return 0;
+}
+
+static int dd_binop(void *cv, const ls_q *q, void *o, const void *bv)
+{
+    ctx *c = cv;
+    dual *out = o;
+    const dual *b = bv;
+    double x = out->v, y = b->v, v = ls_apply_op(q->op, x, y);
+    for (int m = 0; m < c->np; m++) {
+        double dx = out->g[m], dy = b->g[m];
+        switch (q->op) {
+        case LS_OP_ADD: out->g[m] = dx + dy; break;
+        case LS_OP_SUB: out->g[m] = dx - dy; break;
+        case LS_OP_MUL: out->g[m] = dx * y + x * dy; break;
+        case LS_OP_DIV: out->g[m] = (dx * y - x * dy) / (y * y); break;
+        case LS_OP_PAR: out->g[m] = (dx * y * y + dy * x * x) / ((x + y) * (x + y)); break;
+        case LS_OP_POW: out->g[m] = v * (dy * log(x) + y * dx / x); break;
+        }
+        if (q->op == LS_OP_POW && dy == 0)
+            out->g[m] = y * pow(x, y - 1) * dx;
+    }
+    out->v = v;
+    return 0;
+}
+
+/* One argument's functions by the chain rule; min and max take the
+ * gradient of the argument they pick (the last one equal to the value). */
+static int dd_call(void *cv, const ls_q *q, void *const *argv, void *o)
+{
+    ctx *c = cv;
+    dual *out = o;
+    const dual *const *args = (const dual *const *)argv;
+    int n = q->nargs;
+    double vals[LS_Q_MAX_ARGS] = {0};
+    for (int i = 0; i < n; i++)
+        vals[i] = args[i]->v;
+    double v = ls_apply_func(q->op, vals, n), x = args[0]->v;
+    int pick = 0;
+    for (int i = 0; i < n; i++)
+        if (vals[i] == v)
+            pick = i;
+    for (int m = 0; m < c->np; m++) {
+        double dx = args[0]->g[m];
+        switch (q->op) {
+        case F_SQRT: out->g[m] = dx / (2 * v); break;
+        case F_ABS: out->g[m] = x < 0 ? -dx : dx; break;
+        case F_EXP: out->g[m] = v * dx; break;
+        case F_LN: out->g[m] = dx / x; break;
+        case F_LOG10: out->g[m] = dx / (x * log(10.0)); break;
+        default: out->g[m] = args[pick]->g[m]; break;
+        }
+    }
+    out->v = v;
+    return 0;
+}
+
+static const ls_qdomain dual_domain = {
+    .size = sizeof(dual), .init = dd_init, .clear = dd_clear, .accepts = dd_accepts,
+    .constant = dd_const, .node = dd_node, .prop = dd_prop,
+    .neg = dd_neg, .binop = dd_binop, .call = dd_call,
+};
+
+/* Q with its gradient by forward-mode dual numbers over the parts (out
+ * allocated by the caller). */
 static bool eval(ctx *c, const ls_q *q, dual *out)
 {
-    int np = c->np;
-    switch (q->kind) {
-    case Q_CONST:
-        out->v = q->value;
-        memset(out->g, 0, (size_t)np * sizeof *out->g);
-        return true;
-    case Q_NODE:
-        return leaf_node(c, q->index, out);
-    case Q_PROP:
-        return eval_prop(c, q, out);
-    case Q_NEG:
-        if (!eval(c, q->a, out))
-            return false;
-        out->v = -out->v;
-        for (int m = 0; m < np; m++)
-            out->g[m] = -out->g[m];
-        return true;
-    case Q_BIN: {
-        dual b;
-        if (!alloc_dual(c, &b))
-            return false;
-        if (!eval(c, q->a, out) || !eval(c, q->b, &b)) {
-            free(b.g);
-            return false;
-        }
-        double x = out->v, y = b.v, v = ls_apply_op(q->op, x, y);
-        for (int m = 0; m < np; m++) {
-            double dx = out->g[m], dy = b.g[m];
-            switch (q->op) {
-            case LS_OP_ADD: out->g[m] = dx + dy; break;
-            case LS_OP_SUB: out->g[m] = dx - dy; break;
-            case LS_OP_MUL: out->g[m] = dx * y + x * dy; break;
-            case LS_OP_DIV: out->g[m] = (dx * y - x * dy) / (y * y); break;
-            case LS_OP_PAR: out->g[m] = (dx * y * y + dy * x * x) / ((x + y) * (x + y)); break;
-            case LS_OP_POW: out->g[m] = v * (dy * log(x) + y * dx / x); break;
-            }
-            if (q->op == LS_OP_POW && dy == 0)
-                out->g[m] = y * pow(x, y - 1) * dx;
-        }
-        out->v = v;
-        free(b.g);
-        return true;
-    }
-    case Q_CALL: {
-        if (q->nargs != 1 && q->op != F_MIN && q->op != F_MAX)
-            return false;
-        dual args[8];
-        int n = q->nargs;
-        if (n > 8) {                  /* the parser allows at most 8 */
-            c->error = "too many arguments for the sensitivity analysis";
-            return false;
-        }
-        for (int i = 0; i < n; i++)
-            args[i].g = NULL;
-        bool ok = true;
-        for (int i = 0; i < n && ok; i++)
-            ok = alloc_dual(c, &args[i]) && eval(c, q->args[i], &args[i]);
-        if (ok) {
-            double vals[8] = {0};
-            for (int i = 0; i < n; i++)
-                vals[i] = args[i].v;
-            double v = ls_apply_func(q->op, vals, n), x = args[0].v;
-            int pick = 0;
-            for (int i = 0; i < n; i++)
-                if (vals[i] == v)
-                    pick = i;
-            for (int m = 0; m < np; m++) {
-                double dx = args[0].g[m];
-                switch (q->op) {
-                case F_SQRT: out->g[m] = dx / (2 * v); break;
-                case F_ABS: out->g[m] = x < 0 ? -dx : dx; break;
-                case F_EXP: out->g[m] = v * dx; break;
-                case F_LN: out->g[m] = dx / x; break;
-                case F_LOG10: out->g[m] = dx / (x * log(10.0)); break;
-                default: out->g[m] = args[pick].g[m]; break;
-                }
-            }
-            out->v = v;
-        }
-        for (int i = 0; i < n; i++)
-            free(args[i].g);
-        return ok;
-    }
-    }
-    return false;
+    return ls_q_walk(&dual_domain, c, q, out) == 0;
 }
 
 /* Frees the via index of index_via (NULL-safe). */

@@ -57,7 +57,7 @@ static void put_cut(char *buf, size_t n, const char *s, size_t len)
  *     r / 10^e3 with r already rounded to `sig` digits, so it lies within a few
  *     units in the last place of a number with exactly `decimals` decimals,
  *     never half way between two.
- * tests/unit/test_fmt.c compares the two on random and edge inputs. */
+ * tests/unit/base/test_fmt.c compares the two on random and edge inputs. */
 
 /* The slow original, kept for what the fast path leaves to it (more than 17
  * digits, magnitudes beyond FAST_LO..FAST_HI). */

@@ -152,13 +152,7 @@ static void tol_monte_carlo(ls_wr *w, const tol_ctx *t)
     char b1[64], b2[64], b3[64], b4[64];
     ls_wr_obj(w, "monte_carlo");
     ls_wr_int(w, "trials", t->trials);
-    ls_wr_csv_rows(w, false);
-    ls_wr_int(w, "seed", (long long)t->seed);
-    ls_wr_csv_rows(w, true);
-    ls_wr_json_members(w, false);   /* the seed in CSV: all 64 bits unsigned */
-    snprintf(b1, sizeof b1, "%llu", (unsigned long long)t->seed);
-    ls_wr_str(w, "seed", b1);
-    ls_wr_json_members(w, true);
+    ls_wr_uint(w, "seed", (unsigned long long)t->seed);
     ls_wr_str(w, "dist", t->normal ? "normal" : "uniform");
     ls_wr_num(w, "mean", r->mean);
     ls_wr_num(w, "std", r->std);

@@ -669,13 +669,12 @@ static ls_dims main_dims(const ls_kind *k)
 
 bool ls_prop_applies(const ls_part *p, ls_prop prop)
 {
-    const char *k = p->kind->name;
     switch (prop) {
     case PROP_CURRENT: return true;
     case PROP_VOLTAGE: case PROP_POWER: return !p->kind->is_port;
     case PROP_VALUE: return !p->kind->is_port && p->has_value;
-    case PROP_CODE: case PROP_ERROR_LSB: case PROP_UNLOADED: case PROP_SOURCE: return strcmp(k, "adc") == 0;
-    case PROP_RESISTANCE: case PROP_TEMPERATURE: return strcmp(k, "ntc") == 0;
+    case PROP_CODE: case PROP_ERROR_LSB: case PROP_UNLOADED: case PROP_SOURCE: return p->kind->is_adc;
+    case PROP_RESISTANCE: case PROP_TEMPERATURE: return p->kind->has_body_temp;
     default: return p->kind->is_port; /* open .. budget */
     }
 }
@@ -926,7 +925,7 @@ int ls_port_adc(const ls_netlist *nl, int port)
         return -1;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (strcmp(p->kind->name, "adc") != 0 || p->pin[0] != load)
+        if (!p->kind->is_adc || p->pin[0] != load)
             continue;
         double lsb = ls_adc_lsb(p);
         if (lsb < best_lsb) {
@@ -948,7 +947,7 @@ static bool *adc_on_node(const ls_netlist *nl)
         return NULL;
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (strcmp(p->kind->name, "adc") == 0 && p->pin[0] > 0 && p->pin[0] < nl->nnodes &&
+        if (p->kind->is_adc && p->pin[0] > 0 && p->pin[0] < nl->nnodes &&
             ls_adc_lsb(p) < INFINITY)
             has[p->pin[0]] = true;
     }

@@ -86,7 +86,25 @@ typedef struct ls_stamp_ctx {
 static inline int ls_node_unknown(int node) { return node - 1; }
 
 typedef enum ls_shape { SHAPE_TWO, SHAPE_PINNED } ls_shape;
-typedef enum ls_vsign { VSIGN_DROP, VSIGN_RISE, VSIGN_OUT } ls_vsign;
+/* How a part's `voltage` reads, and how its absorbed power follows from it
+ * (ls_part_vnodes, ls_part_power_sign). */
+typedef enum ls_vsign {
+    VSIGN_DROP,   /* V(pin 0) - V(pin 1); power = voltage x current */
+    VSIGN_RISE,   /* V(pin 1) - V(pin 0); power = -voltage x current */
+    VSIGN_OUT,    /* V(pin 2), an output against ground; power = -voltage x current */
+    VSIGN_ENDS,   /* V(pin 0) - V(pin 2), across a three-pin track's ends; its power is its
+                     own (the kind's results), no product of voltage and current */
+    VSIGN_IN      /* V(pin 0), an input against ground; power = voltage x current */
+} ls_vsign;
+
+/* How a kind's stamp reads the current of its via= part (ls_part.ref). */
+typedef enum ls_via_use {
+    LS_VIA_NONE = 0,
+    LS_VIA_CURRENT,       /* a current VALUE x I(via) from FROM to TO (rows FROM, TO); its own
+                             current is that product */
+    LS_VIA_VOLTAGE        /* a branch V(TO) - V(FROM) = VALUE x I(via) (its branch row); its own
+                             current is its branch unknown */
+} ls_via_use;
 
 /* Topology: conductive edges (DC paths) and voltage-defined edges. */
 typedef void (*ls_edge_fn)(void *ctx, int a, int b, bool voltage_defined, int part);
@@ -144,6 +162,16 @@ typedef struct ls_kind {
     ls_exact exact;              /* how `formula` stamps it exactly (LS_EXACT_NONE: as numbers) */
     bool is_junction;            /* iterates as a pn junction (ls_junction_current/_v): the iteration's
                                     polishing, its past-the-model check and sag's on/off limits */
+    bool is_resistance;          /* a plain resistance FROM -> TO, its main value in ohms, carrying
+                                    V/R and nothing else: the resistor advice of a port, the
+                                    spread of values named when a system is singular, the
+                                    small-resistance reason of the error bounds */
+    bool is_adc;                 /* reads its input node (pin 0) as a code (ls_op_adc): the
+                                    readings, the range and source checks, the code property */
+    bool has_body_temp;          /* a body temperature (a thermistor's): its resistance and
+                                    temperature properties; one that iterates and does not
+                                    settle points at thermal runaway */
+    ls_via_use via_use;          /* how its stamp reads the current of its via= part */
     ls_optdef opts[LS_MAX_OPTS];
     int nopts;
     /* Options that were spelled differently before; naming one is an error
@@ -192,6 +220,33 @@ void ls_stamp_conductance(ls_sink *s, int a, int b, double g);
 void ls_lin_add(ls_lin *l, int idx, double c);
 /* Unknown idx of a solution x (0 for ground, idx < 0). */
 static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx] : 0; }
+
+/* The nodes a part's `voltage` reads (its kind's vsign): V(*plus) - V(*minus),
+ * node 0 being ground. */
+static inline void ls_part_vnodes(const ls_part *p, int *plus, int *minus)
+{
+    switch (p->kind->vsign) {
+    case VSIGN_DROP: *plus = p->pin[0], *minus = p->pin[1]; return;
+    case VSIGN_RISE: *plus = p->pin[1], *minus = p->pin[0]; return;
+    case VSIGN_OUT: *plus = p->pin[2], *minus = 0; return;
+    case VSIGN_ENDS: *plus = p->pin[0], *minus = p->pin[2]; return;
+    case VSIGN_IN: *plus = p->pin[0], *minus = 0; return;
+    }
+    assert(!"a vsign outside ls_vsign");
+}
+
+/* The sign s with absorbed power = s x voltage x current (FROM -> TO) for a
+ * part, or 0 when its power is not that product (a track's two segments). */
+static inline int ls_part_power_sign(const ls_part *p)
+{
+    switch (p->kind->vsign) {
+    case VSIGN_DROP: case VSIGN_IN: return 1;
+    case VSIGN_RISE: case VSIGN_OUT: return -1;
+    case VSIGN_ENDS: return 0;
+    }
+    assert(!"a vsign outside ls_vsign");
+    return 0;
+}
 
 /* Removing a part of a kind removed as a short (a voltage source, a
  * voltage-defined controlled source: its value set to zero) keeps its DC

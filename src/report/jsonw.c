@@ -275,6 +275,14 @@ void ls_jw_int(ls_jw *w, const char *key, long long v)
     put(w, b, (size_t)n);
 }
 
+void ls_jw_uint(ls_jw *w, const char *key, unsigned long long v)
+{
+    char b[24];
+    int n = snprintf(b, sizeof b, "%llu", v);
+    member(w, key);
+    put(w, b, (size_t)n);
+}
+
 void ls_jw_bool(ls_jw *w, const char *key, bool v)
 {
     member(w, key);

@@ -58,6 +58,8 @@ void ls_jw_num(ls_jw *w, const char *key, double v);
 /* A number; when not finite, null with the given reason. */
 void ls_jw_num_why(ls_jw *w, const char *key, double v, const char *why);
 void ls_jw_int(ls_jw *w, const char *key, long long v);
+/* An unsigned integer member (a 64-bit seed keeps all its bits). */
+void ls_jw_uint(ls_jw *w, const char *key, unsigned long long v);
 void ls_jw_bool(ls_jw *w, const char *key, bool v);
 /* A string (escaped; bytes above 0x7f copied, the input is UTF-8); NULL is
  * null with reason "none". */

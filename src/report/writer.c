@@ -232,6 +232,17 @@ void ls_wr_int(ls_wr *w, const char *key, long long v)
     }
 }
 
+void ls_wr_uint(ls_wr *w, const char *key, unsigned long long v)
+{
+    char b[32];
+    if (json(w)) {
+        ls_jw_uint(&w->jw, key, v);
+    } else if (csv_row_on(w)) {
+        snprintf(b, sizeof b, "%llu", v);
+        csv_member(w, key, b, false);
+    }
+}
+
 void ls_wr_bool(ls_wr *w, const char *key, bool v)
 {
     if (json(w))

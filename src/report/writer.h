@@ -96,6 +96,8 @@ void ls_wr_arr(ls_wr *w, const char *key);
 void ls_wr_end(ls_wr *w);
 void ls_wr_num(ls_wr *w, const char *key, double v);
 void ls_wr_int(ls_wr *w, const char *key, long long v);
+/* An unsigned integer member: JSON and CSV write all 64 bits (a seed). */
+void ls_wr_uint(ls_wr *w, const char *key, unsigned long long v);
 void ls_wr_bool(ls_wr *w, const char *key, bool v);
 void ls_wr_str(ls_wr *w, const char *key, const char *s);
 void ls_wr_null(ls_wr *w, const char *key, const char *why);

@@ -44,15 +44,11 @@ static int same_value(double x, double y)
     return fabs(x - y) <= 8 * DBL_EPSILON * fmax(fabs(x), fabs(y));
 }
 
-/* The first branch unknown m of a reducible A, or -1 when A does not have the
- * shape above.  Fills fixes[k - m] (may be NULL) with the node a zero-rs source
- * k fixes, or -1 for a source with rs > 0.  `mark` is n ints of scratch. */
-static int reducible_split(const ls_csc *a, int *fixes, int *mark)
+/* m: the smallest index such that every column from m on couples only to
+ * rows below m, with +-1 entries mirrored by their negatives (n: none). */
+static int branch_tail(const ls_csc *a)
 {
-    int n = a->n;
-    /* m: the smallest index such that every column from m on couples only to
-     * rows below m, with +-1 entries mirrored by their negatives. */
-    int m = n, maxpartner = -1;
+    int n = a->n, m = n, maxpartner = -1;
     for (int k = n - 1; k >= 0; k--) {
         int ok = 1, top = -1;
         for (int p = a->colptr[k]; p < a->colptr[k + 1] && ok; p++) {
@@ -72,13 +68,18 @@ static int reducible_split(const ls_csc *a, int *fixes, int *mark)
         if (maxpartner < k)
             m = k;
     }
-    if (m == n)
-        return -1;
-    int nfixed = 0;
+    return m;
+}
+
+/* Every column k >= m: only partners below m, and a zero-rs source fixes
+ * one node that nothing else fixes (fixes[k - m], may be NULL: that node, or
+ * -1 for a source with rs > 0).  Returns the number of fixed nodes, or -1
+ * when a column breaks the shape.  mark: n ints of scratch. */
+static int source_fixes(const ls_csc *a, int m, int *fixes, int *mark)
+{
+    int n = a->n, nfixed = 0;
     for (int i = 0; i < n; i++)
         mark[i] = -1;
-    /* every column k >= m: only partners below m, and a zero-rs source fixes one
-     * node that nothing else fixes */
     for (int k = m; k < n; k++) {
         int partners = 0, last = -1;
         double diag = 0;
@@ -104,34 +105,51 @@ static int reducible_split(const ls_csc *a, int *fixes, int *mark)
             fixes[k - m] = fixed;
         nfixed += fixed >= 0;
     }
-    if (nfixed == m)
-        return -1; /* nothing left to factor: LU handles it directly */
-    /* A is structurally symmetric, its node block numerically so (to rounding),
-     * and every node-branch coupling is mirrored with the opposite sign.  The
-     * columns are walked left to right: the mirror of an entry (i, j) below the
-     * diagonal must be the next unmatched entry above the diagonal in column
-     * i, as those rows are sorted and met in increasing j; an entry above the
-     * diagonal still unmatched when its own column comes up has no mirror.
-     * mark is free again and holds that next position per column. */
-    int *next = mark;
+    return nfixed;
+}
+
+/* Is A structurally symmetric, its node block (below m) numerically so (to
+ * rounding), and every node-branch coupling mirrored with the opposite sign?
+ * The columns are walked left to right: the mirror of an entry (i, j) below
+ * the diagonal must be the next unmatched entry above the diagonal in column
+ * i, as those rows are sorted and met in increasing j; an entry above the
+ * diagonal still unmatched when its own column comes up has no mirror.
+ * next: n ints of scratch, the next position per column. */
+static bool mirrored(const ls_csc *a, int m, int *next)
+{
+    int n = a->n;
     for (int j = 0; j < n; j++)
         next[j] = a->colptr[j];
     for (int j = 0; j < n; j++) {
         if (next[j] < a->colptr[j + 1] && a->rowind[next[j]] < j)
-            return -1;
+            return false;
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
             int i = a->rowind[p];
             if (i <= j)
                 continue;
             int q = next[i];
             if (q >= a->colptr[i + 1] || a->rowind[q] != j)
-                return -1;
+                return false;
             if (i < m ? !same_value(a->val[q], a->val[p]) : a->val[q] != -a->val[p])
-                return -1;
+                return false;
             next[i]++;
         }
     }
-    return m;
+    return true;
+}
+
+/* The first branch unknown m of a reducible A, or -1 when A does not have the
+ * shape above.  Fills fixes[k - m] (may be NULL) with the node a zero-rs source
+ * k fixes, or -1 for a source with rs > 0.  `mark` is n ints of scratch. */
+static int reducible_split(const ls_csc *a, int *fixes, int *mark)
+{
+    int m = branch_tail(a);
+    if (m == a->n)
+        return -1;
+    int nfixed = source_fixes(a, m, fixes, mark);
+    if (nfixed < 0 || nfixed == m)
+        return -1; /* nfixed == m: nothing left to factor, LU handles it directly */
+    return mirrored(a, m, mark) ? m : -1;
 }
 
 /* See mna.h; only the split is computed, nothing is kept. */
@@ -261,6 +279,24 @@ static int col_push(ls_csc *c, size_t *cap, size_t at, int row, double v)
     return 0;
 }
 
+/* Sorts entries start..w-1 of c by row, by insertion: a column's Norton
+ * entries that arrive out of order are few. */
+static void sort_column(ls_csc *c, size_t start, size_t w)
+{
+    for (size_t p = start + 1; p < w; p++) {
+        int r = c->rowind[p];
+        double v = c->val[p];
+        size_t q = p;
+        while (q > start && c->rowind[q - 1] > r) {
+            c->rowind[q] = c->rowind[q - 1];
+            c->val[q] = c->val[q - 1];
+            q--;
+        }
+        c->rowind[q] = r;
+        c->val[q] = v;
+    }
+}
+
 /* Build M = (G + C1 D1^-1 C1^T)_UU column by column from a (split at h->m),
  * rows sorted, entries that cancel kept.  0 ok, -1 no memory. */
 static int build_reduced(reduced *h, const ls_csc *a)
@@ -318,19 +354,8 @@ static int build_reduced(reduced *h, const ls_csc *a)
         }
         for (size_t p = start; p < w; p++)
             slot[c->rowind[p]] = -1;
-        if (!sorted) /* insertion sort: Norton entries are few */
-            for (size_t p = start + 1; p < w; p++) {
-                int r = c->rowind[p];
-                double v = c->val[p];
-                size_t q = p;
-                while (q > start && c->rowind[q - 1] > r) {
-                    c->rowind[q] = c->rowind[q - 1];
-                    c->val[q] = c->val[q - 1];
-                    q--;
-                }
-                c->rowind[q] = r;
-                c->val[q] = v;
-            }
+        if (!sorted)
+            sort_column(c, start, w);
     }
     c->colptr[nu] = (int)w;
     return 0;

@@ -196,6 +196,34 @@ def test_sens_divider(b, tmp):
         near("zero quantity: dV/dVs", it["vs"]["per_unit"], 0.5, source="divider ratio Rb/(Rt+Rb)")
 
 
+def test_sens_pot(b, tmp):
+    # A pot's voltage is V(a) - V(b) across its whole track (docs/parts-real.md),
+    # here V(a) with b grounded: Va = Vs*Rd/(R1+Rd), Rd = at*T + ((1-at)*T || RL)
+    # (series and parallel resistances); its derivatives by sympy's diff of
+    # that closed form.
+    import sympy
+    vs, r1, t, rl, at = sympy.symbols("vs r1 t rl at", positive=True)
+    seg2 = (1 - at) * t
+    rd = at * t + seg2 * rl / (seg2 + rl)
+    va = vs * rd / (r1 + rd)
+    vals = {vs: 5, r1: 1000, t: 10000, rl: 20000, at: sympy.Rational(3, 10)}
+    f = write(tmp, "spot.stack", 'title "p"\nground gnd\nvoltage vs gnd -> top 5 V\nresistor r1 top -> a 1k\n'
+              "pot trim 10k a=a wiper=w b=gnd at=0.3\nresistor rl w -> gnd 20k\n")
+    d = js(b, ["influence", f, "trim.voltage"])
+    if d:
+        near("pot voltage", d["value"], float(va.subs(vals)), source="series-parallel divider, V(a) - V(b)")
+        it = {x["part"]: x for x in d["items"]}
+        for name, sym in (("vs", vs), ("r1", r1), ("trim", t), ("rl", rl)):
+            near("d pot.voltage/d %s" % name, it[name]["per_unit"], float(sympy.diff(va, sym).subs(vals)),
+                 rtol=1e-8, source="sympy diff of the divider's closed form")
+    # a track's power is its two segments', no product of voltage and current:
+    # no derivative is made up for it
+    _, err = run(b, ["influence", f, "trim.power"], want_rc=2)
+    truth("influence on a pot's power says why it has none", "not its voltage times its current" in err, "cli spec")
+    _, err = run(b, ["formula", f, "trim.power"], want_rc=2)
+    truth("formula on a pot's power says why it has none", "not its voltage times its current" in err, "cli spec")
+
+
 # ---------------------------------------------------------------------------
 # checks and rules through exit codes; edge cases of the port report
 
@@ -316,7 +344,7 @@ def main():
         return 2
     b = sys.argv[1]
     tests = [test_thevenin_cube, test_thevenin_r2r, test_thevenin_load_meter, test_sag_ranking,
-             test_sens_divider, test_sens_current_mode, test_check_exit_codes, test_verdicts, test_feedback_port, test_float_load_json]
+             test_sens_divider, test_sens_current_mode, test_sens_pot, test_check_exit_codes, test_verdicts, test_feedback_port, test_float_load_json]
     return run_tests([(t.__name__, lambda tmp, t=t: t(b, tmp)) for t in tests], "loadstack_loading_")
 
 

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Independent brute force of ls_pick_ratio, run against tests/unit/pick_driver.
+"""Independent brute force of ls_pick_ratio, run against tests/unit/base/pick_driver.
 
 Usage: test_pick_ref.py PATH/TO/pick_driver      (exit 0 = all cases agree)
 

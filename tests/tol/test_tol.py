@@ -182,6 +182,13 @@ def test_threads():
     check(other != outs["1"], "another seed gives other numbers (the check above can fail)")
     rc, again, err = run(["tol", path, "mid", "--trials", "7001", "--seed", "42", "--format", "json"], check_rc=0)
     check(again == outs["1"], "the default thread count gives the same output too")
+    # the seed is a 64-bit unsigned number (docs/cli.md): JSON (RFC 8259 numbers, read by
+    # Python's json) and CSV echo all its bits, not a negative two's-complement reading
+    top = 2**64 - 1
+    j = run_json(["tol", path, "mid", "--trials", "50", "--seed", str(top)])
+    check(j["monte_carlo"]["seed"] == top, "seed 2^64-1 echoed unsigned in JSON")
+    rc, out, err = run(["tol", path, "mid", "--trials", "50", "--seed", str(top), "--format", "csv"], check_rc=0)
+    check("monte_carlo.seed,%d" % top in out, "seed 2^64-1 echoed unsigned in CSV")
 
 
 # ---- the designer's question in one command -------------------------------------------------

@@ -8,7 +8,7 @@
  * character.  Each case compares the bytes written with the text expected. */
 #include "report/jsonw.h"
 
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

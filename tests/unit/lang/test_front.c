@@ -2,7 +2,7 @@
  * zeroed memory, large blocks, the failure flag), numbers read without strtod
  * against the C library's strtod, and every statement kind's fields in the
  * compact syntax tree against the positions of the source text. */
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <math.h>
 #include <stdalign.h>
 #include <stdint.h>

@@ -2,7 +2,7 @@
  * against their closed forms. */
 #include "base/rng.h"
 
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <math.h>
 #include <stdint.h>
 

@@ -2,12 +2,12 @@
  * params), and each part kind's MNA stamp against the hand-derived entries of
  * modified nodal analysis (KCL rows: currents leaving the node; one extra row
  * and column per voltage-defined branch). */
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
-#include "front_world.h"
+#include "../front_world.h"
 #include "mna/mna.h"
 
 typedef struct world {

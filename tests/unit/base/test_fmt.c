@@ -12,7 +12,7 @@
 #include "base/fmt.h"
 #include "base/numfmt.h"
 
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <float.h>
 #include <math.h>
 #include <stdint.h>

@@ -1,5 +1,5 @@
 /* test_lexer.c — tokens, positions, numbers, SI prefixes, IEC 60062 codes, units. */
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <math.h>
 #include <string.h>
 

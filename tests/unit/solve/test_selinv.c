@@ -4,7 +4,7 @@
  * conductances between random nodes, voltage-source branch rows with a zero
  * diagonal (so KLU must pivot), and controlled-source entries off the
  * symmetric pattern. */
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include "mna/mna.h"
 #include "base/rng.h"
 #include "solve/selinv.h"

@@ -3,11 +3,11 @@
  * connected when every port is opened, ground and supply rails not joining;
  * names by instance, driver node or first part; signal order a stable
  * topological order of the ports. */
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <string.h>
 
 #include "analysis/chain.h"
-#include "front_world.h"
+#include "../front_world.h"
 
 typedef struct world {
     ls_arena a;

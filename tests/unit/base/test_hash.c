@@ -3,7 +3,7 @@
  * growth, many keys, keys that share a home slot and keys whose stored 32-bit
  * hashes are equal; and the spread of the hash function (Pearson's chi-square
  * goodness-of-fit test). */
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

@@ -3,7 +3,7 @@
 #include "solve/solver.h"
 #include "solve/sparse.h"
 
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <lapacke.h>
 
 #include <math.h>

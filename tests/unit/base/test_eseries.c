@@ -3,7 +3,7 @@
  * tests/ref/test_pick_ref.py (via pick_driver.c); here only closed-form cases. */
 #include "base/eseries.h"
 
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <math.h>
 #include <string.h>
 

@@ -5,7 +5,7 @@
  * histogram_bin_edges(..., 'fd') — both from Debian's /usr/bin/python3. */
 #include "report/plot.h"
 
-#include "../cu_run.h"
+#include "../../cu_run.h"
 #include <dirent.h>
 #include <math.h>
 #include <stdint.h>
