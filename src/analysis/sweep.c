@@ -8,6 +8,7 @@
 #include "lang/lexer.h"
 #include "elab/elab.h"
 #include "parts/parts.h"
+#include "analysis/newton.h"
 
 void ls_sweep_points(double from, double to, int n, bool log_scale, double *x)
 {
@@ -184,7 +185,15 @@ int ls_sweeper_solve(ls_sweeper *w, double x, bool fresh)
             ls_op_free(&w->op);
         w->have_op = true;
         code = ls_op_solve(&w->op, w->nl, &w->opt);   /* also the parts' first linearization points */
+        /* the points after it change the parts the let reaches: when few
+         * rows change, the factor may be kept and updated (solver.h) */
+        if (code == LS_EXIT_OK && w->op.solver && !ls_newton_needed(w->nl))
+            ls_solver_allow_update(w->op.solver, &w->op.mna.a);
     } else {
+        /* only the parts the let reaches changed: in a linear circuit (no
+         * states stamped) only their entries are restamped */
+        if (!ls_newton_needed(w->nl))
+            ls_mna_expect_changes(&w->op.mna, w->deps->parts, w->deps->nparts);
         code = ls_op_resolve(&w->op);   /* numeric refactor, the analysis kept */
     }
     w->ready = code == LS_EXIT_OK;

@@ -25,6 +25,7 @@
 #include "parts/parts.h"
 #include "base/rng.h"
 #include "analysis/sens.h"
+#include "analysis/newton.h"
 
 const double ls_tol_pct_levels[5] = {0.1, 1, 50, 99, 99.9};
 const char *const ls_tol_pct_keys[5] = {"0.1", "1", "50", "99", "99.9"};
@@ -150,6 +151,16 @@ static void *mc_run(void *arg)
             w->status = 0;
         }
     }
+    /* In a linear circuit a trial changes only the varying parts' values (the
+     * nominal run puts every other value back, and there are no states), so
+     * only their entries are restamped (mna.h, ls_mna_expect_changes). */
+    int *varying = w->status == 0 && !ls_newton_needed(&nl) ? malloc((size_t)(job->nv ? job->nv : 1) * sizeof *varying)
+                                                            : NULL;
+    for (int j = 0; varying && j < job->nv; j++)
+        varying[j] = job->v[j].part;
+    /* ... and with few varying parts the factor may be kept and updated (solver.h) */
+    if (varying && op.solver)
+        ls_solver_allow_update(op.solver, &op.mna.a);
     for (long i = w->first; w->status == 0 && i < w->last; i++) {
         if (op.mna.n > 0)
             memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
@@ -157,6 +168,8 @@ static void *mc_run(void *arg)
             w->status = -2;
             break;
         }
+        if (varying)
+            ls_mna_expect_changes(&op.mna, varying, job->nv);
         if (ls_op_resolve(&op) != LS_EXIT_OK) {
             if (op.nomem) { /* not a trial that has no solution: the study cannot go on */
                 w->status = -2;
@@ -180,6 +193,7 @@ static void *mc_run(void *arg)
     }
     if (have_op)
         ls_op_free(&op);
+    free(varying);
     free(x0);
     ls_run_free(&nominal);
     ls_diags_free(&diags);

@@ -24,7 +24,9 @@ void ls_diags_free(ls_diags *d)
     memset(d, 0, sizeof *d);
 }
 
-int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len)
+/* Register text (already in the arena, NUL-terminated at len) under path:
+ * the line index is built here.  Its id, or -1 when out of memory. */
+static int register_owned(ls_diags *d, const char *path, const char *text, unsigned len)
 {
     if (d->nfiles == d->cap_files) {
         int cap = d->cap_files ? d->cap_files * 2 : 8;
@@ -36,7 +38,7 @@ int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len
     }
     ls_file *f = &d->files[d->nfiles];
     f->path = ls_arena_strdup(d->arena, path);
-    f->text = ls_arena_strndup(d->arena, text, len);
+    f->text = text;
     f->len = len;
     /* Line starts, for locations: memchr runs many bytes a step. */
     int lines = 1;
@@ -44,7 +46,7 @@ int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len
     for (const char *c = text; (c = memchr(c, '\n', (size_t)(end - c))) != NULL; c++)
         lines++;
     f->line_start = malloc((size_t)lines * sizeof *f->line_start);
-    if (!f->path || !f->text || !f->line_start) {
+    if (!f->path || !f->line_start) {
         free(f->line_start);
         return -1;
     }
@@ -54,6 +56,17 @@ int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len
         f->line_start[k++] = (unsigned)(c - text) + 1;
     f->nlines = lines;
     return d->nfiles++;
+}
+
+int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len)
+{
+    const char *copy = ls_arena_strndup(d->arena, text, len);
+    return copy ? register_owned(d, path, copy, len) : -1;
+}
+
+int ls_sources_adopt(ls_diags *d, const char *path, const char *text, unsigned len)
+{
+    return register_owned(d, path, text, len);
 }
 
 void ls_sources_truncate(ls_diags *d, int nfiles)

@@ -58,6 +58,10 @@ void ls_diags_init(ls_diags *d, ls_arena *a);
 void ls_diags_free(ls_diags *d);
 /* Register a file's text (copied into the arena); returns its id, -1 on no memory. */
 int ls_sources_add(ls_diags *d, const char *path, const char *text, unsigned len);
+/* The same for text already in the diagnostics' arena (ls_arena_alloc_bytes of
+ * d->arena), NUL-terminated at len: kept where it is, not copied (a large
+ * file is read once, straight into its final place). */
+int ls_sources_adopt(ls_diags *d, const char *path, const char *text, unsigned len);
 /* Forget the files registered after the first `nfiles` (their text lives in
  * the arena, which the caller rolls back); only when no diagnostic points
  * into them. */

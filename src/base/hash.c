@@ -50,7 +50,11 @@ static inline uint64_t read8(const char *p)
  * length, which seeds the state, the words determine the key. */
 uint64_t ls_hash_string(const char *key)
 {
-    size_t n = strlen(key);
+    return ls_hash_bytes(key, strlen(key));
+}
+
+uint64_t ls_hash_bytes(const char *key, size_t n)
+{
     uint64_t h = 0x6a09e667f3bcc908ull ^ ((uint64_t)n * 0xbf58476d1ce4e5b9ull), w = 0;
     for (; n > 8; n -= 8, key += 8)
         h = absorb(h, read8(key));
@@ -113,10 +117,12 @@ int ls_hash_reserve(ls_hash *h, size_t n)
     return cap > h->cap ? rebuild(h, cap) : 0;
 }
 
-void ls_hash_prefetch(const ls_hash *h, const char *key)
+uint32_t ls_hash_prefetch(const ls_hash *h, const char *key)
 {
+    uint32_t hv = (uint32_t)ls_hash_string(key);
     if (h->cap)
-        __builtin_prefetch(&h->slots[(uint32_t)ls_hash_string(key) & (h->cap - 1)], 0, 1);
+        __builtin_prefetch(&h->slots[hv & (h->cap - 1)], 0, 1);
+    return hv;
 }
 
 /* The slot holding key, or the empty slot where it would go (cap > 0). */
@@ -171,7 +177,11 @@ int ls_hash_put(ls_hash *h, const char *key, int val)
 
 int ls_hash_intern(ls_hash *h, const char *key, int val_if_new, int *val)
 {
-    uint32_t hv = (uint32_t)ls_hash_string(key);
+    return ls_hash_intern_hashed(h, key, (uint32_t)ls_hash_string(key), val_if_new, val);
+}
+
+int ls_hash_intern_hashed(ls_hash *h, const char *key, uint32_t hv, int val_if_new, int *val)
+{
     ls_hash_slot *s = slot_for(h, key, hv);
     if (!s) {
         *val = -1;

@@ -42,13 +42,22 @@ int ls_hash_reserve(ls_hash *h, size_t n);
  * the key is in the table. */
 int ls_hash_intern(ls_hash *h, const char *key, int val_if_new, int *val);
 
+/* ls_hash_intern with the key's hash already known: hv must be
+ * (uint32_t)ls_hash_string(key) (as ls_hash_prefetch returns it), so a key
+ * is hashed once when it was prefetched. */
+int ls_hash_intern_hashed(ls_hash *h, const char *key, uint32_t hv, int val_if_new, int *val);
+
 /* Start loading the slot where key's probe begins (a hint, no effect on the
  * table): a caller about to look up many keys in a large table can ask a few
- * keys ahead, so that the memory latency of one overlaps the work of others. */
-void ls_hash_prefetch(const ls_hash *h, const char *key);
+ * keys ahead, so that the memory latency of one overlaps the work of others.
+ * Returns the key's hash as ls_hash_intern_hashed takes it. */
+uint32_t ls_hash_prefetch(const ls_hash *h, const char *key);
 
 /* The hash of a NUL-terminated string (64 bits, well mixed; the table uses
  * its low 32 bits).  Exposed for tests. */
 uint64_t ls_hash_string(const char *key);
+/* The same hash of the n bytes at key (no NUL needed): ls_hash_bytes(k,
+ * strlen(k)) == ls_hash_string(k), for a caller that knows the length. */
+uint64_t ls_hash_bytes(const char *key, size_t n);
 
 #endif

@@ -121,9 +121,12 @@ int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *te
         how.len = cli->stdin_len;
         how.input_path = NULL;
     }
-    /* every failure to load is a usage error (exit 2); ls_session_nomem
-     * tells a caller when it was memory */
-    return ls_circuit_load(s, &how) == LS_LOADED ? LS_EXIT_OK : LS_EXIT_USAGE;
+    /* a failure to load is a usage error (exit 2), unless it was memory:
+     * that is no fault of the file, exit 3 as every run out of memory
+     * (docs/limits.md; ls_session_nomem tells a caller which it was) */
+    if (ls_circuit_load(s, &how) == LS_LOADED)
+        return LS_EXIT_OK;
+    return ls_session_nomem(s) ? LS_EXIT_UNSOLVABLE : LS_EXIT_USAGE;
 }
 
 /* Circuits this large take about a second or more to solve: the progress

@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "base/eseries.h"
+#include "base/memlimit.h"
 #include "lang/parser.h"
 #include "netlist/letdeps.h"
 #include "parts/parts.h"
@@ -42,6 +43,10 @@ typedef struct elab {
     const char *last_kw;              /* the kind word last looked up (the parser shares one string */
     const ls_kind *last_kind;         /* per word on consecutive lines) and its kind, or NULL */
     ls_letdeps *deps;                 /* a let being followed (sweeps), or NULL */
+    /* Hashes of the names prefetched a few statements ahead (prefetch_names),
+     * found again by the name's pointer (the tree's strings do not move), so
+     * a name is hashed once; a slot another name took is only a lost hint. */
+    struct { const char *key; uint32_t hv; } hints[64];
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -136,6 +141,28 @@ static void note_decl(elab *x, ls_loc loc, const char *name)
         ls_note(x->d, loc, "'%s' was declared here", name);
 }
 
+/* The name table's hash of full (len bytes): the one prefetch_names kept,
+ * else computed. */
+static uint32_t name_hash(elab *x, const char *full, size_t len)
+{
+    size_t n = sizeof x->hints / sizeof x->hints[0];
+    __typeof__(x->hints[0]) *h = &x->hints[((uintptr_t)full >> 3) % n];
+    if (h->key == full) {
+        h->key = NULL;
+        return h->hv;
+    }
+    return (uint32_t)ls_hash_bytes(full, len);
+}
+
+/* Prefetch full's slot in the name table and keep its hash for name_hash. */
+static void prefetch_name(elab *x, const char *full)
+{
+    size_t n = sizeof x->hints / sizeof x->hints[0];
+    __typeof__(x->hints[0]) *h = &x->hints[((uintptr_t)full >> 3) % n];
+    h->key = full;
+    h->hv = ls_hash_prefetch(&x->nl->names, full);
+}
+
 /* Declare a name in its scope; a clash is an error naming both places, or,
  * with `found`, no error: *found is set to the entity already there (else -1).
  * Returns the new entity's index, or -1. */
@@ -146,7 +173,8 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         *found = -1;
     if (!full) /* qualify ran out of memory */
         return -1;
-    if (strlen(full) > LS_MAX_NAME_BYTES) {
+    size_t len = strlen(full);
+    if (len > LS_MAX_NAME_BYTES) {
         ls_error(x->d, loc, "name is longer than %d bytes", LS_MAX_NAME_BYTES);
         return -1;
     }
@@ -154,7 +182,7 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
     if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
         return -1;
     int e;
-    int r = ls_hash_intern(&nl->names, full, nl->nents, &e);
+    int r = ls_hash_intern_hashed(&nl->names, full, name_hash(x, full, len), nl->nents, &e);
     if (r < 0) {
         out_of_memory_n(x, 2 * (nl->names.cap ? nl->names.cap : 16) * sizeof(ls_hash_slot)); /* the doubled table */
         return -1;
@@ -210,13 +238,12 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
         (nl->ground_name && name[0] == nl->ground_name[0] && strcmp(name, nl->ground_name) == 0))
         return 0;
     const char *full = qualify(x, s, name);
-    bool dotted = strchr(name, '.') != NULL;
     int e;
     int i = new_node(x, full, loc, s->depth, &e); /* one probe finds it or makes it */
     if (e >= 0) {
         ls_entity *o = &nl->ents[e];
         if (o->kind == ENT_NODE || o->kind == ENT_ALIAS) {
-            if (o->kind == ENT_NODE && !dotted && s->block)
+            if (o->kind == ENT_NODE && s->block && !strchr(name, '.'))
                 nl->nodes[o->index].claimed = true;
             return o->index;
         }
@@ -226,7 +253,7 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
     }
     if (i < 0)
         return -1;
-    if (dotted) {
+    if (strchr(name, '.')) { /* asked only here and above: most references are neither new nor in a block */
         nl->nodes[i].dotted_ref = true;
     } else if (s->block) {
         nl->nodes[i].claimed = true;
@@ -1338,6 +1365,212 @@ static void follow_rounded(elab *x, const ls_part *p, int n0)
 }
 
 /* part -> fill an ls_part from its statement */
+/* The error for an option name kind k does not have: the nearest name it
+ * has, or the list of them. */
+static void unknown_option(elab *x, const ls_kind *k, const ls_opt *o)
+{
+    const char *best = NULL;
+    char names[512];
+    int bd = 3;
+    for (int j = 0; j < k->nopts; j++) {
+        int dd = ls_edit_distance(o->name, k->opts[j].name);
+        if (dd < bd) {
+            bd = dd;
+            best = k->opts[j].name;
+        }
+    }
+    if (best)
+        ls_error(x->d, o->name_loc, "%s has no option '%s'; did you mean '%s'?", k->name, o->name, best);
+    else
+        ls_error(x->d, o->name_loc, "%s has no option '%s' (it takes: %s)", k->name, o->name,
+                 opt_names(k, names, sizeof names));
+}
+
+/* A numeric option (OPT_VALUE) oi of part p from o: evaluated, checked and
+ * stored (a budget as its index), with its let dependence followed.  False
+ * after an error (reported). */
+static bool set_value(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *o)
+{
+    const ls_optdef *od = &p->kind->opts[oi];
+    double v;
+    if (od->flags & OPTF_BUDGET) {
+        if (!add_budget(x, s, o->value, &v))
+            return false;
+        p->opt[oi] = v;
+        follow(x, s, o->value, LD_BUDGET, (int)v);
+        return true;
+    }
+    if (!eval_slot(x, s, o->value, od->dims, &v) || !check_flags(x, od->flags, v, o->value->loc, o->name))
+        return false;
+    if (od->flags & OPTF_MAIN) {
+        if (p->has_value) {
+            ls_error(x->d, o->name_loc, "%s is given twice (as the value and as %s=)", o->name, o->name);
+            return false;
+        }
+        p->value = v;
+        p->has_value = true;
+        p->value_loc = o->value->loc;
+    }
+    if (strcmp(od->name, "tol") == 0 && v >= 1) {
+        ls_error(x->d, o->value->loc, "tol= is a fraction below 1 (write 1%% or 0.01)");
+        return false;
+    }
+    p->opt[oi] = v;
+    int en = follow(x, s, o->value, LD_OPT, x->nl->nparts);
+    if (en >= 0) {
+        ls_ld_entry *le = ls_letdeps_entry(x->deps, en);
+        le->slot = oi;
+        le->flags = od->flags;
+        le->is_main = od->flags & OPTF_MAIN;
+        le->is_tol = strcmp(od->name, "tol") == 0;
+    }
+    return true;
+}
+
+/* Option o of part p (of kind k, its index oi in the kind's table) set from
+ * its statement; *snap_loc gets where snap= was written.  1 when set, 0
+ * after an error (reported: the option is left out), -1 out of memory (the
+ * part is to be dropped). */
+static int set_option(elab *x, const scope *s, ls_part *p, int oi, const ls_opt *o, ls_loc *snap_loc)
+{
+    if (ls_part_has(p, oi)) {
+        ls_error(x->d, o->name_loc, "option '%s' is given twice", o->name);
+        return 0;
+    }
+    if (!p->opt) {
+        p->opt = ls_arena_alloc(x->a, LS_MAX_OPTS * sizeof *p->opt);
+        if (!p->opt) {
+            out_of_memory(x);
+            return -1;
+        }
+    }
+    const ls_optdef *od = &p->kind->opts[oi];
+    if (od->kind == OPT_WORD && strcmp(od->name, "snap") == 0)
+        *snap_loc = o->value->loc;
+    if (o->hi && od->kind != OPT_RANGE && od->kind != OPT_FREE) {
+        ls_error(x->d, o->hi->loc, "%s= takes one value, not a range", o->name);
+        return 0;
+    }
+    bool ok = true;
+    switch (od->kind) {
+    case OPT_VALUE:
+        ok = set_value(x, s, p, oi, o);
+        break;
+    case OPT_NODE:
+        if (o->value->kind != E_NAME) {
+            ls_error(x->d, o->value->loc, "%s= takes a node name", o->name);
+            return 0;
+        }
+        p->pin[od->pin] = node_ref(x, s, o->value->name, o->value->loc);
+        break;
+    case OPT_PART:
+        if (o->value->kind != E_NAME) {
+            ls_error(x->d, o->value->loc, "%s= takes the name of a part or port", o->name);
+            return 0;
+        }
+        p->ref_name = o->value->name;
+        p->ref_scope = s->prefix;
+        p->ref_loc = o->value->loc;
+        break;
+    case OPT_WORD: ok = set_word(x, s, p, oi, o); break;
+    case OPT_RANGE: ok = set_range(x, s, p, oi, o); break;
+    case OPT_FREE: ok = set_free(x, s, p, oi, o); break;
+    }
+    if (!ok)
+        return 0;
+    p->has_opt |= 1u << oi;
+    return 1;
+}
+
+/* The options of statement st into part p.  False when out of memory (the
+ * part is to be dropped). */
+static bool set_options(elab *x, const scope *s, const ls_stmt *st, ls_part *p, ls_loc *snap_loc)
+{
+    const ls_kind *k = p->kind;
+    for (int i = 0; i < st->nopts; i++) {
+        const ls_opt *o = &st->opts[i];
+        int oi = ls_kind_opt(k, o->name);
+        const char *now = oi < 0 ? ls_kind_renamed(k, o->name) : NULL;
+        if (now)
+            ls_error(x->d, o->name_loc, "%s option '%s=' is now spelled '%s='", k->name, o->name, now);
+        else if (oi < 0)
+            unknown_option(x, k, o);
+        else if (set_option(x, s, p, oi, o, snap_loc) < 0)
+            return false;
+    }
+    return true;
+}
+
+/* The error for a required value part p of statement st lacks. */
+static void require_value(elab *x, const ls_stmt *st, const ls_part *p)
+{
+    const ls_kind *k = p->kind;
+    if ((k->value_flags & OPTF_REQUIRED) && !p->has_value && !st->value) {
+        char b[64];
+        ls_error(x->d, st->name_loc, "%s '%s' needs a value (%s)", k->name, st->name, dname(k->value_dims, b, sizeof b));
+    }
+}
+
+/* The errors for the required options part p of statement st lacks. */
+static void require_options(elab *x, const ls_stmt *st, const ls_part *p)
+{
+    const ls_kind *k = p->kind;
+    for (int i = 0; i < k->nopts; i++) {
+        const ls_optdef *od = &k->opts[i];
+        if (!(od->flags & OPTF_REQUIRED) || ls_part_has(p, i) || ((od->flags & OPTF_MAIN) && p->has_value))
+            continue;
+        if ((od->flags & OPTF_MAIN) && st->value)
+            continue; /* the positional value was given but had an error */
+        ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
+    }
+}
+
+/* The index of kind k's option that is its main value (OPTF_MAIN), or -1. */
+static int main_option(const ls_kind *k)
+{
+    int main_opt = -1;
+    for (int i = 0; i < k->nopts; i++)
+        if (k->opts[i].flags & OPTF_MAIN)
+            main_opt = i;
+    return main_opt;
+}
+
+/* The value written after the nodes of statement st into part p, evaluated
+ * in the unit of the kind's value (or of its main option, main_opt >= 0). */
+static void set_positional(elab *x, const scope *s, const ls_stmt *st, ls_part *p, int main_opt)
+{
+    const ls_kind *k = p->kind;
+    ls_dims vd = main_opt >= 0 ? k->opts[main_opt].dims : k->value_dims;
+    if (!k->value_slot) {
+        ls_error(x->d, st->value->loc, "a %s takes no value here: %s", k->name, k->doc);
+    } else if (eval_slot(x, s, st->value, vd, &p->value)) {
+        p->has_value = true;
+        p->value_loc = st->value->loc;
+        int en = follow(x, s, st->value, LD_VALUE, x->nl->nparts);
+        if (en >= 0)
+            ls_letdeps_entry(x->deps, en)->flags = main_opt < 0 ? k->value_flags : 0;
+    }
+}
+
+/* Part p of statement st into the netlist under its name (unless the part
+ * table is at its limit or the name is taken: both reported). */
+static void store_part(elab *x, const ls_stmt *st, const ls_part *p)
+{
+    ls_netlist *nl = x->nl;
+    if (nl->nparts >= LS_MAX_PARTS) {
+        if (!x->parts_capped) /* say it once, with what the parts alone would take */
+            ls_error(x->d, st->name_loc, "more than %d parts after the blocks are expanded (%.0f MB for the part "
+                     "table alone)", LS_MAX_PARTS, (double)LS_MAX_PARTS * sizeof(ls_part) / 1e6);
+        x->parts_capped = true;
+        return;
+    }
+    if (!grow_x(x, (void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
+        return;
+    nl->parts[nl->nparts] = *p;
+    if (declare(x, p->name, ENT_PART, nl->nparts, st->name_loc, NULL) >= 0)
+        nl->nparts++;
+}
+
 static void elab_part(elab *x, const scope *s, const ls_stmt *st)
 {
     ls_netlist *nl = x->nl;
@@ -1373,150 +1606,18 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         p.pin[0] = node_ref(x, s, st->from, st->from_loc);
         p.pin[1] = node_ref(x, s, st->to, st->to_loc);
     }
-    int main_opt = -1;
-    for (int i = 0; i < k->nopts; i++)
-        if (k->opts[i].flags & OPTF_MAIN)
-            main_opt = i;
-    ls_dims vd = main_opt >= 0 ? k->opts[main_opt].dims : k->value_dims;
-    if (st->value) {
-        if (!k->value_slot) {
-            ls_error(x->d, st->value->loc, "a %s takes no value here: %s", k->name, k->doc);
-        } else if (eval_slot(x, s, st->value, vd, &p.value)) {
-            p.has_value = true;
-            p.value_loc = st->value->loc;
-            int en = follow(x, s, st->value, LD_VALUE, nl->nparts);
-            if (en >= 0)
-                ls_letdeps_entry(x->deps, en)->flags = main_opt < 0 ? k->value_flags : 0;
-        }
-    }
-    for (int i = 0; i < st->nopts; i++) {
-        const ls_opt *o = &st->opts[i];
-        int oi = ls_kind_opt(k, o->name);
-        const char *now = oi < 0 ? ls_kind_renamed(k, o->name) : NULL;
-        if (now) {
-            ls_error(x->d, o->name_loc, "%s option '%s=' is now spelled '%s='", k->name, o->name, now);
-            continue;
-        }
-        if (oi < 0) {
-            const char *best = NULL;
-            char names[512];
-            int bd = 3;
-            for (int j = 0; j < k->nopts; j++) {
-                int dd = ls_edit_distance(o->name, k->opts[j].name);
-                if (dd < bd) {
-                    bd = dd;
-                    best = k->opts[j].name;
-                }
-            }
-            if (best)
-                ls_error(x->d, o->name_loc, "%s has no option '%s'; did you mean '%s'?", k->name, o->name, best);
-            else
-                ls_error(x->d, o->name_loc, "%s has no option '%s' (it takes: %s)", k->name, o->name,
-                         opt_names(k, names, sizeof names));
-            continue;
-        }
-        if (ls_part_has(&p, oi)) {
-            ls_error(x->d, o->name_loc, "option '%s' is given twice", o->name);
-            continue;
-        }
-        if (!p.opt) {
-            p.opt = ls_arena_alloc(x->a, LS_MAX_OPTS * sizeof *p.opt);
-            if (!p.opt) {
-                out_of_memory(x);
-                return;
-            }
-        }
-        const ls_optdef *od = &k->opts[oi];
-        if (od->kind == OPT_WORD && strcmp(od->name, "snap") == 0)
-            snap_loc = o->value->loc;
-        if (o->hi && od->kind != OPT_RANGE && od->kind != OPT_FREE) {
-            ls_error(x->d, o->hi->loc, "%s= takes one value, not a range", o->name);
-            continue;
-        }
-        switch (od->kind) {
-        case OPT_VALUE: {
-            double v;
-            if (od->flags & OPTF_BUDGET) {
-                if (!add_budget(x, s, o->value, &v))
-                    continue;
-                p.opt[oi] = v;
-                follow(x, s, o->value, LD_BUDGET, (int)v);
-                break;
-            }
-            if (!eval_slot(x, s, o->value, od->dims, &v) || !check_flags(x, od->flags, v, o->value->loc, o->name))
-                continue;
-            if (od->flags & OPTF_MAIN) {
-                if (p.has_value) {
-                    ls_error(x->d, o->name_loc, "%s is given twice (as the value and as %s=)", o->name, o->name);
-                    continue;
-                }
-                p.value = v;
-                p.has_value = true;
-                p.value_loc = o->value->loc;
-            }
-            if (strcmp(od->name, "tol") == 0 && v >= 1) {
-                ls_error(x->d, o->value->loc, "tol= is a fraction below 1 (write 1%% or 0.01)");
-                continue;
-            }
-            p.opt[oi] = v;
-            int en = follow(x, s, o->value, LD_OPT, nl->nparts);
-            if (en >= 0) {
-                ls_ld_entry *le = ls_letdeps_entry(x->deps, en);
-                le->slot = oi;
-                le->flags = od->flags;
-                le->is_main = od->flags & OPTF_MAIN;
-                le->is_tol = strcmp(od->name, "tol") == 0;
-            }
-            break;
-        }
-        case OPT_NODE:
-            if (o->value->kind != E_NAME) {
-                ls_error(x->d, o->value->loc, "%s= takes a node name", o->name);
-                continue;
-            }
-            p.pin[od->pin] = node_ref(x, s, o->value->name, o->value->loc);
-            break;
-        case OPT_PART:
-            if (o->value->kind != E_NAME) {
-                ls_error(x->d, o->value->loc, "%s= takes the name of a part or port", o->name);
-                continue;
-            }
-            p.ref_name = o->value->name;
-            p.ref_scope = s->prefix;
-            p.ref_loc = o->value->loc;
-            break;
-        case OPT_WORD:
-            if (!set_word(x, s, &p, oi, o))
-                continue;
-            break;
-        case OPT_RANGE:
-            if (!set_range(x, s, &p, oi, o))
-                continue;
-            break;
-        case OPT_FREE:
-            if (!set_free(x, s, &p, oi, o))
-                continue;
-            break;
-        }
-        p.has_opt |= 1u << oi;
-    }
-    if ((k->value_flags & OPTF_REQUIRED) && !p.has_value && !st->value) {
-        char b[64];
-        ls_error(x->d, st->name_loc, "%s '%s' needs a value (%s)", k->name, st->name, dname(k->value_dims, b, sizeof b));
-    }
+    int main_opt = main_option(k);
+    if (st->value)
+        set_positional(x, s, st, &p, main_opt);
+    if (!set_options(x, s, st, &p, &snap_loc))
+        return;
+    require_value(x, st, &p);
     if (p.has_value && main_opt < 0 && !check_flags(x, k->value_flags, p.value, p.value_loc,
                                                      k->value_dims.v == 1 && k->value_dims.a == -1
                                                          ? "a resistance (use a port for a zero-ohm connection)"
                                                          : "the value"))
         return;
-    for (int i = 0; i < k->nopts; i++) {
-        const ls_optdef *od = &k->opts[i];
-        if (!(od->flags & OPTF_REQUIRED) || ls_part_has(&p, i) || ((od->flags & OPTF_MAIN) && p.has_value))
-            continue;
-        if ((od->flags & OPTF_MAIN) && st->value)
-            continue; /* the positional value was given but had an error */
-        ls_error(x->d, st->name_loc, "%s '%s' needs %s=  (%s)", k->name, st->name, od->name, k->doc);
-    }
+    require_options(x, st, &p);
     if (p.has_opt) { /* free= and snap= are options: without any, nothing to finish */
         finish_free(x, &p);
         if (x->deps && p.has_value &&
@@ -1530,18 +1631,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
                    nl->nodes[p.pin[0]].name);
     if (x->d->errors != errs)
         return;
-    if (nl->nparts >= LS_MAX_PARTS) {
-        if (!x->parts_capped) /* say it once, with what the parts alone would take */
-            ls_error(x->d, st->name_loc, "more than %d parts after the blocks are expanded (%.0f MB for the part "
-                     "table alone)", LS_MAX_PARTS, (double)LS_MAX_PARTS * sizeof(ls_part) / 1e6);
-        x->parts_capped = true;
-        return;
-    }
-    if (!grow_x(x, (void **)&nl->parts, &nl->cap_parts, nl->nparts + 1, sizeof *nl->parts))
-        return;
-    nl->parts[nl->nparts] = p;
-    if (declare(x, p.name, ENT_PART, nl->nparts, st->name_loc, NULL) >= 0)
-        nl->nparts++;
+    store_part(x, st, &p);
 }
 
 static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n);
@@ -1567,28 +1657,29 @@ static int find_bparam(const ls_stmt *b, const char *name)
     return -1;
 }
 
-/* use -> expand a block as a new instance scope */
-static void elab_use(elab *x, const scope *s, const ls_stmt *st)
+/* The error for a use of a block that is not defined: the nearest block
+ * name, if one is near. */
+static void unknown_block(elab *x, const ls_stmt *st)
 {
-    ls_netlist *nl = x->nl;
-    int bi = block_index(x, st->kw);
-    if (bi < 0) {
-        const char *best = NULL;
-        int bd = 3;
-        for (int i = 0; i < x->nblocks; i++) {
-            int dd = ls_edit_distance(st->kw, x->blockv[i]->name);
-            if (dd < bd) {
-                bd = dd;
-                best = x->blockv[i]->name;
-            }
+    const char *best = NULL;
+    int bd = 3;
+    for (int i = 0; i < x->nblocks; i++) {
+        int dd = ls_edit_distance(st->kw, x->blockv[i]->name);
+        if (dd < bd) {
+            bd = dd;
+            best = x->blockv[i]->name;
         }
-        if (best)
-            ls_error(x->d, st->kw_loc, "unknown block '%s'; did you mean '%s'?", st->kw, best);
-        else
-            ls_error(x->d, st->kw_loc, "unknown block '%s'", st->kw);
-        return;
     }
-    const ls_stmt *b = x->blockv[bi];
+    if (best)
+        ls_error(x->d, st->kw_loc, "unknown block '%s'; did you mean '%s'?", st->kw, best);
+    else
+        ls_error(x->d, st->kw_loc, "unknown block '%s'", st->kw);
+}
+
+/* Whether block b may be expanded for use st in scope s: not inside itself,
+ * not past the nesting depth or the instance count (each reported). */
+static bool use_allowed(elab *x, const scope *s, const ls_stmt *st, const ls_stmt *b)
+{
     for (const scope *u = s; u; u = u->up) {
         if (u->block == b) {
             char chain[512] = "";
@@ -1599,25 +1690,46 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
             }
             ls_error(x->d, st->kw_loc, "block '%s' uses itself (%s <- %s): recursion is not allowed", b->name,
                      b->name, chain);
-            return;
+            return false;
         }
     }
     if (s->depth + 1 > LS_MAX_BLOCK_DEPTH) {
         ls_error(x->d, st->kw_loc, "blocks nested more than %d deep", LS_MAX_BLOCK_DEPTH);
-        return;
+        return false;
     }
-    if (++nl->instances > LS_MAX_INSTANCES) {
-        if (nl->instances == LS_MAX_INSTANCES + 1)
+    if (++x->nl->instances > LS_MAX_INSTANCES) {
+        if (x->nl->instances == LS_MAX_INSTANCES + 1)
             ls_error(x->d, st->kw_loc, "more than %d block instances", LS_MAX_INSTANCES);
-        return;
+        return false;
     }
-    const char *full = qualify(x, s, st->name);
-    if (declare(x, full, ENT_INSTANCE, bi, st->name_loc, NULL) < 0)
-        return;
-    scope in = {full, b, s, s->depth + 1};
-    int errs = x->d->errors;
-    bool pin_given[256] = {0};
-    const ls_opt *param_given[256] = {0};
+    return true;
+}
+
+/* The error for option o of a use that is neither a pin nor a parameter of
+ * block b: the nearest of those names, if one is near. */
+static void unknown_use_option(elab *x, const ls_stmt *b, const ls_opt *o)
+{
+    const char *best = NULL;
+    int bd = 3;
+    for (int j = 0; j < b->npins; j++)
+        if (ls_edit_distance(o->name, b->pins[j]) < bd)
+            bd = ls_edit_distance(o->name, b->pins[j]), best = b->pins[j];
+    for (int j = 0; j < b->nopts; j++)
+        if (ls_edit_distance(o->name, b->opts[j].name) < bd)
+            bd = ls_edit_distance(o->name, b->opts[j].name), best = b->opts[j].name;
+    if (best)
+        ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'; did you mean '%s'?", b->name,
+                 o->name, best);
+    else
+        ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'", b->name, o->name);
+}
+
+/* The options of use st of block b: each pin's node aliased in the
+ * instance's scope `in` (pin_given marks it), each parameter's option kept
+ * in param_given for bind_block_params. */
+static void connect_pins(elab *x, const scope *s, const scope *in, const ls_stmt *st, const ls_stmt *b,
+                         bool *pin_given, const ls_opt **param_given)
+{
     for (int i = 0; i < st->nopts; i++) {
         const ls_opt *o = &st->opts[i];
         int pi = find_pin(b, o->name);
@@ -1633,36 +1745,32 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
             }
             int node = node_ref(x, s, o->value->name, o->value->loc);
             if (node >= 0)
-                declare(x, qualify(x, &in, o->name), ENT_ALIAS, node, o->name_loc, NULL);
+                declare(x, qualify(x, in, o->name), ENT_ALIAS, node, o->name_loc, NULL);
             continue;
         }
         int qi = find_bparam(b, o->name);
         if (qi >= 0) {
-            if (param_given[qi]) {
+            if (param_given[qi])
                 ls_error(x->d, o->name_loc, "parameter '%s' is given twice", o->name);
-                continue;
-            }
-            param_given[qi] = o;
+            else
+                param_given[qi] = o;
             continue;
         }
-        const char *best = NULL;
-        int bd = 3;
-        for (int j = 0; j < b->npins; j++)
-            if (ls_edit_distance(o->name, b->pins[j]) < bd)
-                bd = ls_edit_distance(o->name, b->pins[j]), best = b->pins[j];
-        for (int j = 0; j < b->nopts; j++)
-            if (ls_edit_distance(o->name, b->opts[j].name) < bd)
-                bd = ls_edit_distance(o->name, b->opts[j].name), best = b->opts[j].name;
-        if (best)
-            ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'; did you mean '%s'?", b->name,
-                     o->name, best);
-        else
-            ls_error(x->d, o->name_loc, "block '%s' has no pin or parameter '%s'", b->name, o->name);
+        unknown_use_option(x, b, o);
     }
     for (int i = 0; i < b->npins; i++)
         if (!pin_given[i])
             ls_error(x->d, st->name_loc, "pin '%s' of block '%s' is not connected in '%s'", b->pins[i], b->name,
                      st->name);
+}
+
+/* Block b's parameters in the instance's scope `in`: the value use st gave
+ * (param_given, evaluated in the user's scope s) or the default (evaluated
+ * in the instance's scope); a parameter with neither is an error. */
+static void bind_block_params(elab *x, const scope *s, const scope *in, const ls_stmt *st, const ls_stmt *b,
+                              const ls_opt *const *param_given)
+{
+    ls_netlist *nl = x->nl;
     for (int i = 0; i < b->nopts; i++) {
         const ls_opt *bo = &b->opts[i];
         double v;
@@ -1673,17 +1781,40 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
             if (follow(x, s, param_given[i]->value, LD_PARAM, nl->nparams) >= 0)
                 ls_letdeps_mark(x->deps, nl->nparams);
         } else if (bo->value) {
-            if (!eval(x, &in, bo->value, &v, &d))
+            if (!eval(x, in, bo->value, &v, &d))
                 continue;
-            if (follow(x, &in, bo->value, LD_PARAM, nl->nparams) >= 0)
+            if (follow(x, in, bo->value, LD_PARAM, nl->nparams) >= 0)
                 ls_letdeps_mark(x->deps, nl->nparams);
         } else {
             ls_error(x->d, st->name_loc, "'%s' needs parameter '%s' of block '%s' (it has no default)", st->name,
                      bo->name, b->name);
             continue;
         }
-        add_param(x, &in, bo->name, v, d, bo->name_loc);
+        add_param(x, in, bo->name, v, d, bo->name_loc);
     }
+}
+
+/* use -> an instance of a block: its pins tied to the user's nodes, its
+ * parameters bound, its body expanded under the instance's name. */
+static void elab_use(elab *x, const scope *s, const ls_stmt *st)
+{
+    int bi = block_index(x, st->kw);
+    if (bi < 0) {
+        unknown_block(x, st);
+        return;
+    }
+    const ls_stmt *b = x->blockv[bi];
+    if (!use_allowed(x, s, st, b))
+        return;
+    const char *full = qualify(x, s, st->name);
+    if (declare(x, full, ENT_INSTANCE, bi, st->name_loc, NULL) < 0)
+        return;
+    scope in = {full, b, s, s->depth + 1};
+    int errs = x->d->errors;
+    bool pin_given[256] = {0};
+    const ls_opt *param_given[256] = {0};
+    connect_pins(x, s, &in, st, b, pin_given, param_given);
+    bind_block_params(x, s, &in, st, b, param_given);
     if (x->d->errors != errs)
         return;
     elab_body(x, &in, b->body, b->nbody);
@@ -1748,10 +1879,10 @@ static void prefetch_names(elab *x, ls_stmt *const *stmts, int n, int i)
     if (i >= n || stmts[i]->kind != S_PART)
         return;
     const ls_stmt *a = stmts[i];
-    ls_hash_prefetch(&x->nl->names, a->name);
+    prefetch_name(x, a->name);
     if (a->arrow) {
-        ls_hash_prefetch(&x->nl->names, a->from);
-        ls_hash_prefetch(&x->nl->names, a->to);
+        prefetch_name(x, a->from);
+        prefetch_name(x, a->to);
     }
 }
 
@@ -2114,6 +2245,9 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
         return true; /* the expansion's own counters still apply */
     long long inst = 0, parts = 0;
     bool ok = true;
+    /* what the process may hold, in parts: the memory-derived limit below the
+     * fixed ceiling (docs/limits.md, "Size of the input") */
+    double held = (double)ls_memory_limit_bytes();
     for (int i = 0; i < prog->n && ok; i++) {
         const ls_stmt *st = prog->stmts[i];
         if (st->kind == S_PART) {
@@ -2136,6 +2270,12 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
                      "with this statement the circuit expands to more than %d parts (%s%lld, about %.0f MB "
                      "for the part table alone)", LS_MAX_PARTS, parts == SIZE_CAP ? "at least " : "", parts,
                      (double)parts * sizeof(ls_part) / 1e6);
+            ok = false;
+        } else if ((double)parts * LS_PART_MIN_BYTES > held) {
+            ls_error(x->d, st->kind == S_USE ? st->kw_loc : st->name_loc,
+                     "out of memory: with this statement the circuit expands to %lld parts, whose table and names "
+                     "alone would take about %.1f MB, more than the %.1f MB this process may hold (the machine's "
+                     "memory or its limit, ulimit -v)", parts, (double)parts * LS_PART_MIN_BYTES / 1e6, held / 1e6);
             ok = false;
         }
     }

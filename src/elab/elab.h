@@ -9,8 +9,21 @@
 #define LS_MAX_BLOCK_DEPTH 32
 #define LS_MAX_INSTANCES 1000000
 #define LS_MAX_NAME_BYTES 1024
-#define LS_MAX_NODES 4000000      /* after expansion */
-#define LS_MAX_PARTS 4000000      /* after expansion */
+/* Nodes and parts after expansion: the ceiling of the index width.  The
+ * matrix is held with 32-bit (int) indices and entry counts, as CHOLMOD's,
+ * KLU's and hypre's int interfaces take it; a resistor stamps 4 entries and
+ * the largest parts some tens, so 5e7 parts stay under 2^31 entries (and
+ * ls_triplets_to_csc refuses more rather than wrap around).  Below the ceiling the memory the process may
+ * hold is the limit: see LS_PART_MIN_BYTES. */
+#define LS_MAX_NODES 50000000
+#define LS_MAX_PARTS 50000000
+/* Bytes one part takes at the least once elaborated: its row of the part
+ * table (sizeof(ls_part), about 150) and its name and hash slot.  A floor,
+ * so that no circuit that could be held is refused: the front end of the
+ * 10^7-node mat peaked at 490 bytes a part (docs/performance.md).  A circuit whose parts
+ * alone would take more than the process may hold (ls_memory_limit_bytes) is
+ * refused before anything is expanded. */
+#define LS_PART_MIN_BYTES 200
 #define LS_MAX_VIA_CHAIN 32       /* via= links followed from one source */
 
 /* Elaborate prog into nl (which must be zeroed; its arena and diags are taken

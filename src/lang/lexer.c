@@ -421,6 +421,69 @@ static __attribute__((noinline)) void lex_other(ls_lexer *lx, ls_token *t, unsig
     t->loc = here(lx, s);
 }
 
+/* The end of the name starting at p (src[p] starts one): letters, digits,
+ * '_', and '.' before a letter.  The text is NUL-terminated, so the loop
+ * needs no bounds check. */
+static inline unsigned ident_end(const char *src, unsigned p)
+{
+    for (p++;;) {
+        while (ident_char(src[p]))
+            p++;
+        if (src[p] == '.' && ident_start(src[p + 1]))
+            p++;
+        else
+            return p;
+    }
+}
+
+/* Blanks from p (spaces, tabs, carriage returns: no comment, no line
+ * continuation), and the position after them. */
+static inline unsigned blanks_end(const char *src, unsigned p)
+{
+    while (is_blank(src[p]))
+        p++;
+    return p;
+}
+
+bool ls_lex_simple_part(const ls_lexer *lx, ls_simple_part *sp)
+{
+    const char *src = lx->src;
+    unsigned p = lx->pos, q;
+    unsigned *start[3] = {&sp->name, &sp->from, &sp->to}, *end[3] = {&sp->name_end, &sp->from_end, &sp->to_end};
+    for (int w = 0; w < 3; w++) {
+        q = blanks_end(src, p);
+        if (q == p || !ident_start(src[q]))
+            return false;
+        *start[w] = q;
+        p = *end[w] = ident_end(src, q);
+        if (w == 1) { /* FROM '->' */
+            q = blanks_end(src, p);
+            if (src[q] != '-' || src[q + 1] != '>')
+                return false;
+            sp->arrow = q;
+            p = q + 2;
+        }
+    }
+    q = blanks_end(src, p);
+    if (q == p || !is_digit(src[q]))
+        return false;
+    sp->num = q;
+    for (p = q; is_digit(src[p]); p++)
+        ;
+    if (src[p] == '.' && is_digit(src[p + 1]))
+        for (p++; is_digit(src[p]); p++)
+            ;
+    /* the number ends at a blank or the line's end, and only blanks follow
+     * it: no unit, prefix, letter code, exponent, option or comment */
+    q = blanks_end(src, p);
+    if (!(is_blank(src[p]) || src[p] == '\n' || p >= lx->len) || !(src[q] == '\n' || q >= lx->len))
+        return false;
+    if (p - lx->line_begin > LS_MAX_LINE_BYTES)
+        return false; /* a line the lexer must report */
+    sp->num_end = p;
+    return exact_decimal(src + sp->num, p - sp->num, &sp->value);
+}
+
 /* The common tokens inline (names, line ends, numbers), the rest out of line.
  * The text is NUL-terminated, so the name loop needs no bounds check, and at
  * the end the NUL is tested only after the common cases. */
@@ -434,16 +497,7 @@ void ls_lex_next(ls_lexer *lx, ls_token *t)
     unsigned char c = (unsigned char)src[s];
     t->text = src + s;
     if (ident_start(c)) {
-        /* letters, digits, '_', and '.' before a letter */
-        unsigned p = s + 1;
-        for (;;) {
-            while (ident_char(src[p]))
-                p++;
-            if (src[p] == '.' && ident_start(src[p + 1]))
-                p++;
-            else
-                break;
-        }
+        unsigned p = ident_end(src, s);
         lx->pos = p;
         t->kind = T_IDENT;
         t->len = p - s;

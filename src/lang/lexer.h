@@ -39,4 +39,23 @@ void ls_lex_init(ls_lexer *lx, ls_diags *d, int file);
 void ls_lex_next(ls_lexer *lx, ls_token *t);
 const char *ls_tok_name(ls_tok k);
 
+/* The words after the kind word of the commonest part statement, `NAME FROM
+ * -> TO NUMBER` with a plain decimal NUMBER (digits, an optional fraction; no
+ * unit, sign or exponent) and nothing after it on its line: byte offsets
+ * into the file (start and end of each word, the arrow's start) and the
+ * number's value, exactly as the tokens would give them. */
+typedef struct ls_simple_part {
+    unsigned name, name_end, from, from_end, arrow, to, to_end, num, num_end;
+    double value;
+} ls_simple_part;
+
+/* Whether the text after lx's position (just after a kind word) is such a
+ * statement, scanned in one pass without tokens, filling *sp.  The lexer is
+ * not moved: a caller that uses the statement sets lx->pos to sp->num_end
+ * (the next token is then the line's end).  False for anything else, also
+ * for anything the lexer would report (a NUL byte, an overlong line, a
+ * number that is not exact in one rounding): the caller then reads the
+ * statement token by token, so every message is the general path's. */
+bool ls_lex_simple_part(const ls_lexer *lx, ls_simple_part *sp);
+
 #endif

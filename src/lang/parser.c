@@ -30,6 +30,7 @@ typedef struct parser {
     ls_token ahead;           /* one token of look-ahead */
     bool have_ahead;
     bool in_expect;
+    bool general_only;        /* no simple_part: every statement token by token (ls_parse_string_general) */
     int expr_depth;
     int inc_depth;
     inc_frame *incs;
@@ -527,6 +528,38 @@ static const char *kind_word(parser *p, const ls_token *t)
     return w;
 }
 
+/* The commonest part statement, `KIND NAME FROM -> TO NUMBER` with nothing
+ * after the plain number (ls_lex_simple_part), built without tokens: the
+ * same statement, locations and strings as parse_part builds, in the same
+ * order.  NULL, with nothing read, for any other statement (and when out of
+ * memory: parse_part then meets the same shortage and the arena is marked). */
+static ls_stmt *simple_part(parser *p)
+{
+    ls_simple_part sp;
+    if (p->have_ahead || p->general_only || !ls_lex_simple_part(&p->lx, &sp))
+        return NULL;
+    const char *src = p->lx.src;
+    int f = p->lx.file;
+    ls_stmt *s = new_stmt(p, S_PART);
+    ls_expr *e;
+    if (!s || !(s->kw = kind_word(p, &p->tok)) ||
+        !(s->name = ls_arena_strndup(p->a, src + sp.name, sp.name_end - sp.name)) ||
+        !(s->from = ls_arena_strndup(p->a, src + sp.from, sp.from_end - sp.from)) ||
+        !(s->to = ls_arena_strndup(p->a, src + sp.to, sp.to_end - sp.to)) ||
+        !(e = new_expr(p, E_NUM, (ls_loc){f, sp.num, sp.num_end})))
+        return NULL;
+    s->name_loc = (ls_loc){f, sp.name, sp.name_end};
+    s->from_loc = (ls_loc){f, sp.from, sp.from_end};
+    s->to_loc = (ls_loc){f, sp.to, sp.to_end};
+    s->arrow = true;
+    e->num = sp.value;
+    e->dims = LS_FREE;
+    s->value = e;
+    p->lx.pos = sp.num_end;
+    advance(p); /* the line's end */
+    return s;
+}
+
 /* part -> KIND NAME [FROM '->' TO] [VALUE] {OPTION}
  * The grammar alone decides: any word that is not a statement keyword starts
  * a part statement, and the elaborator asks the part table whether KIND is a
@@ -726,7 +759,7 @@ static ls_stmt *parse_block(parser *p, stmt_list *out)
 }
 
 static void parse_include(parser *p, stmt_list *out, ls_stmt *block);
-static int add_source(ls_diags *d, const char *name, const char *text, size_t len);
+static int add_text(ls_diags *d, const char *name, const char *text, size_t len, bool in_arena);
 
 /* After a part statement whose words after KIND did not parse: keep its
  * kind word alone (S_BADPART), so the elaborator can say when the word is no
@@ -822,7 +855,7 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
     } else if (is_word(&kw, "end")) {
         ls_error(p->d, kw.loc, "'end' without a 'block' to close");
         advance(p);
-    } else {
+    } else if ((s = simple_part(p)) == NULL) {
         s = parse_part(p);
         if (!s || !end_of_statement(p)) {
             /* Its syntax error is reported; the elaborator still hears of its
@@ -958,12 +991,13 @@ char *ls_read_stream(FILE *f, size_t *len)
     return buf;
 }
 
-/* A file's text, NUL-terminated, to parse and let go: a regular file is read
- * at its size into `tmp` (an arena of the caller's; a large one gets huge
- * pages), anything else (or a file that changes size meanwhile) by
- * ls_read_file into *heap, which the caller frees.  NULL (errno set) when the
+/* A file's text, NUL-terminated: a regular file is read at its size into the
+ * arena `into` (the diagnostics' arena, where the text stays for the
+ * messages: read once, never copied; a large one gets huge pages), anything
+ * else (or a file that changes size meanwhile) by ls_read_file into *heap,
+ * which the caller copies into the arena and frees.  NULL (errno set) when the
  * file cannot be read. */
-static char *load_text(ls_arena *tmp, const char *path, size_t *len, char **heap)
+static char *load_text(ls_arena *into, const char *path, size_t *len, char **heap)
 {
     *heap = NULL;
     FILE *f = fopen(path, "rb");
@@ -972,7 +1006,7 @@ static char *load_text(ls_arena *tmp, const char *path, size_t *len, char **heap
     struct stat st;
     if (fstat(fileno(f), &st) == 0 && S_ISREG(st.st_mode) && (uintmax_t)st.st_size < LS_MAX_FILE_BYTES) {
         size_t want = (size_t)st.st_size;
-        char *buf = ls_arena_alloc_bytes(tmp, want + 1);
+        char *buf = ls_arena_alloc_bytes(into, want + 1);
         size_t n = buf ? fread(buf, 1, want + 1, f) : 0;
         if (buf && n == want && !ferror(f)) {
             fclose(f);
@@ -1004,6 +1038,7 @@ static void parse_registered(parser *outer, int file, const char *dir, inc_frame
     p.sa = outer->sa;
     p.dir = dir;
     p.incs = frames;
+    p.general_only = outer->general_only;
     p.inc_depth = depth;
     ls_lex_init(&p.lx, p.d, file);
     advance(&p);
@@ -1064,17 +1099,13 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
         return;
     }
     size_t len = 0;
-    ls_arena tmp;
-    ls_arena_init(&tmp);
-    char *heap, *text = load_text(&tmp, path, &len, &heap);
+    char *heap, *text = load_text(p->d->arena, path, &len, &heap);
     if (!text) {
         ls_error(p->d, sloc, "cannot read included file '%s': %s", path, strerror(errno));
-        ls_arena_free(&tmp);
         return;
     }
-    int id = len < UINT_MAX ? add_source(p->d, path, text, len) : -1;
+    int id = len < UINT_MAX ? add_text(p->d, path, text, len, !heap) : -1;
     free(heap);
-    ls_arena_free(&tmp);
     if (id < 0) {
         ls_error(p->d, sloc, "out of memory reading '%s'", path);
         return;
@@ -1083,10 +1114,11 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
     parse_registered(p, id, dir_of(p->a, path), &fr, p->inc_depth + 1, out, block);
 }
 
-static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
+static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog, bool general_only)
 {
     parser p;
     memset(&p, 0, sizeof p);
+    p.general_only = general_only;
     p.d = d;
     p.a = d->arena;
     p.sa = prog->syntax ? prog->syntax : d->arena;
@@ -1129,63 +1161,74 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog)
 /* Register a circuit text under `name`: a UTF-8 byte-order mark at its start
  * is skipped (editors on some systems write one), and bytes that are not
  * UTF-8 are reported and replaced (ls_sources_check_utf8).  Its file id, or
- * -1 (nothing reported: the caller says why). */
-static int add_source(ls_diags *d, const char *name, const char *text, size_t len)
+ * -1 (nothing reported: the caller says why).  The text is copied into the
+ * diagnostics' arena, or kept in place when it was read there (in_arena:
+ * load_text without a heap copy). */
+static int add_text(ls_diags *d, const char *name, const char *text, size_t len, bool in_arena)
 {
     if (len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0) {
         text += 3;
         len -= 3;
     }
-    int id = ls_sources_add(d, name, text, (unsigned)len);
+    int id = in_arena ? ls_sources_adopt(d, name, text, (unsigned)len) : ls_sources_add(d, name, text, (unsigned)len);
     if (id >= 0)
         ls_sources_check_utf8(d, id);
     return id;
 }
 
-/* Register a top-level text; its file id, or -1 after reporting why not. */
-static int register_text(ls_diags *d, const char *name, const char *text, size_t len)
+/* Register a top-level text (copied unless in_arena: see add_text); its file id, or -1 after reporting why not. */
+static int register_text(ls_diags *d, const char *name, const char *text, size_t len, bool in_arena)
 {
     if (len >= LS_MAX_FILE_BYTES) {
         ls_error(d, LS_NOLOC, "'%s' is larger than %u bytes", name, LS_MAX_FILE_BYTES);
         return -1;
     }
-    int id = add_source(d, name, text, len);
+    int id = add_text(d, name, text, len, in_arena);
     if (id < 0)
         ls_error(d, LS_NOLOC, "out of memory reading '%s'", name);
     return id;
 }
 
-int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
-                       ls_program *prog)
+/* ls_parse_string_to, with or without the fast path for simple part
+ * statements. */
+static int parse_text(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
+                      ls_program *prog, bool general_only)
 {
     *prog = (ls_program){.syntax = syntax};
     int errors0 = d->errors; /* counting the text's UTF-8 errors too */
-    int id = register_text(d, name, text, len);
+    int id = register_text(d, name, text, len, false);
     if (id < 0)
         return 1;
-    parse_top(d, id, name, prog);
+    parse_top(d, id, name, prog, general_only);
     return d->errors - errors0;
+}
+
+int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
+                       ls_program *prog)
+{
+    return parse_text(d, name, text, len, syntax, prog, false);
+}
+
+int ls_parse_string_general(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog)
+{
+    return parse_text(d, name, text, len, NULL, prog, true);
 }
 
 int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program *prog)
 {
     *prog = (ls_program){.syntax = syntax};
     size_t len = 0;
-    ls_arena tmp;
-    ls_arena_init(&tmp);
-    char *heap, *text = load_text(&tmp, path, &len, &heap);
+    char *heap, *text = load_text(d->arena, path, &len, &heap);
     if (!text) {
         ls_error(d, LS_NOLOC, "cannot read '%s': %s", path, strerror(errno));
-        ls_arena_free(&tmp);
         return 1;
     }
     int errors0 = d->errors; /* counting the text's UTF-8 errors too */
-    int id = register_text(d, path, text, len);
+    int id = register_text(d, path, text, len, !heap);
     free(heap); /* before parsing, so the tree can reuse the pages */
-    ls_arena_free(&tmp);
     if (id < 0)
         return 1;
-    parse_top(d, id, path, prog);
+    parse_top(d, id, path, prog, false);
     return d->errors - errors0;
 }
 

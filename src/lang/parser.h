@@ -30,6 +30,10 @@ int ls_parse_string(ls_diags *d, const char *name, const char *text, size_t len,
 int ls_parse_file_to(ls_diags *d, const char *path, ls_arena *syntax, ls_program *prog);
 int ls_parse_string_to(ls_diags *d, const char *name, const char *text, size_t len, ls_arena *syntax,
                        ls_program *prog);
+/* ls_parse_string reading every statement token by token, without the fast
+ * path for the commonest part statement (ls_lex_simple_part): for the test
+ * that both give the same tree and the same messages. */
+int ls_parse_string_general(ls_diags *d, const char *name, const char *text, size_t len, ls_program *prog);
 /* Parse one expression from text (for --set values and command-line quantities).
  * Returns NULL after reporting an error. */
 ls_expr *ls_parse_expr_string(ls_diags *d, const char *name, const char *text, bool in_expect);

@@ -22,6 +22,8 @@ int ls_triplets_to_csc(const ls_triplets *t, int n, ls_csc *out)
 {
     memset(out, 0, sizeof *out);
     out->n = n;
+    if (t->nnz > INT_MAX) /* the int indices cannot count them (LS_MAX_PARTS keeps below this) */
+        return -1;
     int *cnt = calloc((size_t)n + 1, sizeof *cnt);
     int *ri = malloc((t->nnz ? t->nnz : 1) * sizeof *ri);
     double *rv = malloc((t->nnz ? t->nnz : 1) * sizeof *rv);
@@ -86,8 +88,22 @@ fail:
     return -1;
 }
 
+/* m->seen sized for m->a's entries (contents undefined).  0, or -1 no memory. */
+int ls_mna_reserve_seen(ls_mna *m)
+{
+    size_t nnz = (size_t)ls_csc_nnz(&m->a);
+    if (m->seen_n != nnz || !m->seen) {
+        free(m->seen);
+        m->seen = malloc(nnz ? nnz : 1);
+        m->seen_n = m->seen ? nnz : 0;
+        if (!m->seen)
+            return -1;
+    }
+    return 0;
+}
+
 /* Largest |a_ij| (0 for an empty matrix). */
-static double csc_amax(const ls_csc *a)
+double ls_csc_amax(const ls_csc *a)
 {
     double m = 0;
     for (int p = 0; p < ls_csc_nnz(a); p++)
@@ -151,13 +167,8 @@ static int restamp_in_place(ls_mna *m)
 {
     const ls_netlist *nl = m->nl;
     size_t nnz = (size_t)ls_csc_nnz(&m->a);
-    if (m->seen_n != nnz || !m->seen) {
-        free(m->seen);
-        m->seen = malloc(nnz ? nnz : 1);
-        m->seen_n = m->seen ? nnz : 0;
-        if (!m->seen)
-            return -1;
-    }
+    if (ls_mna_reserve_seen(m) != 0)
+        return -1;
     memset(m->seen, 0, nnz);
     ls_triplets_free(&m->t);
     size_t cap = (m->nnz_hint < RESTAMP_CHUNK ? m->nnz_hint : RESTAMP_CHUNK) + 64;
@@ -196,7 +207,7 @@ static int restamp_in_place(ls_mna *m)
     if (!fits || covered != nnz)
         return 0;
     m->nnz_hint = total;
-    m->amax = csc_amax(&m->a);
+    m->amax = ls_csc_amax(&m->a);
     m->in_place++;
     return 1;
 }
@@ -207,6 +218,9 @@ static int restamp_in_place(ls_mna *m)
  * assembly allocates once.  0 ok, -1 no memory. */
 static int stamp_all(ls_mna *m)
 {
+    /* what each part reaches may differ after a full restamp (a value from
+     * zero): patch.c records it again when next asked */
+    ls_mna_index_free(m);
     if (m->a.colptr) {
         int r = restamp_in_place(m);
         if (r != 0)
@@ -239,7 +253,7 @@ static int stamp_all(ls_mna *m)
     ls_triplets_free(&m->t);
     if (rc != 0)
         return -1;
-    m->amax = csc_amax(&m->a);
+    m->amax = ls_csc_amax(&m->a);
     return 0;
 }
 
@@ -286,11 +300,18 @@ int ls_mna_build_variant(ls_mna *m, const ls_netlist *nl, const ls_run *run, con
 
 int ls_mna_restamp(ls_mna *m)
 {
-    return stamp_all(m);
+    int r = ls_mna_try_patch(m);
+    if (r != 0)
+        return r > 0 ? 0 : -1;
+    if (stamp_all(m) != 0)
+        return -1;
+    (void)ls_mna_index_after_restamp(m); /* no memory for it: the next announcement restamps in full */
+    return 0;
 }
 
 void ls_mna_free(ls_mna *m)
 {
+    ls_mna_index_free(m);
     ls_triplets_free(&m->t);
     free(m->seen);
     ls_csc_free(&m->a);

@@ -29,6 +29,14 @@ typedef struct ls_mna {
     unsigned char *seen;   /* restamp scratch: per entry of a, set once a triplet reached it */
     size_t seen_n;
     unsigned in_place;     /* restamps summed straight into a's pattern (for tests) */
+    unsigned patched;      /* restamps that restamped only the changed parts (patch.c; for tests) */
+    /* Restamping only what changed (patch.c): the parts announced for the
+     * next restamp, and which entries each part reaches (built on first use). */
+    const int *pending;
+    int npending;
+    struct ls_mna_index *index;
+    int patch_failures;    /* patches in a row that had to restamp in full */
+    bool want_index;       /* make the index after the next full restamp */
     /* A variant of the circuit (sag, thevenin --load): both NULL normally. */
     const unsigned char *opened;   /* per part, or NULL: LS_OPENED, LS_BUFFERED (ports) or 0 */
     const ls_tie *ties;            /* per node, or NULL: a conductance to a fixed voltage */
@@ -53,6 +61,25 @@ static inline const ls_run *ls_mna_run(const ls_mna *m) { return m->run ? m->run
  * assembled afresh.  0 ok, -1 out of memory. */
 int ls_mna_restamp(ls_mna *m);
 void ls_mna_free(ls_mna *m);
+
+/* Announce that before the next ls_mna_restamp only the values of these k
+ * parts changed (main values or options; nothing else: no state, no
+ * linearization point, no tie).  That restamp then recomputes only the
+ * entries of A and b those parts reach, each as the same sum in the same
+ * order as a full restamp, so the system is the same bit for bit; where the
+ * changes do not fit (an entry added or dropped by a value from or to zero,
+ * more than a quarter of the parts) it restamps in full.  parts must stay
+ * valid until that restamp; the announcement is used once. */
+void ls_mna_expect_changes(ls_mna *m, const int *parts, int k);
+/* patch.c's side of ls_mna_restamp: 1 patched, 0 restamp in full, -1 no memory. */
+int ls_mna_try_patch(ls_mna *m);
+/* ... and after a full restamp: the index, when an announcement asked. */
+int ls_mna_index_after_restamp(ls_mna *m);
+/* m->seen sized for m->a's entries (contents undefined).  0, or -1 no memory. */
+int ls_mna_reserve_seen(ls_mna *m);
+/* Largest |a_ij| of a (0 for an empty matrix). */
+double ls_csc_amax(const ls_csc *a);
+void ls_mna_index_free(ls_mna *m);
 
 /* Stamp part i into sink as the assembly does (removed or buffered where the
  * variant says so), and the variant's ties: for sinks of other kinds, such

@@ -52,6 +52,7 @@
 #include <stdbool.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/resource.h>
 
 #define AMG_MAX_ITER 500     /* PCG iterations per run; a mesh needs tens */
 #define AMG_RESTARTS 4       /* runs after the first while the true residual is too large */
@@ -394,6 +395,33 @@ static size_t hypre_bytes(const amg *h)
     return nnz * (sizeof(double) + sizeof(HYPRE_Int)) * 6 + rows * (sizeof(double) * 12 + sizeof(HYPRE_Int) * 6);
 }
 
+/* For the tests only (tests/mpi/oom_rank.py): LOADSTACK_TEST_RANK_AS=R:MB
+ * limits the address space of rank R (0 without ranks), from here on, to
+ * what it holds now plus MB megabytes (setrlimit), so that the memory
+ * hypre's share needs is really not there: the allocations below fail as
+ * they would on a machine without it.  Without the variable, nothing. */
+static void limit_rank_for_test(const amg *h)
+{
+    const char *v = getenv("LOADSTACK_TEST_RANK_AS");
+    int rank = -1;
+    double mb = 0;
+    if (!v || sscanf(v, "%d:%lf", &rank, &mb) != 2 || rank != h->rank)
+        return;
+    FILE *f = fopen("/proc/self/status", "r");
+    char line[256];
+    unsigned long long kb = 0;
+    while (f && fgets(line, sizeof line, f))
+        if (sscanf(line, "VmSize: %llu kB", &kb) == 1)
+            break;
+    if (f)
+        fclose(f);
+    struct rlimit rl;
+    if (kb == 0 || getrlimit(RLIMIT_AS, &rl) != 0)
+        return;
+    rl.rlim_cur = (rlim_t)(kb * 1024 + mb * 1e6);
+    setrlimit(RLIMIT_AS, &rl);
+}
+
 /* Can this process still get what hypre will take (hypre_bytes)?  hypre
  * does not survive a failed allocation (it goes on with a null pointer),
  * so the memory is asked for once beforehand and given back at once
@@ -404,6 +432,7 @@ static size_t hypre_bytes(const amg *h)
 static int room_for_hypre(const amg *h, ls_solver_stats *st)
 {
     size_t bytes = hypre_bytes(h);
+    limit_rank_for_test(h);
     const char *fail = getenv("LOADSTACK_TEST_HYPRE_NOMEM");
     void *p = fail && *fail && atoi(fail) == h->rank ? NULL : malloc(bytes);
     bool room = p != NULL;
@@ -517,6 +546,28 @@ static double residual_floor(const amg *h, const double *x, double bn)
     return 16 * DBL_EPSILON * (1 + h->gnorm * norm2(x, h->m) / bn);
 }
 
+/* r = b - G x, whole in every rank.  Spread over ranks, each rank has
+ * only its columns of G (keep_own_columns), which by symmetry are its rows:
+ * it computes its rows of r as dot products, in the same order of terms as
+ * the product by columns, and the ranks gather them.  Under the lock. */
+static void g_residual(const amg *h, const double *b, const double *x, double *r)
+{
+    if (!h->spread) {
+        ls_csc_matvec(&h->g, x, r, 0);
+        for (int i = 0; i < h->m; i++)
+            r[i] = b[i] - r[i];
+        return;
+    }
+    const ls_csc *g = &h->g;
+    for (int i = h->lo; i <= h->hi; i++) {
+        double s = 0;
+        for (int p = g->colptr[i]; p < g->colptr[i + 1]; p++)
+            s += g->val[p] * x[g->rowind[p]];
+        r[i] = b[i] - s;
+    }
+    MPI_Allgatherv(MPI_IN_PLACE, 0, MPI_DATATYPE_NULL, r, h->counts, h->displs, MPI_DOUBLE, h->comm);
+}
+
 /* x = G^-1 b (b kept), by PCG runs restarted on the true residual b - G x
  * until it is below LS_AMG_RTOL relative to b.  Adds the iterations to
  * st->cg_iterations and raises st->cg_residual to the true relative
@@ -540,9 +591,7 @@ static int g_solve(amg *h, const double *b, double *x, ls_solver_stats *st)
         st->cg_iterations += it;
         for (int i = 0; i < m; i++)
             x[i] += d[i];
-        ls_csc_matvec(&h->g, x, r, 0);
-        for (int i = 0; i < m; i++)
-            r[i] = b[i] - r[i];
+        g_residual(h, b, x, r);
         rel = norm2(r, m) / bn;
         goal = fmax(LS_AMG_RTOL, residual_floor(h, x, bn));
     }
@@ -607,6 +656,8 @@ static int schur(amg *h, ls_solver_stats *st)
     }
     return info == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
 }
+
+static int keep_own_columns(amg *h);
 
 /* Split a, check G, pin its floating parts, take the border and the
  * scratch: everything before hypre, in this process alone.  LS_SOLVER_*
@@ -677,7 +728,37 @@ static int build_local(amg *h, const ls_csc *a, ls_solver_stats *st)
     h->ncols = malloc((size_t)(h->hi - h->lo + 1) * sizeof *h->ncols);
     if (!h->t || !h->r || !h->y || !h->z || !h->rows || !h->ncols)
         return LS_SOLVER_NOMEM;
+    if (h->spread && keep_own_columns(h) != 0)
+        return LS_SOLVER_NOMEM;
     return room_for_hypre(h, st);
+}
+
+/* Spread over ranks, keep of G only this rank's columns lo..hi (its rows,
+ * G being symmetric): the checks above needed all of it, hypre and the
+ * true residual (g_residual) need only these.  colptr stays whole (m + 1
+ * ints) with empty columns outside lo..hi, so that column j still starts
+ * at colptr[j].  Saves (K - 1) / K of G's entries in each of K ranks.
+ * 0, or -1 without memory (G is then left whole). */
+static int keep_own_columns(amg *h)
+{
+    ls_csc *g = &h->g;
+    int lo = g->colptr[h->lo], hi = g->colptr[h->hi + 1], nnz = hi - lo;
+    int *ri = malloc((size_t)(nnz ? nnz : 1) * sizeof *ri);
+    double *rv = malloc((size_t)(nnz ? nnz : 1) * sizeof *rv);
+    if (!ri || !rv) {
+        free(ri);
+        free(rv);
+        return -1;
+    }
+    memcpy(ri, g->rowind + lo, (size_t)nnz * sizeof *ri);
+    memcpy(rv, g->val + lo, (size_t)nnz * sizeof *rv);
+    for (int j = 0; j <= g->n; j++)
+        g->colptr[j] = j <= h->lo ? 0 : j > h->hi ? nnz : g->colptr[j] - lo;
+    free(g->rowind);
+    free(g->val);
+    g->rowind = ri;
+    g->val = rv;
+    return 0;
 }
 
 /* Decide whether this system is spread over the ranks (ls_amg_spread_ranks,

@@ -1,5 +1,6 @@
 /* solver.c — the backend-independent front end and sparse-matrix helpers. */
 #include "solve/solver.h"
+#include "solve/update.h"
 
 #include <math.h>
 #include <pthread.h>
@@ -21,6 +22,7 @@ struct ls_solver {
     ls_solver_stats st;
     int factored;
     int n;           /* order of the last matrix analyzed or factored */
+    ls_update *upd;  /* low-rank updates allowed (ls_solver_allow_update), else NULL */
 };
 
 ls_solver *ls_solver_new(const ls_backend *be, ls_method method)
@@ -127,16 +129,59 @@ void ls_solver_threads_for_program(void)
 #endif
 }
 
+/* The backend's solve with its factor as it stands (update.h's kept solve). */
+static int kept_solve(void *ctx, double *b, int transpose)
+{
+    ls_solver *s = ctx;
+    return s->be->solve(s->self, b, transpose, &s->st);
+}
+
+/* After the backend factored a: a becomes the update's A0.  Out of memory
+ * there only turns the updates off until the next factorization. */
+static void keep_for_update(ls_solver *s, const ls_csc *a, int r)
+{
+    if (s->upd && r == LS_SOLVER_OK)
+        (void)ls_update_keep(s->upd, a, s->st.rcond);
+}
+
 int ls_solver_factor(ls_solver *s, const ls_csc *a)
 {
     thread_scope t;
     scope_enter(&t, s->st.method, a->n);
     s->st.bad_column = -1;
+    double rcond;
+    if (s->upd && s->factored && s->n == a->n &&
+        ls_update_try(s->upd, a, s->st.factor_flops, s->st.solve_flops, kept_solve, s, &rcond)) {
+        s->st.rcond = rcond; /* solves now go through the kept factor and the update */
+        scope_leave(&t);
+        return LS_SOLVER_OK;
+    }
     s->n = a->n;
     int r = s->be->factor(s->self, a, &s->st);
     s->factored = r == LS_SOLVER_OK;
+    keep_for_update(s, a, r);
     scope_leave(&t);
     return r;
+}
+
+void ls_solver_allow_update(ls_solver *s, const ls_csc *factored)
+{
+    if (!factored) {
+        ls_update_free(s->upd);
+        s->upd = NULL;
+        return;
+    }
+    if (s->st.method == LS_METHOD_ITERATIVE_AMG)
+        return;
+    if (!s->upd)
+        s->upd = ls_update_new(); /* no memory: no updates, every factor is a refactorization */
+    if (s->upd && s->factored)
+        keep_for_update(s, factored, LS_SOLVER_OK);
+}
+
+void ls_solver_update_counts(const ls_solver *s, long *updates, long *rejected)
+{
+    ls_update_counts(s->upd, updates, rejected);
 }
 
 int ls_solver_analyze_factor(ls_solver *s, const ls_csc *a)
@@ -152,6 +197,7 @@ int ls_solver_analyze_factor(ls_solver *s, const ls_csc *a)
     s->n = a->n;
     int r = s->be->analyze_factor(s->self, a, &s->st);
     s->factored = r == LS_SOLVER_OK;
+    keep_for_update(s, a, r);
     scope_leave(&t);
     return r;
 }
@@ -162,7 +208,22 @@ int ls_solver_solve(ls_solver *s, double *b, int transpose)
         return LS_SOLVER_FAILED;
     thread_scope t;
     scope_enter(&t, s->st.method, s->n);
-    int r = s->be->solve(s->self, b, transpose, &s->st);
+    int r;
+    if (ls_update_active(s->upd)) {
+        r = ls_update_solve(s->upd, b, transpose, kept_solve, s);
+        if (r == LS_UPDATE_REJECTED) {
+            /* the updated solution failed its residual check against the
+             * true matrix: refactor that matrix and solve plainly */
+            const ls_csc *a = ls_update_matrix(s->upd);
+            r = s->be->factor(s->self, a, &s->st);
+            s->factored = r == LS_SOLVER_OK;
+            keep_for_update(s, a, r);
+            if (r == LS_SOLVER_OK)
+                r = s->be->solve(s->self, b, transpose, &s->st);
+        }
+    } else {
+        r = s->be->solve(s->self, b, transpose, &s->st);
+    }
     scope_leave(&t);
     return r;
 }
@@ -183,6 +244,7 @@ void ls_solver_free(ls_solver **s)
     if (!s || !*s)
         return;
     (*s)->be->destroy((*s)->self);
+    ls_update_free((*s)->upd);
     free(*s);
     *s = NULL;
 }

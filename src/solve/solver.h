@@ -12,6 +12,7 @@
 #ifndef LS_SOLVER_H
 #define LS_SOLVER_H
 
+#include <stdbool.h>
 #include <stddef.h>
 
 #include "base/csc.h"
@@ -47,6 +48,11 @@ typedef struct ls_solver_stats {
      * residual ||b - G x||_2 / ||b||_2 the last solve ended with. */
     long cg_iterations;
     double cg_residual;
+    /* The work of the last numeric factorization and of one solve with it,
+     * in floating-point operations as the library counts them (0: not
+     * known): what choosing a low-rank update over a refactorization
+     * weighs (update.c). */
+    double factor_flops, solve_flops;
 } ls_solver_stats;
 
 typedef struct ls_solver ls_solver;
@@ -94,6 +100,20 @@ void ls_solver_set_nodes(ls_solver *s, int m);
  * every call puts back. */
 void ls_solver_threads_for_program(void);
 void ls_solver_free(ls_solver **s);
+
+/* Allow low-rank updates, `factored` being the matrix s last factored (NULL:
+ * stop them): a later ls_solver_factor of a matrix
+ * with the pattern of the one factored, differing from it in a few rows,
+ * may keep the factor and solve through the Sherman-Morrison-Woodbury
+ * identity when its estimated work is below a refactorization's (update.c).
+ * Solves stay within a backward error of 1e-10 of the true matrix (checked
+ * per solve, refactoring where it fails).  For studies that refactor many
+ * times (sweep points, tol trials, fit candidates).  Out of memory: no
+ * updates. */
+void ls_solver_allow_update(ls_solver *s, const ls_csc *factored);
+/* How many factorizations the updates replaced, and how many updated solves
+ * their residual check sent to a refactorization (benchmarks, tests). */
+void ls_solver_update_counts(const ls_solver *s, long *updates, long *rejected);
 
 /* Largest order the dense backend accepts, and the bytes it would need for n. */
 #define LS_DENSE_MAX_UNKNOWNS 8000

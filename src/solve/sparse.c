@@ -243,6 +243,8 @@ static int klu_be_factor(void *self, const ls_csc *a, ls_solver_stats *st)
     if (!klu_condest(ap, ax, k->sym, k->num, &k->c) || !klu_rcond(k->sym, k->num, &k->c))
         return klu_status(k->c.status);
     st->rcond = k->c.condest > 0 ? 1.0 / k->c.condest : 0.0;
+    st->factor_flops = klu_flops(k->sym, k->num, &k->c) ? k->c.flops : 0;
+    st->solve_flops = 2.0 * ((double)k->num->lnz + (double)k->num->unz);
     if (!(k->c.rcond >= RCOND_SINGULAR)) {
         /* U's diagonal is in pivot order; Symbolic->Q maps it back to A. */
         st->bad_column = k->sym->Q[argmin_abs(k->num->Udiag, a->n)];
@@ -391,6 +393,8 @@ static int umf_be_factor(void *self, const ls_csc *a, ls_solver_stats *st)
     /* UMFPACK_RCOND is min|U_kk| / max|U_kk|, a pivot ratio, not a 1-norm
      * estimate; it is 0 for an exactly singular factor. */
     st->rcond = u->info[UMFPACK_RCOND];
+    st->factor_flops = u->info[UMFPACK_FLOPS] > 0 ? u->info[UMFPACK_FLOPS] : 0;
+    st->solve_flops = 2.0 * (fmax(u->info[UMFPACK_LNZ], 0) + fmax(u->info[UMFPACK_UNZ], 0));
     if (s == UMFPACK_WARNING_singular_matrix || !(st->rcond >= RCOND_SINGULAR)) {
         st->bad_column = umf_bad_column(u);
         return LS_SOLVER_SINGULAR;
@@ -617,6 +621,8 @@ static int chol_be_factor(void *self, const ls_csc *a, ls_solver_stats *st)
     }
     /* (min L_kk / max L_kk)^2 for LL', min D_kk / max D_kk for LDL': the same number */
     st->rcond = cholmod_rcond(h->L, &h->c);
+    st->factor_flops = h->c.fl > 0 ? h->c.fl : 0; /* the analysis's count for this factor */
+    st->solve_flops = h->c.lnz > 0 ? 4.0 * h->c.lnz : 0;
     if (!(st->rcond >= RCOND_SINGULAR)) {
         st->bad_column = chol_pivot_column(h->L, false);
         return LS_SOLVER_SINGULAR;

@@ -364,11 +364,11 @@ body += "".join("  use leaf l%d\n" % i for i in range(1000)) + "end\n"
 body += "".join("use %srow r%d\n" % ("⟦" if i == 999 else "", i) for i in range(1001))
 big.append(("instance_limit", 2, "more than 1000000 block instances", body, None))
 # part count: a row of 200 leaves of 100 resistors is 20000 parts; after the
-# source and 200 rows the count is 4000001: the 200th use (w199) crosses the limit
+# source and 2500 rows the count is 50000001: the 2500th use (w2499) crosses the limit
 body = "ground gnd\nblock leaf a\n" + "".join("  resistor r%d a -> ground 1k\n" % i for i in range(100))
 body += "end\nblock row a\n" + "".join("  use leaf l%d a=a\n" % i for i in range(200)) + "end\n"
-body += "voltage v gnd -> top 1 V\n" + "".join("use %srow w%d a=top\n" % ("⟦" if i == 199 else "", i) for i in range(210))
-big.append(("part_limit", 2, "more than 4000000 parts after expansion", body, None))
+body += "voltage v gnd -> top 1 V\n" + "".join("use %srow w%d a=top\n" % ("⟦" if i == 2499 else "", i) for i in range(2510))
+big.append(("part_limit", 2, "more than 50000000 parts after expansion", body, None))
 # dense solver: 81 instances of a 100-node chain = 8101 unknowns with --solver dense
 body = "ground gnd\nblock chain a\n" + "".join("  resistor r%d n%d -> n%d 1k\n" % (i, i, i + 1) for i in range(100))
 body += "  resistor rin a -> n0 1k\n  resistor rend n100 -> ground 1k\nend\nvoltage v gnd -> x 1 V\n"

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""The in-place restamp (src/mna.c): against a fresh assembly, and sweeps against numpy.
+"""The in-place restamp (src/mna.c, src/mna/patch.c): against a fresh assembly, and sweeps against numpy.
 
 Usage: restamp_agree.py LOADSTACK_BINARY RESTAMP_CHECK_BINARY [--count 30] [--seed 5]
 
@@ -14,6 +14,9 @@ without rs, current sources, vccs, vcvs, cccs, ccvs):
      and requires the restamped matrix and right-hand side to equal, bit for bit,
      a fresh assembly through triplets (the general path); rounds that kept the
      pattern must have been done in place, the others must have reassembled.
+  1b. restamp_check --patch: one to three parts change per round and only the
+     entries they reach are restamped (src/mna/patch.c); again bit for bit
+     against a fresh assembly.
   2. `loadstack sweep` of a resistor's value over [R/2, 2R] in 5 points: every
      point after the first restamps the previous point's system.  Each point's
      node voltages and part currents are compared with numpy.linalg.solve of the
@@ -28,6 +31,7 @@ import argparse
 import json
 import os
 import random
+import re
 import shutil
 import subprocess
 import sys
@@ -140,8 +144,8 @@ def main():
         proc = subprocess.run([args.checker, "--rounds", "16", "--seed", str(args.seed)] + paths,
                               capture_output=True, text=True, timeout=240)
         lines = proc.stdout.splitlines()
-        in_place = sum(int(ln.split("(")[1].split()[0]) for ln in lines if "in place," in ln)
-        reassembled = sum(int(ln.split(",")[-1].split()[0]) for ln in lines if "reassembled" in ln)
+        in_place = sum(int(re.search(r"(\d+) in place", ln).group(1)) for ln in lines if "in place," in ln)
+        reassembled = sum(int(re.search(r"(\d+) reassembled", ln).group(1)) for ln in lines if "reassembled" in ln)
         for ln in lines:
             if "agree" not in ln:
                 print(ln)
@@ -155,6 +159,23 @@ def main():
         print("restamp_check: %d networks, %d restamps in place, %d reassembled, all equal to a fresh assembly"
               % (len(paths), in_place, reassembled) if proc.returncode == 0 else
               "restamp_check: FAILED")
+
+        # 1b. only the changed parts restamped (src/mna/patch.c), against a fresh
+        # assembly, bit for bit; every round that kept the pattern is patched
+        proc = subprocess.run([args.checker, "--patch", "--rounds", "24", "--seed", str(args.seed)] + paths,
+                              capture_output=True, text=True, timeout=240)
+        lines = proc.stdout.splitlines()
+        patched = sum(int(re.search(r"(\d+) patched", ln).group(1)) for ln in lines if "patched" in ln)
+        for ln in lines:
+            if "agree" not in ln:
+                print(ln)
+        if proc.returncode != 0 or len(lines) != len(paths) or patched == 0:
+            print("restamp_check --patch exited %d (%d patched): %s"
+                  % (proc.returncode, patched, proc.stderr.strip()[:400]))
+            failures += 1
+        else:
+            print("restamp_check --patch: %d networks, %d patches, all equal to a fresh assembly"
+                  % (len(paths), patched))
 
         # 2. sweeps (restamped points) against numpy
         for k, net in enumerate(nets):

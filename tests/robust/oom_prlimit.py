@@ -65,6 +65,18 @@ for circuit, mb in ((small, 160), (small, 256), (small, 300), (big, 200), (big, 
         failures.append(f"{name}: the message names no size: {err[-300:]}")
     else:
         print(f"ok: {name}: exit {p.returncode}: {err.strip().splitlines()[-1][:160]}")
+# The memory-derived part limit (docs/limits.md): 1,835,009 parts (the source too) at the
+# floor of 200 bytes a part (367 MB) cannot be held under 200 MB, so the
+# circuit is refused before anything is expanded, at the use that crosses
+# the limit (the last line, at the block's name), with exit 3 and the sizes.
+p = subprocess.run(["prlimit", f"--as={200 * 1024 * 1024}", LOADSTACK, "check", big], capture_output=True,
+                   text=True, timeout=120)
+want = (f"big.stack:{len(lines)}:5: error: out of memory: with this statement the circuit expands to 1835009 parts, "
+        "whose table and names alone would take about 367.0 MB, more than the 209.7 MB this process may hold")
+if p.returncode != 3 or want not in p.stderr:
+    failures.append(f"big.stack under 200 MB: not refused before expanding (exit {p.returncode}): {p.stderr[-300:]}")
+else:
+    print("ok: big.stack under 200 MB: refused before expanding, at the use that crosses the memory-derived limit")
 for f in failures:
     print("FAIL:", f)
 sys.exit(1 if failures else 0)

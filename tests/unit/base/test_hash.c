@@ -115,6 +115,39 @@ static void test_intern(void)
     ls_hash_free(&h);
 }
 
+/* The hash a caller carries (ls_hash_prefetch, ls_hash_bytes) is the one
+ * the table computes itself: a key interned with its carried hash is found
+ * by a plain lookup, and a plain insertion by an intern with the carried
+ * hash, at every key length around the 4- and 8-byte word boundaries. */
+static void test_carried_hash(void)
+{
+    ls_hash h;
+    ls_hash_init(&h);
+    static char keys[40][40];
+    for (int n = 1; n < 40; n++) {
+        for (int i = 0; i < n; i++)
+            keys[n][i] = (char)('a' + (i * 7 + n) % 26);
+        keys[n][n] = 0;
+        CU_ASSERT_EQUAL(ls_hash_bytes(keys[n], (size_t)n), ls_hash_string(keys[n]));
+        CU_ASSERT_EQUAL(ls_hash_bytes("0123456789abcdefghijklmnopqrstuvwxyz0123", (size_t)n) ==
+                            ls_hash_string(keys[n]), 0);
+        uint32_t hv = ls_hash_prefetch(&h, keys[n]);
+        CU_ASSERT_EQUAL(hv, (uint32_t)ls_hash_string(keys[n]));
+        int v = -7;
+        if (n % 2) {
+            CU_ASSERT_EQUAL(ls_hash_intern_hashed(&h, keys[n], hv, n, &v), 1);
+        } else {
+            CU_ASSERT_EQUAL(ls_hash_put(&h, keys[n], n), 0);
+            CU_ASSERT_EQUAL(ls_hash_intern_hashed(&h, keys[n], hv, -1, &v), 0);
+        }
+        CU_ASSERT_EQUAL(v, n);
+    }
+    for (int n = 1; n < 40; n++)
+        CU_ASSERT_EQUAL(ls_hash_get(&h, keys[n]), n);
+    CU_ASSERT_EQUAL(h.count, 39);
+    ls_hash_free(&h);
+}
+
 /* Growth from empty, one key at a time: every key stays reachable. */
 static void test_growth(void)
 {
@@ -346,6 +379,7 @@ int main(void)
     static const ls_cu_case cases[] = {
         {"put, get, replace", test_put_get_replace},
         {"intern", test_intern},
+        {"carried hash", test_carried_hash},
         {"growth", test_growth},
         {"reserve", test_reserve},
         {"random operations against a linear list", test_random_against_list},

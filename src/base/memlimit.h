@@ -1,0 +1,13 @@
+/* memlimit.h — how much memory this process may hold, for limits that are
+ * derived from memory rather than fixed counts (docs/limits.md). */
+#ifndef LS_MEMLIMIT_H
+#define LS_MEMLIMIT_H
+
+#include <stddef.h>
+
+/* Bytes this process can expect to hold at most: the smallest of the
+ * machine's physical memory and the address-space and data-segment limits
+ * (setrlimit, `ulimit -v`, `prlimit --as`).  SIZE_MAX when none is known. */
+size_t ls_memory_limit_bytes(void);
+
+#endif
