@@ -22,7 +22,8 @@ import re
 import sys
 
 WRITER_REPORTS = ["src/report/op_report.c", "src/report/report.c", "src/cli/chain_cmd.c", "src/cli/fit_cmd.c",
-                  "src/cli/pick_cmd.c", "src/cli/formula_cmd.c"]
+                  "src/cli/pick_cmd.c", "src/cli/formula_cmd.c", "src/cli/loading_cmds.c", "src/cli/tol_cmd.c",
+                  "src/cli/sweep_cmd.c"]
 TABLE_CALLS = ["ls_wr_table", "ls_wr_row", "ls_wr_table_end"]
 DISPATCH = re.compile(r"fmt\s*[!=]=\s*(FMT_\w+)|switch\s*\([^)]*fmt\)")
 
