@@ -68,7 +68,8 @@ resistor r3 b -> c 1k
 vcvs e1 gnd -> c gain=0.5 cplus=a cminus=gnd
 resistor r4 c -> d 330
 """
-CONSERVING = ["strain_bridge.stack", "tank_level.stack", "bench_monitor.stack", "photodiode_tia.stack"]
+CONSERVING = ["strain_bridge.stack", "tank_level.stack", "bench_monitor.stack", "photodiode_tia.stack", "demo.stack",
+              "ebike_pack_monitor.stack", "level_shifter.stack"]
 
 with tempfile.TemporaryDirectory() as tmp:
     div = os.path.join(tmp, "divider.stack")
@@ -102,8 +103,8 @@ with tempfile.TemporaryDirectory() as tmp:
            p.returncode == 0 and len(lines) == 3 and "20.00 mW" in lines[0] and lines[2].split()[0] == "r2")
 
     # Conservation of energy: the powers of every part, summed, on circuits of
-    # sources, controlled sources and resistors (an op-amp with supply pins
-    # reports its output's power only, so those circuits are left out).
+    # sources, controlled sources, resistors, junctions and op-amps (an op-amp's
+    # power counts its inputs and the rails it draws on).
     mixed = os.path.join(tmp, "mixed.stack")
     with open(mixed, "w") as f:
         f.write(MIXED)
