@@ -93,18 +93,3 @@ const char *ls_unit_of(ls_dims d, bool ascii)
         return "ohm";
     return u;
 }
-
-/* ---- aligned tables for the other commands' text reports ------------------------------- */
-
-int ls_text_table(ls_report *rp, int ncol, const char *const *head, const bool *right, const char *const *cells,
-                  int nrows)
-{
-    ls_table t = {.ncol = ncol < 10 ? ncol : 10};
-    for (int c = 0; c < t.ncol; c++) {
-        t.head[c] = head[c];
-        t.right[c] = right[c];
-    }
-    for (int r = 0; r < nrows; r++)
-        ls_t_row(&t, cells + (size_t)r * (size_t)ncol);
-    return ls_t_print(&t, rp->out, &rp->nomem, &rp->nomem_bytes);
-}

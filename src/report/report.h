@@ -67,11 +67,5 @@ const char *ls_unit_of(ls_dims d, bool ascii);
  * column), in a SECTION,NAME,FIELD,VALUE CSV the rows "warning,N,FIELD,VALUE"
  * of the same fields; nothing in text (each report says them in its words). */
 void ls_report_warnings(struct ls_wr *w);
-/* Print nrows rows of ncol (at most 10) cells, row after row in `cells`, under
- * the heading `head`, aligned (right[c]: right-aligned column), to rp->out;
- * indented by two spaces as every text report.  NULL cells print empty.
- * Returns 0, or -1 when memory ran out (rows were lost: rp->nomem says so). */
-int ls_text_table(ls_report *rp, int ncol, const char *const *head, const bool *right, const char *const *cells,
-                  int nrows);
 
 #endif
