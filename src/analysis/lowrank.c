@@ -1803,6 +1803,13 @@ static int sag_fast_init(ls_op *op, int node, sag_fast *f)
     f->si = op_selinv(op);
     if (!f->si)
         return 0;
+    /* every row reads a few entries among its part's own unknowns: the
+     * pattern pass makes each a lookup instead of two solves whose reach
+     * grows with the circuit.  LOADSTACK_SELINV_PATTERN=0 keeps the solves
+     * (tests/scale/sag_fast.py compares both); out of memory keeps them too */
+    const char *env = getenv("LOADSTACK_SELINV_PATTERN");
+    if (!(env && strcmp(env, "0") == 0))
+        (void)ls_selinv_fill(f->si);
     int n = op->mna.n;
     f->w = calloc((size_t)n, sizeof *f->w);
     f->b = calloc((size_t)n, sizeof *f->b);

@@ -3,6 +3,7 @@
 
 #include <klu.h>
 
+#include <limits.h>
 #include <stdbool.h>
 #include <math.h>
 #include <stdlib.h>
@@ -23,10 +24,21 @@ struct ls_selinv {
     double *tx;
     double *udiag;
     int *pinv, *qinv;
+    int *pperm, *qperm; /* P[k], Q[k]: the row and column of A at pivot k */
     double *rs;         /* row scale factors in pivot order: row P[k] of A was divided by rs[k] */
     int *mark, gen;     /* DFS visit marks: mark[k] == gen is visited */
     int *stack, *pstack;
     svec col[LS_SELINV_MAX], row[LS_SELINV_MAX];
+    /* The selected inverse Z = (P (Rs \ A) Q)^-1 on the closed pattern S of
+     * the factor (ls_selinv_fill), in pivot order.  S holds, by columns, the
+     * strict lower part of the symbolic Cholesky pattern of L + U + (L + U)^T,
+     * rows sorted; at slot p of column j (row i > j): zl = Z_ij, zu = Z_ji,
+     * ml and mu the same entries of the recurrence run on absolute values
+     * (a bound on |Z| whose excess over it measures cancellation). */
+    bool filled;
+    int *sp, *si;
+    double *zl, *zu, *ml, *mu;
+    double *zd, *md;    /* Z_jj and its absolute-value bound */
 };
 
 /* Frees everything s owns (s itself too). */
@@ -34,8 +46,10 @@ static void selinv_release(ls_selinv *s)
 {
     free(s->lp); free(s->li); free(s->lx);
     free(s->tp); free(s->ti); free(s->tx);
-    free(s->udiag); free(s->pinv); free(s->qinv); free(s->rs);
+    free(s->udiag); free(s->pinv); free(s->qinv); free(s->pperm); free(s->qperm); free(s->rs);
     free(s->mark); free(s->stack); free(s->pstack);
+    free(s->sp); free(s->si); free(s->zl); free(s->zu); free(s->ml); free(s->mu);
+    free(s->zd); free(s->md);
     for (int v = 0; v < LS_SELINV_MAX; v++) {
         free(s->col[v].x); free(s->col[v].reach);
         free(s->row[v].x); free(s->row[v].reach);
@@ -118,7 +132,7 @@ static int factor_into(ls_selinv *s, const ls_csc *a, double *rcond)
     int *Lp = zalloc((size_t)n + 1, sizeof(int)), *Up = zalloc((size_t)n + 1, sizeof(int));
     int *Li = zalloc((size_t)num->lnz, sizeof(int)), *Ui = zalloc((size_t)num->unz, sizeof(int));
     double *Lx = zalloc((size_t)num->lnz, sizeof(double)), *Ux = zalloc((size_t)num->unz, sizeof(double));
-    int *P = zalloc((size_t)n, sizeof(int)), *Q = zalloc((size_t)n, sizeof(int));
+    int *P = s->pperm = zalloc((size_t)n, sizeof(int)), *Q = s->qperm = zalloc((size_t)n, sizeof(int));
     s->rs = zalloc((size_t)n, sizeof(double));
     s->pinv = zalloc((size_t)n, sizeof(int));
     s->qinv = zalloc((size_t)n, sizeof(int));
@@ -131,7 +145,7 @@ static int factor_into(ls_selinv *s, const ls_csc *a, double *rcond)
         }
         rc = 0;
     }
-    free(Lp); free(Up); free(Li); free(Ui); free(Lx); free(Ux); free(P); free(Q);
+    free(Lp); free(Up); free(Li); free(Ui); free(Lx); free(Ux);
 done:
     klu_free_numeric(&num, &c);
     klu_free_symbolic(&sym, &c);
@@ -240,6 +254,269 @@ static void clear(svec *v)
     v->nreach = 0;
 }
 
+
+/* ---- the selected inverse on the factor's pattern (Takahashi's recurrences) ---- */
+
+static int cmp_index(const void *a, const void *b)
+{
+    int x = *(const int *)a, y = *(const int *)b;
+    return (x > y) - (x < y);
+}
+
+/* Appends row i to the pattern under construction unless already there
+ * (flag[i] == col).  0, or -1 out of memory. */
+static int pattern_add(ls_selinv *s, int *flag, int col, int i, size_t *nz, size_t *cap)
+{
+    if (flag[i] == col)
+        return 0;
+    flag[i] = col;
+    if (*nz == *cap) {
+        size_t c = 2 * *cap;
+        int *ni = realloc(s->si, c * sizeof *ni);
+        if (!ni)
+            return -1;
+        s->si = ni;
+        *cap = c;
+    }
+    s->si[(*nz)++] = i;
+    return 0;
+}
+
+/* S (sp, si): column j is {i > j : L_ij or U_ji nonzero} joined with the
+ * columns of j's children in the elimination tree (less j itself), so every
+ * column minus its first row lies in its parent's column: the closure that
+ * lets the recurrences find every entry they read.  With a symmetric pattern
+ * and diagonal pivots it is L's own pattern.  0, or -1 out of memory. */
+static int pattern_closure(ls_selinv *s)
+{
+    int n = s->n, rc = -1;
+    size_t nz = 0, cap = (size_t)s->lp[n] + (size_t)s->tp[n] + (size_t)n + 1;
+    int *flag = malloc((size_t)n * sizeof *flag), *head = malloc((size_t)n * sizeof *head);
+    int *next = malloc((size_t)n * sizeof *next);
+    s->sp = malloc(((size_t)n + 1) * sizeof *s->sp);
+    s->si = malloc(cap * sizeof *s->si);
+    if (!flag || !head || !next || !s->sp || !s->si)
+        goto done;
+    for (int j = 0; j < n; j++)
+        flag[j] = head[j] = -1;
+    for (int j = 0; j < n; j++) {
+        size_t start = nz;
+        s->sp[j] = (int)start;
+        for (int q = s->lp[j]; q < s->lp[j + 1]; q++)
+            if (pattern_add(s, flag, j, s->li[q], &nz, &cap) != 0)
+                goto done;
+        for (int q = s->tp[j]; q < s->tp[j + 1]; q++)
+            if (pattern_add(s, flag, j, s->ti[q], &nz, &cap) != 0)
+                goto done;
+        for (int c = head[j]; c >= 0; c = next[c])
+            for (int q = s->sp[c]; q < s->sp[c + 1]; q++)
+                if (s->si[q] != j && pattern_add(s, flag, j, s->si[q], &nz, &cap) != 0)
+                    goto done;
+        if (nz > (size_t)INT_MAX)
+            goto done;   /* the pattern's offsets are ints, like the factor's */
+        qsort(s->si + start, nz - start, sizeof *s->si, cmp_index);
+        if (nz > start) {   /* the parent is the first row below the diagonal */
+            int parent = s->si[start];
+            next[j] = head[parent];
+            head[parent] = j;
+        }
+    }
+    s->sp[n] = (int)nz;
+    rc = 0;
+done:
+    free(flag);
+    free(head);
+    free(next);
+    return rc;
+}
+
+/* L_ij (sl) and U_ji / U_jj (su, the unit upper factor) at every slot of S;
+ * zero where S holds fill that neither factor has.  pos: n ints of scratch.
+ * 0, or -1 out of memory. */
+static int pattern_values(ls_selinv *s, int *pos, double **psl, double **psu)
+{
+    size_t nz = (size_t)s->sp[s->n];
+    double *sl = *psl = calloc(nz ? nz : 1, sizeof *sl);
+    double *su = *psu = calloc(nz ? nz : 1, sizeof *su);
+    if (!sl || !su)
+        return -1;
+    for (int j = 0; j < s->n; j++) {
+        for (int p = s->sp[j]; p < s->sp[j + 1]; p++)
+            pos[s->si[p]] = p;
+        for (int q = s->lp[j]; q < s->lp[j + 1]; q++)
+            sl[pos[s->li[q]]] = s->lx[q];
+        for (int q = s->tp[j]; q < s->tp[j + 1]; q++)
+            su[pos[s->ti[q]]] = s->tx[q] / s->udiag[j];
+    }
+    return 0;
+}
+
+/* Column j of Z from the columns after it.  With Z = U1^-1 D^-1 L^-1 (U1 the
+ * unit upper factor, D its diagonal), Z L = U1^-1 D^-1 and U1 Z = D^-1 L^-1
+ * give, for i > j in column j of S,
+ *     Z_ij = -sum_k Z_ik L_kj,   Z_ji = -sum_k U1_jk Z_ki,
+ *     Z_jj = 1 / D_j - sum_k U1_jk Z_kj,
+ * k over column j of S; every Z_ik they read sits in column min(i, k) > j,
+ * because column j below row k lies in column k (the closure).  Each pair
+ * (lo, hi) of column j's rows is met once, in column lo. */
+static void takahashi_column(ls_selinv *s, int j, const double *sl, const double *su, int *pos, int *flag)
+{
+    int p0 = s->sp[j], p1 = s->sp[j + 1];
+    for (int p = p0; p < p1; p++) {
+        pos[s->si[p]] = p;
+        flag[s->si[p]] = j;
+        s->zl[p] = s->zu[p] = s->ml[p] = s->mu[p] = 0;
+    }
+    int last = p1 > p0 ? s->si[p1 - 1] : -1;
+    for (int a = p0; a < p1; a++) {
+        int lo = s->si[a];
+        double la = sl[a], ua = su[a];
+        s->zl[a] -= s->zd[lo] * la;   /* the k = i terms */
+        s->ml[a] += s->md[lo] * fabs(la);
+        s->zu[a] -= ua * s->zd[lo];
+        s->mu[a] += fabs(ua) * s->md[lo];
+        for (int b = s->sp[lo]; b < s->sp[lo + 1] && s->si[b] <= last; b++) {
+            int hi = s->si[b];
+            if (flag[hi] != j)
+                continue;
+            int c = pos[hi];
+            double zhl = s->zl[b], zlh = s->zu[b], mhl = s->ml[b], mlh = s->mu[b];
+            s->zl[c] -= zhl * la;      /* Z_{hi,j} -= Z_{hi,lo} L_{lo,j} */
+            s->zl[a] -= zlh * sl[c];   /* Z_{lo,j} -= Z_{lo,hi} L_{hi,j} */
+            s->zu[c] -= ua * zlh;      /* Z_{j,hi} -= U1_{j,lo} Z_{lo,hi} */
+            s->zu[a] -= su[c] * zhl;   /* Z_{j,lo} -= U1_{j,hi} Z_{hi,lo} */
+            s->ml[c] += mhl * fabs(la);
+            s->ml[a] += mlh * fabs(sl[c]);
+            s->mu[c] += fabs(ua) * mlh;
+            s->mu[a] += fabs(su[c]) * mhl;
+        }
+    }
+    double d = 1 / s->udiag[j], m = fabs(d);
+    for (int a = p0; a < p1; a++) {
+        d -= su[a] * s->zl[a];
+        m += fabs(su[a]) * s->ml[a];
+    }
+    s->zd[j] = d;
+    s->md[j] = m;
+}
+
+int ls_selinv_fill(ls_selinv *s)
+{
+    if (s->filled)
+        return 0;
+    int n = s->n, rc = -1;
+    double *sl = NULL, *su = NULL;
+    int *pos = malloc((size_t)n * sizeof *pos), *flag = malloc((size_t)n * sizeof *flag);
+    if (!pos || !flag || pattern_closure(s) != 0 || pattern_values(s, pos, &sl, &su) != 0)
+        goto done;
+    size_t nz = (size_t)s->sp[n] ? (size_t)s->sp[n] : 1;
+    s->zl = malloc(nz * sizeof *s->zl);
+    s->zu = malloc(nz * sizeof *s->zu);
+    s->ml = malloc(nz * sizeof *s->ml);
+    s->mu = malloc(nz * sizeof *s->mu);
+    s->zd = malloc((size_t)n * sizeof *s->zd);
+    s->md = malloc((size_t)n * sizeof *s->md);
+    if (!s->zl || !s->zu || !s->ml || !s->mu || !s->zd || !s->md)
+        goto done;
+    for (int j = 0; j < n; j++)
+        flag[j] = -1;
+    for (int j = n - 1; j >= 0; j--)
+        takahashi_column(s, j, sl, su, pos, flag);
+    s->filled = true;
+    rc = 0;
+done:
+    if (rc != 0) {   /* all or nothing: the entries keep coming from the solves */
+        free(s->sp); free(s->si); free(s->zl); free(s->zu); free(s->ml); free(s->mu);
+        free(s->zd); free(s->md);
+        s->sp = s->si = NULL;
+        s->zl = s->zu = s->ml = s->mu = s->zd = s->md = NULL;
+    }
+    free(sl);
+    free(su);
+    free(pos);
+    free(flag);
+    return rc;
+}
+
+long ls_selinv_pattern_size(const ls_selinv *s)
+{
+    return s->filled ? (long)s->n + 2L * s->sp[s->n] : 0;
+}
+
+/* Z_rc (pivot order) and its bound from the filled pattern; false when (r, c)
+ * is not in S. */
+static bool pattern_entry(const ls_selinv *s, int r, int c, double *z, double *m)
+{
+    if (r == c) {
+        *z = s->zd[r];
+        *m = s->md[r];
+        return true;
+    }
+    int lo = r < c ? r : c, hi = r < c ? c : r;
+    const int *first = s->si + s->sp[lo];
+    const int *hit = bsearch(&hi, first, (size_t)(s->sp[lo + 1] - s->sp[lo]), sizeof *first, cmp_index);
+    if (!hit)
+        return false;
+    size_t p = (size_t)(hit - s->si);
+    *z = r > c ? s->zl[p] : s->zu[p];
+    *m = r > c ? s->ml[p] : s->mu[p];
+    return true;
+}
+
+int ls_selinv_pattern_entry(const ls_selinv *s, long k, int *row, int *col, double *value, double *mag)
+{
+    if (!s->filled || k < 0 || k >= ls_selinv_pattern_size(s))
+        return -1;
+    int r, c;
+    if (k < s->n) {
+        r = c = (int)k;
+    } else {
+        long q = (k - s->n) / 2;
+        int j = 0, lo = 0, hi = s->n;   /* the column holding slot q */
+        while (hi - lo > 1) {
+            int mid = lo + (hi - lo) / 2;
+            if (s->sp[mid] <= q)
+                lo = mid;
+            else
+                hi = mid;
+        }
+        j = lo;
+        r = (k - s->n) % 2 ? j : s->si[q];
+        c = (k - s->n) % 2 ? s->si[q] : j;
+    }
+    double z = 0, m = 0;
+    pattern_entry(s, r, c, &z, &m);
+    /* back from pivot order: Z_rc = (A^-1)_{Q[r], P[c]} * Rs_c */
+    *row = s->qperm[r];
+    *col = s->pperm[c];
+    *value = z / s->rs[c];
+    if (mag)
+        *mag = m / s->rs[c];
+    return 0;
+}
+
+/* out and mag as ls_selinv_block, every entry from the filled pattern; false
+ * (out partly written) when one is not in it. */
+static bool block_from_pattern(const ls_selinv *s, const int *rows, int nr, const int *cols, int nc, double *out,
+                               double *mag)
+{
+    for (int r = 0; r < nr; r++)
+        for (int c = 0; c < nc; c++) {
+            double z = 0, m = 0;
+            if (rows[r] >= 0 && cols[c] >= 0) {
+                int pc = s->pinv[cols[c]];
+                if (!pattern_entry(s, s->qinv[rows[r]], pc, &z, &m))
+                    return false;
+                z /= s->rs[pc];
+                m /= s->rs[pc];
+            }
+            out[r * nc + c] = z;
+            if (mag)
+                mag[r * nc + c] = m;
+        }
+    return true;
+}
+
 int ls_selinv_block(ls_selinv *s, const int *rows, int nr, const int *cols, int nc, double *out, double *mag)
 {
     if (nr > LS_SELINV_MAX || nc > LS_SELINV_MAX)
@@ -250,6 +527,8 @@ int ls_selinv_block(ls_selinv *s, const int *rows, int nr, const int *cols, int 
     for (int c = 0; c < nc; c++)
         if (cols[c] >= s->n)
             return -1;
+    if (s->filled && block_from_pattern(s, rows, nr, cols, nc, out, mag))
+        return 0;
     for (int c = 0; c < nc; c++)
         if (cols[c] >= 0)
             solve_l(s, s->pinv[cols[c]], &s->col[c]);

@@ -30,6 +30,26 @@ ls_selinv *ls_selinv_new(const ls_csc *a, double *rcond);
 #define LS_SELINV_MAX 4
 int ls_selinv_block(ls_selinv *s, const int *rows, int nr, const int *cols, int nc, double *out, double *mag);
 
+/* The selected inverse on the factor's pattern, in one backward pass over
+ * the factor (Takahashi's recurrences, selinv.c): afterwards every entry of
+ * A^-1 whose pivot positions lie in the closed pattern of L + U -- among
+ * them every (i, j) with A_ij and A_ji on the diagonal pivots, so the
+ * entries among one part's own unknowns -- costs a lookup, and
+ * ls_selinv_block takes them from there (others still by the two solves).
+ * The pass costs about what the factorization did and keeps four doubles
+ * per pattern entry, so callers ask for it only when they will read many
+ * entries.  0, or -1 out of memory (then the solves go on serving). */
+int ls_selinv_fill(ls_selinv *s);
+
+/* The number of entries the filled pattern holds (0 before ls_selinv_fill),
+ * and entry k of them (0 <= k < size): *row, *col its place in A^-1, *value
+ * (A^-1)_{row,col}, *mag (may be NULL) the same entry of the recurrences run
+ * on absolute values, a bound on |value| whose excess measures cancellation.
+ * Each place appears once.  0, or -1 when k is out of range.  For tests and
+ * for reading the pattern whole. */
+long ls_selinv_pattern_size(const ls_selinv *s);
+int ls_selinv_pattern_entry(const ls_selinv *s, long k, int *row, int *col, double *value, double *mag);
+
 /* Frees *ps and sets it to NULL; accepts NULL. */
 void ls_selinv_free(ls_selinv **ps);
 
