@@ -16,7 +16,10 @@ Both paths compute the same exact number, so the reference is the general
 path itself (checked against closed forms and numpy by tests/loading).  For
 every circuit in circuits/ and docs/examples/ (NODE: each one's first node
 after ground), for random networks (tests/ref/random_mna.py) and for a grid,
-`sag FILE NODE --what-if --format json` must agree row by row: `without` to
+`sag FILE NODE --what-if --format json` must agree row by row, the rows
+from the selected inverse on the factor's pattern (Takahashi's recurrences,
+the default; LOADSTACK_SELINV_PATTERN=0 turns it off) against the general
+path and against the same rows with each entry by two triangular solves: `without` to
 1e-12 of the circuit's largest node voltage, `delta` (a difference of two
 voltages) the same, and every flag and word equal.  Where a random
 network's two rows differ by more, the reference solver of tests/ref/random_mna.py
@@ -51,8 +54,16 @@ import random_mna  # noqa: E402
 REL = 1e-12
 
 
-def run(binary, args, min_n):
-    env = dict(os.environ, LOADSTACK_SELINV_MIN_N=str(min_n))
+# the three ways to a what-if row: the general path; the selected inverse's
+# entries by two triangular solves each; the same entries read from the
+# selected inverse on the factor's pattern (one backward pass, the default)
+GENERAL = {"LOADSTACK_SELINV_MIN_N": "-1"}
+SOLVES = {"LOADSTACK_SELINV_MIN_N": "0", "LOADSTACK_SELINV_PATTERN": "0"}
+PATTERN = {"LOADSTACK_SELINV_MIN_N": "0", "LOADSTACK_SELINV_PATTERN": "1"}
+
+
+def run(binary, args, how):
+    env = dict(os.environ, **how)
     p = subprocess.run([binary] + args + ["--format", "json", "--quiet"], env=env,
                        capture_output=True, text=True, timeout=120)
     try:
@@ -63,7 +74,7 @@ def run(binary, args, min_n):
 
 def first_node(binary, path):
     """The first node after ground in the solve report, its rcond and largest |V|; None when unsolvable."""
-    rc, _, j = run(binary, ["solve", path], -1)
+    rc, _, j = run(binary, ["solve", path], GENERAL)
     if j is None or rc > 1:
         return None
     nodes = [(k, v) for k, v in j.get("nodes", {}).items() if isinstance(v, (int, float)) and v != 0]
@@ -87,13 +98,25 @@ def numpy_without(net, part, node):
     return (None, cond) if nodes is None else (nodes.get(node), cond)
 
 
-def compare(label, binary, path, bad, counts, net=None):
+def compare(label, binary, path, bad, counts, net=None, node=None):
+    """The pattern's rows against the general path's and against the two
+    solves' entries, at NODE (default: the first node); True when the first
+    pair's reports differ in text."""
     found = first_node(binary, path)
     if found is None:
         return None
+    if node is not None:
+        found = (node,) + found[1:]
+    differs = compare_pair(label, binary, path, found, GENERAL, bad, counts, net)
+    if differs is not None:
+        compare_pair(label + " (entries by solves)", binary, path, found, SOLVES, bad, counts, net)
+    return differs
+
+
+def compare_pair(label, binary, path, found, how, bad, counts, net):
     node, rcond, vmax = found
-    (rs, ts, slow), (rf, tf, fast) = run(binary, ["sag", path, node, "--what-if"], -1), \
-        run(binary, ["sag", path, node, "--what-if"], 0)
+    (rs, ts, slow), (rf, tf, fast) = run(binary, ["sag", path, node, "--what-if"], how), \
+        run(binary, ["sag", path, node, "--what-if"], PATTERN)
     if rs != rf:
         bad.append("%s: exit %d against %d" % (label, rs, rf))
         return None
@@ -156,11 +179,14 @@ def main():
                 f.write(net.text)
             if compare("random net %d" % i, args.binary, path, bad, counts, net) is not None:
                 made += 1
-        grid = os.path.join(tmp, "grid.stack")
-        subprocess.run([sys.executable, os.path.join(ROOT, "tests", "bench", "gen.py"), "grid", "9", "--out", grid],
-                       check=True)
-        ran = compare("grid 9 x 9", args.binary, grid, bad, counts)
-    print("%d circuits, %d random networks and a grid, %d what-if rows compared; %d reports to 1e-12, "
+        ran = True
+        for side in (9, 24):   # 24: past the selected inverse's default size
+            grid = os.path.join(tmp, "grid%d.stack" % side)
+            subprocess.run([sys.executable, os.path.join(ROOT, "tests", "bench", "gen.py"), "grid", str(side),
+                            "--out", grid], check=True)
+            ran = compare("grid %d x %d" % (side, side), args.binary, grid, bad, counts,
+                          node="n%d_%d" % (side // 2, side // 2)) and ran
+    print("%d circuits, %d random networks and two grids, %d what-if rows compared; %d reports to 1e-12, "
           "%d ill-conditioned ones to 100 eps / rcond; %d fields where the paths differ settled by numpy" %
           (circuits, made, counts["rows"], counts["strict"], counts["loose"], counts["by_numpy"]))
     for b in bad[:20]:

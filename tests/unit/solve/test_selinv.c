@@ -1,6 +1,7 @@
-/* test_selinv.c — entries of A^-1 from the selected-inverse factor (src/selinv.c)
- * against LAPACK's dgesv on the identity (Debian's liblapacke, the outside
- * reference), on random sparse unsymmetric matrices shaped like MNA systems:
+/* test_selinv.c — entries of A^-1 from the selected-inverse factor
+ * (src/solve/selinv.c), by two triangular solves each and from the pattern
+ * pass (ls_selinv_fill), against LAPACK's dgesv on the identity (Debian's
+ * liblapacke, the outside reference), on random sparse unsymmetric matrices shaped like MNA systems:
  * conductances between random nodes, voltage-source branch rows with a zero
  * diagonal (so KLU must pivot), and controlled-source entries off the
  * symmetric pattern. */
@@ -12,10 +13,13 @@
 
 #include <lapacke.h>
 #include <math.h>
+#include <stdbool.h>
 #include <stdlib.h>
 #include <string.h>
 
-static void test_entries_match_lapack(void)
+/* With fill, the entries come from the pattern pass (ls_selinv_fill) where
+ * they lie in it, and the pattern's own entries are checked too. */
+static void entries_match_lapack(bool fill)
 {
     ls_rng r;
     ls_rng_seed(&r, 19, 0);
@@ -43,6 +47,22 @@ static void test_entries_match_lapack(void)
             ls_selinv *s = ls_selinv_new(&a, &rcond);
             CU_ASSERT_PTR_NOT_NULL_FATAL(s);
             CU_ASSERT(rcond > 0);
+            if (fill) {
+                CU_ASSERT_EQUAL_FATAL(ls_selinv_fill(s), 0);
+                long size = ls_selinv_pattern_size(s);
+                CU_ASSERT(size >= n);
+                for (long k = 0; k < size; k++) {
+                    int i, j;
+                    double v, mg;
+                    CU_ASSERT_EQUAL(ls_selinv_pattern_entry(s, k, &i, &j, &v, &mg), 0);
+                    CU_ASSERT(fabs(v - inv[i + (size_t)j * n]) <= 1e-9 * big);
+                    CU_ASSERT(mg >= fabs(v));
+                    checked++;
+                }
+                int i, j;
+                double v;
+                CU_ASSERT_EQUAL(ls_selinv_pattern_entry(s, size, &i, &j, &v, NULL), -1);
+            }
             for (int i0 = 0; i0 < n; i0 += 2)
                 for (int j0 = 0; j0 < n; j0 += 3) {
                     int rows[2] = {i0, i0 + 1 < n ? i0 + 1 : -1}, cols[3];
@@ -74,10 +94,14 @@ static void test_entries_match_lapack(void)
     CU_ASSERT(checked > 10000);
 }
 
+static void test_entries_match_lapack(void) { entries_match_lapack(false); }
+static void test_pattern_matches_lapack(void) { entries_match_lapack(true); }
+
 int main(void)
 {
     static const ls_cu_case cases[] = {
         {"entries of A^-1 match LAPACK's inverse", test_entries_match_lapack},
+        {"the selected inverse on the factor's pattern matches LAPACK's", test_pattern_matches_lapack},
     };
     return ls_cu_run("selinv", NULL, NULL, cases, LS_CU_COUNT(cases));
 }
