@@ -16,6 +16,12 @@ typedef struct svec {
     int nreach;
 } svec;
 
+/* One slot of the selected inverse's pattern: Z_ij, Z_ji (i > j) and their
+ * absolute-value bounds, side by side so the pass reads one cache line. */
+typedef struct zslot {
+    double zl, zu, ml, mu;
+} zslot;
+
 struct ls_selinv {
     int n;
     int *lp, *li;       /* L below its unit diagonal, by columns */
@@ -37,7 +43,7 @@ struct ls_selinv {
      * (a bound on |Z| whose excess over it measures cancellation). */
     bool filled;
     int *sp, *si;
-    double *zl, *zu, *ml, *mu;
+    zslot *z;
     double *zd, *md;    /* Z_jj and its absolute-value bound */
 };
 
@@ -48,7 +54,7 @@ static void selinv_release(ls_selinv *s)
     free(s->tp); free(s->ti); free(s->tx);
     free(s->udiag); free(s->pinv); free(s->qinv); free(s->pperm); free(s->qperm); free(s->rs);
     free(s->mark); free(s->stack); free(s->pstack);
-    free(s->sp); free(s->si); free(s->zl); free(s->zu); free(s->ml); free(s->mu);
+    free(s->sp); free(s->si); free(s->z);
     free(s->zd); free(s->md);
     for (int v = 0; v < LS_SELINV_MAX; v++) {
         free(s->col[v].x); free(s->col[v].reach);
@@ -358,43 +364,46 @@ static int pattern_values(ls_selinv *s, int *pos, double **psl, double **psu)
  *     Z_jj = 1 / D_j - sum_k U1_jk Z_kj,
  * k over column j of S; every Z_ik they read sits in column min(i, k) > j,
  * because column j below row k lies in column k (the closure).  Each pair
- * (lo, hi) of column j's rows is met once, in column lo. */
-static void takahashi_column(ls_selinv *s, int j, const double *sl, const double *su, int *pos, int *flag)
+ * (lo, hi) of column j's rows is met once, walking column lo alongside
+ * column j (both sorted). */
+static void takahashi_column(ls_selinv *s, int j, const double *sl, const double *su)
 {
+    const int *si = s->si;
+    zslot *z = s->z;
     int p0 = s->sp[j], p1 = s->sp[j + 1];
-    for (int p = p0; p < p1; p++) {
-        pos[s->si[p]] = p;
-        flag[s->si[p]] = j;
-        s->zl[p] = s->zu[p] = s->ml[p] = s->mu[p] = 0;
-    }
-    int last = p1 > p0 ? s->si[p1 - 1] : -1;
+    for (int p = p0; p < p1; p++)
+        z[p] = (zslot){0, 0, 0, 0};
     for (int a = p0; a < p1; a++) {
-        int lo = s->si[a];
-        double la = sl[a], ua = su[a];
-        s->zl[a] -= s->zd[lo] * la;   /* the k = i terms */
-        s->ml[a] += s->md[lo] * fabs(la);
-        s->zu[a] -= ua * s->zd[lo];
-        s->mu[a] += fabs(ua) * s->md[lo];
-        for (int b = s->sp[lo]; b < s->sp[lo + 1] && s->si[b] <= last; b++) {
-            int hi = s->si[b];
-            if (flag[hi] != j)
-                continue;
-            int c = pos[hi];
-            double zhl = s->zl[b], zlh = s->zu[b], mhl = s->ml[b], mlh = s->mu[b];
-            s->zl[c] -= zhl * la;      /* Z_{hi,j} -= Z_{hi,lo} L_{lo,j} */
-            s->zl[a] -= zlh * sl[c];   /* Z_{lo,j} -= Z_{lo,hi} L_{hi,j} */
-            s->zu[c] -= ua * zlh;      /* Z_{j,hi} -= U1_{j,lo} Z_{lo,hi} */
-            s->zu[a] -= su[c] * zhl;   /* Z_{j,lo} -= U1_{j,hi} Z_{hi,lo} */
-            s->ml[c] += mhl * fabs(la);
-            s->ml[a] += mlh * fabs(sl[c]);
-            s->mu[c] += fabs(ua) * mlh;
-            s->mu[a] += fabs(su[c]) * mhl;
+        int lo = si[a];
+        double la = sl[a], ua = su[a], fla = fabs(la), fua = fabs(ua);
+        /* the k = i terms, then the pairs (lo, hi) with hi after lo */
+        double zla = -s->zd[lo] * la, mla = s->md[lo] * fla, zua = -ua * s->zd[lo], mua = fua * s->md[lo];
+        int b = s->sp[lo], bend = s->sp[lo + 1];
+        for (int c = a + 1; c < p1; c++) {
+            int hi = si[c];
+            while (b < bend && si[b] != hi)
+                b++;
+            if (b == bend)
+                break;                   /* cannot happen in a closed pattern */
+            zslot zb = z[b++];           /* zl = Z_{hi,lo}, zu = Z_{lo,hi} */
+            z[c].zl -= zb.zl * la;       /* Z_{hi,j} -= Z_{hi,lo} L_{lo,j} */
+            z[c].zu -= ua * zb.zu;       /* Z_{j,hi} -= U1_{j,lo} Z_{lo,hi} */
+            zla -= zb.zu * sl[c];        /* Z_{lo,j} -= Z_{lo,hi} L_{hi,j} */
+            zua -= su[c] * zb.zl;        /* Z_{j,lo} -= U1_{j,hi} Z_{hi,lo} */
+            z[c].ml += zb.ml * fla;
+            z[c].mu += fua * zb.mu;
+            mla += zb.mu * fabs(sl[c]);
+            mua += fabs(su[c]) * zb.ml;
         }
+        z[a].zl += zla;
+        z[a].zu += zua;
+        z[a].ml += mla;
+        z[a].mu += mua;
     }
     double d = 1 / s->udiag[j], m = fabs(d);
     for (int a = p0; a < p1; a++) {
-        d -= su[a] * s->zl[a];
-        m += fabs(su[a]) * s->ml[a];
+        d -= su[a] * z[a].zl;
+        m += fabs(su[a]) * z[a].ml;
     }
     s->zd[j] = d;
     s->md[j] = m;
@@ -406,35 +415,30 @@ int ls_selinv_fill(ls_selinv *s)
         return 0;
     int n = s->n, rc = -1;
     double *sl = NULL, *su = NULL;
-    int *pos = malloc((size_t)n * sizeof *pos), *flag = malloc((size_t)n * sizeof *flag);
-    if (!pos || !flag || pattern_closure(s) != 0 || pattern_values(s, pos, &sl, &su) != 0)
+    int *pos = malloc((size_t)n * sizeof *pos);
+    if (!pos || pattern_closure(s) != 0 || pattern_values(s, pos, &sl, &su) != 0)
         goto done;
     size_t nz = (size_t)s->sp[n] ? (size_t)s->sp[n] : 1;
-    s->zl = malloc(nz * sizeof *s->zl);
-    s->zu = malloc(nz * sizeof *s->zu);
-    s->ml = malloc(nz * sizeof *s->ml);
-    s->mu = malloc(nz * sizeof *s->mu);
+    s->z = malloc(nz * sizeof *s->z);
     s->zd = malloc((size_t)n * sizeof *s->zd);
     s->md = malloc((size_t)n * sizeof *s->md);
-    if (!s->zl || !s->zu || !s->ml || !s->mu || !s->zd || !s->md)
+    if (!s->z || !s->zd || !s->md)
         goto done;
-    for (int j = 0; j < n; j++)
-        flag[j] = -1;
     for (int j = n - 1; j >= 0; j--)
-        takahashi_column(s, j, sl, su, pos, flag);
+        takahashi_column(s, j, sl, su);
     s->filled = true;
     rc = 0;
 done:
     if (rc != 0) {   /* all or nothing: the entries keep coming from the solves */
-        free(s->sp); free(s->si); free(s->zl); free(s->zu); free(s->ml); free(s->mu);
+        free(s->sp); free(s->si); free(s->z);
         free(s->zd); free(s->md);
         s->sp = s->si = NULL;
-        s->zl = s->zu = s->ml = s->mu = s->zd = s->md = NULL;
+        s->z = NULL;
+        s->zd = s->md = NULL;
     }
     free(sl);
     free(su);
     free(pos);
-    free(flag);
     return rc;
 }
 
@@ -458,8 +462,8 @@ static bool pattern_entry(const ls_selinv *s, int r, int c, double *z, double *m
     if (!hit)
         return false;
     size_t p = (size_t)(hit - s->si);
-    *z = r > c ? s->zl[p] : s->zu[p];
-    *m = r > c ? s->ml[p] : s->mu[p];
+    *z = r > c ? s->z[p].zl : s->z[p].zu;
+    *m = r > c ? s->z[p].ml : s->z[p].mu;
     return true;
 }
 
