@@ -451,11 +451,52 @@ static size_t merge_trips(trip *tr, size_t nt)
     return w;
 }
 
+/* Triplets of A'_R: the base rows R (scanned out of the columns; where[i]
+ * is i's place in R or -1) plus D.  *k gets their number; NULL out of memory. */
+static trip *changed_rows(const ls_mod *m, const int *where, size_t *k)
+{
+    const ls_csc *a = &m->op->mna.a;
+    size_t cnt = (size_t)m->dptr[m->r];
+    for (int p = 0; p < ls_csc_nnz(a); p++)
+        cnt += where[a->rowind[p]] >= 0;
+    trip *tr = malloc((cnt ? cnt : 1) * sizeof *tr);
+    if (!tr)
+        return NULL;
+    *k = 0;
+    for (int j = 0; j < a->n; j++)
+        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
+            if (where[a->rowind[p]] >= 0)
+                tr[(*k)++] = (trip){a->rowind[p], j, a->val[p]};
+    for (int i = 0; i < m->r; i++)
+        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++)
+            tr[(*k)++] = (trip){m->rows[i], m->dcol[p], m->dval[p]};
+    return tr;
+}
+
+/* Re-point m->nptr at the rows of R when some new row vanished (nrows, nr:
+ * the rows that kept entries): rows of R with an empty new row get empty
+ * ranges.  0, or -1 out of memory. */
+static int repoint_rows(ls_mod *m, const int *nrows, int nr)
+{
+    int *ptr = calloc((size_t)m->r + 1, sizeof *ptr);
+    if (!ptr)
+        return -1;
+    for (int i = 0, q = 0; i < m->r; i++) {
+        ptr[i + 1] = ptr[i];
+        if (q < nr && nrows[q] == m->rows[i]) {
+            ptr[i + 1] = m->nptr[q + 1];
+            q++;
+        }
+    }
+    free(m->nptr);
+    m->nptr = ptr;
+    return 0;
+}
+
 /* D (the summed row changes, empty rows dropped) and the new rows A'_R.
  * 0 ok, -1 out of memory. */
 static int build_rows(ls_mod *m, const ls_triplets *t)
 {
-    const ls_csc *a = &m->op->mna.a;
     trip *tr = malloc((t->nnz ? t->nnz : 1) * sizeof *tr);
     if (!tr)
         return -1;
@@ -466,7 +507,6 @@ static int build_rows(ls_mod *m, const ls_triplets *t)
     free(tr);
     if (rc != 0)
         return -1;
-    /* A'_R: the base rows R (scanned out of the columns) plus D */
     int *where = malloc((size_t)(m->n ? m->n : 1) * sizeof *where);
     if (!where)
         return -1;
@@ -474,46 +514,19 @@ static int build_rows(ls_mod *m, const ls_triplets *t)
         where[i] = -1;
     for (int i = 0; i < m->r; i++)
         where[m->rows[i]] = i;
-    size_t cnt = (size_t)m->dptr[m->r];
-    for (int p = 0; p < ls_csc_nnz(a); p++)
-        cnt += where[a->rowind[p]] >= 0;
-    tr = malloc((cnt ? cnt : 1) * sizeof *tr);
-    if (!tr) {
-        free(where);
-        return -1;
-    }
     size_t k = 0;
-    for (int j = 0; j < a->n; j++)
-        for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
-            if (where[a->rowind[p]] >= 0)
-                tr[k++] = (trip){a->rowind[p], j, a->val[p]};
-    for (int i = 0; i < m->r; i++)
-        for (int p = m->dptr[i]; p < m->dptr[i + 1]; p++)
-            tr[k++] = (trip){m->rows[i], m->dcol[p], m->dval[p]};
+    tr = changed_rows(m, where, &k);
+    free(where);
+    if (!tr)
+        return -1;
     nt = merge_trips(tr, k);
     /* a new row may vanish entirely (then A' is singular); keep every row of R */
     int *nrows = NULL, nr = 0;
     rc = compress_rows(tr, nt, &nrows, &nr, &m->nptr, &m->ncol, &m->nval);
     free(tr);
-    if (rc == 0 && nr != m->r) {
-        /* re-point rows: rows of R with an empty new row get empty ranges */
-        int *ptr = calloc((size_t)m->r + 1, sizeof *ptr);
-        if (!ptr)
-            rc = -1;
-        for (int i = 0, q = 0; ptr && i < m->r; i++) {
-            ptr[i + 1] = ptr[i];
-            if (q < nr && nrows[q] == m->rows[i]) {
-                ptr[i + 1] = m->nptr[q + 1];
-                q++;
-            }
-        }
-        if (ptr) {
-            free(m->nptr);
-            m->nptr = ptr;
-        }
-    }
+    if (rc == 0 && nr != m->r)
+        rc = repoint_rows(m, nrows, nr);
     free(nrows);
-    free(where);
     if (rc != 0)
         return -1;
     for (int i = 1; i < m->op->nl->nnodes; i++)
@@ -1443,6 +1456,56 @@ static bool port_fast(ls_op *op, const ls_part *p, ls_port_result *r, bool *nome
     return !*nomem && port_fast_from(op, p, r, false, nomem);
 }
 
+/* Rows f and t of A^-1 at columns f, t, k (af, at; a ground end's row is 0)
+ * and the scales of their rounding (mf, mt), from row s's entries e[3..5]
+ * and mag[3..5]: row t = row f - e_k^T (the port's branch row). */
+static void port_rows(int s, int f, int t, const double *e, const double *mag, double *af, double *at, double *mf,
+                      double *mt)
+{
+    double *row = s == f ? af : at, *other = s == f ? at : af, sign = s == f ? -1 : 1;
+    double *mrow = s == f ? mf : mt, *mother = s == f ? mt : mf;
+    for (int j = 0; j < 3; j++) {
+        row[j] = e[3 + j];
+        mrow[j] = mag[3 + j];
+    }
+    if ((s == f ? t : f) >= 0)
+        for (int j = 0; j < 3; j++) {
+            other[j] = row[j] + (j == 2 ? sign : 0);
+            mother[j] = mrow[j] + (j == 2 ? 1 : 0);
+        }
+}
+
+/* The four fields zout, zin, open, load_open into v[]: each is first - b c /
+ * a_kk; the scale of its rounding is the first's scale plus the product of
+ * the factors' scales (a factor that is zero by cancellation has a scale,
+ * one zero by structure has none), widened by a_kk's own relative scale.
+ * With selected, false when a field would lose more than SELINV_MAX_CANCEL
+ * to cancellation. */
+static bool port_fields(const ls_op *op, const ls_part *p, const double *e, const double *mag, const double *af,
+                        const double *at, const double *mf, const double *mt, bool selected, double *v)
+{
+    int f = p->pin[0] - 1, t = p->pin[1] - 1, k = p->branch;
+    double akf = e[0], akt = e[1], akk = e[2];
+    double kk = 1 + mag[2] / fabs(akk);
+    double xk = fabs(op->x[k]);
+    double first[4] = {f >= 0 ? af[0] : 0, t >= 0 ? at[1] : 0, f >= 0 ? op->x[f] : 0, t >= 0 ? op->x[t] : 0};
+    double mfirst[4] = {f >= 0 ? mf[0] : 0, t >= 0 ? mt[1] : 0, fabs(first[2]), fabs(first[3])};
+    double second[4] = {f >= 0 ? af[2] * akf / akk : 0, t >= 0 ? at[2] * akt / akk : 0,
+                        f >= 0 ? af[2] * op->x[k] / akk : 0, t >= 0 ? at[2] * op->x[k] / akk : 0};
+    double msecond[4] = {f >= 0 ? mf[2] * mag[0] : 0, t >= 0 ? mt[2] * mag[1] : 0, f >= 0 ? mf[2] * xk : 0,
+                         t >= 0 ? mt[2] * xk : 0};
+    for (int q = 0; q < 4; q++) {
+        v[q] = first[q] - second[q];
+        double scale = mfirst[q] + msecond[q] / fabs(akk) * kk;
+        /* load_open is only compared with open and the circuit's volts (the
+         * reversed-current warning): its rounding counts against those */
+        double ref = q < 3 ? fabs(v[q]) : fmax(fabs(v[3]), fmax(fabs(v[2]), fabs(op->v[p->pin[0]])));
+        if (selected && scale != 0 && !(scale <= SELINV_MAX_CANCEL * ref))
+            return false;
+    }
+    return true;
+}
+
 /* port_fast with the entries from the selected inverse (selected) or from
  * refined solves; with selected, false also when a field would lose more
  * than SELINV_MAX_CANCEL to cancellation. */
@@ -1454,54 +1517,20 @@ static bool port_fast_from(ls_op *op, const ls_part *p, ls_port_result *r, bool 
         return false;
     /* rows k and s of A^-1 at columns f, t, k (a ground column's entry is 0) */
     double e[6], mag[6];
-    bool ok = port_entries(op, k, s, f, t, e, mag, selected, nomem);
-    /* rows f and t of A^-1 at columns f, t, k (a ground end's row is 0), and
-     * the scale of each entry's rounding */
+    if (!port_entries(op, k, s, f, t, e, mag, selected, nomem))
+        return false;
     double af[3] = {0, 0, 0}, at[3] = {0, 0, 0};   /* columns f, t, k */
     double mf[3] = {0, 0, 0}, mt[3] = {0, 0, 0};
-    if (ok) {
-        double *row = s == f ? af : at, *other = s == f ? at : af, sign = s == f ? -1 : 1;
-        double *mrow = s == f ? mf : mt, *mother = s == f ? mt : mf;
-        for (int j = 0; j < 3; j++) {
-            row[j] = e[3 + j];
-            mrow[j] = mag[3 + j];
-        }
-        if ((s == f ? t : f) >= 0)
-            for (int j = 0; j < 3; j++) {
-                other[j] = row[j] + (j == 2 ? sign : 0);   /* row t = row f - e_k */
-                mother[j] = mrow[j] + (j == 2 ? 1 : 0);
-            }
-    }
-    double akf = e[0], akt = e[1], akk = e[2];
-    if (!ok)
-        return false;
+    port_rows(s, f, t, e, mag, af, at, mf, mt);
+    double akk = e[2];
     /* a_kk in units of the circuit's own conductance, against the terms that
      * cancel in 1 + d^T A^-1 e_k */
     double alpha = op->g_pin > 0 ? 1 / op->g_pin : 1;
     if (!(alpha * fabs(akk) > SINGULAR_TOL * (1 + alpha * fabs(akk) + fabs(af[2]) + fabs(at[2]))))
         return false;
-    /* each field is first - b c / a_kk; the scale of its rounding is the
-     * first's scale plus the product of the factors' scales (a factor that
-     * is zero by cancellation has a scale, one zero by structure has none),
-     * widened by a_kk's own relative scale */
-    double kk = 1 + mag[2] / fabs(akk);
-    double xk = fabs(op->x[k]);
-    double first[4] = {f >= 0 ? af[0] : 0, t >= 0 ? at[1] : 0, f >= 0 ? op->x[f] : 0, t >= 0 ? op->x[t] : 0};
-    double mfirst[4] = {f >= 0 ? mf[0] : 0, t >= 0 ? mt[1] : 0, fabs(first[2]), fabs(first[3])};
-    double second[4] = {f >= 0 ? af[2] * akf / akk : 0, t >= 0 ? at[2] * akt / akk : 0,
-                        f >= 0 ? af[2] * op->x[k] / akk : 0, t >= 0 ? at[2] * op->x[k] / akk : 0};
-    double msecond[4] = {f >= 0 ? mf[2] * mag[0] : 0, t >= 0 ? mt[2] * mag[1] : 0, f >= 0 ? mf[2] * xk : 0,
-                         t >= 0 ? mt[2] * xk : 0};
     double v[4];
-    for (int q = 0; q < 4; q++) {
-        v[q] = first[q] - second[q];
-        double scale = mfirst[q] + msecond[q] / fabs(akk) * kk;
-        /* load_open is only compared with open and the circuit's volts (the
-         * reversed-current warning): its rounding counts against those */
-        double ref = q < 3 ? fabs(v[q]) : fmax(fabs(v[3]), fmax(fabs(v[2]), fabs(op->v[p->pin[0]])));
-        if (selected && scale != 0 && !(scale <= SELINV_MAX_CANCEL * ref))
-            return false;
-    }
+    if (!port_fields(op, p, e, mag, af, at, mf, mt, selected, v))
+        return false;
     r->zout = v[0];
     r->zin = v[1];
     r->open = v[2];
@@ -1845,68 +1874,64 @@ static int unknown_at(const int *u, int nu, int v)
     return -1;
 }
 
-/* The row of part i from the selected inverse, in work that follows the
- * factor near the part instead of the order of the system.  With U the
- * part's own unknowns (its nodes and branches), removing it changes A by
- * D = E_U Dm E_U^T and b by db (on U), so with x the solution and
- * g = db - D x, the Woodbury identity gives
- *     x'_node - x_node = w_U . g - w_U . C^-1 Dm (A^-1)_UU g,   C = I + Dm (A^-1)_UU,
- * where w = A^-T e_node.  Only (A^-1)_UU comes from the factor.  Returns 1
- * with the row filled, 0 when the row must take the general path (a port;
- * a removal that may leave a node floating; a stamp reaching outside U or
- * more than LS_SELINV_MAX unknowns; entries or a C whose rounding could
- * show at 1e-12), -1 out of memory. */
-static int sag_row_fast(ls_op *op, int node, int i, ls_sag_item *it, sag_fast *f, double vmax)
+/* The part's own unknowns (its nodes, then its branches) into u[], at most
+ * LS_SELINV_MAX of them.  Their number, or -1 when there are more. */
+static int part_unknowns(const ls_part *p, int *u)
 {
-    const ls_netlist *nl = op->nl;
-    const ls_part *p = &nl->parts[i];
-    if (p->kind->is_port || !(ls_removal_keeps_edges(p) || removal_floats_nothing(op, p, i)))
-        return 0;
-    int u[LS_SELINV_MAX], nu = 0;
-    int np = p->kind->npins < LS_MAX_PINS ? p->kind->npins : LS_MAX_PINS;
+    int nu = 0, np = p->kind->npins < LS_MAX_PINS ? p->kind->npins : LS_MAX_PINS;
     for (int k = 0; k < np; k++) {
         int v = ls_node_unknown(p->pin[k]);
         if (v < 0 || unknown_at(u, nu, v) >= 0)
             continue;
         if (nu == LS_SELINV_MAX)
-            return 0;
+            return -1;
         u[nu++] = v;
     }
     int nb = p->kind->branches(p);
     for (int k = 0; k < nb; k++) {
         if (nu == LS_SELINV_MAX)
-            return 0;
+            return -1;
         u[nu++] = p->branch + k;
     }
-    /* the change, as delta_triplets makes it: the stamp taken away, the
-     * removed stamp put in */
+    return nu;
+}
+
+/* The change removing part i makes, as delta_triplets makes it (the stamp
+ * taken away, the removed stamp put in), on its unknowns u: dm (row-major
+ * nu x nu) to A, db to b.  1 done, 0 when the stamp reaches other unknowns
+ * (via=), -1 out of memory. */
+static int removal_change(ls_op *op, const ls_part *p, sag_fast *f, const int *u, int nu, double *db, double *dm)
+{
     f->t.nnz = 0;
     ls_sink s = {.mode = SINK_ASSEMBLE, .t = &f->t, .b = f->b, .scale = -1};
-    ls_stamp_ctx c = {.nl = nl, .run = &op->run, .sink = &s};
+    ls_stamp_ctx c = {.nl = op->nl, .run = &op->run, .sink = &s};
     p->kind->stamp(p, &c);
     s.scale = 1;
     c.removed = true;
     p->kind->stamp(p, &c);
-    double db[LS_SELINV_MAX] = {0}, dm[LS_SELINV_MAX * LS_SELINV_MAX] = {0};
     for (int q = 0; q < nu; q++) {
         db[q] = f->b[u[q]];
         f->b[u[q]] = 0;
     }
     if (f->t.failed)
         return -1;
+    for (int k = 0; k < nu * nu; k++)
+        dm[k] = 0;
     for (size_t k = 0; k < f->t.nnz; k++) {
         int r = unknown_at(u, nu, f->t.ti[k]), q = unknown_at(u, nu, f->t.tj[k]);
         if (r < 0 || q < 0)
-            return 0;                  /* a stamp reaching other unknowns (via=) */
-        dm[r * nu + q] += f->t.tx[k];  /* row-major */
+            return 0;
+        dm[r * nu + q] += f->t.tx[k];
     }
-    double ainv[LS_SELINV_MAX * LS_SELINV_MAX], mag[LS_SELINV_MAX * LS_SELINV_MAX];
-    if (ls_selinv_block(f->si, u, nu, u, nu, ainv, mag) != 0)
-        return 0;
-    for (int k = 0; k < nu * nu; k++)
-        if (mag[k] > SELINV_MAX_CANCEL * fabs(ainv[k]) && ainv[k] != 0)
-            return 0;                  /* an entry made of cancelling terms */
-    /* g = db - Dm x_U;  y = (A^-1)_UU g;  t = Dm y;  C = I + Dm (A^-1)_UU */
+    return 1;
+}
+
+/* NODE's change w_U . (g - C^-1 Dm (A^-1)_UU g), g = db - Dm x_U,
+ * C = I + Dm (A^-1)_UU (ainv row-major), into *d.  false when C is close to
+ * singular against its terms (a removal close to cutting the circuit). */
+static bool woodbury_node_change(const ls_op *op, const sag_fast *f, const int *u, int nu, const double *db,
+                                 const double *dm, const double *ainv, double *d)
+{
     double g[LS_SELINV_MAX], y[LS_SELINV_MAX], t[LS_SELINV_MAX], cm[LS_SELINV_MAX * LS_SELINV_MAX];
     double cscale[LS_SELINV_MAX];
     int piv[LS_SELINV_MAX];
@@ -1915,17 +1940,17 @@ static int sag_row_fast(ls_op *op, int node, int i, ls_sag_item *it, sag_fast *f
         for (int q = 0; q < nu; q++)
             g[r] -= dm[r * nu + q] * op->x[u[q]];
     }
-    for (int r = 0; r < nu; r++) {
+    for (int r = 0; r < nu; r++) {   /* y = (A^-1)_UU g */
         y[r] = 0;
         for (int q = 0; q < nu; q++)
             y[r] += ainv[r * nu + q] * g[q];
     }
-    for (int r = 0; r < nu; r++) {
+    for (int r = 0; r < nu; r++) {   /* t = Dm y */
         t[r] = 0;
         for (int q = 0; q < nu; q++)
             t[r] += dm[r * nu + q] * y[q];
     }
-    for (int r = 0; r < nu; r++)          /* column-major for small_lu */
+    for (int r = 0; r < nu; r++)     /* C, column-major for small_lu */
         for (int q = 0; q < nu; q++) {
             double v = r == q, sc = r == q;
             for (int k = 0; k < nu; k++) {
@@ -1936,14 +1961,48 @@ static int sag_row_fast(ls_op *op, int node, int i, ls_sag_item *it, sag_fast *f
             cscale[q] = r == 0 ? sc : fmax(cscale[q], sc);
         }
     if (small_lu(cm, nu, piv))
-        return 0;
-    for (int q = 0; q < nu; q++)          /* a removal close to cutting the circuit */
-        if (!(fabs(cm[q * nu + q]) > 1e-3 * cscale[q]))
-            return 0;
-    small_solve(cm, nu, piv, t, 0);
-    double d = 0;
+        return false;
     for (int q = 0; q < nu; q++)
-        d += f->w[u[q]] * (g[q] - t[q]);
+        if (!(fabs(cm[q * nu + q]) > 1e-3 * cscale[q]))
+            return false;
+    small_solve(cm, nu, piv, t, 0);
+    *d = 0;
+    for (int q = 0; q < nu; q++)
+        *d += f->w[u[q]] * (g[q] - t[q]);
+    return true;
+}
+
+/* The row of part i from the selected inverse, in work that follows the
+ * factor near the part instead of the order of the system (with the pattern
+ * pass, a few lookups).  With U the part's own unknowns (its nodes and
+ * branches), removing it changes A by D = E_U Dm E_U^T and b by db (on U),
+ * so with x the solution and g = db - D x, the Woodbury identity gives
+ *     x'_node - x_node = w_U . g - w_U . C^-1 Dm (A^-1)_UU g,   C = I + Dm (A^-1)_UU,
+ * where w = A^-T e_node.  Only (A^-1)_UU comes from the factor.  Returns 1
+ * with the row filled, 0 when the row must take the general path (a port;
+ * a removal that may leave a node floating; a stamp reaching outside U or
+ * more than LS_SELINV_MAX unknowns; entries or a C whose rounding could
+ * show at 1e-12), -1 out of memory. */
+static int sag_row_fast(ls_op *op, int node, int i, ls_sag_item *it, sag_fast *f, double vmax)
+{
+    const ls_part *p = &op->nl->parts[i];
+    if (p->kind->is_port || !(ls_removal_keeps_edges(p) || removal_floats_nothing(op, p, i)))
+        return 0;
+    int u[LS_SELINV_MAX], nu = part_unknowns(p, u);
+    if (nu < 0)
+        return 0;
+    double db[LS_SELINV_MAX], dm[LS_SELINV_MAX * LS_SELINV_MAX];
+    int st = removal_change(op, p, f, u, nu, db, dm);
+    if (st <= 0)
+        return st;
+    double ainv[LS_SELINV_MAX * LS_SELINV_MAX], mag[LS_SELINV_MAX * LS_SELINV_MAX], d;
+    if (ls_selinv_block(f->si, u, nu, u, nu, ainv, mag) != 0)
+        return 0;
+    for (int k = 0; k < nu * nu; k++)
+        if (mag[k] > SELINV_MAX_CANCEL * fabs(ainv[k]) && ainv[k] != 0)
+            return 0;                  /* an entry made of cancelling terms */
+    if (!woodbury_node_change(op, f, u, nu, db, dm, ainv, &d))
+        return 0;
     *it = (ls_sag_item){.part = i, .without = op->x[node - 1] + d};
     if (isfinite(it->without) && fabs(it->without) > vmax * (1 + 1e-9)) {
         it->beyond_limit = true;

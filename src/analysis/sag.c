@@ -482,6 +482,74 @@ static int suggestions(ls_op *op, ls_sag_report *r)
     return 0;
 }
 
+/* The sum of the ports' shares (V). */
+static double sum_shares(const ls_sag_report *r)
+{
+    double sum = 0;
+    for (int k = 0; k < r->nports; k++)
+        sum += r->ports[k].share;
+    return sum;
+}
+
+/* The sag and its remainder once every port's share is known (rc: what
+ * open_every_port returned; no_z: the linearized circuit has no solution with
+ * every port open), by exact solves of the port combinations (Shapley) where
+ * substitution leaves too much unexplained.  0, or -1 no memory. */
+static int split_sag(ls_op *op, ls_sag_report *r, const ls_runs *base, int rc, bool no_z)
+{
+    if (r->nports == 0 || r->node == 0) {
+        r->alone = r->voltage;
+        r->sag = r->interaction = 0;
+    } else if (rc == 0) {
+        r->sag = r->alone - r->voltage;
+        r->interaction = r->sag - sum_shares(r);
+        /* a remainder at the rounding level of the voltages is no reason for exact solves */
+        double floor_v = 1e-9 * fmax(fabs(r->alone), fabs(r->voltage));
+        bool loose = !(fabs(r->interaction) <= fmax(INTERACTION_LIMIT * fabs(r->sag), floor_v)) &&
+                     ls_newton_needed(op->nl);
+        if (r->changed >= 0 || loose || no_z) {
+            if (shapley(op, r, base) < 0)
+                return -1;
+            if (r->method != LS_SAG_SHAPLEY && no_z)
+                r->why = "the circuit linearized at its solution has no DC solution with every port opened, "
+                         "and the exact solves of the port combinations are out of reach";
+            if (r->method == LS_SAG_SHAPLEY)
+                r->interaction = r->sag - sum_shares(r);
+        }
+    }
+    /* a remainder at the rounding level of the node's voltages is none */
+    if (fabs(r->interaction) < 64 * DBL_EPSILON * fmax(fabs(r->alone), fabs(r->voltage)))
+        r->interaction = 0;
+    return 0;
+}
+
+/* Each port's relative share and draws, the ports by |share|, the culprit
+ * (pulling the same way as the sag, by more than rounding).  0, or -1 no
+ * memory. */
+static int rank_ports(ls_op *op, ls_sag_report *r)
+{
+    incidence inc;
+    if (incidence_build(op, &inc) != 0)
+        return -1;
+    for (int k = 0; k < r->nports; k++) {
+        ls_sag_port *sp = &r->ports[k];
+        sp->share_rel = r->sag != 0 && isfinite(sp->share) ? sp->share / r->sag : NAN;
+        if (port_draws(op, sp, &inc) != 0) {
+            incidence_free(&inc);
+            return -1;
+        }
+    }
+    incidence_free(&inc);
+    qsort(r->ports, (size_t)r->nports, sizeof *r->ports, by_abs_share);
+    for (int k = 0; k < r->nports && r->sag != 0 && isfinite(r->sag); k++)
+        if (isfinite(r->ports[k].share) && r->ports[k].share * r->sag > 0 &&
+            fabs(r->ports[k].share) > 1e-9 * fabs(r->sag)) {
+            r->culprit = k;
+            break;
+        }
+    return 0;
+}
+
 /* The analysis of sag.h: ports, alone, shares (substitution, else Shapley),
  * draws, order, culprit, suggestions.  0, or -1 no memory (r freed). */
 int ls_sag_connections(ls_op *op, int node, ls_sag_report *r)
@@ -496,58 +564,8 @@ int ls_sag_connections(ls_op *op, int node, ls_sag_report *r)
         goto nomem;
     bool no_z = false;
     int rc = r->nports && node > 0 ? open_every_port(op, r, &base, &no_z) : 0;
-    if (rc < 0)
+    if (rc < 0 || split_sag(op, r, &base, rc, no_z) != 0 || rank_ports(op, r) != 0)
         goto nomem;
-    if (r->nports == 0 || node == 0) {
-        r->alone = r->voltage;
-        r->sag = r->interaction = 0;
-    } else if (rc == 0) {
-        r->sag = r->alone - r->voltage;
-        double sum = 0;
-        for (int k = 0; k < r->nports; k++)
-            sum += r->ports[k].share;
-        r->interaction = r->sag - sum;
-        /* a remainder at the rounding level of the voltages is no reason for exact solves */
-        double floor_v = 1e-9 * fmax(fabs(r->alone), fabs(r->voltage));
-        bool loose = !(fabs(r->interaction) <= fmax(INTERACTION_LIMIT * fabs(r->sag), floor_v)) &&
-                     ls_newton_needed(op->nl);
-        if (r->changed >= 0 || loose || no_z) {
-            if (shapley(op, r, &base) < 0)
-                goto nomem;
-            if (r->method != LS_SAG_SHAPLEY && no_z)
-                r->why = "the circuit linearized at its solution has no DC solution with every port opened, "
-                         "and the exact solves of the port combinations are out of reach";
-            if (r->method == LS_SAG_SHAPLEY) {
-                sum = 0;
-                for (int k = 0; k < r->nports; k++)
-                    sum += r->ports[k].share;
-                r->interaction = r->sag - sum;
-            }
-        }
-    }
-    /* a remainder at the rounding level of the node's voltages is none */
-    if (fabs(r->interaction) < 64 * DBL_EPSILON * fmax(fabs(r->alone), fabs(r->voltage)))
-        r->interaction = 0;
-    incidence inc;
-    if (incidence_build(op, &inc) != 0)
-        goto nomem;
-    for (int k = 0; k < r->nports; k++) {
-        ls_sag_port *sp = &r->ports[k];
-        sp->share_rel = r->sag != 0 && isfinite(sp->share) ? sp->share / r->sag : NAN;
-        if (port_draws(op, sp, &inc) != 0) {
-            incidence_free(&inc);
-            goto nomem;
-        }
-    }
-    incidence_free(&inc);
-    qsort(r->ports, (size_t)r->nports, sizeof *r->ports, by_abs_share);
-    /* the culprit pulls the same way as the sag, and by more than rounding */
-    for (int k = 0; k < r->nports && r->sag != 0 && isfinite(r->sag); k++)
-        if (isfinite(r->ports[k].share) && r->ports[k].share * r->sag > 0 &&
-            fabs(r->ports[k].share) > 1e-9 * fabs(r->sag)) {
-            r->culprit = k;
-            break;
-        }
     bool in_the_way = false;
     for (int k = 0; k < r->nports; k++)
         in_the_way |= isfinite(r->ports[k].share) && r->ports[k].share != 0;
