@@ -279,6 +279,21 @@ static void count_edge(void *ctx, int a, int b, bool vdef, int part)
     (*(int *)ctx)++;
 }
 
+/* Has every node a DC path to ground (by the bridges found once per
+ * solution)?  false also when they could not be found (out of memory). */
+static bool all_grounded(ls_op *op)
+{
+    if (dc_bridges(op) != 0)
+        return false;
+    int nn = op->nl->nnodes;
+    if (op->grounded_nodes == 0) {   /* counted once per solution */
+        op->grounded_nodes = 1;
+        for (int i = 0; i < nn; i++)
+            op->grounded_nodes += op->tin[i] >= 0;
+    }
+    return op->grounded_nodes - 1 == nn;
+}
+
 /* Does removing (opening) part leave every node with its DC path to ground,
  * by the bridges found once per solution?  True only when every node has a
  * path in the whole circuit and the part's single DC path is no bridge; false
@@ -286,18 +301,39 @@ static void count_edge(void *ctx, int a, int b, bool vdef, int part)
  * per what-if row. */
 static bool removal_floats_nothing(ls_op *op, const ls_part *p, int part)
 {
-    if (dc_bridges(op) != 0)
-        return false;
-    int nn = op->nl->nnodes, edges = 0;
-    if (op->grounded_nodes == 0) {   /* counted once per solution */
-        op->grounded_nodes = 1;
-        for (int i = 0; i < nn; i++)
-            op->grounded_nodes += op->tin[i] >= 0;
-    }
-    if (op->grounded_nodes - 1 != nn)
+    int edges = 0;
+    if (!all_grounded(op))
         return false;
     p->kind->edges(p, &edges, count_edge);
     return edges == 0 || (edges == 1 && !op->bridge_part[part]);
+}
+
+/* Removing a part whose only DC path is a bridge, in a circuit where every
+ * node reaches ground, floats exactly the nodes below the bridge in the
+ * search tree of dc_bridges (entry time within the child's entry and exit
+ * times): m->floating, m->island and m->nfloating from those, without a
+ * union-find over every part.  false when it does not apply or memory ran
+ * out (then the union-find decides). */
+static bool bridge_island(ls_mod *m, int part)
+{
+    ls_op *op = m->op;
+    if (!all_grounded(op) || !op->bridge_part[part])
+        return false;
+    int c = op->bridge_child[part], nn = op->nl->nnodes, count = 0;
+    int *island = malloc((size_t)nn * sizeof *island);
+    if (!island)
+        return false;
+    for (int i = 0; i < nn; i++) {
+        bool below = op->tin[i] >= op->tin[c] && op->tin[i] < op->tout[c];
+        island[i] = below ? c : 0;
+        if (below && i > 0) {
+            m->floating[i] = true;
+            count++;
+        }
+    }
+    m->island = island;
+    m->nfloating = count;
+    return true;
 }
 
 /* Mark the nodes with no DC path to ground once the part is changed.
@@ -315,6 +351,8 @@ static int find_floating(ls_mod *m, int part, ls_mod_kind kind)
         m->float_row[i] = -1;
     if (kind == MOD_REMOVE_PART && (ls_removal_keeps_edges(p) || removal_floats_nothing(m->op, p, part)))
         return 0;
+    if (kind == MOD_REMOVE_PART && bridge_island(m, part))
+        return m->nfloating;
     int *parent = malloc((size_t)nn * sizeof *parent);
     if (!parent)
         return -1;
