@@ -1,4 +1,6 @@
-/* selinv.c — single entries of A^-1 from a sparse LU (see selinv.h). */
+/* selinv.c — entries of A^-1 from a sparse LU: single ones by two sparse
+ * triangular solves, or all on the factor's closed pattern in one backward
+ * pass (see selinv.h). */
 #include "solve/selinv.h"
 
 #include <klu.h>

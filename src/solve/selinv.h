@@ -8,8 +8,11 @@
  *     (A^-1)_ij = (U^-T e_qinv(i))^T (L^-1 e_pinv(j)) / Rs_j,   (Rs_j: row j's scale)
  * two triangular solves whose right-hand sides have one nonzero, so each
  * touches only the columns reachable from it in the factor's graph
- * (Gilbert-Peierls).  No refinement: callers use it only where the factor's
- * pivots say the plain LU is accurate (ls_selinv_new's rcond). */
+ * (Gilbert-Peierls).  After ls_selinv_fill the entries on the factor's
+ * closed pattern come instead from one backward pass over the factor, and
+ * each costs a lookup (sag's what-if rows read a few per part).  No
+ * refinement: callers use it only where the factor's pivots say the plain
+ * LU is accurate (ls_selinv_new's rcond). */
 #ifndef LS_SELINV_H
 #define LS_SELINV_H
 
@@ -24,9 +27,10 @@ ls_selinv *ls_selinv_new(const ls_csc *a, double *rcond);
 
 /* out[r * nc + c] = (A^-1)_{rows[r], cols[c]} for nr, nc <= LS_SELINV_MAX
  * (unknown indices; a negative index, ground, gives 0).  mag (may be NULL)
- * gets the same entries' sums of |terms| of the final product: an entry much
- * smaller than its mag came out of cancellation, and its rounding is relative
- * to mag, not to itself.  Returns 0, or -1 when an index is out of range. */
+ * gets the same entries' sums of |terms| of the final product (from the
+ * filled pattern: the recurrences run on absolute values, a bound of the
+ * same kind): an entry much smaller than its mag came out of cancellation,
+ * and its rounding is relative to mag, not to itself.  Returns 0, or -1 when an index is out of range. */
 #define LS_SELINV_MAX 4
 int ls_selinv_block(ls_selinv *s, const int *rows, int nr, const int *cols, int nc, double *out, double *mag);
 
