@@ -19,7 +19,10 @@ after ground), for random networks (tests/ref/random_mna.py) and for a grid,
 `sag FILE NODE --what-if --format json` must agree row by row, the rows
 from the selected inverse on the factor's pattern (Takahashi's recurrences,
 the default; LOADSTACK_SELINV_PATTERN=0 turns it off) against the general
-path and against the same rows with each entry by two triangular solves: `without` to
+path and against the same rows with each entry by two triangular solves
+(and, for random networks, at a node some removal cuts off from ground too:
+every removal that leaves NODE without a DC path, by networkx's connectivity,
+on an island no controlled source touches, gives a row without a number): `without` to
 1e-12 of the circuit's largest node voltage, `delta` (a difference of two
 voltages) the same, and every flag and word equal.  Where a random
 network's two rows differ by more, the reference solver of tests/ref/random_mna.py
@@ -50,6 +53,68 @@ HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.normpath(os.path.join(HERE, "..", ".."))
 sys.path.insert(0, os.path.join(ROOT, "tests", "ref"))
 import random_mna  # noqa: E402
+import networkx  # noqa: E402
+
+# the DC paths each part kind of the random networks makes (a current source,
+# a vccs and a cccs make none; an op-amp's output is driven from ground, and
+# its input resistance joins its inputs)
+def dc_edges(part):
+    kind = part["kind"]
+    if kind in ("resistor", "voltage", "vcvs", "ccvs"):
+        return [(part["a"], part["b"])]
+    if kind == "opamp":
+        return [(None, part["out"])] + ([(part["plus"], part["minus"])] if part.get("rin", 0) > 0 else [])
+    return []
+
+
+def dc_graph(net, without=None):
+    """The DC graph of net's parts less `without` (networkx multigraph)."""
+    g = networkx.MultiGraph()
+    g.add_node(net.ground)
+    for other in net.parts:
+        if other is not without:
+            for a, b in dc_edges(other):
+                g.add_edge(net.ground if a is None else a, net.ground if b is None else b)
+    return g
+
+
+def cut_off(net, part, node):
+    g = dc_graph(net, part)
+    return not (node in g and networkx.has_path(g, node, net.ground))
+
+
+def floatable_node(net):
+    """A node that some single removal cuts off from ground, or None."""
+    for node in dc_graph(net).nodes:
+        if node != net.ground and any(cut_off(net, part, node) for part in net.parts):
+            return node
+    return None
+
+
+PINS = ("a", "b", "cplus", "cminus", "plus", "minus", "out")
+SENSED = ("vcvs", "vccs", "cccs", "ccvs", "opamp")
+
+
+def floating_rows(net, node, rows, bad, label):
+    """Every part whose removal leaves NODE without a DC path to ground
+    (networkx connectivity of the DC graph less that part), on an island
+    that no controlled source or op-amp touches (one could still set its
+    voltage through its equations: then the program solves it), must give a
+    row with no number; returns how many such rows there were."""
+    found = 0
+    for part in net.parts:
+        if not cut_off(net, part, node):
+            continue
+        g = dc_graph(net, part)
+        island = networkx.node_connected_component(g, node) if node in g else {node}
+        if any(q["kind"] in SENSED and island & {v for k, v in q.items() if k in PINS}
+               for q in net.parts if q is not part):
+            continue
+        found += 1
+        row = rows.get(part["name"])
+        if row is None or row.get("without") is not None:
+            bad.append("%s: removing %s floats %s (networkx), but the row says %r" % (label, part["name"], node, row))
+    return found
 
 REL = 1e-12
 
@@ -126,6 +191,8 @@ def compare_pair(label, binary, path, found, how, bad, counts, net):
     counts["loose" if rel > REL else "strict"] += 1
     a = {r["name"]: r for r in slow.get("what_if", [])}
     b = {r["name"]: r for r in fast.get("what_if", [])}
+    if net is not None and how is GENERAL:
+        counts["floating"] += floating_rows(net, node, b, bad, label)
     if a.keys() != b.keys():
         bad.append("%s: different rows" % label)
         return None
@@ -162,7 +229,7 @@ def main():
     args = ap.parse_args()
     files = sorted(glob.glob(os.path.join(ROOT, "circuits", "**", "*.stack"), recursive=True) +
                    glob.glob(os.path.join(ROOT, "docs", "examples", "**", "*.stack"), recursive=True))
-    bad, counts = [], {"strict": 0, "loose": 0, "rows": 0, "by_numpy": 0}
+    bad, counts = [], {"strict": 0, "loose": 0, "rows": 0, "by_numpy": 0, "floating": 0}
     circuits = 0
     for path in files:
         if compare(os.path.relpath(path, ROOT), args.binary, path, bad, counts) is not None:
@@ -179,6 +246,9 @@ def main():
                 f.write(net.text)
             if compare("random net %d" % i, args.binary, path, bad, counts, net) is not None:
                 made += 1
+                leaf = floatable_node(net)   # a node some removal cuts off: the floating rows
+                if leaf is not None:
+                    compare("random net %d at %s" % (i, leaf), args.binary, path, bad, counts, net, node=leaf)
         ran = True
         for side in (9, 24):   # 24: past the selected inverse's default size
             grid = os.path.join(tmp, "grid%d.stack" % side)
@@ -194,7 +264,9 @@ def main():
     if not ran:
         print("the grid's two reports are identical: the selected-inverse rows did not run")
         return 1
-    if made < args.random // 2 or counts["rows"] < 500:
+    print("%d rows of random networks whose removal floats NODE (networkx), each without a number" %
+          counts["floating"])
+    if made < args.random // 2 or counts["rows"] < 500 or counts["floating"] < 10:
         print("too few comparisons: the test lost its power")
         return 1
     return 1 if bad else 0
