@@ -116,61 +116,69 @@ static bool range_ok(const ls_level *r)
     return r[0].node != r[1].node || r[0].volts < r[1].volts;
 }
 
+/* What became of setting a point's values. */
+typedef enum applied { APPLIED, APPLY_REFUSED, APPLY_NOMEM } applied;
+
 /* Set the followed let to x in the sweeper's lets and recompute everything
  * that depends on it into its point run, in the order the elaborator
- * evaluated them.  Returns true, or false when a value fails the
- * elaborator's checks at x, memory ran out (the point is then partly set:
- * apply again before using it) or the record cannot be used (structural,
- * nomem, no root). */
-static bool apply(ls_sweeper *w, double x)
+ * evaluated them.  APPLY_REFUSED when a value fails the elaborator's checks
+ * at x or the record cannot be used (structural, nomem, no root);
+ * APPLY_NOMEM when memory ran out.  Either way the point is then partly
+ * set: apply again before using it. */
+static applied apply(ls_sweeper *w, double x)
 {
     const ls_letdeps *d = w->deps;
     const ls_netlist *nl = w->nl;
-    if (d->structural || d->nomem || d->root < 0 || d->root >= nl->nparams || !isfinite(x) || !point_ready(w))
-        return false;
+    if (d->structural || d->nomem || d->root < 0 || d->root >= nl->nparams || !isfinite(x))
+        return APPLY_REFUSED;
+    if (!point_ready(w))
+        return APPLY_NOMEM;
     ls_run *r = &w->point;
     w->lets[d->root] = x;
     for (int i = 0; i < d->n; i++) {
         const ls_ld_entry *e = &d->e[i];
         double v = 0;
+        bool nomem = false;
         if (e->kind != LD_QCONST && !run(d, e, w->lets, &v))
-            return false;
+            return APPLY_REFUSED;
         switch (e->kind) {
         case LD_PARAM: w->lets[e->target] = v; break;
         case LD_VALUE:
-            if (!part_value_ok(e, v) || ls_run_set_value(r, e->target, v) != 0)
-                return false;
+            if (!part_value_ok(e, v))
+                return APPLY_REFUSED;
+            nomem = ls_run_set_value(r, e->target, v) != 0;
             break;
         case LD_OPT:
-            if (!part_value_ok(e, v) || ls_run_set_opt(r, e->target, e->slot, v) != 0 ||
-                (e->is_main && ls_run_set_value(r, e->target, v) != 0))
-                return false;
+            if (!part_value_ok(e, v))
+                return APPLY_REFUSED;
+            nomem = ls_run_set_opt(r, e->target, e->slot, v) != 0 ||
+                    (e->is_main && ls_run_set_value(r, e->target, v) != 0);
             break;
         case LD_BUDGET:
-            if (!(v > 0) || ls_run_set_budget(r, e->target, v) != 0)
-                return false;
+            if (!(v > 0))
+                return APPLY_REFUSED;
+            nomem = ls_run_set_budget(r, e->target, v) != 0;
             break;
         case LD_RANGE:
             if (ls_run_set_range(r, e->target, e->slot / 2, e->slot % 2, v * e->sign) != 0)
-                return false;
+                return APPLY_NOMEM;
             /* the elaborator's check on the whole range, once both ends are known */
             if (e->slot % 2 == 1 || i + 1 == d->n || d->e[i + 1].kind != LD_RANGE ||
                 d->e[i + 1].target != e->target || d->e[i + 1].slot != e->slot + 1)
                 if (!range_ok(ls_run_range(r, &nl->parts[e->target], e->slot / 2)))
-                    return false;
+                    return APPLY_REFUSED;
             break;
-        case LD_QCONST:
-            if (ls_run_set_qconst(r, e->q, w->lets[e->target]) != 0)
-                return false;
-            break;
+        case LD_QCONST: nomem = ls_run_set_qconst(r, e->q, w->lets[e->target]) != 0; break;
         }
+        if (nomem)
+            return APPLY_NOMEM;
     }
-    return true;
+    return APPLIED;
 }
 
 bool ls_sweep_set_value(ls_sweeper *w, double x)
 {
-    return apply(w, x);
+    return apply(w, x) == APPLIED;
 }
 
 /* Part p as run r has it: a copy of its record whose options and ranges are
@@ -258,7 +266,14 @@ static bool shape_kept(const ls_sweeper *w)
 
 int ls_sweeper_solve(ls_sweeper *w, double x, bool fresh)
 {
-    if (!ls_sweep_set_value(w, x)) {
+    applied set = apply(w, x);
+    if (set == APPLY_NOMEM) {   /* not a point to elaborate afresh: the study cannot go on */
+        ls_error(w->nl->diags, LS_NOLOC, "out of memory setting the values of a sweep point");
+        w->op.nomem = true;
+        w->ready = false;
+        return LS_EXIT_UNSOLVABLE;
+    }
+    if (set != APPLIED) {
         w->ready = false;
         return LS_SWEEP_REELABORATE;
     }
