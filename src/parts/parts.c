@@ -1274,28 +1274,6 @@ const char *ls_kind_renamed(const ls_kind *k, const char *name)
     return NULL;
 }
 
-int ls_edit_distance(const char *a, const char *b)
-{
-    size_t la = strlen(a), lb = strlen(b);
-    if (la > 63 || lb > 63)
-        return 99;
-    int row[64];
-    for (size_t j = 0; j <= lb; j++)
-        row[j] = (int)j;
-    for (size_t i = 1; i <= la; i++) {
-        int prev = row[0];
-        row[0] = (int)i;
-        for (size_t j = 1; j <= lb; j++) {
-            int cur = row[j];
-            int sub = prev + (a[i - 1] != b[j - 1]);
-            int del = row[j] + 1, ins = row[j - 1] + 1;
-            row[j] = sub < del ? (sub < ins ? sub : ins) : (del < ins ? del : ins);
-            prev = cur;
-        }
-    }
-    return row[lb];
-}
-
 void ls_part_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative)
 {
     /* idx[] and coef[] are read only below n: clearing them too was a fifth of

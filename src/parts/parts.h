@@ -6,6 +6,7 @@
 
 #include "netlist/netlist.h"
 #include "netlist/run.h"
+#include "base/suggest.h"   /* the did-you-mean of unknown kinds and options (elab.c) */
 
 #include <assert.h>
 
@@ -315,8 +316,5 @@ double ls_ntc_body(const ls_part *p, const ls_run *run);
 #define LS_JUNCTION_IMAX 1e3     /* A: past this the exponential is continued linearly */
 #define LS_GMIN 1e-12            /* S: always across every junction (keeps a cut-off node defined) */
 #define LS_THERMAL_VOLTAGE (1.380649e-23 * 298.15 / 1.602176634e-19) /* V: kT/q at 25 degC (SI 2019 exact k, q) */
-
-/* Levenshtein distance, capped; used for "did you mean" suggestions. */
-int ls_edit_distance(const char *a, const char *b);
 
 #endif
