@@ -200,51 +200,6 @@ static ls_part part_in(const ls_run *r, const ls_part *p, double *optbuf, ls_lev
     return v;
 }
 
-/* A part's DC edges, as its kind's edges() gives them. */
-#define SHAPE_EDGES 8
-typedef struct shape {
-    int n;
-    struct { int a, b; bool vdef; } e[SHAPE_EDGES];
-    bool overflow;
-} shape;
-
-static void shape_edge(void *ctx, int a, int b, bool vdef, int part)
-{
-    (void)part;
-    shape *s = ctx;
-    if (s->n == SHAPE_EDGES) {
-        s->overflow = true;
-        return;
-    }
-    s->e[s->n].a = a;
-    s->e[s->n].b = b;
-    s->e[s->n++].vdef = vdef;
-}
-
-/* Do parts p and q (one part as elaborated and in a run) have the same
- * shape: branch unknowns, DC edges, pins that draw current, linearity,
- * monotonicity? */
-static bool same_shape(const ls_part *p, const ls_part *q)
-{
-    const ls_kind *k = p->kind;
-    if ((k->branches && k->branches(p) != k->branches(q)) ||
-        (k->other_pins && k->other_pins(p) != k->other_pins(q)) ||
-        (k->is_nonlinear && k->is_nonlinear(p) != k->is_nonlinear(q)) ||
-        (k->monotone && k->monotone(p) != k->monotone(q)))
-        return false;
-    if (!k->edges)
-        return true;
-    shape a = {0}, b = {0};
-    k->edges(p, &a, shape_edge);
-    k->edges(q, &b, shape_edge);
-    if (a.overflow || b.overflow || a.n != b.n)
-        return false;
-    for (int i = 0; i < a.n; i++)
-        if (a.e[i].a != b.e[i].a || a.e[i].b != b.e[i].b || a.e[i].vdef != b.e[i].vdef)
-            return false;
-    return true;
-}
-
 /* Do the parts the let reaches keep, at the point, the shape they were
  * elaborated with (a junction's rbulk= from zero to positive adds a branch
  * unknown, a source's rint= from zero makes its edge conductive)?  The
@@ -258,7 +213,7 @@ static bool shape_kept(const ls_sweeper *w)
     for (int i = 0; i < d->nparts; i++) {
         const ls_part *p = &w->nl->parts[d->parts[i]];
         ls_part q = part_in(&w->point, p, opt, range);
-        if (!same_shape(p, &q))
+        if (!ls_part_same_shape(p, &q))
             return false;
     }
     return true;

@@ -971,9 +971,10 @@ static bool ntc_update(const ls_part *p, ls_run *run, const double *x)
 /* Always one branch, so flipping the state keeps the structure:
  * closed V(a) - V(b) = ron I; open I = 0, or V(a) - V(b) = roff I with roff=. */
 
-static bool switch_closed(const ls_part *p)
+/* Is the switch closed in run (NULL: as elaborated)? */
+static bool switch_closed(const ls_run *run, const ls_part *p)
 {
-    return ls_part_opt(p, "state", 1) != 0;
+    return ls_part_opt_in(run, p, "state", 1) != 0;
 }
 
 /* Branch row by state, its pattern kept for both. */
@@ -987,20 +988,20 @@ static void switch_stamp(const ls_part *p, ls_stamp_ctx *c)
     keep_a(c->sink, k, t, 0);
     keep_a(c->sink, k, k, 0);
     bool roff = ls_part_has(p, ls_kind_opt(p->kind, "roff"));
-    if (c->removed || (!switch_closed(p) && !roff)) {
+    if (c->removed || (!switch_closed(c->run, p) && !roff)) {
         branch_open(c->sink, k);
         return;
     }
     ls_sink_a(c->sink, k, f, 1);
     ls_sink_a(c->sink, k, t, -1);
-    ls_sink_a(c->sink, k, k, -(switch_closed(p) ? ls_part_opt_in(c->run, p, "ron", 0) : ls_part_opt_in(c->run, p, "roff", 0)));
+    ls_sink_a(c->sink, k, k, -(switch_closed(c->run, p) ? ls_part_opt_in(c->run, p, "ron", 0) : ls_part_opt_in(c->run, p, "roff", 0)));
 }
 
 /* Closed: a (voltage-defined when ron = 0) edge; open: none unless roff=. */
 static void switch_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 {
     bool roff = ls_part_has(p, ls_kind_opt(p->kind, "roff"));
-    if (switch_closed(p))
+    if (switch_closed(NULL, p))
         emit(ctx, p->pin[0], p->pin[1], ls_part_opt(p, "ron", 0) == 0, -1);
     else if (roff)
         emit(ctx, p->pin[0], p->pin[1], false, -1);
@@ -1272,6 +1273,48 @@ const char *ls_kind_renamed(const ls_kind *k, const char *name)
         if (strcmp(k->renamed[i].old, name) == 0)
             return k->renamed[i].now;
     return NULL;
+}
+
+/* A part's DC edges as its kind's edges() gives them (ls_part_same_shape). */
+#define SHAPE_EDGES 8
+typedef struct shape {
+    int n;
+    struct { int a, b; bool vdef; } e[SHAPE_EDGES];
+    bool overflow;
+} shape;
+
+static void shape_edge(void *ctx, int a, int b, bool vdef, int part)
+{
+    (void)part;
+    shape *s = ctx;
+    if (s->n == SHAPE_EDGES) {
+        s->overflow = true;
+        return;
+    }
+    s->e[s->n].a = a;
+    s->e[s->n].b = b;
+    s->e[s->n++].vdef = vdef;
+}
+
+bool ls_part_same_shape(const ls_part *p, const ls_part *q)
+{
+    const ls_kind *k = p->kind;
+    if (q->kind != k || (k->branches && k->branches(p) != k->branches(q)) ||
+        (k->other_pins && k->other_pins(p) != k->other_pins(q)) ||
+        (k->is_nonlinear && k->is_nonlinear(p) != k->is_nonlinear(q)) ||
+        (k->monotone && k->monotone(p) != k->monotone(q)))
+        return false;
+    if (!k->edges)
+        return true;
+    shape a = {0}, b = {0};
+    k->edges(p, &a, shape_edge);
+    k->edges(q, &b, shape_edge);
+    if (a.overflow || b.overflow || a.n != b.n)
+        return false;
+    for (int i = 0; i < a.n; i++)
+        if (a.e[i].a != b.e[i].a || a.e[i].b != b.e[i].b || a.e[i].vdef != b.e[i].vdef)
+            return false;
+    return true;
 }
 
 void ls_part_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative)

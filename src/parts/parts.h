@@ -278,6 +278,13 @@ double ls_part_opt(const ls_part *p, const char *name, double dflt);
  * when not given; run NULL: as elaborated. */
 double ls_part_opt_in(const ls_run *run, const ls_part *p, const char *name, double dflt);
 
+/* Do parts p and q (one part as elaborated twice, or as elaborated and with
+ * a run's options: same pins) have the same shape: the same branch
+ * unknowns, DC edges, pins that draw current, linearity and monotonicity?
+ * What the table's functions without a run read of a part is its shape, so
+ * a study may change a part's values in a run only while it keeps it. */
+bool ls_part_same_shape(const ls_part *p, const ls_part *q);
+
 /* Part current as a linear form in run (recursing through via=); depth guards cycles. */
 void ls_part_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative);
 double ls_lin_eval(const ls_lin *l, const double *x);
