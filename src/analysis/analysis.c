@@ -751,8 +751,7 @@ static double prop_value(ls_op *op, int part, ls_prop prop)
 /* The double domain of ls_q_walk: plain values, NaN for undefined. */
 static int d_const(void *ctx, const ls_q *q, void *out)
 {
-    (void)ctx;
-    *(double *)out = q->value;
+    *(double *)out = ls_run_qconst(&((ls_op *)ctx)->run, q);   /* a sweep may set a let inside it */
     return 0;
 }
 

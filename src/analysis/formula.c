@@ -950,7 +950,75 @@ static void numeric_stamp(fx *F, sys *S, const ls_part *p, bool removed)
     ls_triplets_free(&t);
 }
 
-/* Stamp part i (removed: a port opened). */
+/* A resistor's rows: the conductance 1/v between f and t. */
+static void exact_resistor(fx *F, sys *S, int f, int t, const rf *v)
+{
+    rf g, one;
+    rf_init(F, &g);
+    rf_init(F, &one);
+    rf_set_si(F, &one, 1);
+    rf_div(F, &g, &one, v);
+    conductance(F, S, f, t, &g);
+    rf_clear(F, &g);
+    rf_clear(F, &one);
+}
+
+/* A port's rows: a zero-volt branch; removed, opened, or with its load end
+ * held at F->hold. */
+static void exact_port(fx *F, sys *S, const ls_part *p, bool removed)
+{
+    int f = NU(p, 0), t = NU(p, 1), k = p->branch;
+    if (removed && F->hold) {
+        /* opened with its load end held at its loaded voltage: the driver
+         * end is disconnected, the branch row reads V(load) = held value
+         * and the branch current is what holds it there */
+        add_a_si(F, S, t, k, -1);
+        add_a_si(F, S, k, t, 1);
+        add_b(F, S, k, F->hold, 1);
+        return;
+    }
+    branch(F, S, f, t, k, false);
+    if (removed) {
+        add_a_si(F, S, k, k, 1);
+    } else {
+        add_a_si(F, S, k, f, 1);
+        add_a_si(F, S, k, t, -1);
+    }
+}
+
+/* A switch's rows by its state: ron (or roff) as numbers, or opened. */
+static void exact_switch(fx *F, sys *S, const ls_part *p)
+{
+    int f = NU(p, 0), t = NU(p, 1), k = p->branch;
+    bool closed = opt(p, "state", 1) != 0, roff = ls_part_has(p, ls_kind_opt(p->kind, "roff"));
+    branch(F, S, f, t, k, false);
+    if (!closed && !roff) {
+        add_a_si(F, S, k, k, 1);
+    } else {
+        add_a_si(F, S, k, f, 1);
+        add_a_si(F, S, k, t, -1);
+        add_a_d(F, S, k, k, -(closed ? opt(p, "ron", 0) : opt(p, "roff", 0)));
+    }
+}
+
+/* An ADC input's rows: rin= to ground and leak= out of its pin, as numbers. */
+static void exact_adc(fx *F, sys *S, const ls_part *p)
+{
+    int f = NU(p, 0);
+    double rin = opt(p, "rin", 0);
+    if (rin > 0) {
+        rf g;
+        rf_init(F, &g);
+        inv_double(F, &g, rin);
+        add_a(F, S, f, f, &g, 1);
+        rf_clear(F, &g);
+    }
+    add_b_d(F, S, f, -opt(p, "leak", 0));
+}
+
+/* Stamp part i (removed: a port opened): the exact rows of its kind's
+ * ls_exact, the same rows as its numeric stamp, its value the symbol or
+ * fraction F->pval[i]; a part not taken exactly through its numeric stamp. */
 static void stamp_part(fx *F, sys *S, int i, bool removed)
 {
     const ls_part *p = &F->nl->parts[i];
@@ -961,17 +1029,7 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
         return;
     }
     switch (p->kind->exact) {
-    case LS_EXACT_RESISTOR: {
-        rf g, one;
-        rf_init(F, &g);
-        rf_init(F, &one);
-        rf_set_si(F, &one, 1);
-        rf_div(F, &g, &one, v);
-        conductance(F, S, f, t, &g);
-        rf_clear(F, &g);
-        rf_clear(F, &one);
-        break;
-    }
+    case LS_EXACT_RESISTOR: exact_resistor(F, S, f, t, v); break;
     case LS_EXACT_VSOURCE:
         branch(F, S, f, t, k, true);
         add_a_d(F, S, k, k, source_rint(p));
@@ -981,24 +1039,7 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
         add_b(F, S, f, v, -1);
         add_b(F, S, t, v, 1);
         break;
-    case LS_EXACT_PORT:
-        if (removed && F->hold) {
-            /* opened with its load end held at its loaded voltage: the driver
-             * end is disconnected, the branch row reads V(load) = held value
-             * and the branch current is what holds it there */
-            add_a_si(F, S, t, k, -1);
-            add_a_si(F, S, k, t, 1);
-            add_b(F, S, k, F->hold, 1);
-            return;
-        }
-        branch(F, S, f, t, k, false);
-        if (removed) {
-            add_a_si(F, S, k, k, 1);
-        } else {
-            add_a_si(F, S, k, f, 1);
-            add_a_si(F, S, k, t, -1);
-        }
-        break;
+    case LS_EXACT_PORT: exact_port(F, S, p, removed); break;
     case LS_EXACT_VCVS:
         branch(F, S, f, t, k, true);
         add_a(F, S, k, NU(p, 2), v, -1);
@@ -1010,43 +1051,15 @@ static void stamp_part(fx *F, sys *S, int i, bool removed)
         add_a(F, S, t, NU(p, 2), v, -1);
         add_a(F, S, t, NU(p, 3), v, 1);
         break;
-    case LS_EXACT_CCCS:
-        via_stamp(F, S, p, f, t, -1);
-        break;
+    case LS_EXACT_CCCS: via_stamp(F, S, p, f, t, -1); break;
     case LS_EXACT_CCVS:
         branch(F, S, f, t, k, true);
         via_stamp(F, S, p, f, t, k);
         break;
-    case LS_EXACT_OPAMP:
-        opamp_exact(F, S, p, v);
-        break;
-    case LS_EXACT_SWITCH: {
-        bool closed = opt(p, "state", 1) != 0, roff = ls_part_has(p, ls_kind_opt(p->kind, "roff"));
-        branch(F, S, f, t, k, false);
-        if (!closed && !roff) {
-            add_a_si(F, S, k, k, 1);
-        } else {
-            add_a_si(F, S, k, f, 1);
-            add_a_si(F, S, k, t, -1);
-            add_a_d(F, S, k, k, -(closed ? opt(p, "ron", 0) : opt(p, "roff", 0)));
-        }
-        break;
-    }
-    case LS_EXACT_ADC: {
-        double rin = opt(p, "rin", 0);
-        if (rin > 0) {
-            rf g;
-            rf_init(F, &g);
-            inv_double(F, &g, rin);
-            add_a(F, S, f, f, &g, 1);
-            rf_clear(F, &g);
-        }
-        add_b_d(F, S, f, -opt(p, "leak", 0));
-        break;
-    }
-    case LS_EXACT_NONE:
-        assert(!"a part of a kind without exact stamps is marked exact");
-        break;
+    case LS_EXACT_OPAMP: opamp_exact(F, S, p, v); break;
+    case LS_EXACT_SWITCH: exact_switch(F, S, p); break;
+    case LS_EXACT_ADC: exact_adc(F, S, p); break;
+    case LS_EXACT_NONE: assert(!"a part of a kind without exact stamps is marked exact"); break;
     }
 }
 
@@ -1085,76 +1098,105 @@ static void lf_add_si(fx *F, lform *l, int j, slong v)
     rf_clear(F, &t);
 }
 
-/* Part current (A, FROM -> TO) as a linear form, added to l. */
+/* Adds the current of a conductance 1/v from f to t: V(f)/v - V(t)/v. */
+static void lform_resistor(fx *F, lform *l, int f, int t, const rf *v)
+{
+    rf g, one;
+    rf_init(F, &g);
+    rf_init(F, &one);
+    rf_set_si(F, &one, 1);
+    rf_div(F, &g, &one, v);
+    lf_add(F, l, f, &g, 1);
+    lf_add(F, l, t, &g, -1);
+    rf_clear(F, &g);
+    rf_clear(F, &one);
+}
+
+/* Adds a current-controlled current source's current: v times its via=
+ * part's current. */
+static void lform_cccs(fx *F, lform *l, const ls_part *p, const rf *v, int depth)
+{
+    lform m;
+    lform_init(F, &m);
+    if (m.c && p->ref >= 0) {
+        part_lform(F, p->ref, &m, depth + 1);
+        rf t1;
+        rf_init(F, &t1);
+        for (int j = 0; j < F->n; j++) {
+            rf_mul(F, &t1, v, &m.c[j]);
+            lf_add(F, l, j, &t1, 1);
+        }
+        rf_mul(F, &t1, v, &m.c0);
+        rf_addsub(F, &l->c0, &l->c0, &t1, 1);
+        rf_clear(F, &t1);
+    }
+    lform_clear(F, &m);
+}
+
+/* Adds the constant c (a number) to l. */
+static void lform_constant(fx *F, lform *l, double c)
+{
+    rf k;
+    rf_init(F, &k);
+    rf_set_double(F, &k, c);
+    rf_addsub(F, &l->c0, &l->c0, &k, 1);
+    rf_clear(F, &k);
+}
+
+/* Adds an ADC input's current: V(in)/rin + leak, as numbers. */
+static void lform_adc(fx *F, lform *l, const ls_part *p)
+{
+    double rin = opt(p, "rin", 0);
+    if (rin > 0) {
+        rf g;
+        rf_init(F, &g);
+        inv_double(F, &g, rin);
+        lf_add(F, l, NU(p, 0), &g, 1);
+        rf_clear(F, &g);
+    }
+    lform_constant(F, l, opt(p, "leak", 0));
+}
+
+/* Adds a part's current as its numeric linear form at the operating point. */
+static void lform_numeric(fx *F, lform *l, const ls_part *p)
+{
+    ls_lin nl;
+    ls_part_current(p, &F->op->run, &nl, false);
+    for (int i = 0; i < nl.n; i++) {
+        rf c;
+        rf_init(F, &c);
+        rf_set_double(F, &c, nl.coef[i]);
+        lf_add(F, l, nl.idx[i], &c, 1);
+        rf_clear(F, &c);
+    }
+    lform_constant(F, l, nl.constant);
+}
+
+/* Part current (A, FROM -> TO) as a linear form, added to l: exact for the
+ * kinds stamped exactly (the current of each stamp_part's rows), else the
+ * numeric form at the operating point. */
 static void part_lform(fx *F, int part, lform *l, int depth)
 {
     const ls_part *p = &F->nl->parts[part];
     const rf *v = &F->pval[part];
-    int f = NU(p, 0), t = NU(p, 1);
     if (depth > 32)
         return;
-    if (F->pexact[part] && p->kind->exact == LS_EXACT_RESISTOR) {
-        rf g, one;
-        rf_init(F, &g);
-        rf_init(F, &one);
-        rf_set_si(F, &one, 1);
-        rf_div(F, &g, &one, v);
-        lf_add(F, l, f, &g, 1);
-        lf_add(F, l, t, &g, -1);
-        rf_clear(F, &g);
-        rf_clear(F, &one);
-    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_ISOURCE) {
+    ls_exact e = F->pexact[part] ? p->kind->exact : LS_EXACT_NONE;
+    if (e == LS_EXACT_RESISTOR) {
+        lform_resistor(F, l, NU(p, 0), NU(p, 1), v);
+    } else if (e == LS_EXACT_ISOURCE) {
         rf_addsub(F, &l->c0, &l->c0, v, 1);
-    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_VCCS) {
+    } else if (e == LS_EXACT_VCCS) {
         lf_add(F, l, NU(p, 2), v, 1);
         lf_add(F, l, NU(p, 3), v, -1);
-    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_CCCS) {
-        lform m;
-        lform_init(F, &m);
-        if (m.c && p->ref >= 0) {
-            part_lform(F, p->ref, &m, depth + 1);
-            rf t1;
-            rf_init(F, &t1);
-            for (int j = 0; j < F->n; j++) {
-                rf_mul(F, &t1, v, &m.c[j]);
-                lf_add(F, l, j, &t1, 1);
-            }
-            rf_mul(F, &t1, v, &m.c0);
-            rf_addsub(F, &l->c0, &l->c0, &t1, 1);
-            rf_clear(F, &t1);
-        }
-        lform_clear(F, &m);
-    } else if (F->pexact[part] && p->kind->exact == LS_EXACT_ADC) {
-        double rin = opt(p, "rin", 0);
-        if (rin > 0) {
-            rf g;
-            rf_init(F, &g);
-            inv_double(F, &g, rin);
-            lf_add(F, l, f, &g, 1);
-            rf_clear(F, &g);
-        }
-        rf c;
-        rf_init(F, &c);
-        rf_set_double(F, &c, opt(p, "leak", 0));
-        rf_addsub(F, &l->c0, &l->c0, &c, 1);
-        rf_clear(F, &c);
+    } else if (e == LS_EXACT_CCCS) {
+        lform_cccs(F, l, p, v, depth);
+    } else if (e == LS_EXACT_ADC) {
+        lform_adc(F, l, p);
     } else if (F->pexact[part] && p->branch >= 0) {
         lf_add_si(F, l, p->branch, 1);
     } else {
-        ls_lin nl;
-        ls_part_current(p, &F->op->run, &nl, false);
-        for (int i = 0; i < nl.n; i++) {
-            rf c;
-            rf_init(F, &c);
-            rf_set_double(F, &c, nl.coef[i]);
-            lf_add(F, l, nl.idx[i], &c, 1);
-            rf_clear(F, &c);
-        }
-        rf c;
-        rf_init(F, &c);
-        rf_set_double(F, &c, nl.constant);
-        rf_addsub(F, &l->c0, &l->c0, &c, 1);
-        rf_clear(F, &c);
+        lform_numeric(F, l, p);
     }
 }
 
@@ -1503,6 +1545,29 @@ static int port_z(fx *F, int part, ls_prop prop, bool held, lform *l, rf *out, c
     return solve_in(F, part, prop == PROP_ZOUT ? ln : dn, l, ls_node_unknown(node), out, why);
 }
 
+/* A field of port `part` made of two others: sag (open - loaded), the
+ * relative sag (that over open) or the ratio (zin / zout), into out; *why
+ * set when it has no finite formula.  An exit code. */
+static int port_pair(fx *F, int part, ls_prop prop, rf *out, const char *text, const char **why)
+{
+    bool sag = prop == PROP_SAG || prop == PROP_SAG_REL;
+    rf a, b;
+    rf_init(F, &a);
+    rf_init(F, &b);
+    int code = port_prop_voltage(F, part, sag ? PROP_OPEN : PROP_ZIN, &a, text);
+    if (code == LS_EXIT_OK)
+        code = port_prop_voltage(F, part, sag ? PROP_LOADED : PROP_ZOUT, &b, text);
+    if (code == LS_EXIT_OK && sag)
+        rf_addsub(F, out, &a, &b, -1);
+    if (code == LS_EXIT_OK && prop == PROP_SAG_REL && !rf_div(F, out, out, &a))
+        *why = "the open voltage is zero";
+    if (code == LS_EXIT_OK && prop == PROP_RATIO && !rf_div(F, out, &a, &b))
+        *why = "zout is zero";
+    rf_clear(F, &a);
+    rf_clear(F, &b);
+    return code;
+}
+
 /* The fields of a voltage-mode port (and zout, zin, open voltage of any). */
 static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
@@ -1517,9 +1582,6 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
         lform_clear(F, &l);   /* c0 was made even when c was not */
         return LS_EXIT_UNSOLVABLE;
     }
-    rf a, b;
-    rf_init(F, &a);
-    rf_init(F, &b);
     switch (prop) {
     case PROP_LOADED:
         node_form(F, &l, dn, 1);
@@ -1527,33 +1589,13 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
         break;
     case PROP_OPEN:
         node_form(F, &l, dn, 1);
-        if (held) {
-            code = held_solve(F, part, &l, -1, out, &why);
-            break;
-        }
-        code = solve_in(F, part, ln, &l, -1, out, &why);
+        code = held ? held_solve(F, part, &l, -1, out, &why) : solve_in(F, part, ln, &l, -1, out, &why);
         break;
     case PROP_ZOUT:
-    case PROP_ZIN:
-        code = port_z(F, part, prop, held, &l, out, &why);
-        break;
+    case PROP_ZIN: code = port_z(F, part, prop, held, &l, out, &why); break;
     case PROP_SAG:
     case PROP_SAG_REL:
-        code = port_prop_voltage(F, part, PROP_OPEN, &a, text);
-        if (code == LS_EXIT_OK)
-            code = port_prop_voltage(F, part, PROP_LOADED, &b, text);
-        if (code == LS_EXIT_OK)
-            rf_addsub(F, out, &a, &b, -1);
-        if (code == LS_EXIT_OK && prop == PROP_SAG_REL && !rf_div(F, out, out, &a))
-            why = "the open voltage is zero";
-        break;
-    case PROP_RATIO:
-        code = port_prop_voltage(F, part, PROP_ZIN, &a, text);
-        if (code == LS_EXIT_OK)
-            code = port_prop_voltage(F, part, PROP_ZOUT, &b, text);
-        if (code == LS_EXIT_OK && !rf_div(F, out, &a, &b))
-            why = "zout is zero";
-        break;
+    case PROP_RATIO: code = port_pair(F, part, prop, out, text, &why); break;
     default:
         why = "formula does not treat this property";
         code = LS_EXIT_USAGE;
@@ -1563,8 +1605,6 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
         code = LS_EXIT_USAGE;
     if (why)
         ls_error(F->d, F->qloc, "formula: '%s' has no finite formula: %s", text, why);
-    rf_clear(F, &a);
-    rf_clear(F, &b);
     lform_clear(F, &l);
     return code;
 }

@@ -1258,7 +1258,7 @@ static int port_adc(ls_op *op, int pi)
             if (p->kind != adc || node <= 0)
                 continue;
             /* as ls_port_adc: strictly smaller than the best so far (from inf) */
-            if (ls_adc_lsb(p) < (*best < 0 ? INFINITY : ls_adc_lsb(&nl->parts[*best])))
+            if (ls_adc_lsb_in(&op->run, p) < (*best < 0 ? INFINITY : ls_adc_lsb_in(&op->run, &nl->parts[*best])))
                 *best = i;
         }
     }
@@ -1276,17 +1276,20 @@ static void port_budget(ls_op *op, int pi, ls_port_result *r)
     int bi = ls_kind_opt(p->kind, "budget");
     r->adc = r->current_mode ? -1 : port_adc(op, pi);
     const ls_budget *b = NULL;
+    double bv = NAN;   /* its value, in its unit: a port's as the run has it (a sweep may set it) */
     r->budget = NAN;
     r->budget_from = LS_BUDGET_FROM_NONE;
     if (ls_part_has(p, bi)) {
         b = &nl->budgets[(int)p->opt[bi]];
+        bv = ls_run_budget(&op->run, (int)p->opt[bi]);
         r->budget_from = LS_BUDGET_FROM_PORT;
     } else if (nl->has_rule_sag && (nl->rule_sag.unit == LS_BUDGET_FRACTION ||
                                     nl->rule_sag.unit == (r->current_mode ? LS_BUDGET_AMP : LS_BUDGET_VOLT))) {
         b = &nl->rule_sag;
+        bv = b->value;
         r->budget_from = LS_BUDGET_FROM_RULE;
     } else if (r->adc >= 0) {
-        r->budget = 0.5 * ls_adc_lsb(&nl->parts[r->adc]);
+        r->budget = 0.5 * ls_adc_lsb_in(&op->run, &nl->parts[r->adc]);
         r->budget_from = LS_BUDGET_FROM_ADC;
         return;
     }
@@ -1294,9 +1297,9 @@ static void port_budget(ls_op *op, int pi, ls_port_result *r)
         return;
     switch (b->unit) {
     case LS_BUDGET_VOLT:
-    case LS_BUDGET_AMP: r->budget = b->value; break;
-    case LS_BUDGET_FRACTION: r->budget = isfinite(r->open) ? b->value * fabs(r->open) : NAN; break;
-    case LS_BUDGET_LSB: r->budget = r->adc >= 0 ? b->value * ls_adc_lsb(&nl->parts[r->adc]) : NAN; break;
+    case LS_BUDGET_AMP: r->budget = bv; break;
+    case LS_BUDGET_FRACTION: r->budget = isfinite(r->open) ? bv * fabs(r->open) : NAN; break;
+    case LS_BUDGET_LSB: r->budget = r->adc >= 0 ? bv * ls_adc_lsb_in(&op->run, &nl->parts[r->adc]) : NAN; break;
     }
 }
 
@@ -1769,8 +1772,8 @@ static bool crosses_limit(const ls_op *op, const double *x, const double *vv, in
         } else if (p->kind->is_junction && p->slot >= 0) {
             bool beyond;
             double v1 = ls_junction_v(p, x), v0 = ls_run_state(&op->run, p)->op_v, h = 1e-4;
-            double g1 = (ls_junction_current(p, v1 + h, &beyond) - ls_junction_current(p, v1 - h, &beyond)) / (2 * h);
-            double g0 = (ls_junction_current(p, v0 + h, &beyond) - ls_junction_current(p, v0 - h, &beyond)) / (2 * h);
+            double g1 = (ls_junction_current(&op->run, p, v1 + h, &beyond) - ls_junction_current(&op->run, p, v1 - h, &beyond)) / (2 * h);
+            double g0 = (ls_junction_current(&op->run, p, v0 + h, &beyond) - ls_junction_current(&op->run, p, v0 - h, &beyond)) / (2 * h);
             if (g0 > 0 && g1 > 0 && (g1 > 10 * g0 || g0 > 10 * g1)) {
                 snprintf(limit, n, "%s %s", p->name, g1 > g0 ? "on" : "off");
                 return true;

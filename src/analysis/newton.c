@@ -269,9 +269,9 @@ static int probe_rails(ls_op *op, bool *moving)
             !ls_part_has(p, ls_kind_opt(p->kind, "rails")))
             continue;
         ls_run_state(&op->run, p)->probed = true;
-        double hr = ls_part_opt(p, "headroom", 0), vout = op->v[p->pin[2]];
-        double vhi = ls_level_v(&p->range[OA_RAILS][1], op->v) - hr;
-        double vlo = ls_level_v(&p->range[OA_RAILS][0], op->v) + hr;
+        double hr = ls_part_opt_in(&op->run, p, "headroom", 0), vout = op->v[p->pin[2]];
+        double vhi = ls_level_v(&ls_run_range(&op->run, p, OA_RAILS)[1], op->v) - hr;
+        double vlo = ls_level_v(&ls_run_range(&op->run, p, OA_RAILS)[0], op->v) + hr;
         if (!(vout < vhi - 1e-6 * (1 + fabs(vhi)) && vout > vlo + 1e-6 * (1 + fabs(vlo))))
             continue;
         ls_run_state(&op->run, p)->state = LS_LIM_RAIL_HIGH;
@@ -428,7 +428,7 @@ static int beyond_check(ls_op *op)
         if (!nonlinear(p) || !p->kind->is_junction)
             continue;
         bool beyond;
-        double cur = ls_junction_current(p, ls_run_state(&op->run, p)->op_v, &beyond);
+        double cur = ls_junction_current(&op->run, p, ls_run_state(&op->run, p)->op_v, &beyond);
         if (fabs(ls_run_state(&op->run, p)->op_v) > JUNCTION_VMAX) {
             n++;
             ls_error(nl->diags, p->loc,
@@ -553,10 +553,10 @@ double ls_opamp_dissipation(const ls_op *op, int i)
     const ls_part *p = &op->nl->parts[i];
     if (!p->kind->is_opamp || !ls_part_has(p, ls_kind_opt(p->kind, "rails")))
         return NAN;
-    double hi = ls_level_v(&p->range[OA_RAILS][1], op->v), lo = ls_level_v(&p->range[OA_RAILS][0], op->v);
+    double hi = ls_level_v(&ls_run_range(&op->run, p, OA_RAILS)[1], op->v), lo = ls_level_v(&ls_run_range(&op->run, p, OA_RAILS)[0], op->v);
     double vout = op->v[p->pin[2]], cur = op->ipart[i];
     double stage = cur >= 0 ? (hi - vout) * cur : (vout - lo) * -cur;
-    return stage + ls_part_opt(p, "iq", 0) * (hi - lo);
+    return stage + ls_part_opt_in(&op->run, p, "iq", 0) * (hi - lo);
 }
 
 /* rating= (derated), vmax= and imax= of part i. */
@@ -573,23 +573,23 @@ static void rating_warnings(ls_op *op, int i)
     double pw = fabs(op->ppart[i]);
     if (p->kind->is_opamp && isfinite(ls_opamp_dissipation(op, i)))
         pw = fabs(ls_opamp_dissipation(op, i));
-    if (ls_part_has(p, ri) && pw > p->opt[ri] * derate) {
+    if (ls_part_has(p, ri) && pw > ls_run_opt_at(&op->run, p, ri) * derate) {
         if (derate != 1)
             ls_warning(nl->diags, p->loc, "over-rating",
                        "%s '%s' dissipates %s, above its %s rating derated by %g (%s)", p->kind->name, p->name,
-                       eng(a, sizeof a, pw, "W"), eng(b, sizeof b, p->opt[ri], "W"), derate,
-                       eng(c, sizeof c, p->opt[ri] * derate, "W"));
+                       eng(a, sizeof a, pw, "W"), eng(b, sizeof b, ls_run_opt_at(&op->run, p, ri), "W"), derate,
+                       eng(c, sizeof c, ls_run_opt_at(&op->run, p, ri) * derate, "W"));
         else
             ls_warning(nl->diags, p->loc, "over-rating", "%s '%s' dissipates %s, above its %s rating",
-                       p->kind->name, p->name, eng(a, sizeof a, pw, "W"), eng(b, sizeof b, p->opt[ri], "W"));
+                       p->kind->name, p->name, eng(a, sizeof a, pw, "W"), eng(b, sizeof b, ls_run_opt_at(&op->run, p, ri), "W"));
     }
-    if (ls_part_has(p, vi) && fabs(op->vpart[i]) > p->opt[vi])
+    if (ls_part_has(p, vi) && fabs(op->vpart[i]) > ls_run_opt_at(&op->run, p, vi))
         ls_warning(nl->diags, p->loc, "over-voltage", "%s '%s' has %s across it, above its vmax of %s",
                    p->kind->name, p->name, eng(a, sizeof a, fabs(op->vpart[i]), "V"),
-                   eng(b, sizeof b, p->opt[vi], "V"));
-    if (!p->kind->is_opamp && ls_part_has(p, ii) && fabs(op->ipart[i]) > p->opt[ii])
+                   eng(b, sizeof b, ls_run_opt_at(&op->run, p, vi), "V"));
+    if (!p->kind->is_opamp && ls_part_has(p, ii) && fabs(op->ipart[i]) > ls_run_opt_at(&op->run, p, ii))
         ls_warning(nl->diags, p->loc, "over-current", "%s '%s' carries %s, above its imax of %s", p->kind->name,
-                   p->name, eng(a, sizeof a, fabs(op->ipart[i]), "A"), eng(b, sizeof b, p->opt[ii], "A"));
+                   p->name, eng(a, sizeof a, fabs(op->ipart[i]), "A"), eng(b, sizeof b, ls_run_opt_at(&op->run, p, ii), "A"));
 }
 
 /* An op-amp at a limit, or with an input outside cm=. */
@@ -648,7 +648,7 @@ static void opamp_warnings(ls_op *op, int i)
                    "op-amp '%s' is at its output current limit (%s %s): the load, not the feedback, sets its output "
                    "(%s)",
                    p->name, ls_run_state(&op->run, p)->state == LS_LIM_CURRENT_SOURCE ? "sourcing" : "sinking",
-                   eng(a, sizeof a, ls_part_opt(p, "imax", 0), "A"), eng(b, sizeof b, op->v[p->pin[2]], "V"));
+                   eng(a, sizeof a, ls_part_opt_in(&op->run, p, "imax", 0), "A"), eng(b, sizeof b, op->v[p->pin[2]], "V"));
         break;
     default:
         break;
@@ -656,7 +656,7 @@ static void opamp_warnings(ls_op *op, int i)
     int ci = ls_kind_opt(p->kind, "cm");
     if (!ls_part_has(p, ci))
         return;
-    double lo = ls_level_v(&p->range[OA_CM][0], op->v), hi = ls_level_v(&p->range[OA_CM][1], op->v);
+    double lo = ls_level_v(&ls_run_range(&op->run, p, OA_CM)[0], op->v), hi = ls_level_v(&ls_run_range(&op->run, p, OA_CM)[1], op->v);
     double vp = op->v[p->pin[0]], vm = op->v[p->pin[1]];
     bool out_p = vp < lo - 1e-12 || vp > hi + 1e-12, out_m = vm < lo - 1e-12 || vm > hi + 1e-12;
     char c[48], e[48];
@@ -682,12 +682,12 @@ static void adc_warnings(ls_op *op, int i)
     if (ls_op_adc(op, i, &r) != 0)
         return;
     int mi = ls_kind_opt(p->kind, "max_source");
-    if (ls_part_has(p, mi) && !(r.rth <= p->opt[mi]))
+    if (ls_part_has(p, mi) && !(r.rth <= ls_run_opt_at(&op->run, p, mi)))
         ls_warning(nl->diags, p->loc, "adc-source-resistance",
                    "adc '%s': the source driving it has %s, above its max_source of %s; the sampling input may not "
                    "settle (a buffer or a smaller divider helps)",
-                   p->name, eng(a, sizeof a, r.rth, "ohm"), eng(b, sizeof b, p->opt[mi], "ohm"));
-    double ref = ls_part_opt(p, "ref", 0);
+                   p->name, eng(a, sizeof a, r.rth, "ohm"), eng(b, sizeof b, ls_run_opt_at(&op->run, p, mi), "ohm"));
+    double ref = ls_part_opt_in(&op->run, p, "ref", 0);
     if (r.vin < 0 || r.vin > ref)
         ls_warning(nl->diags, p->loc, "adc-range", "adc '%s': its input at %s is outside its range 0..%s", p->name,
                    eng(a, sizeof a, r.vin, "V"), eng(c, sizeof c, ref, "V"));
@@ -733,7 +733,7 @@ static void adc_verdict(ls_op *op, int i, ls_adc_result *r)
         break;
     }
     int mi = ls_kind_opt(p->kind, "max_source");
-    r->source_high = ls_part_has(p, mi) && !(r->rth <= p->opt[mi]);
+    r->source_high = ls_part_has(p, mi) && !(r->rth <= ls_run_opt_at(&op->run, p, mi));
     double e = fabs(r->error_lsb), b = r->budget_lsb;
     if (!isfinite(e) || e > 2 * b + ls_check_slack(2 * b))
         r->verdict = VERDICT_LOADING;
@@ -751,11 +751,11 @@ int ls_op_adc(ls_op *op, int i, ls_adc_result *r)
     if (!p->kind->is_adc)
         return -1;
     int node = p->pin[0];
-    double rin = ls_part_opt(p, "rin", 0), leak = ls_part_opt(p, "leak", 0);
-    double levels = ldexp(1, (int)ls_part_opt(p, "bits", 1));
+    double rin = ls_part_opt_in(&op->run, p, "rin", 0), leak = ls_part_opt_in(&op->run, p, "leak", 0);
+    double levels = ldexp(1, (int)ls_part_opt_in(&op->run, p, "bits", 1));
     memset(r, 0, sizeof *r);
     r->vin = op->v[node];
-    r->lsb = ls_adc_lsb(p);
+    r->lsb = ls_adc_lsb_in(&op->run, p);
     /* The driving-point resistance includes the ADC's own rin in parallel. */
     double zd = ls_op_zdrive(op, node);
     if (rin > 0)

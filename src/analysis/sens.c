@@ -296,7 +296,7 @@ static bool leaf_node(ctx *c, int node, dual *out);
 static bool port_loaded(ctx *c, int j, dual *out)
 {
     const ls_part *p = &c->op->nl->parts[j];
-    if (ls_part_opt(p, "mode", 0) == 1)
+    if (ls_part_opt_in(&c->op->run, p, "mode", 0) == 1)
         return leaf_current(c, j, out);
     return leaf_node(c, p->pin[0], out);
 }
@@ -490,8 +490,8 @@ static bool adc_prop(ctx *c, int j, ls_prop prop, dual *out)
     bool ok = alloc_dual(c, &vin) && alloc_dual(c, &zd) && leaf_node(c, p->pin[0], &vin) &&
               base_z_grad(c, ls_node_unknown(p->pin[0]), &zd.v, zd.g);
     if (ok) {
-        double rin = ls_part_opt(p, "rin", 0), rth = a.rth, iload = a.vin * (rin > 0 ? 1 / rin : 0) +
-                                                                  ls_part_opt(p, "leak", 0);
+        double rin = ls_part_opt_in(&c->op->run, p, "rin", 0), rth = a.rth, iload = a.vin * (rin > 0 ? 1 / rin : 0) +
+                                                                  ls_part_opt_in(&c->op->run, p, "leak", 0);
         double k = rin > 0 ? rth * rth / (zd.v * zd.v) : 1;    /* d rth / d zd */
         out->v = prop == PROP_SOURCE ? a.rth : prop == PROP_UNLOADED ? a.v_open : a.error_lsb;
         for (int m = 0; m < c->np; m++) {
@@ -530,7 +530,7 @@ static bool port_budget_dual(ctx *c, int j, dual *out)
             return false;
         double sgn = pr->open < 0 ? -1 : 1;
         for (int k = 0; k < c->np; k++)
-            out->g[k] *= sgn * b->value;
+            out->g[k] *= sgn * (b == &nl->rule_sag ? b->value : ls_run_budget(&c->op->run, (int)p->opt[bi]));
     }
     out->v = pr->budget;
     if (!isfinite(out->v))
@@ -627,7 +627,7 @@ static int dd_const(void *cv, const ls_q *q, void *o)
 {
     ctx *c = cv;
     dual *out = o;
-    out->v = q->value;
+    out->v = ls_run_qconst(&c->op->run, q);
     memset(out->g, 0, (size_t)c->np * sizeof *out->g);
     return 0;
 }

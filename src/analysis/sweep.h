@@ -32,29 +32,37 @@ void ls_sweep_points(double from, double to, int n, bool log_scale, double *x);
  * elaborating again (the caller does that for this point). */
 #define LS_SWEEP_REELABORATE (-1)
 
-/* One circuit elaborated once, solved at many values of one let. */
+/* One circuit elaborated once, solved at many values of one let.  The
+ * netlist is only read: a point's values (the lets, and what they reach:
+ * part values and options, range ends, budgets, constants inside the
+ * checks' quantities) live in the sweeper's lets and its run `point`, which
+ * each solve starts from. */
 typedef struct ls_sweeper {
-    ls_netlist *nl;            /* the circuit (the caller's; its values change per point) */
+    const ls_netlist *nl;      /* the circuit (the caller's, as elaborated) */
     const ls_letdeps *deps;    /* what the let reaches in nl (the caller's) */
     ls_options opt;            /* how each point is solved */
+    double *lets;              /* nl->nparams: every let's value at the point */
+    ls_run point;              /* the point's values, options, ranges, budgets and constants */
+    bool have_point;           /* lets and point hold allocations */
     ls_op op;                  /* the last point's solution and factor */
     bool have_op;              /* op holds allocations */
     bool ready;                /* op holds a solved point of nl to continue from */
-    int *branches;             /* per entry of deps->parts: its branch unknowns as elaborated */
-    bool restructured;         /* a point changed a part's number of branch unknowns (the answer was
+    bool restructured;         /* a point changed a part's shape (its branch unknowns, DC edges,
+                                  pins that draw current or linearity; the answer was
                                   LS_SWEEP_REELABORATE): the elaborated numbering no longer holds */
 } ls_sweeper;
 
 /* Start a sweeper over nl with the record deps and the solve options o
  * (copied).  Nothing is solved yet. */
-void ls_sweeper_init(ls_sweeper *w, ls_netlist *nl, const ls_letdeps *deps, const ls_options *o);
-/* Free the solution and the factor (not nl or deps). */
+void ls_sweeper_init(ls_sweeper *w, const ls_netlist *nl, const ls_letdeps *deps, const ls_options *o);
+/* Free the point, the solution and the factor (not nl or deps). */
 void ls_sweeper_free(ls_sweeper *w);
 
 /* The one place where a point's values are set: the swept let at x and every
- * value that depends on it.  Returns false when that needs a new
- * elaboration (a value the elaborator would refuse at x, or a let that
- * reaches more than values). */
+ * value that depends on it, into w->lets and w->point (never the netlist).
+ * Returns false when that needs a new elaboration (a value the elaborator
+ * would refuse at x, a let that reaches more than values, or no memory for
+ * the point). */
 bool ls_sweep_set_value(ls_sweeper *w, double x);
 
 /* Solve at the let's value x: afresh when `fresh` (or when nothing can be

@@ -113,9 +113,96 @@ static int draw_trial(const mc_job *job, ls_run *run, long i)
     return 0;
 }
 
-/* Thread body: the shared netlist's record with diagnostics of its own (the
- * parts are the session's, only read) and an operating point of its own;
- * fills job->value and job->pass for its trials. */
+/* One worker's solve: the shared netlist's record with diagnostics of its
+ * own (the parts are the session's, only read), its operating point, the
+ * nominal run and solution every trial starts from, and the parts a trial
+ * restamps. */
+typedef struct mc_state {
+    ls_netlist nl;
+    ls_op op;
+    ls_run nominal;
+    double *x0;                    /* the nominal solution (op.mna.n) */
+    int *varying;                  /* the varying parts; NULL: restamp every part (a circuit that iterates) */
+} mc_state;
+
+/* Solve the nominal point in st and keep what the trials start from.
+ * Returns 0, or -1 when that failed (st is then freed by mc_state_free). */
+static int mc_setup(const mc_job *job, const ls_options *opt, mc_state *st)
+{
+    int status = -1;
+    if (ls_op_solve(&st->op, &st->nl, opt) == LS_EXIT_OK && ls_run_init(&st->nominal, &st->nl) == 0 &&
+        ls_run_copy(&st->nominal, &st->op.run) == 0 &&
+        (job->nv == 0 || ls_run_set_value(&st->nominal, job->v[0].part, job->v[0].nominal) == 0)) {
+        /* Every trial starts from the nominal solution and part states, so a
+         * trial's result does not depend on the trial solved before it. */
+        st->x0 = malloc((size_t)(st->op.mna.n ? st->op.mna.n : 1) * sizeof *st->x0);
+        if (st->x0) {
+            if (st->op.mna.n > 0)
+                memcpy(st->x0, st->op.x, (size_t)st->op.mna.n * sizeof *st->x0);
+            status = 0;
+        }
+    }
+    /* In a linear circuit a trial changes only the varying parts' values (the
+     * nominal run puts every other value back, and there are no states), so
+     * only their entries are restamped (mna.h, ls_mna_expect_changes). */
+    if (status == 0 && !ls_newton_needed(&st->nl))
+        st->varying = malloc((size_t)(job->nv ? job->nv : 1) * sizeof *st->varying);
+    for (int j = 0; st->varying && j < job->nv; j++)
+        st->varying[j] = job->v[j].part;
+    /* ... and with few varying parts the factor may be kept and updated (solver.h) */
+    if (st->varying && st->op.solver)
+        ls_solver_allow_update(st->op.solver, &st->op.mna.a);
+    return status;
+}
+
+static void mc_state_free(mc_state *st)
+{
+    ls_op_free(&st->op);
+    free(st->varying);
+    free(st->x0);
+    ls_run_free(&st->nominal);
+}
+
+/* Do the matching expects (or job->accept) hold in the solved op? */
+static bool trial_passes(const mc_job *job, mc_state *st)
+{
+    bool ok = true;
+    if (job->accept)
+        ok = job->accept(job->accept_ctx, &st->op);
+    for (int c = 0; c < job->nchecks && ok; c++) {
+        ls_check_result r;
+        ls_check_eval(&st->op, &st->nl.checks[job->checks[c]], &r);
+        ok = r.pass;
+    }
+    return ok;
+}
+
+/* Trial i from the nominal point: its values drawn, solved, its value and
+ * verdict into job.  0, or -2 when memory ran out (the study stops). */
+static int mc_trial(mc_job *job, mc_state *st, long i)
+{
+    ls_op *op = &st->op;
+    if (op->mna.n > 0)
+        memcpy(op->x, st->x0, (size_t)op->mna.n * sizeof *st->x0);
+    if (ls_run_copy(&op->run, &st->nominal) != 0 || draw_trial(job, &op->run, i) != 0)
+        return -2;
+    if (st->varying)
+        ls_mna_expect_changes(&op->mna, st->varying, job->nv);
+    if (ls_op_resolve(op) != LS_EXIT_OK) {
+        if (op->nomem) /* not a trial that has no solution: the study cannot go on */
+            return -2;
+        job->value[i] = NAN;
+        job->pass[i] = 0;
+        return 0;
+    }
+    job->value[i] = job->q ? ls_q_eval(op, job->q) : NAN;
+    job->pass[i] = trial_passes(job, st);
+    atomic_fetch_add_explicit(&job->done, 1, memory_order_relaxed);
+    return 0;
+}
+
+/* Thread body: a solve of its own over the shared netlist (mc_state); fills
+ * job->value and job->pass for the worker's trials. */
 static void *mc_run(void *arg)
 {
     mc_worker *w = arg;
@@ -126,76 +213,18 @@ static void *mc_run(void *arg)
     ls_options opt = job->opt;
     opt.trial = true;
     opt.no_bounds = true;
+    opt.start = job->start;
+    opt.keep_states = false;
     ls_arena arena;
     ls_diags diags;
     ls_arena_init(&arena);
     ls_diags_init(&diags, &arena);
-    ls_netlist nl = *job->base;   /* the record only: its parts stay the session's */
-    nl.diags = &diags;
-    opt.start = job->start;
-    opt.keep_states = false;
-    double *x0 = NULL;
-    ls_run nominal = {0};
-    ls_op op;
-    bool have_op = true;
-    w->status = -1;
-    if (ls_op_solve(&op, &nl, &opt) == LS_EXIT_OK && ls_run_init(&nominal, &nl) == 0 &&
-        ls_run_copy(&nominal, &op.run) == 0 && (job->nv == 0 || ls_run_set_value(&nominal, job->v[0].part,
-                                                                                  job->v[0].nominal) == 0)) {
-        /* Every trial starts from the nominal solution and part states, so a
-         * trial's result does not depend on the trial solved before it. */
-        x0 = malloc((size_t)(op.mna.n ? op.mna.n : 1) * sizeof *x0);
-        if (x0) {
-            if (op.mna.n > 0)
-                memcpy(x0, op.x, (size_t)op.mna.n * sizeof *x0);
-            w->status = 0;
-        }
-    }
-    /* In a linear circuit a trial changes only the varying parts' values (the
-     * nominal run puts every other value back, and there are no states), so
-     * only their entries are restamped (mna.h, ls_mna_expect_changes). */
-    int *varying = w->status == 0 && !ls_newton_needed(&nl) ? malloc((size_t)(job->nv ? job->nv : 1) * sizeof *varying)
-                                                            : NULL;
-    for (int j = 0; varying && j < job->nv; j++)
-        varying[j] = job->v[j].part;
-    /* ... and with few varying parts the factor may be kept and updated (solver.h) */
-    if (varying && op.solver)
-        ls_solver_allow_update(op.solver, &op.mna.a);
-    for (long i = w->first; w->status == 0 && i < w->last; i++) {
-        if (op.mna.n > 0)
-            memcpy(op.x, x0, (size_t)op.mna.n * sizeof *x0);
-        if (ls_run_copy(&op.run, &nominal) != 0 || draw_trial(job, &op.run, i) != 0) {
-            w->status = -2;
-            break;
-        }
-        if (varying)
-            ls_mna_expect_changes(&op.mna, varying, job->nv);
-        if (ls_op_resolve(&op) != LS_EXIT_OK) {
-            if (op.nomem) { /* not a trial that has no solution: the study cannot go on */
-                w->status = -2;
-                break;
-            }
-            job->value[i] = NAN;
-            job->pass[i] = 0;
-            continue;
-        }
-        job->value[i] = job->q ? ls_q_eval(&op, job->q) : NAN;
-        bool ok = true;
-        if (job->accept)
-            ok = job->accept(job->accept_ctx, &op);
-        for (int c = 0; c < job->nchecks && ok; c++) {
-            ls_check_result r;
-            ls_check_eval(&op, &nl.checks[job->checks[c]], &r);
-            ok = r.pass;
-        }
-        job->pass[i] = ok;
-        atomic_fetch_add_explicit(&job->done, 1, memory_order_relaxed);
-    }
-    if (have_op)
-        ls_op_free(&op);
-    free(varying);
-    free(x0);
-    ls_run_free(&nominal);
+    mc_state st = {.nl = *job->base};   /* the record only: its parts stay the session's */
+    st.nl.diags = &diags;
+    w->status = mc_setup(job, &opt, &st);
+    for (long i = w->first; w->status == 0 && i < w->last; i++)
+        w->status = mc_trial(job, &st, i);
+    mc_state_free(&st);
     ls_diags_free(&diags);
     ls_arena_free(&arena);
     atomic_store(&w->finished, true);

@@ -142,18 +142,18 @@ static bool is_junction(const ls_part *p)
 
 /* Small-signal conductance (S) of a junction at vj, by a central difference
  * of its model (the exponential has no kink, 0.1 mV is far below kT/q). */
-static double junction_g(const ls_part *p, double vj)
+static double junction_g(const ls_run *run, const ls_part *p, double vj)
 {
     const double h = 1e-4;
     bool beyond;
-    return (ls_junction_current(p, vj + h, &beyond) - ls_junction_current(p, vj - h, &beyond)) / (2 * h);
+    return (ls_junction_current(run, p, vj + h, &beyond) - ls_junction_current(run, p, vj - h, &beyond)) / (2 * h);
 }
 
-/* +1 when the junction conducts more than tenfold better now than in the
+/* +1 when the junction (its model as in run) conducts more than tenfold better now than in the
  * saved state (it turned on), -1 tenfold worse (off), 0 otherwise. */
-static int junction_change(const ls_part *p, const ls_part_run *state, const ls_part_run *saved)
+static int junction_change(const ls_run *run, const ls_part *p, const ls_part_run *state, const ls_part_run *saved)
 {
-    double now = junction_g(p, state->op_v), then = junction_g(p, saved->op_v);
+    double now = junction_g(run, p, state->op_v), then = junction_g(run, p, saved->op_v);
     if (!(now > 0) || !(then > 0))
         return 0;
     return now > 10 * then ? 1 : then > 10 * now ? -1 : 0;
@@ -169,7 +169,7 @@ bool ls_states_differ(const ls_run *now, const ls_runs *saved, int *what)
         if (p->slot < 0)
             continue;
         const ls_part_run *s = ls_run_state(now, p), *then = ls_run_state(&saved->run, p);
-        bool d = p->kind->is_opamp ? s->state != then->state : is_junction(p) && junction_change(p, s, then) != 0;
+        bool d = p->kind->is_opamp ? s->state != then->state : is_junction(p) && junction_change(now, p, s, then) != 0;
         if (d) {
             if (what)
                 *what = i;
@@ -192,7 +192,7 @@ int ls_limits_in_force(const ls_run *now, const ls_runs *saved, char *buf, size_
         if (p->kind->is_opamp && p->slot >= 0 && ls_run_state(now, p)->state != LS_LIM_NONE)
             word = ls_opamp_limit_word(p, now);
         else if (is_junction(p) && saved) {
-            int c = junction_change(p, ls_run_state(now, p), ls_run_state(&saved->run, p));
+            int c = junction_change(now, p, ls_run_state(now, p), ls_run_state(&saved->run, p));
             word = c > 0 ? "on" : c < 0 ? "off" : NULL;
         }
         if (!word)

@@ -277,9 +277,9 @@ void ls_diags_print_sel(const ls_diags *d, FILE *out, bool (*skip)(const ls_diag
         const ls_diag *g = &d->items[i];
         if (skip && skip(g, ctx))
             continue;
+        assert(g->sev >= 0 && (size_t)g->sev < sizeof sev / sizeof sev[0]);   /* a word per ls_severity */
         if (g->loc.file >= 0) {
             char where[512];
-            assert(g->sev >= 0 && (size_t)g->sev < sizeof sev / sizeof sev[0]);
             fprintf(out, "%s: %s: %s\n", ls_loc_str(d, g->loc, where, sizeof where),
                     sev[g->sev], g->msg);
             print_excerpt(d, g->loc, out);

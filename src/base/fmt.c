@@ -140,29 +140,68 @@ static int floor_log10(double x)
     return k;
 }
 
+/* The text of a value with no digits to round: "undefined" for NaN,
+ * "[-]unbounded" for an infinity, "0 UNIT" for zero, into buf.  false for
+ * any other value (buf untouched). */
+static bool eng_special(char *buf, size_t n, double v, const char *sep, const char *u)
+{
+    if (isnan(v))
+        snprintf(buf, n, "undefined");
+    else if (isinf(v))
+        snprintf(buf, n, "%sunbounded", v < 0 ? "-" : "");
+    else if (v == 0)
+        snprintf(buf, n, "0%s%s", sep, u);
+    else
+        return false;
+    return true;
+}
+
+/* "[-]M SEP PREFIX UNIT" into buf: the mantissa m (> 0) with `decimals`
+ * digits after the point, v's sign.  The digits come from ls_num_fixed,
+ * the rest is copied in place; printf only where those do not fit. */
+static void eng_assemble(char *buf, size_t n, double v, double m, int decimals, const char *sep, const char *p,
+                         const char *u)
+{
+    char t[128];
+    size_t len = 0;
+    if (v < 0)
+        t[len++] = '-';
+    int k = ls_num_fixed(t + len, m, decimals);
+    if (!k) {
+        snprintf(buf, n, "%s%.*f%s%s%s", v < 0 ? "-" : "", decimals, m, sep, p, u);
+        return;
+    }
+    len += (size_t)k;
+    /* the separator and the prefix are a byte or two: copied in place */
+    for (const char *q = sep; *q; q++)
+        t[len++] = *q;
+    for (const char *q = p; *q; q++)
+        t[len++] = *q;
+    for (const char *q = u; *q; q++) {
+        if (len == sizeof t) { /* a unit longer than any the program has */
+            snprintf(buf, n, "%s%.*f%s%s%s", v < 0 ? "-" : "", decimals, m, sep, p, u);
+            return;
+        }
+        t[len++] = *q;
+    }
+    put_cut(buf, n, t, len);
+}
+
 char *ls_fmt_eng(char *buf, size_t n, double v, const char *unit, int sig, bool ascii)
 {
     const char *u = unit_text(unit ? unit : "", ascii);
     const char *sep = u[0] ? " " : "";
-    if (isnan(v)) {
-        snprintf(buf, n, "undefined");
+    if (eng_special(buf, n, v, sep, u))
         return buf;
-    }
-    if (isinf(v)) {
-        snprintf(buf, n, "%sunbounded", v < 0 ? "-" : "");
-        return buf;
-    }
     if (sig < 1)
         sig = 1;
-    if (v == 0) {
-        snprintf(buf, n, "0%s%s", sep, u);
-        return buf;
-    }
     double a = fabs(v);
     if (sig > FAST_SIG || !(a >= FAST_LO && a < FAST_HI))
         return eng_reference(buf, n, v, u, sep, sig, ascii);
     pthread_once(&tab_once, tab_init);
 
+    /* round to sig digits, then take the decade of the rounded value (9.9996
+     * at 4 digits is 10.00) and the prefix of its group of three */
     int e = floor_log10(a);
     double scale = pow10i(sig - 1 - e);
     double r = round(a * scale) / scale;
@@ -174,34 +213,8 @@ char *ls_fmt_eng(char *buf, size_t n, double v, const char *unit, int sig, bool 
         snprintf(buf, n, "%.*e%s%s", sig - 1, v, sep, u);
         return buf;
     }
-    double m = r / pow10i(e3);
     int decimals = sig - 1 - (e - e3);
-    if (decimals < 0)
-        decimals = 0;
-
-    char t[128];
-    size_t len = 0;
-    if (v < 0)
-        t[len++] = '-';
-    int k = ls_num_fixed(t + len, m, decimals);
-    if (!k) {
-        snprintf(buf, n, "%s%.*f%s%s%s", v < 0 ? "-" : "", decimals, m, sep, p, u);
-        return buf;
-    }
-    len += (size_t)k;
-    /* the separator and the prefix are a byte or two: copied in place */
-    for (const char *q = sep; *q; q++)
-        t[len++] = *q;
-    for (const char *q = p; *q; q++)
-        t[len++] = *q;
-    for (const char *q = u; *q; q++) {
-        if (len == sizeof t) { /* a unit longer than any the program has */
-            snprintf(buf, n, "%s%.*f%s%s%s", v < 0 ? "-" : "", decimals, m, sep, p, u);
-            return buf;
-        }
-        t[len++] = *q;
-    }
-    put_cut(buf, n, t, len);
+    eng_assemble(buf, n, v, r / pow10i(e3), decimals < 0 ? 0 : decimals, sep, p, u);
     return buf;
 }
 

@@ -16,27 +16,21 @@
 #include "analysis/sens.h"
 #include "analysis/thevenin.h"
 #include "analysis/variant.h"
+#include "base/suggest.h"
 
 /* "did you mean" for a name that is neither a node nor (where allowed) a port. */
 static void no_such_name(ls_session *s, const char *name, const char *file, bool ports)
 {
-    const char *best = NULL;
-    int bd = 3;
-    for (int i = 0; i < s->nl.nnodes; i++) {
-        int d = ls_edit_distance(name, s->nl.nodes[i].name);
-        if (d < bd)
-            bd = d, best = s->nl.nodes[i].name;
-    }
-    for (int i = 0; ports && i < s->nl.nparts; i++) {
-        if (!s->nl.parts[i].kind->is_port)
-            continue;
-        int d = ls_edit_distance(name, s->nl.parts[i].name);
-        if (d < bd)
-            bd = d, best = s->nl.parts[i].name;
-    }
+    ls_suggest near;
+    ls_suggest_init(&near, name, 3);
+    for (int i = 0; i < s->nl.nnodes; i++)
+        ls_suggest_try(&near, s->nl.nodes[i].name);
+    for (int i = 0; ports && i < s->nl.nparts; i++)
+        if (s->nl.parts[i].kind->is_port)
+            ls_suggest_try(&near, s->nl.parts[i].name);
     const char *what = ports ? "node or port" : "node";
-    if (best)
-        ls_error(&s->diags, LS_NOLOC, "no %s '%s' in %s; did you mean '%s'?", what, name, file, best);
+    if (near.best)
+        ls_error(&s->diags, LS_NOLOC, "no %s '%s' in %s; did you mean '%s'?", what, name, file, near.best);
     else
         ls_error(&s->diags, LS_NOLOC, "no %s '%s' in %s", what, name, file);
 }

@@ -10,6 +10,7 @@
 
 #include "cli/cli.h"
 #include "base/diag.h"
+#include "base/suggest.h"
 #include "lang/parser.h"
 #include "parts/parts.h"
 #include "solve/solver.h"
@@ -277,26 +278,18 @@ static const cmd *find_cmd(const char *name)
     return NULL;
 }
 
+/* The command (commands_too) or the option of command c nearest to word,
+ * within three edits, or NULL. */
 static const char *nearest(const char *word, bool commands_too, const cmd *c)
 {
-    const char *best = NULL;
-    int bd = 4;
-    if (commands_too) {
-        for (int i = 0; i < ncommands; i++) {
-            int d = ls_edit_distance(word, commands[i].name);
-            if (d < bd)
-                bd = d, best = commands[i].name;
-        }
-        return best;
-    }
-    for (int i = 0; i < noptions; i++) {
-        if (!opt_for(&options[i], c))
-            continue;
-        int d = ls_edit_distance(word, options[i].name);
-        if (d < bd)
-            bd = d, best = options[i].name;
-    }
-    return best;
+    ls_suggest near;
+    ls_suggest_init(&near, word, 4);
+    for (int i = 0; commands_too && i < ncommands; i++)
+        ls_suggest_try(&near, commands[i].name);
+    for (int i = 0; !commands_too && i < noptions; i++)
+        if (opt_for(&options[i], c))
+            ls_suggest_try(&near, options[i].name);
+    return near.best;
 }
 
 /* Say what is wrong with the command line (printf-style) and return the
@@ -349,14 +342,11 @@ static bool known_code(const char *code)
 /* The warning code nearest a misspelt one, or NULL. */
 static const char *nearest_code(const char *code)
 {
-    const char *best = NULL;
-    int bd = 4;
-    for (int i = 0; ls_warning_codes[i]; i++) {
-        int d = ls_edit_distance(code, ls_warning_codes[i]);
-        if (d < bd)
-            bd = d, best = ls_warning_codes[i];
-    }
-    return best;
+    ls_suggest near;
+    ls_suggest_init(&near, code, 4);
+    for (int i = 0; ls_warning_codes[i]; i++)
+        ls_suggest_try(&near, ls_warning_codes[i]);
+    return near.best;
 }
 
 /* --fail-on CODE,...|warnings: every code must be one the program gives. */

@@ -225,9 +225,10 @@ static int probe(sweep *w)
 }
 
 /* Do two elaborations of the circuit have the same parts on the same nodes
- * with the same options given and the same branch unknowns (a junction's
- * rbulk= from zero to positive adds one), so one's values can be stamped
- * into the other's system? */
+ * with the same options given and the same shapes (ls_part_same_shape: a
+ * junction's rbulk= from zero to positive adds a branch unknown, a switch
+ * that opens drops an edge), so one's values can be stamped into the
+ * other's system? */
 static bool same_structure(const ls_netlist *a, const ls_netlist *b)
 {
     if (a->nparts != b->nparts || a->nnodes != b->nnodes)
@@ -235,29 +236,40 @@ static bool same_structure(const ls_netlist *a, const ls_netlist *b)
     for (int i = 0; i < a->nparts; i++) {
         const ls_part *p = &a->parts[i], *q = &b->parts[i];
         if (p->kind != q->kind || p->ref != q->ref || p->has_value != q->has_value || strcmp(p->name, q->name) != 0 ||
-            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || p->has_opt != q->has_opt ||
-            (p->kind->branches && p->kind->branches(p) != q->kind->branches(q)))
+            memcmp(p->pin, q->pin, sizeof p->pin) != 0 || p->has_opt != q->has_opt || !ls_part_same_shape(p, q))
             return false;
     }
     return true;
 }
 
-/* Copy the values (main value, options, ranges) of src's parts into dst's,
- * keeping dst's analysis state: the linearization points the last solution
- * left, from which the next solve continues. */
-static void copy_values(ls_netlist *dst, const ls_netlist *src)
+/* Set in run (the last solved point's, over a netlist of src's structure)
+ * the values of src (main values, options, range ends, budgets), keeping
+ * the run's analysis state: the linearization points the last solution
+ * left, from which the next solve continues.  The run's netlist stays as
+ * it was elaborated.  0, or -1 when out of memory. */
+static int copy_values(ls_run *run, const ls_netlist *src)
 {
+    const ls_netlist *dst = run->nl;
+    if (dst->nbudgets != src->nbudgets)
+        return -1;
     for (int i = 0; i < dst->nparts; i++) {
-        ls_part *p = &dst->parts[i];
-        const ls_part *q = &src->parts[i];
-        p->value = q->value;
+        const ls_part *p = &dst->parts[i], *q = &src->parts[i];
+        if (ls_run_set_value(run, i, q->value) != 0)
+            return -1;
         /* Same structure: the same options given, so both or neither have the
          * side arrays (a range only where a range option was given). */
-        if (p->opt && q->opt)
-            memcpy(p->opt, q->opt, LS_MAX_OPTS * sizeof *p->opt);
-        if (p->range && q->range)
-            memcpy(p->range, q->range, LS_MAX_RANGES * sizeof *p->range);
+        for (int k = 0; p->opt && q->opt && k < LS_MAX_OPTS; k++)
+            if (ls_part_has(p, k) && ls_run_set_opt(run, i, k, q->opt[k]) != 0)
+                return -1;
+        for (int k = 0; p->range && q->range && k < LS_MAX_RANGES; k++)
+            for (int e = 0; e < 2; e++)
+                if (ls_run_set_range(run, i, k, e, q->range[k][e].volts) != 0)
+                    return -1;
     }
+    for (int b = 0; b < src->nbudgets; b++)
+        if (ls_run_set_budget(run, b, src->budgets[b].value) != 0)
+            return -1;
+    return 0;
 }
 
 /* Record point i's values from the solved op with the quantities q and the
@@ -331,9 +343,12 @@ static int load_point(const sweep *w, ls_cli *pc, ls_session *s, const ls_q **q)
  * it is to be solved afresh. */
 static bool continue_base(sweep *w, int i, const ls_session *s, const ls_q *const *q, int *rc)
 {
-    if (!w->base || !same_structure(&w->base->nl, &s->nl))
+    if (!w->base || !same_structure(&w->base->nl, &s->nl) || w->base->nl.nbudgets != s->nl.nbudgets)
         return false;
-    copy_values(&w->base->nl, &s->nl);
+    if (copy_values(&w->base->op.run, &s->nl) != 0) {
+        *rc = point_nomem(w, i, NULL);
+        return true;
+    }
     if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
         *rc = record(w, i, &w->base->op, q, &s->nl) != 0 ? point_nomem(w, i, NULL) : 0;
         return true;

@@ -193,17 +193,15 @@ static int index_refs(const ls_mna *m, ls_mna_index *x)
     return rc;
 }
 
-/* Build m's index from its current pattern by stamping every part once more.
- * Returns 0, 1 when the circuit's stamps do not fit what a patch assumes
- * (a stamp outside the pattern or outside its part's rows: no index, full
- * restamps), or -1 no memory. */
-static int build_index(ls_mna *m)
+/* m's index with its per-part pointers, marks and scratch allocated (the
+ * lists empty), and in *rows room for one part's rows.  NULL when out of
+ * memory (nothing kept). */
+static ls_mna_index *index_alloc(ls_mna *m, int **rows)
 {
-    const ls_netlist *nl = m->nl;
-    int np = nl->nparts + 1, n = m->n, nnz = ls_csc_nnz(&m->a);
+    int np = m->nl->nparts + 1, n = m->n, nnz = ls_csc_nnz(&m->a);
     ls_mna_index *x = calloc(1, sizeof *x);
     if (!x)
-        return -1;
+        return NULL;
     m->index = x;
     x->np = np;
     x->ppos_ptr = malloc(((size_t)np + 1) * sizeof *x->ppos_ptr);
@@ -213,50 +211,78 @@ static int build_index(ls_mna *m)
     x->mark_part = calloc((size_t)np, sizeof *x->mark_part);
     x->mark_changed = calloc((size_t)np, sizeof *x->mark_changed);
     x->bs = calloc((size_t)(n ? n : 1), sizeof *x->bs);
-    int *rows = malloc(((size_t)LS_MAX_PINS + 2 * LS_MAX_RANGES + (size_t)(n ? n : 1)) * sizeof *rows);
+    *rows = malloc(((size_t)LS_MAX_PINS + 2 * LS_MAX_RANGES + (size_t)(n ? n : 1)) * sizeof **rows);
     if (!x->ppos_ptr || !x->prow_ptr || !x->mark_pos || !x->mark_row || !x->mark_part || !x->mark_changed ||
-        !x->bs || !rows) {
-        free(rows);
+        !x->bs || !*rows) {
+        free(*rows);
         ls_mna_index_free(m);
+        return NULL;
+    }
+    return x;
+}
+
+/* The growing lists of the index while it is built. */
+typedef struct index_lists {
+    int plen, pcap, rlen, rcap;
+} index_lists;
+
+/* Stamp part i once more and record the positions it reaches and the rows
+ * it may write (rows: scratch).  0, 1 when its stamps do not fit what a
+ * patch assumes (a position outside the pattern, a row an earlier part
+ * wrote outside its own), or -1 no memory. */
+static int index_part(ls_mna *m, ls_mna_index *x, int i, int *rows, index_lists *l)
+{
+    int rc = 0;
+    x->ppos_ptr[i] = l->plen;
+    x->prow_ptr[i] = l->rlen;
+    x->epoch++;
+    int nr = part_rows(m, i, rows);
+    for (int k = 0; k < nr; k++)
+        if (x->bs[rows[k]] != 0) /* an earlier part wrote a row outside its own */
+            rc = 1;
+    stamp_one(m, i, x->bs);
+    if (m->t.failed)
         return -1;
+    for (size_t k = 0; k < m->t.nnz && rc == 0; k++) {
+        int q = ls_csc_find(&m->a, m->t.ti[k], m->t.tj[k]);
+        if (q < 0)
+            rc = 1;
+        else if (x->mark_pos[q] != x->epoch) {
+            x->mark_pos[q] = x->epoch;
+            rc = push(&x->ppos, &l->plen, &l->pcap, q);
+        }
     }
-    int plen = 0, pcap = 0, rlen = 0, rcap = 0, rc = 0;
+    for (int k = 0; k < nr && rc == 0; k++) {
+        x->bs[rows[k]] = 0;
+        rc = push(&x->prow, &l->rlen, &l->rcap, rows[k]);
+    }
+    return rc;
+}
+
+/* Build m's index from its current pattern by stamping every part once more.
+ * Returns 0, 1 when the circuit's stamps do not fit what a patch assumes
+ * (a stamp outside the pattern or outside its part's rows: no index, full
+ * restamps), or -1 no memory. */
+static int build_index(ls_mna *m)
+{
+    int np = m->nl->nparts + 1, n = m->n, nnz = ls_csc_nnz(&m->a);
+    int *rows;
+    ls_mna_index *x = index_alloc(m, &rows);
+    if (!x)
+        return -1;
+    index_lists l = {0};
+    int rc = 0;
     ls_triplets_free(&m->t);
-    for (int i = 0; i < np && rc == 0; i++) {
-        x->ppos_ptr[i] = plen;
-        x->prow_ptr[i] = rlen;
-        x->epoch++;
-        int nr = part_rows(m, i, rows);
-        for (int k = 0; k < nr; k++)
-            if (x->bs[rows[k]] != 0) /* an earlier part wrote a row outside its own */
-                rc = 1;
-        stamp_one(m, i, x->bs);
-        if (m->t.failed) {
-            rc = -1;
-            break;
-        }
-        for (size_t k = 0; k < m->t.nnz && rc == 0; k++) {
-            int q = ls_csc_find(&m->a, m->t.ti[k], m->t.tj[k]);
-            if (q < 0)
-                rc = 1;
-            else if (x->mark_pos[q] != x->epoch) {
-                x->mark_pos[q] = x->epoch;
-                rc = push(&x->ppos, &plen, &pcap, q);
-            }
-        }
-        for (int k = 0; k < nr && rc == 0; k++) {
-            x->bs[rows[k]] = 0;
-            rc = push(&x->prow, &rlen, &rcap, rows[k]);
-        }
-    }
+    for (int i = 0; i < np && rc == 0; i++)
+        rc = index_part(m, x, i, rows, &l);
     free(rows);
     ls_triplets_free(&m->t);
     for (int r = 0; r < n && rc == 0; r++)
         if (x->bs[r] != 0) /* a stamp wrote a row outside its part's pins and branches */
             rc = 1;
     if (rc == 0) {
-        x->ppos_ptr[np] = plen;
-        x->prow_ptr[np] = rlen;
+        x->ppos_ptr[np] = l.plen;
+        x->prow_ptr[np] = l.rlen;
         if (invert(x->ppos_ptr, x->ppos, np, nnz, &x->posp_ptr, &x->posp) != 0 ||
             invert(x->prow_ptr, x->prow, np, n, &x->rowp_ptr, &x->rowp) != 0 || index_refs(m, x) != 0)
             rc = -1;
@@ -272,21 +298,16 @@ static int build_index(ls_mna *m)
     return 0;
 }
 
-/* Collect this patch's positions, rows and parts from the changed parts.
- * 0, or -1 no memory. */
-static int collect(ls_mna_index *x, const int *parts, int k, int *npos, int *nrow, int *npart)
+/* The changed parts and the parts whose stamps read their values (via=),
+ * each once, into a malloc'd list of *n; NULL when out of memory. */
+static int *with_readers(ls_mna_index *x, const int *parts, int k, int *n)
 {
-    int pc = 0, rc = 0, tc = 0, plen = 0, rlen = 0, tlen = 0;
-    free(x->plist);
-    free(x->rlist);
-    free(x->tlist);
-    x->plist = x->rlist = x->tlist = NULL;
     unsigned e = x->epoch;
     for (int s = 0; s < k; s++) /* a part whose stamp reads a changed part's value changes with it */
         x->mark_changed[parts[s]] = e;
     int *all = malloc(((size_t)k + (size_t)x->dep_ptr[x->np - 1] + 1) * sizeof *all), na = 0;
     if (!all)
-        return -1;
+        return NULL;
     for (int s = 0; s < k; s++) {
         all[na++] = parts[s];
         for (int d = x->dep_ptr[parts[s]]; d < x->dep_ptr[parts[s] + 1]; d++)
@@ -295,40 +316,46 @@ static int collect(ls_mna_index *x, const int *parts, int k, int *npos, int *nro
                 all[na++] = x->dep[d];
             }
     }
-    for (int s = 0; s < na; s++) {
-        int i = all[s];
-        for (int q = x->ppos_ptr[i]; q < x->ppos_ptr[i + 1]; q++)
-            if (x->mark_pos[x->ppos[q]] != e) {
-                x->mark_pos[x->ppos[q]] = e;
-                if (push(&x->plist, &plen, &pc, x->ppos[q]) != 0) {
-                    free(all);
+    *n = na;
+    return all;
+}
+
+/* Append to *out (length *len, capacity *cap) every entry of the lists
+ * (ptr, idx) of the n owners in `of` not yet marked with the patch's epoch
+ * in mark, marking it.  0, or -1 no memory. */
+static int gather(const ls_mna_index *x, const int *of, int n, const int *ptr, const int *idx, unsigned *mark,
+                  int **out, int *len, int *cap)
+{
+    for (int s = 0; s < n; s++)
+        for (int q = ptr[of[s]]; q < ptr[of[s] + 1]; q++)
+            if (mark[idx[q]] != x->epoch) {
+                mark[idx[q]] = x->epoch;
+                if (push(out, len, cap, idx[q]) != 0)
                     return -1;
-                }
             }
-        for (int q = x->prow_ptr[i]; q < x->prow_ptr[i + 1]; q++)
-            if (x->mark_row[x->prow[q]] != e) {
-                x->mark_row[x->prow[q]] = e;
-                if (push(&x->rlist, &rlen, &rc, x->prow[q]) != 0) {
-                    free(all);
-                    return -1;
-                }
-            }
-    }
+    return 0;
+}
+
+/* Collect this patch's positions, rows and parts from the changed parts:
+ * the positions and rows the changed parts (and their readers) reach, then
+ * every part reaching one of those, in part order.  0, or -1 no memory. */
+static int collect(ls_mna_index *x, const int *parts, int k, int *npos, int *nrow, int *npart)
+{
+    int pc = 0, rc = 0, tc = 0, plen = 0, rlen = 0, tlen = 0, na = 0;
+    free(x->plist);
+    free(x->rlist);
+    free(x->tlist);
+    x->plist = x->rlist = x->tlist = NULL;
+    int *all = with_readers(x, parts, k, &na);
+    if (!all)
+        return -1;
+    int st = gather(x, all, na, x->ppos_ptr, x->ppos, x->mark_pos, &x->plist, &plen, &pc);
+    if (st == 0)
+        st = gather(x, all, na, x->prow_ptr, x->prow, x->mark_row, &x->rlist, &rlen, &rc);
     free(all);
-    for (int q = 0; q < plen; q++)
-        for (int t = x->posp_ptr[x->plist[q]]; t < x->posp_ptr[x->plist[q] + 1]; t++)
-            if (x->mark_part[x->posp[t]] != e) {
-                x->mark_part[x->posp[t]] = e;
-                if (push(&x->tlist, &tlen, &tc, x->posp[t]) != 0)
-                    return -1;
-            }
-    for (int q = 0; q < rlen; q++)
-        for (int t = x->rowp_ptr[x->rlist[q]]; t < x->rowp_ptr[x->rlist[q] + 1]; t++)
-            if (x->mark_part[x->rowp[t]] != e) {
-                x->mark_part[x->rowp[t]] = e;
-                if (push(&x->tlist, &tlen, &tc, x->rowp[t]) != 0)
-                    return -1;
-            }
+    if (st != 0 || gather(x, x->plist, plen, x->posp_ptr, x->posp, x->mark_part, &x->tlist, &tlen, &tc) != 0 ||
+        gather(x, x->rlist, rlen, x->rowp_ptr, x->rowp, x->mark_part, &x->tlist, &tlen, &tc) != 0)
+        return -1;
     qsort(x->tlist, (size_t)tlen, sizeof *x->tlist, cmp_int);
     *npos = plen;
     *nrow = rlen;

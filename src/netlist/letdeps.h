@@ -12,8 +12,11 @@
  * state, a free= range, a value rounded by snap=) marks the record
  * `structural`: such a sweep elaborates every point afresh.
  *
- * Applying the record to the netlist it was made with is all that changes
- * per point (ls_sweep_set_value in analysis/sweep.c).  A value that fails the elaborator's checks
+ * Replaying the record for a new value of the let is all that changes per
+ * point (ls_sweep_set_value in analysis/sweep.c): into the sweeper's own
+ * copy of the lets and its run (run.h), never into the netlist it was made
+ * with, which stays as elaborated.  The targets below name where each value
+ * sits in the netlist; the run keeps its own value for each.  A value that fails the elaborator's checks
  * at some point (a resistance of zero, a division by zero) makes the apply
  * fail; the caller then elaborates that point afresh, which reports it. */
 #ifndef LS_LETDEPS_H
@@ -28,7 +31,7 @@ typedef enum ls_ld_kind {
     LD_OPT,        /* nl->parts[target].opt[slot] (and .value when it is the main value) */
     LD_BUDGET,     /* nl->budgets[target].value */
     LD_RANGE,      /* nl->parts[target].range[slot / 2][slot % 2].volts, times sign */
-    LD_QCONST      /* q->value = nl->params[target].value (a let inside a bound quantity) */
+    LD_QCONST      /* a bound quantity's constant q: let `target`'s value (a let inside a check) */
 } ls_ld_kind;
 
 /* One step of a value's program (postfix, evaluated on a small stack). */
@@ -53,7 +56,7 @@ typedef struct ls_ld_entry {
     bool is_main;      /* LD_OPT: the option is the part's main value */
     bool is_tol;       /* LD_OPT: tol=, a fraction below 1 */
     double sign;       /* LD_RANGE: -1 for NODE - X, else 1 */
-    ls_q *q;           /* LD_QCONST */
+    const ls_q *q;     /* LD_QCONST */
     int code, ncode;   /* its program: ls_letdeps.code[code .. code + ncode - 1] */
 } ls_ld_entry;
 

@@ -165,6 +165,12 @@ double ls_part_opt(const ls_part *p, const char *name, double dflt)
     return ls_part_has(p, i) ? p->opt[i] : dflt;
 }
 
+double ls_part_opt_in(const ls_run *run, const ls_part *p, const char *name, double dflt)
+{
+    int i = ls_kind_opt(p->kind, name);
+    return ls_part_has(p, i) ? ls_run_opt_at(run, p, i) : dflt;
+}
+
 /* ---- resistor ----------------------------------------------------------------- */
 
 static void resistor_stamp(const ls_part *p, ls_stamp_ctx *c)
@@ -199,7 +205,7 @@ static int resistor_monotone(const ls_part *p)
 static void vsource_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     int f = N(p, 0), t = N(p, 1), k = p->branch;
-    double rs = ls_part_opt(p, "rint", 0);
+    double rs = ls_part_opt_in(c->run, p, "rint", 0);
     if (c->derivative) {
         ls_sink_b(c->sink, k, 1);
         return;
@@ -452,13 +458,13 @@ static void opamp_supply(const ls_part *p, ls_stamp_ctx *c)
     ls_sink *s = c->sink;
     int pl = N(p, 0), mi = N(p, 1), k = p->branch;
     double sc = src_scale(p, c->run);
-    double ib = ls_part_opt(p, "ib", 0), ios = ls_part_opt(p, "ios", 0);
+    double ib = ls_part_opt_in(c->run, p, "ib", 0), ios = ls_part_opt_in(c->run, p, "ios", 0);
     ls_sink_b(s, pl, -(ib + ios / 2) * sc);
     ls_sink_b(s, mi, -(ib - ios / 2) * sc);
     if (!opamp_has(p, "rails"))
         return;
     int hi = p->range[OA_RAILS][1].node, lo = p->range[OA_RAILS][0].node;
-    double iq = ls_part_opt(p, "iq", 0) * sc;
+    double iq = ls_part_opt_in(c->run, p, "iq", 0) * sc;
     if (hi > 0) {
         keep_a(s, ls_node_unknown(hi), k, ls_run_state(c->run, p)->side ? 0 : 1);
         ls_sink_b(s, ls_node_unknown(hi), -iq);
@@ -485,8 +491,8 @@ static bool opamp_other_pins(const ls_part *p)
  * rail given as a voltage, or ground, is outside the circuit: 0 V here. */
 static double opamp_pin_power(const ls_part *p, const ls_run *run, const double *v, double current)
 {
-    double sc = src_scale(p, run), ib = ls_part_opt(p, "ib", 0), ios = ls_part_opt(p, "ios", 0);
-    double rin = ls_part_opt(p, "rin", 0), vp = v[p->pin[0]], vm = v[p->pin[1]];
+    double sc = src_scale(p, run), ib = ls_part_opt_in(run, p, "ib", 0), ios = ls_part_opt_in(run, p, "ios", 0);
+    double rin = ls_part_opt_in(run, p, "rin", 0), vp = v[p->pin[0]], vm = v[p->pin[1]];
     double w = (vp * (ib + ios / 2) + vm * (ib - ios / 2)) * sc;
     if (rin > 0)
         w += (vp - vm) * (vp - vm) / rin;
@@ -495,15 +501,15 @@ static double opamp_pin_power(const ls_part *p, const ls_run *run, const double 
     int hi = p->range[OA_RAILS][1].node, lo = p->range[OA_RAILS][0].node;
     double vhi = hi > 0 ? v[hi] : 0, vlo = lo > 0 ? v[lo] : 0;
     w += (ls_run_state(run, p)->side ? vlo : vhi) * current;
-    return w + ls_part_opt(p, "iq", 0) * sc * (vhi - vlo);
+    return w + ls_part_opt_in(run, p, "iq", 0) * sc * (vhi - vlo);
 }
 
 /* Row k by the limit in force (see above); derivative: d/d gain when free. */
 static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     int pl = N(p, 0), mi = N(p, 1), out = N(p, 2), k = p->branch;
-    double rin = ls_part_opt(p, "rin", 0), vos = ls_part_opt(p, "vos", 0) * src_scale(p, c->run);
-    double hr = ls_part_opt(p, "headroom", 0) * src_scale(p, c->run), imax = ls_part_opt(p, "imax", INFINITY);
+    double rin = ls_part_opt_in(c->run, p, "rin", 0), vos = ls_part_opt_in(c->run, p, "vos", 0) * src_scale(p, c->run);
+    double hr = ls_part_opt_in(c->run, p, "headroom", 0) * src_scale(p, c->run), imax = ls_part_opt_in(c->run, p, "imax", INFINITY);
     if (c->derivative) {
         if (p->has_value && ls_run_state(c->run, p)->state == LS_LIM_NONE) {
             ls_sink_a(c->sink, k, pl, -1);
@@ -524,10 +530,10 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
     assert(ls_run_state(c->run, p)->state >= LS_LIM_NONE && ls_run_state(c->run, p)->state <= LS_LIM_CURRENT_SINK);
     switch (ls_run_state(c->run, p)->state) {
     case LS_LIM_RAIL_HIGH:
-        clamp_row(c->sink, out, k, &p->range[OA_RAILS][1], -hr);
+        clamp_row(c->sink, out, k, &ls_run_range(c->run, p, OA_RAILS)[1], -hr);
         return;
     case LS_LIM_RAIL_LOW:
-        clamp_row(c->sink, out, k, &p->range[OA_RAILS][0], hr);
+        clamp_row(c->sink, out, k, &ls_run_range(c->run, p, OA_RAILS)[0], hr);
         return;
     case LS_LIM_CURRENT_SOURCE:
     case LS_LIM_CURRENT_SINK:
@@ -541,7 +547,7 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
         ls_sink_a(c->sink, k, out, 1);
         ls_sink_a(c->sink, k, pl, -ls_run_value(c->run, p));
         ls_sink_a(c->sink, k, mi, ls_run_value(c->run, p));
-        ls_sink_a(c->sink, k, k, ls_part_opt(p, "rout", 0));
+        ls_sink_a(c->sink, k, k, ls_part_opt_in(c->run, p, "rout", 0));
         ls_sink_b(c->sink, k, ls_run_value(c->run, p) * vos);
     } else {
         ls_sink_a(c->sink, k, pl, 1);
@@ -554,19 +560,19 @@ static void opamp_stamp(const ls_part *p, ls_stamp_ctx *c)
  * (V): positive means it pushes up.  Ideal: the input difference itself. */
 static double opamp_drive(const ls_part *p, const ls_run *run, const double *x, const double *v)
 {
-    double vd = v[p->pin[0]] - v[p->pin[1]] + ls_part_opt(p, "vos", 0) * src_scale(p, run);
+    double vd = v[p->pin[0]] - v[p->pin[1]] + ls_part_opt_in(run, p, "vos", 0) * src_scale(p, run);
     if (!p->has_value)
         return vd;
-    return ls_run_value(run, p) * vd - ls_part_opt(p, "rout", 0) * x[p->branch] - v[p->pin[2]];
+    return ls_run_value(run, p) * vd - ls_part_opt_in(run, p, "rout", 0) * x[p->branch] - v[p->pin[2]];
 }
 
 int ls_opamp_next(const ls_part *p, const ls_run *run, const double *x, const double *v, int *side)
 {
     double i = x[p->branch], vout = v[p->pin[2]];
     bool rails = opamp_has(p, "rails");
-    double hr = ls_part_opt(p, "headroom", 0) * src_scale(p, run), imax = ls_part_opt(p, "imax", INFINITY);
-    double vhi = rails ? ls_level_v(&p->range[OA_RAILS][1], v) - hr : INFINITY;
-    double vlo = rails ? ls_level_v(&p->range[OA_RAILS][0], v) + hr : -INFINITY;
+    double hr = ls_part_opt_in(run, p, "headroom", 0) * src_scale(p, run), imax = ls_part_opt_in(run, p, "imax", INFINITY);
+    double vhi = rails ? ls_level_v(&ls_run_range(run, p, OA_RAILS)[1], v) - hr : INFINITY;
+    double vlo = rails ? ls_level_v(&ls_run_range(run, p, OA_RAILS)[0], v) + hr : -INFINITY;
     double ev = 1e-9 * (1 + fmax(fabs(vhi < INFINITY ? vhi : 0), fabs(vlo > -INFINITY ? vlo : 0)));
     double ei = isfinite(imax) ? 1e-9 * imax : 0;
     double d = opamp_drive(p, run, x, v);
@@ -646,25 +652,25 @@ typedef struct junction {
 } junction;
 
 /* The junction model of a diode, led or zener from its options. */
-static junction junction_of(const ls_part *p)
+static junction junction_of(const ls_run *run, const ls_part *p)
 {
     junction j = {0};
     const char *k = p->kind->name;
-    double n = ls_part_opt(p, "ideality", strcmp(k, "led") == 0 ? 2 : 1);
-    j.rs = ls_part_opt(p, "rbulk", 0);
+    double n = ls_part_opt_in(run, p, "ideality", strcmp(k, "led") == 0 ? 2 : 1);
+    j.rs = ls_part_opt_in(run, p, "rbulk", 0);
     j.nvt = n * LS_THERMAL_VOLTAGE;
     if (strcmp(k, "led") == 0) {
-        double vf = ls_part_opt(p, "vf", 2), at = ls_part_opt(p, "at", 20e-3);
+        double vf = ls_part_opt_in(run, p, "vf", 2), at = ls_part_opt_in(run, p, "at", 20e-3);
         j.is = at / expm1(fmax((vf - at * j.rs) / j.nvt, 1e-3));
     } else if (strcmp(k, "zener") == 0) {
-        double at = ls_part_opt(p, "at", 5e-3);
-        j.is = ls_part_opt(p, "isat", 1e-14);
+        double at = ls_part_opt_in(run, p, "at", 5e-3);
+        j.is = ls_part_opt_in(run, p, "isat", 1e-14);
         j.nvt = LS_THERMAL_VOLTAGE;
         j.ib0 = at;
         j.nbvt = n * LS_THERMAL_VOLTAGE;
-        j.vbd = ls_part_opt(p, "vz", 5) - at * j.rs;
+        j.vbd = ls_part_opt_in(run, p, "vz", 5) - at * j.rs;
     } else {
-        j.is = ls_part_opt(p, "isat", 1e-14);
+        j.is = ls_part_opt_in(run, p, "isat", 1e-14);
     }
     return j;
 }
@@ -698,9 +704,9 @@ static double junction_eval(const junction *j, double v, double *g, bool *beyond
     return i;
 }
 
-double ls_junction_current(const ls_part *p, double vj, bool *beyond)
+double ls_junction_current(const ls_run *run, const ls_part *p, double vj, bool *beyond)
 {
-    junction j = junction_of(p);
+    junction j = junction_of(run, p);
     double g;
     *beyond = false;
     return junction_eval(&j, vj, &g, beyond);
@@ -723,7 +729,7 @@ static void junction_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     if (c->derivative)
         return;
-    junction j = junction_of(p);
+    junction j = junction_of(c->run, p);
     int a = N(p, 0), k = N(p, 1), in = p->branch;
     if (c->removed) {
         if (in >= 0)
@@ -757,7 +763,7 @@ static void junction_current(const ls_part *p, const ls_run *run, ls_lin *out, b
     (void)run; (void)depth;
     if (d)
         return;
-    junction j = junction_of(p);
+    junction j = junction_of(run, p);
     if (p->branch >= 0) {
         lin_add(out, N(p, 0), 1 / j.rs);
         lin_add(out, p->branch, -1 / j.rs);
@@ -779,9 +785,9 @@ static bool always(const ls_part *p) { (void)p; return true; }
 /* Start forward-biased near the knee (a led at its rated vf, a zener off). */
 static void junction_init(const ls_part *p, ls_run *run)
 {
-    junction j = junction_of(p);
+    junction j = junction_of(run, p);
     if (strcmp(p->kind->name, "led") == 0)
-        ls_run_state(run, p)->op_v = ls_part_opt(p, "vf", 2) - ls_part_opt(p, "at", 20e-3) * j.rs;
+        ls_run_state(run, p)->op_v = ls_part_opt_in(run, p, "vf", 2) - ls_part_opt_in(run, p, "at", 20e-3) * j.rs;
     else if (strcmp(p->kind->name, "zener") == 0)
         ls_run_state(run, p)->op_v = 0;
     else
@@ -804,7 +810,7 @@ static double limit_up(double unew, double uold, double i0, double nvt)
 /* Newton step of the junction voltage, limited; settled when it stops moving. */
 static bool junction_update(const ls_part *p, ls_run *run, const double *x)
 {
-    junction j = junction_of(p);
+    junction j = junction_of(run, p);
     double vnew = ls_junction_v(p, x), vold = ls_run_state(run, p)->op_v;
     double v = vnew;
     if (vnew > vold) {
@@ -836,7 +842,7 @@ static void junction_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 /* Segment conductances a-wiper and wiper-b (S), or their d/d(total). */
 static void pot_g(const ls_part *p, const ls_run *run, bool d, double *g1, double *g2)
 {
-    double at = ls_part_opt(p, "at", 0.5), r = ls_run_value(run, p);
+    double at = ls_part_opt_in(run, p, "at", 0.5), r = ls_run_value(run, p);
     double f1 = fmax(at, POT_END), f2 = fmax(1 - at, POT_END);
     *g1 = d ? -1 / (r * r * f1) : 1 / (r * f1);
     *g2 = d ? -1 / (r * r * f2) : 1 / (r * f2);
@@ -891,13 +897,13 @@ static void pot_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 
 double ls_ntc_r(const ls_part *p, const ls_run *run, double t_c)
 {
-    double beta = ls_part_opt(p, "beta", 3950);
+    double beta = ls_part_opt_in(run, p, "beta", 3950);
     return ls_run_value(run, p) * exp(beta * (1 / (t_c + KELVIN) - 1 / (25 + KELVIN)));
 }
 
 double ls_ntc_body(const ls_part *p, const ls_run *run)
 {
-    return ls_part_has(p, ls_kind_opt(p->kind, "dissipation")) ? ls_run_state(run, p)->op_t : ls_part_opt(p, "celsius", 25);
+    return ls_part_has(p, ls_kind_opt(p->kind, "dissipation")) ? ls_run_state(run, p)->op_t : ls_part_opt_in(run, p, "celsius", 25);
 }
 
 /* The conductance at the body temperature; derivative: d/d r25. */
@@ -931,7 +937,7 @@ static bool ntc_nonlinear(const ls_part *p)
 
 static void ntc_init(const ls_part *p, ls_run *run)
 {
-    ls_run_state(run, p)->op_t = ls_part_opt(p, "celsius", 25);
+    ls_run_state(run, p)->op_t = ls_part_opt_in(run, p, "celsius", 25);
     ls_run_state(run, p)->heat_t = ls_run_state(run, p)->heat_f = NAN;
 }
 
@@ -943,7 +949,7 @@ static void ntc_init(const ls_part *p, ls_run *run)
 static bool ntc_update(const ls_part *p, ls_run *run, const double *x)
 {
     double v = xval(x, N(p, 0)) - xval(x, N(p, 1)), t = ls_run_state(run, p)->op_t;
-    double f = ls_part_opt(p, "celsius", 25) + v * v / ls_ntc_r(p, run, t) / ls_part_opt(p, "dissipation", 1);
+    double f = ls_part_opt_in(run, p, "celsius", 25) + v * v / ls_ntc_r(p, run, t) / ls_part_opt_in(run, p, "dissipation", 1);
     double w = 1;
     if (isfinite(ls_run_state(run, p)->heat_t) && t != ls_run_state(run, p)->heat_t) {
         double slope = (f - ls_run_state(run, p)->heat_f) / (t - ls_run_state(run, p)->heat_t);
@@ -965,9 +971,10 @@ static bool ntc_update(const ls_part *p, ls_run *run, const double *x)
 /* Always one branch, so flipping the state keeps the structure:
  * closed V(a) - V(b) = ron I; open I = 0, or V(a) - V(b) = roff I with roff=. */
 
-static bool switch_closed(const ls_part *p)
+/* Is the switch closed in run (NULL: as elaborated)? */
+static bool switch_closed(const ls_run *run, const ls_part *p)
 {
-    return ls_part_opt(p, "state", 1) != 0;
+    return ls_part_opt_in(run, p, "state", 1) != 0;
 }
 
 /* Branch row by state, its pattern kept for both. */
@@ -981,20 +988,20 @@ static void switch_stamp(const ls_part *p, ls_stamp_ctx *c)
     keep_a(c->sink, k, t, 0);
     keep_a(c->sink, k, k, 0);
     bool roff = ls_part_has(p, ls_kind_opt(p->kind, "roff"));
-    if (c->removed || (!switch_closed(p) && !roff)) {
+    if (c->removed || (!switch_closed(c->run, p) && !roff)) {
         branch_open(c->sink, k);
         return;
     }
     ls_sink_a(c->sink, k, f, 1);
     ls_sink_a(c->sink, k, t, -1);
-    ls_sink_a(c->sink, k, k, -(switch_closed(p) ? ls_part_opt(p, "ron", 0) : ls_part_opt(p, "roff", 0)));
+    ls_sink_a(c->sink, k, k, -(switch_closed(c->run, p) ? ls_part_opt_in(c->run, p, "ron", 0) : ls_part_opt_in(c->run, p, "roff", 0)));
 }
 
 /* Closed: a (voltage-defined when ron = 0) edge; open: none unless roff=. */
 static void switch_edges(const ls_part *p, void *ctx, ls_edge_fn emit)
 {
     bool roff = ls_part_has(p, ls_kind_opt(p->kind, "roff"));
-    if (switch_closed(p))
+    if (switch_closed(NULL, p))
         emit(ctx, p->pin[0], p->pin[1], ls_part_opt(p, "ron", 0) == 0, -1);
     else if (roff)
         emit(ctx, p->pin[0], p->pin[1], false, -1);
@@ -1007,10 +1014,10 @@ static void adc_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     if (c->removed || c->derivative)
         return;
-    double rin = ls_part_opt(p, "rin", 0);
+    double rin = ls_part_opt_in(c->run, p, "rin", 0);
     if (rin > 0)
         ls_sink_a(c->sink, N(p, 0), N(p, 0), 1 / rin);
-    ls_sink_b(c->sink, N(p, 0), -ls_part_opt(p, "leak", 0) * src_scale(p, c->run));
+    ls_sink_b(c->sink, N(p, 0), -ls_part_opt_in(c->run, p, "leak", 0) * src_scale(p, c->run));
 }
 
 /* Current into the pin: V/rin + leak. */
@@ -1019,26 +1026,28 @@ static void adc_current(const ls_part *p, const ls_run *run, ls_lin *out, bool d
     (void)run; (void)depth;
     if (d)
         return;
-    double rin = ls_part_opt(p, "rin", 0);
+    double rin = ls_part_opt_in(run, p, "rin", 0);
     if (rin > 0)
         lin_add(out, N(p, 0), 1 / rin);
-    out->constant += ls_part_opt(p, "leak", 0) * src_scale(p, run);
+    out->constant += ls_part_opt_in(run, p, "leak", 0) * src_scale(p, run);
 }
 
 /* current into the pin, voltage at it, power it absorbs. */
 static void adc_results(const ls_part *p, const ls_run *run, const double *x, const double *v, double out[3])
 {
     (void)run;
-    double rin = ls_part_opt(p, "rin", 0), vin = v[p->pin[0]];
+    double rin = ls_part_opt_in(run, p, "rin", 0), vin = v[p->pin[0]];
     (void)x;
-    out[0] = (rin > 0 ? vin / rin : 0) + ls_part_opt(p, "leak", 0);
+    out[0] = (rin > 0 ? vin / rin : 0) + ls_part_opt_in(run, p, "leak", 0);
     out[1] = vin;
     out[2] = vin * out[0];
 }
 
-double ls_adc_lsb(const ls_part *p)
+double ls_adc_lsb(const ls_part *p) { return ls_adc_lsb_in(NULL, p); }
+
+double ls_adc_lsb_in(const ls_run *run, const ls_part *p)
 {
-    return ls_part_opt(p, "ref", 1) / ldexp(1, (int)ls_part_opt(p, "bits", 1));
+    return ls_part_opt_in(run, p, "ref", 1) / ldexp(1, (int)ls_part_opt_in(run, p, "bits", 1));
 }
 
 /* rin= is a DC path to ground. */
@@ -1266,26 +1275,46 @@ const char *ls_kind_renamed(const ls_kind *k, const char *name)
     return NULL;
 }
 
-int ls_edit_distance(const char *a, const char *b)
+/* A part's DC edges as its kind's edges() gives them (ls_part_same_shape). */
+#define SHAPE_EDGES 8
+typedef struct shape {
+    int n;
+    struct { int a, b; bool vdef; } e[SHAPE_EDGES];
+    bool overflow;
+} shape;
+
+static void shape_edge(void *ctx, int a, int b, bool vdef, int part)
 {
-    size_t la = strlen(a), lb = strlen(b);
-    if (la > 63 || lb > 63)
-        return 99;
-    int row[64];
-    for (size_t j = 0; j <= lb; j++)
-        row[j] = (int)j;
-    for (size_t i = 1; i <= la; i++) {
-        int prev = row[0];
-        row[0] = (int)i;
-        for (size_t j = 1; j <= lb; j++) {
-            int cur = row[j];
-            int sub = prev + (a[i - 1] != b[j - 1]);
-            int del = row[j] + 1, ins = row[j - 1] + 1;
-            row[j] = sub < del ? (sub < ins ? sub : ins) : (del < ins ? del : ins);
-            prev = cur;
-        }
+    (void)part;
+    shape *s = ctx;
+    if (s->n == SHAPE_EDGES) {
+        s->overflow = true;
+        return;
     }
-    return row[lb];
+    s->e[s->n].a = a;
+    s->e[s->n].b = b;
+    s->e[s->n++].vdef = vdef;
+}
+
+bool ls_part_same_shape(const ls_part *p, const ls_part *q)
+{
+    const ls_kind *k = p->kind;
+    if (q->kind != k || (k->branches && k->branches(p) != k->branches(q)) ||
+        (k->other_pins && k->other_pins(p) != k->other_pins(q)) ||
+        (k->is_nonlinear && k->is_nonlinear(p) != k->is_nonlinear(q)) ||
+        (k->monotone && k->monotone(p) != k->monotone(q)))
+        return false;
+    if (!k->edges)
+        return true;
+    shape a = {0}, b = {0};
+    k->edges(p, &a, shape_edge);
+    k->edges(q, &b, shape_edge);
+    if (a.overflow || b.overflow || a.n != b.n)
+        return false;
+    for (int i = 0; i < a.n; i++)
+        if (a.e[i].a != b.e[i].a || a.e[i].b != b.e[i].b || a.e[i].vdef != b.e[i].vdef)
+            return false;
+    return true;
 }
 
 void ls_part_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative)

@@ -6,6 +6,7 @@
 
 #include "netlist/netlist.h"
 #include "netlist/run.h"
+#include "base/suggest.h"   /* the did-you-mean of unknown kinds and options (elab.c) */
 
 #include <assert.h>
 
@@ -269,7 +270,20 @@ static inline bool ls_part_has(const ls_part *p, int opt)
     assert(opt < LS_MAX_OPTS); /* an option index from ls_kind_opt: -1 (none) or a slot */
     return opt >= 0 && (p->has_opt >> opt & 1u);
 }
+/* Option `name` of part p as elaborated, or dflt when not given: for what
+ * is fixed with the netlist (a part's branch count, its DC edges, whether
+ * current flows at its other pins), never for a value a solve stamps. */
 double ls_part_opt(const ls_part *p, const char *name, double dflt);
+/* Option `name` of part p in run `run` (a study may set it: run.h), or dflt
+ * when not given; run NULL: as elaborated. */
+double ls_part_opt_in(const ls_run *run, const ls_part *p, const char *name, double dflt);
+
+/* Do parts p and q (one part as elaborated twice, or as elaborated and with
+ * a run's options: same pins) have the same shape: the same branch
+ * unknowns, DC edges, pins that draw current, linearity and monotonicity?
+ * What the table's functions without a run read of a part is its shape, so
+ * a study may change a part's values in a run only while it keeps it. */
+bool ls_part_same_shape(const ls_part *p, const ls_part *q);
 
 /* Part current as a linear form in run (recursing through via=); depth guards cycles. */
 void ls_part_current(const ls_part *p, const ls_run *run, ls_lin *out, bool derivative);
@@ -293,23 +307,21 @@ const char *ls_lim_word(int state);
 /* Does the op-amp have any output limit (rails= or imax=)? */
 bool ls_opamp_limited(const ls_part *p);
 /* Junction current (A, anode -> cathode) of a diode, led or zener at junction
- * voltage vj (V), without the shunt terms; *beyond is set when vj is past the
+ * voltage vj (V), its model's options as in run, without the shunt terms; *beyond is set when vj is past the
  * point where the model's current exceeds LS_JUNCTION_IMAX. */
-double ls_junction_current(const ls_part *p, double vj, bool *beyond);
+double ls_junction_current(const ls_run *run, const ls_part *p, double vj, bool *beyond);
 /* Junction voltage (V) of a diode, led or zener in the solution x. */
 double ls_junction_v(const ls_part *p, const double *x);
 /* Thermistor resistance (ohm) at temperature t_c (degC), by the Beta equation. */
 double ls_ntc_r(const ls_part *p, const ls_run *run, double t_c);
-/* An adc's LSB (V): ref / 2^bits. */
+/* An adc's LSB (V): ref / 2^bits, as elaborated (ls_adc_lsb) or in run. */
 double ls_adc_lsb(const ls_part *p);
+double ls_adc_lsb_in(const ls_run *run, const ls_part *p);
 /* Thermistor body temperature (degC): celsius=, plus self-heating when solved with dissipation=. */
 double ls_ntc_body(const ls_part *p, const ls_run *run);
 
 #define LS_JUNCTION_IMAX 1e3     /* A: past this the exponential is continued linearly */
 #define LS_GMIN 1e-12            /* S: always across every junction (keeps a cut-off node defined) */
 #define LS_THERMAL_VOLTAGE (1.380649e-23 * 298.15 / 1.602176634e-19) /* V: kT/q at 25 degC (SI 2019 exact k, q) */
-
-/* Levenshtein distance, capped; used for "did you mean" suggestions. */
-int ls_edit_distance(const char *a, const char *b);
 
 #endif

@@ -2,6 +2,8 @@
  * reason of every null. */
 #include "report/jsonw.h"
 
+#include <assert.h>
+
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -133,6 +135,10 @@ static void newline(ls_jw *w, int depth)
 static void member(ls_jw *w, const char *key)
 {
     int d = w->depth;
+    /* an object's members are named, an array's values are not, and the top
+     * level holds one value (RFC 8259 sections 2, 4, 5): anything else is a
+     * report's programming error */
+    assert(d == 0 ? key == NULL : (key != NULL) == w->obj[d - 1]);
     if (d > 0) {
         if (w->n[d - 1]++)
             put_chr(w, ',');

@@ -218,13 +218,13 @@ static const char *limit_text(ls_report *rp, const ls_run *run, const ls_part *p
     assert(state >= LS_LIM_NONE && state <= LS_LIM_CURRENT_SINK);
     switch (state) {
     case LS_LIM_RAIL_HIGH: snprintf(buf, n, "rail-high (upper rail - %s)",
-                                    ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
+                                    ls_eng(rp, a, sizeof a, ls_part_opt_in(run, p, "headroom", 0), "V")); break;
     case LS_LIM_RAIL_LOW: snprintf(buf, n, "rail-low (lower rail + %s)",
-                                   ls_eng(rp, a, sizeof a, ls_part_opt(p, "headroom", 0), "V")); break;
+                                   ls_eng(rp, a, sizeof a, ls_part_opt_in(run, p, "headroom", 0), "V")); break;
     case LS_LIM_CURRENT_SOURCE: snprintf(buf, n, "current (sourcing %s)",
-                                         ls_eng(rp, a, sizeof a, ls_part_opt(p, "imax", 0), "A")); break;
+                                         ls_eng(rp, a, sizeof a, ls_part_opt_in(run, p, "imax", 0), "A")); break;
     case LS_LIM_CURRENT_SINK: snprintf(buf, n, "current (sinking %s)",
-                                       ls_eng(rp, a, sizeof a, ls_part_opt(p, "imax", 0), "A")); break;
+                                       ls_eng(rp, a, sizeof a, ls_part_opt_in(run, p, "imax", 0), "A")); break;
     default: snprintf(buf, n, "none"); break;
     }
     return buf;
@@ -318,7 +318,7 @@ static void ntc_members(ls_wr *w, const ls_op *op, const ls_part *p)
     double t = ls_ntc_body(p, &op->run);
     ls_wr_num(w, "resistance", ls_ntc_r(p, &op->run, t));
     ls_wr_num(w, "temperature", t);
-    ls_wr_num(w, "self_heating", t - ls_part_opt(p, "celsius", 25));
+    ls_wr_num(w, "self_heating", t - ls_part_opt_in(&op->run, p, "celsius", 25));
 }
 
 /* The text's thermistor table (JSON and CSV give them with their part). */
@@ -341,7 +341,7 @@ static void ntc_text(ls_wr *w, const ls_op *op)
         const ls_part *p = &nl->parts[i];
         if (!is_kind(p, "ntc"))
             continue;
-        double t_amb = ls_part_opt(p, "celsius", 25), t_body = ls_ntc_body(p, &op->run);
+        double t_amb = ls_part_opt_in(&op->run, p, "celsius", 25), t_body = ls_ntc_body(p, &op->run);
         char b2[64], b3[64], n1[48], n2[48];
         snprintf(b2, sizeof b2, "%s degC", ls_fixed(rp, n1, sizeof n1, "%.4g", t_body));
         snprintf(b3, sizeof b3, "%s K", ls_fixed(rp, n2, sizeof n2, "%.3g", t_body - t_amb));
@@ -395,7 +395,7 @@ static void budget_advice(ls_wr *w, const ls_results *res, int i, const ls_port_
     if (pr->adc >= 0) {
         const ls_part *a = &op->nl->parts[pr->adc];
         char nb[48];
-        snprintf(lsb, sizeof lsb, " (%s LSB of %s)", ls_fixed(rp, nb, sizeof nb, "%.3g", fabs(pr->sag) / ls_adc_lsb(a)),
+        snprintf(lsb, sizeof lsb, " (%s LSB of %s)", ls_fixed(rp, nb, sizeof nb, "%.3g", fabs(pr->sag) / ls_adc_lsb_in(&op->run, a)),
                  a->name);
     }
     ls_wr_say(w, "  -> %s: the sag of %s%s is over its budget of %s (%s).", p->name, sag, lsb, bud,

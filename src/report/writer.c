@@ -19,6 +19,7 @@ void ls_wr_begin(ls_wr *w, ls_report *rp)
 
 int ls_wr_finish(ls_wr *w)
 {
+    assert(w->depth == 0);   /* every ls_wr_obj / ls_wr_arr closed by its ls_wr_end */
     free(w->rbuf);
     free(w->join);
     free(w->path);

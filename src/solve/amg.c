@@ -316,12 +316,12 @@ static int floating_parts(const ls_csc *g, const unsigned char *strict, int *pin
     return np;
 }
 
-/* The border: B and C^T as k sparse columns over the node rows, D dense
- * (into h->s, column-major), with one pin per floating component (B: -g e,
- * C: e^T, D: -1) after the branches.  0, or -1 without memory. */
-static int take_border(amg *h, const ls_csc *a, const int *pin, int npin, double gpin)
+/* Room for the border of k columns with one pin per floating component
+ * (npin of them): B's and C^T's columns, D dense.  0, or -1 without memory
+ * (what was had is freed with h). */
+static int border_alloc(amg *h, const ls_csc *a, int npin)
 {
-    int m = h->m, kb = a->n - m, k = h->k;
+    int m = h->m, k = h->k;
     size_t nb = (size_t)npin, nc = (size_t)npin;
     for (int j = m; j < a->n; j++)
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
@@ -336,9 +336,14 @@ static int take_border(amg *h, const ls_csc *a, const int *pin, int npin, double
     h->ci = malloc((nc ? nc : 1) * sizeof(int));
     h->cv = malloc((nc ? nc : 1) * sizeof(double));
     h->s = calloc((size_t)(k ? k : 1) * (k ? k : 1), sizeof(double));
-    if (!h->bp || !h->cp || !h->bi || !h->bv || !h->ci || !h->cv || !h->s)
-        return -1;
-    int w = 0;
+    return h->bp && h->cp && h->bi && h->bv && h->ci && h->cv && h->s ? 0 : -1;
+}
+
+/* B (the branch columns' node rows, then -g e per pin) and D (the branch
+ * columns' branch rows, then -1 per pin). */
+static void border_b(amg *h, const ls_csc *a, const int *pin, int npin, double gpin)
+{
+    int m = h->m, kb = a->n - m, k = h->k, w = 0;
     for (int c = 0; c < kb; c++) {
         h->bp[c] = w;
         for (int p = a->colptr[m + c]; p < a->colptr[m + c + 1]; p++) {
@@ -358,7 +363,13 @@ static int take_border(amg *h, const ls_csc *a, const int *pin, int npin, double
         h->s[(size_t)(kb + q) * k + kb + q] = -1;
     }
     h->bp[k] = w;
-    /* C^T: count per border row, then fill (node columns in order: sorted) */
+}
+
+/* C^T (the branch rows' node columns, then e^T per pin): count per border
+ * row, then fill (node columns in order: sorted). */
+static void border_ct(amg *h, const ls_csc *a, const int *pin, int npin)
+{
+    int m = h->m, kb = a->n - m, k = h->k;
     for (int j = 0; j < m; j++)
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
             if (a->rowind[p] >= m)
@@ -379,6 +390,17 @@ static int take_border(amg *h, const ls_csc *a, const int *pin, int npin, double
         h->ci[at] = pin[q];
         h->cv[at] = 1;
     }
+}
+
+/* The border: B and C^T as k sparse columns over the node rows, D dense
+ * (into h->s, column-major), with one pin per floating component (B: -g e,
+ * C: e^T, D: -1) after the branches.  0, or -1 without memory. */
+static int take_border(amg *h, const ls_csc *a, const int *pin, int npin, double gpin)
+{
+    if (border_alloc(h, a, npin) != 0)
+        return -1;
+    border_b(h, a, pin, npin, gpin);
+    border_ct(h, a, pin, npin);
     return 0;
 }
 
@@ -659,6 +681,65 @@ static int schur(amg *h, ls_solver_stats *st)
 
 static int keep_own_columns(amg *h);
 
+/* A pin's conductance: the mean positive diagonal of g, so G + g e e^T
+ * stays as well conditioned as the mesh itself (1 without one). */
+static double pin_conductance(ls_csc *g)
+{
+    double dsum = 0;
+    int dn = 0;
+    for (int j = 0; j < g->n; j++) {
+        double d = *diag_of(g, j);
+        if (d > 0) {
+            dsum += d;
+            dn++;
+        }
+    }
+    return dn ? dsum / dn : 1;
+}
+
+/* Check G (symmetric, diagonally dominant) and choose its pins into work:
+ * the bare nodes, then one node per floating component, each given the
+ * conductance gpin to ground.  LS_SOLVER_* status; *npin the pins. */
+static int pin_g(amg *h, double gpin, int *work, int *npin, ls_solver_stats *st)
+{
+    int m = h->m;
+    unsigned char *strict = calloc((size_t)m, 1);
+    int *scratch = malloc((size_t)m * sizeof *scratch);
+    if (!strict || !scratch) {
+        free(strict);
+        free(scratch);
+        return LS_SOLVER_NOMEM;
+    }
+    int nbare = bare_nodes(&h->g, gpin, work);
+    int bad = ls_csc_asym_column(&h->g, scratch);
+    free(scratch);
+    if (bad < 0)
+        bad = ls_csc_dominance(&h->g, strict);
+    int nfloat = bad < 0 ? floating_parts(&h->g, strict, work + nbare) : 0;
+    free(strict);
+    if (bad >= 0 || nfloat < 0) {
+        st->bad_column = bad;
+        return bad >= 0 ? LS_SOLVER_NOT_SPD : LS_SOLVER_NOMEM;
+    }
+    for (int q = nbare; q < nbare + nfloat; q++)
+        *diag_of(&h->g, work[q]) += gpin;
+    *npin = nbare + nfloat;
+    return LS_SOLVER_OK;
+}
+
+/* The 1-norm of g (its largest column sum of |entries|). */
+static double csc_norm1(const ls_csc *g)
+{
+    double norm = 0;
+    for (int j = 0; j < g->n; j++) {
+        double c = 0;
+        for (int p = g->colptr[j]; p < g->colptr[j + 1]; p++)
+            c += fabs(g->val[p]);
+        norm = fmax(norm, c);
+    }
+    return norm;
+}
+
 /* Split a, check G, pin its floating parts, take the border and the
  * scratch: everything before hypre, in this process alone.  LS_SOLVER_*
  * status, as amg_build's. */
@@ -666,56 +747,19 @@ static int build_local(amg *h, const ls_csc *a, ls_solver_stats *st)
 {
     if (take_block(a, h->m, &h->g) != 0)
         return LS_SOLVER_NOMEM;
-    int m = h->m;
+    int m = h->m, npin = 0;
     int *work = malloc((size_t)m * sizeof *work);
-    unsigned char *strict = calloc((size_t)m, 1);
-    if (!work || !strict) {
-        free(work);
-        free(strict);
+    if (!work)
         return LS_SOLVER_NOMEM;
-    }
-    /* a pin's conductance: the mean positive diagonal, so G + g e e^T stays
-     * as well conditioned as the mesh itself */
-    double dsum = 0;
-    int dn = 0;
-    for (int j = 0; j < m; j++) {
-        double d = *diag_of(&h->g, j);
-        if (d > 0) {
-            dsum += d;
-            dn++;
-        }
-    }
-    double gpin = dn ? dsum / dn : 1;
-    int nbare = bare_nodes(&h->g, gpin, work);
-    int *scratch = malloc((size_t)m * sizeof *scratch);
-    int bad = scratch ? ls_csc_asym_column(&h->g, scratch) : -1;
-    free(scratch);
-    if (!scratch) {
+    double gpin = pin_conductance(&h->g);
+    int rc = pin_g(h, gpin, work, &npin, st);
+    if (rc != LS_SOLVER_OK) {
         free(work);
-        free(strict);
-        return LS_SOLVER_NOMEM;
+        return rc;
     }
-    if (bad < 0)
-        bad = ls_csc_dominance(&h->g, strict);
-    int nfloat = bad < 0 ? floating_parts(&h->g, strict, work + nbare) : 0;
-    free(strict);
-    if (bad >= 0 || nfloat < 0) {
-        free(work);
-        st->bad_column = bad;
-        return bad >= 0 ? LS_SOLVER_NOT_SPD : LS_SOLVER_NOMEM;
-    }
-    for (int q = nbare; q < nbare + nfloat; q++)
-        *diag_of(&h->g, work[q]) += gpin;
-    int npin = nbare + nfloat;
-    h->gnorm = 0;
-    for (int j = 0; j < m; j++) {
-        double c = 0;
-        for (int p = h->g.colptr[j]; p < h->g.colptr[j + 1]; p++)
-            c += fabs(h->g.val[p]);
-        h->gnorm = fmax(h->gnorm, c);
-    }
+    h->gnorm = csc_norm1(&h->g);
     h->k = a->n - m + npin;
-    int rc = take_border(h, a, work, npin, gpin);
+    rc = take_border(h, a, work, npin, gpin);
     free(work);
     if (rc != 0)
         return LS_SOLVER_NOMEM;

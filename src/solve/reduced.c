@@ -297,67 +297,90 @@ static void sort_column(ls_csc *c, size_t start, size_t w)
     }
 }
 
+/* The column of M being built: its fill w from start, whether its rows
+ * came in ascending order, and per reduced row its position (slot, -1:
+ * none yet). */
+typedef struct rcol {
+    ls_csc *c;
+    size_t cap, w, start;
+    bool sorted;
+    int *slot;
+} rcol;
+
+/* Add v at reduced row r of the column (summed onto an entry already
+ * there).  0, or -1 no memory. */
+static int col_add(rcol *col, int r, double v)
+{
+    if (col->slot[r] >= 0) {
+        col->c->val[col->slot[r]] += v;
+        return 0;
+    }
+    if (col_push(col->c, &col->cap, col->w, r, v) != 0)
+        return -1;
+    if (col->w > col->start && col->c->rowind[col->w - 1] > r)
+        col->sorted = false;
+    col->slot[r] = (int)col->w++;
+    return 0;
+}
+
+/* Add the term of Norton source k touching the column's node, whose entry
+ * in k's row is -cj: c_j c_l / a_kk for every free node l of k's column.
+ * 0, or -1 no memory. */
+static int add_source(const reduced *h, const ls_csc *a, rcol *col, int k, double cj)
+{
+    int pd = ls_csc_find(a, k, k);
+    double g = 1 / a->val[pd];
+    for (int q = a->colptr[k]; q < a->colptr[k + 1]; q++) {
+        int l = a->rowind[q];
+        if (l == k || h->pos[l] < 0)
+            continue;
+        if (col_add(col, h->pos[l], cj * a->val[q] * g) != 0)
+            return -1;
+    }
+    return 0;
+}
+
 /* Build M = (G + C1 D1^-1 C1^T)_UU column by column from a (split at h->m),
  * rows sorted, entries that cancel kept.  0 ok, -1 no memory. */
 static int build_reduced(reduced *h, const ls_csc *a)
 {
     int m = h->m, nu = h->nu;
-    int *slot = h->mark; /* reduced row -> position in the current column, or -1 */
     ls_csc *c = &h->mr;
     ls_csc_free(c);
     c->n = nu;
     c->colptr = malloc(((size_t)nu + 1) * sizeof *c->colptr);
-    size_t cap = (size_t)ls_csc_nnz(a) + 16, w = 0;
-    c->rowind = malloc(cap * sizeof *c->rowind);
-    c->val = malloc(cap * sizeof *c->val);
+    rcol col = {.c = c, .cap = (size_t)ls_csc_nnz(a) + 16, .slot = h->mark}; /* reduced row -> position, or -1 */
+    c->rowind = malloc(col.cap * sizeof *c->rowind);
+    c->val = malloc(col.cap * sizeof *c->val);
     if (!c->colptr || !c->rowind || !c->val)
         return -1;
     for (int i = 0; i < nu; i++)
-        slot[i] = -1;
+        col.slot[i] = -1;
     for (int u = 0; u < nu; u++) {
         int j = h->full[u];
-        size_t start = w;
-        int sorted = 1;
-        c->colptr[u] = (int)w;
+        col.start = col.w;
+        col.sorted = true;
+        c->colptr[u] = (int)col.w;
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++) {
             int i = a->rowind[p];
-            if (i < m) {
+            if (i < m) {   /* a conductance to free node pos[i]: rows arrive in order */
                 int r = h->pos[i];
                 if (r < 0)
                     continue;
-                if (col_push(c, &cap, w, r, a->val[p]) != 0)
+                if (col_push(c, &col.cap, col.w, r, a->val[p]) != 0)
                     return -1;
-                slot[r] = (int)w++;
-                continue;
-            }
-            if (h->fixes[i - m] >= 0)
-                continue;
-            /* Norton source k = i touching node j: c_j = -a_kj, c_l = a_lk */
-            int k = i, pd = ls_csc_find(a, k, k);
-            double cj = -a->val[p], g = 1 / a->val[pd];
-            for (int q = a->colptr[k]; q < a->colptr[k + 1]; q++) {
-                int l = a->rowind[q];
-                if (l == k || h->pos[l] < 0)
-                    continue;
-                int r = h->pos[l];
-                double v = cj * a->val[q] * g;
-                if (slot[r] >= 0) {
-                    c->val[slot[r]] += v;
-                } else {
-                    if (col_push(c, &cap, w, r, v) != 0)
-                        return -1;
-                    if (w > start && c->rowind[w - 1] > r)
-                        sorted = 0;
-                    slot[r] = (int)w++;
-                }
+                col.slot[r] = (int)col.w++;
+            } else if (h->fixes[i - m] < 0 && add_source(h, a, &col, i, -a->val[p]) != 0) {
+                /* Norton source k = i touching node j: c_j = -a_kj, c_l = a_lk */
+                return -1;
             }
         }
-        for (size_t p = start; p < w; p++)
-            slot[c->rowind[p]] = -1;
-        if (!sorted)
-            sort_column(c, start, w);
+        for (size_t p = col.start; p < col.w; p++)
+            col.slot[c->rowind[p]] = -1;
+        if (!col.sorted)
+            sort_column(c, col.start, col.w);
     }
-    c->colptr[nu] = (int)w;
+    c->colptr[nu] = (int)col.w;
     return 0;
 }
 

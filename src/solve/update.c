@@ -227,23 +227,10 @@ static bool pays(const ls_update *u, double factor_flops, double solve_flops)
     return setup + UPDATE_SOLVES * per_solve < factor_flops;
 }
 
-bool ls_update_try(ls_update *u, const ls_csc *a, double factor_flops, double solve_flops, ls_kept_solve solve,
-                   void *ctx, double *rcond)
+/* Z = A0^-1 E_R (one kept solve per changed row) and the capacitance
+ * matrix K = I + Dm Z[C, :].  false when a solve fails. */
+static bool capacitance(ls_update *u, ls_kept_solve solve, void *ctx)
 {
-    if (!u || !u->kept)
-        return false;
-    u->active = false;
-    if (!collect(u, a))
-        return false;
-    if (u->r == 0) { /* the matrix factored: nothing to do */
-        memcpy(u->acur, a->val, (size_t)u->nnz * sizeof *u->acur);
-        u->active = true;
-        u->updates++;
-        *rcond = u->rcond0;
-        return true;
-    }
-    if (!pays(u, factor_flops, solve_flops))
-        return false;
     int n = u->n, r = u->r, c = u->c;
     for (int i = 0; i < r; i++) { /* Z = A0^-1 E_R */
         double *zi = u->z + (size_t)n * i;
@@ -259,51 +246,89 @@ bool ls_update_try(ls_update *u, const ls_csc *a, double factor_flops, double so
                 s += u->dm[i + (size_t)r * j] * u->z[(size_t)n * k + u->cols[j]];
             u->k[i + (size_t)r * k] = s;
         }
-    double knorm = 0;
-    for (int k = 0; k < r; k++) {
+    return true;
+}
+
+/* The largest column sum of |M| for an r x c matrix M in column-major
+ * order with leading dimension ld (the 1-norm). */
+static double norm1_dense(const double *m, int r, int c, size_t ld)
+{
+    double norm = 0;
+    for (int j = 0; j < c; j++) {
         double s = 0;
         for (int i = 0; i < r; i++)
-            s += fabs(u->k[i + (size_t)r * k]);
-        knorm = fmax(knorm, s);
+            s += fabs(m[i + ld * (size_t)j]);
+        norm = fmax(norm, s);
     }
-    double krcond = 0;
-    if (LAPACKE_dgetrf(LAPACK_COL_MAJOR, r, r, u->k, r, u->ipiv) != 0 ||
-        LAPACKE_dgecon(LAPACK_COL_MAJOR, '1', r, u->k, r, knorm, &krcond) != 0 || !(krcond >= UPDATE_RCOND_MIN))
-        return false;
-    /* rcond(A) >= rcond(A0) |A0| / (|A| (1 + |Z| |K^-1 Dm|)) in the 1-norm,
-     * from A^-1 = (I - Z K^-1 Dm E_C^T) A0^-1: a conservative estimate */
+    return norm;
+}
+
+/* Factor K in place (LU, pivots in u->ipiv).  false when LAPACK fails or K
+ * is too ill-conditioned for the update to be trusted (UPDATE_RCOND_MIN). */
+static bool factor_k(ls_update *u)
+{
+    int r = u->r;
+    double knorm = norm1_dense(u->k, r, r, (size_t)r), krcond = 0;
+    return LAPACKE_dgetrf(LAPACK_COL_MAJOR, r, r, u->k, r, u->ipiv) == 0 &&
+           LAPACKE_dgecon(LAPACK_COL_MAJOR, '1', r, u->k, r, knorm, &krcond) == 0 && krcond >= UPDATE_RCOND_MIN;
+}
+
+/* |K^-1 Dm| in the 1-norm into *mnorm (K factored).  false when out of
+ * memory or LAPACK fails. */
+static bool kdm_norm(const ls_update *u, double *mnorm)
+{
+    int r = u->r, c = u->c;
     double *m = malloc((size_t)r * (size_t)c * sizeof *m);
     if (!m)
         return false;
     memcpy(m, u->dm, (size_t)r * (size_t)c * sizeof *m);
-    double mnorm = 0, znorm = 0;
-    if (LAPACKE_dgetrs(LAPACK_COL_MAJOR, 'N', r, c, u->k, r, u->ipiv, m, r) != 0) {
-        free(m);
-        return false;
-    }
-    for (int j = 0; j < c; j++) {
-        double s = 0;
-        for (int i = 0; i < r; i++)
-            s += fabs(m[i + (size_t)r * j]);
-        mnorm = fmax(mnorm, s);
-    }
+    bool ok = LAPACKE_dgetrs(LAPACK_COL_MAJOR, 'N', r, c, u->k, r, u->ipiv, m, r) == 0;
+    if (ok)
+        *mnorm = norm1_dense(m, r, c, (size_t)r);
     free(m);
-    for (int i = 0; i < r; i++) {
-        double s = 0;
-        for (int q = 0; q < n; q++)
-            s += fabs(u->z[(size_t)n * i + q]);
-        znorm = fmax(znorm, s);
-    }
+    return ok;
+}
+
+/* Make a the update's current matrix: its values, its reciprocal condition
+ * estimate (given |Z| |K^-1 Dm|), and its infinity norm for the residual
+ * checks. */
+static void take_matrix(ls_update *u, const ls_csc *a, double zm, double *rcond)
+{
+    int n = u->n;
     memcpy(u->acur, a->val, (size_t)u->nnz * sizeof *u->acur);
+    /* rcond(A) >= rcond(A0) |A0| / (|A| (1 + |Z| |K^-1 Dm|)) in the 1-norm,
+     * from A^-1 = (I - Z K^-1 Dm E_C^T) A0^-1: a conservative estimate */
     double anorm = norm1(u, u->acur);
-    *rcond = anorm > 0 ? u->rcond0 * u->norm0 / (anorm * (1 + znorm * mnorm)) : u->rcond0;
-    /* A's infinity norm, for the residual checks */
+    *rcond = anorm > 0 ? u->rcond0 * u->norm0 / (anorm * (1 + zm)) : u->rcond0;
     memset(u->w, 0, (size_t)n * sizeof *u->w);
     for (int p = 0; p < u->nnz; p++)
         u->w[u->rowind[p]] += fabs(u->acur[p]);
     u->normi = 0;
     for (int i = 0; i < n; i++)
         u->normi = fmax(u->normi, u->w[i]);
+}
+
+bool ls_update_try(ls_update *u, const ls_csc *a, double factor_flops, double solve_flops, ls_kept_solve solve,
+                   void *ctx, double *rcond)
+{
+    if (!u || !u->kept)
+        return false;
+    u->active = false;
+    if (!collect(u, a))
+        return false;
+    if (u->r == 0) { /* the matrix factored: nothing to do */
+        memcpy(u->acur, a->val, (size_t)u->nnz * sizeof *u->acur);
+        u->active = true;
+        u->updates++;
+        *rcond = u->rcond0;
+        return true;
+    }
+    double mnorm = 0;
+    if (!pays(u, factor_flops, solve_flops) || !capacitance(u, solve, ctx) || !factor_k(u) || !kdm_norm(u, &mnorm))
+        return false;
+    /* |Z| in the 1-norm: the columns of Z are its n x r block */
+    double znorm = norm1_dense(u->z, u->n, u->r, (size_t)u->n);
+    take_matrix(u, a, znorm * mnorm, rcond);
     u->active = true;
     u->updates++;
     return true;

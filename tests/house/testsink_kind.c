@@ -16,15 +16,16 @@
 
 enum { SINK_REGULATING = 0, SINK_SATURATED = 1 };
 
-static double compliance(const ls_part *p)
+/* V: its compliance= in this run (a sweep may set it). */
+static double compliance(const ls_part *p, const ls_run *run)
 {
-    return ls_part_opt(p, "compliance", 1);
+    return ls_part_opt_in(run, p, "compliance", 1);
 }
 
 /* S: the conductance below the compliance. */
 static double saturated_g(const ls_part *p, const ls_run *run)
 {
-    return ls_run_value(run, p) / compliance(p);
+    return ls_run_value(run, p) / compliance(p, run);
 }
 
 /* No branch current unknown: its current is VALUE or g (V(FROM) - V(TO)). */
@@ -43,7 +44,7 @@ void ls_testsink_stamp(const ls_part *p, ls_stamp_ctx *c)
         return;
     int from = ls_node_unknown(p->pin[0]), to = ls_node_unknown(p->pin[1]);
     if (ls_run_state(c->run, p)->state == SINK_SATURATED) {
-        double g = c->derivative ? 1 / compliance(p) : saturated_g(p, c->run);
+        double g = c->derivative ? 1 / compliance(p, c->run) : saturated_g(p, c->run);
         ls_stamp_conductance(c->sink, from, to, g);
         return;
     }
@@ -57,7 +58,7 @@ void ls_testsink_current(const ls_part *p, const ls_run *run, ls_lin *out, bool 
 {
     (void)depth;
     if (ls_run_state(run, p)->state == SINK_SATURATED) {
-        double g = derivative ? 1 / compliance(p) : saturated_g(p, run);
+        double g = derivative ? 1 / compliance(p, run) : saturated_g(p, run);
         ls_lin_add(out, ls_node_unknown(p->pin[0]), g);
         ls_lin_add(out, ls_node_unknown(p->pin[1]), -g);
         return;
@@ -92,9 +93,9 @@ bool ls_testsink_update(const ls_part *p, ls_run *run, const double *x)
     double v = ls_x_at(x, ls_node_unknown(p->pin[0])) - ls_x_at(x, ls_node_unknown(p->pin[1]));
     int want;
     if (ls_run_state(run, p)->state == SINK_REGULATING)
-        want = v >= compliance(p) ? SINK_REGULATING : SINK_SATURATED;
+        want = v >= compliance(p, run) ? SINK_REGULATING : SINK_SATURATED;
     else   /* saturated: its current g v reaches VALUE exactly at the compliance */
-        want = v > compliance(p) ? SINK_REGULATING : SINK_SATURATED;
+        want = v > compliance(p, run) ? SINK_REGULATING : SINK_SATURATED;
     bool settled = want == ls_run_state(run, p)->state;
     ls_run_state(run, p)->state = want;
     return settled;
