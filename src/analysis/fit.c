@@ -331,19 +331,98 @@ static void judge(fit_run *r, ls_op *op, ls_fit_cand *c)
     c->current = supply_current(op);
 }
 
+/* x < y by more than a tie (TIE_REL); false when either is not finite and they are equal. */
+static bool clearly_below(double x, double y)
+{
+    if (x == y || isnan(x) || isnan(y))
+        return false;
+    if (isfinite(x) && isfinite(y))
+        return x < y - TIE_REL * fmax(fabs(x), fabs(y));
+    return x < y;
+}
+
+/* Can a candidate whose checks other than the ports give it smallest goal
+ * margin `margin`, smallest margin `worst`, `failed` failures and supply
+ * current `current` no longer enter the kept list, whatever its ports show?
+ * The ports can only lower the two margins and add failures, never change
+ * the current, so this is exact: it holds only when the list is full and
+ * the candidate already ranks after its last entry by more than a tie. */
+static bool cannot_rank(const fit_run *r, double margin, double worst, int failed, double current)
+{
+    if (r->nkeep < r->cap_keep)
+        return false;
+    const ls_fit_cand *ref = &r->keep[r->cap_keep - 1];
+    if (!ref->meets) /* by how close it comes: worst only falls, failures only grow */
+        return failed > 0 && worst < ref->worst;
+    if (failed > 0)
+        return true;  /* infeasible now, infeasible with its ports */
+    if (r->f->goal == LS_FIT_CURRENT)
+        return clearly_below(ref->current, current);
+    return clearly_below(margin, ref->margin);
+}
+
+/* judge, for a candidate that is only kept if it ranks (no summary wanted):
+ * every check but the ports first, and the ports (the costly part: each its
+ * own solves) only when the others leave the candidate a chance to rank
+ * (cannot_rank).  Returns true when it judged every check; false when it
+ * stopped early (c then holds a partial summary that is never kept). */
+static bool judge_if_it_can_rank(fit_run *r, ls_op *op, ls_fit_cand *c)
+{
+    c->margin = INFINITY;
+    c->worst = INFINITY;
+    c->failed = 0;
+    c->current = supply_current(op);
+    for (int pass = 0; pass < 2; pass++) {
+        for (int s = 0; s < r->nslots; s++) {
+            if ((r->slots[s].kind == LS_FITC_PORT) != (pass == 1))
+                continue;
+            ls_fit_check k;
+            eval_slot(op, &r->slots[s], &k);
+            if (k.in_goal)
+                c->margin = fmin(c->margin, k.margin);
+            c->worst = fmin(c->worst, k.margin);
+            c->failed += !k.pass;
+        }
+        if (pass == 0 && cannot_rank(r, c->margin, c->worst, c->failed, c->current))
+            return false;
+    }
+    c->meets = c->failed == 0;
+    return true;
+}
+
+/* The summary of a candidate that did not solve: it fails every check. */
+static void evaluate_unsolved(const fit_run *r, ls_fit_cand *c)
+{
+    c->solved = false;
+    c->meets = false;
+    c->margin = c->worst = -INFINITY;
+    c->current = NAN;
+    c->failed = r->nslots ? r->nslots : 1;
+}
+
 /* Solve candidate c (its value[] set) and judge it. */
 static void evaluate(fit_run *r, ls_fit_cand *c)
 {
     c->yield = NAN;
     c->solved = solve_at(r, c->value);
     if (!c->solved) {
-        c->meets = false;
-        c->margin = c->worst = -INFINITY;
-        c->current = NAN;
-        c->failed = r->nslots ? r->nslots : 1;
+        evaluate_unsolved(r, c);
         return;
     }
     judge(r, r->f->op, c);
+}
+
+/* evaluate, for a candidate wanted only if it ranks: false when its port
+ * reports were skipped because it cannot (judge_if_it_can_rank), and it
+ * must then not be kept. */
+static bool evaluate_if_it_can_rank(fit_run *r, ls_fit_cand *c)
+{
+    c->yield = NAN;
+    if (!solve_at(r, c->value)) {
+        evaluate_unsolved(r, c);
+        return true;
+    }
+    return judge_if_it_can_rank(r, r->f->op, c);
 }
 
 /* ---- the ranking ----------------------------------------------------------------------------- */
@@ -507,13 +586,18 @@ static int try_idx(fit_run *r, const int *idx, ls_fit_cand *out, bool *fresh)
     ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch};
     for (int j = 0; j < f->nvars; j++)
         c.value[j] = f->vars[j].values[idx[j]];
-    evaluate(r, &c);
+    /* without a summary wanted, a candidate that cannot rank skips its ports */
+    bool whole = true;
+    if (out)
+        evaluate(r, &c);
+    else
+        whole = evaluate_if_it_can_rank(r, &c);
     f->evaluated++;
     if (f->progress && (f->evaluated & 63) == 0)
         f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
     if (out)
         *out = c;
-    return keep(r, &c);
+    return whole ? keep(r, &c) : 0;
 }
 
 /* ---- every combination ------------------------------------------------------------------------- */
@@ -1141,16 +1225,6 @@ static void bb_bounds(fit_run *r, bb_state *b, int k, bb_bound *out)
         if (isnan(out->current))
             out->current = -INFINITY;
     }
-}
-
-/* x < y by more than a tie (TIE_REL); false when either is not finite and they are equal. */
-static bool clearly_below(double x, double y)
-{
-    if (x == y || isnan(x) || isnan(y))
-        return false;
-    if (isfinite(x) && isfinite(y))
-        return x < y - TIE_REL * fmax(fabs(x), fabs(y));
-    return x < y;
 }
 
 /* Can nothing in a box with these bounds enter the ranks that must be right
