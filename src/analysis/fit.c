@@ -310,6 +310,20 @@ static bool solve_at(fit_run *r, const double *values)
     return false;
 }
 
+/* Judge check s on the solved op into c's summary (and keep it when
+ * c->checks is set). */
+static void tally(const fit_run *r, ls_op *op, int s, ls_fit_cand *c)
+{
+    ls_fit_check k;
+    eval_slot(op, &r->slots[s], &k);
+    if (k.in_goal)
+        c->margin = fmin(c->margin, k.margin);
+    c->worst = fmin(c->worst, k.margin);
+    c->failed += !k.pass;
+    if (c->checks)
+        c->checks[s] = k;
+}
+
 /* Summarise the checks on the solved op into c (and keep them when c->checks
  * is set: nslots of them). */
 static void judge(fit_run *r, ls_op *op, ls_fit_cand *c)
@@ -317,16 +331,8 @@ static void judge(fit_run *r, ls_op *op, ls_fit_cand *c)
     c->margin = INFINITY;
     c->worst = INFINITY;
     c->failed = 0;
-    for (int s = 0; s < r->nslots; s++) {
-        ls_fit_check k;
-        eval_slot(op, &r->slots[s], &k);
-        if (k.in_goal)
-            c->margin = fmin(c->margin, k.margin);
-        c->worst = fmin(c->worst, k.margin);
-        c->failed += !k.pass;
-        if (c->checks)
-            c->checks[s] = k;
-    }
+    for (int s = 0; s < r->nslots; s++)
+        tally(r, op, s, c);
     c->meets = c->failed == 0;
     c->current = supply_current(op);
 }
@@ -374,14 +380,8 @@ static bool judge_if_it_can_rank(fit_run *r, ls_op *op, ls_fit_cand *c)
     c->current = supply_current(op);
     for (int pass = 0; pass < 2; pass++) {
         for (int s = 0; s < r->nslots; s++) {
-            if ((r->slots[s].kind == LS_FITC_PORT) != (pass == 1))
-                continue;
-            ls_fit_check k;
-            eval_slot(op, &r->slots[s], &k);
-            if (k.in_goal)
-                c->margin = fmin(c->margin, k.margin);
-            c->worst = fmin(c->worst, k.margin);
-            c->failed += !k.pass;
+            if ((r->slots[s].kind == LS_FITC_PORT) == (pass == 1))
+                tally(r, op, s, c);
         }
         if (pass == 0 && cannot_rank(r, c->margin, c->worst, c->failed, c->current))
             return false;
