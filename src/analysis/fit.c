@@ -836,12 +836,38 @@ static int descent(fit_run *r)
     return 0;
 }
 
+/* ---- how far from the best ------------------------------------------------------------------- */
+
+/* Set found and limit from the best candidate kept and `open`, the limit of
+ * the designs not yet solved or ruled out (-inf for the margin, +inf for the
+ * current, when there are none; NaN-free: +inf / -inf when one has no bound). */
+static void set_limit(fit_run *r, double open)
+{
+    ls_fit_study *f = r->f;
+    bool cur = f->goal == LS_FIT_CURRENT;
+    const ls_fit_cand *best = r->nkeep > 0 && r->keep[0].meets ? &r->keep[0] : NULL;
+    f->found = best ? (cur ? best->current : best->margin) : NAN;
+    f->limit_why = NULL;
+    if (best)
+        f->limit = cur ? fmin(f->found, open) : fmax(f->found, open);
+    else
+        f->limit = open;
+    if (f->limit == (cur ? -INFINITY : INFINITY)) {
+        f->limit = NAN;
+        f->limit_why = "a part of the ranges not yet searched has a check without a bound";
+    } else if (f->limit == (cur ? INFINITY : -INFINITY)) {
+        f->limit_why = "no design in the ranges meets every check";
+    }
+}
+
 /* ---- branch and bound ---------------------------------------------------------------------------- */
 
 #define BB_BOUND_DIMS 12        /* a box wider than one value in more parts is split without a bound */
 #define BB_CACHE 16384          /* points whose checks are kept for the bounds (power of two), at most */
 #define BB_BYTES (32L << 20)    /* bytes the cache, and the corner rows, may take each */
 #define BB_NOISE 1e-9           /* relative change below which a check is flat along a part */
+#define LIMIT_SHARE 0.1         /* share of the search's solves the limit of what it left may take */
+#define LIMIT_MIN 2000          /* ... at least this many */
 #define BB_SLACK 1e-6           /* relative widening of a limit before a bound may say it is missed */
 
 /* A box: free part j restricted to series positions lo[j]..hi[j]. */
@@ -1332,19 +1358,27 @@ static int bb_split(const fit_run *r, const bb_box *x, int w, bb_box *stack, int
     return top;
 }
 
+/* The combinations in box x; its parts wider than one value into act[0..*k-1]. */
+static double box_shape(const fit_run *r, const bb_box *x, int *act, int *k)
+{
+    double count = 1;
+    *k = 0;
+    for (int j = 0; j < r->f->nvars; j++) {
+        count *= x->hi[j] - x->lo[j] + 1;
+        if (x->hi[j] > x->lo[j])
+            act[(*k)++] = j;
+    }
+    return count;
+}
+
 /* Look at one box popped from the stack: enumerate it when that costs no
  * more than bounding it, else bound it and prune or split.  Returns the new
  * stack size, or -1 on no memory. */
 static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int top)
 {
     ls_fit_study *f = r->f;
-    int act[LS_FIT_MAX_FREE], k = 0;
-    double count = 1;
-    for (int j = 0; j < f->nvars; j++) {
-        count *= x->hi[j] - x->lo[j] + 1;
-        if (x->hi[j] > x->lo[j])
-            act[k++] = j;
-    }
+    int act[LS_FIT_MAX_FREE], k;
+    double count = box_shape(r, x, act, &k);
     f->bb_boxes++;
     if (count <= 16 || (k <= b->dims && count <= (double)(2 << k))) {
         f->bb_enumerated++;
@@ -1396,6 +1430,131 @@ static void bb_free(bb_state *b)
     free(b->flag);
 }
 
+/* A proven limit over box x of the goal's figure, for a search that stopped
+ * with x not yet looked at: the upper bound of the smallest goal margin
+ * (with the current goal, the lower bound of the supply current) of any
+ * design in x that meets every check, on the same evidence a box is ruled
+ * out on (bb_visit): its corners, then the inward steps of the figure the
+ * limit comes from, whose bound is made again from them.  A small box is
+ * solved combination by combination (its designs are then among those
+ * found: -inf, or +inf for the current).  +inf (-inf for the current) when
+ * no bound holds.  Returns 0, -1 on no memory. */
+static int bb_limit(fit_run *r, bb_state *b, const bb_box *x, double *lim)
+{
+    ls_fit_study *f = r->f;
+    bool cur = f->goal == LS_FIT_CURRENT;
+    int act[LS_FIT_MAX_FREE], k;
+    double count = box_shape(r, x, act, &k);
+    *lim = cur ? -INFINITY : INFINITY;
+    if (count <= 16 || (k <= b->dims && count <= (double)(2 << k))) {
+        *lim = -*lim;
+        return bb_enumerate(r, x);
+    }
+    if (k > b->dims)
+        return 0;
+    bb_bound bd;
+    if (bb_corners(r, b, x, act, k) != 0)
+        return -1;
+    bb_bounds(r, b, k, &bd);
+    if (bd.worst < 0) { /* nothing in it meets every check, unless the steps say otherwise */
+        int s = bd.worst_at;
+        if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s)) != 0)
+            return -1;
+        if (bound_check(r, b, k, s) < 0) {
+            *lim = -*lim;
+            return 0;
+        }
+        bb_bounds(r, b, k, &bd);
+    }
+    int s = cur ? r->nslots : bd.margin_at;
+    if (s < 0)
+        return 0;
+    if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s)) != 0)
+        return -1;
+    if (cur) {
+        bb_bounds(r, b, k, &bd);
+        *lim = bd.current;
+    } else {
+        *lim = bound_check(r, b, k, s);
+    }
+    return 0;
+}
+
+/* The open box whose limit is the weakest (largest margin, least current):
+ * its index in lim[0..n-1]. */
+static int weakest(const fit_run *r, const double *lim, int n)
+{
+    bool cur = r->f->goal == LS_FIT_CURRENT;
+    int w = 0;
+    for (int i = 1; i < n; i++)
+        if (cur ? lim[i] < lim[w] : lim[i] > lim[w])
+            w = i;
+    return w;
+}
+
+/* The limit over every design in the ranges (ls_fit_study's found and
+ * limit) for a search that stopped: the better of the best found and every
+ * open box's limit (bb_limit).  The boxes the stack left are large, their
+ * limits loose: the weakest is then split and its halves bounded again,
+ * weakest first, within LIMIT_SHARE of the search's solves (at least
+ * LIMIT_MIN), or until it is no better than the best found (those solves
+ * are counted apart, in limit_solves).  Returns 0, -1 on no memory. */
+static int bb_open_limits(fit_run *r, bb_state *b, const bb_box *stack, int top, long cap)
+{
+    ls_fit_study *f = r->f;
+    bool cur = f->goal == LS_FIT_CURRENT;
+    long solves0 = f->bb_solves, evaluated0 = f->evaluated;
+    long budget = (long)(LIMIT_SHARE * (double)cap) > LIMIT_MIN ? (long)(LIMIT_SHARE * (double)cap) : LIMIT_MIN;
+    int n = top, room = top + 64;
+    bb_box *open = malloc((size_t)room * sizeof *open);
+    double *lim = malloc((size_t)room * sizeof *lim);
+    int rc = open && lim ? 0 : -1;
+    if (rc == 0)
+        memcpy(open, stack, (size_t)top * sizeof *open);
+    for (int i = 0; i < n && rc == 0 && !r->nomem; i++)
+        rc = bb_limit(r, b, &open[i], &lim[i]);
+    /* (each round splits one box: a round that finds its halves' corners
+     * cached solves nothing, so the rounds are capped too) */
+    for (long round = 0; rc == 0 && n > 0 && !r->nomem && f->evaluated - evaluated0 < budget && round < budget;
+         round++) {
+        int w = weakest(r, lim, n);
+        const ls_fit_cand *best = r->nkeep > 0 && r->keep[0].meets ? &r->keep[0] : NULL;
+        if (lim[w] == (cur ? INFINITY : -INFINITY))
+            break; /* nothing open can meet every check */
+        if (best && !(cur ? lim[w] < best->current : lim[w] > best->margin))
+            break; /* nothing open can beat the best found */
+        if (n + 1 >= room) {
+            room *= 2;
+            bb_box *o2 = realloc(open, (size_t)room * sizeof *open);
+            if (o2)
+                open = o2;
+            double *l2 = realloc(lim, (size_t)room * sizeof *lim);
+            if (l2)
+                lim = l2;
+            if (!o2 || !l2) {
+                rc = -1;
+                break;
+            }
+        }
+        bb_box x = open[w];
+        open[w] = open[--n];
+        lim[w] = lim[n];
+        n = bb_split(r, &x, -1, open, n);
+        for (int i = n - 2; i < n && rc == 0; i++)
+            rc = bb_limit(r, b, &open[i], &lim[i]);
+    }
+    double worst_open = cur ? INFINITY : -INFINITY;
+    for (int i = 0; i < n && rc == 0; i++)
+        worst_open = cur ? fmin(worst_open, lim[i]) : fmax(worst_open, lim[i]);
+    f->limit_solves = f->evaluated - evaluated0;
+    f->bb_solves = solves0;
+    if (rc == 0)
+        set_limit(r, worst_open);
+    free(open);
+    free(lim);
+    return rc;
+}
+
 /* Branch and bound over the whole candidate set, from the incumbents the
  * earlier stages kept, within max_solves candidate solves (f->proven says
  * whether it finished).  Returns 0, -1 on no memory. */
@@ -1434,6 +1593,10 @@ static int branch_and_bound(fit_run *r)
         }
         f->proven = top == 0 && !r->nomem;
         rc = top < 0 ? -1 : 0;
+        if (rc == 0 && !f->proven && !r->nomem)
+            rc = bb_open_limits(r, &b, stack, top, cap);
+        else
+            set_limit(r, f->goal == LS_FIT_CURRENT ? INFINITY : -INFINITY);
     }
     bb_free(&b);
     free(stack);
@@ -1617,7 +1780,9 @@ static int search(fit_run *r)
     double limit = f->exhaustive_limit > 0 ? f->exhaustive_limit : LS_FIT_EXHAUSTIVE;
     if (f->combinations <= limit) {
         f->exhaustive = f->proven = true;
-        return exhaustive(r);
+        int rc = exhaustive(r);
+        set_limit(r, f->goal == LS_FIT_CURRENT ? INFINITY : -INFINITY);
+        return rc;
     }
     /* Two starts, the written values and the middle of the ranges (on a log
      * scale): the continuous optimum is local, and the written values may sit
@@ -1652,6 +1817,9 @@ int ls_fit_run(ls_fit_study *f)
     f->nlopt_status = 0;
     f->exhaustive = f->any_feasible = f->have_yield = f->proven = false;
     f->bb_solves = f->bb_boxes = f->bb_pruned = f->bb_enumerated = f->bb_unbounded = 0;
+    f->found = f->limit = NAN;
+    f->limit_why = NULL;
+    f->limit_solves = 0;
     if (f->nl->nfrees == 0)
         return LS_FIT_NOFREE;
     if (f->nl->nfrees > LS_FIT_MAX_FREE)
