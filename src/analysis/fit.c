@@ -1609,12 +1609,17 @@ static int branch_and_bound(fit_run *r)
 static bool trial_feasible(void *ctx, ls_op *op)
 {
     const fit_run *r = ctx;
-    for (int s = 0; s < r->nslots; s++) {
-        ls_fit_check k;
-        eval_slot(op, &r->slots[s], &k);
-        if (!k.pass)
-            return false;
-    }
+    /* the ports last: each is its own solves, and a trial that fails sooner
+     * needs none of them (the verdict is the same in any order) */
+    for (int pass = 0; pass < 2; pass++)
+        for (int s = 0; s < r->nslots; s++) {
+            if ((r->slots[s].kind == LS_FITC_PORT) != (pass == 1))
+                continue;
+            ls_fit_check k;
+            eval_slot(op, &r->slots[s], &k);
+            if (!k.pass)
+                return false;
+        }
     return true;
 }
 
@@ -1808,6 +1813,26 @@ static int search(fit_run *r)
     return branch_and_bound(r);
 }
 
+/* After the search: solve the written values again (the session's op as it
+ * was), and make the run's code say so when that fails or when a candidate
+ * ran short of memory (its error is in `scratch`, the candidates' diagnostics:
+ * they are not what they seem).  Returns the run's code. */
+static int put_back(fit_run *r, int code, const ls_diags *scratch)
+{
+    ls_fit_study *f = r->f;
+    double *start = r->scratch;
+    for (int j = 0; start && j < f->nvars; j++)
+        start[j] = f->vars[j].start;
+    bool back = start && r->x0 && r->have_run0 && solve_at(r, start);
+    if (scratch->nomem > 0 && code == LS_FIT_OK)
+        code = LS_FIT_NOMEM;
+    if (scratch->nomem > 0)
+        r->nomem = true;
+    if (code == LS_FIT_OK && !back)
+        code = r->nomem ? LS_FIT_NOMEM : LS_EXIT_UNSOLVABLE;
+    return code;
+}
+
 int ls_fit_run(ls_fit_study *f)
 {
     f->vars = NULL;
@@ -1845,20 +1870,9 @@ int ls_fit_run(ls_fit_study *f)
         code = LS_FIT_OK;
     f->factorizations = ss ? ss->factorizations - fact0 : 0;
     f->analyses = ss ? ss->analyses - an0 : 0;
-    double *start = r.scratch;
-    for (int j = 0; start && j < f->nvars; j++)
-        start[j] = f->vars[j].start;
-    bool back = start && r.x0 && r.have_run0 && solve_at(&r, start);   /* the session's op as it was */
+    code = put_back(&r, code, &scratch);
     f->nl->diags = kept;
-    /* a port report or an expect that ran short of memory during the search
-     * left its error in the scratch list: the candidates are not what they seem */
-    if (scratch.nomem > 0 && code == LS_FIT_OK)
-        code = LS_FIT_NOMEM;
-    if (scratch.nomem > 0)
-        r.nomem = true;
     ls_diags_free(&scratch);
-    if (code == LS_FIT_OK && !back)
-        code = r.nomem ? LS_FIT_NOMEM : LS_EXIT_UNSOLVABLE;
     f->best = r.keep;
     f->nbest = r.nkeep;
     f->any_feasible = r.nkeep > 0 && r.keep[0].meets;

@@ -353,9 +353,9 @@ static void search_text(ls_wr *w, const ls_fit_study *f)
               f->combinations, f->nlopt_evals, f->evaluated, f->bb_solves, f->bb_boxes, f->bb_pruned);
     if (f->proven && f->goal == LS_FIT_YIELD)
         ls_wr_say(w, "  proven: no other combination has a larger margin than the finalists, whose yields rank "
-                     "them below\n\n");
+                     "them below\n");
     else if (f->proven)
-        ls_wr_say(w, "  proven: no other combination ranks above the candidates below\n\n");
+        ls_wr_say(w, "  proven: no other combination ranks above the candidates below\n");
     else
         ls_wr_say(w, "  NOT PROVEN: the search stopped at its limit of %ld solves (--max-solves); the candidates "
                      "below are the best found, and a combination not tried may rank higher\n",
