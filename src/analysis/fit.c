@@ -9,8 +9,10 @@
 #include <assert.h>
 #include <math.h>
 #include <nlopt.h>
+#include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "base/eseries.h"
 #include "analysis/newton.h"
@@ -44,6 +46,7 @@ typedef struct fit_run {
     long total_hint;         /* for the progress line */
     double *scratch;         /* nvars values */
     bool nomem;              /* a candidate's solve ran out of memory: the search has no answer */
+    long worker_factorizations;  /* those of the second thread's op (bb_corners) */
 } fit_run;
 
 /* Relative distance of v above lo (one-sided limit): scaled by |lo|, else by
@@ -290,24 +293,30 @@ static double supply_current(const ls_op *op)
 /* Put the free parts at values[], restart from the written values' operating
  * point (so a result never depends on the candidate solved before it) and
  * solve.  Returns true when it solved. */
-static bool solve_at(fit_run *r, const double *values)
+static bool solve_on(const fit_run *r, ls_op *op, const double *values, bool *nomem_out)
 {
-    ls_fit_study *f = r->f;
-    bool nomem = ls_run_copy(&f->op->run, &r->run0) != 0;
+    const ls_fit_study *f = r->f;
+    bool nomem = ls_run_copy(&op->run, &r->run0) != 0;
     for (int j = 0; j < f->nvars && !nomem; j++)
-        nomem = ls_run_set_value(&f->op->run, f->vars[j].part, values[j]) != 0;
+        nomem = ls_run_set_value(&op->run, f->vars[j].part, values[j]) != 0;
     if (nomem) {
-        r->nomem = true;
+        *nomem_out = true;
         return false;
     }
-    if (f->op->mna.n > 0)
-        memcpy(f->op->x, r->x0, (size_t)f->op->mna.n * sizeof *r->x0);
-    if (ls_op_resolve(f->op) == LS_EXIT_OK)
+    if (op->mna.n > 0)
+        memcpy(op->x, r->x0, (size_t)op->mna.n * sizeof *r->x0);
+    if (ls_op_resolve(op) == LS_EXIT_OK)
         return true;
     /* a solve without memory says nothing of the candidate: never ranked as
      * one that does not solve (docs/limits.md, out of memory) */
-    r->nomem |= f->op->nomem;
+    *nomem_out |= op->nomem;
     return false;
+}
+
+/* solve_on the session's op. */
+static bool solve_at(fit_run *r, const double *values)
+{
+    return solve_on(r, r->f->op, values, &r->nomem);
 }
 
 /* Judge check s on the solved op into c's summary (and keep it when
@@ -400,16 +409,23 @@ static void evaluate_unsolved(const fit_run *r, ls_fit_cand *c)
     c->failed = r->nslots ? r->nslots : 1;
 }
 
-/* Solve candidate c (its value[] set) and judge it. */
-static void evaluate(fit_run *r, ls_fit_cand *c)
+/* Solve candidate c (its value[] set) on op and judge it (*nomem set when
+ * the solve ran short of memory). */
+static void evaluate_on(fit_run *r, ls_op *op, ls_fit_cand *c, bool *nomem)
 {
     c->yield = NAN;
-    c->solved = solve_at(r, c->value);
+    c->solved = solve_on(r, op, c->value, nomem);
     if (!c->solved) {
         evaluate_unsolved(r, c);
         return;
     }
-    judge(r, r->f->op, c);
+    judge(r, op, c);
+}
+
+/* evaluate_on the session's op. */
+static void evaluate(fit_run *r, ls_fit_cand *c)
+{
+    evaluate_on(r, r->f->op, c, &r->nomem);
 }
 
 /* evaluate, for a candidate wanted only if it ranks: false when its port
@@ -897,6 +913,11 @@ typedef struct bb_state {
     double *corner;          /* (1 << BB_BOUND_DIMS) rows */
     double *tmp;             /* one row */
     ls_fit_check *checks;    /* nslots */
+    int *cidx;               /* a box's corners: (1 << dims) index vectors, */
+    double *cval;            /* their values, */
+    ls_fit_cand *ccand;      /* and their summaries */
+    int *pend;               /* the corners not in the cache */
+    struct fit_worker *worker;   /* the second thread's op, or NULL (one thread) */
     unsigned char *flag;     /* per (check or current, active part): 1 rises, 2 falls, 4 unknown; value and margin */
     bool limit_varies_any;
 } bb_state;
@@ -916,50 +937,87 @@ static size_t idx_hash(const int *idx, int n)
     return (size_t)(h ^ (h >> 29));
 }
 
-/* The checks of the series point idx into row: from the cache, else solved
- * (and kept, as every candidate).  Returns 0, -1 on no memory. */
-static int bb_probe(fit_run *r, bb_state *b, const int *idx, double *row)
+/* The cache slot of the series point idx: its entry (*hit) or the empty
+ * slot where it would go. */
+static size_t cache_find(const fit_run *r, const bb_state *b, const int *idx, bool *hit)
 {
-    ls_fit_study *f = r->f;
-    int n = f->nvars;
+    int n = r->f->nvars;
     size_t k = idx_hash(idx, n) & (b->cache - 1);
+    *hit = false;
     while (b->used[k]) {
         if (memcmp(&b->keys[k * (size_t)n], idx, (size_t)n * sizeof *idx) == 0) {
-            memcpy(row, row_at(b, b->rows, (long)k), (size_t)b->width * sizeof *row);
-            return 0;
+            *hit = true;
+            return k;
         }
         k = (k + 1) & (b->cache - 1);
     }
-    ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch, .checks = b->checks};
-    for (int j = 0; j < n; j++)
-        c.value[j] = f->vars[j].values[idx[j]];
-    evaluate(r, &c);
-    c.checks = NULL;
+    return k;
+}
+
+/* Solve candidate c (idx and value set) on op: its summary into c, its
+ * checks (into `checks`, nslots of scratch) as a row.  Touches nothing
+ * shared but what it reads, so two threads may each run it on an op of
+ * their own. */
+static void probe_solve(fit_run *r, ls_op *op, bool *nomem, ls_fit_check *checks, ls_fit_cand *c, double *row)
+{
+    c->checks = checks;
+    evaluate_on(r, op, c, nomem);
+    c->checks = NULL;
+    for (int s = 0; s < r->nslots; s++) {
+        const ls_fit_check *q = &checks[s];
+        row[4 * s] = c->solved ? q->value : NAN;
+        row[4 * s + 1] = c->solved ? q->margin : NAN;
+        row[4 * s + 2] = c->solved ? q->lo : NAN;
+        row[4 * s + 3] = c->solved ? q->hi : NAN;
+    }
+    row[4 * r->nslots] = c->current;
+    row[4 * r->nslots + 1] = c->solved;
+}
+
+/* A point just solved (probe_solve): counted, marked solved, its row
+ * cached and the candidate kept.  Returns 0, -1 on no memory. */
+static int probe_commit(fit_run *r, bb_state *b, const int *idx, const double *row, const ls_fit_cand *c)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars;
     f->evaluated++;
     f->bb_solves++;
     if (seen_before(r, idx, n) < 0) /* marked, so the other stages need not solve it again */
         return -1;
     if (f->progress && (f->evaluated & 63) == 0)
         f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
-    for (int s = 0; s < r->nslots; s++) {
-        const ls_fit_check *q = &b->checks[s];
-        row[4 * s] = c.solved ? q->value : NAN;
-        row[4 * s + 1] = c.solved ? q->margin : NAN;
-        row[4 * s + 2] = c.solved ? q->lo : NAN;
-        row[4 * s + 3] = c.solved ? q->hi : NAN;
+    bool hit;
+    size_t k = cache_find(r, b, idx, &hit);
+    if (!hit) {
+        if (2 * (b->filled + 1) > b->cache) { /* full: start afresh (the cache only saves solves) */
+            memset(b->used, 0, (size_t)b->cache);
+            b->filled = 0;
+            k = idx_hash(idx, n) & (b->cache - 1);
+        }
+        b->used[k] = 1;
+        b->filled++;
+        memcpy(&b->keys[k * (size_t)n], idx, (size_t)n * sizeof *idx);
     }
-    row[4 * r->nslots] = c.current;
-    row[4 * r->nslots + 1] = c.solved;
-    if (2 * (b->filled + 1) > b->cache) { /* full: start afresh (the cache only saves solves) */
-        memset(b->used, 0, (size_t)b->cache);
-        b->filled = 0;
-        k = idx_hash(idx, n) & (b->cache - 1);
-    }
-    b->used[k] = 1;
-    b->filled++;
-    memcpy(&b->keys[k * (size_t)n], idx, (size_t)n * sizeof *idx);
     memcpy(row_at(b, b->rows, (long)k), row, (size_t)b->width * sizeof *row);
-    return keep(r, &c);
+    return keep(r, c);
+}
+
+/* The checks of the series point idx into row: from the cache, else solved
+ * (and kept, as every candidate).  Returns 0, -1 on no memory. */
+static int bb_probe(fit_run *r, bb_state *b, const int *idx, double *row)
+{
+    ls_fit_study *f = r->f;
+    bool hit;
+    size_t k = cache_find(r, b, idx, &hit);
+    if (hit) {
+        memcpy(row, row_at(b, b->rows, (long)k), (size_t)b->width * sizeof *row);
+        return 0;
+    }
+    ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch};
+    for (int j = 0; j < f->nvars; j++)
+        c.value[j] = f->vars[j].values[idx[j]];
+    probe_solve(r, f->op, &r->nomem, b->checks, &c, row);
+    return probe_commit(r, b, idx, row, &c);
 }
 
 /* Record the sign of the change d between two figures a -> b along an
@@ -1079,15 +1137,134 @@ static void corner_idx(const fit_run *r, const bb_box *x, const int *act, int k,
             idx[act[t]] = x->hi[act[t]];
 }
 
+/* A second thread's own operating point for candidate solves (the
+ * session's netlist record with diagnostics of its own, as tol's trials
+ * have), and its share of a batch of corners. */
+typedef struct fit_worker {
+    fit_run *r;
+    ls_netlist nl;
+    ls_arena arena;
+    ls_diags diags;
+    ls_op op;
+    ls_fit_check *checks;    /* nslots */
+    bool nomem;
+    long fact0;              /* its solver's factorizations after its own solve */
+    bb_state *b;             /* the batch: corners pend[from..to) */
+    int from, to;
+} fit_worker;
+
+/* Solve corners pend[from..to) of the batch in b on op into their rows and summaries. */
+static void corner_share(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int from, int to)
+{
+    for (int i = from; i < to; i++) {
+        int m = b->pend[i];
+        probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+    }
+}
+
+static void *worker_main(void *arg)
+{
+    fit_worker *w = arg;
+    corner_share(w->r, w->b, &w->op, &w->nomem, w->checks, w->from, w->to);
+    return NULL;
+}
+
+/* Threads for the search: LOADSTACK_THREADS when set, else the online
+ * processors; the search uses two at most. */
+static int fit_threads(void)
+{
+    const char *env = getenv("LOADSTACK_THREADS");
+    long n = env && *env ? strtol(env, NULL, 10) : sysconf(_SC_NPROCESSORS_ONLN);
+    return n >= 2 ? 2 : 1;
+}
+
+/* Set up the second thread's op (solved once at the written values, so
+ * its symbolic analysis matches the session's: every candidate then starts
+ * from the same state on either op, and solves to the same bits).  Returns
+ * the worker, or NULL (one thread: not asked for, or no memory, or it did
+ * not solve). */
+static fit_worker *worker_new(fit_run *r)
+{
+    if (fit_threads() < 2)
+        return NULL;
+    fit_worker *w = calloc(1, sizeof *w);
+    if (!w)
+        return NULL;
+    w->r = r;
+    ls_arena_init(&w->arena);
+    ls_diags_init(&w->diags, &w->arena);
+    w->nl = *r->f->nl;
+    w->nl.diags = &w->diags;
+    w->checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *w->checks);
+    ls_options opt = r->f->op->opt;
+    if (w->checks && ls_op_solve(&w->op, &w->nl, &opt) == LS_EXIT_OK) {
+        w->fact0 = w->op.solver ? ls_solver_stats_of(w->op.solver)->factorizations : 0;
+        return w;
+    }
+    ls_op_free(&w->op);
+    free(w->checks);
+    ls_diags_free(&w->diags);
+    ls_arena_free(&w->arena);
+    free(w);
+    return NULL;
+}
+
+/* Free the worker, its candidate factorizations counted into the run's. */
+static void worker_free(fit_worker *w)
+{
+    if (!w)
+        return;
+    if (w->op.solver)
+        w->r->worker_factorizations += ls_solver_stats_of(w->op.solver)->factorizations - w->fact0;
+    ls_op_free(&w->op);
+    free(w->checks);
+    ls_diags_free(&w->diags);
+    ls_arena_free(&w->arena);
+    free(w);
+}
+
 /* Solve the corners of box x (its active parts act[0..k-1]) into the corner
- * rows and note the changes along every edge.  Returns 0, -1 on no memory. */
+ * rows and note the changes along every edge: those in the cache from it,
+ * the others solved (on two threads when there is a worker: each solve is
+ * a function of its values alone) and then counted, cached and kept in
+ * corner order, so the outcome is the same on one thread or two.  Returns
+ * 0, -1 on no memory. */
 static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k)
 {
-    int nc = 1 << k, idx[LS_FIT_MAX_FREE];
+    int nc = 1 << k, n = r->f->nvars, np = 0;
     memset(b->flag, 0, (size_t)2 * (r->nslots + 1) * k);
     for (int m = 0; m < nc; m++) {
+        int *idx = b->cidx + (size_t)m * n;
         corner_idx(r, x, act, k, m, idx);
-        if (bb_probe(r, b, idx, row_at(b, b->corner, m)) != 0)
+        bool hit;
+        size_t at = cache_find(r, b, idx, &hit);
+        if (hit) {
+            memcpy(row_at(b, b->corner, m), row_at(b, b->rows, (long)at), (size_t)b->width * sizeof(double));
+            continue;
+        }
+        ls_fit_cand *c = &b->ccand[m];
+        *c = (ls_fit_cand){.idx = idx, .value = b->cval + (size_t)m * n};
+        for (int j = 0; j < n; j++)
+            c->value[j] = r->f->vars[j].values[idx[j]];
+        b->pend[np++] = m;
+    }
+    fit_worker *w = b->worker;
+    pthread_t tid;
+    bool two = w && np >= 4;
+    if (two) {
+        w->b = b;
+        w->from = np / 2;
+        w->to = np;
+        two = pthread_create(&tid, NULL, worker_main, w) == 0;
+    }
+    corner_share(r, b, r->f->op, &r->nomem, b->checks, 0, two ? np / 2 : np);
+    if (two) {
+        pthread_join(tid, NULL);
+        r->nomem |= w->nomem;
+    }
+    for (int i = 0; i < np; i++) {
+        int m = b->pend[i];
+        if (probe_commit(r, b, b->cidx + (size_t)m * n, row_at(b, b->corner, m), &b->ccand[m]) != 0)
             return -1;
     }
     for (int m = 0; m < nc; m++)
@@ -1428,6 +1605,11 @@ static void bb_free(bb_state *b)
     free(b->tmp);
     free(b->checks);
     free(b->flag);
+    free(b->cidx);
+    free(b->cval);
+    free(b->ccand);
+    free(b->pend);
+    worker_free(b->worker);
 }
 
 /* A proven limit over box x of the goal's figure, for a search that stopped
@@ -1577,9 +1759,15 @@ static int branch_and_bound(fit_run *r)
     b.tmp = malloc((size_t)b.width * sizeof *b.tmp);
     b.checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *b.checks);
     b.flag = malloc((size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1);
+    b.cidx = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cidx);
+    b.cval = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cval);
+    b.ccand = malloc(((size_t)1 << b.dims) * sizeof *b.ccand);
+    b.pend = malloc(((size_t)1 << b.dims) * sizeof *b.pend);
+    b.worker = worker_new(r);
     bb_box *stack = malloc((size_t)depth * sizeof *stack);
     int rc = -1;
-    if (b.keys && b.rows && b.used && b.corner && b.tmp && b.checks && b.flag && stack) {
+    if (b.keys && b.rows && b.used && b.corner && b.tmp && b.checks && b.flag && b.cidx && b.cval && b.ccand &&
+        b.pend && stack) {
         int top = 1;
         for (int j = 0; j < n; j++) {
             stack[0].lo[j] = 0;
@@ -1868,7 +2056,7 @@ int ls_fit_run(ls_fit_study *f)
     if (r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0 &&
         rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_FIT_OK;
-    f->factorizations = ss ? ss->factorizations - fact0 : 0;
+    f->factorizations = (ss ? ss->factorizations - fact0 : 0) + r.worker_factorizations;
     f->analyses = ss ? ss->analyses - an0 : 0;
     code = put_back(&r, code, &scratch);
     f->nl->diags = kept;
