@@ -431,14 +431,20 @@ static void evaluate(fit_run *r, ls_fit_cand *c)
 /* evaluate, for a candidate wanted only if it ranks: false when its port
  * reports were skipped because it cannot (judge_if_it_can_rank), and it
  * must then not be kept. */
-static bool evaluate_if_it_can_rank(fit_run *r, ls_fit_cand *c)
+static bool evaluate_if_it_can_rank_on(fit_run *r, ls_op *op, ls_fit_cand *c, bool *nomem)
 {
     c->yield = NAN;
-    if (!solve_at(r, c->value)) {
+    if (!solve_on(r, op, c->value, nomem)) {
         evaluate_unsolved(r, c);
         return true;
     }
-    return judge_if_it_can_rank(r, r->f->op, c);
+    return judge_if_it_can_rank(r, op, c);
+}
+
+/* evaluate_if_it_can_rank_on the session's op. */
+static bool evaluate_if_it_can_rank(fit_run *r, ls_fit_cand *c)
+{
+    return evaluate_if_it_can_rank_on(r, r->f->op, c, &r->nomem);
 }
 
 /* ---- the ranking ----------------------------------------------------------------------------- */
@@ -918,6 +924,8 @@ typedef struct bb_state {
     ls_fit_cand *ccand;      /* and their summaries */
     int *pend;               /* the corners not in the cache */
     struct fit_worker *worker;   /* the second thread's op, or NULL (one thread) */
+    bool ranking;            /* the batch is of combinations wanted only if they rank (bb_enumerate) */
+    bool *whole;             /* ... and which of them were judged whole */
     unsigned char *flag;     /* per (check or current, active part): 1 rises, 2 falls, 4 unknown; value and margin */
     bool limit_varies_any;
 } bb_state;
@@ -1153,12 +1161,19 @@ typedef struct fit_worker {
     int from, to;
 } fit_worker;
 
-/* Solve corners pend[from..to) of the batch in b on op into their rows and summaries. */
+/* Solve entries pend[from..to) of the batch in b on op: a box's corners
+ * into their rows and summaries, or (b->ranking) combinations wanted only
+ * if they rank, each with whether it was judged whole
+ * (evaluate_if_it_can_rank_on: that reads the kept list, which nothing
+ * changes while a batch is solved). */
 static void corner_share(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int from, int to)
 {
     for (int i = from; i < to; i++) {
         int m = b->pend[i];
-        probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+        if (b->ranking)
+            b->whole[m] = evaluate_if_it_can_rank_on(r, op, &b->ccand[m], nomem);
+        else
+            probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
     }
 }
 
@@ -1167,6 +1182,26 @@ static void *worker_main(void *arg)
     fit_worker *w = arg;
     corner_share(w->r, w->b, &w->op, &w->nomem, w->checks, w->from, w->to);
     return NULL;
+}
+
+/* Solve the np entries of b->pend, on two threads when there is a worker
+ * and enough of them. */
+static void batch_solve(fit_run *r, bb_state *b, int np)
+{
+    fit_worker *w = b->worker;
+    pthread_t tid;
+    bool two = w && np >= 4;
+    if (two) {
+        w->b = b;
+        w->from = np / 2;
+        w->to = np;
+        two = pthread_create(&tid, NULL, worker_main, w) == 0;
+    }
+    corner_share(r, b, r->f->op, &r->nomem, b->checks, 0, two ? np / 2 : np);
+    if (two) {
+        pthread_join(tid, NULL);
+        r->nomem |= w->nomem;
+    }
 }
 
 /* Threads for the search: LOADSTACK_THREADS when set, else the online
@@ -1248,20 +1283,8 @@ static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
             c->value[j] = r->f->vars[j].values[idx[j]];
         b->pend[np++] = m;
     }
-    fit_worker *w = b->worker;
-    pthread_t tid;
-    bool two = w && np >= 4;
-    if (two) {
-        w->b = b;
-        w->from = np / 2;
-        w->to = np;
-        two = pthread_create(&tid, NULL, worker_main, w) == 0;
-    }
-    corner_share(r, b, r->f->op, &r->nomem, b->checks, 0, two ? np / 2 : np);
-    if (two) {
-        pthread_join(tid, NULL);
-        r->nomem |= w->nomem;
-    }
+    b->ranking = false;
+    batch_solve(r, b, np);
     for (int i = 0; i < np; i++) {
         int m = b->pend[i];
         if (probe_commit(r, b, b->cidx + (size_t)m * n, row_at(b, b->corner, m), &b->ccand[m]) != 0)
@@ -1476,19 +1499,55 @@ static bool bb_prune_on(fit_run *r, bb_state *b, int k, const bb_bound *before, 
     return bb_prune(r, &one);
 }
 
-/* Solve every combination of box x.  Returns 0, -1 on no memory. */
-static int bb_enumerate(fit_run *r, const bb_box *x)
+/* Solve, keep and count the batch of combinations b->cidx[0..np) (each
+ * marked solved already): on two threads when there is a worker, then kept
+ * in order, so the outcome is the same on one thread or two.  Returns 0,
+ * -1 on no memory. */
+static int enumerate_batch(fit_run *r, bb_state *b, int np)
 {
-    int n = r->f->nvars, idx[LS_FIT_MAX_FREE];
+    ls_fit_study *f = r->f;
+    int n = f->nvars;
+    for (int i = 0; i < np; i++) {
+        ls_fit_cand *c = &b->ccand[i];
+        *c = (ls_fit_cand){.idx = b->cidx + (size_t)i * n, .value = b->cval + (size_t)i * n};
+        for (int j = 0; j < n; j++)
+            c->value[j] = f->vars[j].values[c->idx[j]];
+        b->pend[i] = i;
+    }
+    b->ranking = true;
+    batch_solve(r, b, np);
+    for (int i = 0; i < np; i++) {
+        f->evaluated++;
+        if (f->progress && (f->evaluated & 63) == 0)
+            f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
+        if (b->whole[i] && keep(r, &b->ccand[i]) != 0)
+            return -1;
+    }
+    return 0;
+}
+
+/* Solve every combination of box x not solved before (try_idx's work, in
+ * batches of a box's corners' size).  Returns 0, -1 on no memory. */
+static int bb_enumerate(fit_run *r, bb_state *b, const bb_box *x)
+{
+    int n = r->f->nvars, idx[LS_FIT_MAX_FREE], np = 0, room = 1 << b->dims;
     memcpy(idx, x->lo, (size_t)n * sizeof *idx);
     while (true) {
-        if (try_idx(r, idx, NULL, NULL) != 0)
+        int seen = seen_before(r, idx, n);
+        if (seen < 0)
             return -1;
+        if (seen == 0)
+            memcpy(b->cidx + (size_t)np++ * n, idx, (size_t)n * sizeof *idx);
+        if (np == room) {
+            if (enumerate_batch(r, b, np) != 0)
+                return -1;
+            np = 0;
+        }
         int j = 0;
         while (j < n && ++idx[j] > x->hi[j])
             idx[j] = x->lo[j], j++;
         if (j == n)
-            return 0;
+            return enumerate_batch(r, b, np);
     }
 }
 
@@ -1560,7 +1619,7 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
     if (count <= 16 || (k <= b->dims && count <= (double)(2 << k))) {
         f->bb_enumerated++;
         long before = f->evaluated;
-        int rc = bb_enumerate(r, x);
+        int rc = bb_enumerate(r, b, x);
         f->bb_solves += f->evaluated - before;
         return rc != 0 ? -1 : top;
     }
@@ -1609,6 +1668,7 @@ static void bb_free(bb_state *b)
     free(b->cval);
     free(b->ccand);
     free(b->pend);
+    free(b->whole);
     worker_free(b->worker);
 }
 
@@ -1630,7 +1690,7 @@ static int bb_limit(fit_run *r, bb_state *b, const bb_box *x, double *lim)
     *lim = cur ? -INFINITY : INFINITY;
     if (count <= 16 || (k <= b->dims && count <= (double)(2 << k))) {
         *lim = -*lim;
-        return bb_enumerate(r, x);
+        return bb_enumerate(r, b, x);
     }
     if (k > b->dims)
         return 0;
@@ -1763,11 +1823,12 @@ static int branch_and_bound(fit_run *r)
     b.cval = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cval);
     b.ccand = malloc(((size_t)1 << b.dims) * sizeof *b.ccand);
     b.pend = malloc(((size_t)1 << b.dims) * sizeof *b.pend);
+    b.whole = malloc(((size_t)1 << b.dims) * sizeof *b.whole);
     b.worker = worker_new(r);
     bb_box *stack = malloc((size_t)depth * sizeof *stack);
     int rc = -1;
     if (b.keys && b.rows && b.used && b.corner && b.tmp && b.checks && b.flag && b.cidx && b.cval && b.ccand &&
-        b.pend && stack) {
+        b.pend && b.whole && stack) {
         int top = 1;
         for (int j = 0; j < n; j++) {
             stack[0].lo[j] = 0;
