@@ -1232,6 +1232,7 @@ static fit_worker *worker_new(fit_run *r)
     w->nl.diags = &w->diags;
     w->checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *w->checks);
     ls_options opt = r->f->op->opt;
+    opt.phase = NULL; /* the session's progress line is not this op's to move */
     if (w->checks && ls_op_solve(&w->op, &w->nl, &opt) == LS_EXIT_OK) {
         w->fact0 = w->op.solver ? ls_solver_stats_of(w->op.solver)->factorizations : 0;
         return w;
