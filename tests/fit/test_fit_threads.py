@@ -7,7 +7,8 @@ keeps them in corner order, so nothing may depend on the thread count.
 The circuits are test_fit_bb.py's bias ladder (four free resistors, 160 000
 combinations: branch and bound runs) with and without its non-monotone power
 check, for the margin and current goals, finished and stopped by --max-solves,
-in text and JSON; the check is byte-for-byte equality of the two runs' output
+in text and JSON, and the benchmark's op-amp chain (tests/bench/fit_bench.py)
+stopped at 1000 solves; the check is byte-for-byte equality of the two runs' output
 (no outside value is needed: the claim is that the thread count changes
 nothing, the test_fit_bb.py and test_fit_limit.py enumerations check the
 answers themselves).
@@ -39,6 +40,15 @@ def main():
                     check(outs[0] == outs[1] and outs[0] != "",
                           f"{' '.join(args[2:])} (power check {power}): one thread and two give the same report")
                     compared += 1
+    # the benchmark's 30-part chain (two op-amps with rails, five ports): the
+    # op-amps' limit states must come out the same on either thread's op
+    sys.path.insert(0, os.path.join(HERE, "..", "bench"))
+    from fit_bench import chain  # noqa: E402
+    path = circuit("threads_chain.stack", chain(4))
+    args = ["fit", path, "--format", "json", "--max-solves", "1k", "--quiet"]
+    outs = [run(args, env={"LOADSTACK_THREADS": t})[1] for t in ("1", "2")]
+    check(outs[0] == outs[1] and outs[0] != "", "the op-amp chain: one thread and two give the same report")
+    compared += 1
     print(f"{compared} reports compared, one thread against two")
     finish()
 
