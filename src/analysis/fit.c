@@ -9,8 +9,10 @@
 #include <assert.h>
 #include <math.h>
 #include <nlopt.h>
+#include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "base/eseries.h"
 #include "analysis/newton.h"
@@ -44,6 +46,7 @@ typedef struct fit_run {
     long total_hint;         /* for the progress line */
     double *scratch;         /* nvars values */
     bool nomem;              /* a candidate's solve ran out of memory: the search has no answer */
+    long worker_factorizations;  /* those of the second thread's op (bb_corners) */
 } fit_run;
 
 /* Relative distance of v above lo (one-sided limit): scaled by |lo|, else by
@@ -290,24 +293,44 @@ static double supply_current(const ls_op *op)
 /* Put the free parts at values[], restart from the written values' operating
  * point (so a result never depends on the candidate solved before it) and
  * solve.  Returns true when it solved. */
-static bool solve_at(fit_run *r, const double *values)
+static bool solve_on(const fit_run *r, ls_op *op, const double *values, bool *nomem_out)
 {
-    ls_fit_study *f = r->f;
-    bool nomem = ls_run_copy(&f->op->run, &r->run0) != 0;
+    const ls_fit_study *f = r->f;
+    bool nomem = ls_run_copy(&op->run, &r->run0) != 0;
     for (int j = 0; j < f->nvars && !nomem; j++)
-        nomem = ls_run_set_value(&f->op->run, f->vars[j].part, values[j]) != 0;
+        nomem = ls_run_set_value(&op->run, f->vars[j].part, values[j]) != 0;
     if (nomem) {
-        r->nomem = true;
+        *nomem_out = true;
         return false;
     }
-    if (f->op->mna.n > 0)
-        memcpy(f->op->x, r->x0, (size_t)f->op->mna.n * sizeof *r->x0);
-    if (ls_op_resolve(f->op) == LS_EXIT_OK)
+    if (op->mna.n > 0)
+        memcpy(op->x, r->x0, (size_t)op->mna.n * sizeof *r->x0);
+    if (ls_op_resolve(op) == LS_EXIT_OK)
         return true;
     /* a solve without memory says nothing of the candidate: never ranked as
      * one that does not solve (docs/limits.md, out of memory) */
-    r->nomem |= f->op->nomem;
+    *nomem_out |= op->nomem;
     return false;
+}
+
+/* solve_on the session's op. */
+static bool solve_at(fit_run *r, const double *values)
+{
+    return solve_on(r, r->f->op, values, &r->nomem);
+}
+
+/* Judge check s on the solved op into c's summary (and keep it when
+ * c->checks is set). */
+static void tally(const fit_run *r, ls_op *op, int s, ls_fit_cand *c)
+{
+    ls_fit_check k;
+    eval_slot(op, &r->slots[s], &k);
+    if (k.in_goal)
+        c->margin = fmin(c->margin, k.margin);
+    c->worst = fmin(c->worst, k.margin);
+    c->failed += !k.pass;
+    if (c->checks)
+        c->checks[s] = k;
 }
 
 /* Summarise the checks on the solved op into c (and keep them when c->checks
@@ -317,33 +340,111 @@ static void judge(fit_run *r, ls_op *op, ls_fit_cand *c)
     c->margin = INFINITY;
     c->worst = INFINITY;
     c->failed = 0;
-    for (int s = 0; s < r->nslots; s++) {
-        ls_fit_check k;
-        eval_slot(op, &r->slots[s], &k);
-        if (k.in_goal)
-            c->margin = fmin(c->margin, k.margin);
-        c->worst = fmin(c->worst, k.margin);
-        c->failed += !k.pass;
-        if (c->checks)
-            c->checks[s] = k;
-    }
+    for (int s = 0; s < r->nslots; s++)
+        tally(r, op, s, c);
     c->meets = c->failed == 0;
     c->current = supply_current(op);
 }
 
-/* Solve candidate c (its value[] set) and judge it. */
-static void evaluate(fit_run *r, ls_fit_cand *c)
+/* x < y by more than a tie (TIE_REL); false when either is not finite and they are equal. */
+static bool clearly_below(double x, double y)
+{
+    if (x == y || isnan(x) || isnan(y))
+        return false;
+    if (isfinite(x) && isfinite(y))
+        return x < y - TIE_REL * fmax(fabs(x), fabs(y));
+    return x < y;
+}
+
+/* Can a candidate whose checks other than the ports give it smallest goal
+ * margin `margin`, smallest margin `worst`, `failed` failures and supply
+ * current `current` no longer enter the kept list, whatever its ports show?
+ * The ports can only lower the two margins and add failures, never change
+ * the current, so this is exact: it holds only when the list is full and
+ * the candidate already ranks after its last entry by more than a tie. */
+static bool cannot_rank(const fit_run *r, double margin, double worst, int failed, double current)
+{
+    if (r->nkeep < r->cap_keep)
+        return false;
+    const ls_fit_cand *ref = &r->keep[r->cap_keep - 1];
+    if (!ref->meets) /* by how close it comes: worst only falls, failures only grow */
+        return failed > 0 && worst < ref->worst;
+    if (failed > 0)
+        return true;  /* infeasible now, infeasible with its ports */
+    if (r->f->goal == LS_FIT_CURRENT)
+        return clearly_below(ref->current, current);
+    return clearly_below(margin, ref->margin);
+}
+
+/* judge, for a candidate that is only kept if it ranks (no summary wanted):
+ * every check but the ports first, and the ports (the costly part: each its
+ * own solves) only when the others leave the candidate a chance to rank
+ * (cannot_rank).  Returns true when it judged every check; false when it
+ * stopped early (c then holds a partial summary that is never kept). */
+static bool judge_if_it_can_rank(fit_run *r, ls_op *op, ls_fit_cand *c)
+{
+    c->margin = INFINITY;
+    c->worst = INFINITY;
+    c->failed = 0;
+    c->current = supply_current(op);
+    for (int pass = 0; pass < 2; pass++) {
+        for (int s = 0; s < r->nslots; s++) {
+            if ((r->slots[s].kind == LS_FITC_PORT) == (pass == 1))
+                tally(r, op, s, c);
+        }
+        if (pass == 0 && cannot_rank(r, c->margin, c->worst, c->failed, c->current))
+            return false;
+    }
+    c->meets = c->failed == 0;
+    return true;
+}
+
+/* The summary of a candidate that did not solve: it fails every check. */
+static void evaluate_unsolved(const fit_run *r, ls_fit_cand *c)
+{
+    c->solved = false;
+    c->meets = false;
+    c->margin = c->worst = -INFINITY;
+    c->current = NAN;
+    c->failed = r->nslots ? r->nslots : 1;
+}
+
+/* Solve candidate c (its value[] set) on op and judge it (*nomem set when
+ * the solve ran short of memory). */
+static void evaluate_on(fit_run *r, ls_op *op, ls_fit_cand *c, bool *nomem)
 {
     c->yield = NAN;
-    c->solved = solve_at(r, c->value);
+    c->solved = solve_on(r, op, c->value, nomem);
     if (!c->solved) {
-        c->meets = false;
-        c->margin = c->worst = -INFINITY;
-        c->current = NAN;
-        c->failed = r->nslots ? r->nslots : 1;
+        evaluate_unsolved(r, c);
         return;
     }
-    judge(r, r->f->op, c);
+    judge(r, op, c);
+}
+
+/* evaluate_on the session's op. */
+static void evaluate(fit_run *r, ls_fit_cand *c)
+{
+    evaluate_on(r, r->f->op, c, &r->nomem);
+}
+
+/* evaluate, for a candidate wanted only if it ranks: false when its port
+ * reports were skipped because it cannot (judge_if_it_can_rank), and it
+ * must then not be kept. */
+static bool evaluate_if_it_can_rank_on(fit_run *r, ls_op *op, ls_fit_cand *c, bool *nomem)
+{
+    c->yield = NAN;
+    if (!solve_on(r, op, c->value, nomem)) {
+        evaluate_unsolved(r, c);
+        return true;
+    }
+    return judge_if_it_can_rank(r, op, c);
+}
+
+/* evaluate_if_it_can_rank_on the session's op. */
+static bool evaluate_if_it_can_rank(fit_run *r, ls_fit_cand *c)
+{
+    return evaluate_if_it_can_rank_on(r, r->f->op, c, &r->nomem);
 }
 
 /* ---- the ranking ----------------------------------------------------------------------------- */
@@ -507,13 +608,18 @@ static int try_idx(fit_run *r, const int *idx, ls_fit_cand *out, bool *fresh)
     ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch};
     for (int j = 0; j < f->nvars; j++)
         c.value[j] = f->vars[j].values[idx[j]];
-    evaluate(r, &c);
+    /* without a summary wanted, a candidate that cannot rank skips its ports */
+    bool whole = true;
+    if (out)
+        evaluate(r, &c);
+    else
+        whole = evaluate_if_it_can_rank(r, &c);
     f->evaluated++;
     if (f->progress && (f->evaluated & 63) == 0)
         f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
     if (out)
         *out = c;
-    return keep(r, &c);
+    return whole ? keep(r, &c) : 0;
 }
 
 /* ---- every combination ------------------------------------------------------------------------- */
@@ -752,12 +858,38 @@ static int descent(fit_run *r)
     return 0;
 }
 
+/* ---- how far from the best ------------------------------------------------------------------- */
+
+/* Set found and limit from the best candidate kept and `open`, the limit of
+ * the designs not yet solved or ruled out (-inf for the margin, +inf for the
+ * current, when there are none; NaN-free: +inf / -inf when one has no bound). */
+static void set_limit(fit_run *r, double open)
+{
+    ls_fit_study *f = r->f;
+    bool cur = f->goal == LS_FIT_CURRENT;
+    const ls_fit_cand *best = r->nkeep > 0 && r->keep[0].meets ? &r->keep[0] : NULL;
+    f->found = best ? (cur ? best->current : best->margin) : NAN;
+    f->limit_why = NULL;
+    if (best)
+        f->limit = cur ? fmin(f->found, open) : fmax(f->found, open);
+    else
+        f->limit = open;
+    if (f->limit == (cur ? -INFINITY : INFINITY)) {
+        f->limit = NAN;
+        f->limit_why = "a part of the ranges not yet searched has a check without a bound";
+    } else if (f->limit == (cur ? INFINITY : -INFINITY)) {
+        f->limit_why = "no design in the ranges meets every check";
+    }
+}
+
 /* ---- branch and bound ---------------------------------------------------------------------------- */
 
 #define BB_BOUND_DIMS 12        /* a box wider than one value in more parts is split without a bound */
 #define BB_CACHE 16384          /* points whose checks are kept for the bounds (power of two), at most */
 #define BB_BYTES (32L << 20)    /* bytes the cache, and the corner rows, may take each */
 #define BB_NOISE 1e-9           /* relative change below which a check is flat along a part */
+#define LIMIT_SHARE 0.1         /* share of the search's solves the limit of what it left may take */
+#define LIMIT_MIN 2000          /* ... at least this many */
 #define BB_SLACK 1e-6           /* relative widening of a limit before a bound may say it is missed */
 
 /* A box: free part j restricted to series positions lo[j]..hi[j]. */
@@ -787,6 +919,13 @@ typedef struct bb_state {
     double *corner;          /* (1 << BB_BOUND_DIMS) rows */
     double *tmp;             /* one row */
     ls_fit_check *checks;    /* nslots */
+    int *cidx;               /* a box's corners: (1 << dims) index vectors, */
+    double *cval;            /* their values, */
+    ls_fit_cand *ccand;      /* and their summaries */
+    int *pend;               /* the corners not in the cache */
+    struct fit_worker *worker;   /* the second thread's op, or NULL (one thread) */
+    bool ranking;            /* the batch is of combinations wanted only if they rank (bb_enumerate) */
+    bool *whole;             /* ... and which of them were judged whole */
     unsigned char *flag;     /* per (check or current, active part): 1 rises, 2 falls, 4 unknown; value and margin */
     bool limit_varies_any;
 } bb_state;
@@ -806,50 +945,87 @@ static size_t idx_hash(const int *idx, int n)
     return (size_t)(h ^ (h >> 29));
 }
 
-/* The checks of the series point idx into row: from the cache, else solved
- * (and kept, as every candidate).  Returns 0, -1 on no memory. */
-static int bb_probe(fit_run *r, bb_state *b, const int *idx, double *row)
+/* The cache slot of the series point idx: its entry (*hit) or the empty
+ * slot where it would go. */
+static size_t cache_find(const fit_run *r, const bb_state *b, const int *idx, bool *hit)
 {
-    ls_fit_study *f = r->f;
-    int n = f->nvars;
+    int n = r->f->nvars;
     size_t k = idx_hash(idx, n) & (b->cache - 1);
+    *hit = false;
     while (b->used[k]) {
         if (memcmp(&b->keys[k * (size_t)n], idx, (size_t)n * sizeof *idx) == 0) {
-            memcpy(row, row_at(b, b->rows, (long)k), (size_t)b->width * sizeof *row);
-            return 0;
+            *hit = true;
+            return k;
         }
         k = (k + 1) & (b->cache - 1);
     }
-    ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch, .checks = b->checks};
-    for (int j = 0; j < n; j++)
-        c.value[j] = f->vars[j].values[idx[j]];
-    evaluate(r, &c);
-    c.checks = NULL;
+    return k;
+}
+
+/* Solve candidate c (idx and value set) on op: its summary into c, its
+ * checks (into `checks`, nslots of scratch) as a row.  Touches nothing
+ * shared but what it reads, so two threads may each run it on an op of
+ * their own. */
+static void probe_solve(fit_run *r, ls_op *op, bool *nomem, ls_fit_check *checks, ls_fit_cand *c, double *row)
+{
+    c->checks = checks;
+    evaluate_on(r, op, c, nomem);
+    c->checks = NULL;
+    for (int s = 0; s < r->nslots; s++) {
+        const ls_fit_check *q = &checks[s];
+        row[4 * s] = c->solved ? q->value : NAN;
+        row[4 * s + 1] = c->solved ? q->margin : NAN;
+        row[4 * s + 2] = c->solved ? q->lo : NAN;
+        row[4 * s + 3] = c->solved ? q->hi : NAN;
+    }
+    row[4 * r->nslots] = c->current;
+    row[4 * r->nslots + 1] = c->solved;
+}
+
+/* A point just solved (probe_solve): counted, marked solved, its row
+ * cached and the candidate kept.  Returns 0, -1 on no memory. */
+static int probe_commit(fit_run *r, bb_state *b, const int *idx, const double *row, const ls_fit_cand *c)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars;
     f->evaluated++;
     f->bb_solves++;
     if (seen_before(r, idx, n) < 0) /* marked, so the other stages need not solve it again */
         return -1;
     if (f->progress && (f->evaluated & 63) == 0)
         f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
-    for (int s = 0; s < r->nslots; s++) {
-        const ls_fit_check *q = &b->checks[s];
-        row[4 * s] = c.solved ? q->value : NAN;
-        row[4 * s + 1] = c.solved ? q->margin : NAN;
-        row[4 * s + 2] = c.solved ? q->lo : NAN;
-        row[4 * s + 3] = c.solved ? q->hi : NAN;
+    bool hit;
+    size_t k = cache_find(r, b, idx, &hit);
+    if (!hit) {
+        if (2 * (b->filled + 1) > b->cache) { /* full: start afresh (the cache only saves solves) */
+            memset(b->used, 0, (size_t)b->cache);
+            b->filled = 0;
+            k = idx_hash(idx, n) & (b->cache - 1);
+        }
+        b->used[k] = 1;
+        b->filled++;
+        memcpy(&b->keys[k * (size_t)n], idx, (size_t)n * sizeof *idx);
     }
-    row[4 * r->nslots] = c.current;
-    row[4 * r->nslots + 1] = c.solved;
-    if (2 * (b->filled + 1) > b->cache) { /* full: start afresh (the cache only saves solves) */
-        memset(b->used, 0, (size_t)b->cache);
-        b->filled = 0;
-        k = idx_hash(idx, n) & (b->cache - 1);
-    }
-    b->used[k] = 1;
-    b->filled++;
-    memcpy(&b->keys[k * (size_t)n], idx, (size_t)n * sizeof *idx);
     memcpy(row_at(b, b->rows, (long)k), row, (size_t)b->width * sizeof *row);
-    return keep(r, &c);
+    return keep(r, c);
+}
+
+/* The checks of the series point idx into row: from the cache, else solved
+ * (and kept, as every candidate).  Returns 0, -1 on no memory. */
+static int bb_probe(fit_run *r, bb_state *b, const int *idx, double *row)
+{
+    ls_fit_study *f = r->f;
+    bool hit;
+    size_t k = cache_find(r, b, idx, &hit);
+    if (hit) {
+        memcpy(row, row_at(b, b->rows, (long)k), (size_t)b->width * sizeof *row);
+        return 0;
+    }
+    ls_fit_cand c = {.idx = (int *)idx, .value = r->scratch};
+    for (int j = 0; j < f->nvars; j++)
+        c.value[j] = f->vars[j].values[idx[j]];
+    probe_solve(r, f->op, &r->nomem, b->checks, &c, row);
+    return probe_commit(r, b, idx, row, &c);
 }
 
 /* Record the sign of the change d between two figures a -> b along an
@@ -969,15 +1145,150 @@ static void corner_idx(const fit_run *r, const bb_box *x, const int *act, int k,
             idx[act[t]] = x->hi[act[t]];
 }
 
+/* A second thread's own operating point for candidate solves (the
+ * session's netlist record with diagnostics of its own, as tol's trials
+ * have), and its share of a batch of corners. */
+typedef struct fit_worker {
+    fit_run *r;
+    ls_netlist nl;
+    ls_arena arena;
+    ls_diags diags;
+    ls_op op;
+    ls_fit_check *checks;    /* nslots */
+    bool nomem;
+    long fact0;              /* its solver's factorizations after its own solve */
+    bb_state *b;             /* the batch: corners pend[from..to) */
+    int from, to;
+} fit_worker;
+
+/* Solve entries pend[from..to) of the batch in b on op: a box's corners
+ * into their rows and summaries, or (b->ranking) combinations wanted only
+ * if they rank, each with whether it was judged whole
+ * (evaluate_if_it_can_rank_on: that reads the kept list, which nothing
+ * changes while a batch is solved). */
+static void corner_share(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int from, int to)
+{
+    for (int i = from; i < to; i++) {
+        int m = b->pend[i];
+        if (b->ranking)
+            b->whole[m] = evaluate_if_it_can_rank_on(r, op, &b->ccand[m], nomem);
+        else
+            probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+    }
+}
+
+static void *worker_main(void *arg)
+{
+    fit_worker *w = arg;
+    corner_share(w->r, w->b, &w->op, &w->nomem, w->checks, w->from, w->to);
+    return NULL;
+}
+
+/* Solve the np entries of b->pend, on two threads when there is a worker
+ * and enough of them. */
+static void batch_solve(fit_run *r, bb_state *b, int np)
+{
+    fit_worker *w = b->worker;
+    pthread_t tid;
+    bool two = w && np >= 4;
+    if (two) {
+        w->b = b;
+        w->from = np / 2;
+        w->to = np;
+        two = pthread_create(&tid, NULL, worker_main, w) == 0;
+    }
+    corner_share(r, b, r->f->op, &r->nomem, b->checks, 0, two ? np / 2 : np);
+    if (two) {
+        pthread_join(tid, NULL);
+        r->nomem |= w->nomem;
+    }
+}
+
+/* Threads for the search: LOADSTACK_THREADS when set, else the online
+ * processors; the search uses two at most. */
+static int fit_threads(void)
+{
+    const char *env = getenv("LOADSTACK_THREADS");
+    long n = env && *env ? strtol(env, NULL, 10) : sysconf(_SC_NPROCESSORS_ONLN);
+    return n >= 2 ? 2 : 1;
+}
+
+/* Set up the second thread's op (solved once at the written values, so
+ * its symbolic analysis matches the session's: every candidate then starts
+ * from the same state on either op, and solves to the same bits).  Returns
+ * the worker, or NULL (one thread: not asked for, or no memory, or it did
+ * not solve). */
+static fit_worker *worker_new(fit_run *r)
+{
+    if (fit_threads() < 2)
+        return NULL;
+    fit_worker *w = calloc(1, sizeof *w);
+    if (!w)
+        return NULL;
+    w->r = r;
+    ls_arena_init(&w->arena);
+    ls_diags_init(&w->diags, &w->arena);
+    w->nl = *r->f->nl;
+    w->nl.diags = &w->diags;
+    w->checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *w->checks);
+    ls_options opt = r->f->op->opt;
+    opt.phase = NULL; /* the session's progress line is not this op's to move */
+    if (w->checks && ls_op_solve(&w->op, &w->nl, &opt) == LS_EXIT_OK) {
+        w->fact0 = w->op.solver ? ls_solver_stats_of(w->op.solver)->factorizations : 0;
+        return w;
+    }
+    ls_op_free(&w->op);
+    free(w->checks);
+    ls_diags_free(&w->diags);
+    ls_arena_free(&w->arena);
+    free(w);
+    return NULL;
+}
+
+/* Free the worker, its candidate factorizations counted into the run's. */
+static void worker_free(fit_worker *w)
+{
+    if (!w)
+        return;
+    if (w->op.solver)
+        w->r->worker_factorizations += ls_solver_stats_of(w->op.solver)->factorizations - w->fact0;
+    ls_op_free(&w->op);
+    free(w->checks);
+    ls_diags_free(&w->diags);
+    ls_arena_free(&w->arena);
+    free(w);
+}
+
 /* Solve the corners of box x (its active parts act[0..k-1]) into the corner
- * rows and note the changes along every edge.  Returns 0, -1 on no memory. */
+ * rows and note the changes along every edge: those in the cache from it,
+ * the others solved (on two threads when there is a worker: each solve is
+ * a function of its values alone) and then counted, cached and kept in
+ * corner order, so the outcome is the same on one thread or two.  Returns
+ * 0, -1 on no memory. */
 static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k)
 {
-    int nc = 1 << k, idx[LS_FIT_MAX_FREE];
+    int nc = 1 << k, n = r->f->nvars, np = 0;
     memset(b->flag, 0, (size_t)2 * (r->nslots + 1) * k);
     for (int m = 0; m < nc; m++) {
+        int *idx = b->cidx + (size_t)m * n;
         corner_idx(r, x, act, k, m, idx);
-        if (bb_probe(r, b, idx, row_at(b, b->corner, m)) != 0)
+        bool hit;
+        size_t at = cache_find(r, b, idx, &hit);
+        if (hit) {
+            memcpy(row_at(b, b->corner, m), row_at(b, b->rows, (long)at), (size_t)b->width * sizeof(double));
+            continue;
+        }
+        ls_fit_cand *c = &b->ccand[m];
+        *c = (ls_fit_cand){.idx = idx, .value = b->cval + (size_t)m * n};
+        for (int j = 0; j < n; j++)
+            c->value[j] = r->f->vars[j].values[idx[j]];
+        b->pend[np++] = m;
+    }
+    b->ranking = false;
+    batch_solve(r, b, np);
+    for (int i = 0; i < np; i++) {
+        int m = b->pend[i];
+        if (probe_commit(r, b, b->cidx + (size_t)m * n, row_at(b, b->corner, m), &b->ccand[m]) != 0)
             return -1;
     }
     for (int m = 0; m < nc; m++)
@@ -1143,16 +1454,6 @@ static void bb_bounds(fit_run *r, bb_state *b, int k, bb_bound *out)
     }
 }
 
-/* x < y by more than a tie (TIE_REL); false when either is not finite and they are equal. */
-static bool clearly_below(double x, double y)
-{
-    if (x == y || isnan(x) || isnan(y))
-        return false;
-    if (isfinite(x) && isfinite(y))
-        return x < y - TIE_REL * fmax(fabs(x), fabs(y));
-    return x < y;
-}
-
 /* Can nothing in a box with these bounds enter the ranks that must be right
  * (the reported candidates; with the yield goal, the finalists)? */
 static bool bb_prune(const fit_run *r, const bb_bound *bd)
@@ -1199,19 +1500,55 @@ static bool bb_prune_on(fit_run *r, bb_state *b, int k, const bb_bound *before, 
     return bb_prune(r, &one);
 }
 
-/* Solve every combination of box x.  Returns 0, -1 on no memory. */
-static int bb_enumerate(fit_run *r, const bb_box *x)
+/* Solve, keep and count the batch of combinations b->cidx[0..np) (each
+ * marked solved already): on two threads when there is a worker, then kept
+ * in order, so the outcome is the same on one thread or two.  Returns 0,
+ * -1 on no memory. */
+static int enumerate_batch(fit_run *r, bb_state *b, int np)
 {
-    int n = r->f->nvars, idx[LS_FIT_MAX_FREE];
+    ls_fit_study *f = r->f;
+    int n = f->nvars;
+    for (int i = 0; i < np; i++) {
+        ls_fit_cand *c = &b->ccand[i];
+        *c = (ls_fit_cand){.idx = b->cidx + (size_t)i * n, .value = b->cval + (size_t)i * n};
+        for (int j = 0; j < n; j++)
+            c->value[j] = f->vars[j].values[c->idx[j]];
+        b->pend[i] = i;
+    }
+    b->ranking = true;
+    batch_solve(r, b, np);
+    for (int i = 0; i < np; i++) {
+        f->evaluated++;
+        if (f->progress && (f->evaluated & 63) == 0)
+            f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
+        if (b->whole[i] && keep(r, &b->ccand[i]) != 0)
+            return -1;
+    }
+    return 0;
+}
+
+/* Solve every combination of box x not solved before (try_idx's work, in
+ * batches of a box's corners' size).  Returns 0, -1 on no memory. */
+static int bb_enumerate(fit_run *r, bb_state *b, const bb_box *x)
+{
+    int n = r->f->nvars, idx[LS_FIT_MAX_FREE], np = 0, room = 1 << b->dims;
     memcpy(idx, x->lo, (size_t)n * sizeof *idx);
     while (true) {
-        if (try_idx(r, idx, NULL, NULL) != 0)
+        int seen = seen_before(r, idx, n);
+        if (seen < 0)
             return -1;
+        if (seen == 0)
+            memcpy(b->cidx + (size_t)np++ * n, idx, (size_t)n * sizeof *idx);
+        if (np == room) {
+            if (enumerate_batch(r, b, np) != 0)
+                return -1;
+            np = 0;
+        }
         int j = 0;
         while (j < n && ++idx[j] > x->hi[j])
             idx[j] = x->lo[j], j++;
         if (j == n)
-            return 0;
+            return enumerate_batch(r, b, np);
     }
 }
 
@@ -1258,24 +1595,32 @@ static int bb_split(const fit_run *r, const bb_box *x, int w, bb_box *stack, int
     return top;
 }
 
+/* The combinations in box x; its parts wider than one value into act[0..*k-1]. */
+static double box_shape(const fit_run *r, const bb_box *x, int *act, int *k)
+{
+    double count = 1;
+    *k = 0;
+    for (int j = 0; j < r->f->nvars; j++) {
+        count *= x->hi[j] - x->lo[j] + 1;
+        if (x->hi[j] > x->lo[j])
+            act[(*k)++] = j;
+    }
+    return count;
+}
+
 /* Look at one box popped from the stack: enumerate it when that costs no
  * more than bounding it, else bound it and prune or split.  Returns the new
  * stack size, or -1 on no memory. */
 static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int top)
 {
     ls_fit_study *f = r->f;
-    int act[LS_FIT_MAX_FREE], k = 0;
-    double count = 1;
-    for (int j = 0; j < f->nvars; j++) {
-        count *= x->hi[j] - x->lo[j] + 1;
-        if (x->hi[j] > x->lo[j])
-            act[k++] = j;
-    }
+    int act[LS_FIT_MAX_FREE], k;
+    double count = box_shape(r, x, act, &k);
     f->bb_boxes++;
     if (count <= 16 || (k <= b->dims && count <= (double)(2 << k))) {
         f->bb_enumerated++;
         long before = f->evaluated;
-        int rc = bb_enumerate(r, x);
+        int rc = bb_enumerate(r, b, x);
         f->bb_solves += f->evaluated - before;
         return rc != 0 ? -1 : top;
     }
@@ -1320,6 +1665,137 @@ static void bb_free(bb_state *b)
     free(b->tmp);
     free(b->checks);
     free(b->flag);
+    free(b->cidx);
+    free(b->cval);
+    free(b->ccand);
+    free(b->pend);
+    free(b->whole);
+    worker_free(b->worker);
+}
+
+/* A proven limit over box x of the goal's figure, for a search that stopped
+ * with x not yet looked at: the upper bound of the smallest goal margin
+ * (with the current goal, the lower bound of the supply current) of any
+ * design in x that meets every check, on the same evidence a box is ruled
+ * out on (bb_visit): its corners, then the inward steps of the figure the
+ * limit comes from, whose bound is made again from them.  A small box is
+ * solved combination by combination (its designs are then among those
+ * found: -inf, or +inf for the current).  +inf (-inf for the current) when
+ * no bound holds.  Returns 0, -1 on no memory. */
+static int bb_limit(fit_run *r, bb_state *b, const bb_box *x, double *lim)
+{
+    ls_fit_study *f = r->f;
+    bool cur = f->goal == LS_FIT_CURRENT;
+    int act[LS_FIT_MAX_FREE], k;
+    double count = box_shape(r, x, act, &k);
+    *lim = cur ? -INFINITY : INFINITY;
+    if (count <= 16 || (k <= b->dims && count <= (double)(2 << k))) {
+        *lim = -*lim;
+        return bb_enumerate(r, b, x);
+    }
+    if (k > b->dims)
+        return 0;
+    bb_bound bd;
+    if (bb_corners(r, b, x, act, k) != 0)
+        return -1;
+    bb_bounds(r, b, k, &bd);
+    if (bd.worst < 0) { /* nothing in it meets every check, unless the steps say otherwise */
+        int s = bd.worst_at;
+        if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s)) != 0)
+            return -1;
+        if (bound_check(r, b, k, s) < 0) {
+            *lim = -*lim;
+            return 0;
+        }
+        bb_bounds(r, b, k, &bd);
+    }
+    int s = cur ? r->nslots : bd.margin_at;
+    if (s < 0)
+        return 0;
+    if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s)) != 0)
+        return -1;
+    if (cur) {
+        bb_bounds(r, b, k, &bd);
+        *lim = bd.current;
+    } else {
+        *lim = bound_check(r, b, k, s);
+    }
+    return 0;
+}
+
+/* The open box whose limit is the weakest (largest margin, least current):
+ * its index in lim[0..n-1]. */
+static int weakest(const fit_run *r, const double *lim, int n)
+{
+    bool cur = r->f->goal == LS_FIT_CURRENT;
+    int w = 0;
+    for (int i = 1; i < n; i++)
+        if (cur ? lim[i] < lim[w] : lim[i] > lim[w])
+            w = i;
+    return w;
+}
+
+/* The limit over every design in the ranges (ls_fit_study's found and
+ * limit) for a search that stopped: the better of the best found and every
+ * open box's limit (bb_limit).  The boxes the stack left are large, their
+ * limits loose: the weakest is then split and its halves bounded again,
+ * weakest first, within LIMIT_SHARE of the search's solves (at least
+ * LIMIT_MIN), or until it is no better than the best found (those solves
+ * are counted apart, in limit_solves).  Returns 0, -1 on no memory. */
+static int bb_open_limits(fit_run *r, bb_state *b, const bb_box *stack, int top, long cap)
+{
+    ls_fit_study *f = r->f;
+    bool cur = f->goal == LS_FIT_CURRENT;
+    long solves0 = f->bb_solves, evaluated0 = f->evaluated;
+    long budget = (long)(LIMIT_SHARE * (double)cap) > LIMIT_MIN ? (long)(LIMIT_SHARE * (double)cap) : LIMIT_MIN;
+    int n = top, room = top + 64;
+    bb_box *open = malloc((size_t)room * sizeof *open);
+    double *lim = malloc((size_t)room * sizeof *lim);
+    int rc = open && lim ? 0 : -1;
+    if (rc == 0)
+        memcpy(open, stack, (size_t)top * sizeof *open);
+    for (int i = 0; i < n && rc == 0 && !r->nomem; i++)
+        rc = bb_limit(r, b, &open[i], &lim[i]);
+    /* (each round splits one box: a round that finds its halves' corners
+     * cached solves nothing, so the rounds are capped too) */
+    for (long round = 0; rc == 0 && n > 0 && !r->nomem && f->evaluated - evaluated0 < budget && round < budget;
+         round++) {
+        int w = weakest(r, lim, n);
+        const ls_fit_cand *best = r->nkeep > 0 && r->keep[0].meets ? &r->keep[0] : NULL;
+        if (lim[w] == (cur ? INFINITY : -INFINITY))
+            break; /* nothing open can meet every check */
+        if (best && !(cur ? lim[w] < best->current : lim[w] > best->margin))
+            break; /* nothing open can beat the best found */
+        if (n + 1 >= room) {
+            room *= 2;
+            bb_box *o2 = realloc(open, (size_t)room * sizeof *open);
+            if (o2)
+                open = o2;
+            double *l2 = realloc(lim, (size_t)room * sizeof *lim);
+            if (l2)
+                lim = l2;
+            if (!o2 || !l2) {
+                rc = -1;
+                break;
+            }
+        }
+        bb_box x = open[w];
+        open[w] = open[--n];
+        lim[w] = lim[n];
+        n = bb_split(r, &x, -1, open, n);
+        for (int i = n - 2; i < n && rc == 0; i++)
+            rc = bb_limit(r, b, &open[i], &lim[i]);
+    }
+    double worst_open = cur ? INFINITY : -INFINITY;
+    for (int i = 0; i < n && rc == 0; i++)
+        worst_open = cur ? fmin(worst_open, lim[i]) : fmax(worst_open, lim[i]);
+    f->limit_solves = f->evaluated - evaluated0;
+    f->bb_solves = solves0;
+    if (rc == 0)
+        set_limit(r, worst_open);
+    free(open);
+    free(lim);
+    return rc;
 }
 
 /* Branch and bound over the whole candidate set, from the incumbents the
@@ -1344,9 +1820,16 @@ static int branch_and_bound(fit_run *r)
     b.tmp = malloc((size_t)b.width * sizeof *b.tmp);
     b.checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *b.checks);
     b.flag = malloc((size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1);
+    b.cidx = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cidx);
+    b.cval = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cval);
+    b.ccand = malloc(((size_t)1 << b.dims) * sizeof *b.ccand);
+    b.pend = malloc(((size_t)1 << b.dims) * sizeof *b.pend);
+    b.whole = malloc(((size_t)1 << b.dims) * sizeof *b.whole);
+    b.worker = worker_new(r);
     bb_box *stack = malloc((size_t)depth * sizeof *stack);
     int rc = -1;
-    if (b.keys && b.rows && b.used && b.corner && b.tmp && b.checks && b.flag && stack) {
+    if (b.keys && b.rows && b.used && b.corner && b.tmp && b.checks && b.flag && b.cidx && b.cval && b.ccand &&
+        b.pend && b.whole && stack) {
         int top = 1;
         for (int j = 0; j < n; j++) {
             stack[0].lo[j] = 0;
@@ -1360,6 +1843,10 @@ static int branch_and_bound(fit_run *r)
         }
         f->proven = top == 0 && !r->nomem;
         rc = top < 0 ? -1 : 0;
+        if (rc == 0 && !f->proven && !r->nomem)
+            rc = bb_open_limits(r, &b, stack, top, cap);
+        else
+            set_limit(r, f->goal == LS_FIT_CURRENT ? INFINITY : -INFINITY);
     }
     bb_free(&b);
     free(stack);
@@ -1372,12 +1859,17 @@ static int branch_and_bound(fit_run *r)
 static bool trial_feasible(void *ctx, ls_op *op)
 {
     const fit_run *r = ctx;
-    for (int s = 0; s < r->nslots; s++) {
-        ls_fit_check k;
-        eval_slot(op, &r->slots[s], &k);
-        if (!k.pass)
-            return false;
-    }
+    /* the ports last: each is its own solves, and a trial that fails sooner
+     * needs none of them (the verdict is the same in any order) */
+    for (int pass = 0; pass < 2; pass++)
+        for (int s = 0; s < r->nslots; s++) {
+            if ((r->slots[s].kind == LS_FITC_PORT) != (pass == 1))
+                continue;
+            ls_fit_check k;
+            eval_slot(op, &r->slots[s], &k);
+            if (!k.pass)
+                return false;
+        }
     return true;
 }
 
@@ -1543,7 +2035,9 @@ static int search(fit_run *r)
     double limit = f->exhaustive_limit > 0 ? f->exhaustive_limit : LS_FIT_EXHAUSTIVE;
     if (f->combinations <= limit) {
         f->exhaustive = f->proven = true;
-        return exhaustive(r);
+        int rc = exhaustive(r);
+        set_limit(r, f->goal == LS_FIT_CURRENT ? INFINITY : -INFINITY);
+        return rc;
     }
     /* Two starts, the written values and the middle of the ranges (on a log
      * scale): the continuous optimum is local, and the written values may sit
@@ -1569,6 +2063,26 @@ static int search(fit_run *r)
     return branch_and_bound(r);
 }
 
+/* After the search: solve the written values again (the session's op as it
+ * was), and make the run's code say so when that fails or when a candidate
+ * ran short of memory (its error is in `scratch`, the candidates' diagnostics:
+ * they are not what they seem).  Returns the run's code. */
+static int put_back(fit_run *r, int code, const ls_diags *scratch)
+{
+    ls_fit_study *f = r->f;
+    double *start = r->scratch;
+    for (int j = 0; start && j < f->nvars; j++)
+        start[j] = f->vars[j].start;
+    bool back = start && r->x0 && r->have_run0 && solve_at(r, start);
+    if (scratch->nomem > 0 && code == LS_FIT_OK)
+        code = LS_FIT_NOMEM;
+    if (scratch->nomem > 0)
+        r->nomem = true;
+    if (code == LS_FIT_OK && !back)
+        code = r->nomem ? LS_FIT_NOMEM : LS_EXIT_UNSOLVABLE;
+    return code;
+}
+
 int ls_fit_run(ls_fit_study *f)
 {
     f->vars = NULL;
@@ -1578,6 +2092,9 @@ int ls_fit_run(ls_fit_study *f)
     f->nlopt_status = 0;
     f->exhaustive = f->any_feasible = f->have_yield = f->proven = false;
     f->bb_solves = f->bb_boxes = f->bb_pruned = f->bb_enumerated = f->bb_unbounded = 0;
+    f->found = f->limit = NAN;
+    f->limit_why = NULL;
+    f->limit_solves = 0;
     if (f->nl->nfrees == 0)
         return LS_FIT_NOFREE;
     if (f->nl->nfrees > LS_FIT_MAX_FREE)
@@ -1601,22 +2118,11 @@ int ls_fit_run(ls_fit_study *f)
     if (r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0 &&
         rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_FIT_OK;
-    f->factorizations = ss ? ss->factorizations - fact0 : 0;
+    f->factorizations = (ss ? ss->factorizations - fact0 : 0) + r.worker_factorizations;
     f->analyses = ss ? ss->analyses - an0 : 0;
-    double *start = r.scratch;
-    for (int j = 0; start && j < f->nvars; j++)
-        start[j] = f->vars[j].start;
-    bool back = start && r.x0 && r.have_run0 && solve_at(&r, start);   /* the session's op as it was */
+    code = put_back(&r, code, &scratch);
     f->nl->diags = kept;
-    /* a port report or an expect that ran short of memory during the search
-     * left its error in the scratch list: the candidates are not what they seem */
-    if (scratch.nomem > 0 && code == LS_FIT_OK)
-        code = LS_FIT_NOMEM;
-    if (scratch.nomem > 0)
-        r.nomem = true;
     ls_diags_free(&scratch);
-    if (code == LS_FIT_OK && !back)
-        code = r.nomem ? LS_FIT_NOMEM : LS_EXIT_UNSOLVABLE;
     f->best = r.keep;
     f->nbest = r.nkeep;
     f->any_feasible = r.nkeep > 0 && r.keep[0].meets;

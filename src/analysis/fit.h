@@ -31,7 +31,7 @@
 
 #define LS_FIT_EXHAUSTIVE 100000   /* combinations enumerated one by one up to this */
 #define LS_FIT_MAX_FREE 64         /* free parts a search takes */
-#define LS_FIT_MAX_SOLVES 500000   /* default cap on branch and bound's candidate solves */
+#define LS_FIT_MAX_SOLVES 200000   /* default cap on branch and bound's candidate solves (docs/fit.md: why) */
 
 typedef enum ls_fit_goal { LS_FIT_MARGIN, LS_FIT_YIELD, LS_FIT_CURRENT } ls_fit_goal;
 
@@ -118,6 +118,16 @@ typedef struct ls_fit_study {
     long bb_unbounded;   /* (box, check) pairs with no bound: not monotone at the corners, or undefined */
     long factorizations; /* numeric factorizations the search made (every candidate solve one, at least) */
     long analyses;       /* symbolic analyses it made: 0, the one of the written values' solve serves all */
+    /* How far the answer may be from the best (docs/fit.md, "How far from the best"): the goal's
+     * figure (the smallest goal margin, or with the current goal the supply current) of the best
+     * design found, and a limit no design in the ranges that meets every check can pass: at most
+     * this margin, or at least this current.  Equal when proven.  limit is NaN when an open box
+     * had no bound (limit_why says so), -inf (margin) / +inf (current) when no design in the
+     * ranges can meet every check. */
+    double found;        /* NaN when nothing found meets every check */
+    double limit;
+    const char *limit_why;   /* a static string, or NULL */
+    long limit_solves;   /* candidate solves the open boxes' limits took after the search stopped */
     ls_fit_cand *best;   /* the best candidates, best first: feasible ones by the goal, then the closest */
     int nbest;
     bool any_feasible;   /* best[0].meets */

@@ -132,6 +132,12 @@ static void search_members(ls_wr *w, const ls_fit_study *f)
     ls_wr_num(w, "combinations", f->combinations);
     COUNTS(w, f, search_counts);
     ls_wr_bool(w, "proven", f->proven);
+    ls_wr_obj(w, "bound");   /* how far the answer may be from the best (docs/fit.md) */
+    ls_wr_str(w, "figure", f->goal == LS_FIT_CURRENT ? "current" : "margin");
+    ls_wr_num_why(w, "found", f->found, "nothing found meets every check");
+    ls_wr_num_why(w, "limit", f->limit, f->limit_why);
+    ls_wr_int(w, "solves", f->limit_solves);
+    ls_wr_end(w);
     COUNTS(w, f, work_counts);
     if (!f->exhaustive) {
         ls_wr_int(w, "continuous_status", f->nlopt_status);
@@ -307,6 +313,31 @@ static void ranking(ls_wr *w, const ls_fit_study *f)
     ls_wr_end(w);
 }
 
+/* The text's line on how far the best found may be from the best there is
+ * (a search that stopped at its limit). */
+static void bound_text(ls_wr *w, const ls_fit_study *f)
+{
+    bool cur = f->goal == LS_FIT_CURRENT;
+    char a[64], b[64];
+    if (cur) {
+        ls_eng(w->rp, a, sizeof a, f->found, "A");
+        ls_eng(w->rp, b, sizeof b, f->limit, "A");
+    } else {
+        snprintf(a, sizeof a, "%.6g", f->found);
+        snprintf(b, sizeof b, "%.6g", f->limit);
+    }
+    if (isnan(f->found))
+        ls_wr_say(w, "  bound: nothing found meets every check; ");
+    else
+        ls_wr_say(w, "  bound: best found %s %s; ", cur ? "draws" : "has margin", a);
+    if (f->limit_why)
+        ls_wr_say(w, "%s\n", f->limit_why);
+    else
+        ls_wr_say(w, "no design in the ranges that meets every check %s %s (%ld more solves to bound the ranges "
+                     "not searched)\n",
+                  cur ? "draws less than" : "has a margin above", b, f->limit_solves);
+}
+
 /* The text's account of the search. */
 static void search_text(ls_wr *w, const ls_fit_study *f)
 {
@@ -322,13 +353,16 @@ static void search_text(ls_wr *w, const ls_fit_study *f)
               f->combinations, f->nlopt_evals, f->evaluated, f->bb_solves, f->bb_boxes, f->bb_pruned);
     if (f->proven && f->goal == LS_FIT_YIELD)
         ls_wr_say(w, "  proven: no other combination has a larger margin than the finalists, whose yields rank "
-                     "them below\n\n");
+                     "them below\n");
     else if (f->proven)
-        ls_wr_say(w, "  proven: no other combination ranks above the candidates below\n\n");
+        ls_wr_say(w, "  proven: no other combination ranks above the candidates below\n");
     else
         ls_wr_say(w, "  NOT PROVEN: the search stopped at its limit of %ld solves (--max-solves); the candidates "
-                     "below are the best found, and a combination not tried may rank higher\n\n",
+                     "below are the best found, and a combination not tried may rank higher\n",
                   f->max_solves);
+    if (!f->proven)
+        bound_text(w, f);
+    ls_wr_say(w, "\n");
 }
 
 /* The text's note on the yield. */

@@ -138,7 +138,7 @@ static const optdef options[] = {
      .help = "K  candidates to report, best first (default 5)",
      .bad = "--top takes a whole number from 1 to 1000, not '%s'", .lo = 1, .hi = 1000},
     {.name = "max-solves", .type = VAL_COUNT, .field = F(max_solves), .scope = FOR_LISTED, .cmds = "fit",
-     .help = "N  candidate solves branch and bound may spend, SI prefixes allowed (default 500k)",
+     .help = "N  candidate solves branch and bound may spend, SI prefixes allowed (default 200k)",
      .bad = "--max-solves takes a whole number from 1 to 1G (SI prefixes allowed: 50k), not '%s'", .lo = 1,
      .hi = 1000000000},
     {.name = "write", .type = VAL_TEXT, .field = F(write), .scope = FOR_LISTED, .cmds = "fit",

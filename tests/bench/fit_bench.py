@@ -106,8 +106,8 @@ def main():
         ]
     ok = True
     print("| case | CPU (s) | wall time (s) | target (s) | solved candidates | continuous solves | branch and bound solves "
-          "| proven | chosen margin |")
-    print("| --- | --- | --- | --- | --- | --- | --- | --- | --- |")
+          "| proven | chosen margin | limit (solves) |")
+    print("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |")
     for name, nfree, extra, target in cases:
         path = os.path.join(tmp, f"chain{nfree}.stack")
         with open(path, "w", encoding="utf-8") as fh:
@@ -131,8 +131,14 @@ def main():
         sr = j["search"]
         bb = sr.get("branch_and_bound", {}).get("solves", 0)
         m = j["chosen"]["margin"] if j["chosen"] else float("nan")
+        # the limit no design can pass (docs/fit.md, "How far from the best"), and its extra solves
+        bd = sr.get("bound") or {}
+        lim = "-" if bd.get("limit") is None else f"{bd['limit']:.4f} ({bd.get('solves', 0)})"
+        if bd.get("limit") is not None and j["chosen"] and bd["limit"] < m - 1e-9 * abs(m):
+            print(f"FAIL: {name}: the limit {bd['limit']} is below the chosen margin {m}")
+            ok = False
         print(f"| {name} | {cpu:.2f} | {best:.2f} | {target:g} | {sr['solved']} | {sr['continuous_solves']} | {bb} "
-              f"| {'yes' if sr.get('proven') else 'no'} | {m:.4f} |")
+              f"| {'yes' if sr.get('proven') else 'no'} | {m:.4f} | {lim} |")
     sys.exit(0 if ok else 1)
 
 

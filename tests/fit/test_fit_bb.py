@@ -58,8 +58,9 @@ expect r1.current <= 2 mA
     return text
 
 
-def brute(power_check):
-    """Every combination, judged: (best values, its margin, second best margin, feasible count)."""
+def judged(power_check):
+    """Every combination's values, smallest margin and supply current (r1's:
+    the source's only path): (r1, r2, r3, r4, m, i1) as flat arrays."""
     g = np.meshgrid(VALUES, VALUES, VALUES, VALUES, indexing="ij")
     r1, r2, r3, r4 = (x.ravel() for x in g)
     rb = r3 + r4
@@ -74,7 +75,12 @@ def brute(power_check):
     margins = [two(a, 4.0, 5.5), two(b, 1.5, 2.5), (2e-3 - i1) / 2e-3]
     if power_check:
         margins.append(two(b * b / r4, 1e-3, 1.5e-3))
-    m = np.min(margins, axis=0)
+    return r1, r2, r3, r4, np.min(margins, axis=0), i1
+
+
+def brute(power_check):
+    """Every combination, judged: (best values, its margin, second best margin, feasible count)."""
+    r1, r2, r3, r4, m, i1 = judged(power_check)
     feasible = m >= 0
     idx = np.flatnonzero(feasible)
     order = idx[np.argsort(-m[idx], kind="stable")]
