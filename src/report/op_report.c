@@ -516,10 +516,11 @@ static const char *budget_cell(ls_report *rp, const ls_port_result *pr, char *bu
 /* The ports table, the note on held load sides (once) and the advice. */
 
 /* The mark of a number whose error bound says its last printed digit may
- * be wrong ("~", accuracy.h), or NULL. */
+ * be wrong ("~", accuracy.h), or NULL.  Only the text report shows marks, so
+ * the other formats skip the test (a logarithm and a power per number). */
 static const char *doubt_mark(const ls_report *rp, double v, double bound, double scale)
 {
-    return ls_acc_doubtful(v, bound, rp->sig, scale) ? "~" : NULL;
+    return rp->fmt == FMT_TEXT && ls_acc_doubtful(v, bound, rp->sig, scale) ? "~" : NULL;
 }
 
 /* Does the report have the error bounds?  They fail only for want of memory
@@ -811,8 +812,10 @@ static bool solve_head(ls_wr *w, const ls_results *res)
     if (op->iterations > 1)
         ls_wr_say(w, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
     bool bounds = (ls_report_needs(rp) & LS_NEED_BOUNDS) && error_bounds(rp, res);
-    /* marks need the bounds; count them first so the accuracy line can say how many */
-    accuracy_text(w, op, bounds ? doubtful_count(rp, op) : 0);
+    /* marks need the bounds; count them first so the accuracy line can say how
+     * many (a line of the text report only: the other formats skip the count,
+     * a pass over every node and part) */
+    accuracy_text(w, op, bounds && rp->fmt == FMT_TEXT ? doubtful_count(rp, op) : 0);
     return bounds;
 }
 
@@ -824,7 +827,7 @@ static void nodes_write(ls_wr *w, const ls_op *op, bool bounds)
     static const ls_wr_col cols[] = {{.head = "node"}, {.head = "voltage", .right = true}, {.head = "caution"}};
     const ls_netlist *nl = op->nl;
     const ls_accuracy *acc = &op->acc;
-    double vscale = ls_acc_scale(op, 0);
+    double vscale = bounds && w->rp->fmt == FMT_TEXT ? ls_acc_scale(op, 0) : 0; /* for the marks alone */
     bool hazard = false;
     for (int i = 0; i < nl->nnodes; i++)
         hazard |= fabs(op->v[i]) > LS_TOUCH_SAFE_DC;
@@ -895,7 +898,7 @@ static void parts_write(ls_wr *w, const ls_results *res, bool bounds, int nparts
     static const ls_wr_style quiet = {.skip_empty = true};
     const ls_op *op = res->op;
     const ls_netlist *nl = op->nl;
-    double iscale = ls_acc_scale(op, 1);
+    double iscale = bounds && w->rp->fmt == FMT_TEXT ? ls_acc_scale(op, 1) : 0; /* for the marks alone */
     if (nparts)
         ls_wr_say(w, "\nParts\n");
     ls_wr_table(w, NULL, cols, (int)(sizeof cols / sizeof *cols), &quiet);
