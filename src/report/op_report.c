@@ -724,6 +724,31 @@ static void opamps_write(ls_wr *w, const ls_op *op, int nops)
     ls_wr_route(w, LS_WR_ALL);
 }
 
+/* JSON: format the numbers of seq ahead on a second thread while the
+ * writer lays out the table (numahead.h: the same bytes); NULL for the other
+ * formats and small tables.  Ended by ahead_end. */
+static ls_numahead *ahead(ls_wr *w, const ls_ahead_seq *seq)
+{
+    const char *off = getenv("LOADSTACK_AHEAD");   /* "0": every number in place (to compare) */
+    if (w->rp->fmt != FMT_JSON || (off && strcmp(off, "0") == 0))
+        return NULL;
+    ls_numahead *a = ls_numahead_start(seq);
+    ls_wr_ahead(w, a);
+    return a;
+}
+
+static void ahead_end(ls_wr *w, ls_numahead *a)
+{
+    ls_wr_ahead(w, NULL);
+    ls_numahead_stop(a);
+}
+
+/* A record of the parts' sequence: every part but the ports (ctx: the netlist). */
+static bool not_port(const void *ctx, int i)
+{
+    return !((const ls_netlist *)ctx)->parts[i].kind->is_port;
+}
+
 /* JSON's "solver" object, on one line: method, library, size, conditioning
  * or the iteration's reach, residual, iterations and refinement. */
 static void solver_members(ls_wr *w, const ls_op *op)
@@ -760,8 +785,10 @@ static void accuracy_members(ls_wr *w, const ls_op *op)
     ls_wr_str(w, "bounds", !a->reliable ? "none" : a->estimated ? "estimate" : a->per_node ? "per-node" : "per-result");
     ls_wr_compact(w, true);
     ls_wr_obj(w, "nodes");
+    ls_numahead *ah = a->reliable ? ahead(w, &(ls_ahead_seq){.nrec = nl->nnodes, .field = {a->node_bound}}) : NULL;
     for (int i = 0; i < nl->nnodes; i++)
         ls_wr_num_why(w, nl->nodes[i].name, a->reliable ? a->node_bound[i] : INFINITY, LS_WHY_UNBOUNDED);
+    ahead_end(w, ah);
     ls_wr_end(w);
     ls_wr_compact(w, false);
     if (a->worst_node >= 0) {
@@ -834,6 +861,7 @@ static void nodes_write(ls_wr *w, const ls_op *op, bool bounds)
     ls_wr_say(w, "\nNodes\n");
     ls_wr_table(w, NULL, cols, hazard ? 3 : 2, NULL);
     json_open(w, "nodes", false);
+    ls_numahead *ah = ahead(w, &(ls_ahead_seq){.nrec = nl->nnodes, .field = {op->v}});
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
         double v = op->v[i];
@@ -848,6 +876,7 @@ static void nodes_write(ls_wr *w, const ls_op *op, bool bounds)
         ls_wr_num(w, "voltage", v);
         ls_wr_route(w, LS_WR_ALL);
     }
+    ahead_end(w, ah);
     ls_wr_end(w);
     ls_wr_table_end(w);
 }
@@ -903,6 +932,11 @@ static void parts_write(ls_wr *w, const ls_results *res, bool bounds, int nparts
         ls_wr_say(w, "\nParts\n");
     ls_wr_table(w, NULL, cols, (int)(sizeof cols / sizeof *cols), &quiet);
     json_open(w, "parts", false);
+    /* the JSON members' numbers in their order: current, voltage, power,
+     * error bound (part_extras) of each part but the ports */
+    ls_numahead *ah = ahead(w, &(ls_ahead_seq){.nrec = nl->nparts,
+                                                 .field = {op->ipart, op->vpart, op->ppart, bounds ? op->acc.part_bound : NULL},
+                                                 .want = not_port, .ctx = nl});
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         prefetch_part_name(nl, i);
@@ -928,6 +962,7 @@ static void parts_write(ls_wr *w, const ls_results *res, bool bounds, int nparts
         part_extras(w, res, i, bounds);
         ls_wr_end(w);
     }
+    ahead_end(w, ah);
     ls_wr_end(w);
     ls_wr_table_end(w);
 }

@@ -327,6 +327,11 @@ void ls_wr_null(ls_wr *w, const char *key, const char *why)
         ls_jw_null(&w->jw, key, why);
 }
 
+void ls_wr_ahead(ls_wr *w, ls_numahead *a)
+{
+    w->jw.ahead = a;
+}
+
 void ls_wr_say(ls_wr *w, const char *fmt, ...)
 {
     if (w->rp->fmt != FMT_TEXT)

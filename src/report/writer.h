@@ -143,6 +143,11 @@ void ls_wr_compact(ls_wr *w, bool on);
  * member's key alone). */
 void ls_wr_field_sep(ls_wr *w, const char *sep);
 
+/* JSON: take the numbers from a, formatted ahead on another thread
+ * (numahead.h; NULL: format each in place, the default).  The bytes are the
+ * same either way. */
+void ls_wr_ahead(ls_wr *w, ls_numahead *a);
+
 /* A line of the text report (printf format; the newline is the caller's). */
 void ls_wr_say(ls_wr *w, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 

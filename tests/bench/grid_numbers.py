@@ -20,6 +20,8 @@ Outside references:
     bit for bit, so a text that is short but reads back to another double
     fails too;
   - Python's json module (RFC 8259) reads the report.
+The report is also written with LOADSTACK_AHEAD=0 (every number formatted in
+place, no helper thread: src/report/numahead.c) and must be the same bytes.
 
 Usage: grid_numbers.py LOADSTACK LIBRARY [N]
 """
@@ -86,6 +88,11 @@ def main():
         if p.returncode != 0:
             print(f"FAIL: solve exited {p.returncode}: {p.stderr.decode(errors='replace')[:300]}")
             return 1
+        # the same report with every number formatted in place (no helper thread)
+        q = subprocess.run([exe, "solve", stack, "--format", "json"], capture_output=True, timeout=300,
+                           env=dict(os.environ, LOADSTACK_AHEAD="0"))
+        if q.returncode != 0 or q.stdout != p.stdout:
+            fails.append("the report with numbers formatted ahead differs from the one formatted in place")
         texts = []
 
         def num(t):

@@ -7,6 +7,7 @@
  * says where the last of `digits` significant digits falls: a bound just
  * under half that digit's unit is not doubtful, one just over it is. */
 #include "../../cu_run.h"
+#include "../splitmix.h"
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -15,14 +16,10 @@
 
 #include "analysis/accuracy.h"
 
-/* splitmix64: a fixed seed, so a failure repeats */
 static uint64_t seed = 0x646f756274667531ULL;
 static uint64_t next64(void)
 {
-    uint64_t z = (seed += 0x9E3779B97F4A7C15ULL);
-    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ULL;
-    z = (z ^ (z >> 27)) * 0x94D049BB133111EBULL;
-    return z ^ (z >> 31);
+    return ls_test_next64(&seed);
 }
 
 static double unit01(void)
