@@ -20,7 +20,6 @@
 #define SKIP 4
 
 typedef struct chunk {
-    long id;                      /* the chunk held, or -1 */
     int count;                    /* numbers in it */
     uint64_t bits[CHUNK_MAX];     /* each number's bits */
     unsigned char len[CHUNK_MAX];
@@ -44,6 +43,7 @@ struct ls_numahead {
     chunk ring[RING];
 };
 
+/* The bits of v (what decides its text). */
 static uint64_t bits_of(double v)
 {
     uint64_t u;
@@ -74,7 +74,6 @@ static void format_chunk(ls_numahead *a, long id)
         }
     }
     c->count = k;
-    c->id = id;
 }
 
 /* The helper: claim the next chunk while the ring has room, format it, say so. */
@@ -98,6 +97,7 @@ static void *helper_main(void *arg)
     return NULL;
 }
 
+/* (numahead.h) The caller owns the result; ls_numahead_stop frees it. */
 ls_numahead *ls_numahead_start(const ls_ahead_seq *seq)
 {
     if (seq->nrec < MIN_RECS)
@@ -112,16 +112,19 @@ ls_numahead *ls_numahead_start(const ls_ahead_seq *seq)
     a->cur = 0;
     a->pos = 0;
     a->cc = NULL;
-    for (int i = 0; i < RING; i++) {
+    for (int i = 0; i < RING; i++)
         a->ready[i] = false;
-        a->ring[i].id = -1;
-    }
     if (pthread_mutex_init(&a->mu, NULL) != 0) {
         free(a);
         return NULL;
     }
-    if (pthread_cond_init(&a->cv, NULL) != 0 || pthread_create(&a->helper, NULL, helper_main, a) != 0) {
-        pthread_cond_destroy(&a->cv);   /* (a failed init leaves nothing to destroy; harmless) */
+    if (pthread_cond_init(&a->cv, NULL) != 0) {
+        pthread_mutex_destroy(&a->mu);
+        free(a);
+        return NULL;
+    }
+    if (pthread_create(&a->helper, NULL, helper_main, a) != 0) {
+        pthread_cond_destroy(&a->cv);
         pthread_mutex_destroy(&a->mu);
         free(a);
         return NULL;
@@ -173,6 +176,8 @@ static int find(const chunk *c, int from, int to, uint64_t b)
     return -1;
 }
 
+/* (numahead.h) The writer's side: its current chunk, then a window of SKIP
+ * more numbers, which may run into the next chunk. */
 const char *ls_numahead_take(ls_numahead *a, double v, size_t *len)
 {
     if (!a || !isfinite(v))
@@ -202,6 +207,7 @@ const char *ls_numahead_take(ls_numahead *a, double v, size_t *len)
     return a->cc->text[p];
 }
 
+/* (numahead.h) */
 void ls_numahead_stop(ls_numahead *a)
 {
     if (!a)
