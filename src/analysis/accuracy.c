@@ -32,25 +32,6 @@ static inline double two_sum(double a, double b, double *e)
     return s;
 }
 
-/* The kernels that call two_prod get a second copy built for processors
- * with a fused multiply-add instruction, chosen when the program loads:
- * without it every fma() is a call into the C library (millions per residual
- * of a large circuit).  fma is exact either way, so both copies give the same
- * bits. */
-#if defined(__x86_64__) && defined(__has_attribute)
-#if __has_attribute(target_clones)
-#define FMA_CLONES __attribute__((target_clones("fma", "default")))
-#endif
-#endif
-#ifndef FMA_CLONES
-#define FMA_CLONES
-#endif
-/* ... and no other product may be fused in that copy (GCC in ISO C mode does
- * not fuse; clang would within an expression) */
-#ifdef __clang__
-#pragma STDC FP_CONTRACT OFF
-#endif
-
 /* p + e = a * b exactly (fma rounds once). */
 static inline double two_prod(double a, double b, double *e)
 {
@@ -95,7 +76,7 @@ static int part_slot(ls_resid *r, int row)
     return r->nrows++;
 }
 
-FMA_CLONES void ls_resid_a(ls_resid *r, int row, int col, double v)
+void ls_resid_a(ls_resid *r, int row, int col, double v)
 {
     double e, p = two_prod(v, r->x[col], &e);
     e += v * r->tail[col];
@@ -240,7 +221,7 @@ static double below_rounding(double v, double size)
     return fabs(v) <= 0x1p-96 * size ? 0 : v;
 }
 
-FMA_CLONES double ls_acc_lin_eval(const ls_op *op, const ls_lin *l)
+double ls_acc_lin_eval(const ls_op *op, const ls_lin *l)
 {
     const double *tail = op->acc.tail;
     if (!tail || !op->acc.refined)
