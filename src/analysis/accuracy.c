@@ -540,6 +540,16 @@ bool ls_acc_doubtful(double value, double bound, int digits, double scale)
         return true;
     if (value == 0)
         return bound > 1e-12 * scale;
+    /* The last printed digit's unit is at least |value| 10^-digits (a tenth of
+     * |value|'s leading digit's unit), so a bound below 0.45 of that (a margin
+     * for the rounding of log10 and pow) cannot reach half of it: the answer
+     * without the logarithm and the power, which a large report would pay
+     * per number.  The common case by far: bounds near double precision. */
+    static const double tenth_power[] = {1, 1e-1, 1e-2, 1e-3, 1e-4, 1e-5, 1e-6, 1e-7, 1e-8, 1e-9,
+                                         1e-10, 1e-11, 1e-12, 1e-13, 1e-14, 1e-15, 1e-16, 1e-17};
+    if (digits >= 1 && digits < (int)(sizeof tenth_power / sizeof *tenth_power) &&
+        bound < 0.45 * tenth_power[digits] * fabs(value))
+        return false;
     double unit = pow(10, floor(log10(fabs(value))) - (digits - 1));
     return bound > 0.5 * unit;
 }

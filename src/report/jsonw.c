@@ -162,6 +162,7 @@ void ls_jw_init(ls_jw *w, FILE *f, int wrap)
     w->nwhy = w->capwhy = 0;
     w->failed = false;
     w->failed_bytes = 0;
+    w->ahead = NULL;
     w->p = w->b;
 }
 
@@ -263,6 +264,12 @@ void ls_jw_num_why(ls_jw *w, const char *key, double v, const char *why)
         return;
     }
     member(w, key);
+    size_t n;
+    const char *t = w->ahead ? ls_numahead_take(w->ahead, v, &n) : NULL;
+    if (t) {   /* the same bits, formatted ahead: the same text */
+        put(w, t, n);
+        return;
+    }
     if (room(w) < LS_NUM_MAX)
         flush(w);
     w->p += ls_num_shortest(w->p, v);

@@ -17,6 +17,8 @@
 #include <stdbool.h>
 #include <stdio.h>
 
+#include "report/numahead.h"
+
 #define LS_JW_DEPTH 16
 
 typedef struct ls_jw_why {
@@ -35,6 +37,7 @@ typedef struct ls_jw {
     int nwhy, capwhy;
     bool failed;             /* out of memory: a why was lost */
     size_t failed_bytes;     /* what the failed allocation asked for */
+    ls_numahead *ahead;      /* numbers formatted ahead (numahead.h), or NULL: not owned */
     char *p;                 /* next free byte of b */
     char b[16384];
 } ls_jw;

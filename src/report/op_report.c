@@ -516,7 +516,8 @@ static const char *budget_cell(ls_report *rp, const ls_port_result *pr, char *bu
 /* The ports table, the note on held load sides (once) and the advice. */
 
 /* The mark of a number whose error bound says its last printed digit may
- * be wrong ("~", accuracy.h), or NULL. */
+ * be wrong ("~", accuracy.h), or NULL.  (Only the text meant for people
+ * shows marks: the callers skip them where it is not written.) */
 static const char *doubt_mark(const ls_report *rp, double v, double bound, double scale)
 {
     return ls_acc_doubtful(v, bound, rp->sig, scale) ? "~" : NULL;
@@ -723,6 +724,12 @@ static void opamps_write(ls_wr *w, const ls_op *op, int nops)
     ls_wr_route(w, LS_WR_ALL);
 }
 
+/* A record of the parts' sequence: every part but the ports (ctx: the netlist). */
+static bool not_port(const void *ctx, int i)
+{
+    return !((const ls_netlist *)ctx)->parts[i].kind->is_port;
+}
+
 /* JSON's "solver" object, on one line: method, library, size, conditioning
  * or the iteration's reach, residual, iterations and refinement. */
 static void solver_members(ls_wr *w, const ls_op *op)
@@ -759,8 +766,11 @@ static void accuracy_members(ls_wr *w, const ls_op *op)
     ls_wr_str(w, "bounds", !a->reliable ? "none" : a->estimated ? "estimate" : a->per_node ? "per-node" : "per-result");
     ls_wr_compact(w, true);
     ls_wr_obj(w, "nodes");
+    if (a->reliable)
+        ls_wr_ahead(w, &(ls_ahead_seq){.nrec = nl->nnodes, .field = {a->node_bound}});
     for (int i = 0; i < nl->nnodes; i++)
         ls_wr_num_why(w, nl->nodes[i].name, a->reliable ? a->node_bound[i] : INFINITY, LS_WHY_UNBOUNDED);
+    ls_wr_ahead_end(w);
     ls_wr_end(w);
     ls_wr_compact(w, false);
     if (a->worst_node >= 0) {
@@ -811,8 +821,10 @@ static bool solve_head(ls_wr *w, const ls_results *res)
     if (op->iterations > 1)
         ls_wr_say(w, "iterated: %d solves until every diode, thermistor and op-amp limit settled\n", op->iterations);
     bool bounds = (ls_report_needs(rp) & LS_NEED_BOUNDS) && error_bounds(rp, res);
-    /* marks need the bounds; count them first so the accuracy line can say how many */
-    accuracy_text(w, op, bounds ? doubtful_count(rp, op) : 0);
+    /* marks need the bounds; count them first so the accuracy line can say how
+     * many (a line of the text report only: the other formats skip the count,
+     * a pass over every node and part) */
+    accuracy_text(w, op, bounds && ls_wr_shows_text(w) ? doubtful_count(rp, op) : 0);
     return bounds;
 }
 
@@ -824,18 +836,20 @@ static void nodes_write(ls_wr *w, const ls_op *op, bool bounds)
     static const ls_wr_col cols[] = {{.head = "node"}, {.head = "voltage", .right = true}, {.head = "caution"}};
     const ls_netlist *nl = op->nl;
     const ls_accuracy *acc = &op->acc;
-    double vscale = ls_acc_scale(op, 0);
+    bool marks = bounds && ls_wr_shows_text(w);   /* (the marks alone need the scale) */
+    double vscale = marks ? ls_acc_scale(op, 0) : 0;
     bool hazard = false;
     for (int i = 0; i < nl->nnodes; i++)
         hazard |= fabs(op->v[i]) > LS_TOUCH_SAFE_DC;
     ls_wr_say(w, "\nNodes\n");
     ls_wr_table(w, NULL, cols, hazard ? 3 : 2, NULL);
     json_open(w, "nodes", false);
+    ls_wr_ahead(w, &(ls_ahead_seq){.nrec = nl->nnodes, .field = {op->v}});
     for (int i = 0; i < nl->nnodes; i++) {
         prefetch_node_name(nl, i);
         double v = op->v[i];
         ls_wr_cell_str(w, nl->nodes[i].name);
-        ls_wr_cell_eng(w, v, "V", bounds ? doubt_mark(w->rp, v, acc->node_bound[i], vscale) : NULL);
+        ls_wr_cell_eng(w, v, "V", marks ? doubt_mark(w->rp, v, acc->node_bound[i], vscale) : NULL);
         ls_wr_cell_str(w, fabs(v) > LS_TOUCH_SAFE_DC ? "above 60 V DC: not touch-safe" : "");
         ls_wr_row(w);
         ls_wr_route(w, LS_WR_JSON);
@@ -845,6 +859,7 @@ static void nodes_write(ls_wr *w, const ls_op *op, bool bounds)
         ls_wr_num(w, "voltage", v);
         ls_wr_route(w, LS_WR_ALL);
     }
+    ls_wr_ahead_end(w);
     ls_wr_end(w);
     ls_wr_table_end(w);
 }
@@ -895,11 +910,17 @@ static void parts_write(ls_wr *w, const ls_results *res, bool bounds, int nparts
     static const ls_wr_style quiet = {.skip_empty = true};
     const ls_op *op = res->op;
     const ls_netlist *nl = op->nl;
-    double iscale = ls_acc_scale(op, 1);
+    bool marks = bounds && ls_wr_shows_text(w);   /* (the marks alone need the scale) */
+    double iscale = marks ? ls_acc_scale(op, 1) : 0;
     if (nparts)
         ls_wr_say(w, "\nParts\n");
     ls_wr_table(w, NULL, cols, (int)(sizeof cols / sizeof *cols), &quiet);
     json_open(w, "parts", false);
+    /* the JSON members' numbers in their order: current, voltage, power,
+     * error bound (part_extras) of each part but the ports */
+    ls_wr_ahead(w, &(ls_ahead_seq){.nrec = nl->nparts,
+                                    .field = {op->ipart, op->vpart, op->ppart, bounds ? op->acc.part_bound : NULL},
+                                    .want = not_port, .ctx = nl});
     for (int i = 0; i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
         prefetch_part_name(nl, i);
@@ -912,7 +933,7 @@ static void parts_write(ls_wr *w, const ls_results *res, bool bounds, int nparts
         }
         ls_wr_cell_str(w, p->name);
         ls_wr_cell_str(w, p->kind->name);
-        ls_wr_cell_eng(w, op->ipart[i], "A", bounds ? doubt_mark(w->rp, op->ipart[i], op->acc.part_bound[i], iscale) : NULL);
+        ls_wr_cell_eng(w, op->ipart[i], "A", marks ? doubt_mark(w->rp, op->ipart[i], op->acc.part_bound[i], iscale) : NULL);
         ls_wr_cell_eng(w, op->vpart[i], "V", NULL);
         ls_wr_cell_eng(w, op->ppart[i], "W", NULL);
         ls_wr_row(w);
@@ -925,6 +946,7 @@ static void parts_write(ls_wr *w, const ls_results *res, bool bounds, int nparts
         part_extras(w, res, i, bounds);
         ls_wr_end(w);
     }
+    ls_wr_ahead_end(w);
     ls_wr_end(w);
     ls_wr_table_end(w);
 }

@@ -20,6 +20,7 @@ void ls_wr_begin(ls_wr *w, ls_report *rp)
 int ls_wr_finish(ls_wr *w)
 {
     assert(w->depth == 0);   /* every ls_wr_obj / ls_wr_arr closed by its ls_wr_end */
+    ls_wr_ahead_end(w);
     free(w->rbuf);
     free(w->join);
     free(w->path);
@@ -326,6 +327,25 @@ void ls_wr_null(ls_wr *w, const char *key, const char *why)
 {
     if (json(w))
         ls_jw_null(&w->jw, key, why);
+}
+
+void ls_wr_ahead(ls_wr *w, const ls_ahead_seq *seq)
+{
+    ls_wr_ahead_end(w);
+    const char *off = getenv("LOADSTACK_AHEAD");   /* "0": every number in place (to compare) */
+    if (fmt_json(w) && !(off && strcmp(off, "0") == 0))
+        w->jw.ahead = ls_numahead_start(seq);
+}
+
+void ls_wr_ahead_end(ls_wr *w)
+{
+    ls_numahead_stop(w->jw.ahead);
+    w->jw.ahead = NULL;
+}
+
+bool ls_wr_shows_text(const ls_wr *w)
+{
+    return w->rp->fmt == FMT_TEXT;
 }
 
 void ls_wr_say(ls_wr *w, const char *fmt, ...)

@@ -143,6 +143,17 @@ void ls_wr_compact(ls_wr *w, bool on);
  * member's key alone). */
 void ls_wr_field_sep(ls_wr *w, const char *sep);
 
+/* The numbers of seq, which the members written next follow in order, may be
+ * formatted ahead on a second thread (numahead.h: JSON, large tables; the
+ * bytes are the same either way; LOADSTACK_AHEAD=0 never does).  Ended by
+ * ls_wr_ahead_end, before seq's arrays change. */
+void ls_wr_ahead(ls_wr *w, const ls_ahead_seq *seq);
+void ls_wr_ahead_end(ls_wr *w);
+/* Whether the text meant for people is written: ls_wr_say's lines and the
+ * text of table cells (units, digits, marks).  A report may skip the work
+ * that only that text shows. */
+bool ls_wr_shows_text(const ls_wr *w);
+
 /* A line of the text report (printf format; the newline is the caller's). */
 void ls_wr_say(ls_wr *w, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 

@@ -5,8 +5,11 @@
  * decimal of p digits): the text of ls_num_shortest must read back to the
  * same double, and no text of fewer significant digits may (the shortest
  * round-trip property).  The layout follows the JSON number grammar of
- * RFC 8259, section 6.  The digits are also compared with Python's repr, which
- * prints the same shortest text, in tests/tol/test_json_all.py. */
+ * RFC 8259, section 6.  The whole text is compared byte for byte with that of
+ * Debian's double-conversion in the same layout (dconv_ref.cc: an outside
+ * implementation of the shortest digits, the one the reports used before).  The
+ * digits are also compared with Python's repr, which prints the same shortest
+ * text, in tests/output/test_json_all.py and tests/output/report_repr.py. */
 #include "base/fmt.h"
 #include "base/numfmt.h"
 
@@ -39,6 +42,9 @@ static double from_bits(uint64_t u)
 static regex_t json_number; /* RFC 8259 section 6 */
 static long checked, failed;
 
+/* double-conversion's text of v (dconv_ref.cc); its length, or -1 */
+int ref_dconv_shortest(char *buf, int size, double v);
+
 /* Significant digits of a number's text (leading zeros and the exponent not counted). */
 static int sig_digits(const char *s)
 {
@@ -68,6 +74,9 @@ static void check(double v)
     double back = strtod(got, NULL); /* the reference reader: glibc */
     ok &= back == v && (v != 0 || !signbit(back)); /* -0 is written 0 */
     ok &= regexec(&json_number, got, 0, NULL, 0) == 0;
+    char ref[64];
+    int rn = ref_dconv_shortest(ref, (int)sizeof ref, v);
+    ok &= rn == (int)len && memcmp(ref, got, len) == 0;
     int d = sig_digits(got);
     if (d > 1) { /* one digit fewer, correctly rounded by printf, must not read back */
         char shorter[64];
@@ -75,7 +84,8 @@ static void check(double v)
         ok &= strtod(shorter, NULL) != v;
     }
     if (!ok && failed++ < 20)
-        printf("\n  %a: ls_num_shortest '%s' (reads back %a, %d digits)", v, got, back, d);
+        printf("\n  %a: ls_num_shortest '%s' (reads back %a, %d digits; double-conversion '%s')", v, got, back, d,
+               rn >= 0 ? ref : "?");
 }
 
 static void start(void)
@@ -92,7 +102,7 @@ static void finish(void)
 static void test_random_bits(void)
 {
     start();
-    for (long i = 0; i < 300000; i++)
+    for (long i = 0; i < 600000; i++)
         check(from_bits(next64()));
     finish();
 }
@@ -118,6 +128,35 @@ static void test_report_like(void)
         check(nextafter(edge[i], INFINITY));
         check(nextafter(edge[i], -INFINITY));
     }
+    finish();
+}
+
+/* Values whose exact binary value has few decimal digits, where two shortest
+ * candidates can lie at the same distance (exact halves, large powers of two,
+ * integers above 2^53, the smallest subnormals and their multiples): the
+ * nearest-and-tie rule of the two implementations must agree there too. */
+static void test_ties(void)
+{
+    start();
+    for (int e = -1074; e <= 1023; e++) {
+        double p2 = ldexp(1, e);
+        check(p2);
+        check(nextafter(p2, INFINITY));
+        check(nextafter(p2, 0));
+        for (int m = 3; m < 64; m += 2)
+            check(ldexp(m, e));
+    }
+    for (long i = 1; i < 200000; i++) {
+        check(ldexp((double)i, -1074));
+        check((double)(i * 5) * 0x1p53);
+        check((double)(uint64_t)(next64() >> (next64() % 64)));
+    }
+    for (int d = -30; d <= 30; d++)
+        for (int s = 1; s < 1000; s++) {
+            double v = s * pow(10, d) + 0.5 * pow(10, d - 16);
+            check(v);
+            check(nextafter(v, INFINITY));
+        }
     finish();
 }
 
@@ -180,6 +219,7 @@ int main(void)
     static const ls_cu_case cases[] = {
         {"random bit patterns", test_random_bits},
         {"report-like values and range ends", test_report_like},
+        {"exact ties and integers", test_ties},
         {"layout", test_layout},
         {"null, empty and short buffers", test_fmt_num},
     };
