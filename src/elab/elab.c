@@ -47,6 +47,12 @@ typedef struct elab {
      * found again by the name's pointer (the tree's strings do not move), so
      * a name is hashed once; a slot another name took is only a lost hint. */
     struct { const char *key; uint32_t hv; } hints[64];
+    /* The node each number the parser gave a node name stands for at the
+     * top level (ls_stmt.from_key, to_key: index 1 .. nkeys), -1 until a
+     * top-level reference has resolved it to a node; NULL when the program
+     * has no numbers (or no memory for them: names are then looked up as ever). */
+    int *node_of_key;
+    int nkeys;
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -266,6 +272,22 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
         }
     }
     return i;
+}
+
+/* node_ref for a part's FROM or TO with its number from the parser (key,
+ * 0 for none; equal numbers are equal names): at the top level a name
+ * resolved to a node once is that node at every later mention (the name
+ * table only gains names, and the ground's name is fixed before the parts),
+ * so only the first mention with each number is looked up.
+ * A mention that fails (an error) is not remembered: each one reports. */
+static int node_ref_keyed(elab *x, const scope *s, const char *name, ls_loc loc, int key)
+{
+    if (s->prefix[0] || key <= 0 || key > x->nkeys || !x->node_of_key)
+        return node_ref(x, s, name, loc);
+    int *known = &x->node_of_key[key];
+    if (*known < 0)
+        *known = node_ref(x, s, name, loc);
+    return *known;
 }
 
 /* A parameter visible from scope s: its own, else the top level's. */
@@ -1603,8 +1625,8 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         return;
     }
     if (st->arrow) {
-        p.pin[0] = node_ref(x, s, st->from, st->from_loc);
-        p.pin[1] = node_ref(x, s, st->to, st->to_loc);
+        p.pin[0] = node_ref_keyed(x, s, st->from, st->from_loc, st->from_key);
+        p.pin[1] = node_ref_keyed(x, s, st->to, st->to_loc, st->to_key);
     }
     int main_opt = main_option(k);
     if (st->value)
@@ -1880,9 +1902,11 @@ static void prefetch_names(elab *x, ls_stmt *const *stmts, int n, int i)
         return;
     const ls_stmt *a = stmts[i];
     prefetch_name(x, a->name);
-    if (a->arrow) {
-        prefetch_name(x, a->from);
-        prefetch_name(x, a->to);
+    if (a->arrow) { /* a numbered name already resolved needs no probe */
+        if (!x->node_of_key || a->from_key <= 0 || a->from_key > x->nkeys || x->node_of_key[a->from_key] < 0)
+            prefetch_name(x, a->from);
+        if (!x->node_of_key || a->to_key <= 0 || a->to_key > x->nkeys || x->node_of_key[a->to_key] < 0)
+            prefetch_name(x, a->to);
     }
 }
 
@@ -2337,6 +2361,10 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
         reserve((void **)&nl->parts, &nl->cap_parts, nparts, sizeof *nl->parts);
         reserve((void **)&nl->ents, &nl->cap_ents, nparts + nparts / 2 + 16, sizeof *nl->ents);
         reserve((void **)&nl->nodes, &nl->cap_nodes, nparts / 2 + 16, sizeof *nl->nodes);
+        if (prog->node_keys > 0 && (x.node_of_key = malloc(((size_t)prog->node_keys + 1) * sizeof *x.node_of_key))) {
+            memset(x.node_of_key, 0xff, ((size_t)prog->node_keys + 1) * sizeof *x.node_of_key); /* every int -1 */
+            x.nkeys = prog->node_keys;
+        }
         elab_body(&x, &top, prog->stmts, prog->n);
     }
     resolve_refs(&x);
@@ -2351,6 +2379,7 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
     ls_hash_free(&x.warned);
     free(x.blockv);
     free(x.locals);
+    free(x.node_of_key);
     return d->errors - e0;
 }
 

@@ -11,6 +11,7 @@
 #include <sys/stat.h>
 
 #include "lang/lexer.h"
+#include "lang/nodenames.h"
 
 /* Distinct kind words a parse keeps one copy of (the part table has fewer). */
 #define LS_KIND_WORDS 64
@@ -35,6 +36,7 @@ typedef struct parser {
     int inc_depth;
     inc_frame *incs;
     const char *dir;          /* directory of this file, for includes */
+    ls_node_names *nodes;     /* FROM and TO names' numbers, shared with included files; NULL: none */
     /* The kind words seen so far (in the arena), each kept once however many
      * part statements use it; the last one used is tried first. */
     struct { const char *w; unsigned len; } kinds[LS_KIND_WORDS];
@@ -89,6 +91,17 @@ static void skip_line(parser *p)
 static char *tok_str(parser *p, const ls_token *t)
 {
     return ls_arena_strndup(p->a, t->text, t->len);
+}
+
+/* A node name of a part statement (its n bytes at text): its string, shared
+ * with a recent mention of the same name, and its number in *key (0 when not
+ * numbered; see nodenames.h).  NULL when out of memory. */
+static const char *node_name(parser *p, const char *text, size_t n, int *key)
+{
+    *key = 0;
+    if (!p->nodes)
+        return ls_arena_strndup(p->a, text, n);
+    return ls_node_names_intern(p->nodes, p->a, text, n, key);
 }
 
 static bool is_word(const ls_token *t, const char *w)
@@ -544,8 +557,8 @@ static ls_stmt *simple_part(parser *p)
     ls_expr *e;
     if (!s || !(s->kw = kind_word(p, &p->tok)) ||
         !(s->name = ls_arena_strndup(p->a, src + sp.name, sp.name_end - sp.name)) ||
-        !(s->from = ls_arena_strndup(p->a, src + sp.from, sp.from_end - sp.from)) ||
-        !(s->to = ls_arena_strndup(p->a, src + sp.to, sp.to_end - sp.to)) ||
+        !(s->from = node_name(p, src + sp.from, sp.from_end - sp.from, &s->from_key)) ||
+        !(s->to = node_name(p, src + sp.to, sp.to_end - sp.to, &s->to_key)) ||
         !(e = new_expr(p, E_NUM, (ls_loc){f, sp.num, sp.num_end})))
         return NULL;
     s->name_loc = (ls_loc){f, sp.name, sp.name_end};
@@ -574,11 +587,18 @@ static ls_stmt *parse_part(parser *p)
     if (!expect_ident(p, "a part name", &s->name, &s->name_loc))
         return NULL;
     if (p->tok.kind == T_IDENT && peek(p)->kind == T_ARROW) {
-        s->from = tok_str(p, &p->tok);
+        s->from = node_name(p, p->tok.text, p->tok.len, &s->from_key);
         s->from_loc = p->tok.loc;
         advance(p);
         advance(p);
-        if (!expect_ident(p, "a node name after '->'", &s->to, &s->to_loc))
+        if (p->tok.kind != T_IDENT) {
+            expected(p, "a node name after '->'");
+            return NULL;
+        }
+        s->to = node_name(p, p->tok.text, p->tok.len, &s->to_key);
+        s->to_loc = p->tok.loc;
+        advance(p);
+        if (!s->to)
             return NULL;
         s->arrow = true;
     } else if (p->tok.kind == T_IDENT && !option_ahead(p) && !at_eol(p)) {
@@ -1039,6 +1059,7 @@ static void parse_registered(parser *outer, int file, const char *dir, inc_frame
     p.dir = dir;
     p.incs = frames;
     p.general_only = outer->general_only;
+    p.nodes = outer->nodes;
     p.inc_depth = depth;
     ls_lex_init(&p.lx, p.d, file);
     advance(&p);
@@ -1143,7 +1164,12 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog, 
         out.cap = cap;
         out.a = p.sa;
     }
+    ls_node_names nodes;
+    ls_node_names_init(&nodes);
+    p.nodes = &nodes;
     parse_registered(&p, file, dir_of(p.a, path), &fr, 0, &out, NULL);
+    prog->node_keys = nodes.n;
+    ls_node_names_free(&nodes);
     if (out.a) {
         prog->stmts = out.v;
     } else {
