@@ -553,13 +553,21 @@ static ls_stmt *simple_part(parser *p)
         return NULL;
     const char *src = p->lx.src;
     int f = p->lx.file;
-    ls_stmt *s = new_stmt(p, S_PART);
-    ls_expr *e;
-    if (!s || !(s->kw = kind_word(p, &p->tok)) ||
-        !(s->name = ls_arena_strndup(p->a, src + sp.name, sp.name_end - sp.name)) ||
+    /* The statement and its number in one allocation: 8-byte aligned, so no
+     * padding between one statement's number and the next statement (two
+     * million statements on a 1000 x 1000 grid). */
+    ls_stmt *s = ls_arena_alloc(p->sa, sizeof *s + ls_expr_size(E_NUM));
+    if (!s)
+        return NULL;
+    ls_expr *e = (ls_expr *)(s + 1);
+    _Static_assert(sizeof(ls_stmt) % _Alignof(ls_expr) == 0, "the number follows its statement aligned");
+    s->kind = S_PART;
+    s->loc = s->text_loc = p->tok.loc;
+    e->kind = E_NUM;
+    e->loc = (ls_loc){f, sp.num, sp.num_end};
+    if (!(s->kw = kind_word(p, &p->tok)) || !(s->name = ls_arena_strndup(p->a, src + sp.name, sp.name_end - sp.name)) ||
         !(s->from = node_name(p, src + sp.from, sp.from_end - sp.from, &s->from_key)) ||
-        !(s->to = node_name(p, src + sp.to, sp.to_end - sp.to, &s->to_key)) ||
-        !(e = new_expr(p, E_NUM, (ls_loc){f, sp.num, sp.num_end})))
+        !(s->to = node_name(p, src + sp.to, sp.to_end - sp.to, &s->to_key)))
         return NULL;
     s->name_loc = (ls_loc){f, sp.name, sp.name_end};
     s->from_loc = (ls_loc){f, sp.from, sp.from_end};
@@ -1070,6 +1078,27 @@ static void parse_registered(parser *outer, int file, const char *dir, inc_frame
     }
 }
 
+/* Whether the file whose canonical path is `real` (written `name`, at sloc)
+ * is already being read by an including file: then reported, naming the
+ * whole chain outermost first (a -> b -> a). */
+static bool include_cycle(parser *p, const char *name, const char *real, ls_loc sloc)
+{
+    for (inc_frame *f = p->incs; f; f = f->up) {
+        if (strcmp(f->real, real) != 0)
+            continue;
+        char chain[600];
+        snprintf(chain, sizeof chain, "'%s'", name);
+        for (inc_frame *g = p->incs; g; g = g->up) {
+            char tmp[600];
+            snprintf(tmp, sizeof tmp, "'%.200s' -> %.380s", g->shown, chain); /* truncated, never overflowing */
+            memcpy(chain, tmp, sizeof chain);
+        }
+        ls_error(p->d, sloc, "include cycle: %s (a file cannot include itself, directly or through others)", chain);
+        return true;
+    }
+    return false;
+}
+
 /* include -> 'include' STRING */
 static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
 {
@@ -1098,21 +1127,8 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
         ls_error(p->d, sloc, "cannot open included file '%s': %s", path, strerror(errno));
         return;
     }
-    for (inc_frame *f = p->incs; f; f = f->up) {
-        if (strcmp(f->real, real) == 0) {
-            /* name the whole chain, outermost first: a -> b -> a */
-            char chain[600];
-            snprintf(chain, sizeof chain, "'%s'", name);
-            for (inc_frame *g = p->incs; g; g = g->up) {
-                char tmp[600];
-                snprintf(tmp, sizeof tmp, "'%.200s' -> %.380s", g->shown, chain); /* truncated, never overflowing */
-                memcpy(chain, tmp, sizeof chain);
-            }
-            ls_error(p->d, sloc, "include cycle: %s (a file cannot include itself, directly or through others)",
-                     chain);
-            return;
-        }
-    }
+    if (include_cycle(p, name, real, sloc))
+        return;
     struct stat st;
     if (stat(real, &st) == 0 && !S_ISREG(st.st_mode)) {
         /* a device or a pipe could block or never end (/dev/zero, a fifo) */
