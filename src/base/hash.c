@@ -4,6 +4,7 @@
 
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 
 #define MIN_CAP 64
 #define MAX_CAP ((size_t)1 << 31)   /* a 32-bit stored hash still picks any slot */
@@ -85,10 +86,30 @@ static inline int fits(size_t count, size_t cap)
     return count <= cap - cap / 4;
 }
 
+#define HUGE_PAGE ((size_t)2 << 20)   /* x86-64 and arm64 (4 KB base pages) */
+
+/* cap zeroed slots, freed with free().  A table of many megabytes is probed
+ * at random, one translation-buffer miss per probe with base pages, so it is
+ * aligned for huge pages and asks for them (advice only). */
+static ls_hash_slot *new_slots(size_t cap)
+{
+    size_t bytes = cap * sizeof(ls_hash_slot);
+    if (bytes < 2 * HUGE_PAGE)
+        return calloc(cap, sizeof(ls_hash_slot));
+    void *p;
+    if (posix_memalign(&p, HUGE_PAGE, bytes) != 0)
+        return NULL;
+#ifdef MADV_HUGEPAGE
+    madvise(p, bytes, MADV_HUGEPAGE);
+#endif
+    memset(p, 0, bytes);
+    return p;
+}
+
 /* Rebuild with cap slots (a power of two holding every key); -1 no memory. */
 static int rebuild(ls_hash *h, size_t cap)
 {
-    ls_hash_slot *s = calloc(cap, sizeof *s);
+    ls_hash_slot *s = new_slots(cap);
     if (!s)
         return -1;
     size_t m = cap - 1;

@@ -3,7 +3,7 @@
  * Linear probing; each slot keeps its key's 32-bit hash beside the key, so a
  * probe compares strings only when the hashes agree, and growing never hashes
  * a key again.  The table grows to keep at most three quarters of its slots
- * in use. */
+ * in use.  A table of 4 MB or more asks for huge pages (hash.c, new_slots). */
 #ifndef LS_HASH_H
 #define LS_HASH_H
 

@@ -47,6 +47,12 @@ typedef struct elab {
      * found again by the name's pointer (the tree's strings do not move), so
      * a name is hashed once; a slot another name took is only a lost hint. */
     struct { const char *key; uint32_t hv; } hints[64];
+    /* The node each number the parser gave a node name stands for at the
+     * top level (ls_stmt.from_key, to_key: index 1 .. nkeys), -1 until a
+     * top-level reference has resolved it to a node; NULL when the program
+     * has no numbers (or no memory for them: names are then looked up as ever). */
+    int *node_of_key;
+    int nkeys;
 } elab;
 
 /* ---- growable arrays ---------------------------------------------------------- */
@@ -268,6 +274,22 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
     return i;
 }
 
+/* node_ref for a part's FROM or TO with its number from the parser (key,
+ * 0 for none; equal numbers are equal names): at the top level a name
+ * resolved to a node once is that node at every later mention (the name
+ * table only gains names, and the ground's name is fixed before the parts),
+ * so only the first mention with each number is looked up.
+ * A mention that fails (an error) is not remembered: each one reports. */
+static int node_ref_keyed(elab *x, const scope *s, const char *name, ls_loc loc, int key)
+{
+    if (s->prefix[0] || key <= 0 || key > x->nkeys || !x->node_of_key)
+        return node_ref(x, s, name, loc);
+    int *known = &x->node_of_key[key];
+    if (*known < 0)
+        *known = node_ref(x, s, name, loc);
+    return *known;
+}
+
 /* A parameter visible from scope s: its own, else the top level's. */
 static const ls_param *param_ref(elab *x, const scope *s, const char *name)
 {
@@ -462,6 +484,33 @@ static bool lsb_allowed(elab *x, const ls_expr *e)
     return false;
 }
 
+/* The value of a name in an expression: the caller's (x->names) or a let's
+ * visible from scope s; false after an error saying what the name is instead. */
+static bool eval_name(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *d)
+{
+    if (x->names)
+        return x->names(x->names_ctx, e, v, d) && isfinite(*v);
+    const ls_param *p = param_ref(x, s, e->name);
+    if (p) {
+        *v = p->value;
+        *d = p->dims;
+        return true;
+    }
+    const char *full = qualify(x, s, e->name);
+    if (!full)
+        return false;
+    int en = ls_hash_get(&x->nl->names, full);
+    if (en >= 0 && x->nl->ents[en].kind != ENT_PARAM)
+        ls_error(x->d, e->loc, "'%s' is a %s; a value is expected here (a number or a let)", e->name,
+                 ent_what(x->nl->ents[en].kind));
+    else
+        ls_error(x->d, e->loc, "unknown name '%s' (no let or block parameter of that name)", e->name);
+    return false;
+}
+
+/* The value of a constant expression in scope s, with its unit in *d: true,
+ * or false after reporting why not (a unit mismatch, a division by zero, a
+ * value that is not finite, an unknown name). */
 static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *d)
 {
     switch (e->kind) {
@@ -469,26 +518,8 @@ static bool eval(elab *x, const scope *s, const ls_expr *e, double *v, ls_dims *
         *v = e->num;
         *d = e->dims;
         return lsb_allowed(x, e);
-    case E_NAME: {
-        if (x->names)
-            return x->names(x->names_ctx, e, v, d) && isfinite(*v);
-        const ls_param *p = param_ref(x, s, e->name);
-        if (p) {
-            *v = p->value;
-            *d = p->dims;
-            return true;
-        }
-        const char *full = qualify(x, s, e->name);
-        if (!full)
-            return false;
-        int en = ls_hash_get(&x->nl->names, full);
-        if (en >= 0 && x->nl->ents[en].kind != ENT_PARAM)
-            ls_error(x->d, e->loc, "'%s' is a %s; a value is expected here (a number or a let)", e->name,
-                     ent_what(x->nl->ents[en].kind));
-        else
-            ls_error(x->d, e->loc, "unknown name '%s' (no let or block parameter of that name)", e->name);
-        return false;
-    }
+    case E_NAME:
+        return eval_name(x, s, e, v, d);
     case E_NEG:
         if (!eval(x, s, e->a, v, d))
             return false;
@@ -723,91 +754,106 @@ static ls_q *new_q(elab *x, ls_qkind k, ls_loc loc)
     return q;
 }
 
-/* Resolve NAME or PART.PROP in scope s to a quantity leaf. */
+/* A let's value as a constant leaf at e (recorded for a followed let).
+ * NULL when out of memory. */
+static ls_q *bind_let(elab *x, const ls_param *p, const ls_expr *e)
+{
+    ls_q *q = new_q(x, Q_CONST, e->loc);
+    if (q) {
+        q->value = p->value;
+        q->dims = p->dims;
+        int pi = (int)(p - x->nl->params);
+        if (x->deps && ls_letdeps_reaches(x->deps, pi)) {
+            int en = ls_letdeps_begin(x->deps, LD_QCONST, pi);
+            if (en >= 0)
+                ls_letdeps_entry(x->deps, en)->q = q;
+        }
+    }
+    return q;
+}
+
+/* Node `index`'s voltage as a leaf at e; NULL when out of memory. */
+static ls_q *bind_node(elab *x, int index, const ls_expr *e)
+{
+    ls_q *q = new_q(x, Q_NODE, e->loc);
+    if (q) {
+        q->index = index;
+        q->dims = LS_VOLT;
+    }
+    return q;
+}
+
+/* The entity o that e's name stands for, as a leaf: a node's voltage, else
+ * an error saying what the name is instead (NULL). */
+static ls_q *bind_entity(elab *x, const ls_entity *o, const ls_expr *e)
+{
+    if (o->kind == ENT_NODE || o->kind == ENT_ALIAS)
+        return bind_node(x, o->index, e);
+    if (o->kind == ENT_PART) {
+        const ls_part *pt = &x->nl->parts[o->index];
+        char props[256];
+        ls_error(x->d, e->loc, "'%s' is a %s; name a property: %s.%s", e->name, pt->kind->is_port ? "port" : "part",
+                 e->name, prop_list(pt, props, sizeof props));
+        return NULL;
+    }
+    ls_error(x->d, e->loc, "'%s' is a %s; a node voltage or a property is expected", e->name, ent_what(o->kind));
+    return NULL;
+}
+
+/* Property `prop` (the text after the last dot) of part pi, named `base`,
+ * as a leaf at e; NULL after an error (no such property, or not this
+ * part's). */
+static ls_q *bind_prop(elab *x, int pi, const char *base, const char *prop, const ls_expr *e)
+{
+    const ls_part *pt = &x->nl->parts[pi];
+    char props[256];
+    for (int k = 0; k < PROP_COUNT; k++) {
+        if (strcmp(prop, ls_prop_name((ls_prop)k)) != 0)
+            continue;
+        if (pt->kind->is_port && (k == PROP_VOLTAGE || k == PROP_POWER)) {
+            ls_error(x->d, e->loc, "a port has no '%s' (it is a zero-volt connection); try %s.loaded", prop, base);
+            return NULL;
+        }
+        if (!ls_prop_applies(pt, (ls_prop)k)) {
+            ls_error(x->d, e->loc, "%s '%s' has no property '%s'%s; its properties are %s", pt->kind->name, base,
+                     prop, k == PROP_VALUE ? " (it has no main value)" : "", prop_list(pt, props, sizeof props));
+            return NULL;
+        }
+        ls_q *q = new_q(x, Q_PROP, e->loc);
+        if (q) {
+            q->index = pi;
+            q->prop = (ls_prop)k;
+            q->dims = ls_prop_dims(pt, q->prop);
+        }
+        return q;
+    }
+    ls_error(x->d, e->loc, "%s '%s' has no property '%s'; its properties are %s", pt->kind->name, base, prop,
+             prop_list(pt, props, sizeof props));
+    return NULL;
+}
+
+/* Resolve NAME or PART.PROP in scope s to a quantity leaf: a let, the
+ * ground, a node or alias, else a part's property. */
 static ls_q *bind_name(elab *x, const scope *s, const ls_expr *e)
 {
     ls_netlist *nl = x->nl;
     const ls_param *p = param_ref(x, s, e->name);
-    if (p) {
-        ls_q *q = new_q(x, Q_CONST, e->loc);
-        if (q) {
-            q->value = p->value;
-            q->dims = p->dims;
-            int pi = (int)(p - nl->params);
-            if (x->deps && ls_letdeps_reaches(x->deps, pi)) {
-                int en = ls_letdeps_begin(x->deps, LD_QCONST, pi);
-                if (en >= 0)
-                    ls_letdeps_entry(x->deps, en)->q = q;
-            }
-        }
-        return q;
-    }
-    if (strcmp(e->name, "ground") == 0 || strcmp(e->name, nl->ground_name ? nl->ground_name : "") == 0) {
-        ls_q *q = new_q(x, Q_NODE, e->loc);
-        if (q) {
-            q->index = 0;
-            q->dims = LS_VOLT;
-        }
-        return q;
-    }
+    if (p)
+        return bind_let(x, p, e);
+    if (strcmp(e->name, "ground") == 0 || strcmp(e->name, nl->ground_name ? nl->ground_name : "") == 0)
+        return bind_node(x, 0, e);
     const char *full = qualify(x, s, e->name);
     if (!full)
         return NULL;
     int en = ls_hash_get(&nl->names, full);
-    if (en >= 0) {
-        ls_entity *o = &nl->ents[en];
-        if (o->kind == ENT_NODE || o->kind == ENT_ALIAS) {
-            ls_q *q = new_q(x, Q_NODE, e->loc);
-            if (q) {
-                q->index = o->index;
-                q->dims = LS_VOLT;
-            }
-            return q;
-        }
-        if (o->kind == ENT_PART) {
-            const ls_part *pt = &nl->parts[o->index];
-            char props[256];
-            ls_error(x->d, e->loc, "'%s' is a %s; name a property: %s.%s", e->name,
-                     pt->kind->is_port ? "port" : "part", e->name, prop_list(pt, props, sizeof props));
-            return NULL;
-        }
-        ls_error(x->d, e->loc, "'%s' is a %s; a node voltage or a property is expected", e->name,
-                 ent_what(o->kind));
-        return NULL;
-    }
+    if (en >= 0)
+        return bind_entity(x, &nl->ents[en], e);
     const char *dot = strrchr(full, '.');
     if (dot) {
         char *base = ls_arena_strndup(x->a, full, (size_t)(dot - full));
         int pe = base ? ls_hash_get(&nl->names, base) : -1;
-        if (pe >= 0 && nl->ents[pe].kind == ENT_PART) {
-            const ls_part *pt = &nl->parts[nl->ents[pe].index];
-            char props[256];
-            for (int k = 0; k < PROP_COUNT; k++) {
-                if (strcmp(dot + 1, ls_prop_name((ls_prop)k)) != 0)
-                    continue;
-                if (pt->kind->is_port && (k == PROP_VOLTAGE || k == PROP_POWER)) {
-                    ls_error(x->d, e->loc, "a port has no '%s' (it is a zero-volt connection); try %s.loaded",
-                             dot + 1, base);
-                    return NULL;
-                }
-                if (!ls_prop_applies(pt, (ls_prop)k)) {
-                    ls_error(x->d, e->loc, "%s '%s' has no property '%s'%s; its properties are %s", pt->kind->name,
-                             base, dot + 1, k == PROP_VALUE ? " (it has no main value)" : "",
-                             prop_list(pt, props, sizeof props));
-                    return NULL;
-                }
-                ls_q *q = new_q(x, Q_PROP, e->loc);
-                if (q) {
-                    q->index = nl->ents[pe].index;
-                    q->prop = (ls_prop)k;
-                    q->dims = ls_prop_dims(pt, q->prop);
-                }
-                return q;
-            }
-            ls_error(x->d, e->loc, "%s '%s' has no property '%s'; its properties are %s", pt->kind->name, base,
-                     dot + 1, prop_list(pt, props, sizeof props));
-            return NULL;
-        }
+        if (pe >= 0 && nl->ents[pe].kind == ENT_PART)
+            return bind_prop(x, nl->ents[pe].index, base, dot + 1, e);
     }
     ls_error(x->d, e->loc, "unknown node, part or parameter '%s'", e->name);
     return NULL;
@@ -1571,6 +1617,39 @@ static void store_part(elab *x, const ls_stmt *st, const ls_part *p)
         nl->nparts++;
 }
 
+/* The record of statement st's part of kind k in scope s, before its nodes,
+ * value and options: no pins, no branch, no state.  False when its name
+ * cannot be made (out of memory, reported at the end). */
+static bool start_part(elab *x, const scope *s, const ls_stmt *st, const ls_kind *k, ls_part *p)
+{
+    memset(p, 0, sizeof *p);
+    p->kind = k;
+    p->loc = st->name_loc;
+    p->ref = -1;
+    p->branch = -1;
+    for (int i = 0; i < LS_MAX_PINS; i++)
+        p->pin[i] = -1;
+    p->name = qualify(x, s, st->name);
+    p->instance = s->prefix[0] ? s->prefix : NULL;
+    p->slot = -1;
+    return p->name != NULL;
+}
+
+/* A part's free= range checked and its snap= rounding done, the rounding
+ * recorded for a followed let (deps entries from deps_n0 on are the
+ * part's); snap_loc is where snap= was written. */
+static void finish_rounding(elab *x, ls_part *p, int deps_n0, ls_loc snap_loc)
+{
+    const ls_kind *k = p->kind;
+    finish_free(x, p);
+    if (x->deps && p->has_value && (ls_part_has(p, ls_kind_opt(k, "snap")) || ls_part_has(p, ls_kind_opt(k, "free"))))
+        follow_rounded(x, p, deps_n0);
+    if (p->has_value && ls_part_has(p, ls_kind_opt(k, "snap")))
+        snap_value(x, p, ls_kind_opt(k, "snap"), snap_loc);
+}
+
+/* Statement st's part into the netlist (in scope s): its nodes, value and
+ * options checked, unless an error was reported. */
 static void elab_part(elab *x, const scope *s, const ls_stmt *st)
 {
     ls_netlist *nl = x->nl;
@@ -1579,18 +1658,8 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         return; /* named by check_kinds */
     ls_part p;
     ls_loc snap_loc = LS_NOLOC;
-    memset(&p, 0, sizeof p);
-    p.kind = k;
-    p.loc = st->name_loc;
-    p.ref = -1;
-    p.branch = -1;
-    for (int i = 0; i < LS_MAX_PINS; i++)
-        p.pin[i] = -1;
-    p.name = qualify(x, s, st->name);
-    if (!p.name)
+    if (!start_part(x, s, st, k, &p))
         return;
-    p.instance = s->prefix[0] ? s->prefix : NULL;
-    p.slot = -1;
     int errs = x->d->errors;
     int deps_n0 = x->deps ? x->deps->n : 0;
 
@@ -1603,8 +1672,8 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
         return;
     }
     if (st->arrow) {
-        p.pin[0] = node_ref(x, s, st->from, st->from_loc);
-        p.pin[1] = node_ref(x, s, st->to, st->to_loc);
+        p.pin[0] = node_ref_keyed(x, s, st->from, st->from_loc, st->from_key);
+        p.pin[1] = node_ref_keyed(x, s, st->to, st->to_loc, st->to_key);
     }
     int main_opt = main_option(k);
     if (st->value)
@@ -1618,14 +1687,8 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
                                                          : "the value"))
         return;
     require_options(x, st, &p);
-    if (p.has_opt) { /* free= and snap= are options: without any, nothing to finish */
-        finish_free(x, &p);
-        if (x->deps && p.has_value &&
-            (ls_part_has(&p, ls_kind_opt(k, "snap")) || ls_part_has(&p, ls_kind_opt(k, "free"))))
-            follow_rounded(x, &p, deps_n0);
-        if (p.has_value && ls_part_has(&p, ls_kind_opt(k, "snap")))
-            snap_value(x, &p, ls_kind_opt(k, "snap"), snap_loc);
-    }
+    if (p.has_opt) /* free= and snap= are options: without any, nothing to finish */
+        finish_rounding(x, &p, deps_n0, snap_loc);
     if (st->arrow && p.pin[0] >= 0 && p.pin[0] == p.pin[1])
         ls_warning(x->d, st->from_loc, "same-node", "both ends of %s '%s' are the same node '%s'", k->name, st->name,
                    nl->nodes[p.pin[0]].name);
@@ -1880,9 +1943,11 @@ static void prefetch_names(elab *x, ls_stmt *const *stmts, int n, int i)
         return;
     const ls_stmt *a = stmts[i];
     prefetch_name(x, a->name);
-    if (a->arrow) {
-        prefetch_name(x, a->from);
-        prefetch_name(x, a->to);
+    if (a->arrow) { /* a numbered name already resolved needs no probe */
+        if (!x->node_of_key || a->from_key <= 0 || a->from_key > x->nkeys || x->node_of_key[a->from_key] < 0)
+            prefetch_name(x, a->from);
+        if (!x->node_of_key || a->to_key <= 0 || a->to_key > x->nkeys || x->node_of_key[a->to_key] < 0)
+            prefetch_name(x, a->to);
     }
 }
 
@@ -2337,6 +2402,10 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
         reserve((void **)&nl->parts, &nl->cap_parts, nparts, sizeof *nl->parts);
         reserve((void **)&nl->ents, &nl->cap_ents, nparts + nparts / 2 + 16, sizeof *nl->ents);
         reserve((void **)&nl->nodes, &nl->cap_nodes, nparts / 2 + 16, sizeof *nl->nodes);
+        if (prog->node_keys > 0 && (x.node_of_key = malloc(((size_t)prog->node_keys + 1) * sizeof *x.node_of_key))) {
+            memset(x.node_of_key, 0xff, ((size_t)prog->node_keys + 1) * sizeof *x.node_of_key); /* every int -1 */
+            x.nkeys = prog->node_keys;
+        }
         elab_body(&x, &top, prog->stmts, prog->n);
     }
     resolve_refs(&x);
@@ -2351,6 +2420,7 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
     ls_hash_free(&x.warned);
     free(x.blockv);
     free(x.locals);
+    free(x.node_of_key);
     return d->errors - e0;
 }
 

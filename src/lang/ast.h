@@ -88,8 +88,9 @@ typedef struct ls_stmt {
     ls_opt *opts;           /* S_PART, S_USE, S_BLOCK (params with defaults); NULL when nopts is 0 */
     union {
         struct {            /* S_PART two-terminal (arrow) */
-            const char *from, *to;
+            const char *from, *to;   /* possibly shared with other statements (lang/nodenames.h) */
             ls_loc from_loc, to_loc;
+            int from_key, to_key;    /* the names' numbers (1 ..; equal numbers, equal names), 0: none */
         };
         ls_loc kw_loc;      /* S_USE: the block name */
         struct {            /* S_BLOCK; arrays NULL when empty */
@@ -113,6 +114,9 @@ typedef struct ls_program {
      * arena, and the netlist keeps no pointer into the tree, so the caller
      * may free this arena once the program is elaborated for the last time. */
     ls_arena *syntax;
+    /* Numbers the parser gave node names (ls_stmt.from_key, to_key: 1 ..
+     * node_keys); 0 for a program whose statements carry none. */
+    int node_keys;
 } ls_program;
 
 #endif

@@ -11,6 +11,7 @@
 #include <sys/stat.h>
 
 #include "lang/lexer.h"
+#include "lang/nodenames.h"
 
 /* Distinct kind words a parse keeps one copy of (the part table has fewer). */
 #define LS_KIND_WORDS 64
@@ -35,6 +36,7 @@ typedef struct parser {
     int inc_depth;
     inc_frame *incs;
     const char *dir;          /* directory of this file, for includes */
+    ls_node_names *nodes;     /* FROM and TO names' numbers, shared with included files; NULL: none */
     /* The kind words seen so far (in the arena), each kept once however many
      * part statements use it; the last one used is tried first. */
     struct { const char *w; unsigned len; } kinds[LS_KIND_WORDS];
@@ -89,6 +91,17 @@ static void skip_line(parser *p)
 static char *tok_str(parser *p, const ls_token *t)
 {
     return ls_arena_strndup(p->a, t->text, t->len);
+}
+
+/* A node name of a part statement (its n bytes at text): its string, shared
+ * with a recent mention of the same name, and its number in *key (0 when not
+ * numbered; see nodenames.h).  NULL when out of memory. */
+static const char *node_name(parser *p, const char *text, size_t n, int *key)
+{
+    *key = 0;
+    if (!p->nodes)
+        return ls_arena_strndup(p->a, text, n);
+    return ls_node_names_intern(p->nodes, p->a, text, n, key);
 }
 
 static bool is_word(const ls_token *t, const char *w)
@@ -540,13 +553,21 @@ static ls_stmt *simple_part(parser *p)
         return NULL;
     const char *src = p->lx.src;
     int f = p->lx.file;
-    ls_stmt *s = new_stmt(p, S_PART);
-    ls_expr *e;
-    if (!s || !(s->kw = kind_word(p, &p->tok)) ||
-        !(s->name = ls_arena_strndup(p->a, src + sp.name, sp.name_end - sp.name)) ||
-        !(s->from = ls_arena_strndup(p->a, src + sp.from, sp.from_end - sp.from)) ||
-        !(s->to = ls_arena_strndup(p->a, src + sp.to, sp.to_end - sp.to)) ||
-        !(e = new_expr(p, E_NUM, (ls_loc){f, sp.num, sp.num_end})))
+    /* The statement and its number in one allocation: 8-byte aligned, so no
+     * padding between one statement's number and the next statement (two
+     * million statements on a 1000 x 1000 grid). */
+    ls_stmt *s = ls_arena_alloc(p->sa, sizeof *s + ls_expr_size(E_NUM));
+    if (!s)
+        return NULL;
+    ls_expr *e = (ls_expr *)(s + 1);
+    _Static_assert(sizeof(ls_stmt) % _Alignof(ls_expr) == 0, "the number follows its statement aligned");
+    s->kind = S_PART;
+    s->loc = s->text_loc = p->tok.loc;
+    e->kind = E_NUM;
+    e->loc = (ls_loc){f, sp.num, sp.num_end};
+    if (!(s->kw = kind_word(p, &p->tok)) || !(s->name = ls_arena_strndup(p->a, src + sp.name, sp.name_end - sp.name)) ||
+        !(s->from = node_name(p, src + sp.from, sp.from_end - sp.from, &s->from_key)) ||
+        !(s->to = node_name(p, src + sp.to, sp.to_end - sp.to, &s->to_key)))
         return NULL;
     s->name_loc = (ls_loc){f, sp.name, sp.name_end};
     s->from_loc = (ls_loc){f, sp.from, sp.from_end};
@@ -574,11 +595,18 @@ static ls_stmt *parse_part(parser *p)
     if (!expect_ident(p, "a part name", &s->name, &s->name_loc))
         return NULL;
     if (p->tok.kind == T_IDENT && peek(p)->kind == T_ARROW) {
-        s->from = tok_str(p, &p->tok);
+        s->from = node_name(p, p->tok.text, p->tok.len, &s->from_key);
         s->from_loc = p->tok.loc;
         advance(p);
         advance(p);
-        if (!expect_ident(p, "a node name after '->'", &s->to, &s->to_loc))
+        if (p->tok.kind != T_IDENT) {
+            expected(p, "a node name after '->'");
+            return NULL;
+        }
+        s->to = node_name(p, p->tok.text, p->tok.len, &s->to_key);
+        s->to_loc = p->tok.loc;
+        advance(p);
+        if (!s->to)
             return NULL;
         s->arrow = true;
     } else if (p->tok.kind == T_IDENT && !option_ahead(p) && !at_eol(p)) {
@@ -1039,6 +1067,7 @@ static void parse_registered(parser *outer, int file, const char *dir, inc_frame
     p.dir = dir;
     p.incs = frames;
     p.general_only = outer->general_only;
+    p.nodes = outer->nodes;
     p.inc_depth = depth;
     ls_lex_init(&p.lx, p.d, file);
     advance(&p);
@@ -1047,6 +1076,27 @@ static void parse_registered(parser *outer, int file, const char *dir, inc_frame
         /* 'end' inside an included file closed the including file's block */
         ls_error(p.d, p.tok.loc, "an included file cannot end a block opened outside it");
     }
+}
+
+/* Whether the file whose canonical path is `real` (written `name`, at sloc)
+ * is already being read by an including file: then reported, naming the
+ * whole chain outermost first (a -> b -> a). */
+static bool include_cycle(parser *p, const char *name, const char *real, ls_loc sloc)
+{
+    for (inc_frame *f = p->incs; f; f = f->up) {
+        if (strcmp(f->real, real) != 0)
+            continue;
+        char chain[600];
+        snprintf(chain, sizeof chain, "'%s'", name);
+        for (inc_frame *g = p->incs; g; g = g->up) {
+            char tmp[600];
+            snprintf(tmp, sizeof tmp, "'%.200s' -> %.380s", g->shown, chain); /* truncated, never overflowing */
+            memcpy(chain, tmp, sizeof chain);
+        }
+        ls_error(p->d, sloc, "include cycle: %s (a file cannot include itself, directly or through others)", chain);
+        return true;
+    }
+    return false;
 }
 
 /* include -> 'include' STRING */
@@ -1077,21 +1127,8 @@ static void parse_include(parser *p, stmt_list *out, ls_stmt *block)
         ls_error(p->d, sloc, "cannot open included file '%s': %s", path, strerror(errno));
         return;
     }
-    for (inc_frame *f = p->incs; f; f = f->up) {
-        if (strcmp(f->real, real) == 0) {
-            /* name the whole chain, outermost first: a -> b -> a */
-            char chain[600];
-            snprintf(chain, sizeof chain, "'%s'", name);
-            for (inc_frame *g = p->incs; g; g = g->up) {
-                char tmp[600];
-                snprintf(tmp, sizeof tmp, "'%.200s' -> %.380s", g->shown, chain); /* truncated, never overflowing */
-                memcpy(chain, tmp, sizeof chain);
-            }
-            ls_error(p->d, sloc, "include cycle: %s (a file cannot include itself, directly or through others)",
-                     chain);
-            return;
-        }
-    }
+    if (include_cycle(p, name, real, sloc))
+        return;
     struct stat st;
     if (stat(real, &st) == 0 && !S_ISREG(st.st_mode)) {
         /* a device or a pipe could block or never end (/dev/zero, a fifo) */
@@ -1143,7 +1180,12 @@ static int parse_top(ls_diags *d, int file, const char *path, ls_program *prog, 
         out.cap = cap;
         out.a = p.sa;
     }
+    ls_node_names nodes;
+    ls_node_names_init(&nodes);
+    p.nodes = &nodes;
     parse_registered(&p, file, dir_of(p.a, path), &fr, 0, &out, NULL);
+    prog->node_keys = nodes.n;
+    ls_node_names_free(&nodes);
     if (out.a) {
         prog->stmts = out.v;
     } else {

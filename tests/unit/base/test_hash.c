@@ -374,9 +374,39 @@ static void test_spread(void)
     CU_ASSERT(chi2 < crit);
 }
 
+/* A table of 4 MB or more (slots from the huge-page path, new_slots): empty
+ * when made, growing past it keeps every key, and it frees like any other. */
+static void test_large_table(void)
+{
+    enum { N = 400000 }; /* 2^19 slots of 16 bytes: 8 MB */
+    char *keys = malloc((size_t)N * 12);
+    CU_ASSERT_PTR_NOT_NULL_FATAL(keys);
+    ls_hash h;
+    ls_hash_init(&h);
+    CU_ASSERT_EQUAL(ls_hash_reserve(&h, N / 2), 0);
+    CU_ASSERT(h.cap * sizeof(ls_hash_slot) >= ((size_t)4 << 20));
+    size_t used = 0;
+    for (size_t i = 0; i < h.cap; i++)
+        used += h.slots[i].key != NULL || h.slots[i].hash != 0 || h.slots[i].val != 0;
+    CU_ASSERT_EQUAL(used, 0); /* zeroed, as calloc's would be */
+    for (int i = 0; i < N; i++) {
+        snprintf(keys + (size_t)i * 12, 12, "n%d", i);
+        CU_ASSERT_EQUAL_FATAL(ls_hash_put(&h, keys + (size_t)i * 12, i), 0); /* grows once past N / 2 */
+    }
+    int wrong = 0;
+    for (int i = 0; i < N; i++)
+        wrong += ls_hash_get(&h, keys + (size_t)i * 12) != i;
+    CU_ASSERT_EQUAL(wrong, 0);
+    CU_ASSERT_EQUAL(ls_hash_get(&h, "n400000"), -1);
+    CU_ASSERT(table_consistent(&h));
+    ls_hash_free(&h);
+    free(keys);
+}
+
 int main(void)
 {
     static const ls_cu_case cases[] = {
+        {"a table of 4 MB or more", test_large_table},
         {"put, get, replace", test_put_get_replace},
         {"intern", test_intern},
         {"carried hash", test_carried_hash},

@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "lang/lexer.h"
+#include "lang/nodenames.h"
 #include "lang/parser.h"
 #include "elab/elab.h"
 
@@ -536,9 +537,61 @@ static void test_settings(void)
     ls_arena_free(&a);
 }
 
+/* The parser's node-name numbers (lang/nodenames.h): a name mentioned
+ * again soon gets the same number and string; equal numbers are always equal
+ * names, also when many names crowd the cache (then a name may get a second
+ * number, never another name's); the text need not end after the name. */
+static void test_node_name_numbers(void)
+{
+    ls_arena a;
+    ls_arena_init(&a);
+    ls_node_names nn;
+    ls_node_names_init(&nn);
+    const char text[] = "n1_2 -> n1_3";
+    int k1, k2, k3;
+    const char *s1 = ls_node_names_intern(&nn, &a, text, 4, &k1);
+    const char *s2 = ls_node_names_intern(&nn, &a, text + 8, 4, &k2);
+    const char *s3 = ls_node_names_intern(&nn, &a, "n1_2", 4, &k3);
+    CU_ASSERT_STRING_EQUAL(s1, "n1_2");
+    CU_ASSERT_STRING_EQUAL(s2, "n1_3");
+    CU_ASSERT(k1 > 0 && k2 > 0 && k1 != k2);
+    CU_ASSERT_EQUAL(k3, k1);
+    CU_ASSERT_PTR_EQUAL(s3, s1);
+    int kp; /* a prefix of a kept name is another name */
+    ls_node_names_intern(&nn, &a, "n1_", 3, &kp);
+    CU_ASSERT(kp != k1 && kp != k2);
+    /* 200 000 mentions of 50 000 names in random order: each number stands
+     * for one spelling only */
+    enum { NAMES = 50000, MENTIONS = 200000 };
+    int *name_of = calloc((size_t)MENTIONS + 8, sizeof *name_of);
+    CU_ASSERT_PTR_NOT_NULL_FATAL(name_of);
+    unsigned long long r = 88172645463325252ull;
+    int wrong = 0, repeats = 0;
+    for (int m = 0; m < MENTIONS; m++) {
+        r ^= r << 13, r ^= r >> 7, r ^= r << 17; /* xorshift64 */
+        int which = (int)(r % NAMES);
+        char buf[16];
+        int n = snprintf(buf, sizeof buf, "m%d", which);
+        int k;
+        const char *s = ls_node_names_intern(&nn, &a, buf, (size_t)n, &k);
+        CU_ASSERT_FATAL(k > 0 && k <= nn.n && k < MENTIONS + 8);
+        wrong += strcmp(s, buf) != 0;
+        if (name_of[k] == 0)
+            name_of[k] = which + 1;
+        else
+            repeats++, wrong += name_of[k] != which + 1;
+    }
+    CU_ASSERT_EQUAL(wrong, 0);
+    CU_ASSERT(repeats > 0);
+    free(name_of);
+    ls_node_names_free(&nn);
+    ls_arena_free(&a);
+}
+
 int main(void)
 {
     static const ls_cu_case cases[] = {
+        {"node names' numbers", test_node_name_numbers},
         {"arena mark and release", test_arena_mark_release},
         {"arena alignment", test_arena_alignment},
         {"arena zeroed memory and contents", test_arena_zero_and_contents},
