@@ -1,6 +1,7 @@
 /* fit_cmd.c — the fit command: options, the search (fit.c), its reports
  * (text, JSON, CSV) and the chosen values written into a copy of the
  * circuit (--write). */
+#include <assert.h>
 #include <math.h>
 #include <stddef.h>
 #include <stdlib.h>
@@ -57,6 +58,8 @@ static void check_members(ls_wr *w, const ls_fit_study *f, const ls_fit_check *c
 {
     static const char *const kinds[] = {"expect", "port", "rating", "vmax", "imax", "opamp-output", "opamp-cm",
                                         "adc-range", "adc-source"};
+    _Static_assert(sizeof kinds / sizeof kinds[0] == LS_FITC_ADC_SOURCE + 1, "one name per ls_fit_kind");
+    assert((unsigned)c->kind <= LS_FITC_ADC_SOURCE);
     char t[512];
     ls_wr_obj(w, NULL);
     ls_wr_str(w, "text", ls_fit_check_text(f, c, t, sizeof t));
