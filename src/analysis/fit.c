@@ -22,7 +22,7 @@
 #define MARGIN_CLAMP 50.0       /* margins seen by the continuous stage stay within +-this */
 #define DESCENT_BUDGET 20000    /* candidate solves the descent may spend */
 #define BOX_LIMIT 4096          /* combinations of the neighbourhood box solved one by one */
-#define TIE_REL 1e-9            /* goal figures this close (relative) are a tie */
+#define TIE_REL LS_FIT_TIE_REL  /* goal figures this close (relative) are a tie (fit.h) */
 
 /* ---- the checks of a candidate --------------------------------------------------------------- */
 

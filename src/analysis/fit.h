@@ -35,6 +35,10 @@
 
 typedef enum ls_fit_goal { LS_FIT_MARGIN, LS_FIT_YIELD, LS_FIT_CURRENT } ls_fit_goal;
 
+/* Goal figures this close (relative) are a tie: the search ranks them by the
+ * next goal, and a bound this close to the best found is met. */
+#define LS_FIT_TIE_REL 1e-9
+
 /* What a check of a candidate is about. */
 typedef enum ls_fit_kind {
     LS_FITC_EXPECT,      /* nl->checks[index] (an expect or a rule line) */

@@ -335,10 +335,17 @@ static void bound_text(ls_wr *w, const ls_fit_study *f)
         ls_wr_say(w, "  bound: best found %s %s; ", cur ? "draws" : "has margin", a);
     if (f->limit_why)
         ls_wr_say(w, "%s\n", f->limit_why);
-    else
+    else {
         ls_wr_say(w, "no design in the ranges that meets every check %s %s (%ld more solves to bound the ranges "
                      "not searched)\n",
                   cur ? "draws less than" : "has a margin above", b, f->limit_solves);
+        /* the bound met: the first candidate is the best there is; only the
+         * order of the others stays unproven */
+        double slack = LS_FIT_TIE_REL * fmax(fabs(f->found), fabs(f->limit));
+        if (!isnan(f->found) && (cur ? f->limit >= f->found - slack : f->limit <= f->found + slack))
+            ls_wr_say(w, "  so no design beats the first candidate below by more than a tie; the order of the "
+                         "others is not proven\n");
+    }
 }
 
 /* The text's account of the search. */

@@ -97,6 +97,17 @@ def main():
                     check(j["search"]["proven"], f"{tag}: the default finishes the proof")
                 elif cap == "20":
                     check(not j["search"]["proven"], f"{tag}: 20 solves do not finish the proof")
+                bd = j["search"]["bound"]
+                if goal == "margin" and not j["search"]["proven"] and bd["limit"] is not None:
+                    # a met bound (within the search's tie, 1e-9 relative) makes the best found the
+                    # enumeration's optimum, and the text says so; an unmet one does not claim it
+                    met = bd["limit"] <= bd["found"] + 1e-9 * max(abs(bd["found"]), abs(bd["limit"]))
+                    if met:
+                        check(abs(bd["found"] - best_margin) <= 1e-9 * abs(best_margin),
+                              f"{tag}: a met bound's best found {bd['found']} is the optimum {best_margin}")
+                    rc, out, err = run(args)
+                    said = "so no design beats the first candidate below by more than a tie" in out
+                    check(said == met, f"{tag}: the text says the bound is met exactly when it is ({met}):\n{out}")
             check(proven_seen, "some run of each case is proven")
     # the text report of a stopped search states the limit
     rc, out, err = run(["fit", circuit("limit_text.stack", ladder(start, True)), "--max-solves", "20"])
