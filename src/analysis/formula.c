@@ -410,25 +410,27 @@ static bool has_symbolic_value(const ls_part *p, const ls_run *run)
 /* An op-amp with a finite gain= (a symbol of its own). */
 static bool is_gain(const ls_part *p) { return p->kind->exact == LS_EXACT_OPAMP && p->has_value; }
 
-/* The statement of a top-level part or let named name, or NULL. */
-static const ls_stmt *find_stmt(const fx *F, int kind, const char *name)
+/* The statement of a top-level part or let named name, or NULL; a part kept
+ * as an ls_brief is given in *buf (valid while *buf is). */
+static const ls_stmt *find_stmt(const fx *F, int kind, const char *name, ls_stmt_buf *buf)
 {
     if (!F->prog)
         return NULL;
     for (int i = 0; i < F->prog->n; i++) {
-        const ls_stmt *s = F->prog->stmts[i];
+        const ls_stmt *s = ls_stmt_view(F->prog->stmts[i], buf);
         if (s->kind == kind && s->name && strcmp(s->name, name) == 0)
             return s;
     }
     return NULL;
 }
 
-/* The expression of a top-level part's main value (its VALUE, or gain=/gm=/rm=), or NULL. */
-static const ls_expr *value_expr(const fx *F, const ls_part *p)
+/* The expression of a top-level part's main value (its VALUE, or gain=/gm=/rm=), or NULL;
+ * it may lie in *buf (valid while *buf is). */
+static const ls_expr *value_expr(const fx *F, const ls_part *p, ls_stmt_buf *buf)
 {
     if (p->instance)
         return NULL;
-    const ls_stmt *s = find_stmt(F, S_PART, p->name);
+    const ls_stmt *s = find_stmt(F, S_PART, p->name, buf);
     if (!s)
         return NULL;
     if (s->value)
@@ -506,7 +508,8 @@ static int default_symbols(const fx *F, const char **names, int cap)
         const ls_part *p = &F->nl->parts[i];
         if (!has_symbolic_value(p, &F->op->run))
             continue;
-        const ls_expr *e = F->req->ideal && is_gain(p) ? NULL : value_expr(F, p);
+        ls_stmt_buf buf;
+        const ls_expr *e = F->req->ideal && is_gain(p) ? NULL : value_expr(F, p, &buf);
         if (!e || has_call(e) || lets_used(F, e, names, &n, cap) == 0) {
             if (n < cap)
                 names[n] = p->name;
@@ -600,7 +603,8 @@ static bool let_to_rf(fx *F, const char *name, rf *r, int depth)
         return true;
     }
     double v = let_value(F, name);
-    const ls_stmt *st = find_stmt(F, S_PARAM, name);
+    ls_stmt_buf buf;
+    const ls_stmt *st = find_stmt(F, S_PARAM, name, &buf);
     if (st && st->value && expr_to_rf(F, st->value, r, depth + 1) && s < 0) {
         /* symbols inside stand at their values; compare with the netlist's number */
         double got = rf_eval_d(F, r);
@@ -673,7 +677,8 @@ static void part_values(fx *F)
             rf_set_var(F, r, s);
             continue;
         }
-        const ls_expr *e = has_symbolic_value(p, &F->op->run) ? value_expr(F, p) : NULL;
+        ls_stmt_buf buf;
+        const ls_expr *e = has_symbolic_value(p, &F->op->run) ? value_expr(F, p, &buf) : NULL;
         double value = ls_run_value(&F->op->run, p);   /* the solve's (the C API may have set it) */
         if (e && expr_to_rf(F, e, r, 0)) {
             double got = rf_eval_d(F, r);
@@ -696,8 +701,9 @@ static void symbol_values(fx *F)
     }
     for (int s = 0; s < F->nsym; s++) {
         int part = F->sym[s].part;
-        const ls_stmt *st = part < 0 ? find_stmt(F, S_PARAM, F->sym[s].name) : NULL;
-        const ls_expr *e = part >= 0 ? value_expr(F, &F->nl->parts[part]) : st ? st->value : NULL;
+        ls_stmt_buf buf;
+        const ls_stmt *st = part < 0 ? find_stmt(F, S_PARAM, F->sym[s].name, &buf) : NULL;
+        const ls_expr *e = part >= 0 ? value_expr(F, &F->nl->parts[part], &buf) : st ? st->value : NULL;
         rf r;
         rf_init(F, &r);
         if (e && expr_to_rf(F, e, &r, 0) && fmpq_mpoly_is_fmpq(r.n, F->ctx) && fmpq_mpoly_is_one(r.d, F->ctx)) {

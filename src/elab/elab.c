@@ -1376,7 +1376,11 @@ static const char *suggest_kind(const char *word)
 static void check_kinds(elab *x, ls_stmt *const *stmts, int n)
 {
     for (int i = 0; i < n; i++) {
-        const ls_stmt *st = stmts[i];
+        const ls_brief *br = ls_brief_of(stmts[i]);
+        if (br && kind_of(x, br->kw))
+            continue; /* the common case, without a view */
+        ls_stmt_buf buf;
+        const ls_stmt *st = ls_stmt_view(stmts[i], &buf);
         if (st->kind == S_BLOCK) {
             check_kinds(x, st->body, st->nbody);
             continue;
@@ -1936,28 +1940,42 @@ static void elab_param(elab *x, const scope *s, const ls_stmt *st)
 /* Params first (in order), then parts, instances and checks. */
 enum { PREFETCH_AHEAD = 8 };
 
+/* Ask for the name-table slot of node name `name` numbered key, unless that
+ * number is resolved already (it then needs no probe). */
+static void prefetch_node(elab *x, const char *name, int key)
+{
+    if (!x->node_of_key || key <= 0 || key > x->nkeys || x->node_of_key[key] < 0)
+        prefetch_name(x, name);
+}
+
 /* Ask for the name-table slots of statement i's names (a part at the top level). */
 static void prefetch_names(elab *x, ls_stmt *const *stmts, int n, int i)
 {
-    if (i >= n || stmts[i]->kind != S_PART)
+    if (i >= n)
         return;
+    const ls_brief *b = ls_brief_of(stmts[i]);
     const ls_stmt *a = stmts[i];
-    prefetch_name(x, a->name);
-    if (a->arrow) { /* a numbered name already resolved needs no probe */
-        if (!x->node_of_key || a->from_key <= 0 || a->from_key > x->nkeys || x->node_of_key[a->from_key] < 0)
-            prefetch_name(x, a->from);
-        if (!x->node_of_key || a->to_key <= 0 || a->to_key > x->nkeys || x->node_of_key[a->to_key] < 0)
-            prefetch_name(x, a->to);
+    if (b) {
+        prefetch_name(x, b->name);
+        prefetch_node(x, b->from, b->from_key);
+        prefetch_node(x, b->to, b->to_key);
+    } else if (a->kind == S_PART) {
+        prefetch_name(x, a->name);
+        if (a->arrow) {
+            prefetch_node(x, a->from, a->from_key);
+            prefetch_node(x, a->to, a->to_key);
+        }
     }
 }
 
 static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n)
 {
     for (int i = 0; i < n; i++)
-        if (stmts[i]->kind == S_PARAM)
+        if (ls_stmt_kind(stmts[i]) == S_PARAM)
             elab_param(x, s, stmts[i]);
     for (int i = 0; i < n; i++) {
-        const ls_stmt *st = stmts[i];
+        ls_stmt_buf buf; /* for a brief (only at the top level) */
+        const ls_stmt *st = ls_stmt_view(stmts[i], &buf);
         /* A large flat circuit is bound by the name table's cache misses:
          * ask for the slots of a statement a few lines ahead. */
         if (!s->prefix[0]) {
@@ -1970,6 +1988,8 @@ static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n)
         }
     }
     for (int i = 0; i < n; i++) {
+        if (ls_stmt_kind(stmts[i]) == S_BRIEF)
+            continue; /* a part */
         const ls_stmt *st = stmts[i];
         if (st->kind == S_EXPECT)
             add_check(x, s, st);
@@ -1984,7 +2004,7 @@ static void collect_blocks(elab *x, const ls_program *prog)
 {
     int n = 0;
     for (int i = 0; i < prog->n; i++)
-        n += prog->stmts[i]->kind == S_BLOCK;
+        n += ls_stmt_kind(prog->stmts[i]) == S_BLOCK;
     x->blockv = calloc((size_t)(n ? n : 1), sizeof *x->blockv);
     if (!x->blockv) {
         ls_error(x->d, LS_NOLOC, "out of memory elaborating the blocks (%zu bytes)",
@@ -1992,9 +2012,9 @@ static void collect_blocks(elab *x, const ls_program *prog)
         return;
     }
     for (int i = 0; i < prog->n; i++) {
-        const ls_stmt *b = prog->stmts[i];
-        if (b->kind != S_BLOCK)
+        if (ls_stmt_kind(prog->stmts[i]) != S_BLOCK)
             continue;
+        const ls_stmt *b = prog->stmts[i];
         int prev = ls_hash_get(&x->blocks, b->name);
         if (prev >= 0) {
             ls_error(x->d, b->name_loc, "block '%s' is defined twice", b->name);
@@ -2018,6 +2038,8 @@ static void ground_and_title(elab *x, const ls_program *prog)
     ls_netlist *nl = x->nl;
     const ls_stmt *g = NULL, *t = NULL;
     for (int i = 0; i < prog->n; i++) {
+        if (ls_stmt_kind(prog->stmts[i]) == S_BRIEF)
+            continue; /* a part */
         const ls_stmt *s = prog->stmts[i];
         if (s->kind == S_GROUND) {
             if (g) {
@@ -2052,7 +2074,8 @@ static void ground_and_title(elab *x, const ls_program *prog)
     }
     nl->title = t ? t->name : NULL;
     if (!g) {
-        ls_loc at = {prog->n ? prog->stmts[0]->loc.file : 0, 0, 0};
+        ls_stmt_buf first;
+        ls_loc at = {prog->n ? ls_stmt_view(prog->stmts[0], &first)->loc.file : 0, 0, 0};
         if (x->d->nfiles > 0)
             ls_error(x->d, at, "the circuit has no ground: add a line 'ground NAME' naming the 0 V node");
         else
@@ -2314,11 +2337,11 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
      * fixed ceiling (docs/limits.md, "Size of the input") */
     double held = (double)ls_memory_limit_bytes();
     for (int i = 0; i < prog->n && ok; i++) {
-        const ls_stmt *st = prog->stmts[i];
-        if (st->kind == S_PART) {
+        ls_skind kind = ls_stmt_kind(prog->stmts[i]);
+        if (kind == S_PART || kind == S_BRIEF) {
             parts = sat_add(parts, 1);
-        } else if (st->kind == S_USE) {
-            int bi = block_index(x, st->kw);
+        } else if (kind == S_USE) {
+            int bi = block_index(x, prog->stmts[i]->kw);
             if (bi < 0 || !size_block(x, bi, sz))
                 continue;
             inst = sat_add(inst, sz[bi].inst);
@@ -2326,6 +2349,10 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
         } else {
             continue;
         }
+        if (inst <= LS_MAX_INSTANCES && parts <= LS_MAX_PARTS && (double)parts * LS_PART_MIN_BYTES <= held)
+            continue; /* within every limit: no message, no statement to view */
+        ls_stmt_buf buf;
+        const ls_stmt *st = ls_stmt_view(prog->stmts[i], &buf);
         if (inst > LS_MAX_INSTANCES) {
             ls_error(x->d, st->kw_loc, "with this use the blocks expand to more than %d instances (%s%lld)",
                      LS_MAX_INSTANCES, inst == SIZE_CAP ? "at least " : "", inst);

@@ -66,9 +66,10 @@ typedef struct ls_opt {
 
 typedef enum ls_skind {
     S_TITLE, S_PARAM, S_GROUND, S_PART, S_BLOCK, S_USE, S_EXPECT, S_RULE,
-    S_BADPART   /* a part statement whose words after the kind did not parse (the
+    S_BADPART,  /* a part statement whose words after the kind did not parse (the
                    error is reported): only kw and loc, for the elaborator to
                    name a kind word that is no part kind */
+    S_BRIEF     /* a top-level S_PART in its commonest form, kept as an ls_brief */
 } ls_skind;
 
 typedef enum ls_cmp { CMP_EQ, CMP_LT, CMP_LE, CMP_GT, CMP_GE, CMP_BETWEEN } ls_cmp;
@@ -105,7 +106,85 @@ typedef struct ls_stmt {
     };
 } ls_stmt;
 
+/* Byte offsets in an ls_brief, from the kind word's first byte. */
+enum { LS_BR_KW_END, LS_BR_NAME, LS_BR_NAME_END, LS_BR_FROM, LS_BR_FROM_END, LS_BR_TO, LS_BR_TO_END, LS_BR_NUM,
+       LS_BR_NUM_END, LS_BR_END, LS_BR_OFFSETS };
+
+/* A top-level part statement `KIND NAME FROM -> TO NUMBER` with a plain
+ * number and nothing after it (the parser's fast path, lexer.h), kept in 72
+ * bytes instead of a statement and its number (152): a grid of a million
+ * cells has two million of them, and the tree's memory is written by the
+ * parse and read again by the elaboration (docs/performance.md, "Front end,
+ * the fifth round").  It holds exactly what the statement holds, so
+ * ls_stmt_view gives the same statement the token path builds.  It starts
+ * with the kind byte, like ls_stmt: an entry of the program's top-level list
+ * whose ls_stmt_kind is S_BRIEF is one of these (never inside a block). */
+typedef struct ls_brief {
+    unsigned char kind;                 /* S_BRIEF */
+    unsigned char off[LS_BR_OFFSETS];   /* LS_BR_*: the words' byte ranges and the statement's end */
+    int file;
+    unsigned start;                     /* the kind word's first byte */
+    const char *kw, *name, *from, *to;  /* as in ls_stmt (kw and the node names possibly shared) */
+    double num;                         /* the number's value (no unit) */
+    int from_key, to_key;               /* as in ls_stmt */
+} ls_brief;
+_Static_assert(sizeof(ls_brief) <= 72, "a brief statement stays within 72 bytes (64-bit)");
+
+/* A statement's kind, for any entry of a statement list (an ls_stmt or an
+ * ls_brief): read as a byte, since an ls_brief is no ls_stmt. */
+static inline ls_skind ls_stmt_kind(const ls_stmt *s) { return (ls_skind)*(const unsigned char *)s; }
+
+/* The ls_brief s is, or NULL when s is a statement. */
+static inline const ls_brief *ls_brief_of(const ls_stmt *s)
+{
+    return ls_stmt_kind(s) == S_BRIEF ? (const ls_brief *)(const void *)s : NULL;
+}
+
+/* Room for the statement an ls_brief stands for, and its number. */
+typedef struct ls_stmt_buf {
+    ls_stmt s;
+    ls_expr num;
+} ls_stmt_buf;
+
+/* The statement s is: s itself, or for an S_BRIEF the S_PART it stands for,
+ * built in *buf (valid while *buf is). */
+static inline const ls_stmt *ls_stmt_view(const ls_stmt *s, ls_stmt_buf *buf)
+{
+    const ls_brief *b = ls_brief_of(s);
+    if (!b)
+        return s;
+    ls_stmt *t = &buf->s;
+    ls_expr *e = &buf->num;
+    int f = b->file;
+    unsigned at = b->start;
+    const unsigned char *o = b->off;
+    e->kind = E_NUM;
+    e->dims = LS_FREE;
+    e->loc = (ls_loc){f, at + o[LS_BR_NUM], at + o[LS_BR_NUM_END]};
+    e->num = b->num;
+    t->kind = S_PART;
+    t->cmp = 0;
+    t->arrow = true;
+    t->loc = (ls_loc){f, at, at + o[LS_BR_KW_END]};
+    t->text_loc = (ls_loc){f, at, at + o[LS_BR_END]};
+    t->name_loc = (ls_loc){f, at + o[LS_BR_NAME], at + o[LS_BR_NAME_END]};
+    t->nopts = 0;
+    t->name = b->name;
+    t->kw = b->kw;
+    t->value = e;
+    t->opts = NULL;
+    t->from = b->from;
+    t->to = b->to;
+    t->from_loc = (ls_loc){f, at + o[LS_BR_FROM], at + o[LS_BR_FROM_END]};
+    t->to_loc = (ls_loc){f, at + o[LS_BR_TO], at + o[LS_BR_TO_END]};
+    t->from_key = b->from_key;
+    t->to_key = b->to_key;
+    return t;
+}
+
 typedef struct ls_program {
+    /* The top-level statements, in order; an entry may be an ls_brief (read
+     * each with ls_stmt_kind, and ls_stmt_view before any other field). */
     ls_stmt **stmts;
     int n;
     /* Where the tree's structures (statements, expressions, lists) are:

@@ -481,6 +481,7 @@ bool ls_lex_simple_part(const ls_lexer *lx, ls_simple_part *sp)
     if (p - lx->line_begin > LS_MAX_LINE_BYTES)
         return false; /* a line the lexer must report */
     sp->num_end = p;
+    sp->end = q;
     return exact_decimal(src + sp->num, p - sp->num, &sp->value);
 }
 

@@ -42,10 +42,11 @@ const char *ls_tok_name(ls_tok k);
 /* The words after the kind word of the commonest part statement, `NAME FROM
  * -> TO NUMBER` with a plain decimal NUMBER (digits, an optional fraction; no
  * unit, sign or exponent) and nothing after it on its line: byte offsets
- * into the file (start and end of each word, the arrow's start) and the
+ * into the file (start and end of each word, the arrow's start, and the
+ * start of the line's end after the blanks that follow the number) and the
  * number's value, exactly as the tokens would give them. */
 typedef struct ls_simple_part {
-    unsigned name, name_end, from, from_end, arrow, to, to_end, num, num_end;
+    unsigned name, name_end, from, from_end, arrow, to, to_end, num, num_end, end;
     double value;
 } ls_simple_part;
 

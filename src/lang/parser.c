@@ -541,22 +541,69 @@ static const char *kind_word(parser *p, const ls_token *t)
     return w;
 }
 
+/* The strings of the simple part statement sp, into *kw, *name, *from and
+ * *to (the node names' numbers into *from_key, *to_key); false when out of
+ * memory. */
+static inline bool simple_words(parser *p, const ls_simple_part *sp, const char **kw, const char **name,
+                                const char **from, const char **to, int *from_key, int *to_key)
+{
+    const char *src = p->lx.src;
+    return (*kw = kind_word(p, &p->tok)) && (*name = ls_arena_strndup(p->a, src + sp->name, sp->name_end - sp->name)) &&
+           (*from = node_name(p, src + sp->from, sp->from_end - sp->from, from_key)) &&
+           (*to = node_name(p, src + sp->to, sp->to_end - sp->to, to_key));
+}
+
+/* At the top level, the simple part statement sp as an ls_brief (ast.h),
+ * when its words lie within 255 bytes of its start; else NULL with nothing
+ * allocated. */
+static ls_stmt *simple_brief(parser *p, const ls_simple_part *sp)
+{
+    unsigned at = p->tok.loc.start, end = sp->end;
+    if (end - at > UCHAR_MAX)
+        return NULL;
+    ls_brief *b = ls_arena_alloc(p->sa, sizeof *b);
+    if (!b || !simple_words(p, sp, &b->kw, &b->name, &b->from, &b->to, &b->from_key, &b->to_key))
+        return NULL;
+    unsigned char *o = b->off; /* each below end, so below at + 256 */
+    o[LS_BR_KW_END] = (unsigned char)(p->tok.loc.end - at);
+    o[LS_BR_NAME] = (unsigned char)(sp->name - at);
+    o[LS_BR_NAME_END] = (unsigned char)(sp->name_end - at);
+    o[LS_BR_FROM] = (unsigned char)(sp->from - at);
+    o[LS_BR_FROM_END] = (unsigned char)(sp->from_end - at);
+    o[LS_BR_TO] = (unsigned char)(sp->to - at);
+    o[LS_BR_TO_END] = (unsigned char)(sp->to_end - at);
+    o[LS_BR_NUM] = (unsigned char)(sp->num - at);
+    o[LS_BR_NUM_END] = (unsigned char)(sp->num_end - at);
+    o[LS_BR_END] = (unsigned char)(end - at);
+    b->kind = S_BRIEF;
+    b->file = p->lx.file;
+    b->start = at;
+    b->num = sp->value;
+    return (ls_stmt *)(void *)b;
+}
+
 /* The commonest part statement, `KIND NAME FROM -> TO NUMBER` with nothing
  * after the plain number (ls_lex_simple_part), built without tokens: the
  * same statement, locations and strings as parse_part builds, in the same
- * order.  NULL, with nothing read, for any other statement (and when out of
- * memory: parse_part then meets the same shortage and the arena is marked). */
-static ls_stmt *simple_part(parser *p)
+ * order; at the top level (block NULL) as an ls_brief when it fits one, and
+ * then with its text_loc.  NULL, with nothing read, for any other statement
+ * (and when out of memory: parse_part then meets the same shortage and the
+ * arena is marked). */
+static ls_stmt *simple_part(parser *p, const ls_stmt *block)
 {
     ls_simple_part sp;
     if (p->have_ahead || p->general_only || !ls_lex_simple_part(&p->lx, &sp))
         return NULL;
-    const char *src = p->lx.src;
+    ls_stmt *s = NULL;
+    if (!block && (s = simple_brief(p, &sp)) != NULL) {
+        p->lx.pos = sp.num_end;
+        advance(p); /* the line's end */
+        return s;
+    }
     int f = p->lx.file;
     /* The statement and its number in one allocation: 8-byte aligned, so no
-     * padding between one statement's number and the next statement (two
-     * million statements on a 1000 x 1000 grid). */
-    ls_stmt *s = ls_arena_alloc(p->sa, sizeof *s + ls_expr_size(E_NUM));
+     * padding between one statement's number and the next statement. */
+    s = ls_arena_alloc(p->sa, sizeof *s + ls_expr_size(E_NUM));
     if (!s)
         return NULL;
     ls_expr *e = (ls_expr *)(s + 1);
@@ -565,9 +612,7 @@ static ls_stmt *simple_part(parser *p)
     s->loc = s->text_loc = p->tok.loc;
     e->kind = E_NUM;
     e->loc = (ls_loc){f, sp.num, sp.num_end};
-    if (!(s->kw = kind_word(p, &p->tok)) || !(s->name = ls_arena_strndup(p->a, src + sp.name, sp.name_end - sp.name)) ||
-        !(s->from = node_name(p, src + sp.from, sp.from_end - sp.from, &s->from_key)) ||
-        !(s->to = node_name(p, src + sp.to, sp.to_end - sp.to, &s->to_key)))
+    if (!simple_words(p, &sp, &s->kw, &s->name, &s->from, &s->to, &s->from_key, &s->to_key))
         return NULL;
     s->name_loc = (ls_loc){f, sp.name, sp.name_end};
     s->from_loc = (ls_loc){f, sp.from, sp.from_end};
@@ -883,7 +928,7 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
     } else if (is_word(&kw, "end")) {
         ls_error(p->d, kw.loc, "'end' without a 'block' to close");
         advance(p);
-    } else if ((s = simple_part(p)) == NULL) {
+    } else if ((s = simple_part(p, block)) == NULL) {
         s = parse_part(p);
         if (!s || !end_of_statement(p)) {
             /* Its syntax error is reported; the elaborator still hears of its
@@ -893,7 +938,8 @@ static void parse_statement(parser *p, stmt_list *out, ls_stmt *block)
         }
     }
     if (s && end_of_statement(p)) {
-        s->text_loc = (ls_loc){kw.loc.file, kw.loc.start, p->tok.loc.start};
+        if (ls_stmt_kind(s) != S_BRIEF) /* a brief has its end */
+            s->text_loc = (ls_loc){kw.loc.file, kw.loc.start, p->tok.loc.start};
         push(p, out, s);
     }
     skip_line(p);
