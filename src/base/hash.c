@@ -2,6 +2,8 @@
  * grown at three quarters full. */
 #include "base/hash.h"
 
+#include <stdbool.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/mman.h>
@@ -72,9 +74,11 @@ void ls_hash_init(ls_hash *h)
     memset(h, 0, sizeof *h);
 }
 
+static void free_slots(ls_hash_slot *s, size_t cap);
+
 void ls_hash_free(ls_hash *h)
 {
-    free(h->slots);
+    free_slots(h->slots, h->cap);
     memset(h, 0, sizeof *h);
 }
 
@@ -88,22 +92,43 @@ static inline int fits(size_t count, size_t cap)
 
 #define HUGE_PAGE ((size_t)2 << 20)   /* x86-64 and arm64 (4 KB base pages) */
 
-/* cap zeroed slots, freed with free().  A table of many megabytes is probed
- * at random, one translation-buffer miss per probe with base pages, so it is
- * aligned for huge pages and asks for them (advice only). */
+/* Whether a table of cap slots is mapped on its own (new_slots). */
+static inline bool mapped(size_t cap)
+{
+    return cap * sizeof(ls_hash_slot) >= 2 * HUGE_PAGE;
+}
+
+/* cap zeroed slots, given back by free_slots.  A table of many megabytes is
+ * probed at random, one translation-buffer miss per probe with base pages, so
+ * it is mapped on its own, aligned for huge pages, and asks for them (advice
+ * only); a fresh mapping reads as zero, so it is not cleared by hand (the
+ * 64 MB name table of a 1000 x 1000 grid was written twice that way). */
 static ls_hash_slot *new_slots(size_t cap)
 {
-    size_t bytes = cap * sizeof(ls_hash_slot);
-    if (bytes < 2 * HUGE_PAGE)
+    if (!mapped(cap))
         return calloc(cap, sizeof(ls_hash_slot));
-    void *p;
-    if (posix_memalign(&p, HUGE_PAGE, bytes) != 0)
+    size_t bytes = cap * sizeof(ls_hash_slot), span = bytes + HUGE_PAGE;
+    char *p = mmap(NULL, span, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+    if (p == MAP_FAILED)
         return NULL;
+    char *start = (char *)(((uintptr_t)p + HUGE_PAGE - 1) & ~(uintptr_t)(HUGE_PAGE - 1));
+    if (start > p)
+        munmap(p, (size_t)(start - p));
+    if (start + bytes < p + span)
+        munmap(start + bytes, (size_t)(p + span - (start + bytes)));
 #ifdef MADV_HUGEPAGE
-    madvise(p, bytes, MADV_HUGEPAGE);
+    madvise(start, bytes, MADV_HUGEPAGE);
 #endif
-    memset(p, 0, bytes);
-    return p;
+    return (ls_hash_slot *)(void *)start;
+}
+
+/* Give back the cap slots s of new_slots (NULL: nothing). */
+static void free_slots(ls_hash_slot *s, size_t cap)
+{
+    if (s && mapped(cap))
+        munmap(s, cap * sizeof(ls_hash_slot));
+    else
+        free(s);
 }
 
 /* Rebuild with cap slots (a power of two holding every key); -1 no memory. */
@@ -122,7 +147,7 @@ static int rebuild(ls_hash *h, size_t cap)
             i = (i + 1) & m;
         s[i] = *o;
     }
-    free(h->slots);
+    free_slots(h->slots, h->cap);
     h->slots = s;
     h->cap = cap;
     return 0;

@@ -53,7 +53,20 @@ typedef struct elab {
      * has no numbers (or no memory for them: names are then looked up as ever). */
     int *node_of_key;
     int nkeys;
+    /* The kind of each top-level statement (ls_stmt_kind), read once by
+     * check_kinds, so the later passes over the whole program that look at
+     * kinds alone (blocks, ground, expansion, lets, checks) read these bytes
+     * and not the statements (a 1000 x 1000 grid's are 144 MB); NULL when
+     * there was no memory for them (the statements are read instead). */
+    unsigned char *top_kinds;
+    int nvia;                   /* parts given via= (resolve_refs has work only then) */
 } elab;
+
+/* The kind of statement i of the list stmts, from kinds when given. */
+static inline ls_skind kind_at(const unsigned char *kinds, ls_stmt *const *stmts, int i)
+{
+    return kinds ? (ls_skind)kinds[i] : ls_stmt_kind(stmts[i]);
+}
 
 /* ---- growable arrays ---------------------------------------------------------- */
 
@@ -1373,16 +1386,21 @@ static const char *suggest_kind(const char *word)
 /* An error for each part statement (broken ones too) whose kind word is no
  * part kind, in the order of the text, block bodies included: first of the
  * elaboration's errors, right after the syntax errors. */
-static void check_kinds(elab *x, ls_stmt *const *stmts, int n)
+/* Name the kind word of every part statement in stmts (blocks' bodies
+ * included) that is no kind; each statement's kind into kinds[i] when kinds
+ * is given. */
+static void check_kinds(elab *x, ls_stmt *const *stmts, int n, unsigned char *kinds)
 {
     for (int i = 0; i < n; i++) {
+        if (kinds)
+            kinds[i] = (unsigned char)ls_stmt_kind(stmts[i]);
         const ls_brief *br = ls_brief_of(stmts[i]);
         if (br && kind_of(x, br->kw))
             continue; /* the common case, without a view */
         ls_stmt_buf buf;
         const ls_stmt *st = ls_stmt_view(stmts[i], &buf);
         if (st->kind == S_BLOCK) {
-            check_kinds(x, st->body, st->nbody);
+            check_kinds(x, st->body, st->nbody, NULL);
             continue;
         }
         if ((st->kind != S_PART && st->kind != S_BADPART) || kind_of(x, st->kw))
@@ -1518,9 +1536,14 @@ static int set_option(elab *x, const scope *s, ls_part *p, int oi, const ls_opt 
             ls_error(x->d, o->value->loc, "%s= takes the name of a part or port", o->name);
             return 0;
         }
-        p->ref_name = o->value->name;
-        p->ref_scope = s->prefix;
-        p->ref_loc = o->value->loc;
+        {
+            ls_via_name *v = ls_arena_alloc(x->a, sizeof *v);
+            if (!v)
+                return 0; /* the arena is marked: reported at the end */
+            *v = (ls_via_name){o->value->name, s->prefix, o->value->loc};
+            p->via = v;
+            x->nvia++;
+        }
         break;
     case OPT_WORD: ok = set_word(x, s, p, oi, o); break;
     case OPT_RANGE: ok = set_range(x, s, p, oi, o); break;
@@ -1701,7 +1724,7 @@ static void elab_part(elab *x, const scope *s, const ls_stmt *st)
     store_part(x, st, &p);
 }
 
-static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n);
+static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n, const unsigned char *kinds);
 
 static int block_index(elab *x, const char *name)
 {
@@ -1884,7 +1907,7 @@ static void elab_use(elab *x, const scope *s, const ls_stmt *st)
     bind_block_params(x, s, &in, st, b, param_given);
     if (x->d->errors != errs)
         return;
-    elab_body(x, &in, b->body, b->nbody);
+    elab_body(x, &in, b->body, b->nbody, NULL);
 }
 
 /* Let i (declared by st, its value from `used`) is the followed let itself,
@@ -1968,33 +1991,33 @@ static void prefetch_names(elab *x, ls_stmt *const *stmts, int n, int i)
     }
 }
 
-static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n)
+/* The statements stmts (kinds: their kinds, or NULL to read them) in scope
+ * s: lets first (in order), then parts and instances, then checks. */
+static void elab_body(elab *x, const scope *s, ls_stmt *const *stmts, int n, const unsigned char *kinds)
 {
     for (int i = 0; i < n; i++)
-        if (ls_stmt_kind(stmts[i]) == S_PARAM)
+        if (kind_at(kinds, stmts, i) == S_PARAM)
             elab_param(x, s, stmts[i]);
     for (int i = 0; i < n; i++) {
-        ls_stmt_buf buf; /* for a brief (only at the top level) */
-        const ls_stmt *st = ls_stmt_view(stmts[i], &buf);
         /* A large flat circuit is bound by the name table's cache misses:
          * ask for the slots of a statement a few lines ahead. */
         if (!s->prefix[0]) {
             prefetch_names(x, stmts, n, i + PREFETCH_AHEAD);
         }
-        switch (st->kind) {
-        case S_PART: elab_part(x, s, st); break;
-        case S_USE: elab_use(x, s, st); break;
-        default: break;
+        ls_skind k = kind_at(kinds, stmts, i);
+        if (k == S_PART || k == S_BRIEF) {
+            ls_stmt_buf buf; /* for a brief (only at the top level) */
+            elab_part(x, s, ls_stmt_view(stmts[i], &buf));
+        } else if (k == S_USE) {
+            elab_use(x, s, stmts[i]);
         }
     }
     for (int i = 0; i < n; i++) {
-        if (ls_stmt_kind(stmts[i]) == S_BRIEF)
-            continue; /* a part */
-        const ls_stmt *st = stmts[i];
-        if (st->kind == S_EXPECT)
-            add_check(x, s, st);
-        else if (st->kind == S_RULE && s->prefix[0])
-            ls_error(x->d, st->loc, "'rule' belongs at the top level (it applies to every port)");
+        ls_skind k = kind_at(kinds, stmts, i);
+        if (k == S_EXPECT)
+            add_check(x, s, stmts[i]);
+        else if (k == S_RULE && s->prefix[0])
+            ls_error(x->d, stmts[i]->loc, "'rule' belongs at the top level (it applies to every port)");
     }
 }
 
@@ -2004,7 +2027,7 @@ static void collect_blocks(elab *x, const ls_program *prog)
 {
     int n = 0;
     for (int i = 0; i < prog->n; i++)
-        n += ls_stmt_kind(prog->stmts[i]) == S_BLOCK;
+        n += kind_at(x->top_kinds, prog->stmts, i) == S_BLOCK;
     x->blockv = calloc((size_t)(n ? n : 1), sizeof *x->blockv);
     if (!x->blockv) {
         ls_error(x->d, LS_NOLOC, "out of memory elaborating the blocks (%zu bytes)",
@@ -2012,7 +2035,7 @@ static void collect_blocks(elab *x, const ls_program *prog)
         return;
     }
     for (int i = 0; i < prog->n; i++) {
-        if (ls_stmt_kind(prog->stmts[i]) != S_BLOCK)
+        if (kind_at(x->top_kinds, prog->stmts, i) != S_BLOCK)
             continue;
         const ls_stmt *b = prog->stmts[i];
         int prev = ls_hash_get(&x->blocks, b->name);
@@ -2038,8 +2061,9 @@ static void ground_and_title(elab *x, const ls_program *prog)
     ls_netlist *nl = x->nl;
     const ls_stmt *g = NULL, *t = NULL;
     for (int i = 0; i < prog->n; i++) {
-        if (ls_stmt_kind(prog->stmts[i]) == S_BRIEF)
-            continue; /* a part */
+        ls_skind k = kind_at(x->top_kinds, prog->stmts, i);
+        if (k != S_GROUND && k != S_TITLE && k != S_RULE)
+            continue;
         const ls_stmt *s = prog->stmts[i];
         if (s->kind == S_GROUND) {
             if (g) {
@@ -2093,19 +2117,22 @@ static void ground_and_title(elab *x, const ls_program *prog)
 static void resolve_refs(elab *x)
 {
     ls_netlist *nl = x->nl;
+    if (!x->nvia)
+        return; /* every ref is -1: nothing to resolve, no chain */
     for (int i = 0; i < nl->nparts; i++) {
         ls_part *p = &nl->parts[i];
-        if (!p->ref_name)
+        const ls_via_name *via = p->via;
+        if (!via)
             continue;
-        const char *full = p->ref_scope[0] ? ls_arena_printf(x->a, "%s.%s", p->ref_scope, p->ref_name) : p->ref_name;
+        const char *full = via->scope[0] ? ls_arena_printf(x->a, "%s.%s", via->scope, via->name) : via->name;
         int r = ls_netlist_find_part(nl, full);
         if (r < 0) {
-            ls_error(x->d, p->ref_loc, "via= names '%s', which is not a part or port", p->ref_name);
+            ls_error(x->d, via->loc, "via= names '%s', which is not a part or port", via->name);
             continue;
         }
         const ls_part *v = &nl->parts[r];
         if (v->kind->current == NULL) {
-            ls_error(x->d, p->ref_loc, "the current of %s '%s' cannot control a source", v->kind->name, p->ref_name);
+            ls_error(x->d, via->loc, "the current of %s '%s' cannot control a source", v->kind->name, via->name);
             continue;
         }
         p->ref = r;
@@ -2121,14 +2148,14 @@ static void resolve_refs(elab *x)
             steps++;
         }
         if (r >= 0 && r != i) {
-            ls_error(x->d, nl->parts[i].ref_loc,
+            ls_error(x->d, nl->parts[i].via->loc,
                      "current-controlled sources are chained through via= more than %d deep from '%s'",
                      LS_MAX_VIA_CHAIN, nl->parts[i].name);
             nl->parts[i].ref = -1;
             continue;
         }
         if (r == i) {
-            ls_error(x->d, nl->parts[i].ref_loc, "current-controlled sources control each other in a loop through '%s'",
+            ls_error(x->d, nl->parts[i].via->loc, "current-controlled sources control each other in a loop through '%s'",
                      nl->parts[i].name);
             for (int j = i; nl->parts[j].ref >= 0;) {
                 int next = nl->parts[j].ref;
@@ -2337,7 +2364,7 @@ static bool expansion_fits(elab *x, const ls_program *prog, long long *nparts)
      * fixed ceiling (docs/limits.md, "Size of the input") */
     double held = (double)ls_memory_limit_bytes();
     for (int i = 0; i < prog->n && ok; i++) {
-        ls_skind kind = ls_stmt_kind(prog->stmts[i]);
+        ls_skind kind = kind_at(x->top_kinds, prog->stmts, i);
         if (kind == S_PART || kind == S_BRIEF) {
             parts = sat_add(parts, 1);
         } else if (kind == S_USE) {
@@ -2416,7 +2443,8 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
     int e0 = d->errors;
     ls_hash_init(&x.blocks);
     ls_hash_init(&x.warned);
-    check_kinds(&x, prog->stmts, prog->n);
+    x.top_kinds = malloc(prog->n ? (size_t)prog->n : 1);
+    check_kinds(&x, prog->stmts, prog->n, x.top_kinds);
     collect_blocks(&x, prog);
     ground_and_title(&x, prog);
     scope top = {"", NULL, NULL, 0};
@@ -2433,7 +2461,7 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
             memset(x.node_of_key, 0xff, ((size_t)prog->node_keys + 1) * sizeof *x.node_of_key); /* every int -1 */
             x.nkeys = prog->node_keys;
         }
-        elab_body(&x, &top, prog->stmts, prog->n);
+        elab_body(&x, &top, prog->stmts, prog->n, x.top_kinds);
     }
     resolve_refs(&x);
     check_budgets(&x);
@@ -2448,6 +2476,7 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
     free(x.blockv);
     free(x.locals);
     free(x.node_of_key);
+    free(x.top_kinds);
     return d->errors - e0;
 }
 

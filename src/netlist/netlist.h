@@ -8,7 +8,7 @@
 
 #include <stdint.h>
 
-#define LS_MAX_PINS 8
+#define LS_MAX_PINS 4 /* the most any kind has (a controlled source's four); checked by unit-core */
 #define LS_MAX_OPTS 24 /* at most 32: ls_part.has_opt is a bit set */
 
 #define LS_MAX_RANGES 2
@@ -52,9 +52,18 @@ typedef struct ls_part_run {
     bool probing;          /* op-amp: held at that rail only to try it */
 } ls_part_run;
 
+/* A part's via= as written, which the elaborator resolves into ls_part.ref
+ * once every part is known. */
+typedef struct ls_via_name {
+    const char *name;      /* the part or port named */
+    const char *scope;     /* the instance prefix it is named in ("" at the top level) */
+    ls_loc loc;
+} ls_via_name;
+
 /* One part of the flat circuit.  The record is kept small (a large grid has
- * millions of them): options and ranges live in side arrays in the netlist's
- * arena, allocated only for the parts that use them. */
+ * millions of them: 120 bytes each): options, ranges and via= live in side
+ * records in the netlist's arena, allocated only for the parts that use
+ * them. */
 typedef struct ls_part {
     const struct ls_kind *kind;
     const char *name;      /* hierarchical: "d1.upper" */
@@ -63,13 +72,11 @@ typedef struct ls_part {
                               read opt[i] only where ls_part_has(p, i) */
     ls_level (*range)[2];  /* OPT_RANGE options: range[slot][0 low, 1 high]; LS_MAX_RANGES
                               slots, zeroed, for kinds that take a range option, else NULL */
-    const char *ref_name;  /* via= as written, resolved after elaboration */
-    const char *ref_scope;
+    const ls_via_name *via; /* via= as written, NULL without one (resolved into ref) */
     double value;          /* the main value (resistance, voltage, gain, ...) as elaborated; a solve
                               reads it through its run (ls_run_value: a study may change it) */
     ls_loc loc;            /* the name in the statement */
     ls_loc value_loc;
-    ls_loc ref_loc;
     int pin[LS_MAX_PINS];  /* node indices; -1 when not given */
     uint32_t has_opt;      /* bit i: option i was given */
     int ref;               /* via= part index, -1 */
@@ -78,6 +85,7 @@ typedef struct ls_part {
     bool has_value;
 } ls_part;
 _Static_assert(LS_MAX_OPTS <= 32, "ls_part.has_opt holds one bit per option");
+_Static_assert(sizeof(ls_part) <= 120, "a part record stays within 120 bytes (docs/performance.md)");
 
 /* A bound quantity: the syntax of an expect or a QUANTITY with names resolved. */
 typedef enum ls_qkind { Q_CONST, Q_NODE, Q_PROP, Q_NEG, Q_BIN, Q_CALL } ls_qkind;

@@ -145,9 +145,10 @@ static bool same_q(const ls_q *a, const ls_q *b)
 static bool same_part(const ls_part *a, const ls_part *b)
 {
     if (a->kind != b->kind || !same_str(a->name, b->name) || !same_str(a->instance, b->instance) ||
-        !same_str(a->ref_name, b->ref_name) || !same_str(a->ref_scope, b->ref_scope) ||
+        !a->via != !b->via || (a->via && (!same_str(a->via->name, b->via->name) ||
+                                          !same_str(a->via->scope, b->via->scope) || !same_loc(a->via->loc, b->via->loc))) ||
         !same_bits(a->value, b->value) || !same_loc(a->loc, b->loc) || !same_loc(a->value_loc, b->value_loc) ||
-        !same_loc(a->ref_loc, b->ref_loc) || memcmp(a->pin, b->pin, sizeof a->pin) != 0 || a->has_opt != b->has_opt ||
+        memcmp(a->pin, b->pin, sizeof a->pin) != 0 || a->has_opt != b->has_opt ||
         a->ref != b->ref || a->branch != b->branch || a->slot != b->slot || a->has_value != b->has_value ||
         !a->opt != !b->opt || !a->range != !b->range)
         return false;

@@ -301,9 +301,27 @@ static void test_topology(void)
     unload(&w);
 }
 
+/* Every kind's pins fit the part record's LS_MAX_PINS slots (kept at the
+ * most any kind uses, so a grid's two-pin resistors do not carry unused
+ * ones), and every node option fills a slot among its kind's pins. */
+static void test_pins_fit(void)
+{
+    int most = 0, bad = 0;
+    for (int i = 0; i < ls_kind_count(); i++) {
+        const ls_kind *k = ls_kind_at(i);
+        most = k->npins > most ? k->npins : most;
+        bad += k->npins > LS_MAX_PINS;
+        for (int j = 0; j < k->nopts; j++)
+            bad += k->opts[j].kind == OPT_NODE && (k->opts[j].pin < 0 || k->opts[j].pin >= k->npins);
+    }
+    CU_ASSERT_EQUAL(bad, 0);
+    CU_ASSERT_EQUAL(most, LS_MAX_PINS); /* a controlled source's four: no slot to spare */
+}
+
 int main(void)
 {
     static const ls_cu_case cases[] = {
+        {"pins fit the part record", test_pins_fit},
         {"expressions", test_expressions},
         {"unit algebra", test_unit_algebra},
         {"blocks", test_blocks},
