@@ -1,6 +1,8 @@
-/* parts.h — the part table.  Every part kind is one entry here plus its stamp
- * functions in parts.c: name, terminals, options, how it enters the MNA system,
- * how its current is expressed and what it contributes to the topology checks. */
+/* parts.h — the part table.  Every part kind is one entry of the table in
+ * kinds.c plus its functions in the file of its family (family.h lists them):
+ * name, terminals, options, how it enters the MNA system, how its current is
+ * expressed, what it contributes to the topology checks, how it is removed and
+ * what it reports. */
 #ifndef LS_PARTS_H
 #define LS_PARTS_H
 
@@ -219,15 +221,6 @@ ls_dims ls_kind_main_dims(const ls_kind *k);
 const char *ls_kind_renamed(const ls_kind *k, const char *name);
 /* Index of option `name` in the kind, or -1. */
 int ls_kind_opt(const ls_kind *k, const char *name);
-
-/* Helpers for the kinds' stamp and current functions (parts.c and family
- * files of their own, DEVELOPERS.md "Adding a part kind"). */
-/* A conductance g (S) between unknowns a and b (either < 0: ground). */
-void ls_stamp_conductance(ls_sink *s, int a, int b, double g);
-/* Adds c times unknown idx to a current's linear form (idx < 0: ground, dropped). */
-void ls_lin_add(ls_lin *l, int idx, double c);
-/* Unknown idx of a solution x (0 for ground, idx < 0). */
-static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx] : 0; }
 
 /* The nodes a part's `voltage` reads (its kind's vsign): V(*plus) - V(*minus),
  * node 0 being ground. */
