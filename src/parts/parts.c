@@ -9,10 +9,8 @@
 
 /* ---- sinks ---------------------------------------------------------------- */
 
-void ls_sink_a(ls_sink *s, int row, int col, double v)
+void ls_sink_put(ls_sink *s, int row, int col, double v)
 {
-    if (row < 0 || col < 0 || v == 0)
-        return;
     v *= s->scale;
     assert(s->mode == SINK_ASSEMBLE || s->mode == SINK_ADJOINT || s->mode == SINK_RESIDUAL);
     if (s->mode == SINK_ADJOINT) {

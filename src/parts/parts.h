@@ -72,7 +72,16 @@ typedef struct ls_sink {
     double scale;          /* every stamp is multiplied by this (1 normally) */
 } ls_sink;
 
-void ls_sink_a(ls_sink *s, int row, int col, double v);  /* row/col < 0: ground, dropped */
+/* ls_sink_a past its checks: an entry of A at (row, col), both >= 0, v != 0. */
+void ls_sink_put(ls_sink *s, int row, int col, double v);
+/* An entry of A at (row, col); row/col < 0 (ground) and zeros are dropped.
+ * Inline, so the stamps in each family file skip those without a call. */
+static inline void ls_sink_a(ls_sink *s, int row, int col, double v)
+{
+    if (row < 0 || col < 0 || v == 0)
+        return;
+    ls_sink_put(s, row, col, v);
+}
 void ls_sink_b(ls_sink *s, int row, double v);
 
 /* What a stamp needs: the unknown index of a node, of a branch, the netlist,
