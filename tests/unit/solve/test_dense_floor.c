@@ -39,20 +39,27 @@ static int factor(const ls_csc *a, bool floor_only, ls_solver_stats *st, ls_solv
     return rc;
 }
 
-/* The n x n matrix of the triplets (d: dense entries, unused here). */
+/* The n x n matrix of the triplets. */
 static void to_csc(ls_triplets *t, int n, ls_csc *a)
 {
     CU_ASSERT_EQUAL_FATAL(ls_triplets_to_csc(t, n, a), 0);
 }
 
-static void test_closed_form(void)
+/* The 2 x 2 matrix [[m[0], m[1]], [m[2], m[3]]] (zeros left out) into a. */
+static void two_by_two(const double m[4], ls_csc *a)
 {
     ls_triplets t = {0};
+    for (int k = 0; k < 4; k++)
+        if (m[k] != 0)
+            put(NULL, &t, 2, k / 2, k % 2, m[k]);
+    to_csc(&t, 2, a);
+    ls_triplets_free(&t);
+}
+
+static void test_closed_form(void)
+{
     ls_csc a = {0};
-    put(NULL, &t, 2, 0, 0, 1);
-    put(NULL, &t, 2, 0, 1, 8);
-    put(NULL, &t, 2, 1, 1, 1);
-    to_csc(&t, 2, &a);
+    two_by_two((const double[4]){1, 8, 0, 1}, &a);
     ls_solver_stats fast, full;
     CU_ASSERT_EQUAL(factor(&a, true, &fast, NULL), LS_SOLVER_OK);
     CU_ASSERT_EQUAL(factor(&a, false, &full, NULL), LS_SOLVER_OK);
@@ -62,7 +69,6 @@ static void test_closed_form(void)
     /* dgecon estimates |As^-1| from below, so its rcond is at least the true 1/4 */
     CU_ASSERT_TRUE(full.rcond >= 0.25 && full.rcond <= 1);
     ls_csc_free(&a);
-    ls_triplets_free(&t);
 }
 
 static void test_random_systems(void)
@@ -105,13 +111,8 @@ static void test_random_systems(void)
 
 static void test_nearly_singular(void)
 {
-    ls_triplets t = {0};
     ls_csc a = {0};
-    put(NULL, &t, 2, 0, 0, 1);
-    put(NULL, &t, 2, 0, 1, 1);
-    put(NULL, &t, 2, 1, 0, 1);
-    put(NULL, &t, 2, 1, 1, 1 + 1e-15);
-    to_csc(&t, 2, &a);
+    two_by_two((const double[4]){1, 1, 1, 1 + 1e-15}, &a);
     ls_solver_stats fast, full;
     CU_ASSERT_EQUAL(factor(&a, true, &fast, NULL), LS_SOLVER_SINGULAR);
     CU_ASSERT_EQUAL(factor(&a, false, &full, NULL), LS_SOLVER_SINGULAR);
@@ -119,7 +120,6 @@ static void test_nearly_singular(void)
     CU_ASSERT_EQUAL(fast.bad_column, full.bad_column);
     CU_ASSERT_EQUAL(fast.rcond, full.rcond);
     ls_csc_free(&a);
-    ls_triplets_free(&t);
 }
 
 int main(void)
