@@ -33,7 +33,7 @@
  * Because the same A is solved, everything built on the solver (refinement,
  * low-rank updates, adjoints) is unchanged.  A^T = S A S with S = diag(I, -I),
  * so a transposed solve flips the signs of the source entries around a plain one.
- * Everything is read from A itself, with the MNA layout of parts.c (nodes first,
+ * Everything is read from A itself, with the MNA layout of src/parts/family.h (nodes first,
  * then branch unknowns); ls_mna_reducible says whether A has this shape. */
 
 #ifdef LS_HAVE_SPARSE
