@@ -79,8 +79,10 @@ double ls_part_opt_in(const ls_run *run, const ls_part *p, const char *name, dou
 
 int ls_kind_opt(const ls_kind *k, const char *name)
 {
+    /* called by the stamps on every solve (a fit's candidates, a tol's
+     * trials): the first letter rules out most names without a call */
     for (int i = 0; i < k->nopts; i++)
-        if (strcmp(k->opts[i].name, name) == 0)
+        if (k->opts[i].name[0] == name[0] && strcmp(k->opts[i].name, name) == 0)
             return i;
     return -1;
 }
