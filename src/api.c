@@ -426,10 +426,19 @@ static void scratch_end(ls_circuit *c, const scratch *s)
     ls_arena_release(&c->arena, &s->mark);
 }
 
-/* Parse and bind a quantity; NULL after reporting an error. */
-static ls_q *bind_quantity(ls_circuit *c, const char *text)
+/* Parse and bind a quantity; NULL after reporting an error, with *st set:
+ * LS_E_NOMEM when memory ran out on the way (no fault of the text; told by
+ * what the circuit's arenas and diagnostics say now against before), else
+ * LS_E_CIRCUIT. */
+static ls_q *bind_quantity(ls_circuit *c, const char *text, ls_status *st)
 {
-    return ls_circuit_quantity(c, text, NULL);
+    int nomem0 = c->diags.nomem, lost0 = c->diags.lost;
+    ls_q *q = ls_circuit_quantity(c, text, NULL);
+    if (!q)
+        *st = c->arena.failed || c->syntax.failed || c->diags.nomem > nomem0 || c->diags.lost > lost0
+                  ? LS_E_NOMEM
+                  : LS_E_CIRCUIT;
+    return q;
 }
 
 ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value)
@@ -440,9 +449,9 @@ ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value)
     if (!quantity || !value)
         return LS_E_ARGUMENT;
     scratch s = scratch_begin(c);
-    ls_q *q = bind_quantity(c, quantity);
+    ls_q *q = bind_quantity(c, quantity, &st);
     if (!q)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return st;
     double v = ls_q_eval(&c->op, q);
     scratch_end(c, &s);
     if (forget_oom_ports(c))
@@ -460,9 +469,9 @@ ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *sy
     if (!quantity || !formula)
         return LS_E_ARGUMENT;
     *formula = NULL;
-    ls_q *q = bind_quantity(c, quantity);
+    ls_q *q = bind_quantity(c, quantity, &st);
     if (!q)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return st;
     ls_formula_req req = {.quantity = quantity, .symbols = symbols, .ideal = ideal != 0};
     ls_formula_result r;
     ls_outcome out = ls_formula(&c->op, &c->prog, q, &req, &r, &c->diags);
@@ -695,15 +704,15 @@ ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *valu
     if (!quantity || !entries || !n)
         return LS_E_ARGUMENT;
     scratch s = scratch_begin(c);
-    ls_q *q = bind_quantity(c, quantity);
+    ls_q *q = bind_quantity(c, quantity, &st);
     if (!q)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return st;
     ls_sens_item *items = NULL;
     double v = NAN;
     int k = ls_sens(&c->op, q, &v, &items);
     scratch_end(c, &s);
     if (k < 0)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return k == LS_SENS_NOMEM || c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
     ls_influence_entry *e = calloc((size_t)(k ? k : 1), sizeof *e);
     if (!e) {
         free(items);
@@ -779,9 +788,9 @@ ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_optio
     if (o.trials > LS_TOL_MAX_TRIALS || (o.law != LS_TOL_UNIFORM && o.law != LS_TOL_NORMAL))
         return LS_E_ARGUMENT;
     scratch sc = scratch_begin(c);   /* the quantity's binding is scratch for this call */
-    ls_q *q = bind_quantity(c, quantity);
+    ls_q *q = bind_quantity(c, quantity, &st);
     if (!q)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return st;
     int w0 = c->diags.warnings;
     ls_tol_study t = {.nl = &c->nl, .op = &c->op, .arena = &c->arena, .diags = &c->diags, .q = q,
                       .trials = o.trials, .seed = (uint64_t)o.seed, .normal = o.law == LS_TOL_NORMAL,

@@ -540,7 +540,7 @@ static ls_outcome choose_symbols(fx *F)
     if (F->req->symbols) {
         list = strdup(F->req->symbols);
         if (!list)
-            return LS_UNSOLVABLE;
+            return LS_NO_MEMORY;
         n = 0;
         for (char *save = NULL, *t = strtok_r(list, ", ", &save); t && n < CAP; t = strtok_r(NULL, ", ", &save))
             names[n++] = t;
@@ -1307,16 +1307,20 @@ static int solve_form(fx *F, const sys *S, const lform *l, int unit, rf *out)
 {
     int n = S->n, m = n + 1;
     fmpq_mpoly_struct *M = flint_malloc(sizeof *M * (size_t)m * (size_t)m);
-    if (!M)
+    rf *row = malloc(sizeof *row * (size_t)m);
+    if (!M || !row) {
+        flint_free(M);
+        free(row);
+        F->nomem = true;
         return -1;
+    }
     for (int i = 0; i < m * m; i++)
         fmpq_mpoly_init(M + i, F->ctx);
-    fmpq_mpoly_t L, det;
+    fmpq_mpoly_t L, det, Lc;
     fmpq_mpoly_init(L, F->ctx);
     fmpq_mpoly_init(det, F->ctx);
-    rf *row = malloc(sizeof *row * (size_t)m);
-    int rc = row ? 0 : -1;
-    for (int i = 0; i < n && rc == 0; i++) {
+    fmpq_mpoly_init(Lc, F->ctx);
+    for (int i = 0; i < n; i++) {
         /* row i of [A rhs], scaled by the lcm of its denominators */
         for (int j = 0; j < n; j++)
             row[j] = S->a[i * n + j];
@@ -1332,14 +1336,10 @@ static int solve_form(fx *F, const sys *S, const lform *l, int unit, rf *out)
         if (unit >= 0)
             rf_clear(F, &row[n]);
     }
-    fmpq_mpoly_t Lc;
-    fmpq_mpoly_init(Lc, F->ctx);
-    if (rc == 0) {
-        lcm_dens(F, l->c, n, 1, Lc);
-        for (int j = 0; j < n; j++)
-            scale_entry(F, M + (size_t)n * m + j, &l->c[j], Lc);
-        rc = F->too_big ? -1 : bareiss(F, M, m, n, det);
-    }
+    lcm_dens(F, l->c, n, 1, Lc);
+    for (int j = 0; j < n; j++)
+        scale_entry(F, M + (size_t)n * m + j, &l->c[j], Lc);
+    int rc = F->too_big ? -1 : bareiss(F, M, m, n, det);
     if (rc == 0) {
         /* c^T x = -det(B) / det(A), then / Lc + c0 */
         rf r;
@@ -1379,11 +1379,11 @@ static ls_outcome solve_in(fx *F, int removed, int tie_node, const lform *l, int
     for (int attempt = 0; attempt < 2; attempt++) {
         sys S;
         if (build(F, &S, removed, attempt ? tie_node : 0) != 0)
-            return LS_UNSOLVABLE;
+            return LS_NO_MEMORY;
         int rc = F->too_big ? -1 : solve_form(F, &S, l, unit, out);
         sys_free(F, &S);
         if (rc < 0)
-            return F->too_big ? too_big_error(F, F->too_big_why) : LS_UNSOLVABLE;
+            return F->too_big ? too_big_error(F, F->too_big_why) : F->nomem ? LS_NO_MEMORY : LS_UNSOLVABLE;
         if (rc == 0) {
             if (attempt && depends_on(F, out, F->tie)) {
                 *why = "it depends on a node the opened port leaves with no DC path";
@@ -1429,7 +1429,7 @@ static ls_outcome current_port_prop(fx *F, int part, ls_prop prop, rf *out, cons
             lf_add_si(F, &l, F->nl->parts[part].branch, 1);
             code = solve_in(F, -1, 0, &l, -1, out, &why);
         } else {
-            code = LS_UNSOLVABLE;
+            code = LS_NO_MEMORY;
         }
         lform_clear(F, &l);
         break;
@@ -1504,7 +1504,7 @@ static ls_outcome held_solve(fx *F, int part, const lform *l, int unit, rf *out,
         lform lv;
         lform_init(F, &lv);
         if (!lv.c)
-            code = LS_UNSOLVABLE;
+            code = LS_NO_MEMORY;
         if (code == LS_DONE) {
             node_form(F, &lv, p->pin[1], 1);
             code = solve_in(F, -1, 0, &lv, -1, &v, why);
@@ -1580,7 +1580,7 @@ static ls_outcome port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, cons
     lform_init(F, &l);
     if (!l.c) {
         lform_clear(F, &l);   /* c0 was made even when c was not */
-        return LS_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     switch (prop) {
     case PROP_LOADED:
@@ -1620,7 +1620,7 @@ static ls_outcome part_prop(fx *F, int part, ls_prop prop, rf *out, const char *
     if (!lc.c || !lv.c) {
         lform_clear(F, &lc);
         lform_clear(F, &lv);
-        return LS_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     int plus, minus;
     ls_part_vnodes(p, &plus, &minus);
@@ -1696,7 +1696,7 @@ static int rq_node(void *fv, const ls_q *q, void *out)
     lform_init(F, &l);
     if (!l.c) {
         lform_clear(F, &l);   /* c0 was made even when c was not */
-        return LS_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     const char *why = NULL;
     node_form(F, &l, q->index, 1);
@@ -1789,7 +1789,7 @@ static ls_outcome q_rf(fx *F, const ls_q *q, rf *out, const char *text)
 {
     F->qtext = text;
     int code = ls_q_walk(&exact_domain, F, q, out);   /* an ls_outcome of the operations, or -1 */
-    return code < 0 ? LS_UNSOLVABLE : (ls_outcome)code;
+    return code < 0 ? LS_NO_MEMORY : (ls_outcome)code;
 }
 
 /* ---- --ideal: every finite gain to infinity --------------------------------------------------- */
@@ -2487,6 +2487,8 @@ static bool text_reads_back(fx *F, const char *text, double want, double *got_ou
     ls_diags_init(&d, &a);
     ls_expr *e = ls_parse_expr_string(&d, "formula", text, true);
     double got = e ? eval_text_expr(F, &d, e) : NAN;
+    if (a.failed || d.nomem || d.lost)
+        F->nomem = true;   /* not read back for want of memory: no fault of the text */
     ls_diags_free(&d);
     ls_arena_free(&a);
     *got_out = got;
@@ -2797,7 +2799,7 @@ static ls_outcome write_texts(fx *F, rf *a, ls_formula_result *res)
     if (!num || !den || !res->expression) {
         free(num);
         free(den);
-        return LS_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     /* the numerator and denominator each as the shorter of factored and expanded */
     rf part;
@@ -2817,7 +2819,7 @@ static ls_outcome write_texts(fx *F, rf *a, ls_formula_result *res)
         }
     }
     rf_clear(F, &part);
-    return F->nomem ? LS_UNSOLVABLE : LS_DONE;
+    return F->nomem ? LS_NO_MEMORY : LS_DONE;
 }
 
 /* The symbols the final formula uses, in order. */
@@ -2927,7 +2929,7 @@ static ls_outcome run(fx *F, const ls_q *q, const char *text, ls_formula_result 
     F->pval = calloc((size_t)F->nl->nparts + 1, sizeof *F->pval);
     F->pexact = calloc((size_t)F->nl->nparts + 1, sizeof *F->pexact);
     if (!F->pval || !F->pexact)
-        return LS_UNSOLVABLE;
+        return LS_NO_MEMORY;
     for (int i = 0; i < F->nl->nparts; i++)
         rf_init(F, &F->pval[i]);
     symbol_values(F);
@@ -2952,21 +2954,25 @@ static ls_outcome run(fx *F, const ls_q *q, const char *text, ls_formula_result 
     res->value = rf_eval_d(F, &a);
     if (F->req->ideal)
         res->difference = rel_difference(F, q, res->value, res->solve);
-    code = list_symbols(F, &a, res) == 0 ? write_texts(F, &a, res) : LS_UNSOLVABLE;
+    code = list_symbols(F, &a, res) == 0 ? write_texts(F, &a, res) : LS_NO_MEMORY;
     rf_clear(F, &a);
     if (code == LS_DONE && F->too_big)
         code = too_big_error(F, F->too_big_why);
     double got = NAN;
-    if (code == LS_DONE && (!text_reads_back(F, res->expression, res->value, &got))) {
-        ls_error(F->d, LS_NOLOC, "formula: internal error: the printed formula '%s' does not read back to %.17g "
-                 "(it reads %.17g)", res->expression, res->value, got);
-        code = LS_UNSOLVABLE;
+    if (code == LS_DONE && !text_reads_back(F, res->expression, res->value, &got)) {
+        if (F->nomem) {
+            code = LS_NO_MEMORY;   /* it could not be read for want of memory */
+        } else {
+            ls_error(F->d, LS_NOLOC, "formula: internal error: the printed formula '%s' does not read back to "
+                     "%.17g (it reads %.17g)", res->expression, res->value, got);
+            code = LS_UNSOLVABLE;
+        }
     }
     return code;
 }
 
 ls_outcome ls_formula(ls_op *op, const ls_program *prog, const ls_q *q, const ls_formula_req *req,
-               ls_formula_result *res, ls_diags *d)
+                      ls_formula_result *res, ls_diags *d)
 {
     memset(res, 0, sizeof *res);
     res->ideal = req->ideal;
