@@ -581,8 +581,10 @@ bool ls_eval_const(ls_diags *d, const ls_expr *e, ls_name_value names, void *ctx
     x.names = names ? names : no_names;
     x.names_ctx = names ? ctx : d;
     scope top = {"", NULL, NULL, 0};
+    *dims = LS_FREE;   /* what a caller reads when the evaluation fails */
     bool ok = eval(&x, &top, e, v, dims);
-    *dims = norm(*dims);
+    if (ok)
+        *dims = norm(*dims);
     return ok;
 }
 
