@@ -4,7 +4,8 @@
  * ls_outcome; the reasons themselves are in the diagnostics (or in the
  * study's record).  An outcome is no process exit code and no status of the
  * public API: the program maps it to cli.md's exit codes in one place
- * (cli/outcome.c, ls_exit_code) and the library to ls_status in api.c. */
+ * (ls_exit_code, cli/commands.c) and the library to ls_status in api.c
+ * (status_of). */
 #ifndef LS_OUTCOME_H
 #define LS_OUTCOME_H
 
@@ -19,7 +20,5 @@ typedef enum ls_outcome {
     LS_NO_WORKER,          /* a worker (thread or process) could not be set up */
     LS_REELABORATE,        /* the sweeper: this point's values need the circuit elaborated again */
 } ls_outcome;
-
-#define LS_OUTCOMES 6      /* the number of cases above */
 
 #endif
