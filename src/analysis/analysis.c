@@ -653,16 +653,10 @@ ls_outcome ls_op_resolve(ls_op *op)
         return failed(op);
     for (int i = 0; i < nl->nparts; i++)
         op->port[i].done = false;
-    /* a switch's state may have changed the DC paths: the bridges are redone on demand */
-    free(op->bridge_part);
-    free(op->bridge_child);
-    op->bridge_part = NULL;
-    op->bridge_child = NULL;
-    free(op->tin);
-    free(op->tout);
-    free(op->low);
-    op->tin = op->tout = op->low = NULL;
-    op->grounded_nodes = 0;
+    /* The DC graph's bridges (lowrank.c, dc_bridges) are kept: every kind's
+     * edges read the part as elaborated (a switch's written state, never a
+     * run's), so they are a function of op->nl alone, which a re-solve keeps;
+     * a fit's candidates and a tol's trials need not list them again. */
     op->anorm = 0; /* the values (and an adc's range) may have changed */
     free(op->adc_at);
     op->adc_at = NULL;

@@ -313,6 +313,32 @@ static bool solve_on(const fit_run *r, ls_op *op, const double *values, bool *no
     return false;
 }
 
+/* Does the search's fast path apply to the candidates of f?  Their solves
+ * then test each matrix for singularity only (ls_solver_singularity_only:
+ * the same factors, solution and verdict, without the condition estimate
+ * where a cheap floor shows it would pass).  Nothing a candidate reports
+ * reads the estimate, except the iteration of a circuit with junctions
+ * (newton.c, polish), which then keeps the full path; and f->plain keeps
+ * it for the tests' comparison. */
+static bool fast_path(const ls_fit_study *f)
+{
+    if (f->plain)
+        return false;
+    for (int i = 0; i < f->nl->nparts; i++)
+        if (f->nl->parts[i].kind->is_junction)
+            return false;
+    return true;
+}
+
+/* Candidates of the search on op: on the fast path when on and it applies
+ * (fast_path); the reported candidates, the finalists' trials and the
+ * written values' solve go back to the full path. */
+static void candidate_path(const ls_fit_study *f, ls_op *op, bool on)
+{
+    if (op->solver)
+        ls_solver_singularity_only(op->solver, on && fast_path(f));
+}
+
 /* solve_on the session's op. */
 static bool solve_at(fit_run *r, const double *values)
 {
@@ -1235,6 +1261,7 @@ static fit_worker *worker_new(fit_run *r)
     opt.phase = NULL; /* the session's progress line is not this op's to move */
     if (w->checks && ls_op_solve(&w->op, &w->nl, &opt) == LS_DONE) {
         w->fact0 = w->op.solver ? ls_solver_stats_of(w->op.solver)->factorizations : 0;
+        candidate_path(r->f, &w->op, true);   /* its candidates are the search's */
         return w;
     }
     ls_op_free(&w->op);
@@ -2119,8 +2146,10 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     code = LS_NO_MEMORY;
     const ls_solver_stats *ss = f->op->solver ? ls_solver_stats_of(f->op->solver) : NULL;
     long fact0 = ss ? ss->factorizations : 0, an0 = ss ? ss->analyses : 0;
-    if (r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0 &&
-        rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
+    candidate_path(f, f->op, true);
+    bool searched = r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0;
+    candidate_path(f, f->op, false);
+    if (searched && rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_DONE;
     f->factorizations = (ss ? ss->factorizations - fact0 : 0) + r.worker_factorizations;
     f->analyses = ss ? ss->analyses - an0 : 0;

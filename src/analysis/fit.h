@@ -113,6 +113,8 @@ typedef struct ls_fit_study {
     void *progress_ctx;
     double exhaustive_limit;   /* <= 0: LS_FIT_EXHAUSTIVE; the tests lower it to try the continuous path */
     long max_solves;     /* candidate solves branch and bound may spend (<= 0: LS_FIT_MAX_SOLVES) */
+    bool plain;          /* every candidate on the full path (docs/fit.md, "The search"): the tests
+                          * compare it with the fast path; not meant for use otherwise */
     /* out */
     ls_fit_var *vars;
     int nvars;

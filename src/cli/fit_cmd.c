@@ -534,6 +534,9 @@ static int fit_options(ls_cli *cli, ls_fit_study *f)
     f->exhaustive_limit = lim && *lim ? strtod(lim, NULL) : 0;
     if (lim && *lim && f->exhaustive_limit <= 0)
         f->exhaustive_limit = 0.5; /* 0 or less: never enumerate */
+    /* and this to compare the search's fast path with the plain one (tests/fit/test_fit_plain.py) */
+    const char *plain = getenv("LOADSTACK_FIT_PLAIN");
+    f->plain = plain && *plain && strcmp(plain, "0") != 0;
     return 0;
 }
 

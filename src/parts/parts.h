@@ -1,6 +1,8 @@
-/* parts.h — the part table.  Every part kind is one entry here plus its stamp
- * functions in parts.c: name, terminals, options, how it enters the MNA system,
- * how its current is expressed and what it contributes to the topology checks. */
+/* parts.h — the part table.  Every part kind is one entry of the table in
+ * kinds.c plus its functions in the file of its family (family.h lists them):
+ * name, terminals, options, how it enters the MNA system, how its current is
+ * expressed, what it contributes to the topology checks, how it is removed and
+ * what it reports. */
 #ifndef LS_PARTS_H
 #define LS_PARTS_H
 
@@ -70,7 +72,16 @@ typedef struct ls_sink {
     double scale;          /* every stamp is multiplied by this (1 normally) */
 } ls_sink;
 
-void ls_sink_a(ls_sink *s, int row, int col, double v);  /* row/col < 0: ground, dropped */
+/* ls_sink_a past its checks: an entry of A at (row, col), both >= 0, v != 0. */
+void ls_sink_put(ls_sink *s, int row, int col, double v);
+/* An entry of A at (row, col); row/col < 0 (ground) and zeros are dropped.
+ * Inline, so the stamps in each family file skip those without a call. */
+static inline void ls_sink_a(ls_sink *s, int row, int col, double v)
+{
+    if (row < 0 || col < 0 || v == 0)
+        return;
+    ls_sink_put(s, row, col, v);
+}
 void ls_sink_b(ls_sink *s, int row, double v);
 
 /* What a stamp needs: the unknown index of a node, of a branch, the netlist,
@@ -219,15 +230,6 @@ ls_dims ls_kind_main_dims(const ls_kind *k);
 const char *ls_kind_renamed(const ls_kind *k, const char *name);
 /* Index of option `name` in the kind, or -1. */
 int ls_kind_opt(const ls_kind *k, const char *name);
-
-/* Helpers for the kinds' stamp and current functions (parts.c and family
- * files of their own, DEVELOPERS.md "Adding a part kind"). */
-/* A conductance g (S) between unknowns a and b (either < 0: ground). */
-void ls_stamp_conductance(ls_sink *s, int a, int b, double g);
-/* Adds c times unknown idx to a current's linear form (idx < 0: ground, dropped). */
-void ls_lin_add(ls_lin *l, int idx, double c);
-/* Unknown idx of a solution x (0 for ground, idx < 0). */
-static inline double ls_x_at(const double *x, int idx) { return idx >= 0 ? x[idx] : 0; }
 
 /* The nodes a part's `voltage` reads (its kind's vsign): V(*plus) - V(*minus),
  * node 0 being ground. */

@@ -1002,7 +1002,7 @@ int ls_amg_preferred(const ls_csc *a, int nodes)
 }
 
 const ls_backend ls_backend_amg = {
-    "hypre", amg_create, amg_analyze, amg_factor, amg_solve, amg_destroy, amg_analyze_factor, amg_set_nodes,
+    "hypre", amg_create, amg_analyze, amg_factor, amg_solve, amg_destroy, amg_analyze_factor, amg_set_nodes, NULL,
 };
 
 #endif /* LS_HAVE_AMG */

@@ -1,6 +1,8 @@
 /* dense.c — the LAPACK backend: equilibrate (as dgeequ does), factor (dgetrf),
  * estimate the condition (dgecon), solve (dgetrs).  Iterative refinement is done
- * by the caller against the original sparse matrix. */
+ * by the caller against the original sparse matrix.  With the singularity test
+ * only (ls_solver_singularity_only) the estimate is skipped when a cheap bound
+ * already shows it would pass (rcond_floor). */
 #include <lapacke.h>
 #include <stdbool.h>
 #include <stdint.h>
@@ -19,6 +21,7 @@ typedef struct dense {
     double *r, *c;     /* row and column scale factors */
     double *work;
     bool scaled;
+    bool floor_only;   /* rcond as a floor where that proves the matrix regular */
 } dense;
 
 static void *dense_create(void)
@@ -116,10 +119,48 @@ static int equilibrate(const ls_csc *a, double *r, double *c)
     return -1;
 }
 
+/* The singularity test of dense_factor is rcond > SINGULAR_RCOND (dgecon's
+ * estimate); rcond_floor stands in for it only above FLOOR_SAFETY times that. */
+#define SINGULAR_RCOND (4 * 2.220446049250313e-16)
+#define FLOOR_SAFETY 1024.0
+
+/* A floor under the reciprocal condition 1 / (anorm ||U^-1 L^-1||_1) of the
+ * LU factors in lu (n x n, column-major, L unit lower), or 0 when the bound
+ * overflows.  The comparison matrix M(T) of a triangular T (|t_ii| on its
+ * diagonal, -|t_ij| off it) has M(T)^-1 >= |T^-1| entrywise, so
+ * ||T^-1||_1 <= ||M(T)^-1||_1 = max_j y_j with M(T)^T y = e: one triangular
+ * solve of nonnegative terms each, O(n^2), against dgecon's several.  dgecon's
+ * estimate of ||U^-1 L^-1||_1 is a lower bound of it (the norm of A^-1 at
+ * vectors of norm at most 1), so its rcond is at least this floor, up to the
+ * rounding of its solves, which FLOOR_SAFETY covers many times over. */
+static double rcond_floor(const double *lu, int n, double anorm, double *y)
+{
+    double bu = 0, bl = 0;
+    for (int j = 0; j < n; j++) {            /* M(U)^T y = e, forward */
+        const double *col = lu + (size_t)j * n;
+        double s = 1;
+        for (int i = 0; i < j; i++)
+            s += fabs(col[i]) * y[i];
+        y[j] = s / fabs(col[j]);
+        bu = fmax(bu, y[j]);
+    }
+    for (int j = n - 1; j >= 0; j--) {       /* M(L)^T y = e, backward, unit diagonal */
+        const double *col = lu + (size_t)j * n;
+        double s = 1;
+        for (int i = j + 1; i < n; i++)
+            s += fabs(col[i]) * y[i];
+        y[j] = s;
+        bl = fmax(bl, s);
+    }
+    double den = anorm * bu * bl;
+    return den > 0 && isfinite(den) ? 1 / den : 0;
+}
+
 static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
 {
     dense *d = self;
     int n = d->n;
+    st->rcond_floor = false;
     if (n == 0) {
         st->rcond = 1;
         return LS_SOLVER_OK;
@@ -156,6 +197,16 @@ static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
     }
     if (info < 0)
         return LS_SOLVER_FAILED;
+    st->factor_flops = 2.0 / 3.0 * (double)n * n * n; /* LU without pivoting's count */
+    st->solve_flops = 2.0 * (double)n * n;
+    if (d->floor_only) {
+        double lo = rcond_floor(d->lu, n, anorm, d->work);
+        if (lo > FLOOR_SAFETY * SINGULAR_RCOND) {
+            st->rcond = lo;
+            st->rcond_floor = true;
+            return LS_SOLVER_OK;
+        }
+    }
     double rcond = 0;
     double *work = malloc(4 * (size_t)n * sizeof *work);
     lapack_int *iwork = malloc((size_t)n * sizeof *iwork);
@@ -168,9 +219,7 @@ static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
     free(work);
     free(iwork);
     st->rcond = info == 0 ? rcond : NAN;
-    st->factor_flops = 2.0 / 3.0 * (double)n * n * n; /* LU without pivoting's count */
-    st->solve_flops = 2.0 * (double)n * n;
-    if (!(rcond > 4 * 2.220446049250313e-16)) {
+    if (!(rcond > SINGULAR_RCOND)) {
         /* numerically singular: point at the smallest pivot */
         int worst = 0;
         double wv = INFINITY;
@@ -204,6 +253,11 @@ static int dense_solve(void *self, double *b, int transpose, ls_solver_stats *st
     return info == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
 }
 
+static void dense_singularity_only(void *self, bool on)
+{
+    ((dense *)self)->floor_only = on;
+}
+
 const ls_backend ls_backend_dense = {
     .name = "lapack",
     .create = dense_create,
@@ -211,4 +265,5 @@ const ls_backend ls_backend_dense = {
     .factor = dense_factor,
     .solve = dense_solve,
     .destroy = dense_destroy,
+    .singularity_only = dense_singularity_only,
 };

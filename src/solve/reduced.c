@@ -33,7 +33,7 @@
  * Because the same A is solved, everything built on the solver (refinement,
  * low-rank updates, adjoints) is unchanged.  A^T = S A S with S = diag(I, -I),
  * so a transposed solve flips the signs of the source entries around a plain one.
- * Everything is read from A itself, with the MNA layout of parts.c (nodes first,
+ * Everything is read from A itself, with the MNA layout of src/parts/family.h (nodes first,
  * then branch unknowns); ls_mna_reducible says whether A has this shape. */
 
 #ifdef LS_HAVE_SPARSE
@@ -590,7 +590,7 @@ static int reduced_solve(void *self, double *b, int transpose, ls_solver_stats *
 
 const ls_backend ls_backend_reduced = {
     "cholmod-reduced", reduced_create, reduced_analyze, reduced_factor, reduced_solve, reduced_destroy,
-    reduced_analyze_factor, NULL,
+    reduced_analyze_factor, NULL, NULL,
 };
 
 #endif /* LS_HAVE_SPARSE */

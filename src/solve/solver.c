@@ -23,6 +23,7 @@ struct ls_solver {
     int factored;
     int n;           /* order of the last matrix analyzed or factored */
     ls_update *upd;  /* low-rank updates allowed (ls_solver_allow_update), else NULL */
+    bool singularity_only;  /* ls_solver_singularity_only */
 };
 
 ls_solver *ls_solver_new(const ls_backend *be, ls_method method)
@@ -157,11 +158,18 @@ int ls_solver_factor(ls_solver *s, const ls_csc *a)
         return LS_SOLVER_OK;
     }
     s->n = a->n;
+    if (s->be->singularity_only)
+        s->be->singularity_only(s->self, s->singularity_only && !s->upd);
     int r = s->be->factor(s->self, a, &s->st);
     s->factored = r == LS_SOLVER_OK;
     keep_for_update(s, a, r);
     scope_leave(&t);
     return r;
+}
+
+void ls_solver_singularity_only(ls_solver *s, bool on)
+{
+    s->singularity_only = on;
 }
 
 void ls_solver_allow_update(ls_solver *s, const ls_csc *factored)

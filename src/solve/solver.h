@@ -39,6 +39,7 @@ typedef struct ls_solver_stats {
     ls_method method;
     const char *library;   /* "lapack", "klu", "umfpack", "cholmod", "hypre" */
     double rcond;          /* reciprocal condition estimate (1-norm); NAN if unknown */
+    bool rcond_floor;      /* rcond is only a floor under the estimate (ls_solver_singularity_only) */
     int bad_column;        /* first zero or tiny pivot column, -1 if none */
     size_t bytes_needed;   /* with LS_SOLVER_TOO_LARGE: what the factor would take */
     int factorizations;    /* numeric factorizations done */
@@ -73,6 +74,8 @@ typedef struct ls_backend {
     /* Optional (NULL: ignored): the leading m unknowns are node voltages and
      * the rest branch currents, for a backend that treats them apart. */
     void (*set_nodes)(void *self, int m);
+    /* Optional (NULL: ignored): ls_solver_singularity_only's switch. */
+    void (*singularity_only)(void *self, bool on);
 } ls_backend;
 
 extern const ls_backend ls_backend_dense;
@@ -94,6 +97,14 @@ const ls_solver_stats *ls_solver_stats_of(const ls_solver *s);
 /* Tell the backend that the leading m unknowns are node voltages (before
  * analyze; a backend that does not need it ignores it). */
 void ls_solver_set_nodes(ls_solver *s, int m);
+/* With on, the caller wants of the condition estimate only the test that
+ * refuses a numerically singular matrix: a backend that can prove the test
+ * passes more cheaply (the dense one: a floor under the reciprocal condition)
+ * may then skip the estimate, and stats.rcond is that floor, with
+ * stats.rcond_floor set.  The factors, the solves and the verdict (singular
+ * or not, bad_column) are those of the full path.  Ignored while low-rank
+ * updates are allowed (they weigh the estimate).  Off by default. */
+void ls_solver_singularity_only(ls_solver *s, bool on);
 /* The program's own thread settings between solves: one BLAS and one OpenMP
  * thread (a factorization of a large system raises them for its duration).
  * For the command-line program only: a library caller keeps its own, which

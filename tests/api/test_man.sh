@@ -54,8 +54,8 @@ for code in 0 1 2 3; do
     sed -n '/^\.SH EXIT STATUS/,/^\.SH /p' "$work/m1" | grep -q "^\.B $code$" || fail "exit code $code is not in loadstack.1"
 done
 
-kinds=$(sed -n 's/.*{\.name = "\([a-z]*\)", \.shape.*/\1/p' "$src/src/parts/parts.c")
-[ -n "$kinds" ] || fail "no part kinds read from src/parts/parts.c"
+kinds=$(sed -n 's/.*{\.name = "\([a-z]*\)", \.shape.*/\1/p' "$src/src/parts/kinds.c")
+[ -n "$kinds" ] || fail "no part kinds read from src/parts/kinds.c"
 for k in $kinds; do
     grep -qE "^\.B $k$|^$k NAME" "$work/m5" || fail "loadstack-language.5 does not describe the part kind '$k'"
 done

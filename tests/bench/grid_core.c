@@ -74,7 +74,7 @@ int main(int argc, char **argv)
                 put(&t, a, c, -1);
                 put(&t, c, a, -1);
             }
-    /* voltage g -> n0_0, 1 V: KCL column and branch row as parts.c stamps them */
+    /* voltage g -> n0_0, 1 V: KCL column and branch row as src/parts/sources.c stamps them */
     put(&t, unk(n, 0, 0), k, -1);
     put(&t, k, unk(n, 0, 0), 1);
     b[k] = 1;

@@ -42,6 +42,25 @@ def body(src, name):
     return src[m.start():end]
 
 
+def missing_named_files(root, title):
+    """A failure for each src/, tests/, docs/ or man/ file that DEVELOPERS.md's
+    section `title` names and that does not exist (kind_steps.py uses it too)."""
+    sec = read(root, "DEVELOPERS.md")
+    sec = sec[sec.index(title):]
+    sec = sec[:sec.index("\n## ", 5)] if "\n## " in sec[5:] else sec
+    return ["DEVELOPERS.md names %s, which does not exist" % rel
+            for rel in sorted(set(re.findall(r"`((?:src|tests|docs|man)/[\w./-]+)`", sec)))
+            if not os.path.exists(os.path.join(root, rel))]
+
+
+def finish(fails, summary):
+    """Prints a line per failure and the summary; the exit status."""
+    for f in fails:
+        print("FAIL", f)
+    print("%s, %d failed" % (summary, len(fails)))
+    return 1 if fails else 0
+
+
 def main():
     root = sys.argv[1]
     fails = []
@@ -75,16 +94,8 @@ def main():
             if m.group(1) != "FMT_HTML":
                 line = read(root, rel)[:m.start()].count("\n") + 1
                 fails.append("%s:%d: a report on the writer branches on the format" % (rel, line))
-    dev = read(root, "DEVELOPERS.md")
-    sec = dev[dev.index("## Adding an output format"):]
-    sec = sec[:sec.index("\n## ", 5)]
-    for rel in sorted(set(re.findall(r"`((?:src|tests|docs|man)/[\w./-]+)`", sec))):
-        if not os.path.exists(os.path.join(root, rel)):
-            fails.append("DEVELOPERS.md names %s, which does not exist" % rel)
-    for f in fails:
-        print("FAIL", f)
-    print("%d formats, %d reports on the writer, %d failed" % (len(formats), len(WRITER_REPORTS), len(fails)))
-    return 1 if fails else 0
+    fails += missing_named_files(root, "## Adding an output format")
+    return finish(fails, "%d formats, %d reports on the writer" % (len(formats), len(WRITER_REPORTS)))
 
 
 if __name__ == "__main__":

@@ -10,7 +10,7 @@
  * voltage and is continuous at the knee.  Its state (the limit in force) lives
  * in the part's run state and is settled by the operating-point iteration
  * through the table's init/update hooks; removed (sag, ports) it is opened. */
-#include "parts/parts.h"
+#include "parts/family.h"
 
 #include <math.h>
 
@@ -42,10 +42,10 @@ void ls_testsink_stamp(const ls_part *p, ls_stamp_ctx *c)
 {
     if (c->removed)
         return;
-    int from = ls_node_unknown(p->pin[0]), to = ls_node_unknown(p->pin[1]);
+    int from = N(p, 0), to = N(p, 1);
     if (ls_run_state(c->run, p)->state == SINK_SATURATED) {
         double g = c->derivative ? 1 / compliance(p, c->run) : saturated_g(p, c->run);
-        ls_stamp_conductance(c->sink, from, to, g);
+        conductance(c->sink, from, to, g);
         return;
     }
     double i = c->derivative ? 1 : ls_run_value(c->run, p);
@@ -59,8 +59,8 @@ void ls_testsink_current(const ls_part *p, const ls_run *run, ls_lin *out, bool 
     (void)depth;
     if (ls_run_state(run, p)->state == SINK_SATURATED) {
         double g = derivative ? 1 / compliance(p, run) : saturated_g(p, run);
-        ls_lin_add(out, ls_node_unknown(p->pin[0]), g);
-        ls_lin_add(out, ls_node_unknown(p->pin[1]), -g);
+        lin_add(out, N(p, 0), g);
+        lin_add(out, N(p, 1), -g);
         return;
     }
     out->constant += derivative ? 1 : ls_run_value(run, p);
@@ -90,7 +90,7 @@ void ls_testsink_init(const ls_part *p, ls_run *run)
 /* The state the last solve x calls for; true when it is the one in force. */
 bool ls_testsink_update(const ls_part *p, ls_run *run, const double *x)
 {
-    double v = ls_x_at(x, ls_node_unknown(p->pin[0])) - ls_x_at(x, ls_node_unknown(p->pin[1]));
+    double v = xval(x, N(p, 0)) - xval(x, N(p, 1));
     int want;
     if (ls_run_state(run, p)->state == SINK_REGULATING)
         want = v >= compliance(p, run) ? SINK_REGULATING : SINK_SATURATED;

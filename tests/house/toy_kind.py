@@ -4,7 +4,7 @@
 usage: toy_kind.py LOADSTACK_TOY LOADSTACK
 
 LOADSTACK_TOY is the program built with the test-only kind `testsink`
-(tests/house/testsink_kind.c, its entry in src/parts/parts.c under
+(tests/house/testsink_kind.c, its entry in src/parts/kinds.c under
 LS_TEST_KINDS): a current sink drawing VALUE while the voltage across it is at
 least its compliance, else the resistance compliance / VALUE.  Nothing else of
 the program knows it; this solves it through the whole pipeline and checks:
