@@ -1,7 +1,8 @@
 /* api.c — the public C interface (include/loadstack/loadstack.h) over the
  * internal stages: parser, elaborator, operating point, low-rank port and sag
  * analyses, Thevenin, adjoint sensitivities.  Internal results are copied
- * into the public structs here, and internal exit codes become ls_status. */
+ * into the public structs here, and the analyses' outcomes become ls_status
+ * (status_of: the one mapping). */
 #include "loadstack/loadstack.h"
 
 #include <assert.h>
@@ -53,6 +54,25 @@ const char *ls_status_str(ls_status st)
 const char *ls_version(void) { return LS_VERSION; }
 
 void ls_free(void *p) { free(p); }
+
+/* The status of an analysis's outcome: the one place where the library maps
+ * ls_outcome to ls_status (LS_DONE is LS_OK; ok_status adds whether warnings
+ * came).  What a refused request means depends on the call: an argument
+ * (fit) or the circuit's text (a formula's quantity), so the caller says
+ * which status it is. */
+static ls_status status_of(ls_outcome o, ls_status bad_request)
+{
+    switch (o) {
+    case LS_DONE: return LS_OK;
+    case LS_BAD_REQUEST: return bad_request;
+    case LS_UNSOLVABLE: return LS_E_UNSOLVABLE;
+    case LS_NO_MEMORY: return LS_E_NOMEM;
+    case LS_NO_WORKER: return LS_E_NOMEM;   /* a thread that cannot start: resources, as memory */
+    case LS_REELABORATE: return LS_E_UNSOLVABLE;   /* (sweep_once reads such a point again) */
+    }
+    assert(!"an ls_outcome without a status");
+    return LS_E_UNSOLVABLE;
+}
 
 /* LS_E_NOMEM once the arena failed, else ok (with warnings when the list
  * gained some since `warnings_before`). */
@@ -206,13 +226,13 @@ ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt)
     c->solve_options = o;   /* a sweep solves its points the same way */
     c->solve_opt = opt ? *opt : (ls_solve_options){0};
     int w0 = c->diags.warnings;
-    int code = ls_circuit_solve_op(c, &o);
+    ls_outcome out = ls_circuit_solve_op(c, &o);
     if (ls_circuit_nomem(c)) {
         c->solved = false;
         return LS_E_NOMEM;   /* no memory is no property of the circuit */
     }
-    if (code != LS_EXIT_OK)
-        return LS_E_UNSOLVABLE;
+    if (out != LS_DONE)
+        return status_of(out, LS_E_CIRCUIT);
     return ok_status(c, w0);
 }
 
@@ -406,10 +426,19 @@ static void scratch_end(ls_circuit *c, const scratch *s)
     ls_arena_release(&c->arena, &s->mark);
 }
 
-/* Parse and bind a quantity; NULL after reporting an error. */
-static ls_q *bind_quantity(ls_circuit *c, const char *text)
+/* Parse and bind a quantity; NULL after reporting an error, with *st set:
+ * LS_E_NOMEM when memory ran out on the way (no fault of the text; told by
+ * what the circuit's arenas and diagnostics say now against before), else
+ * LS_E_CIRCUIT. */
+static ls_q *bind_quantity(ls_circuit *c, const char *text, ls_status *st)
 {
-    return ls_circuit_quantity(c, text, NULL);
+    int nomem0 = c->diags.nomem, lost0 = c->diags.lost;
+    ls_q *q = ls_circuit_quantity(c, text, NULL);
+    if (!q)
+        *st = c->arena.failed || c->syntax.failed || c->diags.nomem > nomem0 || c->diags.lost > lost0
+                  ? LS_E_NOMEM
+                  : LS_E_CIRCUIT;
+    return q;
 }
 
 ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value)
@@ -420,9 +449,9 @@ ls_status ls_circuit_eval(ls_circuit *c, const char *quantity, double *value)
     if (!quantity || !value)
         return LS_E_ARGUMENT;
     scratch s = scratch_begin(c);
-    ls_q *q = bind_quantity(c, quantity);
+    ls_q *q = bind_quantity(c, quantity, &st);
     if (!q)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return st;
     double v = ls_q_eval(&c->op, q);
     scratch_end(c, &s);
     if (forget_oom_ports(c))
@@ -440,13 +469,13 @@ ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *sy
     if (!quantity || !formula)
         return LS_E_ARGUMENT;
     *formula = NULL;
-    ls_q *q = bind_quantity(c, quantity);
+    ls_q *q = bind_quantity(c, quantity, &st);
     if (!q)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return st;
     ls_formula_req req = {.quantity = quantity, .symbols = symbols, .ideal = ideal != 0};
     ls_formula_result r;
-    int code = ls_formula(&c->op, &c->prog, q, &req, &r, &c->diags);
-    if (code == LS_EXIT_OK) {
+    ls_outcome out = ls_formula(&c->op, &c->prog, q, &req, &r, &c->diags);
+    if (out == LS_DONE) {
         *formula = r.expression;
         r.expression = NULL;
         if (value)
@@ -455,7 +484,7 @@ ls_status ls_circuit_formula(ls_circuit *c, const char *quantity, const char *sy
     ls_formula_result_free(&r);
     if (forget_oom_ports(c))
         return LS_E_NOMEM;
-    return code == LS_EXIT_OK ? LS_OK : code == LS_EXIT_USAGE ? LS_E_CIRCUIT : LS_E_UNSOLVABLE;
+    return status_of(out, LS_E_CIRCUIT);
 }
 
 /* 1-based line of a location, 0 for none. */
@@ -675,15 +704,15 @@ ls_status ls_circuit_influence(ls_circuit *c, const char *quantity, double *valu
     if (!quantity || !entries || !n)
         return LS_E_ARGUMENT;
     scratch s = scratch_begin(c);
-    ls_q *q = bind_quantity(c, quantity);
+    ls_q *q = bind_quantity(c, quantity, &st);
     if (!q)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return st;
     ls_sens_item *items = NULL;
     double v = NAN;
     int k = ls_sens(&c->op, q, &v, &items);
     scratch_end(c, &s);
     if (k < 0)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return k == LS_SENS_NOMEM || c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
     ls_influence_entry *e = calloc((size_t)(k ? k : 1), sizeof *e);
     if (!e) {
         free(items);
@@ -736,8 +765,9 @@ ls_status ls_circuit_set_value(ls_circuit *c, const char *part, double value)
         return LS_E_NOMEM;
     int w0 = c->diags.warnings;
     c->solved = false;
-    if (ls_op_resolve(&c->op) != LS_EXIT_OK)
-        return c->arena.failed || c->op.nomem ? LS_E_NOMEM : LS_E_UNSOLVABLE;
+    ls_outcome out = ls_op_resolve(&c->op);
+    if (out != LS_DONE)
+        return c->arena.failed ? LS_E_NOMEM : status_of(out, LS_E_CIRCUIT);
     c->solved = true;
     return ok_status(c, w0);
 }
@@ -758,19 +788,19 @@ ls_status ls_circuit_tol(ls_circuit *c, const char *quantity, const ls_tol_optio
     if (o.trials > LS_TOL_MAX_TRIALS || (o.law != LS_TOL_UNIFORM && o.law != LS_TOL_NORMAL))
         return LS_E_ARGUMENT;
     scratch sc = scratch_begin(c);   /* the quantity's binding is scratch for this call */
-    ls_q *q = bind_quantity(c, quantity);
+    ls_q *q = bind_quantity(c, quantity, &st);
     if (!q)
-        return c->arena.failed ? LS_E_NOMEM : LS_E_CIRCUIT;
+        return st;
     int w0 = c->diags.warnings;
     ls_tol_study t = {.nl = &c->nl, .op = &c->op, .arena = &c->arena, .diags = &c->diags, .q = q,
                       .trials = o.trials, .seed = (uint64_t)o.seed, .normal = o.law == LS_TOL_NORMAL,
                       .threads = o.threads};
-    int code = ls_tol_run(&t);
-    if (code == LS_EXIT_UNSOLVABLE)
+    ls_outcome outcome = ls_tol_run(&t);
+    if (outcome == LS_UNSOLVABLE)
         c->solved = false;   /* the nominal circuit no longer solves: results would be stale */
-    if (code != 0 || c->arena.failed) {
+    if (outcome != LS_DONE || c->arena.failed) {
         ls_tol_free(&t);
-        return code == LS_EXIT_UNSOLVABLE ? LS_E_UNSOLVABLE : LS_E_NOMEM;
+        return outcome == LS_DONE ? LS_E_NOMEM : status_of(outcome, LS_E_ARGUMENT);
     }
     const ls_tol_result *r = &t.r;
     *out = (ls_tol_info){.nominal = r->nominal, .wc_min = r->wc_min, .wc_max = r->wc_max, .corners = r->corners,
@@ -840,13 +870,13 @@ ls_status ls_circuit_fit(ls_circuit *c, const ls_fit_options *opt, ls_fit_candid
     ls_fit_study f = {.nl = &c->nl, .op = &c->op, .arena = &c->arena, .goal = (ls_fit_goal)o.aim,
                       .series = es->name, .top = o.top > 0 ? o.top : 5, .trials = o.trials > 0 ? o.trials : 2000,
                       .seed = (uint64_t)o.seed, .normal = o.law == LS_TOL_NORMAL};
-    int code = ls_fit_run(&f);
-    if (code == LS_EXIT_UNSOLVABLE)
+    ls_outcome out = ls_fit_run(&f);
+    if (out == LS_UNSOLVABLE)
         c->solved = false;   /* the written values no longer solve: results would be stale */
-    if (code == LS_FIT_OK)
+    if (out == LS_DONE)
         st = fit_out(c, &f, cands, values, names);
     else
-        st = code == LS_EXIT_UNSOLVABLE ? LS_E_UNSOLVABLE : code == LS_FIT_NOMEM ? LS_E_NOMEM : LS_E_ARGUMENT;
+        st = status_of(out, LS_E_ARGUMENT);   /* refused: no free part, too many, an empty range */
     if (st == LS_OK) {
         *ncands = f.nbest;
         *nfree = f.nvars;
@@ -982,12 +1012,12 @@ static ls_status sweep_once(ls_circuit *c, const char *let, const double *xs, in
     *nsolved = 0;
     for (int i = 0; st == LS_OK && i < steps; i++) {
         double *row = ys + (size_t)i * (size_t)nq;
-        int code = ls_sweeper_solve(&w, xs[i], i % LS_SWEEP_CHAIN == 0);
-        if (code == LS_EXIT_OK) {
+        ls_outcome out = ls_sweeper_solve(&w, xs[i], i % LS_SWEEP_CHAIN == 0);
+        if (out == LS_DONE) {
             for (int k = 0; k < nq; k++)
                 row[k] = ls_q_eval(&w.op, q[k]);
             (*nsolved)++;
-        } else if (code != LS_SWEEP_REELABORATE &&
+        } else if (out != LS_REELABORATE &&
                    (w.op.nomem || p->arena.failed || p->diags.nomem || p->diags.lost)) {
             st = LS_E_NOMEM;
         } else {

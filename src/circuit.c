@@ -1,7 +1,8 @@
 /* circuit.c — the one place that reads, parses, elaborates and solves a
  * circuit, for the library (api.c) and the program (cli/commands.c) alike.
- * It returns what happened (ls_loaded, ls_op_solve's code); each caller maps
- * that to its own status or exit code. */
+ * It returns what happened (ls_loaded, ls_op_solve's ls_outcome) and maps
+ * nothing: each caller turns that into its own status (api.c) or exit code
+ * (cli/). */
 #include "circuit.h"
 
 #include <stdlib.h>
@@ -97,15 +98,15 @@ ls_loaded ls_circuit_load(ls_circuit *c, const ls_load *how)
     return LS_LOADED;
 }
 
-int ls_circuit_solve_op(ls_circuit *c, const ls_options *o)
+ls_outcome ls_circuit_solve_op(ls_circuit *c, const ls_options *o)
 {
     if (c->have_op)
         ls_op_free(&c->op);
     c->solved = false;
     c->have_op = true;
-    int code = ls_op_solve(&c->op, &c->nl, o);
-    c->solved = code == LS_EXIT_OK;
-    return code;
+    ls_outcome out = ls_op_solve(&c->op, &c->nl, o);
+    c->solved = out == LS_DONE;
+    return out;
 }
 
 ls_q *ls_circuit_quantity(ls_circuit *c, const char *text, ls_letdeps *deps)

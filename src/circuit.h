@@ -86,9 +86,9 @@ void ls_circuit_init(ls_circuit *c);
  * out), so one run reports its name and unit errors as well. */
 ls_loaded ls_circuit_load(ls_circuit *c, const ls_load *how);
 /* Solve the operating point of a loaded circuit with options o (any earlier
- * operating point freed first).  Returns ls_op_solve's code (LS_EXIT_OK:
+ * operating point freed first).  Returns ls_op_solve's outcome (LS_DONE:
  * c->solved is set). */
-int ls_circuit_solve_op(ls_circuit *c, const ls_options *o);
+ls_outcome ls_circuit_solve_op(ls_circuit *c, const ls_options *o);
 /* Parse and bind a quantity written as in an `expect` (following deps when
  * not NULL); NULL after an error in the diagnostics (out of memory included). */
 ls_q *ls_circuit_quantity(ls_circuit *c, const char *text, ls_letdeps *deps);

@@ -312,7 +312,14 @@ static bool size_failure(ls_op *op, int st, ls_method m, const ls_solver_stats *
     return false;
 }
 
-static int factor(ls_op *op)
+/* The outcome of a solve that failed after saying why: out of memory when
+ * op->nomem says so (then no property of the circuit), else unsolvable. */
+static ls_outcome failed(const ls_op *op)
+{
+    return op->nomem ? LS_NO_MEMORY : LS_UNSOLVABLE;
+}
+
+static ls_outcome factor(ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     ls_method m;
@@ -322,7 +329,7 @@ static int factor(ls_op *op)
         if (!op->solver) {
             ls_error(nl->diags, LS_NOLOC, "out of memory creating the solver");
             op->nomem = true;
-            return LS_EXIT_UNSOLVABLE;
+            return LS_NO_MEMORY;
         }
         ls_solver_set_nodes(op->solver, op->mna.nn);
         int st = ls_solver_analyze_factor(op->solver, &op->mna.a);
@@ -330,9 +337,9 @@ static int factor(ls_op *op)
         op->method = m;
         op->rcond = ss->rcond;
         if (st == LS_SOLVER_OK)
-            return LS_EXIT_OK;
+            return LS_DONE;
         if (m == LS_METHOD_ITERATIVE_AMG && iterative_failed(op, st))
-            return LS_EXIT_UNSOLVABLE;
+            return failed(op);
 #ifdef LS_HAVE_SPARSE
         if (st == LS_SOLVER_NOT_SPD && attempt == 0) {
             ls_solver_free(&op->solver);
@@ -342,26 +349,26 @@ static int factor(ls_op *op)
         }
 #endif
         if (size_failure(op, st, m, ss))
-            return LS_EXIT_UNSOLVABLE;
+            return failed(op);
         if (st == LS_SOLVER_SINGULAR && ls_newton_open_loop(op, ss->bad_column)) {
             /* a comparator: held at a rail, the system may be regular */
             ls_solver_free(&op->solver);
             if (ls_mna_restamp(&op->mna) != 0) {
                 ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
                 op->nomem = true;
-                return LS_EXIT_UNSOLVABLE;
+                return LS_NO_MEMORY;
             }
             attempt--;
             continue;
         }
         if (st == LS_SOLVER_SINGULAR) {
             ls_op_report_singular(op, ss->bad_column);
-            return LS_EXIT_UNSOLVABLE;
+            return failed(op);
         }
         ls_error(nl->diags, LS_NOLOC, "the linear solver (%s) failed", ss->library);
-        return LS_EXIT_UNSOLVABLE;
+        return failed(op);
     }
-    return LS_EXIT_UNSOLVABLE;
+    return failed(op);
 }
 
 /* Unknowns smaller than this fraction of the largest of their kind (node
@@ -480,19 +487,19 @@ int ls_op_step(ls_op *op)
 /* A solve or re-solve that failed in the linear algebra with status st
  * (LS_SOLVER_*) while `doing` ("solving", "refining the solution"): the error
  * in the diagnostics; out of memory also sets op->nomem, so that a caller
- * does not take it for a circuit without a solution.  Returns
- * LS_EXIT_UNSOLVABLE. */
-static int solve_failed(ls_op *op, int st, const char *doing)
+ * does not take it for a circuit without a solution.  Returns LS_UNSOLVABLE,
+ * or LS_NO_MEMORY. */
+static ls_outcome solve_failed(ls_op *op, int st, const char *doing)
 {
     if (st != LS_SOLVER_NOMEM && iterative_failed(op, st)) /* the iterative solver's own reasons */
-        return LS_EXIT_UNSOLVABLE;
+        return failed(op);
     if (st == LS_SOLVER_NOMEM) {
         op->nomem = true;
         ls_error(op->nl->diags, LS_NOLOC, "out of memory %s (%d unknowns)", doing, op->mna.n);
     } else {
         ls_error(op->nl->diags, LS_NOLOC, "the linear solver failed while %s", doing);
     }
-    return LS_EXIT_UNSOLVABLE;
+    return failed(op);
 }
 
 /* Tell the caller's phase hook, if any, that phase `what` starts. */
@@ -537,61 +544,62 @@ static void conditioning_warnings(ls_op *op)
 
 /* What comes before a solve's assembly: its run (the start's states and
  * values when given), the topology checks (not for a variant: its circuit
- * passed them once), the BLAS work buffers.  LS_EXIT_OK, or an exit code
- * after reporting why. */
-static int prepare(ls_op *op, const ls_netlist *nl, const ls_options *o, bool variant)
+ * passed them once), the BLAS work buffers.  LS_DONE, or the outcome after
+ * reporting why. */
+static ls_outcome prepare(ls_op *op, const ls_netlist *nl, const ls_options *o, bool variant)
 {
     if (ls_run_init(&op->run, nl) != 0 || (o->start && ls_run_copy(&op->run, o->start) != 0)) {
         ls_error(nl->diags, LS_NOLOC, "out of memory setting up the solve of %d parts", nl->nparts);
         op->nomem = true;
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     /* a variant's circuit has passed the checks once already */
     if (!variant)
         phase(op, "checking the topology");
     if (!variant && ls_topology_check(nl))
-        return LS_EXIT_UNSOLVABLE;
+        return failed(op);
     if (!ls_blas_buffer_fits()) { /* else OpenBLAS would wait for it forever (memprobe.h) */
         ls_error(nl->diags, LS_NOLOC, "out of memory before the solve: the linear algebra library needs work "
                  "buffers of %.1f MB that the process cannot get", 2.0 * (double)LS_BLAS_BUFFER_BYTES / 1e6);
         op->nomem = true;
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
-    return LS_EXIT_OK;
+    return LS_DONE;
 }
 
-int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
+ls_outcome ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
 {
     memset(op, 0, sizeof *op);
     op->nl = nl;
     op->opt = *o;
     bool variant = o->opened || o->ties;
-    int r = prepare(op, nl, o, variant);
-    if (r != LS_EXIT_OK)
-        return r;
+    ls_outcome out = prepare(op, nl, o, variant);
+    if (out != LS_DONE)
+        return out;
     if (!o->keep_states || !o->start)
         ls_newton_init(&op->run);
     phase(op, "assembling the equations");
     if (ls_mna_build_variant(&op->mna, nl, &op->run, o->opened, o->ties) != 0 || alloc_results(op) != 0) {
         ls_error(nl->diags, LS_NOLOC, "out of memory assembling %d unknowns", op->mna.n);
         op->nomem = true;
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     phase(op, "factoring");
-    r = factor(op);
-    if (r != LS_EXIT_OK)
-        return r;
+    out = factor(op);
+    if (out != LS_DONE)
+        return out;
     phase(op, "solving");
     memcpy(op->x, op->mna.b, (size_t)op->mna.n * sizeof *op->x);
-    if ((r = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements)) != LS_SOLVER_OK)
-        return solve_failed(op, r, "solving");
+    int st = refined_solve(op, op->mna.b, op->x, 0, &op->residual, &op->refinements);
+    if (st != LS_SOLVER_OK)
+        return solve_failed(op, st, "solving");
     op->iterations = 1;
     op->cg_iterations = ls_solver_stats_of(op->solver)->cg_iterations;
     op->cg_residual = ls_solver_stats_of(op->solver)->cg_residual;
     if (!o->linear_only && ls_newton_needed(nl)) {
         phase(op, "iterating the nonlinear parts");
-        if ((r = ls_newton_solve(op)) != LS_EXIT_OK)
-            return r;
+        if ((out = ls_newton_solve(op)) != LS_DONE)
+            return out;
     }
     phase(op, "refining in extra precision");
     if (polish(op) != 0)
@@ -601,7 +609,7 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
     /* (sag's variants with ports opened or tied are left out: not yet
      * checked, see docs/limits.md) */
     if (!variant && ls_selfcheck_on() && ls_selfcheck(op) != 0)
-        return LS_EXIT_UNSOLVABLE;
+        return failed(op);
     op->g_pin = pin_conductance(op);
     conditioning_warnings(op);
     if (!o->no_bounds) {
@@ -609,10 +617,10 @@ int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o)
         ls_acc_warn(op, 4); /* the report's default digits; the report marks against its own */
     }
     ls_real_warnings(op);
-    return LS_EXIT_OK;
+    return LS_DONE;
 }
 
-int ls_op_resolve(ls_op *op)
+ls_outcome ls_op_resolve(ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     op->nomem = false;
@@ -623,7 +631,7 @@ int ls_op_resolve(ls_op *op)
     op->rcond = ss->rcond;
     if (st == LS_SOLVER_SINGULAR) {
         ls_op_report_singular(op, ss->bad_column);
-        return LS_EXIT_UNSOLVABLE;
+        return failed(op);
     }
     if (st != LS_SOLVER_OK)
         return solve_failed(op, st, "factoring");
@@ -634,15 +642,15 @@ int ls_op_resolve(ls_op *op)
     /* the run often starts settled (a candidate or trial near its base): then
      * the iteration would refactor the same system twice more */
     if (ls_newton_needed(nl) && !ls_newton_settled(op)) {
-        int r = ls_newton_solve(op);
-        if (r != LS_EXIT_OK)
-            return r;
+        ls_outcome out = ls_newton_solve(op);
+        if (out != LS_DONE)
+            return out;
     }
     if (polish(op) != 0)
         return solve_failed(op, LS_SOLVER_NOMEM, "refining the solution");
     part_results(op);
     if (ls_selfcheck_on() && ls_selfcheck(op) != 0)
-        return LS_EXIT_UNSOLVABLE;
+        return failed(op);
     for (int i = 0; i < nl->nparts; i++)
         op->port[i].done = false;
     /* The DC graph's bridges (lowrank.c, dc_bridges) are kept: every kind's
@@ -654,7 +662,7 @@ int ls_op_resolve(ls_op *op)
     op->adc_at = NULL;
     ls_selinv_free(&op->selinv);
     op->selinv_state = 0;
-    return LS_EXIT_OK;
+    return LS_DONE;
 }
 
 void ls_op_free(ls_op *op)

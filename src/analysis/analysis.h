@@ -7,14 +7,15 @@
 #include "analysis/accuracy.h"
 #include "analysis/op.h"
 
-/* Assemble, check the topology, factor and solve.  Returns LS_EXIT_OK, or
- * LS_EXIT_UNSOLVABLE / LS_EXIT_USAGE after reporting the reason. */
-int ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o);
+/* Assemble, check the topology, factor and solve.  Returns LS_DONE, or
+ * LS_UNSOLVABLE after reporting the reason (LS_NO_MEMORY, with op->nomem,
+ * when memory ran out). */
+ls_outcome ls_op_solve(ls_op *op, const ls_netlist *nl, const ls_options *o);
 /* Re-solve after part values (not the structure) changed: restamp, refactor
  * reusing the symbolic analysis, solve (iterating from the last solution when
  * the circuit has nonlinear parts or limited op-amps).  Port results are
  * recomputed on demand.  The warnings of ls_op_solve are not repeated. */
-int ls_op_resolve(ls_op *op);
+ls_outcome ls_op_resolve(ls_op *op);
 /* Both set op->nomem when they fail because memory ran out (with an "out of
  * memory" error in the netlist's diagnostics), and clear it otherwise. */
 void ls_op_free(ls_op *op);

@@ -305,7 +305,7 @@ static bool solve_on(const fit_run *r, ls_op *op, const double *values, bool *no
     }
     if (op->mna.n > 0)
         memcpy(op->x, r->x0, (size_t)op->mna.n * sizeof *r->x0);
-    if (ls_op_resolve(op) == LS_EXIT_OK)
+    if (ls_op_resolve(op) == LS_DONE)
         return true;
     /* a solve without memory says nothing of the candidate: never ranked as
      * one that does not solve (docs/limits.md, out of memory) */
@@ -1259,7 +1259,7 @@ static fit_worker *worker_new(fit_run *r)
     w->checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *w->checks);
     ls_options opt = r->f->op->opt;
     opt.phase = NULL; /* the session's progress line is not this op's to move */
-    if (w->checks && ls_op_solve(&w->op, &w->nl, &opt) == LS_EXIT_OK) {
+    if (w->checks && ls_op_solve(&w->op, &w->nl, &opt) == LS_DONE) {
         w->fact0 = w->op.solver ? ls_solver_stats_of(w->op.solver)->factorizations : 0;
         candidate_path(r->f, &w->op, true);   /* its candidates are the search's */
         return w;
@@ -2003,17 +2003,18 @@ static int report_checks(fit_run *r)
 
 /* ---- set-up ------------------------------------------------------------------------------------ */
 
-/* The series values of each free part inside its range.  Returns LS_FIT_OK,
- * LS_FIT_EMPTY or LS_FIT_NOMEM. */
-static int make_vars(ls_fit_study *f)
+/* The series values of each free part inside its range.  Returns LS_DONE,
+ * LS_BAD_REQUEST (a range holds no series value: f->refused is LS_FIT_EMPTY)
+ * or LS_NO_MEMORY. */
+static ls_outcome make_vars(ls_fit_study *f)
 {
     const ls_netlist *nl = f->nl;
     f->vars = calloc((size_t)nl->nfrees, sizeof *f->vars);
     if (!f->vars)
-        return LS_FIT_NOMEM;
+        return LS_NO_MEMORY;
     f->nvars = nl->nfrees;
     f->combinations = 1;
-    int code = LS_FIT_OK;
+    ls_outcome code = LS_DONE;
     for (int j = 0; j < nl->nfrees; j++) {
         const ls_freevar *fv = &nl->frees[j];
         ls_fit_var *v = &f->vars[j];
@@ -2027,15 +2028,17 @@ static int make_vars(ls_fit_study *f)
         int d0 = (int)floor(log10(fv->lo)) - 1, d1 = (int)floor(log10(fv->hi)) + 1;
         v->values = malloc((size_t)(d1 - d0 + 1) * (size_t)es->count * sizeof *v->values);
         if (!v->values)
-            return LS_FIT_NOMEM;
+            return LS_NO_MEMORY;
         for (int d = d0; d <= d1; d++)
             for (int i = 0; i < es->count; i++) {
                 double x = ls_eseries_value(es, i, d);
                 if (x >= fv->lo * (1 - 1e-9) && x <= fv->hi * (1 + 1e-9))
                     v->values[v->nvalues++] = x;
             }
-        if (v->nvalues == 0)
-            code = LS_FIT_EMPTY;
+        if (v->nvalues == 0) {
+            code = LS_BAD_REQUEST;
+            f->refused = LS_FIT_EMPTY;
+        }
         f->combinations *= v->nvalues;
     }
     return code;
@@ -2093,24 +2096,24 @@ static int search(fit_run *r)
 /* After the search: solve the written values again (the session's op as it
  * was), and make the run's code say so when that fails or when a candidate
  * ran short of memory (its error is in `scratch`, the candidates' diagnostics:
- * they are not what they seem).  Returns the run's code. */
-static int put_back(fit_run *r, int code, const ls_diags *scratch)
+ * they are not what they seem).  Returns the run's outcome. */
+static ls_outcome put_back(fit_run *r, ls_outcome code, const ls_diags *scratch)
 {
     ls_fit_study *f = r->f;
     double *start = r->scratch;
     for (int j = 0; start && j < f->nvars; j++)
         start[j] = f->vars[j].start;
     bool back = start && r->x0 && r->have_run0 && solve_at(r, start);
-    if (scratch->nomem > 0 && code == LS_FIT_OK)
-        code = LS_FIT_NOMEM;
+    if (scratch->nomem > 0 && code == LS_DONE)
+        code = LS_NO_MEMORY;
     if (scratch->nomem > 0)
         r->nomem = true;
-    if (code == LS_FIT_OK && !back)
-        code = r->nomem ? LS_FIT_NOMEM : LS_EXIT_UNSOLVABLE;
+    if (code == LS_DONE && !back)
+        code = r->nomem ? LS_NO_MEMORY : LS_UNSOLVABLE;
     return code;
 }
 
-int ls_fit_run(ls_fit_study *f)
+ls_outcome ls_fit_run(ls_fit_study *f)
 {
     f->vars = NULL;
     f->best = NULL;
@@ -2122,14 +2125,15 @@ int ls_fit_run(ls_fit_study *f)
     f->found = f->limit = NAN;
     f->limit_why = NULL;
     f->limit_solves = 0;
-    if (f->nl->nfrees == 0)
-        return LS_FIT_NOFREE;
-    if (f->nl->nfrees > LS_FIT_MAX_FREE)
-        return LS_FIT_TOOMANY;
+    f->refused = LS_FIT_SEARCHED;
+    if (f->nl->nfrees == 0 || f->nl->nfrees > LS_FIT_MAX_FREE) {
+        f->refused = f->nl->nfrees == 0 ? LS_FIT_NOFREE : LS_FIT_TOOMANY;
+        return LS_BAD_REQUEST;
+    }
     if (f->top < 1)
         f->top = 1;
-    int code = make_vars(f);
-    if (code != LS_FIT_OK)
+    ls_outcome code = make_vars(f);
+    if (code != LS_DONE)
         return code;
     fit_run r = {.f = f};
     r.cap_keep = f->top * 4 > 20 ? f->top * 4 : 20;
@@ -2139,14 +2143,14 @@ int ls_fit_run(ls_fit_study *f)
     ls_diags_init(&scratch, f->arena);
     ls_diags *kept = f->nl->diags;
     f->nl->diags = &scratch;   /* a candidate that does not solve is a candidate that fails, not an error */
-    code = LS_FIT_NOMEM;
+    code = LS_NO_MEMORY;
     const ls_solver_stats *ss = f->op->solver ? ls_solver_stats_of(f->op->solver) : NULL;
     long fact0 = ss ? ss->factorizations : 0, an0 = ss ? ss->analyses : 0;
     candidate_path(f, f->op, true);
     bool searched = r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0;
     candidate_path(f, f->op, false);
     if (searched && rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
-        code = LS_FIT_OK;
+        code = LS_DONE;
     f->factorizations = (ss ? ss->factorizations - fact0 : 0) + r.worker_factorizations;
     f->analyses = ss ? ss->analyses - an0 : 0;
     code = put_back(&r, code, &scratch);
@@ -2155,7 +2159,7 @@ int ls_fit_run(ls_fit_study *f)
     f->best = r.keep;
     f->nbest = r.nkeep;
     f->any_feasible = r.nkeep > 0 && r.keep[0].meets;
-    if (code != LS_FIT_OK) {
+    if (code != LS_DONE) {
         for (int i = 0; i < r.nkeep; i++)
             cand_free(&r.keep[i]);
         free(r.keep);

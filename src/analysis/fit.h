@@ -90,6 +90,14 @@ typedef struct ls_fit_var {
     double optimum;      /* the continuous optimum (NaN when no continuous stage ran) */
 } ls_fit_var;
 
+/* Why ls_fit_run did not search (its outcome is then LS_BAD_REQUEST). */
+typedef enum ls_fit_refusal {
+    LS_FIT_SEARCHED = 0,   /* it did search */
+    LS_FIT_NOFREE,         /* no part is free */
+    LS_FIT_EMPTY,          /* a free range holds no series value: vars says which */
+    LS_FIT_TOOMANY,        /* more than LS_FIT_MAX_FREE free parts */
+} ls_fit_refusal;
+
 typedef struct ls_fit_study {
     /* in */
     ls_netlist *nl;      /* solved through op; part values are put back on return */
@@ -139,17 +147,14 @@ typedef struct ls_fit_study {
     bool any_feasible;   /* best[0].meets */
     bool have_yield;     /* the finalists' yields were computed */
     long yield_trials;   /* trials per finalist (0: no part has tol=, so none were run) */
+    ls_fit_refusal refused;   /* with LS_BAD_REQUEST: why there was no search */
 } ls_fit_study;
 
-enum { LS_FIT_OK = 0, LS_FIT_NOMEM = -1, LS_FIT_NOFREE = -2, LS_FIT_EMPTY = -3, LS_FIT_TOOMANY = -4 };
-
-/* Run the search.  Returns LS_FIT_OK (whether or not a candidate is
- * feasible: see any_feasible), LS_FIT_NOFREE (no part is free), LS_FIT_EMPTY
- * (a free range holds no series value: vars says which), LS_FIT_TOOMANY (more
- * than LS_FIT_MAX_FREE free parts), LS_FIT_NOMEM, or LS_EXIT_UNSOLVABLE when
- * the circuit no longer solves at its written values.  Free the outputs with
- * ls_fit_free in every case. */
-int ls_fit_run(ls_fit_study *f);
+/* Run the search.  Returns LS_DONE (whether or not a candidate is feasible:
+ * see any_feasible), LS_BAD_REQUEST when it cannot search (refused says
+ * why), LS_NO_MEMORY, or LS_UNSOLVABLE when the circuit no longer solves at
+ * its written values.  Free the outputs with ls_fit_free in every case. */
+ls_outcome ls_fit_run(ls_fit_study *f);
 
 /* Release vars and best (the inputs are the caller's). */
 void ls_fit_free(ls_fit_study *f);

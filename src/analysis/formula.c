@@ -375,13 +375,13 @@ static void note(fx *F, const char *fmt, ...)
         F->nnotes++;
 }
 
-static int too_big_error(fx *F, const char *why)
+static ls_outcome too_big_error(fx *F, const char *why)
 {
     ls_error(F->d, LS_NOLOC,
              "formula: the circuit is too large for an exact formula (%s; limits: %d symbols, %d unknowns, "
              "%d terms); keep fewer symbols with --symbols NAME,... and the rest become numbers",
              why, LS_FORMULA_MAX_SYMBOLS, LS_FORMULA_MAX_UNKNOWNS, LS_FORMULA_MAX_TERMS);
-    return LS_EXIT_USAGE;
+    return LS_BAD_REQUEST;
 }
 
 /* ---- which values are symbols ----------------------------------------------------------- */
@@ -533,8 +533,8 @@ static bool add_sym(fx *F, const char *name, int part, bool gain)
     return true;
 }
 
-/* Choose the symbols from --symbols or the defaults.  Returns an exit code. */
-static int choose_symbols(fx *F)
+/* Choose the symbols from --symbols or the defaults.  Returns the outcome. */
+static ls_outcome choose_symbols(fx *F)
 {
     enum { CAP = 256 };
     const char *names[CAP];
@@ -543,15 +543,15 @@ static int choose_symbols(fx *F)
     if (F->req->symbols) {
         list = strdup(F->req->symbols);
         if (!list)
-            return LS_EXIT_UNSOLVABLE;
+            return LS_NO_MEMORY;
         n = 0;
         for (char *save = NULL, *t = strtok_r(list, ", ", &save); t && n < CAP; t = strtok_r(NULL, ", ", &save))
             names[n++] = t;
     } else {
         n = default_symbols(F, names, CAP);
     }
-    int code = LS_EXIT_OK;
-    for (int i = 0; i < n && i < CAP && code == LS_EXIT_OK; i++) {
+    ls_outcome code = LS_DONE;
+    for (int i = 0; i < n && i < CAP && code == LS_DONE; i++) {
         int part = ls_netlist_find_part(F->nl, names[i]);
         const char *name = names[i];
         if (part >= 0 && has_symbolic_value(&F->nl->parts[part], &F->op->run)) {
@@ -559,12 +559,12 @@ static int choose_symbols(fx *F)
         } else if (part >= 0) {
             ls_error(F->d, LS_NOLOC, "formula: --symbols: part '%s' (%s) has no main value that can be a symbol",
                      names[i], F->nl->parts[part].kind->name);
-            code = LS_EXIT_USAGE;
+            code = LS_BAD_REQUEST;
             break;
         } else if (!isfinite(let_value(F, names[i]))) {
             ls_error(F->d, LS_NOLOC, "formula: --symbols: '%s' is neither a part with a value nor a top-level let",
                      names[i]);
-            code = LS_EXIT_USAGE;
+            code = LS_BAD_REQUEST;
             break;
         } else {
             part = -1;
@@ -577,10 +577,10 @@ static int choose_symbols(fx *F)
             break;
         }
     }
-    if (code == LS_EXIT_OK && n > CAP)
+    if (code == LS_DONE && n > CAP)
         code = too_big_error(F, "too many symbols");
     /* --ideal: every finite gain is a symbol of its own, taken to infinity at the end. */
-    for (int i = 0; i < F->nl->nparts && code == LS_EXIT_OK && F->req->ideal; i++)
+    for (int i = 0; i < F->nl->nparts && code == LS_DONE && F->req->ideal; i++)
         if (is_gain(&F->nl->parts[i]) && exact_kind(&F->nl->parts[i], &F->op->run))
             if (!add_sym(F, F->nl->parts[i].name, i, true))
                 code = too_big_error(F, "too many symbols (every finite op-amp gain counts under --ideal)");
@@ -1313,16 +1313,20 @@ static int solve_form(fx *F, const sys *S, const lform *l, int unit, rf *out)
 {
     int n = S->n, m = n + 1;
     fmpq_mpoly_struct *M = flint_malloc(sizeof *M * (size_t)m * (size_t)m);
-    if (!M)
+    rf *row = malloc(sizeof *row * (size_t)m);
+    if (!M || !row) {
+        flint_free(M);
+        free(row);
+        F->nomem = true;
         return -1;
+    }
     for (int i = 0; i < m * m; i++)
         fmpq_mpoly_init(M + i, F->ctx);
-    fmpq_mpoly_t L, det;
+    fmpq_mpoly_t L, det, Lc;
     fmpq_mpoly_init(L, F->ctx);
     fmpq_mpoly_init(det, F->ctx);
-    rf *row = malloc(sizeof *row * (size_t)m);
-    int rc = row ? 0 : -1;
-    for (int i = 0; i < n && rc == 0; i++) {
+    fmpq_mpoly_init(Lc, F->ctx);
+    for (int i = 0; i < n; i++) {
         /* row i of [A rhs], scaled by the lcm of its denominators */
         for (int j = 0; j < n; j++)
             row[j] = S->a[i * n + j];
@@ -1338,14 +1342,10 @@ static int solve_form(fx *F, const sys *S, const lform *l, int unit, rf *out)
         if (unit >= 0)
             rf_clear(F, &row[n]);
     }
-    fmpq_mpoly_t Lc;
-    fmpq_mpoly_init(Lc, F->ctx);
-    if (rc == 0) {
-        lcm_dens(F, l->c, n, 1, Lc);
-        for (int j = 0; j < n; j++)
-            scale_entry(F, M + (size_t)n * m + j, &l->c[j], Lc);
-        rc = F->too_big ? -1 : bareiss(F, M, m, n, det);
-    }
+    lcm_dens(F, l->c, n, 1, Lc);
+    for (int j = 0; j < n; j++)
+        scale_entry(F, M + (size_t)n * m + j, &l->c[j], Lc);
+    int rc = F->too_big ? -1 : bareiss(F, M, m, n, det);
     if (rc == 0) {
         /* c^T x = -det(B) / det(A), then / Lc + c0 */
         rf r;
@@ -1378,30 +1378,30 @@ static bool depends_on(fx *F, const rf *a, int var)
 /* A linear form in the system with part `removed` opened (-1: the circuit as
  * it is); unit >= 0: the right-hand side is a unit current into that unknown.
  * An opened port whose other side is left with no DC path gets a tie to ground
- * at `tie_node`, and the answer must not depend on it.  Returns an exit code;
+ * at `tie_node`, and the answer must not depend on it.  Returns the outcome;
  * *why is set for a quantity with no finite formula. */
-static int solve_in(fx *F, int removed, int tie_node, const lform *l, int unit, rf *out, const char **why)
+static ls_outcome solve_in(fx *F, int removed, int tie_node, const lform *l, int unit, rf *out, const char **why)
 {
     for (int attempt = 0; attempt < 2; attempt++) {
         sys S;
         if (build(F, &S, removed, attempt ? tie_node : 0) != 0)
-            return LS_EXIT_UNSOLVABLE;
+            return LS_NO_MEMORY;
         int rc = F->too_big ? -1 : solve_form(F, &S, l, unit, out);
         sys_free(F, &S);
         if (rc < 0)
-            return F->too_big ? too_big_error(F, F->too_big_why) : LS_EXIT_UNSOLVABLE;
+            return F->too_big ? too_big_error(F, F->too_big_why) : F->nomem ? LS_NO_MEMORY : LS_UNSOLVABLE;
         if (rc == 0) {
             if (attempt && depends_on(F, out, F->tie)) {
                 *why = "it depends on a node the opened port leaves with no DC path";
-                return LS_EXIT_USAGE;
+                return LS_BAD_REQUEST;
             }
-            return LS_EXIT_OK;
+            return LS_DONE;
         }
         if (removed < 0 || tie_node <= 0)
             break;
     }
     *why = removed < 0 ? "the system is singular" : "a node has no DC path to ground with the port open (unbounded)";
-    return removed < 0 ? LS_EXIT_UNSOLVABLE : LS_EXIT_USAGE;
+    return removed < 0 ? LS_UNSOLVABLE : LS_BAD_REQUEST;
 }
 
 /* Voltage of node `node` (0: ground) as a linear form. */
@@ -1411,21 +1411,21 @@ static void node_form(fx *F, lform *l, int node, int sign)
         lf_add_si(F, l, ls_node_unknown(node), sign);
 }
 
-static int q_rf(fx *F, const ls_q *q, rf *out, const char *text);
+static ls_outcome q_rf(fx *F, const ls_q *q, rf *out, const char *text);
 
-static int port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text);
-static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text);
+static ls_outcome port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text);
+static ls_outcome port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text);
 
 /* The fields of a mode=current port: `open` is the current the driver
  * delivers into a short to ground with the load side disconnected, which for
  * the (linearized) network is its open voltage over zout (Norton); `loaded`
  * the port's current; `sag` their difference (A); `ratio` zout / zin. */
-static int current_port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
+static ls_outcome current_port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
     rf a, b;
     rf_init(F, &a);
     rf_init(F, &b);
-    int code = LS_EXIT_OK;
+    ls_outcome code = LS_DONE;
     const char *why = NULL;
     switch (prop) {
     case PROP_LOADED: {
@@ -1435,7 +1435,7 @@ static int current_port_prop(fx *F, int part, ls_prop prop, rf *out, const char 
             lf_add_si(F, &l, F->nl->parts[part].branch, 1);
             code = solve_in(F, -1, 0, &l, -1, out, &why);
         } else {
-            code = LS_EXIT_UNSOLVABLE;
+            code = LS_NO_MEMORY;
         }
         lform_clear(F, &l);
         break;
@@ -1443,26 +1443,26 @@ static int current_port_prop(fx *F, int part, ls_prop prop, rf *out, const char 
     case PROP_OPEN:
         /* the voltage-mode open and zout of the same connection */
         code = port_prop_voltage(F, part, PROP_OPEN, &a, text);
-        if (code == LS_EXIT_OK)
+        if (code == LS_DONE)
             code = port_prop_voltage(F, part, PROP_ZOUT, &b, text);
-        if (code == LS_EXIT_OK && !rf_div(F, out, &a, &b))
+        if (code == LS_DONE && !rf_div(F, out, &a, &b))
             why = "zout is zero (the short-circuit current is unbounded)";
         break;
     case PROP_SAG:
     case PROP_SAG_REL:
         code = current_port_prop(F, part, PROP_OPEN, &a, text);
-        if (code == LS_EXIT_OK)
+        if (code == LS_DONE)
             code = current_port_prop(F, part, PROP_LOADED, &b, text);
-        if (code == LS_EXIT_OK)
+        if (code == LS_DONE)
             rf_addsub(F, out, &a, &b, -1);
-        if (code == LS_EXIT_OK && prop == PROP_SAG_REL && !rf_div(F, out, out, &a))
+        if (code == LS_DONE && prop == PROP_SAG_REL && !rf_div(F, out, out, &a))
             why = "the short-circuit current is zero";
         break;
     case PROP_RATIO:
         code = port_prop_voltage(F, part, PROP_ZOUT, &a, text);
-        if (code == LS_EXIT_OK)
+        if (code == LS_DONE)
             code = port_prop_voltage(F, part, PROP_ZIN, &b, text);
-        if (code == LS_EXIT_OK && !rf_div(F, out, &a, &b))
+        if (code == LS_DONE && !rf_div(F, out, &a, &b))
             why = "zin is zero";
         break;
     default:
@@ -1471,7 +1471,7 @@ static int current_port_prop(fx *F, int part, ls_prop prop, rf *out, const char 
     }
     if (why) {
         ls_error(F->d, F->qloc, "formula: '%s' has no finite formula: %s", text, why);
-        code = LS_EXIT_USAGE;
+        code = LS_BAD_REQUEST;
     }
     rf_clear(F, &a);
     rf_clear(F, &b);
@@ -1479,7 +1479,7 @@ static int current_port_prop(fx *F, int part, ls_prop prop, rf *out, const char 
 }
 
 /* A port's field as the spec defines it (the other ports connected). */
-static int port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
+static ls_outcome port_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
     const ls_part *p = &F->nl->parts[part];
     if (ls_part_has(p, ls_kind_opt(p->kind, "mode")) && opt(p, "mode", 0) != 0)
@@ -1500,28 +1500,28 @@ static bool port_load_held(fx *F, int part)
  * held at its loaded voltage (the load node's voltage in the whole circuit,
  * itself a formula), the driver side free.  For zout (unit >= 0) the held
  * voltage is an independent source and drops out with the rhs. */
-static int held_solve(fx *F, int part, const lform *l, int unit, rf *out, const char **why)
+static ls_outcome held_solve(fx *F, int part, const lform *l, int unit, rf *out, const char **why)
 {
     const ls_part *p = &F->nl->parts[part];
     rf v;
     rf_init(F, &v);
-    int code = LS_EXIT_OK;
+    ls_outcome code = LS_DONE;
     if (unit < 0) {
         lform lv;
         lform_init(F, &lv);
         if (!lv.c)
-            code = LS_EXIT_UNSOLVABLE;
-        if (code == LS_EXIT_OK) {
+            code = LS_NO_MEMORY;
+        if (code == LS_DONE) {
             node_form(F, &lv, p->pin[1], 1);
             code = solve_in(F, -1, 0, &lv, -1, &v, why);
         }
         lform_clear(F, &lv);
     }
-    if (code == LS_EXIT_OK) {
+    if (code == LS_DONE) {
         F->hold = &v;
         code = solve_in(F, part, 0, l, unit, out, why);
         F->hold = NULL;
-        if (code != LS_EXIT_OK && *why)
+        if (code != LS_DONE && *why)
             *why = "with the load side held at its loaded voltage the driver side has no DC solution";
     }
     rf_clear(F, &v);
@@ -1530,20 +1530,20 @@ static int held_solve(fx *F, int part, const lform *l, int unit, rf *out, const 
 
 /* zout (at the driver) or zin (at the load) of port part opened, through
  * linear form l (empty, made by the caller): 0 at ground; unbounded (*why)
- * for zin of a held load side.  LS_EXIT_OK, or an exit code. */
-static int port_z(fx *F, int part, ls_prop prop, bool held, lform *l, rf *out, const char **why)
+ * for zin of a held load side.  LS_DONE, or the outcome after reporting why. */
+static ls_outcome port_z(fx *F, int part, ls_prop prop, bool held, lform *l, rf *out, const char **why)
 {
     const ls_part *p = &F->nl->parts[part];
     int dn = p->pin[0], ln = p->pin[1];
     int node = prop == PROP_ZOUT ? dn : ln;
     if (node <= 0) {
         rf_set_si(F, out, 0);
-        return LS_EXIT_OK;
+        return LS_DONE;
     }
     if (held && prop == PROP_ZIN) {
         *why = "the load side has no DC path of its own with the port open (it is held at its loaded voltage), "
                "so zin is unbounded";
-        return LS_EXIT_OK;
+        return LS_DONE;
     }
     node_form(F, l, node, 1);
     if (held)
@@ -1553,21 +1553,21 @@ static int port_z(fx *F, int part, ls_prop prop, bool held, lform *l, rf *out, c
 
 /* A field of port `part` made of two others: sag (open - loaded), the
  * relative sag (that over open) or the ratio (zin / zout), into out; *why
- * set when it has no finite formula.  An exit code. */
-static int port_pair(fx *F, int part, ls_prop prop, rf *out, const char *text, const char **why)
+ * set when it has no finite formula.  The outcome. */
+static ls_outcome port_pair(fx *F, int part, ls_prop prop, rf *out, const char *text, const char **why)
 {
     bool sag = prop == PROP_SAG || prop == PROP_SAG_REL;
     rf a, b;
     rf_init(F, &a);
     rf_init(F, &b);
-    int code = port_prop_voltage(F, part, sag ? PROP_OPEN : PROP_ZIN, &a, text);
-    if (code == LS_EXIT_OK)
+    ls_outcome code = port_prop_voltage(F, part, sag ? PROP_OPEN : PROP_ZIN, &a, text);
+    if (code == LS_DONE)
         code = port_prop_voltage(F, part, sag ? PROP_LOADED : PROP_ZOUT, &b, text);
-    if (code == LS_EXIT_OK && sag)
+    if (code == LS_DONE && sag)
         rf_addsub(F, out, &a, &b, -1);
-    if (code == LS_EXIT_OK && prop == PROP_SAG_REL && !rf_div(F, out, out, &a))
+    if (code == LS_DONE && prop == PROP_SAG_REL && !rf_div(F, out, out, &a))
         *why = "the open voltage is zero";
-    if (code == LS_EXIT_OK && prop == PROP_RATIO && !rf_div(F, out, &a, &b))
+    if (code == LS_DONE && prop == PROP_RATIO && !rf_div(F, out, &a, &b))
         *why = "zout is zero";
     rf_clear(F, &a);
     rf_clear(F, &b);
@@ -1575,18 +1575,18 @@ static int port_pair(fx *F, int part, ls_prop prop, rf *out, const char *text, c
 }
 
 /* The fields of a voltage-mode port (and zout, zin, open voltage of any). */
-static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text)
+static ls_outcome port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
     const ls_part *p = &F->nl->parts[part];
     bool held = port_load_held(F, part);
     int dn = p->pin[0], ln = p->pin[1];
     const char *why = NULL;
-    int code = LS_EXIT_OK;
+    ls_outcome code = LS_DONE;
     lform l;
     lform_init(F, &l);
     if (!l.c) {
         lform_clear(F, &l);   /* c0 was made even when c was not */
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     switch (prop) {
     case PROP_LOADED:
@@ -1604,11 +1604,11 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
     case PROP_RATIO: code = port_pair(F, part, prop, out, text, &why); break;
     default:
         why = "formula does not treat this property";
-        code = LS_EXIT_USAGE;
+        code = LS_BAD_REQUEST;
         break;
     }
-    if (why && code == LS_EXIT_OK)
-        code = LS_EXIT_USAGE;
+    if (why && code == LS_DONE)
+        code = LS_BAD_REQUEST;
     if (why)
         ls_error(F->d, F->qloc, "formula: '%s' has no finite formula: %s", text, why);
     lform_clear(F, &l);
@@ -1616,7 +1616,7 @@ static int port_prop_voltage(fx *F, int part, ls_prop prop, rf *out, const char 
 }
 
 /* Part property: current, voltage (as the kind reads it), power. */
-static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
+static ls_outcome part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
 {
     const ls_part *p = &F->nl->parts[part];
     const char *why = NULL;
@@ -1626,14 +1626,14 @@ static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
     if (!lc.c || !lv.c) {
         lform_clear(F, &lc);
         lform_clear(F, &lv);
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     int plus, minus;
     ls_part_vnodes(p, &plus, &minus);
     node_form(F, &lv, plus, 1);
     node_form(F, &lv, minus, -1);
     part_lform(F, part, &lc, 0);
-    int code;
+    ls_outcome code;
     if (prop == PROP_CURRENT) {
         code = solve_in(F, -1, 0, &lc, -1, out, &why);
     } else if (prop == PROP_VOLTAGE) {
@@ -1641,15 +1641,15 @@ static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
     } else if (ls_part_power_sign(p) == 0) {
         why = "its power is not its voltage times its current (a track's: both segments; an op-amp's: its "
                   "inputs and supply rails too)";
-        code = LS_EXIT_USAGE;
+        code = LS_BAD_REQUEST;
     } else {
         /* power absorbed: the voltage times the current, signed as the kind reads its voltage */
         rf i;
         rf_init(F, &i);
         code = solve_in(F, -1, 0, &lc, -1, &i, &why);
-        if (code == LS_EXIT_OK)
+        if (code == LS_DONE)
             code = solve_in(F, -1, 0, &lv, -1, out, &why);
-        if (code == LS_EXIT_OK) {
+        if (code == LS_DONE) {
             if (ls_part_power_sign(p) < 0)
                 rf_neg(F, out, out);
             rf_mul(F, out, out, &i);
@@ -1664,13 +1664,13 @@ static int part_prop(fx *F, int part, ls_prop prop, rf *out, const char *text)
 }
 
 /* ---- the exact domain of ls_q_walk: fractions of polynomials in the symbols ------------------- */
-/* Every operation returns LS_EXIT_OK, or an exit code after reporting why
- * against the quantity's text (F->qtext). */
+/* Every operation returns LS_DONE, or another ls_outcome (as the walk's int
+ * code) after reporting why against the quantity's text (F->qtext). */
 
 static int rq_init(void *fv, void *v)
 {
     rf_init(fv, v);
-    return LS_EXIT_OK;
+    return LS_DONE;
 }
 
 static void rq_clear(void *fv, void *v)
@@ -1683,16 +1683,16 @@ static int rq_accepts(void *fv, const ls_q *q)
 {
     fx *F = fv;
     if (q->kind != Q_CALL)
-        return LS_EXIT_OK;
+        return LS_DONE;
     ls_error(F->d, F->qloc, "formula: '%s' uses a function (sqrt, abs, min, max, exp, ln, log10), "
              "which has no rational formula", F->qtext);
-    return LS_EXIT_USAGE;
+    return LS_BAD_REQUEST;
 }
 
 static int rq_const(void *fv, const ls_q *q, void *out)
 {
     rf_set_double(fv, out, q->value);
-    return LS_EXIT_OK;
+    return LS_DONE;
 }
 
 static int rq_node(void *fv, const ls_q *q, void *out)
@@ -1702,7 +1702,7 @@ static int rq_node(void *fv, const ls_q *q, void *out)
     lform_init(F, &l);
     if (!l.c) {
         lform_clear(F, &l);   /* c0 was made even when c was not */
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     const char *why = NULL;
     node_form(F, &l, q->index, 1);
@@ -1718,7 +1718,7 @@ static int rq_prop(void *fv, const ls_q *q, void *out)
     fx *F = fv;
     if (q->prop == PROP_VALUE) {
         rf_set(F, out, &F->pval[q->index]);
-        return LS_EXIT_OK;
+        return LS_DONE;
     }
     if (q->prop == PROP_CURRENT || q->prop == PROP_VOLTAGE || q->prop == PROP_POWER)
         return part_prop(F, q->index, q->prop, out, F->qtext);
@@ -1726,14 +1726,14 @@ static int rq_prop(void *fv, const ls_q *q, void *out)
         return port_prop(F, q->index, q->prop, out, F->qtext);
     ls_error(F->d, F->qloc, "formula: '%s': formula does not treat the property '%s'", F->qtext,
              ls_prop_name(q->prop));
-    return LS_EXIT_USAGE;
+    return LS_BAD_REQUEST;
 }
 
 static int rq_neg(void *fv, const ls_q *q, void *a)
 {
     (void)q;
     rf_neg(fv, a, a);
-    return LS_EXIT_OK;
+    return LS_DONE;
 }
 
 /* A whole constant power up to 16, so the result stays a fraction. */
@@ -1770,9 +1770,9 @@ static int rq_binop(void *fv, const ls_q *q, void *av, const void *bv)
     if (!ok) {
         ls_error(F->d, F->qloc, "formula: '%s' has no finite formula (a division by zero, or a "
                  "power that is not a whole constant)", F->qtext);
-        return LS_EXIT_USAGE;
+        return LS_BAD_REQUEST;
     }
-    return F->too_big ? too_big_error(F, F->too_big_why) : LS_EXIT_OK;
+    return F->too_big ? too_big_error(F, F->too_big_why) : LS_DONE;
 }
 
 /* Never reached: rq_accepts turns every call away. */
@@ -1780,7 +1780,7 @@ static int rq_call(void *fv, const ls_q *q, void *const *args, void *out)
 {
     (void)fv, (void)q, (void)args, (void)out;
     assert(!"formula takes no function call");
-    return LS_EXIT_USAGE;
+    return LS_BAD_REQUEST;
 }
 
 static const ls_qdomain exact_domain = {
@@ -1789,13 +1789,13 @@ static const ls_qdomain exact_domain = {
     .neg = rq_neg, .binop = rq_binop, .call = rq_call,
 };
 
-/* The exact formula of q into out (made by the caller).  LS_EXIT_OK, or an
- * exit code after reporting why. */
-static int q_rf(fx *F, const ls_q *q, rf *out, const char *text)
+/* The exact formula of q into out (made by the caller).  LS_DONE, or the
+ * outcome after reporting why. */
+static ls_outcome q_rf(fx *F, const ls_q *q, rf *out, const char *text)
 {
     F->qtext = text;
-    int code = ls_q_walk(&exact_domain, F, q, out);
-    return code < 0 ? LS_EXIT_UNSOLVABLE : code;
+    int code = ls_q_walk(&exact_domain, F, q, out);   /* an ls_outcome of the operations, or -1 */
+    return code < 0 ? LS_NO_MEMORY : (ls_outcome)code;
 }
 
 /* ---- --ideal: every finite gain to infinity --------------------------------------------------- */
@@ -2493,6 +2493,8 @@ static bool text_reads_back(fx *F, const char *text, double want, double *got_ou
     ls_diags_init(&d, &a);
     ls_expr *e = ls_parse_expr_string(&d, "formula", text, true);
     double got = e ? eval_text_expr(F, &d, e) : NAN;
+    if (a.failed || d.nomem || d.lost)
+        F->nomem = true;   /* not read back for want of memory: no fault of the text */
     ls_diags_free(&d);
     ls_arena_free(&a);
     *got_out = got;
@@ -2792,7 +2794,7 @@ static char *best_text(fx *F, rf *a, int depth)
 }
 
 /* Fill res's texts from the final rational function. */
-static int write_texts(fx *F, rf *a, ls_formula_result *res)
+static ls_outcome write_texts(fx *F, rf *a, ls_formula_result *res)
 {
     integral(F, a);
     char *num = poly_text(F, a->n, false), *den = poly_text(F, a->d, false);
@@ -2803,7 +2805,7 @@ static int write_texts(fx *F, rf *a, ls_formula_result *res)
     if (!num || !den || !res->expression) {
         free(num);
         free(den);
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     /* the numerator and denominator each as the shorter of factored and expanded */
     rf part;
@@ -2823,7 +2825,7 @@ static int write_texts(fx *F, rf *a, ls_formula_result *res)
         }
     }
     rf_clear(F, &part);
-    return F->nomem ? LS_EXIT_UNSOLVABLE : LS_EXIT_OK;
+    return F->nomem ? LS_NO_MEMORY : LS_DONE;
 }
 
 /* The symbols the final formula uses, in order. */
@@ -2867,8 +2869,8 @@ static void mark_exact_parts(fx *F)
 
 /* The self-check of formula a of q, at the file's numbers (the gains as
  * given) against the solver: res->solve, finite_value, bound and difference.
- * LS_EXIT_OK, or LS_EXIT_UNSOLVABLE after saying by how much they differ. */
-static int self_check(fx *F, const ls_q *q, rf *a, const char *text, ls_formula_result *res)
+ * LS_DONE, or LS_UNSOLVABLE after saying by how much they differ. */
+static ls_outcome self_check(fx *F, const ls_q *q, rf *a, const char *text, ls_formula_result *res)
 {
     /* the self-check, on the formula with the file's gains */
     res->solve = ls_q_eval(F->op, q);
@@ -2899,15 +2901,15 @@ static int self_check(fx *F, const ls_q *q, rf *a, const char *text, ls_formula_
                  diff <= solver_bound ? "; the difference is within the solver's own error bound for this system "
                                         "(4 eps / rcond), so the solver's value is the likelier to be off"
                                       : "");
-        return LS_EXIT_UNSOLVABLE;
+        return LS_UNSOLVABLE;
     }
     res->difference = diff;
-    return LS_EXIT_OK;
+    return LS_DONE;
 }
 
 /* --ideal: every finite op-amp gain a depends on taken to infinity, in a.
- * LS_EXIT_OK, or LS_EXIT_USAGE when a grows without bound. */
-static int ideal_limit(fx *F, rf *a, const char *text, ls_formula_result *res)
+ * LS_DONE, or LS_BAD_REQUEST when a grows without bound. */
+static ls_outcome ideal_limit(fx *F, rf *a, const char *text, ls_formula_result *res)
 {
     for (int v = 0; v < F->nsym; v++) {
         if (!F->sym[v].gain || !depends_on(F, a, v))
@@ -2916,16 +2918,16 @@ static int ideal_limit(fx *F, rf *a, const char *text, ls_formula_result *res)
         if (!limit_inf(F, a, v)) {
             ls_error(F->d, F->qloc, "formula: '%s' grows without bound as the gain of %s goes to infinity; "
                      "no ideal formula", text, F->sym[v].name);
-            return LS_EXIT_USAGE;
+            return LS_BAD_REQUEST;
         }
     }
-    return LS_EXIT_OK;
+    return LS_DONE;
 }
 
-static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
+static ls_outcome run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
 {
-    int code = choose_symbols(F);
-    if (code != LS_EXIT_OK)
+    ls_outcome code = choose_symbols(F);
+    if (code != LS_DONE)
         return code;
     F->tie = F->nsym;
     fmpq_mpoly_ctx_init(F->ctx, F->nsym + 1, ORD_DEGREVLEX);
@@ -2933,7 +2935,7 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
     F->pval = calloc((size_t)F->nl->nparts + 1, sizeof *F->pval);
     F->pexact = calloc((size_t)F->nl->nparts + 1, sizeof *F->pexact);
     if (!F->pval || !F->pexact)
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     for (int i = 0; i < F->nl->nparts; i++)
         rf_init(F, &F->pval[i]);
     symbol_values(F);
@@ -2942,44 +2944,48 @@ static int run(fx *F, const ls_q *q, const char *text, ls_formula_result *res)
     rf a;
     rf_init(F, &a);
     code = q_rf(F, q, &a, text);
-    if (code == LS_EXIT_OK && F->too_big)
+    if (code == LS_DONE && F->too_big)
         code = too_big_error(F, F->too_big_why);
-    if (code != LS_EXIT_OK) {
+    if (code != LS_DONE) {
         rf_clear(F, &a);
         return code;
     }
     code = self_check(F, q, &a, text, res);
-    if (code == LS_EXIT_OK && F->req->ideal)
+    if (code == LS_DONE && F->req->ideal)
         code = ideal_limit(F, &a, text, res);
-    if (code != LS_EXIT_OK) {
+    if (code != LS_DONE) {
         rf_clear(F, &a);
         return code;
     }
     res->value = rf_eval_d(F, &a);
     if (F->req->ideal)
         res->difference = rel_difference(F, q, res->value, res->solve);
-    code = list_symbols(F, &a, res) == 0 ? write_texts(F, &a, res) : LS_EXIT_UNSOLVABLE;
+    code = list_symbols(F, &a, res) == 0 ? write_texts(F, &a, res) : LS_NO_MEMORY;
     rf_clear(F, &a);
-    if (code == LS_EXIT_OK && F->too_big)
+    if (code == LS_DONE && F->too_big)
         code = too_big_error(F, F->too_big_why);
     double got = NAN;
-    if (code == LS_EXIT_OK && (!text_reads_back(F, res->expression, res->value, &got))) {
-        ls_error(F->d, LS_NOLOC, "formula: internal error: the printed formula '%s' does not read back to %.17g "
-                 "(it reads %.17g)", res->expression, res->value, got);
-        code = LS_EXIT_UNSOLVABLE;
+    if (code == LS_DONE && !text_reads_back(F, res->expression, res->value, &got)) {
+        if (F->nomem) {
+            code = LS_NO_MEMORY;   /* it could not be read for want of memory */
+        } else {
+            ls_error(F->d, LS_NOLOC, "formula: internal error: the printed formula '%s' does not read back to "
+                     "%.17g (it reads %.17g)", res->expression, res->value, got);
+            code = LS_UNSOLVABLE;
+        }
     }
     return code;
 }
 
-int ls_formula(ls_op *op, const ls_program *prog, const ls_q *q, const ls_formula_req *req,
-               ls_formula_result *res, ls_diags *d)
+ls_outcome ls_formula(ls_op *op, const ls_program *prog, const ls_q *q, const ls_formula_req *req,
+                      ls_formula_result *res, ls_diags *d)
 {
     memset(res, 0, sizeof *res);
     res->ideal = req->ideal;
     res->value = res->solve = res->finite_value = NAN;
     fx F = {.op = op, .nl = op->nl, .prog = prog, .d = d, .qloc = q->loc, .req = req, .n = op->mna.n};
     const char *text = req->quantity ? req->quantity : "the quantity";
-    int code;
+    ls_outcome code;
     if (F.n > LS_FORMULA_MAX_UNKNOWNS) {
         char why[96];
         snprintf(why, sizeof why, "%d unknowns", F.n);

@@ -46,12 +46,13 @@ typedef struct ls_formula_result {
  * prog is the circuit's syntax tree (part values are read from it so that
  * `4k7`, `1%` and expressions of lets stay exact and lets stay symbols) or
  * NULL (values then come from the netlist's numbers).  Errors and notes go to
- * d.  Returns LS_EXIT_OK, LS_EXIT_USAGE (bad --symbols, a quantity with no
- * formula, or a circuit past the size limits) or LS_EXIT_UNSOLVABLE (singular
- * system, or the self-check failed).  The caller frees res with
- * ls_formula_result_free, whatever the result. */
-int ls_formula(ls_op *op, const ls_program *prog, const ls_q *q, const ls_formula_req *req,
-               ls_formula_result *res, ls_diags *d);
+ * d.  Returns LS_DONE, LS_BAD_REQUEST (bad --symbols, a quantity with no
+ * formula, or a circuit past the size limits), LS_UNSOLVABLE (singular
+ * system, or the self-check failed) or LS_NO_MEMORY (not always with an
+ * error in d).  The caller frees res with ls_formula_result_free, whatever
+ * the result. */
+ls_outcome ls_formula(ls_op *op, const ls_program *prog, const ls_q *q, const ls_formula_req *req,
+                      ls_formula_result *res, ls_diags *d);
 void ls_formula_result_free(ls_formula_result *res);
 
 #endif

@@ -1827,7 +1827,7 @@ static int sag_resolve(ls_op *op, int node, ls_sag_item *it, const ls_runs *base
         it->resolved = true;
         it->floats = node > 0 && v.floating[node];
         it->without = NAN;
-        if (!it->floats && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
+        if (!it->floats && ls_variant_solve(&v, op, false) == LS_DONE) {
             it->without = v.op.v[node];
             /* name what the exact solve ended at, not what the estimate crossed */
             char now[sizeof it->limit];

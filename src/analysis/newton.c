@@ -487,7 +487,7 @@ static void report_noconv(ls_op *op, const bool *moving)
                       : "");
 }
 
-int ls_newton_solve(ls_op *op)
+ls_outcome ls_newton_solve(ls_op *op)
 {
     const ls_netlist *nl = op->nl;
     bool *moving = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *moving);
@@ -497,7 +497,7 @@ int ls_newton_solve(ls_op *op)
         saved_free(&start);
         ls_error(nl->diags, LS_NOLOC, "out of memory in the operating-point iteration");
         op->nomem = true;
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     set_shunt(&op->run, 0);
     run_status r = run(op, NEWTON_MAX, moving);
@@ -520,21 +520,21 @@ int ls_newton_solve(ls_op *op)
     }
     if (r == RUN_OK)
         r = polish(op, moving);
-    int code = LS_EXIT_OK;
+    ls_outcome code = LS_DONE;
     if (r == RUN_OK) {
         if (beyond_check(op))
-            code = LS_EXIT_UNSOLVABLE;
+            code = LS_UNSOLVABLE;
     } else if (r == RUN_NOCONV) {
         if (!beyond_check(op))
             report_noconv(op, moving);
-        code = LS_EXIT_UNSOLVABLE;
+        code = LS_UNSOLVABLE;
     } else if (r == RUN_SINGULAR) {
         ls_op_report_singular(op, ls_solver_stats_of(op->solver)->bad_column);
-        code = LS_EXIT_UNSOLVABLE;
+        code = LS_UNSOLVABLE;
     } else {
         ls_error(nl->diags, LS_NOLOC, "out of memory in the operating-point iteration");
         op->nomem = true;
-        code = LS_EXIT_UNSOLVABLE;
+        code = LS_NO_MEMORY;
     }
     free(moving);
     saved_free(&start);

@@ -21,9 +21,9 @@ void ls_newton_init(ls_run *r);
 /* Iterate from op->x (the solution of the system stamped at the parts'
  * present states) until every part has settled and every op-amp limit is
  * consistent; on return op->x, op->v and the stamped system are those of the
- * solution.  LS_EXIT_OK, or LS_EXIT_UNSOLVABLE after reporting which parts
- * did not settle. */
-int ls_newton_solve(ls_op *op);
+ * solution.  LS_DONE, or LS_UNSOLVABLE after reporting which parts did not
+ * settle (LS_NO_MEMORY, with op->nomem, when memory ran out). */
+ls_outcome ls_newton_solve(ls_op *op);
 /* Is op->x, solved at the parts' present states, already what
  * ls_newton_solve would return: no nonlinear part, every limited op-amp's
  * state the one its solution asks for, every free op-amp with rails= probed?

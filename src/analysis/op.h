@@ -12,6 +12,7 @@
 
 #include <stdbool.h>
 
+#include "analysis/outcome.h"
 #include "mna/mna.h"
 #include "solve/solver.h"
 
@@ -115,9 +116,6 @@ typedef struct ls_op {
 /* "; the widest spread of values is resistor 'a' (...) against 'b' (...)",
  * or "" with fewer than two resistors: the usual cause of ill-conditioning. */
 void ls_widest_spread(const ls_netlist *nl, char *buf, size_t n);
-
-/* Exit codes of the program (cli.md). */
-enum { LS_EXIT_OK = 0, LS_EXIT_CHECK = 1, LS_EXIT_USAGE = 2, LS_EXIT_UNSOLVABLE = 3 };
 
 /* Solve A x = b (or A^T) in place with the op's factorization, refined. */
 int ls_op_solve_vec(ls_op *op, double *b, int transpose);

@@ -206,7 +206,7 @@ static double solve_mask(combos *c, uint64_t mask)
         c->nomem = true;
         return NAN;
     }
-    if (c->v.floating[c->node] || ls_variant_solve(&c->v, c->op, false) != LS_EXIT_OK) {
+    if (c->v.floating[c->node] || ls_variant_solve(&c->v, c->op, false) != LS_DONE) {
         c->nomem |= c->v.op.nomem;
         return NAN;
     }
@@ -416,7 +416,7 @@ static int open_every_port(ls_op *op, ls_sag_report *r, const ls_runs *base, boo
     }
     bool nonlinear = ls_newton_needed(op->nl);
     /* the exact alone first: every limit and junction free to move */
-    if (rc == 0 && ls_variant_solve(&v, op, !nonlinear) != LS_EXIT_OK) {
+    if (rc == 0 && ls_variant_solve(&v, op, !nonlinear) != LS_DONE) {
         r->why = nonlinear ? "with every port opened the circuit cannot be solved (its iteration does not settle)"
                            : "with every port opened the circuit has no DC solution";
         rc = v.op.nomem ? -1 : 1;
@@ -427,7 +427,7 @@ static int open_every_port(ls_op *op, ls_sag_report *r, const ls_runs *base, boo
         if (nonlinear && ls_states_differ(&v.op.run, base, &what))
             r->changed = what;
         ls_runs_restore(op, base);
-        if (nonlinear && ls_variant_solve(&v, op, true) != LS_EXIT_OK) {
+        if (nonlinear && ls_variant_solve(&v, op, true) != LS_DONE) {
             *no_z = true;
             rc = v.op.nomem ? -1 : 0;
         }

@@ -219,25 +219,25 @@ static bool shape_kept(const ls_sweeper *w)
     return true;
 }
 
-int ls_sweeper_solve(ls_sweeper *w, double x, bool fresh)
+ls_outcome ls_sweeper_solve(ls_sweeper *w, double x, bool fresh)
 {
     applied set = apply(w, x);
     if (set == APPLY_NOMEM) {   /* not a point to elaborate afresh: the study cannot go on */
         ls_error(w->nl->diags, LS_NOLOC, "out of memory setting the values of a sweep point");
         w->op.nomem = true;
         w->ready = false;
-        return LS_EXIT_UNSOLVABLE;
+        return LS_NO_MEMORY;
     }
     if (set != APPLIED) {
         w->ready = false;
-        return LS_SWEEP_REELABORATE;
+        return LS_REELABORATE;
     }
     if (!shape_kept(w)) {
         w->ready = false;
         w->restructured = true;
-        return LS_SWEEP_REELABORATE;
+        return LS_REELABORATE;
     }
-    int code;
+    ls_outcome code;
     if (fresh || !w->ready) {
         if (w->have_op)
             ls_op_free(&w->op);
@@ -247,12 +247,12 @@ int ls_sweeper_solve(ls_sweeper *w, double x, bool fresh)
         code = ls_op_solve(&w->op, w->nl, &o);
         /* the points after it change the parts the let reaches: when few
          * rows change, the factor may be kept and updated (solver.h) */
-        if (code == LS_EXIT_OK && w->op.solver && !ls_newton_needed(w->nl))
+        if (code == LS_DONE && w->op.solver && !ls_newton_needed(w->nl))
             ls_solver_allow_update(w->op.solver, &w->op.mna.a);
     } else if (ls_run_copy_study(&w->op.run, &w->point) != 0) {
         ls_error(w->nl->diags, LS_NOLOC, "out of memory setting the values of a sweep point");
         w->op.nomem = true;
-        code = LS_EXIT_UNSOLVABLE;
+        code = LS_NO_MEMORY;
     } else {
         /* only the parts the let reaches changed: in a linear circuit (no
          * states stamped) only their entries are restamped */
@@ -260,6 +260,6 @@ int ls_sweeper_solve(ls_sweeper *w, double x, bool fresh)
             ls_mna_expect_changes(&w->op.mna, w->deps->parts, w->deps->nparts);
         code = ls_op_resolve(&w->op);   /* numeric refactor, the analysis kept */
     }
-    w->ready = code == LS_EXIT_OK;
+    w->ready = code == LS_DONE;
     return code;
 }

@@ -28,10 +28,6 @@ void ls_sweep_points(double from, double to, int n, bool log_scale, double *x);
  * costs little beside the 7 that continue. */
 #define LS_SWEEP_CHAIN 8
 
-/* ls_sweeper_solve's answer when the point's values cannot be set without
- * elaborating again (the caller does that for this point). */
-#define LS_SWEEP_REELABORATE (-1)
-
 /* One circuit elaborated once, solved at many values of one let.  The
  * netlist is only read: a point's values (the lets, and what they reach:
  * part values and options, range ends, budgets, constants inside the
@@ -49,7 +45,7 @@ typedef struct ls_sweeper {
     bool ready;                /* op holds a solved point of nl to continue from */
     bool restructured;         /* a point changed a part's shape (its branch unknowns, DC edges,
                                   pins that draw current or linearity; the answer was
-                                  LS_SWEEP_REELABORATE): the elaborated numbering no longer holds */
+                                  LS_REELABORATE): the elaborated numbering no longer holds */
 } ls_sweeper;
 
 /* Start a sweeper over nl with the record deps and the solve options o
@@ -66,10 +62,11 @@ void ls_sweeper_free(ls_sweeper *w);
 bool ls_sweep_set_value(ls_sweeper *w, double x);
 
 /* Solve at the let's value x: afresh when `fresh` (or when nothing can be
- * continued), else continuing from the last point.  Returns LS_EXIT_OK (the
- * solution in w->op), LS_EXIT_UNSOLVABLE (w->op.nomem tells a want of memory
- * from a circuit without a solution; the next point starts afresh), or
- * LS_SWEEP_REELABORATE. */
-int ls_sweeper_solve(ls_sweeper *w, double x, bool fresh);
+ * continued), else continuing from the last point.  Returns LS_DONE (the
+ * solution in w->op), LS_UNSOLVABLE (the next point starts afresh),
+ * LS_NO_MEMORY (w->op.nomem is set too), or LS_REELABORATE when the point's
+ * values cannot be set without elaborating again (the caller does that for
+ * this point). */
+ls_outcome ls_sweeper_solve(ls_sweeper *w, double x, bool fresh);
 
 #endif

@@ -30,7 +30,7 @@ static double loaded_exact(ls_op *op, int node, int opened, double r, char *limi
         v.opened[opened] = LS_OPENED;
     v.ties[node] = (ls_tie){1 / r, 0};
     int held = ls_variant_hold_floating(&v, op);
-    if (held >= 0 && ls_variant_solve(&v, op, false) == LS_EXIT_OK) {
+    if (held >= 0 && ls_variant_solve(&v, op, false) == LS_DONE) {
         out = v.op.v[node];
         ls_limits_in_force(&v.op.run, &base, limited, n);
     } else if (held < 0 || v.op.nomem) {
@@ -112,7 +112,7 @@ static double opened_voltage(ls_op *op, int pi, int node, const char **why, bool
         *why = "unsolved";
         *nomem = true;
     } else if (!v.floating[node]) {
-        if (ls_variant_solve(&v, op, false) == LS_EXIT_OK)
+        if (ls_variant_solve(&v, op, false) == LS_DONE)
             out = v.op.v[node];
         else
             *why = "unsolved";

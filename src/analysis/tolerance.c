@@ -130,7 +130,7 @@ typedef struct mc_state {
 static int mc_setup(const mc_job *job, const ls_options *opt, mc_state *st)
 {
     int status = -1;
-    if (ls_op_solve(&st->op, &st->nl, opt) == LS_EXIT_OK && ls_run_init(&st->nominal, &st->nl) == 0 &&
+    if (ls_op_solve(&st->op, &st->nl, opt) == LS_DONE && ls_run_init(&st->nominal, &st->nl) == 0 &&
         ls_run_copy(&st->nominal, &st->op.run) == 0 &&
         (job->nv == 0 || ls_run_set_value(&st->nominal, job->v[0].part, job->v[0].nominal) == 0)) {
         /* Every trial starts from the nominal solution and part states, so a
@@ -188,7 +188,7 @@ static int mc_trial(mc_job *job, mc_state *st, long i)
         return -2;
     if (st->varying)
         ls_mna_expect_changes(&op->mna, st->varying, job->nv);
-    if (ls_op_resolve(op) != LS_EXIT_OK) {
+    if (ls_op_resolve(op) != LS_DONE) {
         if (op->nomem) /* not a trial that has no solution: the study cannot go on */
             return -2;
         job->value[i] = NAN;
@@ -298,24 +298,24 @@ static int mc_all(mc_job *job, int nthreads)
 
 /* With a share: every process's trials (values and verdicts) to all, and
  * the worst status of any process.  Returns that status (code without a share). */
-static int share_trials(const ls_share *s, mc_job *job, int code)
+static ls_outcome share_trials(const ls_share *s, mc_job *job, ls_outcome code)
 {
     if (!s || s->size <= 1)
         return code;
     int *status = calloc((size_t)s->size, sizeof *status);
     if (!status)
-        return LS_TOL_NOMEM; /* (the other processes then wait: out of memory ends them all) */
-    status[s->rank] = code;
+        return LS_NO_MEMORY; /* (the other processes then wait: out of memory ends them all) */
+    status[s->rank] = (int)code;
     int rc = ls_share_gather(s, status, s->size, sizeof *status);
     for (int r = 0; r < s->size && rc == 0; r++)
-        if (status[r] != 0)
-            code = status[r];
+        if (status[r] != LS_DONE)
+            code = (ls_outcome)status[r];
     free(status);
-    if (rc == 0 && code == 0)
+    if (rc == 0 && code == LS_DONE)
         rc = ls_share_gather(s, job->value, job->trials, sizeof *job->value);
-    if (rc == 0 && code == 0)
+    if (rc == 0 && code == LS_DONE)
         rc = ls_share_gather(s, job->pass, job->trials, 1);
-    return rc != 0 ? LS_TOL_SETUP : code;
+    return rc != 0 ? LS_NO_WORKER : code;
 }
 
 /* ---- statistics ---------------------------------------------------------------------------- */
@@ -397,8 +397,9 @@ static void set_nominal(ls_run *run, const ls_tol_vary *v, int nv)
 }
 
 /* Every corner, re-solved; the nominal value is included.  The parts are back
- * at nominal (and solved) on return.  Returns 0, or an exit code. */
-static int corners(ls_tol_study *t)
+ * at nominal (and solved) on return.  Returns LS_DONE, LS_NO_MEMORY or
+ * LS_UNSOLVABLE (the nominal point no longer solves). */
+static ls_outcome corners(ls_tol_study *t)
 {
     ls_tol_result *r = &t->r;
     const ls_tol_vary *v = t->v;
@@ -415,7 +416,7 @@ static int corners(ls_tol_study *t)
     for (unsigned long m = 0; m < (1ul << nv) && !nomem; m++) {
         if ((nomem = set_corner(&t->op->run, v, nv, m) != 0))
             break;
-        double x = ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        double x = ls_op_resolve(t->op) == LS_DONE ? ls_q_eval(t->op, t->q) : NAN;
         if ((nomem = t->op->nomem))   /* no memory is no property of the corner */
             break;
         if (isnan(x)) {
@@ -429,12 +430,12 @@ static int corners(ls_tol_study *t)
         any = true;
     }
     set_nominal(&t->op->run, v, nv);
-    int st = ls_op_resolve(t->op);
+    ls_outcome st = ls_op_resolve(t->op);
     t->nl->diags = keep;
     ls_diags_free(&scratch);
     if (nomem || t->op->nomem) {
         t->failed_stage = "the worst-case corners";
-        return LS_TOL_NOMEM;
+        return LS_NO_MEMORY;
     }
     if (r->nominal < r->wc_min)
         r->wc_min = r->nominal;
@@ -447,40 +448,42 @@ static int corners(ls_tol_study *t)
                    r->wc_failed, 1ul << nv);
         r->wc_min = r->wc_max = NAN;
     }
-    return st == LS_EXIT_OK ? 0 : LS_EXIT_UNSOLVABLE;
+    return st == LS_DONE ? LS_DONE : LS_UNSOLVABLE;
 }
 
 /* dQ/dp of each varying part by central differences (when the adjoint
- * cannot handle the quantity).  Returns 0, or an exit code. */
-static int fd_derivatives(ls_tol_study *t, double *dq)
+ * cannot handle the quantity).  Returns LS_DONE, LS_NO_MEMORY or
+ * LS_UNSOLVABLE. */
+static ls_outcome fd_derivatives(ls_tol_study *t, double *dq)
 {
     ls_run *run = &t->op->run;
     for (int j = 0; j < t->nv; j++) {
         int part = t->v[j].part;
         double p = t->v[j].nominal, h = fabs(p) * 1e-6;
         bool nomem = ls_run_set_value(run, part, p + h) != 0;
-        double a = !nomem && ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        double a = !nomem && ls_op_resolve(t->op) == LS_DONE ? ls_q_eval(t->op, t->q) : NAN;
         nomem |= t->op->nomem || ls_run_set_value(run, part, p - h) != 0;
-        double b = !nomem && ls_op_resolve(t->op) == LS_EXIT_OK ? ls_q_eval(t->op, t->q) : NAN;
+        double b = !nomem && ls_op_resolve(t->op) == LS_DONE ? ls_q_eval(t->op, t->q) : NAN;
         nomem |= t->op->nomem;
         (void)ls_run_set_value(run, part, p);
         if (nomem) {
             ls_op_resolve(t->op);   /* back at nominal, if memory allows */
             t->failed_stage = "the sensitivities";
-            return LS_TOL_NOMEM;
+            return LS_NO_MEMORY;
         }
         dq[j] = (a - b) / (2 * h);
     }
-    int st = ls_op_resolve(t->op);
+    ls_outcome st = ls_op_resolve(t->op);
     if (t->op->nomem) {
         t->failed_stage = "the sensitivities";
-        return LS_TOL_NOMEM;
+        return LS_NO_MEMORY;
     }
-    return st == LS_EXIT_OK ? 0 : LS_EXIT_UNSOLVABLE;
+    return st == LS_DONE ? LS_DONE : LS_UNSOLVABLE;
 }
 
-/* Linear worst case nominal ± Σ|dQ/dp|·|p|·tol, and the RSS half-width. */
-static int linear_wc(ls_tol_study *t)
+/* Linear worst case nominal ± Σ|dQ/dp|·|p|·tol, and the RSS half-width.
+ * Returns as fd_derivatives. */
+static ls_outcome linear_wc(ls_tol_study *t)
 {
     ls_tol_result *r = &t->r;
     ls_tol_vary *v = t->v;
@@ -489,7 +492,7 @@ static int linear_wc(ls_tol_study *t)
     double *dq = calloc((size_t)(nv ? nv : 1), sizeof *dq);
     if (!dq) {
         t->failed_stage = "the sensitivities";
-        return LS_TOL_NOMEM;
+        return LS_NO_MEMORY;
     }
     ls_diags scratch;
     ls_diags_init(&scratch, t->arena);
@@ -500,11 +503,11 @@ static int linear_wc(ls_tol_study *t)
     int n = ls_sens(t->op, t->q, &value, &items);
     t->nl->diags = keep;
     ls_diags_free(&scratch);
-    int st = 0;
+    ls_outcome st = LS_DONE;
     if (n == LS_SENS_NOMEM) {   /* differences would give other numbers: no fallback */
         free(dq);
         t->failed_stage = "the sensitivities";
-        return LS_TOL_NOMEM;
+        return LS_NO_MEMORY;
     }
     if (n >= 0) {
         for (int j = 0; j < nv; j++)
@@ -567,7 +570,7 @@ static void nothing_varies(ls_tol_study *t)
     r->yield = t->nchecks > 0 ? (ok ? 1.0 : 0.0) : NAN;
 }
 
-int ls_tol_run(ls_tol_study *t)
+ls_outcome ls_tol_run(ls_tol_study *t)
 {
     t->v = NULL;
     t->checks = NULL;
@@ -577,17 +580,17 @@ int ls_tol_run(ls_tol_study *t)
     t->nchecks = matching_checks(t->nl, t->q, &t->checks);
     t->failed_stage = "the varying parts";
     if (t->nv < 0 || t->nchecks < 0)
-        return LS_TOL_NOMEM;
+        return LS_NO_MEMORY;
     t->failed_stage = NULL;
     t->r.nominal = ls_q_eval(t->op, t->q);
     if (t->nv == 0)
         ls_warning(t->diags, LS_NOLOC, "tol-none", "no part has a tol= option: nothing varies");
-    int code = t->nv <= LS_TOL_CORNER_LIMIT ? corners(t) : linear_wc(t);
-    if (code)
+    ls_outcome code = t->nv <= LS_TOL_CORNER_LIMIT ? corners(t) : linear_wc(t);
+    if (code != LS_DONE)
         return code;
     if (t->nv == 0) {
         nothing_varies(t);
-        return 0;
+        return LS_DONE;
     }
     mc_job job = {.base = t->nl, .start = &t->op->run, .opt = t->op->opt, .q = t->q, .v = t->v, .nv = t->nv, .checks = t->checks,
                   .nchecks = t->nchecks, .trials = t->trials, .seed = t->seed, .normal = t->normal,
@@ -598,31 +601,31 @@ int ls_tol_run(ls_tol_study *t)
         free(job.value);
         free(job.pass);
         t->failed_stage = "the table of trials";
-        return LS_TOL_NOMEM;
+        return LS_NO_MEMORY;
     }
     ls_share_range(t->share, t->trials, &job.first, &job.last);
     int threads = t->threads > 0 ? t->threads : thread_count(job.last - job.first);
     if (threads > LS_TOL_MAX_THREADS)
         threads = LS_TOL_MAX_THREADS;
     int rc = mc_all(&job, threads);
-    code = rc == 0 ? 0 : rc == -2 ? LS_TOL_NOMEM : LS_TOL_SETUP;
+    code = rc == 0 ? LS_DONE : rc == -2 ? LS_NO_MEMORY : LS_NO_WORKER;
     t->failed_stage = rc == -2 ? "a Monte Carlo trial" : rc ? "a Monte Carlo worker's copy of the circuit" : NULL;
     code = share_trials(t->share, &job, code);
-    if (code == LS_TOL_NOMEM && !t->failed_stage)
+    if (code == LS_NO_MEMORY && !t->failed_stage)
         t->failed_stage = "a Monte Carlo trial (in another process)";
-    if (code == 0 && mc_stats(&job, t->nchecks > 0, &t->r) != 0) {
-        code = LS_TOL_NOMEM;
+    if (code == LS_DONE && mc_stats(&job, t->nchecks > 0, &t->r) != 0) {
+        code = LS_NO_MEMORY;
         t->failed_stage = "the statistics";
     }
     free(job.pass);
     t->values = job.value;
-    if (code != 0)
+    if (code != LS_DONE)
         return code;
     if (t->r.finite < t->trials)
         ls_warning(t->diags, LS_NOLOC, "tol-trials",
                    "%ld of %ld trials did not solve or gave no finite value; the statistics leave them out",
                    t->trials - t->r.finite, t->trials);
-    return 0;
+    return LS_DONE;
 }
 
 void ls_tol_free(ls_tol_study *t)

@@ -62,20 +62,18 @@ typedef struct ls_tol_study {
     int nchecks;
     ls_tol_result r;
     double *values;                /* per trial, NaN where it did not solve; trials of them */
-    const char *failed_stage;      /* with LS_TOL_NOMEM or LS_TOL_SETUP: the stage that ran out of
+    const char *failed_stage;      /* with LS_NO_MEMORY or LS_NO_WORKER: the stage that ran out of
                                       memory ("the worst-case corners", "a Monte Carlo trial" ...) */
 } ls_tol_study;
 
-enum { LS_TOL_OK = 0, LS_TOL_NOMEM = -1, LS_TOL_SETUP = -2 };
-
 /* Run the study: the varying parts, the expects on q, the nominal value, the
- * worst case, the Monte Carlo trials and their statistics.  Returns LS_TOL_OK,
- * LS_EXIT_UNSOLVABLE (the nominal circuit no longer solves), LS_TOL_NOMEM
- * (memory ran out anywhere: the varying parts, a corner's or a trial's solve,
- * the statistics; never counted as a corner or trial that did not solve) or
- * LS_TOL_SETUP (a worker could not set up); t->failed_stage names the stage.
+ * worst case, the Monte Carlo trials and their statistics.  Returns LS_DONE,
+ * LS_UNSOLVABLE (the nominal circuit no longer solves), LS_NO_MEMORY (memory
+ * ran out anywhere: the varying parts, a corner's or a trial's solve, the
+ * statistics; never counted as a corner or trial that did not solve) or
+ * LS_NO_WORKER (a worker could not set up); t->failed_stage names the stage.
  * Free the outputs with ls_tol_free in every case. */
-int ls_tol_run(ls_tol_study *t);
+ls_outcome ls_tol_run(ls_tol_study *t);
 
 /* Only the Monte Carlo values of q over `trials` trials with `seed` (no worst
  * case, no yield), into *values (caller frees).  Returns 0, or -1 when out of

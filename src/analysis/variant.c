@@ -101,8 +101,8 @@ int ls_variant_hold_floating(ls_variant *v, const ls_op *base)
     return count;
 }
 
-/* The variant solved with base's options (see variant.h); an exit code. */
-int ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only)
+/* The variant solved with base's options (see variant.h); ls_op_solve's outcome. */
+ls_outcome ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only)
 {
     if (v->have_op)
         ls_op_free(&v->op);

@@ -49,9 +49,9 @@ int ls_variant_hold_floating(ls_variant *v, const ls_op *base);
  * linearization points with every limit free (cold), or, with linear_only,
  * one linear solve at base's states (the system linearized at base's
  * solution).  The states of the solve are the variant's own (v->op.run);
- * base's are not touched.  Returns an exit code
- * (LS_EXIT_OK, or LS_EXIT_UNSOLVABLE with the reason in v->diags). */
-int ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only);
+ * base's are not touched.  Returns ls_op_solve's outcome (LS_DONE, or
+ * LS_UNSOLVABLE / LS_NO_MEMORY with the reason in v->diags). */
+ls_outcome ls_variant_solve(ls_variant *v, const ls_op *base, bool linear_only);
 void ls_variant_free(ls_variant *v);
 
 /* The limits in force in run now (a variant's), and the junctions whose

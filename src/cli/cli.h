@@ -11,6 +11,15 @@
 #include "report/output.h"
 #include "report/report.h"
 
+/* The program's exit codes (cli.md, "Exit codes").  They live here and
+ * nowhere else in src/ (tests/house/deps.py keeps it so): the analyses answer
+ * an ls_outcome (analysis/outcome.h), the library an ls_status. */
+enum { LS_EXIT_OK = 0, LS_EXIT_CHECK = 1, LS_EXIT_USAGE = 2, LS_EXIT_UNSOLVABLE = 3 };
+
+/* The exit code of an analysis's outcome: the one place where the program
+ * maps ls_outcome to cli.md's table (commands.c). */
+int ls_exit_code(ls_outcome o);
+
 #define LS_MAX_SETS 256
 #define LS_MAX_POS 16
 
@@ -74,7 +83,7 @@ typedef struct ls_circuit ls_session;
  * memory).  Free s with ls_session_free whatever it returns. */
 int ls_session_load(ls_session *s, ls_cli *cli, const char *path, const char *text);
 /* Solve the operating point (ls_circuit_solve_op, with cli's solver, ratio
- * and derating, and the progress line).  Returns an exit code. */
+ * and derating, and the progress line).  Returns the outcome's exit code. */
 int ls_session_solve(ls_session *s);
 /* Free what the session holds (not s itself). */
 void ls_session_free(ls_session *s);

@@ -1,5 +1,6 @@
 /* commands.c — loading a circuit for a command, safe output, and the solve,
  * check and demo commands. */
+#include <assert.h>
 #include <errno.h>
 #include <math.h>
 #include <signal.h>
@@ -16,6 +17,26 @@
 #include "lang/parser.h"
 #include "cli/progress.h"
 #include "report/plot.h"
+
+/* ---- exit codes -------------------------------------------------------------------------- */
+
+int ls_exit_code(ls_outcome o)
+{
+    switch (o) {
+    case LS_DONE: return LS_EXIT_OK;
+    case LS_BAD_REQUEST: return LS_EXIT_USAGE;
+    case LS_UNSOLVABLE: return LS_EXIT_UNSOLVABLE;
+    /* no memory is no fault of the file or the command line: 3, as every run
+     * out of memory (docs/limits.md); so is a worker that cannot be set up */
+    case LS_NO_MEMORY: return LS_EXIT_UNSOLVABLE;
+    case LS_NO_WORKER: return LS_EXIT_UNSOLVABLE;
+    /* the sweep command elaborates such a point again and never passes this
+     * on; a command that did would have no solution to report */
+    case LS_REELABORATE: return LS_EXIT_UNSOLVABLE;
+    }
+    assert(!"an ls_outcome without an exit code");
+    return LS_EXIT_UNSOLVABLE;
+}
 
 /* ---- numbers on the command line ------------------------------------------------------ */
 
@@ -160,7 +181,7 @@ int ls_session_solve(ls_session *s)
                     .phase = solve_phase, .phase_ctx = &sp};
     double t0 = now_s();
     ls_progress_start(&sp.pg, s->cli->command ? s->cli->command : "solve", "", s->cli->quiet);
-    int code = ls_circuit_solve_op(s, &o);
+    int code = ls_exit_code(ls_circuit_solve_op(s, &o));
     /* the hook's context lives on this stack: the op's options are copied
      * into later solves (variants, tol's trials on other threads) */
     s->op.opt.phase = NULL;

@@ -540,10 +540,10 @@ static int fit_options(ls_cli *cli, ls_fit_study *f)
     return 0;
 }
 
-/* Say why the search could not run.  Returns the exit code. */
-static int fit_failed(ls_session *s, const ls_fit_study *f, int code)
+/* Say why the search refused to run (f->refused).  Returns the exit code. */
+static int fit_refused(ls_session *s, const ls_fit_study *f)
 {
-    switch (code) {
+    switch (f->refused) {
     case LS_FIT_NOFREE:
         fprintf(stderr, "loadstack: error: no part is marked free=LO..HI: nothing to fit (see 'man 5 "
                         "loadstack-language')\n");
@@ -558,12 +558,21 @@ static int fit_failed(ls_session *s, const ls_fit_study *f, int code)
                 ls_error(&s->diags, s->nl.frees[j].loc, "no %s value lies in the free= range of '%s'",
                          f->vars[j].series, s->nl.parts[f->vars[j].part].name);
         return LS_EXIT_USAGE;
-    case LS_FIT_NOMEM:
-        fprintf(stderr, "loadstack: error: out of memory during the search\n");
-        return LS_EXIT_UNSOLVABLE;
-    default:
-        return code;
+    case LS_FIT_SEARCHED:
+        break;
     }
+    return ls_exit_code(LS_BAD_REQUEST);
+}
+
+/* Say why the search could not run or did not finish (out is not LS_DONE).
+ * Returns the exit code. */
+static int fit_failed(ls_session *s, const ls_fit_study *f, ls_outcome out)
+{
+    if (out == LS_BAD_REQUEST)
+        return fit_refused(s, f);
+    if (out == LS_NO_MEMORY)
+        fprintf(stderr, "loadstack: error: out of memory during the search\n");
+    return ls_exit_code(out);
 }
 
 /* Write fit's report and, when asked and a candidate meets every check, the
@@ -619,11 +628,11 @@ int ls_cmd_fit(ls_cli *cli)
         f.arena = &s.arena;
         f.progress = pg.out ? show_progress : NULL;
         f.progress_ctx = &pg;
-        code = ls_fit_run(&f);
+        ls_outcome out = ls_fit_run(&f);
         if (pg.out)
             ls_progress_end(&pg);
-        if (code != LS_FIT_OK)
-            code = fit_failed(&s, &f, code);
+        if (out != LS_DONE)
+            code = fit_failed(&s, &f, out);
     }
     if (code != LS_EXIT_OK) {
         ls_diags_print(&s.diags, stderr);

@@ -101,7 +101,7 @@ int ls_cmd_formula(ls_cli *cli)
     if (code == LS_EXIT_OK) {
         ls_formula_req req = {.quantity = cli->pos[1], .symbols = cli->symbols, .ideal = cli->ideal};
         int e0 = s.diags.errors;
-        code = ls_formula(&s.op, &s.prog, q, &req, &r, &s.diags);
+        code = ls_exit_code(ls_formula(&s.op, &s.prog, q, &req, &r, &s.diags));
         if (code != LS_EXIT_OK && s.diags.errors == e0) /* every other failure gives its reason */
             ls_error(&s.diags, LS_NOLOC, "out of memory making the exact formula of '%s'", cli->pos[1]);
     }

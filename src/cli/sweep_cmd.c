@@ -349,7 +349,7 @@ static bool continue_base(sweep *w, int i, const ls_session *s, const ls_q *cons
         *rc = point_nomem(w, i, NULL);
         return true;
     }
-    if (ls_op_resolve(&w->base->op) == LS_EXIT_OK) {
+    if (ls_op_resolve(&w->base->op) == LS_DONE) {
         *rc = record(w, i, &w->base->op, q, &s->nl) != 0 ? point_nomem(w, i, NULL) : 0;
         return true;
     }
@@ -418,12 +418,12 @@ static int solve_point(sweep *w, int i)
 {
     if (!w->once)
         return reelaborate_point(w, i);
-    int code = ls_sweeper_solve(&w->sw, w->x[i], i % SWEEP_CHAIN == 0);
-    if (code == LS_EXIT_OK)
+    ls_outcome out = ls_sweeper_solve(&w->sw, w->x[i], i % SWEEP_CHAIN == 0);
+    if (out == LS_DONE)
         return record(w, i, &w->sw.op, w->q, &w->probe->nl) != 0 ? point_nomem(w, i, NULL) : 0;
     /* (memory that ran out in a stage that only reports it, such as the
      * topology check, shows in the session's diagnostics) */
-    if (code != LS_SWEEP_REELABORATE && (w->sw.op.nomem || ls_session_nomem(w->probe)))
+    if (out != LS_REELABORATE && (w->sw.op.nomem || ls_session_nomem(w->probe)))
         return point_nomem(w, i, w->probe);
     if (w->sw.restructured) {
         /* the let changes how many unknowns a part has: from this point on

@@ -387,16 +387,16 @@ int ls_cmd_tol(ls_cli *cli)
     double *values = NULL;
     if (code == LS_EXIT_OK) {
         t.unit = ls_unit_of(t.q->dims, cli->ascii);
-        code = ls_tol_run(&st);
+        ls_outcome out = ls_tol_run(&st);
         if (pg.out)
             ls_progress_end(&pg);
         t.trials = st.trials;   /* 0 when nothing varies */
-        if (code == LS_TOL_NOMEM || code == LS_TOL_SETUP) {
+        if (out == LS_NO_MEMORY || out == LS_NO_WORKER) {
             /* never a statistic: a trial or corner that ran out of memory ends the run */
             fprintf(stderr, "loadstack: error: out of memory in the tolerance study: %s (%d varying parts, %ld trials)\n",
                     st.failed_stage ? st.failed_stage : "the Monte Carlo run", st.nv > 0 ? st.nv : 0, t.trials);
-            code = LS_EXIT_UNSOLVABLE;
         }
+        code = ls_exit_code(out);
         /* the reports read the study through the command's context */
         t.v = st.v;
         t.nv = st.nv;

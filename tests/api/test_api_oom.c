@@ -15,6 +15,8 @@
  * elaborator's tables cannot grow, and a modified system that runs out of
  * memory taken as singular (a port's or a removal's fields undefined).
  *
+ * A formula that fails while an allocation fails must say LS_E_NOMEM too.
+ *
  * Sag by connection, the tolerance study, the sweep and a port's Thevenin
  * run solves of their own.  Where one of those runs out of memory the call
  * must say LS_E_NOMEM: an analysis that reports a corner, trial, point or
@@ -109,6 +111,15 @@ static void analyses(ls_circuit *c, long k)
         want(NEAR(th.vth, 2.0) && NEAR(th.rth, 4e3), "thevenin", k);
     if (ls_circuit_eval(c, "in - 1 V", &v) == LS_OK)
         want(NEAR(v, 1.0), "eval", k);
+    /* the exact formula at the file's numbers is the solve's 2 V (the divider rule); with an
+     * allocation failing, any failure is "out of memory", never "cannot be solved" */
+    char *fx = NULL;
+    ls_status fs = ls_circuit_formula(c, "mid", NULL, 0, &fx, &v);
+    if (fs == LS_OK)
+        want(fx && NEAR(v, 2.0), "formula", k);
+    else
+        want(fs == LS_E_NOMEM, "formula: a failure with an allocation failing is not LS_E_NOMEM", k);
+    ls_free(fx);
     ls_thevenin_side td, tl;   /* the port opened: 2.5 V behind 5k; 20k to ground behind it */
     if (ls_circuit_thevenin_port(c, "p", &td, &tl) == LS_OK) {
         if (td.why || tl.why)

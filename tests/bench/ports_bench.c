@@ -50,9 +50,9 @@ static int run_once(const char *path, ls_solver_choice solver, times *t)
     if (ls_parse_file(&diags, path, &prog) == 0 && ls_elaborate(&prog, &diags, NULL, 0, &nl) == 0) {
         double t1 = now();
         ls_options o = {.solver = solver, .min_ratio = 0, .derate = 1};
-        int st = ls_op_solve(&op, &nl, &o);
+        ls_outcome st = ls_op_solve(&op, &nl, &o);
         double t2 = now();
-        if (st == LS_EXIT_OK) {
+        if (st == LS_DONE) {
             int np = 0;
             for (int i = 0; i < nl.nparts; i++)
                 if (nl.parts[i].kind->is_port && ls_op_port(&op, i))

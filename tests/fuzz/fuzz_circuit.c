@@ -44,7 +44,7 @@ static bool leading_set(const char **text, size_t *len, char **set)
 static void solve_and_report(ls_circuit *c, FILE *sink)
 {
     ls_options o = {.solver = LS_CHOOSE_AUTO, .min_ratio = 0, .derate = 1};
-    if (ls_circuit_solve_op(c, &o) != LS_EXIT_OK)
+    if (ls_circuit_solve_op(c, &o) != LS_DONE)
         return;
     ls_checks checks;
     if (ls_checks_run(&c->op, true, &checks) == 0) {

@@ -16,7 +16,10 @@ line of src/ and fails on
   - an arrow against the pipeline (a stage including a later stage's header),
   - an include cycle between modules (a module is a .c file with its .h), also
     inside one folder,
-  - an entry of KNOWN below that no longer happens (the list only shrinks).
+  - an entry of KNOWN below that no longer happens (the list only shrinks),
+  - the program's exit codes (`LS_EXIT_`) named anywhere but in src/cli/ and
+    src/api.c: the analyses answer an ls_outcome (analysis/outcome.h), and
+    only the program (cli/) and the public API (api.c) map it.
 KNOWN holds the arrows and cycles that are still to be mended, each with why it
 is there; DEVELOPERS.md "The house" describes the layout.
 """
@@ -34,6 +37,12 @@ KNOWN_CYCLES = {
 }
 
 INCLUDE = re.compile(r'^\s*#\s*include\s*"([^"]+)"', re.M)
+EXIT_CODE = re.compile(r'\bLS_EXIT_\w*')
+
+
+def exit_code_allowed(rel):
+    """May src/REL name the program's exit codes?"""
+    return rel.startswith("cli/") or rel == "api.c"
 
 
 def layer_of(rel):
@@ -43,8 +52,10 @@ def layer_of(rel):
     return rel.split("/", 1)[0]
 
 
-def scan(root):
-    """{file relative to src/: [included paths relative to src/ or include/]}."""
+def scan(root, exit_uses=None):
+    """{file relative to src/: [included paths relative to src/ or include/]};
+    exit_uses, when given, gets (file, line number, line) for every use of an
+    exit code where exit_code_allowed says no."""
     src = os.path.join(root, "src")
     out = {}
     for base, _, names in os.walk(src):
@@ -53,7 +64,12 @@ def scan(root):
                 path = os.path.join(base, n)
                 rel = os.path.relpath(path, src)
                 with open(path, encoding="utf-8", errors="replace") as f:
-                    out[rel] = INCLUDE.findall(f.read())
+                    text = f.read()
+                out[rel] = INCLUDE.findall(text)
+                if exit_uses is not None and not exit_code_allowed(rel):
+                    for n, line in enumerate(text.split("\n"), 1):
+                        if EXIT_CODE.search(line):
+                            exit_uses.append((rel, n, line.strip()))
     return out
 
 
@@ -97,8 +113,13 @@ def cycles(edges):
 
 def main():
     root = sys.argv[1] if len(sys.argv) > 1 else os.path.join(os.path.dirname(__file__), "..", "..")
-    files = scan(root)
+    exit_uses = []
+    files = scan(root, exit_uses)
     failed = 0
+    for rel, n, line in exit_uses:
+        print("FAIL src/%s:%d names an exit code outside src/cli/ and src/api.c (return an ls_outcome, "
+              "analysis/outcome.h): %s" % (rel, n, line))
+        failed += 1
     seen_known = set()
     edges = {}
     for rel, incs in sorted(files.items()):
@@ -142,8 +163,10 @@ def main():
     for c in sorted(set(KNOWN_CYCLES) - found):
         print("FAIL KNOWN_CYCLES lists %s, which is no longer a cycle: take it off the list" % (c,))
         failed += 1
-    print("%d files, %d includes between modules, %d known arrows against the pipeline, %d known cycles, %d failed"
-          % (len(files), sum(len(v) for v in edges.values()), len(seen_known), len(found & set(KNOWN_CYCLES)), failed))
+    print("%d files, %d includes between modules, %d known arrows against the pipeline, %d known cycles, "
+          "%d exit codes outside cli/ and api.c, %d failed"
+          % (len(files), sum(len(v) for v in edges.values()), len(seen_known), len(found & set(KNOWN_CYCLES)),
+             len(exit_uses), failed))
     return 1 if failed else 0
 
 

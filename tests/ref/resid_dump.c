@@ -131,7 +131,7 @@ int main(int argc, char **argv)
     ls_tie *ties = NULL;
     ls_options o = {.solver = LS_CHOOSE_AUTO};
     if (ls_parse_file(&diags, argv[1], &prog) || ls_elaborate(&prog, &diags, NULL, 0, &nl) ||
-        ls_op_solve(&op, &nl, &o) != LS_EXIT_OK || ls_mna_restamp(&op.mna) != 0) {
+        ls_op_solve(&op, &nl, &o) != LS_DONE || ls_mna_restamp(&op.mna) != 0) {
         fprintf(stderr, "resid_dump: %s does not load or solve\n", argv[1]);
         goto out;
     }

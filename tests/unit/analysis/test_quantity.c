@@ -27,7 +27,7 @@ static int load(world *w)
     int errors = ls_test_front(&w->a, &w->d, &w->prog, &w->nl, divider);
     if (!errors) {
         ls_options o = {0};
-        errors = ls_op_solve(&w->op, &w->nl, &o) != LS_EXIT_OK;
+        errors = ls_op_solve(&w->op, &w->nl, &o) != LS_DONE;
     }
     return errors;
 }

@@ -195,11 +195,11 @@ static void sweep_against_fresh(const char *let, const double *xs, int n, ls_ld_
     ls_options o = {0};
     ls_sweeper_init(&w, nl, &deps, &o);
     for (int i = 0; i < n; i++) {
-        int code = ls_sweeper_solve(&w, xs[i], i == 0);
-        CU_ASSERT_EQUAL_FATAL(code, LS_EXIT_OK);
+        ls_outcome out = ls_sweeper_solve(&w, xs[i], i == 0);
+        CU_ASSERT_EQUAL_FATAL(out, LS_DONE);
         ls_circuit fresh;
         CU_ASSERT_FATAL(load(&fresh, let, xs[i], NULL) == 0);
-        CU_ASSERT_FATAL(ls_circuit_solve_op(&fresh, &o) == LS_EXIT_OK);
+        CU_ASSERT_FATAL(ls_circuit_solve_op(&fresh, &o) == LS_DONE);
         same_report(&w.op, &fresh.op);
         ls_circuit_release(&fresh);
     }
@@ -261,9 +261,9 @@ static void test_shape_change(void)
     ls_sweeper w;
     ls_options o = {0};
     ls_sweeper_init(&w, &base.nl, &deps, &o);
-    CU_ASSERT_EQUAL(ls_sweeper_solve(&w, 1, true), LS_EXIT_OK);
+    CU_ASSERT_EQUAL(ls_sweeper_solve(&w, 1, true), LS_DONE);
     CU_ASSERT_FALSE(w.restructured);
-    CU_ASSERT_EQUAL(ls_sweeper_solve(&w, 0, false), LS_SWEEP_REELABORATE);
+    CU_ASSERT_EQUAL(ls_sweeper_solve(&w, 0, false), LS_REELABORATE);
     CU_ASSERT_TRUE(w.restructured);
     ls_sweeper_free(&w);
     ls_circuit_release(&base);
