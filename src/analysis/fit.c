@@ -257,7 +257,7 @@ static int make_slots(fit_run *r)
         } else if (ls_part_has(p, ls_kind_opt(k, "imax"))) {
             r->slots[n++] = (slot){LS_FITC_IMAX, i};
         }
-        if (strcmp(k->name, "adc") == 0) {
+        if (k->is_adc) {
             r->slots[n++] = (slot){LS_FITC_ADC_RANGE, i};
             if (ls_part_has(p, ls_kind_opt(k, "max_source")))
                 r->slots[n++] = (slot){LS_FITC_ADC_SOURCE, i};

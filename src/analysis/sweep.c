@@ -5,7 +5,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "lang/lexer.h"
 #include "elab/elab.h"
 #include "parts/parts.h"
 #include "analysis/newton.h"
@@ -81,7 +80,7 @@ static bool run(const ls_letdeps *d, const ls_ld_entry *e, const double *lets, d
         case LDC_PARAM: st[sp++] = lets[c->arg]; break;
         case LDC_NEG: st[sp - 1] = -st[sp - 1]; break;
         case LDC_BIN:
-            if (c->arg == T_SLASH && st[sp - 1] == 0)
+            if (c->arg == LS_OP_DIV && st[sp - 1] == 0)
                 return false;
             st[sp - 2] = ls_apply_op(c->arg, st[sp - 2], st[sp - 1]);
             sp--;

@@ -205,9 +205,10 @@ static void warnings_text(ls_wr *w)
 
 /* ---- real parts: limits, ADC inputs, thermistors ----------------------------------------- */
 
-static bool is_kind(const ls_part *p, const char *k)
+/* A thermistor's rows: the kinds with a body temperature (the table's flag). */
+static bool has_body(const ls_part *p)
 {
-    return strcmp(p->kind->name, k) == 0;
+    return p->kind->has_body_temp;
 }
 
 /* The text column: which limit holds the output, with its value. */
@@ -333,13 +334,13 @@ static void ntc_text(ls_wr *w, const ls_op *op)
     const ls_netlist *nl = op->nl;
     int n = 0;
     for (int i = 0; i < nl->nparts; i++)
-        n += is_kind(&nl->parts[i], "ntc");
+        n += has_body(&nl->parts[i]);
     if (n)
         ls_wr_say(w, "\nThermistors\n");
     ls_wr_table(w, NULL, cols, (int)(sizeof cols / sizeof *cols), &quiet);
     for (int i = 0; n && i < nl->nparts; i++) {
         const ls_part *p = &nl->parts[i];
-        if (!is_kind(p, "ntc"))
+        if (!has_body(p))
             continue;
         double t_amb = ls_part_opt_in(&op->run, p, "celsius", 25), t_body = ls_ntc_body(p, &op->run);
         char b2[64], b3[64], n1[48], n2[48];
@@ -894,7 +895,7 @@ static void part_extras(ls_wr *w, const ls_results *res, int i, bool bounds)
         adc_members(w, p, ar, true);
     }
     ls_wr_route(w, LS_WR_ALL);
-    if (!ar && is_kind(p, "ntc"))
+    if (!ar && has_body(p))
         ntc_members(w, op, p);
 }
 
