@@ -328,6 +328,7 @@ static int chol_factor(dense *d, const ls_csc *a, ls_solver_stats *st)
     if (!work || !iwork) {
         free(work);
         free(iwork);
+        st->bytes_needed = ls_dense_bytes(n);
         return LS_SOLVER_NOMEM;
     }
     info = LAPACKE_dpocon_work(LAPACK_COL_MAJOR, 'L', n, d->lu, n, anorm, &rcond, work, iwork);
