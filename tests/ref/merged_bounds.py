@@ -21,6 +21,18 @@ double it denotes):
     Y_i seen at node i to ground, Y_K = P_K, Y_i = P_i || (S_{i+1} + Y_{i+1}),
     then V_i = V_{i-1} Y_i / (S_i + Y_i).
 
+  * resistor grids, 8 x 8 (per result) and 21 x 21 (per node), of 1.00 to
+    1.99 Ohm fed at one corner and grounded at the other, solved exactly by
+    banded Gaussian elimination.
+
+Which bounds the program takes: on the ladders the refinement's first
+correction already leaves every unknown right to double precision, so it stops
+there and the bounds sum the residual afresh (the path of every bound before);
+on the grids the first correction leaves the unknowns near the grounded corner
+short of it, the second moves nothing beyond the tails, and the bounds start
+from that step's residual (a breakpoint on the two branches of ls_acc_bounds
+showed each; unit-acc_merge asserts it for grids like these).
+
 Checked for every node voltage and every part current: |reported - exact| <=
 reported bound (the source's branch current has none above 400 unknowns); and that the bounds are of the kind expected ("per-result" or
 "per-node").  Exit 0 when every ladder passes.
@@ -73,6 +85,64 @@ def ladder(rng, k):
     return "\n".join(lines) + "\n", nodes, parts
 
 
+def grid(rng, k):
+    """A k x k grid of resistors of 1.00 .. 1.99 Ohm: node (i, j) is n{i}_{j}, the corner
+    (k-1, k-1) is ground g, a grounded 1 V source feeds n0_0.  Solved exactly by banded
+    Gaussian elimination of the nodal equations (symmetric positive definite, no
+    pivoting) with the two fixed nodes moved to the right-hand side."""
+    lines=["ground g","voltage vin g -> n0_0 1"]
+    name=lambda i,j: "g" if (i,j)==(k-1,k-1) else "n%d_%d"%(i,j)
+    res=[]
+    for i in range(k):
+        for j in range(k):
+            for (di,dj,tag) in ((0,1,"h"),(1,0,"v")):
+                a,b=i+di,j+dj
+                if a<k and b<k:
+                    t="1.%02d"%rng.randint(0,99)
+                    lines.append("resistor r%s%d_%d %s -> %s %s"%(tag,i,j,name(i,j),name(a,b),t))
+                    res.append(("r%s%d_%d"%(tag,i,j),(i,j),(a,b),Fraction(t)))
+    # unknowns: every node but ground and n0_0 (fixed at 1 V), row-major
+    idx={}
+    for i in range(k):
+        for j in range(k):
+            if (i,j) not in ((0,0),(k-1,k-1)):
+                idx[(i,j)]=len(idx)
+    n=len(idx)
+    A=[dict() for _ in range(n)]; rhs=[Fraction(0)]*n
+    fixed={(0,0):Fraction(1),(k-1,k-1):Fraction(0)}
+    for (_,p,q,r) in res:
+        g=1/r
+        for (u,w) in ((p,q),(q,p)):
+            if u in idx:
+                iu=idx[u]
+                A[iu][iu]=A[iu].get(iu,0)+g
+                if w in idx:
+                    A[iu][idx[w]]=A[iu].get(idx[w],0)-g
+                else:
+                    rhs[iu]+=g*fixed[w]
+    # banded elimination (SPD, no pivoting)
+    for c in range(n):
+        piv=A[c][c]
+        for r in range(c+1,min(n,c+k+1)):
+            f=A[r].get(c)
+            if not f: continue
+            f=f/piv
+            for cc,v in A[c].items():
+                if cc>=c:
+                    A[r][cc]=A[r].get(cc,0)-f*v
+            rhs[r]-=f*rhs[c]
+    x=[Fraction(0)]*n
+    for c in range(n-1,-1,-1):
+        s=rhs[c]-sum(v*x[cc] for cc,v in A[c].items() if cc>c)
+        x[c]=s/A[c][c]
+    volt={name(i,j):(fixed[(i,j)] if (i,j) in fixed else x[idx[(i,j)]]) for i in range(k) for j in range(k)}
+    nodes=dict(volt)
+    parts={}
+    for (nm,p,q,r) in res:
+        parts[nm]=(volt[name(*p)]-volt[name(*q)])/r
+    return "\n".join(lines)+"\n", nodes, parts
+
+
 def check(binary, text, nodes, parts, expect_kind, verbose):
     """Failures (strings) of one ladder."""
     with tempfile.TemporaryDirectory() as d:
@@ -120,12 +190,13 @@ def main():
     a = ap.parse_args()
     rng = random.Random(a.seed)
     failed = 0
-    cases = [(40, "per-result"), (40, "per-result"), (450, "per-node"), (700, "per-node")]
-    for k, kind in cases:
-        text, nodes, parts = ladder(rng, k)
+    cases = [("ladder", 40, "per-result"), ("ladder", 40, "per-result"), ("ladder", 450, "per-node"),
+             ("ladder", 700, "per-node"), ("grid", 8, "per-result"), ("grid", 21, "per-node")]
+    for what, k, kind in cases:
+        text, nodes, parts = (ladder if what == "ladder" else grid)(rng, k)
         bad = check(a.binary, text, nodes, parts, kind, a.verbose)
         for b in bad[:10]:
-            print("ladder of %d rungs: %s" % (k, b))
+            print("%s %d: %s" % (what, k, b))
         failed += bool(bad)
     print("%d passed, %d failed" % (len(cases) - failed, failed))
     return 1 if failed else 0
