@@ -258,10 +258,15 @@ if check(seen is not None, "a tol run of over 1.25 s could be made"):
     rc, out, err = run(["tol", big, "mid", "--trials", str(trials)])
     check(rc == 0 and "\r" not in err, "no progress when stderr is not a terminal (a pipe)", repr(err[-300:]))
 
-# progress for sweep points, the same way (doubling the points until a run takes over 1.25 s)
-swp = circuit("sweep.stack", "let r = 10k\nground gnd\nvoltage v gnd -> a 12 V\nresistor rt a -> m r\n"
-              "resistor rb m -> gnd 10k\n")
-steps, seen = 8000, None
+# progress for sweep points, the same way (doubling the points until a run takes over 1.25 s).  The
+# points are a 400-section ladder's, so the time goes to solving them, where the progress line is
+# kept, and not to writing the table (a tiny circuit's 64 000 rows under a busy machine's load
+# could take most of a run's time after the last point, and no line was due)
+ladder = "".join("resistor s%d l%d -> l%d 1k\nresistor h%d l%d -> gnd r\n" % (i, i, i + 1, i, i + 1)
+                 for i in range(400))
+swp = circuit("sweep.stack", "let r = 10k\nground gnd\nvoltage v gnd -> l0 12 V\n" + ladder +
+              "resistor rt l400 -> m 1k\nresistor rb m -> gnd 10k\n")
+steps, seen = 250, None
 while steps <= 100000:
     rc, tty, _, dt = run_pty([LOADSTACK, "sweep", swp, "r", "1k", "100k", "m", "--steps", str(steps)], env=env,
                              cwd=TMP)
