@@ -1173,7 +1173,8 @@ static void corner_idx(const fit_run *r, const bb_box *x, const int *act, int k,
 
 /* A second thread's own operating point for candidate solves (the
  * session's netlist record with diagnostics of its own, as tol's trials
- * have), and its share of a batch of corners. */
+ * have), and the thread itself: started once per search and woken for each
+ * batch (batch_solve), so a batch costs a wake-up, not a thread. */
 typedef struct fit_worker {
     fit_run *r;
     ls_netlist nl;
@@ -1183,51 +1184,94 @@ typedef struct fit_worker {
     ls_fit_check *checks;    /* nslots */
     bool nomem;
     long fact0;              /* its solver's factorizations after its own solve */
-    bb_state *b;             /* the batch: corners pend[from..to) */
-    int from, to;
+    pthread_t tid;
+    bool started;
+    pthread_mutex_t mu;
+    pthread_cond_t wake;     /* a new batch (gen moved) or quit */
+    pthread_cond_t done_cv;  /* every entry of the batch solved */
+    unsigned gen;            /* batches handed out */
+    bool quit;
+    /* the batch: entries pend[0..np) of b, taken one at a time by either
+     * thread under mu (an entry is about 30 us; taking one, tens of ns) */
+    bb_state *b;
+    int np, next, done;
 } fit_worker;
 
-/* Solve entries pend[from..to) of the batch in b on op: a box's corners
- * into their rows and summaries, or (b->ranking) combinations wanted only
- * if they rank, each with whether it was judged whole
- * (evaluate_if_it_can_rank_on: that reads the kept list, which nothing
- * changes while a batch is solved). */
-static void corner_share(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int from, int to)
+/* Solve entry pend[i] of the batch in b on op: a box's corner into its row
+ * and summary, or (b->ranking) a combination wanted only if it ranks, with
+ * whether it was judged whole (evaluate_if_it_can_rank_on: that reads the
+ * kept list, which nothing changes while a batch is solved). */
+static void batch_entry(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int i)
 {
-    for (int i = from; i < to; i++) {
-        int m = b->pend[i];
-        if (b->ranking)
-            b->whole[m] = evaluate_if_it_can_rank_on(r, op, &b->ccand[m], nomem);
-        else
-            probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+    int m = b->pend[i];
+    if (b->ranking)
+        b->whole[m] = evaluate_if_it_can_rank_on(r, op, &b->ccand[m], nomem);
+    else
+        probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+}
+
+/* Take and solve entries of batch `gen` until none is left.  Each entry's
+ * results go to its own place and depend on its values alone, so which
+ * thread takes which entry changes nothing but the time.  The batch ends
+ * when every entry is solved, not when the worker wakes: a worker that
+ * wakes late finds nothing left of its batch and goes back to sleep. */
+static void batch_take(fit_worker *w, unsigned gen, ls_op *op, bool *nomem, ls_fit_check *checks)
+{
+    pthread_mutex_lock(&w->mu);
+    while (w->gen == gen && w->next < w->np) {
+        int i = w->next++;
+        bb_state *b = w->b;
+        pthread_mutex_unlock(&w->mu);
+        batch_entry(w->r, b, op, nomem, checks, i);
+        pthread_mutex_lock(&w->mu);
+        if (++w->done == w->np)
+            pthread_cond_signal(&w->done_cv);
     }
+    pthread_mutex_unlock(&w->mu);
 }
 
 static void *worker_main(void *arg)
 {
     fit_worker *w = arg;
-    corner_share(w->r, w->b, &w->op, &w->nomem, w->checks, w->from, w->to);
+    unsigned seen = 0;
+    pthread_mutex_lock(&w->mu);
+    for (;;) {
+        while (!w->quit && seen == w->gen)
+            pthread_cond_wait(&w->wake, &w->mu);
+        if (w->quit)
+            break;
+        seen = w->gen;
+        pthread_mutex_unlock(&w->mu);
+        batch_take(w, seen, &w->op, &w->nomem, w->checks);
+        pthread_mutex_lock(&w->mu);
+    }
+    pthread_mutex_unlock(&w->mu);
     return NULL;
 }
 
 /* Solve the np entries of b->pend, on two threads when there is a worker
- * and enough of them. */
+ * and enough of them: both take entries one at a time until none is left. */
 static void batch_solve(fit_run *r, bb_state *b, int np)
 {
     fit_worker *w = b->worker;
-    pthread_t tid;
-    bool two = w && np >= 4;
-    if (two) {
-        w->b = b;
-        w->from = np / 2;
-        w->to = np;
-        two = pthread_create(&tid, NULL, worker_main, w) == 0;
+    if (!w || np < 4) {
+        for (int i = 0; i < np; i++)
+            batch_entry(r, b, r->f->op, &r->nomem, b->checks, i);
+        return;
     }
-    corner_share(r, b, r->f->op, &r->nomem, b->checks, 0, two ? np / 2 : np);
-    if (two) {
-        pthread_join(tid, NULL);
-        r->nomem |= w->nomem;
-    }
+    pthread_mutex_lock(&w->mu);
+    w->b = b;
+    w->np = np;
+    w->next = w->done = 0;
+    unsigned gen = ++w->gen;
+    pthread_cond_signal(&w->wake);
+    pthread_mutex_unlock(&w->mu);
+    batch_take(w, gen, r->f->op, &r->nomem, b->checks);
+    pthread_mutex_lock(&w->mu);
+    while (w->done < w->np)
+        pthread_cond_wait(&w->done_cv, &w->mu);
+    r->nomem |= w->nomem;
+    pthread_mutex_unlock(&w->mu);
 }
 
 /* Threads for the search: LOADSTACK_THREADS when set, else the online
@@ -1239,11 +1283,13 @@ static int fit_threads(void)
     return n >= 2 ? 2 : 1;
 }
 
+static void worker_free(fit_worker *w);
+
 /* Set up the second thread's op (solved once at the written values, so
  * its symbolic analysis matches the session's: every candidate then starts
- * from the same state on either op, and solves to the same bits).  Returns
- * the worker, or NULL (one thread: not asked for, or no memory, or it did
- * not solve). */
+ * from the same state on either op, and solves to the same bits) and start
+ * the thread.  Returns the worker, or NULL (one thread: not asked for, or
+ * no memory, or it did not solve, or the thread did not start). */
 static fit_worker *worker_new(fit_run *r)
 {
     if (fit_threads() < 2)
@@ -1252,6 +1298,9 @@ static fit_worker *worker_new(fit_run *r)
     if (!w)
         return NULL;
     w->r = r;
+    pthread_mutex_init(&w->mu, NULL);
+    pthread_cond_init(&w->wake, NULL);
+    pthread_cond_init(&w->done_cv, NULL);
     ls_arena_init(&w->arena);
     ls_diags_init(&w->diags, &w->arena);
     w->nl = *r->f->nl;
@@ -1262,27 +1311,36 @@ static fit_worker *worker_new(fit_run *r)
     if (w->checks && ls_op_solve(&w->op, &w->nl, &opt) == LS_DONE) {
         w->fact0 = w->op.solver ? ls_solver_stats_of(w->op.solver)->factorizations : 0;
         candidate_path(r->f, &w->op, true);   /* its candidates are the search's */
-        return w;
+        w->started = pthread_create(&w->tid, NULL, worker_main, w) == 0;
+        if (w->started)
+            return w;
     }
-    ls_op_free(&w->op);
-    free(w->checks);
-    ls_diags_free(&w->diags);
-    ls_arena_free(&w->arena);
-    free(w);
+    worker_free(w);
     return NULL;
 }
 
-/* Free the worker, its candidate factorizations counted into the run's. */
+/* Stop the thread and free the worker, its candidate factorizations
+ * counted into the run's. */
 static void worker_free(fit_worker *w)
 {
     if (!w)
         return;
-    if (w->op.solver)
+    if (w->started) {
+        pthread_mutex_lock(&w->mu);
+        w->quit = true;
+        pthread_cond_signal(&w->wake);
+        pthread_mutex_unlock(&w->mu);
+        pthread_join(w->tid, NULL);
+    }
+    if (w->started && w->op.solver)
         w->r->worker_factorizations += ls_solver_stats_of(w->op.solver)->factorizations - w->fact0;
     ls_op_free(&w->op);
     free(w->checks);
     ls_diags_free(&w->diags);
     ls_arena_free(&w->arena);
+    pthread_cond_destroy(&w->wake);
+    pthread_cond_destroy(&w->done_cv);
+    pthread_mutex_destroy(&w->mu);
     free(w);
 }
 
