@@ -315,11 +315,14 @@ static bool solve_on(const fit_run *r, ls_op *op, const double *values, bool *no
 
 /* Does the search's fast path apply to the candidates of f?  Their solves
  * then test each matrix for singularity only (ls_solver_singularity_only:
- * the same factors, solution and verdict, without the condition estimate
- * where a cheap floor shows it would pass).  Nothing a candidate reports
- * reads the estimate, except the iteration of a circuit with junctions
- * (newton.c, polish), which then keeps the full path; and f->plain keeps
- * it for the tests' comparison. */
+ * the same verdict without the condition estimate where a cheap floor shows
+ * it would pass) and factor and solve with the dense backend's own LU
+ * (ls_solver_own_lu: the same method without LAPACK's calls, its figures
+ * equal to the full path's up to rounding, which the search's ties absorb:
+ * docs/fit.md, "The search").  Nothing a candidate reports reads the
+ * estimate, except the iteration of a circuit with junctions (newton.c,
+ * polish), which then keeps the full path; and f->plain keeps it for the
+ * tests' comparison. */
 static bool fast_path(const ls_fit_study *f)
 {
     if (f->plain)
@@ -335,8 +338,10 @@ static bool fast_path(const ls_fit_study *f)
  * written values' solve go back to the full path. */
 static void candidate_path(const ls_fit_study *f, ls_op *op, bool on)
 {
-    if (op->solver)
+    if (op->solver) {
         ls_solver_singularity_only(op->solver, on && fast_path(f));
+        ls_solver_own_lu(op->solver, on && fast_path(f));
+    }
 }
 
 /* solve_on the session's op. */
@@ -750,6 +755,10 @@ static int continuous(fit_run *r, const double *start, double *obj)
     nlopt_opt o = dim > 0 ? nlopt_create(NLOPT_LN_COBYLA, (unsigned)dim) : NULL;
     int rc = -1;
     if (c.last_y && c.checks && y && lb && ub && step && o) {
+        /* on LAPACK's factors: the optimiser's path turns on the last bits
+         * of every figure, and the plain path must take the same one */
+        if (f->op->solver)
+            ls_solver_own_lu(f->op->solver, false);
         for (int j = 0; j < n; j++) {
             lb[j] = log(f->vars[j].lo);
             ub[j] = log(f->vars[j].hi);
@@ -775,6 +784,8 @@ static int continuous(fit_run *r, const double *start, double *obj)
         nlopt_set_xtol_rel(o, 1e-4);
         nlopt_set_maxeval(o, 100 * (n + 1) < 1500 ? 100 * (n + 1) : 1500);
         f->nlopt_status = (int)nlopt_optimize(o, y, obj);
+        if (f->op->solver)
+            ls_solver_own_lu(f->op->solver, fast_path(f));
         for (int j = 0; j < n; j++)
             f->vars[j].optimum = exp(fmin(ub[j], fmax(lb[j], y[j])));
         rc = 0;
@@ -2183,6 +2194,7 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     f->found = f->limit = NAN;
     f->limit_why = NULL;
     f->limit_solves = 0;
+    f->fell_back = false;
     f->refused = LS_FIT_SEARCHED;
     if (f->nl->nfrees == 0 || f->nl->nfrees > LS_FIT_MAX_FREE) {
         f->refused = f->nl->nfrees == 0 ? LS_FIT_NOFREE : LS_FIT_TOOMANY;
@@ -2207,8 +2219,34 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     candidate_path(f, f->op, true);
     bool searched = r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0;
     candidate_path(f, f->op, false);
+    bool fast_meets = searched && r.nkeep > 0 && r.keep[0].meets;
     if (searched && rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_DONE;
+    if (code == LS_DONE && fast_meets && !r.keep[0].meets && fast_path(f)) {
+        /* the chosen design passed every check on the fast path and fails
+         * one on the full path (a check within rounding of its limit): the
+         * search again, every candidate on the full path, and say so */
+        f->fell_back = true;
+        f->plain = true;
+        code = put_back(&r, code, &scratch);
+        for (int i = 0; i < r.nkeep; i++)
+            cand_free(&r.keep[i]);
+        free(r.keep);
+        free(r.slots);
+        free(r.x0);
+        ls_run_free(&r.run0);
+        free(r.seen);
+        free(r.scratch);
+        f->nl->diags = kept;
+        ls_diags_free(&scratch);
+        for (int j = 0; j < f->nvars; j++)
+            free(f->vars[j].values);
+        free(f->vars);
+        code = ls_fit_run(f);
+        f->plain = false;
+        f->fell_back = true;
+        return code;
+    }
     f->factorizations = (ss ? ss->factorizations - fact0 : 0) + r.worker_factorizations;
     f->analyses = ss ? ss->analyses - an0 : 0;
     code = put_back(&r, code, &scratch);
