@@ -208,6 +208,23 @@ static int own_getrf(int n, double *restrict a, lapack_int *restrict ipiv, doubl
     return 0;
 }
 
+/* sum of u[i] v[i] for i in [from, to): four partial sums, so that the
+ * additions do not wait on each other one by one. */
+static double dot(const double *restrict u, const double *restrict v, int from, int to)
+{
+    double s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    int i = from;
+    for (; i + 4 <= to; i += 4) {
+        s0 += u[i] * v[i];
+        s1 += u[i + 1] * v[i + 1];
+        s2 += u[i + 2] * v[i + 2];
+        s3 += u[i + 3] * v[i + 3];
+    }
+    for (; i < to; i++)
+        s0 += u[i] * v[i];
+    return (s0 + s1) + (s2 + s3);
+}
+
 /* Solve A x = b (transpose: A^T x = b) in place with own_getrf's factors. */
 static void own_getrs(int n, const double *restrict lu, const lapack_int *restrict ipiv, const double *restrict dinv,
                       double *restrict b, bool transpose)
@@ -237,17 +254,11 @@ static void own_getrs(int n, const double *restrict lu, const lapack_int *restri
     }
     for (int k = 0; k < n; k++) {              /* U^T z = b */
         const double *restrict ck = lu + (size_t)k * n;
-        double s = b[k];
-        for (int i = 0; i < k; i++)
-            s -= ck[i] * b[i];
-        b[k] = s * dinv[k];
+        b[k] = (b[k] - dot(ck, b, 0, k)) * dinv[k];
     }
     for (int k = n - 1; k >= 0; k--) {         /* L^T w = z */
         const double *restrict ck = lu + (size_t)k * n;
-        double s = b[k];
-        for (int i = k + 1; i < n; i++)
-            s -= ck[i] * b[i];
-        b[k] = s;
+        b[k] -= dot(ck, b, k + 1, n);
     }
     for (int k = n - 1; k >= 0; k--) {         /* x = P^T w */
         int p = ipiv[k] - 1;
