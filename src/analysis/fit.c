@@ -399,7 +399,7 @@ static bool cannot_rank(const fit_run *r, double margin, double worst, int faile
         return false;
     const ls_fit_cand *ref = &r->keep[r->cap_keep - 1];
     if (!ref->meets) /* by how close it comes: worst only falls, failures only grow */
-        return failed > 0 && worst < ref->worst;
+        return failed > 0 && clearly_below(worst, ref->worst);
     if (failed > 0)
         return true;  /* infeasible now, infeasible with its ports */
     if (r->f->goal == LS_FIT_CURRENT)
@@ -505,9 +505,11 @@ static int cmp_cand(ls_fit_goal goal, const ls_fit_cand *a, const ls_fit_cand *b
 {
     if (a->meets != b->meets)
         return a->meets ? -1 : 1;
-    if (!a->meets) {
-        if (a->worst != b->worst)
-            return a->worst > b->worst ? -1 : 1;
+    if (!a->meets) { /* by how close: worst margins within a tie are equal */
+        if (clearly_below(b->worst, a->worst))
+            return -1;
+        if (clearly_below(a->worst, b->worst))
+            return 1;
         return (a->failed > b->failed) - (a->failed < b->failed);
     }
     for (int k = 0; k < 3; k++) {
