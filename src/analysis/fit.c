@@ -2184,20 +2184,30 @@ static ls_outcome put_back(fit_run *r, ls_outcome code, const ls_diags *scratch)
     return code;
 }
 
-ls_outcome ls_fit_run(ls_fit_study *f)
+/* The study's results cleared before a search. */
+static void reset_out(ls_fit_study *f)
 {
     f->vars = NULL;
     f->best = NULL;
     f->nvars = f->nbest = 0;
     f->evaluated = f->nlopt_evals = 0;
     f->nlopt_status = 0;
-    f->exhaustive = f->any_feasible = f->have_yield = f->proven = false;
+    f->exhaustive = f->any_feasible = f->have_yield = f->proven = f->fell_back = false;
     f->bb_solves = f->bb_boxes = f->bb_pruned = f->bb_enumerated = f->bb_unbounded = 0;
     f->found = f->limit = NAN;
     f->limit_why = NULL;
     f->limit_solves = 0;
-    f->fell_back = false;
     f->refused = LS_FIT_SEARCHED;
+}
+
+/* One search of the study (ls_fit_run).  *redo is set when the chosen
+ * design passed every check on the fast path and fails one on the full
+ * path (a check within rounding of its limit): the search must run again
+ * with every candidate on the full path; nothing is kept then. */
+static ls_outcome fit_search(ls_fit_study *f, bool *redo)
+{
+    reset_out(f);
+    *redo = false;
     if (f->nl->nfrees == 0 || f->nl->nfrees > LS_FIT_MAX_FREE) {
         f->refused = f->nl->nfrees == 0 ? LS_FIT_NOFREE : LS_FIT_TOOMANY;
         return LS_BAD_REQUEST;
@@ -2221,34 +2231,10 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     candidate_path(f, f->op, true);
     bool searched = r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0;
     candidate_path(f, f->op, false);
-    bool fast_meets = searched && r.nkeep > 0 && r.keep[0].meets;
+    bool fast_meets = searched && r.nkeep > 0 && r.keep[0].meets && fast_path(f);
     if (searched && rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_DONE;
-    if (code == LS_DONE && fast_meets && !r.keep[0].meets && fast_path(f)) {
-        /* the chosen design passed every check on the fast path and fails
-         * one on the full path (a check within rounding of its limit): the
-         * search again, every candidate on the full path, and say so */
-        f->fell_back = true;
-        f->plain = true;
-        code = put_back(&r, code, &scratch);
-        for (int i = 0; i < r.nkeep; i++)
-            cand_free(&r.keep[i]);
-        free(r.keep);
-        free(r.slots);
-        free(r.x0);
-        ls_run_free(&r.run0);
-        free(r.seen);
-        free(r.scratch);
-        f->nl->diags = kept;
-        ls_diags_free(&scratch);
-        for (int j = 0; j < f->nvars; j++)
-            free(f->vars[j].values);
-        free(f->vars);
-        code = ls_fit_run(f);
-        f->plain = false;
-        f->fell_back = true;
-        return code;
-    }
+    *redo = code == LS_DONE && fast_meets && !r.keep[0].meets;
     f->factorizations = (ss ? ss->factorizations - fact0 : 0) + r.worker_factorizations;
     f->analyses = ss ? ss->analyses - an0 : 0;
     code = put_back(&r, code, &scratch);
@@ -2257,7 +2243,7 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     f->best = r.keep;
     f->nbest = r.nkeep;
     f->any_feasible = r.nkeep > 0 && r.keep[0].meets;
-    if (code != LS_DONE) {
+    if (code != LS_DONE || *redo) {
         for (int i = 0; i < r.nkeep; i++)
             cand_free(&r.keep[i]);
         free(r.keep);
@@ -2269,6 +2255,26 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     ls_run_free(&r.run0);
     free(r.seen);
     free(r.scratch);
+    return code;
+}
+
+/* The search; when the fast path's choice fails on the full path
+ * (fit_search's redo), again with every candidate on the full path, and
+ * f->fell_back says so (docs/fit.md, "The search"). */
+ls_outcome ls_fit_run(ls_fit_study *f)
+{
+    bool redo;
+    ls_outcome code = fit_search(f, &redo);
+    if (!redo)
+        return code;
+    for (int j = 0; j < f->nvars; j++)
+        free(f->vars[j].values);
+    free(f->vars);
+    bool plain = f->plain;
+    f->plain = true;
+    code = fit_search(f, &redo);
+    f->plain = plain;
+    f->fell_back = true;
     return code;
 }
 

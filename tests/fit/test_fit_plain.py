@@ -84,7 +84,8 @@ def same(args, env=None):
     fast, full = outs
     what = " ".join(os.path.basename(a) for a in args) + (f" {env}" if env else "")
     check(full[1] != "", f"{what}: the plain path wrote a report (exit {full[0]}: {full[2]})")
-    check(fast[0] == full[0] and fast[2] == full[2], f"{what}: the fast path's exit code and messages are the plain path's")
+    check(fast[0] == full[0] and fast[2] == full[2],
+          f"{what}: the fast path's exit code and messages are the plain path's")
     try:
         a, b = dict(flat(json.loads(fast[1]))), dict(flat(json.loads(full[1])))
     except json.JSONDecodeError as ex:

@@ -14,8 +14,8 @@
 int main(int argc, char **argv)
 {
     int n;
-    if (argc != 3 || (strcmp(argv[1], "own") && strcmp(argv[1], "lapack")) || (strcmp(argv[2], "N") && strcmp(argv[2], "T")) ||
-        scanf("%d", &n) != 1 || n < 1 || n > LS_DENSE_OWN_MAX) {
+    if (argc != 3 || (strcmp(argv[1], "own") && strcmp(argv[1], "lapack")) ||
+        (strcmp(argv[2], "N") && strcmp(argv[2], "T")) || scanf("%d", &n) != 1 || n < 1 || n > LS_DENSE_OWN_MAX) {
         fprintf(stderr, "usage: %s own|lapack N|T < system\n", argv[0]);
         return 2;
     }
