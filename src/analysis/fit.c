@@ -315,11 +315,14 @@ static bool solve_on(const fit_run *r, ls_op *op, const double *values, bool *no
 
 /* Does the search's fast path apply to the candidates of f?  Their solves
  * then test each matrix for singularity only (ls_solver_singularity_only:
- * the same factors, solution and verdict, without the condition estimate
- * where a cheap floor shows it would pass).  Nothing a candidate reports
- * reads the estimate, except the iteration of a circuit with junctions
- * (newton.c, polish), which then keeps the full path; and f->plain keeps
- * it for the tests' comparison. */
+ * the same verdict without the condition estimate where a cheap floor shows
+ * it would pass) and factor and solve with the dense backend's own LU
+ * (ls_solver_own_lu: the same method without LAPACK's calls, its figures
+ * equal to the full path's up to rounding, which the search's ties absorb:
+ * docs/fit.md, "The search").  Nothing a candidate reports reads the
+ * estimate, except the iteration of a circuit with junctions (newton.c,
+ * polish), which then keeps the full path; and f->plain keeps it for the
+ * tests' comparison. */
 static bool fast_path(const ls_fit_study *f)
 {
     if (f->plain)
@@ -335,8 +338,10 @@ static bool fast_path(const ls_fit_study *f)
  * written values' solve go back to the full path. */
 static void candidate_path(const ls_fit_study *f, ls_op *op, bool on)
 {
-    if (op->solver)
+    if (op->solver) {
         ls_solver_singularity_only(op->solver, on && fast_path(f));
+        ls_solver_own_lu(op->solver, on && fast_path(f));
+    }
 }
 
 /* solve_on the session's op. */
@@ -394,7 +399,7 @@ static bool cannot_rank(const fit_run *r, double margin, double worst, int faile
         return false;
     const ls_fit_cand *ref = &r->keep[r->cap_keep - 1];
     if (!ref->meets) /* by how close it comes: worst only falls, failures only grow */
-        return failed > 0 && worst < ref->worst;
+        return failed > 0 && clearly_below(worst, ref->worst);
     if (failed > 0)
         return true;  /* infeasible now, infeasible with its ports */
     if (r->f->goal == LS_FIT_CURRENT)
@@ -500,9 +505,11 @@ static int cmp_cand(ls_fit_goal goal, const ls_fit_cand *a, const ls_fit_cand *b
 {
     if (a->meets != b->meets)
         return a->meets ? -1 : 1;
-    if (!a->meets) {
-        if (a->worst != b->worst)
-            return a->worst > b->worst ? -1 : 1;
+    if (!a->meets) { /* by how close: worst margins within a tie are equal */
+        if (clearly_below(b->worst, a->worst))
+            return -1;
+        if (clearly_below(a->worst, b->worst))
+            return 1;
         return (a->failed > b->failed) - (a->failed < b->failed);
     }
     for (int k = 0; k < 3; k++) {
@@ -750,6 +757,10 @@ static int continuous(fit_run *r, const double *start, double *obj)
     nlopt_opt o = dim > 0 ? nlopt_create(NLOPT_LN_COBYLA, (unsigned)dim) : NULL;
     int rc = -1;
     if (c.last_y && c.checks && y && lb && ub && step && o) {
+        /* on LAPACK's factors: the optimiser's path turns on the last bits
+         * of every figure, and the plain path must take the same one */
+        if (f->op->solver)
+            ls_solver_own_lu(f->op->solver, false);
         for (int j = 0; j < n; j++) {
             lb[j] = log(f->vars[j].lo);
             ub[j] = log(f->vars[j].hi);
@@ -775,6 +786,8 @@ static int continuous(fit_run *r, const double *start, double *obj)
         nlopt_set_xtol_rel(o, 1e-4);
         nlopt_set_maxeval(o, 100 * (n + 1) < 1500 ? 100 * (n + 1) : 1500);
         f->nlopt_status = (int)nlopt_optimize(o, y, obj);
+        if (f->op->solver)
+            ls_solver_own_lu(f->op->solver, fast_path(f));
         for (int j = 0; j < n; j++)
             f->vars[j].optimum = exp(fmin(ub[j], fmax(lb[j], y[j])));
         rc = 0;
@@ -1173,7 +1186,8 @@ static void corner_idx(const fit_run *r, const bb_box *x, const int *act, int k,
 
 /* A second thread's own operating point for candidate solves (the
  * session's netlist record with diagnostics of its own, as tol's trials
- * have), and its share of a batch of corners. */
+ * have), and the thread itself: started once per search and woken for each
+ * batch (batch_solve), so a batch costs a wake-up, not a thread. */
 typedef struct fit_worker {
     fit_run *r;
     ls_netlist nl;
@@ -1183,51 +1197,94 @@ typedef struct fit_worker {
     ls_fit_check *checks;    /* nslots */
     bool nomem;
     long fact0;              /* its solver's factorizations after its own solve */
-    bb_state *b;             /* the batch: corners pend[from..to) */
-    int from, to;
+    pthread_t tid;
+    bool started;
+    pthread_mutex_t mu;
+    pthread_cond_t wake;     /* a new batch (gen moved) or quit */
+    pthread_cond_t done_cv;  /* every entry of the batch solved */
+    unsigned gen;            /* batches handed out */
+    bool quit;
+    /* the batch: entries pend[0..np) of b, taken one at a time by either
+     * thread under mu (an entry is about 30 us; taking one, tens of ns) */
+    bb_state *b;
+    int np, next, done;
 } fit_worker;
 
-/* Solve entries pend[from..to) of the batch in b on op: a box's corners
- * into their rows and summaries, or (b->ranking) combinations wanted only
- * if they rank, each with whether it was judged whole
- * (evaluate_if_it_can_rank_on: that reads the kept list, which nothing
- * changes while a batch is solved). */
-static void corner_share(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int from, int to)
+/* Solve entry pend[i] of the batch in b on op: a box's corner into its row
+ * and summary, or (b->ranking) a combination wanted only if it ranks, with
+ * whether it was judged whole (evaluate_if_it_can_rank_on: that reads the
+ * kept list, which nothing changes while a batch is solved). */
+static void batch_entry(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int i)
 {
-    for (int i = from; i < to; i++) {
-        int m = b->pend[i];
-        if (b->ranking)
-            b->whole[m] = evaluate_if_it_can_rank_on(r, op, &b->ccand[m], nomem);
-        else
-            probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+    int m = b->pend[i];
+    if (b->ranking)
+        b->whole[m] = evaluate_if_it_can_rank_on(r, op, &b->ccand[m], nomem);
+    else
+        probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+}
+
+/* Take and solve entries of batch `gen` until none is left.  Each entry's
+ * results go to its own place and depend on its values alone, so which
+ * thread takes which entry changes nothing but the time.  The batch ends
+ * when every entry is solved, not when the worker wakes: a worker that
+ * wakes late finds nothing left of its batch and goes back to sleep. */
+static void batch_take(fit_worker *w, unsigned gen, ls_op *op, bool *nomem, ls_fit_check *checks)
+{
+    pthread_mutex_lock(&w->mu);
+    while (w->gen == gen && w->next < w->np) {
+        int i = w->next++;
+        bb_state *b = w->b;
+        pthread_mutex_unlock(&w->mu);
+        batch_entry(w->r, b, op, nomem, checks, i);
+        pthread_mutex_lock(&w->mu);
+        if (++w->done == w->np)
+            pthread_cond_signal(&w->done_cv);
     }
+    pthread_mutex_unlock(&w->mu);
 }
 
 static void *worker_main(void *arg)
 {
     fit_worker *w = arg;
-    corner_share(w->r, w->b, &w->op, &w->nomem, w->checks, w->from, w->to);
+    unsigned seen = 0;
+    pthread_mutex_lock(&w->mu);
+    for (;;) {
+        while (!w->quit && seen == w->gen)
+            pthread_cond_wait(&w->wake, &w->mu);
+        if (w->quit)
+            break;
+        seen = w->gen;
+        pthread_mutex_unlock(&w->mu);
+        batch_take(w, seen, &w->op, &w->nomem, w->checks);
+        pthread_mutex_lock(&w->mu);
+    }
+    pthread_mutex_unlock(&w->mu);
     return NULL;
 }
 
 /* Solve the np entries of b->pend, on two threads when there is a worker
- * and enough of them. */
+ * and enough of them: both take entries one at a time until none is left. */
 static void batch_solve(fit_run *r, bb_state *b, int np)
 {
     fit_worker *w = b->worker;
-    pthread_t tid;
-    bool two = w && np >= 4;
-    if (two) {
-        w->b = b;
-        w->from = np / 2;
-        w->to = np;
-        two = pthread_create(&tid, NULL, worker_main, w) == 0;
+    if (!w || np < 4) {
+        for (int i = 0; i < np; i++)
+            batch_entry(r, b, r->f->op, &r->nomem, b->checks, i);
+        return;
     }
-    corner_share(r, b, r->f->op, &r->nomem, b->checks, 0, two ? np / 2 : np);
-    if (two) {
-        pthread_join(tid, NULL);
-        r->nomem |= w->nomem;
-    }
+    pthread_mutex_lock(&w->mu);
+    w->b = b;
+    w->np = np;
+    w->next = w->done = 0;
+    unsigned gen = ++w->gen;
+    pthread_cond_signal(&w->wake);
+    pthread_mutex_unlock(&w->mu);
+    batch_take(w, gen, r->f->op, &r->nomem, b->checks);
+    pthread_mutex_lock(&w->mu);
+    while (w->done < w->np)
+        pthread_cond_wait(&w->done_cv, &w->mu);
+    r->nomem |= w->nomem;
+    pthread_mutex_unlock(&w->mu);
 }
 
 /* Threads for the search: LOADSTACK_THREADS when set, else the online
@@ -1239,11 +1296,13 @@ static int fit_threads(void)
     return n >= 2 ? 2 : 1;
 }
 
+static void worker_free(fit_worker *w);
+
 /* Set up the second thread's op (solved once at the written values, so
  * its symbolic analysis matches the session's: every candidate then starts
- * from the same state on either op, and solves to the same bits).  Returns
- * the worker, or NULL (one thread: not asked for, or no memory, or it did
- * not solve). */
+ * from the same state on either op, and solves to the same bits) and start
+ * the thread.  Returns the worker, or NULL (one thread: not asked for, or
+ * no memory, or it did not solve, or the thread did not start). */
 static fit_worker *worker_new(fit_run *r)
 {
     if (fit_threads() < 2)
@@ -1252,6 +1311,9 @@ static fit_worker *worker_new(fit_run *r)
     if (!w)
         return NULL;
     w->r = r;
+    pthread_mutex_init(&w->mu, NULL);
+    pthread_cond_init(&w->wake, NULL);
+    pthread_cond_init(&w->done_cv, NULL);
     ls_arena_init(&w->arena);
     ls_diags_init(&w->diags, &w->arena);
     w->nl = *r->f->nl;
@@ -1262,27 +1324,36 @@ static fit_worker *worker_new(fit_run *r)
     if (w->checks && ls_op_solve(&w->op, &w->nl, &opt) == LS_DONE) {
         w->fact0 = w->op.solver ? ls_solver_stats_of(w->op.solver)->factorizations : 0;
         candidate_path(r->f, &w->op, true);   /* its candidates are the search's */
-        return w;
+        w->started = pthread_create(&w->tid, NULL, worker_main, w) == 0;
+        if (w->started)
+            return w;
     }
-    ls_op_free(&w->op);
-    free(w->checks);
-    ls_diags_free(&w->diags);
-    ls_arena_free(&w->arena);
-    free(w);
+    worker_free(w);
     return NULL;
 }
 
-/* Free the worker, its candidate factorizations counted into the run's. */
+/* Stop the thread and free the worker, its candidate factorizations
+ * counted into the run's. */
 static void worker_free(fit_worker *w)
 {
     if (!w)
         return;
-    if (w->op.solver)
+    if (w->started) {
+        pthread_mutex_lock(&w->mu);
+        w->quit = true;
+        pthread_cond_signal(&w->wake);
+        pthread_mutex_unlock(&w->mu);
+        pthread_join(w->tid, NULL);
+    }
+    if (w->started && w->op.solver)
         w->r->worker_factorizations += ls_solver_stats_of(w->op.solver)->factorizations - w->fact0;
     ls_op_free(&w->op);
     free(w->checks);
     ls_diags_free(&w->diags);
     ls_arena_free(&w->arena);
+    pthread_cond_destroy(&w->wake);
+    pthread_cond_destroy(&w->done_cv);
+    pthread_mutex_destroy(&w->mu);
     free(w);
 }
 
@@ -2113,19 +2184,30 @@ static ls_outcome put_back(fit_run *r, ls_outcome code, const ls_diags *scratch)
     return code;
 }
 
-ls_outcome ls_fit_run(ls_fit_study *f)
+/* The study's results cleared before a search. */
+static void reset_out(ls_fit_study *f)
 {
     f->vars = NULL;
     f->best = NULL;
     f->nvars = f->nbest = 0;
     f->evaluated = f->nlopt_evals = 0;
     f->nlopt_status = 0;
-    f->exhaustive = f->any_feasible = f->have_yield = f->proven = false;
+    f->exhaustive = f->any_feasible = f->have_yield = f->proven = f->fell_back = false;
     f->bb_solves = f->bb_boxes = f->bb_pruned = f->bb_enumerated = f->bb_unbounded = 0;
     f->found = f->limit = NAN;
     f->limit_why = NULL;
     f->limit_solves = 0;
     f->refused = LS_FIT_SEARCHED;
+}
+
+/* One search of the study (ls_fit_run).  *redo is set when the chosen
+ * design passed every check on the fast path and fails one on the full
+ * path (a check within rounding of its limit): the search must run again
+ * with every candidate on the full path; nothing is kept then. */
+static ls_outcome fit_search(ls_fit_study *f, bool *redo)
+{
+    reset_out(f);
+    *redo = false;
     if (f->nl->nfrees == 0 || f->nl->nfrees > LS_FIT_MAX_FREE) {
         f->refused = f->nl->nfrees == 0 ? LS_FIT_NOFREE : LS_FIT_TOOMANY;
         return LS_BAD_REQUEST;
@@ -2149,8 +2231,10 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     candidate_path(f, f->op, true);
     bool searched = r.keep && r.scratch && make_slots(&r) == 0 && save_start(&r) == 0 && search(&r) == 0;
     candidate_path(f, f->op, false);
+    bool fast_meets = searched && r.nkeep > 0 && r.keep[0].meets && fast_path(f);
     if (searched && rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_DONE;
+    *redo = code == LS_DONE && fast_meets && !r.keep[0].meets;
     f->factorizations = (ss ? ss->factorizations - fact0 : 0) + r.worker_factorizations;
     f->analyses = ss ? ss->analyses - an0 : 0;
     code = put_back(&r, code, &scratch);
@@ -2159,7 +2243,7 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     f->best = r.keep;
     f->nbest = r.nkeep;
     f->any_feasible = r.nkeep > 0 && r.keep[0].meets;
-    if (code != LS_DONE) {
+    if (code != LS_DONE || *redo) {
         for (int i = 0; i < r.nkeep; i++)
             cand_free(&r.keep[i]);
         free(r.keep);
@@ -2171,6 +2255,26 @@ ls_outcome ls_fit_run(ls_fit_study *f)
     ls_run_free(&r.run0);
     free(r.seen);
     free(r.scratch);
+    return code;
+}
+
+/* The search; when the fast path's choice fails on the full path
+ * (fit_search's redo), again with every candidate on the full path, and
+ * f->fell_back says so (docs/fit.md, "The search"). */
+ls_outcome ls_fit_run(ls_fit_study *f)
+{
+    bool redo;
+    ls_outcome code = fit_search(f, &redo);
+    if (!redo)
+        return code;
+    for (int j = 0; j < f->nvars; j++)
+        free(f->vars[j].values);
+    free(f->vars);
+    bool plain = f->plain;
+    f->plain = true;
+    code = fit_search(f, &redo);
+    f->plain = plain;
+    f->fell_back = true;
     return code;
 }
 

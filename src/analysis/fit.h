@@ -142,6 +142,8 @@ typedef struct ls_fit_study {
     double limit;
     const char *limit_why;   /* a static string, or NULL */
     long limit_solves;   /* candidate solves the open boxes' limits took after the search stopped */
+    bool fell_back;      /* the fast path's chosen design failed a check on the full path, so the search
+                          * ran again with every candidate on the full path (docs/fit.md, "The search") */
     ls_fit_cand *best;   /* the best candidates, best first: feasible ones by the goal, then the closest */
     int nbest;
     bool any_feasible;   /* best[0].meets */

@@ -148,6 +148,8 @@ static void search_members(ls_wr *w, const ls_fit_study *f)
         COUNTS(w, f, bb_counts);
         ls_wr_end(w);
     }
+    if (f->fell_back) /* only then: docs/fit.md, "The search" */
+        ls_wr_bool(w, "fell_back_to_full_path", true);
     if (f->have_yield) {
         ls_wr_int(w, "trials", f->yield_trials);
         ls_wr_uint(w, "seed", (unsigned long long)f->seed);
@@ -372,6 +374,9 @@ static void search_text(ls_wr *w, const ls_fit_study *f)
                   f->max_solves);
     if (!f->proven)
         bound_text(w, f);
+    if (f->fell_back)
+        ls_wr_say(w, "  the fast candidate path's choice failed a check when solved in full: every candidate was "
+                     "solved in full again\n");
     ls_wr_say(w, "\n");
 }
 

@@ -2,7 +2,10 @@
  * estimate the condition (dgecon), solve (dgetrs).  Iterative refinement is done
  * by the caller against the original sparse matrix.  With the singularity test
  * only (ls_solver_singularity_only) the estimate is skipped when a cheap bound
- * already shows it would pass (rcond_floor).
+ * already shows it would pass (rcond_floor).  With the own LU
+ * (ls_solver_own_lu) a small system on the LU path is factored and solved here instead of by
+ * dgetrf and dgetrs (own_getrf, own_getrs): the same factors in the same
+ * layout up to rounding, without the library's calls.
  *
  * A matrix that the sparse selection would send to CHOLMOD (symmetric,
  * positive diagonal, weakly diagonally dominant: sparse_select.c's rule 1)
@@ -29,6 +32,9 @@ typedef struct dense {
     double *work;
     bool scaled;
     bool floor_only;   /* rcond as a floor where that proves the matrix regular */
+    bool own;          /* factor and solve with own_getrf / own_getrs (ls_solver_own_lu) */
+    bool own_factors;  /* the factors in lu are own_getrf's */
+    double *dinv;      /* with them: 1 / U's diagonal, for own_getrs */
     bool chol;         /* lu holds the Cholesky factor L of S A S, S = diag(r), not LU */
 } dense;
 
@@ -47,6 +53,7 @@ static void dense_destroy(void *self)
     free(d->r);
     free(d->c);
     free(d->work);
+    free(d->dinv);
     free(d);
 }
 
@@ -83,6 +90,7 @@ static int dense_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
     free(d->r);
     free(d->c);
     free(d->work);
+    free(d->dinv);
     d->n = n;
     size_t m = n ? (size_t)n : 1;
     d->lu = malloc(m * m * sizeof *d->lu);
@@ -90,7 +98,8 @@ static int dense_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
     d->r = malloc(m * sizeof *d->r);
     d->c = malloc(m * sizeof *d->c);
     d->work = malloc(m * sizeof *d->work);
-    if (!d->lu || !d->ipiv || !d->r || !d->c || !d->work) {
+    d->dinv = malloc(m * sizeof *d->dinv);
+    if (!d->lu || !d->ipiv || !d->r || !d->c || !d->work || !d->dinv) {
         st->bytes_needed = ls_dense_bytes(n);
         return LS_SOLVER_NOMEM;
     }
@@ -164,6 +173,109 @@ static double rcond_floor(const double *lu, int n, double anorm, double *y)
     return den > 0 && isfinite(den) ? 1 / den : 0;
 }
 
+/* LU with partial pivoting of the n x n column-major matrix in a, in place,
+ * as dgetrf leaves it: L unit lower and U below and above the diagonal, row
+ * i swapped with ipiv[i] - 1 at step i (the largest magnitude in the column
+ * at or below the diagonal, the first of equals); 1 / U's diagonal into
+ * dinv.  Right-looking, one column at a time: for the few tens of unknowns
+ * of a candidate's system the arithmetic is a few microseconds, less than
+ * the library's calls cost.  Returns 0, or k + 1 for the first exactly zero
+ * pivot k (as dgetrf's info; the factorization stops there). */
+static int own_getrf(int n, double *restrict a, lapack_int *restrict ipiv, double *restrict dinv)
+{
+    for (int k = 0; k < n; k++) {
+        double *restrict ck = a + (size_t)k * n;
+        int p = k;
+        double big = fabs(ck[k]);
+        for (int i = k + 1; i < n; i++)
+            if (fabs(ck[i]) > big) {
+                big = fabs(ck[i]);
+                p = i;
+            }
+        ipiv[k] = p + 1;
+        if (big == 0)
+            return k + 1;
+        if (p != k)
+            for (int j = 0; j < n; j++) {
+                double *cj = a + (size_t)j * n;
+                double t = cj[k];
+                cj[k] = cj[p];
+                cj[p] = t;
+            }
+        double inv = dinv[k] = 1 / ck[k];
+        for (int i = k + 1; i < n; i++)
+            ck[i] *= inv;
+        for (int j = k + 1; j < n; j++) {
+            double *restrict cj = a + (size_t)j * n;
+            double u = cj[k];
+            if (u != 0)
+                for (int i = k + 1; i < n; i++)
+                    cj[i] -= ck[i] * u;
+        }
+    }
+    return 0;
+}
+
+/* sum of u[i] v[i] for i in [from, to): four partial sums, so that the
+ * additions do not wait on each other one by one. */
+static double dot(const double *restrict u, const double *restrict v, int from, int to)
+{
+    double s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    int i = from;
+    for (; i + 4 <= to; i += 4) {
+        s0 += u[i] * v[i];
+        s1 += u[i + 1] * v[i + 1];
+        s2 += u[i + 2] * v[i + 2];
+        s3 += u[i + 3] * v[i + 3];
+    }
+    for (; i < to; i++)
+        s0 += u[i] * v[i];
+    return (s0 + s1) + (s2 + s3);
+}
+
+/* Solve A x = b (transpose: A^T x = b) in place with own_getrf's factors. */
+static void own_getrs(int n, const double *restrict lu, const lapack_int *restrict ipiv, const double *restrict dinv,
+                      double *restrict b, bool transpose)
+{
+    if (!transpose) {
+        for (int k = 0; k < n; k++) {          /* P b, then L y = P b */
+            int p = ipiv[k] - 1;
+            double t = b[k];
+            b[k] = b[p];
+            b[p] = t;
+        }
+        for (int k = 0; k < n; k++) {
+            const double *restrict ck = lu + (size_t)k * n;
+            double bk = b[k];
+            if (bk != 0)
+                for (int i = k + 1; i < n; i++)
+                    b[i] -= ck[i] * bk;
+        }
+        for (int k = n - 1; k >= 0; k--) {     /* U x = y */
+            const double *restrict ck = lu + (size_t)k * n;
+            double bk = b[k] *= dinv[k];
+            if (bk != 0)
+                for (int i = 0; i < k; i++)
+                    b[i] -= ck[i] * bk;
+        }
+        return;
+    }
+    for (int k = 0; k < n; k++) {              /* U^T z = b */
+        const double *restrict ck = lu + (size_t)k * n;
+        b[k] = (b[k] - dot(ck, b, 0, k)) * dinv[k];
+    }
+    for (int k = n - 1; k >= 0; k--) {         /* L^T w = z */
+        const double *restrict ck = lu + (size_t)k * n;
+        b[k] -= dot(ck, b, k + 1, n);
+    }
+    for (int k = n - 1; k >= 0; k--) {         /* x = P^T w */
+        int p = ipiv[k] - 1;
+        double t = b[k];
+        b[k] = b[p];
+        b[p] = t;
+    }
+}
+
 static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
 {
     dense *d = self;
@@ -196,7 +308,9 @@ static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
     }
     /* The _work interfaces skip LAPACKE's NaN scan of the whole matrix: the
      * entries come from finite stamps. */
-    lapack_int info = LAPACKE_dgetrf_work(LAPACK_COL_MAJOR, n, n, d->lu, n, d->ipiv);
+    d->own_factors = d->own && n <= LS_DENSE_OWN_MAX;
+    lapack_int info = d->own_factors ? own_getrf(n, d->lu, d->ipiv, d->dinv)
+                                     : LAPACKE_dgetrf_work(LAPACK_COL_MAJOR, n, n, d->lu, n, d->ipiv);
     st->factorizations++;
     if (info > 0) {
         st->bad_column = (int)(info - 1);
@@ -255,7 +369,11 @@ static int dense_solve(void *self, double *b, int transpose, ls_solver_stats *st
     const double *pre = transpose ? d->c : d->r, *post = transpose ? d->r : d->c;
     for (int i = 0; i < n; i++)
         b[i] *= pre[i];
-    lapack_int info = LAPACKE_dgetrs_work(LAPACK_COL_MAJOR, transpose ? 'T' : 'N', n, 1, d->lu, n, d->ipiv, b, n);
+    lapack_int info = 0;
+    if (d->own_factors)
+        own_getrs(n, d->lu, d->ipiv, d->dinv, b, transpose != 0);
+    else
+        info = LAPACKE_dgetrs_work(LAPACK_COL_MAJOR, transpose ? 'T' : 'N', n, 1, d->lu, n, d->ipiv, b, n);
     for (int i = 0; i < n; i++)
         b[i] *= post[i];
     return info == 0 ? LS_SOLVER_OK : LS_SOLVER_FAILED;
@@ -264,6 +382,11 @@ static int dense_solve(void *self, double *b, int transpose, ls_solver_stats *st
 static void dense_singularity_only(void *self, bool on)
 {
     ((dense *)self)->floor_only = on;
+}
+
+static void dense_own_lu(void *self, bool on)
+{
+    ((dense *)self)->own = on;
 }
 
 /* ---- Cholesky ---------------------------------------------------------------------------
@@ -392,4 +515,5 @@ const ls_backend ls_backend_dense = {
     .solve = dense_solve_any,
     .destroy = dense_destroy,
     .singularity_only = dense_singularity_only,
+    .own_lu = dense_own_lu,
 };

@@ -590,7 +590,7 @@ static int reduced_solve(void *self, double *b, int transpose, ls_solver_stats *
 
 const ls_backend ls_backend_reduced = {
     "cholmod-reduced", reduced_create, reduced_analyze, reduced_factor, reduced_solve, reduced_destroy,
-    reduced_analyze_factor, NULL, NULL,
+    reduced_analyze_factor, NULL, NULL, NULL,
 };
 
 #endif /* LS_HAVE_SPARSE */

@@ -24,6 +24,7 @@ struct ls_solver {
     int n;           /* order of the last matrix analyzed or factored */
     ls_update *upd;  /* low-rank updates allowed (ls_solver_allow_update), else NULL */
     bool singularity_only;  /* ls_solver_singularity_only */
+    bool own_lu;            /* ls_solver_own_lu */
 };
 
 ls_solver *ls_solver_new(const ls_backend *be, ls_method method)
@@ -160,6 +161,8 @@ int ls_solver_factor(ls_solver *s, const ls_csc *a)
     s->n = a->n;
     if (s->be->singularity_only)
         s->be->singularity_only(s->self, s->singularity_only && !s->upd);
+    if (s->be->own_lu)
+        s->be->own_lu(s->self, s->own_lu && !s->upd);
     int r = s->be->factor(s->self, a, &s->st);
     s->factored = r == LS_SOLVER_OK;
     keep_for_update(s, a, r);
@@ -170,6 +173,11 @@ int ls_solver_factor(ls_solver *s, const ls_csc *a)
 void ls_solver_singularity_only(ls_solver *s, bool on)
 {
     s->singularity_only = on;
+}
+
+void ls_solver_own_lu(ls_solver *s, bool on)
+{
+    s->own_lu = on;
 }
 
 void ls_solver_allow_update(ls_solver *s, const ls_csc *factored)

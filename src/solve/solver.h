@@ -87,6 +87,8 @@ typedef struct ls_backend {
     void (*set_nodes)(void *self, int m);
     /* Optional (NULL: ignored): ls_solver_singularity_only's switch. */
     void (*singularity_only)(void *self, bool on);
+    /* Optional (NULL: ignored): ls_solver_own_lu's switch. */
+    void (*own_lu)(void *self, bool on);
 } ls_backend;
 
 extern const ls_backend ls_backend_dense;
@@ -116,6 +118,16 @@ void ls_solver_set_nodes(ls_solver *s, int m);
  * or not, bad_column) are those of the full path.  Ignored while low-rank
  * updates are allowed (they weigh the estimate).  Off by default. */
 void ls_solver_singularity_only(ls_solver *s, bool on);
+/* With on, the dense backend factors and solves a system of at most
+ * LS_DENSE_OWN_MAX unknowns with its own LU with partial pivoting and
+ * triangular solves instead of LAPACK's dgetrf and dgetrs: the same method
+ * and verdict, the factors and solutions the same up to rounding (not the
+ * same bits), without the library's calls, which cost more than the
+ * arithmetic at that size.  For a caller whose decisions are safe under a
+ * difference in the last bits (fit's candidates, docs/fit.md).  Ignored
+ * while low-rank updates are allowed.  Off by default. */
+void ls_solver_own_lu(ls_solver *s, bool on);
+#define LS_DENSE_OWN_MAX 64
 /* The program's own thread settings between solves: one BLAS and one OpenMP
  * thread (a factorization of a large system raises them for its duration).
  * For the command-line program only: a library caller keeps its own, which

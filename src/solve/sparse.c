@@ -278,6 +278,7 @@ static void klu_be_destroy(void *self)
 
 const ls_backend ls_backend_klu = {
     "klu", klu_be_create, klu_be_analyze, klu_be_factor, klu_be_solve, klu_be_destroy, NULL, NULL, NULL,
+    NULL,
 };
 
 /* ------------------------------------------------------------------------ */
@@ -427,6 +428,7 @@ static void umf_be_destroy(void *self)
 
 const ls_backend ls_backend_umfpack = {
     "umfpack", umf_be_create, umf_be_analyze, umf_be_factor, umf_be_solve, umf_be_destroy, NULL, NULL, NULL,
+    NULL,
 };
 
 /* ------------------------------------------------------------------------ */
@@ -663,4 +665,5 @@ static void chol_be_destroy(void *self)
 
 const ls_backend ls_backend_cholmod = {
     "cholmod", chol_be_create, chol_be_analyze, chol_be_factor, chol_be_solve, chol_be_destroy, NULL, NULL, NULL,
+    NULL,
 };
