@@ -2234,7 +2234,7 @@ static ls_outcome fit_search(ls_fit_study *f, bool *redo)
     bool fast_meets = searched && r.nkeep > 0 && r.keep[0].meets && fast_path(f);
     if (searched && rank_finalists(&r) == 0 && report_checks(&r) == 0 && !r.nomem)
         code = LS_DONE;
-    *redo = code == LS_DONE && fast_meets && !r.keep[0].meets;
+    *redo = code == LS_DONE && fast_meets && (!r.keep[0].meets || f->redo_test);
     f->factorizations = (ss ? ss->factorizations - fact0 : 0) + r.worker_factorizations;
     f->analyses = ss ? ss->analyses - an0 : 0;
     code = put_back(&r, code, &scratch);

@@ -115,6 +115,9 @@ typedef struct ls_fit_study {
     long max_solves;     /* candidate solves branch and bound may spend (<= 0: LS_FIT_MAX_SOLVES) */
     bool plain;          /* every candidate on the full path (docs/fit.md, "The search"): the tests
                           * compare it with the fast path; not meant for use otherwise */
+    bool redo_test;      /* treat the fast path's chosen design as failing on the full path, so that the
+                          * search runs again (ls_fit_run): the tests' way into the fall-back, which no
+                          * circuit is known to reach; not meant for use otherwise */
     /* out */
     ls_fit_var *vars;
     int nvars;

@@ -542,6 +542,9 @@ static int fit_options(ls_cli *cli, ls_fit_study *f)
     /* and this to compare the search's fast path with the plain one (tests/fit/test_fit_plain.py) */
     const char *plain = getenv("LOADSTACK_FIT_PLAIN");
     f->plain = plain && *plain && strcmp(plain, "0") != 0;
+    /* and this to take the fall-back to the full path (tests/fit/test_fit_plain.py) */
+    const char *redo = getenv("LOADSTACK_FIT_REDO");
+    f->redo_test = redo && *redo && strcmp(redo, "0") != 0;
     return 0;
 }
 

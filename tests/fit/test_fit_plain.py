@@ -25,7 +25,10 @@ enumeration, by the continuous path (LOADSTACK_FIT_EXHAUSTIVE=1) and by
 branch and bound, finished and stopped by --max-solves.  That the floor is a
 floor is tests/unit/solve/test_dense_floor.c's (against LAPACK's dgecon and a
 closed form); the own LU against numpy.linalg.solve is
-tests/unit/solve/test_own_lu.py's.
+tests/unit/solve/test_own_lu.py's.  The fall-back (the fast path's choice
+failing on the full path, so the search runs again on it) is reached through
+LOADSTACK_FIT_REDO=1, as no circuit is known to reach it: the report then says
+so and is the plain path's otherwise.
 """
 import json
 import math
@@ -97,6 +100,36 @@ def same(args, env=None):
     return 1
 
 
+def fell_back(args):
+    """With LOADSTACK_FIT_REDO=1 the fast path's choice is taken as failing on the
+    full path (docs/fit.md, "The search"): the report must say the search fell
+    back and be the plain path's in every other member, and the text must say
+    so in words."""
+    e = {"LOADSTACK_THREADS": "1"}
+    redo = run(args + ["--format", "json"], env=dict(e, LOADSTACK_FIT_REDO="1"))
+    full = run(args + ["--format", "json"], env=dict(e, LOADSTACK_FIT_PLAIN="1"))
+    what = " ".join(os.path.basename(a) for a in args) + " (fall-back)"
+    check(redo[0] == full[0] and redo[2] == full[2], f"{what}: exit code and messages are the plain path's")
+    try:
+        a, b = dict(flat(json.loads(redo[1]))), dict(flat(json.loads(full[1])))
+    except json.JSONDecodeError as ex:
+        check(False, f"{what}: a report is not JSON ({ex})")
+        return 1
+    said = [k for k, v in a.items() if k.endswith(".fell_back_to_full_path")]
+    check(len(said) == 1 and a[said[0]] is True, f"{what}: the report says it fell back: {said}")
+    check(not any(k.endswith(".fell_back_to_full_path") for k in b), f"{what}: the plain run does not say so")
+    for k in said:
+        del a[k]
+    check(a.keys() == b.keys(), f"{what}: the same members as the plain run: {sorted(set(a) ^ set(b))}")
+    off = [(k, a[k], b[k]) for k in sorted(a.keys() & b.keys()) if not agree(k, a[k], b[k])]
+    check(not off, f"{what}: after the fall-back the report is the plain path's: {off[:5]}")
+    text = run(args, env=dict(e, LOADSTACK_FIT_REDO="1"))
+    plain_text = run(args, env=dict(e, LOADSTACK_FIT_REDO="0"))
+    check("solved in full again" in text[1] and "solved in full again" not in plain_text[1],
+          f"{what}: the text report says it fell back, only then")
+    return 1
+
+
 def main():
     compared = 0
     start = ("5.6k", "1k", "6.2k", "1.2k")
@@ -120,6 +153,8 @@ def main():
                       "--quiet"])
     compared += same(["fit", c4, "--format", "json", "--max-solves", "1k", "--quiet"], env={"LOADSTACK_THREADS": "2"})
     compared += same(["fit", c8, "--format", "json", "--max-solves", "1k", "--quiet"])
+    compared += fell_back(["fit", circuit("redo_ladder.stack", ladder(start, True))])
+    compared += fell_back(["fit", c4, "--max-solves", "1k", "--quiet"])
     print(f"{compared} runs compared, fast path against plain")
     finish()
 
