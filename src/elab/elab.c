@@ -201,8 +201,11 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         ls_error(x->d, loc, "name is longer than %d bytes", LS_MAX_NAME_BYTES);
         return -1;
     }
-    /* Room for the entity first, so nothing can fail once the name is in. */
-    if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
+    /* Room for the entity first, so nothing can fail once the name is in;
+     * a node, part or let keeps its location in its own record. */
+    bool own_loc = kind != ENT_NODE && kind != ENT_PART && kind != ENT_PARAM;
+    if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents) ||
+        (own_loc && !grow_x(x, (void **)&nl->ent_locs, &nl->cap_ent_locs, nl->nent_locs + 1, sizeof *nl->ent_locs)))
         return -1;
     int e;
     int r = ls_hash_intern_hashed(&nl->names, full, name_hash(x, full, len), nl->nents, &e);
@@ -217,10 +220,12 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         }
         ls_entity *o = &nl->ents[e];
         ls_error(x->d, loc, "'%s' is already declared as a %s", full, ent_what(o->kind));
-        note_decl(x, o->loc, full);
+        note_decl(x, ls_entity_loc(nl, e), full);
         return -1;
     }
-    nl->ents[nl->nents++] = (ls_entity){kind, index, loc};
+    if (own_loc)
+        nl->ent_locs[nl->nent_locs++] = (ls_ent_loc){nl->nents, loc};
+    nl->ents[nl->nents++] = (ls_entity){kind, index};
     return e;
 }
 
@@ -271,7 +276,7 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
             return o->index;
         }
         ls_error(x->d, loc, "'%s' is a %s, not a node", name, ent_what(o->kind));
-        note_decl(x, o->loc, full);
+        note_decl(x, ls_entity_loc(nl, e), full);
         return -1;
     }
     if (i < 0)
