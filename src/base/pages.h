@@ -2,13 +2,14 @@
  * circuit (the arena's big blocks, the name table, the part table).
  *
  * A fresh page costs its first touch a page fault; on the virtual machines
- * this runs on that fault is dear (about 12 us a 4 KiB page, most of it the
- * trap itself: docs/performance.md, "Front end, the sixth round"), and a
- * 1000 x 1000 grid's front end touches 680 MB.  Asking the kernel to map a
- * range in one call (MADV_POPULATE_WRITE, Linux 5.14 and later) takes one
- * trap for the range, and with transparent huge pages (MADV_HUGEPAGE) one
- * page in 512.  Both are advice: where the kernel lacks them, or refuses,
- * the memory is the same and is faulted in as it is touched. */
+ * this runs on that fault is dear (12-15 us a 4 KiB page:
+ * docs/performance.md, "Front end, the sixth round"), and a 1000 x 1000
+ * grid's front end writes 670 MB.  Asking the kernel to map a range in with
+ * huge pages (MADV_HUGEPAGE, then MADV_POPULATE_WRITE, Linux 5.14 and later)
+ * in one call made that 4 to 50 times cheaper there; populating small pages
+ * only halved it, as the program's first touch of each still trapped.  Both
+ * are advice: where the kernel lacks them, or refuses, the memory is the
+ * same and is faulted in as it is touched. */
 #ifndef LS_PAGES_H
 #define LS_PAGES_H
 
