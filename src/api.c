@@ -243,7 +243,7 @@ ls_status ls_circuit_solve_info(const ls_circuit *c, ls_solve_info *out)
         return st;
     if (!out)
         return LS_E_ARGUMENT;
-    static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
+    static const char *const method[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg", "dense-cholesky"};
     assert((int)c->op.method >= 0 && (size_t)c->op.method < sizeof method / sizeof method[0]);
     out->method = method[c->op.method];
     out->unknowns = c->op.mna.n;

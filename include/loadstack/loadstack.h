@@ -173,7 +173,7 @@ LS_API ls_status ls_circuit_solve(ls_circuit *c, const ls_solve_options *opt);
 
 /* Facts about the last solve. */
 typedef struct ls_solve_info {
-    const char *method;       /* "dense-lu", "sparse-lu", "sparse-cholesky" or "iterative-amg" */
+    const char *method;       /* "dense-lu", "dense-cholesky", "sparse-lu", "sparse-cholesky" or "iterative-amg" */
     int unknowns;             /* size of the modified-nodal system */
     double rcond;             /* reciprocal condition estimate */
     double residual;          /* relative residual after refinement */

@@ -334,7 +334,7 @@ static ls_outcome factor(ls_op *op)
         ls_solver_set_nodes(op->solver, op->mna.nn);
         int st = ls_solver_analyze_factor(op->solver, &op->mna.a);
         const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
-        op->method = m;
+        op->method = ss->method; /* m, or the dense backend's own pick of LU or Cholesky */
         op->rcond = ss->rcond;
         if (st == LS_SOLVER_OK)
             return LS_DONE;
@@ -475,6 +475,7 @@ int ls_op_step(ls_op *op)
         st = ls_solver_analyze_factor(op->solver, &op->mna.a);
     }
 #endif
+    op->method = ls_solver_stats_of(op->solver)->method;
     op->rcond = ls_solver_stats_of(op->solver)->rcond;
     if (st != LS_SOLVER_OK)
         return st;
@@ -628,6 +629,7 @@ ls_outcome ls_op_resolve(ls_op *op)
         return solve_failed(op, LS_SOLVER_NOMEM, "assembling the system");
     int st = ls_solver_factor(op->solver, &op->mna.a);
     const ls_solver_stats *ss = ls_solver_stats_of(op->solver);
+    op->method = ss->method;
     op->rcond = ss->rcond;
     if (st == LS_SOLVER_SINGULAR) {
         ls_op_report_singular(op, ss->bad_column);

@@ -663,7 +663,7 @@ static int explicit_setup(ls_mod *m, const ls_triplets *dt)
     const ls_backend *be = &ls_backend_dense;
     ls_method meth = LS_METHOD_DENSE_LU;
 #ifdef LS_HAVE_SPARSE
-    if (ls_solver_stats_of(op->solver)->method != LS_METHOD_DENSE_LU) {
+    if (!ls_method_is_dense(ls_solver_stats_of(op->solver)->method)) {
         be = &ls_backend_klu;
         meth = LS_METHOD_SPARSE_LU;
     }

@@ -359,7 +359,7 @@ static void ntc_text(ls_wr *w, const ls_op *op)
 
 static const char *method_name(ls_method m)
 {
-    static const char *const n[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg"};
+    static const char *const n[] = {"dense-lu", "sparse-lu", "sparse-cholesky", "iterative-amg", "dense-cholesky"};
     assert((int)m >= 0 && (size_t)m < sizeof n / sizeof n[0]);
     return n[m];
 }

@@ -77,7 +77,7 @@ static int blas_saved;      /* the host's OpenBLAS thread count, while blas_dept
 
 static void scope_enter(thread_scope *t, ls_method m, int n)
 {
-    int big = m == LS_METHOD_DENSE_LU ? 1000 : 200000;
+    int big = ls_method_is_dense(m) ? 1000 : 200000;
     int want = n >= big ? openblas_get_num_procs() : 1;
 #ifdef LS_HAVE_OPENMP
     /* CHOLMOD asks for a fixed team size in its num_threads clauses, which

@@ -21,8 +21,15 @@ typedef enum ls_method {
     LS_METHOD_DENSE_LU = 0,      /* LAPACK dgetrf with equilibration */
     LS_METHOD_SPARSE_LU,         /* KLU or UMFPACK, chosen by structure */
     LS_METHOD_SPARSE_CHOLESKY,   /* CHOLMOD, symmetric positive definite systems only */
-    LS_METHOD_ITERATIVE_AMG      /* hypre BoomerAMG-PCG on the node block (amg.c; -Dmpi=enabled builds) */
+    LS_METHOD_ITERATIVE_AMG,     /* hypre BoomerAMG-PCG on the node block (amg.c; -Dmpi=enabled builds) */
+    LS_METHOD_DENSE_CHOLESKY     /* LAPACK dpotrf with symmetric scaling: set by the dense backend itself */
 } ls_method;
+
+/* A dense method (the dense backend's own choice between LU and Cholesky). */
+static inline bool ls_method_is_dense(ls_method m)
+{
+    return m == LS_METHOD_DENSE_LU || m == LS_METHOD_DENSE_CHOLESKY;
+}
 
 typedef enum ls_solver_status {
     LS_SOLVER_OK = 0,
@@ -40,6 +47,10 @@ typedef struct ls_solver_stats {
     const char *library;   /* "lapack", "klu", "umfpack", "cholmod", "hypre" */
     double rcond;          /* reciprocal condition estimate (1-norm); NAN if unknown */
     bool rcond_floor;      /* rcond is only a floor under the estimate (ls_solver_singularity_only) */
+    /* Dense backend: the last factorization tried Cholesky (the matrix passed
+     * ls_csc_likely_spd) and dpotrf found a non-positive pivot or dpocon a
+     * numerically singular matrix, so LU factored it (method dense-lu). */
+    bool cholesky_refused;
     int bad_column;        /* first zero or tiny pivot column, -1 if none */
     size_t bytes_needed;   /* with LS_SOLVER_TOO_LARGE: what the factor would take */
     int factorizations;    /* numeric factorizations done */

@@ -4,6 +4,8 @@
 
 #include "solve/solver.h"
 
+#include <stdbool.h>
+
 /* Pick the sparse backend for `a` from its structure and values (see the rule in
  * sparse_select.c).  Never NULL.  *method_out (may be NULL) gets
  * LS_METHOD_SPARSE_CHOLESKY for CHOLMOD, else LS_METHOD_SPARSE_LU.  A CHOLMOD
@@ -27,6 +29,12 @@ int ls_csc_asym_column(const ls_csc *a, int *work);
  * does not.  strict (n bytes, may be NULL) gets 1 per column whose diagonal
  * exceeds that sum (a conductance to ground).  O(nnz). */
 int ls_csc_dominance(const ls_csc *a, unsigned char *strict);
+
+/* Rule 1 of the selection (sparse_select.c): A symmetric (ls_csc_asym_column)
+ * with a positive diagonal and weak column dominance (ls_csc_dominance), so
+ * positive semidefinite; a Cholesky factorization is tried on it (CHOLMOD,
+ * or the dense backend's dpotrf).  False for n = 0 or without memory.  O(nnz). */
+bool ls_csc_likely_spd(const ls_csc *a);
 
 /* AMD's estimate of nnz(L)/n for A+A^T (the fill of a direct factor), or -1
  * if it could not be computed (no memory).  O(nnz) time. */

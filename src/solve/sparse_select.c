@@ -72,14 +72,15 @@ int ls_csc_dominance(const ls_csc *a, unsigned char *strict)
     return -1;
 }
 
-static int likely_spd(const ls_csc *a)
+/* See sparse.h. */
+bool ls_csc_likely_spd(const ls_csc *a)
 {
-    if (ls_csc_dominance(a, NULL) >= 0) /* cheap, and rejects most MNA matrices */
-        return 0;
+    if (a->n <= 0 || ls_csc_dominance(a, NULL) >= 0) /* cheap, and rejects most MNA matrices */
+        return false;
     int *work = malloc((size_t)a->n * sizeof(int));
     if (!work)
-        return 0;
-    int sym = ls_csc_asym_column(a, work) < 0;
+        return false;
+    bool sym = ls_csc_asym_column(a, work) < 0;
     free(work);
     return sym;
 }
@@ -121,7 +122,7 @@ const ls_backend *ls_sparse_pick(const ls_csc *a, ls_method *method_out)
     const ls_backend *be = &ls_backend_klu;
     ls_method m = LS_METHOD_SPARSE_LU;
     if (a && a->n > 0) {
-        if (likely_spd(a)) {
+        if (ls_csc_likely_spd(a)) {
             be = &ls_backend_cholmod;
             m = LS_METHOD_SPARSE_CHOLESKY;
         } else if (ls_mna_reducible(a)) {

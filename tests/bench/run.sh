@@ -1,7 +1,7 @@
 #!/bin/bash
 # run.sh — loadstack's benchmarks, with reference solvers measured in the same run.
 #
-# Usage: tests/bench/run.sh [--small] [--reps R] [--baseline BIN] [--keep DIR]
+# Usage: tests/bench/run.sh [--small] [--reps R] [--baseline BIN] [--only dense] [--keep DIR]
 #   LOADSTACK=path/to/loadstack   the program under test (default: build/src/loadstack)
 #   DGESV_REF=path/to/dgesv_ref   the bare-LAPACK reference (built by tests/bench/meson.build;
 #                                 default: beside LOADSTACK under tests/bench/)
@@ -9,7 +9,9 @@
 #   --small      small sizes, one repetition: for the test suite (checks that it all runs
 #                and that loadstack and the references agree; it is not a timed test)
 #   --reps R     best of R runs per row (default 3; 1 with --small)
-#   --baseline B also time the grid rows with another loadstack binary B (for before/after)
+#   --baseline B also time the grid and dense rows with another loadstack binary B (for
+#                before/after; in the dense rows B, the program and dgesv alternate)
+#   --only dense the dense rows alone
 #   --keep DIR   keep the generated circuits and matrices in DIR
 #
 # Reports go to stdout, redirected to a file (--output would add an fsync, which measures
@@ -25,14 +27,16 @@ py=/usr/bin/python3
 small=0
 reps=3
 baseline=""
+only=""
 keep=""
 while [ $# -gt 0 ]; do
     case "$1" in
     --small) small=1; reps=1 ;;
     --reps) reps=$2; shift ;;
     --baseline) baseline=$2; shift ;;
+    --only) only=$2; shift ;;
     --keep) keep=$2; shift ;;
-    *) echo "usage: run.sh [--small] [--reps R] [--baseline BIN] [--keep DIR]" >&2; exit 2 ;;
+    *) echo "usage: run.sh [--small] [--reps R] [--baseline BIN] [--only dense] [--keep DIR]" >&2; exit 2 ;;
     esac
     shift
 done
@@ -53,8 +57,14 @@ if [ $small = 1 ]; then
 else
     grids="300 700 1000"; dense=2000; chain="1000 3334"; ports=200; trials=10000
 fi
+case "$only" in
+"") ;;
+dense) grids="" ;;
+*) echo "run.sh: --only takes dense" >&2; exit 2 ;;
+esac
 fail=0
 rows=()
+load_start=$(cut -d' ' -f1-3 /proc/loadavg)
 
 # measure TAG CMD...: run CMD once under /usr/bin/time and keep it as TAG's best when it is
 # the fastest so far (its wall time, peak memory, exit code, stdout and stderr).
@@ -65,17 +75,20 @@ measure() {
     shift
     local t0 t1 c w m
     t0=$(date +%s%N)
-    LOADSTACK_TIMING=1 /usr/bin/time -f "%M" -o "$work/time" "$@" >"$work/out.try" 2>"$work/err.try"
+    LOADSTACK_TIMING=1 /usr/bin/time -f "%U %S %M" -o "$work/time" "$@" >"$work/out.try" 2>"$work/err.try"
     c=$?
     t1=$(date +%s%N)
     # wall time to the millisecond from the clock (time's %e has 10 ms steps); peak
     # memory from time (a failed command adds a line before it)
     w=$(awk "BEGIN{printf \"%.3f\", ($t1 - $t0) / 1e9}")
-    m=$(tail -1 "$work/time")
+    m=$(tail -1 "$work/time" | awk '{print $3}')
     [[ "$m" =~ ^[0-9]+$ ]] || m=0
+    local cpu
+    cpu=$(tail -1 "$work/time" | awk '{printf "%.3f", $1 + $2}')
     if [ ! -e "$work/$tag.wall" ] || awk "BEGIN{exit !($w < $(cat "$work/$tag.wall"))}"; then
         echo "$w" >"$work/$tag.wall"
         awk "BEGIN{printf \"%.0f\", $m / 1024}" >"$work/$tag.mem"
+        echo "$cpu" >"$work/$tag.cpu"
         echo "$c" >"$work/$tag.rc"
         mv "$work/out.try" "$work/$tag.out"
         mv "$work/err.try" "$work/$tag.err"
@@ -83,9 +96,9 @@ measure() {
 }
 
 # forget TAG: drop TAG's measures.  take TAG: load them into wall, mem, rc, $work/out, $work/err.
-forget() { rm -f "$work/$1".{wall,mem,rc,out,err}; }
+forget() { rm -f "$work/$1".{wall,mem,rc,out,err,cpu}; }
 take() {
-    wall=$(cat "$work/$1.wall"); mem=$(cat "$work/$1.mem"); rc=$(cat "$work/$1.rc")
+    wall=$(cat "$work/$1.wall"); mem=$(cat "$work/$1.mem"); rc=$(cat "$work/$1.rc"); cpu=$(cat "$work/$1.cpu")
     cp "$work/$1.out" "$work/out"; cp "$work/$1.err" "$work/err"
 }
 
@@ -186,56 +199,72 @@ for n in $grids; do
 done
 
 # ---- dense path against a bare dgesv on the same matrix ------------------------------------
+# The best run of each program is the one with the least wall time; its CPU seconds
+# (user + sys) are given beside it, and the ratios of both.
 f="$work/dense$dense.stack"
 "$py" "$here/gen.py" dense "$dense" --out "$f" --matrix "$work/dense$dense.bin" || fail=1
 forget ls
 forget ref
+forget before
 for ((r = 0; r < reps; r++)); do
     measure ls "$ls_bin" solve "$f" --format json --solver dense
+    [ -z "$baseline" ] || measure before "$baseline" solve "$f" --format json --solver dense
     measure ref "$dgesv" "$work/dense$dense.bin"
 done
-take ls
-mv "$work/out" "$work/dense.json"
-row "dense $dense unknowns" loadstack "$(stat -c %s "$f")" "--solver dense"
-ls_w=$wall
+take ref
+ref_w=$wall
+ref_c=$cpu
+ref_t=$(awk '{print $4}' "$work/out")
+ref_x=$(awk '{print $6}' "$work/out")
+# dense_row TAG PROGRAM: the row of TAG's best run, with its ratios to dgesv's.
+dense_row() {
+    take "$1"
+    mv "$work/out" "$work/dense.json"
+    local method="-"
+    [ "$rc" = 0 ] && method=$(json_value "$work/dense.json" 'j["solver"]["method"]')
+    local ratio
+    ratio=$(awk "BEGIN{if ($ref_w > 0 && $ref_c > 0) printf \"%.2f wall, %.2f CPU\", $wall / $ref_w, $cpu / $ref_c; else print \"-\"}")
+    row "dense $dense unknowns" "$2" "$(stat -c %s "$f")" "--solver dense: $method; CPU $cpu s; /dgesv = $ratio"
+}
+[ -z "$baseline" ] || dense_row before "loadstack (before)"
+dense_row ls loadstack
 ls_x=""
 [ "$rc" = 0 ] && ls_x=$(json_value "$work/dense.json" 'j["nodes"]["p0"]')
 take ref
-t=$(awk '{print $4}' "$work/out")
-ratio=$(awk "BEGIN{if ($wall > 0) printf \"%.2f\", $ls_w / $wall; else print \"-\"}")
-row "dense $dense unknowns" "bare dgesv" - "dgesv alone ${t:-?} s; loadstack/dgesv whole process = $ratio"
-ref_x=$(awk '{print $6}' "$work/out")
+row "dense $dense unknowns" "bare dgesv" - "dgesv alone ${ref_t:-?} s; CPU $cpu s"
 [ -n "$ls_x" ] && [ -n "$ref_x" ] && agree "$ls_x" "$ref_x" "dense $dense node p0"
 
 # ---- op-amp chain, many ports, tolerance ---------------------------------------------------
-for k in $chain; do
-    f="$work/chain$k.stack"
-    "$py" "$here/gen.py" chain "$k" --out "$f" || fail=1
+if [ -z "$only" ]; then
+    for k in $chain; do
+        f="$work/chain$k.stack"
+        "$py" "$here/gen.py" chain "$k" --out "$f" || fail=1
+        best_of "$ls_bin" solve "$f" --format json
+        mv "$work/out" "$work/chain.json"
+        method="-"
+        [ "$rc" = 0 ] && method=$(json_value "$work/chain.json" 'j["solver"]["method"] + "/" + j["solver"]["library"] + ", %d unknowns" % j["solver"]["unknowns"]')
+        row "op-amp chain, $k stages" loadstack "$(stat -c %s "$f")" "$method"
+        if [ "$rc" = 0 ]; then
+            # each stage inverts with gain -(rf/rin)/(1 + (1 + rf/rin)/A) ~ -(1 - 1e-5):
+            # after k stages |s_k| stays within a few per cent of the 10 mV input
+            out=$(json_value "$work/chain.json" 'abs(j["nodes"]["s'$k'"])')
+            awk "BEGIN{exit !($out > 0.009 && $out < 0.0101)}" || { echo "run.sh: chain output $out V is not ~10 mV" >&2; fail=1; }
+        fi
+    done
+
+    f="$work/ports$ports.stack"
+    "$py" "$here/gen.py" ports "$ports" --out "$f" || fail=1
     best_of "$ls_bin" solve "$f" --format json
-    mv "$work/out" "$work/chain.json"
-    method="-"
-    [ "$rc" = 0 ] && method=$(json_value "$work/chain.json" 'j["solver"]["method"] + "/" + j["solver"]["library"] + ", %d unknowns" % j["solver"]["unknowns"]')
-    row "op-amp chain, $k stages" loadstack "$(stat -c %s "$f")" "$method"
-    if [ "$rc" = 0 ]; then
-        # each stage inverts with gain -(rf/rin)/(1 + (1 + rf/rin)/A) ~ -(1 - 1e-5):
-        # after k stages |s_k| stays within a few per cent of the 10 mV input
-        out=$(json_value "$work/chain.json" 'abs(j["nodes"]["s'$k'"])')
-        awk "BEGIN{exit !($out > 0.009 && $out < 0.0101)}" || { echo "run.sh: chain output $out V is not ~10 mV" >&2; fail=1; }
-    fi
-done
+    row "$ports ports" loadstack "$(stat -c %s "$f")" "loading report of every port"
 
-f="$work/ports$ports.stack"
-"$py" "$here/gen.py" ports "$ports" --out "$f" || fail=1
-best_of "$ls_bin" solve "$f" --format json
-row "$ports ports" loadstack "$(stat -c %s "$f")" "loading report of every port"
-
-f="$work/tol.stack"
-"$py" "$here/gen.py" tol --out "$f" || fail=1
-best_of "$ls_bin" tol "$f" t24 --trials "$trials" --format json
-row "tol, 50 parts, $trials trials" loadstack "$(stat -c %s "$f")" "worst case + Monte Carlo"
+    f="$work/tol.stack"
+    "$py" "$here/gen.py" tol --out "$f" || fail=1
+    best_of "$ls_bin" tol "$f" t24 --trials "$trials" --format json
+    row "tol, 50 parts, $trials trials" loadstack "$(stat -c %s "$f")" "worst case + Monte Carlo"
+fi
 
 echo "loadstack benchmarks, $(date -u '+%Y-%m-%d %H:%M UTC'), $(nproc) cores, best of $reps"
-echo "load average at the end: $(cut -d' ' -f1-3 /proc/loadavg)"
+echo "load average at the start: $load_start, at the end: $(cut -d' ' -f1-3 /proc/loadavg)"
 echo
 echo "| case | program | wall s | peak MB | parse s | elab s | solve s | report s | parse+elab MB/s | notes |"
 echo "|---|---|--:|--:|--:|--:|--:|--:|--:|---|"

@@ -15,29 +15,9 @@
  * - A nearly singular matrix, [[1, 1], [1, 1 + 1e-15]] (rcond about 2.5e-16,
  *   below the test's 4 eps): singular on both paths, at the same column. */
 #include "../../cu_run.h"
-#include "random_system.h"
-#include "solve/solver.h"
+#include "dense_case.h"
 
 #include <string.h>
-
-/* Factor a on a fresh dense solver, with the singularity test only or not;
- * returns the status, the stats into *st.  The solver into *out (freed by
- * the caller) when out is not NULL. */
-static int factor(const ls_csc *a, bool floor_only, ls_solver_stats *st, ls_solver **out)
-{
-    ls_solver *s = ls_solver_new(&ls_backend_dense, LS_METHOD_DENSE_LU);
-    CU_ASSERT_FATAL(s != NULL);
-    ls_solver_singularity_only(s, floor_only);
-    int rc = ls_solver_analyze(s, a);
-    if (rc == LS_SOLVER_OK)
-        rc = ls_solver_factor(s, a);
-    *st = *ls_solver_stats_of(s);
-    if (out)
-        *out = s;
-    else
-        ls_solver_free(&s);
-    return rc;
-}
 
 /* The n x n matrix of the triplets. */
 static void to_csc(ls_triplets *t, int n, ls_csc *a)
@@ -45,24 +25,13 @@ static void to_csc(ls_triplets *t, int n, ls_csc *a)
     CU_ASSERT_EQUAL_FATAL(ls_triplets_to_csc(t, n, a), 0);
 }
 
-/* The 2 x 2 matrix [[m[0], m[1]], [m[2], m[3]]] (zeros left out) into a. */
-static void two_by_two(const double m[4], ls_csc *a)
-{
-    ls_triplets t = {0};
-    for (int k = 0; k < 4; k++)
-        if (m[k] != 0)
-            put(NULL, &t, 2, k / 2, k % 2, m[k]);
-    to_csc(&t, 2, a);
-    ls_triplets_free(&t);
-}
-
 static void test_closed_form(void)
 {
     ls_csc a = {0};
-    two_by_two((const double[4]){1, 8, 0, 1}, &a);
+    dense_case_two_by_two((const double[4]){1, 8, 0, 1}, &a);
     ls_solver_stats fast, full;
-    CU_ASSERT_EQUAL(factor(&a, true, &fast, NULL), LS_SOLVER_OK);
-    CU_ASSERT_EQUAL(factor(&a, false, &full, NULL), LS_SOLVER_OK);
+    CU_ASSERT_EQUAL(dense_case_factor(&a, true, &fast, NULL), LS_SOLVER_OK);
+    CU_ASSERT_EQUAL(dense_case_factor(&a, false, &full, NULL), LS_SOLVER_OK);
     CU_ASSERT_TRUE(fast.rcond_floor);
     CU_ASSERT_FALSE(full.rcond_floor);
     CU_ASSERT_DOUBLE_EQUAL(fast.rcond, 0.25, 1e-15);   /* the closed form above */
@@ -84,7 +53,7 @@ static void test_random_systems(void)
         to_csc(&t, n, &a);
         ls_solver_stats fast, full;
         ls_solver *sf, *sp;
-        int rf = factor(&a, true, &fast, &sf), rp = factor(&a, false, &full, &sp);
+        int rf = dense_case_factor(&a, true, &fast, &sf), rp = dense_case_factor(&a, false, &full, &sp);
         CU_ASSERT_EQUAL(rf, rp);
         if (rf == LS_SOLVER_OK && rp == LS_SOLVER_OK) {
             floors += fast.rcond_floor;
@@ -112,10 +81,10 @@ static void test_random_systems(void)
 static void test_nearly_singular(void)
 {
     ls_csc a = {0};
-    two_by_two((const double[4]){1, 1, 1, 1 + 1e-15}, &a);
+    dense_case_two_by_two((const double[4]){1, 1, 1, 1 + 1e-15}, &a);
     ls_solver_stats fast, full;
-    CU_ASSERT_EQUAL(factor(&a, true, &fast, NULL), LS_SOLVER_SINGULAR);
-    CU_ASSERT_EQUAL(factor(&a, false, &full, NULL), LS_SOLVER_SINGULAR);
+    CU_ASSERT_EQUAL(dense_case_factor(&a, true, &fast, NULL), LS_SOLVER_SINGULAR);
+    CU_ASSERT_EQUAL(dense_case_factor(&a, false, &full, NULL), LS_SOLVER_SINGULAR);
     CU_ASSERT_FALSE(fast.rcond_floor);   /* the floor could not prove it regular: dgecon decided */
     CU_ASSERT_EQUAL(fast.bad_column, full.bad_column);
     CU_ASSERT_EQUAL(fast.rcond, full.rcond);
