@@ -21,6 +21,10 @@ void dlacn2_(int *n, double *v, double *x, int *isgn, double *est, int *kase, in
 /* The transposed solves that weigh the residual are themselves rounded; to
  * first order they stay within this factor while cond * eps is small. */
 #define SOLVE_SAFETY 2.0
+/* A refinement step whose correction moved no unknown by more than this
+ * fraction of it (a millionth of a unit of its last place) changed only the
+ * tails: the bounds then start from that step's residual (ls_acc_bounds). */
+#define MERGE_BELOW (1e-6 * DBL_EPSILON)
 
 /* ---- double-double arithmetic ---------------------------------------------------------------- */
 
@@ -144,18 +148,34 @@ static void kind_scales(const ls_op *op, double scale[2])
     }
 }
 
+/* Keep the residual just summed (r, absr) as the bounds would weigh it,
+ * and the point it was taken at, into keep (3n doubles). */
+static void keep_residual(const ls_op *op, const double *r, const double *absr, double *keep)
+{
+    int n = op->mna.n;
+    for (int i = 0; i < n; i++)
+        keep[i] = fabs(r[i]) + DATA_ROUNDING * absr[i];
+    memcpy(keep + n, op->x, (size_t)n * sizeof *keep);
+    memcpy(keep + 2 * (size_t)n, op->acc.tail, (size_t)n * sizeof *keep);
+}
+
 int ls_acc_refine(ls_op *op)
 {
     int n = op->mna.n;
     op->acc.refined = op->acc.extended = false;
     op->acc.steps = 0;
     op->acc.have_bounds = false;
+    free(op->acc.last);
+    op->acc.last = NULL;
     double *tail = fresh_tail(op);
     double *buf = malloc(5 * (size_t)(n ? n : 1) * sizeof *buf);
     if (!tail || !buf) {
         free(buf);
         return -1;
     }
+    /* without memory for it the bounds pass over the parts once more */
+    double *keep = malloc(3 * (size_t)(n ? n : 1) * sizeof *keep);
+    bool kept = false;
     double *r = buf, *absr = buf + n, *x0 = buf + 2 * (size_t)n, *work = buf + 3 * (size_t)n;
     memcpy(x0, op->x, (size_t)n * sizeof *x0);
     double scale[2];
@@ -173,10 +193,15 @@ int ls_acc_refine(ls_op *op)
     double prev_z = INFINITY, prev_x = INFINITY, last_x = INFINITY, contraction = 0;
     for (int step = 0; step < MAX_STEPS; step++) {
         stamp_residual(op, r, absr, work);
+        if (keep)
+            keep_residual(op, r, absr, keep);
+        kept = false;
         if (ls_solver_solve(op->solver, r, 0) != LS_SOLVER_OK)
             break;
         double dz = 0, dx = 0;
+        kept = keep != NULL;
         for (int i = 0; i < n; i++) {
+            kept = kept && fabs(r[i]) <= MERGE_BELOW * fabs(op->x[i]);
             int k = i >= op->mna.nn;
             /* relative change; a value that is zero in double counts against
              * a tiny fraction of the largest of its kind */
@@ -209,6 +234,10 @@ int ls_acc_refine(ls_op *op)
      * own values alone moves the answer by a good part of itself). */
     op->acc.reliable = last_x <= CONVERGED && contraction <= MAX_CONTRACTION;
     op->acc.refined = true;
+    if (kept)
+        op->acc.last = keep;
+    else
+        free(keep);
     free(buf);
     return 0;
 }
@@ -415,6 +444,8 @@ static int trial_refine(ls_op *op)
     int r = ls_acc_refine(op);
     memcpy(op->x, keep, n * sizeof *keep);
     free(keep);
+    free(op->acc.last); /* the copy's residual, not the kept solution's */
+    op->acc.last = NULL;
     if (op->acc.tail)
         memset(op->acc.tail, 0, n * sizeof *op->acc.tail);
     op->acc.refined = op->acc.extended = false;
@@ -436,6 +467,27 @@ static void unbounded(ls_op *op)
     }
     a->have_bounds = true;
     name_worst(op);
+}
+
+/* How far each unknown of x + tail lies from (x0 + t0), rounded up, into
+ * shift (n doubles): the differences of the two parts are exact (two_sum),
+ * their sum is rounded three times at most. */
+static void moved_since(const ls_op *op, const double *x0, const double *t0, double *shift)
+{
+    const double *tail = op->acc.tail;
+    for (int i = 0; i < op->mna.n; i++) {
+        double e, f, s = two_sum(op->x[i], -x0[i], &e), t = two_sum(tail[i], -t0[i], &f);
+        shift[i] = (fabs(s + t) + fabs(e) + fabs(f)) * (1 + 4 * DBL_EPSILON);
+    }
+}
+
+/* |c|^T shift for the linear form l (0 without a shift). */
+static double form_shift(const ls_lin *l, const double *shift)
+{
+    double b = 0;
+    for (int i = 0; shift && i < l->n; i++)
+        b += fabs(l->coef[i]) * shift[l->idx[i]];
+    return b * (1 + 2 * LS_LIN_MAX * DBL_EPSILON);
 }
 
 int ls_acc_bounds(ls_op *op)
@@ -467,13 +519,23 @@ int ls_acc_bounds(ls_op *op)
     if (!a->reliable) {
         free(buf);
         free(isgn);
+        free(a->last);
+        a->last = NULL;
         unbounded(op);
         return 0;
     }
     double *w = buf, *absr = buf + m, *y = buf + 2 * m, *work = buf + 3 * m;
-    stamp_residual(op, w, absr, work);
-    for (int i = 0; i < n; i++)
-        w[i] = fabs(w[i]) + DATA_ROUNDING * absr[i];
+    const double *shift = NULL; /* with a kept residual: how far each unknown moved since */
+    a->merged = a->last != NULL && a->refined;
+    if (a->merged) {
+        memcpy(w, a->last, (size_t)n * sizeof *w);
+        moved_since(op, a->last + n, a->last + 2 * m, absr);
+        shift = absr;
+    } else {
+        stamp_residual(op, w, absr, work);
+        for (int i = 0; i < n; i++)
+            w[i] = fabs(w[i]) + DATA_ROUNDING * absr[i];
+    }
     int bad = 0;
     bool large = n > LS_ACC_EXACT_LIMIT || nl->nparts > 4 * LS_ACC_EXACT_LIMIT;
     a->estimated = a->per_node = false;
@@ -490,7 +552,7 @@ int ls_acc_bounds(ls_op *op)
             bad = estimate_node_bound(op, w, y, work, isgn, &est);
     }
     /* the bound of node unknown k, per node or estimated (large systems) */
-#define NODE_RAW(k) (SOLVE_SAFETY * (a->per_node ? fmax(y[k], 0) : est))
+#define NODE_RAW(k) (SOLVE_SAFETY * (a->per_node ? fmax(y[k], 0) : est) + (shift ? shift[k] : 0))
     a->node_bound[0] = 0;
     for (int i = 1; i < nl->nnodes && !bad; i++) {
         double b;
@@ -499,6 +561,7 @@ int ls_acc_bounds(ls_op *op)
         } else {
             ls_lin l = {.n = 1, .idx = {i - 1}, .coef = {1}};
             bad = form_bound(op, &l, w, y, &b);
+            b += form_shift(&l, shift);
         }
         a->node_bound[i] = b + DBL_EPSILON * fabs(op->v[i]);
     }
@@ -515,10 +578,13 @@ int ls_acc_bounds(ls_op *op)
                 continue; /* a branch current: no per-unknown estimate */
         } else {
             bad = form_bound(op, &l, w, y, &b);
+            b += form_shift(&l, shift);
         }
         a->part_bound[i] = b + DBL_EPSILON * fabs(op->ipart[i]);
     }
 #undef NODE_RAW
+    free(a->last); /* used once: the bounds are kept */
+    a->last = NULL;
     free(buf);
     free(isgn);
     if (bad == -1)
@@ -556,6 +622,7 @@ bool ls_acc_doubtful(double value, double bound, int digits, double scale)
 
 void ls_acc_free(ls_accuracy *a)
 {
+    free(a->last);
     free(a->tail);
     free(a->node_bound);
     free(a->part_bound);

@@ -30,6 +30,13 @@ typedef struct ls_accuracy {
     double *part_bound;    /* nparts: A, absolute, on the part's current; NaN where none */
     int worst_node, worst_part;     /* largest bound against its value (-1: none untrusted) */
     double worst_node_rel, worst_part_rel;  /* those bounds / |value| */
+    /* 3n or NULL: the refinement's last residual as w = |r| + the rounding
+     * of the parts' values, then the x and the tail it was taken at, kept
+     * when that step's correction moved every unknown by far less than
+     * double precision (accuracy.c): the bounds start from it instead of
+     * another pass over the parts, and add how far x + tail moved since. */
+    double *last;
+    bool merged;           /* the last bounds started from `last` (for tests) */
 } ls_accuracy;
 
 /* LS_CHOOSE_ITERATIVE: AMG-PCG (amg.h), in the -Dmpi=enabled build only. */

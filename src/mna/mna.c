@@ -18,6 +18,24 @@ void ls_triplets_free(ls_triplets *t)
     memset(t, 0, sizeof *t);
 }
 
+/* Sort entries s .. e-1 by row, keeping the order of equal rows (insertion
+ * sort: columns are short). */
+static void sort_column(int *row, double *val, int s, int e)
+{
+    for (int p = s + 1; p < e; p++) {
+        int r = row[p];
+        double v = val[p];
+        int q = p - 1;
+        while (q >= s && row[q] > r) {
+            row[q + 1] = row[q];
+            val[q + 1] = val[q];
+            q--;
+        }
+        row[q + 1] = r;
+        val[q + 1] = v;
+    }
+}
+
 int ls_triplets_to_csc(const ls_triplets *t, int n, ls_csc *out)
 {
     memset(out, 0, sizeof *out);
@@ -43,22 +61,11 @@ int ls_triplets_to_csc(const ls_triplets *t, int n, ls_csc *out)
         rv[p] = t->tx[k];
     }
     free(pos);
-    /* Sort each column by row (insertion sort: columns are short) and sum duplicates. */
+    /* Sort each column by row and sum duplicates. */
     int w = 0;
     for (int j = 0; j < n; j++) {
         int s = cnt[j], e = cnt[j + 1];
-        for (int p = s + 1; p < e; p++) {
-            int r = ri[p];
-            double v = rv[p];
-            int q = p - 1;
-            while (q >= s && ri[q] > r) {
-                ri[q + 1] = ri[q];
-                rv[q + 1] = rv[q];
-                q--;
-            }
-            ri[q + 1] = r;
-            rv[q + 1] = v;
-        }
+        sort_column(ri, rv, s, e);
         cnt[j] = w;
         for (int p = s; p < e; p++) {
             if (w > cnt[j] && ri[w - 1] == ri[p]) {
@@ -212,8 +219,145 @@ static int restamp_in_place(ls_mna *m)
     return 1;
 }
 
+/* ---- the first assembly: entries stamped into their columns --------------------- */
+
+/* Slots per column into start[1 .. n] (start[0] = 0), then their prefix sums:
+ * a part whose stamp stays among the unknowns of its pins and branches (k of
+ * them, a pin counted once per mention) writes at most k entries into each of
+ * those columns, and a tie one on its node's diagonal.  A part that reaches
+ * further (a controlled source's via=) takes slots of the column it writes
+ * into; only a column written more often than this counts allow overflows,
+ * which ls_sink_put reports.  Returns the total (above INT_MAX: stopped
+ * there, start unusable). */
+static size_t size_columns(const ls_mna *m, int *start)
+{
+    const ls_netlist *nl = m->nl;
+    int u[16];
+    size_t total = 0;
+    for (int i = 0; i < nl->nparts; i++) {
+        const ls_part *p = &nl->parts[i];
+        int k = 0, np = p->kind->npins, c = p->kind->branches(p);
+        for (int j = 0; j < np && k < 16; j++)
+            if (p->pin[j] > 0)
+                u[k++] = p->pin[j] - 1;
+        for (int j = 0; j < c && k < 16; j++)
+            u[k++] = p->branch + j;
+        total += (size_t)k * (size_t)k;
+        if (total > INT_MAX) /* before any column's count could wrap around */
+            return total;
+        for (int j = 0; j < k; j++)
+            start[u[j] + 1] += k;
+    }
+    for (int i = 1; m->ties && i < nl->nnodes; i++)
+        start[i] += m->ties[i].g > 0;
+    if (total + (size_t)nl->nnodes > INT_MAX)
+        return total + (size_t)nl->nnodes;
+    for (int j = 0; j < m->n; j++)
+        start[j + 1] += start[j];
+    return (size_t)start[m->n];
+}
+
+/* Sum the duplicates of each column in the order they were stamped (the
+ * first sets the entry, each later one adds to it: the sums compressing
+ * triplets makes), then sort the column by row; the columns are packed
+ * to the front.  start: the columns' first slots, rewritten as colptr;
+ * next: one past each column's last filled slot.  where: n ints of scratch.
+ * Returns the entries kept; *stamped the entries stamped. */
+static int pack_columns(int n, int *start, const int *next, int *row, double *val, int *where, size_t *stamped)
+{
+    int w = 0;
+    size_t total = 0;
+    memset(where, 0xff, (size_t)n * sizeof *where); /* -1: before every column */
+    for (int j = 0; j < n; j++) {
+        int s = start[j], e = next[j], first = w;
+        total += (size_t)(e - s);
+        for (int p = s; p < e; p++) { /* w <= p: the slots written were read */
+            int r = row[p];
+            if (where[r] >= first) {
+                val[where[r]] += val[p];
+            } else {
+                where[r] = w;
+                row[w] = r;
+                val[w] = val[p];
+                w++;
+            }
+        }
+        sort_column(row, val, first, w);
+        start[j] = first;
+    }
+    start[n] = w;
+    *stamped = total;
+    return w;
+}
+
+/* The first assembly without triplets: every column sized from the parts'
+ * pins (size_columns), each entry stamped into its column, duplicates summed
+ * in stamp order and each column sorted: the matrix compressing the triplets
+ * would give, bit for bit (tests/mna/direct_same.c).  0 done, 1 a column
+ * overflowed (assemble through triplets), -1 no memory. */
+static int stamp_direct(ls_mna *m)
+{
+    int n = m->n;
+    int *start = calloc((size_t)n + 1, sizeof *start);
+    int *next = malloc(((size_t)n + 1) * sizeof *next);
+    int *where = malloc(((size_t)n + 1) * sizeof *where);
+    if (!start || !next || !where)
+        goto nomem;
+    size_t slots = size_columns(m, start);
+    if (slots > INT_MAX) { /* the int indices cannot count them: let the triplets refuse */
+        free(start);
+        free(next);
+        free(where);
+        return 1;
+    }
+    int *row = malloc((slots ? slots : 1) * sizeof *row);
+    double *val = malloc((slots ? slots : 1) * sizeof *val);
+    if (!row || !val) {
+        free(row);
+        free(val);
+        goto nomem;
+    }
+    memcpy(next, start, (size_t)n * sizeof *next);
+    ls_columns cols = {.next = next, .end = start + 1, .row = row, .val = val};
+    ls_sink sink = {.mode = SINK_COLUMNS, .cols = &cols, .b = m->b, .scale = 1};
+    memset(m->b, 0, (size_t)n * sizeof *m->b);
+    for (int i = 0; i < m->nl->nparts; i++)
+        ls_mna_stamp_part(m, i, &sink);
+    ls_mna_stamp_ties(m, &sink);
+    if (cols.overflow) {
+        free(start);
+        free(next);
+        free(where);
+        free(row);
+        free(val);
+        return 1;
+    }
+    size_t stamped;
+    int w = pack_columns(n, start, next, row, val, where, &stamped);
+    free(next);
+    free(where);
+    if ((size_t)w < slots && w > 0) { /* give back the slots left empty and the duplicates' */
+        int *row2 = realloc(row, (size_t)w * sizeof *row);
+        double *val2 = realloc(val, (size_t)w * sizeof *val);
+        row = row2 ? row2 : row;
+        val = val2 ? val2 : val;
+    }
+    ls_csc_free(&m->a);
+    m->a = (ls_csc){.n = n, .colptr = start, .rowind = row, .val = val};
+    m->nnz_hint = stamped;
+    m->amax = ls_csc_amax(&m->a);
+    m->direct = true;
+    return 0;
+nomem:
+    free(start);
+    free(next);
+    free(where);
+    return -1;
+}
+
 /* Stamp every part: into the pattern of the last assembly when it still fits,
- * else into triplets that are compressed into m->a (and so freed: on a large
+ * else, the first time, straight into columns (stamp_direct), and otherwise
+ * into triplets that are compressed into m->a (and so freed: on a large
  * grid they would outweigh the matrix); the count is kept so the next full
  * assembly allocates once.  0 ok, -1 no memory. */
 static int stamp_all(ls_mna *m)
@@ -225,7 +369,16 @@ static int stamp_all(ls_mna *m)
         int r = restamp_in_place(m);
         if (r != 0)
             return r > 0 ? 0 : -1;
+    } else {
+        int r = stamp_direct(m);
+        if (r <= 0)
+            return r;
     }
+    return ls_mna_stamp_triplets(m);
+}
+
+int ls_mna_stamp_triplets(ls_mna *m)
+{
     const ls_netlist *nl = m->nl;
     ls_sink sink = {.mode = SINK_ASSEMBLE, .t = &m->t, .b = m->b, .scale = 1};
     ls_triplets_free(&m->t);

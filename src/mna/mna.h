@@ -28,6 +28,7 @@ typedef struct ls_mna {
     double amax;           /* largest |a_ij| */
     unsigned char *seen;   /* restamp scratch: per entry of a, set once a triplet reached it */
     size_t seen_n;
+    bool direct;           /* the first assembly went straight into columns (mna.c; for tests) */
     unsigned in_place;     /* restamps summed straight into a's pattern (for tests) */
     unsigned patched;      /* restamps that restamped only the changed parts (patch.c; for tests) */
     /* Restamping only what changed (patch.c): the parts announced for the
@@ -86,6 +87,13 @@ void ls_mna_index_free(ls_mna *m);
  * as the extra-precise residual of accuracy.c. */
 void ls_mna_stamp_part(const ls_mna *m, int i, ls_sink *sink);
 void ls_mna_stamp_ties(const ls_mna *m, ls_sink *sink);
+
+/* Stamp every part into triplets and compress them into m->a (any matrix
+ * there freed), b afresh: the assembly when the direct one into columns
+ * does not fit (a part that stamps outside its pins and branches more than
+ * the columns' slots allow), and the reference the tests hold the direct one
+ * to.  0 ok, -1 out of memory. */
+int ls_mna_stamp_triplets(ls_mna *m);
 
 /* Compress triplets (summing duplicates) into a CSC matrix; 0 ok, -1 no memory.
  * Explicit zeros that result from cancellation are kept so the pattern is stable. */

@@ -25,16 +25,14 @@ static inline void keep_a(ls_sink *s, int row, int col, double v)
 {
     if (row < 0 || col < 0)
         return;
-    if (v != 0 || s->mode != SINK_ASSEMBLE) { /* only assembly keeps zeros */
+    if (v != 0 || (s->mode != SINK_ASSEMBLE && s->mode != SINK_COLUMNS)) { /* only assembly keeps zeros */
         ls_sink_a(s, row, col, v);
         return;
     }
     double scale = s->scale;
-    s->scale = 1;
-    ls_sink_a(s, row, col, 1);
+    s->scale = 1; /* a plain +0 whatever the scale (-1 * 0 would be -0) */
+    ls_sink_put(s, row, col, 0);
     s->scale = scale;
-    if (!s->t->failed && s->t->nnz)
-        s->t->tx[s->t->nnz - 1] = 0;
 }
 
 /* The unknown of a part's pin i. */

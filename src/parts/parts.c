@@ -12,13 +12,26 @@
 void ls_sink_put(ls_sink *s, int row, int col, double v)
 {
     v *= s->scale;
-    assert(s->mode == SINK_ASSEMBLE || s->mode == SINK_ADJOINT || s->mode == SINK_RESIDUAL);
+    assert(s->mode == SINK_ASSEMBLE || s->mode == SINK_ADJOINT || s->mode == SINK_RESIDUAL ||
+           s->mode == SINK_COLUMNS);
     if (s->mode == SINK_ADJOINT) {
         s->acc -= s->lambda[row] * v * s->x[col];
         return;
     }
     if (s->mode == SINK_RESIDUAL) {
         ls_resid_a(s->resid, row, col, v);
+        return;
+    }
+    if (s->mode == SINK_COLUMNS) {
+        ls_columns *c = s->cols;
+        int p = c->next[col];
+        if (p == c->end[col]) {
+            c->overflow = 1;
+            return;
+        }
+        c->row[p] = row;
+        c->val[p] = v;
+        c->next[col] = p + 1;
         return;
     }
     ls_triplets *t = s->t;

@@ -48,7 +48,7 @@ typedef struct ls_lin {
  * accumulation lambda^T (db - dA x) used by the sensitivity analysis, or the
  * residual b - A x accumulated part by part in extended precision
  * (accuracy.c), which never sums two parts' conductances in double. */
-typedef enum ls_sink_mode { SINK_ASSEMBLE, SINK_ADJOINT, SINK_RESIDUAL } ls_sink_mode;
+typedef enum ls_sink_mode { SINK_ASSEMBLE, SINK_ADJOINT, SINK_RESIDUAL, SINK_COLUMNS } ls_sink_mode;
 typedef struct ls_resid ls_resid;
 void ls_resid_a(ls_resid *r, int row, int col, double v);
 void ls_resid_b(ls_resid *r, int row, double v);
@@ -61,10 +61,22 @@ typedef struct ls_triplets {
     int failed;
 } ls_triplets;
 
+/* SINK_COLUMNS: the first assembly's entries placed straight into slots of
+ * their column (mna.c sizes the columns before stamping), duplicates not yet
+ * summed.  A column with no slot left sets overflow and drops the entry. */
+typedef struct ls_columns {
+    int *next;             /* per column: its next free slot */
+    const int *end;        /* per column: one past its last slot */
+    int *row;              /* per slot: the entry's row */
+    double *val;           /* per slot: its value */
+    int overflow;
+} ls_columns;
+
 typedef struct ls_sink {
     ls_sink_mode mode;
     ls_triplets *t;        /* SINK_ASSEMBLE */
-    double *b;             /* SINK_ASSEMBLE, order n */
+    ls_columns *cols;      /* SINK_COLUMNS */
+    double *b;             /* SINK_ASSEMBLE and SINK_COLUMNS, order n */
     const double *lambda;  /* SINK_ADJOINT */
     const double *x;       /* SINK_ADJOINT */
     double acc;            /* SINK_ADJOINT result */
