@@ -1,13 +1,14 @@
 /* arena.c — bump allocation in geometrically growing blocks. */
 #include "base/arena.h"
 
+#include "base/pages.h"
+
 #include <stdarg.h>
 #include <stdbool.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/mman.h>
 
 struct ls_arena_block {
     ls_arena_block *next;
@@ -18,51 +19,22 @@ struct ls_arena_block {
 
 #define FIRST_BLOCK ((size_t)64 << 10)
 #define MAX_BLOCK ((size_t)32 << 20)
-#define HUGE_PAGE ((size_t)2 << 20)   /* x86-64 and arm64 (4 KB base pages) */
 
 void ls_arena_init(ls_arena *a)
 {
     memset(a, 0, sizeof *a);
 }
 
-/* A mapping of len bytes (a multiple of HUGE_PAGE) aligned to HUGE_PAGE, so
- * that transparent huge pages can back it: where the system gives them to
- * every mapping, or when built with -DLS_ARENA_HUGE_PAGES, which asks for
- * them (MADV_HUGEPAGE).  Asking is not the default: it takes 512 times fewer
- * page faults, but in a virtual machine that hands free memory back to its
- * host a fresh huge page can cost more than 512 base pages (the 1000 x 1000
- * grid parsed in 0.85 to 1.5 s that way against 0.45 to 0.65 s, and in
- * 0.23 s only right after another run had freed huge pages).  NULL when the
- * system refuses. */
-static void *map_aligned(size_t len)
-{
-#ifdef MAP_ANONYMOUS
-    size_t span = len + HUGE_PAGE;
-    char *p = mmap(NULL, span, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
-    if (p == MAP_FAILED)
-        return NULL;
-    char *start = (char *)(((uintptr_t)p + HUGE_PAGE - 1) & ~(uintptr_t)(HUGE_PAGE - 1));
-    if (start > p)
-        munmap(p, (size_t)(start - p));
-    if (start + len < p + span)
-        munmap(start + len, (size_t)(p + span - (start + len)));
-#if defined(MADV_HUGEPAGE) && defined(LS_ARENA_HUGE_PAGES)
-    madvise(start, len, MADV_HUGEPAGE); /* advice only: without huge pages it still works */
-#endif
-    return start;
-#else
-    (void)len;
-    return NULL;
-#endif
-}
-
-/* A zeroed block with at least cap data bytes; NULL when out of memory. */
+/* A zeroed block with at least cap data bytes; NULL when out of memory.  A
+ * block of LS_HUGE_PAGE or more is its own mapping, mapped in at once with
+ * huge pages where the kernel has them (base/pages.h: first touches of fresh
+ * pages one by one were the largest cost of a large circuit's parse). */
 static ls_arena_block *new_block(size_t cap)
 {
     size_t bytes = offsetof(ls_arena_block, data) + cap;
-    if (bytes >= HUGE_PAGE) {
-        size_t len = (bytes + HUGE_PAGE - 1) & ~(HUGE_PAGE - 1);
-        ls_arena_block *b = map_aligned(len);
+    if (bytes >= LS_HUGE_PAGE) {
+        size_t len = (bytes + LS_HUGE_PAGE - 1) & ~(LS_HUGE_PAGE - 1);
+        ls_arena_block *b = ls_pages_map(len);
         if (b) {
             b->next = NULL;
             b->cap = len - offsetof(ls_arena_block, data);
@@ -189,7 +161,7 @@ static ls_arena_block *drop_blocks(ls_arena_block *b, const ls_arena_block *stop
     while (b && b != stop) {
         ls_arena_block *n = b->next;
         if (b->map_len)
-            munmap(b, b->map_len);
+            ls_pages_unmap(b, b->map_len);
         else
             free(b);
         b = n;

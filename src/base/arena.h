@@ -2,8 +2,8 @@
  * Everything allocated here is freed by one ls_arena_free call.
  *
  * Blocks grow geometrically (64 KB doubling up to 32 MB), so a large circuit
- * takes few of them; a block of 2 MB or more is mapped directly, aligned for
- * transparent huge pages (see arena.c on when they are asked for).  Block
+ * takes few of them; a block of 2 MB or more is mapped directly and mapped
+ * in at once, with huge pages where the kernel gives them (base/pages.h).  Block
  * memory is never reused before ls_arena_free, so it is zero until handed
  * out: zeroed allocations cost nothing extra, and text is not aligned. */
 #ifndef LS_ARENA_H

@@ -2,11 +2,12 @@
  * grown at three quarters full. */
 #include "base/hash.h"
 
+#include "base/pages.h"
+
 #include <stdbool.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/mman.h>
 
 #define MIN_CAP 64
 #define MAX_CAP ((size_t)1 << 31)   /* a 32-bit stored hash still picks any slot */
@@ -90,43 +91,30 @@ static inline int fits(size_t count, size_t cap)
     return count <= cap - cap / 4;
 }
 
-#define HUGE_PAGE ((size_t)2 << 20)   /* x86-64 and arm64 (4 KB base pages) */
 
 /* Whether a table of cap slots is mapped on its own (new_slots). */
 static inline bool mapped(size_t cap)
 {
-    return cap * sizeof(ls_hash_slot) >= 2 * HUGE_PAGE;
+    return cap * sizeof(ls_hash_slot) >= 2 * LS_HUGE_PAGE;
 }
 
 /* cap zeroed slots, given back by free_slots.  A table of many megabytes is
- * probed at random, one translation-buffer miss per probe with base pages, so
- * it is mapped on its own, aligned for huge pages, and asks for them (advice
- * only); a fresh mapping reads as zero, so it is not cleared by hand (the
- * 64 MB name table of a 1000 x 1000 grid was written twice that way). */
+ * probed at random, one translation-buffer miss per probe with base pages,
+ * and every page of it is touched, so it is mapped on its own and mapped in
+ * at once, with huge pages where the kernel has them (base/pages.h); a fresh
+ * mapping reads as zero, so it is not cleared by hand. */
 static ls_hash_slot *new_slots(size_t cap)
 {
     if (!mapped(cap))
         return calloc(cap, sizeof(ls_hash_slot));
-    size_t bytes = cap * sizeof(ls_hash_slot), span = bytes + HUGE_PAGE;
-    char *p = mmap(NULL, span, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
-    if (p == MAP_FAILED)
-        return NULL;
-    char *start = (char *)(((uintptr_t)p + HUGE_PAGE - 1) & ~(uintptr_t)(HUGE_PAGE - 1));
-    if (start > p)
-        munmap(p, (size_t)(start - p));
-    if (start + bytes < p + span)
-        munmap(start + bytes, (size_t)(p + span - (start + bytes)));
-#ifdef MADV_HUGEPAGE
-    madvise(start, bytes, MADV_HUGEPAGE);
-#endif
-    return (ls_hash_slot *)(void *)start;
+    return ls_pages_map(cap * sizeof(ls_hash_slot)); /* a power of two of at least 2 huge pages */
 }
 
 /* Give back the cap slots s of new_slots (NULL: nothing). */
 static void free_slots(ls_hash_slot *s, size_t cap)
 {
     if (s && mapped(cap))
-        munmap(s, cap * sizeof(ls_hash_slot));
+        ls_pages_unmap(s, cap * sizeof(ls_hash_slot));
     else
         free(s);
 }

@@ -12,6 +12,7 @@
 
 #include "base/eseries.h"
 #include "base/memlimit.h"
+#include "base/pages.h"
 #include "lang/parser.h"
 #include "netlist/letdeps.h"
 #include "parts/parts.h"
@@ -106,13 +107,16 @@ static void out_of_memory(elab *x)
 
 /* Make room for exactly `need` elements when the array holds fewer (the
  * elaborator's size estimate, so that a large circuit does not copy its
- * tables as they double); a failure changes nothing (they grow as they go). */
+ * tables as they double), its pages mapped in at once (base/pages.h: the
+ * estimate is what the circuit fills); a failure changes nothing (they grow
+ * as they go). */
 static void reserve(void **v, int *cap, long long need, size_t elem)
 {
     if (need <= *cap || need > INT_MAX / 2)
         return;
     void *p = realloc(*v, (size_t)need * elem);
     if (p) {
+        ls_pages_populate(p, (size_t)need * elem, true);
         *v = p;
         *cap = (int)need;
     }
@@ -197,8 +201,11 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         ls_error(x->d, loc, "name is longer than %d bytes", LS_MAX_NAME_BYTES);
         return -1;
     }
-    /* Room for the entity first, so nothing can fail once the name is in. */
-    if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents))
+    /* Room for the entity first, so nothing can fail once the name is in;
+     * a node, part or let keeps its location in its own record. */
+    bool own_loc = kind != ENT_NODE && kind != ENT_PART && kind != ENT_PARAM;
+    if (!grow_x(x, (void **)&nl->ents, &nl->cap_ents, nl->nents + 1, sizeof *nl->ents) ||
+        (own_loc && !grow_x(x, (void **)&nl->ent_locs, &nl->cap_ent_locs, nl->nent_locs + 1, sizeof *nl->ent_locs)))
         return -1;
     int e;
     int r = ls_hash_intern_hashed(&nl->names, full, name_hash(x, full, len), nl->nents, &e);
@@ -213,10 +220,12 @@ static int declare(elab *x, const char *full, ls_ent_kind kind, int index, ls_lo
         }
         ls_entity *o = &nl->ents[e];
         ls_error(x->d, loc, "'%s' is already declared as a %s", full, ent_what(o->kind));
-        note_decl(x, o->loc, full);
+        note_decl(x, ls_entity_loc(nl, e), full);
         return -1;
     }
-    nl->ents[nl->nents++] = (ls_entity){kind, index, loc};
+    if (own_loc)
+        nl->ent_locs[nl->nent_locs++] = (ls_ent_loc){nl->nents, loc};
+    nl->ents[nl->nents++] = (ls_entity){kind, index};
     return e;
 }
 
@@ -267,7 +276,7 @@ static int node_ref(elab *x, const scope *s, const char *name, ls_loc loc)
             return o->index;
         }
         ls_error(x->d, loc, "'%s' is a %s, not a node", name, ent_what(o->kind));
-        note_decl(x, o->loc, full);
+        note_decl(x, ls_entity_loc(nl, e), full);
         return -1;
     }
     if (i < 0)
@@ -2452,13 +2461,17 @@ int ls_elaborate_following(const ls_program *prog, ls_diags *d, ls_setting *sets
     scope top = {"", NULL, NULL, 0};
     long long nparts = 0;
     if (expansion_fits(&x, prog, &nparts)) {
-        /* Room in the name table for every part and, as a guess, half as many
-         * nodes again, so that a large circuit does not rehash as it grows
-         * (a failure here only means the table grows as it goes). */
-        ls_hash_reserve(&nl->names, (size_t)nparts + (size_t)nparts / 2 + 16);
+        /* Room in the name table for every part and, as a guess, a little
+         * more than half as many nodes again (a square grid of N x N nodes has
+         * 2 N (N - 1) + 1 parts, so half leaves it N nodes short, and the
+         * entity table of the 1000 grid doubled for its last thousand), so
+         * that a large circuit does not rehash or copy as it grows (a failure
+         * here only means the tables grow as they go). */
+        long long nodes = nparts / 2 + nparts / 32 + 16;
+        ls_hash_reserve(&nl->names, (size_t)(nparts + nodes));
         reserve((void **)&nl->parts, &nl->cap_parts, nparts, sizeof *nl->parts);
-        reserve((void **)&nl->ents, &nl->cap_ents, nparts + nparts / 2 + 16, sizeof *nl->ents);
-        reserve((void **)&nl->nodes, &nl->cap_nodes, nparts / 2 + 16, sizeof *nl->nodes);
+        reserve((void **)&nl->ents, &nl->cap_ents, nparts + nodes, sizeof *nl->ents);
+        reserve((void **)&nl->nodes, &nl->cap_nodes, nodes, sizeof *nl->nodes);
         if (prog->node_keys > 0 && (x.node_of_key = malloc(((size_t)prog->node_keys + 1) * sizeof *x.node_of_key))) {
             memset(x.node_of_key, 0xff, ((size_t)prog->node_keys + 1) * sizeof *x.node_of_key); /* every int -1 */
             x.nkeys = prog->node_keys;

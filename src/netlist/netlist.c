@@ -16,6 +16,7 @@ void ls_netlist_free(ls_netlist *nl)
     free(nl->frees);
     free(nl->params);
     free(nl->ents);
+    free(nl->ent_locs);
     ls_hash_free(&nl->names);
     memset(nl, 0, sizeof *nl);
 }
@@ -36,4 +37,26 @@ int ls_netlist_find_node(const ls_netlist *nl, const char *name)
     if (nl->ents[e].kind == ENT_NODE || nl->ents[e].kind == ENT_ALIAS)
         return nl->ents[e].index;
     return -1;
+}
+
+ls_loc ls_entity_loc(const ls_netlist *nl, int e)
+{
+    const ls_entity *o = &nl->ents[e];
+    switch (o->kind) {
+    case ENT_NODE: return nl->nodes[o->index].loc;
+    case ENT_PART: return nl->parts[o->index].loc;
+    case ENT_PARAM: return nl->params[o->index].loc;
+    default: break;
+    }
+    int lo = 0, hi = nl->nent_locs - 1; /* the rest: kept in order of ent */
+    while (lo <= hi) {
+        int mid = lo + (hi - lo) / 2;
+        if (nl->ent_locs[mid].ent == e)
+            return nl->ent_locs[mid].loc;
+        if (nl->ent_locs[mid].ent < e)
+            lo = mid + 1;
+        else
+            hi = mid - 1;
+    }
+    return LS_NOLOC;
 }

@@ -122,11 +122,22 @@ typedef struct ls_check {
 
 typedef enum ls_ent_kind { ENT_NODE, ENT_ALIAS, ENT_PART, ENT_INSTANCE, ENT_PARAM, ENT_BLOCK } ls_ent_kind;
 
+/* What a name stands for.  Its location (where it was declared) is its
+ * record's (the node's, part's or let's loc), or for an alias or an instance
+ * kept apart in ls_netlist.ent_locs: read it with ls_entity_loc.  8 bytes:
+ * a 1000 x 1000 grid has 3 million entities (docs/performance.md, "Front
+ * end, the sixth round"). */
 typedef struct ls_entity {
     ls_ent_kind kind;
-    int index;             /* node, part, param; ENT_ALIAS: the outer node */
-    ls_loc loc;
+    int index;             /* node, part, param; ENT_ALIAS: the outer node; ENT_INSTANCE: the block */
 } ls_entity;
+_Static_assert(sizeof(ls_entity) <= 8, "an entity stays within 8 bytes");
+
+/* The location of an entity that has no record of its own to keep it. */
+typedef struct ls_ent_loc {
+    int ent;               /* index into ls_netlist.ents */
+    ls_loc loc;
+} ls_ent_loc;
 
 typedef struct ls_param {
     double value;
@@ -170,6 +181,8 @@ typedef struct ls_netlist {
     int nparams, cap_params;
     ls_entity *ents;
     int nents, cap_ents;
+    ls_ent_loc *ent_locs;  /* the aliases' and instances' locations, by increasing ent */
+    int nent_locs, cap_ent_locs;
     ls_hash names;         /* full name -> entity */
     double min_ratio;      /* from `rule ratio`, else 10 */
     bool has_rule;
@@ -187,5 +200,8 @@ void ls_netlist_free(ls_netlist *nl);
 int ls_netlist_find_part(const ls_netlist *nl, const char *name);
 /* Node index by full name (pins resolve to their outer node), or -1. */
 int ls_netlist_find_node(const ls_netlist *nl, const char *name);
+/* Where entity e (an index into nl->ents) was declared; LS_NOLOC when
+ * nowhere in the text (the ground's alias without a ground statement). */
+ls_loc ls_entity_loc(const ls_netlist *nl, int e);
 
 #endif

@@ -18,9 +18,8 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/mman.h>
-#include <unistd.h>
 
+#include "base/pages.h"
 #include "solve/solver.h"
 #include "solve/sparse.h"
 
@@ -57,26 +56,6 @@ static void dense_destroy(void *self)
     free(d);
 }
 
-/* Map in the pages of a fresh block of `bytes` at p in one call, where the
- * kernel supports it (Linux 5.14 and later): faulting each 4 KiB page on its
- * first write costs more, and a 2000-unknown matrix is 8000 pages.  Does
- * nothing elsewhere; the memory is used the same either way. */
-static void prefault(void *p, size_t bytes)
-{
-#ifdef MADV_POPULATE_WRITE
-    long page = sysconf(_SC_PAGESIZE);
-    if (page <= 0 || bytes < (size_t)page * 64)
-        return;
-    uintptr_t s = ((uintptr_t)p + (uintptr_t)page - 1) & ~((uintptr_t)page - 1);
-    uintptr_t e = ((uintptr_t)p + bytes) & ~((uintptr_t)page - 1);
-    if (e > s)
-        (void)madvise((void *)s, e - s, MADV_POPULATE_WRITE);
-#else
-    (void)p;
-    (void)bytes;
-#endif
-}
-
 static int dense_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
 {
     dense *d = self;
@@ -103,7 +82,9 @@ static int dense_analyze(void *self, const ls_csc *a, ls_solver_stats *st)
         st->bytes_needed = ls_dense_bytes(n);
         return LS_SOLVER_NOMEM;
     }
-    prefault(d->lu, m * m * sizeof *d->lu);
+    /* map its pages in at once: faulting each on its first write costs more,
+     * and a 2000-unknown matrix is 8000 pages (base/pages.h) */
+    ls_pages_populate(d->lu, m * m * sizeof *d->lu, false);
     st->analyses++;
     return LS_SOLVER_OK;
 }

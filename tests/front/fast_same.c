@@ -189,7 +189,7 @@ static bool same_netlist(const ls_netlist *a, const ls_netlist *b)
             return false;
     for (int i = 0; i < a->nents; i++)
         if (a->ents[i].kind != b->ents[i].kind || a->ents[i].index != b->ents[i].index ||
-            !same_loc(a->ents[i].loc, b->ents[i].loc))
+            !same_loc(ls_entity_loc(a, i), ls_entity_loc(b, i)))
             return false;
     for (int i = 0; i < a->nparams; i++)
         if (!same_bits(a->params[i].value, b->params[i].value) || !same_dims(a->params[i].dims, b->params[i].dims) ||
