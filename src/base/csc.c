@@ -1,5 +1,6 @@
 /* csc.c — compressed-column matrices (see csc.h). */
 #include "base/csc.h"
+#include "base/pages.h"
 
 #include <stdlib.h>
 #include <string.h>
@@ -7,8 +8,8 @@
 void ls_csc_free(ls_csc *a)
 {
     free(a->colptr);
-    free(a->rowind);
-    free(a->val);
+    ls_big_free(a->rowind); /* the entries may be a mapping of their own (mna.c) */
+    ls_big_free(a->val);
     memset(a, 0, sizeof *a);
 }
 

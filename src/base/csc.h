@@ -13,7 +13,9 @@ typedef struct ls_csc {
 
 static inline int ls_csc_nnz(const ls_csc *a) { return a->colptr[a->n]; }
 
-/* Frees the arrays and zeroes the matrix (accepts a zeroed one). */
+/* Frees the arrays and zeroes the matrix (accepts a zeroed one).  rowind and
+ * val may be large blocks of ls_big_malloc (base/pages.h): free them here or
+ * with ls_big_free, never with free. */
 void ls_csc_free(ls_csc *a);
 /* The position of entry (i, j) in rowind/val, or -1 when it is not stored
  * (a binary search of column j). */

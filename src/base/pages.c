@@ -1,7 +1,10 @@
 /* pages.c — fresh memory mapped in at once (see pages.h). */
 #include "base/pages.h"
 
+#include <pthread.h>
 #include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
 #include <sys/mman.h>
 #include <unistd.h>
 
@@ -52,4 +55,109 @@ void ls_pages_unmap(void *p, size_t len)
 {
     if (p)
         munmap(p, len);
+}
+
+/* ---- large blocks, each a mapping of its own ----------------------------- */
+
+typedef struct big_slot {
+    void *p;
+    size_t len; /* the mapping's length, a multiple of LS_HUGE_PAGE */
+} big_slot;
+
+static big_slot big_slots[LS_BIG_SLOTS];
+static pthread_mutex_t big_lock = PTHREAD_MUTEX_INITIALIZER;
+
+/* A zeroed mapping of at least bytes, aligned to LS_HUGE_PAGE and advised
+ * to take huge pages (not populated: a block is often touched in part), in
+ * the table; NULL when it cannot be mapped or the table is full. */
+static void *big_map(size_t bytes)
+{
+#if defined(MAP_ANONYMOUS) && defined(MADV_HUGEPAGE)
+    if (bytes > SIZE_MAX - 2 * LS_HUGE_PAGE)
+        return NULL;
+    size_t len = (bytes + LS_HUGE_PAGE - 1) & ~(LS_HUGE_PAGE - 1);
+    pthread_mutex_lock(&big_lock);
+    int k = 0;
+    while (k < LS_BIG_SLOTS && big_slots[k].p)
+        k++;
+    if (k == LS_BIG_SLOTS) {
+        pthread_mutex_unlock(&big_lock);
+        return NULL;
+    }
+    big_slots[k].p = (void *)1; /* taken while the mapping is made */
+    pthread_mutex_unlock(&big_lock);
+    size_t span = len + LS_HUGE_PAGE;
+    char *p = mmap(NULL, span, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+    char *start = NULL;
+    if (p != MAP_FAILED) {
+        start = (char *)(((uintptr_t)p + LS_HUGE_PAGE - 1) & ~(uintptr_t)(LS_HUGE_PAGE - 1));
+        if (start > p)
+            munmap(p, (size_t)(start - p));
+        if (start + len < p + span)
+            munmap(start + len, (size_t)(p + span - (start + len)));
+        (void)madvise(start, len, MADV_HUGEPAGE);
+    }
+    pthread_mutex_lock(&big_lock);
+    big_slots[k].p = start;
+    big_slots[k].len = start ? len : 0;
+    pthread_mutex_unlock(&big_lock);
+    return start;
+#else
+    (void)bytes;
+    return NULL;
+#endif
+}
+
+/* The mapping's length if p is one of the table's, else 0; with unmap, the
+ * slot is given up as well. */
+static size_t big_find(void *p, bool unmap)
+{
+    size_t len = 0;
+    pthread_mutex_lock(&big_lock);
+    for (int k = 0; k < LS_BIG_SLOTS; k++)
+        if (big_slots[k].p == p) {
+            len = big_slots[k].len;
+            if (unmap)
+                big_slots[k].p = NULL;
+            break;
+        }
+    pthread_mutex_unlock(&big_lock);
+    if (unmap && len)
+        munmap(p, len);
+    return len;
+}
+
+void *ls_big_malloc(size_t bytes)
+{
+    void *p = bytes >= LS_BIG_BLOCK ? big_map(bytes) : NULL;
+    return p ? p : malloc(bytes);
+}
+
+void *ls_big_calloc(size_t count, size_t size)
+{
+    if (size != 0 && count > SIZE_MAX / size)
+        return NULL;
+    void *p = count * size >= LS_BIG_BLOCK ? big_map(count * size) : NULL;
+    return p ? p : calloc(count, size);
+}
+
+void *ls_big_realloc(void *p, size_t bytes)
+{
+    size_t len = p ? big_find(p, false) : 0;
+    if (!len)
+        return realloc(p, bytes);
+    if (bytes <= len)
+        return p; /* a mapping shrinks in place */
+    void *q = ls_big_malloc(bytes);
+    if (!q)
+        return NULL;
+    memcpy(q, p, len);
+    big_find(p, true);
+    return q;
+}
+
+void ls_big_free(void *p)
+{
+    if (p && !big_find(p, true))
+        free(p);
 }

@@ -29,4 +29,19 @@ void ls_pages_populate(void *p, size_t bytes, bool huge);
 void *ls_pages_map(size_t len);
 void ls_pages_unmap(void *p, size_t len);
 
+/* malloc, calloc, realloc and free for a library's large blocks (the
+ * sparse factor's values and indices): a block of LS_BIG_BLOCK bytes or more
+ * is a mapping of its own, aligned to LS_HUGE_PAGE and advised to take huge
+ * pages, faulted in as it is first touched (a 2 MiB fault where 4 KiB pages
+ * take 512); smaller ones come from malloc.  ls_big_free and ls_big_realloc
+ * take any pointer malloc gave as well (the mappings are kept in a table of
+ * LS_BIG_SLOTS, under a lock; a block that finds the table full comes from
+ * malloc).  NULL when the system refuses, as malloc. */
+#define LS_BIG_BLOCK ((size_t)4 << 20)
+#define LS_BIG_SLOTS 512
+void *ls_big_malloc(size_t bytes);
+void *ls_big_calloc(size_t count, size_t size);
+void *ls_big_realloc(void *p, size_t bytes);
+void ls_big_free(void *p);
+
 #endif

@@ -678,6 +678,7 @@ static int run_command(ls_cli *cli, const cmd *c)
 static int run_main(int argc, char **argv, const ls_share *share)
 {
     ls_solver_threads_for_program(); /* measured: small solves run fastest on one thread */
+    ls_solver_pages_for_program();   /* a large factor's pages faulted in 2 MiB at a time */
     ls_cli cli;
     cli_defaults(&cli, share);
     const cmd *c = NULL;

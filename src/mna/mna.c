@@ -1,5 +1,6 @@
 /* mna.c — assembly of the modified-nodal system and the topology checks. */
 #include "mna/mna.h"
+#include "base/pages.h"
 #include "base/unionfind.h"
 
 #include <assert.h>
@@ -310,11 +311,13 @@ static int stamp_direct(ls_mna *m)
         free(where);
         return 1;
     }
-    int *row = malloc((slots ? slots : 1) * sizeof *row);
-    double *val = malloc((slots ? slots : 1) * sizeof *val);
+    /* the slots take stamps all over their 12 bytes a slot (8 million on
+     * the 1000 grid): huge pages, fewer faults and TLB misses (pages.h) */
+    int *row = ls_big_malloc((slots ? slots : 1) * sizeof *row);
+    double *val = ls_big_malloc((slots ? slots : 1) * sizeof *val);
     if (!row || !val) {
-        free(row);
-        free(val);
+        ls_big_free(row);
+        ls_big_free(val);
         goto nomem;
     }
     memcpy(next, start, (size_t)n * sizeof *next);
@@ -328,8 +331,8 @@ static int stamp_direct(ls_mna *m)
         free(start);
         free(next);
         free(where);
-        free(row);
-        free(val);
+        ls_big_free(row);
+        ls_big_free(val);
         return 1;
     }
     size_t stamped;
@@ -337,8 +340,8 @@ static int stamp_direct(ls_mna *m)
     free(next);
     free(where);
     if ((size_t)w < slots && w > 0) { /* give back the slots left empty and the duplicates' */
-        int *row2 = realloc(row, (size_t)w * sizeof *row);
-        double *val2 = realloc(val, (size_t)w * sizeof *val);
+        int *row2 = ls_big_realloc(row, (size_t)w * sizeof *row);
+        double *val2 = ls_big_realloc(val, (size_t)w * sizeof *val);
         row = row2 ? row2 : row;
         val = val2 ? val2 : val;
     }

@@ -133,6 +133,13 @@ void ls_solver_own_lu(ls_solver *s, bool on);
  * For the command-line program only: a library caller keeps its own, which
  * every call puts back. */
 void ls_solver_threads_for_program(void);
+/* The program's allocation for SuiteSparse (sparse.c): the factor's large
+ * blocks in mappings of their own with huge pages (base/pages.h,
+ * ls_big_malloc), which cut the page faults of a large factor's first touch
+ * by up to 512 times.  Call before any solver is made; for the command-line
+ * program only (it sets SuiteSparse's process-wide functions): a library
+ * caller keeps SuiteSparse's allocation, or its own. */
+void ls_solver_pages_for_program(void);
 void ls_solver_free(ls_solver **s);
 
 /* Allow low-rank updates, `factored` being the matrix s last factored (NULL:

@@ -20,6 +20,7 @@
  */
 #include "solve/solver.h"
 #include "solve/sparse.h"
+#include "base/pages.h"
 
 #include <cholmod.h>
 #include <klu.h>
@@ -47,6 +48,14 @@ static void *alloc_array(size_t count, size_t size)
         return NULL;
     size_t bytes = count * size;
     return malloc(bytes ? bytes : 1);
+}
+
+void ls_solver_pages_for_program(void)
+{
+    SuiteSparse_config.malloc_func = ls_big_malloc;
+    SuiteSparse_config.calloc_func = ls_big_calloc;
+    SuiteSparse_config.realloc_func = ls_big_realloc;
+    SuiteSparse_config.free_func = ls_big_free;
 }
 
 typedef struct pattern {

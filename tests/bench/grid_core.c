@@ -1,6 +1,6 @@
 /* grid_core.c — the solver core of the grid benchmark without the front end.
  *
- * Usage: grid_core N [reduced|umfpack|klu]
+ * Usage: grid_core N [reduced|umfpack|klu] [pages]
  * Assembles the MNA matrix loadstack builds for `gen.py grid N` (an N x N grid of
  * one-ohm resistors, ground at the corner (N-1, N-1), a 1 V source without rs
  * from ground to (0, 0): N*N - 1 node unknowns and one branch unknown) directly in
@@ -9,11 +9,15 @@
  * SPD system of the free nodes), `umfpack` and `klu` the LU backends that the
  * full MNA matrix went to before it.  Prints the seconds of each step and
  * V(n0_1), for a cross-check against scipy's spsolve (gen.py gridmatrix).
+ * `pages` gives SuiteSparse the allocation the loadstack program uses
+ * (ls_solver_pages_for_program: the factor's large blocks with huge pages);
+ * without it SuiteSparse allocates with malloc, the bare library's way.
  * Exit 0 ok, 1 bad usage or no memory, 3 solver failure. */
 #include "mna/mna.h"
 #include "solve/reduced.h"
 #include "solve/solver.h"
 
+#include <stdbool.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -50,10 +54,13 @@ int main(int argc, char **argv)
     const ls_backend *be = strcmp(which, "umfpack") == 0 ? &ls_backend_umfpack
                            : strcmp(which, "klu") == 0   ? &ls_backend_klu
                                                          : &ls_backend_reduced;
-    if (n < 2 || n > 4000) {
-        fprintf(stderr, "usage: grid_core N [reduced|umfpack|klu]\n");
+    bool pages = argc > 3 && strcmp(argv[3], "pages") == 0;
+    if (n < 2 || n > 4000 || (argc > 3 && !pages)) {
+        fprintf(stderr, "usage: grid_core N [reduced|umfpack|klu] [pages]\n");
         return 1;
     }
+    if (pages)
+        ls_solver_pages_for_program();
     int nn = n * n - 1, nu = nn + 1, k = nn; /* k: the source's branch unknown */
     size_t cap = 8 * (size_t)n * (size_t)n + 8;
     ls_triplets t = {.ti = malloc(cap * sizeof(int)), .tj = malloc(cap * sizeof(int)),

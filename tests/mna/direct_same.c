@@ -226,10 +226,38 @@ static void check_random(int count)
     free(text);
 }
 
+/* A 300 x 300 grid of resistors with a source at a corner: 720 000 slots,
+ * whose values (5.8 MB) pass LS_BIG_BLOCK and come from a mapping of their
+ * own (base/pages.h), as on the large grids the program is timed on. */
+static void check_grid(void)
+{
+    enum { N = 300 };
+    size_t cap = (size_t)2 * N * N * 48 + 256;
+    char *text = malloc(cap);
+    if (!text) {
+        failures++;
+        return;
+    }
+    size_t len = (size_t)sprintf(text, "ground gnd\nvoltage vs gnd -> n0_0 1\nresistor rg n%d_%d -> gnd 1\n", N - 1,
+                                 N - 1);
+    for (int i = 0; i < N; i++)
+        for (int j = 0; j < N; j++) {
+            if (j + 1 < N)
+                len += (size_t)sprintf(text + len, "resistor ra%d_%d n%d_%d -> n%d_%d %d\n", i, j, i, j, i, j + 1,
+                                       1 + (i + j) % 7);
+            if (i + 1 < N)
+                len += (size_t)sprintf(text + len, "resistor rb%d_%d n%d_%d -> n%d_%d %d\n", i, j, i, j, i + 1, j,
+                                       1 + (i * j) % 5);
+        }
+    check_text("grid300.stack", text, len);
+    free(text);
+}
+
 int main(int argc, char **argv)
 {
     for (int i = 1; i < argc; i++)
         check_dir(argv[i]);
+    check_grid();
     int files = circuits;
     check_random(400);
     printf("direct_same: %d files and %d random networks loaded; %d direct builds, %d through triplets; %d "

@@ -4,8 +4,10 @@
  * page of it resident from the start; populating a block the C library gave
  * keeps its contents and makes its whole pages resident; the arena's large
  * blocks and the name table's large slot arrays come out zeroed and
- * resident. */
+ * resident; the large blocks of ls_big_malloc (mappings of their own, handed
+ * back when freed). */
 #include "../../cu_run.h"
+#include <errno.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -128,12 +130,86 @@ static void test_users(void)
     ls_hash_free(&h);
 }
 
+/* Whether [p, p + bytes) is unmapped: mincore(2) answers ENOMEM for a range
+ * that holds unmapped pages (the kernel's account, not ours). */
+static bool unmapped(const void *p, size_t bytes)
+{
+    unsigned char v[64];
+    size_t page = (size_t)sysconf(_SC_PAGESIZE);
+    if (bytes > sizeof v * page)
+        bytes = sizeof v * page;
+    return mincore((void *)p, bytes, v) != 0 && errno == ENOMEM;
+}
+
+/* The large blocks: malloc's below LS_BIG_BLOCK, a mapping of their own
+ * from it on (aligned, zero, given back to the kernel when freed), contents
+ * kept by realloc both ways, malloc's blocks taken by ls_big_realloc and
+ * ls_big_free, and a full table falling back on malloc. */
+static void test_big_blocks(void)
+{
+    unsigned char *small = ls_big_malloc(1000);
+    CU_ASSERT_PTR_NOT_NULL_FATAL(small);
+    memset(small, 7, 1000);
+    small = ls_big_realloc(small, 3000); /* malloc's block, realloc's way */
+    CU_ASSERT_PTR_NOT_NULL_FATAL(small);
+    CU_ASSERT_EQUAL(small[999], 7);
+    ls_big_free(small);
+    ls_big_free(NULL);
+    void *plain = malloc(100); /* a block ls_big_* never gave */
+    ls_big_free(plain);
+
+    size_t n = LS_BIG_BLOCK / sizeof(double) + 3;
+    double *x = ls_big_calloc(n, sizeof *x);
+    CU_ASSERT_PTR_NOT_NULL_FATAL(x);
+    CU_ASSERT_EQUAL((uintptr_t)x % LS_HUGE_PAGE, 0);
+    CU_ASSERT(all_zero((const unsigned char *)x, n * sizeof *x));
+    for (size_t i = 0; i < n; i++)
+        x[i] = (double)i;
+    double *y = ls_big_realloc(x, 3 * n * sizeof *y); /* grows: a new mapping */
+    CU_ASSERT_PTR_NOT_NULL_FATAL(y);
+    CU_ASSERT(unmapped(x, n * sizeof *x));
+    bool same = true;
+    for (size_t i = 0; i < n; i++)
+        same &= y[i] == (double)i;
+    CU_ASSERT(same);
+    double *z = ls_big_realloc(y, 10 * sizeof *z); /* shrinks in place */
+    CU_ASSERT_PTR_EQUAL(z, y);
+    CU_ASSERT_EQUAL(z[9], 9.0);
+    ls_big_free(z);
+    CU_ASSERT(unmapped(z, LS_BIG_BLOCK));
+    CU_ASSERT_PTR_NULL(ls_big_calloc(SIZE_MAX / 2, 4)); /* the product overflows */
+
+    /* more large blocks than the table holds: the last ones are malloc's */
+    enum { MANY = LS_BIG_SLOTS + 3 };
+    unsigned char **b = calloc(MANY, sizeof *b);
+    CU_ASSERT_PTR_NOT_NULL_FATAL(b);
+    int got = 0;
+    for (int i = 0; i < MANY; i++) {
+        b[i] = ls_big_malloc(LS_BIG_BLOCK);
+        if (b[i]) {
+            b[i][0] = (unsigned char)i;
+            b[i][LS_BIG_BLOCK - 1] = (unsigned char)(i + 1);
+            got++;
+        }
+    }
+    CU_ASSERT_EQUAL(got, MANY);
+    bool kept = true;
+    for (int i = 0; i < MANY; i++)
+        if (b[i]) {
+            kept &= b[i][0] == (unsigned char)i && b[i][LS_BIG_BLOCK - 1] == (unsigned char)(i + 1);
+            ls_big_free(b[i]);
+        }
+    CU_ASSERT(kept);
+    free(b);
+}
+
 int main(void)
 {
     static const ls_cu_case cases[] = {
         {"a mapping: aligned, zero, resident", test_map},
         {"populating keeps the contents", test_populate_keeps_contents},
         {"the arena's and the name table's large memory", test_users},
+        {"large blocks: mappings of their own, malloc's below", test_big_blocks},
     };
     return ls_cu_run("pages", NULL, NULL, cases, LS_CU_COUNT(cases));
 }
