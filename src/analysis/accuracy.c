@@ -1,5 +1,6 @@
 /* accuracy.c — extra-precise refinement and error bounds (see accuracy.h). */
 #include "analysis/accuracy.h"
+#include "base/pages.h"
 
 #include <float.h>
 #include <math.h>
@@ -165,16 +166,16 @@ int ls_acc_refine(ls_op *op)
     op->acc.refined = op->acc.extended = false;
     op->acc.steps = 0;
     op->acc.have_bounds = false;
-    free(op->acc.last);
+    ls_big_free(op->acc.last);
     op->acc.last = NULL;
     double *tail = fresh_tail(op);
-    double *buf = malloc(5 * (size_t)(n ? n : 1) * sizeof *buf);
+    double *buf = ls_big_malloc(5 * (size_t)(n ? n : 1) * sizeof *buf);
     if (!tail || !buf) {
-        free(buf);
+        ls_big_free(buf);
         return -1;
     }
     /* without memory for it the bounds pass over the parts once more */
-    double *keep = malloc(3 * (size_t)(n ? n : 1) * sizeof *keep);
+    double *keep = ls_big_malloc(3 * (size_t)(n ? n : 1) * sizeof *keep);
     bool kept = false;
     double *r = buf, *absr = buf + n, *x0 = buf + 2 * (size_t)n, *work = buf + 3 * (size_t)n;
     memcpy(x0, op->x, (size_t)n * sizeof *x0);
@@ -237,8 +238,8 @@ int ls_acc_refine(ls_op *op)
     if (kept)
         op->acc.last = keep;
     else
-        free(keep);
-    free(buf);
+        ls_big_free(keep);
+    ls_big_free(buf);
     return 0;
 }
 
@@ -437,14 +438,14 @@ static bool part_form(const ls_op *op, int i, ls_lin *l)
 static int trial_refine(ls_op *op)
 {
     size_t n = (size_t)op->mna.n;
-    double *keep = malloc((n ? n : 1) * sizeof *keep);
+    double *keep = ls_big_malloc((n ? n : 1) * sizeof *keep);
     if (!keep)
         return -1;
     memcpy(keep, op->x, n * sizeof *keep);
     int r = ls_acc_refine(op);
     memcpy(op->x, keep, n * sizeof *keep);
-    free(keep);
-    free(op->acc.last); /* the copy's residual, not the kept solution's */
+    ls_big_free(keep);
+    ls_big_free(op->acc.last); /* the copy's residual, not the kept solution's */
     op->acc.last = NULL;
     if (op->acc.tail)
         memset(op->acc.tail, 0, n * sizeof *op->acc.tail);
@@ -504,22 +505,22 @@ int ls_acc_bounds(ls_op *op)
         a->node_bound = calloc((size_t)nl->nnodes, sizeof *a->node_bound);
     if (!a->part_bound)
         a->part_bound = calloc((size_t)(nl->nparts ? nl->nparts : 1), sizeof *a->part_bound);
-    double *buf = malloc(6 * m * sizeof *buf);
-    int *isgn = malloc(m * sizeof *isgn);
+    double *buf = ls_big_malloc(6 * m * sizeof *buf);
+    int *isgn = ls_big_malloc(m * sizeof *isgn);
     if (!a->node_bound || !a->part_bound || !buf || !isgn) {
-        free(buf);
-        free(isgn);
+        ls_big_free(buf);
+        ls_big_free(isgn);
         return -1;
     }
     if (!a->refined && trial_refine(op) != 0) {
-        free(buf);
-        free(isgn);
+        ls_big_free(buf);
+        ls_big_free(isgn);
         return -1;
     }
     if (!a->reliable) {
-        free(buf);
-        free(isgn);
-        free(a->last);
+        ls_big_free(buf);
+        ls_big_free(isgn);
+        ls_big_free(a->last);
         a->last = NULL;
         unbounded(op);
         return 0;
@@ -583,10 +584,10 @@ int ls_acc_bounds(ls_op *op)
         a->part_bound[i] = b + DBL_EPSILON * fabs(op->ipart[i]);
     }
 #undef NODE_RAW
-    free(a->last); /* used once: the bounds are kept */
+    ls_big_free(a->last); /* used once: the bounds are kept */
     a->last = NULL;
-    free(buf);
-    free(isgn);
+    ls_big_free(buf);
+    ls_big_free(isgn);
     if (bad == -1)
         return -1;
     if (bad) { /* a solve that stopped short: no bound, said as such */
@@ -622,7 +623,7 @@ bool ls_acc_doubtful(double value, double bound, int digits, double scale)
 
 void ls_acc_free(ls_accuracy *a)
 {
-    free(a->last);
+    ls_big_free(a->last);
     free(a->tail);
     free(a->node_bound);
     free(a->part_bound);

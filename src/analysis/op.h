@@ -34,7 +34,8 @@ typedef struct ls_accuracy {
      * of the parts' values, then the x and the tail it was taken at, kept
      * when that step's correction moved every unknown by far less than
      * double precision (accuracy.c): the bounds start from it instead of
-     * another pass over the parts, and add how far x + tail moved since. */
+     * another pass over the parts, and add how far x + tail moved since.
+     * A block of ls_big_malloc (base/pages.h): ls_big_free gives it back. */
     double *last;
     bool merged;           /* the last bounds started from `last` (for tests) */
 } ls_accuracy;
