@@ -2,6 +2,7 @@
 #include "base/pages.h"
 
 #include <pthread.h>
+#include <stdatomic.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -66,6 +67,12 @@ typedef struct big_slot {
 
 static big_slot big_slots[LS_BIG_SLOTS];
 static pthread_mutex_t big_lock = PTHREAD_MUTEX_INITIALIZER;
+/* Slots taken (under the lock; read without it to skip the lock and the
+ * scan for the many small blocks freed while no mapping is alive: a taken
+ * slot's count is stored before its block exists, so a free of that block
+ * sees it) and the end of the slots ever taken. */
+static _Atomic int big_live;
+static int big_end;
 
 /* A zeroed mapping of at least bytes, aligned to LS_HUGE_PAGE and advised
  * to take huge pages (not populated: a block is often touched in part), in
@@ -85,6 +92,9 @@ static void *big_map(size_t bytes)
         return NULL;
     }
     big_slots[k].p = (void *)1; /* taken while the mapping is made */
+    big_live++;
+    if (k >= big_end)
+        big_end = k + 1;
     pthread_mutex_unlock(&big_lock);
     size_t span = len + LS_HUGE_PAGE;
     char *p = mmap(NULL, span, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
@@ -100,6 +110,8 @@ static void *big_map(size_t bytes)
     pthread_mutex_lock(&big_lock);
     big_slots[k].p = start;
     big_slots[k].len = start ? len : 0;
+    if (!start)
+        big_live--;
     pthread_mutex_unlock(&big_lock);
     return start;
 #else
@@ -113,12 +125,16 @@ static void *big_map(size_t bytes)
 static size_t big_find(void *p, bool unmap)
 {
     size_t len = 0;
+    if (big_live == 0)
+        return 0;
     pthread_mutex_lock(&big_lock);
-    for (int k = 0; k < LS_BIG_SLOTS; k++)
+    for (int k = 0; k < big_end; k++)
         if (big_slots[k].p == p) {
             len = big_slots[k].len;
-            if (unmap)
+            if (unmap) {
                 big_slots[k].p = NULL;
+                big_live--;
+            }
             break;
         }
     pthread_mutex_unlock(&big_lock);
