@@ -143,6 +143,21 @@ static size_t big_find(void *p, bool unmap)
     return len;
 }
 
+/* Make the table's length of mapping p keep (less than it was); false when
+ * p is not in the table. */
+static bool big_trim(void *p, size_t keep)
+{
+    bool found = false;
+    pthread_mutex_lock(&big_lock);
+    for (int k = 0; k < big_end && !found; k++)
+        if (big_slots[k].p == p) {
+            big_slots[k].len = keep;
+            found = true;
+        }
+    pthread_mutex_unlock(&big_lock);
+    return found;
+}
+
 void *ls_big_malloc(size_t bytes)
 {
     void *p = bytes >= LS_BIG_BLOCK ? big_map(bytes) : NULL;
@@ -162,8 +177,12 @@ void *ls_big_realloc(void *p, size_t bytes)
     size_t len = p ? big_find(p, false) : 0;
     if (!len)
         return realloc(p, bytes);
-    if (bytes <= len)
-        return p; /* a mapping shrinks in place */
+    if (bytes <= len) { /* a mapping shrinks in place, its whole huge pages past bytes given back */
+        size_t keep = bytes ? (bytes + LS_HUGE_PAGE - 1) & ~(LS_HUGE_PAGE - 1) : LS_HUGE_PAGE;
+        if (keep < len && big_trim(p, keep))
+            munmap((char *)p + keep, len - keep);
+        return p;
+    }
     void *q = ls_big_malloc(bytes);
     if (!q)
         return NULL;

@@ -36,7 +36,8 @@ void ls_pages_unmap(void *p, size_t len);
  * take 512); smaller ones come from malloc.  ls_big_free and ls_big_realloc
  * take any pointer malloc gave as well (the mappings are kept in a table of
  * LS_BIG_SLOTS, under a lock; a block that finds the table full comes from
- * malloc).  NULL when the system refuses, as malloc. */
+ * malloc).  A block that shrinks stays where it is, the whole huge pages
+ * past its new end unmapped.  NULL when the system refuses, as malloc. */
 #define LS_BIG_BLOCK ((size_t)4 << 20)
 #define LS_BIG_SLOTS 512
 void *ls_big_malloc(size_t bytes);

@@ -143,7 +143,8 @@ static bool unmapped(const void *p, size_t bytes)
 
 /* The large blocks: malloc's below LS_BIG_BLOCK, a mapping of their own
  * from it on (aligned, zero, given back to the kernel when freed), contents
- * kept by realloc both ways, malloc's blocks taken by ls_big_realloc and
+ * kept by realloc both ways (a shrinking one gives back its whole huge pages
+ * past the new end), malloc's blocks taken by ls_big_realloc and
  * ls_big_free, and a full table falling back on malloc. */
 static void test_big_blocks(void)
 {
@@ -175,8 +176,11 @@ static void test_big_blocks(void)
     double *z = ls_big_realloc(y, 10 * sizeof *z); /* shrinks in place */
     CU_ASSERT_PTR_EQUAL(z, y);
     CU_ASSERT_EQUAL(z[9], 9.0);
+    CU_ASSERT(!unmapped(z, LS_HUGE_PAGE));                      /* its first huge page stays */
+    CU_ASSERT(unmapped((char *)z + LS_HUGE_PAGE, LS_HUGE_PAGE)); /* the rest went back */
+    memset(z, 1, LS_HUGE_PAGE);
     ls_big_free(z);
-    CU_ASSERT(unmapped(z, LS_BIG_BLOCK));
+    CU_ASSERT(unmapped(z, LS_HUGE_PAGE));
     CU_ASSERT_PTR_NULL(ls_big_calloc(SIZE_MAX / 2, 4)); /* the product overflows */
 
     /* more large blocks than the table holds: the last ones are malloc's */
