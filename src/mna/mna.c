@@ -295,7 +295,9 @@ static int pack_columns(int n, int *start, const int *next, int *row, double *va
  * pins (size_columns), each entry stamped into its column, duplicates summed
  * in stamp order and each column sorted: the matrix compressing the triplets
  * would give, bit for bit (tests/mna/direct_same.c).  0 done, 1 a column
- * overflowed (assemble through triplets), -1 no memory. */
+ * overflowed (assemble through triplets), -1 no memory.  The slots are
+ * large blocks (base/pages.h: huge pages, fewer faults and translation
+ * misses for stamps that land all over them, 8 million on the 1000 grid). */
 static int stamp_direct(ls_mna *m)
 {
     int n = m->n;
@@ -311,8 +313,6 @@ static int stamp_direct(ls_mna *m)
         free(where);
         return 1;
     }
-    /* the slots take stamps all over their 12 bytes a slot (8 million on
-     * the 1000 grid): huge pages, fewer faults and TLB misses (pages.h) */
     int *row = ls_big_malloc((slots ? slots : 1) * sizeof *row);
     double *val = ls_big_malloc((slots ? slots : 1) * sizeof *val);
     if (!row || !val) {
