@@ -931,6 +931,8 @@ static void set_limit(fit_run *r, double open)
 #define LIMIT_MIN 2000          /* ... at least this many */
 #define BB_SLACK 1e-6           /* relative widening of a limit before a bound may say it is missed */
 
+#define BB_GROUP 8              /* boxes looked at together, their solves one batch (docs/fit.md, Both cores) */
+
 /* A box: free part j restricted to series positions lo[j]..hi[j]. */
 typedef struct bb_box {
     int lo[LS_FIT_MAX_FREE], hi[LS_FIT_MAX_FREE];
@@ -943,6 +945,21 @@ typedef struct bb_bound {
     int unbounded;           /* checks without a bound */
     int margin_at, worst_at; /* the checks that give margin and worst (-1: none) */
 } bb_bound;
+
+enum { BB_ENUM, BB_BOUND, BB_WIDE };
+
+/* A box of a group (bb_visit_group). */
+typedef struct bb_member {
+    bb_box x;
+    int act[LS_FIT_MAX_FREE], k;  /* its parts wider than one value */
+    int how;                 /* BB_ENUM: solved combination by combination; BB_BOUND: bounded by its
+                              * corners; BB_WIDE: too wide for a bound, split */
+    int off;                 /* BB_BOUND: its first corner row in corner0 */
+    bb_bound bd;             /* its corners' bounds */
+    bool out;                /* ... would rule it out */
+    int s;                   /* the figure that decides then (bb_deciding) */
+    unsigned dep;            /* the parts that figure depends on (bits of act) */
+} bb_member;
 
 /* Branch and bound's scratch: a cache of solved points' checks (one row each:
  * value, margin, lo, hi per check, then the current and whether it solved),
@@ -961,10 +978,24 @@ typedef struct bb_state {
     int *cidx;               /* a box's corners: (1 << dims) index vectors, */
     double *cval;            /* their values, */
     ls_fit_cand *ccand;      /* and their summaries */
-    int *pend;               /* the corners not in the cache */
+    /* a batch: entry i is the point cidx/cval/ccand[i], solved into row
+     * erow[i] (a corner's row, or a step's in srow), or (erank[i]) a
+     * combination wanted only if it ranks, with whether it was judged whole */
+    double **erow;
+    bool *erank;
+    bool *whole;
+    double *srow;            /* (1 << dims) rows of a group's inward steps */
+    unsigned *bstamp;        /* the batch's points by hash (2 << dims slots): stamp bgen when in use, */
+    int *bslot;              /* ... and the entry there */
+    unsigned bgen;
+    double *corner0;         /* the corner rows of a group of boxes (corner points into them) */
+    unsigned char *flag0;    /* their flags, flag_size each (flag points into them) */
+    size_t flag_size;
+    int np, nalias;          /* the batch's entries, and the corner rows that copy one (adst[i] from entry asrc[i]) */
+    double **adst;
+    int *asrc;
+    struct bb_member *grp;   /* BB_GROUP boxes looked at together (bb_visit_group) */
     struct fit_worker *worker;   /* the second thread's op, or NULL (one thread) */
-    bool ranking;            /* the batch is of combinations wanted only if they rank (bb_enumerate) */
-    bool *whole;             /* ... and which of them were judged whole */
     unsigned char *flag;     /* per (check or current, active part): 1 rises, 2 falls, 4 unknown; value and margin */
     bool limit_varies_any;
 } bb_state;
@@ -1204,23 +1235,22 @@ typedef struct fit_worker {
     pthread_cond_t done_cv;  /* every entry of the batch solved */
     unsigned gen;            /* batches handed out */
     bool quit;
-    /* the batch: entries pend[0..np) of b, taken one at a time by either
-     * thread under mu (an entry is about 30 us; taking one, tens of ns) */
+    /* the batch: entries 0..np) of b, taken one at a time by either
+     * thread under mu (an entry is about 20 us; taking one, tens of ns) */
     bb_state *b;
     int np, next, done;
 } fit_worker;
 
-/* Solve entry pend[i] of the batch in b on op: a box's corner into its row
- * and summary, or (b->ranking) a combination wanted only if it ranks, with
- * whether it was judged whole (evaluate_if_it_can_rank_on: that reads the
- * kept list, which nothing changes while a batch is solved). */
+/* Solve entry i of the batch in b on op: a point into its row and summary,
+ * or (b->erank[i]) a combination wanted only if it ranks, with whether it
+ * was judged whole (evaluate_if_it_can_rank_on: that reads the kept list,
+ * which nothing changes while a batch is solved). */
 static void batch_entry(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int i)
 {
-    int m = b->pend[i];
-    if (b->ranking)
-        b->whole[m] = evaluate_if_it_can_rank_on(r, op, &b->ccand[m], nomem);
+    if (b->erank[i])
+        b->whole[i] = evaluate_if_it_can_rank_on(r, op, &b->ccand[i], nomem);
     else
-        probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+        probe_solve(r, op, nomem, checks, &b->ccand[i], b->erow[i]);
 }
 
 /* Take and solve entries of batch `gen` until none is left.  Each entry's
@@ -1262,7 +1292,7 @@ static void *worker_main(void *arg)
     return NULL;
 }
 
-/* Solve the np entries of b->pend, on two threads when there is a worker
+/* Solve the np entries of b's batch, on two threads when there is a worker
  * and enough of them: both take entries one at a time until none is left. */
 static void batch_solve(fit_run *r, bb_state *b, int np)
 {
@@ -1357,6 +1387,54 @@ static void worker_free(fit_worker *w)
     free(w);
 }
 
+/* Entry i of b's batch: the series point idx (copied), solved into row
+ * (a probe: probe_solve), or, with rank, a combination wanted only if it
+ * ranks. */
+static void batch_add(const fit_run *r, bb_state *b, int i, const int *idx, double *row, bool rank)
+{
+    const ls_fit_study *f = r->f;
+    int n = f->nvars;
+    int *at = b->cidx + (size_t)i * n;
+    if (at != idx)
+        memcpy(at, idx, (size_t)n * sizeof *idx);
+    ls_fit_cand *c = &b->ccand[i];
+    *c = (ls_fit_cand){.idx = at, .value = b->cval + (size_t)i * n};
+    for (int j = 0; j < n; j++)
+        c->value[j] = f->vars[j].values[at[j]];
+    b->erow[i] = row;
+    b->erank[i] = rank;
+}
+
+/* A new batch: no point in it yet (batch_find). */
+static void batch_begin(bb_state *b)
+{
+    b->np = 0;
+    b->nalias = 0;
+    if (++b->bgen == 0) { /* the stamps wrapped: clear them */
+        memset(b->bstamp, 0, ((size_t)2 << b->dims) * sizeof *b->bstamp);
+        b->bgen = 1;
+    }
+}
+
+/* The entry of the batch that is the point idx, or -1; when absent and add
+ * is set, idx is recorded as entry b->np (the caller adds it). */
+static int batch_find(const fit_run *r, bb_state *b, const int *idx, bool add)
+{
+    int n = r->f->nvars;
+    size_t mask = ((size_t)2 << b->dims) - 1, k = idx_hash(idx, n) & mask;
+    while (b->bstamp[k] == b->bgen) {
+        int e = b->bslot[k];
+        if (memcmp(b->cidx + (size_t)e * n, idx, (size_t)n * sizeof *idx) == 0)
+            return e;
+        k = (k + 1) & mask;
+    }
+    if (add) {
+        b->bstamp[k] = b->bgen;
+        b->bslot[k] = b->np;
+    }
+    return -1;
+}
+
 /* Solve the corners of box x (its active parts act[0..k-1]) into the corner
  * rows and note the changes along every edge: those in the cache from it,
  * the others solved (on two threads when there is a worker: each solve is
@@ -1368,7 +1446,7 @@ static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
     int nc = 1 << k, n = r->f->nvars, np = 0;
     memset(b->flag, 0, (size_t)2 * (r->nslots + 1) * k);
     for (int m = 0; m < nc; m++) {
-        int *idx = b->cidx + (size_t)m * n;
+        int idx[LS_FIT_MAX_FREE];
         corner_idx(r, x, act, k, m, idx);
         bool hit;
         size_t at = cache_find(r, b, idx, &hit);
@@ -1376,19 +1454,13 @@ static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
             memcpy(row_at(b, b->corner, m), row_at(b, b->rows, (long)at), (size_t)b->width * sizeof(double));
             continue;
         }
-        ls_fit_cand *c = &b->ccand[m];
-        *c = (ls_fit_cand){.idx = idx, .value = b->cval + (size_t)m * n};
-        for (int j = 0; j < n; j++)
-            c->value[j] = r->f->vars[j].values[idx[j]];
-        b->pend[np++] = m;
+        batch_add(r, b, np, idx, row_at(b, b->corner, m), false);
+        np++;
     }
-    b->ranking = false;
     batch_solve(r, b, np);
-    for (int i = 0; i < np; i++) {
-        int m = b->pend[i];
-        if (probe_commit(r, b, b->cidx + (size_t)m * n, row_at(b, b->corner, m), &b->ccand[m]) != 0)
+    for (int i = 0; i < np; i++)
+        if (probe_commit(r, b, b->cidx + (size_t)i * n, b->erow[i], &b->ccand[i]) != 0)
             return -1;
-    }
     for (int m = 0; m < nc; m++)
         for (int t = 0; t < k; t++)
             if (!(m >> t & 1))
@@ -1488,6 +1560,28 @@ static int bb_step_in(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
     return 0;
 }
 
+static int batch_flush(fit_run *r, bb_state *b);
+
+/* The step in from corner m along active part t of box x, into the batch
+ * (with gather: bb_inward) unless it is cached or in the batch already; a
+ * full batch is solved first (batch_flush).  Returns 0, -1 on no memory. */
+static int step_gather(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int m, int t)
+{
+    int idx[LS_FIT_MAX_FREE];
+    corner_idx(r, x, act, k, m, idx);
+    idx[act[t]] += m >> t & 1 ? -1 : 1;
+    bool hit;
+    cache_find(r, b, idx, &hit);
+    if (hit || batch_find(r, b, idx, false) >= 0)
+        return 0;
+    if (b->np == 1 << b->dims && batch_flush(r, b) != 0)
+        return -1;
+    batch_find(r, b, idx, true);
+    batch_add(r, b, b->np, idx, row_at(b, b->srow, b->np), false);
+    b->np++;
+    return 0;
+}
+
 /* The inward steps that test figure s (a check, nslots: the current, or -1:
  * every figure) before the box is ruled out on it.  Only the parts s
  * depends on (dep, bits of act) and one face of the others (at their lower
@@ -1498,8 +1592,10 @@ static int bb_step_in(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
  * a peak, the lower for a valley; both ends when either would; the lower
  * end, by the rule above, when the edge's ends agree).  The changes go into
  * every figure's flags, but only s's are complete enough to bound it.
+ * With gather, the steps are only put into the batch (step_gather), to be
+ * solved together with other boxes' and then taken from the cache.
  * Returns 0, -1 on no memory. */
-static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int s, unsigned dep)
+static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int s, unsigned dep, bool gather)
 {
     int col = 0, danger = s < 0 ? 0 : bb_danger(r, b, k, s, &col);
     unsigned flat = ((1u << k) - 1) & ~dep;
@@ -1515,9 +1611,13 @@ static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, i
             int end = m;
             if (!both && danger != 0 && !flat_change(a[col], z[col]))
                 end = (danger > 0) == (z[col] > a[col]) ? hi : m;
-            if (bb_step_in(r, b, x, act, k, end, t, s, col) != 0 ||
-                (both && bb_step_in(r, b, x, act, k, hi, t, s, col) != 0))
+            if (gather) {
+                if (step_gather(r, b, x, act, k, end, t) != 0 || (both && step_gather(r, b, x, act, k, hi, t) != 0))
+                    return -1;
+            } else if (bb_step_in(r, b, x, act, k, end, t, s, col) != 0 ||
+                       (both && bb_step_in(r, b, x, act, k, hi, t, s, col) != 0)) {
                 return -1;
+            }
         }
     }
     return 0;
@@ -1606,14 +1706,8 @@ static int enumerate_batch(fit_run *r, bb_state *b, int np)
 {
     ls_fit_study *f = r->f;
     int n = f->nvars;
-    for (int i = 0; i < np; i++) {
-        ls_fit_cand *c = &b->ccand[i];
-        *c = (ls_fit_cand){.idx = b->cidx + (size_t)i * n, .value = b->cval + (size_t)i * n};
-        for (int j = 0; j < n; j++)
-            c->value[j] = f->vars[j].values[c->idx[j]];
-        b->pend[i] = i;
-    }
-    b->ranking = true;
+    for (int i = 0; i < np; i++)
+        batch_add(r, b, i, b->cidx + (size_t)i * n, NULL, true);
     batch_solve(r, b, np);
     for (int i = 0; i < np; i++) {
         f->evaluated++;
@@ -1736,7 +1830,7 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
              * depends on (a check of two parts in a box of four needs a
              * quarter of the steps) */
             int s = bb_deciding(r, &bd);
-            if (bb_inward(r, b, x, act, k, s, s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, s)) != 0)
+            if (bb_inward(r, b, x, act, k, s, s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, s), false) != 0)
                 return -1;
             bool lost;
             out = bb_prune_on(r, b, k, &bd, s, &lost);
@@ -1754,20 +1848,211 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
     return bb_split(r, x, w, stack, top);
 }
 
+/* Solve b's batch (on two threads when there is a worker) and commit its
+ * entries in their order: a point counted, cached and kept (probe_commit),
+ * a combination counted and kept when it was judged whole; then fill the
+ * corner rows that copy an entry.  The cache is cleared first when the
+ * batch would fill it, so no entry is dropped before it is read.  Starts a
+ * new batch.  Returns 0, -1 on no memory. */
+static int batch_flush(fit_run *r, bb_state *b)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars, np = b->np;
+    if (2 * (b->filled + np) > b->cache) {
+        memset(b->used, 0, (size_t)b->cache);
+        b->filled = 0;
+    }
+    batch_solve(r, b, np);
+    for (int i = 0; i < np; i++) {
+        if (b->erank[i]) {
+            f->evaluated++;
+            f->bb_solves++;
+            if (f->progress && (f->evaluated & 63) == 0)
+                f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
+            if (b->whole[i] && keep(r, &b->ccand[i]) != 0)
+                return -1;
+        } else if (probe_commit(r, b, b->cidx + (size_t)i * n, b->erow[i], &b->ccand[i]) != 0) {
+            return -1;
+        }
+    }
+    for (int i = 0; i < b->nalias; i++)
+        memcpy(b->adst[i], b->erow[b->asrc[i]], (size_t)b->width * sizeof(double));
+    batch_begin(b);
+    return 0;
+}
+
+/* Point the corner rows and flags at group member g's. */
+static void bb_view(bb_state *b, int g, const bb_member *x)
+{
+    b->corner = b->corner0 + (size_t)x->off * b->width;
+    b->flag = b->flag0 + (size_t)g * b->flag_size;
+}
+
+/* Look at up to BB_GROUP boxes from the top of the stack together, as
+ * bb_visit looks at one, with their solves in two batches: every corner and
+ * combination of the group, then the inward steps of the boxes whose
+ * corners' bounds would rule them out (docs/fit.md, "Both cores").  Each
+ * batch is committed in order, and the decisions are taken after each, box
+ * by box, so the search is the same on one thread or two; a batch is large
+ * enough for two threads to share.  The children of the first box popped
+ * end on top.  *stack has room for top + 2 BB_GROUP boxes.  Returns the new
+ * stack size, or -1 on no memory. */
+static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars, room = 1 << b->dims, used = 0, rows = 0, ng = 0;
+    bb_member *g = b->grp;
+    while (top > 0 && ng < BB_GROUP) {
+        bb_member *x = &g[ng];
+        x->x = stack[top - 1];
+        double count = box_shape(r, &x->x, x->act, &x->k);
+        int need = 0;
+        if (count <= 16 || (x->k <= b->dims && count <= (double)(2 << x->k)))
+            x->how = BB_ENUM, need = (int)count;
+        else if (x->k <= b->dims)
+            x->how = BB_BOUND, need = 1 << x->k;
+        else
+            x->how = BB_WIDE;
+        if (used + need > room) {
+            if (ng > 0)
+                break;
+            bb_box one = stack[--top]; /* a box larger than a batch: alone */
+            return bb_visit(r, b, &one, stack, top);
+        }
+        if (x->how == BB_BOUND)
+            x->off = rows, rows += need;
+        used += need;
+        top--;
+        ng++;
+    }
+    f->bb_boxes += ng;
+    /* the corners and the combinations */
+    batch_begin(b);
+    for (int i = 0; i < ng; i++) {
+        bb_member *x = &g[i];
+        if (x->how != BB_BOUND)
+            continue;
+        bb_view(b, i, x);
+        for (int m = 0; m < 1 << x->k; m++) {
+            int idx[LS_FIT_MAX_FREE];
+            double *row = row_at(b, b->corner, m);
+            corner_idx(r, &x->x, x->act, x->k, m, idx);
+            bool hit;
+            size_t at = cache_find(r, b, idx, &hit);
+            if (hit) {
+                memcpy(row, row_at(b, b->rows, (long)at), (size_t)b->width * sizeof(double));
+                continue;
+            }
+            int e = batch_find(r, b, idx, true);
+            if (e >= 0) {
+                b->adst[b->nalias] = row;
+                b->asrc[b->nalias++] = e;
+                continue;
+            }
+            batch_add(r, b, b->np++, idx, row, false);
+        }
+    }
+    for (int i = 0; i < ng; i++) {
+        bb_member *x = &g[i];
+        if (x->how != BB_ENUM)
+            continue;
+        f->bb_enumerated++;
+        int idx[LS_FIT_MAX_FREE];
+        memcpy(idx, x->x.lo, (size_t)n * sizeof *idx);
+        while (true) {
+            if (batch_find(r, b, idx, false) < 0) { /* (a corner in this batch is kept as one) */
+                int seen = seen_before(r, idx, n);
+                if (seen < 0)
+                    return -1;
+                if (seen == 0) {
+                    batch_find(r, b, idx, true);
+                    batch_add(r, b, b->np++, idx, NULL, true);
+                }
+            }
+            int j = 0;
+            while (j < n && ++idx[j] > x->x.hi[j])
+                idx[j] = x->x.lo[j], j++;
+            if (j == n)
+                break;
+        }
+    }
+    if (batch_flush(r, b) != 0)
+        return -1;
+    /* the corners' bounds, and the inward steps of the boxes they would rule out */
+    for (int i = 0; i < ng; i++) {
+        bb_member *x = &g[i];
+        if (x->how != BB_BOUND)
+            continue;
+        int k = x->k;
+        bb_view(b, i, x);
+        memset(b->flag, 0, (size_t)2 * (r->nslots + 1) * k);
+        for (int m = 0; m < 1 << k; m++)
+            for (int t = 0; t < k; t++)
+                if (!(m >> t & 1))
+                    note_rows(r, b, k, t, row_at(b, b->corner, m), row_at(b, b->corner, m | 1 << t));
+        bb_bounds(r, b, k, &x->bd);
+        x->out = bb_prune(r, &x->bd);
+        if (x->out) {
+            x->s = bb_deciding(r, &x->bd);
+            x->dep = x->s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, x->s);
+            if (bb_inward(r, b, &x->x, x->act, k, x->s, x->dep, true) != 0)
+                return -1;
+        }
+    }
+    if (batch_flush(r, b) != 0)
+        return -1;
+    /* each box ruled out or split, the last popped first */
+    for (int i = ng - 1; i >= 0; i--) {
+        bb_member *x = &g[i];
+        if (x->how == BB_WIDE) {
+            f->bb_unbounded += r->nslots;
+            top = bb_split(r, &x->x, -1, stack, top);
+        }
+        if (x->how != BB_BOUND)
+            continue;
+        bb_view(b, i, x);
+        bool out = x->out;
+        if (out) {
+            /* the steps from the cache now, noted as bb_visit notes them */
+            if (bb_inward(r, b, &x->x, x->act, x->k, x->s, x->dep, false) != 0)
+                return -1;
+            bool lost;
+            out = bb_prune_on(r, b, x->k, &x->bd, x->s, &lost);
+            x->bd.unbounded += lost;
+        }
+        f->bb_unbounded += x->bd.unbounded;
+        if (out) {
+            f->bb_pruned++;
+            continue;
+        }
+        top = bb_split(r, &x->x, bb_split_part(r, b, &x->bd, x->act, x->k), stack, top);
+    }
+    b->corner = b->corner0;
+    b->flag = b->flag0;
+    return top;
+}
+
 static void bb_free(bb_state *b)
 {
     free(b->keys);
     free(b->rows);
     free(b->used);
-    free(b->corner);
+    free(b->corner0);
     free(b->tmp);
     free(b->checks);
-    free(b->flag);
+    free(b->adst);
+    free(b->asrc);
+    free(b->grp);
     free(b->cidx);
     free(b->cval);
     free(b->ccand);
-    free(b->pend);
+    free(b->erow);
+    free(b->erank);
     free(b->whole);
+    free(b->srow);
+    free(b->bstamp);
+    free(b->bslot);
+    free(b->flag0);
     worker_free(b->worker);
 }
 
@@ -1799,7 +2084,7 @@ static int bb_limit(fit_run *r, bb_state *b, const bb_box *x, double *lim)
     bb_bounds(r, b, k, &bd);
     if (bd.worst < 0) { /* nothing in it meets every check, unless the steps say otherwise */
         int s = bd.worst_at;
-        if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s)) != 0)
+        if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s), false) != 0)
             return -1;
         if (bound_check(r, b, k, s) < 0) {
             *lim = -*lim;
@@ -1810,7 +2095,7 @@ static int bb_limit(fit_run *r, bb_state *b, const bb_box *x, double *lim)
     int s = cur ? r->nslots : bd.margin_at;
     if (s < 0)
         return 0;
-    if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s)) != 0)
+    if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s), false) != 0)
         return -1;
     if (cur) {
         bb_bounds(r, b, k, &bd);
@@ -1914,20 +2199,30 @@ static int branch_and_bound(fit_run *r)
     b.keys = malloc((size_t)b.cache * (size_t)n * sizeof *b.keys);
     b.rows = malloc((size_t)b.cache * (size_t)b.width * sizeof *b.rows);
     b.used = calloc((size_t)b.cache, 1);
-    b.corner = malloc(((size_t)1 << b.dims) * (size_t)b.width * sizeof *b.corner);
+    size_t room = (size_t)1 << b.dims;
+    b.corner = b.corner0 = malloc(room * (size_t)b.width * sizeof *b.corner);
+    b.srow = malloc(room * (size_t)b.width * sizeof *b.srow);
     b.tmp = malloc((size_t)b.width * sizeof *b.tmp);
     b.checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *b.checks);
-    b.flag = malloc((size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1);
-    b.cidx = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cidx);
-    b.cval = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cval);
-    b.ccand = malloc(((size_t)1 << b.dims) * sizeof *b.ccand);
-    b.pend = malloc(((size_t)1 << b.dims) * sizeof *b.pend);
-    b.whole = malloc(((size_t)1 << b.dims) * sizeof *b.whole);
+    b.flag_size = (size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1;
+    b.flag = b.flag0 = malloc(BB_GROUP * b.flag_size);
+    b.cidx = malloc(room * (size_t)n * sizeof *b.cidx);
+    b.cval = malloc(room * (size_t)n * sizeof *b.cval);
+    b.ccand = malloc(room * sizeof *b.ccand);
+    b.erow = malloc(room * sizeof *b.erow);
+    b.erank = malloc(room * sizeof *b.erank);
+    b.whole = malloc(room * sizeof *b.whole);
+    b.adst = malloc(room * sizeof *b.adst);
+    b.asrc = malloc(room * sizeof *b.asrc);
+    b.bstamp = calloc(2 * room, sizeof *b.bstamp);
+    b.bslot = malloc(2 * room * sizeof *b.bslot);
+    b.grp = malloc(BB_GROUP * sizeof *b.grp);
     b.worker = worker_new(r);
-    bb_box *stack = malloc((size_t)depth * sizeof *stack);
+    int stack_cap = depth + 2 * BB_GROUP;
+    bb_box *stack = malloc((size_t)stack_cap * sizeof *stack);
     int rc = -1;
-    if (b.keys && b.rows && b.used && b.corner && b.tmp && b.checks && b.flag && b.cidx && b.cval && b.ccand &&
-        b.pend && b.whole && stack) {
+    if (b.keys && b.rows && b.used && b.corner && b.srow && b.tmp && b.checks && b.flag && b.cidx && b.cval &&
+        b.ccand && b.erow && b.erank && b.whole && b.adst && b.asrc && b.bstamp && b.bslot && b.grp && stack) {
         int top = 1;
         for (int j = 0; j < n; j++) {
             stack[0].lo[j] = 0;
@@ -1936,8 +2231,16 @@ static int branch_and_bound(fit_run *r)
         r->total_hint = f->evaluated + cap;
         long start = f->bb_solves;
         while (top > 0 && f->bb_solves - start < cap && !r->nomem) {
-            bb_box x = stack[--top];
-            top = bb_visit(r, &b, &x, stack, top);
+            if (top + 2 * BB_GROUP > stack_cap) { /* a group pops up to BB_GROUP boxes and pushes two for each */
+                bb_box *s2 = realloc(stack, (size_t)2 * stack_cap * sizeof *stack);
+                if (!s2) {
+                    top = -1;
+                    break;
+                }
+                stack = s2;
+                stack_cap *= 2;
+            }
+            top = bb_visit_group(r, &b, stack, top);
         }
         f->proven = top == 0 && !r->nomem;
         rc = top < 0 ? -1 : 0;
