@@ -12,6 +12,7 @@
 #include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 #include <unistd.h>
 
 #include "base/eseries.h"
@@ -22,6 +23,7 @@
 #define MARGIN_CLAMP 50.0       /* margins seen by the continuous stage stay within +-this */
 #define DESCENT_BUDGET 20000    /* candidate solves the descent may spend */
 #define BOX_LIMIT 4096          /* combinations of the neighbourhood box solved one by one */
+#define SPIN_NS 1e5             /* a thread of the search spins this long (ns) before it sleeps */
 #define TIE_REL LS_FIT_TIE_REL  /* goal figures this close (relative) are a tie (fit.h) */
 
 /* ---- the checks of a candidate --------------------------------------------------------------- */
@@ -1238,7 +1240,8 @@ typedef struct fit_worker {
     /* the batch: entries 0..np) of b, taken one at a time by either
      * thread under mu (an entry is about 20 us; taking one, tens of ns) */
     bb_state *b;
-    int np, next, done;
+    int np, next;
+    unsigned done;
 } fit_worker;
 
 /* Solve entry i of the batch in b on op: a point into its row and summary,
@@ -1260,6 +1263,8 @@ static void batch_entry(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_
  * wakes late finds nothing left of its batch and goes back to sleep. */
 static void batch_take(fit_worker *w, unsigned gen, ls_op *op, bool *nomem, ls_fit_check *checks)
 {
+    /* (gen, done and quit are written under mu, atomically, so that a
+     * thread may spin on them without it: spin_until) */
     pthread_mutex_lock(&w->mu);
     while (w->gen == gen && w->next < w->np) {
         int i = w->next++;
@@ -1267,29 +1272,53 @@ static void batch_take(fit_worker *w, unsigned gen, ls_op *op, bool *nomem, ls_f
         pthread_mutex_unlock(&w->mu);
         batch_entry(w->r, b, op, nomem, checks, i);
         pthread_mutex_lock(&w->mu);
-        if (++w->done == w->np)
+        __atomic_store_n(&w->done, w->done + 1, __ATOMIC_RELEASE);
+        if ((int)w->done == w->np)
             pthread_cond_signal(&w->done_cv);
     }
     pthread_mutex_unlock(&w->mu);
+}
+
+/* Spin for up to SPIN_NS while *v equals old (*quit, when given, unset);
+ * true when *v moved:
+ * the hand-off between the threads comes every millisecond or so, and a
+ * thread put to sleep and woken again costs tens of microseconds each way
+ * on a virtual machine; a spin that runs out ends in the sleep as before. */
+static bool spin_until(const unsigned *v, unsigned old, const bool *quit)
+{
+    struct timespec t0, t;
+    clock_gettime(CLOCK_MONOTONIC, &t0);
+    for (unsigned i = 1; __atomic_load_n(v, __ATOMIC_ACQUIRE) == old; i++) {
+        if (quit && __atomic_load_n(quit, __ATOMIC_ACQUIRE))
+            return false;
+#if defined(__x86_64__) || defined(__i386__)
+        __builtin_ia32_pause();
+#endif
+        if ((i & 63) == 0) {
+            clock_gettime(CLOCK_MONOTONIC, &t);
+            if ((double)(t.tv_sec - t0.tv_sec) * 1e9 + (double)(t.tv_nsec - t0.tv_nsec) > SPIN_NS)
+                return false;
+        }
+    }
+    return true;
 }
 
 static void *worker_main(void *arg)
 {
     fit_worker *w = arg;
     unsigned seen = 0;
-    pthread_mutex_lock(&w->mu);
     for (;;) {
+        spin_until(&w->gen, seen, &w->quit);
+        pthread_mutex_lock(&w->mu);
         while (!w->quit && seen == w->gen)
             pthread_cond_wait(&w->wake, &w->mu);
-        if (w->quit)
-            break;
+        bool quit = w->quit;
         seen = w->gen;
         pthread_mutex_unlock(&w->mu);
+        if (quit)
+            return NULL;
         batch_take(w, seen, &w->op, &w->nomem, w->checks);
-        pthread_mutex_lock(&w->mu);
     }
-    pthread_mutex_unlock(&w->mu);
-    return NULL;
 }
 
 /* Solve the np entries of b's batch, on two threads when there is a worker
@@ -1305,13 +1334,18 @@ static void batch_solve(fit_run *r, bb_state *b, int np)
     pthread_mutex_lock(&w->mu);
     w->b = b;
     w->np = np;
-    w->next = w->done = 0;
-    unsigned gen = ++w->gen;
+    w->next = 0;
+    __atomic_store_n(&w->done, 0, __ATOMIC_RELEASE);
+    unsigned gen = w->gen + 1;
+    __atomic_store_n(&w->gen, gen, __ATOMIC_RELEASE);
     pthread_cond_signal(&w->wake);
     pthread_mutex_unlock(&w->mu);
     batch_take(w, gen, r->f->op, &r->nomem, b->checks);
+    /* the worker's last entry: spin while it is being solved */
+    for (unsigned d = __atomic_load_n(&w->done, __ATOMIC_ACQUIRE); (int)d < np && spin_until(&w->done, d, NULL);)
+        d = __atomic_load_n(&w->done, __ATOMIC_ACQUIRE);
     pthread_mutex_lock(&w->mu);
-    while (w->done < w->np)
+    while ((int)w->done < w->np)
         pthread_cond_wait(&w->done_cv, &w->mu);
     r->nomem |= w->nomem;
     pthread_mutex_unlock(&w->mu);
@@ -1370,7 +1404,7 @@ static void worker_free(fit_worker *w)
         return;
     if (w->started) {
         pthread_mutex_lock(&w->mu);
-        w->quit = true;
+        __atomic_store_n(&w->quit, true, __ATOMIC_RELEASE);
         pthread_cond_signal(&w->wake);
         pthread_mutex_unlock(&w->mu);
         pthread_join(w->tid, NULL);
