@@ -933,7 +933,8 @@ static void set_limit(fit_run *r, double open)
 #define LIMIT_MIN 2000          /* ... at least this many */
 #define BB_SLACK 1e-6           /* relative widening of a limit before a bound may say it is missed */
 
-#define BB_GROUP 8              /* boxes looked at together, their solves one batch (docs/fit.md, Both cores) */
+#define BB_GROUP 8              /* boxes looked at together, their solves one batch (docs/fit.md, Both cores), */
+#define BB_GROUP_POINTS 128     /* ... until their corners and combinations reach this many */
 
 /* A box: free part j restricted to series positions lo[j]..hi[j]. */
 typedef struct bb_box {
@@ -1922,7 +1923,11 @@ static void bb_view(bb_state *b, int g, const bb_member *x)
     b->flag = b->flag0 + (size_t)g * b->flag_size;
 }
 
-/* Look at up to BB_GROUP boxes from the top of the stack together, as
+/* Look at up to BB_GROUP boxes from the top of the stack together (fewer
+ * when their corners and combinations reach BB_GROUP_POINTS: a box of 8
+ * parts has 256 corners, enough for a batch on its own, and every box a
+ * group adds to the stack's width is one more open box for the limit of a
+ * stopped search to bound: bb_open_limits), as
  * bb_visit looks at one, with their solves in two batches: every corner and
  * combination of the group, then the inward steps of the boxes whose
  * corners' bounds would rule them out (docs/fit.md, "Both cores").  Each
@@ -1936,7 +1941,7 @@ static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
     ls_fit_study *f = r->f;
     int n = f->nvars, room = 1 << b->dims, used = 0, rows = 0, ng = 0;
     bb_member *g = b->grp;
-    while (top > 0 && ng < BB_GROUP) {
+    while (top > 0 && ng < BB_GROUP && used < BB_GROUP_POINTS) {
         bb_member *x = &g[ng];
         x->x = stack[top - 1];
         double count = box_shape(r, &x->x, x->act, &x->k);
