@@ -9,6 +9,7 @@
 #include "analysis/sens.h"
 #include "analysis/newton.h"
 
+#include <float.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -728,6 +729,10 @@ static void free_via(ctx *c)
     c->via_start = c->via_list = NULL;
 }
 
+/* A contribution |p dQ/dp| at most this share of the largest one (or of |Q|)
+ * is rounding, not a finding, after a direct solve: 64 units of rounding. */
+#define LS_SENS_ROUNDING (64 * DBL_EPSILON)
+
 /* qsort order: largest |normalized| (|derivative| when undefined) first. */
 static int by_norm(const void *a, const void *b)
 {
@@ -743,15 +748,23 @@ static int by_norm(const void *a, const void *b)
  * LS_AMG_RTOL, so a derivative whose contribution |p dQ/dp| is below that
  * share of the largest one (or of |Q|) is noise of the stopping rule (where
  * the exact answer is 0 it comes out near 1e-26), not a finding: it is
- * reported as exactly 0 (docs/iterative.md). */
-static void zero_unresolved(ls_sens_item *it, int k, double q)
+ * reported as exactly 0 (docs/iterative.md).  The direct solvers' adjoint
+ * solves are exact but for rounding: there a contribution within
+ * LS_SENS_ROUNDING of the largest one (or of |Q|) is the rounding of a
+ * derivative that is 0 (a part behind an ideal source or a buffer comes out
+ * near 1e-34 V, with digits that follow the machine's BLAS kernels), and is
+ * reported as exactly 0 too (docs/loading.md). */
+static void zero_below(ls_sens_item *it, int k, double q, double rel)
 {
     double scale = fabs(q);
     for (int i = 0; i < k; i++)
         if (fabs(it[i].nominal * it[i].derivative) > scale)
             scale = fabs(it[i].nominal * it[i].derivative);
     for (int i = 0; i < k; i++)
-        if (fabs(it[i].nominal * it[i].derivative) <= LS_AMG_RTOL * scale) {
+        /* a part whose value is 0 (a 0 V source) has no contribution to
+         * judge its derivative by: kept as solved */
+        if (it[i].derivative != 0 && it[i].nominal != 0
+            && fabs(it[i].nominal * it[i].derivative) <= rel * scale) {
             it[i].derivative = 0;
             it[i].normalized = q != 0 ? 0 : NAN;
         }
@@ -773,7 +786,7 @@ static int by_key(const void *a, const void *b)
 }
 
 /* The iterative solver's order: unresolved derivatives made 0
- * (zero_unresolved), then sorted as by_norm but on keys rounded to 7
+ * (zero_below), then sorted as by_norm but on keys rounded to 7
  * significant digits.  Parts that are equal by symmetry get derivatives
  * that differ in the last digits, differently from one solve to the next
  * (another count of ranks, another solver); the rounding makes them ties
@@ -781,7 +794,7 @@ static int by_key(const void *a, const void *b)
  * without memory. */
 static int sort_unresolved(ls_sens_item *it, int k, double q)
 {
-    zero_unresolved(it, k, q);
+    zero_below(it, k, q, LS_AMG_RTOL);
     keyed *ks = malloc((size_t)(k ? k : 1) * sizeof *ks);
     if (!ks)
         return -1;
@@ -840,8 +853,10 @@ int ls_sens(ls_op *op, const ls_q *q, double *value, ls_sens_item **items)
         it[k].normalized = d.v != 0 ? ls_run_value(&op->run, p) / d.v * d.g[m] : NAN;
         k++;
     }
-    if (op->method != LS_METHOD_ITERATIVE_AMG)
+    if (op->method != LS_METHOD_ITERATIVE_AMG) {
+        zero_below(it, k, d.v, LS_SENS_ROUNDING);
         qsort(it, (size_t)k, sizeof *it, by_norm);
+    }
     else if (sort_unresolved(it, k, d.v) != 0) {
         ls_error(nl->diags, LS_NOLOC, "out of memory in the sensitivity analysis (%d parts)", nl->nparts);
         free(d.g);

@@ -196,6 +196,28 @@ def test_sens_divider(b, tmp):
         near("zero quantity: dV/dVs", it["vs"]["per_unit"], 0.5, source="divider ratio Rb/(Rt+Rb)")
 
 
+
+def test_sens_exact_zero(b, tmp):
+    # An op-amp's inputs draw no current (its model: docs/parts-real.md), so
+    # nothing after a follower moves the follower's input node: the input node
+    # is the source's divider alone, V = Vs*Rc/(Rs + Rc), and every part after
+    # the input (the op-amp's own gain, the output divider, the load) has an
+    # influence of exactly 0.  Rounding in the adjoint solve leaves such
+    # derivatives near 1e-46 on some processors; they must print as 0.
+    f = write(tmp, "szfollow.stack", 'title "z"\nground gnd\nvoltage vs gnd -> s 0.9 V rint=20k\n'
+              "resistor rc s -> gnd 1M\nopamp u plus=s minus=o out=o gain=100k rout=100\n"
+              "resistor r1 o -> m 10k\nresistor r2 m -> gnd 22k\nresistor rl m -> gnd 100k\n")
+    d = js(b, ["influence", f, "s"])
+    if d:
+        near("follower input", d["value"], 0.9 * 1e6 / (20e3 + 1e6), source="divider Vs*Rc/(Rs+Rc)")
+        it = {x["part"]: x for x in d["items"]}
+        for name in ("u", "r1", "r2", "rl"):
+            truth("influence of %s on the follower's input is exactly 0" % name,
+                  it[name]["per_unit"] == 0 and it[name]["percent_per_percent"] == 0,
+                  "op-amp inputs draw no current")
+        near("S_rc of the input node", it["rc"]["percent_per_percent"], 20e3 / (20e3 + 1e6),
+             source="d ln(Rc/(Rs+Rc))/d ln Rc = Rs/(Rs+Rc)")
+
 def test_sens_pot(b, tmp):
     # A pot's voltage is V(a) - V(b) across its whole track (docs/parts-real.md),
     # here V(a) with b grounded: Va = Vs*Rd/(R1+Rd), Rd = at*T + ((1-at)*T || RL)
@@ -380,7 +402,7 @@ def main():
         return 2
     b = sys.argv[1]
     tests = [test_thevenin_cube, test_thevenin_r2r, test_thevenin_load_meter, test_sag_ranking,
-             test_sens_divider, test_sens_current_mode, test_sens_pot, test_opamp_power, test_check_exit_codes, test_verdicts, test_feedback_port, test_float_load_json]
+             test_sens_divider, test_sens_exact_zero, test_sens_current_mode, test_sens_pot, test_opamp_power, test_check_exit_codes, test_verdicts, test_feedback_port, test_float_load_json]
     return run_tests([(t.__name__, lambda tmp, t=t: t(b, tmp)) for t in tests], "loadstack_loading_")
 
 
