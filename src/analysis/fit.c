@@ -1923,27 +1923,19 @@ static void bb_view(bb_state *b, int g, const bb_member *x)
     b->flag = b->flag0 + (size_t)g * b->flag_size;
 }
 
-/* Look at up to BB_GROUP boxes from the top of the stack together (fewer
+/* Pop the group: up to BB_GROUP boxes from the top of the stack (fewer
  * when their corners and combinations reach BB_GROUP_POINTS: a box of 8
  * parts has 256 corners, enough for a batch on its own, and every box a
  * group adds to the stack's width is one more open box for the limit of a
- * stopped search to bound: bb_open_limits), as
- * bb_visit looks at one, with their solves in two batches: every corner and
- * combination of the group, then the inward steps of the boxes whose
- * corners' bounds would rule them out (docs/fit.md, "Both cores").  Each
- * batch is committed in order, and the decisions are taken after each, box
- * by box, so the search is the same on one thread or two; a batch is large
- * enough for two threads to share.  The children of the first box popped
- * end on top.  *stack has room for top + 2 BB_GROUP boxes.  Returns the new
- * stack size, or -1 on no memory. */
-static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
+ * stopped search to bound: bb_open_limits) into b->grp, each classified as
+ * bb_visit would.  Returns how many, or 0 when the top box alone is larger
+ * than a batch (then it stays on the stack). */
+static int group_pop(const fit_run *r, bb_state *b, const bb_box *stack, int *top)
 {
-    ls_fit_study *f = r->f;
-    int n = f->nvars, room = 1 << b->dims, used = 0, rows = 0, ng = 0;
-    bb_member *g = b->grp;
-    while (top > 0 && ng < BB_GROUP && used < BB_GROUP_POINTS) {
-        bb_member *x = &g[ng];
-        x->x = stack[top - 1];
+    int room = 1 << b->dims, used = 0, rows = 0, ng = 0;
+    while (*top > 0 && ng < BB_GROUP && used < BB_GROUP_POINTS) {
+        bb_member *x = &b->grp[ng];
+        x->x = stack[*top - 1];
         double count = box_shape(r, &x->x, x->act, &x->k);
         int need = 0;
         if (count <= 16 || (x->k <= b->dims && count <= (double)(2 << x->k)))
@@ -1952,23 +1944,26 @@ static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
             x->how = BB_BOUND, need = 1 << x->k;
         else
             x->how = BB_WIDE;
-        if (used + need > room) {
-            if (ng > 0)
-                break;
-            bb_box one = stack[--top]; /* a box larger than a batch: alone */
-            return bb_visit(r, b, &one, stack, top);
-        }
+        if (used + need > room)
+            break;
         if (x->how == BB_BOUND)
             x->off = rows, rows += need;
         used += need;
-        top--;
+        (*top)--;
         ng++;
     }
-    f->bb_boxes += ng;
-    /* the corners and the combinations */
+    return ng;
+}
+
+/* The group's first batch: the corners of its boxes to be bounded (from
+ * the cache, or solved; a corner two boxes share once) and the
+ * combinations of those solved one by one.  Returns 0, -1 on no memory. */
+static int group_points(fit_run *r, bb_state *b, int ng)
+{
+    int n = r->f->nvars;
     batch_begin(b);
     for (int i = 0; i < ng; i++) {
-        bb_member *x = &g[i];
+        bb_member *x = &b->grp[i];
         if (x->how != BB_BOUND)
             continue;
         bb_view(b, i, x);
@@ -1992,10 +1987,10 @@ static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
         }
     }
     for (int i = 0; i < ng; i++) {
-        bb_member *x = &g[i];
+        bb_member *x = &b->grp[i];
         if (x->how != BB_ENUM)
             continue;
-        f->bb_enumerated++;
+        r->f->bb_enumerated++;
         int idx[LS_FIT_MAX_FREE];
         memcpy(idx, x->x.lo, (size_t)n * sizeof *idx);
         while (true) {
@@ -2015,11 +2010,16 @@ static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
                 break;
         }
     }
-    if (batch_flush(r, b) != 0)
-        return -1;
-    /* the corners' bounds, and the inward steps of the boxes they would rule out */
+    return batch_flush(r, b);
+}
+
+/* The group's second batch: each bounded box's corners' bounds, and the
+ * inward steps of those the bounds would rule out.  Returns 0, -1 on no
+ * memory. */
+static int group_steps(fit_run *r, bb_state *b, int ng)
+{
     for (int i = 0; i < ng; i++) {
-        bb_member *x = &g[i];
+        bb_member *x = &b->grp[i];
         if (x->how != BB_BOUND)
             continue;
         int k = x->k;
@@ -2038,11 +2038,17 @@ static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
                 return -1;
         }
     }
-    if (batch_flush(r, b) != 0)
-        return -1;
-    /* each box ruled out or split, the last popped first */
+    return batch_flush(r, b);
+}
+
+/* Each box of the group ruled out or split, as bb_visit decides (its steps
+ * now from the cache), the last popped first, so the first one's children
+ * end on top.  Returns the new stack size, or -1 on no memory. */
+static int group_decide(fit_run *r, bb_state *b, int ng, bb_box *stack, int top)
+{
+    ls_fit_study *f = r->f;
     for (int i = ng - 1; i >= 0; i--) {
-        bb_member *x = &g[i];
+        bb_member *x = &b->grp[i];
         if (x->how == BB_WIDE) {
             f->bb_unbounded += r->nslots;
             top = bb_split(r, &x->x, -1, stack, top);
@@ -2052,7 +2058,6 @@ static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
         bb_view(b, i, x);
         bool out = x->out;
         if (out) {
-            /* the steps from the cache now, noted as bb_visit notes them */
             if (bb_inward(r, b, &x->x, x->act, x->k, x->s, x->dep, false) != 0)
                 return -1;
             bool lost;
@@ -2066,6 +2071,28 @@ static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
         }
         top = bb_split(r, &x->x, bb_split_part(r, b, &x->bd, x->act, x->k), stack, top);
     }
+    return top;
+}
+
+/* Look at a group of boxes from the top of the stack together, as bb_visit
+ * looks at one, with their solves in two batches: every corner and
+ * combination of the group, then the inward steps of the boxes whose
+ * corners' bounds would rule them out (docs/fit.md, "Both cores").  Each
+ * batch is committed in order, and the decisions are taken after each, box
+ * by box, so the search is the same on one thread or two; a batch is large
+ * enough for two threads to share.  stack has room for top + 2 BB_GROUP
+ * boxes.  Returns the new stack size, or -1 on no memory. */
+static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
+{
+    int ng = group_pop(r, b, stack, &top);
+    if (ng == 0) { /* a box larger than a batch: alone */
+        bb_box one = stack[--top];
+        return bb_visit(r, b, &one, stack, top);
+    }
+    r->f->bb_boxes += ng;
+    if (group_points(r, b, ng) != 0 || group_steps(r, b, ng) != 0)
+        return -1;
+    top = group_decide(r, b, ng, stack, top);
     b->corner = b->corner0;
     b->flag = b->flag0;
     return top;
@@ -2220,6 +2247,43 @@ static int bb_open_limits(fit_run *r, bb_state *b, const bb_box *stack, int top,
     return rc;
 }
 
+/* Branch and bound's scratch (bb_state), sized for the cache and the
+ * widest box it bounds within BB_BYTES, and the second thread (worker_new:
+ * NULL on one thread).  Returns false when memory ran out. */
+static bool bb_alloc(fit_run *r, bb_state *b)
+{
+    int n = r->f->nvars;
+    while (b->cache > 64 && (long)b->cache * b->width * (long)sizeof(double) > BB_BYTES)
+        b->cache /= 2;
+    while (b->dims > 2 && (1L << b->dims) * b->width * (long)sizeof(double) > BB_BYTES)
+        b->dims--;
+    b->keys = malloc((size_t)b->cache * (size_t)n * sizeof *b->keys);
+    b->rows = malloc((size_t)b->cache * (size_t)b->width * sizeof *b->rows);
+    b->used = calloc((size_t)b->cache, 1);
+    size_t room = (size_t)1 << b->dims;
+    b->corner = b->corner0 = malloc(room * (size_t)b->width * sizeof *b->corner);
+    b->srow = malloc(room * (size_t)b->width * sizeof *b->srow);
+    b->tmp = malloc((size_t)b->width * sizeof *b->tmp);
+    b->checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *b->checks);
+    b->flag_size = (size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1;
+    b->flag = b->flag0 = malloc(BB_GROUP * b->flag_size);
+    b->cidx = malloc(room * (size_t)n * sizeof *b->cidx);
+    b->cval = malloc(room * (size_t)n * sizeof *b->cval);
+    b->ccand = malloc(room * sizeof *b->ccand);
+    b->erow = malloc(room * sizeof *b->erow);
+    b->erank = malloc(room * sizeof *b->erank);
+    b->whole = malloc(room * sizeof *b->whole);
+    b->adst = malloc(room * sizeof *b->adst);
+    b->asrc = malloc(room * sizeof *b->asrc);
+    b->bstamp = calloc(2 * room, sizeof *b->bstamp);
+    b->bslot = malloc(2 * room * sizeof *b->bslot);
+    b->grp = malloc(BB_GROUP * sizeof *b->grp);
+    b->worker = worker_new(r);
+    return b->keys && b->rows && b->used && b->corner && b->srow && b->tmp && b->checks && b->flag && b->cidx &&
+           b->cval && b->ccand && b->erow && b->erank && b->whole && b->adst && b->asrc && b->bstamp && b->bslot &&
+           b->grp;
+}
+
 /* Branch and bound over the whole candidate set, from the incumbents the
  * earlier stages kept, within max_solves candidate solves (f->proven says
  * whether it finished).  Returns 0, -1 on no memory. */
@@ -2231,37 +2295,11 @@ static int branch_and_bound(fit_run *r)
     for (int j = 0; j < n; j++)
         depth += (int)ceil(log2(f->vars[j].nvalues + 1.0)) + 1;
     bb_state b = {.width = 4 * r->nslots + 2, .cache = BB_CACHE, .dims = BB_BOUND_DIMS};
-    while (b.cache > 64 && (long)b.cache * b.width * (long)sizeof(double) > BB_BYTES)
-        b.cache /= 2;
-    while (b.dims > 2 && (1L << b.dims) * b.width * (long)sizeof(double) > BB_BYTES)
-        b.dims--;
-    b.keys = malloc((size_t)b.cache * (size_t)n * sizeof *b.keys);
-    b.rows = malloc((size_t)b.cache * (size_t)b.width * sizeof *b.rows);
-    b.used = calloc((size_t)b.cache, 1);
-    size_t room = (size_t)1 << b.dims;
-    b.corner = b.corner0 = malloc(room * (size_t)b.width * sizeof *b.corner);
-    b.srow = malloc(room * (size_t)b.width * sizeof *b.srow);
-    b.tmp = malloc((size_t)b.width * sizeof *b.tmp);
-    b.checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *b.checks);
-    b.flag_size = (size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1;
-    b.flag = b.flag0 = malloc(BB_GROUP * b.flag_size);
-    b.cidx = malloc(room * (size_t)n * sizeof *b.cidx);
-    b.cval = malloc(room * (size_t)n * sizeof *b.cval);
-    b.ccand = malloc(room * sizeof *b.ccand);
-    b.erow = malloc(room * sizeof *b.erow);
-    b.erank = malloc(room * sizeof *b.erank);
-    b.whole = malloc(room * sizeof *b.whole);
-    b.adst = malloc(room * sizeof *b.adst);
-    b.asrc = malloc(room * sizeof *b.asrc);
-    b.bstamp = calloc(2 * room, sizeof *b.bstamp);
-    b.bslot = malloc(2 * room * sizeof *b.bslot);
-    b.grp = malloc(BB_GROUP * sizeof *b.grp);
-    b.worker = worker_new(r);
+    bool ready = bb_alloc(r, &b);
     int stack_cap = depth + 2 * BB_GROUP;
     bb_box *stack = malloc((size_t)stack_cap * sizeof *stack);
     int rc = -1;
-    if (b.keys && b.rows && b.used && b.corner && b.srow && b.tmp && b.checks && b.flag && b.cidx && b.cval &&
-        b.ccand && b.erow && b.erank && b.whole && b.adst && b.asrc && b.bstamp && b.bslot && b.grp && stack) {
+    if (ready && stack) {
         int top = 1;
         for (int j = 0; j < n; j++) {
             stack[0].lo[j] = 0;
