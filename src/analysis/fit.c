@@ -12,6 +12,7 @@
 #include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 #include <unistd.h>
 
 #include "base/eseries.h"
@@ -22,6 +23,7 @@
 #define MARGIN_CLAMP 50.0       /* margins seen by the continuous stage stay within +-this */
 #define DESCENT_BUDGET 20000    /* candidate solves the descent may spend */
 #define BOX_LIMIT 4096          /* combinations of the neighbourhood box solved one by one */
+#define SPIN_NS 1e5             /* a thread of the search spins this long (ns) before it sleeps */
 #define TIE_REL LS_FIT_TIE_REL  /* goal figures this close (relative) are a tie (fit.h) */
 
 /* ---- the checks of a candidate --------------------------------------------------------------- */
@@ -931,6 +933,9 @@ static void set_limit(fit_run *r, double open)
 #define LIMIT_MIN 2000          /* ... at least this many */
 #define BB_SLACK 1e-6           /* relative widening of a limit before a bound may say it is missed */
 
+#define BB_GROUP 8              /* boxes looked at together, their solves one batch (docs/fit.md, Both cores), */
+#define BB_GROUP_POINTS 128     /* ... until their corners and combinations reach this many */
+
 /* A box: free part j restricted to series positions lo[j]..hi[j]. */
 typedef struct bb_box {
     int lo[LS_FIT_MAX_FREE], hi[LS_FIT_MAX_FREE];
@@ -943,6 +948,21 @@ typedef struct bb_bound {
     int unbounded;           /* checks without a bound */
     int margin_at, worst_at; /* the checks that give margin and worst (-1: none) */
 } bb_bound;
+
+enum { BB_ENUM, BB_BOUND, BB_WIDE };
+
+/* A box of a group (bb_visit_group). */
+typedef struct bb_member {
+    bb_box x;
+    int act[LS_FIT_MAX_FREE], k;  /* its parts wider than one value */
+    int how;                 /* BB_ENUM: solved combination by combination; BB_BOUND: bounded by its
+                              * corners; BB_WIDE: too wide for a bound, split */
+    int off;                 /* BB_BOUND: its first corner row in corner0 */
+    bb_bound bd;             /* its corners' bounds */
+    bool out;                /* ... would rule it out */
+    int s;                   /* the figure that decides then (bb_deciding) */
+    unsigned dep;            /* the parts that figure depends on (bits of act) */
+} bb_member;
 
 /* Branch and bound's scratch: a cache of solved points' checks (one row each:
  * value, margin, lo, hi per check, then the current and whether it solved),
@@ -961,10 +981,24 @@ typedef struct bb_state {
     int *cidx;               /* a box's corners: (1 << dims) index vectors, */
     double *cval;            /* their values, */
     ls_fit_cand *ccand;      /* and their summaries */
-    int *pend;               /* the corners not in the cache */
+    /* a batch: entry i is the point cidx/cval/ccand[i], solved into row
+     * erow[i] (a corner's row, or a step's in srow), or (erank[i]) a
+     * combination wanted only if it ranks, with whether it was judged whole */
+    double **erow;
+    bool *erank;
+    bool *whole;
+    double *srow;            /* (1 << dims) rows of a group's inward steps */
+    unsigned *bstamp;        /* the batch's points by hash (2 << dims slots): stamp bgen when in use, */
+    int *bslot;              /* ... and the entry there */
+    unsigned bgen;
+    double *corner0;         /* the corner rows of a group of boxes (corner points into them) */
+    unsigned char *flag0;    /* their flags, flag_size each (flag points into them) */
+    size_t flag_size;
+    int np, nalias;          /* the batch's entries, and the corner rows that copy one (adst[i] from entry asrc[i]) */
+    double **adst;
+    int *asrc;
+    struct bb_member *grp;   /* BB_GROUP boxes looked at together (bb_visit_group) */
     struct fit_worker *worker;   /* the second thread's op, or NULL (one thread) */
-    bool ranking;            /* the batch is of combinations wanted only if they rank (bb_enumerate) */
-    bool *whole;             /* ... and which of them were judged whole */
     unsigned char *flag;     /* per (check or current, active part): 1 rises, 2 falls, 4 unknown; value and margin */
     bool limit_varies_any;
 } bb_state;
@@ -1204,23 +1238,23 @@ typedef struct fit_worker {
     pthread_cond_t done_cv;  /* every entry of the batch solved */
     unsigned gen;            /* batches handed out */
     bool quit;
-    /* the batch: entries pend[0..np) of b, taken one at a time by either
-     * thread under mu (an entry is about 30 us; taking one, tens of ns) */
+    /* the batch: entries 0..np) of b, taken one at a time by either
+     * thread under mu (an entry is about 20 us; taking one, tens of ns) */
     bb_state *b;
-    int np, next, done;
+    int np, next;
+    unsigned done;
 } fit_worker;
 
-/* Solve entry pend[i] of the batch in b on op: a box's corner into its row
- * and summary, or (b->ranking) a combination wanted only if it ranks, with
- * whether it was judged whole (evaluate_if_it_can_rank_on: that reads the
- * kept list, which nothing changes while a batch is solved). */
+/* Solve entry i of the batch in b on op: a point into its row and summary,
+ * or (b->erank[i]) a combination wanted only if it ranks, with whether it
+ * was judged whole (evaluate_if_it_can_rank_on: that reads the kept list,
+ * which nothing changes while a batch is solved). */
 static void batch_entry(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_check *checks, int i)
 {
-    int m = b->pend[i];
-    if (b->ranking)
-        b->whole[m] = evaluate_if_it_can_rank_on(r, op, &b->ccand[m], nomem);
+    if (b->erank[i])
+        b->whole[i] = evaluate_if_it_can_rank_on(r, op, &b->ccand[i], nomem);
     else
-        probe_solve(r, op, nomem, checks, &b->ccand[m], row_at(b, b->corner, m));
+        probe_solve(r, op, nomem, checks, &b->ccand[i], b->erow[i]);
 }
 
 /* Take and solve entries of batch `gen` until none is left.  Each entry's
@@ -1230,6 +1264,8 @@ static void batch_entry(fit_run *r, bb_state *b, ls_op *op, bool *nomem, ls_fit_
  * wakes late finds nothing left of its batch and goes back to sleep. */
 static void batch_take(fit_worker *w, unsigned gen, ls_op *op, bool *nomem, ls_fit_check *checks)
 {
+    /* (gen, done and quit are written under mu, atomically, so that a
+     * thread may spin on them without it: spin_until) */
     pthread_mutex_lock(&w->mu);
     while (w->gen == gen && w->next < w->np) {
         int i = w->next++;
@@ -1237,32 +1273,56 @@ static void batch_take(fit_worker *w, unsigned gen, ls_op *op, bool *nomem, ls_f
         pthread_mutex_unlock(&w->mu);
         batch_entry(w->r, b, op, nomem, checks, i);
         pthread_mutex_lock(&w->mu);
-        if (++w->done == w->np)
+        __atomic_store_n(&w->done, w->done + 1, __ATOMIC_RELEASE);
+        if ((int)w->done == w->np)
             pthread_cond_signal(&w->done_cv);
     }
     pthread_mutex_unlock(&w->mu);
+}
+
+/* Spin for up to SPIN_NS while *v equals old (*quit, when given, unset);
+ * true when *v moved:
+ * the hand-off between the threads comes every millisecond or so, and a
+ * thread put to sleep and woken again costs tens of microseconds each way
+ * on a virtual machine; a spin that runs out ends in the sleep as before. */
+static bool spin_until(const unsigned *v, unsigned old, const bool *quit)
+{
+    struct timespec t0, t;
+    clock_gettime(CLOCK_MONOTONIC, &t0);
+    for (unsigned i = 1; __atomic_load_n(v, __ATOMIC_ACQUIRE) == old; i++) {
+        if (quit && __atomic_load_n(quit, __ATOMIC_ACQUIRE))
+            return false;
+#if defined(__x86_64__) || defined(__i386__)
+        __builtin_ia32_pause();
+#endif
+        if ((i & 63) == 0) {
+            clock_gettime(CLOCK_MONOTONIC, &t);
+            if ((double)(t.tv_sec - t0.tv_sec) * 1e9 + (double)(t.tv_nsec - t0.tv_nsec) > SPIN_NS)
+                return false;
+        }
+    }
+    return true;
 }
 
 static void *worker_main(void *arg)
 {
     fit_worker *w = arg;
     unsigned seen = 0;
-    pthread_mutex_lock(&w->mu);
     for (;;) {
+        spin_until(&w->gen, seen, &w->quit);
+        pthread_mutex_lock(&w->mu);
         while (!w->quit && seen == w->gen)
             pthread_cond_wait(&w->wake, &w->mu);
-        if (w->quit)
-            break;
+        bool quit = w->quit;
         seen = w->gen;
         pthread_mutex_unlock(&w->mu);
+        if (quit)
+            return NULL;
         batch_take(w, seen, &w->op, &w->nomem, w->checks);
-        pthread_mutex_lock(&w->mu);
     }
-    pthread_mutex_unlock(&w->mu);
-    return NULL;
 }
 
-/* Solve the np entries of b->pend, on two threads when there is a worker
+/* Solve the np entries of b's batch, on two threads when there is a worker
  * and enough of them: both take entries one at a time until none is left. */
 static void batch_solve(fit_run *r, bb_state *b, int np)
 {
@@ -1275,13 +1335,18 @@ static void batch_solve(fit_run *r, bb_state *b, int np)
     pthread_mutex_lock(&w->mu);
     w->b = b;
     w->np = np;
-    w->next = w->done = 0;
-    unsigned gen = ++w->gen;
+    w->next = 0;
+    __atomic_store_n(&w->done, 0, __ATOMIC_RELEASE);
+    unsigned gen = w->gen + 1;
+    __atomic_store_n(&w->gen, gen, __ATOMIC_RELEASE);
     pthread_cond_signal(&w->wake);
     pthread_mutex_unlock(&w->mu);
     batch_take(w, gen, r->f->op, &r->nomem, b->checks);
+    /* the worker's last entry: spin while it is being solved */
+    for (unsigned d = __atomic_load_n(&w->done, __ATOMIC_ACQUIRE); (int)d < np && spin_until(&w->done, d, NULL);)
+        d = __atomic_load_n(&w->done, __ATOMIC_ACQUIRE);
     pthread_mutex_lock(&w->mu);
-    while (w->done < w->np)
+    while ((int)w->done < w->np)
         pthread_cond_wait(&w->done_cv, &w->mu);
     r->nomem |= w->nomem;
     pthread_mutex_unlock(&w->mu);
@@ -1340,7 +1405,7 @@ static void worker_free(fit_worker *w)
         return;
     if (w->started) {
         pthread_mutex_lock(&w->mu);
-        w->quit = true;
+        __atomic_store_n(&w->quit, true, __ATOMIC_RELEASE);
         pthread_cond_signal(&w->wake);
         pthread_mutex_unlock(&w->mu);
         pthread_join(w->tid, NULL);
@@ -1357,6 +1422,54 @@ static void worker_free(fit_worker *w)
     free(w);
 }
 
+/* Entry i of b's batch: the series point idx (copied), solved into row
+ * (a probe: probe_solve), or, with rank, a combination wanted only if it
+ * ranks. */
+static void batch_add(const fit_run *r, bb_state *b, int i, const int *idx, double *row, bool rank)
+{
+    const ls_fit_study *f = r->f;
+    int n = f->nvars;
+    int *at = b->cidx + (size_t)i * n;
+    if (at != idx)
+        memcpy(at, idx, (size_t)n * sizeof *idx);
+    ls_fit_cand *c = &b->ccand[i];
+    *c = (ls_fit_cand){.idx = at, .value = b->cval + (size_t)i * n};
+    for (int j = 0; j < n; j++)
+        c->value[j] = f->vars[j].values[at[j]];
+    b->erow[i] = row;
+    b->erank[i] = rank;
+}
+
+/* A new batch: no point in it yet (batch_find). */
+static void batch_begin(bb_state *b)
+{
+    b->np = 0;
+    b->nalias = 0;
+    if (++b->bgen == 0) { /* the stamps wrapped: clear them */
+        memset(b->bstamp, 0, ((size_t)2 << b->dims) * sizeof *b->bstamp);
+        b->bgen = 1;
+    }
+}
+
+/* The entry of the batch that is the point idx, or -1; when absent and add
+ * is set, idx is recorded as entry b->np (the caller adds it). */
+static int batch_find(const fit_run *r, bb_state *b, const int *idx, bool add)
+{
+    int n = r->f->nvars;
+    size_t mask = ((size_t)2 << b->dims) - 1, k = idx_hash(idx, n) & mask;
+    while (b->bstamp[k] == b->bgen) {
+        int e = b->bslot[k];
+        if (memcmp(b->cidx + (size_t)e * n, idx, (size_t)n * sizeof *idx) == 0)
+            return e;
+        k = (k + 1) & mask;
+    }
+    if (add) {
+        b->bstamp[k] = b->bgen;
+        b->bslot[k] = b->np;
+    }
+    return -1;
+}
+
 /* Solve the corners of box x (its active parts act[0..k-1]) into the corner
  * rows and note the changes along every edge: those in the cache from it,
  * the others solved (on two threads when there is a worker: each solve is
@@ -1368,7 +1481,7 @@ static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
     int nc = 1 << k, n = r->f->nvars, np = 0;
     memset(b->flag, 0, (size_t)2 * (r->nslots + 1) * k);
     for (int m = 0; m < nc; m++) {
-        int *idx = b->cidx + (size_t)m * n;
+        int idx[LS_FIT_MAX_FREE];
         corner_idx(r, x, act, k, m, idx);
         bool hit;
         size_t at = cache_find(r, b, idx, &hit);
@@ -1376,19 +1489,13 @@ static int bb_corners(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
             memcpy(row_at(b, b->corner, m), row_at(b, b->rows, (long)at), (size_t)b->width * sizeof(double));
             continue;
         }
-        ls_fit_cand *c = &b->ccand[m];
-        *c = (ls_fit_cand){.idx = idx, .value = b->cval + (size_t)m * n};
-        for (int j = 0; j < n; j++)
-            c->value[j] = r->f->vars[j].values[idx[j]];
-        b->pend[np++] = m;
+        batch_add(r, b, np, idx, row_at(b, b->corner, m), false);
+        np++;
     }
-    b->ranking = false;
     batch_solve(r, b, np);
-    for (int i = 0; i < np; i++) {
-        int m = b->pend[i];
-        if (probe_commit(r, b, b->cidx + (size_t)m * n, row_at(b, b->corner, m), &b->ccand[m]) != 0)
+    for (int i = 0; i < np; i++)
+        if (probe_commit(r, b, b->cidx + (size_t)i * n, b->erow[i], &b->ccand[i]) != 0)
             return -1;
-    }
     for (int m = 0; m < nc; m++)
         for (int t = 0; t < k; t++)
             if (!(m >> t & 1))
@@ -1488,6 +1595,28 @@ static int bb_step_in(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
     return 0;
 }
 
+static int batch_flush(fit_run *r, bb_state *b);
+
+/* The step in from corner m along active part t of box x, into the batch
+ * (with gather: bb_inward) unless it is cached or in the batch already; a
+ * full batch is solved first (batch_flush).  Returns 0, -1 on no memory. */
+static int step_gather(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int m, int t)
+{
+    int idx[LS_FIT_MAX_FREE];
+    corner_idx(r, x, act, k, m, idx);
+    idx[act[t]] += m >> t & 1 ? -1 : 1;
+    bool hit;
+    cache_find(r, b, idx, &hit);
+    if (hit || batch_find(r, b, idx, false) >= 0)
+        return 0;
+    if (b->np == 1 << b->dims && batch_flush(r, b) != 0)
+        return -1;
+    batch_find(r, b, idx, true);
+    batch_add(r, b, b->np, idx, row_at(b, b->srow, b->np), false);
+    b->np++;
+    return 0;
+}
+
 /* The inward steps that test figure s (a check, nslots: the current, or -1:
  * every figure) before the box is ruled out on it.  Only the parts s
  * depends on (dep, bits of act) and one face of the others (at their lower
@@ -1498,8 +1627,10 @@ static int bb_step_in(fit_run *r, bb_state *b, const bb_box *x, const int *act, 
  * a peak, the lower for a valley; both ends when either would; the lower
  * end, by the rule above, when the edge's ends agree).  The changes go into
  * every figure's flags, but only s's are complete enough to bound it.
+ * With gather, the steps are only put into the batch (step_gather), to be
+ * solved together with other boxes' and then taken from the cache.
  * Returns 0, -1 on no memory. */
-static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int s, unsigned dep)
+static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, int k, int s, unsigned dep, bool gather)
 {
     int col = 0, danger = s < 0 ? 0 : bb_danger(r, b, k, s, &col);
     unsigned flat = ((1u << k) - 1) & ~dep;
@@ -1515,9 +1646,13 @@ static int bb_inward(fit_run *r, bb_state *b, const bb_box *x, const int *act, i
             int end = m;
             if (!both && danger != 0 && !flat_change(a[col], z[col]))
                 end = (danger > 0) == (z[col] > a[col]) ? hi : m;
-            if (bb_step_in(r, b, x, act, k, end, t, s, col) != 0 ||
-                (both && bb_step_in(r, b, x, act, k, hi, t, s, col) != 0))
+            if (gather) {
+                if (step_gather(r, b, x, act, k, end, t) != 0 || (both && step_gather(r, b, x, act, k, hi, t) != 0))
+                    return -1;
+            } else if (bb_step_in(r, b, x, act, k, end, t, s, col) != 0 ||
+                       (both && bb_step_in(r, b, x, act, k, hi, t, s, col) != 0)) {
                 return -1;
+            }
         }
     }
     return 0;
@@ -1606,14 +1741,8 @@ static int enumerate_batch(fit_run *r, bb_state *b, int np)
 {
     ls_fit_study *f = r->f;
     int n = f->nvars;
-    for (int i = 0; i < np; i++) {
-        ls_fit_cand *c = &b->ccand[i];
-        *c = (ls_fit_cand){.idx = b->cidx + (size_t)i * n, .value = b->cval + (size_t)i * n};
-        for (int j = 0; j < n; j++)
-            c->value[j] = f->vars[j].values[c->idx[j]];
-        b->pend[i] = i;
-    }
-    b->ranking = true;
+    for (int i = 0; i < np; i++)
+        batch_add(r, b, i, b->cidx + (size_t)i * n, NULL, true);
     batch_solve(r, b, np);
     for (int i = 0; i < np; i++) {
         f->evaluated++;
@@ -1736,7 +1865,7 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
              * depends on (a check of two parts in a box of four needs a
              * quarter of the steps) */
             int s = bb_deciding(r, &bd);
-            if (bb_inward(r, b, x, act, k, s, s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, s)) != 0)
+            if (bb_inward(r, b, x, act, k, s, s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, s), false) != 0)
                 return -1;
             bool lost;
             out = bb_prune_on(r, b, k, &bd, s, &lost);
@@ -1754,20 +1883,242 @@ static int bb_visit(fit_run *r, bb_state *b, const bb_box *x, bb_box *stack, int
     return bb_split(r, x, w, stack, top);
 }
 
+/* Solve b's batch (on two threads when there is a worker) and commit its
+ * entries in their order: a point counted, cached and kept (probe_commit),
+ * a combination counted and kept when it was judged whole; then fill the
+ * corner rows that copy an entry.  The cache is cleared first when the
+ * batch would fill it, so no entry is dropped before it is read.  Starts a
+ * new batch.  Returns 0, -1 on no memory. */
+static int batch_flush(fit_run *r, bb_state *b)
+{
+    ls_fit_study *f = r->f;
+    int n = f->nvars, np = b->np;
+    if (2 * (b->filled + np) > b->cache) {
+        memset(b->used, 0, (size_t)b->cache);
+        b->filled = 0;
+    }
+    batch_solve(r, b, np);
+    for (int i = 0; i < np; i++) {
+        if (b->erank[i]) {
+            f->evaluated++;
+            f->bb_solves++;
+            if (f->progress && (f->evaluated & 63) == 0)
+                f->progress(f->progress_ctx, f->evaluated, r->total_hint > f->evaluated ? r->total_hint : f->evaluated);
+            if (b->whole[i] && keep(r, &b->ccand[i]) != 0)
+                return -1;
+        } else if (probe_commit(r, b, b->cidx + (size_t)i * n, b->erow[i], &b->ccand[i]) != 0) {
+            return -1;
+        }
+    }
+    for (int i = 0; i < b->nalias; i++)
+        memcpy(b->adst[i], b->erow[b->asrc[i]], (size_t)b->width * sizeof(double));
+    batch_begin(b);
+    return 0;
+}
+
+/* Point the corner rows and flags at group member g's. */
+static void bb_view(bb_state *b, int g, const bb_member *x)
+{
+    b->corner = b->corner0 + (size_t)x->off * b->width;
+    b->flag = b->flag0 + (size_t)g * b->flag_size;
+}
+
+/* Pop the group: up to BB_GROUP boxes from the top of the stack (fewer
+ * when their corners and combinations reach BB_GROUP_POINTS: a box of 8
+ * parts has 256 corners, enough for a batch on its own, and every box a
+ * group adds to the stack's width is one more open box for the limit of a
+ * stopped search to bound: bb_open_limits) into b->grp, each classified as
+ * bb_visit would.  Returns how many, or 0 when the top box alone is larger
+ * than a batch (then it stays on the stack). */
+static int group_pop(const fit_run *r, bb_state *b, const bb_box *stack, int *top)
+{
+    int room = 1 << b->dims, used = 0, rows = 0, ng = 0;
+    while (*top > 0 && ng < BB_GROUP && used < BB_GROUP_POINTS) {
+        bb_member *x = &b->grp[ng];
+        x->x = stack[*top - 1];
+        double count = box_shape(r, &x->x, x->act, &x->k);
+        int need = 0;
+        if (count <= 16 || (x->k <= b->dims && count <= (double)(2 << x->k)))
+            x->how = BB_ENUM, need = (int)count;
+        else if (x->k <= b->dims)
+            x->how = BB_BOUND, need = 1 << x->k;
+        else
+            x->how = BB_WIDE;
+        if (used + need > room)
+            break;
+        if (x->how == BB_BOUND)
+            x->off = rows, rows += need;
+        used += need;
+        (*top)--;
+        ng++;
+    }
+    return ng;
+}
+
+/* The group's first batch: the corners of its boxes to be bounded (from
+ * the cache, or solved; a corner two boxes share once) and the
+ * combinations of those solved one by one.  Returns 0, -1 on no memory. */
+static int group_points(fit_run *r, bb_state *b, int ng)
+{
+    int n = r->f->nvars;
+    batch_begin(b);
+    for (int i = 0; i < ng; i++) {
+        bb_member *x = &b->grp[i];
+        if (x->how != BB_BOUND)
+            continue;
+        bb_view(b, i, x);
+        for (int m = 0; m < 1 << x->k; m++) {
+            int idx[LS_FIT_MAX_FREE];
+            double *row = row_at(b, b->corner, m);
+            corner_idx(r, &x->x, x->act, x->k, m, idx);
+            bool hit;
+            size_t at = cache_find(r, b, idx, &hit);
+            if (hit) {
+                memcpy(row, row_at(b, b->rows, (long)at), (size_t)b->width * sizeof(double));
+                continue;
+            }
+            int e = batch_find(r, b, idx, true);
+            if (e >= 0) {
+                b->adst[b->nalias] = row;
+                b->asrc[b->nalias++] = e;
+                continue;
+            }
+            batch_add(r, b, b->np++, idx, row, false);
+        }
+    }
+    for (int i = 0; i < ng; i++) {
+        bb_member *x = &b->grp[i];
+        if (x->how != BB_ENUM)
+            continue;
+        r->f->bb_enumerated++;
+        int idx[LS_FIT_MAX_FREE];
+        memcpy(idx, x->x.lo, (size_t)n * sizeof *idx);
+        while (true) {
+            if (batch_find(r, b, idx, false) < 0) { /* (a corner in this batch is kept as one) */
+                int seen = seen_before(r, idx, n);
+                if (seen < 0)
+                    return -1;
+                if (seen == 0) {
+                    batch_find(r, b, idx, true);
+                    batch_add(r, b, b->np++, idx, NULL, true);
+                }
+            }
+            int j = 0;
+            while (j < n && ++idx[j] > x->x.hi[j])
+                idx[j] = x->x.lo[j], j++;
+            if (j == n)
+                break;
+        }
+    }
+    return batch_flush(r, b);
+}
+
+/* The group's second batch: each bounded box's corners' bounds, and the
+ * inward steps of those the bounds would rule out.  Returns 0, -1 on no
+ * memory. */
+static int group_steps(fit_run *r, bb_state *b, int ng)
+{
+    for (int i = 0; i < ng; i++) {
+        bb_member *x = &b->grp[i];
+        if (x->how != BB_BOUND)
+            continue;
+        int k = x->k;
+        bb_view(b, i, x);
+        memset(b->flag, 0, (size_t)2 * (r->nslots + 1) * k);
+        for (int m = 0; m < 1 << k; m++)
+            for (int t = 0; t < k; t++)
+                if (!(m >> t & 1))
+                    note_rows(r, b, k, t, row_at(b, b->corner, m), row_at(b, b->corner, m | 1 << t));
+        bb_bounds(r, b, k, &x->bd);
+        x->out = bb_prune(r, &x->bd);
+        if (x->out) {
+            x->s = bb_deciding(r, &x->bd);
+            x->dep = x->s < 0 ? (1u << k) - 1 : bb_depends(r, b, k, x->s);
+            if (bb_inward(r, b, &x->x, x->act, k, x->s, x->dep, true) != 0)
+                return -1;
+        }
+    }
+    return batch_flush(r, b);
+}
+
+/* Each box of the group ruled out or split, as bb_visit decides (its steps
+ * now from the cache), the last popped first, so the first one's children
+ * end on top.  Returns the new stack size, or -1 on no memory. */
+static int group_decide(fit_run *r, bb_state *b, int ng, bb_box *stack, int top)
+{
+    ls_fit_study *f = r->f;
+    for (int i = ng - 1; i >= 0; i--) {
+        bb_member *x = &b->grp[i];
+        if (x->how == BB_WIDE) {
+            f->bb_unbounded += r->nslots;
+            top = bb_split(r, &x->x, -1, stack, top);
+        }
+        if (x->how != BB_BOUND)
+            continue;
+        bb_view(b, i, x);
+        bool out = x->out;
+        if (out) {
+            if (bb_inward(r, b, &x->x, x->act, x->k, x->s, x->dep, false) != 0)
+                return -1;
+            bool lost;
+            out = bb_prune_on(r, b, x->k, &x->bd, x->s, &lost);
+            x->bd.unbounded += lost;
+        }
+        f->bb_unbounded += x->bd.unbounded;
+        if (out) {
+            f->bb_pruned++;
+            continue;
+        }
+        top = bb_split(r, &x->x, bb_split_part(r, b, &x->bd, x->act, x->k), stack, top);
+    }
+    return top;
+}
+
+/* Look at a group of boxes from the top of the stack together, as bb_visit
+ * looks at one, with their solves in two batches: every corner and
+ * combination of the group, then the inward steps of the boxes whose
+ * corners' bounds would rule them out (docs/fit.md, "Both cores").  Each
+ * batch is committed in order, and the decisions are taken after each, box
+ * by box, so the search is the same on one thread or two; a batch is large
+ * enough for two threads to share.  stack has room for top + 2 BB_GROUP
+ * boxes.  Returns the new stack size, or -1 on no memory. */
+static int bb_visit_group(fit_run *r, bb_state *b, bb_box *stack, int top)
+{
+    int ng = group_pop(r, b, stack, &top);
+    if (ng == 0) { /* a box larger than a batch: alone */
+        bb_box one = stack[--top];
+        return bb_visit(r, b, &one, stack, top);
+    }
+    r->f->bb_boxes += ng;
+    if (group_points(r, b, ng) != 0 || group_steps(r, b, ng) != 0)
+        return -1;
+    top = group_decide(r, b, ng, stack, top);
+    b->corner = b->corner0;
+    b->flag = b->flag0;
+    return top;
+}
+
 static void bb_free(bb_state *b)
 {
     free(b->keys);
     free(b->rows);
     free(b->used);
-    free(b->corner);
+    free(b->corner0);
     free(b->tmp);
     free(b->checks);
-    free(b->flag);
+    free(b->adst);
+    free(b->asrc);
+    free(b->grp);
     free(b->cidx);
     free(b->cval);
     free(b->ccand);
-    free(b->pend);
+    free(b->erow);
+    free(b->erank);
     free(b->whole);
+    free(b->srow);
+    free(b->bstamp);
+    free(b->bslot);
+    free(b->flag0);
     worker_free(b->worker);
 }
 
@@ -1799,7 +2150,7 @@ static int bb_limit(fit_run *r, bb_state *b, const bb_box *x, double *lim)
     bb_bounds(r, b, k, &bd);
     if (bd.worst < 0) { /* nothing in it meets every check, unless the steps say otherwise */
         int s = bd.worst_at;
-        if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s)) != 0)
+        if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s), false) != 0)
             return -1;
         if (bound_check(r, b, k, s) < 0) {
             *lim = -*lim;
@@ -1810,7 +2161,7 @@ static int bb_limit(fit_run *r, bb_state *b, const bb_box *x, double *lim)
     int s = cur ? r->nslots : bd.margin_at;
     if (s < 0)
         return 0;
-    if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s)) != 0)
+    if (bb_inward(r, b, x, act, k, s, bb_depends(r, b, k, s), false) != 0)
         return -1;
     if (cur) {
         bb_bounds(r, b, k, &bd);
@@ -1896,6 +2247,43 @@ static int bb_open_limits(fit_run *r, bb_state *b, const bb_box *stack, int top,
     return rc;
 }
 
+/* Branch and bound's scratch (bb_state), sized for the cache and the
+ * widest box it bounds within BB_BYTES, and the second thread (worker_new:
+ * NULL on one thread).  Returns false when memory ran out. */
+static bool bb_alloc(fit_run *r, bb_state *b)
+{
+    int n = r->f->nvars;
+    while (b->cache > 64 && (long)b->cache * b->width * (long)sizeof(double) > BB_BYTES)
+        b->cache /= 2;
+    while (b->dims > 2 && (1L << b->dims) * b->width * (long)sizeof(double) > BB_BYTES)
+        b->dims--;
+    b->keys = malloc((size_t)b->cache * (size_t)n * sizeof *b->keys);
+    b->rows = malloc((size_t)b->cache * (size_t)b->width * sizeof *b->rows);
+    b->used = calloc((size_t)b->cache, 1);
+    size_t room = (size_t)1 << b->dims;
+    b->corner = b->corner0 = malloc(room * (size_t)b->width * sizeof *b->corner);
+    b->srow = malloc(room * (size_t)b->width * sizeof *b->srow);
+    b->tmp = malloc((size_t)b->width * sizeof *b->tmp);
+    b->checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *b->checks);
+    b->flag_size = (size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1;
+    b->flag = b->flag0 = malloc(BB_GROUP * b->flag_size);
+    b->cidx = malloc(room * (size_t)n * sizeof *b->cidx);
+    b->cval = malloc(room * (size_t)n * sizeof *b->cval);
+    b->ccand = malloc(room * sizeof *b->ccand);
+    b->erow = malloc(room * sizeof *b->erow);
+    b->erank = malloc(room * sizeof *b->erank);
+    b->whole = malloc(room * sizeof *b->whole);
+    b->adst = malloc(room * sizeof *b->adst);
+    b->asrc = malloc(room * sizeof *b->asrc);
+    b->bstamp = calloc(2 * room, sizeof *b->bstamp);
+    b->bslot = malloc(2 * room * sizeof *b->bslot);
+    b->grp = malloc(BB_GROUP * sizeof *b->grp);
+    b->worker = worker_new(r);
+    return b->keys && b->rows && b->used && b->corner && b->srow && b->tmp && b->checks && b->flag && b->cidx &&
+           b->cval && b->ccand && b->erow && b->erank && b->whole && b->adst && b->asrc && b->bstamp && b->bslot &&
+           b->grp;
+}
+
 /* Branch and bound over the whole candidate set, from the incumbents the
  * earlier stages kept, within max_solves candidate solves (f->proven says
  * whether it finished).  Returns 0, -1 on no memory. */
@@ -1907,27 +2295,11 @@ static int branch_and_bound(fit_run *r)
     for (int j = 0; j < n; j++)
         depth += (int)ceil(log2(f->vars[j].nvalues + 1.0)) + 1;
     bb_state b = {.width = 4 * r->nslots + 2, .cache = BB_CACHE, .dims = BB_BOUND_DIMS};
-    while (b.cache > 64 && (long)b.cache * b.width * (long)sizeof(double) > BB_BYTES)
-        b.cache /= 2;
-    while (b.dims > 2 && (1L << b.dims) * b.width * (long)sizeof(double) > BB_BYTES)
-        b.dims--;
-    b.keys = malloc((size_t)b.cache * (size_t)n * sizeof *b.keys);
-    b.rows = malloc((size_t)b.cache * (size_t)b.width * sizeof *b.rows);
-    b.used = calloc((size_t)b.cache, 1);
-    b.corner = malloc(((size_t)1 << b.dims) * (size_t)b.width * sizeof *b.corner);
-    b.tmp = malloc((size_t)b.width * sizeof *b.tmp);
-    b.checks = calloc((size_t)(r->nslots ? r->nslots : 1), sizeof *b.checks);
-    b.flag = malloc((size_t)2 * (r->nslots + 1) * BB_BOUND_DIMS + 1);
-    b.cidx = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cidx);
-    b.cval = malloc(((size_t)1 << b.dims) * (size_t)n * sizeof *b.cval);
-    b.ccand = malloc(((size_t)1 << b.dims) * sizeof *b.ccand);
-    b.pend = malloc(((size_t)1 << b.dims) * sizeof *b.pend);
-    b.whole = malloc(((size_t)1 << b.dims) * sizeof *b.whole);
-    b.worker = worker_new(r);
-    bb_box *stack = malloc((size_t)depth * sizeof *stack);
+    bool ready = bb_alloc(r, &b);
+    int stack_cap = depth + 2 * BB_GROUP;
+    bb_box *stack = malloc((size_t)stack_cap * sizeof *stack);
     int rc = -1;
-    if (b.keys && b.rows && b.used && b.corner && b.tmp && b.checks && b.flag && b.cidx && b.cval && b.ccand &&
-        b.pend && b.whole && stack) {
+    if (ready && stack) {
         int top = 1;
         for (int j = 0; j < n; j++) {
             stack[0].lo[j] = 0;
@@ -1936,8 +2308,16 @@ static int branch_and_bound(fit_run *r)
         r->total_hint = f->evaluated + cap;
         long start = f->bb_solves;
         while (top > 0 && f->bb_solves - start < cap && !r->nomem) {
-            bb_box x = stack[--top];
-            top = bb_visit(r, &b, &x, stack, top);
+            if (top + 2 * BB_GROUP > stack_cap) { /* a group pops up to BB_GROUP boxes and pushes two for each */
+                bb_box *s2 = realloc(stack, (size_t)2 * stack_cap * sizeof *stack);
+                if (!s2) {
+                    top = -1;
+                    break;
+                }
+                stack = s2;
+                stack_cap *= 2;
+            }
+            top = bb_visit_group(r, &b, stack, top);
         }
         f->proven = top == 0 && !r->nomem;
         rc = top < 0 ? -1 : 0;
