@@ -204,10 +204,9 @@ static double rel_residual(const double *r, const double *x, const double *rhs, 
 {
     double rn = 0, xn = 0, bn = 0;
     for (int i = 0; i < n; i++) {
-        double a = fabs(r[i]), b = fabs(x[i]), c = fabs(rhs[i]);
-        rn = a > rn ? a : rn;
-        xn = b > xn ? b : xn;
-        bn = c > bn ? c : bn;
+        rn = ls_max_acc(rn, fabs(r[i]));
+        xn = ls_max_acc(xn, fabs(x[i]));
+        bn = ls_max_acc(bn, fabs(rhs[i]));
     }
     return anorm * xn + bn > 0 ? rn / (anorm * xn + bn) : rn;
 }
@@ -222,13 +221,17 @@ static int base_solve(ls_op *op, double *y, int transpose, double anorm)
 {
     const ls_csc *a = &op->mna.a;
     int n = a->n;
-    double *rhs = malloc((size_t)(n ? n : 1) * sizeof *rhs);
-    double *r = malloc((size_t)(n ? n : 1) * sizeof *r);
-    if (!rhs || !r) {
-        free(rhs);
-        free(r);
-        return LS_SOLVER_NOMEM;
+    /* its two work vectors are the op's, made once per order: a port costs
+     * a few of these solves, and a fit or a tol reports ports per candidate */
+    size_t want = (size_t)(n ? n : 1);
+    if (!op->base_work || op->base_work_n != want) {
+        free(op->base_work);
+        op->base_work = malloc(2 * want * sizeof *op->base_work);
+        op->base_work_n = op->base_work ? want : 0;
+        if (!op->base_work)
+            return LS_SOLVER_NOMEM;
     }
+    double *rhs = op->base_work, *r = op->base_work + want;
     memcpy(rhs, y, (size_t)n * sizeof *rhs);
     if (anorm < 0)
         anorm = max_abs(a);
@@ -246,8 +249,6 @@ static int base_solve(ls_op *op, double *y, int transpose, double anorm)
         for (int i = 0; i < n && st == LS_SOLVER_OK; i++)
             y[i] += r[i];
     }
-    free(rhs);
-    free(r);
     return st;
 }
 
@@ -1812,10 +1813,10 @@ double ls_op_volts(const ls_op *op)
     const ls_netlist *nl = op->nl;
     double vmax = 0;
     for (int i = 0; i < nl->nnodes; i++)
-        vmax = fmax(vmax, fabs(op->v[i]));
+        vmax = ls_max_acc(vmax, fabs(op->v[i]));
     for (int i = 0; i < nl->nparts; i++)
         if (nl->parts[i].kind->stage_role == LS_ROLE_SOURCE)   /* a voltage source */
-            vmax = fmax(vmax, fabs(ls_run_value(&op->run, &nl->parts[i])));
+            vmax = ls_max_acc(vmax, fabs(ls_run_value(&op->run, &nl->parts[i])));
     return vmax;
 }
 

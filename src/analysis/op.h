@@ -117,6 +117,8 @@ typedef struct ls_op {
     int held_path;           /* held ports: 0 not yet read, 1 closed form, -1 general update
                                 (LOADSTACK_PORT_HELD=general, for the tests) */
     size_t work_n;
+    double *base_work;       /* lowrank.c's base_solve: rhs and r, base_work_n doubles each */
+    size_t base_work_n;
     ls_accuracy acc;         /* extra-precise tail of x and the error bounds (accuracy.h) */
     bool nomem;              /* the last ls_op_solve / ls_op_resolve failed because memory ran out
                                 (not a property of the circuit: a caller must not count it as
