@@ -72,12 +72,12 @@ static double residuals(const ls_csc *a, double amax, const double *x, const dou
     }
     for (int i = 0; i < n; i++) {
         r[i] = b[i] - r[i];
-        rn = fmax(rn, fabs(r[i]));
-        xn = fmax(xn, fabs(x[i]));
-        bn = fmax(bn, fabs(b[i]));
+        rn = ls_max_acc(rn, fabs(r[i]));
+        xn = ls_max_acc(xn, fabs(x[i]));
+        bn = ls_max_acc(bn, fabs(b[i]));
         double den = absax[i] + fabs(b[i]);
         if (den > 0)
-            be = fmax(be, fabs(r[i]) / den);
+            be = ls_max_acc(be, fabs(r[i]) / den);
         else if (r[i] != 0)
             be = INFINITY;
     }
@@ -674,6 +674,7 @@ void ls_op_free(ls_op *op)
     ls_run_free(&op->run);
     free(op->v); /* x lives in the same array */
     free(op->work);
+    free(op->base_work);
     free(op->ipart);
     free(op->vpart);
     free(op->ppart);

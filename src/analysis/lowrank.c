@@ -204,10 +204,9 @@ static double rel_residual(const double *r, const double *x, const double *rhs, 
 {
     double rn = 0, xn = 0, bn = 0;
     for (int i = 0; i < n; i++) {
-        double a = fabs(r[i]), b = fabs(x[i]), c = fabs(rhs[i]);
-        rn = a > rn ? a : rn;
-        xn = b > xn ? b : xn;
-        bn = c > bn ? c : bn;
+        rn = ls_max_acc(rn, fabs(r[i]));
+        xn = ls_max_acc(xn, fabs(x[i]));
+        bn = ls_max_acc(bn, fabs(rhs[i]));
     }
     return anorm * xn + bn > 0 ? rn / (anorm * xn + bn) : rn;
 }
@@ -222,13 +221,17 @@ static int base_solve(ls_op *op, double *y, int transpose, double anorm)
 {
     const ls_csc *a = &op->mna.a;
     int n = a->n;
-    double *rhs = malloc((size_t)(n ? n : 1) * sizeof *rhs);
-    double *r = malloc((size_t)(n ? n : 1) * sizeof *r);
-    if (!rhs || !r) {
-        free(rhs);
-        free(r);
-        return LS_SOLVER_NOMEM;
+    /* its two work vectors are the op's, made once per order: a port costs
+     * a few of these solves, and a fit or a tol reports ports per candidate */
+    size_t want = (size_t)(n ? n : 1);
+    if (!op->base_work || op->base_work_n != want) {
+        free(op->base_work);
+        op->base_work = malloc(2 * want * sizeof *op->base_work);
+        op->base_work_n = op->base_work ? want : 0;
+        if (!op->base_work)
+            return LS_SOLVER_NOMEM;
     }
+    double *rhs = op->base_work, *r = op->base_work + want;
     memcpy(rhs, y, (size_t)n * sizeof *rhs);
     if (anorm < 0)
         anorm = max_abs(a);
@@ -246,8 +249,6 @@ static int base_solve(ls_op *op, double *y, int transpose, double anorm)
         for (int i = 0; i < n && st == LS_SOLVER_OK; i++)
             y[i] += r[i];
     }
-    free(rhs);
-    free(r);
     return st;
 }
 
@@ -1580,14 +1581,94 @@ static bool port_fast_from(ls_op *op, const ls_part *p, ls_port_result *r, bool 
     return true;
 }
 
+/* A held port's closed form from refined entries may lose no more than
+ * this factor to cancellation (in C's determinant or in open's sum; from
+ * the selected inverse's, SELINV_MAX_CANCEL); beyond it the general update,
+ * which refines against the modified matrix itself, decides. */
+#define HELD_MAX_CANCEL 1e3
+
+/* Is column k of A exactly e_f - e_t (f, t unknowns; t >= 0)?  Then, as
+ * A e_k = e_f - e_t, column f of A^-1 minus column t is e_k. */
+static bool column_is_port(const ls_csc *a, int k, int f, int t)
+{
+    int cnt = a->colptr[k + 1] - a->colptr[k];
+    if (cnt != 2)
+        return false;
+    for (int p = a->colptr[k]; p < a->colptr[k + 1]; p++)
+        if (!(a->rowind[p] == f && a->val[p] == 1) && !(a->rowind[p] == t && a->val[p] == -1))
+            return false;
+    return true;
+}
+
+/* port_held by a closed form, when every node reaches ground (then holding
+ * the load end floats nothing and the update is exactly rows f and k).
+ * Holding removes A's entries (f,k) and (k,f), a rank-two change
+ * A' = A + E_R D with R = (f, k), d_f = -e_k^T, d_k = -e_f^T, and sets the
+ * branch row's right-hand side to -v(t).  With a = A^-1, Z = A^-1 E_R and
+ * C = I + D Z = [1 - a_kf, -a_kk; -a_ff, 1 - a_fk], the Woodbury identity
+ * gives A'^-1 E_R = Z C^-1, so
+ *     zout = (A'^-1)_ff = a_ff / det C,
+ *     open = x_f + (u_f a_ff + u_k (a_ff a_kk + a_fk (1 - a_kf))) / det C,
+ * with u = (x_k, x_f - v(t)) the change's residual at rows f and k.  Rows k
+ * and t of A^-1 cost a transposed solve each (port_entries); the branch row
+ * V(f) - V(t) = 0 makes row f = row t + e_k^T, so a_ff = a_tf and
+ * 1 - a_fk = -a_tk exactly, and when column k is e_f - e_t also
+ * 1 - a_kf = -a_kt: C's entries carry no cancellation of their own.
+ * Returns false, leaving r as it was, when it does not apply, when a term
+ * cancels beyond its limit (the general update then decides whether
+ * the modified system is singular) or when a solve failed (*nomem set when
+ * for want of memory). */
+static bool port_held_fast(ls_op *op, const ls_part *p, ls_port_result *r, bool selected, bool *nomem)
+{
+    int f = p->pin[0] - 1, t = p->pin[1] - 1, k = p->branch;
+    *nomem = false;
+    if (f < 0 || t < 0 || f == t || !all_grounded(op) || (selected && !op_selinv(op)))
+        return false;
+    double e[6], mag[6], cancel = selected ? SELINV_MAX_CANCEL : HELD_MAX_CANCEL;
+    if (!port_entries(op, k, t, f, t, e, mag, selected, nomem))
+        return false;
+    double akf = e[0], akt = e[1], akk = e[2], aff = e[3], atk = e[5];
+    double maff = mag[3], makk = mag[2];
+    bool col = column_is_port(&op->mna.a, k, f, t);
+    double c11 = col ? -akt : 1 - akf, mc11 = col ? mag[1] : 1 + mag[0];
+    double c22 = -atk, mc22 = mag[5];
+    double det = c11 * c22 - akk * aff;
+    double mdet = mc11 * mc22 + makk * maff;
+    if (!(fabs(det) * cancel >= mdet) || det == 0)
+        return false;
+    double afk = atk + 1, xf = op->x[f], uf = op->x[k], uk = op->x[f] - op->v[p->pin[1]];
+    double num = uf * aff + uk * (aff * akk + afk * c11);
+    double open = xf + num / det;
+    if (!(fabs(xf) + fabs(num / det) <= cancel * fabs(open)))
+        return false;
+    r->load_held = true;
+    r->zin = INFINITY;
+    r->loaded = op->v[p->pin[0]];
+    r->zout = aff / det;
+    r->open = open;
+    return true;
+}
+
 /* A voltage-mode port whose load side has no DC path once it is opened: the
  * load end is held at its loaded voltage while the driver side's open and
  * zout are computed (so identical connections get identical answers), and
- * zin is unbounded (no DC current can flow into that side).  Returns false
- * when out of memory. */
+ * zin is unbounded (no DC current can flow into that side).  The closed form
+ * (port_held_fast) where it applies, else the general update; the variable
+ * LOADSTACK_PORT_HELD=general forces the latter (tests/loading/held_ports.py
+ * compares the two).  Returns false when out of memory. */
 static bool port_held(ls_op *op, int pi, ls_port_result *r)
 {
     const ls_part *p = &op->nl->parts[pi];
+    if (op->held_path == 0) {
+        const char *env = getenv("LOADSTACK_PORT_HELD");
+        op->held_path = env && strcmp(env, "general") == 0 ? -1 : 1;
+    }
+    bool nomem = false;
+    if (op->held_path > 0 &&
+        (port_held_fast(op, p, r, true, &nomem) || (!nomem && port_held_fast(op, p, r, false, &nomem))))
+        return true;
+    if (nomem)
+        return false;
     ls_mod *m = ls_mod_new(op, pi, MOD_HOLD_PORT_LOAD);
     if (!m)
         return false;
@@ -1732,10 +1813,10 @@ double ls_op_volts(const ls_op *op)
     const ls_netlist *nl = op->nl;
     double vmax = 0;
     for (int i = 0; i < nl->nnodes; i++)
-        vmax = fmax(vmax, fabs(op->v[i]));
+        vmax = ls_max_acc(vmax, fabs(op->v[i]));
     for (int i = 0; i < nl->nparts; i++)
         if (nl->parts[i].kind->stage_role == LS_ROLE_SOURCE)   /* a voltage source */
-            vmax = fmax(vmax, fabs(ls_run_value(&op->run, &nl->parts[i])));
+            vmax = ls_max_acc(vmax, fabs(ls_run_value(&op->run, &nl->parts[i])));
     return vmax;
 }
 

@@ -114,7 +114,11 @@ typedef struct ls_op {
     struct ls_selinv *selinv;   /* entries of A^-1 for large systems (selinv.h); owned */
     int selinv_state;        /* 0 not tried, 1 built, -1 not used (small, inaccurate or no memory) */
     int grounded_nodes;      /* 1 + the nodes with a DC path to ground (from tin); 0: not yet counted */
+    int held_path;           /* held ports: 0 not yet read, 1 closed form, -1 general update
+                                (LOADSTACK_PORT_HELD=general, for the tests) */
     size_t work_n;
+    double *base_work;       /* lowrank.c's base_solve: rhs and r, base_work_n doubles each */
+    size_t base_work_n;
     ls_accuracy acc;         /* extra-precise tail of x and the error bounds (accuracy.h) */
     bool nomem;              /* the last ls_op_solve / ls_op_resolve failed because memory ran out
                                 (not a property of the circuit: a caller must not count it as

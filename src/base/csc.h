@@ -13,6 +13,11 @@ typedef struct ls_csc {
 
 static inline int ls_csc_nnz(const ls_csc *a) { return a->colptr[a->n]; }
 
+/* The larger of a running maximum m (never NaN) and v: fmax(m, v) without
+ * its library call (a NaN v leaves m, as fmax does), for the loops over a
+ * matrix's entries that every solve of a fit or a tol runs. */
+static inline double ls_max_acc(double m, double v) { return v > m ? v : m; }
+
 /* Frees the arrays and zeroes the matrix (accepts a zeroed one).  rowind and
  * val may be large blocks of ls_big_malloc (base/pages.h): free them here or
  * with ls_big_free, never with free. */

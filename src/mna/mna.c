@@ -115,7 +115,7 @@ double ls_csc_amax(const ls_csc *a)
 {
     double m = 0;
     for (int p = 0; p < ls_csc_nnz(a); p++)
-        m = fmax(m, fabs(a->val[p]));
+        m = ls_max_acc(m, fabs(a->val[p]));
     return m;
 }
 

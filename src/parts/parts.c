@@ -93,7 +93,12 @@ double ls_part_opt_in(const ls_run *run, const ls_part *p, const char *name, dou
 int ls_kind_opt(const ls_kind *k, const char *name)
 {
     /* called by the stamps on every solve (a fit's candidates, a tol's
-     * trials): the first letter rules out most names without a call */
+     * trials): a kind asking for its own option by a literal usually passes
+     * the table's own pointer (the linker merges equal string constants),
+     * and the first letter rules out most other names without a call */
+    for (int i = 0; i < k->nopts; i++)
+        if (k->opts[i].name == name)
+            return i;
     for (int i = 0; i < k->nopts; i++)
         if (k->opts[i].name[0] == name[0] && strcmp(k->opts[i].name, name) == 0)
             return i;

@@ -100,7 +100,7 @@ static int equilibrate(const ls_csc *a, double *r, double *c)
         r[i] = 0;
     for (int j = 0; j < n; j++)
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
-            r[a->rowind[p]] = fmax(r[a->rowind[p]], fabs(a->val[p]));
+            r[a->rowind[p]] = ls_max_acc(r[a->rowind[p]], fabs(a->val[p]));
     for (int i = 0; i < n; i++) {
         if (r[i] == 0)
             return i;
@@ -109,7 +109,7 @@ static int equilibrate(const ls_csc *a, double *r, double *c)
     for (int j = 0; j < n; j++) {
         double m = 0;
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
-            m = fmax(m, r[a->rowind[p]] * fabs(a->val[p]));
+            m = ls_max_acc(m, r[a->rowind[p]] * fabs(a->val[p]));
         if (m == 0)
             return n + j;
         c[j] = 1 / m;
@@ -140,7 +140,7 @@ static double rcond_floor(const double *lu, int n, double anorm, double *y)
         for (int i = 0; i < j; i++)
             s += fabs(col[i]) * y[i];
         y[j] = s / fabs(col[j]);
-        bu = fmax(bu, y[j]);
+        bu = ls_max_acc(bu, y[j]);
     }
     for (int j = n - 1; j >= 0; j--) {       /* M(L)^T y = e, backward, unit diagonal */
         const double *col = lu + (size_t)j * n;
@@ -148,7 +148,7 @@ static double rcond_floor(const double *lu, int n, double anorm, double *y)
         for (int i = j + 1; i < n; i++)
             s += fabs(col[i]) * y[i];
         y[j] = s;
-        bl = fmax(bl, s);
+        bl = ls_max_acc(bl, s);
     }
     double den = anorm * bu * bl;
     return den > 0 && isfinite(den) ? 1 / den : 0;
@@ -285,7 +285,7 @@ static int dense_factor(void *self, const ls_csc *a, ls_solver_stats *st)
         }
         for (int p = a->colptr[j]; p < a->colptr[j + 1]; p++)
             colsum += fabs(col[a->rowind[p]]);
-        anorm = fmax(anorm, colsum);
+        anorm = ls_max_acc(anorm, colsum);
     }
     /* The _work interfaces skip LAPACKE's NaN scan of the whole matrix: the
      * entries come from finite stamps. */
