@@ -84,15 +84,46 @@ def same(a, b, rel):
 DERIVED = ("ratio", "verdict", "why", "fix", "by")
 
 
-def compare(path, slow, fast, counts):
-    """The ports of two reports; returns a list of differences."""
+def forward_bound(rcond):
+    """100 eps / rcond: a backward-stable solve's relative forward error."""
+    return 100 * 2.2e-16 / max(rcond or 0, 1e-300)
+
+
+def port_scales(a, b, floors, rel):
+    """Scales of one port's fields for differ() at rel: each field is also
+    held to rel of the report's norm of its kind (floors: volts, amps, ohms),
+    a solve's forward error being bounded in norm, not entry by entry.
+    Returns (the scales, whether zout or zin is zero to both reports, the
+    relative tolerance of the fields derived from them)."""
+    v = floors["amps"] if a.get("mode") == "current" else floors["volts"]
+    z = floors["ohms"]
+    opens = [abs(a.get("open") or 0), abs(b.get("open") or 0)] if num(a.get("open")) and num(b.get("open")) else [0]
+    sc = {"open": v, "loaded": v, "sag": v, "budget": v, "current": floors["amps"], "zout": z, "zin": z,
+          "sag_rel": v / min(opens) if min(opens) else math.inf}
+    zs = [k for k in ("zout", "zin") if num(a.get(k)) and num(b.get(k)) and math.isfinite(a[k])]
+    zero = any(max(abs(a[k]), abs(b[k])) <= rel * z for k in zs)
+    derived = 2 * max([rel] + [rel * z / abs(a[k]) for k in zs if a[k]])
+    return sc, zero, derived
+
+
+def compare(path, slow, fast, counts, rel=None, floors=None):
+    """The ports of two reports; returns a list of differences.
+
+    rel: the relative tolerance (default: REL, or forward_bound where the
+    report's rcond is below 1e-6).  floors (default: none): {"volts": V,
+    "amps": A, "ohms": R}, the report's largest values; then every voltage
+    passes within rel of V too, every current within rel of A, every
+    impedance within rel of R (zero to both within that), and the fields
+    derived from zout and zin (ratio, fix) are held to twice the relative
+    tolerance those got."""
     bad = []
     if (slow is None) != (fast is None):
         return ["%s: one path gave no report" % path]
     if slow is None:
         return []
     rcond = (slow.get("solver") or {}).get("rcond") or 0
-    rel = REL if rcond >= 1e-6 else max(REL, 100 * 2.2e-16 / max(rcond, 1e-300))
+    if rel is None:
+        rel = REL if rcond >= 1e-6 else max(REL, forward_bound(rcond))
     counts["loose" if rel > REL else "strict"] += 1
     ps, pf = slow.get("ports", {}), fast.get("ports", {})
     if set(ps) != set(pf):
@@ -104,15 +135,18 @@ def compare(path, slow, fast, counts):
         volts = max(abs(a.get("open") or 0), abs(a.get("loaded") or 0))
         zero_z = any(num(a.get(k)) and num(b.get(k)) and a[k] != b[k]
                      and max(abs(a[k]), abs(b[k])) <= REL * zmax for k in ("zout", "zin"))
+        scales = {"sag": volts, "sag_rel": 1, "zout": REL * zmax / rel, "zin": REL * zmax / rel}
+        drel = rel
+        if floors:
+            scales, zero_z, drel = port_scales(a, b, floors, rel)
         for key in a:
             if zero_z and key in DERIVED:
                 continue
             if isinstance(a[key], (int, float)) and not isinstance(a[key], bool):
-                scale = {"sag": volts, "sag_rel": 1, "zout": REL * zmax / rel, "zin": REL * zmax / rel}.get(key, 0)
-                if differ(a[key], b.get(key), scale, rel):
+                if differ(a[key], b.get(key), scales.get(key, 0), drel if key == "ratio" else rel):
                     bad.append("%s: port %s %s: %r against %r" % (path, name, key, a[key], b.get(key)))
             elif key == "fix":
-                if not same(a[key], b.get(key), rel):
+                if not same(a[key], b.get(key), drel):
                     bad.append("%s: port %s fix: %r against %r" % (path, name, a[key], b.get(key)))
             elif a[key] != b.get(key):
                 bad.append("%s: port %s %s: %r against %r" % (path, name, key, a[key], b.get(key)))
