@@ -1325,6 +1325,12 @@ static void judge(ls_op *op, int pi, ls_port_result *r)
         return;
     }
     double min = ls_op_min_ratio(op);
+    if (!r->current_mode && r->zin == INFINITY) {
+        /* no DC current can flow into the load side: nothing for the driver's
+         * zout to drop, whatever its value or sign */
+        r->verdict = VERDICT_OK;
+        return;
+    }
     if (isnan(r->ratio))
         r->verdict = isinf(r->current_mode ? r->zout : r->zin) ? VERDICT_OK : VERDICT_LOADING;
     else if (r->ratio >= min - ls_check_slack(min))
@@ -1439,12 +1445,17 @@ static ls_selinv *op_selinv(ls_op *op)
 /* e[0..2] = row k of A^-1 and e[3..5] = row s, at columns f, t, k (f or t
  * negative: ground, 0): from the selected-inverse factor where there is one
  * and `selected`, else from two refined transposed solves; mag[] the scale
- * their rounding is relative to (ls_selinv_block).  false when a solve
+ * their rounding is relative to (ls_selinv_block).  With srow, the largest
+ * |entry| of row s at a node's column (ohm: the scale of its entries'
+ * rounding in norm), NaN from the selected inverse.  false when a solve
  * failed (*nomem set when for want of memory). */
-static bool port_entries(ls_op *op, int k, int s, int f, int t, double *e, double *mag, bool selected, bool *nomem)
+static bool port_entries(ls_op *op, int k, int s, int f, int t, double *e, double *mag, bool selected, bool *nomem,
+                         double *srow)
 {
     int rows[2] = {k, s}, cols[3] = {f, t, k};
     ls_selinv *si = selected ? op_selinv(op) : NULL;
+    if (srow)
+        *srow = NAN;
     if (si)
         return ls_selinv_block(si, rows, 2, cols, 3, e, mag) == 0;
     int n = op->mna.n;
@@ -1467,6 +1478,11 @@ static bool port_entries(ls_op *op, int k, int s, int f, int t, double *e, doubl
         e[3 + j] = cols[j] >= 0 ? ys[cols[j]] : 0;
         mag[j] = fabs(e[j]);   /* refined: accurate to their own size */
         mag[3 + j] = fabs(e[3 + j]);
+    }
+    if (ok && srow) {
+        *srow = 0;
+        for (int i = 0; i < op->mna.nn; i++)
+            *srow = ls_max_acc(*srow, fabs(ys[i]));
     }
     free(yk);
     free(ys);
@@ -1559,7 +1575,7 @@ static bool port_fast_from(ls_op *op, const ls_part *p, ls_port_result *r, bool 
         return false;
     /* rows k and s of A^-1 at columns f, t, k (a ground column's entry is 0) */
     double e[6], mag[6];
-    if (!port_entries(op, k, s, f, t, e, mag, selected, nomem))
+    if (!port_entries(op, k, s, f, t, e, mag, selected, nomem, NULL))
         return false;
     double af[3] = {0, 0, 0}, at[3] = {0, 0, 0};   /* columns f, t, k */
     double mf[3] = {0, 0, 0}, mt[3] = {0, 0, 0};
@@ -1614,27 +1630,37 @@ static bool column_is_port(const ls_csc *a, int k, int f, int t)
  * V(f) - V(t) = 0 makes row f = row t + e_k^T, so a_ff = a_tf and
  * 1 - a_fk = -a_tk exactly, and when column k is e_f - e_t also
  * 1 - a_kf = -a_kt: C's entries carry no cancellation of their own.
+ * det C = det A' / det A is dimensionless: the return difference of the loop
+ * the port closes, 1 where the held side feeds nothing back to the driver's,
+ * 0 where holding leaves no DC solution (then what is computed is rounding,
+ * of either size).  So the closed form is used only where det C is at least
+ * 1 / (its cancellation limit) and at least that share of its terms; a
+ * held system that is singular, or nearly (a loop gain near 1), goes to the
+ * general update, which decides.  A driving-point resistance within the
+ * rounding of its row of A^-1 (64 eps of the row's largest entry) is 0: a
+ * driver at an op-amp's output or at a source.
  * Returns false, leaving r as it was, when it does not apply, when a term
- * cancels beyond its limit (the general update then decides whether
- * the modified system is singular) or when a solve failed (*nomem set when
- * for want of memory). */
+ * cancels beyond its limit or when a solve failed (*nomem set when for want
+ * of memory). */
 static bool port_held_fast(ls_op *op, const ls_part *p, ls_port_result *r, bool selected, bool *nomem)
 {
     int f = p->pin[0] - 1, t = p->pin[1] - 1, k = p->branch;
     *nomem = false;
     if (f < 0 || t < 0 || f == t || !all_grounded(op) || (selected && !op_selinv(op)))
         return false;
-    double e[6], mag[6], cancel = selected ? SELINV_MAX_CANCEL : HELD_MAX_CANCEL;
-    if (!port_entries(op, k, t, f, t, e, mag, selected, nomem))
+    double e[6], mag[6], cancel = selected ? SELINV_MAX_CANCEL : HELD_MAX_CANCEL, trow;
+    if (!port_entries(op, k, t, f, t, e, mag, selected, nomem, &trow))
         return false;
     double akf = e[0], akt = e[1], akk = e[2], aff = e[3], atk = e[5];
     double maff = mag[3], makk = mag[2];
+    if (fabs(aff) <= 64 * DBL_EPSILON * trow)   /* never true for a NaN trow */
+        aff = 0;
     bool col = column_is_port(&op->mna.a, k, f, t);
     double c11 = col ? -akt : 1 - akf, mc11 = col ? mag[1] : 1 + mag[0];
     double c22 = -atk, mc22 = mag[5];
     double det = c11 * c22 - akk * aff;
     double mdet = mc11 * mc22 + makk * maff;
-    if (!(fabs(det) * cancel >= mdet) || det == 0)
+    if (!(fabs(det) * cancel >= fmax(1, mdet)))
         return false;
     double afk = atk + 1, xf = op->x[f], uf = op->x[k], uk = op->x[f] - op->v[p->pin[1]];
     double num = uf * aff + uk * (aff * akk + afk * c11);
