@@ -423,8 +423,8 @@ static void budget_advice(ls_wr *w, const ls_results *res, int i, const ls_port_
  * source zout ("zin_max", "zout_min").  By a budget (voltage ports): the
  * zin/zout the budget needs ("ratio_min"), then "zout_max" and "zin_min" for
  * that ratio.  Returns how many fields were set (0: nothing to say: the port
- * passes, its ratio is undefined, its load is a short to ground, or its budget
- * gives no finite ratio). */
+ * passes, its ratio is undefined or negative, its load is a short to ground,
+ * or its budget gives no finite ratio). */
 static int fix_limits(const ls_op *op, const ls_port_result *pr, const char *field[3], double v[3])
 {
     if (pr->verdict == VERDICT_OK)
@@ -440,7 +440,8 @@ static int fix_limits(const ls_op *op, const ls_port_result *pr, const char *fie
         return 3;
     }
     double min = ls_op_min_ratio(op);
-    if (isnan(pr->ratio) || (!pr->current_mode && pr->zin == 0))
+    /* a negative impedance on either side: no limit on the other meets the rule */
+    if (isnan(pr->ratio) || pr->ratio < 0 || (!pr->current_mode && pr->zin == 0))
         return 0;
     field[0] = pr->current_mode ? "zin_max" : "zout_max";
     field[1] = pr->current_mode ? "zout_min" : "zin_min";
@@ -487,6 +488,15 @@ static void fix_advice(ls_wr *w, const ls_results *res, int i, const ls_port_res
         ls_wr_say(w, "  -> %s: zout/zin = %s is below %g. To meet it: a load (zin) of at most %s, or a source "
                          "(zout) of at least %s.\n",
                 p->name, r, min, lo, hi);
+        return;
+    }
+    if (!fix && pr->ratio < 0) {
+        bool zout_neg = pr->zout < 0;
+        char z[64];
+        ls_eng(rp, z, sizeof z, zout_neg ? pr->zout : pr->zin, OHM);
+        ls_wr_say(w, "  -> %s: the ratio %s is negative: %s is %s (positive feedback), and no %s meets the %g x "
+                     "rule; judge this port by its sag (budget=).\n",
+                p->name, r, zout_neg ? "the driver's zout" : "the load's zin", z, zout_neg ? "zin" : "zout", min);
         return;
     }
     if (!fix) {

@@ -109,6 +109,24 @@ def test_advice_numbers(b, tmp):
           "the sag in LSB")
 
 
+def test_negative_ratio_advice(b, tmp):
+    # A driver with a negative output resistance (tests/loading/closed/
+    # negative_zout.stack: 1 kohm in parallel with -1/gm = -500 ohm, so
+    # zout = -1 kohm; parallel conductances add): zin/zout = -10.  Every
+    # zout at most zin/10 and every zin at least 10 zout is met already, so a
+    # limit of either kind would be advice that changes nothing; the report
+    # must say the ratio is negative and give no "fix" numbers.
+    path = os.path.join(os.path.dirname(os.path.abspath(__file__)), "closed", "negative_zout.stack")
+    d = js(b, ["solve", path])
+    port = d["ports"]["p"] if d else {}
+    near("negative zout", port.get("zout"), -1e3, 1e-12, source="1k || (-1/2 mS), parallel conductances add")
+    truth("no fix for a negative ratio", "fix" not in port, "a limit that the port already meets changes nothing")
+    out, _ = run(b, ["solve", path])
+    line = [ln for ln in out.splitlines() if ln.strip().startswith("-> p:")]
+    truth("advice says the ratio is negative", len(line) == 1 and "is negative" in line[0] and "zout is" in line[0],
+          repr(line))
+
+
 def test_budget_units(b, tmp):
     # budget= in volts, as a % of open, in LSB of the adc on the load node;
     # `rule sag` for every port without its own; a port's own budget wins
@@ -452,7 +470,7 @@ def main():
         print(__doc__)
         return 2
     b = sys.argv[1]
-    tests = [test_half_lsb_verdicts, test_advice_numbers, test_budget_units, test_check_tolerance,
+    tests = [test_half_lsb_verdicts, test_advice_numbers, test_negative_ratio_advice, test_budget_units, test_check_tolerance,
              test_check_within_slack, test_sweep_let_in_quantity, test_twin_held_load, test_warnings,
              test_properties, test_influence_new_quantities]
     return run_tests([(t.__name__, lambda tmp, t=t: t(b, tmp)) for t in tests], "loadstack_budget_")
