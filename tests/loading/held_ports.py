@@ -45,7 +45,9 @@ current from a current source or a vccs, so the port carries current and
 2. The general path: every network, and every circuits/**/*.stack and
    docs/examples/**/*.stack, is solved with LOADSTACK_PORT_HELD=general (the
    general low-rank update) and without it (the closed form where it
-   applies); every port field must agree by tests/scale/fast_paths.py's
+   applies), and once more with LOADSTACK_SELINV_MIN_N=0 (the closed form
+   from the selected inverse's entries, the path of 2000 unknowns and up);
+   every port field must agree by tests/scale/fast_paths.py's
    `compare` (imported): to 1e-12 relative (100 eps / rcond where the
    report's rcond is below 1e-6), or within that fraction of the report's
    largest node voltage, current or resistance for a voltage, current or
@@ -336,11 +338,14 @@ def check_held(net, ports, report, noise, stats):
 # ---------------------------------------------------------------------------
 # the general path against the fast one
 
-def run(binary, path, general, fmt):
+def run(binary, path, general, fmt, selinv=False):
     env = dict(os.environ)
     env.pop("LOADSTACK_PORT_HELD", None)
+    env.pop("LOADSTACK_SELINV_MIN_N", None)
     if general:
         env["LOADSTACK_PORT_HELD"] = "general"
+    if selinv:       # A^-1's entries from the selected inverse at any size (tests/scale/fast_paths.py)
+        env["LOADSTACK_SELINV_MIN_N"] = "0"
     p = subprocess.run([binary, "solve", path, "--format", fmt, "--quiet"], env=env,
                        capture_output=True, text=True, timeout=120)
     return p.returncode, p.stdout, p.stderr
@@ -378,6 +383,17 @@ def both_paths(binary, path, label, counts):
     bad += compare(label, jg, jf, counts, floors=report_norms(jg))
     if jg.get("warnings") != jf.get("warnings"):
         bad.append("%s: the warnings differ" % label)
+    # the closed form from the selected inverse's entries (large circuits'
+    # path, forced here at any size) against the general update as well
+    rs, os_, _ = run(binary, path, False, "json", selinv=True)
+    try:
+        js_ = json.loads(os_) if os_.strip() else None
+    except json.JSONDecodeError:
+        js_ = None
+    if rs != rg or js_ is None:
+        bad.append("%s: exit %d or no JSON from the selected inverse's path" % (label, rs))
+    else:
+        bad += ["%s (selected inverse)" % x for x in compare(label, jg, js_, counts, floors=report_norms(jg))]
     held = sum(1 for p in jg.get("ports", {}).values() if p.get("load_held"))
     notes = [[ln for ln in run(binary, path, general, "text")[1].splitlines() if ln.strip().startswith("note:")]
              for general in (True, False)]
