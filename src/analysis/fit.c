@@ -174,12 +174,14 @@ static void eval_opamp_cm(ls_op *op, int i, ls_fit_check *c)
     c->pass = c->margin >= -ls_check_slack(1);
 }
 
-/* An adc: its input inside 0..ref, or its source below max_source=. */
+/* An adc: its input inside 0..ref, or its source below max_source=.  The
+ * range needs only the input's voltage (ls_op_adc's vin), not the
+ * driving-point solve behind the source's resistance. */
 static void eval_adc(ls_op *op, int i, bool source, ls_fit_check *c)
 {
     const ls_part *p = &op->nl->parts[i];
     ls_adc_result r;
-    if (ls_op_adc(op, i, &r) != 0) {
+    if (!p->kind->is_adc || (source && ls_op_adc(op, i, &r) != 0)) {
         c->value = NAN;
         c->margin = -INFINITY;
         c->pass = false;
@@ -189,11 +191,11 @@ static void eval_adc(ls_op *op, int i, bool source, ls_fit_check *c)
         eval_rating(r.rth, ls_part_opt(p, "max_source", INFINITY), c);
         return;
     }
-    double ref = ls_part_opt(p, "ref", 0);
-    c->value = r.vin;
+    double ref = ls_part_opt(p, "ref", 0), vin = op->v[p->pin[0]];
+    c->value = vin;
     c->lo = 0;
     c->hi = ref;
-    c->margin = range_margin(r.vin, 0, ref);
+    c->margin = range_margin(vin, 0, ref);
     c->pass = c->margin >= -ls_check_slack(1);
 }
 
