@@ -82,10 +82,20 @@ def run(k, args, extra_env=None, prefix=()):
     for name in extra_env or {}:
         cmd += ["-x", name]
     cmd += list(prefix) + [lsm] + args + ["--output", out]
-    try:
-        p = subprocess.run(cmd, capture_output=True, text=True, timeout=60, env=e)
-    except subprocess.TimeoutExpired:
-        return None, False
+    for attempt in range(2):
+        try:
+            p = subprocess.run(cmd, capture_output=True, text=True, timeout=60, env=e)
+        except subprocess.TimeoutExpired:
+            return None, False
+        # A negative code is mpirun itself killed by a signal (a rank that
+        # dies of one makes mpirun exit with a positive code and say so):
+        # the launcher's failure while it ends the ranks, seen once on a
+        # loaded machine, not loadstack's; run it once more, and say so.
+        if p.returncode >= 0 or attempt == 1:
+            break
+        print("note: mpirun itself ended by signal %d; run again" % -p.returncode)
+        if os.path.exists(out):
+            os.remove(out)
     return p, os.path.exists(out)
 
 
