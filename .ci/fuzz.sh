@@ -61,6 +61,18 @@ for target in fuzz_circuit fuzz_commands; do
       -dict="$root/tests/fuzz/circuit.dict" -artifact_prefix="$work/artifacts/${target}-" \
       -print_final_stats=1 "$work/corpus" >"$work/$target.log" 2>&1 || rc=$?
   tail -8 "$work/$target.log"
+  # a finding's own report (the sanitizer's or libFuzzer's, with its stack
+  # and the input), printed last so a CI log's tail says where it was even
+  # when the artifacts are gone with the run
+  if grep -q -E '^==[0-9]+== ?ERROR|runtime error:' "$work/$target.log"; then
+    { echo "fuzz: $target's report of its finding:"
+      sed -n '/^==[0-9]*== \{0,1\}ERROR\|runtime error:/,/^SUMMARY: /p' "$work/$target.log" | head -60
+      for a in "$work"/artifacts/"$target"-*; do
+        case $a in *slow-unit-*) continue ;; esac
+        [ -f "$a" ] && { echo "fuzz: $(basename "$a"), $(wc -c < "$a") bytes, base64:"; head -c 4096 "$a" | base64; }
+      done
+    } >> "$work/findings.txt"
+  fi
 done
 cat "$work"/fuzz_*.log > "$work/fuzz.log"
 if [ -n "${LOADSTACK_FUZZ_KEEP:-}" ]; then
@@ -77,6 +89,7 @@ if [ "$rc" -ne 0 ] || [ "$found" -gt 0 ]; then
   mkdir -p "$build/fuzz-artifacts"
   cp "$work/artifacts/"* "$build/fuzz-artifacts/" 2>/dev/null
   cp "$work/fuzz.log" "$build/fuzz-artifacts/fuzz.log"
+  [ -f "$work/findings.txt" ] && cat "$work/findings.txt"
   echo "fuzz: FAILED (exit $rc, $found findings kept in $build/fuzz-artifacts)"
   exit 1
 fi
