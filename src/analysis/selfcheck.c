@@ -43,12 +43,15 @@ static double accuracy(const ls_op *op)
 }
 
 /* KCL at every node row; the first failing node into *bad, with what it is
- * off by and the scale the allowance was taken from. */
-static bool kcl_holds(const ls_op *op, double acc, int *bad, double *off, double *scale)
+ * off by and the scale the allowance was taken from.  *pscale: the scale of
+ * the powers' rounding, sum over nodes of |v| times the currents meeting
+ * there (with the noise floor below), for Tellegen's check. */
+static bool kcl_holds(const ls_op *op, double acc, int *bad, double *off, double *scale, double *pscale)
 {
     const ls_csc *a = &op->mna.a;
     int nn = op->mna.nn, n = op->mna.n;
     double *sum = calloc((size_t)(nn ? nn : 1), sizeof *sum), *mag = calloc((size_t)(nn ? nn : 1), sizeof *mag);
+    *pscale = INFINITY;
     if (!sum || !mag) { /* no memory for the check: nothing to say */
         free(sum);
         free(mag);
@@ -83,6 +86,9 @@ static bool kcl_holds(const ls_op *op, double acc, int *bad, double *off, double
         free(rowsum);
     }
     double global = anorm * xnorm + bnorm;
+    *pscale = 0;
+    for (int i = 0; i < nn; i++)
+        *pscale += fabs(op->x[i]) * (mag[i] + fabs(op->mna.b[i]));
     bool ok = true;
     for (int i = 0; i < nn && ok; i++) {
         double r = op->mna.b[i] - sum[i], s = fmax(mag[i] + fabs(op->mna.b[i]), global);
@@ -101,9 +107,9 @@ static bool kcl_holds(const ls_op *op, double acc, int *bad, double *off, double
 int ls_selfcheck(ls_op *op)
 {
     const ls_netlist *nl = op->nl;
-    double acc = accuracy(op), off = 0, scale = 0;
+    double acc = accuracy(op), off = 0, scale = 0, pscale = 0;
     int bad = -1;
-    if (!kcl_holds(op, acc, &bad, &off, &scale)) {
+    if (!kcl_holds(op, acc, &bad, &off, &scale, &pscale)) {
         ls_error(nl->diags, LS_NOLOC,
                  "self-check: Kirchhoff's current law fails at node '%s': %.3g A unaccounted for, against currents "
                  "of %.3g A and an allowed %.3g A",
@@ -114,7 +120,11 @@ int ls_selfcheck(ls_op *op)
     }
     /* Tellegen: the absorbed powers of all parts sum to zero.  A part's
      * reported power is its whole power at every pin (an op-amp's counts its
-     * inputs and rails, the kind's pin_power), so the sum is over every part. */
+     * inputs and rails, the kind's pin_power), so the sum is over every part.
+     * Each power carries its current's rounding times its pins' voltages:
+     * the allowance is over the powers' sizes and that scale (pscale), so
+     * currents that are all rounding (a source whose loop is open: 1e-47 A
+     * at 5 V) sum to what they are, noise, and no failure. */
     double total = 0, mag = 0;
     for (int i = 0; i < nl->nparts; i++) {
         if (isfinite(op->ppart[i])) {
@@ -126,11 +136,12 @@ int ls_selfcheck(ls_op *op)
      * tolerance, which no relative allowance on a near-zero total can hold:
      * Tellegen is checked on linear circuits only (KCL above covers both). */
     bool iterated = ls_newton_needed(nl);
-    if (!iterated && !(fabs(total) <= acc * mag + DBL_MIN)) {
+    double allowed = acc * (mag + pscale);
+    if (!iterated && !(fabs(total) <= allowed + DBL_MIN)) {
         ls_error(nl->diags, LS_NOLOC,
                  "self-check: Tellegen's theorem fails: the parts' powers sum to %.3g W, against %.3g W in all and "
                  "an allowed %.3g W",
-                 total, mag, acc * mag);
+                 total, mag, allowed);
         if (abort_mode())
             abort();
         return -1;

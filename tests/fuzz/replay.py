@@ -8,7 +8,9 @@ program must end by itself (no hang: 60 s per file; the corpus files take
 milliseconds, the resource-limit regressions a few seconds) with one of the
 exit codes of the CLI contract (0..3; shared/spec/cli.md), never by a signal
 and with no sanitizer report; and when it exits 2 or 3 its stderr must carry a
-diagnostic ("error:"), never be silent.  Files of the corpus that start
+diagnostic ("error:"), never be silent.  Under LOADSTACK_SELFCHECK (the suite
+sets it) no file may fail the self-check (src/analysis/selfcheck.h): its error
+says the program's own numbers disagree, whatever the input.  Files of the corpus that start
 with an "@set NAME=VALUE" line (the fuzz target's convention) are replayed with
 that line passed as --set and the rest of the file as the circuit.
 """
@@ -46,6 +48,8 @@ def run_one(exe, path, tmpdir):
         return "exit code %d is not one of 0..3" % p.returncode
     if p.returncode in (2, 3) and b"error:" not in p.stderr:
         return "exit %d without an error message" % p.returncode
+    if b"self-check:" in p.stderr:   # the program's own numbers disagree: always a defect
+        return "self-check failed: " + p.stderr.decode("utf-8", "replace")[-600:]
     return None
 
 
