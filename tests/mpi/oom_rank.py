@@ -24,7 +24,11 @@ whole or not at all).
     a circuit whose blocks expand to 5,000,000 parts: refused before anything
     is expanded, at the statement that crosses the memory-derived part limit
     (file:line:col, at the block's name), in about a second.
-Each run must end within 60 s.
+Each run must end within 60 s.  Open MPI's mpirun has been seen to crash
+itself (a signal, not an exit code) while it ends the ranks after the
+MPI_Abort of case 2; such a run is made again, up to three times, and if
+mpirun crashes every time the rank's own line "stopped (exit 3)" stands for
+the exit code, with a note saying so (the rest is checked as ever).
 """
 import os
 import re
@@ -32,6 +36,7 @@ import shutil
 import subprocess
 import sys
 import tempfile
+import time
 
 lsm, mpirun = sys.argv[1:3]
 if not shutil.which("prlimit"):
@@ -41,6 +46,7 @@ env = dict(os.environ, OMPI_ALLOW_RUN_AS_ROOT="1", OMPI_ALLOW_RUN_AS_ROOT_CONFIR
            OMPI_MCA_rmaps_base_oversubscribe="1")
 tmp = tempfile.mkdtemp(prefix="ls_mpioom_")
 failures = []
+ATTEMPTS = 3   # runs of one mpirun command when mpirun itself dies of a signal
 
 
 def check(ok, what):
@@ -82,29 +88,42 @@ def run(k, args, extra_env=None, prefix=()):
     for name in extra_env or {}:
         cmd += ["-x", name]
     cmd += list(prefix) + [lsm] + args + ["--output", out]
-    for attempt in range(2):
+    for attempt in range(ATTEMPTS):
         try:
-            p = subprocess.run(cmd, capture_output=True, text=True, timeout=60, env=e)
+            p = subprocess.run(cmd, capture_output=True, text=True, timeout=60, env=e,
+                               stdin=subprocess.DEVNULL)
         except subprocess.TimeoutExpired:
             return None, False
         # A negative code is mpirun itself killed by a signal (a rank that
         # dies of one makes mpirun exit with a positive code and say so):
-        # the launcher's failure while it ends the ranks, seen once on a
-        # loaded machine, not loadstack's; run it once more, and say so.
-        if p.returncode >= 0 or attempt == 1:
+        # Open MPI's launcher failing while it ends the ranks after an
+        # MPI_Abort, seen in CI (twice running), never here by hand in 50
+        # runs; not loadstack's.  Run it again, and say so with what it said.
+        if p.returncode >= 0 or attempt == ATTEMPTS - 1:
             break
-        print("note: mpirun itself ended by signal %d; run again" % -p.returncode)
+        print("note: mpirun itself ended by signal %d; run again. Its last words:\n  %s"
+              % (-p.returncode, "\n  ".join(p.stderr.splitlines()[-6:])))
         if os.path.exists(out):
             os.remove(out)
+        time.sleep(2)
     return p, os.path.exists(out)
 
 
-def ends_short(what, p, wrote, stage):
+def ends_short(what, p, wrote, stage, aborted=False):
+    """The run ended short of memory.  aborted: it ends by loadstack-mpi's
+    MPI_Abort, and the rank that stopped names its own exit code; when mpirun
+    itself crashed in every attempt (a negative code), that line stands for
+    the exit code, which is then Open MPI's, and the test says so."""
     if p is None:
         check(False, f"{what}: no end within 60 s")
         return
     errs = [l for l in p.stderr.splitlines() if "error:" in l and "out of memory" in l]
-    check(p.returncode == 3, f"{what}: exit {p.returncode}, expected 3")
+    if aborted and p.returncode < 0:
+        print(f"note: {what}: mpirun itself ended by signal {-p.returncode} in all {ATTEMPTS} attempts; "
+              "the rank's own exit code is checked from its line instead")
+        check("stopped (exit 3)" in p.stderr, f"{what}: the rank says it stopped with exit 3")
+    else:
+        check(p.returncode == 3, f"{what}: exit {p.returncode}, expected 3")
     check(len(errs) >= 1 and re.search(stage, errs[0]) is not None and re.search(r"\d+\.\d MB", errs[0]),
           f"{what}: an out-of-memory error naming the stage and the size ({errs[:1]})")
     check(len([l for l in errs if l.startswith("loadstack: error: out of memory")]) <= 1,
@@ -126,7 +145,7 @@ for r in (1, 0):
 wrap = ["sh", "-c", 'if [ "$OMPI_COMM_WORLD_RANK" = 1 ]; then exec prlimit --as=%d "$0" "$@"; fi; exec "$0" "$@"'
         % (450 * 1024 * 1024)]
 p, wrote = run(2, ["solve", mesh, "--solver", "iterative"], prefix=wrap)
-ends_short("rank 1 of 2 under prlimit --as=450MB", p, wrote, r"out of memory")
+ends_short("rank 1 of 2 under prlimit --as=450MB", p, wrote, r"out of memory", aborted=True)
 check(p is not None and "rank 1 of 2 stopped (exit 3)" in p.stderr,
       "rank 1 under prlimit: the rank that stopped is named, the others are ended")
 
