@@ -97,7 +97,7 @@ def run(k, args, extra_env=None, prefix=()):
         # A negative code is mpirun itself killed by a signal (a rank that
         # dies of one makes mpirun exit with a positive code and say so):
         # Open MPI's launcher failing while it ends the ranks after an
-        # MPI_Abort, seen in CI (twice running), never here by hand in 50
+        # MPI_Abort, seen in CI (twice running), never here by hand in some 35
         # runs; not loadstack's.  Run it again, and say so with what it said.
         if p.returncode >= 0 or attempt == ATTEMPTS - 1:
             break
