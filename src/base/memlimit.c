@@ -2,6 +2,7 @@
 #include "base/memlimit.h"
 
 #include <stdint.h>
+#include <stdlib.h>
 #include <sys/resource.h>
 #include <unistd.h>
 
@@ -25,5 +26,15 @@ size_t ls_memory_limit_bytes(void)
         bytes = (size_t)pages * (size_t)page;
     bytes = under_rlimit(bytes, RLIMIT_AS);
     bytes = under_rlimit(bytes, RLIMIT_DATA);
+    /* for the tests only: a budget where no rlimit can be set (a fuzzer
+     * under AddressSanitizer, whose shadow memory an address-space limit
+     * would refuse, holds each input to 2 GB) */
+    const char *mb = getenv("LOADSTACK_TEST_MEMORY_MB");
+    if (mb && *mb) {
+        char *end;
+        unsigned long long v = strtoull(mb, &end, 10);
+        if (*end == 0 && v > 0 && v < (unsigned long long)(SIZE_MAX >> 20) && (size_t)v << 20 < bytes)
+            bytes = (size_t)v << 20;
+    }
     return bytes;
 }

@@ -7,7 +7,9 @@
 
 /* Bytes this process can expect to hold at most: the smallest of the
  * machine's physical memory and the address-space and data-segment limits
- * (setrlimit, `ulimit -v`, `prlimit --as`).  SIZE_MAX when none is known. */
+ * (setrlimit, `ulimit -v`, `prlimit --as`), and for the tests only the
+ * variable LOADSTACK_TEST_MEMORY_MB (the fuzz targets' budget).  SIZE_MAX
+ * when none is known. */
 size_t ls_memory_limit_bytes(void);
 
 #endif
